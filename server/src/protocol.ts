@@ -1,0 +1,62 @@
+// Custom requests between the qpoint client and server, beyond standard LSP. Types only.
+
+/** `qpoint/outputCharacteristic`: sweep one mirror output's node voltage and return its current. */
+export const OUTPUT_CHARACTERISTIC_REQUEST = 'qpoint/outputCharacteristic';
+
+export interface OutputCharacteristicParams {
+  uri: string;
+  /** Output device name (hierarchical), e.g. `Q2` or `X1.M3`. */
+  device: string;
+  /** Number of sweep points (default 81). */
+  points?: number;
+}
+
+export interface OutputCharacteristicResult {
+  device: string;
+  structureId: string;
+  /** The output node that was swept. */
+  node: string;
+  /** Output-node voltage (V) against output current magnitude (A). */
+  points: { v: number; i: number }[];
+  /** Output-node voltage at the edge of the active region (saturation / triode edge). */
+  edgeV: number;
+  /** Output-node voltage at the solved operating point. */
+  operatingV: number;
+  /** The output current at each corner at the operating point. */
+  cornerSpread: { label: string; i: number }[];
+}
+
+/** `qpoint/listOutputs`: the mirror outputs of a document, for the client's picker. */
+export const LIST_OUTPUTS_REQUEST = 'qpoint/listOutputs';
+export interface ListOutputsParams { uri: string }
+export interface ListOutputsResult { outputs: { device: string; structureId: string; kind: string; node: string }[] }
+
+/** `qpoint/sizeResistor`: standard-value candidates for a reference resistor and a target current. */
+export const SIZE_RESISTOR_REQUEST = 'qpoint/sizeResistor';
+
+export interface SizeResistorParams {
+  uri: string;
+  /** Resistor name (hierarchical). */
+  resistor: string;
+  /** Target current as typed by the user, engineering notation allowed (`250u`, `1.2mA`). */
+  target: string;
+}
+
+export interface SizeResistorCandidate {
+  /** E.g. "8.2k (E24) → 1.02 mA, +2.1 %". */
+  label: string;
+  /** Replacement value text, engineering notation. */
+  valueText: string;
+  /** Current the value gives (A). */
+  current: number;
+  /** Relative error from the target. */
+  error: number;
+  /** LSP WorkspaceEdit that writes the value. */
+  edit: unknown;
+}
+
+export interface SizeResistorResult {
+  /** The exact resistance that meets the target. */
+  ideal: number;
+  candidates: SizeResistorCandidate[];
+}

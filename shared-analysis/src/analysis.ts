@@ -1,0 +1,133 @@
+// The facade's data types: what a caller passes in and what one analysis returns.
+
+import type { Circuit } from './circuit';
+import type { ParsedDocument } from './syntax/ast';
+import type { OperatingPoint } from './solve/types';
+import type { Structure } from './structures/types';
+import type { Finding, Severity, Span } from './types';
+
+/** IEC 60063 series a resistor fix may pick from. */
+export type ResistorSeries = 'E12' | 'E24' | 'E48' | 'E96' | 'E192';
+
+/** Which corners to re-solve every structure at. */
+export interface CornerOptions {
+  enabled: boolean;
+  /** Relative supply tolerance applied to each rail source, e.g. 0.05 for ±5 %. */
+  supplyTolerance: number;
+  /** Cold and hot temperature, °C. */
+  coldC: number;
+  hotC: number;
+  /** Beta multipliers for the low and high corner. */
+  betaLow: number;
+  betaHigh: number;
+}
+
+/** Per-call analysis settings. Every field is optional; `resolveOptions` fills the defaults. */
+export interface AnalysisOptions {
+  /** Analysis temperature in °C; overrides the netlist's `.temp` when set. */
+  temperatureC?: number;
+  corners?: Partial<CornerOptions>;
+  /** Minimum acceptable headroom above the edge of the active region, volts. */
+  headroomMarginV?: number;
+  resistorSeries?: ResistorSeries;
+  /** Finding code -> severity to use instead of the default, or 'off' to drop it. */
+  severities?: Record<string, Severity | 'off'>;
+  /** Set false to stop after elaboration (no operating point, no structures). */
+  solve?: boolean;
+}
+
+/** AnalysisOptions with every default filled in. */
+export interface ResolvedOptions {
+  temperatureC?: number;
+  corners: CornerOptions;
+  headroomMarginV: number;
+  resistorSeries: ResistorSeries;
+  severities: Record<string, Severity | 'off'>;
+  solve: boolean;
+}
+
+export const DEFAULT_CORNERS: CornerOptions = {
+  enabled: true,
+  supplyTolerance: 0.05,
+  coldC: -40,
+  hotC: 125,
+  betaLow: 0.5,
+  betaHigh: 2,
+};
+
+export function resolveOptions(options: AnalysisOptions = {}): ResolvedOptions {
+  return {
+    temperatureC: options.temperatureC,
+    corners: { ...DEFAULT_CORNERS, ...(options.corners ?? {}) },
+    headroomMarginV: options.headroomMarginV ?? 0.3,
+    resistorSeries: options.resistorSeries ?? 'E24',
+    severities: options.severities ?? {},
+    solve: options.solve ?? true,
+  };
+}
+
+/** A named definition the editor can jump to or describe. */
+export interface SymbolDefinition {
+  /** As written. */
+  name: string;
+  uri: string;
+  /** The whole defining card (or assignment, for a parameter). */
+  span: Span;
+  /** Just the name token. */
+  nameSpan: Span;
+}
+
+export interface ParamSymbol extends SymbolDefinition {
+  /** Evaluated value, when evaluation succeeded. */
+  value?: number;
+  /** The expression text as written. */
+  expression: string;
+  /** '' at top level, else the lower-case subcircuit name it is declared in (`.subckt` defaults included). */
+  scope: string;
+}
+
+export interface ModelSymbol extends SymbolDefinition {
+  kind: string;
+  /** Lower-case key into Circuit.models when the model was accepted. */
+  key?: string;
+}
+
+export interface SubcktSymbol extends SymbolDefinition {
+  ports: string[];
+  /** Parameter defaults, evaluated where possible. */
+  params: Record<string, number | undefined>;
+}
+
+export interface IncludeSymbol {
+  uri: string;
+  /** The path field of the .include/.lib card. */
+  span: Span;
+  /** Resolved target id. */
+  target: string;
+  found: boolean;
+}
+
+/** Everything the editor features need to resolve names. */
+export interface SymbolTable {
+  params: ParamSymbol[];
+  models: ModelSymbol[];
+  subckts: SubcktSymbol[];
+  includes: IncludeSymbol[];
+}
+
+/** The result of one analysis of one top-level netlist. Plain data: JSON-serialisable apart from typed arrays. */
+export interface Analysis {
+  uri: string;
+  version?: number;
+  /** Every document read: the root and each included file, by id. */
+  documents: Record<string, ParsedDocument>;
+  circuit?: Circuit;
+  symbols: SymbolTable;
+  /** Every finding, severities already mapped through the options, sorted by document and offset. */
+  findings: Finding[];
+  operatingPoint?: OperatingPoint;
+  structures: Structure[];
+  options: ResolvedOptions;
+  /** Milliseconds spent per stage. */
+  timings: Record<string, number>;
+}

@@ -1,0 +1,170 @@
+// The elaborated circuit: parameters evaluated, includes read, subcircuits flattened. Solver and recognisers work on this.
+
+import type { Span } from './types';
+
+/** Where an elaborated object came from, so findings can point at the text. */
+export interface Origin {
+  /** The document holding the card (for a flattened device: the subcircuit definition's card). */
+  uri: string;
+  /** The whole card. */
+  span: Span;
+  /** The span of the card's main value field (a resistor's value, a source's DC value), when it has one. */
+  valueSpan?: Span;
+  /** The span of the model-name field, when the card names a model. */
+  modelSpan?: Span;
+  /** Spans of the node fields, in node order. */
+  nodeSpans?: Span[];
+  /** The X instance cards this object was flattened through, outermost first (empty at top level). */
+  instances: { name: string; uri: string; span: Span }[];
+}
+
+/** Device model kinds the engine understands. `r` is a resistor model (accepted, parameters ignored). */
+export type ModelKind = 'npn' | 'pnp' | 'd' | 'nmos' | 'pmos' | 'r';
+
+/** A `.model` after elaboration: every parameter the device equations read is present (defaults filled in). */
+export interface Model {
+  /** As written in the .model card. */
+  name: string;
+  kind: ModelKind;
+  /** Upper-case parameter name -> value; includes defaults. */
+  params: Record<string, number>;
+  /** Upper-case names of the parameters the card actually gave. */
+  given: string[];
+  origin: Origin;
+}
+
+interface ElementBase {
+  /** Hierarchical, as written: `Q1`, `X1.Q2`, `X1.X3.R4`. Unique case-insensitively. */
+  name: string;
+  /** Indices into `Circuit.nodes`; 0 is ground. Order is given per kind below. */
+  nodes: number[];
+  origin: Origin;
+}
+
+/** nodes: [a, b]. */
+export interface Resistor extends ElementBase {
+  kind: 'R';
+  /** Ohms, after dividing by the M= multiplier. */
+  resistance: number;
+}
+
+/** nodes: [a, b]. Open at DC. */
+export interface Capacitor extends ElementBase {
+  kind: 'C';
+  capacitance: number;
+}
+
+/** nodes: [a, b]. A short at DC (solved as a 0 V source, so its current is known). */
+export interface Inductor extends ElementBase {
+  kind: 'L';
+  inductance: number;
+}
+
+/** nodes: [plus, minus]. V(plus) − V(minus) = dc. */
+export interface VoltageSource extends ElementBase {
+  kind: 'V';
+  dc: number;
+}
+
+/** nodes: [plus, minus]. `dc` amperes flow from `plus` through the source to `minus`. */
+export interface CurrentSource extends ElementBase {
+  kind: 'I';
+  dc: number;
+}
+
+/** E: nodes [out+, out−, ctrl+, ctrl−]; V(out) = gain · V(ctrl). */
+export interface Vcvs extends ElementBase {
+  kind: 'E';
+  gain: number;
+}
+
+/** G: nodes [out+, out−, ctrl+, ctrl−]; current gain · V(ctrl) flows from out+ through the element to out−. */
+export interface Vccs extends ElementBase {
+  kind: 'G';
+  gain: number;
+}
+
+/** F: nodes [out+, out−]; current gain · I(control) flows from out+ through the element to out−. */
+export interface Cccs extends ElementBase {
+  kind: 'F';
+  /** Name of the controlling voltage source (hierarchical, as in `elements`). */
+  control: string;
+  gain: number;
+}
+
+/** H: nodes [out+, out−]; V(out) = gain · I(control). */
+export interface Ccvs extends ElementBase {
+  kind: 'H';
+  control: string;
+  gain: number;
+}
+
+/** nodes: [anode, cathode]. */
+export interface Diode extends ElementBase {
+  kind: 'D';
+  model: Model;
+  area: number;
+  /** Parallel count (M=). */
+  m: number;
+}
+
+/** nodes: [collector, base, emitter] (a 4th substrate node, if written, is kept but unused at DC). */
+export interface Bjt extends ElementBase {
+  kind: 'Q';
+  model: Model;
+  /** Area factor: multiplies IS. */
+  area: number;
+  /** Parallel count (M=): multiplies every current. */
+  m: number;
+}
+
+/** nodes: [drain, gate, source, bulk]. */
+export interface Mosfet extends ElementBase {
+  kind: 'M';
+  model: Model;
+  /** Metres. */
+  w: number;
+  l: number;
+  m: number;
+}
+
+export type Element =
+  | Resistor
+  | Capacitor
+  | Inductor
+  | VoltageSource
+  | CurrentSource
+  | Vcvs
+  | Vccs
+  | Cccs
+  | Ccvs
+  | Diode
+  | Bjt
+  | Mosfet;
+
+export type ElementKind = Element['kind'];
+
+/** A flattened circuit ready to solve. */
+export interface Circuit {
+  title: string;
+  /** Node names as written (hierarchical inside subcircuits: `X1.out`); index 0 is ground, named `0`. */
+  nodes: string[];
+  elements: Element[];
+  /** Every model in scope, keyed by lower-case name (top-level models; subcircuit-local ones keyed `x1.name`). */
+  models: Record<string, Model>;
+  /** Analysis temperature in °C from `.temp` (default 27). */
+  temperatureC: number;
+  /** Nominal temperature in °C from `.option tnom` (default 27). */
+  tnomC: number;
+  /** Evaluated `.param` values at top level, lower-case name -> value. */
+  params: Record<string, number>;
+}
+
+/** Default model parameters per kind (DESIGN.md), upper-case names. */
+export const MODEL_DEFAULTS: Record<Exclude<ModelKind, 'r'>, Record<string, number>> = {
+  npn: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
+  pnp: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
+  d: { IS: 1e-14, N: 1, RS: 0, XTI: 3, EG: 1.11 },
+  nmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
+  pmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
+};

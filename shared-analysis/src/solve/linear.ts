@@ -1,0 +1,83 @@
+// The seam between the Newton loop and the linear algebra: a fixed sparsity pattern, refactored many times.
+
+/** The structurally non-zero entries of an n×n matrix, each (row, col) pair listed once. */
+export interface SparsePattern {
+  n: number;
+  rows: Int32Array;
+  cols: Int32Array;
+}
+
+export type FactorResult = { ok: true } | { ok: false; /** Row/column (unknown) index where no usable pivot was found. */ singularIndex: number };
+
+/**
+ * A factorisation bound to one pattern. `factor(values)` takes values aligned with the
+ * pattern's entries; `solve(b)` returns x with A·x = b for the last successful factor.
+ * Symbolic work (ordering, structure) is done once and reused by every `factor`.
+ */
+export interface LinearSolver {
+  factor(values: Float64Array): FactorResult;
+  solve(b: Float64Array, x?: Float64Array): Float64Array;
+}
+
+/** Dense LU with partial pivoting over the same interface: a reference for tests and the fallback for tiny systems. */
+export class DenseLU implements LinearSolver {
+  private readonly a: Float64Array;
+  private readonly perm: Int32Array;
+
+  constructor(private readonly pattern: SparsePattern) {
+    this.a = new Float64Array(pattern.n * pattern.n);
+    this.perm = new Int32Array(pattern.n);
+  }
+
+  factor(values: Float64Array): FactorResult {
+    const { n, rows, cols } = this.pattern;
+    const a = this.a;
+    a.fill(0);
+    for (let k = 0; k < rows.length; k++) a[rows[k] * n + cols[k]] += values[k];
+    for (let i = 0; i < n; i++) this.perm[i] = i;
+    let scale = 0;
+    for (let k = 0; k < a.length; k++) scale = Math.max(scale, Math.abs(a[k]));
+    const tiny = (scale || 1) * 1e-300;
+    for (let k = 0; k < n; k++) {
+      let p = k;
+      let best = Math.abs(a[k * n + k]);
+      for (let i = k + 1; i < n; i++) {
+        const v = Math.abs(a[i * n + k]);
+        if (v > best) { best = v; p = i; }
+      }
+      if (!(best > tiny)) return { ok: false, singularIndex: k };
+      if (p !== k) {
+        for (let j = 0; j < n; j++) { const t = a[k * n + j]; a[k * n + j] = a[p * n + j]; a[p * n + j] = t; }
+        const t = this.perm[k]; this.perm[k] = this.perm[p]; this.perm[p] = t;
+      }
+      const piv = a[k * n + k];
+      for (let i = k + 1; i < n; i++) {
+        const f = (a[i * n + k] /= piv);
+        if (f !== 0) for (let j = k + 1; j < n; j++) a[i * n + j] -= f * a[k * n + j];
+      }
+    }
+    return { ok: true };
+  }
+
+  solve(b: Float64Array, x: Float64Array = new Float64Array(this.pattern.n)): Float64Array {
+    const n = this.pattern.n;
+    const a = this.a;
+    const y = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      let s = b[this.perm[i]];
+      for (let j = 0; j < i; j++) s -= a[i * n + j] * y[j];
+      y[i] = s;
+    }
+    for (let i = n - 1; i >= 0; i--) {
+      let s = y[i];
+      for (let j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
+      x[i] = s / a[i * n + i];
+    }
+    return x;
+  }
+}
+
+/** The solver the engine uses for a pattern. The sparse LU replaces the dense fallback once it lands. */
+export function createLinearSolver(pattern: SparsePattern): LinearSolver {
+  return new DenseLU(pattern);
+}

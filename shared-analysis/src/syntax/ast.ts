@@ -1,0 +1,200 @@
+// The lossless card tree the parser produces: every card and every field keeps its span.
+
+import type { Span } from '../types';
+
+/**
+ * One lexical field of a card, exactly as written. `text` is the source text of the
+ * field (for a braced or quoted expression, including the braces or quotes).
+ */
+export interface Token {
+  text: string;
+  span: Span;
+  /** `word`: a bare word or number; `expr`: `{...}` or `'...'` expression. */
+  kind: 'word' | 'expr';
+}
+
+/** `name=value` inside a card. `span` covers the whole assignment. */
+export interface Assignment {
+  name: Token;
+  value: Token;
+  span: Span;
+}
+
+/** Fields common to every card. `span` covers the card including its `+` continuation lines and end-of-line comment. */
+interface CardBase {
+  span: Span;
+  /** Every token of the card in order, continuation markers and comments excluded. */
+  tokens: Token[];
+}
+
+/** The first line of a top-level netlist. */
+export interface TitleCard extends CardBase {
+  kind: 'title';
+  text: string;
+}
+
+/** A `*` comment line, kept so the tree is lossless and for the target notation in later issues. */
+export interface CommentCard extends CardBase {
+  kind: 'comment';
+  text: string;
+}
+
+/** How an independent source's DC value was written. */
+export interface SourceValue {
+  /** `dc`: `DC 5`; `bare`: `5`; `transient`: the t=0 value of `PULSE(...)`, `SIN(...)`, `PWL(...)`, `EXP(...)`. */
+  form: 'dc' | 'bare' | 'transient';
+  /** The token holding the DC (or t=0) value, when one was given. */
+  value?: Token;
+  /** For `transient`, the function name token (`PULSE`). */
+  function?: Token;
+}
+
+/**
+ * An element card. Which optional fields are set depends on the letter:
+ * - R C L: nodes[2], value (R may also carry `model`); params (e.g. `M=`)
+ * - V I: nodes[2], source
+ * - E G: nodes[4] (out+, out-, ctrl+, ctrl-), value (gain)
+ * - F H: nodes[2], control (the controlling V source's name), value (gain)
+ * - D: nodes[2] (anode, cathode), model, area?
+ * - Q: nodes[3] or [4] (collector, base, emitter, substrate?), model, area?
+ * - M: nodes[4] (drain, gate, source, bulk), model, params W= L= M= ...
+ * - X: nodes[n], subckt, params (instance parameter overrides)
+ */
+export interface ElementCard extends CardBase {
+  kind: 'element';
+  /** Upper-case first letter of the name. */
+  letter: 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'X';
+  name: Token;
+  nodes: Token[];
+  value?: Token;
+  model?: Token;
+  area?: Token;
+  control?: Token;
+  subckt?: Token;
+  source?: SourceValue;
+  params: Assignment[];
+}
+
+/** `.model NAME TYPE (P=V ...)`, with or without parentheses, across continuation lines. */
+export interface ModelCard extends CardBase {
+  kind: 'model';
+  name: Token;
+  type: Token;
+  params: Assignment[];
+}
+
+/** `.param a=1 b={a*2}`. */
+export interface ParamCard extends CardBase {
+  kind: 'param';
+  params: Assignment[];
+}
+
+/** `.subckt NAME port... [PARAMS:] [p=default ...]`. */
+export interface SubcktCard extends CardBase {
+  kind: 'subckt';
+  name: Token;
+  ports: Token[];
+  params: Assignment[];
+}
+
+/** `.ends [NAME]`. */
+export interface EndsCard extends CardBase {
+  kind: 'ends';
+  name?: Token;
+}
+
+/** `.include "path"` (quotes optional). */
+export interface IncludeCard extends CardBase {
+  kind: 'include';
+  path?: Token;
+}
+
+/** `.lib "path" SECTION` (use a section of a library file) or `.lib SECTION` (start of a section inside a library). */
+export interface LibCard extends CardBase {
+  kind: 'lib';
+  path?: Token;
+  section?: Token;
+}
+
+/** `.endl [SECTION]`. */
+export interface EndlCard extends CardBase {
+  kind: 'endl';
+  section?: Token;
+}
+
+/** `.temp 27 [85 ...]`: the first value is the analysis temperature in °C. */
+export interface TempCard extends CardBase {
+  kind: 'temp';
+  values: Token[];
+}
+
+/** `.option[s] tnom=27 ...`; bare flags appear in `flags`. */
+export interface OptionCard extends CardBase {
+  kind: 'option';
+  params: Assignment[];
+  flags: Token[];
+}
+
+/** `.op`. */
+export interface OpCard extends CardBase {
+  kind: 'op';
+}
+
+/** `.end`: nothing after it is read. */
+export interface EndCard extends CardBase {
+  kind: 'end';
+}
+
+/** A dot card the engine does not interpret (e.g. `.tran`): kept, reported as info, ignored. */
+export interface OtherDotCard extends CardBase {
+  kind: 'other-dot';
+  command: Token;
+}
+
+/** A card the parser could not read. `message` says what was expected. */
+export interface ErrorCard extends CardBase {
+  kind: 'error';
+  message: string;
+  /** The part of the card the message is about. */
+  errorSpan: Span;
+}
+
+export type Card =
+  | TitleCard
+  | CommentCard
+  | ElementCard
+  | ModelCard
+  | ParamCard
+  | SubcktCard
+  | EndsCard
+  | IncludeCard
+  | LibCard
+  | EndlCard
+  | TempCard
+  | OptionCard
+  | OpCard
+  | EndCard
+  | OtherDotCard
+  | ErrorCard;
+
+/** A syntax problem found while reading a card that could still be read (e.g. a stray `=`). */
+export interface SyntaxError {
+  message: string;
+  span: Span;
+  code: string;
+}
+
+/** The parse of one document. */
+export interface ParsedDocument {
+  uri: string;
+  text: string;
+  cards: Card[];
+  /** Error cards' messages plus problems inside otherwise readable cards. */
+  errors: SyntaxError[];
+}
+
+/** Options for parsing one document. */
+export interface ParseOptions {
+  /** True for a top-level netlist: its first line is the title. False for included files. */
+  hasTitle: boolean;
+}

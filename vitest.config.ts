@@ -1,0 +1,11 @@
+// Test runner configuration: every layer but the real-editor test runs under `npm test`.
+import { defineConfig } from 'vitest/config';
+
+export default defineConfig({
+  test: {
+    include: ['test/**/*.test.ts'],
+    exclude: ['test/editor/**', 'node_modules/**'],
+    testTimeout: 30000,
+    pool: 'threads',
+  },
+});
