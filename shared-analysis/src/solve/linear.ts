@@ -1,5 +1,7 @@
 // The seam between the Newton loop and the linear algebra: a fixed sparsity pattern, refactored many times.
 
+import { SparseLU } from './sparse-lu';
+
 /** The structurally non-zero entries of an n×n matrix, each (row, col) pair listed once. */
 export interface SparsePattern {
   n: number;
@@ -77,7 +79,7 @@ export class DenseLU implements LinearSolver {
   }
 }
 
-/** The solver the engine uses for a pattern. The sparse LU replaces the dense fallback once it lands. */
+/** The solver the engine uses for a pattern: the sparse LU (sparse-lu.ts) with its default tuning. */
 export function createLinearSolver(pattern: SparsePattern): LinearSolver {
-  return new DenseLU(pattern);
+  return new SparseLU(pattern);
 }

@@ -1,0 +1,497 @@
+// Sparse LU for MNA matrices: left-looking Gilbert–Peierls with threshold pivoting, then numeric-only refactorisation.
+
+import type { FactorResult, LinearSolver, SparsePattern } from './linear';
+import { approximateMinimumDegree, symmetricPattern } from './ordering';
+
+/** Tuning of {@link SparseLU}; every field has a default that suits MNA matrices. */
+export interface SparseLUOptions {
+  /**
+   * Threshold partial pivoting: the diagonal entry is kept as pivot while its magnitude
+   * is at least this fraction of the largest candidate in its column (default 1e-3).
+   */
+  pivotThreshold?: number;
+  /**
+   * A refactorisation keeps the recorded pivot order while each pivot is at least this
+   * fraction of the largest entry below it; otherwise it falls back to a fresh pivoting
+   * factorisation (default 1e-6).
+   */
+  refactorThreshold?: number;
+  /**
+   * A column whose best pivot is at most this fraction of the magnitudes that went into
+   * it is taken as numerically singular (default 1e-14, about 45 units of rounding).
+   */
+  singularTolerance?: number;
+  /** Column ordering: `minimum-degree` (default) or `natural` (the pattern's own order, for tests). */
+  ordering?: 'minimum-degree' | 'natural';
+}
+
+/** Why a factorisation failed, beyond the index of the unknown. */
+export type FactorFailure = 'structurally-singular' | 'numerically-singular' | 'non-finite-value' | 'invalid-pattern';
+
+/** Counters a caller or benchmark can read after factorising. */
+export interface SparseLUStats {
+  /** Factorisations that chose pivots and built the L/U patterns. */
+  pivotingFactorizations: number;
+  /** Factorisations that reused the recorded pivots and patterns. */
+  refactorizations: number;
+  /** Refactorisations abandoned because a pivot became too small, each followed by a pivoting one. */
+  pivotFallbacks: number;
+  /** Entries of L (below the diagonal) and U (above it), plus n diagonal entries. */
+  factorNonzeros: number;
+  /** Entries of the matrix pattern. */
+  matrixNonzeros: number;
+}
+
+/** Growable typed-array pair used while the L/U patterns are discovered. */
+class Growable {
+  idx: Int32Array;
+  val: Float64Array;
+  length = 0;
+  constructor(capacity: number) {
+    this.idx = new Int32Array(Math.max(16, capacity));
+    this.val = new Float64Array(Math.max(16, capacity));
+  }
+  push(i: number, v: number): void {
+    if (this.length === this.idx.length) {
+      const cap = this.idx.length * 2;
+      const idx = new Int32Array(cap);
+      idx.set(this.idx);
+      const val = new Float64Array(cap);
+      val.set(this.val);
+      this.idx = idx;
+      this.val = val;
+    }
+    this.idx[this.length] = i;
+    this.val[this.length] = v;
+    this.length++;
+  }
+}
+
+/**
+ * A sparse LU bound to one pattern (T. A. Davis, "Direct Methods for Sparse Linear
+ * Systems", SIAM 2006, ch. 6: left-looking LU with a sparse triangular solve per column;
+ * J. R. Gilbert and T. Peierls, SIAM J. Sci. Stat. Comput. 9(5), 1988).
+ *
+ * Construction orders the columns by approximate minimum degree on A + Aᵀ. The first
+ * `factor` chooses row pivots by threshold partial pivoting, preferring the diagonal, and
+ * records the pivot order and the patterns of L and U. Later calls recompute only the
+ * numbers on those patterns, without allocating, and fall back to a fresh pivoting
+ * factorisation when a pivot has become too small against its column.
+ *
+ * P·A·Q = L·U with Q the column order and P the row pivots; L has a unit diagonal.
+ * A failed factorisation never throws: it names the original unknown index.
+ */
+export class SparseLU implements LinearSolver {
+  readonly n: number;
+  private readonly pivotThreshold: number;
+  private readonly refactorThreshold: number;
+  private readonly singularTolerance: number;
+  private readonly invalidIndex: number;
+
+  // A in compressed columns (original indices) and the slot of each pattern entry.
+  private readonly aStart: Int32Array;
+  private readonly aRow: Int32Array;
+  private readonly aVal: Float64Array;
+  private readonly slot: Int32Array;
+  private readonly patternRow: Int32Array;
+  /** Column order: q[k] is the original column factorised k-th. */
+  private readonly q: Int32Array;
+  /** A row or column with no entries at all (-1 when there is none). */
+  private readonly emptyIndex: number;
+
+  // Factors: L below the diagonal (rows in pivot positions), U above it, U's diagonal apart.
+  private lStart: Int32Array;
+  private lRow: Int32Array = new Int32Array(0);
+  private lVal: Float64Array = new Float64Array(0);
+  private uStart: Int32Array;
+  private uRow: Int32Array = new Int32Array(0);
+  private uVal: Float64Array = new Float64Array(0);
+  private readonly uDiag: Float64Array;
+  /** pinv[originalRow] = pivot position; rowOf[position] = original row. */
+  private readonly pinv: Int32Array;
+  private readonly rowOf: Int32Array;
+
+  // Work space, allocated once.
+  private readonly work: Float64Array;
+  private readonly stack: Int32Array;
+  private readonly resume: Int32Array;
+  private readonly reach: Int32Array;
+  private readonly visited: Int32Array;
+  private visitStamp = 0;
+
+  private haveSymbolic = false;
+  private valid = false;
+  private lastFailure: FactorFailure | undefined;
+  private readonly counters = { pivoting: 0, refactor: 0, fallbacks: 0 };
+
+  constructor(pattern: SparsePattern, options: SparseLUOptions = {}) {
+    const n = Number.isInteger(pattern.n) && pattern.n > 0 ? pattern.n : 0;
+    this.n = n;
+    this.pivotThreshold = clampFraction(options.pivotThreshold, 1e-3);
+    this.refactorThreshold = clampFraction(options.refactorThreshold, 1e-6);
+    this.singularTolerance = clampFraction(options.singularTolerance, 1e-14);
+    const m = Math.min(pattern.rows.length, pattern.cols.length);
+    let invalid = -1;
+    if (!(Number.isInteger(pattern.n) && pattern.n >= 0) || pattern.rows.length !== pattern.cols.length) invalid = 0;
+    for (let k = 0; k < m && invalid < 0; k++) {
+      const i = pattern.rows[k];
+      const j = pattern.cols[k];
+      if (!(i >= 0 && i < n && j >= 0 && j < n)) invalid = i >= 0 && i < n ? i : j >= 0 && j < n ? j : 0;
+    }
+    this.invalidIndex = invalid;
+    this.patternRow = pattern.rows;
+
+    // Compressed columns; duplicate (row, col) entries share one slot and are summed.
+    const count = new Int32Array(n + 1);
+    if (invalid < 0) for (let k = 0; k < m; k++) count[pattern.cols[k] + 1]++;
+    for (let j = 0; j < n; j++) count[j + 1] += count[j];
+    const fill = count.slice(0, n);
+    const rowTmp = new Int32Array(invalid < 0 ? m : 0);
+    const slotTmp = new Int32Array(invalid < 0 ? m : 0);
+    if (invalid < 0) {
+      for (let k = 0; k < m; k++) {
+        const p = fill[pattern.cols[k]]++;
+        rowTmp[p] = pattern.rows[k];
+        slotTmp[k] = p;
+      }
+    }
+    const firstAt = new Int32Array(n).fill(-1);
+    const remap = new Int32Array(rowTmp.length);
+    const aStart = new Int32Array(n + 1);
+    let out = 0;
+    for (let j = 0; j < n; j++) {
+      aStart[j] = out;
+      for (let p = count[j]; p < count[j + 1]; p++) {
+        const i = rowTmp[p];
+        if (firstAt[i] >= aStart[j]) {
+          remap[p] = firstAt[i];
+          continue;
+        }
+        firstAt[i] = out;
+        remap[p] = out;
+        rowTmp[out++] = i;
+      }
+    }
+    aStart[n] = out;
+    for (let k = 0; k < slotTmp.length; k++) slotTmp[k] = remap[slotTmp[k]];
+    this.aStart = aStart;
+    this.aRow = rowTmp.slice(0, out);
+    this.aVal = new Float64Array(out);
+    this.slot = slotTmp;
+
+    let empty = -1;
+    const rowUsed = new Uint8Array(n);
+    for (let p = 0; p < out; p++) rowUsed[this.aRow[p]] = 1;
+    for (let j = 0; j < n && empty < 0; j++) if (aStart[j + 1] === aStart[j] || !rowUsed[j]) empty = j;
+    this.emptyIndex = empty;
+
+    if (options.ordering === 'natural' || n === 0) {
+      this.q = new Int32Array(n);
+      for (let j = 0; j < n; j++) this.q[j] = j;
+    } else {
+      this.q = approximateMinimumDegree(symmetricPattern(n, this.aRowsOfEntries(), this.aColsOfEntries()));
+    }
+
+    this.lStart = new Int32Array(n + 1);
+    this.uStart = new Int32Array(n + 1);
+    this.uDiag = new Float64Array(n);
+    this.pinv = new Int32Array(n).fill(-1);
+    this.rowOf = new Int32Array(n);
+    this.work = new Float64Array(n);
+    this.stack = new Int32Array(n);
+    this.resume = new Int32Array(n);
+    this.reach = new Int32Array(n);
+    this.visited = new Int32Array(n);
+  }
+
+  /** Row indices of the compressed entries, for the ordering. */
+  private aRowsOfEntries(): Int32Array {
+    return this.aRow;
+  }
+
+  /** Column indices of the compressed entries, for the ordering. */
+  private aColsOfEntries(): Int32Array {
+    const cols = new Int32Array(this.aRow.length);
+    for (let j = 0; j < this.n; j++) for (let p = this.aStart[j]; p < this.aStart[j + 1]; p++) cols[p] = j;
+    return cols;
+  }
+
+  /** The column order chosen at construction (q[k] = original column factorised k-th). */
+  get columnOrder(): Int32Array {
+    return this.q.slice();
+  }
+
+  /** Why the last factorisation failed, or undefined after a success. */
+  get failure(): FactorFailure | undefined {
+    return this.lastFailure;
+  }
+
+  /** Counters since construction. */
+  get stats(): SparseLUStats {
+    return {
+      pivotingFactorizations: this.counters.pivoting,
+      refactorizations: this.counters.refactor,
+      pivotFallbacks: this.counters.fallbacks,
+      factorNonzeros: this.haveSymbolic ? this.lStart[this.n] + this.uStart[this.n] + this.n : 0,
+      matrixNonzeros: this.aRow.length,
+    };
+  }
+
+  /**
+   * Factorises A given its values aligned with the pattern's entries. Reuses the recorded
+   * pivots and patterns when they are still numerically sound.
+   */
+  factor(values: Float64Array): FactorResult {
+    this.valid = false;
+    if (this.invalidIndex >= 0) return this.fail('invalid-pattern', this.invalidIndex);
+    const n = this.n;
+    const aVal = this.aVal;
+    aVal.fill(0);
+    const slot = this.slot;
+    const m = slot.length;
+    if (values.length < m) return this.fail('non-finite-value', m > 0 ? this.patternRow[Math.min(values.length, m - 1)] : 0);
+    for (let k = 0; k < m; k++) {
+      const v = values[k];
+      if (v - v !== 0) return this.fail('non-finite-value', this.patternRow[k]);
+      aVal[slot[k]] += v;
+    }
+    if (n === 0) {
+      this.valid = true;
+      this.lastFailure = undefined;
+      return { ok: true };
+    }
+    if (this.emptyIndex >= 0) return this.fail('structurally-singular', this.emptyIndex);
+    if (this.haveSymbolic) {
+      if (this.refactor()) {
+        this.counters.refactor++;
+        this.valid = true;
+        this.lastFailure = undefined;
+        return { ok: true };
+      }
+      this.counters.fallbacks++;
+    }
+    const r = this.pivotingFactor();
+    if (r.ok) {
+      this.counters.pivoting++;
+      this.valid = true;
+      this.lastFailure = undefined;
+    }
+    return r;
+  }
+
+  /**
+   * Solves A·x = b with the last successful factorisation. Allocates nothing when `x`
+   * is given (it may be `b` itself). After a failed `factor`, returns zeros.
+   */
+  solve(b: Float64Array, x: Float64Array = new Float64Array(this.n)): Float64Array {
+    const n = this.n;
+    if (!this.valid) {
+      x.fill(0);
+      return x;
+    }
+    const y = this.work;
+    const rowOf = this.rowOf;
+    for (let k = 0; k < n; k++) y[k] = b[rowOf[k]] ?? 0;
+    const lStart = this.lStart;
+    const lRow = this.lRow;
+    const lVal = this.lVal;
+    for (let k = 0; k < n; k++) {
+      const yk = y[k];
+      if (yk === 0) continue;
+      for (let p = lStart[k], end = lStart[k + 1]; p < end; p++) y[lRow[p]] -= lVal[p] * yk;
+    }
+    const uStart = this.uStart;
+    const uRow = this.uRow;
+    const uVal = this.uVal;
+    const uDiag = this.uDiag;
+    for (let k = n - 1; k >= 0; k--) {
+      const yk = (y[k] /= uDiag[k]);
+      if (yk === 0) continue;
+      for (let p = uStart[k], end = uStart[k + 1]; p < end; p++) y[uRow[p]] -= uVal[p] * yk;
+    }
+    const q = this.q;
+    for (let k = 0; k < n; k++) x[q[k]] = y[k];
+    y.fill(0);
+    return x;
+  }
+
+  private fail(reason: FactorFailure, index: number): FactorResult {
+    this.valid = false;
+    this.lastFailure = reason;
+    return { ok: false, singularIndex: index };
+  }
+
+  /** Numeric refactorisation on the recorded pivots and patterns; false asks for a pivoting one. */
+  private refactor(): boolean {
+    const n = this.n;
+    const { aStart, aRow, aVal, q, pinv, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const x = this.work;
+    const tol = this.refactorThreshold;
+    const sing = this.singularTolerance;
+    for (let k = 0; k < n; k++) {
+      const j = q[k];
+      let scale = 0;
+      for (let p = aStart[j]; p < aStart[j + 1]; p++) {
+        const v = aVal[p];
+        x[pinv[aRow[p]]] = v;
+        const a = v < 0 ? -v : v;
+        if (a > scale) scale = a;
+      }
+      // U entries are stored in an order where each row's value is final before it is used.
+      for (let p = uStart[k]; p < uStart[k + 1]; p++) {
+        const r = uRow[p];
+        const xr = x[r];
+        x[r] = 0;
+        uVal[p] = xr;
+        if (xr === 0) continue;
+        const a = xr < 0 ? -xr : xr;
+        if (a > scale) scale = a;
+        for (let t = lStart[r]; t < lStart[r + 1]; t++) x[lRow[t]] -= lVal[t] * xr;
+      }
+      const piv = x[k];
+      x[k] = 0;
+      let amax = 0;
+      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+        const v = x[lRow[t]];
+        const a = v < 0 ? -v : v;
+        if (a > amax) amax = a;
+      }
+      const ap = piv < 0 ? -piv : piv;
+      if (ap > scale) scale = ap;
+      if (!(ap > sing * scale) || ap < tol * amax) {
+        for (let t = lStart[k]; t < lStart[k + 1]; t++) x[lRow[t]] = 0;
+        return false;
+      }
+      uDiag[k] = piv;
+      const inv = 1 / piv;
+      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+        const r = lRow[t];
+        lVal[t] = x[r] * inv;
+        x[r] = 0;
+      }
+    }
+    return true;
+  }
+
+  /** The first (or a fallback) factorisation: chooses pivots and discovers the L/U patterns. */
+  private pivotingFactor(): FactorResult {
+    const n = this.n;
+    const { aStart, aRow, aVal, q, pinv, rowOf, stack, resume, reach, visited, uDiag } = this;
+    const x = this.work; // indexed by ORIGINAL row while the patterns are discovered
+    const thr = this.pivotThreshold;
+    const sing = this.singularTolerance;
+    const guess = 2 * aRow.length + n;
+    const L = new Growable(guess);
+    const U = new Growable(guess);
+    const lStart = new Int32Array(n + 1);
+    const uStart = new Int32Array(n + 1);
+    pinv.fill(-1);
+    this.haveSymbolic = false;
+
+    for (let k = 0; k < n; k++) {
+      lStart[k] = L.length;
+      uStart[k] = U.length;
+      const j = q[k];
+      // Reach of column j in the graph of L (Davis §3.2): iterative depth-first search.
+      const mark = ++this.visitStamp;
+      let top = n;
+      for (let p = aStart[j]; p < aStart[j + 1]; p++) {
+        const startRow = aRow[p];
+        if (visited[startRow] === mark) continue;
+        let head = 0;
+        stack[0] = startRow;
+        while (head >= 0) {
+          const v = stack[head];
+          const col = pinv[v];
+          if (visited[v] !== mark) {
+            visited[v] = mark;
+            resume[head] = col < 0 ? 0 : lStart[col];
+          }
+          const end = col < 0 ? 0 : lStart[col + 1];
+          let descended = false;
+          for (let t = resume[head]; t < end; t++) {
+            const w = L.idx[t];
+            if (visited[w] === mark) continue;
+            resume[head] = t + 1;
+            stack[++head] = w;
+            descended = true;
+            break;
+          }
+          if (!descended) {
+            head--;
+            reach[--top] = v;
+          }
+        }
+      }
+      // Numeric sparse triangular solve x = L \ A(:, j) over the reach, in topological order.
+      let scale = 0;
+      for (let p = aStart[j]; p < aStart[j + 1]; p++) {
+        const v = aVal[p];
+        x[aRow[p]] = v;
+        const a = v < 0 ? -v : v;
+        if (a > scale) scale = a;
+      }
+      let ipiv = -1;
+      let amax = -1;
+      for (let t = top; t < n; t++) {
+        const i = reach[t];
+        const col = pinv[i];
+        if (col < 0) continue;
+        const xi = x[i];
+        if (xi === 0) continue;
+        for (let s = lStart[col]; s < lStart[col + 1]; s++) x[L.idx[s]] -= L.val[s] * xi;
+      }
+      for (let t = top; t < n; t++) {
+        const i = reach[t];
+        const col = pinv[i];
+        const v = x[i];
+        const a = v < 0 ? -v : v;
+        if (col >= 0) {
+          U.push(col, v);
+          if (a > scale) scale = a;
+        } else if (a > amax) {
+          amax = a;
+          ipiv = i;
+        }
+      }
+      if (ipiv < 0 || !(amax > sing * scale) || amax === 0) {
+        for (let t = top; t < n; t++) x[reach[t]] = 0;
+        this.lStart = lStart;
+        this.uStart = uStart;
+        return this.fail(ipiv < 0 ? 'structurally-singular' : 'numerically-singular', j);
+      }
+      // Prefer the diagonal (original row j) when it is large enough.
+      if (pinv[j] < 0 && visited[j] === mark) {
+        const d = x[j];
+        if ((d < 0 ? -d : d) >= thr * amax) ipiv = j;
+      }
+      const piv = x[ipiv];
+      uDiag[k] = piv;
+      pinv[ipiv] = k;
+      rowOf[k] = ipiv;
+      const inv = 1 / piv;
+      for (let t = top; t < n; t++) {
+        const i = reach[t];
+        if (pinv[i] < 0) L.push(i, x[i] * inv);
+        x[i] = 0;
+      }
+    }
+    lStart[n] = L.length;
+    uStart[n] = U.length;
+    // L's rows become pivot positions now that every row has one.
+    const lRow = L.idx.slice(0, L.length);
+    for (let p = 0; p < lRow.length; p++) lRow[p] = pinv[lRow[p]];
+    this.lStart = lStart;
+    this.lRow = lRow;
+    this.lVal = L.val.slice(0, L.length);
+    this.uStart = uStart;
+    this.uRow = U.idx.slice(0, U.length);
+    this.uVal = U.val.slice(0, U.length);
+    this.haveSymbolic = true;
+    return { ok: true };
+  }
+}
+
+function clampFraction(v: number | undefined, fallback: number): number {
+  return v !== undefined && v >= 0 && v <= 1 ? v : fallback;
+}
