@@ -182,6 +182,8 @@ export interface SyntaxError {
   message: string;
   span: Span;
   code: string;
+  /** How serious the problem is; absent means `error`. Hints mark readings that may surprise (a title that looks like a card). */
+  severity?: 'error' | 'warning' | 'info' | 'hint';
 }
 
 /** The parse of one document. */

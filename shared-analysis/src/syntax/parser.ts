@@ -1,0 +1,1051 @@
+// Hand-written, linear-time scanner and parser for the netlist dialect: text in, lossless cards with spans and located errors out.
+
+/*
+ * Codes reported in `ParsedDocument.errors` (stable; severity in brackets):
+ *
+ *   title-looks-like-card        [hint]    The first line is read as the title, but it reads like an element or dot card.
+ *   continuation-without-card    [error]   A `+` line with no element or dot card before it to continue.
+ *   unrecognised-card            [error]   A line that starts with neither an element letter, a dot command, `*` nor `+`.
+ *   unknown-element-letter       [error]   An element whose first letter is not one of R C L V I E F G H D Q M X.
+ *   element-missing-fields       [error]   An element card with fewer fields than its letter needs.
+ *   missing-model-name           [error]   A D, Q or M card whose fields hold no model name where one is needed.
+ *   unsupported-source-form      [error]   A source form qpoint does not read (POLY, VALUE=, TABLE, unknown functions, PWL from a file).
+ *   source-missing-value         [error]   `DC` with no value after it, or a transient function with no t=0 argument.
+ *   unexpected-field             [warning] A field beyond those the card uses; it is ignored.
+ *   ignored-keyword              [hint]    An initial-condition keyword (`OFF`) that a DC bias analysis does not use.
+ *   unbalanced-brace             [error]   A `{` with no matching `}` on its line, or a stray `}`.
+ *   unterminated-quote           [error]   A `'` or `"` with no closing quote on its line.
+ *   unbalanced-parenthesis       [warning] A `(` with no matching `)` in the card, or a stray `)`.
+ *   assignment-missing-value     [error]   `name=` with nothing after the `=`.
+ *   assignment-missing-name      [error]   `=value` with no name before the `=`.
+ *   model-missing-fields         [error]   `.model` without a model name and a device type.
+ *   subckt-missing-name          [error]   `.subckt` without a subcircuit name.
+ *   subckt-missing-ends          [error]   A `.subckt` that no `.ends` closes before the end of the file (or `.end`).
+ *   ends-without-subckt          [error]   `.ends` with no open `.subckt`.
+ *   ends-name-mismatch           [warning] `.ends NAME` where NAME is not the subcircuit being closed.
+ *   param-missing-assignment     [error]   A `.param` field without `=value`, or a `.param` card with no assignments.
+ *   include-missing-path         [error]   `.include` without a file path.
+ *   lib-missing-fields           [error]   `.lib` without a path or section name.
+ *   temp-missing-value           [error]   `.temp` without a temperature.
+ *   text-after-end               [hint]    Non-blank text after `.end`; it is not read.
+ *
+ * Every ErrorCard's message is also in `errors`, with its code and the ErrorCard's errorSpan.
+ */
+
+import type {
+  Assignment,
+  Card,
+  ElementCard,
+  ErrorCard,
+  ParsedDocument,
+  ParseOptions,
+  SourceValue,
+  SubcktCard,
+  SyntaxError,
+  Token,
+} from './ast';
+import type { Span } from '../types';
+
+type ErrorSeverity = NonNullable<SyntaxError['severity']>;
+
+/** The element letters qpoint reads, in the order messages list them. */
+const ELEMENT_LETTERS = 'RCLVIEFGHDQMX';
+const ELEMENT_LETTER_LIST = 'R, C, L, V, I, E, F, G, H, D, Q, M or X';
+
+/** Transient source functions whose t=0 value is read; the value is this argument of the function. */
+const TRANSIENT_VALUE_ARGUMENT: Record<string, number> = { PULSE: 0, SIN: 0, EXP: 0, PWL: 1 };
+
+/** Source and controlled-source forms that are recognised but not supported. */
+const UNSUPPORTED_SOURCE_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ', 'SFFM', 'AM', 'NOISE']);
+
+const DOT_COMMANDS = new Set([
+  '.model', '.param', '.subckt', '.ends', '.include', '.inc', '.lib', '.endl', '.temp', '.option', '.options', '.op', '.end',
+]);
+
+/** One lexical unit of a card: a word, an expression, or the punctuation `=`, `(`, `)`. */
+interface Lexeme {
+  type: 'word' | 'expr' | 'eq' | 'lp' | 'rp';
+  start: number;
+  end: number;
+}
+
+/** A field of a card after `name=value` pairs are joined. */
+type Item =
+  | { k: 'pos'; tok: Token }
+  | { k: 'asg'; asg: Assignment }
+  | { k: 'lp'; span: Span }
+  | { k: 'rp'; span: Span };
+
+/** A piece of one physical line that belongs to a card: `[start, end)` holds fields, `lineEnd` is where the line's text stops. */
+interface Segment {
+  start: number;
+  lineEnd: number;
+  /** For a continuation line, the offset of its `+`. */
+  plus?: number;
+}
+
+/** Mutable state shared by the cards of one document. */
+interface Context {
+  text: string;
+  errors: SyntaxError[];
+  /** Open `.subckt` cards, innermost last. */
+  subckts: SubcktCard[];
+}
+
+/**
+ * Reads a netlist into lossless cards with UTF-16 spans. Never throws: unreadable cards
+ * become ErrorCards, other problems are collected in `errors`, and reading resumes at the next card.
+ */
+export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
+  const ctx: Context = { text, errors: [], subckts: [] };
+  const cards: Card[] = [];
+  let group: Segment[] | null = null;
+  let pendingComments: Card[] = [];
+  let ended = false;
+
+  const flush = (): void => {
+    if (group) {
+      cards.push(parseGroup(ctx, group));
+      group = null;
+    }
+    if (pendingComments.length > 0) {
+      for (const c of pendingComments) cards.push(c);
+      pendingComments = [];
+    }
+  };
+
+  let pos = 0;
+  let lineNo = 0;
+  const n = text.length;
+  while (pos <= n && !ended) {
+    // Find the end of this physical line (\n, \r\n or lone \r).
+    let end = pos;
+    while (end < n) {
+      const c = text.charCodeAt(end);
+      if (c === 10 || c === 13) break;
+      end++;
+    }
+    let next = end;
+    if (end < n) next = text.charCodeAt(end) === 13 && text.charCodeAt(end + 1) === 10 ? end + 2 : end + 1;
+    else next = n + 1;
+
+    if (lineNo === 0 && options.hasTitle) {
+      cards.push(titleCard(ctx, pos, end));
+    } else {
+      const first = skipSpace(text, pos, end);
+      if (first < end) {
+        const c = text.charCodeAt(first);
+        if (c === 42 /* * */ || c === 59 /* ; */ || (c === 36 /* $ */ && isCommentDollar(text, first, end))) {
+          const comment = commentCard(text, first, end);
+          if (group) pendingComments.push(comment);
+          else cards.push(comment);
+        } else if (c === 43 /* + */) {
+          const seg: Segment = { start: first + 1, lineEnd: end, plus: first };
+          if (group) group.push(seg);
+          else {
+            flush();
+            group = [seg];
+          }
+        } else {
+          flush();
+          if (isEndCommand(text, first, end)) {
+            cards.push(parseGroup(ctx, [{ start: first, lineEnd: end }]));
+            ended = true;
+            reportTextAfterEnd(ctx, next);
+          } else {
+            group = [{ start: first, lineEnd: end }];
+          }
+        }
+      }
+    }
+    pos = next;
+    lineNo++;
+  }
+  flush();
+
+  for (const open of ctx.subckts) {
+    const name = open.name.text;
+    addError(
+      ctx,
+      'subckt-missing-ends',
+      `Subcircuit '${name}' is never closed: add '.ends ${name}' after its last card.`,
+      open.span,
+      'error',
+    );
+  }
+  return { uri, text, cards, errors: ctx.errors };
+}
+
+/** True when `c` is a blank character other than a line break (a BOM counts as blank). */
+function isSpace(c: number): boolean {
+  return c === 32 || c === 9 || c === 11 || c === 12 || c === 0xa0 || c === 0xfeff;
+}
+
+function skipSpace(text: string, i: number, end: number): number {
+  while (i < end && isSpace(text.charCodeAt(i))) i++;
+  return i;
+}
+
+/** `$` starts a comment only when followed by a space, a tab or the end of the line. */
+function isCommentDollar(text: string, i: number, end: number): boolean {
+  if (i + 1 >= end) return true;
+  const c = text.charCodeAt(i + 1);
+  return c === 32 || c === 9;
+}
+
+function isEndCommand(text: string, first: number, end: number): boolean {
+  if (first + 4 > end) return false;
+  if (text.slice(first, first + 4).toLowerCase() !== '.end') return false;
+  if (first + 4 === end) return true;
+  const c = text.charCodeAt(first + 4);
+  return isSpace(c) || c === 59 || c === 44 || (c === 36 && isCommentDollar(text, first + 4, end));
+}
+
+function addError(ctx: Context, code: string, message: string, span: Span, severity: ErrorSeverity): void {
+  ctx.errors.push({ code, message, span: { start: span.start, end: span.end }, severity });
+}
+
+function reportTextAfterEnd(ctx: Context, from: number): void {
+  const { text } = ctx;
+  const start = skipBlank(text, Math.min(from, text.length));
+  if (start >= text.length) return;
+  let end = text.length;
+  while (end > start && isBlankOrBreak(text.charCodeAt(end - 1))) end--;
+  addError(ctx, 'text-after-end', 'Text after .end is not read; move it above .end or delete it.', { start, end }, 'hint');
+}
+
+function isBlankOrBreak(c: number): boolean {
+  return isSpace(c) || c === 10 || c === 13;
+}
+
+function skipBlank(text: string, i: number): number {
+  while (i < text.length && isBlankOrBreak(text.charCodeAt(i))) i++;
+  return i;
+}
+
+function commentCard(text: string, first: number, end: number): Card {
+  // The comment text drops its marker (`*`, `;` or `$`) and surrounding blanks.
+  const bodyStart = skipSpace(text, first + 1, end);
+  let bodyEnd = end;
+  while (bodyEnd > bodyStart && isSpace(text.charCodeAt(bodyEnd - 1))) bodyEnd--;
+  return { kind: 'comment', span: { start: first, end }, tokens: [], text: text.slice(bodyStart, bodyEnd) };
+}
+
+function titleCard(ctx: Context, start: number, end: number): Card {
+  const { text } = ctx;
+  let bodyStart = skipSpace(text, start, end);
+  let bodyEnd = end;
+  while (bodyEnd > bodyStart && isSpace(text.charCodeAt(bodyEnd - 1))) bodyEnd--;
+  const title = text.slice(bodyStart, bodyEnd);
+  if (bodyStart < bodyEnd && titleLooksLikeCard(text, bodyStart, end)) {
+    addError(
+      ctx,
+      'title-looks-like-card',
+      `The first line is read as the netlist's title, so '${shorten(title)}' is not read as a card; put a title line above it if it is meant as a card.`,
+      { start: bodyStart, end: bodyEnd },
+      'hint',
+    );
+  }
+  return { kind: 'title', span: { start, end }, tokens: [], text: title };
+}
+
+/** A title reads like a card when it is a known dot card, or an element card that parses cleanly and has a numeric field. */
+function titleLooksLikeCard(text: string, first: number, end: number): boolean {
+  const probe: Context = { text, errors: [], subckts: [] };
+  const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
+  if (card.kind === 'error' || probe.errors.length > 0) return false;
+  if (card.kind === 'other-dot') return false;
+  if (card.kind !== 'element') return true;
+  const fields: (Token | undefined)[] = [...card.nodes, card.value, card.area, card.source?.value];
+  return fields.some((t) => t !== undefined && isNumberLike(t));
+}
+
+function shorten(s: string): string {
+  return s.length > 60 ? s.slice(0, 57) + '...' : s;
+}
+
+// ---------------------------------------------------------------------------
+// Lexing
+
+/** Lexes the segments of one card; `path` mode (after `.include`/`.lib`) splits only at blanks so paths keep commas and `=`. */
+function lexCard(ctx: Context, segments: Segment[]): Lexeme[] {
+  const out: Lexeme[] = [];
+  const mode = { path: false };
+  for (const seg of segments) lexSegment(ctx, seg.start, seg.lineEnd, out, mode);
+  return out;
+}
+
+function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode: { path: boolean }): void {
+  const { text } = ctx;
+  let i = from;
+  while (i < to) {
+    const c = text.charCodeAt(i);
+    if (isSpace(c)) {
+      i++;
+      continue;
+    }
+    if (c === 59 /* ; */) return;
+    if (c === 36 /* $ */ && isCommentDollar(text, i, to)) return;
+    if (mode.path) {
+      if (c === 34 || c === 39) {
+        i = lexQuoted(ctx, i, to, c, 'word', out);
+        continue;
+      }
+      const s = i;
+      while (i < to) {
+        const d = text.charCodeAt(i);
+        if (isSpace(d) || d === 59 || (d === 36 && isCommentDollar(text, i, to))) break;
+        i++;
+      }
+      out.push({ type: 'word', start: s, end: i });
+      continue;
+    }
+    if (c === 44 /* , */) {
+      i++;
+      continue;
+    }
+    if (c === 61 /* = */) {
+      out.push({ type: 'eq', start: i, end: i + 1 });
+      i++;
+      continue;
+    }
+    if (c === 40 /* ( */) {
+      out.push({ type: 'lp', start: i, end: i + 1 });
+      i++;
+      continue;
+    }
+    if (c === 41 /* ) */) {
+      out.push({ type: 'rp', start: i, end: i + 1 });
+      i++;
+      continue;
+    }
+    if (c === 123 /* { */) {
+      i = lexBraced(ctx, i, to, out);
+      continue;
+    }
+    if (c === 125 /* } */) {
+      addError(ctx, 'unbalanced-brace', "This '}' closes no '{'; delete it or add the matching '{'.", { start: i, end: i + 1 }, 'error');
+      i++;
+      continue;
+    }
+    if (c === 39 /* ' */) {
+      i = lexQuoted(ctx, i, to, c, 'expr', out);
+      continue;
+    }
+    if (c === 34 /* " */) {
+      i = lexQuoted(ctx, i, to, c, 'word', out);
+      continue;
+    }
+    const s = i;
+    while (i < to) {
+      const d = text.charCodeAt(i);
+      if (isSpace(d) || d === 44 || d === 61 || d === 40 || d === 41 || d === 123 || d === 125 || d === 59) break;
+      if (d === 36 && isCommentDollar(text, i, to)) break;
+      i++;
+    }
+    // `PARAMS:name=...` glued together: split the keyword off so it is recognised.
+    if (i - s > 7 && text.slice(s, s + 7).toUpperCase() === 'PARAMS:') {
+      out.push({ type: 'word', start: s, end: s + 7 });
+      out.push({ type: 'word', start: s + 7, end: i });
+    } else {
+      out.push({ type: 'word', start: s, end: i });
+    }
+    if (out.length === 1) {
+      const cmd = text.slice(s, i).toLowerCase();
+      if (cmd === '.include' || cmd === '.inc' || cmd === '.lib') mode.path = true;
+    }
+  }
+}
+
+/** Reads `{...}` with nested braces; an unclosed brace runs to the end of the line and is reported. */
+function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[]): number {
+  const { text } = ctx;
+  const s = i;
+  let depth = 0;
+  while (i < to) {
+    const d = text.charCodeAt(i);
+    if (d === 123) depth++;
+    else if (d === 125) {
+      depth--;
+      if (depth === 0) {
+        out.push({ type: 'expr', start: s, end: i + 1 });
+        return i + 1;
+      }
+    }
+    i++;
+  }
+  let e = to;
+  while (e > s + 1 && isSpace(text.charCodeAt(e - 1))) e--;
+  addError(
+    ctx,
+    'unbalanced-brace',
+    `This expression opens ${depth === 1 ? "a '{'" : `${depth} '{'`} that ${depth === 1 ? 'is' : 'are'} not closed on this line; add the missing '}'.`,
+    { start: s, end: e },
+    'error',
+  );
+  out.push({ type: 'expr', start: s, end: e });
+  return to;
+}
+
+function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'word' | 'expr', out: Lexeme[]): number {
+  const { text } = ctx;
+  const s = i;
+  i++;
+  while (i < to && text.charCodeAt(i) !== quote) i++;
+  if (i < to) {
+    out.push({ type, start: s, end: i + 1 });
+    return i + 1;
+  }
+  let e = to;
+  while (e > s + 1 && isSpace(text.charCodeAt(e - 1))) e--;
+  const q = String.fromCharCode(quote);
+  addError(ctx, 'unterminated-quote', `This ${q} is not closed on its line; add the closing ${q}.`, { start: s, end: e }, 'error');
+  out.push({ type, start: s, end: e });
+  return to;
+}
+
+// ---------------------------------------------------------------------------
+// Cards
+
+function makeToken(text: string, lx: Lexeme): Token {
+  return { text: text.slice(lx.start, lx.end), span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+}
+
+/** Joins `name = value` into assignments and reports `=` without a name or value. */
+function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
+  const { text } = ctx;
+  const items: Item[] = [];
+  const isField = (l: Lexeme | undefined): boolean => l !== undefined && (l.type === 'word' || l.type === 'expr');
+  let i = 0;
+  while (i < lx.length) {
+    const l = lx[i];
+    if (isField(l) && lx[i + 1]?.type === 'eq') {
+      const name = makeToken(text, l);
+      const v = lx[i + 2];
+      // `W= L=1u`: the word after the `=` is itself a name, so W has no value.
+      if (isField(v) && lx[i + 3]?.type !== 'eq') {
+        const value = makeToken(text, v);
+        items.push({ k: 'asg', asg: { name, value, span: { start: l.start, end: v.end } } });
+        i += 3;
+      } else {
+        addError(
+          ctx,
+          'assignment-missing-value',
+          `'${name.text}=' has no value after the '='; write ${name.text}=<value>.`,
+          { start: l.start, end: lx[i + 1].end },
+          'error',
+        );
+        i += 2;
+      }
+      continue;
+    }
+    if (l.type === 'eq') {
+      addError(ctx, 'assignment-missing-name', "This '=' has no parameter name before it; write <name>=<value>.", { start: l.start, end: l.end }, 'error');
+      i++;
+      continue;
+    }
+    if (l.type === 'lp') items.push({ k: 'lp', span: { start: l.start, end: l.end } });
+    else if (l.type === 'rp') items.push({ k: 'rp', span: { start: l.start, end: l.end } });
+    else items.push({ k: 'pos', tok: makeToken(text, l) });
+    i++;
+  }
+  return items;
+}
+
+function checkParentheses(ctx: Context, lx: Lexeme[]): void {
+  const open: Lexeme[] = [];
+  for (const l of lx) {
+    if (l.type === 'lp') open.push(l);
+    else if (l.type === 'rp') {
+      if (open.length > 0) open.pop();
+      else addError(ctx, 'unbalanced-parenthesis', "This ')' closes no '('; it is ignored.", { start: l.start, end: l.end }, 'warning');
+    }
+  }
+  for (const l of open) {
+    addError(ctx, 'unbalanced-parenthesis', "This '(' is never closed in its card; add the matching ')'.", { start: l.start, end: l.end }, 'warning');
+  }
+}
+
+/** Reads one card from its segments (first line plus continuation lines). */
+function parseGroup(ctx: Context, segments: Segment[]): Card {
+  const { text } = ctx;
+  const lx = lexCard(ctx, segments);
+  const tokens: Token[] = [];
+  for (const l of lx) if (l.type === 'word' || l.type === 'expr') tokens.push(makeToken(text, l));
+  const first = segments[0];
+  const span: Span = { start: first.plus ?? first.start, end: segments[segments.length - 1].lineEnd };
+
+  if (first.plus !== undefined) {
+    return errorCard(
+      ctx,
+      'continuation-without-card',
+      "Continuation line with no card to continue: a '+' line must follow an element or dot card.",
+      span,
+      tokens,
+      { start: first.plus, end: first.plus + 1 },
+    );
+  }
+  checkParentheses(ctx, lx);
+  const items = buildItems(ctx, lx);
+  const head = items[0];
+  if (head === undefined || head.k !== 'pos') {
+    const at = lx[0] ? { start: lx[0].start, end: lx[0].end } : { start: first.start, end: first.lineEnd };
+    return errorCard(
+      ctx,
+      'unrecognised-card',
+      `A card starts with an element name (${ELEMENT_LETTER_LIST}), a dot command, '*' for a comment or '+' for a continuation; found '${shorten(text.slice(at.start, at.end))}'.`,
+      span,
+      tokens,
+      at,
+    );
+  }
+  const word = head.tok.text;
+  if (word.charCodeAt(0) === 46 /* . */) return parseDotCard(ctx, head.tok, items.slice(1), span, tokens);
+  return parseElement(ctx, head.tok, items.slice(1), span, tokens);
+}
+
+function errorCard(ctx: Context, code: string, message: string, span: Span, tokens: Token[], errorSpan: Span): ErrorCard {
+  addError(ctx, code, message, errorSpan, 'error');
+  return { kind: 'error', span, tokens, message, errorSpan };
+}
+
+function unexpected(ctx: Context, owner: string, tok: Token, what: string): void {
+  addError(ctx, 'unexpected-field', `${owner}: '${shorten(tok.text)}' is one field more than ${what}; it is ignored.`, tok.span, 'warning');
+}
+
+/** True for a token that reads as a value rather than a name: a number or a braced/quoted expression. */
+export function isNumberLike(t: Token): boolean {
+  if (t.kind === 'expr') return true;
+  const s = t.text;
+  let i = 0;
+  let c = s.charCodeAt(0);
+  if (c === 43 || c === 45) c = s.charCodeAt(++i);
+  if (c >= 48 && c <= 57) return true;
+  if (c === 46) {
+    const d = s.charCodeAt(i + 1);
+    return d >= 48 && d <= 57;
+  }
+  return false;
+}
+
+/** The text of a token without its surrounding quotes (`"a.lib"` → `a.lib`); other tokens are returned as written. */
+export function unquote(t: Token): string {
+  const s = t.text;
+  if (s.length >= 2) {
+    const q = s.charCodeAt(0);
+    if ((q === 34 || q === 39) && s.charCodeAt(s.length - 1) === q) return s.slice(1, -1);
+  }
+  return s;
+}
+
+function fieldsSpan(name: Token, tokens: Token[]): Span {
+  const last = tokens[tokens.length - 1];
+  return { start: name.span.start, end: last && last.span.end > name.span.end ? last.span.end : name.span.end };
+}
+
+const ELEMENT_NEEDS: Record<string, { noun: string; needs: string; min: number }> = {
+  R: { noun: 'a resistor', needs: 'two nodes and a value', min: 3 },
+  C: { noun: 'a capacitor', needs: 'two nodes and a value', min: 3 },
+  L: { noun: 'an inductor', needs: 'two nodes and a value', min: 3 },
+  V: { noun: 'a voltage source', needs: 'a positive and a negative node', min: 2 },
+  I: { noun: 'a current source', needs: 'two nodes (current flows from the first through the source to the second)', min: 2 },
+  E: { noun: 'a voltage-controlled voltage source', needs: 'two output nodes, two controlling nodes and a gain', min: 5 },
+  G: { noun: 'a voltage-controlled current source', needs: 'two output nodes, two controlling nodes and a transconductance', min: 5 },
+  F: { noun: 'a current-controlled current source', needs: 'two output nodes, the name of the controlling voltage source and a gain', min: 4 },
+  H: { noun: 'a current-controlled voltage source', needs: 'two output nodes, the name of the controlling voltage source and a transresistance', min: 4 },
+  D: { noun: 'a diode', needs: 'anode and cathode nodes and a model name', min: 3 },
+  Q: { noun: 'a bipolar transistor', needs: 'collector, base and emitter nodes and a model name', min: 4 },
+  M: { noun: 'a MOSFET', needs: 'drain, gate, source and bulk nodes and a model name', min: 5 },
+  X: { noun: 'a subcircuit instance', needs: 'its nodes and the subcircuit name', min: 1 },
+};
+
+function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
+  const c0 = name.text.charCodeAt(0) | 0x20;
+  if (!(c0 >= 97 && c0 <= 122)) {
+    return errorCard(
+      ctx,
+      'unrecognised-card',
+      `A card starts with an element name (${ELEMENT_LETTER_LIST}), a dot command, '*' for a comment or '+' for a continuation; found '${shorten(name.text)}'.`,
+      span,
+      tokens,
+      name.span,
+    );
+  }
+  const letter = name.text.charAt(0).toUpperCase();
+  if (!ELEMENT_LETTERS.includes(letter)) {
+    return errorCard(
+      ctx,
+      'unknown-element-letter',
+      `'${shorten(name.text)}': qpoint reads elements whose name starts with ${ELEMENT_LETTER_LIST}; '${shorten(name.text.charAt(0))}' is not one of them.`,
+      span,
+      tokens,
+      name.span,
+    );
+  }
+  const L = letter as ElementCard['letter'];
+  const owner = name.text;
+  const need = ELEMENT_NEEDS[L];
+  const card: ElementCard = { kind: 'element', letter: L, name, nodes: [], params: [], span, tokens };
+
+  // Unsupported forms are recognised first so the message names them instead of counting fields.
+  // Only fields after the two output nodes count, and a keyword counts only when written as a form
+  // (`POLY(2)`, `VALUE={...}`, `TABLE {...}`), so nodes may still be called `freq` or `am`.
+  if (L === 'E' || L === 'G' || L === 'F' || L === 'H' || L === 'V' || L === 'I') {
+    let nodesSeen = 0;
+    for (let j = 0; j < items.length; j++) {
+      const it = items[j];
+      if (it.k === 'pos' && nodesSeen < 2) {
+        nodesSeen++;
+        continue;
+      }
+      if (nodesSeen < 2) continue;
+      const nx = items[j + 1];
+      const word =
+        it.k === 'pos' && it.tok.kind === 'word' && (nx?.k === 'lp' || (nx?.k === 'pos' && nx.tok.kind === 'expr'))
+          ? it.tok.text.toUpperCase()
+          : it.k === 'asg'
+            ? it.asg.name.text.toUpperCase()
+            : '';
+      if (!UNSUPPORTED_SOURCE_WORDS.has(word)) continue;
+      const at = it.k === 'pos' ? it.tok.span : it.k === 'asg' ? it.asg.span : span;
+      const shown = it.k === 'asg' ? `${word}=` : items[j + 1]?.k === 'lp' ? `${word}(...)` : word;
+      return errorCard(
+        ctx,
+        'unsupported-source-form',
+        `${owner}: the ${shown} form is not supported; ${need.noun} is read as ${sourceExpectation(L)}.`,
+        span,
+        tokens,
+        at,
+      );
+    }
+  }
+
+  const pos: Token[] = [];
+  const asgs: Assignment[] = [];
+  for (const it of items) {
+    if (it.k === 'pos') pos.push(it.tok);
+    else if (it.k === 'asg') asgs.push(it.asg);
+  }
+
+  const missing = (found: number): Card =>
+    errorCard(
+      ctx,
+      'element-missing-fields',
+      `${owner}: ${need.noun} needs ${need.needs}; found ${found} field${found === 1 ? '' : 's'}.`,
+      span,
+      tokens,
+      fieldsSpan(name, tokens),
+    );
+
+  switch (L) {
+    case 'R':
+    case 'C':
+    case 'L': {
+      // `R1 a b R=1k`: the value may be given as an assignment named after the letter.
+      const valueAsg = asgs.find((a) => a.name.text.toUpperCase() === L);
+      if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missing(pos.length + asgs.length);
+      card.nodes = pos.slice(0, 2);
+      const rest = pos.slice(2);
+      let used = 0;
+      if (L === 'R' && rest.length >= 2) {
+        const a = rest[0];
+        const b = rest[1];
+        if (isNumberLike(a) !== isNumberLike(b)) {
+          card.value = isNumberLike(a) ? a : b;
+          card.model = isNumberLike(a) ? b : a;
+          used = 2;
+        } else {
+          card.value = a;
+          used = 1;
+        }
+      } else if (rest.length >= 1) {
+        if (L === 'R' && !isNumberLike(rest[0]) && (asgs.length > 0 || valueAsg)) card.model = rest[0];
+        else card.value = rest[0];
+        used = 1;
+      }
+      if (!card.value && valueAsg) card.value = valueAsg.value;
+      for (const t of rest.slice(used)) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs.filter((a) => a !== valueAsg || card.value !== a.value);
+      return card;
+    }
+    case 'V':
+    case 'I': {
+      if (pos.length < 2) return missing(pos.length);
+      card.nodes = pos.slice(0, 2);
+      // Source fields follow the second node.
+      let start = 0;
+      let seen = 0;
+      while (start < items.length) {
+        const it = items[start++];
+        if (it.k === 'pos' && ++seen === 2) break;
+      }
+      const result = parseSource(ctx, owner, L, items.slice(start), span, tokens);
+      if ('kind' in result) return result;
+      card.source = result.source;
+      card.params = result.params;
+      return card;
+    }
+    case 'E':
+    case 'G': {
+      if (pos.length < 5) return missing(pos.length);
+      card.nodes = pos.slice(0, 4);
+      card.value = pos[4];
+      for (const t of pos.slice(5)) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'F':
+    case 'H': {
+      if (pos.length < 4) return missing(pos.length);
+      card.nodes = pos.slice(0, 2);
+      card.control = pos[2];
+      card.value = pos[3];
+      for (const t of pos.slice(4)) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'D': {
+      const kept = dropOff(ctx, owner, pos, 2);
+      if (kept.length < 3) return missing(kept.length);
+      card.nodes = kept.slice(0, 2);
+      card.model = kept[2];
+      const rest = kept.slice(3);
+      if (rest.length > 0 && isNumberLike(rest[0])) card.area = rest.shift();
+      for (const t of rest) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'Q': {
+      const kept = dropOff(ctx, owner, pos, 3);
+      if (kept.length < 4) return missing(kept.length);
+      const rest = kept.slice(3);
+      let m = -1;
+      for (let j = rest.length - 1; j >= 0; j--) {
+        if (!isNumberLike(rest[j])) {
+          m = j;
+          break;
+        }
+      }
+      if (m < 0) {
+        return errorCard(
+          ctx,
+          'missing-model-name',
+          `${owner}: ${need.noun} needs ${need.needs}; none of the fields after the emitter node '${shorten(kept[2].text)}' is a model name (a model name starts with a letter).`,
+          span,
+          tokens,
+          { start: rest[0].span.start, end: rest[rest.length - 1].span.end },
+        );
+      }
+      card.nodes = kept.slice(0, 3);
+      if (m >= 1) card.nodes.push(rest[0]);
+      for (const t of rest.slice(1, m)) unexpected(ctx, owner, t, `${need.noun} uses (collector, base, emitter, substrate)`);
+      card.model = rest[m];
+      const after = rest.slice(m + 1);
+      if (after.length > 0) card.area = after.shift();
+      for (const t of after) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'M': {
+      const kept = dropOff(ctx, owner, pos, 4);
+      if (kept.length < 5) return missing(kept.length);
+      card.nodes = kept.slice(0, 4);
+      card.model = kept[4];
+      if (isNumberLike(card.model)) {
+        return errorCard(
+          ctx,
+          'missing-model-name',
+          `${owner}: ${need.noun} needs ${need.needs}; the fifth field '${shorten(card.model.text)}' is a number, not a model name.`,
+          span,
+          tokens,
+          card.model.span,
+        );
+      }
+      for (const t of kept.slice(5)) unexpected(ctx, owner, t, `${need.noun} uses (write sizes as W= and L=)`);
+      card.params = asgs;
+      return card;
+    }
+    case 'X': {
+      const before: Token[] = [];
+      let boundary = false;
+      for (const it of items) {
+        if (it.k === 'asg') boundary = true;
+        else if (it.k === 'pos') {
+          if (it.tok.text.toUpperCase() === 'PARAMS:') boundary = true;
+          else if (!boundary) before.push(it.tok);
+          else unexpected(ctx, owner, it.tok, 'an instance takes after its parameters');
+        }
+      }
+      if (before.length < 1) return missing(0);
+      card.subckt = before[before.length - 1];
+      card.nodes = before.slice(0, -1);
+      card.params = asgs;
+      return card;
+    }
+  }
+  return card;
+}
+
+function sourceExpectation(L: string): string {
+  if (L === 'E' || L === 'G') return 'two output nodes, two controlling nodes and a constant gain';
+  if (L === 'F' || L === 'H') return 'two output nodes, a controlling voltage source name and a constant gain';
+  return 'two nodes and DC <value>, a bare <value>, or PULSE(...), SIN(...), EXP(...) or PWL(...) for its t=0 value';
+}
+
+/** Removes the initial-condition keyword OFF after the nodes and notes that a DC bias analysis ignores it. */
+function dropOff(ctx: Context, owner: string, pos: Token[], nodeCount: number): Token[] {
+  const kept: Token[] = [];
+  for (let j = 0; j < pos.length; j++) {
+    const t = pos[j];
+    if (j > nodeCount && t.kind === 'word' && t.text.toUpperCase() === 'OFF') {
+      addError(ctx, 'ignored-keyword', `${owner}: 'OFF' only sets a starting guess, which a DC bias analysis does not use; it is ignored.`, t.span, 'hint');
+      continue;
+    }
+    kept.push(t);
+  }
+  return kept;
+}
+
+/** Reads the fields after a V or I source's nodes: DC value, bare value, transient function, AC part. */
+function parseSource(
+  ctx: Context,
+  owner: string,
+  L: string,
+  items: Item[],
+  span: Span,
+  tokens: Token[],
+): { source: SourceValue; params: Assignment[] } | ErrorCard {
+  let dc: Token | undefined;
+  let dcKeyword = false;
+  let bare: Token | undefined;
+  let transient: { fn: Token; value?: Token } | undefined;
+  const params: Assignment[] = [];
+  const isKeyword = (t: Token): boolean => {
+    const u = t.text.toUpperCase();
+    return t.kind === 'word' && (u === 'DC' || u === 'AC' || u in TRANSIENT_VALUE_ARGUMENT);
+  };
+  let j = 0;
+  while (j < items.length) {
+    const it = items[j++];
+    if (it.k === 'asg') {
+      if (it.asg.name.text.toUpperCase() === 'DC' && !dc) {
+        dc = it.asg.value;
+        dcKeyword = true;
+      } else params.push(it.asg);
+      continue;
+    }
+    if (it.k !== 'pos') continue;
+    const t = it.tok;
+    const u = t.kind === 'word' ? t.text.toUpperCase() : '';
+    if (u === 'DC') {
+      const nx = items[j];
+      if (nx?.k === 'pos' && !isKeyword(nx.tok)) {
+        if (dc) unexpected(ctx, owner, nx.tok, 'a source uses (its DC value is already given)');
+        else dc = nx.tok;
+        j++;
+      } else if (!dc) {
+        addError(ctx, 'source-missing-value', `${owner}: 'DC' needs a value after it (DC 5).`, t.span, 'error');
+      }
+      dcKeyword = true;
+      continue;
+    }
+    if (u === 'AC') {
+      // AC magnitude and phase do not affect the DC bias point.
+      for (let k = 0; k < 2 && items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok); k++) j++;
+      continue;
+    }
+    if (u in TRANSIENT_VALUE_ARGUMENT) {
+      const args: Token[] = [];
+      if (items[j]?.k === 'lp') {
+        let depth = 0;
+        while (j < items.length) {
+          const a = items[j++];
+          if (a.k === 'lp') depth++;
+          else if (a.k === 'rp') {
+            depth--;
+            if (depth === 0) break;
+          } else if (a.k === 'pos') args.push(a.tok);
+        }
+      } else {
+        while (items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok)) args.push((items[j++] as { tok: Token }).tok);
+      }
+      const idx = TRANSIENT_VALUE_ARGUMENT[u];
+      if (u === 'PWL' && args.length > 0 && !isNumberLike(args[0])) {
+        return errorCard(
+          ctx,
+          'unsupported-source-form',
+          `${owner}: PWL reads its points from the card only ('${shorten(args[0].text)}' is not a time); ${L === 'V' ? 'a voltage' : 'a current'} source is read as ${sourceExpectation(L)}.`,
+          span,
+          tokens,
+          args[0].span,
+        );
+      }
+      if (transient) {
+        unexpected(ctx, owner, t, 'a source uses (it already has a transient function)');
+        continue;
+      }
+      transient = { fn: t, value: args[idx] };
+      if (!args[idx]) {
+        const what = u === 'PWL' ? 'a first (time, value) pair' : 'a first argument';
+        addError(ctx, 'source-missing-value', `${owner}: ${t.text}(...) needs ${what} to give the source's value at t=0.`, t.span, 'error');
+      }
+      continue;
+    }
+    if (t.kind === 'word' && items[j]?.k === 'lp') {
+      return errorCard(
+        ctx,
+        'unsupported-source-form',
+        `${owner}: the ${shorten(t.text)}(...) form is not supported; ${L === 'V' ? 'a voltage' : 'a current'} source is read as ${sourceExpectation(L)}.`,
+        span,
+        tokens,
+        t.span,
+      );
+    }
+    if (!bare && !dc) bare = t;
+    else unexpected(ctx, owner, t, 'a source uses (its DC value is already given)');
+  }
+  let source: SourceValue;
+  if (dc || dcKeyword) source = { form: 'dc', value: dc };
+  else if (bare) source = { form: 'bare', value: bare };
+  else if (transient) source = { form: 'transient', value: transient.value, function: transient.fn };
+  else source = { form: 'bare' };
+  if (source.value === undefined) delete source.value;
+  return { source, params };
+}
+
+// ---------------------------------------------------------------------------
+// Dot cards
+
+function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, tokens: Token[]): Card {
+  const cmd = command.text.toLowerCase();
+  const pos: Token[] = [];
+  const asgs: Assignment[] = [];
+  for (const it of items) {
+    if (it.k === 'pos') pos.push(it.tok);
+    else if (it.k === 'asg') asgs.push(it.asg);
+  }
+  const noAssignments = (what: string): void => {
+    for (const a of asgs) {
+      addError(ctx, 'unexpected-field', `${command.text}: '${shorten(a.name.text)}=...' is one field more than ${what}; it is ignored.`, a.span, 'warning');
+    }
+  };
+  switch (cmd) {
+    case '.model': {
+      if (pos.length < 2) {
+        return errorCard(
+          ctx,
+          'model-missing-fields',
+          `.model needs a model name and a device type (NPN, PNP, D, NMOS, PMOS); found ${pos.length} field${pos.length === 1 ? '' : 's'}.`,
+          span,
+          tokens,
+          fieldsSpan(command, tokens),
+        );
+      }
+      for (const t of pos.slice(2)) {
+        addError(ctx, 'unexpected-field', `.model ${pos[0].text}: '${shorten(t.text)}' is not a name=value parameter; it is ignored.`, t.span, 'warning');
+      }
+      return { kind: 'model', span, tokens, name: pos[0], type: pos[1], params: asgs };
+    }
+    case '.param': {
+      for (const t of pos) {
+        addError(ctx, 'param-missing-assignment', `.param: '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`, t.span, 'error');
+      }
+      if (pos.length === 0 && asgs.length === 0) {
+        addError(ctx, 'param-missing-assignment', '.param has no assignments; write .param name=value.', command.span, 'error');
+      }
+      return { kind: 'param', span, tokens, params: asgs };
+    }
+    case '.subckt': {
+      if (pos.length < 1) {
+        return errorCard(ctx, 'subckt-missing-name', '.subckt needs a subcircuit name, then its port nodes.', span, tokens, command.span);
+      }
+      const ports: Token[] = [];
+      let boundary = false;
+      for (const it of items) {
+        if (it.k === 'asg') boundary = true;
+        else if (it.k === 'pos') {
+          if (it.tok.text.toUpperCase() === 'PARAMS:') boundary = true;
+          else if (!boundary) ports.push(it.tok);
+          else unexpected(ctx, command.text, it.tok, 'a subcircuit header takes after its parameters');
+        }
+      }
+      if (ports.length === 0) {
+        return errorCard(ctx, 'subckt-missing-name', '.subckt needs a subcircuit name before its parameters.', span, tokens, command.span);
+      }
+      const card: SubcktCard = { kind: 'subckt', span, tokens, name: ports[0], ports: ports.slice(1), params: asgs };
+      ctx.subckts.push(card);
+      return card;
+    }
+    case '.ends': {
+      noAssignments('.ends takes');
+      for (const t of pos.slice(1)) unexpected(ctx, command.text, t, '.ends takes');
+      const open = ctx.subckts.pop();
+      const name = pos[0];
+      if (!open) {
+        addError(ctx, 'ends-without-subckt', '.ends closes no subcircuit: there is no open .subckt before it.', name ? { start: command.span.start, end: name.span.end } : command.span, 'error');
+      } else if (name && name.text.toLowerCase() !== open.name.text.toLowerCase()) {
+        addError(
+          ctx,
+          'ends-name-mismatch',
+          `.ends names '${shorten(name.text)}' but closes subcircuit '${shorten(open.name.text)}'.`,
+          name.span,
+          'warning',
+        );
+      }
+      return name ? { kind: 'ends', span, tokens, name } : { kind: 'ends', span, tokens };
+    }
+    case '.include':
+    case '.inc': {
+      for (const t of pos.slice(1)) unexpected(ctx, command.text, t, `${command.text} takes (quote a path that holds spaces)`);
+      if (!pos[0]) {
+        addError(ctx, 'include-missing-path', `${command.text} needs the path of the file to read.`, command.span, 'error');
+        return { kind: 'include', span, tokens };
+      }
+      return { kind: 'include', span, tokens, path: pos[0] };
+    }
+    case '.lib': {
+      for (const t of pos.slice(2)) unexpected(ctx, command.text, t, '.lib takes (a path and a section name)');
+      if (pos.length === 0) {
+        addError(ctx, 'lib-missing-fields', '.lib needs a library path and a section name, or (inside a library file) a section name.', command.span, 'error');
+        return { kind: 'lib', span, tokens };
+      }
+      if (pos.length === 1) {
+        const q = pos[0].text.charCodeAt(0);
+        // A lone quoted field is a path (the whole library); a lone bare word starts a section.
+        if (q === 34 || q === 39) return { kind: 'lib', span, tokens, path: pos[0] };
+        return { kind: 'lib', span, tokens, section: pos[0] };
+      }
+      return { kind: 'lib', span, tokens, path: pos[0], section: pos[1] };
+    }
+    case '.endl': {
+      for (const t of pos.slice(1)) unexpected(ctx, command.text, t, '.endl takes');
+      return pos[0] ? { kind: 'endl', span, tokens, section: pos[0] } : { kind: 'endl', span, tokens };
+    }
+    case '.temp': {
+      noAssignments('.temp takes (write temperatures in °C: .temp 27 85)');
+      if (pos.length === 0) addError(ctx, 'temp-missing-value', '.temp needs at least one temperature in °C (.temp 27).', command.span, 'error');
+      return { kind: 'temp', span, tokens, values: pos };
+    }
+    case '.option':
+    case '.options':
+      return { kind: 'option', span, tokens, params: asgs, flags: pos };
+    case '.op':
+      for (const t of pos) unexpected(ctx, command.text, t, '.op takes');
+      noAssignments('.op takes');
+      return { kind: 'op', span, tokens };
+    case '.end':
+      for (const t of pos) unexpected(ctx, command.text, t, '.end takes');
+      noAssignments('.end takes');
+      return { kind: 'end', span, tokens };
+    default:
+      if (cmd.length < 2) {
+        return errorCard(ctx, 'unrecognised-card', "A dot card needs its command right after the dot (.model, .param, .subckt, ...).", span, tokens, command.span);
+      }
+      return { kind: 'other-dot', span, tokens, command };
+  }
+}
+
+/** True when `word` (any case) is one of the dot commands this parser interprets. */
+export function isKnownDotCommand(word: string): boolean {
+  return DOT_COMMANDS.has(word.toLowerCase());
+}
