@@ -815,12 +815,17 @@ function closest(name: string, candidates: string[]): string | undefined {
 
 function editDistance(a: string, b: string, cap: number): number {
   if (a.length > 64 || b.length > 64) return cap;
+  // Optimal string alignment distance: a swap of two neighbouring letters counts as one edit.
+  let before: number[] = [];
   let prev = Array.from({ length: b.length + 1 }, (_, k) => k);
   for (let i = 1; i <= a.length; i++) {
     const cur = [i];
     for (let j = 1; j <= b.length; j++) {
-      cur[j] = Math.min(prev[j]! + 1, cur[j - 1]! + 1, prev[j - 1]! + (a[i - 1] === b[j - 1] ? 0 : 1));
+      let d = Math.min(prev[j]! + 1, cur[j - 1]! + 1, prev[j - 1]! + (a[i - 1] === b[j - 1] ? 0 : 1));
+      if (i > 1 && j > 1 && a[i - 1] === b[j - 2] && a[i - 2] === b[j - 1]) d = Math.min(d, before[j - 2]! + 1);
+      cur[j] = d;
     }
+    before = prev;
     prev = cur;
   }
   return prev[b.length]!;
