@@ -1,0 +1,261 @@
+// Finds what sits at an offset of an analysed document: the card, the token, its subcircuit scope and the elaborated elements behind it.
+
+import type { Analysis } from '../analysis';
+import type { Circuit, Element } from '../circuit';
+import type { Card, ElementCard, ParsedDocument, SubcktCard, Token } from '../syntax/ast';
+import type { Span } from '../types';
+
+/** A `.subckt` … `.ends` body in one document. */
+export interface SubcktScope {
+  card: SubcktCard;
+  /** Lower-case subcircuit name. */
+  name: string;
+  /** From the `.subckt` card's start to the end of its `.ends` card (or the document end). */
+  span: Span;
+}
+
+/** The elaborated elements of every element card, keyed by `uri#cardStart`. */
+interface AnalysisIndex {
+  elementsByCard: Map<string, Element[]>;
+  /** Lower-case node name -> node index. */
+  nodeByName: Map<string, number>;
+  /** Node index -> the elements and terminal positions that touch it. */
+  connections: { element: Element; terminal: number }[][];
+  /** Lower-case element name -> element. */
+  elementByName: Map<string, Element>;
+}
+
+const analysisIndexes = new WeakMap<Analysis, AnalysisIndex>();
+const scopeCache = new WeakMap<ParsedDocument, SubcktScope[]>();
+
+/** The per-analysis lookup tables, built once and cached on the analysis object. */
+export function indexOf(analysis: Analysis): AnalysisIndex {
+  let idx = analysisIndexes.get(analysis);
+  if (idx) return idx;
+  const elementsByCard = new Map<string, Element[]>();
+  const nodeByName = new Map<string, number>();
+  const elementByName = new Map<string, Element>();
+  const circuit = analysis.circuit;
+  const connections: { element: Element; terminal: number }[][] = [];
+  if (circuit) {
+    circuit.nodes.forEach((n, i) => {
+      nodeByName.set(n.toLowerCase(), i);
+      connections.push([]);
+    });
+    for (const el of circuit.elements) {
+      const key = cardKey(el.origin.uri, el.origin.span.start);
+      let list = elementsByCard.get(key);
+      if (!list) elementsByCard.set(key, (list = []));
+      list.push(el);
+      elementByName.set(el.name.toLowerCase(), el);
+      el.nodes.forEach((n, t) => connections[n]?.push({ element: el, terminal: t }));
+    }
+  }
+  idx = { elementsByCard, nodeByName, connections, elementByName };
+  analysisIndexes.set(analysis, idx);
+  return idx;
+}
+
+/** Key of a card for {@link AnalysisIndex.elementsByCard}. */
+export function cardKey(uri: string, start: number): string {
+  return `${uri}#${start}`;
+}
+
+/** The elaborated elements (one per subcircuit instance, or one at top level) of an element card. */
+export function elementsOfCard(analysis: Analysis, uri: string, card: Card): Element[] {
+  return indexOf(analysis).elementsByCard.get(cardKey(uri, card.span.start)) ?? [];
+}
+
+/** The element with this hierarchical name (case-insensitive). */
+export function elementByName(analysis: Analysis, name: string): Element | undefined {
+  return indexOf(analysis).elementByName.get(name.toLowerCase());
+}
+
+/** The card whose span holds `offset` (a card's end counts as inside it), by binary search. */
+export function cardAt(doc: ParsedDocument, offset: number): Card | undefined {
+  const cards = doc.cards;
+  let lo = 0;
+  let hi = cards.length - 1;
+  let found = -1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (cards[mid].span.start <= offset) {
+      found = mid;
+      lo = mid + 1;
+    } else hi = mid - 1;
+  }
+  if (found < 0) return undefined;
+  const card = cards[found];
+  return offset <= card.span.end ? card : undefined;
+}
+
+/** The token holding `offset`; a token's end counts as inside it when no token starts there. */
+export function tokenAt(card: Card, offset: number): Token | undefined {
+  let atEnd: Token | undefined;
+  for (const t of card.tokens) {
+    if (t.span.start <= offset && offset < t.span.end) return t;
+    if (t.span.end === offset) atEnd = t;
+  }
+  return atEnd;
+}
+
+/** Every `.subckt` body of a document, outermost first. */
+export function subcktScopes(doc: ParsedDocument): SubcktScope[] {
+  const cached = scopeCache.get(doc);
+  if (cached) return cached;
+  const out: SubcktScope[] = [];
+  const open: SubcktScope[] = [];
+  for (const card of doc.cards) {
+    if (card.kind === 'subckt') {
+      const scope: SubcktScope = { card, name: card.name.text.toLowerCase(), span: { start: card.span.start, end: doc.text.length } };
+      out.push(scope);
+      open.push(scope);
+    } else if (card.kind === 'ends') {
+      const scope = open.pop();
+      if (scope) scope.span = { start: scope.span.start, end: card.span.end };
+    }
+  }
+  scopeCache.set(doc, out);
+  return out;
+}
+
+/** The innermost subcircuit body holding `offset`, or undefined at top level. */
+export function scopeAt(doc: ParsedDocument, offset: number): SubcktScope | undefined {
+  let best: SubcktScope | undefined;
+  for (const s of subcktScopes(doc)) {
+    if (s.span.start <= offset && offset <= s.span.end) best = s;
+  }
+  return best;
+}
+
+/** The hierarchical prefix of an element's instance path (`X1.X3.`), or '' at top level. */
+export function instancePrefix(el: Element): string {
+  return el.origin.instances.length ? el.origin.instances.map((i) => i.name).join('.') + '.' : '';
+}
+
+/** The instance prefixes under which a subcircuit body was flattened (from the elements found in it). */
+export function scopeInstances(analysis: Analysis, uri: string, scope: SubcktScope | undefined): string[] {
+  if (!scope) return [''];
+  const doc = analysis.documents[uri];
+  if (!doc) return [];
+  const prefixes = new Set<string>();
+  for (const card of doc.cards) {
+    if (card.kind !== 'element' || card.span.start < scope.span.start || card.span.end > scope.span.end) continue;
+    if (scopeAt(doc, card.span.start) !== scope) continue;
+    for (const el of elementsOfCard(analysis, uri, card)) prefixes.add(instancePrefix(el));
+  }
+  return [...prefixes].sort();
+}
+
+/** One elaborated node behind a node token: the instance it belongs to and the circuit node. */
+export interface ResolvedNode {
+  instance: string;
+  node: number;
+  name: string;
+}
+
+/** True for a token text that names the ground node. */
+export function isGround(name: string): boolean {
+  return name === '0';
+}
+
+/**
+ * The circuit nodes a node token stands for, one per subcircuit instance. Node fields of
+ * device cards map through the elaborated elements; ports and X-card nodes map through any
+ * other device in the same scope that uses the same name, or the hierarchical name.
+ */
+export function resolveNodeToken(analysis: Analysis, uri: string, card: Card, token: Token): ResolvedNode[] {
+  const circuit = analysis.circuit;
+  const doc = analysis.documents[uri];
+  if (!circuit || !doc) return [];
+  if (card.kind === 'element' && card.letter !== 'X') {
+    const i = card.nodes.indexOf(token);
+    if (i >= 0) {
+      const out: ResolvedNode[] = [];
+      for (const el of elementsOfCard(analysis, uri, card)) {
+        const n = el.nodes[i];
+        if (n !== undefined) out.push({ instance: instancePrefix(el), node: n, name: circuit.nodes[n] });
+      }
+      if (out.length) return out;
+    }
+  }
+  return resolveNodeName(analysis, uri, scopeAt(doc, token.span.start), token.text);
+}
+
+/** The circuit nodes a node name written in `scope` of document `uri` stands for, one per instance. */
+export function resolveNodeName(analysis: Analysis, uri: string, scope: SubcktScope | undefined, name: string): ResolvedNode[] {
+  const circuit = analysis.circuit;
+  const doc = analysis.documents[uri];
+  if (!circuit || !doc) return [];
+  const { nodeByName } = indexOf(analysis);
+  const lower = name.toLowerCase();
+  if (isGround(lower)) return [{ instance: '', node: 0, name: circuit.nodes[0] ?? '0' }];
+  const out: ResolvedNode[] = [];
+  for (const prefix of scopeInstances(analysis, uri, scope)) {
+    const direct = nodeByName.get((prefix + name).toLowerCase());
+    if (direct !== undefined) {
+      out.push({ instance: prefix, node: direct, name: circuit.nodes[direct] });
+      continue;
+    }
+    const viaUse = nodeByUse(analysis, doc, scope, lower, prefix);
+    if (viaUse !== undefined) out.push({ instance: prefix, node: viaUse, name: circuit.nodes[viaUse] });
+  }
+  return out;
+}
+
+function nodeByUse(analysis: Analysis, doc: ParsedDocument, scope: SubcktScope | undefined, lower: string, prefix: string): number | undefined {
+  for (const card of doc.cards) {
+    if (card.kind !== 'element' || card.letter === 'X') continue;
+    if (scope && (card.span.start < scope.span.start || card.span.end > scope.span.end)) continue;
+    if (scopeAt(doc, card.span.start) !== scope) continue;
+    const i = card.nodes.findIndex((t) => t.text.toLowerCase() === lower);
+    if (i < 0) continue;
+    for (const el of elementsOfCard(analysis, doc.uri, card)) {
+      if (instancePrefix(el) === prefix && el.nodes[i] !== undefined) return el.nodes[i];
+    }
+  }
+  return undefined;
+}
+
+/** Terminal names per element kind, in node order. */
+export function terminalNames(el: Element): string[] {
+  switch (el.kind) {
+    case 'R':
+    case 'C':
+    case 'L':
+      return ['end 1', 'end 2'];
+    case 'V':
+    case 'I':
+      return ['plus', 'minus'];
+    case 'E':
+    case 'G':
+      return ['output +', 'output −', 'control +', 'control −'];
+    case 'F':
+    case 'H':
+      return ['output +', 'output −'];
+    case 'D':
+      return ['anode', 'cathode'];
+    case 'Q':
+      return ['collector', 'base', 'emitter', 'substrate'];
+    case 'M':
+      return ['drain', 'gate', 'source', 'bulk'];
+  }
+}
+
+/** The elements and terminals connected to a circuit node. */
+export function connectionsOf(analysis: Analysis, node: number): { element: Element; terminal: string }[] {
+  const list = indexOf(analysis).connections[node] ?? [];
+  return list.map((c) => ({ element: c.element, terminal: terminalNames(c.element)[c.terminal] ?? `terminal ${c.terminal + 1}` }));
+}
+
+/** All element cards of a document (in order). */
+export function elementCards(doc: ParsedDocument): ElementCard[] {
+  return doc.cards.filter((c): c is ElementCard => c.kind === 'element');
+}
+
+/** Whether a span contains an offset (end inclusive, as editors place the cursor after a word). */
+export function spanHolds(span: Span, offset: number): boolean {
+  return span.start <= offset && offset <= span.end;
+}
+
+export type { Circuit };

@@ -1,0 +1,412 @@
+// Hover text for an offset of an analysed netlist: device bias, node voltages, models, parameters and hand estimates.
+
+import type { Analysis, ParamSymbol } from '../analysis';
+import type { Element, Model } from '../circuit';
+import type { Card, ElementCard, Token } from '../syntax/ast';
+import type { DeviceRecord } from '../solve/types';
+import type { Structure } from '../structures/types';
+import type { Span } from '../types';
+import {
+  cardAt,
+  connectionsOf,
+  elementsOfCard,
+  resolveNodeToken,
+  scopeAt,
+  tokenAt,
+  type SubcktScope,
+} from './document-index';
+import { formatNumber, formatPercent, formatQuantity } from './quantity';
+import { identifierAt, resolveParam } from './params';
+import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
+
+/** Markdown hover content and the span it describes. */
+export interface HoverResult {
+  markdown: string;
+  span: Span;
+}
+
+/** The hover for `offset` of document `uri` in `analysis`, or undefined when there is nothing to say. */
+export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverResult | undefined {
+  const doc = analysis.documents[uri];
+  if (!doc || !Number.isFinite(offset) || offset < 0 || offset > doc.text.length) return undefined;
+  const card = cardAt(doc, offset);
+  if (!card) return undefined;
+  const token = tokenAt(card, offset);
+  if (!token) return undefined;
+  const scope = scopeAt(doc, offset);
+
+  if (token.kind === 'expr' || isAssignmentValue(card, token)) {
+    const ident = identifierAt(token, offset);
+    if (ident) {
+      const p = resolveParam(analysis, uri, scope, ident.name);
+      if (p) return { markdown: paramMarkdown(p), span: ident.span };
+    }
+    if (token.kind === 'expr') return exprHover(analysis, uri, card, token, scope);
+  }
+
+  switch (card.kind) {
+    case 'element':
+      return elementCardHover(analysis, uri, card, token, scope);
+    case 'model':
+      if (token === card.name || token === card.type) return modelHover(analysis, uri, card.name.text, scope, token.span, card.span.start);
+      return modelParamHover(analysis, uri, card, token, scope);
+    case 'param': {
+      const a = card.params.find((p) => p.name === token);
+      if (a) {
+        const p = analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
+        if (p) return { markdown: paramMarkdown(p), span: token.span };
+      }
+      return undefined;
+    }
+    case 'subckt': {
+      const a = card.params.find((p) => p.name === token);
+      if (a) {
+        const p = analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
+        if (p) return { markdown: paramMarkdown(p), span: token.span };
+      }
+      if (card.ports.includes(token)) return nodeHover(analysis, uri, card, token);
+      if (token === card.name) return subcktHover(analysis, card.name.text, token.span);
+      return undefined;
+    }
+    default:
+      return undefined;
+  }
+}
+
+function isAssignmentValue(card: Card, token: Token): boolean {
+  const params = 'params' in card ? card.params : [];
+  return params.some((a) => a.value === token);
+}
+
+function elementCardHover(analysis: Analysis, uri: string, card: ElementCard, token: Token, scope: SubcktScope | undefined): HoverResult | undefined {
+  if (token === card.name) return deviceHover(analysis, uri, card, token.span);
+  if (card.nodes.includes(token)) return nodeHover(analysis, uri, card, token);
+  if (token === card.model) return modelHover(analysis, uri, token.text, scope, token.span, undefined, elementsOfCard(analysis, uri, card));
+  if (token === card.subckt) return subcktHover(analysis, token.text, token.span);
+  if (token === card.value || token === card.source?.value || token === card.area) return deviceHover(analysis, uri, card, token.span);
+  return undefined;
+}
+
+/** Device bias: one section per elaborated instance of the card. */
+function deviceHover(analysis: Analysis, uri: string, card: ElementCard, span: Span): HoverResult | undefined {
+  const elements = elementsOfCard(analysis, uri, card);
+  if (card.letter === 'X') return subcktHover(analysis, card.subckt?.text ?? '', span);
+  if (elements.length === 0) {
+    return { markdown: `**${card.name.text}** — not part of the elaborated circuit (see the findings on this line).`, span };
+  }
+  const sections = elements.map((el) => elementSection(analysis, el, elements.length > 1));
+  return { markdown: sections.join('\n\n---\n\n'), span };
+}
+
+function elementSection(analysis: Analysis, el: Element, showName: boolean): string {
+  const op = analysis.operatingPoint;
+  const rec: DeviceRecord | undefined = op?.devices[el.name];
+  const lines: string[] = [];
+  const heading = `**${el.name}** — ${describeElement(el)}`;
+  lines.push(heading);
+  if (!op) {
+    lines.push('No operating point: the circuit was not solved (see the findings).');
+    return lines.join('\n\n');
+  }
+  if (!op.converged) lines.push('_The DC solve did not converge; the values below are from its last iteration._');
+  if (!rec) {
+    lines.push('No bias record for this device.');
+    return lines.join('\n\n');
+  }
+  const nodeNames = el.nodes.map((n) => analysis.circuit?.nodes[n] ?? String(n));
+  if (rec.type === 'bjt') {
+    lines.push(`Region: **${rec.region}** (${rec.polarity.toUpperCase()})`);
+    lines.push(
+      bullet([
+        `IC ${formatQuantity(rec.ic, 'A')} · IB ${formatQuantity(rec.ib, 'A')} · IE ${formatQuantity(rec.ie, 'A')} (positive into the terminal)`,
+        `VBE ${formatQuantity(rec.vbe, 'V')} · VBC ${formatQuantity(rec.vbc, 'V')} · VCE ${formatQuantity(rec.vce, 'V')}`,
+        `gm ${formatQuantity(rec.gm, 'S')} · rπ ${formatQuantity(rec.rpi, 'Ω')} · ro ${rec.roInfinite ? 'unbounded (no Early voltage in the model)' : formatQuantity(rec.ro, 'Ω')}`,
+        `Collector ${nodeNames[0]}, base ${nodeNames[1]}, emitter ${nodeNames[2]}`,
+      ]),
+    );
+  } else if (rec.type === 'mosfet') {
+    lines.push(`Region: **${rec.region}** (${rec.polarity.toUpperCase()})`);
+    const edge = rec.polarity === 'nmos' ? rec.vds - rec.vov : -rec.vds - rec.vov;
+    lines.push(
+      bullet([
+        `ID ${formatQuantity(rec.id, 'A')} (positive into the drain)`,
+        `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · VTH ${formatQuantity(rec.vth, 'V')} · overdrive ${formatQuantity(rec.vov, 'V')}`,
+        rec.vov > 0 ? `|VDS| − overdrive: ${formatQuantity(edge, 'V')} (${edge >= 0 ? 'beyond' : 'short of'} the saturation edge)` : 'Below threshold.',
+        `gm ${formatQuantity(rec.gm, 'S')} · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`,
+        `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}, bulk ${nodeNames[3]}`,
+      ]),
+    );
+  } else if (rec.type === 'diode') {
+    lines.push(`Region: **${rec.region}**`);
+    lines.push(bullet([`ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`, `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`]));
+  } else {
+    const items = [
+      `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the element to ${nodeNames[1]})`,
+      `Voltage ${formatQuantity(rec.voltage, 'V')} (V(${nodeNames[0]}) − V(${nodeNames[1]}))`,
+      `Power ${formatQuantity(rec.power, 'W')} ${rec.power < 0 ? '(delivered)' : '(absorbed)'}`,
+    ];
+    lines.push(bullet(items));
+  }
+  for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));
+  void showName;
+  return lines.join('\n\n');
+}
+
+function describeElement(el: Element): string {
+  switch (el.kind) {
+    case 'R':
+      return `resistor, ${formatQuantity(el.resistance, 'Ω')}`;
+    case 'C':
+      return `capacitor, ${formatQuantity(el.capacitance, 'F')} (open at DC)`;
+    case 'L':
+      return `inductor, ${formatQuantity(el.inductance, 'H')} (short at DC)`;
+    case 'V':
+      return `voltage source, ${formatQuantity(el.dc, 'V')}`;
+    case 'I':
+      return `current source, ${formatQuantity(el.dc, 'A')}`;
+    case 'E':
+      return `voltage-controlled voltage source, gain ${formatNumber(el.gain)}`;
+    case 'G':
+      return `voltage-controlled current source, ${formatQuantity(el.gain, 'S')}`;
+    case 'F':
+      return `current-controlled current source, gain ${formatNumber(el.gain)} of I(${el.control})`;
+    case 'H':
+      return `current-controlled voltage source, ${formatQuantity(el.gain, 'Ω')} times I(${el.control})`;
+    case 'D':
+      return `diode, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+    case 'Q':
+      return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+    case 'M':
+      return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}, W ${formatQuantity(el.w, 'm')}, L ${formatQuantity(el.l, 'm')}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+  }
+}
+
+/** Structures a device (hierarchical name) belongs to. */
+export function structuresOf(analysis: Analysis, device: string): Structure[] {
+  const lower = device.toLowerCase();
+  return analysis.structures.filter((s) => s.devices.some((d) => d.toLowerCase() === lower));
+}
+
+function structureSection(s: Structure, device: string): string {
+  const lower = device.toLowerCase();
+  const isRef = s.reference.device.toLowerCase() === lower;
+  const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
+  const role = isRef ? 'reference (diode-connected) device' : out ? `output device (intended ratio ${formatNumber(out.ratio)})` : 'device';
+  const parts: string[] = [`**${kindLabel(s.kind)}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
+  const est = s.estimate;
+  if (est && est.steps.length) {
+    parts.push('Hand estimate:\n\n' + est.steps.map((st) => `- ${st.quantity} = ${st.formula} = ${st.substituted} = **${formatQuantity(st.value, st.unit)}**`).join('\n'));
+  }
+  const rows: string[] = [];
+  if (isRef || !out) {
+    const e = est?.iref;
+    const v = s.solved?.iref;
+    if (e !== undefined || v !== undefined) rows.push(compareLine('IREF', e, v));
+  }
+  if (out) {
+    const e = est?.iout[out.device];
+    const v = s.solved?.iout[out.device];
+    if (e !== undefined || v !== undefined) rows.push(compareLine('IOUT', e, v));
+    const h = s.headroom[out.device];
+    if (h !== undefined) rows.push(`Headroom: ${formatQuantity(h, 'V')} ${h >= 0 ? 'beyond' : 'short of'} the edge of the active region`);
+    const c = s.compliance[out.device];
+    if (c) rows.push(`Output stays active for ${formatQuantity(c.min, 'V')} ≤ V(${out.node}) ≤ ${formatQuantity(c.max, 'V')}`);
+    const ro = s.outputResistance[out.device];
+    if (ro !== undefined) rows.push(`Output resistance ≈ ${formatQuantity(ro, 'Ω')}`);
+    const spread = s.corners.filter((k) => k.iout[out.device] !== undefined);
+    if (spread.length) {
+      const vals = spread.map((k) => k.iout[out.device]);
+      rows.push(`Across ${spread.length} corners: ${formatQuantity(Math.min(...vals), 'A')} to ${formatQuantity(Math.max(...vals), 'A')}${spread.some((k) => k.outOfRegion.includes(out.device)) ? ' (leaves its active region at some corners)' : ''}`);
+    }
+  }
+  if (rows.length) parts.push(bullet(rows));
+  if (s.discrepancy) parts.push(`Why estimate and solve differ: ${s.discrepancy}`);
+  return parts.join('\n\n');
+}
+
+function compareLine(label: string, estimate: number | undefined, solved: number | undefined): string {
+  if (estimate !== undefined && solved !== undefined) {
+    const rel = estimate !== 0 ? (solved - estimate) / Math.abs(estimate) : NaN;
+    return `${label}: hand estimate ${formatQuantity(estimate, 'A')}, solved ${formatQuantity(solved, 'A')}${Number.isFinite(rel) ? ` (${formatPercent(rel)})` : ''}`;
+  }
+  if (solved !== undefined) return `${label}: solved ${formatQuantity(solved, 'A')}`;
+  return `${label}: hand estimate ${formatQuantity(estimate ?? NaN, 'A')}`;
+}
+
+function kindLabel(kind: Structure['kind']): string {
+  switch (kind) {
+    case 'simple-mirror':
+      return 'Simple current mirror';
+    case 'helper-mirror':
+      return 'Current mirror with base-current helper';
+    case 'widlar-source':
+      return 'Widlar current source';
+    case 'wilson-mirror':
+      return 'Wilson current mirror';
+    case 'improved-wilson-mirror':
+      return 'Improved Wilson current mirror';
+    case 'cascode-mirror':
+      return 'Cascode current mirror';
+  }
+}
+
+function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): HoverResult | undefined {
+  const resolved = resolveNodeToken(analysis, uri, card, token);
+  if (resolved.length === 0) return { markdown: `Node **${token.text}** — not in the elaborated circuit.`, span: token.span };
+  const op = analysis.operatingPoint;
+  const sections = resolved.map((r) => {
+    const v = op?.nodes[r.name];
+    const head = `Node **${r.name}**${r.node === 0 ? ' (ground)' : ''}: ${v !== undefined ? formatQuantity(v, 'V') : 'not solved'}`;
+    const conns = connectionsOf(analysis, r.node);
+    const shown = conns.slice(0, 12).map((c) => `${c.element.name} (${c.terminal})`);
+    const more = conns.length > shown.length ? `, and ${conns.length - shown.length} more` : '';
+    return `${head}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
+  });
+  return { markdown: sections.join('\n\n---\n\n'), span: token.span };
+}
+
+function modelHover(
+  analysis: Analysis,
+  uri: string,
+  name: string,
+  scope: SubcktScope | undefined,
+  span: Span,
+  cardStart?: number,
+  elements: Element[] = [],
+): HoverResult | undefined {
+  const models: Model[] = [];
+  for (const el of elements) if ('model' in el && !models.includes(el.model)) models.push(el.model);
+  if (models.length === 0) {
+    const m = findModel(analysis, uri, name, scope, cardStart);
+    if (m) models.push(m);
+  }
+  if (models.length === 0) {
+    const sym = analysis.symbols.models.find((s) => s.name.toLowerCase() === name.toLowerCase());
+    return { markdown: sym ? `Model **${sym.name}** (${sym.kind}) — not accepted by the elaborator (see the findings on its card).` : `Model **${name}** — not defined.`, span };
+  }
+  const sameParams = models.every((m) => JSON.stringify(m.params) === JSON.stringify(models[0].params));
+  const shown = sameParams ? [models[0]] : models;
+  return { markdown: shown.map(modelMarkdown).join('\n\n---\n\n'), span };
+}
+
+/** Finds the elaborated model a name means at a place: a model of the enclosing subcircuit first, then top level. */
+export function findModel(analysis: Analysis, uri: string, name: string, scope: SubcktScope | undefined, cardStart?: number): Model | undefined {
+  const circuit = analysis.circuit;
+  if (!circuit) return undefined;
+  const lower = name.toLowerCase();
+  if (cardStart !== undefined) {
+    const sym = analysis.symbols.models.find((s) => s.uri === uri && s.span.start === cardStart);
+    if (sym?.key && circuit.models[sym.key]) return circuit.models[sym.key];
+  }
+  const candidates = Object.entries(circuit.models).filter(([, m]) => m.name.toLowerCase() === lower);
+  if (scope) {
+    const local = candidates.find(([, m]) => m.origin.uri === uri && m.origin.span.start >= scope.span.start && m.origin.span.end <= scope.span.end);
+    if (local) return local[1];
+  }
+  return circuit.models[lower] ?? candidates[0]?.[1];
+}
+
+function modelMarkdown(m: Model): string {
+  const info = MODEL_PARAMETERS[m.kind] ?? [];
+  const given = new Set(m.given.map((g) => g.toUpperCase()));
+  const names = [...new Set([...info.map((i) => i.name), ...Object.keys(m.params)])];
+  const rows = names
+    .filter((n) => m.params[n] !== undefined)
+    .map((n) => {
+      const meta = info.find((i) => i.name === n);
+      return `| ${n} | ${paramValue(m.params[n], meta)} | ${given.has(n) ? 'given' : 'default'} | ${meta?.meaning ?? ''} |`;
+    });
+  const table = rows.length ? `| Parameter | Value | Source | Meaning |\n|---|---|---|---|\n${rows.join('\n')}` : 'No parameters are read for this model type.';
+  return `Model **${m.name}** — ${m.kind.toUpperCase()}\n\n${table}`;
+}
+
+function paramValue(v: number, meta: ModelParameterInfo | undefined): string {
+  if (!Number.isFinite(v)) return v > 0 ? 'unbounded (∞)' : '−∞';
+  if (meta?.unit && meta.unit.length <= 2 && meta.unit !== 'eV') return formatQuantity(v, meta.unit);
+  return formatNumber(v) + (meta?.unit ? ` ${meta.unit}` : '');
+}
+
+function modelParamHover(analysis: Analysis, uri: string, card: Extract<Card, { kind: 'model' }>, token: Token, scope: SubcktScope | undefined): HoverResult | undefined {
+  const a = card.params.find((p) => p.name === token || p.value === token);
+  if (!a) return undefined;
+  const model = findModel(analysis, uri, card.name.text, scope, card.span.start);
+  const kind = modelKindOf(card.type.text);
+  const pname = a.name.text.toUpperCase();
+  const meta = kind ? MODEL_PARAMETERS[kind].find((i) => i.name === pname) : undefined;
+  const value = model?.params[pname];
+  const text =
+    `**${pname}**${meta ? ` — ${meta.meaning}` : ''}\n\n` +
+    (value !== undefined ? `Value: ${paramValue(value, meta)}` : meta ? 'Not evaluated (see the findings on this card).' : `The engine does not read ${pname} for ${card.type.text.toUpperCase()} models.`);
+  return { markdown: text, span: token.span };
+}
+
+function subcktHover(analysis: Analysis, name: string, span: Span): HoverResult | undefined {
+  const sym = analysis.symbols.subckts.find((s) => s.name.toLowerCase() === name.toLowerCase());
+  if (!sym) return { markdown: `Subcircuit **${name}** — not defined.`, span };
+  const params = Object.entries(sym.params).map(([k, v]) => `${k} = ${v === undefined ? 'not evaluated' : formatNumber(v)}`);
+  return {
+    markdown: `Subcircuit **${sym.name}**\n\nPorts: ${sym.ports.join(' ') || 'none'}${params.length ? `\n\nParameters: ${params.join(', ')}` : ''}`,
+    span,
+  };
+}
+
+function paramMarkdown(p: ParamSymbol): string {
+  const where = p.scope ? `subcircuit ${p.scope}` : 'top level';
+  const value = p.value !== undefined && Number.isFinite(p.value) ? formatNumber(p.value, 6) : 'not evaluated (see the findings on its card)';
+  return `Parameter **${p.name}** (${where}) = ${value}\n\nDefined as \`${p.expression}\``;
+}
+
+function exprHover(analysis: Analysis, uri: string, card: Card, token: Token, scope: SubcktScope | undefined): HoverResult | undefined {
+  if (card.kind === 'element') {
+    const elements = elementsOfCard(analysis, uri, card);
+    const values = elements.map((el) => mainValue(el, card, token)).filter((v): v is string => v !== undefined);
+    if (values.length) return { markdown: `\`${token.text}\` evaluates to ${values.join('; ')}`, span: token.span };
+  }
+  if (card.kind === 'model') return modelParamHover(analysis, uri, card, token, scope);
+  if (card.kind === 'param' || card.kind === 'subckt') {
+    const a = card.params.find((x) => x.value === token);
+    const p = a && analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
+    if (p) return { markdown: paramMarkdown(p), span: token.span };
+  }
+  return { markdown: `\`${token.text}\` — not evaluated here (see the findings on this card).`, span: token.span };
+}
+
+function mainValue(el: Element, card: ElementCard, token: Token): string | undefined {
+  const prefix = el.origin.instances.length ? `${el.origin.instances.map((i) => i.name).join('.')}: ` : '';
+  const param = card.params.find((a) => a.value === token);
+  if (param) {
+    const n = param.name.text.toUpperCase();
+    if (el.kind === 'M' && n === 'W') return prefix + formatQuantity(el.w, 'm');
+    if (el.kind === 'M' && n === 'L') return prefix + formatQuantity(el.l, 'm');
+    if ((el.kind === 'M' || el.kind === 'Q' || el.kind === 'D') && n === 'M') return prefix + formatNumber(el.m);
+    return undefined;
+  }
+  switch (el.kind) {
+    case 'R':
+      return prefix + formatQuantity(el.resistance, 'Ω');
+    case 'C':
+      return prefix + formatQuantity(el.capacitance, 'F');
+    case 'L':
+      return prefix + formatQuantity(el.inductance, 'H');
+    case 'V':
+      return prefix + formatQuantity(el.dc, 'V');
+    case 'I':
+      return prefix + formatQuantity(el.dc, 'A');
+    case 'E':
+    case 'F':
+      return prefix + formatNumber(el.gain);
+    case 'G':
+      return prefix + formatQuantity(el.gain, 'S');
+    case 'H':
+      return prefix + formatQuantity(el.gain, 'Ω');
+    case 'Q':
+    case 'D':
+      return token === card.area ? prefix + formatNumber(el.area) : undefined;
+    default:
+      return undefined;
+  }
+}
+
+function bullet(items: string[]): string {
+  return items.map((i) => `- ${i}`).join('\n');
+}

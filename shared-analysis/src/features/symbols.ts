@@ -1,0 +1,83 @@
+// The outline of a netlist: subcircuits with their devices, models, parameters and recognised bias structures.
+
+import type { Analysis } from '../analysis';
+import type { Span } from '../types';
+import { cardAt, elementByName, subcktScopes } from './document-index';
+
+/** What an outline entry stands for. */
+export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include';
+
+/** One entry of the outline. `span` covers the whole definition, `selectionSpan` its name. */
+export interface OutlineSymbol {
+  name: string;
+  detail: string;
+  kind: OutlineKind;
+  span: Span;
+  selectionSpan: Span;
+  children: OutlineSymbol[];
+}
+
+/** The outline of document `uri`: structures first (their devices as children), then subcircuits, models and parameters in text order. */
+export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[] {
+  const doc = analysis.documents[uri];
+  if (!doc) return [];
+  const out: OutlineSymbol[] = [];
+
+  for (const s of analysis.structures) {
+    const ref = elementByName(analysis, s.reference.device);
+    if (!ref || ref.origin.uri !== uri) continue;
+    const children: OutlineSymbol[] = [];
+    for (const d of s.devices) {
+      const el = elementByName(analysis, d);
+      if (!el || el.origin.uri !== uri) continue;
+      const role = d.toLowerCase() === s.reference.device.toLowerCase() ? 'reference' : s.outputs.some((o) => o.device.toLowerCase() === d.toLowerCase()) ? 'output' : 'device';
+      const card = cardAt(doc, el.origin.span.start);
+      const sel = card?.kind === 'element' ? card.name.span : el.origin.span;
+      children.push({ name: d, detail: role, kind: 'device', span: el.origin.span, selectionSpan: sel, children: [] });
+    }
+    const spans = children.map((c) => c.span);
+    const span = spans.length ? { start: Math.min(...spans.map((x) => x.start)), end: Math.max(...spans.map((x) => x.end)) } : ref.origin.span;
+    const label = s.kind.replace(/-/g, ' ');
+    out.push({
+      name: `${s.instance}${label} (${s.reference.device})`,
+      detail: `${s.technology.toUpperCase()}, ${s.outputs.length} output${s.outputs.length === 1 ? '' : 's'}`,
+      kind: 'structure',
+      span,
+      selectionSpan: children[0]?.selectionSpan ?? ref.origin.span,
+      children,
+    });
+  }
+
+  const defs: OutlineSymbol[] = [];
+  const scopes = subcktScopes(doc);
+  for (const sc of scopes) {
+    const children: OutlineSymbol[] = [];
+    for (const card of doc.cards) {
+      if (card.kind !== 'element' || card.span.start < sc.span.start || card.span.end > sc.span.end) continue;
+      children.push({ name: card.name.text, detail: card.letter, kind: 'device', span: card.span, selectionSpan: card.name.span, children: [] });
+    }
+    defs.push({ name: sc.card.name.text, detail: `ports ${sc.card.ports.map((p) => p.text).join(' ')}`, kind: 'subcircuit', span: sc.span, selectionSpan: sc.card.name.span, children });
+  }
+  for (const m of analysis.symbols.models) {
+    if (m.uri !== uri) continue;
+    defs.push({ name: m.name, detail: m.kind.toUpperCase(), kind: 'model', span: m.span, selectionSpan: m.nameSpan, children: [] });
+  }
+  for (const p of analysis.symbols.params) {
+    if (p.uri !== uri) continue;
+    defs.push({ name: p.name, detail: p.expression, kind: 'parameter', span: p.span, selectionSpan: p.nameSpan, children: [] });
+  }
+  for (const inc of analysis.symbols.includes) {
+    if (inc.uri !== uri) continue;
+    defs.push({ name: inc.target, detail: inc.found ? 'included file' : 'included file (not found)', kind: 'include', span: inc.span, selectionSpan: inc.span, children: [] });
+  }
+  defs.sort((a, b) => a.span.start - b.span.start);
+  // Symbols declared inside a subcircuit body belong under it.
+  const top: OutlineSymbol[] = [];
+  for (const d of defs) {
+    const parent = d.kind !== 'subcircuit' ? top.find((t) => t.kind === 'subcircuit' && t.span.start < d.span.start && d.span.end <= t.span.end) : undefined;
+    if (parent) parent.children.push(d);
+    else top.push(d);
+  }
+  for (const t of top) t.children.sort((a, b) => a.span.start - b.span.start);
+  return [...out, ...top];
+}

@@ -1,0 +1,130 @@
+// What each element letter, dot card and model parameter means: the words hovers and completions show.
+
+import { MODEL_DEFAULTS, type ModelKind } from '../circuit';
+
+/** One element letter: what it is and the order of its fields. */
+export interface ElementLetterInfo {
+  letter: string;
+  title: string;
+  fields: string;
+  note: string;
+}
+
+export const ELEMENT_LETTERS: ElementLetterInfo[] = [
+  { letter: 'R', title: 'Resistor', fields: 'Rname node1 node2 value [M=count]', note: 'Value in ohms; M= puts copies in parallel.' },
+  { letter: 'C', title: 'Capacitor', fields: 'Cname node1 node2 value', note: 'Open circuit at DC.' },
+  { letter: 'L', title: 'Inductor', fields: 'Lname node1 node2 value', note: 'Short circuit at DC; its current is solved.' },
+  { letter: 'V', title: 'Voltage source', fields: 'Vname plus minus [DC] value', note: 'Holds V(plus) − V(minus) at the value; a transient form contributes its t = 0 value.' },
+  { letter: 'I', title: 'Current source', fields: 'Iname plus minus [DC] value', note: 'The value in amperes flows from plus through the source to minus.' },
+  { letter: 'E', title: 'Voltage-controlled voltage source', fields: 'Ename out+ out− control+ control− gain', note: 'V(out) = gain · V(control).' },
+  { letter: 'G', title: 'Voltage-controlled current source', fields: 'Gname out+ out− control+ control− transconductance', note: 'gain · V(control) flows from out+ through the element to out−.' },
+  { letter: 'F', title: 'Current-controlled current source', fields: 'Fname out+ out− Vcontrol gain', note: 'gain · I(Vcontrol) flows from out+ through the element to out−.' },
+  { letter: 'H', title: 'Current-controlled voltage source', fields: 'Hname out+ out− Vcontrol transresistance', note: 'V(out) = gain · I(Vcontrol).' },
+  { letter: 'D', title: 'Diode', fields: 'Dname anode cathode model [area]', note: 'Uses a .model of type D.' },
+  { letter: 'Q', title: 'Bipolar transistor', fields: 'Qname collector base emitter [substrate] model [area] [M=count]', note: 'Uses a .model of type NPN or PNP; area multiplies IS.' },
+  { letter: 'M', title: 'MOS transistor', fields: 'Mname drain gate source bulk model W=width L=length [M=count]', note: 'Uses a .model of type NMOS or PMOS (square law).' },
+  { letter: 'X', title: 'Subcircuit instance', fields: 'Xname node… subcircuit [param=value …]', note: 'Copies a .subckt body; its devices are named Xname.device.' },
+];
+
+/** One dot card: its form and a one-line description. */
+export interface DotCardInfo {
+  name: string;
+  form: string;
+  description: string;
+}
+
+export const DOT_CARDS: DotCardInfo[] = [
+  { name: '.model', form: '.model name type (param=value …)', description: 'Defines device parameters for D, Q or M elements (types D, NPN, PNP, NMOS, PMOS, R).' },
+  { name: '.param', form: '.param name=value …', description: 'Defines named values usable in {expressions}.' },
+  { name: '.subckt', form: '.subckt name port… [param=default …]', description: 'Starts a reusable subcircuit body, ended by .ends.' },
+  { name: '.ends', form: '.ends [name]', description: 'Ends the current subcircuit body.' },
+  { name: '.include', form: '.include "path"', description: 'Reads the cards of another file in place.' },
+  { name: '.lib', form: '.lib "path" section', description: 'Reads one section of a library file (or, inside a library, starts a section).' },
+  { name: '.endl', form: '.endl [section]', description: 'Ends a library section.' },
+  { name: '.temp', form: '.temp celsius', description: 'Sets the analysis temperature in °C (27 °C by default).' },
+  { name: '.option', form: '.option tnom=celsius …', description: 'Sets analysis options, such as the nominal model temperature tnom.' },
+  { name: '.op', form: '.op', description: 'Asks for the DC operating point (qpoint always solves it).' },
+  { name: '.end', form: '.end', description: 'Ends the netlist: nothing after it is read.' },
+];
+
+/** Meaning and unit of one model parameter. */
+export interface ModelParameterInfo {
+  name: string;
+  meaning: string;
+  unit: string;
+}
+
+const BJT_PARAMS: ModelParameterInfo[] = [
+  { name: 'IS', meaning: 'transport saturation current', unit: 'A' },
+  { name: 'BF', meaning: 'ideal forward current gain (beta)', unit: '' },
+  { name: 'BR', meaning: 'ideal reverse current gain', unit: '' },
+  { name: 'NF', meaning: 'forward emission coefficient', unit: '' },
+  { name: 'NR', meaning: 'reverse emission coefficient', unit: '' },
+  { name: 'VAF', meaning: 'forward Early voltage', unit: 'V' },
+  { name: 'XTI', meaning: 'temperature exponent of IS', unit: '' },
+  { name: 'EG', meaning: 'band-gap energy used for the temperature dependence of IS', unit: 'eV' },
+];
+
+const MOS_PARAMS: ModelParameterInfo[] = [
+  { name: 'KP', meaning: 'transconductance parameter (µ·Cox)', unit: 'A/V²' },
+  { name: 'VTO', meaning: 'threshold voltage at zero bulk bias', unit: 'V' },
+  { name: 'LAMBDA', meaning: 'channel-length modulation', unit: '1/V' },
+  { name: 'GAMMA', meaning: 'body-effect coefficient', unit: '√V' },
+  { name: 'PHI', meaning: 'surface potential', unit: 'V' },
+];
+
+/** Model parameters the engine reads, per model kind, with their meaning. */
+export const MODEL_PARAMETERS: Record<ModelKind, ModelParameterInfo[]> = {
+  npn: BJT_PARAMS,
+  pnp: BJT_PARAMS,
+  d: [
+    { name: 'IS', meaning: 'saturation current', unit: 'A' },
+    { name: 'N', meaning: 'emission coefficient', unit: '' },
+    { name: 'RS', meaning: 'series resistance', unit: 'Ω' },
+    { name: 'XTI', meaning: 'temperature exponent of IS', unit: '' },
+    { name: 'EG', meaning: 'band-gap energy used for the temperature dependence of IS', unit: 'eV' },
+  ],
+  nmos: MOS_PARAMS,
+  pmos: MOS_PARAMS,
+  r: [],
+};
+
+/** The model kinds a model type word names (`npn` → npn), or undefined. */
+export function modelKindOf(type: string): ModelKind | undefined {
+  const t = type.toLowerCase();
+  return t === 'npn' || t === 'pnp' || t === 'd' || t === 'nmos' || t === 'pmos' || t === 'r' ? t : undefined;
+}
+
+/** The default of a model parameter, if the engine has one. */
+export function defaultOf(kind: ModelKind, param: string): number | undefined {
+  if (kind === 'r') return undefined;
+  return MODEL_DEFAULTS[kind][param.toUpperCase()];
+}
+
+/** Which model kinds an element letter accepts. */
+export function modelKindsFor(letter: string): ModelKind[] {
+  switch (letter.toUpperCase()) {
+    case 'Q':
+      return ['npn', 'pnp'];
+    case 'M':
+      return ['nmos', 'pmos'];
+    case 'D':
+      return ['d'];
+    case 'R':
+      return ['r'];
+    default:
+      return [];
+  }
+}
+
+/** Instance parameters of element cards, with their meaning. */
+export const INSTANCE_PARAMETERS: Record<string, ModelParameterInfo[]> = {
+  M: [
+    { name: 'W', meaning: 'channel width', unit: 'm' },
+    { name: 'L', meaning: 'channel length', unit: 'm' },
+    { name: 'M', meaning: 'number of parallel devices', unit: '' },
+  ],
+  Q: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
+  D: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
+  R: [{ name: 'M', meaning: 'number of parallel resistors', unit: '' }],
+};
