@@ -1,0 +1,612 @@
+// Target currents written as netlist comments: reading them, and checking the bias point against them.
+
+/*
+ * TARGET NOTATION
+ *
+ * A target says which DC current an element should carry. It lives inside a netlist comment,
+ * so any other netlist reader skips it. The comment's first word is `expect` (any case).
+ *
+ * Two places:
+ *
+ *   1. At the end of an element card, for that element:
+ *
+ *        Q2 out bias 0 qn   ; expect 1mA ±5%
+ *        R1 vcc bias 8.2k   $ expect 1.1mA +-2%
+ *
+ *   2. On a comment line of its own, naming the element:
+ *
+ *        * expect Q2 = 1mA ±5%
+ *        * expect X1.Q3 = 250uA
+ *
+ *      Inside a .subckt definition the name is the local one (Q3), and the target applies to
+ *      every instance of that subcircuit.
+ *
+ * Grammar (spaces are optional between the parts, except after `expect`):
+ *
+ *   annotation  := "expect" SPACE [ element "=" ] current [ tolerance ] [ corner-clause ]
+ *   element     := an element name as written; hierarchical names with "." are allowed
+ *   current     := a netlist number, optionally followed by the unit letter A:
+ *                  1mA, 250u, 1.2e-3, 0.5 mA
+ *   tolerance   := ( "±" | "+-" | "+/-" ) number "%"
+ *   corner-clause := "corners" tolerance
+ *
+ * A comment whose first word is `expect` but which holds neither a digit nor `=` is prose and is
+ * ignored. The element is required on a comment line of its own and must be left out at the end of a
+ * card. The current is a magnitude (the direction is the device's own): a BJT's collector
+ * current, a MOSFET's drain current, a diode's forward current, a resistor's or source's current.
+ * The tolerance defaults to the chosen resistor series' tolerance (E24: ±5 %). The corner clause
+ * sets how far the current may move across supply, temperature and beta corners; without it the
+ * corners are checked against the nominal tolerance and reported as information only.
+ *
+ * Examples:
+ *   * expect QOUT = 2mA ±10% corners ±25%
+ *   R2 e2 0 1.2k ; expect 100uA
+ */
+
+import type { Circuit, Element } from '../circuit';
+import type { ResolvedOptions } from '../analysis';
+import { parseNumber, splitSuffix } from '../elaborate/units';
+import { seriesTolerance } from '../fixes/e-series';
+import { formatEngineering, formatPercent } from '../fixes/format';
+import type { OperatingPoint } from '../solve/types';
+import type { Structure } from '../structures/types';
+import type { Card, ElementCard, ParsedDocument } from '../syntax/ast';
+import type { Finding, Severity, Span } from '../types';
+
+/** Finding codes this module owns, with their default severity and a one-line summary for the README. */
+export const TARGET_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'target-unreadable': {
+    severity: 'warning',
+    summary: 'An `expect` comment could not be read as a target current; the message says which part is wrong.',
+  },
+  'target-not-applicable': {
+    severity: 'warning',
+    summary: 'A target names no element of the circuit, or an element that carries no DC current of its own.',
+  },
+  'target-missed': {
+    severity: 'warning',
+    summary: 'At the nominal bias point an element’s current misses its target by more than the tolerance (an error beyond three times the tolerance).',
+  },
+  'target-missed-at-corner': {
+    severity: 'info',
+    summary: 'An element meets its target at nominal but leaves the tolerance at a supply/temperature/beta corner (a warning when the target gives its own corner tolerance).',
+  },
+};
+
+/** What an annotation applies to: an element by (possibly hierarchical) name, or the element card it sits on. */
+export type TargetSubject =
+  | { kind: 'name'; name: string; nameSpan: Span }
+  | { kind: 'card'; name: string; cardSpan: Span };
+
+/** One target read from the netlist text. */
+export interface Target {
+  /** Document of the annotation. */
+  uri: string;
+  /** The annotation text from `expect` to the end of the comment. */
+  span: Span;
+  /** The current's text. */
+  currentSpan: Span;
+  subject: TargetSubject;
+  /** Target current magnitude, amperes (> 0). */
+  current: number;
+  /** Relative tolerance (0.05 for ±5 %) when the annotation gives one. */
+  tolerance?: number;
+  /** Relative tolerance over the corners when the annotation gives one. */
+  cornerTolerance?: number;
+}
+
+const MINUS_LIKE = /^(±|\+\/-|\+-)/;
+
+/** Element letters whose current a target can name. */
+const CURRENT_CARRIERS = new Set(['R', 'L', 'V', 'I', 'E', 'F', 'G', 'H', 'D', 'Q', 'M']);
+
+interface Parsed {
+  target?: Omit<Target, 'uri' | 'span' | 'subject'> & { name?: string; nameSpan?: Span };
+  problem?: { message: string; span: Span };
+}
+
+/**
+ * Reads one annotation body. `text` starts right after `expect` and its whitespace; `base`
+ * is its offset in the document. `named` says whether an element name is required.
+ */
+function parseAnnotation(text: string, base: number, named: boolean, whole: Span): Parsed {
+  let i = 0;
+  const skip = (): void => {
+    while (i < text.length && /\s/.test(text[i])) i++;
+  };
+  const at = (start: number, end: number): Span => ({ start: base + start, end: base + Math.max(end, start + 1) });
+  const example = named ? '`* expect Q2 = 1mA ±5%`' : '`; expect 1mA ±5%`';
+
+  let name: string | undefined;
+  let nameSpan: Span | undefined;
+  const eq = text.indexOf('=');
+  if (named) {
+    if (eq < 0) {
+      return { problem: { message: `A target on a comment line of its own names the element and its current, as in ${example}; this one has no \`=\`.`, span: whole } };
+    }
+    const rawName = text.slice(0, eq);
+    const trimmedName = rawName.trim();
+    if (!/^[A-Za-z][^\s=()]*$/.test(trimmedName)) {
+      const s = rawName.length - rawName.trimStart().length;
+      return {
+        problem: {
+          message: trimmedName === ''
+            ? `The target names no element before \`=\`; write it as ${example}.`
+            : `\`${trimmedName}\` is not an element name; an element name starts with its letter (R, Q, M, D, V, I …), as in ${example}.`,
+          span: at(s, s + Math.max(trimmedName.length, 1)),
+        },
+      };
+    }
+    const s = rawName.length - rawName.trimStart().length;
+    name = trimmedName;
+    nameSpan = at(s, s + trimmedName.length);
+    i = eq + 1;
+  } else if (eq >= 0 && /^[A-Za-z][^\s=]*\s*=/.test(text)) {
+    return {
+      problem: {
+        message: 'A target at the end of an element card applies to that element, so it names no element; write it as `; expect 1mA ±5%`.',
+        span: at(0, eq + 1),
+      },
+    };
+  }
+
+  skip();
+  // The current: a number, then (after optional space) its suffix and unit letters.
+  const m = /^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)(\s*)([A-Za-zµμ]*(?:\d[\w.]*)?)/.exec(text.slice(i));
+  if (!m || m[1] === '') {
+    const word = /^\S*/.exec(text.slice(i))![0];
+    return {
+      problem: {
+        message: word === ''
+          ? `The target gives no current; write it as ${example}.`
+          : `\`${word}\` is not a current; a target current is a number with an optional suffix and the unit A, such as 1mA or 250u.`,
+        span: at(i, i + Math.max(word.length, 1)),
+      },
+    };
+  }
+  const currentStart = i;
+  const numberText = m[1] + m[3];
+  const currentEnd = i + m[0].length;
+  const read = parseNumber(numberText);
+  if (!read.ok) return { problem: { message: read.message, span: at(currentStart, currentEnd) } };
+  // A letter run that is a unit of another quantity (1mV, 2kOhm) means the annotation is not a current.
+  const unit = splitSuffix(m[3]).unit;
+  if (unit !== '' && unit.toLowerCase() !== 'a') {
+    return {
+      problem: {
+        message: `A target is a current in amperes, but \`${numberText}\` ends in the unit \`${unit}\`; write it as, for example, 1mA.`,
+        span: at(currentStart, currentEnd),
+      },
+    };
+  }
+  if (!(read.value > 0)) {
+    return {
+      problem: {
+        message: `A target current must be a positive magnitude (the direction is the element’s own), but \`${numberText}\` is ${read.value === 0 ? 'zero' : 'negative'}.`,
+        span: at(currentStart, currentEnd),
+      },
+    };
+  }
+  i = currentEnd;
+
+  const readTolerance = (what: string): { value?: number; problem?: Parsed['problem'] } => {
+    skip();
+    const rest = text.slice(i);
+    const sign = MINUS_LIKE.exec(rest);
+    if (!sign) {
+      const word = /^\S*/.exec(rest)![0];
+      return { problem: { message: `${what} starts with ± (or +- or +/-), as in ±5%; \`${word}\` does not.`, span: at(i, i + Math.max(word.length, 1)) } };
+    }
+    const start = i;
+    i += sign[0].length;
+    skip();
+    const num = /^(\d+\.?\d*|\.\d+)(\s*)(%?)/.exec(text.slice(i));
+    if (!num) {
+      const word = /^\S*/.exec(text.slice(i))![0];
+      return { problem: { message: `${what} needs a number of percent after ±, as in ±5%; \`${word}\` is not one.`, span: at(start, i + Math.max(word.length, 1)) } };
+    }
+    i += num[0].length;
+    if (num[3] !== '%') {
+      return { problem: { message: `${what} is written in percent; add the % sign, as in ±${num[1]}%.`, span: at(start, i) } };
+    }
+    const pct = Number(num[1]);
+    if (!(pct > 0 && pct < 100)) {
+      return { problem: { message: `${what} must lie between 0 % and 100 % (exclusive); ±${num[1]}% does not.`, span: at(start, i) } };
+    }
+    return { value: pct / 100 };
+  };
+
+  let tolerance: number | undefined;
+  let cornerTolerance: number | undefined;
+  skip();
+  if (MINUS_LIKE.test(text.slice(i))) {
+    const t = readTolerance('A target tolerance');
+    if (t.problem) return { problem: t.problem };
+    tolerance = t.value;
+  }
+  skip();
+  const cornerWord = /^corners\b/i.exec(text.slice(i));
+  if (cornerWord) {
+    i += cornerWord[0].length;
+    const t = readTolerance('The corner tolerance');
+    if (t.problem) return { problem: t.problem };
+    cornerTolerance = t.value;
+  }
+  skip();
+  if (i < text.length) {
+    const word = text.slice(i).trimEnd();
+    return {
+      problem: {
+        message: `The target ends with \`${word.length > 30 ? word.slice(0, 27) + '…' : word}\`, which it cannot read; after the current come only an optional tolerance (±5%) and an optional corner tolerance (corners ±20%).`,
+        span: at(i, i + word.length),
+      },
+    };
+  }
+  return {
+    target: {
+      name,
+      nameSpan,
+      current: read.value,
+      currentSpan: at(currentStart, currentEnd),
+      tolerance,
+      cornerTolerance,
+    },
+  };
+}
+
+/** The `expect` annotation inside a comment body, if the comment is one. */
+function annotationIn(text: string, bodyStart: number, bodyEnd: number): { after: number; span: Span } | undefined {
+  const body = text.slice(bodyStart, bodyEnd);
+  const m = /^\s*(expect)(\s+|$)/i.exec(body);
+  // A prose comment that happens to start with "expect" has neither a number nor `=`; leave it alone.
+  if (!m || !/[\d=]/.test(body.slice(m[0].length))) return undefined;
+  const keyword = bodyStart + body.indexOf(m[1]);
+  let end = bodyEnd;
+  while (end > keyword && /\s/.test(text[end - 1])) end--;
+  return { after: bodyStart + m[0].length, span: { start: keyword, end } };
+}
+
+/** End-of-line comments of an element card: each `;` or `$ ` outside the card's tokens, to the end of its line. */
+function endOfLineComments(text: string, card: ElementCard): { start: number; end: number }[] {
+  const out: { start: number; end: number }[] = [];
+  const tokens = [...card.tokens].sort((a, b) => a.span.start - b.span.start);
+  let t = 0;
+  for (let p = card.span.start; p < card.span.end; p++) {
+    while (t < tokens.length && tokens[t].span.end <= p) t++;
+    if (t < tokens.length && tokens[t].span.start <= p && p < tokens[t].span.end) {
+      p = tokens[t].span.end - 1;
+      continue;
+    }
+    const c = text[p];
+    const isComment = c === ';' || (c === '$' && (p + 1 >= text.length || /\s/.test(text[p + 1])));
+    if (!isComment) continue;
+    let end = p + 1;
+    while (end < text.length && text[end] !== '\n' && text[end] !== '\r') end++;
+    out.push({ start: p + 1, end });
+    p = end;
+  }
+  return out;
+}
+
+/**
+ * Reads every target annotation of every document. Malformed annotations give a located
+ * `target-unreadable` finding; a standalone annotation inside a `.subckt` whose element is not
+ * defined there gives `target-not-applicable`. Never throws.
+ */
+export function readTargets(documents: Record<string, ParsedDocument>): { targets: Target[]; findings: Finding[] } {
+  const targets: Target[] = [];
+  const findings: Finding[] = [];
+  for (const uri of Object.keys(documents).sort()) {
+    const doc = documents[uri];
+    const text = doc.text;
+    // Element cards per .subckt definition, for standalone annotations inside one.
+    const stack: { name: string; cards: ElementCard[]; pending: { target: Target; local: string }[] }[] = [];
+    const close = (frame: (typeof stack)[number]): void => {
+      for (const { target, local } of frame.pending) {
+        const card = frame.cards.find((c) => c.name.text.toLowerCase() === local.toLowerCase());
+        if (card) {
+          targets.push({ ...target, subject: { kind: 'card', name: card.name.text, cardSpan: card.span } });
+        } else {
+          findings.push({
+            code: 'target-not-applicable',
+            severity: TARGET_CODES['target-not-applicable'].severity,
+            message: `The target names ${local}, but subcircuit ${frame.name} defines no element of that name.`,
+            uri,
+            span: target.subject.kind === 'name' ? target.subject.nameSpan : target.span,
+            data: { element: local, subcircuit: frame.name },
+          });
+        }
+      }
+    };
+
+    const handle = (bodyStart: number, bodyEnd: number, card: ElementCard | undefined): void => {
+      const found = annotationIn(text, bodyStart, bodyEnd);
+      if (!found) return;
+      const result = parseAnnotation(text.slice(found.after, found.span.end), found.after, card === undefined, found.span);
+      if (result.problem || !result.target) {
+        findings.push({
+          code: 'target-unreadable',
+          severity: TARGET_CODES['target-unreadable'].severity,
+          message: result.problem?.message ?? 'The target could not be read.',
+          uri,
+          span: result.problem?.span ?? found.span,
+          data: { annotation: text.slice(found.span.start, found.span.end) },
+        });
+        return;
+      }
+      const t = result.target;
+      const base = { uri, span: found.span, currentSpan: t.currentSpan, current: t.current, tolerance: t.tolerance, cornerTolerance: t.cornerTolerance };
+      if (card) {
+        if (card.letter === 'X' || card.letter === 'C' || !CURRENT_CARRIERS.has(card.letter)) {
+          findings.push({
+            code: 'target-not-applicable',
+            severity: TARGET_CODES['target-not-applicable'].severity,
+            message: card.letter === 'X'
+              ? `A target on the subcircuit instance ${card.name.text} does not say which device it means; put a comment line such as \`* expect ${card.name.text}.Q1 = 1mA\` instead.`
+              : `${card.name.text} is a capacitor, which carries no DC current, so it cannot have a target current.`,
+            uri,
+            span: found.span,
+            data: { element: card.name.text },
+          });
+          return;
+        }
+        targets.push({ ...base, subject: { kind: 'card', name: card.name.text, cardSpan: card.span } });
+        return;
+      }
+      const pending: Target = { ...base, subject: { kind: 'name', name: t.name!, nameSpan: t.nameSpan! } };
+      const frame = stack[stack.length - 1];
+      if (frame) frame.pending.push({ target: pending, local: t.name! });
+      else targets.push(pending);
+    };
+
+    const cards: Card[] = doc.cards;
+    for (const card of cards) {
+      if (card.kind === 'subckt') {
+        stack.push({ name: card.name.text, cards: [], pending: [] });
+      } else if (card.kind === 'ends') {
+        const frame = stack.pop();
+        if (frame) close(frame);
+      } else if (card.kind === 'comment') {
+        const star = text.indexOf('*', card.span.start);
+        const bodyStart = star >= 0 && star < card.span.end ? star + 1 : card.span.start;
+        handle(bodyStart, card.span.end, undefined);
+      } else if (card.kind === 'element') {
+        stack[stack.length - 1]?.cards.push(card);
+        for (const c of endOfLineComments(text, card)) handle(c.start, c.end, card);
+      }
+    }
+    // An unterminated .subckt still gets its annotations resolved.
+    while (stack.length > 0) close(stack.pop()!);
+  }
+  targets.sort((a, b) => (a.uri < b.uri ? -1 : a.uri > b.uri ? 1 : a.span.start - b.span.start));
+  return { targets, findings };
+}
+
+/** The elements a target applies to: by hierarchical name, or every flattened copy of its card. */
+export function targetElements(circuit: Circuit, target: Target): Element[] {
+  if (target.subject.kind === 'name') {
+    const want = target.subject.name.toLowerCase();
+    return circuit.elements.filter((e) => e.name.toLowerCase() === want);
+  }
+  const { cardSpan } = target.subject;
+  return circuit.elements.filter((e) => e.origin.uri === target.uri && e.origin.span.start === cardSpan.start);
+}
+
+/** The DC current magnitude an element carries at an operating point, when the point has it. */
+export function solvedCurrent(op: OperatingPoint, element: string): number | undefined {
+  const rec = op.devices[element];
+  if (!rec) return undefined;
+  const value = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  return Number.isFinite(value) ? Math.abs(value) : undefined;
+}
+
+/** How an element takes part in a structure, for estimates, corners and sizing. */
+export interface StructureRole {
+  structure: Structure;
+  role: 'output' | 'reference-device' | 'reference-resistor' | 'degeneration-resistor';
+}
+
+/** The structure role of an element: an output device, the reference device, a resistor of the reference chain, or a Widlar emitter resistor. */
+export function structureRole(circuit: Circuit, structures: Structure[], element: Element): StructureRole | undefined {
+  const name = element.name.toLowerCase();
+  for (const s of structures) {
+    if (s.outputs.some((o) => o.device.toLowerCase() === name)) return { structure: s, role: 'output' };
+    if (s.reference.device.toLowerCase() === name) return { structure: s, role: 'reference-device' };
+    if (s.reference.feed === 'resistor' && s.reference.elements.some((e) => e.toLowerCase() === name)) {
+      return { structure: s, role: 'reference-resistor' };
+    }
+  }
+  if (element.kind === 'R') {
+    for (const s of structures) {
+      if (s.kind !== 'widlar-source') continue;
+      const r = degenerationResistor(circuit, s);
+      if (r && r.toLowerCase() === name) return { structure: s, role: 'degeneration-resistor' };
+    }
+  }
+  return undefined;
+}
+
+/** The emitter (source) resistor of a Widlar source's output device, when there is exactly one. */
+export function degenerationResistor(circuit: Circuit, s: Structure): string | undefined {
+  const out = s.outputs[0];
+  if (!out) return undefined;
+  const dev = circuit.elements.find((e) => e.name.toLowerCase() === out.device.toLowerCase());
+  if (!dev || (dev.kind !== 'Q' && dev.kind !== 'M')) return undefined;
+  const emitter = dev.nodes[2];
+  const refDev = circuit.elements.find((e) => e.name.toLowerCase() === s.reference.device.toLowerCase());
+  const refEmitter = refDev && (refDev.kind === 'Q' || refDev.kind === 'M') ? refDev.nodes[2] : undefined;
+  const candidates = circuit.elements.filter(
+    (e) => e.kind === 'R' && e.nodes.includes(emitter) && (refEmitter === undefined || e.nodes.includes(refEmitter)),
+  );
+  return candidates.length === 1 ? candidates[0].name : undefined;
+}
+
+/** The resistor a sizing fix would change to move an element's current, and the structure it acts through. */
+export function sizingKnob(circuit: Circuit, structures: Structure[], element: Element): { resistor: string; structureId?: string } | undefined {
+  const role = structureRole(circuit, structures, element);
+  if (role) {
+    const s = role.structure;
+    if (role.role === 'degeneration-resistor') return { resistor: element.name, structureId: s.id };
+    if (role.role === 'output' && s.kind === 'widlar-source') {
+      const r2 = degenerationResistor(circuit, s);
+      if (r2) return { resistor: r2, structureId: s.id };
+    }
+    if (s.reference.feed === 'resistor' && s.reference.elements.length > 0) {
+      const chain = s.reference.elements
+        .map((n) => circuit.elements.find((e) => e.name.toLowerCase() === n.toLowerCase()))
+        .filter((e): e is Extract<Element, { kind: 'R' }> => !!e && e.kind === 'R');
+      // The largest resistor of the chain sets the current; changing it moves the current most.
+      const biggest = chain.sort((a, b) => b.resistance - a.resistance)[0];
+      if (biggest) return { resistor: biggest.name, structureId: s.id };
+    }
+  }
+  if (element.kind === 'R') return { resistor: element.name };
+  return undefined;
+}
+
+/** The estimate of an element's current from its structure's hand analysis, when there is one. */
+function estimatedCurrent(role: StructureRole | undefined, element: Element): number | undefined {
+  const est = role?.structure.estimate;
+  if (!est || !role) return undefined;
+  const v = role.role === 'output' ? est.iout[element.name] ?? findCaseless(est.iout, element.name) : role.role === 'degeneration-resistor' ? Object.values(est.iout)[0] : est.iref;
+  return v !== undefined && Number.isFinite(v) ? Math.abs(v) : undefined;
+}
+
+function findCaseless(map: Record<string, number>, key: string): number | undefined {
+  const k = Object.keys(map).find((x) => x.toLowerCase() === key.toLowerCase());
+  return k === undefined ? undefined : map[k];
+}
+
+/** Context for `checkTargets`: the circuit, its nominal point (if solved), structures (with corners filled when they ran). */
+export interface TargetCheckContext {
+  circuit: Circuit;
+  op?: OperatingPoint;
+  structures: Structure[];
+  targets: Target[];
+  options: ResolvedOptions;
+}
+
+const fmtA = (v: number): string => formatEngineering(v, { unit: 'A' });
+const fmtTol = (t: number): string => `±${formatPercentPlain(t)}`;
+function formatPercentPlain(t: number): string {
+  return `${Number((t * 100).toPrecision(3))} %`;
+}
+
+/**
+ * Checks every target at the nominal point (`target-missed`) and at the corners recorded on the
+ * structures (`target-missed-at-corner`). The current compared is the solved one when the
+ * operating point converged, else the hand estimate; the message gives both when both exist.
+ * The finding's data carries what a resistor-sizing fix needs: `{ element, target, tolerance,
+ * measured, resistor?, structureId?, series }`.
+ */
+export function checkTargets(ctx: TargetCheckContext): Finding[] {
+  const { circuit, op, structures, targets, options } = ctx;
+  const findings: Finding[] = [];
+  const defaultTolerance = seriesTolerance(options.resistorSeries);
+  for (const target of targets) {
+    const elements = targetElements(circuit, target);
+    if (elements.length === 0) {
+      if (target.subject.kind === 'name') {
+        findings.push({
+          code: 'target-not-applicable',
+          severity: TARGET_CODES['target-not-applicable'].severity,
+          message: `The target names ${target.subject.name}, but the circuit has no element of that name (subcircuit devices are named through their instance, as in X1.Q2).`,
+          uri: target.uri,
+          span: target.subject.nameSpan,
+          data: { element: target.subject.name },
+        });
+      }
+      // A card-attached target inside a subcircuit that is never instantiated applies to nothing, which is not a mistake.
+      continue;
+    }
+    const tolerance = target.tolerance ?? defaultTolerance;
+    for (const element of elements) {
+      if (element.kind === 'C') {
+        findings.push({
+          code: 'target-not-applicable',
+          severity: TARGET_CODES['target-not-applicable'].severity,
+          message: `${element.name} is a capacitor, which carries no DC current, so it cannot have a target current.`,
+          uri: target.uri,
+          span: target.span,
+          data: { element: element.name },
+        });
+        continue;
+      }
+      const role = structureRole(circuit, structures, element);
+      const estimate = estimatedCurrent(role, element);
+      const solved = op && op.converged ? solvedCurrent(op, element.name) : undefined;
+      const measured = solved ?? estimate;
+      if (measured === undefined) continue;
+      const error = measured / target.current - 1;
+      const knob = sizingKnob(circuit, structures, element);
+      const data: Record<string, unknown> = {
+        element: element.name,
+        target: target.current,
+        tolerance,
+        measured,
+        source: solved !== undefined ? 'operating-point' : 'hand-estimate',
+        error,
+        series: options.resistorSeries,
+      };
+      if (estimate !== undefined) data['estimate'] = estimate;
+      if (solved !== undefined) data['solved'] = solved;
+      if (knob) {
+        data['resistor'] = knob.resistor;
+        if (knob.structureId) data['structureId'] = knob.structureId;
+      }
+
+      if (Math.abs(error) > tolerance) {
+        const both =
+          solved !== undefined && estimate !== undefined
+            ? `${fmtA(solved)} at the operating point (hand estimate ${fmtA(estimate)})`
+            : solved !== undefined
+              ? `${fmtA(solved)} at the operating point`
+              : `${fmtA(estimate!)} by hand estimate (the operating point did not converge)`;
+        const fixHint = knob ? ` Changing ${knob.resistor} moves it; see the offered values.` : '';
+        findings.push({
+          code: 'target-missed',
+          severity: Math.abs(error) > 3 * tolerance ? 'error' : TARGET_CODES['target-missed'].severity,
+          message: `${element.name} carries ${both}, ${formatPercent(error)} from its target of ${fmtA(target.current)} ${fmtTol(tolerance)}.${fixHint}`,
+          uri: target.uri,
+          span: target.span,
+          data,
+        });
+        continue;
+      }
+
+      // Corners: only for elements a structure measures, and only when nominal is on target.
+      if (!role) continue;
+      const cornerTol = target.cornerTolerance ?? tolerance;
+      let worst: { label: string; current: number; error: number } | undefined;
+      let misses = 0;
+      let counted = 0;
+      for (const c of role.structure.corners) {
+        if (!c.converged) continue;
+        const i = cornerCurrent(c.iout, c.iref, role, element.name);
+        if (i === undefined) continue;
+        counted++;
+        const e = i / target.current - 1;
+        if (Math.abs(e) > cornerTol) {
+          misses++;
+          if (!worst || Math.abs(e) > Math.abs(worst.error)) worst = { label: c.label, current: i, error: e };
+        }
+      }
+      if (worst) {
+        findings.push({
+          code: 'target-missed-at-corner',
+          severity: target.cornerTolerance !== undefined ? 'warning' : TARGET_CODES['target-missed-at-corner'].severity,
+          message: `${element.name} meets its target of ${fmtA(target.current)} ${fmtTol(tolerance)} at nominal but leaves ${fmtTol(cornerTol)} at ${misses} of ${counted} corners; the worst is ${worst.label}, with ${fmtA(worst.current)} (${formatPercent(worst.error)}).`,
+          uri: target.uri,
+          span: target.span,
+          data: { ...data, cornerTolerance: cornerTol, corner: worst.label, cornerCurrent: worst.current, cornerError: worst.error, cornersMissed: misses, cornersChecked: counted },
+        });
+      }
+    }
+  }
+  return findings;
+}
+
+function cornerCurrent(iout: Record<string, number>, iref: number, role: StructureRole, name: string): number | undefined {
+  const v = role.role === 'output' ? iout[name] ?? findCaseless(iout, name) : role.role === 'degeneration-resistor' ? Object.values(iout)[0] : iref;
+  return v !== undefined && Number.isFinite(v) ? Math.abs(v) : undefined;
+}
