@@ -441,7 +441,8 @@ function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
     }
     if (l.type === 'eq') {
       addError(ctx, 'assignment-missing-name', "This '=' has no parameter name before it; write <name>=<value>.", { start: l.start, end: l.end }, 'error');
-      i++;
+      // The field after a nameless `=` is its value, not a field of its own.
+      i += isField(lx[i + 1]) && lx[i + 2]?.type !== 'eq' ? 2 : 1;
       continue;
     }
     if (l.type === 'lp') items.push({ k: 'lp', span: { start: l.start, end: l.end } });
@@ -486,9 +487,12 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
     );
   }
   checkParentheses(ctx, lx);
-  const items = buildItems(ctx, lx);
-  const head = items[0];
-  if (head === undefined || head.k !== 'pos') {
+  // The card's first word (its name or dot command) never starts an assignment.
+  const head0 = lx[0];
+  const headIsWord = head0 !== undefined && head0.type === 'word';
+  const items = buildItems(ctx, headIsWord ? lx.slice(1) : lx);
+  const head = headIsWord ? { k: 'pos' as const, tok: makeToken(text, head0) } : undefined;
+  if (head === undefined) {
     const at = lx[0] ? { start: lx[0].start, end: lx[0].end } : { start: first.start, end: first.lineEnd };
     return errorCard(
       ctx,
@@ -500,8 +504,8 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
     );
   }
   const word = head.tok.text;
-  if (word.charCodeAt(0) === 46 /* . */) return parseDotCard(ctx, head.tok, items.slice(1), span, tokens);
-  return parseElement(ctx, head.tok, items.slice(1), span, tokens);
+  if (word.charCodeAt(0) === 46 /* . */) return parseDotCard(ctx, head.tok, items, span, tokens);
+  return parseElement(ctx, head.tok, items, span, tokens);
 }
 
 function errorCard(ctx: Context, code: string, message: string, span: Span, tokens: Token[], errorSpan: Span): ErrorCard {
@@ -857,14 +861,17 @@ function parseSource(
     if (u in TRANSIENT_VALUE_ARGUMENT) {
       const args: Token[] = [];
       if (items[j]?.k === 'lp') {
-        let depth = 0;
-        while (j < items.length) {
-          const a = items[j++];
-          if (a.k === 'lp') depth++;
-          else if (a.k === 'rp') {
-            depth--;
-            if (depth === 0) break;
-          } else if (a.k === 'pos') args.push(a.tok);
+        // One parenthesised argument list, or several groups in a row (`PWL (0,0) (1u,5)`).
+        while (items[j]?.k === 'lp') {
+          let depth = 0;
+          while (j < items.length) {
+            const a = items[j++];
+            if (a.k === 'lp') depth++;
+            else if (a.k === 'rp') {
+              depth--;
+              if (depth === 0) break;
+            } else if (a.k === 'pos') args.push(a.tok);
+          }
         }
       } else {
         while (items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok)) args.push((items[j++] as { tok: Token }).tok);
@@ -950,7 +957,7 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       for (const t of pos) {
         addError(ctx, 'param-missing-assignment', `.param: '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`, t.span, 'error');
       }
-      if (pos.length === 0 && asgs.length === 0) {
+      if (tokens.length === 1) {
         addError(ctx, 'param-missing-assignment', '.param has no assignments; write .param name=value.', command.span, 'error');
       }
       return { kind: 'param', span, tokens, params: asgs };
