@@ -1,0 +1,105 @@
+// Physical constants and the numerical helpers every semiconductor device shares: VT, IS(T), guarded exp and junction limiting.
+
+/** Boltzmann constant, J/K (exact, SI 2019). */
+export const BOLTZMANN = 1.380649e-23;
+/** Elementary charge, C (exact, SI 2019). */
+export const ELEMENTARY_CHARGE = 1.602176634e-19;
+/** 0 °C in kelvin. */
+export const ZERO_CELSIUS_K = 273.15;
+
+/** Thermal voltage kT/q in volts at `temperatureC` degrees Celsius. */
+export function thermalVoltage(temperatureC: number): number {
+  return (BOLTZMANN * (temperatureC + ZERO_CELSIUS_K)) / ELEMENTARY_CHARGE;
+}
+
+/**
+ * Saturation current at temperature T from its value at Tnom (DESIGN.md):
+ * IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)).
+ */
+export function saturationCurrentAt(is: number, xti: number, eg: number, temperatureC: number, tnomC: number): number {
+  const t = temperatureC + ZERO_CELSIUS_K;
+  const tnom = tnomC + ZERO_CELSIUS_K;
+  if (t === tnom) return is;
+  return is * Math.pow(t / tnom, xti) * Math.exp(((eg * ELEMENTARY_CHARGE) / BOLTZMANN) * (1 / tnom - 1 / t));
+}
+
+/**
+ * Largest exponent evaluated exactly. Beyond it the exponential is continued by its
+ * tangent line, so a wildly forward-biased junction gives a huge but finite current
+ * and a finite slope instead of Infinity.
+ */
+export const EXP_ARG_LIMIT = 80;
+
+/** exp(x) and its derivative, linearised beyond EXP_ARG_LIMIT. */
+export interface GuardedExp {
+  value: number;
+  slope: number;
+  /** True when x was beyond the limit and the tangent line was used. */
+  clipped: boolean;
+}
+
+/** exp(x) continued linearly beyond EXP_ARG_LIMIT (value and slope both finite for any finite x). */
+export function guardedExp(x: number): GuardedExp {
+  if (x <= EXP_ARG_LIMIT) {
+    const e = Math.exp(x);
+    return { value: e, slope: e, clipped: false };
+  }
+  const e = Math.exp(EXP_ARG_LIMIT);
+  return { value: e * (1 + (x - EXP_ARG_LIMIT)), slope: e, clipped: true };
+}
+
+/**
+ * Critical voltage of a pn junction: above it, Newton steps on the junction voltage are
+ * limited logarithmically (Nagel, ERL-M520, 1975): vcrit = n·VT·ln(n·VT/(√2·IS)).
+ */
+export function criticalVoltage(nvt: number, is: number): number {
+  if (!(is > 0)) return 1e3;
+  const v = nvt * Math.log(nvt / (Math.SQRT2 * is));
+  return Number.isFinite(v) ? v : 1e3;
+}
+
+/** Result of limiting one junction voltage step. */
+export interface Limited {
+  v: number;
+  limited: boolean;
+}
+
+/**
+ * Logarithmic junction-voltage limiting (Nagel, ERL-M520, 1975). A forward step that
+ * would take the junction above its critical voltage by more than 2·n·VT is replaced by
+ * the voltage at which the exponential's tangent from the old point would give the new
+ * current, so the current grows at most by a factor e per n·VT of requested step.
+ */
+export function limitJunction(vNew: number, vOld: number, nvt: number, vcrit: number): Limited {
+  if (vNew > vcrit && Math.abs(vNew - vOld) > 2 * nvt) {
+    if (vOld > 0) {
+      const arg = 1 + (vNew - vOld) / nvt;
+      return { v: arg > 0 ? vOld + nvt * Math.log(arg) : vcrit, limited: true };
+    }
+    return { v: nvt * Math.log(vNew / nvt), limited: true };
+  }
+  return { v: vNew, limited: false };
+}
+
+/**
+ * Step limiting for a MOS terminal voltage: the change per Newton iteration is bounded by
+ * `base` volts plus half the distance of the old value from the threshold-like pivot
+ * `pivot`, so steps are large far from the turn-on point and gentle near it.
+ */
+export function limitStep(vNew: number, vOld: number, base: number, pivot: number): Limited {
+  const maxStep = base + 0.5 * Math.abs(vOld - pivot);
+  const d = vNew - vOld;
+  if (d > maxStep) return { v: vOld + maxStep, limited: true };
+  if (d < -maxStep) return { v: vOld - maxStep, limited: true };
+  return { v: vNew, limited: false };
+}
+
+/** Clamps a huge or infinite magnitude to a JSON-safe stand-in for "unbounded" (1e30). */
+export const UNBOUNDED = 1e30;
+
+/** 1/g, reported as UNBOUNDED when g is zero, negative-zero or so small the reciprocal would exceed it. */
+export function reciprocalOrUnbounded(g: number): number {
+  const a = Math.abs(g);
+  if (!(a > 1 / UNBOUNDED)) return UNBOUNDED;
+  return 1 / g;
+}

@@ -1,0 +1,641 @@
+// The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
+
+import type { Circuit, Element } from '../circuit';
+import type { DeviceConditions } from '../devices/device';
+import type { ParamIssue } from '../devices/params';
+import { thermalVoltage, UNBOUNDED } from '../devices/physics';
+import type { Finding, RelatedLocation, Severity, Span } from '../types';
+import { formatEng, listNames } from './format';
+import type { LinearSolver } from './linear';
+import { createLinearSolver } from './linear';
+import { MnaLayout } from './mna';
+import type { NewtonOutcome } from './newton';
+import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
+import { findFloatingGroups, findVoltageLoops } from './topology';
+import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
+
+export { bjtRegion, evaluateBjt } from '../devices/bjt';
+export { evaluateMos } from '../devices/mosfet';
+export { diodeJunction } from '../devices/diode';
+export { thermalVoltage, saturationCurrentAt } from '../devices/physics';
+export { TOLERANCES, JUNCTION_GMIN } from './newton';
+
+/** One solve's answer: the operating point, what went wrong (located), effort spent, and the raw solution for warm starts. */
+export interface DcSolveResult {
+  op: OperatingPoint;
+  findings: Finding[];
+  stats: { iterations: number; factorizations: number; ms: number };
+  /** raw solution vector for warm starts */
+  x: Float64Array;
+}
+
+/** Default Newton iteration cap per attempt. */
+const DEFAULT_MAX_ITERATIONS = 150;
+/** Newton iterations allowed per continuation step (gmin or source stepping). */
+const STEP_ITERATIONS = 60;
+/** Node voltages beyond this are reported as implausible (a current forced into an open or leakage-only node). */
+const IMPLAUSIBLE_VOLTS = 1e6;
+/** Largest magnitude written into a record; anything beyond is clamped and reported. */
+const RECORD_LIMIT = 1e300;
+
+const now: () => number = (() => {
+  const perf = (globalThis as { performance?: { now(): number } }).performance;
+  return perf ? () => perf.now() : () => Date.now();
+})();
+
+/**
+ * A circuit prepared for repeated DC solves. The constructor builds the unknown
+ * numbering, the sparsity pattern, the linear stamps, the structural checks and the
+ * linear solver's symbolic analysis; each `solve` only re-stamps values and factors.
+ */
+export class DcSolver {
+  private readonly layout: MnaLayout;
+  private readonly solver: LinearSolver | undefined;
+  private readonly engine: NewtonEngine;
+  /** Findings that do not depend on the solve options (element and parameter problems, structure). */
+  private readonly staticFindings: Finding[] = [];
+  private readonly structurallySingular: boolean;
+  private readonly sourceIndexByName = new Map<string, number>();
+
+  constructor(private readonly circuit: Circuit) {
+    this.layout = new MnaLayout(circuit);
+    this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
+    this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b });
+    this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
+
+    for (const issue of this.layout.layoutIssues) {
+      const sev: Severity = issue.code === 'dc-zero-resistance' ? 'info' : issue.code === 'dc-negative-resistance' ? 'warning' : 'error';
+      this.staticFindings.push(this.elementFinding(issue.code, sev, issue.message, issue.element));
+    }
+    for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
+    const floating = findFloatingGroups(circuit, this.layout.skipped);
+    const loops = findVoltageLoops(circuit, this.layout.skipped);
+    for (const g of floating) this.staticFindings.push(this.floatingFinding(g.nodes, g.elements));
+    for (const l of loops) this.staticFindings.push(this.loopFinding(l.elements));
+    this.staticFindings.push(...this.shortedJunctionFindings());
+    this.structurallySingular = floating.length > 0 || loops.length > 0;
+  }
+
+  /** Number of MNA unknowns (length of `DcSolveResult.x`). */
+  get unknownCount(): number {
+    return this.layout.size;
+  }
+
+  /** Solves the DC operating point under `options`; never throws, never returns a non-finite number. */
+  solve(options: SolveOptions = {}): DcSolveResult {
+    const t0 = now();
+    const findings: Finding[] = [...this.staticFindings];
+    const n = this.layout.size;
+    const temperatureC = this.pickTemperature(options, findings);
+    const betaScale = options.betaScale === undefined ? 1 : options.betaScale;
+    const conditions: DeviceConditions = {
+      temperatureC,
+      tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
+      vt: thermalVoltage(temperatureC),
+      betaScale: Number.isFinite(betaScale) && betaScale > 0 ? betaScale : 1,
+      junctionGmin: JUNCTION_GMIN,
+    };
+    this.engine.prepare(conditions);
+    this.applySourceValues(options.sourceValues, findings);
+    const maxIterations = Math.max(1, Math.floor(options.maxIterations ?? DEFAULT_MAX_ITERATIONS));
+    const factorizationsBefore = this.engine.factorizations;
+
+    const x = new Float64Array(n);
+    const guess = options.initialGuess;
+    if (guess && guess.length === n && guess.every(Number.isFinite)) x.set(guess);
+    const start = Float64Array.from(x);
+    this.engine.lastFinite.set(x);
+
+    const fallbacks: Fallback[] = [];
+    let iterations = 0;
+    let converged = false;
+    let last: NewtonOutcome | undefined;
+
+    if (!this.structurallySingular && n > 0) {
+      last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations });
+      iterations += last.iterations;
+      converged = last.status === 'converged';
+      if (!converged && last.status !== 'singular') {
+        fallbacks.push('gmin-stepping');
+        x.set(start);
+        const g = this.gminStepping(x, maxIterations);
+        iterations += g.iterations;
+        converged = g.ok;
+        last = g.last ?? last;
+        if (!converged) {
+          fallbacks.push('source-stepping');
+          x.fill(0);
+          const s = this.sourceStepping(x, maxIterations);
+          iterations += s.iterations;
+          converged = s.ok;
+          last = s.last ?? last;
+        }
+      }
+      if (!converged) x.set(this.engine.lastFinite);
+    } else if (n === 0) {
+      converged = true;
+    }
+
+    if (last && !converged) findings.push(...this.failureFindings(last, fallbacks, iterations));
+    const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
+    if (converged) findings.push(...this.postSolveFindings(x, op));
+    return {
+      op,
+      findings,
+      stats: { iterations, factorizations: this.engine.factorizations - factorizationsBefore, ms: now() - t0 },
+      x: Float64Array.from(x, (v) => (Number.isFinite(v) ? v : 0)),
+    };
+  }
+
+  // ---- continuation methods ----
+
+  /** Shunts every node to ground with a conductance stepped down from 10 mS to zero, re-solving from the last success. */
+  private gminStepping(x: Float64Array, maxIterations: number): { ok: boolean; iterations: number; last?: NewtonOutcome } {
+    const cap = Math.min(maxIterations, STEP_ITERATIONS);
+    let iterations = 0;
+    let shunt = 1e-2;
+    let factor = 10;
+    const good = new Float64Array(x.length);
+    let haveGood = false;
+    let goodShunt = 0;
+    let last: NewtonOutcome | undefined;
+    for (let step = 0; step < 120; step++) {
+      const r = this.engine.run(x, { sourceScale: 1, nodeShunt: shunt, maxIterations: cap });
+      iterations += r.iterations;
+      last = r;
+      if (r.status === 'singular') return { ok: false, iterations, last };
+      if (r.status === 'converged') {
+        if (shunt === 0) return { ok: true, iterations, last };
+        good.set(x);
+        haveGood = true;
+        goodShunt = shunt;
+        shunt = shunt / factor;
+        if (shunt < JUNCTION_GMIN) shunt = 0;
+        factor = Math.min(factor * 2, 10);
+      } else {
+        if (!haveGood) {
+          // Even the heaviest shunt failed: start heavier.
+          if (shunt >= 1) return { ok: false, iterations, last };
+          shunt *= 10;
+          x.fill(0);
+          continue;
+        }
+        factor = Math.sqrt(factor);
+        if (factor < 1.01) return { ok: false, iterations, last };
+        x.set(good);
+        shunt = goodShunt / factor;
+      }
+    }
+    return { ok: false, iterations, last };
+  }
+
+  /** Ramps every independent source from zero to its full value, shortening the step when Newton fails. */
+  private sourceStepping(x: Float64Array, maxIterations: number): { ok: boolean; iterations: number; last?: NewtonOutcome } {
+    const cap = Math.min(maxIterations, STEP_ITERATIONS);
+    let iterations = 0;
+    let scale = 0;
+    let step = 0.1;
+    const good = new Float64Array(x.length);
+    let last: NewtonOutcome | undefined;
+    for (let k = 0; k < 400; k++) {
+      const target = Math.min(1, scale + step);
+      const r = this.engine.run(x, { sourceScale: target, nodeShunt: 0, maxIterations: cap });
+      iterations += r.iterations;
+      last = r;
+      if (r.status === 'singular') return { ok: false, iterations, last };
+      if (r.status === 'converged') {
+        if (target === 1) return { ok: true, iterations, last };
+        scale = target;
+        good.set(x);
+        step = Math.min(step * 1.5, 0.5);
+      } else {
+        step /= 4;
+        if (step < 1e-7) return { ok: false, iterations, last };
+        x.set(good);
+      }
+    }
+    return { ok: false, iterations, last };
+  }
+
+  // ---- options ----
+
+  private pickTemperature(options: SolveOptions, findings: Finding[]): number {
+    const t = options.temperatureC ?? this.circuit.temperatureC;
+    if (Number.isFinite(t) && t > -273.15) return t;
+    const fallback = Number.isFinite(this.circuit.temperatureC) && this.circuit.temperatureC > -273.15 ? this.circuit.temperatureC : 27;
+    const el = this.circuit.elements[0];
+    findings.push({
+      code: 'dc-temperature-unusable',
+      severity: 'error',
+      message: `The analysis temperature ${String(t)} °C is not above absolute zero; the operating point was solved at ${formatEng(fallback, '°C')} instead.`,
+      uri: el?.origin.uri ?? '',
+      span: el?.origin.span ?? { start: 0, end: 0 },
+    });
+    return fallback;
+  }
+
+  private applySourceValues(overrides: Record<string, number> | undefined, findings: Finding[]): void {
+    const sv = this.engine.sourceValues;
+    this.layout.sources.forEach((s, i) => (sv[i] = s.nominal));
+    if (!overrides) return;
+    for (const [name, value] of Object.entries(overrides)) {
+      const i = this.sourceIndexByName.get(name.toLowerCase());
+      if (i === undefined) continue;
+      if (Number.isFinite(value)) sv[i] = value;
+      else {
+        const hook = this.layout.sources[i];
+        findings.push(
+          this.elementFinding(
+            'dc-value-unusable',
+            'error',
+            `The value ${String(value)} requested for ${this.circuit.elements[hook.element].name} is not a finite number; its DC value ${formatEng(hook.nominal, hook.kind === 'V' ? 'V' : 'A')} was used.`,
+            hook.element,
+          ),
+        );
+      }
+    }
+  }
+
+  // ---- records ----
+
+  private buildOperatingPoint(
+    x: Float64Array,
+    head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
+    findings: Finding[],
+  ): OperatingPoint {
+    const c = this.circuit;
+    const nodes: Record<string, number> = {};
+    const overflowed: string[] = [];
+    const clamp = (v: number, where: string): number => {
+      if (Number.isFinite(v) && Math.abs(v) <= RECORD_LIMIT) return v;
+      overflowed.push(where);
+      if (Number.isNaN(v)) return 0;
+      return v > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
+    };
+    c.nodes.forEach((name, i) => {
+      nodes[name] = i === 0 ? 0 : clamp(x[i - 1], `node ${name}`);
+    });
+    const v = (u: number): number => (u >= 0 ? x[u] : 0);
+    const devices: Record<string, DeviceRecord> = {};
+    const overflowElements = new Set<number>();
+    for (const r of this.layout.readers) {
+      const el = c.elements[r.element];
+      const voltage = v(r.a) - v(r.b);
+      let current = 0;
+      switch (r.kind) {
+        case 'conductance':
+          current = voltage * r.g;
+          break;
+        case 'branch':
+          current = x[r.branch];
+          break;
+        case 'open':
+          current = 0;
+          break;
+        case 'source-current':
+          current = this.engine.sourceValues[r.hook];
+          break;
+        case 'vccs':
+          current = r.gain * (v(r.cp) - v(r.cn));
+          break;
+        case 'cccs':
+          current = r.gain * x[r.branch];
+          break;
+      }
+      const type =
+        el.kind === 'R' ? 'resistor' : el.kind === 'V' ? 'voltage-source' : el.kind === 'I' ? 'current-source' : el.kind === 'L' ? 'inductor' : el.kind === 'C' ? 'capacitor' : 'controlled-source';
+      const before = overflowed.length;
+      devices[el.name] = {
+        type,
+        current: clamp(current, `current of ${el.name}`),
+        voltage: clamp(voltage, `voltage of ${el.name}`),
+        power: clamp(voltage * current, `power of ${el.name}`),
+      };
+      if (overflowed.length > before) overflowElements.add(r.element);
+    }
+    const elementIndex = new Map<Element, number>();
+    c.elements.forEach((el, i) => elementIndex.set(el, i));
+    for (const d of this.layout.devices) {
+      const rec = d.record(x) as unknown as Record<string, unknown>;
+      const before = overflowed.length;
+      for (const [k, val] of Object.entries(rec)) {
+        if (typeof val === 'number') rec[k] = clamp(val, `${k} of ${d.element.name}`);
+      }
+      if (overflowed.length > before) overflowElements.add(elementIndex.get(d.element) ?? 0);
+      devices[d.element.name] = rec as unknown as DeviceRecord;
+    }
+    if (overflowed.length > 0) {
+      const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();
+      findings.push(
+        this.elementFinding(
+          'dc-value-overflow',
+          'error',
+          `Some results are beyond ±1e300 and were clamped (${listNames(overflowed, 4)}); the circuit's values are too extreme for double-precision arithmetic. ${this.extremeValueHint()}`,
+          idx,
+        ),
+      );
+    }
+    return { converged: head.converged, temperatureC: head.temperatureC, iterations: head.iterations, fallbacks: head.fallbacks, nodes, devices };
+  }
+
+  // ---- findings ----
+
+  private failureFindings(last: NewtonOutcome, fallbacks: Fallback[], iterations: number): Finding[] {
+    const c = this.circuit;
+    const tried = fallbacks.length === 0 ? 'no fallback could help' : `fallbacks tried: ${fallbacks.join(', then ')}`;
+    if (last.status === 'singular') {
+      return [this.singularFinding(last.singularIndex)];
+    }
+    if (last.status === 'non-finite') {
+      const culprits = last.culprits.map((d) => this.layout.devices[d].element);
+      const idx = culprits.length > 0 ? c.elements.indexOf(culprits[0]) : this.mostExtremeElement();
+      const who = culprits.length > 0 ? `The equations of ${listNames(culprits.map((e) => e.name))} overflowed` : 'The node equations overflowed';
+      return [
+        this.elementFinding(
+          'dc-value-overflow',
+          'error',
+          `${who} the double-precision range, so no operating point could be found (${tried}); the values shown are the last finite iterate. ${this.extremeValueHint()}`,
+          idx,
+        ),
+      ];
+    }
+    // Iteration limit: name the unknowns that were still moving and the devices on them.
+    const unsettled = last.status === 'iteration-limit' ? last.unsettled : [];
+    const names = unsettled.map((k) => this.layout.describeUnknown(k).replace(/^node /, ''));
+    const onNodes = new Set(unsettled);
+    const devs = this.layout.devices.filter((d) => [...d.terminals].some((t) => onNodes.has(t))).map((d) => d.element);
+    const target = devs[0] ?? this.elementOnUnknown(unsettled[0]) ?? c.elements[0];
+    const idx = target ? c.elements.indexOf(target) : 0;
+    const f = this.elementFinding(
+      'dc-no-convergence',
+      'error',
+      `The DC operating point did not converge after ${iterations} Newton iterations (${tried}). ` +
+        (names.length > 0 ? `Still changing: ${listNames(names)}` : 'The last updates did not settle') +
+        (devs.length > 0 ? `; devices involved: ${listNames(devs.map((d) => d.name))}.` : '.') +
+        ' The values shown are the last finite iterate, not a solution.',
+      idx,
+    );
+    f.data = { iterations, fallbacks: [...fallbacks], unsettled: names, devices: devs.map((d) => d.name) };
+    f.related = [...(f.related ?? []), ...devs.slice(1, 8).map((d) => ({ uri: d.origin.uri, span: d.origin.span, message: `${d.name} was still changing.` }))];
+    return [f];
+  }
+
+  private singularFinding(k: number): Finding {
+    const c = this.circuit;
+    const info = this.layout.unknowns[k];
+    let elements: number[] = [];
+    if (info?.kind === 'node') elements = c.elements.map((el, i) => (el.nodes.includes(info.node) ? i : -1)).filter((i) => i >= 0);
+    else if (info) elements = [info.element];
+    const what = this.layout.describeUnknown(k);
+    const f = this.elementFinding(
+      'dc-singular-matrix',
+      'error',
+      `The circuit equations are singular at ${what}` +
+        (elements.length > 0 ? ` (elements involved: ${listNames(elements.map((i) => c.elements[i].name))})` : '') +
+        ': that quantity is not fixed by the circuit, typically a controlled source that defines its own input or a loop of sources. No operating point was computed.',
+      elements[0] ?? 0,
+    );
+    f.data = { unknown: what, elements: elements.map((i) => c.elements[i].name) };
+    f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(1))];
+    return f;
+  }
+
+  private floatingFinding(nodes: number[], elements: number[]): Finding {
+    const c = this.circuit;
+    const names = nodes.map((n) => c.nodes[n]);
+    const reasons = elements.map((i) => {
+      const el = c.elements[i];
+      switch (el.kind) {
+        case 'C':
+          return `${el.name} (a capacitor, open at DC)`;
+        case 'I':
+          return `${el.name} (a current source, which fixes no voltage)`;
+        case 'G':
+        case 'F':
+          return `${el.name} (a controlled current source)`;
+        case 'M':
+          return `${el.name} (its gate and bulk draw no DC current)`;
+        case 'R':
+          return Number.isFinite(el.resistance) ? el.name : `${el.name} (an open circuit)`;
+        default:
+          return el.name;
+      }
+    });
+    const plural = nodes.length > 1;
+    const f = this.elementFinding(
+      'dc-singular-matrix',
+      'error',
+      `${plural ? 'Nodes' : 'Node'} ${listNames(names)} ${plural ? 'have' : 'has'} no DC path to ground, so ${plural ? 'their voltages are' : 'its voltage is'} undefined and the circuit equations are singular. ` +
+        (reasons.length > 0 ? `Connected: ${listNames(reasons)}. ` : '') +
+        'Add a DC path (a resistor or source) to ground. No operating point was computed.',
+      elements[0] ?? 0,
+    );
+    f.data = { kind: 'floating-node', nodes: names, elements: elements.map((i) => c.elements[i].name) };
+    f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(1))];
+    return f;
+  }
+
+  private loopFinding(elements: number[]): Finding {
+    const c = this.circuit;
+    const names = elements.map((i) => c.elements[i].name);
+    const f = this.elementFinding(
+      'dc-singular-matrix',
+      'error',
+      elements.length === 1
+        ? `${names[0]} fixes the voltage between a node and itself, so its current is undefined and the circuit equations are singular. No operating point was computed.`
+        : `${listNames(names)} form a loop of elements that each fix a voltage (sources, inductors, zero-ohm resistors), so the loop current is undefined and the circuit equations are singular. Add a resistance in the loop. No operating point was computed.`,
+      elements[elements.length - 1],
+    );
+    f.data = { kind: 'voltage-loop', elements: names };
+    f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(0, -1))];
+    return f;
+  }
+
+  /** Diode and base-emitter junctions whose two ends are tied together by a short, inductor or 0 V source: they can never conduct. */
+  private shortedJunctionFindings(): Finding[] {
+    const c = this.circuit;
+    const shorts = new Map<string, number>();
+    c.elements.forEach((el, i) => {
+      if (this.layout.skipped.has(i)) return;
+      const isShort = el.kind === 'L' || (el.kind === 'R' && el.resistance === 0) || (el.kind === 'V' && el.dc === 0);
+      if (!isShort) return;
+      const [a, b] = el.nodes;
+      shorts.set(a < b ? `${a},${b}` : `${b},${a}`, i);
+    });
+    const out: Finding[] = [];
+    const check = (devIdx: number, junction: string, a: number, b: number): void => {
+      const el = c.elements[devIdx];
+      if (a === b) {
+        out.push(this.elementFinding('dc-junction-shorted', 'warning', `Both ends of the ${junction} of ${el.name} are node ${c.nodes[a]}, so that junction can never be biased.`, devIdx));
+        return;
+      }
+      const s = shorts.get(a < b ? `${a},${b}` : `${b},${a}`);
+      if (s === undefined) return;
+      const sh = c.elements[s];
+      const how = sh.kind === 'V' ? 'a 0 V source' : sh.kind === 'L' ? 'an inductor (a short at DC)' : 'a zero-ohm resistor';
+      const f = this.elementFinding(
+        'dc-junction-shorted',
+        'warning',
+        `${sh.name} (${how}) sits directly across the ${junction} of ${el.name}, holding it at 0 V, so it carries no junction current.`,
+        devIdx,
+      );
+      f.related = [...(f.related ?? []), ...this.relatedFor([s])];
+      out.push(f);
+    };
+    c.elements.forEach((el, i) => {
+      if (this.layout.skipped.has(i)) return;
+      if (el.kind === 'D') check(i, 'junction', el.nodes[0], el.nodes[1]);
+      if (el.kind === 'Q') {
+        // A shorted base-collector junction is the ordinary diode connection, so only the base-emitter one is checked.
+        check(i, 'base-emitter junction', el.nodes[1], el.nodes[2]);
+      }
+    });
+    return out;
+  }
+
+  private postSolveFindings(x: Float64Array, op: OperatingPoint): Finding[] {
+    const out: Finding[] = [];
+    const c = this.circuit;
+    for (const d of this.layout.devices) {
+      const over = d.overdriven(x);
+      if (over.length === 0) continue;
+      const rec = op.devices[d.element.name];
+      const current = rec && rec.type === 'bjt' ? rec.ic : rec && rec.type === 'diode' ? rec.id : 0;
+      const j = over[0];
+      const f = this.elementFinding(
+        'dc-junction-overdriven',
+        'warning',
+        `The ${j.junction} junction of ${d.element.name} is forward-biased at ${formatEng(j.volts, 'V')}, far beyond where a silicon junction can sit; the computed current (${formatEng(current, 'A')}) is not physical. A series resistance or current limit is probably missing.`,
+        c.elements.indexOf(d.element),
+      );
+      f.data = { junction: j.junction, volts: j.volts, current };
+      out.push(f);
+    }
+    for (let i = 1; i < c.nodes.length; i++) {
+      const volts = op.nodes[c.nodes[i]];
+      if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS) continue;
+      const touching = c.elements.map((el, k) => (el.nodes.includes(i) ? k : -1)).filter((k) => k >= 0);
+      const f = this.elementFinding(
+        'dc-implausible-voltage',
+        'warning',
+        `Node ${c.nodes[i]} sits at ${formatEng(volts, 'V')}: a current is being forced into a node held only by junction leakage or a huge resistance (${listNames(touching.map((k) => c.elements[k].name))}).`,
+        touching[0] ?? 0,
+      );
+      f.data = { node: c.nodes[i], volts };
+      out.push(f);
+    }
+    return out;
+  }
+
+  private paramFinding(issue: ParamIssue): Finding {
+    const el = issue.element;
+    const idx = this.circuit.elements.indexOf(el);
+    const where = issue.inModel && 'model' in el ? `model ${el.model.name} of ${el.name}` : el.name;
+    const disabled = !issue.inModel && issue.used === 0;
+    const message = `${issue.name} = ${String(issue.given)} on ${where} is not usable (${issue.rule}); ` + (disabled ? `the solver treats ${el.name} as carrying no current.` : `the solver used ${issue.name} = ${issue.used} instead.`);
+    const f = this.elementFinding('dc-parameter-unusable', 'error', message, idx);
+    if (issue.inModel && 'model' in el) {
+      f.related = [...(f.related ?? []), { uri: el.model.origin.uri, span: el.model.origin.span, message: `Model ${el.model.name} is defined here.` }];
+    }
+    f.data = { parameter: issue.name, given: Number.isFinite(issue.given) ? issue.given : String(issue.given), used: issue.used };
+    return f;
+  }
+
+  private elementOnUnknown(k: number | undefined): Element | undefined {
+    if (k === undefined) return undefined;
+    const info = this.layout.unknowns[k];
+    if (!info) return undefined;
+    if (info.kind === 'node') return this.circuit.elements.find((el) => el.nodes.includes(info.node));
+    return this.circuit.elements[info.element];
+  }
+
+  /** The element carrying the value farthest from 1 in magnitude (decades), for overflow hints. */
+  private mostExtremeElement(): number {
+    let best = 0;
+    let bestScore = -1;
+    this.circuit.elements.forEach((el, i) => {
+      for (const v of this.valuesOf(el)) {
+        const s = v.value === 0 || !Number.isFinite(v.value) ? 0 : Math.abs(Math.log10(Math.abs(v.value)));
+        if (s > bestScore) {
+          bestScore = s;
+          best = i;
+        }
+      }
+    });
+    return best;
+  }
+
+  private extremeValueHint(): string {
+    const el = this.circuit.elements[this.mostExtremeElement()];
+    if (!el) return '';
+    let pick = { name: '', value: 1 };
+    let score = -1;
+    for (const v of this.valuesOf(el)) {
+      const s = v.value === 0 || !Number.isFinite(v.value) ? 0 : Math.abs(Math.log10(Math.abs(v.value)));
+      if (s > score) {
+        score = s;
+        pick = v;
+      }
+    }
+    return score > 12 ? `The most extreme value is ${pick.name} = ${pick.value.toExponential(2)} on ${el.name}.` : '';
+  }
+
+  private valuesOf(el: Element): { name: string; value: number }[] {
+    switch (el.kind) {
+      case 'R':
+        return [{ name: 'resistance', value: el.resistance }];
+      case 'V':
+      case 'I':
+        return [{ name: 'DC value', value: el.dc }];
+      case 'E':
+      case 'G':
+      case 'F':
+      case 'H':
+        return [{ name: 'gain', value: el.gain }];
+      case 'C':
+      case 'L':
+        return [];
+      case 'D':
+      case 'Q':
+      case 'M': {
+        const out = Object.entries(el.model.params)
+          .filter(([k]) => k !== 'VAF' && k !== 'IS' && k !== 'KP')
+          .map(([name, value]) => ({ name, value }));
+        // Saturation currents and transconductance factors are tiny by nature: judge them against their defaults.
+        for (const k of ['IS', 'KP'] as const) {
+          const v = el.model.params[k];
+          if (v !== undefined && v > 0) out.push({ name: k, value: v / (k === 'IS' ? 1e-16 : 2e-5) });
+        }
+        const vaf = el.model.params.VAF;
+        if (vaf !== undefined && Number.isFinite(vaf)) out.push({ name: 'VAF', value: vaf });
+        out.push({ name: 'area', value: 'area' in el ? el.area : 1 });
+        return out;
+      }
+    }
+  }
+
+  private relatedFor(elements: number[]): RelatedLocation[] {
+    return elements.slice(0, 8).map((i) => {
+      const el = this.circuit.elements[i];
+      return { uri: el.origin.uri, span: el.origin.span, message: `${el.name} is involved.` };
+    });
+  }
+
+  /** A finding located at element `i` (its card; the X instance lines it came through are related locations). */
+  private elementFinding(code: string, severity: Severity, message: string, i: number): Finding {
+    const el = this.circuit.elements[i];
+    const span: Span = el?.origin.span ?? { start: 0, end: 0 };
+    const f: Finding = { code, severity, message, uri: el?.origin.uri ?? '', span };
+    if (el && el.origin.instances.length > 0) {
+      f.related = el.origin.instances.map((inst) => ({ uri: inst.uri, span: inst.span, message: `${el.name} is inside instance ${inst.name}.` }));
+    }
+    return f;
+  }
+}
+
+/** One-shot convenience: prepares a DcSolver for `circuit` and solves once. */
+export function solveOperatingPoint(circuit: Circuit, options?: SolveOptions): DcSolveResult {
+  return new DcSolver(circuit).solve(options);
+}
+
+export { UNBOUNDED };

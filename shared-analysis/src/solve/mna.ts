@@ -1,0 +1,303 @@
+// Modified nodal analysis layout: unknown numbering, the fixed sparsity pattern, linear stamps and the nonlinear devices bound to it.
+
+import type { Circuit, Element } from '../circuit';
+import { BjtDevice } from '../devices/bjt';
+import type { NonlinearDevice } from '../devices/device';
+import { DiodeDevice } from '../devices/diode';
+import { MosfetDevice } from '../devices/mosfet';
+import type { ParamIssue } from '../devices/params';
+import type { SparsePattern } from './linear';
+
+/** What an MNA unknown stands for, so a singular pivot or an unsettled update can be named. */
+export type UnknownInfo =
+  | { kind: 'node'; node: number }
+  | { kind: 'internal'; element: number; label: string }
+  | { kind: 'branch'; element: number };
+
+/** An independent source's right-hand-side hook. */
+export interface SourceHook {
+  element: number;
+  kind: 'V' | 'I';
+  /** V: branch row. I: rows of the plus and minus nodes (−1 for ground). */
+  rows: [number, number];
+  /** DC value as written (finite; unusable values were replaced by 0 and reported). */
+  nominal: number;
+}
+
+/** A problem with an element the layout could not use as given. */
+export interface LayoutIssue {
+  element: number;
+  code: 'dc-unknown-control' | 'dc-bad-node' | 'dc-value-unusable' | 'dc-negative-resistance' | 'dc-zero-resistance';
+  message: string;
+}
+
+/** How a linear element's record is computed from the solution. */
+export type LinearReader =
+  | { kind: 'conductance'; element: number; a: number; b: number; g: number }
+  | { kind: 'branch'; element: number; a: number; b: number; branch: number }
+  | { kind: 'open'; element: number; a: number; b: number }
+  | { kind: 'source-current'; element: number; a: number; b: number; hook: number }
+  | { kind: 'vccs'; element: number; a: number; b: number; cp: number; cn: number; gain: number }
+  | { kind: 'cccs'; element: number; a: number; b: number; branch: number; gain: number };
+
+/** The MNA system for one circuit: built once, reused by every solve. */
+export class MnaLayout {
+  readonly size: number;
+  readonly unknowns: UnknownInfo[] = [];
+  readonly pattern: SparsePattern;
+  /** Matrix values of every linear element, aligned with the pattern. */
+  readonly linearValues: Float64Array;
+  /** Pattern position of each node unknown's diagonal (for shunt conductances during gmin stepping). */
+  readonly nodeDiagonals: Int32Array;
+  readonly sources: SourceHook[] = [];
+  readonly devices: NonlinearDevice[] = [];
+  readonly readers: LinearReader[] = [];
+  readonly paramIssues: ParamIssue[] = [];
+  readonly layoutIssues: LayoutIssue[] = [];
+  /** Element index -> branch-current unknown, for elements that have one. */
+  readonly branchOfElement = new Map<number, number>();
+  /** Elements skipped because they could not be stamped (bad nodes). */
+  readonly skipped = new Set<number>();
+
+  private readonly entries = new Map<number, number>();
+  private readonly rowsList: number[] = [];
+  private readonly colsList: number[] = [];
+  private readonly linearList: number[] = [];
+
+  constructor(readonly circuit: Circuit) {
+    const nodeCount = circuit.nodes.length;
+    for (let i = 1; i < nodeCount; i++) this.unknowns.push({ kind: 'node', node: i });
+    const els = circuit.elements;
+
+    // Pass 1: check node indices, then number internal nodes and branch currents.
+    const internalOf = new Map<number, number>();
+    els.forEach((el, i) => {
+      const need = el.kind === 'Q' ? 3 : el.kind === 'M' || el.kind === 'E' || el.kind === 'G' ? 4 : 2;
+      const bad = el.nodes.length < need || el.nodes.slice(0, need).some((n) => !Number.isInteger(n) || n < 0 || n >= nodeCount);
+      if (bad) {
+        this.skipped.add(i);
+        this.layoutIssues.push({
+          element: i,
+          code: 'dc-bad-node',
+          message: `${el.name} does not have the ${need} valid node connections its kind needs, so the solver leaves it out.`,
+        });
+        return;
+      }
+      if (el.kind === 'D' && DiodeDevice.needsInternalNode(el)) {
+        internalOf.set(i, this.unknowns.length);
+        this.unknowns.push({ kind: 'internal', element: i, label: `${el.name} internal anode` });
+      }
+    });
+    const hasBranch = (el: Element): boolean =>
+      el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0);
+    els.forEach((el, i) => {
+      if (this.skipped.has(i) || !hasBranch(el)) return;
+      this.branchOfElement.set(i, this.unknowns.length);
+      this.unknowns.push({ kind: 'branch', element: i });
+    });
+    this.size = this.unknowns.length;
+    const byName = new Map<string, number>();
+    els.forEach((el, i) => byName.set(el.name.toLowerCase(), i));
+
+    // Node diagonals are always in the pattern so shunts can be added without changing it.
+    this.nodeDiagonals = new Int32Array(nodeCount - 1);
+    for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
+
+    // Pass 2: linear stamps and device construction.
+    const u = (node: number): number => node - 1;
+    els.forEach((el, i) => {
+      if (this.skipped.has(i)) return;
+      const a = u(el.nodes[0]);
+      const b = u(el.nodes[1]);
+      switch (el.kind) {
+        case 'R': {
+          const r = el.resistance;
+          if (Number.isNaN(r)) {
+            this.layoutIssues.push({
+              element: i,
+              code: 'dc-value-unusable',
+              message: `The resistance of ${el.name} is not a number; the solver treats ${el.name} as an open circuit.`,
+            });
+            this.readers.push({ kind: 'open', element: i, a, b });
+            break;
+          }
+          if (r === 0) {
+            const k = this.branchOfElement.get(i)!;
+            this.stampBranchIncidence(a, b, k);
+            this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+            this.layoutIssues.push({
+              element: i,
+              code: 'dc-zero-resistance',
+              message: `${el.name} has zero resistance; the solver treats it as a short circuit and reports the current through it.`,
+            });
+            break;
+          }
+          if (r < 0) {
+            this.layoutIssues.push({
+              element: i,
+              code: 'dc-negative-resistance',
+              message: `${el.name} has a negative resistance (${r} Ω); the solver uses it as written, but no passive resistor behaves like this.`,
+            });
+          }
+          const g = 1 / r; // an infinite resistance is an open circuit (g = 0)
+          this.stampConductance(a, b, g);
+          this.readers.push({ kind: 'conductance', element: i, a, b, g });
+          break;
+        }
+        case 'C':
+          this.readers.push({ kind: 'open', element: i, a, b });
+          break;
+        case 'L': {
+          const k = this.branchOfElement.get(i)!;
+          this.stampBranchIncidence(a, b, k);
+          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+          break;
+        }
+        case 'V': {
+          const k = this.branchOfElement.get(i)!;
+          this.stampBranchIncidence(a, b, k);
+          this.sources.push({ element: i, kind: 'V', rows: [k, -1], nominal: this.finiteValue(i, el.dc, 'DC value', 'V') });
+          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+          break;
+        }
+        case 'I': {
+          this.sources.push({ element: i, kind: 'I', rows: [a, b], nominal: this.finiteValue(i, el.dc, 'DC value', 'A') });
+          this.readers.push({ kind: 'source-current', element: i, a, b, hook: this.sources.length - 1 });
+          break;
+        }
+        case 'E': {
+          const k = this.branchOfElement.get(i)!;
+          const gain = this.finiteValue(i, el.gain, 'gain', '');
+          this.stampBranchIncidence(a, b, k);
+          this.add(k, u(el.nodes[2]), -gain);
+          this.add(k, u(el.nodes[3]), gain);
+          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+          break;
+        }
+        case 'G': {
+          const gain = this.finiteValue(i, el.gain, 'gain', 'S');
+          const cp = u(el.nodes[2]);
+          const cn = u(el.nodes[3]);
+          this.add(a, cp, gain);
+          this.add(a, cn, -gain);
+          this.add(b, cp, -gain);
+          this.add(b, cn, gain);
+          this.readers.push({ kind: 'vccs', element: i, a, b, cp, cn, gain });
+          break;
+        }
+        case 'F':
+        case 'H': {
+          const gain = this.finiteValue(i, el.gain, 'gain', el.kind === 'H' ? 'Ω' : '');
+          const ci = byName.get(el.control.toLowerCase());
+          const ctrl = ci === undefined ? undefined : this.branchOfElement.get(ci);
+          if (ctrl === undefined) {
+            this.layoutIssues.push({
+              element: i,
+              code: 'dc-unknown-control',
+              message:
+                ci === undefined
+                  ? `${el.name} is controlled by the current of '${el.control}', which is not an element of this circuit; its gain is taken as 0.`
+                  : `${el.name} is controlled by the current of ${els[ci].name}, whose current is not a circuit unknown (use a voltage source, inductor or controlled voltage source); its gain is taken as 0.`,
+            });
+          }
+          if (el.kind === 'F') {
+            if (ctrl !== undefined) {
+              this.add(a, ctrl, gain);
+              this.add(b, ctrl, -gain);
+              this.readers.push({ kind: 'cccs', element: i, a, b, branch: ctrl, gain });
+            } else {
+              this.readers.push({ kind: 'open', element: i, a, b });
+            }
+          } else {
+            const k = this.branchOfElement.get(i)!;
+            this.stampBranchIncidence(a, b, k);
+            if (ctrl !== undefined) this.add(k, ctrl, -gain);
+            this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+          }
+          break;
+        }
+        case 'D': {
+          const dev = new DiodeDevice(el, a, b, internalOf.get(i) ?? -1, this.paramIssues);
+          this.bindDevice(dev);
+          break;
+        }
+        case 'Q': {
+          const dev = new BjtDevice(el, { c: a, b, e: u(el.nodes[2]) }, this.paramIssues);
+          this.bindDevice(dev);
+          break;
+        }
+        case 'M': {
+          const dev = new MosfetDevice(el, { d: a, g: b, s: u(el.nodes[2]), b: u(el.nodes[3]) }, this.paramIssues);
+          this.bindDevice(dev);
+          break;
+        }
+      }
+    });
+
+    this.pattern = { n: this.size, rows: Int32Array.from(this.rowsList), cols: Int32Array.from(this.colsList) };
+    this.linearValues = Float64Array.from(this.linearList);
+  }
+
+  /** Human-readable name of unknown `k`: a node name, an internal node, or the element whose branch current it is. */
+  describeUnknown(k: number): string {
+    const info = this.unknowns[k];
+    if (!info) return `unknown ${k}`;
+    if (info.kind === 'node') return `node ${this.circuit.nodes[info.node]}`;
+    if (info.kind === 'internal') return info.label;
+    return `the current through ${this.circuit.elements[info.element].name}`;
+  }
+
+  private finiteValue(i: number, v: number, what: string, unit: string): number {
+    if (Number.isFinite(v)) return v;
+    const el = this.circuit.elements[i];
+    this.layoutIssues.push({
+      element: i,
+      code: 'dc-value-unusable',
+      message: `The ${what} of ${el.name} is ${String(v)}${unit ? ' ' + unit : ''}, which is not a finite number; the solver uses 0 instead.`,
+    });
+    return 0;
+  }
+
+  /** Pattern position of (row, col), registering it on first use; −1 when either is ground. */
+  private entry(row: number, col: number): number {
+    if (row < 0 || col < 0) return -1;
+    const key = row * this.size + col;
+    let p = this.entries.get(key);
+    if (p === undefined) {
+      p = this.rowsList.length;
+      this.entries.set(key, p);
+      this.rowsList.push(row);
+      this.colsList.push(col);
+      this.linearList.push(0);
+    }
+    return p;
+  }
+
+  private add(row: number, col: number, v: number): void {
+    const p = this.entry(row, col);
+    if (p >= 0) this.linearList[p] += v;
+  }
+
+  private stampConductance(a: number, b: number, g: number): void {
+    this.add(a, a, g);
+    this.add(b, b, g);
+    this.add(a, b, -g);
+    this.add(b, a, -g);
+  }
+
+  /** Branch current k leaves node a and enters node b; the branch row reads V(a) − V(b) (further terms added by the caller). */
+  private stampBranchIncidence(a: number, b: number, k: number): void {
+    this.add(a, k, 1);
+    this.add(b, k, -1);
+    this.add(k, a, 1);
+    this.add(k, b, -1);
+  }
+
+  private bindDevice(dev: NonlinearDevice): void {
+    const t = dev.terminals;
+    const nt = t.length;
+    dev.positions = new Int32Array(nt * nt);
+    for (let r = 0; r < nt; r++) for (let c = 0; c < nt; c++) dev.positions[r * nt + c] = this.entry(t[r], t[c]);
+    this.devices.push(dev);
+  }
+}

@@ -1,0 +1,150 @@
+// Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
+
+import type { DeviceConditions } from '../devices/device';
+import type { LinearSolver } from './linear';
+import type { MnaLayout } from './mna';
+
+/**
+ * Convergence tolerances. An unknown has settled when its update is within
+ * RELTOL·max(|old|, |new|) plus an absolute floor (VNTOL for voltages, ABSTOL for
+ * branch currents); a row's KCL (or branch) residual is small when within RELTOL of the
+ * largest term in that row plus the same absolute floor. With quadratic convergence the
+ * last accepted update is far below these, so currents match an exact solution to well
+ * under 1e-6 relative.
+ */
+export const TOLERANCES = { reltol: 1e-9, vntol: 1e-9, abstol: 1e-15 } as const;
+
+/** The conductance every junction carries for robustness (siemens). */
+export const JUNCTION_GMIN = 1e-12;
+
+/** One Newton run's settings: source scale (source stepping) and node shunt (gmin stepping). */
+export interface NewtonRun {
+  sourceScale: number;
+  nodeShunt: number;
+  maxIterations: number;
+}
+
+/** How a Newton run ended. */
+export type NewtonOutcome =
+  | { status: 'converged'; iterations: number }
+  | { status: 'iteration-limit'; iterations: number; unsettled: number[] }
+  | { status: 'singular'; iterations: number; singularIndex: number }
+  | { status: 'non-finite'; iterations: number; culprits: number[] };
+
+/** Runs Newton iterations on one prepared layout; owns the work buffers so repeated solves allocate nothing. */
+export class NewtonEngine {
+  readonly values: Float64Array;
+  readonly rhs: Float64Array;
+  private readonly xNew: Float64Array;
+  private readonly isVoltage: Uint8Array;
+  /** Source values for the current solve (overrides applied), aligned with layout.sources. */
+  readonly sourceValues: Float64Array;
+  factorizations = 0;
+  /** The last iterate that was entirely finite (reported when nothing converges). */
+  readonly lastFinite: Float64Array;
+
+  constructor(
+    private readonly layout: MnaLayout,
+    private readonly solver: LinearSolver,
+  ) {
+    const n = layout.size;
+    this.values = new Float64Array(layout.linearValues.length);
+    this.rhs = new Float64Array(n);
+    this.xNew = new Float64Array(n);
+    this.lastFinite = new Float64Array(n);
+    this.isVoltage = new Uint8Array(n);
+    layout.unknowns.forEach((u, k) => {
+      this.isVoltage[k] = u.kind === 'branch' ? 0 : 1;
+    });
+    this.sourceValues = new Float64Array(layout.sources.length);
+  }
+
+  /** Prepares every device for a solve's temperature and beta. */
+  prepare(conditions: DeviceConditions): void {
+    for (const d of this.layout.devices) d.prepare(conditions);
+  }
+
+  /** Assembles the linearised system at x. Returns the limiting state and the devices whose stamps were not finite. */
+  private assemble(x: Float64Array, run: NewtonRun): { limited: boolean; nonFinite: number[] } {
+    const { layout, values, rhs } = this;
+    values.set(layout.linearValues);
+    rhs.fill(0);
+    const sv = this.sourceValues;
+    for (let s = 0; s < layout.sources.length; s++) {
+      const hook = layout.sources[s];
+      const v = sv[s] * run.sourceScale;
+      if (hook.kind === 'V') rhs[hook.rows[0]] += v;
+      else {
+        if (hook.rows[0] >= 0) rhs[hook.rows[0]] -= v;
+        if (hook.rows[1] >= 0) rhs[hook.rows[1]] += v;
+      }
+    }
+    if (run.nodeShunt > 0) for (const p of layout.nodeDiagonals) values[p] += run.nodeShunt;
+    let limited = false;
+    const nonFinite: number[] = [];
+    const devs = layout.devices;
+    for (let d = 0; d < devs.length; d++) {
+      const r = devs[d].load(x, values, rhs, true);
+      if (r.limited) limited = true;
+      if (!r.finite) nonFinite.push(d);
+    }
+    return { limited, nonFinite };
+  }
+
+  /**
+   * Newton from x (updated in place to the final iterate). Convergence needs an
+   * unlimited iteration whose update and residual are both within TOLERANCES.
+   */
+  run(x: Float64Array, run: NewtonRun): NewtonOutcome {
+    const { layout, values, rhs, xNew } = this;
+    const n = layout.size;
+    const { rows, cols } = layout.pattern;
+    for (const d of layout.devices) d.resetState(x);
+    const linear = layout.devices.length === 0;
+    let factored = false;
+    let unsettled: number[] = [];
+    const rowScale = new Float64Array(n);
+    const residual = new Float64Array(n);
+    for (let it = 1; it <= run.maxIterations; it++) {
+      const { limited, nonFinite } = this.assemble(x, run);
+      if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: nonFinite };
+      // A linear system's matrix is the same every iteration: factor it once.
+      if (!(linear && factored)) {
+        const f = this.solver.factor(values);
+        this.factorizations++;
+        if (!f.ok) return { status: 'singular', iterations: it, singularIndex: f.singularIndex };
+        factored = true;
+      }
+      this.solver.solve(rhs, xNew);
+      let finite = true;
+      for (let k = 0; k < n; k++) if (!Number.isFinite(xNew[k])) finite = false;
+      if (!finite) return { status: 'non-finite', iterations: it, culprits: [] };
+
+      // Residual F(x) = A(x)·x − b(x): exact KCL/branch residual at x when nothing was limited.
+      residual.fill(0);
+      rowScale.fill(0);
+      for (let e = 0; e < rows.length; e++) {
+        const term = values[e] * x[cols[e]];
+        residual[rows[e]] += term;
+        const a = Math.abs(term);
+        if (a > rowScale[rows[e]]) rowScale[rows[e]] = a;
+      }
+      const { reltol, vntol, abstol } = TOLERANCES;
+      unsettled = [];
+      for (let k = 0; k < n; k++) {
+        const floor = this.isVoltage[k] ? vntol : abstol;
+        const d = Math.abs(xNew[k] - x[k]);
+        const settledUpdate = d <= reltol * Math.max(Math.abs(xNew[k]), Math.abs(x[k])) + floor;
+        // Branch rows are voltage equations; node rows are KCL (amperes).
+        const resFloor = this.isVoltage[k] ? abstol : vntol;
+        const r = Math.abs(residual[k] - rhs[k]);
+        const settledResidual = r <= reltol * Math.max(rowScale[k], Math.abs(rhs[k])) + resFloor;
+        if (!settledUpdate || !settledResidual) unsettled.push(k);
+      }
+      x.set(xNew);
+      this.lastFinite.set(xNew);
+      if (!limited && unsettled.length === 0) return { status: 'converged', iterations: it };
+    }
+    return { status: 'iteration-limit', iterations: run.maxIterations, unsettled };
+  }
+}

@@ -1,0 +1,154 @@
+// Structural checks before any factorisation: nodes with no DC path to ground and loops of voltage-defining branches.
+
+import type { Circuit, Element } from '../circuit';
+
+/** A set of nodes whose voltage the circuit does not define at DC. */
+export interface FloatingGroup {
+  /** Node indices (never ground). */
+  nodes: number[];
+  /** Indices of the elements touching those nodes. */
+  elements: number[];
+}
+
+/** A loop made only of branches that each fix a voltage (sources, inductors, shorts): its current is undefined. */
+export interface VoltageLoop {
+  elements: number[];
+}
+
+class UnionFind {
+  private readonly parent: Int32Array;
+  constructor(n: number) {
+    this.parent = new Int32Array(n);
+    for (let i = 0; i < n; i++) this.parent[i] = i;
+  }
+  find(a: number): number {
+    let r = a;
+    while (this.parent[r] !== r) r = this.parent[r];
+    while (this.parent[a] !== r) {
+      const next = this.parent[a];
+      this.parent[a] = r;
+      a = next;
+    }
+    return r;
+  }
+  union(a: number, b: number): boolean {
+    const ra = this.find(a);
+    const rb = this.find(b);
+    if (ra === rb) return false;
+    this.parent[ra] = rb;
+    return true;
+  }
+}
+
+/** Node pairs through which an element conducts at DC (a junction's robustness conductance counts; a MOS gate and bulk do not). */
+function conductingPairs(el: Element): [number, number][] {
+  const n = el.nodes;
+  switch (el.kind) {
+    case 'R':
+      return Number.isNaN(el.resistance) || el.resistance === Infinity ? [] : [[n[0], n[1]]];
+    case 'L':
+    case 'V':
+    case 'D':
+    case 'E':
+    case 'H':
+      return [[n[0], n[1]]];
+    case 'Q':
+      return [
+        [n[0], n[1]],
+        [n[1], n[2]],
+      ];
+    case 'M':
+      return [[n[0], n[2]]];
+    case 'C':
+    case 'I':
+    case 'G':
+    case 'F':
+      return [];
+  }
+}
+
+/** Whether an element fixes the voltage between its first two nodes. */
+export function isVoltageDefining(el: Element): boolean {
+  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0);
+}
+
+/** Groups of nodes with no DC path to ground, with the elements that touch them. `skip` lists elements left out of the solve. */
+export function findFloatingGroups(circuit: Circuit, skip: Set<number>): FloatingGroup[] {
+  const n = circuit.nodes.length;
+  const uf = new UnionFind(n);
+  circuit.elements.forEach((el, i) => {
+    if (skip.has(i)) return;
+    for (const [a, b] of conductingPairs(el)) uf.union(a, b);
+  });
+  const groundRoot = uf.find(0);
+  const groups = new Map<number, FloatingGroup>();
+  for (let node = 1; node < n; node++) {
+    const r = uf.find(node);
+    if (r === groundRoot) continue;
+    let g = groups.get(r);
+    if (!g) {
+      g = { nodes: [], elements: [] };
+      groups.set(r, g);
+    }
+    g.nodes.push(node);
+  }
+  if (groups.size === 0) return [];
+  circuit.elements.forEach((el, i) => {
+    if (skip.has(i)) return;
+    const seen = new Set<number>();
+    for (const node of el.nodes) {
+      if (node <= 0 || node >= n) continue;
+      const g = groups.get(uf.find(node));
+      if (g && !seen.has(uf.find(node))) {
+        seen.add(uf.find(node));
+        g.elements.push(i);
+      }
+    }
+  });
+  return [...groups.values()];
+}
+
+/** Every loop closed only by voltage-defining branches (one loop reported per redundant branch). */
+export function findVoltageLoops(circuit: Circuit, skip: Set<number>): VoltageLoop[] {
+  const n = circuit.nodes.length;
+  const uf = new UnionFind(n);
+  const adjacency: { to: number; element: number }[][] = Array.from({ length: n }, () => []);
+  const loops: VoltageLoop[] = [];
+  circuit.elements.forEach((el, i) => {
+    if (skip.has(i) || !isVoltageDefining(el)) return;
+    const [a, b] = el.nodes;
+    if (!uf.union(a, b)) {
+      loops.push({ elements: [...pathBetween(adjacency, a, b), i] });
+      return;
+    }
+    adjacency[a].push({ to: b, element: i });
+    adjacency[b].push({ to: a, element: i });
+  });
+  return loops;
+}
+
+/** Elements along the tree path from a to b in a forest (breadth-first). Empty when a === b. */
+function pathBetween(adjacency: { to: number; element: number }[][], a: number, b: number): number[] {
+  if (a === b) return [];
+  const via = new Map<number, { from: number; element: number }>();
+  via.set(a, { from: -1, element: -1 });
+  const queue = [a];
+  for (let q = 0; q < queue.length; q++) {
+    const cur = queue[q];
+    if (cur === b) break;
+    for (const e of adjacency[cur]) {
+      if (via.has(e.to)) continue;
+      via.set(e.to, { from: cur, element: e.element });
+      queue.push(e.to);
+    }
+  }
+  const path: number[] = [];
+  let cur = b;
+  while (cur !== a) {
+    const step = via.get(cur);
+    if (!step) return path;
+    path.push(step.element);
+    cur = step.from;
+  }
+  return path.reverse();
+}
