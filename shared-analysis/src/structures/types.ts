@@ -48,7 +48,22 @@ export interface StructureOutput {
   node: string;
   /** Intended ratio IOUT/IREF from geometry (area, M=, W/L): 1 for a matched output. */
   ratio: number;
+  /** Widlar outputs: the emitter (source) resistor between the output's emitter and the shared rail. */
+  degeneration?: { resistor: string; ohms: number };
 }
+
+/** What each device does inside a structure (for hovers and reports). */
+export type StructureRole =
+  /** Diode-connected device the reference current sets (or its paralleled twin). */
+  | 'reference'
+  /** Device that delivers an output current. */
+  | 'output'
+  /** Wilson/cascode: the lower diode-connected device. */
+  | 'lower-diode'
+  /** Wilson/cascode: the lower device on the side opposite the lower diode. */
+  | 'lower-partner'
+  /** Emitter/source follower that supplies the control node (base-current helper). */
+  | 'helper';
 
 /** One step of a hand calculation, for hovers and reports. */
 export interface EstimateStep {
@@ -73,6 +88,14 @@ export interface Estimate {
   /** IREF with the 0.7 V shortcut (BJT, resistor-fed only), for comparison. */
   irefShortcut?: number;
   steps: EstimateStep[];
+  /** Where IREF came from: the hand formula for the feed, or a value the caller gave (e.g. the solved one). */
+  irefFrom?: 'resistor' | 'current-source' | 'mirror-output' | 'given' | 'unknown';
+  /** True when the supply cannot forward-bias the reference chain (IREF estimate is then 0). */
+  starved?: boolean;
+  /** Supply across the reference chain and the voltage the chain needs to turn on, when resistor-fed (V). */
+  supply?: { available: number; needed: number };
+  /** Output device -> estimated output-node voltage at the edge of the active region (V). */
+  outputEdge?: Record<string, number>;
 }
 
 /** Currents and headroom at one corner of supply, temperature and beta. */
@@ -114,4 +137,6 @@ export interface Structure {
   corners: CornerResult[];
   /** Why estimate and solved values differ by more than a few percent, when they do. */
   discrepancy?: string;
+  /** Device -> its role in the structure. */
+  roles?: Record<string, StructureRole>;
 }

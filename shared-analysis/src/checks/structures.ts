@@ -1,0 +1,613 @@
+// The structure checks: hand analysis beside the solved values, headroom, compliance, output resistance, and the findings they raise.
+
+import type { ResolvedOptions } from '../analysis';
+import type { Circuit, Element, Model } from '../circuit';
+import type { OperatingPoint } from '../solve/types';
+import { estimateStructure } from '../structures/estimate';
+import { eng, percent, sig, signedVolts } from '../structures/format';
+import { bjtRo, degeneratedRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
+import { measureStructure, type Measurement } from '../structures/measure';
+import { railsByIndex } from '../structures/rails';
+import { isBipolar, polaritySign, Topology, type Transistor } from '../structures/topology';
+import type { Structure, StructureKind } from '../structures/types';
+import type { Finding, RelatedLocation, Severity } from '../types';
+
+export { measureStructure } from '../structures/measure';
+export type { Measurement } from '../structures/measure';
+export { estimateStructure } from '../structures/estimate';
+export type { EstimateAt } from '../structures/estimate';
+
+/** Every finding code this module owns, with its default severity and a one-line summary for the README. */
+export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'mirror-output-out-of-region': {
+    severity: 'error',
+    summary: 'A mirror output is saturated (BJT), in triode (MOS) or cut off at the operating point; says by how much and what output voltage or load would bring it back.',
+  },
+  'mirror-headroom-low': {
+    severity: 'warning',
+    summary: 'A mirror output is still in its active region but closer to the edge than the headroom margin.',
+  },
+  'reference-starved': {
+    severity: 'error',
+    summary: 'The supply across a reference branch cannot forward-bias its reference device(s), so the mirror carries (almost) no current.',
+  },
+  'mirror-unmatched': {
+    severity: 'warning',
+    summary: 'Devices of one mirror use models that differ in IS, BF, VAF, KP, VTO, LAMBDA or GAMMA; gives the ratio error that causes.',
+  },
+  'mirror-ratio': {
+    severity: 'info',
+    summary: 'An output is deliberately ratioed by area, M or W/L; shows the intended ratio and the hand formula with it.',
+  },
+  'estimate-differs-from-solved': {
+    severity: 'info',
+    summary: 'The hand estimate and the solved operating point differ by more than 3 %; names the likely reasons.',
+  },
+  'structure-analysis-incomplete': {
+    severity: 'info',
+    summary: 'The hand analysis of a recognised structure could not be completed; the structure is shown without it.',
+  },
+};
+
+/** Relative difference between estimate and solve above which `discrepancy` is filled. */
+export const DISCREPANCY_THRESHOLD = 0.03;
+
+/** Everything `analyseStructures` reads. */
+export interface StructureCheckContext {
+  circuit: Circuit;
+  op?: OperatingPoint;
+  structures: Structure[];
+  options: ResolvedOptions;
+}
+
+const KIND_LABEL: Record<StructureKind, string> = {
+  'simple-mirror': 'simple mirror',
+  'helper-mirror': 'mirror with base-current helper',
+  'widlar-source': 'Widlar source',
+  'wilson-mirror': 'Wilson mirror',
+  'improved-wilson-mirror': 'improved Wilson mirror',
+  'cascode-mirror': 'cascode mirror',
+};
+
+/**
+ * Fills estimate, solved, headroom, compliance, outputResistance and discrepancy on each
+ * structure (mutating them) and returns the findings. Without a converged operating
+ * point only the hand analysis and the topology checks run (no solved values, no headroom).
+ */
+export function analyseStructures(ctx: StructureCheckContext): Finding[] {
+  const { circuit, structures, options } = ctx;
+  const op = ctx.op && ctx.op.converged ? ctx.op : undefined;
+  const out: Finding[] = [];
+  const topo = new Topology(circuit);
+  for (const s of feedOrder(structures)) {
+    try {
+      out.push(...new StructureCheck(circuit, topo, s, structures, op, options).run());
+    } catch (err) {
+      // A defect in one structure's analysis must not take down the others or the editor.
+      const dev = topo.elementByName.get(s.reference.device);
+      out.push({
+        code: 'structure-analysis-incomplete',
+        severity: STRUCTURE_CODES['structure-analysis-incomplete'].severity,
+        message: `The hand analysis of the ${KIND_LABEL[s.kind]} on ${s.reference.device} could not be completed (${err instanceof Error ? err.message : String(err)}); its currents are not annotated.`,
+        uri: dev?.origin.uri ?? '',
+        span: dev?.origin.span ?? { start: 0, end: 0 },
+      });
+    }
+  }
+  return applySeverities(out, options);
+}
+
+/** Structures ordered so that a mirror fed by another mirror's output comes after it. */
+function feedOrder(structures: Structure[]): Structure[] {
+  const byId = new Map(structures.map((s) => [s.id, s]));
+  const done = new Set<string>();
+  const order: Structure[] = [];
+  const visit = (s: Structure, depth: number) => {
+    if (done.has(s.id)) return;
+    const from = s.reference.fedBy ? byId.get(s.reference.fedBy) : undefined;
+    if (from && depth < structures.length) visit(from, depth + 1);
+    if (done.has(s.id)) return;
+    done.add(s.id);
+    order.push(s);
+  };
+  for (const s of structures) visit(s, 0);
+  return order;
+}
+
+function applySeverities(findings: Finding[], options: ResolvedOptions): Finding[] {
+  const out: Finding[] = [];
+  for (const f of findings) {
+    const o = options.severities?.[f.code];
+    if (o === 'off') continue;
+    out.push(o ? { ...f, severity: o } : f);
+  }
+  return out;
+}
+
+/** Parameters whose difference between devices of one mirror breaks its matching. */
+const MATCH_PARAMS: Record<'bjt' | 'mos', string[]> = {
+  bjt: ['IS', 'BF', 'VAF', 'NF', 'XTI', 'EG'],
+  mos: ['KP', 'VTO', 'LAMBDA', 'GAMMA', 'PHI'],
+};
+
+class StructureCheck {
+  private readonly sign: 1 | -1;
+  private readonly bipolar: boolean;
+  private readonly temperatureC: number;
+  private readonly findings: Finding[] = [];
+  private measured?: Measurement;
+
+  constructor(
+    private readonly circuit: Circuit,
+    private readonly topo: Topology,
+    private readonly s: Structure,
+    private readonly all: Structure[],
+    private readonly op: OperatingPoint | undefined,
+    private readonly options: ResolvedOptions,
+  ) {
+    this.sign = polaritySign(s.technology);
+    this.bipolar = isBipolar(s.technology);
+    this.temperatureC = op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC;
+  }
+
+  private t(name: string): Transistor {
+    const t = this.topo.byName.get(name);
+    if (!t) throw new Error(`device ${name} is not in the circuit`);
+    return t;
+  }
+
+  private v(node: number): number | undefined {
+    const x = this.op?.nodes[this.topo.nodeName(node)];
+    return x !== undefined && Number.isFinite(x) ? x : undefined;
+  }
+
+  run(): Finding[] {
+    const s = this.s;
+    if (this.op) {
+      this.measured = measureStructure(this.circuit, this.op, s);
+      s.solved = { iref: this.measured.iref, iout: { ...this.measured.iout } };
+      s.headroom = { ...this.measured.headroom };
+    } else {
+      s.solved = undefined;
+      s.headroom = {};
+    }
+    const outputVolts: Record<string, number> = {};
+    if (this.op) {
+      for (const o of s.outputs) {
+        const x = this.v(this.t(o.device).out);
+        if (x !== undefined) outputVolts[o.device] = x;
+      }
+    }
+    s.estimate = estimateStructure(this.circuit, s, {
+      temperatureC: this.temperatureC,
+      outputVolts: this.op ? outputVolts : undefined,
+      structures: this.all,
+      irefGiven: s.reference.feed === 'other' ? this.measured?.iref : undefined,
+    });
+    s.compliance = this.compliance();
+    s.outputResistance = this.outputResistance();
+    s.discrepancy = this.discrepancy();
+
+    this.checkStarved();
+    this.checkRegions();
+    this.checkUnmatched();
+    this.checkRatios();
+    if (s.discrepancy) this.reportDiscrepancy();
+    return this.findings;
+  }
+
+  // ---- records ----------------------------------------------------------
+
+  private compliance(): Structure['compliance'] {
+    const rails = [...railsByIndex(this.circuit).values()].map((r) => r.volts);
+    const top = rails.length ? Math.max(...rails) : UNBOUNDED_OHMS;
+    const bottom = rails.length ? Math.min(...rails) : -UNBOUNDED_OHMS;
+    const out: Structure['compliance'] = {};
+    for (const o of this.s.outputs) {
+      const edge = this.edgeVolts(o.device);
+      if (edge === undefined) continue;
+      out[o.device] = this.sign > 0 ? { min: edge, max: Math.max(top, edge) } : { min: Math.min(bottom, edge), max: edge };
+    }
+    return out;
+  }
+
+  /** Output-node voltage at the edge of the active region: the output's base (VBC = 0) or V(gate) − VTH. */
+  private edgeVolts(device: string): number | undefined {
+    const t = this.t(device);
+    if (this.op) {
+      const vb = this.v(t.ctrl);
+      if (vb === undefined) return undefined;
+      if (this.bipolar) return vb;
+      const rec = this.op.devices[device];
+      // MosRecord.vov is in the device's own polarity (positive when on): edge = V(source) ± VOV.
+      if (rec && rec.type === 'mosfet') {
+        const vs = this.v(t.common);
+        if (vs !== undefined) return vs + this.sign * rec.vov;
+      }
+      return vb - (t.element.model.params.VTO ?? 0);
+    }
+    return this.s.estimate?.outputEdge?.[device];
+  }
+
+  private outputResistance(): Record<string, number> {
+    const res: Record<string, number> = {};
+    for (const o of this.s.outputs) {
+      const t = this.t(o.device);
+      const p = t.element.model.params;
+      const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;
+      if (!(i > 0)) {
+        res[o.device] = UNBOUNDED_OHMS;
+        continue;
+      }
+      let r: number;
+      if (this.bipolar) {
+        const va = p.VAF ?? Infinity;
+        const ro = bjtRo(va, i);
+        const beta = p.BF ?? 100;
+        const gm = i / ((p.NF ?? 1) * thermalVolts(this.temperatureC));
+        const rpi = beta / gm;
+        switch (this.s.kind) {
+          case 'widlar-source':
+            r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, rpi) : ro;
+            break;
+          case 'wilson-mirror':
+          case 'improved-wilson-mirror':
+            // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — Wilson Rout ≈ β·ro/2 (from memory).
+            r = (beta * ro) / 2;
+            break;
+          case 'cascode-mirror':
+            // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — bipolar cascode Rout of the order of β·ro (from memory).
+            r = beta * ro;
+            break;
+          default:
+            r = ro;
+        }
+      } else {
+        const lambda = p.LAMBDA ?? 0;
+        const ro = mosRo(lambda, i);
+        const kb = (p.KP ?? 2e-5) * t.scale;
+        const gm = Math.sqrt(2 * kb * i);
+        switch (this.s.kind) {
+          case 'widlar-source':
+            r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, Infinity) : ro;
+            break;
+          case 'wilson-mirror':
+          case 'improved-wilson-mirror':
+          case 'cascode-mirror':
+            // Source: Razavi, ch. 5 — cascode Rout ≈ gm·ro² (the Wilson's feedback gives the same order, from memory).
+            r = ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : gm * ro * ro;
+            break;
+          default:
+            r = ro;
+        }
+      }
+      res[o.device] = Number.isFinite(r) ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
+    }
+    return res;
+  }
+
+  /** Per output (and IREF) relative errors of the estimate against the solve. */
+  private errors(): { key: string; est: number; solved: number; rel: number }[] {
+    const est = this.s.estimate;
+    const sol = this.s.solved;
+    if (!est || !sol || est.irefFrom === 'unknown') return [];
+    const rows: { key: string; est: number; solved: number; rel: number }[] = [];
+    const add = (key: string, e: number, x: number) => {
+      if (x > 0 && Number.isFinite(e)) rows.push({ key, est: e, solved: x, rel: (e - x) / x });
+    };
+    add('IREF', est.iref, sol.iref);
+    for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0);
+    return rows;
+  }
+
+  private discrepancy(): string | undefined {
+    const rows = this.errors();
+    const bad = rows.filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD);
+    if (bad.length === 0) return undefined;
+    const reasons: string[] = [];
+    const s = this.s;
+    for (const d of this.measured?.outOfRegion ?? []) reasons.push(`${d} is out of its active region at the operating point`);
+    const unmatched = this.unmatchedPairs();
+    if (unmatched.length > 0) reasons.push(`unmatched devices (${unmatched.map((u) => `${u.device}: ${u.differing.join(', ')}`).join('; ')})`);
+    const finiteEarly = s.devices.some((d) => {
+      const p = this.t(d).element.model.params;
+      return this.bipolar ? Number.isFinite(p.VAF ?? Infinity) && (p.VAF ?? 0) > 0 : (p.LAMBDA ?? 0) > 0;
+    });
+    if (finiteEarly) {
+      const earlyInFormula = s.kind === 'simple-mirror' || s.kind === 'helper-mirror';
+      const vceMismatch = s.outputs.some((o) => {
+        const t = this.t(o.device);
+        const vo = this.v(t.out);
+        const vc = this.v(t.ctrl);
+        return vo !== undefined && vc !== undefined && Math.abs(vo - vc) > 0.1;
+      });
+      if (!earlyInFormula && vceMismatch) reasons.push(`the ${this.bipolar ? 'Early effect (VCE of output and reference differ, finite VAF)' : 'channel-length modulation (VDS of output and reference differ, λ > 0)'} is not in this kind's hand formula`);
+    }
+    const loads = this.controlLoads();
+    if (loads.length > 0) reasons.push(`base-current or other loading of the control node by ${loads.join(', ')}`);
+    const tnoms = new Set(s.devices.map((d) => this.t(d).element.model.params.TNOM).filter((x) => x !== undefined));
+    if (tnoms.size > 1) reasons.push('temperature mismatch (the models have different nominal temperatures)');
+    const irefRow = rows.find((r) => r.key === 'IREF');
+    if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && reasons.length === 0)
+      reasons.push(`the reference branch: IREF ${eng(irefRow.est, 'A')} by hand against ${eng(irefRow.solved, 'A')} solved, so something else on the reference node draws or supplies current`);
+    if (reasons.length === 0)
+      reasons.push(s.kind === 'widlar-source' ? 'the Widlar equation neglects the reference base currents and the Early effect' : 'the simplifications of the hand formula');
+    return reasons.join('; ');
+  }
+
+  /** Elements on the structure's control nodes that draw current there without being part of it or its feed. */
+  private controlLoads(): string[] {
+    const members = new Set(this.s.devices);
+    const feed = new Set(this.s.reference.elements);
+    const nodes = new Set<number>();
+    for (const d of this.s.devices) {
+      const t = this.t(d);
+      const role = this.s.roles?.[d];
+      if (role === 'reference' || role === 'lower-diode' || role === 'output') nodes.add(t.ctrl);
+    }
+    const names = new Set<string>();
+    for (const n of nodes) {
+      for (const a of this.topo.conducting(n)) {
+        if (members.has(a.element.name) || feed.has(a.element.name)) continue;
+        if (n === this.topo.nodeIndex.get(this.s.reference.node) && this.s.reference.feed === 'other' && a.slot !== 1) continue;
+        names.add(a.element.name);
+      }
+    }
+    return [...names].sort();
+  }
+
+  private unmatchedPairs(): { device: string; model: Model; differing: string[] }[] {
+    const ref = this.t(this.s.reference.device).element.model;
+    const keys = MATCH_PARAMS[this.bipolar ? 'bjt' : 'mos'];
+    const out: { device: string; model: Model; differing: string[] }[] = [];
+    for (const d of this.s.devices) {
+      if (d === this.s.reference.device) continue;
+      const m = this.t(d).element.model;
+      if (m === ref) continue;
+      const differing = keys.filter((k) => !sameNumber(m.params[k], ref.params[k]));
+      if (differing.length > 0) out.push({ device: d, model: m, differing });
+    }
+    return out;
+  }
+
+  // ---- findings ---------------------------------------------------------
+
+  private related(except: string[]): RelatedLocation[] {
+    const rel: RelatedLocation[] = [];
+    for (const d of this.s.devices) {
+      if (except.includes(d)) continue;
+      const el = this.topo.elementByName.get(d);
+      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: ${this.s.roles?.[d] ?? 'device'} of the ${KIND_LABEL[this.s.kind]}` });
+    }
+    for (const r of this.s.reference.elements) {
+      if (except.includes(r)) continue;
+      const el = this.topo.elementByName.get(r);
+      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${r}: feeds the reference (${this.s.reference.feed})` });
+    }
+    return rel;
+  }
+
+  private emit(code: string, at: Element, message: string, data: Record<string, unknown>): void {
+    this.findings.push({
+      code,
+      severity: STRUCTURE_CODES[code].severity,
+      message,
+      uri: at.origin.uri,
+      span: at.origin.span,
+      related: this.related([at.name]),
+      data: jsonSafe({ structure: this.s.id, ...data }),
+    });
+  }
+
+  private checkStarved(): void {
+    const est = this.s.estimate;
+    if (!est?.starved) return;
+    const ref = this.s.reference;
+    const refDev = this.topo.elementByName.get(ref.device)!;
+    const first = ref.elements[0] ? this.topo.elementByName.get(ref.elements[0]) : undefined;
+    const at = first ?? refDev;
+    if (ref.feed === 'current-source') {
+      this.emit(
+        'reference-starved',
+        at,
+        `${first?.name ?? 'The current source'} drives current out of the reference node ${ref.node}, the wrong way for the ${this.s.technology.toUpperCase()} reference ${ref.device}: the ${KIND_LABEL[this.s.kind]} carries no current.`,
+        { referenceDevice: ref.device, iref: est.iref },
+      );
+      return;
+    }
+    const sup = est.supply;
+    const chain = ref.elements.join(' + ');
+    const stackWord = this.bipolar ? 'VBE' : 'VTH';
+    const n = this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' ? 1 : 2;
+    const msg = sup
+      ? `The supply cannot forward-bias the reference of the ${KIND_LABEL[this.s.kind]} on ${ref.device}: ${eng(sup.available, 'V')} across ${chain} and the reference chain, below the ${eng(sup.needed, 'V')} that ${n > 1 ? `${n} stacked ${stackWord}s need` : `one ${stackWord} needs`}${this.bipolar ? ' (about 0.6 V each)' : ''}; IREF by hand is only ${eng(est.iref, 'A')}.`
+      : `The reference resistor chain ${chain} of the ${KIND_LABEL[this.s.kind]} on ${ref.device} has no usable resistance; IREF cannot be set.`;
+    this.emit('reference-starved', at, msg, { referenceDevice: ref.device, availableV: sup?.available, neededV: sup?.needed, iref: est.iref, resistors: ref.elements });
+  }
+
+  private checkRegions(): void {
+    if (!this.measured || !this.op) return;
+    const margin = this.options.headroomMarginV;
+    for (const o of this.s.outputs) {
+      const t = this.t(o.device);
+      const head = this.measured.headroom[o.device];
+      const solved = this.measured.iout[o.device];
+      const active = this.s.estimate?.iout[o.device] ?? 0;
+      const edge = this.edgeVolts(o.device);
+      const vout = this.v(t.out);
+      if (this.measured.outOfRegion.includes(o.device)) {
+        const rec = this.op.devices[o.device];
+        const region = rec && (rec.type === 'bjt' || rec.type === 'mosfet') ? rec.region : head < 0 ? (this.bipolar ? 'saturation' : 'triode') : 'cutoff';
+        const err = active > 0 ? (solved - active) / active : 0;
+        const parts: string[] = [];
+        let what: string;
+        if (region === 'cutoff') {
+          const vb = this.v(t.ctrl) ?? 0;
+          const ve = this.v(t.common) ?? 0;
+          what = `is cut off at the operating point (${this.bipolar ? (this.sign > 0 ? 'VBE' : 'VEB') : this.sign > 0 ? 'VGS' : 'VSG'} = ${eng(this.sign * (vb - ve), 'V')})`;
+        } else if (this.bipolar) {
+          const j = this.sign > 0 ? 'VBC' : 'VCB';
+          what = `is ${region === 'reverse-active' ? 'reverse-active' : 'saturated'} at the operating point: ${j} = ${signedVolts(-head)}, ${eng(-head, 'V')} past the forward-active edge (${j} ≤ 0)`;
+        } else {
+          const vov = rec && rec.type === 'mosfet' ? rec.vov : 0;
+          what = `is in triode at the operating point: ${this.sign > 0 ? 'VDS' : 'VSD'} is ${eng(-head, 'V')} below the overdrive ${this.sign > 0 ? 'VGS − VTH' : 'VSG − |VTH|'} = ${eng(vov, 'V')}`;
+        }
+        parts.push(`${o.device} (output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}) ${what}.`);
+        if (active > 0) parts.push(`It carries ${eng(solved, 'A')} against ${eng(active, 'A')} expected in the active region (${percent(err)}).`);
+        const data: Record<string, unknown> = { device: o.device, region, pastEdgeV: -head, solvedA: solved, activeA: active, currentError: err, outputNode: o.node, outputV: vout };
+        if (edge !== undefined && region !== 'cutoff') {
+          const cmp = this.sign > 0 ? '≥' : '≤';
+          let advice = `Keep V(${o.node}) ${cmp} ${eng(edge, 'V')}`;
+          data.edgeV = edge;
+          const load = this.loadResistor(t);
+          if (load && active > 0) {
+            const rmax = (this.sign * (load.railV - edge)) / active;
+            if (rmax > 0) {
+              advice += `, i.e. ${load.name} ≤ ${eng(rmax, 'Ω')} at ${eng(active, 'A')}`;
+              data.loadResistor = load.name;
+              data.maxLoadOhms = rmax;
+            } else advice += `; no value of ${load.name} to its rail ${eng(load.railV, 'V')} can do that`;
+          }
+          parts.push(advice + '.');
+        }
+        this.emit('mirror-output-out-of-region', t.element, parts.join(' '), data);
+      } else if (head < margin) {
+        const edgeText = edge !== undefined ? ` against the edge at ${eng(edge, 'V')}` : '';
+        const basis = this.bipolar
+          ? ` (edge: VBC = 0; stricter than the textbook VCE(sat) ≈ 0.2 V)`
+          : ` (edge: VDS = VGS − VTH)`;
+        this.emit(
+          'mirror-headroom-low',
+          t.element,
+          `${o.device} (output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}) has ${eng(head, 'V')} of headroom, under the ${eng(margin, 'V')} margin: V(${o.node}) = ${eng(vout ?? 0, 'V')}${edgeText}${basis}.`,
+          { device: o.device, headroomV: head, marginV: margin, outputV: vout, edgeV: edge },
+        );
+      }
+    }
+  }
+
+  /** The single resistor from an output node to a rail, when the node's load is just that. */
+  private loadResistor(t: Transistor): { name: string; railV: number } | undefined {
+    const rails = railsByIndex(this.circuit);
+    const atts = this.topo.conducting(t.out).filter((a) => a.element !== t.element && a.element.kind === 'R');
+    if (atts.length !== 1) return undefined;
+    const r = atts[0].element;
+    const other = r.nodes[0] === t.out ? r.nodes[1] : r.nodes[0];
+    const rail = rails.get(other);
+    return rail ? { name: r.name, railV: rail.volts } : undefined;
+  }
+
+  private checkUnmatched(): void {
+    const refT = this.t(this.s.reference.device);
+    const refModel = refT.element.model;
+    for (const u of this.unmatchedPairs()) {
+      const t = this.t(u.device);
+      const err = this.mismatchError(refT, t);
+      this.emit(
+        'mirror-unmatched',
+        t.element,
+        `${u.device} uses model ${u.model.name} while the reference ${refT.name} uses ${refModel.name}; they differ in ${u.differing
+          .map((k) => `${k} (${sig(u.model.params[k])} vs ${sig(refModel.params[k])})`)
+          .join(', ')}, which shifts the ${KIND_LABEL[this.s.kind]}'s ratio by about ${percent(err)}.`,
+        { device: u.device, referenceDevice: refT.name, models: [refModel.name, u.model.name], differing: u.differing, ratioErrorPercent: err * 100 },
+      );
+    }
+  }
+
+  /** Relative ratio error a model difference causes at the estimated bias: IS (or KP, VTO) and beta / λ effects. */
+  private mismatchError(ref: Transistor, t: Transistor): number {
+    const pr = ref.element.model.params;
+    const pt = t.element.model.params;
+    const T = this.temperatureC;
+    const tn = this.circuit.tnomC;
+    if (this.bipolar) {
+      const isR = isAtTemperature(pr.IS ?? 1e-16, T, tn, pr.XTI ?? 3, pr.EG ?? 1.11);
+      const isT = isAtTemperature(pt.IS ?? 1e-16, T, tn, pt.XTI ?? 3, pt.EG ?? 1.11);
+      // Same VBE: IC scales with IS(T); the NF difference scales the exponent.
+      const vbe = this.s.estimate?.vControl ?? 0.65;
+      const vt = thermalVolts(T);
+      const exp = vbe / ((pt.NF ?? 1) * vt) - vbe / ((pr.NF ?? 1) * vt);
+      let ratio = (isT / isR) * Math.exp(Math.max(Math.min(exp, 50), -50));
+      const bR = pr.BF ?? 100;
+      const bT = pt.BF ?? 100;
+      if (bR > 0 && bT > 0) ratio *= (1 + 2 / bR) / (1 + 1 / bR + 1 / bT);
+      const vaR = pr.VAF ?? Infinity;
+      const vaT = pt.VAF ?? Infinity;
+      const vce = this.op ? Math.abs((this.v(t.out) ?? 0) - (this.v(t.common) ?? 0)) : vbe;
+      const early = (va: number) => (Number.isFinite(va) && va > 0 ? 1 + vce / va : 1);
+      ratio *= early(vaT) / early(vaR);
+      return ratio - 1;
+    }
+    const vgs = this.s.estimate?.vControl ?? 1;
+    const vthR = this.sign * (pr.VTO ?? 0);
+    const vthT = this.sign * (pt.VTO ?? 0);
+    const vovR = vgs - vthR;
+    const vovT = vgs - vthT;
+    if (!(vovR > 0)) return 0;
+    let ratio = ((pt.KP ?? 2e-5) / (pr.KP ?? 2e-5)) * Math.pow(Math.max(vovT, 0) / vovR, 2);
+    const vds = this.op ? Math.abs((this.v(t.out) ?? 0) - (this.v(t.common) ?? 0)) : vgs;
+    ratio *= (1 + (pt.LAMBDA ?? 0) * vds) / (1 + (pr.LAMBDA ?? 0) * vds);
+    return ratio - 1;
+  }
+
+  private checkRatios(): void {
+    const est = this.s.estimate;
+    for (const o of this.s.outputs) {
+      if (Math.abs(o.ratio - 1) < 1e-9) continue;
+      const t = this.t(o.device);
+      const sumM = this.s.outputs.reduce((a, x) => a + x.ratio, 0);
+      let formula: string;
+      if (!this.bipolar) formula = `IOUT ≈ ${sig(o.ratio)}·IREF`;
+      else if (this.s.kind === 'simple-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/β)`;
+      else if (this.s.kind === 'helper-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/(β(β + 1)))`;
+      else formula = `IOUT ≈ ${sig(o.ratio)}·IREF by geometry`;
+      const value = est && est.irefFrom !== 'unknown' ? ` = ${eng(est.iout[o.device] ?? 0, 'A')} by hand` : '';
+      const what = this.bipolar ? 'area × M' : '(W/L) × M';
+      this.emit(
+        'mirror-ratio',
+        t.element,
+        `${o.device} is a 1:${sig(o.ratio)} output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device} (${what} relative to the reference): ${formula}${value}.`,
+        { device: o.device, ratio: o.ratio, iout: est?.iout[o.device] },
+      );
+    }
+  }
+
+  private reportDiscrepancy(): void {
+    const rows = this.errors();
+    const worst = rows.reduce((a, b) => (Math.abs(b.rel) > Math.abs(a.rel) ? b : a));
+    const dev = worst.key === 'IREF' ? this.s.reference.device : worst.key;
+    const el = this.topo.elementByName.get(dev)!;
+    const list = rows
+      .filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD)
+      .map((r) => `${r.key === 'IREF' ? 'IREF' : `IOUT(${r.key})`} ${eng(r.est, 'A')} by hand, ${eng(r.solved, 'A')} solved (${percent(r.rel)})`)
+      .join('; ');
+    this.emit(
+      'estimate-differs-from-solved',
+      el,
+      `The hand estimate of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device} differs from the operating point by more than ${sig(DISCREPANCY_THRESHOLD * 100)} %: ${list}. Likely: ${this.s.discrepancy}.`,
+      { rows: rows.map((r) => ({ quantity: r.key, estimateA: r.est, solvedA: r.solved, relative: r.rel })), reason: this.s.discrepancy },
+    );
+  }
+}
+
+function sameNumber(a: number | undefined, b: number | undefined): boolean {
+  if (a === b) return true;
+  if (a === undefined || b === undefined) return false;
+  if (!Number.isFinite(a) || !Number.isFinite(b)) return a === b;
+  return Math.abs(a - b) <= 1e-9 * Math.max(Math.abs(a), Math.abs(b));
+}
+
+/** Replaces non-finite numbers (not JSON-safe) by null and drops undefined fields. */
+function jsonSafe(data: Record<string, unknown>): Record<string, unknown> {
+  const fix = (v: unknown): unknown => {
+    if (typeof v === 'number') return Number.isFinite(v) ? v : v > 0 ? UNBOUNDED_OHMS : v < 0 ? -UNBOUNDED_OHMS : null;
+    if (Array.isArray(v)) return v.map(fix);
+    if (v && typeof v === 'object') {
+      const o: Record<string, unknown> = {};
+      for (const [k, x] of Object.entries(v)) if (x !== undefined) o[k] = fix(x);
+      return o;
+    }
+    return v;
+  };
+  return fix(data) as Record<string, unknown>;
+}

@@ -1,0 +1,572 @@
+// Hand analysis of one recognised structure: IREF from its feed, solved self-consistently with the reference's VBE/VGS, then each output current.
+
+import { MODEL_DEFAULTS, type Circuit, type CurrentSource, type Model } from '../circuit';
+import { eng, sig } from './format';
+import {
+  cascodeGain,
+  diodeMosVgs,
+  earlyFactor,
+  helperMirrorGain,
+  isAtTemperature,
+  lambdaFactor,
+  mosWidlarOutput,
+  simpleMirrorGain,
+  thermalVolts,
+  thresholdWithBody,
+  vbeAt,
+  widlarOutput,
+  wilsonGain,
+} from './formulas';
+import { railsByIndex } from './rails';
+import { isBipolar, polaritySign, Topology, type Transistor } from './topology';
+import type { Estimate, EstimateStep, Structure } from './types';
+
+/** Where and how to evaluate the hand analysis. */
+export interface EstimateAt {
+  temperatureC: number;
+  /** Multiplies every BF (beta corners). */
+  betaScale?: number;
+  /** Node name -> volts, overriding the rails found in the circuit (supply corners). */
+  railVolts?: Record<string, number>;
+  /** Output device -> its output-node voltage (e.g. solved), for the Early / λ correction. */
+  outputVolts?: Record<string, number>;
+  /** The other structures of the circuit, so a mirror fed by another mirror's output can use that estimate. */
+  structures?: Structure[];
+  /** IREF to use when the feed cannot be estimated by hand (feed `other`), e.g. the solved one. */
+  irefGiven?: number;
+  /** Overrides of `Element.dc` by source name (supply corners on current sources). */
+  sourceValues?: Record<string, number>;
+}
+
+/** Turn-on voltage per stacked junction below which a bipolar reference counts as starved: about one VBE(on) (common practice; Horowitz and Hill, 3rd ed., ch. 2: 0.6–0.7 V at 1 mA). */
+export const STARVED_VBE = 0.6;
+/** The 0.7 V shortcut designers use for VBE (common practice). */
+export const SHORTCUT_VBE = 0.7;
+
+const GRAY = 'Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4';
+const RAZAVI = 'Razavi, Design of Analog CMOS Integrated Circuits, ch. 5';
+
+/**
+ * The hand analysis of one structure alone (no operating point). IREF comes from the feed:
+ * resistor chain (V+ − V− − Σ VBE)/R solved together with each stacked device's VBE (or VGS)
+ * at its own current, a current source's value, or the feeding structure's estimated output.
+ * Outputs follow the formula of the structure's kind; every step is recorded.
+ */
+export function estimateStructure(circuit: Circuit, s: Structure, at: EstimateAt): Estimate {
+  return new HandAnalysis(circuit, s, at, 0).run();
+}
+
+interface DeviceParams {
+  t: Transistor;
+  model: Model;
+  /** Bipolar: effective IS at temperature (× area × M). */
+  isEff: number;
+  nfVt: number;
+  beta: number;
+  va: number;
+  /** MOS: KP·W/L·M, own-polarity VTO, λ, γ, φ. */
+  kBeta: number;
+  vto: number;
+  lambda: number;
+  gamma: number;
+  phi: number;
+}
+
+/** What the chain of a structure does at one IREF. */
+interface ChainState {
+  /** Voltage of the reference node above (NPN/NMOS) or below (PNP/PMOS) the common rail. */
+  stack: number;
+  /** VBE/VGS of the reference device. */
+  vControl: number;
+  /** Reference device current. */
+  iRef: number;
+  iout: Record<string, number>;
+  /** Output device -> output-node edge voltage relative to the common rail (own polarity). */
+  edge: Record<string, number>;
+  steps: EstimateStep[];
+}
+
+class HandAnalysis {
+  private readonly topo: Topology;
+  private readonly sign: 1 | -1;
+  private readonly bipolar: boolean;
+  private readonly vt: number;
+  private readonly railVolts = new Map<number, number>();
+  private readonly params = new Map<string, DeviceParams>();
+
+  constructor(
+    private readonly circuit: Circuit,
+    private readonly s: Structure,
+    private readonly at: EstimateAt,
+    private readonly depth: number,
+  ) {
+    this.topo = new Topology(circuit);
+    this.sign = polaritySign(s.technology);
+    this.bipolar = isBipolar(s.technology);
+    this.vt = thermalVolts(at.temperatureC);
+    for (const [i, r] of railsByIndex(circuit)) this.railVolts.set(i, r.volts);
+    for (const [name, v] of Object.entries(at.railVolts ?? {})) {
+      const i = this.topo.nodeIndex.get(name);
+      if (i !== undefined && Number.isFinite(v)) this.railVolts.set(i, v);
+    }
+  }
+
+  private dev(name: string): DeviceParams {
+    const known = this.params.get(name);
+    if (known) return known;
+    const t = this.topo.byName.get(name);
+    if (!t) throw new Error(`structure device ${name} is not in the circuit`);
+    const model = t.element.model;
+    const kind = model.kind === 'pnp' || model.kind === 'npn' || model.kind === 'nmos' || model.kind === 'pmos' ? model.kind : 'npn';
+    const get = (k: string) => {
+      const v = model.params[k];
+      return Number.isFinite(v) || v === Infinity ? v : MODEL_DEFAULTS[kind][k] ?? 0;
+    };
+    let p: DeviceParams;
+    if (t.element.kind === 'Q') {
+      const is = positiveOr(get('IS'), 1e-16);
+      const isT = isAtTemperature(is, this.at.temperatureC, this.circuit.tnomC, get('XTI'), get('EG'));
+      const bf = positiveOr(get('BF'), 100) * positiveOr(this.at.betaScale ?? 1, 1);
+      const va = get('VAF');
+      p = {
+        t,
+        model,
+        isEff: isT * t.scale,
+        nfVt: positiveOr(get('NF'), 1) * this.vt,
+        beta: bf,
+        va: va > 0 ? va : Infinity,
+        kBeta: 0,
+        vto: 0,
+        lambda: 0,
+        gamma: 0,
+        phi: 0.6,
+      };
+    } else {
+      const kp = positiveOr(get('KP'), 2e-5);
+      p = {
+        t,
+        model,
+        isEff: 0,
+        nfVt: this.vt,
+        beta: Infinity,
+        va: Infinity,
+        kBeta: kp * t.scale,
+        vto: this.sign * get('VTO'),
+        lambda: Math.max(get('LAMBDA'), 0),
+        gamma: Math.max(get('GAMMA'), 0),
+        phi: positiveOr(get('PHI'), 0.6),
+      };
+    }
+    this.params.set(name, p);
+    return p;
+  }
+
+  private role(r: string): Transistor[] {
+    return this.s.devices.filter((d) => this.s.roles?.[d] === r).map((d) => this.topo.byName.get(d)!).filter(Boolean);
+  }
+
+  private refT(): Transistor {
+    return this.topo.byName.get(this.s.reference.device)!;
+  }
+
+  /** Potential of the common (emitter/source) node of the reference, when it is a rail. */
+  private commonVolts(): number | undefined {
+    const ref = this.refT();
+    const lower = this.role('lower-diode')[0];
+    return this.railVolts.get((lower ?? ref).common);
+  }
+
+  run(): Estimate {
+    const steps: EstimateStep[] = [];
+    if (!this.s.devices.every((d) => this.topo.byName.has(d))) {
+      return { iref: 0, iout: Object.fromEntries(this.s.outputs.map((o) => [o.device, 0])), vControl: 0, steps, irefFrom: 'unknown' };
+    }
+    steps.push({
+      quantity: 'VT',
+      formula: 'k·T/q (k = 1.380649e-23 J/K, q = 1.602176634e-19 C, exact, SI 2019)',
+      substituted: `k × ${sig(this.at.temperatureC + 273.15, 5)} K / q`,
+      value: this.vt,
+      unit: 'V',
+    });
+    const feed = this.s.reference;
+    let iref = 0;
+    let irefFrom: Estimate['irefFrom'] = 'unknown';
+    let starved = false;
+    let supply: Estimate['supply'];
+    let irefShortcut: number | undefined;
+    const vCommon = this.commonVolts();
+    const nStack = this.stackCount();
+
+    if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
+      irefFrom = 'resistor';
+      const ohms = feed.elements.reduce((sum, r) => {
+        const el = this.topo.elementByName.get(r);
+        return sum + (el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0);
+      }, 0);
+      const railNode = this.topo.nodeIndex.get(feed.rail.node);
+      const vRail = (railNode !== undefined ? this.railVolts.get(railNode) : undefined) ?? feed.rail.volts;
+      const available = this.sign * (vRail - vCommon);
+      const needed = this.bipolar ? nStack * STARVED_VBE : this.thresholdStack();
+      supply = { available, needed };
+      const rText = eng(ohms, 'Ω');
+      const hi = this.sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
+      if (!(ohms > 0) || available <= needed) {
+        starved = true;
+      }
+      if (ohms > 0 && available > 0) {
+        iref = this.solveResistorFed(available, ohms);
+      }
+      if (!this.bipolar && available <= needed) iref = 0;
+      const st = this.chain(iref, true);
+      const vName = this.bipolar ? 'VBE' : 'VGS';
+      const stackFormula = nStack > 1 ? `${nStack} stacked ${vName}` : vName;
+      steps.push(...st.steps.filter((x) => x.quantity.startsWith('V')));
+      steps.push({
+        quantity: 'IREF',
+        formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${this.bipolar ? GRAY : RAZAVI})`,
+        substituted: `(${hi} − ${eng(st.stack, 'V')})/${rText}`,
+        value: iref,
+        unit: 'A',
+      });
+      if (this.bipolar && ohms > 0) {
+        irefShortcut = Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
+        steps.push({
+          quantity: 'IREF (0.7 V shortcut)',
+          formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
+          substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
+          value: irefShortcut,
+          unit: 'A',
+        });
+      }
+    } else if (feed.feed === 'current-source') {
+      irefFrom = 'current-source';
+      const src = this.topo.elementByName.get(feed.elements[0]) as CurrentSource | undefined;
+      const refNode = this.topo.nodeIndex.get(feed.node);
+      if (src && refNode !== undefined) {
+        const dc = this.at.sourceValues?.[src.name] ?? src.dc;
+        // dc flows from plus through the source to minus: into the node when the node is `minus`.
+        const into = src.nodes[1] === refNode ? dc : -dc;
+        iref = Math.max(this.sign * into, 0);
+        if (!(this.sign * into > 0)) starved = true;
+        steps.push({
+          quantity: 'IREF',
+          formula: 'the current source value',
+          substituted: `${src.name} = ${eng(Math.abs(dc), 'A')}${this.sign * into > 0 ? '' : ' (flows the wrong way for this reference)'}`,
+          value: iref,
+          unit: 'A',
+        });
+      }
+    } else if (feed.feed === 'mirror-output') {
+      irefFrom = 'mirror-output';
+      iref = this.feedingOutput();
+      steps.push({
+        quantity: 'IREF',
+        formula: "the feeding structure's estimated output current",
+        substituted: `${feed.elements[0]} of ${feed.fedBy ?? '?'} = ${eng(iref, 'A')}`,
+        value: iref,
+        unit: 'A',
+      });
+    } else if (this.at.irefGiven !== undefined && Number.isFinite(this.at.irefGiven)) {
+      irefFrom = 'given';
+      iref = Math.abs(this.at.irefGiven);
+      steps.push({ quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(iref, 'A'), value: iref, unit: 'A' });
+    }
+
+    const st = this.chain(iref, true);
+    if (irefFrom !== 'resistor') steps.push(...st.steps.filter((x) => x.quantity.startsWith('V')));
+    steps.push(...st.steps.filter((x) => !x.quantity.startsWith('V')));
+    const outputEdge: Record<string, number> = {};
+    if (vCommon !== undefined) for (const [k, v] of Object.entries(st.edge)) outputEdge[k] = vCommon + this.sign * v;
+    return {
+      iref,
+      iout: st.iout,
+      vControl: st.vControl,
+      irefShortcut,
+      steps,
+      irefFrom,
+      starved,
+      supply,
+      outputEdge: vCommon !== undefined ? outputEdge : undefined,
+    };
+  }
+
+  private stackCount(): number {
+    return this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' ? 1 : 2;
+  }
+
+  /** Sum of the thresholds a MOS reference chain must exceed before any current flows. */
+  private thresholdStack(): number {
+    return this.chain(0, false).stack;
+  }
+
+  private feedingOutput(): number {
+    const from = this.at.structures?.find((x) => x.id === this.s.reference.fedBy);
+    const dev = this.s.reference.elements[0];
+    if (!from || this.depth > 8) return 0;
+    const known = from.estimate?.iout[dev];
+    if (known !== undefined) return known;
+    return new HandAnalysis(this.circuit, from, this.at, this.depth + 1).run().iout[dev] ?? 0;
+  }
+
+  /** IREF·R + stack(IREF) = available, solved by bisection on log(IREF): the left side rises monotonically with IREF. */
+  private solveResistorFed(available: number, ohms: number): number {
+    const hi0 = available / ohms;
+    const f = (i: number) => i * ohms + this.chain(i, false).stack - available;
+    let lo = Math.log(hi0 * 1e-18);
+    let hi = Math.log(hi0);
+    if (f(Math.exp(lo)) >= 0) return 0;
+    if (f(Math.exp(hi)) <= 0) return hi0;
+    for (let n = 0; n < 200 && hi - lo > 1e-13; n++) {
+      const mid = 0.5 * (lo + hi);
+      if (f(Math.exp(mid)) > 0) hi = mid;
+      else lo = mid;
+    }
+    return Math.exp(0.5 * (lo + hi));
+  }
+
+  private vbe(p: DeviceParams, ic: number): number {
+    return vbeAt(ic, p.isEff, p.nfVt);
+  }
+
+  private vgs(p: DeviceParams, id: number, vsb: number): number {
+    const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    return diodeMosVgs(id, p.kBeta, vth, p.lambda);
+  }
+
+  private vsbBase(p: DeviceParams): number {
+    const bulk = p.t.bulk;
+    const vc = this.commonVolts();
+    if (bulk === undefined || vc === undefined) return 0;
+    const vb = this.railVolts.get(bulk);
+    return vb === undefined ? 0 : this.sign * (vc - vb);
+  }
+
+  private outputVds(o: Transistor, emitterOffset = 0): number | undefined {
+    const v = this.at.outputVolts?.[o.name];
+    const vc = this.commonVolts();
+    if (v === undefined || vc === undefined || !Number.isFinite(v)) return undefined;
+    return this.sign * (v - vc) - emitterOffset;
+  }
+
+  /** The state of the whole structure at one IREF; with `record`, the substituted steps too. */
+  private chain(iref: number, record: boolean): ChainState {
+    const steps: EstimateStep[] = [];
+    const push = (x: EstimateStep) => {
+      if (record) steps.push(x);
+    };
+    const iout: Record<string, number> = {};
+    const edge: Record<string, number> = {};
+    const ref = this.dev(this.s.reference.device);
+    const outs = this.s.outputs.map((o) => ({ o, p: this.dev(o.device) }));
+    const beta = ref.beta;
+    const vName = this.bipolar ? 'VBE' : 'VGS';
+
+    const junction = (label: string, p: DeviceParams, i: number, vsb: number): number => {
+      if (this.bipolar) {
+        const v = this.vbe(p, i);
+        push({
+          quantity: `${vName}(${p.t.name})`,
+          formula: 'NF·VT·ln(IC/IS(T) + 1), IS scaled by area × M (junction law)',
+          substituted: `${sig(p.nfVt / this.vt, 3)} × ${eng(this.vt, 'V', 4)} × ln(${eng(i, 'A')}/${sig(p.isEff, 3)} A + 1)${label}`,
+          value: v,
+          unit: 'V',
+        });
+        return v;
+      }
+      const v = this.vgs(p, i, vsb);
+      const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+      push({
+        quantity: `${vName}(${p.t.name})`,
+        formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
+        substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${sig(p.kBeta, 3)} A/V²)${label}`,
+        value: v,
+        unit: 'V',
+      });
+      return v;
+    };
+
+    if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source') {
+      const simple = outs.filter((x) => !x.o.degeneration);
+      const widlar = outs.filter((x) => x.o.degeneration);
+      if (this.bipolar) {
+        const sumSimple = simple.reduce((a, x) => a + x.o.ratio, 0);
+        let ic1 = iref / (1 + (1 + sumSimple) / beta);
+        const wout: Record<string, number> = {};
+        // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1.
+        for (let pass = 0; pass < (widlar.length > 0 ? 8 : 1); pass++) {
+          let ibW = 0;
+          for (const x of widlar) {
+            wout[x.o.device] = widlarOutput({ iin: ic1, r2: x.o.degeneration!.ohms, nVt: x.p.nfVt, m: x.o.ratio, k: (x.p.beta + 1) / x.p.beta });
+            ibW += wout[x.o.device] / x.p.beta;
+          }
+          ic1 = Math.max(iref - ibW, 0) / (1 + (1 + sumSimple) / beta);
+        }
+        const vbe1 = junction('', ref, ic1, 0);
+        for (const x of simple) {
+          const vce = this.outputVds(x.p.t);
+          const early = vce !== undefined ? earlyFactor(vce, vbe1, x.p.va) : 1;
+          const base = simpleMirrorGain(beta, x.o.ratio, sumSimple) * iref;
+          iout[x.o.device] = base * early;
+          edge[x.o.device] = vbe1;
+          push({
+            quantity: `IOUT(${x.o.device})`,
+            formula: `m·IREF/(1 + (1 + Σm)/β)${early !== 1 ? ' × (1 + (VCE2 − VBE)/VA)' : ''} (${GRAY})`,
+            substituted:
+              `${sig(x.o.ratio)} × ${eng(iref, 'A')}/(1 + ${sig(1 + sumSimple)}/${sig(beta)})` +
+              (early !== 1 ? ` × (1 + (${eng(vce!, 'V')} − ${eng(vbe1, 'V')})/${eng(x.p.va, 'V')})` : ''),
+            value: iout[x.o.device],
+            unit: 'A',
+          });
+        }
+        for (const x of widlar) {
+          const i = wout[x.o.device] ?? 0;
+          iout[x.o.device] = i;
+          edge[x.o.device] = vbe1;
+          push({
+            quantity: `IOUT(${x.o.device})`,
+            formula: 'NF·VT·ln(m·IC1/IOUT) = IOUT·(1 + 1/β)·R2 (Widlar, IEEE Trans. Circuit Theory, 1965, with the output base current added to R2)',
+            substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
+            value: i,
+            unit: 'A',
+          });
+        }
+        return { stack: vbe1, vControl: vbe1, iRef: ic1, iout, edge, steps };
+      }
+      const vsb = this.vsbBase(ref);
+      const vgs1 = junction('', ref, iref, vsb);
+      const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb);
+      for (const x of simple) {
+        const vds = this.outputVds(x.p.t);
+        const clm = vds !== undefined ? lambdaFactor(x.p.lambda, vds, vgs1) : 1;
+        iout[x.o.device] = x.o.ratio * iref * clm;
+        edge[x.o.device] = vgs1 - vth1;
+        push({
+          quantity: `IOUT(${x.o.device})`,
+          formula: `((W/L)2·M2)/((W/L)1·M1) × IREF${clm !== 1 ? ' × (1 + λ·VDS2)/(1 + λ·VDS1)' : ''} (${RAZAVI})`,
+          substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}` + (clm !== 1 ? ` × (1 + ${sig(x.p.lambda)}/V × ${eng(vds!, 'V')})/(1 + ${sig(x.p.lambda)}/V × ${eng(vgs1, 'V')})` : ''),
+          value: iout[x.o.device],
+          unit: 'A',
+        });
+      }
+      for (const x of widlar) {
+        const i = mosWidlarOutput({ iref, beta1: ref.kBeta, beta2: x.p.kBeta, r2: x.o.degeneration!.ohms });
+        iout[x.o.device] = i;
+        edge[x.o.device] = vgs1 - vth1;
+        push({
+          quantity: `IOUT(${x.o.device})`,
+          formula: 'sqrt(2·IREF/β1) = sqrt(2·IOUT/β2) + IOUT·R2, β = KP·W/L·M, body effect neglected (square law; Razavi, ch. 5)',
+          substituted: `sqrt(2 × ${eng(iref, 'A')}/${sig(ref.kBeta, 3)}) = sqrt(2·IOUT/${sig(x.p.kBeta, 3)}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
+          value: i,
+          unit: 'A',
+        });
+      }
+      return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge, steps };
+    }
+
+    if (this.s.kind === 'helper-mirror') {
+      const helper = this.dev(this.role('helper')[0]?.name ?? this.s.reference.device);
+      const sumM = outs.reduce((a, x) => a + x.o.ratio, 0);
+      if (this.bipolar) {
+        const ic1 = iref / (1 + (1 + sumM) / (beta * (beta + 1)));
+        const ieH = ((1 + sumM) * ic1) / beta;
+        const vbe1 = junction('', ref, ic1, 0);
+        const vbeH = junction(' (helper: carries the base currents)', helper, (ieH * helper.beta) / (helper.beta + 1), 0);
+        for (const x of outs) {
+          const vce = this.outputVds(x.p.t);
+          const early = vce !== undefined ? earlyFactor(vce, vbe1, x.p.va) : 1;
+          iout[x.o.device] = helperMirrorGain(beta, x.o.ratio, sumM) * iref * early;
+          edge[x.o.device] = vbe1;
+          push({
+            quantity: `IOUT(${x.o.device})`,
+            formula: `m·IREF/(1 + (1 + Σm)/(β(β + 1)))${early !== 1 ? ' × (1 + (VCE2 − VBE)/VA)' : ''} (${GRAY})`,
+            substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}/(1 + ${sig(1 + sumM)}/(${sig(beta)} × ${sig(beta + 1)}))` + (early !== 1 ? ` × ${sig(early, 5)}` : ''),
+            value: iout[x.o.device],
+            unit: 'A',
+          });
+        }
+        return { stack: vbe1 + vbeH, vControl: vbe1, iRef: ic1, iout, edge, steps };
+      }
+      const vsb = this.vsbBase(ref);
+      const vgs1 = junction('', ref, iref, vsb);
+      // The MOS helper carries no DC current (gates draw none): it sits at its threshold.
+      const vgsH = thresholdWithBody(helper.vto, helper.gamma, helper.phi, vsb + vgs1);
+      const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb);
+      for (const x of outs) {
+        iout[x.o.device] = x.o.ratio * iref;
+        edge[x.o.device] = vgs1 - vth1;
+        push({ quantity: `IOUT(${x.o.device})`, formula: `((W/L)·M ratio) × IREF (${RAZAVI})`, substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}`, value: iout[x.o.device], unit: 'A' });
+      }
+      return { stack: vgs1 + vgsH, vControl: vgs1, iRef: iref, iout, edge, steps };
+    }
+
+    // Wilson, improved Wilson and cascode: one output on a lower pair.
+    const lowerDiode = this.dev(this.role('lower-diode')[0].name);
+    const x0 = outs[0];
+    const m = x0.o.ratio;
+    if (this.s.kind === 'cascode-mirror') {
+      const top = ref;
+      const partner = this.role('lower-partner')[0];
+      if (this.bipolar) {
+        const ic1 = iref / (1 + (1 + m) / beta + m / (beta + 1));
+        const ie3 = ic1 * (1 + (1 + m) / beta);
+        const vLow = junction(' (lower reference)', lowerDiode, ic1, 0);
+        const vTop = junction(' (upper reference)', top, (ie3 * beta) / (beta + 1), 0);
+        iout[x0.o.device] = cascodeGain(beta, m) * iref;
+        // The output's collector must stay above its base (node A) for VBC ≤ 0.
+        edge[x0.o.device] = vLow + vTop;
+        push({
+          quantity: `IOUT(${x0.o.device})`,
+          formula: `m·x·β/(β + 1) with IREF = x·(1 + (1 + m)/β + m/(β + 1)) ≈ IREF·(1 − 4/β) matched (${GRAY}; node currents)`,
+          substituted: `${sig(m)} × ${eng(ic1, 'A')} × ${sig(beta)}/${sig(beta + 1)}`,
+          value: iout[x0.o.device],
+          unit: 'A',
+        });
+        void partner;
+        return { stack: vLow + vTop, vControl: vTop, iRef: ic1, iout, edge, steps };
+      }
+      const vsb = this.vsbBase(lowerDiode);
+      const vLow = junction(' (lower reference)', lowerDiode, iref, vsb);
+      const vTop = junction(' (upper reference)', top, iref, vsb + vLow);
+      const out = x0.p;
+      const vthOut = thresholdWithBody(out.vto, out.gamma, out.phi, vsb + vLow);
+      iout[x0.o.device] = m * iref;
+      edge[x0.o.device] = vLow + vTop - vthOut;
+      push({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; λ effect suppressed by the cascode (${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' });
+      return { stack: vLow + vTop, vControl: vTop, iRef: iref, iout, edge, steps };
+    }
+
+    // Wilson and improved Wilson.
+    const kindName = this.s.kind === 'wilson-mirror' ? 'Wilson' : 'improved Wilson';
+    if (this.bipolar) {
+      const irefPerX = 1 / m + (1 + 1 / beta + 1 / (m * beta)) / (beta + 1);
+      const x = iref / irefPerX;
+      const ie3 = x * (1 + 1 / beta + 1 / (m * beta));
+      const ic3 = (ie3 * beta) / (beta + 1);
+      const vLow = junction(' (lower diode)', lowerDiode, x, 0);
+      const vOut = junction(' (output)', x0.p, ic3, 0);
+      iout[x0.o.device] = wilsonGain(beta, m) * iref;
+      edge[x0.o.device] = vLow + vOut;
+      const vRef = this.vbe(ref, x / m);
+      push({
+        quantity: `IOUT(${x0.o.device})`,
+        formula: `IREF·(1 − 2/(β² + 2β + 2)) for a matched ${kindName} mirror, node currents when ratioed (${GRAY})`,
+        substituted: `${eng(iref, 'A')} × (1 − 2/(${sig(beta)}² + 2 × ${sig(beta)} + 2))${m !== 1 ? ` (ratio ${sig(m)})` : ''}`,
+        value: iout[x0.o.device],
+        unit: 'A',
+      });
+      return { stack: vLow + vOut, vControl: vRef, iRef: x / m, iout, edge, steps };
+    }
+    const vsb = this.vsbBase(lowerDiode);
+    const vLow = junction(' (lower diode)', lowerDiode, m * iref, vsb);
+    const vOut = junction(' (output)', x0.p, m * iref, vsb + vLow);
+    const vthOut = thresholdWithBody(x0.p.vto, x0.p.gamma, x0.p.phi, vsb + vLow);
+    iout[x0.o.device] = m * iref;
+    edge[x0.o.device] = vLow + vOut - vthOut;
+    push({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; feedback holds the ratio (${kindName}, ${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' });
+    return { stack: vLow + vOut, vControl: this.vgs(ref, iref, vsb), iRef: iref, iout, edge, steps };
+  }
+}
+
+function positiveOr(v: number, fallback: number): number {
+  return Number.isFinite(v) && v > 0 ? v : fallback;
+}

@@ -1,0 +1,58 @@
+// Finds the supply rails: nodes whose potential is fixed relative to ground by voltage sources alone.
+
+import type { Circuit } from '../circuit';
+import type { Rail } from './types';
+
+/**
+ * Every node pinned to a fixed potential by independent voltage sources, walking outwards
+ * from ground through V sources (and inductors, which are 0 V shorts at DC). Chains such as
+ * `V1 a 0 5` + `V2 b a 3` give `b` = 8 V with sources [V1, V2]. Ground itself is the first
+ * entry, `{ node: '0', volts: 0, sources: [] }`, so a resistor to ground counts as fed from a rail.
+ * A node reached twice with different potentials (a loop of sources that disagree) keeps the
+ * first value; the conflict is the netlist checks' business, not this walk's.
+ */
+export function findRails(circuit: Circuit): Rail[] {
+  const volts = new Map<number, number>([[0, 0]]);
+  const sources = new Map<number, string[]>([[0, []]]);
+  const order: number[] = [0];
+  const links: { a: number; b: number; dc: number; name: string }[] = [];
+  for (const e of circuit.elements) {
+    if (e.kind === 'V' && Number.isFinite(e.dc)) links.push({ a: e.nodes[0], b: e.nodes[1], dc: e.dc, name: e.name });
+    else if (e.kind === 'L') links.push({ a: e.nodes[0], b: e.nodes[1], dc: 0, name: e.name });
+  }
+  // Breadth-first over the source graph; each pass fixes at least one new node or stops.
+  let changed = true;
+  while (changed) {
+    changed = false;
+    for (const l of links) {
+      const va = volts.get(l.a);
+      const vb = volts.get(l.b);
+      if (va === undefined && vb !== undefined) {
+        volts.set(l.a, vb + l.dc);
+        sources.set(l.a, [...(sources.get(l.b) ?? []), l.name]);
+        order.push(l.a);
+        changed = true;
+      } else if (vb === undefined && va !== undefined) {
+        volts.set(l.b, va - l.dc);
+        sources.set(l.b, [...(sources.get(l.a) ?? []), l.name]);
+        order.push(l.b);
+        changed = true;
+      }
+    }
+  }
+  return order
+    .filter((n) => n >= 0 && n < circuit.nodes.length)
+    .map((n) => ({ node: circuit.nodes[n], volts: volts.get(n) ?? 0, sources: sources.get(n) ?? [] }));
+}
+
+/** Rails keyed by node index, for lookups during recognition and estimation. */
+export function railsByIndex(circuit: Circuit, rails: Rail[] = findRails(circuit)): Map<number, Rail> {
+  const index = new Map<string, number>();
+  circuit.nodes.forEach((n, i) => index.set(n, i));
+  const out = new Map<number, Rail>();
+  for (const r of rails) {
+    const i = index.get(r.node);
+    if (i !== undefined) out.set(i, r);
+  }
+  return out;
+}

@@ -1,0 +1,342 @@
+// Recognises current mirrors and their reference branches from a circuit's topology and models alone.
+
+import type { Circuit, Resistor } from '../circuit';
+import { railsByIndex } from './rails';
+import { Topology, type Transistor } from './topology';
+import type { ReferenceBranch, Rail, Structure, StructureKind, StructureOutput, StructureRole } from './types';
+
+/**
+ * Finds every bias structure in a flattened circuit, once per subcircuit instance.
+ *
+ * Reads topology and model kinds only, never an operating point, so structures are
+ * found even when the circuit does not solve. Each structure comes back with id, kind,
+ * technology, devices, roles, reference branch and outputs (with their intended
+ * geometric ratio); the analysis records (headroom, compliance, output resistance,
+ * corners) are empty until `analyseStructures` fills them.
+ *
+ * Terminal names below are the bipolar ones; for MOSFETs read drain for collector,
+ * gate for base and source for emitter. All devices of one structure share a
+ * technology (NPN, PNP, NMOS or PMOS). "Diode-connected" means the collector node is
+ * the base node.
+ *
+ * Larger patterns are matched first and claim their devices, so a Wilson mirror is
+ * not also reported as the simple mirror inside it:
+ * cascode, improved Wilson, Wilson (see {@link matchStacked}), then the base-current
+ * helper mirror ({@link matchHelper}), then simple mirrors and Widlar sources
+ * ({@link matchSimple}). Look-alikes that are not mirrors (two devices sharing a base
+ * with no diode-connected one, a differential pair, a lone diode-connected device)
+ * match none of the patterns.
+ */
+export function recogniseStructures(circuit: Circuit): Structure[] {
+  const r = new Recogniser(circuit);
+  return r.run();
+}
+
+interface Draft {
+  kind: StructureKind;
+  reference: Transistor;
+  /** Node where the reference current enters. */
+  refNode: number;
+  members: { t: Transistor; role: StructureRole }[];
+  outputs: StructureOutput[];
+}
+
+class Recogniser {
+  private readonly topo: Topology;
+  private readonly rails: Map<number, Rail>;
+  private readonly claimed = new Set<string>();
+
+  constructor(private readonly circuit: Circuit) {
+    this.topo = new Topology(circuit);
+    this.rails = railsByIndex(circuit);
+  }
+
+  run(): Structure[] {
+    const all = [...this.topo.transistors].sort((a, b) => compareNames(a.name, b.name));
+    const diodes = all.filter((t) => t.out === t.ctrl);
+    const drafts: Draft[] = [];
+    const take = (d: Draft | undefined) => {
+      if (!d) return;
+      for (const m of d.members) this.claimed.add(m.t.name);
+      drafts.push(d);
+    };
+    for (const d of diodes) if (!this.claimed.has(d.name)) take(this.matchStacked(d));
+    for (const t of all) if (!this.claimed.has(t.name) && t.out !== t.ctrl) take(this.matchHelper(t));
+    for (const d of diodes) if (!this.claimed.has(d.name)) take(this.matchSimple(d));
+
+    const structures = drafts.map((d) => this.toStructure(d));
+    const owner = new Map<string, Structure>();
+    for (const s of structures) for (const o of s.outputs) owner.set(o.device, s);
+    structures.forEach((s, i) => (s.reference = this.referenceBranch(drafts[i], s, owner)));
+    return structures;
+  }
+
+  private free(t: Transistor, tech: Transistor['tech']): boolean {
+    return !this.claimed.has(t.name) && t.tech === tech;
+  }
+
+  private candidates(tech: Transistor['tech'], pred: (t: Transistor) => boolean, exclude: Transistor[]): Transistor[] {
+    return this.topo.transistors
+      .filter((t) => this.free(t, tech) && !exclude.includes(t) && pred(t))
+      .sort((a, b) => compareNames(a.name, b.name));
+  }
+
+  /**
+   * Stacked mirrors built on a lower pair: D diode-connected (collector = base = node B,
+   * emitter on the rail) and its partner N (base on B, emitter on the rail, collector elsewhere).
+   *
+   * ```
+   * Cascode mirror            Improved Wilson             Wilson
+   *   IREF      IOUT            IREF     IOUT               IREF    IOUT
+   *    A ┬──┐    │               A ┬──┬───┐│                 A ┬─┐   │
+   *   T ┤◄─┴─► O (base A)      T ┤◄─┘  O (base A)           N  │  O (base A)
+   *   (diode)   │               (diode)   │                (c=A)└─► │
+   *    │        │                 │       │                  │      │
+   *   B ┬─┐     C                 C       B ┬─┐              N      B ┬─┐
+   *   D ┤◄┴──► N (base B)       N (base B) D ┤◄┘          (base B) D ┤◄┘
+   *    rail    rail              rail      rail             rail   rail
+   * ```
+   * Cascode: T diode-connected on node A with its emitter on B; output O has base A and
+   * emitter on N's collector C. Improved Wilson: O's emitter is on B, T's emitter on N's
+   * collector C, both bases on A. Wilson: O's base is N's collector A (no T), O's emitter on B.
+   */
+  private matchStacked(d: Transistor): Draft | undefined {
+    const b = d.ctrl;
+    const partners = this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d]);
+    for (const n of partners) {
+      const c = n.out;
+      // Cascode: top diode T on B.
+      const tops = this.candidates(d.tech, (t) => t.out === t.ctrl && t.common === b && t.ctrl !== c, [d, n]);
+      for (const top of tops) {
+        const a = top.ctrl;
+        const outs = this.candidates(d.tech, (t) => t.ctrl === a && t.common === c && t.out !== a, [d, n, top]);
+        if (outs.length > 0) {
+          const o = outs[0];
+          return {
+            kind: 'cascode-mirror',
+            reference: top,
+            refNode: a,
+            members: [
+              { t: top, role: 'reference' },
+              { t: d, role: 'lower-diode' },
+              { t: n, role: 'lower-partner' },
+              { t: o, role: 'output' },
+            ],
+            outputs: [{ device: o.name, node: this.topo.nodeName(o.out), ratio: n.scale / d.scale }],
+          };
+        }
+      }
+      // Outputs whose emitter sits on the lower diode's node.
+      const uppers = this.candidates(d.tech, (t) => t.common === b && t.out !== t.ctrl, [d, n]);
+      for (const o of uppers) {
+        const a = o.ctrl;
+        const balancing = this.candidates(d.tech, (t) => t.out === t.ctrl && t.ctrl === a && t.common === c, [d, n, o]);
+        if (balancing.length > 0 && a !== c) {
+          const t4 = balancing[0];
+          return {
+            kind: 'improved-wilson-mirror',
+            reference: t4,
+            refNode: a,
+            members: [
+              { t: t4, role: 'reference' },
+              { t: n, role: 'lower-partner' },
+              { t: d, role: 'lower-diode' },
+              { t: o, role: 'output' },
+            ],
+            outputs: [{ device: o.name, node: this.topo.nodeName(o.out), ratio: d.scale / n.scale }],
+          };
+        }
+        if (a === c && o.out !== c) {
+          return {
+            kind: 'wilson-mirror',
+            reference: n,
+            refNode: c,
+            members: [
+              { t: n, role: 'reference' },
+              { t: d, role: 'lower-diode' },
+              { t: o, role: 'output' },
+            ],
+            outputs: [{ device: o.name, node: this.topo.nodeName(o.out), ratio: d.scale / n.scale }],
+          };
+        }
+      }
+    }
+    return undefined;
+  }
+
+  /**
+   * Mirror with a base-current helper: the reference R is not diode-connected; its
+   * collector A drives the base of a follower H whose emitter supplies the shared base
+   * node B and whose collector sits on a rail.
+   * ```
+   *        rail
+   *   IREF  │
+   *    A ┬─► H (base A, emitter B, collector on a rail)
+   *      │   │
+   *      R   B ──┬── bases of R and of every output O
+   *      │       │
+   *    rail     O (emitter on R's emitter node)
+   * ```
+   * Node B must carry no diode-connected device (that would be a Wilson-like stack).
+   */
+  private matchHelper(r: Transistor): Draft | undefined {
+    const a = r.out;
+    const b = r.ctrl;
+    if (a === b) return undefined;
+    const helpers = this.candidates(r.tech, (t) => t.ctrl === a && t.common === b && t.out !== a && this.rails.has(t.out), [r]);
+    if (helpers.length === 0) return undefined;
+    const diodeOnB = this.topo.transistors.some((t) => t.tech === r.tech && t.ctrl === b && t.out === b);
+    if (diodeOnB) return undefined;
+    const h = helpers[0];
+    const outs = this.candidates(r.tech, (t) => t.ctrl === b && t.common === r.common && t.out !== b && t.out !== a, [r, h]);
+    if (outs.length === 0) return undefined;
+    return {
+      kind: 'helper-mirror',
+      reference: r,
+      refNode: a,
+      members: [{ t: r, role: 'reference' }, { t: h, role: 'helper' }, ...outs.map((t) => ({ t, role: 'output' as const }))],
+      outputs: outs.map((t) => ({ device: t.name, node: this.topo.nodeName(t.out), ratio: t.scale / r.scale })),
+    };
+  }
+
+  /**
+   * Simple mirror and Widlar source on a diode-connected reference D (collector = base = A,
+   * emitter on E). Every other device with its base on A is an output when its emitter is
+   * on E (simple, ratioed by geometry) or reaches E through exactly one resistor R2 and
+   * nothing else (Widlar). Further diode-connected devices on A with emitters on E are
+   * paralleled reference devices. No output, no structure.
+   * ```
+   *   IREF        IOUT           IOUT (Widlar)
+   *    A ┬───┬─────┐              │
+   *   D ┤◄───┴──► O (base A)     O (base A)
+   *    E ────────── E            R2
+   *                              E
+   * ```
+   */
+  private matchSimple(d: Transistor): Draft | undefined {
+    const a = d.ctrl;
+    const e = d.common;
+    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d]);
+    const refScale = d.scale + twins.reduce((s, t) => s + t.scale, 0);
+    const outputs: StructureOutput[] = [];
+    const outDevices: Transistor[] = [];
+    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...twins])) {
+      if (o.common === e) {
+        outputs.push({ device: o.name, node: this.topo.nodeName(o.out), ratio: o.scale / refScale });
+        outDevices.push(o);
+        continue;
+      }
+      const r2 = this.degeneration(o, e);
+      if (r2) {
+        outputs.push({
+          device: o.name,
+          node: this.topo.nodeName(o.out),
+          ratio: o.scale / refScale,
+          degeneration: { resistor: r2.name, ohms: r2.resistance },
+        });
+        outDevices.push(o);
+      }
+    }
+    if (outputs.length === 0) return undefined;
+    return {
+      kind: outputs.some((o) => o.degeneration) ? 'widlar-source' : 'simple-mirror',
+      reference: d,
+      refNode: a,
+      members: [
+        { t: d, role: 'reference' },
+        ...twins.map((t) => ({ t, role: 'reference' as const })),
+        ...outDevices.map((t) => ({ t, role: 'output' as const })),
+      ],
+      outputs,
+    };
+  }
+
+  /** The resistor from `o`'s emitter to node `e`, when the emitter node carries only that resistor and `o`. */
+  private degeneration(o: Transistor, e: number): Resistor | undefined {
+    const atts = this.topo.conducting(o.common).filter((x) => x.element !== o.element);
+    if (atts.length !== 1) return undefined;
+    const el = atts[0].element;
+    if (el.kind !== 'R') return undefined;
+    const other = el.nodes[0] === o.common ? el.nodes[1] : el.nodes[0];
+    return other === e && Number.isFinite(el.resistance) && el.resistance > 0 ? el : undefined;
+  }
+
+  private toStructure(d: Draft): Structure {
+    const devices = d.members.map((m) => m.t.name);
+    const roles: Record<string, StructureRole> = {};
+    for (const m of d.members) roles[m.t.name] = m.role;
+    return {
+      id: `${d.kind}:${d.reference.name}`,
+      kind: d.kind,
+      technology: d.reference.tech,
+      devices,
+      roles,
+      reference: { device: d.reference.name, node: this.topo.nodeName(d.refNode), feed: 'other', elements: [] },
+      outputs: d.outputs,
+      instance: instancePrefix(devices),
+      headroom: {},
+      compliance: {},
+      outputResistance: {},
+      corners: [],
+    };
+  }
+
+  /**
+   * Classifies what drives the reference node: a chain of series resistors from a rail, a
+   * current source, another structure's output, or something else. Control terminals of
+   * devices outside the structure (base-current loads) and capacitors do not count as feeds.
+   */
+  private referenceBranch(d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
+    const base: ReferenceBranch = { device: s.reference.device, node: s.reference.node, feed: 'other', elements: [] };
+    const members = new Set(s.devices);
+    const feeds = this.topo
+      .conducting(d.refNode)
+      .filter((a) => !members.has(a.element.name))
+      .filter((a) => !(a.element.kind === 'Q' && a.slot === 1));
+    if (feeds.length !== 1) return base;
+    const { element: el, slot } = feeds[0];
+    if (el.kind === 'I') return { ...base, feed: 'current-source', elements: [el.name] };
+    if ((el.kind === 'Q' || el.kind === 'M') && slot === 0) {
+      const from = owner.get(el.name);
+      if (from && from !== s) return { ...base, feed: 'mirror-output', elements: [el.name], fedBy: from.id };
+      return base;
+    }
+    if (el.kind !== 'R') return base;
+    // Follow a chain of series resistors until a rail.
+    const chain: string[] = [];
+    const seen = new Set<number>([d.refNode]);
+    let r: Resistor = el;
+    let node = d.refNode;
+    for (;;) {
+      chain.push(r.name);
+      const next = r.nodes[0] === node ? r.nodes[1] : r.nodes[0];
+      const rail = this.rails.get(next);
+      if (rail) return { ...base, feed: 'resistor', elements: chain, rail };
+      if (seen.has(next)) return base;
+      seen.add(next);
+      const onward = this.topo.conducting(next).filter((a) => a.element !== r);
+      if (onward.length !== 1 || onward[0].element.kind !== 'R') return base;
+      r = onward[0].element as Resistor;
+      node = next;
+    }
+  }
+}
+
+/** The hierarchical instance prefix (`X1.`, `X1.X2.`) shared by every device name, or '' at top level. */
+export function instancePrefix(names: string[]): string {
+  let common: string[] | undefined;
+  for (const n of names) {
+    const parts = n.split('.').slice(0, -1);
+    if (!common) common = parts;
+    else {
+      let i = 0;
+      while (i < common.length && i < parts.length && common[i].toLowerCase() === parts[i].toLowerCase()) i++;
+      common = common.slice(0, i);
+    }
+  }
+  return common && common.length > 0 ? common.join('.') + '.' : '';
+}
+
+function compareNames(a: string, b: string): number {
+  return a.localeCompare(b, 'en', { numeric: true, sensitivity: 'base' });
+}

@@ -1,0 +1,104 @@
+// A polarity-neutral view of a circuit's transistors and node connections, shared by recognition, estimation and measurement.
+
+import type { Bjt, Circuit, Element, Mosfet } from '../circuit';
+import type { Technology } from './types';
+
+/**
+ * One transistor seen through the three terminals a mirror cares about: the output
+ * terminal (collector/drain), the control terminal (base/gate) and the common terminal
+ * (emitter/source). `scale` is the geometry factor that sets its share of a mirror's
+ * current: area × M for a BJT, (W/L) × M for a MOSFET.
+ */
+export interface Transistor {
+  name: string;
+  element: Bjt | Mosfet;
+  tech: Technology;
+  out: number;
+  ctrl: number;
+  common: number;
+  /** MOS bulk node; undefined for a BJT. */
+  bulk?: number;
+  scale: number;
+}
+
+/** Whether a technology is a bipolar one (the formulas then carry beta and VBE). */
+export function isBipolar(t: Technology): boolean {
+  return t === 'npn' || t === 'pnp';
+}
+
+/** +1 when current enters the output terminal from above (NPN, NMOS), −1 for PNP and PMOS. */
+export function polaritySign(t: Technology): 1 | -1 {
+  return t === 'npn' || t === 'nmos' ? 1 : -1;
+}
+
+/** The transistor view of an element, or undefined for anything else (or a device whose model kind does not fit). */
+export function asTransistor(e: Element): Transistor | undefined {
+  if (e.kind === 'Q') {
+    const tech = e.model?.kind;
+    if (tech !== 'npn' && tech !== 'pnp') return undefined;
+    const scale = positive(e.area, 1) * positive(e.m, 1);
+    return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], scale };
+  }
+  if (e.kind === 'M') {
+    const tech = e.model?.kind;
+    if (tech !== 'nmos' && tech !== 'pmos') return undefined;
+    const wl = positive(e.w, 1) / positive(e.l, 1);
+    return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: e.nodes[3], scale: wl * positive(e.m, 1) };
+  }
+  return undefined;
+}
+
+function positive(v: number, fallback: number): number {
+  return Number.isFinite(v) && v > 0 ? v : fallback;
+}
+
+/** A connection of an element to a node: which element and which of its node slots. */
+export interface Attachment {
+  element: Element;
+  slot: number;
+}
+
+/** Node-to-element incidence and the transistor views of one circuit. */
+export class Topology {
+  readonly transistors: Transistor[] = [];
+  readonly byName = new Map<string, Transistor>();
+  private readonly attached = new Map<number, Attachment[]>();
+  readonly nodeIndex = new Map<string, number>();
+  readonly elementByName = new Map<string, Element>();
+
+  constructor(readonly circuit: Circuit) {
+    circuit.nodes.forEach((n, i) => this.nodeIndex.set(n, i));
+    for (const e of circuit.elements) {
+      this.elementByName.set(e.name, e);
+      // A BJT's optional substrate node carries no DC current; leave it out of the incidence.
+      const slots = e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
+      for (let s = 0; s < slots; s++) {
+        const n = e.nodes[s];
+        let list = this.attached.get(n);
+        if (!list) this.attached.set(n, (list = []));
+        list.push({ element: e, slot: s });
+      }
+      const t = asTransistor(e);
+      if (t) {
+        this.transistors.push(t);
+        this.byName.set(t.name, t);
+      }
+    }
+  }
+
+  /** Everything connected to a node, capacitors included (callers drop what they do not want). */
+  at(node: number): Attachment[] {
+    return this.attached.get(node) ?? [];
+  }
+
+  /** The DC-relevant connections of a node: capacitors (open at DC) and MOS gates/bulks (no DC current) left out. */
+  conducting(node: number): Attachment[] {
+    return this.at(node).filter(
+      (a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)),
+    );
+  }
+
+  nodeName(i: number): string {
+    return this.circuit.nodes[i] ?? String(i);
+  }
+}
