@@ -1,0 +1,45 @@
+// Builds the HTML page of the output-characteristic panel: the chart, the corner table and a strict Content-Security-Policy.
+import type { OutputCharacteristicResult } from '../../server/src/protocol';
+import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderOutputCharacteristicSvg } from './plot';
+
+/** What the panel page shows besides the sweep itself. */
+export interface PanelPageOptions {
+  /** A random token that lets the page's one style block past the policy. */
+  nonce: string;
+  /** The netlist the sweep belongs to, as shown to the user (file name). */
+  documentLabel: string;
+  /** Chart size in pixels (the chart scales down to the panel width). */
+  size?: { width: number; height: number };
+}
+
+/**
+ * The policy of the panel: nothing may load or run; only the page's own nonce-tagged style block
+ * applies. The chart is drawn in the extension host, so the page needs no script at all.
+ */
+export function panelContentSecurityPolicy(nonce: string): string {
+  return `default-src 'none'; style-src 'nonce-${nonce}'; img-src data:; script-src 'none'; frame-src 'none'; form-action 'none'; base-uri 'none'`;
+}
+
+/** The complete HTML page for one output characteristic. */
+export function renderPanelHtml(result: OutputCharacteristicResult, options: PanelPageOptions): string {
+  const nonce = options.nonce.replace(/[^A-Za-z0-9+/=]/g, '');
+  const size = options.size ?? { width: 720, height: 420 };
+  const structure = result.structureId ? ` (${escapeXml(result.structureId)})` : '';
+  return `<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta http-equiv="Content-Security-Policy" content="${panelContentSecurityPolicy(nonce)}">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>Output characteristic of ${escapeXml(result.device)}</title>
+<style nonce="${nonce}">${OUTPUT_CHARACTERISTIC_CSS}</style>
+</head>
+<body>
+<h1>Output characteristic of ${escapeXml(result.device)}${structure}</h1>
+<p class="qp-subtitle">Output current against the voltage at node ${escapeXml(result.node)}, in ${escapeXml(options.documentLabel)}. The shaded band is where the output leaves its active region.</p>
+${renderOutputCharacteristicSvg(result, size)}
+${renderCornerTableHtml(result)}
+</body>
+</html>
+`;
+}

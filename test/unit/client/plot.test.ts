@@ -1,0 +1,224 @@
+// Checks the output-characteristic chart: nice axis ticks, marker positions, escaping and finite output.
+import { describe, expect, it } from 'vitest';
+import type { OutputCharacteristicResult } from '../../../server/src/protocol';
+import {
+  escapeXml,
+  layoutOutputCharacteristic,
+  niceNumber,
+  niceTicks,
+  renderCornerTableHtml,
+  renderOutputCharacteristicSvg,
+} from '../../../client/src/plot';
+import { panelContentSecurityPolicy, renderPanelHtml } from '../../../client/src/panel';
+
+const SIZE = { width: 720, height: 420 };
+
+/** A sweep from 0 to 5 V: current rising to 1 mA by 0.2 V, then a slight slope (output resistance). */
+function sweep(overrides: Partial<OutputCharacteristicResult> = {}): OutputCharacteristicResult {
+  const points = Array.from({ length: 51 }, (_, k) => {
+    const v = k * 0.1;
+    const i = v < 0.2 ? (v / 0.2) * 1e-3 : 1e-3 * (1 + (v - 0.2) / 250);
+    return { v, i };
+  });
+  return {
+    device: 'Q2',
+    structureId: 'mirror-1',
+    node: 'out',
+    points,
+    edgeV: 0.2,
+    operatingV: 3,
+    cornerSpread: [
+      { label: 'supply −5 %', i: 0.98e-3 },
+      { label: 'hot 125 °C', i: 1.03e-3 },
+      { label: 'beta low', i: 0.96e-3 },
+    ],
+    ...overrides,
+  };
+}
+
+/** Reads a numeric attribute of the first element with the given class. */
+function attr(svg: string, cls: string, name: string): number {
+  const el = new RegExp(`<[a-z]+ class="${cls}"[^>]*>`).exec(svg);
+  if (!el) throw new Error(`no element with class ${cls}`);
+  const m = new RegExp(`\\b${name}="([^"]*)"`).exec(el[0]);
+  if (!m) throw new Error(`no ${name} on ${cls}`);
+  return Number(m[1]);
+}
+
+/** Checks one nice-ticks case: the widened range, the step and the tick values. */
+function checkTicks(input: [number, number, number], expected: { min: number; max: number; step: number; values: number[] }): void {
+  const t = niceTicks(...input);
+  expect(t.min).toBeCloseTo(expected.min, 12);
+  expect(t.max).toBeCloseTo(expected.max, 12);
+  expect(t.step).toBeCloseTo(expected.step, 12);
+  expect(t.values.length).toBe(expected.values.length);
+  t.values.forEach((v, k) => expect(v).toBeCloseTo(expected.values[k]!, 12));
+}
+
+describe('nice numbers and ticks', () => {
+  // Source: P. S. Heckbert, "Nice Numbers for Graph Labels", Graphics Gems (1990): nicenum picks
+  // 1, 2, 5 or 10 times a power of ten; rounded thresholds 1.5, 3, 7; ceiling thresholds 1, 2, 5.
+  it('picks 1, 2, 5 × 10^k by Heckbert\'s thresholds', () => {
+    expect(niceNumber(1.02, false)).toBeCloseTo(2, 12);
+    expect(niceNumber(3, false)).toBeCloseTo(5, 12);
+    expect(niceNumber(0.23, true)).toBeCloseTo(0.2, 12);
+    expect(niceNumber(0.5, true)).toBeCloseTo(0.5, 12);
+    expect(niceNumber(7.1, true)).toBeCloseTo(10, 12);
+    expect(niceNumber(140, true)).toBeCloseTo(100, 12);
+  });
+
+  // Worked by hand with Heckbert's loose labelling: range = nicenum(max − min, false),
+  // step = nicenum(range / (n − 1), true), bounds floored/ceiled to the step.
+  it('labels 0…5 V in 1 V steps and 0…1.02 mA in 0.5 mA steps', () => {
+    checkTicks([0, 5, 6], { min: 0, max: 5, step: 1, values: [0, 1, 2, 3, 4, 5] });
+    checkTicks([0, 1.02e-3, 5], { min: 0, max: 1.5e-3, step: 5e-4, values: [0, 5e-4, 1e-3, 1.5e-3] });
+    checkTicks([-0.3, 0.7, 6], { min: -0.4, max: 0.8, step: 0.2, values: [-0.4, -0.2, 0, 0.2, 0.4, 0.6, 0.8] });
+  });
+
+  it('writes tick values without floating-point residue', () => {
+    for (const v of niceTicks(0, 0.7, 8).values) expect(String(v).length).toBeLessThanOrEqual(4);
+  });
+});
+
+describe('chart layout', () => {
+  it('titles the axes with the SI prefix that fits (mA for a 1 mA output) and labels the ticks in it', () => {
+    const layout = layoutOutputCharacteristic(sweep(), SIZE)!;
+    expect(layout.x.title).toBe('Voltage at node out (V)');
+    expect(layout.x.ticks.map((t) => t.label)).toEqual(['0', '1', '2', '3', '4', '5']);
+    // Source: SI prefixes milli = 10^−3, micro = 10^−6 (BIPM, The International System of Units, 9th ed., 2019).
+    expect(layout.y.exponent).toBe(-3);
+    expect(layout.y.title).toBe('Output current (mA)');
+    expect(layout.y.ticks.map((t) => t.label)).toEqual(['0', '0.5', '1.0', '1.5']);
+  });
+
+  it('uses µA for a 250 µA output', () => {
+    const s = sweep();
+    const layout = layoutOutputCharacteristic({ ...s, points: s.points.map((p) => ({ v: p.v, i: p.i / 4 })), cornerSpread: [] }, SIZE)!;
+    expect(layout.y.title).toBe('Output current (µA)');
+    expect(layout.y.ticks.at(-1)!.label).toMatch(/^\d+$/);
+  });
+
+  it('places the ticks on the plot edges: first tick at the left/bottom, last at the right/top', () => {
+    const layout = layoutOutputCharacteristic(sweep(), SIZE)!;
+    expect(layout.x.ticks[0]!.px).toBeCloseTo(layout.plot.left, 6);
+    expect(layout.x.ticks.at(-1)!.px).toBeCloseTo(layout.plot.right, 6);
+    expect(layout.y.ticks[0]!.px).toBeCloseTo(layout.plot.bottom, 6);
+    expect(layout.y.ticks.at(-1)!.px).toBeCloseTo(layout.plot.top, 6);
+  });
+});
+
+describe('markers in the SVG', () => {
+  it('draws the compliance edge at its voltage on the x axis', () => {
+    const result = sweep({ edgeV: 0.2 });
+    const layout = layoutOutputCharacteristic(result, SIZE)!;
+    const svg = renderOutputCharacteristicSvg(result, SIZE);
+    const expected = layout.plot.left + ((0.2 - layout.x.min) / (layout.x.max - layout.x.min)) * (layout.plot.right - layout.plot.left);
+    expect(attr(svg, 'qp-edge', 'x1')).toBeCloseTo(expected, 1);
+    expect(attr(svg, 'qp-edge', 'x2')).toBeCloseTo(expected, 1);
+    expect(attr(svg, 'qp-edge', 'data-volts')).toBe(0.2);
+    // The shaded band ends at the edge.
+    expect(attr(svg, 'qp-region-outside', 'x') + attr(svg, 'qp-region-outside', 'width')).toBeCloseTo(expected, 1);
+    expect(svg).toContain('edge of active region 0.2 V');
+  });
+
+  it('puts the operating point on the curve at the operating voltage (linear interpolation)', () => {
+    const result = sweep({ operatingV: 3.05 });
+    const svg = renderOutputCharacteristicSvg(result, SIZE);
+    const layout = layoutOutputCharacteristic(result, SIZE)!;
+    // Halfway between the sweep points at 3.0 V and 3.1 V.
+    const i = (1e-3 * (1 + 2.8 / 250) + 1e-3 * (1 + 2.9 / 250)) / 2;
+    expect(attr(svg, 'qp-operating', 'data-amps')).toBeCloseTo(i, 12);
+    const py = layout.plot.bottom - ((i - layout.y.min) / (layout.y.max - layout.y.min)) * (layout.plot.bottom - layout.plot.top);
+    expect(attr(svg, 'qp-operating', 'cy')).toBeCloseTo(py, 1);
+    expect(svg).toMatch(/operating point 3\.05 V, 1\.01 mA/);
+  });
+
+  it('spans the corner spread bar from the lowest to the highest corner current', () => {
+    const svg = renderOutputCharacteristicSvg(sweep(), SIZE);
+    expect(attr(svg, 'qp-spread', 'data-low')).toBeCloseTo(0.96e-3, 12);
+    expect(attr(svg, 'qp-spread', 'data-high')).toBeCloseTo(1.03e-3, 12);
+  });
+
+  it('lists every corner in the table with its current and change from nominal', () => {
+    const html = renderCornerTableHtml(sweep({ operatingV: 0.2 }));
+    expect(html).toContain('<th scope="row">beta low</th><td>960 µA</td><td>−4 %</td>');
+    expect(html).toContain('<th scope="row">hot 125 °C</th><td>1.03 mA</td><td>+3 %</td>');
+    expect(html).toMatch(/across the corners: 960 µA to 1\.03 mA/);
+  });
+});
+
+describe('escaping and finite output', () => {
+  it('escapes device, node and corner names', () => {
+    const hostile = sweep({
+      device: 'Q<1>&"x"',
+      node: "<out'>",
+      cornerSpread: [{ label: '<script>alert(1)</script>', i: 1e-3 }],
+    });
+    const svg = renderOutputCharacteristicSvg(hostile, SIZE);
+    const html = renderPanelHtml(hostile, { nonce: 'abc123', documentLabel: 'a<b>.cir' });
+    for (const text of [svg, html]) {
+      expect(text).not.toContain('<script');
+      expect(text).not.toContain('<1>');
+      expect(text).not.toContain("<out'>");
+    }
+    expect(svg).toContain('Q&lt;1&gt;&amp;&quot;x&quot;');
+    expect(svg).toContain('&lt;out&#39;&gt;');
+    expect(html).toContain('&lt;script&gt;alert(1)&lt;/script&gt;');
+    expect(html).toContain('a&lt;b&gt;.cir');
+    // Source: XML 1.0 (W3C, 5th ed.), section 2.4 — the five predefined entities.
+    expect(escapeXml(`&<>"'`)).toBe('&amp;&lt;&gt;&quot;&#39;');
+  });
+
+  /** Every number written into an attribute of the SVG parses to a finite value. */
+  function checkFinite(result: OutputCharacteristicResult): string {
+    const svg = renderOutputCharacteristicSvg(result, SIZE);
+    expect(svg).not.toMatch(/NaN|Infinity/);
+    for (const m of svg.matchAll(/\b(x|y|x1|x2|y1|y2|cx|cy|r|width|height|data-[a-z]+)="([^"]*)"/g)) {
+      expect(Number.isFinite(Number(m[2])), `${m[1]}="${m[2]}"`).toBe(true);
+    }
+    for (const m of svg.matchAll(/points="([^"]*)"/g)) {
+      for (const pair of m[1]!.split(' ')) for (const c of pair.split(',')) expect(Number.isFinite(Number(c))).toBe(true);
+    }
+    return svg;
+  }
+
+  it('drops non-finite sweep points and markers and says so', () => {
+    const s = sweep();
+    const bad = { ...s, points: [...s.points, { v: NaN, i: 1e-3 }, { v: 2, i: Infinity }], edgeV: NaN, operatingV: Infinity, cornerSpread: [{ label: 'cold', i: NaN }] };
+    checkFinite(bad);
+    const layout = layoutOutputCharacteristic(bad, SIZE)!;
+    expect(layout.notes).toContain('2 of 53 sweep points were not finite numbers and are left out.');
+    expect(layout.edge).toBeUndefined();
+    expect(layout.operating).toBeUndefined();
+    expect(renderCornerTableHtml(bad)).toContain('<td>not available</td>');
+  });
+
+  it('draws a flat or single-voltage sweep without dividing by zero', () => {
+    checkFinite(sweep({ points: [{ v: 1, i: 1e-3 }, { v: 2, i: 1e-3 }], cornerSpread: [] }));
+    checkFinite(sweep({ points: [{ v: 1, i: 0 }, { v: 1, i: 0 }], edgeV: 1, operatingV: 1, cornerSpread: [] }));
+  });
+
+  it('explains, instead of drawing, when fewer than two points are usable', () => {
+    const svg = checkFinite(sweep({ points: [{ v: NaN, i: NaN }] }));
+    expect(svg).toContain('fewer than two drawable points (1 received)');
+  });
+
+  it('survives a nonsensical chart size', () => {
+    checkFinite(sweep());
+    const svg = renderOutputCharacteristicSvg(sweep(), { width: NaN, height: -5 });
+    expect(svg).not.toMatch(/NaN|Infinity/);
+  });
+});
+
+describe('panel page', () => {
+  it('allows no script and no outside resource; only the nonce-tagged style block', () => {
+    const csp = panelContentSecurityPolicy('n0nce');
+    expect(csp).toMatch(/default-src 'none'/);
+    expect(csp).toMatch(/script-src 'none'/);
+    expect(csp).not.toMatch(/unsafe-inline|unsafe-eval|https?:/);
+    const html = renderPanelHtml(sweep(), { nonce: 'n0nce', documentLabel: 'sensor-bias.cir' });
+    expect(html).toContain(`content="${csp}"`);
+    expect(html).toContain('<style nonce="n0nce">');
+    expect(html).not.toMatch(/<script|\son[a-z]+=/i);
+  });
+});
