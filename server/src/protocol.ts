@@ -11,20 +11,8 @@ export interface OutputCharacteristicParams {
   points?: number;
 }
 
-export interface OutputCharacteristicResult {
-  device: string;
-  structureId: string;
-  /** The output node that was swept. */
-  node: string;
-  /** Output-node voltage (V) against output current magnitude (A). */
-  points: { v: number; i: number }[];
-  /** Output-node voltage at the edge of the active region (saturation / triode edge). */
-  edgeV: number;
-  /** Output-node voltage at the solved operating point. */
-  operatingV: number;
-  /** The output current at each corner at the operating point. */
-  cornerSpread: { label: string; i: number }[];
-}
+/** Output-node voltage against output current, with the active-region edge and the corner spread (computed by the engine). */
+export type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 
 /** `qpoint/listOutputs`: the mirror outputs of a document, for the client's picker. */
 export const LIST_OUTPUTS_REQUEST = 'qpoint/listOutputs';

@@ -1,0 +1,655 @@
+// The qpoint language server: keeps the last analysis of every open netlist, runs new ones in a worker, and answers editor requests from the cache.
+
+import { basename, join } from 'node:path';
+import {
+  CodeAction,
+  CodeActionKind,
+  Command,
+  createConnection,
+  DidChangeConfigurationNotification,
+  ErrorCodes,
+  FileChangeType,
+  LSPErrorCodes,
+  ProposedFeatures,
+  ResponseError,
+  TextDocuments,
+  TextDocumentSyncKind,
+  type CodeActionParams,
+  type Connection,
+  type Diagnostic,
+  type InitializeParams,
+  type InitializeResult,
+  type Position,
+  type TextDocumentContentChangeEvent,
+  type WorkDoneProgressServerReporter,
+} from 'vscode-languageserver/node';
+import type { Analysis } from '../../shared-analysis/src/analysis';
+import { completionsAt } from '../../shared-analysis/src/features/completion';
+import { cardAt, elementsOfCard } from '../../shared-analysis/src/features/document-index';
+import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { inlayHints } from '../../shared-analysis/src/features/inlay';
+import { definitionAt, prepareRename, referencesAt, renameAt } from '../../shared-analysis/src/features/navigation';
+import { documentSymbols } from '../../shared-analysis/src/features/symbols';
+import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
+import {
+  LIST_OUTPUTS_REQUEST,
+  OUTPUT_CHARACTERISTIC_REQUEST,
+  SIZE_RESISTOR_REQUEST,
+  type ListOutputsParams,
+  type ListOutputsResult,
+  type OutputCharacteristicParams,
+  type OutputCharacteristicResult,
+  type SizeResistorParams,
+  type SizeResistorResult,
+} from './protocol';
+import { DEFAULT_SETTINGS, settingsFromConfiguration, type ServerSettings } from './settings';
+import {
+  Converters,
+  toCompletionItem,
+  toDiagnostic,
+  toDocumentSymbol,
+  toHover,
+  toInlayHint,
+  toLocations,
+  toQuickFix,
+  toWorkspaceEdit,
+  type ConverterLookup,
+  type DiagnosticData,
+  type PositionConverter,
+} from './to-lsp';
+import { WorkerHost, WorkerRestartedError } from './worker-host';
+
+/** The name of the client-side command the size refactor runs (declared in package.json). */
+export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
+/** Analyses running longer than this get a progress report. */
+const PROGRESS_AFTER_MS = 500;
+/** A run that was superseded by an edit is abandoned (worker restarted) once it has run this much longer than expected. */
+const SUPERSEDED_GRACE_MS = 3000;
+/** Nothing the worker does may take longer than this. */
+const HARD_DEADLINE_MS = 120_000;
+
+/** One open editor document, its text kept in sync by incremental changes in the negotiated encoding. */
+class OpenDocument {
+  constructor(
+    readonly uri: string,
+    readonly languageId: string,
+    public version: number,
+    public text: string,
+  ) {}
+}
+
+/** What the server keeps of one root netlist: its last finished analysis. */
+interface CacheEntry {
+  analysis: Analysis;
+  /** How long the worker took for it (ms), to judge when a superseded run is far past its time. */
+  ms: number;
+}
+
+const connection: Connection = createConnection(ProposedFeatures.all);
+let encoding: PositionEncoding = 'utf-16';
+let settings: ServerSettings = DEFAULT_SETTINGS;
+let canPullConfiguration = false;
+let canRefreshInlays = false;
+let canReportProgress = false;
+const converters = new Converters();
+const cache = new Map<string, CacheEntry>();
+const published = new Set<string>();
+const timers = new Map<string, ReturnType<typeof setTimeout>>();
+const queue = new Set<string>();
+let running: { uri: string; version: number; started: number; superseded: boolean } | undefined;
+let shuttingDown = false;
+
+function log(message: string): void {
+  connection.console.log(`[qpoint] ${message}`);
+}
+
+const host = new WorkerHost({ script: join(__dirname, 'analysis-worker.js'), log, hardDeadlineMs: HARD_DEADLINE_MS });
+
+const documents = new TextDocuments<OpenDocument>({
+  create: (uri, languageId, version, content) => new OpenDocument(uri, languageId, version, content),
+  update: (doc, changes, version) => applyChanges(doc, changes, version),
+});
+
+/** Applies incremental changes with positions in the negotiated encoding; out-of-order versions are refused and logged. */
+function applyChanges(doc: OpenDocument, changes: TextDocumentContentChangeEvent[], version: number): OpenDocument {
+  if (typeof version === 'number' && version <= doc.version) {
+    log(`Ignored a change to ${doc.uri} with version ${version}: the document is already at version ${doc.version} (changes must arrive in order).`);
+    return doc;
+  }
+  let text = doc.text;
+  for (const change of changes) {
+    if (!change || typeof change.text !== 'string') continue;
+    if ('range' in change && change.range) {
+      const index = new LineIndex(text);
+      const a = index.offsetAt(change.range.start, encoding);
+      const b = index.offsetAt(change.range.end, encoding);
+      const [start, end] = a <= b ? [a, b] : [b, a];
+      text = text.slice(0, start) + change.text + text.slice(end);
+    } else text = change.text;
+  }
+  doc.text = text;
+  doc.version = version;
+  return doc;
+}
+
+// ---- Analysis cache lookups -------------------------------------------------------------
+
+/** The cached analysis that holds `uri`: its own when it is a root, else that of a netlist including it. */
+function holderOf(uri: string): CacheEntry | undefined {
+  const own = cache.get(uri);
+  if (own) return own;
+  for (const entry of cache.values()) if (entry.analysis.documents[uri]) return entry;
+  return undefined;
+}
+
+/** True when another analysed netlist includes this document, so it is not analysed as a netlist of its own. */
+function includedByAnother(uri: string): boolean {
+  for (const [root, entry] of cache) if (root !== uri && entry.analysis.documents[uri]) return true;
+  return false;
+}
+
+/** Converters for the texts an analysis read (so positions and offsets agree with what was analysed). */
+function lookupFor(analysis: Analysis): ConverterLookup {
+  return (uri) => {
+    const text = analysis.documents[uri]?.text ?? documents.get(uri)?.text;
+    return text === undefined ? undefined : converters.get(uri, text);
+  };
+}
+
+/** The holder of a document and the converter of its analysed text, or undefined when nothing is known of it. */
+function featureContext(uri: unknown): { analysis: Analysis; conv: PositionConverter; lookup: ConverterLookup } | undefined {
+  if (typeof uri !== 'string') return undefined;
+  const entry = holderOf(uri);
+  if (!entry) return undefined;
+  const lookup = lookupFor(entry.analysis);
+  const conv = lookup(uri);
+  return conv ? { analysis: entry.analysis, conv, lookup } : undefined;
+}
+
+function checkPosition(pos: unknown): Position {
+  const p = pos as Position | undefined;
+  if (!p || typeof p.line !== 'number' || typeof p.character !== 'number' || !Number.isFinite(p.line) || !Number.isFinite(p.character)) {
+    throw new ResponseError(ErrorCodes.InvalidParams, 'The request needs a position with numeric line and character.');
+  }
+  return { line: Math.max(0, Math.floor(p.line)), character: Math.max(0, Math.floor(p.character)) };
+}
+
+/** Runs a request handler; an exception is logged and answered as an LSP error, never taking the server down. */
+function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: P) => Promise<R> {
+  return async (params: P) => {
+    try {
+      return await fn(params);
+    } catch (e) {
+      if (e instanceof ResponseError) throw e;
+      const message = e instanceof Error ? e.message : String(e);
+      log(`The ${name} request failed: ${e instanceof Error && e.stack ? e.stack : message}`);
+      throw new ResponseError(ErrorCodes.InternalError, `qpoint could not answer the ${name} request: ${message}`);
+    }
+  };
+}
+
+// ---- Scheduling --------------------------------------------------------------------------
+
+/** Re-analyses `uri` after the quiet time (each new call restarts the wait). */
+function schedule(uri: string, delay = settings.analysisDelayMs): void {
+  if (shuttingDown) return;
+  const t = timers.get(uri);
+  if (t) clearTimeout(t);
+  timers.set(
+    uri,
+    setTimeout(() => {
+      timers.delete(uri);
+      queue.add(uri);
+      void pump();
+    }, delay),
+  );
+  if (running && running.uri === uri && !running.superseded) {
+    running.superseded = true;
+    const job = running;
+    const expected = cache.get(uri)?.ms ?? 0;
+    setTimeout(() => {
+      if (running === job) {
+        log(`The superseded analysis of ${uri} is still running after ${Math.round((Date.now() - job.started) / 1000)} s; restarting the worker.`);
+        host.restart();
+      }
+    }, Math.max(SUPERSEDED_GRACE_MS, 3 * expected));
+  }
+}
+
+/** The roots to re-analyse when `uri` changed: itself when it is a netlist of its own, and every netlist that reads it. */
+function dependants(uri: string): string[] {
+  const out = new Set<string>();
+  for (const [root, entry] of cache) {
+    if (root === uri) continue;
+    const a = entry.analysis;
+    if (a.documents[uri] || a.symbols.includes.some((i) => i.target === uri)) out.add(root);
+  }
+  return [...out];
+}
+
+async function pump(): Promise<void> {
+  if (running || shuttingDown) return;
+  const next = queue.values().next();
+  if (next.done) return;
+  const uri = next.value;
+  queue.delete(uri);
+  const doc = documents.get(uri);
+  if (!doc || includedByAnother(uri)) {
+    void pump();
+    return;
+  }
+  const job = { uri, version: doc.version, started: Date.now(), superseded: false };
+  running = job;
+  let progress: WorkDoneProgressServerReporter | undefined;
+  let progressTimer: ReturnType<typeof setTimeout> | undefined;
+  if (canReportProgress) {
+    progressTimer = setTimeout(() => {
+      void connection.window
+        .createWorkDoneProgress()
+        .then((p) => {
+          if (running !== job) return p.done();
+          progress = p;
+          p.begin('qpoint', undefined, `Analysing ${basename(uri)}`, false);
+        })
+        .catch(() => undefined);
+    }, PROGRESS_AFTER_MS);
+  }
+  try {
+    const { analysis, ms } = await host.analyse(uri, job.version, settings.options);
+    const current = documents.get(uri);
+    if (current && current.version === analysis.version) accept(uri, analysis, ms);
+    // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
+  } catch (e) {
+    if (!(e instanceof WorkerRestartedError) || !job.superseded) {
+      const message = e instanceof Error ? e.message : String(e);
+      log(`Analysis of ${uri} failed: ${message}`);
+      if (!job.superseded) publishFailure(uri, message);
+    }
+  } finally {
+    if (progressTimer) clearTimeout(progressTimer);
+    progress?.done();
+    running = undefined;
+    void pump();
+  }
+}
+
+function accept(uri: string, analysis: Analysis, ms: number): void {
+  const before = cache.get(uri);
+  cache.set(uri, { analysis, ms });
+  // Documents this netlist includes are no longer netlists of their own.
+  for (const inc of Object.keys(analysis.documents)) if (inc !== uri && cache.has(inc)) cache.delete(inc);
+  const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
+  for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
+  publish(touched);
+  if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
+}
+
+/** Publishes, for each document, the findings of every cached analysis that read it. */
+function publish(uris: Iterable<string>): void {
+  for (const uri of uris) {
+    const diagnostics: Diagnostic[] = [];
+    const seen = new Set<string>();
+    let version: number | undefined;
+    for (const [root, entry] of cache) {
+      const a = entry.analysis;
+      if (!a.documents[uri] && root !== uri) continue;
+      const lookup = lookupFor(a);
+      const conv = lookup(uri);
+      if (!conv) continue;
+      if (root === uri) version = a.version;
+      a.findings.forEach((f, i) => {
+        if (f.uri !== uri) return;
+        const key = `${f.code}|${f.span.start}|${f.span.end}|${f.message}`;
+        if (seen.has(key)) return;
+        seen.add(key);
+        diagnostics.push(toDiagnostic(f, i, a.version, conv, lookup));
+      });
+    }
+    if (diagnostics.length === 0 && !published.has(uri)) continue;
+    void connection.sendDiagnostics({ uri, version, diagnostics });
+    if (diagnostics.length) published.add(uri);
+    else published.delete(uri);
+  }
+}
+
+function publishFailure(uri: string, message: string): void {
+  const doc = documents.get(uri);
+  if (!doc) return;
+  void connection.sendDiagnostics({
+    uri,
+    version: doc.version,
+    diagnostics: [
+      {
+        range: { start: { line: 0, character: 0 }, end: { line: 0, character: 0 } },
+        severity: 1,
+        code: 'analysis-stopped',
+        source: 'qpoint',
+        message: `qpoint could not finish analysing this netlist: ${message}`,
+      },
+    ],
+  });
+  published.add(uri);
+}
+
+async function pullSettings(): Promise<void> {
+  if (!canPullConfiguration) return;
+  try {
+    const raw = await connection.workspace.getConfiguration('qpoint');
+    const { settings: next, problems } = settingsFromConfiguration(raw);
+    for (const p of problems) log(p);
+    settings = next;
+  } catch (e) {
+    log(`Could not read the qpoint settings: ${e instanceof Error ? e.message : String(e)}`);
+  }
+}
+
+// ---- Lifecycle -----------------------------------------------------------------------------
+
+connection.onInitialize((params: InitializeParams): InitializeResult => {
+  const caps = params.capabilities ?? {};
+  const offered = caps.general?.positionEncodings ?? [];
+  // The client lists encodings by preference; take the first one the LineIndex can count in.
+  const supported: PositionEncoding[] = ['utf-16', 'utf-8', 'utf-32'];
+  encoding = (offered.find((e) => (supported as string[]).includes(e)) as PositionEncoding | undefined) ?? 'utf-16';
+  converters.encoding = encoding;
+  canPullConfiguration = !!caps.workspace?.configuration;
+  canRefreshInlays = !!caps.workspace?.inlayHint?.refreshSupport;
+  canReportProgress = !!caps.window?.workDoneProgress;
+  const init = params.initializationOptions as { settings?: unknown } | undefined;
+  if (init && typeof init === 'object' && init.settings !== undefined) {
+    const { settings: s, problems } = settingsFromConfiguration(init.settings);
+    settings = s;
+    for (const p of problems) log(p);
+  }
+  return {
+    capabilities: {
+      positionEncoding: encoding,
+      textDocumentSync: { openClose: true, change: TextDocumentSyncKind.Incremental, save: false },
+      hoverProvider: true,
+      inlayHintProvider: { resolveProvider: false },
+      documentSymbolProvider: { label: 'qpoint' },
+      definitionProvider: true,
+      referencesProvider: true,
+      renameProvider: { prepareProvider: true },
+      completionProvider: { triggerCharacters: ['.', '{', ' ', '='], resolveProvider: false },
+      codeActionProvider: { codeActionKinds: [CodeActionKind.QuickFix, CodeActionKind.Refactor] },
+    },
+    serverInfo: { name: 'qpoint-language-server', version: '0.1.0' },
+  };
+});
+
+connection.onInitialized(() => {
+  if (canPullConfiguration) {
+    void connection.client.register(DidChangeConfigurationNotification.type, { section: 'qpoint' }).catch(() => undefined);
+    void pullSettings().then(() => {
+      for (const d of documents.all()) schedule(d.uri, 0);
+    });
+  }
+});
+
+connection.onDidChangeConfiguration(async (change) => {
+  if (canPullConfiguration) await pullSettings();
+  else {
+    const raw = (change?.settings as { qpoint?: unknown } | undefined)?.qpoint;
+    const { settings: s, problems } = settingsFromConfiguration(raw);
+    settings = s;
+    for (const p of problems) log(p);
+  }
+  for (const d of documents.all()) schedule(d.uri, 0);
+});
+
+documents.onDidOpen((e) => {
+  host.setDocument(e.document.uri, e.document.text);
+});
+
+documents.onDidChangeContent((e) => {
+  const uri = e.document.uri;
+  host.setDocument(uri, e.document.text);
+  if (!includedByAnother(uri)) schedule(uri);
+  for (const root of dependants(uri)) schedule(root);
+});
+
+documents.onDidClose((e) => {
+  const uri = e.document.uri;
+  host.setDocument(uri, undefined);
+  const t = timers.get(uri);
+  if (t) clearTimeout(t);
+  timers.delete(uri);
+  queue.delete(uri);
+  const entry = cache.get(uri);
+  cache.delete(uri);
+  converters.forget(uri);
+  const touched = new Set<string>([uri, ...(entry ? Object.keys(entry.analysis.documents) : [])]);
+  // Netlists that include the closed file now read it from disk again.
+  for (const root of dependants(uri)) schedule(root);
+  publish(touched);
+  if (published.has(uri) || !holderOf(uri)) {
+    void connection.sendDiagnostics({ uri, diagnostics: [] });
+    published.delete(uri);
+  }
+});
+
+connection.onDidChangeWatchedFiles((params) => {
+  const uris = (params?.changes ?? []).filter((c) => c && typeof c.uri === 'string').map((c) => c.uri);
+  if (uris.length === 0) return;
+  host.filesChanged(uris);
+  const roots = new Set<string>();
+  for (const c of params.changes) {
+    if (documents.get(c.uri) && c.type !== FileChangeType.Deleted) continue; // the editor's text wins over the disk
+    for (const r of dependants(c.uri)) roots.add(r);
+  }
+  for (const r of roots) schedule(r, 0);
+});
+
+connection.onShutdown(() => {
+  shuttingDown = true;
+  for (const t of timers.values()) clearTimeout(t);
+  timers.clear();
+  host.dispose();
+});
+
+connection.onExit(() => {
+  host.dispose();
+});
+
+// ---- Requests ------------------------------------------------------------------------------
+
+connection.onHover(
+  guard('hover', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) return null;
+    const h = hoverAt(ctx.analysis, params.textDocument.uri, ctx.conv.toOffset(checkPosition(params.position)));
+    return h ? toHover(h, ctx.conv) : null;
+  }),
+);
+
+connection.languages.inlayHint.on(
+  guard('inlay hint', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx || !params.range) return [];
+    const span = { start: ctx.conv.toOffset(checkPosition(params.range.start)), end: ctx.conv.toOffset(checkPosition(params.range.end)) };
+    return inlayHints(ctx.analysis, params.textDocument.uri, span, settings.inlayDetail).map((h) => toInlayHint(h, ctx.conv));
+  }),
+);
+
+connection.onDocumentSymbol(
+  guard('document symbol', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) return [];
+    return documentSymbols(ctx.analysis, params.textDocument.uri).map((s) => toDocumentSymbol(s, ctx.conv));
+  }),
+);
+
+connection.onDefinition(
+  guard('definition', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) return [];
+    return toLocations(definitionAt(ctx.analysis, params.textDocument.uri, ctx.conv.toOffset(checkPosition(params.position))), ctx.lookup);
+  }),
+);
+
+connection.onReferences(
+  guard('references', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) return [];
+    const offset = ctx.conv.toOffset(checkPosition(params.position));
+    const refs = referencesAt(ctx.analysis, params.textDocument.uri, offset, { includeDeclaration: params.context?.includeDeclaration !== false });
+    return toLocations(refs, ctx.lookup);
+  }),
+);
+
+connection.onPrepareRename(
+  guard('prepare rename', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) throw new ResponseError(ErrorCodes.InvalidRequest, 'This document has not been analysed yet; try again in a moment.');
+    const r = prepareRename(ctx.analysis, params.textDocument.uri, ctx.conv.toOffset(checkPosition(params.position)));
+    if ('error' in r) throw new ResponseError(ErrorCodes.InvalidRequest, r.error);
+    return { range: ctx.conv.toRange(r.span), placeholder: r.placeholder };
+  }),
+);
+
+connection.onRenameRequest(
+  guard('rename', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) throw new ResponseError(ErrorCodes.InvalidRequest, 'This document has not been analysed yet; try again in a moment.');
+    if (typeof params.newName !== 'string') throw new ResponseError(ErrorCodes.InvalidParams, 'The rename request needs a new name.');
+    const uri = params.textDocument.uri;
+    const doc = documents.get(uri);
+    if (doc && ctx.analysis.documents[uri] && doc.text !== ctx.analysis.documents[uri].text) {
+      throw new ResponseError(LSPErrorCodes.ContentModified, 'The netlist changed since its last analysis; try the rename again in a moment.');
+    }
+    const r = renameAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position)), params.newName.trim());
+    if ('error' in r) throw new ResponseError(ErrorCodes.InvalidRequest, r.error);
+    const edit = toWorkspaceEdit(r.edits, ctx.lookup);
+    if (!edit) throw new ResponseError(ErrorCodes.InternalError, 'The rename touches a file whose text is not known.');
+    return edit;
+  }),
+);
+
+connection.onCompletion(
+  guard('completion', (params) => {
+    const ctx = featureContext(params?.textDocument?.uri);
+    if (!ctx) return [];
+    const uri = params.textDocument.uri;
+    const doc = documents.get(uri);
+    // Completion follows the live text: the cached analysis supplies names, the current line supplies context.
+    if (doc && ctx.analysis.documents[uri] && doc.text !== ctx.analysis.documents[uri].text) {
+      const live = { ...ctx.analysis, documents: { ...ctx.analysis.documents, [uri]: { ...ctx.analysis.documents[uri], text: doc.text, cards: [] } } };
+      const conv = converters.get(`${uri}#live`, doc.text);
+      return completionsAt(live, uri, conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, conv));
+    }
+    return completionsAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, ctx.conv));
+  }),
+);
+
+connection.onCodeAction(
+  guard('code action', (params: CodeActionParams) => {
+    const uri = params?.textDocument?.uri;
+    const ctx = featureContext(uri);
+    if (!ctx || !params.range) return [];
+    const actions: CodeAction[] = [];
+    for (const d of params.context?.diagnostics ?? []) {
+      if (d?.source !== 'qpoint') continue;
+      const data = d.data as DiagnosticData | undefined;
+      if (!data || typeof data.index !== 'number' || data.version !== ctx.analysis.version) continue;
+      const f = ctx.analysis.findings[data.index];
+      if (!f || f.code !== d.code || !f.fixes?.length) continue;
+      for (const fix of f.fixes) {
+        const a = toQuickFix(fix, d, ctx.lookup);
+        if (a) actions.push(a);
+      }
+    }
+    // A refactor on every resistor line in the range: pick a standard value for a target current.
+    const doc = ctx.analysis.documents[uri];
+    const span = ctx.conv.toSpan(params.range);
+    const seen = new Set<number>();
+    for (let off = span.start; off <= span.end; ) {
+      const card = cardAt(doc, off);
+      if (!card) {
+        const nextCard = doc.cards.find((c) => c.span.start > off);
+        if (!nextCard || nextCard.span.start > span.end) break;
+        off = nextCard.span.start;
+        continue;
+      }
+      if (card.kind === 'element' && card.letter === 'R' && !seen.has(card.span.start)) {
+        seen.add(card.span.start);
+        const els = elementsOfCard(ctx.analysis, uri, card);
+        if (els.length) {
+          const feeds = ctx.analysis.structures.find((s) => s.reference.elements.some((r) => els.some((e) => e.name.toLowerCase() === r.toLowerCase())));
+          const resistor = feeds ? els.find((e) => feeds.reference.elements.some((r) => r.toLowerCase() === e.name.toLowerCase()))!.name : els[0].name;
+          const title = feeds
+            ? `Size ${card.name.text} for a target output current of ${feeds.outputs.map((o) => o.device).join(', ') || feeds.reference.device}…`
+            : `Size ${card.name.text} for a target current…`;
+          const action = CodeAction.create(title, Command.create(title, SIZE_COMMAND, { uri, resistor }), CodeActionKind.Refactor);
+          actions.push(action);
+        }
+      }
+      off = card.span.end + 1;
+    }
+    return actions;
+  }),
+);
+
+connection.onRequest(
+  LIST_OUTPUTS_REQUEST,
+  guard('list outputs', (params: ListOutputsParams): ListOutputsResult => {
+    const entry = typeof params?.uri === 'string' ? holderOf(params.uri) : undefined;
+    if (!entry) return { outputs: [] };
+    return {
+      outputs: entry.analysis.structures.flatMap((s) => s.outputs.map((o) => ({ device: o.device, structureId: s.id, kind: s.kind, node: o.node }))),
+    };
+  }),
+);
+
+connection.onRequest(
+  OUTPUT_CHARACTERISTIC_REQUEST,
+  guard('output characteristic', async (params: OutputCharacteristicParams): Promise<OutputCharacteristicResult> => {
+    if (typeof params?.uri !== 'string' || typeof params.device !== 'string') {
+      throw new ResponseError(ErrorCodes.InvalidParams, 'The output-characteristic request needs a document uri and a device name.');
+    }
+    const points = params.points ?? 81;
+    if (typeof points !== 'number') throw new ResponseError(ErrorCodes.InvalidParams, 'points must be a number.');
+    const entry = holderOf(params.uri);
+    if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${params.uri} has not been analysed (is it open?).`);
+    const root = [...cache].find(([, e]) => e === entry)![0];
+    const r = await host.sweep(root, params.device, points);
+    if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
+    return r;
+  }),
+);
+
+connection.onRequest(
+  SIZE_RESISTOR_REQUEST,
+  guard('size resistor', async (params: SizeResistorParams): Promise<SizeResistorResult> => {
+    if (typeof params?.uri !== 'string' || typeof params.resistor !== 'string' || typeof params.target !== 'string') {
+      throw new ResponseError(ErrorCodes.InvalidParams, 'The size-resistor request needs a document uri, a resistor name and a target current text.');
+    }
+    const entry = holderOf(params.uri);
+    if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${params.uri} has not been analysed (is it open?).`);
+    const root = [...cache].find(([, e]) => e === entry)![0];
+    const r = await host.sizeResistor(root, params.resistor, params.target, encoding);
+    if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
+    return {
+      ideal: r.ideal,
+      candidates: r.candidates.map((c) => {
+        const version = c.edit.uri === root ? r.version : undefined;
+        const open = documents.get(c.edit.uri);
+        const edit =
+          open && version !== undefined
+            ? { documentChanges: [{ textDocument: { uri: c.edit.uri, version }, edits: [{ range: c.range, newText: c.edit.newText }] }] }
+            : { changes: { [c.edit.uri]: [{ range: c.range, newText: c.edit.newText }] } };
+        return { label: c.label, valueText: c.valueText, current: c.current, error: c.error, edit };
+      }),
+    };
+  }),
+);
+
+documents.listen(connection);
+connection.listen();
+
+process.on('uncaughtException', (e) => {
+  log(`Unexpected error (the server keeps running): ${e instanceof Error && e.stack ? e.stack : String(e)}`);
+});
+process.on('unhandledRejection', (e) => {
+  log(`Unhandled rejection (the server keeps running): ${e instanceof Error && e.stack ? e.stack : String(e)}`);
+});

@@ -1,0 +1,98 @@
+// Maps the editor's `qpoint.*` settings to the engine's AnalysisOptions and the server's own knobs, in one place.
+
+import type { AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
+import type { InlayDetail } from '../../shared-analysis/src/features/inlay';
+import type { Severity } from '../../shared-analysis/src/types';
+
+/** Everything the server takes from the `qpoint` configuration section. */
+export interface ServerSettings {
+  options: AnalysisOptions;
+  inlayDetail: InlayDetail;
+  analysisDelayMs: number;
+}
+
+/** The settings when the client sends none. */
+export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200 };
+
+const SERIES: ResistorSeries[] = ['E12', 'E24', 'E48', 'E96', 'E192'];
+const SEVERITIES: (Severity | 'off')[] = ['error', 'warning', 'info', 'hint', 'off'];
+const DETAILS: InlayDetail[] = ['off', 'terse', 'full'];
+
+/**
+ * Reads the `qpoint` section (nested objects as VS Code sends them, or flat dotted keys)
+ * into server settings. Values of the wrong type or out of range are ignored, each with a
+ * sentence in `problems` for the server log, so one bad setting never stops the analysis.
+ */
+export function settingsFromConfiguration(raw: unknown): { settings: ServerSettings; problems: string[] } {
+  const problems: string[] = [];
+  const section = isRecord(raw) ? raw : {};
+  if (raw !== undefined && raw !== null && !isRecord(raw)) problems.push('The qpoint settings are not an object; using the defaults.');
+  const get = (path: string): unknown => {
+    if (path in section) return section[path];
+    let cur: unknown = section;
+    for (const part of path.split('.')) {
+      if (!isRecord(cur)) return undefined;
+      cur = cur[part];
+    }
+    return cur;
+  };
+  const num = (path: string, check: (v: number) => boolean, rule: string): number | undefined => {
+    const v = get(path);
+    if (v === undefined || v === null) return undefined;
+    if (typeof v !== 'number' || !Number.isFinite(v) || !check(v)) {
+      problems.push(`Setting qpoint.${path} = ${JSON.stringify(v)} is ignored: it must be ${rule}.`);
+      return undefined;
+    }
+    return v;
+  };
+
+  const options: AnalysisOptions = {};
+  const temperature = num('temperatureCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  if (temperature !== undefined) options.temperatureC = temperature;
+
+  const corners: NonNullable<AnalysisOptions['corners']> = {};
+  const enabled = get('corners.enabled');
+  if (typeof enabled === 'boolean') corners.enabled = enabled;
+  else if (enabled !== undefined && enabled !== null) problems.push(`Setting qpoint.corners.enabled = ${JSON.stringify(enabled)} is ignored: it must be true or false.`);
+  const tol = num('corners.supplyTolerancePercent', (v) => v >= 0 && v <= 50, 'a percentage from 0 to 50');
+  if (tol !== undefined) corners.supplyTolerance = tol / 100;
+  const cold = num('corners.coldCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  if (cold !== undefined) corners.coldC = cold;
+  const hot = num('corners.hotCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  if (hot !== undefined) corners.hotC = hot;
+  const betaLow = num('corners.betaLowFactor', (v) => v > 0, 'a positive factor');
+  if (betaLow !== undefined) corners.betaLow = betaLow;
+  const betaHigh = num('corners.betaHighFactor', (v) => v > 0, 'a positive factor');
+  if (betaHigh !== undefined) corners.betaHigh = betaHigh;
+  if (Object.keys(corners).length) options.corners = corners;
+
+  const margin = num('headroomMarginVolts', (v) => v >= 0 && v < 1000, 'a voltage of 0 or more');
+  if (margin !== undefined) options.headroomMarginV = margin;
+
+  const series = get('resistorSeries');
+  if (typeof series === 'string' && (SERIES as string[]).includes(series.toUpperCase())) options.resistorSeries = series.toUpperCase() as ResistorSeries;
+  else if (series !== undefined && series !== null) problems.push(`Setting qpoint.resistorSeries = ${JSON.stringify(series)} is ignored: it must be one of ${SERIES.join(', ')}.`);
+
+  const sev = get('findingSeverity');
+  if (isRecord(sev)) {
+    const severities: Record<string, Severity | 'off'> = {};
+    for (const [code, level] of Object.entries(sev)) {
+      if (typeof level === 'string' && (SEVERITIES as string[]).includes(level)) severities[code] = level as Severity | 'off';
+      else problems.push(`Setting qpoint.findingSeverity["${code}"] = ${JSON.stringify(level)} is ignored: it must be one of ${SEVERITIES.join(', ')}.`);
+    }
+    if (Object.keys(severities).length) options.severities = severities;
+  } else if (sev !== undefined && sev !== null) problems.push('Setting qpoint.findingSeverity is ignored: it must be an object of finding code → severity.');
+
+  const detail = get('inlayHints.detail');
+  let inlayDetail: InlayDetail = DEFAULT_SETTINGS.inlayDetail;
+  if (typeof detail === 'string' && (DETAILS as string[]).includes(detail)) inlayDetail = detail as InlayDetail;
+  else if (detail !== undefined && detail !== null) problems.push(`Setting qpoint.inlayHints.detail = ${JSON.stringify(detail)} is ignored: it must be one of ${DETAILS.join(', ')}.`);
+
+  const delay = num('analysisDelayMs', (v) => v >= 0 && v <= 60000, 'a number of milliseconds from 0 to 60000');
+
+  return { settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs }, problems };
+}
+
+function isRecord(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}

@@ -1,0 +1,63 @@
+// Answers "size this resistor for a target current" in the worker: reads the typed target, runs the engine's sizing, and words the candidates.
+
+import type { Analysis } from '../../shared-analysis/src/analysis';
+import { parseNumber } from '../../shared-analysis/src/elaborate/units';
+import { formatEngineering } from '../../shared-analysis/src/fixes/format';
+import { sizeResistorForCurrent, valueEdit } from '../../shared-analysis/src/fixes/resistor-for-current';
+import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import type { Span } from '../../shared-analysis/src/types';
+import type { SizingData } from './worker-messages';
+
+/** Standard-value candidates for `resistor` so that its structure's output (or its own) current meets `targetText`. */
+export function sizeResistor(
+  analysis: Analysis,
+  resistor: string,
+  targetText: string,
+  toRange: (uri: string, span: Span) => SizingData['candidates'][number]['range'] | undefined,
+): SizingData | { error: string } {
+  const circuit = analysis.circuit;
+  if (!circuit) return { error: 'The netlist has no elaborated circuit (see its findings), so nothing can be sized.' };
+  const parsed = parseNumber(String(targetText ?? '').trim());
+  if (!parsed.ok) return { error: `The target current "${targetText}" is not a number: ${parsed.message}` };
+  const target = Math.abs(parsed.value);
+  if (!(target > 0) || !Number.isFinite(target)) return { error: `The target current must be a positive number of amperes, e.g. 250u or 1.2mA; got "${targetText}".` };
+  const lower = resistor.toLowerCase();
+  const el = circuit.elements.find((e) => e.name.toLowerCase() === lower);
+  if (!el || el.kind !== 'R') return { error: `${resistor} is not a resistor of this netlist.` };
+  if (!el.origin.valueSpan) return { error: `${resistor} has no value field that could be rewritten.` };
+  const structure = analysis.structures.find((s) => s.reference.elements.some((r) => r.toLowerCase() === lower));
+  const series = analysis.options.resistorSeries;
+  const result = sizeResistorForCurrent({
+    circuit,
+    solver: new DcSolver(circuit),
+    structure,
+    resistor: el.name,
+    target,
+    series,
+    temperatureC: analysis.operatingPoint?.temperatureC,
+  });
+  if (result.candidates.length === 0) return { error: result.problem ?? `No standard value of the ${series} series could be found for ${el.name}.` };
+  const what = `current of ${result.device}`;
+  const candidates: SizingData['candidates'] = [];
+  for (const c of result.candidates) {
+    const edit = valueEdit(el.origin.uri, el.origin, c.valueText);
+    const range = edit && toRange(edit.uri, edit.span);
+    if (!edit || !range) continue;
+    candidates.push({
+      label: `${c.valueText} (${series}) → ${formatEngineering(c.current, { unit: 'A' })}, ${formatSignedPercent(c.error)} from the target ${what}`,
+      valueText: c.valueText,
+      current: c.current,
+      error: c.error,
+      edit,
+      range,
+    });
+  }
+  if (candidates.length === 0) return { error: `The value of ${el.name} cannot be rewritten in place.` };
+  return { ideal: result.ideal, candidates, problem: result.problem, version: analysis.version };
+}
+
+function formatSignedPercent(ratio: number): string {
+  if (!Number.isFinite(ratio)) return 'unknown error';
+  const p = ratio * 100;
+  return `${p >= 0 ? '+' : '−'}${Math.abs(p).toFixed(Math.abs(p) < 10 ? 1 : 0)} %`;
+}

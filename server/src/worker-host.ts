@@ -1,0 +1,158 @@
+// The main thread's side of the analysis worker: one request at a time, deadlines, and a restart when the worker dies or hangs.
+
+import { Worker } from 'node:worker_threads';
+import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
+import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
+import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
+import type { FromWorker, SizingData, ToWorker } from './worker-messages';
+
+/** Options for {@link WorkerHost}. */
+export interface WorkerHostOptions {
+  /** Path of the bundled worker script (dist/analysis-worker.js). */
+  script: string;
+  log: (message: string) => void;
+  /** A request still running after this long is abandoned and the worker restarted (ms). */
+  hardDeadlineMs: number;
+}
+
+type Pending = {
+  resolve: (msg: FromWorker) => void;
+  reject: (e: Error) => void;
+  started: number;
+  label: string;
+  timer: ReturnType<typeof setTimeout>;
+};
+
+/** Thrown when a request was abandoned because the worker was restarted. */
+export class WorkerRestartedError extends Error {}
+
+/**
+ * Owns the worker thread. Open-document texts are mirrored into it so a restarted worker
+ * can carry on; requests are answered in order by message id.
+ */
+export class WorkerHost {
+  private worker: Worker | undefined;
+  private nextId = 1;
+  private readonly pending = new Map<number, Pending>();
+  private readonly texts = new Map<string, string>();
+  private disposed = false;
+  /** How many times the worker was restarted (for logs and tests). */
+  restarts = 0;
+
+  constructor(private readonly options: WorkerHostOptions) {
+    this.start();
+  }
+
+  private start(): void {
+    const w = new Worker(this.options.script);
+    w.on('message', (msg: FromWorker) => this.onMessage(msg));
+    w.on('error', (e) => {
+      this.options.log(`The analysis worker failed: ${e.message}`);
+    });
+    w.on('exit', (code) => {
+      if (this.worker !== w) return;
+      this.worker = undefined;
+      if (this.disposed) return;
+      this.options.log(`The analysis worker exited (code ${code}); starting a new one.`);
+      this.failAll(new WorkerRestartedError('The analysis worker stopped before answering; the request was abandoned.'));
+      this.restarts++;
+      this.start();
+    });
+    // The worker must not keep the server process alive on shutdown.
+    w.unref();
+    this.worker = w;
+    for (const [uri, text] of this.texts) w.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
+  }
+
+  private onMessage(msg: FromWorker): void {
+    const p = this.pending.get(msg.id);
+    if (!p) return;
+    this.pending.delete(msg.id);
+    clearTimeout(p.timer);
+    p.resolve(msg);
+  }
+
+  private failAll(e: Error): void {
+    for (const [id, p] of this.pending) {
+      clearTimeout(p.timer);
+      p.reject(e);
+      this.pending.delete(id);
+    }
+  }
+
+  /** Mirrors an open document's text into the worker (undefined: closed). */
+  setDocument(uri: string, text: string | undefined): void {
+    if (text === undefined) this.texts.delete(uri);
+    else this.texts.set(uri, text);
+    this.worker?.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
+  }
+
+  /** Tells the worker these files changed on disk. */
+  filesChanged(uris: string[]): void {
+    this.worker?.postMessage({ type: 'files-changed', uris } satisfies ToWorker);
+  }
+
+  private request(build: (id: number) => ToWorker, label: string): Promise<FromWorker> {
+    if (this.disposed) return Promise.reject(new Error('The server is shutting down.'));
+    if (!this.worker) this.start();
+    const id = this.nextId++;
+    return new Promise<FromWorker>((resolve, reject) => {
+      const timer = setTimeout(() => {
+        this.options.log(`${label} ran past ${Math.round(this.options.hardDeadlineMs / 1000)} s; restarting the analysis worker.`);
+        this.restart(new Error(`${label} took longer than ${Math.round(this.options.hardDeadlineMs / 1000)} s and was stopped.`));
+      }, this.options.hardDeadlineMs);
+      this.pending.set(id, { resolve, reject, started: Date.now(), label, timer });
+      this.worker!.postMessage(build(id));
+    });
+  }
+
+  /** How long the oldest unanswered request has been running (ms), or 0. */
+  busyForMs(): number {
+    let oldest = 0;
+    const now = Date.now();
+    for (const p of this.pending.values()) oldest = Math.max(oldest, now - p.started);
+    return oldest;
+  }
+
+  /** Stops the worker (abandoning what it is doing) and starts a fresh one with the same open documents. */
+  restart(reason: Error = new WorkerRestartedError('The analysis worker was restarted.')): void {
+    const w = this.worker;
+    this.worker = undefined;
+    this.failAll(reason);
+    if (w) void w.terminate();
+    if (!this.disposed) {
+      this.restarts++;
+      this.start();
+    }
+  }
+
+  async analyse(uri: string, version: number, options: AnalysisOptions): Promise<{ analysis: Analysis; ms: number }> {
+    const msg = await this.request((id) => ({ type: 'analyse', id, uri, version, options }), `The analysis of ${uri}`);
+    if (msg.type === 'analysed') return { analysis: msg.analysis, ms: msg.ms };
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  }
+
+  async sweep(uri: string, device: string, points: number): Promise<OutputCharacteristicResult | { error: string }> {
+    const msg = await this.request((id) => ({ type: 'sweep', id, uri, device, points }), `The sweep of ${device}`);
+    if (msg.type === 'swept') return msg.result;
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  }
+
+  async sizeResistor(uri: string, resistor: string, target: string, encoding: PositionEncoding): Promise<SizingData | { error: string }> {
+    const msg = await this.request((id) => ({ type: 'size-resistor', id, uri, resistor, target, encoding }), `Sizing ${resistor}`);
+    if (msg.type === 'sized') return msg.result;
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  }
+
+  /** The worker's thread id, for memory readings. */
+  get threadId(): number | undefined {
+    return this.worker?.threadId;
+  }
+
+  dispose(): void {
+    this.disposed = true;
+    this.failAll(new Error('The server is shutting down.'));
+    void this.worker?.terminate();
+    this.worker = undefined;
+  }
+}

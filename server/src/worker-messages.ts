@@ -1,0 +1,44 @@
+// The messages between the language server's main thread and its analysis worker.
+
+import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
+import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
+import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
+import type { TextEdit } from '../../shared-analysis/src/types';
+
+/** One standard-value candidate for a resistor, with the engine's offset-based edit. */
+export interface SizingCandidateData {
+  label: string;
+  valueText: string;
+  current: number;
+  error: number;
+  /** The edit in engine offsets, and the same edit as an LSP range in the requested encoding (converted in the worker, against the text it analysed). */
+  edit: TextEdit;
+  range: { start: { line: number; character: number }; end: { line: number; character: number } };
+}
+
+/** The worker's answer to a sizing request. */
+export interface SizingData {
+  ideal: number;
+  candidates: SizingCandidateData[];
+  /** A caveat the engine raised (e.g. the target could only be approached), as a sentence. */
+  problem?: string;
+  /** The version of the analysed root document the edits apply to. */
+  version?: number;
+}
+
+/** Main thread → worker. */
+export type ToWorker =
+  /** The editor's text of an open document changed (text undefined: the document was closed). */
+  | { type: 'set-document'; uri: string; text: string | undefined }
+  /** Files changed on disk: forget what was read of them. */
+  | { type: 'files-changed'; uris: string[] }
+  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions }
+  | { type: 'sweep'; id: number; uri: string; device: string; points: number }
+  | { type: 'size-resistor'; id: number; uri: string; resistor: string; target: string; encoding: PositionEncoding };
+
+/** Worker → main thread. */
+export type FromWorker =
+  | { type: 'analysed'; id: number; analysis: Analysis; ms: number }
+  | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
+  | { type: 'sized'; id: number; result: SizingData | { error: string } }
+  | { type: 'failed'; id: number; message: string };
