@@ -401,13 +401,13 @@ export function solvedCurrent(op: OperatingPoint, element: string): number | und
 }
 
 /** How an element takes part in a structure, for estimates, corners and sizing. */
-export interface StructureRole {
+export interface TargetRole {
   structure: Structure;
   role: 'output' | 'reference-device' | 'reference-resistor' | 'degeneration-resistor';
 }
 
 /** The structure role of an element: an output device, the reference device, a resistor of the reference chain, or a Widlar emitter resistor. */
-export function structureRole(circuit: Circuit, structures: Structure[], element: Element): StructureRole | undefined {
+export function structureRole(circuit: Circuit, structures: Structure[], element: Element): TargetRole | undefined {
   const name = element.name.toLowerCase();
   for (const s of structures) {
     if (s.outputs.some((o) => o.device.toLowerCase() === name)) return { structure: s, role: 'output' };
@@ -426,19 +426,9 @@ export function structureRole(circuit: Circuit, structures: Structure[], element
   return undefined;
 }
 
-/** The emitter (source) resistor of a Widlar source's output device, when there is exactly one. */
-export function degenerationResistor(circuit: Circuit, s: Structure): string | undefined {
-  const out = s.outputs[0];
-  if (!out) return undefined;
-  const dev = circuit.elements.find((e) => e.name.toLowerCase() === out.device.toLowerCase());
-  if (!dev || (dev.kind !== 'Q' && dev.kind !== 'M')) return undefined;
-  const emitter = dev.nodes[2];
-  const refDev = circuit.elements.find((e) => e.name.toLowerCase() === s.reference.device.toLowerCase());
-  const refEmitter = refDev && (refDev.kind === 'Q' || refDev.kind === 'M') ? refDev.nodes[2] : undefined;
-  const candidates = circuit.elements.filter(
-    (e) => e.kind === 'R' && e.nodes.includes(emitter) && (refEmitter === undefined || e.nodes.includes(refEmitter)),
-  );
-  return candidates.length === 1 ? candidates[0].name : undefined;
+/** The emitter (source) resistor of a Widlar source's output device, as the recogniser recorded it. */
+export function degenerationResistor(_circuit: Circuit, s: Structure): string | undefined {
+  return s.outputs.find((o) => o.degeneration)?.degeneration?.resistor;
 }
 
 /** The resistor a sizing fix would change to move an element's current, and the structure it acts through. */
@@ -465,7 +455,7 @@ export function sizingKnob(circuit: Circuit, structures: Structure[], element: E
 }
 
 /** The estimate of an element's current from its structure's hand analysis, when there is one. */
-function estimatedCurrent(role: StructureRole | undefined, element: Element): number | undefined {
+function estimatedCurrent(role: TargetRole | undefined, element: Element): number | undefined {
   const est = role?.structure.estimate;
   if (!est || !role) return undefined;
   const v = role.role === 'output' ? est.iout[element.name] ?? findCaseless(est.iout, element.name) : role.role === 'degeneration-resistor' ? Object.values(est.iout)[0] : est.iref;
@@ -606,7 +596,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
   return findings;
 }
 
-function cornerCurrent(iout: Record<string, number>, iref: number, role: StructureRole, name: string): number | undefined {
+function cornerCurrent(iout: Record<string, number>, iref: number, role: TargetRole, name: string): number | undefined {
   const v = role.role === 'output' ? iout[name] ?? findCaseless(iout, name) : role.role === 'degeneration-resistor' ? Object.values(iout)[0] : iref;
   return v !== undefined && Number.isFinite(v) ? Math.abs(v) : undefined;
 }

@@ -1,0 +1,329 @@
+// Re-solves the circuit at supply, temperature and beta corners and reports outputs that leave their region, lose headroom or spread.
+
+import type { ResolvedOptions } from '../analysis';
+import type { Circuit, Element } from '../circuit';
+import { formatEngineering, formatPercent } from '../fixes/format';
+import type { DcSolver, DcSolveResult } from '../solve/dc';
+import type { SolveOptions } from '../solve/types';
+import { measureStructure, type Measurement } from '../structures/measure';
+import { findRails } from '../structures/rails';
+import type { CornerResult, Structure } from '../structures/types';
+import type { Finding, RelatedLocation, Severity } from '../types';
+
+/** Finding codes this module owns, with their default severity and a one-line summary for the README. */
+export const CORNER_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'corner-output-out-of-region': {
+    severity: 'warning',
+    summary: 'A mirror output that is active at nominal leaves forward-active (BJT) or saturation (MOSFET) at some supply/temperature/beta corner; the message names the worst corner and by how much.',
+  },
+  'corner-headroom-low': {
+    severity: 'warning',
+    summary: 'A mirror output stays active at every corner but its headroom falls below the margin at some corner.',
+  },
+  'corner-current-spread': {
+    severity: 'info',
+    summary: 'A mirror output current moves by more than ±20 % of nominal across the corners.',
+  },
+  'corner-no-convergence': {
+    severity: 'info',
+    summary: 'The operating point did not converge at some corners; those corners are left out of the other corner checks.',
+  },
+};
+
+/** Output current spread beyond which `corner-current-spread` is reported (±20 %). */
+export const SPREAD_LIMIT = 0.2;
+/** At most this many supply sources get their own single-source corners. */
+export const MAX_SINGLE_SOURCE_CORNERS = 8;
+
+/** One corner to solve: what changes against nominal. */
+export interface CornerSpec {
+  label: string;
+  /** Scale applied to every supply source (1 when only one source moves). */
+  supplyScale: number;
+  /** The single source moved alone, when this is a single-source corner. */
+  singleSource?: string;
+  /** Scale of that single source. */
+  singleScale?: number;
+  temperatureC: number;
+  betaScale: number;
+}
+
+/** Inputs of `runCorners`. */
+export interface CornerContext {
+  circuit: Circuit;
+  solver: DcSolver;
+  structures: Structure[];
+  options: ResolvedOptions;
+  nominal: DcSolveResult;
+}
+
+/** The independent voltage sources that set the supply rails (every V source on a rail path with a non-zero value). */
+export function supplySources(circuit: Circuit): string[] {
+  const names = new Set<string>();
+  for (const rail of findRails(circuit)) for (const s of rail.sources) names.add(s);
+  const out: string[] = [];
+  for (const e of circuit.elements) if (e.kind === 'V' && names.has(e.name) && e.dc !== 0 && Number.isFinite(e.dc)) out.push(e.name);
+  return out;
+}
+
+function signedPct(scale: number): string {
+  const pct = Number(((scale - 1) * 100).toPrecision(3));
+  return `${pct < 0 ? '\u2212' : '+'}${Math.abs(pct)} %`;
+}
+
+function degrees(t: number): string {
+  return `${t < 0 ? '\u2212' : ''}${Math.abs(Number(t.toPrecision(4)))} °C`;
+}
+
+/**
+ * The corner list, in a fixed order: the full cross product of supply (all supply sources
+ * together at −tol, nominal, +tol) × temperature (cold, nominal, hot) × beta (low, 1, high),
+ * without the all-nominal point — at most 3 × 3 × 3 − 1 = 26 corners — followed, when the
+ * circuit has more than one supply source, by each source alone at ±tol (nominal temperature
+ * and beta), for at most 8 sources: at most 26 + 16 = 42 solves per circuit, shared by every
+ * structure. Levels equal to nominal (a zero tolerance, a beta factor of 1) are dropped.
+ */
+export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[]): CornerSpec[] {
+  const c = options.corners;
+  const tol = Number.isFinite(c.supplyTolerance) ? Math.abs(c.supplyTolerance) : 0;
+  const supply = uniq(sources.length > 0 ? [1 - tol, 1, 1 + tol] : [1]);
+  const temps = uniq([c.coldC, nominalC, c.hotC].filter(Number.isFinite));
+  const betas = uniq([c.betaLow, 1, c.betaHigh].filter((b) => Number.isFinite(b) && b > 0));
+  const specs: CornerSpec[] = [];
+  for (const s of supply) {
+    for (const t of temps) {
+      for (const b of betas) {
+        if (s === 1 && t === nominalC && b === 1) continue;
+        const parts: string[] = [];
+        if (s !== 1) parts.push(`supply ${signedPct(s)}`);
+        if (t !== nominalC) parts.push(degrees(t));
+        if (b !== 1) parts.push(`beta ×${Number(b.toPrecision(3))}`);
+        specs.push({ label: parts.join(', '), supplyScale: s, temperatureC: t, betaScale: b });
+      }
+    }
+  }
+  if (sources.length > 1 && tol > 0) {
+    for (const name of sources.slice(0, MAX_SINGLE_SOURCE_CORNERS)) {
+      for (const s of [1 - tol, 1 + tol]) {
+        specs.push({ label: `${name} alone ${signedPct(s)}`, supplyScale: 1, singleSource: name, singleScale: s, temperatureC: nominalC, betaScale: 1 });
+      }
+    }
+  }
+  return specs;
+}
+
+function uniq(xs: number[]): number[] {
+  const out: number[] = [];
+  for (const x of xs) if (!out.includes(x)) out.push(x);
+  return out;
+}
+
+/** Per-output summary across the converged corners. */
+interface OutputSweep {
+  device: string;
+  nominal: { iout: number; headroom: number; outOfRegion: boolean };
+  out: { label: string; headroom: number }[];
+  minHeadroom?: { label: string; headroom: number };
+  minCurrent?: { label: string; value: number };
+  maxCurrent?: { label: string; value: number };
+}
+
+/**
+ * Solves every corner once for the whole circuit (warm-started from the nominal solution),
+ * measures every structure from each corner's point, fills `structure.corners`, and returns the
+ * corner findings in a deterministic order (structures in the given order, outputs in order).
+ */
+export function runCorners(ctx: CornerContext): Finding[] {
+  const { circuit, solver, structures, options, nominal } = ctx;
+  const findings: Finding[] = [];
+  if (!options.corners.enabled || structures.length === 0 || !nominal.op.converged) return findings;
+
+  const nominalC = nominal.op.temperatureC;
+  const sources = supplySources(circuit);
+  const dcOf = new Map<string, number>();
+  for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
+  const specs = cornerSpecs(options, nominalC, sources);
+
+  const solved: { spec: CornerSpec; result?: DcSolveResult }[] = [];
+  for (const spec of specs) {
+    const sourceValues: Record<string, number> = {};
+    for (const name of sources) {
+      const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
+      if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
+    }
+    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x };
+    let result: DcSolveResult | undefined;
+    try {
+      result = solver.solve(opts);
+    } catch {
+      // The solver promises not to throw; a corner that does anyway counts as not converged.
+      result = undefined;
+    }
+    solved.push({ spec, result: result && result.op.converged ? result : undefined });
+  }
+
+  const failed = solved.filter((s) => !s.result).map((s) => s.spec.label);
+  const elements = new Map<string, Element>();
+  for (const e of circuit.elements) elements.set(e.name, e);
+
+  for (const s of structures) {
+    const nominalM = measureStructure(circuit, nominal.op, s);
+    s.corners = solved.map(({ spec, result }) => toCornerResult(spec, result ? measureStructure(circuit, result.op, s) : undefined, s));
+    if (failed.length > 0) {
+      const ref = elements.get(s.reference.device);
+      if (ref) {
+        findings.push({
+          code: 'corner-no-convergence',
+          severity: CORNER_CODES['corner-no-convergence'].severity,
+          message: `The operating point did not converge at ${failed.length} of ${specs.length} corners (${listLabels(failed)}), so the corner checks of the structure around ${s.reference.device} leave them out.`,
+          uri: ref.origin.uri,
+          span: ref.origin.span,
+          data: { structureId: s.id, corners: failed },
+        });
+      }
+    }
+    for (const o of s.outputs) {
+      const sweep = sweepOf(o.device, s, nominalM);
+      const el = elements.get(o.device);
+      if (!el) continue;
+      findings.push(...outputFindings(s, el, sweep, options, s.corners.filter((c) => c.converged).length));
+    }
+  }
+  return findings;
+}
+
+function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structure): CornerResult {
+  if (!m) {
+    return {
+      label: spec.label,
+      supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
+      temperatureC: spec.temperatureC,
+      betaScale: spec.betaScale,
+      converged: false,
+      iref: 0,
+      iout: Object.fromEntries(s.outputs.map((o) => [o.device, 0])),
+      headroom: Object.fromEntries(s.outputs.map((o) => [o.device, 0])),
+      outOfRegion: [],
+    };
+  }
+  return {
+    label: spec.label,
+    supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
+    temperatureC: spec.temperatureC,
+    betaScale: spec.betaScale,
+    converged: true,
+    iref: finite(m.iref),
+    iout: mapFinite(m.iout),
+    headroom: mapFinite(m.headroom),
+    outOfRegion: [...m.outOfRegion],
+  };
+}
+
+function sweepOf(device: string, s: Structure, nominalM: Measurement): OutputSweep {
+  const sweep: OutputSweep = {
+    device,
+    nominal: { iout: finite(nominalM.iout[device]), headroom: finite(nominalM.headroom[device]), outOfRegion: nominalM.outOfRegion.includes(device) },
+    out: [],
+  };
+  for (const c of s.corners) {
+    if (!c.converged) continue;
+    const h = finite(c.headroom[device]);
+    const i = finite(c.iout[device]);
+    if (c.outOfRegion.includes(device)) sweep.out.push({ label: c.label, headroom: h });
+    if (!sweep.minHeadroom || h < sweep.minHeadroom.headroom) sweep.minHeadroom = { label: c.label, headroom: h };
+    if (!sweep.minCurrent || i < sweep.minCurrent.value) sweep.minCurrent = { label: c.label, value: i };
+    if (!sweep.maxCurrent || i > sweep.maxCurrent.value) sweep.maxCurrent = { label: c.label, value: i };
+  }
+  return sweep;
+}
+
+const V = (v: number): string => formatEngineering(v, { unit: 'V' });
+const A = (v: number): string => formatEngineering(v, { unit: 'A' });
+
+function regionName(s: Structure): string {
+  return s.technology === 'npn' || s.technology === 'pnp' ? 'forward-active' : 'saturation';
+}
+
+function edgeName(s: Structure): string {
+  return s.technology === 'npn' || s.technology === 'pnp' ? 'the VBC = 0 edge' : 'the VDS = VGS − VTH edge';
+}
+
+function listLabels(labels: string[], max = 4): string {
+  if (labels.length <= max) return labels.join('; ');
+  return `${labels.slice(0, max).join('; ')}; and ${labels.length - max} more`;
+}
+
+function relatedOf(el: Element): RelatedLocation[] | undefined {
+  if (el.origin.instances.length === 0) return undefined;
+  return el.origin.instances.map((i) => ({ uri: i.uri, span: i.span, message: `instance ${i.name}` }));
+}
+
+function outputFindings(s: Structure, el: Element, sw: OutputSweep, options: ResolvedOptions, converged: number): Finding[] {
+  const out: Finding[] = [];
+  const base = { uri: el.origin.uri, span: el.origin.span, related: relatedOf(el) };
+  const margin = options.headroomMarginV;
+  // An output already out of region (or short of headroom) at nominal is the nominal checks' finding, not a corner one.
+  if (sw.nominal.outOfRegion) return out;
+  if (sw.out.length > 0) {
+    const worst = sw.out.reduce((w, x) => (x.headroom < w.headroom ? x : w));
+    const past = Math.max(0, -worst.headroom);
+    out.push({
+      ...base,
+      code: 'corner-output-out-of-region',
+      severity: CORNER_CODES['corner-output-out-of-region'].severity,
+      message:
+        `${el.name} is ${regionName(s)} at nominal (headroom ${V(sw.nominal.headroom)}) but leaves it at ${sw.out.length} of ${converged} corners; ` +
+        `the worst is ${worst.label}, ${past > 0 ? `${V(past)} past ${edgeName(s)}` : `at ${edgeName(s)}`} (headroom ${V(worst.headroom)}).` +
+        (sw.out.length > 1 ? ` Also out at: ${listLabels(sw.out.filter((x) => x !== worst).map((x) => x.label))}.` : ''),
+      data: {
+        structureId: s.id,
+        device: el.name,
+        corner: worst.label,
+        headroom: worst.headroom,
+        nominalHeadroom: sw.nominal.headroom,
+        corners: sw.out.map((x) => x.label),
+      },
+    });
+  } else if (sw.minHeadroom && sw.minHeadroom.headroom < margin && sw.nominal.headroom >= margin) {
+    out.push({
+      ...base,
+      code: 'corner-headroom-low',
+      severity: CORNER_CODES['corner-headroom-low'].severity,
+      message: `${el.name} stays ${regionName(s)} at every corner, but its headroom falls from ${V(sw.nominal.headroom)} at nominal to ${V(sw.minHeadroom.headroom)} at ${sw.minHeadroom.label}, below the ${V(margin)} margin.`,
+      data: { structureId: s.id, device: el.name, corner: sw.minHeadroom.label, headroom: sw.minHeadroom.headroom, nominalHeadroom: sw.nominal.headroom, margin },
+    });
+  }
+  const nom = sw.nominal.iout;
+  if (nom > 0 && sw.minCurrent && sw.maxCurrent) {
+    const low = sw.minCurrent.value / nom - 1;
+    const high = sw.maxCurrent.value / nom - 1;
+    if (low < -SPREAD_LIMIT || high > SPREAD_LIMIT) {
+      out.push({
+        ...base,
+        code: 'corner-current-spread',
+        severity: CORNER_CODES['corner-current-spread'].severity,
+        message: `${el.name}'s output current of ${A(nom)} ranges from ${A(sw.minCurrent.value)} (${formatPercent(low)}, at ${sw.minCurrent.label}) to ${A(sw.maxCurrent.value)} (${formatPercent(high)}, at ${sw.maxCurrent.label}) across ${converged} corners.`,
+        data: {
+          structureId: s.id,
+          device: el.name,
+          nominal: nom,
+          min: sw.minCurrent.value,
+          max: sw.maxCurrent.value,
+          minCorner: sw.minCurrent.label,
+          maxCorner: sw.maxCurrent.label,
+        },
+      });
+    }
+  }
+  return out;
+}
+
+function finite(x: number | undefined): number {
+  return x !== undefined && Number.isFinite(x) ? x : 0;
+}
+
+function mapFinite(m: Record<string, number>): Record<string, number> {
+  const out: Record<string, number> = {};
+  for (const [k, v] of Object.entries(m)) out[k] = finite(v);
+  return out;
+}

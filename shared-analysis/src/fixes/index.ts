@@ -1,0 +1,127 @@
+// Attaches quick fixes to findings: one builder per finding code (missing model, mismatched mirror, missed target current).
+
+import type { ResolvedOptions } from '../analysis';
+import type { Circuit, Resistor } from '../circuit';
+import { parseNumber } from '../elaborate/units';
+import type { DcSolver } from '../solve/dc';
+import type { Structure } from '../structures/types';
+import type { ElementCard, ParsedDocument } from '../syntax/ast';
+import type { Finding, Fix, Severity } from '../types';
+import { isSeriesName, type SeriesName } from './e-series';
+import { formatEngineering, formatPercent } from './format';
+import { missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
+import { sizeResistorForCurrent, valueEdit, type SizingResult } from './resistor-for-current';
+
+/** What the fix builders may use. */
+export interface FixContext {
+  documents: Record<string, ParsedDocument>;
+  circuit?: Circuit;
+  structures: Structure[];
+  options: ResolvedOptions;
+  solver?: DcSolver;
+}
+
+type FixBuilder = (finding: Finding, ctx: FixContext) => Fix[];
+
+/** The fixes this module offers, by the finding code they attach to (for the README). */
+export const FIX_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'model-not-found': {
+    severity: 'error',
+    summary: 'Fix: add a `.model` card of each expected kind with every default parameter written out, after the last top-level `.model` card (or before `.end`).',
+  },
+  'mirror-unmatched': {
+    severity: 'warning',
+    summary: 'Fix: make every device of the mirror use the reference device’s model (only the model names change).',
+  },
+  'target-missed': {
+    severity: 'warning',
+    summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; the closer one is preferred.',
+  },
+};
+
+const BUILDERS: Record<string, FixBuilder> = {
+  'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents),
+  'mirror-unmatched': (f, ctx) => unifyMirrorModelFixes(f, ctx.circuit),
+  'target-missed': (f, ctx) => targetFixes(f, ctx),
+};
+
+/**
+ * Adds `fixes` to every finding whose code has a builder. A builder that finds nothing to
+ * offer leaves the finding untouched; fixes already present are kept, new ones appended.
+ * Sizing results are cached per (resistor, element, target), so repeated findings cost one sizing.
+ */
+export function attachFixes(findings: Finding[], ctx: FixContext): void {
+  const cache = new Map<string, SizingResult>();
+  const withCache: FixContext & { sizingCache?: Map<string, SizingResult> } = { ...ctx, sizingCache: cache };
+  for (const f of findings) {
+    const build = BUILDERS[f.code];
+    if (!build) continue;
+    let fixes: Fix[] = [];
+    try {
+      fixes = build(f, withCache);
+    } catch {
+      // A fix is a convenience; a builder failure must not take the finding (or the analysis) down.
+      fixes = [];
+    }
+    if (fixes.length > 0) f.fixes = [...(f.fixes ?? []), ...fixes];
+  }
+}
+
+/** The multiplier between a resistor card's written value and its effective resistance (M=), when the written value is a plain number. */
+function writtenScale(r: Resistor, documents: Record<string, ParsedDocument>): number | undefined {
+  const doc = documents[r.origin.uri];
+  const span = r.origin.valueSpan;
+  if (!doc || !span) return undefined;
+  const read = parseNumber(doc.text.slice(span.start, span.end));
+  if (!read.ok || !(read.value > 0)) return undefined;
+  return read.value / r.resistance;
+}
+
+function cardAt(doc: ParsedDocument | undefined, start: number): ElementCard | undefined {
+  const card = doc?.cards.find((c) => c.kind === 'element' && c.span.start === start);
+  return card && card.kind === 'element' ? card : undefined;
+}
+
+/** Resistor-value fixes for a missed target, from the sizing inputs the target check put in `data`. */
+function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, SizingResult> }): Fix[] {
+  const { circuit, solver, documents } = ctx;
+  const d = f.data ?? {};
+  const resistorName = typeof d['resistor'] === 'string' ? d['resistor'] : undefined;
+  const element = typeof d['element'] === 'string' ? d['element'] : undefined;
+  const target = typeof d['target'] === 'number' ? d['target'] : undefined;
+  if (!circuit || !solver || !resistorName || !element || target === undefined) return [];
+  const r = circuit.elements.find((e) => e.name.toLowerCase() === resistorName.toLowerCase());
+  if (!r || r.kind !== 'R') return [];
+  // A value written as an expression or parameter is the user's design intent; do not overwrite it with a number.
+  const scale = writtenScale(r, documents);
+  if (scale === undefined) return [];
+  const series: SeriesName = typeof d['series'] === 'string' && isSeriesName(d['series']) ? d['series'] : ctx.options.resistorSeries;
+  const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
+  const structure = structureId ? ctx.structures.find((s) => s.id === structureId) : undefined;
+
+  const key = `${r.name}|${element}|${target}|${series}`;
+  let sizing = ctx.sizingCache?.get(key);
+  if (!sizing) {
+    sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series, device: element, temperatureC: ctx.options.temperatureC });
+    ctx.sizingCache?.set(key, sizing);
+  }
+  if (sizing.candidates.length === 0) return [];
+  const best = sizing.candidates.reduce((a, b) => (Math.abs(b.error) < Math.abs(a.error) ? b : a));
+  const shared = r.origin.instances.length > 0 ? ' in the subcircuit definition (every instance changes)' : '';
+  const card = cardAt(documents[r.origin.uri], r.origin.span.start);
+  const hasM = card?.params.some((p) => p.name.text.toLowerCase() === 'm') ?? false;
+  const fixes: Fix[] = [];
+  for (const c of sizing.candidates) {
+    const written = c.value * scale;
+    const text = formatEngineering(written, { style: 'netlist', digits: 4 });
+    const edit = valueEdit(r.origin.uri, r.origin, text);
+    if (!edit || text === '') continue;
+    const perDevice = hasM && Math.abs(scale - 1) > 1e-12 ? ` (${formatEngineering(c.value, { unit: 'Ω' })} effective with M=)` : '';
+    fixes.push({
+      title: `Set ${r.name} to ${text}${perDevice} (${series})${shared}: ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}`,
+      preferred: c === best ? true : undefined,
+      edits: [edit],
+    });
+  }
+  return fixes;
+}

@@ -1,0 +1,307 @@
+// Sizes a resistor for a target current: a hand-formula first value, refined with the DC solver, then the nearest standard values re-solved.
+
+import type { Circuit, Element, Origin, Resistor } from '../circuit';
+import { DcSolver, type DcSolveResult } from '../solve/dc';
+import type { OperatingPoint } from '../solve/types';
+import { measureStructure } from '../structures/measure';
+import { thermalVolts } from '../structures/formulas';
+import type { Structure } from '../structures/types';
+import type { Span, TextEdit } from '../types';
+import { nearestStandardValues, STANDARD_VALUE_RANGE, type SeriesName } from './e-series';
+import { formatEngineering } from './format';
+
+/** What to size and for which current. */
+export interface SizingContext {
+  circuit: Circuit;
+  /** The prepared solver of `circuit`, used for the baseline point (and its warm start). */
+  solver: DcSolver;
+  /** The structure the resistor feeds, when the target is one of its output currents. */
+  structure?: Structure;
+  /** Hierarchical name of the resistor to change. */
+  resistor: string;
+  /** Target current magnitude, amperes. */
+  target: number;
+  series: SeriesName;
+  temperatureC?: number;
+  /**
+   * The element whose current is the target. Default: the structure's first output when
+   * `structure` is given and the resistor is its reference resistor or Widlar emitter resistor,
+   * else the resistor itself.
+   */
+  device?: string;
+}
+
+/** One standard value and what it gives. */
+export interface SizingCandidate {
+  /** Ohms. */
+  value: number;
+  /** The value as netlist text (`8.2k`). */
+  valueText: string;
+  /** The target element's current with this value, amperes (solved). */
+  current: number;
+  /** current/target − 1. */
+  error: number;
+  /** Which side of the ideal value it lies on; `exact` when the ideal value is itself standard. */
+  side: 'below' | 'above' | 'exact';
+}
+
+/** The result of sizing: the exact resistance for the target and the standard candidates. */
+export interface SizingResult {
+  /** Ohms that meet the target (0 when sizing failed; see `problem`). */
+  ideal: number;
+  candidates: SizingCandidate[];
+  /** The element whose current was targeted. */
+  device: string;
+  /** How the first value was obtained, for messages. */
+  firstValueFrom: 'reference-formula' | 'widlar-formula' | 'ohms-law';
+  /** DC solves spent. */
+  solves: number;
+  /** Why sizing gave no (or only a partial) answer, as a full sentence. */
+  problem?: string;
+}
+
+/** Relative current accuracy the refinement stops at. */
+const CURRENT_RELTOL = 1e-6;
+/** Solve budget for the refinement (candidates take two more). */
+const MAX_REFINE_SOLVES = 24;
+
+/** A copy of the circuit with one resistor's resistance replaced; everything else is shared, not copied. */
+export function withResistance(circuit: Circuit, resistor: Resistor, ohms: number): Circuit {
+  return { ...circuit, elements: circuit.elements.map((e) => (e === resistor ? { ...resistor, resistance: ohms } : e)) };
+}
+
+function findElement(circuit: Circuit, name: string): Element | undefined {
+  const want = name.toLowerCase();
+  return circuit.elements.find((e) => e.name.toLowerCase() === want);
+}
+
+/** The current magnitude an element carries at an operating point (collector, drain, diode or branch current). */
+function currentOf(op: OperatingPoint, name: string): number | undefined {
+  const rec = op.devices[name];
+  if (!rec) return undefined;
+  const v = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  return Number.isFinite(v) ? Math.abs(v) : undefined;
+}
+
+/**
+ * Finds the resistance for which the target element carries `target`, and the two nearest
+ * standard values of the series on either side, each re-solved with the full circuit.
+ *
+ * First value, by the structure's formula:
+ * - a reference-chain resistor: R = (V+ − V− − VBE(target))/IREF(target), with the chain's
+ *   drop taken from the solved point and its junction voltages moved by n·VT·ln(ratio) to the
+ *   target current (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4); IREF(target) scales with the
+ *   output as the solved mirror ratio says;
+ * - a Widlar emitter resistor: R2 = n·VT·ln(IREF/IOUT)/IOUT (Widlar, 1965);
+ * - otherwise Ohm's law at the solved voltage.
+ * Then a safeguarded secant on ln R against ln I re-solves the circuit with the resistor
+ * changed, warm-started from the baseline point. Never throws; a failure is a `problem`.
+ */
+export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
+  const { circuit, structure, target } = ctx;
+  const resistor = findElement(circuit, ctx.resistor);
+  const fail = (problem: string, device = ctx.device ?? ctx.resistor, solves = 0): SizingResult => ({
+    ideal: 0,
+    candidates: [],
+    device,
+    firstValueFrom: 'ohms-law',
+    solves,
+    problem,
+  });
+  if (!resistor || resistor.kind !== 'R') return fail(`There is no resistor named ${ctx.resistor} to size.`);
+  if (!(Number.isFinite(target) && target > 0)) return fail('The target current must be a positive number of amperes.');
+  if (!(resistor.resistance > 0 && Number.isFinite(resistor.resistance))) {
+    return fail(`${resistor.name} has no positive finite resistance to start from.`);
+  }
+
+  const role = structure ? resistorRole(structure, resistor.name) : undefined;
+  const deviceName =
+    ctx.device !== undefined
+      ? findElement(circuit, ctx.device)?.name ?? ctx.device
+      : role && structure && structure.outputs[0]
+        ? structure.outputs[0].device
+        : resistor.name;
+  if (!findElement(circuit, deviceName)) return fail(`There is no element named ${deviceName} whose current could be targeted.`, deviceName);
+
+  let solves = 0;
+  const baseOptions = { temperatureC: ctx.temperatureC };
+  const baseline = ctx.solver.solve(baseOptions);
+  solves++;
+  if (!baseline.op.converged) {
+    return fail('The circuit has no converged operating point to size from, so no resistor value is offered.', deviceName, solves);
+  }
+  const warm = baseline.x;
+
+  const measure = (ohms: number): { current: number; result: DcSolveResult } | undefined => {
+    solves++;
+    const solver = new DcSolver(withResistance(circuit, resistor, ohms));
+    const result = solver.solve({ ...baseOptions, initialGuess: warm });
+    if (!result.op.converged) return undefined;
+    const current = currentOf(result.op, deviceName);
+    return current === undefined ? undefined : { current, result };
+  };
+
+  const i0 = currentOf(baseline.op, deviceName);
+  if (i0 === undefined || !(i0 > 0)) {
+    return fail(`${deviceName} carries no current at the present operating point, so the change needed cannot be estimated.`, deviceName, solves);
+  }
+
+  // First value from the structure's formula.
+  const tempC = ctx.temperatureC ?? baseline.op.temperatureC;
+  const vt = thermalVolts(tempC);
+  let first: number;
+  let firstValueFrom: SizingResult['firstValueFrom'] = 'ohms-law';
+  const rRec = baseline.op.devices[resistor.name];
+  const vR = rRec && rRec.type === 'resistor' ? Math.abs(rRec.voltage) : Math.abs(currentOf(baseline.op, resistor.name) ?? 0) * resistor.resistance;
+  const iR = currentOf(baseline.op, resistor.name) ?? 0;
+  if (structure && role === 'widlar' && deviceName.toLowerCase() === structure.outputs[0]?.device.toLowerCase()) {
+    const m = measureStructure(circuit, baseline.op, structure);
+    const nf = outputNf(circuit, structure);
+    if (!(m.iref > target)) {
+      return fail(
+        `A Widlar source's output runs below its reference current, but the target ${formatEngineering(target, { unit: 'A' })} is not below IREF = ${formatEngineering(m.iref, { unit: 'A' })}; change the reference resistor instead.`,
+        deviceName,
+        solves,
+      );
+    }
+    first = (nf * vt * Math.log(m.iref / target)) / target;
+    firstValueFrom = 'widlar-formula';
+  } else if (structure && role === 'reference' && iR > 0) {
+    // Mirror ratio from the solved point keeps finite beta and area ratios in the inversion.
+    const ratio = deviceName.toLowerCase() === resistor.name.toLowerCase() ? 1 : i0 / iR;
+    const iRefTarget = target / ratio;
+    const junctions = Math.max(1, stackedJunctions(structure));
+    const vAvailable = vR - junctions * vt * Math.log(iRefTarget / iR);
+    first = vAvailable > 0 ? vAvailable / iRefTarget : resistor.resistance * (i0 / target);
+    firstValueFrom = 'reference-formula';
+  } else {
+    // The resistor's own current, or an element whose current falls roughly as 1/R.
+    first = resistor.resistance * (i0 / target);
+  }
+  if (!(Number.isFinite(first) && first > 0)) first = resistor.resistance * (i0 / target);
+  first = clampOhms(first);
+
+  // Safeguarded secant on g(u) = ln(I/target) with u = ln R. The current usually falls with R;
+  // a bracket, once found, is kept and bisected whenever the secant step leaves it.
+  type Pt = { u: number; g: number; current: number };
+  const evalAt = (ohms: number): Pt | undefined => {
+    const r = measure(ohms);
+    return r ? { u: Math.log(ohms), g: Math.log(r.current / target), current: r.current } : undefined;
+  };
+  let a: Pt | undefined = { u: Math.log(resistor.resistance), g: Math.log(i0 / target), current: i0 };
+  let b = evalAt(first);
+  if (!b) return fail(`The circuit does not converge with ${resistor.name} = ${formatEngineering(first, { unit: 'Ω' })}, so no value is offered.`, deviceName, solves);
+  let lo: Pt | undefined; // g > 0 side (too much current)
+  let hi: Pt | undefined; // g < 0 side
+  const noteBracket = (p: Pt): void => {
+    if (p.g > 0 && (!lo || p.g < lo.g)) lo = p;
+    if (p.g < 0 && (!hi || p.g > hi.g)) hi = p;
+  };
+  noteBracket(a);
+  noteBracket(b);
+  let best = Math.abs(b.g) < Math.abs(a.g) ? b : a;
+  const uMin = Math.log(STANDARD_VALUE_RANGE.min);
+  const uMax = Math.log(STANDARD_VALUE_RANGE.max);
+  let refineSolves = 1;
+  while (Math.abs(best.g) > CURRENT_RELTOL && refineSolves < MAX_REFINE_SOLVES) {
+    let u: number;
+    const slope = a && b.u !== a.u ? (b.g - a.g) / (b.u - a.u) : NaN;
+    if (Number.isFinite(slope) && slope !== 0) u = b.u - b.g / slope;
+    else u = b.u + (b.g > 0 ? 0.5 : -0.5); // no slope yet: step R by a factor of e^0.5 in the right direction
+    if (lo && hi) {
+      const [uA, uB] = lo.u < hi.u ? [lo.u, hi.u] : [hi.u, lo.u];
+      if (!(u > uA && u < uB)) u = (lo.u + hi.u) / 2;
+    }
+    u = Math.min(Math.max(u, uMin), uMax);
+    if (u === b.u) break;
+    const p = evalAt(Math.exp(u));
+    refineSolves++;
+    if (!p) {
+      // Step back halfway towards the best point when a trial value does not converge.
+      const q = evalAt(Math.exp((u + best.u) / 2));
+      refineSolves++;
+      if (!q) break;
+      a = b;
+      b = q;
+    } else {
+      a = b;
+      b = p;
+    }
+    noteBracket(b);
+    if (Math.abs(b.g) < Math.abs(best.g)) best = b;
+  }
+
+  const ideal = Math.exp(best.u);
+  let problem: string | undefined;
+  if (Math.abs(best.g) > 1e-3) {
+    const atEdge = best.u <= uMin + 1e-9 || best.u >= uMax - 1e-9;
+    problem = atEdge
+      ? `No resistance between 1 mΩ and 1 GΩ gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}; the nearest it gets is ${formatEngineering(best.current, { unit: 'A' })}.`
+      : `The refinement stopped ${formatPercentPlain(Math.exp(best.g) - 1)} from the target after ${solves} solves; the values offered are the nearest found.`;
+  }
+
+  const candidates: SizingCandidate[] = [];
+  const nearest = nearestStandardValues(ideal, ctx.series);
+  if (nearest) {
+    const values: { v: number; side: SizingCandidate['side'] }[] = nearest.exact
+      ? [{ v: nearest.below, side: 'exact' }]
+      : [
+          { v: nearest.below, side: 'below' },
+          { v: nearest.above, side: 'above' },
+        ];
+    for (const { v, side } of values) {
+      const r = measure(v);
+      if (!r) continue;
+      candidates.push({
+        value: v,
+        valueText: formatEngineering(v, { style: 'netlist', digits: 4 }),
+        current: r.current,
+        error: r.current / target - 1,
+        side,
+      });
+    }
+    if (candidates.length < values.length && !problem) {
+      problem = 'The circuit did not converge with one of the standard values, so it is not offered.';
+    }
+  }
+  return { ideal, candidates, device: deviceName, firstValueFrom, solves, problem };
+}
+
+function formatPercentPlain(ratio: number): string {
+  return `${Number((ratio * 100).toPrecision(2))} %`;
+}
+
+function clampOhms(r: number): number {
+  return Math.min(Math.max(r, STANDARD_VALUE_RANGE.min), STANDARD_VALUE_RANGE.max);
+}
+
+/** How a resistor takes part in a structure: a resistor of the reference chain, or a Widlar emitter resistor. */
+function resistorRole(s: Structure, name: string): 'reference' | 'widlar' | undefined {
+  const want = name.toLowerCase();
+  if (s.outputs.some((o) => o.degeneration?.resistor.toLowerCase() === want)) return 'widlar';
+  if (s.reference.feed === 'resistor' && s.reference.elements.some((e) => e.toLowerCase() === want)) return 'reference';
+  return undefined;
+}
+
+/** Junctions in series with a structure's reference resistor chain: two for Wilson and cascode stacks, else one. */
+function stackedJunctions(s: Structure): number {
+  return s.kind === 'cascode-mirror' || s.kind === 'wilson-mirror' || s.kind === 'improved-wilson-mirror' ? 2 : 1;
+}
+
+/** NF of a bipolar output device (1 for MOS or when unknown). */
+function outputNf(circuit: Circuit, s: Structure): number {
+  const out = s.outputs[0] ? findElement(circuit, s.outputs[0].device) : undefined;
+  const nf = out && out.kind === 'Q' ? out.model.params['NF'] : undefined;
+  return nf !== undefined && Number.isFinite(nf) && nf > 0 ? nf : 1;
+}
+
+/**
+ * The edit that writes `newText` over a card's value field (`origin.valueSpan`) and nothing
+ * else, so spacing, comments and other fields stay as they were. Undefined when the card has
+ * no value field to replace.
+ */
+export function valueEdit(uri: string, origin: Origin, newText: string): TextEdit | undefined {
+  if (!origin.valueSpan) return undefined;
+  const span: Span = { start: origin.valueSpan.start, end: origin.valueSpan.end };
+  return { uri, span, newText };
+}
