@@ -314,7 +314,7 @@ class StructureCheck {
       return this.bipolar ? Number.isFinite(p.VAF ?? Infinity) && (p.VAF ?? 0) > 0 : (p.LAMBDA ?? 0) > 0;
     });
     if (finiteEarly) {
-      const earlyInFormula = s.kind === 'simple-mirror' || s.kind === 'helper-mirror';
+      const earlyInFormula = s.kind !== 'cascode-mirror' && s.kind !== 'improved-wilson-mirror';
       const vceMismatch = s.outputs.some((o) => {
         const t = this.t(o.device);
         const vo = this.v(t.out);
@@ -350,6 +350,8 @@ class StructureCheck {
       for (const a of this.topo.conducting(n)) {
         if (members.has(a.element.name) || feed.has(a.element.name)) continue;
         if (n === this.topo.nodeIndex.get(this.s.reference.node) && this.s.reference.feed === 'other' && a.slot !== 1) continue;
+        // The helper's pull-downs on its emitter node are part of the hand analysis.
+        if (this.s.kind === 'helper-mirror' && (a.element.kind === 'R' || a.element.kind === 'I')) continue;
         names.add(a.element.name);
       }
     }

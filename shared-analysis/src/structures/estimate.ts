@@ -324,6 +324,31 @@ class HandAnalysis {
     return Math.exp(0.5 * (lo + hi));
   }
 
+  /**
+   * Current drawn from `node` (sitting `vAbove` beyond the common rail, own polarity) by
+   * elements outside the structure: resistors to a rail and current sources.
+   */
+  private pullDown(node: number, vAbove: number): number {
+    const vc = this.commonVolts();
+    if (vc === undefined) return 0;
+    const vNode = vc + this.sign * vAbove;
+    const members = new Set(this.s.devices);
+    let sum = 0;
+    for (const a of this.topo.conducting(node)) {
+      const el = a.element;
+      if (members.has(el.name)) continue;
+      if (el.kind === 'R' && el.resistance > 0) {
+        const other = el.nodes[0] === node ? el.nodes[1] : el.nodes[0];
+        const vo = this.railVolts.get(other);
+        if (vo !== undefined) sum += (this.sign * (vNode - vo)) / el.resistance;
+      } else if (el.kind === 'I') {
+        const dc = this.at.sourceValues?.[el.name] ?? el.dc;
+        sum += this.sign * (el.nodes[0] === node ? dc : -dc);
+      }
+    }
+    return Math.max(sum, 0);
+  }
+
   private vbe(p: DeviceParams, ic: number): number {
     return vbeAt(ic, p.isEff, p.nfVt);
   }
@@ -331,6 +356,20 @@ class HandAnalysis {
   private vgs(p: DeviceParams, id: number, vsb: number): number {
     const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
     return diodeMosVgs(id, p.kBeta, vth, p.lambda);
+  }
+
+  /** VGS of a saturated MOSFET carrying `id` whose VDS is a function of its own VGS (square law with λ, fixed point). */
+  private vgsWithVds(p: DeviceParams, id: number, vsb: number, vdsOf: (vgs: number) => number): number {
+    const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    if (!(id > 0) || !(p.kBeta > 0)) return vth;
+    let vgs = vth + Math.sqrt((2 * id) / p.kBeta);
+    for (let n = 0; n < 60; n++) {
+      const clm = Math.max(1 + p.lambda * vdsOf(vgs), 0.05);
+      const next = vth + Math.sqrt((2 * id) / (p.kBeta * clm));
+      if (Math.abs(next - vgs) < 1e-12) return next;
+      vgs = next;
+    }
+    return vgs;
   }
 
   private vsbBase(p: DeviceParams): number {
@@ -393,10 +432,17 @@ class HandAnalysis {
         let ic1 = iref / (1 + (1 + sumSimple) / beta);
         const wout: Record<string, number> = {};
         // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1.
+        const wEarly: Record<string, number> = {};
         for (let pass = 0; pass < (widlar.length > 0 ? 8 : 1); pass++) {
           let ibW = 0;
+          const vbe1Now = this.vbe(ref, ic1);
           for (const x of widlar) {
-            wout[x.o.device] = widlarOutput({ iin: ic1, r2: x.o.degeneration!.ohms, nVt: x.p.nfVt, m: x.o.ratio, k: (x.p.beta + 1) / x.p.beta });
+            // Early effect of the output at its own VCE (emitter lifted by IE·R2) against the reference's VCE = VBE.
+            const ie = ((wout[x.o.device] ?? 0) * (x.p.beta + 1)) / x.p.beta;
+            const vce = this.outputVds(x.p.t, ie * x.o.degeneration!.ohms);
+            wEarly[x.o.device] = vce !== undefined ? earlyFactor(vce, vbe1Now, x.p.va) : 1;
+            const mEff = x.o.ratio * wEarly[x.o.device];
+            wout[x.o.device] = widlarOutput({ iin: ic1, r2: x.o.degeneration!.ohms, nVt: x.p.nfVt, m: mEff, k: (x.p.beta + 1) / x.p.beta });
             ibW += wout[x.o.device] / x.p.beta;
           }
           ic1 = Math.max(iref - ibW, 0) / (1 + (1 + sumSimple) / beta);
@@ -424,8 +470,8 @@ class HandAnalysis {
           edge[x.o.device] = vbe1;
           push({
             quantity: `IOUT(${x.o.device})`,
-            formula: 'NF·VT·ln(m·IC1/IOUT) = IOUT·(1 + 1/β)·R2 (Widlar, IEEE Trans. Circuit Theory, 1965, with the output base current added to R2)',
-            substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
+            formula: `NF·VT·ln(m·IC1/IOUT) = IOUT·(1 + 1/β)·R2 (Widlar, IEEE Trans. Circuit Theory, 1965, with the output base current added to R2${wEarly[x.o.device] !== 1 ? '; m × (1 + (VCE2 − VBE)/VA) for the Early effect' : ''})`,
+            substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio * (wEarly[x.o.device] ?? 1), 5)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
             value: i,
             unit: 'A',
           });
@@ -467,19 +513,30 @@ class HandAnalysis {
       const helper = this.dev(this.role('helper')[0]?.name ?? this.s.reference.device);
       const sumM = outs.reduce((a, x) => a + x.o.ratio, 0);
       if (this.bipolar) {
-        const ic1 = iref / (1 + (1 + sumM) / (beta * (beta + 1)));
-        const ieH = ((1 + sumM) * ic1) / beta;
+        // A pull-down on the base node (a common speed-up resistor) adds to the helper's emitter
+        // current, so the helper's base current, taken from IREF, grows by I_pd/(β + 1).
+        let ic1 = iref / (1 + (1 + sumM) / (beta * (beta + 1)));
+        let iPd = 0;
+        for (let pass = 0; pass < 4; pass++) {
+          iPd = this.pullDown(this.refT().ctrl, this.vbe(ref, ic1));
+          ic1 = Math.max(iref - iPd / (helper.beta + 1), 0) / (1 + (1 + sumM) / (beta * (beta + 1)));
+        }
+        const ieH = ((1 + sumM) * ic1) / beta + iPd;
         const vbe1 = junction('', ref, ic1, 0);
-        const vbeH = junction(' (helper: carries the base currents)', helper, (ieH * helper.beta) / (helper.beta + 1), 0);
+        const vbeH = junction(' (helper: carries the base currents and the pull-down)', helper, (ieH * helper.beta) / (helper.beta + 1), 0);
         for (const x of outs) {
           const vce = this.outputVds(x.p.t);
-          const early = vce !== undefined ? earlyFactor(vce, vbe1, x.p.va) : 1;
-          iout[x.o.device] = helperMirrorGain(beta, x.o.ratio, sumM) * iref * early;
+          // The reference's VCE is VBE1 + VBE(helper) here, not one VBE.
+          const early = vce !== undefined ? earlyFactor(vce, vbe1 + vbeH, x.p.va) : 1;
+          const irefNet = iref - iPd / (helper.beta + 1);
+          iout[x.o.device] = helperMirrorGain(beta, x.o.ratio, sumM) * irefNet * early;
           edge[x.o.device] = vbe1;
           push({
             quantity: `IOUT(${x.o.device})`,
-            formula: `m·IREF/(1 + (1 + Σm)/(β(β + 1)))${early !== 1 ? ' × (1 + (VCE2 − VBE)/VA)' : ''} (${GRAY})`,
-            substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}/(1 + ${sig(1 + sumM)}/(${sig(beta)} × ${sig(beta + 1)}))` + (early !== 1 ? ` × ${sig(early, 5)}` : ''),
+            formula: `m·(IREF − I_pulldown/(β + 1))/(1 + (1 + Σm)/(β(β + 1)))${early !== 1 ? ' × (1 + (VCE2 − VCE1)/VA), VCE1 = VBE1 + VBE(helper)' : ''} (${GRAY}; pull-down term by node currents)`,
+            substituted:
+              `${sig(x.o.ratio)} × (${eng(iref, 'A')} − ${eng(iPd, 'A')}/${sig(helper.beta + 1)})/(1 + ${sig(1 + sumM)}/(${sig(beta)} × ${sig(beta + 1)}))` +
+              (early !== 1 ? ` × ${sig(early, 5)}` : ''),
             value: iout[x.o.device],
             unit: 'A',
           });
@@ -487,14 +544,42 @@ class HandAnalysis {
         return { stack: vbe1 + vbeH, vControl: vbe1, iRef: ic1, iout, edge, steps };
       }
       const vsb = this.vsbBase(ref);
-      const vgs1 = junction('', ref, iref, vsb);
-      // The MOS helper carries no DC current (gates draw none): it sits at its threshold.
-      const vgsH = thresholdWithBody(helper.vto, helper.gamma, helper.phi, vsb + vgs1);
+      // Gates draw no current: the helper carries only what the pull-downs on the gate node take.
+      // The reference's VDS is VGS1 + VGS(helper), so the two are solved together.
+      let vgs1 = this.vgs(ref, iref, vsb);
+      let vgsH = 0;
+      let iH = 0;
+      for (let n = 0; n < 30; n++) {
+        iH = this.pullDown(this.refT().ctrl, vgs1);
+        const vDrain = this.railVolts.get(helper.t.out);
+        const vc = this.commonVolts();
+        const g1 = vgs1;
+        vgsH = this.vgsWithVds(helper, iH, vsb + vgs1, (g) => (vDrain !== undefined && vc !== undefined ? this.sign * (vDrain - vc) - g1 : g));
+        const h = vgsH;
+        vgs1 = this.vgsWithVds(ref, iref, vsb, (g) => g + h);
+      }
+      push({
+        quantity: `VGS(${ref.t.name})`,
+        formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VDS))), VDS = VGS1 + VGS(helper) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
+        substituted: `${eng(thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb), 'V')} + sqrt(2 × ${eng(iref, 'A')}/${sig(ref.kBeta, 3)} A/V²/(1 + λ·${eng(vgs1 + vgsH, 'V')}))`,
+        value: vgs1,
+        unit: 'V',
+      });
+      junction(' (helper: carries the pull-down current)', helper, iH, vsb + vgs1);
       const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb);
       for (const x of outs) {
-        iout[x.o.device] = x.o.ratio * iref;
+        const vds = this.outputVds(x.p.t);
+        // The reference's VDS is VGS1 + VGS(helper).
+        const clm = vds !== undefined ? lambdaFactor(x.p.lambda, vds, vgs1 + vgsH) : 1;
+        iout[x.o.device] = x.o.ratio * iref * clm;
         edge[x.o.device] = vgs1 - vth1;
-        push({ quantity: `IOUT(${x.o.device})`, formula: `((W/L)·M ratio) × IREF (${RAZAVI})`, substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}`, value: iout[x.o.device], unit: 'A' });
+        push({
+          quantity: `IOUT(${x.o.device})`,
+          formula: `((W/L)·M ratio) × IREF${clm !== 1 ? ' × (1 + λ·VDS2)/(1 + λ·VDS1), VDS1 = VGS1 + VGS(helper)' : ''} (${RAZAVI})`,
+          substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
+          value: iout[x.o.device],
+          unit: 'A',
+        });
       }
       return { stack: vgs1 + vgsH, vControl: vgs1, iRef: iref, iout, edge, steps };
     }
@@ -544,26 +629,54 @@ class HandAnalysis {
       const ic3 = (ie3 * beta) / (beta + 1);
       const vLow = junction(' (lower diode)', lowerDiode, x, 0);
       const vOut = junction(' (output)', x0.p, ic3, 0);
-      iout[x0.o.device] = wilsonGain(beta, m) * iref;
+      // Simple Wilson: Q1 sits at VCE = 2·VBE against VBE for the lower diode, an Early error the improved form removes.
+      const early = this.s.kind === 'wilson-mirror' ? earlyFactor(vLow, vLow + vOut, ref.va) : 1;
+      iout[x0.o.device] = wilsonGain(beta, m * early) * iref;
       edge[x0.o.device] = vLow + vOut;
       const vRef = this.vbe(ref, x / m);
       push({
         quantity: `IOUT(${x0.o.device})`,
         formula: `IREF·(1 − 2/(β² + 2β + 2)) for a matched ${kindName} mirror, node currents when ratioed (${GRAY})`,
-        substituted: `${eng(iref, 'A')} × (1 − 2/(${sig(beta)}² + 2 × ${sig(beta)} + 2))${m !== 1 ? ` (ratio ${sig(m)})` : ''}`,
+        substituted: `${eng(iref, 'A')} × (1 − 2/(${sig(beta)}² + 2 × ${sig(beta)} + 2))${m !== 1 ? ` (ratio ${sig(m)})` : ''}${early !== 1 ? ` with the lower ratio × (1 + (VBE − 2·VBE)/VA) = × ${sig(early, 5)}` : ''}`,
         value: iout[x0.o.device],
         unit: 'A',
       });
       return { stack: vLow + vOut, vControl: vRef, iRef: x / m, iout, edge, steps };
     }
+    // MOS Wilson: Q1 (the input device) carries IREF at VDS1 = VGS2 + VGS3 (− VGS4 in the improved form);
+    // the lower diode Q2 and the output Q3 carry IOUT = m·IREF·(1 + λ·VGS2)/(1 + λ·VDS1).
     const vsb = this.vsbBase(lowerDiode);
-    const vLow = junction(' (lower diode)', lowerDiode, m * iref, vsb);
-    const vOut = junction(' (output)', x0.p, m * iref, vsb + vLow);
+    const improved = this.s.kind === 'improved-wilson-mirror';
+    let vLow = this.vgs(lowerDiode, m * iref, vsb);
+    let vOut = this.vgs(x0.p, m * iref, vsb + vLow);
+    let vTop = improved ? this.vgs(ref, iref, 0) : 0;
+    let vds1 = vLow + vOut - vTop;
+    let io = m * iref;
+    const refIn = improved ? this.dev(this.role('lower-partner')[0].name) : ref;
+    for (let n = 0; n < 40; n++) {
+      const o = vOut;
+      const t4 = vTop;
+      vLow = this.vgsWithVds(refIn, iref, vsb, (g) => g + o - t4);
+      vds1 = vLow + vOut - vTop;
+      io = m * iref * lambdaFactor(lowerDiode.lambda, vLow, vds1);
+      const vdsOut = this.outputVds(x0.p.t, vLow);
+      vOut = this.vgsWithVds(x0.p, io, vsb + vLow, (g) => (vdsOut !== undefined ? vdsOut : g));
+      if (improved) vTop = this.vgs(ref, iref, vsb + vds1);
+    }
+    junction(' (lower diode)', lowerDiode, io, vsb);
+    junction(' (output)', x0.p, io, vsb + vLow);
     const vthOut = thresholdWithBody(x0.p.vto, x0.p.gamma, x0.p.phi, vsb + vLow);
-    iout[x0.o.device] = m * iref;
+    const clm = io / (m * iref || 1);
+    iout[x0.o.device] = io;
     edge[x0.o.device] = vLow + vOut - vthOut;
-    push({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; feedback holds the ratio (${kindName}, ${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' });
-    return { stack: vLow + vOut, vControl: this.vgs(ref, iref, vsb), iRef: iref, iout, edge, steps };
+    push({
+      quantity: `IOUT(${x0.o.device})`,
+      formula: `((W/L)·M ratio) × IREF × (1 + λ·VGS2)/(1 + λ·VDS1), VDS1 = VGS2 + VGS3${improved ? ' − VGS4' : ''}; feedback holds the ratio (${kindName}, ${RAZAVI})`,
+      substituted: `${sig(m)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
+      value: io,
+      unit: 'A',
+    });
+    return { stack: vLow + vOut, vControl: improved ? vTop : vLow, iRef: iref, iout, edge, steps };
   }
 }
 

@@ -177,7 +177,9 @@ class Recogniser {
    *      │       │
    *    rail     O (emitter on R's emitter node)
    * ```
-   * Node B must carry no diode-connected device (that would be a Wilson-like stack).
+   * Node B must carry no diode-connected device (that would be a Wilson-like stack). A MOS
+   * helper also needs something on B that conducts at DC (a resistor or current source
+   * pulling B towards the rail), since gates draw no current to bias the follower.
    */
   private matchHelper(r: Transistor): Draft | undefined {
     const a = r.out;
@@ -188,6 +190,8 @@ class Recogniser {
     const diodeOnB = this.topo.transistors.some((t) => t.tech === r.tech && t.ctrl === b && t.out === b);
     if (diodeOnB) return undefined;
     const h = helpers[0];
+    // MOS gates draw no DC current: without a pull-down on B the follower's bias is undefined.
+    if (r.element.kind === 'M' && this.topo.conducting(b).filter((x) => x.element !== h.element).length === 0) return undefined;
     const outs = this.candidates(r.tech, (t) => t.ctrl === b && t.common === r.common && t.out !== b && t.out !== a, [r, h]);
     if (outs.length === 0) return undefined;
     return {

@@ -14,6 +14,8 @@ export interface FixtureOptions {
   rLoad?: number;
   /** Widlar emitter resistor. */
   r2?: number;
+  /** Pull-down from the helper mirror's base node to the rail. */
+  rB?: number;
   /** Extra model parameters for every device. */
   model?: Record<string, number>;
   temperatureC?: number;
@@ -55,6 +57,8 @@ export function fixture(kind: StructureKind, tech: Technology, o: FixtureOptions
       dev('Q1', n('a'), n('b'), rail);
       dev('Q3', feedRail, n('a'), n('b'));
       dev('Q2', n('out'), n('b'), rail);
+      // The follower's pull-down: needed for MOS (gates draw no current), a speed-up resistor for BJTs.
+      b.r(n('RB'), n('b'), rail, o.rB ?? 20e3);
       break;
     case 'wilson-mirror':
       dev('Q1', n('a'), n('b'), rail);
