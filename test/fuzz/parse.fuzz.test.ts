@@ -3,7 +3,8 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import { parse } from '../../shared-analysis/src/syntax/parser';
-import type { ParsedDocument, Span } from '../../shared-analysis/src/syntax/ast';
+import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
+import type { Span } from '../../shared-analysis/src/types';
 
 const SEED = 20260601;
 const RUNS = 400;
@@ -109,18 +110,15 @@ function assertWellFormed(doc: ParsedDocument, text: string): void {
     expect(s.end).toBeLessThanOrEqual(text.length);
   };
   expect(doc.text).toBe(text);
-  let lastStart = -1;
-  // The non-comment card before the current one; a comment line may sit inside a card it interrupts.
-  let lastCard: Span | undefined;
+  let lastEnd = 0;
   for (const card of doc.cards) {
     inRange(card.span);
-    expect(card.span.start).toBeGreaterThanOrEqual(lastStart);
-    lastStart = card.span.start;
-    if (card.kind === 'comment') {
-      if (lastCard && card.span.start < lastCard.end) expect(card.span.end).toBeLessThanOrEqual(lastCard.end);
-    } else {
-      if (lastCard) expect(card.span.start).toBeGreaterThanOrEqual(lastCard.end);
-      lastCard = card.span;
+    // In order and not overlapping; comment lines inside a card lie within it.
+    expect(card.span.start).toBeGreaterThanOrEqual(lastEnd);
+    lastEnd = card.span.end;
+    for (const c of card.comments ?? []) {
+      expect(c.span.start).toBeGreaterThan(card.span.start);
+      expect(c.span.end).toBeLessThan(card.span.end);
     }
     for (const t of card.tokens) {
       inRange(t.span);

@@ -25,6 +25,11 @@ interface CardBase {
   span: Span;
   /** Every token of the card in order, continuation markers and comments excluded. */
   tokens: Token[];
+  /**
+   * Comment lines that sit between the card's first line and its last `+` continuation line. They lie
+   * inside the card's span, so they are kept here rather than as cards of their own (cards never overlap).
+   */
+  comments?: CommentCard[];
 }
 
 /** The first line of a top-level netlist. */

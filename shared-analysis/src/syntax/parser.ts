@@ -35,6 +35,7 @@
 import type {
   Assignment,
   Card,
+  CommentCard,
   ElementCard,
   ErrorCard,
   ParsedDocument,
@@ -67,6 +68,8 @@ interface Lexeme {
   type: 'word' | 'expr' | 'eq' | 'lp' | 'rp';
   start: number;
   end: number;
+  /** Made on first use; always present as a key so every lexeme has one object shape. */
+  token: Token | undefined;
 }
 
 /** A field of a card after `name=value` pairs are joined. */
@@ -95,19 +98,26 @@ interface Context {
 /**
  * Reads a netlist into lossless cards with UTF-16 spans. Never throws: unreadable cards
  * become ErrorCards, other problems are collected in `errors`, and reading resumes at the next card.
+ * Cards are in text order and never overlap; a comment line between a card and its continuation
+ * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
   const ctx: Context = { text, errors: [], subckts: [] };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
-  let pendingComments: Card[] = [];
+  let pendingComments: CommentCard[] = [];
   let ended = false;
 
+  // Comment lines inside the open card, waiting to learn whether a continuation line follows them.
+  let innerComments: CommentCard[] = [];
   const flush = (): void => {
     if (group) {
-      cards.push(parseGroup(ctx, group));
+      const card = parseGroup(ctx, group);
+      if (innerComments.length > 0) card.comments = innerComments;
+      cards.push(card);
       group = null;
     }
+    innerComments = [];
     if (pendingComments.length > 0) {
       for (const c of pendingComments) cards.push(c);
       pendingComments = [];
@@ -141,8 +151,14 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
           else cards.push(comment);
         } else if (c === 43 /* + */) {
           const seg: Segment = { start: first + 1, lineEnd: end, plus: first };
-          if (group) group.push(seg);
-          else {
+          if (group) {
+            group.push(seg);
+            // Comments before this continuation line are now inside the card.
+            if (pendingComments.length > 0) {
+              for (const c of pendingComments) innerComments.push(c);
+              pendingComments = [];
+            }
+          } else {
             flush();
             group = [seg];
           }
@@ -223,7 +239,7 @@ function skipBlank(text: string, i: number): number {
   return i;
 }
 
-function commentCard(text: string, first: number, end: number): Card {
+function commentCard(text: string, first: number, end: number): CommentCard {
   // The comment text drops its marker (`*`, `;` or `$`) and surrounding blanks.
   const bodyStart = skipSpace(text, first + 1, end);
   let bodyEnd = end;
@@ -249,13 +265,17 @@ function titleCard(ctx: Context, start: number, end: number): Card {
   return { kind: 'title', span: { start, end }, tokens: [], text: title };
 }
 
-/** A title reads like a card when it is a known dot card, or an element card that parses cleanly and has a numeric field. */
+/** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
   const probe: Context = { text, errors: [], subckts: [] };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
   if (card.kind !== 'element') return true;
+  // Prose starts with a capitalised word ("Generated ...", "Quick ..."); element names carry a digit
+  // (R1, Q12) or are written in capitals (VCC, RLOAD).
+  const name = card.name.text;
+  if (!/[0-9]/.test(name) && !(name.length >= 2 && name === name.toUpperCase())) return false;
   const fields: (Token | undefined)[] = [...card.nodes, card.value, card.area, card.source?.value];
   return fields.some((t) => t !== undefined && isNumberLike(t));
 }
@@ -297,7 +317,7 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
         if (isSpace(d) || d === 59 || (d === 36 && isCommentDollar(text, i, to))) break;
         i++;
       }
-      out.push({ type: 'word', start: s, end: i });
+      out.push({ type: 'word', start: s, end: i, token: undefined });
       continue;
     }
     if (c === 44 /* , */) {
@@ -305,17 +325,17 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       continue;
     }
     if (c === 61 /* = */) {
-      out.push({ type: 'eq', start: i, end: i + 1 });
+      out.push({ type: 'eq', start: i, end: i + 1, token: undefined });
       i++;
       continue;
     }
     if (c === 40 /* ( */) {
-      out.push({ type: 'lp', start: i, end: i + 1 });
+      out.push({ type: 'lp', start: i, end: i + 1, token: undefined });
       i++;
       continue;
     }
     if (c === 41 /* ) */) {
-      out.push({ type: 'rp', start: i, end: i + 1 });
+      out.push({ type: 'rp', start: i, end: i + 1, token: undefined });
       i++;
       continue;
     }
@@ -345,10 +365,10 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
     }
     // `PARAMS:name=...` glued together: split the keyword off so it is recognised.
     if (i - s > 7 && text.slice(s, s + 7).toUpperCase() === 'PARAMS:') {
-      out.push({ type: 'word', start: s, end: s + 7 });
-      out.push({ type: 'word', start: s + 7, end: i });
+      out.push({ type: 'word', start: s, end: s + 7, token: undefined });
+      out.push({ type: 'word', start: s + 7, end: i, token: undefined });
     } else {
-      out.push({ type: 'word', start: s, end: i });
+      out.push({ type: 'word', start: s, end: i, token: undefined });
     }
     if (out.length === 1) {
       const cmd = text.slice(s, i).toLowerCase();
@@ -368,7 +388,7 @@ function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[]): number {
     else if (d === 125) {
       depth--;
       if (depth === 0) {
-        out.push({ type: 'expr', start: s, end: i + 1 });
+        out.push({ type: 'expr', start: s, end: i + 1, token: undefined });
         return i + 1;
       }
     }
@@ -383,7 +403,7 @@ function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[]): number {
     { start: s, end: e },
     'error',
   );
-  out.push({ type: 'expr', start: s, end: e });
+  out.push({ type: 'expr', start: s, end: e, token: undefined });
   return to;
 }
 
@@ -393,22 +413,26 @@ function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'wo
   i++;
   while (i < to && text.charCodeAt(i) !== quote) i++;
   if (i < to) {
-    out.push({ type, start: s, end: i + 1 });
+    out.push({ type, start: s, end: i + 1, token: undefined });
     return i + 1;
   }
   let e = to;
   while (e > s + 1 && isSpace(text.charCodeAt(e - 1))) e--;
   const q = String.fromCharCode(quote);
   addError(ctx, 'unterminated-quote', `This ${q} is not closed on its line; add the closing ${q}.`, { start: s, end: e }, 'error');
-  out.push({ type, start: s, end: e });
+  out.push({ type, start: s, end: e, token: undefined });
   return to;
 }
 
 // ---------------------------------------------------------------------------
 // Cards
 
+/** The token of a word or expression lexeme, made once so a card's fields and its `tokens` share objects. */
 function makeToken(text: string, lx: Lexeme): Token {
-  return { text: text.slice(lx.start, lx.end), span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+  if (!lx.token) {
+    lx.token = { text: text.slice(lx.start, lx.end), span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+  }
+  return lx.token;
 }
 
 /** Joins `name = value` into assignments and reports `=` without a name or value. */

@@ -111,11 +111,16 @@ function assertInvariants(doc: ParsedDocument): void {
     expect(s.end).toBeGreaterThanOrEqual(s.start);
     expect(s.end).toBeLessThanOrEqual(text.length);
   };
-  let prev = -1;
+  let prevEnd = 0;
   for (const card of doc.cards) {
     inRange(card.span);
-    expect(card.span.start).toBeGreaterThanOrEqual(prev);
-    prev = card.span.start;
+    // Cards are in order and do not overlap.
+    expect(card.span.start).toBeGreaterThanOrEqual(prevEnd);
+    prevEnd = card.span.end;
+    for (const c of card.comments ?? []) {
+      expect(c.span.start).toBeGreaterThan(card.span.start);
+      expect(c.span.end).toBeLessThan(card.span.end);
+    }
     for (const t of card.tokens) {
       inRange(t.span);
       expect(text.slice(t.span.start, t.span.end)).toBe(t.text);
@@ -163,6 +168,10 @@ describe('title line', () => {
     expect(doc.errors[0].severity).toBe('hint');
   });
 
+  it('gives a hint for an upper-case element name without a digit', () => {
+    check('VCC vcc 0 5\n^^^^^^^^^^^ title-looks-like-card', { options: { hasTitle: true } });
+  });
+
   it('gives a hint when the title reads like a dot card', () => {
     check('.model QN NPN (BF=120)\n^^^^^^^^^^^^^^^^^^^^^^ title-looks-like-card', { options: { hasTitle: true } });
   });
@@ -171,6 +180,8 @@ describe('title line', () => {
     // "Quick check ..." starts with Q and has enough words to fill a transistor card, but no field is numeric.
     check('Quick check of a Widlar source\nM1 d g 0 0 NM', { options: { hasTitle: true } });
     check('Mirror test 2\n', { options: { hasTitle: true } });
+    // Five fields with numbers would fill a transconductance card, but "Generated" is not an element name.
+    check('Generated bench netlist: 50,000 elements', { options: { hasTitle: true } });
   });
 
   it('reads an empty first line as an empty title', () => {
@@ -228,13 +239,26 @@ describe('continuation lines', () => {
     const doc = check('.model QN NPN\n* beta from the data sheet\n\n+ (BF=150\n  + IS=2e-16)\nR1 a 0 1k', {
       cards: [
         { kind: 'model', name: 'QN', type: 'NPN', params: ['BF=150', 'IS=2e-16'] },
-        { kind: 'comment', text: 'beta from the data sheet' },
         el({ letter: 'R', name: 'R1', nodes: ['a', '0'], value: '1k' }),
       ],
     });
     const model = doc.cards[0];
+    // The comment inside the card is kept with it, so cards never overlap.
+    expect(model.comments?.map((c) => c.text)).toEqual(['beta from the data sheet']);
     // The card span runs from `.model` through the end of its last continuation line.
     expect(doc.text.slice(model.span.start, model.span.end)).toBe('.model QN NPN\n* beta from the data sheet\n\n+ (BF=150\n  + IS=2e-16)');
+  });
+
+  it('keeps a comment after the last continuation line as a card of its own', () => {
+    const doc = check('R1 a 0 1k\n* between\n+ M=2\n* after\nR2 b 0 1k', {
+      cards: [
+        el({ letter: 'R', name: 'R1', nodes: ['a', '0'], value: '1k', params: ['M=2'] }),
+        { kind: 'comment', text: 'after' },
+        el({ letter: 'R', name: 'R2', nodes: ['b', '0'], value: '1k' }),
+      ],
+    });
+    expect(doc.cards[0].comments?.map((c) => c.text)).toEqual(['between']);
+    expect(doc.cards[2].comments).toBeUndefined();
   });
 
   it('makes a + line with no card before it an error card', () => {
