@@ -1,0 +1,323 @@
+// The mirror and reference-branch hand formulas against their published sources, mathjs node-equation solves, and the DC solver.
+
+import { lusolve } from 'mathjs';
+import { describe, expect, it } from 'vitest';
+import { resolveOptions } from '../../shared-analysis/src/analysis';
+import type { Circuit } from '../../shared-analysis/src/circuit';
+import { analyseStructures } from '../../shared-analysis/src/checks/structures';
+import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import { estimateStructure } from '../../shared-analysis/src/structures/estimate';
+import {
+  cascodeGain,
+  diodeMosVgs,
+  helperMirrorGain,
+  isAtTemperature,
+  lambdaFactor,
+  simpleMirrorGain,
+  thermalVolts,
+  vbeAt,
+  widlarOutput,
+  wilsonGain,
+} from '../../shared-analysis/src/structures/formulas';
+import { recogniseStructures } from '../../shared-analysis/src/structures/recognise';
+import type { Structure, StructureKind, Technology } from '../../shared-analysis/src/structures/types';
+import { CircuitBuilder } from '../unit/structures/build';
+import { fixture } from '../unit/structures/fixtures';
+
+/** Relative comparison helper: |got − want| ≤ tol·|want|. */
+function check(got: number, want: number, tol: number): void {
+  expect(Number.isFinite(got)).toBe(true);
+  expect(Math.abs(got - want)).toBeLessThanOrEqual(tol * Math.abs(want));
+}
+
+/** Solves a small linear system with mathjs (an independent general-purpose library) and returns a plain vector. */
+function solveLinear(a: number[][], b: number[]): number[] {
+  const x = lusolve(a, b.map((v) => [v])) as unknown as number[][];
+  return x.map((r) => r[0]);
+}
+
+/** Lambert W (principal branch) by Halley iteration, written here independently of the engine. */
+function lambertW(z: number): number {
+  let w = Math.log(1 + z);
+  for (let n = 0; n < 100; n++) {
+    const ew = Math.exp(w);
+    const f = w * ew - z;
+    const next = w - f / (ew * (w + 1) - ((w + 2) * f) / (2 * w + 2));
+    if (Math.abs(next - w) < 1e-15 * Math.max(1, Math.abs(w))) return next;
+    w = next;
+  }
+  return w;
+}
+
+describe('constants', () => {
+  it('VT at 300.15 K and 300 K', () => {
+    // Source: BIPM SI Brochure, 9th ed. (k, q exact); REFERENCES.md: VT(300.15 K) ≈ 25.865 mV, VT(300 K) ≈ 25.852 mV.
+    check(thermalVolts(27), 25.865e-3, 2e-4);
+    check(thermalVolts(300 - 273.15), 25.852e-3, 2e-4);
+  });
+});
+
+describe('bipolar mirror ratios (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4)', () => {
+  it('simple matched mirror, β = 100: IOUT/IREF = 1/1.02', () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β) (common practice).
+    check(simpleMirrorGain(100, 1, 1), 1 / 1.02, 1e-14);
+  });
+
+  it('ratioed output m = 4: m/(1 + (1 + m)/β)', () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = m·IREF/(1 + (1 + m)/β).
+    check(simpleMirrorGain(100, 4, 4), 4 / (1 + 5 / 100), 1e-14);
+  });
+
+  it('N = 3 identical outputs: 1/(1 + (N + 1)/β)', () => {
+    // Source: Sedra & Smith, current-mirror chapter — IOUT = IREF/(1 + (N + 1)/β).
+    check(simpleMirrorGain(100, 1, 3), 1 / (1 + 4 / 100), 1e-14);
+  });
+
+  it('mixed ratios agree with node equations solved by mathjs', () => {
+    // Source: Kirchhoff's current law at the reference node, IC_k = m_k·IC1 at equal VBE (Gray et al., ch. 4); solved by mathjs lusolve.
+    const beta = 80;
+    const m = [1, 2.5, 0.5];
+    // Unknowns: IC1, IC2, IC3, IC4. Rows: IREF = IC1(1 + 1/β) + Σ IC_k/β; IC_k − m_k·IC1 = 0.
+    const a = [
+      [1 + 1 / beta, 1 / beta, 1 / beta, 1 / beta],
+      [-m[0], 1, 0, 0],
+      [-m[1], 0, 1, 0],
+      [-m[2], 0, 0, 1],
+    ];
+    const x = solveLinear(a, [1, 0, 0, 0]);
+    const sum = m.reduce((p, q) => p + q, 0);
+    m.forEach((mk, k) => check(simpleMirrorGain(beta, mk, sum), x[k + 1], 1e-12));
+  });
+
+  it('base-current helper, β = 100: 1/(1 + 2/10100)', () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/(β(β + 1))).
+    check(helperMirrorGain(100, 1, 1), 1 / (1 + 2 / 10100), 1e-14);
+  });
+
+  it('helper with a ratioed output agrees with node equations (mathjs)', () => {
+    // Source: node currents of the helper mirror (Gray et al., ch. 4), solved by mathjs lusolve.
+    const beta = 50;
+    const m = 3;
+    // Unknowns: IC1, IC2, IE3. IREF = IC1 + IE3/(β + 1); IC2 = m·IC1; IE3 = (IC1 + IC2)/β.
+    const x = solveLinear(
+      [
+        [1, 0, 1 / (beta + 1)],
+        [-m, 1, 0],
+        [-1 / beta, -1 / beta, 1],
+      ],
+      [1, 0, 0],
+    );
+    check(helperMirrorGain(beta, m, m), x[1], 1e-12);
+  });
+
+  it('Wilson, β = 100: 1 − 2/10202', () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF·(1 − 2/(β² + 2β + 2)).
+    check(wilsonGain(100), 1 - 2 / 10202, 1e-14);
+    check(wilsonGain(30), 1 - 2 / (900 + 60 + 2), 1e-14);
+  });
+
+  it('ratioed Wilson agrees with node equations (mathjs)', () => {
+    // Source: node currents of the Wilson mirror (Gray et al., ch. 4), IC2 = m·IC1 at equal VBE; mathjs lusolve.
+    const beta = 60;
+    const m = 2;
+    // Unknowns: IC1, IC2, IC3, IE3. IREF = IC1 + IC3/β; IC2 = m·IC1; IE3 = IC2 + (IC1 + IC2)/β; IE3 = IC3(1 + 1/β).
+    const x = solveLinear(
+      [
+        [1, 0, 1 / beta, 0],
+        [-m, 1, 0, 0],
+        [-1 / beta, -(1 + 1 / beta), 0, 1],
+        [0, 0, -(1 + 1 / beta), 1],
+      ],
+      [1, 0, 0, 0],
+    );
+    check(wilsonGain(beta, m), x[2], 1e-12);
+  });
+
+  it('bipolar cascode agrees with node equations (mathjs) and with IREF·(1 − 4/β) to first order', () => {
+    // Source: node currents of the cascode mirror, solved by mathjs lusolve; first-order form 1 − 4/β: Gray et al., ch. 4 (from memory).
+    for (const beta of [100, 200, 500]) {
+      // Unknowns: IC1, IC2, IC3, IC4, IE3. IC2 = IC1; IE3 = IC1 + (IC1 + IC2)/β; IE3 = IC3(1 + 1/β);
+      // IREF = IC3(1 + 1/β) + IC4/β; IC2 = IC4(1 + 1/β).
+      const x = solveLinear(
+        [
+          [-1, 1, 0, 0, 0],
+          [-(1 + 1 / beta), -1 / beta, 0, 0, 1],
+          [0, 0, -(1 + 1 / beta), 0, 1],
+          [0, 0, 1 + 1 / beta, 1 / beta, 0],
+          [0, 1, 0, -(1 + 1 / beta), 0],
+        ],
+        [0, 0, 0, 1, 0],
+      );
+      check(cascodeGain(beta), x[3], 1e-12);
+      expect(Math.abs(cascodeGain(beta) - (1 - 4 / beta))).toBeLessThan(20 / (beta * beta));
+    }
+  });
+});
+
+describe('junction law and temperature', () => {
+  it('VBE rises by VT·ln 10 ≈ 60 mV per decade of collector current', () => {
+    // Source: Horowitz and Hill, The Art of Electronics, 3rd ed., ch. 2 (common practice): ≈ 60 mV/decade at room temperature.
+    const vt = thermalVolts(27);
+    const d = vbeAt(10e-3, 1e-16, vt) - vbeAt(1e-3, 1e-16, vt);
+    check(d, vt * Math.log(10), 1e-9);
+    expect(d).toBeGreaterThan(0.058);
+    expect(d).toBeLessThan(0.061);
+  });
+
+  it('VBE at 1 mA is 0.6–0.75 V and falls by about 2 mV/°C', () => {
+    // Source: Horowitz and Hill, 3rd ed., ch. 2 (common practice): VBE ≈ 0.6–0.7 V at 1 mA, about −2 mV/°C.
+    // IS = 1e-14 A is typical of a discrete small-signal device (from memory); the model default 1e-16 A is an IC-sized one.
+    const at = (c: number) => vbeAt(1e-3, isAtTemperature(1e-14, c, 27, 3, 1.11), thermalVolts(c));
+    expect(at(27)).toBeGreaterThan(0.6);
+    expect(at(27)).toBeLessThan(0.75);
+    const slope = (at(37) - at(17)) / 20;
+    expect(slope).toBeLessThan(-1.5e-3);
+    expect(slope).toBeGreaterThan(-2.5e-3);
+  });
+
+  it('IS(T) follows the XTI/EG law', () => {
+    // Source: Antognetti and Massobrio, Semiconductor Device Modeling with SPICE — IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)).
+    const t = 398.15;
+    const tn = 300.15;
+    const want = 1e-16 * Math.pow(t / tn, 3) * Math.exp((1.11 / 8.617333262e-5) * (1 / tn - 1 / t));
+    check(isAtTemperature(1e-16, 125, 27, 3, 1.11), want, 1e-8);
+  });
+});
+
+describe('Widlar source (Widlar, IEEE Trans. Circuit Theory, 1965)', () => {
+  it('IREF = 1 mA, R2 = 5 kΩ at 300 K: VT·ln(IREF/IOUT) = IOUT·R2, and the Lambert-W closed form', () => {
+    // Source: Widlar 1965 — VT·ln(IREF/IOUT) = IOUT·R2 (base currents neglected). Closed form IOUT = (VT/R2)·W(IREF·R2/VT).
+    const vt = thermalVolts(300 - 273.15);
+    const iout = widlarOutput({ iin: 1e-3, r2: 5e3, nVt: vt });
+    expect(Math.abs(vt * Math.log(1e-3 / iout) - iout * 5e3)).toBeLessThan(1e-12);
+    check(iout, (vt / 5e3) * lambertW((1e-3 * 5e3) / vt), 1e-10);
+    // Facts of the trade: a Widlar source divides a milliampere down to tens of microamperes with a few kΩ.
+    expect(iout).toBeGreaterThan(15e-6);
+    expect(iout).toBeLessThan(25e-6);
+  });
+
+  it('the area ratio m multiplies the argument of the logarithm', () => {
+    // Source: Widlar 1965 with IS2 = m·IS1: VT·ln(m·IREF/IOUT) = IOUT·R2.
+    const vt = thermalVolts(27);
+    const iout = widlarOutput({ iin: 100e-6, r2: 2e3, nVt: vt, m: 4 });
+    expect(Math.abs(vt * Math.log((4 * 100e-6) / iout) - iout * 2e3)).toBeLessThan(1e-12);
+  });
+});
+
+describe('MOS square law (Razavi, ch. 5; Shichman and Hodges, IEEE JSSC, 1968)', () => {
+  it('diode-connected VGS = VTH + sqrt(2·ID/β) when λ = 0, and satisfies the square law with λ', () => {
+    // Source: Shichman and Hodges 1968 — ID = (β/2)(VGS − VTH)²(1 + λ·VDS).
+    check(diodeMosVgs(100e-6, 2e-4, 0.5, 0), 0.5 + Math.sqrt(1), 1e-12);
+    const vgs = diodeMosVgs(100e-6, 2e-4, 0.5, 0.1);
+    check((2e-4 / 2) * (vgs - 0.5) ** 2 * (1 + 0.1 * vgs), 100e-6, 1e-10);
+  });
+
+  it('mirror ratio (W/L)2/(W/L)1 · (1 + λVDS2)/(1 + λVDS1)', () => {
+    // Source: Razavi, Design of Analog CMOS Integrated Circuits, ch. 5.
+    check(lambdaFactor(0.05, 3, 1), 1.15 / 1.05, 1e-14);
+    const b = new CircuitBuilder()
+      .v('VDD', 'vdd', '0', 3.3)
+      .model('nch', 'nmos', { KP: 1e-4, VTO: 0.5 })
+      .i('IB', 'vdd', 'g', 20e-6)
+      .mos('M1', 'g', 'g', '0', '0', 'nch', { w: 4e-6, l: 1e-6 })
+      .mos('M2', 'd', 'g', '0', '0', 'nch', { w: 12e-6, l: 1e-6 })
+      .r('RL', 'vdd', 'd', 10e3);
+    const s = recogniseStructures(b.build())[0];
+    const e = estimateStructure(b.build(), s, { temperatureC: 27 });
+    check(e.iout.M2, 3 * 20e-6, 1e-12);
+  });
+});
+
+/** Solve a circuit, analyse its structures, return the first. */
+function solved(circuit: Circuit): { s: Structure; converged: boolean } {
+  const r = new DcSolver(circuit).solve({});
+  const structures = recogniseStructures(circuit);
+  analyseStructures({ circuit, op: r.op, structures, options: resolveOptions() });
+  return { s: structures[0], converged: r.op.converged };
+}
+
+describe('estimate against the DC solver on the same circuit', () => {
+  const kinds: StructureKind[] = ['simple-mirror', 'widlar-source', 'helper-mirror', 'wilson-mirror', 'improved-wilson-mirror', 'cascode-mirror'];
+  const techs: Technology[] = ['npn', 'pnp', 'nmos', 'pmos'];
+  for (const tech of techs) {
+    for (const kind of kinds) {
+      it(`${kind} ${tech}, VAF infinite / λ = 0: estimate and solve agree to < 0.5 %`, () => {
+        // Source: the hand formulas above against the full DC solve of DESIGN.md's device equations (both Gummel–Poon / level 1 with the same parameters).
+        const { s, converged } = solved(fixture(kind, tech).circuit);
+        expect(converged).toBe(true);
+        check(s.estimate!.iref, s.solved!.iref, 0.005);
+        for (const o of s.outputs) check(s.estimate!.iout[o.device], s.solved!.iout[o.device], 0.005);
+        expect(s.discrepancy).toBeUndefined();
+      });
+      it(`${kind} ${tech} with VAF = 50 V / λ = 0.05 /V at 85 °C: agree to < 0.5 %`, () => {
+        // Source: Early correction 1 + (VCE2 − VBE)/VA (Gray et al., ch. 4) and (1 + λVDS2)/(1 + λVDS1) (Razavi, ch. 5) against the solve.
+        const bip = tech === 'npn' || tech === 'pnp';
+        const { s } = solved(fixture(kind, tech, { model: bip ? { VAF: 50 } : { LAMBDA: 0.05 }, temperatureC: 85 }).circuit);
+        check(s.estimate!.iref, s.solved!.iref, 0.005);
+        for (const o of s.outputs) check(s.estimate!.iout[o.device], s.solved!.iout[o.device], 0.005);
+      });
+    }
+  }
+
+  it('the self-consistent VBE satisfies both the junction law and the reference branch', () => {
+    // Source: IREF = (V+ − V− − VBE)/R and VBE = NF·VT·ln(IC/IS + 1) with IC1 = IREF/(1 + 2/β) (Gray et al., ch. 4).
+    const { circuit } = fixture('simple-mirror', 'npn');
+    const s = recogniseStructures(circuit)[0];
+    const e = estimateStructure(circuit, s, { temperatureC: 27 });
+    const vt = thermalVolts(27);
+    check(e.vControl, vt * Math.log(e.iref / 1.02 / 1e-16 + 1), 1e-9);
+    check(e.iref, (5 - e.vControl) / 4.3e3, 1e-9);
+    // Source: 0.7 V shortcut (common practice): (5 V − 0.7 V)/4.3 kΩ = 1 mA.
+    check(e.irefShortcut!, 1e-3, 1e-12);
+  });
+
+  it('output resistance of the simple mirror: VA/IC against a finite difference of the solve', () => {
+    // Source: ro = VA/IC (Gray et al., ch. 1/4), checked against ΔV/ΔI of the solver with the output forced by a source.
+    const rout = (vout: number) => {
+      const b = new CircuitBuilder()
+        .v('VCC', 'vcc', '0', 5)
+        .v('VO', 'out', '0', vout)
+        .model('qn', 'npn', { VAF: 60 })
+        .r('R1', 'vcc', 'a', 4.3e3)
+        .q('Q1', 'a', 'a', '0', 'qn')
+        .q('Q2', 'out', 'a', '0', 'qn');
+      const c = b.build();
+      const r = new DcSolver(c).solve({});
+      const rec = r.op.devices.Q2;
+      return { ic: rec.type === 'bjt' ? rec.ic : 0, c, op: r.op };
+    };
+    const lo = rout(2.9);
+    const hi = rout(3.1);
+    const fd = 0.2 / (hi.ic - lo.ic);
+    const mid = rout(3);
+    const structures = recogniseStructures(mid.c);
+    analyseStructures({ circuit: mid.c, op: mid.op, structures, options: resolveOptions() });
+    const ro = structures[0].outputResistance.Q2;
+    check(ro, 60 / mid.ic, 1e-9);
+    // VA/IC leaves out the (VCE − VBE)/VA term of the device law, a few percent here.
+    check(ro, fd, 0.06);
+  });
+
+  it('Widlar output resistance ro·(1 + gm·(R2∥rπ)) + R2∥rπ against a finite difference of the solve', () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 3/4 — degenerated output resistance (from memory), against the solver.
+    const point = (vout: number) => {
+      const b = new CircuitBuilder()
+        .v('VCC', 'vcc', '0', 5)
+        .v('VO', 'out', '0', vout)
+        .model('qn', 'npn', { VAF: 60 })
+        .r('R1', 'vcc', 'a', 4.3e3)
+        .q('Q1', 'a', 'a', '0', 'qn')
+        .q('Q2', 'out', 'a', 'e', 'qn')
+        .r('R2', 'e', '0', 5e3);
+      const c = b.build();
+      const r = new DcSolver(c).solve({});
+      const rec = r.op.devices.Q2;
+      return { ic: rec.type === 'bjt' ? rec.ic : 0, c, op: r.op };
+    };
+    const fd = 0.2 / (point(3.1).ic - point(2.9).ic);
+    const mid = point(3);
+    const structures = recogniseStructures(mid.c);
+    analyseStructures({ circuit: mid.c, op: mid.op, structures, options: resolveOptions() });
+    check(structures[0].outputResistance.Q2, fd, 0.1);
+  });
+});
