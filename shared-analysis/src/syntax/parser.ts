@@ -139,7 +139,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
     if (end < n) next = text.charCodeAt(end) === 13 && text.charCodeAt(end + 1) === 10 ? end + 2 : end + 1;
     else next = n + 1;
 
-    if (lineNo === 0 && options.hasTitle) {
+    if (lineNo === 0 && options?.hasTitle === true) {
       cards.push(titleCard(ctx, pos, end));
     } else {
       const first = skipSpace(text, pos, end);
@@ -213,8 +213,14 @@ function isEndCommand(text: string, first: number, end: number): boolean {
   if (first + 4 > end) return false;
   if (text.slice(first, first + 4).toLowerCase() !== '.end') return false;
   if (first + 4 === end) return true;
+  // Whatever ends a word in the lexer ends the command, so `.end` reads the same here and in parseDotCard.
   const c = text.charCodeAt(first + 4);
-  return isSpace(c) || c === 59 || c === 44 || (c === 36 && isCommentDollar(text, first + 4, end));
+  return isSpace(c) || isWordBreak(c) || (c === 36 && isCommentDollar(text, first + 4, end));
+}
+
+/** Characters that end a bare word: `,` `=` `(` `)` `{` `}` `;`. */
+function isWordBreak(c: number): boolean {
+  return c === 44 || c === 61 || c === 40 || c === 41 || c === 123 || c === 125 || c === 59;
 }
 
 function addError(ctx: Context, code: string, message: string, span: Span, severity: ErrorSeverity): void {
@@ -359,7 +365,7 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
     const s = i;
     while (i < to) {
       const d = text.charCodeAt(i);
-      if (isSpace(d) || d === 44 || d === 61 || d === 40 || d === 41 || d === 123 || d === 125 || d === 59) break;
+      if (isSpace(d) || isWordBreak(d)) break;
       if (d === 36 && isCommentDollar(text, i, to)) break;
       i++;
     }

@@ -1,6 +1,7 @@
 // Unit tests of LineIndex: line breaks, the three LSP position encodings, clamping and round trips.
 
 import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
 import { LineIndex } from '../../../shared-analysis/src/syntax/line-index';
 import type { PositionEncoding } from '../../../shared-analysis/src/syntax/line-index';
 
@@ -154,5 +155,30 @@ describe('clamping', () => {
     expect(index.offsetAt({ line: Number.POSITIVE_INFINITY, character: 0 })).toBe(text.length);
     expect(index.lineStart(99)).toBe(10);
     expect(index.lineStart(-2)).toBe(0);
+  });
+});
+
+describe('round trips on generated text', () => {
+  // Text built from line breaks of every kind, astral characters, lone surrogates and ASCII.
+  const pieces = ['a', 'Q1 ', '\n', '\r\n', '\r', '𝛃', 'β', '≈', '\ud800', '\udc00', '🙂', ' '];
+  const text = fc.array(fc.constantFrom(...pieces), { maxLength: 60 }).map((p) => p.join(''));
+
+  it('maps every offset outside a surrogate pair and line break to a position and back', () => {
+    fc.assert(
+      fc.property(text, fc.constantFrom<PositionEncoding>('utf-16', 'utf-8', 'utf-32'), (t, enc) => {
+        const index = new LineIndex(t);
+        // Source: the line count is one more than the number of breaks, counting CRLF once (LSP 3.17, "Text Documents").
+        expect(index.lineCount).toBe(t.split(/\r\n|\r|\n/).length);
+        for (let o = 0; o <= t.length; o++) {
+          const pos = index.positionAt(o, enc);
+          const end = index.lineEnd(pos.line);
+          const insidePair = o > 0 && /[\ud800-\udbff]/.test(t[o - 1]) && /[\udc00-\udfff]/.test(t[o] ?? '');
+          if (o > end || insidePair) continue;
+          expect(pos.character).toBe(lengthIn(t.slice(index.lineStart(pos.line), o), enc));
+          expect(index.offsetAt(pos, enc)).toBe(o);
+        }
+      }),
+      { seed: 424242, numRuns: 300 },
+    );
   });
 });
