@@ -3,6 +3,7 @@
 import type { Circuit, Element } from '../circuit';
 import type { Finding, RelatedLocation, Span } from '../types';
 import { formatEngineering } from '../fixes/format';
+import { netlistSeverity } from './netlist';
 
 /** Related locations listed per finding at most, so a huge floating block does not make a huge finding. */
 const MAX_RELATED = 12;
@@ -120,7 +121,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
   if (!hasGround) {
     findings.push({
       code: 'no-ground-node',
-      severity: 'error',
+      severity: netlistSeverity('no-ground-node'),
       message: 'Nothing connects to ground (node 0 or gnd), so no node voltage is defined; connect the circuit\'s reference node to 0.',
       ...cardOf(0),
       data: { elementCount: elements.length, nodeCount: nodeCount - 1 },
@@ -178,7 +179,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
           const net = cut.netKnown ? ` (their net current into the group is ${formatEngineering(cut.net, { unit: 'A' })})` : '';
           findings.push({
             code: 'current-source-cutset',
-            severity: 'error',
+            severity: netlistSeverity('current-source-cutset'),
             message:
               `${subject} ${plural ? 'are' : 'is'} joined to the rest of the circuit only through the current source${cut.sources.length > 1 ? 's' : ''} ${nameElements(cut.sources)}${net}; ` +
               `at DC their currents would have to balance exactly, so the ${plural ? 'node voltages are' : 'node voltage is'} undefined. Add a DC path (for example a resistor) from the group to the rest of the circuit.`,
@@ -193,7 +194,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
           const single = group.length === 1 && count[group[0]!] === 1 ? ' It connects to only one terminal.' : '';
           findings.push({
             code: 'node-no-dc-path',
-            severity: 'error',
+            severity: netlistSeverity('node-no-dc-path'),
             message:
               `${subject} ${plural ? 'have' : 'has'} no DC path to ground: capacitors are open at DC, and MOSFET gates and controlled-source inputs draw no current, so the ${plural ? 'voltages are' : 'voltage is'} undefined.${single}`,
             ...at,
@@ -212,7 +213,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
     const e = elements[t.element]!;
     findings.push({
       code: 'node-single-connection',
-      severity: 'warning',
+      severity: netlistSeverity('node-single-connection'),
       message: `Node \`${nodes[k]}\` connects only to \`${e.name}\`; a node with one terminal is usually a typo in a node name or a missing connection.`,
       ...terminalAt(t),
       data: { node: nodes[k], element: e.name },
@@ -237,7 +238,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
     const hasInductor = described.includes('L');
     findings.push({
       code: 'voltage-source-loop',
-      severity: 'error',
+      severity: netlistSeverity('voltage-source-loop'),
       message:
         a === b
           ? `\`${e.name}\` has both ends on node \`${nodes[a]}\`, which shorts it; its current is undefined.`

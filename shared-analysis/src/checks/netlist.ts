@@ -1,0 +1,71 @@
+// The finding codes of elaboration and topology checks, with their default severities and one-line summaries.
+
+import type { Severity } from '../types';
+
+/**
+ * Every code the elaborator (`elaborate/`) and the topology checks (`checks/connectivity.ts`)
+ * emit, with its default severity and a one-line description. The README table is generated
+ * from this record, and the emitting code reads its severities from here.
+ */
+export const NETLIST_CODES: Record<string, { severity: Severity; summary: string }> = {
+  // Files.
+  'include-not-found': { severity: 'error', summary: 'An .include or .lib names a file that cannot be read.' },
+  'include-cycle': { severity: 'error', summary: 'Files include each other in a cycle; the chain is named and the repeated file is not read again.' },
+  'include-repeated': { severity: 'info', summary: 'A file (or library section) already read is included again; it is not read a second time.' },
+  'include-too-deep': { severity: 'error', summary: 'Includes nest deeper than the limit; the deeper files are not read.' },
+  'library-section-not-found': { severity: 'error', summary: 'A .lib card names a section the library file does not have; the sections it has are listed.' },
+  'card-ignored': { severity: 'info', summary: 'A dot card a DC bias analysis does not use (for example .tran); it is ignored.' },
+
+  // Parameters.
+  'param-invalid': { severity: 'error', summary: 'A .param or subcircuit parameter whose expression cannot be evaluated.' },
+  'param-cycle': { severity: 'error', summary: 'Parameters refer to each other in a cycle; the chain is named.' },
+  'param-chain-too-long': { severity: 'error', summary: 'Parameters refer to parameters more levels deep than the limit.' },
+  'param-duplicate': { severity: 'warning', summary: 'A parameter is defined twice in one scope; the later definition is used.' },
+  'temperature-invalid': { severity: 'error', summary: 'A .temp or .option tnom value that is not a temperature above absolute zero.' },
+
+  // Models.
+  'model-unknown-type': { severity: 'error', summary: 'A .model type other than NPN, PNP, D, NMOS, PMOS or R.' },
+  'model-unknown-parameter': { severity: 'warning', summary: 'A model parameter the device equations do not know; the parameters they use are listed.' },
+  'model-parameter-ignored': { severity: 'info', summary: 'Model parameters of the full device model that the DC bias equations here do not use.' },
+  'model-parameter-invalid': { severity: 'error', summary: 'A model parameter outside its physical range (IS, BF, KP, NF ≤ 0; negative VAF) or unreadable; the default is used.' },
+  'model-duplicate': { severity: 'error', summary: 'Two .model cards with the same name in one scope; the first is used.' },
+  'model-level-unsupported': { severity: 'warning', summary: 'A MOSFET model LEVEL other than 1; it is solved with the level-1 square law.' },
+  'model-not-found': { severity: 'error', summary: 'An element names a model that no .model card defines.' },
+  'model-wrong-kind': { severity: 'error', summary: 'An element names a model of another device type (a Q naming an NMOS model).' },
+
+  // Elements.
+  'element-duplicate-name': { severity: 'error', summary: 'Two elements with the same name (case-insensitive) in one scope; the second is left out.' },
+  'element-node-count': { severity: 'error', summary: 'An element with the wrong number of nodes for its kind.' },
+  'node-name-invalid': { severity: 'error', summary: 'A node written as an expression, which cannot name a node.' },
+  'element-value-missing': { severity: 'error', summary: 'An element without the value it needs.' },
+  'element-value-invalid': { severity: 'error', summary: 'An element value that is not a readable number or whose expression fails.' },
+  'element-unknown-parameter': { severity: 'warning', summary: 'An instance parameter the element does not use; it is ignored.' },
+  'resistor-zero-value': { severity: 'error', summary: 'A 0 Ω resistor; it is kept and solved as a short.' },
+  'resistor-negative-value': { severity: 'warning', summary: 'A negative resistance; it is kept as written.' },
+  'device-area-invalid': { severity: 'error', summary: 'A device area or parallel count M that is zero or negative; 1 is used so the analysis continues.' },
+  'value-out-of-range': { severity: 'warning', summary: 'A value beyond 1e15 in magnitude, or a MOSFET W or L outside 1 nm to 1 m (usually a missing suffix).' },
+  'mosfet-geometry-missing': { severity: 'info', summary: 'A MOSFET without W or L; the documented default of 10 µm is used.' },
+  'controlled-source-control-missing': { severity: 'error', summary: 'An F or H source names a controlling voltage source that does not exist.' },
+
+  // Subcircuits.
+  'subckt-not-found': { severity: 'error', summary: 'An X instance names a subcircuit that is not defined.' },
+  'subckt-port-count': { severity: 'error', summary: 'An X instance connects a different number of nodes than the subcircuit has ports.' },
+  'subckt-unknown-parameter': { severity: 'error', summary: 'An instance override of a parameter the subcircuit does not declare; it is ignored.' },
+  'subckt-recursive': { severity: 'error', summary: 'A chain of instances that re-enters a subcircuit it is inside; the chain is named.' },
+  'subckt-duplicate': { severity: 'error', summary: 'Two subcircuit definitions with the same name in one scope; the first is used.' },
+  'circuit-too-large': { severity: 'error', summary: 'Flattening would make more elements than the limit; the rest are left out.' },
+
+  'elaboration-internal-error': { severity: 'error', summary: 'Elaboration stopped on an internal defect; the netlist should be reported.' },
+
+  // Topology (checks/connectivity.ts).
+  'no-ground-node': { severity: 'error', summary: 'Nothing connects to ground (node 0 or gnd).' },
+  'node-single-connection': { severity: 'warning', summary: 'A node with only one terminal attached (often a misspelt node name).' },
+  'node-no-dc-path': { severity: 'error', summary: 'A group of nodes with no DC path to ground (only capacitors, gates or sensing inputs reach them).' },
+  'voltage-source-loop': { severity: 'error', summary: 'A loop made only of voltage sources, inductors and voltage-output controlled sources.' },
+  'current-source-cutset': { severity: 'error', summary: 'A group of nodes joined to the rest only through current sources, whose currents cannot balance exactly.' },
+};
+
+/** The default severity of a netlist code (codes not in the table are errors, so a typo is loud). */
+export function netlistSeverity(code: string): Severity {
+  return NETLIST_CODES[code]?.severity ?? 'error';
+}

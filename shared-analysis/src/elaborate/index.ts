@@ -1,0 +1,785 @@
+// Elaboration: from parsed documents to a flat circuit with parameters evaluated, models filled in and subcircuits flattened.
+
+import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
+import type { Cccs, Ccvs, Circuit, Element, Model, Origin } from '../circuit';
+import type { Assignment, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
+import type { Finding, Span, Workspace } from '../types';
+import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
+import { KINDS_FOR_LETTER, elaborateModel } from './models';
+import { Sink } from './sink';
+import { readSources, type Body, type Located, type SubcktDef } from './sources';
+import { expressionOf, tokenValue, type ValueResult } from './values';
+
+/** Per-call elaboration settings. */
+export interface ElaborateOptions {
+  /** Analysis temperature in °C; overrides the netlist's `.temp`. */
+  temperatureC?: number;
+  /** Most elements flattening may produce before it stops with `circuit-too-large` (default 500 000). */
+  maxElements?: number;
+}
+
+/** What elaboration returns: the flat circuit, every document read, the symbols and the findings. */
+export interface ElaborationResult {
+  circuit: Circuit;
+  documents: Record<string, ParsedDocument>;
+  symbols: SymbolTable;
+  findings: Finding[];
+}
+
+/** MOSFET width and length used when a card gives none, metres. W/L = 1, so β = KP. */
+export const DEFAULT_MOS_SIZE = 10e-6;
+/** Nominal and analysis temperature when the netlist sets none, °C (DESIGN.md). */
+export const DEFAULT_TEMPERATURE_C = 27;
+const DEFAULT_MAX_ELEMENTS = 500_000;
+const ABSOLUTE_ZERO_C = -273.15;
+
+/** Element parameters each letter reads; others get `element-unknown-parameter`. Geometry of junction areas is accepted silently. */
+const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
+  R: { used: ['M'], silent: [] },
+  C: { used: ['M'], silent: ['IC'] },
+  L: { used: ['M'], silent: ['IC'] },
+  V: { used: [], silent: ['*'] },
+  I: { used: [], silent: ['*'] },
+  E: { used: [], silent: [] },
+  G: { used: [], silent: [] },
+  F: { used: [], silent: [] },
+  H: { used: [], silent: [] },
+  D: { used: ['AREA', 'M'], silent: [] },
+  Q: { used: ['AREA', 'M'], silent: [] },
+  M: { used: ['W', 'L', 'M'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
+};
+
+/** One subcircuit instance (or the top level) being flattened. */
+interface Instance {
+  /** Prefix of hierarchical names, as written: `X1.X2.` (empty at top level). */
+  prefix: string;
+  body: Body;
+  scope: ParamScope;
+  /** Lower-case port name -> node index. */
+  ports: Map<string, number>;
+  /** Definitions entered, outermost first. */
+  chain: SubcktDef[];
+  instances: Origin['instances'];
+  /** Model maps to search, innermost first; `null` marks a model whose card is unusable. */
+  modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string }>[];
+  /** Lower-case element name -> card, for duplicates within this scope. */
+  names: Map<string, Located<ElementCard>>;
+}
+
+/**
+ * Elaborates a parsed top-level netlist: reads includes and library sections through `workspace`,
+ * evaluates parameters, fills models with defaults, flattens subcircuits with hierarchical names
+ * (`X1.Q2`, nodes `X1.out`; ground `0`/`gnd` is never prefixed) and reports every problem as a
+ * located finding. Never throws.
+ */
+export function elaborate(root: ParsedDocument, workspace: Workspace, options: ElaborateOptions = {}): ElaborationResult {
+  const sink = new Sink();
+  try {
+    return new Elaborator(root, workspace, options, sink).run();
+  } catch (e) {
+    // A last line of defence: a defect must not take the editor down. The fuzz tests make sure this stays unused.
+    sink.add('elaboration-internal-error', `Elaboration stopped because of an internal error (${e instanceof Error ? e.message : String(e)}); please report this netlist.`, root.uri, { start: 0, end: 0 });
+    return {
+      circuit: { title: titleOf(root), nodes: ['0'], elements: [], models: {}, temperatureC: DEFAULT_TEMPERATURE_C, tnomC: DEFAULT_TEMPERATURE_C, params: {} },
+      documents: { [root.uri]: root },
+      symbols: { params: [], models: [], subckts: [], includes: [] },
+      findings: sink.findings,
+    };
+  }
+}
+
+class Elaborator {
+  private readonly context: EvaluationContext;
+  private readonly nodes: string[] = ['0'];
+  private readonly nodeIndex = new Map<string, number>([['0', 0]]);
+  private readonly elements: Element[] = [];
+  private readonly elementByName = new Map<string, Element>();
+  private readonly models: Record<string, Model> = {};
+  private readonly controls: { element: Cccs | Ccvs; token: Token; uri: string; full: string }[] = [];
+  private readonly modelSymbols = new Map<string, ModelSymbol>();
+  private readonly maxElements: number;
+  private tooLarge = false;
+
+  constructor(
+    private readonly root: ParsedDocument,
+    private readonly workspace: Workspace,
+    private readonly options: ElaborateOptions,
+    private readonly sink: Sink,
+  ) {
+    this.context = new EvaluationContext((r) => this.report(r));
+    this.maxElements = options.maxElements ?? DEFAULT_MAX_ELEMENTS;
+  }
+
+  run(): ElaborationResult {
+    const read = readSources(this.root, this.workspace, this.sink);
+    const top = new ParamScope(this.context, { label: 'top level' });
+    const allBodies = [read.top, ...read.allDefs.map((d) => d.body)];
+    for (const body of allBodies) {
+      for (const { card, uri } of body.items) {
+        if (card.kind === 'model') {
+          this.modelSymbols.set(`${uri}#${card.span.start}`, { name: card.name.text, uri, span: card.span, nameSpan: card.name.span, kind: card.type.text.toLowerCase() });
+        }
+      }
+    }
+
+    const topInstance: Instance = {
+      prefix: '',
+      body: read.top,
+      scope: top,
+      ports: new Map(),
+      chain: [],
+      instances: [],
+      modelScopes: [new Map()],
+      names: new Map(),
+    };
+    this.flattenBody(topInstance);
+    this.resolveControls();
+    top.entries(); // evaluates (and reports) parameters nothing refers to
+
+    const { temperatureC, tnomC } = this.temperatures(allBodies, top);
+    const params: Record<string, number> = {};
+    for (const e of top.entries()) if (e.result.ok) params[e.name] = e.result.value;
+
+    const circuit: Circuit = {
+      title: titleOf(this.root),
+      nodes: this.nodes,
+      elements: this.elements,
+      models: this.models,
+      temperatureC,
+      tnomC,
+      params,
+    };
+    const symbols: SymbolTable = {
+      params: this.paramSymbols(read.top, top, read.allDefs),
+      models: [...this.modelSymbols.values()],
+      subckts: this.subcktSymbols(read.allDefs, top),
+      includes: read.includes as IncludeSymbol[],
+    };
+    return { circuit, documents: read.documents, symbols, findings: this.sink.findings };
+  }
+
+  // -------------------------------------------------------------------------
+  // Scopes and bodies
+
+  private report(r: ScopeReport): void {
+    this.sink.add(r.code, r.message, r.uri, r.span, r.related);
+  }
+
+  private flattenBody(inst: Instance): void {
+    const { body, scope } = inst;
+    for (const { card, uri } of body.items) {
+      if (card.kind !== 'param') continue;
+      for (const a of card.params) this.defineParam(scope, paramDefinition(a, uri));
+    }
+    const local = inst.modelScopes[0]!;
+    for (const { card, uri } of body.items) {
+      if (card.kind !== 'model') continue;
+      const key = card.name.text.toLowerCase();
+      const prev = local.get(key);
+      if (prev) {
+        this.sink.add('model-duplicate', `Model \`${card.name.text}\` is already defined in this scope; the first definition is used.`, uri, card.name.span, [
+          { uri: prev.uri, span: prev.card.name.span, message: `\`${prev.card.name.text}\` is first defined here.` },
+        ]);
+        continue;
+      }
+      const model = elaborateModel(card, { uri, scope, sink: this.sink, instances: inst.instances });
+      local.set(key, { model: model ?? null, card, uri });
+      if (model) {
+        const circuitKey = inst.prefix.toLowerCase() + key;
+        this.models[circuitKey] = model;
+        const sym = this.modelSymbols.get(`${uri}#${card.span.start}`);
+        if (sym && sym.key === undefined) sym.key = circuitKey;
+      }
+    }
+    for (const item of body.items) {
+      if (this.tooLarge) return;
+      if (item.card.kind === 'element') this.addElement(item as Located<ElementCard>, inst);
+    }
+    scope.entries();
+  }
+
+  private defineParam(scope: ParamScope, def: ParamDefinition): void {
+    const prev = scope.define(def);
+    if (prev) {
+      this.sink.add('param-duplicate', `Parameter \`${def.name}\` is already defined in this scope; this later definition is used.`, def.uri, def.nameSpan, [
+        { uri: prev.uri, span: prev.nameSpan, message: `\`${prev.name}\` is first defined here.` },
+      ]);
+    }
+  }
+
+  // -------------------------------------------------------------------------
+  // Nodes and values
+
+  private node(tok: Token, inst: Instance, uri: string): number | undefined {
+    if (tok.kind === 'expr') {
+      this.sink.add('node-name-invalid', `\`${tok.text}\` is an expression; a node is named by a plain word.`, uri, tok.span);
+      return undefined;
+    }
+    const lower = tok.text.toLowerCase();
+    if (lower === '0' || lower === 'gnd') return 0;
+    const port = inst.ports.get(lower);
+    if (port !== undefined) return port;
+    const full = inst.prefix + tok.text;
+    const key = full.toLowerCase();
+    let k = this.nodeIndex.get(key);
+    if (k === undefined) {
+      k = this.nodes.length;
+      this.nodes.push(full);
+      this.nodeIndex.set(key, k);
+    }
+    return k;
+  }
+
+  /** Reads a value; reports `element-value-invalid` and returns undefined when it fails. */
+  private value(tok: Token, inst: Instance, uri: string, what: string): number | undefined {
+    const v = tokenValue(tok, inst.scope, uri);
+    if (v.ok) {
+      if (Math.abs(v.value) > 1e15) {
+        this.sink.add('value-out-of-range', `${capitalise(what)} is ${v.value}, beyond 1e15 in magnitude; check the suffix (M is milli, MEG is mega).`, uri, tok.span, undefined, { value: v.value });
+      }
+      return v.value;
+    }
+    this.reportValue(v, tok, uri, what);
+    return undefined;
+  }
+
+  private reportValue(v: Extract<ValueResult, { ok: false }>, tok: Token, uri: string, what: string): void {
+    this.sink.add('element-value-invalid', `${capitalise(what)} cannot be read: ${lowerFirst(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
+  }
+
+  // -------------------------------------------------------------------------
+  // Elements
+
+  private addElement(item: Located<ElementCard>, inst: Instance): void {
+    const { card, uri } = item;
+    if (card.letter === 'X') {
+      this.instantiate(item, inst);
+      return;
+    }
+    const lowerName = card.name.text.toLowerCase();
+    const first = inst.names.get(lowerName);
+    if (first) {
+      this.sink.add('element-duplicate-name', `An element named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
+        { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
+      ]);
+      return;
+    }
+    inst.names.set(lowerName, item);
+    if (this.elements.length >= this.maxElements) {
+      this.reportTooLarge(uri, card.span);
+      return;
+    }
+
+    const expected = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 }[card.letter];
+    const allowedMax = card.letter === 'Q' ? 4 : expected;
+    if (card.nodes.length < expected || card.nodes.length > allowedMax) {
+      this.sink.add(
+        'element-node-count',
+        `\`${card.name.text}\` has ${card.nodes.length} node${card.nodes.length === 1 ? '' : 's'}; ${describeLetter(card.letter)} needs ${card.letter === 'Q' ? '3 or 4' : expected}.`,
+        uri,
+        card.name.span,
+      );
+      return;
+    }
+    const nodes: number[] = [];
+    for (const t of card.nodes) {
+      const k = this.node(t, inst, uri);
+      if (k === undefined) return;
+      nodes.push(k);
+    }
+    const params = this.elementParams(card, uri);
+    const name = inst.prefix + card.name.text;
+    const origin: Origin = {
+      uri,
+      span: card.span,
+      nodeSpans: card.nodes.map((t) => t.span),
+      instances: inst.instances,
+    };
+    const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
+    if (valueToken) origin.valueSpan = valueToken.span;
+    if (card.model) origin.modelSpan = card.model.span;
+    const base = { name, nodes, origin };
+    const multiplier = (): number => this.positive(params.get('M'), inst, uri, card, 'parallel count M');
+
+    let element: Element | undefined;
+    switch (card.letter) {
+      case 'R': {
+        if (card.model) this.findModel(card, inst, uri);
+        if (!card.value) {
+          this.sink.add('element-value-missing', `Resistor \`${card.name.text}\` has no resistance value; it is left out of the analysis.`, uri, card.name.span);
+          return;
+        }
+        const v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``);
+        if (v === undefined) return;
+        const m = multiplier();
+        if (v === 0) {
+          this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω; it is kept and solved as a short circuit. Use a wire (the same node name) if a short is meant.`, uri, card.value.span);
+        } else if (v < 0) {
+          this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${v} Ω; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
+        }
+        element = { ...base, kind: 'R', resistance: v / m };
+        break;
+      }
+      case 'C':
+      case 'L': {
+        const noun = card.letter === 'C' ? 'Capacitor' : 'Inductor';
+        if (!card.value) {
+          this.sink.add('element-value-missing', `${noun} \`${card.name.text}\` has no value; it is kept, since at DC a ${card.letter === 'C' ? 'capacitor is open' : 'inductor is a short'} whatever its value.`, uri, card.name.span);
+        }
+        const v = card.value ? this.value(card.value, inst, uri, `the value of \`${card.name.text}\``) : undefined;
+        element = card.letter === 'C' ? { ...base, kind: 'C', capacitance: v ?? 0 } : { ...base, kind: 'L', inductance: v ?? 0 };
+        break;
+      }
+      case 'V':
+      case 'I': {
+        const unit = card.letter === 'V' ? 'V' : 'A';
+        const tok = card.source?.value;
+        let dc = 0;
+        if (!tok) {
+          this.sink.add('element-value-missing', `Source \`${card.name.text}\` has no DC value; it is taken as 0 ${unit}.`, uri, card.name.span);
+        } else {
+          const v = this.value(tok, inst, uri, `the DC value of \`${card.name.text}\``);
+          if (v !== undefined) dc = v;
+        }
+        element = card.letter === 'V' ? { ...base, kind: 'V', dc } : { ...base, kind: 'I', dc };
+        break;
+      }
+      case 'E':
+      case 'G':
+      case 'F':
+      case 'H': {
+        if (!card.value) {
+          this.sink.add('element-value-missing', `Controlled source \`${card.name.text}\` has no gain; it is left out of the analysis.`, uri, card.name.span);
+          return;
+        }
+        const gain = this.value(card.value, inst, uri, `the gain of \`${card.name.text}\``);
+        if (gain === undefined) return;
+        if (card.letter === 'E' || card.letter === 'G') {
+          element = { ...base, kind: card.letter, gain };
+        } else {
+          if (!card.control) return;
+          const el: Cccs | Ccvs = { ...base, kind: card.letter, control: inst.prefix + card.control.text, gain };
+          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text });
+          element = el;
+        }
+        break;
+      }
+      case 'D':
+      case 'Q': {
+        const model = this.findModel(card, inst, uri);
+        if (!model) return;
+        const areaTok = card.area ?? params.get('AREA')?.value;
+        const area = areaTok ? this.positiveToken(areaTok, inst, uri, card, 'area factor') : 1;
+        const m = multiplier();
+        element = card.letter === 'D' ? { ...base, kind: 'D', model, area, m } : { ...base, kind: 'Q', model, area, m };
+        break;
+      }
+      case 'M': {
+        const model = this.findModel(card, inst, uri);
+        if (!model) return;
+        const w = this.geometry(params.get('W'), inst, uri, card, 'W');
+        const l = this.geometry(params.get('L'), inst, uri, card, 'L');
+        const missing = [params.has('W') ? '' : 'W', params.has('L') ? '' : 'L'].filter(Boolean);
+        if (missing.length > 0) {
+          this.sink.add(
+            'mosfet-geometry-missing',
+            `MOSFET \`${card.name.text}\` gives no ${missing.join(' or ')}; ${missing.join(' and ')} = 10 µm is used (W/L = ${formatRatio(w / l)}), so its currents follow KP·W/L with that ratio.`,
+            uri,
+            card.name.span,
+            undefined,
+            { missing, defaultMetres: DEFAULT_MOS_SIZE },
+          );
+        }
+        element = { ...base, kind: 'M', model, w, l, m: multiplier() };
+        break;
+      }
+    }
+    if (!element) return;
+    const globalKey = name.toLowerCase();
+    if (this.elementByName.has(globalKey)) {
+      const other = this.elementByName.get(globalKey)!;
+      this.sink.add('element-duplicate-name', `Flattened name \`${name}\` is already used by another element; this one is left out.`, uri, card.name.span, [
+        { uri: other.origin.uri, span: other.origin.span, message: `\`${other.name}\` is defined here.` },
+      ]);
+      return;
+    }
+    this.elementByName.set(globalKey, element);
+    this.elements.push(element);
+  }
+
+  /** Element parameters by upper-case name; reports unknown ones. */
+  private elementParams(card: ElementCard, uri: string): Map<string, Assignment> {
+    const spec = ELEMENT_PARAMS[card.letter] ?? { used: [], silent: [] };
+    const out = new Map<string, Assignment>();
+    for (const a of card.params) {
+      const key = a.name.text.toUpperCase();
+      if (spec.used.includes(key)) {
+        out.set(key, a);
+        continue;
+      }
+      if (spec.silent.includes('*') || spec.silent.includes(key)) continue;
+      const accepted = spec.used.length > 0 ? `; it reads ${spec.used.join(', ')}` : '; it reads no instance parameters';
+      this.sink.add('element-unknown-parameter', `\`${a.name.text}\` is not a parameter of ${describeLetter(card.letter)}${accepted}. It is ignored.`, uri, a.name.span, undefined, {
+        parameter: key,
+        known: spec.used,
+      });
+    }
+    return out;
+  }
+
+  /** An area factor or M from an assignment: must be > 0, else 1 with `device-area-invalid`. */
+  private positive(a: Assignment | undefined, inst: Instance, uri: string, card: ElementCard, what: string): number {
+    return a ? this.positiveToken(a.value, inst, uri, card, what) : 1;
+  }
+
+  private positiveToken(tok: Token, inst: Instance, uri: string, card: ElementCard, what: string): number {
+    const v = this.value(tok, inst, uri, `the ${what} of \`${card.name.text}\``);
+    if (v === undefined) return 1;
+    if (v <= 0) {
+      this.sink.add('device-area-invalid', `The ${what} of \`${card.name.text}\` is ${v}; it must be greater than 0, so 1 is used and the analysis continues.`, uri, tok.span, undefined, { value: v });
+      return 1;
+    }
+    return v;
+  }
+
+  private geometry(a: Assignment | undefined, inst: Instance, uri: string, card: ElementCard, which: 'W' | 'L'): number {
+    if (!a) return DEFAULT_MOS_SIZE;
+    const v = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``);
+    if (v === undefined) return DEFAULT_MOS_SIZE;
+    if (v <= 0) {
+      this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${v} m; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
+      return DEFAULT_MOS_SIZE;
+    }
+    if (v < 1e-9 || v > 1) {
+      const hint = v > 1 ? ` If ${v} µm is meant, write ${a.value.text}u.` : '';
+      this.sink.add('value-out-of-range', `${which} of \`${card.name.text}\` is ${v} m, outside 1 nm to 1 m; a size is given in metres.${hint}`, uri, a.value.span, undefined, { value: v });
+    }
+    return v;
+  }
+
+  /** Finds the model an element names: subcircuit-local first, then outer scopes; reports not-found and wrong kind. */
+  private findModel(card: ElementCard, inst: Instance, uri: string): Model | undefined {
+    const tok = card.model;
+    const letter = card.letter as 'D' | 'Q' | 'M' | 'R';
+    const kinds = KINDS_FOR_LETTER[letter];
+    if (!tok) return undefined;
+    const keep = letter === 'R' ? ' The resistor is kept with its value.' : ' The element is left out.';
+    const key = tok.text.toLowerCase();
+    for (const scope of inst.modelScopes) {
+      const entry = scope.get(key);
+      if (!entry) continue;
+      // An unusable model card has its own finding; the element is left out without a second one.
+      if (!entry.model) return undefined;
+      if (!kinds.includes(entry.model.kind)) {
+        this.sink.add(
+          'model-wrong-kind',
+          `\`${card.name.text}\` is ${describeLetter(card.letter)} but model \`${entry.model.name}\` is ${describeKind(entry.model.kind)}; it needs a ${kinds.map((k) => k.toUpperCase()).join(' or ')} model.${keep}`,
+          uri,
+          tok.span,
+          [{ uri: entry.uri, span: entry.card.span, message: `\`${entry.model.name}\` is defined here.` }],
+          { modelName: tok.text, expectedKinds: kinds, actualKind: entry.model.kind },
+        );
+        return undefined;
+      }
+      return entry.model;
+    }
+    this.sink.add(
+      'model-not-found',
+      `No .model card defines \`${tok.text}\` for \`${card.name.text}\` (${describeLetter(card.letter)}, which needs a ${kinds.map((k) => k.toUpperCase()).join(' or ')} model).${keep}`,
+      uri,
+      tok.span,
+      undefined,
+      { modelName: tok.text, expectedKinds: kinds },
+    );
+    return undefined;
+  }
+
+  private reportTooLarge(uri: string, span: Span): void {
+    if (this.tooLarge) return;
+    this.tooLarge = true;
+    this.sink.add('circuit-too-large', `Flattening would make more than ${this.maxElements} elements; the elements from here on are left out.`, uri, span, undefined, { limit: this.maxElements });
+  }
+
+  // -------------------------------------------------------------------------
+  // Subcircuit instances
+
+  private findDef(body: Body, name: string): SubcktDef | undefined {
+    const key = name.toLowerCase();
+    for (let b: Body | undefined = body; b; b = b.parent) {
+      const d = b.defs.get(key);
+      if (d) return d;
+    }
+    return undefined;
+  }
+
+  private visibleDefs(body: Body): string[] {
+    const out: string[] = [];
+    for (let b: Body | undefined = body; b; b = b.parent) for (const d of b.defs.values()) out.push(d.card.name.text);
+    return out;
+  }
+
+  private instantiate(item: Located<ElementCard>, inst: Instance): void {
+    const { card, uri } = item;
+    const subTok = card.subckt;
+    if (!subTok) return;
+    const lowerName = card.name.text.toLowerCase();
+    const first = inst.names.get(lowerName);
+    if (first) {
+      this.sink.add('element-duplicate-name', `An instance named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
+        { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
+      ]);
+      return;
+    }
+    inst.names.set(lowerName, item);
+    const def = this.findDef(inst.body, subTok.text);
+    if (!def) {
+      const known = this.visibleDefs(inst.body);
+      this.sink.add(
+        'subckt-not-found',
+        `No subcircuit \`${subTok.text}\` is defined for instance \`${card.name.text}\`${known.length > 0 ? `; the subcircuits in scope are ${known.slice(0, 10).map((k) => `\`${k}\``).join(', ')}` : ''}.`,
+        uri,
+        subTok.span,
+        undefined,
+        { subcktName: subTok.text, known },
+      );
+      return;
+    }
+    if (inst.chain.includes(def)) {
+      const names = [...inst.chain.slice(inst.chain.indexOf(def)), def].map((d) => d.card.name.text);
+      this.sink.add('subckt-recursive', `Instance \`${card.name.text}\` re-enters subcircuit \`${def.card.name.text}\` from inside itself (${names.join(' → ')}); a subcircuit cannot contain itself.`, uri, subTok.span, [
+        { uri: def.uri, span: def.card.name.span, message: `\`${def.card.name.text}\` is defined here.` },
+      ]);
+      return;
+    }
+    const ports = def.card.ports;
+    if (card.nodes.length !== ports.length) {
+      const span = card.nodes.length > 0 ? { start: card.nodes[0]!.span.start, end: card.nodes[card.nodes.length - 1]!.span.end } : card.name.span;
+      this.sink.add(
+        'subckt-port-count',
+        `Instance \`${card.name.text}\` connects ${card.nodes.length} node${card.nodes.length === 1 ? '' : 's'} but subcircuit \`${def.card.name.text}\` has ${ports.length} port${ports.length === 1 ? '' : 's'} (${ports.map((p) => p.text).join(' ') || 'none'}); the instance is left out.`,
+        uri,
+        span,
+        [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
+        { given: card.nodes.length, expected: ports.length },
+      );
+      return;
+    }
+    if (this.elements.length >= this.maxElements) {
+      this.reportTooLarge(uri, card.span);
+      return;
+    }
+    const portMap = new Map<string, number>();
+    for (let k = 0; k < ports.length; k++) {
+      const n = this.node(card.nodes[k]!, inst, uri);
+      if (n === undefined) return;
+      const portName = ports[k]!.text.toLowerCase();
+      if (portName !== '0' && portName !== 'gnd') portMap.set(portName, n);
+    }
+    const path = inst.prefix + card.name.text;
+    const scope = new ParamScope(this.context, { parent: inst.scope, label: `subcircuit ${def.card.name.text}, instance ${path}` });
+    const declared = new Map<string, Assignment>();
+    for (const a of def.card.params) {
+      declared.set(a.name.text.toLowerCase(), a);
+      this.defineParam(scope, paramDefinition(a, def.uri));
+    }
+    for (const a of card.params) {
+      const key = a.name.text.toLowerCase();
+      if (!declared.has(key)) {
+        const names = [...declared.values()].map((d) => d.name.text);
+        this.sink.add(
+          'subckt-unknown-parameter',
+          `Subcircuit \`${def.card.name.text}\` declares no parameter \`${a.name.text}\`${names.length > 0 ? ` (it declares ${names.join(', ')})` : ' (it declares none)'}; the override is ignored.`,
+          uri,
+          a.name.span,
+          [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
+          { parameter: a.name.text, declared: names },
+        );
+        continue;
+      }
+      const v = tokenValue(a.value, inst.scope, uri);
+      if (!v.ok) this.reportValue(v, a.value, uri, `the value of \`${a.name.text}\` for instance \`${card.name.text}\``);
+      const result: EvalResult = v.ok
+        ? v
+        : { ok: false, error: { message: v.message, span: v.span, inherited: true, related: [{ uri, span: a.span, message: `\`${a.name.text}\` is set here.` }] } };
+      scope.setValue(a.name.text, result, paramDefinition(a, uri));
+    }
+    const child: Instance = {
+      prefix: `${path}.`,
+      body: def.body,
+      scope,
+      ports: portMap,
+      chain: [...inst.chain, def],
+      instances: [...inst.instances, { name: card.name.text, uri, span: card.span }],
+      modelScopes: [new Map(), ...inst.modelScopes],
+      names: new Map(),
+    };
+    this.flattenBody(child);
+  }
+
+  /** Resolves F and H controls against the flattened voltage sources; drops those whose control does not exist. */
+  private resolveControls(): void {
+    const dropped = new Set<Element>();
+    for (const c of this.controls) {
+      const target = this.elementByName.get(c.full.toLowerCase());
+      if (target && target.kind === 'V') {
+        c.element.control = target.name;
+        continue;
+      }
+      const message = target
+        ? `\`${c.element.name}\` is controlled by the current of \`${target.name}\`, which is not a voltage source; the controlling element must be a V source. It is left out.`
+        : `\`${c.element.name}\` is controlled by the current of \`${c.full}\`, but no voltage source has that name in its scope; it is left out.`;
+      this.sink.add('controlled-source-control-missing', message, c.uri, c.token.span, undefined, { control: c.full });
+      dropped.add(c.element);
+    }
+    if (dropped.size === 0) return;
+    const kept = this.elements.filter((e) => !dropped.has(e));
+    this.elements.length = 0;
+    this.elements.push(...kept);
+    for (const e of dropped) this.elementByName.delete(e.name.toLowerCase());
+  }
+
+  // -------------------------------------------------------------------------
+  // Global cards and symbols
+
+  private temperatures(bodies: Body[], top: ParamScope): { temperatureC: number; tnomC: number } {
+    let temperatureC: number | undefined;
+    let tnomC: number | undefined;
+    for (const body of bodies) {
+      for (const { card, uri } of body.items) {
+        if (card.kind === 'temp' && card.values[0]) {
+          if (temperatureC !== undefined) continue;
+          temperatureC = this.temperature(card.values[0], top, uri, '.temp');
+        } else if (card.kind === 'option') {
+          for (const a of card.params) {
+            if (a.name.text.toLowerCase() !== 'tnom' || tnomC !== undefined) continue;
+            tnomC = this.temperature(a.value, top, uri, 'tnom');
+          }
+        } else if (card.kind === 'other-dot') {
+          this.sink.add('card-ignored', `\`${card.command.text}\` is not used by a DC bias analysis; it is ignored.`, uri, card.command.span);
+        }
+      }
+    }
+    const override = this.options.temperatureC;
+    if (override !== undefined) {
+      if (Number.isFinite(override) && override > ABSOLUTE_ZERO_C) temperatureC = override;
+      else {
+        this.sink.add('temperature-invalid', `The analysis temperature setting (${override} °C) is not above absolute zero; the netlist's temperature is used.`, this.root.uri, { start: 0, end: 0 });
+      }
+    }
+    return { temperatureC: temperatureC ?? DEFAULT_TEMPERATURE_C, tnomC: tnomC ?? DEFAULT_TEMPERATURE_C };
+  }
+
+  private temperature(tok: Token, scope: ParamScope, uri: string, what: string): number | undefined {
+    const v = tokenValue(tok, scope, uri);
+    if (!v.ok) {
+      this.sink.add('temperature-invalid', `The ${what} temperature cannot be read: ${lowerFirst(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
+      return undefined;
+    }
+    if (v.value <= ABSOLUTE_ZERO_C) {
+      this.sink.add('temperature-invalid', `The ${what} temperature ${v.value} °C is not above absolute zero (−273.15 °C); ${DEFAULT_TEMPERATURE_C} °C is used.`, uri, tok.span, undefined, { value: v.value });
+      return undefined;
+    }
+    return v.value;
+  }
+
+  private paramSymbols(top: Body, topScope: ParamScope, defs: SubcktDef[]): ParamSymbol[] {
+    const out: ParamSymbol[] = [];
+    const lastByName = new Map<string, Assignment>();
+    for (const { card } of top.items) if (card.kind === 'param') for (const a of card.params) lastByName.set(a.name.text.toLowerCase(), a);
+    for (const { card, uri } of top.items) {
+      if (card.kind !== 'param') continue;
+      for (const a of card.params) {
+        const current = lastByName.get(a.name.text.toLowerCase()) === a;
+        const r = current ? topScope.lookup(a.name.text, a.name.span) : undefined;
+        out.push(paramSymbol(a, uri, '', r?.ok ? r.value : undefined));
+      }
+    }
+    // Subcircuit parameters: defaults and body .params, evaluated as written in the definition (no overrides), silently.
+    for (const def of defs) {
+      const scope = this.definitionScope(def, topScope);
+      const assignments: { a: Assignment; uri: string }[] = [
+        ...def.card.params.map((a) => ({ a, uri: def.uri })),
+        ...def.body.items.flatMap(({ card, uri }) => (card.kind === 'param' ? card.params.map((a) => ({ a, uri })) : [])),
+      ];
+      for (const { a, uri } of assignments) {
+        const r = scope.lookup(a.name.text, a.name.span);
+        out.push(paramSymbol(a, uri, def.key, r.ok ? r.value : undefined));
+      }
+    }
+    return out;
+  }
+
+  /** A scope holding a definition's defaults and body parameters over the top level, whose problems are not reported. */
+  private definitionScope(def: SubcktDef, topScope: ParamScope): ParamScope {
+    const silent = new EvaluationContext(() => undefined);
+    const scope = new ParamScope(silent, { parent: topScope, label: `subcircuit ${def.card.name.text}` });
+    for (const a of def.card.params) scope.define(paramDefinition(a, def.uri));
+    for (const { card, uri } of def.body.items) if (card.kind === 'param') for (const a of card.params) scope.define(paramDefinition(a, uri));
+    return scope;
+  }
+
+  private subcktSymbols(defs: SubcktDef[], topScope: ParamScope): SubcktSymbol[] {
+    return defs.map((def) => {
+      const scope = this.definitionScope(def, topScope);
+      const params: Record<string, number | undefined> = {};
+      for (const a of def.card.params) {
+        const r = scope.lookup(a.name.text, a.name.span);
+        params[a.name.text] = r.ok ? r.value : undefined;
+      }
+      return { name: def.card.name.text, uri: def.uri, span: def.card.span, nameSpan: def.card.name.span, ports: def.card.ports.map((p) => p.text), params };
+    });
+  }
+}
+
+function paramDefinition(a: Assignment, uri: string): ParamDefinition {
+  const { source, offset } = expressionOf(a.value);
+  return { name: a.name.text, source, offset, uri, span: a.span, nameSpan: a.name.span };
+}
+
+function paramSymbol(a: Assignment, uri: string, scope: string, value: number | undefined): ParamSymbol {
+  const sym: ParamSymbol = { name: a.name.text, uri, span: a.span, nameSpan: a.name.span, expression: a.value.text, scope };
+  if (value !== undefined) sym.value = value;
+  return sym;
+}
+
+function titleOf(root: ParsedDocument): string {
+  const first = root.cards[0];
+  return first && first.kind === 'title' ? first.text : '';
+}
+
+function describeLetter(letter: string): string {
+  const names: Record<string, string> = {
+    R: 'a resistor',
+    C: 'a capacitor',
+    L: 'an inductor',
+    V: 'a voltage source',
+    I: 'a current source',
+    E: 'a voltage-controlled voltage source',
+    G: 'a voltage-controlled current source',
+    F: 'a current-controlled current source',
+    H: 'a current-controlled voltage source',
+    D: 'a diode',
+    Q: 'a bipolar transistor',
+    M: 'a MOSFET',
+    X: 'a subcircuit instance',
+  };
+  return names[letter] ?? 'an element';
+}
+
+function describeKind(kind: string): string {
+  const names: Record<string, string> = { npn: 'an NPN model', pnp: 'a PNP model', d: 'a diode model', nmos: 'an NMOS model', pmos: 'a PMOS model', r: 'a resistor model' };
+  return names[kind] ?? `a ${kind} model`;
+}
+
+function formatRatio(x: number): string {
+  return String(Number(x.toPrecision(4)));
+}
+
+function capitalise(s: string): string {
+  return s.length > 0 ? s[0]!.toUpperCase() + s.slice(1) : s;
+}
+
+function lowerFirst(s: string): string {
+  return s.length > 0 ? s[0]!.toLowerCase() + s.slice(1) : s;
+}
+

@@ -1,0 +1,188 @@
+// Elaborates `.model` cards: device type, parameter values with defaults filled in, and range checks.
+
+import { MODEL_DEFAULTS, type Model, type ModelKind, type Origin } from '../circuit';
+import type { ModelCard } from '../syntax/ast';
+import type { ParamScope } from './expressions';
+import type { Sink } from './sink';
+import { tokenValue } from './values';
+
+/** Type words of a `.model` card, case-insensitive. */
+const KIND_OF_TYPE: Record<string, ModelKind> = { npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r' };
+
+/** The device kinds each element letter accepts. */
+export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'R', ModelKind[]> = {
+  D: ['d'],
+  Q: ['npn', 'pnp'],
+  M: ['nmos', 'pmos'],
+  R: ['r'],
+};
+
+/**
+ * Parameters of the full published device models (Gummel–Poon, junction diode, Shichman–Hodges)
+ * that the DC bias equations of DESIGN.md do not use. They are accepted with one note per card.
+ */
+const KNOWN_UNUSED: Record<Exclude<ModelKind, 'r'>, Set<string>> = {
+  npn: new Set('VAR IKF IKR ISE ISC NE NC RB RBM IRB RE RC CJE VJE MJE CJC VJC MJC XCJC CJS VJS MJS TF XTF VTF ITF PTF TR XTB FC KF AF'.split(' ')),
+  pnp: new Set('VAR IKF IKR ISE ISC NE NC RB RBM IRB RE RC CJE VJE MJE CJC VJC MJC XCJC CJS VJS MJS TF XTF VTF ITF PTF TR XTB FC KF AF'.split(' ')),
+  d: new Set('CJO CJ0 VJ M TT BV IBV FC KF AF'.split(' ')),
+  nmos: new Set('TOX NSUB U0 UO LD WD CGSO CGDO CGBO CBD CBS CJ MJ CJSW MJSW PB IS JS RD RS KF AF FC NFS XJ TPG NSS'.split(' ')),
+  pmos: new Set('TOX NSUB U0 UO LD WD CGSO CGDO CGBO CBD CBS CJ MJ CJSW MJSW PB IS JS RD RS KF AF FC NFS XJ TPG NSS'.split(' ')),
+};
+
+/** Parameters among KNOWN_UNUSED that change the DC operating point, named in the note so nobody is surprised. */
+const DC_RELEVANT = new Set(['RB', 'RE', 'RC', 'IKF', 'IKR', 'ISE', 'ISC', 'VAR', 'BV', 'RD', 'RS']);
+
+/** Range rules: a predicate the value must meet and the phrase shown when it does not. */
+const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = {
+  IS: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  BF: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  BR: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  NF: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  NR: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  N: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  EG: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  KP: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  PHI: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  VAF: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no Early effect)' },
+  RS: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  GAMMA: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  LAMBDA: { ok: (v) => v >= 0, must: 'cannot be negative' },
+};
+
+/** Where and how a model card is being elaborated. */
+export interface ModelContext {
+  uri: string;
+  scope: ParamScope;
+  sink: Sink;
+  instances: Origin['instances'];
+}
+
+/**
+ * Elaborates one `.model` card: the type word, every given parameter evaluated in the scope,
+ * defaults from MODEL_DEFAULTS for the rest. Returns undefined for an unknown type.
+ * VAF = 0 means "no Early effect" (common practice) and becomes Infinity.
+ */
+export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | undefined {
+  const { uri, scope, sink } = ctx;
+  const kind = KIND_OF_TYPE[card.type.text.toLowerCase()];
+  if (!kind) {
+    sink.add(
+      'model-unknown-type',
+      `\`${card.type.text}\` is not a device type this analysis reads; a model is NPN, PNP, D, NMOS, PMOS or R.`,
+      uri,
+      card.type.span,
+      undefined,
+      { modelName: card.name.text, type: card.type.text },
+    );
+    return undefined;
+  }
+  const origin: Origin = { uri, span: card.span, instances: ctx.instances };
+  if (kind === 'r') {
+    // Resistor models are accepted; their parameters do not enter the DC equations here.
+    const params: Record<string, number> = {};
+    for (const a of card.params) {
+      const v = tokenValue(a.value, scope, uri);
+      if (v.ok) params[a.name.text.toUpperCase()] = v.value;
+    }
+    return { name: card.name.text, kind, params, given: Object.keys(params), origin };
+  }
+
+  const defaults = MODEL_DEFAULTS[kind];
+  const used = Object.keys(defaults);
+  const params: Record<string, number> = { ...defaults };
+  const given: string[] = [];
+  const ignored: string[] = [];
+  const seen = new Map<string, (typeof card.params)[number]>();
+  for (const a of card.params) {
+    const key = a.name.text.toUpperCase();
+    const isMos = kind === 'nmos' || kind === 'pmos';
+    if (key === 'LEVEL' && isMos) {
+      const v = tokenValue(a.value, scope, uri);
+      given.push('LEVEL');
+      if (!v.ok || v.value !== 1) {
+        sink.add(
+          'model-level-unsupported',
+          `Only the level-1 square law is solved; ${v.ok ? `LEVEL=${v.value}` : 'this LEVEL'} is treated as level 1, so the currents of \`${card.name.text}\` are first-order estimates.`,
+          uri,
+          a.span,
+        );
+      }
+      continue;
+    }
+    if (!(key in defaults)) {
+      if (KNOWN_UNUSED[kind].has(key)) {
+        ignored.push(key);
+        continue;
+      }
+      const hint = nearest(key, used);
+      sink.add(
+        'model-unknown-parameter',
+        `\`${a.name.text}\` is not a parameter of a ${kind.toUpperCase()} model here${hint ? ` (did you mean ${hint}?)` : ''}; the parameters used are ${used.join(', ')}. It is ignored.`,
+        uri,
+        a.name.span,
+        undefined,
+        { parameter: key, known: used },
+      );
+      continue;
+    }
+    const previous = seen.get(key);
+    if (previous) {
+      sink.add('param-duplicate', `\`${key}\` is given twice in model \`${card.name.text}\`; the later value is used.`, uri, a.name.span, [
+        { uri, span: previous.name.span, message: `\`${key}\` is first given here.` },
+      ]);
+    }
+    seen.set(key, a);
+    const v = tokenValue(a.value, scope, uri);
+    if (!v.ok) {
+      sink.add(
+        'model-parameter-invalid',
+        `${key} of model \`${card.name.text}\` has no value: ${lowerFirst(v.message)} The default ${formatDefault(defaults[key]!)} is used.`,
+        uri,
+        v.inherited ? a.value.span : v.span,
+        v.related,
+      );
+      continue;
+    }
+    const rule = RULES[key];
+    if (rule && !rule.ok(v.value)) {
+      sink.add(
+        'model-parameter-invalid',
+        `${key}=${v.value} in model \`${card.name.text}\` ${rule.must}; the default ${formatDefault(defaults[key]!)} is used instead.`,
+        uri,
+        a.value.span,
+        undefined,
+        { parameter: key, value: v.value, default: defaults[key] },
+      );
+      continue;
+    }
+    params[key] = key === 'VAF' && v.value === 0 ? Infinity : v.value;
+    if (!given.includes(key)) given.push(key);
+  }
+  if (ignored.length > 0) {
+    const dc = ignored.filter((k) => DC_RELEVANT.has(k));
+    sink.add(
+      'model-parameter-ignored',
+      `Model \`${card.name.text}\` gives ${ignored.join(', ')}, which the DC bias equations here do not use${
+        dc.length > 0 ? `; ${dc.join(', ')} would shift the bias point, which is computed without ${dc.length > 1 ? 'them' : 'it'}` : ''
+      }.`,
+      uri,
+      card.name.span,
+      undefined,
+      { parameters: ignored },
+    );
+  }
+  return { name: card.name.text, kind, params, given, origin };
+}
+
+function formatDefault(v: number): string {
+  return Number.isFinite(v) ? String(v) : '∞ (no Early effect)';
+}
+
+function lowerFirst(s: string): string {
+  return s.length > 0 ? s[0]!.toLowerCase() + s.slice(1) : s;
+}
+
+/** The used parameter one edit away from `key`, if there is exactly such a near miss (`VA` → `VAF`). */
+function nearest(key: string, used: string[]): string | undefined {
+  return used.find((u) => (u.startsWith(key) && u.length - key.length === 1) || (key.startsWith(u) && key.length - u.length === 1));
+}

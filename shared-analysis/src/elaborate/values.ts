@@ -1,0 +1,50 @@
+// Turns a value field (a number, a bare parameter name or a braced/quoted expression) into a number in a scope.
+
+import type { Token } from '../syntax/ast';
+import type { RelatedLocation, Span } from '../types';
+import type { ParamScope } from './expressions';
+import { parseNumber } from './units';
+
+/** A number read from a field, or what is wrong with it and where. */
+export type ValueResult =
+  | { ok: true; value: number }
+  | { ok: false; message: string; span: Span; related?: RelatedLocation[]; inherited?: boolean };
+
+/** The expression inside a `{…}` or `'…'` token and the document offset of its first character. */
+export function expressionOf(tok: Token): { source: string; offset: number } {
+  const t = tok.text;
+  const open = t.charAt(0);
+  if (tok.kind === 'expr' && (open === '{' || open === "'")) {
+    const close = open === '{' ? '}' : "'";
+    const closed = t.length >= 2 && t.endsWith(close);
+    return { source: t.slice(1, closed ? -1 : undefined), offset: tok.span.start + 1 };
+  }
+  return { source: t, offset: tok.span.start };
+}
+
+const IDENTIFIER = /^[A-Za-z_][A-Za-z0-9_]*$/;
+
+/**
+ * Reads a value field in `scope`. A word is an engineering number (`4.7k`, `10kOhm`) or, when it
+ * is a plain name of a parameter in scope, that parameter's value; an expression token is
+ * evaluated in the closed expression scope.
+ */
+export function tokenValue(tok: Token, scope: ParamScope, uri: string): ValueResult {
+  if (tok.kind === 'expr') {
+    const { source, offset } = expressionOf(tok);
+    const r = scope.evaluate(uri, source, offset);
+    if (r.ok) return r;
+    return { ok: false, message: r.error.message, span: r.error.span, related: r.error.related, inherited: r.error.inherited };
+  }
+  const n = parseNumber(tok.text);
+  if (n.ok) return n;
+  if (IDENTIFIER.test(tok.text)) {
+    const r = scope.lookup(tok.text, tok.span);
+    if (r.ok) return r;
+    if (!r.error.inherited) {
+      return { ok: false, message: `\`${tok.text}\` is neither a number nor a parameter in scope.`, span: tok.span };
+    }
+    return { ok: false, message: r.error.message, span: tok.span, related: r.error.related, inherited: true };
+  }
+  return { ok: false, message: n.message, span: tok.span };
+}
