@@ -53,7 +53,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
 
   const swept = sweepCircuit(circuit, structure, nodeIndex);
   const solver = new DcSolver(swept);
-  const pts: { v: number; i: number; active: boolean }[] = [];
+  const pts: { v: number; i: number; active: boolean; margin: number }[] = [];
   let guess: Float64Array | undefined;
   // Sweep from the side where the output conducts best so each warm start is a small step.
   const order = Array.from({ length: points }, (_, k) => low + ((high - low) * k) / (points - 1));
@@ -67,7 +67,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     const rec = res.op.devices[outEl.name];
     const i = outputCurrent(rec);
     if (i === undefined || !Number.isFinite(i)) continue;
-    pts.push({ v, i, active: isActive(rec) });
+    pts.push({ v, i, active: isActive(rec), margin: activeMargin(rec) });
   }
   if (pts.length < 2) return { error: `The sweep of ${output.node} did not converge at enough points to draw (${pts.length} of ${points}).` };
 
@@ -123,6 +123,14 @@ function outputCurrent(rec: DeviceRecord | undefined): number | undefined {
   return undefined;
 }
 
+/** Volts by which a device is inside its active region (negative: outside): −VBC for NPN, |VDS| − overdrive for MOS. */
+function activeMargin(rec: DeviceRecord | undefined): number {
+  if (!rec) return NaN;
+  if (rec.type === 'bjt') return rec.polarity === 'npn' ? -rec.vbc : rec.vbc;
+  if (rec.type === 'mosfet') return Math.abs(rec.vds) - rec.vov;
+  return NaN;
+}
+
 function isActive(rec: DeviceRecord | undefined): boolean {
   if (!rec) return false;
   if (rec.type === 'bjt') return rec.region === 'forward-active';
@@ -130,10 +138,19 @@ function isActive(rec: DeviceRecord | undefined): boolean {
   return false;
 }
 
-/** The boundary between active and inactive sweep points nearest the operating voltage (midpoint of the two points). */
-function activeEdge(pts: { v: number; active: boolean }[], operatingV: number): number {
+/**
+ * The boundary between active and inactive sweep points nearest the operating voltage: where the
+ * margin (VBC or VDS − overdrive) crosses zero, interpolated linearly between the two points.
+ */
+function activeEdge(pts: { v: number; active: boolean; margin: number }[], operatingV: number): number {
   const edges: number[] = [];
-  for (let k = 1; k < pts.length; k++) if (pts[k].active !== pts[k - 1].active) edges.push((pts[k].v + pts[k - 1].v) / 2);
+  for (let k = 1; k < pts.length; k++) {
+    const a = pts[k - 1];
+    const b = pts[k];
+    if (a.active === b.active) continue;
+    const t = Number.isFinite(a.margin) && Number.isFinite(b.margin) && a.margin !== b.margin ? a.margin / (a.margin - b.margin) : 0.5;
+    edges.push(a.v + (b.v - a.v) * Math.min(1, Math.max(0, t)));
+  }
   if (edges.length === 0) return pts.every((p) => p.active) ? pts[0].v : pts[pts.length - 1].v;
   if (!Number.isFinite(operatingV)) return edges[0];
   return edges.reduce((best, e) => (Math.abs(e - operatingV) < Math.abs(best - operatingV) ? e : best), edges[0]);

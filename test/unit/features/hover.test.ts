@@ -1,0 +1,194 @@
+// Hover text on inline netlists: resistors, nodes, transistors with their structure's estimate, models, parameters, subcircuit instances.
+
+import { describe, expect, it } from 'vitest';
+import { hoverAt } from '../../../shared-analysis/src/features/hover';
+import { analyseText, quantityAfter, relErr, withCursor } from './fixture';
+
+interface HoverExpectation {
+  /** Substrings the hover must contain. */
+  contains?: (string | RegExp)[];
+  /** Numbers read back from the hover: label, unit, expected value, relative tolerance, source. */
+  numbers?: { label: string; unit: string; value: number | ((md: string) => number); tol: number }[];
+  /** The text the hover's span must cover. */
+  spanText?: string;
+  /** No hover at all. */
+  none?: boolean;
+}
+
+/** The one helper of this feature: hover at the cursor marker and compare. */
+function check(marked: string, expected: HoverExpectation, files: Record<string, string> = {}): string {
+  const { text, offset } = withCursor(marked);
+  const analysis = analyseText(text, files);
+  const h = hoverAt(analysis, '/t/main.cir', offset);
+  if (expected.none) {
+    expect(h).toBeUndefined();
+    return '';
+  }
+  expect(h, 'a hover is expected here').toBeDefined();
+  const md = h!.markdown;
+  expect(md).not.toMatch(/NaN|undefined/);
+  for (const c of expected.contains ?? []) {
+    if (typeof c === 'string') expect(md).toContain(c);
+    else expect(md).toMatch(c);
+  }
+  for (const n of expected.numbers ?? []) {
+    const want = typeof n.value === 'function' ? n.value(md) : n.value;
+    const got = quantityAfter(md, n.label, n.unit);
+    expect(relErr(got, want), `${n.label}: got ${got}, expected ${want}`).toBeLessThan(n.tol);
+  }
+  if (expected.spanText !== undefined) expect(text.slice(h!.span.start, h!.span.end)).toBe(expected.spanText);
+  return md;
+}
+
+const DIVIDER = `Divider for hover checks
+V1 in 0 DC 10
+R1 in mid 1k
+R2 mid 0 1k
+.end
+`;
+
+const MIRROR = `NPN mirror for hover checks
+VCC vcc 0 DC 10
+RREF vcc ref 9.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN
+RL vcc out 1k
+.model QN NPN (BF=100 IS=1e-16)
+.end
+`;
+
+function mark(text: string, before: string, inset = 1): string {
+  const i = text.indexOf(before);
+  if (i < 0) throw new Error(`"${before}" not in the netlist`);
+  return text.slice(0, i + inset) + '|' + text.slice(i + inset);
+}
+
+describe('hover on a resistor divider', () => {
+  it('shows the resistor current, voltage and power', () => {
+    // Source: Ohm's law and P = V·I (fact of the trade): 10 V across 2 kΩ → 5 mA, 5 V and 25 mW per resistor.
+    check(mark(DIVIDER, 'R1 in'), {
+      spanText: 'R1',
+      numbers: [
+        { label: 'Current', unit: 'A', value: 5e-3, tol: 1e-3 },
+        { label: 'Voltage', unit: 'V', value: 5, tol: 1e-3 },
+        { label: 'Power', unit: 'W', value: 25e-3, tol: 1e-3 },
+      ],
+    });
+  });
+
+  it('shows a node voltage and what connects to it', () => {
+    // Source: equal-resistor divider gives half the supply (fact of the trade).
+    check(mark(DIVIDER, 'mid 0'), {
+      spanText: 'mid',
+      contains: ['R1 (end 2)', 'R2 (end 1)'],
+      numbers: [{ label: 'Node **mid**:', unit: 'V', value: 5, tol: 1e-3 }],
+    });
+  });
+
+  it('says nothing on blank space or the title', () => {
+    check('Divider |title\nV1 in 0 DC 10\nR1 in 0 1k\n.end\n', { none: true });
+  });
+});
+
+describe('hover on a bipolar mirror', () => {
+  it('shows the output transistor with region, currents and the mirror estimate', () => {
+    const md = check(mark(MIRROR, 'Q2 out'), {
+      spanText: 'Q2',
+      contains: ['forward-active', 'VBE', 'VCE', 'gm', 'rπ', 'ro', 'Simple current mirror', 'output device'],
+    });
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — with matched devices and no Early effect
+    // IOUT = IREF/(1 + 2/β) with IREF = (VCC − VBE)/RREF; β = BF = 100 (given in the model).
+    const vbe = quantityAfter(md, 'VBE', 'V');
+    const iref = (10 - vbe) / 9.3e3;
+    const ic = quantityAfter(md, 'IC', 'A');
+    expect(relErr(ic, iref / (1 + 2 / 100))).toBeLessThan(0.01);
+    // gm = IC/VT (Gray et al., ch. 1); VT ≈ 25.865 mV at 27 °C (CODATA 2018 constants).
+    const gm = quantityAfter(md, 'gm', 'S');
+    expect(relErr(gm, ic / 0.025865)).toBeLessThan(0.01);
+  });
+
+  it('shows the reference device with the hand estimate steps', () => {
+    check(mark(MIRROR, 'Q1 ref'), { contains: ['reference (diode-connected) device', 'IREF', 'Hand estimate'] });
+  });
+
+  it('lists model parameters with the given ones marked and the defaults filled in', () => {
+    // Defaults: DESIGN.md device equations (VAF = ∞, BR = 1, NF = 1 when not given).
+    check(mark(MIRROR, 'QN\nQ2'), {
+      spanText: 'QN',
+      contains: [/\| BF \| 100 \| given \|/, /\| VAF \| unbounded \(∞\) \| default \|/, /\| BR \| 1 \| default \|/],
+    });
+  });
+
+  it('shows the model on its own .model card', () => {
+    check(mark(MIRROR, 'QN NPN', 1), { contains: ['Model **QN**', 'NPN'] });
+  });
+});
+
+describe('hover on parameters and expressions', () => {
+  const PARAMS = `Parameters for hover checks
+.param rtop=2k rbot={rtop*3}
+V1 a 0 DC 8
+R1 a b {rtop}
+R2 b 0 {rbot}
+.end
+`;
+  it('shows a parameter value where it is used inside braces', () => {
+    check(mark(PARAMS, 'rtop}'), { spanText: 'rtop', contains: ['Parameter **rtop**', '= 2000'] });
+  });
+  it('shows a derived parameter value at its definition', () => {
+    check(mark(PARAMS, 'rbot='), { contains: ['Parameter **rbot**', '= 6000', 'rtop*3'] });
+  });
+  it('shows what an expression evaluates to', () => {
+    check(mark(PARAMS, '{rbot}', 0), { contains: ['evaluates to 6 kΩ'] });
+  });
+});
+
+describe('hover inside subcircuit bodies', () => {
+  const SUB = `Two instances of one cell
+VDD vdd 0 DC 5
+.subckt cell top
+RA top mid 1k
+RB mid 0 3k
+.ends cell
+X1 vdd cell
+X2 half cell
+RH vdd half 4k
+.end
+`;
+  it('shows every instance of a device', () => {
+    // Source: Ohm's law. X1 sits across 5 V: 5 V/4 kΩ = 1.25 mA. X2 is in series with 4 kΩ: 5 V/8 kΩ = 0.625 mA.
+    const md = check(mark(SUB, 'RA top'), { contains: ['X1.RA', 'X2.RA'] });
+    const [first, second] = md.split('---');
+    expect(relErr(quantityAfter(first, 'Current', 'A'), 1.25e-3)).toBeLessThan(1e-3);
+    expect(relErr(quantityAfter(second, 'Current', 'A'), 0.625e-3)).toBeLessThan(1e-3);
+  });
+  it('shows an internal node per instance', () => {
+    // Source: divider ratio 3k/(1k+3k) = 0.75 of each instance's top voltage (5 V and 2.5 V).
+    const md = check(mark(SUB, 'mid 0'), { contains: ['X1.mid', 'X2.mid'] });
+    expect(md).toMatch(/X1\.mid\*\*: 3\.75 V/);
+    expect(md).toMatch(/X2\.mid\*\*: 1\.88 V/);
+  });
+});
+
+describe('hover inside an included file', () => {
+  it('answers for a device defined in the included file', () => {
+    const files = { '/t/cells.inc': 'RIN vcc 0 2k\n' };
+    const text = 'Includer\n.include "cells.inc"\nVCC vcc 0 DC 4\n.end\n';
+    const analysis = analyseText(text, files);
+    const inc = analysis.documents['/t/cells.inc'];
+    expect(inc).toBeDefined();
+    const h = hoverAt(analysis, '/t/cells.inc', 1);
+    // Source: Ohm's law, 4 V / 2 kΩ = 2 mA.
+    expect(relErr(quantityAfter(h!.markdown, 'Current', 'A'), 2e-3)).toBeLessThan(1e-3);
+  });
+});
+
+describe('hover robustness', () => {
+  it('answers nothing for offsets outside the text and unknown documents', () => {
+    const analysis = analyseText(DIVIDER);
+    expect(hoverAt(analysis, '/t/main.cir', -5)).toBeUndefined();
+    expect(hoverAt(analysis, '/t/main.cir', 1e9)).toBeUndefined();
+    expect(hoverAt(analysis, '/t/main.cir', NaN)).toBeUndefined();
+    expect(hoverAt(analysis, '/t/other.cir', 3)).toBeUndefined();
+  });
+});

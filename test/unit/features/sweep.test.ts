@@ -1,0 +1,62 @@
+// The output characteristic of a mirror output: a swept output node with the load removed.
+
+import { describe, expect, it } from 'vitest';
+import { outputCharacteristic } from '../../../shared-analysis/src/features/sweep';
+import type { Analysis } from '../../../shared-analysis/src/analysis';
+import { analyseText, relErr } from './fixture';
+
+const MIRROR = `NPN mirror for the sweep
+VCC vcc 0 DC 10
+RREF vcc ref 9.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN
+RL vcc out 1k
+.model QN NPN (BF=100 VAF=50)
+.end
+`;
+
+/** The one helper of this feature: sweep `device` and hand the result to `expectations`, or expect an error matching a pattern. */
+function check(text: string, device: string, points: number, expectations: RegExp | ((r: Exclude<ReturnType<typeof outputCharacteristic>, { error: string }>, analysis: Analysis) => void)): void {
+  const analysis = analyseText(text, {}, true);
+  const r = outputCharacteristic(analysis, device, points);
+  if (expectations instanceof RegExp) {
+    expect('error' in r && r.error).toMatch(expectations);
+    return;
+  }
+  if ('error' in r) throw new Error(r.error);
+  for (const p of r.points) {
+    expect(Number.isFinite(p.v) && Number.isFinite(p.i)).toBe(true);
+  }
+  expectations(r, analysis);
+}
+
+describe('output characteristic', () => {
+  it('sweeps rail to rail, finds the saturation edge and follows the Early slope', () => {
+    check(MIRROR, 'Q2', 41, (r, analysis) => {
+      expect(r.node).toBe('out');
+      expect(r.points.length).toBeGreaterThan(35);
+      expect(r.points[0].v).toBeCloseTo(0, 9);
+      expect(r.points[r.points.length - 1].v).toBeCloseTo(10, 9);
+      // Source: Sedra & Smith, "Microelectronic Circuits", BJT modes of operation — forward-active needs the
+      // collector-base junction not forward biased, so the edge sits where VCE = VBE (VBC = 0). VBE of a small
+      // device near 1 mA is 0.6–0.8 V (Horowitz & Hill, ch. 2, common practice).
+      const rec = analysis.operatingPoint!.devices.Q2;
+      const vbe = rec.type === 'bjt' ? rec.vbe : NaN;
+      expect(Math.abs(r.edgeV - vbe)).toBeLessThan(0.03);
+      // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — in the active region IC grows as (1 + VCE/VA);
+      // between VCE = 5 V and 10 V the ratio is (1 + 10/50)/(1 + 5/50) = 1.0909.
+      const at = (v: number) => r.points.reduce((b, p) => (Math.abs(p.v - v) < Math.abs(b.v - v) ? p : b)).i;
+      expect(relErr(at(10) / at(5), 1.2 / 1.1)).toBeLessThan(0.01);
+      // The operating point lies on the swept curve (RL only set where on the curve the circuit sits).
+      expect(r.operatingV).toBeGreaterThan(r.edgeV);
+      expect(r.cornerSpread.length).toBeGreaterThan(0);
+    });
+  });
+
+  it('explains what cannot be swept', () => {
+    check(MIRROR, 'Q1', 41, /not the output of a recognised mirror; the outputs are Q2/);
+    check(MIRROR, 'Q9', 41, /not the output/);
+    check(MIRROR, 'Q2', 1, /number of sweep points/);
+    check(MIRROR, 'Q2', 2.5, /number of sweep points/);
+  });
+});
