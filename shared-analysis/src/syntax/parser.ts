@@ -26,6 +26,9 @@
  *   param-missing-assignment     [error]   A `.param` field without `=value`, or a `.param` card with no assignments.
  *   include-missing-path         [error]   `.include` without a file path.
  *   lib-missing-fields           [error]   `.lib` without a path or section name.
+ *   lib-section-missing-endl     [error]   A library section (`.lib NAME` in a library file) that no `.endl` closes.
+ *   endl-without-lib-section     [warning] `.endl` with no open library section.
+ *   endl-name-mismatch           [warning] `.endl NAME` where NAME is not the section being closed.
  *   temp-missing-value           [error]   `.temp` without a temperature.
  *   text-after-end               [hint]    Non-blank text after `.end`; it is not read.
  *
@@ -38,6 +41,7 @@ import type {
   CommentCard,
   ElementCard,
   ErrorCard,
+  LibCard,
   ParsedDocument,
   ParseOptions,
   SourceValue,
@@ -93,6 +97,10 @@ interface Context {
   errors: SyntaxError[];
   /** Open `.subckt` cards, innermost last. */
   subckts: SubcktCard[];
+  /** Open library sections (`.lib NAME` inside a library file), innermost last. */
+  sections: LibCard[];
+  /** True for a top-level netlist, where a lone `.lib` field is a file path rather than a section start. */
+  topLevel: boolean;
 }
 
 /**
@@ -102,7 +110,7 @@ interface Context {
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [] };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -185,6 +193,16 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
       ctx,
       'subckt-missing-ends',
       `Subcircuit '${name}' is never closed: add '.ends ${name}' after its last card.`,
+      open.span,
+      'error',
+    );
+  }
+  for (const open of ctx.sections) {
+    const name = open.section?.text ?? '';
+    addError(
+      ctx,
+      'lib-section-missing-endl',
+      `Library section '${name}' is never closed: add '.endl ${name}' after its last card (until then every later card belongs to it).`,
       open.span,
       'error',
     );
@@ -273,7 +291,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [] };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -1048,14 +1066,23 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       }
       if (pos.length === 1) {
         const q = pos[0].text.charCodeAt(0);
-        // A lone quoted field is a path (the whole library); a lone bare word starts a section.
-        if (q === 34 || q === 39) return { kind: 'lib', span, tokens, path: pos[0] };
-        return { kind: 'lib', span, tokens, section: pos[0] };
+        // A lone quoted field is a path (the whole library), and so is a lone field in a top-level
+        // netlist; a lone bare word inside a library file starts a section.
+        if (q === 34 || q === 39 || ctx.topLevel) return { kind: 'lib', span, tokens, path: pos[0] };
+        const card: LibCard = { kind: 'lib', span, tokens, section: pos[0] };
+        ctx.sections.push(card);
+        return card;
       }
       return { kind: 'lib', span, tokens, path: pos[0], section: pos[1] };
     }
     case '.endl': {
       for (const t of pos.slice(1)) unexpected(ctx, command.text, t, '.endl takes');
+      const open = ctx.sections.pop();
+      if (!open) {
+        addError(ctx, 'endl-without-lib-section', '.endl closes no library section: there is no open .lib section before it.', pos[0] ? { start: command.span.start, end: pos[0].span.end } : command.span, 'warning');
+      } else if (pos[0] && open.section && pos[0].text.toLowerCase() !== open.section.text.toLowerCase()) {
+        addError(ctx, 'endl-name-mismatch', `.endl names '${shorten(pos[0].text)}' but closes library section '${shorten(open.section.text)}'.`, pos[0].span, 'warning');
+      }
       return pos[0] ? { kind: 'endl', span, tokens, section: pos[0] } : { kind: 'endl', span, tokens };
     }
     case '.temp': {

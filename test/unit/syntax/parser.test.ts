@@ -747,8 +747,8 @@ describe('.include and .lib', () => {
     check('.include ; nothing\n^^^^^^^^ include-missing-path', {});
   });
 
-  it('reads .lib with path and section, a lone section, a lone quoted path and .endl', () => {
-    check(".lib 'corners.lib' slow\n.lib fast\n.lib \"whole.lib\"\n.endl fast\n.endl\n.lib\n^^^^ lib-missing-fields", {
+  it('reads .lib with path and section, a lone section, a lone quoted path and .endl in a library file', () => {
+    check(".lib 'corners.lib' slow\n.lib fast\n.lib \"whole.lib\"\n.endl fast\n.endl\n^^^^^ endl-without-lib-section\n.lib\n^^^^ lib-missing-fields", {
       cards: [
         { kind: 'lib', path: "'corners.lib'", section: 'slow' },
         { kind: 'lib', section: 'fast' },
@@ -758,6 +758,17 @@ describe('.include and .lib', () => {
         { kind: 'lib' },
       ],
     });
+  });
+
+  it('reads a lone bare .lib field as a path in a top-level netlist', () => {
+    check('Top level\n.lib models/bjt.lib', {
+      options: { hasTitle: true },
+      cards: [{ kind: 'title', text: 'Top level' }, { kind: 'lib', path: 'models/bjt.lib' }],
+    });
+  });
+
+  it('reports an unclosed library section at its .lib card and a mismatched .endl', () => {
+    check('.lib typ\n.model QN NPN\n.endl slow\n      ^^^^ endl-name-mismatch\n.lib fast\n^^^^^^^^^ lib-section-missing-endl\nR1 a 0 1k', {});
   });
 });
 
