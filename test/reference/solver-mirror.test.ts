@@ -7,10 +7,10 @@ import type { Spec } from '../unit/solve/build';
 import { circuit, model } from '../unit/solve/build';
 
 /** Solves `specs` and returns the reference resistor current and the output device record. */
-function check(specs: Spec[], out: string): { iref: number; rec: BjtRecord & MosRecord } {
+function check(specs: Spec[], out: string): { iref: number; rec: BjtRecord } {
   const r = solveOperatingPoint(circuit(specs));
   expect(r.op.converged).toBe(true);
-  return { iref: (r.op.devices.RREF as TwoTerminalRecord).current, rec: r.op.devices[out] as BjtRecord & MosRecord };
+  return { iref: (r.op.devices.RREF as TwoTerminalRecord).current, rec: r.op.devices[out] as BjtRecord };
 }
 
 describe('BJT mirrors', () => {

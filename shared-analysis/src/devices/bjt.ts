@@ -192,8 +192,9 @@ export class BjtDevice implements NonlinearDevice {
   overdriven(x: Float64Array): OverdrivenJunction[] {
     const { vbe, vbc } = this.junctions(x);
     const out: OverdrivenJunction[] = [];
-    if (vbe / (this.params.nf * this.params.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-emitter', volts: vbe });
-    if (vbc / (this.params.nr * this.params.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-collector', volts: vbc });
+    if (!(this.params.is > 0 && this.params.m > 0)) return out;
+    if (vbe / (this.params.nf * this.params.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-emitter junction', volts: vbe });
+    if (vbc / (this.params.nr * this.params.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-collector junction', volts: vbc });
     return out;
   }
 

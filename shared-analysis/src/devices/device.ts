@@ -51,7 +51,7 @@ export interface NonlinearDevice {
 
 /** A junction forward-biased beyond the range where its exponential law is evaluated. */
 export interface OverdrivenJunction {
-  /** 'junction', 'base-emitter' or 'base-collector'. */
+  /** 'junction', 'base-emitter junction' or 'base-collector junction'. */
   junction: string;
   /** Forward voltage across it, volts (device's own polarity). */
   volts: number;

@@ -105,7 +105,7 @@ export class DiodeDevice implements NonlinearDevice {
 
   overdriven(x: Float64Array): OverdrivenJunction[] {
     const v = this.junctionVoltage(x);
-    return v / this.nvt > EXP_ARG_LIMIT ? [{ junction: 'junction', volts: v }] : [];
+    return this.is > 0 && v / this.nvt > EXP_ARG_LIMIT ? [{ junction: 'junction', volts: v }] : [];
   }
 
   record(x: Float64Array): DiodeRecord {

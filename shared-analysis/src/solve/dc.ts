@@ -11,6 +11,7 @@ import { createLinearSolver } from './linear';
 import { MnaLayout } from './mna';
 import type { NewtonOutcome } from './newton';
 import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
+import { undeterminedUnknowns } from './diagnose';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
 
@@ -35,6 +36,8 @@ const DEFAULT_MAX_ITERATIONS = 150;
 const STEP_ITERATIONS = 60;
 /** Node voltages beyond this are reported as implausible (a current forced into an open or leakage-only node). */
 const IMPLAUSIBLE_VOLTS = 1e6;
+/** Parameters more than this many decades from 1 (IS and KP relative to their defaults) are reported as out of range. */
+const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
 const RECORD_LIMIT = 1e300;
 
@@ -73,6 +76,7 @@ export class DcSolver {
     for (const g of floating) this.staticFindings.push(this.floatingFinding(g.nodes, g.elements));
     for (const l of loops) this.staticFindings.push(this.loopFinding(l.elements));
     this.staticFindings.push(...this.shortedJunctionFindings());
+    this.staticFindings.push(...this.outOfRangeFindings());
     this.structurallySingular = floating.length > 0 || loops.length > 0;
   }
 
@@ -382,21 +386,33 @@ export class DcSolver {
 
   private singularFinding(k: number): Finding {
     const c = this.circuit;
-    const info = this.layout.unknowns[k];
-    let elements: number[] = [];
-    if (info?.kind === 'node') elements = c.elements.map((el, i) => (el.nodes.includes(info.node) ? i : -1)).filter((i) => i >= 0);
-    else if (info) elements = [info.element];
-    const what = this.layout.describeUnknown(k);
+    const layout = this.layout;
+    // Prefer the null vector's unknowns (what is actually undetermined) over the failed pivot's index.
+    const found = undeterminedUnknowns(layout.pattern, this.engine.lastScaledValues);
+    const unknowns = found.length > 0 ? found : [k];
+    const nodeUnknowns = unknowns.filter((u) => layout.unknowns[u]?.kind === 'node');
+    const shown = nodeUnknowns.length > 0 ? nodeUnknowns : unknowns;
+    const elements = new Set<number>();
+    for (const u of unknowns) {
+      const info = layout.unknowns[u];
+      if (!info) continue;
+      if (info.kind === 'node') c.elements.forEach((el, i) => el.nodes.includes(info.node) && elements.add(i));
+      else elements.add(info.element);
+    }
+    const list = [...elements];
+    const what = listNames(shown.map((u) => layout.describeUnknown(u)));
     const f = this.elementFinding(
       'dc-singular-matrix',
       'error',
-      `The circuit equations are singular at ${what}` +
-        (elements.length > 0 ? ` (elements involved: ${listNames(elements.map((i) => c.elements[i].name))})` : '') +
-        ': that quantity is not fixed by the circuit, typically a controlled source that defines its own input or a loop of sources. No operating point was computed.',
-      elements[0] ?? 0,
+      `The circuit equations are singular: ${what} ${shown.length > 1 ? 'are' : 'is'} not fixed by the circuit` +
+        (list.length > 0 ? ` (elements involved: ${listNames(list.map((i) => c.elements[i].name))})` : '') +
+        '. Typical causes are a controlled source that defines its own input, or sources and elements that cancel exactly. No operating point was computed. ' +
+        this.extremeValueHint(),
+      list[0] ?? 0,
     );
-    f.data = { unknown: what, elements: elements.map((i) => c.elements[i].name) };
-    f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(1))];
+    f.message = f.message.trim();
+    f.data = { kind: 'undetermined', unknowns: shown.map((u) => layout.describeUnknown(u)), elements: list.map((i) => c.elements[i].name) };
+    f.related = [...(f.related ?? []), ...this.relatedFor(list.slice(1))];
     return f;
   }
 
@@ -493,6 +509,28 @@ export class DcSolver {
     return out;
   }
 
+  /** Values so extreme (beyond 10^±150, saturation currents and KP judged against their defaults) that products of them overflow. */
+  private outOfRangeFindings(): Finding[] {
+    const out: Finding[] = [];
+    this.circuit.elements.forEach((el, i) => {
+      if (this.layout.skipped.has(i)) return;
+      for (const v of this.valuesOf(el)) {
+        if (v.decades <= OUT_OF_RANGE_DECADES) continue;
+        const shown = v.value;
+        const f = this.elementFinding(
+          'dc-value-out-of-range',
+          'warning',
+          `${v.name} = ${shown.toExponential(2)} on ${el.name} is too extreme for the solver's double-precision arithmetic (products of such values overflow or vanish); results involving ${el.name} may be meaningless.`,
+          i,
+        );
+        f.data = { parameter: v.name, value: shown };
+        out.push(f);
+        break;
+      }
+    });
+    return out;
+  }
+
   private postSolveFindings(x: Float64Array, op: OperatingPoint): Finding[] {
     const out: Finding[] = [];
     const c = this.circuit;
@@ -505,7 +543,7 @@ export class DcSolver {
       const f = this.elementFinding(
         'dc-junction-overdriven',
         'warning',
-        `The ${j.junction} junction of ${d.element.name} is forward-biased at ${formatEng(j.volts, 'V')}, far beyond where a silicon junction can sit; the computed current (${formatEng(current, 'A')}) is not physical. A series resistance or current limit is probably missing.`,
+        `The ${j.junction} of ${d.element.name} is forward-biased at ${formatEng(j.volts, 'V')}, far beyond where a silicon junction can sit; the computed current (${formatEng(current, 'A')}) is not physical. A series resistance or current limit is probably missing.`,
         c.elements.indexOf(d.element),
       );
       f.data = { junction: j.junction, volts: j.volts, current };
@@ -549,15 +587,14 @@ export class DcSolver {
     return this.circuit.elements[info.element];
   }
 
-  /** The element carrying the value farthest from 1 in magnitude (decades), for overflow hints. */
+  /** The element carrying the value farthest from its ordinary scale (decades), for overflow hints. */
   private mostExtremeElement(): number {
     let best = 0;
     let bestScore = -1;
     this.circuit.elements.forEach((el, i) => {
       for (const v of this.valuesOf(el)) {
-        const s = v.value === 0 || !Number.isFinite(v.value) ? 0 : Math.abs(Math.log10(Math.abs(v.value)));
-        if (s > bestScore) {
-          bestScore = s;
+        if (v.decades > bestScore) {
+          bestScore = v.decades;
           best = i;
         }
       }
@@ -568,47 +605,43 @@ export class DcSolver {
   private extremeValueHint(): string {
     const el = this.circuit.elements[this.mostExtremeElement()];
     if (!el) return '';
-    let pick = { name: '', value: 1 };
-    let score = -1;
-    for (const v of this.valuesOf(el)) {
-      const s = v.value === 0 || !Number.isFinite(v.value) ? 0 : Math.abs(Math.log10(Math.abs(v.value)));
-      if (s > score) {
-        score = s;
-        pick = v;
-      }
-    }
-    return score > 12 ? `The most extreme value is ${pick.name} = ${pick.value.toExponential(2)} on ${el.name}.` : '';
+    let pick: { name: string; value: number; decades: number } | undefined;
+    for (const v of this.valuesOf(el)) if (!pick || v.decades > pick.decades) pick = v;
+    return pick && pick.decades > 12 ? `The most extreme value is ${pick.name} = ${pick.value.toExponential(2)} on ${el.name}.` : '';
   }
 
-  private valuesOf(el: Element): { name: string; value: number }[] {
+  /**
+   * The numbers an element brings into the equations, each with its distance in decades from
+   * its ordinary scale: 1 for most, the DESIGN.md default for IS and KP, which are tiny by nature.
+   */
+  private valuesOf(el: Element): { name: string; value: number; decades: number }[] {
+    const item = (name: string, value: number, typical = 1): { name: string; value: number; decades: number } => ({
+      name,
+      value,
+      decades: value === 0 || !Number.isFinite(value) ? 0 : Math.abs(Math.log10(Math.abs(value)) - Math.log10(typical)),
+    });
     switch (el.kind) {
       case 'R':
-        return [{ name: 'resistance', value: el.resistance }];
+        return [item('resistance', el.resistance)];
       case 'V':
       case 'I':
-        return [{ name: 'DC value', value: el.dc }];
+        return [item('DC value', el.dc)];
       case 'E':
       case 'G':
       case 'F':
       case 'H':
-        return [{ name: 'gain', value: el.gain }];
+        return [item('gain', el.gain)];
       case 'C':
       case 'L':
         return [];
       case 'D':
       case 'Q':
       case 'M': {
-        const out = Object.entries(el.model.params)
-          .filter(([k]) => k !== 'VAF' && k !== 'IS' && k !== 'KP')
-          .map(([name, value]) => ({ name, value }));
-        // Saturation currents and transconductance factors are tiny by nature: judge them against their defaults.
-        for (const k of ['IS', 'KP'] as const) {
-          const v = el.model.params[k];
-          if (v !== undefined && v > 0) out.push({ name: k, value: v / (k === 'IS' ? 1e-16 : 2e-5) });
-        }
-        const vaf = el.model.params.VAF;
-        if (vaf !== undefined && Number.isFinite(vaf)) out.push({ name: 'VAF', value: vaf });
-        out.push({ name: 'area', value: 'area' in el ? el.area : 1 });
+        const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
+        const out = Object.entries(el.model.params).map(([name, value]) => item(name, value, typical[name] ?? 1));
+        if (el.kind === 'M') out.push(item('W', el.w, 1e-6), item('L', el.l, 1e-6));
+        else out.push(item('area', el.area));
+        out.push(item('M', el.m));
         return out;
       }
     }

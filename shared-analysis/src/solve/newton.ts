@@ -36,6 +36,11 @@ export class NewtonEngine {
   readonly values: Float64Array;
   readonly rhs: Float64Array;
   private readonly xNew: Float64Array;
+  /** Equilibrated copy of `values` handed to the factorisation, and the power-of-two row/column scales used. */
+  private readonly scaled: Float64Array;
+  private readonly rowScale: Float64Array;
+  private readonly colScale: Float64Array;
+  private readonly scaledRhs: Float64Array;
   private readonly isVoltage: Uint8Array;
   /** Source values for the current solve (overrides applied), aligned with layout.sources. */
   readonly sourceValues: Float64Array;
@@ -51,6 +56,10 @@ export class NewtonEngine {
     this.values = new Float64Array(layout.linearValues.length);
     this.rhs = new Float64Array(n);
     this.xNew = new Float64Array(n);
+    this.scaled = new Float64Array(layout.linearValues.length);
+    this.rowScale = new Float64Array(n);
+    this.colScale = new Float64Array(n);
+    this.scaledRhs = new Float64Array(n);
     this.lastFinite = new Float64Array(n);
     this.isVoltage = new Uint8Array(n);
     layout.unknowns.forEach((u, k) => {
@@ -92,6 +101,45 @@ export class NewtonEngine {
   }
 
   /**
+   * Row-then-column max-norm equilibration with power-of-two factors (exact in binary
+   * floating point): the factorisation sees R·A·C with every row and column largest
+   * entry in [0.5, 2), so a 1e20 S junction next to a unit source incidence entry is not
+   * mistaken for a singular pivot.
+   */
+  private equilibrate(): void {
+    const { values, scaled, rowScale, colScale } = this;
+    const { rows, cols } = this.layout.pattern;
+    rowScale.fill(0);
+    for (let e = 0; e < rows.length; e++) {
+      const a = Math.abs(values[e]);
+      if (a > rowScale[rows[e]]) rowScale[rows[e]] = a;
+    }
+    for (let k = 0; k < rowScale.length; k++) rowScale[k] = powerOfTwoInverse(rowScale[k]);
+    colScale.fill(0);
+    for (let e = 0; e < rows.length; e++) {
+      const v = values[e] * rowScale[rows[e]];
+      scaled[e] = v;
+      const a = Math.abs(v);
+      if (a > colScale[cols[e]]) colScale[cols[e]] = a;
+    }
+    for (let k = 0; k < colScale.length; k++) colScale[k] = powerOfTwoInverse(colScale[k]);
+    for (let e = 0; e < rows.length; e++) scaled[e] *= colScale[cols[e]];
+  }
+
+  /** Solves A·x = rhs with the equilibrated factors: x = C·(RAC)⁻¹·R·rhs. */
+  private solveScaled(x: Float64Array): void {
+    const { rhs, scaledRhs, rowScale, colScale } = this;
+    for (let k = 0; k < rhs.length; k++) scaledRhs[k] = rhs[k] * rowScale[k];
+    this.solver.solve(scaledRhs, x);
+    for (let k = 0; k < x.length; k++) x[k] *= colScale[k];
+  }
+
+  /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis). */
+  get lastScaledValues(): Float64Array {
+    return this.scaled;
+  }
+
+  /**
    * Newton from x (updated in place to the final iterate). Convergence needs an
    * unlimited iteration whose update and residual are both within TOLERANCES.
    */
@@ -110,12 +158,13 @@ export class NewtonEngine {
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: nonFinite };
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
-        const f = this.solver.factor(values);
+        this.equilibrate();
+        const f = this.solver.factor(this.scaled);
         this.factorizations++;
         if (!f.ok) return { status: 'singular', iterations: it, singularIndex: f.singularIndex };
         factored = true;
       }
-      this.solver.solve(rhs, xNew);
+      this.solveScaled(xNew);
       let finite = true;
       for (let k = 0; k < n; k++) if (!Number.isFinite(xNew[k])) finite = false;
       if (!finite) return { status: 'non-finite', iterations: it, culprits: [] };
@@ -147,4 +196,12 @@ export class NewtonEngine {
     }
     return { status: 'iteration-limit', iterations: run.maxIterations, unsettled };
   }
+}
+
+/** 2^−round(log2 a) for a finite positive a, else 1: a scale that maps a to [0.71, 1.41) without rounding error. */
+function powerOfTwoInverse(a: number): number {
+  if (!(a > 0) || !Number.isFinite(a)) return 1;
+  const e = Math.round(Math.log2(a));
+  // Clamp so the scale itself stays a normal double.
+  return Math.pow(2, -Math.max(-1000, Math.min(1000, e)));
 }
