@@ -122,13 +122,18 @@ export interface MirrorDeviceModel {
 }
 
 /**
- * Reads the devices of a `mirror-unmatched` finding. Accepted data: `{ reference: string,
- * devices: Array<{ device|name: string, model: string, uri?: string, modelSpan?: Span }> }`;
- * the reference device defaults to the first entry. Missing spans are taken from the circuit.
+ * Reads the devices of a `mirror-unmatched` finding. Accepted data: the structure check's
+ * per-device form `{ device: string, referenceDevice: string }`, or a list `{ reference: string,
+ * devices: Array<string | { device|name: string, model: string, uri?: string, modelSpan?: Span }> }`
+ * whose reference defaults to the first entry. Missing models and spans are taken from the circuit.
  */
 function mirrorDevices(finding: Finding, circuit: Circuit | undefined): { reference: MirrorDeviceModel; others: MirrorDeviceModel[] } | undefined {
   const data = finding.data ?? {};
-  const list = Array.isArray(data['devices']) ? (data['devices'] as unknown[]) : [];
+  const list: unknown[] = Array.isArray(data['devices']) ? [...(data['devices'] as unknown[])] : [];
+  // The per-device form the structure check emits: `{ device, referenceDevice }`, located on the device.
+  if (list.length === 0 && typeof data['device'] === 'string' && typeof data['referenceDevice'] === 'string') {
+    list.push(data['referenceDevice'], data['device']);
+  }
   const devices: MirrorDeviceModel[] = [];
   for (const entry of list) {
     if (typeof entry === 'string') {
@@ -155,7 +160,8 @@ function mirrorDevices(finding: Finding, circuit: Circuit | undefined): { refere
       d.uri = el.origin.uri;
     }
   }
-  const refName = typeof data['reference'] === 'string' ? data['reference'].toLowerCase() : devices[0]?.device.toLowerCase();
+  const refField = typeof data['reference'] === 'string' ? data['reference'] : typeof data['referenceDevice'] === 'string' ? data['referenceDevice'] : undefined;
+  const refName = refField !== undefined ? refField.toLowerCase() : devices[0]?.device.toLowerCase();
   const reference = devices.find((d) => d.device.toLowerCase() === refName);
   if (!reference || !reference.model) return undefined;
   return { reference, others: devices.filter((d) => d !== reference) };

@@ -1,8 +1,15 @@
 // The target-current notation: reading valid and malformed annotations (located findings), and checking targets.
 
 import { describe, expect, it } from 'vitest';
-import { readTargets, type Target } from '../../../shared-analysis/src/checks/targets';
+import { resolveOptions, type AnalysisOptions } from '../../../shared-analysis/src/analysis';
+import { runCorners } from '../../../shared-analysis/src/checks/corners';
+import { analyseStructures } from '../../../shared-analysis/src/checks/structures';
+import { checkTargets, readTargets, type Target } from '../../../shared-analysis/src/checks/targets';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
+import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace, type Finding } from '../../../shared-analysis/src/types';
 
 interface ExpectedTarget {
   subject: string;
@@ -169,4 +176,85 @@ describe('readTargets: malformed annotations are located', () => {
         { subject: 'R1', kind: 'card', current: 2e-3 },
       ],
     }));
+});
+
+// ---- checking targets against the solved point and the corners ----
+
+/** The one helper for checking: netlist → codes (and message fragments) of the target findings. */
+function checkMisses(netlist: string, expected: { codes: string[]; says?: string[][]; severities?: string[] }, options: AnalysisOptions = {}): Finding[] {
+  const uri = '/t.cir';
+  const doc = parse(uri, netlist, { hasTitle: true });
+  const { circuit, documents } = elaborate(doc, new MemoryWorkspace({ [uri]: netlist }), {});
+  const solver = new DcSolver(circuit);
+  const nominal = solver.solve({});
+  const structures = recogniseStructures(circuit);
+  const resolved = resolveOptions(options);
+  analyseStructures({ circuit, op: nominal.op, structures, options: resolved });
+  runCorners({ circuit, solver, structures, options: resolved, nominal });
+  const { targets, findings: readFindings } = readTargets(documents);
+  expect(readFindings).toEqual([]);
+  const findings = checkTargets({ circuit, op: nominal.op, structures, targets, options: resolved });
+  expect(findings.map((f) => f.code)).toEqual(expected.codes);
+  findings.forEach((f, i) => {
+    for (const s of expected.says?.[i] ?? []) expect(f.message).toContain(s);
+    if (expected.severities) expect(f.severity).toBe(expected.severities[i]);
+    expect(f.message).not.toMatch(/NaN|undefined|Infinity/);
+    expect(JSON.stringify(f.data)).not.toMatch(/null/);
+  });
+  return findings;
+}
+
+// An invented 5 V bias mirror. Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IREF = (V+ − VBE)/R1
+// and IOUT = IREF/(1 + 2/β): with R1 = 4.3 kΩ, VBE ≈ 0.77 V (IS = 1e-16 A at 1 mA) and β = 100,
+// IOUT ≈ (5 − 0.77)/4.3k / 1.02 ≈ 0.964 mA.
+const mirror = (annotation: string): string => `5 V bias mirror
+VCC vcc 0 DC 5
+R1 vcc b 4.3k
+Q1 b b 0 qn
+Q2 out b 0 qn ${annotation}
+RL vcc out 2k
+.model qn npn (IS=1e-16 BF=100)
+.end
+`;
+
+describe('checkTargets', () => {
+  it('is quiet when the target is met (corners off)', () =>
+    checkMisses(mirror('; expect 0.964mA ±2%'), { codes: [] }, { corners: { enabled: false } }));
+
+  it('reports a miss at nominal with both numbers and the percent', () => {
+    const [f] = checkMisses(mirror('; expect 1mA ±2%'), {
+      codes: ['target-missed'],
+      says: [['Q2 carries 964 µA at the operating point (hand estimate', '−3.6 % from its target of 1 mA ±2 %', 'Changing R1']],
+      severities: ['warning'],
+    });
+    expect(f.data).toMatchObject({ element: 'Q2', target: 1e-3, tolerance: 0.02, resistor: 'R1', series: 'E24' });
+    expect(f.data!['estimate'] as number).toBeCloseTo(0.964e-3, 5);
+  });
+
+  it('makes a miss beyond three times the tolerance an error', () =>
+    checkMisses(mirror('; expect 2mA ±5%'), { codes: ['target-missed'], severities: ['error'] }));
+
+  it('defaults the tolerance to the resistor series', () => {
+    checkMisses(mirror('; expect 1mA corners ±60%'), { codes: [] }); // −3.6 % is inside E24's ±5 %
+    checkMisses(mirror('; expect 1mA corners ±60%'), { codes: ['target-missed'], says: [['±1 %']] }, { resistorSeries: 'E96' });
+  });
+
+  it('reports a target naming an element the circuit lacks', () =>
+    checkMisses(mirror('').replace('.end', '* expect Q9 = 1mA\n.end'), { codes: ['target-not-applicable'], says: [['no element of that name']] }));
+
+  it('reports a target met at nominal but missed at a corner, naming the corner', () => {
+    const [f] = checkMisses(mirror('; expect 0.964mA ±2%'), {
+      codes: ['target-missed-at-corner'],
+      says: [['meets its target', 'at nominal but leaves ±2 %', 'the worst is']],
+      severities: ['info'],
+    });
+    expect(typeof f.data!['corner']).toBe('string');
+    expect(f.message).toContain(f.data!['corner'] as string);
+  });
+
+  it('makes a corner miss a warning when the target gives its own corner tolerance', () =>
+    checkMisses(mirror('; expect 0.964mA ±2% corners ±10%'), { codes: ['target-missed-at-corner'], severities: ['warning'] }));
+
+  it('is quiet when the corners stay inside a wide corner tolerance', () =>
+    checkMisses(mirror('; expect 0.964mA ±2% corners ±60%'), { codes: [] }));
 });

@@ -1,0 +1,137 @@
+// Corner re-solves: the corner list, an output that leaves forward-active only at the low-supply/hot corner, headroom and spread findings.
+
+import { describe, expect, it } from 'vitest';
+import { resolveOptions, type AnalysisOptions } from '../../../shared-analysis/src/analysis';
+import { cornerSpecs, runCorners } from '../../../shared-analysis/src/checks/corners';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
+import { DcSolver, solveOperatingPoint } from '../../../shared-analysis/src/solve/dc';
+import type { BjtRecord } from '../../../shared-analysis/src/solve/types';
+import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
+import type { Structure } from '../../../shared-analysis/src/structures/types';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace, type Finding } from '../../../shared-analysis/src/types';
+
+const URI = '/c.cir';
+
+/** Parses, elaborates, solves, recognises and runs the corners of one netlist. */
+function run(netlist: string, options: AnalysisOptions = {}): { findings: Finding[]; structures: Structure[]; text: string } {
+  const root = parse(URI, netlist, { hasTitle: true });
+  const { circuit } = elaborate(root, new MemoryWorkspace({ [URI]: netlist }), {});
+  const solver = new DcSolver(circuit);
+  const nominal = solver.solve({});
+  expect(nominal.op.converged).toBe(true);
+  const structures = recogniseStructures(circuit);
+  const findings = runCorners({ circuit, solver, structures, options: resolveOptions(options), nominal });
+  return { findings, structures, text: netlist };
+}
+
+/** The one helper: the codes of the corner findings for the device, and their messages' required fragments. */
+function check(netlist: string, device: string, expected: { codes: string[]; says?: Record<string, string[]> }, options: AnalysisOptions = {}): Finding[] {
+  const { findings, text } = run(netlist, options);
+  const mine = findings.filter((f) => f.data?.['device'] === device);
+  expect(mine.map((f) => f.code)).toEqual(expected.codes);
+  for (const f of mine) {
+    for (const frag of expected.says?.[f.code] ?? []) expect(f.message).toContain(frag);
+    expect(f.message).not.toMatch(/NaN|undefined|Infinity/);
+    // Located on the device's card.
+    expect(text.slice(f.span.start, f.span.end).startsWith(device)).toBe(true);
+  }
+  return mine;
+}
+
+// An invented bias cell: a 1 mA current reference into a 1.5 kΩ divider feeds the mirror through R1,
+// so IREF rises with temperature as VBE falls (about −2 mV/°C at constant current, Horowitz and Hill,
+// 3rd ed., ch. 2), while the output's load hangs from a separate 2.2 V supply.
+const cell = (rl: string): string => `sensor bias cell, output load from a 2.2 V rail
+IREF 0 na DC 1m
+RA na 0 1.5k
+R1 na b 2k
+Q1 b b 0 qn
+Q2 out b 0 qn
+VLOAD vload 0 DC 2.2
+RL vload out ${rl}
+.model qn npn (IS=1e-16 BF=100)
+.end
+`;
+
+describe('cornerSpecs', () => {
+  it('gives 3 × 3 × 3 − 1 = 26 corners for one supply source, without the nominal point', () => {
+    const specs = cornerSpecs(resolveOptions({}), 27, ['V1']);
+    expect(specs).toHaveLength(26);
+    expect(specs.some((s) => s.supplyScale === 1 && s.temperatureC === 27 && s.betaScale === 1)).toBe(false);
+    expect(new Set(specs.map((s) => s.label)).size).toBe(26);
+    expect(specs[0].label).toBe('supply −5 %, −40 °C, beta ×0.5');
+  });
+
+  it('adds each source alone at ±tolerance when there are several, and stays bounded', () => {
+    expect(cornerSpecs(resolveOptions({}), 27, ['V1', 'V2'])).toHaveLength(26 + 4);
+    const many = Array.from({ length: 20 }, (_, i) => `V${i}`);
+    expect(cornerSpecs(resolveOptions({}), 27, many)).toHaveLength(26 + 16);
+  });
+
+  it('drops levels equal to nominal', () => {
+    expect(cornerSpecs(resolveOptions({ corners: { supplyTolerance: 0 } }), 27, ['V1'])).toHaveLength(8);
+    expect(cornerSpecs(resolveOptions({ corners: { coldC: 27 } }), 27, ['V1'])).toHaveLength(17);
+  });
+});
+
+describe('runCorners', () => {
+  it('names the low-supply/hot corner where the output leaves forward-active', () => {
+    const [f] = check(cell('6k'), 'Q2', {
+      codes: ['corner-output-out-of-region', 'corner-current-spread'],
+      says: { 'corner-output-out-of-region': ['forward-active at nominal', 'supply −5 %, 125 °C', 'past the VBC = 0 edge'] },
+    });
+    const corners = f.data!['corners'] as string[];
+    expect(corners.length).toBeGreaterThan(0);
+    for (const c of corners) {
+      expect(c).toContain('supply −5 %');
+      expect(c).toContain('125 °C');
+    }
+    expect(f.data!['headroom'] as number).toBeLessThan(0);
+  });
+
+  it('reports nothing at the corners for a load with room to spare', () =>
+    check(cell('2k'), 'Q2', { codes: ['corner-current-spread'] }));
+
+  it('reports low headroom when the output stays active but under the margin', () =>
+    check(cell('5k'), 'Q2', {
+      codes: ['corner-headroom-low', 'corner-current-spread'],
+      says: { 'corner-headroom-low': ['stays forward-active at every corner', 'below the 0.3 V margin'] },
+    }, { headroomMarginV: 0.3 }));
+
+  it('fills structure.corners with finite numbers, measured from one solve per corner', () => {
+    const { structures } = run(cell('6k'));
+    expect(structures).toHaveLength(1);
+    const s = structures[0];
+    expect(s.corners).toHaveLength(26);
+    for (const c of s.corners) {
+      expect(c.converged).toBe(true);
+      for (const v of [c.iref, ...Object.values(c.iout), ...Object.values(c.headroom)]) expect(Number.isFinite(v)).toBe(true);
+    }
+    // The corner's output current equals a fresh, independent solve with the rail and temperature changed.
+    const corner = s.corners.find((c) => c.label === 'supply −5 %, 125 °C')!;
+    const root = parse(URI, cell('6k').replace('DC 2.2', 'DC 2.09'), { hasTitle: true });
+    const { circuit } = elaborate(root, new MemoryWorkspace({}), {});
+    const direct = solveOperatingPoint(circuit, { temperatureC: 125 });
+    expect(corner.iout['Q2']).toBeCloseTo(Math.abs((direct.op.devices['Q2'] as BjtRecord).ic), 9);
+    expect(corner.outOfRegion).toEqual(['Q2']);
+  });
+
+  // Source: Horowitz and Hill, 3rd ed., ch. 2 — VBE falls by about 2 mV/°C at constant current (common
+  // practice), so with a resistor-fed reference IREF rises from cold to hot.
+  it('orders the corner currents the way the VBE temperature coefficient says', () => {
+    const { structures } = run(cell('2k'));
+    const at = (label: string) => structures[0].corners.find((c) => c.label === label)!.iout['Q2'];
+    expect(at('125 °C')).toBeGreaterThan(at('−40 °C'));
+  });
+
+  it('is deterministic', () => {
+    const a = run(cell('6k')).findings;
+    const b = run(cell('6k')).findings;
+    expect(b).toEqual(a);
+  });
+
+  it('does nothing when corners are disabled', () => {
+    expect(run(cell('6k'), { corners: { enabled: false } }).findings).toEqual([]);
+  });
+});
