@@ -1,0 +1,126 @@
+// A real JSON-RPC client for the built language server, spawned over stdio: what the LSP tests drive it with.
+
+import { spawn, type ChildProcessWithoutNullStreams } from 'node:child_process';
+import { existsSync } from 'node:fs';
+import { resolve } from 'node:path';
+import { createMessageConnection, StreamMessageReader, StreamMessageWriter, type MessageConnection } from 'vscode-jsonrpc/node';
+import {
+  ConfigurationRequest,
+  DidChangeTextDocumentNotification,
+  DidOpenTextDocumentNotification,
+  ExitNotification,
+  InitializedNotification,
+  InitializeRequest,
+  InlayHintRefreshRequest,
+  PublishDiagnosticsNotification,
+  RegistrationRequest,
+  ShutdownRequest,
+  WorkDoneProgressCreateRequest,
+  type Diagnostic,
+  type PublishDiagnosticsParams,
+  type TextDocumentContentChangeEvent,
+} from 'vscode-languageserver-protocol/node';
+
+/** Path of the bundled server under test. */
+export const SERVER = resolve(__dirname, '../../dist/server.js');
+
+/** A started server with a connected client. */
+export interface ServerSession {
+  child: ChildProcessWithoutNullStreams;
+  connection: MessageConnection;
+  /** Latest published diagnostics per URI, and how many times each URI was published. */
+  diagnostics: Map<string, PublishDiagnosticsParams>;
+  publishCount: Map<string, number>;
+  stderr: string[];
+  /** Number of inlay-hint refresh requests the server sent. */
+  refreshes: number;
+  open(uri: string, text: string, version?: number): void;
+  change(uri: string, version: number, changes: TextDocumentContentChangeEvent[]): void;
+  /** Polls until `pick()` returns a value (not undefined/false) or the time runs out. */
+  waitFor<T>(what: string, pick: () => T | undefined | false, timeoutMs?: number): Promise<T>;
+  diagnosticsOf(uri: string): Diagnostic[];
+  stop(): Promise<number | null>;
+}
+
+/** Options for {@link startServer}. */
+export interface StartOptions {
+  /** The qpoint settings section the client hands out on workspace/configuration. */
+  settings?: Record<string, unknown>;
+  positionEncodings?: string[];
+}
+
+/** Spawns `node dist/server.js --stdio` and initializes it like an editor would. */
+export async function startServer(options: StartOptions = {}): Promise<ServerSession> {
+  if (!existsSync(SERVER)) throw new Error(`Build the server first (npm run build): ${SERVER} is missing.`);
+  const child = spawn(process.execPath, [SERVER, '--stdio'], { stdio: 'pipe' });
+  const stderr: string[] = [];
+  child.stderr.on('data', (d) => stderr.push(String(d)));
+  const connection = createMessageConnection(new StreamMessageReader(child.stdout), new StreamMessageWriter(child.stdin));
+  const diagnostics = new Map<string, PublishDiagnosticsParams>();
+  const publishCount = new Map<string, number>();
+  const session: ServerSession = {
+    child,
+    connection,
+    diagnostics,
+    publishCount,
+    stderr,
+    refreshes: 0,
+    open(uri, text, version = 1) {
+      void connection.sendNotification(DidOpenTextDocumentNotification.type, { textDocument: { uri, languageId: 'netlist', version, text } });
+    },
+    change(uri, version, changes) {
+      void connection.sendNotification(DidChangeTextDocumentNotification.type, { textDocument: { uri, version }, contentChanges: changes });
+    },
+    async waitFor(what, pick, timeoutMs = 20000) {
+      const until = Date.now() + timeoutMs;
+      for (;;) {
+        const v = pick();
+        if (v !== undefined && v !== false) return v as never;
+        if (Date.now() > until) throw new Error(`Timed out waiting for ${what}. Server stderr:\n${stderr.join('')}`);
+        await new Promise((r) => setTimeout(r, 15));
+      }
+    },
+    diagnosticsOf(uri) {
+      return diagnostics.get(uri)?.diagnostics ?? [];
+    },
+    async stop() {
+      const exited = new Promise<number | null>((r) => child.once('exit', (code) => r(code)));
+      try {
+        await connection.sendRequest(ShutdownRequest.type);
+        await connection.sendNotification(ExitNotification.type);
+      } catch {
+        child.kill();
+      }
+      const code = await Promise.race([exited, new Promise<number | null>((r) => setTimeout(() => r(-999), 5000))]);
+      if (code === -999) child.kill();
+      connection.dispose();
+      return code;
+    },
+  };
+  connection.onNotification(PublishDiagnosticsNotification.type, (p) => {
+    diagnostics.set(p.uri, p);
+    publishCount.set(p.uri, (publishCount.get(p.uri) ?? 0) + 1);
+  });
+  connection.onRequest(ConfigurationRequest.type, (p) => p.items.map((i) => (i.section === 'qpoint' ? (options.settings ?? {}) : null)));
+  connection.onRequest(RegistrationRequest.type, () => null);
+  connection.onRequest(WorkDoneProgressCreateRequest.type, () => null);
+  connection.onRequest(InlayHintRefreshRequest.type, () => {
+    session.refreshes++;
+    return null;
+  });
+  connection.onNotification(() => undefined);
+  connection.listen();
+  await connection.sendRequest(InitializeRequest.type, {
+    processId: process.pid,
+    rootUri: null,
+    capabilities: {
+      general: { positionEncodings: (options.positionEncodings ?? ['utf-16']) as never },
+      workspace: { configuration: true, inlayHint: { refreshSupport: true }, didChangeWatchedFiles: { dynamicRegistration: false } },
+      window: { workDoneProgress: true },
+      textDocument: { publishDiagnostics: { relatedInformation: true }, inlayHint: {}, hover: { contentFormat: ['markdown'] } },
+    },
+    workspaceFolders: null,
+  });
+  await connection.sendNotification(InitializedNotification.type, {});
+  return session;
+}
