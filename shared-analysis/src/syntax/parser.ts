@@ -58,7 +58,12 @@ const ELEMENT_LETTERS = 'RCLVIEFGHDQMX';
 const ELEMENT_LETTER_LIST = 'R, C, L, V, I, E, F, G, H, D, Q, M or X';
 
 /** Transient source functions whose t=0 value is read; the value is this argument of the function. */
-const TRANSIENT_VALUE_ARGUMENT: Record<string, number> = { PULSE: 0, SIN: 0, EXP: 0, PWL: 1 };
+const TRANSIENT_VALUE_ARGUMENT = new Map<string, number>([
+  ['PULSE', 0],
+  ['SIN', 0],
+  ['EXP', 0],
+  ['PWL', 1],
+]);
 
 /** Source and controlled-source forms that are recognised but not supported. */
 const UNSUPPORTED_SOURCE_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ', 'SFFM', 'AM', 'NOISE']);
@@ -595,20 +600,21 @@ function fieldsSpan(name: Token, tokens: Token[]): Span {
   return { start: name.span.start, end: last && last.span.end > name.span.end ? last.span.end : name.span.end };
 }
 
-const ELEMENT_NEEDS: Record<string, { noun: string; needs: string; min: number }> = {
-  R: { noun: 'a resistor', needs: 'two nodes and a value', min: 3 },
-  C: { noun: 'a capacitor', needs: 'two nodes and a value', min: 3 },
-  L: { noun: 'an inductor', needs: 'two nodes and a value', min: 3 },
-  V: { noun: 'a voltage source', needs: 'a positive and a negative node', min: 2 },
-  I: { noun: 'a current source', needs: 'two nodes (current flows from the first through the source to the second)', min: 2 },
-  E: { noun: 'a voltage-controlled voltage source', needs: 'two output nodes, two controlling nodes and a gain', min: 5 },
-  G: { noun: 'a voltage-controlled current source', needs: 'two output nodes, two controlling nodes and a transconductance', min: 5 },
-  F: { noun: 'a current-controlled current source', needs: 'two output nodes, the name of the controlling voltage source and a gain', min: 4 },
-  H: { noun: 'a current-controlled voltage source', needs: 'two output nodes, the name of the controlling voltage source and a transresistance', min: 4 },
-  D: { noun: 'a diode', needs: 'anode and cathode nodes and a model name', min: 3 },
-  Q: { noun: 'a bipolar transistor', needs: 'collector, base and emitter nodes and a model name', min: 4 },
-  M: { noun: 'a MOSFET', needs: 'drain, gate, source and bulk nodes and a model name', min: 5 },
-  X: { noun: 'a subcircuit instance', needs: 'its nodes and the subcircuit name', min: 1 },
+/** What each element letter is called in messages and which fields it needs. */
+const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = {
+  R: { noun: 'a resistor', needs: 'two nodes and a value' },
+  C: { noun: 'a capacitor', needs: 'two nodes and a value' },
+  L: { noun: 'an inductor', needs: 'two nodes and a value' },
+  V: { noun: 'a voltage source', needs: 'a positive and a negative node' },
+  I: { noun: 'a current source', needs: 'two nodes (current flows from the first through the source to the second)' },
+  E: { noun: 'a voltage-controlled voltage source', needs: 'two output nodes, two controlling nodes and a gain' },
+  G: { noun: 'a voltage-controlled current source', needs: 'two output nodes, two controlling nodes and a transconductance' },
+  F: { noun: 'a current-controlled current source', needs: 'two output nodes, the name of the controlling voltage source and a gain' },
+  H: { noun: 'a current-controlled voltage source', needs: 'two output nodes, the name of the controlling voltage source and a transresistance' },
+  D: { noun: 'a diode', needs: 'anode and cathode nodes and a model name' },
+  Q: { noun: 'a bipolar transistor', needs: 'collector, base and emitter nodes and a model name' },
+  M: { noun: 'a MOSFET', needs: 'drain, gate, source and bulk nodes and a model name' },
+  X: { noun: 'a subcircuit instance', needs: 'its nodes and the subcircuit name' },
 };
 
 function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
@@ -679,15 +685,17 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     else if (it.k === 'asg') asgs.push(it.asg);
   }
 
-  const missing = (found: number): Card =>
-    errorCard(
+  const missing = (found: number): Card => {
+    const extra = asgs.length > 0 ? ` and ${asgs.length} name=value parameter${asgs.length === 1 ? '' : 's'}` : '';
+    return errorCard(
       ctx,
       'element-missing-fields',
-      `${owner}: ${need.noun} needs ${need.needs}; found ${found} field${found === 1 ? '' : 's'}.`,
+      `${owner}: ${need.noun} needs ${need.needs}; found ${found} field${found === 1 ? '' : 's'}${extra}.`,
       span,
       tokens,
       fieldsSpan(name, tokens),
     );
+  };
 
   switch (L) {
     case 'R':
@@ -695,7 +703,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     case 'L': {
       // `R1 a b R=1k`: the value may be given as an assignment named after the letter.
       const valueAsg = asgs.find((a) => a.name.text.toUpperCase() === L);
-      if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missing(pos.length + asgs.length);
+      if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missing(pos.length);
       card.nodes = pos.slice(0, 2);
       const rest = pos.slice(2);
       let used = 0;
@@ -874,7 +882,7 @@ function parseSource(
   const params: Assignment[] = [];
   const isKeyword = (t: Token): boolean => {
     const u = t.text.toUpperCase();
-    return t.kind === 'word' && (u === 'DC' || u === 'AC' || u in TRANSIENT_VALUE_ARGUMENT);
+    return t.kind === 'word' && (u === 'DC' || u === 'AC' || TRANSIENT_VALUE_ARGUMENT.has(u));
   };
   let j = 0;
   while (j < items.length) {
@@ -906,7 +914,8 @@ function parseSource(
       for (let k = 0; k < 2 && items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok); k++) j++;
       continue;
     }
-    if (u in TRANSIENT_VALUE_ARGUMENT) {
+    const valueArgument = TRANSIENT_VALUE_ARGUMENT.get(u);
+    if (valueArgument !== undefined) {
       const args: Token[] = [];
       if (items[j]?.k === 'lp') {
         // One parenthesised argument list, or several groups in a row (`PWL (0,0) (1u,5)`).
@@ -924,7 +933,7 @@ function parseSource(
       } else {
         while (items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok)) args.push((items[j++] as { tok: Token }).tok);
       }
-      const idx = TRANSIENT_VALUE_ARGUMENT[u];
+      const idx = valueArgument;
       if (u === 'PWL' && args.length > 0 && !isNumberLike(args[0])) {
         return errorCard(
           ctx,

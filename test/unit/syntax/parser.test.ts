@@ -386,6 +386,12 @@ describe('R, C and L', () => {
     });
   });
 
+  it('counts positional fields and parameters apart in the message', () => {
+    check('R1 a 0 M=2\n^^^^^^^^^^ element-missing-fields', {
+      messages: ['R1: a resistor needs two nodes and a value; found 2 fields and 1 name=value parameter.'],
+    });
+  });
+
   it('warns about an extra positional field', () => {
     check('C1 a 0 1u 2u\n          ^^ unexpected-field', { cards: [el({ letter: 'C', name: 'C1', nodes: ['a', '0'], value: '1u' })] });
   });
