@@ -194,8 +194,8 @@ describe('the language server over stdio', () => {
     await expect(server.connection.sendRequest('qpoint/outputCharacteristic', { nothing: true })).rejects.toThrow(/needs a document uri/);
     await expect(server.connection.sendRequest('qpoint/sizeResistor', null)).rejects.toThrow(/needs a document uri/);
     // An out-of-order edit (older version) is refused without breaking the document.
-    // Had it been applied, `GARBAGE VCC vcc …` would be a malformed G element with an error diagnostic.
-    server.change(uri(), 1, [{ range: { start: { line: 1, character: 0 }, end: { line: 1, character: 0 } }, text: 'GARBAGE ' }]);
+    // Had it been applied, `RVCC vcc 0 DC 10` would be a resistor with the value `DC`: an error diagnostic.
+    server.change(uri(), 1, [{ range: { start: { line: 1, character: 0 }, end: { line: 1, character: 0 } }, text: 'R' }]);
     // A change without a range past the end of the text is clamped.
     version++;
     server.change(uri(), version, [{ range: { start: { line: 500, character: 3 }, end: { line: 600, character: 0 } }, text: '* appended comment\n' }]);
