@@ -1,0 +1,379 @@
+// The command-line checker: `qpoint check` for CI (text, JSON, SARIF) and `qpoint report` for people.
+
+import * as fs from 'node:fs';
+import * as path from 'node:path';
+import { analyse } from '../../shared-analysis/src/service';
+import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
+import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
+import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
+import { formatEngineering } from '../../shared-analysis/src/fixes/format';
+import { findingCatalogue } from '../../shared-analysis/src/codes';
+
+/** Shown with every report: the numbers are for design review, not sign-off. */
+export const CAUTION =
+  'Caution: these figures are design-review estimates, not a sign-off. Mains-powered and high-voltage ' +
+  'circuits need review by a qualified person under local codes and licensed practice.';
+
+const USAGE = `Usage:
+  qpoint check FILE... [options]    check netlists; exit 1 when a finding reaches --fail-level
+  qpoint report FILE... [options]   print the bias point, structures and findings for people
+  qpoint --help | --version
+
+Options:
+  --format text|json|sarif     output of 'check' (default text)
+  --temperature C              analysis temperature in °C (overrides .temp)
+  --series E12|E24|E48|E96|E192  standard series for resistor fixes (default E24)
+  --headroom-margin V          minimum headroom beyond the active-region edge (default 0.3)
+  --supply-tolerance PCT       corner supply tolerance in percent (default 5)
+  --cold C / --hot C           corner temperatures (default -40 / 125)
+  --beta-low F / --beta-high F beta corner factors (default 0.5 / 2)
+  --no-corners                 skip the corner re-solves
+  --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
+  --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
+
+Text output: one line per finding, 'file:line:col severity code message' (lines and columns from 1).`;
+
+const SEVERITY_RANK: Record<Severity, number> = { error: 0, warning: 1, info: 2, hint: 3 };
+
+/** Thrown for bad command lines; reported with the usage text and exit code 2. */
+class UsageError extends Error {}
+
+interface CliOptions {
+  command: 'check' | 'report';
+  files: string[];
+  format: 'text' | 'json' | 'sarif';
+  failLevel: Severity;
+  analysis: AnalysisOptions;
+}
+
+/** Reads files from disk; includes resolve relative to the including file. */
+export class FileWorkspace implements Workspace {
+  read(uri: string): string | undefined {
+    try {
+      return fs.readFileSync(uri, 'utf8');
+    } catch {
+      return undefined;
+    }
+  }
+  resolve(fromUri: string, ref: string): string {
+    return path.resolve(path.dirname(fromUri), ref);
+  }
+}
+
+function parseNumberFlag(flag: string, text: string | undefined): number {
+  const v = text === undefined ? NaN : Number(text);
+  if (!Number.isFinite(v)) throw new UsageError(`${flag} needs a number, got ${text === undefined ? 'nothing' : `'${text}'`}.`);
+  return v;
+}
+
+export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
+  if (argv.length === 0 || argv[0] === '--help' || argv[0] === '-h') return 'help';
+  if (argv[0] === '--version') return 'version';
+  const command = argv[0];
+  if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${command}'.`);
+  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {} };
+  const corners: NonNullable<AnalysisOptions['corners']> = {};
+  const severities: Record<string, Severity | 'off'> = {};
+  for (let i = 1; i < argv.length; i++) {
+    const a = argv[i];
+    const next = () => argv[++i];
+    switch (a) {
+      case '--format': {
+        const f = next();
+        if (f !== 'text' && f !== 'json' && f !== 'sarif') throw new UsageError(`--format takes text, json or sarif, got '${f ?? ''}'.`);
+        opts.format = f;
+        break;
+      }
+      case '--temperature':
+        opts.analysis.temperatureC = parseNumberFlag(a, next());
+        break;
+      case '--series': {
+        const s = (next() ?? '').toUpperCase();
+        if (!['E12', 'E24', 'E48', 'E96', 'E192'].includes(s)) throw new UsageError(`--series takes E12, E24, E48, E96 or E192, got '${s}'.`);
+        opts.analysis.resistorSeries = s as ResistorSeries;
+        break;
+      }
+      case '--headroom-margin':
+        opts.analysis.headroomMarginV = parseNumberFlag(a, next());
+        break;
+      case '--supply-tolerance':
+        corners.supplyTolerance = parseNumberFlag(a, next()) / 100;
+        break;
+      case '--cold':
+        corners.coldC = parseNumberFlag(a, next());
+        break;
+      case '--hot':
+        corners.hotC = parseNumberFlag(a, next());
+        break;
+      case '--beta-low':
+        corners.betaLow = parseNumberFlag(a, next());
+        break;
+      case '--beta-high':
+        corners.betaHigh = parseNumberFlag(a, next());
+        break;
+      case '--no-corners':
+        corners.enabled = false;
+        break;
+      case '--severity': {
+        const spec = next() ?? '';
+        const m = /^([a-z0-9-]+)=(error|warning|info|hint|off)$/.exec(spec);
+        if (!m) throw new UsageError(`--severity takes CODE=LEVEL (LEVEL: error, warning, info, hint or off), got '${spec}'.`);
+        severities[m[1]] = m[2] as Severity | 'off';
+        break;
+      }
+      case '--fail-level': {
+        const l = next();
+        if (l !== 'error' && l !== 'warning' && l !== 'info' && l !== 'hint') throw new UsageError(`--fail-level takes error, warning, info or hint, got '${l ?? ''}'.`);
+        opts.failLevel = l;
+        break;
+      }
+      default:
+        if (a.startsWith('-')) throw new UsageError(`Unknown option '${a}'.`);
+        opts.files.push(a);
+    }
+  }
+  if (opts.files.length === 0) throw new UsageError(`'${command}' needs at least one netlist file.`);
+  opts.analysis.corners = corners;
+  opts.analysis.severities = severities;
+  return opts;
+}
+
+interface FileResult {
+  /** As given on the command line. */
+  path: string;
+  absolute: string;
+  analysis?: Analysis;
+  /** Set when the file itself could not be read. */
+  readError?: string;
+}
+
+/** Zero-based position of an offset in a document the analysis read. */
+function positionIn(analysis: Analysis | undefined, uri: string, offset: number, cache: Map<string, LineIndex>) {
+  let index = cache.get(uri);
+  if (!index) {
+    index = new LineIndex(analysis?.documents[uri]?.text ?? '');
+    cache.set(uri, index);
+  }
+  return index.positionAt(offset);
+}
+
+/** The path to print for a document: relative to the current directory when that is shorter. */
+function displayPath(absolute: string): string {
+  const rel = path.relative(process.cwd(), absolute);
+  return rel && !rel.startsWith('..') ? rel : absolute;
+}
+
+function analyseFiles(opts: CliOptions): FileResult[] {
+  const workspace = new FileWorkspace();
+  return opts.files.map((p) => {
+    const absolute = path.resolve(p);
+    const text = workspace.read(absolute);
+    if (text === undefined) return { path: p, absolute, readError: `Cannot read '${p}': no such file, or not readable.` };
+    return { path: p, absolute, analysis: analyse({ uri: absolute, text }, workspace, opts.analysis) };
+  });
+}
+
+interface JsonDiagnostic {
+  code: string;
+  severity: Severity;
+  message: string;
+  range: { start: { line: number; character: number }; end: { line: number; character: number } };
+  /** Present when the finding lies in another file than the one checked (an included file). */
+  path?: string;
+  related?: { path: string; message: string; range: JsonDiagnostic['range'] }[];
+  data?: Record<string, unknown>;
+}
+
+function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
+  if (r.readError) {
+    const zero = { line: 0, character: 0 };
+    return [{ code: 'file-unreadable', severity: 'error', message: r.readError, range: { start: zero, end: zero } }];
+  }
+  const a = r.analysis!;
+  const cache = new Map<string, LineIndex>();
+  const range = (uri: string, span: { start: number; end: number }) => ({
+    start: positionIn(a, uri, span.start, cache),
+    end: positionIn(a, uri, span.end, cache),
+  });
+  return a.findings.map((f) => {
+    const d: JsonDiagnostic = { code: f.code, severity: f.severity, message: f.message, range: range(f.uri, f.span) };
+    if (f.uri !== a.uri) d.path = displayPath(f.uri);
+    if (f.related?.length) d.related = f.related.map((rl) => ({ path: displayPath(rl.uri), message: rl.message, range: range(rl.uri, rl.span) }));
+    if (f.data) d.data = f.data;
+    return d;
+  });
+}
+
+/** The CLI's JSON document (version 1). Field meanings are documented in the README. */
+export function jsonReport(results: FileResult[]): unknown {
+  return {
+    version: 1,
+    tool: 'qpoint',
+    caution: CAUTION,
+    files: results.map((r) => ({
+      path: r.path,
+      diagnostics: toJsonDiagnostics(r),
+      ...(r.analysis?.operatingPoint ? { operatingPoint: r.analysis.operatingPoint } : {}),
+      ...(r.analysis ? { structures: r.analysis.structures } : {}),
+    })),
+  };
+}
+
+const SARIF_LEVEL: Record<Severity, string> = { error: 'error', warning: 'warning', info: 'note', hint: 'note' };
+
+/** SARIF 2.1.0 (OASIS standard): one run, one result per finding, 1-based UTF-16 columns. */
+export function sarifReport(results: FileResult[]): unknown {
+  const catalogue = findingCatalogue();
+  const codes = new Set<string>();
+  const sarifResults: unknown[] = [];
+  for (const r of results) {
+    for (const d of toJsonDiagnostics(r)) {
+      codes.add(d.code);
+      const file = d.path ?? displayPath(r.absolute);
+      sarifResults.push({
+        ruleId: d.code,
+        level: SARIF_LEVEL[d.severity],
+        message: { text: d.message },
+        locations: [
+          {
+            physicalLocation: {
+              artifactLocation: { uri: file.split(path.sep).join('/') },
+              region: {
+                startLine: d.range.start.line + 1,
+                startColumn: d.range.start.character + 1,
+                endLine: d.range.end.line + 1,
+                endColumn: d.range.end.character + 1,
+              },
+            },
+          },
+        ],
+      });
+    }
+  }
+  const rules = [...codes].sort().map((id) => ({
+    id,
+    shortDescription: { text: catalogue[id]?.summary ?? id },
+    defaultConfiguration: { level: SARIF_LEVEL[catalogue[id]?.severity ?? 'warning'] },
+  }));
+  return {
+    version: '2.1.0',
+    $schema: 'https://json.schemastore.org/sarif-2.1.0.json',
+    runs: [{ tool: { driver: { name: 'qpoint', version: VERSION, rules } }, columnKind: 'utf16CodeUnits', results: sarifResults }],
+  };
+}
+
+function textLines(results: FileResult[]): string[] {
+  const lines: string[] = [];
+  for (const r of results) {
+    for (const d of toJsonDiagnostics(r)) {
+      const file = d.path ?? r.path;
+      lines.push(`${file}:${d.range.start.line + 1}:${d.range.start.character + 1} ${d.severity} ${d.code} ${d.message}`);
+    }
+  }
+  return lines;
+}
+
+const amps = (v: number) => formatEngineering(v, { unit: 'A', style: 'display' });
+const volts = (v: number) => formatEngineering(v, { unit: 'V', style: 'display' });
+
+/** The human-readable bias report of one file. */
+export function textReport(r: FileResult): string {
+  const out: string[] = [];
+  if (!r.analysis) return `${r.path}: ${r.readError}`;
+  const a = r.analysis;
+  const op = a.operatingPoint;
+  out.push(`${r.path} — ${a.circuit?.title || '(no title)'}`);
+  if (op) {
+    out.push(
+      `Operating point at ${op.temperatureC} °C: ${op.converged ? 'converged' : 'did NOT converge'} in ${op.iterations} Newton iterations` +
+        (op.fallbacks.length ? ` (fallbacks: ${op.fallbacks.join(', ')})` : ''),
+    );
+  } else {
+    out.push('Operating point: not solved.');
+  }
+  if (a.structures.length === 0) out.push('No mirrors or reference branches recognised.');
+  for (const s of a.structures) {
+    const outs = s.outputs.map((o) => (o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device)).join(', ');
+    const feed = s.reference.feed === 'resistor' && s.reference.rail
+      ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
+      : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;
+    out.push('');
+    out.push(`${s.kind} (${s.technology}) ${s.reference.device} → ${outs}; ${feed}`);
+    const est = s.estimate;
+    const sol = s.solved;
+    const refLine = ['  IREF'.padEnd(12)];
+    if (est) refLine.push(`estimate ${amps(est.iref)}` + (est.irefShortcut !== undefined ? ` (0.7 V shortcut ${amps(est.irefShortcut)})` : ''));
+    if (sol) refLine.push(`solved ${amps(sol.iref)}`);
+    out.push(refLine.join('  '));
+    for (const o of s.outputs) {
+      const cells = [`  ${o.device}`.padEnd(12)];
+      if (est?.iout[o.device] !== undefined) cells.push(`estimate ${amps(est.iout[o.device])}`);
+      if (sol?.iout[o.device] !== undefined) cells.push(`solved ${amps(sol.iout[o.device])}`);
+      if (s.headroom[o.device] !== undefined) cells.push(`headroom ${volts(s.headroom[o.device])}`);
+      const rec = op?.devices[o.device];
+      if (rec && 'region' in rec) cells.push(rec.region);
+      out.push(cells.join('  '));
+    }
+    if (s.discrepancy) out.push(`  note: ${s.discrepancy}`);
+    if (s.corners.length) {
+      for (const o of s.outputs) {
+        const vals = s.corners.filter((c) => c.converged && c.iout[o.device] !== undefined);
+        if (!vals.length) continue;
+        const lo = vals.reduce((m, c) => (c.iout[o.device] < m.iout[o.device] ? c : m));
+        const hi = vals.reduce((m, c) => (c.iout[o.device] > m.iout[o.device] ? c : m));
+        const worst = vals.reduce((m, c) => ((c.headroom[o.device] ?? Infinity) < (m.headroom[o.device] ?? Infinity) ? c : m));
+        out.push(
+          `  corners ${o.device}: ${amps(lo.iout[o.device])} (${lo.label}) … ${amps(hi.iout[o.device])} (${hi.label}); ` +
+            `worst headroom ${volts(worst.headroom[o.device] ?? NaN)} (${worst.label})`,
+        );
+      }
+    }
+  }
+  const diags = textLines([r]);
+  out.push('');
+  out.push(diags.length ? `Findings (${diags.length}):` : 'Findings: none.');
+  for (const d of diags) out.push(`  ${d}`);
+  return out.join('\n');
+}
+
+const VERSION = '0.1.0';
+
+/** Runs the CLI; returns the exit code (0 clean, 1 findings at or above --fail-level, 2 usage). */
+export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number {
+  let opts: ReturnType<typeof parseArgs>;
+  try {
+    opts = parseArgs(argv);
+  } catch (e) {
+    if (e instanceof UsageError) {
+      process.stderr.write(`qpoint: ${e.message}\n\n${USAGE}\n`);
+      return 2;
+    }
+    throw e;
+  }
+  if (opts === 'help') {
+    write(USAGE + '\n');
+    return 0;
+  }
+  if (opts === 'version') {
+    write(VERSION + '\n');
+    return 0;
+  }
+  const results = analyseFiles(opts);
+  const failRank = SEVERITY_RANK[opts.failLevel];
+  const failing = results.some((r) => r.readError || r.analysis!.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
+  if (opts.command === 'report') {
+    write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
+    return results.some((r) => r.readError) ? 1 : 0;
+  }
+  if (opts.format === 'json') write(JSON.stringify(jsonReport(results), null, 2) + '\n');
+  else if (opts.format === 'sarif') write(JSON.stringify(sarifReport(results), null, 2) + '\n');
+  else {
+    const lines = textLines(results);
+    write(lines.length ? lines.join('\n') + '\n' : '');
+  }
+  return failing ? 1 : 0;
+}
+
+if (require.main === module) {
+  process.exitCode = main(process.argv.slice(2));
+}

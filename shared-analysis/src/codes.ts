@@ -1,0 +1,33 @@
+// Every finding code the engine can report, gathered from the modules that own them.
+
+import type { Severity } from './types';
+import { SYNTAX_CODES } from './syntax/codes';
+import { NETLIST_CODES } from './checks/netlist';
+import { SOLVER_CODES } from './solve/codes';
+import { STRUCTURE_CODES } from './checks/structures';
+import { CORNER_CODES } from './checks/corners';
+import { TARGET_CODES } from './checks/targets';
+import { FIX_CODES } from './fixes/index';
+
+export interface CodeInfo {
+  severity: Severity;
+  summary: string;
+  /** The module family that owns the code. */
+  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'corners' | 'targets' | 'fixes';
+}
+
+/** Code -> default severity, one-line summary and owning group. */
+export function findingCatalogue(): Record<string, CodeInfo> {
+  const out: Record<string, CodeInfo> = {};
+  const groups: [CodeInfo['group'], Record<string, { severity: Severity; summary: string }>][] = [
+    ['syntax', SYNTAX_CODES],
+    ['netlist', NETLIST_CODES],
+    ['solver', SOLVER_CODES],
+    ['structures', STRUCTURE_CODES],
+    ['corners', CORNER_CODES],
+    ['targets', TARGET_CODES],
+    ['fixes', FIX_CODES],
+  ];
+  for (const [group, table] of groups) for (const [code, info] of Object.entries(table)) out[code] ??= { ...info, group };
+  return out;
+}

@@ -1,0 +1,125 @@
+// The engine's facade: one call from netlist text to a complete, plain-data Analysis.
+
+import { resolveOptions, type Analysis, type AnalysisOptions, type ResolvedOptions } from './analysis';
+import { parse } from './syntax/parser';
+import { elaborate } from './elaborate/index';
+import { checkConnectivity } from './checks/connectivity';
+import { DcSolver, type DcSolveResult } from './solve/dc';
+import { recogniseStructures } from './structures/recognise';
+import { analyseStructures } from './checks/structures';
+import { runCorners } from './checks/corners';
+import { readTargets, checkTargets } from './checks/targets';
+import { attachFixes } from './fixes/index';
+import type { ParsedDocument } from './syntax/ast';
+import type { Finding, Workspace } from './types';
+
+declare const performance: { now(): number };
+
+/** The text of the netlist to analyse; `uri` is the id the Workspace resolves includes against. */
+export interface AnalysisInput {
+  uri: string;
+  text: string;
+  version?: number;
+}
+
+/**
+ * Analyses one top-level netlist: parse, elaborate, netlist checks, DC operating point,
+ * structure recognition and hand analysis, corners, targets, fixes. Never throws for any
+ * input text; every problem is a finding.
+ */
+export function analyse(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}): Analysis {
+  const resolved = resolveOptions(options);
+  const timings: Record<string, number> = {};
+  const timed = <T>(stage: string, run: () => T): T => {
+    const t0 = performance.now();
+    try {
+      return run();
+    } finally {
+      timings[stage] = (timings[stage] ?? 0) + performance.now() - t0;
+    }
+  };
+
+  const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: true }));
+  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC }));
+  const findings: Finding[] = [...syntaxFindings(elab.documents), ...elab.findings];
+  const circuit = elab.circuit;
+  findings.push(...timed('connectivity', () => checkConnectivity(circuit)));
+
+  const structures = timed('structures', () => recogniseStructures(circuit));
+  let operatingPoint: Analysis['operatingPoint'];
+  let solver: DcSolver | undefined;
+  if (resolved.solve && circuit.elements.length > 0) {
+    let nominal: DcSolveResult | undefined;
+    timed('solve', () => {
+      solver = new DcSolver(circuit);
+      nominal = solver.solve({ temperatureC: resolved.temperatureC });
+    });
+    if (nominal && solver) {
+      const result = nominal;
+      const dc = solver;
+      operatingPoint = result.op;
+      findings.push(...result.findings);
+      findings.push(...timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
+      if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
+        findings.push(...timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
+      }
+      const targets = timed('targets', () => readTargets(elab.documents));
+      findings.push(...targets.findings);
+      findings.push(
+        ...timed('targets', () =>
+          checkTargets({ circuit, op: result.op, structures, targets: targets.targets, options: resolved }),
+        ),
+      );
+    }
+  } else {
+    findings.push(...analyseStructures({ circuit, op: undefined, structures, options: resolved }));
+  }
+  timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved, solver }));
+
+  return {
+    uri: input.uri,
+    version: input.version,
+    documents: elab.documents,
+    circuit,
+    symbols: elab.symbols,
+    findings: sortFindings(applySeverities(findings, resolved), input.uri),
+    operatingPoint,
+    structures,
+    options: resolved,
+    timings,
+  };
+}
+
+/** Parser errors of every document read, as findings. */
+function syntaxFindings(documents: Record<string, ParsedDocument>): Finding[] {
+  const out: Finding[] = [];
+  for (const doc of Object.values(documents)) {
+    for (const e of doc.errors) {
+      out.push({ code: e.code, severity: e.severity ?? 'error', message: e.message, uri: doc.uri, span: e.span });
+    }
+  }
+  return out;
+}
+
+/** The one place user severity settings apply: a code mapped to 'off' is dropped. */
+export function applySeverities(findings: Finding[], options: ResolvedOptions): Finding[] {
+  const out: Finding[] = [];
+  for (const f of findings) {
+    const override = options.severities[f.code];
+    if (override === 'off') continue;
+    out.push(override ? { ...f, severity: override } : f);
+  }
+  return out;
+}
+
+/** Root document first, then by document id, offset and code, so output is deterministic. */
+function sortFindings(findings: Finding[], rootUri: string): Finding[] {
+  return findings.sort((a, b) => {
+    if (a.uri !== b.uri) {
+      if (a.uri === rootUri) return -1;
+      if (b.uri === rootUri) return 1;
+      return a.uri < b.uri ? -1 : 1;
+    }
+    return a.span.start - b.span.start || a.span.end - b.span.end || (a.code < b.code ? -1 : a.code > b.code ? 1 : 0);
+  });
+}
