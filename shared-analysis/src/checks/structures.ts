@@ -293,7 +293,7 @@ class StructureCheck {
     if (!est || !sol || est.irefFrom === 'unknown') return [];
     const rows: { key: string; est: number; solved: number; rel: number }[] = [];
     const add = (key: string, e: number, x: number) => {
-      if (x > 0 && Number.isFinite(e)) rows.push({ key, est: e, solved: x, rel: (e - x) / x });
+      if (e > 0 && x > 0 && Number.isFinite(e)) rows.push({ key, est: e, solved: x, rel: (x - e) / e });
     };
     add('IREF', est.iref, sol.iref);
     for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0);
@@ -576,12 +576,15 @@ class StructureCheck {
 
   private reportDiscrepancy(): void {
     const rows = this.errors();
-    const worst = rows.reduce((a, b) => (Math.abs(b.rel) > Math.abs(a.rel) ? b : a));
-    const dev = worst.key === 'IREF' ? this.s.reference.device : worst.key;
+    // Point at the output that is furthest off; at the reference device when only IREF is.
+    const outs = rows.filter((r) => r.key !== 'IREF' && Math.abs(r.rel) > DISCREPANCY_THRESHOLD);
+    const worst = outs.length > 0 ? outs.reduce((a, b) => (Math.abs(b.rel) > Math.abs(a.rel) ? b : a)) : undefined;
+    const dev = worst ? worst.key : this.s.reference.device;
     const el = this.topo.elementByName.get(dev)!;
     const list = rows
       .filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD)
       .map((r) => `${r.key === 'IREF' ? 'IREF' : `IOUT(${r.key})`} ${eng(r.est, 'A')} by hand, ${eng(r.solved, 'A')} solved (${percent(r.rel)})`)
+      .reverse()
       .join('; ');
     this.emit(
       'estimate-differs-from-solved',

@@ -17,8 +17,8 @@ const PREFIXES: [number, string][] = [
 export function sig(value: number, digits = 3): string {
   if (!Number.isFinite(value)) return value > 0 ? '∞' : value < 0 ? '−∞' : '?';
   if (value === 0) return '0';
-  const s = Number(value.toPrecision(digits)).toString();
-  return s.replace('-', '−');
+  const s = Number(Math.abs(value).toPrecision(digits)).toString();
+  return value < 0 ? `−${s}` : s;
 }
 
 /**
