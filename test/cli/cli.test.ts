@@ -1,0 +1,130 @@
+// The built `qpoint` CLI: output formats, exit codes and bad input, run as a child process.
+import { describe, expect, it, beforeAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync, existsSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+
+const ROOT = join(__dirname, '../..');
+const CLI = join(ROOT, 'dist/cli.js');
+
+function run(args: string[], cwd = ROOT) {
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: 60000 });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+let dir: string;
+function file(name: string, text: string): string {
+  const p = join(dir, name);
+  writeFileSync(p, text);
+  return p;
+}
+
+beforeAll(() => {
+  if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
+  dir = mkdtempSync(join(tmpdir(), 'qpoint-cli-'));
+});
+
+const MIRROR = `NPN mirror with a load
+VCC vcc 0 12
+R1 vcc ref 11.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN
+RL vcc out 4.7k
+.model QN NPN (IS=1e-15 BF=100)
+.end
+`;
+
+describe('qpoint check', () => {
+  it('prints nothing and exits 0 for a clean netlist', () => {
+    const r = run(['check', '--no-corners', file('clean.cir', MIRROR)]);
+    expect(r.stderr).toBe('');
+    expect(r.code).toBe(0);
+  });
+
+  it('prints file:line:col severity code message and exits 1 on an error', () => {
+    const p = file('bad.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
+    const r = run(['check', p]);
+    expect(r.code).toBe(1);
+    // Q1's model token is on line 4 (1-based), column 10 (1-based).
+    expect(r.stdout).toMatch(new RegExp(`^${p.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}:4:10 error model-not-found `, 'm'));
+  });
+
+  it('writes the documented JSON document with zero-based ranges', () => {
+    const p = file('bad2.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
+    const r = run(['check', '--format', 'json', p]);
+    const doc = JSON.parse(r.stdout);
+    expect(doc.version).toBe(1);
+    expect(doc.files).toHaveLength(1);
+    expect(doc.files[0].path).toBe(p);
+    const d = doc.files[0].diagnostics.find((x: { code: string }) => x.code === 'model-not-found');
+    expect(d.severity).toBe('error');
+    expect(d.range).toEqual({ start: { line: 3, character: 9 }, end: { line: 3, character: 15 } });
+    expect(typeof d.message).toBe('string');
+  });
+
+  it('adds the operating point and structures to the JSON', () => {
+    const r = run(['check', '--format', 'json', '--no-corners', file('m.cir', MIRROR)]);
+    const f = JSON.parse(r.stdout).files[0];
+    expect(f.operatingPoint.converged).toBe(true);
+    expect(f.operatingPoint.devices.Q2.type).toBe('bjt');
+    const s = f.structures[0];
+    expect(s.kind).toBe('simple-mirror');
+    expect(s.reference.device).toBe('Q1');
+    expect(s.outputs.map((o: { device: string }) => o.device)).toEqual(['Q2']);
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β), β = 100 (no Early effect in this model).
+    expect(s.estimate.iout.Q2 / s.estimate.iref).toBeCloseTo(1 / 1.02, 6);
+    expect(Math.abs(s.solved.iout.Q2 - s.estimate.iout.Q2) / s.estimate.iout.Q2).toBeLessThan(0.005);
+  });
+
+  it('writes SARIF 2.1.0 with rules and 1-based regions', () => {
+    const p = file('bad3.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
+    const sarif = JSON.parse(run(['check', '--format', 'sarif', p]).stdout);
+    expect(sarif.version).toBe('2.1.0');
+    const run0 = sarif.runs[0];
+    expect(run0.tool.driver.name).toBe('qpoint');
+    const res = run0.results.find((x: { ruleId: string }) => x.ruleId === 'model-not-found');
+    expect(res.level).toBe('error');
+    expect(res.locations[0].physicalLocation.region).toMatchObject({ startLine: 4, startColumn: 10 });
+    expect(run0.tool.driver.rules.map((x: { id: string }) => x.id)).toContain('model-not-found');
+  });
+
+  it('reports an unreadable file as a finding, not a crash', () => {
+    const r = run(['check', join(dir, 'does-not-exist.cir')]);
+    expect(r.code).toBe(1);
+    expect(r.stdout).toMatch(/error file-unreadable Cannot read/);
+  });
+
+  it('rejects bad command lines with exit 2 and the usage text', () => {
+    for (const args of [['frobnicate'], ['check'], ['check', '--format', 'xml', 'a.cir'], ['check', '--temperature', 'hot', 'a.cir'], ['check', '--severity', 'nonsense', 'a.cir']]) {
+      const r = run(args);
+      expect(r.code, args.join(' ')).toBe(2);
+      expect(r.stderr).toMatch(/Usage:/);
+    }
+  });
+
+  it('applies --severity overrides and --fail-level', () => {
+    const p = file('sev.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
+    const off = run(['check', '--severity', 'model-not-found=off', '--format', 'json', p]);
+    expect(JSON.parse(off.stdout).files[0].diagnostics.some((d: { code: string }) => d.code === 'model-not-found')).toBe(false);
+    const warn = run(['check', '--severity', 'model-not-found=warning', '--format', 'json', p]);
+    const d = JSON.parse(warn.stdout).files[0].diagnostics.find((x: { code: string }) => x.code === 'model-not-found');
+    expect(d.severity).toBe('warning');
+  });
+
+  it('survives binary junk', () => {
+    const p = file('junk.cir', '\u0000\u0001\uD800garbage {{{ \n+ + +\n.subckt\n');
+    const r = run(['check', p]);
+    expect([0, 1]).toContain(r.code);
+    expect(r.stderr).toBe('');
+  });
+});
+
+describe('qpoint report', () => {
+  it('prints structures, currents and the caution for the bundled example', () => {
+    const r = run(['report', 'examples/sensor-bias.cir']);
+    expect(r.code).toBe(0);
+    expect(r.stdout).toMatch(/IREF/);
+    expect(r.stdout).toMatch(/Caution: .*local codes and licensed practice/);
+  });
+});
