@@ -1,0 +1,466 @@
+// The real-editor test: packages the extension, loads it into VS Code (code-server) in headless Chromium, and checks colouring, hover, diagnostics and a quick fix on the demo netlist.
+import { spawn } from 'node:child_process';
+import { cpSync, createWriteStream, existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { createServer } from 'node:net';
+import { tmpdir } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { ensureEditor, progress, runStep, StepError } from './install-editor.mjs';
+
+const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
+const OUT = join(ROOT, 'test-output', 'editor');
+const DEMO = 'sensor-bias.cir';
+const SECOND = 1000;
+
+/** Outcome of every check, printed at the end. */
+const results = [];
+let shotCount = 0;
+
+function record(name, ok, detail) {
+  results.push({ name, ok, detail });
+  process.stdout.write(`${ok ? 'PASS' : 'FAIL'} ${name}${detail ? ` — ${detail}` : ''}\n`);
+}
+
+/** Runs one check; a thrown error fails the check with its message, never the whole run. */
+async function check(name, fn) {
+  try {
+    const detail = await fn();
+    record(name, true, typeof detail === 'string' ? detail : '');
+    return true;
+  } catch (e) {
+    record(name, false, e instanceof Error ? e.message : String(e));
+    return false;
+  }
+}
+
+/** Polls `probe` until it returns a truthy value or `timeoutMs` passes; then throws `message`. */
+async function until(probe, { timeoutMs, intervalMs = 250, message }) {
+  const deadline = Date.now() + timeoutMs;
+  let last;
+  while (Date.now() < deadline) {
+    try {
+      last = await probe();
+      if (last) return last;
+    } catch (e) {
+      last = e;
+    }
+    await sleep(intervalMs);
+  }
+  const why = last instanceof Error ? ` (last error: ${last.message})` : '';
+  throw new Error(`${message} after ${Math.round(timeoutMs / SECOND)} s${why}`);
+}
+
+function sleep(ms) {
+  return new Promise((r) => setTimeout(r, ms));
+}
+
+/** Rejects with `message` when `promise` takes longer than `ms`. */
+function withTimeout(promise, ms, message) {
+  let timer;
+  return Promise.race([
+    promise.finally(() => clearTimeout(timer)),
+    new Promise((_, reject) => {
+      timer = setTimeout(() => reject(new Error(`${message} (no result after ${Math.round(ms / SECOND)} s)`)), ms);
+    }),
+  ]);
+}
+
+function freePort() {
+  return new Promise((resolvePort, reject) => {
+    const srv = createServer();
+    srv.unref();
+    srv.on('error', reject);
+    srv.listen(0, '127.0.0.1', () => {
+      const { port } = srv.address();
+      srv.close(() => resolvePort(port));
+    });
+  });
+}
+
+async function screenshot(page, name) {
+  shotCount++;
+  const file = join(OUT, `${String(shotCount).padStart(2, '0')}-${name}.png`);
+  try {
+    await withTimeout(page.screenshot({ path: file }), 15 * SECOND, `screenshot ${name}`);
+    progress(`screenshot ${file}`);
+  } catch (e) {
+    progress(`could not save screenshot ${file}: ${e.message}`);
+  }
+  return file;
+}
+
+/** Stops a process group started with `detached: true`: TERM, then KILL after a grace period. */
+async function stopGroup(child, label) {
+  if (!child || child.exitCode !== null || child.signalCode !== null) return;
+  const exited = new Promise((r) => child.once('exit', r));
+  try { process.kill(-child.pid, 'SIGTERM'); } catch { return; }
+  const gone = await Promise.race([exited.then(() => true), sleep(5 * SECOND).then(() => false)]);
+  if (!gone) {
+    progress(`${label} did not stop within 5 s; killing it.`);
+    try { process.kill(-child.pid, 'SIGKILL'); } catch { /* already gone */ }
+    await Promise.race([exited, sleep(3 * SECOND)]);
+  }
+}
+
+/** The text of each visible editor line, top to bottom (Monaco renders one `.view-line` per line). */
+async function editorLines(page) {
+  return page.evaluate(() => {
+    const lines = [...document.querySelectorAll('.monaco-editor .view-lines .view-line')];
+    return lines
+      .map((el) => ({ top: parseFloat(el.style.top || '0'), text: (el.textContent ?? '').replace(/\u00a0/g, ' ') }))
+      .sort((a, b) => a.top - b.top)
+      .map((l) => l.text);
+  });
+}
+
+/** Screen box of `word` on the first visible editor line that starts with `lineStart`. */
+async function wordBox(page, lineStart, word) {
+  return page.evaluate(([start, w]) => {
+    for (const line of document.querySelectorAll('.monaco-editor .view-lines .view-line')) {
+      const text = (line.textContent ?? '').replace(/\u00a0/g, ' ');
+      if (!text.trimStart().startsWith(start)) continue;
+      const at = text.indexOf(w);
+      if (at < 0) continue;
+      // Walk the text nodes to the word's offset; Monaco splits a line into one span per token.
+      const walker = document.createTreeWalker(line, NodeFilter.SHOW_TEXT);
+      let offset = 0;
+      for (let n = walker.nextNode(); n; n = walker.nextNode()) {
+        const len = n.textContent.length;
+        if (at < offset + len) {
+          const range = document.createRange();
+          range.setStart(n, at - offset);
+          range.setEnd(n, Math.min(len, at - offset + w.length));
+          const r = range.getBoundingClientRect();
+          return { x: r.left + r.width / 2, y: r.top + r.height / 2, width: r.width, height: r.height };
+        }
+        offset += len;
+      }
+    }
+    return null;
+  }, [lineStart, word]);
+}
+
+/** Colour of the token that holds `word` on the line that starts with `lineStart`. */
+async function tokenColour(page, lineStart, word) {
+  return page.evaluate(([start, w]) => {
+    for (const line of document.querySelectorAll('.monaco-editor .view-lines .view-line')) {
+      const text = (line.textContent ?? '').replace(/\u00a0/g, ' ');
+      if (!text.trimStart().startsWith(start)) continue;
+      for (const span of line.querySelectorAll('span > span')) {
+        if ((span.textContent ?? '').replace(/\u00a0/g, ' ').includes(w)) return getComputedStyle(span).color;
+      }
+    }
+    return null;
+  }, [lineStart, word]);
+}
+
+async function visibleHoverText(page) {
+  return page.evaluate(() => {
+    const hovers = [...document.querySelectorAll('.monaco-hover:not(.hidden) .monaco-hover-content')];
+    return hovers.map((h) => h.textContent ?? '').join('\n').trim();
+  });
+}
+
+/** Hovers `word` on its line, moving off and back until a hover that satisfies `accept` shows (the client registers its hover late on a cold start). */
+async function hoverUntil(page, lineStart, word, accept, timeoutMs) {
+  let lastText = '';
+  await until(async () => {
+    const box = await wordBox(page, lineStart, word);
+    if (!box) throw new Error(`"${word}" is not visible on a line starting with "${lineStart}"`);
+    await page.mouse.move(5, 5);
+    await sleep(150);
+    await page.mouse.move(box.x, box.y, { steps: 4 });
+    const deadline = Date.now() + 2500;
+    while (Date.now() < deadline) {
+      lastText = await visibleHoverText(page);
+      if (lastText && accept(lastText)) return true;
+      await sleep(200);
+    }
+    return false;
+  }, { timeoutMs, intervalMs: 300, message: `no hover with the expected content on ${word} (last hover text: ${JSON.stringify(lastText.slice(0, 300))})` });
+  return lastText;
+}
+
+/** Reads `IC <number> <prefix>A` from a hover and returns amperes. */
+function collectorCurrent(text) {
+  const m = /\bIC\s*[=:]?\s*([−-]?\d+(?:\.\d+)?(?:e[−-]?\d+)?)\s*([pnuµm]?)A\b/.exec(text);
+  if (!m) return undefined;
+  const scale = { p: 1e-12, n: 1e-9, u: 1e-6, 'µ': 1e-6, m: 1e-3, '': 1 }[m[2]];
+  return Number(m[1].replace('−', '-')) * scale;
+}
+
+/** A rough hand estimate of the reference current, (supply − 0.7 V) / RREF, from the demo's own parameters when it has them. */
+function referenceEstimate(netlist) {
+  const supply = /^\s*\.param\s+vsupply\s*=\s*([\d.]+)\s*$/im.exec(netlist);
+  const rref = /^\s*\.param\s+rref\s*=\s*([\d.]+)k\s*$/im.exec(netlist);
+  if (!supply || !rref) return undefined;
+  return (Number(supply[1]) - 0.7) / (Number(rref[1]) * 1e3);
+}
+
+async function main() {
+  const started = Date.now();
+  rmSync(OUT, { recursive: true, force: true });
+  mkdirSync(OUT, { recursive: true });
+  const logFile = join(OUT, 'setup.log');
+
+  const editor = await ensureEditor({ logFile });
+  const setupDone = Date.now();
+
+  // QPOINT_EDITOR_VSIX tests an already packaged extension (for example a release candidate) instead of packaging one.
+  let vsix = process.env.QPOINT_EDITOR_VSIX ? resolve(process.env.QPOINT_EDITOR_VSIX) : join(ROOT, 'dist', 'qpoint.vsix');
+  if (process.env.QPOINT_EDITOR_VSIX) {
+    if (!existsSync(vsix)) throw new StepError('Reading QPOINT_EDITOR_VSIX', `${vsix} does not exist.`);
+    progress(`testing the packaged extension ${vsix}.`);
+  } else {
+    progress('building and packaging the extension (npm run package)...');
+    rmSync(vsix, { force: true });
+    await runStep('npm run package', 'npm', ['run', 'package'], { cwd: ROOT, timeoutMs: 5 * 60 * SECOND, logFile });
+    if (!existsSync(vsix)) throw new StepError('npm run package', `${vsix} was not produced.`);
+  }
+
+  const work = mkdtempSync(join(tmpdir(), 'qpoint-editor-'));
+  const userData = join(work, 'user-data');
+  const extensions = join(work, 'extensions');
+  const browserProfile = join(work, 'browser');
+  const workspace = join(work, 'workspace');
+  const xdg = join(work, 'xdg');
+  for (const d of [userData, extensions, browserProfile, xdg, join(userData, 'User')]) mkdirSync(d, { recursive: true });
+  cpSync(join(ROOT, 'examples'), workspace, { recursive: true });
+  if (!existsSync(join(workspace, DEMO))) throw new StepError('Preparing the workspace', `examples/${DEMO} does not exist.`);
+  const demoText = readFileSync(join(workspace, DEMO), 'utf8');
+  const configFile = join(work, 'code-server.yaml');
+  writeFileSync(configFile, 'auth: none\ncert: false\n');
+  writeFileSync(join(userData, 'User', 'settings.json'), JSON.stringify({
+    'workbench.startupEditor': 'none',
+    'workbench.tips.enabled': false,
+    'workbench.enableExperiments': false,
+    'telemetry.telemetryLevel': 'off',
+    'update.mode': 'none',
+    'extensions.autoCheckUpdates': false,
+    'extensions.autoUpdate': false,
+    'security.workspace.trust.enabled': false,
+    'editor.hover.delay': 150,
+    'editor.minimap.enabled': false,
+    'window.restoreWindows': 'none',
+  }, null, 2));
+  const env = {
+    ...process.env,
+    XDG_CONFIG_HOME: join(xdg, 'config'),
+    XDG_DATA_HOME: join(xdg, 'data'),
+    XDG_CACHE_HOME: join(xdg, 'cache'),
+    // Points the marketplace at a closed loopback port so nothing reaches out.
+    EXTENSIONS_GALLERY: JSON.stringify({ serviceUrl: 'http://127.0.0.1:9/gallery', itemUrl: 'http://127.0.0.1:9/item' }),
+  };
+  const commonArgs = ['--config', configFile, '--user-data-dir', userData, '--extensions-dir', extensions];
+
+  progress('installing the .vsix into a fresh extensions folder...');
+  await runStep('Installing the .vsix', process.execPath, [editor.entry, ...commonArgs, '--install-extension', vsix, '--force'], { env, timeoutMs: 2 * 60 * SECOND, logFile });
+
+  const port = await freePort();
+  const serverLog = createWriteStream(join(OUT, 'code-server.log'));
+  let server;
+  let context;
+  try {
+    progress(`starting code-server on 127.0.0.1:${port}...`);
+    server = spawn(process.execPath, [
+      editor.entry, ...commonArgs,
+      '--bind-addr', `127.0.0.1:${port}`, '--auth', 'none',
+      '--disable-telemetry', '--disable-update-check', '--disable-workspace-trust',
+      '--disable-getting-started-override', '--ignore-last-opened', workspace,
+    ], { env, detached: true, stdio: ['ignore', 'pipe', 'pipe'] });
+    liveServer = server;
+    server.stdout.pipe(serverLog);
+    server.stderr.pipe(serverLog);
+    let serverExit;
+    server.once('exit', (code, signal) => { serverExit = signal ?? `code ${code}`; });
+    await until(async () => {
+      if (serverExit) throw new StepError('Starting code-server', `it exited with ${serverExit}; see ${join(OUT, 'code-server.log')}.`);
+      const r = await fetch(`http://127.0.0.1:${port}/healthz`, { signal: AbortSignal.timeout(2000) }).catch(() => undefined);
+      return r && r.ok;
+    }, { timeoutMs: 60 * SECOND, intervalMs: 250, message: 'code-server did not answer /healthz' }).catch((e) => {
+      if (e instanceof StepError) throw e;
+      throw new StepError('Starting code-server', e.message);
+    });
+    progress(`code-server is up (${((Date.now() - setupDone) / SECOND).toFixed(1)} s after setup).`);
+
+    const { chromium } = await import('playwright-core');
+    context = await withTimeout(chromium.launchPersistentContext(browserProfile, {
+      executablePath: editor.chromium,
+      headless: true,
+      viewport: { width: 1400, height: 900 },
+      args: ['--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+    }), 60 * SECOND, 'launching chromium');
+    context.setDefaultTimeout(30 * SECOND);
+    await context.route('**/*', (route) => {
+      const url = new URL(route.request().url());
+      if (url.hostname === '127.0.0.1' || url.protocol === 'data:' || url.protocol === 'blob:') return route.continue();
+      return route.abort();
+    });
+    const page = context.pages()[0] ?? await context.newPage();
+    const pageErrors = [];
+    page.on('pageerror', (e) => pageErrors.push(e.message));
+
+    await page.goto(`http://127.0.0.1:${port}/?folder=${encodeURIComponent(workspace)}`, { waitUntil: 'domcontentloaded', timeout: 60 * SECOND });
+    await page.waitForSelector('.monaco-workbench', { timeout: 60 * SECOND });
+
+    const titleLine = demoText.split(/\r?\n/)[0].trim();
+    const opened = await check(`opens examples/${DEMO} in the editor`, async () => {
+      await until(async () => {
+        await page.keyboard.press('Control+P');
+        const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 5 * SECOND });
+        await input.fill(DEMO);
+        await sleep(600);
+        await page.keyboard.press('Enter');
+        return until(async () => (await editorLines(page)).some((l) => l.trim().startsWith(titleLine.slice(0, 30))), { timeoutMs: 8 * SECOND, message: 'the file did not show' }).catch(() => false);
+      }, { timeoutMs: 45 * SECOND, intervalMs: 500, message: `the editor did not show the first line "${titleLine}"` });
+      return `title line "${titleLine}" visible`;
+    });
+    await screenshot(page, 'opened');
+    if (!opened) return;
+
+    await check('the editor uses the netlist language from the extension', async () => {
+      const mode = await until(async () => page.evaluate(() => {
+        const items = [...document.querySelectorAll('.statusbar-item')].map((e) => (e.textContent ?? '').trim());
+        return items.find((t) => /netlist/i.test(t));
+      }), { timeoutMs: 20 * SECOND, message: 'the status bar shows no netlist language mode' });
+      return `status bar language mode "${mode}"`;
+    });
+
+    await check('the grammar colours comments, element names and numbers differently', async () => {
+      const comment = demoText.split(/\r?\n/).find((l) => /^\*\s+\S/.test(l));
+      const element = demoText.split(/\r?\n/).find((l) => /^R\w*\s+\S+\s+\S+\s+\d/i.test(l));
+      if (!comment || !element) throw new Error('the demo netlist has no comment line or resistor with a numeric value to compare');
+      const [name, , , value] = element.trim().split(/\s+/);
+      const colours = await until(async () => {
+        const c = await tokenColour(page, comment.slice(0, 12), comment.slice(2, 8));
+        const e = await tokenColour(page, name, name);
+        const v = await tokenColour(page, name, value);
+        return c && e && v ? { c, e, v } : null;
+      }, { timeoutMs: 15 * SECOND, message: 'could not read the token colours' });
+      if (new Set([colours.c, colours.e, colours.v]).size < 3) {
+        throw new Error(`expected three colours, got comment ${colours.c}, element ${colours.e}, number ${colours.v}`);
+      }
+      return `comment ${colours.c}, ${name} ${colours.e}, ${value} ${colours.v}`;
+    });
+
+    // Hover a mirror output transistor: the first Q card that is not diode-connected.
+    const qLine = demoText.split(/\r?\n/).find((l) => {
+      const f = l.trim().split(/\s+/);
+      return /^Q/i.test(f[0] ?? '') && f.length >= 5 && f[1] !== f[2];
+    });
+    const qName = qLine?.trim().split(/\s+/)[0];
+    await check(`hovering ${qName ?? 'a transistor'} shows its collector current`, async () => {
+      if (!qName) throw new Error(`examples/${DEMO} has no BJT output card to hover`);
+      const text = await hoverUntil(page, qName + ' ', qName, (t) => collectorCurrent(t) !== undefined, 90 * SECOND);
+      const ic = collectorCurrent(text);
+      if (!(Number.isFinite(ic) && ic > 0)) throw new Error(`the collector current ${ic} A is not a positive number`);
+      const estimate = referenceEstimate(demoText);
+      if (estimate !== undefined && (ic < estimate / 2 || ic > estimate * 2)) {
+        throw new Error(`IC = ${ic} A is not within a factor of two of the hand estimate (supply − 0.7 V)/RREF = ${estimate.toExponential(3)} A`);
+      }
+      await screenshot(page, 'hover');
+      return `IC = ${(ic * 1e3).toFixed(4)} mA${estimate !== undefined ? ` (hand estimate of IREF ${(estimate * 1e3).toFixed(3)} mA)` : ''}`;
+    });
+    await page.mouse.move(5, 5);
+    await page.keyboard.press('Escape');
+
+    let markerTexts = [];
+    const problems = await check('the Problems panel lists a qpoint finding with its code', async () => {
+      await page.keyboard.press('Control+Shift+M');
+      markerTexts = await until(async () => {
+        const rows = await page.evaluate(() => [...document.querySelectorAll('.markers-panel .monaco-list-row')].map((r) => (r.textContent ?? '').trim()));
+        const ours = rows.filter((t) => /qpoint/i.test(t));
+        return ours.length > 0 ? ours : null;
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'no qpoint diagnostic appeared in the Problems panel' });
+      const withCode = markerTexts.find((t) => /\(?[a-z]+(?:-[a-z0-9]+)+\)?/.test(t));
+      if (!withCode) throw new Error(`no finding code (kebab-case) in: ${markerTexts.join(' | ')}`);
+      await screenshot(page, 'problems');
+      return `${markerTexts.length} qpoint row(s); first: ${markerTexts[0].slice(0, 160)}`;
+    });
+
+    await check('a quick fix from Ctrl+. changes the netlist text', async () => {
+      if (!problems) throw new Error('no qpoint diagnostic to fix');
+      const before = (await editorLines(page)).join('\n');
+      const rows = await page.$$('.markers-panel .monaco-list-row');
+      const tried = [];
+      for (const row of rows.slice(0, 8)) {
+        const rowText = ((await row.textContent()) ?? '').trim();
+        if (!/qpoint/i.test(rowText)) continue;
+        // Opening a marker puts the editor cursor on the finding.
+        await row.dblclick();
+        await sleep(500);
+        await page.keyboard.press('Control+.');
+        const menu = await page.waitForSelector('.action-widget .monaco-list-row', { timeout: 5 * SECOND }).catch(() => null);
+        if (!menu) {
+          tried.push(`${rowText.slice(0, 60)}: no code action menu`);
+          await page.keyboard.press('Escape');
+          continue;
+        }
+        const items = await page.evaluate(() => [...document.querySelectorAll('.action-widget .monaco-list-row.action')].map((r) => ({
+          text: (r.textContent ?? '').trim(),
+          disabled: r.classList.contains('option-disabled') || r.getAttribute('aria-disabled') === 'true',
+        })));
+        const fixIndex = items.findIndex((i) => !i.disabled && !/^(size|plot|learn|configure|disable|ignore)/i.test(i.text));
+        if (fixIndex < 0) {
+          tried.push(`${rowText.slice(0, 60)}: only ${items.map((i) => i.text).join(', ')}`);
+          await page.keyboard.press('Escape');
+          continue;
+        }
+        await screenshot(page, 'quick-fix-menu');
+        const chosen = items[fixIndex].text;
+        // The menu focuses the first action; step down to the chosen one.
+        for (let k = 0; k < fixIndex; k++) await page.keyboard.press('ArrowDown');
+        await page.keyboard.press('Enter');
+        const after = await until(async () => {
+          const now = (await editorLines(page)).join('\n');
+          return now !== before ? now : null;
+        }, { timeoutMs: 15 * SECOND, message: `applying "${chosen}" did not change the text` });
+        await screenshot(page, 'quick-fix-applied');
+        const changed = after.split('\n').filter((l) => !before.split('\n').includes(l));
+        return `applied "${chosen}"; new line(s): ${changed.map((l) => l.trim()).join(' | ').slice(0, 200)}`;
+      }
+      throw new Error(`no qpoint diagnostic offered a quick fix (${tried.join('; ') || 'no rows'})`);
+    });
+
+    await check('the page raised no uncaught script errors from the extension', async () => {
+      const ours = pageErrors.filter((m) => /qpoint/i.test(m));
+      if (ours.length > 0) throw new Error(ours.join(' | '));
+      return pageErrors.length ? `${pageErrors.length} unrelated workbench error(s) ignored` : 'none';
+    });
+  } finally {
+    if (context) await withTimeout(context.close(), 10 * SECOND, 'closing chromium').catch((e) => progress(e.message));
+    await stopGroup(server, 'code-server');
+    serverLog.end();
+    rmSync(work, { recursive: true, force: true });
+    progress(`run time ${((Date.now() - started) / SECOND).toFixed(1)} s (setup ${((setupDone - started) / SECOND).toFixed(1)} s)`);
+  }
+}
+
+// An interrupted run still stops code-server (and with it the extension host and language server).
+let liveServer;
+for (const signal of ['SIGINT', 'SIGTERM', 'SIGHUP']) {
+  process.once(signal, () => {
+    if (liveServer?.pid) { try { process.kill(-liveServer.pid, 'SIGKILL'); } catch { /* already gone */ } }
+    process.stderr.write(`[editor-test] stopped by ${signal}.\n`);
+    process.exit(130);
+  });
+}
+
+// Fail loudly, never hang: the whole run has an outer limit as well as per-step limits.
+const OVERALL_LIMIT_MS = 40 * 60 * SECOND;
+const overall = setTimeout(() => {
+  process.stderr.write(`[editor-test] the run exceeded ${OVERALL_LIMIT_MS / 60000} minutes and was stopped.\n`);
+  process.exit(2);
+}, OVERALL_LIMIT_MS);
+overall.unref();
+
+main()
+  .catch((e) => {
+    record('setting up the editor', false, e instanceof Error ? e.message : String(e));
+  })
+  .finally(() => {
+    const passed = results.filter((r) => r.ok).length;
+    const failed = results.length - passed;
+    process.stdout.write(`${passed} passed, ${failed} failed\n`);
+    process.exitCode = failed > 0 || passed === 0 ? 1 : 0;
+  });
