@@ -1,0 +1,43 @@
+// Writes the README's finding-code table from the engine's code catalogue (`npm run docs:codes`).
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { findingCatalogue } from '../shared-analysis/src/codes';
+
+const START = '<!-- codes:start -->';
+const END = '<!-- codes:end -->';
+
+const groupTitle: Record<string, string> = {
+  syntax: 'Reading the text',
+  netlist: 'Netlist structure',
+  solver: 'Operating point',
+  structures: 'Mirrors and reference branches',
+  corners: 'Corners',
+  targets: 'Target currents',
+  fixes: 'Fixes',
+};
+
+/** The markdown table, grouped by the module family that owns each code. */
+export function codesMarkdown(): string {
+  const cat = findingCatalogue();
+  const lines: string[] = ['| code | default | meaning |', '|---|---|---|'];
+  for (const group of Object.keys(groupTitle)) {
+    const codes = Object.entries(cat).filter(([, i]) => i.group === group);
+    if (!codes.length) continue;
+    lines.push(`| **${groupTitle[group]}** | | |`);
+    for (const [code, info] of codes) lines.push(`| \`${code}\` | ${info.severity} | ${info.summary.replace(/\|/g, '\\|')} |`);
+  }
+  return lines.join('\n');
+}
+
+/** README text with the table between the markers replaced by the current one. */
+export function withCodesTable(readme: string): string {
+  const a = readme.indexOf(START);
+  const b = readme.indexOf(END);
+  if (a < 0 || b < a) throw new Error(`README.md lacks the ${START} … ${END} markers.`);
+  return readme.slice(0, a + START.length) + '\n' + codesMarkdown() + '\n' + readme.slice(b);
+}
+
+if (require.main === module) {
+  const path = join(process.cwd(), 'README.md');
+  writeFileSync(path, withCodesTable(readFileSync(path, 'utf8')));
+}
