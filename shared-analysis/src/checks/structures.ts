@@ -247,6 +247,7 @@ class StructureCheck {
         const gm = i / ((p.NF ?? 1) * thermalVolts(this.temperatureC));
         const rpi = beta / gm;
         switch (this.s.kind) {
+          case 'simple-mirror':
           case 'widlar-source':
             r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, rpi) : ro;
             break;
@@ -268,6 +269,7 @@ class StructureCheck {
         const kb = (p.KP ?? 2e-5) * t.scale;
         const gm = Math.sqrt(2 * kb * i);
         switch (this.s.kind) {
+          case 'simple-mirror':
           case 'widlar-source':
             r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, Infinity) : ro;
             break;
@@ -306,7 +308,14 @@ class StructureCheck {
     if (bad.length === 0) return undefined;
     const reasons: string[] = [];
     const s = this.s;
-    for (const d of this.measured?.outOfRegion ?? []) reasons.push(`${d} is out of its active region at the operating point`);
+    for (const d of this.measured?.outOfRegion ?? []) {
+      const rec = this.op?.devices[d];
+      const saturated = rec?.type === 'bjt' && rec.region === 'saturation';
+      reasons.push(
+        `${d} is out of its active region at the operating point` +
+          (saturated && s.outputs.length > 1 ? ' (saturated, it also draws extra base current from the shared control node, which lowers the other outputs)' : ''),
+      );
+    }
     const unmatched = this.unmatchedPairs();
     if (unmatched.length > 0) reasons.push(`unmatched devices (${unmatched.map((u) => `${u.device}: ${u.differing.join(', ')}`).join('; ')})`);
     const finiteEarly = s.devices.some((d) => {
@@ -331,7 +340,7 @@ class StructureCheck {
     if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && reasons.length === 0)
       reasons.push(`the reference branch: IREF ${eng(irefRow.est, 'A')} by hand against ${eng(irefRow.solved, 'A')} solved, so something else on the reference node draws or supplies current`);
     if (reasons.length === 0)
-      reasons.push(s.kind === 'widlar-source' ? 'the Widlar equation neglects the reference base currents and the Early effect' : 'the simplifications of the hand formula');
+      reasons.push(s.outputs.some((o) => o.degeneration) ? 'the Widlar equation neglects the reference base currents and the Early effect' : 'the simplifications of the hand formula');
     return reasons.join('; ');
   }
 
@@ -557,9 +566,11 @@ class StructureCheck {
     for (const o of this.s.outputs) {
       if (Math.abs(o.ratio - 1) < 1e-9) continue;
       const t = this.t(o.device);
-      const sumM = this.s.outputs.reduce((a, x) => a + x.ratio, 0);
+      // Widlar outputs carry far less than their ratio; the estimate counts their base currents separately.
+      const sumM = this.s.outputs.filter((x) => !x.degeneration).reduce((a, x) => a + x.ratio, 0);
       let formula: string;
-      if (!this.bipolar) formula = `IOUT ≈ ${sig(o.ratio)}·IREF`;
+      if (o.degeneration) formula = `IOUT from the Widlar equation with the ratio inside the logarithm, NF·VT·ln(${sig(o.ratio)}·IC1/IOUT) = IOUT·R2`;
+      else if (!this.bipolar) formula = `IOUT ≈ ${sig(o.ratio)}·IREF`;
       else if (this.s.kind === 'simple-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/β)`;
       else if (this.s.kind === 'helper-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/(β(β + 1)))`;
       else formula = `IOUT ≈ ${sig(o.ratio)}·IREF by geometry`;

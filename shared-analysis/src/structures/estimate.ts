@@ -276,7 +276,22 @@ class HandAnalysis {
     if (irefFrom !== 'resistor') steps.push(...st.steps.filter((x) => x.quantity.startsWith('V')));
     steps.push(...st.steps.filter((x) => !x.quantity.startsWith('V')));
     const outputEdge: Record<string, number> = {};
-    if (vCommon !== undefined) for (const [k, v] of Object.entries(st.edge)) outputEdge[k] = vCommon + this.sign * v;
+    if (vCommon !== undefined) {
+      for (const [k, v] of Object.entries(st.edge)) {
+        outputEdge[k] = vCommon + this.sign * v;
+        const node = this.s.outputs.find((o) => o.device === k)?.node ?? k;
+        const cmp = this.sign > 0 ? '≥' : '≤';
+        steps.push({
+          quantity: `Compliance edge V(${node})`,
+          formula: this.bipolar
+            ? `V(${node}) ${cmp} V(base of ${k}): the VBC = 0 edge of forward-active (stricter than the textbook VCE(sat) ≈ 0.2 V)`
+            : `V(${node}) ${cmp} V(gate of ${k}) − VTH: the VDS = VGS − VTH edge of saturation (${RAZAVI})`,
+          substituted: `${eng(vCommon, 'V')} ${this.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
+          value: outputEdge[k],
+          unit: 'V',
+        });
+      }
+    }
     return {
       iref,
       iout: st.iout,

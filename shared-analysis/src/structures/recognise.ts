@@ -207,8 +207,10 @@ class Recogniser {
    * Simple mirror and Widlar source on a diode-connected reference D (collector = base = A,
    * emitter on E). Every other device with its base on A is an output when its emitter is
    * on E (simple, ratioed by geometry) or reaches E through exactly one resistor R2 and
-   * nothing else (Widlar). Further diode-connected devices on A with emitters on E are
-   * paralleled reference devices. No output, no structure.
+   * nothing else (Widlar). The kind is `widlar-source` when every output is degenerated and
+   * `simple-mirror` otherwise (the degenerated outputs of a mixed one carry `degeneration`).
+   * Further diode-connected devices on A with emitters on E are paralleled reference
+   * devices. No output, no structure.
    * ```
    *   IREF        IOUT           IOUT (Widlar)
    *    A ┬───┬─────┐              │
@@ -243,7 +245,8 @@ class Recogniser {
     }
     if (outputs.length === 0) return undefined;
     return {
-      kind: outputs.some((o) => o.degeneration) ? 'widlar-source' : 'simple-mirror',
+      // A reference with both plain and degenerated outputs stays a simple mirror; each Widlar output carries its `degeneration`.
+      kind: outputs.every((o) => o.degeneration) ? 'widlar-source' : 'simple-mirror',
       reference: d,
       refNode: a,
       members: [
