@@ -1,7 +1,7 @@
 // Unit tests of the netlist parser: every card form, comments, continuations, expressions, error cards and their ranges.
 
 import { describe, expect, it } from 'vitest';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { isNumberLike, parse, unquote } from '../../../shared-analysis/src/syntax/parser';
 import type { Card, ParsedDocument, ParseOptions, Token } from '../../../shared-analysis/src/syntax/ast';
 
 // ---------------------------------------------------------------------------
@@ -795,6 +795,38 @@ describe('.end', () => {
 
   it('does not take .ends or .endl for .end', () => {
     check('.subckt A x\n.ends\n.lib s\n.endl s\nR1 a 0 1', { cards: [expect.anything(), expect.anything(), expect.anything(), expect.anything(), expect.anything()] });
+  });
+});
+
+describe('.end as a title and with a comment', () => {
+  it('does not stop at a title that reads .end', () => {
+    check('.end\n^^^^ title-looks-like-card\nR1 a 0 1k', {
+      options: { hasTitle: true },
+      cards: [{ kind: 'title', text: '.end' }, el({ letter: 'R', name: 'R1', nodes: ['a', '0'], value: '1k' })],
+    });
+  });
+
+  it('stops at .end followed by an end-of-line comment', () => {
+    check('.end ; finished\nR1 a 0 1k\n^^^^^^^^^ text-after-end', { cards: [{ kind: 'end' }] });
+  });
+});
+
+describe('token helpers', () => {
+  const word = (text: string, kind: 'word' | 'expr' = 'word') => ({ text, kind, span: { start: 0, end: text.length } });
+
+  it('tells values from names', () => {
+    // Numbers start with a digit, or a sign or point followed by one (common practice for netlist values).
+    for (const v of ['0', '10k', '-5', '+3.3', '.5', '-.25', '1e-15']) expect(isNumberLike(word(v)), v).toBe(true);
+    for (const v of ['QN', 'vcc', '-', '.', '+x', 'n1']) expect(isNumberLike(word(v)), v).toBe(false);
+    expect(isNumberLike(word('{w*2}', 'expr'))).toBe(true);
+  });
+
+  it('strips matching quotes only', () => {
+    expect(unquote(word('"models/a.lib"'))).toBe('models/a.lib');
+    expect(unquote(word("'b.lib'"))).toBe('b.lib');
+    expect(unquote(word('"open.lib'))).toBe('"open.lib');
+    expect(unquote(word('plain.lib'))).toBe('plain.lib');
+    expect(unquote(word('"'))).toBe('"');
   });
 });
 
