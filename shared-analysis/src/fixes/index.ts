@@ -7,10 +7,13 @@ import type { DcSolver } from '../solve/dc';
 import type { Structure } from '../structures/types';
 import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Finding, Fix, Severity } from '../types';
-import { isSeriesName, type SeriesName } from './e-series';
+import { isSeriesName, seriesTolerance, type SeriesName } from './e-series';
 import { formatEngineering, formatPercent } from './format';
 import { missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
-import { sizeResistorForCurrent, valueEdit, type SizingResult } from './resistor-for-current';
+import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingResult } from './resistor-for-current';
+
+/** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
+const FINER: Record<SeriesName, SeriesName | undefined> = { E12: 'E24', E24: 'E96', E48: 'E96', E96: 'E192', E192: undefined };
 
 /** What the fix builders may use. */
 export interface FixContext {
@@ -35,7 +38,7 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
   },
   'target-missed': {
     severity: 'warning',
-    summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; the closer one is preferred.',
+    summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; when neither meets the target tolerance, the closest value of the next finer series is offered too; the closest is preferred.',
   },
 };
 
@@ -99,27 +102,44 @@ function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, S
   const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
   const structure = structureId ? ctx.structures.find((s) => s.id === structureId) : undefined;
 
-  const key = `${r.name}|${element}|${target}|${series}`;
-  let sizing = ctx.sizingCache?.get(key);
-  if (!sizing) {
-    sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series, device: element, temperatureC: ctx.options.temperatureC });
-    ctx.sizingCache?.set(key, sizing);
+  const size = (sr: SeriesName): SizingResult => {
+    const key = `${r.name}|${element}|${target}|${sr}`;
+    let sizing = ctx.sizingCache?.get(key);
+    if (!sizing) {
+      sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC });
+      ctx.sizingCache?.set(key, sizing);
+    }
+    return sizing;
+  };
+  const tolerance = typeof d['tolerance'] === 'number' && d['tolerance'] > 0 ? d['tolerance'] : seriesTolerance(series);
+  const sizing = size(series);
+  const offered: { c: SizingCandidate; series: SeriesName }[] = sizing.candidates.map((c) => ({ c, series }));
+  // When neither neighbour in the chosen series meets the target's tolerance, also offer the closest value of a finer series.
+  const finer = FINER[series];
+  if (finer && !sizing.candidates.some((c) => Math.abs(c.error) <= tolerance)) {
+    const fine = size(finer);
+    const closest = fine.candidates.reduce<SizingCandidate | undefined>((a, b) => (!a || Math.abs(b.error) < Math.abs(a.error) ? b : a), undefined);
+    if (closest && !offered.some((o) => Math.abs(o.c.value - closest.value) < 1e-9 * closest.value)) offered.push({ c: closest, series: finer });
   }
-  if (sizing.candidates.length === 0) return [];
-  const best = sizing.candidates.reduce((a, b) => (Math.abs(b.error) < Math.abs(a.error) ? b : a));
+  const current = r.resistance;
+  // Writing the value the card already has would change nothing.
+  const useful = offered.filter((o) => Math.abs(o.c.value - current) > 1e-9 * current);
+  if (useful.length === 0) return [];
+  const best = useful.reduce((a, b) => (Math.abs(b.c.error) < Math.abs(a.c.error) ? b : a));
   const shared = r.origin.instances.length > 0 ? ' in the subcircuit definition (every instance changes)' : '';
   const card = cardAt(documents[r.origin.uri], r.origin.span.start);
   const hasM = card?.params.some((p) => p.name.text.toLowerCase() === 'm') ?? false;
   const fixes: Fix[] = [];
-  for (const c of sizing.candidates) {
+  for (const o of useful) {
+    const c = o.c;
     const written = c.value * scale;
     const text = formatEngineering(written, { style: 'netlist', digits: 4 });
     const edit = valueEdit(r.origin.uri, r.origin, text);
     if (!edit || text === '') continue;
     const perDevice = hasM && Math.abs(scale - 1) > 1e-12 ? ` (${formatEngineering(c.value, { unit: 'Ω' })} effective with M=)` : '';
     fixes.push({
-      title: `Set ${r.name} to ${text}${perDevice} (${series})${shared}: ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}`,
-      preferred: c === best ? true : undefined,
+      title: `Set ${r.name} to ${text}${perDevice} (${o.series})${shared}: ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}`,
+      preferred: o === best ? true : undefined,
       edits: [edit],
     });
   }
