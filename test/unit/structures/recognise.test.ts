@@ -2,7 +2,10 @@
 
 import { describe, expect, it } from 'vitest';
 import type { Circuit } from '../../../shared-analysis/src/circuit';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { findRails } from '../../../shared-analysis/src/structures/rails';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import type { Rail, ReferenceBranch, StructureKind, Technology } from '../../../shared-analysis/src/structures/types';
 import { CircuitBuilder } from './build';
@@ -277,6 +280,154 @@ describe('findRails', () => {
       { node: 'a', volts: 5, sources: ['V1'] },
       { node: 'b', volts: 8, sources: ['V1', 'V2'] },
       { node: 'c', volts: -7, sources: ['V1', 'V3'] },
+    ]);
+  });
+});
+
+/** Text → flat circuit through the real parser and elaborator. */
+function fromText(text: string): Circuit {
+  const r = elaborate(parse('t.cir', text, { hasTitle: true }), new MemoryWorkspace({ 't.cir': text }));
+  expect(r.findings.filter((f) => f.severity === 'error')).toEqual([]);
+  return r.circuit;
+}
+
+describe('recogniseStructures on elaborated netlists', () => {
+  it('a Wilson cell used twice, a PMOS cascode, an NMOS helper and a PNP improved Wilson at top level', () => {
+    const circuit = fromText(`bias cells for an invented sensor interface
+.model qn npn (bf=80)
+.model qp pnp (bf=60)
+.model nch nmos (kp=100u vto=0.45)
+.model pch pmos (kp=40u vto=-0.5)
+.subckt wil in out
+Q1 in b 0 qn
+Q2 b b 0 qn
+Q3 out in b qn
+.ends
+VCC vcc 0 5
+R1 vcc i1 10k
+X1 i1 o1 wil
+R2 vcc i2 22k
+X2 i2 o2 wil
+* PMOS cascode hanging from VCC
+M1 pb pb vcc vcc pch w=20u l=2u
+M2 pc pb vcc vcc pch w=20u l=2u
+M3 pa pa pb vcc pch w=20u l=2u
+M4 pout pa pc vcc pch w=20u l=2u
+RP pa 0 47k
+* NMOS mirror with a source-follower helper and a pull-down
+M5 na nb 0 0 nch w=10u l=1u
+M6 vcc na nb 0 nch w=10u l=1u
+M7 nout nb 0 0 nch w=30u l=1u
+RNB nb 0 100k
+INA vcc na 20u
+* PNP improved Wilson
+Q11 wc wb vcc qp
+Q12 wb wb vcc qp
+Q13 wout wa wb qp
+Q14 wa wa wc qp
+RW wa 0 33k
+.end
+`);
+    check(circuit, [
+      {
+        id: 'wilson-mirror:X1.Q1',
+        kind: 'wilson-mirror',
+        technology: 'npn',
+        devices: ['X1.Q1', 'X1.Q2', 'X1.Q3'],
+        instance: 'X1.',
+        reference: { device: 'X1.Q1', node: 'i1', feed: 'resistor', elements: ['R1'], rail: { node: 'vcc', volts: 5 } },
+        outputs: [{ device: 'X1.Q3', node: 'o1', ratio: 1 }],
+      },
+      {
+        id: 'wilson-mirror:X2.Q1',
+        kind: 'wilson-mirror',
+        technology: 'npn',
+        devices: ['X2.Q1', 'X2.Q2', 'X2.Q3'],
+        instance: 'X2.',
+        reference: { device: 'X2.Q1', node: 'i2', feed: 'resistor', elements: ['R2'] },
+        outputs: [{ device: 'X2.Q3', node: 'o2', ratio: 1 }],
+      },
+      {
+        id: 'cascode-mirror:M3',
+        kind: 'cascode-mirror',
+        technology: 'pmos',
+        devices: ['M1', 'M2', 'M3', 'M4'],
+        reference: { device: 'M3', node: 'pa', feed: 'resistor', elements: ['RP'], rail: { node: '0', volts: 0 } },
+        outputs: [{ device: 'M4', node: 'pout', ratio: 1 }],
+      },
+      {
+        id: 'helper-mirror:M5',
+        kind: 'helper-mirror',
+        technology: 'nmos',
+        devices: ['M5', 'M6', 'M7'],
+        reference: { device: 'M5', node: 'na', feed: 'current-source', elements: ['INA'] },
+        outputs: [{ device: 'M7', node: 'nout', ratio: 3 }],
+      },
+      {
+        id: 'improved-wilson-mirror:Q14',
+        kind: 'improved-wilson-mirror',
+        technology: 'pnp',
+        devices: ['Q11', 'Q12', 'Q13', 'Q14'],
+        reference: { device: 'Q14', node: 'wa', feed: 'resistor', elements: ['RW'] },
+        outputs: [{ device: 'Q13', node: 'wout', ratio: 1 }],
+      },
+    ]);
+  });
+
+  it('an NMOS mirror fed by a current source feeds a PMOS mirror inside an instance; the diff pair it loads is no mirror', () => {
+    const circuit = fromText(`an invented two-stage bias chain
+.model nch nmos (kp=100u vto=0.45)
+.model pch pmos (kp=40u vto=-0.5)
+VDD vdd 0 3.3
+VIP inp 0 1.6
+VIN inn 0 1.6
+IB vdd g 10u
+MN1 g g 0 0 nch w=4u l=1u
+MN2 tail g 0 0 nch w=8u l=1u
+MN3 pfeed g 0 0 nch w=4u l=1u
+* the diff pair and its PMOS active load
+MD1 d1 inp tail 0 nch w=10u l=1u
+MD2 d2 inn tail 0 nch w=10u l=1u
+ML1 d1 d1 vdd vdd pch w=10u l=1u
+ML2 d2 d1 vdd vdd pch w=10u l=1u
+.subckt pcell in out vdd
+MA in in vdd vdd pch w=5u l=1u
+MB out in vdd vdd pch w=10u l=1u
+.ends
+XP pfeed pout vdd pcell
+RO pout 0 50k
+.end
+`);
+    check(circuit, [
+      {
+        id: 'simple-mirror:MN1',
+        kind: 'simple-mirror',
+        technology: 'nmos',
+        devices: ['MN1', 'MN2', 'MN3'],
+        reference: { device: 'MN1', node: 'g', feed: 'current-source', elements: ['IB'] },
+        outputs: [
+          { device: 'MN2', node: 'tail', ratio: 2 },
+          { device: 'MN3', node: 'pfeed', ratio: 1 },
+        ],
+      },
+      {
+        id: 'simple-mirror:ML1',
+        kind: 'simple-mirror',
+        technology: 'pmos',
+        devices: ['ML1', 'ML2'],
+        // The active load is fed by the differential pair's drain, which is no structure output.
+        reference: { device: 'ML1', node: 'd1', feed: 'other', elements: [] },
+        outputs: [{ device: 'ML2', node: 'd2', ratio: 1 }],
+      },
+      {
+        id: 'simple-mirror:XP.MA',
+        kind: 'simple-mirror',
+        technology: 'pmos',
+        devices: ['XP.MA', 'XP.MB'],
+        instance: 'XP.',
+        reference: { device: 'XP.MA', node: 'pfeed', feed: 'mirror-output', elements: ['MN3'], fedBy: 'simple-mirror:MN1' },
+        outputs: [{ device: 'XP.MB', node: 'pout', ratio: 2 }],
+      },
     ]);
   });
 });
