@@ -329,6 +329,8 @@ export function compileExpression(source: string, offset: number): { ok: true; e
     text: t.text,
   }));
   const closers = matchParens(toks);
+  const opens = toks.filter((t) => t.t === '(').map((t) => t.start);
+  const closes = toks.filter((t) => t.t === ')').map((t) => t.start);
   const spans = new Map<MathNode, Span>();
   const references: { name: string; span: Span }[] = [];
   const whole = at(0, source.length);
@@ -370,9 +372,16 @@ export function compileExpression(source: string, offset: number): { ok: true; e
         references.push({ name: name.toLowerCase(), span: range ? at(range.start, range.end) : whole });
         break;
       }
-      case 'ParenthesisNode':
+      case 'ParenthesisNode': {
         merge(visit(n.content as MathNode, level + 1));
+        // Widen to the brackets themselves, so a message can quote `(a - b)`.
+        if (range) {
+          const open = lastBefore(opens, range.start);
+          const close = firstAfter(closes, range.end);
+          if (open !== undefined && close !== undefined) range = { start: open, end: close + 1 };
+        }
         break;
+      }
       case 'OperatorNode': {
         const fn = String(n.fn);
         if (!ALLOWED_OPERATORS.has(fn)) {
@@ -764,6 +773,36 @@ function matchParens(toks: Tok[]): Map<number, number> {
     }
   }
   return byNameEnd;
+}
+
+/** The largest value in sorted `xs` that is at most `x`. */
+function lastBefore(xs: number[], x: number): number | undefined {
+  let lo = 0;
+  let hi = xs.length - 1;
+  let best: number | undefined;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (xs[mid]! <= x - 1) {
+      best = xs[mid];
+      lo = mid + 1;
+    } else hi = mid - 1;
+  }
+  return best;
+}
+
+/** The smallest value in sorted `xs` that is at least `x`. */
+function firstAfter(xs: number[], x: number): number | undefined {
+  let lo = 0;
+  let hi = xs.length - 1;
+  let best: number | undefined;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (xs[mid]! >= x) {
+      best = xs[mid];
+      hi = mid - 1;
+    } else lo = mid + 1;
+  }
+  return best;
 }
 
 function describeNode(type: string): string {

@@ -244,7 +244,7 @@ class Elaborator {
   }
 
   private reportValue(v: Extract<ValueResult, { ok: false }>, tok: Token, uri: string, what: string): void {
-    this.sink.add('element-value-invalid', `${capitalise(what)} cannot be read: ${lowerFirst(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
+    this.sink.add('element-value-invalid', `${capitalise(what)} cannot be read. ${capitalise(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
   }
 
   // -------------------------------------------------------------------------
@@ -672,7 +672,7 @@ class Elaborator {
   private temperature(tok: Token, scope: ParamScope, uri: string, what: string): number | undefined {
     const v = tokenValue(tok, scope, uri);
     if (!v.ok) {
-      this.sink.add('temperature-invalid', `The ${what} temperature cannot be read: ${lowerFirst(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
+      this.sink.add('temperature-invalid', `The ${what} temperature cannot be read. ${capitalise(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
       return undefined;
     }
     if (v.value <= ABSOLUTE_ZERO_C) {

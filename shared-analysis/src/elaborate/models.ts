@@ -136,7 +136,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     if (!v.ok) {
       sink.add(
         'model-parameter-invalid',
-        `${key} of model \`${card.name.text}\` has no value: ${lowerFirst(v.message)} The default ${formatDefault(defaults[key]!)} is used.`,
+        `${key} of model \`${card.name.text}\` cannot be read. ${capitalise(v.message)} The default ${formatDefault(defaults[key]!)} is used.`,
         uri,
         v.inherited ? a.value.span : v.span,
         v.related,
@@ -178,8 +178,8 @@ function formatDefault(v: number): string {
   return Number.isFinite(v) ? String(v) : '∞ (no Early effect)';
 }
 
-function lowerFirst(s: string): string {
-  return s.length > 0 ? s[0]!.toLowerCase() + s.slice(1) : s;
+function capitalise(s: string): string {
+  return s.length > 0 ? s[0]!.toUpperCase() + s.slice(1) : s;
 }
 
 /** The used parameter one edit away from `key`, if there is exactly such a near miss (`VA` → `VAF`). */

@@ -1,0 +1,503 @@
+// Checks elaboration of inline netlists: includes, library sections, models, scopes, flattening and every finding with its span.
+import { describe, expect, it } from 'vitest';
+import { elaborate, type ElaborationResult } from '../../../shared-analysis/src/elaborate/index';
+import { NETLIST_CODES } from '../../../shared-analysis/src/checks/netlist';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import type { ElementCard, ParsedDocument } from '../../../shared-analysis/src/syntax/ast';
+import type { Element } from '../../../shared-analysis/src/circuit';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+
+const ROOT = '/w/top.cir';
+
+/** A place in a document: the first occurrence of a text, or of `text` inside the first occurrence of `in` (a line, say). */
+type At = string | { in: string; text: string };
+
+interface ExpectedFinding {
+  code: string;
+  at: At;
+  /** Document the finding is in (default: the root). */
+  uri?: string;
+  message?: RegExp;
+}
+
+interface ExpectedElement {
+  kind?: Element['kind'];
+  /** Node names in node order. */
+  nodes?: string[];
+  /** The element's main number: resistance, capacitance, inductance, DC value or gain. */
+  value?: number;
+  area?: number;
+  m?: number;
+  w?: number;
+  l?: number;
+  model?: string;
+  control?: string;
+}
+
+interface Expected {
+  /** Exactly these findings (codes compared as a multiset; each must be at its place). */
+  findings?: ExpectedFinding[];
+  /** Elements by hierarchical name; `null` means the element must be absent. */
+  elements?: Record<string, ExpectedElement | null>;
+  /** The full node list, in order. */
+  nodes?: string[];
+  /** Extra checks on the result. */
+  also?: (r: ElaborationResult) => void;
+}
+
+/** Elaborates `files` (or a single root text) and compares findings, elements and nodes with `expected`. */
+function check(files: string | Record<string, string>, expected: Expected, options: Parameters<typeof elaborate>[2] = {}): ElaborationResult {
+  const all = typeof files === 'string' ? { [ROOT]: files } : files;
+  const ws = new MemoryWorkspace(all);
+  const root = parse(ROOT, all[ROOT]!, { hasTitle: true });
+  const r = elaborate(root, ws, options);
+  const shown = JSON.stringify(r.findings.map((f) => ({ code: f.code, uri: f.uri, text: textOf(r.documents, f.uri, f.span), message: f.message })), null, 1);
+  if (expected.findings) {
+    expect(r.findings.map((f) => f.code).sort(), shown).toEqual(expected.findings.map((f) => f.code).sort());
+    for (const e of expected.findings) {
+      const uri = e.uri ?? ROOT;
+      const doc = r.documents[uri];
+      expect(doc, `document ${uri}`).toBeDefined();
+      const span = locate(doc!.text, e.at);
+      const f = r.findings.find((x) => x.code === e.code && x.uri === uri && x.span.start === span.start && x.span.end === span.end);
+      expect(f, `${e.code} at ${JSON.stringify(e.at)} in ${uri}\n${shown}`).toBeDefined();
+      if (e.message) expect(f!.message).toMatch(e.message);
+    }
+  }
+  for (const f of r.findings) {
+    // Every finding lies inside its document, has a known code and a full-sentence message.
+    const doc = r.documents[f.uri];
+    expect(doc, f.code).toBeDefined();
+    expect(f.span.start).toBeGreaterThanOrEqual(0);
+    expect(f.span.end).toBeLessThanOrEqual(doc!.text.length);
+    expect(NETLIST_CODES[f.code], f.code).toBeDefined();
+    expect(f.severity).toBe(NETLIST_CODES[f.code]!.severity);
+    expect(f.message).toMatch(/[.?]$/);
+  }
+  if (expected.elements) {
+    for (const [name, want] of Object.entries(expected.elements)) {
+      const el = r.circuit.elements.find((e) => e.name === name);
+      if (want === null) {
+        expect(el, `${name} must be absent`).toBeUndefined();
+        continue;
+      }
+      expect(el, `${name} in ${r.circuit.elements.map((e) => e.name).join(' ')}`).toBeDefined();
+      const got = describe1(el!, r.circuit.nodes);
+      for (const [k, v] of Object.entries(want)) {
+        if (typeof v === 'number') expect(got[k] as number, `${name}.${k}`).toBeCloseTo(v, 12 - Math.max(0, Math.ceil(Math.log10(Math.abs(v) || 1))));
+        else expect(got[k], `${name}.${k}`).toEqual(v);
+      }
+    }
+  }
+  if (expected.nodes) expect(r.circuit.nodes).toEqual(expected.nodes);
+  expected.also?.(r);
+  return r;
+}
+
+function describe1(el: Element, nodes: string[]): Record<string, unknown> {
+  const out: Record<string, unknown> = { kind: el.kind, nodes: el.nodes.map((k) => nodes[k]) };
+  switch (el.kind) {
+    case 'R': out.value = el.resistance; break;
+    case 'C': out.value = el.capacitance; break;
+    case 'L': out.value = el.inductance; break;
+    case 'V':
+    case 'I': out.value = el.dc; break;
+    case 'E':
+    case 'G': out.value = el.gain; break;
+    case 'F':
+    case 'H': out.value = el.gain; out.control = el.control; break;
+    case 'D':
+    case 'Q': out.area = el.area; out.m = el.m; out.model = el.model.name; break;
+    case 'M': out.w = el.w; out.l = el.l; out.m = el.m; out.model = el.model.name; break;
+  }
+  return out;
+}
+
+function locate(text: string, at: At): { start: number; end: number } {
+  const outer = typeof at === 'string' ? at : at.in;
+  const base = text.indexOf(outer);
+  if (base < 0) throw new Error(`'${outer}' not in document`);
+  const inner = typeof at === 'string' ? 0 : outer.indexOf(at.text);
+  if (inner < 0) throw new Error(`'${(at as { text: string }).text}' not in '${outer}'`);
+  return { start: base + inner, end: base + inner + (typeof at === 'string' ? at : at.text).length };
+}
+
+function textOf(docs: Record<string, ParsedDocument>, uri: string, span: { start: number; end: number }): string {
+  return docs[uri]?.text.slice(span.start, span.end) ?? '?';
+}
+
+const NPN = '.model qn npn\n';
+
+describe('values and sources', () => {
+  // Source: engineering suffixes and source forms as in DESIGN.md "Netlist conventions" (common practice).
+  it('reads numbers, expressions, bare parameter names and the DC value of each source form', () => {
+    check(
+      `values\n.param rb=2.2k\nV1 a 0 DC 5\nV2 b 0 3.3\nV3 c 0 PULSE(1.5 5 0 1n 1n 1u 2u)\nI1 0 d 100uA\nR1 a b 10kOhm\nR2 b c {2*rb}\nR3 c d rb\nR4 d 0 1MEG\nC1 a 0 10p\nL1 c d 1u\n`,
+      {
+        findings: [],
+        elements: {
+          V1: { kind: 'V', nodes: ['a', '0'], value: 5 },
+          V2: { value: 3.3 },
+          V3: { value: 1.5 },
+          I1: { kind: 'I', nodes: ['0', 'd'], value: 1e-4 },
+          R1: { value: 1e4 },
+          R2: { value: 4400 },
+          R3: { value: 2200 },
+          R4: { value: 1e6 },
+          C1: { value: 1e-11 },
+          L1: { value: 1e-6 },
+        },
+        nodes: ['0', 'a', 'b', 'c', 'd'],
+      },
+    );
+  });
+
+  it('divides a resistor by its parallel count M', () => {
+    // Source: M identical resistors in parallel give R/M (common practice).
+    check(`m\nV1 a 0 1\nR1 a 0 10k M=4\n`, { findings: [], elements: { R1: { value: 2500 } } });
+  });
+
+  it('rejects the resistor-marking style and failed expressions at their spot', () => {
+    check(`bad values\nV1 a 0 5\nR1 a 0 4k7\nR2 a 0 {1k/(2-2)}\nR3 a 0 {rnope}\n`, {
+      findings: [
+        { code: 'element-value-invalid', at: '4k7', message: /write 4\.7k/ },
+        { code: 'element-value-invalid', at: '(2-2)', message: /Division by zero: `\(2-2\)` is 0/ },
+        { code: 'element-value-invalid', at: 'rnope', message: /not a parameter in scope/ },
+      ],
+      elements: { R1: null, R2: null, R3: null },
+    });
+  });
+
+  it('keeps a 0 Ω resistor as a short and warns about a negative one', () => {
+    check(`zero\nV1 a 0 5\nR1 a b 0\nR2 b 0 -1k\n`, {
+      findings: [
+        { code: 'resistor-zero-value', at: { in: 'R1 a b 0', text: '0' }, message: /kept and solved as a short/ },
+        { code: 'resistor-negative-value', at: '-1k' },
+      ],
+      elements: { R1: { value: 0 }, R2: { value: -1000 } },
+    });
+  });
+
+  it('takes a source without a value as 0 and says so', () => {
+    check(`missing\nV1 a 0\nR1 a 0 1k\n`, {
+      findings: [{ code: 'element-value-missing', at: 'V1', message: /taken as 0 V/ }],
+      elements: { V1: { value: 0 } },
+    });
+  });
+
+  it('warns about values beyond 1e15 and unknown instance parameters', () => {
+    check(`range\nV1 a 0 5\nR1 a 0 2e16\nR2 a 0 1k tc1=0.01\n`, {
+      findings: [
+        { code: 'value-out-of-range', at: '2e16' },
+        { code: 'element-unknown-parameter', at: 'tc1', message: /it reads M/ },
+      ],
+    });
+  });
+
+  it('rejects an expression used as a node name', () => {
+    check(`node\n.param n=1\nV1 a 0 5\nR1 a {n} 1k\n`, { findings: [{ code: 'node-name-invalid', at: '{n}' }], elements: { R1: null } });
+  });
+
+  it('reports a card the DC analysis ignores', () => {
+    check(`ignored\nV1 a 0 5\nR1 a 0 1k\n.tran 1n 1u\n`, { findings: [{ code: 'card-ignored', at: '.tran' }] });
+  });
+});
+
+describe('parameters', () => {
+  it('resolves forward references, reports cycles once with the chain, and keeps the later duplicate', () => {
+    check(`params\n.param r2={r1*2}\n.param r1=1k\n.param a={b} b={a}\n.param k=1 k=2\nV1 x 0 5\nR1 x 0 {r2}\nR2 x 0 {k}\nR3 x 0 {a}\n`, {
+      findings: [
+        { code: 'param-cycle', at: { in: 'b={a}', text: 'a' }, message: /a → b → a/ },
+        { code: 'param-duplicate', at: { in: 'k=2', text: 'k' } },
+        { code: 'element-value-invalid', at: { in: 'R3 x 0 {a}', text: '{a}' }, message: /depends on parameter `a`, which has no value/ },
+      ],
+      elements: { R1: { value: 2000 }, R2: { value: 2 }, R3: null },
+      also: (r) => {
+        expect(r.circuit.params).toMatchObject({ r1: 1000, r2: 2000, k: 2 });
+        const a = r.symbols.params.find((p) => p.name === 'a')!;
+        expect(a.value).toBeUndefined();
+        expect(r.symbols.params.find((p) => p.name === 'r2')).toMatchObject({ value: 2000, scope: '', expression: '{r1*2}' });
+      },
+    });
+  });
+
+  it('reports a parameter whose expression fails, at the failing part', () => {
+    check(`bad param\n.param g={sqrt(-4)}\nV1 a 0 5\nR1 a 0 1k\n`, { findings: [{ code: 'param-invalid', at: 'sqrt(-4)' }] });
+  });
+});
+
+describe('includes and library sections', () => {
+  it('reads nested includes relative to the including file', () => {
+    check(
+      {
+        [ROOT]: `nested\n.include lib/models.inc\nV1 vcc 0 {vsupply}\nR1 vcc b 10k\nQ1 b b 0 qfast\n`,
+        '/w/lib/models.inc': `.include "../common/supply.inc"\n.model qfast npn (bf=200)\n`,
+        '/w/common/supply.inc': `.param vsupply=12\n`,
+      },
+      {
+        findings: [],
+        elements: { V1: { value: 12 }, Q1: { model: 'qfast' } },
+        also: (r) => {
+          expect(Object.keys(r.documents).sort()).toEqual(['/w/common/supply.inc', '/w/lib/models.inc', ROOT]);
+          expect(r.symbols.includes).toEqual([
+            { uri: ROOT, span: locate(r.documents[ROOT]!.text, 'lib/models.inc'), target: '/w/lib/models.inc', found: true },
+            { uri: '/w/lib/models.inc', span: locate(r.documents['/w/lib/models.inc']!.text, '"../common/supply.inc"'), target: '/w/common/supply.inc', found: true },
+          ]);
+        },
+      },
+    );
+  });
+
+  it('reports a missing file at its path', () => {
+    check(`missing\n.include nowhere.inc\nV1 a 0 5\nR1 a 0 1k\n`, {
+      findings: [{ code: 'include-not-found', at: 'nowhere.inc', message: /\/w\/nowhere\.inc/ }],
+      also: (r) => expect(r.symbols.includes[0]).toMatchObject({ target: '/w/nowhere.inc', found: false }),
+    });
+  });
+
+  it('reports an include cycle naming the chain, and a repeated include once', () => {
+    check(
+      {
+        [ROOT]: `cycle\n.include a.inc\n.include b.inc\nV1 x 0 {pa}\nR1 x 0 1k\n`,
+        '/w/a.inc': `.param pa=1\n.include b.inc\n`,
+        '/w/b.inc': `.include a.inc\n`,
+      },
+      {
+        findings: [
+          { code: 'include-cycle', at: 'a.inc', uri: '/w/b.inc', message: /top\.cir → a\.inc → b\.inc → a\.inc/ },
+          { code: 'include-repeated', at: 'b.inc', message: /already read/ },
+        ],
+        elements: { V1: { value: 1 } },
+      },
+    );
+  });
+
+  it('uses only the named section of a library and lists the sections when one is missing', () => {
+    const lib = `* corner library\n.lib typical\n.model qlib npn (bf=100)\n.endl typical\n.lib fast\n.model qlib npn (bf=250)\n.endl fast\n`;
+    check(
+      { [ROOT]: `lib\n.lib "corners.lib" fast\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 qlib\n`, '/w/corners.lib': lib },
+      { findings: [], also: (r) => expect(r.circuit.models['qlib']!.params['BF']).toBe(250) },
+    );
+    check(
+      { [ROOT]: `lib\n.lib corners.lib slow\nV1 a 0 5\nR1 a 0 1k\n`, '/w/corners.lib': lib },
+      { findings: [{ code: 'library-section-not-found', at: 'slow', message: /`typical`, `fast`/ }] },
+    );
+  });
+
+  it('skips section definitions when a library is read as a whole', () => {
+    check(
+      { [ROOT]: `sections\n.include parts.lib\nV1 a 0 5\nR1 a 0 1k\n`, '/w/parts.lib': `.model qy npn\n.lib other\n.model qx npn\n.endl\n` },
+      { findings: [], also: (r) => expect(Object.keys(r.circuit.models)).toEqual(['qy']) },
+    );
+  });
+});
+
+describe('models', () => {
+  // Source: default values of MODEL_DEFAULTS as listed in DESIGN.md "Device equations".
+  it('fills defaults and records what the card gave; VAF=0 means no Early effect (common practice)', () => {
+    check(`model\n.model qn npn (BF=150 vaf=0)\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 QN\n`, {
+      findings: [],
+      also: (r) => {
+        const m = r.circuit.models['qn']!;
+        expect(m.kind).toBe('npn');
+        expect(m.params).toEqual({ IS: 1e-16, BF: 150, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 });
+        expect(m.given.sort()).toEqual(['BF', 'VAF']);
+        expect(r.symbols.models[0]).toMatchObject({ name: 'qn', kind: 'npn', key: 'qn' });
+      },
+    });
+  });
+
+  it('warns about unknown parameters naming the used ones, notes unmodelled ones, and rejects out-of-range values', () => {
+    check(`model params\n.model qn npn (BFF=120 VA=50 RB=100 CJE=1p IS=-1e-15 BF=0)\n.model mn nmos (KP=-1 LEVEL=3)\n.model dd d (N=0)\n`, {
+      findings: [
+        { code: 'model-unknown-parameter', at: 'BFF', message: /IS, BF, BR, NF, NR, VAF, XTI, EG/ },
+        { code: 'model-unknown-parameter', at: { in: 'VA=50', text: 'VA' }, message: /did you mean VAF/ },
+        { code: 'model-parameter-ignored', at: 'qn', message: /RB, CJE.*RB would shift the bias point/ },
+        { code: 'model-parameter-invalid', at: '-1e-15', message: /IS=-1e-15.*greater than 0.*default 1e-16/ },
+        { code: 'model-parameter-invalid', at: { in: 'BF=0', text: '0' }, message: /BF=0/ },
+        { code: 'model-parameter-invalid', at: { in: 'KP=-1', text: '-1' }, message: /KP=-1/ },
+        { code: 'model-level-unsupported', at: 'LEVEL=3' },
+        { code: 'model-parameter-invalid', at: { in: 'N=0', text: '0' }, message: /N=0/ },
+      ],
+      also: (r) => {
+        expect(r.circuit.models['qn']!.params['IS']).toBe(1e-16);
+        expect(r.circuit.models['qn']!.params['BF']).toBe(100);
+        expect(r.circuit.models['mn']!.params['KP']).toBe(2e-5);
+      },
+    });
+  });
+
+  it('reports unknown types, duplicates, missing models (with fix data) and wrong kinds', () => {
+    check(`models\n.model qa npx\n.model qb npn\n.model QB pnp\n.model mn nmos\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 qmissing\nQ2 b b 0 mn\nQ3 b b 0 qa\nQ4 b b 0 qb\n`, {
+      findings: [
+        { code: 'model-unknown-type', at: 'npx' },
+        { code: 'model-duplicate', at: 'QB' },
+        { code: 'model-not-found', at: 'qmissing' },
+        { code: 'model-wrong-kind', at: { in: 'Q2 b b 0 mn', text: 'mn' }, message: /needs a NPN or PNP model/ },
+      ],
+      elements: { Q1: null, Q2: null, Q3: null, Q4: { model: 'qb' } },
+      also: (r) => {
+        const nf = r.findings.find((f) => f.code === 'model-not-found')!;
+        expect(nf.data).toEqual({ modelName: 'qmissing', expectedKinds: ['npn', 'pnp'] });
+        expect(r.circuit.models['qb']!.kind).toBe('npn');
+      },
+    });
+  });
+
+  it('looks models up case-insensitively, subcircuit-local first', () => {
+    check(`local\n.model qm npn (bf=100)\n.subckt cell c\n.model qm npn (bf=300)\nQ1 c c 0 QM\n.ends\nV1 a 0 5\nR1 a b 1k\nX1 b cell\nQ2 b b 0 qm\n`, {
+      findings: [],
+      also: (r) => {
+        const q1 = r.circuit.elements.find((e) => e.name === 'X1.Q1')!;
+        const q2 = r.circuit.elements.find((e) => e.name === 'Q2')!;
+        expect(q1.kind === 'Q' && q1.model.params['BF']).toBe(300);
+        expect(q2.kind === 'Q' && q2.model.params['BF']).toBe(100);
+        expect(Object.keys(r.circuit.models).sort()).toEqual(['qm', 'x1.qm']);
+      },
+    });
+  });
+});
+
+describe('devices', () => {
+  it('reads area and M, and replaces a non-positive one by 1', () => {
+    check(`area\n${NPN}V1 a 0 5\nR1 a b 1k\nQ1 b b 0 qn 2\nQ2 a b 0 qn 0\nQ3 a b 0 qn M=-2\nQ4 a b 0 qn area=3 M=2\n`, {
+      findings: [
+        { code: 'device-area-invalid', at: { in: 'qn 0\n', text: '0' }, message: /1 is used and the analysis continues/ },
+        { code: 'device-area-invalid', at: '-2' },
+      ],
+      elements: { Q1: { area: 2, m: 1 }, Q2: { area: 1 }, Q3: { m: 1 }, Q4: { area: 3, m: 2 } },
+    });
+  });
+
+  it('reads MOSFET sizes, defaults missing ones to 10 µm and flags sizes outside 1 nm to 1 m', () => {
+    check(`mos\n.model mn nmos\nV1 d 0 5\nM1 d d 0 0 mn W=20u L=2u\nM2 d d 0 0 mn\nM3 d d 0 0 mn W=10 L=1u\n`, {
+      findings: [
+        { code: 'mosfet-geometry-missing', at: 'M2', message: /W and L = 10 µm/ },
+        { code: 'value-out-of-range', at: { in: 'W=10 ', text: '10' }, message: /write 10u/ },
+      ],
+      elements: { M1: { w: 20e-6, l: 2e-6, m: 1 }, M2: { w: 1e-5, l: 1e-5 }, M3: { w: 10 } },
+    });
+  });
+
+  it('resolves F and H controls and reports a missing one', () => {
+    check(`controls\nV1 a 0 5\nVsense a b 0\nR1 b 0 1k\nF1 0 c Vsense 2\nR2 c 0 1k\nH1 d 0 Vnone 100\nR3 d 0 1k\nH2 e 0 R1 1\nR4 e 0 1k\n`, {
+      findings: [
+        { code: 'controlled-source-control-missing', at: 'Vnone', message: /no voltage source has that name/ },
+        { code: 'controlled-source-control-missing', at: { in: 'H2 e 0 R1', text: 'R1' }, message: /not a voltage source/ },
+      ],
+      elements: { F1: { kind: 'F', control: 'Vsense', value: 2 }, H1: null, H2: null },
+    });
+  });
+
+  it('reports duplicate element names case-insensitively with the first as related', () => {
+    const r = check(`dups\nV1 a 0 5\nR1 a 0 1k\nr1 a 0 2k\n`, { findings: [{ code: 'element-duplicate-name', at: 'r1' }], elements: { R1: { value: 1000 }, r1: null } });
+    expect(r.findings[0]!.related![0]!.span).toEqual(locate(r.documents[ROOT]!.text, 'R1'));
+  });
+
+  it('reports an element with the wrong node count (hand-built card)', () => {
+    const text = 'hand\nE1 a 0 2\n';
+    const name = { text: 'E1', span: { start: 5, end: 7 }, kind: 'word' as const };
+    const card: ElementCard = {
+      kind: 'element',
+      letter: 'E',
+      name,
+      nodes: [
+        { text: 'a', span: { start: 8, end: 9 }, kind: 'word' },
+        { text: '0', span: { start: 10, end: 11 }, kind: 'word' },
+      ],
+      value: { text: '2', span: { start: 12, end: 13 }, kind: 'word' },
+      params: [],
+      span: { start: 5, end: 13 },
+      tokens: [],
+    };
+    const doc: ParsedDocument = { uri: ROOT, text, cards: [{ kind: 'title', text: 'hand', span: { start: 0, end: 4 }, tokens: [] }, card], errors: [] };
+    const r = elaborate(doc, new MemoryWorkspace());
+    expect(r.findings.map((f) => [f.code, f.span])).toEqual([['element-node-count', { start: 5, end: 7 }]]);
+    expect(r.circuit.elements).toEqual([]);
+  });
+});
+
+describe('subcircuits', () => {
+  it('flattens nested instances with hierarchical names, port mapping and a shared ground', () => {
+    check(
+      `nested\n${NPN}.subckt stage in out\nR1 in mid 1k\nQ1 out mid gnd qn\n.ends\n.subckt pair a b\nX1 a m stage\nX2 m b stage\nR9 m 0 10k\n.ends\nV1 vin 0 5\nXP vin vout pair\nRL vout 0 1k\n`,
+      {
+        findings: [],
+        elements: {
+          'XP.X1.R1': { nodes: ['vin', 'XP.X1.mid'] },
+          'XP.X1.Q1': { nodes: ['XP.m', 'XP.X1.mid', '0'] },
+          'XP.X2.R1': { nodes: ['XP.m', 'XP.X2.mid'] },
+          'XP.X2.Q1': { nodes: ['vout', 'XP.X2.mid', '0'] },
+          'XP.R9': { nodes: ['XP.m', '0'] },
+        },
+        also: (r) => {
+          const q = r.circuit.elements.find((e) => e.name === 'XP.X2.Q1')!;
+          expect(q.origin.instances.map((i) => i.name)).toEqual(['XP', 'X2']);
+          expect(r.documents[ROOT]!.text.slice(q.origin.span.start, q.origin.span.end)).toBe('Q1 out mid gnd qn');
+          expect(q.origin.nodeSpans!.map((s) => r.documents[ROOT]!.text.slice(s.start, s.end))).toEqual(['out', 'mid', 'gnd']);
+          expect(r.documents[ROOT]!.text.slice(q.origin.modelSpan!.start, q.origin.modelSpan!.end)).toBe('qn');
+          expect(r.symbols.subckts.map((s) => [s.name, s.ports])).toEqual([['stage', ['in', 'out']], ['pair', ['a', 'b']]]);
+        },
+      },
+    );
+  });
+
+  it('applies defaults, overrides evaluated in the caller, body parameters and outer parameters', () => {
+    check(
+      `params\n.param unit=1k\n.subckt load a gain=2 PARAMS: off=0\n.param r={gain*unit+off}\nR1 a 0 {r}\n.ends\nV1 x 0 5\nX1 x load\nX2 x load gain=5\nX3 x load gain={unit/100} off=7\nX4 x load gian=3\n`,
+      {
+        findings: [{ code: 'subckt-unknown-parameter', at: 'gian', message: /declares gain, off/ }],
+        elements: { 'X1.R1': { value: 2000 }, 'X2.R1': { value: 5000 }, 'X3.R1': { value: 10007 }, 'X4.R1': { value: 2000 } },
+        also: (r) => {
+          const s = r.symbols.subckts.find((x) => x.name === 'load')!;
+          expect(s.params).toEqual({ gain: 2, off: 0 });
+          expect(r.symbols.params.filter((p) => p.scope === 'load').map((p) => [p.name, p.value])).toEqual([['gain', 2], ['off', 0], ['r', 2000]]);
+        },
+      },
+    );
+  });
+
+  it('reports unknown subcircuits, port-count mismatches and recursion', () => {
+    check(
+      `subckt errors\n.subckt two a b\nR1 a b 1k\n.ends\n.subckt loopa p\nX1 p loopb\n.ends\n.subckt loopb p\nX1 p loopa\n.ends\nV1 n 0 5\nR0 n 0 1k\nXa n nothere\nXb n two\nXc n loopa\n`,
+      {
+        findings: [
+          { code: 'subckt-not-found', at: 'nothere', message: /`two`, `loopa`, `loopb`/ },
+          { code: 'subckt-port-count', at: { in: 'Xb n', text: 'n' }, message: /connects 1 node but subcircuit `two` has 2 ports \(a b\)/ },
+          { code: 'subckt-recursive', at: { in: 'X1 p loopa', text: 'loopa' }, message: /loopa → loopb → loopa/ },
+        ],
+      },
+    );
+  });
+
+  it('stops flattening at the element limit', () => {
+    check(`big\n.subckt r10 a\nR1 a 0 1\nR2 a 0 1\nR3 a 0 1\nR4 a 0 1\nR5 a 0 1\n.ends\nV1 n 0 1\nX1 n r10\nX2 n r10\n`, {
+      findings: [{ code: 'circuit-too-large', at: 'R3 a 0 1' }],
+      also: (r) => expect(r.circuit.elements).toHaveLength(3),
+    }, { maxElements: 3 });
+  });
+});
+
+describe('temperature', () => {
+  it('reads .temp and tnom, lets the option override, and rejects temperatures below absolute zero', () => {
+    check(`t\n.temp 85 125\n.option tnom=25\nV1 a 0 1\nR1 a 0 1\n`, {
+      findings: [],
+      also: (r) => {
+        expect(r.circuit.temperatureC).toBe(85);
+        expect(r.circuit.tnomC).toBe(25);
+      },
+    });
+    check(`t\n.temp 85\nV1 a 0 1\nR1 a 0 1\n`, { findings: [], also: (r) => expect(r.circuit.temperatureC).toBe(-40) }, { temperatureC: -40 });
+    check(`t\n.temp -300\nV1 a 0 1\nR1 a 0 1\n`, { findings: [{ code: 'temperature-invalid', at: '-300' }], also: (r) => expect(r.circuit.temperatureC).toBe(27) });
+  });
+});
+
+describe('the code table', () => {
+  it('has a kebab-case code, a severity and a one-sentence summary for every entry', () => {
+    for (const [code, { severity, summary }] of Object.entries(NETLIST_CODES)) {
+      expect(code).toMatch(/^[a-z]+(-[a-z]+)*$/);
+      expect(['error', 'warning', 'info', 'hint']).toContain(severity);
+      expect(summary).toMatch(/^[A-Z0-9].*\.$/);
+    }
+  });
+});
