@@ -36,6 +36,15 @@ const DEFAULT_MAX_ITERATIONS = 150;
 const STEP_ITERATIONS = 60;
 /** Node voltages beyond this are reported as implausible (a current forced into an open or leakage-only node). */
 const IMPLAUSIBLE_VOLTS = 1e6;
+/** Netlist-check codes (elaborator and connectivity checks) that report the same problem as a solver code. */
+const LAYOUT_NETLIST_CODES: Record<string, string[]> = {
+  'dc-zero-resistance': ['resistor-zero-value'],
+  'dc-negative-resistance': ['resistor-negative-value'],
+  'dc-unknown-control': ['controlled-source-control-missing'],
+  'dc-bad-node': ['element-node-count'],
+  'dc-value-unusable': ['element-value-invalid', 'element-value-missing'],
+};
+
 /** Parameters more than this many decades from 1 (IS and KP relative to their defaults) are reported as out of range. */
 const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
@@ -68,7 +77,10 @@ export class DcSolver {
 
     for (const issue of this.layout.layoutIssues) {
       const sev: Severity = issue.code === 'dc-zero-resistance' ? 'info' : issue.code === 'dc-negative-resistance' ? 'warning' : 'error';
-      this.staticFindings.push(this.elementFinding(issue.code, sev, issue.message, issue.element));
+      const f = this.elementFinding(issue.code, sev, issue.message, issue.element);
+      const same = LAYOUT_NETLIST_CODES[issue.code];
+      if (same) f.data = { ...(f.data ?? {}), netlistCodes: same };
+      this.staticFindings.push(f);
     }
     for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
     const floating = findFloatingGroups(circuit, this.layout.skipped);
@@ -234,6 +246,7 @@ export class DcSolver {
       message: `The analysis temperature ${String(t)} °C is not above absolute zero; the operating point was solved at ${formatEng(fallback, '°C')} instead.`,
       uri: el?.origin.uri ?? '',
       span: el?.origin.span ?? { start: 0, end: 0 },
+      data: { requested: String(t), used: fallback, netlistCodes: ['temperature-invalid'] },
     });
     return fallback;
   }
@@ -446,7 +459,7 @@ export class DcSolver {
         'Add a DC path (a resistor or source) to ground. No operating point was computed.',
       elements[0] ?? 0,
     );
-    f.data = { kind: 'floating-node', nodes: names, elements: elements.map((i) => c.elements[i].name) };
+    f.data = { kind: 'floating-node', nodes: names, elements: elements.map((i) => c.elements[i].name), netlistCodes: ['node-no-dc-path', 'current-source-cutset'] };
     f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(1))];
     return f;
   }
@@ -462,7 +475,7 @@ export class DcSolver {
         : `${listNames(names)} form a loop of elements that each fix a voltage (sources, inductors, zero-ohm resistors), so the loop current is undefined and the circuit equations are singular. Add a resistance in the loop. No operating point was computed.`,
       elements[elements.length - 1],
     );
-    f.data = { kind: 'voltage-loop', elements: names };
+    f.data = { kind: 'voltage-loop', elements: names, netlistCodes: ['voltage-source-loop'] };
     f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(0, -1))];
     return f;
   }
@@ -523,7 +536,7 @@ export class DcSolver {
           `${v.name} = ${shown.toExponential(2)} on ${el.name} is too extreme for the solver's double-precision arithmetic (products of such values overflow or vanish); results involving ${el.name} may be meaningless.`,
           i,
         );
-        f.data = { parameter: v.name, value: shown };
+        f.data = { parameter: v.name, value: shown, netlistCodes: ['value-out-of-range'] };
         out.push(f);
         break;
       }
@@ -575,7 +588,12 @@ export class DcSolver {
     if (issue.inModel && 'model' in el) {
       f.related = [...(f.related ?? []), { uri: el.model.origin.uri, span: el.model.origin.span, message: `Model ${el.model.name} is defined here.` }];
     }
-    f.data = { parameter: issue.name, given: Number.isFinite(issue.given) ? issue.given : String(issue.given), used: issue.used };
+    f.data = {
+      parameter: issue.name,
+      given: Number.isFinite(issue.given) ? issue.given : String(issue.given),
+      used: issue.used,
+      netlistCodes: issue.inModel ? ['model-parameter-invalid'] : ['device-area-invalid', 'element-value-invalid'],
+    };
     return f;
   }
 
@@ -664,6 +682,23 @@ export class DcSolver {
     }
     return f;
   }
+}
+
+/**
+ * Drops solver findings that repeat a problem the netlist checks already reported: a solver
+ * finding whose `data.netlistCodes` names a code present in `netlistFindings` for the same
+ * document, on an overlapping span, or anywhere for circuit-wide problems (floating nodes,
+ * source loops, temperature). For directly built circuits (no netlist checks) nothing is dropped.
+ */
+export function withoutNetlistDuplicates(solverFindings: Finding[], netlistFindings: Finding[]): Finding[] {
+  return solverFindings.filter((f) => {
+    const codes = f.data?.netlistCodes;
+    if (!Array.isArray(codes)) return true;
+    const circuitWide = f.data?.kind === 'floating-node' || f.data?.kind === 'voltage-loop' || f.code === 'dc-temperature-unusable';
+    return !netlistFindings.some(
+      (g) => codes.includes(g.code) && (circuitWide || (g.uri === f.uri && g.span.start < f.span.end + 1 && f.span.start < g.span.end + 1)),
+    );
+  });
 }
 
 /** One-shot convenience: prepares a DcSolver for `circuit` and solves once. */
