@@ -140,6 +140,10 @@ RLOAD vpos out 10k
     const r2Formula = (VT27 * Math.log(iref / 50e-6)) / 50e-6;
     expect(Math.abs(result.ideal / r2Formula - 1)).toBeLessThan(2e-3);
     for (const c of result.candidates) expect(Math.abs(c.error)).toBeLessThan(0.05);
+    // Source: same relation — ln(IREF/IOUT) must be positive, so a Widlar output above IREF has no R2 ≥ 0.
+    const tooHigh = sizeResistorForCurrent({ circuit: a.circuit, solver: a.solver, structure: s, resistor: 'R2', target: 2e-3, series: 'E96' });
+    expect(tooHigh.candidates).toEqual([]);
+    expect(tooHigh.problem).toContain('change the reference resistor instead');
   });
 
   it('offers no value over a parameterised resistor value, and explains a resistor it cannot find', () => {

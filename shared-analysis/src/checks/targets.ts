@@ -458,7 +458,16 @@ export function sizingKnob(circuit: Circuit, structures: Structure[], element: E
 function estimatedCurrent(role: TargetRole | undefined, element: Element): number | undefined {
   const est = role?.structure.estimate;
   if (!est || !role) return undefined;
-  const v = role.role === 'output' ? est.iout[element.name] ?? findCaseless(est.iout, element.name) : role.role === 'degeneration-resistor' ? Object.values(est.iout)[0] : est.iref;
+  let v: number | undefined;
+  if (role.role === 'output') v = est.iout[element.name] ?? findCaseless(est.iout, element.name);
+  else if (role.role === 'degeneration-resistor') v = Object.values(est.iout)[0];
+  else if (role.role === 'reference-device') {
+    // The reference device's own collector (drain) current is a matched output's current divided by its ratio;
+    // IREF also carries the base currents.
+    const o = role.structure.outputs[0];
+    const iout = o ? est.iout[o.device] : undefined;
+    v = o && iout !== undefined && o.ratio > 0 && role.structure.kind === 'simple-mirror' ? iout / o.ratio : est.iref;
+  } else v = est.iref;
   return v !== undefined && Number.isFinite(v) ? Math.abs(v) : undefined;
 }
 

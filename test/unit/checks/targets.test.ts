@@ -258,3 +258,35 @@ describe('checkTargets', () => {
   it('is quiet when the corners stay inside a wide corner tolerance', () =>
     checkMisses(mirror('; expect 0.964mA ±2% corners ±60%'), { codes: [] }));
 });
+
+describe('targets inside subcircuits and unsized cases', () => {
+  // An invented two-channel bias block: one cell definition, two instances, one target on the cell's output.
+  const twoCells = `two bias cells
+VCC vcc 0 DC 5
+.subckt cell vcc
+R1 vcc b 4.3k
+Q1 b b 0 qn
+Q2 out b 0 qn ; expect 1mA ±2%
+RL vcc out 2k
+.ends
+X1 vcc cell
+X2 vcc cell
+.model qn npn (IS=1e-16 BF=100)
+.end
+`;
+  it('applies a target in a .subckt to every instance', () => {
+    const found = checkMisses(twoCells, { codes: ['target-missed', 'target-missed'] }, { corners: { enabled: false } });
+    expect(found.map((f) => f.data!['element'])).toEqual(['X1.Q2', 'X2.Q2']);
+    expect(found.map((f) => f.data!['resistor'])).toEqual(['X1.R1', 'X2.R1']);
+  });
+
+  it('checks a reference-device target against its own collector current', () =>
+    checkMisses(mirror('').replace('Q1 b b 0 qn', 'Q1 b b 0 qn ; expect 964uA ±1%'), { codes: [] }, { corners: { enabled: false } }));
+
+  it('has no resistor to size for a current-source-fed mirror', () => {
+    const text = mirror('; expect 2mA ±2%').replace('R1 vcc b 4.3k', 'IB vcc b DC 1m');
+    const [f] = checkMisses(text, { codes: ['target-missed'] }, { corners: { enabled: false } });
+    expect(f.data!['resistor']).toBeUndefined();
+    expect(f.message).not.toContain('Changing');
+  });
+});
