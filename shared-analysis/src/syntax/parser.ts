@@ -31,6 +31,7 @@
  *   endl-name-mismatch           [warning] `.endl NAME` where NAME is not the section being closed.
  *   temp-missing-value           [error]   `.temp` without a temperature.
  *   text-after-end               [hint]    Non-blank text after `.end`; it is not read.
+ *   too-many-problems            [warning] A card with more than 25 problems; only the first 25 are listed.
  *
  * Every ErrorCard's message is also in `errors`, with its code and the ErrorCard's errorSpan.
  */
@@ -106,7 +107,12 @@ interface Context {
   sections: LibCard[];
   /** True for a top-level netlist, where a lone `.lib` field is a file path rather than a section start. */
   topLevel: boolean;
+  /** Problems reported for the card being read, so one pathological line cannot flood the list. */
+  cardProblems: number;
 }
+
+/** At most this many problems are listed per card; the rest are summed up in one more. */
+const MAX_PROBLEMS_PER_CARD = 25;
 
 /**
  * Reads a netlist into lossless cards with UTF-16 spans. Never throws: unreadable cards
@@ -115,7 +121,7 @@ interface Context {
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0 };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -193,6 +199,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
   flush();
 
   for (const open of ctx.subckts) {
+    ctx.cardProblems = 0;
     const name = open.name.text;
     addError(
       ctx,
@@ -203,6 +210,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
     );
   }
   for (const open of ctx.sections) {
+    ctx.cardProblems = 0;
     const name = open.section?.text ?? '';
     addError(
       ctx,
@@ -247,11 +255,23 @@ function isWordBreak(c: number): boolean {
 }
 
 function addError(ctx: Context, code: string, message: string, span: Span, severity: ErrorSeverity): void {
+  const n = ++ctx.cardProblems;
+  if (n > MAX_PROBLEMS_PER_CARD + 1) return;
+  if (n === MAX_PROBLEMS_PER_CARD + 1) {
+    ctx.errors.push({
+      code: 'too-many-problems',
+      message: `This card has more than ${MAX_PROBLEMS_PER_CARD} problems; only the first ${MAX_PROBLEMS_PER_CARD} are listed.`,
+      span: { start: span.start, end: span.end },
+      severity: 'warning',
+    });
+    return;
+  }
   ctx.errors.push({ code, message, span: { start: span.start, end: span.end }, severity });
 }
 
 function reportTextAfterEnd(ctx: Context, from: number): void {
   const { text } = ctx;
+  ctx.cardProblems = 0;
   const start = skipBlank(text, Math.min(from, text.length));
   if (start >= text.length) return;
   let end = text.length;
@@ -296,7 +316,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0 };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -523,6 +543,7 @@ function checkParentheses(ctx: Context, lx: Lexeme[]): void {
 /** Reads one card from its segments (first line plus continuation lines). */
 function parseGroup(ctx: Context, segments: Segment[]): Card {
   const { text } = ctx;
+  ctx.cardProblems = 0;
   const lx = lexCard(ctx, segments);
   const tokens: Token[] = [];
   for (const l of lx) if (l.type === 'word' || l.type === 'expr') tokens.push(makeToken(text, l));
@@ -562,7 +583,8 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
 }
 
 function errorCard(ctx: Context, code: string, message: string, span: Span, tokens: Token[], errorSpan: Span): ErrorCard {
-  addError(ctx, code, message, errorSpan, 'error');
+  // An error card's own message is always listed, however many problems its line had.
+  ctx.errors.push({ code, message, span: { start: errorSpan.start, end: errorSpan.end }, severity: 'error' });
   return { kind: 'error', span, tokens, message, errorSpan };
 }
 

@@ -811,6 +811,23 @@ describe('.end as a title and with a comment', () => {
   });
 });
 
+describe('problem flood', () => {
+  it('lists at most 25 problems per card and says so', () => {
+    const doc = parse('flood.cir', '.param ' + '= '.repeat(40) + '\n.param x', { hasTitle: false });
+    const codes = doc.errors.map((e) => e.code);
+    expect(codes.filter((c) => c === 'assignment-missing-name')).toHaveLength(25);
+    expect(codes.filter((c) => c === 'too-many-problems')).toHaveLength(1);
+    // The next card gets its own allowance.
+    expect(codes[codes.length - 1]).toBe('param-missing-assignment');
+  });
+
+  it('always lists the message of an error card', () => {
+    const doc = parse('flood.cir', 'K1 ' + '} '.repeat(40), { hasTitle: false });
+    expect(doc.cards[0].kind).toBe('error');
+    expect(doc.errors.map((e) => e.code).slice(-2)).toEqual(['too-many-problems', 'unknown-element-letter']);
+  });
+});
+
 describe('token helpers', () => {
   const word = (text: string, kind: 'word' | 'expr' = 'word') => ({ text, kind, span: { start: 0, end: text.length } });
 
