@@ -182,7 +182,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
             severity: netlistSeverity('current-source-cutset'),
             message:
               `${subject} ${plural ? 'are' : 'is'} joined to the rest of the circuit only through the current source${cut.sources.length > 1 ? 's' : ''} ${nameElements(cut.sources)}${net}; ` +
-              `at DC their currents would have to balance exactly, so the ${plural ? 'node voltages are' : 'node voltage is'} undefined. Add a DC path (for example a resistor) from the group to the rest of the circuit.`,
+              `at DC their currents would have to balance exactly, so the ${plural ? 'node voltages are' : 'node voltage is'} not determined. Add a DC path (for example a resistor) from the group to the rest of the circuit.`,
             ...at,
             related: [
               ...cut.sources.slice(0, MAX_RELATED).map((i) => ({ ...cardOf(i), message: `Current source \`${elements[i]!.name}\` crosses the boundary.` })),
@@ -196,7 +196,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
             code: 'node-no-dc-path',
             severity: netlistSeverity('node-no-dc-path'),
             message:
-              `${subject} ${plural ? 'have' : 'has'} no DC path to ground: capacitors are open at DC, and MOSFET gates and controlled-source inputs draw no current, so the ${plural ? 'voltages are' : 'voltage is'} undefined.${single}`,
+              `${subject} ${plural ? 'have' : 'has'} no DC path to ground: capacitors are open at DC, and MOSFET gates and controlled-source inputs draw no current, so the ${plural ? 'voltages are' : 'voltage is'} not determined.${single}`,
             ...at,
             related,
             data: { nodes: group.slice(0, 100).map((k) => nodes[k]) },
@@ -241,8 +241,8 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
       severity: netlistSeverity('voltage-source-loop'),
       message:
         a === b
-          ? `\`${e.name}\` has both ends on node \`${nodes[a]}\`, which shorts it; its current is undefined.`
-          : `${nameElements(members)} form a loop made only of voltage sources${hasInductor ? ' and inductors (an inductor is a short at DC)' : ''}; the current around the loop is undefined${
+          ? `\`${e.name}\` has both ends on node \`${nodes[a]}\`, which shorts it; its current is not determined.`
+          : `${nameElements(members)} form a loop made only of voltage sources${hasInductor ? ' and inductors (an inductor is a short at DC)' : ''}; the current around the loop is not determined${
               described.every((k) => k === 'V') ? ', and the loop voltages must sum exactly to zero' : ''
             }.`,
       ...cardOf(i),
