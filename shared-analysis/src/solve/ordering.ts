@@ -173,15 +173,6 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     mark[p] = stamp;
     let lpLen = 0;
     let lpWeight = 0;
-    const pushLp = (i: number): void => {
-      if (lpLen === lp.length) {
-        const bigger = new Int32Array(lp.length * 2);
-        bigger.set(lp);
-        lp = bigger;
-      }
-      lp[lpLen++] = i;
-      lpWeight += nv[i];
-    };
     for (const e of elems[p]) {
       if (status[e] !== 1) continue;
       const le = elemVars[e]!;
@@ -189,7 +180,9 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
         const i = le[t];
         if (status[i] !== 0 || nv[i] === 0 || mark[i] === stamp) continue;
         mark[i] = stamp;
-        pushLp(i);
+        if (lpLen === lp.length) lp = grow(lp);
+        lp[lpLen++] = i;
+        lpWeight += nv[i];
       }
       status[e] = 2;
       elemVars[e] = null;
@@ -200,11 +193,13 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
         const i = adj[t];
         if (status[i] !== 0 || nv[i] === 0 || mark[i] === stamp) continue;
         mark[i] = stamp;
-        pushLp(i);
+        if (lpLen === lp.length) lp = grow(lp);
+        lp[lpLen++] = i;
+        lpWeight += nv[i];
       }
     }
     status[p] = 1;
-    elems[p] = [];
+    elems[p].length = 0;
     adjLen[p] = 0;
     emit(p);
     nel += nv[p];
@@ -228,11 +223,12 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     // Update each variable of L_p: element list, variable list, approximate degree, hash.
     for (let t = 0; t < lpLen; t++) {
       const i = lp[t];
-      const old = elems[i];
-      const fresh: number[] = [];
+      const list = elems[i];
+      let kept = 0;
       let external = 0;
       let h = p;
-      for (const e of old) {
+      for (let r = 0; r < list.length; r++) {
+        const e = list[r];
         if (status[e] !== 1) continue;
         const we = wVal[e];
         if (we <= 0) {
@@ -241,12 +237,12 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
           elemVars[e] = null;
           continue;
         }
-        fresh.push(e);
+        list[kept++] = e;
         external += we;
         h += e;
       }
-      fresh.push(p);
-      elems[i] = fresh;
+      list.length = kept;
+      list.push(p);
       const s = adjStart[i];
       let len = 0;
       let aw = 0;
@@ -304,7 +300,7 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
           members[j] = null;
           nv[j] = 0;
           status[j] = 2;
-          elems[j] = [];
+          elems[j].length = 0;
           adjLen[j] = 0;
         }
       }
@@ -321,7 +317,7 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
         nel += nv[i];
         weight -= nv[i];
         status[i] = 2;
-        elems[i] = [];
+        elems[i].length = 0;
         nv[i] = 0;
         continue;
       }
@@ -352,6 +348,12 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     for (let v = 0; v < n; v++) if (!placed[v]) perm[pos++] = v;
   }
   return perm;
+}
+
+function grow(a: Int32Array<ArrayBuffer>): Int32Array<ArrayBuffer> {
+  const bigger = new Int32Array(a.length * 2);
+  bigger.set(a);
+  return bigger;
 }
 
 /** True when `perm` lists every index 0..n-1 exactly once. */

@@ -100,10 +100,12 @@ export class SparseLU implements LinearSolver {
   private readonly emptyIndex: number;
 
   // Factors: L below the diagonal (rows in pivot positions), U above it, U's diagonal apart.
-  private lStart: Int32Array;
+  private readonly lStart: Int32Array;
+  private lBuffer: Growable | undefined;
+  private uBuffer: Growable | undefined;
   private lRow: Int32Array = new Int32Array(0);
   private lVal: Float64Array = new Float64Array(0);
-  private uStart: Int32Array;
+  private readonly uStart: Int32Array;
   private uRow: Int32Array = new Int32Array(0);
   private uVal: Float64Array = new Float64Array(0);
   private readonly uDiag: Float64Array;
@@ -380,11 +382,13 @@ export class SparseLU implements LinearSolver {
     const x = this.work; // indexed by ORIGINAL row while the patterns are discovered
     const thr = this.pivotThreshold;
     const sing = this.singularTolerance;
-    const guess = 2 * aRow.length + n;
-    const L = new Growable(guess);
-    const U = new Growable(guess);
-    const lStart = new Int32Array(n + 1);
-    const uStart = new Int32Array(n + 1);
+    // The growable buffers and start arrays are kept between pivoting factorisations, so a fallback reuses them.
+    const L = (this.lBuffer ??= new Growable(2 * aRow.length + n));
+    const U = (this.uBuffer ??= new Growable(2 * aRow.length + n));
+    L.length = 0;
+    U.length = 0;
+    const lStart = this.lStart;
+    const uStart = this.uStart;
     pinv.fill(-1);
     this.haveSymbolic = false;
 
@@ -392,6 +396,9 @@ export class SparseLU implements LinearSolver {
       lStart[k] = L.length;
       uStart[k] = U.length;
       const j = q[k];
+      // L's buffers only grow after this column's solve, so local references stay valid until then.
+      const li = L.idx;
+      const lv = L.val;
       // Reach of column j in the graph of L (Davis §3.2): iterative depth-first search.
       const mark = ++this.visitStamp;
       let top = n;
@@ -410,7 +417,7 @@ export class SparseLU implements LinearSolver {
           const end = col < 0 ? 0 : lStart[col + 1];
           let descended = false;
           for (let t = resume[head]; t < end; t++) {
-            const w = L.idx[t];
+            const w = li[t];
             if (visited[w] === mark) continue;
             resume[head] = t + 1;
             stack[++head] = w;
@@ -439,7 +446,7 @@ export class SparseLU implements LinearSolver {
         if (col < 0) continue;
         const xi = x[i];
         if (xi === 0) continue;
-        for (let s = lStart[col]; s < lStart[col + 1]; s++) x[L.idx[s]] -= L.val[s] * xi;
+        for (let s = lStart[col]; s < lStart[col + 1]; s++) x[li[s]] -= lv[s] * xi;
       }
       for (let t = top; t < n; t++) {
         const i = reach[t];
@@ -456,8 +463,6 @@ export class SparseLU implements LinearSolver {
       }
       if (ipiv < 0 || !(amax > sing * scale) || amax === 0) {
         for (let t = top; t < n; t++) x[reach[t]] = 0;
-        this.lStart = lStart;
-        this.uStart = uStart;
         return this.fail(ipiv < 0 ? 'structurally-singular' : 'numerically-singular', j);
       }
       // Prefer the diagonal (original row j) when it is large enough.
@@ -478,15 +483,13 @@ export class SparseLU implements LinearSolver {
     }
     lStart[n] = L.length;
     uStart[n] = U.length;
-    // L's rows become pivot positions now that every row has one.
-    const lRow = L.idx.slice(0, L.length);
+    // L's rows become pivot positions now that every row has one. Views, not copies, of the buffers.
+    const lRow = L.idx.subarray(0, L.length);
     for (let p = 0; p < lRow.length; p++) lRow[p] = pinv[lRow[p]];
-    this.lStart = lStart;
     this.lRow = lRow;
-    this.lVal = L.val.slice(0, L.length);
-    this.uStart = uStart;
-    this.uRow = U.idx.slice(0, U.length);
-    this.uVal = U.val.slice(0, U.length);
+    this.lVal = L.val.subarray(0, L.length);
+    this.uRow = U.idx.subarray(0, U.length);
+    this.uVal = U.val.subarray(0, U.length);
     this.haveSymbolic = true;
     return { ok: true };
   }
