@@ -105,6 +105,12 @@ async function request<P, R>(c: LanguageClient, method: string, params: P, title
         void vscode.window.showErrorMessage(`${title}: the language server gave no answer within ${REQUEST_TIMEOUT_MS / 1000} s; the request was cancelled.`);
         return undefined;
       }
+      // A server may answer a request it cannot serve with `{ error }` instead of a JSON-RPC error.
+      const refused = answer && typeof answer === 'object' && typeof (answer as { error?: unknown }).error === 'string' ? (answer as unknown as { error: string }).error : undefined;
+      if (refused !== undefined) {
+        void vscode.window.showErrorMessage(`${title}: ${refused}`);
+        return undefined;
+      }
       return answer as R;
     } catch (e) {
       if (token.isCancellationRequested) return undefined;

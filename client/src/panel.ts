@@ -23,7 +23,7 @@ export function panelContentSecurityPolicy(nonce: string): string {
 /** The complete HTML page for one output characteristic. */
 export function renderPanelHtml(result: OutputCharacteristicResult, options: PanelPageOptions): string {
   const nonce = options.nonce.replace(/[^A-Za-z0-9+/=]/g, '');
-  const size = options.size ?? { width: 720, height: 420 };
+  const size = options.size ?? { width: 640, height: 400 };
   const structure = result.structureId ? ` (${escapeXml(result.structureId)})` : '';
   return `<!DOCTYPE html>
 <html lang="en">

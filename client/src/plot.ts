@@ -70,6 +70,23 @@ export function niceTicks(min: number, max: number, count: number): { min: numbe
   return { min: cleanFloat(lo), max: cleanFloat(hi), step, values };
 }
 
+/**
+ * Ticks for a chart axis: Heckbert's loose labelling, then one step finer when the loose range
+ * wastes more than a sixth of the axis (0…12 V gets 2 V steps to 12 V rather than 5 V steps to 15 V).
+ */
+export function axisTicks(min: number, max: number, count: number): { min: number; max: number; step: number; values: number[] } {
+  const loose = niceTicks(min, max, count);
+  if (loose.max - loose.min <= 1.2 * (max - min)) return loose;
+  const step = niceNumber(loose.step / 2, true);
+  const lo = Math.floor(min / step) * step;
+  const hi = Math.ceil(max / step) * step;
+  const n = Math.round((hi - lo) / step);
+  if (n > 2 * count) return loose;
+  const values: number[] = [];
+  for (let k = 0; k <= n; k++) values.push(cleanFloat(lo + k * step));
+  return { min: cleanFloat(lo), max: cleanFloat(hi), step, values };
+}
+
 function cleanFloat(v: number): number {
   const r = Number(v.toPrecision(12));
   return r === 0 ? 0 : r; // no negative zero
@@ -93,7 +110,7 @@ function tickLabel(value: number, exponent: number, step: number): string {
 }
 
 function buildAxis(min: number, max: number, count: number, unit: string, name: string, toPx: (fraction: number) => number): AxisLayout {
-  const t = niceTicks(min, max, count);
+  const t = axisTicks(min, max, count);
   const exponent = axisExponent([t.min, t.max]);
   const span = t.max - t.min;
   return {
@@ -293,7 +310,7 @@ export const OUTPUT_CHARACTERISTIC_CSS = `
 body { color: var(--vscode-foreground); background: var(--vscode-editor-background); font-family: var(--vscode-font-family); font-size: var(--vscode-font-size); padding: 0 16px 16px; }
 h1 { font-size: 1.2em; font-weight: 600; margin: 12px 0 4px; }
 .qp-subtitle, .qp-note { color: var(--vscode-descriptionForeground); }
-.qp-chart { max-width: 100%; height: auto; font-family: var(--vscode-font-family); font-size: 12px; }
+.qp-chart { max-width: 100%; height: auto; font-family: var(--vscode-font-family); font-size: 13px; }
 .qp-chart text { fill: var(--vscode-foreground); }
 .qp-chart .qp-note { fill: var(--vscode-descriptionForeground); }
 .qp-frame { fill: none; stroke: var(--vscode-editorWidget-border, var(--vscode-foreground)); stroke-width: 1; }

@@ -23,12 +23,14 @@ function record(name, ok, detail) {
 
 /** Runs one check; a thrown error fails the check with its message, never the whole run. */
 async function check(name, fn) {
+  const t0 = Date.now();
+  const took = () => `${((Date.now() - t0) / SECOND).toFixed(1)} s`;
   try {
     const detail = await fn();
-    record(name, true, typeof detail === 'string' ? detail : '');
+    record(name, true, `${typeof detail === 'string' ? detail + '; ' : ''}${took()}`);
     return true;
   } catch (e) {
-    record(name, false, e instanceof Error ? e.message : String(e));
+    record(name, false, `${e instanceof Error ? e.message : String(e)}; ${took()}`);
     return false;
   }
 }
@@ -181,6 +183,38 @@ async function hoverUntil(page, lineStart, word, accept, timeoutMs) {
   return lastText;
 }
 
+/** Saves the active editor and waits until the file on disk differs from `previous`; returns the new text. */
+async function saveAndRead(page, file, previous, what) {
+  await page.keyboard.press('Control+S');
+  return until(async () => {
+    const now = readFileSync(file, 'utf8');
+    return now !== previous ? now : null;
+  }, { timeoutMs: 15 * SECOND, message: `${what}: the saved file did not change` });
+}
+
+/** Lines of `after` that are not in `before` (the cards an edit rewrote). */
+function changedLines(before, after) {
+  const old = new Set(before.split(/\r?\n/));
+  return after.split(/\r?\n/).filter((l) => !old.has(l));
+}
+
+/** Runs a command from the command palette by its full title. */
+async function runPaletteCommand(page, title) {
+  await page.keyboard.press('Control+Shift+P');
+  const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+  await input.fill(`>${title}`);
+  await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')]
+    .some((r) => (r.textContent ?? '').includes(t)), title), { timeoutMs: 15 * SECOND, message: `the command palette does not list "${title}"` });
+  await page.keyboard.press('Enter');
+}
+
+/** Clicks `word` on the line that starts with `lineStart`, which puts the editor cursor there. */
+async function clickWord(page, lineStart, word) {
+  const box = await until(() => wordBox(page, lineStart, word), { timeoutMs: 10 * SECOND, message: `"${word}" is not visible` });
+  await page.mouse.click(box.x, box.y);
+  await sleep(300);
+}
+
 /** Reads `IC <number> <prefix>A` from a hover and returns amperes. */
 function collectorCurrent(text) {
   const m = /\bIC\s*[=:]?\s*([−-]?\d+(?:\.\d+)?(?:e[−-]?\d+)?)\s*([pnuµm]?)A\b/.exec(text);
@@ -227,7 +261,9 @@ async function main() {
   for (const d of [userData, extensions, browserProfile, xdg, join(userData, 'User')]) mkdirSync(d, { recursive: true });
   cpSync(join(ROOT, 'examples'), workspace, { recursive: true });
   if (!existsSync(join(workspace, DEMO))) throw new StepError('Preparing the workspace', `examples/${DEMO} does not exist.`);
-  const demoText = readFileSync(join(workspace, DEMO), 'utf8');
+  const demoFile = join(workspace, DEMO);
+  const demoText = readFileSync(demoFile, 'utf8');
+  let currentText = demoText;
   const configFile = join(work, 'code-server.yaml');
   writeFileSync(configFile, 'auth: none\ncert: false\n');
   writeFileSync(join(userData, 'User', 'settings.json'), JSON.stringify({
@@ -302,17 +338,25 @@ async function main() {
 
     await page.goto(`http://127.0.0.1:${port}/?folder=${encodeURIComponent(workspace)}`, { waitUntil: 'domcontentloaded', timeout: 60 * SECOND });
     await page.waitForSelector('.monaco-workbench', { timeout: 60 * SECOND });
+    progress(`the workbench is up (${((Date.now() - setupDone) / SECOND).toFixed(1)} s after setup).`);
 
     const titleLine = demoText.split(/\r?\n/)[0].trim();
     const opened = await check(`opens examples/${DEMO} in the editor`, async () => {
+      const shown = async () => (await editorLines(page)).some((l) => l.trim().startsWith(titleLine.slice(0, 30)));
       await until(async () => {
+        // Quick Open (Ctrl+P) by file name, as a user would; retried because the file index fills in after start-up.
         await page.keyboard.press('Control+P');
         const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 5 * SECOND });
         await input.fill(DEMO);
-        await sleep(600);
+        const listed = await until(async () => page.evaluate((name) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')]
+          .some((r) => (r.textContent ?? '').includes(name)), DEMO), { timeoutMs: 4 * SECOND, intervalMs: 200, message: 'not listed' }).catch(() => false);
+        if (!listed) {
+          await page.keyboard.press('Escape');
+          return false;
+        }
         await page.keyboard.press('Enter');
-        return until(async () => (await editorLines(page)).some((l) => l.trim().startsWith(titleLine.slice(0, 30))), { timeoutMs: 8 * SECOND, message: 'the file did not show' }).catch(() => false);
-      }, { timeoutMs: 45 * SECOND, intervalMs: 500, message: `the editor did not show the first line "${titleLine}"` });
+        return until(shown, { timeoutMs: 8 * SECOND, message: 'the file did not show' }).catch(() => false);
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: `the editor did not show the first line "${titleLine}"` });
       return `title line "${titleLine}" visible`;
     });
     await screenshot(page, 'opened');
@@ -411,15 +455,76 @@ async function main() {
         // The menu focuses the first action; step down to the chosen one.
         for (let k = 0; k < fixIndex; k++) await page.keyboard.press('ArrowDown');
         await page.keyboard.press('Enter');
-        const after = await until(async () => {
-          const now = (await editorLines(page)).join('\n');
-          return now !== before ? now : null;
-        }, { timeoutMs: 15 * SECOND, message: `applying "${chosen}" did not change the text` });
+        await until(async () => (await editorLines(page)).join('\n') !== before, { timeoutMs: 15 * SECOND, message: `applying "${chosen}" did not change the editor text` });
         await screenshot(page, 'quick-fix-applied');
-        const changed = after.split('\n').filter((l) => !before.split('\n').includes(l));
-        return `applied "${chosen}"; new line(s): ${changed.map((l) => l.trim()).join(' | ').slice(0, 200)}`;
+        const saved = await saveAndRead(page, demoFile, demoText, `applying "${chosen}"`);
+        const changed = changedLines(demoText, saved);
+        // A resistor fix names the value it writes ("Set RREF to 25.5k …"); that value must now be in the netlist.
+        const value = /\bto\s+([0-9][0-9.]*[a-zA-Z]*)/.exec(chosen)?.[1];
+        if (value && !changed.some((l) => l.includes(value))) throw new Error(`"${chosen}" was applied but no changed line contains ${value}: ${changed.join(' | ')}`);
+        currentText = saved;
+        return `applied "${chosen}"; changed line(s): ${changed.map((l) => l.trim()).join(' | ').slice(0, 200)}`;
       }
       throw new Error(`no qpoint diagnostic offered a quick fix (${tried.join('; ') || 'no rows'})`);
+    });
+
+    await check('sizing a resistor for a target current from the palette writes the picked standard value', async () => {
+      const resistorLine = currentText.split(/\r?\n/).find((l) => /^RREF\s/i.test(l)) ?? currentText.split(/\r?\n/).find((l) => /^R\w*\s/i.test(l));
+      if (!resistorLine) throw new Error(`examples/${DEMO} has no resistor card`);
+      const name = resistorLine.trim().split(/\s+/)[0];
+      await page.keyboard.press('Escape');
+      await clickWord(page, name + ' ', name);
+      await runPaletteCommand(page, 'qpoint: Size a reference resistor for a target current');
+      const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+      await input.fill('1.5 volts');
+      const refusal = await until(async () => page.evaluate(() => {
+        const text = (document.querySelector('.quick-input-widget .quick-input-message')?.textContent ?? '').trim();
+        return /not a current unit/.test(text) ? text : null;
+      }), { timeoutMs: 10 * SECOND, message: 'the input box did not refuse "1.5 volts" as not a current' });
+      await input.fill('400u');
+      await until(async () => page.evaluate(() => /400 µA/.test(document.querySelector('.quick-input-widget .quick-input-message')?.textContent ?? '')), { timeoutMs: 5 * SECOND, message: 'the input box did not read 400u as 400 µA' });
+      await page.keyboard.press('Enter');
+      const candidates = await until(async () => {
+        const rows = await page.evaluate(() => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].map((r) => (r.textContent ?? '').trim()));
+        return rows.length > 0 && rows.some((t) => /from the target/.test(t)) ? rows : null;
+      }, { timeoutMs: 60 * SECOND, message: 'no standard-value candidates were offered' });
+      await screenshot(page, 'size-resistor-candidates');
+      await page.keyboard.press('Enter');
+      const saved = await saveAndRead(page, demoFile, currentText, `sizing ${name}`);
+      const changed = changedLines(currentText, saved);
+      currentText = saved;
+      return `refused "1.5 volts" ("${refusal.slice(0, 90)}"); ${candidates.length} candidate(s), first "${candidates[0].slice(0, 80)}"; changed: ${changed.map((l) => l.trim()).join(' | ').slice(0, 120)}`;
+    });
+
+    await check('plotting a mirror output shows a chart with the edge, the operating point and the corner table', async () => {
+      if (!qName) throw new Error('no BJT output card to plot');
+      await page.keyboard.press('Escape');
+      await clickWord(page, qName + ' ', qName);
+      await runPaletteCommand(page, 'qpoint: Plot a mirror output characteristic');
+      const chart = await until(async () => {
+        for (const frame of page.frames()) {
+          const info = await frame.evaluate(() => {
+            const svg = document.querySelector('svg.qp-chart');
+            if (!svg) return null;
+            return {
+              title: document.querySelector('h1')?.textContent ?? '',
+              edge: !!svg.querySelector('.qp-edge'),
+              operating: svg.querySelector('.qp-operating')?.getAttribute('data-amps') ?? null,
+              ticks: svg.querySelectorAll('.qp-tick-label').length,
+              corners: document.querySelectorAll('.qp-corners tbody tr').length,
+              text: svg.textContent ?? '',
+            };
+          }).catch(() => null);
+          if (info) return info;
+        }
+        return null;
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'no output-characteristic chart appeared' });
+      await screenshot(page, 'output-characteristic');
+      if (!chart.edge) throw new Error('the chart has no compliance-edge marker');
+      if (chart.operating === null || !(Number(chart.operating) > 0)) throw new Error(`the operating-point marker carries ${chart.operating}`);
+      if (chart.ticks < 6) throw new Error(`only ${chart.ticks} tick labels`);
+      if (/NaN|Infinity/.test(chart.text)) throw new Error('the chart shows NaN or Infinity');
+      return `"${chart.title}", operating point ${(Number(chart.operating) * 1e3).toFixed(4)} mA, ${chart.ticks} tick labels, ${chart.corners} corner row(s)`;
     });
 
     await check('the page raised no uncaught script errors from the extension', async () => {

@@ -2,6 +2,7 @@
 import { describe, expect, it } from 'vitest';
 import type { OutputCharacteristicResult } from '../../../server/src/protocol';
 import {
+  axisTicks,
   escapeXml,
   layoutOutputCharacteristic,
   niceNumber,
@@ -75,6 +76,13 @@ describe('nice numbers and ticks', () => {
     checkTicks([-0.3, 0.7, 6], { min: -0.4, max: 0.8, step: 0.2, values: [-0.4, -0.2, 0, 0.2, 0.4, 0.6, 0.8] });
   });
 
+  it('steps one nice number finer when the loose range wastes more than a sixth of the axis', () => {
+    const t = axisTicks(0, 12, 4);
+    expect(t.step).toBe(2);
+    expect(t.values).toEqual([0, 2, 4, 6, 8, 10, 12]);
+    expect(axisTicks(0, 5, 6).values).toEqual([0, 1, 2, 3, 4, 5]);
+  });
+
   it('writes tick values without floating-point residue', () => {
     for (const v of niceTicks(0, 0.7, 8).values) expect(String(v).length).toBeLessThanOrEqual(4);
   });
@@ -88,7 +96,8 @@ describe('chart layout', () => {
     // Source: SI prefixes milli = 10^−3, micro = 10^−6 (BIPM, The International System of Units, 9th ed., 2019).
     expect(layout.y.exponent).toBe(-3);
     expect(layout.y.title).toBe('Output current (mA)');
-    expect(layout.y.ticks.map((t) => t.label)).toEqual(['0', '0.5', '1.0', '1.5']);
+    // Heckbert's loose labels would run to 1.5 mA; one step finer (0.2 mA) wastes less of the axis.
+    expect(layout.y.ticks.map((t) => t.label)).toEqual(['0', '0.2', '0.4', '0.6', '0.8', '1.0', '1.2']);
   });
 
   it('uses µA for a 250 µA output', () => {
