@@ -83,31 +83,32 @@ describe('hostile values in otherwise well-formed structures', () => {
 });
 
 describe('random transistor soups', () => {
-  it('random three-terminal connections of transistors, resistors and sources never break recognition (seeded)', () => {
-    const nodeNames = ['0', 'vcc', 'a', 'b', 'c', 'd', 'e'];
+  it('random extra transistors, resistors and sources wired onto every kind of structure (seeded)', () => {
+    const nodeNames = ['0', 'vcc', 'a', 'b', 'c', 'out', 'e2', 'x'];
     const node = fc.constantFrom(...nodeNames);
     const element = fc.oneof(
-      fc.record({ k: fc.constant('q' as const), n: fc.tuple(node, node, node), pnp: fc.boolean(), area: hostile }),
-      fc.record({ k: fc.constant('m' as const), n: fc.tuple(node, node, node), p: fc.boolean(), w: hostile }),
-      fc.record({ k: fc.constant('r' as const), n: fc.tuple(node, node), v: hostile }),
-      fc.record({ k: fc.constant('i' as const), n: fc.tuple(node, node), v: hostile }),
+      { arbitrary: fc.record({ k: fc.constant('q' as const), n: fc.tuple(node, node, node), pnp: fc.boolean(), area: hostile }), weight: 3 },
+      { arbitrary: fc.record({ k: fc.constant('m' as const), n: fc.tuple(node, node, node), p: fc.boolean(), w: hostile }), weight: 3 },
+      { arbitrary: fc.record({ k: fc.constant('r' as const), n: fc.tuple(node, node), v: hostile }), weight: 2 },
+      { arbitrary: fc.record({ k: fc.constant('i' as const), n: fc.tuple(node, node), v: hostile }), weight: 1 },
     );
     const before = seen.structures;
     fc.assert(
-      fc.property(fc.array(element, { minLength: 1, maxLength: 12 }), fc.boolean(), (els, withSolve) => {
-        const b = new CircuitBuilder().v('VCC', 'vcc', '0', 5).model('qn', 'npn').model('qp', 'pnp').model('nn', 'nmos', { VTO: 0.5 }).model('pp', 'pmos', { VTO: -0.5 });
+      fc.property(fc.constantFrom(...KINDS), fc.constantFrom(...TECHS), fc.array(element, { minLength: 1, maxLength: 6 }), fc.boolean(), (kind, tech, els, withSolve) => {
+        const { b } = fixture(kind, tech);
+        b.model('qn2', 'npn').model('qp2', 'pnp').model('nn2', 'nmos', { VTO: 0.5 }).model('pp2', 'pmos', { VTO: -0.5 });
         els.forEach((e, i) => {
-          if (e.k === 'q') b.q(`Q${i}`, e.n[0], e.n[1], e.n[2], e.pnp ? 'qp' : 'qn', { area: e.area });
-          else if (e.k === 'm') b.mos(`M${i}`, e.n[0], e.n[1], e.n[2], e.p ? 'vcc' : '0', e.p ? 'pp' : 'nn', { w: e.w * 1e-6 });
-          else if (e.k === 'r') b.r(`R${i}`, e.n[0], e.n[1], e.v);
-          else b.i(`I${i}`, e.n[0], e.n[1], e.v * 1e-6);
+          if (e.k === 'q') b.q(`QZ${i}`, e.n[0], e.n[1], e.n[2], e.pnp ? 'qp2' : 'qn2', { area: e.area });
+          else if (e.k === 'm') b.mos(`MZ${i}`, e.n[0], e.n[1], e.n[2], e.p ? 'vcc' : '0', e.p ? 'pp2' : 'nn2', { w: e.w * 1e-6 });
+          else if (e.k === 'r') b.r(`RZ${i}`, e.n[0], e.n[1], e.v);
+          else b.i(`IZ${i}`, e.n[0], e.n[1], e.v * 1e-6);
         });
         expectClean(b.build(), withSolve);
       }),
       { seed: 7341, numRuns: 200 },
     );
-    // Random wiring does make mirrors now and then; the property must have reached the checks with some.
-    expect(seen.structures - before).toBeGreaterThan(10);
+    // Extra wiring breaks some structures and makes others; the property must have reached the checks often.
+    expect(seen.structures - before).toBeGreaterThan(100);
   });
 
   it('a ring of mirrors feeding each other does not loop forever', () => {
