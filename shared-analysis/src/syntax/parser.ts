@@ -329,8 +329,11 @@ function titleLooksLikeCard(text: string, first: number, end: number): boolean {
   return fields.some((t) => t !== undefined && isNumberLike(t));
 }
 
+/** Cuts long field text for a message, never between the halves of a surrogate pair. */
 function shorten(s: string): string {
-  return s.length > 60 ? s.slice(0, 57) + '...' : s;
+  if (s.length <= 60) return s;
+  const c = s.charCodeAt(56);
+  return s.slice(0, c >= 0xd800 && c <= 0xdbff ? 56 : 57) + '...';
 }
 
 // ---------------------------------------------------------------------------
@@ -413,13 +416,13 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       i++;
     }
     // `PARAMS:name=...` glued together: split the keyword off so it is recognised.
-    if (i - s > 7 && text.slice(s, s + 7).toUpperCase() === 'PARAMS:') {
+    if (i - s > 7 && text.charCodeAt(s + 6) === 58 /* : */ && text.slice(s, s + 7).toUpperCase() === 'PARAMS:') {
       out.push({ type: 'word', start: s, end: s + 7, token: undefined });
       out.push({ type: 'word', start: s + 7, end: i, token: undefined });
     } else {
       out.push({ type: 'word', start: s, end: i, token: undefined });
     }
-    if (out.length === 1) {
+    if (out.length === 1 && c === 46 /* . */) {
       const cmd = text.slice(s, i).toLowerCase();
       if (cmd === '.include' || cmd === '.inc' || cmd === '.lib') mode.path = true;
     }
