@@ -794,6 +794,16 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (kept.length < 3) return missing(kept.length);
       card.nodes = kept.slice(0, 2);
       card.model = kept[2];
+      if (isNumberLike(card.model)) {
+        return errorCard(
+          ctx,
+          'missing-model-name',
+          `${owner}: ${need.noun} needs ${need.needs}; the third field '${shorten(card.model.text)}' is a number, not a model name.`,
+          span,
+          tokens,
+          card.model.span,
+        );
+      }
       const rest = kept.slice(3);
       if (rest.length > 0 && isNumberLike(rest[0])) card.area = rest.shift();
       for (const t of rest) unexpected(ctx, owner, t, `${need.noun} uses`);

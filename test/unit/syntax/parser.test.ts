@@ -531,6 +531,12 @@ describe('diodes and bipolar transistors', () => {
     });
   });
 
+  it('reports a number where the diode model belongs', () => {
+    check('D1 a k 2\n       ^ missing-model-name', {
+      messages: ["D1: a diode needs anode and cathode nodes and a model name; the third field '2' is a number, not a model name."],
+    });
+  });
+
   it('tells substrate from area by position and the model name', () => {
     check(
       [
