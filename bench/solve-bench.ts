@@ -1,6 +1,7 @@
 // Solver benchmark: sparse LU against mathjs on generated resistor ladders, grids and BJT mirror arrays, plus Newton to the operating point.
 
 import { create, all } from 'mathjs';
+import { cpus, loadavg } from 'node:os';
 import { isMainThread, parentPort, Worker, workerData } from 'node:worker_threads';
 import type { Bjt, Circuit, Element, Model, Origin, Resistor, VoltageSource } from '../shared-analysis/src/circuit';
 import { MODEL_DEFAULTS } from '../shared-analysis/src/circuit';
@@ -328,6 +329,8 @@ function maxRelDiff(a: Float64Array, b: Float64Array): number {
 async function main(): Promise<void> {
   const exposeGc = typeof (globalThis as { gc?: unknown }).gc === 'function';
   console.log('qpoint solver benchmark');
+  const load = (): string => loadavg().map((v) => v.toFixed(2)).join(' / ');
+  console.log(`Machine: ${cpus().length} × ${cpus()[0]?.model.trim() ?? 'unknown CPU'}; load average (1/5/15 min) at start ${load()}`);
   console.log(`Node ${process.version}, ${process.platform}/${process.arch}${exposeGc ? ', --expose-gc on' : ', --expose-gc off (run with node --expose-gc for steadier figures)'}`);
   console.log(`Medians of ${MIN_REPS}–${MAX_REPS} runs. mathjs slu(order ${MATHJS_ORDER}, threshold ${MATHJS_THRESHOLD}) + lusolve runs in a worker: repeats stop after ${MATHJS_BUDGET_MS / 1000} s, a single run is stopped at ${MATHJS_RUN_CAP_MS / 1000} s.`);
   console.log('');
@@ -450,6 +453,7 @@ async function main(): Promise<void> {
     const gr = z.refactorMs / a.refactorMs;
     console.log(`  ${b.family.padEnd(8)} 10k → 100k growth ≤ 15×: first ${g.toFixed(1)}× (${g <= 15 ? 'met' : 'missed'}), refactor ${gr.toFixed(1)}× (${gr <= 15 ? 'met' : 'missed'})`);
   }
+  console.log(`Load average at the end: ${load()} (figures taken under a load above the core count are inflated).`);
   if (target2k) {
     const ok = target2k.converged && target2k.both < 100;
     console.log(`  2,000-BJT mirror array at its operating point in < 100 ms median: prepare+solve ${fmtMs(target2k.both)}, solve ${fmtMs(target2k.solve)} (${ok ? 'met' : 'missed'})`);
