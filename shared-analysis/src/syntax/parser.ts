@@ -1003,6 +1003,15 @@ function parseSource(
     if (!bare && !dc) bare = t;
     else unexpected(ctx, owner, t, 'a source uses (its DC value is already given)');
   }
+  if (dc && bare) {
+    addError(
+      ctx,
+      'unexpected-field',
+      `${owner}: '${shorten(bare.text)}' and DC ${shorten(dc.text)} both give the DC value; DC ${shorten(dc.text)} is used and '${shorten(bare.text)}' is ignored.`,
+      bare.span,
+      'warning',
+    );
+  }
   let source: SourceValue;
   if (dc || dcKeyword) source = { form: 'dc', value: dc };
   else if (bare) source = { form: 'bare', value: bare };

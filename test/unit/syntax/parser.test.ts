@@ -440,6 +440,13 @@ describe('independent sources', () => {
     check('V1 a 0 DC 1.2 SIN(0 1 1k)', { cards: [el({ letter: 'V', name: 'V1', nodes: ['a', '0'], source: { form: 'dc', value: '1.2' } })] });
   });
 
+  it('uses the DC value when a bare value is also given, and says so', () => {
+    check('I1 a 0 1m DC 2m\n       ^^ unexpected-field', {
+      cards: [el({ letter: 'I', name: 'I1', nodes: ['a', '0'], source: { form: 'dc', value: '2m' } })],
+      messages: ["I1: '1m' and DC 2m both give the DC value; DC 2m is used and '1m' is ignored."],
+    });
+  });
+
   it('reads a source with no value, leaving the value undefined', () => {
     check('V1 a 0\nI2 b 0 AC 1', {
       cards: [
