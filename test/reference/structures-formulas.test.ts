@@ -271,6 +271,23 @@ describe('estimate against the DC solver on the same circuit', () => {
     check(e.irefShortcut!, 1e-3, 1e-12);
   });
 
+  it('beta and supply corners: betaScale and railVolts move the estimate as the formulas say', () => {
+    // Source: Gray et al., ch. 4 — IOUT/IREF = 1/(1 + 2/β); β = 100 × 0.5 = 50 gives 1/1.04.
+    const { circuit } = fixture('simple-mirror', 'npn');
+    const s = recogniseStructures(circuit)[0];
+    const low = estimateStructure(circuit, s, { temperatureC: 27, betaScale: 0.5 });
+    check(low.iout.Q2 / low.iref, 1 / 1.04, 1e-12);
+    // Source: IREF = (V+ − VBE)/R — a 5 % higher rail raises IREF by 0.25 V/4.3 kΩ less the VBE shift (≈ VT·ln of the current ratio).
+    const nom = estimateStructure(circuit, s, { temperatureC: 27 });
+    const hi = estimateStructure(circuit, s, { temperatureC: 27, railVolts: { vcc: 5.25 } });
+    const dVbe = thermalVolts(27) * Math.log(hi.iref / nom.iref);
+    check(hi.iref - nom.iref, (0.25 - dVbe) / 4.3e3, 1e-6);
+    // The solver at the same beta corner agrees.
+    const r = new DcSolver(circuit).solve({ betaScale: 0.5 });
+    const q2 = r.op.devices.Q2;
+    check(low.iout.Q2, q2.type === 'bjt' ? q2.ic : 0, 0.005);
+  });
+
   it('output resistance of the simple mirror: VA/IC against a finite difference of the solve', () => {
     // Source: ro = VA/IC (Gray et al., ch. 1/4), checked against ΔV/ΔI of the solver with the output forced by a source.
     const rout = (vout: number) => {

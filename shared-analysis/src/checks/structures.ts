@@ -184,6 +184,8 @@ class StructureCheck {
       structures: this.all,
       irefGiven: s.reference.feed === 'other' ? this.measured?.iref : undefined,
     });
+    // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
+    if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
     s.compliance = this.compliance();
     s.outputResistance = this.outputResistance();
     s.discrepancy = this.discrepancy();
