@@ -16,7 +16,7 @@
  *   unbalanced-brace             [error]   A `{` with no matching `}` on its line, or a stray `}`.
  *   unterminated-quote           [error]   A `'` or `"` with no closing quote on its line.
  *   unbalanced-parenthesis       [warning] A `(` with no matching `)` in the card, or a stray `)`.
- *   assignment-missing-value     [error]   `name=` with nothing after the `=`.
+ *   assignment-missing-value     [error]   `name=` with nothing after the `=`, or a `.model` parameter written without `=value`.
  *   assignment-missing-name      [error]   `=value` with no name before the `=`.
  *   model-missing-fields         [error]   `.model` without a model name and a device type.
  *   subckt-missing-name          [error]   `.subckt` without a subcircuit name.
@@ -1050,7 +1050,13 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
         );
       }
       for (const t of pos.slice(2)) {
-        addError(ctx, 'unexpected-field', `.model ${pos[0].text}: '${shorten(t.text)}' is not a name=value parameter; it is ignored.`, t.span, 'warning');
+        addError(
+          ctx,
+          'assignment-missing-value',
+          `.model ${shorten(pos[0].text)}: parameter '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`,
+          t.span,
+          'error',
+        );
       }
       return { kind: 'model', span, tokens, name: pos[0], type: pos[1], params: asgs };
     }

@@ -668,6 +668,13 @@ describe('.model', () => {
     });
   });
 
+  it('reports a model parameter without a value', () => {
+    check('.model QN NPN (IS=1e-16 BF)\n                        ^^ assignment-missing-value', {
+      cards: [{ kind: 'model', name: 'QN', type: 'NPN', params: ['IS=1e-16'] }],
+      messages: [".model QN: parameter 'BF' has no value; write BF=<value>."],
+    });
+  });
+
   it('warns about an unclosed parameter list', () => {
     check('.model QN NPN (BF=100\n              ^ unbalanced-parenthesis', {
       cards: [{ kind: 'model', name: 'QN', type: 'NPN', params: ['BF=100'] }],
