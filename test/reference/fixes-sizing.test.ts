@@ -165,3 +165,15 @@ RLOAD vpos out 10k
     expect(seriesValues('E24')).toContain(1.1);
   });
 });
+
+describe('targets no resistor can reach', () => {
+  it('offers nothing when the target is beyond any resistance from 1 mΩ to 1 GΩ', () => {
+    // Source: Ohm's law — a 12 V rail through at least 1 mΩ cannot drive a resistor's own current
+    // past 12 kA, and a load resistor in series with a 3.3 kΩ resistor cannot exceed 12 V/3.3 kΩ ≈ 3.6 mA.
+    const a = analyse(netlist('22k', '1mA ±2%'), 'E24');
+    const r = sizeResistorForCurrent({ circuit: a.circuit, solver: a.solver, resistor: 'R1', device: 'RLOAD', target: 10e-3, series: 'E24' });
+    expect(r.candidates).toEqual([]);
+    expect(r.problem).toContain('No resistance between 1 mΩ and 1 GΩ');
+    expect(r.problem).not.toMatch(/NaN|undefined/);
+  });
+});

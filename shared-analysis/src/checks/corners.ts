@@ -167,8 +167,12 @@ export function runCorners(ctx: CornerContext): Finding[] {
   for (const e of circuit.elements) elements.set(e.name, e);
 
   for (const s of structures) {
-    const nominalM = measureStructure(circuit, nominal.op, s);
-    s.corners = solved.map(({ spec, result }) => toCornerResult(spec, result ? measureStructure(circuit, result.op, s) : undefined, s));
+    // measureStructure reads only the structure's own devices and the node table; measuring on a
+    // circuit view holding just those devices keeps its per-call indexing small (corners × structures calls).
+    const own = new Set(s.devices.map((d) => d.toLowerCase()));
+    const view: Circuit = { ...circuit, elements: circuit.elements.filter((e) => own.has(e.name.toLowerCase())) };
+    const nominalM = measureStructure(view, nominal.op, s);
+    s.corners = solved.map(({ spec, result }) => toCornerResult(spec, result ? measureStructure(view, result.op, s) : undefined, s));
     if (failed.length > 0) {
       const ref = elements.get(s.reference.device);
       if (ref) {

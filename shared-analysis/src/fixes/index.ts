@@ -102,11 +102,11 @@ function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, S
   const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
   const structure = structureId ? ctx.structures.find((s) => s.id === structureId) : undefined;
 
-  const size = (sr: SeriesName): SizingResult => {
+  const size = (sr: SeriesName, knownIdeal?: number): SizingResult => {
     const key = `${r.name}|${element}|${target}|${sr}`;
     let sizing = ctx.sizingCache?.get(key);
     if (!sizing) {
-      sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC });
+      sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC, knownIdeal });
       ctx.sizingCache?.set(key, sizing);
     }
     return sizing;
@@ -117,7 +117,7 @@ function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, S
   // When neither neighbour in the chosen series meets the target's tolerance, also offer the closest value of a finer series.
   const finer = FINER[series];
   if (finer && !sizing.candidates.some((c) => Math.abs(c.error) <= tolerance)) {
-    const fine = size(finer);
+    const fine = size(finer, sizing.ideal > 0 && !sizing.problem ? sizing.ideal : undefined);
     const closest = fine.candidates.reduce<SizingCandidate | undefined>((a, b) => (!a || Math.abs(b.error) < Math.abs(a.error) ? b : a), undefined);
     if (closest && !offered.some((o) => Math.abs(o.c.value - closest.value) < 1e-9 * closest.value)) offered.push({ c: closest, series: finer });
   }

@@ -29,6 +29,8 @@ export interface SizingContext {
    * else the resistor itself.
    */
   device?: string;
+  /** An exact resistance found by an earlier sizing of the same target (another series): skips the refinement. */
+  knownIdeal?: number;
 }
 
 /** One standard value and what it gives. */
@@ -146,6 +148,12 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     return fail(`${deviceName} carries no current at the present operating point, so the change needed cannot be estimated.`, deviceName, solves);
   }
 
+  if (ctx.knownIdeal !== undefined && Number.isFinite(ctx.knownIdeal) && ctx.knownIdeal > 0) {
+    const ideal = clampOhms(ctx.knownIdeal);
+    const { candidates, problem } = standardCandidates(ideal, ctx.series, target, measure);
+    return { ideal, candidates, device: deviceName, firstValueFrom: 'ohms-law', solves, problem };
+  }
+
   // First value from the structure's formula.
   const tempC = ctx.temperatureC ?? baseline.op.temperatureC;
   const vt = thermalVolts(tempC);
@@ -235,36 +243,57 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   let problem: string | undefined;
   if (Math.abs(best.g) > 1e-3) {
     const atEdge = best.u <= uMin + 1e-9 || best.u >= uMax - 1e-9;
+    // A value pinned at the end of the range is not a design answer; offer nothing rather than 1 GΩ.
+    if (atEdge) {
+      return {
+        ideal,
+        candidates: [],
+        device: deviceName,
+        firstValueFrom,
+        solves,
+        problem: `No resistance between 1 mΩ and 1 GΩ gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}; the nearest it gets is ${formatEngineering(best.current, { unit: 'A' })}.`,
+      };
+    }
     problem = atEdge
       ? `No resistance between 1 mΩ and 1 GΩ gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}; the nearest it gets is ${formatEngineering(best.current, { unit: 'A' })}.`
       : `The refinement stopped ${formatPercentPlain(Math.exp(best.g) - 1)} from the target after ${solves} solves; the values offered are the nearest found.`;
   }
 
-  const candidates: SizingCandidate[] = [];
-  const nearest = nearestStandardValues(ideal, ctx.series);
-  if (nearest) {
-    const values: { v: number; side: SizingCandidate['side'] }[] = nearest.exact
-      ? [{ v: nearest.below, side: 'exact' }]
-      : [
-          { v: nearest.below, side: 'below' },
-          { v: nearest.above, side: 'above' },
-        ];
-    for (const { v, side } of values) {
-      const r = measure(v);
-      if (!r) continue;
-      candidates.push({
-        value: v,
-        valueText: formatEngineering(v, { style: 'netlist', digits: 4 }),
-        current: r.current,
-        error: r.current / target - 1,
-        side,
-      });
-    }
-    if (candidates.length < values.length && !problem) {
-      problem = 'The circuit did not converge with one of the standard values, so it is not offered.';
-    }
-  }
+  const standard = standardCandidates(ideal, ctx.series, target, measure);
+  const candidates = standard.candidates;
+  problem = problem ?? standard.problem;
   return { ideal, candidates, device: deviceName, firstValueFrom, solves, problem };
+}
+
+/** The standard neighbours of `ideal` in `series`, each re-solved through `measure`. */
+function standardCandidates(
+  ideal: number,
+  series: SeriesName,
+  target: number,
+  measure: (ohms: number) => { current: number } | undefined,
+): { candidates: SizingCandidate[]; problem?: string } {
+  const candidates: SizingCandidate[] = [];
+  const nearest = nearestStandardValues(ideal, series);
+  if (!nearest) return { candidates, problem: 'No standard value could be found for the resistance.' };
+  const values: { v: number; side: SizingCandidate['side'] }[] = nearest.exact
+    ? [{ v: nearest.below, side: 'exact' }]
+    : [
+        { v: nearest.below, side: 'below' },
+        { v: nearest.above, side: 'above' },
+      ];
+  for (const { v, side } of values) {
+    const r = measure(v);
+    if (!r) continue;
+    candidates.push({
+      value: v,
+      valueText: formatEngineering(v, { style: 'netlist', digits: 4 }),
+      current: r.current,
+      error: r.current / target - 1,
+      side,
+    });
+  }
+  const problem = candidates.length < values.length ? 'The circuit did not converge with one of the standard values, so it is not offered.' : undefined;
+  return { candidates, problem };
 }
 
 function formatPercentPlain(ratio: number): string {
