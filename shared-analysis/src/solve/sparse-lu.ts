@@ -51,9 +51,10 @@ class Growable {
     this.idx = new Int32Array(Math.max(16, capacity));
     this.val = new Float64Array(Math.max(16, capacity));
   }
-  push(i: number, v: number): void {
-    if (this.length === this.idx.length) {
-      const cap = this.idx.length * 2;
+  /** Makes room for `extra` more entries (the caller then writes idx/val directly). */
+  reserve(extra: number): void {
+    if (this.length + extra > this.idx.length) {
+      const cap = Math.max(this.idx.length * 2, this.length + extra);
       const idx = new Int32Array(cap);
       idx.set(this.idx);
       const val = new Float64Array(cap);
@@ -61,9 +62,6 @@ class Growable {
       this.idx = idx;
       this.val = val;
     }
-    this.idx[this.length] = i;
-    this.val[this.length] = v;
-    this.length++;
   }
 }
 
@@ -448,19 +446,25 @@ export class SparseLU implements LinearSolver {
         if (xi === 0) continue;
         for (let s = lStart[col]; s < lStart[col + 1]; s++) x[li[s]] -= lv[s] * xi;
       }
+      U.reserve(n - top);
+      const ui = U.idx;
+      const uv = U.val;
+      let uLen = U.length;
       for (let t = top; t < n; t++) {
         const i = reach[t];
         const col = pinv[i];
         const v = x[i];
         const a = v < 0 ? -v : v;
         if (col >= 0) {
-          U.push(col, v);
+          ui[uLen] = col;
+          uv[uLen++] = v;
           if (a > scale) scale = a;
         } else if (a > amax) {
           amax = a;
           ipiv = i;
         }
       }
+      U.length = uLen;
       if (ipiv < 0 || !(amax > sing * scale) || amax === 0) {
         for (let t = top; t < n; t++) x[reach[t]] = 0;
         return this.fail(ipiv < 0 ? 'structurally-singular' : 'numerically-singular', j);
@@ -475,11 +479,19 @@ export class SparseLU implements LinearSolver {
       pinv[ipiv] = k;
       rowOf[k] = ipiv;
       const inv = 1 / piv;
+      L.reserve(n - top);
+      const lo = L.idx;
+      const lw = L.val;
+      let lLen = L.length;
       for (let t = top; t < n; t++) {
         const i = reach[t];
-        if (pinv[i] < 0) L.push(i, x[i] * inv);
+        if (pinv[i] < 0) {
+          lo[lLen] = i;
+          lw[lLen++] = x[i] * inv;
+        }
         x[i] = 0;
       }
+      L.length = lLen;
     }
     lStart[n] = L.length;
     uStart[n] = U.length;
