@@ -6,7 +6,7 @@ import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction 
 import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExp, limitJunction, reciprocalOrUnbounded, saturationCurrentAt } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt } from './physics';
 
 /**
  * Region by junction bias in the device's own polarity (DESIGN.md): forward-active when
@@ -54,33 +54,32 @@ export interface BjtEvaluation {
  * IEC = IS·(exp(VBC/(NR·VT)) − 1), IT = (ICC − IEC)·(1 − VBC/VAF), IC = IT − IEC/BR,
  * IB = ICC/BF + IEC/BR; every current times M; gmin across each junction.
  */
-export function evaluateBjt(vbe: number, vbc: number, p: BjtParams): BjtEvaluation {
+export function evaluateBjt(vbe: number, vbc: number, p: BjtParams, out?: BjtEvaluation): BjtEvaluation {
   const nfvt = p.nf * p.vt;
   const nrvt = p.nr * p.vt;
-  const ebe = guardedExp(vbe / nfvt);
-  const ebc = guardedExp(vbc / nrvt);
-  const icc = p.is * (ebe.value - 1);
-  const iec = p.is * (ebc.value - 1);
-  const dicc = (p.is * ebe.slope) / nfvt;
-  const diec = (p.is * ebc.slope) / nrvt;
+  const xbe = vbe / nfvt;
+  const xbc = vbc / nrvt;
+  const icc = p.is * (guardedExpValue(xbe) - 1);
+  const iec = p.is * (guardedExpValue(xbc) - 1);
+  const dicc = (p.is * guardedExpSlope(xbe)) / nfvt;
+  const diec = (p.is * guardedExpSlope(xbc)) / nrvt;
   const early = Number.isFinite(p.vaf);
   const q = early ? 1 - vbc / p.vaf : 1;
   const dq = early ? -1 / p.vaf : 0;
   const m = p.m;
   const g = p.gmin;
-  const ic = m * ((icc - iec) * q - iec / p.br) - g * vbc;
-  const ib = m * (icc / p.bf + iec / p.br) + g * (vbe + vbc);
-  return {
-    ic,
-    ib,
-    dicDvbe: m * dicc * q,
-    dicDvbc: m * (-diec * q + (icc - iec) * dq - diec / p.br) - g,
-    dibDvbe: (m * dicc) / p.bf + g,
-    dibDvbc: (m * diec) / p.br + g,
-    gm: m * dicc * q,
-    gpi: (m * dicc) / p.bf,
-    clipped: ebe.clipped || ebc.clipped,
-  };
+  // Filling a caller's object keeps the Newton loop free of per-iteration allocation.
+  const r = out ?? ({} as BjtEvaluation);
+  r.ic = m * ((icc - iec) * q - iec / p.br) - g * vbc;
+  r.ib = m * (icc / p.bf + iec / p.br) + g * (vbe + vbc);
+  r.dicDvbe = m * dicc * q;
+  r.dicDvbc = m * (-diec * q + (icc - iec) * dq - diec / p.br) - g;
+  r.dibDvbe = (m * dicc) / p.bf + g;
+  r.dibDvbc = (m * diec) / p.br + g;
+  r.gm = m * dicc * q;
+  r.gpi = (m * dicc) / p.bf;
+  r.clipped = xbe > EXP_ARG_LIMIT || xbc > EXP_ARG_LIMIT;
+  return r;
 }
 
 const C = 0;
@@ -102,6 +101,7 @@ export class BjtDevice implements NonlinearDevice {
   private vcritBc = 0.6;
   private vbeOld = 0;
   private vbcOld = 0;
+  private readonly scratch = {} as BjtEvaluation;
 
   constructor(readonly element: Bjt, nodes: { c: number; b: number; e: number }, issues: ParamIssue[]) {
     const md = element.model;
@@ -156,37 +156,37 @@ export class BjtDevice implements NonlinearDevice {
   }
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
-    let { vbe, vbc } = this.junctions(x);
+    const t = this.terminals;
+    const vb = terminalVoltage(t, x, B);
+    let vbe = this.sign * (vb - terminalVoltage(t, x, E));
+    let vbc = this.sign * (vb - terminalVoltage(t, x, C));
     let limited = false;
     if (limit) {
-      const a = limitJunction(vbe, this.vbeOld, this.params.nf * this.params.vt, this.vcritBe);
-      const b = limitJunction(vbc, this.vbcOld, this.params.nr * this.params.vt, this.vcritBc);
-      vbe = a.v;
-      vbc = b.v;
-      limited = a.limited || b.limited;
+      const a = limitJunctionValue(vbe, this.vbeOld, this.params.nf * this.params.vt, this.vcritBe);
+      const b = limitJunctionValue(vbc, this.vbcOld, this.params.nr * this.params.vt, this.vcritBc);
+      limited = a !== vbe || b !== vbc;
+      vbe = a;
+      vbc = b;
     }
     this.vbeOld = vbe;
     this.vbcOld = vbc;
-    const ev = evaluateBjt(vbe, vbc, this.params);
+    const ev = evaluateBjt(vbe, vbc, this.params, this.scratch);
     const ie = -(ev.ic + ev.ib);
     const dieDvbe = -(ev.dicDvbe + ev.dibDvbe);
     const dieDvbc = -(ev.dicDvbc + ev.dibDvbc);
-    const pos = this.positions;
     const s = this.sign;
-    const rows: [number, number, number, number][] = [
-      [C, ev.ic, ev.dicDvbe, ev.dicDvbc],
-      [B, ev.ib, ev.dibDvbe, ev.dibDvbc],
-      [E, ie, dieDvbe, dieDvbc],
-    ];
-    let finite = true;
-    for (const [t, i, gbe, gbc] of rows) {
-      addControl(pos, 3, values, t, B, E, gbe);
-      addControl(pos, 3, values, t, B, C, gbc);
-      const ieq = s * (i - gbe * vbe - gbc * vbc);
-      addEquivalentCurrent(this.terminals, rhs, t, ieq);
-      if (!Number.isFinite(ieq) || !Number.isFinite(gbe) || !Number.isFinite(gbc)) finite = false;
-    }
+    this.stampRow(values, rhs, C, ev.ic, ev.dicDvbe, ev.dicDvbc, vbe, vbc, s);
+    this.stampRow(values, rhs, B, ev.ib, ev.dibDvbe, ev.dibDvbc, vbe, vbc, s);
+    this.stampRow(values, rhs, E, ie, dieDvbe, dieDvbc, vbe, vbc, s);
+    const finite = Number.isFinite(ev.ic) && Number.isFinite(ev.ib) && Number.isFinite(ev.dicDvbe + ev.dicDvbc + ev.dibDvbe + ev.dibDvbc) && Number.isFinite(ie);
     return { limited, clipped: ev.clipped, finite };
+  }
+
+  /** Row `t` of the companion model: conductances to the base-emitter and base-collector controls, and the equivalent current. */
+  private stampRow(values: Float64Array, rhs: Float64Array, t: number, i: number, gbe: number, gbc: number, vbe: number, vbc: number, s: number): void {
+    addControl(this.positions, 3, values, t, B, E, gbe);
+    addControl(this.positions, 3, values, t, B, C, gbc);
+    addEquivalentCurrent(this.terminals, rhs, t, s * (i - gbe * vbe - gbc * vbc));
   }
 
   overdriven(x: Float64Array): OverdrivenJunction[] {

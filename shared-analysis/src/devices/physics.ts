@@ -38,7 +38,7 @@ export interface GuardedExp {
   clipped: boolean;
 }
 
-/** exp(x) continued linearly beyond EXP_ARG_LIMIT (value and slope both finite for any finite x). */
+/** exp(x) continued linearly beyond EXP_ARG_LIMIT (value and slope both finite for any finite x). Allocates; see guardedExpValue/guardedExpSlope for hot loops. */
 export function guardedExp(x: number): GuardedExp {
   if (x <= EXP_ARG_LIMIT) {
     const e = Math.exp(x);
@@ -71,14 +71,20 @@ export interface Limited {
  * current, so the current grows at most by a factor e per n·VT of requested step.
  */
 export function limitJunction(vNew: number, vOld: number, nvt: number, vcrit: number): Limited {
+  const v = limitJunctionValue(vNew, vOld, nvt, vcrit);
+  return { v, limited: v !== vNew };
+}
+
+/** The limited junction voltage alone (no allocation); it differs from `vNew` exactly when limiting applied. */
+export function limitJunctionValue(vNew: number, vOld: number, nvt: number, vcrit: number): number {
   if (vNew > vcrit && Math.abs(vNew - vOld) > 2 * nvt) {
     if (vOld > 0) {
       const arg = 1 + (vNew - vOld) / nvt;
-      return { v: arg > 0 ? vOld + nvt * Math.log(arg) : vcrit, limited: true };
+      return arg > 0 ? vOld + nvt * Math.log(arg) : vcrit;
     }
-    return { v: nvt * Math.log(vNew / nvt), limited: true };
+    return nvt * Math.log(vNew / nvt);
   }
-  return { v: vNew, limited: false };
+  return vNew;
 }
 
 /**
@@ -102,4 +108,14 @@ export function reciprocalOrUnbounded(g: number): number {
   const a = Math.abs(g);
   if (!(a > 1 / UNBOUNDED)) return UNBOUNDED;
   return 1 / g;
+}
+
+/** Value part of guardedExp without allocating. */
+export function guardedExpValue(x: number): number {
+  return x <= EXP_ARG_LIMIT ? Math.exp(x) : Math.exp(EXP_ARG_LIMIT) * (1 + (x - EXP_ARG_LIMIT));
+}
+
+/** Slope part of guardedExp without allocating. */
+export function guardedExpSlope(x: number): number {
+  return Math.exp(Math.min(x, EXP_ARG_LIMIT));
 }

@@ -68,9 +68,11 @@ export class DcSolver {
   private readonly staticFindings: Finding[] = [];
   private readonly structurallySingular: boolean;
   private readonly sourceIndexByName = new Map<string, number>();
+  private readonly elementIndex = new Map<Element, number>();
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
+    circuit.elements.forEach((el, i) => this.elementIndex.set(el, i));
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
@@ -283,14 +285,15 @@ export class DcSolver {
     const c = this.circuit;
     const nodes: Record<string, number> = {};
     const overflowed: string[] = [];
-    const clamp = (v: number, where: string): number => {
+    // The label is built only on overflow: records are made for every device on every solve.
+    const clamp = (v: number, where: () => string): number => {
       if (Number.isFinite(v) && Math.abs(v) <= RECORD_LIMIT) return v;
-      overflowed.push(where);
+      overflowed.push(where());
       if (Number.isNaN(v)) return 0;
       return v > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
     };
     c.nodes.forEach((name, i) => {
-      nodes[name] = i === 0 ? 0 : clamp(x[i - 1], `node ${name}`);
+      nodes[name] = i === 0 ? 0 : clamp(x[i - 1], () => `node ${name}`);
     });
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
     const devices: Record<string, DeviceRecord> = {};
@@ -322,21 +325,25 @@ export class DcSolver {
       const type =
         el.kind === 'R' ? 'resistor' : el.kind === 'V' ? 'voltage-source' : el.kind === 'I' ? 'current-source' : el.kind === 'L' ? 'inductor' : el.kind === 'C' ? 'capacitor' : 'controlled-source';
       const before = overflowed.length;
-      devices[el.name] = {
-        type,
-        current: clamp(current, `current of ${el.name}`),
-        voltage: clamp(voltage, `voltage of ${el.name}`),
-        power: clamp(voltage * current, `power of ${el.name}`),
-      };
+      const power = voltage * current;
+      const inRange = Math.abs(current) <= RECORD_LIMIT && Math.abs(voltage) <= RECORD_LIMIT && Math.abs(power) <= RECORD_LIMIT;
+      devices[el.name] = inRange
+        ? { type, current, voltage, power }
+        : {
+            type,
+            current: clamp(current, () => `current of ${el.name}`),
+            voltage: clamp(voltage, () => `voltage of ${el.name}`),
+            power: clamp(power, () => `power of ${el.name}`),
+          };
       if (overflowed.length > before) overflowElements.add(r.element);
     }
-    const elementIndex = new Map<Element, number>();
-    c.elements.forEach((el, i) => elementIndex.set(el, i));
+    const elementIndex = this.elementIndex;
     for (const d of this.layout.devices) {
       const rec = d.record(x) as unknown as Record<string, unknown>;
       const before = overflowed.length;
-      for (const [k, val] of Object.entries(rec)) {
-        if (typeof val === 'number') rec[k] = clamp(val, `${k} of ${d.element.name}`);
+      for (const k in rec) {
+        const val = rec[k];
+        if (typeof val === 'number' && !(Math.abs(val) <= RECORD_LIMIT)) rec[k] = clamp(val, () => `${k} of ${d.element.name}`);
       }
       if (overflowed.length > before) overflowElements.add(elementIndex.get(d.element) ?? 0);
       devices[d.element.name] = rec as unknown as DeviceRecord;

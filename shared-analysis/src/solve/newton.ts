@@ -41,6 +41,8 @@ export class NewtonEngine {
   private readonly rowScale: Float64Array;
   private readonly colScale: Float64Array;
   private readonly scaledRhs: Float64Array;
+  private readonly residual: Float64Array;
+  private readonly residualScale: Float64Array;
   private readonly isVoltage: Uint8Array;
   /** Source values for the current solve (overrides applied), aligned with layout.sources. */
   readonly sourceValues: Float64Array;
@@ -60,6 +62,8 @@ export class NewtonEngine {
     this.rowScale = new Float64Array(n);
     this.colScale = new Float64Array(n);
     this.scaledRhs = new Float64Array(n);
+    this.residual = new Float64Array(n);
+    this.residualScale = new Float64Array(n);
     this.lastFinite = new Float64Array(n);
     this.isVoltage = new Uint8Array(n);
     layout.unknowns.forEach((u, k) => {
@@ -151,8 +155,8 @@ export class NewtonEngine {
     const linear = layout.devices.length === 0;
     let factored = false;
     let unsettled: number[] = [];
-    const rowScale = new Float64Array(n);
-    const residual = new Float64Array(n);
+    const rowScale = this.residualScale;
+    const residual = this.residual;
     for (let it = 1; it <= run.maxIterations; it++) {
       const { limited, nonFinite } = this.assemble(x, run);
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: nonFinite };
