@@ -375,15 +375,17 @@ async function main() {
       const element = demoText.split(/\r?\n/).find((l) => /^R\w*\s+\S+\s+\S+\s+\d/i.test(l));
       if (!comment || !element) throw new Error('the demo netlist has no comment line or resistor with a numeric value to compare');
       const [name, , , value] = element.trim().split(/\s+/);
-      const colours = await until(async () => {
+      // Tokenising can finish after the text shows, so poll until the three colours differ.
+      let colours = null;
+      await until(async () => {
         const c = await tokenColour(page, comment.slice(0, 12), comment.slice(2, 8));
         const e = await tokenColour(page, name, name);
         const v = await tokenColour(page, name, value);
-        return c && e && v ? { c, e, v } : null;
-      }, { timeoutMs: 15 * SECOND, message: 'could not read the token colours' });
-      if (new Set([colours.c, colours.e, colours.v]).size < 3) {
-        throw new Error(`expected three colours, got comment ${colours.c}, element ${colours.e}, number ${colours.v}`);
-      }
+        colours = { c, e, v };
+        return c && e && v && new Set([c, e, v]).size === 3;
+      }, { timeoutMs: 30 * SECOND, intervalMs: 500, message: 'the comment, element name and number did not get three different colours' }).catch((err) => {
+        throw new Error(`${err.message}; last seen: comment ${colours?.c}, element ${colours?.e}, number ${colours?.v}`);
+      });
       return `comment ${colours.c}, ${name} ${colours.e}, ${value} ${colours.v}`;
     });
 
