@@ -173,7 +173,9 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     mark[p] = stamp;
     let lpLen = 0;
     let lpWeight = 0;
-    for (const e of elems[p]) {
+    const ep = elems[p];
+    for (let r = 0; r < ep.length; r++) {
+      const e = ep[r];
       if (status[e] !== 1) continue;
       const le = elemVars[e]!;
       for (let t = 0; t < le.length; t++) {
@@ -210,13 +212,16 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     wCur++;
     for (let t = 0; t < lpLen; t++) {
       const i = lp[t];
-      for (const e of elems[i]) {
+      const ei = elems[i];
+      const w = nv[i];
+      for (let r = 0; r < ei.length; r++) {
+        const e = ei[r];
         if (status[e] !== 1) continue;
         if (wStamp[e] !== wCur) {
           wStamp[e] = wCur;
           wVal[e] = elemWeight[e];
         }
-        wVal[e] -= nv[i];
+        wVal[e] -= w;
       }
     }
 
@@ -280,12 +285,13 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
         const ei = elems[i];
         const ai = adjLen[i];
         setCur++;
-        for (const e of ei) setMark[e] = setCur;
+        for (let r = 0; r < ei.length; r++) setMark[ei[r]] = setCur;
         for (let q = adjStart[i]; q < adjStart[i] + ai; q++) setMark[adj[q]] = setCur;
         for (let j = hashNext[i]; j >= 0; j = hashNext[j]) {
           if (nv[j] === 0 || elems[j].length !== ei.length || adjLen[j] !== ai) continue;
           let same = true;
-          for (const e of elems[j]) if (setMark[e] !== setCur) { same = false; break; }
+          const ej = elems[j];
+          for (let r = 0; r < ej.length; r++) if (setMark[ej[r]] !== setCur) { same = false; break; }
           if (same) {
             for (let q = adjStart[j]; q < adjStart[j] + ai; q++) if (setMark[adj[q]] !== setCur) { same = false; break; }
           }
