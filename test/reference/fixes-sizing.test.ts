@@ -177,3 +177,29 @@ describe('targets no resistor can reach', () => {
     expect(r.problem).not.toMatch(/NaN|undefined/);
   });
 });
+
+describe('MOS mirror sizing', () => {
+  // An invented 3.3 V NMOS bias mirror, no channel-length modulation, so IOUT = IREF exactly.
+  const mos = (r: string) => `3.3 V NMOS mirror
+VDD vdd 0 DC 3.3
+RREF vdd g ${r}
+M1 g g 0 0 nch W=10u L=1u
+M2 out g 0 0 nch W=10u L=1u ; expect 100uA ±1%
+RL vdd out 10k
+.model nch nmos (KP=100u VTO=0.5)
+.end
+`;
+  it('finds R = (VDD − VGS)/ID with VGS from the square law', () => {
+    const a = analyse(mos('47k'), 'E96');
+    const s = a.structures[0];
+    expect(s?.technology).toBe('nmos');
+    const result = sizeResistorForCurrent({ circuit: a.circuit, solver: a.solver, structure: s, resistor: 'RREF', target: 100e-6, series: 'E96' });
+    // Source: Razavi, Design of Analog CMOS Integrated Circuits, ch. 5 (Shichman–Hodges square law):
+    // ID = (KP/2)(W/L)(VGS − VTH)² → VGS = VTH + √(2·ID/(KP·W/L)) = 0.5 + √(2·100µ/(100µ·10)) ≈ 0.947 V.
+    const vgs = 0.5 + Math.sqrt((2 * 100e-6) / (100e-6 * 10));
+    const rFormula = (3.3 - vgs) / 100e-6;
+    expect(Math.abs(result.ideal / rFormula - 1)).toBeLessThan(1e-4);
+    // Source: IEC 60063:2015 — 23.5 kΩ lies between the E96 values 23.2k and 23.7k.
+    expect(result.candidates.map((c) => c.valueText)).toEqual(['23.2k', '23.7k']);
+  });
+});

@@ -81,14 +81,17 @@ function degrees(t: number): string {
  * without the all-nominal point — at most 3 × 3 × 3 − 1 = 26 corners — followed, when the
  * circuit has more than one supply source, by each source alone at ±tol (nominal temperature
  * and beta), for at most 8 sources: at most 26 + 16 = 42 solves per circuit, shared by every
- * structure. Levels equal to nominal (a zero tolerance, a beta factor of 1) are dropped.
+ * structure. Levels equal to nominal (a zero tolerance, a beta factor of 1) are dropped, and so
+ * is the beta axis for a circuit without bipolar devices. Current sources keep their value: the
+ * supply tolerance applies to voltage sources on the rails only.
  */
-export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[]): CornerSpec[] {
+export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[], scope: { bipolar: boolean } = { bipolar: true }): CornerSpec[] {
   const c = options.corners;
   const tol = Number.isFinite(c.supplyTolerance) ? Math.abs(c.supplyTolerance) : 0;
   const supply = uniq(sources.length > 0 ? [1 - tol, 1, 1 + tol] : [1]);
   const temps = uniq([c.coldC, nominalC, c.hotC].filter(Number.isFinite));
-  const betas = uniq([c.betaLow, 1, c.betaHigh].filter((b) => Number.isFinite(b) && b > 0));
+  // Beta only moves bipolar devices; a circuit without any keeps its corner count down to supply × temperature.
+  const betas = scope.bipolar ? uniq([c.betaLow, 1, c.betaHigh].filter((b) => Number.isFinite(b) && b > 0)) : [1];
   const specs: CornerSpec[] = [];
   for (const s of supply) {
     for (const t of temps) {
@@ -142,7 +145,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
-  const specs = cornerSpecs(options, nominalC, sources);
+  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q') });
 
   const solved: { spec: CornerSpec; result?: DcSolveResult }[] = [];
   for (const spec of specs) {

@@ -178,8 +178,11 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     // Mirror ratio from the solved point keeps finite beta and area ratios in the inversion.
     const ratio = deviceName.toLowerCase() === resistor.name.toLowerCase() ? 1 : i0 / iR;
     const iRefTarget = target / ratio;
-    const junctions = Math.max(1, stackedJunctions(structure));
-    const vAvailable = vR - junctions * vt * Math.log(iRefTarget / iR);
+    // Bipolar junctions move by n·VT·ln(ratio); a MOS gate–source drop follows the square law
+    // instead, which the refinement below takes care of, so its first value keeps the drop fixed.
+    const bipolar = structure.technology === 'npn' || structure.technology === 'pnp';
+    const junctions = bipolar ? Math.max(1, stackedJunctions(structure)) : 0;
+    const vAvailable = vR - junctions * outputNf(circuit, structure) * vt * Math.log(iRefTarget / iR);
     first = vAvailable > 0 ? vAvailable / iRefTarget : resistor.resistance * (i0 / target);
     firstValueFrom = 'reference-formula';
   } else {

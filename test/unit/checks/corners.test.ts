@@ -69,6 +69,10 @@ describe('cornerSpecs', () => {
     expect(cornerSpecs(resolveOptions({}), 27, many)).toHaveLength(26 + 16);
   });
 
+  it('drops the beta axis for a circuit without bipolar devices: 3 × 3 − 1 = 8', () => {
+    expect(cornerSpecs(resolveOptions({}), 27, ['VDD'], { bipolar: false })).toHaveLength(8);
+  });
+
   it('drops levels equal to nominal', () => {
     expect(cornerSpecs(resolveOptions({ corners: { supplyTolerance: 0 } }), 27, ['V1'])).toHaveLength(8);
     expect(cornerSpecs(resolveOptions({ corners: { coldC: 27 } }), 27, ['V1'])).toHaveLength(17);
