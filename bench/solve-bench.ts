@@ -392,6 +392,27 @@ async function main(): Promise<void> {
   }
   console.log('');
 
+  console.log('Scale check at 1,000,000 nodes (one run each, no mathjs)');
+  for (const b of builders.filter((x) => x.family !== 'grid')) {
+    const c = linearCase(b.family, `${b.family} 1M`, b.make(1_000_000));
+    gc();
+    let t = now();
+    const lu = new SparseLU(c.pattern);
+    const ordering = now() - t;
+    const x = new Float64Array(c.pattern.n);
+    t = now();
+    const r1 = lu.factor(c.values);
+    lu.solve(c.rhs, x);
+    const first = now() - t;
+    t = now();
+    const r2 = lu.factor(c.values);
+    lu.solve(c.rhs, x);
+    const refac = now() - t;
+    const ok = r1.ok && r2.ok;
+    console.log(`  ${c.label.padEnd(12)} unknowns ${c.pattern.n}, ordering ${fmtMs(ordering)}, first f+s ${fmtMs(first)}, refactor+s ${fmtMs(refac)}, residual ${ok ? residual(c, x).toExponential(1) : 'factor failed'}`);
+  }
+  console.log('');
+
   console.log('Newton to the operating point (DcSolver, zero initial guess)');
   const nh = ['case', 'BJTs', 'unknowns', 'iterations', 'factorizations', 'prepare', 'solve', 'prepare+solve', 'converged'];
   const nw = [22, 7, 9, 11, 15, 10, 10, 14, 10];
