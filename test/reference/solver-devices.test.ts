@@ -156,6 +156,19 @@ describe('MOSFET equations (DESIGN.md, written out in the test)', () => {
   it('PMOS triode with body effect', () => checkMos('pmos', 2.5, 0.5, -0.8, { KP: 4e-5, VTO: 0.8, GAMMA: 0.3 }, 'triode'));
 });
 
+describe('diode regions', () => {
+  /** A diode held at `v` by an ideal source; returns its record. */
+  function check(v: number, expected: { region: string; id: number; rel: number }): void {
+    const r = solveOperatingPoint(circuit([['V', 'V1', 'a', '0', v], ['D', 'D1', 'a', '0', model('DR', 'd', { IS: 1e-14 })]]));
+    const d = r.op.devices.D1 as { region: string; id: number };
+    expect(d.region).toBe(expected.region);
+    expect(Math.abs(d.id - expected.id)).toBeLessThanOrEqual(expected.rel * Math.abs(expected.id));
+  }
+  // Source: DESIGN.md diode law ID = IS·(exp(VD/(N·VT)) − 1), written out; the reverse case adds the solver's 1e-12 S (common practice).
+  it('forward at 0.65 V', () => check(0.65, { region: 'forward', id: 1e-14 * (Math.exp(0.65 / VT27) - 1) + 0.65e-12, rel: 1e-12 }));
+  it('reverse at −3 V saturates at −IS', () => check(-3, { region: 'reverse', id: -1e-14 - 3e-12, rel: 1e-9 }));
+});
+
 describe('junction rules of thumb (Horowitz and Hill, The Art of Electronics, 3rd ed., ch. 2 — common practice)', () => {
   /** VBE of a diode-connected NPN fed by a current source, at `tempC`. */
   function vbeAt(current: number, tempC: number): number {

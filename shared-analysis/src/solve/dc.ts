@@ -34,6 +34,8 @@ export interface DcSolveResult {
 const DEFAULT_MAX_ITERATIONS = 150;
 /** Newton iterations allowed per continuation step (gmin or source stepping). */
 const STEP_ITERATIONS = 60;
+/** All fallbacks together may spend at most this many times the per-attempt cap, so a hopeless circuit returns promptly. */
+const FALLBACK_BUDGET_FACTOR = 8;
 /** Node voltages beyond this are reported as implausible (a current forced into an open or leakage-only node). */
 const IMPLAUSIBLE_VOLTS = 1e6;
 /** Netlist-check codes (elaborator and connectivity checks) that report the same problem as a solver code. */
@@ -136,14 +138,15 @@ export class DcSolver {
       if (!converged && last.status !== 'singular') {
         fallbacks.push('gmin-stepping');
         x.set(start);
-        const g = this.gminStepping(x, maxIterations);
+        const budget = { remaining: FALLBACK_BUDGET_FACTOR * maxIterations };
+        const g = this.gminStepping(x, maxIterations, budget);
         iterations += g.iterations;
         converged = g.ok;
         last = g.last ?? last;
         if (!converged) {
           fallbacks.push('source-stepping');
           x.fill(0);
-          const s = this.sourceStepping(x, maxIterations);
+          const s = this.sourceStepping(x, maxIterations, budget);
           iterations += s.iterations;
           converged = s.ok;
           last = s.last ?? last;
@@ -168,7 +171,7 @@ export class DcSolver {
   // ---- continuation methods ----
 
   /** Shunts every node to ground with a conductance stepped down from 10 mS to zero, re-solving from the last success. */
-  private gminStepping(x: Float64Array, maxIterations: number): { ok: boolean; iterations: number; last?: NewtonOutcome } {
+  private gminStepping(x: Float64Array, maxIterations: number, budget: { remaining: number }): { ok: boolean; iterations: number; last?: NewtonOutcome } {
     const cap = Math.min(maxIterations, STEP_ITERATIONS);
     let iterations = 0;
     let shunt = 1e-2;
@@ -177,9 +180,10 @@ export class DcSolver {
     let haveGood = false;
     let goodShunt = 0;
     let last: NewtonOutcome | undefined;
-    for (let step = 0; step < 120; step++) {
-      const r = this.engine.run(x, { sourceScale: 1, nodeShunt: shunt, maxIterations: cap });
+    for (let step = 0; step < 120 && budget.remaining > 0; step++) {
+      const r = this.engine.run(x, { sourceScale: 1, nodeShunt: shunt, maxIterations: Math.min(cap, budget.remaining) });
       iterations += r.iterations;
+      budget.remaining -= r.iterations;
       last = r;
       if (r.status === 'singular') return { ok: false, iterations, last };
       if (r.status === 'converged') {
@@ -208,17 +212,18 @@ export class DcSolver {
   }
 
   /** Ramps every independent source from zero to its full value, shortening the step when Newton fails. */
-  private sourceStepping(x: Float64Array, maxIterations: number): { ok: boolean; iterations: number; last?: NewtonOutcome } {
+  private sourceStepping(x: Float64Array, maxIterations: number, budget: { remaining: number }): { ok: boolean; iterations: number; last?: NewtonOutcome } {
     const cap = Math.min(maxIterations, STEP_ITERATIONS);
     let iterations = 0;
     let scale = 0;
     let step = 0.1;
     const good = new Float64Array(x.length);
     let last: NewtonOutcome | undefined;
-    for (let k = 0; k < 400; k++) {
+    for (let k = 0; k < 400 && budget.remaining > 0; k++) {
       const target = Math.min(1, scale + step);
-      const r = this.engine.run(x, { sourceScale: target, nodeShunt: 0, maxIterations: cap });
+      const r = this.engine.run(x, { sourceScale: target, nodeShunt: 0, maxIterations: Math.min(cap, budget.remaining) });
       iterations += r.iterations;
+      budget.remaining -= r.iterations;
       last = r;
       if (r.status === 'singular') return { ok: false, iterations, last };
       if (r.status === 'converged') {

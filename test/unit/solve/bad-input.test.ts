@@ -5,6 +5,7 @@ import { DcSolver, solveOperatingPoint } from '../../../shared-analysis/src/solv
 import type { DcSolveResult } from '../../../shared-analysis/src/solve/dc';
 import type { BjtRecord, DiodeRecord, TwoTerminalRecord } from '../../../shared-analysis/src/solve/types';
 import type { Spec } from './build';
+import { SOLVER_CODES } from '../../../shared-analysis/src/solve/codes';
 import { circuit, model } from './build';
 
 /** Every number in the operating point and the finding data is finite (JSON-safe). */
@@ -35,6 +36,8 @@ function check(specs: Spec[], expected: { code: string; at: number; converged: b
   expect(r.op.converged).toBe(expected.converged);
   expect(allFinite(r)).toBe(true);
   expect(() => JSON.stringify(r.op)).not.toThrow();
+  // Every code reported is catalogued with the severity it is reported at.
+  for (const x of r.findings) expect(SOLVER_CODES[x.code]?.severity, x.code).toBe(x.severity);
   return r;
 }
 
