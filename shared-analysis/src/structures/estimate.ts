@@ -18,7 +18,7 @@ import {
   wilsonGain,
 } from './formulas';
 import { railsByIndex } from './rails';
-import { isBipolar, polaritySign, Topology, type Transistor } from './topology';
+import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Estimate, EstimateStep, Structure } from './types';
 
 /** Where and how to evaluate the hand analysis. */
@@ -100,7 +100,7 @@ class HandAnalysis {
     private readonly at: EstimateAt,
     private readonly depth: number,
   ) {
-    this.topo = new Topology(circuit);
+    this.topo = topologyOf(circuit);
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
     this.vt = thermalVolts(at.temperatureC);

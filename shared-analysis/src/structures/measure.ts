@@ -2,7 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import type { BjtRecord, DeviceRecord, MosRecord, OperatingPoint } from '../solve/types';
-import { isBipolar, polaritySign, Topology, type Transistor } from './topology';
+import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
 
 /** What `measureStructure` returns: magnitudes in A, headroom in V (negative when out of region). */
@@ -26,7 +26,7 @@ export interface Measurement {
  * record counts as 0 V / 0 A.
  */
 export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure): Measurement {
-  const topo = new Topology(circuit);
+  const topo = topologyOf(circuit);
   const v = (node: number) => finite(op.nodes[topo.nodeName(node)]);
   const refNode = topo.nodeIndex.get(s.reference.node);
   let iref = 0;

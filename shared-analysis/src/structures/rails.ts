@@ -45,8 +45,17 @@ export function findRails(circuit: Circuit): Rail[] {
     .map((n) => ({ node: circuit.nodes[n], volts: volts.get(n) ?? 0, sources: sources.get(n) ?? [] }));
 }
 
-/** Rails keyed by node index, for lookups during recognition and estimation. */
-export function railsByIndex(circuit: Circuit, rails: Rail[] = findRails(circuit)): Map<number, Rail> {
+const cache = new WeakMap<Circuit, Map<number, Rail>>();
+
+/** Rails keyed by node index, for lookups during recognition and estimation (cached per Circuit object when `rails` is not given). */
+export function railsByIndex(circuit: Circuit, rails?: Rail[]): Map<number, Rail> {
+  if (rails) return indexRails(circuit, rails);
+  let m = cache.get(circuit);
+  if (!m) cache.set(circuit, (m = indexRails(circuit, findRails(circuit))));
+  return m;
+}
+
+function indexRails(circuit: Circuit, rails: Rail[]): Map<number, Rail> {
   const index = new Map<string, number>();
   circuit.nodes.forEach((n, i) => index.set(n, i));
   const out = new Map<number, Rail>();

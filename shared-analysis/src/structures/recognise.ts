@@ -2,7 +2,7 @@
 
 import type { Circuit, Resistor } from '../circuit';
 import { railsByIndex } from './rails';
-import { Topology, type Transistor } from './topology';
+import { topologyOf, type Topology, type Transistor } from './topology';
 import type { ReferenceBranch, Rail, Structure, StructureKind, StructureOutput, StructureRole } from './types';
 
 /**
@@ -47,7 +47,7 @@ class Recogniser {
   private readonly claimed = new Set<string>();
 
   constructor(private readonly circuit: Circuit) {
-    this.topo = new Topology(circuit);
+    this.topo = topologyOf(circuit);
     this.rails = railsByIndex(circuit);
   }
 
@@ -75,10 +75,19 @@ class Recogniser {
     return !this.claimed.has(t.name) && t.tech === tech;
   }
 
-  private candidates(tech: Transistor['tech'], pred: (t: Transistor) => boolean, exclude: Transistor[]): Transistor[] {
-    return this.topo.transistors
+  /** Unclaimed transistors of one technology drawn from `pool` (an index list) that satisfy `pred`, in name order. */
+  private candidates(tech: Transistor['tech'], pred: (t: Transistor) => boolean, exclude: Transistor[], pool: Transistor[] | undefined): Transistor[] {
+    return (pool ?? [])
       .filter((t) => this.free(t, tech) && !exclude.includes(t) && pred(t))
       .sort((a, b) => compareNames(a.name, b.name));
+  }
+
+  private onCtrl(node: number): Transistor[] | undefined {
+    return this.topo.byCtrl.get(node);
+  }
+
+  private onCommon(node: number): Transistor[] | undefined {
+    return this.topo.byCommon.get(node);
   }
 
   /**
@@ -102,14 +111,14 @@ class Recogniser {
    */
   private matchStacked(d: Transistor): Draft | undefined {
     const b = d.ctrl;
-    const partners = this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d]);
+    const partners = this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b));
     for (const n of partners) {
       const c = n.out;
       // Cascode: top diode T on B.
-      const tops = this.candidates(d.tech, (t) => t.out === t.ctrl && t.common === b && t.ctrl !== c, [d, n]);
+      const tops = this.candidates(d.tech, (t) => t.out === t.ctrl && t.common === b && t.ctrl !== c, [d, n], this.onCommon(b));
       for (const top of tops) {
         const a = top.ctrl;
-        const outs = this.candidates(d.tech, (t) => t.ctrl === a && t.common === c && t.out !== a, [d, n, top]);
+        const outs = this.candidates(d.tech, (t) => t.ctrl === a && t.common === c && t.out !== a, [d, n, top], this.onCtrl(a));
         if (outs.length > 0) {
           const o = outs[0];
           return {
@@ -127,10 +136,10 @@ class Recogniser {
         }
       }
       // Outputs whose emitter sits on the lower diode's node.
-      const uppers = this.candidates(d.tech, (t) => t.common === b && t.out !== t.ctrl, [d, n]);
+      const uppers = this.candidates(d.tech, (t) => t.common === b && t.out !== t.ctrl, [d, n], this.onCommon(b));
       for (const o of uppers) {
         const a = o.ctrl;
-        const balancing = this.candidates(d.tech, (t) => t.out === t.ctrl && t.ctrl === a && t.common === c, [d, n, o]);
+        const balancing = this.candidates(d.tech, (t) => t.out === t.ctrl && t.ctrl === a && t.common === c, [d, n, o], this.onCtrl(a));
         if (balancing.length > 0 && a !== c) {
           const t4 = balancing[0];
           return {
@@ -185,14 +194,14 @@ class Recogniser {
     const a = r.out;
     const b = r.ctrl;
     if (a === b) return undefined;
-    const helpers = this.candidates(r.tech, (t) => t.ctrl === a && t.common === b && t.out !== a && this.rails.has(t.out), [r]);
+    const helpers = this.candidates(r.tech, (t) => t.ctrl === a && t.common === b && t.out !== a && this.rails.has(t.out), [r], this.onCtrl(a));
     if (helpers.length === 0) return undefined;
-    const diodeOnB = this.topo.transistors.some((t) => t.tech === r.tech && t.ctrl === b && t.out === b);
+    const diodeOnB = (this.onCtrl(b) ?? []).some((t) => t.tech === r.tech && t.out === b);
     if (diodeOnB) return undefined;
     const h = helpers[0];
     // MOS gates draw no DC current: without a pull-down on B the follower's bias is undefined.
     if (r.element.kind === 'M' && this.topo.conducting(b).filter((x) => x.element !== h.element).length === 0) return undefined;
-    const outs = this.candidates(r.tech, (t) => t.ctrl === b && t.common === r.common && t.out !== b && t.out !== a, [r, h]);
+    const outs = this.candidates(r.tech, (t) => t.ctrl === b && t.common === r.common && t.out !== b && t.out !== a, [r, h], this.onCtrl(b));
     if (outs.length === 0) return undefined;
     return {
       kind: 'helper-mirror',
@@ -222,11 +231,11 @@ class Recogniser {
   private matchSimple(d: Transistor): Draft | undefined {
     const a = d.ctrl;
     const e = d.common;
-    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d]);
+    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d], this.onCtrl(a));
     const refScale = d.scale + twins.reduce((s, t) => s + t.scale, 0);
     const outputs: StructureOutput[] = [];
     const outDevices: Transistor[] = [];
-    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...twins])) {
+    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...twins], this.onCtrl(a))) {
       if (o.common === e) {
         outputs.push({ device: o.name, node: this.topo.nodeName(o.out), ratio: o.scale / refScale });
         outDevices.push(o);
@@ -344,6 +353,10 @@ export function instancePrefix(names: string[]): string {
   return common && common.length > 0 ? common.join('.') + '.' : '';
 }
 
+// One collator for every comparison: building the locale data per call dominated recognition time.
+const NAME_ORDER = new Intl.Collator('en', { numeric: true, sensitivity: 'base' });
+
+/** Natural order of device names (Q2 before Q10), case-insensitive. */
 function compareNames(a: string, b: string): number {
-  return a.localeCompare(b, 'en', { numeric: true, sensitivity: 'base' });
+  return NAME_ORDER.compare(a, b);
 }

@@ -58,10 +58,26 @@ export interface Attachment {
   slot: number;
 }
 
+const cache = new WeakMap<Circuit, Topology>();
+
+/**
+ * The topology of a circuit, built once per Circuit object and reused by every later call
+ * (recognition, each estimate, each corner's measurement). Circuits are not mutated after
+ * elaboration, so the cache never goes stale.
+ */
+export function topologyOf(circuit: Circuit): Topology {
+  let t = cache.get(circuit);
+  if (!t) cache.set(circuit, (t = new Topology(circuit)));
+  return t;
+}
+
 /** Node-to-element incidence and the transistor views of one circuit. */
 export class Topology {
   readonly transistors: Transistor[] = [];
   readonly byName = new Map<string, Transistor>();
+  /** Transistors by control (base/gate) node and by common (emitter/source) node. */
+  readonly byCtrl = new Map<number, Transistor[]>();
+  readonly byCommon = new Map<number, Transistor[]>();
   private readonly attached = new Map<number, Attachment[]>();
   readonly nodeIndex = new Map<string, number>();
   readonly elementByName = new Map<string, Element>();
@@ -82,6 +98,8 @@ export class Topology {
       if (t) {
         this.transistors.push(t);
         this.byName.set(t.name, t);
+        push(this.byCtrl, t.ctrl, t);
+        push(this.byCommon, t.common, t);
       }
     }
   }
@@ -101,4 +119,10 @@ export class Topology {
   nodeName(i: number): string {
     return this.circuit.nodes[i] ?? String(i);
   }
+}
+
+function push<K, V>(m: Map<K, V[]>, k: K, v: V): void {
+  const list = m.get(k);
+  if (list) list.push(v);
+  else m.set(k, [v]);
 }
