@@ -80,6 +80,18 @@ function writtenScale(r: Resistor, documents: Record<string, ParsedDocument>): n
   return read.value / r.resistance;
 }
 
+/**
+ * The text to write into a resistor card's value field so that its effective resistance is
+ * `ohms`: the card's M= multiplier is kept, so `R1 a b 8.6k m=2` sized to 3.9 kΩ is written `7.8k`.
+ * Undefined when the card's value is an expression or parameter (the user's intent is not overwritten).
+ */
+export function resistorValueText(r: Resistor, documents: Record<string, ParsedDocument>, ohms: number): string | undefined {
+  const scale = writtenScale(r, documents);
+  if (scale === undefined || !(ohms > 0) || !Number.isFinite(ohms)) return undefined;
+  const text = formatEngineering(ohms * scale, { style: 'netlist', digits: 4 });
+  return text === '' ? undefined : text;
+}
+
 function cardAt(doc: ParsedDocument | undefined, start: number): ElementCard | undefined {
   const card = doc?.cards.find((c) => c.kind === 'element' && c.span.start === start);
   return card && card.kind === 'element' ? card : undefined;
@@ -132,10 +144,9 @@ function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, S
   const fixes: Fix[] = [];
   for (const o of useful) {
     const c = o.c;
-    const written = c.value * scale;
-    const text = formatEngineering(written, { style: 'netlist', digits: 4 });
-    const edit = valueEdit(r.origin.uri, r.origin, text);
-    if (!edit || text === '') continue;
+    const text = resistorValueText(r, documents, c.value);
+    const edit = text === undefined ? undefined : valueEdit(r.origin.uri, r.origin, text);
+    if (!edit || text === undefined) continue;
     const perDevice = hasM && Math.abs(scale - 1) > 1e-12 ? ` (${formatEngineering(c.value, { unit: 'Ω' })} effective with M=)` : '';
     fixes.push({
       title: `Set ${r.name} to ${text}${perDevice} (${o.series})${shared}: ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}`,
