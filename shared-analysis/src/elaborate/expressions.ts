@@ -99,7 +99,7 @@ export interface CompiledExpression {
   /** Document offset of `source[0]`. */
   offset: number;
   root: MathNode;
-  /** Document span of every node of the tree. */
+  /** Span of every node of the tree, relative to `offset` (shared between compilations of the same text). */
   spans: Map<MathNode, Span>;
   /** The parameter names the expression reads, in order, lower-case, with their document spans. */
   references: { name: string; span: Span }[];
@@ -116,6 +116,34 @@ type Tok =
  * numbers before mathjs parses the text; a position map keeps error spans in the original.
  */
 export function compileExpression(source: string, offset: number): { ok: true; expr: CompiledExpression } | { ok: false; error: ExpressionError } {
+  let core = COMPILED.get(source);
+  if (!core) {
+    core = compileAt(source, 0);
+    if (COMPILED.size >= COMPILED_CAPACITY) COMPILED.clear();
+    COMPILED.set(source, core);
+  }
+  if (offset === 0) return core;
+  const shift = (span: Span): Span => ({ start: span.start + offset, end: span.end + offset });
+  if (!core.ok) return { ok: false, error: { ...core.error, span: shift(core.error.span) } };
+  const e = core.expr;
+  return {
+    ok: true,
+    expr: {
+      source,
+      offset,
+      root: e.root,
+      spans: e.spans,
+      references: e.references.map((r) => ({ name: r.name, span: shift(r.span) })),
+      deferred: e.deferred ? { ...e.deferred, span: shift(e.deferred.span) } : undefined,
+    },
+  };
+}
+
+/** Compiled expressions by source text (positions relative to the text), shared by every elaboration. */
+const COMPILED = new Map<string, ReturnType<typeof compileAt>>();
+const COMPILED_CAPACITY = 20000;
+
+function compileAt(source: string, offset: number): { ok: true; expr: CompiledExpression } | { ok: false; error: ExpressionError } {
   const at = (start: number, end: number): Span => ({ start: offset + start, end: offset + Math.max(end, start + 1) });
   const fail = (message: string, start: number, end: number) => ({ ok: false as const, error: { message, span: clampSpan(at(start, end), offset, source.length) } });
 
@@ -464,10 +492,10 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
   }
   if (expr.deferred) return { ok: false, error: expr.deferred };
   const whole: Span = { start: expr.offset, end: expr.offset + Math.max(1, expr.source.length) };
-  const spanOf = (node: MathNode): Span => expr.spans.get(node) ?? whole;
-  class Failure {
-    constructor(readonly error: ExpressionError) {}
-  }
+  const spanOf = (node: MathNode): Span => {
+    const s = expr.spans.get(node);
+    return s ? { start: s.start + expr.offset, end: s.end + expr.offset } : whole;
+  };
   const finite = (v: number, node: MathNode, what: string): number => {
     if (!Number.isFinite(v)) {
       throw new Failure({ message: `${what} is not a finite number (${String(v)}).`, span: spanOf(node) });
@@ -556,6 +584,11 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
   }
 }
 
+/** Thrown inside the evaluator to unwind with a located error; never escapes `evaluateCompiled`. */
+class Failure {
+  constructor(readonly error: ExpressionError) {}
+}
+
 /** A `.param`-style definition: a name and its right-hand side, located in a document. */
 export interface ParamDefinition {
   /** As written. */
@@ -581,21 +614,14 @@ export interface ScopeReport {
 
 /** State shared by every scope of one elaboration: compile cache, evaluation stack, report sink. */
 export class EvaluationContext {
-  private readonly cache = new Map<string, ReturnType<typeof compileExpression>>();
   /** Definitions being evaluated, innermost last, for cycle detection. */
   readonly stack: { scope: ParamScope; key: string; def: ParamDefinition }[] = [];
 
   constructor(readonly report: (r: ScopeReport) => void) {}
 
-  /** Compiles once per (document, offset, text). */
-  compile(uri: string, source: string, offset: number): ReturnType<typeof compileExpression> {
-    const key = `${uri}\u0000${offset}\u0000${source}`;
-    let c = this.cache.get(key);
-    if (!c) {
-      c = compileExpression(source, offset);
-      this.cache.set(key, c);
-    }
-    return c;
+  /** Compiles an expression (the parse is cached by text across elaborations; only positions are shifted). */
+  compile(_uri: string, source: string, offset: number): ReturnType<typeof compileExpression> {
+    return compileExpression(source, offset);
   }
 }
 

@@ -49,6 +49,9 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
   M: { used: ['W', 'L', 'M'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
 };
 
+/** Nodes per element letter (a Q may add a fourth, substrate node). */
+const NODE_COUNT: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 };
+
 /** One subcircuit instance (or the top level) being flattened. */
 interface Instance {
   /** Prefix of hierarchical names, as written: `X1.X2.` (empty at top level). */
@@ -270,7 +273,7 @@ class Elaborator {
       return;
     }
 
-    const expected = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 }[card.letter];
+    const expected = NODE_COUNT[card.letter] ?? 2;
     const allowedMax = card.letter === 'Q' ? 4 : expected;
     if (card.nodes.length < expected || card.nodes.length > allowedMax) {
       this.sink.add(
@@ -409,8 +412,9 @@ class Elaborator {
 
   /** Element parameters by upper-case name; reports unknown ones. */
   private elementParams(card: ElementCard, uri: string): Map<string, Assignment> {
-    const spec = ELEMENT_PARAMS[card.letter] ?? { used: [], silent: [] };
     const out = new Map<string, Assignment>();
+    if (card.params.length === 0) return out;
+    const spec = ELEMENT_PARAMS[card.letter] ?? { used: [], silent: [] };
     for (const a of card.params) {
       const key = a.name.text.toUpperCase();
       if (spec.used.includes(key)) {
