@@ -1,4 +1,9 @@
 // Unit tests of the netlist parser: every card form, comments, continuations, expressions, error cards and their ranges.
+//
+// Expected readings follow the trade's netlist conventions as DESIGN.md writes them down ("Netlist
+// conventions"): title line, `*` comments, `;` and `$ ` end-of-line comments, `+` continuations,
+// element letters and their fields (common practice, from memory). Where the conventions leave a
+// choice open, the test says the reading is qpoint's own choice.
 
 import { describe, expect, it } from 'vitest';
 import { isNumberLike, parse, unquote } from '../../../shared-analysis/src/syntax/parser';
@@ -176,6 +181,7 @@ describe('title line', () => {
     check('.model QN NPN (BF=120)\n^^^^^^^^^^^^^^^^^^^^^^ title-looks-like-card', { options: { hasTitle: true } });
   });
 
+  // The hint's test for "reads like a card" is qpoint's own heuristic.
   it('gives no hint for ordinary prose even when it starts with an element letter', () => {
     // "Quick check ..." starts with Q and has enough words to fill a transistor card, but no field is numeric.
     check('Quick check of a Widlar source\nM1 d g 0 0 NM', { options: { hasTitle: true } });
@@ -411,9 +417,8 @@ describe('independent sources', () => {
 
   it('records the t=0 value of each transient function', () => {
     // PULSE and EXP start at their first argument (the initial value); SIN starts at its offset,
-    // its first argument; PWL starts at the value of its first (time, value) pair.
-    // Source: L. W. Nagel, "SPICE2: A Computer Program to Simulate Semiconductor Circuits",
-    // UC Berkeley memorandum ERL-M520 (1975), independent-source definitions (from memory).
+    // its first argument; PWL starts at the value of its first (time, value) pair
+    // (common practice for transient source functions, from memory).
     check(
       [
         'V1 a 0 PULSE(0.2 5 1n 1n 1n 10n 20n)',
@@ -544,6 +549,8 @@ describe('diodes and bipolar transistors', () => {
     });
   });
 
+  // qpoint's choice where the conventions are ambiguous: the model is the last non-numeric field after
+  // the emitter, a field between emitter and model is the substrate, a number after the model the area.
   it('tells substrate from area by position and the model name', () => {
     check(
       [
@@ -786,6 +793,7 @@ describe('.include and .lib', () => {
     });
   });
 
+  // qpoint's choice: a lone bare field starts a section only inside a library file.
   it('reads a lone bare .lib field as a path in a top-level netlist', () => {
     check('Top level\n.lib models/bjt.lib', {
       options: { hasTitle: true },
@@ -832,6 +840,7 @@ describe('.end as a title and with a comment', () => {
 });
 
 describe('problem flood', () => {
+  // The limit of 25 listed problems per card is qpoint's own choice.
   it('lists at most 25 problems per card and says so', () => {
     const doc = parse('flood.cir', '.param ' + '= '.repeat(40) + '\n.param x', { hasTitle: false });
     const codes = doc.errors.map((e) => e.code);
