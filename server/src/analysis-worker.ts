@@ -7,12 +7,15 @@ import { analyse } from '../../shared-analysis/src/service';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
 import { FileWorkspace } from './file-workspace';
+import { splitAnalysis, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import type { FromWorker, ToWorker } from './worker-messages';
 
 const workspace = new FileWorkspace();
 const openTexts = new Map<string, string>();
 /** The worker's copy of each document's last analysis without the parsed text (sweeps and sizing need only the circuit). */
+/** The parts of the last analysis still being taken in by the main thread, by request id. */
+let outgoing: { id: number; parts: AnalysisPart[] } | undefined;
 const lastAnalysis = new Map<string, { analysis: Analysis; texts: Map<string, string> }>();
 
 function post(msg: FromWorker): void {
@@ -62,10 +65,22 @@ function handle(msg: ToWorker): void {
         const analysis = analyse({ uri: msg.uri, text, version: msg.version }, workspace, msg.options);
         const texts = new Map(Object.entries(analysis.documents).map(([u, d]) => [u, d.text] as [string, string]));
         lastAnalysis.set(msg.uri, { analysis: { ...analysis, documents: {} }, texts });
-        post({ type: 'analysed', id: msg.id, analysis, ms: performance.now() - t0 });
+        const { header, parts } = splitAnalysis(analysis);
+        outgoing = { id: msg.id, parts };
+        post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, ms: performance.now() - t0 });
       } catch (e) {
         post({ type: 'failed', id: msg.id, message: `The analysis stopped with an internal error: ${errorText(e)}` });
       }
+      return;
+    }
+    case 'next-part': {
+      const part = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[msg.index] : undefined;
+      if (!part) {
+        post({ type: 'failed', id: msg.id, message: `Part ${msg.index} of analysis ${msg.analysisId} is no longer available.` });
+        return;
+      }
+      if (msg.index === outgoing!.parts.length - 1) outgoing = undefined;
+      post({ type: 'part', id: msg.id, index: msg.index, part });
       return;
     }
     case 'sweep': {

@@ -255,7 +255,8 @@ async function pump(): Promise<void> {
     }, PROGRESS_AFTER_MS);
   }
   try {
-    const { analysis, ms } = await host.analyse(uri, job.version, settings.options);
+    const { analysis, ms, transferMs } = await host.analyse(uri, job.version, settings.options);
+    log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
     if (current && current.version === analysis.version) accept(uri, analysis, ms);
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.

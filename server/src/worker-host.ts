@@ -4,6 +4,7 @@ import { Worker } from 'node:worker_threads';
 import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
+import { mergePart } from './analysis-transfer';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 
 /** Options for {@link WorkerHost}. */
@@ -126,10 +127,23 @@ export class WorkerHost {
     }
   }
 
-  async analyse(uri: string, version: number, options: AnalysisOptions): Promise<{ analysis: Analysis; ms: number }> {
-    const msg = await this.request((id) => ({ type: 'analyse', id, uri, version, options }), `The analysis of ${uri}`);
-    if (msg.type === 'analysed') return { analysis: msg.analysis, ms: msg.ms };
-    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  /**
+   * Analyses an open document in the worker. The result comes over in parts, each fetched
+   * after the previous one was merged and the event loop had a turn, so editor requests are
+   * answered between parts instead of waiting for one long deserialisation.
+   */
+  async analyse(uri: string, version: number, options: AnalysisOptions): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
+    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options }), `The analysis of ${uri}`);
+    if (msg.type !== 'analysed') throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+    const t0 = Date.now();
+    const analysis = msg.analysis;
+    for (let index = 0; index < msg.parts; index++) {
+      await new Promise((r) => setImmediate(r));
+      const part = await this.request((rid) => ({ type: 'next-part', id: rid, analysisId: msg.id, index }), `Taking in part ${index + 1} of the analysis of ${uri}`);
+      if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
+      mergePart(analysis, part.part);
+    }
+    return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
 
   async sweep(uri: string, device: string, points: number): Promise<OutputCharacteristicResult | { error: string }> {

@@ -1,6 +1,7 @@
 // The messages between the language server's main thread and its analysis worker.
 
 import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
+import type { AnalysisPart } from './analysis-transfer';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { TextEdit } from '../../shared-analysis/src/types';
@@ -33,12 +34,16 @@ export type ToWorker =
   /** Files changed on disk: forget what was read of them. */
   | { type: 'files-changed'; uris: string[] }
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions }
+  /** Send part `index` of the analysis answered to request `analysisId`. */
+  | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
   | { type: 'size-resistor'; id: number; uri: string; resistor: string; target: string; encoding: PositionEncoding };
 
 /** Worker → main thread. */
 export type FromWorker =
-  | { type: 'analysed'; id: number; analysis: Analysis; ms: number }
+  /** The analysis without its big arrays; `parts` more slices follow, each on request. */
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; ms: number }
+  | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'sized'; id: number; result: SizingData | { error: string } }
   | { type: 'failed'; id: number; message: string };

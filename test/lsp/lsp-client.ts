@@ -102,11 +102,11 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
     publishCount.set(p.uri, (publishCount.get(p.uri) ?? 0) + 1);
   });
   connection.onRequest(ConfigurationRequest.type, (p) => p.items.map((i) => (i.section === 'qpoint' ? (options.settings ?? {}) : null)));
-  connection.onRequest(RegistrationRequest.type, () => null);
-  connection.onRequest(WorkDoneProgressCreateRequest.type, () => null);
+  connection.onRequest(RegistrationRequest.type, () => undefined);
+  connection.onRequest(WorkDoneProgressCreateRequest.type, () => undefined);
   connection.onRequest(InlayHintRefreshRequest.type, () => {
     session.refreshes++;
-    return null;
+    return undefined;
   });
   connection.onNotification(() => undefined);
   connection.listen();

@@ -46,6 +46,11 @@ function quantity(text: string, label: string, unit: string): number {
   return Number(m[1].replace('−', '-')) * scale[m[2]];
 }
 
+/** A diagnostic's message as plain text (LSP 3.18 also allows markup). */
+function messageOf(d: { message: string | MarkupContent }): string {
+  return typeof d.message === 'string' ? d.message : d.message.value;
+}
+
 let server: ServerSession;
 let dir: string;
 
@@ -163,7 +168,7 @@ describe('the language server over stdio', () => {
     const top = pathToFileURL(join(dir, 'uses-include.cir')).href;
     const topText = 'Netlist using an include\n.include "models.inc"\nVCC vcc 0 DC 5\nR1 vcc b 100k\nQ1 c b 0 QX\nQ2 c2 b 0 QY\nR2 vcc c 1k\nR3 vcc c2 1k\n.end\n';
     server.open(top, topText);
-    await server.waitFor('the missing QY', () => server.diagnosticsOf(top).some((d) => d.code === 'model-not-found' && d.message.includes('QY')));
+    await server.waitFor('the missing QY', () => server.diagnosticsOf(top).some((d) => d.code === 'model-not-found' && messageOf(d).includes('QY')));
 
     writeFileSync(inc, '.model QX NPN (BF=50)\n.model QY NPN (BF=60)\n');
     await server.connection.sendNotification(DidChangeWatchedFilesNotification.type, { changes: [{ uri: incUri, type: FileChangeType.Changed }] });
@@ -176,7 +181,7 @@ describe('the language server over stdio', () => {
     const incText = '.model QX NPN (BF=50)\n.model QY NPN (BF=60)\n';
     server.open(incUri, incText);
     server.change(incUri, 2, [{ range: { start: { line: 1, character: 0 }, end: { line: 2, character: 0 } }, text: '' }]);
-    await server.waitFor('QY missing again after the editor change', () => server.diagnosticsOf(top).some((d) => d.code === 'model-not-found' && d.message.includes('QY')));
+    await server.waitFor('QY missing again after the editor change', () => server.diagnosticsOf(top).some((d) => d.code === 'model-not-found' && messageOf(d).includes('QY')));
     // Hover inside the included file answers from the includer's analysis.
     const hover = (await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: incUri }, position: { line: 0, character: 8 } })) as Hover | null;
     expect((hover?.contents as MarkupContent | undefined)?.value).toContain('Model **QX**');
