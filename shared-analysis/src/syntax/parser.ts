@@ -33,7 +33,10 @@
  *   text-after-end               [hint]    Non-blank text after `.end`; it is not read.
  *   too-many-problems            [warning] A card with more than 25 problems; only the first 25 are listed.
  *
- * Every ErrorCard's message is also in `errors`, with its code and the ErrorCard's errorSpan.
+ * Every ErrorCard's message is also in `errors`, with its code and the ErrorCard's errorSpan. The codes
+ * that turn a card into an ErrorCard are continuation-without-card, unrecognised-card,
+ * unknown-element-letter, element-missing-fields, missing-model-name, unsupported-source-form,
+ * model-missing-fields and subckt-missing-name; the others leave the card readable.
  */
 
 import type {
