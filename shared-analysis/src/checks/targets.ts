@@ -404,13 +404,16 @@ export function solvedCurrent(op: OperatingPoint, element: string): number | und
 export interface TargetRole {
   structure: Structure;
   role: 'output' | 'reference-device' | 'reference-resistor' | 'degeneration-resistor';
+  /** For `output` and `degeneration-resistor`: the output device concerned. */
+  output?: string;
 }
 
 /** The structure role of an element: an output device, the reference device, a resistor of the reference chain, or a Widlar emitter resistor. */
 export function structureRole(circuit: Circuit, structures: Structure[], element: Element): TargetRole | undefined {
   const name = element.name.toLowerCase();
   for (const s of structures) {
-    if (s.outputs.some((o) => o.device.toLowerCase() === name)) return { structure: s, role: 'output' };
+    const out = s.outputs.find((o) => o.device.toLowerCase() === name);
+    if (out) return { structure: s, role: 'output', output: out.device };
     if (s.reference.device.toLowerCase() === name) return { structure: s, role: 'reference-device' };
     if (s.reference.feed === 'resistor' && s.reference.elements.some((e) => e.toLowerCase() === name)) {
       return { structure: s, role: 'reference-resistor' };
@@ -418,17 +421,17 @@ export function structureRole(circuit: Circuit, structures: Structure[], element
   }
   if (element.kind === 'R') {
     for (const s of structures) {
-      if (s.kind !== 'widlar-source') continue;
-      const r = degenerationResistor(circuit, s);
-      if (r && r.toLowerCase() === name) return { structure: s, role: 'degeneration-resistor' };
+      const out = s.outputs.find((o) => o.degeneration?.resistor.toLowerCase() === name);
+      if (out) return { structure: s, role: 'degeneration-resistor', output: out.device };
     }
   }
   return undefined;
 }
 
-/** The emitter (source) resistor of a Widlar source's output device, as the recogniser recorded it. */
-export function degenerationResistor(_circuit: Circuit, s: Structure): string | undefined {
-  return s.outputs.find((o) => o.degeneration)?.degeneration?.resistor;
+/** The emitter (source) resistor of one output of a Widlar source, as the recogniser recorded it. */
+export function degenerationResistor(s: Structure, output: string | undefined): string | undefined {
+  const want = output?.toLowerCase();
+  return s.outputs.find((o) => o.device.toLowerCase() === want)?.degeneration?.resistor;
 }
 
 /** The resistor a sizing fix would change to move an element's current, and the structure it acts through. */
@@ -437,8 +440,8 @@ export function sizingKnob(circuit: Circuit, structures: Structure[], element: E
   if (role) {
     const s = role.structure;
     if (role.role === 'degeneration-resistor') return { resistor: element.name, structureId: s.id };
-    if (role.role === 'output' && s.kind === 'widlar-source') {
-      const r2 = degenerationResistor(circuit, s);
+    if (role.role === 'output') {
+      const r2 = degenerationResistor(s, role.output);
       if (r2) return { resistor: r2, structureId: s.id };
     }
     if (s.reference.feed === 'resistor' && s.reference.elements.length > 0) {
@@ -460,7 +463,7 @@ function estimatedCurrent(role: TargetRole | undefined, element: Element): numbe
   if (!est || !role) return undefined;
   let v: number | undefined;
   if (role.role === 'output') v = est.iout[element.name] ?? findCaseless(est.iout, element.name);
-  else if (role.role === 'degeneration-resistor') v = Object.values(est.iout)[0];
+  else if (role.role === 'degeneration-resistor') v = role.output !== undefined ? est.iout[role.output] : undefined;
   else if (role.role === 'reference-device') {
     // The reference device's own collector (drain) current is a matched output's current divided by its ratio;
     // IREF also carries the base currents.
@@ -606,6 +609,11 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
 }
 
 function cornerCurrent(iout: Record<string, number>, iref: number, role: TargetRole, name: string): number | undefined {
-  const v = role.role === 'output' ? iout[name] ?? findCaseless(iout, name) : role.role === 'degeneration-resistor' ? Object.values(iout)[0] : iref;
+  const v =
+    role.role === 'output'
+      ? iout[name] ?? findCaseless(iout, name)
+      : role.role === 'degeneration-resistor'
+        ? role.output !== undefined ? iout[role.output] : undefined
+        : iref;
   return v !== undefined && Number.isFinite(v) ? Math.abs(v) : undefined;
 }

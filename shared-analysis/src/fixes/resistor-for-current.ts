@@ -117,12 +117,13 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   }
 
   const role = structure ? resistorRole(structure, resistor.name) : undefined;
+  // The output a resistor acts on: the one it degenerates (Widlar), else the structure's first output.
+  const actedOn =
+    role === 'widlar'
+      ? structure?.outputs.find((o) => o.degeneration?.resistor.toLowerCase() === resistor.name.toLowerCase())
+      : structure?.outputs[0];
   const deviceName =
-    ctx.device !== undefined
-      ? findElement(circuit, ctx.device)?.name ?? ctx.device
-      : role && structure && structure.outputs[0]
-        ? structure.outputs[0].device
-        : resistor.name;
+    ctx.device !== undefined ? findElement(circuit, ctx.device)?.name ?? ctx.device : role && actedOn ? actedOn.device : resistor.name;
   if (!findElement(circuit, deviceName)) return fail(`There is no element named ${deviceName} whose current could be targeted.`, deviceName);
 
   let solves = 0;
@@ -162,9 +163,9 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const rRec = baseline.op.devices[resistor.name];
   const vR = rRec && rRec.type === 'resistor' ? Math.abs(rRec.voltage) : Math.abs(currentOf(baseline.op, resistor.name) ?? 0) * resistor.resistance;
   const iR = currentOf(baseline.op, resistor.name) ?? 0;
-  if (structure && role === 'widlar' && deviceName.toLowerCase() === structure.outputs[0]?.device.toLowerCase()) {
+  if (structure && role === 'widlar' && actedOn && deviceName.toLowerCase() === actedOn.device.toLowerCase()) {
     const m = measureStructure(circuit, baseline.op, structure);
-    const nf = outputNf(circuit, structure);
+    const nf = deviceNf(circuit, actedOn.device);
     if (!(m.iref > target)) {
       return fail(
         `A Widlar source's output runs below its reference current, but the target ${formatEngineering(target, { unit: 'A' })} is not below IREF = ${formatEngineering(m.iref, { unit: 'A' })}; change the reference resistor instead.`,
@@ -182,7 +183,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     // instead, which the refinement below takes care of, so its first value keeps the drop fixed.
     const bipolar = structure.technology === 'npn' || structure.technology === 'pnp';
     const junctions = bipolar ? Math.max(1, stackedJunctions(structure)) : 0;
-    const vAvailable = vR - junctions * outputNf(circuit, structure) * vt * Math.log(iRefTarget / iR);
+    const vAvailable = vR - junctions * deviceNf(circuit, structure.reference.device) * vt * Math.log(iRefTarget / iR);
     first = vAvailable > 0 ? vAvailable / iRefTarget : resistor.resistance * (i0 / target);
     firstValueFrom = 'reference-formula';
   } else {
@@ -320,10 +321,10 @@ function stackedJunctions(s: Structure): number {
   return s.kind === 'cascode-mirror' || s.kind === 'wilson-mirror' || s.kind === 'improved-wilson-mirror' ? 2 : 1;
 }
 
-/** NF of a bipolar output device (1 for MOS or when unknown). */
-function outputNf(circuit: Circuit, s: Structure): number {
-  const out = s.outputs[0] ? findElement(circuit, s.outputs[0].device) : undefined;
-  const nf = out && out.kind === 'Q' ? out.model.params['NF'] : undefined;
+/** NF of a bipolar device (1 for MOS or when unknown). */
+function deviceNf(circuit: Circuit, name: string | undefined): number {
+  const dev = name ? findElement(circuit, name) : undefined;
+  const nf = dev && dev.kind === 'Q' ? dev.model.params['NF'] : undefined;
   return nf !== undefined && Number.isFinite(nf) && nf > 0 ? nf : 1;
 }
 
