@@ -234,7 +234,7 @@ class Elaborator {
   }
 
   /** Reads a value; reports `element-value-invalid` and returns undefined when it fails. */
-  private value(tok: Token, inst: Instance, uri: string, what: string): number | undefined {
+  private value(tok: Token, inst: Instance, uri: string, what: string, consequence: string): number | undefined {
     const v = tokenValue(tok, inst.scope, uri);
     if (v.ok) {
       if (Math.abs(v.value) > 1e15) {
@@ -242,12 +242,13 @@ class Elaborator {
       }
       return v.value;
     }
-    this.reportValue(v, tok, uri, what);
+    this.reportValue(v, tok, uri, what, consequence);
     return undefined;
   }
 
-  private reportValue(v: Extract<ValueResult, { ok: false }>, tok: Token, uri: string, what: string): void {
-    this.sink.add('element-value-invalid', `${capitalise(what)} cannot be read. ${capitalise(v.message)}`, uri, v.inherited ? tok.span : v.span, v.related);
+  private reportValue(v: Extract<ValueResult, { ok: false }>, tok: Token, uri: string, what: string, consequence: string): void {
+    const message = `${capitalise(what)} cannot be read. ${capitalise(v.message)}${/[.?]$/.test(v.message) ? '' : '.'} ${consequence}`;
+    this.sink.add('element-value-invalid', message, uri, v.inherited ? tok.span : v.span, v.related);
   }
 
   // -------------------------------------------------------------------------
@@ -312,7 +313,7 @@ class Elaborator {
           this.sink.add('element-value-missing', `Resistor \`${card.name.text}\` has no resistance value; it is left out of the analysis.`, uri, card.name.span);
           return;
         }
-        const v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``);
+        const v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``, 'The resistor is left out of the analysis.');
         if (v === undefined) return;
         const m = multiplier();
         if (v === 0) {
@@ -329,7 +330,7 @@ class Elaborator {
         if (!card.value) {
           this.sink.add('element-value-missing', `${noun} \`${card.name.text}\` has no value; it is kept, since at DC a ${card.letter === 'C' ? 'capacitor is open' : 'inductor is a short'} whatever its value.`, uri, card.name.span);
         }
-        const v = card.value ? this.value(card.value, inst, uri, `the value of \`${card.name.text}\``) : undefined;
+        const v = card.value ? this.value(card.value, inst, uri, `the value of \`${card.name.text}\``, `It is kept, since at DC a ${card.letter === 'C' ? 'capacitor is open' : 'inductor is a short'} whatever its value.`) : undefined;
         element = card.letter === 'C' ? { ...base, kind: 'C', capacitance: v ?? 0 } : { ...base, kind: 'L', inductance: v ?? 0 };
         break;
       }
@@ -341,7 +342,7 @@ class Elaborator {
         if (!tok) {
           this.sink.add('element-value-missing', `Source \`${card.name.text}\` has no DC value; it is taken as 0 ${unit}.`, uri, card.name.span);
         } else {
-          const v = this.value(tok, inst, uri, `the DC value of \`${card.name.text}\``);
+          const v = this.value(tok, inst, uri, `the DC value of \`${card.name.text}\``, `The source is taken as 0 ${unit}.`);
           if (v !== undefined) dc = v;
         }
         element = card.letter === 'V' ? { ...base, kind: 'V', dc } : { ...base, kind: 'I', dc };
@@ -355,7 +356,7 @@ class Elaborator {
           this.sink.add('element-value-missing', `Controlled source \`${card.name.text}\` has no gain; it is left out of the analysis.`, uri, card.name.span);
           return;
         }
-        const gain = this.value(card.value, inst, uri, `the gain of \`${card.name.text}\``);
+        const gain = this.value(card.value, inst, uri, `the gain of \`${card.name.text}\``, 'The controlled source is left out of the analysis.');
         if (gain === undefined) return;
         if (card.letter === 'E' || card.letter === 'G') {
           element = { ...base, kind: card.letter, gain };
@@ -437,7 +438,7 @@ class Elaborator {
   }
 
   private positiveToken(tok: Token, inst: Instance, uri: string, card: ElementCard, what: string): number {
-    const v = this.value(tok, inst, uri, `the ${what} of \`${card.name.text}\``);
+    const v = this.value(tok, inst, uri, `the ${what} of \`${card.name.text}\``, '1 is used so the analysis continues.');
     if (v === undefined) return 1;
     if (v <= 0) {
       this.sink.add('device-area-invalid', `The ${what} of \`${card.name.text}\` is ${v}; it must be greater than 0, so 1 is used and the analysis continues.`, uri, tok.span, undefined, { value: v });
@@ -448,7 +449,7 @@ class Elaborator {
 
   private geometry(a: Assignment | undefined, inst: Instance, uri: string, card: ElementCard, which: 'W' | 'L'): number {
     if (!a) return DEFAULT_MOS_SIZE;
-    const v = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``);
+    const v = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``, '10 µm is used so the analysis continues.');
     if (v === undefined) return DEFAULT_MOS_SIZE;
     if (v <= 0) {
       this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${v} m; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
@@ -601,7 +602,7 @@ class Elaborator {
         continue;
       }
       const v = tokenValue(a.value, inst.scope, uri);
-      if (!v.ok) this.reportValue(v, a.value, uri, `the value of \`${a.name.text}\` for instance \`${card.name.text}\``);
+      if (!v.ok) this.reportValue(v, a.value, uri, `the value of \`${a.name.text}\` for instance \`${card.name.text}\``, 'Whatever depends on it inside the instance has no value either.');
       const result: EvalResult = v.ok
         ? v
         : { ok: false, error: { message: v.message, span: v.span, inherited: true, related: [{ uri, span: a.span, message: `\`${a.name.text}\` is set here.` }] } };

@@ -178,6 +178,13 @@ describe('values and sources', () => {
     });
   });
 
+  it('takes a source whose value fails as 0 and says so', () => {
+    check(`bad source\nV1 a 0 {nope}\nR1 a 0 1k\n`, {
+      findings: [{ code: 'element-value-invalid', at: 'nope', message: /The source is taken as 0 V\.$/ }],
+      elements: { V1: { value: 0 } },
+    });
+  });
+
   it('takes a source without a value as 0 and says so', () => {
     check(`missing\nV1 a 0\nR1 a 0 1k\n`, {
       findings: [{ code: 'element-value-missing', at: 'V1', message: /taken as 0 V/ }],
@@ -270,6 +277,12 @@ describe('includes and library sections', () => {
         elements: { V1: { value: 1 } },
       },
     );
+  });
+
+  it('stops following includes nested deeper than the limit', () => {
+    const files: Record<string, string> = { [ROOT]: 'deep\n.include d1.inc\nV1 a 0 1\nR1 a 0 1\n' };
+    for (let k = 1; k <= 70; k++) files[`/w/d${k}.inc`] = `.include d${k + 1}.inc\n`;
+    check(files, { findings: [{ code: 'include-too-deep', at: 'd64.inc', uri: '/w/d63.inc', message: /more than 64 files deep/ }] });
   });
 
   it('uses only the named section of a library and lists the sections when one is missing', () => {
@@ -470,6 +483,26 @@ describe('subcircuits', () => {
     );
   });
 
+  it('finds a definition nested in another only from inside it, and reads includes inside a body', () => {
+    check(
+      {
+        [ROOT]: `nested defs\n.subckt outer a\n.subckt inner p\nR1 p 0 1k\n.ends inner\nXi a inner\n.include body.inc\n.ends outer\nV1 n 0 5\nXo n outer\nXbad n inner\n`,
+        '/w/body.inc': `R2 a 0 2k\n`,
+      },
+      {
+        findings: [{ code: 'subckt-not-found', at: { in: 'Xbad n inner', text: 'inner' }, message: /`outer`/ }],
+        elements: { 'Xo.Xi.R1': { nodes: ['n', '0'], value: 1000 }, 'Xo.R2': { nodes: ['n', '0'], value: 2000 } },
+      },
+    );
+  });
+
+  it('reports a second definition of the same subcircuit and uses the first', () => {
+    check(`dup subckt\n.subckt cell a\nR1 a 0 1k\n.ends\n.subckt CELL a\nR1 a 0 2k\n.ends\nV1 n 0 1\nX1 n cell\n`, {
+      findings: [{ code: 'subckt-duplicate', at: 'CELL' }],
+      elements: { 'X1.R1': { value: 1000 } },
+    });
+  });
+
   it('stops flattening at the element limit', () => {
     check(`big\n.subckt r10 a\nR1 a 0 1\nR2 a 0 1\nR3 a 0 1\nR4 a 0 1\nR5 a 0 1\n.ends\nV1 n 0 1\nX1 n r10\nX2 n r10\n`, {
       findings: [{ code: 'circuit-too-large', at: 'R3 a 0 1' }],
@@ -489,6 +522,7 @@ describe('temperature', () => {
     });
     check(`t\n.temp 85\nV1 a 0 1\nR1 a 0 1\n`, { findings: [], also: (r) => expect(r.circuit.temperatureC).toBe(-40) }, { temperatureC: -40 });
     check(`t\n.temp -300\nV1 a 0 1\nR1 a 0 1\n`, { findings: [{ code: 'temperature-invalid', at: '-300' }], also: (r) => expect(r.circuit.temperatureC).toBe(27) });
+    check(`t\n.temp 50\nV1 a 0 1\nR1 a 0 1\n`, { findings: [{ code: 'temperature-invalid', at: '' }], also: (r) => expect(r.circuit.temperatureC).toBe(50) }, { temperatureC: Number.NaN });
   });
 });
 
