@@ -119,3 +119,55 @@ describe('polarity symmetry', () => {
     );
   });
 });
+
+/** Values a careless or hostile netlist might carry. */
+const wildValue = fc.oneof(
+  fc.double({ min: -1e6, max: 1e6, noNaN: true }),
+  fc.constantFrom(0, -0, 1e300, -1e300, 1e-300, NaN, Infinity, -Infinity, 1e-12, 5),
+);
+const nodeName = fc.constantFrom('0', 'a', 'b', 'c', 'd');
+
+/** A random element over five nodes, with any value, including unusable ones. */
+const wildElement: fc.Arbitrary<Spec> = fc.oneof(
+  fc.tuple(fc.constantFrom('R', 'V', 'I'), nodeName, nodeName, wildValue).map(([k, a, b, v], i) => [k, `${k}${i}`, a, b, v] as Spec),
+  fc.tuple(nodeName, nodeName).map(([a, b]) => ['C', 'C', a, b] as Spec),
+  fc.tuple(nodeName, nodeName).map(([a, b]) => ['L', 'L', a, b] as Spec),
+  fc.tuple(fc.constantFrom('E', 'G'), nodeName, nodeName, nodeName, nodeName, wildValue).map(([k, a, b, c, d, v]) => [k, k, a, b, c, d, v] as Spec),
+  fc.tuple(fc.constantFrom('F', 'H'), nodeName, nodeName, fc.constantFrom('V', 'VX', 'L'), wildValue).map(([k, a, b, c, v]) => [k, k, a, b, c, v] as Spec),
+  fc.tuple(nodeName, nodeName, wildValue, wildValue).map(([a, b, is, area]) => ['D', 'D', a, b, model('DW', 'd', { IS: Math.abs(is), RS: 10 }), { area }] as Spec),
+  fc.tuple(nodeName, nodeName, nodeName, fc.boolean(), wildValue, wildValue).map(
+    ([c, b, e, pnp, bf, vaf]) => ['Q', 'Q', c, b, e, model('QW', pnp ? 'pnp' : 'npn', { BF: bf, VAF: vaf }), { area: 1 }] as Spec,
+  ),
+  fc.tuple(nodeName, nodeName, nodeName, nodeName, fc.boolean(), wildValue, wildValue).map(
+    ([d, g, s, b, pmos, vto, l]) => ['M', 'M', d, g, s, b, model('MW', pmos ? 'pmos' : 'nmos', { VTO: vto, GAMMA: 0.5 }), { l: Math.abs(l) * 1e-6 }] as Spec,
+  ),
+);
+
+describe('robustness', () => {
+  it('random circuits with unusable values never throw and never return a non-finite number', () => {
+    // Source: product rule (binding) — every bad input gets a located finding, never a crash, hang or NaN.
+    fc.assert(
+      fc.property(fc.array(wildElement, { minLength: 1, maxLength: 9 }), (specs) => {
+        // Unique names: the builder keeps them as given, the solver looks controls up by name.
+        const named = specs.map((s, i) => [s[0], `${s[0]}${i}`, ...s.slice(2)] as unknown as Spec);
+        const r = solveOperatingPoint(circuit(named), { maxIterations: 40 });
+        const numbers: number[] = [];
+        const visit = (v: unknown): void => {
+          if (typeof v === 'number') numbers.push(v);
+          else if (v && typeof v === 'object') for (const w of Object.values(v)) visit(w);
+        };
+        visit(r.op);
+        visit(r.findings.map((f) => f.data ?? {}));
+        expect(numbers.every(Number.isFinite)).toBe(true);
+        expect([...r.x].every(Number.isFinite)).toBe(true);
+        for (const f of r.findings) {
+          expect(f.code).toMatch(/^[a-z]+(-[a-z]+)*$/);
+          expect(f.span.end).toBeGreaterThanOrEqual(f.span.start);
+          expect(f.message.length).toBeGreaterThan(10);
+        }
+        if (!r.op.converged) expect(r.findings.some((f) => f.severity === 'error')).toBe(true);
+      }),
+      { seed: 77, numRuns: 300 },
+    );
+  });
+});

@@ -595,7 +595,11 @@ export class DcSolver {
     const idx = this.circuit.elements.indexOf(el);
     const where = issue.inModel && 'model' in el ? `model ${el.model.name} of ${el.name}` : el.name;
     const disabled = !issue.inModel && issue.used === 0;
-    const message = `${issue.name} = ${String(issue.given)} on ${where} is not usable (${issue.rule}); ` + (disabled ? `the solver treats ${el.name} as carrying no current.` : `the solver used ${issue.name} = ${issue.used} instead.`);
+    const message = `${issue.name} = ${String(issue.given)} on ${where} is not usable (${issue.rule}); ` + (disabled
+        ? `the solver treats ${el.name} as carrying no current.`
+        : Number.isFinite(issue.used)
+          ? `the solver used ${issue.name} = ${issue.used} instead.`
+          : `the solver leaves ${issue.name} unset (no effect) instead.`);
     const f = this.elementFinding('dc-parameter-unusable', 'error', message, idx);
     if (issue.inModel && 'model' in el) {
       f.related = [...(f.related ?? []), { uri: el.model.origin.uri, span: el.model.origin.span, message: `Model ${el.model.name} is defined here.` }];
@@ -603,7 +607,7 @@ export class DcSolver {
     f.data = {
       parameter: issue.name,
       given: Number.isFinite(issue.given) ? issue.given : String(issue.given),
-      used: issue.used,
+      used: Number.isFinite(issue.used) ? issue.used : String(issue.used),
       netlistCodes: issue.inModel ? ['model-parameter-invalid'] : ['device-area-invalid', 'element-value-invalid'],
     };
     return f;
