@@ -6,7 +6,7 @@
 // choice open, the test says the reading is qpoint's own choice.
 
 import { describe, expect, it } from 'vitest';
-import { isNumberLike, parse, unquote } from '../../../shared-analysis/src/syntax/parser';
+import { isKnownDotCommand, isNumberLike, parse, unquote } from '../../../shared-analysis/src/syntax/parser';
 import type { Card, ParsedDocument, ParseOptions, Token } from '../../../shared-analysis/src/syntax/ast';
 
 // ---------------------------------------------------------------------------
@@ -441,6 +441,10 @@ describe('independent sources', () => {
     );
   });
 
+  it('reads DC written as an assignment', () => {
+    check('V1 a 0 DC=1.8', { cards: [el({ letter: 'V', name: 'V1', nodes: ['a', '0'], source: { form: 'dc', value: '1.8' } })] });
+  });
+
   it('prefers an explicit DC value over the transient function', () => {
     check('V1 a 0 DC 1.2 SIN(0 1 1k)', { cards: [el({ letter: 'V', name: 'V1', nodes: ['a', '0'], source: { form: 'dc', value: '1.2' } })] });
   });
@@ -865,6 +869,13 @@ describe('token helpers', () => {
     for (const v of ['0', '10k', '-5', '+3.3', '.5', '-.25', '1e-15']) expect(isNumberLike(word(v)), v).toBe(true);
     for (const v of ['QN', 'vcc', '-', '.', '+x', 'n1']) expect(isNumberLike(word(v)), v).toBe(false);
     expect(isNumberLike(word('{w*2}', 'expr'))).toBe(true);
+  });
+
+  it('knows the dot commands it interprets, in any case', () => {
+    for (const c of ['.model', '.PARAM', '.Subckt', '.ends', '.include', '.inc', '.lib', '.endl', '.temp', '.option', '.options', '.op', '.end']) {
+      expect(isKnownDotCommand(c), c).toBe(true);
+    }
+    for (const c of ['.tran', '.print', 'model', '.']) expect(isKnownDotCommand(c), c).toBe(false);
   });
 
   it('strips matching quotes only', () => {
