@@ -288,53 +288,78 @@ describe('estimate against the DC solver on the same circuit', () => {
     check(low.iout.Q2, q2.type === 'bjt' ? q2.ic : 0, 0.005);
   });
 
-  it('output resistance of the simple mirror: VA/IC against a finite difference of the solve', () => {
-    // Source: ro = VA/IC (Gray et al., ch. 1/4), checked against ΔV/ΔI of the solver with the output forced by a source.
-    const rout = (vout: number) => {
-      const b = new CircuitBuilder()
-        .v('VCC', 'vcc', '0', 5)
-        .v('VO', 'out', '0', vout)
-        .model('qn', 'npn', { VAF: 60 })
-        .r('R1', 'vcc', 'a', 4.3e3)
-        .q('Q1', 'a', 'a', '0', 'qn')
-        .q('Q2', 'out', 'a', '0', 'qn');
-      const c = b.build();
-      const r = new DcSolver(c).solve({});
-      const rec = r.op.devices.Q2;
-      return { ic: rec.type === 'bjt' ? rec.ic : 0, c, op: r.op };
-    };
-    const lo = rout(2.9);
-    const hi = rout(3.1);
-    const fd = 0.2 / (hi.ic - lo.ic);
-    const mid = rout(3);
-    const structures = recogniseStructures(mid.c);
-    analyseStructures({ circuit: mid.c, op: mid.op, structures, options: resolveOptions() });
-    const ro = structures[0].outputResistance.Q2;
-    check(ro, 60 / mid.ic, 1e-9);
-    // VA/IC leaves out the (VCE − VBE)/VA term of the device law, a few percent here.
-    check(ro, fd, 0.06);
-  });
+  // Output resistance formulas against ΔV/ΔI of the solver with the output node forced by a source (±0.2 V around 5 V).
+  const ROUT: { name: string; source: string; tol: number; build: (b: CircuitBuilder) => void; out: string }[] = [
+    { name: 'simple BJT: ro = VA/IC', source: 'Gray, Hurst, Lewis, Meyer, 5th ed., ch. 1/4', tol: 0.02, out: 'Q2', build: (b) => void b.q('Q1', 'a', 'a', '0', 'qn').q('Q2', 'out', 'a', '0', 'qn') },
+    {
+      name: 'Widlar: ro·(1 + gm·(R2∥rπ)) + R2∥rπ',
+      source: 'Gray et al., ch. 3/4, degenerated output (from memory)',
+      tol: 0.1,
+      out: 'Q2',
+      build: (b) => void b.q('Q1', 'a', 'a', '0', 'qn').q('Q2', 'out', 'a', 'e', 'qn').r('R2', 'e', '0', 5e3),
+    },
+    // β·ro/2 is the limit for an ideal current feed and large gm·ro; the 8.2 kΩ feed here brings the solve about 15 % lower.
+    { name: 'Wilson BJT: β·ro/2', source: 'Gray et al., ch. 4 (from memory)', tol: 0.2, out: 'Q3', build: (b) => void b.q('Q1', 'a', 'b', '0', 'qn').q('Q2', 'b', 'b', '0', 'qn').q('Q3', 'out', 'a', 'b', 'qn') },
+    {
+      name: 'improved Wilson BJT: β·ro/2',
+      source: 'Gray et al., ch. 4 (from memory)',
+      tol: 0.2,
+      out: 'Q3',
+      build: (b) => void b.q('Q1', 'c', 'b', '0', 'qn').q('Q2', 'b', 'b', '0', 'qn').q('Q3', 'out', 'a', 'b', 'qn').q('Q4', 'a', 'a', 'c', 'qn'),
+    },
+    {
+      name: 'cascode BJT: β·ro/2',
+      source: 'Gray et al., ch. 4 (from memory)',
+      tol: 0.1,
+      out: 'Q4',
+      build: (b) => void b.q('Q1', 'b', 'b', '0', 'qn').q('Q2', 'c', 'b', '0', 'qn').q('Q3', 'a', 'a', 'b', 'qn').q('Q4', 'out', 'a', 'c', 'qn'),
+    },
+    { name: 'simple NMOS: ro', source: 'Razavi, ch. 2/5', tol: 0.02, out: 'M2', build: (b) => void b.mos('M1', 'a', 'a', '0', '0', 'nn').mos('M2', 'out', 'a', '0', '0', 'nn') },
+    {
+      name: 'cascode NMOS: ro4 + ro2 + gm4·ro4·ro2',
+      source: 'Razavi, ch. 5 (from memory)',
+      tol: 0.1,
+      out: 'M4',
+      build: (b) => void b.mos('M1', 'b', 'b', '0', '0', 'nn').mos('M2', 'c', 'b', '0', '0', 'nn').mos('M3', 'a', 'a', 'b', '0', 'nn').mos('M4', 'out', 'a', 'c', '0', 'nn'),
+    },
+    {
+      name: 'Wilson NMOS: ro3·(1 + gm3·(gm1/gm2)·(ro1∥R_feed))',
+      source: 'small-signal loop of the Wilson source as in Gray et al., ch. 4',
+      tol: 0.15,
+      out: 'M3',
+      build: (b) => void b.mos('M1', 'a', 'b', '0', '0', 'nn').mos('M2', 'b', 'b', '0', '0', 'nn').mos('M3', 'out', 'a', 'b', '0', 'nn'),
+    },
+  ];
+  for (const k of ROUT) {
+    it(`output resistance, ${k.name}, against a finite difference of the solve`, () => {
+      // Source: see k.source; the check value is the solver's ΔV/ΔI, an independent computation from the device law.
+      const point = (vout: number) => {
+        const b = new CircuitBuilder()
+          .v('VCC', 'vcc', '0', 9)
+          .v('VO', 'out', '0', vout)
+          .model('qn', 'npn', { VAF: 60 })
+          .model('nn', 'nmos', { KP: 1e-4, VTO: 0.5, LAMBDA: 0.05 })
+          .r('R1', 'vcc', 'a', 8.2e3);
+        k.build(b);
+        const c = b.build();
+        const r = new DcSolver(c).solve({});
+        const rec = r.op.devices[k.out];
+        const i = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : 0;
+        return { i: Math.abs(i), c, op: r.op };
+      };
+      const fd = 0.4 / (point(5.2).i - point(4.8).i);
+      const mid = point(5);
+      const structures = recogniseStructures(mid.c);
+      analyseStructures({ circuit: mid.c, op: mid.op, structures, options: resolveOptions() });
+      check(structures[0].outputResistance[k.out], fd, k.tol);
+    });
+  }
 
-  it('Widlar output resistance ro·(1 + gm·(R2∥rπ)) + R2∥rπ against a finite difference of the solve', () => {
-    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 3/4 — degenerated output resistance (from memory), against the solver.
-    const point = (vout: number) => {
-      const b = new CircuitBuilder()
-        .v('VCC', 'vcc', '0', 5)
-        .v('VO', 'out', '0', vout)
-        .model('qn', 'npn', { VAF: 60 })
-        .r('R1', 'vcc', 'a', 4.3e3)
-        .q('Q1', 'a', 'a', '0', 'qn')
-        .q('Q2', 'out', 'a', 'e', 'qn')
-        .r('R2', 'e', '0', 5e3);
-      const c = b.build();
-      const r = new DcSolver(c).solve({});
-      const rec = r.op.devices.Q2;
-      return { ic: rec.type === 'bjt' ? rec.ic : 0, c, op: r.op };
-    };
-    const fd = 0.2 / (point(3.1).ic - point(2.9).ic);
-    const mid = point(3);
-    const structures = recogniseStructures(mid.c);
-    analyseStructures({ circuit: mid.c, op: mid.op, structures, options: resolveOptions() });
-    check(structures[0].outputResistance.Q2, fd, 0.1);
+  it('textbook ro = VA/IC when there is no operating point', () => {
+    // Source: Gray et al., ch. 1 — ro = VA/IC, here at the hand-estimated IC.
+    const { circuit } = fixture('simple-mirror', 'npn', { model: { VAF: 60 } });
+    const structures = recogniseStructures(circuit);
+    analyseStructures({ circuit, structures, options: resolveOptions() });
+    check(structures[0].outputResistance.Q2, 60 / structures[0].estimate!.iout.Q2, 1e-12);
   });
 });

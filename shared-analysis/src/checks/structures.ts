@@ -8,7 +8,7 @@ import { eng, percent, sig, signedVolts } from '../structures/format';
 import { bjtRo, degeneratedRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
-import { isBipolar, polaritySign, Topology, type Transistor } from '../structures/topology';
+import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import type { Structure, StructureKind } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 
@@ -78,7 +78,7 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const { circuit, structures, options } = ctx;
   const op = ctx.op && ctx.op.converged ? ctx.op : undefined;
   const out: Finding[] = [];
-  const topo = new Topology(circuit);
+  const topo = topologyOf(circuit);
   for (const s of feedOrder(structures)) {
     try {
       out.push(...new StructureCheck(circuit, topo, s, structures, op, options).run());
@@ -231,61 +231,82 @@ class StructureCheck {
     return this.s.estimate?.outputEdge?.[device];
   }
 
+  /**
+   * Small-signal gm, ro, rπ and beta of one device: from the solved record when there is one
+   * (ro with the VCB/VDS term of the device law), else textbook values at current `i`:
+   * gm = IC/(NF·VT), rπ = β/gm, ro = VA/IC (Gray et al., ch. 1); gm = sqrt(2·KP·(W/L)·M·ID),
+   * ro = 1/(λ·ID) (Razavi, ch. 2).
+   */
+  private smallSignal(name: string, i: number): { gm: number; ro: number; rpi: number; beta: number } {
+    const t = this.t(name);
+    const p = t.element.model.params;
+    const rec = this.op?.devices[name];
+    if (this.bipolar) {
+      const beta = p.BF > 0 ? p.BF : 100;
+      if (rec && rec.type === 'bjt' && rec.gm > 0) {
+        // The device law IC = IT·(1 − VBC/VA) has the slope IT/VA: ro = (VA + VCB)/IC, VA/IC plus the operating-point term.
+        const va = p.VAF ?? Infinity;
+        const ic = Math.abs(rec.ic);
+        const ro = Number.isFinite(va) && va > 0 && ic > 0 ? Math.min((va - rec.vbc) / ic, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
+        return { gm: rec.gm, ro: ro > 0 ? ro : UNBOUNDED_OHMS, rpi: rec.rpi > 0 ? rec.rpi : beta / rec.gm, beta: rec.rpi > 0 ? rec.gm * rec.rpi : beta };
+      }
+      const gm = i / ((p.NF > 0 ? p.NF : 1) * thermalVolts(this.temperatureC));
+      return { gm, ro: bjtRo(p.VAF ?? Infinity, i), rpi: gm > 0 ? beta / gm : UNBOUNDED_OHMS, beta };
+    }
+    if (rec && rec.type === 'mosfet' && rec.gm > 0) return { gm: rec.gm, ro: rec.roInfinite ? UNBOUNDED_OHMS : rec.ro, rpi: Infinity, beta: Infinity };
+    const kb = (p.KP > 0 ? p.KP : 2e-5) * t.scale;
+    return { gm: Math.sqrt(2 * kb * Math.max(i, 0)), ro: mosRo(p.LAMBDA ?? 0, i), rpi: Infinity, beta: Infinity };
+  }
+
+  /** Resistance of the reference feed seen from the reference node (a current source is ideal). */
+  private feedOhms(): number {
+    const ref = this.s.reference;
+    if (ref.feed !== 'resistor') return UNBOUNDED_OHMS;
+    return ref.elements.reduce((sum, r) => {
+      const el = this.topo.elementByName.get(r);
+      return sum + (el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0);
+    }, 0);
+  }
+
   private outputResistance(): Record<string, number> {
     const res: Record<string, number> = {};
+    const par = (a: number, b: number) => (a >= UNBOUNDED_OHMS ? b : b >= UNBOUNDED_OHMS ? a : (a * b) / (a + b));
     for (const o of this.s.outputs) {
-      const t = this.t(o.device);
-      const p = t.element.model.params;
       const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;
       if (!(i > 0)) {
         res[o.device] = UNBOUNDED_OHMS;
         continue;
       }
+      const out = this.smallSignal(o.device, i);
+      const partnerName = (role: 'lower-partner' | 'lower-diode' | 'reference') => this.s.devices.find((d) => this.s.roles?.[d] === role);
       let r: number;
-      if (this.bipolar) {
-        const va = p.VAF ?? Infinity;
-        const ro = bjtRo(va, i);
-        const beta = p.BF ?? 100;
-        const gm = i / ((p.NF ?? 1) * thermalVolts(this.temperatureC));
-        const rpi = beta / gm;
-        switch (this.s.kind) {
-          case 'simple-mirror':
-          case 'widlar-source':
-            r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, rpi) : ro;
-            break;
-          case 'wilson-mirror':
-          case 'improved-wilson-mirror':
-            // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — Wilson Rout ≈ β·ro/2 (from memory).
-            r = (beta * ro) / 2;
-            break;
-          case 'cascode-mirror':
-            // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — bipolar cascode Rout of the order of β·ro (from memory).
-            r = beta * ro;
-            break;
-          default:
-            r = ro;
-        }
+      if (out.ro >= UNBOUNDED_OHMS) r = UNBOUNDED_OHMS;
+      else if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'helper-mirror') {
+        // Source: Gray et al., ch. 3/4 — ro·(1 + gm·(R2∥rπ)) + R2∥rπ for a degenerated output (from memory); plain ro otherwise.
+        r = o.degeneration ? degeneratedRo(out.ro, out.gm, o.degeneration.ohms, out.rpi) : out.ro;
+      } else if (this.bipolar) {
+        // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — Wilson Rout ≈ β·ro/2 (from memory). For the cascode
+        // mirror the reference-side diode returns the output's base-current change too, which halves the β·ro
+        // bound of a cascode with a fixed base bias: ≈ β·ro/2 (checked against the solver in the reference tests).
+        r = (out.beta * out.ro) / 2;
+      } else if (this.s.kind === 'cascode-mirror') {
+        // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + gm4·ro4·ro2 (body effect left out; from memory).
+        const low = partnerName('lower-partner');
+        const ro2 = low ? this.smallSignal(low, i).ro : out.ro;
+        r = ro2 >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro + ro2 + out.gm * out.ro * ro2;
       } else {
-        const lambda = p.LAMBDA ?? 0;
-        const ro = mosRo(lambda, i);
-        const kb = (p.KP ?? 2e-5) * t.scale;
-        const gm = Math.sqrt(2 * kb * i);
-        switch (this.s.kind) {
-          case 'simple-mirror':
-          case 'widlar-source':
-            r = o.degeneration ? degeneratedRo(ro, gm, o.degeneration.ohms, Infinity) : ro;
-            break;
-          case 'wilson-mirror':
-          case 'improved-wilson-mirror':
-          case 'cascode-mirror':
-            // Source: Razavi, ch. 5 — cascode Rout ≈ gm·ro² (the Wilson's feedback gives the same order, from memory).
-            r = ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : gm * ro * ro;
-            break;
-          default:
-            r = ro;
-        }
+        // MOS Wilson by its small-signal loop: the input device Q1 turns the lower diode's voltage change into
+        // a gate drive of the output through (ro1 ∥ R_feed): Rout ≈ ro3·(1 + gm3·(gm1/gm2)·(ro1 ∥ R_feed))
+        // (derived as in Gray et al., ch. 4 for the Wilson source; a resistor feed lowers it below gm·ro²).
+        const inputName = this.s.kind === 'wilson-mirror' ? this.s.reference.device : partnerName('lower-partner');
+        const diodeName = partnerName('lower-diode');
+        const iin = this.measured?.iref || this.s.estimate?.iref || i;
+        const q1 = inputName ? this.smallSignal(inputName, iin) : out;
+        const q2 = diodeName ? this.smallSignal(diodeName, i) : out;
+        const loopR = par(q1.ro, this.feedOhms());
+        r = loopR >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro * (1 + out.gm * (q2.gm > 0 ? q1.gm / q2.gm : 1) * loopR);
       }
-      res[o.device] = Number.isFinite(r) ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
+      res[o.device] = Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
     }
     return res;
   }
