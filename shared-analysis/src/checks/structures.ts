@@ -360,6 +360,8 @@ class StructureCheck {
     const tnoms = new Set(s.devices.map((d) => this.t(d).element.model.params.TNOM).filter((x) => x !== undefined));
     if (tnoms.size > 1) reasons.push('temperature mismatch (the models have different nominal temperatures)');
     const irefRow = rows.find((r) => r.key === 'IREF');
+    if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && s.reference.feed === 'mirror-output')
+      reasons.push(`IREF comes from ${s.reference.elements[0]} of ${s.reference.fedBy}, which delivers ${eng(irefRow.solved, 'A')} against ${eng(irefRow.est, 'A')} by hand (see that structure)`);
     if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && reasons.length === 0)
       reasons.push(`the reference branch: IREF ${eng(irefRow.est, 'A')} by hand against ${eng(irefRow.solved, 'A')} solved, so something else on the reference node draws or supplies current`);
     if (reasons.length === 0)

@@ -92,22 +92,22 @@ class Recogniser {
 
   /**
    * Stacked mirrors built on a lower pair: D diode-connected (collector = base = node B,
-   * emitter on the rail) and its partner N (base on B, emitter on the rail, collector elsewhere).
+   * emitter on the rail) and its partner N (base on B, emitter on the rail, collector on
+   * node C). IREF enters node A; O is the output. Arrows are collector ← base ties.
    *
    * ```
-   * Cascode mirror            Improved Wilson             Wilson
-   *   IREF      IOUT            IREF     IOUT               IREF    IOUT
-   *    A ┬──┐    │               A ┬──┬───┐│                 A ┬─┐   │
-   *   T ┤◄─┴─► O (base A)      T ┤◄─┘  O (base A)           N  │  O (base A)
-   *   (diode)   │               (diode)   │                (c=A)└─► │
-   *    │        │                 │       │                  │      │
-   *   B ┬─┐     C                 C       B ┬─┐              N      B ┬─┐
-   *   D ┤◄┴──► N (base B)       N (base B) D ┤◄┘          (base B) D ┤◄┘
-   *    rail    rail              rail      rail             rail   rail
+   * Cascode mirror              Improved Wilson             Wilson
+   *  IREF→A          IOUT        IREF→A         IOUT         IREF→A        IOUT
+   *       │           │               │           │               │          │
+   *   T: c=b=A ─ base A: O        T: c=b=A ─ base A: O        N: c=A    base A: O
+   *      e=B        e=C              e=C        e=B            b=B         e=B
+   *   D: c=b=B ─ base B: N        N: c=C, b=B   D: c=b=B      e=rail    D: c=b=B
+   *      e=rail     c=C, e=rail      e=rail        e=rail                 e=rail
    * ```
-   * Cascode: T diode-connected on node A with its emitter on B; output O has base A and
-   * emitter on N's collector C. Improved Wilson: O's emitter is on B, T's emitter on N's
-   * collector C, both bases on A. Wilson: O's base is N's collector A (no T), O's emitter on B.
+   * Cascode: the reference side stacks two diode-connected devices (T on D); the output O
+   * sits on N. Improved Wilson: O's emitter is on D's node B and the diode-connected T
+   * balances N's collector voltage; both bases on A. Wilson: no T; N's collector is A and
+   * drives O's base, O's emitter feeds D.
    */
   private matchStacked(d: Transistor): Draft | undefined {
     const b = d.ctrl;
@@ -178,13 +178,9 @@ class Recogniser {
    * collector A drives the base of a follower H whose emitter supplies the shared base
    * node B and whose collector sits on a rail.
    * ```
-   *        rail
-   *   IREF  │
-   *    A ┬─► H (base A, emitter B, collector on a rail)
-   *      │   │
-   *      R   B ──┬── bases of R and of every output O
-   *      │       │
-   *    rail     O (emitter on R's emitter node)
+   *   IREF→A                       rail
+   *        │                         │
+   *   R: c=A, b=B, e=E      H: c=rail, b=A, e=B      O: c=out, b=B, e=E   (one or more O)
    * ```
    * Node B must carry no diode-connected device (that would be a Wilson-like stack). A MOS
    * helper also needs something on B that conducts at DC (a resistor or current source
@@ -221,11 +217,8 @@ class Recogniser {
    * Further diode-connected devices on A with emitters on E are paralleled reference
    * devices. No output, no structure.
    * ```
-   *   IREF        IOUT           IOUT (Widlar)
-   *    A ┬───┬─────┐              │
-   *   D ┤◄───┴──► O (base A)     O (base A)
-   *    E ────────── E            R2
-   *                              E
+   *   IREF→A
+   *   D: c=b=A, e=E        O: c=out, b=A, e=E        O (Widlar): c=out, b=A, e=X;  R2 from X to E
    * ```
    */
   private matchSimple(d: Transistor): Draft | undefined {

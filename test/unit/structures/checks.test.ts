@@ -271,6 +271,32 @@ describe('estimate-differs-from-solved', () => {
   });
 });
 
+describe('chained mirrors', () => {
+  it('a fed mirror takes IREF from the feeding estimate and blames the feed when that is off', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .model('qp', 'pnp')
+      .model('qp2', 'pnp', { IS: 2e-16 })
+      .r('R1', 'p1', '0', 10e3)
+      .q('QP1', 'p1', 'p1', 'vcc', 'qp')
+      .q('QP2', 'n1', 'p1', 'vcc', 'qp2')
+      .q('QN1', 'n1', 'n1', '0', 'qn')
+      .q('QN2', 'out', 'n1', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    const { structures } = check(b, [
+      { code: 'mirror-unmatched', at: 'QP2' },
+      { code: 'estimate-differs-from-solved', at: 'QP2', says: [/unmatched devices/] },
+      { code: 'estimate-differs-from-solved', at: 'QN2', says: [/IREF comes from QP2 of simple-mirror:QP1/] },
+    ]);
+    const p = structures.find((x) => x.id === 'simple-mirror:QP1')!;
+    const n = structures.find((x) => x.id === 'simple-mirror:QN1')!;
+    // Source: the fed reference's IREF is the feeding output's estimate (Gray et al., ch. 4, mirrors in cascade).
+    expect(n.estimate!.iref).toBe(p.estimate!.iout.QP2);
+    expect(n.estimate!.irefFrom).toBe('mirror-output');
+  });
+});
+
 describe('structure-analysis-incomplete', () => {
   it('a stale structure naming a device the circuit no longer has gets a located finding, not a crash', () => {
     const circuit = npnMirror(1e3).build();
