@@ -169,6 +169,19 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const elements = new Map<string, Element>();
   for (const e of circuit.elements) elements.set(e.name, e);
 
+  // One note per circuit: the corner solves are shared by every structure.
+  const first = elements.get(structures[0].reference.device);
+  if (failed.length > 0 && first) {
+    findings.push({
+      code: 'corner-no-convergence',
+      severity: CORNER_CODES['corner-no-convergence'].severity,
+      message: `The operating point did not converge at ${failed.length} of ${specs.length} corners (${listLabels(failed)}), so the corner checks of every structure leave them out.`,
+      uri: first.origin.uri,
+      span: first.origin.span,
+      data: { corners: failed, cornersTotal: specs.length },
+    });
+  }
+
   for (const s of structures) {
     // measureStructure reads only the structure's own devices and the node table; measuring on a
     // circuit view holding just those devices keeps its per-call indexing small (corners × structures calls).
@@ -176,19 +189,6 @@ export function runCorners(ctx: CornerContext): Finding[] {
     const view: Circuit = { ...circuit, elements: circuit.elements.filter((e) => own.has(e.name.toLowerCase())) };
     const nominalM = measureStructure(view, nominal.op, s);
     s.corners = solved.map(({ spec, result }) => toCornerResult(spec, result ? measureStructure(view, result.op, s) : undefined, s));
-    if (failed.length > 0) {
-      const ref = elements.get(s.reference.device);
-      if (ref) {
-        findings.push({
-          code: 'corner-no-convergence',
-          severity: CORNER_CODES['corner-no-convergence'].severity,
-          message: `The operating point did not converge at ${failed.length} of ${specs.length} corners (${listLabels(failed)}), so the corner checks of the structure around ${s.reference.device} leave them out.`,
-          uri: ref.origin.uri,
-          span: ref.origin.span,
-          data: { structureId: s.id, corners: failed },
-        });
-      }
-    }
     for (const o of s.outputs) {
       const sweep = sweepOf(o.device, s, nominalM);
       const el = elements.get(o.device);

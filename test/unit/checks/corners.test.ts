@@ -135,6 +135,28 @@ describe('runCorners', () => {
     expect(b).toEqual(a);
   });
 
+  it('reports corners that do not converge once, and leaves them out of the checks', () => {
+    const root = parse(URI, cell('6k'), { hasTitle: true });
+    const { circuit } = elaborate(root, new MemoryWorkspace({}), {});
+    const real = new DcSolver(circuit);
+    const nominal = real.solve({});
+    // A solver double that fails at the hot corners, as a circuit with a runaway at 125 °C would.
+    const failingHot = {
+      solve: (o: Parameters<DcSolver['solve']>[0] = {}) => {
+        const r = real.solve(o);
+        return o.temperatureC === 125 ? { ...r, op: { ...r.op, converged: false } } : r;
+      },
+    } as unknown as DcSolver;
+    const structures = recogniseStructures(circuit);
+    const findings = runCorners({ circuit, solver: failingHot, structures, options: resolveOptions({}), nominal });
+    const notes = findings.filter((f) => f.code === 'corner-no-convergence');
+    expect(notes).toHaveLength(1);
+    expect(notes[0].message).toContain('did not converge at 9 of 26 corners');
+    expect(structures[0].corners.filter((c) => !c.converged)).toHaveLength(9);
+    // The saturating corners were all hot, so with them gone nothing is out of region.
+    expect(findings.some((f) => f.code === 'corner-output-out-of-region')).toBe(false);
+  });
+
   it('does nothing when corners are disabled', () => {
     expect(run(cell('6k'), { corners: { enabled: false } }).findings).toEqual([]);
   });
