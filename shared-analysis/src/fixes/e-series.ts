@@ -6,10 +6,13 @@ export type SeriesName = 'E12' | 'E24' | 'E48' | 'E96' | 'E192';
 /** Every supported series, coarsest first. */
 export const SERIES_NAMES: readonly SeriesName[] = ['E12', 'E24', 'E48', 'E96', 'E192'];
 
-// The tables are typed in from IEC 60063:2015 (Tables 1 and 2) as integers in units of the last
-// significant figure, so that no decimal rounding creeps in. The standard's tables are normative:
-// for E24, eight values (2.7 3.0 3.3 3.6 3.9 4.3 4.7 8.2) differ from round(10^(i/24), 1), and in
-// E192 the value 9.20 differs from round(10^(185/192), 2) = 9.19.
+// The tables are the IEC 60063:2015 series values, written as integers in units of the last
+// significant figure so that no decimal rounding creeps in. They were typed in from memory (the
+// standard itself was not at hand) and cross-checked: the E48/E96/E192 entries agree with
+// round(10^(i/N), 2) everywhere except E192's 9.20 (the formula gives 9.19), which the standard
+// keeps; E96 is every second E192 value and E48 every second E96 value; and E24 differs from
+// round(10^(i/24), 1) exactly at the eight values the standard is known for (2.7 3.0 3.3 3.6 3.9
+// 4.3 4.7 8.2). The tables, not the formula, are normative.
 
 const E12_TENTHS = [10, 12, 15, 18, 22, 27, 33, 39, 47, 56, 68, 82];
 
