@@ -92,6 +92,13 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
     const o = elements[t.element]!.origin;
     return { uri: o.uri, span: o.nodeSpans?.[t.slot] ?? o.span };
   };
+  /** Where an element inside a subcircuit was instantiated from, so a node can be traced to the X card. */
+  const viaInstance = (t: Terminal): RelatedLocation[] => {
+    const chain = elements[t.element]!.origin.instances;
+    if (chain.length === 0) return [];
+    const outer = chain[0]!;
+    return [{ uri: outer.uri, span: outer.span, message: `\`${elements[t.element]!.name}\` is flattened from instance \`${chain.map((c) => c.name).join('.')}\`.` }];
+  };
   const cardOf = (i: number): { uri: string; span: Span } => ({ uri: elements[i]!.origin.uri, span: elements[i]!.origin.span });
   const nameNodes = (list: number[]): string => {
     const shown = list.slice(0, MAX_NAMED).map((k) => `\`${nodes[k]}\``);
@@ -198,7 +205,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
             message:
               `${subject} ${plural ? 'have' : 'has'} no DC path to ground: capacitors are open at DC, and MOSFET gates and controlled-source inputs draw no current, so the ${plural ? 'voltages are' : 'voltage is'} not determined.${single}`,
             ...at,
-            related,
+            related: [...viaInstance(first[group[0]!]!), ...related],
             data: { nodes: group.slice(0, 100).map((k) => nodes[k]) },
           });
         }
@@ -216,6 +223,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
       severity: netlistSeverity('node-single-connection'),
       message: `Node \`${nodes[k]}\` connects only to \`${e.name}\`; a node with one terminal is usually a typo in a node name or a missing connection.`,
       ...terminalAt(t),
+      ...(e.origin.instances.length > 0 ? { related: viaInstance(t) } : {}),
       data: { node: nodes[k], element: e.name },
     });
   }

@@ -498,7 +498,7 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
   };
   const finite = (v: number, node: MathNode, what: string): number => {
     if (!Number.isFinite(v)) {
-      throw new Failure({ message: `${what} is not a finite number (${String(v)}).`, span: spanOf(node) });
+      throw new Failure({ message: `${what} ${nonFinite(v)}.`, span: spanOf(node) });
     }
     return v;
   };
@@ -575,7 +575,7 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
   };
   try {
     const v = ev(expr.root);
-    if (!Number.isFinite(v)) return { ok: false, error: { message: `The expression's result is not a finite number (${String(v)}).`, span: whole } };
+    if (!Number.isFinite(v)) return { ok: false, error: { message: `The expression's result ${nonFinite(v)}.`, span: whole } };
     return { ok: true, value: v };
   } catch (e) {
     if (e instanceof Failure) return { ok: false, error: e.error };
@@ -762,6 +762,11 @@ export class ParamScope {
       },
     };
   }
+}
+
+/** Says why a value is not a usable number, without showing NaN or Infinity to the user. */
+function nonFinite(v: number): string {
+  return Number.isNaN(v) ? 'has no real value (it is not a finite number)' : 'is not a finite number (it overflows)';
 }
 
 /** Equality with the relative and absolute tolerances mathjs uses by default (1e-12, 1e-15). */

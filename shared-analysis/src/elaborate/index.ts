@@ -6,6 +6,7 @@ import type { Assignment, ElementCard, ModelCard, ParsedDocument, Token } from '
 import type { Finding, Span, Workspace } from '../types';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
+import { formatEngineering } from '../fixes/format';
 import { Sink } from './sink';
 import { readSources, type Body, type Located, type SubcktDef } from './sources';
 import { expressionOf, tokenValue, type ValueResult } from './values';
@@ -238,7 +239,7 @@ class Elaborator {
     const v = tokenValue(tok, inst.scope, uri);
     if (v.ok) {
       if (Math.abs(v.value) > 1e15) {
-        this.sink.add('value-out-of-range', `${capitalise(what)} is ${v.value}, beyond 1e15 in magnitude; check the suffix (M is milli, MEG is mega).`, uri, tok.span, undefined, { value: v.value });
+        this.sink.add('value-out-of-range', `${capitalise(what)} is ${formatEngineering(v.value)}, beyond 1e15 in magnitude; check the suffix (M is milli, MEG is mega).`, uri, tok.span, undefined, { value: v.value });
       }
       return v.value;
     }
@@ -319,7 +320,7 @@ class Elaborator {
         if (v === 0) {
           this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω; it is kept and solved as a short circuit. Use a wire (the same node name) if a short is meant.`, uri, card.value.span);
         } else if (v < 0) {
-          this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${v} Ω; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
+          this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
         }
         element = { ...base, kind: 'R', resistance: v / m };
         break;
@@ -452,12 +453,12 @@ class Elaborator {
     const v = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``, '10 µm is used so the analysis continues.');
     if (v === undefined) return DEFAULT_MOS_SIZE;
     if (v <= 0) {
-      this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${v} m; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
+      this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
       return DEFAULT_MOS_SIZE;
     }
     if (v < 1e-9 || v > 1) {
       const hint = v > 1 ? ` If ${v} µm is meant, write ${a.value.text}u.` : '';
-      this.sink.add('value-out-of-range', `${which} of \`${card.name.text}\` is ${v} m, outside 1 nm to 1 m; a size is given in metres.${hint}`, uri, a.value.span, undefined, { value: v });
+      this.sink.add('value-out-of-range', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}, outside 1 nm to 1 m; a size is given in metres.${hint}`, uri, a.value.span, undefined, { value: v });
     }
     return v;
   }

@@ -2,6 +2,9 @@
 import { describe, expect, it } from 'vitest';
 import { MODEL_DEFAULTS, type Circuit, type Element, type Model } from '../../../shared-analysis/src/circuit';
 import { checkConnectivity } from '../../../shared-analysis/src/checks/connectivity';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 
 const NPN: Model = { name: 'qn', kind: 'npn', params: { ...MODEL_DEFAULTS.npn }, given: [], origin: { uri: 't', span: { start: 0, end: 1 }, instances: [] } };
 const NMOS: Model = { name: 'mn', kind: 'nmos', params: { ...MODEL_DEFAULTS.nmos }, given: [], origin: { uri: 't', span: { start: 0, end: 1 }, instances: [] } };
@@ -137,6 +140,17 @@ describe('checkConnectivity', () => {
   it('joins BJT terminals and MOSFET drain, source and bulk', () => {
     check(['V V1 a 0 5', 'R R1 a c 1000', 'Q Q1 c b e', 'R R2 e 0 100', 'R R3 b 0 1000'], []);
     check(['V V1 a 0 5', 'R R1 a d 1000', 'M M1 d a s s', 'R R2 s 0 100'], []);
+  });
+
+  it('traces a dangling node inside a subcircuit back to its instance card', () => {
+    const text = 'traced\n.subckt pad a b\nR1 a b 1k\n.ends\nV1 n 0 5\nR0 n 0 1k\nX1 n open pad\n';
+    const circuit = elaborate(parse('/t.cir', text, { hasTitle: true }), new MemoryWorkspace()).circuit;
+    const findings = checkConnectivity(circuit);
+    expect(findings.map((f) => f.code)).toEqual(['node-single-connection']);
+    const f = findings[0]!;
+    expect(text.slice(f.span.start, f.span.end)).toBe('b'); // the inner card's node token
+    expect(f.message).toContain('`open` connects only to `X1.R1`');
+    expect(text.slice(f.related![0]!.span.start, f.related![0]!.span.end)).toBe('X1 n open pad');
   });
 
   it('stays linear on a long ladder', () => {
