@@ -66,7 +66,7 @@ describe('the table is normative, not the rounding formula', () => {
     expect(differing).toEqual([9.2]);
   });
 
-  // Source: IEC 60063:2015 — E48 and E96 follow round(10^(i/N), 2) throughout (the 9.20 exception is E192-only).
+  // Source: IEC 60063:2015 — E48 and E96 follow round(10^(i/N), 2) throughout (the 9.20 exception is E192-only); from memory.
   it('E48 and E96 follow the three-figure formula', () => {
     for (const s of ['E48', 'E96'] as const) {
       const v = seriesValues(s);
@@ -83,7 +83,7 @@ describe('order and nesting', () => {
     }
   });
 
-  // Source: IEC 60063:2015 — each series is every second value of the next finer one within a family.
+  // Source: IEC 60063:2015 — each series is every second value of the next finer one within a family; from memory.
   it('E12 ⊂ E24 and E48 ⊂ E96 ⊂ E192', () => {
     for (const v of seriesValues('E12')) expect(has('E24', v)).toBe(true);
     for (const v of seriesValues('E48')) expect(has('E96', v)).toBe(true);
