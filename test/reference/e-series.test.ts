@@ -33,7 +33,7 @@ describe('IEC 60063:2015 tables', () => {
   it('E48 has 48 values per decade', () =>
     check('E48', { count: 48, contains: [1.0, 1.05, 1.1, 1.21, 1.47, 2.15, 3.32, 4.64, 6.81, 9.53], absent: [1.02, 9.76] }));
 
-  // Source: IEC 60063:2015, Table 2; the run 1.00 1.02 1.05 1.07 1.10 … 9.53 9.76 is also in REFERENCES.md.
+  // Source: IEC 60063:2015, Table 2 (from memory); the run 1.00 1.02 1.05 1.07 1.10 … 9.53 9.76 is also in REFERENCES.md.
   it('E96 has 96 values per decade', () =>
     check('E96', { count: 96, contains: [1.0, 1.02, 1.05, 1.07, 1.1, 2.49, 4.99, 8.06, 9.53, 9.76], absent: [1.01, 9.88] }));
 
@@ -51,8 +51,8 @@ describe('IEC 60063:2015 tables', () => {
 });
 
 describe('the table is normative, not the rounding formula', () => {
-  // Source: IEC 60063:2015, Table 1 and its note that the E24 values 2.7 … 4.7 and 8.2 were kept
-  // from historical practice; REFERENCES.md lists the same eight values.
+  // Source: IEC 60063:2015, Table 1 (from memory); REFERENCES.md lists the same eight values as the
+  // ones the rounding formula does not give.
   it('E24 differs from round(10^(i/24), 1) exactly at 2.7 3.0 3.3 3.6 3.9 4.3 4.7 8.2', () => {
     const v = seriesValues('E24');
     const differing = v.filter((x, i) => Math.abs(Math.round(10 ** (i / 24) * 10) / 10 - x) > 1e-9);
