@@ -38,6 +38,15 @@
  * sets how far the current may move across supply, temperature and beta corners; without it the
  * corners are checked against the nominal tolerance and reported as information only.
  *
+ * What is reported:
+ *   target-unreadable       the annotation cannot be read (located on the part that is wrong)
+ *   target-not-applicable   no such element, or one without a DC current (capacitor, X instance)
+ *   target-missed           nominal current outside the tolerance: a warning, an error beyond
+ *                           three times the tolerance; the fix offers standard values for the
+ *                           resistor that sets the current (reference or Widlar emitter resistor)
+ *   target-missed-at-corner nominal on target, some corner outside (only for elements of a
+ *                           recognised mirror: its outputs, reference device and resistors)
+ *
  * Examples:
  *   * expect QOUT = 2mA ±10% corners ±25%
  *   R2 e2 0 1.2k ; expect 100uA
