@@ -129,6 +129,27 @@ describe('mirror-output-out-of-region', () => {
   });
 });
 
+describe('mirror-output-out-of-region: cut off', () => {
+  it('an output whose threshold is above the reference VGS is cut off, and no load advice is given', () => {
+    const b = new CircuitBuilder()
+      .v('VDD', 'vdd', '0', 3.3)
+      .model('na', 'nmos', { KP: 1e-4, VTO: 0.5 })
+      .model('nb', 'nmos', { KP: 1e-4, VTO: 2 })
+      .i('IB', 'vdd', 'g', 50e-6)
+      .mos('M1', 'g', 'g', '0', '0', 'na', { w: 1e-6, l: 1e-6 })
+      .mos('M2', 'd', 'g', '0', '0', 'nb', { w: 1e-6, l: 1e-6 })
+      .r('RL', 'vdd', 'd', 10e3);
+    const { findings } = check(b, [
+      { code: 'mirror-unmatched', at: 'M2', says: [/VTO \(2 vs 0\.5\)/, /−100 %/] },
+      { code: 'mirror-output-out-of-region', at: 'M2', says: [/is cut off at the operating point \(VGS = 1\.5 V\)/] },
+      { code: 'estimate-differs-from-solved', at: 'M2', says: [/M2 is out of its active region/] },
+    ]);
+    const f = findings.find((x) => x.code === 'mirror-output-out-of-region')!;
+    expect(f.message).not.toMatch(/Keep V/);
+    expect((f.data as Record<string, unknown>).region).toBe('cutoff');
+  });
+});
+
 describe('mirror-headroom-low', () => {
   it('an output 0.1–0.3 V above its edge warns, with the margin from the options', () => {
     const { findings, structures } = check(npnMirror(4.2e3), [{ code: 'mirror-headroom-low', at: 'Q2', says: [/0\.\d+ V of headroom, under the 0\.3 V margin/, /stricter than the textbook VCE\(sat\)/] }]);
