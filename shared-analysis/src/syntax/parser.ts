@@ -1,42 +1,9 @@
 // Hand-written, linear-time scanner and parser for the netlist dialect: text in, lossless cards with spans and located errors out.
 
 /*
- * Codes reported in `ParsedDocument.errors` (stable; severity in brackets):
- *
- *   title-looks-like-card        [hint]    The first line is read as the title, but it reads like an element or dot card.
- *   continuation-without-card    [error]   A `+` line with no element or dot card before it to continue.
- *   unrecognised-card            [error]   A line that starts with neither an element letter, a dot command, `*` nor `+`.
- *   unknown-element-letter       [error]   An element whose first letter is not one of R C L V I E F G H D Q M X.
- *   element-missing-fields       [error]   An element card with fewer fields than its letter needs.
- *   missing-model-name           [error]   A D, Q or M card whose fields hold no model name where one is needed.
- *   unsupported-source-form      [error]   A source form qpoint does not read (POLY, VALUE=, TABLE, unknown functions, PWL from a file).
- *   source-missing-value         [error]   `DC` with no value after it, or a transient function with no t=0 argument.
- *   unexpected-field             [warning] A field beyond those the card uses; it is ignored.
- *   ignored-keyword              [hint]    An initial-condition keyword (`OFF`) that a DC bias analysis does not use.
- *   unbalanced-brace             [error]   A `{` with no matching `}` on its line, or a stray `}`.
- *   unterminated-quote           [error]   A `'` or `"` with no closing quote on its line.
- *   unbalanced-parenthesis       [warning] A `(` with no matching `)` in the card, or a stray `)`.
- *   assignment-missing-value     [error]   `name=` with nothing after the `=`, or a `.model` parameter written without `=value`.
- *   assignment-missing-name      [error]   `=value` with no name before the `=`.
- *   model-missing-fields         [error]   `.model` without a model name and a device type.
- *   subckt-missing-name          [error]   `.subckt` without a subcircuit name.
- *   subckt-missing-ends          [error]   A `.subckt` that no `.ends` closes before the end of the file (or `.end`).
- *   ends-without-subckt          [error]   `.ends` with no open `.subckt`.
- *   ends-name-mismatch           [warning] `.ends NAME` where NAME is not the subcircuit being closed.
- *   param-missing-assignment     [error]   A `.param` field without `=value`, or a `.param` card with no assignments.
- *   include-missing-path         [error]   `.include` without a file path.
- *   lib-missing-fields           [error]   `.lib` without a path or section name.
- *   lib-section-missing-endl     [error]   A library section (`.lib NAME` in a library file) that no `.endl` closes.
- *   endl-without-lib-section     [warning] `.endl` with no open library section.
- *   endl-name-mismatch           [warning] `.endl NAME` where NAME is not the section being closed.
- *   temp-missing-value           [error]   `.temp` without a temperature.
- *   text-after-end               [hint]    Non-blank text after `.end`; it is not read.
- *   too-many-problems            [warning] A card with more than 25 problems; only the first 25 are listed.
- *
- * Every ErrorCard's message is also in `errors`, with its code and the ErrorCard's errorSpan. The codes
- * that turn a card into an ErrorCard are continuation-without-card, unrecognised-card,
- * unknown-element-letter, element-missing-fields, missing-model-name, unsupported-source-form,
- * model-missing-fields and subckt-missing-name; the others leave the card readable.
+ * The codes this parser reports, with their severities and summaries, are listed once in ./codes.ts
+ * (SYNTAX_CODES); every finding takes its severity from there. The codes that turn a card into an
+ * ErrorCard are those passed to errorCard(); its message is also in `errors`, with the ErrorCard's errorSpan.
  */
 
 import type {
@@ -54,8 +21,8 @@ import type {
   Token,
 } from './ast';
 import type { Span } from '../types';
+import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 
-type ErrorSeverity = NonNullable<SyntaxError['severity']>;
 
 /** The element letters qpoint reads, in the order messages list them. */
 const ELEMENT_LETTERS = 'RCLVIEFGHDQMX';
@@ -209,7 +176,6 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
       'subckt-missing-ends',
       `Subcircuit '${name}' is never closed: add '.ends ${name}' after its last card.`,
       open.span,
-      'error',
     );
   }
   for (const open of ctx.sections) {
@@ -220,7 +186,6 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
       'lib-section-missing-endl',
       `Library section '${name}' is never closed: add '.endl ${name}' after its last card (until then every later card belongs to it).`,
       open.span,
-      'error',
     );
   }
   return { uri, text, cards, errors: ctx.errors };
@@ -257,7 +222,8 @@ function isWordBreak(c: number): boolean {
   return c === 44 || c === 61 || c === 40 || c === 41 || c === 123 || c === 125 || c === 59;
 }
 
-function addError(ctx: Context, code: string, message: string, span: Span, severity: ErrorSeverity): void {
+/** Records a finding with the severity SYNTAX_CODES gives `code`; past the per-card cap, one too-many-problems note instead. */
+function addError(ctx: Context, code: SyntaxCode, message: string, span: Span): void {
   const n = ++ctx.cardProblems;
   if (n > MAX_PROBLEMS_PER_CARD + 1) return;
   if (n === MAX_PROBLEMS_PER_CARD + 1) {
@@ -265,11 +231,11 @@ function addError(ctx: Context, code: string, message: string, span: Span, sever
       code: 'too-many-problems',
       message: `This card has more than ${MAX_PROBLEMS_PER_CARD} problems; only the first ${MAX_PROBLEMS_PER_CARD} are listed.`,
       span: { start: span.start, end: span.end },
-      severity: 'warning',
+      severity: syntaxSeverity('too-many-problems'),
     });
     return;
   }
-  ctx.errors.push({ code, message, span: { start: span.start, end: span.end }, severity });
+  ctx.errors.push({ code, message, span: { start: span.start, end: span.end }, severity: syntaxSeverity(code) });
 }
 
 function reportTextAfterEnd(ctx: Context, from: number): void {
@@ -279,7 +245,7 @@ function reportTextAfterEnd(ctx: Context, from: number): void {
   if (start >= text.length) return;
   let end = text.length;
   while (end > start && isBlankOrBreak(text.charCodeAt(end - 1))) end--;
-  addError(ctx, 'text-after-end', 'Text after .end is not read; move it above .end or delete it.', { start, end }, 'hint');
+  addError(ctx, 'text-after-end', 'Text after .end is not read; move it above .end or delete it.', { start, end });
 }
 
 function isBlankOrBreak(c: number): boolean {
@@ -311,7 +277,6 @@ function titleCard(ctx: Context, start: number, end: number): Card {
       'title-looks-like-card',
       `The first line is read as the netlist's title, so '${shorten(title)}' is not read as a card; put a title line above it if it is meant as a card.`,
       { start: bodyStart, end: bodyEnd },
-      'hint',
     );
   }
   return { kind: 'title', span: { start, end }, tokens: [], text: title };
@@ -399,7 +364,7 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       continue;
     }
     if (c === 125 /* } */) {
-      addError(ctx, 'unbalanced-brace', "This '}' closes no '{'; delete it or add the matching '{'.", { start: i, end: i + 1 }, 'error');
+      addError(ctx, 'unbalanced-brace', "This '}' closes no '{'; delete it or add the matching '{'.", { start: i, end: i + 1 });
       i++;
       continue;
     }
@@ -456,7 +421,6 @@ function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[]): number {
     'unbalanced-brace',
     `This expression opens ${depth === 1 ? "a '{'" : `${depth} '{'`} that ${depth === 1 ? 'is' : 'are'} not closed on this line; add the missing '}'.`,
     { start: s, end: e },
-    'error',
   );
   out.push({ type: 'expr', start: s, end: e, token: undefined });
   return to;
@@ -474,7 +438,7 @@ function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'wo
   let e = to;
   while (e > s + 1 && isSpace(text.charCodeAt(e - 1))) e--;
   const q = String.fromCharCode(quote);
-  addError(ctx, 'unterminated-quote', `This ${q} is not closed on its line; add the closing ${q}.`, { start: s, end: e }, 'error');
+  addError(ctx, 'unterminated-quote', `This ${q} is not closed on its line; add the closing ${q}.`, { start: s, end: e });
   out.push({ type, start: s, end: e, token: undefined });
   return to;
 }
@@ -512,14 +476,13 @@ function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
           'assignment-missing-value',
           `'${name.text}=' has no value after the '='; write ${name.text}=<value>.`,
           { start: l.start, end: lx[i + 1].end },
-          'error',
         );
         i += 2;
       }
       continue;
     }
     if (l.type === 'eq') {
-      addError(ctx, 'assignment-missing-name', "This '=' has no parameter name before it; write <name>=<value>.", { start: l.start, end: l.end }, 'error');
+      addError(ctx, 'assignment-missing-name', "This '=' has no parameter name before it; write <name>=<value>.", { start: l.start, end: l.end });
       // The field after a nameless `=` is its value, not a field of its own.
       i += isField(lx[i + 1]) && lx[i + 2]?.type !== 'eq' ? 2 : 1;
       continue;
@@ -538,11 +501,11 @@ function checkParentheses(ctx: Context, lx: Lexeme[]): void {
     if (l.type === 'lp') open.push(l);
     else if (l.type === 'rp') {
       if (open.length > 0) open.pop();
-      else addError(ctx, 'unbalanced-parenthesis', "This ')' closes no '('; it is ignored.", { start: l.start, end: l.end }, 'warning');
+      else addError(ctx, 'unbalanced-parenthesis', "This ')' closes no '('; it is ignored.", { start: l.start, end: l.end });
     }
   }
   for (const l of open) {
-    addError(ctx, 'unbalanced-parenthesis', "This '(' is never closed in its card; add the matching ')'.", { start: l.start, end: l.end }, 'warning');
+    addError(ctx, 'unbalanced-parenthesis', "This '(' is never closed in its card; add the matching ')'.", { start: l.start, end: l.end });
   }
 }
 
@@ -588,14 +551,19 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   return parseElement(ctx, head.tok, items, span, tokens);
 }
 
-function errorCard(ctx: Context, code: string, message: string, span: Span, tokens: Token[], errorSpan: Span): ErrorCard {
+/** The codes that make a card unreadable; each has severity 'error' in SYNTAX_CODES. */
+type ErrorCardCode = {
+  [C in SyntaxCode]: (typeof SYNTAX_CODES)[C]['severity'] extends 'error' ? C : never;
+}[SyntaxCode];
+
+function errorCard(ctx: Context, code: ErrorCardCode, message: string, span: Span, tokens: Token[], errorSpan: Span): ErrorCard {
   // An error card's own message is always listed, however many problems its line had.
-  ctx.errors.push({ code, message, span: { start: errorSpan.start, end: errorSpan.end }, severity: 'error' });
+  ctx.errors.push({ code, message, span: { start: errorSpan.start, end: errorSpan.end }, severity: syntaxSeverity(code) });
   return { kind: 'error', span, tokens, message, errorSpan };
 }
 
 function unexpected(ctx: Context, owner: string, tok: Token, what: string): void {
-  addError(ctx, 'unexpected-field', `${owner}: '${shorten(tok.text)}' is one field more than ${what}; it is ignored.`, tok.span, 'warning');
+  addError(ctx, 'unexpected-field', `${owner}: '${shorten(tok.text)}' is one field more than ${what}; it is ignored.`, tok.span);
 }
 
 /** True for a token that reads as a value rather than a name: a number or a braced/quoted expression. */
@@ -896,7 +864,7 @@ function dropOff(ctx: Context, owner: string, pos: Token[], nodeCount: number): 
   for (let j = 0; j < pos.length; j++) {
     const t = pos[j];
     if (j > nodeCount && t.kind === 'word' && t.text.toUpperCase() === 'OFF') {
-      addError(ctx, 'ignored-keyword', `${owner}: 'OFF' only sets a starting guess, which a DC bias analysis does not use; it is ignored.`, t.span, 'hint');
+      addError(ctx, 'ignored-keyword', `${owner}: 'OFF' only sets a starting guess, which a DC bias analysis does not use; it is ignored.`, t.span);
       continue;
     }
     kept.push(t);
@@ -942,7 +910,7 @@ function parseSource(
         else dc = nx.tok;
         j++;
       } else if (!dc) {
-        addError(ctx, 'source-missing-value', `${owner}: 'DC' needs a value after it (DC 5).`, t.span, 'error');
+        addError(ctx, 'source-missing-value', `${owner}: 'DC' needs a value after it (DC 5).`, t.span);
       }
       dcKeyword = true;
       continue;
@@ -989,7 +957,7 @@ function parseSource(
       transient = { fn: t, value: args[idx] };
       if (!args[idx]) {
         const what = u === 'PWL' ? 'a first (time, value) pair' : 'a first argument';
-        addError(ctx, 'source-missing-value', `${owner}: ${t.text}(...) needs ${what} to give the source's value at t=0.`, t.span, 'error');
+        addError(ctx, 'source-missing-value', `${owner}: ${t.text}(...) needs ${what} to give the source's value at t=0.`, t.span);
       }
       continue;
     }
@@ -1012,7 +980,6 @@ function parseSource(
       'unexpected-field',
       `${owner}: '${shorten(bare.text)}' and DC ${shorten(dc.text)} both give the DC value; DC ${shorten(dc.text)} is used and '${shorten(bare.text)}' is ignored.`,
       bare.span,
-      'warning',
     );
   }
   let source: SourceValue;
@@ -1037,7 +1004,7 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
   }
   const noAssignments = (what: string): void => {
     for (const a of asgs) {
-      addError(ctx, 'unexpected-field', `${command.text}: '${shorten(a.name.text)}=...' is one field more than ${what}; it is ignored.`, a.span, 'warning');
+      addError(ctx, 'unexpected-field', `${command.text}: '${shorten(a.name.text)}=...' is one field more than ${what}; it is ignored.`, a.span);
     }
   };
   switch (cmd) {
@@ -1058,17 +1025,16 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
           'assignment-missing-value',
           `.model ${shorten(pos[0].text)}: parameter '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`,
           t.span,
-          'error',
         );
       }
       return { kind: 'model', span, tokens, name: pos[0], type: pos[1], params: asgs };
     }
     case '.param': {
       for (const t of pos) {
-        addError(ctx, 'param-missing-assignment', `.param: '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`, t.span, 'error');
+        addError(ctx, 'param-missing-assignment', `.param: '${shorten(t.text)}' has no value; write ${shorten(t.text)}=<value>.`, t.span);
       }
       if (tokens.length === 1) {
-        addError(ctx, 'param-missing-assignment', '.param has no assignments; write .param name=value.', command.span, 'error');
+        addError(ctx, 'param-missing-assignment', '.param has no assignments; write .param name=value.', command.span);
       }
       return { kind: 'param', span, tokens, params: asgs };
     }
@@ -1099,14 +1065,13 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       const open = ctx.subckts.pop();
       const name = pos[0];
       if (!open) {
-        addError(ctx, 'ends-without-subckt', '.ends closes no subcircuit: there is no open .subckt before it.', name ? { start: command.span.start, end: name.span.end } : command.span, 'error');
+        addError(ctx, 'ends-without-subckt', '.ends closes no subcircuit: there is no open .subckt before it.', name ? { start: command.span.start, end: name.span.end } : command.span);
       } else if (name && name.text.toLowerCase() !== open.name.text.toLowerCase()) {
         addError(
           ctx,
           'ends-name-mismatch',
           `.ends names '${shorten(name.text)}' but closes subcircuit '${shorten(open.name.text)}'.`,
           name.span,
-          'warning',
         );
       }
       return name ? { kind: 'ends', span, tokens, name } : { kind: 'ends', span, tokens };
@@ -1115,7 +1080,7 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
     case '.inc': {
       for (const t of pos.slice(1)) unexpected(ctx, command.text, t, `${command.text} takes (quote a path that holds spaces)`);
       if (!pos[0]) {
-        addError(ctx, 'include-missing-path', `${command.text} needs the path of the file to read.`, command.span, 'error');
+        addError(ctx, 'include-missing-path', `${command.text} needs the path of the file to read.`, command.span);
         return { kind: 'include', span, tokens };
       }
       return { kind: 'include', span, tokens, path: pos[0] };
@@ -1123,7 +1088,7 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
     case '.lib': {
       for (const t of pos.slice(2)) unexpected(ctx, command.text, t, '.lib takes (a path and a section name)');
       if (pos.length === 0) {
-        addError(ctx, 'lib-missing-fields', '.lib needs a library path and a section name, or (inside a library file) a section name.', command.span, 'error');
+        addError(ctx, 'lib-missing-fields', '.lib needs a library path and a section name, or (inside a library file) a section name.', command.span);
         return { kind: 'lib', span, tokens };
       }
       if (pos.length === 1) {
@@ -1141,15 +1106,15 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       for (const t of pos.slice(1)) unexpected(ctx, command.text, t, '.endl takes');
       const open = ctx.sections.pop();
       if (!open) {
-        addError(ctx, 'endl-without-lib-section', '.endl closes no library section: there is no open .lib section before it.', pos[0] ? { start: command.span.start, end: pos[0].span.end } : command.span, 'warning');
+        addError(ctx, 'endl-without-lib-section', '.endl closes no library section: there is no open .lib section before it.', pos[0] ? { start: command.span.start, end: pos[0].span.end } : command.span);
       } else if (pos[0] && open.section && pos[0].text.toLowerCase() !== open.section.text.toLowerCase()) {
-        addError(ctx, 'endl-name-mismatch', `.endl names '${shorten(pos[0].text)}' but closes library section '${shorten(open.section.text)}'.`, pos[0].span, 'warning');
+        addError(ctx, 'endl-name-mismatch', `.endl names '${shorten(pos[0].text)}' but closes library section '${shorten(open.section.text)}'.`, pos[0].span);
       }
       return pos[0] ? { kind: 'endl', span, tokens, section: pos[0] } : { kind: 'endl', span, tokens };
     }
     case '.temp': {
       noAssignments('.temp takes (write temperatures in °C: .temp 27 85)');
-      if (pos.length === 0) addError(ctx, 'temp-missing-value', '.temp needs at least one temperature in °C (.temp 27).', command.span, 'error');
+      if (pos.length === 0) addError(ctx, 'temp-missing-value', '.temp needs at least one temperature in °C (.temp 27).', command.span);
       return { kind: 'temp', span, tokens, values: pos };
     }
     case '.option':
