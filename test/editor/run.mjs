@@ -389,28 +389,8 @@ async function main() {
       return `comment ${colours.c}, ${name} ${colours.e}, ${value} ${colours.v}`;
     });
 
-    // Hover a mirror output transistor: the first Q card that is not diode-connected.
-    const qLine = demoText.split(/\r?\n/).find((l) => {
-      const f = l.trim().split(/\s+/);
-      return /^Q/i.test(f[0] ?? '') && f.length >= 5 && f[1] !== f[2];
-    });
-    const qName = qLine?.trim().split(/\s+/)[0];
-    await check(`hovering ${qName ?? 'a transistor'} shows its collector current`, async () => {
-      if (!qName) throw new Error(`examples/${DEMO} has no BJT output card to hover`);
-      const text = await hoverUntil(page, qName + ' ', qName, (t) => collectorCurrent(t) !== undefined, 90 * SECOND);
-      const ic = collectorCurrent(text);
-      if (!(Number.isFinite(ic) && ic > 0)) throw new Error(`the collector current ${ic} A is not a positive number`);
-      const estimate = referenceEstimate(demoText);
-      if (estimate !== undefined && (ic < estimate / 2 || ic > estimate * 2)) {
-        throw new Error(`IC = ${ic} A is not within a factor of two of the hand estimate (supply − 0.7 V)/RREF = ${estimate.toExponential(3)} A`);
-      }
-      await screenshot(page, 'hover');
-      return `IC = ${(ic * 1e3).toFixed(4)} mA${estimate !== undefined ? ` (hand estimate of IREF ${(estimate * 1e3).toFixed(3)} mA)` : ''}`;
-    });
-    await page.mouse.move(5, 5);
-    await page.keyboard.press('Escape');
-
     let markerTexts = [];
+    // The findings come when the first analysis has finished, so this also tells the hover check the server is ready.
     const problems = await check('the Problems panel lists a qpoint finding with its code', async () => {
       await page.keyboard.press('Control+Shift+M');
       markerTexts = await until(async () => {
@@ -424,8 +404,35 @@ async function main() {
       return `${markerTexts.length} qpoint row(s); first: ${markerTexts[0].slice(0, 160)}`;
     });
 
+    // Close the panel so the hovered line stays where it is.
+    await page.keyboard.press('Control+J');
+    // Hover a mirror output transistor: the first Q card that is not diode-connected.
+    const qLine = demoText.split(/\r?\n/).find((l) => {
+      const f = l.trim().split(/\s+/);
+      return /^Q/i.test(f[0] ?? '') && f.length >= 5 && f[1] !== f[2];
+    });
+    const qName = qLine?.trim().split(/\s+/)[0];
+    await check(`hovering ${qName ?? 'a transistor'} shows its collector current`, async () => {
+      if (!qName) throw new Error(`examples/${DEMO} has no BJT output card to hover`);
+      const text = await hoverUntil(page, qName + ' ', qName, (t) => collectorCurrent(t) !== undefined, 90 * SECOND).catch(async (e) => {
+        await screenshot(page, 'hover-missing');
+        throw e;
+      });
+      const ic = collectorCurrent(text);
+      if (!(Number.isFinite(ic) && ic > 0)) throw new Error(`the collector current ${ic} A is not a positive number`);
+      const estimate = referenceEstimate(demoText);
+      if (estimate !== undefined && (ic < estimate / 2 || ic > estimate * 2)) {
+        throw new Error(`IC = ${ic} A is not within a factor of two of the hand estimate (supply − 0.7 V)/RREF = ${estimate.toExponential(3)} A`);
+      }
+      await screenshot(page, 'hover');
+      return `IC = ${(ic * 1e3).toFixed(4)} mA${estimate !== undefined ? ` (hand estimate of IREF ${(estimate * 1e3).toFixed(3)} mA)` : ''}`;
+    });
+    await page.mouse.move(5, 5);
+    await page.keyboard.press('Escape');
+
     await check('a quick fix from Ctrl+. changes the netlist text', async () => {
       if (!problems) throw new Error('no qpoint diagnostic to fix');
+      await page.keyboard.press('Control+Shift+M');
       const before = (await editorLines(page)).join('\n');
       const rows = await page.$$('.markers-panel .monaco-list-row');
       const tried = [];
@@ -529,6 +536,20 @@ async function main() {
       return `"${chart.title}", operating point ${(Number(chart.operating) * 1e3).toFixed(4)} mA, ${chart.ticks} tick labels, ${chart.corners} corner row(s)`;
     });
 
+    await check('re-analysing from the palette brings the findings back', async () => {
+      await page.keyboard.press('Escape');
+      await runPaletteCommand(page, 'qpoint: Re-analyse open netlists');
+      const status = await until(async () => page.evaluate(() => [...document.querySelectorAll('.statusbar-item')]
+        .map((e) => (e.textContent ?? '').trim()).find((t) => /qpoint: (re-analysing|language server restarted)/.test(t))), { timeoutMs: 30 * SECOND, message: 'no re-analyse status message appeared' });
+      await page.keyboard.press('Control+Shift+M');
+      const rows = await until(async () => {
+        const texts = await page.evaluate(() => [...document.querySelectorAll('.markers-panel .monaco-list-row')].map((r) => (r.textContent ?? '').trim()));
+        const ours = texts.filter((t) => /qpoint/i.test(t));
+        return ours.length > 0 ? ours : null;
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'no qpoint finding came back after re-analysing' });
+      return `"${status}", then ${rows.length} qpoint row(s)`;
+    });
+
     await check('the page raised no uncaught script errors from the extension', async () => {
       const ours = pageErrors.filter((m) => /qpoint/i.test(m));
       if (ours.length > 0) throw new Error(ours.join(' | '));
@@ -538,6 +559,8 @@ async function main() {
     if (context) await withTimeout(context.close(), 10 * SECOND, 'closing chromium').catch((e) => progress(e.message));
     await stopGroup(server, 'code-server');
     serverLog.end();
+    // Keep the editor's logs (extension host, the qpoint output channel) beside the screenshots.
+    try { cpSync(join(userData, 'logs'), join(OUT, 'logs'), { recursive: true }); } catch { /* no logs written */ }
     rmSync(work, { recursive: true, force: true });
     progress(`run time ${((Date.now() - started) / SECOND).toFixed(1)} s (setup ${((setupDone - started) / SECOND).toFixed(1)} s)`);
   }
