@@ -178,7 +178,20 @@ class HandAnalysis {
 
   run(): Estimate {
     const steps: EstimateStep[] = [];
-    if (!this.s.devices.every((d) => this.topo.byName.has(d))) {
+    const needs: Record<string, string[]> = {
+      'helper-mirror': ['helper'],
+      'wilson-mirror': ['lower-diode'],
+      'improved-wilson-mirror': ['lower-diode', 'lower-partner'],
+      'cascode-mirror': ['lower-diode', 'lower-partner'],
+    };
+    // A structure built elsewhere (or edited) without its devices or roles has nothing to compute from.
+    const complete =
+      this.s.devices.every((d) => this.topo.byName.has(d)) &&
+      this.topo.byName.has(this.s.reference.device) &&
+      this.s.outputs.length > 0 &&
+      this.s.outputs.every((o) => this.topo.byName.has(o.device)) &&
+      (needs[this.s.kind] ?? []).every((r) => this.role(r).length > 0);
+    if (!complete) {
       return { iref: 0, iout: Object.fromEntries(this.s.outputs.map((o) => [o.device, 0])), vControl: 0, steps, irefFrom: 'unknown' };
     }
     steps.push({
@@ -605,7 +618,6 @@ class HandAnalysis {
     const m = x0.o.ratio;
     if (this.s.kind === 'cascode-mirror') {
       const top = ref;
-      const partner = this.role('lower-partner')[0];
       if (this.bipolar) {
         const ic1 = iref / (1 + (1 + m) / beta + m / (beta + 1));
         const ie3 = ic1 * (1 + (1 + m) / beta);
@@ -621,7 +633,6 @@ class HandAnalysis {
           value: iout[x0.o.device],
           unit: 'A',
         });
-        void partner;
         return { stack: vLow + vTop, vControl: vTop, iRef: ic1, iout, edge, steps };
       }
       const vsb = this.vsbBase(lowerDiode);

@@ -87,6 +87,17 @@ describe('hostile values in otherwise well-formed structures', () => {
   });
 });
 
+describe('structures from elsewhere', () => {
+  it('a Wilson structure without its roles gives an empty estimate, not a throw', () => {
+    const { circuit } = fixture('wilson-mirror', 'npn');
+    const s = recogniseStructures(circuit)[0];
+    delete s.roles;
+    const e = estimateStructure(circuit, s, { temperatureC: 27 });
+    expect(e.irefFrom).toBe('unknown');
+    expect(e.iout).toEqual({ Q3: 0 });
+  });
+});
+
 describe('random transistor soups', () => {
   it('random extra transistors, resistors and sources wired onto every kind of structure (seeded)', () => {
     const nodeNames = ['0', 'vcc', 'a', 'b', 'c', 'out', 'e2', 'x'];
