@@ -12,8 +12,10 @@ const PART_SIZE = 1500;
 
 /** One slice of the big arrays of an analysis. */
 export type AnalysisPart =
-  | { kind: 'cards'; uri: string; items: Card[] }
-  | { kind: 'elements'; items: Element[] }
+  /** Cards as JSON text: plain strings and spans, and far cheaper to cross the thread boundary than a structured clone of many small objects. */
+  | { kind: 'cards'; uri: string; json: string }
+  /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
+  | { kind: 'elements'; json: string }
   | { kind: 'devices'; items: [string, DeviceRecord][] }
   | { kind: 'findings'; items: Finding[] }
   | { kind: 'structures'; items: Structure[] };
@@ -27,12 +29,14 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
   const documents: Analysis['documents'] = {};
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
-    slices(doc.cards, (items) => ({ kind: 'cards', uri, items }));
+    slices(doc.cards, (items) => ({ kind: 'cards', uri, json: JSON.stringify(items) }));
   }
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
     circuit = { ...analysis.circuit, elements: [] };
-    slices(analysis.circuit.elements, (items) => ({ kind: 'elements', items }));
+    const keyOf = new Map<unknown, string>();
+    for (const [key, m] of Object.entries(analysis.circuit.models)) keyOf.set(m, key);
+    slices(analysis.circuit.elements, (items) => ({ kind: 'elements', json: JSON.stringify(items.map((e) => encodeElement(e, keyOf))) }));
   }
   let operatingPoint = analysis.operatingPoint;
   if (operatingPoint) {
@@ -50,11 +54,11 @@ export function mergePart(target: Analysis, part: AnalysisPart): void {
   switch (part.kind) {
     case 'cards': {
       const doc = target.documents[part.uri];
-      if (doc) for (const c of part.items) doc.cards.push(c);
+      if (doc) for (const c of JSON.parse(part.json) as Card[]) doc.cards.push(c);
       return;
     }
     case 'elements':
-      if (target.circuit) for (const e of part.items) target.circuit.elements.push(relink(target.circuit, e));
+      if (target.circuit) for (const e of JSON.parse(part.json) as Record<string, unknown>[]) target.circuit.elements.push(decodeElement(target.circuit, e));
       return;
     case 'devices':
       if (target.operatingPoint) for (const [name, rec] of part.items) target.operatingPoint.devices[name] = rec;
@@ -68,13 +72,26 @@ export function mergePart(target: Analysis, part: AnalysisPart): void {
   }
 }
 
-/** Points an element's model back at the circuit's model object (identity is lost across messages). */
-function relink(circuit: Circuit, e: Element): Element {
-  if (!('model' in e)) return e;
-  for (const m of Object.values(circuit.models)) {
-    if (m.name === e.model.name && m.origin.uri === e.model.origin.uri && m.origin.span.start === e.model.origin.span.start) {
-      return { ...e, model: m } as Element;
-    }
+/** An element as JSON-safe data: its model by key, non-finite numbers as `{ $num }`. */
+function encodeElement(e: Element, keyOf: Map<unknown, string>): Record<string, unknown> {
+  const out: Record<string, unknown> = {};
+  for (const [k, v] of Object.entries(e)) {
+    if (k === 'model' && v && typeof v === 'object') {
+      const key = keyOf.get(v);
+      out[k] = key !== undefined ? { $model: key } : v;
+    } else if (typeof v === 'number' && !Number.isFinite(v)) out[k] = { $num: String(v) };
+    else out[k] = v;
   }
-  return e;
+  return out;
+}
+
+/** The inverse of {@link encodeElement}, pointing the model at the circuit's own model object. */
+function decodeElement(circuit: Circuit, e: Record<string, unknown>): Element {
+  for (const [k, v] of Object.entries(e)) {
+    if (!v || typeof v !== 'object') continue;
+    const tagged = v as { $model?: string; $num?: string };
+    if (k === 'model' && typeof tagged.$model === 'string') e[k] = circuit.models[tagged.$model] ?? v;
+    else if (typeof tagged.$num === 'string') e[k] = Number(tagged.$num);
+  }
+  return e as unknown as Element;
 }

@@ -25,7 +25,7 @@ import {
 } from 'vscode-languageserver/node';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { completionsAt } from '../../shared-analysis/src/features/completion';
-import { cardAt, elementsOfCard } from '../../shared-analysis/src/features/document-index';
+import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { inlayHints } from '../../shared-analysis/src/features/inlay';
 import { definitionAt, prepareRename, referencesAt, renameAt } from '../../shared-analysis/src/features/navigation';
@@ -282,6 +282,10 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
   for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
   publish(touched);
+  // Build the lookup tables now rather than inside the first hover.
+  setImmediate(() => {
+    if (cache.get(uri)?.analysis === analysis) indexOf(analysis);
+  });
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
 

@@ -71,6 +71,17 @@ export function elementByName(analysis: Analysis, name: string): Element | undef
   return indexOf(analysis).elementByName.get(name.toLowerCase());
 }
 
+/** Whether two tokens are the same field of the text (by span, so it holds for copies of a card too). */
+export function sameToken(a: Token | undefined, b: Token | undefined): boolean {
+  return !!a && !!b && a.span.start === b.span.start && a.span.end === b.span.end;
+}
+
+/** The position of `token` in a list of fields, or −1. */
+export function tokenIndex(list: readonly Token[], token: Token): number {
+  for (let i = 0; i < list.length; i++) if (sameToken(list[i], token)) return i;
+  return -1;
+}
+
 /** The card whose span holds `offset` (a card's end counts as inside it), by binary search. */
 export function cardAt(doc: ParsedDocument, offset: number): Card | undefined {
   const cards = doc.cards;
@@ -169,7 +180,7 @@ export function resolveNodeToken(analysis: Analysis, uri: string, card: Card, to
   const doc = analysis.documents[uri];
   if (!circuit || !doc) return [];
   if (card.kind === 'element' && card.letter !== 'X') {
-    const i = card.nodes.indexOf(token);
+    const i = tokenIndex(card.nodes, token);
     if (i >= 0) {
       const out: ResolvedNode[] = [];
       for (const el of elementsOfCard(analysis, uri, card)) {

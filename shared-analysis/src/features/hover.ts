@@ -11,8 +11,10 @@ import {
   connectionsOf,
   elementsOfCard,
   resolveNodeToken,
+  sameToken,
   scopeAt,
   tokenAt,
+  tokenIndex,
   type SubcktScope,
 } from './document-index';
 import { formatNumber, formatPercent, formatQuantity } from './quantity';
@@ -48,10 +50,10 @@ export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverR
     case 'element':
       return elementCardHover(analysis, uri, card, token, scope);
     case 'model':
-      if (token === card.name || token === card.type) return modelHover(analysis, uri, card.name.text, scope, token.span, card.span.start);
+      if (sameToken(token, card.name) || sameToken(token, card.type)) return modelHover(analysis, uri, card.name.text, scope, token.span, card.span.start);
       return modelParamHover(analysis, uri, card, token, scope);
     case 'param': {
-      const a = card.params.find((p) => p.name === token);
+      const a = card.params.find((p) => sameToken(p.name, token));
       if (a) {
         const p = analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
         if (p) return { markdown: paramMarkdown(p), span: token.span };
@@ -59,13 +61,13 @@ export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverR
       return undefined;
     }
     case 'subckt': {
-      const a = card.params.find((p) => p.name === token);
+      const a = card.params.find((p) => sameToken(p.name, token));
       if (a) {
         const p = analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
         if (p) return { markdown: paramMarkdown(p), span: token.span };
       }
-      if (card.ports.includes(token)) return nodeHover(analysis, uri, card, token);
-      if (token === card.name) return subcktHover(analysis, card.name.text, token.span);
+      if (tokenIndex(card.ports, token) >= 0) return nodeHover(analysis, uri, card, token);
+      if (sameToken(token, card.name)) return subcktHover(analysis, card.name.text, token.span);
       return undefined;
     }
     default:
@@ -75,15 +77,15 @@ export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverR
 
 function isAssignmentValue(card: Card, token: Token): boolean {
   const params = 'params' in card ? card.params : [];
-  return params.some((a) => a.value === token);
+  return params.some((a) => sameToken(a.value, token));
 }
 
 function elementCardHover(analysis: Analysis, uri: string, card: ElementCard, token: Token, scope: SubcktScope | undefined): HoverResult | undefined {
-  if (token === card.name) return deviceHover(analysis, uri, card, token.span);
-  if (card.nodes.includes(token)) return nodeHover(analysis, uri, card, token);
-  if (token === card.model) return modelHover(analysis, uri, token.text, scope, token.span, undefined, elementsOfCard(analysis, uri, card));
-  if (token === card.subckt) return subcktHover(analysis, token.text, token.span);
-  if (token === card.value || token === card.source?.value || token === card.area) return deviceHover(analysis, uri, card, token.span);
+  if (sameToken(token, card.name)) return deviceHover(analysis, uri, card, token.span);
+  if (tokenIndex(card.nodes, token) >= 0) return nodeHover(analysis, uri, card, token);
+  if (sameToken(token, card.model)) return modelHover(analysis, uri, token.text, scope, token.span, undefined, elementsOfCard(analysis, uri, card));
+  if (sameToken(token, card.subckt)) return subcktHover(analysis, token.text, token.span);
+  if (sameToken(token, card.value) || sameToken(token, card.source?.value) || sameToken(token, card.area)) return deviceHover(analysis, uri, card, token.span);
   return undefined;
 }
 
@@ -327,7 +329,7 @@ function paramValue(v: number, meta: ModelParameterInfo | undefined): string {
 }
 
 function modelParamHover(analysis: Analysis, uri: string, card: Extract<Card, { kind: 'model' }>, token: Token, scope: SubcktScope | undefined): HoverResult | undefined {
-  const a = card.params.find((p) => p.name === token || p.value === token);
+  const a = card.params.find((p) => sameToken(p.name, token) || sameToken(p.value, token));
   if (!a) return undefined;
   const model = findModel(analysis, uri, card.name.text, scope, card.span.start);
   const kind = modelKindOf(card.type.text);
@@ -364,7 +366,7 @@ function exprHover(analysis: Analysis, uri: string, card: Card, token: Token, sc
   }
   if (card.kind === 'model') return modelParamHover(analysis, uri, card, token, scope);
   if (card.kind === 'param' || card.kind === 'subckt') {
-    const a = card.params.find((x) => x.value === token);
+    const a = card.params.find((x) => sameToken(x.value, token));
     const p = a && analysis.symbols.params.find((s) => s.uri === uri && s.nameSpan.start === a.name.span.start);
     if (p) return { markdown: paramMarkdown(p), span: token.span };
   }
@@ -373,7 +375,7 @@ function exprHover(analysis: Analysis, uri: string, card: Card, token: Token, sc
 
 function mainValue(el: Element, card: ElementCard, token: Token): string | undefined {
   const prefix = el.origin.instances.length ? `${el.origin.instances.map((i) => i.name).join('.')}: ` : '';
-  const param = card.params.find((a) => a.value === token);
+  const param = card.params.find((a) => sameToken(a.value, token));
   if (param) {
     const n = param.name.text.toUpperCase();
     if (el.kind === 'M' && n === 'W') return prefix + formatQuantity(el.w, 'm');
@@ -401,7 +403,7 @@ function mainValue(el: Element, card: ElementCard, token: Token): string | undef
       return prefix + formatQuantity(el.gain, 'Ω');
     case 'Q':
     case 'D':
-      return token === card.area ? prefix + formatNumber(el.area) : undefined;
+      return sameToken(token, card.area) ? prefix + formatNumber(el.area) : undefined;
     default:
       return undefined;
   }

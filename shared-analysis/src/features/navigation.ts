@@ -3,7 +3,7 @@
 import type { Analysis, ParamSymbol } from '../analysis';
 import type { Card, ParsedDocument, Token } from '../syntax/ast';
 import type { Location, Span, TextEdit } from '../types';
-import { cardAt, isGround, scopeAt, tokenAt, type SubcktScope } from './document-index';
+import { cardAt, isGround, sameToken, scopeAt, tokenAt, tokenIndex, type SubcktScope } from './document-index';
 import { identifierAt, parameterUses, resolveParam } from './params';
 
 /** What the cursor is on, as far as navigation is concerned. */
@@ -31,22 +31,22 @@ function targetAt(analysis: Analysis, uri: string, offset: number): Target | und
   const scope = scopeAt(doc, offset);
 
   if (card.kind === 'include' || card.kind === 'lib') {
-    if (token === card.path) {
+    if (sameToken(token, card.path)) {
       const inc = analysis.symbols.includes.find((i) => i.uri === uri && i.span.start <= token.span.start && token.span.end <= i.span.end + 2);
       if (inc) return { kind: 'include', target: inc.target, span: token.span };
     }
     return undefined;
   }
-  if (nodeTokens(card).includes(token)) return { kind: 'node', name: token.text, scope: isGround(token.text) ? '' : scopeId(uri, scope), token };
-  if (card.kind === 'element' && token === card.model) return { kind: 'model', name: token.text, span: token.span };
-  if (card.kind === 'model' && token === card.name) return { kind: 'model', name: token.text, span: token.span };
-  if (card.kind === 'element' && token === card.subckt) return { kind: 'subckt', name: token.text, span: token.span };
-  if (card.kind === 'subckt' && token === card.name) return { kind: 'subckt', name: token.text, span: token.span };
-  if (card.kind === 'ends' && token === card.name) return { kind: 'subckt', name: token.text, span: token.span };
+  if (tokenIndex(nodeTokens(card), token) >= 0) return { kind: 'node', name: token.text, scope: isGround(token.text) ? '' : scopeId(uri, scope), token };
+  if (card.kind === 'element' && sameToken(token, card.model)) return { kind: 'model', name: token.text, span: token.span };
+  if (card.kind === 'model' && sameToken(token, card.name)) return { kind: 'model', name: token.text, span: token.span };
+  if (card.kind === 'element' && sameToken(token, card.subckt)) return { kind: 'subckt', name: token.text, span: token.span };
+  if (card.kind === 'subckt' && sameToken(token, card.name)) return { kind: 'subckt', name: token.text, span: token.span };
+  if (card.kind === 'ends' && sameToken(token, card.name)) return { kind: 'subckt', name: token.text, span: token.span };
 
   // A parameter: its definition, an X-card override of it, or a use inside a value.
   if ('params' in card) {
-    const a = card.params.find((p) => p.name === token);
+    const a = card.params.find((p) => sameToken(p.name, token));
     if (a) {
       if (card.kind === 'param' || card.kind === 'subckt') {
         const sym = analysis.symbols.params.find((p) => p.uri === uri && p.nameSpan.start === a.name.span.start);
@@ -61,7 +61,7 @@ function targetAt(analysis: Analysis, uri: string, offset: number): Target | und
     }
   }
   const ident = identifierAt(token, offset);
-  if (ident && (token.kind === 'expr' || ('params' in card && card.params.some((p) => p.value === token)))) {
+  if (ident && (token.kind === 'expr' || ('params' in card && card.params.some((p) => sameToken(p.value, token))))) {
     const sym = resolveParam(analysis, uri, scope, ident.name);
     if (sym) return { kind: 'param', symbol: sym, span: ident.span };
   }

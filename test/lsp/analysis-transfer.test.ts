@@ -1,0 +1,33 @@
+// Splitting an analysis into parts for the thread boundary and putting it back together loses nothing.
+
+import { describe, expect, it } from 'vitest';
+import { mergePart, splitAnalysis } from '../../server/src/analysis-transfer';
+import { analyse } from '../../shared-analysis/src/service';
+import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
+
+/** The one helper: split, pass every message through a structured clone (as postMessage does), merge, compare. */
+function check(text: string, hoverAtText: string[]): void {
+  const ws = new MemoryWorkspace({ '/t/main.cir': text });
+  const original = analyse({ uri: '/t/main.cir', text, version: 3 }, ws, { corners: { enabled: false } });
+  const { header, parts } = splitAnalysis(original);
+  const copy = structuredClone(header);
+  for (const p of parts) mergePart(copy, structuredClone(p));
+  expect(copy).toEqual(original);
+  // Models are shared objects again, as the elaborator made them.
+  for (const e of copy.circuit!.elements) if ('model' in e) expect(Object.values(copy.circuit!.models)).toContain(e.model);
+  for (const needle of hoverAtText) {
+    const at = text.indexOf(needle) + 1;
+    expect(hoverAt(copy, '/t/main.cir', at)).toEqual(hoverAt(original, '/t/main.cir', at));
+  }
+}
+
+describe('analysis transfer', () => {
+  it('round-trips a mirror with an unbounded Early voltage and many cards', () => {
+    const lines = ['Transfer check', 'VCC vcc 0 DC 10', 'RREF vcc ref 9.3k', 'Q1 ref ref 0 QN', 'Q2 out ref 0 QN', 'RL vcc out 1k', '.model QN NPN (BF=100)'];
+    // Enough resistors to need several parts of each kind.
+    for (let k = 0; k < 4000; k++) lines.push(`RX${k} vcc x${k} 1k`, `RY${k} x${k} 0 2k`);
+    lines.push('.end', '');
+    check(lines.join('\n'), ['Q2 out', 'QN\nRL', 'RX17 ', 'x3999 0']);
+  });
+});
