@@ -138,6 +138,7 @@ class Elaborator {
     };
     this.flattenBody(topInstance);
     this.resolveControls();
+    this.dropUnusedNodes();
     top.entries(); // evaluates (and reports) parameters nothing refers to
 
     const { temperatureC, tnomC } = this.temperatures(allBodies, top);
@@ -642,6 +643,28 @@ class Elaborator {
     this.elements.length = 0;
     this.elements.push(...kept);
     for (const e of dropped) this.elementByName.delete(e.name.toLowerCase());
+  }
+
+  /**
+   * Removes nodes no kept element touches (their element was left out because of a finding) and
+   * renumbers the rest in order, so the solver never sees a node with nothing attached.
+   */
+  private dropUnusedNodes(): void {
+    const used = new Uint8Array(this.nodes.length);
+    used[0] = 1;
+    for (const e of this.elements) for (const k of e.nodes) used[k] = 1;
+    if (used.every((u) => u === 1)) return;
+    const remap = new Int32Array(this.nodes.length);
+    const kept: string[] = [];
+    for (let k = 0; k < this.nodes.length; k++) {
+      if (used[k]) {
+        remap[k] = kept.length;
+        kept.push(this.nodes[k]!);
+      }
+    }
+    for (const e of this.elements) e.nodes = e.nodes.map((k) => remap[k]!);
+    this.nodes.length = 0;
+    this.nodes.push(...kept);
   }
 
   // -------------------------------------------------------------------------

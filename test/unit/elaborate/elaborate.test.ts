@@ -168,6 +168,10 @@ describe('values and sources', () => {
     });
   });
 
+  it('drops the nodes only a left-out element touched, so nothing is left floating', () => {
+    check(`dropped\nV1 a 0 5\nR0 a 0 1k\nR1 a b 4k7\n`, { findings: [{ code: 'element-value-invalid', at: '4k7' }], nodes: ['0', 'a'] });
+  });
+
   it('keeps a 0 Ω resistor as a short and warns about a negative one', () => {
     check(`zero\nV1 a 0 5\nR1 a b 0\nR2 b 0 -1k\n`, {
       findings: [
