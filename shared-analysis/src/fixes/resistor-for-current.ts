@@ -1,7 +1,7 @@
 // Sizes a resistor for a target current: a hand-formula first value, refined with the DC solver, then the nearest standard values re-solved.
 
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
-import { DcSolver, type DcSolveResult } from '../solve/dc';
+import { DcSolver } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
 import { measureStructure } from '../structures/measure';
 import { thermalVolts } from '../structures/formulas';
@@ -55,7 +55,7 @@ export interface SizingResult {
   /** The element whose current was targeted. */
   device: string;
   /** How the first value was obtained, for messages. */
-  firstValueFrom: 'reference-formula' | 'widlar-formula' | 'ohms-law';
+  firstValueFrom: 'reference-formula' | 'widlar-formula' | 'ohms-law' | 'known-ideal';
   /** DC solves spent. */
   solves: number;
   /** Why sizing gave no (or only a partial) answer, as a full sentence. */
@@ -135,24 +135,29 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   }
   const warm = baseline.x;
 
-  const measure = (ohms: number): { current: number; result: DcSolveResult } | undefined => {
+  // Each distinct resistance is solved once; the card's own value is the baseline already solved.
+  const seen = new Map<number, { current: number } | undefined>();
+  const measure = (ohms: number): { current: number } | undefined => {
+    if (seen.has(ohms)) return seen.get(ohms);
     solves++;
     const solver = new DcSolver(withResistance(circuit, resistor, ohms));
     const result = solver.solve({ ...baseOptions, initialGuess: warm });
-    if (!result.op.converged) return undefined;
-    const current = currentOf(result.op, deviceName);
-    return current === undefined ? undefined : { current, result };
+    const current = result.op.converged ? currentOf(result.op, deviceName) : undefined;
+    const out = current === undefined ? undefined : { current };
+    seen.set(ohms, out);
+    return out;
   };
 
   const i0 = currentOf(baseline.op, deviceName);
   if (i0 === undefined || !(i0 > 0)) {
     return fail(`${deviceName} carries no current at the present operating point, so the change needed cannot be estimated.`, deviceName, solves);
   }
+  seen.set(resistor.resistance, { current: i0 });
 
   if (ctx.knownIdeal !== undefined && Number.isFinite(ctx.knownIdeal) && ctx.knownIdeal > 0) {
     const ideal = clampOhms(ctx.knownIdeal);
     const { candidates, problem } = standardCandidates(ideal, ctx.series, target, measure);
-    return { ideal, candidates, device: deviceName, firstValueFrom: 'ohms-law', solves, problem };
+    return { ideal, candidates, device: deviceName, firstValueFrom: 'known-ideal', solves, problem };
   }
 
   // First value from the structure's formula.
