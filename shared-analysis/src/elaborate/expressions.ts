@@ -67,7 +67,7 @@ export const ALLOWED_FUNCTIONS: readonly string[] = Object.keys(FUNCTIONS);
 const CONSTANTS: Record<string, number> = { pi: Math.PI, e: Math.E };
 
 /** Unit words a number inside an expression may carry after its scale suffix (`{10kOhm}`, `{5V}`). */
-const UNIT_WORDS = new Set(['v', 'volt', 'volts', 'a', 'amp', 'amps', 'ohm', 'ohms', 'hz', 's', 'w', 'h']);
+const UNIT_WORDS = new Set(['v', 'volt', 'volts', 'a', 'amp', 'amps', 'ohm', 'ohms', 'hz', 's', 'sec', 'w', 'h', 'henry', 'f', 'farad', 'm', 'meter', 'metre']);
 
 const ALLOWED_OPERATORS = new Set([
   'add', 'subtract', 'multiply', 'divide', 'pow', 'unaryMinus', 'unaryPlus',
@@ -114,6 +114,13 @@ type Tok =
  * Checks and parses an expression. `source` is the text between the braces or quotes,
  * `offset` its document offset. Numbers with engineering suffixes are rewritten to plain
  * numbers before mathjs parses the text; a position map keeps error spans in the original.
+ *
+ * Inside an expression a number may carry a scale suffix (as in `parseNumber`) followed only
+ * by a unit word (V, A, Ohm, Hz, s, W, H, F, m and their spelt-out forms): `{2*10k}`,
+ * `{10pF}`. Other letters glued to a number are an error (`2pi` would otherwise read as
+ * 2 pico), so a product needs its `*`. Allowed: numbers, parameters in scope, `pi`, `e`,
+ * `true`/`false`, + - * / ^ (and `**`), comparisons, `and` `or` `not` `xor` (and `&&` `||` `!`),
+ * `?:`, brackets and the functions of ALLOWED_FUNCTIONS. Everything else is a located error.
  */
 export function compileExpression(source: string, offset: number): { ok: true; expr: CompiledExpression } | { ok: false; error: ExpressionError } {
   let core = COMPILED.get(source);

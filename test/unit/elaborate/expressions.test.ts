@@ -118,6 +118,9 @@ describe('engineering numbers inside expressions', () => {
     check('10kOhm', { value: 1e4 });
     check('5V * 2', { value: 10 });
     check('1mil', { value: 25.4e-6 });
+    check('10pF + 1nF', { value: 1.01e-9, tol: 1e-12 });
+    check('2uH', { value: 2e-6 });
+    check('20um', { value: 20e-6 });
   });
   it('rejects letters that are neither suffix nor unit, with the position', () => {
     check('3 + 2pi', { error: /neither a scale suffix nor a unit/, at: '2pi' });
