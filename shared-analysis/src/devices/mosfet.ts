@@ -6,7 +6,7 @@ import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction 
 import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { UNBOUNDED, limitStep } from './physics';
+import { UNBOUNDED, limitChannel, limitGate } from './physics';
 
 /** Level-1 parameters of one device, own polarity (for PMOS `vto` is already sign-flipped). */
 export interface MosParams {
@@ -71,7 +71,6 @@ export class MosfetDevice implements NonlinearDevice {
   private gmin = 0;
   private vgsOld = 0;
   private vdsOld = 0;
-  private vbsOld = 0;
 
   constructor(readonly element: Mosfet, nodes: { d: number; g: number; s: number; b: number }, issues: ParamIssue[]) {
     const md = element.model;
@@ -115,24 +114,28 @@ export class MosfetDevice implements NonlinearDevice {
     const b = this.biases(x);
     this.vgsOld = b.vgs;
     this.vdsOld = b.vds;
-    this.vbsOld = b.vbs;
   }
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
     let { vgs, vds, vbs } = this.biases(x);
     let limited = false;
     if (limit) {
-      const a = limitStep(vgs, this.vgsOld, 0.5, this.params.vto);
-      const b = limitStep(vds, this.vdsOld, 1, 0);
-      const c = limitStep(vbs, this.vbsOld, 0.5, 0);
-      vgs = a.v;
-      vds = b.v;
-      vbs = c.v;
-      limited = a.limited || b.limited || c.limited;
+      // Channel first, then the gate of whichever end acts as source after the step.
+      const ch = limitChannel(vds, this.vdsOld);
+      vds = ch.v;
+      let g: { v: number; limited: boolean };
+      if (vds >= 0) {
+        g = limitGate(vgs, this.vgsOld, this.thresholdAt(vbs));
+        vgs = g.v;
+      } else {
+        // Swapped: the drain acts as source, so limit VGD and rebuild VGS from it.
+        g = limitGate(vgs - vds, this.vgsOld - this.vdsOld, this.thresholdAt(vbs - vds));
+        vgs = g.v + vds;
+      }
+      limited = ch.limited || g.limited;
     }
     this.vgsOld = vgs;
     this.vdsOld = vds;
-    this.vbsOld = vbs;
     const forward = vds >= 0;
     // In the swapped frame the drain terminal acts as source: VGS→VGD, VDS→−VDS, VBS→VBD.
     const ev = forward ? evaluateMos(vgs, vds, vbs, this.params) : evaluateMos(vgs - vds, -vds, vbs - vds, this.params);
@@ -153,6 +156,12 @@ export class MosfetDevice implements NonlinearDevice {
     addControl(pos, 4, values, S, D, S, -this.gmin);
     const finite = Number.isFinite(ev.id) && Number.isFinite(ev.gm) && Number.isFinite(ev.gds) && Number.isFinite(ev.gmbs);
     return { limited, clipped: false, finite };
+  }
+
+  /** Threshold (own polarity) at body bias vbs. */
+  private thresholdAt(vbs: number): number {
+    const p = this.params;
+    return p.vto + p.gamma * (Math.sqrt(Math.max(p.phi - vbs, SQRT_ARG_FLOOR)) - Math.sqrt(p.phi));
   }
 
   overdriven(): OverdrivenJunction[] {

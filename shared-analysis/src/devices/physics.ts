@@ -88,15 +88,31 @@ export function limitJunctionValue(vNew: number, vOld: number, nvt: number, vcri
 }
 
 /**
- * Step limiting for a MOS terminal voltage: the change per Newton iteration is bounded by
- * `base` volts plus half the distance of the old value from the threshold-like pivot
- * `pivot`, so steps are large far from the turn-on point and gentle near it.
+ * Gate-voltage limiting for a square-law device (our scheme; same aim as Nagel's junction
+ * limiting: keep Newton out of regions where its linearisation misleads). Upward steps
+ * from cutoff stop half a volt above threshold, because a device that was off has no gm
+ * to predict its current; upward steps of a conducting device may at most triple its
+ * overdrive plus half a volt, since the square law's tangent then overshoots. Downward
+ * steps are free while the device stays on; a step from on to far into cutoff stops half a
+ * volt below threshold, so the next iteration still sees the turn-on.
  */
-export function limitStep(vNew: number, vOld: number, base: number, pivot: number): Limited {
-  const maxStep = base + 0.5 * Math.abs(vOld - pivot);
-  const d = vNew - vOld;
-  if (d > maxStep) return { v: vOld + maxStep, limited: true };
-  if (d < -maxStep) return { v: vOld - maxStep, limited: true };
+export function limitGate(vNew: number, vOld: number, vth: number): Limited {
+  if (vNew > vOld) {
+    const ceiling = vOld <= vth ? vth + 0.5 : vth + 3 * (vOld - vth) + 0.5;
+    return vNew > ceiling ? { v: ceiling, limited: true } : { v: vNew, limited: false };
+  }
+  if (vOld > vth && vNew < vth - 0.5) return { v: vth - 0.5, limited: true };
+  return { v: vNew, limited: false };
+}
+
+/**
+ * Drain-source limiting for a symmetric MOS channel: a step that would swap source and drain
+ * by more than a volt stops at 0 V first, so one iteration never jumps straight from
+ * strong forward to strong reverse conduction.
+ */
+export function limitChannel(vNew: number, vOld: number): Limited {
+  if (vOld >= 0 && vNew < -1) return { v: 0, limited: true };
+  if (vOld < 0 && vNew > 1) return { v: 0, limited: true };
   return { v: vNew, limited: false };
 }
 

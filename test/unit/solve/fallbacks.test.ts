@@ -18,6 +18,28 @@ function followerChain(stages: number): Spec[] {
   return s;
 }
 
+/** Bipolar and MOS devices wired into a positive-feedback loop, every node also tied to ground through 1 MΩ. */
+function tangle(): Spec[] {
+  const q = model('QN', 'npn', { IS: 1e-15, BF: 200, VAF: 50 });
+  const qp = model('QP', 'pnp', { IS: 1e-15, BF: 100, VAF: 50 });
+  const p = model('MP', 'pmos', { KP: 4e-5, VTO: -0.7, LAMBDA: 0.02 });
+  const d = model('DN', 'd', { IS: 1e-14 });
+  const s: Spec[] = [
+    ['V', 'VCC', 'vcc', '0', 10.95],
+    ['Q', 'Q0', 'a', 'c', 'vcc', q],
+    ['R', 'R1', 'vcc', 'b', 858e3],
+    ['R', 'R2', 'a', 'd', 787e3],
+    ['R', 'R3', 'e', 'b', 189e3],
+    ['R', 'R4', 'c', 'e', 12.7e3],
+    ['D', 'D5', 'd', 'a', d],
+    ['R', 'R6', 'e', '0', 330],
+    ['Q', 'Q7', 'c', 'b', 'd', qp],
+    ['M', 'M8', 'b', 'c', 'c', '0', p],
+  ];
+  for (const n of ['a', 'b', 'c', 'd', 'e', 'vcc']) s.push(['R', `RG${n}`, n, '0', 1e6]);
+  return s;
+}
+
 /** A string of `count` diodes across a source through a 1 Ω resistor. */
 function diodeString(count: number, volts: number): Spec[] {
   const d = model('DS', 'd', { IS: 1e-14 });
@@ -38,8 +60,44 @@ function check(specs: Spec[], expected: { fallbacks: string[]; converged: boolea
 }
 
 describe('fallbacks', () => {
-  it('a 20-stage source-follower chain defeats plain Newton; gmin stepping solves it', () => {
-    const r = check(followerChain(20), { fallbacks: ['gmin-stepping'], converged: true });
+  it('a tangle of bipolar and MOS devices in a positive-feedback loop defeats plain Newton; gmin stepping solves it', () => {
+    // Found by a seeded random search over transistor circuits; values rounded.
+    const specs = tangle();
+    const r = check(specs, { fallbacks: ['gmin-stepping'], converged: true });
+    // Source: Kirchhoff's current law — the currents of every element at each node sum to zero.
+    const c = circuit(specs);
+    const net = new Map<number, { sum: number; scale: number }>();
+    const add = (node: number, i: number): void => {
+      const e = net.get(node) ?? { sum: 0, scale: 0 };
+      e.sum += i;
+      e.scale += Math.abs(i);
+      net.set(node, e);
+    };
+    for (const el of c.elements) {
+      const rec = r.op.devices[el.name] as unknown as Record<string, number>;
+      if (el.kind === 'Q') {
+        add(el.nodes[0], rec.ic);
+        add(el.nodes[1], rec.ib);
+        add(el.nodes[2], rec.ie);
+      } else if (el.kind === 'M') {
+        add(el.nodes[0], rec.id);
+        add(el.nodes[2], -rec.id);
+      } else {
+        const i = el.kind === 'D' ? rec.id : rec.current;
+        add(el.nodes[0], i);
+        add(el.nodes[1], -i);
+      }
+    }
+    for (const [node, e] of net) if (node !== 0) expect(Math.abs(e.sum), `node ${c.nodes[node]}`).toBeLessThanOrEqual(1e-9 * e.scale + 1e-15);
+    // A plain solve warm-started there converges at once: it is a solution of the unmodified circuit.
+    const warm = solveOperatingPoint(c, { initialGuess: r.x });
+    expect(warm.op.fallbacks).toEqual([]);
+    expect(warm.op.iterations).toBe(1);
+  });
+
+  it('a 20-stage source-follower chain converges with plain Newton thanks to gate and channel limiting', () => {
+    const r = check(followerChain(20), { fallbacks: [], converged: true });
+    expect(r.op.iterations).toBeLessThan(60);
     for (let i = 1; i < 20; i++) {
       const m = r.op.devices[`M${i}`] as MosRecord;
       expect(m.region).toBe('saturation');
