@@ -84,15 +84,16 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
   const adj = index.slice();
   const adjStart = start.subarray(0, n);
   const adjLen = new Int32Array(n);
-  const elems: number[][] = new Array(n);
-  const elemVars: (Int32Array | null)[] = new Array(n).fill(null);
+  // E_i (elements adjacent to variable i) and L_e (variables of element e) live in two pools of
+  // integers rather than in millions of small arrays, which would keep the garbage collector busy.
+  const elems = new ListPool(n, 2, (v) => status[v] === 0);
+  const elemVars = new ListPool(n, 0, (e) => status[e] === 1);
   const elemWeight = new Int32Array(n);
   const members: (number[] | null)[] = new Array(n).fill(null);
 
   let nDense = 0;
   for (let v = 0; v < n; v++) {
     adjLen[v] = start[v + 1] - start[v];
-    elems[v] = [];
     if (adjLen[v] > denseThreshold) {
       status[v] = 3;
       nDense++;
@@ -173,12 +174,14 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     mark[p] = stamp;
     let lpLen = 0;
     let lpWeight = 0;
-    const ep = elems[p];
-    for (let r = 0; r < ep.length; r++) {
-      const e = ep[r];
+    const epStart = elems.start[p];
+    const epEnd = epStart + elems.len[p];
+    for (let r = epStart; r < epEnd; r++) {
+      const e = elems.data[r];
       if (status[e] !== 1) continue;
-      const le = elemVars[e]!;
-      for (let t = 0; t < le.length; t++) {
+      const le = elemVars.data;
+      const leEnd = elemVars.start[e] + elemVars.len[e];
+      for (let t = elemVars.start[e]; t < leEnd; t++) {
         const i = le[t];
         if (status[i] !== 0 || nv[i] === 0 || mark[i] === stamp) continue;
         mark[i] = stamp;
@@ -187,7 +190,7 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
         lpWeight += nv[i];
       }
       status[e] = 2;
-      elemVars[e] = null;
+      elemVars.clear(e);
     }
     {
       const s = adjStart[p];
@@ -201,7 +204,7 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
       }
     }
     status[p] = 1;
-    elems[p].length = 0;
+    elems.clear(p);
     adjLen[p] = 0;
     emit(p);
     nel += nv[p];
@@ -212,9 +215,10 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     wCur++;
     for (let t = 0; t < lpLen; t++) {
       const i = lp[t];
-      const ei = elems[i];
+      const ei = elems.data;
       const w = nv[i];
-      for (let r = 0; r < ei.length; r++) {
+      const eEnd = elems.start[i] + elems.len[i];
+      for (let r = elems.start[i]; r < eEnd; r++) {
         const e = ei[r];
         if (status[e] !== 1) continue;
         if (wStamp[e] !== wCur) {
@@ -228,26 +232,28 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     // Update each variable of L_p: element list, variable list, approximate degree, hash.
     for (let t = 0; t < lpLen; t++) {
       const i = lp[t];
-      const list = elems[i];
+      const list = elems.data;
+      const base = elems.start[i];
+      const count = elems.len[i];
       let kept = 0;
       let external = 0;
       let h = p;
-      for (let r = 0; r < list.length; r++) {
+      for (let r = base; r < base + count; r++) {
         const e = list[r];
         if (status[e] !== 1) continue;
         const we = wVal[e];
         if (we <= 0) {
           // Aggressive absorption: L_e lies inside L_p.
           status[e] = 2;
-          elemVars[e] = null;
+          elemVars.clear(e);
           continue;
         }
-        list[kept++] = e;
+        list[base + kept++] = e;
         external += we;
         h += e;
       }
-      list.length = kept;
-      list.push(p);
+      elems.len[i] = kept;
+      elems.push(i, p);
       const s = adjStart[i];
       let len = 0;
       let aw = 0;
@@ -282,16 +288,18 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
       hashHead[h] = -1;
       for (; i >= 0; i = hashNext[i]) {
         if (nv[i] === 0) continue;
-        const ei = elems[i];
+        const ed = elems.data;
+        const eiStart = elems.start[i];
+        const eiLen = elems.len[i];
         const ai = adjLen[i];
         setCur++;
-        for (let r = 0; r < ei.length; r++) setMark[ei[r]] = setCur;
+        for (let r = eiStart; r < eiStart + eiLen; r++) setMark[ed[r]] = setCur;
         for (let q = adjStart[i]; q < adjStart[i] + ai; q++) setMark[adj[q]] = setCur;
         for (let j = hashNext[i]; j >= 0; j = hashNext[j]) {
-          if (nv[j] === 0 || elems[j].length !== ei.length || adjLen[j] !== ai) continue;
+          if (nv[j] === 0 || elems.len[j] !== eiLen || adjLen[j] !== ai) continue;
           let same = true;
-          const ej = elems[j];
-          for (let r = 0; r < ej.length; r++) if (setMark[ej[r]] !== setCur) { same = false; break; }
+          const ejStart = elems.start[j];
+          for (let r = ejStart; r < ejStart + eiLen; r++) if (setMark[ed[r]] !== setCur) { same = false; break; }
           if (same) {
             for (let q = adjStart[j]; q < adjStart[j] + ai; q++) if (setMark[adj[q]] !== setCur) { same = false; break; }
           }
@@ -306,7 +314,7 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
           members[j] = null;
           nv[j] = 0;
           status[j] = 2;
-          elems[j].length = 0;
+          elems.clear(j);
           adjLen[j] = 0;
         }
       }
@@ -318,19 +326,19 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     for (let t = 0; t < lpLen; t++) {
       const i = lp[t];
       if (nv[i] === 0) continue;
-      if (adjLen[i] === 0 && elems[i].length === 1) {
+      if (adjLen[i] === 0 && elems.len[i] === 1) {
         emit(i);
         nel += nv[i];
         weight -= nv[i];
         status[i] = 2;
-        elems[i].length = 0;
+        elems.clear(i);
         nv[i] = 0;
         continue;
       }
       lp[keep++] = i;
     }
     elemWeight[p] = weight;
-    elemVars[p] = lp.slice(0, keep);
+    elemVars.assign(p, lp, keep);
     for (let t = 0; t < keep; t++) {
       const i = lp[t];
       let d = deg[i];
@@ -354,6 +362,86 @@ export function approximateMinimumDegree(graph: SymmetricGraph, options: Minimum
     for (let v = 0; v < n; v++) if (!placed[v]) perm[pos++] = v;
   }
   return perm;
+}
+
+/**
+ * Many short integer lists in one array, each with its own start, length and capacity. A list
+ * that outgrows its room moves to the end; when the array is full, the lists still alive are
+ * packed into a fresh array twice the size they need (the workspace compaction of the paper).
+ */
+class ListPool {
+  data: Int32Array<ArrayBuffer>;
+  readonly start: Int32Array;
+  readonly len: Int32Array;
+  readonly cap: Int32Array;
+  private end = 0;
+
+  constructor(
+    private readonly n: number,
+    initialCapacity: number,
+    private readonly alive: (list: number) => boolean,
+  ) {
+    this.start = new Int32Array(n);
+    this.len = new Int32Array(n);
+    this.cap = new Int32Array(n).fill(initialCapacity);
+    // At least n free slots beyond what is in use, so compactions (O(n) each) are amortised over n appends.
+    this.data = new Int32Array(n * initialCapacity + n + 16);
+    for (let i = 0; i < n; i++) {
+      this.start[i] = this.end;
+      this.end += initialCapacity;
+    }
+  }
+
+  clear(i: number): void {
+    this.len[i] = 0;
+  }
+
+  /** Appends v to list i. */
+  push(i: number, v: number): void {
+    if (this.len[i] === this.cap[i]) this.relocate(i, 2 * this.cap[i] + 2);
+    this.data[this.start[i] + this.len[i]++] = v;
+  }
+
+  /** Makes list i a copy of src[0..count). */
+  assign(i: number, src: Int32Array, count: number): void {
+    if (count > this.cap[i]) this.relocate(i, count, false);
+    this.data.set(src.subarray(0, count), this.start[i]);
+    this.len[i] = count;
+  }
+
+  private relocate(i: number, capacity: number, keep = true): void {
+    if (this.end + capacity > this.data.length) this.compact(capacity, i);
+    const from = this.start[i];
+    const to = this.end;
+    if (keep) this.data.copyWithin(to, from, from + this.len[i]);
+    this.start[i] = to;
+    this.cap[i] = capacity;
+    this.end += capacity;
+  }
+
+  private compact(extra: number, moving: number): void {
+    let need = extra;
+    for (let i = 0; i < this.n; i++) {
+      if (i === moving || this.alive(i)) need += this.len[i];
+      else this.cap[i] = 0;
+    }
+    const fresh = new Int32Array(Math.max(this.data.length, 2 * need + this.n + 16));
+    let at = 0;
+    for (let i = 0; i < this.n; i++) {
+      if (this.cap[i] === 0 && i !== moving) {
+        this.start[i] = at;
+        this.len[i] = 0;
+        continue;
+      }
+      const l = this.len[i];
+      fresh.set(this.data.subarray(this.start[i], this.start[i] + l), at);
+      this.start[i] = at;
+      this.cap[i] = l;
+      at += l;
+    }
+    this.data = fresh;
+    this.end = at;
+  }
 }
 
 function grow(a: Int32Array<ArrayBuffer>): Int32Array<ArrayBuffer> {
