@@ -24,6 +24,9 @@ type Pending = {
   timer: ReturnType<typeof setTimeout>;
 };
 
+/** Part requests kept in flight while an analysis is taken in. */
+const PARTS_IN_FLIGHT = 3;
+
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
 
@@ -137,11 +140,23 @@ export class WorkerHost {
     if (msg.type !== 'analysed') throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
     const t0 = Date.now();
     const analysis = msg.analysis;
+    // Keep a few part requests in flight so the worker prepares the next while this thread merges one.
+    const ask = (index: number) => {
+      const p = this.request((rid) => ({ type: 'next-part', id: rid, analysisId: msg.id, index }), `Taking in part ${index + 1} of the analysis of ${uri}`);
+      // A failure is seen where the part is awaited; this only keeps the parts never awaited from counting as unhandled.
+      p.catch(() => undefined);
+      return p;
+    };
+    const inFlight: Promise<FromWorker>[] = [];
+    let asked = 0;
+    while (asked < Math.min(PARTS_IN_FLIGHT, msg.parts)) inFlight.push(ask(asked++));
     for (let index = 0; index < msg.parts; index++) {
-      await new Promise((r) => setImmediate(r));
-      const part = await this.request((rid) => ({ type: 'next-part', id: rid, analysisId: msg.id, index }), `Taking in part ${index + 1} of the analysis of ${uri}`);
+      const part = await inFlight.shift()!;
+      if (asked < msg.parts) inFlight.push(ask(asked++));
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
       mergePart(analysis, part.part);
+      // Give queued editor requests a turn between parts.
+      await new Promise((r) => setImmediate(r));
     }
     return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
