@@ -298,7 +298,7 @@ class HandAnalysis {
           quantity: `Compliance edge V(${node})`,
           formula: this.bipolar
             ? `V(${node}) ${cmp} V(base of ${k}): the VBC = 0 edge of forward-active (stricter than the textbook VCE(sat) ≈ 0.2 V)`
-            : `V(${node}) ${cmp} V(gate of ${k}) − VTH: the VDS = VGS − VTH edge of saturation (${RAZAVI})`,
+            : `V(${node}) ${cmp} V(source) ${this.sign > 0 ? '+' : '−'} VOV of ${k}, i.e. V(gate) ${this.sign > 0 ? '− VTH' : '+ |VTH|'}: the edge of saturation (${RAZAVI})`,
           substituted: `${eng(vCommon, 'V')} ${this.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
           value: outputEdge[k],
           unit: 'V',
@@ -445,7 +445,7 @@ class HandAnalysis {
       push({
         quantity: `${vName}(${p.t.name})`,
         formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
-        substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${sig(p.kBeta, 3)} A/V²)${label}`,
+        substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${eng(p.kBeta, 'A/V²')})${label}`,
         value: v,
         unit: 'V',
       });
@@ -529,7 +529,7 @@ class HandAnalysis {
         push({
           quantity: `IOUT(${x.o.device})`,
           formula: 'sqrt(2·IREF/β1) = sqrt(2·IOUT/β2) + IOUT·R2, β = KP·W/L·M, body effect neglected (square law; Razavi, ch. 5)',
-          substituted: `sqrt(2 × ${eng(iref, 'A')}/${sig(ref.kBeta, 3)}) = sqrt(2·IOUT/${sig(x.p.kBeta, 3)}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
+          substituted: `sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}) = sqrt(2·IOUT/${eng(x.p.kBeta, 'A/V²')}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
           value: i,
           unit: 'A',
         });
@@ -589,7 +589,7 @@ class HandAnalysis {
       push({
         quantity: `VGS(${ref.t.name})`,
         formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VDS))), VDS = VGS1 + VGS(helper) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
-        substituted: `${eng(thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb), 'V')} + sqrt(2 × ${eng(iref, 'A')}/${sig(ref.kBeta, 3)} A/V²/(1 + λ·${eng(vgs1 + vgsH, 'V')}))`,
+        substituted: `${eng(thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb), 'V')} + sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}/(1 + λ·${eng(vgs1 + vgsH, 'V')}))`,
         value: vgs1,
         unit: 'V',
       });
