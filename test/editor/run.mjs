@@ -505,6 +505,33 @@ async function main() {
       return `refused "1.5 volts" ("${refusal.slice(0, 90)}"); ${candidates.length} candidate(s), first "${candidates[0].slice(0, 80)}"; changed: ${changed.map((l) => l.trim()).join(' | ').slice(0, 120)}`;
     });
 
+    await check('the "Size … for a target current" code action on a resistor asks for a current and writes a standard value', async () => {
+      const name = 'RREF';
+      if (!currentText.split(/\r?\n/).some((l) => /^RREF\s/i.test(l))) throw new Error(`examples/${DEMO} has no RREF card`);
+      await page.keyboard.press('Escape');
+      await clickWord(page, name + ' ', name);
+      await page.keyboard.press('Control+.');
+      const found = await until(async () => {
+        const texts = await page.evaluate(() => [...document.querySelectorAll('.action-widget .monaco-list-row.action')].map((r) => (r.textContent ?? '').trim()));
+        const index = texts.findIndex((t) => /^Size\s+RREF\b/i.test(t));
+        return index >= 0 ? { index, title: texts[index] } : null;
+      }, { timeoutMs: 15 * SECOND, message: 'the code action menu on RREF has no "Size RREF …" action' });
+      const title = found.title;
+      // The menu focuses its first action; step down to the sizing action (the pointer is blocked while the menu opens).
+      for (let k = 0; k < found.index; k++) await page.keyboard.press('ArrowDown');
+      await page.keyboard.press('Enter');
+      const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+      await input.fill('350uA');
+      await until(async () => page.evaluate(() => /350 µA/.test(document.querySelector('.quick-input-widget .quick-input-message')?.textContent ?? '')), { timeoutMs: 10 * SECOND, message: 'the input box did not read 350uA as 350 µA' });
+      await page.keyboard.press('Enter');
+      await until(async () => page.evaluate(() => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => /from the target/.test(r.textContent ?? ''))), { timeoutMs: 60 * SECOND, message: 'no standard-value candidates were offered' });
+      await page.keyboard.press('Enter');
+      const saved = await saveAndRead(page, demoFile, currentText, title);
+      const changed = changedLines(currentText, saved);
+      currentText = saved;
+      return `"${title}" → changed: ${changed.map((l) => l.trim()).join(' | ').slice(0, 120)}`;
+    });
+
     await check('plotting a mirror output shows a chart with the edge, the operating point and the corner table', async () => {
       if (!qName) throw new Error('no BJT output card to plot');
       await page.keyboard.press('Escape');
