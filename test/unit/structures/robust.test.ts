@@ -38,6 +38,8 @@ function expectClean(circuit: Circuit, withSolve: boolean): void {
     expect(f.message).not.toMatch(/NaN|undefined|Infinity/);
     expect(JSON.stringify(f.data ?? {})).not.toMatch(/NaN|Infinity/);
   }
+  // Structures travel to the editor and the CLI as JSON: a NaN or Infinity would arrive as null.
+  expect(JSON.stringify(structures)).not.toMatch(/null/);
   for (const s of structures) {
     // No estimate only when neither the feed nor a solve gives IREF.
     if (!s.estimate) {
