@@ -161,6 +161,14 @@ describe('elaboration under mutation', () => {
     );
   });
 
+  it('survives a chain of 5000 nested subcircuit definitions without overflowing the stack', () => {
+    let text = 'long chain\nV1 n 0 1\n';
+    for (let k = 0; k < 5000; k++) text += `.subckt s${k} a\nX1 a s${k + 1}\nR1 a 0 1k\n.ends\n`;
+    text += 'Xtop n s0\n';
+    const r = elaborate(parse('/w/top.cir', text, { hasTitle: true }), new MemoryWorkspace());
+    expect(r.findings.map((f) => f.code)).toEqual(['subckt-nesting-too-deep']);
+  });
+
   it('stops a subcircuit explosion at the element limit quickly', () => {
     // Ten levels of ten instances each would be 10^10 resistors.
     let text = 'explosion\nV1 n 0 1\n';

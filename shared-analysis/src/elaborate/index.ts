@@ -32,6 +32,8 @@ export const DEFAULT_MOS_SIZE = 10e-6;
 /** Nominal and analysis temperature when the netlist sets none, °C (DESIGN.md). */
 export const DEFAULT_TEMPERATURE_C = 27;
 const DEFAULT_MAX_ELEMENTS = 500_000;
+/** Deepest chain of nested subcircuit instances flattened (keeps the recursion far from the stack limit). */
+export const MAX_INSTANCE_DEPTH = 100;
 const ABSOLUTE_ZERO_C = -273.15;
 
 /** Element parameters each letter reads; others get `element-unknown-parameter`. Geometry of junction areas is accepted silently. */
@@ -556,6 +558,17 @@ class Elaborator {
       this.sink.add('subckt-recursive', `Instance \`${card.name.text}\` re-enters subcircuit \`${def.card.name.text}\` from inside itself (${names.join(' → ')}); a subcircuit cannot contain itself.`, uri, subTok.span, [
         { uri: def.uri, span: def.card.name.span, message: `\`${def.card.name.text}\` is defined here.` },
       ]);
+      return;
+    }
+    if (inst.chain.length >= MAX_INSTANCE_DEPTH) {
+      this.sink.add(
+        'subckt-nesting-too-deep',
+        `Instance \`${card.name.text}\` would nest subcircuits more than ${MAX_INSTANCE_DEPTH} levels deep (${inst.chain.slice(0, 3).map((d) => d.card.name.text).join(' → ')} → …); it is left out.`,
+        uri,
+        subTok.span,
+        undefined,
+        { limit: MAX_INSTANCE_DEPTH },
+      );
       return;
     }
     const ports = def.card.ports;

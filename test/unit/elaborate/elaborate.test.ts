@@ -507,6 +507,16 @@ describe('subcircuits', () => {
     });
   });
 
+  it('stops a chain of distinct subcircuits nested deeper than the limit', () => {
+    let text = 'deep chain\nV1 n 0 1\nR0 n 0 1k\n';
+    for (let k = 0; k < 150; k++) text += `.subckt s${k} a\n${k === 149 ? 'R1 a 0 1k' : `X1 a s${k + 1}`}\n.ends\n`;
+    text += 'Xtop n s0\n';
+    check(text, {
+      findings: [{ code: 'subckt-nesting-too-deep', at: { in: 'X1 a s100\n', text: 's100' }, message: /more than 100 levels deep \(s0 → s1 → s2 → …\)/ }],
+      also: (r) => expect(r.circuit.elements.map((e) => e.name)).toEqual(['V1', 'R0']),
+    });
+  });
+
   it('stops flattening at the element limit', () => {
     check(`big\n.subckt r10 a\nR1 a 0 1\nR2 a 0 1\nR3 a 0 1\nR4 a 0 1\nR5 a 0 1\n.ends\nV1 n 0 1\nX1 n r10\nX2 n r10\n`, {
       findings: [{ code: 'circuit-too-large', at: 'R3 a 0 1' }],
