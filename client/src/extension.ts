@@ -27,6 +27,8 @@ export const NETLIST_FILE_GLOB = '**/*.{cir,sp,spi,ckt,net,inc,lib,mod}';
 const REQUEST_TIMEOUT_MS = 60_000;
 
 let client: LanguageClient | undefined;
+/** Settles when the first start of the server has finished (successfully or not). */
+let firstStart: Promise<void> = Promise.resolve();
 const panels = new Map<string, vscode.WebviewPanel>();
 
 /** Starts the language server and registers the commands. */
@@ -57,13 +59,12 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     vscode.commands.registerCommand('qpoint.reanalyse', () => reanalyseCommand()),
   );
 
-  try {
-    await client.start();
-  } catch (e) {
+  firstStart = client.start().catch((e: unknown) => {
     const message = `qpoint could not start its language server (${serverModule}): ${errorText(e)}`;
     output.error(message);
     void vscode.window.showErrorMessage(message);
-  }
+  });
+  await firstStart;
 }
 
 /** Stops the language server. */
@@ -79,8 +80,9 @@ function errorText(e: unknown): string {
   return e instanceof Error ? e.message : String(e);
 }
 
-/** The running client, or undefined after telling the user why there is none. */
-function runningClient(): LanguageClient | undefined {
+/** The running client (waiting a bounded time for a start in progress), or undefined after telling the user why there is none. */
+async function runningClient(): Promise<LanguageClient | undefined> {
+  await Promise.race([firstStart, new Promise((resolve) => setTimeout(resolve, 30_000))]);
   if (client && client.isRunning()) return client;
   void vscode.window.showErrorMessage('The qpoint language server is not running; open a netlist or run "qpoint: Re-analyse open netlists" to start it, and see the "qpoint" output for the reason.');
   return undefined;
@@ -139,7 +141,7 @@ function elementUnderCursor(editor: vscode.TextEditor): string | undefined {
 
 /** `qpoint.sizeResistorForCurrent`: ask for a target current, show standard-value candidates, apply the chosen one. */
 async function sizeResistorCommand(args: unknown): Promise<void> {
-  const c = runningClient();
+  const c = await runningClient();
   if (!c) return;
   let uri: string | undefined;
   let resistor: string | undefined;
@@ -208,7 +210,7 @@ async function sizeResistorCommand(args: unknown): Promise<void> {
 
 /** `qpoint.plotOutputCharacteristic`: pick a mirror output and show its output characteristic. */
 async function plotCommand(args: unknown): Promise<void> {
-  const c = runningClient();
+  const c = await runningClient();
   if (!c) return;
   let uri: string;
   let documentUri: vscode.Uri;
