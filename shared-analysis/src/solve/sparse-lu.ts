@@ -26,7 +26,13 @@ export interface SparseLUOptions {
 }
 
 /** Why a factorisation failed, beyond the index of the unknown. */
-export type FactorFailure = 'structurally-singular' | 'numerically-singular' | 'non-finite-value' | 'invalid-pattern';
+export type FactorFailure =
+  | 'structurally-singular'
+  | 'numerically-singular'
+  | 'non-finite-value'
+  /** Fewer values than pattern entries; the index is the row of the first entry without a value. */
+  | 'missing-values'
+  | 'invalid-pattern';
 
 /** Counters a caller or benchmark can read after factorising. */
 export interface SparseLUStats {
@@ -249,7 +255,7 @@ export class SparseLU implements LinearSolver {
     aVal.fill(0);
     const slot = this.slot;
     const m = slot.length;
-    if (values.length < m) return this.fail('non-finite-value', m > 0 ? this.patternRow[Math.min(values.length, m - 1)] : 0);
+    if (values.length < m) return this.fail('missing-values', this.patternRow[values.length]);
     for (let k = 0; k < m; k++) {
       const v = values[k];
       if (v - v !== 0) return this.fail('non-finite-value', this.patternRow[k]);

@@ -348,7 +348,8 @@ describe('SparseLU singular systems name the unknown', () => {
   it('reports too few values as a failure, not a crash', () => {
     const s = system(2, [[0, 0, 1], [1, 1, 1]]);
     const lu = new SparseLU(s.pattern);
-    expect(lu.factor(Float64Array.of(1)).ok).toBe(false);
+    expect(lu.factor(Float64Array.of(1))).toEqual({ ok: false, singularIndex: 1 });
+    expect(lu.failure).toBe('missing-values');
   });
 });
 
