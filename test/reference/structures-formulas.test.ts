@@ -259,6 +259,24 @@ describe('estimate against the DC solver on the same circuit', () => {
     }
   }
 
+  it('paralleled reference devices act as one of the summed area', () => {
+    // Source: junction law with IS scaled by area (DESIGN.md) — two paralleled unit references are one 2× reference, so a 1× output gives 1/(1 + 1.5/β)·IREF/2.
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .r('R1', 'vcc', 'a', 4.3e3)
+      .q('Q1', 'a', 'a', '0', 'qn')
+      .q('Q1B', 'a', 'a', '0', 'qn')
+      .q('Q2', 'out', 'a', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    const { s } = solved(b.build());
+    expect(s.outputs[0].ratio).toBe(0.5);
+    check(s.estimate!.iout.Q2, (0.5 * s.estimate!.iref) / (1 + 1.5 / 100), 1e-12);
+    // Same device law on both sides: agreement to 1e-4 (the 18 mV VT·ln 2 error of ignoring the twin would show as 0.4 %).
+    check(s.estimate!.iref, s.solved!.iref, 1e-4);
+    check(s.estimate!.iout.Q2, s.solved!.iout.Q2, 1e-4);
+  });
+
   it('the self-consistent VBE satisfies both the junction law and the reference branch', () => {
     // Source: IREF = (V+ − V− − VBE)/R and VBE = NF·VT·ln(IC/IS + 1) with IC1 = IREF/(1 + 2/β) (Gray et al., ch. 4).
     const { circuit } = fixture('simple-mirror', 'npn');

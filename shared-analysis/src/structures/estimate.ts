@@ -157,6 +157,17 @@ class HandAnalysis {
         phi: positiveOr(get('PHI'), 0.6),
       };
     }
+    // Paralleled diode-connected twins of a simple mirror's reference share its current: the
+    // reference then behaves as one device of the summed geometry.
+    if (name === this.s.reference.device && (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source')) {
+      const total = this.s.devices
+        .filter((d) => this.s.roles?.[d] === 'reference')
+        .reduce((sum, d) => sum + (this.topo.byName.get(d)?.scale ?? 0), 0);
+      if (total > t.scale) {
+        p.isEff *= total / t.scale;
+        p.kBeta *= total / t.scale;
+      }
+    }
     this.params.set(name, p);
     return p;
   }
