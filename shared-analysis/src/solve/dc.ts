@@ -11,7 +11,7 @@ import { createLinearSolver } from './linear';
 import { MnaLayout } from './mna';
 import type { NewtonOutcome } from './newton';
 import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
-import { undeterminedUnknowns } from './diagnose';
+import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
 
@@ -413,8 +413,12 @@ export class DcSolver {
     const c = this.circuit;
     const layout = this.layout;
     // Prefer the null vector's unknowns (what is actually undetermined) over the failed pivot's index.
-    const found = undeterminedUnknowns(layout.pattern, this.engine.lastScaledValues);
-    const unknowns = found.length > 0 ? found : [k];
+    const found =
+      layout.size <= DIAGNOSE_MAX_UNKNOWNS
+        ? undeterminedUnknowns(layout.pattern, this.engine.lastScaledValues, this.engine.lastColumnScales)
+        : undeterminedByShift(layout.pattern, this.engine.lastScaledValues, createLinearSolver, this.engine.lastColumnScales);
+    // The strongest few components name the problem; the tail of a null vector only decays through neighbours.
+    const unknowns = (found.length > 0 ? found : [k]).slice(0, 4);
     const nodeUnknowns = unknowns.filter((u) => layout.unknowns[u]?.kind === 'node');
     const shown = nodeUnknowns.length > 0 ? nodeUnknowns : unknowns;
     const elements = new Set<number>();
@@ -424,7 +428,9 @@ export class DcSolver {
       if (info.kind === 'node') c.elements.forEach((el, i) => el.nodes.includes(info.node) && elements.add(i));
       else elements.add(info.element);
     }
-    const list = [...elements];
+    // A controlled source is the usual culprit, so it is named first and carries the finding.
+    const controlled = (i: number): number => ('EFGH'.includes(c.elements[i].kind) ? 0 : 1);
+    const list = [...elements].sort((p, q) => controlled(p) - controlled(q));
     const what = listNames(shown.map((u) => layout.describeUnknown(u)));
     const f = this.elementFinding(
       'dc-singular-matrix',

@@ -143,6 +143,11 @@ export class NewtonEngine {
     return this.scaled;
   }
 
+  /** The column scales of the last equilibration: unknown k of the scaled system is x[k]/colScale[k]. */
+  get lastColumnScales(): Float64Array {
+    return this.colScale;
+  }
+
   /**
    * Newton from x (updated in place to the final iterate). Convergence needs an
    * unlimited iteration whose update and residual are both within TOLERANCES.
