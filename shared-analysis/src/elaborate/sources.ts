@@ -98,6 +98,16 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
             body.defs.set(key, def);
           }
           allDefs.push(def);
+          const seenPorts = new Map<string, Token>();
+          for (const port of card.ports) {
+            const lower = port.text.toLowerCase();
+            const first = seenPorts.get(lower);
+            if (first) {
+              sink.add('subckt-port-duplicate', `Port \`${port.text}\` is listed twice in subcircuit \`${card.name.text}\`; inside the subcircuit it stands for the node an instance connects at its later position.`, uri, port.span, [
+                { uri, span: first.span, message: `\`${first.text}\` is first listed here.` },
+              ]);
+            } else seenPorts.set(lower, port);
+          }
           // A duplicate is still read (so its cards are checked as written) but nothing can instantiate it.
           stack.push(def.body);
           openHere.push(stack.length);

@@ -121,6 +121,8 @@ describe('checkConnectivity', () => {
       ['V V1 a 0 5', 'L L1 a b 1e-3', 'L L2 b 0 1e-3', 'R R1 a 0 1000'],
       [{ code: 'voltage-source-loop', at: [2, 'card'], message: /`V1`, `L1`, `L2` form a loop.*inductor is a short/ }],
     );
+    check(['V V1 a 0 5', 'E E1 a 0 b 0 2', 'R R1 b 0 1000'], [{ code: 'voltage-source-loop', at: [1, 'card'], message: /`V1`, `E1` form a loop/ }]);
+    check(['V V1 a 0 5', 'H H1 a 0 2', 'R R1 a 0 1000'], [{ code: 'voltage-source-loop', at: [1, 'card'], message: /`V1`, `H1` form a loop/ }]);
     check(['V V1 a a 5', 'R R1 a 0 1'], [{ code: 'voltage-source-loop', at: [0, 'card'], message: /both ends on node `a`/ }]);
   });
 

@@ -500,6 +500,13 @@ describe('subcircuits', () => {
     );
   });
 
+  it('reports a port listed twice', () => {
+    check(`dup port\n.subckt cell a b A\nR1 a b 1k\n.ends\nV1 n 0 1\nX1 n m 0 cell\nRm m 0 1k\n`, {
+      findings: [{ code: 'subckt-port-duplicate', at: { in: 'cell a b A', text: 'A' } }],
+      elements: { 'X1.R1': { nodes: ['0', 'm'] } },
+    });
+  });
+
   it('reports a second definition of the same subcircuit and uses the first', () => {
     check(`dup subckt\n.subckt cell a\nR1 a 0 1k\n.ends\n.subckt CELL a\nR1 a 0 2k\n.ends\nV1 n 0 1\nX1 n cell\n`, {
       findings: [{ code: 'subckt-duplicate', at: 'CELL' }],
