@@ -2,7 +2,7 @@
 
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import type { Circuit, Element } from '../../shared-analysis/src/circuit';
-import type { Card } from '../../shared-analysis/src/syntax/ast';
+import type { Card, Token } from '../../shared-analysis/src/syntax/ast';
 import type { DeviceRecord } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding } from '../../shared-analysis/src/types';
@@ -12,7 +12,11 @@ const PART_SIZE = 1500;
 
 /** One slice of the big arrays of an analysis. */
 export type AnalysisPart =
-  /** Cards as JSON text: plain strings and spans, and far cheaper to cross the thread boundary than a structured clone of many small objects. */
+  /**
+   * Cards as JSON text (far cheaper to cross the thread boundary than a structured clone of many
+   * small objects). Tokens travel once, as `[start, end, isExpression]`, and the card's fields
+   * refer to them by index; their text is sliced back out of the document on arrival.
+   */
   | { kind: 'cards'; uri: string; json: string }
   /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
   | { kind: 'elements'; json: string }
@@ -29,7 +33,7 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
   const documents: Analysis['documents'] = {};
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
-    slices(doc.cards, (items) => ({ kind: 'cards', uri, json: JSON.stringify(items) }));
+    slices(doc.cards, (items) => ({ kind: 'cards', uri, json: JSON.stringify(items.map(encodeCard)) }));
   }
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
@@ -54,7 +58,7 @@ export function mergePart(target: Analysis, part: AnalysisPart): void {
   switch (part.kind) {
     case 'cards': {
       const doc = target.documents[part.uri];
-      if (doc) for (const c of JSON.parse(part.json) as Card[]) doc.cards.push(c);
+      if (doc) for (const c of JSON.parse(part.json) as EncodedCard[]) doc.cards.push(decodeCard(doc.text, c));
       return;
     }
     case 'elements':
@@ -70,6 +74,57 @@ export function mergePart(target: Analysis, part: AnalysisPart): void {
       for (const s of part.items) target.structures.push(s);
       return;
   }
+}
+
+/** A card with its tokens as `[start, end, 1 for an expression]` and token-valued fields as `{ $t: index }`. */
+interface EncodedCard {
+  tokens: [number, number, number][];
+  [field: string]: unknown;
+}
+
+function encodeCard(card: Card): EncodedCard {
+  const index = new Map<Token, number>();
+  card.tokens.forEach((t, i) => index.set(t, i));
+  const encode = (v: unknown): unknown => {
+    if (Array.isArray(v)) return v.map(encode);
+    if (v && typeof v === 'object') {
+      const i = index.get(v as Token);
+      if (i !== undefined) return { $t: i };
+      if (isToken(v)) return { $tok: [v.span.start, v.span.end, v.kind === 'expr' ? 1 : 0] };
+      const out: Record<string, unknown> = {};
+      for (const [k, x] of Object.entries(v)) out[k] = encode(x);
+      return out;
+    }
+    return v;
+  };
+  const out: EncodedCard = { tokens: card.tokens.map((t) => [t.span.start, t.span.end, t.kind === 'expr' ? 1 : 0]) };
+  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = encode(v);
+  return out;
+}
+
+function decodeCard(text: string, enc: EncodedCard): Card {
+  const token = ([start, end, expr]: [number, number, number]): Token => ({ text: text.slice(start, end), span: { start, end }, kind: expr ? 'expr' : 'word' });
+  const tokens = enc.tokens.map(token);
+  const decode = (v: unknown): unknown => {
+    if (Array.isArray(v)) return v.map(decode);
+    if (v && typeof v === 'object') {
+      const tagged = v as { $t?: number; $tok?: [number, number, number] };
+      if (typeof tagged.$t === 'number') return tokens[tagged.$t];
+      if (tagged.$tok) return token(tagged.$tok);
+      const out: Record<string, unknown> = {};
+      for (const [k, x] of Object.entries(v)) out[k] = decode(x);
+      return out;
+    }
+    return v;
+  };
+  const card: Record<string, unknown> = { tokens };
+  for (const [k, v] of Object.entries(enc)) if (k !== 'tokens') card[k] = decode(v);
+  return card as unknown as Card;
+}
+
+function isToken(v: object): v is Token {
+  const t = v as Partial<Token>;
+  return typeof t.text === 'string' && typeof t.kind === 'string' && !!t.span && typeof t.span.start === 'number';
 }
 
 /** An element as JSON-safe data: its model by key, non-finite numbers as `{ $num }`. */

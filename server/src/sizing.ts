@@ -22,7 +22,15 @@ export function sizeResistor(
   const target = Math.abs(parsed.value);
   if (!(target > 0) || !Number.isFinite(target)) return { error: `The target current must be a positive number of amperes, e.g. 250u or 1.2mA; got "${targetText}".` };
   const lower = resistor.toLowerCase();
-  const el = circuit.elements.find((e) => e.name.toLowerCase() === lower);
+  let el = circuit.elements.find((e) => e.name.toLowerCase() === lower);
+  if (!el) {
+    // A card inside a subcircuit body is named by its instances (X1.RSET); accept the bare card name when it is unambiguous.
+    const inner = circuit.elements.filter((e) => e.kind === 'R' && e.name.toLowerCase().endsWith(`.${lower}`));
+    if (inner.length > 1) {
+      return { error: `${resistor} is inside a subcircuit used ${inner.length} times (${inner.map((e) => e.name).join(', ')}); name one instance, and note that the new value changes them all.` };
+    }
+    el = inner[0];
+  }
   if (!el || el.kind !== 'R') return { error: `${resistor} is not a resistor of this netlist.` };
   if (!el.origin.valueSpan) return { error: `${resistor} has no value field that could be rewritten.` };
   const structure = analysis.structures.find((s) => s.reference.elements.some((r) => r.toLowerCase() === lower));
