@@ -684,6 +684,8 @@ export class DcSolver {
         out.push(item('M', el.m));
         return out;
       }
+      default:
+        return [];
     }
   }
 

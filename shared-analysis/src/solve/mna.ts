@@ -40,6 +40,8 @@ export type LinearReader =
   | { kind: 'vccs'; element: number; a: number; b: number; cp: number; cn: number; gain: number }
   | { kind: 'cccs'; element: number; a: number; b: number; branch: number; gain: number };
 
+const KNOWN_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H', 'D', 'Q', 'M']);
+
 /** The MNA system for one circuit: built once, reused by every solve. */
 export class MnaLayout {
   readonly size: number;
@@ -65,13 +67,19 @@ export class MnaLayout {
   private readonly linearList: number[] = [];
 
   constructor(readonly circuit: Circuit) {
-    const nodeCount = circuit.nodes.length;
+    // A circuit always has ground, even if the node list arrived empty.
+    const nodeCount = Math.max(1, circuit.nodes.length);
     for (let i = 1; i < nodeCount; i++) this.unknowns.push({ kind: 'node', node: i });
     const els = circuit.elements;
 
     // Pass 1: check node indices, then number internal nodes and branch currents.
     const internalOf = new Map<number, number>();
     els.forEach((el, i) => {
+      if (!KNOWN_KINDS.has(el.kind)) {
+        this.skipped.add(i);
+        this.layoutIssues.push({ element: i, code: 'dc-bad-node', message: `${el.name} is of a kind the solver does not know, so it is left out.` });
+        return;
+      }
       const need = el.kind === 'Q' ? 3 : el.kind === 'M' || el.kind === 'E' || el.kind === 'G' ? 4 : 2;
       const bad = el.nodes.length < need || el.nodes.slice(0, need).some((n) => !Number.isInteger(n) || n < 0 || n >= nodeCount);
       if (bad) {

@@ -59,10 +59,8 @@ function conductingPairs(el: Element): [number, number][] {
       ];
     case 'M':
       return [[n[0], n[2]]];
-    case 'C':
-    case 'I':
-    case 'G':
-    case 'F':
+    default:
+      // C, I, G and F conduct nothing at DC; anything unrecognised is treated the same way.
       return [];
   }
 }
@@ -74,7 +72,7 @@ export function isVoltageDefining(el: Element): boolean {
 
 /** Groups of nodes with no DC path to ground, with the elements that touch them. `skip` lists elements left out of the solve. */
 export function findFloatingGroups(circuit: Circuit, skip: Set<number>): FloatingGroup[] {
-  const n = circuit.nodes.length;
+  const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
   circuit.elements.forEach((el, i) => {
     if (skip.has(i)) return;
@@ -110,7 +108,7 @@ export function findFloatingGroups(circuit: Circuit, skip: Set<number>): Floatin
 
 /** Every loop closed only by voltage-defining branches (one loop reported per redundant branch). */
 export function findVoltageLoops(circuit: Circuit, skip: Set<number>): VoltageLoop[] {
-  const n = circuit.nodes.length;
+  const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
   const adjacency: { to: number; element: number }[][] = Array.from({ length: n }, () => []);
   const loops: VoltageLoop[] = [];

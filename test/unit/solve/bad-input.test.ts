@@ -349,3 +349,16 @@ describe('singular systems beyond the dense diagnosis size', () => {
     expect(allFinite(r)).toBe(true);
   });
 });
+
+describe('malformed circuits passed directly', () => {
+  it('an empty node list and an element of unknown kind do not crash the solver', () => {
+    const c = circuit([['V', 'V1', 'a', '0', 1], ['R', 'R1', 'a', '0', 1]]);
+    (c.elements as unknown[]).push({ kind: 'Z', name: 'Z1', nodes: [1, 0], origin: { uri: 'test.cir', span: { start: 200, end: 250 }, instances: [] } });
+    const r = solveOperatingPoint(c);
+    expect(r.findings.find((f) => f.code === 'dc-bad-node')?.span).toEqual({ start: 200, end: 250 });
+    expect(r.op.nodes.a).toBe(1);
+    const empty = solveOperatingPoint({ ...circuit([]), nodes: [] });
+    expect(empty.op.converged).toBe(true);
+    expect(allFinite(empty)).toBe(true);
+  });
+});
