@@ -668,6 +668,13 @@ export class ParamScope {
     return this.slots.has(name.toLowerCase());
   }
 
+  /** True when this scope or an outer one defines parameter `name` (constants do not count). */
+  definesVisible(name: string): boolean {
+    const key = name.toLowerCase();
+    for (let s: ParamScope | undefined = this; s; s = s.options.parent) if (s.slots.has(key)) return true;
+    return false;
+  }
+
   /** Every name visible from this scope, lower-case. */
   visibleNames(): string[] {
     const names = new Set<string>(Object.keys(CONSTANTS));

@@ -38,13 +38,13 @@ export function tokenValue(tok: Token, scope: ParamScope, uri: string): ValueRes
   }
   const n = parseNumber(tok.text);
   if (n.ok) return n;
-  if (IDENTIFIER.test(tok.text)) {
+  if (IDENTIFIER.test(tok.text) && scope.definesVisible(tok.text)) {
     const r = scope.lookup(tok.text, tok.span);
     if (r.ok) return r;
-    if (!r.error.inherited) {
-      return { ok: false, message: `\`${tok.text}\` is neither a number nor a parameter in scope.`, span: tok.span };
-    }
-    return { ok: false, message: r.error.message, span: tok.span, related: r.error.related, inherited: true };
+    return { ok: false, message: r.error.message, span: tok.span, related: r.error.related, inherited: r.error.inherited };
+  }
+  if (IDENTIFIER.test(tok.text)) {
+    return { ok: false, message: `\`${tok.text}\` is neither a number nor a parameter in scope.`, span: tok.span };
   }
   return { ok: false, message: n.message, span: tok.span };
 }

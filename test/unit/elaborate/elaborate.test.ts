@@ -158,13 +158,14 @@ describe('values and sources', () => {
   });
 
   it('rejects the resistor-marking style and failed expressions at their spot', () => {
-    check(`bad values\nV1 a 0 5\nR1 a 0 4k7\nR2 a 0 {1k/(2-2)}\nR3 a 0 {rnope}\n`, {
+    check(`bad values\nV1 a 0 5\nR1 a 0 4k7\nR2 a 0 {1k/(2-2)}\nR3 a 0 {rnope}\nR4 a 0 e\n`, {
       findings: [
+        { code: 'element-value-invalid', at: { in: 'R4 a 0 e', text: 'e' }, message: /`e` is neither a number nor a parameter in scope/ },
         { code: 'element-value-invalid', at: '4k7', message: /write 4\.7k/ },
         { code: 'element-value-invalid', at: '(2-2)', message: /Division by zero: `\(2-2\)` is 0/ },
         { code: 'element-value-invalid', at: 'rnope', message: /not a parameter in scope/ },
       ],
-      elements: { R1: null, R2: null, R3: null },
+      elements: { R1: null, R2: null, R3: null, R4: null },
     });
   });
 
