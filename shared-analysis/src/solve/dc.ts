@@ -107,17 +107,18 @@ export class DcSolver {
     const findings: Finding[] = [...this.staticFindings];
     const n = this.layout.size;
     const temperatureC = this.pickTemperature(options, findings);
-    const betaScale = options.betaScale === undefined ? 1 : options.betaScale;
+    const betaScale = this.pickBetaScale(options, findings);
     const conditions: DeviceConditions = {
       temperatureC,
       tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
       vt: thermalVoltage(temperatureC),
-      betaScale: Number.isFinite(betaScale) && betaScale > 0 ? betaScale : 1,
+      betaScale,
       junctionGmin: JUNCTION_GMIN,
     };
     this.engine.prepare(conditions);
     this.applySourceValues(options.sourceValues, findings);
-    const maxIterations = Math.max(1, Math.floor(options.maxIterations ?? DEFAULT_MAX_ITERATIONS));
+    const cap = options.maxIterations;
+    const maxIterations = cap !== undefined && Number.isFinite(cap) ? Math.max(1, Math.min(100000, Math.floor(cap))) : DEFAULT_MAX_ITERATIONS;
     const factorizationsBefore = this.engine.factorizations;
 
     const x = new Float64Array(n);
@@ -256,6 +257,18 @@ export class DcSolver {
       data: { requested: String(t), used: fallback, netlistCodes: ['temperature-invalid'] },
     });
     return fallback;
+  }
+
+  private pickBetaScale(options: SolveOptions, findings: Finding[]): number {
+    const b = options.betaScale;
+    if (b === undefined || (Number.isFinite(b) && b > 0)) return b ?? 1;
+    const first = this.circuit.elements.findIndex((el) => el.kind === 'Q');
+    if (first >= 0) {
+      findings.push(
+        this.elementFinding('dc-value-unusable', 'error', `The beta scale ${String(b)} asked for is not a positive number; BF and BR were used unscaled.`, first),
+      );
+    }
+    return 1;
   }
 
   private applySourceValues(overrides: Record<string, number> | undefined, findings: Finding[]): void {

@@ -74,3 +74,15 @@ describe('DcSolver options', () => {
     expect(r.op.nodes).toEqual({ '0': 0 });
   });
 });
+
+describe('unusable options', () => {
+  it('a non-positive beta scale is reported at the first BJT and ignored; a NaN iteration cap falls back to the default', () => {
+    const s = new DcSolver(mirror);
+    const r = s.solve({ betaScale: 0, maxIterations: NaN });
+    expect(r.op.converged).toBe(true);
+    expect(r.findings.find((f) => f.code === 'dc-value-unusable')?.span).toEqual({ start: 200, end: 250 });
+    const iref = (r.op.devices.RREF as TwoTerminalRecord).current;
+    // Source: Gray et al., 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β) with the unscaled β = 100.
+    expect((r.op.devices.Q2 as BjtRecord).ic / iref).toBeCloseTo(1 / (1 + 2 / 100), 8);
+  });
+});
