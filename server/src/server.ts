@@ -281,7 +281,7 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   for (const inc of Object.keys(analysis.documents)) if (inc !== uri && cache.has(inc)) cache.delete(inc);
   const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
   for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
-  publish(touched);
+  publish(touched, uri);
   // Build the lookup tables now rather than inside the first hover.
   setImmediate(() => {
     if (cache.get(uri)?.analysis === analysis) indexOf(analysis);
@@ -289,8 +289,8 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
 
-/** Publishes, for each document, the findings of every cached analysis that read it. */
-function publish(uris: Iterable<string>): void {
+/** Publishes, for each document, the findings of every cached analysis that read it (`always`: even when there are none, so the client sees the new version). */
+function publish(uris: Iterable<string>, always?: string): void {
   for (const uri of uris) {
     const diagnostics: Diagnostic[] = [];
     const seen = new Set<string>();
@@ -310,7 +310,7 @@ function publish(uris: Iterable<string>): void {
         diagnostics.push(toDiagnostic(f, i, a.version, conv, lookup));
       });
     }
-    if (diagnostics.length === 0 && !published.has(uri)) continue;
+    if (diagnostics.length === 0 && !published.has(uri) && uri !== always) continue;
     void connection.sendDiagnostics({ uri, version, diagnostics });
     if (diagnostics.length) published.add(uri);
     else published.delete(uri);

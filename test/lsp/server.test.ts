@@ -212,3 +212,21 @@ describe('the language server over stdio', () => {
     expect(server.child.exitCode).toBeNull();
   });
 });
+
+describe('position encodings', () => {
+  it('counts characters in UTF-8 when the client prefers it', async () => {
+    const s = await startServer({ settings: { analysisDelayMs: 0, corners: { enabled: false } }, positionEncodings: ['utf-8', 'utf-16'] });
+    try {
+      const u = 'untitled:encoding-check.cir';
+      const text = 'Divider with a non-ASCII node name\nV1 µin 0 DC 10\nR1 µin mid 1k\nR2 mid 0 1k\n.end\n';
+      s.open(u, text);
+      await s.waitFor('diagnostics', () => s.diagnostics.has(u));
+      // "R1 µin " is 7 UTF-16 code units but 8 UTF-8 bytes (µ is two bytes): `mid` starts at byte 8.
+      const hover = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri: u }, position: { line: 2, character: 9 } })) as Hover;
+      expect((hover.contents as MarkupContent).value).toContain('Node **mid**');
+      expect(hover.range).toEqual({ start: { line: 2, character: 8 }, end: { line: 2, character: 11 } });
+    } finally {
+      expect(await s.stop()).toBe(0);
+    }
+  });
+});
