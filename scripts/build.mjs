@@ -15,7 +15,7 @@ const entries = [
   { in: 'client/src/extension.ts', out: 'dist/client.js', external: ['vscode'] },
   { in: 'server/src/server.ts', out: 'dist/server.js', bin: true },
   { in: 'server/src/analysis-worker.ts', out: 'dist/analysis-worker.js' },
-  { in: 'server/src/cli.ts', out: 'dist/cli.js', bin: true },
+  { in: 'server/src/cli-main.ts', out: 'dist/cli.js', bin: true },
   { in: 'bench/solve-bench.ts', out: 'dist/bench-solve.js', optional: true },
 ];
 

@@ -47,7 +47,7 @@ interface CliOptions {
 }
 
 /** Reads files from disk; includes resolve relative to the including file. */
-export class FileWorkspace implements Workspace {
+export class PathWorkspace implements Workspace {
   read(uri: string): string | undefined {
     try {
       return fs.readFileSync(uri, 'utf8');
@@ -164,7 +164,7 @@ function displayPath(absolute: string): string {
 }
 
 function analyseFiles(opts: CliOptions): FileResult[] {
-  const workspace = new FileWorkspace();
+  const workspace = new PathWorkspace();
   return opts.files.map((p) => {
     const absolute = path.resolve(p);
     const text = workspace.read(absolute);
@@ -372,8 +372,4 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
     write(lines.length ? lines.join('\n') + '\n' : '');
   }
   return failing ? 1 : 0;
-}
-
-if (require.main === module) {
-  process.exitCode = main(process.argv.slice(2));
 }
