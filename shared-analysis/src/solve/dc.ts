@@ -136,7 +136,10 @@ export class DcSolver {
       last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations });
       iterations += last.iterations;
       converged = last.status === 'converged';
-      if (!converged && last.status !== 'singular') {
+      if (!converged) {
+        // A singular linearisation may be numerical (one bad iterate); node shunts can step past it.
+        // If the circuit itself is singular, the last step without shunts fails the same way.
+        const singularFirst = last.status === 'singular';
         fallbacks.push('gmin-stepping');
         x.set(start);
         const budget = { remaining: FALLBACK_BUDGET_FACTOR * maxIterations };
@@ -144,7 +147,7 @@ export class DcSolver {
         iterations += g.iterations;
         converged = g.ok;
         last = g.last ?? last;
-        if (!converged) {
+        if (!converged && !singularFirst && last.status !== 'singular') {
           fallbacks.push('source-stepping');
           x.fill(0);
           const s = this.sourceStepping(x, maxIterations, budget);
