@@ -9,9 +9,9 @@ import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { runCorners } from './checks/corners';
 import { readTargets, checkTargets } from './checks/targets';
-import { attachFixes } from './fixes/index';
+import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
-import type { Finding, Workspace } from './types';
+import type { Finding, Fix, Workspace } from './types';
 
 declare const performance: { now(): number };
 
@@ -23,11 +23,29 @@ export interface AnalysisInput {
 }
 
 /**
+ * An Analysis together with what a host keeps to answer later requests on it without
+ * re-solving: the prepared solver of the analysed circuit and its nominal solution (both
+ * absent when nothing was solved). Not plain data; it stays in the process that analysed.
+ */
+export interface AnalysisSession {
+  analysis: Analysis;
+  solver?: DcSolver;
+  nominal?: DcSolveResult;
+}
+
+/**
  * Analyses one top-level netlist: parse, elaborate, netlist checks, DC operating point,
  * structure recognition and hand analysis, corners, targets, fixes. Never throws for any
- * input text; every problem is a finding.
+ * input text; every problem is a finding. Resistor-sizing fixes of `target-missed` findings
+ * are not computed here (each costs several solves): the finding carries `data.sizing`, and
+ * `sizingFixesOf` computes them on demand.
  */
 export function analyse(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}): Analysis {
+  return analyseSession(input, workspace, options).analysis;
+}
+
+/** `analyse`, also returning the prepared solver and the nominal solution for `addCorners` and `sizingFixesOf`. */
+export function analyseSession(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}): AnalysisSession {
   const resolved = resolveOptions(options);
   const timings: Record<string, number> = {};
   const timed = <T>(stage: string, run: () => T): T => {
@@ -48,8 +66,8 @@ export function analyse(input: AnalysisInput, workspace: Workspace, options: Ana
   const structures = timed('structures', () => recogniseStructures(circuit));
   let operatingPoint: Analysis['operatingPoint'];
   let solver: DcSolver | undefined;
+  let nominal: DcSolveResult | undefined;
   if (resolved.solve && circuit.elements.length > 0) {
-    let nominal: DcSolveResult | undefined;
     timed('solve', () => {
       solver = new DcSolver(circuit);
       nominal = solver.solve({ temperatureC: resolved.temperatureC });
@@ -74,9 +92,9 @@ export function analyse(input: AnalysisInput, workspace: Workspace, options: Ana
   } else {
     findings.push(...analyseStructures({ circuit, op: undefined, structures, options: resolved }));
   }
-  timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved, solver }));
+  timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
 
-  return {
+  const analysis: Analysis = {
     uri: input.uri,
     version: input.version,
     documents: elab.documents,
@@ -88,6 +106,57 @@ export function analyse(input: AnalysisInput, workspace: Workspace, options: Ana
     options: resolved,
     timings,
   };
+  return { analysis, solver, nominal: nominal && nominal.op.converged ? nominal : undefined };
+}
+
+/** What `addCorners` needs besides the Analysis: the session's solver and converged nominal solution. */
+export interface CornerPhaseContext {
+  solver: DcSolver;
+  nominal: DcSolveResult;
+}
+
+/**
+ * The second, slower phase for a host that analysed with `corners.enabled = false`: solves the
+ * supply/temperature/beta corners, fills `structure.corners` of `analysis.structures`, records
+ * `timings.corners`, and returns the corner findings and the `target-missed-at-corner` findings,
+ * severities mapped and sorted like `analysis.findings`. `analysis.findings` itself is left as it
+ * is (a host may have published indices into it). Returns [] when the nominal point did not
+ * converge, there are no structures, or the options passed to `analyse` had no corners to
+ * solve (every tolerance zero). Never throws.
+ */
+export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding[] {
+  const circuit = analysis.circuit;
+  if (!circuit || analysis.structures.length === 0 || !ctx.nominal.op.converged) return [];
+  const t0 = performance.now();
+  const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
+  const findings: Finding[] = [];
+  try {
+    findings.push(...runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal }));
+    const { targets } = readTargets(analysis.documents);
+    findings.push(...checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
+  } catch {
+    // The corner phase is an addition; a failure leaves the first-phase analysis standing.
+  }
+  analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
+  return sortFindings(applySeverities(findings, analysis.options), analysis.uri);
+}
+
+/**
+ * The resistor-value fixes of one `target-missed` finding of `session.analysis` (or a copy of
+ * it, e.g. after a JSON round trip), computed now: a few DC solves. Empty for any other
+ * finding, or when the session has no solver.
+ */
+export function sizingFixesOf(session: AnalysisSession, finding: Finding): Fix[] {
+  const { analysis, solver } = session;
+  if (!solver || !analysis.circuit) return [];
+  return sizingFixes(finding, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
+}
+
+/** Appends the sizing fixes to every `target-missed` finding of the session's analysis (for reports that list all fixes). */
+export function attachAllSizingFixes(session: AnalysisSession): void {
+  const { analysis, solver } = session;
+  if (!solver || !analysis.circuit) return;
+  attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
 }
 
 /** Parser errors of every document read, as findings. */

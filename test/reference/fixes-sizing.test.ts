@@ -6,7 +6,7 @@ import { analyseStructures } from '../../shared-analysis/src/checks/structures';
 import { checkTargets, readTargets } from '../../shared-analysis/src/checks/targets';
 import { elaborate } from '../../shared-analysis/src/elaborate/index';
 import { nearestStandardValues, seriesTolerance, seriesValues } from '../../shared-analysis/src/fixes/e-series';
-import { attachFixes } from '../../shared-analysis/src/fixes/index';
+import { attachFixes, attachSizingFixes } from '../../shared-analysis/src/fixes/index';
 import { sizeResistorForCurrent } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
 import type { BjtRecord } from '../../shared-analysis/src/solve/types';
@@ -62,7 +62,9 @@ function check(r1: string, targetText: string, target: number, series: ResistorS
   const a = analyse(text, series);
   const finding = a.findings.find((f) => f.code === 'target-missed');
   expect(finding, 'the wrong resistor misses the target').toBeDefined();
-  attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
+  attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options });
+  // The sizing fix is computed on demand, as for the editor's code-action request.
+  attachSizingFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
   const fixes = finding!.fixes ?? [];
   expect(fixes.length).toBeGreaterThanOrEqual(1);
   const preferred = fixes.filter((f) => f.preferred);
@@ -149,7 +151,9 @@ RLOAD vpos out 10k
   it('offers no value over a parameterised resistor value, and explains a resistor it cannot find', () => {
     const text = netlist('{rref}', '1mA ±2%', '').replace('VPOS', '.param rref=22k\nVPOS');
     const a = analyse(text, 'E24');
-    attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
+    attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options });
+    // The sizing fix is computed on demand, as for the editor's code-action request.
+    attachSizingFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
     const f = a.findings.find((x) => x.code === 'target-missed');
     expect(f).toBeDefined();
     expect(f!.fixes ?? []).toEqual([]);

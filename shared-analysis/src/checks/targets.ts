@@ -495,6 +495,12 @@ export interface TargetCheckContext {
   structures: Structure[];
   targets: Target[];
   options: ResolvedOptions;
+  /**
+   * Which findings to return: `nominal` only the nominal ones (target-unreadable excepted, which
+   * `readTargets` gives), `corners` only `target-missed-at-corner` (for a host that solves the
+   * corners in a second pass), `all` both (the default).
+   */
+  findings?: 'all' | 'nominal' | 'corners';
 }
 
 const fmtA = (v: number): string => formatEngineering(v, { unit: 'A' });
@@ -512,12 +518,14 @@ function formatPercentPlain(t: number): string {
  */
 export function checkTargets(ctx: TargetCheckContext): Finding[] {
   const { circuit, op, structures, targets, options } = ctx;
+  const want = ctx.findings ?? 'all';
+  const nominalWanted = want !== 'corners';
   const findings: Finding[] = [];
   const defaultTolerance = seriesTolerance(options.resistorSeries);
   for (const target of targets) {
     const elements = targetElements(circuit, target);
     if (elements.length === 0) {
-      if (target.subject.kind === 'name') {
+      if (target.subject.kind === 'name' && nominalWanted) {
         findings.push({
           code: 'target-not-applicable',
           severity: TARGET_CODES['target-not-applicable'].severity,
@@ -533,7 +541,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
     const tolerance = target.tolerance ?? defaultTolerance;
     for (const element of elements) {
       if (element.kind === 'C') {
-        findings.push({
+        if (nominalWanted) findings.push({
           code: 'target-not-applicable',
           severity: TARGET_CODES['target-not-applicable'].severity,
           message: `${element.name} is a capacitor, which carries no DC current, so it cannot have a target current.`,
@@ -574,7 +582,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
               ? `${fmtA(solved)} at the operating point`
               : `${fmtA(estimate!)} by hand estimate (the operating point did not converge)`;
         const fixHint = knob ? ` Changing ${knob.resistor} moves it; see the offered values.` : '';
-        findings.push({
+        if (nominalWanted) findings.push({
           code: 'target-missed',
           severity: Math.abs(error) > 3 * tolerance ? 'error' : TARGET_CODES['target-missed'].severity,
           message: `${element.name} carries ${both}, ${formatPercent(error)} from its target of ${fmtA(target.current)} ${fmtTol(tolerance)}.${fixHint}`,
@@ -586,7 +594,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
       }
 
       // Corners: only for elements a structure measures, and only when nominal is on target.
-      if (!role) continue;
+      if (!role || want === 'nominal') continue;
       const cornerTol = target.cornerTolerance ?? tolerance;
       let worst: { label: string; current: number; error: number } | undefined;
       let misses = 0;

@@ -1,4 +1,4 @@
-// Attaches quick fixes to findings: one builder per finding code (missing model, mismatched mirror, missed target current).
+// Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Resistor } from '../circuit';
@@ -15,13 +15,42 @@ import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingRes
 /** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
 const FINER: Record<SeriesName, SeriesName | undefined> = { E12: 'E24', E24: 'E96', E48: 'E96', E96: 'E192', E192: undefined };
 
-/** What the fix builders may use. */
+/** What the eager fix builders may use (no solver: they only edit text). */
 export interface FixContext {
   documents: Record<string, ParsedDocument>;
   circuit?: Circuit;
   structures: Structure[];
   options: ResolvedOptions;
+  /** Ignored by `attachFixes` (sizing runs on demand, see `sizingFixes`); kept so older callers still type-check. */
   solver?: DcSolver;
+}
+
+/** What `sizingFixes` needs: the prepared solver of the analysed circuit (kept by the host between requests). */
+export interface SizingFixContext {
+  circuit: Circuit;
+  solver: DcSolver;
+  structures: Structure[];
+  documents: Record<string, ParsedDocument>;
+  options: ResolvedOptions;
+  /** Sizing results by (resistor, device, target, series), shared across calls; optional. */
+  cache?: Map<string, SizingResult>;
+}
+
+/**
+ * The marker `attachFixes` puts in `finding.data.sizing` of a `target-missed` finding whose
+ * resistor can be sized: what `sizingFixes` needs, as plain data (it survives JSON transfer).
+ */
+export interface SizingRequest {
+  /** Hierarchical name of the resistor to change. */
+  resistor: string;
+  /** The element whose current is the target. */
+  device: string;
+  /** Target current magnitude, amperes. */
+  target: number;
+  /** Relative tolerance of the target (a fraction, 0.02 for ±2 %). */
+  tolerance: number;
+  series: SeriesName;
+  structureId?: string;
 }
 
 type FixBuilder = (finding: Finding, ctx: FixContext) => Fix[];
@@ -45,29 +74,100 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
 const BUILDERS: Record<string, FixBuilder> = {
   'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents),
   'mirror-unmatched': (f, ctx) => unifyMirrorModelFixes(f, ctx.circuit),
-  'target-missed': (f, ctx) => targetFixes(f, ctx),
 };
 
 /**
- * Adds `fixes` to every finding whose code has a builder. A builder that finds nothing to
+ * Adds the cheap text-edit `fixes` to every finding whose code has a builder (missing model,
+ * mismatched mirror), and marks each `target-missed` finding whose resistor could be sized with
+ * `data.sizing` (a `SizingRequest`), without solving anything: the sizing itself is
+ * `sizingFixes`, run when the editor asks for code actions. A builder that finds nothing to
  * offer leaves the finding untouched; fixes already present are kept, new ones appended.
- * Sizing results are cached per (resistor, element, target), so repeated findings cost one sizing.
  */
 export function attachFixes(findings: Finding[], ctx: FixContext): void {
-  const cache = new Map<string, SizingResult>();
-  const withCache: FixContext & { sizingCache?: Map<string, SizingResult> } = { ...ctx, sizingCache: cache };
   for (const f of findings) {
+    if (f.code === 'target-missed') {
+      const request = sizingRequestOf(f, ctx);
+      if (request) f.data = { ...(f.data ?? {}), sizing: request };
+      continue;
+    }
     const build = BUILDERS[f.code];
     if (!build) continue;
     let fixes: Fix[] = [];
     try {
-      fixes = build(f, withCache);
+      fixes = build(f, ctx);
     } catch {
       // A fix is a convenience; a builder failure must not take the finding (or the analysis) down.
       fixes = [];
     }
     if (fixes.length > 0) f.fixes = [...(f.fixes ?? []), ...fixes];
   }
+}
+
+/** The sizing marker of a finding (`data.sizing`), when it carries a well-formed one. */
+export function sizingRequest(finding: Finding): SizingRequest | undefined {
+  const m = finding.data?.['sizing'];
+  if (!m || typeof m !== 'object') return undefined;
+  const r = m as Record<string, unknown>;
+  if (typeof r['resistor'] !== 'string' || typeof r['device'] !== 'string') return undefined;
+  if (typeof r['target'] !== 'number' || !(r['target'] > 0) || !Number.isFinite(r['target'])) return undefined;
+  if (typeof r['series'] !== 'string' || !isSeriesName(r['series'])) return undefined;
+  const tolerance = typeof r['tolerance'] === 'number' && r['tolerance'] > 0 && Number.isFinite(r['tolerance']) ? r['tolerance'] : seriesTolerance(r['series']);
+  return {
+    resistor: r['resistor'],
+    device: r['device'],
+    target: r['target'],
+    tolerance,
+    series: r['series'],
+    structureId: typeof r['structureId'] === 'string' ? r['structureId'] : undefined,
+  };
+}
+
+/**
+ * The resistor-value fixes of one marked `target-missed` finding: the nearest standard values
+ * below and above the exact resistance, each re-solved (plus the closest of the next finer series
+ * when neither meets the tolerance), the closest preferred. Costs a few DC solves; meant for the
+ * moment the editor asks for code actions. Empty for a finding without a `data.sizing` marker, for
+ * a value written as an expression, or when sizing fails. Never throws.
+ */
+export function sizingFixes(finding: Finding, ctx: SizingFixContext): Fix[] {
+  const request = sizingRequest(finding);
+  if (!request) return [];
+  try {
+    return targetFixes(request, { ...ctx, cache: ctx.cache ?? new Map() });
+  } catch {
+    // A fix is a convenience; a sizing failure must not take the request down.
+    return [];
+  }
+}
+
+/**
+ * Runs `sizingFixes` for every marked finding and appends the fixes, for hosts that want them all
+ * up front (the command line's reports). Repeated targets share one sizing.
+ */
+export function attachSizingFixes(findings: Finding[], ctx: SizingFixContext): void {
+  const shared = { ...ctx, cache: ctx.cache ?? new Map<string, SizingResult>() };
+  for (const f of findings) {
+    const fixes = sizingFixes(f, shared);
+    if (fixes.length > 0) f.fixes = [...(f.fixes ?? []), ...fixes];
+  }
+}
+
+/** The sizing marker for a `target-missed` finding from the target check's data, when its resistor can be rewritten. */
+function sizingRequestOf(f: Finding, ctx: FixContext): SizingRequest | undefined {
+  const { circuit, documents } = ctx;
+  const d = f.data ?? {};
+  const resistorName = typeof d['resistor'] === 'string' ? d['resistor'] : undefined;
+  const element = typeof d['element'] === 'string' ? d['element'] : undefined;
+  const target = typeof d['target'] === 'number' ? d['target'] : undefined;
+  if (!circuit || !resistorName || !element || target === undefined || !(target > 0) || !Number.isFinite(target)) return undefined;
+  const r = circuit.elements.find((e) => e.name.toLowerCase() === resistorName.toLowerCase());
+  if (!r || r.kind !== 'R') return undefined;
+  // A value written as an expression or parameter is the user's design intent; do not overwrite it with a number.
+  if (writtenScale(r, documents) === undefined) return undefined;
+  const series: SeriesName = typeof d['series'] === 'string' && isSeriesName(d['series']) ? d['series'] : ctx.options.resistorSeries;
+  const tolerance = typeof d['tolerance'] === 'number' && d['tolerance'] > 0 ? d['tolerance'] : seriesTolerance(series);
+  const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
+  return { resistor: r.name, device: element, target, tolerance, series, ...(structureId ? { structureId } : {}) };
 }
 
 /** The multiplier between a resistor card's written value and its effective resistance (M=), when the written value is a plain number. */
@@ -97,33 +197,26 @@ function cardAt(doc: ParsedDocument | undefined, start: number): ElementCard | u
   return card && card.kind === 'element' ? card : undefined;
 }
 
-/** Resistor-value fixes for a missed target, from the sizing inputs the target check put in `data`. */
-function targetFixes(f: Finding, ctx: FixContext & { sizingCache?: Map<string, SizingResult> }): Fix[] {
+/** Resistor-value fixes for a missed target, from its sizing marker. */
+function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Map<string, SizingResult> }): Fix[] {
   const { circuit, solver, documents } = ctx;
-  const d = f.data ?? {};
-  const resistorName = typeof d['resistor'] === 'string' ? d['resistor'] : undefined;
-  const element = typeof d['element'] === 'string' ? d['element'] : undefined;
-  const target = typeof d['target'] === 'number' ? d['target'] : undefined;
-  if (!circuit || !solver || !resistorName || !element || target === undefined) return [];
-  const r = circuit.elements.find((e) => e.name.toLowerCase() === resistorName.toLowerCase());
+  const { target, series, tolerance } = request;
+  const element = request.device;
+  const r = circuit.elements.find((e) => e.name.toLowerCase() === request.resistor.toLowerCase());
   if (!r || r.kind !== 'R') return [];
-  // A value written as an expression or parameter is the user's design intent; do not overwrite it with a number.
   const scale = writtenScale(r, documents);
   if (scale === undefined) return [];
-  const series: SeriesName = typeof d['series'] === 'string' && isSeriesName(d['series']) ? d['series'] : ctx.options.resistorSeries;
-  const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
-  const structure = structureId ? ctx.structures.find((s) => s.id === structureId) : undefined;
+  const structure = request.structureId ? ctx.structures.find((s) => s.id === request.structureId) : undefined;
 
   const size = (sr: SeriesName, knownIdeal?: number): SizingResult => {
     const key = `${r.name}|${element}|${target}|${sr}`;
-    let sizing = ctx.sizingCache?.get(key);
+    let sizing = ctx.cache.get(key);
     if (!sizing) {
       sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC, knownIdeal });
-      ctx.sizingCache?.set(key, sizing);
+      ctx.cache.set(key, sizing);
     }
     return sizing;
   };
-  const tolerance = typeof d['tolerance'] === 'number' && d['tolerance'] > 0 ? d['tolerance'] : seriesTolerance(series);
   const sizing = size(series);
   const offered: { c: SizingCandidate; series: SeriesName }[] = sizing.candidates.map((c) => ({ c, series }));
   // When neither neighbour in the chosen series meets the target's tolerance, also offer the closest value of a finer series.

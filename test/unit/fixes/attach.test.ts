@@ -5,7 +5,7 @@ import { resolveOptions } from '../../../shared-analysis/src/analysis';
 import { checkTargets, readTargets } from '../../../shared-analysis/src/checks/targets';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { parseNumber } from '../../../shared-analysis/src/elaborate/units';
-import { attachFixes } from '../../../shared-analysis/src/fixes/index';
+import { attachFixes, attachSizingFixes } from '../../../shared-analysis/src/fixes/index';
 import { valueEdit } from '../../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import type { BjtRecord } from '../../../shared-analysis/src/solve/types';
@@ -34,7 +34,9 @@ function prepare(text: string) {
 /** The one helper: the fixes attached to the findings of `code`, applied one by one to the text. */
 function check(text: string, findings: Finding[], code: string, expected: { texts: string[]; preferredIndex?: number; titleSays?: string[] }): void {
   const p = prepare(text);
-  attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
+  attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options });
+  // The sizing fix is computed on demand, as for the editor's code-action request.
+  attachSizingFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
   const f = findings.find((x) => x.code === code)!;
   const fixes = f.fixes ?? [];
   expect(fixes.map((x) => apply(text, x.edits))).toEqual(expected.texts);
@@ -75,7 +77,9 @@ describe('attachFixes', () => {
       { code: 'model-not-found', severity: 'error', message: 'm', uri: URI, span: { start: 12, end: 14 }, data: { modelName: 'QX', expectedKinds: ['npn', 'pnp'] } },
     ];
     const p = prepare(text);
-    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
+    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options });
+    // The sizing fix is computed on demand, as for the editor's code-action request.
+    attachSizingFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
     expect(findings[0].fixes).toHaveLength(2);
     expect(apply(text, findings[0].fixes![1].edits)).toContain('.model QX pnp (');
   });
@@ -96,7 +100,9 @@ describe('attachFixes', () => {
     const p = prepare(text);
     const { targets } = readTargets(p.documents);
     const findings = checkTargets({ circuit: p.circuit, op: p.nominal.op, structures: p.structures, targets, options: p.options });
-    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
+    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options });
+    // The sizing fix is computed on demand, as for the editor's code-action request.
+    attachSizingFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
     const fixes = findings[0].fixes!;
     // 4.3k is already on the card, so writing it is not offered.
     expect(fixes.map((f) => apply(text, f.edits).split('\n')[2])).toEqual(['R1 vcc b 3.9k', 'R1 vcc b 4.12k']);
@@ -111,7 +117,9 @@ describe('attachFixes', () => {
     const p = prepare(text);
     const { targets } = readTargets(p.documents);
     const findings = checkTargets({ circuit: p.circuit, op: p.nominal.op, structures: p.structures, targets, options: p.options });
-    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
+    attachFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options });
+    // The sizing fix is computed on demand, as for the editor's code-action request.
+    attachSizingFixes(findings, { documents: p.documents, circuit: p.circuit, structures: p.structures, options: p.options, solver: p.solver });
     const lines = findings[0].fixes!.map((f) => apply(text, f.edits).split('\n')[2]);
     expect(lines).toEqual(['R1 vcc b 7.8k m=2', 'R1 vcc b 8.24k m=2']);
     // Re-solving the edited text gives the current the title promised.
