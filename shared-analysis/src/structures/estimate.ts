@@ -93,6 +93,8 @@ class HandAnalysis {
   private readonly vt: number;
   private readonly railVolts = new Map<number, number>();
   private readonly params = new Map<string, DeviceParams>();
+  /** The common rail's potential, looked up once (the IREF solve asks for it at every trial current). */
+  private common: { v: number | undefined } | null = null;
 
   constructor(
     private readonly circuit: Circuit,
@@ -182,9 +184,11 @@ class HandAnalysis {
 
   /** Potential of the common (emitter/source) node of the reference, when it is a rail. */
   private commonVolts(): number | undefined {
-    const ref = this.refT();
-    const lower = this.role('lower-diode')[0];
-    return this.railVolts.get((lower ?? ref).common);
+    if (this.common === null) {
+      const lower = this.role('lower-diode')[0];
+      this.common = { v: this.railVolts.get((lower ?? this.refT()).common) };
+    }
+    return this.common.v;
   }
 
   run(): Estimate {
@@ -347,18 +351,43 @@ class HandAnalysis {
     return new HandAnalysis(this.circuit, from, this.at, this.depth + 1).run().iout[dev] ?? 0;
   }
 
-  /** IREF·R + stack(IREF) = available, solved by bisection on log(IREF): the left side rises monotonically with IREF. */
+  /**
+   * IREF·R + stack(IREF) = available, solved on u = ln(IREF): the left side rises monotonically
+   * with IREF, so the root stays bracketed. Regula falsi with the Illinois modification (the
+   * retained end's residual is halved when the same end is kept twice), which converges
+   * superlinearly where plain bisection needs about 50 steps (Dowell and Jarratt, BIT 11, 1971).
+   */
   private solveResistorFed(available: number, ohms: number): number {
     const hi0 = available / ohms;
-    const f = (i: number) => i * ohms + this.chain(i, false).stack - available;
+    const f = (u: number) => {
+      const i = Math.exp(u);
+      return i * ohms + this.chain(i, false).stack - available;
+    };
     let lo = Math.log(hi0 * 1e-18);
     let hi = Math.log(hi0);
-    if (f(Math.exp(lo)) >= 0) return 0;
-    if (f(Math.exp(hi)) <= 0) return hi0;
+    let flo = f(lo);
+    let fhi = f(hi);
+    if (flo >= 0) return 0;
+    if (fhi <= 0) return hi0;
+    // Residuals are in volts: 1e-12 of the supply is far below any printed digit.
+    const tol = 1e-12 * Math.max(available, 1e-3);
+    let side = 0;
     for (let n = 0; n < 200 && hi - lo > 1e-13; n++) {
-      const mid = 0.5 * (lo + hi);
-      if (f(Math.exp(mid)) > 0) hi = mid;
-      else lo = mid;
+      let u = hi - (fhi * (hi - lo)) / (fhi - flo);
+      if (!(u > lo && u < hi)) u = 0.5 * (lo + hi);
+      const fu = f(u);
+      if (Math.abs(fu) <= tol) return Math.exp(u);
+      if (fu > 0) {
+        hi = u;
+        fhi = fu;
+        if (side === 1) flo *= 0.5;
+        side = 1;
+      } else {
+        lo = u;
+        flo = fu;
+        if (side === -1) fhi *= 0.5;
+        side = -1;
+      }
     }
     return Math.exp(0.5 * (lo + hi));
   }
@@ -429,8 +458,9 @@ class HandAnalysis {
   /** The state of the whole structure at one IREF; with `record`, the substituted steps too. */
   private chain(iref: number, record: boolean): ChainState {
     const steps: EstimateStep[] = [];
-    const push = (x: EstimateStep) => {
-      if (record) steps.push(x);
+    // Steps are formatted only when recorded: the IREF solve calls this dozens of times per structure.
+    const push = (x: () => EstimateStep) => {
+      if (record) steps.push(x());
     };
     const iout: Record<string, number> = {};
     const edge: Record<string, number> = {};
@@ -442,24 +472,24 @@ class HandAnalysis {
     const junction = (label: string, p: DeviceParams, i: number, vsb: number): number => {
       if (this.bipolar) {
         const v = this.vbe(p, i);
-        push({
+        push(() => ({
           quantity: `${vName}(${p.t.name})`,
           formula: 'NF·VT·ln(IC/IS(T) + 1), IS scaled by area × M (junction law)',
           substituted: `${sig(p.nfVt / this.vt, 3)} × ${eng(this.vt, 'V', 4)} × ln(${eng(i, 'A')}/${sig(p.isEff, 3)} A + 1)${label}`,
           value: v,
           unit: 'V',
-        });
+        }));
         return v;
       }
       const v = this.vgs(p, i, vsb);
       const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
-      push({
+      push(() => ({
         quantity: `${vName}(${p.t.name})`,
         formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
         substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${eng(p.kBeta, 'A/V²')})${label}`,
         value: v,
         unit: 'V',
-      });
+      }));
       return v;
     };
 
@@ -493,7 +523,7 @@ class HandAnalysis {
           const base = simpleMirrorGain(beta, x.o.ratio, sumSimple) * iref;
           iout[x.o.device] = base * early;
           edge[x.o.device] = vbe1;
-          push({
+          push(() => ({
             quantity: `IOUT(${x.o.device})`,
             formula: `m·IREF/(1 + (1 + Σm)/β)${early !== 1 ? ' × (1 + (VCE2 − VBE)/VA)' : ''} (${GRAY})`,
             substituted:
@@ -501,19 +531,19 @@ class HandAnalysis {
               (early !== 1 ? ` × (1 + (${eng(vce!, 'V')} − ${eng(vbe1, 'V')})/${eng(x.p.va, 'V')})` : ''),
             value: iout[x.o.device],
             unit: 'A',
-          });
+          }));
         }
         for (const x of widlar) {
           const i = wout[x.o.device] ?? 0;
           iout[x.o.device] = i;
           edge[x.o.device] = vbe1;
-          push({
+          push(() => ({
             quantity: `IOUT(${x.o.device})`,
             formula: `NF·VT·ln(m·IC1/IOUT) = IOUT·(1 + 1/β)·R2 (Widlar, IEEE Trans. Circuit Theory, 1965, with the output base current added to R2${wEarly[x.o.device] !== 1 ? '; m × (1 + (VCE2 − VBE)/VA) for the Early effect' : ''})`,
             substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio * (wEarly[x.o.device] ?? 1), 5)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
             value: i,
             unit: 'A',
-          });
+          }));
         }
         return { stack: vbe1, vControl: vbe1, iRef: ic1, iout, edge, steps };
       }
@@ -525,25 +555,25 @@ class HandAnalysis {
         const clm = vds !== undefined ? lambdaFactor(x.p.lambda, vds, vgs1) : 1;
         iout[x.o.device] = x.o.ratio * iref * clm;
         edge[x.o.device] = vgs1 - vth1;
-        push({
+        push(() => ({
           quantity: `IOUT(${x.o.device})`,
           formula: `((W/L)2·M2)/((W/L)1·M1) × IREF${clm !== 1 ? ' × (1 + λ·VDS2)/(1 + λ·VDS1)' : ''} (${RAZAVI})`,
           substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}` + (clm !== 1 ? ` × (1 + ${sig(x.p.lambda)}/V × ${eng(vds!, 'V')})/(1 + ${sig(x.p.lambda)}/V × ${eng(vgs1, 'V')})` : ''),
           value: iout[x.o.device],
           unit: 'A',
-        });
+        }));
       }
       for (const x of widlar) {
         const i = mosWidlarOutput({ iref, beta1: ref.kBeta, beta2: x.p.kBeta, r2: x.o.degeneration!.ohms });
         iout[x.o.device] = i;
         edge[x.o.device] = vgs1 - vth1;
-        push({
+        push(() => ({
           quantity: `IOUT(${x.o.device})`,
           formula: 'sqrt(2·IREF/β1) = sqrt(2·IOUT/β2) + IOUT·R2, β = KP·W/L·M, body effect neglected (square law; Razavi, ch. 5)',
           substituted: `sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}) = sqrt(2·IOUT/${eng(x.p.kBeta, 'A/V²')}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
           value: i,
           unit: 'A',
-        });
+        }));
       }
       return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge, steps };
     }
@@ -570,7 +600,7 @@ class HandAnalysis {
           const irefNet = iref - iPd / (helper.beta + 1);
           iout[x.o.device] = helperMirrorGain(beta, x.o.ratio, sumM) * irefNet * early;
           edge[x.o.device] = vbe1;
-          push({
+          push(() => ({
             quantity: `IOUT(${x.o.device})`,
             formula: `m·(IREF − I_pulldown/(β + 1))/(1 + (1 + Σm)/(β(β + 1)))${early !== 1 ? ' × (1 + (VCE2 − VCE1)/VA), VCE1 = VBE1 + VBE(helper)' : ''} (${GRAY}; pull-down term by node currents)`,
             substituted:
@@ -578,7 +608,7 @@ class HandAnalysis {
               (early !== 1 ? ` × ${sig(early, 5)}` : ''),
             value: iout[x.o.device],
             unit: 'A',
-          });
+          }));
         }
         return { stack: vbe1 + vbeH, vControl: vbe1, iRef: ic1, iout, edge, steps };
       }
@@ -597,13 +627,13 @@ class HandAnalysis {
         const h = vgsH;
         vgs1 = this.vgsWithVds(ref, iref, vsb, (g) => g + h);
       }
-      push({
+      push(() => ({
         quantity: `VGS(${ref.t.name})`,
         formula: 'VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VDS))), VDS = VGS1 + VGS(helper) (square law, Shichman and Hodges, IEEE JSSC, 1968)',
         substituted: `${eng(thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb), 'V')} + sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}/(1 + λ·${eng(vgs1 + vgsH, 'V')}))`,
         value: vgs1,
         unit: 'V',
-      });
+      }));
       junction(' (helper: carries the pull-down current)', helper, iH, vsb + vgs1);
       const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb);
       for (const x of outs) {
@@ -612,13 +642,13 @@ class HandAnalysis {
         const clm = vds !== undefined ? lambdaFactor(x.p.lambda, vds, vgs1 + vgsH) : 1;
         iout[x.o.device] = x.o.ratio * iref * clm;
         edge[x.o.device] = vgs1 - vth1;
-        push({
+        push(() => ({
           quantity: `IOUT(${x.o.device})`,
           formula: `((W/L)·M ratio) × IREF${clm !== 1 ? ' × (1 + λ·VDS2)/(1 + λ·VDS1), VDS1 = VGS1 + VGS(helper)' : ''} (${RAZAVI})`,
           substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
           value: iout[x.o.device],
           unit: 'A',
-        });
+        }));
       }
       return { stack: vgs1 + vgsH, vControl: vgs1, iRef: iref, iout, edge, steps };
     }
@@ -637,13 +667,13 @@ class HandAnalysis {
         iout[x0.o.device] = cascodeGain(beta, m) * iref;
         // The output's collector must stay above its base (node A) for VBC ≤ 0.
         edge[x0.o.device] = vLow + vTop;
-        push({
+        push(() => ({
           quantity: `IOUT(${x0.o.device})`,
           formula: `m·x·β/(β + 1) with IREF = x·(1 + (1 + m)/β + m/(β + 1)) ≈ IREF·(1 − 4/β) matched (${GRAY}; node currents)`,
           substituted: `${sig(m)} × ${eng(ic1, 'A')} × ${sig(beta)}/${sig(beta + 1)}`,
           value: iout[x0.o.device],
           unit: 'A',
-        });
+        }));
         return { stack: vLow + vTop, vControl: vTop, iRef: ic1, iout, edge, steps };
       }
       const vsb = this.vsbBase(lowerDiode);
@@ -653,7 +683,7 @@ class HandAnalysis {
       const vthOut = thresholdWithBody(out.vto, out.gamma, out.phi, vsb + vLow);
       iout[x0.o.device] = m * iref;
       edge[x0.o.device] = vLow + vTop - vthOut;
-      push({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; λ effect suppressed by the cascode (${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' });
+      push(() => ({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; λ effect suppressed by the cascode (${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' }));
       return { stack: vLow + vTop, vControl: vTop, iRef: iref, iout, edge, steps };
     }
 
@@ -671,13 +701,13 @@ class HandAnalysis {
       iout[x0.o.device] = wilsonGain(beta, m * early) * iref;
       edge[x0.o.device] = vLow + vOut;
       const vRef = this.vbe(ref, x / m);
-      push({
+      push(() => ({
         quantity: `IOUT(${x0.o.device})`,
         formula: `IREF·(1 − 2/(β² + 2β + 2)) for a matched ${kindName} mirror, node currents when ratioed (${GRAY})`,
         substituted: `${eng(iref, 'A')} × (1 − 2/(${sig(beta)}² + 2 × ${sig(beta)} + 2))${m !== 1 ? ` (ratio ${sig(m)})` : ''}${early !== 1 ? ` with the lower ratio × (1 + (VBE − 2·VBE)/VA) = × ${sig(early, 5)}` : ''}`,
         value: iout[x0.o.device],
         unit: 'A',
-      });
+      }));
       return { stack: vLow + vOut, vControl: vRef, iRef: x / m, iout, edge, steps };
     }
     // MOS Wilson: Q1 (the input device) carries IREF at VDS1 = VGS2 + VGS3 (− VGS4 in the improved form);
@@ -706,13 +736,13 @@ class HandAnalysis {
     const clm = io / (m * iref || 1);
     iout[x0.o.device] = io;
     edge[x0.o.device] = vLow + vOut - vthOut;
-    push({
+    push(() => ({
       quantity: `IOUT(${x0.o.device})`,
       formula: `((W/L)·M ratio) × IREF × (1 + λ·VGS2)/(1 + λ·VDS1), VDS1 = VGS2 + VGS3${improved ? ' − VGS4' : ''}; feedback holds the ratio (${kindName}, ${RAZAVI})`,
       substituted: `${sig(m)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
       value: io,
       unit: 'A',
-    });
+    }));
     return { stack: vLow + vOut, vControl: improved ? vTop : vLow, iRef: iref, iout, edge, steps };
   }
 }
