@@ -7,7 +7,7 @@ import { checkConnectivity } from './checks/connectivity';
 import { DcSolver, type DcSolveResult } from './solve/dc';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
-import { runCorners } from './checks/corners';
+import { runCorners, type CornerStats } from './checks/corners';
 import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
@@ -113,6 +113,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
 export interface CornerPhaseContext {
   solver: DcSolver;
   nominal: DcSolveResult;
+  /** When given, filled with the corner solves' effort (solve vs measurement time). */
+  stats?: CornerStats;
 }
 
 /**
@@ -131,7 +133,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
   const findings: Finding[] = [];
   try {
-    findings.push(...runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal }));
+    findings.push(...runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats }));
     const { targets } = readTargets(analysis.documents);
     findings.push(...checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
   } catch {
