@@ -206,7 +206,9 @@ function schedule(uri: string, delay = settings.analysisDelayMs): void {
   if (running && running.uri === uri && !running.superseded) {
     running.superseded = true;
     const job = running;
-    const expected = cache.get(uri)?.ms ?? 0;
+    // Only a run with a known typical duration can be "far past" it; a first run is left to the hard deadline.
+    const expected = cache.get(uri)?.ms;
+    if (expected === undefined) return;
     setTimeout(() => {
       if (running === job) {
         log(`The superseded analysis of ${uri} is still running after ${Math.round((Date.now() - job.started) / 1000)} s; restarting the worker.`);
@@ -427,8 +429,11 @@ documents.onDidClose((e) => {
   const touched = new Set<string>([uri, ...(entry ? Object.keys(entry.analysis.documents) : [])]);
   // Netlists that include the closed file now read it from disk again.
   for (const root of dependants(uri)) schedule(root);
+  touched.delete(uri);
   publish(touched);
-  if (published.has(uri) || !holderOf(uri)) {
+  // A closed netlist's problems go away with it, unless another open netlist includes the file.
+  if (holderOf(uri)) publish([uri]);
+  else {
     void connection.sendDiagnostics({ uri, diagnostics: [] });
     published.delete(uri);
   }

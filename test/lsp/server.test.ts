@@ -9,6 +9,7 @@ import { TextDocument } from 'vscode-languageserver-textdocument';
 import {
   CodeActionRequest,
   DidChangeWatchedFilesNotification,
+  DidCloseTextDocumentNotification,
   FileChangeType,
   HoverRequest,
   InlayHintRequest,
@@ -185,6 +186,17 @@ describe('the language server over stdio', () => {
     // Hover inside the included file answers from the includer's analysis.
     const hover = (await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: incUri }, position: { line: 0, character: 8 } })) as Hover | null;
     expect((hover?.contents as MarkupContent | undefined)?.value).toContain('Model **QX**');
+
+    // Closing the included file hands it back to the disk (which still defines QY).
+    await server.connection.sendNotification(DidCloseTextDocumentNotification.type, { textDocument: { uri: incUri } });
+    await server.waitFor('QY found again from the disk', () => {
+      const p = server.diagnostics.get(top);
+      return p && !p.diagnostics.some((d) => d.code === 'model-not-found');
+    });
+    // Closing the netlist clears its diagnostics.
+    const before = server.publishCount.get(top) ?? 0;
+    await server.connection.sendNotification(DidCloseTextDocumentNotification.type, { textDocument: { uri: top } });
+    await server.waitFor('cleared diagnostics', () => (server.publishCount.get(top) ?? 0) > before && server.diagnosticsOf(top).length === 0);
   });
 
   it('survives bad requests and keeps answering', async () => {
