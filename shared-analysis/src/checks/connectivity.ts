@@ -113,16 +113,21 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
 
   // Terminal counts and the first terminal of each node.
   const count = new Int32Array(nodeCount);
-  const first: (Terminal | undefined)[] = new Array(nodeCount);
+  const firstElement = new Int32Array(nodeCount).fill(-1);
+  const firstSlot = new Int32Array(nodeCount);
   for (let i = 0; i < elements.length; i++) {
     const ns = elements[i]!.nodes;
     for (let s = 0; s < ns.length; s++) {
       const k = ns[s]!;
-      if (k < 0 || k >= nodeCount) continue;
+      if (!(k >= 0 && k < nodeCount)) continue;
       count[k]!++;
-      if (!first[k]) first[k] = { element: i, slot: s };
+      if (firstElement[k] === -1) {
+        firstElement[k] = i;
+        firstSlot[k] = s;
+      }
     }
   }
+  const first = (k: number): Terminal => ({ element: firstElement[k]!, slot: firstSlot[k]! });
 
   const hasGround = count[0]! > 0;
   if (!hasGround) {
@@ -174,9 +179,9 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
       }
       for (const [root, group] of groups) {
         for (const k of group) floating.add(k);
-        const at = terminalAt(first[group[0]!]!);
+        const at = terminalAt(first(group[0]!));
         const related: RelatedLocation[] = group.slice(1, MAX_RELATED + 1).map((k) => ({
-          ...terminalAt(first[k]!),
+          ...terminalAt(first(k)),
           message: `Node \`${nodes[k]}\` is in the same group.`,
         }));
         const cut = crossing.get(root);
@@ -205,7 +210,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
             message:
               `${subject} ${plural ? 'have' : 'has'} no DC path to ground: capacitors are open at DC, and MOSFET gates and controlled-source inputs draw no current, so the ${plural ? 'voltages are' : 'voltage is'} not determined.${single}`,
             ...at,
-            related: [...viaInstance(first[group[0]!]!), ...related],
+            related: [...viaInstance(first(group[0]!)), ...related],
             data: { nodes: group.slice(0, 100).map((k) => nodes[k]) },
           });
         }
@@ -216,7 +221,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
   // Nodes with one terminal (those already reported as floating are not repeated).
   for (let k = 1; k < nodeCount; k++) {
     if (count[k] !== 1 || floating.has(k)) continue;
-    const t = first[k]!;
+    const t = first(k);
     const e = elements[t.element]!;
     findings.push({
       code: 'node-single-connection',
@@ -230,15 +235,21 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
 
   // Loops of voltage-forcing elements.
   const loops = new DisjointSets(nodeCount);
-  const forest: { to: number; element: number }[][] = Array.from({ length: nodeCount }, () => []);
+  // Adjacency of the spanning forest, allocated only for nodes that voltage-forcing elements touch.
+  const forest = new Map<number, { to: number; element: number }[]>();
+  const edgesOf = (k: number) => {
+    let list = forest.get(k);
+    if (!list) forest.set(k, (list = []));
+    return list;
+  };
   for (let i = 0; i < elements.length; i++) {
     const e = elements[i]!;
     if (!forcesVoltage(e) || e.nodes.length < 2) continue;
     const [a, b] = [e.nodes[0]!, e.nodes[1]!];
     if (!inRange(a, nodeCount) || !inRange(b, nodeCount)) continue;
     if (loops.union(a, b)) {
-      forest[a]!.push({ to: b, element: i });
-      forest[b]!.push({ to: a, element: i });
+      edgesOf(a).push({ to: b, element: i });
+      edgesOf(b).push({ to: a, element: i });
       continue;
     }
     const members = a === b ? [i] : [...pathInForest(forest, a, b), i].sort((x, y) => x - y);
@@ -269,14 +280,14 @@ function inRange(k: number, n: number): boolean {
 }
 
 /** The elements on the path from a to b in a forest (breadth-first; the path exists because a and b share a tree). */
-function pathInForest(forest: { to: number; element: number }[][], a: number, b: number): number[] {
+function pathInForest(forest: Map<number, { to: number; element: number }[]>, a: number, b: number): number[] {
   const via = new Map<number, { from: number; element: number }>();
   via.set(a, { from: -1, element: -1 });
   const queue = [a];
   for (let q = 0; q < queue.length; q++) {
     const x = queue[q]!;
     if (x === b) break;
-    for (const edge of forest[x]!) {
+    for (const edge of forest.get(x) ?? []) {
       if (via.has(edge.to)) continue;
       via.set(edge.to, { from: x, element: edge.element });
       queue.push(edge.to);

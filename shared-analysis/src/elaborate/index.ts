@@ -68,8 +68,6 @@ interface Instance {
   instances: Origin['instances'];
   /** Model maps to search, innermost first; `null` marks a model whose card is unusable. */
   modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string }>[];
-  /** Lower-case element name -> card, for duplicates within this scope. */
-  names: Map<string, Located<ElementCard>>;
 }
 
 /**
@@ -99,7 +97,8 @@ class Elaborator {
   private readonly nodes: string[] = ['0'];
   private readonly nodeIndex = new Map<string, number>([['0', 0]]);
   private readonly elements: Element[] = [];
-  private readonly elementByName = new Map<string, Element>();
+  /** Lower-case hierarchical name -> the card that first used it (elements and instances), for duplicates. */
+  private readonly names = new Map<string, Located<ElementCard>>();
   private readonly models: Record<string, Model> = {};
   private readonly controls: { element: Cccs | Ccvs; token: Token; uri: string; full: string }[] = [];
   private readonly modelSymbols = new Map<string, ModelSymbol>();
@@ -136,7 +135,6 @@ class Elaborator {
       chain: [],
       instances: [],
       modelScopes: [new Map()],
-      names: new Map(),
     };
     this.flattenBody(topInstance);
     this.resolveControls();
@@ -264,15 +262,15 @@ class Elaborator {
       this.instantiate(item, inst);
       return;
     }
-    const lowerName = card.name.text.toLowerCase();
-    const first = inst.names.get(lowerName);
+    const lowerName = (inst.prefix + card.name.text).toLowerCase();
+    const first = this.names.get(lowerName);
     if (first) {
       this.sink.add('element-duplicate-name', `An element named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
         { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
       ]);
       return;
     }
-    inst.names.set(lowerName, item);
+    this.names.set(lowerName, item);
     if (this.elements.length >= this.maxElements) {
       this.reportTooLarge(uri, card.span);
       return;
@@ -306,7 +304,6 @@ class Elaborator {
     const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
     if (valueToken) origin.valueSpan = valueToken.span;
     if (card.model) origin.modelSpan = card.model.span;
-    const base = { name, nodes, origin };
     const multiplier = (): number => this.positive(params.get('M'), inst, uri, card, 'parallel count M');
 
     let element: Element | undefined;
@@ -325,7 +322,7 @@ class Elaborator {
         } else if (v < 0) {
           this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
         }
-        element = { ...base, kind: 'R', resistance: v / m };
+        element = { name, nodes, origin, kind: 'R', resistance: v / m };
         break;
       }
       case 'C':
@@ -335,7 +332,7 @@ class Elaborator {
           this.sink.add('element-value-missing', `${noun} \`${card.name.text}\` has no value; it is kept, since at DC a ${card.letter === 'C' ? 'capacitor is open' : 'inductor is a short'} whatever its value.`, uri, card.name.span);
         }
         const v = card.value ? this.value(card.value, inst, uri, `the value of \`${card.name.text}\``, `It is kept, since at DC a ${card.letter === 'C' ? 'capacitor is open' : 'inductor is a short'} whatever its value.`) : undefined;
-        element = card.letter === 'C' ? { ...base, kind: 'C', capacitance: v ?? 0 } : { ...base, kind: 'L', inductance: v ?? 0 };
+        element = card.letter === 'C' ? { name, nodes, origin, kind: 'C', capacitance: v ?? 0 } : { name, nodes, origin, kind: 'L', inductance: v ?? 0 };
         break;
       }
       case 'V':
@@ -349,7 +346,7 @@ class Elaborator {
           const v = this.value(tok, inst, uri, `the DC value of \`${card.name.text}\``, `The source is taken as 0 ${unit}.`);
           if (v !== undefined) dc = v;
         }
-        element = card.letter === 'V' ? { ...base, kind: 'V', dc } : { ...base, kind: 'I', dc };
+        element = card.letter === 'V' ? { name, nodes, origin, kind: 'V', dc } : { name, nodes, origin, kind: 'I', dc };
         break;
       }
       case 'E':
@@ -363,10 +360,10 @@ class Elaborator {
         const gain = this.value(card.value, inst, uri, `the gain of \`${card.name.text}\``, 'The controlled source is left out of the analysis.');
         if (gain === undefined) return;
         if (card.letter === 'E' || card.letter === 'G') {
-          element = { ...base, kind: card.letter, gain };
+          element = { name, nodes, origin, kind: card.letter, gain };
         } else {
           if (!card.control) return;
-          const el: Cccs | Ccvs = { ...base, kind: card.letter, control: inst.prefix + card.control.text, gain };
+          const el: Cccs | Ccvs = { name, nodes, origin, kind: card.letter, control: inst.prefix + card.control.text, gain };
           this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text });
           element = el;
         }
@@ -379,7 +376,7 @@ class Elaborator {
         const areaTok = card.area ?? params.get('AREA')?.value;
         const area = areaTok ? this.positiveToken(areaTok, inst, uri, card, 'area factor') : 1;
         const m = multiplier();
-        element = card.letter === 'D' ? { ...base, kind: 'D', model, area, m } : { ...base, kind: 'Q', model, area, m };
+        element = card.letter === 'D' ? { name, nodes, origin, kind: 'D', model, area, m } : { name, nodes, origin, kind: 'Q', model, area, m };
         break;
       }
       case 'M': {
@@ -398,21 +395,11 @@ class Elaborator {
             { missing, defaultMetres: DEFAULT_MOS_SIZE },
           );
         }
-        element = { ...base, kind: 'M', model, w, l, m: multiplier() };
+        element = { name, nodes, origin, kind: 'M', model, w, l, m: multiplier() };
         break;
       }
     }
-    if (!element) return;
-    const globalKey = name.toLowerCase();
-    if (this.elementByName.has(globalKey)) {
-      const other = this.elementByName.get(globalKey)!;
-      this.sink.add('element-duplicate-name', `Flattened name \`${name}\` is already used by another element; this one is left out.`, uri, card.name.span, [
-        { uri: other.origin.uri, span: other.origin.span, message: `\`${other.name}\` is defined here.` },
-      ]);
-      return;
-    }
-    this.elementByName.set(globalKey, element);
-    this.elements.push(element);
+    if (element) this.elements.push(element);
   }
 
   /** Element parameters by upper-case name; reports unknown ones. */
@@ -531,15 +518,15 @@ class Elaborator {
     const { card, uri } = item;
     const subTok = card.subckt;
     if (!subTok) return;
-    const lowerName = card.name.text.toLowerCase();
-    const first = inst.names.get(lowerName);
+    const lowerName = (inst.prefix + card.name.text).toLowerCase();
+    const first = this.names.get(lowerName);
     if (first) {
       this.sink.add('element-duplicate-name', `An instance named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
         { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
       ]);
       return;
     }
-    inst.names.set(lowerName, item);
+    this.names.set(lowerName, item);
     const def = this.findDef(inst.body, subTok.text);
     if (!def) {
       const known = this.visibleDefs(inst.body);
@@ -631,16 +618,18 @@ class Elaborator {
       chain: [...inst.chain, def],
       instances: [...inst.instances, { name: card.name.text, uri, span: card.span }],
       modelScopes: [new Map(), ...inst.modelScopes],
-      names: new Map(),
     };
     this.flattenBody(child);
   }
 
   /** Resolves F and H controls against the flattened voltage sources; drops those whose control does not exist. */
   private resolveControls(): void {
+    if (this.controls.length === 0) return;
+    const byName = new Map<string, Element>();
+    for (const e of this.elements) byName.set(e.name.toLowerCase(), e);
     const dropped = new Set<Element>();
     for (const c of this.controls) {
-      const target = this.elementByName.get(c.full.toLowerCase());
+      const target = byName.get(c.full.toLowerCase());
       if (target && target.kind === 'V') {
         c.element.control = target.name;
         continue;
@@ -655,7 +644,6 @@ class Elaborator {
     const kept = this.elements.filter((e) => !dropped.has(e));
     this.elements.length = 0;
     this.elements.push(...kept);
-    for (const e of dropped) this.elementByName.delete(e.name.toLowerCase());
   }
 
   /**
