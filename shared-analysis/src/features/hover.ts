@@ -96,11 +96,11 @@ function deviceHover(analysis: Analysis, uri: string, card: ElementCard, span: S
   if (elements.length === 0) {
     return { markdown: `**${card.name.text}** — not part of the elaborated circuit (see the findings on this line).`, span };
   }
-  const sections = elements.map((el) => elementSection(analysis, el, elements.length > 1));
+  const sections = elements.map((el) => elementSection(analysis, el));
   return { markdown: sections.join('\n\n---\n\n'), span };
 }
 
-function elementSection(analysis: Analysis, el: Element, showName: boolean): string {
+function elementSection(analysis: Analysis, el: Element): string {
   const op = analysis.operatingPoint;
   const rec: DeviceRecord | undefined = op?.devices[el.name];
   const lines: string[] = [];
@@ -150,7 +150,6 @@ function elementSection(analysis: Analysis, el: Element, showName: boolean): str
     lines.push(bullet(items));
   }
   for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));
-  void showName;
   return lines.join('\n\n');
 }
 

@@ -32,7 +32,7 @@ function targetAt(analysis: Analysis, uri: string, offset: number): Target | und
 
   if (card.kind === 'include' || card.kind === 'lib') {
     if (sameToken(token, card.path)) {
-      const inc = analysis.symbols.includes.find((i) => i.uri === uri && i.span.start <= token.span.start && token.span.end <= i.span.end + 2);
+      const inc = analysis.symbols.includes.find((i) => i.uri === uri && i.span.start < token.span.end && token.span.start < i.span.end);
       if (inc) return { kind: 'include', target: inc.target, span: token.span };
     }
     return undefined;

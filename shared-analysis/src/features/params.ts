@@ -64,7 +64,7 @@ export function resolveParam(analysis: Analysis, uri: string, scope: SubcktScope
     const local = matches.find((p) => p.scope === scope.name);
     if (local) return local;
   }
-  return matches.find((p) => p.scope === '') ?? (scope ? undefined : undefined);
+  return matches.find((p) => p.scope === '');
 }
 
 /** The tokens of a card that may refer to parameters: expressions and assignment values. */
