@@ -339,6 +339,24 @@ function mathjsWorker(): void {
   parentPort!.postMessage({ done: true });
 }
 
+/**
+ * The mirror cell by hand: IREF = (VCC − VBE)/RREF with VBE = VT·ln(IREF/IS), then
+ * IOUT ≈ IREF·(1 + (VCE2 − VBE)/VA)/(1 + 2/β) with VCE2 = VCC − RLOAD·IOUT.
+ * Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 (simple mirror with finite β and Early effect).
+ */
+function handMirrorOutput(): { iout: number; vce: number } {
+  const vt = (1.380649e-23 * 300.15) / 1.602176634e-19;
+  let vbe = 0.7;
+  let iref = 0;
+  for (let k = 0; k < 50; k++) {
+    iref = (5 - vbe) / 4.3e3;
+    vbe = vt * Math.log(iref / 1e-16);
+  }
+  let iout = iref;
+  for (let k = 0; k < 50; k++) iout = (iref * (1 + (5 - 2e3 * iout - vbe) / 80)) / (1 + 2 / 100);
+  return { iout, vce: 5 - 2e3 * iout };
+}
+
 // ---------------------------------------------------------------- report
 
 function fmtMs(ms: number): string {
@@ -487,7 +505,10 @@ async function main(): Promise<void> {
     if (nc.cells === 1_000) target2k = { solve: median(solve), both: median(both), converged: last.op.converged };
     if (last.op.converged) {
       const q = last.op.devices['QOUT0'];
-      if (q && q.type === 'bjt') console.log(`${' '.repeat(nw[0])} check: QOUT0 IC = ${(q.ic * 1e3).toFixed(4)} mA, VCE = ${q.vce.toFixed(3)} V (hand estimate ≈ 1 mA)`);
+      if (q && q.type === 'bjt') {
+        const hand = handMirrorOutput();
+        console.log(`${' '.repeat(nw[0])} check: QOUT0 IC = ${(q.ic * 1e3).toFixed(4)} mA at VCE = ${q.vce.toFixed(3)} V; hand analysis ${(hand.iout * 1e3).toFixed(4)} mA at ${hand.vce.toFixed(3)} V`);
+      }
     }
   }
   console.log('');
