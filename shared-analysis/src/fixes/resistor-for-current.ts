@@ -31,6 +31,12 @@ export interface SizingContext {
   device?: string;
   /** An exact resistance found by an earlier sizing of the same target (another series): skips the refinement. */
   knownIdeal?: number;
+  /**
+   * What each trial solve covers: `affected-block` (the default) only the part of the circuit a
+   * change of the resistor can reach (see `affectedBlock`), falling back to the whole circuit when
+   * no smaller block exists; `whole-circuit` always the whole circuit (for checks of the former).
+   */
+  scope?: 'affected-block' | 'whole-circuit';
 }
 
 /** One standard value and what it gives. */
@@ -128,7 +134,13 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
 
   let solves = 0;
   const baseOptions = { temperatureC: ctx.temperatureC };
-  const baseline = ctx.solver.solve(baseOptions);
+  // Every trial rebuilds a solver for the changed circuit, so the trials are solved on the smallest
+  // part of the circuit that a change of this resistor can move, when one exists.
+  const structureDevices = structure ? [...structure.devices, ...structure.reference.elements] : [];
+  const block = ctx.scope === 'whole-circuit' ? undefined : affectedBlock(circuit, resistor, [deviceName, ...structureDevices]);
+  const work = block ?? circuit;
+  const workResistor = block ? (findElement(block, resistor.name) as Resistor) : resistor;
+  const baseline = (block ? new DcSolver(block) : ctx.solver).solve(baseOptions);
   solves++;
   if (!baseline.op.converged) {
     return fail('The circuit has no converged operating point to size from, so no resistor value is offered.', deviceName, solves);
@@ -140,7 +152,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const measure = (ohms: number): { current: number } | undefined => {
     if (seen.has(ohms)) return seen.get(ohms);
     solves++;
-    const solver = new DcSolver(withResistance(circuit, resistor, ohms));
+    const solver = new DcSolver(withResistance(work, workResistor, ohms));
     const result = solver.solve({ ...baseOptions, initialGuess: warm });
     const current = result.op.converged ? currentOf(result.op, deviceName) : undefined;
     const out = current === undefined ? undefined : { current };
@@ -169,7 +181,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const vR = rRec && rRec.type === 'resistor' ? Math.abs(rRec.voltage) : Math.abs(currentOf(baseline.op, resistor.name) ?? 0) * resistor.resistance;
   const iR = currentOf(baseline.op, resistor.name) ?? 0;
   if (structure && role === 'widlar' && actedOn && deviceName.toLowerCase() === actedOn.device.toLowerCase()) {
-    const m = measureStructure(circuit, baseline.op, structure);
+    const m = measureStructure(work, baseline.op, structure);
     const nf = deviceNf(circuit, actedOn.device);
     if (!(m.iref > target)) {
       return fail(
@@ -272,6 +284,80 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const candidates = standard.candidates;
   problem = problem ?? standard.problem;
   return { ideal, candidates, device: deviceName, firstValueFrom, solves, problem };
+}
+
+/** Below this share of the whole circuit's elements a block is worth solving on its own. */
+const BLOCK_WORTHWHILE = 0.5;
+
+/**
+ * The part of `circuit` whose operating point a change of `resistor` can move, as a circuit of
+ * its own (nodes renumbered, names kept), or undefined when that is (nearly) the whole circuit
+ * or cannot be told.
+ *
+ * A node whose voltage is fixed by ideal voltage sources to ground (a supply rail: ground, then
+ * every node joined to a fixed one through a V source) does not move whatever the rest does, so the
+ * nodal equations of the nodes reached from the resistor without crossing a fixed node involve only
+ * the elements touching them and the fixed voltages (nodal analysis: a node held by an ideal
+ * voltage source is no unknown). The block is those elements
+ * plus the V sources that fix its rail voltages; its solution equals the whole circuit's at every
+ * element it holds (but the rail sources, whose currents include the rest of the circuit's). Circuits with controlled sources (whose control may sit anywhere) are not
+ * split, nor is one where some element in `mustHold` falls outside the block or is a fixing source.
+ */
+export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): Circuit | undefined {
+  const n = circuit.nodes.length;
+  if (n === 0 || circuit.elements.some((e) => e.kind === 'E' || e.kind === 'G' || e.kind === 'F' || e.kind === 'H')) return undefined;
+  const valid = (e: Element): boolean => e.nodes.every((k) => Number.isInteger(k) && k >= 0 && k < n);
+  if (!circuit.elements.every(valid)) return undefined;
+
+  // Nodes fixed by V sources to ground, to a fixed point.
+  const fixed = new Uint8Array(n);
+  fixed[0] = 1;
+  const vs = circuit.elements.filter((e) => e.kind === 'V');
+  // A source the solver would leave out (unusable value) fixes nothing.
+  if (vs.some((v) => !Number.isFinite(v.dc))) return undefined;
+  for (let changed = true; changed; ) {
+    changed = false;
+    for (const v of vs) {
+      const [a, b] = v.nodes;
+      if (fixed[a] && !fixed[b]) (fixed[b] = 1), (changed = true);
+      else if (fixed[b] && !fixed[a]) (fixed[a] = 1), (changed = true);
+    }
+  }
+  const pinning = vs.filter((v) => fixed[v.nodes[0]] && fixed[v.nodes[1]]);
+
+  // Node -> elements touching it.
+  const touching: Element[][] = Array.from({ length: n }, () => []);
+  for (const e of circuit.elements) for (const k of new Set(e.nodes)) touching[k].push(e);
+  const inBlock = new Set<Element>();
+  const seen = new Uint8Array(n);
+  const queue: number[] = [];
+  inBlock.add(resistor);
+  for (const k of resistor.nodes) if (!fixed[k] && !seen[k]) (seen[k] = 1), queue.push(k);
+  while (queue.length > 0) {
+    const k = queue.pop()!;
+    for (const e of touching[k]) {
+      if (inBlock.has(e)) continue;
+      inBlock.add(e);
+      for (const j of e.nodes) if (!fixed[j] && !seen[j]) (seen[j] = 1), queue.push(j);
+    }
+  }
+  const pins = new Set<Element>(pinning);
+  for (const e of inBlock) if (pins.has(e)) return undefined; // a fixing source carries the block's current together with others'
+  for (const p of pinning) inBlock.add(p);
+  if (inBlock.size > BLOCK_WORTHWHILE * circuit.elements.length) return undefined;
+  const names = new Set([...inBlock].map((e) => e.name.toLowerCase()));
+  if (mustHold.some((m) => !names.has(m.toLowerCase()))) return undefined;
+
+  // Renumber: ground stays 0, the block's other nodes follow in the circuit's order.
+  const used = new Uint8Array(n);
+  for (const e of inBlock) for (const k of e.nodes) used[k] = 1;
+  const map = new Int32Array(n).fill(-1);
+  const nodes: string[] = [circuit.nodes[0]];
+  map[0] = 0;
+  for (let k = 1; k < n; k++) if (used[k]) (map[k] = nodes.length), nodes.push(circuit.nodes[k]);
+  // Keep the circuit's element order so the block's records come out as the whole circuit's would.
+  const elements = circuit.elements.filter((e) => inBlock.has(e)).map((e) => ({ ...e, nodes: e.nodes.map((k) => map[k]) }) as Element);
+  return { ...circuit, nodes, elements };
 }
 
 /** The standard neighbours of `ideal` in `series`, each re-solved through `measure`. */
