@@ -30,6 +30,8 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'model-parameter-invalid': { severity: 'error', summary: 'A model parameter outside its physical range (IS, BF, KP, NF ≤ 0; negative VAF) or unreadable; the default is used.' },
   'model-duplicate': { severity: 'error', summary: 'Two .model cards with the same name in one scope; the first is used.' },
   'model-level-unsupported': { severity: 'warning', summary: 'A MOSFET model LEVEL other than 1; it is solved with the level-1 square law.' },
+  'model-threshold-sign': { severity: 'warning', summary: 'A PMOS model with a positive VTO: a depletion-mode device, on at VGS = 0 V, and usually a dropped minus sign for an enhancement device.' },
+  'model-threshold-depletion': { severity: 'info', summary: 'An NMOS model with a negative VTO: a depletion-mode device, on at VGS = 0 V, which bias networks rarely use.' },
   'model-not-found': { severity: 'error', summary: 'An element names a model that no .model card defines.' },
   'model-wrong-kind': { severity: 'error', summary: 'An element names a model of another device type (a Q naming an NMOS model).' },
 
@@ -40,7 +42,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'element-value-missing': { severity: 'error', summary: 'An element without the value it needs.' },
   'element-value-invalid': { severity: 'error', summary: 'An element value that is not a readable number or whose expression fails.' },
   'element-unknown-parameter': { severity: 'warning', summary: 'An instance parameter the element does not use; it is ignored.' },
-  'resistor-zero-value': { severity: 'error', summary: 'A 0 Ω resistor; it is kept and solved as a short.' },
+  'resistor-zero-value': { severity: 'info', summary: 'A 0 Ω resistor (a jumper or option link); it is solved as a short and the current through it is reported.' },
   'resistor-negative-value': { severity: 'warning', summary: 'A negative resistance; it is kept as written.' },
   'device-area-invalid': { severity: 'error', summary: 'A device area or parallel count M that is zero or negative; 1 is used so the analysis continues.' },
   'value-out-of-range': { severity: 'warning', summary: 'A value beyond 1e15 in magnitude, or a MOSFET W or L outside 1 nm to 1 m (usually a missing suffix).' },

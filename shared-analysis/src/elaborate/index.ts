@@ -318,7 +318,7 @@ class Elaborator {
         if (v === undefined) return;
         const m = multiplier();
         if (v === 0) {
-          this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω; it is kept and solved as a short circuit. Use a wire (the same node name) if a short is meant.`, uri, card.value.span);
+          this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω, as a jumper or option link is; it is solved as a short and the current through it is reported.`, uri, card.value.span);
         } else if (v < 0) {
           this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
         }

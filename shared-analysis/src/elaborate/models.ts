@@ -5,6 +5,7 @@ import type { ModelCard } from '../syntax/ast';
 import type { ParamScope } from './expressions';
 import type { Sink } from './sink';
 import { tokenValue } from './values';
+import { formatEngineering } from '../fixes/format';
 
 /** Type words of a `.model` card, case-insensitive. */
 const KIND_OF_TYPE: Record<string, ModelKind> = { npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r' };
@@ -93,6 +94,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   const given: string[] = [];
   const ignored: string[] = [];
   const seen = new Map<string, (typeof card.params)[number]>();
+  let vtoAssignment: (typeof card.params)[number] | undefined;
   for (const a of card.params) {
     const key = a.name.text.toUpperCase();
     const isMos = kind === 'nmos' || kind === 'pmos';
@@ -156,8 +158,10 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
       continue;
     }
     params[key] = key === 'VAF' && v.value === 0 ? Infinity : v.value;
+    if (key === 'VTO') vtoAssignment = a;
     if (!given.includes(key)) given.push(key);
   }
+  if (vtoAssignment) thresholdSign(card.name.text, kind, params['VTO']!, vtoAssignment.span, ctx);
   if (ignored.length > 0) {
     const dc = ignored.filter((k) => DC_RELEVANT.has(k));
     sink.add(
@@ -172,6 +176,37 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     );
   }
   return { name: card.name.text, kind, params, given, origin };
+}
+
+/**
+ * Flags a threshold whose sign describes a depletion device. Under the sign convention of the
+ * Shichman–Hodges level-1 model (DESIGN.md: PMOS mirrors every sign of NMOS, VTO included), an
+ * enhancement NMOS has VTO > 0 and an enhancement PMOS VTO < 0 (common practice, from memory).
+ * A positive PMOS VTO is nearly always a dropped minus sign; a negative NMOS VTO is a real but rare
+ * depletion device in bias networks, so it only gets a note.
+ */
+function thresholdSign(model: string, kind: ModelKind, vto: number, span: ModelCard['span'], ctx: ModelContext): void {
+  const volts = (v: number): string => formatEngineering(v, { unit: 'V' });
+  const data = { modelName: model, kind, VTO: vto };
+  if (kind === 'pmos' && vto > 0) {
+    ctx.sink.add(
+      'model-threshold-sign',
+      `${model} is PMOS with VTO = +${volts(vto)}: under the usual sign convention that is a depletion-mode device, on at VGS = 0 V; an enhancement PMOS has a negative VTO such as ${volts(-vto)}. The value is used as written.`,
+      ctx.uri,
+      span,
+      undefined,
+      data,
+    );
+  } else if (kind === 'nmos' && vto < 0) {
+    ctx.sink.add(
+      'model-threshold-depletion',
+      `${model} is NMOS with VTO = ${volts(vto)}: that is a depletion-mode device, on at VGS = 0 V, which bias networks rarely use; an enhancement NMOS has a positive VTO such as +${volts(-vto)}. The value is used as written.`,
+      ctx.uri,
+      span,
+      undefined,
+      data,
+    );
+  }
 }
 
 function formatDefault(v: number): string {

@@ -173,14 +173,17 @@ describe('values and sources', () => {
     check(`dropped\nV1 a 0 5\nR0 a 0 1k\nR1 a b 4k7\n`, { findings: [{ code: 'element-value-invalid', at: '4k7' }], nodes: ['0', 'a'] });
   });
 
-  it('keeps a 0 Ω resistor as a short and warns about a negative one', () => {
-    check(`zero\nV1 a 0 5\nR1 a b 0\nR2 b 0 -1k\n`, {
+  it('notes a 0 Ω resistor as a short and warns about a negative one', () => {
+    // Source: 0 Ω resistors are stocked parts used as jumpers and option links on boards (common practice, from memory).
+    const r = check(`zero\nV1 a 0 5\nR1 a b 0\nR2 b 0 -1k\n`, {
       findings: [
-        { code: 'resistor-zero-value', at: { in: 'R1 a b 0', text: '0' }, message: /kept and solved as a short/ },
+        { code: 'resistor-zero-value', at: { in: 'R1 a b 0', text: '0' }, message: /solved as a short and the current through it is reported/ },
         { code: 'resistor-negative-value', at: '-1k' },
       ],
       elements: { R1: { value: 0 }, R2: { value: -1000 } },
     });
+    expect(r.findings.find((f) => f.code === 'resistor-zero-value')!.severity).toBe('info');
+    expect(r.findings.find((f) => f.code === 'resistor-negative-value')!.severity).toBe('warning');
   });
 
   it('takes a source whose value fails as 0 and says so', () => {
@@ -342,6 +345,36 @@ describe('models', () => {
         expect(r.circuit.models['qn']!.params['BF']).toBe(100);
         expect(r.circuit.models['mn']!.params['KP']).toBe(2e-5);
       },
+    });
+  });
+
+  // Source: Shichman–Hodges level-1 model as in DESIGN.md, "PMOS mirrors every sign" — an enhancement
+  // NMOS has VTO > 0 and an enhancement PMOS VTO < 0; a VTO of the other sign conducts at VGS = 0 V
+  // (depletion mode) (common practice, from memory).
+  it('warns about a PMOS threshold with the sign of a depletion device and notes a depletion NMOS', () => {
+    const r = check(
+      `thresholds\n.param vtp=0.7\n.model PCORE PMOS (KP=45u VTO=0.6)\n.model pref pmos (vto={vtp})\n.model NDEP NMOS (VTO=-1.2)\n` +
+        `.model nok nmos (VTO=0.55)\n.model pok pmos (VTO=-0.6)\n.model pzero pmos (VTO=0)\n.model pdefault pmos (KP=40u)\n`,
+      {
+        findings: [
+          { code: 'model-threshold-sign', at: 'VTO=0.6', message: /^PCORE is PMOS with VTO = \+0\.6 V: .*depletion-mode device, on at VGS = 0 V; an enhancement PMOS has a negative VTO such as \u22120\.6 V\./ },
+          { code: 'model-threshold-sign', at: 'vto={vtp}', message: /VTO = \+0\.7 V.*such as \u22120\.7 V/ },
+          { code: 'model-threshold-depletion', at: 'VTO=-1.2', message: /^NDEP is NMOS with VTO = \u22121\.2 V: .*depletion-mode.*positive VTO such as \+1\.2 V\./ },
+        ],
+        also: (r) => {
+          // The value is used as written; only a note is added.
+          expect(r.circuit.models['pcore']!.params['VTO']).toBe(0.6);
+          expect(r.circuit.models['ndep']!.params['VTO']).toBe(-1.2);
+        },
+      },
+    );
+    expect(r.findings.find((f) => f.code === 'model-threshold-sign')!.severity).toBe('warning');
+    expect(r.findings.find((f) => f.code === 'model-threshold-depletion')!.severity).toBe('info');
+  });
+
+  it('reports a threshold-sign slip inside a subcircuit once, however many instances use it', () => {
+    check(`sub threshold\n.subckt load d s\n.model pl pmos (VTO=0.5)\nM1 d d s s pl W=10u L=1u\n.ends\nV1 vdd 0 3\nX1 a vdd load\nX2 b vdd load\nR1 a 0 10k\nR2 b 0 10k\n`, {
+      findings: [{ code: 'model-threshold-sign', at: 'VTO=0.5' }],
     });
   });
 
