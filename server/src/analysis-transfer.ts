@@ -8,7 +8,7 @@ import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding } from '../../shared-analysis/src/types';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
-const PART_SIZE = 1500;
+const PART_SIZE = 400;
 
 /** One slice of the big arrays of an analysis. */
 export type AnalysisPart =

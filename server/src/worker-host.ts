@@ -25,7 +25,7 @@ type Pending = {
 };
 
 /** Part requests kept in flight while an analysis is taken in. */
-const PARTS_IN_FLIGHT = 3;
+const PARTS_IN_FLIGHT = 4;
 
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
