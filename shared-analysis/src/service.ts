@@ -4,7 +4,7 @@ import { resolveOptions, type Analysis, type AnalysisOptions, type ResolvedOptio
 import { parse } from './syntax/parser';
 import { elaborate } from './elaborate/index';
 import { checkConnectivity } from './checks/connectivity';
-import { DcSolver, type DcSolveResult } from './solve/dc';
+import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/dc';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { runCorners, type CornerStats } from './checks/corners';
@@ -76,7 +76,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       const result = nominal;
       const dc = solver;
       operatingPoint = result.op;
-      findings.push(...withoutTwins(result.findings, findings));
+      findings.push(...withoutNetlistDuplicates(result.findings, findings));
       findings.push(...timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         findings.push(...timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
@@ -170,26 +170,6 @@ function syntaxFindings(documents: Record<string, ParsedDocument>): Finding[] {
     }
   }
   return out;
-}
-
-/**
- * The solver re-checks input values so it is safe on any Circuit; after elaboration those checks
- * repeat what the elaborator already said about the same card. Solver code -> elaborator code.
- */
-const SOLVER_TWINS: Record<string, string> = {
-  'dc-zero-resistance': 'resistor-zero-value',
-  'dc-negative-resistance': 'resistor-negative-value',
-  'dc-value-out-of-range': 'value-out-of-range',
-  'dc-parameter-unusable': 'device-area-invalid',
-};
-
-/** Solver findings minus those whose elaborator twin already points into the same card. */
-function withoutTwins(solverFindings: Finding[], earlier: Finding[]): Finding[] {
-  return solverFindings.filter((f) => {
-    const twin = SOLVER_TWINS[f.code];
-    if (!twin) return true;
-    return !earlier.some((e) => e.code === twin && e.uri === f.uri && e.span.start >= f.span.start && e.span.end <= f.span.end);
-  });
 }
 
 /** The one place user severity settings apply: a code mapped to 'off' is dropped. */
