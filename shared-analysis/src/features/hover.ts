@@ -248,6 +248,11 @@ function kindLabel(kind: Structure['kind']): string {
       return 'Improved Wilson current mirror';
     case 'cascode-mirror':
       return 'Cascode current mirror';
+    case 'degenerated-mirror':
+      return 'Emitter/source-degenerated current mirror';
+    default:
+      // A kind added to the recogniser later still gets a readable name.
+      return String(kind).replace(/-/g, ' ');
   }
 }
 
