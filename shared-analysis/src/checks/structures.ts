@@ -67,6 +67,7 @@ const KIND_LABEL: Record<StructureKind, string> = {
   'wilson-mirror': 'Wilson mirror',
   'improved-wilson-mirror': 'improved Wilson mirror',
   'cascode-mirror': 'cascode mirror',
+  'degenerated-mirror': 'degenerated mirror',
 };
 
 /**
@@ -79,9 +80,11 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const op = ctx.op && ctx.op.converged ? ctx.op : undefined;
   const out: Finding[] = [];
   const topo = topologyOf(circuit);
+  const rails = [...railsByIndex(circuit).values()].map((r) => r.volts);
+  const railRange = { top: rails.length ? Math.max(...rails) : UNBOUNDED_OHMS, bottom: rails.length ? Math.min(...rails) : -UNBOUNDED_OHMS };
   for (const s of feedOrder(structures)) {
     try {
-      out.push(...new StructureCheck(circuit, topo, s, structures, op, options).run());
+      out.push(...new StructureCheck(circuit, topo, s, structures, op, options, railRange).run());
     } catch (err) {
       // A defect in one structure's analysis must not take down the others or the editor.
       const dev = topo.elementByName.get(s.reference.device);
@@ -144,6 +147,8 @@ class StructureCheck {
     private readonly all: Structure[],
     private readonly op: OperatingPoint | undefined,
     private readonly options: ResolvedOptions,
+    /** Highest and lowest rail potential of the circuit (the compliance range's outer ends). */
+    private readonly railRange: { top: number; bottom: number },
   ) {
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
@@ -164,7 +169,7 @@ class StructureCheck {
   run(): Finding[] {
     const s = this.s;
     if (this.op) {
-      this.measured = measureStructure(this.circuit, this.op, s);
+      this.measured = measureStructure(this.circuit, this.op, s, this.topo);
       s.solved = { iref: this.measured.iref, iout: { ...this.measured.iout } };
       s.headroom = { ...this.measured.headroom };
     } else {
@@ -201,9 +206,7 @@ class StructureCheck {
   // ---- records ----------------------------------------------------------
 
   private compliance(): Structure['compliance'] {
-    const rails = [...railsByIndex(this.circuit).values()].map((r) => r.volts);
-    const top = rails.length ? Math.max(...rails) : UNBOUNDED_OHMS;
-    const bottom = rails.length ? Math.min(...rails) : -UNBOUNDED_OHMS;
+    const { top, bottom } = this.railRange;
     const out: Structure['compliance'] = {};
     for (const o of this.s.outputs) {
       const edge = this.edgeVolts(o.device);

@@ -95,6 +95,8 @@ class HandAnalysis {
   private readonly params = new Map<string, DeviceParams>();
   /** The common rail's potential, looked up once (the IREF solve asks for it at every trial current). */
   private common: { v: number | undefined } | null = null;
+  /** Σ ratios of a simple mirror without degenerated outputs (null for every other structure), for `stackAt`. */
+  private simpleSum: number | null | undefined;
 
   constructor(
     private readonly circuit: Circuit,
@@ -225,6 +227,10 @@ class HandAnalysis {
     const vCommon = this.commonVolts();
     const nStack = this.stackCount();
 
+    // The IREF step of a feed other than a resistor chain, shown before the chain's VBE/VGS steps.
+    let irefStep: EstimateStep | undefined;
+    let resistorFed: { ohms: number; available: number; hi: string } | undefined;
+
     if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
       irefFrom = 'resistor';
       const ohms = feed.elements.reduce((sum, r) => {
@@ -236,7 +242,6 @@ class HandAnalysis {
       const available = this.sign * (vRail - vCommon);
       const needed = this.bipolar ? nStack * STARVED_VBE : this.thresholdStack();
       supply = { available, needed };
-      const rText = eng(ohms, 'Ω');
       const hi = this.sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
       if (!(ohms > 0) || available <= needed) {
         starved = true;
@@ -245,27 +250,7 @@ class HandAnalysis {
         iref = this.solveResistorFed(available, ohms);
       }
       if (!this.bipolar && available <= needed) iref = 0;
-      const st = this.chain(iref, true);
-      const vName = this.bipolar ? 'VBE' : 'VGS';
-      const stackFormula = nStack > 1 ? `${nStack} stacked ${vName}` : vName;
-      steps.push(...st.steps.filter((x) => x.quantity.startsWith('V')));
-      steps.push({
-        quantity: 'IREF',
-        formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${this.bipolar ? GRAY : RAZAVI})`,
-        substituted: `(${hi} − ${eng(st.stack, 'V')})/${rText}`,
-        value: iref,
-        unit: 'A',
-      });
-      if (this.bipolar && ohms > 0) {
-        irefShortcut = Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
-        steps.push({
-          quantity: 'IREF (0.7 V shortcut)',
-          formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
-          substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
-          value: irefShortcut,
-          unit: 'A',
-        });
-      }
+      resistorFed = { ohms, available, hi };
     } else if (feed.feed === 'current-source') {
       irefFrom = 'current-source';
       const src = this.topo.elementByName.get(feed.elements[0]) as CurrentSource | undefined;
@@ -276,33 +261,60 @@ class HandAnalysis {
         const into = src.nodes[1] === refNode ? dc : -dc;
         iref = Math.max(this.sign * into, 0);
         if (!(this.sign * into > 0)) starved = true;
-        steps.push({
+        irefStep = {
           quantity: 'IREF',
           formula: 'the current source value',
           substituted: `${src.name} = ${eng(Math.abs(dc), 'A')}${this.sign * into > 0 ? '' : ' (flows the wrong way for this reference)'}`,
           value: iref,
           unit: 'A',
-        });
+        };
       }
     } else if (feed.feed === 'mirror-output') {
       irefFrom = 'mirror-output';
       iref = this.feedingOutput();
-      steps.push({
+      irefStep = {
         quantity: 'IREF',
         formula: "the feeding structure's estimated output current",
         substituted: `${feed.elements[0]} of ${feed.fedBy ?? '?'} = ${eng(iref, 'A')}`,
         value: iref,
         unit: 'A',
-      });
+      };
     } else if (this.at.irefGiven !== undefined && Number.isFinite(this.at.irefGiven)) {
       irefFrom = 'given';
       iref = Math.abs(this.at.irefGiven);
-      steps.push({ quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(iref, 'A'), value: iref, unit: 'A' });
+      irefStep = { quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(iref, 'A'), value: iref, unit: 'A' };
     }
 
     const st = this.chain(iref, true);
-    if (irefFrom !== 'resistor') steps.push(...st.steps.filter((x) => x.quantity.startsWith('V')));
-    steps.push(...st.steps.filter((x) => !x.quantity.startsWith('V')));
+    const isVoltage = (x: EstimateStep) => x.quantity.startsWith('V');
+    if (resistorFed) {
+      const { ohms, available, hi } = resistorFed;
+      const rText = eng(ohms, 'Ω');
+      const vName = this.bipolar ? 'VBE' : 'VGS';
+      const stackFormula = this.s.kind === 'degenerated-mirror' ? `${vName} + IE·RE (reference emitter resistor)` : nStack > 1 ? `${nStack} stacked ${vName}` : vName;
+      steps.push(...st.steps.filter(isVoltage));
+      steps.push({
+        quantity: 'IREF',
+        formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${this.bipolar ? GRAY : RAZAVI})`,
+        substituted: `(${hi} − ${eng(st.stack, 'V')})/${rText}`,
+        value: iref,
+        unit: 'A',
+      });
+      if (this.bipolar && ohms > 0 && this.s.kind !== 'degenerated-mirror') {
+        irefShortcut = Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
+        steps.push({
+          quantity: 'IREF (0.7 V shortcut)',
+          formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
+          substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
+          value: irefShortcut,
+          unit: 'A',
+        });
+      }
+    } else {
+      if (irefStep) steps.push(irefStep);
+      steps.push(...st.steps.filter(isVoltage));
+    }
+    steps.push(...st.steps.filter((x) => !isVoltage(x)));
     const outputEdge: Record<string, number> = {};
     if (vCommon !== undefined) {
       for (const [k, v] of Object.entries(st.edge)) {
@@ -343,7 +355,7 @@ class HandAnalysis {
   }
 
   private feedingOutput(): number {
-    const from = this.at.structures?.find((x) => x.id === this.s.reference.fedBy);
+    const from = this.at.structures && this.s.reference.fedBy !== undefined ? structuresById(this.at.structures).get(this.s.reference.fedBy) : undefined;
     const dev = this.s.reference.elements[0];
     if (!from || this.depth > 8) return 0;
     const known = from.estimate?.iout[dev];
@@ -361,7 +373,7 @@ class HandAnalysis {
     const hi0 = available / ohms;
     const f = (u: number) => {
       const i = Math.exp(u);
-      return i * ohms + this.chain(i, false).stack - available;
+      return i * ohms + this.stackAt(i) - available;
     };
     let lo = Math.log(hi0 * 1e-18);
     let hi = Math.log(hi0);
@@ -390,6 +402,22 @@ class HandAnalysis {
       }
     }
     return Math.exp(0.5 * (lo + hi));
+  }
+
+  /**
+   * The reference-chain voltage at one IREF without recording steps: the same value as
+   * `chain(iref, false).stack`, in closed form for a simple mirror without degenerated
+   * outputs (the common case, asked for at every trial current of the IREF solve).
+   */
+  private stackAt(iref: number): number {
+    if (this.simpleSum === undefined) {
+      const plain = (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source') && this.s.outputs.every((o) => !o.degeneration);
+      this.simpleSum = plain ? this.s.outputs.reduce((a, o) => a + o.ratio, 0) : null;
+    }
+    if (this.simpleSum === null) return this.chain(iref, false).stack;
+    const ref = this.dev(this.s.reference.device);
+    if (this.bipolar) return this.vbe(ref, iref / (1 + (1 + this.simpleSum) / ref.beta));
+    return this.vgs(ref, iref, this.vsbBase(ref));
   }
 
   /**
@@ -745,6 +773,15 @@ class HandAnalysis {
     }));
     return { stack: vLow + vOut, vControl: improved ? vTop : vLow, iRef: iref, iout, edge, steps };
   }
+}
+
+const idIndex = new WeakMap<Structure[], Map<string, Structure>>();
+
+/** The structures of one analysis by id, indexed once per array (a chain of N mirror-fed mirrors would otherwise search N times). */
+function structuresById(list: Structure[]): Map<string, Structure> {
+  let m = idIndex.get(list);
+  if (!m || m.size !== list.length) idIndex.set(list, (m = new Map(list.map((x) => [x.id, x]))));
+  return m;
 }
 
 function positiveOr(v: number, fallback: number): number {

@@ -17,7 +17,15 @@ const PREFIXES: [number, string][] = [
 export function sig(value: number, digits = 3): string {
   if (!Number.isFinite(value)) return value > 0 ? '∞' : value < 0 ? '−∞' : '?';
   if (value === 0) return '0';
-  const s = Number(Math.abs(value).toPrecision(digits)).toString();
+  let s = Math.abs(value).toPrecision(digits);
+  // Trailing zeros are cut by hand (a Number round trip costs twice as much; every estimate step formats a dozen numbers).
+  if (s.indexOf('e') >= 0) s = Number(s).toString();
+  else if (s.indexOf('.') >= 0) {
+    let end = s.length;
+    while (s.charCodeAt(end - 1) === 48) end--;
+    if (s.charCodeAt(end - 1) === 46) end--;
+    s = s.slice(0, end);
+  }
   return value < 0 ? `−${s}` : s;
 }
 

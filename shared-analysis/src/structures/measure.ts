@@ -24,9 +24,13 @@ export interface Measurement {
  * An output is out of region when its record says so (or, without a record, when the
  * node voltages put it outside forward-active / saturation). Never NaN: a missing node or
  * record counts as 0 V / 0 A.
+ *
+ * `topology` is the circuit's prebuilt {@link Topology} (from `topologyOf(circuit)`), for
+ * callers that measure many structures at many operating points; when absent it is looked
+ * up (and built once per Circuit object).
  */
-export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure): Measurement {
-  const topo = topologyOf(circuit);
+export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology): Measurement {
+  const topo = topology ?? topologyOf(circuit);
   const v = (node: number) => finite(op.nodes[topo.nodeName(node)]);
   const refNode = topo.nodeIndex.get(s.reference.node);
   let iref = 0;

@@ -45,6 +45,8 @@ class Recogniser {
   private readonly topo: Topology;
   private readonly rails: Map<number, Rail>;
   private readonly claimed = new Set<string>();
+  /** Position of each transistor in natural name order. */
+  private readonly rank = new Map<Transistor, number>();
 
   constructor(private readonly circuit: Circuit) {
     this.topo = topologyOf(circuit);
@@ -52,7 +54,7 @@ class Recogniser {
   }
 
   run(): Structure[] {
-    const all = [...this.topo.transistors].sort((a, b) => compareNames(a.name, b.name));
+    const all = this.ordered();
     const diodes = all.filter((t) => t.out === t.ctrl);
     const drafts: Draft[] = [];
     const take = (d: Draft | undefined) => {
@@ -71,15 +73,24 @@ class Recogniser {
     return structures;
   }
 
+  /** Transistors in natural name order; the collator runs once per circuit, later sorts compare ranks. */
+  private ordered(): Transistor[] {
+    const all = [...this.topo.transistors].sort((a, b) => compareNames(a.name, b.name));
+    all.forEach((t, i) => this.rank.set(t, i));
+    return all;
+  }
+
+  private byRank = (a: Transistor, b: Transistor): number => (this.rank.get(a) ?? 0) - (this.rank.get(b) ?? 0);
+
   private free(t: Transistor, tech: Transistor['tech']): boolean {
     return !this.claimed.has(t.name) && t.tech === tech;
   }
 
   /** Unclaimed transistors of one technology drawn from `pool` (an index list) that satisfy `pred`, in name order. */
   private candidates(tech: Transistor['tech'], pred: (t: Transistor) => boolean, exclude: Transistor[], pool: Transistor[] | undefined): Transistor[] {
-    return (pool ?? [])
-      .filter((t) => this.free(t, tech) && !exclude.includes(t) && pred(t))
-      .sort((a, b) => compareNames(a.name, b.name));
+    if (!pool) return [];
+    const out = pool.filter((t) => this.free(t, tech) && !exclude.includes(t) && pred(t));
+    return out.length > 1 ? out.sort(this.byRank) : out;
   }
 
   private onCtrl(node: number): Transistor[] | undefined {
@@ -333,6 +344,8 @@ class Recogniser {
 
 /** The hierarchical instance prefix (`X1.`, `X1.X2.`) shared by every device name, or '' at top level. */
 export function instancePrefix(names: string[]): string {
+  // Top-level devices (no dot in any name) are the common case: skip the splitting.
+  if (names.every((n) => n.indexOf('.') < 0)) return '';
   let common: string[] | undefined;
   for (const n of names) {
     const parts = n.split('.').slice(0, -1);

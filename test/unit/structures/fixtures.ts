@@ -12,8 +12,10 @@ export interface FixtureOptions {
   rRef?: number;
   /** Load resistor from the rail to the output node. */
   rLoad?: number;
-  /** Widlar emitter resistor. */
+  /** Widlar emitter resistor; the output's emitter resistor of a degenerated mirror. */
   r2?: number;
+  /** The reference's emitter resistor of a degenerated mirror. */
+  r1?: number;
   /** Pull-down from the helper mirror's base node to the rail. */
   rB?: number;
   /** Extra model parameters for every device. */
@@ -52,6 +54,12 @@ export function fixture(kind: StructureKind, tech: Technology, o: FixtureOptions
       dev('Q1', n('a'), n('a'), rail);
       dev('Q2', n('out'), n('a'), n('e2'));
       b.r(n('R2'), n('e2'), rail, o.r2 ?? 5e3);
+      break;
+    case 'degenerated-mirror':
+      dev('Q1', n('a'), n('a'), n('e1'));
+      b.r(n('R1'), n('e1'), rail, o.r1 ?? 1e3);
+      dev('Q2', n('out'), n('a'), n('e2'));
+      b.r(n('R2'), n('e2'), rail, o.r2 ?? 1e3);
       break;
     case 'helper-mirror':
       dev('Q1', n('a'), n('b'), rail);

@@ -57,6 +57,7 @@ const OUTPUT: Record<StructureKind, string> = {
   'wilson-mirror': 'Q3',
   'improved-wilson-mirror': 'Q3',
   'cascode-mirror': 'Q4',
+  'degenerated-mirror': 'Q2',
 };
 
 describe('recogniseStructures: every kind, every polarity, top level and in an instance', () => {
