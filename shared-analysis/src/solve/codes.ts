@@ -17,5 +17,6 @@ export const SOLVER_CODES: Record<string, { severity: Severity; summary: string 
   'dc-temperature-unusable': { severity: 'error', summary: 'An analysis temperature at or below absolute zero.' },
   'dc-junction-shorted': { severity: 'warning', summary: 'Both ends of a junction on one node: it can never be biased.' },
   'dc-junction-overdriven': { severity: 'warning', summary: 'A source drives a junction directly far past its turn-on voltage.' },
+  'dc-override-refused': { severity: 'warning', summary: 'A per-solve resistance override that could not be applied (unknown element, not a resistor, not a finite number, or a change to 0 Ω); the netlist value was used.' },
   'dc-implausible-voltage': { severity: 'warning', summary: 'A solved node voltage far outside every source voltage.' },
 };

@@ -12,6 +12,7 @@ import { MnaLayout } from './mna';
 import type { NewtonOutcome } from './newton';
 import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
 import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
+import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
 
@@ -47,6 +48,35 @@ const LAYOUT_NETLIST_CODES: Record<string, string[]> = {
   'dc-value-unusable': ['element-value-invalid', 'element-value-missing'],
 };
 
+/**
+ * Conductance from each node of a group with no DC path to ground to ground (1 pS, i.e. 1 TΩ),
+ * so the rest of the circuit still solves. It equals the robustness conductance every junction
+ * already carries (JUNCTION_GMIN), so it is no larger than the leakage the device models assume;
+ * 1 TΩ is far above any resistor a designer places, and a tied node draws at most 1 pA per volt
+ * from the circuit. With the solver's power-of-two equilibration a 1e-12 diagonal next to
+ * millisiemens entries is well inside double precision (ratio 1e9 against 1/ε ≈ 4.5e15).
+ */
+export const TIE_CONDUCTANCE = 1e-12;
+
+/** The circuit's structure for one set of resistor values: floating groups (tied) and voltage-defining loops (unsolvable). */
+interface Structure {
+  floating: FloatingGroup[];
+  loops: VoltageLoop[];
+  findings: Finding[];
+  /** Node indices tied to ground, ascending. */
+  tied: number[];
+}
+
+/** Per-solve resistor values after checking the overrides. */
+interface ResistancePlan {
+  /** Element -> new conductance for conductance-stamped resistors. */
+  conductance: Map<number, number>;
+  /** Element -> ohms for resistors written as 0 Ω (solved as branches). */
+  branchOhms: Map<number, number>;
+  /** True when a resistor changes between open, short and finite, so the structural checks must be redone. */
+  changesStructure: boolean;
+}
+
 /** Parameters more than this many decades from 1 (IS and KP relative to their defaults) are reported as out of range. */
 const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
@@ -68,8 +98,11 @@ export class DcSolver {
   private readonly engine: NewtonEngine;
   /** Findings that do not depend on the solve options (element and parameter problems, structure). */
   private readonly staticFindings: Finding[] = [];
-  private readonly structurallySingular: boolean;
+  private readonly structure: Structure;
   private readonly sourceIndexByName = new Map<string, number>();
+  private readonly elementByName = new Map<string, number>();
+  /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
+  private conductanceOverride = new Map<number, number>();
   private readonly elementIndex = new Map<Element, number>();
 
   constructor(private readonly circuit: Circuit) {
@@ -87,13 +120,26 @@ export class DcSolver {
       this.staticFindings.push(f);
     }
     for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
-    const floating = findFloatingGroups(circuit, this.layout.skipped);
-    const loops = findVoltageLoops(circuit, this.layout.skipped);
-    for (const g of floating) this.staticFindings.push(this.floatingFinding(g.nodes, g.elements));
-    for (const l of loops) this.staticFindings.push(this.loopFinding(l.elements));
+    circuit.elements.forEach((el, i) => {
+      const key = el.name.toLowerCase();
+      if (!this.elementByName.has(key)) this.elementByName.set(key, i);
+    });
+    this.structure = this.analyseStructure(undefined);
     this.staticFindings.push(...this.shortedJunctionFindings());
     this.staticFindings.push(...this.outOfRangeFindings());
-    this.structurallySingular = floating.length > 0 || loops.length > 0;
+  }
+
+  /** Floating groups and voltage loops under the given resistor values, with their findings. */
+  private analyseStructure(resistanceOf: ResistanceOf | undefined): Structure {
+    const floating = findFloatingGroups(this.circuit, this.layout.skipped, resistanceOf);
+    const loops = findVoltageLoops(this.circuit, this.layout.skipped, resistanceOf);
+    const findings: Finding[] = [];
+    // With a source loop nothing is solved, so no node is tied and the floating findings keep saying so.
+    const solvable = loops.length === 0;
+    for (const g of floating) findings.push(this.floatingFinding(g.nodes, g.elements, solvable));
+    for (const l of loops) findings.push(this.loopFinding(l.elements));
+    const tied = solvable ? floating.flatMap((g) => g.nodes).sort((a, b) => a - b) : [];
+    return { floating, loops, findings, tied };
   }
 
   /** Number of MNA unknowns (length of `DcSolveResult.x`). */
@@ -106,6 +152,10 @@ export class DcSolver {
     const t0 = now();
     const findings: Finding[] = [...this.staticFindings];
     const n = this.layout.size;
+    const plan = this.resolveResistances(options.resistances, findings);
+    const structure = plan.changesStructure ? this.analyseStructure(this.resistanceLookup(plan)) : this.structure;
+    findings.push(...structure.findings);
+    this.loadLinearValues(structure, plan);
     const temperatureC = this.pickTemperature(options, findings);
     const betaScale = this.pickBetaScale(options, findings);
     const conditions: DeviceConditions = {
@@ -132,7 +182,7 @@ export class DcSolver {
     let converged = false;
     let last: NewtonOutcome | undefined;
 
-    if (!this.structurallySingular && n > 0) {
+    if (structure.loops.length === 0 && n > 0) {
       last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations });
       iterations += last.iterations;
       converged = last.status === 'converged';
@@ -163,7 +213,8 @@ export class DcSolver {
 
     if (last && !converged) findings.push(...this.failureFindings(last, fallbacks, iterations));
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
-    if (converged) findings.push(...this.postSolveFindings(x, op));
+    if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
+    if (converged) findings.push(...this.postSolveFindings(x, op, structure));
     return {
       op,
       findings,
@@ -246,6 +297,75 @@ export class DcSolver {
 
   // ---- options ----
 
+  /** Checks the resistance overrides; refused ones get a located finding and keep the netlist value. */
+  private resolveResistances(overrides: Record<string, number> | undefined, findings: Finding[]): ResistancePlan {
+    const plan: ResistancePlan = { conductance: new Map(), branchOhms: new Map(), changesStructure: false };
+    this.conductanceOverride = plan.conductance;
+    if (!overrides) return plan;
+    const c = this.circuit;
+    for (const [name, ohms] of Object.entries(overrides)) {
+      const i = this.elementByName.get(name.toLowerCase());
+      const refuse = (why: string, at: number): void => {
+        const f = this.elementFinding('dc-override-refused', 'warning', `The resistance override ${name} = ${String(ohms)} Ω was not applied: ${why}`, at);
+        f.data = { element: name, requested: Number.isFinite(ohms) ? ohms : String(ohms) };
+        findings.push(f);
+      };
+      if (i === undefined) {
+        refuse(`the circuit has no element named ${name}.`, 0);
+        continue;
+      }
+      const el = c.elements[i];
+      const stamp = this.layout.resistorStamps.get(i);
+      if (el.kind !== 'R') refuse(`${el.name} is not a resistor.`, i);
+      else if (!stamp) refuse(`the netlist value of ${el.name} is unusable, so the solver leaves it out as an open circuit.`, i);
+      else if (typeof ohms !== 'number' || !Number.isFinite(ohms)) refuse(`the value is not a finite number; the netlist value ${formatEng(el.resistance, 'Ω')} was used.`, i);
+      else if (stamp.kind === 'conductance' && ohms === 0)
+        refuse(
+          `${el.name} is written as ${formatEng(el.resistance, 'Ω')}, and a 0 Ω short needs a current unknown the prepared equations lack; write 0 in the netlist, or use a small value such as 1 mΩ.`,
+          i,
+        );
+      else if (stamp.kind === 'conductance') {
+        if (stamp.g === 0) plan.changesStructure = true; // an open resistor now conducts
+        plan.conductance.set(i, 1 / ohms);
+      } else if (ohms !== 0) {
+        plan.branchOhms.set(i, ohms);
+        plan.changesStructure = true; // a short that no longer fixes a voltage
+      }
+    }
+    return plan;
+  }
+
+  /** The resistor values a plan implies, for the structural checks. */
+  private resistanceLookup(plan: ResistancePlan): ResistanceOf {
+    return (i) => {
+      const g = plan.conductance.get(i);
+      if (g !== undefined) return 1 / g;
+      return plan.branchOhms.get(i);
+    };
+  }
+
+  /** Writes this solve's linear stamps: the prepared values, the ties of floating nodes and the resistance overrides. */
+  private loadLinearValues(structure: Structure, plan: ResistancePlan): void {
+    const values = this.engine.linearValues;
+    values.set(this.layout.linearValues);
+    for (const node of structure.tied) values[this.layout.nodeDiagonals[node - 1]] += TIE_CONDUCTANCE;
+    for (const [i, g] of plan.conductance) {
+      const stamp = this.layout.resistorStamps.get(i);
+      if (stamp?.kind !== 'conductance') continue;
+      const delta = g - stamp.g;
+      const p = stamp.positions;
+      if (p[0] >= 0) values[p[0]] += delta;
+      if (p[1] >= 0) values[p[1]] += delta;
+      if (p[2] >= 0) values[p[2]] -= delta;
+      if (p[3] >= 0) values[p[3]] -= delta;
+    }
+    // The branch row of a 0 Ω resistor reads V(a) − V(b) = 0; with R it reads V(a) − V(b) − R·I = 0.
+    for (const [i, ohms] of plan.branchOhms) {
+      const stamp = this.layout.resistorStamps.get(i);
+      if (stamp?.kind === 'short' && stamp.diagonal >= 0) values[stamp.diagonal] -= ohms;
+    }
+  }
+
   private pickTemperature(options: SolveOptions, findings: Finding[]): number {
     const t = options.temperatureC ?? this.circuit.temperatureC;
     if (Number.isFinite(t) && t > -273.15) return t;
@@ -325,7 +445,7 @@ export class DcSolver {
       let current = 0;
       switch (r.kind) {
         case 'conductance':
-          current = voltage * r.g;
+          current = voltage * (this.conductanceOverride.size > 0 ? (this.conductanceOverride.get(r.element) ?? r.g) : r.g);
           break;
         case 'branch':
           current = x[r.branch];
@@ -463,7 +583,8 @@ export class DcSolver {
     return f;
   }
 
-  private floatingFinding(nodes: number[], elements: number[]): Finding {
+  /** `tied`: the nodes were tied to ground so the rest of the circuit could be solved (otherwise nothing was solved). */
+  private floatingFinding(nodes: number[], elements: number[], tied: boolean): Finding {
     const c = this.circuit;
     const names = nodes.map((n) => c.nodes[n]);
     const reasons = elements.map((i) => {
@@ -490,10 +611,20 @@ export class DcSolver {
       'error',
       `${plural ? 'Nodes' : 'Node'} ${listNames(names)} ${plural ? 'have' : 'has'} no DC path to ground, so ${plural ? 'their voltages are' : 'its voltage is'} undefined and the circuit equations are singular. ` +
         (reasons.length > 0 ? `Connected: ${listNames(reasons)}. ` : '') +
-        'Add a DC path (a resistor or source) to ground. No operating point was computed.',
+        'Add a DC path (a resistor or source) to ground. ' +
+        (tied
+          ? `The solver tied ${plural ? 'each of these nodes' : 'it'} to ground through ${formatEng(1 / TIE_CONDUCTANCE, 'Ω')} so the rest of the circuit could be solved; the ${plural ? 'voltages' : 'voltage'} shown there ${plural ? 'are' : 'is'} arbitrary, and so is anything that depends on ${plural ? 'them' : 'it'}.`
+          : 'No operating point was computed.'),
       elements[0] ?? 0,
     );
-    f.data = { kind: 'floating-node', nodes: names, elements: elements.map((i) => c.elements[i].name), netlistCodes: ['node-no-dc-path', 'current-source-cutset'] };
+    f.data = {
+      kind: 'floating-node',
+      nodes: names,
+      elements: elements.map((i) => c.elements[i].name),
+      tied,
+      netlistCodes: ['node-no-dc-path', 'current-source-cutset'],
+    };
+    if (tied) f.data.tieOhms = 1 / TIE_CONDUCTANCE;
     f.related = [...(f.related ?? []), ...this.relatedFor(elements.slice(1))];
     return f;
   }
@@ -578,7 +709,7 @@ export class DcSolver {
     return out;
   }
 
-  private postSolveFindings(x: Float64Array, op: OperatingPoint): Finding[] {
+  private postSolveFindings(x: Float64Array, op: OperatingPoint, structure: Structure): Finding[] {
     const out: Finding[] = [];
     const c = this.circuit;
     for (const d of this.layout.devices) {
@@ -596,9 +727,34 @@ export class DcSolver {
       f.data = { junction: j.junction, volts: j.volts, current };
       out.push(f);
     }
+    // A tied group far from ground is one a net current is forced into (a current-source cut-set).
+    for (const g of structure.tied.length > 0 ? structure.floating : []) {
+      let net = 0;
+      let worst = g.nodes[0];
+      for (const k of g.nodes) {
+        net += op.nodes[c.nodes[k]] * TIE_CONDUCTANCE;
+        if (Math.abs(op.nodes[c.nodes[k]]) > Math.abs(op.nodes[c.nodes[worst]])) worst = k;
+      }
+      const volts = op.nodes[c.nodes[worst]];
+      if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS) continue;
+      const sources = g.elements.filter((k) => 'IGF'.includes(c.elements[k].kind));
+      const at = sources[0] ?? g.elements[0] ?? 0;
+      const names = listNames(g.nodes.map((k) => c.nodes[k]));
+      const f = this.elementFinding(
+        'dc-implausible-voltage',
+        'warning',
+        `Node ${c.nodes[worst]} shows ${formatEng(volts, 'V')}, a number with no meaning: ${sources.length > 0 ? listNames(sources.map((k) => c.elements[k].name)) : 'the circuit'} ` +
+          `${sources.length > 1 ? 'force' : 'forces'} a net ${formatEng(net, 'A')} into ${g.nodes.length > 1 ? 'nodes' : 'node'} ${names}, which ${g.nodes.length > 1 ? 'have' : 'has'} no DC path to ground, so it all flows through the solver's ${formatEng(1 / TIE_CONDUCTANCE, 'Ω')} tie. ` +
+          'Give the current a path (a resistor or a device that sinks it) or make the sources agree.',
+        at,
+      );
+      f.data = { node: c.nodes[worst], volts, netCurrent: net, tied: true };
+      out.push(f);
+    }
+    const tiedSet = structure.tied.length > 0 ? new Set(structure.tied) : undefined;
     for (let i = 1; i < c.nodes.length; i++) {
       const volts = op.nodes[c.nodes[i]];
-      if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS) continue;
+      if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS || tiedSet?.has(i)) continue;
       const touching = c.elements.map((el, k) => (el.nodes.includes(i) ? k : -1)).filter((k) => k >= 0);
       const f = this.elementFinding(
         'dc-implausible-voltage',

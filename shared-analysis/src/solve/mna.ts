@@ -40,6 +40,13 @@ export type LinearReader =
   | { kind: 'vccs'; element: number; a: number; b: number; cp: number; cn: number; gain: number }
   | { kind: 'cccs'; element: number; a: number; b: number; branch: number; gain: number };
 
+/** Where a resistor's value sits in the matrix, so a per-solve override can change it without rebuilding the pattern. */
+export type ResistorStamp =
+  /** A conductance stamp: pattern positions of (a,a), (b,b), (a,b), (b,a) (−1 at ground) and the netlist conductance. */
+  | { kind: 'conductance'; element: number; positions: Int32Array; g: number }
+  /** A 0 Ω resistor solved as a branch: the branch row's diagonal (registered at 0, so the row can become V(a) − V(b) − R·I = 0). */
+  | { kind: 'short'; element: number; branch: number; diagonal: number };
+
 const KNOWN_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H', 'D', 'Q', 'M']);
 
 /** The MNA system for one circuit: built once, reused by every solve. */
@@ -60,6 +67,8 @@ export class MnaLayout {
   readonly branchOfElement = new Map<number, number>();
   /** Elements skipped because they could not be stamped (bad nodes). */
   readonly skipped = new Set<number>();
+  /** Element index -> where its resistance is stamped (resistors with a usable value only). */
+  readonly resistorStamps = new Map<number, ResistorStamp>();
 
   private readonly entries = new Map<number, number>();
   private readonly rowsList: number[] = [];
@@ -132,6 +141,7 @@ export class MnaLayout {
           if (r === 0) {
             const k = this.branchOfElement.get(i)!;
             this.stampBranchIncidence(a, b, k);
+            this.resistorStamps.set(i, { kind: 'short', element: i, branch: k, diagonal: this.entry(k, k) });
             this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
             this.layoutIssues.push({
               element: i,
@@ -149,6 +159,7 @@ export class MnaLayout {
           }
           const g = 1 / r; // an infinite resistance is an open circuit (g = 0)
           this.stampConductance(a, b, g);
+          this.resistorStamps.set(i, { kind: 'conductance', element: i, positions: Int32Array.of(this.entry(a, a), this.entry(b, b), this.entry(a, b), this.entry(b, a)), g });
           this.readers.push({ kind: 'conductance', element: i, a, b, g });
           break;
         }

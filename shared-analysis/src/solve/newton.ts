@@ -35,6 +35,11 @@ export type NewtonOutcome =
 export class NewtonEngine {
   readonly values: Float64Array;
   readonly rhs: Float64Array;
+  /**
+   * The linear stamps of the current solve: the layout's values plus what the solve adds
+   * (ties of floating nodes, resistance overrides). The solver rewrites it before each solve.
+   */
+  readonly linearValues: Float64Array;
   private readonly xNew: Float64Array;
   /** Equilibrated copy of `values` handed to the factorisation, and the power-of-two row/column scales used. */
   private readonly scaled: Float64Array;
@@ -56,6 +61,7 @@ export class NewtonEngine {
   ) {
     const n = layout.size;
     this.values = new Float64Array(layout.linearValues.length);
+    this.linearValues = Float64Array.from(layout.linearValues);
     this.rhs = new Float64Array(n);
     this.xNew = new Float64Array(n);
     this.scaled = new Float64Array(layout.linearValues.length);
@@ -80,7 +86,7 @@ export class NewtonEngine {
   /** Assembles the linearised system at x. Returns the limiting state and the devices whose stamps were not finite. */
   private assemble(x: Float64Array, run: NewtonRun): { limited: boolean; nonFinite: number[] } {
     const { layout, values, rhs } = this;
-    values.set(layout.linearValues);
+    values.set(this.linearValues);
     rhs.fill(0);
     const sv = this.sourceValues;
     for (let s = 0; s < layout.sources.length; s++) {

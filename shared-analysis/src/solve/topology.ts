@@ -41,11 +41,11 @@ class UnionFind {
 }
 
 /** Node pairs through which an element conducts at DC (a junction's robustness conductance counts; a MOS gate and bulk do not). */
-function conductingPairs(el: Element): [number, number][] {
+function conductingPairs(el: Element, resistance: number): [number, number][] {
   const n = el.nodes;
   switch (el.kind) {
     case 'R':
-      return Number.isNaN(el.resistance) || el.resistance === Infinity ? [] : [[n[0], n[1]]];
+      return Number.isNaN(resistance) || resistance === Infinity ? [] : [[n[0], n[1]]];
     case 'L':
     case 'V':
     case 'D':
@@ -65,18 +65,25 @@ function conductingPairs(el: Element): [number, number][] {
   }
 }
 
-/** Whether an element fixes the voltage between its first two nodes. */
-export function isVoltageDefining(el: Element): boolean {
-  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0);
+/** Whether an element fixes the voltage between its first two nodes (`resistance` overrides a resistor's netlist value). */
+export function isVoltageDefining(el: Element, resistance?: number): boolean {
+  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && (resistance ?? el.resistance) === 0);
 }
 
-/** Groups of nodes with no DC path to ground, with the elements that touch them. `skip` lists elements left out of the solve. */
-export function findFloatingGroups(circuit: Circuit, skip: Set<number>): FloatingGroup[] {
+/** Resistance of element `i` for one solve (a per-solve override, else the netlist value); `undefined` means "as written". */
+export type ResistanceOf = (element: number) => number | undefined;
+
+/**
+ * Groups of nodes with no DC path to ground, with the elements that touch them. `skip` lists
+ * elements left out of the solve; `resistanceOf` gives per-solve resistor values.
+ */
+export function findFloatingGroups(circuit: Circuit, skip: Set<number>, resistanceOf?: ResistanceOf): FloatingGroup[] {
   const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
   circuit.elements.forEach((el, i) => {
     if (skip.has(i)) return;
-    for (const [a, b] of conductingPairs(el)) uf.union(a, b);
+    const r = el.kind === 'R' ? (resistanceOf?.(i) ?? el.resistance) : 0;
+    for (const [a, b] of conductingPairs(el, r)) uf.union(a, b);
   });
   const groundRoot = uf.find(0);
   const groups = new Map<number, FloatingGroup>();
@@ -107,13 +114,13 @@ export function findFloatingGroups(circuit: Circuit, skip: Set<number>): Floatin
 }
 
 /** Every loop closed only by voltage-defining branches (one loop reported per redundant branch). */
-export function findVoltageLoops(circuit: Circuit, skip: Set<number>): VoltageLoop[] {
+export function findVoltageLoops(circuit: Circuit, skip: Set<number>, resistanceOf?: ResistanceOf): VoltageLoop[] {
   const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
   const adjacency: { to: number; element: number }[][] = Array.from({ length: n }, () => []);
   const loops: VoltageLoop[] = [];
   circuit.elements.forEach((el, i) => {
-    if (skip.has(i) || !isVoltageDefining(el)) return;
+    if (skip.has(i) || !isVoltageDefining(el, el.kind === 'R' ? resistanceOf?.(i) : undefined)) return;
     const [a, b] = el.nodes;
     if (!uf.union(a, b)) {
       loops.push({ elements: [...pathBetween(adjacency, a, b), i] });

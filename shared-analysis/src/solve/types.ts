@@ -69,6 +69,12 @@ export interface OperatingPoint {
   nodes: Record<string, number>;
   /** Element name -> record. */
   devices: Record<string, DeviceRecord>;
+  /**
+   * Nodes with no DC path to ground that the solver tied to ground through a tiny
+   * conductance (`TIE_CONDUCTANCE`, 1 pS) so the rest of the circuit could be solved. Their
+   * voltages are arbitrary (set by the tie, not by the circuit). Absent when none were tied.
+   */
+  tiedNodes?: string[];
 }
 
 /** Per-solve changes, so sweeps and corners reuse one prepared solver without rebuilding the circuit. */
@@ -83,4 +89,12 @@ export interface SolveOptions {
   initialGuess?: Float64Array;
   /** Newton iteration cap per attempt (default 150). */
   maxIterations?: number;
+  /**
+   * Element name -> resistance in ohms for this solve only, applied to the prepared matrix
+   * without rebuilding it. Any finite value is accepted, negative included, with one exception:
+   * a resistor written with a non-zero value cannot be set to 0 Ω (a short needs a current
+   * unknown the prepared system lacks); a resistor written as 0 Ω may take any finite value.
+   * Refused entries keep the netlist value and give a located `dc-override-refused` finding.
+   */
+  resistances?: Record<string, number>;
 }
