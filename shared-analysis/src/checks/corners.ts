@@ -165,9 +165,14 @@ export function runCorners(ctx: CornerContext): Finding[] {
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
   const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q') });
 
-  const t0 = clock();
+  let solveMs = 0;
+  const tStart = clock();
   let iterations = 0;
-  const solved: { spec: CornerSpec; result?: DcSolveResult }[] = [];
+  // Each corner's point is measured for every structure as soon as it is solved and then dropped:
+  // holding every corner's full operating point at once (tens of thousands of records each on a
+  // large array) costs more in memory and garbage collection than the measurements themselves.
+  const solved: { spec: CornerSpec; converged: boolean }[] = [];
+  const measured: (Measurement | undefined)[][] = structures.map(() => []);
   for (const spec of specs) {
     const sourceValues: Record<string, number> = {};
     for (const name of sources) {
@@ -176,18 +181,21 @@ export function runCorners(ctx: CornerContext): Finding[] {
     }
     const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x };
     let result: DcSolveResult | undefined;
+    const ts = clock();
     try {
       result = solver.solve(opts);
     } catch {
       // The solver promises not to throw; a corner that does anyway counts as not converged.
       result = undefined;
     }
+    solveMs += clock() - ts;
     iterations += result?.stats.iterations ?? 0;
-    solved.push({ spec, result: result && result.op.converged ? result : undefined });
+    const ok = !!result && result.op.converged;
+    solved.push({ spec, converged: ok });
+    structures.forEach((s, i) => measured[i].push(ok ? measureStructure(circuit, result!.op, s) : undefined));
   }
-  const t1 = clock();
 
-  const failed = solved.filter((s) => !s.result).map((s) => s.spec.label);
+  const failed = solved.filter((s) => !s.converged).map((s) => s.spec.label);
   const elements = new Map<string, Element>();
   for (const e of circuit.elements) elements.set(e.name, e);
 
@@ -204,20 +212,20 @@ export function runCorners(ctx: CornerContext): Finding[] {
     });
   }
 
-  for (const s of structures) {
+  structures.forEach((s, index) => {
     // The whole circuit, not a per-structure view: its topology is built once and cached, so every
     // (structure, corner) measurement is a handful of map look-ups.
     const nominalM = measureStructure(circuit, nominal.op, s);
-    s.corners = solved.map(({ spec, result }) => toCornerResult(spec, result ? measureStructure(circuit, result.op, s) : undefined, s));
+    s.corners = solved.map(({ spec }, k) => toCornerResult(spec, measured[index][k], s));
     for (const o of s.outputs) {
       const sweep = sweepOf(o.device, s, nominalM);
       const el = elements.get(o.device);
       if (!el) continue;
       findings.push(...outputFindings(s, el, sweep, options, s.corners.filter((c) => c.converged).length));
     }
-  }
+  });
   if (ctx.stats) {
-    Object.assign(ctx.stats, { corners: specs.length, converged: specs.length - failed.length, iterations, solveMs: t1 - t0, measureMs: clock() - t1 });
+    Object.assign(ctx.stats, { corners: specs.length, converged: specs.length - failed.length, iterations, solveMs, measureMs: clock() - tStart - solveMs });
   }
   return findings;
 }

@@ -392,13 +392,56 @@ export function readTargets(documents: Record<string, ParsedDocument>): { target
 }
 
 /** The elements a target applies to: by hierarchical name, or every flattened copy of its card. */
-export function targetElements(circuit: Circuit, target: Target): Element[] {
-  if (target.subject.kind === 'name') {
-    const want = target.subject.name.toLowerCase();
-    return circuit.elements.filter((e) => e.name.toLowerCase() === want);
+export function targetElements(circuit: Circuit, target: Target, index: TargetIndex = new TargetIndex(circuit, [])): Element[] {
+  if (target.subject.kind === 'name') return index.byName.get(target.subject.name.toLowerCase()) ?? [];
+  return index.byCard.get(target.uri)?.get(target.subject.cardSpan.start) ?? [];
+}
+
+/**
+ * Look-up tables for the target checks, built once per check so that each target costs a few map
+ * look-ups instead of scans over every element and structure (thousands of targets on large arrays).
+ */
+export class TargetIndex {
+  /** Lower-case element name -> elements (one, unless names clash). */
+  readonly byName = new Map<string, Element[]>();
+  /** Document id -> card start offset -> the elements elaborated from that card (one per subcircuit instance). */
+  readonly byCard = new Map<string, Map<number, Element[]>>();
+  /** Lower-case element name -> its structure role (first structure wins, as in a scan in order). */
+  readonly roles = new Map<string, TargetRole>();
+  /** Lower-case resistor name -> its Widlar emitter role. */
+  readonly degenerations = new Map<string, TargetRole>();
+
+  constructor(circuit: Circuit, structures: Structure[]) {
+    const push = <K>(m: Map<K, Element[]>, k: K, e: Element): void => {
+      const list = m.get(k);
+      if (list) list.push(e);
+      else m.set(k, [e]);
+    };
+    for (const e of circuit.elements) {
+      push(this.byName, e.name.toLowerCase(), e);
+      let cards = this.byCard.get(e.origin.uri);
+      if (!cards) this.byCard.set(e.origin.uri, (cards = new Map()));
+      push(cards, e.origin.span.start, e);
+    }
+    // Within one structure: outputs, then the reference device, then the reference resistors.
+    for (const st of structures) {
+      const add = (name: string, role: TargetRole): void => {
+        const k = name.toLowerCase();
+        if (!this.roles.has(k)) this.roles.set(k, role);
+      };
+      const local = new Map<string, TargetRole>();
+      for (const o of st.outputs) if (!local.has(o.device.toLowerCase())) local.set(o.device.toLowerCase(), { structure: st, role: 'output', output: o.device });
+      if (!local.has(st.reference.device.toLowerCase())) local.set(st.reference.device.toLowerCase(), { structure: st, role: 'reference-device' });
+      if (st.reference.feed === 'resistor') {
+        for (const r of st.reference.elements) if (!local.has(r.toLowerCase())) local.set(r.toLowerCase(), { structure: st, role: 'reference-resistor' });
+      }
+      for (const [k, role] of local) add(k, role);
+      for (const o of st.outputs) {
+        const r = o.degeneration?.resistor.toLowerCase();
+        if (r && !this.degenerations.has(r)) this.degenerations.set(r, { structure: st, role: 'degeneration-resistor', output: o.device });
+      }
+    }
   }
-  const { cardSpan } = target.subject;
-  return circuit.elements.filter((e) => e.origin.uri === target.uri && e.origin.span.start === cardSpan.start);
 }
 
 /** The DC current magnitude an element carries at an operating point, when the point has it. */
@@ -418,8 +461,9 @@ export interface TargetRole {
 }
 
 /** The structure role of an element: an output device, the reference device, a resistor of the reference chain, or a Widlar emitter resistor. */
-export function structureRole(circuit: Circuit, structures: Structure[], element: Element): TargetRole | undefined {
+export function structureRole(circuit: Circuit, structures: Structure[], element: Element, index?: TargetIndex): TargetRole | undefined {
   const name = element.name.toLowerCase();
+  if (index) return index.roles.get(name) ?? (element.kind === 'R' ? index.degenerations.get(name) : undefined);
   for (const s of structures) {
     const out = s.outputs.find((o) => o.device.toLowerCase() === name);
     if (out) return { structure: s, role: 'output', output: out.device };
@@ -444,8 +488,8 @@ export function degenerationResistor(s: Structure, output: string | undefined): 
 }
 
 /** The resistor a sizing fix would change to move an element's current, and the structure it acts through. */
-export function sizingKnob(circuit: Circuit, structures: Structure[], element: Element): { resistor: string; structureId?: string } | undefined {
-  const role = structureRole(circuit, structures, element);
+export function sizingKnob(circuit: Circuit, structures: Structure[], element: Element, index?: TargetIndex): { resistor: string; structureId?: string } | undefined {
+  const role = structureRole(circuit, structures, element, index);
   if (role) {
     const s = role.structure;
     if (role.role === 'degeneration-resistor') return { resistor: element.name, structureId: s.id };
@@ -455,7 +499,7 @@ export function sizingKnob(circuit: Circuit, structures: Structure[], element: E
     }
     if (s.reference.feed === 'resistor' && s.reference.elements.length > 0) {
       const chain = s.reference.elements
-        .map((n) => circuit.elements.find((e) => e.name.toLowerCase() === n.toLowerCase()))
+        .map((n) => (index ? index.byName.get(n.toLowerCase())?.[0] : circuit.elements.find((e) => e.name.toLowerCase() === n.toLowerCase())))
         .filter((e): e is Extract<Element, { kind: 'R' }> => !!e && e.kind === 'R');
       // The largest resistor of the chain sets the current; changing it moves the current most.
       const biggest = chain.sort((a, b) => b.resistance - a.resistance)[0];
@@ -522,8 +566,9 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
   const nominalWanted = want !== 'corners';
   const findings: Finding[] = [];
   const defaultTolerance = seriesTolerance(options.resistorSeries);
+  const index = new TargetIndex(circuit, structures);
   for (const target of targets) {
-    const elements = targetElements(circuit, target);
+    const elements = targetElements(circuit, target, index);
     if (elements.length === 0) {
       if (target.subject.kind === 'name' && nominalWanted) {
         findings.push({
@@ -551,13 +596,13 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
         });
         continue;
       }
-      const role = structureRole(circuit, structures, element);
+      const role = structureRole(circuit, structures, element, index);
       const estimate = estimatedCurrent(role, element);
       const solved = op && op.converged ? solvedCurrent(op, element.name) : undefined;
       const measured = solved ?? estimate;
       if (measured === undefined) continue;
       const error = measured / target.current - 1;
-      const knob = sizingKnob(circuit, structures, element);
+      const knob = sizingKnob(circuit, structures, element, index);
       const data: Record<string, unknown> = {
         element: element.name,
         target: target.current,

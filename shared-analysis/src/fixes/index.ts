@@ -1,7 +1,7 @@
 // Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
 import type { ResolvedOptions } from '../analysis';
-import type { Circuit, Resistor } from '../circuit';
+import type { Circuit, Element, Resistor } from '../circuit';
 import { parseNumber } from '../elaborate/units';
 import type { DcSolver } from '../solve/dc';
 import type { Structure } from '../structures/types';
@@ -84,9 +84,17 @@ const BUILDERS: Record<string, FixBuilder> = {
  * offer leaves the finding untouched; fixes already present are kept, new ones appended.
  */
 export function attachFixes(findings: Finding[], ctx: FixContext): void {
+  let byName: Map<string, Element> | undefined;
+  const lookup = (name: string): Element | undefined => {
+    if (!byName) {
+      byName = new Map();
+      for (const e of ctx.circuit?.elements ?? []) if (!byName.has(e.name.toLowerCase())) byName.set(e.name.toLowerCase(), e);
+    }
+    return byName.get(name.toLowerCase());
+  };
   for (const f of findings) {
     if (f.code === 'target-missed') {
-      const request = sizingRequestOf(f, ctx);
+      const request = sizingRequestOf(f, ctx, lookup);
       if (request) f.data = { ...(f.data ?? {}), sizing: request };
       continue;
     }
@@ -153,14 +161,14 @@ export function attachSizingFixes(findings: Finding[], ctx: SizingFixContext): v
 }
 
 /** The sizing marker for a `target-missed` finding from the target check's data, when its resistor can be rewritten. */
-function sizingRequestOf(f: Finding, ctx: FixContext): SizingRequest | undefined {
+function sizingRequestOf(f: Finding, ctx: FixContext, lookup: (name: string) => Element | undefined): SizingRequest | undefined {
   const { circuit, documents } = ctx;
   const d = f.data ?? {};
   const resistorName = typeof d['resistor'] === 'string' ? d['resistor'] : undefined;
   const element = typeof d['element'] === 'string' ? d['element'] : undefined;
   const target = typeof d['target'] === 'number' ? d['target'] : undefined;
   if (!circuit || !resistorName || !element || target === undefined || !(target > 0) || !Number.isFinite(target)) return undefined;
-  const r = circuit.elements.find((e) => e.name.toLowerCase() === resistorName.toLowerCase());
+  const r = lookup(resistorName);
   if (!r || r.kind !== 'R') return undefined;
   // A value written as an expression or parameter is the user's design intent; do not overwrite it with a number.
   if (writtenScale(r, documents) === undefined) return undefined;
