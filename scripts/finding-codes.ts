@@ -14,6 +14,7 @@ const groupTitle: Record<string, string> = {
   corners: 'Corners',
   targets: 'Target currents',
   fixes: 'Fixes',
+  host: 'Editor host',
 };
 
 /** The markdown table, grouped by the module family that owns each code. */

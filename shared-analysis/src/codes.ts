@@ -13,8 +13,13 @@ export interface CodeInfo {
   severity: Severity;
   summary: string;
   /** The module family that owns the code. */
-  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'corners' | 'targets' | 'fixes';
+  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'corners' | 'targets' | 'fixes' | 'host';
 }
+
+/** Codes a host reports about the analysis itself (the language server; the engine never emits them). */
+export const HOST_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'analysis-stopped': { severity: 'error', summary: 'The language server stopped an analysis that failed or ran past its time limit; the last finished results stay shown.' },
+};
 
 /** Code -> default severity, one-line summary and owning group. */
 export function findingCatalogue(): Record<string, CodeInfo> {
@@ -27,6 +32,7 @@ export function findingCatalogue(): Record<string, CodeInfo> {
     ['corners', CORNER_CODES],
     ['targets', TARGET_CODES],
     ['fixes', FIX_CODES],
+    ['host', HOST_CODES],
   ];
   for (const [group, table] of groups) for (const [code, info] of Object.entries(table)) out[code] ??= { ...info, group };
   return out;
