@@ -81,8 +81,11 @@ export function definitionAt(analysis: Analysis, uri: string, offset: number): L
   if (!t) return [];
   const doc = analysis.documents[uri];
   switch (t.kind) {
-    case 'include':
-      return [{ uri: t.target, span: { start: 0, end: 0 } }];
+    case 'include': {
+      // A file that was not read has no place to go to; the include-not-found finding already says why.
+      const read = analysis.documents[t.target] !== undefined || analysis.symbols.includes.some((i) => i.target === t.target && i.found);
+      return read ? [{ uri: t.target, span: { start: 0, end: 0 } }] : [];
+    }
     case 'param':
       return [{ uri: t.symbol.uri, span: t.symbol.nameSpan }];
     case 'model': {

@@ -86,6 +86,13 @@ describe('definition', () => {
     const analysis = analyseText(text, LIB);
     expect(definitionAt(analysis, '/t/main.cir', offset).map((l) => l.uri)).toEqual(['/t/lib.inc']);
   });
+  it('goes nowhere from the path of an include whose file does not exist', () => {
+    // The include-not-found finding explains the missing file; a location inside it would open an empty editor.
+    const { text, offset } = withCursor('t\n.include noth|ere.inc\n');
+    const analysis = analyseText(text);
+    expect(analysis.findings.map((f) => f.code)).toContain('include-not-found');
+    expect(definitionAt(analysis, '/t/main.cir', offset)).toEqual([]);
+  });
   it('goes from a node inside a subcircuit to the port that names it', () => {
     check(at(NET, 'a n1'), { definition: ['main.cir:9:a'] }, LIB);
   });
