@@ -386,6 +386,7 @@ async function main(): Promise<void> {
   const load = (): string => loadavg().map((v) => v.toFixed(2)).join(' / ');
   console.log(`Machine: ${cpus().length} × ${cpus()[0]?.model.trim() ?? 'unknown CPU'}; load average (1/5/15 min) at start ${load()}`);
   console.log(`Node ${process.version}, ${process.platform}/${process.arch}${exposeGc ? ', --expose-gc on' : ', --expose-gc off (run with node --expose-gc for steadier figures)'}`);
+  console.log('Sections: QPOINT_BENCH_SECTIONS=linear,newton,scale (the default) selects what runs.');
   console.log(`Clock: ${CLOCK === 'cpu' ? 'process CPU time (user + system); QPOINT_BENCH_CLOCK=wall for wall time' : 'wall time'}. Medians of ${MIN_REPS}–${MAX_REPS} runs after one untimed warm-up run. mathjs slu(order ${MATHJS_ORDER}, threshold ${MATHJS_THRESHOLD}) + lusolve runs in a worker: repeats stop after ${MATHJS_BUDGET_MS / 1000} s, a single run is stopped at ${MATHJS_RUN_CAP_MS / 1000} s.`);
   console.log('');
 
@@ -396,146 +397,156 @@ async function main(): Promise<void> {
     { family: 'mirrors', make: (nodes) => mirrorArray(Math.round(nodes / 2)) },
   ];
 
-  const header = ['case', 'unknowns', 'nnz(A)', 'nnz(L+U)', 'ordering', 'first f+s', 'refactor+s', 'mathjs f+s', 'vs first', 'vs refac', 'mathjs Δx', 'residual'];
-  const widths = [22, 9, 9, 10, 10, 10, 11, 12, 9, 9, 10, 9];
-  console.log('Linear systems (the engine\'s MNA matrix; mirror arrays linearised at VBE = 0.65 V)');
-  console.log(header.map((h, i) => (i === 0 ? h.padEnd(widths[0]) : pad(h, widths[i]))).join(' '));
+  const only = (process.env.QPOINT_BENCH_SECTIONS ?? 'linear,newton,scale').split(',').map((x) => x.trim());
   const results = new Map<string, { own: OwnFigures; mj: MathjsFigures }>();
-  const notes: string[] = [];
-  for (const b of builders) {
-    for (const size of sizes) {
-      const c = linearCase(b.family, `${b.family} ${size / 1000}k`, b.make(size));
-      const own = measureOwn(c);
-      const mj = await measureMathjs(c);
-      results.set(`${b.family}:${size}`, { own, mj });
-      const mjMs = mj.runs.length > 0 ? median(mj.runs) : NaN;
-      const ownFirst = own.analysisMs + own.firstMs;
-      const row = [
-        c.label,
-        String(c.pattern.n),
-        String(c.values.length),
-        String(own.factorNonzeros),
-        fmtMs(own.analysisMs),
-        fmtMs(own.firstMs),
-        fmtMs(own.refactorMs),
-        mj.runs.length > 0 ? fmtMs(mjMs) + (mj.runs.length < MIN_REPS ? `(${mj.runs.length})` : '') : `>${MATHJS_RUN_CAP_MS / 1000} s`,
-        mj.runs.length > 0 ? `${(mjMs / ownFirst).toFixed(1)}×` : `>${(MATHJS_RUN_CAP_MS / ownFirst).toFixed(0)}×`,
-        mj.runs.length > 0 ? `${(mjMs / own.refactorMs).toFixed(1)}×` : `>${(MATHJS_RUN_CAP_MS / own.refactorMs).toFixed(0)}×`,
-        mj.x ? maxRelDiff(own.x, mj.x).toExponential(1) : '—',
-        own.residual.toExponential(1),
-      ];
-      console.log(row.map((s, i) => (i === 0 ? s.padEnd(widths[0]) : pad(s, widths[i]))).join(' '));
-      if (mj.timedOut) notes.push(`${c.label}: mathjs stopped after ${mj.runs.length} completed run(s); a run exceeded the ${MATHJS_RUN_CAP_MS / 1000} s cap.`);
-      else if (mj.runs.length < MIN_REPS) notes.push(`${c.label}: mathjs figure is from ${mj.runs.length} run(s) only (time budget).`);
-    }
-  }
-  console.log('');
-  console.log('Columns: ordering = construction (minimum-degree ordering and compressed structure); first f+s = first factorisation with pivoting plus one solve;');
-  console.log('refactor+s = numeric refactorisation on the recorded pivots plus one solve; vs first = mathjs time / (ordering + first f+s); vs refac = mathjs time / refactor+s;');
-  console.log('mathjs Δx = max |x_ours − x_mathjs| / max |x_mathjs|; residual = normwise backward error ‖b − A·x‖∞ / (‖A‖∞·‖x‖∞ + ‖b‖∞).');
-  for (const n of notes) console.log(`Note: ${n}`);
-  console.log('');
-
-  console.log('Growth from 10k to 100k nodes (time at 100k / time at 10k)');
-  for (const b of builders) {
-    const a = results.get(`${b.family}:10000`)!.own;
-    const z = results.get(`${b.family}:100000`)!.own;
-    const g1 = (z.analysisMs + z.firstMs) / (a.analysisMs + a.firstMs);
-    const g2 = z.refactorMs / a.refactorMs;
-    console.log(`  ${b.family.padEnd(8)} ordering + first f+s ${g1.toFixed(1)}×, refactor+s ${g2.toFixed(1)}×, nnz(L+U) ${(z.factorNonzeros / a.factorNonzeros).toFixed(1)}×`);
-  }
-  console.log('');
-
-  console.log('Scale check at 1,000,000 nodes (one run each, no mathjs)');
-  for (const b of builders.filter((x) => x.family !== 'grid')) {
-    const c = linearCase(b.family, `${b.family} 1M`, b.make(1_000_000));
-    gc();
-    let t = now();
-    const lu = new SparseLU(c.pattern);
-    const ordering = now() - t;
-    const x = new Float64Array(c.pattern.n);
-    t = now();
-    const r1 = lu.factor(c.values);
-    lu.solve(c.rhs, x);
-    const first = now() - t;
-    t = now();
-    const r2 = lu.factor(c.values);
-    lu.solve(c.rhs, x);
-    const refac = now() - t;
-    const ok = r1.ok && r2.ok;
-    console.log(`  ${c.label.padEnd(12)} unknowns ${c.pattern.n}, ordering ${fmtMs(ordering)}, first f+s ${fmtMs(first)}, refactor+s ${fmtMs(refac)}, residual ${ok ? residual(c, x).toExponential(1) : 'factor failed'}`);
-  }
-  console.log('');
-
-  console.log('Newton to the operating point (DcSolver, zero initial guess)');
-  const nh = ['case', 'BJTs', 'unknowns', 'iterations', 'factorizations', 'prepare', 'solve', 'prepare+solve', 'converged'];
-  const nw = [22, 7, 9, 11, 15, 10, 10, 14, 10];
-  console.log(nh.map((h, i) => (i === 0 ? h.padEnd(nw[0]) : pad(h, nw[i]))).join(' '));
-  const newtonCases: { label: string; cells: number }[] = [
-    { label: 'mirrors 2,000 BJTs', cells: 1_000 },
-    { label: 'mirrors 1k nodes', cells: 500 },
-    { label: 'mirrors 10k nodes', cells: 5_000 },
-    { label: 'mirrors 100k nodes', cells: 50_000 },
-  ];
   let target2k: { solve: number; both: number; converged: boolean } | undefined;
-  for (const nc of newtonCases) {
-    const circuit = mirrorArray(nc.cells);
-    gc();
-    const prep = repeat(() => void new DcSolver(circuit));
-    const solver = new DcSolver(circuit);
-    let last = solver.solve();
-    const solve = repeat(() => {
-      last = solver.solve();
-    });
-    const both = repeat(() => {
-      last = new DcSolver(circuit).solve();
-    });
-    const row = [
-      nc.label,
-      String(nc.cells * 2),
-      String(solver.unknownCount),
-      String(last.stats.iterations),
-      String(last.stats.factorizations),
-      fmtMs(median(prep)),
-      fmtMs(median(solve)),
-      fmtMs(median(both)),
-      last.op.converged ? 'yes' : 'NO',
-    ];
-    console.log(row.map((s, i) => (i === 0 ? s.padEnd(nw[0]) : pad(s, nw[i]))).join(' '));
-    if (nc.cells === 1_000) target2k = { solve: median(solve), both: median(both), converged: last.op.converged };
-    if (last.op.converged) {
-      const q = last.op.devices['QOUT0'];
-      if (q && q.type === 'bjt') {
-        const hand = handMirrorOutput();
-        console.log(`${' '.repeat(nw[0])} check: QOUT0 IC = ${(q.ic * 1e3).toFixed(4)} mA at VCE = ${q.vce.toFixed(3)} V; hand analysis ${(hand.iout * 1e3).toFixed(4)} mA at ${hand.vce.toFixed(3)} V`);
+  if (only.includes('linear')) {
+    const header = ['case', 'unknowns', 'nnz(A)', 'nnz(L+U)', 'ordering', 'first f+s', 'refactor+s', 'mathjs f+s', 'vs first', 'vs refac', 'mathjs Δx', 'residual'];
+    const widths = [22, 9, 9, 10, 10, 10, 11, 12, 9, 9, 10, 9];
+    console.log('Linear systems (the engine\'s MNA matrix; mirror arrays linearised at VBE = 0.65 V)');
+    console.log(header.map((h, i) => (i === 0 ? h.padEnd(widths[0]) : pad(h, widths[i]))).join(' '));
+    const notes: string[] = [];
+    for (const b of builders) {
+      for (const size of sizes) {
+        const c = linearCase(b.family, `${b.family} ${size / 1000}k`, b.make(size));
+        const own = measureOwn(c);
+        const mj = await measureMathjs(c);
+        results.set(`${b.family}:${size}`, { own, mj });
+        const mjMs = mj.runs.length > 0 ? median(mj.runs) : NaN;
+        const ownFirst = own.analysisMs + own.firstMs;
+        const row = [
+          c.label,
+          String(c.pattern.n),
+          String(c.values.length),
+          String(own.factorNonzeros),
+          fmtMs(own.analysisMs),
+          fmtMs(own.firstMs),
+          fmtMs(own.refactorMs),
+          mj.runs.length > 0 ? fmtMs(mjMs) + (mj.runs.length < MIN_REPS ? `(${mj.runs.length})` : '') : `>${MATHJS_RUN_CAP_MS / 1000} s`,
+          mj.runs.length > 0 ? `${(mjMs / ownFirst).toFixed(1)}×` : `>${(MATHJS_RUN_CAP_MS / ownFirst).toFixed(0)}×`,
+          mj.runs.length > 0 ? `${(mjMs / own.refactorMs).toFixed(1)}×` : `>${(MATHJS_RUN_CAP_MS / own.refactorMs).toFixed(0)}×`,
+          mj.x ? maxRelDiff(own.x, mj.x).toExponential(1) : '—',
+          own.residual.toExponential(1),
+        ];
+        console.log(row.map((s, i) => (i === 0 ? s.padEnd(widths[0]) : pad(s, widths[i]))).join(' '));
+        if (mj.timedOut) notes.push(`${c.label}: mathjs stopped after ${mj.runs.length} completed run(s); a run exceeded the ${MATHJS_RUN_CAP_MS / 1000} s cap.`);
+        else if (mj.runs.length < MIN_REPS) notes.push(`${c.label}: mathjs figure is from ${mj.runs.length} run(s) only (time budget).`);
       }
     }
-  }
-  console.log('');
-  console.log('prepare = new DcSolver(circuit) (MNA layout, structural checks, ordering); solve = solver.solve() on a prepared solver; prepare+solve = both, as a first analysis does.');
+    console.log('');
+    console.log('Columns: ordering = construction (minimum-degree ordering and compressed structure); first f+s = first factorisation with pivoting plus one solve;');
+    console.log('refactor+s = numeric refactorisation on the recorded pivots plus one solve; vs first = mathjs time / (ordering + first f+s); vs refac = mathjs time / refactor+s;');
+    console.log('mathjs Δx = max |x_ours − x_mathjs| / max |x_mathjs|; residual = normwise backward error ‖b − A·x‖∞ / (‖A‖∞·‖x‖∞ + ‖b‖∞).');
+    for (const n of notes) console.log(`Note: ${n}`);
+    console.log('');
 
-  const tenK = ['ladder', 'grid', 'mirrors'].map((f) => {
-    const r = results.get(`${f}:10000`)!;
-    const mjMs = r.mj.runs.length > 0 ? median(r.mj.runs) : MATHJS_RUN_CAP_MS;
-    return { f, first: mjMs / (r.own.analysisMs + r.own.firstMs), refac: mjMs / r.own.refactorMs };
-  });
+    console.log('Growth from 10k to 100k nodes (time at 100k / time at 10k)');
+    for (const b of builders) {
+      const a = results.get(`${b.family}:10000`)!.own;
+      const z = results.get(`${b.family}:100000`)!.own;
+      const g1 = (z.analysisMs + z.firstMs) / (a.analysisMs + a.firstMs);
+      const g2 = z.refactorMs / a.refactorMs;
+      console.log(`  ${b.family.padEnd(8)} ordering + first f+s ${g1.toFixed(1)}×, refactor+s ${g2.toFixed(1)}×, nnz(L+U) ${(z.factorNonzeros / a.factorNonzeros).toFixed(1)}×`);
+    }
+    console.log('');
+
+  }
+  // Newton before the million-node check, so its figures do not pay for collecting that check's heap.
+  if (only.includes('newton')) {
+    console.log('Newton to the operating point (DcSolver, zero initial guess)');
+    const nh = ['case', 'BJTs', 'unknowns', 'iterations', 'factorizations', 'prepare', 'solve', 'prepare+solve', 'converged'];
+    const nw = [22, 7, 9, 11, 15, 10, 10, 14, 10];
+    console.log(nh.map((h, i) => (i === 0 ? h.padEnd(nw[0]) : pad(h, nw[i]))).join(' '));
+    const newtonCases: { label: string; cells: number }[] = [
+      { label: 'mirrors 2,000 BJTs', cells: 1_000 },
+      { label: 'mirrors 1k nodes', cells: 500 },
+      { label: 'mirrors 10k nodes', cells: 5_000 },
+      { label: 'mirrors 100k nodes', cells: 50_000 },
+    ];
+    for (const nc of newtonCases) {
+      const circuit = mirrorArray(nc.cells);
+      gc();
+      const prep = repeat(() => void new DcSolver(circuit));
+      const solver = new DcSolver(circuit);
+      let last = solver.solve();
+      const solve = repeat(() => {
+        last = solver.solve();
+      });
+      const both = repeat(() => {
+        last = new DcSolver(circuit).solve();
+      });
+      const row = [
+        nc.label,
+        String(nc.cells * 2),
+        String(solver.unknownCount),
+        String(last.stats.iterations),
+        String(last.stats.factorizations),
+        fmtMs(median(prep)),
+        fmtMs(median(solve)),
+        fmtMs(median(both)),
+        last.op.converged ? 'yes' : 'NO',
+      ];
+      console.log(row.map((s, i) => (i === 0 ? s.padEnd(nw[0]) : pad(s, nw[i]))).join(' '));
+      if (nc.cells === 1_000) target2k = { solve: median(solve), both: median(both), converged: last.op.converged };
+      if (last.op.converged) {
+        const q = last.op.devices['QOUT0'];
+        if (q && q.type === 'bjt') {
+          const hand = handMirrorOutput();
+          console.log(`${' '.repeat(nw[0])} check: QOUT0 IC = ${(q.ic * 1e3).toFixed(4)} mA at VCE = ${q.vce.toFixed(3)} V; hand analysis ${(hand.iout * 1e3).toFixed(4)} mA at ${hand.vce.toFixed(3)} V`);
+        }
+      }
+    }
+    console.log('');
+    console.log('prepare = new DcSolver(circuit) (MNA layout, structural checks, ordering); solve = solver.solve() on a prepared solver; prepare+solve = both, as a first analysis does.');
+
+  }
+  if (only.includes('scale')) {
+    console.log('Scale check at 1,000,000 nodes (one run each, no mathjs)');
+    for (const b of builders.filter((x) => x.family !== 'grid')) {
+      const c = linearCase(b.family, `${b.family} 1M`, b.make(1_000_000));
+      gc();
+      let t = now();
+      const lu = new SparseLU(c.pattern);
+      const ordering = now() - t;
+      const x = new Float64Array(c.pattern.n);
+      t = now();
+      const r1 = lu.factor(c.values);
+      lu.solve(c.rhs, x);
+      const first = now() - t;
+      t = now();
+      const r2 = lu.factor(c.values);
+      lu.solve(c.rhs, x);
+      const refac = now() - t;
+      const ok = r1.ok && r2.ok;
+      console.log(`  ${c.label.padEnd(12)} unknowns ${c.pattern.n}, ordering ${fmtMs(ordering)}, first f+s ${fmtMs(first)}, refactor+s ${fmtMs(refac)}, residual ${ok ? residual(c, x).toExponential(1) : 'factor failed'}`);
+    }
+    console.log('');
+
+  }
   console.log('');
   console.log('Targets');
-  for (const t of tenK) {
-    console.log(`  10k ${t.f.padEnd(8)} ≥ 10× faster than mathjs per factor-and-solve: first ${t.first.toFixed(1)}× (${t.first >= 10 ? 'met' : 'missed'}), refactor ${t.refac.toFixed(1)}× (${t.refac >= 10 ? 'met' : 'missed'})`);
+  if (results.size > 0) {
+    const tenK = ['ladder', 'grid', 'mirrors'].map((f) => {
+      const r = results.get(`${f}:10000`)!;
+      const mjMs = r.mj.runs.length > 0 ? median(r.mj.runs) : MATHJS_RUN_CAP_MS;
+      return { f, first: mjMs / (r.own.analysisMs + r.own.firstMs), refac: mjMs / r.own.refactorMs };
+    });
+    for (const t of tenK) {
+      console.log(`  10k ${t.f.padEnd(8)} ≥ 10× faster than mathjs per factor-and-solve: first ${t.first.toFixed(1)}× (${t.first >= 10 ? 'met' : 'missed'}), refactor ${t.refac.toFixed(1)}× (${t.refac >= 10 ? 'met' : 'missed'})`);
+    }
+    for (const b of builders) {
+      const a = results.get(`${b.family}:10000`)!.own;
+      const z = results.get(`${b.family}:100000`)!.own;
+      const g = (z.analysisMs + z.firstMs) / (a.analysisMs + a.firstMs);
+      const gr = z.refactorMs / a.refactorMs;
+      console.log(`  ${b.family.padEnd(8)} 10k → 100k growth ≤ 15×: first ${g.toFixed(1)}× (${g <= 15 ? 'met' : 'missed'}), refactor ${gr.toFixed(1)}× (${gr <= 15 ? 'met' : 'missed'})`);
+    }
   }
-  for (const b of builders) {
-    const a = results.get(`${b.family}:10000`)!.own;
-    const z = results.get(`${b.family}:100000`)!.own;
-    const g = (z.analysisMs + z.firstMs) / (a.analysisMs + a.firstMs);
-    const gr = z.refactorMs / a.refactorMs;
-    console.log(`  ${b.family.padEnd(8)} 10k → 100k growth ≤ 15×: first ${g.toFixed(1)}× (${g <= 15 ? 'met' : 'missed'}), refactor ${gr.toFixed(1)}× (${gr <= 15 ? 'met' : 'missed'})`);
-  }
-  console.log(`Load average at the end: ${load()} (figures taken under a load above the core count are inflated).`);
   if (target2k) {
     const ok = target2k.converged && target2k.both < 100;
     console.log(`  2,000-BJT mirror array at its operating point in < 100 ms median: prepare+solve ${fmtMs(target2k.both)}, solve ${fmtMs(target2k.solve)} (${ok ? 'met' : 'missed'})`);
   }
+  console.log(`Load average at the end: ${load()} (figures taken under a load above the core count are inflated).`);
 }
 
 if (isMainThread) {
