@@ -16,7 +16,14 @@ export interface QuantityFormat {
 export function formatQuantity(value: number, unit = '', format: QuantityFormat = {}): string {
   if (Number.isNaN(value)) return 'not available';
   if (Math.abs(value) >= 1e29) return value < 0 ? '−∞' : '∞';
-  return formatEngineering(value, { unit, digits: format.digits ?? 3, style: 'display' });
+  // −0 (e.g. from −1 · 0 in a sign convention) is zero to a reader.
+  if (value === 0) value = 0;
+  return unsignedZero(formatEngineering(value, { unit, digits: format.digits ?? 3, style: 'display' }));
+}
+
+/** Drops the minus sign of a text whose number reads as zero (`−0 V`, `−0.00 %`), which no reader should see. */
+function unsignedZero(text: string): string {
+  return /^[−-]0(?:[.,]0*)?(?![0-9.])/.test(text) ? text.slice(1) : text;
 }
 
 /** Formats a plain number (no unit) with up to `digits` significant digits, without exponent for ordinary sizes. */
@@ -27,10 +34,12 @@ export function formatNumber(value: number, digits = 4): string {
   const mag = Math.abs(value);
   const sign = value < 0 ? '−' : '';
   const text = mag >= 1e-3 && mag < 1e6 ? String(Number(mag.toPrecision(digits))) : mag.toPrecision(digits).replace(/\.?0+e/, 'e').replace('e+', 'e');
-  return sign + text;
+  // toPrecision keeps trailing zeros below 1e-3 without an exponent (0.0004000); a reader wants 0.0004.
+  const tidy = !text.includes('e') && text.includes('.') ? text.replace(/0+$/, '').replace(/\.$/, '') : text;
+  return unsignedZero(sign + tidy);
 }
 
-/** Formats a ratio as a signed percentage, e.g. `+2.1 %`. */
+/** Formats a ratio as a signed percentage, e.g. `+2.1 %`; zero (either sign) is `0 %`. */
 export function formatPercent(ratio: number): string {
-  return formatSignedPercent(ratio);
+  return unsignedZero(formatSignedPercent(ratio === 0 ? 0 : ratio));
 }
