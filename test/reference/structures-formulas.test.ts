@@ -237,7 +237,7 @@ function solved(circuit: Circuit): { s: Structure; converged: boolean } {
 }
 
 describe('estimate against the DC solver on the same circuit', () => {
-  const kinds: StructureKind[] = ['simple-mirror', 'widlar-source', 'helper-mirror', 'wilson-mirror', 'improved-wilson-mirror', 'cascode-mirror'];
+  const kinds: StructureKind[] = ['simple-mirror', 'widlar-source', 'helper-mirror', 'wilson-mirror', 'improved-wilson-mirror', 'cascode-mirror', 'degenerated-mirror'];
   const techs: Technology[] = ['npn', 'pnp', 'nmos', 'pmos'];
   for (const tech of techs) {
     for (const kind of kinds) {

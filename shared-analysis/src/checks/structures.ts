@@ -5,7 +5,7 @@ import type { Circuit, Element, Model } from '../circuit';
 import type { OperatingPoint } from '../solve/types';
 import { estimateStructure } from '../structures/estimate';
 import { eng, percent, sig, signedVolts } from '../structures/format';
-import { bjtRo, degeneratedRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
+import { bjtRo, degeneratedRo, degeneratedRoWithBase, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -37,7 +37,7 @@ export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: stri
   },
   'mirror-ratio': {
     severity: 'info',
-    summary: 'An output is deliberately ratioed by area, M or W/L; shows the intended ratio and the hand formula with it.',
+    summary: 'An output is deliberately ratioed by area, M or W/L (or, in a degenerated mirror, by its emitter/source resistors); shows the intended ratio and the hand formula with it.',
   },
   'estimate-differs-from-solved': {
     severity: 'info',
@@ -284,7 +284,16 @@ class StructureCheck {
       const partnerName = (role: 'lower-partner' | 'lower-diode' | 'reference') => this.s.devices.find((d) => this.s.roles?.[d] === role);
       let r: number;
       if (out.ro >= UNBOUNDED_OHMS) r = UNBOUNDED_OHMS;
-      else if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'helper-mirror') {
+      else if (this.s.kind === 'degenerated-mirror' && o.degeneration) {
+        // Source: Gray et al., ch. 3 — degenerated output with a base-side resistance RB (from memory; node analysis in
+        // formulas.ts). RB is the reference side seen from the base node: 1/(gm1 + 1/rπ1) + R1 of the diode-connected
+        // reference with its emitter resistor, in parallel with the feed.
+        const iin = this.measured?.iref || this.s.estimate?.iref || i;
+        const q1 = this.smallSignal(this.s.reference.device, iin);
+        const r1 = this.s.reference.degeneration?.ohms ?? 0;
+        const diode = q1.gm > 0 ? 1 / (q1.gm + (Number.isFinite(q1.rpi) && q1.rpi > 0 ? 1 / q1.rpi : 0)) + r1 : UNBOUNDED_OHMS;
+        r = degeneratedRoWithBase(out.ro, out.gm, o.degeneration.ohms, out.rpi, par(diode, this.feedOhms()));
+      } else if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'helper-mirror') {
         // Source: Gray et al., ch. 3/4 — ro·(1 + gm·(R2∥rπ)) + R2∥rπ for a degenerated output (from memory); plain ro otherwise.
         r = o.degeneration ? degeneratedRo(out.ro, out.gm, o.degeneration.ohms, out.rpi) : out.ro;
       } else if (this.bipolar) {
@@ -368,7 +377,13 @@ class StructureCheck {
     if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && reasons.length === 0)
       reasons.push(`the reference branch: IREF ${eng(irefRow.est, 'A')} by hand against ${eng(irefRow.solved, 'A')} solved, so something else on the reference node draws or supplies current`);
     if (reasons.length === 0)
-      reasons.push(s.outputs.some((o) => o.degeneration) ? 'the Widlar equation neglects the reference base currents and the Early effect' : 'the simplifications of the hand formula');
+      reasons.push(
+        s.kind === 'degenerated-mirror'
+          ? 'the simplifications of the degenerated-mirror equation (equal-beta base currents, Early effect only through the output)'
+          : s.outputs.some((o) => o.degeneration)
+            ? 'the Widlar equation neglects the reference base currents and the Early effect'
+            : 'the simplifications of the hand formula',
+      );
     return reasons.join('; ');
   }
 
@@ -457,7 +472,7 @@ class StructureCheck {
     const sup = est.supply;
     const chain = ref.elements.join(' + ');
     const stackWord = this.bipolar ? 'VBE' : 'VTH';
-    const n = this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' ? 1 : 2;
+    const n = this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'degenerated-mirror' ? 1 : 2;
     const msg = sup
       ? `The supply cannot forward-bias the reference of the ${KIND_LABEL[this.s.kind]} on ${ref.device}: ${eng(sup.available, 'V')} across ${chain} and the reference chain, below the ${eng(sup.needed, 'V')} that ${n > 1 ? `${n} stacked ${stackWord}s need` : `one ${stackWord} needs`}${this.bipolar ? ' (about 0.6 V each)' : ''}; IREF by hand is only ${eng(est.iref, 'A')}.`
       : `The reference resistor chain ${chain} of the ${KIND_LABEL[this.s.kind]} on ${ref.device} has no usable resistance; IREF cannot be set.`;
@@ -592,8 +607,21 @@ class StructureCheck {
   private checkRatios(): void {
     const est = this.s.estimate;
     for (const o of this.s.outputs) {
-      if (Math.abs(o.ratio - 1) < 1e-9) continue;
+      const r1 = this.s.reference.degeneration?.ohms;
+      const resistorRatio = this.s.kind === 'degenerated-mirror' && r1 !== undefined && o.degeneration ? r1 / o.degeneration.ohms : 1;
+      if (Math.abs(o.ratio - 1) < 1e-9 && Math.abs(resistorRatio - 1) < 1e-9) continue;
       const t = this.t(o.device);
+      if (this.s.kind === 'degenerated-mirror' && o.degeneration && r1 !== undefined) {
+        const value = est && est.irefFrom !== 'unknown' ? `; by hand IOUT = ${eng(est.iout[o.device] ?? 0, 'A')} against IREF = ${eng(est.iref, 'A')} (1:${sig((est.iout[o.device] ?? 0) / (est.iref || 1))})` : '';
+        const geometry = Math.abs(o.ratio - 1) < 1e-9 ? '' : ` and ${sig(o.ratio)} by ${this.bipolar ? 'area × M' : '(W/L) × M'}`;
+        this.emit(
+          'mirror-ratio',
+          t.element,
+          `${o.device} is a ratioed output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}: ${this.s.reference.degeneration!.resistor}/${o.degeneration.resistor} = ${eng(r1, 'Ω')}/${eng(o.degeneration.ohms, 'Ω')} = ${sig(resistorRatio)}${geometry}. IOUT/IREF tends to R1/R2 when the resistor drops are much larger than ${this.bipolar ? 'VT' : 'the overdrive'}${value}.`,
+          { device: o.device, ratio: o.ratio, resistorRatio, iout: est?.iout[o.device] },
+        );
+        continue;
+      }
       // Widlar outputs carry far less than their ratio; the estimate counts their base currents separately.
       const sumM = this.s.outputs.filter((x) => !x.degeneration).reduce((a, x) => a + x.ratio, 0);
       let formula: string;

@@ -4,6 +4,7 @@ import { MODEL_DEFAULTS, type Circuit, type CurrentSource, type Model } from '..
 import { eng, sig } from './format';
 import {
   cascodeGain,
+  degeneratedOutput,
   diodeMosVgs,
   earlyFactor,
   helperMirrorGain,
@@ -163,7 +164,7 @@ class HandAnalysis {
     }
     // Paralleled diode-connected twins of a simple mirror's reference share its current: the
     // reference then behaves as one device of the summed geometry.
-    if (name === this.s.reference.device && (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source')) {
+    if (name === this.s.reference.device && (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'degenerated-mirror')) {
       const total = this.s.devices
         .filter((d) => this.s.roles?.[d] === 'reference')
         .reduce((sum, d) => sum + (this.topo.byName.get(d)?.scale ?? 0), 0);
@@ -187,10 +188,29 @@ class HandAnalysis {
   /** Potential of the common (emitter/source) node of the reference, when it is a rail. */
   private commonVolts(): number | undefined {
     if (this.common === null) {
-      const lower = this.role('lower-diode')[0];
-      this.common = { v: this.railVolts.get((lower ?? this.refT()).common) };
+      const node = this.commonNode();
+      this.common = { v: node === undefined ? undefined : this.railVolts.get(node) };
     }
     return this.common.v;
+  }
+
+  /** The node every current of the structure returns to: the lower diode's or reference's emitter, or the far end of a degenerated reference's emitter resistor. */
+  private commonNode(): number | undefined {
+    const ref = this.refT();
+    if (this.s.kind === 'degenerated-mirror') {
+      const r1 = this.s.reference.degeneration ? this.topo.elementByName.get(this.s.reference.degeneration.resistor) : undefined;
+      if (!r1 || r1.kind !== 'R') return undefined;
+      return r1.nodes[0] === ref.common ? r1.nodes[1] : r1.nodes[1] === ref.common ? r1.nodes[0] : undefined;
+    }
+    const lower = this.role('lower-diode')[0];
+    return (lower ?? ref).common;
+  }
+
+  /** A degenerated mirror needs its emitter resistors: the reference's (on its emitter) and every output's. */
+  private degeneratedComplete(): boolean {
+    const deg = this.s.reference.degeneration;
+    if (!deg || !(deg.ohms > 0) || this.commonNode() === undefined) return false;
+    return this.s.outputs.every((o) => o.degeneration !== undefined && o.degeneration.ohms > 0 && Number.isFinite(o.degeneration.ohms));
   }
 
   run(): Estimate {
@@ -207,7 +227,8 @@ class HandAnalysis {
       this.topo.byName.has(this.s.reference.device) &&
       this.s.outputs.length > 0 &&
       this.s.outputs.every((o) => this.topo.byName.has(o.device)) &&
-      (needs[this.s.kind] ?? []).every((r) => this.role(r).length > 0);
+      (needs[this.s.kind] ?? []).every((r) => this.role(r).length > 0) &&
+      (this.s.kind !== 'degenerated-mirror' || this.degeneratedComplete());
     if (!complete) {
       return { iref: 0, iout: Object.fromEntries(this.s.outputs.map((o) => [o.device, 0])), vControl: 0, steps, irefFrom: 'unknown' };
     }
@@ -329,6 +350,7 @@ class HandAnalysis {
           substituted: `${eng(vCommon, 'V')} ${this.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
           value: outputEdge[k],
           unit: 'V',
+          devices: [k],
         });
       }
     }
@@ -346,7 +368,7 @@ class HandAnalysis {
   }
 
   private stackCount(): number {
-    return this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' ? 1 : 2;
+    return this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'degenerated-mirror' ? 1 : 2;
   }
 
   /** Sum of the thresholds a MOS reference chain must exceed before any current flows. */
@@ -414,7 +436,15 @@ class HandAnalysis {
       const plain = (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source') && this.s.outputs.every((o) => !o.degeneration);
       this.simpleSum = plain ? this.s.outputs.reduce((a, o) => a + o.ratio, 0) : null;
     }
-    if (this.simpleSum === null) return this.chain(iref, false).stack;
+    if (this.simpleSum === null) {
+      // A MOS degenerated mirror's gate node depends on the reference alone (gates draw no current).
+      if (this.s.kind === 'degenerated-mirror' && !this.bipolar && this.s.reference.degeneration) {
+        const ref = this.dev(this.s.reference.device);
+        const vsb1 = this.vsbBase(ref) + iref * this.s.reference.degeneration.ohms;
+        return this.vgsWithVds(ref, iref, vsb1, (g) => g) + iref * this.s.reference.degeneration.ohms;
+      }
+      return this.chain(iref, false).stack;
+    }
     const ref = this.dev(this.s.reference.device);
     if (this.bipolar) return this.vbe(ref, iref / (1 + (1 + this.simpleSum) / ref.beta));
     return this.vgs(ref, iref, this.vsbBase(ref));
@@ -506,6 +536,7 @@ class HandAnalysis {
           substituted: `${sig(p.nfVt / this.vt, 3)} × ${eng(this.vt, 'V', 4)} × ln(${eng(i, 'A')}/${sig(p.isEff, 3)} A + 1)${label}`,
           value: v,
           unit: 'V',
+          devices: [p.t.name],
         }));
         return v;
       }
@@ -517,9 +548,12 @@ class HandAnalysis {
         substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${eng(p.kBeta, 'A/V²')})${label}`,
         value: v,
         unit: 'V',
+        devices: [p.t.name],
       }));
       return v;
     };
+
+    if (this.s.kind === 'degenerated-mirror') return this.degeneratedChain(iref, ref, outs, junction, push);
 
     if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source') {
       const simple = outs.filter((x) => !x.o.degeneration);
@@ -559,6 +593,7 @@ class HandAnalysis {
               (early !== 1 ? ` × (1 + (${eng(vce!, 'V')} − ${eng(vbe1, 'V')})/${eng(x.p.va, 'V')})` : ''),
             value: iout[x.o.device],
             unit: 'A',
+            devices: [x.o.device],
           }));
         }
         for (const x of widlar) {
@@ -571,6 +606,7 @@ class HandAnalysis {
             substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio * (wEarly[x.o.device] ?? 1), 5)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
             value: i,
             unit: 'A',
+            devices: [x.o.device],
           }));
         }
         return { stack: vbe1, vControl: vbe1, iRef: ic1, iout, edge, steps };
@@ -589,6 +625,7 @@ class HandAnalysis {
           substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}` + (clm !== 1 ? ` × (1 + ${sig(x.p.lambda)}/V × ${eng(vds!, 'V')})/(1 + ${sig(x.p.lambda)}/V × ${eng(vgs1, 'V')})` : ''),
           value: iout[x.o.device],
           unit: 'A',
+          devices: [x.o.device],
         }));
       }
       for (const x of widlar) {
@@ -601,6 +638,7 @@ class HandAnalysis {
           substituted: `sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}) = sqrt(2·IOUT/${eng(x.p.kBeta, 'A/V²')}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
           value: i,
           unit: 'A',
+          devices: [x.o.device],
         }));
       }
       return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge, steps };
@@ -636,6 +674,7 @@ class HandAnalysis {
               (early !== 1 ? ` × ${sig(early, 5)}` : ''),
             value: iout[x.o.device],
             unit: 'A',
+            devices: [x.o.device],
           }));
         }
         return { stack: vbe1 + vbeH, vControl: vbe1, iRef: ic1, iout, edge, steps };
@@ -661,6 +700,7 @@ class HandAnalysis {
         substituted: `${eng(thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb), 'V')} + sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}/(1 + λ·${eng(vgs1 + vgsH, 'V')}))`,
         value: vgs1,
         unit: 'V',
+        devices: [ref.t.name],
       }));
       junction(' (helper: carries the pull-down current)', helper, iH, vsb + vgs1);
       const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb);
@@ -676,6 +716,7 @@ class HandAnalysis {
           substituted: `${sig(x.o.ratio)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
           value: iout[x.o.device],
           unit: 'A',
+          devices: [x.o.device],
         }));
       }
       return { stack: vgs1 + vgsH, vControl: vgs1, iRef: iref, iout, edge, steps };
@@ -701,6 +742,7 @@ class HandAnalysis {
           substituted: `${sig(m)} × ${eng(ic1, 'A')} × ${sig(beta)}/${sig(beta + 1)}`,
           value: iout[x0.o.device],
           unit: 'A',
+          devices: [x0.o.device],
         }));
         return { stack: vLow + vTop, vControl: vTop, iRef: ic1, iout, edge, steps };
       }
@@ -711,7 +753,7 @@ class HandAnalysis {
       const vthOut = thresholdWithBody(out.vto, out.gamma, out.phi, vsb + vLow);
       iout[x0.o.device] = m * iref;
       edge[x0.o.device] = vLow + vTop - vthOut;
-      push(() => ({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; λ effect suppressed by the cascode (${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A' }));
+      push(() => ({ quantity: `IOUT(${x0.o.device})`, formula: `((W/L)·M ratio) × IREF; λ effect suppressed by the cascode (${RAZAVI})`, substituted: `${sig(m)} × ${eng(iref, 'A')}`, value: iout[x0.o.device], unit: 'A', devices: [x0.o.device] }));
       return { stack: vLow + vTop, vControl: vTop, iRef: iref, iout, edge, steps };
     }
 
@@ -735,6 +777,7 @@ class HandAnalysis {
         substituted: `${eng(iref, 'A')} × (1 − 2/(${sig(beta)}² + 2 × ${sig(beta)} + 2))${m !== 1 ? ` (ratio ${sig(m)})` : ''}${early !== 1 ? ` with the lower ratio × (1 + (VBE − 2·VBE)/VA) = × ${sig(early, 5)}` : ''}`,
         value: iout[x0.o.device],
         unit: 'A',
+        devices: [x0.o.device],
       }));
       return { stack: vLow + vOut, vControl: vRef, iRef: x / m, iout, edge, steps };
     }
@@ -770,8 +813,165 @@ class HandAnalysis {
       substituted: `${sig(m)} × ${eng(iref, 'A')}${clm !== 1 ? ` × ${sig(clm, 5)}` : ''}`,
       value: io,
       unit: 'A',
+      devices: [x0.o.device],
     }));
     return { stack: vLow + vOut, vControl: improved ? vTop : vLow, iRef: iref, iout, edge, steps };
+  }
+
+  /**
+   * Degenerated mirror: the base node sits VBE1 + IE1·R1 above the common node, and each output
+   * carries the IC2 that makes VBE2 + IE2·R2 equal to it; IREF = IC1·(1 + 1/β) + Σ IC2/β. The two are
+   * solved together (a few fixed-point passes on IC1; each IC2 by a bracketed Newton solve). MOS:
+   * VGS1 + ID1·R1 = VGS2 + ID2·R2 with the square law, body effect from the raised sources and λ.
+   */
+  private degeneratedChain(
+    iref: number,
+    ref: DeviceParams,
+    outs: { o: Structure['outputs'][number]; p: DeviceParams }[],
+    junction: (label: string, p: DeviceParams, i: number, vsb: number) => number,
+    push: (x: () => EstimateStep) => void,
+  ): ChainState {
+    const iout: Record<string, number> = {};
+    const edge: Record<string, number> = {};
+    const r1 = this.s.reference.degeneration!.ohms;
+    const r1Name = this.s.reference.degeneration!.resistor;
+    const refName = this.s.reference.device;
+    const steps: EstimateStep[] = [];
+    if (this.bipolar) {
+      const beta = ref.beta;
+      const k1 = (beta + 1) / beta;
+      const sumM = outs.reduce((a, x) => a + x.o.ratio, 0);
+      let ic1 = iref / (1 + (1 + sumM) / beta);
+      let vbe1 = this.vbe(ref, ic1);
+      let vTop = vbe1 + ic1 * k1 * r1;
+      const early: Record<string, number> = {};
+      for (let pass = 0; pass < 60; pass++) {
+        vbe1 = this.vbe(ref, ic1);
+        vTop = vbe1 + ic1 * k1 * r1;
+        let ib = 0;
+        for (const x of outs) {
+          const r2 = x.o.degeneration!.ohms;
+          const k2 = (x.p.beta + 1) / x.p.beta;
+          const prev = iout[x.o.device] ?? ic1 * x.o.ratio;
+          // Early effect of the output at its own VCE (emitter lifted by IE2·R2) against the reference's VCE = VBE1.
+          const vce = this.outputVds(x.p.t, prev * k2 * r2);
+          early[x.o.device] = vce !== undefined ? Math.max(earlyFactor(vce, vbe1, x.p.va), 1e-3) : 1;
+          iout[x.o.device] = degeneratedOutput({ v: vTop, isEff: x.p.isEff * early[x.o.device], nVt: x.p.nfVt, r: r2, k: k2 });
+          ib += iout[x.o.device] / x.p.beta;
+        }
+        const next = Math.max(iref - ib, 0) / k1;
+        const done = Math.abs(next - ic1) <= 1e-13 * Math.max(iref, 1e-30);
+        ic1 = next;
+        if (done) break;
+      }
+      vbe1 = junction('', ref, ic1, 0);
+      vTop = vbe1 + ic1 * k1 * r1;
+      const vb = vTop;
+      const ic1Now = ic1;
+      push(() => ({
+        quantity: `VBE(${refName}) + IE·${r1Name}`,
+        formula: `VBE1 + IC1·(1 + 1/β)·R1: the base node above the common node (${GRAY}, emitter degeneration)`,
+        substituted: `${eng(vbe1, 'V')} + ${eng(ic1Now, 'A')} × ${sig(k1, 4)} × ${eng(r1, 'Ω')}`,
+        value: vb,
+        unit: 'V',
+        devices: [refName, r1Name],
+      }));
+      for (const x of outs) {
+        const r2 = x.o.degeneration!.ohms;
+        const r2Name = x.o.degeneration!.resistor;
+        const k2 = (x.p.beta + 1) / x.p.beta;
+        const i = iout[x.o.device];
+        edge[x.o.device] = vTop;
+        const ef = early[x.o.device] ?? 1;
+        const vbe2 = vbeAt(i, x.p.isEff * ef, x.p.nfVt);
+        push(() => ({
+          quantity: `VBE(${x.o.device})`,
+          formula: `NF·VT·ln(IC/IS + 1), IS scaled by area × M${ef !== 1 ? ' × (1 + (VCE2 − VBE)/VA)' : ''} (junction law)`,
+          substituted: `${sig(x.p.nfVt / this.vt, 3)} × ${eng(this.vt, 'V', 4)} × ln(${eng(i, 'A')}/${sig(x.p.isEff * ef, 3)} A + 1)`,
+          value: vbe2,
+          unit: 'V',
+          devices: [x.o.device],
+        }));
+        push(() => ({
+          quantity: `IOUT(${x.o.device})`,
+          formula:
+            `VBE1 + IE1·R1 = VBE2 + IE2·R2 with VBE = NF·VT·ln(IC/IS + 1), IE = IC·(1 + 1/β) and IREF = IC1·(1 + 1/β) + Σ IC2/β` +
+            `${ef !== 1 ? '; IS2 × (1 + (VCE2 − VBE)/VA) for the Early effect' : ''} (${GRAY}, emitter degeneration)`,
+          substituted: `${eng(vTop, 'V')} = ${sig(x.p.nfVt, 4)} V × ln(IOUT/${sig(x.p.isEff * ef, 4)} A + 1) + IOUT × ${sig(k2, 4)} × ${eng(r2, 'Ω')}`,
+          value: i,
+          unit: 'A',
+          devices: [x.o.device, r2Name],
+        }));
+        push(() => ({
+          quantity: `IOUT(${x.o.device})/IREF at large drops`,
+          formula: 'R1/R2: the ratio the emitter resistors set once their drops are much larger than VT (area ratio and base currents aside) (' + GRAY + ')',
+          substituted: `${eng(r1, 'Ω')}/${eng(r2, 'Ω')}`,
+          value: r1 / r2,
+          unit: '',
+          devices: [x.o.device, r1Name, r2Name],
+        }));
+      }
+      return { stack: vTop, vControl: vbe1, iRef: ic1, iout, edge, steps };
+    }
+    // MOS: gates draw nothing, ID1 = IREF.
+    const vsb0 = this.vsbBase(ref);
+    const vsb1 = vsb0 + iref * r1;
+    const vgs1 = iref > 0 ? this.vgsWithVds(ref, iref, vsb1, (g) => g) : thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb1);
+    const vTop = vgs1 + iref * r1;
+    const vth1 = thresholdWithBody(ref.vto, ref.gamma, ref.phi, vsb1);
+    const vsbText = this.bulkText(vsb1);
+    push(() => ({
+      quantity: `VGS(${refName})`,
+      formula: 'VTH(VSB) + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))), the source raised by ID·R1 (square law, Shichman and Hodges, IEEE JSSC, 1968)',
+      substituted: `${eng(vth1, 'V')} + sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')})${vsbText}`,
+      value: vgs1,
+      unit: 'V',
+      devices: [refName],
+    }));
+    push(() => ({
+      quantity: `VGS(${refName}) + ID·${r1Name}`,
+      formula: `VGS1 + ID1·R1: the gate node above the common node (${RAZAVI}, source degeneration)`,
+      substituted: `${eng(vgs1, 'V')} + ${eng(iref, 'A')} × ${eng(r1, 'Ω')}`,
+      value: vTop,
+      unit: 'V',
+      devices: [refName, r1Name],
+    }));
+    for (const x of outs) {
+      const r2 = x.o.degeneration!.ohms;
+      const r2Name = x.o.degeneration!.resistor;
+      const p = x.p;
+      const vgsAt = (i: number) => {
+        const vds = this.outputVds(p.t, i * r2);
+        return this.vgsWithVds(p, i, vsb0 + i * r2, (g) => (vds !== undefined ? vds : g));
+      };
+      const g = (i: number) => (i > 0 ? vgsAt(i) : thresholdWithBody(p.vto, p.gamma, p.phi, vsb0)) + i * r2 - vTop;
+      const i = solveRising(g, vTop / r2);
+      iout[x.o.device] = i;
+      const vth2 = thresholdWithBody(p.vto, p.gamma, p.phi, vsb0 + i * r2);
+      edge[x.o.device] = vTop - vth2;
+      push(() => ({
+        quantity: `IOUT(${x.o.device})`,
+        formula: `VGS1 + ID1·R1 = VGS2 + ID2·R2, VGS = VTH(VSB) + sqrt(2·ID/(KP·W/L·M·(1 + λ·VDS))) (${RAZAVI}, source degeneration; Shichman and Hodges, 1968)`,
+        substituted: `${eng(vTop, 'V')} = ${eng(i > 0 ? vgsAt(i) : vth2, 'V')} + ${eng(i, 'A')} × ${eng(r2, 'Ω')}`,
+        value: i,
+        unit: 'A',
+        devices: [x.o.device, r2Name],
+      }));
+      push(() => ({
+        quantity: `IOUT(${x.o.device})/IREF at large drops`,
+        formula: 'R1/R2: the ratio the source resistors set once their drops are much larger than the overdrive (' + RAZAVI + ')',
+        substituted: `${eng(r1, 'Ω')}/${eng(r2, 'Ω')}`,
+        value: r1 / r2,
+        unit: '',
+        devices: [x.o.device, r1Name, r2Name],
+      }));
+    }
+    return { stack: vTop, vControl: vgs1, iRef: iref, iout, edge, steps };
+  }
+
+  /** ", VSB = …" for a MOS step when the body effect applies. */
+  private bulkText(vsb: number): string {
+    return Math.abs(vsb) > 1e-12 ? ` at VSB = ${eng(vsb, 'V')}` : '';
   }
 }
 
@@ -782,6 +982,21 @@ function structuresById(list: Structure[]): Map<string, Structure> {
   let m = idIndex.get(list);
   if (!m || m.size !== list.length) idIndex.set(list, (m = new Map(list.map((x) => [x.id, x]))));
   return m;
+}
+
+/** The root of a function that rises with its argument, on [0, hi] (the bracket is widened when g(hi) < 0), by bisection. */
+function solveRising(g: (x: number) => number, hi0: number): number {
+  let lo = 0;
+  let hi = Number.isFinite(hi0) && hi0 > 0 ? hi0 : 1e-3;
+  if (g(lo) >= 0) return 0;
+  for (let n = 0; n < 60 && g(hi) < 0; n++) hi *= 2;
+  if (g(hi) < 0) return hi;
+  for (let n = 0; n < 200 && hi - lo > 1e-15 * hi; n++) {
+    const mid = 0.5 * (lo + hi);
+    if (g(mid) > 0) hi = mid;
+    else lo = mid;
+  }
+  return 0.5 * (lo + hi);
 }
 
 function positiveOr(v: number, fallback: number): number {

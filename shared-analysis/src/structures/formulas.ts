@@ -190,3 +190,54 @@ export function degeneratedRo(ro: number, gm: number, r2: number, rpi: number): 
   const rp = Number.isFinite(rpi) ? (r2 * rpi) / (r2 + rpi) : r2;
   return Math.min(ro * (1 + gm * rp) + rp, UNBOUNDED_OHMS);
 }
+
+/**
+ * Collector current of a degenerated output: solves NF·VT·ln(IC/IS + 1) + IC·k·R = V for IC ≥ 0,
+ * where V is the base potential above the common node, R the emitter resistor and k = (β + 1)/β
+ * turns IC into the emitter current through R (1 neglects the base current). The left side rises
+ * monotonically with IC, so a safeguarded Newton step on the bracket [0, V/(k·R)] always converges.
+ * Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 (current mirror with emitter degeneration):
+ * VBE1 + IE1·R1 = VBE2 + IE2·R2 with the junction law of ch. 1.
+ */
+export function degeneratedOutput(p: { v: number; isEff: number; nVt: number; r: number; k?: number }): number {
+  const k = p.k ?? 1;
+  if (!(p.v > 0) || !(p.isEff > 0) || !(p.nVt > 0)) return 0;
+  const g = (i: number) => p.nVt * Math.log(i / p.isEff + 1) + i * k * p.r - p.v;
+  if (!(p.r > 0)) return p.isEff * Math.expm1(p.v / p.nVt);
+  let lo = 0;
+  let hi = p.v / (k * p.r);
+  // Start where the junction takes about 0.6 V of the drop (common practice), inside the bracket.
+  let i = Math.min(Math.max((p.v - 0.6) / (k * p.r), hi * 1e-6), hi);
+  for (let n = 0; n < 200; n++) {
+    const gi = g(i);
+    if (gi > 0) hi = i;
+    else lo = i;
+    if (hi - lo <= 1e-15 * hi) break;
+    const dg = p.nVt / (i + p.isEff) + k * p.r;
+    let next = i - gi / dg;
+    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+    if (Math.abs(next - i) <= 1e-14 * i) {
+      i = next;
+      break;
+    }
+    i = next;
+  }
+  return i;
+}
+
+/**
+ * Output resistance of an emitter-degenerated output whose base sees a resistance RB (the
+ * reference side): RE' = R2 ∥ (rπ + RB), Rout = ro·(1 + gm·RE'·rπ/(rπ + RB)) + RE'. With RB = 0
+ * this is {@link degeneratedRo}; for a MOSFET (rπ infinite) it is ro·(1 + gm·R2) + R2.
+ * Source: node analysis of the small-signal model (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 3,
+ * common-emitter stage with emitter degeneration and a source resistance; from memory).
+ */
+export function degeneratedRoWithBase(ro: number, gm: number, r2: number, rpi: number, rb: number): number {
+  if (ro >= UNBOUNDED_OHMS) return UNBOUNDED_OHMS;
+  if (!Number.isFinite(rpi)) return Math.min(ro * (1 + gm * r2) + r2, UNBOUNDED_OHMS);
+  const rbase = Math.max(Number.isFinite(rb) ? rb : UNBOUNDED_OHMS, 0);
+  const path = rpi + rbase;
+  const re = path >= UNBOUNDED_OHMS ? r2 : (r2 * path) / (r2 + path);
+  const share = path >= UNBOUNDED_OHMS ? 0 : rpi / path;
+  return Math.min(ro * (1 + gm * re * share) + re, UNBOUNDED_OHMS);
+}

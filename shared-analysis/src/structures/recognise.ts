@@ -1,6 +1,6 @@
 // Recognises current mirrors and their reference branches from a circuit's topology and models alone.
 
-import type { Circuit, Resistor } from '../circuit';
+import type { Circuit, Element, Resistor } from '../circuit';
 import { railsByIndex } from './rails';
 import { topologyOf, type Topology, type Transistor } from './topology';
 import type { ReferenceBranch, Rail, Structure, StructureKind, StructureOutput, StructureRole } from './types';
@@ -22,8 +22,8 @@ import type { ReferenceBranch, Rail, Structure, StructureKind, StructureOutput, 
  * Larger patterns are matched first and claim their devices, so a Wilson mirror is
  * not also reported as the simple mirror inside it:
  * cascode, improved Wilson, Wilson (see {@link matchStacked}), then the base-current
- * helper mirror ({@link matchHelper}), then simple mirrors and Widlar sources
- * ({@link matchSimple}). Look-alikes that are not mirrors (two devices sharing a base
+ * helper mirror ({@link matchHelper}), then degenerated mirrors ({@link matchDegenerated}),
+ * then simple mirrors and Widlar sources ({@link matchSimple}). Look-alikes that are not mirrors (two devices sharing a base
  * with no diode-connected one, a differential pair, a lone diode-connected device)
  * match none of the patterns.
  */
@@ -39,6 +39,8 @@ interface Draft {
   refNode: number;
   members: { t: Transistor; role: StructureRole }[];
   outputs: StructureOutput[];
+  /** Degenerated mirror: the reference's emitter resistor. */
+  refDegeneration?: { resistor: string; ohms: number };
 }
 
 class Recogniser {
@@ -64,7 +66,7 @@ class Recogniser {
     };
     for (const d of diodes) if (!this.claimed.has(d.name)) take(this.matchStacked(d));
     for (const t of all) if (!this.claimed.has(t.name) && t.out !== t.ctrl) take(this.matchHelper(t));
-    for (const d of diodes) if (!this.claimed.has(d.name)) take(this.matchSimple(d));
+    for (const d of diodes) if (!this.claimed.has(d.name)) take(this.matchDegenerated(d) ?? this.matchSimple(d));
 
     const structures = drafts.map((d) => this.toStructure(d));
     const owner = new Map<string, Structure>();
@@ -271,6 +273,55 @@ class Recogniser {
     };
   }
 
+  /**
+   * Degenerated mirror on a diode-connected reference D (collector = base = A) whose emitter
+   * node X1 carries only D (and paralleled twins) and one resistor R1 to a common node E.
+   * Every other device with its base on A whose emitter reaches E through exactly one
+   * resistor R2 of its own is an output. The resistors set the ratio (about R1/R2 at large
+   * drops), so the kind is its own; outputs with their emitter straight on E or on X1 do not
+   * belong to it. No degenerated output, no structure (the reference is then tried as a
+   * simple mirror on X1).
+   * ```
+   *   IREF→A
+   *   D: c=b=A, e=X1;  R1 from X1 to E        O: c=out, b=A, e=X2;  R2 from X2 to E
+   * ```
+   */
+  private matchDegenerated(d: Transistor): Draft | undefined {
+    const a = d.ctrl;
+    const x1 = d.common;
+    if (x1 === a) return undefined;
+    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === x1, [d], this.onCtrl(a));
+    const own = new Set<Element>([d.element, ...twins.map((t) => t.element)]);
+    const atts = this.topo.conducting(x1).filter((x) => !own.has(x.element));
+    if (atts.length !== 1 || atts[0].element.kind !== 'R') return undefined;
+    const r1 = atts[0].element;
+    if (!(Number.isFinite(r1.resistance) && r1.resistance > 0)) return undefined;
+    const e = r1.nodes[0] === x1 ? r1.nodes[1] : r1.nodes[0];
+    if (e === x1 || e === a) return undefined;
+    const refScale = d.scale + twins.reduce((sum, t) => sum + t.scale, 0);
+    const outputs: StructureOutput[] = [];
+    const outDevices: Transistor[] = [];
+    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a && t.common !== x1 && t.common !== e, [d, ...twins], this.onCtrl(a))) {
+      const r2 = this.degeneration(o, e);
+      if (!r2 || r2 === r1) continue;
+      outputs.push({ device: o.name, node: this.topo.nodeName(o.out), ratio: o.scale / refScale, degeneration: { resistor: r2.name, ohms: r2.resistance } });
+      outDevices.push(o);
+    }
+    if (outputs.length === 0) return undefined;
+    return {
+      kind: 'degenerated-mirror',
+      reference: d,
+      refNode: a,
+      members: [
+        { t: d, role: 'reference' },
+        ...twins.map((t) => ({ t, role: 'reference' as const })),
+        ...outDevices.map((t) => ({ t, role: 'output' as const })),
+      ],
+      outputs,
+      refDegeneration: { resistor: r1.name, ohms: r1.resistance },
+    };
+  }
+
   /** The resistor from `o`'s emitter to node `e`, when the emitter node carries only that resistor and `o`. */
   private degeneration(o: Transistor, e: number): Resistor | undefined {
     const atts = this.topo.conducting(o.common).filter((x) => x.element !== o.element);
@@ -291,7 +342,7 @@ class Recogniser {
       technology: d.reference.tech,
       devices,
       roles,
-      reference: { device: d.reference.name, node: this.topo.nodeName(d.refNode), feed: 'other', elements: [] },
+      reference: { device: d.reference.name, node: this.topo.nodeName(d.refNode), feed: 'other', elements: [], ...(d.refDegeneration ? { degeneration: d.refDegeneration } : {}) },
       outputs: d.outputs,
       instance: instancePrefix(devices),
       headroom: {},
@@ -307,7 +358,7 @@ class Recogniser {
    * devices outside the structure (base-current loads) and capacitors do not count as feeds.
    */
   private referenceBranch(d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
-    const base: ReferenceBranch = { device: s.reference.device, node: s.reference.node, feed: 'other', elements: [] };
+    const base: ReferenceBranch = { ...s.reference, feed: 'other', elements: [] };
     const members = new Set(s.devices);
     const feeds = this.topo
       .conducting(d.refNode)

@@ -49,6 +49,7 @@ const KINDS: { kind: StructureKind; devices: string[]; ref: string; refNode: str
   { kind: 'wilson-mirror', devices: ['Q1', 'Q2', 'Q3'], ref: 'Q1', refNode: 'a' },
   { kind: 'improved-wilson-mirror', devices: ['Q1', 'Q2', 'Q3', 'Q4'], ref: 'Q4', refNode: 'a' },
   { kind: 'cascode-mirror', devices: ['Q1', 'Q2', 'Q3', 'Q4'], ref: 'Q3', refNode: 'a' },
+  { kind: 'degenerated-mirror', devices: ['Q1', 'Q2'], ref: 'Q1', refNode: 'a' },
 ];
 const OUTPUT: Record<StructureKind, string> = {
   'simple-mirror': 'Q2',

@@ -13,7 +13,7 @@ import type { StructureKind, Technology } from '../../../shared-analysis/src/str
 import { CircuitBuilder } from './build';
 import { fixture } from './fixtures';
 
-const KINDS: StructureKind[] = ['simple-mirror', 'widlar-source', 'helper-mirror', 'wilson-mirror', 'improved-wilson-mirror', 'cascode-mirror'];
+const KINDS: StructureKind[] = ['simple-mirror', 'widlar-source', 'helper-mirror', 'wilson-mirror', 'improved-wilson-mirror', 'cascode-mirror', 'degenerated-mirror'];
 const TECHS: Technology[] = ['npn', 'pnp', 'nmos', 'pmos'];
 
 /** Values a netlist can end up with after a typo or a bad expression: zero, negative, tiny, huge. */
