@@ -2,11 +2,11 @@
 
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
-import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction } from './device';
+import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction, StartHint } from './device';
 import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction } from './physics';
 
 /**
  * Region by junction bias in the device's own polarity (DESIGN.md): forward-active when
@@ -101,6 +101,10 @@ export class BjtDevice implements NonlinearDevice {
   private vcritBc = 0.6;
   private vbeOld = 0;
   private vbcOld = 0;
+  private tnomC = 27;
+  /** Junction voltages the next load linearises at (NaN when none is pending). */
+  private startVbe = Number.NaN;
+  private startVbc = Number.NaN;
   private readonly scratch = {} as BjtEvaluation;
 
   constructor(readonly element: Bjt, nodes: { c: number; b: number; e: number }, issues: ParamIssue[]) {
@@ -141,6 +145,7 @@ export class BjtDevice implements NonlinearDevice {
     p.br = this.brNom * c.betaScale;
     this.vcritBe = criticalVoltage(p.nf * c.vt, p.is);
     this.vcritBc = criticalVoltage(p.nr * c.vt, p.is);
+    this.tnomC = c.tnomC;
   }
 
   private junctions(x: Float64Array): { vbe: number; vbc: number } {
@@ -149,10 +154,23 @@ export class BjtDevice implements NonlinearDevice {
     return { vbe: this.sign * (vb - terminalVoltage(t, x, E)), vbc: this.sign * (vb - terminalVoltage(t, x, C)) };
   }
 
-  resetState(x: Float64Array): void {
+  resetState(x: Float64Array, start?: StartHint): void {
     const j = this.junctions(x);
     this.vbeOld = j.vbe;
     this.vbcOld = j.vbc;
+    this.startVbe = Number.NaN;
+    this.startVbc = Number.NaN;
+    const p = this.params;
+    if (!start || !(p.is > 0)) return;
+    if (start.kind === 'cold') {
+      // Forward-active: base-emitter at its critical voltage, base-collector unbiased.
+      this.startVbe = Math.min(this.vcritBe, 1);
+      this.startVbc = 0;
+      return;
+    }
+    const is0 = saturationCurrentAt(this.isNom, this.xti, this.eg, start.temperatureC, this.tnomC);
+    this.startVbe = j.vbe > 0 ? shiftJunction(j.vbe, p.nf * start.vt, p.nf * p.vt, is0, p.is) : j.vbe;
+    this.startVbc = j.vbc > 0 ? shiftJunction(j.vbc, p.nr * start.vt, p.nr * p.vt, is0, p.is) : j.vbc;
   }
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
@@ -161,7 +179,12 @@ export class BjtDevice implements NonlinearDevice {
     let vbe = this.sign * (vb - terminalVoltage(t, x, E));
     let vbc = this.sign * (vb - terminalVoltage(t, x, C));
     let limited = false;
-    if (limit) {
+    if (Number.isFinite(this.startVbe)) {
+      vbe = this.startVbe;
+      vbc = this.startVbc;
+      this.startVbe = Number.NaN;
+      limited = true;
+    } else if (limit) {
       const a = limitJunctionValue(vbe, this.vbeOld, this.params.nf * this.params.vt, this.vcritBe);
       const b = limitJunctionValue(vbc, this.vbcOld, this.params.nr * this.params.vt, this.vcritBc);
       limited = a !== vbe || b !== vbc;

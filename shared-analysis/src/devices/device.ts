@@ -39,8 +39,12 @@ export interface NonlinearDevice {
   positions: Int32Array;
   /** Recomputes temperature- and beta-dependent parameters. Called once per solve. */
   prepare(conditions: DeviceConditions): void;
-  /** Sets the limiting history from a solution vector (start of a solve or of a continuation step). */
-  resetState(x: Float64Array): void;
+  /**
+   * Sets the limiting history from a solution vector (start of a solve or of a continuation
+   * step). With a `start` hint the first `load` afterwards linearises at a predicted point
+   * instead of at `x` (and reports itself limited, so that iteration cannot end the run).
+   */
+  resetState(x: Float64Array, start?: StartHint): void;
   /** Linearises the device at `x` (limited against its history) and adds its companion stamps. */
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport;
   /** The operating-point record at `x` (no limiting). */
@@ -48,6 +52,18 @@ export interface NonlinearDevice {
   /** Junctions whose exponential runs beyond the evaluated range at `x` (empty when none). */
   overdriven(x: Float64Array): OverdrivenJunction[];
 }
+
+/**
+ * How the first linearisation of a Newton run is chosen.
+ * - `cold`: no usable guess; junctions start at a forward bias taken from the model (BJT
+ *   base-emitter and diode at the junction's critical voltage, reverse junctions at 0 V) and MOS
+ *   gates at threshold plus a small overdrive.
+ * - `temperature`: the guess was solved at another temperature (thermal voltage `vt`,
+ *   `temperatureC`); forward junctions start at the voltage that carries the same current at
+ *   the new temperature, v₁ = n·VT₁·(v₀/(n·VT₀) + ln(IS(T₀)/IS(T₁))) — the diode law solved
+ *   for v at constant current.
+ */
+export type StartHint = { kind: 'cold' } | { kind: 'temperature'; vt: number; temperatureC: number };
 
 /** A junction forward-biased beyond the range where its exponential law is evaluated. */
 export interface OverdrivenJunction {

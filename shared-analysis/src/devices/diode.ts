@@ -2,11 +2,11 @@
 
 import type { Diode } from '../circuit';
 import type { DiodeRecord } from '../solve/types';
-import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction } from './device';
+import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction, StartHint } from './device';
 import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, criticalVoltage, guardedExp, limitJunction, saturationCurrentAt } from './physics';
+import { EXP_ARG_LIMIT, criticalVoltage, guardedExp, limitJunction, saturationCurrentAt, shiftJunction } from './physics';
 
 /** Current and conductance of the intrinsic junction at voltage vd. */
 export interface DiodeJunction {
@@ -39,6 +39,9 @@ export class DiodeDevice implements NonlinearDevice {
   private vcrit = 0.6;
   private gmin = 0;
   private vdOld = 0;
+  private tnomC = 27;
+  /** Junction voltage the next load linearises at (NaN when none is pending). */
+  private startVd = Number.NaN;
 
   /** `internal` is the unknown index of the internal anode node, or −1 when there is no series resistance. */
   constructor(readonly element: Diode, anode: number, cathode: number, internal: number, issues: ParamIssue[]) {
@@ -66,6 +69,7 @@ export class DiodeDevice implements NonlinearDevice {
     this.nvt = this.n * c.vt;
     this.vcrit = criticalVoltage(this.nvt, this.is);
     this.gmin = c.junctionGmin;
+    this.tnomC = c.tnomC;
   }
 
   private junctionVoltage(x: Float64Array): number {
@@ -73,8 +77,15 @@ export class DiodeDevice implements NonlinearDevice {
     return terminalVoltage(this.terminals, x, nt - 2) - terminalVoltage(this.terminals, x, nt - 1);
   }
 
-  resetState(x: Float64Array): void {
+  resetState(x: Float64Array, start?: StartHint): void {
     this.vdOld = this.junctionVoltage(x);
+    this.startVd = Number.NaN;
+    if (!start || !(this.is > 0)) return;
+    if (start.kind === 'cold') this.startVd = Math.min(this.vcrit, 1);
+    else if (this.vdOld > 0) {
+      const is0 = saturationCurrentAt(this.isNom, this.xti, this.eg, start.temperatureC, this.tnomC);
+      this.startVd = shiftJunction(this.vdOld, this.n * start.vt, this.nvt, is0, this.is);
+    }
   }
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
@@ -83,7 +94,11 @@ export class DiodeDevice implements NonlinearDevice {
     const jk = nt - 1;
     let vd = this.junctionVoltage(x);
     let limited = false;
-    if (limit) {
+    if (Number.isFinite(this.startVd)) {
+      vd = this.startVd;
+      this.startVd = Number.NaN;
+      limited = true;
+    } else if (limit) {
       const l = limitJunction(vd, this.vdOld, this.nvt, this.vcrit);
       vd = l.v;
       limited = l.limited;

@@ -2,7 +2,7 @@
 
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
-import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction } from './device';
+import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction, StartHint } from './device';
 import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
@@ -57,6 +57,9 @@ export function evaluateMos(vgs: number, vds: number, vbs: number, p: MosParams)
   return { id: core * clm, gm, gds, gmbs: gm * bodyFactor, vth, vov, region: 'triode' };
 }
 
+/** Overdrive of the cold-start linearisation, volts: a typical analog bias overdrive (common practice: a few tenths of a volt); 0.5 V took 5 iterations on the benchmark MOS mirror array (test/bench/newton-bench.ts), 0.2 V took 6. */
+const COLD_OVERDRIVE = 0.5;
+
 const D = 0;
 const G = 1;
 const S = 2;
@@ -71,6 +74,9 @@ export class MosfetDevice implements NonlinearDevice {
   private gmin = 0;
   private vgsOld = 0;
   private vdsOld = 0;
+  /** Gate and channel voltages the next load linearises at (NaN when none is pending). */
+  private startVgs = Number.NaN;
+  private startVds = Number.NaN;
 
   constructor(readonly element: Mosfet, nodes: { d: number; g: number; s: number; b: number }, issues: ParamIssue[]) {
     const md = element.model;
@@ -110,16 +116,27 @@ export class MosfetDevice implements NonlinearDevice {
     };
   }
 
-  resetState(x: Float64Array): void {
+  resetState(x: Float64Array, start?: StartHint): void {
     const b = this.biases(x);
     this.vgsOld = b.vgs;
     this.vdsOld = b.vds;
+    this.startVgs = Number.NaN;
+    if (start?.kind !== 'cold') return; // level 1 has no temperature dependence to predict
+    // On the edge of saturation with a small overdrive, so the first linearisation has a gm.
+    const vth = this.thresholdAt(b.vbs);
+    this.startVgs = vth + COLD_OVERDRIVE;
+    this.startVds = vth + COLD_OVERDRIVE;
   }
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
     let { vgs, vds, vbs } = this.biases(x);
     let limited = false;
-    if (limit) {
+    if (Number.isFinite(this.startVgs)) {
+      vgs = this.startVgs;
+      vds = this.startVds;
+      this.startVgs = Number.NaN;
+      limited = true;
+    } else if (limit) {
       // Channel first, then the gate of whichever end acts as source after the step.
       const ch = limitChannel(vds, this.vdsOld);
       vds = ch.v;

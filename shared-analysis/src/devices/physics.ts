@@ -116,6 +116,16 @@ export function limitChannel(vNew: number, vOld: number): Limited {
   return { v: vNew, limited: false };
 }
 
+/**
+ * The forward junction voltage that carries, at saturation current `is1` and n·VT `nvt1`, the
+ * current that `v0` carried at `is0`, `nvt0`: the diode law I = IS·exp(v/(n·VT)) solved for v,
+ * v₁ = nvt1·(v₀/nvt0 + ln(is0/is1)). Returns v0 when the inputs give no finite answer.
+ */
+export function shiftJunction(v0: number, nvt0: number, nvt1: number, is0: number, is1: number): number {
+  const v = nvt1 * (v0 / nvt0 + Math.log(is0 / is1));
+  return Number.isFinite(v) ? v : v0;
+}
+
 /** Clamps a huge or infinite magnitude to a JSON-safe stand-in for "unbounded" (1e30). */
 export const UNBOUNDED = 1e30;
 

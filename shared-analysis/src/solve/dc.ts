@@ -1,7 +1,7 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
 import type { Circuit, Element } from '../circuit';
-import type { DeviceConditions } from '../devices/device';
+import type { DeviceConditions, StartHint } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { thermalVoltage, UNBOUNDED } from '../devices/physics';
 import type { Finding, RelatedLocation, Severity, Span } from '../types';
@@ -81,6 +81,9 @@ interface ResistancePlan {
 const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
 const RECORD_LIMIT = 1e300;
+
+/** The temperature each returned solution vector was solved at, so a warm start from it can predict junction voltages. */
+const solvedAt = new WeakMap<Float64Array, number>();
 
 const now: () => number = (() => {
   const perf = (globalThis as { performance?: { now(): number } }).performance;
@@ -173,7 +176,15 @@ export class DcSolver {
 
     const x = new Float64Array(n);
     const guess = options.initialGuess;
-    if (guess && guess.length === n && guess.every(Number.isFinite)) x.set(guess);
+    let startHint: StartHint | undefined = { kind: 'cold' };
+    if (guess && guess.length === n && guess.every(Number.isFinite)) {
+      x.set(guess);
+      const from = options.initialGuessTemperatureC ?? solvedAt.get(guess);
+      startHint =
+        from !== undefined && Number.isFinite(from) && from > -273.15 && from !== temperatureC
+          ? { kind: 'temperature', temperatureC: from, vt: thermalVoltage(from) }
+          : undefined;
+    }
     const start = Float64Array.from(x);
     this.engine.lastFinite.set(x);
 
@@ -183,7 +194,7 @@ export class DcSolver {
     let last: NewtonOutcome | undefined;
 
     if (structure.loops.length === 0 && n > 0) {
-      last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations });
+      last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations, start: startHint });
       iterations += last.iterations;
       converged = last.status === 'converged';
       if (!converged) {
@@ -215,11 +226,14 @@ export class DcSolver {
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged) findings.push(...this.postSolveFindings(x, op, structure));
+    const out = new Float64Array(n);
+    for (let k = 0; k < n; k++) out[k] = Number.isFinite(x[k]) ? x[k] : 0;
+    if (converged) solvedAt.set(out, temperatureC);
     return {
       op,
       findings,
       stats: { iterations, factorizations: this.engine.factorizations - factorizationsBefore, ms: now() - t0 },
-      x: Float64Array.from(x, (v) => (Number.isFinite(v) ? v : 0)),
+      x: out,
     };
   }
 

@@ -1,6 +1,6 @@
 // Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
 
-import type { DeviceConditions } from '../devices/device';
+import type { DeviceConditions, StartHint } from '../devices/device';
 import type { LinearSolver } from './linear';
 import type { MnaLayout } from './mna';
 
@@ -22,6 +22,8 @@ export interface NewtonRun {
   sourceScale: number;
   nodeShunt: number;
   maxIterations: number;
+  /** How devices choose their first linearisation (default: at the starting vector). */
+  start?: StartHint;
 }
 
 /** How a Newton run ended. */
@@ -162,7 +164,7 @@ export class NewtonEngine {
     const { layout, values, rhs, xNew } = this;
     const n = layout.size;
     const { rows, cols } = layout.pattern;
-    for (const d of layout.devices) d.resetState(x);
+    for (const d of layout.devices) d.resetState(x, run.start);
     const linear = layout.devices.length === 0;
     let factored = false;
     let unsettled: number[] = [];

@@ -87,6 +87,12 @@ export interface SolveOptions {
   betaScale?: number;
   /** Starting node voltages, e.g. the previous point of a sweep. */
   initialGuess?: Float64Array;
+  /**
+   * Temperature (°C) at which `initialGuess` was solved, so junction voltages can be predicted
+   * for the new temperature. Not needed when `initialGuess` is the `x` of an earlier result of
+   * the same solver: the solver remembers the temperature of every `x` it returned.
+   */
+  initialGuessTemperatureC?: number;
   /** Newton iteration cap per attempt (default 150). */
   maxIterations?: number;
   /**
