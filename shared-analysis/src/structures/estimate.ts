@@ -312,7 +312,9 @@ class HandAnalysis {
       const { ohms, available, hi } = resistorFed;
       const rText = eng(ohms, 'Ω');
       const vName = this.bipolar ? 'VBE' : 'VGS';
-      const stackFormula = this.s.kind === 'degenerated-mirror' ? `${vName} + IE·RE (reference emitter resistor)` : nStack > 1 ? `${nStack} stacked ${vName}` : vName;
+      const r1 = this.s.reference.degeneration?.resistor ?? 'R1';
+      const stackFormula =
+        this.s.kind === 'degenerated-mirror' ? `(${vName}1 + ${this.bipolar ? 'IE1' : 'ID1'}·${r1})` : nStack > 1 ? `${nStack} stacked ${vName}` : vName;
       steps.push(...st.steps.filter(isVoltage));
       steps.push({
         quantity: 'IREF',
@@ -553,7 +555,8 @@ class HandAnalysis {
       return v;
     };
 
-    if (this.s.kind === 'degenerated-mirror') return this.degeneratedChain(iref, ref, outs, junction, push);
+    // The steps go through `push` into this chain's own list.
+    if (this.s.kind === 'degenerated-mirror') return { ...this.degeneratedChain(iref, ref, outs, junction, push), steps };
 
     if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source') {
       const simple = outs.filter((x) => !x.o.degeneration);
@@ -830,13 +833,12 @@ class HandAnalysis {
     outs: { o: Structure['outputs'][number]; p: DeviceParams }[],
     junction: (label: string, p: DeviceParams, i: number, vsb: number) => number,
     push: (x: () => EstimateStep) => void,
-  ): ChainState {
+  ): Omit<ChainState, 'steps'> {
     const iout: Record<string, number> = {};
     const edge: Record<string, number> = {};
     const r1 = this.s.reference.degeneration!.ohms;
     const r1Name = this.s.reference.degeneration!.resistor;
     const refName = this.s.reference.device;
-    const steps: EstimateStep[] = [];
     if (this.bipolar) {
       const beta = ref.beta;
       const k1 = (beta + 1) / beta;
@@ -911,7 +913,7 @@ class HandAnalysis {
           devices: [x.o.device, r1Name, r2Name],
         }));
       }
-      return { stack: vTop, vControl: vbe1, iRef: ic1, iout, edge, steps };
+      return { stack: vTop, vControl: vbe1, iRef: ic1, iout, edge };
     }
     // MOS: gates draw nothing, ID1 = IREF.
     const vsb0 = this.vsbBase(ref);
@@ -966,7 +968,7 @@ class HandAnalysis {
         devices: [x.o.device, r1Name, r2Name],
       }));
     }
-    return { stack: vTop, vControl: vgs1, iRef: iref, iout, edge, steps };
+    return { stack: vTop, vControl: vgs1, iRef: iref, iout, edge };
   }
 
   /** ", VSB = …" for a MOS step when the body effect applies. */
