@@ -55,10 +55,15 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
 const NODE_COUNT: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 };
 
+/** The parameters of a card that gives none, shared so most elements allocate no map. */
+const NO_PARAMS: ReadonlyMap<string, Assignment> = new Map();
+
 /** One subcircuit instance (or the top level) being flattened. */
 interface Instance {
   /** Prefix of hierarchical names, as written: `X1.X2.` (empty at top level). */
   prefix: string;
+  /** The prefix in lower case, for the case-insensitive name and node maps. */
+  lowerPrefix: string;
   body: Body;
   scope: ParamScope;
   /** Lower-case port name -> node index. */
@@ -129,6 +134,7 @@ class Elaborator {
 
     const topInstance: Instance = {
       prefix: '',
+      lowerPrefix: '',
       body: read.top,
       scope: top,
       ports: new Map(),
@@ -190,7 +196,7 @@ class Elaborator {
       const model = elaborateModel(card, { uri, scope, sink: this.sink, instances: inst.instances });
       local.set(key, { model: model ?? null, card, uri });
       if (model) {
-        const circuitKey = inst.prefix.toLowerCase() + key;
+        const circuitKey = inst.lowerPrefix + key;
         this.models[circuitKey] = model;
         const sym = this.modelSymbols.get(`${uri}#${card.span.start}`);
         if (sym && sym.key === undefined) sym.key = circuitKey;
@@ -224,12 +230,12 @@ class Elaborator {
     if (lower === '0' || lower === 'gnd') return 0;
     const port = inst.ports.get(lower);
     if (port !== undefined) return port;
-    const full = inst.prefix + tok.text;
-    const key = full.toLowerCase();
+    // Built from the lower-case parts so each terminal makes one key string; the name as written only for a new node.
+    const key = inst.lowerPrefix + lower;
     let k = this.nodeIndex.get(key);
     if (k === undefined) {
       k = this.nodes.length;
-      this.nodes.push(full);
+      this.nodes.push(inst.prefix + tok.text);
       this.nodeIndex.set(key, k);
     }
     return k;
@@ -262,7 +268,7 @@ class Elaborator {
       this.instantiate(item, inst);
       return;
     }
-    const lowerName = (inst.prefix + card.name.text).toLowerCase();
+    const lowerName = inst.lowerPrefix + card.name.text.toLowerCase();
     const first = this.names.get(lowerName);
     if (first) {
       this.sink.add('element-duplicate-name', `An element named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
@@ -304,7 +310,6 @@ class Elaborator {
     const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
     if (valueToken) origin.valueSpan = valueToken.span;
     if (card.model) origin.modelSpan = card.model.span;
-    const multiplier = (): number => this.positive(params.get('M'), inst, uri, card, 'parallel count M');
 
     let element: Element | undefined;
     switch (card.letter) {
@@ -316,7 +321,7 @@ class Elaborator {
         }
         const v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``, 'The resistor is left out of the analysis.');
         if (v === undefined) return;
-        const m = multiplier();
+        const m = this.positive(params.get('M'), inst, uri, card, 'parallel count M');
         if (v === 0) {
           this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω, as a jumper or option link is; it is solved as a short and the current through it is reported.`, uri, card.value.span);
         } else if (v < 0) {
@@ -375,7 +380,7 @@ class Elaborator {
         if (!model) return;
         const areaTok = card.area ?? params.get('AREA')?.value;
         const area = areaTok ? this.positiveToken(areaTok, inst, uri, card, 'area factor') : 1;
-        const m = multiplier();
+        const m = this.positive(params.get('M'), inst, uri, card, 'parallel count M');
         element = card.letter === 'D' ? { name, nodes, origin, kind: 'D', model, area, m } : { name, nodes, origin, kind: 'Q', model, area, m };
         break;
       }
@@ -384,8 +389,8 @@ class Elaborator {
         if (!model) return;
         const w = this.geometry(params.get('W'), inst, uri, card, 'W');
         const l = this.geometry(params.get('L'), inst, uri, card, 'L');
-        const missing = [params.has('W') ? '' : 'W', params.has('L') ? '' : 'L'].filter(Boolean);
-        if (missing.length > 0) {
+        if (!params.has('W') || !params.has('L')) {
+          const missing = [params.has('W') ? '' : 'W', params.has('L') ? '' : 'L'].filter(Boolean);
           this.sink.add(
             'mosfet-geometry-missing',
             `MOSFET \`${card.name.text}\` gives no ${missing.join(' or ')}; ${missing.join(' and ')} = 10 µm is used (W/L = ${formatRatio(w / l)}), so its currents follow KP·W/L with that ratio.`,
@@ -395,7 +400,7 @@ class Elaborator {
             { missing, defaultMetres: DEFAULT_MOS_SIZE },
           );
         }
-        element = { name, nodes, origin, kind: 'M', model, w, l, m: multiplier() };
+        element = { name, nodes, origin, kind: 'M', model, w, l, m: this.positive(params.get('M'), inst, uri, card, 'parallel count M') };
         break;
       }
     }
@@ -403,9 +408,9 @@ class Elaborator {
   }
 
   /** Element parameters by upper-case name; reports unknown ones. */
-  private elementParams(card: ElementCard, uri: string): Map<string, Assignment> {
+  private elementParams(card: ElementCard, uri: string): ReadonlyMap<string, Assignment> {
+    if (card.params.length === 0) return NO_PARAMS;
     const out = new Map<string, Assignment>();
-    if (card.params.length === 0) return out;
     const spec = ELEMENT_PARAMS[card.letter] ?? { used: [], silent: [] };
     for (const a of card.params) {
       const key = a.name.text.toUpperCase();
@@ -518,7 +523,7 @@ class Elaborator {
     const { card, uri } = item;
     const subTok = card.subckt;
     if (!subTok) return;
-    const lowerName = (inst.prefix + card.name.text).toLowerCase();
+    const lowerName = inst.lowerPrefix + card.name.text.toLowerCase();
     const first = this.names.get(lowerName);
     if (first) {
       this.sink.add('element-duplicate-name', `An instance named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
@@ -612,6 +617,7 @@ class Elaborator {
     }
     const child: Instance = {
       prefix: `${path}.`,
+      lowerPrefix: `${path.toLowerCase()}.`,
       body: def.body,
       scope,
       ports: portMap,
@@ -664,8 +670,9 @@ class Elaborator {
       }
     }
     for (const e of this.elements) e.nodes = e.nodes.map((k) => remap[k]!);
+    // A loop rather than push(...kept): spreading 100k+ arguments overflows the call stack.
     this.nodes.length = 0;
-    this.nodes.push(...kept);
+    for (const n of kept) this.nodes.push(n);
   }
 
   // -------------------------------------------------------------------------
