@@ -1,9 +1,13 @@
-// The analysis worker thread: runs the engine off the server's main thread and answers sweeps and sizing from its own last analyses.
+// The analysis worker thread: runs the engine off the server's main thread and answers sweeps, sizing and sizing fixes from its own last analyses.
 
 import { parentPort } from 'node:worker_threads';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
-import { analyse } from '../../shared-analysis/src/service';
+import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
+import { sizingFixes } from '../../shared-analysis/src/fixes/index';
+import { analyseSession } from '../../shared-analysis/src/service';
+import type { DcSolver } from '../../shared-analysis/src/solve/dc';
+import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
 import { FileWorkspace } from './file-workspace';
@@ -13,10 +17,19 @@ import type { FromWorker, ToWorker } from './worker-messages';
 
 const workspace = new FileWorkspace();
 const openTexts = new Map<string, string>();
-/** The worker's copy of each document's last analysis without the parsed text (sweeps and sizing need only the circuit). */
 /** The parts of the last analysis still being taken in by the main thread, by request id. */
 let outgoing: { id: number; parts: AnalysisPart[] } | undefined;
-const lastAnalysis = new Map<string, { analysis: Analysis; texts: Map<string, string> }>();
+
+/** What the worker keeps of a root's last analysis to answer sweeps and sizing without re-solving. */
+interface Kept {
+  /** The analysis; its `documents` are the parsed ones only when a finding asks for sizing (cards are then needed), else text-only stand-ins. */
+  analysis: Analysis;
+  texts: Map<string, string>;
+  solver?: DcSolver;
+  /** Sizing results shared by the fixes of this analysis (a finding asked twice is sized once). */
+  sizingCache: Map<string, SizingResult>;
+}
+const lastAnalysis = new Map<string, Kept>();
 
 function post(msg: FromWorker): void {
   parentPort?.postMessage(msg);
@@ -26,20 +39,19 @@ function errorText(e: unknown): string {
   return e instanceof Error ? `${e.message}${e.stack ? `\n${e.stack}` : ''}` : String(e);
 }
 
-/** The analysis that holds `uri`: its own, or one of a netlist that includes it. */
-function analysisHolding(uri: string): Analysis | undefined {
+/** The kept analysis that holds `uri`: its own, or one of a netlist that includes it. */
+function keptHolding(uri: string): Kept | undefined {
   const own = lastAnalysis.get(uri);
-  if (own) return own.analysis;
-  for (const a of lastAnalysis.values()) if (a.texts.has(uri)) return a.analysis;
+  if (own) return own;
+  for (const a of lastAnalysis.values()) if (a.texts.has(uri)) return a;
   return undefined;
 }
 
-/** The texts the analysis holding `uri` read. */
-function textsHolding(uri: string): Map<string, string> | undefined {
-  const own = lastAnalysis.get(uri);
-  if (own) return own.texts;
-  for (const a of lastAnalysis.values()) if (a.texts.has(uri)) return a.texts;
-  return undefined;
+/** Text-only documents (no cards): enough for reading a value field's text; the parsed cards are large and the main thread has them. */
+function textDocuments(texts: Map<string, string>): Record<string, ParsedDocument> {
+  const out: Record<string, ParsedDocument> = {};
+  for (const [uri, text] of texts) out[uri] = { uri, text, cards: [], errors: [] };
+  return out;
 }
 
 function handle(msg: ToWorker): void {
@@ -62,9 +74,19 @@ function handle(msg: ToWorker): void {
       }
       const t0 = performance.now();
       try {
-        const analysis = analyse({ uri: msg.uri, text, version: msg.version }, workspace, msg.options);
+        // Free the previous analysis of this root before building the next (peak memory holds one, not two).
+        lastAnalysis.delete(msg.uri);
+        outgoing = undefined;
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace, msg.options);
+        const analysis = session.analysis;
         const texts = new Map(Object.entries(analysis.documents).map(([u, d]) => [u, d.text] as [string, string]));
-        lastAnalysis.set(msg.uri, { analysis: { ...analysis, documents: {} }, texts });
+        const needsCards = analysis.findings.some((f) => f.data?.['sizing'] !== undefined);
+        lastAnalysis.set(msg.uri, {
+          analysis: { ...analysis, documents: needsCards ? analysis.documents : textDocuments(texts) },
+          texts,
+          solver: session.solver,
+          sizingCache: new Map(),
+        });
         const { header, parts } = splitAnalysis(analysis);
         outgoing = { id: msg.id, parts };
         post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, ms: performance.now() - t0 });
@@ -84,36 +106,47 @@ function handle(msg: ToWorker): void {
       return;
     }
     case 'sweep': {
-      const a = analysisHolding(msg.uri);
-      if (!a) {
+      const kept = keptHolding(msg.uri);
+      if (!kept) {
         post({ type: 'swept', id: msg.id, result: { error: `There is no finished analysis of ${msg.uri} yet.` } });
         return;
       }
       try {
-        post({ type: 'swept', id: msg.id, result: outputCharacteristic(a, msg.device, msg.points) });
+        post({ type: 'swept', id: msg.id, result: outputCharacteristic(kept.analysis, msg.device, msg.points) });
       } catch (e) {
         post({ type: 'failed', id: msg.id, message: `The sweep stopped with an internal error: ${errorText(e)}` });
       }
       return;
     }
     case 'size-resistor': {
-      const a = analysisHolding(msg.uri);
-      if (!a) {
+      const kept = keptHolding(msg.uri);
+      if (!kept) {
         post({ type: 'sized', id: msg.id, result: { error: `There is no finished analysis of ${msg.uri} yet.` } });
         return;
       }
       try {
-        const texts = textsHolding(msg.uri);
         const toRange = (uri: string, span: Span) => {
-          const text = texts?.get(uri);
+          const text = kept.texts.get(uri);
           if (text === undefined) return undefined;
           const index = new LineIndex(text);
           return { start: index.positionAt(span.start, msg.encoding), end: index.positionAt(span.end, msg.encoding) };
         };
-        post({ type: 'sized', id: msg.id, result: sizeResistor(a, msg.resistor, msg.target, toRange) });
+        post({ type: 'sized', id: msg.id, result: sizeResistor(kept.analysis, msg.resistor, msg.target, { documents: kept.analysis.documents, toRange, solver: kept.solver }) });
       } catch (e) {
         post({ type: 'failed', id: msg.id, message: `Sizing stopped with an internal error: ${errorText(e)}` });
       }
+      return;
+    }
+    case 'sizing-fixes': {
+      const kept = lastAnalysis.get(msg.uri);
+      const a = kept?.analysis;
+      if (!kept || !a || !a.circuit || !kept.solver || a.version !== msg.version) {
+        post({ type: 'sizing-fixed', id: msg.id, fixes: msg.findings.map(() => []), stale: true });
+        return;
+      }
+      const ctx = { circuit: a.circuit, solver: kept.solver, structures: a.structures, documents: a.documents, options: a.options, cache: kept.sizingCache };
+      // sizingFixes never throws; each finding is sized on its own (shared cache).
+      post({ type: 'sizing-fixed', id: msg.id, fixes: msg.findings.map((f) => sizingFixes(f, ctx)) });
       return;
     }
   }

@@ -24,6 +24,8 @@ import {
   type WorkDoneProgressServerReporter,
 } from 'vscode-languageserver/node';
 import type { Analysis } from '../../shared-analysis/src/analysis';
+import { sizingRequest } from '../../shared-analysis/src/fixes/index';
+import type { Finding, Fix } from '../../shared-analysis/src/types';
 import { completionsAt } from '../../shared-analysis/src/features/completion';
 import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
@@ -57,16 +59,25 @@ import {
   type DiagnosticData,
   type PositionConverter,
 } from './to-lsp';
+import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
 
 /** The name of the client-side command the size refactor runs (declared in package.json). */
 export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
+/** The server command that re-reads included files from disk and re-analyses every open netlist (the client's re-analyse command sends it). */
+export const REANALYSE_COMMAND = 'qpoint.server.reanalyse';
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
 /** A run that was superseded by an edit is abandoned (worker restarted) once it has run this much longer than expected. */
 const SUPERSEDED_GRACE_MS = 3000;
 /** Nothing the worker does may take longer than this. */
 const HARD_DEADLINE_MS = 120_000;
+/**
+ * How long a code-action request waits for the worker to size resistors for missed targets.
+ * A worker busy with a long analysis answers later; the request then goes without those fixes,
+ * and the late answer is kept for the next request on the same analysis.
+ */
+const SIZING_WAIT_MS = 800;
 
 /** One open editor document, its text kept in sync by incremental changes in the negotiated encoding. */
 class OpenDocument {
@@ -380,6 +391,8 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
       renameProvider: { prepareProvider: true },
       completionProvider: { triggerCharacters: ['.', '{', ' ', '='], resolveProvider: false },
       codeActionProvider: { codeActionKinds: [CodeActionKind.QuickFix, CodeActionKind.Refactor] },
+      // Only server-side commands belong here; SIZE_COMMAND runs in the client (it asks for the target first).
+      executeCommandProvider: { commands: [REANALYSE_COMMAND] },
     },
     serverInfo: { name: 'qpoint-language-server', version: '0.1.0' },
   };
@@ -552,19 +565,66 @@ connection.onCompletion(
   }),
 );
 
+/** Sizing fixes computed on demand, by analysis and finding index (an analysis replaced in the cache takes its entries with it). */
+const sizedFixes = new WeakMap<Analysis, Map<number, Fix[]>>();
+/** Sizing requests sent to the worker and not yet answered, by analysis (so a second code-action request does not ask again). */
+const sizingInFlight = new WeakMap<Analysis, Promise<void>>();
+
+/** The root netlist whose cached analysis is `analysis`. */
+function rootOf(analysis: Analysis): string | undefined {
+  for (const [root, entry] of cache) if (entry.analysis === analysis) return root;
+  return undefined;
+}
+
+/**
+ * The sizing fixes of the findings at `indices` of `analysis` (marked `target-missed` ones), from
+ * the worker, waiting at most SIZING_WAIT_MS; what is not known by then is left out of this answer.
+ */
+async function sizingFixesFor(analysis: Analysis, indices: number[]): Promise<Map<number, Fix[]>> {
+  let known = sizedFixes.get(analysis);
+  if (!known) sizedFixes.set(analysis, (known = new Map()));
+  const missing = indices.filter((i) => !known!.has(i));
+  const root = rootOf(analysis);
+  if (missing.length > 0 && root !== undefined) {
+    let pending = sizingInFlight.get(analysis);
+    if (!pending) {
+      const store = known;
+      pending = host
+        .sizingFixes(root, analysis.version, missing.map((i) => analysis.findings[i]))
+        .then(({ fixes, stale }) => {
+          // A stale answer (the worker holds a newer analysis) sizes nothing; this analysis is on its way out.
+          if (!stale) missing.forEach((i, k) => store.set(i, fixes[k] ?? []));
+        })
+        .catch((e) => log(`Sizing the fixes of ${root} failed: ${e instanceof Error ? e.message : String(e)}`))
+        .finally(() => sizingInFlight.delete(analysis));
+      sizingInFlight.set(analysis, pending);
+    }
+    let timer: ReturnType<typeof setTimeout> | undefined;
+    await Promise.race([pending, new Promise<void>((r) => (timer = setTimeout(r, SIZING_WAIT_MS)))]);
+    clearTimeout(timer);
+  }
+  return known;
+}
+
 connection.onCodeAction(
-  guard('code action', (params: CodeActionParams) => {
+  guard('code action', async (params: CodeActionParams) => {
     const uri = params?.textDocument?.uri;
     const ctx = featureContext(uri);
     if (!ctx || !params.range) return [];
     const actions: CodeAction[] = [];
+    const wanted: { d: Diagnostic; f: Finding; index: number }[] = [];
     for (const d of params.context?.diagnostics ?? []) {
       if (d?.source !== 'qpoint') continue;
       const data = d.data as DiagnosticData | undefined;
       if (!data || typeof data.index !== 'number' || data.version !== ctx.analysis.version) continue;
       const f = ctx.analysis.findings[data.index];
-      if (!f || f.code !== d.code || !f.fixes?.length) continue;
-      for (const fix of f.fixes) {
+      if (!f || f.code !== d.code) continue;
+      wanted.push({ d, f, index: data.index });
+    }
+    const toSize = wanted.filter((w) => sizingRequest(w.f) !== undefined).map((w) => w.index);
+    const sized = toSize.length > 0 ? await sizingFixesFor(ctx.analysis, toSize) : undefined;
+    for (const { d, f, index } of wanted) {
+      for (const fix of [...(f.fixes ?? []), ...(sized?.get(index) ?? [])]) {
         const a = toQuickFix(fix, d, ctx.lookup);
         if (a) actions.push(a);
       }
@@ -585,8 +645,10 @@ connection.onCodeAction(
         seen.add(card.span.start);
         const els = elementsOfCard(ctx.analysis, uri, card);
         if (els.length) {
-          const feeds = ctx.analysis.structures.find((s) => s.reference.elements.some((r) => els.some((e) => e.name.toLowerCase() === r.toLowerCase())));
-          const resistor = feeds ? els.find((e) => feeds.reference.elements.some((r) => r.toLowerCase() === e.name.toLowerCase()))!.name : els[0].name;
+          // The first instance that sets a structure's current (reference or emitter resistor), else the first instance.
+          const setter = els.find((e) => structureOfResistor(ctx.analysis.structures, e.name) !== undefined);
+          const feeds = setter && structureOfResistor(ctx.analysis.structures, setter.name);
+          const resistor = (setter ?? els[0]).name;
           const title = feeds
             ? `Size ${card.name.text} for a target output current of ${feeds.outputs.map((o) => o.device).join(', ') || feeds.reference.device}…`
             : `Size ${card.name.text} for a target current…`;
@@ -599,6 +661,32 @@ connection.onCodeAction(
     return actions;
   }),
 );
+
+connection.onExecuteCommand(
+  guard('execute command', (params) => {
+    const command = params?.command;
+    if (command !== REANALYSE_COMMAND) {
+      throw new ResponseError(ErrorCodes.InvalidParams, `qpoint's server has no command ${JSON.stringify(command)}; it runs only ${REANALYSE_COMMAND}.`);
+    }
+    return reanalyseAll();
+  }),
+);
+
+/**
+ * Forgets every file read from disk and re-analyses each open netlist now (included files that
+ * another netlist reads are analysed through it). Returns how many netlists were queued.
+ */
+function reanalyseAll(): { netlists: number } {
+  host.filesChanged();
+  let netlists = 0;
+  for (const d of documents.all()) {
+    if (includedByAnother(d.uri)) continue;
+    schedule(d.uri, 0);
+    netlists++;
+  }
+  log(`Re-analysing ${netlists} open netlist${netlists === 1 ? '' : 's'} with included files read again from disk.`);
+  return { netlists };
+}
 
 connection.onRequest(
   LIST_OUTPUTS_REQUEST,

@@ -3,18 +3,36 @@
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { parseNumber } from '../../shared-analysis/src/elaborate/units';
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
+import { resistorValueText } from '../../shared-analysis/src/fixes/index';
 import { sizeResistorForCurrent, valueEdit } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import type { Span } from '../../shared-analysis/src/types';
 import type { SizingData } from './worker-messages';
 
+/** What `sizeResistor` works on besides the analysis. */
+export interface SizeResistorContext {
+  /** The analysed documents by uri; only their `text` is read (to keep the card's M= multiplier when writing the value). */
+  documents: Record<string, ParsedDocument>;
+  /** Converts an engine span of a document into an LSP range in the client's encoding. */
+  toRange: (uri: string, span: Span) => SizingData['candidates'][number]['range'] | undefined;
+  /** The prepared solver of the analysed circuit, when the host kept one (else a new one is built). */
+  solver?: DcSolver;
+}
+
+/** The structure a resistor sets the current of: as its reference resistor, or as the emitter (source) resistor of the reference or of an output. */
+export function structureOfResistor(structures: Structure[], resistor: string): Structure | undefined {
+  const lower = resistor.toLowerCase();
+  const named = (d: { resistor: string } | undefined) => d !== undefined && d.resistor.toLowerCase() === lower;
+  return (
+    structures.find((s) => s.reference.elements.some((r) => r.toLowerCase() === lower)) ??
+    structures.find((s) => named(s.reference.degeneration) || s.outputs.some((o) => named(o.degeneration)))
+  );
+}
+
 /** Standard-value candidates for `resistor` so that its structure's output (or its own) current meets `targetText`. */
-export function sizeResistor(
-  analysis: Analysis,
-  resistor: string,
-  targetText: string,
-  toRange: (uri: string, span: Span) => SizingData['candidates'][number]['range'] | undefined,
-): SizingData | { error: string } {
+export function sizeResistor(analysis: Analysis, resistor: string, targetText: string, ctx: SizeResistorContext): SizingData | { error: string } {
   const circuit = analysis.circuit;
   if (!circuit) return { error: 'The netlist has no elaborated circuit (see its findings), so nothing can be sized.' };
   const parsed = parseNumber(String(targetText ?? '').trim());
@@ -33,11 +51,14 @@ export function sizeResistor(
   }
   if (!el || el.kind !== 'R') return { error: `${resistor} is not a resistor of this netlist.` };
   if (!el.origin.valueSpan) return { error: `${resistor} has no value field that could be rewritten.` };
-  const structure = analysis.structures.find((s) => s.reference.elements.some((r) => r.toLowerCase() === lower));
+  if (resistorValueText(el, ctx.documents, el.resistance) === undefined) {
+    return { error: `The value of ${el.name} is not a plain number (an expression, a parameter or unreadable text); qpoint does not overwrite it with a number.` };
+  }
+  const structure = structureOfResistor(analysis.structures, el.name);
   const series = analysis.options.resistorSeries;
   const result = sizeResistorForCurrent({
     circuit,
-    solver: new DcSolver(circuit),
+    solver: ctx.solver ?? new DcSolver(circuit),
     structure,
     resistor: el.name,
     target,
@@ -48,12 +69,15 @@ export function sizeResistor(
   const what = `current of ${result.device}`;
   const candidates: SizingData['candidates'] = [];
   for (const c of result.candidates) {
-    const edit = valueEdit(el.origin.uri, el.origin, c.valueText);
-    const range = edit && toRange(edit.uri, edit.span);
-    if (!edit || !range) continue;
+    // The written value differs from the effective one when the card has M= (R1 a b 7.8k m=2 is 3.9 kΩ).
+    const written = resistorValueText(el, ctx.documents, c.value);
+    const edit = written === undefined ? undefined : valueEdit(el.origin.uri, el.origin, written);
+    const range = edit && ctx.toRange(edit.uri, edit.span);
+    if (!edit || !range || written === undefined) continue;
+    const effective = written === c.valueText ? '' : ` (${c.valueText} effective)`;
     candidates.push({
-      label: `${c.valueText} (${series}) → ${formatEngineering(c.current, { unit: 'A' })}, ${formatSignedPercent(c.error)} from the target ${what}`,
-      valueText: c.valueText,
+      label: `${written}${effective} (${series}) → ${formatEngineering(c.current, { unit: 'A' })}, ${formatSignedPercent(c.error)} from the target ${what}`,
+      valueText: written,
       current: c.current,
       error: c.error,
       edit,

@@ -5,6 +5,7 @@ import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analys
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import { mergePart } from './analysis-transfer';
+import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 
 /** Options for {@link WorkerHost}. */
@@ -91,8 +92,8 @@ export class WorkerHost {
     this.worker?.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
   }
 
-  /** Tells the worker these files changed on disk. */
-  filesChanged(uris: string[]): void {
+  /** Tells the worker these files changed on disk (none given: any file may have changed). */
+  filesChanged(uris?: string[]): void {
     this.worker?.postMessage({ type: 'files-changed', uris } satisfies ToWorker);
   }
 
@@ -170,6 +171,17 @@ export class WorkerHost {
   async sizeResistor(uri: string, resistor: string, target: string, encoding: PositionEncoding): Promise<SizingData | { error: string }> {
     const msg = await this.request((id) => ({ type: 'size-resistor', id, uri, resistor, target, encoding }), `Sizing ${resistor}`);
     if (msg.type === 'sized') return msg.result;
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  }
+
+  /**
+   * The resistor-sizing fixes of `findings` (marked `target-missed` findings of the analysis of
+   * root `uri` at `version`), computed in the worker with its kept solver; one list per finding.
+   * `stale` when the worker's last analysis of `uri` is not that version (nothing was sized).
+   */
+  async sizingFixes(uri: string, version: number | undefined, findings: Finding[]): Promise<{ fixes: Fix[][]; stale: boolean }> {
+    const msg = await this.request((id) => ({ type: 'sizing-fixes', id, uri, version, findings }), `Sizing the fixes of ${uri}`);
+    if (msg.type === 'sizing-fixed') return { fixes: msg.fixes, stale: msg.stale === true };
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 

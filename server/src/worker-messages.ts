@@ -4,7 +4,7 @@ import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analys
 import type { AnalysisPart } from './analysis-transfer';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
-import type { TextEdit } from '../../shared-analysis/src/types';
+import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
 export interface SizingCandidateData {
@@ -31,13 +31,15 @@ export interface SizingData {
 export type ToWorker =
   /** The editor's text of an open document changed (text undefined: the document was closed). */
   | { type: 'set-document'; uri: string; text: string | undefined }
-  /** Files changed on disk: forget what was read of them. */
-  | { type: 'files-changed'; uris: string[] }
+  /** Files changed on disk: forget what was read of them (`uris` absent: of every file). */
+  | { type: 'files-changed'; uris?: string[] }
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions }
   /** Send part `index` of the analysis answered to request `analysisId`. */
   | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
-  | { type: 'size-resistor'; id: number; uri: string; resistor: string; target: string; encoding: PositionEncoding };
+  | { type: 'size-resistor'; id: number; uri: string; resistor: string; target: string; encoding: PositionEncoding }
+  /** Compute the resistor-sizing fixes of these `target-missed` findings (with `data.sizing`) of the analysis of root `uri` at `version`. */
+  | { type: 'sizing-fixes'; id: number; uri: string; version: number | undefined; findings: Finding[] };
 
 /** Worker → main thread. */
 export type FromWorker =
@@ -46,4 +48,6 @@ export type FromWorker =
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'sized'; id: number; result: SizingData | { error: string } }
+  /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
+  | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
   | { type: 'failed'; id: number; message: string };

@@ -11,6 +11,7 @@ import {
   ExitNotification,
   InitializedNotification,
   InitializeRequest,
+  type InitializeResult,
   InlayHintRefreshRequest,
   PublishDiagnosticsNotification,
   RegistrationRequest,
@@ -34,6 +35,8 @@ export interface ServerSession {
   stderr: string[];
   /** Number of inlay-hint refresh requests the server sent. */
   refreshes: number;
+  /** What the server answered to initialize (its capabilities). */
+  initializeResult: InitializeResult | undefined;
   open(uri: string, text: string, version?: number): void;
   change(uri: string, version: number, changes: TextDocumentContentChangeEvent[]): void;
   /** Polls until `pick()` returns a value (not undefined/false) or the time runs out. */
@@ -65,6 +68,7 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
     publishCount,
     stderr,
     refreshes: 0,
+    initializeResult: undefined,
     open(uri, text, version = 1) {
       void connection.sendNotification(DidOpenTextDocumentNotification.type, { textDocument: { uri, languageId: 'netlist', version, text } });
     },
@@ -110,7 +114,7 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
   });
   connection.onNotification(() => undefined);
   connection.listen();
-  await connection.sendRequest(InitializeRequest.type, {
+  session.initializeResult = await connection.sendRequest(InitializeRequest.type, {
     processId: process.pid,
     rootUri: null,
     capabilities: {

@@ -1,0 +1,92 @@
+// The built language server over stdio: resistor-sizing quick fixes computed on demand in the worker, and the server's re-analyse command.
+
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { TextDocument } from 'vscode-languageserver-textdocument';
+import { CodeActionRequest, ExecuteCommandRequest, type CodeAction, type Diagnostic } from 'vscode-languageserver-protocol/node';
+import { startServer, type ServerSession } from './lsp-client';
+
+let server: ServerSession;
+let dir: string;
+
+beforeAll(async () => {
+  dir = mkdtempSync(join(tmpdir(), 'qpoint-lsp-fix-'));
+  server = await startServer({ settings: { analysisDelayMs: 10, corners: { enabled: false } } });
+});
+
+afterAll(async () => {
+  const code = await server?.stop();
+  rmSync(dir, { recursive: true, force: true });
+  expect(code).toBe(0);
+});
+
+/** Asks for the code actions of one diagnostic, as an editor does when the cursor is on it. */
+async function quickFixes(uri: string, d: Diagnostic): Promise<CodeAction[]> {
+  const actions = (await server.connection.sendRequest(CodeActionRequest.type, { textDocument: { uri }, range: d.range, context: { diagnostics: [d] } })) as CodeAction[];
+  return actions.filter((a) => a.kind === 'quickfix');
+}
+
+describe('resistor-sizing quick fixes on demand', () => {
+  it('sizes the reference resistor of a missed target when asked; applying the preferred fix clears the finding', async () => {
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β), IREF = (VCC − VBE)/R:
+    // with 4.3 kΩ from 5 V, IOUT ≈ (5 − 0.72)/4.3k/1.02 ≈ 0.976 mA, 2.4 % short of 1 mA ±2 %.
+    const uri = pathToFileURL(join(dir, 'target.cir')).href;
+    let text = '5 V mirror with a target\nVCC vcc 0 DC 5\nR1 vcc b 4.3k\nQ1 b b 0 qn\nQ2 out b 0 qn ; expect 1mA ±2%\nRL vcc out 2k\n.model qn npn (IS=1e-16 BF=100)\n.end\n';
+    server.open(uri, text, 1);
+    const d = await server.waitFor('target-missed', () => server.diagnosticsOf(uri).find((x) => x.code === 'target-missed'));
+    const fixes = await quickFixes(uri, d);
+    const best = fixes.find((a) => a.isPreferred);
+    expect(best, JSON.stringify(fixes.map((a) => a.title))).toBeDefined();
+    expect(best!.title).toMatch(/^Set R1 to /);
+    const edits = best!.edit!.changes?.[uri] ?? best!.edit!.documentChanges?.flatMap((c) => ('edits' in c ? c.edits : [])) ?? [];
+    expect(edits.length).toBe(1);
+    text = TextDocument.applyEdits(TextDocument.create(uri, 'netlist', 1, text), edits);
+    server.change(uri, 2, edits.map((e) => ({ range: e.range, text: e.newText })));
+    await server.waitFor('diagnostics of the sized netlist', () => {
+      const p = server.diagnostics.get(uri);
+      return p && p.version === 2 && !p.diagnostics.some((x) => x.code === 'target-missed');
+    });
+    // The old diagnostic belongs to version 1, which is gone: no fixes are offered for it (they would edit the wrong text).
+    expect(await quickFixes(uri, d)).toEqual([]);
+  });
+
+  it('offers no sizing fix for a target on a resistor whose value is a parameter', async () => {
+    const uri = pathToFileURL(join(dir, 'param.cir')).href;
+    const text = '5 V mirror with a parameter\n.param rset=4.3k\nVCC vcc 0 DC 5\nR1 vcc b {rset}\nQ1 b b 0 qn\nQ2 out b 0 qn ; expect 1mA ±2%\nRL vcc out 2k\n.model qn npn (IS=1e-16 BF=100)\n.end\n';
+    server.open(uri, text, 1);
+    const d = await server.waitFor('target-missed', () => server.diagnosticsOf(uri).find((x) => x.code === 'target-missed'));
+    expect(await quickFixes(uri, d)).toEqual([]);
+  });
+});
+
+describe('the re-analyse command', () => {
+  it('is listed for the client, without the client-side sizing command', () => {
+    const commands = server.initializeResult?.capabilities.executeCommandProvider?.commands ?? [];
+    expect(commands).toContain('qpoint.server.reanalyse');
+    expect(commands).not.toContain('qpoint.sizeResistorForCurrent');
+  });
+
+  it('re-reads an included file changed on disk without a watcher notice and re-publishes the netlist', async () => {
+    const inc = join(dir, 'quiet.inc');
+    writeFileSync(inc, '.model QX NPN (BF=50)\n');
+    const top = pathToFileURL(join(dir, 'quiet-top.cir')).href;
+    server.open(top, 'Netlist with a quietly changed include\n.include "quiet.inc"\nVCC vcc 0 DC 5\nR1 vcc b 100k\nQ1 c b 0 QY\nR2 vcc c 1k\n.end\n');
+    await server.waitFor('the missing QY', () => server.diagnosticsOf(top).some((d) => d.code === 'model-not-found'));
+    writeFileSync(inc, '.model QX NPN (BF=50)\n.model QY NPN (BF=60)\n');
+    const answer = (await server.connection.sendRequest(ExecuteCommandRequest.type, { command: 'qpoint.server.reanalyse', arguments: [] })) as { netlists: number };
+    expect(answer.netlists).toBeGreaterThanOrEqual(1);
+    await server.waitFor('QY found after the command', () => {
+      const p = server.diagnostics.get(top);
+      return p && !p.diagnostics.some((d) => d.code === 'model-not-found');
+    });
+  });
+
+  it('refuses an unknown command with a clear error and keeps running', async () => {
+    await expect(server.connection.sendRequest(ExecuteCommandRequest.type, { command: 'qpoint.sizeResistorForCurrent', arguments: [] })).rejects.toThrow(/has no command/);
+    await expect(server.connection.sendRequest(ExecuteCommandRequest.type, {} as never)).rejects.toThrow(/has no command/);
+    expect(server.child.exitCode).toBeNull();
+  });
+});
