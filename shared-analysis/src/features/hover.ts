@@ -195,8 +195,10 @@ function structureSection(s: Structure, device: string): string {
   const role = isRef ? 'reference (diode-connected) device' : out ? `output device (intended ratio ${formatNumber(out.ratio)})` : 'device';
   const parts: string[] = [`**${kindLabel(s.kind)}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
   const est = s.estimate;
-  if (est && est.steps.length) {
-    parts.push('Hand estimate:\n\n' + est.steps.map((st) => `- ${st.quantity} = ${st.formula} = ${st.substituted} = **${formatQuantity(st.value, st.unit)}**`).join('\n'));
+  // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
+  const steps = (est?.steps ?? []).filter((st) => !st.devices || st.devices.length === 0 || st.devices.some((d) => d.toLowerCase() === lower));
+  if (steps.length) {
+    parts.push('Hand estimate:\n\n' + steps.map((st) => `- ${st.quantity} = ${st.formula} = ${st.substituted} = **${formatQuantity(st.value, st.unit)}**`).join('\n'));
   }
   const rows: string[] = [];
   if (isRef || !out) {

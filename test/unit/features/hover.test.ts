@@ -192,3 +192,35 @@ describe('hover robustness', () => {
     expect(hoverAt(analysis, '/t/other.cir', 3)).toBeUndefined();
   });
 });
+
+describe('hover focus on one device of a multi-output mirror', () => {
+  // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — a mirror with outputs of areas 1 and 2 copies IREF in those ratios;
+  // each output's IOUT belongs on that output's hover, IREF (structure-wide) on every device's.
+  const MULTI = `Mirror with two outputs
+VCC vcc 0 DC 10
+RREF vcc ref 9.3k
+Q1 ref ref 0 QN
+Q2 out2 ref 0 QN
+Q3 out3 ref 0 QN 2
+RL2 vcc out2 1k
+RL3 vcc out3 1k
+.model QN NPN (BF=100 IS=1e-16)
+.end
+`;
+  const estimateOf = (md: string) => md.split('Hand estimate:')[1]?.split('\n\n')[1] ?? '';
+  it('shows the structure-wide steps and only this output’s own steps', () => {
+    const q2 = estimateOf(check(mark(MULTI, 'Q2 out2'), { contains: ['Hand estimate:'] }));
+    const q3 = estimateOf(check(mark(MULTI, 'Q3 out3'), { contains: ['Hand estimate:'] }));
+    expect(q2).toMatch(/IREF/);
+    expect(q3).toMatch(/IREF/);
+    expect(q2).toMatch(/Q2/);
+    expect(q2).not.toMatch(/Q3/);
+    expect(q3).toMatch(/Q3/);
+    expect(q3).not.toMatch(/Q2/);
+  });
+  it('shows the reference device no output’s steps', () => {
+    const q1 = estimateOf(check(mark(MULTI, 'Q1 ref'), { contains: ['Hand estimate:'] }));
+    expect(q1).toMatch(/IREF/);
+    expect(q1).not.toMatch(/Q2|Q3/);
+  });
+});
