@@ -56,6 +56,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'subckt-recursive': { severity: 'error', summary: 'A chain of instances that re-enters a subcircuit it is inside; the chain is named.' },
   'subckt-duplicate': { severity: 'error', summary: 'Two subcircuit definitions with the same name in one scope; the first is used.' },
   'subckt-port-duplicate': { severity: 'error', summary: 'A subcircuit lists the same port twice.' },
+  'subckt-port-unused': { severity: 'warning', summary: 'A subcircuit port that no element inside the subcircuit connects to.' },
   'subckt-nesting-too-deep': { severity: 'error', summary: 'Subcircuit instances nest deeper than the limit; the deeper instance is left out.' },
   'circuit-too-large': { severity: 'error', summary: 'Flattening would make more elements than the limit; the rest are left out.' },
 

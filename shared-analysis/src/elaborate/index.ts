@@ -122,6 +122,7 @@ class Elaborator {
 
   run(): ElaborationResult {
     const read = readSources(this.root, this.workspace, this.sink);
+    for (const def of read.allDefs) this.checkPortsUsed(def);
     const top = new ParamScope(this.context, { label: 'top level' });
     const allBodies = [read.top, ...read.allDefs.map((d) => d.body)];
     for (const body of allBodies) {
@@ -167,6 +168,36 @@ class Elaborator {
       includes: read.includes as IncludeSymbol[],
     };
     return { circuit, documents: read.documents, symbols, findings: this.sink.findings };
+  }
+
+  /**
+   * Reports each port that no card of the definition's own body names as a node (nested
+   * definitions are their own scopes). Checked once per definition, whether or not it is used.
+   */
+  private checkPortsUsed(def: SubcktDef): void {
+    const { card, uri, body } = def;
+    if (card.ports.length === 0) return;
+    const named = new Set<string>();
+    for (const item of body.items) {
+      if (item.card.kind !== 'element') continue;
+      for (const t of item.card.nodes) named.add(t.text.toLowerCase());
+    }
+    const checked = new Set<string>();
+    for (const port of card.ports) {
+      const lower = port.text.toLowerCase();
+      // Ground ports always mean the global ground; a repeated port has its own finding.
+      if (lower === '0' || lower === 'gnd' || checked.has(lower)) continue;
+      checked.add(lower);
+      if (named.has(lower)) continue;
+      this.sink.add(
+        'subckt-port-unused',
+        `Port \`${port.text}\` of subcircuit \`${card.name.text}\` is connected to nothing inside it, so the node an instance attaches there is not joined to any element of the subcircuit.`,
+        uri,
+        port.span,
+        undefined,
+        { subckt: card.name.text, port: port.text },
+      );
+    }
   }
 
   // -------------------------------------------------------------------------

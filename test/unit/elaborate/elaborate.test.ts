@@ -541,6 +541,26 @@ describe('subcircuits', () => {
     });
   });
 
+  // Source: a subcircuit port stands for the node an instance connects there; a port no element
+  // inside names joins that node to nothing (common practice, from memory).
+  it('warns once per definition about a port nothing inside connects to, not counting nested definitions or ground', () => {
+    check(
+      `unused ports\n.subckt buf in out bias VDD 0\n.subckt inner p q\nR1 p bias 1k\n.ends\nR1 IN out 1k\nX1 out vdd inner\n.ends\n` +
+        `.subckt spare a b\nR1 a b 1k\n.ends\nV1 n 0 1\nX1 n m k vcc 0 buf\nX2 n m k vcc 0 buf\nRm m 0 1k\n`,
+      {
+        findings: [
+          {
+            code: 'subckt-port-unused',
+            at: { in: 'buf in out bias', text: 'bias' },
+            message: /^Port `bias` of subcircuit `buf` is connected to nothing inside it, so the node an instance attaches there is not joined to any element of the subcircuit\.$/,
+          },
+          { code: 'subckt-port-unused', at: { in: 'inner p q', text: 'q' }, message: /Port `q` of subcircuit `inner`/ },
+        ],
+        elements: { 'X1.R1': { nodes: ['n', 'm'] }, 'X2.X1.R1': { nodes: ['m', 'X2.X1.bias'] } },
+      },
+    );
+  });
+
   it('reports a second definition of the same subcircuit and uses the first', () => {
     check(`dup subckt\n.subckt cell a\nR1 a 0 1k\n.ends\n.subckt CELL a\nR1 a 0 2k\n.ends\nV1 n 0 1\nX1 n cell\n`, {
       findings: [{ code: 'subckt-duplicate', at: 'CELL' }],
