@@ -7,6 +7,7 @@ import { DcSolver } from '../../shared-analysis/src/solve/dc';
 import type { DcSolveResult } from '../../shared-analysis/src/solve/dc';
 import { SparseLU } from '../../shared-analysis/src/solve/sparse-lu';
 import { NewtonEngine } from '../../shared-analysis/src/solve/newton';
+import { MnaLayout } from '../../shared-analysis/src/solve/mna';
 
 const ORIGIN: Origin = { uri: 'bench://generated', span: { start: 0, end: 0 }, instances: [] };
 const REPS = 15;
@@ -64,12 +65,34 @@ function instrument(): void {
   wrap(DcSolver.prototype, 'postSolveFindings', 'checks');
 }
 
+/** `--prepare`: where the prepare time goes (layout, linear solver's symbolic analysis, the rest of DcSolver's constructor). */
+function prepareSplit(): void {
+  const circuit = mirrorArray(1000, 'npn');
+  for (let i = 0; i < 3; i++) new DcSolver(mirrorArray(50, 'npn'));
+  const layout: number[] = [];
+  const symbolic: number[] = [];
+  const whole: number[] = [];
+  for (let r = 0; r < REPS; r++) {
+    let t = now();
+    const l = new MnaLayout(circuit);
+    layout.push(now() - t);
+    t = now();
+    new SparseLU(l.pattern);
+    symbolic.push(now() - t);
+    t = now();
+    new DcSolver(circuit);
+    whole.push(now() - t);
+  }
+  console.log(`\nPrepare split, BJT mirror array (2,000 devices): MnaLayout ${ms(median(layout))}, SparseLU symbolic ${ms(median(symbolic))}, whole DcSolver constructor ${ms(median(whole))} (medians of ${REPS})`);
+}
+
 function main(): void {
   const [l1, l5] = loadavg();
   console.log(`Newton benchmark — ${cpus()[0]?.model ?? 'cpu'} ×${cpus().length}, load ${l1.toFixed(2)} / ${l5.toFixed(2)} (1 / 5 min), node ${process.version}`);
   const split = process.argv.includes('--split');
   if (split) instrument();
-  for (const kind of ['npn', 'nmos'] as const) {
+  const kinds = process.argv.includes('--bjt') ? (['npn'] as const) : (['npn', 'nmos'] as const);
+  for (const kind of kinds) {
     const circuit = mirrorArray(1000, kind);
     // Warm the JIT on a small array first so the first measured run is not the compile.
     for (let i = 0; i < 3; i++) new DcSolver(mirrorArray(50, kind)).solve();
@@ -116,3 +139,4 @@ function main(): void {
 }
 
 main();
+if (process.argv.includes('--prepare')) prepareSplit();

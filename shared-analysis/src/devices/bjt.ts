@@ -106,6 +106,8 @@ export class BjtDevice implements NonlinearDevice {
   private startVbe = Number.NaN;
   private startVbc = Number.NaN;
   private readonly scratch = {} as BjtEvaluation;
+  /** Reused by every load: the Newton loop reads it before the next call. */
+  private readonly report: LoadReport = { limited: false, clipped: false, finite: true };
 
   constructor(readonly element: Bjt, nodes: { c: number; b: number; e: number }, issues: ParamIssue[]) {
     const md = element.model;
@@ -202,7 +204,11 @@ export class BjtDevice implements NonlinearDevice {
     this.stampRow(values, rhs, B, ev.ib, ev.dibDvbe, ev.dibDvbc, vbe, vbc, s);
     this.stampRow(values, rhs, E, ie, dieDvbe, dieDvbc, vbe, vbc, s);
     const finite = Number.isFinite(ev.ic) && Number.isFinite(ev.ib) && Number.isFinite(ev.dicDvbe + ev.dicDvbc + ev.dibDvbe + ev.dibDvbc) && Number.isFinite(ie);
-    return { limited, clipped: ev.clipped, finite };
+    const report = this.report;
+    report.limited = limited;
+    report.clipped = ev.clipped;
+    report.finite = finite;
+    return report;
   }
 
   /** Row `t` of the companion model: conductances to the base-emitter and base-collector controls, and the equivalent current. */

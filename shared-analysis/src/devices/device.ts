@@ -45,7 +45,7 @@ export interface NonlinearDevice {
    * instead of at `x` (and reports itself limited, so that iteration cannot end the run).
    */
   resetState(x: Float64Array, start?: StartHint): void;
-  /** Linearises the device at `x` (limited against its history) and adds its companion stamps. */
+  /** Linearises the device at `x` (limited against its history) and adds its companion stamps. The report may be an object the device reuses on its next call. */
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport;
   /** The operating-point record at `x` (no limiting). */
   record(x: Float64Array): DeviceRecord;

@@ -77,6 +77,8 @@ export class MosfetDevice implements NonlinearDevice {
   /** Gate and channel voltages the next load linearises at (NaN when none is pending). */
   private startVgs = Number.NaN;
   private startVds = Number.NaN;
+  /** Reused by every load: the Newton loop reads it before the next call. */
+  private readonly report: LoadReport = { limited: false, clipped: false, finite: true };
 
   constructor(readonly element: Mosfet, nodes: { d: number; g: number; s: number; b: number }, issues: ParamIssue[]) {
     const md = element.model;
@@ -172,7 +174,10 @@ export class MosfetDevice implements NonlinearDevice {
     addControl(pos, 4, values, D, D, S, this.gmin);
     addControl(pos, 4, values, S, D, S, -this.gmin);
     const finite = Number.isFinite(ev.id) && Number.isFinite(ev.gm) && Number.isFinite(ev.gds) && Number.isFinite(ev.gmbs);
-    return { limited, clipped: false, finite };
+    const report = this.report;
+    report.limited = limited;
+    report.finite = finite;
+    return report;
   }
 
   /** Threshold (own polarity) at body bias vbs. */

@@ -704,8 +704,23 @@ export class DcSolver {
   /** Values so extreme (beyond 10^±150, saturation currents and KP judged against their defaults) that products of them overflow. */
   private outOfRangeFindings(): Finding[] {
     const out: Finding[] = [];
+    // Devices share models: judge each model's parameters once, and look closer only where one is extreme.
+    const modelExtreme = new Map<object, boolean>();
+    const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
+    const far = (value: number, t = 1): boolean =>
+      value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value)) - Math.log10(t)) > OUT_OF_RANGE_DECADES;
     this.circuit.elements.forEach((el, i) => {
       if (this.layout.skipped.has(i)) return;
+      if (el.kind === 'D' || el.kind === 'Q' || el.kind === 'M') {
+        let m = modelExtreme.get(el.model);
+        if (m === undefined) {
+          m = false;
+          for (const name in el.model.params) if (far(el.model.params[name], typical[name])) m = true;
+          modelExtreme.set(el.model, m);
+        }
+        const own = el.kind === 'M' ? far(el.w, 1e-6) || far(el.l, 1e-6) || far(el.m) : far(el.area) || far(el.m);
+        if (!m && !own) return;
+      }
       for (const v of this.valuesOf(el)) {
         if (v.decades <= OUT_OF_RANGE_DECADES) continue;
         const shown = v.value;

@@ -167,7 +167,7 @@ export class NewtonEngine {
     for (const d of layout.devices) d.resetState(x, run.start);
     const linear = layout.devices.length === 0;
     let factored = false;
-    let unsettled: number[] = [];
+    const unsettled: number[] = [];
     const rowScale = this.residualScale;
     const residual = this.residual;
     for (let it = 1; it <= run.maxIterations; it++) {
@@ -196,7 +196,9 @@ export class NewtonEngine {
         if (a > rowScale[rows[e]]) rowScale[rows[e]] = a;
       }
       const { reltol, vntol, abstol } = TOLERANCES;
-      unsettled = [];
+      // Indices are kept only on the last allowed iteration (for the finding); earlier ones just count.
+      const keep = it === run.maxIterations;
+      let unsettledCount = 0;
       for (let k = 0; k < n; k++) {
         const floor = this.isVoltage[k] ? vntol : abstol;
         const d = Math.abs(xNew[k] - x[k]);
@@ -205,11 +207,14 @@ export class NewtonEngine {
         const resFloor = this.isVoltage[k] ? abstol : vntol;
         const r = Math.abs(residual[k] - rhs[k]);
         const settledResidual = r <= reltol * Math.max(rowScale[k], Math.abs(rhs[k])) + resFloor;
-        if (!settledUpdate || !settledResidual) unsettled.push(k);
+        if (!settledUpdate || !settledResidual) {
+          unsettledCount++;
+          if (keep) unsettled.push(k);
+        }
       }
       x.set(xNew);
       this.lastFinite.set(xNew);
-      if (!limited && unsettled.length === 0) return { status: 'converged', iterations: it };
+      if (!limited && unsettledCount === 0) return { status: 'converged', iterations: it };
     }
     return { status: 'iteration-limit', iterations: run.maxIterations, unsettled };
   }

@@ -117,7 +117,8 @@ export function findFloatingGroups(circuit: Circuit, skip: Set<number>, resistan
 export function findVoltageLoops(circuit: Circuit, skip: Set<number>, resistanceOf?: ResistanceOf): VoltageLoop[] {
   const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
-  const adjacency: { to: number; element: number }[][] = Array.from({ length: n }, () => []);
+  // Lists are made only for nodes a voltage-defining branch touches (few, in most circuits).
+  const adjacency: ({ to: number; element: number }[] | undefined)[] = new Array(n);
   const loops: VoltageLoop[] = [];
   circuit.elements.forEach((el, i) => {
     if (skip.has(i) || !isVoltageDefining(el, el.kind === 'R' ? resistanceOf?.(i) : undefined)) return;
@@ -126,14 +127,14 @@ export function findVoltageLoops(circuit: Circuit, skip: Set<number>, resistance
       loops.push({ elements: [...pathBetween(adjacency, a, b), i] });
       return;
     }
-    adjacency[a].push({ to: b, element: i });
-    adjacency[b].push({ to: a, element: i });
+    (adjacency[a] ??= []).push({ to: b, element: i });
+    (adjacency[b] ??= []).push({ to: a, element: i });
   });
   return loops;
 }
 
 /** Elements along the tree path from a to b in a forest (breadth-first). Empty when a === b. */
-function pathBetween(adjacency: { to: number; element: number }[][], a: number, b: number): number[] {
+function pathBetween(adjacency: ({ to: number; element: number }[] | undefined)[], a: number, b: number): number[] {
   if (a === b) return [];
   const via = new Map<number, { from: number; element: number }>();
   via.set(a, { from: -1, element: -1 });
@@ -141,7 +142,7 @@ function pathBetween(adjacency: { to: number; element: number }[][], a: number, 
   for (let q = 0; q < queue.length; q++) {
     const cur = queue[q];
     if (cur === b) break;
-    for (const e of adjacency[cur]) {
+    for (const e of adjacency[cur] ?? []) {
       if (via.has(e.to)) continue;
       via.set(e.to, { from: cur, element: e.element });
       queue.push(e.to);
