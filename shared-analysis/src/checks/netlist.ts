@@ -52,7 +52,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   // Subcircuits.
   'subckt-not-found': { severity: 'error', summary: 'An X instance names a subcircuit that is not defined.' },
   'subckt-port-count': { severity: 'error', summary: 'An X instance connects a different number of nodes than the subcircuit has ports.' },
-  'subckt-unknown-parameter': { severity: 'error', summary: 'An instance override of a parameter the subcircuit does not declare; it is ignored.' },
+  'subckt-unknown-parameter': { severity: 'error', summary: 'An instance override of a parameter not on the .subckt line (a .param inside the body is local and cannot be set per instance); it is ignored.' },
   'subckt-recursive': { severity: 'error', summary: 'A chain of instances that re-enters a subcircuit it is inside; the chain is named.' },
   'subckt-duplicate': { severity: 'error', summary: 'Two subcircuit definitions with the same name in one scope; the first is used.' },
   'subckt-port-duplicate': { severity: 'error', summary: 'A subcircuit lists the same port twice.' },

@@ -55,6 +55,15 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
 const NODE_COUNT: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 };
 
+/** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
+function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
+  for (const { card, uri } of def.body.items) {
+    if (card.kind !== 'param') continue;
+    for (const a of card.params) if (a.name.text.toLowerCase() === key) return { name: a.name, assignment: a, uri };
+  }
+  return undefined;
+}
+
 /** The parameters of a card that gives none, shared so most elements allocate no map. */
 const NO_PARAMS: ReadonlyMap<string, Assignment> = new Map();
 
@@ -629,13 +638,22 @@ class Elaborator {
       const key = a.name.text.toLowerCase();
       if (!declared.has(key)) {
         const names = [...declared.values()].map((d) => d.name.text);
+        // A `.param` in the body is local to the definition, not part of its interface: only the
+        // parameters on the `.subckt` line can be set per instance, so internal values derived
+        // from them cannot be changed from outside by accident. The message says how to expose one.
+        const local = bodyParam(def, key);
+        const declaredText = names.length > 0 ? ` (it declares ${names.join(', ')})` : ' (it declares none)';
         this.sink.add(
           'subckt-unknown-parameter',
-          `Subcircuit \`${def.card.name.text}\` declares no parameter \`${a.name.text}\`${names.length > 0 ? ` (it declares ${names.join(', ')})` : ' (it declares none)'}; the override is ignored.`,
+          local
+            ? `\`${a.name.text}\` is set by a .param inside subcircuit \`${def.card.name.text}\`, which is local to it; an instance sets only the parameters on the .subckt line${declaredText}. The override is ignored; move \`${local.name.text}\` onto the .subckt line to make it settable.`
+            : `Subcircuit \`${def.card.name.text}\` declares no parameter \`${a.name.text}\`${declaredText}; the override is ignored.`,
           uri,
           a.name.span,
-          [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
-          { parameter: a.name.text, declared: names },
+          local
+            ? [{ uri: local.uri, span: local.assignment.span, message: `\`${local.name.text}\` is defined inside the subcircuit here.` }]
+            : [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
+          { parameter: a.name.text, declared: names, ...(local ? { localParameter: local.name.text } : {}) },
         );
         continue;
       }

@@ -493,6 +493,25 @@ describe('subcircuits', () => {
     );
   });
 
+  // Decision (documented in the code table): parameters on the .subckt line are a definition's
+  // interface; a .param inside the body is local, so an instance cannot set it (common practice, from memory).
+  it('refuses an instance override of a body .param and says how to make it settable', () => {
+    check(`local param\n.subckt load a gain=2\n.param r={gain*1k}\nR1 a 0 {r}\n.ends\nV1 x 0 5\nX1 x load r=500\n`, {
+      findings: [
+        {
+          code: 'subckt-unknown-parameter',
+          at: { in: 'X1 x load r=500', text: 'r' },
+          message: /^`r` is set by a \.param inside subcircuit `load`, which is local to it; an instance sets only the parameters on the \.subckt line \(it declares gain\)\. The override is ignored; move `r` onto the \.subckt line to make it settable\.$/,
+        },
+      ],
+      elements: { 'X1.R1': { value: 2000 } },
+      also: (r) => {
+        const f = r.findings[0]!;
+        expect(f.related?.[0]?.span).toEqual(locate(r.documents[ROOT]!.text, 'r={gain*1k}'));
+      },
+    });
+  });
+
   it('applies defaults, overrides evaluated in the caller, body parameters and outer parameters', () => {
     check(
       `params\n.param unit=1k\n.subckt load a gain=2 PARAMS: off=0\n.param r={gain*unit+off}\nR1 a 0 {r}\n.ends\nV1 x 0 5\nX1 x load\nX2 x load gain=5\nX3 x load gain={unit/100} off=7\nX4 x load gian=3\n`,
