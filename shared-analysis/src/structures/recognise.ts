@@ -292,9 +292,9 @@ class Recogniser {
     if (x1 === a) return undefined;
     const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === x1, [d], this.onCtrl(a));
     const own = new Set<Element>([d.element, ...twins.map((t) => t.element)]);
-    const atts = this.topo.conducting(x1).filter((x) => !own.has(x.element));
-    if (atts.length !== 1 || atts[0].element.kind !== 'R') return undefined;
-    const r1 = atts[0].element;
+    const sole = this.topo.soleOther(x1, (el) => own.has(el));
+    if (!sole || sole.element.kind !== 'R') return undefined;
+    const r1 = sole.element;
     if (!(Number.isFinite(r1.resistance) && r1.resistance > 0)) return undefined;
     const e = r1.nodes[0] === x1 ? r1.nodes[1] : r1.nodes[0];
     if (e === x1 || e === a) return undefined;
@@ -324,9 +324,9 @@ class Recogniser {
 
   /** The resistor from `o`'s emitter to node `e`, when the emitter node carries only that resistor and `o`. */
   private degeneration(o: Transistor, e: number): Resistor | undefined {
-    const atts = this.topo.conducting(o.common).filter((x) => x.element !== o.element);
-    if (atts.length !== 1) return undefined;
-    const el = atts[0].element;
+    const sole = this.topo.soleOther(o.common, (el) => el === o.element);
+    if (!sole) return undefined;
+    const el = sole.element;
     if (el.kind !== 'R') return undefined;
     const other = el.nodes[0] === o.common ? el.nodes[1] : el.nodes[0];
     return other === e && Number.isFinite(el.resistance) && el.resistance > 0 ? el : undefined;

@@ -79,6 +79,8 @@ export class Topology {
   readonly byCtrl = new Map<number, Transistor[]>();
   readonly byCommon = new Map<number, Transistor[]>();
   private readonly attached = new Map<number, Attachment[]>();
+  /** `conducting` results by node; callers must not mutate the returned lists. */
+  private readonly conductingCache = new Map<number, Attachment[]>();
   readonly nodeIndex = new Map<string, number>();
   readonly elementByName = new Map<string, Element>();
 
@@ -109,11 +111,29 @@ export class Topology {
     return this.attached.get(node) ?? [];
   }
 
-  /** The DC-relevant connections of a node: capacitors (open at DC) and MOS gates/bulks (no DC current) left out. */
+  /** The DC-relevant connections of a node: capacitors (open at DC) and MOS gates/bulks (no DC current) left out. Shared list: do not mutate. */
   conducting(node: number): Attachment[] {
-    return this.at(node).filter(
-      (a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)),
-    );
+    let list = this.conductingCache.get(node);
+    if (!list) {
+      list = this.at(node).filter((a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)));
+      this.conductingCache.set(node, list);
+    }
+    return list;
+  }
+
+  /**
+   * The one DC-relevant connection of `node` besides the elements in `except`, or undefined when
+   * there are none or several. Stops at the second one, so asking about a rail with thousands of
+   * connections costs no more than asking about a two-element node.
+   */
+  soleOther(node: number, except: (e: Element) => boolean): Attachment | undefined {
+    let found: Attachment | undefined;
+    for (const a of this.conducting(node)) {
+      if (except(a.element)) continue;
+      if (found) return undefined;
+      found = a;
+    }
+    return found;
   }
 
   nodeName(i: number): string {
