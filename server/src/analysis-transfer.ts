@@ -26,9 +26,19 @@ export type AnalysisPart =
 
 /** The analysis with its big arrays emptied, and the parts that refill them in order. */
 export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: AnalysisPart[] } {
-  const parts: AnalysisPart[] = [];
+  const { header, parts } = splitAnalysisLazily(analysis);
+  return { header, parts: parts.map((make) => make()) };
+}
+
+/**
+ * `splitAnalysis` with each part built only when asked for: a sender that posts part i and then
+ * drops its builder holds one part's JSON text at a time instead of the whole analysis's. The
+ * builders read `analysis`, which must not change until the last part is built.
+ */
+export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; parts: (() => AnalysisPart)[] } {
+  const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart) => {
-    for (let i = 0; i < list.length; i += PART_SIZE) parts.push(make(list.slice(i, i + PART_SIZE)));
+    for (let i = 0; i < list.length; i += PART_SIZE) parts.push(() => make(list.slice(i, i + PART_SIZE)));
   };
   const documents: Analysis['documents'] = {};
   for (const [uri, doc] of Object.entries(analysis.documents)) {
@@ -45,6 +55,7 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
   let operatingPoint = analysis.operatingPoint;
   if (operatingPoint) {
     slices(Object.entries(operatingPoint.devices), (items) => ({ kind: 'devices', items }));
+    // The header's copy must not share the emptied map with the analysis the builders read.
     operatingPoint = { ...operatingPoint, devices: {} };
   }
   slices(analysis.findings, (items) => ({ kind: 'findings', items }));

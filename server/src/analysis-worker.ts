@@ -11,14 +11,14 @@ import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
 import { FileWorkspace } from './file-workspace';
-import { splitAnalysis, type AnalysisPart } from './analysis-transfer';
+import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import type { FromWorker, ToWorker } from './worker-messages';
 
 const workspace = new FileWorkspace();
 const openTexts = new Map<string, string>();
-/** The parts of the last analysis still being taken in by the main thread, by request id. */
-let outgoing: { id: number; parts: AnalysisPart[] } | undefined;
+/** The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once sent). */
+let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[] } | undefined;
 
 /** What the worker keeps of a root's last analysis to answer sweeps and sizing without re-solving. */
 interface Kept {
@@ -84,10 +84,11 @@ function handle(msg: ToWorker): void {
         lastAnalysis.set(msg.uri, {
           analysis: { ...analysis, documents: needsCards ? analysis.documents : textDocuments(texts) },
           texts,
-          solver: session.solver,
+          // The prepared solver is large for big circuits; keep it only when a finding will ask for sizing (the refactor builds its own).
+          solver: needsCards ? session.solver : undefined,
           sizingCache: new Map(),
         });
-        const { header, parts } = splitAnalysis(analysis);
+        const { header, parts } = splitAnalysisLazily(analysis);
         outgoing = { id: msg.id, parts };
         post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, ms: performance.now() - t0 });
       } catch (e) {
@@ -96,13 +97,14 @@ function handle(msg: ToWorker): void {
       return;
     }
     case 'next-part': {
-      const part = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[msg.index] : undefined;
-      if (!part) {
+      const build = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[msg.index] : undefined;
+      if (!build) {
         post({ type: 'failed', id: msg.id, message: `Part ${msg.index} of analysis ${msg.analysisId} is no longer available.` });
         return;
       }
+      outgoing!.parts[msg.index] = undefined;
       if (msg.index === outgoing!.parts.length - 1) outgoing = undefined;
-      post({ type: 'part', id: msg.id, index: msg.index, part });
+      post({ type: 'part', id: msg.id, index: msg.index, part: build() });
       return;
     }
     case 'sweep': {

@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { TextDocument } from 'vscode-languageserver-textdocument';
-import { CodeActionRequest, ExecuteCommandRequest, type CodeAction, type Diagnostic } from 'vscode-languageserver-protocol/node';
+import { CodeActionRequest, ExecuteCommandRequest, type CodeAction, type Diagnostic, type TextEdit } from 'vscode-languageserver-protocol/node';
 import { startServer, type ServerSession } from './lsp-client';
 
 let server: ServerSession;
@@ -41,7 +41,7 @@ describe('resistor-sizing quick fixes on demand', () => {
     const best = fixes.find((a) => a.isPreferred);
     expect(best, JSON.stringify(fixes.map((a) => a.title))).toBeDefined();
     expect(best!.title).toMatch(/^Set R1 to /);
-    const edits = best!.edit!.changes?.[uri] ?? best!.edit!.documentChanges?.flatMap((c) => ('edits' in c ? c.edits : [])) ?? [];
+    const edits: TextEdit[] = best!.edit!.changes?.[uri] ?? best!.edit!.documentChanges?.flatMap((c) => ('edits' in c ? (c.edits as TextEdit[]) : [])) ?? [];
     expect(edits.length).toBe(1);
     text = TextDocument.applyEdits(TextDocument.create(uri, 'netlist', 1, text), edits);
     server.change(uri, 2, edits.map((e) => ({ range: e.range, text: e.newText })));
