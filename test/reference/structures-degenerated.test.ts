@@ -200,3 +200,12 @@ describe('output resistance of a degenerated output', () => {
     });
   }
 });
+
+describe('the 0.7 V shortcut of a degenerated reference', () => {
+  it('(V+ − V− − 0.7 V)/(R + R1), within about 5 % of the solved IREF at 9 V', () => {
+    // Source: VBE ≈ 0.7 V (common practice; Horowitz and Hill, 3rd ed., ch. 2), the feed and R1 then in series.
+    const s = solvedMirror(fixture('degenerated-mirror', 'npn', { supply: 9, rRef: 4.3e3, r1: 1e3, r2: 1e3 }).circuit);
+    check(s.estimate!.irefShortcut!, (9 - 0.7) / (4.3e3 + 1e3), 1e-12);
+    check(s.estimate!.irefShortcut!, s.solved!.iref, 0.05);
+  });
+});

@@ -323,7 +323,18 @@ class HandAnalysis {
         value: iref,
         unit: 'A',
       });
-      if (this.bipolar && ohms > 0 && this.s.kind !== 'degenerated-mirror') {
+      if (this.bipolar && ohms > 0 && this.s.kind === 'degenerated-mirror') {
+        // The reference's emitter resistor is in series with the feed once VBE is fixed at 0.7 V (base current neglected).
+        const re = this.s.reference.degeneration?.ohms ?? 0;
+        irefShortcut = Math.max((available - SHORTCUT_VBE) / (ohms + re), 0);
+        steps.push({
+          quantity: 'IREF (0.7 V shortcut)',
+          formula: `(V+ − V− − 0.7 V)/(R + ${r1}), base current neglected (common practice)`,
+          substituted: `(${hi} − 0.7 V)/(${rText} + ${eng(re, 'Ω')})`,
+          value: irefShortcut,
+          unit: 'A',
+        });
+      } else if (this.bipolar && ohms > 0) {
         irefShortcut = Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
         steps.push({
           quantity: 'IREF (0.7 V shortcut)',
@@ -609,7 +620,7 @@ class HandAnalysis {
             substituted: `${sig(x.p.nfVt, 4)} V × ln(${sig(x.o.ratio * (wEarly[x.o.device] ?? 1), 5)} × ${eng(ic1, 'A')}/IOUT) = IOUT × ${sig((x.p.beta + 1) / x.p.beta, 4)} × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
             value: i,
             unit: 'A',
-            devices: [x.o.device],
+            devices: [x.o.device, x.o.degeneration!.resistor],
           }));
         }
         return { stack: vbe1, vControl: vbe1, iRef: ic1, iout, edge, steps };
@@ -641,7 +652,7 @@ class HandAnalysis {
           substituted: `sqrt(2 × ${eng(iref, 'A')}/${eng(ref.kBeta, 'A/V²')}) = sqrt(2·IOUT/${eng(x.p.kBeta, 'A/V²')}) + IOUT × ${eng(x.o.degeneration!.ohms, 'Ω')}`,
           value: i,
           unit: 'A',
-          devices: [x.o.device],
+          devices: [x.o.device, x.o.degeneration!.resistor],
         }));
       }
       return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge, steps };
