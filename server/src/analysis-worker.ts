@@ -5,8 +5,9 @@ import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { sizingFixes } from '../../shared-analysis/src/fixes/index';
-import { analyseSession } from '../../shared-analysis/src/service';
-import type { DcSolver } from '../../shared-analysis/src/solve/dc';
+import { addCorners, analyseSession } from '../../shared-analysis/src/service';
+import type { DcSolver, DcSolveResult } from '../../shared-analysis/src/solve/dc';
+import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
@@ -26,6 +27,8 @@ interface Kept {
   analysis: Analysis;
   texts: Map<string, string>;
   solver?: DcSolver;
+  /** The converged nominal solution, kept only until the corner phase has run. */
+  nominal?: DcSolveResult;
   /** Sizing results shared by the fixes of this analysis (a finding asked twice is sized once). */
   sizingCache: Map<string, SizingResult>;
 }
@@ -77,7 +80,11 @@ function handle(msg: ToWorker): void {
         // Free the previous analysis of this root before building the next (peak memory holds one, not two).
         lastAnalysis.delete(msg.uri);
         outgoing = undefined;
-        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace, msg.options);
+        const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace, options);
+        // The corner phase needs the requested corner settings back, with corners on.
+        if (msg.cornersLater) session.analysis.options = { ...session.analysis.options, corners: { ...session.analysis.options.corners, ...(msg.options.corners ?? {}), enabled: true } };
+        const cornersNext = msg.cornersLater === true && session.nominal !== undefined && session.analysis.structures.length > 0;
         const analysis = session.analysis;
         const texts = new Map(Object.entries(analysis.documents).map(([u, d]) => [u, d.text] as [string, string]));
         const needsCards = analysis.findings.some((f) => f.data?.['sizing'] !== undefined);
@@ -85,7 +92,8 @@ function handle(msg: ToWorker): void {
           analysis: { ...analysis, documents: needsCards ? analysis.documents : textDocuments(texts) },
           texts,
           // The prepared solver is large for big circuits; keep it only when a finding will ask for sizing (the refactor builds its own).
-          solver: needsCards ? session.solver : undefined,
+          solver: needsCards || cornersNext ? session.solver : undefined,
+          nominal: cornersNext ? session.nominal : undefined,
           sizingCache: new Map(),
         });
         const { header, parts } = splitAnalysisLazily(analysis);
@@ -137,6 +145,20 @@ function handle(msg: ToWorker): void {
       } catch (e) {
         post({ type: 'failed', id: msg.id, message: `Sizing stopped with an internal error: ${errorText(e)}` });
       }
+      return;
+    }
+    case 'corners': {
+      const kept = lastAnalysis.get(msg.uri);
+      if (!kept || kept.analysis.version !== msg.version || !kept.solver || !kept.nominal) {
+        post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
+        return;
+      }
+      const findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal });
+      kept.nominal = undefined;
+      if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
+      const corners: Record<string, Structure['corners']> = {};
+      for (const st of kept.analysis.structures) corners[st.id] = st.corners;
+      post({ type: 'cornered', id: msg.id, findings, corners });
       return;
     }
     case 'sizing-fixes': {

@@ -268,10 +268,15 @@ async function pump(): Promise<void> {
     }, PROGRESS_AFTER_MS);
   }
   try {
-    const { analysis, ms, transferMs } = await host.analyse(uri, job.version, settings.options);
+    // Corners cost many solves: publish the nominal findings first, the corner findings after.
+    const cornersLater = settings.options.corners?.enabled !== false;
+    const { analysis, ms, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
-    if (current && current.version === analysis.version) accept(uri, analysis, ms);
+    if (current && current.version === analysis.version) {
+      accept(uri, analysis, ms);
+      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await cornerPhase(uri, analysis);
+    }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {
     if (!(e instanceof WorkerRestartedError) || !job.superseded) {
@@ -285,6 +290,22 @@ async function pump(): Promise<void> {
     running = undefined;
     void pump();
   }
+}
+
+/** Solves the corners of a just-accepted analysis in the worker and adds their findings and results to it, then re-publishes. */
+async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
+  const t0 = Date.now();
+  const r = await host.corners(uri, analysis.version ?? 0);
+  if (r.stale || cache.get(uri)?.analysis !== analysis) return;
+  for (const s of analysis.structures) {
+    const c = r.corners[s.id];
+    if (c) s.corners = c;
+  }
+  // Appended, so the indices of published diagnostics stay valid.
+  analysis.findings.push(...r.findings);
+  log(`Solved the corners of ${basename(uri)} in ${Date.now() - t0} ms: ${r.findings.length} finding${r.findings.length === 1 ? '' : 's'}.`);
+  publish(new Set([uri, ...Object.keys(analysis.documents)]), uri);
+  if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
 
 function accept(uri: string, analysis: Analysis, ms: number): void {

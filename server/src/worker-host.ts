@@ -6,6 +6,7 @@ import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-ind
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import { mergePart } from './analysis-transfer';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
+import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 
 /** Options for {@link WorkerHost}. */
@@ -136,8 +137,8 @@ export class WorkerHost {
    * after the previous one was merged and the event loop had a turn, so editor requests are
    * answered between parts instead of waiting for one long deserialisation.
    */
-  async analyse(uri: string, version: number, options: AnalysisOptions): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
-    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options }), `The analysis of ${uri}`);
+  async analyse(uri: string, version: number, options: AnalysisOptions, phases: { cornersLater?: boolean } = {}): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
+    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater }), `The analysis of ${uri}`);
     if (msg.type !== 'analysed') throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
     const t0 = Date.now();
     const analysis = msg.analysis;
@@ -182,6 +183,13 @@ export class WorkerHost {
   async sizingFixes(uri: string, version: number | undefined, findings: Finding[]): Promise<{ fixes: Fix[][]; stale: boolean }> {
     const msg = await this.request((id) => ({ type: 'sizing-fixes', id, uri, version, findings }), `Sizing the fixes of ${uri}`);
     if (msg.type === 'sizing-fixed') return { fixes: msg.fixes, stale: msg.stale === true };
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+  }
+
+  /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings and each structure's corners by id. */
+  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, Structure['corners']>; stale: boolean }> {
+    const msg = await this.request((id) => ({ type: 'corners', id, uri, version }), `The corners of ${uri}`);
+    if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, stale: msg.stale === true };
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 

@@ -5,6 +5,7 @@ import type { AnalysisPart } from './analysis-transfer';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
+import type { Structure } from '../../shared-analysis/src/structures/types';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
 export interface SizingCandidateData {
@@ -33,7 +34,10 @@ export type ToWorker =
   | { type: 'set-document'; uri: string; text: string | undefined }
   /** Files changed on disk: forget what was read of them (`uris` absent: of every file). */
   | { type: 'files-changed'; uris?: string[] }
-  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions }
+  /** `cornersLater`: analyse without corners and keep what the `corners` request needs to solve them next. */
+  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean }
+  /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */
+  | { type: 'corners'; id: number; uri: string; version: number }
   /** Send part `index` of the analysis answered to request `analysisId`. */
   | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
@@ -50,4 +54,6 @@ export type FromWorker =
   | { type: 'sized'; id: number; result: SizingData | { error: string } }
   /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
+  /** The corner phase's findings and each structure's corner results by structure id; `stale` when the worker holds another version. */
+  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, Structure['corners']>; stale?: boolean }
   | { type: 'failed'; id: number; message: string };

@@ -6,7 +6,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { TextDocument } from 'vscode-languageserver-textdocument';
-import { CodeActionRequest, ExecuteCommandRequest, type CodeAction, type Diagnostic, type TextEdit } from 'vscode-languageserver-protocol/node';
+import { CodeActionRequest, ExecuteCommandRequest, HoverRequest, type CodeAction, type Diagnostic, type Hover, type MarkupContent, type TextEdit } from 'vscode-languageserver-protocol/node';
 import { startServer, type ServerSession } from './lsp-client';
 
 let server: ServerSession;
@@ -88,5 +88,33 @@ describe('the re-analyse command', () => {
     await expect(server.connection.sendRequest(ExecuteCommandRequest.type, { command: 'qpoint.sizeResistorForCurrent', arguments: [] })).rejects.toThrow(/has no command/);
     await expect(server.connection.sendRequest(ExecuteCommandRequest.type, {} as never)).rejects.toThrow(/has no command/);
     expect(server.child.exitCode).toBeNull();
+  });
+});
+
+describe('corners as a second phase', () => {
+  it('publishes the nominal findings, then adds the corner results to hovers and diagnostics', async () => {
+    const s = await startServer({ settings: { analysisDelayMs: 0 } });
+    try {
+      const uri = pathToFileURL(join(dir, 'corners.cir')).href;
+      // A simple mirror (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4): IC2 ≈ (5 − 0.7)/4.3k ≈ 1 mA, so VCE2 ≈ 0.8 V — active at nominal,
+      // near the edge, so the corner spread of its output current is worth showing. The spread only comes from the second phase.
+      const text = 'Mirror near saturation\nVCC vcc 0 DC 5\nR1 vcc b 4.3k\nQ1 b b 0 qn\nQ2 out b 0 qn\nRL vcc out 4.3k\n.model qn npn (IS=1e-16 BF=100)\n.end\n';
+      s.open(uri, text, 1);
+      await s.waitFor('first diagnostics', () => s.diagnostics.get(uri));
+      const hoverText = async () => {
+        const h = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: { line: 4, character: 1 } })) as Hover | null;
+        return (h?.contents as MarkupContent | undefined)?.value ?? '';
+      };
+      let md = '';
+      const until = Date.now() + 20000;
+      while (!/Across \d+ corners/.test(md) && Date.now() < until) {
+        md = await hoverText();
+        await new Promise((r) => setTimeout(r, 20));
+      }
+      expect(md).toMatch(/Across \d+ corners/);
+      expect(s.child.exitCode).toBeNull();
+    } finally {
+      expect(await s.stop()).toBe(0);
+    }
   });
 });
