@@ -295,7 +295,14 @@ async function pump(): Promise<void> {
 /** Solves the corners of a just-accepted analysis in the worker and adds their findings and results to it, then re-publishes. */
 async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   const t0 = Date.now();
-  const r = await host.corners(uri, analysis.version ?? 0);
+  let r: Awaited<ReturnType<WorkerHost['corners']>>;
+  try {
+    r = await host.corners(uri, analysis.version ?? 0);
+  } catch (e) {
+    // The nominal diagnostics stay published; only the corner additions are lost.
+    log(`The corner phase of ${basename(uri)} did not finish: ${e instanceof Error ? e.message : String(e)}`);
+    return;
+  }
   if (r.stale || cache.get(uri)?.analysis !== analysis) return;
   for (const s of analysis.structures) {
     const c = r.corners[s.id];
