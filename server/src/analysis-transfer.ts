@@ -31,9 +31,10 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
 }
 
 /**
- * `splitAnalysis` with each part built only when asked for: a sender that posts part i and then
- * drops its builder holds one part's JSON text at a time instead of the whole analysis's. The
- * builders read `analysis`, which must not change until the last part is built.
+ * `splitAnalysis` with the parts of elements, devices, findings and structures built only when
+ * asked for (the sender keeps those objects anyway), and the cards encoded at once (their JSON is
+ * smaller than the parsed cards, which the sender need not keep). The builders read `analysis`,
+ * which must not change until the last part is built.
  */
 export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; parts: (() => AnalysisPart)[] } {
   const parts: (() => AnalysisPart)[] = [];
@@ -43,7 +44,11 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
   const documents: Analysis['documents'] = {};
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
-    slices(doc.cards, (items) => ({ kind: 'cards', uri, json: JSON.stringify(items.map(encodeCard)) }));
+    // Cards are encoded now, not on request: their JSON text is far smaller than the card objects, which the sender can then drop.
+    for (let i = 0; i < doc.cards.length; i += PART_SIZE) {
+      const part: AnalysisPart = { kind: 'cards', uri, json: JSON.stringify(doc.cards.slice(i, i + PART_SIZE).map(encodeCard)) };
+      parts.push(() => part);
+    }
   }
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
