@@ -96,6 +96,8 @@ class HandAnalysis {
   private readonly params = new Map<string, DeviceParams>();
   /** The common rail's potential, looked up once (the IREF solve asks for it at every trial current). */
   private common: { v: number | undefined } | null = null;
+  /** Degenerated outputs: the last solved collector current, the Newton start of the next trial IREF. */
+  private readonly lastOut = new Map<string, number>();
   /** Σ ratios of a simple mirror without degenerated outputs (null for every other structure), for `stackAt`. */
   private simpleSum: number | null | undefined;
 
@@ -869,9 +871,10 @@ class HandAnalysis {
           // Early effect of the output at its own VCE (emitter lifted by IE2·R2) against the reference's VCE = VBE1.
           const vce = this.outputVds(x.p.t, prev * k2 * r2);
           early[x.o.device] = vce !== undefined ? Math.max(earlyFactor(vce, vbe1, x.p.va), 1e-3) : 1;
-          iout[x.o.device] = degeneratedOutput({ v: vTop, isEff: x.p.isEff * early[x.o.device], nVt: x.p.nfVt, r: r2, k: k2 });
+          iout[x.o.device] = degeneratedOutput({ v: vTop, isEff: x.p.isEff * early[x.o.device], nVt: x.p.nfVt, r: r2, k: k2, guess: iout[x.o.device] ?? this.lastOut.get(x.o.device) });
           ib += iout[x.o.device] / x.p.beta;
         }
+        for (const x of outs) this.lastOut.set(x.o.device, iout[x.o.device]);
         const next = Math.max(iref - ib, 0) / k1;
         const done = Math.abs(next - ic1) <= 1e-13 * Math.max(iref, 1e-30);
         ic1 = next;

@@ -106,6 +106,8 @@ export function widlarOutput(p: { iin: number; r2: number; nVt: number; m?: numb
   let i = Math.min(target, p.nVt / (k * p.r2));
   for (let n = 0; n < 200; n++) {
     const gi = g(i);
+    // An exact root would otherwise sit on the bracket end and be taken for a step outside it.
+    if (gi === 0) return i;
     if (gi > 0) lo = i;
     else hi = i;
     if (hi - lo <= 1e-15 * hi) break;
@@ -194,35 +196,32 @@ export function degeneratedRo(ro: number, gm: number, r2: number, rpi: number): 
 /**
  * Collector current of a degenerated output: solves NF·VT·ln(IC/IS + 1) + IC·k·R = V for IC ≥ 0,
  * where V is the base potential above the common node, R the emitter resistor and k = (β + 1)/β
- * turns IC into the emitter current through R (1 neglects the base current). The left side rises
- * monotonically with IC, so a safeguarded Newton step on the bracket [0, V/(k·R)] always converges.
+ * turns IC into the emitter current through R (1 neglects the base current). Newton on ln(IC), started
+ * at or below the smaller one-term solution.
  * Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 (current mirror with emitter degeneration):
- * VBE1 + IE1·R1 = VBE2 + IE2·R2 with the junction law of ch. 1.
+ * VBE1 + IE1·R1 = VBE2 + IE2·R2 with the junction law of ch. 1. `guess` (optional) starts Newton
+ * there instead of at the 0.6 V estimate.
  */
-export function degeneratedOutput(p: { v: number; isEff: number; nVt: number; r: number; k?: number }): number {
+export function degeneratedOutput(p: { v: number; isEff: number; nVt: number; r: number; k?: number; guess?: number }): number {
   const k = p.k ?? 1;
   if (!(p.v > 0) || !(p.isEff > 0) || !(p.nVt > 0)) return 0;
-  const g = (i: number) => p.nVt * Math.log(i / p.isEff + 1) + i * k * p.r - p.v;
   if (!(p.r > 0)) return p.isEff * Math.expm1(p.v / p.nVt);
-  let lo = 0;
-  let hi = p.v / (k * p.r);
-  // Start where the junction takes about 0.6 V of the drop (common practice), inside the bracket.
-  let i = Math.min(Math.max((p.v - 0.6) / (k * p.r), hi * 1e-6), hi);
-  for (let n = 0; n < 200; n++) {
-    const gi = g(i);
-    if (gi > 0) hi = i;
-    else lo = i;
-    if (hi - lo <= 1e-15 * hi) break;
-    const dg = p.nVt / (i + p.isEff) + k * p.r;
-    let next = i - gi / dg;
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    if (Math.abs(next - i) <= 1e-14 * i) {
-      i = next;
-      break;
-    }
-    i = next;
+  // The root lies below both one-term solutions (junction alone, resistor alone). On u = ln(IC) the left
+  // side is convex and rising, so Newton from above descends monotonically onto the root.
+  const top = Math.min(p.isEff * Math.expm1(p.v / p.nVt), p.v / (k * p.r));
+  if (!(top > 0)) return 0;
+  const uTop = Math.log(top);
+  let u = p.guess !== undefined && p.guess > 0 && p.guess < top ? Math.log(p.guess) : uTop;
+  for (let n = 0; n < 100; n++) {
+    const i = Math.exp(u);
+    const g = p.nVt * Math.log1p(i / p.isEff) + i * k * p.r - p.v;
+    const slope = i * (p.nVt / (i + p.isEff) + k * p.r);
+    if (!(slope > 0)) break;
+    const step = g / slope;
+    u = Math.min(u - step, uTop);
+    if (Math.abs(step) <= 1e-14 * Math.max(1, Math.abs(u))) break;
   }
-  return i;
+  return Math.exp(u);
 }
 
 /**
