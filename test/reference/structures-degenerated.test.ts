@@ -65,6 +65,17 @@ describe('degenerated-mirror equation (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4
     expect(Math.abs(vt * Math.log(i / 1e-15 + 1) + i * 1.01 * 1e3 - 1.4)).toBeLessThan(1e-12);
   });
 
+  it('the extremes: a few nanovolts (junction alone, linear) and 20 V (resistor takes nearly all)', () => {
+    // Source: ln(1 + x) ≈ x for small x (series expansion), so IC ≈ IS·V/(NF·VT) when V ≪ VT; for V ≫ VBE,
+    // IC = (V − VBE)/(k·R) with VBE from the junction law (Gray et al., ch. 1).
+    const vt = thermalVolts(27);
+    const tiny = degeneratedOutput({ v: 3e-8, isEff: 1e-15, nVt: vt, r: 1e3, k: 1.01 });
+    check(tiny, (1e-15 * 3e-8) / vt, 1e-5);
+    const big = degeneratedOutput({ v: 20, isEff: 1e-15, nVt: vt, r: 1e3, k: 1.01 });
+    check(big, (20 - vt * Math.log(big / 1e-15)) / (1.01 * 1e3), 1e-12);
+    expect(big).toBeLessThan(20 / 1.01e3);
+  });
+
   it('degenerate inputs give a finite current: no drop, zero resistance, zero IS', () => {
     // Source: (common practice) a solver helper returns a finite value for every input; V ≤ 0 gives no current.
     const vt = thermalVolts(27);
