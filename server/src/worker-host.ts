@@ -4,6 +4,7 @@ import { Worker } from 'node:worker_threads';
 import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
+import { indexBuilder } from '../../shared-analysis/src/features/document-index';
 import { mergePart } from './analysis-transfer';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
@@ -149,6 +150,7 @@ export class WorkerHost {
       p.catch(() => undefined);
       return p;
     };
+    const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
     const inFlight: Promise<FromWorker>[] = [];
     let asked = 0;
     while (asked < Math.min(PARTS_IN_FLIGHT, msg.parts)) inFlight.push(ask(asked++));
@@ -156,10 +158,14 @@ export class WorkerHost {
       const part = await inFlight.shift()!;
       if (asked < msg.parts) inFlight.push(ask(asked++));
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
+      const before = analysis.circuit?.elements.length ?? 0;
       mergePart(analysis, part.part);
+      // Index the elements as they arrive, so the first request after the merge finds the tables built.
+      if (elementIndex && part.part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));
     }
+    elementIndex?.finish(analysis);
     return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
 

@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { mergePart, splitAnalysis } from '../../server/src/analysis-transfer';
 import { analyse } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { indexBuilder, indexOf } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 
 /** The one helper: split, pass every message through a structured clone (as postMessage does), merge, compare. */
@@ -12,8 +13,17 @@ function check(text: string, hoverAtText: string[]): void {
   const original = analyse({ uri: '/t/main.cir', text, version: 3 }, ws, { corners: { enabled: false } });
   const { header, parts } = splitAnalysis(original);
   const copy = structuredClone(header);
-  for (const p of parts) mergePart(copy, structuredClone(p));
+  const builder = indexBuilder(copy.circuit!);
+  for (const p of parts) {
+    const before = copy.circuit!.elements.length;
+    mergePart(copy, structuredClone(p));
+    if (p.kind === 'elements') builder.add(copy.circuit!.elements, before);
+  }
+  builder.finish(copy);
   expect(copy).toEqual(original);
+  // The tables built part by part are the ones built in one go.
+  expect(indexOf(copy)).toEqual(indexOf(original));
+  expect(indexOf(copy).elementByName.get('q2')).toBe(copy.circuit!.elements.find((e) => e.name === 'Q2'));
   // Models are shared objects again, as the elaborator made them.
   for (const e of copy.circuit!.elements) if ('model' in e) expect(Object.values(copy.circuit!.models)).toContain(e.model);
   for (const needle of hoverAtText) {

@@ -56,6 +56,39 @@ export function indexOf(analysis: Analysis): AnalysisIndex {
   return idx;
 }
 
+/**
+ * Builds the lookup tables of `indexOf` a slice of elements at a time, for a host that takes an
+ * analysis in parts and wants no long pause when the first request arrives. `add` takes the
+ * circuit's elements from index `from` on; `finish` registers the tables for `analysis`, whose
+ * circuit must by then hold every element added and no others.
+ */
+export function indexBuilder(circuit: Circuit): { add(elements: readonly Element[], from: number): void; finish(analysis: Analysis): void } {
+  const elementsByCard = new Map<string, Element[]>();
+  const nodeByName = new Map<string, number>();
+  const elementByName = new Map<string, Element>();
+  const connections: { element: Element; terminal: number }[][] = [];
+  circuit.nodes.forEach((n, i) => {
+    nodeByName.set(n.toLowerCase(), i);
+    connections.push([]);
+  });
+  return {
+    add(elements, from) {
+      for (let i = from; i < elements.length; i++) {
+        const el = elements[i]!;
+        const key = cardKey(el.origin.uri, el.origin.span.start);
+        let list = elementsByCard.get(key);
+        if (!list) elementsByCard.set(key, (list = []));
+        list.push(el);
+        elementByName.set(el.name.toLowerCase(), el);
+        el.nodes.forEach((n, t) => connections[n]?.push({ element: el, terminal: t }));
+      }
+    },
+    finish(analysis) {
+      if (analysis.circuit === circuit && !analysisIndexes.has(analysis)) analysisIndexes.set(analysis, { elementsByCard, nodeByName, connections, elementByName });
+    },
+  };
+}
+
 /** Key of a card for {@link AnalysisIndex.elementsByCard}. */
 export function cardKey(uri: string, start: number): string {
   return `${uri}#${start}`;
