@@ -2,7 +2,7 @@
 
 import * as fs from 'node:fs';
 import * as path from 'node:path';
-import { analyse } from '../../shared-analysis/src/service';
+import { analyseSession, attachAllSizingFixes } from '../../shared-analysis/src/service';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
@@ -169,7 +169,10 @@ function analyseFiles(opts: CliOptions): FileResult[] {
     const absolute = path.resolve(p);
     const text = workspace.read(absolute);
     if (text === undefined) return { path: p, absolute, readError: `Cannot read '${p}': no such file, or not readable.` };
-    return { path: p, absolute, analysis: analyse({ uri: absolute, text }, workspace, opts.analysis) };
+    // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here.
+    const session = analyseSession({ uri: absolute, text }, workspace, opts.analysis);
+    attachAllSizingFixes(session);
+    return { path: p, absolute, analysis: session.analysis };
   });
 }
 
@@ -182,6 +185,8 @@ interface JsonDiagnostic {
   path?: string;
   related?: { path: string; message: string; range: JsonDiagnostic['range'] }[];
   data?: Record<string, unknown>;
+  /** Edits that resolve the finding, best first when one is marked preferred. */
+  fixes?: { title: string; preferred?: boolean; edits: { path: string; range: JsonDiagnostic['range']; newText: string }[] }[];
 }
 
 function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
@@ -200,6 +205,13 @@ function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
     if (f.uri !== a.uri) d.path = displayPath(f.uri);
     if (f.related?.length) d.related = f.related.map((rl) => ({ path: displayPath(rl.uri), message: rl.message, range: range(rl.uri, rl.span) }));
     if (f.data) d.data = f.data;
+    if (f.fixes?.length) {
+      d.fixes = f.fixes.map((x) => ({
+        title: x.title,
+        ...(x.preferred ? { preferred: true } : {}),
+        edits: x.edits.map((e) => ({ path: displayPath(e.uri), range: range(e.uri, e.span), newText: e.newText })),
+      }));
+    }
     return d;
   });
 }
@@ -230,6 +242,12 @@ export function sarifReport(results: FileResult[]): unknown {
     for (const d of toJsonDiagnostics(r)) {
       codes.add(d.code);
       const file = d.path ?? displayPath(r.absolute);
+      const region = (rg: JsonDiagnostic['range']) => ({
+        startLine: rg.start.line + 1,
+        startColumn: rg.start.character + 1,
+        endLine: rg.end.line + 1,
+        endColumn: rg.end.character + 1,
+      });
       sarifResults.push({
         ruleId: d.code,
         level: SARIF_LEVEL[d.severity],
@@ -238,15 +256,21 @@ export function sarifReport(results: FileResult[]): unknown {
           {
             physicalLocation: {
               artifactLocation: { uri: file.split(path.sep).join('/') },
-              region: {
-                startLine: d.range.start.line + 1,
-                startColumn: d.range.start.character + 1,
-                endLine: d.range.end.line + 1,
-                endColumn: d.range.end.character + 1,
-              },
+              region: region(d.range),
             },
           },
         ],
+        ...(d.fixes
+          ? {
+              fixes: d.fixes.map((x) => ({
+                description: { text: x.title },
+                artifactChanges: x.edits.map((e) => ({
+                  artifactLocation: { uri: e.path.split(path.sep).join('/') },
+                  replacements: [{ deletedRegion: region(e.range), insertedContent: { text: e.newText } }],
+                })),
+              })),
+            }
+          : {}),
       });
     }
   }
@@ -329,10 +353,13 @@ export function textReport(r: FileResult): string {
       }
     }
   }
-  const diags = textLines([r]);
+  const diags = toJsonDiagnostics(r);
   out.push('');
   out.push(diags.length ? `Findings (${diags.length}):` : 'Findings: none.');
-  for (const d of diags) out.push(`  ${d}`);
+  for (const d of diags) {
+    out.push(`  ${d.path ?? r.path}:${d.range.start.line + 1}:${d.range.start.character + 1} ${d.severity} ${d.code} ${d.message}`);
+    for (const x of d.fixes ?? []) out.push(`      fix${x.preferred ? ' (preferred)' : ''}: ${x.title}`);
+  }
   return out.join('\n');
 }
 

@@ -120,6 +120,40 @@ describe('qpoint check', () => {
   });
 });
 
+describe('resistor suggestions in the machine-readable output', () => {
+  // Source: IREF = (V+ − V− − VBE)/R and IOUT = IREF/(1 + 2/β) (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4):
+  // 12 V, β = 100, IS = 1e-15 A and a 1 mA target need R ≈ (12 − 0.69) V/(1.02 mA) ≈ 11.1 kΩ.
+  const TARGET = `Target miss
+VCC vcc 0 12
+R1 vcc ref 22k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN ; expect 1mA ±5%
+RL vcc out 4.7k
+.model QN NPN (IS=1e-15 BF=100)
+.end
+`;
+
+  it('carries the standard-value fixes in JSON, with the edit on the resistor value', () => {
+    const p = file('target.cir', TARGET);
+    const d = JSON.parse(run(['check', '--no-corners', '--format', 'json', p]).stdout).files[0].diagnostics.find((x: { code: string }) => x.code === 'target-missed');
+    expect(d.fixes.length).toBeGreaterThanOrEqual(2);
+    const values = d.fixes.map((f: { edits: { newText: string }[] }) => f.edits[0].newText);
+    // IEC 60063 E24 neighbours of about 11.1 kΩ.
+    expect(values).toContain('11k');
+    expect(values).toContain('12k');
+    // The edit replaces exactly the text `22k` on line 3 (zero-based line 2, characters 11–14).
+    expect(d.fixes[0].edits[0].range).toEqual({ start: { line: 2, character: 11 }, end: { line: 2, character: 14 } });
+  });
+
+  it('carries them in SARIF as fixes with replacements', () => {
+    const p = file('target2.cir', TARGET);
+    const res = JSON.parse(run(['check', '--no-corners', '--format', 'sarif', p]).stdout).runs[0].results.find((x: { ruleId: string }) => x.ruleId === 'target-missed');
+    const rep = res.fixes[0].artifactChanges[0].replacements[0];
+    expect(rep.deletedRegion).toMatchObject({ startLine: 3, startColumn: 12, endColumn: 15 });
+    expect(rep.insertedContent.text).toMatch(/^1[12]k$/);
+  });
+});
+
 describe('qpoint report', () => {
   it('prints structures, currents and the caution for the bundled example', () => {
     const r = run(['report', 'examples/sensor-bias.cir']);
