@@ -110,6 +110,10 @@ function elementSection(analysis: Analysis, el: Element): string {
     lines.push('No operating point: the circuit was not solved (see the findings).');
     return lines.join('\n\n');
   }
+  const tied = op.tiedNodes ? el.nodes.map((n) => analysis.circuit?.nodes[n]).filter((n): n is string => !!n && op.tiedNodes!.includes(n)) : [];
+  if (tied.length > 0) {
+    lines.push(`**Arbitrary values:** ${tied.join(', ')} ${tied.length > 1 ? 'have' : 'has'} no DC path to ground, so the solver tied ${tied.length > 1 ? 'them' : 'it'} to ground through 1 TΩ; the numbers below that depend on ${tied.length > 1 ? 'them' : 'it'} mean nothing until the node is connected.`);
+  }
   if (!op.converged) lines.push('_The DC solve did not converge; the values below are from its last iteration._');
   if (!rec) {
     lines.push('No bias record for this device.');
@@ -264,7 +268,10 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
   const op = analysis.operatingPoint;
   const sections = resolved.map((r) => {
     const v = op?.nodes[r.name];
-    const head = `Node **${r.name}**${r.node === 0 ? ' (ground)' : ''}: ${v !== undefined ? formatQuantity(v, 'V') : 'not solved'}`;
+    const tied = op?.tiedNodes?.includes(r.name) ?? false;
+    const head =
+      `Node **${r.name}**${r.node === 0 ? ' (ground)' : ''}: ${v !== undefined ? formatQuantity(v, 'V') : 'not solved'}` +
+      (tied ? '\n\nNo DC path to ground: the solver tied this node to ground through 1 TΩ so the rest of the circuit could be solved, so this voltage is arbitrary.' : '');
     const conns = connectionsOf(analysis, r.node);
     const shown = conns.slice(0, 12).map((c) => `${c.element.name} (${c.terminal})`);
     const more = conns.length > shown.length ? `, and ${conns.length - shown.length} more` : '';

@@ -1,6 +1,8 @@
 // Hover text on inline netlists: resistors, nodes, transistors with their structure's estimate, models, parameters, subcircuit instances.
 
 import { describe, expect, it } from 'vitest';
+import { analyse } from '../../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { hoverAt } from '../../../shared-analysis/src/features/hover';
 import { analyseText, quantityAfter, relErr, withCursor } from './fixture';
 
@@ -222,5 +224,22 @@ RL3 vcc out3 1k
     const q1 = estimateOf(check(mark(MULTI, 'Q1 ref'), { contains: ['Hand estimate:'] }));
     expect(q1).toMatch(/IREF/);
     expect(q1).not.toMatch(/Q2|Q3/);
+  });
+});
+
+describe('hover on a node with no DC path to ground', () => {
+  it('says the voltage is arbitrary, on the node and on the device that touches it', () => {
+    // Source: Kirchhoff's current law — a node reached only by a MOSFET gate carries no DC current,
+    // so its voltage is not determined by the circuit (common practice).
+    const text = 'Floating gate\nV1 vdd 0 5\nR1 vdd d 10k\nM1 d g 0 0 NM W=10u L=1u\n.model NM NMOS (VTO=0.5 KP=100u)\n.end\n';
+    const uri = '/w/float.cir';
+    const analysis = analyse({ uri, text }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+    expect(analysis.operatingPoint?.tiedNodes).toEqual(['g']);
+    const gate = text.indexOf(' g ') + 1;
+    expect(hoverAt(analysis, uri, gate)?.markdown).toMatch(/No DC path to ground.*arbitrary/s);
+    const device = text.indexOf('M1') + 1;
+    expect(hoverAt(analysis, uri, device)?.markdown).toMatch(/Arbitrary values:.*g has no DC path/s);
+    // A node with a DC path gets no such note.
+    expect(hoverAt(analysis, uri, text.indexOf(' d ') + 1)?.markdown).not.toMatch(/arbitrary/);
   });
 });
