@@ -14,13 +14,14 @@ export interface SubcktScope {
   span: Span;
 }
 
-/** The elaborated elements of every element card, keyed by `uri#cardStart`. */
+/** The lookup tables of one analysis. */
 interface AnalysisIndex {
-  elementsByCard: Map<string, Element[]>;
+  /** The elaborated elements of every element card, by document and card start (numbers, so no key string per card). */
+  elementsByCard: Map<string, Map<number, Element[]>>;
   /** Lower-case node name -> node index. */
   nodeByName: Map<string, number>;
-  /** Node index -> the elements and terminal positions that touch it. */
-  connections: { element: Element; terminal: number }[][];
+  /** Node index -> the elements and terminal positions that touch it (absent: nothing touches it). */
+  connections: ({ element: Element; terminal: number }[] | undefined)[];
   /** Lower-case element name -> element. */
   elementByName: Map<string, Element>;
 }
@@ -28,30 +29,40 @@ interface AnalysisIndex {
 const analysisIndexes = new WeakMap<Analysis, AnalysisIndex>();
 const scopeCache = new WeakMap<ParsedDocument, SubcktScope[]>();
 
+/** Empty tables for a circuit's nodes. */
+function emptyIndex(circuit: Circuit | undefined): AnalysisIndex {
+  const nodeByName = new Map<string, number>();
+  circuit?.nodes.forEach((n, i) => nodeByName.set(n.toLowerCase(), i));
+  return { elementsByCard: new Map(), nodeByName, connections: new Array(circuit?.nodes.length ?? 0), elementByName: new Map() };
+}
+
+/** Adds elements `from` on to the tables. Lists start as one-item literals: an empty array grown by `push` reserves 17 slots, which over 50,000 cards and nodes is megabytes of nothing. */
+function addElements(idx: AnalysisIndex, elements: readonly Element[], from: number): void {
+  const { elementsByCard, connections, elementByName } = idx;
+  for (let i = from; i < elements.length; i++) {
+    const el = elements[i]!;
+    let byStart = elementsByCard.get(el.origin.uri);
+    if (!byStart) elementsByCard.set(el.origin.uri, (byStart = new Map()));
+    const list = byStart.get(el.origin.span.start);
+    if (list) list.push(el);
+    else byStart.set(el.origin.span.start, [el]);
+    elementByName.set(el.name.toLowerCase(), el);
+    for (let t = 0; t < el.nodes.length; t++) {
+      const n = el.nodes[t]!;
+      if (n < 0 || n >= connections.length) continue;
+      const at = connections[n];
+      if (at) at.push({ element: el, terminal: t });
+      else connections[n] = [{ element: el, terminal: t }];
+    }
+  }
+}
+
 /** The per-analysis lookup tables, built once and cached on the analysis object. */
 export function indexOf(analysis: Analysis): AnalysisIndex {
   let idx = analysisIndexes.get(analysis);
   if (idx) return idx;
-  const elementsByCard = new Map<string, Element[]>();
-  const nodeByName = new Map<string, number>();
-  const elementByName = new Map<string, Element>();
-  const circuit = analysis.circuit;
-  const connections: { element: Element; terminal: number }[][] = [];
-  if (circuit) {
-    circuit.nodes.forEach((n, i) => {
-      nodeByName.set(n.toLowerCase(), i);
-      connections.push([]);
-    });
-    for (const el of circuit.elements) {
-      const key = cardKey(el.origin.uri, el.origin.span.start);
-      let list = elementsByCard.get(key);
-      if (!list) elementsByCard.set(key, (list = []));
-      list.push(el);
-      elementByName.set(el.name.toLowerCase(), el);
-      el.nodes.forEach((n, t) => connections[n]?.push({ element: el, terminal: t }));
-    }
-  }
-  idx = { elementsByCard, nodeByName, connections, elementByName };
+  idx = emptyIndex(analysis.circuit);
+  if (analysis.circuit) addElements(idx, analysis.circuit.elements, 0);
   analysisIndexes.set(analysis, idx);
   return idx;
 }
@@ -63,40 +74,25 @@ export function indexOf(analysis: Analysis): AnalysisIndex {
  * circuit must by then hold every element added and no others.
  */
 export function indexBuilder(circuit: Circuit): { add(elements: readonly Element[], from: number): void; finish(analysis: Analysis): void } {
-  const elementsByCard = new Map<string, Element[]>();
-  const nodeByName = new Map<string, number>();
-  const elementByName = new Map<string, Element>();
-  const connections: { element: Element; terminal: number }[][] = [];
-  circuit.nodes.forEach((n, i) => {
-    nodeByName.set(n.toLowerCase(), i);
-    connections.push([]);
-  });
+  const idx = emptyIndex(circuit);
   return {
     add(elements, from) {
-      for (let i = from; i < elements.length; i++) {
-        const el = elements[i]!;
-        const key = cardKey(el.origin.uri, el.origin.span.start);
-        let list = elementsByCard.get(key);
-        if (!list) elementsByCard.set(key, (list = []));
-        list.push(el);
-        elementByName.set(el.name.toLowerCase(), el);
-        el.nodes.forEach((n, t) => connections[n]?.push({ element: el, terminal: t }));
-      }
+      addElements(idx, elements, from);
     },
     finish(analysis) {
-      if (analysis.circuit === circuit && !analysisIndexes.has(analysis)) analysisIndexes.set(analysis, { elementsByCard, nodeByName, connections, elementByName });
+      if (analysis.circuit === circuit && !analysisIndexes.has(analysis)) analysisIndexes.set(analysis, idx);
     },
   };
 }
 
-/** Key of a card for {@link AnalysisIndex.elementsByCard}. */
+/** A key naming a card of a document (`uri#cardStart`). */
 export function cardKey(uri: string, start: number): string {
   return `${uri}#${start}`;
 }
 
 /** The elaborated elements (one per subcircuit instance, or one at top level) of an element card. */
 export function elementsOfCard(analysis: Analysis, uri: string, card: Card): Element[] {
-  return indexOf(analysis).elementsByCard.get(cardKey(uri, card.span.start)) ?? [];
+  return indexOf(analysis).elementsByCard.get(uri)?.get(card.span.start) ?? [];
 }
 
 /** The element with this hierarchical name (case-insensitive). */
