@@ -1,7 +1,5 @@
 // The analysis worker thread: runs the engine off the server's main thread and answers sweeps, sizing and sizing fixes from its own last analyses.
 
-import { setFlagsFromString } from 'node:v8';
-import { runInNewContext } from 'node:vm';
 import { parentPort } from 'node:worker_threads';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
@@ -13,6 +11,7 @@ import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
+import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
@@ -35,24 +34,6 @@ interface Kept {
   sizingCache: Map<string, SizingResult>;
 }
 const lastAnalysis = new Map<string, Kept>();
-
-/** Circuits from this many elements up are large enough that a full collection after handing over the analysis pays for itself. */
-const COLLECT_FROM_ELEMENTS = 5000;
-
-/**
- * A full garbage collection on request, or undefined when the runtime refuses one. V8 grows the
- * heap rather than collect while it has room, so the parsed cards and solver scratch of a big
- * analysis would stay resident while the main thread takes in its own copy of the result.
- */
-const collect: (() => void) | undefined = (() => {
-  try {
-    setFlagsFromString('--expose-gc');
-    const gc: unknown = runInNewContext('gc');
-    return typeof gc === 'function' ? (gc as () => void) : undefined;
-  } catch {
-    return undefined;
-  }
-})();
 
 function post(msg: FromWorker): void {
   parentPort?.postMessage(msg);
@@ -101,7 +82,7 @@ function handle(msg: ToWorker): void {
         const dropped = lastAnalysis.get(msg.uri)?.analysis.circuit?.elements.length ?? 0;
         lastAnalysis.delete(msg.uri);
         outgoing = undefined;
-        if (dropped >= COLLECT_FROM_ELEMENTS) collect?.();
+        if (dropped >= COLLECT_FROM_ELEMENTS) collectGarbage();
         const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
         const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace, options);
         // The corner phase needs the requested corner settings back, with corners on.
@@ -122,7 +103,7 @@ function handle(msg: ToWorker): void {
         outgoing = { id: msg.id, parts };
         post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, ms: performance.now() - t0 });
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
-        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && collect) setImmediate(collect);
+        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {
         post({ type: 'failed', id: msg.id, message: `The analysis stopped with an internal error: ${errorText(e)}` });
       }

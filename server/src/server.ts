@@ -61,6 +61,7 @@ import {
 } from './to-lsp';
 import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
+import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 
 /** The name of the client-side command the size refactor runs (declared in package.json). */
 export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
@@ -323,9 +324,17 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
   for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
   publish(touched, uri);
+  // Only the size: the callback must not keep the replaced analysis alive.
+  const replacedElements = before?.analysis.circuit?.elements.length ?? 0;
   // Build the lookup tables now rather than inside the first hover.
   setImmediate(() => {
     if (cache.get(uri)?.analysis === analysis) indexOf(analysis);
+    // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
+    if (replacedElements >= COLLECT_FROM_ELEMENTS) {
+      const t0 = Date.now();
+      collectGarbage();
+      log(`Freed the previous analysis of ${basename(uri)} in ${Date.now() - t0} ms.`);
+    }
   });
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
