@@ -187,8 +187,26 @@ function checkPosition(pos: unknown): Position {
 }
 
 /** Runs a request handler; an exception is logged and answered as an LSP error, never taking the server down. */
+/** When the editor last asked something; a full collection waits for a quiet moment so it does not land inside a hover. */
+let lastRequestAt = 0;
+/** Quiet time a deferred collection waits for, and the longest it waits before collecting anyway. */
+const COLLECT_QUIET_MS = 300;
+const COLLECT_MAX_WAIT_MS = 5000;
+
+/** Runs `collect` once no request has arrived for COLLECT_QUIET_MS (or after COLLECT_MAX_WAIT_MS at the latest). */
+function whenQuiet(collect: () => void): void {
+  const deadline = Date.now() + COLLECT_MAX_WAIT_MS;
+  const poll = () => {
+    const now = Date.now();
+    if (now - lastRequestAt >= COLLECT_QUIET_MS || now >= deadline) collect();
+    else setTimeout(poll, COLLECT_QUIET_MS).unref();
+  };
+  setTimeout(poll, COLLECT_QUIET_MS).unref();
+}
+
 function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: P) => Promise<R> {
   return async (params: P) => {
+    lastRequestAt = Date.now();
     try {
       return await fn(params);
     } catch (e) {
@@ -331,9 +349,11 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
     if (cache.get(uri)?.analysis === analysis) indexOf(analysis);
     // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
     if (replacedElements >= COLLECT_FROM_ELEMENTS) {
-      const t0 = Date.now();
-      collectGarbage();
-      log(`Freed the previous analysis of ${basename(uri)} in ${Date.now() - t0} ms.`);
+      whenQuiet(() => {
+        const t0 = Date.now();
+        collectGarbage();
+        log(`Freed the previous analysis of ${basename(uri)} in ${Date.now() - t0} ms.`);
+      });
     }
   });
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
