@@ -3,20 +3,9 @@
 import { create, all, type Matrix } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { SparseLU } from '../../shared-analysis/src/solve/sparse-lu';
+import { rng } from '../seeded-random';
 
 const math = create(all);
-
-/** Seeded generator (mulberry32, common practice for reproducible test data). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 interface Network {
   n: number;

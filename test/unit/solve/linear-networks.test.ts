@@ -6,6 +6,7 @@ import { solveOperatingPoint } from '../../../shared-analysis/src/solve/dc';
 import type { TwoTerminalRecord } from '../../../shared-analysis/src/solve/types';
 import type { Spec } from './build';
 import { circuit } from './build';
+import { rng } from '../../seeded-random';
 
 /** Solves `specs` and compares node voltages and element currents with `expected` to relative tolerance `rel`. */
 function check(specs: Spec[], expected: { nodes?: Record<string, number>; currents?: Record<string, number> }, rel = 1e-9): void {
@@ -114,18 +115,6 @@ describe('closed-form linear networks', () => {
     );
   });
 });
-
-/** Seeded 32-bit generator (mulberry32), so every run builds the same networks. */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 describe('seeded random resistor networks against mathjs lusolve', () => {
   for (let seed = 1; seed <= 12; seed++) {

@@ -4,18 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { DenseLU, type SparsePattern } from '../../../shared-analysis/src/solve/linear';
 import { approximateMinimumDegree, isPermutation, symmetricPattern } from '../../../shared-analysis/src/solve/ordering';
 import { SparseLU, type SparseLUOptions } from '../../../shared-analysis/src/solve/sparse-lu';
-
-/** Seeded generator (mulberry32, common practice for reproducible test data). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { rng } from '../../seeded-random';
 
 /** A matrix as a pattern plus aligned values. */
 interface System {

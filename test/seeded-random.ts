@@ -1,0 +1,13 @@
+// One seeded random generator for every test that builds random data, so runs are reproducible.
+
+/** Seeded 32-bit generator (mulberry32, common practice for reproducible test data): uniform in [0, 1). */
+export function rng(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
