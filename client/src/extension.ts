@@ -6,6 +6,7 @@ import { LanguageClient, TransportKind, type LanguageClientOptions, type ServerO
 import {
   LIST_OUTPUTS_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
+  REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
   type ListOutputsParams,
   type ListOutputsResult,
@@ -19,8 +20,6 @@ import { readTargetCurrent } from './current-input';
 import { renderPanelHtml } from './panel';
 import { elementAtLine, isResistorName, outputsMatching } from './targets';
 
-/** The command the server registers (executeCommandProvider) to re-analyse every open netlist. */
-export const SERVER_REANALYSE_COMMAND = 'qpoint.server.reanalyse';
 /** Files whose changes can change an analysis: netlists and the files they include. */
 export const NETLIST_FILE_GLOB = '**/*.{cir,sp,spi,ckt,net,inc,lib,mod}';
 /** How long a custom request may take before the user is told it did not answer. */
@@ -285,9 +284,9 @@ async function reanalyseCommand(): Promise<void> {
   const c = client;
   if (!c) return;
   const commands = c.initializeResult?.capabilities.executeCommandProvider?.commands ?? [];
-  if (c.isRunning() && commands.includes(SERVER_REANALYSE_COMMAND)) {
+  if (c.isRunning() && commands.includes(REANALYSE_COMMAND)) {
     try {
-      await c.sendRequest('workspace/executeCommand', { command: SERVER_REANALYSE_COMMAND, arguments: [] });
+      await c.sendRequest('workspace/executeCommand', { command: REANALYSE_COMMAND, arguments: [] });
       vscode.window.setStatusBarMessage('qpoint: re-analysing open netlists', 3000);
       return;
     } catch (e) {

@@ -1,4 +1,9 @@
-// Custom requests between the qpoint client and server, beyond standard LSP. Types only.
+// Custom requests and command names shared by the qpoint client and server, beyond standard LSP.
+
+/** The server command that re-reads included files from disk and re-analyses every open netlist (the client's re-analyse command sends it). */
+export const REANALYSE_COMMAND = 'qpoint.server.reanalyse';
+/** The client-side command the server's size refactor runs (declared in package.json; it asks for the target first). */
+export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
 
 /** `qpoint/outputCharacteristic`: sweep one mirror output's node voltage and return its current. */
 export const OUTPUT_CHARACTERISTIC_REQUEST = 'qpoint/outputCharacteristic';

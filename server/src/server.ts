@@ -36,7 +36,9 @@ import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/synt
 import {
   LIST_OUTPUTS_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
+  REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
+  SIZE_COMMAND,
   type ListOutputsParams,
   type ListOutputsResult,
   type OutputCharacteristicParams,
@@ -63,10 +65,6 @@ import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 
-/** The name of the client-side command the size refactor runs (declared in package.json). */
-export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
-/** The server command that re-reads included files from disk and re-analyses every open netlist (the client's re-analyse command sends it). */
-export const REANALYSE_COMMAND = 'qpoint.server.reanalyse';
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
 /** A run that was superseded by an edit is abandoned (worker restarted) once it has run this much longer than expected. */
