@@ -14,7 +14,7 @@ const groupTitle: Record<string, string> = {
   corners: 'Corners',
   targets: 'Target currents',
   fixes: 'Fixes',
-  host: 'Editor host',
+  host: 'Hosts (editor and command line)',
 };
 
 /** The markdown table, grouped by the module family that owns each code. */

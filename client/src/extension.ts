@@ -49,6 +49,8 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     ],
     synchronize: { configurationSection: 'qpoint', fileEvents: watcher },
     outputChannel: output,
+    // In an untrusted workspace the server reads no included file from disk (see capabilities.untrustedWorkspaces).
+    initializationOptions: () => ({ workspaceTrusted: vscode.workspace.isTrusted }),
   };
   client = new LanguageClient('qpoint', 'qpoint', serverOptions, clientOptions);
 
@@ -56,6 +58,16 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     vscode.commands.registerCommand('qpoint.sizeResistorForCurrent', (args?: unknown) => sizeResistorCommand(args)),
     vscode.commands.registerCommand('qpoint.plotOutputCharacteristic', (args?: unknown) => plotCommand(args)),
     vscode.commands.registerCommand('qpoint.reanalyse', () => reanalyseCommand()),
+  );
+
+  // Trust granted later: start the server again so it may read included files.
+  context.subscriptions.push(
+    vscode.workspace.onDidGrantWorkspaceTrust(() => {
+      const c = client;
+      if (c) {
+        void c.restart().catch((e: unknown) => output.error(`qpoint could not restart its language server: ${errorText(e)}`));
+      }
+    }),
   );
 
   firstStart = client.start().catch((e: unknown) => {

@@ -70,6 +70,10 @@ function handle(msg: ToWorker): void {
     case 'files-changed':
       workspace.invalidate(msg.uris);
       return;
+    case 'read-policy':
+      workspace.setPolicy(msg.policy);
+      workspace.invalidate();
+      return;
     case 'analyse': {
       const text = openTexts.get(msg.uri);
       if (text === undefined) {
@@ -84,7 +88,7 @@ function handle(msg: ToWorker): void {
         outgoing = undefined;
         if (dropped >= COLLECT_FROM_ELEMENTS) collectGarbage();
         const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
-        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace, options);
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options);
         // The corner phase needs the requested corner settings back, with corners on.
         if (msg.cornersLater) session.analysis.options = { ...session.analysis.options, corners: { ...session.analysis.options.corners, ...(msg.options.corners ?? {}), enabled: true } };
         const cornersNext = msg.cornersLater === true && session.nominal !== undefined && session.analysis.structures.length > 0;

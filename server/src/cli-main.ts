@@ -1,4 +1,10 @@
 // Entry point of the `qpoint` bin: runs the CLI on the process's arguments.
-import { main } from './cli';
+import { EXIT, main } from './cli';
 
-process.exitCode = main(process.argv.slice(2));
+try {
+  process.exitCode = main(process.argv.slice(2));
+} catch (e) {
+  // A defect of qpoint, not of the netlist: say so, and exit with the code CI reads as "qpoint failed".
+  process.stderr.write(`qpoint: internal error: ${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
+  process.exitCode = EXIT.failed;
+}

@@ -8,15 +8,30 @@ import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-ana
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
+import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
+import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
+import { escapeControls, escapeJsonText } from './escape';
 
 /** Shown with every report: the numbers are for design review, not sign-off. */
 export const CAUTION =
   'Caution: these figures are design-review estimates, not a sign-off. Mains-powered and high-voltage ' +
   'circuits need review by a qualified person under local codes and licensed practice.';
 
+/** Exit codes of the `qpoint` command (documented in the README and in the usage text). */
+export const EXIT = {
+  /** Every file was checked and nothing reached --fail-level. */
+  clean: 0,
+  /** Every file was checked and a finding reached --fail-level. */
+  findings: 1,
+  /** The command line was wrong (usage printed on stderr). */
+  usage: 2,
+  /** qpoint could not do the job: a file could not be read, or an analysis stopped with an internal error. */
+  failed: 3,
+} as const;
+
 const USAGE = `Usage:
-  qpoint check FILE... [options]    check netlists; exit 1 when a finding reaches --fail-level
-  qpoint report FILE... [options]   print the bias point, structures and findings for people
+  qpoint check [options] [--] FILE...    check netlists for CI
+  qpoint report [options] [--] FILE...   print the bias point, structures and findings for people
   qpoint --help | --version
 
 Options:
@@ -24,14 +39,24 @@ Options:
   --temperature C              analysis temperature in °C (overrides .temp)
   --series E12|E24|E48|E96|E192  standard series for resistor fixes (default E24)
   --headroom-margin V          minimum headroom beyond the active-region edge (default 0.3)
-  --supply-tolerance PCT       corner supply tolerance in percent (default 5)
-  --cold C / --hot C           corner temperatures (default -40 / 125)
-  --beta-low F / --beta-high F beta corner factors (default 0.5 / 2)
+  --supply-tolerance PCT       corner supply tolerance in percent, 0 to 50 (default 5)
+  --cold C / --hot C           corner temperatures, hot above cold (default -40 / 125)
+  --beta-low F / --beta-high F beta corner factors, low in (0, 1], high in [1, 100] (default 0.5 / 2)
   --no-corners                 skip the corner re-solves
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
+  --include-root DIR           also let .include read files under DIR; repeatable
+  --include-anywhere           let .include read files outside the allowed folders
+  --                           everything after it is a file name, even if it starts with '-'
 
-Text output: one line per finding, 'file:line:col severity code message' (lines and columns from 1).`;
+Includes are read only from the current folder's tree, the checked netlist's folder tree and
+--include-root folders; only regular text files up to 64 MiB; never network paths.
+
+Exit codes: 0 nothing at or above --fail-level; 1 findings at or above --fail-level;
+2 bad command line; 3 qpoint failed (a file could not be read, or an analysis stopped).
+
+Text output: one line per finding, 'file:line:col severity code message' (lines and columns from 1).
+Control characters and bidirectional marks in echoed text are printed escaped (\\x1b, \\u202e).`;
 
 const SEVERITY_RANK: Record<Severity, number> = { error: 0, warning: 1, info: 2, hint: 3 };
 
@@ -44,72 +69,113 @@ interface CliOptions {
   format: 'text' | 'json' | 'sarif';
   failLevel: Severity;
   analysis: AnalysisOptions;
+  /** Folders besides the current one and each netlist's own whose files includes may read. */
+  includeRoots: string[];
+  includeAnywhere: boolean;
 }
 
-/** Reads files from disk; includes resolve relative to the including file. */
+/**
+ * Reads files from disk under the shared reading policy (regular files, size and time
+ * limits, no network paths); includes resolve relative to the including file and must lie
+ * in an allowed folder: the current directory's tree, the checked netlist's folder tree and
+ * the `--include-root` folders, unless `--include-anywhere` lifts that.
+ */
 export class PathWorkspace implements Workspace {
-  read(uri: string): string | undefined {
-    try {
-      return fs.readFileSync(uri, 'utf8');
-    } catch {
-      return undefined;
-    }
+  private readonly reader: PolicyReader;
+  private extraRoots: string[] = [];
+
+  constructor(policy: ReadPolicy = defaultPolicy([process.cwd()])) {
+    this.reader = new PolicyReader(policy);
   }
+
+  /** Reads the netlist named on the command line: the same checks as an include, except confinement (the user chose it). */
+  readRoot(file: string): { text: string } | { refused: string } {
+    const text = this.reader.read(file, [], { anywhere: true });
+    return text === undefined ? { refused: this.reader.whyUnreadable(file) ?? 'cannot be read' } : { text };
+  }
+
+  /** Makes the folder tree of the netlist being checked readable (and no other netlist's). */
+  setRoot(file: string): void {
+    this.extraRoots = realRoots([path.dirname(file)]);
+  }
+
+  read(uri: string): string | undefined {
+    return this.reader.read(uri, this.extraRoots);
+  }
+
+  whyUnreadable(uri: string): string | undefined {
+    return this.reader.whyUnreadable(uri);
+  }
+
   resolve(fromUri: string, ref: string): string {
+    // A network path stays as written, so reading refuses it rather than trying a local look-alike.
+    if (isNetworkPath(ref)) return ref;
     return path.resolve(path.dirname(fromUri), ref);
   }
 }
 
-function parseNumberFlag(flag: string, text: string | undefined): number {
-  const v = text === undefined ? NaN : Number(text);
-  if (!Number.isFinite(v)) throw new UsageError(`${flag} needs a number, got ${text === undefined ? 'nothing' : `'${text}'`}.`);
+/** A number flag checked by the rule the server applies to the same setting. */
+function numberFlag(flag: string, text: string | undefined, { ok, rule }: NumberRule): number {
+  const v = parseDecimal(text);
+  if (v === undefined) throw new UsageError(`${flag} needs a decimal number, got ${text === undefined ? 'nothing' : `'${escapeControls(text)}'`}.`);
+  if (!ok(v)) throw new UsageError(`${flag} must be ${rule}; got ${v}.`);
   return v;
 }
 
 export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
-  if (argv.length === 0 || argv[0] === '--help' || argv[0] === '-h') return 'help';
+  if (argv.length === 0) throw new UsageError('Say what to do: check or report, and the netlist files.');
+  if (argv[0] === '--help' || argv[0] === '-h') return 'help';
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
-  if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${command}'.`);
-  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {} };
+  if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
+  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {}, includeRoots: [], includeAnywhere: false };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
-  const severities: Record<string, Severity | 'off'> = {};
+  const severities: Record<string, Severity | 'off'> = Object.create(null);
+  const catalogue = findingCatalogue();
+  let filesOnly = false;
   for (let i = 1; i < argv.length; i++) {
-    const a = argv[i];
+    const a = argv[i]!;
     const next = () => argv[++i];
+    if (filesOnly) {
+      opts.files.push(a);
+      continue;
+    }
     switch (a) {
+      case '--':
+        filesOnly = true;
+        break;
       case '--format': {
         const f = next();
-        if (f !== 'text' && f !== 'json' && f !== 'sarif') throw new UsageError(`--format takes text, json or sarif, got '${f ?? ''}'.`);
+        if (f !== 'text' && f !== 'json' && f !== 'sarif') throw new UsageError(`--format takes text, json or sarif, got '${escapeControls(f ?? '')}'.`);
         opts.format = f;
         break;
       }
       case '--temperature':
-        opts.analysis.temperatureC = parseNumberFlag(a, next());
+        opts.analysis.temperatureC = numberFlag(a, next(), OPTION_RULES.temperatureC);
         break;
       case '--series': {
         const s = (next() ?? '').toUpperCase();
-        if (!['E12', 'E24', 'E48', 'E96', 'E192'].includes(s)) throw new UsageError(`--series takes E12, E24, E48, E96 or E192, got '${s}'.`);
+        if (!['E12', 'E24', 'E48', 'E96', 'E192'].includes(s)) throw new UsageError(`--series takes E12, E24, E48, E96 or E192, got '${escapeControls(s)}'.`);
         opts.analysis.resistorSeries = s as ResistorSeries;
         break;
       }
       case '--headroom-margin':
-        opts.analysis.headroomMarginV = parseNumberFlag(a, next());
+        opts.analysis.headroomMarginV = numberFlag(a, next(), OPTION_RULES.headroomMarginV);
         break;
       case '--supply-tolerance':
-        corners.supplyTolerance = parseNumberFlag(a, next()) / 100;
+        corners.supplyTolerance = numberFlag(a, next(), OPTION_RULES.supplyTolerancePercent) / 100;
         break;
       case '--cold':
-        corners.coldC = parseNumberFlag(a, next());
+        corners.coldC = numberFlag(a, next(), OPTION_RULES.coldC);
         break;
       case '--hot':
-        corners.hotC = parseNumberFlag(a, next());
+        corners.hotC = numberFlag(a, next(), OPTION_RULES.hotC);
         break;
       case '--beta-low':
-        corners.betaLow = parseNumberFlag(a, next());
+        corners.betaLow = numberFlag(a, next(), OPTION_RULES.betaLow);
         break;
       case '--beta-high':
-        corners.betaHigh = parseNumberFlag(a, next());
+        corners.betaHigh = numberFlag(a, next(), OPTION_RULES.betaHigh);
         break;
       case '--no-corners':
         corners.enabled = false;
@@ -117,22 +183,35 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--severity': {
         const spec = next() ?? '';
         const m = /^([a-z0-9-]+)=(error|warning|info|hint|off)$/.exec(spec);
-        if (!m) throw new UsageError(`--severity takes CODE=LEVEL (LEVEL: error, warning, info, hint or off), got '${spec}'.`);
-        severities[m[1]] = m[2] as Severity | 'off';
+        if (!m) throw new UsageError(`--severity takes CODE=LEVEL (LEVEL: error, warning, info, hint or off), got '${escapeControls(spec)}'.`);
+        if (!Object.hasOwn(catalogue, m[1]!)) throw new UsageError(`--severity names '${m[1]}', which is not a qpoint finding code (the README lists them).`);
+        severities[m[1]!] = m[2] as Severity | 'off';
         break;
       }
       case '--fail-level': {
         const l = next();
-        if (l !== 'error' && l !== 'warning' && l !== 'info' && l !== 'hint') throw new UsageError(`--fail-level takes error, warning, info or hint, got '${l ?? ''}'.`);
+        if (l !== 'error' && l !== 'warning' && l !== 'info' && l !== 'hint') throw new UsageError(`--fail-level takes error, warning, info or hint, got '${escapeControls(l ?? '')}'.`);
         opts.failLevel = l;
         break;
       }
+      case '--include-root': {
+        const dir = next();
+        if (!dir) throw new UsageError('--include-root needs a folder.');
+        if (isNetworkPath(dir)) throw new UsageError(`--include-root '${escapeControls(dir)}' is a network path; qpoint never reads those.`);
+        opts.includeRoots.push(path.resolve(dir));
+        break;
+      }
+      case '--include-anywhere':
+        opts.includeAnywhere = true;
+        break;
       default:
-        if (a.startsWith('-')) throw new UsageError(`Unknown option '${a}'.`);
+        if (a.startsWith('-') && a !== '-') throw new UsageError(`Unknown option '${escapeControls(a)}' (put -- before a file name that starts with '-').`);
         opts.files.push(a);
     }
   }
   if (opts.files.length === 0) throw new UsageError(`'${command}' needs at least one netlist file.`);
+  const crossed = crossCheckCorners(corners, { cold: '--cold', hot: '--hot' });
+  if (crossed.length) throw new UsageError(crossed[0]!);
   opts.analysis.corners = corners;
   opts.analysis.severities = severities;
   return opts;
@@ -145,6 +224,8 @@ interface FileResult {
   analysis?: Analysis;
   /** Set when the file itself could not be read. */
   readError?: string;
+  /** Set when the analysis stopped with an exception (a defect of qpoint). */
+  internalError?: string;
 }
 
 /** Zero-based position of an offset in a document the analysis read. */
@@ -164,15 +245,21 @@ function displayPath(absolute: string): string {
 }
 
 function analyseFiles(opts: CliOptions): FileResult[] {
-  const workspace = new PathWorkspace();
+  const workspace = new PathWorkspace({ ...defaultPolicy([process.cwd(), ...opts.includeRoots]), anywhere: opts.includeAnywhere });
   return opts.files.map((p) => {
-    const absolute = path.resolve(p);
-    const text = workspace.read(absolute);
-    if (text === undefined) return { path: p, absolute, readError: `Cannot read '${p}': no such file, or not readable.` };
-    // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here.
-    const session = analyseSession({ uri: absolute, text }, workspace, opts.analysis);
-    attachAllSizingFixes(session);
-    return { path: p, absolute, analysis: session.analysis };
+    const absolute = isNetworkPath(p) ? p : path.resolve(p);
+    const read = workspace.readRoot(absolute);
+    if ('refused' in read) return { path: p, absolute, readError: `Cannot read '${p}': it ${read.refused}.` };
+    workspace.setRoot(absolute);
+    try {
+      const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis);
+      // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
+      // (only around a converged operating point: sizing re-solves from it).
+      attachAllSizingFixes(session);
+      return { path: p, absolute, analysis: session.analysis };
+    } catch (e) {
+      return { path: p, absolute, internalError: e instanceof Error ? (e.stack ?? e.message) : String(e) };
+    }
   });
 }
 
@@ -190,9 +277,11 @@ interface JsonDiagnostic {
 }
 
 function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
-  if (r.readError) {
-    const zero = { line: 0, character: 0 };
-    return [{ code: 'file-unreadable', severity: 'error', message: r.readError, range: { start: zero, end: zero } }];
+  const zero = { line: 0, character: 0 };
+  if (r.readError) return [{ code: 'file-unreadable', severity: 'error', message: r.readError, range: { start: zero, end: zero } }];
+  if (r.internalError) {
+    const first = r.internalError.split('\n')[0];
+    return [{ code: 'analysis-stopped', severity: 'error', message: `qpoint stopped with an internal error while analysing this file (please report it): ${first}`, range: { start: zero, end: zero } }];
   }
   const a = r.analysis!;
   const cache = new Map<string, LineIndex>();
@@ -291,7 +380,7 @@ function textLines(results: FileResult[]): string[] {
   for (const r of results) {
     for (const d of toJsonDiagnostics(r)) {
       const file = d.path ?? r.path;
-      lines.push(`${file}:${d.range.start.line + 1}:${d.range.start.character + 1} ${d.severity} ${d.code} ${d.message}`);
+      lines.push(escapeControls(`${file}:${d.range.start.line + 1}:${d.range.start.character + 1} ${d.severity} ${d.code} ${d.message}`));
     }
   }
   return lines;
@@ -303,7 +392,7 @@ const volts = (v: number) => formatEngineering(v, { unit: 'V', style: 'display' 
 /** The human-readable bias report of one file. */
 export function textReport(r: FileResult): string {
   const out: string[] = [];
-  if (!r.analysis) return `${r.path}: ${r.readError}`;
+  if (!r.analysis) return toJsonDiagnostics(r).map((d) => escapeControls(`${r.path}: ${d.message}`)).join('\n');
   const a = r.analysis;
   const op = a.operatingPoint;
   out.push(`${r.path} — ${a.circuit?.title || '(no title)'}`);
@@ -360,12 +449,13 @@ export function textReport(r: FileResult): string {
     out.push(`  ${d.path ?? r.path}:${d.range.start.line + 1}:${d.range.start.character + 1} ${d.severity} ${d.code} ${d.message}`);
     for (const x of d.fixes ?? []) out.push(`      fix${x.preferred ? ' (preferred)' : ''}: ${x.title}`);
   }
-  return out.join('\n');
+  // Titles, names and messages come from the netlist: never let them write control sequences.
+  return out.map(escapeControls).join('\n');
 }
 
 const VERSION = '0.1.0';
 
-/** Runs the CLI; returns the exit code (0 clean, 1 findings at or above --fail-level, 2 usage). */
+/** Runs the CLI; returns the exit code (see EXIT). */
 export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number {
   let opts: ReturnType<typeof parseArgs>;
   try {
@@ -373,30 +463,32 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
   } catch (e) {
     if (e instanceof UsageError) {
       process.stderr.write(`qpoint: ${e.message}\n\n${USAGE}\n`);
-      return 2;
+      return EXIT.usage;
     }
     throw e;
   }
   if (opts === 'help') {
     write(USAGE + '\n');
-    return 0;
+    return EXIT.clean;
   }
   if (opts === 'version') {
     write(VERSION + '\n');
-    return 0;
+    return EXIT.clean;
   }
   const results = analyseFiles(opts);
+  for (const r of results) if (r.internalError) process.stderr.write(`qpoint: internal error in ${escapeControls(r.path)}:\n${escapeControls(r.internalError).replace(/\\n/g, '\n')}\n`);
   const failRank = SEVERITY_RANK[opts.failLevel];
-  const failing = results.some((r) => r.readError || r.analysis!.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
+  const failed = results.some((r) => r.readError || r.internalError);
+  const failing = results.some((r) => r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
   if (opts.command === 'report') {
     write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
-    return results.some((r) => r.readError) ? 1 : 0;
+    return failed ? EXIT.failed : EXIT.clean;
   }
-  if (opts.format === 'json') write(JSON.stringify(jsonReport(results), null, 2) + '\n');
-  else if (opts.format === 'sarif') write(JSON.stringify(sarifReport(results), null, 2) + '\n');
+  if (opts.format === 'json') write(escapeJsonText(JSON.stringify(jsonReport(results), null, 2)) + '\n');
+  else if (opts.format === 'sarif') write(escapeJsonText(JSON.stringify(sarifReport(results), null, 2)) + '\n');
   else {
     const lines = textLines(results);
     write(lines.length ? lines.join('\n') + '\n' : '');
   }
-  return failing ? 1 : 0;
+  return failed ? EXIT.failed : failing ? EXIT.findings : EXIT.clean;
 }

@@ -1,45 +1,79 @@
-// The server's Workspace: open editor documents first, then files on disk for file: URIs.
+// The server's Workspace: open editor documents first, then files on disk for file: URIs, read under the shared policy.
 
-import { readFileSync, statSync } from 'node:fs';
+import * as path from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import type { Workspace } from '../../shared-analysis/src/types';
-
-/** Files larger than this are reported as unreadable rather than read (a stray include of a binary). */
-const MAX_FILE_BYTES = 64 * 1024 * 1024;
+import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 
 /**
  * A Workspace over URIs. Open documents (the editor's unsaved text) win over the disk;
- * disk reads are cached until `invalidate` is told the file changed.
+ * disk reads follow the `ReadPolicy` (regular files, size and time limits, confined to the
+ * allowed roots, nothing at all in an untrusted workspace) and are cached until
+ * `invalidate` is told the file changed.
  */
 export class FileWorkspace implements Workspace {
   private readonly open = new Map<string, string>();
-  private readonly disk = new Map<string, string | undefined>();
+  private readonly reader: PolicyReader;
+  private readonly refusals = new Map<string, string>();
+
+  constructor(policy: ReadPolicy = defaultPolicy()) {
+    this.reader = new PolicyReader(policy);
+  }
+
+  /** Replaces the reading policy (trust, allowed roots); forgets nothing that was read. */
+  setPolicy(policy: ReadPolicy): void {
+    this.reader.setPolicy(policy);
+  }
 
   /** Sets (or, with undefined, forgets) the editor's text of an open document. */
   setOpen(uri: string, text: string | undefined): void {
-    const key = uri;
-    if (text === undefined) this.open.delete(key);
-    else this.open.set(key, text);
+    if (text === undefined) this.open.delete(uri);
+    else this.open.set(uri, text);
   }
 
   /** Forgets cached disk contents of these URIs (all of them when none are given). */
   invalidate(uris?: string[]): void {
-    if (!uris) this.disk.clear();
-    else for (const u of uris) this.disk.delete(u);
+    if (!uris) this.reader.invalidate();
+    else this.reader.invalidate(uris.map(filePath).filter((p): p is string => p !== undefined));
+  }
+
+  /** The workspace as the analysis of root netlist `rootUri` sees it: the root's folder tree is readable too. */
+  forRoot(rootUri: string): Workspace {
+    const rootPath = filePath(rootUri);
+    const extra = rootPath !== undefined && !isNetworkPath(rootPath) ? realRoots([path.dirname(rootPath)]) : [];
+    return {
+      read: (uri) => this.readWith(uri, extra),
+      resolve: (from, ref) => this.resolve(from, ref),
+      whyUnreadable: (uri) => this.whyUnreadable(uri),
+    };
   }
 
   read(uri: string): string | undefined {
-    const key = uri;
-    const open = this.open.get(key);
+    return this.readWith(uri, []);
+  }
+
+  private readWith(uri: string, extraRoots: readonly string[]): string | undefined {
+    const open = this.open.get(uri);
     if (open !== undefined) return open;
-    if (this.disk.has(key)) return this.disk.get(key);
-    const text = readDisk(key);
-    this.disk.set(key, text);
+    const file = filePath(uri);
+    if (file === undefined) {
+      this.refusals.set(uri, uri.startsWith('file:') ? 'is on a network share, which qpoint never reads' : 'is not a file the editor has open, and only file: locations are read from disk');
+      return undefined;
+    }
+    const text = this.reader.read(file, extraRoots);
+    if (text === undefined) this.refusals.set(uri, this.reader.whyUnreadable(file) ?? 'cannot be read');
+    else this.refusals.delete(uri);
     return text;
+  }
+
+  whyUnreadable(uri: string): string | undefined {
+    return this.refusals.get(uri);
   }
 
   resolve(fromUri: string, ref: string): string {
     const cleaned = ref.trim().replace(/^["']|["']$/g, '');
+    // A network path stays one (file://host/…), so reading refuses it rather than a local look-alike being tried.
+    if (isNetworkPath(cleaned)) return `file:${cleaned.replace(/\\/g, '/')}`;
     if (/^[a-z][a-z0-9+.-]*:/i.test(cleaned) && !/^[a-z]:[\\/]/i.test(cleaned)) return cleaned;
     if (cleaned.startsWith('/') || /^[a-z]:[\\/]/i.test(cleaned)) {
       try {
@@ -57,13 +91,13 @@ export class FileWorkspace implements Workspace {
   }
 }
 
-function readDisk(uri: string): string | undefined {
+/** The local path of a file: URI; undefined for other schemes and for URIs naming a host (a network share). */
+function filePath(uri: string): string | undefined {
   if (!uri.startsWith('file:')) return undefined;
   try {
-    const path = fileURLToPath(uri);
-    const st = statSync(path);
-    if (!st.isFile() || st.size > MAX_FILE_BYTES) return undefined;
-    return readFileSync(path, 'utf8');
+    const u = new URL(uri);
+    if (u.host !== '' && u.host !== 'localhost') return undefined;
+    return fileURLToPath(u);
   } catch {
     return undefined;
   }

@@ -64,6 +64,8 @@ import {
 import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
+import { defaultPolicy, type ReadPolicy } from './read-policy';
+import { fileURLToPath } from 'node:url';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -108,6 +110,32 @@ const timers = new Map<string, ReturnType<typeof setTimeout>>();
 const queue = new Set<string>();
 let running: { uri: string; version: number; started: number; superseded: boolean } | undefined;
 let shuttingDown = false;
+/** Set by the client (`initializationOptions.workspaceTrusted: false`) for an untrusted workspace: no file is read from disk. */
+let workspaceTrusted = true;
+/** The open folders, as local paths: includes may read their trees. */
+let workspaceRoots: string[] = [];
+
+/** Tells the worker what it may read: the open folders' trees (and each netlist's own), or anything when the setting allows. */
+function sendReadPolicy(): void {
+  const policy: ReadPolicy = { ...defaultPolicy(workspaceRoots), trusted: workspaceTrusted, anywhere: settings.includesAnywhere };
+  host.setReadPolicy(policy);
+}
+
+/** Local paths of the workspace folders an initialize request names (file: URIs only). */
+function folderPaths(params: InitializeParams): string[] {
+  const uris = params.workspaceFolders?.map((f) => f?.uri) ?? (params.rootUri ? [params.rootUri] : []);
+  const out: string[] = [];
+  for (const u of uris) {
+    if (typeof u !== 'string' || !u.startsWith('file:')) continue;
+    try {
+      const url = new URL(u);
+      if (url.host === '' || url.host === 'localhost') out.push(fileURLToPath(url));
+    } catch {
+      // Not a usable folder URI: it adds no root.
+    }
+  }
+  return out;
+}
 
 function log(message: string): void {
   connection.console.log(`[qpoint] ${message}`);
@@ -411,6 +439,7 @@ async function pullSettings(): Promise<void> {
     const { settings: next, problems } = settingsFromConfiguration(raw);
     for (const p of problems) log(p);
     settings = next;
+    sendReadPolicy();
   } catch (e) {
     log(`Could not read the qpoint settings: ${e instanceof Error ? e.message : String(e)}`);
   }
@@ -428,12 +457,16 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
   canPullConfiguration = !!caps.workspace?.configuration;
   canRefreshInlays = !!caps.workspace?.inlayHint?.refreshSupport;
   canReportProgress = !!caps.window?.workDoneProgress;
-  const init = params.initializationOptions as { settings?: unknown } | undefined;
+  const init = params.initializationOptions as { settings?: unknown; workspaceTrusted?: unknown } | undefined;
   if (init && typeof init === 'object' && init.settings !== undefined) {
     const { settings: s, problems } = settingsFromConfiguration(init.settings);
     settings = s;
     for (const p of problems) log(p);
   }
+  workspaceTrusted = !(init && typeof init === 'object' && init.workspaceTrusted === false);
+  workspaceRoots = folderPaths(params);
+  if (!workspaceTrusted) log('The workspace is not trusted: only open documents are analysed; no included file is read from disk.');
+  sendReadPolicy();
   return {
     capabilities: {
       positionEncoding: encoding,
@@ -469,6 +502,7 @@ connection.onDidChangeConfiguration(async (change) => {
     const { settings: s, problems } = settingsFromConfiguration(raw);
     settings = s;
     for (const p of problems) log(p);
+    sendReadPolicy();
   }
   for (const d of documents.all()) schedule(d.uri, 0);
 });

@@ -3,16 +3,19 @@
 import type { AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
 import type { InlayDetail } from '../../shared-analysis/src/features/inlay';
 import type { Severity } from '../../shared-analysis/src/types';
+import { crossCheckCorners, OPTION_RULES, type NumberRule } from './option-rules';
 
 /** Everything the server takes from the `qpoint` configuration section. */
 export interface ServerSettings {
   options: AnalysisOptions;
   inlayDetail: InlayDetail;
   analysisDelayMs: number;
+  /** Lets `.include` read files outside the workspace and the netlist's folder tree (still regular files within the limits). */
+  includesAnywhere: boolean;
 }
 
 /** The settings when the client sends none. */
-export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200 };
+export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200, includesAnywhere: false };
 
 const SERIES: ResistorSeries[] = ['E12', 'E24', 'E48', 'E96', 'E192'];
 const SEVERITIES: (Severity | 'off')[] = ['error', 'warning', 'info', 'hint', 'off'];
@@ -36,10 +39,10 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
     }
     return cur;
   };
-  const num = (path: string, check: (v: number) => boolean, rule: string): number | undefined => {
+  const num = (path: string, { ok, rule }: NumberRule): number | undefined => {
     const v = get(path);
     if (v === undefined || v === null) return undefined;
-    if (typeof v !== 'number' || !Number.isFinite(v) || !check(v)) {
+    if (typeof v !== 'number' || !Number.isFinite(v) || !ok(v)) {
       problems.push(`Setting qpoint.${path} = ${JSON.stringify(v)} is ignored: it must be ${rule}.`);
       return undefined;
     }
@@ -47,26 +50,32 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   };
 
   const options: AnalysisOptions = {};
-  const temperature = num('temperatureCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  const temperature = num('temperatureCelsius', OPTION_RULES.temperatureC);
   if (temperature !== undefined) options.temperatureC = temperature;
 
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const enabled = get('corners.enabled');
   if (typeof enabled === 'boolean') corners.enabled = enabled;
   else if (enabled !== undefined && enabled !== null) problems.push(`Setting qpoint.corners.enabled = ${JSON.stringify(enabled)} is ignored: it must be true or false.`);
-  const tol = num('corners.supplyTolerancePercent', (v) => v >= 0 && v <= 50, 'a percentage from 0 to 50');
+  const tol = num('corners.supplyTolerancePercent', OPTION_RULES.supplyTolerancePercent);
   if (tol !== undefined) corners.supplyTolerance = tol / 100;
-  const cold = num('corners.coldCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  const cold = num('corners.coldCelsius', OPTION_RULES.coldC);
   if (cold !== undefined) corners.coldC = cold;
-  const hot = num('corners.hotCelsius', (v) => v > -273.15 && v < 1000, 'a temperature in °C above absolute zero');
+  const hot = num('corners.hotCelsius', OPTION_RULES.hotC);
   if (hot !== undefined) corners.hotC = hot;
-  const betaLow = num('corners.betaLowFactor', (v) => v > 0, 'a positive factor');
+  const betaLow = num('corners.betaLowFactor', OPTION_RULES.betaLow);
   if (betaLow !== undefined) corners.betaLow = betaLow;
-  const betaHigh = num('corners.betaHighFactor', (v) => v > 0, 'a positive factor');
+  const betaHigh = num('corners.betaHighFactor', OPTION_RULES.betaHigh);
   if (betaHigh !== undefined) corners.betaHigh = betaHigh;
+  const crossed = crossCheckCorners(corners, { cold: 'qpoint.corners.coldCelsius', hot: 'qpoint.corners.hotCelsius' });
+  if (crossed.length) {
+    for (const c of crossed) problems.push(`${c} Both corner temperatures are ignored.`);
+    delete corners.coldC;
+    delete corners.hotC;
+  }
   if (Object.keys(corners).length) options.corners = corners;
 
-  const margin = num('headroomMarginVolts', (v) => v >= 0 && v < 1000, 'a voltage of 0 or more');
+  const margin = num('headroomMarginVolts', OPTION_RULES.headroomMarginV);
   if (margin !== undefined) options.headroomMarginV = margin;
 
   const series = get('resistorSeries');
@@ -88,9 +97,17 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   if (typeof detail === 'string' && (DETAILS as string[]).includes(detail)) inlayDetail = detail as InlayDetail;
   else if (detail !== undefined && detail !== null) problems.push(`Setting qpoint.inlayHints.detail = ${JSON.stringify(detail)} is ignored: it must be one of ${DETAILS.join(', ')}.`);
 
-  const delay = num('analysisDelayMs', (v) => v >= 0 && v <= 60000, 'a number of milliseconds from 0 to 60000');
+  const delay = num('analysisDelayMs', { ok: (v) => v >= 0 && v <= 60000, rule: 'a number of milliseconds from 0 to 60000' });
 
-  return { settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs }, problems };
+  const anywhere = get('includes.readOutsideWorkspace');
+  if (anywhere !== undefined && anywhere !== null && typeof anywhere !== 'boolean') {
+    problems.push(`Setting qpoint.includes.readOutsideWorkspace = ${JSON.stringify(anywhere)} is ignored: it must be true or false.`);
+  }
+
+  return {
+    settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true },
+    problems,
+  };
 }
 
 function isRecord(v: unknown): v is Record<string, unknown> {

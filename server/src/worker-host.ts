@@ -9,6 +9,7 @@ import { mergePart } from './analysis-transfer';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
+import type { ReadPolicy } from './read-policy';
 
 /** Options for {@link WorkerHost}. */
 export interface WorkerHostOptions {
@@ -50,6 +51,8 @@ export class WorkerHost {
     this.start();
   }
 
+  private policy: ReadPolicy | undefined;
+
   private start(): void {
     const w = new Worker(this.options.script);
     w.on('message', (msg: FromWorker) => this.onMessage(msg));
@@ -68,6 +71,7 @@ export class WorkerHost {
     // The worker must not keep the server process alive on shutdown.
     w.unref();
     this.worker = w;
+    if (this.policy) w.postMessage({ type: 'read-policy', policy: this.policy } satisfies ToWorker);
     for (const [uri, text] of this.texts) w.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
   }
 
@@ -92,6 +96,12 @@ export class WorkerHost {
     if (text === undefined) this.texts.delete(uri);
     else this.texts.set(uri, text);
     this.worker?.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
+  }
+
+  /** Sets what the worker may read from disk (kept, and sent again to a restarted worker). */
+  setReadPolicy(policy: ReadPolicy): void {
+    this.policy = policy;
+    this.worker?.postMessage({ type: 'read-policy', policy } satisfies ToWorker);
   }
 
   /** Tells the worker these files changed on disk (none given: any file may have changed). */

@@ -6,6 +6,7 @@ import type { OutputCharacteristicResult } from '../../shared-analysis/src/featu
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { ReadPolicy } from './read-policy';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
 export interface SizingCandidateData {
@@ -34,6 +35,8 @@ export type ToWorker =
   | { type: 'set-document'; uri: string; text: string | undefined }
   /** Files changed on disk: forget what was read of them (`uris` absent: of every file). */
   | { type: 'files-changed'; uris?: string[] }
+  /** What the worker may read from disk (trust, allowed roots); each root netlist's folder is added per analysis. */
+  | { type: 'read-policy'; policy: ReadPolicy }
   /** `cornersLater`: analyse without corners and keep what the `corners` request needs to solve them next. */
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean }
   /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */

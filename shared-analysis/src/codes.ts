@@ -16,9 +16,10 @@ export interface CodeInfo {
   group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'corners' | 'targets' | 'fixes' | 'host';
 }
 
-/** Codes a host reports about the analysis itself (the language server; the engine never emits them). */
+/** Codes a host reports about the analysis itself (the language server or the CLI; the engine never emits them). */
 export const HOST_CODES: Record<string, { severity: Severity; summary: string }> = {
-  'analysis-stopped': { severity: 'error', summary: 'The language server stopped an analysis that failed or ran past its time limit; the last finished results stay shown.' },
+  'analysis-stopped': { severity: 'error', summary: 'An analysis failed or ran past its time limit (the language server keeps the last finished results shown; the CLI exits with code 3).' },
+  'file-unreadable': { severity: 'error', summary: 'A netlist named on the command line cannot be read (missing, not a regular text file, or too large); the CLI exits with code 3.' },
 };
 
 /** Code -> default severity, one-line summary and owning group. */

@@ -11,6 +11,7 @@ import { runCorners, type CornerStats } from './checks/corners';
 import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
+import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Workspace } from './types';
 
 declare const performance: { now(): number };
@@ -100,7 +101,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     documents: elab.documents,
     circuit,
     symbols: elab.symbols,
-    findings: sortFindings(applySeverities(findings, resolved), input.uri),
+    findings: sortFindings(applySeverities(limitIncludedExcerpts(findings, input.uri, elab.documents, elab.symbols.includes), resolved), input.uri),
     operatingPoint,
     structures,
     options: resolved,
@@ -157,7 +158,8 @@ export function sizingFixesOf(session: AnalysisSession, finding: Finding): Fix[]
 /** Appends the sizing fixes to every `target-missed` finding of the session's analysis (for reports that list all fixes). */
 export function attachAllSizingFixes(session: AnalysisSession): void {
   const { analysis, solver } = session;
-  if (!solver || !analysis.circuit) return;
+  // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
+  if (!solver || !analysis.circuit || !session.nominal) return;
   attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
 }
 

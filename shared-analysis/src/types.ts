@@ -61,6 +61,11 @@ export interface Workspace {
   read(uri: string): string | undefined;
   /** The id of `ref` (as written in an .include or .lib card) relative to the including document. */
   resolve(fromUri: string, ref: string): string;
+  /**
+   * Why the last `read` of `uri` gave nothing, as a fragment that follows the file's name
+   * ("does not exist", "is a pipe, not a netlist file"); undefined when the host does not say.
+   */
+  whyUnreadable?(uri: string): string | undefined;
 }
 
 /** A Workspace over a fixed map of documents; paths resolve like POSIX paths. For tests and demos. */

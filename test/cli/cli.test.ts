@@ -89,9 +89,9 @@ describe('qpoint check', () => {
     expect(run0.tool.driver.rules.map((x: { id: string }) => x.id)).toContain('model-not-found');
   });
 
-  it('reports an unreadable file as a finding, not a crash', () => {
+  it('reports an unreadable file as a finding, not a crash, and exits 3 (qpoint failed)', () => {
     const r = run(['check', join(dir, 'does-not-exist.cir')]);
-    expect(r.code).toBe(1);
+    expect(r.code).toBe(3);
     expect(r.stdout).toMatch(/error file-unreadable Cannot read/);
   });
 
@@ -113,7 +113,8 @@ describe('qpoint check', () => {
   });
 
   it('survives binary junk', () => {
-    const p = file('junk.cir', '\u0000\u0001\uD800garbage {{{ \n+ + +\n.subckt\n');
+    // Control bytes and a lone surrogate, but no NUL (a NUL makes the file binary, which is refused unread).
+    const p = file('junk.cir', '\u0002\u0001\uD800garbage {{{ \n+ + +\n.subckt\n');
     const r = run(['check', p]);
     expect([0, 1]).toContain(r.code);
     expect(r.stderr).toBe('');

@@ -50,6 +50,10 @@ export interface StartOptions {
   /** The qpoint settings section the client hands out on workspace/configuration. */
   settings?: Record<string, unknown>;
   positionEncodings?: string[];
+  /** Sent as initializationOptions (the VS Code client sends `{ workspaceTrusted }`). */
+  initializationOptions?: unknown;
+  /** Workspace folder URIs. */
+  workspaceFolders?: string[];
 }
 
 /** Spawns `node dist/server.js --stdio` and initializes it like an editor would. */
@@ -123,7 +127,8 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
       window: { workDoneProgress: true },
       textDocument: { publishDiagnostics: { relatedInformation: true }, inlayHint: {}, hover: { contentFormat: ['markdown'] } },
     },
-    workspaceFolders: null,
+    workspaceFolders: options.workspaceFolders ? options.workspaceFolders.map((uri, i) => ({ uri, name: `folder${i}` })) : null,
+    ...(options.initializationOptions !== undefined ? { initializationOptions: options.initializationOptions } : {}),
   });
   await connection.sendNotification(InitializedNotification.type, {});
   return session;

@@ -1,6 +1,8 @@
 // The one mapping from the editor's qpoint.* settings to AnalysisOptions and the server's own knobs.
 
 import { describe, expect, it } from 'vitest';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { settingsFromConfiguration } from '../../server/src/settings';
 import { resolveOptions } from '../../shared-analysis/src/analysis';
 
@@ -56,6 +58,20 @@ describe('settings mapping', () => {
       betaLow: 0.5,
       betaHigh: 2,
     });
+  });
+
+  it('refuses a hot corner at or below the cold one, and beta factors that swap the corners', () => {
+    check({ corners: { coldCelsius: 50, hotCelsius: 20 } }, { options: {}, problems: [/qpoint.corners.hotCelsius \(20 °C\) must be above qpoint.corners.coldCelsius \(50 °C\)/] });
+    check({ corners: { hotCelsius: -50 } }, { options: {}, problems: [/must be above/] });
+    check({ corners: { betaLowFactor: 1.5, betaHighFactor: 0.5 } }, { options: {}, problems: [/betaLowFactor/, /betaHighFactor/] });
+  });
+
+  it('declares limited support for untrusted workspaces, with the read-anywhere setting restricted there', () => {
+    const pkg = JSON.parse(readFileSync(join(__dirname, '../../package.json'), 'utf8'));
+    expect(pkg.capabilities.untrustedWorkspaces.supported).toBe('limited');
+    expect(pkg.capabilities.untrustedWorkspaces.restrictedConfigurations).toContain('qpoint.includes.readOutsideWorkspace');
+    expect(settingsFromConfiguration({ includes: { readOutsideWorkspace: true } }).settings.includesAnywhere).toBe(true);
+    expect(settingsFromConfiguration({}).settings.includesAnywhere).toBe(false);
   });
 
   it('ignores bad values one by one, saying why', () => {

@@ -9,7 +9,8 @@ import type { Severity } from '../types';
  */
 export const NETLIST_CODES: Record<string, { severity: Severity; summary: string }> = {
   // Files.
-  'include-not-found': { severity: 'error', summary: 'An .include or .lib names a file that cannot be read.' },
+  'include-not-found': { severity: 'error', summary: 'An .include or .lib names a file that cannot be read, or that qpoint may not read (outside the allowed folders, not a regular text file, too large, on a network share); the message says which.' },
+  'include-not-netlist': { severity: 'error', summary: 'An included file does not read as a netlist (most of its cards unreadable); none of its text is quoted.' },
   'include-cycle': { severity: 'error', summary: 'Files include each other in a cycle; the chain is named and the repeated file is not read again.' },
   'include-repeated': { severity: 'info', summary: 'A file (or library section) already read is included again; it is not read a second time.' },
   'include-too-deep': { severity: 'error', summary: 'Includes nest deeper than the limit; the deeper files are not read.' },

@@ -154,9 +154,12 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
     const doc = loadDocument(target);
     includes.push({ uri: fromUri, span: pathToken.span, target, found: doc !== undefined });
     if (!doc) {
-      sink.add('include-not-found', `The file \`${ref}\` cannot be read (looked for \`${target}\`); nothing from it is included.`, fromUri, pathToken.span, undefined, {
+      const why = workspace.whyUnreadable?.(target);
+      const reason = why ? `\`${target}\` ${why}` : `looked for \`${target}\``;
+      sink.add('include-not-found', `The file \`${ref}\` cannot be read (${reason}); nothing from it is included.`, fromUri, pathToken.span, undefined, {
         path: ref,
         target,
+        ...(why ? { reason: why } : {}),
       });
       return;
     }

@@ -124,6 +124,21 @@ describe('sizing fixes on demand', () => {
     expect(f.fixes).toEqual(one);
   });
 
+  it('sizes nothing when the operating point did not converge (no nominal solution to re-solve from)', () => {
+    const s = analyseText(missed);
+    let solves = 0;
+    const solver = s.solver!;
+    const solve = solver.solve.bind(solver);
+    solver.solve = ((...args: Parameters<typeof solve>) => {
+      solves++;
+      return solve(...args);
+    }) as typeof solver.solve;
+    // A session without a converged nominal solution is what analyseSession returns when Newton fails.
+    attachAllSizingFixes({ ...s, nominal: undefined });
+    expect(solves).toBe(0);
+    expect(s.analysis.findings.find((x) => x.code === 'target-missed')!.fixes).toBeUndefined();
+  });
+
   it('offers nothing for a malformed marker, another code, or a session without a solver', () => {
     const s = analyseText(missed);
     const f = s.analysis.findings.find((x) => x.code === 'target-missed')!;
