@@ -1,7 +1,8 @@
-// Writes the README's finding-code table from the engine's code catalogue (`npm run docs:codes`).
+// Writes the README's finding-code table and structure-kind table from the engine's catalogues (`npm run docs:codes`).
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { findingCatalogue } from '../shared-analysis/src/codes';
+import { KINDS } from '../shared-analysis/src/structures/catalogue';
 
 const START = '<!-- codes:start -->';
 const END = '<!-- codes:end -->';
@@ -38,7 +39,26 @@ export function withCodesTable(readme: string): string {
   return readme.slice(0, a + START.length) + '\n' + codesMarkdown() + '\n' + readme.slice(b);
 }
 
+const KINDS_START = '<!-- kinds:start -->';
+const KINDS_END = '<!-- kinds:end -->';
+
+/** The markdown table of structure kinds, in the order recognition tries them. */
+export function kindsMarkdown(): string {
+  const techs = (t: readonly string[]) => t.map((x) => x.toUpperCase()).join(', ');
+  const lines = ['| kind | name | technologies | what it is |', '|---|---|---|---|'];
+  for (const k of KINDS) lines.push(`| \`${k.id}\` | ${k.name} | ${techs(k.technologies)} | ${k.summary.replace(/\|/g, '\\|')} |`);
+  return lines.join('\n');
+}
+
+/** README text with the kinds table between its markers replaced by the current one. */
+export function withKindsTable(readme: string): string {
+  const a = readme.indexOf(KINDS_START);
+  const b = readme.indexOf(KINDS_END);
+  if (a < 0 || b < a) throw new Error(`README.md lacks the ${KINDS_START} … ${KINDS_END} markers.`);
+  return readme.slice(0, a + KINDS_START.length) + '\n' + kindsMarkdown() + '\n' + readme.slice(b);
+}
+
 if (require.main === module) {
   const path = join(process.cwd(), 'README.md');
-  writeFileSync(path, withCodesTable(readFileSync(path, 'utf8')));
+  writeFileSync(path, withKindsTable(withCodesTable(readFileSync(path, 'utf8'))));
 }

@@ -5,11 +5,13 @@ import type { Circuit, Element, Model } from '../circuit';
 import type { OperatingPoint } from '../solve/types';
 import { estimateStructure } from '../structures/estimate';
 import { eng, percent, sig, signedVolts } from '../structures/format';
-import { bjtRo, degeneratedRo, degeneratedRoWithBase, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
+import { kindName, kindOf, referenceJunctions } from '../structures/catalogue';
+import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
+import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
-import type { Structure, StructureKind } from '../structures/types';
+import type { Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 
 export { measureStructure } from '../structures/measure';
@@ -60,16 +62,6 @@ export interface StructureCheckContext {
   options: ResolvedOptions;
 }
 
-const KIND_LABEL: Record<StructureKind, string> = {
-  'simple-mirror': 'simple mirror',
-  'helper-mirror': 'mirror with base-current helper',
-  'widlar-source': 'Widlar source',
-  'wilson-mirror': 'Wilson mirror',
-  'improved-wilson-mirror': 'improved Wilson mirror',
-  'cascode-mirror': 'cascode mirror',
-  'degenerated-mirror': 'degenerated mirror',
-};
-
 /**
  * Fills estimate, solved, headroom, compliance, outputResistance and discrepancy on each
  * structure (mutating them) and returns the findings. Without a converged operating
@@ -91,7 +83,7 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
       out.push({
         code: 'structure-analysis-incomplete',
         severity: STRUCTURE_CODES['structure-analysis-incomplete'].severity,
-        message: `The hand analysis of the ${KIND_LABEL[s.kind]} on ${s.reference.device} could not be completed (${err instanceof Error ? err.message : String(err)}); its currents are not annotated.`,
+        message: `The hand analysis of the ${kindName(s.kind)} on ${s.reference.device} could not be completed (${err instanceof Error ? err.message : String(err)}); its currents are not annotated.`,
         uri: dev?.origin.uri ?? '',
         span: dev?.origin.span ?? { start: 0, end: 0 },
       });
@@ -240,7 +232,7 @@ class StructureCheck {
    * gm = IC/(NF·VT), rπ = β/gm, ro = VA/IC (Gray et al., ch. 1); gm = sqrt(2·KP·(W/L)·M·ID),
    * ro = 1/(λ·ID) (Razavi, ch. 2).
    */
-  private smallSignal(name: string, i: number): { gm: number; ro: number; rpi: number; beta: number } {
+  private smallSignal(name: string, i: number): SmallSignal {
     const t = this.t(name);
     const p = t.element.model.params;
     const rec = this.op?.devices[name];
@@ -273,7 +265,15 @@ class StructureCheck {
 
   private outputResistance(): Record<string, number> {
     const res: Record<string, number> = {};
-    const par = (a: number, b: number) => (a >= UNBOUNDED_OHMS ? b : b >= UNBOUNDED_OHMS ? a : (a * b) / (a + b));
+    const kind = kindOf(this.s.kind);
+    const ctx: ResistanceContext = {
+      s: this.s,
+      bipolar: this.bipolar,
+      smallSignal: (name, i) => this.smallSignal(name, i),
+      feedOhms: () => this.feedOhms(),
+      irefOr: (fallback) => this.measured?.iref || this.s.estimate?.iref || fallback,
+      withRole: (role) => this.s.devices.find((d) => this.s.roles?.[d] === role),
+    };
     for (const o of this.s.outputs) {
       const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;
       if (!(i > 0)) {
@@ -281,43 +281,7 @@ class StructureCheck {
         continue;
       }
       const out = this.smallSignal(o.device, i);
-      const partnerName = (role: 'lower-partner' | 'lower-diode' | 'reference') => this.s.devices.find((d) => this.s.roles?.[d] === role);
-      let r: number;
-      if (out.ro >= UNBOUNDED_OHMS) r = UNBOUNDED_OHMS;
-      else if (this.s.kind === 'degenerated-mirror' && o.degeneration) {
-        // Source: Gray et al., ch. 3 — degenerated output with a base-side resistance RB (from memory; node analysis in
-        // formulas.ts). RB is the reference side seen from the base node: 1/(gm1 + 1/rπ1) + R1 of the diode-connected
-        // reference with its emitter resistor, in parallel with the feed.
-        const iin = this.measured?.iref || this.s.estimate?.iref || i;
-        const q1 = this.smallSignal(this.s.reference.device, iin);
-        const r1 = this.s.reference.degeneration?.ohms ?? 0;
-        const diode = q1.gm > 0 ? 1 / (q1.gm + (Number.isFinite(q1.rpi) && q1.rpi > 0 ? 1 / q1.rpi : 0)) + r1 : UNBOUNDED_OHMS;
-        r = degeneratedRoWithBase(out.ro, out.gm, o.degeneration.ohms, out.rpi, par(diode, this.feedOhms()));
-      } else if (this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'helper-mirror') {
-        // Source: Gray et al., ch. 3/4 — ro·(1 + gm·(R2∥rπ)) + R2∥rπ for a degenerated output (from memory); plain ro otherwise.
-        r = o.degeneration ? degeneratedRo(out.ro, out.gm, o.degeneration.ohms, out.rpi) : out.ro;
-      } else if (this.bipolar) {
-        // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — Wilson Rout ≈ β·ro/2 (from memory). For the cascode
-        // mirror the reference-side diode returns the output's base-current change too, which halves the β·ro
-        // bound of a cascode with a fixed base bias: ≈ β·ro/2 (checked against the solver in the reference tests).
-        r = (out.beta * out.ro) / 2;
-      } else if (this.s.kind === 'cascode-mirror') {
-        // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + gm4·ro4·ro2 (body effect left out; from memory).
-        const low = partnerName('lower-partner');
-        const ro2 = low ? this.smallSignal(low, i).ro : out.ro;
-        r = ro2 >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro + ro2 + out.gm * out.ro * ro2;
-      } else {
-        // MOS Wilson by its small-signal loop: the input device Q1 turns the lower diode's voltage change into
-        // a gate drive of the output through (ro1 ∥ R_feed): Rout ≈ ro3·(1 + gm3·(gm1/gm2)·(ro1 ∥ R_feed))
-        // (derived as in Gray et al., ch. 4 for the Wilson source; a resistor feed lowers it below gm·ro²).
-        const inputName = this.s.kind === 'wilson-mirror' ? this.s.reference.device : partnerName('lower-partner');
-        const diodeName = partnerName('lower-diode');
-        const iin = this.measured?.iref || this.s.estimate?.iref || i;
-        const q1 = inputName ? this.smallSignal(inputName, iin) : out;
-        const q2 = diodeName ? this.smallSignal(diodeName, i) : out;
-        const loopR = par(q1.ro, this.feedOhms());
-        r = loopR >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro * (1 + out.gm * (q2.gm > 0 ? q1.gm / q2.gm : 1) * loopR);
-      }
+      const r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(ctx, o, out, i);
       res[o.device] = Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
     }
     return res;
@@ -358,7 +322,7 @@ class StructureCheck {
       return this.bipolar ? Number.isFinite(p.VAF ?? Infinity) && (p.VAF ?? 0) > 0 : (p.LAMBDA ?? 0) > 0;
     });
     if (finiteEarly) {
-      const earlyInFormula = s.kind !== 'cascode-mirror' && s.kind !== 'improved-wilson-mirror';
+      const earlyInFormula = kindOf(s.kind).earlyInFormula;
       const vceMismatch = s.outputs.some((o) => {
         const t = this.t(o.device);
         const vo = this.v(t.out);
@@ -376,14 +340,7 @@ class StructureCheck {
       reasons.push(`IREF comes from ${s.reference.elements[0]} of ${s.reference.fedBy}, which delivers ${eng(irefRow.solved, 'A')} against ${eng(irefRow.est, 'A')} by hand (see that structure)`);
     if (irefRow && Math.abs(irefRow.rel) > DISCREPANCY_THRESHOLD && reasons.length === 0)
       reasons.push(`the reference branch: IREF ${eng(irefRow.est, 'A')} by hand against ${eng(irefRow.solved, 'A')} solved, so something else on the reference node draws or supplies current`);
-    if (reasons.length === 0)
-      reasons.push(
-        s.kind === 'degenerated-mirror'
-          ? 'the simplifications of the degenerated-mirror equation (equal-beta base currents, Early effect only through the output)'
-          : s.outputs.some((o) => o.degeneration)
-            ? 'the Widlar equation neglects the reference base currents and the Early effect'
-            : 'the simplifications of the hand formula',
-      );
+    if (reasons.length === 0) reasons.push(kindOf(s.kind).simplifications(s));
     return reasons.join('; ');
   }
 
@@ -403,7 +360,7 @@ class StructureCheck {
         if (members.has(a.element.name) || feed.has(a.element.name)) continue;
         if (n === this.topo.nodeIndex.get(this.s.reference.node) && this.s.reference.feed === 'other' && a.slot !== 1) continue;
         // The helper's pull-downs on its emitter node are part of the hand analysis.
-        if (this.s.kind === 'helper-mirror' && (a.element.kind === 'R' || a.element.kind === 'I')) continue;
+        if (kindOf(this.s.kind).pullDownsInFormula && (a.element.kind === 'R' || a.element.kind === 'I')) continue;
         names.add(a.element.name);
       }
     }
@@ -431,7 +388,7 @@ class StructureCheck {
     for (const d of this.s.devices) {
       if (except.includes(d)) continue;
       const el = this.topo.elementByName.get(d);
-      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: ${this.s.roles?.[d] ?? 'device'} of the ${KIND_LABEL[this.s.kind]}` });
+      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: ${this.s.roles?.[d] ?? 'device'} of the ${kindName(this.s.kind)}` });
     }
     for (const r of this.s.reference.elements) {
       if (except.includes(r)) continue;
@@ -464,7 +421,7 @@ class StructureCheck {
       this.emit(
         'reference-starved',
         at,
-        `${first?.name ?? 'The current source'} drives current out of the reference node ${ref.node}, the wrong way for the ${this.s.technology.toUpperCase()} reference ${ref.device}: the ${KIND_LABEL[this.s.kind]} carries no current.`,
+        `${first?.name ?? 'The current source'} drives current out of the reference node ${ref.node}, the wrong way for the ${this.s.technology.toUpperCase()} reference ${ref.device}: the ${kindName(this.s.kind)} carries no current.`,
         { referenceDevice: ref.device, iref: est.iref },
       );
       return;
@@ -472,10 +429,10 @@ class StructureCheck {
     const sup = est.supply;
     const chain = ref.elements.join(' + ');
     const stackWord = this.bipolar ? 'VBE' : 'VTH';
-    const n = this.s.kind === 'simple-mirror' || this.s.kind === 'widlar-source' || this.s.kind === 'degenerated-mirror' ? 1 : 2;
+    const n = referenceJunctions(this.s);
     const msg = sup
-      ? `The supply cannot forward-bias the reference of the ${KIND_LABEL[this.s.kind]} on ${ref.device}: ${eng(sup.available, 'V')} across ${chain} and the reference chain, below the ${eng(sup.needed, 'V')} that ${n > 1 ? `${n} stacked ${stackWord}s need` : `one ${stackWord} needs`}${this.bipolar ? ' (about 0.6 V each)' : ''}; IREF by hand is only ${eng(est.iref, 'A')}.`
-      : `The reference resistor chain ${chain} of the ${KIND_LABEL[this.s.kind]} on ${ref.device} has no usable resistance; IREF cannot be set.`;
+      ? `The supply cannot forward-bias the reference of the ${kindName(this.s.kind)} on ${ref.device}: ${eng(sup.available, 'V')} across ${chain} and the reference chain, below the ${eng(sup.needed, 'V')} that ${n > 1 ? `${n} stacked ${stackWord}s need` : `one ${stackWord} needs`}${this.bipolar ? ' (about 0.6 V each)' : ''}; IREF by hand is only ${eng(est.iref, 'A')}.`
+      : `The reference resistor chain ${chain} of the ${kindName(this.s.kind)} on ${ref.device} has no usable resistance; IREF cannot be set.`;
     this.emit('reference-starved', at, msg, { referenceDevice: ref.device, availableV: sup?.available, neededV: sup?.needed, iref: est.iref, resistors: ref.elements });
   }
 
@@ -506,7 +463,7 @@ class StructureCheck {
           const vov = rec && rec.type === 'mosfet' ? rec.vov : 0;
           what = `is in triode at the operating point: ${this.sign > 0 ? 'VDS' : 'VSD'} is ${eng(-head, 'V')} below the overdrive ${this.sign > 0 ? 'VGS − VTH' : 'VSG − |VTH|'} = ${eng(vov, 'V')}`;
         }
-        parts.push(`${o.device} (output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}) ${what}.`);
+        parts.push(`${o.device} (output of the ${kindName(this.s.kind)} on ${this.s.reference.device}) ${what}.`);
         if (active > 0) parts.push(`It carries ${eng(solved, 'A')} against ${eng(active, 'A')} expected in the active region (${percent(err)}).`);
         const data: Record<string, unknown> = { device: o.device, region, pastEdgeV: -head, solvedA: solved, activeA: active, currentError: err, outputNode: o.node, outputV: vout };
         if (edge !== undefined && region !== 'cutoff') {
@@ -533,7 +490,7 @@ class StructureCheck {
         this.emit(
           'mirror-headroom-low',
           t.element,
-          `${o.device} (output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}) has ${eng(head, 'V')} of headroom, under the ${eng(margin, 'V')} margin: V(${o.node}) = ${eng(vout ?? 0, 'V')}${edgeText}${basis}.`,
+          `${o.device} (output of the ${kindName(this.s.kind)} on ${this.s.reference.device}) has ${eng(head, 'V')} of headroom, under the ${eng(margin, 'V')} margin: V(${o.node}) = ${eng(vout ?? 0, 'V')}${edgeText}${basis}.`,
           { device: o.device, headroomV: head, marginV: margin, outputV: vout, edgeV: edge },
         );
       }
@@ -562,7 +519,7 @@ class StructureCheck {
         t.element,
         `${u.device} uses model ${u.model.name} while the reference ${refT.name} uses ${refModel.name}; they differ in ${u.differing
           .map((k) => `${k} (${sig(u.model.params[k])} vs ${sig(refModel.params[k])})`)
-          .join(', ')}, which shifts the ${KIND_LABEL[this.s.kind]}'s ratio by about ${percent(err)}.`,
+          .join(', ')}, which shifts the ${kindName(this.s.kind)}'s ratio by about ${percent(err)}.`,
         { device: u.device, referenceDevice: refT.name, models: [refModel.name, u.model.name], differing: u.differing, ratioErrorPercent: err * 100 },
       );
     }
@@ -605,39 +562,10 @@ class StructureCheck {
   }
 
   private checkRatios(): void {
-    const est = this.s.estimate;
+    const kind = kindOf(this.s.kind);
     for (const o of this.s.outputs) {
-      const r1 = this.s.reference.degeneration?.ohms;
-      const resistorRatio = this.s.kind === 'degenerated-mirror' && r1 !== undefined && o.degeneration ? r1 / o.degeneration.ohms : 1;
-      if (Math.abs(o.ratio - 1) < 1e-9 && Math.abs(resistorRatio - 1) < 1e-9) continue;
-      const t = this.t(o.device);
-      if (this.s.kind === 'degenerated-mirror' && o.degeneration && r1 !== undefined) {
-        const value = est && est.irefFrom !== 'unknown' ? `; by hand IOUT = ${eng(est.iout[o.device] ?? 0, 'A')} against IREF = ${eng(est.iref, 'A')} (1:${sig((est.iout[o.device] ?? 0) / (est.iref || 1))})` : '';
-        const geometry = Math.abs(o.ratio - 1) < 1e-9 ? '' : ` and ${sig(o.ratio)} by ${this.bipolar ? 'area × M' : '(W/L) × M'}`;
-        this.emit(
-          'mirror-ratio',
-          t.element,
-          `${o.device} is a ratioed output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device}: ${this.s.reference.degeneration!.resistor}/${o.degeneration.resistor} = ${eng(r1, 'Ω')}/${eng(o.degeneration.ohms, 'Ω')} = ${sig(resistorRatio)}${geometry}. IOUT/IREF tends to R1/R2 when the resistor drops are much larger than ${this.bipolar ? 'VT' : 'the overdrive'}${value}.`,
-          { device: o.device, ratio: o.ratio, resistorRatio, iout: est?.iout[o.device] },
-        );
-        continue;
-      }
-      // Widlar outputs carry far less than their ratio; the estimate counts their base currents separately.
-      const sumM = this.s.outputs.filter((x) => !x.degeneration).reduce((a, x) => a + x.ratio, 0);
-      let formula: string;
-      if (o.degeneration) formula = `IOUT from the Widlar equation with the ratio inside the logarithm, NF·VT·ln(${sig(o.ratio)}·IC1/IOUT) = IOUT·R2`;
-      else if (!this.bipolar) formula = `IOUT ≈ ${sig(o.ratio)}·IREF`;
-      else if (this.s.kind === 'simple-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/β)`;
-      else if (this.s.kind === 'helper-mirror') formula = `IOUT ≈ ${sig(o.ratio)}·IREF/(1 + ${sig(1 + sumM)}/(β(β + 1)))`;
-      else formula = `IOUT ≈ ${sig(o.ratio)}·IREF by geometry`;
-      const value = est && est.irefFrom !== 'unknown' ? ` = ${eng(est.iout[o.device] ?? 0, 'A')} by hand` : '';
-      const what = this.bipolar ? 'area × M' : '(W/L) × M';
-      this.emit(
-        'mirror-ratio',
-        t.element,
-        `${o.device} is a 1:${sig(o.ratio)} output of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device} (${what} relative to the reference): ${formula}${value}.`,
-        { device: o.device, ratio: o.ratio, iout: est?.iout[o.device] },
-      );
+      const note = kind.ratio({ s: this.s, bipolar: this.bipolar, estimate: this.s.estimate }, o);
+      if (note) this.emit('mirror-ratio', this.t(o.device).element, note.message, note.data);
     }
   }
 
@@ -656,7 +584,7 @@ class StructureCheck {
     this.emit(
       'estimate-differs-from-solved',
       el,
-      `The hand estimate of the ${KIND_LABEL[this.s.kind]} on ${this.s.reference.device} differs from the operating point by more than ${sig(DISCREPANCY_THRESHOLD * 100)} %: ${list}. Likely: ${this.s.discrepancy}.`,
+      `The hand estimate of the ${kindName(this.s.kind)} on ${this.s.reference.device} differs from the operating point by more than ${sig(DISCREPANCY_THRESHOLD * 100)} %: ${list}. Likely: ${this.s.discrepancy}.`,
       { rows: rows.map((r) => ({ quantity: r.key, estimateA: r.est, solvedA: r.solved, relative: r.rel })), reason: this.s.discrepancy },
     );
   }

@@ -4,6 +4,7 @@ import type { Analysis, ParamSymbol } from '../analysis';
 import type { Element, Model } from '../circuit';
 import type { Card, ElementCard, Token } from '../syntax/ast';
 import type { DeviceRecord } from '../solve/types';
+import { capitalised, kindName } from '../structures/catalogue';
 import type { Structure } from '../structures/types';
 import type { Span } from '../types';
 import {
@@ -197,7 +198,7 @@ function structureSection(s: Structure, device: string): string {
   const isRef = s.reference.device.toLowerCase() === lower;
   const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
   const role = isRef ? 'reference (diode-connected) device' : out ? `output device (intended ratio ${formatNumber(out.ratio)})` : 'device';
-  const parts: string[] = [`**${kindLabel(s.kind)}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
+  const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
   const est = s.estimate;
   // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
   const steps = (est?.steps ?? []).filter((st) => !st.devices || st.devices.length === 0 || st.devices.some((d) => d.toLowerCase() === lower));
@@ -238,28 +239,6 @@ function compareLine(label: string, estimate: number | undefined, solved: number
   }
   if (solved !== undefined) return `${label}: solved ${formatQuantity(solved, 'A')}`;
   return `${label}: hand estimate ${formatQuantity(estimate ?? NaN, 'A')}`;
-}
-
-function kindLabel(kind: Structure['kind']): string {
-  switch (kind) {
-    case 'simple-mirror':
-      return 'Simple current mirror';
-    case 'helper-mirror':
-      return 'Current mirror with base-current helper';
-    case 'widlar-source':
-      return 'Widlar current source';
-    case 'wilson-mirror':
-      return 'Wilson current mirror';
-    case 'improved-wilson-mirror':
-      return 'Improved Wilson current mirror';
-    case 'cascode-mirror':
-      return 'Cascode current mirror';
-    case 'degenerated-mirror':
-      return 'Emitter/source-degenerated current mirror';
-    default:
-      // A kind added to the recogniser later still gets a readable name.
-      return String(kind).replace(/-/g, ' ');
-  }
 }
 
 function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): HoverResult | undefined {

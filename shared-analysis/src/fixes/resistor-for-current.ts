@@ -3,6 +3,7 @@
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
 import { DcSolver } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
+import { referenceJunctions } from '../structures/catalogue';
 import { measureStructure } from '../structures/measure';
 import { thermalVolts } from '../structures/formulas';
 import type { Structure } from '../structures/types';
@@ -199,7 +200,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     // Bipolar junctions move by n·VT·ln(ratio); a MOS gate–source drop follows the square law
     // instead, which the refinement below takes care of, so its first value keeps the drop fixed.
     const bipolar = structure.technology === 'npn' || structure.technology === 'pnp';
-    const junctions = bipolar ? Math.max(1, stackedJunctions(structure)) : 0;
+    const junctions = bipolar ? Math.max(1, referenceJunctions(structure)) : 0;
     const vAvailable = vR - junctions * deviceNf(circuit, structure.reference.device) * vt * Math.log(iRefTarget / iR);
     first = vAvailable > 0 ? vAvailable / iRefTarget : resistor.resistance * (i0 / target);
     firstValueFrom = 'reference-formula';
@@ -405,11 +406,6 @@ function resistorRole(s: Structure, name: string): 'reference' | 'widlar' | unde
   if (s.outputs.some((o) => o.degeneration?.resistor.toLowerCase() === want)) return 'widlar';
   if (s.reference.feed === 'resistor' && s.reference.elements.some((e) => e.toLowerCase() === want)) return 'reference';
   return undefined;
-}
-
-/** Junctions in series with a structure's reference resistor chain: two for Wilson and cascode stacks, else one. */
-function stackedJunctions(s: Structure): number {
-  return s.kind === 'cascode-mirror' || s.kind === 'wilson-mirror' || s.kind === 'improved-wilson-mirror' ? 2 : 1;
 }
 
 /** NF of a bipolar device (1 for MOS or when unknown). */

@@ -1,0 +1,329 @@
+// The shared hand-analysis context a structure kind computes with: device parameters at temperature, junction and square-law voltages, rails, recorded steps.
+
+import { MODEL_DEFAULTS, type Circuit, type Model } from '../circuit';
+import { eng, sig } from './format';
+import { diodeMosVgs, isAtTemperature, thermalVolts, thresholdWithBody, vbeAt } from './formulas';
+import { railsByIndex } from './rails';
+import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
+import type { EstimateStep, Structure, StructureRole } from './types';
+
+/** Where and how to evaluate the hand analysis. */
+export interface EstimateAt {
+  temperatureC: number;
+  /** Multiplies every BF (beta corners). */
+  betaScale?: number;
+  /** Node name -> volts, overriding the rails found in the circuit (supply corners). */
+  railVolts?: Record<string, number>;
+  /** Output device -> its output-node voltage (e.g. solved), for the Early / λ correction. */
+  outputVolts?: Record<string, number>;
+  /** The other structures of the circuit, so a mirror fed by another mirror's output can use that estimate. */
+  structures?: Structure[];
+  /** IREF to use when the feed cannot be estimated by hand (feed `other`), e.g. the solved one. */
+  irefGiven?: number;
+  /** Overrides of `Element.dc` by source name (supply corners on current sources). */
+  sourceValues?: Record<string, number>;
+}
+
+/** The parameters of one device at the analysis temperature, in the structure's own polarity. */
+export interface DeviceParams {
+  t: Transistor;
+  model: Model;
+  /** Bipolar: effective IS at temperature (× area × M). */
+  isEff: number;
+  nfVt: number;
+  beta: number;
+  va: number;
+  /** MOS: KP·W/L·M, own-polarity VTO, λ, γ, φ. */
+  kBeta: number;
+  vto: number;
+  lambda: number;
+  gamma: number;
+  phi: number;
+}
+
+/** What a kind's analysis returns for one IREF (the steps go into the {@link Chain}). */
+export interface ChainResult {
+  /** Voltage of the reference node above (NPN/NMOS) or below (PNP/PMOS) the common rail. */
+  stack: number;
+  /** VBE/VGS of the reference device. */
+  vControl: number;
+  /** Reference device current. */
+  iRef: number;
+  iout: Record<string, number>;
+  /** Output device -> output-node edge voltage relative to the common rail (own polarity). */
+  edge: Record<string, number>;
+}
+
+/** One output of the structure with its device parameters. */
+export interface OutputParams {
+  o: Structure['outputs'][number];
+  p: DeviceParams;
+}
+
+/** Source names the formula steps cite. */
+export const GRAY = 'Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4';
+export const RAZAVI = 'Razavi, Design of Analog CMOS Integrated Circuits, ch. 5';
+export const SQUARE_LAW = 'square law, Shichman and Hodges, IEEE JSSC, 1968';
+
+/**
+ * The steps of one evaluation of a structure at one IREF. Steps are formatted only when
+ * `record` is set: the IREF solve evaluates the chain dozens of times per structure.
+ */
+export class Chain {
+  readonly steps: EstimateStep[] = [];
+
+  constructor(
+    private readonly h: Hand,
+    readonly record: boolean,
+  ) {}
+
+  push(x: () => EstimateStep): void {
+    if (this.record) this.steps.push(x());
+  }
+
+  /** VBE (junction law) or VGS (square law) of `p` at current `i`, with its step. */
+  junction(label: string, p: DeviceParams, i: number, vsb: number): number {
+    const h = this.h;
+    if (h.bipolar) {
+      const v = h.vbe(p, i);
+      this.push(() => ({
+        quantity: `VBE(${p.t.name})`,
+        formula: 'NF·VT·ln(IC/IS(T) + 1), IS scaled by area × M (junction law)',
+        substituted: `${sig(p.nfVt / h.vt, 3)} × ${eng(h.vt, 'V', 4)} × ln(${eng(i, 'A')}/${sig(p.isEff, 3)} A + 1)${label}`,
+        value: v,
+        unit: 'V',
+        devices: [p.t.name],
+      }));
+      return v;
+    }
+    const v = h.vgs(p, i, vsb);
+    const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    this.push(() => ({
+      quantity: `VGS(${p.t.name})`,
+      formula: `VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))) (${SQUARE_LAW})`,
+      substituted: `${eng(vth, 'V')} + sqrt(2 × ${eng(i, 'A')}/${eng(p.kBeta, 'A/V²')})${label}`,
+      value: v,
+      unit: 'V',
+      devices: [p.t.name],
+    }));
+    return v;
+  }
+}
+
+/**
+ * One structure's hand-analysis context: its devices' parameters at the analysis temperature
+ * (and beta corner), the rail potentials (with supply-corner overrides), and the junction and
+ * square-law voltages every kind computes with. Parameters are read once per device.
+ */
+export class Hand {
+  readonly topo: Topology;
+  readonly sign: 1 | -1;
+  readonly bipolar: boolean;
+  readonly vt: number;
+  readonly railVolts = new Map<number, number>();
+  /** Per-structure numbers a kind keeps between evaluations at trial currents (e.g. a Newton start). */
+  readonly memo = new Map<string, number>();
+  private readonly params = new Map<string, DeviceParams>();
+  private common: { v: number | undefined } | null = null;
+
+  constructor(
+    readonly circuit: Circuit,
+    readonly s: Structure,
+    readonly at: EstimateAt,
+    /** The kind's own rule for where the structure's currents return (default: lower diode's or reference's emitter). */
+    private readonly commonOf: ((h: Hand) => number | undefined) | undefined,
+    /** Paralleled diode-connected twins share the reference's current (simple, Widlar and degenerated kinds). */
+    private readonly parallelReference: boolean,
+  ) {
+    this.topo = topologyOf(circuit);
+    this.sign = polaritySign(s.technology);
+    this.bipolar = isBipolar(s.technology);
+    this.vt = thermalVolts(at.temperatureC);
+    for (const [i, r] of railsByIndex(circuit)) this.railVolts.set(i, r.volts);
+    for (const [name, v] of Object.entries(at.railVolts ?? {})) {
+      const i = this.topo.nodeIndex.get(name);
+      if (i !== undefined && Number.isFinite(v)) this.railVolts.set(i, v);
+    }
+  }
+
+  /** The device's parameters at the analysis conditions (throws for a name that is not a transistor of the circuit). */
+  dev(name: string): DeviceParams {
+    const known = this.params.get(name);
+    if (known) return known;
+    const t = this.topo.byName.get(name);
+    if (!t) throw new Error(`structure device ${name} is not in the circuit`);
+    const model = t.element.model;
+    const kind = model.kind === 'pnp' || model.kind === 'npn' || model.kind === 'nmos' || model.kind === 'pmos' ? model.kind : 'npn';
+    const get = (k: string) => {
+      const v = model.params[k];
+      return Number.isFinite(v) || v === Infinity ? v : MODEL_DEFAULTS[kind][k] ?? 0;
+    };
+    let p: DeviceParams;
+    if (t.element.kind === 'Q') {
+      const is = positiveOr(get('IS'), 1e-16);
+      const isT = isAtTemperature(is, this.at.temperatureC, this.circuit.tnomC, get('XTI'), get('EG'));
+      const bf = positiveOr(get('BF'), 100) * positiveOr(this.at.betaScale ?? 1, 1);
+      const va = get('VAF');
+      p = {
+        t,
+        model,
+        isEff: isT * t.scale,
+        nfVt: positiveOr(get('NF'), 1) * this.vt,
+        beta: bf,
+        va: va > 0 ? va : Infinity,
+        kBeta: 0,
+        vto: 0,
+        lambda: 0,
+        gamma: 0,
+        phi: 0.6,
+      };
+    } else {
+      const kp = positiveOr(get('KP'), 2e-5);
+      p = {
+        t,
+        model,
+        isEff: 0,
+        nfVt: this.vt,
+        beta: Infinity,
+        va: Infinity,
+        kBeta: kp * t.scale,
+        vto: this.sign * get('VTO'),
+        lambda: Math.max(get('LAMBDA'), 0),
+        gamma: Math.max(get('GAMMA'), 0),
+        phi: positiveOr(get('PHI'), 0.6),
+      };
+    }
+    // Paralleled diode-connected twins of the reference share its current: the reference then
+    // behaves as one device of the summed geometry.
+    if (name === this.s.reference.device && this.parallelReference) {
+      const total = this.s.devices
+        .filter((d) => this.s.roles?.[d] === 'reference')
+        .reduce((sum, d) => sum + (this.topo.byName.get(d)?.scale ?? 0), 0);
+      if (total > t.scale) {
+        p.isEff *= total / t.scale;
+        p.kBeta *= total / t.scale;
+      }
+    }
+    this.params.set(name, p);
+    return p;
+  }
+
+  /** The structure's devices with one role, in structure order. */
+  role(r: StructureRole): Transistor[] {
+    return this.s.devices.filter((d) => this.s.roles?.[d] === r).map((d) => this.topo.byName.get(d)!).filter(Boolean);
+  }
+
+  refT(): Transistor {
+    return this.topo.byName.get(this.s.reference.device)!;
+  }
+
+  /** The reference and each output with their parameters. */
+  outputs(): OutputParams[] {
+    return this.s.outputs.map((o) => ({ o, p: this.dev(o.device) }));
+  }
+
+  /** The node every current of the structure returns to. */
+  commonNode(): number | undefined {
+    if (this.commonOf) return this.commonOf(this);
+    const lower = this.role('lower-diode')[0];
+    return (lower ?? this.refT()).common;
+  }
+
+  /** Potential of the common node, when it is a rail (looked up once: the IREF solve asks at every trial current). */
+  commonVolts(): number | undefined {
+    if (this.common === null) {
+      const node = this.commonNode();
+      this.common = { v: node === undefined ? undefined : this.railVolts.get(node) };
+    }
+    return this.common.v;
+  }
+
+  vbe(p: DeviceParams, ic: number): number {
+    return vbeAt(ic, p.isEff, p.nfVt);
+  }
+
+  vgs(p: DeviceParams, id: number, vsb: number): number {
+    const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    return diodeMosVgs(id, p.kBeta, vth, p.lambda);
+  }
+
+  /** VGS of a saturated MOSFET carrying `id` whose VDS is a function of its own VGS (square law with λ, fixed point). */
+  vgsWithVds(p: DeviceParams, id: number, vsb: number, vdsOf: (vgs: number) => number): number {
+    const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    if (!(id > 0) || !(p.kBeta > 0)) return vth;
+    let vgs = vth + Math.sqrt((2 * id) / p.kBeta);
+    for (let n = 0; n < 60; n++) {
+      const clm = Math.max(1 + p.lambda * vdsOf(vgs), 0.05);
+      const next = vth + Math.sqrt((2 * id) / (p.kBeta * clm));
+      if (Math.abs(next - vgs) < 1e-12) return next;
+      vgs = next;
+    }
+    return vgs;
+  }
+
+  /** Source-to-bulk voltage of a MOS device whose source sits on the common rail (0 for a BJT or an unknown bulk). */
+  vsbBase(p: DeviceParams): number {
+    const bulk = p.t.bulk;
+    const vc = this.commonVolts();
+    if (bulk === undefined || vc === undefined) return 0;
+    const vb = this.railVolts.get(bulk);
+    return vb === undefined ? 0 : this.sign * (vc - vb);
+  }
+
+  /** VCE/VDS of an output from its given output-node voltage, less an emitter offset; undefined without one. */
+  outputVds(o: Transistor, emitterOffset = 0): number | undefined {
+    const v = this.at.outputVolts?.[o.name];
+    const vc = this.commonVolts();
+    if (v === undefined || vc === undefined || !Number.isFinite(v)) return undefined;
+    return this.sign * (v - vc) - emitterOffset;
+  }
+
+  /**
+   * Current drawn from `node` (sitting `vAbove` beyond the common rail, own polarity) by
+   * elements outside the structure: resistors to a rail and current sources.
+   */
+  pullDown(node: number, vAbove: number): number {
+    const vc = this.commonVolts();
+    if (vc === undefined) return 0;
+    const vNode = vc + this.sign * vAbove;
+    const members = new Set(this.s.devices);
+    let sum = 0;
+    for (const a of this.topo.conducting(node)) {
+      const el = a.element;
+      if (members.has(el.name)) continue;
+      if (el.kind === 'R' && el.resistance > 0) {
+        const other = el.nodes[0] === node ? el.nodes[1] : el.nodes[0];
+        const vo = this.railVolts.get(other);
+        if (vo !== undefined) sum += (this.sign * (vNode - vo)) / el.resistance;
+      } else if (el.kind === 'I') {
+        const dc = this.at.sourceValues?.[el.name] ?? el.dc;
+        sum += this.sign * (el.nodes[0] === node ? dc : -dc);
+      }
+    }
+    return Math.max(sum, 0);
+  }
+
+  /** ", at VSB = …" for a MOS step when the body effect applies. */
+  bulkText(vsb: number): string {
+    return Math.abs(vsb) > 1e-12 ? ` at VSB = ${eng(vsb, 'V')}` : '';
+  }
+}
+
+/** The root of a function that rises with its argument, on [0, hi] (the bracket is widened when g(hi) < 0), by bisection. */
+export function solveRising(g: (x: number) => number, hi0: number): number {
+  let lo = 0;
+  let hi = Number.isFinite(hi0) && hi0 > 0 ? hi0 : 1e-3;
+  if (g(lo) >= 0) return 0;
+  for (let n = 0; n < 60 && g(hi) < 0; n++) hi *= 2;
+  if (g(hi) < 0) return hi;
+  for (let n = 0; n < 200 && hi - lo > 1e-15 * hi; n++) {
+    const mid = 0.5 * (lo + hi);
+    if (g(mid) > 0) hi = mid;
+    else lo = mid;
+  }
+  return 0.5 * (lo + hi);
+}
+
+export function positiveOr(v: number, fallback: number): number {
+  return Number.isFinite(v) && v > 0 ? v : fallback;
+}

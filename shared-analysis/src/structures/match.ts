@@ -1,0 +1,128 @@
+// The recognition context every kind's recogniser matches against: unclaimed transistors by node, in name order, and shared topology patterns.
+
+import type { Circuit, Resistor } from '../circuit';
+import { railsByIndex } from './rails';
+import { topologyOf, type Topology, type Transistor } from './topology';
+import type { Rail, StructureKind, StructureOutput, StructureRole, Technology } from './types';
+
+/** A structure as a recogniser finds it, before the reference branch is classified. */
+export interface Draft {
+  kind: StructureKind;
+  reference: Transistor;
+  /** Node where the reference current enters. */
+  refNode: number;
+  members: { t: Transistor; role: StructureRole }[];
+  outputs: StructureOutput[];
+  /** Degenerated mirror: the reference's emitter resistor. */
+  refDegeneration?: { resistor: string; ohms: number };
+}
+
+/**
+ * The transistors of one circuit as recognisers see them: indexed by control and common node,
+ * in natural name order, with the devices earlier (more specific) kinds have claimed left out.
+ * Terminal names are the bipolar ones; for MOSFETs read drain for collector, gate for base and
+ * source for emitter.
+ */
+export class Matcher {
+  readonly topo: Topology;
+  readonly rails: Map<number, Rail>;
+  private readonly claimed = new Set<string>();
+  /** Position of each transistor in natural name order. */
+  private readonly rank = new Map<Transistor, number>();
+  /** Every transistor, in natural name order. */
+  readonly ordered: Transistor[];
+
+  constructor(readonly circuit: Circuit) {
+    this.topo = topologyOf(circuit);
+    this.rails = railsByIndex(circuit);
+    this.ordered = [...this.topo.transistors].sort((a, b) => compareNames(a.name, b.name));
+    this.ordered.forEach((t, i) => this.rank.set(t, i));
+  }
+
+  /** Marks a draft's devices as taken, so later (less specific) kinds do not match them again. */
+  claim(d: Draft): void {
+    for (const m of d.members) this.claimed.add(m.t.name);
+  }
+
+  isClaimed(t: Transistor): boolean {
+    return this.claimed.has(t.name);
+  }
+
+  private byRank = (a: Transistor, b: Transistor): number => (this.rank.get(a) ?? 0) - (this.rank.get(b) ?? 0);
+
+  /** Unclaimed transistors of one technology drawn from `pool` (an index list) that satisfy `pred`, in name order. */
+  candidates(tech: Technology, pred: (t: Transistor) => boolean, exclude: Transistor[], pool: Transistor[] | undefined): Transistor[] {
+    if (!pool) return [];
+    const out = pool.filter((t) => !this.claimed.has(t.name) && t.tech === tech && !exclude.includes(t) && pred(t));
+    return out.length > 1 ? out.sort(this.byRank) : out;
+  }
+
+  /** Transistors whose control terminal is on `node` (claimed ones included). */
+  onCtrl(node: number): Transistor[] | undefined {
+    return this.topo.byCtrl.get(node);
+  }
+
+  /** Transistors whose common terminal is on `node` (claimed ones included). */
+  onCommon(node: number): Transistor[] | undefined {
+    return this.topo.byCommon.get(node);
+  }
+
+  nodeName(n: number): string {
+    return this.topo.nodeName(n);
+  }
+
+  /** The resistor from `o`'s emitter to node `e`, when the emitter node carries only that resistor and `o`. */
+  degeneration(o: Transistor, e: number): Resistor | undefined {
+    const sole = this.topo.soleOther(o.common, (el) => el === o.element);
+    if (!sole) return undefined;
+    const el = sole.element;
+    if (el.kind !== 'R') return undefined;
+    const other = el.nodes[0] === o.common ? el.nodes[1] : el.nodes[0];
+    return other === e && Number.isFinite(el.resistance) && el.resistance > 0 ? el : undefined;
+  }
+
+  /**
+   * The outputs on a diode-connected reference D (collector = base = A, emitter on E): paralleled
+   * diode-connected twins on A with emitters on E, then every other device with its base on A whose
+   * emitter is on E (plain output, ratioed by geometry) or reaches E through exactly one resistor
+   * R2 and nothing else (degenerated, Widlar-type).
+   */
+  diodeOutputs(d: Transistor): { twins: Transistor[]; outputs: StructureOutput[]; devices: Transistor[] } {
+    const a = d.ctrl;
+    const e = d.common;
+    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d], this.onCtrl(a));
+    const refScale = d.scale + twins.reduce((s, t) => s + t.scale, 0);
+    const outputs: StructureOutput[] = [];
+    const devices: Transistor[] = [];
+    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...twins], this.onCtrl(a))) {
+      if (o.common === e) {
+        outputs.push({ device: o.name, node: this.nodeName(o.out), ratio: o.scale / refScale });
+        devices.push(o);
+        continue;
+      }
+      const r2 = this.degeneration(o, e);
+      if (r2) {
+        outputs.push({ device: o.name, node: this.nodeName(o.out), ratio: o.scale / refScale, degeneration: { resistor: r2.name, ohms: r2.resistance } });
+        devices.push(o);
+      }
+    }
+    return { twins, outputs, devices };
+  }
+
+  /**
+   * The lower pairs stacked mirrors are built on: D diode-connected (collector = base = B, emitter
+   * on the rail) and each partner N (base on B, emitter on D's emitter, collector on its own node C).
+   */
+  lowerPartners(d: Transistor): Transistor[] {
+    const b = d.ctrl;
+    return this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b));
+  }
+}
+
+// One collator for every comparison: building the locale data per call dominated recognition time.
+const NAME_ORDER = new Intl.Collator('en', { numeric: true, sensitivity: 'base' });
+
+/** Natural order of device names (Q2 before Q10), case-insensitive. */
+export function compareNames(a: string, b: string): number {
+  return NAME_ORDER.compare(a, b);
+}
