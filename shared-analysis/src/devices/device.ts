@@ -1,7 +1,8 @@
-// The contract between the Newton loop and a nonlinear device: terminal wiring, per-solve preparation, linearised stamps and records.
+// The contract between the solver and the nonlinear device kinds: one descriptor per kind, one table per kind holding every instance in typed arrays.
 
 import type { Element } from '../circuit';
 import type { DeviceRecord } from '../solve/types';
+import type { ParamIssue } from './params';
 
 /** Per-solve conditions every device reads when it prepares its temperature-scaled parameters. */
 export interface DeviceConditions {
@@ -15,42 +16,6 @@ export interface DeviceConditions {
   betaScale: number;
   /** Conductance placed across every junction for robustness, siemens. */
   junctionGmin: number;
-}
-
-/** What one linearisation of a device reported back to the Newton loop. */
-export interface LoadReport {
-  /** A junction or terminal voltage was limited this iteration (the point is not a true Newton point). */
-  limited: boolean;
-  /** An exponential ran beyond the evaluated range (tangent continuation in use). */
-  clipped: boolean;
-  /** Every stamped number was finite. */
-  finite: boolean;
-}
-
-/**
- * A nonlinear device as the Newton loop sees it. `terminals` lists MNA unknown indices
- * (−1 for ground) in the device's own terminal order; the solver registers every
- * terminal-pair matrix entry and hands back `positions[t * terminals.length + u]`
- * (−1 when either side is ground).
- */
-export interface NonlinearDevice {
-  readonly element: Element;
-  readonly terminals: Int32Array;
-  positions: Int32Array;
-  /** Recomputes temperature- and beta-dependent parameters. Called once per solve. */
-  prepare(conditions: DeviceConditions): void;
-  /**
-   * Sets the limiting history from a solution vector (start of a solve or of a continuation
-   * step). With a `start` hint the first `load` afterwards linearises at a predicted point
-   * instead of at `x` (and reports itself limited, so that iteration cannot end the run).
-   */
-  resetState(x: Float64Array, start?: StartHint): void;
-  /** Linearises the device at `x` (limited against its history) and adds its companion stamps. The report may be an object the device reuses on its next call. */
-  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport;
-  /** The operating-point record at `x` (no limiting). */
-  record(x: Float64Array): DeviceRecord;
-  /** Junctions whose exponential runs beyond the evaluated range at `x` (empty when none). */
-  overdriven(x: Float64Array): OverdrivenJunction[];
 }
 
 /**
@@ -73,33 +38,127 @@ export interface OverdrivenJunction {
   volts: number;
 }
 
-/** Voltage of terminal index `t` of a device at solution `x`. */
-export function terminalVoltage(terminals: Int32Array, x: Float64Array, t: number): number {
-  const i = terminals[t];
-  return i >= 0 ? x[i] : 0;
+/** What one assembly pass over every table reports back to the Newton loop. Tables only ever set `limited` and append to `nonFinite`. */
+export interface LoadTally {
+  /** Some junction or terminal voltage was limited (the point is not a true Newton point). */
+  limited: boolean;
+  /** Element indices of the instances whose stamps were not all finite. */
+  nonFinite: number[];
 }
 
 /**
- * Adds the conductance g = ∂I_t/∂(V_pk − V_nk) to row `t`: +g at column pk, −g at column nk
- * (terminal indices of the device).
+ * The instances of one kind as the MNA layout wired them, in ascending element order. With
+ * T = `kind.terminalCount`, instance i owns `terminals[i·T … i·T + T − 1]` (MNA unknown indices,
+ * −1 for ground) and `positions[i·T² + r·T + c]`, the pattern slot of the matrix entry
+ * (row of terminal r, column of terminal c), −1 when either side is ground. The positions are
+ * registered once, when the layout is built; a table's `load` only adds to `values[slot]`.
  */
-export function addControl(
-  positions: Int32Array,
-  nt: number,
-  values: Float64Array,
-  t: number,
-  pk: number,
-  nk: number,
-  g: number,
-): void {
-  const a = positions[t * nt + pk];
-  if (a >= 0) values[a] += g;
-  const b = positions[t * nt + nk];
-  if (b >= 0) values[b] -= g;
+export interface DeviceInstances<E extends Element = Element> {
+  count: number;
+  elements: E[];
+  elementIndex: Int32Array;
+  terminals: Int32Array;
+  positions: Int32Array;
 }
 
-/** Moves the equivalent current `ieq` (current into terminal t not explained by the stamped conductances) to the right-hand side. */
-export function addEquivalentCurrent(terminals: Int32Array, rhs: Float64Array, t: number, ieq: number): void {
-  const i = terminals[t];
-  if (i >= 0) rhs[i] -= ieq;
+/**
+ * A kind's solved quantities at one solution vector, column-wise: `values[q][i]` is quantity
+ * `kind.quantities[q]` of instance i, `region[i]` indexes `kind.regions`, and `flags[i]` holds
+ * kind-defined bits (a BJT's "no Early effect"). Numbers are in the netlist's polarity, exactly
+ * as the record shows them.
+ */
+export interface DeviceColumns {
+  readonly values: Float64Array[];
+  readonly region: Uint8Array;
+  readonly flags: Uint8Array;
+}
+
+/**
+ * Every instance of one nonlinear kind: parameters, limiting state and stamp slots in typed
+ * arrays, evaluated in one loop. Methods that take `i` address one instance (0 ≤ i < count).
+ */
+export interface DeviceTable {
+  readonly kind: DeviceKind;
+  readonly instances: DeviceInstances;
+  /** Recomputes temperature- and beta-dependent parameters of every instance. Called once per solve. */
+  prepare(conditions: DeviceConditions): void;
+  /**
+   * Sets the limiting history from a solution vector (start of a solve or of a continuation
+   * step). With a `start` hint the first `load` afterwards linearises at a predicted point
+   * instead of at `x` (and reports itself limited, so that iteration cannot end the run).
+   */
+  resetState(x: Float64Array, start?: StartHint): void;
+  /** Linearises every instance at `x` (limited against its history when `limit`) and adds the companion stamps to `values` and `rhs`. */
+  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void;
+  /** Every instance's solved quantities at `x` (no limiting), one tight loop. */
+  evaluate(x: Float64Array): DeviceColumns;
+  /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (empty when none). */
+  overdriven(x: Float64Array, i: number): OverdrivenJunction[];
+}
+
+/** A junction the solver checks for being shorted by a wire-like element (a 0 V source, an inductor, a 0 Ω resistor). */
+export interface CheckedJunction {
+  /** As the message names it: 'junction', 'base-emitter junction'. */
+  junction: string;
+  /** Netlist node indices of its two ends. */
+  a: number;
+  b: number;
+}
+
+/** A number an instance brings into the equations, with the scale it is ordinarily near (for the out-of-range check). */
+export interface InstanceValue {
+  name: string;
+  value: number;
+  typical: number;
+}
+
+/**
+ * One nonlinear device kind: what the layout, the structural checks and the records need to
+ * know about it. Registered in `devices/registry.ts`; everything kind-specific lives in the
+ * kind's own module.
+ */
+export interface DeviceKind<E extends Element = Element> {
+  /** The element letter (`Element['kind']`) this kind solves. */
+  readonly letter: E['kind'];
+  /** Netlist nodes an instance must have (more may be written; they are ignored at DC). */
+  readonly nodeCount: number;
+  /** Terminals of every instance in the table: the netlist nodes used, then internal nodes. */
+  readonly terminalCount: number;
+  /** Names of the solved quantities, in the record's key order (each is a number in the record). */
+  readonly quantities: readonly string[];
+  /** Region names; `DeviceColumns.region` holds indices into this list. */
+  readonly regions: readonly string[];
+  /** Internal nodes this instance needs (labels such as 'internal anode'); each becomes an MNA unknown. */
+  internalNodes(element: E): string[];
+  /**
+   * The instance's `terminalCount` MNA unknowns: `node(k)` maps a netlist node index to its
+   * unknown (−1 for ground); `internal` holds the unknowns of the labels `internalNodes` gave.
+   */
+  terminals(element: E, node: (netlistNode: number) => number, internal: readonly number[]): number[];
+  /** Netlist node pairs the instance connects at DC (a junction's robustness conductance counts), for the floating-node check. */
+  dcPaths(element: E): [number, number][];
+  /** Junctions that a short across them would keep from ever conducting. */
+  checkedJunctions(element: E): CheckedJunction[];
+  /** The instance's own numbers for the out-of-range check (area or geometry, multiplier); its model's parameters are checked anyway. */
+  instanceValues(element: E): InstanceValue[];
+  /** Why the instance does not give its nodes a DC path, for the floating-node message (e.g. 'its gate and bulk draw no DC current'). */
+  readonly floatingNote?: string;
+  /** Builds the table of every instance; unusable parameters are replaced and reported in `issues`. */
+  createTable(instances: DeviceInstances<E>, issues: ParamIssue[]): DeviceTable;
+  /** The record of instance i at a solution (the edge form: JSON, hover, messages). */
+  record(columns: DeviceColumns, instances: DeviceInstances<E>, i: number): DeviceRecord;
+  /** Current into netlist terminal t of instance i (the record's sign convention), 0 for a terminal that carries none. */
+  terminalCurrent(columns: DeviceColumns, i: number, t: number): number;
+}
+
+/** Widens a kind descriptor for the registry (each kind is typed with its own element). */
+export function deviceKind<E extends Element>(kind: DeviceKind<E>): DeviceKind {
+  return kind as unknown as DeviceKind;
+}
+
+/** Allocates the columns of `count` instances for `quantities` numbers each. */
+export function allocateColumns(quantities: number, count: number): DeviceColumns {
+  const values: Float64Array[] = [];
+  for (let q = 0; q < quantities; q++) values.push(new Float64Array(count));
+  return { values, region: new Uint8Array(count), flags: new Uint8Array(count) };
 }

@@ -1,12 +1,12 @@
-// MOSFET: Shichman–Hodges level 1 with body effect (DESIGN.md), NMOS and PMOS, source/drain swap, step limiting, stamps and records.
+// MOSFET: Shichman–Hodges level 1 with body effect (DESIGN.md), NMOS and PMOS, source/drain swap, as one table of typed arrays with step limiting, stamps and records.
 
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
-import type { DeviceConditions, LoadReport, NonlinearDevice, OverdrivenJunction, StartHint } from './device';
-import { addControl, addEquivalentCurrent, terminalVoltage } from './device';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { allocateColumns, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { UNBOUNDED, limitChannel, limitGate } from './physics';
+import { UNBOUNDED, limitChannelValue, limitGateValue } from './physics';
 
 /** Level-1 parameters of one device, own polarity (for PMOS `vto` is already sign-flipped). */
 export interface MosParams {
@@ -32,29 +32,65 @@ export interface MosEvaluation {
 /** Below this the body-effect square root is held constant, so a forward-biased bulk never takes √ of a negative number. */
 const SQRT_ARG_FLOOR = 1e-6;
 
+const REGIONS: readonly MosRegion[] = ['saturation', 'triode', 'cutoff'];
+const SATURATION = 0;
+const TRIODE = 1;
+const CUTOFF = 2;
+
+// Slots of the scratch array `mosCore` fills.
+const ID = 0;
+const GM = 1;
+const GDS = 2;
+const GMBS = 3;
+const VTH = 4;
+const VOV = 5;
+
 /**
  * DESIGN.md level-1 equations for VDS ≥ 0: VTH = VTO + GAMMA·(√(PHI − VBS) − √PHI);
  * saturation (VDS ≥ VGS − VTH > 0) ID = β/2·(VGS − VTH)²·(1 + LAMBDA·VDS);
- * triode ID = β·((VGS − VTH)·VDS − VDS²/2)·(1 + LAMBDA·VDS); cutoff ID = 0.
+ * triode ID = β·((VGS − VTH)·VDS − VDS²/2)·(1 + LAMBDA·VDS); cutoff ID = 0. Writes the
+ * slots above into `out` and returns the region's index in REGIONS.
  */
-export function evaluateMos(vgs: number, vds: number, vbs: number, p: MosParams): MosEvaluation {
-  const arg = p.phi - vbs;
+function mosCore(vgs: number, vds: number, vbs: number, beta: number, vto: number, lambda: number, gamma: number, phi: number, out: Float64Array): number {
+  const arg = phi - vbs;
   const root = Math.sqrt(Math.max(arg, SQRT_ARG_FLOOR));
-  const vth = p.vto + p.gamma * (root - Math.sqrt(p.phi));
+  const vth = vto + gamma * (root - Math.sqrt(phi));
   // ∂ID/∂VBS = ∂ID/∂VOV · GAMMA/(2√(PHI − VBS)); zero where the root is held constant.
-  const bodyFactor = arg > SQRT_ARG_FLOOR ? p.gamma / (2 * root) : 0;
+  const bodyFactor = arg > SQRT_ARG_FLOOR ? gamma / (2 * root) : 0;
   const vov = vgs - vth;
-  if (!(vov > 0)) return { id: 0, gm: 0, gds: 0, gmbs: 0, vth, vov, region: 'cutoff' };
-  const clm = 1 + p.lambda * vds;
-  if (vds >= vov) {
-    const core = 0.5 * p.beta * vov * vov;
-    const gm = p.beta * vov * clm;
-    return { id: core * clm, gm, gds: core * p.lambda, gmbs: gm * bodyFactor, vth, vov, region: 'saturation' };
+  out[VTH] = vth;
+  out[VOV] = vov;
+  if (!(vov > 0)) {
+    out[ID] = 0;
+    out[GM] = 0;
+    out[GDS] = 0;
+    out[GMBS] = 0;
+    return CUTOFF;
   }
-  const core = p.beta * (vov * vds - 0.5 * vds * vds);
-  const gm = p.beta * vds * clm;
-  const gds = p.beta * (vov - vds) * clm + core * p.lambda;
-  return { id: core * clm, gm, gds, gmbs: gm * bodyFactor, vth, vov, region: 'triode' };
+  const clm = 1 + lambda * vds;
+  if (vds >= vov) {
+    const core = 0.5 * beta * vov * vov;
+    const gm = beta * vov * clm;
+    out[ID] = core * clm;
+    out[GM] = gm;
+    out[GDS] = core * lambda;
+    out[GMBS] = gm * bodyFactor;
+    return SATURATION;
+  }
+  const core = beta * (vov * vds - 0.5 * vds * vds);
+  const gm = beta * vds * clm;
+  out[ID] = core * clm;
+  out[GM] = gm;
+  out[GDS] = beta * (vov - vds) * clm + core * lambda;
+  out[GMBS] = gm * bodyFactor;
+  return TRIODE;
+}
+
+/** The level-1 equations at one bias (VDS ≥ 0 frame), for tests and hand checks; the table evaluates the same function in its loop. */
+export function evaluateMos(vgs: number, vds: number, vbs: number, p: MosParams): MosEvaluation {
+  const s = new Float64Array(6);
+  const region = mosCore(vgs, vds, vbs, p.beta, p.vto, p.lambda, p.gamma, p.phi, s);
+  return { id: s[ID], gm: s[GM], gds: s[GDS], gmbs: s[GMBS], vth: s[VTH], vov: s[VOV], region: REGIONS[region] };
 }
 
 /** Overdrive of the cold-start linearisation, volts: a typical analog bias overdrive (common practice: a few tenths of a volt); 0.5 V took 5 iterations on the benchmark MOS mirror array (test/bench/newton-bench.ts), 0.2 V took 6. */
@@ -64,151 +100,253 @@ const D = 0;
 const G = 1;
 const S = 2;
 const BULK = 3;
+/** Terminals per instance: drain, gate, source, bulk. */
+const T = 4;
 
-/** A MOSFET. Terminals are [drain, gate, source, bulk]; the channel is symmetric, so the lower-potential end acts as source. */
-export class MosfetDevice implements NonlinearDevice {
-  readonly terminals: Int32Array;
-  positions = new Int32Array(0);
-  private readonly sign: number;
-  private readonly params: MosParams;
+const QUANTITIES = ['id', 'vgs', 'vds', 'vth', 'vov', 'gm', 'ro'] as const;
+const Q_ID = 0;
+const Q_VGS = 1;
+const Q_VDS = 2;
+const Q_VTH = 3;
+const Q_VOV = 4;
+const Q_GM = 5;
+const Q_RO = 6;
+/** `DeviceColumns.flags` bit: no channel-length modulation at this point, so `ro` stands for unbounded. */
+const NO_CLM = 1;
+
+/** Every MOSFET of a circuit. Terminals are [drain, gate, source, bulk]; the channel is symmetric, so the lower-potential end acts as source. */
+export class MosfetTable implements DeviceTable {
+  readonly kind: DeviceKind = MOSFET;
+  private readonly n: number;
+  private readonly sign: Float64Array;
+  private readonly beta: Float64Array;
+  private readonly vto: Float64Array;
+  private readonly lambda: Float64Array;
+  private readonly gamma: Float64Array;
+  private readonly phi: Float64Array;
   private gmin = 0;
-  private vgsOld = 0;
-  private vdsOld = 0;
+  private readonly vgsOld: Float64Array;
+  private readonly vdsOld: Float64Array;
   /** Gate and channel voltages the next load linearises at (NaN when none is pending). */
-  private startVgs = Number.NaN;
-  private startVds = Number.NaN;
-  /** Reused by every load: the Newton loop reads it before the next call. */
-  private readonly report: LoadReport = { limited: false, clipped: false, finite: true };
+  private readonly startVgs: Float64Array;
+  private readonly startVds: Float64Array;
+  private readonly scratch = new Float64Array(6);
 
-  constructor(readonly element: Mosfet, nodes: { d: number; g: number; s: number; b: number }, issues: ParamIssue[]) {
-    const md = element.model;
-    this.sign = md.kind === 'pmos' ? -1 : 1;
-    const w = elementParam(element, 'W', element.w, 'positive', 0, issues);
-    const l = elementParam(element, 'L', element.l, 'positive', 0, issues);
-    const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
-    const kp = modelParam(element, md, 'KP', 'non-negative', issues);
-    const beta = l > 0 ? (kp * w * m) / l : 0;
-    this.params = {
-      beta: Number.isFinite(beta) ? beta : 0,
-      vto: this.sign * modelParam(element, md, 'VTO', 'finite', issues),
-      lambda: modelParam(element, md, 'LAMBDA', 'non-negative', issues),
-      gamma: modelParam(element, md, 'GAMMA', 'non-negative', issues),
-      phi: modelParam(element, md, 'PHI', 'positive', issues),
-    };
-    this.terminals = Int32Array.of(nodes.d, nodes.g, nodes.s, nodes.b);
+  constructor(readonly instances: DeviceInstances<Mosfet>, issues: ParamIssue[]) {
+    const n = (this.n = instances.count);
+    const col = (): Float64Array => new Float64Array(n);
+    this.sign = col();
+    this.beta = col();
+    this.vto = col();
+    this.lambda = col();
+    this.gamma = col();
+    this.phi = col();
+    this.vgsOld = col();
+    this.vdsOld = col();
+    this.startVgs = col().fill(Number.NaN);
+    this.startVds = col().fill(Number.NaN);
+    for (let i = 0; i < n; i++) {
+      const element = instances.elements[i];
+      const md = element.model;
+      const sign = md.kind === 'pmos' ? -1 : 1;
+      this.sign[i] = sign;
+      const w = elementParam(element, 'W', element.w, 'positive', 0, issues);
+      const l = elementParam(element, 'L', element.l, 'positive', 0, issues);
+      const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
+      const kp = modelParam(element, md, 'KP', 'non-negative', issues);
+      const beta = l > 0 ? (kp * w * m) / l : 0;
+      this.beta[i] = Number.isFinite(beta) ? beta : 0;
+      this.vto[i] = sign * modelParam(element, md, 'VTO', 'finite', issues);
+      this.lambda[i] = modelParam(element, md, 'LAMBDA', 'non-negative', issues);
+      this.gamma[i] = modelParam(element, md, 'GAMMA', 'non-negative', issues);
+      this.phi[i] = modelParam(element, md, 'PHI', 'positive', issues);
+    }
   }
 
-  /** The level-1 parameters in use (own polarity). */
-  get modelParams(): Readonly<MosParams> {
-    return this.params;
+  /** The level-1 parameters of instance i (own polarity). */
+  modelParams(i: number): MosParams {
+    return { beta: this.beta[i], vto: this.vto[i], lambda: this.lambda[i], gamma: this.gamma[i], phi: this.phi[i] };
   }
 
   prepare(c: DeviceConditions): void {
     this.gmin = c.junctionGmin;
   }
 
-  private biases(x: Float64Array): { vgs: number; vds: number; vbs: number } {
-    const t = this.terminals;
-    const vs = terminalVoltage(t, x, S);
-    const s = this.sign;
-    return {
-      vgs: s * (terminalVoltage(t, x, G) - vs),
-      vds: s * (terminalVoltage(t, x, D) - vs),
-      vbs: s * (terminalVoltage(t, x, BULK) - vs),
-    };
+  /** Threshold of instance i (own polarity) at body bias vbs. */
+  private thresholdAt(i: number, vbs: number): number {
+    const phi = this.phi[i];
+    return this.vto[i] + this.gamma[i] * (Math.sqrt(Math.max(phi - vbs, SQRT_ARG_FLOOR)) - Math.sqrt(phi));
   }
 
   resetState(x: Float64Array, start?: StartHint): void {
-    const b = this.biases(x);
-    this.vgsOld = b.vgs;
-    this.vdsOld = b.vds;
-    this.startVgs = Number.NaN;
-    if (start?.kind !== 'cold') return; // level 1 has no temperature dependence to predict
-    // On the edge of saturation with a small overdrive, so the first linearisation has a gm.
-    const vth = this.thresholdAt(b.vbs);
-    this.startVgs = vth + COLD_OVERDRIVE;
-    this.startVds = vth + COLD_OVERDRIVE;
+    const t = this.instances.terminals;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      this.vgsOld[i] = s * (voltage(x, t[i * T + G]) - vs);
+      this.vdsOld[i] = s * (voltage(x, t[i * T + D]) - vs);
+      this.startVgs[i] = Number.NaN;
+      if (start?.kind !== 'cold') continue; // level 1 has no temperature dependence to predict
+      // On the edge of saturation with a small overdrive, so the first linearisation has a gm.
+      const vth = this.thresholdAt(i, s * (voltage(x, t[i * T + BULK]) - vs));
+      this.startVgs[i] = vth + COLD_OVERDRIVE;
+      this.startVds[i] = vth + COLD_OVERDRIVE;
+    }
   }
 
-  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean): LoadReport {
-    let { vgs, vds, vbs } = this.biases(x);
-    let limited = false;
-    if (Number.isFinite(this.startVgs)) {
-      vgs = this.startVgs;
-      vds = this.startVds;
-      this.startVgs = Number.NaN;
-      limited = true;
-    } else if (limit) {
-      // Channel first, then the gate of whichever end acts as source after the step.
-      const ch = limitChannel(vds, this.vdsOld);
-      vds = ch.v;
-      let g: { v: number; limited: boolean };
-      if (vds >= 0) {
-        g = limitGate(vgs, this.vgsOld, this.thresholdAt(vbs));
-        vgs = g.v;
-      } else {
-        // Swapped: the drain acts as source, so limit VGD and rebuild VGS from it.
-        g = limitGate(vgs - vds, this.vgsOld - this.vdsOld, this.thresholdAt(vbs - vds));
-        vgs = g.v + vds;
+  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const ev = this.scratch;
+    const gmin = this.gmin;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      let vgs = s * (voltage(x, t[i * T + G]) - vs);
+      let vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
+      if (Number.isFinite(this.startVgs[i])) {
+        vgs = this.startVgs[i];
+        vds = this.startVds[i];
+        this.startVgs[i] = Number.NaN;
+        tally.limited = true;
+      } else if (limit) {
+        // Channel first, then the gate of whichever end acts as source after the step.
+        const vdsIn = vds;
+        vds = limitChannelValue(vds, this.vdsOld[i]);
+        let gateLimited: boolean;
+        if (vds >= 0) {
+          const g = limitGateValue(vgs, this.vgsOld[i], this.thresholdAt(i, vbs));
+          gateLimited = g !== vgs;
+          vgs = g;
+        } else {
+          // Swapped: the drain acts as source, so limit VGD and rebuild VGS from it.
+          const vgd = vgs - vds;
+          const g = limitGateValue(vgd, this.vgsOld[i] - this.vdsOld[i], this.thresholdAt(i, vbs - vds));
+          gateLimited = g !== vgd;
+          vgs = g + vds;
+        }
+        if (vds !== vdsIn || gateLimited) tally.limited = true;
       }
-      limited = ch.limited || g.limited;
+      this.vgsOld[i] = vgs;
+      this.vdsOld[i] = vds;
+      const forward = vds >= 0;
+      // In the swapped frame the drain terminal acts as source: VGS→VGD, VDS→−VDS, VBS→VBD.
+      const fvgs = forward ? vgs : vgs - vds;
+      const fvds = forward ? vds : -vds;
+      const fvbs = forward ? vbs : vbs - vds;
+      mosCore(fvgs, fvds, fvbs, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev);
+      const id = ev[ID];
+      const gm = ev[GM];
+      const gds = ev[GDS];
+      const gmbs = ev[GMBS];
+      const effD = forward ? D : S;
+      const effS = forward ? S : D;
+      const p = i * T * T;
+      const ieq = id - gm * fvgs - gds * fvds - gmbs * fvbs;
+      stampChannelRow(values, rhs, pos, p + effD * T, effS, t[i * T + effD], gm, gds, gmbs, effD, s * 1 * ieq);
+      stampChannelRow(values, rhs, pos, p + effS * T, effS, t[i * T + effS], -gm, -gds, -gmbs, effD, s * -1 * ieq);
+      // Robustness conductance across the channel (linear, so no equivalent current).
+      add(values, pos[p + D * T + D], gmin);
+      add(values, pos[p + D * T + S], -gmin);
+      add(values, pos[p + S * T + D], -gmin);
+      add(values, pos[p + S * T + S], gmin);
+      if (!(Number.isFinite(id) && Number.isFinite(gm) && Number.isFinite(gds) && Number.isFinite(gmbs))) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
-    this.vgsOld = vgs;
-    this.vdsOld = vds;
-    const forward = vds >= 0;
-    // In the swapped frame the drain terminal acts as source: VGS→VGD, VDS→−VDS, VBS→VBD.
-    const ev = forward ? evaluateMos(vgs, vds, vbs, this.params) : evaluateMos(vgs - vds, -vds, vbs - vds, this.params);
-    const fvgs = forward ? vgs : vgs - vds;
-    const fvds = forward ? vds : -vds;
-    const fvbs = forward ? vbs : vbs - vds;
-    const effD = forward ? D : S;
-    const effS = forward ? S : D;
-    const pos = this.positions;
-    for (const [t, dir] of [[effD, 1], [effS, -1]] as const) {
-      addControl(pos, 4, values, t, G, effS, dir * ev.gm);
-      addControl(pos, 4, values, t, effD, effS, dir * ev.gds);
-      addControl(pos, 4, values, t, BULK, effS, dir * ev.gmbs);
-      addEquivalentCurrent(this.terminals, rhs, t, this.sign * dir * (ev.id - ev.gm * fvgs - ev.gds * fvds - ev.gmbs * fvbs));
-    }
-    // Robustness conductance across the channel (linear, so no equivalent current).
-    addControl(pos, 4, values, D, D, S, this.gmin);
-    addControl(pos, 4, values, S, D, S, -this.gmin);
-    const finite = Number.isFinite(ev.id) && Number.isFinite(ev.gm) && Number.isFinite(ev.gds) && Number.isFinite(ev.gmbs);
-    const report = this.report;
-    report.limited = limited;
-    report.finite = finite;
-    return report;
   }
 
-  /** Threshold (own polarity) at body bias vbs. */
-  private thresholdAt(vbs: number): number {
-    const p = this.params;
-    return p.vto + p.gamma * (Math.sqrt(Math.max(p.phi - vbs, SQRT_ARG_FLOOR)) - Math.sqrt(p.phi));
+  evaluate(x: Float64Array): DeviceColumns {
+    const out = allocateColumns(QUANTITIES.length, this.n);
+    const v = out.values;
+    const t = this.instances.terminals;
+    const ev = this.scratch;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      const vgs = s * (voltage(x, t[i * T + G]) - vs);
+      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
+      const forward = vds >= 0;
+      const region = forward
+        ? mosCore(vgs, vds, vbs, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev)
+        : mosCore(vgs - vds, -vds, vbs - vds, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev);
+      const idOwn = forward ? ev[ID] : -ev[ID];
+      const gds = ev[GDS];
+      v[Q_ID][i] = s * idOwn + this.gmin * s * vds;
+      v[Q_VGS][i] = s * vgs;
+      v[Q_VDS][i] = s * vds;
+      v[Q_VTH][i] = s * ev[VTH];
+      v[Q_VOV][i] = ev[VOV];
+      v[Q_GM][i] = ev[GM];
+      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : UNBOUNDED;
+      out.region[i] = region;
+      if (!(gds > 1 / UNBOUNDED)) out.flags[i] = NO_CLM;
+    }
+    return out;
   }
 
   overdriven(): OverdrivenJunction[] {
     return [];
   }
+}
 
-  record(x: Float64Array): MosRecord {
-    const { vgs, vds, vbs } = this.biases(x);
-    const forward = vds >= 0;
-    const ev = forward ? evaluateMos(vgs, vds, vbs, this.params) : evaluateMos(vgs - vds, -vds, vbs - vds, this.params);
-    const s = this.sign;
-    const idOwn = forward ? ev.id : -ev.id;
+/**
+ * One channel row (the effective drain or source) of the companion model: gm to (G, effS),
+ * gds to (effD, effS), gmbs to (BULK, effS), and the equivalent current on unknown `k`.
+ * `row` is the slot offset of the row; `gm`, `gds`, `gmbs` and `ieq` carry the row's sign.
+ */
+function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, k: number, gm: number, gds: number, gmbs: number, effD: number, ieq: number): void {
+  add(values, pos[row + G], gm);
+  add(values, pos[row + effS], -gm);
+  add(values, pos[row + effD], gds);
+  add(values, pos[row + effS], -gds);
+  add(values, pos[row + BULK], gmbs);
+  add(values, pos[row + effS], -gmbs);
+  if (k >= 0) rhs[k] -= ieq;
+}
+
+function voltage(x: Float64Array, k: number): number {
+  return k >= 0 ? x[k] : 0;
+}
+
+function add(values: Float64Array, slot: number, v: number): void {
+  if (slot >= 0) values[slot] += v;
+}
+
+/** The MOSFET kind (element letter M). */
+export const MOSFET: DeviceKind = deviceKind<Mosfet>({
+  letter: 'M',
+  nodeCount: 4,
+  terminalCount: T,
+  quantities: QUANTITIES,
+  regions: REGIONS,
+  internalNodes: () => [],
+  terminals: (el, node) => [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2]), node(el.nodes[3])],
+  dcPaths: (el) => [[el.nodes[0], el.nodes[2]]],
+  checkedJunctions: () => [],
+  instanceValues: (el) => [
+    { name: 'W', value: el.w, typical: 1e-6 },
+    { name: 'L', value: el.l, typical: 1e-6 },
+    { name: 'M', value: el.m, typical: 1 },
+  ],
+  floatingNote: 'its gate and bulk draw no DC current',
+  createTable: (instances, issues) => new MosfetTable(instances, issues),
+  record(cols, instances, i): MosRecord {
+    const v = cols.values;
     const rec: MosRecord = {
       type: 'mosfet',
-      polarity: s > 0 ? 'nmos' : 'pmos',
-      region: ev.region,
-      id: s * idOwn + this.gmin * s * vds,
-      vgs: s * vgs,
-      vds: s * vds,
-      vth: s * ev.vth,
-      vov: ev.vov,
-      gm: ev.gm,
-      ro: ev.gds > 1 / UNBOUNDED ? 1 / ev.gds : UNBOUNDED,
+      polarity: instances.elements[i].model.kind === 'pmos' ? 'pmos' : 'nmos',
+      region: REGIONS[cols.region[i]],
+      id: v[Q_ID][i],
+      vgs: v[Q_VGS][i],
+      vds: v[Q_VDS][i],
+      vth: v[Q_VTH][i],
+      vov: v[Q_VOV][i],
+      gm: v[Q_GM][i],
+      ro: v[Q_RO][i],
     };
-    if (!(ev.gds > 1 / UNBOUNDED)) rec.roInfinite = true;
+    if (cols.flags[i] & NO_CLM) rec.roInfinite = true;
     return rec;
-  }
-}
+  },
+  terminalCurrent: (cols, i, t) => (t === D ? cols.values[Q_ID][i] : t === S ? -cols.values[Q_ID][i] : 0),
+});

@@ -30,24 +30,6 @@ export function saturationCurrentAt(is: number, xti: number, eg: number, tempera
  */
 export const EXP_ARG_LIMIT = 80;
 
-/** exp(x) and its derivative, linearised beyond EXP_ARG_LIMIT. */
-export interface GuardedExp {
-  value: number;
-  slope: number;
-  /** True when x was beyond the limit and the tangent line was used. */
-  clipped: boolean;
-}
-
-/** exp(x) continued linearly beyond EXP_ARG_LIMIT (value and slope both finite for any finite x). Allocates; see guardedExpValue/guardedExpSlope for hot loops. */
-export function guardedExp(x: number): GuardedExp {
-  if (x <= EXP_ARG_LIMIT) {
-    const e = Math.exp(x);
-    return { value: e, slope: e, clipped: false };
-  }
-  const e = Math.exp(EXP_ARG_LIMIT);
-  return { value: e * (1 + (x - EXP_ARG_LIMIT)), slope: e, clipped: true };
-}
-
 /**
  * Critical voltage of a pn junction: above it, Newton steps on the junction voltage are
  * limited logarithmically (Nagel, ERL-M520, 1975): vcrit = n·VT·ln(n·VT/(√2·IS)).
@@ -58,24 +40,13 @@ export function criticalVoltage(nvt: number, is: number): number {
   return Number.isFinite(v) ? v : 1e3;
 }
 
-/** Result of limiting one junction voltage step. */
-export interface Limited {
-  v: number;
-  limited: boolean;
-}
-
 /**
  * Logarithmic junction-voltage limiting (Nagel, ERL-M520, 1975). A forward step that
  * would take the junction above its critical voltage by more than 2·n·VT is replaced by
  * the voltage at which the exponential's tangent from the old point would give the new
  * current, so the current grows at most by a factor e per n·VT of requested step.
+ * Returns the limited voltage; it differs from `vNew` exactly when limiting applied.
  */
-export function limitJunction(vNew: number, vOld: number, nvt: number, vcrit: number): Limited {
-  const v = limitJunctionValue(vNew, vOld, nvt, vcrit);
-  return { v, limited: v !== vNew };
-}
-
-/** The limited junction voltage alone (no allocation); it differs from `vNew` exactly when limiting applied. */
 export function limitJunctionValue(vNew: number, vOld: number, nvt: number, vcrit: number): number {
   if (vNew > vcrit && Math.abs(vNew - vOld) > 2 * nvt) {
     if (vOld > 0) {
@@ -94,26 +65,28 @@ export function limitJunctionValue(vNew: number, vOld: number, nvt: number, vcri
  * to predict its current; upward steps of a conducting device may at most triple its
  * overdrive plus half a volt, since the square law's tangent then overshoots. Downward
  * steps are free while the device stays on; a step from on to far into cutoff stops half a
- * volt below threshold, so the next iteration still sees the turn-on.
+ * volt below threshold, so the next iteration still sees the turn-on. Returns the limited
+ * gate voltage; it differs from `vNew` exactly when limiting applied.
  */
-export function limitGate(vNew: number, vOld: number, vth: number): Limited {
+export function limitGateValue(vNew: number, vOld: number, vth: number): number {
   if (vNew > vOld) {
     const ceiling = vOld <= vth ? vth + 0.5 : vth + 3 * (vOld - vth) + 0.5;
-    return vNew > ceiling ? { v: ceiling, limited: true } : { v: vNew, limited: false };
+    return vNew > ceiling ? ceiling : vNew;
   }
-  if (vOld > vth && vNew < vth - 0.5) return { v: vth - 0.5, limited: true };
-  return { v: vNew, limited: false };
+  if (vOld > vth && vNew < vth - 0.5) return vth - 0.5;
+  return vNew;
 }
 
 /**
  * Drain-source limiting for a symmetric MOS channel: a step that would swap source and drain
  * by more than a volt stops at 0 V first, so one iteration never jumps straight from
- * strong forward to strong reverse conduction.
+ * strong forward to strong reverse conduction. Returns the limited voltage; it differs from
+ * `vNew` exactly when limiting applied.
  */
-export function limitChannel(vNew: number, vOld: number): Limited {
-  if (vOld >= 0 && vNew < -1) return { v: 0, limited: true };
-  if (vOld < 0 && vNew > 1) return { v: 0, limited: true };
-  return { v: vNew, limited: false };
+export function limitChannelValue(vNew: number, vOld: number): number {
+  if (vOld >= 0 && vNew < -1) return 0;
+  if (vOld < 0 && vNew > 1) return 0;
+  return vNew;
 }
 
 /**
@@ -136,12 +109,15 @@ export function reciprocalOrUnbounded(g: number): number {
   return 1 / g;
 }
 
-/** Value part of guardedExp without allocating. */
+/**
+ * exp(x), continued by its tangent line beyond EXP_ARG_LIMIT, so a wildly forward-biased
+ * junction gives a huge but finite current instead of Infinity.
+ */
 export function guardedExpValue(x: number): number {
   return x <= EXP_ARG_LIMIT ? Math.exp(x) : Math.exp(EXP_ARG_LIMIT) * (1 + (x - EXP_ARG_LIMIT));
 }
 
-/** Slope part of guardedExp without allocating. */
+/** The slope of `guardedExpValue` at x (finite for any finite x). */
 export function guardedExpSlope(x: number): number {
   return Math.exp(Math.min(x, EXP_ARG_LIMIT));
 }

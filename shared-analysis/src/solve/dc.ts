@@ -1,9 +1,10 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
 import type { Circuit, Element } from '../circuit';
-import type { DeviceConditions, StartHint } from '../devices/device';
+import type { DeviceColumns, DeviceConditions, StartHint } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { thermalVoltage, UNBOUNDED } from '../devices/physics';
+import { deviceKindOf } from '../devices/registry';
 import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { formatEng, listNames } from './format';
 import type { LinearSolver } from './linear';
@@ -106,11 +107,9 @@ export class DcSolver {
   private readonly elementByName = new Map<string, number>();
   /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
   private conductanceOverride = new Map<number, number>();
-  private readonly elementIndex = new Map<Element, number>();
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
-    circuit.elements.forEach((el, i) => this.elementIndex.set(el, i));
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
@@ -492,16 +491,20 @@ export class DcSolver {
           };
       if (overflowed.length > before) overflowElements.add(r.element);
     }
-    const elementIndex = this.elementIndex;
-    for (const d of this.layout.devices) {
-      const rec = d.record(x) as unknown as Record<string, unknown>;
+    const { tables, deviceOrder } = this.layout;
+    const columns: DeviceColumns[] = tables.map((t) => t.evaluate(x));
+    for (let d = 0; d < deviceOrder.element.length; d++) {
+      const table = tables[deviceOrder.table[d]];
+      const row = deviceOrder.instance[d];
+      const name = c.elements[deviceOrder.element[d]].name;
+      const rec = table.kind.record(columns[deviceOrder.table[d]], table.instances, row) as unknown as Record<string, unknown>;
       const before = overflowed.length;
       for (const k in rec) {
         const val = rec[k];
-        if (typeof val === 'number' && !(Math.abs(val) <= RECORD_LIMIT)) rec[k] = clamp(val, () => `${k} of ${d.element.name}`);
+        if (typeof val === 'number' && !(Math.abs(val) <= RECORD_LIMIT)) rec[k] = clamp(val, () => `${k} of ${name}`);
       }
-      if (overflowed.length > before) overflowElements.add(elementIndex.get(d.element) ?? 0);
-      devices[d.element.name] = rec as unknown as DeviceRecord;
+      if (overflowed.length > before) overflowElements.add(deviceOrder.element[d]);
+      devices[name] = rec as unknown as DeviceRecord;
     }
     if (overflowed.length > 0) {
       const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();
@@ -526,7 +529,7 @@ export class DcSolver {
       return [this.singularFinding(last.singularIndex)];
     }
     if (last.status === 'non-finite') {
-      const culprits = last.culprits.map((d) => this.layout.devices[d].element);
+      const culprits = last.culprits.map((e) => c.elements[e]);
       const idx = culprits.length > 0 ? c.elements.indexOf(culprits[0]) : this.mostExtremeElement();
       const who = culprits.length > 0 ? `The equations of ${listNames(culprits.map((e) => e.name))} overflowed` : 'The node equations overflowed';
       return [
@@ -542,7 +545,7 @@ export class DcSolver {
     const unsettled = last.status === 'iteration-limit' ? last.unsettled : [];
     const names = unsettled.map((k) => this.layout.describeUnknown(k).replace(/^node /, ''));
     const onNodes = new Set(unsettled);
-    const devs = this.layout.devices.filter((d) => [...d.terminals].some((t) => onNodes.has(t))).map((d) => d.element);
+    const devs = this.devicesOn(onNodes);
     const target = devs[0] ?? this.elementOnUnknown(unsettled[0]) ?? c.elements[0];
     const idx = target ? c.elements.indexOf(target) : 0;
     const f = this.elementFinding(
@@ -611,12 +614,12 @@ export class DcSolver {
         case 'G':
         case 'F':
           return `${el.name} (a controlled current source)`;
-        case 'M':
-          return `${el.name} (its gate and bulk draw no DC current)`;
         case 'R':
           return Number.isFinite(el.resistance) ? el.name : `${el.name} (an open circuit)`;
-        default:
-          return el.name;
+        default: {
+          const note = deviceKindOf(el.kind)?.floatingNote;
+          return note ? `${el.name} (${note})` : el.name;
+        }
       }
     });
     const plural = nodes.length > 1;
@@ -692,11 +695,7 @@ export class DcSolver {
     };
     c.elements.forEach((el, i) => {
       if (this.layout.skipped.has(i)) return;
-      if (el.kind === 'D') check(i, 'junction', el.nodes[0], el.nodes[1]);
-      if (el.kind === 'Q') {
-        // A shorted base-collector junction is the ordinary diode connection, so only the base-emitter one is checked.
-        check(i, 'base-emitter junction', el.nodes[1], el.nodes[2]);
-      }
+      for (const j of deviceKindOf(el.kind)?.checkedJunctions(el) ?? []) check(i, j.junction, j.a, j.b);
     });
     return out;
   }
@@ -711,14 +710,15 @@ export class DcSolver {
       value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value)) - Math.log10(t)) > OUT_OF_RANGE_DECADES;
     this.circuit.elements.forEach((el, i) => {
       if (this.layout.skipped.has(i)) return;
-      if (el.kind === 'D' || el.kind === 'Q' || el.kind === 'M') {
+      const kind = deviceKindOf(el.kind);
+      if (kind && 'model' in el) {
         let m = modelExtreme.get(el.model);
         if (m === undefined) {
           m = false;
           for (const name in el.model.params) if (far(el.model.params[name], typical[name])) m = true;
           modelExtreme.set(el.model, m);
         }
-        const own = el.kind === 'M' ? far(el.w, 1e-6) || far(el.l, 1e-6) || far(el.m) : far(el.area) || far(el.m);
+        const own = kind.instanceValues(el).some((v) => far(v.value, v.typical));
         if (!m && !own) return;
       }
       for (const v of this.valuesOf(el)) {
@@ -741,17 +741,19 @@ export class DcSolver {
   private postSolveFindings(x: Float64Array, op: OperatingPoint, structure: Structure): Finding[] {
     const out: Finding[] = [];
     const c = this.circuit;
-    for (const d of this.layout.devices) {
-      const over = d.overdriven(x);
+    const { tables, deviceOrder } = this.layout;
+    for (let d = 0; d < deviceOrder.element.length; d++) {
+      const over = tables[deviceOrder.table[d]].overdriven(x, deviceOrder.instance[d]);
       if (over.length === 0) continue;
-      const rec = op.devices[d.element.name];
+      const element = c.elements[deviceOrder.element[d]];
+      const rec = op.devices[element.name];
       const current = rec && rec.type === 'bjt' ? rec.ic : rec && rec.type === 'diode' ? rec.id : 0;
       const j = over[0];
       const f = this.elementFinding(
         'dc-junction-overdriven',
         'warning',
-        `The ${j.junction} of ${d.element.name} is forward-biased at ${formatEng(j.volts, 'V')}, far beyond where a silicon junction can sit; the computed current (${formatEng(current, 'A')}) is not physical. A series resistance or current limit is probably missing.`,
-        c.elements.indexOf(d.element),
+        `The ${j.junction} of ${element.name} is forward-biased at ${formatEng(j.volts, 'V')}, far beyond where a silicon junction can sit; the computed current (${formatEng(current, 'A')}) is not physical. A series resistance or current limit is probably missing.`,
+        deviceOrder.element[d],
       );
       f.data = { junction: j.junction, volts: j.volts, current };
       out.push(f);
@@ -828,6 +830,24 @@ export class DcSolver {
     return this.circuit.elements[info.element];
   }
 
+  /** Nonlinear devices with a terminal on one of `unknowns`, in element order. */
+  private devicesOn(unknowns: Set<number>): Element[] {
+    const { tables, deviceOrder } = this.layout;
+    const out: Element[] = [];
+    for (let d = 0; d < deviceOrder.element.length; d++) {
+      const table = tables[deviceOrder.table[d]];
+      const nt = table.kind.terminalCount;
+      const base = deviceOrder.instance[d] * nt;
+      for (let k = 0; k < nt; k++) {
+        if (unknowns.has(table.instances.terminals[base + k])) {
+          out.push(this.circuit.elements[deviceOrder.element[d]]);
+          break;
+        }
+      }
+    }
+    return out;
+  }
+
   /** The element carrying the value farthest from its ordinary scale (decades), for overflow hints. */
   private mostExtremeElement(): number {
     let best = 0;
@@ -875,18 +895,14 @@ export class DcSolver {
       case 'C':
       case 'L':
         return [];
-      case 'D':
-      case 'Q':
-      case 'M': {
+      default: {
+        const kind = deviceKindOf(el.kind);
+        if (!kind) return [];
         const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
-        const out = Object.entries(el.model.params).map(([name, value]) => item(name, value, typical[name] ?? 1));
-        if (el.kind === 'M') out.push(item('W', el.w, 1e-6), item('L', el.l, 1e-6));
-        else out.push(item('area', el.area));
-        out.push(item('M', el.m));
+        const out = 'model' in el ? Object.entries(el.model.params).map(([name, value]) => item(name, value, typical[name] ?? 1)) : [];
+        for (const v of kind.instanceValues(el)) out.push(item(v.name, v.value, v.typical));
         return out;
       }
-      default:
-        return [];
     }
   }
 

@@ -1,11 +1,9 @@
 // Modified nodal analysis layout: unknown numbering, the fixed sparsity pattern, linear stamps and the nonlinear devices bound to it.
 
 import type { Circuit, Element } from '../circuit';
-import { BjtDevice } from '../devices/bjt';
-import type { NonlinearDevice } from '../devices/device';
-import { DiodeDevice } from '../devices/diode';
-import { MosfetDevice } from '../devices/mosfet';
+import type { DeviceKind, DeviceTable } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
+import { DEVICE_KINDS, deviceKindOf } from '../devices/registry';
 import type { SparsePattern } from './linear';
 
 /** What an MNA unknown stands for, so a singular pivot or an unsettled update can be named. */
@@ -47,7 +45,24 @@ export type ResistorStamp =
   /** A 0 Ω resistor solved as a branch: the branch row's diagonal (registered at 0, so the row can become V(a) − V(b) − R·I = 0). */
   | { kind: 'short'; element: number; branch: number; diagonal: number };
 
-const KNOWN_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H', 'D', 'Q', 'M']);
+/** Linear element letters the layout stamps itself; nonlinear ones come from the device registry. */
+const LINEAR_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H']);
+
+/** The instances of one kind collected while the layout is built, in element order. */
+interface KindBuilder {
+  kind: DeviceKind;
+  elements: Element[];
+  elementIndex: number[];
+  terminals: number[];
+  positions: number[];
+}
+
+/** Every nonlinear instance in element order: its element index, its table (index into `tables`) and its row in that table. */
+export interface DeviceOrder {
+  element: Int32Array;
+  table: Int32Array;
+  instance: Int32Array;
+}
 
 /** The MNA system for one circuit: built once, reused by every solve. */
 export class MnaLayout {
@@ -59,7 +74,9 @@ export class MnaLayout {
   /** Pattern position of each node unknown's diagonal (for shunt conductances during gmin stepping). */
   readonly nodeDiagonals: Int32Array;
   readonly sources: SourceHook[] = [];
-  readonly devices: NonlinearDevice[] = [];
+  /** One table per nonlinear kind present, in registry order. */
+  readonly tables: DeviceTable[] = [];
+  readonly deviceOrder: DeviceOrder;
   readonly readers: LinearReader[] = [];
   readonly paramIssues: ParamIssue[] = [];
   readonly layoutIssues: LayoutIssue[] = [];
@@ -82,14 +99,15 @@ export class MnaLayout {
     const els = circuit.elements;
 
     // Pass 1: check node indices, then number internal nodes and branch currents.
-    const internalOf = new Map<number, number>();
+    const internalOf = new Map<number, number[]>();
     els.forEach((el, i) => {
-      if (!KNOWN_KINDS.has(el.kind)) {
+      const kind = deviceKindOf(el.kind);
+      if (!LINEAR_KINDS.has(el.kind) && !kind) {
         this.skipped.add(i);
         this.layoutIssues.push({ element: i, code: 'dc-bad-node', message: `${el.name} is of a kind the solver does not know, so it is left out.` });
         return;
       }
-      const need = el.kind === 'Q' ? 3 : el.kind === 'M' || el.kind === 'E' || el.kind === 'G' ? 4 : 2;
+      const need = kind ? kind.nodeCount : el.kind === 'E' || el.kind === 'G' ? 4 : 2;
       const bad = el.nodes.length < need || el.nodes.slice(0, need).some((n) => !Number.isInteger(n) || n < 0 || n >= nodeCount);
       if (bad) {
         this.skipped.add(i);
@@ -100,9 +118,14 @@ export class MnaLayout {
         });
         return;
       }
-      if (el.kind === 'D' && DiodeDevice.needsInternalNode(el)) {
-        internalOf.set(i, this.unknowns.length);
-        this.unknowns.push({ kind: 'internal', element: i, label: `${el.name} internal anode` });
+      const labels = kind ? kind.internalNodes(el) : [];
+      if (labels.length > 0) {
+        const ks: number[] = [];
+        for (const label of labels) {
+          ks.push(this.unknowns.length);
+          this.unknowns.push({ kind: 'internal', element: i, label: `${el.name} ${label}` });
+        }
+        internalOf.set(i, ks);
       }
     });
     const hasBranch = (el: Element): boolean =>
@@ -120,10 +143,18 @@ export class MnaLayout {
     this.nodeDiagonals = new Int32Array(nodeCount - 1);
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
 
-    // Pass 2: linear stamps and device construction.
+    // Pass 2: linear stamps, and every nonlinear instance's terminals and matrix slots.
     const u = (node: number): number => node - 1;
+    const builders = new Map<DeviceKind, KindBuilder>();
     els.forEach((el, i) => {
       if (this.skipped.has(i)) return;
+      const kind = deviceKindOf(el.kind);
+      if (kind) {
+        let b = builders.get(kind);
+        if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: [], positions: [] }));
+        this.bindDevice(b, el, i, kind.terminals(el, u, internalOf.get(i) ?? []));
+        return;
+      }
       const a = u(el.nodes[0]);
       const b = u(el.nodes[1]);
       switch (el.kind) {
@@ -235,26 +266,47 @@ export class MnaLayout {
           }
           break;
         }
-        case 'D': {
-          const dev = new DiodeDevice(el, a, b, internalOf.get(i) ?? -1, this.paramIssues);
-          this.bindDevice(dev);
-          break;
-        }
-        case 'Q': {
-          const dev = new BjtDevice(el, { c: a, b, e: u(el.nodes[2]) }, this.paramIssues);
-          this.bindDevice(dev);
-          break;
-        }
-        case 'M': {
-          const dev = new MosfetDevice(el, { d: a, g: b, s: u(el.nodes[2]), b: u(el.nodes[3]) }, this.paramIssues);
-          this.bindDevice(dev);
-          break;
-        }
       }
     });
 
     this.pattern = { n: this.size, rows: Int32Array.from(this.rowsList), cols: Int32Array.from(this.colsList) };
     this.linearValues = Float64Array.from(this.linearList);
+    this.deviceOrder = this.buildTables(builders, els.length);
+  }
+
+  /** Builds one table per kind present (registry order) and the element-ordered index of every instance. */
+  private buildTables(builders: Map<DeviceKind, KindBuilder>, elementCount: number): DeviceOrder {
+    const tableOf = new Int32Array(elementCount).fill(-1);
+    const rowOf = new Int32Array(elementCount);
+    for (const kind of DEVICE_KINDS) {
+      const b = builders.get(kind);
+      if (!b) continue;
+      const table = kind.createTable(
+        {
+          count: b.elements.length,
+          elements: b.elements,
+          elementIndex: Int32Array.from(b.elementIndex),
+          terminals: Int32Array.from(b.terminals),
+          positions: Int32Array.from(b.positions),
+        },
+        this.paramIssues,
+      );
+      b.elementIndex.forEach((e, row) => {
+        tableOf[e] = this.tables.length;
+        rowOf[e] = row;
+      });
+      this.tables.push(table);
+    }
+    // Tables read their parameters kind by kind; report the problems in element order, as the netlist reads.
+    if (this.tables.length > 1 && this.paramIssues.length > 1) {
+      const indexOf = new Map<Element, number>();
+      for (const b of builders.values()) b.elements.forEach((el, row) => indexOf.set(el, b.elementIndex[row]));
+      this.paramIssues.sort((p, q) => (indexOf.get(p.element) ?? 0) - (indexOf.get(q.element) ?? 0));
+    }
+    const order: number[] = [];
+    for (let e = 0; e < elementCount; e++) if (tableOf[e] >= 0) order.push(e);
+    const element = Int32Array.from(order);
+    return { element, table: element.map((e) => tableOf[e]), instance: element.map((e) => rowOf[e]) };
   }
 
   /** Human-readable name of unknown `k`: a node name, an internal node, or the element whose branch current it is. */
@@ -312,11 +364,12 @@ export class MnaLayout {
     this.add(k, b, -1);
   }
 
-  private bindDevice(dev: NonlinearDevice): void {
-    const t = dev.terminals;
-    const nt = t.length;
-    dev.positions = new Int32Array(nt * nt);
-    for (let r = 0; r < nt; r++) for (let c = 0; c < nt; c++) dev.positions[r * nt + c] = this.entry(t[r], t[c]);
-    this.devices.push(dev);
+  /** Adds one nonlinear instance: its terminals, and the pattern slot of every terminal pair (registered now, in element order). */
+  private bindDevice(b: KindBuilder, el: Element, i: number, terminals: number[]): void {
+    const nt = b.kind.terminalCount;
+    b.elements.push(el);
+    b.elementIndex.push(i);
+    for (let r = 0; r < nt; r++) b.terminals.push(terminals[r]);
+    for (let r = 0; r < nt; r++) for (let c = 0; c < nt; c++) b.positions.push(this.entry(terminals[r], terminals[c]));
   }
 }

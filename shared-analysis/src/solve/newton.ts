@@ -1,6 +1,6 @@
 // Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
 
-import type { DeviceConditions, StartHint } from '../devices/device';
+import type { DeviceConditions, LoadTally, StartHint } from '../devices/device';
 import type { LinearSolver } from './linear';
 import type { MnaLayout } from './mna';
 
@@ -31,6 +31,7 @@ export type NewtonOutcome =
   | { status: 'converged'; iterations: number }
   | { status: 'iteration-limit'; iterations: number; unsettled: number[] }
   | { status: 'singular'; iterations: number; singularIndex: number }
+  /** `culprits`: element indices of the devices whose stamps overflowed, ascending. */
   | { status: 'non-finite'; iterations: number; culprits: number[] };
 
 /** Runs Newton iterations on one prepared layout; owns the work buffers so repeated solves allocate nothing. */
@@ -54,6 +55,8 @@ export class NewtonEngine {
   /** Source values for the current solve (overrides applied), aligned with layout.sources. */
   readonly sourceValues: Float64Array;
   factorizations = 0;
+  /** Reused by every assembly. */
+  private readonly tally: LoadTally = { limited: false, nonFinite: [] };
   /** The last iterate that was entirely finite (reported when nothing converges). */
   readonly lastFinite: Float64Array;
 
@@ -82,11 +85,11 @@ export class NewtonEngine {
 
   /** Prepares every device for a solve's temperature and beta. */
   prepare(conditions: DeviceConditions): void {
-    for (const d of this.layout.devices) d.prepare(conditions);
+    for (const t of this.layout.tables) t.prepare(conditions);
   }
 
-  /** Assembles the linearised system at x. Returns the limiting state and the devices whose stamps were not finite. */
-  private assemble(x: Float64Array, run: NewtonRun): { limited: boolean; nonFinite: number[] } {
+  /** Assembles the linearised system at x. Returns the limiting state and the devices whose stamps were not finite (element indices, ascending). */
+  private assemble(x: Float64Array, run: NewtonRun): LoadTally {
     const { layout, values, rhs } = this;
     values.set(this.linearValues);
     rhs.fill(0);
@@ -101,15 +104,12 @@ export class NewtonEngine {
       }
     }
     if (run.nodeShunt > 0) for (const p of layout.nodeDiagonals) values[p] += run.nodeShunt;
-    let limited = false;
-    const nonFinite: number[] = [];
-    const devs = layout.devices;
-    for (let d = 0; d < devs.length; d++) {
-      const r = devs[d].load(x, values, rhs, true);
-      if (r.limited) limited = true;
-      if (!r.finite) nonFinite.push(d);
-    }
-    return { limited, nonFinite };
+    const tally = this.tally;
+    tally.limited = false;
+    tally.nonFinite.length = 0;
+    for (const t of layout.tables) t.load(x, values, rhs, true, tally);
+    if (tally.nonFinite.length > 1) tally.nonFinite.sort((a, b) => a - b);
+    return tally;
   }
 
   /**
@@ -164,15 +164,15 @@ export class NewtonEngine {
     const { layout, values, rhs, xNew } = this;
     const n = layout.size;
     const { rows, cols } = layout.pattern;
-    for (const d of layout.devices) d.resetState(x, run.start);
-    const linear = layout.devices.length === 0;
+    for (const t of layout.tables) t.resetState(x, run.start);
+    const linear = layout.tables.length === 0;
     let factored = false;
     const unsettled: number[] = [];
     const rowScale = this.residualScale;
     const residual = this.residual;
     for (let it = 1; it <= run.maxIterations; it++) {
       const { limited, nonFinite } = this.assemble(x, run);
-      if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: nonFinite };
+      if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: [...nonFinite] };
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
         this.equilibrate();

@@ -1,6 +1,7 @@
 // Structural checks before any factorisation: nodes with no DC path to ground and loops of voltage-defining branches.
 
 import type { Circuit, Element } from '../circuit';
+import { deviceKindOf } from '../devices/registry';
 
 /** A set of nodes whose voltage the circuit does not define at DC. */
 export interface FloatingGroup {
@@ -48,20 +49,12 @@ function conductingPairs(el: Element, resistance: number): [number, number][] {
       return Number.isNaN(resistance) || resistance === Infinity ? [] : [[n[0], n[1]]];
     case 'L':
     case 'V':
-    case 'D':
     case 'E':
     case 'H':
       return [[n[0], n[1]]];
-    case 'Q':
-      return [
-        [n[0], n[1]],
-        [n[1], n[2]],
-      ];
-    case 'M':
-      return [[n[0], n[2]]];
     default:
-      // C, I, G and F conduct nothing at DC; anything unrecognised is treated the same way.
-      return [];
+      // Nonlinear kinds say which of their nodes they connect; C, I, G and F conduct nothing at DC, and anything unrecognised is treated the same way.
+      return deviceKindOf(el.kind)?.dcPaths(el) ?? [];
   }
 }
 

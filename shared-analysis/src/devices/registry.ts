@@ -1,0 +1,16 @@
+// The nonlinear device kinds the solver knows, by element letter: add a kind's descriptor here and the layout, the structural checks and the records pick it up.
+
+import { BJT } from './bjt';
+import type { DeviceKind } from './device';
+import { DIODE } from './diode';
+import { MOSFET } from './mosfet';
+
+/** Every nonlinear kind, one per element letter. */
+export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET];
+
+const BY_LETTER = new Map<string, DeviceKind>(DEVICE_KINDS.map((k) => [k.letter, k]));
+
+/** The nonlinear kind that solves elements of letter `letter` (`'Q'`), if any. */
+export function deviceKindOf(letter: string): DeviceKind | undefined {
+  return BY_LETTER.get(letter);
+}
