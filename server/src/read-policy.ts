@@ -1,6 +1,7 @@
 // The one file-reading policy of the CLI and the language server: which files a netlist may make qpoint read, and how.
 
 import * as fs from 'node:fs';
+import { decodeNetlistText } from '../../shared-analysis/src/syntax/decode';
 import * as path from 'node:path';
 
 /**
@@ -203,16 +204,15 @@ export class PolicyReader {
   }
 }
 
-/** Netlist text from bytes: UTF-16 with a byte-order mark, else UTF-8; undefined for binary data (a NUL byte). */
+/**
+ * Netlist text from bytes, through the engine's one decoding (`decodeNetlist`: byte-order marks,
+ * UTF-16, Windows-1252 for bytes that are not UTF-8, a Ctrl-Z at the end); undefined for binary
+ * data (a NUL byte in a file without a UTF-16 byte-order mark).
+ */
 export function decodeText(bytes: Buffer): string | undefined {
-  if (bytes.length >= 2 && bytes[0] === 0xff && bytes[1] === 0xfe) return bytes.subarray(2).toString('utf16le');
-  if (bytes.length >= 2 && bytes[0] === 0xfe && bytes[1] === 0xff) {
-    const swapped = Buffer.from(bytes.subarray(2, 2 + ((bytes.length - 2) & ~1)));
-    swapped.swap16();
-    return swapped.toString('utf16le');
-  }
-  if (bytes.includes(0)) return undefined;
-  return bytes.toString('utf8');
+  const utf16 = bytes.length >= 2 && ((bytes[0] === 0xff && bytes[1] === 0xfe) || (bytes[0] === 0xfe && bytes[1] === 0xff));
+  if (!utf16 && bytes.includes(0)) return undefined;
+  return decodeNetlistText(bytes);
 }
 
 function mebibytes(n: number): string {

@@ -150,6 +150,8 @@ const SYMBOL_KIND: Record<OutlineKind, SymbolKind> = {
   structure: SymbolKind.Struct,
   device: SymbolKind.Object,
   include: SymbolKind.File,
+  section: SymbolKind.Namespace,
+  'skipped-block': SymbolKind.String,
 };
 
 export function toDocumentSymbol(s: OutlineSymbol, conv: PositionConverter): DocumentSymbol {

@@ -1,7 +1,7 @@
 // The engine's facade: one call from netlist text to a complete, plain-data Analysis.
 
 import { resolveOptions, type Analysis, type AnalysisOptions, type ResolvedOptions } from './analysis';
-import { parse } from './syntax/parser';
+import { parse, startsWithDefinitionCard } from './syntax/parser';
 import { elaborate } from './elaborate/index';
 import { checkConnectivity } from './checks/connectivity';
 import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/dc';
@@ -58,7 +58,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     }
   };
 
-  const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: true }));
+  // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
+  const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
   const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC }));
   const findings: Finding[] = [...syntaxFindings(elab.documents), ...elab.findings];
   const circuit = elab.circuit;
@@ -168,7 +169,9 @@ function syntaxFindings(documents: Record<string, ParsedDocument>): Finding[] {
   const out: Finding[] = [];
   for (const doc of Object.values(documents)) {
     for (const e of doc.errors) {
-      out.push({ code: e.code, severity: e.severity ?? 'error', message: e.message, uri: doc.uri, span: e.span });
+      const f: Finding = { code: e.code, severity: e.severity ?? 'error', message: e.message, uri: doc.uri, span: e.span };
+      if (e.data) f.data = e.data;
+      out.push(f);
     }
   }
   return out;

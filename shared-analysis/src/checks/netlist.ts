@@ -15,7 +15,11 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'include-repeated': { severity: 'info', summary: 'A file (or library section) already read is included again; it is not read a second time.' },
   'include-too-deep': { severity: 'error', summary: 'Includes nest deeper than the limit; the deeper files are not read.' },
   'library-section-not-found': { severity: 'error', summary: 'A .lib card names a section the library file does not have; the sections it has are listed.' },
-  'card-ignored': { severity: 'info', summary: 'A dot card a DC bias analysis does not use (for example .tran); it is ignored.' },
+  'card-ignored': { severity: 'info', summary: 'A card that reruns the analysis at other values (`.step`); one note per kind of card, and the nominal netlist is analysed.' },
+  'alternatives-not-analysed': { severity: 'info', summary: 'The netlist analysed ends at `.alter`; the alternative versions after it are not analysed.' },
+  'condition-invalid': { severity: 'error', summary: 'An `.if` or `.elseif` condition that cannot be evaluated; its branch is not taken.' },
+  'element-not-analysed': { severity: 'warning', summary: 'Elements of a kind the solver does not read yet (J, S, B, T, digital elements, behavioural E/F/G/H forms); one finding per kind, and they are left out.' },
+  'element-not-analysed-no-dc-effect': { severity: 'info', summary: 'Elements the solver does not read that have no effect at DC (inductor couplings K); one finding per kind.' },
 
   // Parameters.
   'param-invalid': { severity: 'error', summary: 'A .param or subcircuit parameter whose expression cannot be evaluated.' },
@@ -53,7 +57,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   // Subcircuits.
   'subckt-not-found': { severity: 'error', summary: 'An X instance names a subcircuit that is not defined.' },
   'subckt-port-count': { severity: 'error', summary: 'An X instance connects a different number of nodes than the subcircuit has ports.' },
-  'subckt-unknown-parameter': { severity: 'error', summary: 'An instance override of a parameter not on the .subckt line (a .param inside the body is local and cannot be set per instance); it is ignored.' },
+  'subckt-unknown-parameter': { severity: 'error', summary: 'An instance override of a parameter the subcircuit has neither on its .subckt line nor in a .param inside it; it is ignored.' },
   'subckt-recursive': { severity: 'error', summary: 'A chain of instances that re-enters a subcircuit it is inside; the chain is named.' },
   'subckt-duplicate': { severity: 'error', summary: 'Two subcircuit definitions with the same name in one scope; the first is used.' },
   'subckt-port-duplicate': { severity: 'error', summary: 'A subcircuit lists the same port twice.' },

@@ -2,7 +2,7 @@
 
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
 import type { Cccs, Ccvs, Circuit, Element, Model, Origin } from '../circuit';
-import type { Assignment, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
+import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Span, Workspace } from '../types';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
@@ -80,6 +80,8 @@ interface Instance {
   /** Definitions entered, outermost first. */
   chain: SubcktDef[];
   instances: Origin['instances'];
+  /** Lower-case names of body `.param`s an instance overrides (a convention of process kits). */
+  overrides?: Set<string>;
   /** Model maps to search, innermost first; `null` marks a model whose card is unusable. */
   modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string }>[];
 }
@@ -98,7 +100,7 @@ export function elaborate(root: ParsedDocument, workspace: Workspace, options: E
     // A last line of defence: a defect must not take the editor down. The fuzz tests make sure this stays unused.
     sink.add('elaboration-internal-error', `Elaboration stopped because of an internal error (${e instanceof Error ? e.message : String(e)}); please report this netlist.`, root.uri, { start: 0, end: 0 });
     return {
-      circuit: { title: titleOf(root), nodes: ['0'], elements: [], models: {}, temperatureC: DEFAULT_TEMPERATURE_C, tnomC: DEFAULT_TEMPERATURE_C, params: {} },
+      circuit: { title: titleOf(root, undefined), nodes: ['0'], elements: [], models: {}, temperatureC: DEFAULT_TEMPERATURE_C, tnomC: DEFAULT_TEMPERATURE_C, params: {} },
       documents: { [root.uri]: root },
       symbols: { params: [], models: [], subckts: [], includes: [] },
       findings: sink.findings,
@@ -118,6 +120,10 @@ class Elaborator {
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
   private tooLarge = false;
+  /** Lower-case names of `.global` nodes: never prefixed inside subcircuits. */
+  private readonly globals = new Set<string>();
+  /** Elements of letters or forms the solver does not read yet, by kind, for one finding per kind. */
+  private readonly leftOut = new Map<string, Located<ElementCard>[]>();
 
   constructor(
     private readonly root: ParsedDocument,
@@ -132,6 +138,9 @@ class Elaborator {
   run(): ElaborationResult {
     const read = readSources(this.root, this.workspace, this.sink);
     for (const def of read.allDefs) this.checkPortsUsed(def);
+    for (const body of [read.top, ...read.allDefs.map((d) => d.body)]) {
+      for (const { card } of body.items) if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
+    }
     const top = new ParamScope(this.context, { label: 'top level' });
     const allBodies = [read.top, ...read.allDefs.map((d) => d.body)];
     for (const body of allBodies) {
@@ -153,6 +162,7 @@ class Elaborator {
       modelScopes: [new Map()],
     };
     this.flattenBody(topInstance);
+    this.reportLeftOut();
     this.resolveControls();
     this.dropUnusedNodes();
     top.entries(); // evaluates (and reports) parameters nothing refers to
@@ -162,7 +172,7 @@ class Elaborator {
     for (const e of top.entries()) if (e.result.ok) params[e.name] = e.result.value;
 
     const circuit: Circuit = {
-      title: titleOf(this.root),
+      title: titleOf(this.root, read.top),
       nodes: this.nodes,
       elements: this.elements,
       models: this.models,
@@ -217,13 +227,10 @@ class Elaborator {
   }
 
   private flattenBody(inst: Instance): void {
-    const { body, scope } = inst;
-    for (const { card, uri } of body.items) {
-      if (card.kind !== 'param') continue;
-      for (const a of card.params) this.defineParam(scope, paramDefinition(a, uri));
-    }
+    const { scope } = inst;
+    const items = this.activeItems(inst);
     const local = inst.modelScopes[0]!;
-    for (const { card, uri } of body.items) {
+    for (const { card, uri } of items) {
       if (card.kind !== 'model') continue;
       const key = card.name.text.toLowerCase();
       const prev = local.get(key);
@@ -242,11 +249,78 @@ class Elaborator {
         if (sym && sym.key === undefined) sym.key = circuitKey;
       }
     }
-    for (const item of body.items) {
+    for (const item of items) {
       if (this.tooLarge) return;
       if (item.card.kind === 'element') this.addElement(item as Located<ElementCard>, inst);
     }
     scope.entries();
+  }
+
+  /**
+   * The cards of an instance's body that take part: those outside `.if` blocks and those in the
+   * branch each block takes, its condition evaluated with the parameters in scope. Defines the
+   * `.param`s it passes (in order, so a condition sees the parameters above it); a body `.param`
+   * the instance overrides is not defined again.
+   */
+  private activeItems(inst: Instance): Located[] {
+    const { body, scope } = inst;
+    const defineAll = (card: Located['card'], uri: string): void => {
+      if (card.kind !== 'param') return;
+      for (const a of card.params) {
+        if (inst.overrides?.has(a.name.text.toLowerCase())) continue;
+        this.defineParam(scope, paramDefinition(a, uri));
+      }
+    };
+    if (!body.items.some((i) => i.card.kind === 'condition')) {
+      for (const { card, uri } of body.items) defineAll(card, uri);
+      return body.items;
+    }
+    const out: Located[] = [];
+    /** Per open `.if`: whether its enclosing branch is active, whether a branch was taken, whether the current one is. */
+    const stack: { outer: boolean; taken: boolean; active: boolean }[] = [];
+    const active = (): boolean => stack.length === 0 || stack[stack.length - 1]!.active;
+    const test = (card: ConditionCard, uri: string): boolean => {
+      if (!card.condition) return false;
+      const v = tokenValue(card.condition, scope, uri);
+      if (v.ok) return v.value !== 0;
+      this.sink.add('condition-invalid', `The condition of this ${card.tokens[0]!.text} cannot be evaluated; its branch is not taken. ${capitalise(v.message)}`, uri, v.inherited ? card.condition.span : v.span, v.related);
+      return false;
+    };
+    for (const item of body.items) {
+      const { card, uri } = item;
+      if (card.kind !== 'condition') {
+        if (active()) {
+          out.push(item);
+          defineAll(card, uri);
+        }
+        continue;
+      }
+      const top = stack[stack.length - 1];
+      switch (card.branch) {
+        case 'if': {
+          const outer = active();
+          const taken = outer && test(card, uri);
+          stack.push({ outer, taken, active: taken });
+          break;
+        }
+        case 'elseif':
+          if (!top) break;
+          if (top.outer && !top.taken) {
+            top.active = test(card, uri);
+            top.taken = top.active;
+          } else top.active = false;
+          break;
+        case 'else':
+          if (!top) break;
+          top.active = top.outer && !top.taken;
+          top.taken = true;
+          break;
+        case 'endif':
+          stack.pop();
+          break;
+      }
+    }
+    return out;
   }
 
   private defineParam(scope: ParamScope, def: ParamDefinition): void {
@@ -270,12 +344,13 @@ class Elaborator {
     if (lower === '0' || lower === 'gnd') return 0;
     const port = inst.ports.get(lower);
     if (port !== undefined) return port;
+    const global = this.globals.size > 0 && this.globals.has(lower);
     // Built from the lower-case parts so each terminal makes one key string; the name as written only for a new node.
-    const key = inst.lowerPrefix + lower;
+    const key = global ? lower : inst.lowerPrefix + lower;
     let k = this.nodeIndex.get(key);
     if (k === undefined) {
       k = this.nodes.length;
-      this.nodes.push(inst.prefix + tok.text);
+      this.nodes.push(global ? tok.text : inst.prefix + tok.text);
       this.nodeIndex.set(key, k);
     }
     return k;
@@ -306,6 +381,13 @@ class Elaborator {
     const { card, uri } = item;
     if (card.letter === 'X') {
       this.instantiate(item, inst);
+      return;
+    }
+    const unsolved = leftOutKind(card);
+    if (unsolved) {
+      let list = this.leftOut.get(unsolved);
+      if (!list) this.leftOut.set(unsolved, (list = []));
+      list.push(item);
       return;
     }
     const lowerName = inst.lowerPrefix + card.name.text.toLowerCase();
@@ -385,12 +467,16 @@ class Elaborator {
         const unit = card.letter === 'V' ? 'V' : 'A';
         const tok = card.source?.value;
         let dc = 0;
-        if (!tok) {
+        if (!tok && card.source?.form === 'none') {
+          // Only an AC or transient specification: its DC value is 0.
+        } else if (!tok) {
           this.sink.add('element-value-missing', `Source \`${card.name.text}\` has no DC value; it is taken as 0 ${unit}.`, uri, card.name.span);
         } else {
           const v = this.value(tok, inst, uri, `the DC value of \`${card.name.text}\``, `The source is taken as 0 ${unit}.`);
           if (v !== undefined) dc = v;
         }
+        // A 0 V source between two names of one node (`Vgnd gnd 0 0`) is a consistent short: nothing to solve.
+        if (card.letter === 'V' && dc === 0 && nodes[0] === nodes[1]) return;
         element = card.letter === 'V' ? { name, nodes, origin, kind: 'V', dc } : { name, nodes, origin, kind: 'I', dc };
         break;
       }
@@ -634,28 +720,26 @@ class Elaborator {
       declared.set(a.name.text.toLowerCase(), a);
       this.defineParam(scope, paramDefinition(a, def.uri));
     }
+    const overrides = new Set<string>();
     for (const a of card.params) {
       const key = a.name.text.toLowerCase();
       if (!declared.has(key)) {
-        const names = [...declared.values()].map((d) => d.name.text);
-        // A `.param` in the body is local to the definition, not part of its interface: only the
-        // parameters on the `.subckt` line can be set per instance, so internal values derived
-        // from them cannot be changed from outside by accident. The message says how to expose one.
-        const local = bodyParam(def, key);
-        const declaredText = names.length > 0 ? ` (it declares ${names.join(', ')})` : ' (it declares none)';
-        this.sink.add(
-          'subckt-unknown-parameter',
-          local
-            ? `\`${a.name.text}\` is set by a .param inside subcircuit \`${def.card.name.text}\`, which is local to it; an instance sets only the parameters on the .subckt line${declaredText}. The override is ignored; move \`${local.name.text}\` onto the .subckt line to make it settable.`
-            : `Subcircuit \`${def.card.name.text}\` declares no parameter \`${a.name.text}\`${declaredText}; the override is ignored.`,
-          uri,
-          a.name.span,
-          local
-            ? [{ uri: local.uri, span: local.assignment.span, message: `\`${local.name.text}\` is defined inside the subcircuit here.` }]
-            : [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
-          { parameter: a.name.text, declared: names, ...(local ? { localParameter: local.name.text } : {}) },
-        );
-        continue;
+        // A `.param` in the body can be set per instance too, as process kits expect: the instance's
+        // value replaces the body's definition in this instance only.
+        if (bodyParam(def, key)) overrides.add(key);
+        else {
+          const names = [...declared.values()].map((d) => d.name.text);
+          const declaredText = names.length > 0 ? ` (it declares ${names.join(', ')})` : ' (it declares none)';
+          this.sink.add(
+            'subckt-unknown-parameter',
+            `Subcircuit \`${def.card.name.text}\` has no parameter \`${a.name.text}\`${declaredText}, neither on its .subckt line nor in a .param inside it; the override is ignored.`,
+            uri,
+            a.name.span,
+            [{ uri: def.uri, span: def.card.span, message: `\`${def.card.name.text}\` is defined here.` }],
+            { parameter: a.name.text, declared: names },
+          );
+          continue;
+        }
       }
       const v = tokenValue(a.value, inst.scope, uri);
       if (!v.ok) this.reportValue(v, a.value, uri, `the value of \`${a.name.text}\` for instance \`${card.name.text}\``, 'Whatever depends on it inside the instance has no value either.');
@@ -674,7 +758,27 @@ class Elaborator {
       instances: [...inst.instances, { name: card.name.text, uri, span: card.span }],
       modelScopes: [new Map(), ...inst.modelScopes],
     };
+    if (overrides.size > 0) child.overrides = overrides;
     this.flattenBody(child);
+  }
+
+  /** One finding per kind of element the solver does not read yet, naming how many and which are left out. */
+  private reportLeftOut(): void {
+    for (const [kind, items] of this.leftOut) {
+      const info = LEFT_OUT[kind]!;
+      const first = items[0]!;
+      const names = items.map((i) => i.card.name.text);
+      const shown = names.slice(0, 8).map((n) => `\`${n}\``).join(', ') + (names.length > 8 ? `, and ${names.length - 8} more` : '');
+      const count = items.length === 1 ? `1 ${info.one}` : `${items.length} ${info.many}`;
+      this.sink.add(
+        info.dc ? 'element-not-analysed' : 'element-not-analysed-no-dc-effect',
+        `${count} (${shown}) ${items.length === 1 ? 'is' : 'are'} not analysed yet and ${items.length === 1 ? 'is' : 'are'} left out of the circuit; ${info.dc ? 'the bias point is computed without them, so it may not hold where they connect.' : 'at DC they have no effect, so the bias point stands.'}`,
+        first.uri,
+        first.card.name.span,
+        items.slice(1, 20).map((i) => ({ uri: i.uri, span: i.card.name.span, message: `\`${i.card.name.text}\` is left out too.` })),
+        { kind, count: items.length, elements: names.slice(0, 100) },
+      );
+    }
   }
 
   /** Resolves F and H controls against the flattened voltage sources; drops those whose control does not exist. */
@@ -730,6 +834,7 @@ class Elaborator {
   private temperatures(bodies: Body[], top: ParamScope): { temperatureC: number; tnomC: number } {
     let temperatureC: number | undefined;
     let tnomC: number | undefined;
+    const noted = new Set<string>();
     for (const body of bodies) {
       for (const { card, uri } of body.items) {
         if (card.kind === 'temp' && card.values[0]) {
@@ -740,8 +845,16 @@ class Elaborator {
             if (a.name.text.toLowerCase() !== 'tnom' || tnomC !== undefined) continue;
             tnomC = this.temperature(a.value, top, uri, 'tnom');
           }
-        } else if (card.kind === 'other-dot') {
-          this.sink.add('card-ignored', `\`${card.command.text}\` is not used by a DC bias analysis; it is ignored.`, uri, card.command.span);
+        } else if (card.kind === 'skipped' && (card.group === 'sweep' || card.group === 'alternative')) {
+          // One note per kind of card: the others of the kind say nothing new.
+          const kind = card.command.text.toLowerCase();
+          if (noted.has(kind)) continue;
+          noted.add(kind);
+          if (card.group === 'alternative') {
+            this.sink.add('alternatives-not-analysed', `The netlist analysed ends at this ${card.command.text}; the alternative versions after it are not analysed.`, uri, card.command.span);
+          } else {
+            this.sink.add('card-ignored', `\`${card.command.text}\` reruns the analysis at other values, which a single bias point does not do; the netlist is analysed at its nominal values.`, uri, card.command.span);
+          }
         }
       }
     }
@@ -817,6 +930,30 @@ class Elaborator {
   }
 }
 
+/** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */
+const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = {
+  J: { one: 'junction FET', many: 'junction FETs', dc: true },
+  Z: { one: 'MESFET', many: 'MESFETs', dc: true },
+  S: { one: 'voltage-controlled switch', many: 'voltage-controlled switches', dc: true },
+  W: { one: 'current-controlled switch', many: 'current-controlled switches', dc: true },
+  B: { one: 'behavioural source', many: 'behavioural sources', dc: true },
+  K: { one: 'inductor coupling', many: 'inductor couplings', dc: false },
+  T: { one: 'transmission line', many: 'transmission lines', dc: true },
+  O: { one: 'lossy transmission line', many: 'lossy transmission lines', dc: true },
+  P: { one: 'coupled multiconductor line', many: 'coupled multiconductor lines', dc: true },
+  Y: { one: 'transmission-line element', many: 'transmission-line elements', dc: true },
+  U: { one: 'digital or distributed element', many: 'digital or distributed elements', dc: true },
+  A: { one: 'mixed-signal (code model) element', many: 'mixed-signal (code model) elements', dc: true },
+  N: { one: 'model-defined device', many: 'model-defined devices', dc: true },
+  behaviour: { one: 'controlled source in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', many: 'controlled sources in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', dc: true },
+};
+
+/** The left-out kind of an element the solver does not read yet, or undefined for one it solves. */
+function leftOutKind(card: ElementCard): string | undefined {
+  if (card.behaviour) return 'behaviour';
+  return LEFT_OUT[card.letter] ? card.letter : undefined;
+}
+
 function paramDefinition(a: Assignment, uri: string): ParamDefinition {
   const { source, offset } = expressionOf(a.value);
   return { name: a.name.text, source, offset, uri, span: a.span, nameSpan: a.name.span };
@@ -828,7 +965,9 @@ function paramSymbol(a: Assignment, uri: string, scope: string, value: number | 
   return sym;
 }
 
-function titleOf(root: ParsedDocument): string {
+/** The `.title` card's text when the netlist has one, else its first line. */
+function titleOf(root: ParsedDocument, top: Body | undefined): string {
+  for (const { card } of top?.items ?? []) if (card.kind === 'skipped' && card.group === 'title' && card.text) return card.text;
   const first = root.cards[0];
   return first && first.kind === 'title' ? first.text : '';
 }

@@ -5,7 +5,7 @@ import type { Span } from '../types';
 import { cardAt, elementByName, subcktScopes } from './document-index';
 
 /** What an outline entry stands for. */
-export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include';
+export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include' | 'section' | 'skipped-block';
 
 /** One entry of the outline. `span` covers the whole definition, `selectionSpan` its name. */
 export interface OutlineSymbol {
@@ -70,11 +70,35 @@ export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[
     if (inc.uri !== uri) continue;
     defs.push({ name: inc.target, detail: inc.found ? 'included file' : 'included file (not found)', kind: 'include', span: inc.span, selectionSpan: inc.span, children: [] });
   }
+  for (let i = 0; i < doc.cards.length; i++) {
+    const card = doc.cards[i]!;
+    // A script, control or data block is one entry: nothing inside it is read.
+    if (card.kind === 'skipped' && card.group === 'block') {
+      defs.push({ name: card.command.text, detail: 'skipped block (not read)', kind: 'skipped-block', span: card.span, selectionSpan: card.command.span, children: [] });
+    }
+    // A library section (`.lib NAME` … `.endl`), with the models and subcircuits it defines.
+    if (card.kind === 'lib' && !card.path && card.section) {
+      let end = doc.cards.length - 1;
+      for (let j = i + 1; j < doc.cards.length; j++) {
+        if (doc.cards[j]!.kind === 'endl') {
+          end = j;
+          break;
+        }
+      }
+      const children: OutlineSymbol[] = [];
+      for (const inner of doc.cards.slice(i + 1, end)) {
+        if (inner.kind === 'model') children.push({ name: inner.name.text, detail: inner.type.text.toUpperCase(), kind: 'model', span: inner.span, selectionSpan: inner.name.span, children: [] });
+        else if (inner.kind === 'subckt') children.push({ name: inner.name.text, detail: `ports ${inner.ports.map((p) => p.text).join(' ')}`, kind: 'subcircuit', span: inner.span, selectionSpan: inner.name.span, children: [] });
+      }
+      const span = { start: card.span.start, end: doc.cards[end]!.span.end };
+      defs.push({ name: card.section.text, detail: 'library section', kind: 'section', span, selectionSpan: card.section.span, children });
+    }
+  }
   defs.sort((a, b) => a.span.start - b.span.start);
   // Symbols declared inside a subcircuit body belong under it.
   const top: OutlineSymbol[] = [];
   for (const d of defs) {
-    const parent = d.kind !== 'subcircuit' ? top.find((t) => t.kind === 'subcircuit' && t.span.start < d.span.start && d.span.end <= t.span.end) : undefined;
+    const parent = d.kind !== 'subcircuit' && d.kind !== 'section' ? top.find((t) => t.kind === 'subcircuit' && t.span.start < d.span.start && d.span.end <= t.span.end) : undefined;
     if (parent) parent.children.push(d);
     else top.push(d);
   }

@@ -46,8 +46,11 @@ export interface CommentCard extends CardBase {
 
 /** How an independent source's DC value was written. */
 export interface SourceValue {
-  /** `dc`: `DC 5`; `bare`: `5`; `transient`: the t=0 value of `PULSE(...)`, `SIN(...)`, `PWL(...)`, `EXP(...)`. */
-  form: 'dc' | 'bare' | 'transient';
+  /**
+   * `dc`: `DC 5`; `bare`: `5`; `transient`: the t=0 value of `PULSE(...)`, `SIN(...)`, `PWL(...)`,
+   * `EXP(...)`, `SFFM(...)`; `none`: only an AC or other analysis specification, so the DC value is 0.
+   */
+  form: 'dc' | 'bare' | 'transient' | 'none';
   /** The token holding the DC (or t=0) value, when one was given. */
   value?: Token;
   /** For `transient`, the function name token (`PULSE`). */
@@ -68,7 +71,7 @@ export interface SourceValue {
 export interface ElementCard extends CardBase {
   kind: 'element';
   /** Upper-case first letter of the name. */
-  letter: 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'X';
+  letter: ElementLetter;
   name: Token;
   nodes: Token[];
   value?: Token;
@@ -78,7 +81,32 @@ export interface ElementCard extends CardBase {
   subckt?: Token;
   source?: SourceValue;
   params: Assignment[];
+  /**
+   * A behavioural form of a controlled source (`POLY(n) ...`, `VALUE={...}`, `TABLE {...} = ...`,
+   * `LAPLACE ...`): the form's keyword and every field from it to the end of the card. Set only on
+   * E, F, G and H cards; the solver does not read these forms yet, so such an element is left out.
+   */
+  behaviour?: { form: string; keyword: Token; fields: Token[]; span: Span };
+  /** K: the inductors it couples (`value` holds the coupling coefficient). */
+  coupled?: Token[];
 }
+
+/** The element letters the solver reads today. */
+export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'X';
+
+/**
+ * Letters of the family that are read into cards but not solved yet:
+ * - J, Z: nodes[3] (drain, gate, source), model, area? (junction FET, MESFET)
+ * - S: nodes[4] (out+, out-, ctrl+, ctrl-), model (voltage-controlled switch)
+ * - W: nodes[2], control (controlling V source), model (current-controlled switch)
+ * - B: nodes[2], value = the V= or I= expression, params (behavioural source)
+ * - K: coupled (inductor names), value (coupling coefficient)
+ * - T, O, P, Y: nodes (every positional field), params (transmission lines and the like)
+ * - U, A, N: nodes (every positional field but the last), model (digital, mixed-signal and model-only devices)
+ */
+export type UnsolvedLetter = 'J' | 'Z' | 'S' | 'W' | 'B' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
+
+export type ElementLetter = SolvedLetter | UnsolvedLetter;
 
 /** `.model NAME TYPE (P=V ...)`, with or without parentheses, across continuation lines. */
 export interface ModelCard extends CardBase {
@@ -150,10 +178,61 @@ export interface EndCard extends CardBase {
   kind: 'end';
 }
 
-/** A dot card the engine does not interpret (e.g. `.tran`): kept, reported as info, ignored. */
+/** A dot card this parser does not know (`.foo`): kept with its command, reported, its insides not read. */
 export interface OtherDotCard extends CardBase {
   kind: 'other-dot';
   command: Token;
+}
+
+/**
+ * What a skipped card or block is for:
+ * - `analysis`, `output`: analysis and output cards (`.tran`, `.meas`, `.print`, `.ic`, ...)
+ * - `block`: a multi-line script, control or data block (`.control` ... `.endc`), skipped whole
+ * - `alternative`: `.alter` and everything after it (the netlist analysed ends there)
+ * - `title`: `.title TEXT`
+ * - `sweep`: `.step` and other cards that rerun the analysis at other values
+ * - `setup`: cards that only set up another tool (`.prot`, `.unprot`, `.del lib`, `.backanno`, ...)
+ */
+export type SkippedGroup = 'analysis' | 'output' | 'block' | 'alternative' | 'title' | 'sweep' | 'setup';
+
+/**
+ * A dot card or block that a DC bias analysis does not use: recognised by its command and kept
+ * whole (its span covers a block's inner lines and closing card), but nothing inside it is read.
+ * `tokens` holds the command only.
+ */
+export interface SkippedCard extends CardBase {
+  kind: 'skipped';
+  command: Token;
+  group: SkippedGroup;
+  /** For a block: its closing card's command (absent when the file ends first). */
+  closer?: Token;
+  /** For `.title`: the title text. */
+  text?: string;
+}
+
+/** `.global n1 n2 ...`: nodes that mean the same node in every subcircuit. */
+export interface GlobalCard extends CardBase {
+  kind: 'global';
+  nodes: Token[];
+}
+
+/**
+ * `.func name(a, b) = expr` (the `=` and braces optional): a user function for expressions.
+ * `body` is the expression as one `expr` token (its text as written, braces included if written).
+ */
+export interface FuncCard extends CardBase {
+  kind: 'func';
+  name: Token;
+  args: Token[];
+  body?: Token;
+}
+
+/** One card of a conditional: `.if (cond)`, `.elseif (cond)`, `.else`, `.endif`. */
+export interface ConditionCard extends CardBase {
+  kind: 'condition';
+  branch: 'if' | 'elseif' | 'else' | 'endif';
+  /** The condition as one `expr` token (for `if` and `elseif`). */
+  condition?: Token;
 }
 
 /** A card the parser could not read. `message` says what was expected. */
@@ -180,6 +259,10 @@ export type Card =
   | OpCard
   | EndCard
   | OtherDotCard
+  | SkippedCard
+  | GlobalCard
+  | FuncCard
+  | ConditionCard
   | ErrorCard;
 
 /** A syntax problem found while reading a card that could still be read (e.g. a stray `=`). */
@@ -189,6 +272,8 @@ export interface SyntaxError {
   code: string;
   /** How serious the problem is; absent means `error`. Hints mark readings that may surprise (a title that looks like a card). */
   severity?: 'error' | 'warning' | 'info' | 'hint';
+  /** Structured facts behind the message (for example the unknown dot command), carried into the finding. */
+  data?: Record<string, unknown>;
 }
 
 /** The parse of one document. */

@@ -10,11 +10,15 @@ import type {
   Assignment,
   Card,
   CommentCard,
+  ConditionCard,
   ElementCard,
+  ElementLetter,
   ErrorCard,
   LibCard,
   ParsedDocument,
   ParseOptions,
+  SkippedCard,
+  SkippedGroup,
   SourceValue,
   SubcktCard,
   SyntaxError,
@@ -24,23 +28,52 @@ import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 
 
-/** The element letters qpoint reads, in the order messages list them. */
-const ELEMENT_LETTERS = 'RCLVIEFGHDQMX';
+/** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
 const ELEMENT_LETTER_LIST = 'R, C, L, V, I, E, F, G, H, D, Q, M or X';
 
-/** Transient source functions whose t=0 value is read; the value is this argument of the function. */
+/**
+ * Transient source functions whose t=0 value is read; the value is this argument of the function
+ * (PULSE, SIN and EXP start at their first argument, SFFM at its offset, PWL at its first value).
+ */
 const TRANSIENT_VALUE_ARGUMENT = new Map<string, number>([
   ['PULSE', 0],
   ['SIN', 0],
   ['EXP', 0],
+  ['SFFM', 0],
   ['PWL', 1],
 ]);
 
-/** Source and controlled-source forms that are recognised but not supported. */
-const UNSUPPORTED_SOURCE_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ', 'SFFM', 'AM', 'NOISE']);
+/** Behavioural forms of controlled sources: read into `behaviour`, not solved yet. */
+const BEHAVIOUR_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ', 'CHEBYSHEV']);
+/** Source forms of V and I that are recognised but not supported. */
+const UNSUPPORTED_SOURCE_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ']);
 
 const DOT_COMMANDS = new Set([
-  '.model', '.param', '.subckt', '.ends', '.include', '.inc', '.lib', '.endl', '.temp', '.option', '.options', '.op', '.end',
+  '.model', '.param', '.subckt', '.ends', '.include', '.inc', '.lib', '.endl', '.temp', '.option', '.options', '.opt', '.op', '.end',
+  '.global', '.func', '.if', '.elseif', '.else', '.endif', '.alter',
+]);
+
+/**
+ * Dot cards a DC bias analysis does not use, by what they are for. They are recognised by their
+ * command and skipped without reading their fields (an `=` inside `.meas ... when v(out)=2` is
+ * never an assignment).
+ */
+const SKIPPED_CARDS = new Map<string, SkippedGroup>([
+  ...['.tran', '.ac', '.dc', '.noise', '.tf', '.pz', '.four', '.fourier', '.disto', '.sens', '.sp', '.pss', '.mc', '.wc', '.stb', '.sample']
+    .map((c) => [c, 'analysis'] as const),
+  ...['.meas', '.measure', '.print', '.plot', '.probe', '.probe64', '.save', '.width', '.graph', '.wave', '.net', '.lin', '.csparam', '.plotwinsize', '.options-print']
+    .map((c) => [c, 'output'] as const),
+  ...['.ic', '.nodeset', '.guess', '.prot', '.protect', '.unprot', '.unprotect', '.del', '.backanno', '.savebias', '.loadbias', '.load', '.ferret', '.dellib', '.hdl', '.distribution', '.malias', '.alias']
+    .map((c) => [c, 'setup'] as const),
+  ['.step', 'sweep'],
+  ['.title', 'title'],
+]);
+
+/** Multi-line blocks skipped whole, by opening command: the command that closes each. */
+const SKIPPED_BLOCKS = new Map<string, string>([
+  ['.control', '.endc'],
+  ['.data', '.enddata'],
+  ['.machine', '.endmachine'],
 ]);
 
 /** One lexical unit of a card: a word, an expression, or the punctuation `=`, `(`, `)`. */
@@ -79,6 +112,8 @@ interface Context {
   topLevel: boolean;
   /** Problems reported for the card being read, so one pathological line cannot flood the list. */
   cardProblems: number;
+  /** Open `.if` cards, innermost last. */
+  conditions: ConditionCard[];
 }
 
 /** At most this many problems are listed per card; the rest are summed up in one more. */
@@ -91,7 +126,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0 };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [] };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -134,8 +169,9 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
       const first = skipSpace(text, pos, end);
       if (first < end) {
         const c = text.charCodeAt(first);
-        if (c === 42 /* * */ || c === 59 /* ; */ || (c === 36 /* $ */ && isCommentDollar(text, first, end))) {
-          const comment = commentCard(text, first, end);
+        // `*`, `;` and (at the start of a line) `$` and `//` start a comment line.
+        if (c === 42 /* * */ || c === 59 /* ; */ || c === 36 /* $ */ || (c === 47 /* / */ && text.charCodeAt(first + 1) === 47)) {
+          const comment = commentCard(text, first, end, c === 47 ? 2 : 1);
           if (group) pendingComments.push(comment);
           else cards.push(comment);
         } else if (c === 43 /* + */) {
@@ -153,10 +189,23 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
           }
         } else {
           flush();
+          const word = c === 46 /* . */ ? firstWord(text, first, end).toLowerCase() : '';
+          const closer = SKIPPED_BLOCKS.get(word);
           if (isEndCommand(text, first, end)) {
             cards.push(parseGroup(ctx, [{ start: first, lineEnd: end }]));
             ended = true;
             reportTextAfterEnd(ctx, next);
+          } else if (closer !== undefined) {
+            const block = skipBlock(ctx, first, end, next, closer);
+            cards.push(block.card);
+            next = block.next;
+          } else if (word === '.alter') {
+            // The netlist analysed ends here; what follows are alternatives to it, kept whole in one card.
+            let last = n;
+            while (last > first && isBlankOrBreak(text.charCodeAt(last - 1))) last--;
+            const command = wordToken(text, first, first + word.length);
+            cards.push({ kind: 'skipped', span: { start: first, end: last }, tokens: [command], command, group: 'alternative' });
+            ended = true;
           } else {
             group = [{ start: first, lineEnd: end }];
           }
@@ -177,6 +226,10 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
       `Subcircuit '${name}' is never closed: add '.ends ${name}' after its last card.`,
       open.span,
     );
+  }
+  for (const open of ctx.conditions) {
+    ctx.cardProblems = 0;
+    addError(ctx, 'condition-missing-endif', 'This .if is never closed: add .endif after the last card of its branches (until then every later card belongs to it).', open.tokens[0]!.span);
   }
   for (const open of ctx.sections) {
     ctx.cardProblems = 0;
@@ -217,13 +270,67 @@ function isEndCommand(text: string, first: number, end: number): boolean {
   return isSpace(c) || isWordBreak(c) || (c === 36 && isCommentDollar(text, first + 4, end));
 }
 
+/** The first word of a line from `first`: up to a blank or a character that ends a word. */
+function firstWord(text: string, first: number, end: number): string {
+  let i = first;
+  while (i < end) {
+    const c = text.charCodeAt(i);
+    if (isSpace(c) || isWordBreak(c)) break;
+    i++;
+  }
+  return text.slice(first, i);
+}
+
+function wordToken(text: string, start: number, end: number): Token {
+  return { text: text.slice(start, end), span: { start, end }, kind: 'word' };
+}
+
+/** The offset just past the line break that ends the line ending at `end` (or past the text). */
+function nextLine(text: string, end: number): number {
+  if (end >= text.length) return text.length + 1;
+  return text.charCodeAt(end) === 13 && text.charCodeAt(end + 1) === 10 ? end + 2 : end + 1;
+}
+
+/**
+ * Skips a block opened on the line `[first, end)` up to and including the line whose first word is
+ * `closer`. Nothing inside is read. A block the file never closes runs to the end of the file and is reported.
+ */
+function skipBlock(ctx: Context, first: number, end: number, next: number, closer: string): { card: SkippedCard; next: number } {
+  const { text } = ctx;
+  const opener = firstWord(text, first, end);
+  const command = wordToken(text, first, first + opener.length);
+  let pos = next;
+  while (pos <= text.length) {
+    let lineEnd = pos;
+    while (lineEnd < text.length) {
+      const c = text.charCodeAt(lineEnd);
+      if (c === 10 || c === 13) break;
+      lineEnd++;
+    }
+    const start = skipSpace(text, Math.min(pos, text.length), lineEnd);
+    if (start < lineEnd && firstWord(text, start, lineEnd).toLowerCase() === closer) {
+      const close = wordToken(text, start, start + closer.length);
+      let last = lineEnd;
+      while (last > start && isSpace(text.charCodeAt(last - 1))) last--;
+      return { card: { kind: 'skipped', span: { start: first, end: last }, tokens: [command], command, group: 'block', closer: close }, next: nextLine(text, lineEnd) };
+    }
+    if (lineEnd >= text.length) break;
+    pos = nextLine(text, lineEnd);
+  }
+  let last = text.length;
+  while (last > first && isBlankOrBreak(text.charCodeAt(last - 1))) last--;
+  ctx.cardProblems = 0;
+  addError(ctx, 'block-not-closed', `This ${opener} block is never closed with ${closer}; every line after it is skipped as part of the block.`, command.span);
+  return { card: { kind: 'skipped', span: { start: first, end: last }, tokens: [command], command, group: 'block' }, next: text.length + 1 };
+}
+
 /** Characters that end a bare word: `,` `=` `(` `)` `{` `}` `;`. */
 function isWordBreak(c: number): boolean {
   return c === 44 || c === 61 || c === 40 || c === 41 || c === 123 || c === 125 || c === 59;
 }
 
 /** Records a finding with the severity SYNTAX_CODES gives `code`; past the per-card cap, one too-many-problems note instead. */
-function addError(ctx: Context, code: SyntaxCode, message: string, span: Span): void {
+function addError(ctx: Context, code: SyntaxCode, message: string, span: Span, data?: Record<string, unknown>): void {
   const n = ++ctx.cardProblems;
   if (n > MAX_PROBLEMS_PER_CARD + 1) return;
   if (n === MAX_PROBLEMS_PER_CARD + 1) {
@@ -235,7 +342,9 @@ function addError(ctx: Context, code: SyntaxCode, message: string, span: Span): 
     });
     return;
   }
-  ctx.errors.push({ code, message, span: { start: span.start, end: span.end }, severity: syntaxSeverity(code) });
+  const e: SyntaxError = { code, message, span: { start: span.start, end: span.end }, severity: syntaxSeverity(code) };
+  if (data) e.data = data;
+  ctx.errors.push(e);
 }
 
 function reportTextAfterEnd(ctx: Context, from: number): void {
@@ -257,9 +366,9 @@ function skipBlank(text: string, i: number): number {
   return i;
 }
 
-function commentCard(text: string, first: number, end: number): CommentCard {
-  // The comment text drops its marker (`*`, `;` or `$`) and surrounding blanks.
-  const bodyStart = skipSpace(text, first + 1, end);
+function commentCard(text: string, first: number, end: number, markerLength = 1): CommentCard {
+  // The comment text drops its marker (`*`, `;`, `$` or `//`) and surrounding blanks.
+  const bodyStart = skipSpace(text, first + markerLength, end);
   let bodyEnd = end;
   while (bodyEnd > bodyStart && isSpace(text.charCodeAt(bodyEnd - 1))) bodyEnd--;
   return { kind: 'comment', span: { start: first, end }, tokens: [], text: text.slice(bodyStart, bodyEnd) };
@@ -284,7 +393,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0 };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [] };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -513,11 +622,14 @@ function checkParentheses(ctx: Context, lx: Lexeme[]): void {
 function parseGroup(ctx: Context, segments: Segment[]): Card {
   const { text } = ctx;
   ctx.cardProblems = 0;
+  const first = segments[0];
+  const span: Span = { start: first.plus ?? first.start, end: segments[segments.length - 1].lineEnd };
+  // Skipped, unknown and expression-bodied dot cards are read before lexing, so their insides raise nothing.
+  const special = first.plus === undefined ? readDotHead(ctx, segments, span) : undefined;
+  if (special) return special;
   const lx = lexCard(ctx, segments);
   const tokens: Token[] = [];
   for (const l of lx) if (l.type === 'word' || l.type === 'expr') tokens.push(makeToken(text, l));
-  const first = segments[0];
-  const span: Span = { start: first.plus ?? first.start, end: segments[segments.length - 1].lineEnd };
 
   if (first.plus !== undefined) {
     return errorCard(
@@ -551,6 +663,118 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   return parseElement(ctx, head.tok, items, span, tokens);
 }
 
+/**
+ * Reads the dot cards whose fields are not lexed: skipped cards (only their command is kept),
+ * unknown dot cards (reported with their command), `.func`, and the `.if` family, whose
+ * expressions are taken as written. Returns undefined for every other card.
+ */
+function readDotHead(ctx: Context, segments: Segment[], span: Span): Card | undefined {
+  const { text } = ctx;
+  const first = segments[0]!;
+  const head = firstWord(text, first.start, first.lineEnd);
+  if (head.charCodeAt(0) !== 46 /* . */ || head.length < 2) return undefined;
+  const cmd = head.toLowerCase();
+  const command = wordToken(text, first.start, first.start + head.length);
+  const group = SKIPPED_CARDS.get(cmd);
+  if (group !== undefined) {
+    const card: SkippedCard = { kind: 'skipped', span, tokens: [command], command, group };
+    if (group === 'title') {
+      const rest = restOfCard(ctx, segments, command.span.end);
+      card.text = text.slice(rest.start, rest.end);
+    }
+    return card;
+  }
+  if (cmd === '.func') return readFunc(ctx, segments, span, command);
+  if (cmd === '.if' || cmd === '.elseif' || cmd === '.else' || cmd === '.endif') return readCondition(ctx, segments, span, command, cmd.slice(1) as ConditionCard['branch']);
+  if (DOT_COMMANDS.has(cmd)) return undefined;
+  addError(
+    ctx,
+    'dot-card-unknown',
+    `${shorten(head)} is not a dot card qpoint reads or knows to skip; it is skipped, and nothing in it takes part in the analysis.`,
+    command.span,
+    { command: head },
+  );
+  return { kind: 'other-dot', span, tokens: [command], command };
+}
+
+/**
+ * The text of a card after `from` up to its end, blanks and a trailing end-of-line comment excluded.
+ * Continuation markers inside stay in the text (expression readers blank them).
+ */
+function restOfCard(ctx: Context, segments: Segment[], from: number): Span {
+  const { text } = ctx;
+  const last = segments[segments.length - 1]!;
+  let end = last.lineEnd;
+  // An end-of-line comment on the last line, outside braces and quotes, is not part of the card.
+  let depth = 0;
+  let quote = 0;
+  for (let i = Math.max(last.start, from); i < last.lineEnd; i++) {
+    const c = text.charCodeAt(i);
+    if (quote !== 0) {
+      if (c === quote) quote = 0;
+    } else if (c === 39 || c === 34) quote = c;
+    else if (c === 123) depth++;
+    else if (c === 125) depth = Math.max(0, depth - 1);
+    else if (depth === 0 && (c === 59 || (c === 36 && isCommentDollar(text, i, last.lineEnd)))) {
+      end = i;
+      break;
+    }
+  }
+  let start = from;
+  while (start < end && isBlankOrBreak(text.charCodeAt(start))) start++;
+  while (end > start && isBlankOrBreak(text.charCodeAt(end - 1))) end--;
+  return { start, end };
+}
+
+function exprToken(text: string, span: Span): Token {
+  return { text: text.slice(span.start, span.end), span: { start: span.start, end: span.end }, kind: 'expr' };
+}
+
+/** `.func name(a, b) = expr`, the `=` optional, the body braced or not. */
+function readFunc(ctx: Context, segments: Segment[], span: Span, command: Token): Card {
+  const { text } = ctx;
+  const rest = restOfCard(ctx, segments, command.span.end);
+  const src = text.slice(rest.start, rest.end);
+  const m = /^([A-Za-z_][A-Za-z0-9_]*)\s*\(([^()]*)\)\s*=?\s*/.exec(src);
+  if (!m) {
+    const tokens = [command];
+    return errorCard(ctx, 'func-malformed', '.func needs a name, its arguments in parentheses and an expression: .func half(x) = {x/2}.', span, tokens, rest.end > rest.start ? rest : command.span);
+  }
+  const name = wordToken(text, rest.start, rest.start + m[1]!.length);
+  const args: Token[] = [];
+  const argsStart = rest.start + src.indexOf('(', m[1]!.length) + 1;
+  const re = /[A-Za-z_][A-Za-z0-9_]*/g;
+  for (let a = re.exec(m[2]!); a; a = re.exec(m[2]!)) args.push(wordToken(text, argsStart + a.index, argsStart + a.index + a[0].length));
+  const bodyStart = rest.start + m[0].length;
+  const tokens: Token[] = [command, name, ...args];
+  if (bodyStart >= rest.end) {
+    addError(ctx, 'func-malformed', `.func ${name.text} has no expression after its arguments; write .func ${name.text}(${args.map((a) => a.text).join(', ')}) = {...}.`, { start: rest.start, end: rest.end });
+    return { kind: 'func', span, tokens, name, args };
+  }
+  const body = exprToken(text, { start: bodyStart, end: rest.end });
+  tokens.push(body);
+  return { kind: 'func', span, tokens, name, args, body };
+}
+
+/** `.if (cond)`, `.elseif (cond)`, `.else`, `.endif`, checked for nesting. */
+function readCondition(ctx: Context, segments: Segment[], span: Span, command: Token, branch: ConditionCard['branch']): Card {
+  const rest = restOfCard(ctx, segments, command.span.end);
+  const card: ConditionCard = { kind: 'condition', span, tokens: [command], branch };
+  if (branch === 'if' || branch === 'elseif') {
+    if (rest.end > rest.start) {
+      card.condition = exprToken(ctx.text, rest);
+      card.tokens.push(card.condition);
+    } else {
+      addError(ctx, 'condition-missing-expression', `${command.text} needs a condition: ${command.text} (name == 1).`, command.span);
+    }
+  }
+  if (branch === 'if') ctx.conditions.push(card);
+  else if (ctx.conditions.length === 0) {
+    addError(ctx, 'condition-without-if', `${command.text} belongs to no open .if; it is ignored.`, command.span);
+  } else if (branch === 'endif') ctx.conditions.pop();
+  return card;
+}
+
 /** The codes that make a card unreadable; each has severity 'error' in SYNTAX_CODES. */
 type ErrorCardCode = {
   [C in SyntaxCode]: (typeof SYNTAX_CODES)[C]['severity'] extends 'error' ? C : never;
@@ -579,6 +803,16 @@ export function isNumberLike(t: Token): boolean {
     return d >= 48 && d <= 57;
   }
   return false;
+}
+
+/**
+ * True for a token that is a value by its form: an expression, or a number whose scale suffix and
+ * unit letters are followed by nothing (`10k`, `2.2uF`, `1e-3`). Part numbers that start with a
+ * digit (`2N3904`, `1N4148`, `74HC04`) carry digits after their letters and are names.
+ */
+function isValueLike(t: Token): boolean {
+  if (t.kind === 'expr') return true;
+  return /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-zµμΩ]*$/.test(t.text);
 }
 
 /** The text of a token without its surrounding quotes (`"a.lib"` → `a.lib`); other tokens are returned as written. */
@@ -611,6 +845,19 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = {
   Q: { noun: 'a bipolar transistor', needs: 'collector, base and emitter nodes and a model name' },
   M: { noun: 'a MOSFET', needs: 'drain, gate, source and bulk nodes and a model name' },
   X: { noun: 'a subcircuit instance', needs: 'its nodes and the subcircuit name' },
+  J: { noun: 'a junction FET', needs: 'drain, gate and source nodes and a model name' },
+  Z: { noun: 'a MESFET', needs: 'drain, gate and source nodes and a model name' },
+  S: { noun: 'a voltage-controlled switch', needs: 'two switch nodes, two controlling nodes and a model name' },
+  W: { noun: 'a current-controlled switch', needs: 'two switch nodes, the controlling voltage source and a model name' },
+  B: { noun: 'a behavioural source', needs: 'two nodes and V={...} or I={...}' },
+  K: { noun: 'an inductor coupling', needs: 'at least two inductor names and a coupling coefficient' },
+  T: { noun: 'a transmission line', needs: 'four nodes' },
+  O: { noun: 'a lossy transmission line', needs: 'four nodes and a model name' },
+  P: { noun: 'a coupled multiconductor line', needs: 'its nodes and a model name' },
+  Y: { noun: 'a transmission-line element', needs: 'its nodes' },
+  U: { noun: 'a digital or distributed element', needs: 'its nodes and a model name' },
+  A: { noun: 'a mixed-signal (code model) element', needs: 'its connections and a model name' },
+  N: { noun: 'a model-defined device', needs: 'its nodes and a model name' },
 };
 
 function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
@@ -625,18 +872,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       name.span,
     );
   }
-  const letter = name.text.charAt(0).toUpperCase();
-  if (!ELEMENT_LETTERS.includes(letter)) {
-    return errorCard(
-      ctx,
-      'unknown-element-letter',
-      `'${shorten(name.text)}': qpoint reads elements whose name starts with ${ELEMENT_LETTER_LIST}; '${shorten(name.text.charAt(0))}' is not one of them.`,
-      span,
-      tokens,
-      name.span,
-    );
-  }
-  const L = letter as ElementCard['letter'];
+  const L = name.text.charAt(0).toUpperCase() as ElementLetter;
   const owner = name.text;
   const need = ELEMENT_NEEDS[L];
   const card: ElementCard = { kind: 'element', letter: L, name, nodes: [], params: [], span, tokens };
@@ -644,7 +880,8 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
   // Unsupported forms are recognised first so the message names them instead of counting fields.
   // Only fields after the two output nodes count, and a keyword counts only when written as a form
   // (`POLY(2)`, `VALUE={...}`, `TABLE {...}`), so nodes may still be called `freq` or `am`.
-  if (L === 'E' || L === 'G' || L === 'F' || L === 'H' || L === 'V' || L === 'I') {
+  const controlled = L === 'E' || L === 'G' || L === 'F' || L === 'H';
+  if (controlled || L === 'V' || L === 'I') {
     let nodesSeen = 0;
     for (let j = 0; j < items.length; j++) {
       const it = items[j];
@@ -660,6 +897,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
           : it.k === 'asg'
             ? it.asg.name.text.toUpperCase()
             : '';
+      if (controlled && BEHAVIOUR_WORDS.has(word)) return behaviouralSource(card, items, j, word, span, tokens);
       if (!UNSUPPORTED_SOURCE_WORDS.has(word)) continue;
       const at = it.k === 'pos' ? it.tok.span : it.k === 'asg' ? it.asg.span : span;
       const shown = it.k === 'asg' ? `${word}=` : items[j + 1]?.k === 'lp' ? `${word}(...)` : word;
@@ -706,16 +944,16 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (L === 'R' && rest.length >= 2) {
         const a = rest[0];
         const b = rest[1];
-        if (isNumberLike(a) !== isNumberLike(b)) {
-          card.value = isNumberLike(a) ? a : b;
-          card.model = isNumberLike(a) ? b : a;
+        if (isValueLike(a) !== isValueLike(b)) {
+          card.value = isValueLike(a) ? a : b;
+          card.model = isValueLike(a) ? b : a;
           used = 2;
         } else {
           card.value = a;
           used = 1;
         }
       } else if (rest.length >= 1) {
-        if (L === 'R' && !isNumberLike(rest[0]) && (asgs.length > 0 || valueAsg)) card.model = rest[0];
+        if (L === 'R' && !isValueLike(rest[0]) && (asgs.length > 0 || valueAsg)) card.model = rest[0];
         else card.value = rest[0];
         used = 1;
       }
@@ -765,7 +1003,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (kept.length < 3) return missing(kept.length);
       card.nodes = kept.slice(0, 2);
       card.model = kept[2];
-      if (isNumberLike(card.model)) {
+      if (isValueLike(card.model)) {
         return errorCard(
           ctx,
           'missing-model-name',
@@ -787,7 +1025,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const rest = kept.slice(3);
       let m = -1;
       for (let j = rest.length - 1; j >= 0; j--) {
-        if (!isNumberLike(rest[j])) {
+        if (!isValueLike(rest[j])) {
           m = j;
           break;
         }
@@ -817,7 +1055,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (kept.length < 5) return missing(kept.length);
       card.nodes = kept.slice(0, 4);
       card.model = kept[4];
-      if (isNumberLike(card.model)) {
+      if (isValueLike(card.model)) {
         return errorCard(
           ctx,
           'missing-model-name',
@@ -848,7 +1086,91 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       card.params = asgs;
       return card;
     }
+    // Letters read into cards for a later solver; the elaborator leaves them out of the circuit.
+    case 'J':
+    case 'Z': {
+      const kept = dropOff(ctx, owner, pos, 3);
+      if (kept.length < 4) return missing(kept.length);
+      card.nodes = kept.slice(0, 3);
+      card.model = kept[3];
+      const rest = kept.slice(4);
+      if (rest.length > 0 && isNumberLike(rest[0]!)) card.area = rest.shift();
+      for (const t of rest) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'S':
+    case 'W': {
+      const nodeCount = L === 'S' ? 4 : 2;
+      const kept = pos.filter((t, j) => !(j > nodeCount && t.kind === 'word' && /^(on|off)$/i.test(t.text)));
+      const need2 = L === 'S' ? 5 : 4;
+      if (kept.length < need2) return missing(kept.length);
+      card.nodes = kept.slice(0, nodeCount);
+      if (L === 'W') card.control = kept[2];
+      card.model = kept[need2 - 1];
+      for (const t of kept.slice(need2)) unexpected(ctx, owner, t, `${need.noun} uses`);
+      card.params = asgs;
+      return card;
+    }
+    case 'B': {
+      const expr = asgs.find((a) => /^[vi]$/i.test(a.name.text));
+      if (pos.length < 2 || !expr) return missing(pos.length);
+      card.nodes = pos.slice(0, 2);
+      card.value = expr.value;
+      card.params = asgs;
+      return card;
+    }
+    case 'K': {
+      if (pos.length < 3) return missing(pos.length);
+      card.coupled = pos.slice(0, -1);
+      card.value = pos[pos.length - 1];
+      card.params = asgs;
+      return card;
+    }
+    case 'T':
+    case 'Y': {
+      if (pos.length < 2) return missing(pos.length);
+      card.nodes = pos;
+      card.params = asgs;
+      return card;
+    }
+    case 'O':
+    case 'P':
+    case 'U':
+    case 'A':
+    case 'N': {
+      if (pos.length < 2) return missing(pos.length);
+      card.nodes = pos.slice(0, -1);
+      card.model = pos[pos.length - 1];
+      card.params = asgs;
+      return card;
+    }
   }
+  return card;
+}
+
+/**
+ * A controlled source written in a behavioural form (`E1 out 0 VALUE={...}`, `G1 a b POLY(2) ...`):
+ * its two output nodes and the form's fields from its keyword on, kept for a later solver.
+ */
+function behaviouralSource(card: ElementCard, items: Item[], at: number, form: string, span: Span, tokens: Token[]): ElementCard {
+  const nodes: Token[] = [];
+  for (let j = 0; j < at && nodes.length < 2; j++) {
+    const it = items[j]!;
+    if (it.k === 'pos') nodes.push(it.tok);
+  }
+  card.nodes = nodes;
+  const it = items[at]!;
+  const keyword = it.k === 'pos' ? it.tok : it.k === 'asg' ? it.asg.name : undefined;
+  const fields: Token[] = [];
+  for (let j = at; j < items.length; j++) {
+    const f = items[j]!;
+    if (f.k === 'pos') fields.push(f.tok);
+    else if (f.k === 'asg') fields.push(f.asg.name, f.asg.value);
+  }
+  const start = keyword ? keyword.span.start : span.start;
+  card.behaviour = { form, keyword: keyword ?? card.name, fields, span: { start, end: Math.max(start, span.end) } };
+  void tokens;
   return card;
 }
 
@@ -885,6 +1207,8 @@ function parseSource(
   let dcKeyword = false;
   let bare: Token | undefined;
   let transient: { fn: Token; value?: Token } | undefined;
+  /** An AC or other analysis specification was given: without a DC value, the DC value is 0. */
+  let otherSpec = false;
   const params: Assignment[] = [];
   const isKeyword = (t: Token): boolean => {
     const u = t.text.toUpperCase();
@@ -916,6 +1240,7 @@ function parseSource(
       continue;
     }
     if (u === 'AC') {
+      otherSpec = true;
       // AC magnitude and phase do not affect the DC bias point.
       for (let k = 0; k < 2 && items[j]?.k === 'pos' && isNumberLike((items[j] as { tok: Token }).tok); k++) j++;
       continue;
@@ -962,14 +1287,15 @@ function parseSource(
       continue;
     }
     if (t.kind === 'word' && items[j]?.k === 'lp') {
-      return errorCard(
-        ctx,
-        'unsupported-source-form',
-        `${owner}: the ${shorten(t.text)}(...) form is not supported; ${L === 'V' ? 'a voltage' : 'a current'} source is read as ${sourceExpectation(L)}.`,
-        span,
-        tokens,
-        t.span,
-      );
+      // Another transient or noise function (`TRNOISE(...)`, `AM(...)`): it does not set the DC value.
+      let depth = 0;
+      while (j < items.length) {
+        const a = items[j++]!;
+        if (a.k === 'lp') depth++;
+        else if (a.k === 'rp' && --depth === 0) break;
+      }
+      otherSpec = true;
+      continue;
     }
     if (!bare && !dc) bare = t;
     else unexpected(ctx, owner, t, 'a source uses (its DC value is already given)');
@@ -986,7 +1312,7 @@ function parseSource(
   if (dc || dcKeyword) source = { form: 'dc', value: dc };
   else if (bare) source = { form: 'bare', value: bare };
   else if (transient) source = { form: 'transient', value: transient.value, function: transient.fn };
-  else source = { form: 'bare' };
+  else source = { form: otherSpec ? 'none' : 'bare' };
   if (source.value === undefined) delete source.value;
   return { source, params };
 }
@@ -1117,8 +1443,12 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       if (pos.length === 0) addError(ctx, 'temp-missing-value', '.temp needs at least one temperature in °C (.temp 27).', command.span);
       return { kind: 'temp', span, tokens, values: pos };
     }
+    case '.global':
+      noAssignments('.global takes (node names)');
+      return { kind: 'global', span, tokens, nodes: pos };
     case '.option':
     case '.options':
+    case '.opt':
       return { kind: 'option', span, tokens, params: asgs, flags: pos };
     case '.op':
       for (const t of pos) unexpected(ctx, command.text, t, '.op takes');
@@ -1134,6 +1464,26 @@ function parseDotCard(ctx: Context, command: Token, items: Item[], span: Span, t
       }
       return { kind: 'other-dot', span, tokens, command };
   }
+}
+
+/** Dot cards that, written on the first line, make a file a model or library file. */
+const LIBRARY_FIRST_CARDS = new Set(['.subckt', '.model', '.lib', '.param', '.include', '.inc', '.func', '.global', '.option', '.options', '.if']);
+
+/**
+ * True when `text` is a model or library file rather than a netlist with a title: its first line
+ * (after a byte-order mark and blanks) is a `.subckt`, `.model`, `.lib`, `.param`, include or
+ * similar definition card, which no one writes as a title.
+ */
+export function startsWithDefinitionCard(text: string): boolean {
+  let end = 0;
+  while (end < text.length) {
+    const c = text.charCodeAt(end);
+    if (c === 10 || c === 13) break;
+    end++;
+  }
+  const first = skipSpace(text, 0, end);
+  if (text.charCodeAt(first) !== 46) return false;
+  return LIBRARY_FIRST_CARDS.has(firstWord(text, first, end).toLowerCase());
 }
 
 /** True when `word` (any case) is one of the dot commands this parser interprets. */
