@@ -12,6 +12,7 @@ const groupTitle: Record<string, string> = {
   netlist: 'Netlist structure',
   solver: 'Operating point',
   structures: 'Mirrors and reference branches',
+  devices: 'Every device at the operating point',
   corners: 'Corners',
   targets: 'Target currents',
   fixes: 'Fixes',
@@ -21,6 +22,9 @@ const groupTitle: Record<string, string> = {
 /** The markdown table, grouped by the module family that owns each code. */
 export function codesMarkdown(): string {
   const cat = findingCatalogue();
+  // A code whose group has no title would silently fall out of the table.
+  const untitled = Object.entries(cat).filter(([, i]) => !(i.group in groupTitle)).map(([c]) => c);
+  if (untitled.length) throw new Error(`Finding codes in groups without a README title: ${untitled.join(', ')}`);
   const lines: string[] = ['| code | default | meaning |', '|---|---|---|'];
   for (const group of Object.keys(groupTitle)) {
     const codes = Object.entries(cat).filter(([, i]) => i.group === group);

@@ -6,7 +6,9 @@ import { analyseSession, attachAllSizingFixes } from '../../shared-analysis/src/
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
-import { formatEngineering } from '../../shared-analysis/src/fixes/format';
+import { formatMeasured } from '../../shared-analysis/src/fixes/format';
+import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
+import { powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
@@ -315,6 +317,9 @@ export function jsonReport(results: FileResult[]): unknown {
       path: r.path,
       diagnostics: toJsonDiagnostics(r),
       ...(r.analysis?.operatingPoint ? { operatingPoint: r.analysis.operatingPoint } : {}),
+      ...(r.analysis?.operatingPoint && r.analysis.circuit
+        ? { power: powerTable(r.analysis.circuit.elements, r.analysis.operatingPoint.devices, r.analysis.options) }
+        : {}),
       ...(r.analysis ? { structures: r.analysis.structures } : {}),
     })),
   };
@@ -386,8 +391,8 @@ function textLines(results: FileResult[]): string[] {
   return lines;
 }
 
-const amps = (v: number) => formatEngineering(v, { unit: 'A', style: 'display' });
-const volts = (v: number) => formatEngineering(v, { unit: 'V', style: 'display' });
+const amps = (v: number) => formatMeasured(v, 'A');
+const volts = (v: number) => formatMeasured(v, 'V');
 
 /** The human-readable bias report of one file. */
 export function textReport(r: FileResult): string {
@@ -424,7 +429,7 @@ export function textReport(r: FileResult): string {
       if (sol?.iout[o.device] !== undefined) cells.push(`solved ${amps(sol.iout[o.device])}`);
       if (s.headroom[o.device] !== undefined) cells.push(`headroom ${volts(s.headroom[o.device])}`);
       const rec = op?.devices[o.device];
-      if (rec && 'region' in rec) cells.push(rec.region);
+      if (rec && 'region' in rec) cells.push(recordIsOff(rec) ? 'off' : rec.region);
       out.push(cells.join('  '));
     }
     if (s.discrepancy) out.push(`  note: ${s.discrepancy}`);

@@ -26,6 +26,7 @@ export const OPTION_RULES = {
   betaLow: { ok: (v: number) => v > 0 && v <= 1, rule: 'a factor above 0 and at most 1' },
   betaHigh: { ok: (v: number) => v >= 1 && v <= 100, rule: 'a factor from 1 to 100' },
   headroomMarginV: { ok: (v: number) => v >= 0 && v < 1000, rule: 'a voltage from 0 to 1000 V' },
+  powerLimitW: { ok: (v: number) => v > 0 && v < 1e6, rule: 'a number of watts above 0 and below 1 MW' },
 } satisfies Record<string, NumberRule>;
 
 /** Problems between options that are each fine alone (the hot corner below the cold one), as sentences. */

@@ -78,6 +78,13 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   const margin = num('headroomMarginVolts', OPTION_RULES.headroomMarginV);
   if (margin !== undefined) options.headroomMarginV = margin;
 
+  const powerLimits: NonNullable<AnalysisOptions['powerLimits']> = {};
+  const resistorW = num('powerLimit.resistorWatts', OPTION_RULES.powerLimitW);
+  if (resistorW !== undefined) powerLimits.resistorW = resistorW;
+  const deviceW = num('powerLimit.deviceWatts', OPTION_RULES.powerLimitW);
+  if (deviceW !== undefined) powerLimits.deviceW = deviceW;
+  if (Object.keys(powerLimits).length) options.powerLimits = powerLimits;
+
   const series = get('resistorSeries');
   if (typeof series === 'string' && (SERIES as string[]).includes(series.toUpperCase())) options.resistorSeries = series.toUpperCase() as ResistorSeries;
   else if (series !== undefined && series !== null) problems.push(`Setting qpoint.resistorSeries = ${JSON.stringify(series)} is ignored: it must be one of ${SERIES.join(', ')}.`);

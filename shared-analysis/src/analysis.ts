@@ -34,7 +34,19 @@ export interface AnalysisOptions {
   severities?: Record<string, Severity | 'off'>;
   /** Set false to stop after elaboration (no operating point, no structures). */
   solve?: boolean;
+  /** Dissipation limits used when a part gives no `RATEDPOWER` of its own. */
+  powerLimits?: Partial<PowerLimits>;
 }
+
+/** Default dissipation limits, watts, for parts that do not give their own. */
+export interface PowerLimits {
+  /** An ordinary resistor: 0.25 W (common practice: the usual through-hole and 1206 rating). */
+  resistorW: number;
+  /** A small-signal transistor or diode: 0.5 W (common practice: TO-92 and glass-package parts are rated 0.5–0.625 W at 25 °C). */
+  deviceW: number;
+}
+
+export const DEFAULT_POWER_LIMITS: PowerLimits = { resistorW: 0.25, deviceW: 0.5 };
 
 /** AnalysisOptions with every default filled in. */
 export interface ResolvedOptions {
@@ -44,6 +56,7 @@ export interface ResolvedOptions {
   resistorSeries: ResistorSeries;
   severities: Record<string, Severity | 'off'>;
   solve: boolean;
+  powerLimits: PowerLimits;
 }
 
 export const DEFAULT_CORNERS: CornerOptions = {
@@ -63,7 +76,16 @@ export function resolveOptions(options: AnalysisOptions = {}): ResolvedOptions {
     resistorSeries: options.resistorSeries ?? 'E24',
     severities: options.severities ?? {},
     solve: options.solve ?? true,
+    powerLimits: { ...DEFAULT_POWER_LIMITS, ...definedOnly(options.powerLimits) },
   };
+}
+
+/** The entries of a partial record whose values are positive finite numbers (a bad setting keeps the default). */
+function definedOnly<T extends object>(o: T | undefined): Partial<T> {
+  const out: Partial<T> = {};
+  if (!o) return out;
+  for (const [k, v] of Object.entries(o)) if (typeof v === 'number' && Number.isFinite(v) && v > 0) (out as Record<string, number>)[k] = v;
+  return out;
 }
 
 /** A named definition the editor can jump to or describe. */

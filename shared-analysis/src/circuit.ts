@@ -30,12 +30,20 @@ export interface Model {
   params: Record<string, number>;
   /** Upper-case names of the parameters the card actually gave. */
   given: string[];
+  /**
+   * Limits of the part that the DC equations do not use but the checks compare the operating
+   * point against, when the card gives them: `BV` (reverse breakdown voltage of a diode, V) and
+   * `RATEDPOWER` (the part's dissipation limit, W; a parameter of this project's naming).
+   */
+  ratings?: Record<string, number>;
   origin: Origin;
 }
 
 interface ElementBase {
   /** Hierarchical, as written: `Q1`, `X1.Q2`, `X1.X3.R4`. Unique case-insensitively. */
   name: string;
+  /** The card's `RATEDPOWER=` (W): the part's dissipation limit, which overrides its model's and the default. */
+  ratedPowerW?: number;
   /** Indices into `Circuit.nodes`; 0 is ground. Order is given per kind below. */
   nodes: number[];
   origin: Origin;
@@ -46,6 +54,10 @@ export interface Resistor extends ElementBase {
   kind: 'R';
   /** Ohms, after dividing by the M= multiplier. */
   resistance: number;
+  /** Parallel count (M=), when the card gives one other than 1. */
+  m?: number;
+  /** `RATEDPOWER` of the resistor's model, when it names one that gives it (W, per part). */
+  modelRatedPowerW?: number;
 }
 
 /** nodes: [a, b]. Open at DC. */

@@ -5,6 +5,7 @@ import { SYNTAX_CODES } from './syntax/codes';
 import { NETLIST_CODES } from './checks/netlist';
 import { SOLVER_CODES } from './solve/codes';
 import { STRUCTURE_CODES } from './checks/structures';
+import { DEVICE_CODES } from './checks/devices/index';
 import { CORNER_CODES } from './checks/corners';
 import { TARGET_CODES } from './checks/targets';
 import { FIX_CODES } from './fixes/index';
@@ -13,7 +14,7 @@ export interface CodeInfo {
   severity: Severity;
   summary: string;
   /** The module family that owns the code. */
-  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'corners' | 'targets' | 'fixes' | 'host';
+  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'devices' | 'corners' | 'targets' | 'fixes' | 'host';
 }
 
 /** Codes a host reports about the analysis itself (the language server or the CLI; the engine never emits them). */
@@ -30,6 +31,7 @@ export function findingCatalogue(): Record<string, CodeInfo> {
     ['netlist', NETLIST_CODES],
     ['solver', SOLVER_CODES],
     ['structures', STRUCTURE_CODES],
+    ['devices', DEVICE_CODES],
     ['corners', CORNER_CODES],
     ['targets', TARGET_CODES],
     ['fixes', FIX_CODES],

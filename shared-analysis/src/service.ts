@@ -7,6 +7,7 @@ import { checkConnectivity } from './checks/connectivity';
 import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/dc';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
+import { judgeDevices } from './checks/devices/index';
 import { runCorners, type CornerStats } from './checks/corners';
 import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
@@ -80,6 +81,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       operatingPoint = result.op;
       findings.push(...withoutNetlistDuplicates(result.findings, findings));
       findings.push(...timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
+      findings.push(...timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         findings.push(...timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
       }

@@ -4,7 +4,9 @@ import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Model } from '../circuit';
 import type { OperatingPoint } from '../solve/types';
 import { estimateStructure } from '../structures/estimate';
-import { eng, percent, sig, signedVolts } from '../structures/format';
+import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
+import { belowFloor, formatPercent as percent } from '../fixes/format';
+import { recordIsOff } from './devices/context';
 import { kindName, kindOf, referenceJunctions } from '../structures/catalogue';
 import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
@@ -50,6 +52,16 @@ export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: stri
     summary: 'The hand analysis of a recognised structure could not be completed; the structure is shown without it.',
   },
 };
+
+/** A value with its SI prefix, or `≈ 0 A` (`≈ 0 V`) below the noise floor, so solver noise never reads as a number. */
+function eng(value: number, unit: string, digits = 3): string {
+  return belowFloor(value, unit) ? `≈ 0 ${unit}` : engRaw(value, unit, digits);
+}
+
+/** A signed voltage, `≈ 0 V` below the noise floor. */
+function signedVolts(value: number): string {
+  return belowFloor(value, 'V') ? '≈ 0 V' : signedRaw(value);
+}
 
 /** Relative difference between estimate and solve above which `discrepancy` is filled. */
 export const DISCREPANCY_THRESHOLD = 0.03;
@@ -131,6 +143,8 @@ class StructureCheck {
   private readonly temperatureC: number;
   private readonly findings: Finding[] = [];
   private measured?: Measurement;
+  /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
+  private readonly off = new Set<string>();
 
   constructor(
     private readonly circuit: Circuit,
@@ -162,6 +176,7 @@ class StructureCheck {
     const s = this.s;
     if (this.op) {
       this.measured = measureStructure(this.circuit, this.op, s, this.topo);
+      for (const d of s.devices) if (recordIsOff(this.op.devices[d])) this.off.add(d);
       s.solved = { iref: this.measured.iref, iout: { ...this.measured.iout } };
       s.headroom = { ...this.measured.headroom };
     } else {
@@ -287,14 +302,23 @@ class StructureCheck {
     return res;
   }
 
-  /** Per output (and IREF) relative errors of the estimate against the solve. */
+  /**
+   * Per output (and IREF) relative errors of the estimate against the solve. A quantity whose
+   * estimate and solved value are both below the 1 pA floor is left out (no percentage of nothing);
+   * an estimate below the floor beside a solved current above it has no relative error (`rel` is
+   * Infinity): the hand analysis collapsed to zero.
+   */
   private errors(): { key: string; est: number; solved: number; rel: number }[] {
     const est = this.s.estimate;
     const sol = this.s.solved;
     if (!est || !sol || est.irefFrom === 'unknown') return [];
     const rows: { key: string; est: number; solved: number; rel: number }[] = [];
     const add = (key: string, e: number, x: number) => {
-      if (e > 0 && x > 0 && Number.isFinite(e)) rows.push({ key, est: e, solved: x, rel: (x - e) / e });
+      if (!Number.isFinite(e) || !Number.isFinite(x)) return;
+      const eOn = !belowFloor(e, 'A') && e > 0;
+      const xOn = !belowFloor(x, 'A') && x > 0;
+      if (eOn) rows.push({ key, est: e, solved: x, rel: (Math.max(x, 0) - e) / e });
+      else if (xOn) rows.push({ key, est: Math.max(e, 0), solved: x, rel: Infinity });
     };
     add('IREF', est.iref, sol.iref);
     for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0);
@@ -307,7 +331,14 @@ class StructureCheck {
     if (bad.length === 0) return undefined;
     const reasons: string[] = [];
     const s = this.s;
+    if (bad.some((r) => r.rel === Infinity)) {
+      reasons.push('the hand estimate collapses to 0 A while the operating point carries current (a self-biased loop also has a zero-current solution, which the hand equations found instead of the working state)');
+    }
+    for (const d of s.devices) {
+      if (this.off.has(d) && (d === s.reference.device || s.outputs.some((o) => o.device === d))) reasons.push(`${d} carries no current at the operating point`);
+    }
     for (const d of this.measured?.outOfRegion ?? []) {
+      if (this.off.has(d)) continue;
       const rec = this.op?.devices[d];
       const saturated = rec?.type === 'bjt' && rec.region === 'saturation';
       reasons.push(
@@ -444,11 +475,14 @@ class StructureCheck {
       const head = this.measured.headroom[o.device];
       const solved = this.measured.iout[o.device];
       const active = this.s.estimate?.iout[o.device] ?? 0;
+      const off = this.off.has(o.device);
+      // An off output's junction signs are noise: it is judged only as cut off, and only when the hand analysis expects it to carry current.
+      if (off && !(active > 0 && !belowFloor(active, 'A'))) continue;
       const edge = this.edgeVolts(o.device);
       const vout = this.v(t.out);
-      if (this.measured.outOfRegion.includes(o.device)) {
+      if (off || this.measured.outOfRegion.includes(o.device)) {
         const rec = this.op.devices[o.device];
-        const region = rec && (rec.type === 'bjt' || rec.type === 'mosfet') ? rec.region : head < 0 ? (this.bipolar ? 'saturation' : 'triode') : 'cutoff';
+        const region = off ? 'cutoff' : rec && (rec.type === 'bjt' || rec.type === 'mosfet') ? rec.region : head < 0 ? (this.bipolar ? 'saturation' : 'triode') : 'cutoff';
         const err = active > 0 ? (solved - active) / active : 0;
         const parts: string[] = [];
         let what: string;
@@ -564,6 +598,7 @@ class StructureCheck {
   private checkRatios(): void {
     const kind = kindOf(this.s.kind);
     for (const o of this.s.outputs) {
+      if (this.off.has(o.device)) continue; // no ratio on a device that carries nothing
       const note = kind.ratio({ s: this.s, bipolar: this.bipolar, estimate: this.s.estimate }, o);
       if (note) this.emit('mirror-ratio', this.t(o.device).element, note.message, note.data);
     }
@@ -578,14 +613,14 @@ class StructureCheck {
     const el = this.topo.elementByName.get(dev)!;
     const list = rows
       .filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD)
-      .map((r) => `${r.key === 'IREF' ? 'IREF' : `IOUT(${r.key})`} ${eng(r.est, 'A')} by hand, ${eng(r.solved, 'A')} solved (${percent(r.rel)})`)
+      .map((r) => `${r.key === 'IREF' ? 'IREF' : `IOUT(${r.key})`} ${eng(r.est, 'A')} by hand, ${eng(r.solved, 'A')} solved (${Number.isFinite(r.rel) ? percent(r.rel) : 'the estimate is zero'})`)
       .reverse()
       .join('; ');
     this.emit(
       'estimate-differs-from-solved',
       el,
       `The hand estimate of the ${kindName(this.s.kind)} on ${this.s.reference.device} differs from the operating point by more than ${sig(DISCREPANCY_THRESHOLD * 100)} %: ${list}. Likely: ${this.s.discrepancy}.`,
-      { rows: rows.map((r) => ({ quantity: r.key, estimateA: r.est, solvedA: r.solved, relative: r.rel })), reason: this.s.discrepancy },
+      { rows: rows.map((r) => ({ quantity: r.key, estimateA: r.est, solvedA: r.solved, ...(Number.isFinite(r.rel) ? { relative: r.rel } : {}) })), reason: this.s.discrepancy },
     );
   }
 }

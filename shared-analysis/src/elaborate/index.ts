@@ -1,7 +1,7 @@
 // Elaboration: from parsed documents to a flat circuit with parameters evaluated, models filled in and subcircuits flattened.
 
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
-import type { Cccs, Ccvs, Circuit, Element, Model, Origin } from '../circuit';
+import type { Cccs, Ccvs, Circuit, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Span, Workspace } from '../types';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
@@ -38,7 +38,7 @@ const ABSOLUTE_ZERO_C = -273.15;
 
 /** Element parameters each letter reads; others get `element-unknown-parameter`. Geometry of junction areas is accepted silently. */
 const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
-  R: { used: ['M'], silent: [] },
+  R: { used: ['M', 'RATEDPOWER'], silent: [] },
   C: { used: ['M'], silent: ['IC'] },
   L: { used: ['M'], silent: ['IC'] },
   V: { used: [], silent: ['*'] },
@@ -47,9 +47,9 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
   G: { used: [], silent: [] },
   F: { used: [], silent: [] },
   H: { used: [], silent: [] },
-  D: { used: ['AREA', 'M'], silent: [] },
-  Q: { used: ['AREA', 'M'], silent: [] },
-  M: { used: ['W', 'L', 'M'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
+  D: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
+  Q: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
+  M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
 };
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
@@ -436,7 +436,7 @@ class Elaborator {
     let element: Element | undefined;
     switch (card.letter) {
       case 'R': {
-        if (card.model) this.findModel(card, inst, uri);
+        const resistorModel = card.model ? this.findModel(card, inst, uri) : undefined;
         if (!card.value) {
           this.sink.add('element-value-missing', `Resistor \`${card.name.text}\` has no resistance value; it is left out of the analysis.`, uri, card.name.span);
           return;
@@ -449,7 +449,11 @@ class Elaborator {
         } else if (v < 0) {
           this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
         }
-        element = { name, nodes, origin, kind: 'R', resistance: v / m };
+        const resistor: Resistor = { name, nodes, origin, kind: 'R', resistance: v / m };
+        if (m !== 1) resistor.m = m;
+        const modelRating = resistorModel?.ratings?.['RATEDPOWER'];
+        if (modelRating !== undefined) resistor.modelRatedPowerW = modelRating;
+        element = resistor;
         break;
       }
       case 'C':
@@ -530,7 +534,14 @@ class Elaborator {
         break;
       }
     }
-    if (element) this.elements.push(element);
+    if (element) {
+      const rating = params.get('RATEDPOWER');
+      if (rating) {
+        const w = this.value(rating.value, inst, uri, `the rated power of \`${card.name.text}\``, 'The default limit is used.');
+        if (w !== undefined && w > 0 && Number.isFinite(w)) element.ratedPowerW = w;
+      }
+      this.elements.push(element);
+    }
   }
 
   /** Element parameters by upper-case name; reports unknown ones. */

@@ -30,6 +30,13 @@ const KNOWN_UNUSED: Record<Exclude<ModelKind, 'r'>, Set<string>> = {
   pmos: new Set('TOX NSUB U0 UO LD WD CGSO CGDO CGBO CBD CBS CJ MJ CJSW MJSW PB IS JS RD RS KF AF FC NFS XJ TPG NSS'.split(' ')),
 };
 
+/**
+ * Parameters read as limits of the part rather than by the DC equations (`Model.ratings`): BV
+ * (a diode's breakdown voltage, which the DC equations here do not model) and RATEDPOWER, the
+ * dissipation limit, a parameter of this project's naming accepted on every model type.
+ */
+export const RATING_PARAMS = new Set(['BV', 'RATEDPOWER']);
+
 /** Parameters among KNOWN_UNUSED that change the DC operating point, named in the note so nobody is surprised. */
 const DC_RELEVANT = new Set(['RB', 'RE', 'RC', 'IKF', 'IKR', 'ISE', 'ISC', 'VAR', 'BV', 'RD', 'RS']);
 
@@ -85,7 +92,8 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
       const v = tokenValue(a.value, scope, uri);
       if (v.ok) params[a.name.text.toUpperCase()] = v.value;
     }
-    return { name: card.name.text, kind, params, given: Object.keys(params), origin };
+    const ratings = params['RATEDPOWER'] !== undefined && params['RATEDPOWER'] > 0 ? { RATEDPOWER: params['RATEDPOWER'] } : undefined;
+    return { name: card.name.text, kind, params, given: Object.keys(params), origin, ...(ratings ? { ratings } : {}) };
   }
 
   const defaults = MODEL_DEFAULTS[kind];
@@ -93,6 +101,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   const params: Record<string, number> = { ...defaults };
   const given: string[] = [];
   const ignored: string[] = [];
+  const ratings: Record<string, number> = {};
   const seen = new Map<string, (typeof card.params)[number]>();
   let vtoAssignment: (typeof card.params)[number] | undefined;
   for (const a of card.params) {
@@ -112,6 +121,13 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
       continue;
     }
     if (!(key in defaults)) {
+      if (key === 'RATEDPOWER' || (RATING_PARAMS.has(key) && KNOWN_UNUSED[kind].has(key))) {
+        // A limit the checks read (BV is also one the DC equations here leave out, so it keeps its note).
+        const v = tokenValue(a.value, scope, uri);
+        if (v.ok && v.value > 0 && Number.isFinite(v.value)) ratings[key] = v.value;
+        if (key !== 'RATEDPOWER') ignored.push(key);
+        continue;
+      }
       if (KNOWN_UNUSED[kind].has(key)) {
         ignored.push(key);
         continue;
@@ -175,7 +191,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
       { parameters: ignored },
     );
   }
-  return { name: card.name.text, kind, params, given, origin };
+  return { name: card.name.text, kind, params, given, origin, ...(Object.keys(ratings).length > 0 ? { ratings } : {}) };
 }
 
 /**

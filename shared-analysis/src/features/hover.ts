@@ -21,6 +21,7 @@ import {
 import { formatNumber, formatPercent, formatQuantity } from './quantity';
 import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
+import { dissipation, powerLimit } from '../checks/devices/power';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -154,8 +155,19 @@ function elementSection(analysis: Analysis, el: Element): string {
     ];
     lines.push(bullet(items));
   }
+  const power = powerLine(analysis, el, rec);
+  if (power) lines.push(power);
   for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));
   return lines.join('\n\n');
+}
+
+/** `Power: 12.3 mW of 500 mW (2.5 %)` for a device or resistor with a limit. */
+function powerLine(analysis: Analysis, el: Element, rec: DeviceRecord): string | undefined {
+  const limit = powerLimit(el, analysis.options);
+  const p = dissipation(rec);
+  if (!limit || p === undefined) return undefined;
+  const whence = limit.from === 'instance' ? 'its RATEDPOWER' : limit.from === 'model' ? 'its model’s RATEDPOWER' : 'the default limit';
+  return `Power: ${formatQuantity(p, 'W')} of ${formatQuantity(limit.watts, 'W')} (${whence})${p > limit.watts ? ' — **over its limit**' : ''}`;
 }
 
 function describeElement(el: Element): string {

@@ -6,6 +6,7 @@ import type { DeviceRecord } from '../solve/types';
 import type { Span } from '../types';
 import { elementsOfCard, instancePrefix } from './document-index';
 import { formatQuantity } from './quantity';
+import { dissipation } from '../checks/devices/power';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
@@ -90,6 +91,13 @@ function mainCurrent(rec: DeviceRecord | undefined): number | undefined {
 }
 
 function labelFor(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): string | undefined {
+  const label = baseLabel(el, rec, detail);
+  if (label === undefined || detail !== 'full' || !(el.kind === 'R' || el.kind === 'D' || el.kind === 'Q' || el.kind === 'M')) return label;
+  const p = dissipation(rec);
+  return p === undefined ? label : `${label} · ${formatQuantity(p, 'W')}`;
+}
+
+function baseLabel(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): string | undefined {
   if (!rec) return undefined;
   const full = detail === 'full';
   if (rec.type === 'bjt') {

@@ -83,11 +83,59 @@ export function formatEngineering(value: number, options: FormatOptions = {}): s
   return withUnit(sign + trimmed(mantissa, digits), style === 'display' ? prefix.display : prefix.netlist);
 }
 
-/** Formats a relative error as a signed percentage for messages: `+2.1 %`, `−12 %`, `0 %`. */
+/**
+ * Formats a relative error as a signed percentage for messages: `+2.1 %`, `−12 %`, `0 %`.
+ * At most three significant figures (`digits`, default 2) and never an exponent: `+8890000 %`,
+ * not `+8.89e6 %`. A share smaller than a hundredth of a percent reads `≈ 0 %`, because
+ * `+2.8e-7 %` is rounding noise, not a difference anyone acts on.
+ */
 export function formatPercent(ratio: number, digits = 2): string {
   if (!Number.isFinite(ratio)) return '—';
   const pct = ratio * 100;
-  const text = Math.abs(pct) >= 10 ** digits ? Math.abs(pct).toFixed(0) : trimmed(Math.abs(pct), digits);
-  if (text === '0') return '0 %';
+  if (pct === 0) return '0 %';
+  if (Math.abs(pct) < 0.005) return '≈ 0 %';
+  // Whole percentages above 10^digits keep three figures (`+123 %`), never more.
+  const kept = Math.abs(pct) >= 10 ** digits ? 3 : Math.max(1, Math.min(3, Math.round(digits)));
+  const text = plainNumber(Number(Math.abs(pct).toPrecision(kept)));
+  if (text === '0') return '≈ 0 %';
   return `${pct < 0 ? MINUS : '+'}${text} %`;
+}
+
+/** A finite number written out in plain decimals (no exponent), as JavaScript would for a value between 1e-6 and 1e21. */
+function plainNumber(v: number): string {
+  const s = String(v);
+  if (!s.includes('e')) return s;
+  // Only very large or very small values reach here; write them out digit by digit.
+  return Math.abs(v) >= 1 ? BigInt(Math.round(v)).toString() : v.toFixed(20).replace(/0+$/, '').replace(/\.$/, '');
+}
+
+/**
+ * The magnitudes below which a solved quantity is numerical noise rather than a value
+ * (DESIGN.md "Regions": a device whose terminal currents are all below 1 pA is off). The
+ * solver settles node voltages to about a nanovolt; a microvolt is far below any bias voltage
+ * a designer reads, and a picowatt is a picoampere across a volt.
+ */
+export const NOISE_FLOOR = { A: 1e-12, V: 1e-6, W: 1e-12 } as const;
+
+/** Whether `value` is below the noise floor of its unit (units without a floor never are). */
+export function belowFloor(value: number, unit: string): boolean {
+  const floor = (NOISE_FLOOR as Record<string, number>)[unit];
+  return floor !== undefined && Number.isFinite(value) && Math.abs(value) < floor;
+}
+
+/**
+ * A solved quantity for people: `formatEngineering` in display style, except that a current,
+ * voltage or power below its noise floor reads `≈ 0 A` (`≈ 0 V`, `≈ 0 W`) instead of
+ * `3.49e-18 fV`, and a value at the project's 1e30 "unbounded" stand-in reads `∞`.
+ */
+export function formatMeasured(value: number, unit: string, digits = 3): string {
+  if (belowFloor(value, unit)) return `≈ 0 ${unit}`;
+  if (Number.isFinite(value) && Math.abs(value) >= 1e29) return `${value < 0 ? MINUS : ''}∞${unit ? ' ' + unit : ''}`;
+  return formatEngineering(value, { unit, digits });
+}
+
+/** `formatMeasured` with an explicit `+` on positive values above the floor (`+0.62 V`), for signed junction voltages. */
+export function formatSigned(value: number, unit: string, digits = 3): string {
+  const text = formatMeasured(value, unit, digits);
+  return value > 0 && !belowFloor(value, unit) ? `+${text}` : text;
 }

@@ -42,9 +42,9 @@ C1 out 0 1n
 describe('inlay labels', () => {
   it('full labels give current, terminal voltage and region', () => {
     const labels = check(MIRROR, 'full', {
-      Q2: /^IC [0-9.]+ µA · VCE [0-9.]+ V · forward-active$/,
-      Q1: /^IC [0-9.]+ µA · VCE [0-9.]+ m?V · forward-active$/,
-      RL: /^I [0-9.]+ µA · [0-9.]+ m?V across$/,
+      Q2: /^IC [0-9.]+ µA · VCE [0-9.]+ V · forward-active · [0-9.]+ mW$/,
+      Q1: /^IC [0-9.]+ µA · VCE [0-9.]+ m?V · forward-active · [0-9.]+ [µm]W$/,
+      RL: /^I [0-9.]+ µA · [0-9.]+ m?V across · [0-9.]+ [µm]W$/,
       VCC: /^delivers /,
       C1: undefined,
     });
@@ -55,6 +55,10 @@ describe('inlay labels', () => {
     expect(relErr(iout, (10 - vbe) / 9.3e3 / 1.02)).toBeLessThan(0.01);
     // Source: Ohm's law — RL drops IOUT·1 kΩ.
     expect(relErr(quantityAfter(labels.RL, '·', 'V'), iout * 1e3)).toBeLessThan(0.01);
+    // Power in the full label: IC·VCE + IB·VBE for the BJT, I²·R for the resistor (Joule's law).
+    const vce = quantityAfter(labels.Q2, 'VCE', 'V');
+    expect(relErr(quantityAfter(labels.Q2, 'forward-active ·', 'W'), iout * vce + (iout / 100) * vbe)).toBeLessThan(0.01);
+    expect(relErr(quantityAfter(labels.RL, 'across ·', 'W'), iout * iout * 1e3)).toBeLessThan(0.01);
   });
 
   it('terse labels give the current only while the device is in its active region', () => {
@@ -83,7 +87,7 @@ RL vdd d 5k
 .model NM NMOS (KP=100u VTO=0.7)
 .end
 `;
-    check(text, 'full', { M2: /^ID [0-9.]+ µA · VDS [0-9.]+ V · saturation$/ });
+    check(text, 'full', { M2: /^ID [0-9.]+ µA · VDS [0-9.]+ V · saturation · [0-9.]+ [µm]W$/ });
   });
 
   it('a device in a subcircuit used twice gets one label with both instances', () => {

@@ -1,0 +1,143 @@
+// Every device judged at the operating point: a registry of per-kind judges, the finding codes they raise, and the power check they share.
+
+import type { Element } from '../../circuit';
+import { formatMeasured } from '../../fixes/format';
+import type { DeviceRecord } from '../../solve/types';
+import type { Finding, Severity } from '../../types';
+import { JudgeContext, type DeviceCheckContext } from './context';
+import { judgeDiode } from './diode';
+import { dissipation, powerLimit } from './power';
+import { judgeBjt, judgeMosfet, type JudgeMemory } from './transistors';
+
+export type { DeviceCheckContext } from './context';
+export { dissipation, powerLimit } from './power';
+
+/** Every finding code the device judges raise, with its default severity and a one-line summary for the README. */
+export const DEVICE_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'device-reversed': {
+    severity: 'error',
+    summary: 'A transistor conducts the wrong way round: a reverse-active BJT, or a MOSFET whose drain sits on the source side with its bulk tied to the source pin; names the pins that look swapped, or the supply polarity when every device of the kind is reversed.',
+  },
+  'current-source-out-of-region': {
+    severity: 'warning',
+    summary: 'A transistor that acts as a current source or cascode (base or gate on a mirror line or a bias voltage, degenerated, or stacked on another device) is saturated (BJT) or in triode (MOS), outside any recognised mirror.',
+  },
+  'branch-blocked': {
+    severity: 'warning',
+    summary: 'An off transistor or diode is the only path of a series branch between two rails, so the branch carries no current; names the branch, the voltages and the likely wiring mistake.',
+  },
+  'mirror-line-shunted': {
+    severity: 'error',
+    summary: 'A transistor’s collector or drain sits on the base or gate line of a diode-connected device of its kind and takes its current; its output and control pins look swapped.',
+  },
+  'junction-beyond-breakdown': {
+    severity: 'error',
+    summary: 'A BJT’s emitter–base junction is reverse-biased beyond the 5–6 V such junctions are rated for (common practice); the solved point is then not what the part does, and the pins often look swapped.',
+  },
+  'breakdown-not-solved': {
+    severity: 'warning',
+    summary: 'A diode is reverse-biased beyond the BV of its model, which the DC equations here do not solve yet; the voltages around it are not what the circuit does.',
+  },
+  'power-over-rating': {
+    severity: 'warning',
+    summary: 'A device or resistor dissipates more than its rating: its `RATEDPOWER=` (instance or model), else the setting (0.25 W for a resistor, 0.5 W for a small-signal transistor or diode; common practice).',
+  },
+  'device-findings-limited': {
+    severity: 'info',
+    summary: 'More devices than are listed one by one share a device finding; the rest are counted in one summary.',
+  },
+};
+
+/** One device kind's judge: how much power it dissipates, and what its regions must be. New kinds (JFET) register here. */
+export interface DeviceJudge {
+  /** The element letter the judge handles. */
+  kind: string;
+  /** Judges one element at its record; absent for kinds that only have their power checked. */
+  judge?: (el: Element, rec: DeviceRecord, ctx: JudgeContext, memory: JudgeMemory) => void;
+}
+
+/** The judges, by element letter. */
+export const DEVICE_JUDGES: Record<string, DeviceJudge> = {
+  Q: { kind: 'Q', judge: (el, rec, ctx, memory) => el.kind === 'Q' && rec.type === 'bjt' && judgeBjt(el, rec, ctx, memory) },
+  M: { kind: 'M', judge: (el, rec, ctx, memory) => el.kind === 'M' && rec.type === 'mosfet' && judgeMosfet(el, rec, ctx, memory) },
+  D: { kind: 'D', judge: (el, rec, ctx, memory) => el.kind === 'D' && rec.type === 'diode' && judgeDiode(el, rec, ctx, memory) },
+  R: { kind: 'R' },
+};
+
+/** Located findings of one code beyond this count are folded into one summary finding. */
+export const MAX_FINDINGS_PER_CODE = 20;
+
+/**
+ * Judges every device of a converged operating point: each kind's judge for its regions and
+ * wiring, and the dissipation of every device and resistor against its limit. A device that is
+ * off (every terminal current below 1 pA) gets no region finding. Returns nothing for an
+ * operating point that did not converge. Never throws: a failing judge skips its device.
+ */
+export function judgeDevices(ctx: DeviceCheckContext): Finding[] {
+  const { circuit, op } = ctx;
+  if (!op.converged) return [];
+  const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES);
+  const memory: JudgeMemory = { branches: new Set() };
+  for (const el of circuit.elements) {
+    const judge = DEVICE_JUDGES[el.kind];
+    if (!judge) continue;
+    const rec = judges.record(el.name);
+    if (!rec) continue;
+    try {
+      judge.judge?.(el, rec, judges, memory);
+      judgePower(el, rec, judges);
+    } catch {
+      // One device's defect must not take the others (or the editor) down.
+    }
+  }
+  return limitFlood(judges.findings);
+}
+
+/** `power-over-rating` when an element dissipates more than its limit. */
+function judgePower(el: Element, rec: DeviceRecord, ctx: JudgeContext): void {
+  const p = dissipation(rec);
+  const limit = powerLimit(el, ctx.options);
+  if (p === undefined || !limit || !(p > limit.watts)) return;
+  const whence =
+    limit.from === 'instance'
+      ? 'its RATEDPOWER'
+      : limit.from === 'model'
+        ? 'the RATEDPOWER of its model'
+        : el.kind === 'R'
+          ? 'the default for an ordinary resistor, common practice; give a larger part its RATEDPOWER= on the card'
+          : 'the default for a small-signal part, common practice; give a power part its RATEDPOWER= on the card or model';
+  const ratio = Number((p / limit.watts).toPrecision(3));
+  ctx.emit(
+    'power-over-rating',
+    el,
+    `${el.name} dissipates ${formatMeasured(p, 'W')}, ${ratio}× its limit of ${formatMeasured(limit.watts, 'W')} (${whence}).`,
+    { powerW: p, limitW: limit.watts, limitFrom: limit.from },
+  );
+}
+
+/** Keeps the first MAX_FINDINGS_PER_CODE findings of each code and counts the rest in one summary on the first. */
+function limitFlood(findings: Finding[]): Finding[] {
+  const byCode = new Map<string, Finding[]>();
+  for (const f of findings) {
+    const list = byCode.get(f.code);
+    if (list) list.push(f);
+    else byCode.set(f.code, [f]);
+  }
+  const out: Finding[] = [];
+  for (const [code, list] of byCode) {
+    out.push(...list.slice(0, MAX_FINDINGS_PER_CODE));
+    if (list.length > MAX_FINDINGS_PER_CODE) {
+      const rest = list.slice(MAX_FINDINGS_PER_CODE);
+      const first = list[0];
+      out.push({
+        code: 'device-findings-limited',
+        severity: DEVICE_CODES['device-findings-limited'].severity,
+        message: `${rest.length} more devices have the same ${code} finding as the ${MAX_FINDINGS_PER_CODE} listed; the first of them is ${String(rest[0].data?.['device'] ?? '')}.`,
+        uri: first.uri,
+        span: first.span,
+        data: { code, more: rest.length, devices: rest.slice(0, 100).map((f) => f.data?.['device']) },
+      });
+    }
+  }
+  return out;
+}
