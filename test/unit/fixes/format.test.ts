@@ -3,7 +3,7 @@
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import { parseNumber } from '../../../shared-analysis/src/elaborate/units';
-import { formatEngineering, formatPercent, type FormatOptions } from '../../../shared-analysis/src/fixes/format';
+import { formatEngineering, formatMeasured, formatPercent, formatSigned, type FormatOptions } from '../../../shared-analysis/src/fixes/format';
 
 /** The one helper that touches the formatter. */
 function check(value: number, options: FormatOptions, expected: string): void {
@@ -68,6 +68,35 @@ describe('display style', () => {
     expect(formatPercent(0.021)).toBe('+2.1 %');
     expect(formatPercent(-0.12)).toBe('−12 %');
     expect(formatPercent(0)).toBe('0 %');
+  });
+});
+
+describe('the noise floor and percentages', () => {
+  // DESIGN.md "Regions": a current below 1 pA is off; solver noise such as 3.49e-18 fV must not read as a number.
+  it.each([
+    [3.49e-33, 'V', '≈ 0 V'],
+    [1.39e-18, 'A', '≈ 0 A'],
+    [-4e-13, 'A', '≈ 0 A'],
+    [2e-7, 'V', '≈ 0 V'],
+    [1.2e-12, 'A', '1.2 pA'],
+    [0.617, 'V', '0.617 V'],
+    [1e30, 'Ω', '∞ Ω'],
+    [4.84e-3, 'W', '4.84 mW'],
+  ])('%s %s → %s', (v, unit, text) => expect(formatMeasured(v, unit)).toBe(text));
+
+  it('signs voltages above the floor only', () => {
+    expect(formatSigned(0.617, 'V')).toBe('+0.617 V');
+    expect(formatSigned(-8.7, 'V')).toBe('−8.7 V');
+    expect(formatSigned(3e-18, 'V')).toBe('≈ 0 V');
+  });
+
+  it('writes percentages with at most three significant figures and never an exponent', () => {
+    expect(formatPercent(88888.33)).toBe('+8890000 %');
+    expect(formatPercent(1.234)).toBe('+123 %');
+    expect(formatPercent(2.8e-9)).toBe('≈ 0 %');
+    expect(formatPercent(-0.27)).toBe('−27 %');
+    expect(formatPercent(0.0015)).toBe('+0.15 %');
+    for (const r of [1e-7, 3.3e-4, 0.05, 7.77, 1e6, -2.5e9]) expect(formatPercent(r)).not.toMatch(/e|×/);
   });
 });
 
