@@ -49,6 +49,9 @@ Options:
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
   --include-root DIR           also let .include read files under DIR; repeatable
   --include-anywhere           let .include read files outside the allowed folders
+  --search-folder DIR          look for included files in DIR when they are not beside the
+                               including file (after it, in the order given); repeatable;
+                               DIR's tree is readable too
   --                           everything after it is a file name, even if it starts with '-'
 
 Includes are read only from the current folder's tree, the checked netlist's folder tree and
@@ -113,6 +116,16 @@ export class PathWorkspace implements Workspace {
     // A network path stays as written, so reading refuses it rather than trying a local look-alike.
     if (isNetworkPath(ref)) return ref;
     return path.resolve(path.dirname(fromUri), ref);
+  }
+
+  /** The names in a local folder, for the engine's case-insensitive retry of an include; never a network path. */
+  list(folder: string): readonly string[] | undefined {
+    if (isNetworkPath(folder)) return undefined;
+    try {
+      return fs.readdirSync(folder);
+    } catch {
+      return undefined;
+    }
   }
 }
 
@@ -206,6 +219,15 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--include-anywhere':
         opts.includeAnywhere = true;
         break;
+      case '--search-folder': {
+        const dir = next();
+        if (!dir) throw new UsageError('--search-folder needs a folder.');
+        if (isNetworkPath(dir)) throw new UsageError(`--search-folder '${escapeControls(dir)}' is a network path; qpoint never reads those.`);
+        const folder = path.resolve(dir);
+        (opts.analysis.includeFolders ??= []).push(folder);
+        opts.includeRoots.push(folder);
+        break;
+      }
       default:
         if (a.startsWith('-') && a !== '-') throw new UsageError(`Unknown option '${escapeControls(a)}' (put -- before a file name that starts with '-').`);
         opts.files.push(a);

@@ -1,6 +1,7 @@
 // The server's Workspace: open editor documents first, then files on disk for file: URIs, read under the shared policy.
 
 import * as path from 'node:path';
+import { readdirSync } from 'node:fs';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import type { Workspace } from '../../shared-analysis/src/types';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
@@ -16,12 +17,17 @@ export class FileWorkspace implements Workspace {
   private readonly reader: PolicyReader;
   private readonly refusals = new Map<string, string>();
 
+  /** Whether folders may be listed (for the case-insensitive retry of an include): not in an untrusted workspace. */
+  private trusted: boolean;
+
   constructor(policy: ReadPolicy = defaultPolicy()) {
     this.reader = new PolicyReader(policy);
+    this.trusted = policy.trusted;
   }
 
   /** Replaces the reading policy (trust, allowed roots); forgets nothing that was read. */
   setPolicy(policy: ReadPolicy): void {
+    this.trusted = policy.trusted;
     this.reader.setPolicy(policy);
   }
 
@@ -45,6 +51,7 @@ export class FileWorkspace implements Workspace {
       read: (uri) => this.readWith(uri, extra),
       resolve: (from, ref) => this.resolve(from, ref),
       whyUnreadable: (uri) => this.whyUnreadable(uri),
+      list: (folder) => this.list(folder),
     };
   }
 
@@ -68,6 +75,18 @@ export class FileWorkspace implements Workspace {
 
   whyUnreadable(uri: string): string | undefined {
     return this.refusals.get(uri);
+  }
+
+  /** The names in a local folder (a file: URI), for the engine's case-insensitive retry of an include; nothing in an untrusted workspace. */
+  list(folder: string): readonly string[] | undefined {
+    if (!this.trusted) return undefined;
+    const dir = filePath(folder);
+    if (dir === undefined) return undefined;
+    try {
+      return readdirSync(dir);
+    } catch {
+      return undefined;
+    }
   }
 
   resolve(fromUri: string, ref: string): string {

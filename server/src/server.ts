@@ -1,6 +1,7 @@
 // The qpoint language server: keeps the last analysis of every open netlist, runs new ones in a worker, and answers editor requests from the cache.
 
 import { basename, join } from 'node:path';
+import * as nodePath from 'node:path';
 import {
   CodeAction,
   CodeActionKind,
@@ -64,8 +65,8 @@ import {
 import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
-import { defaultPolicy, type ReadPolicy } from './read-policy';
-import { fileURLToPath } from 'node:url';
+import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
+import { fileURLToPath, pathToFileURL } from 'node:url';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -117,8 +118,26 @@ let workspaceRoots: string[] = [];
 
 /** Tells the worker what it may read: the open folders' trees (and each netlist's own), or anything when the setting allows. */
 function sendReadPolicy(): void {
-  const policy: ReadPolicy = { ...defaultPolicy(workspaceRoots), trusted: workspaceTrusted, anywhere: settings.includesAnywhere };
+  const folders = searchFolderPaths();
+  // The search folders are the engine's too: it looks there for an include not found beside its netlist.
+  settings.options.includeFolders = folders.map((f) => pathToFileURL(f).href);
+  const policy: ReadPolicy = { ...defaultPolicy([...workspaceRoots, ...folders]), trusted: workspaceTrusted, anywhere: settings.includesAnywhere };
   host.setReadPolicy(policy);
+}
+
+/** `qpoint.includes.searchFolders` as local paths: absolute ones as written, relative ones under the first workspace folder; never network paths. */
+function searchFolderPaths(): string[] {
+  const out: string[] = [];
+  for (const f of settings.includeSearchFolders) {
+    if (isNetworkPath(f)) {
+      log(`The search folder ${JSON.stringify(f)} is a network path; qpoint never reads those.`);
+      continue;
+    }
+    if (nodePath.isAbsolute(f)) out.push(nodePath.resolve(f));
+    else if (workspaceRoots[0] !== undefined) out.push(nodePath.resolve(workspaceRoots[0], f));
+    else log(`The search folder ${JSON.stringify(f)} is relative, but no workspace folder is open to resolve it against; it is not searched.`);
+  }
+  return out;
 }
 
 /** Local paths of the workspace folders an initialize request names (file: URIs only). */

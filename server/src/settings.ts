@@ -12,10 +12,12 @@ export interface ServerSettings {
   analysisDelayMs: number;
   /** Lets `.include` read files outside the workspace and the netlist's folder tree (still regular files within the limits). */
   includesAnywhere: boolean;
+  /** `qpoint.includes.searchFolders` as written: folders searched for included files (absolute, or relative to the first workspace folder). */
+  includeSearchFolders: string[];
 }
 
 /** The settings when the client sends none. */
-export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200, includesAnywhere: false };
+export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200, includesAnywhere: false, includeSearchFolders: [] };
 
 const SERIES: ResistorSeries[] = ['E12', 'E24', 'E48', 'E96', 'E192'];
 const SEVERITIES: (Severity | 'off')[] = ['error', 'warning', 'info', 'hint', 'off'];
@@ -111,8 +113,19 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
     problems.push(`Setting qpoint.includes.readOutsideWorkspace = ${JSON.stringify(anywhere)} is ignored: it must be true or false.`);
   }
 
+  const folders = get('includes.searchFolders');
+  const includeSearchFolders: string[] = [];
+  if (Array.isArray(folders)) {
+    for (const f of folders) {
+      if (typeof f === 'string' && f.trim() !== '') includeSearchFolders.push(f.trim());
+      else problems.push(`An entry ${JSON.stringify(f)} of qpoint.includes.searchFolders is ignored: each entry must be a folder path.`);
+    }
+  } else if (folders !== undefined && folders !== null) {
+    problems.push(`Setting qpoint.includes.searchFolders = ${JSON.stringify(folders)} is ignored: it must be a list of folder paths.`);
+  }
+
   return {
-    settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true },
+    settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true, includeSearchFolders },
     problems,
   };
 }

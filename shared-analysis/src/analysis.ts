@@ -36,6 +36,11 @@ export interface AnalysisOptions {
   solve?: boolean;
   /** Dissipation limits used when a part gives no `RATEDPOWER` of its own. */
   powerLimits?: Partial<PowerLimits>;
+  /**
+   * Folders searched, in order, for an included file not found beside the including file
+   * (ids as the host's Workspace names files: paths in the CLI, file: URIs in the server).
+   */
+  includeFolders?: string[];
 }
 
 /** Default dissipation limits, watts, for parts that do not give their own. */
@@ -124,9 +129,11 @@ export interface IncludeSymbol {
   uri: string;
   /** The path field of the .include/.lib card. */
   span: Span;
-  /** Resolved target id. */
+  /** Resolved target id: the file read, or where it was looked for first when `found` is false. */
   target: string;
   found: boolean;
+  /** How the file was found when not at the path as written (letter case, a search folder, the tail of an absolute path). */
+  how?: 'letter-case' | 'search-folder' | 'path-tail';
 }
 
 /** Everything the editor features need to resolve names. */

@@ -14,6 +14,7 @@ import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
 import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Workspace } from './types';
+import { netlistSeverity } from './checks/netlist';
 
 declare const performance: { now(): number };
 
@@ -61,7 +62,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
 
   // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
   const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
-  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC }));
+  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders }));
   const findings: Finding[] = [...syntaxFindings(elab.documents), ...elab.findings];
   const circuit = elab.circuit;
   findings.push(...timed('connectivity', () => checkConnectivity(circuit)));
@@ -104,7 +105,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     documents: elab.documents,
     circuit,
     symbols: elab.symbols,
-    findings: sortFindings(applySeverities(limitIncludedExcerpts(findings, input.uri, elab.documents, elab.symbols.includes), resolved), input.uri),
+    findings: capFindings(sortFindings(applySeverities(limitIncludedExcerpts(findings, input.uri, elab.documents, elab.symbols.includes), resolved), input.uri)),
     operatingPoint,
     structures,
     options: resolved,
@@ -186,6 +187,47 @@ export function applySeverities(findings: Finding[], options: ResolvedOptions): 
     const override = options.severities[f.code];
     if (override === 'off') continue;
     out.push(override ? { ...f, severity: override } : f);
+  }
+  return out;
+}
+
+/** Per document, a code raised more often than this is listed this many times plus one summary. */
+export const MAX_FINDINGS_PER_CODE = 50;
+
+/**
+ * Flood control: in each document, the first MAX_FINDINGS_PER_CODE findings of a code are kept and
+ * the rest replaced by one `findings-capped` finding (at the first one left out) that gives the
+ * count in its message and in `data` (`code`, `total`, `shown`, `hidden`). Keeps the order.
+ */
+export function capFindings(findings: Finding[]): Finding[] {
+  const totals = new Map<string, number>();
+  let over = false;
+  for (const f of findings) {
+    const key = `${f.uri}\u0000${f.code}`;
+    const n = (totals.get(key) ?? 0) + 1;
+    totals.set(key, n);
+    if (n > MAX_FINDINGS_PER_CODE) over = true;
+  }
+  if (!over) return findings;
+  const seen = new Map<string, number>();
+  const out: Finding[] = [];
+  for (const f of findings) {
+    const key = `${f.uri}\u0000${f.code}`;
+    const n = (seen.get(key) ?? 0) + 1;
+    seen.set(key, n);
+    if (n <= MAX_FINDINGS_PER_CODE) out.push(f);
+    else if (n === MAX_FINDINGS_PER_CODE + 1) {
+      const total = totals.get(key)!;
+      const hidden = total - MAX_FINDINGS_PER_CODE;
+      out.push({
+        code: 'findings-capped',
+        severity: netlistSeverity('findings-capped'),
+        message: `\`${f.code}\` is raised ${total} times in this file; the first ${MAX_FINDINGS_PER_CODE} are listed and the other ${hidden} are not.`,
+        uri: f.uri,
+        span: { start: f.span.start, end: f.span.end },
+        data: { code: f.code, total, shown: MAX_FINDINGS_PER_CODE, hidden },
+      });
+    }
   }
   return out;
 }

@@ -66,6 +66,12 @@ export interface Workspace {
    * ("does not exist", "is a pipe, not a netlist file"); undefined when the host does not say.
    */
   whyUnreadable?(uri: string): string | undefined;
+  /**
+   * The names of the entries of a folder (`folder` is an id ending in `/`, as `resolve` makes
+   * them), or undefined when it cannot be listed. Optional: with it, an include that does not
+   * exist with its letter case is retried case-insensitively.
+   */
+  list?(folder: string): readonly string[] | undefined;
 }
 
 /** A Workspace over a fixed map of documents; paths resolve like POSIX paths. For tests and demos. */
@@ -82,6 +88,14 @@ export class MemoryWorkspace implements Workspace {
 
   read(uri: string): string | undefined {
     return this.files.get(normalizePosix(uri));
+  }
+
+  list(folder: string): readonly string[] | undefined {
+    const dir = normalizePosix(folder);
+    const prefix = dir === '/' ? '/' : `${dir}/`;
+    const names = new Set<string>();
+    for (const k of this.files.keys()) if (k.startsWith(prefix)) names.add(k.slice(prefix.length).split('/')[0]!);
+    return names.size > 0 ? [...names] : undefined;
   }
 
   resolve(fromUri: string, ref: string): string {

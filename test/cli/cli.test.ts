@@ -163,3 +163,20 @@ describe('qpoint report', () => {
     expect(r.stdout).toMatch(/Caution: .*local codes and licensed practice/);
   });
 });
+
+describe('include search and decoding from the command line', () => {
+  it('finds an include in a --search-folder, with other letter case, and reads a Windows-1252 µ', () => {
+    const kit = mkdtempSync(join(tmpdir(), 'qpoint-kit-'));
+    writeFileSync(join(kit, 'Mirror.LIB'), '.model QN NPN (IS=1e-15 BF=100)\n');
+    // 0xB5 is µ in Windows-1252 (and Latin-1), not valid UTF-8 on its own.
+    const bench = Buffer.concat([Buffer.from('Mirror from a kit\n.include mirror.lib\nVCC vcc 0 12\nR1 vcc ref 11.3k\nC1 ref 0 1'), Buffer.from([0xb5]), Buffer.from('\nQ1 ref ref 0 QN\nQ2 out ref 0 QN\nRL vcc out 4.7k\n.end\n')]);
+    const p = join(dir, 'kit-bench.cir');
+    writeFileSync(p, bench);
+    const without = run(['check', '--no-corners', p]);
+    expect(without.stdout).toMatch(/include-not-found/);
+    const r = run(['check', '--no-corners', '--format', 'json', '--search-folder', kit, p]);
+    const doc = JSON.parse(r.stdout);
+    expect(doc.files[0].diagnostics.map((d: { code: string }) => d.code)).toEqual([]);
+    expect(r.code).toBe(0);
+  });
+});

@@ -11,6 +11,8 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   // Files.
   'include-not-found': { severity: 'error', summary: 'An .include or .lib names a file that cannot be read, or that qpoint may not read (outside the allowed folders, not a regular text file, too large, on a network share); the message says which.' },
   'include-not-netlist': { severity: 'error', summary: 'An included file does not read as a netlist (most of its cards unreadable); none of its text is quoted.' },
+  'include-missing-consequences': { severity: 'warning', summary: 'With an include unread, the devices whose models, subcircuits or parameters may come from it, counted in one finding per unread file instead of one error each.' },
+  'findings-capped': { severity: 'warning', summary: 'A code raised more than 50 times in one file: the first 50 are listed and this one finding gives the count (`data.total`, `data.hidden`).' },
   'include-cycle': { severity: 'error', summary: 'Files include each other in a cycle; the chain is named and the repeated file is not read again.' },
   'include-repeated': { severity: 'info', summary: 'A file (or library section) already read is included again; it is not read a second time.' },
   'include-too-deep': { severity: 'error', summary: 'Includes nest deeper than the limit; the deeper files are not read.' },
@@ -30,11 +32,12 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
 
   // Models.
   'model-unknown-type': { severity: 'error', summary: 'A .model type other than NPN, PNP, D, NMOS, PMOS or R.' },
-  'model-unknown-parameter': { severity: 'warning', summary: 'A model parameter the device equations do not know; the parameters they use are listed.' },
+  'model-unknown-parameter': { severity: 'warning', summary: 'A model parameter the device equations do not know (one finding per card when there are more than three); the parameters they use are listed.' },
   'model-parameter-ignored': { severity: 'info', summary: 'Model parameters of the full device model that the DC bias equations here do not use.' },
   'model-parameter-invalid': { severity: 'error', summary: 'A model parameter outside its physical range (IS, BF, KP, NF ≤ 0; negative VAF) or unreadable; the default is used.' },
   'model-duplicate': { severity: 'error', summary: 'Two .model cards with the same name in one scope; the first is used.' },
-  'model-level-unsupported': { severity: 'warning', summary: 'A MOSFET model LEVEL other than 1; it is solved with the level-1 square law.' },
+  'model-level-unsupported': { severity: 'warning', summary: 'A model LEVEL other than 1 (a process kit\'s model); it is solved with the level-1 equations, and its other parameters are listed in one note.' },
+  'model-parameter-alias': { severity: 'info', summary: 'A model parameter written in another spelling of the family (VA for VAF, IK for IKF, ...); it is read as that parameter, with one note per model.' },
   'model-threshold-sign': { severity: 'warning', summary: 'A PMOS model with a positive VTO: a depletion-mode device, on at VGS = 0 V, and usually a dropped minus sign for an enhancement device.' },
   'model-threshold-depletion': { severity: 'info', summary: 'An NMOS model with a negative VTO: a depletion-mode device, on at VGS = 0 V, which bias networks rarely use.' },
   'model-not-found': { severity: 'error', summary: 'An element names a model that no .model card defines.' },

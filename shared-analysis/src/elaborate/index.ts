@@ -3,7 +3,7 @@
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
 import type { Cccs, Ccvs, Circuit, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
-import type { Finding, Span, Workspace } from '../types';
+import type { Finding, RelatedLocation, Span, Workspace } from '../types';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
 import { formatEngineering } from '../fixes/format';
@@ -17,6 +17,8 @@ export interface ElaborateOptions {
   temperatureC?: number;
   /** Most elements flattening may produce before it stops with `circuit-too-large` (default 500 000). */
   maxElements?: number;
+  /** Folders searched, in order, for an included file not found beside the including file. */
+  includeFolders?: readonly string[];
 }
 
 /** What elaboration returns: the flat circuit, every document read, the symbols and the findings. */
@@ -82,8 +84,11 @@ interface Instance {
   instances: Origin['instances'];
   /** Lower-case names of body `.param`s an instance overrides (a convention of process kits). */
   overrides?: Set<string>;
-  /** Model maps to search, innermost first; `null` marks a model whose card is unusable. */
-  modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string }>[];
+  /**
+   * Model maps to search, innermost first; `null` marks a model whose card is unusable. `pending`
+   * holds the findings of a library model, reported when a device first uses it.
+   */
+  modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string; pending?: Finding[] }>[];
 }
 
 /**
@@ -136,7 +141,7 @@ class Elaborator {
   }
 
   run(): ElaborationResult {
-    const read = readSources(this.root, this.workspace, this.sink);
+    const read = readSources(this.root, this.workspace, this.sink, this.options.includeFolders ?? []);
     for (const def of read.allDefs) this.checkPortsUsed(def);
     for (const body of [read.top, ...read.allDefs.map((d) => d.body)]) {
       for (const { card } of body.items) if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
@@ -166,6 +171,7 @@ class Elaborator {
     this.resolveControls();
     this.dropUnusedNodes();
     top.entries(); // evaluates (and reports) parameters nothing refers to
+    if (read.missing.length > 0) this.summariseMissing(read.missing);
 
     const { temperatureC, tnomC } = this.temperatures(allBodies, top);
     const params: Record<string, number> = {};
@@ -240,8 +246,12 @@ class Elaborator {
         ]);
         continue;
       }
-      const model = elaborateModel(card, { uri, scope, sink: this.sink, instances: inst.instances });
-      local.set(key, { model: model ?? null, card, uri });
+      // A model read from another file (a library) reports its problems only once a device uses
+      // it, so a library's unused models raise nothing.
+      const own = uri === this.root.uri;
+      const sink = own ? this.sink : new Sink();
+      const model = elaborateModel(card, { uri, scope, sink, instances: inst.instances });
+      local.set(key, own || sink.findings.length === 0 ? { model: model ?? null, card, uri } : { model: model ?? null, card, uri, pending: sink.findings });
       if (model) {
         const circuitKey = inst.lowerPrefix + key;
         this.models[circuitKey] = model;
@@ -606,6 +616,10 @@ class Elaborator {
     for (const scope of inst.modelScopes) {
       const entry = scope.get(key);
       if (!entry) continue;
+      if (entry.pending) {
+        for (const f of entry.pending) this.sink.add(f.code, f.message, f.uri, f.span, f.related, f.data);
+        delete entry.pending;
+      }
       // An unusable model card has its own finding; the element is left out without a second one.
       if (!entry.model) return undefined;
       if (!kinds.includes(entry.model.kind)) {
@@ -773,6 +787,73 @@ class Elaborator {
     this.flattenBody(child);
   }
 
+  /**
+   * With an include unread, the models, subcircuits and parameters that are not found may well be
+   * defined in it: instead of one error per device, one finding per unread file says how many
+   * devices and which names may come from it (and no default-model fix is offered for them).
+   */
+  private summariseMissing(missing: { uri: string; token: Token; ref: string }[]): void {
+    const kept: Finding[] = [];
+    const devices = new Set<string>();
+    const names = new Set<string>();
+    const related: RelatedLocation[] = [];
+    for (const f of this.sink.findings) {
+      const name = missingName(f);
+      if (name === undefined) {
+        kept.push(f);
+        continue;
+      }
+      names.add(name);
+      const device = this.deviceAt(f);
+      devices.add(device);
+      if (related.length < 20) related.push({ uri: f.uri, span: f.span, message: `\`${name}\` is not defined (${f.code}).` });
+    }
+    if (names.size === 0) return;
+    this.sink.findings.length = 0;
+    this.sink.findings.push(...kept);
+    const files = missing.map((m) => `\`${m.ref}\``);
+    const list = [...names];
+    const shown = list.slice(0, 10).map((n) => `\`${n}\``).join(', ') + (list.length > 10 ? `, and ${list.length - 10} more` : '');
+    for (const m of missing) {
+      const elsewhere = missing.length > 1 ? ` (or from ${files.filter((f) => f !== `\`${m.ref}\``).join(', ')}, which cannot be read either)` : '';
+      this.sink.add(
+        'include-missing-consequences',
+        `${devices.size} device${devices.size === 1 ? '' : 's'} use${devices.size === 1 ? 's' : ''} names that may come from the unread file \`${m.ref}\`${elsewhere}: ${shown}. They are left out until the file can be read.`,
+        m.uri,
+        m.token.span,
+        related,
+        { path: m.ref, devices: devices.size, names: list.slice(0, 100) },
+      );
+    }
+  }
+
+  /** The element or instance card a finding is on (its document and start), found by bisection among the cards read. */
+  private deviceAt(f: Finding): string {
+    if (!this.cardStarts) {
+      this.cardStarts = new Map();
+      for (const item of this.names.values()) {
+        let list = this.cardStarts.get(item.uri);
+        if (!list) this.cardStarts.set(item.uri, (list = []));
+        list.push(item.card.span.start);
+      }
+      for (const list of this.cardStarts.values()) list.sort((a, b) => a - b);
+    }
+    const list = this.cardStarts.get(f.uri) ?? [];
+    let lo = 0;
+    let hi = list.length - 1;
+    let at = -1;
+    while (lo <= hi) {
+      const mid = (lo + hi) >> 1;
+      if (list[mid]! <= f.span.start) {
+        at = mid;
+        lo = mid + 1;
+      } else hi = mid - 1;
+    }
+    return `${f.uri}#${at >= 0 ? list[at] : f.span.start}`;
+  }
+
+  private cardStarts: Map<string, number[]> | undefined;
+
   /** One finding per kind of element the solver does not read yet, naming how many and which are left out. */
   private reportLeftOut(): void {
     for (const [kind, items] of this.leftOut) {
@@ -939,6 +1020,21 @@ class Elaborator {
       return { name: def.card.name.text, uri: def.uri, span: def.card.span, nameSpan: def.card.name.span, ports: def.card.ports.map((p) => p.text), params };
     });
   }
+}
+
+/**
+ * The name a finding says is undefined, when it is a model, subcircuit or parameter that an
+ * unread include may define; undefined for every other finding.
+ */
+function missingName(f: Finding): string | undefined {
+  if (f.code === 'model-not-found') return String(f.data?.['modelName'] ?? '');
+  if (f.code === 'subckt-not-found') return String(f.data?.['subcktName'] ?? '');
+  if (f.code === 'element-value-invalid' || f.code === 'param-invalid' || f.code === 'model-parameter-invalid' || f.code === 'temperature-invalid') {
+    // The expression layer words an unknown name this way (expressions.ts lookup, values.ts tokenValue).
+    const m = /`([^`]+)` (?:is not a parameter in scope|is neither a number nor a parameter in scope)/.exec(f.message);
+    if (m) return m[1];
+  }
+  return undefined;
 }
 
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */

@@ -37,6 +37,19 @@ const KNOWN_UNUSED: Record<Exclude<ModelKind, 'r'>, Set<string>> = {
  */
 export const RATING_PARAMS = new Set(['BV', 'RATEDPOWER']);
 
+ * Other spellings of model parameters that netlists of the family use, read as the parameter they
+ * stand for (common practice, from memory): Gummel–Poon `VA`, `VB`, `IK` and the junction
+ * capacitance names, the diode's `PB`, the MOSFET's `UO`.
+ */
+const ALIASES: Record<'bjt' | 'd' | 'mos', Record<string, string>> = {
+  bjt: { VA: 'VAF', VB: 'VAR', VBF: 'VAF', VBR: 'VAR', IK: 'IKF', IKRR: 'IKR', PE: 'VJE', ME: 'MJE', PC: 'VJC', MC: 'MJC', PS: 'VJS', MS: 'MJS', CCS: 'CJS' },
+  d: { PB: 'VJ', CJ: 'CJO', CJ0: 'CJO', MJ: 'M' },
+  mos: { UO: 'U0' },
+};
+
+/** More unknown parameters than this on one card are reported in one finding that lists them. */
+const UNKNOWN_LISTED_ONE_BY_ONE = 3;
+
 /** Parameters among KNOWN_UNUSED that change the DC operating point, named in the note so nobody is surprised. */
 const DC_RELEVANT = new Set(['RB', 'RE', 'RC', 'IKF', 'IKR', 'ISE', 'ISC', 'VAR', 'BV', 'RD', 'RS']);
 
@@ -104,16 +117,25 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   const ratings: Record<string, number> = {};
   const seen = new Map<string, (typeof card.params)[number]>();
   let vtoAssignment: (typeof card.params)[number] | undefined;
+  const unknown: (typeof card.params)[number][] = [];
+  const aliased: string[] = [];
+  const isMos = kind === 'nmos' || kind === 'pmos';
+  const aliases = ALIASES[isMos ? 'mos' : kind === 'd' ? 'd' : 'bjt'];
+  let levelUnsupported = false;
   for (const a of card.params) {
-    const key = a.name.text.toUpperCase();
-    const isMos = kind === 'nmos' || kind === 'pmos';
-    if (key === 'LEVEL' && isMos) {
+    const written = a.name.text.toUpperCase();
+    const alias = aliases[written];
+    const key = alias !== undefined && !card.params.some((b) => b.name.text.toUpperCase() === alias) ? alias : written;
+    if (alias !== undefined && key === alias) aliased.push(`${written} as ${alias}`);
+    if (key === 'LEVEL') {
       const v = tokenValue(a.value, scope, uri);
       given.push('LEVEL');
       if (!v.ok || v.value !== 1) {
+        levelUnsupported = true;
+        const what = isMos ? 'the level-1 square law' : kind === 'd' ? 'the junction-diode equation' : 'the Gummel–Poon DC equations';
         sink.add(
           'model-level-unsupported',
-          `Only the level-1 square law is solved; ${v.ok ? `LEVEL=${v.value}` : 'this LEVEL'} is treated as level 1, so the currents of \`${card.name.text}\` are first-order estimates.`,
+          `Only ${what} ${isMos ? 'is' : 'are'} solved; ${v.ok ? `LEVEL=${v.value}` : 'this LEVEL'} is treated as level 1, so the currents of \`${card.name.text}\` are first-order estimates.`,
           uri,
           a.span,
         );
@@ -132,15 +154,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
         ignored.push(key);
         continue;
       }
-      const hint = nearest(key, used);
-      sink.add(
-        'model-unknown-parameter',
-        `\`${a.name.text}\` is not a parameter of a ${kind.toUpperCase()} model here${hint ? ` (did you mean ${hint}?)` : ''}; the parameters used are ${used.join(', ')}. It is ignored.`,
-        uri,
-        a.name.span,
-        undefined,
-        { parameter: key, known: used },
-      );
+      unknown.push(a);
       continue;
     }
     const previous = seen.get(key);
@@ -178,6 +192,17 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     if (!given.includes(key)) given.push(key);
   }
   if (vtoAssignment) thresholdSign(card.name.text, kind, params['VTO']!, vtoAssignment.span, ctx);
+  if (aliased.length > 0) {
+    sink.add(
+      'model-parameter-alias',
+      `Model \`${card.name.text}\` writes ${aliased.join(', ')}: ${aliased.length === 1 ? 'that spelling is' : 'those spellings are'} read as the parameter${aliased.length === 1 ? '' : 's'} named.`,
+      uri,
+      card.name.span,
+      undefined,
+      { aliases: aliased },
+    );
+  }
+  reportUnknown(card, kind, unknown, used, levelUnsupported, ctx);
   if (ignored.length > 0) {
     const dc = ignored.filter((k) => DC_RELEVANT.has(k));
     sink.add(
@@ -192,6 +217,42 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     );
   }
   return { name: card.name.text, kind, params, given, origin, ...(Object.keys(ratings).length > 0 ? { ratings } : {}) };
+}
+
+/**
+ * Reports the parameters the device equations do not know: one finding each when there are a
+ * few (with a "did you mean"), else one finding for the card that lists them all. A model of an
+ * unsupported level (a process kit's model) already has its level finding; its unknown
+ * parameters are then listed in one note, never one finding each.
+ */
+function reportUnknown(card: ModelCard, kind: ModelKind, unknown: ModelCard['params'], used: string[], levelUnsupported: boolean, ctx: ModelContext): void {
+  if (unknown.length === 0) return;
+  const { sink, uri } = ctx;
+  if (unknown.length <= UNKNOWN_LISTED_ONE_BY_ONE && !levelUnsupported) {
+    for (const a of unknown) {
+      const key = a.name.text.toUpperCase();
+      const hint = nearest(key, used);
+      sink.add(
+        'model-unknown-parameter',
+        `\`${a.name.text}\` is not a parameter of a ${kind.toUpperCase()} model here${hint ? ` (did you mean ${hint}?)` : ''}; the parameters used are ${used.join(', ')}. It is ignored.`,
+        uri,
+        a.name.span,
+        undefined,
+        { parameter: key, known: used },
+      );
+    }
+    return;
+  }
+  const names = unknown.map((a) => a.name.text.toUpperCase());
+  const shown = names.slice(0, 30).join(', ') + (names.length > 30 ? `, and ${names.length - 30} more` : '');
+  sink.add(
+    levelUnsupported ? 'model-parameter-ignored' : 'model-unknown-parameter',
+    `Model \`${card.name.text}\` gives ${names.length} parameters the DC equations here do not know (${shown}); they are ignored, and the parameters used are ${used.join(', ')}.`,
+    uri,
+    card.name.span,
+    undefined,
+    { parameters: names, known: used },
+  );
 }
 
 /**

@@ -5,6 +5,7 @@ import type { Card, LibCard, ParsedDocument, SubcktCard, Token } from '../syntax
 import type { IncludeSymbol } from '../analysis';
 import type { Workspace } from '../types';
 import type { Sink } from './sink';
+import { findInclude } from './include-search';
 
 /** Deepest chain of nested includes followed. */
 export const MAX_INCLUDE_DEPTH = 64;
@@ -41,6 +42,8 @@ export interface ReadResult {
   includes: IncludeSymbol[];
   /** Every subcircuit definition, in reading order (for symbols). */
   allDefs: SubcktDef[];
+  /** The include cards whose file could not be read, in reading order. */
+  missing: { uri: string; token: Token; ref: string }[];
 }
 
 /**
@@ -48,29 +51,16 @@ export interface ReadResult {
  * relative to the including file. Each file, or library section, is read once; cycles, missing
  * files and missing sections are reported to `sink`.
  */
-export function readSources(root: ParsedDocument, workspace: Workspace, sink: Sink): ReadResult {
+export function readSources(root: ParsedDocument, workspace: Workspace, sink: Sink, folders: readonly string[] = []): ReadResult {
   const documents: Record<string, ParsedDocument> = { [root.uri]: root };
   const includes: IncludeSymbol[] = [];
   const allDefs: SubcktDef[] = [];
+  const missing: ReadResult['missing'] = [];
   const top: Body = { items: [], defs: new Map() };
   /** Where each (file, section) was first read, for the repeated-include note. */
   const readAt = new Map<string, { uri: string; token: Token }>();
   readAt.set(`${root.uri}\u0000`, { uri: root.uri, token: { text: root.uri, span: { start: 0, end: 0 }, kind: 'word' } });
 
-  const loadDocument = (target: string): ParsedDocument | undefined => {
-    const known = documents[target];
-    if (known) return known;
-    let text: string | undefined;
-    try {
-      text = workspace.read(target);
-    } catch {
-      text = undefined;
-    }
-    if (text === undefined) return undefined;
-    const doc = parse(target, text, { hasTitle: false });
-    documents[target] = doc;
-    return doc;
-  };
 
   /** Reads a list of cards of document `uri` into the body on top of `stack`. */
   const readCards = (uri: string, cards: readonly Card[], stack: Body[], chain: string[]): void => {
@@ -145,22 +135,33 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
 
   const readInclude = (fromUri: string, pathToken: Token, section: Token | undefined, stack: Body[], chain: string[]): void => {
     const ref = unquote(pathToken);
-    let target: string;
-    try {
-      target = workspace.resolve(fromUri, ref);
-    } catch {
-      target = ref;
+    const search = findInclude(workspace, fromUri, ref, folders);
+    const target = search.target;
+    let doc = documents[target];
+    if (!doc && search.text !== undefined) {
+      doc = parse(target, search.text, { hasTitle: false });
+      documents[target] = doc;
     }
-    const doc = loadDocument(target);
-    includes.push({ uri: fromUri, span: pathToken.span, target, found: doc !== undefined });
+    const symbol: IncludeSymbol = { uri: fromUri, span: pathToken.span, target, found: doc !== undefined };
+    if (doc && search.how && search.how !== 'as-written') symbol.how = search.how;
+    includes.push(symbol);
     if (!doc) {
-      const why = workspace.whyUnreadable?.(target);
+      let why: string | undefined;
+      try {
+        why = workspace.whyUnreadable?.(target);
+      } catch {
+        why = undefined;
+      }
       const reason = why ? `\`${target}\` ${why}` : `looked for \`${target}\``;
-      sink.add('include-not-found', `The file \`${ref}\` cannot be read (${reason}); nothing from it is included.`, fromUri, pathToken.span, undefined, {
+      const others = search.searched.slice(1);
+      const folderText = others.length > 0 ? `; also looked in ${others.map((f) => `\`${f}\``).join(', ')}` : '';
+      sink.add('include-not-found', `The file \`${ref}\` cannot be read (${reason}${folderText}); nothing from it is included.`, fromUri, pathToken.span, undefined, {
         path: ref,
         target,
+        searched: search.searched,
         ...(why ? { reason: why } : {}),
       });
+      missing.push({ uri: fromUri, token: pathToken, ref });
       return;
     }
     const sectionName = section ? unquote(section) : '';
@@ -206,7 +207,7 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
   };
 
   readCards(root.uri, root.cards, [top], [`${root.uri}\u0000`]);
-  return { top, documents, includes, allDefs };
+  return { top, documents, includes, allDefs, missing };
 }
 
 /** The index of the `.endl` that closes the section started at `start` (or the last card). */

@@ -30,6 +30,19 @@ export interface HoverResult {
 }
 
 /** The hover for `offset` of document `uri` in `analysis`, or undefined when there is nothing to say. */
+/** Which file an `.include` or `.lib` path was read from, and how it was found; or that it could not be read. */
+function includeHover(analysis: Analysis, uri: string, token: { span: { start: number; end: number } }): HoverResult | undefined {
+  const inc = analysis.symbols.includes.find((i) => i.uri === uri && i.span.start === token.span.start && i.span.end === token.span.end);
+  if (!inc) return undefined;
+  const how: Record<string, string> = {
+    'letter-case': ' (found with other letter case)',
+    'search-folder': ' (found in a search folder)',
+    'path-tail': ' (found by the end of its absolute path)',
+  };
+  const markdown = inc.found ? `Reads \`${inc.target}\`${inc.how ? how[inc.how] ?? '' : ''}.` : `Not read: \`${inc.target}\` cannot be read.`;
+  return { markdown, span: token.span };
+}
+
 export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverResult | undefined {
   const doc = analysis.documents[uri];
   if (!doc || !Number.isFinite(offset) || offset < 0 || offset > doc.text.length) return undefined;
@@ -49,6 +62,9 @@ export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverR
   }
 
   switch (card.kind) {
+    case 'include':
+    case 'lib':
+      return includeHover(analysis, uri, token);
     case 'element':
       return elementCardHover(analysis, uri, card, token, scope);
     case 'model':

@@ -334,7 +334,8 @@ describe('models', () => {
     check(`model params\n.model qn npn (BFF=120 VA=50 RB=100 CJE=1p IS=-1e-15 BF=0)\n.model mn nmos (KP=-1 LEVEL=3)\n.model dd d (N=0)\n`, {
       findings: [
         { code: 'model-unknown-parameter', at: 'BFF', message: /IS, BF, BR, NF, NR, VAF, XTI, EG/ },
-        { code: 'model-unknown-parameter', at: { in: 'VA=50', text: 'VA' }, message: /did you mean VAF/ },
+        // VA is the family's other spelling of VAF (common practice, from memory): read as VAF, with one note.
+        { code: 'model-parameter-alias', at: 'qn', message: /VA as VAF/ },
         { code: 'model-parameter-ignored', at: 'qn', message: /RB, CJE.*RB would shift the bias point/ },
         { code: 'model-parameter-invalid', at: '-1e-15', message: /IS=-1e-15.*greater than 0.*default 1e-16/ },
         { code: 'model-parameter-invalid', at: { in: 'BF=0', text: '0' }, message: /BF=0/ },
@@ -345,6 +346,7 @@ describe('models', () => {
       also: (r) => {
         expect(r.circuit.models['qn']!.params['IS']).toBe(1e-16);
         expect(r.circuit.models['qn']!.params['BF']).toBe(100);
+        expect(r.circuit.models['qn']!.params['VAF']).toBe(50);
         expect(r.circuit.models['mn']!.params['KP']).toBe(2e-5);
       },
     });
