@@ -37,6 +37,7 @@ const KNOWN_UNUSED: Record<Exclude<ModelKind, 'r'>, Set<string>> = {
  */
 export const RATING_PARAMS = new Set(['BV', 'RATEDPOWER']);
 
+/**
  * Other spellings of model parameters that netlists of the family use, read as the parameter they
  * stand for (common practice, from memory): Gummel–Poon `VA`, `VB`, `IK` and the junction
  * capacitance names, the diode's `PB`, the MOSFET's `UO`.
