@@ -7,6 +7,7 @@ import { SOLVER_CODES } from './solve/codes';
 import { STRUCTURE_CODES } from './checks/structures';
 import { DEVICE_CODES } from './checks/devices/index';
 import { CORNER_CODES } from './checks/corners';
+import { STARTUP_CODES } from './checks/startup';
 import { TARGET_CODES } from './checks/targets';
 import { FIX_CODES } from './fixes/index';
 
@@ -32,6 +33,7 @@ export function findingCatalogue(): Record<string, CodeInfo> {
     ['solver', SOLVER_CODES],
     ['structures', STRUCTURE_CODES],
     ['devices', DEVICE_CODES],
+    ['structures', STARTUP_CODES],
     ['corners', CORNER_CODES],
     ['targets', TARGET_CODES],
     ['fixes', FIX_CODES],

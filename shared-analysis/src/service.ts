@@ -9,6 +9,7 @@ import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { judgeDevices } from './checks/devices/index';
 import { runCorners, type CornerStats } from './checks/corners';
+import { checkStartup } from './checks/startup';
 import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
@@ -83,6 +84,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       findings.push(...withoutNetlistDuplicates(result.findings, findings));
       findings.push(...timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
       findings.push(...timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
+      if (result.op.converged) findings.push(...timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         findings.push(...timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
       }

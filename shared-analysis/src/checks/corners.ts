@@ -7,6 +7,7 @@ import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { findRails } from '../structures/rails';
+import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { CornerResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 
@@ -173,6 +174,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   // large array) costs more in memory and garbage collection than the measurements themselves.
   const solved: { spec: CornerSpec; converged: boolean }[] = [];
   const measured: (Measurement | undefined)[][] = structures.map(() => []);
+  const voltagesAt: (Record<string, number> | undefined)[][] = structures.map(() => []);
   for (const spec of specs) {
     const sourceValues: Record<string, number> = {};
     for (const name of sources) {
@@ -192,7 +194,10 @@ export function runCorners(ctx: CornerContext): Finding[] {
     iterations += result?.stats.iterations ?? 0;
     const ok = !!result && result.op.converged;
     solved.push({ spec, converged: ok });
-    structures.forEach((s, i) => measured[i].push(ok ? measureStructure(circuit, result!.op, s) : undefined));
+    structures.forEach((s, i) => {
+      measured[i].push(ok ? measureStructure(circuit, result!.op, s) : undefined);
+      voltagesAt[i].push(ok ? structureVoltages(s, result!.op) : undefined);
+    });
   }
 
   const failed = solved.filter((s) => !s.converged).map((s) => s.spec.label);
@@ -216,7 +221,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
     // The whole circuit, not a per-structure view: its topology is built once and cached, so every
     // (structure, corner) measurement is a handful of map look-ups.
     const nominalM = measureStructure(circuit, nominal.op, s);
-    s.corners = solved.map(({ spec }, k) => toCornerResult(spec, measured[index][k], s));
+    s.corners = solved.map(({ spec }, k) => toCornerResult(spec, measured[index][k], s, voltagesAt[index][k]));
+    summariseVoltageCorners(s);
     for (const o of s.outputs) {
       const sweep = sweepOf(o.device, s, nominalM);
       const el = elements.get(o.device);
@@ -230,7 +236,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   return findings;
 }
 
-function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structure): CornerResult {
+function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structure, voltages?: Record<string, number>): CornerResult {
   if (!m) {
     return {
       label: spec.label,
@@ -254,6 +260,7 @@ function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structu
     iout: mapFinite(m.iout),
     headroom: mapFinite(m.headroom),
     outOfRegion: [...m.outOfRegion],
+    ...(voltages ? { voltages } : {}),
   };
 }
 

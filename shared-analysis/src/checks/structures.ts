@@ -12,6 +12,7 @@ import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
+import { voltageAt } from '../structures/voltages';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
@@ -194,10 +195,15 @@ class StructureCheck {
       temperatureC: this.temperatureC,
       outputVolts: this.op ? outputVolts : undefined,
       structures: this.all,
-      irefGiven: s.reference.feed === 'other' ? this.measured?.iref : undefined,
+      irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
     });
     // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
     if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
+    for (const v of s.voltages ?? []) {
+      v.estimate = s.estimate?.voltages?.[v.name];
+      v.tempcoByHandPpmPerC = s.estimate?.voltageTempco?.[v.name];
+      v.solved = this.op ? voltageAt(s, v, this.op.nodes) : undefined;
+    }
     s.compliance = this.compliance();
     s.outputResistance = this.outputResistance();
     s.discrepancy = this.discrepancy();
@@ -288,6 +294,10 @@ class StructureCheck {
       feedOhms: () => this.feedOhms(),
       irefOr: (fallback) => this.measured?.iref || this.s.estimate?.iref || fallback,
       withRole: (role) => this.s.devices.find((d) => this.s.roles?.[d] === role),
+      resistance: (name) => {
+        const el = this.topo.elementByName.get(name);
+        return el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0;
+      },
     };
     for (const o of this.s.outputs) {
       const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;

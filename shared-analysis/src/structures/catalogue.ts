@@ -1,10 +1,13 @@
 // The registry of structure kinds, in the order their recognisers are tried (most specific first), and the lookups shared code uses.
 
 import type { KindModule } from './kind';
+import { bandgapCore } from './kinds/bandgap-core';
+import { betaMultiplier } from './kinds/beta-multiplier';
 import { cascodeMirror } from './kinds/cascode-mirror';
 import { degeneratedMirror } from './kinds/degenerated-mirror';
 import { helperMirror } from './kinds/helper-mirror';
 import { improvedWilsonMirror } from './kinds/improved-wilson-mirror';
+import { ptatCell } from './kinds/ptat-cell';
 import { simpleMirror } from './kinds/simple-mirror';
 import { widlarSource } from './kinds/widlar-source';
 import { wilsonMirror } from './kinds/wilson-mirror';
@@ -16,7 +19,18 @@ import type { Structure, StructureKind } from './types';
  * inside it. `test/unit/structures/catalogue.test.ts` checks the order and that every kind has its
  * module, entry, tests and README row.
  */
-export const KINDS: readonly KindModule[] = [cascodeMirror, improvedWilsonMirror, wilsonMirror, helperMirror, degeneratedMirror, widlarSource, simpleMirror];
+export const KINDS: readonly KindModule[] = [
+  cascodeMirror,
+  improvedWilsonMirror,
+  wilsonMirror,
+  helperMirror,
+  bandgapCore,
+  ptatCell,
+  betaMultiplier,
+  degeneratedMirror,
+  widlarSource,
+  simpleMirror,
+];
 
 const BY_ID = new Map<StructureKind, KindModule>(KINDS.map((k) => [k.id, k]));
 
@@ -35,7 +49,7 @@ export function kindName(id: StructureKind): string {
 /** What an output of the kind is called ("Widlar output"). A degenerated output of a simple mirror is a Widlar output. */
 export function outputKindName(s: Pick<Structure, 'kind' | 'outputs'>, device: string): string {
   const o = s.outputs.find((x) => x.device.toLowerCase() === device.toLowerCase());
-  if (o?.degeneration && s.kind !== 'degenerated-mirror') return widlarSource.outputName;
+  if (o?.degeneration && s.kind === 'simple-mirror') return widlarSource.outputName;
   return BY_ID.get(s.kind)?.outputName ?? 'output';
 }
 

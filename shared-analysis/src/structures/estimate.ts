@@ -48,7 +48,7 @@ class HandAnalysis {
     const complete =
       s.devices.every((d) => h.topo.byName.has(d)) &&
       h.topo.byName.has(s.reference.device) &&
-      s.outputs.length > 0 &&
+      (s.outputs.length > 0 || kind.voltageOnly === true) &&
       s.outputs.every((o) => h.topo.byName.has(o.device)) &&
       (kind.requiredRoles ?? []).every((r) => h.role(r).length > 0) &&
       (kind.complete?.(h) ?? true);
@@ -75,7 +75,12 @@ class HandAnalysis {
     let irefStep: EstimateStep | undefined;
     let resistorFed: { ohms: number; available: number; hi: string } | undefined;
 
-    if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
+    if (kind.ownReference) {
+      irefFrom = 'own-equation';
+      const own = new Chain(h, true);
+      iref = kind.ownReference(h, own);
+      steps.push(...own.steps);
+    } else if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
       irefFrom = 'resistor';
       const ohms = feed.elements.reduce((sum, r) => {
         const el = h.topo.elementByName.get(r);
@@ -109,6 +114,21 @@ class HandAnalysis {
           unit: 'A',
         };
       }
+    } else if (feed.feed === 'mirror-output' && this.loopWithoutEquation()) {
+      // Mirrors feeding each other round with no kind that sets the current: their ratios balance at any current
+      // (or only at zero), so the hand formulas cannot give IREF; say so rather than fall to 0 A.
+      const loop = this.loopWithoutEquation()!;
+      if (this.at.irefGiven !== undefined && Number.isFinite(this.at.irefGiven)) {
+        irefFrom = 'given';
+        iref = Math.abs(this.at.irefGiven);
+      }
+      irefStep = {
+        quantity: 'IREF',
+        formula: `set by the self-biased loop ${loop.join(' → ')}: each mirror's formula only passes the current on, so no hand formula fixes its value (the loop balances wherever the product of its ratios is 1, or only at zero)${irefFrom === 'given' ? '; taken from the operating point' : ''}`,
+        substituted: irefFrom === 'given' ? eng(iref, 'A') : 'not determined by hand',
+        value: iref,
+        unit: 'A',
+      };
     } else if (feed.feed === 'mirror-output') {
       irefFrom = 'mirror-output';
       iref = this.feedingOutput();
@@ -156,6 +176,18 @@ class HandAnalysis {
       steps.push(...st.steps.filter(isVoltage));
     }
     steps.push(...st.steps.filter((x) => !isVoltage(x)));
+    let voltages: Record<string, number> | undefined;
+    let voltageTempco: Record<string, number> | undefined;
+    if (kind.voltages) {
+      const vc = new Chain(h, true);
+      const got = kind.voltages(h, st, vc);
+      voltages = {};
+      for (const [k, v] of Object.entries(got)) {
+        voltages[k] = v.volts;
+        if (v.tempcoPpmPerC !== undefined && Number.isFinite(v.tempcoPpmPerC)) (voltageTempco ??= {})[k] = v.tempcoPpmPerC;
+      }
+      steps.push(...vc.steps);
+    }
     const outputEdge: Record<string, number> = {};
     if (vCommon !== undefined) {
       for (const [k, v] of Object.entries(st.edge)) {
@@ -184,6 +216,8 @@ class HandAnalysis {
       starved,
       supply,
       outputEdge: vCommon !== undefined ? outputEdge : undefined,
+      ...(voltages ? { voltages } : {}),
+      ...(voltageTempco ? { voltageTempco } : {}),
     };
   }
 
@@ -191,6 +225,23 @@ class HandAnalysis {
   private chain(iref: number, record: boolean): ChainState {
     const c = new Chain(this.h, record);
     return { ...this.kind.analyse(this.h, iref, c), steps: c.steps };
+  }
+
+  /** The ids round a loop of feeds back to this structure when no structure on it sets the current by its own equation. */
+  private loopWithoutEquation(): string[] | undefined {
+    if (!this.at.structures) return undefined;
+    const byId = structuresById(this.at.structures);
+    const ids: string[] = [this.s.id];
+    let cur: Structure | undefined = this.s;
+    for (let n = 0; n <= this.at.structures.length && cur; n++) {
+      const next: Structure | undefined = cur.reference.fedBy !== undefined ? byId.get(cur.reference.fedBy) : undefined;
+      if (!next || kindOf(next.kind).ownReference) return undefined;
+      if (next === this.s) return [...ids, this.s.id];
+      if (ids.includes(next.id)) return undefined;
+      ids.push(next.id);
+      cur = next;
+    }
+    return undefined;
   }
 
   private feedingOutput(): number {

@@ -303,6 +303,36 @@ export class Hand {
     return Math.max(sum, 0);
   }
 
+  /**
+   * Current driven into `node` (sitting `vAbove` beyond the common rail, own polarity) by resistors to a
+   * rail and current sources outside the structure and its parts, e.g. a start-up resistor; negative
+   * when they draw current out. `except` names further elements to leave out (e.g. another structure's devices).
+   */
+  injection(node: number, vAbove: number, except: Set<string> = new Set()): { amps: number; elements: string[] } {
+    const vc = this.commonVolts();
+    if (vc === undefined) return { amps: 0, elements: [] };
+    const vNode = vc + this.sign * vAbove;
+    const skip = new Set([...this.s.devices, ...Object.keys(this.s.parts ?? {}), ...except]);
+    let sum = 0;
+    const elements: string[] = [];
+    for (const a of this.topo.conducting(node)) {
+      const el = a.element;
+      if (skip.has(el.name)) continue;
+      if (el.kind === 'R' && el.resistance > 0) {
+        const other = el.nodes[0] === node ? el.nodes[1] : el.nodes[0];
+        const vo = this.railVolts.get(other);
+        if (vo === undefined) continue;
+        sum += (this.sign * (vo - vNode)) / el.resistance;
+        elements.push(el.name);
+      } else if (el.kind === 'I') {
+        const dc = this.at.sourceValues?.[el.name] ?? el.dc;
+        sum += this.sign * (el.nodes[1] === node ? dc : -dc);
+        elements.push(el.name);
+      }
+    }
+    return { amps: sum, elements };
+  }
+
   /** ", at VSB = …" for a MOS step when the body effect applies. */
   bulkText(vsb: number): string {
     return Math.abs(vsb) > 1e-12 ? ` at VSB = ${eng(vsb, 'V')}` : '';

@@ -25,6 +25,8 @@ export interface ResistanceContext {
   irefOr(fallback: number): number;
   /** The structure's device with a role, if any. */
   withRole(role: StructureRole): string | undefined;
+  /** A resistor's value by name (0 when there is no such resistor). */
+  resistance(name: string): number;
 }
 
 /** What a kind's ratio hook may ask. */
@@ -78,8 +80,21 @@ export interface KindModule {
   commonNode?(h: Hand): number | undefined;
   /** False when an edited or foreign structure lacks what the analysis needs (besides devices and roles). */
   complete?(h: Hand): boolean;
+  /**
+   * Self-biased kinds: IREF from the structure's own loop equation (never from its feed, and never 0 A
+   * without a step that says why), with its steps through `c`.
+   */
+  ownReference?(h: Hand, c: Chain): number;
   /** The structure at one IREF: reference-chain voltage, output currents, output edges; steps through `c`. */
   analyse(h: Hand, iref: number, c: Chain): ChainResult;
+  /**
+   * Voltages the structure produces, by hand, at the state `analyse` returned (name -> volts, in the
+   * convention of `DerivedVoltage`, and the temperature coefficient by hand when the kind derives one);
+   * steps through `c`.
+   */
+  voltages?(h: Hand, state: ChainResult, c: Chain): Record<string, { volts: number; tempcoPpmPerC?: number }>;
+  /** The structure has no current outputs of its own (a voltage-producing kind such as the VBE multiplier). */
+  readonly voltageOnly?: boolean;
   /** The reference-chain voltage at one IREF without steps, when the kind has a faster form than `analyse`. */
   stackAt?(h: Hand, iref: number): number | undefined;
   /** The reference-chain term of the resistor-fed IREF formula, e.g. "2 stacked VBE". */

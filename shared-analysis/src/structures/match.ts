@@ -15,6 +15,12 @@ export interface Draft {
   outputs: StructureOutput[];
   /** Degenerated mirror: the reference's emitter resistor. */
   refDegeneration?: { resistor: string; ohms: number };
+  /** Resistors, diodes and sources of the structure beyond its feed, with what each does (left out of the feed). */
+  parts?: Record<string, string>;
+  /** Kind-specific numbers read from the topology and models (e.g. a ΔVBE cell's area ratio). */
+  params?: Record<string, number>;
+  /** Voltages the structure produces (their values are filled by the analysis). */
+  voltages?: { name: string; description: string; node: string; from?: string }[];
 }
 
 /**

@@ -53,6 +53,9 @@ function toStructure(m: Matcher, d: Draft): Structure {
     roles,
     reference: { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [], ...(d.refDegeneration ? { degeneration: d.refDegeneration } : {}) },
     outputs: d.outputs,
+    ...(d.parts ? { parts: d.parts } : {}),
+    ...(d.params ? { params: d.params } : {}),
+    ...(d.voltages ? { voltages: d.voltages.map((v) => ({ ...v })) } : {}),
     instance: instancePrefix(devices),
     headroom: {},
     compliance: {},
@@ -68,7 +71,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
  */
 function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
   const base: ReferenceBranch = { ...s.reference, feed: 'other', elements: [] };
-  const members = new Set(s.devices);
+  const members = new Set([...s.devices, ...Object.keys(s.parts ?? {})]);
   const feeds = m.topo
     .conducting(d.refNode)
     .filter((a) => !members.has(a.element.name))

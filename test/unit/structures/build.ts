@@ -102,6 +102,12 @@ export class CircuitBuilder {
     return this;
   }
 
+  /** A diode from anode `a` to cathode `k`. */
+  d(name: string, a: string, k: string, model: string, o: { area?: number; m?: number } = {}): this {
+    this.elements.push({ kind: 'D', name, nodes: [this.node(a), this.node(k)], model: this.getModel(model), area: o.area ?? 1, m: o.m ?? 1, origin: this.origin(name) });
+    return this;
+  }
+
   mos(name: string, d: string, g: string, s: string, bulk: string, model: string, o: DeviceOptions = {}): this {
     this.elements.push({
       kind: 'M',

@@ -15,13 +15,18 @@ const SHARED = ['common.ts'];
 describe('structure catalogue', () => {
   it('tries the kinds most specific first', () => {
     // A stacked mirror contains a simple mirror's lower pair; the improved Wilson contains the Wilson's
-    // devices plus one; a degenerated mirror's outputs look like Widlar outputs of a reference on X1; a
-    // Widlar source is a simple mirror whose every output is degenerated.
+    // devices plus one; a bandgap core is a ΔVBE cell with an output branch; the ΔVBE cell and the
+    // beta multiplier are Widlar pairs whose output returns to their reference; a degenerated mirror's
+    // outputs look like Widlar outputs of a reference on X1; a Widlar source is a simple mirror whose
+    // every output is degenerated.
     expect(KINDS.map((k) => k.id)).toEqual([
       'cascode-mirror',
       'improved-wilson-mirror',
       'wilson-mirror',
       'helper-mirror',
+      'bandgap-core',
+      'ptat-cell',
+      'beta-multiplier',
       'degenerated-mirror',
       'widlar-source',
       'simple-mirror',

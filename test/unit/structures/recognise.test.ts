@@ -51,7 +51,7 @@ const KINDS: { kind: StructureKind; devices: string[]; ref: string; refNode: str
   { kind: 'cascode-mirror', devices: ['Q1', 'Q2', 'Q3', 'Q4'], ref: 'Q3', refNode: 'a' },
   { kind: 'degenerated-mirror', devices: ['Q1', 'Q2'], ref: 'Q1', refNode: 'a' },
 ];
-const OUTPUT: Record<StructureKind, string> = {
+const OUTPUT: Partial<Record<StructureKind, string>> = {
   'simple-mirror': 'Q2',
   'widlar-source': 'Q2',
   'helper-mirror': 'Q2',

@@ -1,0 +1,284 @@
+// Start-up of self-biased loops: whether the zero-current state also satisfies the circuit, at nominal conditions and at the corners.
+
+import type { ResolvedOptions } from '../analysis';
+import type { Circuit, Element } from '../circuit';
+import { DcSolver } from '../solve/dc';
+import type { OperatingPoint } from '../solve/types';
+import { kindName, kindOf } from '../structures/catalogue';
+import { eng } from '../structures/format';
+import { isAtTemperature, thermalVolts } from '../structures/formulas';
+import { feedLoops } from '../structures/loops';
+import { polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
+import type { StartupResult, Structure } from '../structures/types';
+import type { Finding, RelatedLocation, Severity } from '../types';
+import { cornerSpecs, supplySources } from './corners';
+
+/** Finding codes this module owns, with their default severity and a one-line summary for the README. */
+export const STARTUP_CODES: Record<string, { severity: Severity; summary: string }> = {
+  'bias-loop-can-stay-off': {
+    severity: 'warning',
+    summary:
+      'A self-biased loop (structures that feed each other round, such as a ΔVBE cell or a beta-multiplier reference with its closing mirror) also balances at zero current: with the loop off nothing drives it on, so at power-up it can stay dead. Says at which conditions, what the solver settled on, and the usual remedies (a start-up resistor or a start-up device).',
+  },
+};
+
+/** Everything `checkStartup` reads. */
+export interface StartupContext {
+  circuit: Circuit;
+  structures: Structure[];
+  /** The nominal operating point (the state the solver chose). */
+  op: OperatingPoint;
+  options: ResolvedOptions;
+}
+
+/** Loops beyond this many are checked together in one solve with every loop off (a netlist of many instances of one cell). */
+const MAX_SEPARATE_LOOPS = 16;
+/** Below this reference current (A) the solved state counts as the loop at rest, not a conducting state. */
+const SETTLED_ON = 1e-9;
+/** A junction counts as off while it carries less than this fraction of the loop's solved current. */
+const OFF_FRACTION = 1e-6;
+
+/**
+ * Finds every self-biased loop (structures whose reference nodes are driven round by each other's
+ * outputs, `feedLoops`), and asks whether the zero-current state satisfies the circuit: the loop's
+ * devices are taken out (they carry no current), the rest of the circuit is solved, and the loop's
+ * nodes are checked for voltages that keep every loop junction off — a system of difference
+ * constraints between node voltages, feasible exactly when no cycle of bounds is negative
+ * (Bellman–Ford; Cormen, Leiserson, Rivest and Stein, "Introduction to Algorithms", ch. 24).
+ * Nodes only the loop's devices touch are free; nodes the rest of the circuit fixes are not. A start-up
+ * resistor or device drives a loop node with the loop off and makes the zero state impossible.
+ * Repeated at the supply and temperature corners. Fills `structure.startup` on every loop member
+ * and returns one warning per loop that can rest at zero current.
+ */
+export function checkStartup(ctx: StartupContext): Finding[] {
+  const { circuit, structures, op } = ctx;
+  if (!op.converged || structures.length === 0) return [];
+  const topo = topologyOf(circuit);
+  const loops = feedLoops(topo, structures);
+  if (loops.length === 0) return [];
+  const findings: Finding[] = [];
+  const conditions = startupConditions(circuit, ctx.options, op.temperatureC);
+  const batched = loops.length > MAX_SEPARATE_LOOPS;
+  const allOff = batched ? offSolver(circuit, new Set(loops.flat().flatMap((s) => s.devices))) : undefined;
+  for (const loop of loops) {
+    const devices = new Set(loop.flatMap((s) => s.devices));
+    const solver = allOff ?? offSolver(circuit, devices);
+    const current = referenceCurrent(mainOf(loop), op);
+    const zeroAt: string[] = [];
+    let nominal: Verdict | undefined;
+    for (const cond of conditions) {
+      let offOp: OperatingPoint | undefined;
+      try {
+        const r = solver.solve({ temperatureC: cond.temperatureC, sourceValues: cond.sourceValues });
+        offOp = r.op.converged ? r.op : undefined;
+      } catch {
+        offOp = undefined;
+      }
+      if (!offOp) continue;
+      const v = zeroStateVerdict(topo, devices, offOp, current, cond.temperatureC, circuit);
+      if (cond.label === '') nominal = v;
+      else if (v.feasible) zeroAt.push(cond.label);
+    }
+    const result: StartupResult = {
+      loopDevices: [...devices],
+      loopStructures: loop.map((s) => s.id),
+      zeroStateNominal: nominal?.feasible ?? false,
+      zeroStateCorners: zeroAt,
+      ...(nominal && !nominal.feasible && nominal.path ? { startupPath: nominal.path } : {}),
+      solvedCurrent: current,
+    };
+    for (const s of loop) s.startup = result;
+    if (result.zeroStateNominal || zeroAt.length > 0) findings.push(loopFinding(topo, loop, result));
+  }
+  return findings;
+}
+
+/** One condition the zero state is checked at: nominal (label '') and the supply/temperature corners. */
+interface Condition {
+  label: string;
+  temperatureC: number;
+  sourceValues?: Record<string, number>;
+}
+
+function startupConditions(circuit: Circuit, options: ResolvedOptions, nominalC: number): Condition[] {
+  const out: Condition[] = [{ label: '', temperatureC: nominalC }];
+  const sources = supplySources(circuit);
+  const dcOf = new Map<string, number>();
+  for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
+  // Beta does not move the zero state (no device conducts); supply and temperature do (a start-up device's threshold).
+  for (const spec of cornerSpecs(options, nominalC, sources, { bipolar: false })) {
+    if (spec.singleSource !== undefined) continue;
+    const sourceValues: Record<string, number> = {};
+    if (spec.supplyScale !== 1) for (const n of sources) sourceValues[n] = (dcOf.get(n) ?? 0) * spec.supplyScale;
+    out.push({ label: spec.label, temperatureC: spec.temperatureC, sourceValues });
+  }
+  return out;
+}
+
+/** A solver for the circuit with the given devices taken out (they carry no current in the zero state). */
+function offSolver(circuit: Circuit, devices: Set<string>): DcSolver {
+  const elements = circuit.elements.filter((e) => !devices.has(e.name));
+  return new DcSolver({ ...circuit, elements });
+}
+
+/** The structure that sets a loop's current (a kind with its own loop equation), else the loop's first. */
+function mainOf(loop: Structure[]): Structure {
+  return loop.find((s) => kindOf(s.kind).ownReference) ?? loop[0];
+}
+
+/** The collector (drain) current of a structure's reference device at the operating point. */
+function referenceCurrent(s: Structure, op: OperatingPoint): number {
+  const rec = op.devices[s.reference.device];
+  const i = rec?.type === 'bjt' ? Math.abs(rec.ic) : rec?.type === 'mosfet' ? Math.abs(rec.id) : 0;
+  return Number.isFinite(i) ? i : 0;
+}
+
+interface Verdict {
+  feasible: boolean;
+  path?: StartupResult['startupPath'];
+}
+
+/** One bound x[to] − x[from] ≤ w between node voltages (node −1 is the fixed reference, 0 V). */
+interface Bound {
+  from: number;
+  to: number;
+  w: number;
+}
+
+/**
+ * Whether the loop's devices can all be off with the rest of the circuit at `offOp`: every junction
+ * (base–emitter and base–collector; gate–source and gate–drain) at most at its off voltage, in its
+ * own polarity. BJT: the voltage at which the junction carries OFF_FRACTION of the loop's current
+ * (never above 0.4 V); MOS: the threshold (no current below it in the square law).
+ */
+function zeroStateVerdict(topo: Topology, devices: Set<string>, offOp: OperatingPoint, loopI: number, temperatureC: number, circuit: Circuit): Verdict {
+  const loopT = [...devices].map((d) => topo.byName.get(d)).filter((t): t is Transistor => !!t);
+  const nodes = new Set<number>();
+  for (const t of loopT) nodes.add(t.out).add(t.ctrl).add(t.common);
+  const fixed = fixedNodes(topo, devices, offOp, nodes);
+  const bounds: Bound[] = [];
+  for (const t of loopT) {
+    const sign = polaritySign(t.tech);
+    const w = offVoltage(t, loopI, temperatureC, circuit);
+    // sign·(V(ctrl) − V(x)) ≤ w for x the common and the output terminal.
+    for (const x of [t.common, t.out]) {
+      if (x === t.ctrl) continue;
+      if (sign > 0) bounds.push({ from: x, to: t.ctrl, w });
+      else bounds.push({ from: t.ctrl, to: x, w });
+    }
+  }
+  const feasible = feasibleBounds(bounds, fixed);
+  if (feasible) return { feasible };
+  // Which fixed loop node makes it impossible: free it and see (rails are not a start-up path).
+  const rails = new Set<number>([0]);
+  for (const e of circuit.elements) if (e.kind === 'V') for (const n of e.nodes) if (fixed.has(n)) rails.add(n);
+  for (const n of [...fixed.keys()].filter((k) => nodes.has(k) && !rails.has(k))) {
+    const without = new Map(fixed);
+    without.delete(n);
+    if (!feasibleBounds(bounds, without)) continue;
+    const drivers = topo
+      .conducting(n)
+      .filter((a) => !devices.has(a.element.name))
+      .map((a) => a.element.name);
+    const turnsOn = loopT.find((t) => t.ctrl === n || t.common === n)?.name ?? '';
+    return { feasible, path: { node: topo.nodeName(n), volts: fixed.get(n)!, elements: drivers, turnsOn } };
+  }
+  return { feasible };
+}
+
+/** Loop nodes the rest of the circuit fixes, with their voltages (free: tied by the solver or touched only by loop devices). */
+function fixedNodes(topo: Topology, devices: Set<string>, offOp: OperatingPoint, loopNodes: Set<number>): Map<number, number> {
+  const tied = new Set(offOp.tiedNodes ?? []);
+  const fixed = new Map<number, number>();
+  for (const n of loopNodes) {
+    const name = topo.nodeName(n);
+    if (n !== 0 && tied.has(name)) continue;
+    const others = topo.conducting(n).filter((a) => !devices.has(a.element.name));
+    if (n !== 0 && others.length === 0) continue;
+    const v = offOp.nodes[name];
+    if (v !== undefined && Number.isFinite(v)) fixed.set(n, v);
+  }
+  return fixed;
+}
+
+/** The junction voltage (own polarity) below which a loop device counts as off. */
+function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit: Circuit): number {
+  const p = t.element.model.params;
+  if (t.element.kind === 'M') return Math.max(polaritySign(t.tech) * (p.VTO ?? 0), 0) + 1e-3;
+  const is = isAtTemperature(p.IS > 0 ? p.IS : 1e-16, temperatureC, circuit.tnomC, p.XTI ?? 3, p.EG ?? 1.11) * t.scale;
+  const nVt = (p.NF > 0 ? p.NF : 1) * thermalVolts(temperatureC);
+  const target = Math.max(loopI, 1e-9) * OFF_FRACTION;
+  return Math.min(Math.max(nVt * Math.log(target / is + 1), 1e-3), 0.4);
+}
+
+/**
+ * Feasibility of x[to] − x[from] ≤ w with the fixed nodes pinned to their voltages, by Bellman–Ford
+ * from a virtual source: infeasible exactly when the constraint graph has a negative cycle.
+ */
+function feasibleBounds(bounds: Bound[], fixed: Map<number, number>): boolean {
+  const REF = -1;
+  const all: Bound[] = [...bounds];
+  // Node 0 is ground: pinned at 0 V like any fixed node.
+  const pins = new Map(fixed);
+  pins.set(0, 0);
+  for (const [n, v] of pins) {
+    all.push({ from: REF, to: n, w: v + 1e-9 });
+    all.push({ from: n, to: REF, w: -v + 1e-9 });
+  }
+  const vars = new Set<number>([REF]);
+  for (const b of all) vars.add(b.from).add(b.to);
+  const dist = new Map<number, number>();
+  for (const v of vars) dist.set(v, 0);
+  const n = vars.size;
+  for (let k = 0; k < n; k++) {
+    let changed = false;
+    for (const b of all) {
+      const d = dist.get(b.from)! + b.w;
+      if (d < dist.get(b.to)! - 1e-12) {
+        dist.set(b.to, d);
+        changed = true;
+      }
+    }
+    if (!changed) return true;
+  }
+  return false;
+}
+
+function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Finding {
+  const main = mainOf(loop);
+  const at = topo.elementByName.get(main.reference.device) as Element;
+  const names = loop.map((s) => `the ${kindName(s.kind)} on ${s.reference.device}`).join(' and ');
+  const when = r.zeroStateNominal
+    ? `at nominal supply and temperature${r.zeroStateCorners.length ? ` (and at ${r.zeroStateCorners.length} of the corners)` : ''}`
+    : `at ${r.zeroStateCorners.join('; ')} (not at nominal)`;
+  const i = r.solvedCurrent ?? 0;
+  const solved =
+    i >= SETTLED_ON
+      ? ` The operating point shown is the conducting state the solver settled on (${eng(i, 'A')} in ${main.reference.device}); the circuit can equally rest with every loop device off.`
+      : ` The solver itself settled at almost no current (${eng(i, 'A')} in ${main.reference.device}).`;
+  const message =
+    `The self-biased loop of ${names} can rest at zero current ${when}: with its devices off, nothing in the rest of the circuit drives any of them on, so at power-up it can stay dead.` +
+    solved +
+    ` Usual remedies: a start-up resistor from the supply into the loop's reference node (large enough not to disturb the bias), or a start-up device that injects current while the loop is off and turns itself off once it conducts.`;
+  const related: RelatedLocation[] = [];
+  for (const d of r.loopDevices) {
+    if (d === at.name) continue;
+    const el = topo.elementByName.get(d);
+    if (el) related.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: part of the self-biased loop` });
+  }
+  return {
+    code: 'bias-loop-can-stay-off',
+    severity: STARTUP_CODES['bias-loop-can-stay-off'].severity,
+    message,
+    uri: at.origin.uri,
+    span: at.origin.span,
+    related,
+    data: {
+      structures: r.loopStructures,
+      devices: r.loopDevices,
+      zeroStateNominal: r.zeroStateNominal,
+      zeroStateCorners: r.zeroStateCorners,
+      solvedCurrentA: r.solvedCurrent ?? 0,
+    },
+  };
+}
