@@ -105,6 +105,14 @@ export interface CompiledExpression {
   references: { name: string; span: Span }[];
   /** A problem reported only after the names are resolved, so an unknown name is named first (`5 cm`). */
   deferred?: ExpressionError;
+  /** Calls of functions that are not built in: `.func` functions, checked when the expression is evaluated in a scope. */
+  calls?: { name: string; text: string; span: Span; argc: number }[];
+}
+
+/** A `.func` function as an expression sees it: its argument names and how to call it. */
+export interface UserFunction {
+  args: readonly string[];
+  call(values: number[], span: Span): EvalResult;
 }
 
 type Tok =
@@ -142,6 +150,7 @@ export function compileExpression(source: string, offset: number): { ok: true; e
       spans: e.spans,
       references: e.references.map((r) => ({ name: r.name, span: shift(r.span) })),
       deferred: e.deferred ? { ...e.deferred, span: shift(e.deferred.span) } : undefined,
+      calls: e.calls?.map((c) => ({ ...c, span: shift(c.span) })),
     },
   };
 }
@@ -368,6 +377,7 @@ function compileAt(source: string, offset: number): { ok: true; expr: CompiledEx
   const closes = toks.filter((t) => t.t === ')').map((t) => t.start);
   const spans = new Map<MathNode, Span>();
   const references: { name: string; span: Span }[] = [];
+  const calls: NonNullable<CompiledExpression['calls']> = [];
   const whole = at(0, source.length);
   let leafIndex = 0;
   let problem: ExpressionError | undefined;
@@ -448,6 +458,17 @@ function compileAt(source: string, offset: number): { ok: true; expr: CompiledEx
         const fname = fnNode.type === 'SymbolNode' ? String(fnNode.name) : '';
         const spec = FUNCTIONS[fname.toLowerCase()];
         const nameSpan = nameRange ? at(nameRange.start, nameRange.end) : whole;
+        if (!spec && /^[A-Za-z_][A-Za-z0-9_]*$/.test(fname)) {
+          // Not built in: perhaps a `.func` function, which only a scope knows; checked when evaluated.
+          calls.push({ name: fname.toLowerCase(), text: fname, span: nameSpan, argc: (n.args as MathNode[]).length });
+          range = nameRange;
+          for (const a of n.args as MathNode[]) merge(visit(a, level + 1));
+          if (nameRange) {
+            const close = closers.get(nameRange.end);
+            if (close !== undefined) merge({ start: nameRange.start, end: close + 1 });
+          }
+          break;
+        }
         if (!spec) {
           problem = {
             message: fname
@@ -481,7 +502,7 @@ function compileAt(source: string, offset: number): { ok: true; expr: CompiledEx
   };
   visit(root, 0);
   if (problem) return { ok: false, error: problem };
-  return { ok: true, expr: { source, offset, root, spans, references, deferred } };
+  return { ok: true, expr: { source, offset, root, spans, references, deferred, ...(calls.length > 0 ? { calls } : {}) } };
 }
 
 /**
@@ -489,7 +510,20 @@ function compileAt(source: string, offset: number): { ok: true; expr: CompiledEx
  * span of the reference) to a value or an error; it is called for every reference first, so
  * an unknown name in an untaken `?:` branch is still reported.
  */
-export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string, span: Span) => EvalResult): EvalResult {
+export function evaluateCompiled(
+  expr: CompiledExpression,
+  lookup: (name: string, span: Span) => EvalResult,
+  functions?: (name: string) => UserFunction | undefined,
+): EvalResult {
+  for (const c of expr.calls ?? []) {
+    const f = functions?.(c.name);
+    if (!f) {
+      return { ok: false, error: { message: `\`${c.text}\` is not a known function; the functions allowed are ${ALLOWED_FUNCTIONS.join(', ')} and the .func functions in scope.`, span: c.span } };
+    }
+    if (f.args.length !== c.argc) {
+      return { ok: false, error: { message: `\`${c.text}\` takes ${f.args.length} argument${f.args.length === 1 ? '' : 's'} but is given ${c.argc}.`, span: c.span } };
+    }
+  }
   const values = new Map<string, number>();
   for (const ref of expr.references) {
     if (values.has(ref.name)) continue;
@@ -570,7 +604,14 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
       }
       case 'FunctionNode': {
         const fnNode = n.fn as { name: string };
-        const spec = FUNCTIONS[fnNode.name.toLowerCase()]!;
+        const spec = FUNCTIONS[fnNode.name.toLowerCase()];
+        if (!spec) {
+          const user = functions?.(fnNode.name.toLowerCase());
+          if (!user) throw new Failure({ message: `\`${fnNode.name}\` is not a known function.`, span: spanOf(node) });
+          const r = user.call((n.args as MathNode[]).map(ev), spanOf(node));
+          if (!r.ok) throw new Failure(r.error);
+          return finite(r.value, node, `\`${text(node)}\``);
+        }
         const args = (n.args as MathNode[]).map(ev);
         const v = spec.fn(...args);
         const shown = args.map((x) => formatPlain(x)).join(', ');
@@ -594,6 +635,16 @@ export function evaluateCompiled(expr: CompiledExpression, lookup: (name: string
 /** Thrown inside the evaluator to unwind with a located error; never escapes `evaluateCompiled`. */
 class Failure {
   constructor(readonly error: ExpressionError) {}
+}
+
+/** A `.func name(args) = expr` definition: argument names lower case, the body's source and offset, located in a document. */
+export interface FunctionDefinition {
+  name: string;
+  args: string[];
+  source: string;
+  offset: number;
+  uri: string;
+  nameSpan: Span;
 }
 
 /** A `.param`-style definition: a name and its right-hand side, located in a document. */
@@ -623,6 +674,8 @@ export interface ScopeReport {
 export class EvaluationContext {
   /** Definitions being evaluated, innermost last, for cycle detection. */
   readonly stack: { scope: ParamScope; key: string; def: ParamDefinition }[] = [];
+  /** `.func` functions being called, innermost last: a function may not call itself. */
+  readonly calling: FunctionDefinition[] = [];
 
   constructor(readonly report: (r: ScopeReport) => void) {}
 
@@ -644,6 +697,7 @@ type Slot =
  */
 export class ParamScope {
   private readonly slots = new Map<string, Slot>();
+  private readonly functions = new Map<string, FunctionDefinition>();
 
   constructor(
     readonly context: EvaluationContext,
@@ -661,6 +715,61 @@ export class ParamScope {
   /** Sets an already evaluated value (an instance override), replacing any definition of that name. */
   setValue(name: string, result: EvalResult, def?: ParamDefinition): void {
     this.slots.set(name.toLowerCase(), { state: 'done', def, result });
+  }
+
+  /** Adds a `.func` function; returns the earlier one of the same name in this scope, if any (the new one wins). */
+  defineFunction(def: FunctionDefinition): FunctionDefinition | undefined {
+    const key = def.name.toLowerCase();
+    const prev = this.functions.get(key);
+    this.functions.set(key, def);
+    return prev;
+  }
+
+  /** The `.func` function `name` (lower case) as seen from this scope, callable from an expression. */
+  userFunction(name: string): UserFunction | undefined {
+    for (let s: ParamScope | undefined = this; s; s = s.options.parent) {
+      const def = s.functions.get(name);
+      if (def) {
+        const owner = s;
+        return { args: def.args, call: (values, span) => owner.callFunction(def, values, span) };
+      }
+    }
+    return undefined;
+  }
+
+  /**
+   * Calls a `.func` function defined in this scope: its arguments bound to `values`, other names
+   * looked up here. Recursion (direct or through other functions) is refused with a located error.
+   */
+  private callFunction(def: FunctionDefinition, values: number[], span: Span): EvalResult {
+    const ctx = this.context;
+    const related = [{ uri: def.uri, span: def.nameSpan, message: `\`${def.name}\` is defined here.` }];
+    if (ctx.calling.includes(def)) {
+      const chain = [...ctx.calling.slice(ctx.calling.indexOf(def)).map((d) => d.name), def.name];
+      return { ok: false, error: { message: `Function \`${def.name}\` calls itself (${chain.join(' → ')}); a .func function cannot be recursive.`, span, related } };
+    }
+    if (ctx.calling.length >= MAX_PARAMETER_CHAIN) {
+      return { ok: false, error: { message: `Functions call functions more than ${MAX_PARAMETER_CHAIN} levels deep.`, span, related } };
+    }
+    const c = ctx.compile(def.uri, def.source, def.offset);
+    if (!c.ok) return { ok: false, error: { message: `Function \`${def.name}\` cannot be evaluated: ${lowerFirst(c.error.message)}`, span, related } };
+    ctx.calling.push(def);
+    let r: EvalResult;
+    try {
+      r = evaluateCompiled(
+        c.expr,
+        (name, at) => {
+          const k = def.args.indexOf(name);
+          return k >= 0 ? { ok: true, value: values[k]! } : this.lookup(name, at);
+        },
+        (name) => this.userFunction(name),
+      );
+    } finally {
+      ctx.calling.pop();
+    }
+    if (r.ok) return r;
+    if (r.error.message.startsWith('Function `')) return { ok: false, error: { ...r.error, span } };
+    return { ok: false, error: { message: `Function \`${def.name}\` cannot be evaluated here: ${lowerFirst(r.error.message)}`, span, related } };
   }
 
   /** True when this scope itself (not an outer one) defines `name`. */
@@ -714,7 +823,7 @@ export class ParamScope {
   evaluate(uri: string, source: string, offset: number): EvalResult {
     const c = this.context.compile(uri, source, offset);
     if (!c.ok) return c;
-    return evaluateCompiled(c.expr, (name, span) => this.lookup(name, span));
+    return evaluateCompiled(c.expr, (name, span) => this.lookup(name, span), (name) => this.userFunction(name));
   }
 
   private resolveOwn(key: string, refSpan: Span): EvalResult {

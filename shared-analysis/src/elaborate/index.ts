@@ -147,6 +147,8 @@ class Elaborator {
       for (const { card } of body.items) if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
     }
     const top = new ParamScope(this.context, { label: 'top level' });
+    this.topBodies = [read.top];
+    this.topScope = top;
     const allBodies = [read.top, ...read.allDefs.map((d) => d.body)];
     for (const body of allBodies) {
       for (const { card, uri } of body.items) {
@@ -275,6 +277,13 @@ class Elaborator {
   private activeItems(inst: Instance): Located[] {
     const { body, scope } = inst;
     const defineAll = (card: Located['card'], uri: string): void => {
+      if (card.kind === 'func') {
+        if (card.body) {
+          const { source, offset } = expressionOf(card.body);
+          scope.defineFunction({ name: card.name.text, args: card.args.map((a) => a.text.toLowerCase()), source, offset, uri, nameSpan: card.name.span });
+        }
+        return;
+      }
       if (card.kind !== 'param') return;
       for (const a of card.params) {
         if (inst.overrides?.has(a.name.text.toLowerCase())) continue;
@@ -592,8 +601,10 @@ class Elaborator {
 
   private geometry(a: Assignment | undefined, inst: Instance, uri: string, card: ElementCard, which: 'W' | 'L'): number {
     if (!a) return DEFAULT_MOS_SIZE;
-    const v = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``, '10 µm is used so the analysis continues.');
-    if (v === undefined) return DEFAULT_MOS_SIZE;
+    const written = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``, '10 µm is used so the analysis continues.');
+    if (written === undefined) return DEFAULT_MOS_SIZE;
+    // `.option scale=` multiplies the sizes written on element cards (a process kit's drawn units).
+    const v = written * this.scale();
     if (v <= 0) {
       this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
       return DEFAULT_MOS_SIZE;
@@ -853,6 +864,28 @@ class Elaborator {
   }
 
   private cardStarts: Map<string, number[]> | undefined;
+  private topBodies: Body[] = [];
+  private topScope: ParamScope | undefined;
+  private scaleFactor: number | undefined;
+
+  /** The `.option scale=` factor for element sizes (1 without one), read once from the top level. */
+  private scale(): number {
+    if (this.scaleFactor !== undefined) return this.scaleFactor;
+    this.scaleFactor = 1;
+    for (const body of this.topBodies) {
+      for (const { card, uri } of body.items) {
+        if (card.kind !== 'option' || !this.topScope) continue;
+        for (const a of card.params) {
+          if (a.name.text.toLowerCase() !== 'scale') continue;
+          const v = tokenValue(a.value, this.topScope, uri);
+          if (v.ok && v.value > 0) this.scaleFactor = v.value;
+          else this.sink.add('element-value-invalid', `The size scale of \`.option scale\` cannot be used (${v.ok ? `${v.value} is not above 0` : lowerFirst(v.message)}); sizes are used as written.`, uri, a.value.span);
+          return this.scaleFactor;
+        }
+      }
+    }
+    return this.scaleFactor;
+  }
 
   /** One finding per kind of element the solver does not read yet, naming how many and which are left out. */
   private reportLeftOut(): void {

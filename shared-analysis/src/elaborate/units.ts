@@ -8,6 +8,8 @@ const SCALE: Record<string, number> = {
   t: 1e12,
   g: 1e9,
   meg: 1e6,
+  // X for mega, as some dialects of the family write it.
+  x: 1e6,
   k: 1e3,
   m: 1e-3,
   mil: 25.4e-6,
@@ -20,7 +22,8 @@ const SCALE: Record<string, number> = {
 };
 
 const NUMBER_HEAD = /^([+-]?)(\d+\.?\d*|\.\d+)(?:[eE]([+-]?\d+))?/;
-const LETTERS = /^[A-Za-zµμ]*/;
+/** Letters after the mantissa: a scale suffix and unit letters, the ohm sign (either code point) included. */
+const LETTERS = /^[A-Za-z\u00b5\u03bc\u03a9\u2126]*/;
 
 /** Splits a letter run into its scale suffix (possibly empty) and the unit letters after it. */
 export function splitSuffix(letters: string): { suffix: string; scale: number; unit: string } {
@@ -41,10 +44,10 @@ export function splitSuffix(letters: string): { suffix: string; scale: number; u
  * Rules:
  * 1. An optional sign, then digits with an optional decimal point and an optional
  *    exponent: `1`, `.5`, `1.`, `2.2e-3`.
- * 2. Then an optional scale suffix, case-insensitive: T=1e12, G=1e9, MEG=1e6, K=1e3,
+ * 2. Then an optional scale suffix, case-insensitive: T=1e12, G=1e9, MEG=1e6, X=1e6, K=1e3,
  *    M=1e-3 (milli, not mega), MIL=25.4e-6, U=1e-6 (also `µ`), N=1e-9, P=1e-12, F=1e-15.
  *    `MEG` and `MIL` are tried before `M`.
- * 3. Any letters after that are unit letters and are ignored: `10kOhm`, `1uA`, `5V`, `1MegOhm`.
+ * 3. Any letters after that are unit letters and are ignored: `10kOhm`, `1uA`, `5V`, `1MegOhm`, `4.7kΩ`.
  * 4. A digit after the suffix or unit letters (the resistor-marking style `4k7`, `4u7`,
  *    `2R2`) is an error whose message gives the decimal form (`4k7` → "write 4.7k"),
  *    because reading `4k7` as 4k would silently give a wrong number.

@@ -17,9 +17,18 @@ export function expressionOf(tok: Token): { source: string; offset: number } {
   if (tok.kind === 'expr' && (open === '{' || open === "'")) {
     const close = open === '{' ? '}' : "'";
     const closed = t.length >= 2 && t.endsWith(close);
-    return { source: t.slice(1, closed ? -1 : undefined), offset: tok.span.start + 1 };
+    return { source: joinContinuations(t.slice(1, closed ? -1 : undefined)), offset: tok.span.start + 1 };
   }
   return { source: t, offset: tok.span.start };
+}
+
+/**
+ * An expression written over `+` continuation lines, as one line: each line break and the `+`
+ * after it become blanks of the same length, so offsets into the source still point at the text.
+ */
+export function joinContinuations(source: string): string {
+  if (source.indexOf('\n') < 0 && source.indexOf('\r') < 0) return source;
+  return source.replace(/[\r\n]+[ \t]*\+/g, (m) => ' '.repeat(m.length)).replace(/[\r\n]/g, ' ');
 }
 
 const IDENTIFIER = /^[A-Za-z_][A-Za-z0-9_]*$/;

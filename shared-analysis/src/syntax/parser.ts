@@ -420,11 +420,47 @@ function shorten(s: string): string {
 function lexCard(ctx: Context, segments: Segment[]): Lexeme[] {
   const out: Lexeme[] = [];
   const mode = { path: false };
-  for (const seg of segments) lexSegment(ctx, seg.start, seg.lineEnd, out, mode);
+  // A `{...}` expression may continue over `+` lines: it is one lexeme from its `{` to its `}`.
+  let open: { start: number; depth: number } | undefined;
+  for (let k = 0; k < segments.length; k++) {
+    const seg = segments[k]!;
+    const more = k < segments.length - 1;
+    let from = seg.start;
+    if (open) {
+      const r = scanBrace(ctx.text, from, seg.lineEnd, open.depth);
+      if (r.depth > 0) {
+        open.depth = r.depth;
+        if (!more) {
+          lexBraced(ctx, open.start, seg.lineEnd, out, open.depth);
+          open = undefined;
+        }
+        continue;
+      }
+      out.push({ type: 'expr', start: open.start, end: r.pos, token: undefined });
+      open = undefined;
+      from = r.pos;
+    }
+    open = lexSegment(ctx, from, seg.lineEnd, out, mode, more);
+  }
   return out;
 }
 
-function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode: { path: boolean }): void {
+/** Scans braces from `i` to `to` at nesting `depth`; returns the position after the brace that closes the expression, or the depth left open at `to`. */
+function scanBrace(text: string, i: number, to: number, depth: number): { pos: number; depth: number } {
+  while (i < to) {
+    const d = text.charCodeAt(i);
+    if (d === 123) depth++;
+    else if (d === 125) {
+      depth--;
+      if (depth === 0) return { pos: i + 1, depth: 0 };
+    }
+    i++;
+  }
+  return { pos: to, depth };
+}
+
+/** Lexes one line of a card; returns the start and depth of a `{` left open at its end when a `+` line follows to continue it. */
+function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode: { path: boolean }, more: boolean): { start: number; depth: number } | undefined {
   const { text } = ctx;
   let i = from;
   while (i < to) {
@@ -433,8 +469,8 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       i++;
       continue;
     }
-    if (c === 59 /* ; */) return;
-    if (c === 36 /* $ */ && isCommentDollar(text, i, to)) return;
+    if (c === 59 /* ; */) return undefined;
+    if (c === 36 /* $ */ && isCommentDollar(text, i, to)) return undefined;
     if (mode.path) {
       if (c === 34 || c === 39) {
         i = lexQuoted(ctx, i, to, c, 'word', out);
@@ -469,6 +505,10 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       continue;
     }
     if (c === 123 /* { */) {
+      if (more) {
+        const r = scanBrace(text, i, to, 0);
+        if (r.depth > 0) return { start: i, depth: r.depth };
+      }
       i = lexBraced(ctx, i, to, out);
       continue;
     }
@@ -504,13 +544,15 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       if (cmd === '.include' || cmd === '.inc' || cmd === '.lib') mode.path = true;
     }
   }
+  return undefined;
 }
 
 /** Reads `{...}` with nested braces; an unclosed brace runs to the end of the line and is reported. */
-function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[]): number {
+function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[], startDepth = 0): number {
   const { text } = ctx;
   const s = i;
-  let depth = 0;
+  let depth = startDepth;
+  if (startDepth > 0) i = to;
   while (i < to) {
     const d = text.charCodeAt(i);
     if (d === 123) depth++;
@@ -812,7 +854,7 @@ export function isNumberLike(t: Token): boolean {
  */
 function isValueLike(t: Token): boolean {
   if (t.kind === 'expr') return true;
-  return /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-zµμΩ]*$/.test(t.text);
+  return /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-z\u00b5\u03bc\u03a9\u2126]*$/.test(t.text);
 }
 
 /** The text of a token without its surrounding quotes (`"a.lib"` → `a.lib`); other tokens are returned as written. */

@@ -158,3 +158,39 @@ describe('outline', () => {
     ]);
   });
 });
+
+describe('user functions, continued expressions and size scale', () => {
+  it('evaluates .func functions in expressions, through parameters and other functions', () => {
+    // Source: divider, V(out) = 6 V · R2 / (R1 + R2) with R1 = R2 = half(4k) = 2k, so 3 V.
+    const a = run('funcs\n.func half(x) = {x/2}\n.func twice(y) {2*y}\n.param r={half(twice(2k))}\nV1 in 0 6\nR1 in out {r}\nR2 out 0 {half(4k)}\n');
+    expect(errors(a)).toEqual([]);
+    expect(v(a, 'out')).toBeCloseTo(3, 9);
+  });
+
+  it('refuses a recursive function with a located error', () => {
+    const a = run('recursive\n.func f(x) = {x > 1 ? f(x-1) : 1}\nV1 in 0 1\nR1 in 0 {f(3)}\n');
+    const e = a.findings.find((f) => f.code === 'element-value-invalid')!;
+    expect(e.message).toMatch(/calls itself \(f → f\); a \.func function cannot be recursive/);
+    expect(a.documents[ROOT]!.text.slice(e.span.start, e.span.end)).toBe('f(3)');
+  });
+
+  it('still names an unknown function', () => {
+    const a = run('unknown\nV1 in 0 1\nR1 in 0 {nosuch(3)}\n');
+    expect(a.findings.find((f) => f.code === 'element-value-invalid')!.message).toMatch(/`nosuch` is not a known function/);
+  });
+
+  it('reads a {…} expression that continues over + lines', () => {
+    // Source: 2k + 3k = 5k, so 5 V across it is 1 mA.
+    const a = run('continued\n.param r = {2k +\n+ 3k}\nV1 in 0 5\nR1 in 0 {r\n+ * 1}\n');
+    expect(errors(a)).toEqual([]);
+    expect((a.operatingPoint!.devices['R1'] as { current: number }).current).toBeCloseTo(1e-3, 12);
+  });
+
+  it('multiplies element sizes by .option scale', () => {
+    const a = run('scaled\n.option scale=1e-6\nV1 d 0 5\nM1 d d 0 0 NM W=20 L=2\n.model NM NMOS (VTO=1 KP=100u)\n');
+    expect(errors(a)).toEqual([]);
+    const m = a.circuit!.elements.find((e) => e.name === 'M1') as { w: number; l: number };
+    expect(m.w).toBeCloseTo(20e-6, 18);
+    expect(m.l).toBeCloseTo(2e-6, 18);
+  });
+});

@@ -44,6 +44,12 @@ describe('parseNumber', () => {
     check('1p', 1e-12);
     check('1F', 1e-15); // F is femto, not farad (common practice)
     check('1e3k', 1e6);
+    // X (either case) is mega in the dialects that write it so (DESIGN.md, "Numbers"; common practice, from memory).
+    check('1X', 1e6);
+    check('2.2x', 2.2e6);
+    // µ as Windows-1252/Latin-1 decode it (U+00B5) and as the Greek letter (U+03BC).
+    check('1\u00b5', 1e-6);
+    check('4.7\u03bcF', 4.7e-6);
   });
 
   it('ignores trailing unit letters', () => {
@@ -53,6 +59,10 @@ describe('parseNumber', () => {
     check('1MegOhm', 1e6);
     check('3.3mV', 3.3e-3);
     check('100Ohm', 100);
+    // The ohm sign after a value, as the Greek capital omega (U+03A9) and as the ohm sign (U+2126).
+    check('4.7k\u03a9', 4700);
+    check('10\u2126', 10);
+    check('1MEG\u03a9', 1e6);
   });
 
   it('rejects the resistor-marking style with the decimal form', () => {
