@@ -170,6 +170,12 @@ export interface Circuit {
   tnomC: number;
   /** Evaluated `.param` values at top level, lower-case name -> value. */
   params: Record<string, number>;
+  /**
+   * Nodes that an element left out of the circuit connects to (its model was not found, its letter
+   * is not solved yet, ...), as in `nodes`. The left-out element has its own finding, so the
+   * topology checks say nothing more about these nodes.
+   */
+  detachedNodes?: string[];
 }
 
 /** Default model parameters per kind (DESIGN.md), upper-case names. */

@@ -86,6 +86,8 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
   const findings: Finding[] = [];
   const { elements, nodes } = circuit;
   const nodeCount = nodes.length;
+  // Nodes a left-out element connects to: that element's own finding explains them, so no cascade here.
+  const detached = new Set(circuit.detachedNodes ?? []);
   if (elements.length === 0 || nodeCount === 0) return findings;
 
   const terminalAt = (t: Terminal): { uri: string; span: Span } => {
@@ -179,6 +181,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
       }
       for (const [root, group] of groups) {
         for (const k of group) floating.add(k);
+        if (detached.size > 0 && group.some((k) => detached.has(nodes[k]!))) continue;
         const at = terminalAt(first(group[0]!));
         const related: RelatedLocation[] = group.slice(1, MAX_RELATED + 1).map((k) => ({
           ...terminalAt(first(k)),
@@ -220,7 +223,7 @@ export function checkConnectivity(circuit: Circuit): Finding[] {
 
   // Nodes with one terminal (those already reported as floating are not repeated).
   for (let k = 1; k < nodeCount; k++) {
-    if (count[k] !== 1 || floating.has(k)) continue;
+    if (count[k] !== 1 || floating.has(k) || detached.has(nodes[k]!)) continue;
     const t = first(k);
     const e = elements[t.element]!;
     findings.push({

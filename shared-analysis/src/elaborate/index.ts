@@ -125,6 +125,8 @@ class Elaborator {
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
   private tooLarge = false;
+  /** Indices of nodes a left-out element connects to (see `Circuit.detachedNodes`). */
+  private readonly detached = new Set<number>();
   /** Lower-case names of `.global` nodes: never prefixed inside subcircuits. */
   private readonly globals = new Set<string>();
   /** Elements of letters or forms the solver does not read yet, by kind, for one finding per kind. */
@@ -171,7 +173,10 @@ class Elaborator {
     this.flattenBody(topInstance);
     this.reportLeftOut();
     this.resolveControls();
+    const detachedNames = [...this.detached].map((k) => this.nodes[k]!);
     this.dropUnusedNodes();
+    const kept = new Set(this.nodes);
+    const detachedNodes = detachedNames.filter((n) => kept.has(n));
     top.entries(); // evaluates (and reports) parameters nothing refers to
     if (read.missing.length > 0) this.summariseMissing(read.missing);
 
@@ -188,6 +193,7 @@ class Elaborator {
       tnomC,
       params,
     };
+    if (detachedNodes.length > 0) circuit.detachedNodes = detachedNodes;
     const symbols: SymbolTable = {
       params: this.paramSymbols(read.top, top, read.allDefs),
       models: [...this.modelSymbols.values()],
@@ -396,7 +402,20 @@ class Elaborator {
   // -------------------------------------------------------------------------
   // Elements
 
+  /** Adds an element (or flattens an instance); when it is left out, its nodes are detached so topology checks do not cascade. */
   private addElement(item: Located<ElementCard>, inst: Instance): void {
+    const before = this.elements.length;
+    this.addElementOrInstance(item, inst);
+    if (this.elements.length === before && !this.tooLarge) {
+      for (const t of item.card.nodes) {
+        if (t.kind === 'expr') continue;
+        const k = this.node(t, inst, item.uri);
+        if (k !== undefined && k !== 0) this.detached.add(k);
+      }
+    }
+  }
+
+  private addElementOrInstance(item: Located<ElementCard>, inst: Instance): void {
     const { card, uri } = item;
     if (card.letter === 'X') {
       this.instantiate(item, inst);
