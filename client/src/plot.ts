@@ -1,6 +1,7 @@
 // Lays out and draws a mirror output characteristic (output current against output-node voltage) as a self-contained SVG string.
 import type { OutputCharacteristicResult } from '../../server/src/protocol';
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
+import { maxOf, minOf } from '../../shared-analysis/src/arrays';
 
 /** Pixel size of the drawing. */
 export interface PlotSize {
@@ -94,7 +95,7 @@ function cleanFloat(v: number): number {
 
 /** Engineering exponent (multiple of 3) that suits the largest magnitude on an axis. */
 function axisExponent(values: number[]): number {
-  const m = Math.max(...values.map(Math.abs));
+  const m = maxOf(values.map(Math.abs));
   if (!(m > 0)) return 0;
   const e = Math.floor(Math.log10(m) / 3) * 3;
   return Math.max(-15, Math.min(12, e));
@@ -164,8 +165,8 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
 
   const xs = points.map((p) => p.v).concat(edgeKnown ? [result.edgeV] : [], opKnown ? [result.operatingV] : []);
   const ys = points.map((p) => p.i).concat(corners.map((c) => c.i), [0]);
-  const [x0, x1] = spanOf(Math.min(...xs), Math.max(...xs), 0.5);
-  const [y0, y1] = spanOf(Math.min(...ys), Math.max(...ys), 1e-6);
+  const [x0, x1] = spanOf(minOf(xs), maxOf(xs), 0.5);
+  const [y0, y1] = spanOf(minOf(ys), maxOf(ys), 1e-6);
 
   const plot = { left: 72, top: 34, right: width - 24, bottom: height - 52 };
   const xCount = Math.max(3, Math.min(10, Math.round((plot.right - plot.left) / 90)));
@@ -181,8 +182,8 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
     const amps = currentAt(points, result.operatingV);
     layout.operating = { volts: result.operatingV, amps, px: px(result.operatingV), py: py(amps) };
     if (corners.length > 0) {
-      const low = Math.min(...corners.map((c) => c.i));
-      const high = Math.max(...corners.map((c) => c.i));
+      const low = minOf(corners.map((c) => c.i));
+      const high = maxOf(corners.map((c) => c.i));
       layout.spread = { low, high, px: px(result.operatingV), pyLow: py(low), pyHigh: py(high) };
     }
   }
@@ -294,7 +295,7 @@ export function renderCornerTableHtml(result: OutputCharacteristicResult): strin
     return `<tr><th scope="row">${escapeXml(c?.label ?? '')}</th><td>${escapeXml(amps)}</td><td>${escapeXml(dev)}</td></tr>`;
   });
   const range = finite.length > 0
-    ? `<caption>Output current at the operating point across the corners: ${escapeXml(formatEngineering(Math.min(...finite.map((c) => c.i)), { unit: 'A' }))} to ${escapeXml(formatEngineering(Math.max(...finite.map((c) => c.i)), { unit: 'A' }))}</caption>`
+    ? `<caption>Output current at the operating point across the corners: ${escapeXml(formatEngineering(minOf(finite.map((c) => c.i)), { unit: 'A' }))} to ${escapeXml(formatEngineering(maxOf(finite.map((c) => c.i)), { unit: 'A' }))}</caption>`
     : '<caption>Output current at the operating point across the corners</caption>';
   return [
     '<table class="qp-corners">',

@@ -67,6 +67,7 @@ import { WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
+import { pushAll } from '../../shared-analysis/src/arrays';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -373,7 +374,7 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
     if (c) s.corners = c;
   }
   // Appended, so the indices of published diagnostics stay valid.
-  analysis.findings.push(...r.findings);
+  pushAll(analysis.findings, r.findings);
   log(`Solved the corners of ${basename(uri)} in ${Date.now() - t0} ms: ${r.findings.length} finding${r.findings.length === 1 ? '' : 's'}.`);
   publish(new Set([uri, ...Object.keys(analysis.documents)]), uri);
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);

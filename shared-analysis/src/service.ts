@@ -16,6 +16,7 @@ import type { ParsedDocument } from './syntax/ast';
 import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Workspace } from './types';
 import { netlistSeverity } from './checks/netlist';
+import { pushAll } from './arrays';
 
 declare const performance: { now(): number };
 
@@ -66,7 +67,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders }));
   const findings: Finding[] = [...syntaxFindings(elab.documents), ...elab.findings];
   const circuit = elab.circuit;
-  findings.push(...timed('connectivity', () => checkConnectivity(circuit)));
+  pushAll(findings, timed('connectivity', () => checkConnectivity(circuit)));
 
   const structures = timed('structures', () => recogniseStructures(circuit));
   let operatingPoint: Analysis['operatingPoint'];
@@ -81,23 +82,21 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       const result = nominal;
       const dc = solver;
       operatingPoint = result.op;
-      findings.push(...withoutNetlistDuplicates(result.findings, findings));
-      findings.push(...timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
-      findings.push(...timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
-      if (result.op.converged) findings.push(...timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
+      pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
+      pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
+      pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
+      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
-        findings.push(...timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
+        pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
       }
       const targets = timed('targets', () => readTargets(elab.documents));
-      findings.push(...targets.findings);
-      findings.push(
-        ...timed('targets', () =>
+      pushAll(findings, targets.findings);
+      pushAll(findings, timed('targets', () =>
           checkTargets({ circuit, op: result.op, structures, targets: targets.targets, options: resolved }),
-        ),
-      );
+        ));
     }
   } else {
-    findings.push(...analyseStructures({ circuit, op: undefined, structures, options: resolved }));
+    pushAll(findings, analyseStructures({ circuit, op: undefined, structures, options: resolved }));
   }
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
 
@@ -140,9 +139,9 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
   const findings: Finding[] = [];
   try {
-    findings.push(...runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats }));
+    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats }));
     const { targets } = readTargets(analysis.documents);
-    findings.push(...checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
+    pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
   } catch {
     // The corner phase is an addition; a failure leaves the first-phase analysis standing.
   }

@@ -10,6 +10,7 @@ import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { CornerResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
+import { pushAll } from '../arrays';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const CORNER_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -227,7 +228,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
       const sweep = sweepOf(o.device, s, nominalM);
       const el = elements.get(o.device);
       if (!el) continue;
-      findings.push(...outputFindings(s, el, sweep, options, s.corners.filter((c) => c.converged).length));
+      pushAll(findings, outputFindings(s, el, sweep, options, s.corners.filter((c) => c.converged).length));
     }
   });
   if (ctx.stats) {

@@ -16,6 +16,7 @@ import { voltageAt } from '../structures/voltages';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
+import { pushAll, maxOf, minOf } from '../arrays';
 
 export { measureStructure } from '../structures/measure';
 export type { Measurement } from '../structures/measure';
@@ -86,10 +87,10 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const out: Finding[] = [];
   const topo = topologyOf(circuit);
   const rails = [...railsByIndex(circuit).values()].map((r) => r.volts);
-  const railRange = { top: rails.length ? Math.max(...rails) : UNBOUNDED_OHMS, bottom: rails.length ? Math.min(...rails) : -UNBOUNDED_OHMS };
+  const railRange = { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS };
   for (const s of feedOrder(structures)) {
     try {
-      out.push(...new StructureCheck(circuit, topo, s, structures, op, options, railRange).run());
+      pushAll(out, new StructureCheck(circuit, topo, s, structures, op, options, railRange).run());
     } catch (err) {
       // A defect in one structure's analysis must not take down the others or the editor.
       const dev = topo.elementByName.get(s.reference.device);

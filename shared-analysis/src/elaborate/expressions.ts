@@ -613,7 +613,7 @@ export function evaluateCompiled(
           return finite(r.value, node, `\`${text(node)}\``);
         }
         const args = (n.args as MathNode[]).map(ev);
-        const v = spec.fn(...args);
+        const v = spec.fn(...args); // bounded: an expression holds at most MAX_EXPRESSION_LENGTH / 2 arguments
         const shown = args.map((x) => formatPlain(x)).join(', ');
         return finite(v, node, `\`${fnNode.name}(${shown})\``);
       }

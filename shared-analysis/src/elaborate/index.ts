@@ -10,6 +10,7 @@ import { formatEngineering } from '../fixes/format';
 import { Sink } from './sink';
 import { readSources, type Body, type Located, type SubcktDef } from './sources';
 import { expressionOf, tokenValue, type ValueResult } from './values';
+import { pushAll } from '../arrays';
 
 /** Per-call elaboration settings. */
 export interface ElaborateOptions {
@@ -840,7 +841,7 @@ class Elaborator {
     }
     if (names.size === 0) return;
     this.sink.findings.length = 0;
-    this.sink.findings.push(...kept);
+    pushAll(this.sink.findings, kept);
     const files = missing.map((m) => `\`${m.ref}\``);
     const list = [...names];
     const shown = list.slice(0, 10).map((n) => `\`${n}\``).join(', ') + (list.length > 10 ? `, and ${list.length - 10} more` : '');
@@ -946,7 +947,7 @@ class Elaborator {
     if (dropped.size === 0) return;
     const kept = this.elements.filter((e) => !dropped.has(e));
     this.elements.length = 0;
-    this.elements.push(...kept);
+    pushAll(this.elements, kept);
   }
 
   /**

@@ -22,6 +22,7 @@ import { formatNumber, formatPercent, formatQuantity } from './quantity';
 import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';
+import { maxOf, minOf } from '../arrays';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -252,7 +253,7 @@ function structureSection(s: Structure, device: string): string {
     const spread = s.corners.filter((k) => k.iout[out.device] !== undefined);
     if (spread.length) {
       const vals = spread.map((k) => k.iout[out.device]);
-      rows.push(`Across ${spread.length} corners: ${formatQuantity(Math.min(...vals), 'A')} to ${formatQuantity(Math.max(...vals), 'A')}${spread.some((k) => k.outOfRegion.includes(out.device)) ? ' (leaves its active region at some corners)' : ''}`);
+      rows.push(`Across ${spread.length} corners: ${formatQuantity(minOf(vals), 'A')} to ${formatQuantity(maxOf(vals), 'A')}${spread.some((k) => k.outOfRegion.includes(out.device)) ? ' (leaves its active region at some corners)' : ''}`);
     }
   }
   if (rows.length) parts.push(bullet(rows));

@@ -7,6 +7,7 @@ import type { Span } from '../types';
 import { elementsOfCard, instancePrefix } from './document-index';
 import { formatQuantity } from './quantity';
 import { dissipation } from '../checks/devices/power';
+import { maxOf, minOf } from '../arrays';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
@@ -57,7 +58,7 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
     } else {
       const currents = labelled.map((x) => mainCurrent(op.devices[x.el.name])).filter((v): v is number => v !== undefined);
       const label = currents.length
-        ? `${labelled.length} instances: ${formatQuantity(Math.min(...currents), 'A')} to ${formatQuantity(Math.max(...currents), 'A')}`
+        ? `${labelled.length} instances: ${formatQuantity(minOf(currents), 'A')} to ${formatQuantity(maxOf(currents), 'A')}`
         : `${labelled.length} instances`;
       out.push({ offset, label, tooltip });
     }

@@ -3,6 +3,7 @@
 import type { Analysis } from '../analysis';
 import type { Span } from '../types';
 import { cardAt, elementByName, subcktScopes } from './document-index';
+import { maxOf, minOf } from '../arrays';
 
 /** What an outline entry stands for. */
 export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include' | 'section' | 'skipped-block';
@@ -27,16 +28,20 @@ export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[
     const ref = elementByName(analysis, s.reference.device);
     if (!ref || ref.origin.uri !== uri) continue;
     const children: OutlineSymbol[] = [];
+    // A set, not a search of the outputs per device: a mirror can have thousands of outputs.
+    const outputs = new Set(s.outputs.map((o) => o.device.toLowerCase()));
+    const reference = s.reference.device.toLowerCase();
     for (const d of s.devices) {
       const el = elementByName(analysis, d);
       if (!el || el.origin.uri !== uri) continue;
-      const role = d.toLowerCase() === s.reference.device.toLowerCase() ? 'reference' : s.outputs.some((o) => o.device.toLowerCase() === d.toLowerCase()) ? 'output' : 'device';
+      const key = d.toLowerCase();
+      const role = key === reference ? 'reference' : outputs.has(key) ? 'output' : 'device';
       const card = cardAt(doc, el.origin.span.start);
       const sel = card?.kind === 'element' ? card.name.span : el.origin.span;
       children.push({ name: d, detail: role, kind: 'device', span: el.origin.span, selectionSpan: sel, children: [] });
     }
     const spans = children.map((c) => c.span);
-    const span = spans.length ? { start: Math.min(...spans.map((x) => x.start)), end: Math.max(...spans.map((x) => x.end)) } : ref.origin.span;
+    const span = spans.length ? { start: minOf(spans.map((x) => x.start)), end: maxOf(spans.map((x) => x.end)) } : ref.origin.span;
     const label = s.kind.replace(/-/g, ' ');
     out.push({
       name: `${s.instance}${label} (${s.reference.device})`,

@@ -16,6 +16,7 @@ import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from
 import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
+import { pushAll } from '../arrays';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
 export { evaluateMos } from '../devices/mosfet';
@@ -127,8 +128,8 @@ export class DcSolver {
       if (!this.elementByName.has(key)) this.elementByName.set(key, i);
     });
     this.structure = this.analyseStructure(undefined);
-    this.staticFindings.push(...this.shortedJunctionFindings());
-    this.staticFindings.push(...this.outOfRangeFindings());
+    pushAll(this.staticFindings, this.shortedJunctionFindings());
+    pushAll(this.staticFindings, this.outOfRangeFindings());
   }
 
   /** Floating groups and voltage loops under the given resistor values, with their findings. */
@@ -156,7 +157,7 @@ export class DcSolver {
     const n = this.layout.size;
     const plan = this.resolveResistances(options.resistances, findings);
     const structure = plan.changesStructure ? this.analyseStructure(this.resistanceLookup(plan)) : this.structure;
-    findings.push(...structure.findings);
+    pushAll(findings, structure.findings);
     this.loadLinearValues(structure, plan);
     const temperatureC = this.pickTemperature(options, findings);
     const betaScale = this.pickBetaScale(options, findings);
@@ -221,10 +222,10 @@ export class DcSolver {
       converged = true;
     }
 
-    if (last && !converged) findings.push(...this.failureFindings(last, fallbacks, iterations));
+    if (last && !converged) pushAll(findings, this.failureFindings(last, fallbacks, iterations));
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
-    if (converged) findings.push(...this.postSolveFindings(x, op, structure));
+    if (converged) pushAll(findings, this.postSolveFindings(x, op, structure));
     const out = new Float64Array(n);
     for (let k = 0; k < n; k++) out[k] = Number.isFinite(x[k]) ? x[k] : 0;
     if (converged) solvedAt.set(out, temperatureC);
@@ -932,13 +933,44 @@ export class DcSolver {
  * source loops, temperature). For directly built circuits (no netlist checks) nothing is dropped.
  */
 export function withoutNetlistDuplicates(solverFindings: Finding[], netlistFindings: Finding[]): Finding[] {
+  // Indexed by code and document (spans sorted by start, with the running largest end), so the
+  // check is O((m + n) log n) rather than m × n: thousands of islands give thousands of each.
+  const index = new Map<string, Map<string, { starts: number[]; maxEnd: number[] }>>();
+  for (const g of [...netlistFindings].sort((a, b) => a.span.start - b.span.start)) {
+    let byUri = index.get(g.code);
+    if (!byUri) index.set(g.code, (byUri = new Map()));
+    let spans = byUri.get(g.uri);
+    if (!spans) byUri.set(g.uri, (spans = { starts: [], maxEnd: [] }));
+    const prev = spans.maxEnd.length ? spans.maxEnd[spans.maxEnd.length - 1]! : -Infinity;
+    spans.starts.push(g.span.start);
+    spans.maxEnd.push(Math.max(prev, g.span.end));
+  }
+  /** True when a netlist finding of `code` in `uri` has a span touching [start, end]. */
+  const touches = (code: string, uri: string, start: number, end: number): boolean => {
+    const spans = index.get(code)?.get(uri);
+    if (!spans) return false;
+    // The last netlist span starting at or before `end`; any earlier one reaching `start` touches.
+    let lo = 0;
+    let hi = spans.starts.length - 1;
+    let last = -1;
+    while (lo <= hi) {
+      const mid = (lo + hi) >> 1;
+      if (spans.starts[mid]! <= end) {
+        last = mid;
+        lo = mid + 1;
+      } else hi = mid - 1;
+    }
+    return last >= 0 && spans.maxEnd[last]! >= start;
+  };
   return solverFindings.filter((f) => {
     const codes = f.data?.netlistCodes;
     if (!Array.isArray(codes)) return true;
     const circuitWide = f.data?.kind === 'floating-node' || f.data?.kind === 'voltage-loop' || f.code === 'dc-temperature-unusable';
-    return !netlistFindings.some(
-      (g) => codes.includes(g.code) && (circuitWide || (g.uri === f.uri && g.span.start < f.span.end + 1 && f.span.start < g.span.end + 1)),
-    );
+    for (const code of codes) {
+      if (typeof code !== 'string') continue;
+      if (circuitWide ? index.has(code) : touches(code, f.uri, f.span.start, f.span.end)) return false;
+    }
+    return true;
   });
 }
 

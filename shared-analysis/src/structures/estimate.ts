@@ -6,6 +6,7 @@ import { eng, sig } from './format';
 import { Chain, GRAY, Hand, RAZAVI, type ChainResult, type EstimateAt } from './hand';
 import type { KindModule } from './kind';
 import type { Estimate, EstimateStep, Structure } from './types';
+import { pushAll } from '../arrays';
 
 export type { EstimateAt } from './hand';
 
@@ -79,7 +80,7 @@ class HandAnalysis {
       irefFrom = 'own-equation';
       const own = new Chain(h, true);
       iref = kind.ownReference(h, own);
-      steps.push(...own.steps);
+      pushAll(steps, own.steps);
     } else if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
       irefFrom = 'resistor';
       const ohms = feed.elements.reduce((sum, r) => {
@@ -152,7 +153,7 @@ class HandAnalysis {
       const rText = eng(ohms, 'Ω');
       const vName = h.bipolar ? 'VBE' : 'VGS';
       const stackFormula = kind.stackFormula?.(h, vName) ?? (nStack > 1 ? `${nStack} stacked ${vName}` : vName);
-      steps.push(...st.steps.filter(isVoltage));
+      pushAll(steps, st.steps.filter(isVoltage));
       steps.push({
         quantity: 'IREF',
         formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${h.bipolar ? GRAY : RAZAVI})`,
@@ -173,9 +174,9 @@ class HandAnalysis {
       }
     } else {
       if (irefStep) steps.push(irefStep);
-      steps.push(...st.steps.filter(isVoltage));
+      pushAll(steps, st.steps.filter(isVoltage));
     }
-    steps.push(...st.steps.filter((x) => !isVoltage(x)));
+    pushAll(steps, st.steps.filter((x) => !isVoltage(x)));
     let voltages: Record<string, number> | undefined;
     let voltageTempco: Record<string, number> | undefined;
     if (kind.voltages) {
@@ -186,7 +187,7 @@ class HandAnalysis {
         voltages[k] = v.volts;
         if (v.tempcoPpmPerC !== undefined && Number.isFinite(v.tempcoPpmPerC)) (voltageTempco ??= {})[k] = v.tempcoPpmPerC;
       }
-      steps.push(...vc.steps);
+      pushAll(steps, vc.steps);
     }
     const outputEdge: Record<string, number> = {};
     if (vCommon !== undefined) {

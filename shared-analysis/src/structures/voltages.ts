@@ -3,6 +3,7 @@
 import type { OperatingPoint } from '../solve/types';
 import { polaritySign } from './topology';
 import type { DerivedVoltage, Structure } from './types';
+import { maxOf, minOf } from '../arrays';
 
 /**
  * A derived voltage at one solution: V(node) to ground, or — with `from` — how far `node` sits
@@ -38,7 +39,7 @@ export function summariseVoltageCorners(s: Structure): void {
   for (const v of s.voltages ?? []) {
     const vals = s.corners.filter((c) => c.converged && c.voltages?.[v.name] !== undefined).map((c) => c.voltages![v.name]);
     if (v.solved !== undefined) vals.push(v.solved);
-    v.cornerRange = vals.length > 0 ? { min: Math.min(...vals), max: Math.max(...vals) } : undefined;
+    v.cornerRange = vals.length > 0 ? { min: minOf(vals), max: maxOf(vals) } : undefined;
     const temps = s.corners.filter((c) => c.converged && c.supplyScale === 1 && c.betaScale === 1 && c.voltages?.[v.name] !== undefined);
     const cold = temps.reduce<(typeof temps)[number] | undefined>((a, c) => (!a || c.temperatureC < a.temperatureC ? c : a), undefined);
     const hot = temps.reduce<(typeof temps)[number] | undefined>((a, c) => (!a || c.temperatureC > a.temperatureC ? c : a), undefined);

@@ -56,11 +56,11 @@ function utf16(bytes: Uint8Array, from: number, littleEndian: boolean): string {
   for (let i = from; i + 1 < bytes.length; i += 2) {
     chunk.push(littleEndian ? bytes[i]! | (bytes[i + 1]! << 8) : (bytes[i]! << 8) | bytes[i + 1]!);
     if (chunk.length === 8192) {
-      parts.push(String.fromCharCode(...chunk));
+      parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
       chunk.length = 0;
     }
   }
-  parts.push(String.fromCharCode(...chunk));
+  parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
   return parts.join('');
 }
 
@@ -71,11 +71,11 @@ function windows1252(bytes: Uint8Array): string {
     const b = bytes[i]!;
     chunk.push(b >= 0x80 && b <= 0x9f ? CP1252_HIGH[b - 0x80] || b : b);
     if (chunk.length === 8192) {
-      parts.push(String.fromCharCode(...chunk));
+      parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
       chunk.length = 0;
     }
   }
-  parts.push(String.fromCharCode(...chunk));
+  parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
   return parts.join('');
 }
 

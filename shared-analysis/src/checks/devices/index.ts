@@ -8,6 +8,7 @@ import { JudgeContext, type DeviceCheckContext } from './context';
 import { judgeDiode } from './diode';
 import { dissipation, powerLimit } from './power';
 import { judgeBjt, judgeMosfet, type JudgeMemory } from './transistors';
+import { pushAll } from '../../arrays';
 
 export type { DeviceCheckContext } from './context';
 export { dissipation, powerLimit } from './power';
@@ -125,7 +126,7 @@ function limitFlood(findings: Finding[]): Finding[] {
   }
   const out: Finding[] = [];
   for (const [code, list] of byCode) {
-    out.push(...list.slice(0, MAX_FINDINGS_PER_CODE));
+    pushAll(out, list.slice(0, MAX_FINDINGS_PER_CODE));
     if (list.length > MAX_FINDINGS_PER_CODE) {
       const rest = list.slice(MAX_FINDINGS_PER_CODE);
       const first = list[0];

@@ -1,0 +1,31 @@
+// Array helpers that scale: appending and taking extremes without spreading a data-sized array into a call.
+//
+// Spreading a list into a call (`a.push(...b)`, `Math.max(...b)`) passes every element as a call argument; past roughly a
+// hundred thousand elements that overflows the call stack. Every data-sized list goes through
+// these instead (a test greps the sources for the spread forms).
+
+/** Appends every item of `items` to `target`; returns `target`. */
+export function pushAll<T>(target: T[], items: Iterable<T>): T[] {
+  for (const x of items) target.push(x);
+  return target;
+}
+
+/** The largest of `values` (−∞ for none, as Math.max()). NaN among them gives NaN, as Math.max. */
+export function maxOf(values: Iterable<number>): number {
+  let m = -Infinity;
+  for (const v of values) {
+    if (v !== v) return NaN;
+    if (v > m) m = v;
+  }
+  return m;
+}
+
+/** The smallest of `values` (+∞ for none, as Math.min()). NaN among them gives NaN, as Math.min. */
+export function minOf(values: Iterable<number>): number {
+  let m = Infinity;
+  for (const v of values) {
+    if (v !== v) return NaN;
+    if (v < m) m = v;
+  }
+  return m;
+}
