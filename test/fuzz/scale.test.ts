@@ -19,8 +19,8 @@ describe(`netlists with ${N} elements or instances`, () => {
     for (let i = 0; i < N; i++) lines.push(`R${i} d${i} e${i} 1k`);
     const s = analyseText(lines.join('\n') + '\n.end\n');
     expect(s.analysis.circuit!.elements.length).toBe(N);
-    // Both ends of every resistor connect nowhere else.
-    expect(s.analysis.findings.filter((f) => f.code === 'node-single-connection').length).toBe(2 * N);
+    // Both ends of every resistor connect nowhere else (the findings of one code are capped, with a summary).
+    expect(s.analysis.findings.some((f) => f.code === 'node-single-connection')).toBe(true);
   }, 240_000);
 
   it('analyses as many supply rails around a mirror, and answers inlay hints and the outline over them', () => {
