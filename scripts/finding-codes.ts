@@ -13,6 +13,7 @@ const groupTitle: Record<string, string> = {
   solver: 'Operating point',
   structures: 'Mirrors and reference branches',
   devices: 'Every device at the operating point',
+  plausibility: 'Plausibility',
   corners: 'Corners',
   targets: 'Target currents',
   fixes: 'Fixes',

@@ -25,7 +25,7 @@ import {
   type WorkDoneProgressServerReporter,
 } from 'vscode-languageserver/node';
 import type { Analysis } from '../../shared-analysis/src/analysis';
-import { sizingRequest } from '../../shared-analysis/src/fixes/index';
+import { hasSolvedFixes } from '../../shared-analysis/src/fixes/index';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import { completionsAt } from '../../shared-analysis/src/features/completion';
 import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
@@ -730,7 +730,7 @@ connection.onCodeAction(
       if (!f || f.code !== d.code) continue;
       wanted.push({ d, f, index: data.index });
     }
-    const toSize = wanted.filter((w) => sizingRequest(w.f) !== undefined).map((w) => w.index);
+    const toSize = wanted.filter((w) => hasSolvedFixes(w.f)).map((w) => w.index);
     const sized = toSize.length > 0 ? await sizingFixesFor(ctx.analysis, toSize) : undefined;
     for (const { d, f, index } of wanted) {
       for (const fix of [...(f.fixes ?? []), ...(sized?.get(index) ?? [])]) {

@@ -6,6 +6,7 @@ import { NETLIST_CODES } from './checks/netlist';
 import { SOLVER_CODES } from './solve/codes';
 import { STRUCTURE_CODES } from './checks/structures';
 import { DEVICE_CODES } from './checks/devices/index';
+import { PLAUSIBILITY_CODES } from './checks/plausibility';
 import { CORNER_CODES } from './checks/corners';
 import { STARTUP_CODES } from './checks/startup';
 import { TARGET_CODES } from './checks/targets';
@@ -15,7 +16,7 @@ export interface CodeInfo {
   severity: Severity;
   summary: string;
   /** The module family that owns the code. */
-  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'devices' | 'corners' | 'targets' | 'fixes' | 'host';
+  group: 'syntax' | 'netlist' | 'solver' | 'structures' | 'devices' | 'plausibility' | 'corners' | 'targets' | 'fixes' | 'host';
 }
 
 /** Codes a host reports about the analysis itself (the language server or the CLI; the engine never emits them). */
@@ -34,6 +35,7 @@ export function findingCatalogue(): Record<string, CodeInfo> {
     ['structures', STRUCTURE_CODES],
     ['devices', DEVICE_CODES],
     ['structures', STARTUP_CODES],
+    ['plausibility', PLAUSIBILITY_CODES],
     ['corners', CORNER_CODES],
     ['targets', TARGET_CODES],
     ['fixes', FIX_CODES],

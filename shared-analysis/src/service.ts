@@ -8,6 +8,7 @@ import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { judgeDevices } from './checks/devices/index';
+import { checkPlausibility } from './checks/plausibility';
 import { runCorners, type CornerStats } from './checks/corners';
 import { checkStartup } from './checks/startup';
 import { readTargets, checkTargets } from './checks/targets';
@@ -97,6 +98,16 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     }
   } else {
     pushAll(findings, analyseStructures({ circuit, op: undefined, structures, options: resolved }));
+  }
+  const implausible = timed('plausibility', () => checkPlausibility({ circuit, documents: elab.documents, op: nominal?.op, options: resolved }));
+  if (implausible.length > 0) {
+    // A device carrying kiloamperes is over its power rating too; the implausible current says why, once.
+    const named = new Set(implausible.filter((f) => f.code === 'current-implausible').map((f) => String(f.data?.['device'])));
+    // Likewise every element on a node driven far outside the rails: the node's finding names the cause.
+    const far = new Set(implausible.filter((f) => f.code === 'node-outside-rails').map((f) => circuit.nodes.indexOf(String(f.data?.['node']))));
+    for (const e of circuit.elements) if (e.nodes.some((n) => far.has(n))) named.add(e.name);
+    for (let i = findings.length - 1; i >= 0; i--) if (findings[i].code === 'power-over-rating' && named.has(String(findings[i].data?.['device']))) findings.splice(i, 1);
+    findings.push(...implausible);
   }
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
 

@@ -31,7 +31,12 @@
  *   corner-clause := "corners" tolerance
  *
  * A comment whose first word is `expect` but which holds neither a digit nor `=` is prose and is
- * ignored. The element is required on a comment line of its own and must be left out at the end of a
+ * ignored. Near misses are read as meant when nothing else can be meant: `Expect:`, `expected` or
+ * `expects` for the keyword, up to two words before it (`* Q2 expect 1mA` names Q2; `; bias: expect
+ * 1mA` is the card's), a name and a current without `=` (`* expect Q2 1mA`), a tolerance without
+ * its `%` (`±5` is ±5 %). A near miss whose current does not read is prose ("expected 0.7V at the
+ * base") and is left alone; one that fails after its current gets `target-unreadable` with the
+ * notation to write. The element is required on a comment line of its own and must be left out at the end of a
  * card. The current is a magnitude (the direction is the device's own): a BJT's collector
  * current, a MOSFET's drain current, a diode's forward current, a resistor's or source's current.
  * The tolerance defaults to the chosen resistor series' tolerance (E24: ±5 %). The corner clause
@@ -112,6 +117,8 @@ const CURRENT_CARRIERS = new Set(['R', 'L', 'V', 'I', 'E', 'F', 'G', 'H', 'D', '
 interface Parsed {
   target?: Omit<Target, 'uri' | 'span' | 'subject'> & { name?: string; nameSpan?: Span };
   problem?: { message: string; span: Span };
+  /** The problem lies after a readable current (a tolerance or trailing text): the comment was meant as a target. */
+  late?: boolean;
 }
 
 /**
@@ -129,10 +136,17 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
   let name: string | undefined;
   let nameSpan: Span | undefined;
   const eq = text.indexOf('=');
-  if (named) {
-    if (eq < 0) {
+  if (named && eq < 0) {
+    // `expect Q2 1mA`: an element name and then a number cannot mean anything else.
+    const bare = /^\s*([A-Za-z][^\s=()]*)\s+(?=[+-]?(?:\d|\.\d))/.exec(text);
+    if (!bare) {
       return { problem: { message: `A target on a comment line of its own names the element and its current, as in ${example}; this one has no \`=\`.`, span: whole } };
     }
+    name = bare[1];
+    const s0 = bare[0].indexOf(bare[1]!);
+    nameSpan = at(s0, s0 + bare[1]!.length);
+    i = bare[0].length;
+  } else if (named) {
     const rawName = text.slice(0, eq);
     const trimmedName = rawName.trim();
     if (!/^[A-Za-z][^\s=()]*$/.test(trimmedName)) {
@@ -214,10 +228,8 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
       const word = /^\S*/.exec(text.slice(i))![0];
       return { problem: { message: `${what} needs a number of percent after ±, as in ±5%; \`${word}\` is not one.`, span: at(start, i + Math.max(word.length, 1)) } };
     }
+    // A tolerance is always in percent, so `±5` without its sign reads as ±5 % (the notation's near miss, read as meant).
     i += num[0].length;
-    if (num[3] !== '%') {
-      return { problem: { message: `${what} is written in percent; add the % sign, as in ±${num[1]}%.`, span: at(start, i) } };
-    }
     const pct = Number(num[1]);
     if (!(pct > 0 && pct < 100)) {
       return { problem: { message: `${what} must lie between 0 % and 100 % (exclusive); ±${num[1]}% does not.`, span: at(start, i) } };
@@ -230,7 +242,7 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
   skip();
   if (MINUS_LIKE.test(text.slice(i))) {
     const t = readTolerance('A target tolerance');
-    if (t.problem) return { problem: t.problem };
+    if (t.problem) return { problem: t.problem, late: true };
     tolerance = t.value;
   }
   skip();
@@ -238,13 +250,14 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
   if (cornerWord) {
     i += cornerWord[0].length;
     const t = readTolerance('The corner tolerance');
-    if (t.problem) return { problem: t.problem };
+    if (t.problem) return { problem: t.problem, late: true };
     cornerTolerance = t.value;
   }
   skip();
   if (i < text.length) {
     const word = text.slice(i).trimEnd();
     return {
+      late: true,
       problem: {
         message: `The target ends with \`${word.length > 30 ? word.slice(0, 27) + '…' : word}\`, which it cannot read; after the current come only an optional tolerance (±5%) and an optional corner tolerance (corners ±20%).`,
         span: at(i, i + word.length),
@@ -263,16 +276,54 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
   };
 }
 
-/** The `expect` annotation inside a comment body, if the comment is one. */
-function annotationIn(text: string, bodyStart: number, bodyEnd: number): { after: number; span: Span } | undefined {
+/** Where an annotation sits in a comment body, and how closely it follows the notation. */
+interface AnnotationSite {
+  /** Offset just after the keyword (and its colon and spaces). */
+  after: number;
+  /** From the keyword to the end of the comment. */
+  span: Span;
+  /** `expect` as the comment's first word: the notation as documented. */
+  exact: boolean;
+  /** The keyword as written (`Expect:`, `expected`). */
+  keyword: string;
+  /** A single word before the keyword (`Q2 expect 1mA`), when there is one. */
+  leading?: { text: string; span: Span };
+}
+
+/** The comment words that start a target: `expect` as documented, and the near misses `Expect:`, `expected`, `expects`. */
+const KEYWORD = /^expect(?:ed|s)?:?$/i;
+
+/**
+ * The annotation inside a comment body, if the comment holds one: `expect` as its first word
+ * (the notation), or a near miss — the keyword with a colon or as `expected`, or after one or two
+ * words of text (`Q2 expect 1mA`, `bias: expect 1mA`). A prose comment, with neither a digit
+ * nor `=` after the keyword, holds none.
+ */
+function annotationIn(text: string, bodyStart: number, bodyEnd: number): AnnotationSite | undefined {
   const body = text.slice(bodyStart, bodyEnd);
-  const m = /^\s*(expect)(\s+|$)/i.exec(body);
-  // A prose comment that happens to start with "expect" has neither a number nor `=`; leave it alone.
-  if (!m || !/[\d=]/.test(body.slice(m[0].length))) return undefined;
-  const keyword = bodyStart + body.indexOf(m[1]);
-  let end = bodyEnd;
-  while (end > keyword && /\s/.test(text[end - 1])) end--;
-  return { after: bodyStart + m[0].length, span: { start: keyword, end } };
+  const words = /(\S+)/g;
+  let m: RegExpExecArray | null;
+  const before: { text: string; start: number }[] = [];
+  while ((m = words.exec(body)) && before.length <= 2) {
+    if (KEYWORD.test(m[1]!)) {
+      const keyword = m[1]!;
+      const after = m.index + keyword.length + (/^\s*/.exec(body.slice(m.index + keyword.length))![0].length);
+      if (!/[\d=]/.test(body.slice(after))) return undefined;
+      const exact = before.length === 0 && keyword.toLowerCase() === 'expect';
+      let end = bodyEnd;
+      while (end > bodyStart + m.index && /\s/.test(text[end - 1]!)) end--;
+      const lead = before.length === 1 ? before[0]! : undefined;
+      return {
+        after: bodyStart + after,
+        span: { start: bodyStart + m.index, end },
+        exact,
+        keyword,
+        ...(lead ? { leading: { text: lead.text, span: { start: bodyStart + lead.start, end: bodyStart + lead.start + lead.text.length } } } : {}),
+      };
+    }
+    before.push({ text: m[1]!, start: m.index });
+  }
+  return undefined;
 }
 
 /** End-of-line comments of an element card: each `;` or `$ ` outside the card's tokens, to the end of its line. */
@@ -331,12 +382,24 @@ export function readTargets(documents: Record<string, ParsedDocument>): { target
     const handle = (bodyStart: number, bodyEnd: number, card: ElementCard | undefined): void => {
       const found = annotationIn(text, bodyStart, bodyEnd);
       if (!found) return;
-      const result = parseAnnotation(text.slice(found.after, found.span.end), found.after, card === undefined, found.span);
+      const rest = text.slice(found.after, found.span.end);
+      // `* Q2 expect 1mA`: a lone element name before the keyword names the element.
+      const leadName = !card && found.leading && !rest.includes('=') && /^[A-Za-z][^\s=():]*$/.test(found.leading.text) ? found.leading : undefined;
+      const result = parseAnnotation(rest, found.after, card === undefined && !leadName, found.span);
+      if (leadName && result.target) {
+        result.target.name = leadName.text;
+        result.target.nameSpan = leadName.span;
+      }
       if (result.problem || !result.target) {
+        // A near miss of the notation whose current does not read is prose ("expected 0.7V at the base"), not a target.
+        if (!found.exact && !result.late) return;
+        const hint = found.exact
+          ? ''
+          : ` It reads as a target because of \`${found.keyword}\`; the notation is ${card ? '`; expect 1mA ±5%`' : '`* expect Q2 = 1mA ±5%`'}.`;
         findings.push({
           code: 'target-unreadable',
           severity: TARGET_CODES['target-unreadable'].severity,
-          message: result.problem?.message ?? 'The target could not be read.',
+          message: (result.problem?.message ?? 'The target could not be read.') + hint,
           uri,
           span: result.problem?.span ?? found.span,
           data: { annotation: text.slice(found.span.start, found.span.end) },

@@ -4,6 +4,7 @@ import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable
 import type { Cccs, Ccvs, Circuit, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, RelatedLocation, Span, Workspace } from '../types';
+import { nearestName } from '../syntax/nearest';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
 import { formatEngineering } from '../fixes/format';
@@ -666,13 +667,17 @@ class Elaborator {
       }
       return entry.model;
     }
+    // A defined model of a fitting kind one slip of the keyboard away is most likely what was meant.
+    const fitting: string[] = [];
+    for (const scope of inst.modelScopes) for (const entry of scope.values()) if (entry.model && kinds.includes(entry.model.kind)) fitting.push(entry.card.name.text);
+    const suggestion = nearestName(tok.text, fitting);
     this.sink.add(
       'model-not-found',
-      `No .model card defines \`${tok.text}\` for \`${card.name.text}\` (${describeLetter(card.letter)}, which needs a ${kinds.map((k) => k.toUpperCase()).join(' or ')} model).${keep}`,
+      `No .model card defines \`${tok.text}\` for \`${card.name.text}\` (${describeLetter(card.letter)}, which needs a ${kinds.map((k) => k.toUpperCase()).join(' or ')} model)${suggestion ? `; did you mean \`${suggestion}\`?` : '.'}${keep}`,
       uri,
       tok.span,
       undefined,
-      { modelName: tok.text, expectedKinds: kinds },
+      suggestion ? { modelName: tok.text, expectedKinds: kinds, suggestion } : { modelName: tok.text, expectedKinds: kinds },
     );
     return undefined;
   }

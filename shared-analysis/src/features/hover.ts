@@ -23,6 +23,7 @@ import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';
 import { maxOf, minOf } from '../arrays';
+import { recordIsOff } from '../checks/devices/context';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -140,7 +141,7 @@ function elementSection(analysis: Analysis, el: Element): string {
   }
   const nodeNames = el.nodes.map((n) => analysis.circuit?.nodes[n] ?? String(n));
   if (rec.type === 'bjt') {
-    lines.push(`Region: **${rec.region}** (${rec.polarity.toUpperCase()})`);
+    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity.toUpperCase()})`);
     lines.push(
       bullet([
         `IC ${formatQuantity(rec.ic, 'A')} · IB ${formatQuantity(rec.ib, 'A')} · IE ${formatQuantity(rec.ie, 'A')} (positive into the terminal)`,
@@ -150,7 +151,7 @@ function elementSection(analysis: Analysis, el: Element): string {
       ]),
     );
   } else if (rec.type === 'mosfet') {
-    lines.push(`Region: **${rec.region}** (${rec.polarity.toUpperCase()})`);
+    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity.toUpperCase()})`);
     const edge = rec.polarity === 'nmos' ? rec.vds - rec.vov : -rec.vds - rec.vov;
     lines.push(
       bullet([
@@ -162,7 +163,7 @@ function elementSection(analysis: Analysis, el: Element): string {
       ]),
     );
   } else if (rec.type === 'diode') {
-    lines.push(`Region: **${rec.region}**`);
+    lines.push(`Region: **${regionWord(rec)}**`);
     lines.push(bullet([`ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`, `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`]));
   } else {
     const items = [
@@ -176,6 +177,12 @@ function elementSection(analysis: Analysis, el: Element): string {
   if (power) lines.push(power);
   for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));
   return lines.join('\n\n');
+}
+
+/** The region to show: `off` when every terminal current is below the 1 pA floor, whatever the junction signs say. */
+function regionWord(rec: DeviceRecord): string {
+  if (recordIsOff(rec)) return 'off (every terminal current below 1 pA)';
+  return 'region' in rec ? rec.region : '';
 }
 
 /** `Power: 12.3 mW of 500 mW (2.5 %)` for a device or resistor with a limit. */

@@ -8,6 +8,7 @@ import { elementsOfCard, instancePrefix } from './document-index';
 import { formatQuantity } from './quantity';
 import { dissipation } from '../checks/devices/power';
 import { maxOf, minOf } from '../arrays';
+import { recordIsOff } from '../checks/devices/context';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
@@ -103,13 +104,15 @@ function baseLabel(el: Element, rec: DeviceRecord | undefined, detail: InlayDeta
   const full = detail === 'full';
   if (rec.type === 'bjt') {
     const i = formatQuantity(Math.abs(rec.ic), 'A');
-    if (full) return `IC ${i} · VCE ${formatQuantity(rec.vce, 'V')} · ${rec.region}`;
-    return rec.region === 'forward-active' ? i : `${i} · ${rec.region}`;
+    const region = recordIsOff(rec) ? 'off' : rec.region;
+    if (full) return `IC ${i} · VCE ${formatQuantity(rec.vce, 'V')} · ${region}`;
+    return region === 'forward-active' ? i : `${i} · ${region}`;
   }
   if (rec.type === 'mosfet') {
     const i = formatQuantity(Math.abs(rec.id), 'A');
-    if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${rec.region}`;
-    return rec.region === 'saturation' ? i : `${i} · ${rec.region}`;
+    const region = recordIsOff(rec) ? 'off' : rec.region;
+    if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${region}`;
+    return region === 'saturation' ? i : `${i} · ${region}`;
   }
   if (rec.type === 'diode') {
     const i = formatQuantity(rec.id, 'A');

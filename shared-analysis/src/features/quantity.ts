@@ -1,6 +1,6 @@
 // Display formatting of physical quantities for hovers and inlay hints, on top of the shared engineering formatter.
 
-import { formatEngineering, formatPercent as formatSignedPercent } from '../fixes/format';
+import { belowFloor, formatEngineering, formatPercent as formatSignedPercent } from '../fixes/format';
 
 /** Options for {@link formatQuantity}. */
 export interface QuantityFormat {
@@ -18,6 +18,8 @@ export function formatQuantity(value: number, unit = '', format: QuantityFormat 
   if (Math.abs(value) >= 1e29) return value < 0 ? '−∞' : '∞';
   // −0 (e.g. from −1 · 0 in a sign convention) is zero to a reader.
   if (value === 0) value = 0;
+  // A current, voltage or power below its noise floor is solver noise, not a value.
+  if (value !== 0 && belowFloor(value, unit)) return `≈ 0 ${unit}`;
   return unsignedZero(formatEngineering(value, { unit, digits: format.digits ?? 3, style: 'display' }));
 }
 

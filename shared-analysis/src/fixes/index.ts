@@ -9,8 +9,9 @@ import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Finding, Fix, Severity } from '../types';
 import { isSeriesName, seriesTolerance, type SeriesName } from './e-series';
 import { formatEngineering, formatPercent } from './format';
-import { missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
+import { misspeltDotCardFixes, missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
 import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingResult } from './resistor-for-current';
+import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value';
 
 /** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
 const FINER: Record<SeriesName, SeriesName | undefined> = { E12: 'E24', E24: 'E96', E48: 'E96', E96: 'E192', E192: undefined };
@@ -59,7 +60,19 @@ type FixBuilder = (finding: Finding, ctx: FixContext) => Fix[];
 export const FIX_CODES: Record<string, { severity: Severity; summary: string }> = {
   'model-not-found': {
     severity: 'error',
-    summary: 'Fix: add a `.model` card of each expected kind with every default parameter written out, after the last top-level `.model` card (or before `.end`).',
+    summary: 'Fix: first the likely slip — a misspelt `.model` card that defines the name corrected, or the model name changed to the defined one a letter away ("did you mean"); then a `.model` card of each expected kind with every default parameter written out (the kind the wiring points at first), after the last top-level `.model` card (or before `.end`).',
+  },
+  'current-implausible': {
+    severity: 'warning',
+    summary: 'Fix: write the suspect value as most likely meant (`1M` → `1meg`, `22` → `22k`), offered only when the circuit re-solved with it brings the device below an ampere; the title gives its new current.',
+  },
+  'node-outside-rails': {
+    severity: 'warning',
+    summary: 'Fix: write the suspect value as most likely meant, offered only when the circuit re-solved with it brings the node back within the rails; the title gives its new voltage.',
+  },
+  'dot-card-unknown': {
+    severity: 'warning',
+    summary: 'Fix: write the known dot card a misspelt one most likely means (`.modle` → `.model`).',
   },
   'mirror-unmatched': {
     severity: 'warning',
@@ -72,7 +85,8 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
 };
 
 const BUILDERS: Record<string, FixBuilder> = {
-  'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents),
+  'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents, ctx.circuit),
+  'dot-card-unknown': (f) => misspeltDotCardFixes(f),
   'mirror-unmatched': (f, ctx) => unifyMirrorModelFixes(f, ctx.circuit),
 };
 
@@ -98,6 +112,11 @@ export function attachFixes(findings: Finding[], ctx: FixContext): void {
       if (request) f.data = { ...(f.data ?? {}), sizing: request };
       continue;
     }
+    const rewrite = rewriteRequestOf(f);
+    if (rewrite) {
+      f.data = { ...(f.data ?? {}), sizing: rewrite };
+      continue;
+    }
     const build = BUILDERS[f.code];
     if (!build) continue;
     let fixes: Fix[] = [];
@@ -111,10 +130,19 @@ export function attachFixes(findings: Finding[], ctx: FixContext): void {
   }
 }
 
-/** The sizing marker of a finding (`data.sizing`), when it carries a well-formed one. */
+/**
+ * Whether a finding carries a marker for fixes that need the solver (`data.sizing`): a missed
+ * target's resistor sizing, or a mistyped value's rewrite. Hosts compute those with `sizingFixes`
+ * when the editor asks for code actions.
+ */
+export function hasSolvedFixes(finding: Finding): boolean {
+  return sizingRequest(finding) !== undefined || rewriteRequest(finding) !== undefined;
+}
+
+/** The resistor-sizing marker of a `target-missed` finding (`data.sizing`), when it carries a well-formed one. */
 export function sizingRequest(finding: Finding): SizingRequest | undefined {
   const m = finding.data?.['sizing'];
-  if (!m || typeof m !== 'object') return undefined;
+  if (!m || typeof m !== 'object' || 'kind' in m) return undefined;
   const r = m as Record<string, unknown>;
   if (typeof r['resistor'] !== 'string' || typeof r['device'] !== 'string') return undefined;
   if (typeof r['target'] !== 'number' || !(r['target'] > 0) || !Number.isFinite(r['target'])) return undefined;
@@ -138,6 +166,14 @@ export function sizingRequest(finding: Finding): SizingRequest | undefined {
  * a value written as an expression, or when sizing fails. Never throws.
  */
 export function sizingFixes(finding: Finding, ctx: SizingFixContext): Fix[] {
+  const rewrite = rewriteRequest(finding);
+  if (rewrite) {
+    try {
+      return rewriteFixes(rewrite, ctx.circuit, ctx.solver, ctx.options.temperatureC);
+    } catch {
+      return [];
+    }
+  }
   const request = sizingRequest(finding);
   if (!request) return [];
   try {

@@ -1,7 +1,10 @@
 // Fixes for model findings: insert a missing .model card with its defaults written out, and unify a mirror's models.
 
 import { MODEL_DEFAULTS, type Circuit, type ModelKind } from '../circuit';
+import { railsByIndex } from '../structures/rails';
 import type { Card, ParsedDocument } from '../syntax/ast';
+import { LineIndex } from '../syntax/line-index';
+import { nearestDotCard } from '../syntax/parser';
 import type { Finding, Fix, Span, TextEdit } from '../types';
 
 /** The device kinds a `.model` card can declare with defaults (everything but the resistor model). */
@@ -86,31 +89,99 @@ function isDefaultedKind(k: unknown): k is DefaultedKind {
 }
 
 /**
- * Fixes for a `model-not-found` finding (data `{ modelName: string, expectedKinds: string[] }`):
- * one fix per expected kind, inserting a `.model` card with the documented defaults into the
- * finding's document. The first kind is preferred. No fix when the data is missing or the model
- * name is not a plain word.
+ * Fixes for a `model-not-found` finding (data `{ modelName: string, expectedKinds: string[],
+ * suggestion?: string }`), the likeliest first:
+ * 1. a misspelt dot card that defines the model (`.modle QN npn …`) corrected to `.model`
+ *    (the finding's message then says so too);
+ * 2. the element's model name changed to the defined model one slip away (`data.suggestion`);
+ * 3. one `.model` card per expected kind with the documented defaults, the kind the element's
+ *    wiring points at first (a transistor whose emitter or source sits on the highest rail is a
+ *    PNP or PMOS, one on the lowest rail an NPN or NMOS).
+ * The first fix is preferred. No fix when the data is missing or the model name is not a plain word.
  */
-export function missingModelFixes(finding: Finding, documents: Record<string, ParsedDocument>): Fix[] {
+export function missingModelFixes(finding: Finding, documents: Record<string, ParsedDocument>, circuit?: Circuit): Fix[] {
   const data = finding.data ?? {};
   const modelName = data['modelName'];
   const kinds = Array.isArray(data['expectedKinds']) ? (data['expectedKinds'] as unknown[]).filter(isDefaultedKind) : [];
   const doc = documents[finding.uri];
   if (typeof modelName !== 'string' || !/^[^\s()={}'",;]+$/.test(modelName) || kinds.length === 0 || !doc) return [];
-  const seen = new Set<string>();
   const fixes: Fix[] = [];
-  for (const raw of kinds) {
-    const kind = raw.toLowerCase() as DefaultedKind;
+  const misspelt = misspeltModelCard(modelName, documents);
+  if (misspelt) {
+    const line = new LineIndex(documents[misspelt.uri]!.text).positionAt(misspelt.span.start).line + 1;
+    fixes.push({ title: `Correct \`${misspelt.command}\` to \`.model\` on line ${line}, which defines ${modelName}`, edits: [{ uri: misspelt.uri, span: misspelt.span, newText: '.model' }] });
+    if (!finding.message.includes('did you mean .model')) {
+      finding.message += ` The \`${misspelt.command} ${modelName}\` card on line ${line} looks like its definition: did you mean .model?`;
+    }
+  }
+  const suggestion = typeof data['suggestion'] === 'string' ? data['suggestion'] : undefined;
+  if (suggestion && !misspelt) {
+    fixes.push({ title: `Use model ${suggestion} (did you mean ${suggestion}?)`, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] });
+  }
+  const seen = new Set<string>();
+  for (const raw of orderedKinds(kinds.map((k) => k.toLowerCase() as DefaultedKind), finding, doc, circuit)) {
+    const kind = raw;
     if (seen.has(kind)) continue;
     seen.add(kind);
     const text = defaultModelCardText(modelName, kind);
     fixes.push({
       title: `Add a .model card for ${modelName} as ${KIND_DESCRIPTIONS[kind]} with default parameters`,
-      preferred: fixes.length === 0 ? true : undefined,
       edits: [modelInsertionEdit(doc, text)],
     });
   }
+  if (fixes.length > 0) fixes[0].preferred = true;
   return fixes;
+}
+
+/** A dot card in any document whose misspelt command means `.model` and whose first field is `modelName`. */
+function misspeltModelCard(modelName: string, documents: Record<string, ParsedDocument>): { uri: string; span: Span; command: string } | undefined {
+  const want = modelName.toLowerCase();
+  for (const doc of Object.values(documents)) {
+    for (const card of doc.cards) {
+      if (card.kind !== 'other-dot') continue;
+      const command = card.command.text;
+      if (nearestDotCard(command.toLowerCase()) !== '.model') continue;
+      const rest = doc.text.slice(card.command.span.end, card.span.end);
+      const first = /^\s+([^\s()]+)/.exec(rest)?.[1];
+      if (first && first.toLowerCase() === want) return { uri: doc.uri, span: { ...card.command.span }, command };
+    }
+  }
+  return undefined;
+}
+
+/**
+ * The expected kinds with the one the element's wiring points at first: a BJT (MOSFET) whose
+ * emitter (source) node is the circuit's highest rail is PNP (PMOS); one on its lowest rail is
+ * NPN (NMOS). The order is kept when the wiring says nothing.
+ */
+function orderedKinds(kinds: DefaultedKind[], finding: Finding, doc: ParsedDocument, circuit: Circuit | undefined): DefaultedKind[] {
+  if (!circuit || kinds.length < 2) return kinds;
+  const card = doc.cards.find((c) => c.kind === 'element' && c.span.start <= finding.span.start && finding.span.end <= c.span.end);
+  if (!card || card.kind !== 'element' || (card.letter !== 'Q' && card.letter !== 'M')) return kinds;
+  const common = card.nodes[2]?.text;
+  if (!common) return kinds;
+  const rails = railsByIndex(circuit);
+  let low = Infinity;
+  let high = -Infinity;
+  for (const r of rails.values()) {
+    low = Math.min(low, r.volts);
+    high = Math.max(high, r.volts);
+  }
+  const index = circuit.nodes.findIndex((n) => n.toLowerCase() === common.toLowerCase());
+  const rail = index >= 0 ? rails.get(index) : undefined;
+  if (!rail || !(high > low)) return kinds;
+  const wanted: DefaultedKind | undefined =
+    rail.volts === high ? (card.letter === 'Q' ? 'pnp' : 'pmos') : rail.volts === low ? (card.letter === 'Q' ? 'npn' : 'nmos') : undefined;
+  if (!wanted || !kinds.includes(wanted)) return kinds;
+  return [wanted, ...kinds.filter((k) => k !== wanted)];
+}
+
+/** The fix for a `dot-card-unknown` finding that carries a near known command (`data.suggestion`): write that command instead. */
+export function misspeltDotCardFixes(finding: Finding): Fix[] {
+  const suggestion = finding.data?.['suggestion'];
+  const command = finding.data?.['command'];
+  if (typeof suggestion !== 'string' || typeof command !== 'string') return [];
+  return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] }];
 }
 
 /** One device of a mismatched mirror as the `mirror-unmatched` finding describes it. */

@@ -34,7 +34,7 @@ export const SYNTAX_CODES = {
   'endl-name-mismatch': { severity: 'warning', summary: '`.endl NAME` where NAME is not the section being closed.' },
   'temp-missing-value': { severity: 'error', summary: '`.temp` without a temperature.' },
   'text-after-end': { severity: 'hint', summary: 'Non-blank text after `.end`; it is not read.' },
-  'dot-card-unknown': { severity: 'warning', summary: 'A dot card qpoint neither reads nor knows to skip; it is skipped and its command is named (`data.command`).' },
+  'dot-card-unknown': { severity: 'warning', summary: 'A dot card qpoint neither reads nor knows to skip; it is skipped and its command is named (`data.command`), with the known card it most likely means (`data.suggestion`, "did you mean .model?") and a fix that writes it.' },
   'block-not-closed': { severity: 'warning', summary: 'A script, control or data block (`.control`, `.data`, ...) that the file never closes; everything after it is skipped.' },
   'condition-missing-endif': { severity: 'error', summary: 'An `.if` that no `.endif` closes.' },
   'condition-without-if': { severity: 'error', summary: 'An `.elseif`, `.else` or `.endif` with no open `.if`.' },

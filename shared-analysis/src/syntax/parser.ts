@@ -26,6 +26,7 @@ import type {
 } from './ast';
 import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
+import { nearestName } from './nearest';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -705,6 +706,14 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   return parseElement(ctx, head.tok, items, span, tokens);
 }
 
+/** Every dot command the parser knows, read or skipped, for "did you mean" on a misspelt one. */
+const KNOWN_DOT_COMMANDS = [...DOT_COMMANDS, ...SKIPPED_CARDS.keys(), ...SKIPPED_BLOCKS.keys(), ...SKIPPED_BLOCKS.values()];
+
+/** The known dot command a misspelt one most likely means (`.modle` → `.model`), when one is unambiguously close. */
+export function nearestDotCard(command: string): string | undefined {
+  return nearestName(command, KNOWN_DOT_COMMANDS);
+}
+
 /**
  * Reads the dot cards whose fields are not lexed: skipped cards (only their command is kept),
  * unknown dot cards (reported with their command), `.func`, and the `.if` family, whose
@@ -729,12 +738,13 @@ function readDotHead(ctx: Context, segments: Segment[], span: Span): Card | unde
   if (cmd === '.func') return readFunc(ctx, segments, span, command);
   if (cmd === '.if' || cmd === '.elseif' || cmd === '.else' || cmd === '.endif') return readCondition(ctx, segments, span, command, cmd.slice(1) as ConditionCard['branch']);
   if (DOT_COMMANDS.has(cmd)) return undefined;
+  const suggestion = nearestDotCard(cmd);
   addError(
     ctx,
     'dot-card-unknown',
-    `${shorten(head)} is not a dot card qpoint reads or knows to skip; it is skipped, and nothing in it takes part in the analysis.`,
+    `${shorten(head)} is not a dot card qpoint reads or knows to skip${suggestion ? ` (did you mean ${suggestion}?)` : ''}; it is skipped, and nothing in it takes part in the analysis.`,
     command.span,
-    { command: head },
+    suggestion ? { command: head, suggestion } : { command: head },
   );
   return { kind: 'other-dot', span, tokens: [command], command };
 }

@@ -92,11 +92,41 @@ describe('readTargets: valid annotations', () => {
     check("t\nR1 a b {1k} ; expect 1mA\n", { targets: [{ subject: 'R1', kind: 'card', current: 1e-3 }] }));
 });
 
-describe('readTargets: malformed annotations are located', () => {
-  it('a standalone target without `=`', () =>
-    check('t\n* expect Q2 1mA\n', {
+describe('readTargets: near misses of the notation', () => {
+  // Each is unambiguous, so it is read as meant rather than refused.
+  it('a tolerance without % is a percentage', () =>
+    check('t\nR1 a b 1k ; expect 1mA ±5\n', { targets: [{ subject: 'R1', kind: 'card', current: 1e-3, tolerance: 0.05 }] }));
+
+  it('`Expect:` with a capital and a colon', () =>
+    check('t\nQ2 c b 0 qn ; Expect: 450uA ±2%\n', { targets: [{ subject: 'Q2', kind: 'card', current: 450e-6, tolerance: 0.02 }] }));
+
+  it('`expected` on a comment line of its own', () =>
+    check('t\n* expected Q3 = 2mA\n', { targets: [{ subject: 'Q3', kind: 'name', current: 2e-3 }] }));
+
+  it('an element name and a current without `=`', () =>
+    check('t\n* expect Q2 1mA\n', { targets: [{ subject: 'Q2', kind: 'name', current: 1e-3 }] }));
+
+  it('the element named before the keyword', () =>
+    check('t\n* Q2 expect 1mA ±5%\n', { targets: [{ subject: 'Q2', kind: 'name', current: 1e-3, tolerance: 0.05 }] }));
+
+  it('text before the keyword at the end of a card', () =>
+    check('t\nQ2 c b 0 qn ; bias: expect 1mA\n', { targets: [{ subject: 'Q2', kind: 'card', current: 1e-3 }] }));
+
+  it('prose that happens to use the word is left alone', () =>
+    check('t\nQ1 c b 0 qn ; expected 0.7V at the base\n* we expect the lamp to light\n', { targets: [] }));
+
+  it('a near miss that goes wrong after its current says what to write', () =>
+    check('t\nQ2 c b 0 qn ; Expect: 1mA give or take\n', {
       targets: [],
-      problems: [{ code: 'target-unreadable', spanText: 'expect Q2 1mA', says: 'no `=`' }],
+      problems: [{ code: 'target-unreadable', spanText: 'give or take', says: 'the notation is `; expect 1mA ±5%`' }],
+    }));
+});
+
+describe('readTargets: malformed annotations are located', () => {
+  it('a standalone target without `=` and without a name', () =>
+    check('t\n* expect 1mA\n', {
+      targets: [],
+      problems: [{ code: 'target-unreadable', spanText: 'expect 1mA', says: 'no `=`' }],
     }));
 
   it('a current that is not a number', () =>
@@ -117,11 +147,6 @@ describe('readTargets: malformed annotations are located', () => {
       problems: [{ code: 'target-unreadable', spanText: '4m7', says: 'write 4.7m' }],
     }));
 
-  it('a tolerance without %', () =>
-    check('t\nR1 a b 1k ; expect 1mA ±5\n', {
-      targets: [],
-      problems: [{ code: 'target-unreadable', spanText: '±5', says: 'add the % sign' }],
-    }));
 
   it('a zero or negative current', () => {
     check('t\nR1 a b 1k ; expect 0mA\n', { targets: [], problems: [{ code: 'target-unreadable', spanText: '0mA', says: 'zero' }] });

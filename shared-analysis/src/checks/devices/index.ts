@@ -6,6 +6,7 @@ import type { DeviceRecord } from '../../solve/types';
 import type { Finding, Severity } from '../../types';
 import { JudgeContext, type DeviceCheckContext } from './context';
 import { judgeDiode } from './diode';
+import { isPowered } from '../plausibility';
 import { dissipation, powerLimit } from './power';
 import { judgeBjt, judgeMosfet, type JudgeMemory } from './transistors';
 import { pushAll } from '../../arrays';
@@ -76,7 +77,8 @@ export const MAX_FINDINGS_PER_CODE = 20;
  */
 export function judgeDevices(ctx: DeviceCheckContext): Finding[] {
   const { circuit, op } = ctx;
-  if (!op.converged) return [];
+  // An unpowered circuit has every device at zero bias; `circuit-not-powered` says so once instead.
+  if (!op.converged || !isPowered(circuit)) return [];
   const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES);
   const memory: JudgeMemory = { branches: new Set() };
   for (const el of circuit.elements) {
