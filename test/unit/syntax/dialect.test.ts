@@ -79,7 +79,14 @@ describe('analysis and output cards', () => {
     expect(codes(doc)).toEqual(['dot-card-unknown']);
     const e = doc.errors[0]!;
     expect(doc.text.slice(e.span.start, e.span.end)).toBe('.modle');
-    expect(e.data).toEqual({ command: '.modle' });
+    // One transposed pair of letters from a known card: it is named as what was most likely meant.
+    expect(e.data).toEqual({ command: '.modle', suggestion: '.model' });
+    expect(e.message).toContain('did you mean .model?');
+  });
+
+  it('names no suggestion for a dot card nothing known is close to', () => {
+    const doc = read('t\n.frobnicate x\n');
+    expect(doc.errors[0]!.data).toEqual({ command: '.frobnicate' });
   });
 
   it('ends the analysed netlist at .alter and keeps the alternatives as one card', () => {
