@@ -106,8 +106,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     // Likewise every element on a node driven far outside the rails: the node's finding names the cause.
     const far = new Set(implausible.filter((f) => f.code === 'node-outside-rails').map((f) => circuit.nodes.indexOf(String(f.data?.['node']))));
     for (const e of circuit.elements) if (e.nodes.some((n) => far.has(n))) named.add(e.name);
-    for (let i = findings.length - 1; i >= 0; i--) if (findings[i].code === 'power-over-rating' && named.has(String(findings[i].data?.['device']))) findings.splice(i, 1);
-    findings.push(...implausible);
+    let kept = 0;
+    for (const f of findings) if (!(f.code === 'power-over-rating' && named.has(String(f.data?.['device'])))) findings[kept++] = f;
+    findings.length = kept;
+    pushAll(findings, implausible);
   }
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
 

@@ -10,6 +10,7 @@ import { topologyOf } from '../structures/topology';
 import type { ParsedDocument } from '../syntax/ast';
 import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { powerLimit } from './devices/power';
+import { pushAll } from '../arrays';
 
 /** Every finding code this module owns, with its default severity and a one-line summary for the README. */
 export const PLAUSIBILITY_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -68,7 +69,10 @@ export function checkPlausibility(ctx: PlausibilityContext): Finding[] {
   try {
     const unpowered = notPowered(ctx);
     if (unpowered) return [unpowered];
-    if (ctx.op?.converged) out.push(...implausibleCurrents(ctx), ...nodesOutsideRails(ctx));
+    if (ctx.op?.converged) {
+      pushAll(out, implausibleCurrents(ctx));
+      pushAll(out, nodesOutsideRails(ctx));
+    }
   } catch {
     // A plausibility check is advice; a defect in it must not take the analysis down.
   }
