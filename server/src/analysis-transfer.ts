@@ -6,6 +6,7 @@ import type { Card, Token } from '../../shared-analysis/src/syntax/ast';
 import type { DeviceRecord } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding } from '../../shared-analysis/src/types';
+import { nameTable } from '../../shared-analysis/src/names';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
 const PART_SIZE = 400;
@@ -61,7 +62,7 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
   if (operatingPoint) {
     slices(Object.entries(operatingPoint.devices), (items) => ({ kind: 'devices', items }));
     // The header's copy must not share the emptied map with the analysis the builders read.
-    operatingPoint = { ...operatingPoint, devices: {} };
+    operatingPoint = { ...operatingPoint, devices: nameTable() };
   }
   slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   slices(analysis.structures, (items) => ({ kind: 'structures', items }));
@@ -107,7 +108,7 @@ function encodeCard(card: Card): EncodedCard {
       const i = index.get(v as Token);
       if (i !== undefined) return { $t: i };
       if (isToken(v)) return { $tok: [v.span.start, v.span.end, v.kind === 'expr' ? 1 : 0] };
-      const out: Record<string, unknown> = {};
+      const out: Record<string, unknown> = nameTable();
       for (const [k, x] of Object.entries(v)) out[k] = encode(x);
       return out;
     }
@@ -127,7 +128,7 @@ function decodeCard(text: string, enc: EncodedCard): Card {
       const tagged = v as { $t?: number; $tok?: [number, number, number] };
       if (typeof tagged.$t === 'number') return tokens[tagged.$t];
       if (tagged.$tok) return token(tagged.$tok);
-      const out: Record<string, unknown> = {};
+      const out: Record<string, unknown> = nameTable();
       for (const [k, x] of Object.entries(v)) out[k] = decode(x);
       return out;
     }
@@ -145,7 +146,7 @@ function isToken(v: object): v is Token {
 
 /** An element as JSON-safe data: its model by key, non-finite numbers as `{ $num }`. */
 function encodeElement(e: Element, keyOf: Map<unknown, string>): Record<string, unknown> {
-  const out: Record<string, unknown> = {};
+  const out: Record<string, unknown> = nameTable();
   for (const [k, v] of Object.entries(e)) {
     if (k === 'model' && v && typeof v === 'object') {
       const key = keyOf.get(v);

@@ -16,6 +16,7 @@ import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import type { FromWorker, ToWorker } from './worker-messages';
+import { nameTable } from '../../shared-analysis/src/names';
 
 const workspace = new FileWorkspace();
 const openTexts = new Map<string, string>();
@@ -53,7 +54,7 @@ function keptHolding(uri: string): Kept | undefined {
 
 /** Text-only documents (no cards): enough for reading a value field's text; the parsed cards are large and the main thread has them. */
 function textDocuments(texts: Map<string, string>): Record<string, ParsedDocument> {
-  const out: Record<string, ParsedDocument> = {};
+  const out: Record<string, ParsedDocument> = nameTable();
   for (const [uri, text] of texts) out[uri] = { uri, text, cards: [], errors: [] };
   return out;
 }
@@ -165,7 +166,7 @@ function handle(msg: ToWorker): void {
       const findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal });
       kept.nominal = undefined;
       if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
-      const corners: Record<string, Structure['corners']> = {};
+      const corners: Record<string, Structure['corners']> = nameTable();
       for (const st of kept.analysis.structures) corners[st.id] = st.corners;
       post({ type: 'cornered', id: msg.id, findings, corners });
       return;

@@ -68,6 +68,7 @@ import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
+import { restoreNameTables } from '../../shared-analysis/src/names';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -373,6 +374,7 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
     const c = r.corners[s.id];
     if (c) s.corners = c;
   }
+  restoreNameTables(analysis);
   // Appended, so the indices of published diagnostics stay valid.
   pushAll(analysis.findings, r.findings);
   log(`Solved the corners of ${basename(uri)} in ${Date.now() - t0} ms: ${r.findings.length} finding${r.findings.length === 1 ? '' : 's'}.`);

@@ -4,6 +4,7 @@ import type { AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/
 import type { InlayDetail } from '../../shared-analysis/src/features/inlay';
 import type { Severity } from '../../shared-analysis/src/types';
 import { crossCheckCorners, OPTION_RULES, type NumberRule } from './option-rules';
+import { nameTable } from '../../shared-analysis/src/names';
 
 /** Everything the server takes from the `qpoint` configuration section. */
 export interface ServerSettings {
@@ -93,7 +94,7 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
 
   const sev = get('findingSeverity');
   if (isRecord(sev)) {
-    const severities: Record<string, Severity | 'off'> = {};
+    const severities: Record<string, Severity | 'off'> = nameTable();
     for (const [code, level] of Object.entries(sev)) {
       if (typeof level === 'string' && (SEVERITIES as string[]).includes(level)) severities[code] = level as Severity | 'off';
       else problems.push(`Setting qpoint.findingSeverity["${code}"] = ${JSON.stringify(level)} is ignored: it must be one of ${SEVERITIES.join(', ')}.`);

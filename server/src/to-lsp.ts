@@ -25,6 +25,7 @@ import type { InlayHintData } from '../../shared-analysis/src/features/inlay';
 import type { OutlineKind, OutlineSymbol } from '../../shared-analysis/src/features/symbols';
 import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, Location as EngineLocation, Severity, Span, TextEdit } from '../../shared-analysis/src/types';
+import { nameTable } from '../../shared-analysis/src/names';
 
 /** Converts between one text's UTF-16 offsets and LSP positions in the negotiated encoding. */
 export class PositionConverter {
@@ -113,7 +114,7 @@ export function toDiagnostic(f: Finding, index: number, version: number | undefi
 
 /** Engine text edits as an LSP WorkspaceEdit; edits into documents whose text is unknown are dropped. */
 export function toWorkspaceEdit(edits: TextEdit[], lookup: ConverterLookup): WorkspaceEdit | undefined {
-  const changes: Record<string, LspTextEdit[]> = {};
+  const changes: Record<string, LspTextEdit[]> = nameTable();
   for (const e of edits) {
     const c = lookup(e.uri);
     if (!c) return undefined;

@@ -6,6 +6,7 @@ import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-ind
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import { indexBuilder } from '../../shared-analysis/src/features/document-index';
 import { mergePart } from './analysis-transfer';
+import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
@@ -152,7 +153,8 @@ export class WorkerHost {
     const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater }), `The analysis of ${uri}`);
     if (msg.type !== 'analysed') throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
     const t0 = Date.now();
-    const analysis = msg.analysis;
+    // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
+    const analysis = restoreNameTables(msg.analysis);
     // Keep a few part requests in flight so the worker prepares the next while this thread merges one.
     const ask = (index: number) => {
       const p = this.request((rid) => ({ type: 'next-part', id: rid, analysisId: msg.id, index }), `Taking in part ${index + 1} of the analysis of ${uri}`);
@@ -176,6 +178,7 @@ export class WorkerHost {
       await new Promise((r) => setImmediate(r));
     }
     elementIndex?.finish(analysis);
+    restoreNameTables(analysis);
     return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
 

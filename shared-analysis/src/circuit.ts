@@ -1,6 +1,7 @@
 // The elaborated circuit: parameters evaluated, includes read, subcircuits flattened. Solver and recognisers work on this.
 
 import type { Span } from './types';
+import { nameTable } from './names';
 
 /** Where an elaborated object came from, so findings can point at the text. */
 export interface Origin {
@@ -179,10 +180,10 @@ export interface Circuit {
 }
 
 /** Default model parameters per kind (DESIGN.md), upper-case names. */
-export const MODEL_DEFAULTS: Record<Exclude<ModelKind, 'r'>, Record<string, number>> = {
+export const MODEL_DEFAULTS: Record<Exclude<ModelKind, 'r'>, Record<string, number>> = nameTable<Record<string, number>>({
   npn: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
   pnp: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
   d: { IS: 1e-14, N: 1, RS: 0, XTI: 3, EG: 1.11 },
   nmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
   pmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
-};
+}) as Record<Exclude<ModelKind, 'r'>, Record<string, number>>;

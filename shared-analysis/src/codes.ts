@@ -11,6 +11,7 @@ import { CORNER_CODES } from './checks/corners';
 import { STARTUP_CODES } from './checks/startup';
 import { TARGET_CODES } from './checks/targets';
 import { FIX_CODES } from './fixes/index';
+import { nameTable } from './names';
 
 export interface CodeInfo {
   severity: Severity;
@@ -27,7 +28,7 @@ export const HOST_CODES: Record<string, { severity: Severity; summary: string }>
 
 /** Code -> default severity, one-line summary and owning group. */
 export function findingCatalogue(): Record<string, CodeInfo> {
-  const out: Record<string, CodeInfo> = {};
+  const out: Record<string, CodeInfo> = nameTable();
   const groups: [CodeInfo['group'], Record<string, { severity: Severity; summary: string }>][] = [
     ['syntax', SYNTAX_CODES],
     ['netlist', NETLIST_CODES],

@@ -18,6 +18,7 @@ import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Workspace } from './types';
 import { netlistSeverity } from './checks/netlist';
 import { pushAll } from './arrays';
+import { nameTable } from './names';
 
 declare const performance: { now(): number };
 
@@ -53,7 +54,7 @@ export function analyse(input: AnalysisInput, workspace: Workspace, options: Ana
 /** `analyse`, also returning the prepared solver and the nominal solution for `addCorners` and `sizingFixesOf`. */
 export function analyseSession(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}): AnalysisSession {
   const resolved = resolveOptions(options);
-  const timings: Record<string, number> = {};
+  const timings: Record<string, number> = nameTable();
   const timed = <T>(stage: string, run: () => T): T => {
     const t0 = performance.now();
     try {

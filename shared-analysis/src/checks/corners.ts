@@ -11,6 +11,7 @@ import { structureVoltages, summariseVoltageCorners } from '../structures/voltag
 import type { CornerResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
+import { nameTable } from '../names';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const CORNER_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -177,7 +178,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const measured: (Measurement | undefined)[][] = structures.map(() => []);
   const voltagesAt: (Record<string, number> | undefined)[][] = structures.map(() => []);
   for (const spec of specs) {
-    const sourceValues: Record<string, number> = {};
+    const sourceValues: Record<string, number> = nameTable();
     for (const name of sources) {
       const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
       if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
@@ -369,7 +370,7 @@ function finite(x: number | undefined): number {
 }
 
 function mapFinite(m: Record<string, number>): Record<string, number> {
-  const out: Record<string, number> = {};
+  const out: Record<string, number> = nameTable();
   for (const [k, v] of Object.entries(m)) out[k] = finite(v);
   return out;
 }

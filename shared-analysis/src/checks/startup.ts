@@ -12,6 +12,7 @@ import { polaritySign, topologyOf, type Topology, type Transistor } from '../str
 import type { StartupResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { cornerSpecs, supplySources } from './corners';
+import { nameTable } from '../names';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const STARTUP_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -108,7 +109,7 @@ function startupConditions(circuit: Circuit, options: ResolvedOptions, nominalC:
   // Beta does not move the zero state (no device conducts); supply and temperature do (a start-up device's threshold).
   for (const spec of cornerSpecs(options, nominalC, sources, { bipolar: false })) {
     if (spec.singleSource !== undefined) continue;
-    const sourceValues: Record<string, number> = {};
+    const sourceValues: Record<string, number> = nameTable();
     if (spec.supplyScale !== 1) for (const n of sources) sourceValues[n] = (dcOf.get(n) ?? 0) * spec.supplyScale;
     out.push({ label: spec.label, temperatureC: spec.temperatureC, sourceValues });
   }

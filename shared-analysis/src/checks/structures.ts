@@ -17,6 +17,7 @@ import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } f
 import type { Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
+import { nameTable } from '../names';
 
 export { measureStructure } from '../structures/measure';
 export type { Measurement } from '../structures/measure';
@@ -179,13 +180,13 @@ class StructureCheck {
     if (this.op) {
       this.measured = measureStructure(this.circuit, this.op, s, this.topo);
       for (const d of s.devices) if (recordIsOff(this.op.devices[d])) this.off.add(d);
-      s.solved = { iref: this.measured.iref, iout: { ...this.measured.iout } };
+      s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
       s.headroom = { ...this.measured.headroom };
     } else {
       s.solved = undefined;
       s.headroom = {};
     }
-    const outputVolts: Record<string, number> = {};
+    const outputVolts: Record<string, number> = nameTable();
     if (this.op) {
       for (const o of s.outputs) {
         const x = this.v(this.t(o.device).out);
@@ -286,7 +287,7 @@ class StructureCheck {
   }
 
   private outputResistance(): Record<string, number> {
-    const res: Record<string, number> = {};
+    const res: Record<string, number> = nameTable();
     const kind = kindOf(this.s.kind);
     const ctx: ResistanceContext = {
       s: this.s,
@@ -649,7 +650,7 @@ function jsonSafe(data: Record<string, unknown>): Record<string, unknown> {
     if (typeof v === 'number') return Number.isFinite(v) ? v : v > 0 ? UNBOUNDED_OHMS : v < 0 ? -UNBOUNDED_OHMS : null;
     if (Array.isArray(v)) return v.map(fix);
     if (v && typeof v === 'object') {
-      const o: Record<string, unknown> = {};
+      const o: Record<string, unknown> = nameTable();
       for (const [k, x] of Object.entries(v)) if (x !== undefined) o[k] = fix(x);
       return o;
     }

@@ -4,6 +4,7 @@ import { create, parseDependencies } from 'mathjs';
 import type { MathNode } from 'mathjs';
 import type { RelatedLocation, Span } from '../types';
 import { splitSuffix } from './units';
+import { nameTable } from '../names';
 
 const math = create({ parseDependencies });
 
@@ -31,7 +32,7 @@ export interface ExpressionError {
 export type EvalResult = { ok: true; value: number } | { ok: false; error: ExpressionError };
 
 /** The math functions an expression may call, with their allowed argument counts and implementations. */
-const FUNCTIONS: Record<string, { min: number; max: number; fn: (...a: number[]) => number }> = {
+const FUNCTIONS: Record<string, { min: number; max: number; fn: (...a: number[]) => number }> = nameTable({
   abs: { min: 1, max: 1, fn: Math.abs },
   sqrt: { min: 1, max: 1, fn: Math.sqrt },
   exp: { min: 1, max: 1, fn: Math.exp },
@@ -58,13 +59,13 @@ const FUNCTIONS: Record<string, { min: number; max: number; fn: (...a: number[])
   tanh: { min: 1, max: 1, fn: Math.tanh },
   sign: { min: 1, max: 1, fn: Math.sign },
   hypot: { min: 1, max: Infinity, fn: Math.hypot },
-};
+});
 
 /** The function names an expression may call, for messages and completions. */
 export const ALLOWED_FUNCTIONS: readonly string[] = Object.keys(FUNCTIONS);
 
 /** Named constants every scope sees (parameters of the same name take precedence). */
-const CONSTANTS: Record<string, number> = { pi: Math.PI, e: Math.E };
+const CONSTANTS: Record<string, number> = nameTable({ pi: Math.PI, e: Math.E });
 
 /** Unit words a number inside an expression may carry after its scale suffix (`{10kOhm}`, `{5V}`). */
 const UNIT_WORDS = new Set(['v', 'volt', 'volts', 'a', 'amp', 'amps', 'ohm', 'ohms', 'hz', 's', 'sec', 'w', 'h', 'henry', 'f', 'farad', 'm', 'meter', 'metre']);
@@ -74,14 +75,14 @@ const ALLOWED_OPERATORS = new Set([
   'equal', 'unequal', 'smaller', 'larger', 'smallerEq', 'largerEq', 'and', 'or', 'xor', 'not',
 ]);
 
-const RELATIONAL: Record<string, (a: number, b: number) => boolean> = {
+const RELATIONAL: Record<string, (a: number, b: number) => boolean> = nameTable({
   equal: (a, b) => nearlyEqual(a, b),
   unequal: (a, b) => !nearlyEqual(a, b),
   smaller: (a, b) => a < b && !nearlyEqual(a, b),
   larger: (a, b) => a > b && !nearlyEqual(a, b),
   smallerEq: (a, b) => a <= b || nearlyEqual(a, b),
   largerEq: (a, b) => a >= b || nearlyEqual(a, b),
-};
+});
 
 /** A leaf of the expression (number, name or boolean) with its place in the source text. */
 interface Leaf {

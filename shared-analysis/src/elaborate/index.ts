@@ -12,6 +12,7 @@ import { Sink } from './sink';
 import { readSources, type Body, type Located, type SubcktDef } from './sources';
 import { expressionOf, tokenValue, type ValueResult } from './values';
 import { pushAll } from '../arrays';
+import { nameTable } from '../names';
 
 /** Per-call elaboration settings. */
 export interface ElaborateOptions {
@@ -41,7 +42,7 @@ export const MAX_INSTANCE_DEPTH = 100;
 const ABSOLUTE_ZERO_C = -273.15;
 
 /** Element parameters each letter reads; others get `element-unknown-parameter`. Geometry of junction areas is accepted silently. */
-const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
+const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nameTable({
   R: { used: ['M', 'RATEDPOWER'], silent: [] },
   C: { used: ['M'], silent: ['IC'] },
   L: { used: ['M'], silent: ['IC'] },
@@ -54,10 +55,10 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = {
   D: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
   Q: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
   M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
-};
+});
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
-const NODE_COUNT: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 };
+const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 });
 
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
@@ -107,8 +108,8 @@ export function elaborate(root: ParsedDocument, workspace: Workspace, options: E
     // A last line of defence: a defect must not take the editor down. The fuzz tests make sure this stays unused.
     sink.add('elaboration-internal-error', `Elaboration stopped because of an internal error (${e instanceof Error ? e.message : String(e)}); please report this netlist.`, root.uri, { start: 0, end: 0 });
     return {
-      circuit: { title: titleOf(root, undefined), nodes: ['0'], elements: [], models: {}, temperatureC: DEFAULT_TEMPERATURE_C, tnomC: DEFAULT_TEMPERATURE_C, params: {} },
-      documents: { [root.uri]: root },
+      circuit: { title: titleOf(root, undefined), nodes: ['0'], elements: [], models: nameTable(), temperatureC: DEFAULT_TEMPERATURE_C, tnomC: DEFAULT_TEMPERATURE_C, params: nameTable() },
+      documents: nameTable({ [root.uri]: root }),
       symbols: { params: [], models: [], subckts: [], includes: [] },
       findings: sink.findings,
     };
@@ -122,7 +123,7 @@ class Elaborator {
   private readonly elements: Element[] = [];
   /** Lower-case hierarchical name -> the card that first used it (elements and instances), for duplicates. */
   private readonly names = new Map<string, Located<ElementCard>>();
-  private readonly models: Record<string, Model> = {};
+  private readonly models: Record<string, Model> = nameTable();
   private readonly controls: { element: Cccs | Ccvs; token: Token; uri: string; full: string }[] = [];
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
@@ -183,7 +184,7 @@ class Elaborator {
     if (read.missing.length > 0) this.summariseMissing(read.missing);
 
     const { temperatureC, tnomC } = this.temperatures(allBodies, top);
-    const params: Record<string, number> = {};
+    const params: Record<string, number> = nameTable();
     for (const e of top.entries()) if (e.result.ok) params[e.name] = e.result.value;
 
     const circuit: Circuit = {
@@ -1070,7 +1071,7 @@ class Elaborator {
   private subcktSymbols(defs: SubcktDef[], topScope: ParamScope): SubcktSymbol[] {
     return defs.map((def) => {
       const scope = this.definitionScope(def, topScope);
-      const params: Record<string, number | undefined> = {};
+      const params: Record<string, number | undefined> = nameTable();
       for (const a of def.card.params) {
         const r = scope.lookup(a.name.text, a.name.span);
         params[a.name.text] = r.ok ? r.value : undefined;
@@ -1096,7 +1097,7 @@ function missingName(f: Finding): string | undefined {
 }
 
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */
-const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = {
+const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nameTable({
   J: { one: 'junction FET', many: 'junction FETs', dc: true },
   Z: { one: 'MESFET', many: 'MESFETs', dc: true },
   S: { one: 'voltage-controlled switch', many: 'voltage-controlled switches', dc: true },
@@ -1111,7 +1112,7 @@ const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = {
   A: { one: 'mixed-signal (code model) element', many: 'mixed-signal (code model) elements', dc: true },
   N: { one: 'model-defined device', many: 'model-defined devices', dc: true },
   behaviour: { one: 'controlled source in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', many: 'controlled sources in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', dc: true },
-};
+});
 
 /** The left-out kind of an element the solver does not read yet, or undefined for one it solves. */
 function leftOutKind(card: ElementCard): string | undefined {

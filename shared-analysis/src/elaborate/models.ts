@@ -6,9 +6,10 @@ import type { ParamScope } from './expressions';
 import type { Sink } from './sink';
 import { tokenValue } from './values';
 import { formatEngineering } from '../fixes/format';
+import { nameTable } from '../names';
 
 /** Type words of a `.model` card, case-insensitive. */
-const KIND_OF_TYPE: Record<string, ModelKind> = { npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r' };
+const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r' });
 
 /** The device kinds each element letter accepts. */
 export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'R', ModelKind[]> = {
@@ -55,7 +56,7 @@ const UNKNOWN_LISTED_ONE_BY_ONE = 3;
 const DC_RELEVANT = new Set(['RB', 'RE', 'RC', 'IKF', 'IKR', 'ISE', 'ISC', 'VAR', 'BV', 'RD', 'RS']);
 
 /** Range rules: a predicate the value must meet and the phrase shown when it does not. */
-const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = {
+const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = nameTable({
   IS: { ok: (v) => v > 0, must: 'must be greater than 0' },
   BF: { ok: (v) => v > 0, must: 'must be greater than 0' },
   BR: { ok: (v) => v > 0, must: 'must be greater than 0' },
@@ -69,7 +70,7 @@ const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = {
   RS: { ok: (v) => v >= 0, must: 'cannot be negative' },
   GAMMA: { ok: (v) => v >= 0, must: 'cannot be negative' },
   LAMBDA: { ok: (v) => v >= 0, must: 'cannot be negative' },
-};
+});
 
 /** Where and how a model card is being elaborated. */
 export interface ModelContext {
@@ -101,7 +102,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   const origin: Origin = { uri, span: card.span, instances: ctx.instances };
   if (kind === 'r') {
     // Resistor models are accepted; their parameters do not enter the DC equations here.
-    const params: Record<string, number> = {};
+    const params: Record<string, number> = nameTable();
     for (const a of card.params) {
       const v = tokenValue(a.value, scope, uri);
       if (v.ok) params[a.name.text.toUpperCase()] = v.value;
@@ -112,10 +113,10 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
 
   const defaults = MODEL_DEFAULTS[kind];
   const used = Object.keys(defaults);
-  const params: Record<string, number> = { ...defaults };
+  const params: Record<string, number> = nameTable(defaults);
   const given: string[] = [];
   const ignored: string[] = [];
-  const ratings: Record<string, number> = {};
+  const ratings: Record<string, number> = nameTable();
   const seen = new Map<string, (typeof card.params)[number]>();
   let vtoAssignment: (typeof card.params)[number] | undefined;
   const unknown: (typeof card.params)[number][] = [];

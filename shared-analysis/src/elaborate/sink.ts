@@ -2,6 +2,7 @@
 
 import { netlistSeverity } from '../checks/netlist';
 import type { Finding, RelatedLocation, Span } from '../types';
+import { nameTable } from '../names';
 
 /**
  * The findings of one elaboration. A subcircuit instantiated many times reports a problem in its
@@ -25,7 +26,7 @@ export class Sink {
 
 /** Replaces non-finite numbers (not allowed in finding data) by their text. */
 function jsonSafe(data: Record<string, unknown>): Record<string, unknown> {
-  const out: Record<string, unknown> = {};
+  const out: Record<string, unknown> = nameTable();
   for (const [k, v] of Object.entries(data)) out[k] = typeof v === 'number' && !Number.isFinite(v) ? String(v) : v;
   return out;
 }

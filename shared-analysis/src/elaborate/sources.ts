@@ -6,6 +6,7 @@ import type { IncludeSymbol } from '../analysis';
 import type { Workspace } from '../types';
 import type { Sink } from './sink';
 import { findInclude } from './include-search';
+import { nameTable } from '../names';
 
 /** Deepest chain of nested includes followed. */
 export const MAX_INCLUDE_DEPTH = 64;
@@ -52,7 +53,7 @@ export interface ReadResult {
  * files and missing sections are reported to `sink`.
  */
 export function readSources(root: ParsedDocument, workspace: Workspace, sink: Sink, folders: readonly string[] = []): ReadResult {
-  const documents: Record<string, ParsedDocument> = { [root.uri]: root };
+  const documents: Record<string, ParsedDocument> = nameTable({ [root.uri]: root });
   const includes: IncludeSymbol[] = [];
   const allDefs: SubcktDef[] = [];
   const missing: ReadResult['missing'] = [];

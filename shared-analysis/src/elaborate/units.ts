@@ -1,10 +1,11 @@
 // Reads netlist numbers with engineering scale suffixes and trailing unit letters.
 
+import { nameTable } from '../names';
 /** The result of reading one number: its value, or a message saying what is wrong with the text. */
 export type NumberResult = { ok: true; value: number } | { ok: false; message: string };
 
 /** Scale suffixes by lower-case spelling. `meg` and `mil` are tried before `m` (milli). */
-const SCALE: Record<string, number> = {
+const SCALE: Record<string, number> = nameTable({
   t: 1e12,
   g: 1e9,
   meg: 1e6,
@@ -19,7 +20,7 @@ const SCALE: Record<string, number> = {
   n: 1e-9,
   p: 1e-12,
   f: 1e-15,
-};
+});
 
 const NUMBER_HEAD = /^([+-]?)(\d+\.?\d*|\.\d+)(?:[eE]([+-]?\d+))?/;
 /** Letters after the mantissa: a scale suffix and unit letters, the ohm sign (either code point) included. */

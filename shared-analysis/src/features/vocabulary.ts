@@ -1,6 +1,7 @@
 // What each element letter, dot card and model parameter means: the words hovers and completions show.
 
 import { MODEL_DEFAULTS, type ModelKind } from '../circuit';
+import { nameTable } from '../names';
 
 /** One element letter: what it is and the order of its fields. */
 export interface ElementLetterInfo {
@@ -74,7 +75,7 @@ const MOS_PARAMS: ModelParameterInfo[] = [
 ];
 
 /** Model parameters the engine reads, per model kind, with their meaning. */
-export const MODEL_PARAMETERS: Record<ModelKind, ModelParameterInfo[]> = {
+export const MODEL_PARAMETERS: Record<ModelKind, ModelParameterInfo[]> = nameTable({
   npn: BJT_PARAMS,
   pnp: BJT_PARAMS,
   d: [
@@ -87,7 +88,7 @@ export const MODEL_PARAMETERS: Record<ModelKind, ModelParameterInfo[]> = {
   nmos: MOS_PARAMS,
   pmos: MOS_PARAMS,
   r: [],
-};
+}) as Record<ModelKind, ModelParameterInfo[]>;
 
 /** The model kinds a model type word names (`npn` → npn), or undefined. */
 export function modelKindOf(type: string): ModelKind | undefined {
@@ -118,7 +119,7 @@ export function modelKindsFor(letter: string): ModelKind[] {
 }
 
 /** Instance parameters of element cards, with their meaning. */
-export const INSTANCE_PARAMETERS: Record<string, ModelParameterInfo[]> = {
+export const INSTANCE_PARAMETERS: Record<string, ModelParameterInfo[]> = nameTable({
   M: [
     { name: 'W', meaning: 'channel width', unit: 'm' },
     { name: 'L', meaning: 'channel length', unit: 'm' },
@@ -127,4 +128,4 @@ export const INSTANCE_PARAMETERS: Record<string, ModelParameterInfo[]> = {
   Q: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
   D: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
   R: [{ name: 'M', meaning: 'number of parallel resistors', unit: '' }],
-};
+});

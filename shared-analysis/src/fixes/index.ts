@@ -12,6 +12,7 @@ import { formatEngineering, formatPercent } from './format';
 import { misspeltDotCardFixes, missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
 import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingResult } from './resistor-for-current';
 import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value';
+import { nameTable } from '../names';
 
 /** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
 const FINER: Record<SeriesName, SeriesName | undefined> = { E12: 'E24', E24: 'E96', E48: 'E96', E96: 'E192', E192: undefined };
@@ -84,11 +85,11 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
   },
 };
 
-const BUILDERS: Record<string, FixBuilder> = {
+const BUILDERS: Record<string, FixBuilder> = nameTable({
   'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents, ctx.circuit),
   'dot-card-unknown': (f) => misspeltDotCardFixes(f),
   'mirror-unmatched': (f, ctx) => unifyMirrorModelFixes(f, ctx.circuit),
-};
+});
 
 /**
  * Adds the cheap text-edit `fixes` to every finding whose code has a builder (missing model,

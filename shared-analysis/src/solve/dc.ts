@@ -17,6 +17,7 @@ import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
 import { pushAll } from '../arrays';
+import { nameTable } from '../names';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
 export { evaluateMos } from '../devices/mosfet';
@@ -42,13 +43,13 @@ const FALLBACK_BUDGET_FACTOR = 8;
 /** Node voltages beyond this are reported as implausible (a current forced into an open or leakage-only node). */
 const IMPLAUSIBLE_VOLTS = 1e6;
 /** Netlist-check codes (elaborator and connectivity checks) that report the same problem as a solver code. */
-const LAYOUT_NETLIST_CODES: Record<string, string[]> = {
+const LAYOUT_NETLIST_CODES: Record<string, string[]> = nameTable({
   'dc-zero-resistance': ['resistor-zero-value'],
   'dc-negative-resistance': ['resistor-negative-value'],
   'dc-unknown-control': ['controlled-source-control-missing'],
   'dc-bad-node': ['element-node-count'],
   'dc-value-unusable': ['element-value-invalid', 'element-value-missing'],
-};
+});
 
 /**
  * Conductance from each node of a group with no DC path to ground to ground (1 pS, i.e. 1 TΩ),
@@ -438,7 +439,7 @@ export class DcSolver {
     findings: Finding[],
   ): OperatingPoint {
     const c = this.circuit;
-    const nodes: Record<string, number> = {};
+    const nodes: Record<string, number> = nameTable();
     const overflowed: string[] = [];
     // The label is built only on overflow: records are made for every device on every solve.
     const clamp = (v: number, where: () => string): number => {
@@ -451,7 +452,7 @@ export class DcSolver {
       nodes[name] = i === 0 ? 0 : clamp(x[i - 1], () => `node ${name}`);
     });
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
-    const devices: Record<string, DeviceRecord> = {};
+    const devices: Record<string, DeviceRecord> = nameTable();
     const overflowElements = new Set<number>();
     for (const r of this.layout.readers) {
       const el = c.elements[r.element];

@@ -7,6 +7,7 @@ import { Chain, GRAY, Hand, RAZAVI, type ChainResult, type EstimateAt } from './
 import type { KindModule } from './kind';
 import type { Estimate, EstimateStep, Structure } from './types';
 import { pushAll } from '../arrays';
+import { nameTable } from '../names';
 
 export type { EstimateAt } from './hand';
 
@@ -189,7 +190,7 @@ class HandAnalysis {
       }
       pushAll(steps, vc.steps);
     }
-    const outputEdge: Record<string, number> = {};
+    const outputEdge: Record<string, number> = nameTable();
     if (vCommon !== undefined) {
       for (const [k, v] of Object.entries(st.edge)) {
         outputEdge[k] = vCommon + h.sign * v;

@@ -4,6 +4,7 @@ import type { Circuit } from '../circuit';
 import type { BjtRecord, DeviceRecord, MosRecord, OperatingPoint } from '../solve/types';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
+import { nameTable } from '../names';
 
 /** What `measureStructure` returns: magnitudes in A, headroom in V (negative when out of region). */
 export interface Measurement {
@@ -40,8 +41,8 @@ export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Struct
     const rec = op.devices[name];
     iref += terminalCurrentInto(t, rec, refNode);
   }
-  const iout: Record<string, number> = {};
-  const headroom: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
   for (const o of s.outputs) {
     const t = topo.byName.get(o.device);

@@ -4,6 +4,7 @@ import type { Circuit, Resistor } from '../circuit';
 import { KINDS } from './catalogue';
 import { Matcher, type Draft } from './match';
 import type { ReferenceBranch, Structure, StructureRole } from './types';
+import { nameTable } from '../names';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -43,7 +44,7 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
 
 function toStructure(m: Matcher, d: Draft): Structure {
   const devices = d.members.map((x) => x.t.name);
-  const roles: Record<string, StructureRole> = {};
+  const roles: Record<string, StructureRole> = nameTable();
   for (const x of d.members) roles[x.t.name] = x.role;
   return {
     id: `${d.kind}:${d.reference.name}`,
@@ -57,7 +58,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
     ...(d.params ? { params: d.params } : {}),
     ...(d.voltages ? { voltages: d.voltages.map((v) => ({ ...v })) } : {}),
     instance: instancePrefix(devices),
-    headroom: {},
+    headroom: nameTable(),
     compliance: {},
     outputResistance: {},
     corners: [],

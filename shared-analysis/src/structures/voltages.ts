@@ -4,6 +4,7 @@ import type { OperatingPoint } from '../solve/types';
 import { polaritySign } from './topology';
 import type { DerivedVoltage, Structure } from './types';
 import { maxOf, minOf } from '../arrays';
+import { nameTable } from '../names';
 
 /**
  * A derived voltage at one solution: V(node) to ground, or — with `from` — how far `node` sits
@@ -22,7 +23,7 @@ export function voltageAt(s: Pick<Structure, 'technology'>, v: DerivedVoltage, n
 /** Every derived voltage of a structure at one operating point (name -> volts), or undefined when it has none. */
 export function structureVoltages(s: Structure, op: OperatingPoint): Record<string, number> | undefined {
   if (!s.voltages || s.voltages.length === 0) return undefined;
-  const out: Record<string, number> = {};
+  const out: Record<string, number> = nameTable();
   for (const v of s.voltages) {
     const x = voltageAt(s, v, op.nodes);
     if (x !== undefined) out[v.name] = x;

@@ -27,6 +27,7 @@ import type {
 import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
+import { nameTable } from '../names';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -883,7 +884,7 @@ function fieldsSpan(name: Token, tokens: Token[]): Span {
 }
 
 /** What each element letter is called in messages and which fields it needs. */
-const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = {
+const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = nameTable({
   R: { noun: 'a resistor', needs: 'two nodes and a value' },
   C: { noun: 'a capacitor', needs: 'two nodes and a value' },
   L: { noun: 'an inductor', needs: 'two nodes and a value' },
@@ -910,7 +911,7 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = {
   U: { noun: 'a digital or distributed element', needs: 'its nodes and a model name' },
   A: { noun: 'a mixed-signal (code model) element', needs: 'its connections and a model name' },
   N: { noun: 'a model-defined device', needs: 'its nodes and a model name' },
-};
+});
 
 function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
   const c0 = name.text.charCodeAt(0) | 0x20;

@@ -9,6 +9,7 @@ import { railsByIndex } from '../../structures/rails';
 import { topologyOf, type Attachment, type Topology, type Transistor } from '../../structures/topology';
 import type { Rail, Structure, Technology } from '../../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../../types';
+import { nameTable } from '../../names';
 
 /** Everything `judgeDevices` reads. */
 export interface DeviceCheckContext {
@@ -280,7 +281,7 @@ export function jsonSafe(data: Record<string, unknown>): Record<string, unknown>
     if (typeof v === 'number') return Number.isFinite(v) ? v : null;
     if (Array.isArray(v)) return v.map(fix);
     if (v && typeof v === 'object') {
-      const o: Record<string, unknown> = {};
+      const o: Record<string, unknown> = nameTable();
       for (const [k, x] of Object.entries(v)) if (x !== undefined) o[k] = fix(x);
       return o;
     }

@@ -10,6 +10,7 @@ import { isPowered } from '../plausibility';
 import { dissipation, powerLimit } from './power';
 import { judgeBjt, judgeMosfet, type JudgeMemory } from './transistors';
 import { pushAll } from '../../arrays';
+import { nameTable } from '../../names';
 
 export type { DeviceCheckContext } from './context';
 export { dissipation, powerLimit } from './power';
@@ -59,12 +60,12 @@ export interface DeviceJudge {
 }
 
 /** The judges, by element letter. */
-export const DEVICE_JUDGES: Record<string, DeviceJudge> = {
+export const DEVICE_JUDGES: Record<string, DeviceJudge> = nameTable({
   Q: { kind: 'Q', judge: (el, rec, ctx, memory) => el.kind === 'Q' && rec.type === 'bjt' && judgeBjt(el, rec, ctx, memory) },
   M: { kind: 'M', judge: (el, rec, ctx, memory) => el.kind === 'M' && rec.type === 'mosfet' && judgeMosfet(el, rec, ctx, memory) },
   D: { kind: 'D', judge: (el, rec, ctx, memory) => el.kind === 'D' && rec.type === 'diode' && judgeDiode(el, rec, ctx, memory) },
   R: { kind: 'R' },
-};
+});
 
 /** Located findings of one code beyond this count are folded into one summary finding. */
 export const MAX_FINDINGS_PER_CODE = 20;

@@ -3,6 +3,7 @@
 import type { ResolvedOptions } from '../../analysis';
 import type { Element } from '../../circuit';
 import type { DeviceRecord } from '../../solve/types';
+import { nameTable } from '../../names';
 
 /**
  * Power an element absorbs at its operating-point record, watts (negative when it delivers, as a
@@ -33,7 +34,7 @@ export function dissipation(rec: DeviceRecord | undefined): number | undefined {
 export type LimitSource = 'instance' | 'model' | 'setting';
 
 /** Element kinds whose dissipation is judged, and which default limit applies when the part gives none. */
-const LIMIT_KIND: Record<string, 'resistor' | 'device'> = { R: 'resistor', D: 'device', Q: 'device', M: 'device', J: 'device' };
+const LIMIT_KIND: Record<string, 'resistor' | 'device'> = nameTable({ R: 'resistor', D: 'device', Q: 'device', M: 'device', J: 'device' });
 
 /**
  * The dissipation limit of an element, watts: the card's `RATEDPOWER=`, else its model's
@@ -64,7 +65,7 @@ export interface PowerEntry {
  * each one's limit (for reports and JSON). Elements without a record or a limit are left out.
  */
 export function powerTable(elements: readonly Element[], devices: Record<string, DeviceRecord>, options: ResolvedOptions): Record<string, PowerEntry> {
-  const out: Record<string, PowerEntry> = {};
+  const out: Record<string, PowerEntry> = nameTable();
   for (const el of elements) {
     const limit = powerLimit(el, options);
     if (!limit) continue;

@@ -7,6 +7,7 @@ import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import { geometricRatio } from './common';
+import { nameTable } from '../../names';
 
 /**
  * A lower pair (D diode-connected on node B, partner N with base on B and collector on C), a
@@ -52,8 +53,8 @@ function recognise(m: Matcher, d: Transistor): Draft | undefined {
  * matched (Gray et al., ch. 4). MOS: IOUT = m·IREF, the λ effect suppressed by the cascode (Razavi, ch. 5).
  */
 function analyse(h: Hand, iref: number, c: Chain): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const top = h.dev(h.s.reference.device);
   const lowerDiode = h.dev(h.role('lower-diode')[0].name);
   const x0 = h.outputs()[0];

@@ -8,6 +8,7 @@ import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import type { StructureOutput } from '../types';
+import { nameTable } from '../../names';
 
 /**
  * A diode-connected reference D (collector = base = A) whose emitter node X1 carries only D (and
@@ -79,8 +80,8 @@ function complete(h: Hand): boolean {
  * with the square law, body effect from the raised sources and λ.
  */
 function analyse(h: Hand, iref: number, c: Chain): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const ref = h.dev(h.s.reference.device);
   const outs = h.outputs();
   const r1 = h.s.reference.degeneration!.ohms;
@@ -93,7 +94,7 @@ function analyse(h: Hand, iref: number, c: Chain): ChainResult {
     let ic1 = iref / (1 + (1 + sumM) / beta);
     let vbe1 = h.vbe(ref, ic1);
     let vTop = vbe1 + ic1 * k1 * r1;
-    const early: Record<string, number> = {};
+    const early: Record<string, number> = nameTable();
     for (let pass = 0; pass < 60; pass++) {
       vbe1 = h.vbe(ref, ic1);
       vTop = vbe1 + ic1 * k1 * r1;

@@ -7,6 +7,7 @@ import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import { commonEmitterRo, geometricRatio } from './common';
+import { nameTable } from '../../names';
 
 /**
  * The reference R is not diode-connected; its collector A drives the base of a follower H whose
@@ -48,8 +49,8 @@ function recognise(m: Matcher, r: Transistor): Draft | undefined {
  * node take; the reference's VDS is VGS1 + VGS(helper), solved together with the square law.
  */
 function analyse(h: Hand, iref: number, c: Chain): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const ref = h.dev(h.s.reference.device);
   const outs = h.outputs();
   const beta = ref.beta;

@@ -7,6 +7,7 @@ import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import { commonEmitterRo, geometricRatio } from './common';
+import { nameTable } from '../../names';
 
 /**
  * A diode-connected reference D (collector = base = A, emitter on E) and every other device with its
@@ -45,8 +46,8 @@ export function recogniseDiodeMirror(m: Matcher, d: Transistor, kind: 'simple-mi
  * the (W/L) ratio with λ, and the square-law Widlar equation (Razavi, ch. 5).
  */
 export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const ref = h.dev(h.s.reference.device);
   const outs = h.outputs();
   const beta = ref.beta;
@@ -55,9 +56,9 @@ export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult
   if (h.bipolar) {
     const sumSimple = simple.reduce((a, x) => a + x.o.ratio, 0);
     let ic1 = iref / (1 + (1 + sumSimple) / beta);
-    const wout: Record<string, number> = {};
+    const wout: Record<string, number> = nameTable();
     // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1.
-    const wEarly: Record<string, number> = {};
+    const wEarly: Record<string, number> = nameTable();
     for (let pass = 0; pass < (widlar.length > 0 ? 8 : 1); pass++) {
       let ibW = 0;
       const vbe1Now = h.vbe(ref, ic1);

@@ -7,6 +7,7 @@ import type { KindModule, ResistanceContext, SmallSignal } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import { geometricRatio } from './common';
+import { nameTable } from '../../names';
 
 /**
  * A lower pair (D diode-connected on node B, partner N with base on B) whose partner's collector
@@ -48,8 +49,8 @@ function recognise(m: Matcher, d: Transistor): Draft | undefined {
  * diode and output carry IOUT = m·IREF·(1 + λ·VGS2)/(1 + λ·VDS1) (Razavi, ch. 5).
  */
 export function analyseWilson(h: Hand, iref: number, c: Chain, improved: boolean): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const ref = h.dev(h.s.reference.device);
   const lowerDiode = h.dev(h.role('lower-diode')[0].name);
   const x0 = h.outputs()[0];
