@@ -4,7 +4,7 @@ import type { Circuit } from './circuit';
 import type { ParsedDocument } from './syntax/ast';
 import type { OperatingPoint } from './solve/types';
 import type { Structure } from './structures/types';
-import type { Finding, Severity, Span } from './types';
+import type { Finding, Location, Severity, Span } from './types';
 
 /** IEC 60063 series a resistor fix may pick from. */
 export type ResistorSeries = 'E12' | 'E24' | 'E48' | 'E96' | 'E192';
@@ -152,6 +152,8 @@ export interface Analysis {
   documents: Record<string, ParsedDocument>;
   circuit?: Circuit;
   symbols: SymbolTable;
+  /** The `.if` branches no instance takes: text that does not exist for the analysis (a client may grey it). */
+  inactive?: Location[];
   /** Every finding, severities already mapped through the options, sorted by document and offset. */
   findings: Finding[];
   operatingPoint?: OperatingPoint;

@@ -15,7 +15,7 @@ import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
 import { limitIncludedExcerpts } from './excerpts';
-import type { Finding, Fix, Workspace } from './types';
+import type { Finding, Fix, Location, Workspace } from './types';
 import { netlistSeverity } from './checks/netlist';
 import { pushAll } from './arrays';
 import { nameTable } from './names';
@@ -67,7 +67,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
   const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
   const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders }));
-  const findings: Finding[] = [...syntaxFindings(elab.documents), ...elab.findings];
+  // Text in an `.if` branch no instance takes does not exist for the analysis: its syntax problems are not reported.
+  const findings: Finding[] = [...withoutInactive(syntaxFindings(elab.documents), elab.inactive), ...elab.findings];
   const circuit = elab.circuit;
   pushAll(findings, timed('connectivity', () => checkConnectivity(circuit)));
 
@@ -120,6 +121,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     documents: elab.documents,
     circuit,
     symbols: elab.symbols,
+    inactive: elab.inactive,
     findings: capFindings(sortFindings(applySeverities(limitIncludedExcerpts(findings, input.uri, elab.documents, elab.symbols.includes), resolved), input.uri)),
     operatingPoint,
     structures,
@@ -180,6 +182,12 @@ export function attachAllSizingFixes(session: AnalysisSession): void {
   // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
   if (!solver || !analysis.circuit || !session.nominal) return;
   attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
+}
+
+/** Findings that do not lie inside one of the inactive ranges. */
+function withoutInactive(findings: Finding[], inactive: readonly Location[]): Finding[] {
+  if (inactive.length === 0) return findings;
+  return findings.filter((f) => !inactive.some((r) => r.uri === f.uri && r.span.start <= f.span.start && f.span.end <= r.span.end));
 }
 
 /** Parser errors of every document read, as findings. */

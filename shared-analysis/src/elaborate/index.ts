@@ -3,7 +3,7 @@
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
 import type { Cccs, Ccvs, Circuit, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
-import type { Finding, RelatedLocation, Span, Workspace } from '../types';
+import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
@@ -30,6 +30,8 @@ export interface ElaborationResult {
   documents: Record<string, ParsedDocument>;
   symbols: SymbolTable;
   findings: Finding[];
+  /** The `.if` branches no instance takes (from the card that opens the branch to the next one): text that does not exist for the analysis. */
+  inactive: Location[];
 }
 
 /** MOSFET width and length used when a card gives none, metres. W/L = 1, so β = KP. */
@@ -112,6 +114,7 @@ export function elaborate(root: ParsedDocument, workspace: Workspace, options: E
       documents: nameTable({ [root.uri]: root }),
       symbols: { params: [], models: [], subckts: [], includes: [] },
       findings: sink.findings,
+      inactive: [],
     };
   }
 }
@@ -128,6 +131,8 @@ class Elaborator {
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
   private tooLarge = false;
+  /** Every `.if` branch seen, by the condition card that opens it: its text range and whether any instance took it. */
+  private readonly branches = new Map<ConditionCard, { uri: string; span: Span; taken: boolean }>();
   /** Indices of nodes a left-out element connects to (see `Circuit.detachedNodes`). */
   private readonly detached = new Set<number>();
   /** Lower-case names of `.global` nodes: never prefixed inside subcircuits. */
@@ -203,7 +208,7 @@ class Elaborator {
       subckts: this.subcktSymbols(read.allDefs, top),
       includes: read.includes as IncludeSymbol[],
     };
-    return { circuit, documents: read.documents, symbols, findings: this.sink.findings };
+    return { circuit, documents: read.documents, symbols, findings: this.sink.findings, inactive: this.inactiveBranches() };
   }
 
   /**
@@ -314,6 +319,17 @@ class Elaborator {
       this.sink.add('condition-invalid', `The condition of this ${card.tokens[0]!.text} cannot be evaluated; its branch is not taken. ${capitalise(v.message)}`, uri, v.inherited ? card.condition.span : v.span, v.related);
       return false;
     };
+    let opener: ConditionCard | undefined;
+    const branchEnds = (next: Located | undefined, taken: boolean): void => {
+      if (!opener) return;
+      const entry = this.branches.get(opener);
+      if (entry) entry.taken ||= taken;
+      else if (next && next.uri === openerUri && next.card.span.start >= opener.span.end) {
+        this.branches.set(opener, { uri: openerUri, span: { start: opener.span.end, end: next.card.span.start }, taken });
+      }
+    };
+    let openerUri = '';
+    let branchTaken = false;
     for (const item of body.items) {
       const { card, uri } = item;
       if (card.kind !== 'condition') {
@@ -323,6 +339,7 @@ class Elaborator {
         }
         continue;
       }
+      branchEnds(item, branchTaken);
       const top = stack[stack.length - 1];
       switch (card.branch) {
         case 'if': {
@@ -347,7 +364,18 @@ class Elaborator {
           stack.pop();
           break;
       }
+      // The branch this card opens (none after `.endif`), and whether it is taken in this instance.
+      opener = card.branch === 'endif' ? undefined : card;
+      openerUri = uri;
+      branchTaken = active() && stack.length > 0;
     }
+    return out;
+  }
+
+  /** The `.if` branches no instance took, as text ranges. */
+  private inactiveBranches(): Location[] {
+    const out: Location[] = [];
+    for (const b of this.branches.values()) if (!b.taken) out.push({ uri: b.uri, span: b.span });
     return out;
   }
 

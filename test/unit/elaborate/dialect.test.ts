@@ -194,3 +194,20 @@ describe('user functions, continued expressions and size scale', () => {
     expect(m.l).toBeCloseTo(2e-6, 18);
   });
 });
+
+describe('branches no instance takes', () => {
+  it('are listed as inactive text, and syntax problems inside them are not reported', () => {
+    const text = 'inactive\n.param mode=1\n.if (mode == 2)\nQ1 c b\n.model broken\n.else\nR1 a 0 1k\n.endif\nV1 a 0 1\n';
+    const a = run(text);
+    expect(codes(a)).toEqual([]);
+    expect(a.inactive!.map((r) => text.slice(r.span.start, r.span.end))).toEqual(['\nQ1 c b\n.model broken\n']);
+  });
+
+  it('keeps a branch some instance takes active', () => {
+    const text = 'per instance\n.subckt leg top n=1\n.if (n > 1)\nR1 top 0 1k\n.else\nR1 top 0 2k\n.endif\n.ends\nV1 a 0 2\nX1 a leg n=2\nX2 a leg\n';
+    expect(run(text).inactive).toEqual([]);
+    const one = 'one instance\n.subckt leg top n=1\n.if (n > 1)\nR1 top 0 1k\n.else\nR1 top 0 2k\n.endif\n.ends\nV1 a 0 2\nX2 a leg\n';
+    const a = run(one);
+    expect(a.inactive!.map((r) => one.slice(r.span.start, r.span.end))).toEqual(['\nR1 top 0 1k\n']);
+  });
+});
