@@ -51,25 +51,26 @@ export function decodeNetlistText(bytes: Uint8Array): string {
 }
 
 function utf16(bytes: Uint8Array, from: number, littleEndian: boolean): string {
-  const parts: string[] = [];
-  const chunk: number[] = [];
-  for (let i = from; i + 1 < bytes.length; i += 2) {
-    chunk.push(littleEndian ? bytes[i]! | (bytes[i + 1]! << 8) : (bytes[i]! << 8) | bytes[i + 1]!);
-    if (chunk.length === 8192) {
-      parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
-      chunk.length = 0;
-    }
-  }
-  parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
-  return parts.join('');
+  const count = (bytes.length - from) >> 1;
+  return fromCodes(count, (k) => {
+    const i = from + 2 * k;
+    return littleEndian ? bytes[i]! | (bytes[i + 1]! << 8) : (bytes[i]! << 8) | bytes[i + 1]!;
+  });
 }
 
 function windows1252(bytes: Uint8Array): string {
+  return fromCodes(bytes.length, (k) => {
+    const b = bytes[k]!;
+    return b >= 0x80 && b <= 0x9f ? CP1252_HIGH[b - 0x80] || b : b;
+  });
+}
+
+/** A string of `count` UTF-16 code units, built in chunks so a large file never overflows the argument list. */
+function fromCodes(count: number, codeAt: (k: number) => number): string {
   const parts: string[] = [];
   const chunk: number[] = [];
-  for (let i = 0; i < bytes.length; i++) {
-    const b = bytes[i]!;
-    chunk.push(b >= 0x80 && b <= 0x9f ? CP1252_HIGH[b - 0x80] || b : b);
+  for (let k = 0; k < count; k++) {
+    chunk.push(codeAt(k));
     if (chunk.length === 8192) {
       parts.push(String.fromCharCode(...chunk)); // bounded: at most 8192 codes
       chunk.length = 0;
