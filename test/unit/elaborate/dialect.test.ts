@@ -1,7 +1,7 @@
 // Elaboration and whole-analysis tests of the dialect as people keep it: what is read, what is
 // skipped silently and what is reported as left out, each on an inline netlist.
 //
-// Readings follow the family's conventions as DESIGN.md writes them down ("Netlist conventions";
+// Readings follow the family's conventions as the README's dialect section writes them down ("The netlist dialect";
 // common practice, from memory). Expected voltages are computed in the test from Ohm's law and the
 // voltage-divider rule.
 

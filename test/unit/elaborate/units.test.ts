@@ -44,7 +44,7 @@ describe('parseNumber', () => {
     check('1p', 1e-12);
     check('1F', 1e-15); // F is femto, not farad (common practice)
     check('1e3k', 1e6);
-    // X (either case) is mega in the dialects that write it so (DESIGN.md, "Numbers"; common practice, from memory).
+    // X (either case) is mega in the dialects that write it so (README, "The netlist dialect"; common practice, from memory).
     check('1X', 1e6);
     check('2.2x', 2.2e6);
     // µ as Windows-1252/Latin-1 decode it (U+00B5) and as the Greek letter (U+03BC).

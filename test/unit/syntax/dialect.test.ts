@@ -1,8 +1,8 @@
 // Parser tests for the netlist dialect as people keep it: skipped cards and blocks, comment forms,
 // conditionals, user functions, .global, .title, .alter and names that start with a digit.
 //
-// The readings follow the family's netlist conventions as DESIGN.md writes them down ("Netlist
-// conventions"; common practice, from memory). Where a convention leaves a choice open, the test
+// The readings follow the family's netlist conventions as the README's dialect section writes them down
+// (common practice, from memory). Where a convention leaves a choice open, the test
 // says the reading is qpoint's own.
 
 import { describe, expect, it } from 'vitest';

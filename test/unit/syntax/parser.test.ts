@@ -468,7 +468,7 @@ describe('independent sources', () => {
     check('V1 a 0\nI2 b 0 AC 1', {
       cards: [
         el({ letter: 'V', name: 'V1', nodes: ['a', '0'], source: { form: 'bare' } }),
-        // Only an AC specification: the DC value is 0 (DESIGN.md, "Netlist conventions").
+        // Only an AC specification: the DC value is 0 (README, "The netlist dialect"; common practice).
         el({ letter: 'I', name: 'I2', nodes: ['b', '0'], source: { form: 'none' } }),
       ],
     });
