@@ -37,10 +37,12 @@ const USAGE = `Usage:
   qpoint --help | --version
 
 Options:
-  --format text|json|sarif     output of 'check' (default text)
+  --format text|json|sarif     output of 'check' (default text); 'report' writes text or json
   --temperature C              analysis temperature in °C (overrides .temp)
   --series E12|E24|E48|E96|E192  standard series for resistor fixes (default E24)
   --headroom-margin V          minimum headroom beyond the active-region edge (default 0.3)
+  --resistor-power-limit W     dissipation limit of a resistor without its own RATEDPOWER (default 0.25)
+  --device-power-limit W       the same for a transistor or diode (default 0.5)
   --supply-tolerance PCT       corner supply tolerance in percent, 0 to 50 (default 5)
   --cold C / --hot C           corner temperatures, hot above cold (default -40 / 125)
   --beta-low F / --beta-high F beta corner factors, low in (0, 1], high in [1, 100] (default 0.5 / 2)
@@ -174,6 +176,12 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         opts.analysis.resistorSeries = s as ResistorSeries;
         break;
       }
+      case '--resistor-power-limit':
+        (opts.analysis.powerLimits ??= {}).resistorW = numberFlag(a, next(), OPTION_RULES.powerLimitW);
+        break;
+      case '--device-power-limit':
+        (opts.analysis.powerLimits ??= {}).deviceW = numberFlag(a, next(), OPTION_RULES.powerLimitW);
+        break;
       case '--headroom-margin':
         opts.analysis.headroomMarginV = numberFlag(a, next(), OPTION_RULES.headroomMarginV);
         break;
@@ -234,6 +242,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
     }
   }
   if (opts.files.length === 0) throw new UsageError(`'${command}' needs at least one netlist file.`);
+  if (command === 'report' && opts.format === 'sarif') throw new UsageError(`'report' writes text or json; SARIF lists findings for code scanning, so use 'check --format sarif'.`);
   const crossed = crossCheckCorners(corners, { cold: '--cold', hot: '--hot' });
   if (crossed.length) throw new UsageError(crossed[0]!);
   opts.analysis.corners = corners;
@@ -508,7 +517,9 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
   const failed = results.some((r) => r.readError || r.internalError);
   const failing = results.some((r) => r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
   if (opts.command === 'report') {
-    write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
+    // The same document as `check --format json` (it carries the caution too); the exit code stays the report's.
+    if (opts.format === 'json') write(escapeJsonText(JSON.stringify(jsonReport(results), null, 2)) + '\n');
+    else write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
     return failed ? EXIT.failed : EXIT.clean;
   }
   if (opts.format === 'json') write(escapeJsonText(JSON.stringify(jsonReport(results), null, 2)) + '\n');

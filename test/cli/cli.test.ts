@@ -162,6 +162,38 @@ describe('qpoint report', () => {
     expect(r.stdout).toMatch(/IREF/);
     expect(r.stdout).toMatch(/Caution: .*local codes and licensed practice/);
   });
+
+  it('writes the JSON document with --format json, power per device included, and refuses SARIF with exit 2', () => {
+    const r = run(['report', '--format', 'json', '--no-corners', file('report.cir', MIRROR)]);
+    expect(r.code).toBe(0);
+    const doc = JSON.parse(r.stdout);
+    expect(doc.caution).toMatch(/licensed practice/);
+    const power = doc.files[0].power;
+    // Source: Joule's law — RL dissipates I²·R with the current the operating point gives it.
+    const rl = doc.files[0].operatingPoint.devices.RL;
+    expect(power.RL.watts).toBeCloseTo(rl.current * rl.current * 4.7e3, 12);
+    expect(power.RL).toMatchObject({ limitW: 0.25, limitFrom: 'setting' });
+    const sarif = run(['report', '--format', 'sarif', 'examples/sensor-bias.cir']);
+    expect(sarif.code).toBe(2);
+    expect(sarif.stderr).toMatch(/check --format sarif/);
+  });
+
+  it('takes the power limits from the command line', () => {
+    const p = file('hot.cir', 'Hot resistor\nV1 a 0 12\nR1 a 0 330\n.end\n');
+    expect(run(['check', '--no-corners', p]).stdout).toMatch(/power-over-rating R1 dissipates 436 mW/);
+    expect(run(['check', '--no-corners', '--resistor-power-limit', '0.5', p]).stdout).toBe('');
+    expect(run(['check', '--resistor-power-limit', '-1', p]).code).toBe(2);
+  });
+
+  it('ends quietly when the reader closes the pipe early', () => {
+    // A JSON document far larger than a pipe's buffer, into a reader that stops after one byte: no stack trace, no EPIPE.
+    const lines = ['Two hundred mirrors', 'VCC vcc 0 5'];
+    for (let i = 0; i < 200; i++) lines.push(`R${i} vcc a${i} 4.3k`, `QA${i} a${i} a${i} 0 QN`, `QB${i} o${i} a${i} 0 QN`, `RL${i} vcc o${i} 1k`);
+    const p = file('many.cir', [...lines, '.model QN npn (BF=100)', '.end', ''].join('\n'));
+    const r = spawnSync('sh', ['-c', `"${process.execPath}" "${CLI}" check --format json --no-corners "${p}" | head -c 1 >/dev/null`], { cwd: ROOT, encoding: 'utf8', timeout: 60000 });
+    expect(r.status).toBe(0);
+    expect(r.stderr).toBe('');
+  });
 });
 
 describe('include search and decoding from the command line', () => {
