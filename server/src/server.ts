@@ -7,6 +7,7 @@ import {
   CodeActionKind,
   Command,
   createConnection,
+  StreamMessageWriter,
   DidChangeConfigurationNotification,
   ErrorCodes,
   FileChangeType,
@@ -65,6 +66,7 @@ import {
 import { structureOfResistor } from './sizing';
 import { WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
+import { FrameError, StrictStreamReader } from './strict-reader';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
@@ -100,7 +102,24 @@ interface CacheEntry {
   ms: number;
 }
 
-const connection: Connection = createConnection(ProposedFeatures.all);
+/**
+ * Over stdio the messages are read strictly: a malformed frame ends the server with a logged
+ * reason (the client then restarts it) instead of leaving it alive and silent. Over node IPC
+ * there is no framing to go wrong.
+ */
+const strictReader = process.argv.includes('--stdio')
+  ? new StrictStreamReader(process.stdin, Number(process.env['QPOINT_FRAME_STALL_MS']) > 0 ? Number(process.env['QPOINT_FRAME_STALL_MS']) : undefined)
+  : undefined;
+const connection: Connection = strictReader
+  ? createConnection(ProposedFeatures.all, strictReader, new StreamMessageWriter(process.stdout))
+  : createConnection(ProposedFeatures.all);
+strictReader?.onError((e) => {
+  if (!(e instanceof FrameError)) return;
+  process.stderr.write(`[qpoint] The connection is closed: ${e.message} The client should start the server again.\n`);
+  host.dispose();
+  // Exit code 1: the editor's client restarts a server that ends this way.
+  setTimeout(() => process.exit(1), 50);
+});
 let encoding: PositionEncoding = 'utf-16';
 let settings: ServerSettings = DEFAULT_SETTINGS;
 let canPullConfiguration = false;
@@ -165,13 +184,25 @@ function log(message: string): void {
 const host = new WorkerHost({ script: join(__dirname, 'analysis-worker.js'), log, hardDeadlineMs: HARD_DEADLINE_MS });
 
 const documents = new TextDocuments<OpenDocument>({
-  create: (uri, languageId, version, content) => new OpenDocument(uri, languageId, version, content),
+  create: (uri, languageId, version, content) => {
+    if (!isVersion(version)) log(`${uri} was opened with version ${JSON.stringify(version)}, which is not a whole number; it is taken as version 0.`);
+    return new OpenDocument(uri, languageId, isVersion(version) ? version : 0, typeof content === 'string' ? content : '');
+  },
   update: (doc, changes, version) => applyChanges(doc, changes, version),
 });
 
 /** Applies incremental changes with positions in the negotiated encoding; out-of-order versions are refused and logged. */
+/** A document version as the protocol defines it: an integer (a string "5" is not one). */
+function isVersion(v: unknown): v is number {
+  return typeof v === 'number' && Number.isSafeInteger(v);
+}
+
 function applyChanges(doc: OpenDocument, changes: TextDocumentContentChangeEvent[], version: number): OpenDocument {
-  if (typeof version === 'number' && version <= doc.version) {
+  if (!isVersion(version)) {
+    log(`Ignored a change to ${doc.uri} with version ${JSON.stringify(version)}: a version must be a whole number.`);
+    return doc;
+  }
+  if (version <= doc.version) {
     log(`Ignored a change to ${doc.uri} with version ${version}: the document is already at version ${doc.version} (changes must arrive in order).`);
     return doc;
   }
@@ -254,6 +285,8 @@ function whenQuiet(collect: () => void): void {
 function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: P) => Promise<R> {
   return async (params: P) => {
     lastRequestAt = Date.now();
+    // The protocol: after shutdown, every request but exit fails with InvalidRequest.
+    if (shuttingDown) throw new ResponseError(ErrorCodes.InvalidRequest, `The server is shutting down; the ${name} request is not answered.`);
     try {
       return await fn(params);
     } catch (e) {

@@ -133,10 +133,19 @@ type Tok =
  */
 export function compileExpression(source: string, offset: number): { ok: true; expr: CompiledExpression } | { ok: false; error: ExpressionError } {
   let core = COMPILED.get(source);
-  if (!core) {
-    core = compileAt(source, 0);
-    if (COMPILED.size >= COMPILED_CAPACITY) COMPILED.clear();
+  if (core) {
+    // Most recently used last, so eviction takes the longest unused first.
+    COMPILED.delete(source);
     COMPILED.set(source, core);
+  } else {
+    core = compileAt(source, 0);
+    COMPILED.set(source, core);
+    compiledBytes += compiledCost(source);
+    for (const key of COMPILED.keys()) {
+      if (compiledBytes <= COMPILED_BUDGET_BYTES && COMPILED.size <= COMPILED_CAPACITY) break;
+      COMPILED.delete(key);
+      compiledBytes -= compiledCost(key);
+    }
   }
   if (offset === 0) return core;
   const shift = (span: Span): Span => ({ start: span.start + offset, end: span.end + offset });
@@ -159,6 +168,24 @@ export function compileExpression(source: string, offset: number): { ok: true; e
 /** Compiled expressions by source text (positions relative to the text), shared by every elaboration. */
 const COMPILED = new Map<string, ReturnType<typeof compileAt>>();
 const COMPILED_CAPACITY = 20000;
+/**
+ * What the cache may hold, in estimated bytes. A compiled expression keeps its source and its
+ * parse tree; measured at about 56 bytes of heap per source character for long expressions
+ * (a 4 KB expression kept about 231 KB), plus a fixed cost per entry.
+ */
+export const COMPILED_BUDGET_BYTES = 32 * 1024 * 1024;
+const BYTES_PER_SOURCE_CHAR = 64;
+const BYTES_PER_ENTRY = 1024;
+let compiledBytes = 0;
+
+function compiledCost(source: string): number {
+  return BYTES_PER_ENTRY + BYTES_PER_SOURCE_CHAR * source.length;
+}
+
+/** How full the compiled-expression cache is: entries and estimated bytes (for tests and diagnostics). */
+export function expressionCacheUsage(): { entries: number; bytes: number } {
+  return { entries: COMPILED.size, bytes: compiledBytes };
+}
 
 function compileAt(source: string, offset: number): { ok: true; expr: CompiledExpression } | { ok: false; error: ExpressionError } {
   const at = (start: number, end: number): Span => ({ start: offset + start, end: offset + Math.max(end, start + 1) });

@@ -68,6 +68,13 @@ export class LineIndex {
     if (encoding === 'utf-16') return { line: lo, character: stop - start };
     let units = 0;
     let i = start;
+    // On a long line, start from the last checkpoint at or before the offset (conversions stay short, not line-long).
+    const cp = this.checkpointsOf(lo, encoding);
+    if (cp) {
+      const k = lastAtOrBefore(cp.offsets, stop);
+      i = cp.offsets[k]!;
+      units = cp.units[k]!;
+    }
     while (i < stop) {
       const cp = this.text.codePointAt(i) as number;
       const width = cp > 0xffff ? 2 : 1;
@@ -97,6 +104,13 @@ export class LineIndex {
     }
     let units = 0;
     let i = start;
+    const marks = this.checkpointsOf(line, encoding);
+    if (marks) {
+      const k = lastAtOrBefore(marks.units, ch);
+      i = marks.offsets[k]!;
+      units = marks.units[k]!;
+      if (units === ch) return i;
+    }
     while (i < end) {
       const cp = this.text.codePointAt(i) as number;
       const u = unitsOf(cp, encoding);
@@ -109,11 +123,54 @@ export class LineIndex {
     return end;
   }
 
+  /** Per long line and encoding: UTF-16 offsets every CHECKPOINT_STEP units or so, with the encoded units before each. */
+  private readonly checkpoints = new Map<string, { offsets: number[]; units: number[] }>();
+
+  private checkpointsOf(line: number, encoding: PositionEncoding): { offsets: number[]; units: number[] } | undefined {
+    const start = this.starts[line]!;
+    const end = this.lineEnd(line);
+    if (end - start < LONG_LINE) return undefined;
+    const key = `${line}:${encoding}`;
+    let marks = this.checkpoints.get(key);
+    if (marks) return marks;
+    marks = { offsets: [start], units: [0] };
+    let units = 0;
+    let next = start + CHECKPOINT_STEP;
+    for (let i = start; i < end; ) {
+      const cp = this.text.codePointAt(i) as number;
+      units += unitsOf(cp, encoding);
+      i += cp > 0xffff ? 2 : 1;
+      if (i >= next && i < end) {
+        marks.offsets.push(i);
+        marks.units.push(units);
+        next = i + CHECKPOINT_STEP;
+      }
+    }
+    this.checkpoints.set(key, marks);
+    return marks;
+  }
+
   private clampLine(line: number): number {
     if (!(line > 0)) return 0;
     const last = this.starts.length - 1;
     return line >= last ? last : Math.floor(line);
   }
+}
+
+/** Lines at least this long (UTF-16 units) get checkpoints for UTF-8 and UTF-32 conversions. */
+const LONG_LINE = 256;
+const CHECKPOINT_STEP = 64;
+
+/** Index of the last element of ascending `sorted` that is at most `value` (0 when none is). */
+function lastAtOrBefore(sorted: readonly number[], value: number): number {
+  let lo = 0;
+  let hi = sorted.length - 1;
+  while (lo < hi) {
+    const mid = (lo + hi + 1) >>> 1;
+    if (sorted[mid]! <= value) lo = mid;
+    else hi = mid - 1;
+  }
+  return lo;
 }
 
 function clampOffset(offset: number, length: number): number {
