@@ -28,8 +28,9 @@ export function completionsAt(analysis: Analysis, uri: string, offset: number): 
   const text = doc.text;
   const lineStart = Math.max(text.lastIndexOf('\n', offset - 1), text.lastIndexOf('\r', offset - 1)) + 1;
   let before = text.slice(lineStart, offset);
-  // The word being typed, and the fields of the card before it.
-  const wordMatch = /[^\s,()=]*$/.exec(before);
+  // The word being typed, and the fields of the card before it. A continuation line's `+` marks the
+  // line, it is not part of a word: `+` alone at the cursor is an empty word after the card's fields.
+  const wordMatch = /[^\s,()=]*$/.exec(before.replace(/^(\s*)\+/, '$1 '));
   const word = wordMatch ? wordMatch[0] : '';
   const replace = { start: offset - word.length, end: offset };
   const scope = scopeAt(doc, offset);

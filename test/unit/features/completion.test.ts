@@ -30,6 +30,16 @@ ${line}
 `;
 
 describe('completion', () => {
+  it('reads a bare continuation marker as an empty word, also at the very end of the document', () => {
+    // The form that threw ("t\n+\n+" at the end): a `+` alone continues the card before it.
+    for (const marked of ['t\n+\n+|', 't\n+\n+|\n', 'Title\nQ1 c b\n+|', 'Title\nQ1 c b\n+ e |']) {
+      const { text, offset } = withCursor(marked);
+      expect(() => completionsAt(analyseText(text), '/t/main.cir', offset), JSON.stringify(marked)).not.toThrow();
+    }
+    // After `Q1 c b` continued by `+ e `, the next field of a bipolar transistor is its model.
+    check(BASE('Q1 c b\n+ e |'), ['QN', 'QP'], ['NM']);
+  });
+
   it('offers element letters with their field order, and dot cards, on an empty line', () => {
     const items = check(BASE('|'), ['R', 'Q', 'M', 'X', '.model', '.param', '.subckt']);
     const q = items.find((i) => i.label === 'Q')!;
