@@ -1,7 +1,10 @@
 // The elaborated circuit: parameters evaluated, includes read, subcircuits flattened. Solver and recognisers work on this.
 
+import type { ModelKind } from './devices/parameters';
 import type { Span } from './types';
-import { nameTable } from './names';
+
+export type { ModelKind } from './devices/parameters';
+export { MODEL_DEFAULTS } from './devices/parameters';
 
 /** Where an elaborated object came from, so findings can point at the text. */
 export interface Origin {
@@ -19,9 +22,6 @@ export interface Origin {
   instances: { name: string; uri: string; span: Span }[];
 }
 
-/** Device model kinds the engine understands. `r` is a resistor model (accepted, parameters ignored). */
-export type ModelKind = 'npn' | 'pnp' | 'd' | 'nmos' | 'pmos' | 'r';
-
 /** A `.model` after elaboration: every parameter the device equations read is present (defaults filled in). */
 export interface Model {
   /** As written in the .model card. */
@@ -33,8 +33,8 @@ export interface Model {
   given: string[];
   /**
    * Limits of the part that the DC equations do not use but the checks compare the operating
-   * point against, when the card gives them: `BV` (reverse breakdown voltage of a diode, V) and
-   * `RATEDPOWER` (the part's dissipation limit, W; a parameter of this project's naming).
+   * point against, when the card gives them: `RATEDPOWER` (the part's dissipation limit, W; a
+   * parameter of this project's naming).
    */
   ratings?: Record<string, number>;
   origin: Origin;
@@ -178,12 +178,3 @@ export interface Circuit {
    */
   detachedNodes?: string[];
 }
-
-/** Default model parameters per kind (DESIGN.md), upper-case names. */
-export const MODEL_DEFAULTS: Record<Exclude<ModelKind, 'r'>, Record<string, number>> = nameTable<Record<string, number>>({
-  npn: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
-  pnp: { IS: 1e-16, BF: 100, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 },
-  d: { IS: 1e-14, N: 1, RS: 0, XTI: 3, EG: 1.11 },
-  nmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
-  pmos: { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6 },
-}) as Record<Exclude<ModelKind, 'r'>, Record<string, number>>;

@@ -1,6 +1,6 @@
 // Property tests of the whole pipeline: random and mutated netlists through analyse(), every editor feature and the CLI formatters.
 //
-// Properties checked on every case (the engine's own invariants, DESIGN.md "Invariants" and types.ts):
+// Properties checked on every case (the engine's own invariants, docs/ARCHITECTURE.md invariants and types.ts):
 //   - nothing throws, and no case takes longer than CASE_BUDGET_MS (a hang shows up as a blown budget
 //     or, for a true infinite loop, as the test's timeout);
 //   - every finding, related location, fix edit, hover, definition, reference, rename edit, inlay

@@ -109,7 +109,7 @@ function check(a: DcSolveResult, b: DcSolveResult): void {
 
 describe('polarity symmetry', () => {
   it('PNP/PMOS circuits equal their NPN/NMOS twins with every sign flipped', () => {
-    // Source: DESIGN.md — "PNP mirrors every sign", "PMOS mirrors every sign"; a property of the model equations.
+    // Source: docs/DEVICE-MODELS.md — "PNP mirrors every sign", "PMOS mirrors every sign"; a property of the model equations.
     fc.assert(
       fc.property(sample, (s) => {
         const opts = { temperatureC: s.tempC };

@@ -114,7 +114,7 @@ describe('the language server over stdio', () => {
     const md = (hover.contents as MarkupContent).value;
     expect(md).toContain('forward-active');
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β), IREF = (VCC − VBE)/RREF;
-    // the inserted model carries the default BF = 100 (DESIGN.md defaults).
+    // the inserted model carries the default BF = 100 (docs/DEVICE-MODELS.md defaults).
     const ic = quantity(md, 'IC', 'A');
     const vbe = quantity(md, 'VBE', 'V');
     expect(Math.abs(ic / ((10 - vbe) / 9.3e3 / 1.02) - 1)).toBeLessThan(0.01);

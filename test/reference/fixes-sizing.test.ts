@@ -105,7 +105,7 @@ describe('resistor sizing for a target current (fix round trip)', () => {
     expect(result.problem).toBeUndefined();
     expect(result.device).toBe('Q2');
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β) with IREF = (V+ − VBE1)/R,
-    // and VBE1 = VT·ln(IC1/IS) (forward-active Ebers–Moll, DESIGN.md) evaluated at the target IC1 = IOUT.
+    // and VBE1 = VT·ln(IC1/IS) (forward-active Ebers–Moll, docs/DEVICE-MODELS.md) evaluated at the target IC1 = IOUT.
     const vbe = VT27 * Math.log(1e-3 / 1e-16);
     const rFormula = (12 - vbe) / (1e-3 * (1 + 2 / BF));
     expect(result.ideal / rFormula - 1).toBeLessThan(1e-4);

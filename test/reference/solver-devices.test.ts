@@ -1,4 +1,4 @@
-// BJT and MOSFET operating points against the DESIGN.md equations written out independently here, plus VT and junction rules of thumb.
+// BJT and MOSFET operating points against the docs/DEVICE-MODELS.md equations written out independently here, plus VT and junction rules of thumb.
 
 import { describe, expect, it } from 'vitest';
 import { solveOperatingPoint, thermalVoltage } from '../../shared-analysis/src/solve/dc';
@@ -20,7 +20,7 @@ describe('thermal voltage', () => {
 
 type BjtP = { IS: number; BF: number; BR: number; NF: number; NR: number; VAF: number };
 
-/** DESIGN.md Gummel–Poon (forward Early only), NPN sense, written out for the test. */
+/** docs/DEVICE-MODELS.md Gummel–Poon (forward Early only), NPN sense, written out for the test. */
 function gummelPoon(vbe: number, vbc: number, p: BjtP, vt = VT27): { ic: number; ib: number } {
   const icc = p.IS * (Math.exp(vbe / (p.NF * vt)) - 1);
   const iec = p.IS * (Math.exp(vbc / (p.NR * vt)) - 1);
@@ -55,7 +55,7 @@ function checkBjt(polarity: 'npn' | 'pnp', vbe: number, vce: number, p: Partial<
   return q;
 }
 
-describe('BJT equations (DESIGN.md, written out in the test)', () => {
+describe('BJT equations (docs/DEVICE-MODELS.md, written out in the test)', () => {
   it('forward-active NPN with Early effect, and its small-signal parameters', () => {
     const q = checkBjt('npn', 0.7, 5, { IS: 1e-15, BF: 150, VAF: 60 }, 'forward-active');
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 1 — gm = IC/VT (with the Early factor), rπ = β/gm, ro = VA/IC.
@@ -95,7 +95,7 @@ describe('BJT equations (DESIGN.md, written out in the test)', () => {
 
 type MosP = { KP: number; VTO: number; LAMBDA: number; GAMMA: number; PHI: number };
 
-/** DESIGN.md level-1 equations for VDS ≥ 0 (NMOS sense), written out for the test. */
+/** docs/DEVICE-MODELS.md level-1 equations for VDS ≥ 0 (NMOS sense), written out for the test. */
 function squareLaw(vgs: number, vds: number, vbs: number, p: MosP, wl: number): number {
   const vth = p.VTO + p.GAMMA * (Math.sqrt(p.PHI - vbs) - Math.sqrt(p.PHI));
   const vov = vgs - vth;
@@ -127,7 +127,7 @@ function checkMos(polarity: 'nmos' | 'pmos', vgs: number, vds: number, vbs: numb
   return rec;
 }
 
-describe('MOSFET equations (DESIGN.md, written out in the test)', () => {
+describe('MOSFET equations (docs/DEVICE-MODELS.md, written out in the test)', () => {
   it('NMOS saturation with channel-length modulation, gm and ro', () => {
     const m = checkMos('nmos', 1.5, 3, 0, { KP: 1e-4, VTO: 0.7, LAMBDA: 0.05 }, 'saturation');
     // Source: Razavi, Design of Analog CMOS Integrated Circuits, ch. 2 — gm = β·VOV·(1 + λVDS), ro = 1/(∂ID/∂VDS).
@@ -143,7 +143,7 @@ describe('MOSFET equations (DESIGN.md, written out in the test)', () => {
   });
   it('NMOS body effect raises VTH by GAMMA·(√(PHI − VBS) − √PHI)', () => {
     const m = checkMos('nmos', 1.8, 3, -1.5, { KP: 1e-4, VTO: 0.7, GAMMA: 0.45, PHI: 0.7 }, 'saturation');
-    // Source: Shichman and Hodges, IEEE JSSC 1968 / DESIGN.md threshold with body effect.
+    // Source: Shichman and Hodges, IEEE JSSC 1968 / docs/DEVICE-MODELS.md threshold with body effect.
     expect(m.vth).toBeCloseTo(0.7 + 0.45 * (Math.sqrt(2.2) - Math.sqrt(0.7)), 12);
   });
   it('NMOS with VDS < 0 swaps source and drain', () => checkMos('nmos', 1.5, -0.4, 0, { KP: 1e-4, VTO: 0.5 }, 'triode'));
@@ -164,7 +164,7 @@ describe('diode regions', () => {
     expect(d.region).toBe(expected.region);
     expect(Math.abs(d.id - expected.id)).toBeLessThanOrEqual(expected.rel * Math.abs(expected.id));
   }
-  // Source: DESIGN.md diode law ID = IS·(exp(VD/(N·VT)) − 1), written out; the reverse case adds the solver's 1e-12 S (common practice).
+  // Source: docs/DEVICE-MODELS.md diode law ID = IS·(exp(VD/(N·VT)) − 1), written out; the reverse case adds the solver's 1e-12 S (common practice).
   it('forward at 0.65 V', () => check(0.65, { region: 'forward', id: 1e-14 * (Math.exp(0.65 / VT27) - 1) + 0.65e-12, rel: 1e-12 }));
   it('reverse at −3 V saturates at −IS', () => check(-3, { region: 'reverse', id: -1e-14 - 3e-12, rel: 1e-9 }));
 });

@@ -242,7 +242,7 @@ describe('estimate against the DC solver on the same circuit', () => {
   for (const tech of techs) {
     for (const kind of kinds) {
       it(`${kind} ${tech}, VAF infinite / λ = 0: estimate and solve agree to < 0.5 %`, () => {
-        // Source: the hand formulas above against the full DC solve of DESIGN.md's device equations (both Gummel–Poon / level 1 with the same parameters).
+        // Source: the hand formulas above against the full DC solve of docs/DEVICE-MODELS.md's device equations (both Gummel–Poon / level 1 with the same parameters).
         const { s, converged } = solved(fixture(kind, tech).circuit);
         expect(converged).toBe(true);
         check(s.estimate!.iref, s.solved!.iref, 0.005);
@@ -260,7 +260,7 @@ describe('estimate against the DC solver on the same circuit', () => {
   }
 
   it('paralleled reference devices act as one of the summed area', () => {
-    // Source: junction law with IS scaled by area (DESIGN.md) — two paralleled unit references are one 2× reference, so a 1× output gives 1/(1 + 1.5/β)·IREF/2.
+    // Source: junction law with IS scaled by area (docs/DEVICE-MODELS.md) — two paralleled unit references are one 2× reference, so a 1× output gives 1/(1 + 1.5/β)·IREF/2.
     const b = new CircuitBuilder()
       .v('VCC', 'vcc', '0', 5)
       .model('qn', 'npn')

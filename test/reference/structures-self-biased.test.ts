@@ -81,7 +81,7 @@ describe('beta-multiplier reference', () => {
 describe('bandgap core', () => {
   it('VBG = VBE3 + I·R2 by hand, by an independent junction-law sum and from the solver', () => {
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — bandgap reference VBG = VBE + (R2/R1)·VT·ln(N) (from memory);
-    // the junction law VBE = VT·ln(I/IS) of DESIGN with IS = 1e-16 A.
+    // the junction law VBE = VT·ln(I/IS) of docs/DEVICE-MODELS.md with IS = 1e-16 A.
     const i = (vt(27) * Math.log(8)) / 1e3;
     const want = vt(27) * Math.log(i / 1e-16 + 1) + i * 10e3;
     const { s, op } = analysed(ptat({ n: 8, r: 1e3, bandgapR2: 10e3 }));

@@ -198,6 +198,7 @@ class StructureCheck {
       outputVolts: this.op ? outputVolts : undefined,
       structures: this.all,
       irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
+      deviceCurrents: this.op ? this.collectorCurrents() : undefined,
     });
     // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
     if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
@@ -216,6 +217,16 @@ class StructureCheck {
     this.checkRatios();
     if (s.discrepancy) this.reportDiscrepancy();
     return this.findings;
+  }
+
+  /** Solved collector current of each bipolar device of the structure, so the hand analysis uses the model's β there. */
+  private collectorCurrents(): Record<string, number> {
+    const out: Record<string, number> = {};
+    for (const d of this.s.devices) {
+      const rec = this.op?.devices[d];
+      if (rec && rec.type === 'bjt') out[d] = rec.ic;
+    }
+    return out;
   }
 
   // ---- records ----------------------------------------------------------

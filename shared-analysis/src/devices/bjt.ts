@@ -1,4 +1,4 @@
-// Bipolar transistor: Gummel–Poon transport model with forward Early effect only (DESIGN.md), NPN and PNP, as one table of typed arrays with limiting, stamps and records.
+// Bipolar transistor: the Gummel–Poon DC model of docs/DEVICE-MODELS.md (high injection, leakage base currents, both Early voltages, ohmic RB/RE/RC, XTB), NPN and PNP, as one table of typed arrays with limiting, stamps and records.
 
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
@@ -6,19 +6,22 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { allocateColumns, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
 
 /**
- * Region by junction bias in the device's own polarity (DESIGN.md): forward-active when
- * VBE > 0 and VBC ≤ 0, saturation when both are forward, reverse-active when only the
- * base-collector junction is forward, cutoff when neither is.
+ * Region by intrinsic junction bias in the device's own polarity (docs/DEVICE-MODELS.md):
+ * forward-active when VBE > 0 and VBC ≤ 0, saturation when both are forward, reverse-active
+ * when only the base-collector junction is forward, cutoff when neither is.
  */
 export function bjtRegion(vbe: number, vbc: number): BjtRegion {
   if (vbe > 0) return vbc > 0 ? 'saturation' : 'forward-active';
   return vbc > 0 ? 'reverse-active' : 'cutoff';
 }
 
-/** Model parameters of one BJT after temperature and beta scaling (IS already times area). */
+/**
+ * Model parameters of one BJT after temperature, area and beta scaling. Currents (IS, ISE, ISC,
+ * IKF, IKR) already carry area × M. The optional Gummel–Poon terms default to "no effect".
+ */
 export interface BjtParams {
   is: number;
   bf: number;
@@ -27,14 +30,27 @@ export interface BjtParams {
   nr: number;
   /** Forward Early voltage, volts; Infinity for none. */
   vaf: number;
-  /** Parallel count: multiplies every current. */
+  /** Reverse Early voltage, volts; Infinity (default) for none. */
+  var?: number;
+  /** Forward and reverse knee currents, amperes; Infinity (default) for none. */
+  ikf?: number;
+  ikr?: number;
+  /** Base-emitter and base-collector leakage saturation currents [0] and their emission coefficients [1.5, 2]. */
+  ise?: number;
+  ne?: number;
+  isc?: number;
+  nc?: number;
+  /**
+   * Parallel count: multiplies every current. Kept for callers that scale after the fact; the
+   * table folds M into the currents above and passes 1.
+   */
   m: number;
   vt: number;
   /** Conductance across each junction, siemens. */
   gmin: number;
 }
 
-/** Terminal currents (own polarity, into the terminal) and their partial derivatives with respect to VBE and VBC. */
+/** Terminal currents (own polarity, into the terminal) and their partial derivatives with respect to the intrinsic VBE and VBC. */
 export interface BjtEvaluation {
   ic: number;
   ib: number;
@@ -42,12 +58,31 @@ export interface BjtEvaluation {
   dicDvbc: number;
   dibDvbe: number;
   dibDvbc: number;
-  /** ∂IC/∂VBE of the transport current alone (the small-signal gm). */
+  /** ∂IC/∂VBE (the small-signal gm). */
   gm: number;
   /** ∂IB/∂VBE without the robustness conductance (1/rπ). */
   gpi: number;
+  /** The normalised base charge qb (1 without high injection or Early effect). */
+  qb: number;
   clipped: boolean;
 }
+
+// Slots of the per-instance parameter row the core reads (`PARAMS` numbers per instance).
+const P_IS = 0;
+const P_ISE = 1;
+const P_ISC = 2;
+const P_BF = 3;
+const P_BR = 4;
+const P_NFVT = 5;
+const P_NRVT = 6;
+const P_NEVT = 7;
+const P_NCVT = 8;
+const P_INV_VAF = 9;
+const P_INV_VAR = 10;
+const P_INV_IKF = 11;
+const P_INV_IKR = 12;
+const P_GMIN = 13;
+const PARAMS = 14;
 
 // Slots of the scratch array `bjtCore` fills.
 const IC = 0;
@@ -58,38 +93,135 @@ const DIB_DVBE = 4;
 const DIB_DVBC = 5;
 const GM = 6;
 const GPI = 7;
+const QB = 8;
+const OUTPUTS = 9;
 
 /**
- * DESIGN.md equations in the NPN sense: ICC = IS·(exp(VBE/(NF·VT)) − 1),
- * IEC = IS·(exp(VBC/(NR·VT)) − 1), IT = (ICC − IEC)·(1 − VBC/VAF), IC = IT − IEC/BR,
- * IB = ICC/BF + IEC/BR; every current times M; gmin across each junction. Writes the slots
- * above into `out` and returns whether an exponential ran beyond the evaluated range.
+ * Below this the Early factor 1 − VBC/VAF − VBE/VAR is continued by δ·exp((D − δ)/δ), which
+ * keeps the base charge positive and its slope continuous. The model's own range never comes
+ * near it (it needs a reverse bias of most of an Early voltage); it only guards wild iterates.
  */
-function bjtCore(vbe: number, vbc: number, is: number, bf: number, br: number, nfvt: number, nrvt: number, vaf: number, m: number, g: number, out: Float64Array): boolean {
+const EARLY_FLOOR = 0.1;
+
+/**
+ * The Gummel–Poon equations of docs/DEVICE-MODELS.md in the NPN sense at intrinsic biases vbe,
+ * vbc, with the parameter row at `par[o …]`:
+ *   IBE1 = IS·(e^(VBE/NF·VT) − 1), IBE2 = ISE·(e^(VBE/NE·VT) − 1), IBC1, IBC2 likewise,
+ *   q1 = 1/(1 − VBC/VAF − VBE/VAR), q2 = IBE1/IKF + IBC1/IKR, qb = q1/2·(1 + √(1 + 4·q2)),
+ *   IC = (IBE1 − IBC1)/qb − IBC1/BR − IBC2, IB = IBE1/BF + IBE2 + IBC1/BR + IBC2,
+ * plus gmin across each junction. Writes the slots above into `out` (derivatives exact) and
+ * returns whether an exponential ran beyond the evaluated range.
+ */
+function bjtCore(vbe: number, vbc: number, par: Float64Array, o: number, out: Float64Array): boolean {
+  const is = par[o + P_IS];
+  const nfvt = par[o + P_NFVT];
+  const nrvt = par[o + P_NRVT];
+  const g = par[o + P_GMIN];
   const xbe = vbe / nfvt;
   const xbc = vbc / nrvt;
-  const icc = is * (guardedExpValue(xbe) - 1);
-  const iec = is * (guardedExpValue(xbc) - 1);
-  const dicc = (is * guardedExpSlope(xbe)) / nfvt;
-  const diec = (is * guardedExpSlope(xbc)) / nrvt;
-  const early = Number.isFinite(vaf);
-  const q = early ? 1 - vbc / vaf : 1;
-  const dq = early ? -1 / vaf : 0;
-  out[IC] = m * ((icc - iec) * q - iec / br) - g * vbc;
-  out[IB] = m * (icc / bf + iec / br) + g * (vbe + vbc);
-  out[DIC_DVBE] = m * dicc * q;
-  out[DIC_DVBC] = m * (-diec * q + (icc - iec) * dq - diec / br) - g;
-  out[DIB_DVBE] = (m * dicc) / bf + g;
-  out[DIB_DVBC] = (m * diec) / br + g;
-  out[GM] = m * dicc * q;
-  out[GPI] = (m * dicc) / bf;
+  const ibe1 = is * (guardedExpValue(xbe) - 1);
+  const gbe1 = (is * guardedExpSlope(xbe)) / nfvt;
+  const ibc1 = is * (guardedExpValue(xbc) - 1);
+  const gbc1 = (is * guardedExpSlope(xbc)) / nrvt;
+  let ibe2 = 0;
+  let gbe2 = 0;
+  const ise = par[o + P_ISE];
+  if (ise > 0) {
+    const nevt = par[o + P_NEVT];
+    ibe2 = ise * (guardedExpValue(vbe / nevt) - 1);
+    gbe2 = (ise * guardedExpSlope(vbe / nevt)) / nevt;
+  }
+  let ibc2 = 0;
+  let gbc2 = 0;
+  const isc = par[o + P_ISC];
+  if (isc > 0) {
+    const ncvt = par[o + P_NCVT];
+    ibc2 = isc * (guardedExpValue(vbc / ncvt) - 1);
+    gbc2 = (isc * guardedExpSlope(vbc / ncvt)) / ncvt;
+  }
+  // Base charge: Early factor (q1) and high injection (q2).
+  const invVaf = par[o + P_INV_VAF];
+  const invVar = par[o + P_INV_VAR];
+  let d = 1 - vbc * invVaf - vbe * invVar;
+  let dDvbe = -invVar;
+  let dDvbc = -invVaf;
+  if (d < EARLY_FLOOR) {
+    const s = Math.exp((d - EARLY_FLOOR) / EARLY_FLOOR);
+    d = EARLY_FLOOR * s;
+    dDvbe *= s;
+    dDvbc *= s;
+  }
+  const q1 = 1 / d;
+  const dq1Dvbe = -dDvbe / (d * d);
+  const dq1Dvbc = -dDvbc / (d * d);
+  const invIkf = par[o + P_INV_IKF];
+  const invIkr = par[o + P_INV_IKR];
+  let qb = q1;
+  let dqbDvbe = dq1Dvbe;
+  let dqbDvbc = dq1Dvbc;
+  if (invIkf > 0 || invIkr > 0) {
+    const q2 = ibe1 * invIkf + ibc1 * invIkr;
+    let arg = 1 + 4 * q2;
+    let dq2Dvbe = gbe1 * invIkf;
+    let dq2Dvbc = gbc1 * invIkr;
+    if (!(arg > 1e-12)) {
+      // Only a knee current below 4·IS under reverse bias gets here; hold the root.
+      arg = 1e-12;
+      dq2Dvbe = 0;
+      dq2Dvbc = 0;
+    }
+    const root = Math.sqrt(arg);
+    qb = (q1 * (1 + root)) / 2;
+    dqbDvbe = (dq1Dvbe * (1 + root)) / 2 + (q1 * dq2Dvbe) / root;
+    dqbDvbc = (dq1Dvbc * (1 + root)) / 2 + (q1 * dq2Dvbc) / root;
+  }
+  const it = (ibe1 - ibc1) / qb;
+  const ditDvbe = gbe1 / qb - (it * dqbDvbe) / qb;
+  const ditDvbc = -gbc1 / qb - (it * dqbDvbc) / qb;
+  const bf = par[o + P_BF];
+  const br = par[o + P_BR];
+  out[IC] = it - ibc1 / br - ibc2 - g * vbc;
+  out[IB] = ibe1 / bf + ibe2 + ibc1 / br + ibc2 + g * (vbe + vbc);
+  out[DIC_DVBE] = ditDvbe;
+  out[DIC_DVBC] = ditDvbc - gbc1 / br - gbc2 - g;
+  out[DIB_DVBE] = gbe1 / bf + gbe2 + g;
+  out[DIB_DVBC] = gbc1 / br + gbc2 + g;
+  out[GM] = ditDvbe;
+  out[GPI] = gbe1 / bf + gbe2;
+  out[QB] = qb;
   return xbe > EXP_ARG_LIMIT || xbc > EXP_ARG_LIMIT;
 }
 
-/** The BJT equations at one bias (own polarity), for tests and hand checks; the table evaluates the same function in its loop. */
+/** Writes the parameter row of `p` (M folded into the currents) at `par[o …]`. */
+function paramRow(p: BjtParams, par: Float64Array, o: number): void {
+  const m = p.m;
+  par[o + P_IS] = p.is * m;
+  par[o + P_ISE] = (p.ise ?? 0) * m;
+  par[o + P_ISC] = (p.isc ?? 0) * m;
+  par[o + P_BF] = p.bf;
+  par[o + P_BR] = p.br;
+  par[o + P_NFVT] = p.nf * p.vt;
+  par[o + P_NRVT] = p.nr * p.vt;
+  par[o + P_NEVT] = (p.ne ?? 1.5) * p.vt;
+  par[o + P_NCVT] = (p.nc ?? 2) * p.vt;
+  par[o + P_INV_VAF] = inverse(p.vaf);
+  par[o + P_INV_VAR] = inverse(p.var ?? Infinity);
+  par[o + P_INV_IKF] = inverse((p.ikf ?? Infinity) * m);
+  par[o + P_INV_IKR] = inverse((p.ikr ?? Infinity) * m);
+  par[o + P_GMIN] = p.gmin;
+}
+
+/** 1/v for a finite positive v, 0 for Infinity ("no effect"). */
+function inverse(v: number): number {
+  return Number.isFinite(v) && v > 0 ? 1 / v : 0;
+}
+
+/** The BJT equations at one intrinsic bias (own polarity), for tests and hand checks; the table evaluates the same function in its loop. */
 export function evaluateBjt(vbe: number, vbc: number, p: BjtParams, out?: BjtEvaluation): BjtEvaluation {
-  const s = new Float64Array(8);
-  const clipped = bjtCore(vbe, vbc, p.is, p.bf, p.br, p.nf * p.vt, p.nr * p.vt, p.vaf, p.m, p.gmin, s);
+  const par = new Float64Array(PARAMS);
+  paramRow(p, par, 0);
+  const s = new Float64Array(OUTPUTS);
+  const clipped = bjtCore(vbe, vbc, par, 0, s);
   const r = out ?? ({} as BjtEvaluation);
   r.ic = s[IC];
   r.ib = s[IB];
@@ -99,18 +231,65 @@ export function evaluateBjt(vbe: number, vbc: number, p: BjtParams, out?: BjtEva
   r.dibDvbc = s[DIB_DVBC];
   r.gm = s[GM];
   r.gpi = s[GPI];
+  r.qb = s[QB];
   r.clipped = clipped;
   return r;
 }
 
+/**
+ * The model's DC current gain IC/IB at collector current `ic` (own polarity, > 0) in
+ * forward-active operation with the base-collector junction unbiased (VBC = 0): the β a hand
+ * analysis should use at that current, with high injection (IKF), base-emitter leakage (ISE)
+ * and the temperature and beta scaling already in `p`. Returns BF when `ic` is not a positive
+ * finite number or the equations give no usable answer.
+ */
+export function bjtBetaAt(p: BjtParams, ic: number): number {
+  if (!(ic > 0) || !Number.isFinite(ic) || !(p.is > 0)) return p.bf;
+  const par = new Float64Array(PARAMS);
+  paramRow({ ...p, gmin: 0 }, par, 0);
+  const s = new Float64Array(OUTPUTS);
+  const nfvt = p.nf * p.vt;
+  // IC(VBE) rises monotonically at VBC = 0: bracket the root in VBE, then bisect on ln(IC).
+  let lo = nfvt * Math.log(ic / (p.is * p.m) + 1) - 10 * nfvt;
+  let hi = lo + 40 * nfvt;
+  const icAt = (v: number): number => {
+    bjtCore(v, 0, par, 0, s);
+    return s[IC];
+  };
+  for (let k = 0; k < 60 && icAt(hi) < ic; k++) hi += 10 * nfvt;
+  for (let k = 0; k < 60 && icAt(lo) > ic; k++) lo -= 10 * nfvt;
+  for (let k = 0; k < 200 && hi - lo > 1e-15 * Math.max(1, Math.abs(hi)); k++) {
+    const mid = 0.5 * (lo + hi);
+    if (icAt(mid) < ic) lo = mid;
+    else hi = mid;
+  }
+  bjtCore(0.5 * (lo + hi), 0, par, 0, s);
+  const beta = s[IC] / s[IB];
+  return Number.isFinite(beta) && beta > 0 ? beta : p.bf;
+}
+
+/**
+ * Temperature scaling of the Gummel–Poon parameters (docs/DEVICE-MODELS.md): with r = T/Tnom,
+ * BF(T) = BF·r^XTB (BR likewise), ISE(T) = ISE·r^(−XTB)·(IS(T)/IS)^(1/NE), ISC(T) likewise with NC.
+ */
+export function bjtTemperatureFactors(temperatureC: number, tnomC: number, xtb: number): { beta: number; leakage: number } {
+  const r = (temperatureC + ZERO_CELSIUS_K) / (tnomC + ZERO_CELSIUS_K);
+  if (r === 1 || xtb === 0) return { beta: 1, leakage: 1 };
+  return { beta: Math.pow(r, xtb), leakage: Math.pow(r, -xtb) };
+}
+
+// Terminals per instance: the netlist collector, base and emitter, then the intrinsic ones behind
+// RC, RB and RE (the netlist node itself when that resistance is zero).
 const C = 0;
 const B = 1;
 const E = 2;
-/** Terminals per instance: collector, base, emitter. */
-const T = 3;
+const CI = 3;
+const BI = 4;
+const EI = 5;
+const T = 6;
 
 /** Solved quantities, in the record's key order. */
-const QUANTITIES = ['ic', 'ib', 'ie', 'vbe', 'vbc', 'vce', 'gm', 'rpi', 'ro'] as const;
+const QUANTITIES = ['ic', 'ib', 'ie', 'vbe', 'vbc', 'vce', 'gm', 'rpi', 'ro', 'beta'] as const;
 const REGIONS: readonly BjtRegion[] = ['forward-active', 'saturation', 'cutoff', 'reverse-active'];
 const Q_IC = 0;
 const Q_IB = 1;
@@ -121,6 +300,7 @@ const Q_VCE = 5;
 const Q_GM = 6;
 const Q_RPI = 7;
 const Q_RO = 8;
+const Q_BETA = 9;
 
 /** `DeviceColumns.flags` bit: the model has no Early effect, so `ro` stands for unbounded. */
 const NO_EARLY = 1;
@@ -130,114 +310,181 @@ function regionCode(vbe: number, vbc: number): number {
   return vbc > 0 ? 3 : 2;
 }
 
-/** Every BJT of a circuit. Terminals are [collector, base, emitter]; a substrate node, if any, carries no DC current. */
+/**
+ * Every BJT of a circuit. Terminals are [C, B, E, C′, B′, E′]: RC, RB and RE (divided by
+ * area × M) join each netlist terminal to its intrinsic one, which is the netlist node itself
+ * when the resistance is zero. A substrate node, if any, carries no DC current.
+ */
 export class BjtTable implements DeviceTable {
   readonly kind: DeviceKind = BJT;
   private readonly n: number;
   /** +1 NPN, −1 PNP. */
   private readonly sign: Float64Array;
-  // Nominal parameters (IS times area), read once from the cards.
+  // Nominal parameters (currents times area × M), read once from the cards.
   private readonly isNom: Float64Array;
+  private readonly iseNom: Float64Array;
+  private readonly iscNom: Float64Array;
   private readonly bfNom: Float64Array;
   private readonly brNom: Float64Array;
   private readonly xti: Float64Array;
+  private readonly xtb: Float64Array;
   private readonly eg: Float64Array;
   private readonly nf: Float64Array;
   private readonly nr: Float64Array;
+  private readonly ne: Float64Array;
+  private readonly nc: Float64Array;
   private readonly vaf: Float64Array;
-  private readonly m: Float64Array;
-  // Parameters of the solve in progress.
-  private readonly is: Float64Array;
-  private readonly bf: Float64Array;
-  private readonly br: Float64Array;
+  /** Series conductances of RC, RB, RE (0 when the resistance is zero). */
+  private readonly gc: Float64Array;
+  private readonly gb: Float64Array;
+  private readonly ge: Float64Array;
+  /** Parameter rows of the solve in progress (`PARAMS` per instance). */
+  private readonly par: Float64Array;
   private readonly vcritBe: Float64Array;
   private readonly vcritBc: Float64Array;
   private vt = 0.025;
-  private gmin = 0;
   private tnomC = 27;
   // Limiting history, and the junction voltages the next load linearises at (NaN when none is pending).
   private readonly vbeOld: Float64Array;
   private readonly vbcOld: Float64Array;
   private readonly startVbe: Float64Array;
   private readonly startVbc: Float64Array;
-  private readonly scratch = new Float64Array(8);
+  private readonly scratch = new Float64Array(OUTPUTS);
 
   constructor(readonly instances: DeviceInstances<Bjt>, issues: ParamIssue[]) {
     const n = (this.n = instances.count);
     const col = (): Float64Array => new Float64Array(n);
     this.sign = col();
     this.isNom = col();
+    this.iseNom = col();
+    this.iscNom = col();
     this.bfNom = col();
     this.brNom = col();
     this.xti = col();
+    this.xtb = col();
     this.eg = col();
     this.nf = col();
     this.nr = col();
+    this.ne = col();
+    this.nc = col();
     this.vaf = col();
-    this.m = col();
-    this.is = col();
-    this.bf = col();
-    this.br = col();
+    this.gc = col();
+    this.gb = col();
+    this.ge = col();
+    this.par = new Float64Array(n * PARAMS);
     this.vcritBe = col().fill(0.6);
     this.vcritBc = col().fill(0.6);
     this.vbeOld = col();
     this.vbcOld = col();
     this.startVbe = col().fill(Number.NaN);
     this.startVbc = col().fill(Number.NaN);
+    const t = instances.terminals;
     for (let i = 0; i < n; i++) {
       const element = instances.elements[i];
       const md = element.model;
       this.sign[i] = md.kind === 'pnp' ? -1 : 1;
       const area = elementParam(element, 'AREA', element.area, 'positive', 0, issues);
-      this.m[i] = elementParam(element, 'M', element.m, 'positive', 0, issues);
-      this.isNom[i] = modelParam(element, md, 'IS', 'non-negative', issues) * area;
+      const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
+      const scale = area * m;
+      this.isNom[i] = modelParam(element, md, 'IS', 'non-negative', issues) * scale;
+      this.iseNom[i] = modelParam(element, md, 'ISE', 'non-negative', issues) * scale;
+      this.iscNom[i] = modelParam(element, md, 'ISC', 'non-negative', issues) * scale;
       this.bfNom[i] = modelParam(element, md, 'BF', 'positive', issues);
       this.brNom[i] = modelParam(element, md, 'BR', 'positive', issues);
       this.xti[i] = modelParam(element, md, 'XTI', 'finite', issues);
+      this.xtb[i] = modelParam(element, md, 'XTB', 'finite', issues);
       this.eg[i] = modelParam(element, md, 'EG', 'finite', issues);
       this.nf[i] = modelParam(element, md, 'NF', 'positive', issues);
       this.nr[i] = modelParam(element, md, 'NR', 'positive', issues);
+      this.ne[i] = modelParam(element, md, 'NE', 'positive', issues);
+      this.nc[i] = modelParam(element, md, 'NC', 'positive', issues);
       this.vaf[i] = modelParam(element, md, 'VAF', 'positive-or-infinite', issues);
+      const o = i * PARAMS;
+      this.par[o + P_INV_VAF] = inverse(this.vaf[i]);
+      this.par[o + P_INV_VAR] = inverse(modelParam(element, md, 'VAR', 'positive-or-infinite', issues));
+      this.par[o + P_INV_IKF] = inverse(modelParam(element, md, 'IKF', 'positive-or-infinite', issues) * scale);
+      this.par[o + P_INV_IKR] = inverse(modelParam(element, md, 'IKR', 'positive-or-infinite', issues) * scale);
+      const series = (name: string, outer: number, inner: number): number => {
+        const r = modelParam(element, md, name, 'non-negative', issues);
+        return t[i * T + outer] !== t[i * T + inner] && r > 0 && scale > 0 ? scale / r : 0;
+      };
+      this.gc[i] = series('RC', C, CI);
+      this.gb[i] = series('RB', B, BI);
+      this.ge[i] = series('RE', E, EI);
     }
-    this.is.set(this.isNom);
-    this.bf.set(this.bfNom);
-    this.br.set(this.brNom);
+    this.prepare({ temperatureC: 27, tnomC: 27, vt: thermalVoltage(27), betaScale: 1, junctionGmin: 0 });
   }
 
-  /** The scaled parameters of instance i in use for the current solve. */
+  /** The scaled parameters of instance i in use for the current solve (currents include area × M, so `m` is 1). */
   modelParams(i: number): BjtParams {
-    return { is: this.is[i], bf: this.bf[i], br: this.br[i], nf: this.nf[i], nr: this.nr[i], vaf: this.vaf[i], m: this.m[i], vt: this.vt, gmin: this.gmin };
+    const o = i * PARAMS;
+    const par = this.par;
+    const back = (v: number): number => (v > 0 ? 1 / v : Infinity);
+    return {
+      is: par[o + P_IS],
+      bf: par[o + P_BF],
+      br: par[o + P_BR],
+      nf: this.nf[i],
+      nr: this.nr[i],
+      vaf: this.vaf[i],
+      var: back(par[o + P_INV_VAR]),
+      ikf: back(par[o + P_INV_IKF]),
+      ikr: back(par[o + P_INV_IKR]),
+      ise: par[o + P_ISE],
+      ne: this.ne[i],
+      isc: par[o + P_ISC],
+      nc: this.nc[i],
+      m: 1,
+      vt: this.vt,
+      gmin: par[o + P_GMIN],
+    };
   }
 
   prepare(c: DeviceConditions): void {
     this.vt = c.vt;
-    this.gmin = c.junctionGmin;
     this.tnomC = c.tnomC;
+    const par = this.par;
     for (let i = 0; i < this.n; i++) {
-      const is = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
-      this.is[i] = is;
-      this.bf[i] = this.bfNom[i] * c.betaScale;
-      this.br[i] = this.brNom[i] * c.betaScale;
+      const o = i * PARAMS;
+      const isNom = this.isNom[i];
+      const is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+      const f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]);
+      const ratio = isNom > 0 ? is / isNom : 1;
+      par[o + P_IS] = is;
+      par[o + P_ISE] = this.iseNom[i] > 0 ? this.iseNom[i] * f.leakage * Math.pow(ratio, 1 / this.ne[i]) : 0;
+      par[o + P_ISC] = this.iscNom[i] > 0 ? this.iscNom[i] * f.leakage * Math.pow(ratio, 1 / this.nc[i]) : 0;
+      par[o + P_BF] = this.bfNom[i] * f.beta * c.betaScale;
+      par[o + P_BR] = this.brNom[i] * f.beta * c.betaScale;
+      par[o + P_NFVT] = this.nf[i] * c.vt;
+      par[o + P_NRVT] = this.nr[i] * c.vt;
+      par[o + P_NEVT] = this.ne[i] * c.vt;
+      par[o + P_NCVT] = this.nc[i] * c.vt;
+      par[o + P_GMIN] = c.junctionGmin;
       this.vcritBe[i] = criticalVoltage(this.nf[i] * c.vt, is);
       this.vcritBc[i] = criticalVoltage(this.nr[i] * c.vt, is);
     }
   }
 
-  resetState(x: Float64Array, start?: StartHint): void {
+  /** Intrinsic VBE and VBC of instance i at x, own polarity, into `out[0]`, `out[1]`. */
+  private intrinsic(x: Float64Array, i: number, out: Float64Array): void {
     const t = this.instances.terminals;
+    const vb = voltage(x, t[i * T + BI]);
+    const s = this.sign[i];
+    out[0] = s * (vb - voltage(x, t[i * T + EI]));
+    out[1] = s * (vb - voltage(x, t[i * T + CI]));
+  }
+
+  resetState(x: Float64Array, start?: StartHint): void {
+    const v = this.scratch;
     for (let i = 0; i < this.n; i++) {
-      const tc = t[i * T + C];
-      const tb = t[i * T + B];
-      const te = t[i * T + E];
-      const vb = tb >= 0 ? x[tb] : 0;
-      const s = this.sign[i];
-      const vbe = s * (vb - (te >= 0 ? x[te] : 0));
-      const vbc = s * (vb - (tc >= 0 ? x[tc] : 0));
+      this.intrinsic(x, i, v);
+      const vbe = v[0];
+      const vbc = v[1];
       this.vbeOld[i] = vbe;
       this.vbcOld[i] = vbc;
       this.startVbe[i] = Number.NaN;
       this.startVbc[i] = Number.NaN;
-      const is = this.is[i];
+      const is = this.par[i * PARAMS + P_IS];
       if (!start || !(is > 0)) continue;
       if (start.kind === 'cold') {
         // Forward-active: base-emitter at its critical voltage, base-collector unbiased.
@@ -256,17 +503,14 @@ export class BjtTable implements DeviceTable {
     const pos = this.instances.positions;
     const ev = this.scratch;
     const vt = this.vt;
-    const g = this.gmin;
     for (let i = 0; i < this.n; i++) {
-      const tc = t[i * T + C];
-      const tb = t[i * T + B];
-      const te = t[i * T + E];
-      const vb = tb >= 0 ? x[tb] : 0;
+      const tc = t[i * T + CI];
+      const tb = t[i * T + BI];
+      const te = t[i * T + EI];
+      const vb = voltage(x, tb);
       const s = this.sign[i];
-      let vbe = s * (vb - (te >= 0 ? x[te] : 0));
-      let vbc = s * (vb - (tc >= 0 ? x[tc] : 0));
-      const nfvt = this.nf[i] * vt;
-      const nrvt = this.nr[i] * vt;
+      let vbe = s * (vb - voltage(x, te));
+      let vbc = s * (vb - voltage(x, tc));
       if (Number.isFinite(this.startVbe[i])) {
         // A pending start point replaces this iteration's bias.
         vbe = this.startVbe[i];
@@ -274,25 +518,28 @@ export class BjtTable implements DeviceTable {
         this.startVbe[i] = Number.NaN;
         tally.limited = true;
       } else if (limit) {
-        const a = limitJunctionValue(vbe, this.vbeOld[i], nfvt, this.vcritBe[i]);
-        const b = limitJunctionValue(vbc, this.vbcOld[i], nrvt, this.vcritBc[i]);
+        const a = limitJunctionValue(vbe, this.vbeOld[i], this.nf[i] * vt, this.vcritBe[i]);
+        const b = limitJunctionValue(vbc, this.vbcOld[i], this.nr[i] * vt, this.vcritBc[i]);
         if (a !== vbe || b !== vbc) tally.limited = true;
         vbe = a;
         vbc = b;
       }
       this.vbeOld[i] = vbe;
       this.vbcOld[i] = vbc;
-      bjtCore(vbe, vbc, this.is[i], this.bf[i], this.br[i], nfvt, nrvt, this.vaf[i], this.m[i], g, ev);
+      bjtCore(vbe, vbc, this.par, i * PARAMS, ev);
       const ic = ev[IC];
       const ib = ev[IB];
       const ie = -(ic + ib);
       const dieDvbe = -(ev[DIC_DVBE] + ev[DIB_DVBE]);
       const dieDvbc = -(ev[DIC_DVBC] + ev[DIB_DVBC]);
-      // Each row: ∂I/∂VBE into (B, E), ∂I/∂VBC into (B, C), then the equivalent current on the right-hand side.
+      // Each intrinsic row: ∂I/∂VBE into (B′, E′), ∂I/∂VBC into (B′, C′), then the equivalent current on the right-hand side.
       const p = i * T * T;
-      stampRow(values, rhs, pos, p + C * T, tc, ic, ev[DIC_DVBE], ev[DIC_DVBC], vbe, vbc, s);
-      stampRow(values, rhs, pos, p + B * T, tb, ib, ev[DIB_DVBE], ev[DIB_DVBC], vbe, vbc, s);
-      stampRow(values, rhs, pos, p + E * T, te, ie, dieDvbe, dieDvbc, vbe, vbc, s);
+      stampRow(values, rhs, pos, p + CI * T, tc, ic, ev[DIC_DVBE], ev[DIC_DVBC], vbe, vbc, s);
+      stampRow(values, rhs, pos, p + BI * T, tb, ib, ev[DIB_DVBE], ev[DIB_DVBC], vbe, vbc, s);
+      stampRow(values, rhs, pos, p + EI * T, te, ie, dieDvbe, dieDvbc, vbe, vbc, s);
+      stampSeries(values, pos, p, C, CI, this.gc[i]);
+      stampSeries(values, pos, p, B, BI, this.gb[i]);
+      stampSeries(values, pos, p, E, EI, this.ge[i]);
       const finite = Number.isFinite(ic) && Number.isFinite(ib) && Number.isFinite(ev[DIC_DVBE] + ev[DIC_DVBC] + ev[DIB_DVBE] + ev[DIB_DVBC]) && Number.isFinite(ie);
       if (!finite) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
@@ -304,26 +551,29 @@ export class BjtTable implements DeviceTable {
     const t = this.instances.terminals;
     const ev = this.scratch;
     for (let i = 0; i < this.n; i++) {
-      const tc = t[i * T + C];
-      const tb = t[i * T + B];
-      const te = t[i * T + E];
-      const vb = tb >= 0 ? x[tb] : 0;
       const s = this.sign[i];
-      const vbe = s * (vb - (te >= 0 ? x[te] : 0));
-      const vbc = s * (vb - (tc >= 0 ? x[tc] : 0));
-      bjtCore(vbe, vbc, this.is[i], this.bf[i], this.br[i], this.nf[i] * this.vt, this.nr[i] * this.vt, this.vaf[i], this.m[i], this.gmin, ev);
+      const vbI = voltage(x, t[i * T + BI]);
+      const vbe = s * (vbI - voltage(x, t[i * T + EI]));
+      const vbc = s * (vbI - voltage(x, t[i * T + CI]));
+      bjtCore(vbe, vbc, this.par, i * PARAMS, ev);
       const ic = s * ev[IC];
       const ib = s * ev[IB];
       const vaf = this.vaf[i];
+      // Terminal voltages as measured at the netlist nodes (they include the drops across RB, RE, RC).
+      const vb = voltage(x, t[i * T + B]);
+      const vc = voltage(x, t[i * T + C]);
+      const ve = voltage(x, t[i * T + E]);
       v[Q_IC][i] = ic;
       v[Q_IB][i] = ib;
       v[Q_IE][i] = -(ic + ib);
-      v[Q_VBE][i] = s * vbe;
-      v[Q_VBC][i] = s * vbc;
-      v[Q_VCE][i] = s * (vbe - vbc);
+      v[Q_VBE][i] = vb - ve;
+      v[Q_VBC][i] = vb - vc;
+      v[Q_VCE][i] = vc - ve;
       v[Q_GM][i] = ev[GM];
       v[Q_RPI][i] = reciprocalOrUnbounded(ev[GPI]);
       v[Q_RO][i] = Number.isFinite(vaf) ? Math.min(UNBOUNDED, Math.abs(ic) > 0 ? vaf / Math.abs(ic) : UNBOUNDED) : UNBOUNDED;
+      const beta = ic / ib;
+      v[Q_BETA][i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : UNBOUNDED;
       out.region[i] = regionCode(vbe, vbc);
       if (!Number.isFinite(vaf)) out.flags[i] = NO_EARLY;
     }
@@ -331,37 +581,63 @@ export class BjtTable implements DeviceTable {
   }
 
   overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
-    const t = this.instances.terminals;
-    const tc = t[i * T + C];
-    const tb = t[i * T + B];
-    const te = t[i * T + E];
-    const vb = tb >= 0 ? x[tb] : 0;
-    const s = this.sign[i];
-    const vbe = s * (vb - (te >= 0 ? x[te] : 0));
-    const vbc = s * (vb - (tc >= 0 ? x[tc] : 0));
+    const v = this.scratch;
+    this.intrinsic(x, i, v);
+    const vbe = v[0];
+    const vbc = v[1];
     const out: OverdrivenJunction[] = [];
-    if (!(this.is[i] > 0 && this.m[i] > 0)) return out;
+    if (!(this.par[i * PARAMS + P_IS] > 0)) return out;
     if (vbe / (this.nf[i] * this.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-emitter junction', volts: vbe });
     if (vbc / (this.nr[i] * this.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-collector junction', volts: vbc });
     return out;
   }
 }
 
+function voltage(x: Float64Array, k: number): number {
+  return k >= 0 ? x[k] : 0;
+}
+
 /**
- * One row of the companion model: the conductances to the base-emitter and base-collector
- * controls at slots `pos[row + B]`, `pos[row + E]`, `pos[row + C]`, and the equivalent current
- * (the terminal current not explained by them) moved to the right-hand side of unknown `k`.
+ * One intrinsic row of the companion model: the conductances to the base-emitter and
+ * base-collector controls at slots `pos[row + B′]`, `pos[row + E′]`, `pos[row + C′]`, and the
+ * equivalent current (the terminal current not explained by them) moved to the right-hand side
+ * of unknown `k`.
  */
 function stampRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, k: number, i: number, gbe: number, gbc: number, vbe: number, vbc: number, s: number): void {
-  const pb = pos[row + B];
-  const pe = pos[row + E];
-  const pc = pos[row + C];
+  const pb = pos[row + BI];
+  const pe = pos[row + EI];
+  const pc = pos[row + CI];
   if (pb >= 0) values[pb] += gbe;
   if (pe >= 0) values[pe] -= gbe;
   if (pb >= 0) values[pb] += gbc;
   if (pc >= 0) values[pc] -= gbc;
   if (k >= 0) rhs[k] -= s * (i - gbe * vbe - gbc * vbc);
 }
+
+/** A series conductance g between terminals a and b of the instance whose slots start at p (nothing when g is 0). */
+function stampSeries(values: Float64Array, pos: Int32Array, p: number, a: number, b: number, g: number): void {
+  if (!(g > 0)) return;
+  add(values, pos[p + a * T + a], g);
+  add(values, pos[p + a * T + b], -g);
+  add(values, pos[p + b * T + a], -g);
+  add(values, pos[p + b * T + b], g);
+}
+
+function add(values: Float64Array, slot: number, v: number): void {
+  if (slot >= 0) values[slot] += v;
+}
+
+/** Whether the instance's model has a usable non-zero resistance `name` (so it needs an intrinsic node). */
+function hasSeries(el: Bjt, name: string): boolean {
+  const r = el.model.params[name];
+  return r !== undefined && Number.isFinite(r) && r > 0 && el.area > 0 && el.m > 0;
+}
+
+const SERIES: readonly [string, string][] = [
+  ['RC', 'internal collector'],
+  ['RB', 'internal base'],
+  ['RE', 'internal emitter'],
+];
 
 /** The BJT kind (element letter Q). */
 export const BJT: DeviceKind = deviceKind<Bjt>({
@@ -370,8 +646,16 @@ export const BJT: DeviceKind = deviceKind<Bjt>({
   terminalCount: T,
   quantities: QUANTITIES,
   regions: REGIONS,
-  internalNodes: () => [],
-  terminals: (el, node) => [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2])],
+  internalNodes: (el) => SERIES.filter(([r]) => hasSeries(el, r)).map(([, label]) => label),
+  terminals: (el, node, internal) => {
+    const outer = [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2])];
+    const inner = outer.slice();
+    let k = 0;
+    SERIES.forEach(([r], j) => {
+      if (hasSeries(el, r)) inner[j] = internal[k++];
+    });
+    return [...outer, ...inner];
+  },
   dcPaths: (el) => [
     [el.nodes[0], el.nodes[1]],
     [el.nodes[1], el.nodes[2]],
@@ -395,6 +679,7 @@ export const BJT: DeviceKind = deviceKind<Bjt>({
       gm: v[Q_GM][i],
       rpi: v[Q_RPI][i],
       ro: v[Q_RO][i],
+      beta: v[Q_BETA][i],
     };
     if (cols.flags[i] & NO_EARLY) rec.roInfinite = true;
     return rec;

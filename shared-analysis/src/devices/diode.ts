@@ -1,24 +1,46 @@
-// Junction diode: ID = IS·(exp(VD/(N·VT)) − 1) with optional series resistance RS (an internal node), as one table of typed arrays with limiting, stamps and records.
+// Junction diode: ID = IS·(exp(VD/(N·VT)) − 1) − IBV·exp(−(VD + BV)/(NBV·VT)) with optional series resistance RS (an internal node), as one table of typed arrays with limiting, stamps and records (docs/DEVICE-MODELS.md).
 
 import type { Diode } from '../circuit';
-import type { DiodeRecord } from '../solve/types';
+import type { DiodeRecord, DiodeRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
 import { allocateColumns, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, shiftJunction } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction } from './physics';
 
 /** Current and conductance of the intrinsic junction at voltage vd. */
 export interface DiodeJunction {
   id: number;
   gd: number;
   clipped: boolean;
+  /** The breakdown term's share of the current, amperes (≥ 0, flowing cathode to anode). */
+  breakdown: number;
 }
 
-/** ID = IS·(exp(vd/nvt) − 1) + gmin·vd and its slope (DESIGN.md), exponential guarded. */
-export function diodeJunction(vd: number, is: number, nvt: number, gmin: number): DiodeJunction {
+/**
+ * ID = IS·(exp(vd/nvt) − 1) − IBV·exp(−(vd + BV)/nbvvt) + gmin·vd and its slope
+ * (docs/DEVICE-MODELS.md), exponentials guarded. `bv` Infinity (the default) drops the breakdown term.
+ */
+export function diodeJunction(vd: number, is: number, nvt: number, gmin: number, bv = Infinity, ibv = 1e-3, nbvvt = nvt): DiodeJunction {
   const x = vd / nvt;
-  return { id: is * (guardedExpValue(x) - 1) + gmin * vd, gd: (is * guardedExpSlope(x)) / nvt + gmin, clipped: x > EXP_ARG_LIMIT };
+  let id = is * (guardedExpValue(x) - 1) + gmin * vd;
+  let gd = (is * guardedExpSlope(x)) / nvt + gmin;
+  let breakdown = 0;
+  let xb = -Infinity;
+  if (Number.isFinite(bv)) {
+    xb = -(vd + bv) / nbvvt;
+    breakdown = ibv * guardedExpValue(xb);
+    id -= breakdown;
+    gd += (ibv * guardedExpSlope(xb)) / nbvvt;
+  }
+  return { id, gd, clipped: x > EXP_ARG_LIMIT || xb > EXP_ARG_LIMIT, breakdown };
+}
+
+/**
+ * Breakdown voltage at temperature: BV(T) = BV·(1 + TBV1·ΔT) (docs/DEVICE-MODELS.md).
+ */
+export function breakdownVoltageAt(bv: number, tbv1: number, temperatureC: number, tnomC: number): number {
+  return bv * (1 + tbv1 * (temperatureC - tnomC));
 }
 
 /** Terminals per instance: anode, internal anode (the anode itself when there is no RS), cathode. */
@@ -27,14 +49,15 @@ const ANODE = 0;
 const JA = 1;
 const JK = 2;
 
-const QUANTITIES = ['id', 'vd'] as const;
-const REGIONS = ['forward', 'reverse'] as const;
+const QUANTITIES = ['id', 'vd', 'rd'] as const;
+const REGIONS: readonly DiodeRegion[] = ['forward', 'reverse', 'breakdown'];
+const BREAKDOWN = 2;
 
 /**
  * Every diode of a circuit. Terminals are [anode, internal anode, cathode]: with RS > 0,
  * RS/(area·M) sits between the anode and the internal node; without it the internal anode is
  * the anode. The junction lies between the internal anode and the cathode. Area and M both
- * multiply IS.
+ * multiply IS and IBV.
  */
 export class DiodeTable implements DeviceTable {
   readonly kind: DeviceKind = DIODE;
@@ -43,11 +66,20 @@ export class DiodeTable implements DeviceTable {
   private readonly nEmission: Float64Array;
   private readonly xti: Float64Array;
   private readonly eg: Float64Array;
+  /** Breakdown voltage at Tnom (Infinity: no breakdown term), its current (× area × M), emission coefficient and temperature coefficient. */
+  private readonly bvNom: Float64Array;
+  private readonly ibv: Float64Array;
+  private readonly nbv: Float64Array;
+  private readonly tbv1: Float64Array;
   /** Series conductance, siemens (0 without RS). */
   private readonly grs: Float64Array;
   private readonly is: Float64Array;
   private readonly nvt: Float64Array;
   private readonly vcrit: Float64Array;
+  private readonly bv: Float64Array;
+  private readonly nbvvt: Float64Array;
+  /** Critical value of the breakdown junction's own forward variable u = −VD − BV. */
+  private readonly vcritBv: Float64Array;
   private gmin = 0;
   private tnomC = 27;
   private readonly vdOld: Float64Array;
@@ -61,10 +93,17 @@ export class DiodeTable implements DeviceTable {
     this.nEmission = col();
     this.xti = col();
     this.eg = col();
+    this.bvNom = col();
+    this.ibv = col();
+    this.nbv = col();
+    this.tbv1 = col();
     this.grs = col();
     this.is = col();
     this.nvt = col().fill(0.025);
     this.vcrit = col().fill(0.6);
+    this.bv = col().fill(Infinity);
+    this.nbvvt = col().fill(0.025);
+    this.vcritBv = col().fill(0.6);
     this.vdOld = col();
     this.startVd = col().fill(Number.NaN);
     const t = instances.terminals;
@@ -78,6 +117,10 @@ export class DiodeTable implements DeviceTable {
       this.nEmission[i] = modelParam(element, m, 'N', 'positive', issues);
       this.xti[i] = modelParam(element, m, 'XTI', 'finite', issues);
       this.eg[i] = modelParam(element, m, 'EG', 'finite', issues);
+      this.bvNom[i] = modelParam(element, m, 'BV', 'positive-or-infinite', issues);
+      this.ibv[i] = modelParam(element, m, 'IBV', 'positive', issues) * scale;
+      this.nbv[i] = modelParam(element, m, 'NBV', 'positive', issues);
+      this.tbv1[i] = modelParam(element, m, 'TBV1', 'finite', issues);
       const rs = modelParam(element, m, 'RS', 'non-negative', issues);
       const internal = t[i * T + JA] !== t[i * T + ANODE];
       this.grs[i] = internal && rs > 0 && scale > 0 ? scale / rs : 0;
@@ -91,6 +134,11 @@ export class DiodeTable implements DeviceTable {
       this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
       this.nvt[i] = this.nEmission[i] * c.vt;
       this.vcrit[i] = criticalVoltage(this.nvt[i], this.is[i]);
+      const bv = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], c.temperatureC, c.tnomC);
+      // A coefficient that drives BV to zero or below leaves no breakdown voltage to speak of; the term is dropped.
+      this.bv[i] = bv > 0 && this.ibv[i] > 0 ? bv : Infinity;
+      this.nbvvt[i] = this.nbv[i] * c.vt;
+      this.vcritBv[i] = criticalVoltage(this.nbvvt[i], this.ibv[i]);
     }
   }
 
@@ -113,6 +161,10 @@ export class DiodeTable implements DeviceTable {
       else if (vd > 0) {
         const is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
         this.startVd[i] = shiftJunction(vd, this.nEmission[i] * start.vt, this.nvt[i], is0, is);
+      } else if (Number.isFinite(this.bv[i])) {
+        // In breakdown the reverse voltage follows BV(T) at constant current.
+        const bv0 = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], start.temperatureC, this.tnomC);
+        if (bv0 > 0 && vd < -0.5 * bv0) this.startVd[i] = vd - (this.bv[i] - bv0);
       }
     }
   }
@@ -124,20 +176,33 @@ export class DiodeTable implements DeviceTable {
     for (let i = 0; i < this.n; i++) {
       let vd = this.junctionVoltage(x, i);
       const nvt = this.nvt[i];
+      const bv = this.bv[i];
+      const nbvvt = this.nbvvt[i];
       if (Number.isFinite(this.startVd[i])) {
         vd = this.startVd[i];
         this.startVd[i] = Number.NaN;
         tally.limited = true;
       } else if (limit) {
-        const v = limitJunctionValue(vd, this.vdOld[i], nvt, this.vcrit[i]);
+        let v = limitJunctionValue(vd, this.vdOld[i], nvt, this.vcrit[i]);
+        if (Number.isFinite(bv) && v < 0) {
+          // The breakdown exponential is limited in its own forward variable u = −VD − BV.
+          const u = limitJunctionValue(-v - bv, -this.vdOld[i] - bv, nbvvt, this.vcritBv[i]);
+          v = -u - bv;
+        }
         if (v !== vd) tally.limited = true;
         vd = v;
       }
       this.vdOld[i] = vd;
       const is = this.is[i];
       const arg = vd / nvt;
-      const id = is * (guardedExpValue(arg) - 1) + gmin * vd;
-      const gd = (is * guardedExpSlope(arg)) / nvt + gmin;
+      let id = is * (guardedExpValue(arg) - 1) + gmin * vd;
+      let gd = (is * guardedExpSlope(arg)) / nvt + gmin;
+      if (Number.isFinite(bv)) {
+        const xb = -(vd + bv) / nbvvt;
+        const ibv = this.ibv[i];
+        id -= ibv * guardedExpValue(xb);
+        gd += (ibv * guardedExpSlope(xb)) / nbvvt;
+      }
       const p = i * T * T;
       // Junction between the internal anode (row/column JA) and the cathode (JK).
       add(values, pos[p + JA * T + JA], gd);
@@ -162,18 +227,21 @@ export class DiodeTable implements DeviceTable {
 
   evaluate(x: Float64Array): DeviceColumns {
     const out = allocateColumns(QUANTITIES.length, this.n);
-    const [id, vdCol] = out.values;
+    const [id, vdCol, rd] = out.values;
     const t = this.instances.terminals;
     const gmin = this.gmin;
     for (let i = 0; i < this.n; i++) {
       const vj = this.junctionVoltage(x, i);
-      const nvt = this.nvt[i];
-      id[i] = this.is[i] * (guardedExpValue(vj / nvt) - 1) + gmin * vj;
+      const j = diodeJunction(vj, this.is[i], this.nvt[i], gmin, this.bv[i], this.ibv[i], this.nbvvt[i]);
+      id[i] = j.id;
       const a = t[i * T + ANODE];
       const k = t[i * T + JK];
       const vd = (a >= 0 ? x[a] : 0) - (k >= 0 ? x[k] : 0);
       vdCol[i] = vd;
-      out.region[i] = vd > 0 ? 0 : 1;
+      const grs = this.grs[i];
+      rd[i] = Math.min(UNBOUNDED, reciprocalOrUnbounded(j.gd) + (grs > 0 ? 1 / grs : 0));
+      // Breakdown when the breakdown current outweighs the junction's own reverse saturation current.
+      out.region[i] = vj < 0 && j.breakdown > this.is[i] ? BREAKDOWN : vd > 0 ? 0 : 1;
     }
     return out;
   }
@@ -208,6 +276,6 @@ export const DIODE: DeviceKind = deviceKind<Diode>({
   checkedJunctions: (el) => [{ junction: 'junction', a: el.nodes[0], b: el.nodes[1] }],
   instanceValues: (el) => [{ name: 'area', value: el.area, typical: 1 }, { name: 'M', value: el.m, typical: 1 }],
   createTable: (instances, issues) => new DiodeTable(instances, issues),
-  record: (cols, _instances, i): DiodeRecord => ({ type: 'diode', id: cols.values[0][i], vd: cols.values[1][i], region: REGIONS[cols.region[i]] }),
+  record: (cols, _instances, i): DiodeRecord => ({ type: 'diode', id: cols.values[0][i], vd: cols.values[1][i], region: REGIONS[cols.region[i]], rd: cols.values[2][i] }),
   terminalCurrent: (cols, i, t) => (t === 0 ? cols.values[0][i] : t === 1 ? -cols.values[0][i] : 0),
 });

@@ -1,4 +1,4 @@
-// MOSFET: Shichman–Hodges level 1 with body effect (DESIGN.md), NMOS and PMOS, source/drain swap, as one table of typed arrays with step limiting, stamps and records.
+// MOSFET: Shichman–Hodges level 1 with body effect and temperature (docs/DEVICE-MODELS.md), NMOS and PMOS, source/drain swap, as one table of typed arrays with step limiting, stamps and records.
 
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { allocateColumns, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { UNBOUNDED, limitChannelValue, limitGateValue } from './physics';
+import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue } from './physics';
 
 /** Level-1 parameters of one device, own polarity (for PMOS `vto` is already sign-flipped). */
 export interface MosParams {
@@ -29,6 +29,19 @@ export interface MosEvaluation {
   region: MosRegion;
 }
 
+/**
+ * Level-1 temperature terms (docs/DEVICE-MODELS.md; common practice): KP(T) = KP·(T/Tnom)^BEX and
+ * |VTO|(T) = |VTO| − TCV·ΔT. `vto` is in the device's own polarity (positive for an
+ * enhancement device of either type); its magnitude moves, so a depletion device's threshold
+ * moves the other way. Returns the factor on KP and the own-polarity threshold at T.
+ */
+export function mosTemperature(vto: number, bex: number, tcv: number, temperatureC: number, tnomC: number): { kpFactor: number; vto: number } {
+  if (temperatureC === tnomC) return { kpFactor: 1, vto };
+  const r = (temperatureC + ZERO_CELSIUS_K) / (tnomC + ZERO_CELSIUS_K);
+  const direction = vto >= 0 ? 1 : -1;
+  return { kpFactor: Math.pow(r, bex), vto: vto - direction * tcv * (temperatureC - tnomC) };
+}
+
 /** Below this the body-effect square root is held constant, so a forward-biased bulk never takes √ of a negative number. */
 const SQRT_ARG_FLOOR = 1e-6;
 
@@ -46,7 +59,7 @@ const VTH = 4;
 const VOV = 5;
 
 /**
- * DESIGN.md level-1 equations for VDS ≥ 0: VTH = VTO + GAMMA·(√(PHI − VBS) − √PHI);
+ * docs/DEVICE-MODELS.md level-1 equations for VDS ≥ 0: VTH = VTO + GAMMA·(√(PHI − VBS) − √PHI);
  * saturation (VDS ≥ VGS − VTH > 0) ID = β/2·(VGS − VTH)²·(1 + LAMBDA·VDS);
  * triode ID = β·((VGS − VTH)·VDS − VDS²/2)·(1 + LAMBDA·VDS); cutoff ID = 0. Writes the
  * slots above into `out` and returns the region's index in REGIONS.
@@ -119,6 +132,12 @@ export class MosfetTable implements DeviceTable {
   readonly kind: DeviceKind = MOSFET;
   private readonly n: number;
   private readonly sign: Float64Array;
+  /** KP·W/L·M and own-polarity VTO at Tnom, with their temperature coefficients. */
+  private readonly betaNom: Float64Array;
+  private readonly vtoNom: Float64Array;
+  private readonly bex: Float64Array;
+  private readonly tcv: Float64Array;
+  /** β and VTO of the solve in progress. */
   private readonly beta: Float64Array;
   private readonly vto: Float64Array;
   private readonly lambda: Float64Array;
@@ -136,6 +155,10 @@ export class MosfetTable implements DeviceTable {
     const n = (this.n = instances.count);
     const col = (): Float64Array => new Float64Array(n);
     this.sign = col();
+    this.betaNom = col();
+    this.vtoNom = col();
+    this.bex = col();
+    this.tcv = col();
     this.beta = col();
     this.vto = col();
     this.lambda = col();
@@ -155,12 +178,16 @@ export class MosfetTable implements DeviceTable {
       const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
       const kp = modelParam(element, md, 'KP', 'non-negative', issues);
       const beta = l > 0 ? (kp * w * m) / l : 0;
-      this.beta[i] = Number.isFinite(beta) ? beta : 0;
-      this.vto[i] = sign * modelParam(element, md, 'VTO', 'finite', issues);
+      this.betaNom[i] = Number.isFinite(beta) ? beta : 0;
+      this.vtoNom[i] = sign * modelParam(element, md, 'VTO', 'finite', issues);
+      this.bex[i] = modelParam(element, md, 'BEX', 'finite', issues);
+      this.tcv[i] = modelParam(element, md, 'TCV', 'finite', issues);
       this.lambda[i] = modelParam(element, md, 'LAMBDA', 'non-negative', issues);
       this.gamma[i] = modelParam(element, md, 'GAMMA', 'non-negative', issues);
       this.phi[i] = modelParam(element, md, 'PHI', 'positive', issues);
     }
+    this.beta.set(this.betaNom);
+    this.vto.set(this.vtoNom);
   }
 
   /** The level-1 parameters of instance i (own polarity). */
@@ -170,6 +197,11 @@ export class MosfetTable implements DeviceTable {
 
   prepare(c: DeviceConditions): void {
     this.gmin = c.junctionGmin;
+    for (let i = 0; i < this.n; i++) {
+      const t = mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, c.tnomC);
+      this.beta[i] = this.betaNom[i] * t.kpFactor;
+      this.vto[i] = t.vto;
+    }
   }
 
   /** Threshold of instance i (own polarity) at body bias vbs. */
@@ -186,7 +218,7 @@ export class MosfetTable implements DeviceTable {
       this.vgsOld[i] = s * (voltage(x, t[i * T + G]) - vs);
       this.vdsOld[i] = s * (voltage(x, t[i * T + D]) - vs);
       this.startVgs[i] = Number.NaN;
-      if (start?.kind !== 'cold') continue; // level 1 has no temperature dependence to predict
+      if (start?.kind !== 'cold') continue; // a warm start from another temperature starts where it was
       // On the edge of saturation with a small overdrive, so the first linearisation has a gm.
       const vth = this.thresholdAt(i, s * (voltage(x, t[i * T + BULK]) - vs));
       this.startVgs[i] = vth + COLD_OVERDRIVE;

@@ -39,7 +39,7 @@ function satisfies(v: number, rule: ParamRule): boolean {
   }
 }
 
-/** Reads model parameter `name` (upper case), falling back to the DESIGN.md default when missing or unusable. */
+/** Reads model parameter `name` (upper case), falling back to the docs/DEVICE-MODELS.md default when missing or unusable. */
 export function modelParam(element: Element, model: Model, name: string, rule: ParamRule, issues: ParamIssue[]): number {
   const kind = model.kind === 'r' ? 'd' : model.kind;
   const fallback = MODEL_DEFAULTS[kind][name] ?? 0;

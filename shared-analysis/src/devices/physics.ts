@@ -13,7 +13,7 @@ export function thermalVoltage(temperatureC: number): number {
 }
 
 /**
- * Saturation current at temperature T from its value at Tnom (DESIGN.md):
+ * Saturation current at temperature T from its value at Tnom (docs/DEVICE-MODELS.md):
  * IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)).
  */
 export function saturationCurrentAt(is: number, xti: number, eg: number, temperatureC: number, tnomC: number): number {

@@ -36,7 +36,7 @@ export interface ElaborationResult {
 
 /** MOSFET width and length used when a card gives none, metres. W/L = 1, so β = KP. */
 export const DEFAULT_MOS_SIZE = 10e-6;
-/** Nominal and analysis temperature when the netlist sets none, °C (DESIGN.md). */
+/** Nominal and analysis temperature when the netlist sets none, °C (docs/DEVICE-MODELS.md). */
 export const DEFAULT_TEMPERATURE_C = 27;
 const DEFAULT_MAX_ELEMENTS = 500_000;
 /** Deepest chain of nested subcircuit instances flattened (keeps the recursion far from the stack limit). */
@@ -93,7 +93,7 @@ interface Instance {
    * Model maps to search, innermost first; `null` marks a model whose card is unusable. `pending`
    * holds the findings of a library model, reported when a device first uses it.
    */
-  modelScopes: Map<string, { model: Model | null; card: ModelCard; uri: string; pending?: Finding[] }>[];
+  modelScopes: Map<string, ModelEntry>[];
 }
 
 /**
@@ -584,10 +584,10 @@ class Elaborator {
         break;
       }
       case 'M': {
-        const model = this.findModel(card, inst, uri);
-        if (!model) return;
         const w = this.geometry(params.get('W'), inst, uri, card, 'W');
         const l = this.geometry(params.get('L'), inst, uri, card, 'L');
+        const model = this.findModel(card, inst, uri, { w, l });
+        if (!model) return;
         if (!params.has('W') || !params.has('L')) {
           const missing = [params.has('W') ? '' : 'W', params.has('L') ? '' : 'L'].filter(Boolean);
           this.sink.add(
@@ -649,33 +649,53 @@ class Elaborator {
     return v;
   }
 
+  /**
+   * A MOSFET's W or L in metres: the card's value times `.option scale` (which netlists use to
+   * write sizes in microns), or the 10 µm default.
+   */
   private geometry(a: Assignment | undefined, inst: Instance, uri: string, card: ElementCard, which: 'W' | 'L'): number {
     if (!a) return DEFAULT_MOS_SIZE;
     const written = this.value(a.value, inst, uri, `${which} of \`${card.name.text}\``, '10 µm is used so the analysis continues.');
     if (written === undefined) return DEFAULT_MOS_SIZE;
+    const scale = this.scale();
     // `.option scale=` multiplies the sizes written on element cards (a process kit's drawn units).
-    const v = written * this.scale();
+    const v = written * scale;
     if (v <= 0) {
       this.sink.add('device-area-invalid', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}; it must be greater than 0, so 10 µm is used and the analysis continues.`, uri, a.value.span, undefined, { value: v });
       return DEFAULT_MOS_SIZE;
     }
     if (v < 1e-9 || v > 1) {
-      const hint = v > 1 ? ` If ${v} µm is meant, write ${a.value.text}u.` : '';
-      this.sink.add('value-out-of-range', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}, outside 1 nm to 1 m; a size is given in metres.${hint}`, uri, a.value.span, undefined, { value: v });
+      const hint = v > 1 ? ` If ${written} µm is meant, write ${a.value.text}u${scale !== 1 ? ' or set .option scale=1u' : ''}.` : '';
+      const scaled = scale !== 1 ? ` (${a.value.text} × scale ${formatEngineering(scale)})` : '';
+      this.sink.add('value-out-of-range', `${which} of \`${card.name.text}\` is ${formatEngineering(v, { unit: 'm' })}${scaled}, outside 1 nm to 1 m; a size is given in metres.${hint}`, uri, a.value.span, undefined, { value: v });
     }
     return v;
   }
 
-  /** Finds the model an element names: subcircuit-local first, then outer scopes; reports not-found and wrong kind. */
-  private findModel(card: ElementCard, inst: Instance, uri: string): Model | undefined {
+  /**
+   * Finds the model an element names: subcircuit-local first, then outer scopes; reports not-found
+   * and wrong kind. A MOSFET (`size` given) may name a binned model: `NAME` then stands for the
+   * bins `NAME.1`, `NAME.2`, … and the one whose LMIN…LMAX and WMIN…WMAX cover its L and W is used.
+   */
+  private findModel(card: ElementCard, inst: Instance, uri: string, size?: { w: number; l: number }): Model | undefined {
     const tok = card.model;
-    const letter = card.letter as 'D' | 'Q' | 'M' | 'R';
+    const letter = card.letter as keyof typeof KINDS_FOR_LETTER;
     const kinds = KINDS_FOR_LETTER[letter];
     if (!tok) return undefined;
     const keep = letter === 'R' ? ' The resistor is kept with its value.' : ' The element is left out.';
     const key = tok.text.toLowerCase();
     for (const scope of inst.modelScopes) {
-      const entry = scope.get(key);
+      let entry = scope.get(key);
+      if (!entry && size) {
+        const bins = binsOf(scope, key);
+        if (bins.length === 0) continue;
+        const chosen = chooseBin(bins, size);
+        if (!chosen) {
+          this.reportNoBin(card, uri, bins, size);
+          return undefined;
+        }
+        entry = chosen;
+      }
       if (!entry) continue;
       if (entry.pending) {
         for (const f of entry.pending) this.sink.add(f.code, f.message, f.uri, f.span, f.related, f.data);
@@ -709,6 +729,22 @@ class Elaborator {
       suggestion ? { modelName: tok.text, expectedKinds: kinds, suggestion } : { modelName: tok.text, expectedKinds: kinds },
     );
     return undefined;
+  }
+
+  private reportNoBin(card: ElementCard, uri: string, bins: ModelEntry[], size: { w: number; l: number }): void {
+    const ranges = bins.slice(0, 12).map((b) => {
+      const r = binRange(b);
+      const m = (v: number): string => (Number.isFinite(v) ? formatEngineering(v, { unit: 'm' }) : '∞');
+      return `${b.card.name.text}: L ${m(r.lmin)}–${m(r.lmax)}, W ${m(r.wmin)}–${m(r.wmax)}`;
+    });
+    this.sink.add(
+      'model-bin-not-found',
+      `\`${card.name.text}\` (L = ${formatEngineering(size.l, { unit: 'm' })}, W = ${formatEngineering(size.w, { unit: 'm' })}) names the binned model \`${card.model!.text}\`, but none of its bins covers that size (${ranges.join('; ')}). The element is left out.`,
+      uri,
+      card.model!.span,
+      bins.slice(0, 8).map((b) => ({ uri: b.uri, span: b.card.span, message: `Bin \`${b.card.name.text}\` is defined here.` })),
+      { modelName: card.model!.text, l: size.l, w: size.w, bins: bins.map((b) => b.card.name.text) },
+    );
   }
 
   private reportTooLarge(uri: string, span: Span): void {
@@ -1122,6 +1158,41 @@ function missingName(f: Finding): string | undefined {
     if (m) return m[1];
   }
   return undefined;
+}
+
+/** One model of a scope: its elaborated model (null when the card is unusable), its card and document, and the findings of a library model not reported yet. */
+type ModelEntry = { model: Model | null; card: ModelCard; uri: string; pending?: Finding[] };
+
+/** The bins of binned model `key` in one scope (`key.1`, `key.2`, …), in bin-number order. */
+function binsOf(scope: Map<string, ModelEntry>, key: string): ModelEntry[] {
+  const out: { n: number; e: ModelEntry }[] = [];
+  const prefix = `${key}.`;
+  for (const [name, e] of scope) {
+    if (!name.startsWith(prefix)) continue;
+    const n = Number(name.slice(prefix.length));
+    if (Number.isInteger(n) && n >= 0) out.push({ n, e });
+  }
+  return out.sort((a, b) => a.n - b.n).map((x) => x.e);
+}
+
+/** LMIN…LMAX and WMIN…WMAX of a bin (0 and ∞ where the card gives none). */
+function binRange(e: ModelEntry): { lmin: number; lmax: number; wmin: number; wmax: number } {
+  const p = e.model?.params ?? {};
+  const get = (k: string, d: number): number => (Number.isFinite(p[k]) ? p[k]! : d);
+  return { lmin: get('LMIN', 0), lmax: get('LMAX', Infinity), wmin: get('WMIN', 0), wmax: get('WMAX', Infinity) };
+}
+
+/**
+ * The bin whose ranges cover L and W: LMIN ≤ L ≤ LMAX and WMIN ≤ W ≤ WMAX, a size exactly on a
+ * shared edge going to the bin that starts there (upper limits exclusive first), then the lowest bin number.
+ */
+function chooseBin(bins: ModelEntry[], size: { w: number; l: number }): ModelEntry | undefined {
+  const covers = (e: ModelEntry, strict: boolean): boolean => {
+    const r = binRange(e);
+    const below = (v: number, max: number): boolean => (strict ? v < max : v <= max);
+    return r.lmin <= size.l && below(size.l, r.lmax) && r.wmin <= size.w && below(size.w, r.wmax);
+  };
+  return bins.find((b) => covers(b, true)) ?? bins.find((b) => covers(b, false));
 }
 
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */

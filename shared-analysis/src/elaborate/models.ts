@@ -1,6 +1,7 @@
 // Elaborates `.model` cards: device type, parameter values with defaults filled in, and range checks.
 
 import { MODEL_DEFAULTS, type Model, type ModelKind, type Origin } from '../circuit';
+import { MODEL_PARAMETERS, modelParameter } from '../devices/parameters';
 import type { ModelCard } from '../syntax/ast';
 import type { ParamScope } from './expressions';
 import type { Sink } from './sink';
@@ -9,7 +10,7 @@ import { formatEngineering } from '../fixes/format';
 import { nameTable } from '../names';
 
 /** Type words of a `.model` card, case-insensitive. */
-const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r' });
+const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r', res: 'r' });
 
 /** The device kinds each element letter accepts. */
 export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'R', ModelKind[]> = {
@@ -21,22 +22,19 @@ export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'R', ModelKind[]> = {
 
 /**
  * Parameters of the full published device models (Gummel–Poon, junction diode, Shichman–Hodges)
- * that the DC bias equations of DESIGN.md do not use. They are accepted with one note per card.
+ * that the DC bias equations of docs/DEVICE-MODELS.md do not use. They are accepted with one note per card.
  */
-const KNOWN_UNUSED: Record<Exclude<ModelKind, 'r'>, Set<string>> = {
-  npn: new Set('VAR IKF IKR ISE ISC NE NC RB RBM IRB RE RC CJE VJE MJE CJC VJC MJC XCJC CJS VJS MJS TF XTF VTF ITF PTF TR XTB FC KF AF'.split(' ')),
-  pnp: new Set('VAR IKF IKR ISE ISC NE NC RB RBM IRB RE RC CJE VJE MJE CJC VJC MJC XCJC CJS VJS MJS TF XTF VTF ITF PTF TR XTB FC KF AF'.split(' ')),
-  d: new Set('CJO CJ0 VJ M TT BV IBV FC KF AF'.split(' ')),
+const BJT_UNUSED = new Set('RBM IRB CJE VJE MJE CJC VJC MJC XCJC CJS VJS MJS TF XTF VTF ITF PTF TR FC KF AF'.split(' '));
+const JFET_UNUSED = new Set('RD RS CGS CGD PB FC KF AF M B ISR NR ALPHA VK'.split(' '));
+const KNOWN_UNUSED: Partial<Record<ModelKind, Set<string>>> = {
+  njf: JFET_UNUSED,
+  pjf: JFET_UNUSED,
+  npn: BJT_UNUSED,
+  pnp: BJT_UNUSED,
+  d: new Set('CJO CJ0 VJ M TT FC KF AF TBV2'.split(' ')),
   nmos: new Set('TOX NSUB U0 UO LD WD CGSO CGDO CGBO CBD CBS CJ MJ CJSW MJSW PB IS JS RD RS KF AF FC NFS XJ TPG NSS'.split(' ')),
   pmos: new Set('TOX NSUB U0 UO LD WD CGSO CGDO CGBO CBD CBS CJ MJ CJSW MJSW PB IS JS RD RS KF AF FC NFS XJ TPG NSS'.split(' ')),
 };
-
-/**
- * Parameters read as limits of the part rather than by the DC equations (`Model.ratings`): BV
- * (a diode's breakdown voltage, which the DC equations here do not model) and RATEDPOWER, the
- * dissipation limit, a parameter of this project's naming accepted on every model type.
- */
-export const RATING_PARAMS = new Set(['BV', 'RATEDPOWER']);
 
 /**
  * Other spellings of model parameters that netlists of the family use, read as the parameter they
@@ -53,7 +51,7 @@ const ALIASES: Record<'bjt' | 'd' | 'mos', Record<string, string>> = {
 const UNKNOWN_LISTED_ONE_BY_ONE = 3;
 
 /** Parameters among KNOWN_UNUSED that change the DC operating point, named in the note so nobody is surprised. */
-const DC_RELEVANT = new Set(['RB', 'RE', 'RC', 'IKF', 'IKR', 'ISE', 'ISC', 'VAR', 'BV', 'RD', 'RS']);
+const DC_RELEVANT = new Set(['RBM', 'IRB', 'TBV2', 'RD', 'RS']);
 
 /** Range rules: a predicate the value must meet and the phrase shown when it does not. */
 const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = nameTable({
@@ -67,6 +65,19 @@ const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = name
   KP: { ok: (v) => v > 0, must: 'must be greater than 0' },
   PHI: { ok: (v) => v > 0, must: 'must be greater than 0' },
   VAF: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no Early effect)' },
+  VAR: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no reverse Early effect)' },
+  IKF: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no high-injection knee)' },
+  IKR: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no high-injection knee)' },
+  ISE: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  ISC: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  NE: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  NC: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  RB: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  RE: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  RC: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  BV: { ok: (v) => v >= 0, must: 'cannot be negative (0 means no breakdown)' },
+  IBV: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  NBV: { ok: (v) => v > 0, must: 'must be greater than 0' },
   RS: { ok: (v) => v >= 0, must: 'cannot be negative' },
   GAMMA: { ok: (v) => v >= 0, must: 'cannot be negative' },
   LAMBDA: { ok: (v) => v >= 0, must: 'cannot be negative' },
@@ -83,7 +94,7 @@ export interface ModelContext {
 /**
  * Elaborates one `.model` card: the type word, every given parameter evaluated in the scope,
  * defaults from MODEL_DEFAULTS for the rest. Returns undefined for an unknown type.
- * VAF = 0 means "no Early effect" (common practice) and becomes Infinity.
+ * VAF, VAR, IKF, IKR or BV = 0 means "no such effect" (common practice) and becomes Infinity.
  */
 export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | undefined {
   const { uri, scope, sink } = ctx;
@@ -100,19 +111,8 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     return undefined;
   }
   const origin: Origin = { uri, span: card.span, instances: ctx.instances };
-  if (kind === 'r') {
-    // Resistor models are accepted; their parameters do not enter the DC equations here.
-    const params: Record<string, number> = nameTable();
-    for (const a of card.params) {
-      const v = tokenValue(a.value, scope, uri);
-      if (v.ok) params[a.name.text.toUpperCase()] = v.value;
-    }
-    const ratings = params['RATEDPOWER'] !== undefined && params['RATEDPOWER'] > 0 ? { RATEDPOWER: params['RATEDPOWER'] } : undefined;
-    return { name: card.name.text, kind, params, given: Object.keys(params), origin, ...(ratings ? { ratings } : {}) };
-  }
-
   const defaults = MODEL_DEFAULTS[kind];
-  const used = Object.keys(defaults);
+  const used = MODEL_PARAMETERS[kind].map((p) => p.name).filter((n) => n !== 'LEVEL');
   const params: Record<string, number> = nameTable(defaults);
   const given: string[] = [];
   const ignored: string[] = [];
@@ -124,6 +124,8 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   const isMos = kind === 'nmos' || kind === 'pmos';
   const aliases = ALIASES[isMos ? 'mos' : kind === 'd' ? 'd' : 'bjt'];
   let levelUnsupported = false;
+  let level = 1;
+  let levelSpan: ModelCard['span'] | undefined;
   for (const a of card.params) {
     const written = a.name.text.toUpperCase();
     const alias = aliases[written];
@@ -132,27 +134,32 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     if (key === 'LEVEL') {
       const v = tokenValue(a.value, scope, uri);
       given.push('LEVEL');
-      if (!v.ok || v.value !== 1) {
+      if (isMos) {
+        // A higher level is solved with the level-1 law after mapping its core parameters (mapMosParameters).
+        level = v.ok ? v.value : NaN;
+        levelSpan = a.span;
+        levelUnsupported = level !== 1;
+      } else if (!v.ok || v.value !== 1) {
         levelUnsupported = true;
-        const what = isMos ? 'the level-1 square law' : kind === 'd' ? 'the junction-diode equation' : 'the Gummel–Poon DC equations';
+        const what = kind === 'd' ? 'the junction-diode equation' : 'the Gummel–Poon DC equations';
         sink.add(
           'model-level-unsupported',
-          `Only ${what} ${isMos ? 'is' : 'are'} solved; ${v.ok ? `LEVEL=${v.value}` : 'this LEVEL'} is treated as level 1, so the currents of \`${card.name.text}\` are first-order estimates.`,
+          `Only ${what} are solved; ${v.ok ? `LEVEL=${v.value}` : 'this LEVEL'} is treated as level 1, so the currents of \`${card.name.text}\` are first-order estimates.`,
           uri,
           a.span,
         );
       }
       continue;
     }
-    if (!(key in defaults)) {
-      if (key === 'RATEDPOWER' || (RATING_PARAMS.has(key) && KNOWN_UNUSED[kind].has(key))) {
-        // A limit the checks read (BV is also one the DC equations here leave out, so it keeps its note).
-        const v = tokenValue(a.value, scope, uri);
-        if (v.ok && v.value > 0 && Number.isFinite(v.value)) ratings[key] = v.value;
-        if (key !== 'RATEDPOWER') ignored.push(key);
-        continue;
-      }
-      if (KNOWN_UNUSED[kind].has(key)) {
+    if (key === 'RATEDPOWER') {
+      // A limit the checks read, accepted on every model type.
+      const v = tokenValue(a.value, scope, uri);
+      if (v.ok && v.value > 0 && Number.isFinite(v.value)) ratings[key] = v.value;
+      continue;
+    }
+    if (!modelParameter(kind, key)) {
+      // Resistor models carry many parameters of other analyses; those the DC equations do not read are noted together.
+      if (kind === 'r' || KNOWN_UNUSED[kind]?.has(key)) {
         ignored.push(key);
         continue;
       }
@@ -170,7 +177,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     if (!v.ok) {
       sink.add(
         'model-parameter-invalid',
-        `${key} of model \`${card.name.text}\` cannot be read. ${capitalise(v.message)} The default ${formatDefault(defaults[key]!)} is used.`,
+        `${key} of model \`${card.name.text}\` cannot be read. ${capitalise(v.message)} ${capitalise(defaultPhrase(defaults[key]))}.`,
         uri,
         v.inherited ? a.value.span : v.span,
         v.related,
@@ -181,7 +188,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
     if (rule && !rule.ok(v.value)) {
       sink.add(
         'model-parameter-invalid',
-        `${key}=${v.value} in model \`${card.name.text}\` ${rule.must}; the default ${formatDefault(defaults[key]!)} is used instead.`,
+        `${key}=${v.value} in model \`${card.name.text}\` ${rule.must}; ${defaultPhrase(defaults[key])} instead.`,
         uri,
         a.value.span,
         undefined,
@@ -189,9 +196,14 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
       );
       continue;
     }
-    params[key] = key === 'VAF' && v.value === 0 ? Infinity : v.value;
+    params[key] = v.value === 0 && modelParameter(kind, key)?.zeroMeansNone ? Infinity : v.value;
     if (key === 'VTO') vtoAssignment = a;
     if (!given.includes(key)) given.push(key);
+  }
+  if (kind === 'nmos' || kind === 'pmos') {
+    params['LEVEL'] = Number.isFinite(level) ? level : 1;
+    const mapped = mapMosParameters(params, given);
+    if (level !== 1) levelFinding(card, level, levelSpan ?? card.name.span, mapped, given, ctx);
   }
   if (vtoAssignment) thresholdSign(card.name.text, kind, params['VTO']!, vtoAssignment.span, ctx);
   if (aliased.length > 0) {
@@ -257,9 +269,66 @@ function reportUnknown(card: ModelCard, kind: ModelKind, unknown: ModelCard['par
   );
 }
 
+/** Permittivity of silicon dioxide, F/m: 3.9·ε0 with ε0 = 8.854e-12 F/m (docs/DEVICE-MODELS.md). */
+export const EPSILON_OX = 3.9 * 8.854e-12;
+
+const MAPPED_UNITS: Record<string, string> = { VTO: 'V', KP: 'A/V²', GAMMA: '√V' };
+
+/** One level-1 parameter taken from a higher-level model's parameters. */
+interface MappedParameter {
+  name: string;
+  value: number;
+  from: string;
+}
+
+/**
+ * Fills the level-1 parameters a card does not give from the core parameters of a higher-level
+ * model (docs/DEVICE-MODELS.md): VTO ← VTH0, KP ← U0·εox/TOX (U0 above 1 is in cm²/V·s, as model
+ * kits write it, and is converted to m²/V·s), GAMMA ← K1. A level-1 card with U0 and TOX but no
+ * KP gets its KP the same way. Returns what was mapped.
+ */
+export function mapMosParameters(params: Record<string, number>, given: string[]): MappedParameter[] {
+  const out: MappedParameter[] = [];
+  const has = (k: string): boolean => given.includes(k) && Number.isFinite(params[k]);
+  if (!given.includes('VTO') && has('VTH0')) {
+    params['VTO'] = params['VTH0']!;
+    out.push({ name: 'VTO', value: params['VTO']!, from: 'VTH0' });
+  }
+  if (!given.includes('KP') && has('U0') && has('TOX') && params['TOX']! > 0 && params['U0']! > 0) {
+    const u0 = params['U0']!;
+    const mobility = u0 > 1 ? u0 * 1e-4 : u0;
+    params['KP'] = (mobility * EPSILON_OX) / params['TOX']!;
+    out.push({ name: 'KP', value: params['KP']!, from: u0 > 1 ? 'U0 (cm²/V·s) and TOX' : 'U0 (m²/V·s) and TOX' });
+  }
+  if (!given.includes('GAMMA') && has('K1') && params['K1']! >= 0) {
+    params['GAMMA'] = params['K1']!;
+    out.push({ name: 'GAMMA', value: params['GAMMA']!, from: 'K1' });
+  }
+  return out;
+}
+
+/** The one finding of a MOS model of a level above 1: its currents are a level-1 approximation, with the parameters used. */
+function levelFinding(card: ModelCard, level: number, span: ModelCard['span'], mapped: MappedParameter[], given: string[], ctx: ModelContext): void {
+  const core = ['VTO', 'KP', 'GAMMA', 'LAMBDA', 'PHI'];
+  const parts = core.map((name) => {
+    const m = mapped.find((p) => p.name === name);
+    if (m) return `${name} = ${formatEngineering(m.value, { unit: MAPPED_UNITS[name] })} from ${m.from}`;
+    return given.includes(name) ? `${name} as written` : `${name} at its level-1 default`;
+  });
+  const levelText = Number.isFinite(level) ? `LEVEL=${level}` : 'an unreadable LEVEL';
+  ctx.sink.add(
+    'model-level-approximated',
+    `\`${card.name.text}\` is a ${levelText} model; it is solved with the level-1 square law, so its currents are a level-1 approximation. Used: ${parts.join(', ')}.`,
+    ctx.uri,
+    span,
+    undefined,
+    { modelName: card.name.text, level: Number.isFinite(level) ? level : null, mapped: mapped.map((m) => ({ parameter: m.name, value: m.value, from: m.from })) },
+  );
+}
+
 /**
  * Flags a threshold whose sign describes a depletion device. Under the sign convention of the
- * Shichman–Hodges level-1 model (DESIGN.md: PMOS mirrors every sign of NMOS, VTO included), an
+ * Shichman–Hodges level-1 model (docs/DEVICE-MODELS.md: PMOS mirrors every sign of NMOS, VTO included), an
  * enhancement NMOS has VTO > 0 and an enhancement PMOS VTO < 0 (common practice, from memory).
  * A positive PMOS VTO is nearly always a dropped minus sign; a negative NMOS VTO is a real but rare
  * depletion device in bias networks, so it only gets a note.
@@ -288,8 +357,10 @@ function thresholdSign(model: string, kind: ModelKind, vto: number, span: ModelC
   }
 }
 
-function formatDefault(v: number): string {
-  return Number.isFinite(v) ? String(v) : '∞ (no Early effect)';
+/** What is used when a given value is unusable: the default, or nothing for a parameter that only matters when given. */
+function defaultPhrase(v: number | undefined): string {
+  if (v === undefined) return 'it is left unset';
+  return `the default ${Number.isFinite(v) ? String(v) : '∞ (no such effect)'} is used`;
 }
 
 function capitalise(s: string): string {

@@ -48,47 +48,10 @@ export const DOT_CARDS: DotCardInfo[] = [
   { name: '.end', form: '.end', description: 'Ends the netlist: nothing after it is read.' },
 ];
 
-/** Meaning and unit of one model parameter. */
-export interface ModelParameterInfo {
-  name: string;
-  meaning: string;
-  unit: string;
-}
-
-const BJT_PARAMS: ModelParameterInfo[] = [
-  { name: 'IS', meaning: 'transport saturation current', unit: 'A' },
-  { name: 'BF', meaning: 'ideal forward current gain (beta)', unit: '' },
-  { name: 'BR', meaning: 'ideal reverse current gain', unit: '' },
-  { name: 'NF', meaning: 'forward emission coefficient', unit: '' },
-  { name: 'NR', meaning: 'reverse emission coefficient', unit: '' },
-  { name: 'VAF', meaning: 'forward Early voltage', unit: 'V' },
-  { name: 'XTI', meaning: 'temperature exponent of IS', unit: '' },
-  { name: 'EG', meaning: 'band-gap energy used for the temperature dependence of IS', unit: 'eV' },
-];
-
-const MOS_PARAMS: ModelParameterInfo[] = [
-  { name: 'KP', meaning: 'transconductance parameter (µ·Cox)', unit: 'A/V²' },
-  { name: 'VTO', meaning: 'threshold voltage at zero bulk bias', unit: 'V' },
-  { name: 'LAMBDA', meaning: 'channel-length modulation', unit: '1/V' },
-  { name: 'GAMMA', meaning: 'body-effect coefficient', unit: '√V' },
-  { name: 'PHI', meaning: 'surface potential', unit: 'V' },
-];
-
-/** Model parameters the engine reads, per model kind, with their meaning. */
-export const MODEL_PARAMETERS: Record<ModelKind, ModelParameterInfo[]> = nameTable({
-  npn: BJT_PARAMS,
-  pnp: BJT_PARAMS,
-  d: [
-    { name: 'IS', meaning: 'saturation current', unit: 'A' },
-    { name: 'N', meaning: 'emission coefficient', unit: '' },
-    { name: 'RS', meaning: 'series resistance', unit: 'Ω' },
-    { name: 'XTI', meaning: 'temperature exponent of IS', unit: '' },
-    { name: 'EG', meaning: 'band-gap energy used for the temperature dependence of IS', unit: 'eV' },
-  ],
-  nmos: MOS_PARAMS,
-  pmos: MOS_PARAMS,
-  r: [],
-}) as Record<ModelKind, ModelParameterInfo[]>;
+import type { ModelParameterInfo } from '../devices/parameters';
+export type { ModelParameterInfo } from '../devices/parameters';
+/** Model parameters the engine reads, per model kind, with meaning, unit and default (one table in devices/). */
+export { MODEL_PARAMETERS } from '../devices/parameters';
 
 /** The model kinds a model type word names (`npn` → npn), or undefined. */
 export function modelKindOf(type: string): ModelKind | undefined {

@@ -111,7 +111,7 @@ function plainNumber(v: number): string {
 
 /**
  * The magnitudes below which a solved quantity is numerical noise rather than a value
- * (DESIGN.md "Regions": a device whose terminal currents are all below 1 pA is off). The
+ * (docs/DEVICE-MODELS.md "Regions": a device whose terminal currents are all below 1 pA is off). The
  * solver settles node voltages to about a nanovolt; a microvolt is far below any bias voltage
  * a designer reads, and a picowatt is a picoampere across a volt.
  */

@@ -1,6 +1,7 @@
 // Fixes for model findings: insert a missing .model card with its defaults written out, and unify a mirror's models.
 
-import { MODEL_DEFAULTS, type Circuit, type ModelKind } from '../circuit';
+import type { Circuit, ModelKind } from '../circuit';
+import { MODEL_PARAMETERS } from '../devices/parameters';
 import { railsByIndex } from '../structures/rails';
 import type { Card, ParsedDocument } from '../syntax/ast';
 import { LineIndex } from '../syntax/line-index';
@@ -10,7 +11,7 @@ import type { Finding, Fix, Span, TextEdit } from '../types';
 /** The device kinds a `.model` card can declare with defaults (everything but the resistor model). */
 export type DefaultedKind = Exclude<ModelKind, 'r'>;
 
-const KIND_WORDS: Record<DefaultedKind, string> = { npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos' };
+const KIND_WORDS: Record<DefaultedKind, string> = { npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', njf: 'njf', pjf: 'pjf', sw: 'sw', csw: 'csw' };
 
 const KIND_DESCRIPTIONS: Record<DefaultedKind, string> = {
   npn: 'an NPN transistor',
@@ -18,6 +19,10 @@ const KIND_DESCRIPTIONS: Record<DefaultedKind, string> = {
   d: 'a diode',
   nmos: 'an n-channel MOSFET',
   pmos: 'a p-channel MOSFET',
+  njf: 'an n-channel JFET',
+  pjf: 'a p-channel JFET',
+  sw: 'a voltage-controlled switch',
+  csw: 'a current-controlled switch',
 };
 
 /** The line ending a document mostly uses: CRLF when any line ends with CRLF, else LF. */
@@ -26,17 +31,18 @@ export function lineEndingOf(text: string): '\r\n' | '\n' {
 }
 
 /**
- * The text of a `.model` card for `name` of `kind` with every finite default written out,
- * e.g. `.model QREF npn (IS=1e-16 BF=100 BR=1 NF=1 NR=1 XTI=3 EG=1.11) ; VAF not given: no Early effect`.
- * Defaults that are infinite (VAF) cannot be written as a number and are named in a comment instead.
+ * The text of a `.model` card for `name` of `kind` with the default of every core parameter written
+ * out, e.g. `.model QREF npn (IS=1e-16 BF=100 BR=1 NF=1 NR=1 XTI=3 EG=1.11) ; VAF not given: no Early effect`.
+ * Defaults that are infinite (VAF) cannot be written as a number and are named in a comment instead;
+ * the second-order parameters (IKF, ISE, BV, …) are left out, and their defaults switch their effect off.
  */
 export function defaultModelCardText(name: string, kind: DefaultedKind): string {
-  const defaults = MODEL_DEFAULTS[kind];
   const written: string[] = [];
   const unbounded: string[] = [];
-  for (const [param, value] of Object.entries(defaults)) {
-    if (Number.isFinite(value)) written.push(`${param}=${formatNumber(value)}`);
-    else unbounded.push(param);
+  for (const p of MODEL_PARAMETERS[kind]) {
+    if (!p.core || p.default === undefined) continue;
+    if (Number.isFinite(p.default)) written.push(`${p.name}=${formatNumber(p.default)}`);
+    else unbounded.push(p.name);
   }
   const card = `.model ${name} ${KIND_WORDS[kind]} (${written.join(' ')})`;
   if (unbounded.length === 0) return card;

@@ -875,7 +875,7 @@ export class DcSolver {
 
   /**
    * The numbers an element brings into the equations, each with its distance in decades from
-   * its ordinary scale: 1 for most, the DESIGN.md default for IS and KP, which are tiny by nature.
+   * its ordinary scale: 1 for most, the docs/DEVICE-MODELS.md default for IS and KP, which are tiny by nature.
    */
   private valuesOf(el: Element): { name: string; value: number; decades: number }[] {
     const item = (name: string, value: number, typical = 1): { name: string; value: number; decades: number } => ({

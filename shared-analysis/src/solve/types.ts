@@ -1,7 +1,9 @@
 // The DC operating point as the solver returns it: plain, JSON-safe data.
 
-/** BJT regions by junction bias (DESIGN.md). */
+/** BJT regions by junction bias (docs/DEVICE-MODELS.md). */
 export type BjtRegion = 'forward-active' | 'saturation' | 'cutoff' | 'reverse-active';
+/** Diode regions: forward, reverse, or reverse breakdown (a zener at work). */
+export type DiodeRegion = 'forward' | 'reverse' | 'breakdown';
 /** MOSFET regions of the square-law model. */
 export type MosRegion = 'saturation' | 'triode' | 'cutoff';
 
@@ -22,6 +24,8 @@ export interface BjtRecord {
   ro: number;
   /** True when the model has no Early effect and `ro` is reported as 1e30 Ω. */
   roInfinite?: boolean;
+  /** DC current gain IC/IB at this operating point: the model's β at the operating current (high injection, leakage and temperature included). */
+  beta: number;
 }
 
 export interface MosRecord {
@@ -45,7 +49,10 @@ export interface DiodeRecord {
   /** Anode-to-cathode current and voltage (across the whole device including RS). */
   id: number;
   vd: number;
-  region: 'forward' | 'reverse';
+  /** `breakdown` when the reverse breakdown current (BV, IBV) dominates the junction's reverse current. */
+  region: DiodeRegion;
+  /** Dynamic (small-signal) resistance dVD/dID at this point, including RS, ohms. */
+  rd: number;
 }
 
 /** Resistors, sources and controlled sources: current from the first node through the element to the second, voltage first minus second, power absorbed (negative when delivering). */

@@ -64,6 +64,7 @@ class HandAnalysis {
       value: h.vt,
       unit: 'V',
     });
+    steps.push(...this.betaSteps());
     const feed = s.reference;
     let iref = 0;
     let irefFrom: Estimate['irefFrom'] = 'unknown';
@@ -221,6 +222,34 @@ class HandAnalysis {
       ...(voltages ? { voltages } : {}),
       ...(voltageTempco ? { voltageTempco } : {}),
     };
+  }
+
+  /**
+   * One step per bipolar device whose β is not simply BF: the model's β at the device's operating
+   * current (IKF, ISE) or at temperature (XTB), as docs/DEVICE-MODELS.md defines it.
+   */
+  private betaSteps(): EstimateStep[] {
+    const { h, s } = this;
+    if (!h.bipolar) return [];
+    const out: EstimateStep[] = [];
+    for (const d of s.devices) {
+      if (!h.topo.byName.has(d)) continue;
+      const p = h.dev(d);
+      const xtb = p.model.given.includes('XTB') && this.at.temperatureC !== this.circuit.tnomC;
+      if (p.betaAtCurrent === undefined && !xtb) continue;
+      out.push({
+        quantity: `β(${d})`,
+        formula:
+          p.betaAtCurrent !== undefined
+            ? "the model's IC/IB at the device's operating current (Gummel–Poon: high injection IKF, leakage ISE and temperature XTB included)"
+            : 'BF·(T/Tnom)^XTB (temperature scaling of β)',
+        substituted: p.betaAtCurrent !== undefined ? `IC = ${eng(p.betaAtCurrent, 'A')} at ${sig(this.at.temperatureC, 4)} °C` : `BF = ${sig(p.model.params['BF'] ?? 100, 4)}, T = ${sig(this.at.temperatureC + 273.15, 5)} K`,
+        value: p.beta,
+        unit: '',
+        devices: [d],
+      });
+    }
+    return out;
   }
 
   /** The structure at one IREF through its kind's analysis; with `record`, the substituted steps too. */

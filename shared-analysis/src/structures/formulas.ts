@@ -12,7 +12,7 @@ export function thermalVolts(temperatureC: number): number {
 
 /**
  * IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)).
- * Source: P. Antognetti and G. Massobrio, "Semiconductor Device Modeling with SPICE" (DESIGN.md form).
+ * Source: P. Antognetti and G. Massobrio, "Semiconductor Device Modeling with SPICE" (docs/DEVICE-MODELS.md form).
  */
 export function isAtTemperature(is: number, temperatureC: number, tnomC: number, xti: number, eg: number): number {
   const t = temperatureC + 273.15;
@@ -161,7 +161,7 @@ export function diodeMosVgs(id: number, beta: number, vth: number, lambda: numbe
   return vgs;
 }
 
-/** Threshold with body effect: VTH = VTO + GAMMA·(√(PHI + VSB) − √PHI) (Shichman and Hodges; DESIGN.md form with VSB = −VBS). */
+/** Threshold with body effect: VTH = VTO + GAMMA·(√(PHI + VSB) − √PHI) (Shichman and Hodges; docs/DEVICE-MODELS.md form with VSB = −VBS). */
 export function thresholdWithBody(vto: number, gamma: number, phi: number, vsb: number): number {
   if (!(gamma > 0) || !(phi > 0)) return vto;
   return vto + gamma * (Math.sqrt(Math.max(phi + vsb, 0)) - Math.sqrt(phi));

@@ -1,6 +1,8 @@
 // The shared hand-analysis context a structure kind computes with: device parameters at temperature, junction and square-law voltages, rails, recorded steps.
 
 import { MODEL_DEFAULTS, type Circuit, type Model } from '../circuit';
+import { bjtBetaAt, bjtTemperatureFactors } from '../devices/bjt';
+import { mosTemperature } from '../devices/mosfet';
 import { eng, sig } from './format';
 import { diodeMosVgs, isAtTemperature, thermalVolts, thresholdWithBody, vbeAt } from './formulas';
 import { railsByIndex } from './rails';
@@ -22,6 +24,11 @@ export interface EstimateAt {
   irefGiven?: number;
   /** Overrides of `Element.dc` by source name (supply corners on current sources). */
   sourceValues?: Record<string, number>;
+  /**
+   * Device -> its operating collector current (e.g. solved), so a bipolar device's β is the
+   * model's β at that current (`bjtBetaAt`: IKF, ISE and XTB included). Without it β is BF at temperature.
+   */
+  deviceCurrents?: Record<string, number>;
 }
 
 /** The parameters of one device at the analysis temperature, in the structure's own polarity. */
@@ -32,6 +39,8 @@ export interface DeviceParams {
   isEff: number;
   nfVt: number;
   beta: number;
+  /** The collector current β was evaluated at (bipolar, when the model's β depends on current). */
+  betaAtCurrent?: number;
   va: number;
   /** MOS: KP·W/L·M, own-polarity VTO, λ, γ, φ. */
   kBeta: number;
@@ -162,14 +171,15 @@ export class Hand {
     if (t.element.kind === 'Q') {
       const is = positiveOr(get('IS'), 1e-16);
       const isT = isAtTemperature(is, this.at.temperatureC, this.circuit.tnomC, get('XTI'), get('EG'));
-      const bf = positiveOr(get('BF'), 100) * positiveOr(this.at.betaScale ?? 1, 1);
       const va = get('VAF');
+      const beta = bipolarBeta(model, get, t.scale, isT, this.vt, this.at, this.circuit.tnomC, name);
       p = {
         t,
         model,
         isEff: isT * t.scale,
         nfVt: positiveOr(get('NF'), 1) * this.vt,
-        beta: bf,
+        beta: beta.value,
+        betaAtCurrent: beta.current,
         va: va > 0 ? va : Infinity,
         kBeta: 0,
         vto: 0,
@@ -178,7 +188,8 @@ export class Hand {
         phi: 0.6,
       };
     } else {
-      const kp = positiveOr(get('KP'), 2e-5);
+      const temp = mosTemperature(this.sign * get('VTO'), get('BEX'), get('TCV'), this.at.temperatureC, this.circuit.tnomC);
+      const kp = positiveOr(get('KP'), 2e-5) * temp.kpFactor;
       p = {
         t,
         model,
@@ -187,7 +198,7 @@ export class Hand {
         beta: Infinity,
         va: Infinity,
         kBeta: kp * t.scale,
-        vto: this.sign * get('VTO'),
+        vto: temp.vto,
         lambda: Math.max(get('LAMBDA'), 0),
         gamma: Math.max(get('GAMMA'), 0),
         phi: positiveOr(get('PHI'), 0.6),
@@ -356,4 +367,48 @@ export function solveRising(g: (x: number) => number, hi0: number): number {
 
 export function positiveOr(v: number, fallback: number): number {
   return Number.isFinite(v) && v > 0 ? v : fallback;
+}
+
+/**
+ * The β a hand analysis uses for a bipolar device (docs/DEVICE-MODELS.md): BF·(T/Tnom)^XTB times
+ * the beta corner's scale, and — when the model's β depends on current (IKF, IKR or ISE given)
+ * and the device's operating current is known — the model's IC/IB at that current.
+ */
+function bipolarBeta(
+  model: Model,
+  get: (k: string) => number,
+  scale: number,
+  isT: number,
+  vt: number,
+  at: EstimateAt,
+  tnomC: number,
+  name: string,
+): { value: number; current?: number } {
+  const f = bjtTemperatureFactors(at.temperatureC, tnomC, get('XTB'));
+  const bf = positiveOr(get('BF'), 100) * f.beta * positiveOr(at.betaScale ?? 1, 1);
+  const current = at.deviceCurrents?.[name];
+  const dependsOnCurrent = ['IKF', 'IKR', 'ISE'].some((k) => model.given.includes(k));
+  if (!dependsOnCurrent || current === undefined || !(Math.abs(current) > 0)) return { value: bf };
+  const is = positiveOr(get('IS'), 1e-16);
+  const ratio = isT / is;
+  const ne = positiveOr(get('NE'), 1.5);
+  const value = bjtBetaAt(
+    {
+      is: isT * scale,
+      bf,
+      br: positiveOr(get('BR'), 1),
+      nf: positiveOr(get('NF'), 1),
+      nr: positiveOr(get('NR'), 1),
+      vaf: Infinity,
+      var: get('VAR') > 0 ? get('VAR') : Infinity,
+      ikf: get('IKF') > 0 ? get('IKF') * scale : Infinity,
+      ise: Math.max(get('ISE'), 0) * scale * f.leakage * Math.pow(ratio, 1 / ne),
+      ne,
+      m: 1,
+      vt,
+      gmin: 0,
+    },
+    Math.abs(current),
+  );
+  return { value, current: Math.abs(current) };
 }

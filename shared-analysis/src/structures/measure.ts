@@ -21,7 +21,7 @@ export interface Measurement {
  * of the currents into every structure terminal on that node (collector and bases of a
  * simple mirror), so base-current loads outside the structure are not counted. Headroom
  * of a bipolar output is −VBC in its own polarity (the distance of the collector beyond the
- * VBC = 0 edge, DESIGN.md's forward-active definition); of a MOS output VDS − (VGS − VTH).
+ * VBC = 0 edge, docs/DEVICE-MODELS.md's forward-active definition); of a MOS output VDS − (VGS − VTH).
  * An output is out of region when its record says so (or, without a record, when the
  * node voltages put it outside forward-active / saturation). Never NaN: a missing node or
  * record counts as 0 V / 0 A.

@@ -22,7 +22,7 @@ RL out 0 4.7k
         { code: 'junction-beyond-breakdown', line: 5, says: [/reverse-biased by 8\.\d+ V/, /VEB = −8\.\d+ V/, /5–6 V/] },
       ],
     );
-    // Source: the transport model (DESIGN.md) — a reverse-active device's emitter is the terminal the current leaves by:
+    // Source: the transport model (docs/DEVICE-MODELS.md) — a reverse-active device's emitter is the terminal the current leaves by:
     // the load carries the current Q2 passes, V(out) = IE·RL with the emitter current flowing out into RL.
     const q2 = a.operatingPoint!.devices.Q2;
     expect(q2.type === 'bjt' && q2.region).toBe('reverse-active');
@@ -78,7 +78,7 @@ RL vdd out 10k
 `,
       [{ code: 'mirror-line-shunted', line: 5, says: [/M2's drain sits on ref, the gate line of the diode-connected M1/, /M1 carries ≈ 0 A/, /drain and gate look swapped/] }],
     );
-    // Source: Shichman–Hodges triode law (DESIGN.md) with VGS = 5 V, KCL at ref: (5 − V)/10 kΩ = β·((VGS − VTH)·V − V²/2).
+    // Source: Shichman–Hodges triode law (docs/DEVICE-MODELS.md) with VGS = 5 V, KCL at ref: (5 − V)/10 kΩ = β·((VGS − VTH)·V − V²/2).
     const beta = 100e-6 * 10;
     let v = 0.1;
     for (let k = 0; k < 50; k++) {
@@ -236,8 +236,8 @@ DCL mid vcc DN
 });
 
 describe('junction-beyond-breakdown', () => {
-  it('a diode reverse-biased past the BV of its model', () => {
-    check(
+  it('a diode reverse-biased to the BV of its model sits in breakdown, which is solved: no finding', () => {
+    const a = check(
       `Diode reverse-biased past its rating
 VCC vcc 0 30
 R1 vcc k 10k
@@ -246,8 +246,12 @@ R2 k 0 10k
 .model DZ d (IS=1e-14 BV=10)
 .end
 `,
-      [{ code: 'breakdown-not-solved', line: 4, says: [/reverse-biased by 15 V, beyond the breakdown voltage BV = 10 V of its model DZ/, /does not solve reverse breakdown yet/] }],
+      [],
     );
+    // Source: docs/DEVICE-MODELS.md breakdown term — the zener holds about BV and carries the rest of the divider's current.
+    const d1 = a.operatingPoint!.devices.D1;
+    expect(d1.type === 'diode' && d1.region).toBe('breakdown');
+    expect(a.operatingPoint!.nodes.k).toBeCloseTo(10, 0);
   });
 
   it('an emitter–base junction held 5 V or less in reverse is within its rating', () => {

@@ -129,7 +129,7 @@ function textOf(docs: Record<string, ParsedDocument>, uri: string, span: { start
 const NPN = '.model qn npn\n';
 
 describe('values and sources', () => {
-  // Source: engineering suffixes and source forms as in DESIGN.md "Netlist conventions" (common practice).
+  // Source: engineering suffixes and source forms as in the README, "The netlist dialect" (common practice).
   it('reads numbers, expressions, bare parameter names and the DC value of each source form', () => {
     check(
       `values\n.param rb=2.2k\nV1 a 0 DC 5\nV2 b 0 3.3\nV3 c 0 PULSE(1.5 5 0 1n 1n 1u 2u)\nI1 0 d 100uA\nR1 a b 10kOhm\nR2 b c {2*rb}\nR3 c d rb\nR4 d 0 1MEG\nC1 a 0 10p\nL1 c d 1u\n`,
@@ -316,14 +316,17 @@ describe('includes and library sections', () => {
 });
 
 describe('models', () => {
-  // Source: default values of MODEL_DEFAULTS as listed in DESIGN.md "Device equations".
+  // Source: the defaults of docs/DEVICE-MODELS.md (Gummel–Poon defaults: IS 1e-16, BF 100, …, XTB 0).
   it('fills defaults and records what the card gave; VAF=0 means no Early effect (common practice)', () => {
     check(`model\n.model qn npn (BF=150 vaf=0)\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 QN\n`, {
       findings: [],
       also: (r) => {
         const m = r.circuit.models['qn']!;
         expect(m.kind).toBe('npn');
-        expect(m.params).toEqual({ IS: 1e-16, BF: 150, BR: 1, NF: 1, NR: 1, VAF: Infinity, XTI: 3, EG: 1.11 });
+        expect(m.params).toEqual({
+          IS: 1e-16, BF: 150, BR: 1, NF: 1, NR: 1, VAF: Infinity, VAR: Infinity, IKF: Infinity, IKR: Infinity,
+          ISE: 0, NE: 1.5, ISC: 0, NC: 2, RB: 0, RE: 0, RC: 0, XTI: 3, EG: 1.11, XTB: 0,
+        });
         expect(m.given.sort()).toEqual(['BF', 'VAF']);
         expect(r.symbols.models[0]).toMatchObject({ name: 'qn', kind: 'npn', key: 'qn' });
       },
@@ -331,16 +334,16 @@ describe('models', () => {
   });
 
   it('warns about unknown parameters naming the used ones, notes unmodelled ones, and rejects out-of-range values', () => {
-    check(`model params\n.model qn npn (BFF=120 VA=50 RB=100 CJE=1p IS=-1e-15 BF=0)\n.model mn nmos (KP=-1 LEVEL=3)\n.model dd d (N=0)\n`, {
+    check(`model params\n.model qn npn (BFF=120 VA=50 RBM=100 CJE=1p IS=-1e-15 BF=0)\n.model mn nmos (KP=-1 LEVEL=3)\n.model dd d (N=0)\n`, {
       findings: [
-        { code: 'model-unknown-parameter', at: 'BFF', message: /IS, BF, BR, NF, NR, VAF, XTI, EG/ },
+        { code: 'model-unknown-parameter', at: 'BFF', message: /IS, BF, BR, NF, NR, VAF, VAR, IKF/ },
         // VA is the family's other spelling of VAF (common practice, from memory): read as VAF, with one note.
         { code: 'model-parameter-alias', at: 'qn', message: /VA as VAF/ },
-        { code: 'model-parameter-ignored', at: 'qn', message: /RB, CJE.*RB would shift the bias point/ },
+        { code: 'model-parameter-ignored', at: 'qn', message: /RBM, CJE.*RBM would shift the bias point/ },
         { code: 'model-parameter-invalid', at: '-1e-15', message: /IS=-1e-15.*greater than 0.*default 1e-16/ },
         { code: 'model-parameter-invalid', at: { in: 'BF=0', text: '0' }, message: /BF=0/ },
         { code: 'model-parameter-invalid', at: { in: 'KP=-1', text: '-1' }, message: /KP=-1/ },
-        { code: 'model-level-unsupported', at: 'LEVEL=3' },
+        { code: 'model-level-approximated', at: 'LEVEL=3', message: /level-1 approximation.*KP at its level-1 default/ },
         { code: 'model-parameter-invalid', at: { in: 'N=0', text: '0' }, message: /N=0/ },
       ],
       also: (r) => {
@@ -352,7 +355,7 @@ describe('models', () => {
     });
   });
 
-  // Source: Shichman–Hodges level-1 model as in DESIGN.md, "PMOS mirrors every sign" — an enhancement
+  // Source: Shichman–Hodges level-1 model as in docs/DEVICE-MODELS.md, "PMOS mirrors every sign" — an enhancement
   // NMOS has VTO > 0 and an enhancement PMOS VTO < 0; a VTO of the other sign conducts at VGS = 0 V
   // (depletion mode) (common practice, from memory).
   it('warns about a PMOS threshold with the sign of a depletion device and notes a depletion NMOS', () => {
@@ -622,5 +625,67 @@ describe('the code table', () => {
       expect(['error', 'warning', 'info', 'hint']).toContain(severity);
       expect(summary).toMatch(/^[A-Z0-9].*\.$/);
     }
+  });
+});
+
+describe('MOS models of higher levels, bins and geometry scale', () => {
+  // Source: docs/DEVICE-MODELS.md — VTO ← VTH0, KP ← U0·εox/TOX (U0 > 1 in cm²/V·s), GAMMA ← K1, with
+  // εox = 3.9·8.854e-12 F/m (the permittivity of SiO2, common practice, from memory).
+  it('maps VTH0, U0/TOX and K1 of a higher-level model to level 1, with one note naming them', () => {
+    check(`levels\n.model nb nmos (LEVEL=54 VTH0=0.42 U0=420 TOX=4n K1=0.55 LAMBDA=0.06)\nV1 d 0 1\nM1 d d 0 0 nb W=1u L=1u\n`, {
+      findings: [{ code: 'model-level-approximated', at: 'LEVEL=54', message: /LEVEL=54.*level-1 approximation.*VTO = 0.42 V from VTH0.*KP = .* from U0 \(cm²\/V·s\) and TOX.*GAMMA = 550 m√V from K1.*LAMBDA as written.*PHI at its level-1 default/ } ],
+      also: (r) => {
+        const p = r.circuit.models['nb']!.params;
+        expect(p['VTO']).toBe(0.42);
+        expect(p['KP']! / ((420e-4 * 3.9 * 8.854e-12) / 4e-9)).toBeCloseTo(1, 12);
+        expect(p['GAMMA']).toBe(0.55);
+        expect(p['LAMBDA']).toBe(0.06);
+      },
+    });
+  });
+
+  it('reads a U0 of 1 or less as m²/V·s and keeps the level-1 values a card gives itself', () => {
+    check(`levels\n.model pb pmos (level=49 vth0=-0.5 vto=-0.6 u0=0.015 tox=5n)\nV1 d 0 -1\nM1 d d 0 0 pb W=1u L=1u\n`, {
+      findings: [{ code: 'model-level-approximated', at: 'level=49', message: /VTO as written/ }],
+      also: (r) => {
+        const p = r.circuit.models['pb']!.params;
+        expect(p['VTO']).toBe(-0.6);
+        expect(p['KP']! / ((0.015 * 3.9 * 8.854e-12) / 5e-9)).toBeCloseTo(1, 12);
+      },
+    });
+  });
+
+  it('chooses the bin whose L and W ranges cover the device, and reports a size no bin covers', () => {
+    const text =
+      `bins\n.model nch.1 nmos (LMIN=0.1u LMAX=1u WMIN=0.1u WMAX=100u VTO=0.4 KP=200u)\n` +
+      `.model nch.2 nmos (LMIN=1u LMAX=10u WMIN=0.1u WMAX=100u VTO=0.5 KP=180u)\n` +
+      `V1 d 0 1\nM1 d d 0 0 nch W=2u L=0.5u\nM2 d d 0 0 nch W=2u L=1u\nM3 d d 0 0 nch W=2u L=20u\n`;
+    check(text, {
+      findings: [{ code: 'model-bin-not-found', at: { in: 'M3 d d 0 0 nch', text: 'nch' }, message: /L = 20 µm.*nch\.1: L 100 nm–1 µm.*nch\.2: L 1 µm–10 µm/ }],
+      elements: { M1: { model: 'nch.1' }, M2: { model: 'nch.2' }, M3: null },
+    });
+  });
+
+  it('multiplies W and L by .option scale', () => {
+    check(`scale\n.option scale=1u\n.model nn nmos (VTO=0.5)\nV1 d 0 1\nM1 d d 0 0 nn W=4 L=0.5\n`, {
+      findings: [],
+      elements: { M1: { w: 4e-6, l: 0.5e-6 } },
+    });
+  });
+});
+
+describe('Gummel–Poon and breakdown parameters', () => {
+  it('reads IKF, ISE, RB, XTB and BV as used parameters, and 0 as "none" where the trade writes it so', () => {
+    check(`gp\n.model q1 npn (IKF=0 IKR=10m ISE=1f NE=1.8 RB=50 RE=1 RC=5 XTB=1.5 VAR=0)\n.model dz d (BV=5.1 IBV=5m NBV=1.2 TBV1=-5e-4)\nV1 a 0 5\nQ1 a a 0 q1\nD1 0 a dz\n`, {
+      findings: [],
+      also: (r) => {
+        const q = r.circuit.models['q1']!.params;
+        expect(q['IKF']).toBe(Infinity);
+        expect(q['VAR']).toBe(Infinity);
+        expect(q['IKR']).toBe(10e-3);
+        expect(q['RB']).toBe(50);
+        expect(r.circuit.models['dz']!.params['BV']).toBe(5.1);
+      },
+    });
   });
 });

@@ -110,7 +110,7 @@ describe('arithmetic and functions agree with mathjs', () => {
 });
 
 describe('engineering numbers inside expressions', () => {
-  // Source: the engineering-suffix convention of DESIGN.md (common practice).
+  // Source: the engineering-suffix convention of the README ("The netlist dialect") (common practice).
   it('rewrites suffixed numbers before parsing', () => {
     check('2*10k', { value: 20000 });
     check('1meg/3', { value: 1e6 / 3 });

@@ -14,7 +14,7 @@ function check(text: string, expected: number | { error: RegExp }): void {
   }
 }
 
-// Source: the trade's engineering-suffix convention as written in DESIGN.md, "Numbers"
+// Source: the trade's engineering-suffix convention as written in the README, "The netlist dialect", Numbers
 // (common practice): T G MEG K M U N P F MIL, M is milli, MEG is mega, unit letters ignored.
 describe('parseNumber', () => {
   it('reads plain decimal forms', () => {

@@ -65,7 +65,7 @@ describe('completion', () => {
   });
   it('offers model parameters with their meaning and default for the model type', () => {
     const items = check(BASE('.model QX NPN (|'), ['IS', 'BF', 'VAF'], ['KP']);
-    // Defaults: DESIGN.md (BF = 100).
+    // Defaults: docs/DEVICE-MODELS.md (BF = 100).
     expect(items.find((i) => i.label === 'BF')!.documentation).toBe('Default 100.');
     check(BASE('.model MX PMOS |'), ['KP', 'VTO', 'LAMBDA'], ['BF']);
   });

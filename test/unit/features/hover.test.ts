@@ -114,7 +114,7 @@ describe('hover on a bipolar mirror', () => {
   });
 
   it('lists model parameters with the given ones marked and the defaults filled in', () => {
-    // Defaults: DESIGN.md device equations (VAF = ∞, BR = 1, NF = 1 when not given).
+    // Defaults: docs/DEVICE-MODELS.md device equations (VAF = ∞, BR = 1, NF = 1 when not given).
     check(mark(MIRROR, 'QN\nQ2'), {
       spanText: 'QN',
       contains: [/\| BF \| 100 \| given \|/, /\| VAF \| unbounded \(∞\) \| default \|/, /\| BR \| 1 \| default \|/],

@@ -12,7 +12,7 @@ function check(value: number, options: FormatOptions, expected: string): void {
 
 describe('netlist style', () => {
   const netlist: FormatOptions = { style: 'netlist' };
-  // Netlist suffix conventions (DESIGN.md "Netlist conventions"): K, MEG, M = milli, U, N, P, F.
+  // Netlist suffix conventions (the README, "The netlist dialect"): K, MEG, M = milli, U, N, P, F.
   it.each([
     [8200, '8.2k'],
     [1.5e6, '1.5meg'],
@@ -72,7 +72,7 @@ describe('display style', () => {
 });
 
 describe('the noise floor and percentages', () => {
-  // DESIGN.md "Regions": a current below 1 pA is off; solver noise such as 3.49e-18 fV must not read as a number.
+  // docs/DEVICE-MODELS.md "Regions": a current below 1 pA is off; solver noise such as 3.49e-18 fV must not read as a number.
   it.each([
     [3.49e-33, 'V', '≈ 0 V'],
     [1.39e-18, 'A', '≈ 0 A'],

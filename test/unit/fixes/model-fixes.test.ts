@@ -1,7 +1,7 @@
 // The model fixes: inserting a missing .model card with its defaults (LF and CRLF), and unifying a mirror's models.
 
 import { describe, expect, it } from 'vitest';
-import { MODEL_DEFAULTS } from '../../../shared-analysis/src/circuit';
+import { MODEL_PARAMETERS } from '../../../shared-analysis/src/devices/parameters';
 import { parseNumber } from '../../../shared-analysis/src/elaborate/units';
 import { defaultModelCardText, missingModelFixes, unifyMirrorModelFixes } from '../../../shared-analysis/src/fixes/model-fixes';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
@@ -61,11 +61,15 @@ describe('missing-model fix', () => {
       text: `t\n.subckt s a\n.model qloc npn\nQ1 a a 0 QX\n.ends\nX1 n s\n${NPN_CARD}\n.end\n`,
     }));
 
-  // Source: DESIGN.md "Device equations" defaults (MODEL_DEFAULTS): every finite default is written out and reads back equal.
-  it('writes every finite default so the user sees it', () => {
-    for (const kind of ['npn', 'pnp', 'd', 'nmos', 'pmos'] as const) {
+  // Source: the defaults of docs/DEVICE-MODELS.md: every core parameter's finite default is written out and reads back equal.
+  it('writes every core default so the user sees it', () => {
+    for (const kind of ['npn', 'pnp', 'd', 'nmos', 'pmos', 'njf', 'pjf', 'sw', 'csw'] as const) {
       const card = defaultModelCardText('M', kind);
-      for (const [p, v] of Object.entries(MODEL_DEFAULTS[kind])) {
+      for (const { name: p, default: v, core } of MODEL_PARAMETERS[kind]) {
+        if (!core || v === undefined) {
+          expect(card).not.toMatch(new RegExp(`\\b${p}=`));
+          continue;
+        }
         if (!Number.isFinite(v)) {
           expect(card).toContain(`${p} not given`);
           continue;

@@ -10,11 +10,13 @@ import { rng } from '../../seeded-random';
 import type { Spec } from './build';
 import { circuit, model } from './build';
 
-const QN = model('QN', 'npn', { IS: 1e-15, BF: 120, VAF: 60 });
+const QN = model('QN', 'npn', { IS: 1e-15, BF: 120, VAF: 60, VAR: 8, IKF: 2e-3, IKR: 1e-3, ISE: 1e-14, NE: 1.6, ISC: 1e-14, NC: 1.9 });
 const QP = model('QP', 'pnp', { IS: 2e-15, BF: 80, BR: 2 });
 const NM = model('NM', 'nmos', { KP: 1e-4, VTO: 0.6, LAMBDA: 0.03, GAMMA: 0.4 });
 const PM = model('PM', 'pmos', { KP: 5e-5, VTO: -0.7, LAMBDA: 0.02, GAMMA: 0.3 });
 const DD = model('DD', 'd', { IS: 1e-14, N: 1.5 });
+/** A breakdown voltage inside the test points' range, so the breakdown term's stamp is exercised. */
+const DZ = model('DZ', 'd', { IS: 1e-14, BV: 0.3, IBV: 1e-4, NBV: 1.5 });
 
 /** Devices of every kind and polarity on shared nodes (no series resistances, so every row is a netlist node). */
 const MIXED: Spec[] = [
@@ -26,7 +28,7 @@ const MIXED: Spec[] = [
   ['M', 'M2', 'g', 'b', 'a', 'vcc', PM],
   ['M', 'M3', 'b', 'g', 'a', 'sub', NM],
   ['D', 'D1', 'b', 'e', DD],
-  ['D', 'D2', 'e', 'g', DD, { area: 3 }],
+  ['D', 'D2', 'e', 'g', DZ, { area: 3 }],
   ['R', 'R2', 'e', '0', 1e3],
   ['R', 'R3', 'g', '0', 47e3],
   ['R', 'R4', 'b', '0', 22e3],

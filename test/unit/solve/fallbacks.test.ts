@@ -104,7 +104,7 @@ describe('fallbacks', () => {
     for (let i = 1; i < 20; i++) {
       const m = r.op.devices[`M${i}`] as MosRecord;
       expect(m.region).toBe('saturation');
-      // Source: Shichman–Hodges saturation law (DESIGN.md): ID = β/2·VOV²·(1 + λVDS) with β = KP·W/L = 1e-3 A/V².
+      // Source: Shichman–Hodges saturation law (docs/DEVICE-MODELS.md): ID = β/2·VOV²·(1 + λVDS) with β = KP·W/L = 1e-3 A/V².
       // The reported drain current includes the solver's 1e-12 S channel conductance (common practice), so it is taken out here.
       const channel = 1e-5 - 1e-12 * m.vds;
       const vov = Math.sqrt((2 * channel) / (1e-3 * (1 + 0.01 * m.vds)));

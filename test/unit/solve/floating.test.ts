@@ -28,7 +28,7 @@ function check(specs: Spec[], expected: { tied: string[]; nodes: Record<string, 
 
 describe('floating parts are tied and the rest of the circuit solves', () => {
   it('an unwired MOSFET gate: the gate is tied to 0 V, the device is off, the drain sits at the supply', () => {
-    // Source: Shichman–Hodges level 1 (DESIGN.md): VGS = 0 < VTO = 1 V is cutoff, ID = 0, so R1 drops
+    // Source: Shichman–Hodges level 1 (docs/DEVICE-MODELS.md): VGS = 0 < VTO = 1 V is cutoff, ID = 0, so R1 drops
     // only the 1 pS channel robustness current (5 V · 1 pS · 1 kΩ = 5 nV, Ohm's law).
     const r = check(
       [

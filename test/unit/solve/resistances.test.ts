@@ -97,7 +97,7 @@ describe('resistance overrides', () => {
 
   it('moves a diode bias point exactly as a rebuilt circuit does', () => {
     // Source: a rebuilt netlist solved from scratch (the override must be indistinguishable); the diode
-    // current is also checked against the Shockley law at the solved voltage (DESIGN.md diode equation).
+    // current is also checked against the Shockley law at the solved voltage (docs/DEVICE-MODELS.md diode equation).
     const D = model('DX', 'd', { IS: 1e-14 });
     const specs: Spec[] = [
       ['V', 'V1', 'a', '0', 5],

@@ -55,7 +55,7 @@ describe('cold start', () => {
 
 describe('temperature predictor', () => {
   it('keeps the current of a junction when moving it to another temperature', () => {
-    // Source: Shockley diode law I = IS·exp(V/(n·VT)) (DESIGN.md), solved for V at fixed I.
+    // Source: Shockley diode law I = IS·exp(V/(n·VT)) (docs/DEVICE-MODELS.md), solved for V at fixed I.
     const is0 = 1e-14;
     const is1 = saturationCurrentAt(is0, 3, 1.11, 125, 27);
     const n0 = 1.0 * thermalVoltage(27);
@@ -76,7 +76,7 @@ describe('temperature predictor', () => {
     const predicted = solver.solve({ temperatureC: 125, initialGuess: nominal.x });
     const unhinted = solver.solve({ temperatureC: 125, initialGuess: Float64Array.from(nominal.x) });
     const explicit = solver.solve({ temperatureC: 125, initialGuess: Float64Array.from(nominal.x), initialGuessTemperatureC: 27 });
-    // Source: Shockley diode law with IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)) (DESIGN.md;
+    // Source: Shockley diode law with IS(T) = IS·(T/Tnom)^XTI·exp(EG·q/k·(1/Tnom − 1/T)) (docs/DEVICE-MODELS.md;
     // XTI = 3, EG = 1.11 eV are the model defaults): VD = VT·ln(I/IS(T) + 1), less the 1 pS junction
     // conductance's share, which at 1 mA is below 1e-9 relative.
     const isT = saturationCurrentAt(1e-14, 3, 1.11, 125, 27);

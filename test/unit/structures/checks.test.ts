@@ -61,7 +61,7 @@ describe('a healthy mirror raises nothing', () => {
   it('simple NPN mirror with a light load', () => {
     const { structures } = check(npnMirror(1e3), []);
     const s = structures[0];
-    // Compliance starts at the output's base (VBC = 0, DESIGN.md) and reaches the top rail.
+    // Compliance starts at the output's base (VBC = 0, docs/DEVICE-MODELS.md) and reaches the top rail.
     expect(s.compliance.Q2.min).toBeCloseTo(s.estimate!.vControl, 6);
     expect(s.compliance.Q2.max).toBe(5);
     expect(s.outputResistance.Q2).toBe(1e30);

@@ -1,7 +1,7 @@
 // Ties the parser's findings to SYNTAX_CODES: every table code is emitted by a fixture, with the table's severity, and nothing else is.
 //
-// The fixtures follow the trade's netlist conventions as DESIGN.md writes them down ("Netlist
-// conventions"; common practice, from memory). The type checker already rejects an addError() code
+// The fixtures follow the trade's netlist conventions as the README writes them down ("The netlist dialect";
+// common practice, from memory). The type checker already rejects an addError() code
 // that is not in the table; this test also catches table rows the parser never emits and fixtures
 // whose findings fall outside the table.
 

@@ -1,7 +1,7 @@
 // Unit tests of the netlist parser: every card form, comments, continuations, expressions, error cards and their ranges.
 //
-// Expected readings follow the trade's netlist conventions as DESIGN.md writes them down ("Netlist
-// conventions"): title line, `*` comments, `;` and `$ ` end-of-line comments, `+` continuations,
+// Expected readings follow the trade's netlist conventions as the README writes them down ("The netlist
+// dialect"): title line, `*` comments, `;` and `$ ` end-of-line comments, `+` continuations,
 // element letters and their fields (common practice, from memory). Where the conventions leave a
 // choice open, the test says the reading is qpoint's own choice.
 

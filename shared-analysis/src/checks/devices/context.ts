@@ -106,7 +106,7 @@ export class JudgeContext {
   }
 
   /**
-   * Whether a device is "off": every terminal current below the 1 pA floor (DESIGN.md "Regions").
+   * Whether a device is "off": every terminal current below the 1 pA floor (docs/DEVICE-MODELS.md "Regions").
    * The solver places a 1 pS conductance across each junction for robustness; the current that
    * conductance carries at the device's junction voltages (`leakVolts`) is no device current, so it
    * is allowed on top of the floor.
@@ -232,7 +232,7 @@ export class JudgeContext {
 }
 
 /**
- * Whether terminal currents are all below the 1 pA "off" floor (DESIGN.md "Regions"), allowing on
+ * Whether terminal currents are all below the 1 pA "off" floor (docs/DEVICE-MODELS.md "Regions"), allowing on
  * top of it the current the solver's 1 pS robustness conductance carries across `leakVolts`.
  */
 export function currentsOff(currents: number[], leakVolts: number): boolean {

@@ -37,10 +37,6 @@ export const DEVICE_CODES: Record<string, { severity: Severity; summary: string 
     severity: 'error',
     summary: 'A BJT’s emitter–base junction is reverse-biased beyond the 5–6 V such junctions are rated for (common practice); the solved point is then not what the part does, and the pins often look swapped.',
   },
-  'breakdown-not-solved': {
-    severity: 'warning',
-    summary: 'A diode is reverse-biased beyond the BV of its model, which the DC equations here do not solve yet; the voltages around it are not what the circuit does.',
-  },
   'power-over-rating': {
     severity: 'warning',
     summary: 'A device or resistor dissipates more than its rating: its `RATEDPOWER=` (instance or model), else the setting (0.25 W for a resistor, 0.5 W for a small-signal transistor or diode; common practice).',

@@ -94,14 +94,14 @@ function branchJunction(h: Hand, br: Branch, i: number): { v: number; nf: number
   const n = mp.N > 0 ? mp.N : 1;
   const eg = Number.isFinite(mp.EG) ? mp.EG : 1.11;
   const xti = Number.isFinite(mp.XTI) ? mp.XTI : 3;
-  // Diode IS(T) uses XTI/N and EG/N (DESIGN's diode law), area × M scaling.
+  // Diode IS(T) uses XTI/N and EG/N (the diode law of docs/DEVICE-MODELS.md), area × M scaling.
   const is = isAtTemperature((mp.IS > 0 ? mp.IS : 1e-14) * (d.area > 0 ? d.area : 1) * (d.m > 0 ? d.m : 1), h.at.temperatureC, h.circuit.tnomC, xti / n, eg / n);
   return { v: n * h.vt * Math.log(i / is + 1), nf: 1, eg: eg / n, xti: xti / n, name: d.name, formula: 'N·VT·ln(I3/IS + 1) (diode law)' };
 }
 
 /**
  * VBG = VBE3(I3) + I3·R2 above the core's rail, I3 = the branch output's share of the closing mirror
- * (its ratio over the mirror's base-current denominator). With I3 ∝ T and the IS(T) law of DESIGN:
+ * (its ratio over the mirror's base-current denominator). With I3 ∝ T and the IS(T) law of docs/DEVICE-MODELS.md:
  * dVBG/dT = (VBG − NF·EG − NF·(XTI − 1)·VT)/T, so the zero-TC point is VBG = NF·(EG + (XTI − 1)·VT) and
  * R2 for zero TC = (that − VBE3)/I3 (Gray et al., ch. 4, VBG ≈ VG0 + (η − α)·VT; from memory).
  */
