@@ -64,7 +64,7 @@ class HandAnalysis {
       value: h.vt,
       unit: 'V',
     });
-    steps.push(...this.betaSteps());
+    steps.push(...this.betaSteps()); // bounded: one step per device of the structure
     const feed = s.reference;
     let iref = 0;
     let irefFrom: Estimate['irefFrom'] = 'unknown';
