@@ -7,7 +7,7 @@ import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
 import { recordIsOff } from './devices/context';
-import { kindName, kindOf, referenceJunctions } from '../structures/catalogue';
+import { KINDS, kindName, kindOf, referenceJunctions } from '../structures/catalogue';
 import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measureStructure, type Measurement } from '../structures/measure';
@@ -64,6 +64,14 @@ function eng(value: number, unit: string, digits = 3): string {
 /** A signed voltage, `≈ 0 V` below the noise floor. */
 function signedVolts(value: number): string {
   return belowFloor(value, 'V') ? '≈ 0 V' : signedRaw(value);
+}
+
+// The kinds' own finding codes join the table; a code declared twice is a programming error, not a choice.
+for (const k of KINDS) {
+  for (const [code, info] of Object.entries(k.codes ?? {})) {
+    if (STRUCTURE_CODES[code]) throw new Error(`finding code ${code} is declared twice (structure kind ${k.id})`);
+    STRUCTURE_CODES[code] = info;
+  }
 }
 
 /** Relative difference between estimate and solve above which `discrepancy` is filled. */
@@ -199,6 +207,7 @@ class StructureCheck {
       structures: this.all,
       irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
       deviceCurrents: this.op ? this.collectorCurrents() : undefined,
+      nodeVolts: this.op?.nodes,
     });
     // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
     if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
@@ -216,6 +225,7 @@ class StructureCheck {
     this.checkUnmatched();
     this.checkRatios();
     if (s.discrepancy) this.reportDiscrepancy();
+    this.kindChecks();
     return this.findings;
   }
 
@@ -227,6 +237,27 @@ class StructureCheck {
       if (rec && rec.type === 'bjt') out[d] = rec.ic;
     }
     return out;
+  }
+
+  /** The kind's own checks (e.g. a wide-swing cascode's bottom devices), emitted like the shared ones. */
+  private kindChecks(): void {
+    const kind = kindOf(this.s.kind);
+    if (!kind.check) return;
+    const found = kind.check({
+      s: this.s,
+      bipolar: this.bipolar,
+      sign: this.sign,
+      op: this.op,
+      v: (node) => {
+        const x = this.op?.nodes[node];
+        return x !== undefined && Number.isFinite(x) ? x : undefined;
+      },
+      headroomMarginV: this.options.headroomMarginV,
+    });
+    for (const f of found) {
+      const el = this.topo.elementByName.get(f.at);
+      if (el && STRUCTURE_CODES[f.code]) this.emit(f.code, el, f.message, f.data);
+    }
   }
 
   // ---- records ----------------------------------------------------------
@@ -331,20 +362,22 @@ class StructureCheck {
    * an estimate below the floor beside a solved current above it has no relative error (`rel` is
    * Infinity): the hand analysis collapsed to zero.
    */
-  private errors(): { key: string; est: number; solved: number; rel: number }[] {
+  private errors(): { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] {
     const est = this.s.estimate;
     const sol = this.s.solved;
     if (!est || !sol || est.irefFrom === 'unknown') return [];
-    const rows: { key: string; est: number; solved: number; rel: number }[] = [];
-    const add = (key: string, e: number, x: number) => {
+    const rows: { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] = [];
+    const add = (key: string, e: number, x: number, unit: 'A' | 'V') => {
       if (!Number.isFinite(e) || !Number.isFinite(x)) return;
-      const eOn = !belowFloor(e, 'A') && e > 0;
-      const xOn = !belowFloor(x, 'A') && x > 0;
-      if (eOn) rows.push({ key, est: e, solved: x, rel: (Math.max(x, 0) - e) / e });
-      else if (xOn) rows.push({ key, est: Math.max(e, 0), solved: x, rel: Infinity });
+      const eOn = !belowFloor(e, unit) && e > 0;
+      const xOn = !belowFloor(x, unit) && x > 0;
+      if (eOn) rows.push({ key, est: e, solved: x, rel: (Math.max(x, 0) - e) / e, unit });
+      else if (xOn) rows.push({ key, est: Math.max(e, 0), solved: x, rel: Infinity, unit });
     };
-    add('IREF', est.iref, sol.iref);
-    for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0);
+    add('IREF', est.iref, sol.iref, 'A');
+    for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0, 'A');
+    // The voltages a structure produces (VBG, a VBE multiplier's voltage) are compared like its currents.
+    for (const v of this.s.voltages ?? []) if (v.estimate !== undefined && v.solved !== undefined) add(v.name, v.estimate, v.solved, 'V');
     return rows;
   }
 
@@ -408,6 +441,8 @@ class StructureCheck {
       const role = this.s.roles?.[d];
       if (role === 'reference' || role === 'lower-diode' || role === 'output') nodes.add(t.ctrl);
     }
+    // A bias branch of the structure's own (a wide-swing cascode's bias device) is fed on purpose.
+    for (const d of this.s.devices) if (this.s.roles?.[d] === 'cascode-bias') nodes.delete(this.t(d).out);
     const names = new Set<string>();
     for (const n of nodes) {
       for (const a of this.topo.conducting(n)) {
@@ -630,20 +665,27 @@ class StructureCheck {
   private reportDiscrepancy(): void {
     const rows = this.errors();
     // Point at the output that is furthest off; at the reference device when only IREF is.
-    const outs = rows.filter((r) => r.key !== 'IREF' && Math.abs(r.rel) > DISCREPANCY_THRESHOLD);
+    const outs = rows.filter((r) => r.unit === 'A' && r.key !== 'IREF' && Math.abs(r.rel) > DISCREPANCY_THRESHOLD);
     const worst = outs.length > 0 ? outs.reduce((a, b) => (Math.abs(b.rel) > Math.abs(a.rel) ? b : a)) : undefined;
     const dev = worst ? worst.key : this.s.reference.device;
     const el = this.topo.elementByName.get(dev)!;
     const list = rows
       .filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD)
-      .map((r) => `${r.key === 'IREF' ? 'IREF' : `IOUT(${r.key})`} ${eng(r.est, 'A')} by hand, ${eng(r.solved, 'A')} solved (${Number.isFinite(r.rel) ? percent(r.rel) : 'the estimate is zero'})`)
+      .map((r) => `${r.unit === 'V' || r.key === 'IREF' ? r.key : `IOUT(${r.key})`} ${eng(r.est, r.unit)} by hand, ${eng(r.solved, r.unit)} solved (${Number.isFinite(r.rel) ? percent(r.rel) : 'the estimate is zero'})`)
       .reverse()
       .join('; ');
     this.emit(
       'estimate-differs-from-solved',
       el,
       `The hand estimate of the ${kindName(this.s.kind)} on ${this.s.reference.device} differs from the operating point by more than ${sig(DISCREPANCY_THRESHOLD * 100)} %: ${list}. Likely: ${this.s.discrepancy}.`,
-      { rows: rows.map((r) => ({ quantity: r.key, estimateA: r.est, solvedA: r.solved, ...(Number.isFinite(r.rel) ? { relative: r.rel } : {}) })), reason: this.s.discrepancy },
+      {
+        rows: rows.map((r) => ({
+          quantity: r.key,
+          ...(r.unit === 'A' ? { estimateA: r.est, solvedA: r.solved } : { estimateV: r.est, solvedV: r.solved }),
+          ...(Number.isFinite(r.rel) ? { relative: r.rel } : {}),
+        })),
+        reason: this.s.discrepancy,
+      },
     );
   }
 }

@@ -9,6 +9,8 @@ import { helperMirror } from './kinds/helper-mirror';
 import { improvedWilsonMirror } from './kinds/improved-wilson-mirror';
 import { ptatCell } from './kinds/ptat-cell';
 import { simpleMirror } from './kinds/simple-mirror';
+import { vbeMultiplier } from './kinds/vbe-multiplier';
+import { wideSwingCascode } from './kinds/wide-swing-cascode';
 import { widlarSource } from './kinds/widlar-source';
 import { wilsonMirror } from './kinds/wilson-mirror';
 import type { Structure, StructureKind } from './types';
@@ -20,10 +22,12 @@ import type { Structure, StructureKind } from './types';
  * module, entry, tests and README row.
  */
 export const KINDS: readonly KindModule[] = [
+  wideSwingCascode,
   cascodeMirror,
   improvedWilsonMirror,
   wilsonMirror,
   helperMirror,
+  vbeMultiplier,
   bandgapCore,
   ptatCell,
   betaMultiplier,

@@ -29,6 +29,8 @@ export interface EstimateAt {
    * model's β at that current (`bjtBetaAt`: IKF, ISE and XTB included). Without it β is BF at temperature.
    */
   deviceCurrents?: Record<string, number>;
+  /** Solved node voltages (name -> volts), for a voltage the hand analysis cannot derive (e.g. an amplifier's reference input). */
+  nodeVolts?: Record<string, number>;
 }
 
 /** The parameters of one device at the analysis temperature, in the structure's own polarity. */

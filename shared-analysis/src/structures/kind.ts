@@ -3,6 +3,8 @@
 import type { Chain, ChainResult, Hand } from './hand';
 import type { Matcher, Draft } from './match';
 import type { Transistor } from './topology';
+import type { OperatingPoint } from '../solve/types';
+import type { Severity } from '../types';
 import type { Estimate, EstimateStep, Structure, StructureKind, StructureOutput, StructureRole, Technology } from './types';
 
 /** Small-signal values of one device (from the solved record when there is one, else textbook values). */
@@ -112,4 +114,27 @@ export interface KindModule {
   readonly pullDownsInFormula?: boolean;
   /** The simplifications of its hand formula, named when nothing more specific explains a discrepancy. */
   simplifications(s: Structure): string;
+  /** Finding codes the kind's own checks raise, with default severity and summary (gathered into the structure codes). */
+  readonly codes?: Readonly<Record<string, { severity: Severity; summary: string }>>;
+  /** The kind's own checks at the operating point (after the shared ones). */
+  check?(c: KindCheckContext): KindFinding[];
+}
+
+/** What a kind's own checks may read. */
+export interface KindCheckContext {
+  s: Structure;
+  bipolar: boolean;
+  sign: 1 | -1;
+  op?: OperatingPoint;
+  /** Solved voltage of a node by name (undefined without a solve). */
+  v(node: string): number | undefined;
+  headroomMarginV: number;
+}
+
+/** A finding a kind's check raises, located at one of its devices or parts. */
+export interface KindFinding {
+  code: string;
+  at: string;
+  message: string;
+  data: Record<string, unknown>;
 }

@@ -19,7 +19,8 @@ export interface Measurement {
  *
  * IREF is the current the feed delivers into the structure at the reference node: the sum
  * of the currents into every structure terminal on that node (collector and bases of a
- * simple mirror), so base-current loads outside the structure are not counted. Headroom
+ * simple mirror, and the structure's own resistors and diodes listed in `parts`), so
+ * base-current loads outside the structure are not counted. Headroom
  * of a bipolar output is −VBC in its own polarity (the distance of the collector beyond the
  * VBC = 0 edge, docs/DEVICE-MODELS.md's forward-active definition); of a MOS output VDS − (VGS − VTH).
  * An output is out of region when its record says so (or, without a record, when the
@@ -40,6 +41,17 @@ export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Struct
     if (!t || refNode === undefined) continue;
     const rec = op.devices[name];
     iref += terminalCurrentInto(t, rec, refNode);
+  }
+  // Resistors and diodes of the structure itself (a VBE multiplier's divider, a diode string) on the reference node.
+  if (refNode !== undefined && s.parts) {
+    for (const name of Object.keys(s.parts)) {
+      const el = topo.elementByName.get(name);
+      const rec = op.devices[name];
+      if (!el || !rec || el.nodes.length < 2) continue;
+      const through = rec.type === 'diode' ? rec.id : rec.type === 'bjt' || rec.type === 'mosfet' ? 0 : rec.current;
+      if (el.nodes[0] === refNode) iref += finite(through);
+      else if (el.nodes[1] === refNode) iref -= finite(through);
+    }
   }
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();

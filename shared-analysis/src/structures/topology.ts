@@ -111,11 +111,13 @@ export class Topology {
     return this.attached.get(node) ?? [];
   }
 
-  /** The DC-relevant connections of a node: capacitors (open at DC) and MOS gates/bulks (no DC current) left out. Shared list: do not mutate. */
+  /** The DC-relevant connections of a node: capacitors (open at DC), MOS gates/bulks and the sensing inputs of E and G sources (no DC current) left out. Shared list: do not mutate. */
   conducting(node: number): Attachment[] {
     let list = this.conductingCache.get(node);
     if (!list) {
-      list = this.at(node).filter((a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)));
+      list = this.at(node).filter(
+        (a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)) && !((a.element.kind === 'E' || a.element.kind === 'G') && a.slot >= 2),
+      );
       this.conductingCache.set(node, list);
     }
     return list;

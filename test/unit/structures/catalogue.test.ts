@@ -14,16 +14,18 @@ const SHARED = ['common.ts'];
 
 describe('structure catalogue', () => {
   it('tries the kinds most specific first', () => {
-    // A stacked mirror contains a simple mirror's lower pair; the improved Wilson contains the Wilson's
+    // The wide-swing cascode's bias device would otherwise be a lone diode; a stacked mirror contains a simple mirror's lower pair; the improved Wilson contains the Wilson's
     // devices plus one; a bandgap core is a ΔVBE cell with an output branch; the ΔVBE cell and the
     // beta multiplier are Widlar pairs whose output returns to their reference; a degenerated mirror's
     // outputs look like Widlar outputs of a reference on X1; a Widlar source is a simple mirror whose
     // every output is degenerated.
     expect(KINDS.map((k) => k.id)).toEqual([
+      'wide-swing-cascode',
       'cascode-mirror',
       'improved-wilson-mirror',
       'wilson-mirror',
       'helper-mirror',
+      'vbe-multiplier',
       'bandgap-core',
       'ptat-cell',
       'beta-multiplier',

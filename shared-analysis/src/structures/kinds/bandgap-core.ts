@@ -150,11 +150,11 @@ function voltages(h: Hand, state: ChainResult, c: Chain): Record<string, { volts
     devices: [br.source.name, br.r2, j.name],
   }));
   c.push(() => ({
-    quantity: 'dVBG/dT',
+    quantity: 'dVBG/dT, mV/°C',
     formula: `(VBG − NF·EG − NF·(XTI − 1)·VT)/T with I3 ∝ T and IS(T) ∝ T^XTI·exp(−EG/VT) (${BANDGAP_SOURCE})`,
     substituted: `(${eng(above, 'V')} − ${eng(zeroTc, 'V')})/${sig(t, 5)} K`,
-    value: tcV,
-    unit: 'V',
+    value: tcV * 1e3,
+    unit: '',
     devices: [br.r2],
   }));
   c.push(() => ({

@@ -63,3 +63,43 @@ export function selfBiasedLoop(o: LoopOptions): { circuit: Circuit; names: { q1:
   }
   return { circuit: b.build(), names: { ...names, ...cl, r: 'R' } };
 }
+
+/** A VBE (VGS) multiplier fed by a resistor from the far rail, R1 from collector to base, R2 from base to emitter. */
+export function multiplier(tech: Technology, o: { r1?: number; r2?: number; feed?: number; temperatureC?: number } = {}): Circuit {
+  const b = new CircuitBuilder();
+  if (o.temperatureC !== undefined) b.temperatureC = o.temperatureC;
+  const up = tech === 'npn' || tech === 'nmos';
+  const bip = tech === 'npn' || tech === 'pnp';
+  b.v('VCC', 'vcc', '0', 10);
+  b.model('dev', tech, bip ? { BF: 120 } : { KP: 100e-6, VTO: up ? 0.5 : -0.5 });
+  const rail = up ? '0' : 'vcc';
+  const far = up ? 'vcc' : '0';
+  if (bip) b.q('Q1', 'c', 'b', rail, 'dev');
+  else b.mos('Q1', 'c', 'b', rail, rail, 'dev', { w: 20e-6, l: 1e-6 });
+  b.r('R1', 'c', 'b', o.r1 ?? (bip ? 2.2e3 : 100e3));
+  b.r('R2', 'b', rail, o.r2 ?? (bip ? 1e3 : 100e3));
+  b.r('RF', far, 'c', o.feed ?? (bip ? 4.7e3 : 47e3));
+  return b.build();
+}
+
+/** A wide-swing cascode mirror with its cascode-bias branch; `biasW` sets the bias device's width (smaller: higher VGC). */
+export function wideSwing(tech: 'nmos' | 'pmos', o: { biasW?: number; ratio?: number; lambda?: number } = {}): Circuit {
+  const b = new CircuitBuilder();
+  const up = tech === 'nmos';
+  b.v('VDD', 'vdd', '0', 3.3);
+  b.model('dev', tech, { KP: up ? 200e-6 : 80e-6, VTO: up ? 0.45 : -0.5, LAMBDA: o.lambda ?? 0.05, GAMMA: 0.4 });
+  const rail = up ? '0' : 'vdd';
+  const far = up ? 'vdd' : '0';
+  const w = 10e-6;
+  const m = (name: string, d: string, g: string, s: string, width = w) => b.mos(name, d, g, s, rail, 'dev', { w: width, l: 1e-6 });
+  // Current sources from the far rail into the reference and bias nodes (flowing into the node for NMOS, out of it for PMOS).
+  if (up) b.i('IREF', far, 'a', 50e-6).i('IB', far, 'gc', 50e-6);
+  else b.i('IREF', 'a', far, 50e-6).i('IB', 'gc', far, 50e-6);
+  m('M1', 'x1', 'a', rail);
+  m('M3', 'a', 'gc', 'x1');
+  m('M2', 'x2', 'a', rail, w * (o.ratio ?? 1));
+  m('M4', 'out', 'gc', 'x2', w * (o.ratio ?? 1));
+  m('M5', 'gc', 'gc', rail, o.biasW ?? 1.5e-6);
+  b.r('RL', far, 'out', 20e3 / (o.ratio ?? 1));
+  return b.build();
+}

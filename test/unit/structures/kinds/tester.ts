@@ -110,6 +110,10 @@ export function expectEstimateNearSolved(circuit: Circuit, s: Structure, within:
     expect(x, `${o.device} solved`).toBeGreaterThan(0);
     expect(rel(e, x), `IOUT(${o.device}) ${e} by hand, ${x} solved`).toBeLessThan(within);
   }
+  for (const v of mine.voltages ?? []) {
+    expect(v.estimate, `${v.name} by hand`).toBeDefined();
+    expect(rel(v.estimate!, v.solved!), `${v.name} ${v.estimate} by hand, ${v.solved} solved`).toBeLessThan(within);
+  }
 }
 
 /** The shared fixture of a kind in each of the four technologies, as match cases. */
