@@ -1,9 +1,9 @@
 // The voltages a structure produces (a bandgap's VBG, a VBE multiplier's voltage): read off an operating point and summarised across corners.
 
+import { maxOf, minOf } from '../arrays';
 import type { OperatingPoint } from '../solve/types';
 import { polaritySign } from './topology';
 import type { DerivedVoltage, Structure } from './types';
-import { maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
 
 /**

@@ -1,5 +1,6 @@
 // The wide-swing (high-swing) MOS cascode mirror: the bottom pair's gates on the reference cascode's drain, the cascode gates on a separate bias branch.
 
+import { maxOf, minOf } from '../../arrays';
 import { eng, sig } from '../format';
 import { thresholdWithBody } from '../formulas';
 import { RAZAVI, SQUARE_LAW, type Chain, type ChainResult, type DeviceParams, type Hand } from '../hand';
@@ -301,7 +302,7 @@ function check(c: KindCheckContext): KindFinding[] {
   const bias = c.s.devices.find((d) => c.s.roles?.[d] === 'cascode-bias');
   const list = triode.map((x) => `${x.d} at VDS ${eng(x.vds, 'V')} against VOV ${eng(x.vov, 'V')}`).join(', ');
   const vds = triode.map((x) => x.vds);
-  const spread = Math.max(...vds) - Math.min(...vds);
+  const spread = maxOf(vds) - minOf(vds);
   out.push({
     code: 'cascode-bottom-in-triode',
     at: triode[0].d,
