@@ -184,10 +184,10 @@ class HandAnalysis {
     if (kind.voltages) {
       const vc = new Chain(h, true);
       const got = kind.voltages(h, st, vc);
-      voltages = {};
+      voltages = nameTable();
       for (const [k, v] of Object.entries(got)) {
         voltages[k] = v.volts;
-        if (v.tempcoPpmPerC !== undefined && Number.isFinite(v.tempcoPpmPerC)) (voltageTempco ??= {})[k] = v.tempcoPpmPerC;
+        if (v.tempcoPpmPerC !== undefined && Number.isFinite(v.tempcoPpmPerC)) (voltageTempco ??= nameTable())[k] = v.tempcoPpmPerC;
       }
       pushAll(steps, vc.steps);
     }

@@ -1,5 +1,6 @@
 // The VBE (VGS) multiplier: a device whose base sits on a divider from its collector to its emitter, so V = VBE·(1 + R1/R2).
 
+import { nameTable } from '../../names';
 import { eng, sig } from '../format';
 import type { Chain, ChainResult, Hand } from '../hand';
 import type { KindModule } from '../kind';
@@ -81,7 +82,7 @@ function analyse(h: Hand, iref: number, c: Chain): ChainResult {
   }
   const vbe = c.junction(' (what is left after the divider takes about VBE/R2)', p, ic, h.bipolar ? 0 : h.vsbBase(p));
   const v = vbe * (1 + r1 / r2) + (h.bipolar ? (ic / beta) * r1 : 0);
-  return { stack: v, vControl: vbe, iRef: ic, iout: {}, edge: {} };
+  return { stack: v, vControl: vbe, iRef: ic, iout: nameTable(), edge: nameTable() };
 }
 
 /**

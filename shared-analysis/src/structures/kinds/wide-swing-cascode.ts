@@ -1,6 +1,7 @@
 // The wide-swing (high-swing) MOS cascode mirror: the bottom pair's gates on the reference cascode's drain, the cascode gates on a separate bias branch.
 
 import { maxOf, minOf } from '../../arrays';
+import { nameTable } from '../../names';
 import { eng, sig } from '../format';
 import { thresholdWithBody } from '../formulas';
 import { RAZAVI, SQUARE_LAW, type Chain, type ChainResult, type DeviceParams, type Hand } from '../hand';
@@ -184,8 +185,8 @@ function bottomVds(h: Hand, cascode: DeviceParams, id: number, vgc: number, vsb0
  * the VDS difference; the minimum output voltage is VDS2 + VOV4 = VGC − VTH4, about 2·VOV.
  */
 function analyse(h: Hand, iref: number, c: Chain): ChainResult {
-  const iout: Record<string, number> = {};
-  const edge: Record<string, number> = {};
+  const iout: Record<string, number> = nameTable();
+  const edge: Record<string, number> = nameTable();
   const m1 = h.dev(h.s.reference.device);
   const m3 = h.dev(h.role('cascode')[0].name);
   const vsb0 = h.vsbBase(m1);
