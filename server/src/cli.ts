@@ -306,7 +306,7 @@ interface JsonDiagnostic {
   related?: { path: string; message: string; range: JsonDiagnostic['range'] }[];
   data?: Record<string, unknown>;
   /** Edits that resolve the finding, best first when one is marked preferred. */
-  fixes?: { title: string; preferred?: boolean; edits: { path: string; range: JsonDiagnostic['range']; newText: string }[] }[];
+  fixes?: { title: string; preferred?: boolean; disabled?: string; edits: { path: string; range: JsonDiagnostic['range']; newText: string }[] }[];
 }
 
 function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
@@ -327,8 +327,11 @@ function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
     if (f.uri !== a.uri) d.path = displayPath(f.uri);
     if (f.related?.length) d.related = f.related.map((rl) => ({ path: displayPath(rl.uri), message: rl.message, range: range(rl.uri, rl.span) }));
     if (f.data) d.data = f.data;
-    if (f.fixes?.length) {
-      d.fixes = f.fixes.map((x) => ({
+    // A fix that could not be offered carries the reason; the command line says it in the finding's message.
+    for (const x of f.fixes ?? []) if (x.disabled) d.message += ` ${x.disabled}`;
+    const usable = f.fixes?.filter((x) => !x.disabled) ?? [];
+    if (usable.length) {
+      d.fixes = usable.map((x) => ({
         title: x.title,
         ...(x.preferred ? { preferred: true } : {}),
         edits: x.edits.map((e) => ({ path: displayPath(e.uri), range: range(e.uri, e.span), newText: e.newText })),

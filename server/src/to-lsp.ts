@@ -125,6 +125,13 @@ export function toWorkspaceEdit(edits: TextEdit[], lookup: ConverterLookup): Wor
 
 /** A finding's fix as a quick-fix code action on its diagnostic. */
 export function toQuickFix(fix: Fix, diagnostic: Diagnostic, lookup: ConverterLookup): CodeAction | undefined {
+  if (fix.disabled) {
+    // Nothing to apply: the editor shows the action greyed out with the reason (LSP 3.16 `disabled`).
+    const action = CodeAction.create(fix.title, CodeActionKind.QuickFix);
+    action.diagnostics = [diagnostic];
+    action.disabled = { reason: fix.disabled };
+    return action;
+  }
   const edit = toWorkspaceEdit(fix.edits, lookup);
   if (!edit) return undefined;
   const action = CodeAction.create(fix.title, edit, CodeActionKind.QuickFix);

@@ -33,6 +33,11 @@ export interface Fix {
   /** Marks the fix a client should offer first. */
   preferred?: boolean;
   edits: TextEdit[];
+  /**
+   * Set when nothing can be offered: why (a sentence). Such a fix has no edits; an editor shows it
+   * greyed out with the reason, and the command line prints the reason under the finding.
+   */
+  disabled?: string;
 }
 
 /**

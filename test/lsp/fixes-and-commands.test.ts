@@ -53,12 +53,37 @@ describe('resistor-sizing quick fixes on demand', () => {
     expect(await quickFixes(uri, d)).toEqual([]);
   });
 
-  it('offers no sizing fix for a target on a resistor whose value is a parameter', async () => {
+  it('sizes a parameter-valued resistor through its .param definition', async () => {
     const uri = pathToFileURL(join(dir, 'param.cir')).href;
     const text = '5 V mirror with a parameter\n.param rset=4.3k\nVCC vcc 0 DC 5\nR1 vcc b {rset}\nQ1 b b 0 qn\nQ2 out b 0 qn ; expect 1mA ±2%\nRL vcc out 2k\n.model qn npn (IS=1e-16 BF=100)\n.end\n';
     server.open(uri, text, 1);
     const d = await server.waitFor('target-missed', () => server.diagnosticsOf(uri).find((x) => x.code === 'target-missed'));
-    expect(await quickFixes(uri, d)).toEqual([]);
+    const best = (await quickFixes(uri, d)).find((a) => a.isPreferred);
+    expect(best?.title).toMatch(/^Set R1 to \S+ \(in \.param rset, which only R1 uses\)/);
+    const edits = best!.edit!.changes?.[uri] ?? [];
+    // The edit lands on the definition's value (line 2), not on the card's {rset}.
+    expect(edits.map((e) => e.range.start.line)).toEqual([1]);
+  });
+});
+
+describe('the saturated-output fix', () => {
+  it('offers the load and reference resistors for a saturated mirror output; applying the preferred one clears the finding', async () => {
+    const uri = pathToFileURL(join(dir, 'lamp.cir')).href;
+    let text =
+      'Saturated lamp output\nVCC vcc 0 12\nRREF vcc ref 22k\nQ1 ref ref 0 QS\nQ4 lamp ref 0 QS\nRLAMP vcc lamp 33k\n.model QS npn (IS=2e-15 BF=180 VAF=90)\n.end\n';
+    server.open(uri, text, 1);
+    const d = await server.waitFor('mirror-output-out-of-region', () => server.diagnosticsOf(uri).find((x) => x.code === 'mirror-output-out-of-region'));
+    const fixes = await quickFixes(uri, d);
+    expect(fixes.map((a) => a.title.split(' ').slice(0, 2).join(' '))).toEqual(['Set RLAMP', 'Set RREF']);
+    const best = fixes.find((a) => a.isPreferred)!;
+    expect(best.title).toMatch(/^Set RLAMP to \S+ \(E24\): Q4 → [\d.]+ µA, headroom [\d.]+ V$/);
+    const edits: TextEdit[] = best.edit!.changes?.[uri] ?? [];
+    text = TextDocument.applyEdits(TextDocument.create(uri, 'netlist', 1, text), edits);
+    server.change(uri, 2, edits.map((e) => ({ range: e.range, text: e.newText })));
+    await server.waitFor('diagnostics of the fixed netlist', () => {
+      const p = server.diagnostics.get(uri);
+      return p && p.version === 2 && !p.diagnostics.some((x) => x.code === 'mirror-output-out-of-region' || x.code === 'mirror-headroom-low');
+    });
   });
 });
 

@@ -148,20 +148,41 @@ RLOAD vpos out 10k
     expect(tooHigh.problem).toContain('change the reference resistor instead');
   });
 
-  it('offers no value over a parameterised resistor value, and explains a resistor it cannot find', () => {
+  it('sizes a parameterised value through its .param when only this resistor uses it, and explains a resistor it cannot find', () => {
     const text = netlist('{rref}', '1mA ±2%', '').replace('VPOS', '.param rref=22k\nVPOS');
     const a = analyse(text, 'E24');
     attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options });
     // The sizing fix is computed on demand, as for the editor's code-action request.
     attachSizingFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
-    const f = a.findings.find((x) => x.code === 'target-missed');
-    expect(f).toBeDefined();
-    expect(f!.fixes ?? []).toEqual([]);
+    const f = a.findings.find((x) => x.code === 'target-missed')!;
+    const preferred = f.fixes!.find((x) => x.preferred)!;
+    expect(preferred.title).toMatch(/in \.param rref, which only R1 uses/);
+    const fixed = apply(text, preferred.edits);
+    // The card keeps its {rref}; the definition carries the new value.
+    expect(fixed).toContain('R1 vpos ref   {rref}');
+    expect(fixed).toMatch(/\.param rref=\d+(\.\d+)?k\n/);
+    const iout = Math.abs((analyse(fixed, 'E24').nominal.op.devices['Q2'] as BjtRecord).ic);
+    // Source: the series' tolerance (common practice: E24 ±5 %) bounds the miss of the preferred value.
+    expect(Math.abs(iout / 1e-3 - 1)).toBeLessThanOrEqual(seriesTolerance('E24'));
     // Sizing a resistor that does not exist is a sentence, not an exception.
     const w = sizeResistorForCurrent({ circuit: a.circuit, solver: a.solver, resistor: 'R9', target: 1e-3, series: 'E24' });
     expect(w.problem).toContain('no resistor named R9');
     expect(w.candidates).toEqual([]);
     expect(Number.isFinite(w.ideal)).toBe(true);
+  });
+
+  it('replaces a shared parameter on this card only, and says the parameter is shared', () => {
+    const text = netlist('{rref}', '1mA ±2%', 'RX vpos x {rref}\nRY x 0 1k\n').replace('VPOS', '.param rref=22k\nVPOS');
+    const a = analyse(text, 'E24');
+    attachFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options });
+    attachSizingFixes(a.findings, { documents: a.documents, circuit: a.circuit, structures: a.structures, options: a.options, solver: a.solver });
+    const f = a.findings.find((x) => x.code === 'target-missed')!;
+    const preferred = f.fixes!.find((x) => x.preferred)!;
+    expect(preferred.title).toMatch(/replaces \{rref\} on this card; the parameter rref is shared with 1 other use and keeps its value/);
+    const fixed = apply(text, preferred.edits);
+    expect(fixed).toContain('.param rref=22k');
+    expect(fixed).toContain('RX vpos x {rref}');
+    expect(fixed).toMatch(/R1 vpos ref {3}\d+(\.\d+)?k {3};/);
   });
 
   it('E24 has the values the round trip relies on', () => {

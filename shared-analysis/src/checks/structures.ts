@@ -7,6 +7,7 @@ import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
 import { recordIsOff } from './devices/context';
+import { loadResistorOf } from './targets';
 import { KINDS, kindName, kindOf, referenceJunctions } from '../structures/catalogue';
 import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
@@ -40,7 +41,7 @@ export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: stri
   },
   'mirror-unmatched': {
     severity: 'warning',
-    summary: 'Devices of one mirror use models that differ in IS, BF, VAF, KP, VTO, LAMBDA or GAMMA; gives the ratio error that causes.',
+    summary: 'Devices of one mirror use models that differ in BF, VAF, NF, KP, VTO, LAMBDA or GAMMA (or in IS together with another of them); gives the ratio error that causes. Bipolar models that differ only in IS are an intended ratio (see mirror-ratio), not a mismatch.',
   },
   'mirror-ratio': {
     severity: 'info',
@@ -404,6 +405,12 @@ class StructureCheck {
     }
     const unmatched = this.unmatchedPairs();
     if (unmatched.length > 0) reasons.push(`unmatched devices (${unmatched.map((u) => `${u.device}: ${u.differing.join(', ')}`).join('; ')})`);
+    const byIs = this.isRatios();
+    for (const r of bad) {
+      const is = byIs[r.key];
+      // An estimate that misses by just the IS ratio did not carry the intended ratio.
+      if (is && Number.isFinite(r.rel) && Math.abs((1 + r.rel) / is.ratio - 1) < 0.2) reasons.push(`the hand estimate does not carry ${r.key}'s intended IS ratio (×${sig(is.ratio)})`);
+    }
     const finiteEarly = s.devices.some((d) => {
       const p = this.t(d).element.model.params;
       return this.bipolar ? Number.isFinite(p.VAF ?? Infinity) && (p.VAF ?? 0) > 0 : (p.LAMBDA ?? 0) > 0;
@@ -456,6 +463,11 @@ class StructureCheck {
     return [...names].sort();
   }
 
+  /**
+   * Devices whose model differs from the reference's in a parameter that breaks the match. A bipolar
+   * model that differs only in IS is an intended ratio (IS scales like the emitter area), not a
+   * mismatch: see `isRatios`.
+   */
   private unmatchedPairs(): { device: string; model: Model; differing: string[] }[] {
     const ref = this.t(this.s.reference.device).element.model;
     const keys = MATCH_PARAMS[this.bipolar ? 'bjt' : 'mos'];
@@ -465,7 +477,25 @@ class StructureCheck {
       const m = this.t(d).element.model;
       if (m === ref) continue;
       const differing = keys.filter((k) => !sameNumber(m.params[k], ref.params[k]));
+      if (this.bipolar && differing.length === 1 && differing[0] === 'IS') continue;
       if (differing.length > 0) out.push({ device: d, model: m, differing });
+    }
+    return out;
+  }
+
+  /** Outputs whose model differs from the reference's only in IS: the intended ratio IS(output)/IS(reference), by device. */
+  private isRatios(): Record<string, { ratio: number; model: Model; refModel: Model }> {
+    const out: Record<string, { ratio: number; model: Model; refModel: Model }> = nameTable();
+    if (!this.bipolar) return out;
+    const ref = this.t(this.s.reference.device).element.model;
+    const keys = MATCH_PARAMS.bjt;
+    for (const o of this.s.outputs) {
+      const m = this.t(o.device).element.model;
+      if (m === ref) continue;
+      const differing = keys.filter((k) => !sameNumber(m.params[k], ref.params[k]));
+      const isR = ref.params.IS ?? 1e-16;
+      const isO = m.params.IS ?? 1e-16;
+      if (differing.length === 1 && differing[0] === 'IS' && isR > 0 && isO > 0) out[o.device] = { ratio: isO / isR, model: m, refModel: ref };
     }
     return out;
   }
@@ -560,11 +590,14 @@ class StructureCheck {
         const data: Record<string, unknown> = { device: o.device, region, pastEdgeV: -head, solvedA: solved, activeA: active, currentError: err, outputNode: o.node, outputV: vout };
         if (edge !== undefined && region !== 'cutoff') {
           const cmp = this.sign > 0 ? '≥' : '≤';
-          let advice = `Keep V(${o.node}) ${cmp} ${eng(edge, 'V')}`;
+          // The advice keeps the headroom margin, not just the edge: an output parked on the edge fails at the first corner.
+          const keep = edge + this.sign * margin;
+          let advice = `Keep V(${o.node}) ${cmp} ${eng(keep, 'V')} (the edge at ${eng(edge, 'V')} plus the ${eng(margin, 'V')} margin)`;
           data.edgeV = edge;
+          data.marginV = margin;
           const load = this.loadResistor(t);
           if (load && active > 0) {
-            const rmax = (this.sign * (load.railV - edge)) / active;
+            const rmax = (this.sign * (load.railV - keep)) / active;
             if (rmax > 0) {
               advice += `, i.e. ${load.name} ≤ ${eng(rmax, 'Ω')} at ${eng(active, 'A')}`;
               data.loadResistor = load.name;
@@ -591,13 +624,8 @@ class StructureCheck {
 
   /** The single resistor from an output node to a rail, when the node's load is just that. */
   private loadResistor(t: Transistor): { name: string; railV: number } | undefined {
-    const rails = railsByIndex(this.circuit);
-    const atts = this.topo.conducting(t.out).filter((a) => a.element !== t.element && a.element.kind === 'R');
-    if (atts.length !== 1) return undefined;
-    const r = atts[0].element;
-    const other = r.nodes[0] === t.out ? r.nodes[1] : r.nodes[0];
-    const rail = rails.get(other);
-    return rail ? { name: r.name, railV: rail.volts } : undefined;
+    const load = loadResistorOf(this.circuit, this.topo, t);
+    return load ? { name: load.resistor.name, railV: load.railV } : undefined;
   }
 
   private checkUnmatched(): void {
@@ -655,8 +683,22 @@ class StructureCheck {
 
   private checkRatios(): void {
     const kind = kindOf(this.s.kind);
+    const byIs = this.isRatios();
     for (const o of this.s.outputs) {
       if (this.off.has(o.device)) continue; // no ratio on a device that carries nothing
+      const is = byIs[o.device];
+      if (is) {
+        // Source: the transport model (DESIGN.md) — at one VBE, IC scales with IS, so IS2/IS1 multiplies the geometric ratio.
+        const total = o.ratio * is.ratio;
+        const geometry = Math.abs(o.ratio - 1) < 1e-9 ? '' : ` and ${sig(o.ratio)} by area × M`;
+        this.emit(
+          'mirror-ratio',
+          this.t(o.device).element,
+          `${o.device} is a 1:${sig(total)} output of the ${kindName(this.s.kind)} on ${this.s.reference.device}: its model ${is.model.name} differs from the reference's ${is.refModel.name} only in IS (${sig(is.model.params.IS!)} vs ${sig(is.refModel.params.IS!)}), read as an intended ratio of ${sig(is.ratio)}${geometry}, as an emitter-area ratio would be.`,
+          { device: o.device, ratio: total, isRatio: is.ratio, geometricRatio: o.ratio },
+        );
+        continue;
+      }
       const note = kind.ratio({ s: this.s, bipolar: this.bipolar, estimate: this.s.estimate }, o);
       if (note) this.emit('mirror-ratio', this.t(o.device).element, note.message, note.data);
     }

@@ -57,7 +57,9 @@
  *   R2 e2 0 1.2k ; expect 100uA
  */
 
-import type { Circuit, Element } from '../circuit';
+import type { Circuit, Element, Resistor } from '../circuit';
+import { railsByIndex } from '../structures/rails';
+import { topologyOf, type Attachment, type Topology, type Transistor } from '../structures/topology';
 import type { ResolvedOptions } from '../analysis';
 import { parseNumber, splitSuffix } from '../elaborate/units';
 import { seriesTolerance } from '../fixes/e-series';
@@ -473,6 +475,8 @@ export class TargetIndex {
   readonly roles = new Map<string, TargetRole>();
   /** Lower-case resistor name -> its Widlar emitter role. */
   readonly degenerations = new Map<string, TargetRole>();
+  /** Lower-case resistor name -> the structure output it is the only load of. */
+  readonly loads = new Map<string, Element>();
 
   constructor(circuit: Circuit, structures: Structure[]) {
     const push = <K>(m: Map<K, Element[]>, k: K, e: Element): void => {
@@ -502,6 +506,9 @@ export class TargetIndex {
       for (const o of st.outputs) {
         const r = o.degeneration?.resistor.toLowerCase();
         if (r && !this.degenerations.has(r)) this.degenerations.set(r, { structure: st, role: 'degeneration-resistor', output: o.device });
+        const t = topologyOf(circuit).byName.get(o.device);
+        const load = t ? loadResistorOf(circuit, topologyOf(circuit), t) : undefined;
+        if (load && t && !this.loads.has(load.resistor.name.toLowerCase())) this.loads.set(load.resistor.name.toLowerCase(), t.element);
       }
     }
   }
@@ -550,26 +557,103 @@ export function degenerationResistor(s: Structure, output: string | undefined): 
   return s.outputs.find((o) => o.device.toLowerCase() === want)?.degeneration?.resistor;
 }
 
-/** The resistor a sizing fix would change to move an element's current, and the structure it acts through. */
+/**
+ * The resistor a sizing fix would change to move an element's current, and the structure it acts
+ * through: the resistor that really sets that current, never an output's load.
+ * - A Widlar output (its own emitter or source resistor, none on the reference): that resistor.
+ * - Any other output, the reference device or a reference resistor: the reference resistor (the
+ *   largest of the chain) — for a degenerated mirror too, whose shared reference resistor keeps the
+ *   resistor ratio (changing one output's resistor would break a 1:1 match). A reference fed
+ *   through diodes or other junctions in series is walked to its rail for the resistor.
+ * - The load resistor of a structure output: its current is the output's, so the output's knob.
+ * - Any other resistor: itself (Ohm's law).
+ */
 export function sizingKnob(circuit: Circuit, structures: Structure[], element: Element, index?: TargetIndex): { resistor: string; structureId?: string } | undefined {
   const role = structureRole(circuit, structures, element, index);
   if (role) {
     const s = role.structure;
-    if (role.role === 'degeneration-resistor') return { resistor: element.name, structureId: s.id };
-    if (role.role === 'output') {
+    const widlar = !s.reference.degeneration;
+    if (role.role === 'degeneration-resistor' && widlar) return { resistor: element.name, structureId: s.id };
+    if (role.role === 'output' && widlar) {
       const r2 = degenerationResistor(s, role.output);
       if (r2) return { resistor: r2, structureId: s.id };
     }
-    if (s.reference.feed === 'resistor' && s.reference.elements.length > 0) {
-      const chain = s.reference.elements
-        .map((n) => (index ? index.byName.get(n.toLowerCase())?.[0] : circuit.elements.find((e) => e.name.toLowerCase() === n.toLowerCase())))
-        .filter((e): e is Extract<Element, { kind: 'R' }> => !!e && e.kind === 'R');
-      // The largest resistor of the chain sets the current; changing it moves the current most.
-      const biggest = chain.sort((a, b) => b.resistance - a.resistance)[0];
-      if (biggest) return { resistor: biggest.name, structureId: s.id };
+    const reference = referenceKnob(circuit, s, index);
+    if (reference) return { resistor: reference, structureId: s.id };
+    if (role.role === 'degeneration-resistor') return { resistor: element.name, structureId: s.id };
+  }
+  if (element.kind === 'R') {
+    const loaded = loadedOutput(circuit, structures, element, index);
+    if (loaded) {
+      const knob = sizingKnob(circuit, structures, loaded, index);
+      if (knob && knob.resistor.toLowerCase() !== element.name.toLowerCase()) return knob;
+    }
+    return { resistor: element.name };
+  }
+  return undefined;
+}
+
+/** The resistor that sets a structure's reference current: the largest of its resistor chain, or of the series chain from its reference node to a rail. */
+function referenceKnob(circuit: Circuit, s: Structure, index?: TargetIndex): string | undefined {
+  const byName = (n: string) => (index ? index.byName.get(n.toLowerCase())?.[0] : circuit.elements.find((e) => e.name.toLowerCase() === n.toLowerCase()));
+  let chain: Resistor[] = [];
+  if (s.reference.feed === 'resistor' && s.reference.elements.length > 0) {
+    chain = s.reference.elements.map(byName).filter((e): e is Resistor => !!e && e.kind === 'R');
+  } else if (s.reference.feed === 'other') {
+    chain = seriesResistorsToRail(circuit, s);
+  }
+  // The largest resistor of the chain sets the current; changing it moves the current most.
+  return chain.sort((a, b) => b.resistance - a.resistance)[0]?.name;
+}
+
+/**
+ * The resistors met walking from a structure's reference node away from the structure through
+ * elements in series (resistors, diodes, inductors), when the walk reaches a rail: the reference
+ * branch of `R — D — diode-connected device`, whose feed the recogniser calls `other`.
+ */
+function seriesResistorsToRail(circuit: Circuit, s: Structure): Resistor[] {
+  const topo = topologyOf(circuit);
+  const rails = railsByIndex(circuit);
+  const members = new Set(s.devices.map((d) => d.toLowerCase()));
+  const start = topo.nodeIndex.get(s.reference.node);
+  if (start === undefined) return [];
+  let node: number = start;
+  const found: Resistor[] = [];
+  let prev: Element | undefined;
+  for (let step = 0; step < 32; step++) {
+    if (rails.has(node)) return found;
+    const next: Attachment[] = topo.conducting(node).filter((a) => a.element !== prev && !members.has(a.element.name.toLowerCase()) && !((a.element.kind === 'Q' || a.element.kind === 'M') && a.slot === 1));
+    if (next.length !== 1) return [];
+    const e: Element = next[0]!.element;
+    if (e.kind !== 'R' && e.kind !== 'D' && e.kind !== 'L') return [];
+    if (e.kind === 'R') found.push(e);
+    node = e.nodes[next[0]!.slot === 0 ? 1 : 0]!;
+    prev = e;
+  }
+  return [];
+}
+
+/** The single resistor from an output node to a rail, when the node's load is just that (and the rail it goes to). */
+export function loadResistorOf(circuit: Circuit, topo: Topology, t: Transistor): { resistor: Resistor; railV: number } | undefined {
+  const rails = railsByIndex(circuit);
+  const atts = topo.conducting(t.out).filter((a) => a.element !== t.element && a.element.kind === 'R');
+  if (atts.length !== 1) return undefined;
+  const r = atts[0]!.element as Resistor;
+  const other = r.nodes[0] === t.out ? r.nodes[1]! : r.nodes[0]!;
+  const rail = rails.get(other);
+  return rail ? { resistor: r, railV: rail.volts } : undefined;
+}
+
+/** The structure output a resistor is the only load of (its current is then the output's), if any. */
+function loadedOutput(circuit: Circuit, structures: Structure[], r: Element, index?: TargetIndex): Element | undefined {
+  if (index) return index.loads.get(r.name.toLowerCase());
+  const topo = topologyOf(circuit);
+  for (const s of structures) {
+    for (const o of s.outputs) {
+      const t = topo.byName.get(o.device);
+      if (t && loadResistorOf(circuit, topo, t)?.resistor === r) return t.element;
     }
   }
-  if (element.kind === 'R') return { resistor: element.name };
   return undefined;
 }
 
@@ -689,7 +773,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
             : solved !== undefined
               ? `${fmtA(solved)} at the operating point`
               : `${fmtA(estimate!)} by hand estimate (the operating point did not converge)`;
-        const fixHint = knob ? ` Changing ${knob.resistor} moves it; see the offered values.` : '';
+        const fixHint = knob ? ` ${knob.resistor} sets it.` : '';
         if (nominalWanted) findings.push({
           code: 'target-missed',
           severity: Math.abs(error) > 3 * tolerance ? 'error' : TARGET_CODES['target-missed'].severity,

@@ -12,6 +12,9 @@ import { formatEngineering, formatPercent } from './format';
 import { misspeltDotCardFixes, missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
 import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingResult } from './resistor-for-current';
 import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value';
+import { resistorValueChange, writtenScale } from './value-edit';
+import { headroomFixes, headroomRequest, headroomRequestOf } from './headroom';
+import { regionChanges } from './verify';
 import { nameTable } from '../names';
 
 /** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
@@ -113,9 +116,9 @@ export function attachFixes(findings: Finding[], ctx: FixContext): void {
       if (request) f.data = { ...(f.data ?? {}), sizing: request };
       continue;
     }
-    const rewrite = rewriteRequestOf(f);
-    if (rewrite) {
-      f.data = { ...(f.data ?? {}), sizing: rewrite };
+    const solved = rewriteRequestOf(f) ?? headroomRequestOf(f, ctx);
+    if (solved) {
+      f.data = { ...(f.data ?? {}), sizing: solved };
       continue;
     }
     const build = BUILDERS[f.code];
@@ -137,7 +140,7 @@ export function attachFixes(findings: Finding[], ctx: FixContext): void {
  * when the editor asks for code actions.
  */
 export function hasSolvedFixes(finding: Finding): boolean {
-  return sizingRequest(finding) !== undefined || rewriteRequest(finding) !== undefined;
+  return sizingRequest(finding) !== undefined || rewriteRequest(finding) !== undefined || headroomRequest(finding) !== undefined;
 }
 
 /** The resistor-sizing marker of a `target-missed` finding (`data.sizing`), when it carries a well-formed one. */
@@ -175,10 +178,21 @@ export function sizingFixes(finding: Finding, ctx: SizingFixContext): Fix[] {
       return [];
     }
   }
+  const headroom = headroomRequest(finding);
+  if (headroom) {
+    try {
+      return headroomFixes(headroom, ctx);
+    } catch {
+      return [];
+    }
+  }
   const request = sizingRequest(finding);
   if (!request) return [];
   try {
-    return targetFixes(request, { ...ctx, cache: ctx.cache ?? new Map() });
+    const { fixes, problem } = targetFixes(request, { ...ctx, cache: ctx.cache ?? new Map() });
+    if (fixes.length > 0 || !problem) return fixes;
+    // Nothing to offer: say why in a fix the editor shows greyed out, and the command line prints under the finding.
+    return [{ title: `No standard value of ${request.resistor} meets the target`, edits: [], disabled: problem }];
   } catch {
     // A fix is a convenience; a sizing failure must not take the request down.
     return [];
@@ -207,22 +221,12 @@ function sizingRequestOf(f: Finding, ctx: FixContext, lookup: (name: string) => 
   if (!circuit || !resistorName || !element || target === undefined || !(target > 0) || !Number.isFinite(target)) return undefined;
   const r = lookup(resistorName);
   if (!r || r.kind !== 'R') return undefined;
-  // A value written as an expression or parameter is the user's design intent; do not overwrite it with a number.
-  if (writtenScale(r, documents) === undefined) return undefined;
+  // A value written as an expression is rewritten through its parameter (see `resistorValueChange`); it needs a value field.
+  if (!r.origin.valueSpan || !documents[r.origin.uri]) return undefined;
   const series: SeriesName = typeof d['series'] === 'string' && isSeriesName(d['series']) ? d['series'] : ctx.options.resistorSeries;
   const tolerance = typeof d['tolerance'] === 'number' && d['tolerance'] > 0 ? d['tolerance'] : seriesTolerance(series);
   const structureId = typeof d['structureId'] === 'string' ? d['structureId'] : undefined;
   return { resistor: r.name, device: element, target, tolerance, series, ...(structureId ? { structureId } : {}) };
-}
-
-/** The multiplier between a resistor card's written value and its effective resistance (M=), when the written value is a plain number. */
-function writtenScale(r: Resistor, documents: Record<string, ParsedDocument>): number | undefined {
-  const doc = documents[r.origin.uri];
-  const span = r.origin.valueSpan;
-  if (!doc || !span) return undefined;
-  const read = parseNumber(doc.text.slice(span.start, span.end));
-  if (!read.ok || !(read.value > 0)) return undefined;
-  return read.value / r.resistance;
 }
 
 /**
@@ -242,15 +246,21 @@ function cardAt(doc: ParsedDocument | undefined, start: number): ElementCard | u
   return card && card.kind === 'element' ? card : undefined;
 }
 
-/** Resistor-value fixes for a missed target, from its sizing marker. */
-function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Map<string, SizingResult> }): Fix[] {
+/**
+ * Resistor-value fixes for a missed target, from its sizing marker. Each candidate is re-solved
+ * with the whole circuit so its title can say what else changes: an output of the structure that
+ * leaves its region, or stays out of it, is named (a saturated BJT output draws base current
+ * from the shared line and lowers the others, so a value that meets the target only because of
+ * it does not keep meeting it once that output is fixed). The preferred fix is the closest one
+ * that leaves every output in its region, else the closest. When no value is offered, `problem`
+ * says why.
+ */
+function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Map<string, SizingResult> }): { fixes: Fix[]; problem?: string } {
   const { circuit, solver, documents } = ctx;
   const { target, series, tolerance } = request;
   const element = request.device;
   const r = circuit.elements.find((e) => e.name.toLowerCase() === request.resistor.toLowerCase());
-  if (!r || r.kind !== 'R') return [];
-  const scale = writtenScale(r, documents);
-  if (scale === undefined) return [];
+  if (!r || r.kind !== 'R') return { fixes: [] };
   const structure = request.structureId ? ctx.structures.find((s) => s.id === request.structureId) : undefined;
 
   const size = (sr: SeriesName, knownIdeal?: number): SizingResult => {
@@ -274,23 +284,26 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   const current = r.resistance;
   // Writing the value the card already has would change nothing.
   const useful = offered.filter((o) => Math.abs(o.c.value - current) > 1e-9 * current);
-  if (useful.length === 0) return [];
-  const best = useful.reduce((a, b) => (Math.abs(b.c.error) < Math.abs(a.c.error) ? b : a));
-  const shared = r.origin.instances.length > 0 ? ' in the subcircuit definition (every instance changes)' : '';
-  const card = cardAt(documents[r.origin.uri], r.origin.span.start);
-  const hasM = card?.params.some((p) => p.name.text.toLowerCase() === 'm') ?? false;
-  const fixes: Fix[] = [];
+  if (useful.length === 0) return { fixes: [], problem: sizing.problem };
+  const built: { fix: Fix; error: number; clean: boolean }[] = [];
   for (const o of useful) {
     const c = o.c;
-    const text = resistorValueText(r, documents, c.value);
-    const edit = text === undefined ? undefined : valueEdit(r.origin.uri, r.origin, text);
-    if (!edit || text === undefined) continue;
-    const perDevice = hasM && Math.abs(scale - 1) > 1e-12 ? ` (${formatEngineering(c.value, { unit: 'Ω' })} effective with M=)` : '';
-    fixes.push({
-      title: `Set ${r.name} to ${text}${perDevice} (${o.series})${shared}: ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}`,
-      preferred: o === best ? true : undefined,
-      edits: [edit],
+    const change = resistorValueChange(r, documents, c.value);
+    if (!change) continue;
+    const side = structure ? regionChanges(circuit, solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element) : { text: '', clean: true };
+    if (side === undefined) continue; // did not converge with the whole circuit: not offered
+    built.push({
+      fix: {
+        title: `Set ${r.name} to ${change.text}${change.note} (${o.series}): ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}${side.text}`,
+        edits: change.edits,
+      },
+      error: Math.abs(c.error),
+      clean: side.clean,
     });
   }
-  return fixes;
+  if (built.length === 0) return { fixes: [], problem: sizing.problem };
+  const pool = built.some((b) => b.clean) ? built.filter((b) => b.clean) : built;
+  const best = pool.reduce((a, b) => (b.error < a.error ? b : a));
+  best.fix.preferred = true;
+  return { fixes: built.map((b) => b.fix) };
 }

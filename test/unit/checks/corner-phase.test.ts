@@ -151,10 +151,10 @@ describe('sizing fixes on demand', () => {
     expect(sizingFixesOf({ analysis: s.analysis }, f)).toEqual([]);
   });
 
-  it('marks nothing when the resistor value is a parameter (the design intent is not overwritten)', () => {
+  it('marks a resistor whose value is a parameter too (it is sized through the parameter)', () => {
     const text = missed.replace('R1 vpos ref 22k', '.param rset=22k\nR1 vpos ref {rset}');
     const f = analyseText(text).analysis.findings.find((x) => x.code === 'target-missed')!;
     expect(f).toBeDefined();
-    expect(sizingRequest(f)).toBeUndefined();
+    expect(sizingRequest(f)).toMatchObject({ resistor: 'R1', device: 'Q2' });
   });
 });

@@ -2,9 +2,9 @@
 
 import { expect } from 'vitest';
 import type { Analysis, AnalysisOptions } from '../../../shared-analysis/src/analysis';
-import { analyse } from '../../../shared-analysis/src/service';
+import { analyse, analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
 import { LineIndex } from '../../../shared-analysis/src/syntax/line-index';
-import { MemoryWorkspace, type Finding } from '../../../shared-analysis/src/types';
+import { MemoryWorkspace, type Finding, type Fix } from '../../../shared-analysis/src/types';
 
 /** A finding a test expects: its code, the 1-based line it sits on, and text its message must carry. */
 export interface Expected {
@@ -49,3 +49,37 @@ export function check(text: string, expected: Expected[], options: AnalysisOptio
   }
   return a;
 }
+
+/** Applies a fix's edits to the text (from the end, so offsets stay valid). */
+export function apply(text: string, fix: Fix): string {
+  let out = text;
+  for (const e of [...fix.edits].sort((a, b) => b.span.start - a.span.start)) out = out.slice(0, e.span.start) + e.newText + out.slice(e.span.end);
+  return out;
+}
+
+/** Analyses with every fix computed, as the command line does (the solver-backed ones included). */
+export function analyseWithFixes(text: string, options: AnalysisOptions = {}): Analysis {
+  const session = analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false }, ...options });
+  attachAllSizingFixes(session);
+  return session.analysis;
+}
+
+/**
+ * The fix check every fix kind gets: apply the first (preferred) fix of the finding, re-analyse,
+ * and assert the finding is gone and no warning or error appeared that was not there before.
+ */
+export function applyAndRecheck(text: string, code: string, pick?: (fixes: Fix[]) => Fix | undefined): { fixed: string; before: Analysis; after: Analysis; fix: Fix } {
+  const before = analyseWithFixes(text);
+  const f = before.findings.find((x) => x.code === code);
+  expect(f, code).toBeDefined();
+  const fix = pick ? pick(f!.fixes ?? []) : (f!.fixes?.find((x) => x.preferred) ?? f!.fixes?.[0]);
+  expect(fix, `a fix for ${code}`).toBeDefined();
+  const fixed = apply(text, fix!);
+  const after = analyseNetlist(fixed);
+  expect(after.findings.some((x) => x.code === code)).toBe(false);
+  const key = (x: Finding) => x.code;
+  const beforeCodes = new Set(actionable(before).map(key));
+  expect(actionable(after).map(key).filter((c) => !beforeCodes.has(c))).toEqual([]);
+  return { fixed, before, after, fix: fix! };
+}
+

@@ -1,43 +1,7 @@
 // Plausibility: an unpowered circuit, a small-signal part carrying amperes, a node far outside the rails, misspelt cards and model names — each located, naming the likely slip, with a fix that works.
 
 import { describe, expect, it } from 'vitest';
-import type { Analysis } from '../../../shared-analysis/src/analysis';
-import { analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
-import { MemoryWorkspace, type Finding, type Fix } from '../../../shared-analysis/src/types';
-import { actionable, analyseNetlist, check, lineOf, URI } from './netlist-check';
-
-/** Applies a fix's edits to the text (from the end, so offsets stay valid). */
-function apply(text: string, fix: Fix): string {
-  let out = text;
-  for (const e of [...fix.edits].sort((a, b) => b.span.start - a.span.start)) out = out.slice(0, e.span.start) + e.newText + out.slice(e.span.end);
-  return out;
-}
-
-/** Analyses with every fix computed, as the command line does (the solver-backed ones included). */
-function analyseWithFixes(text: string): Analysis {
-  const session = analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false } });
-  attachAllSizingFixes(session);
-  return session.analysis;
-}
-
-/**
- * The fix check every fix kind gets: apply the first (preferred) fix of the finding, re-analyse,
- * and assert the finding is gone and no warning or error appeared that was not there before.
- */
-function applyAndRecheck(text: string, code: string): { fixed: string; before: Analysis; after: Analysis; fix: Fix } {
-  const before = analyseWithFixes(text);
-  const f = before.findings.find((x) => x.code === code);
-  expect(f, code).toBeDefined();
-  const fix = f!.fixes?.find((x) => x.preferred) ?? f!.fixes?.[0];
-  expect(fix, `a fix for ${code}`).toBeDefined();
-  const fixed = apply(text, fix!);
-  const after = analyseNetlist(fixed);
-  expect(after.findings.some((x) => x.code === code)).toBe(false);
-  const key = (x: Finding) => x.code;
-  const beforeCodes = new Set(actionable(before).map(key));
-  expect(actionable(after).map(key).filter((c) => !beforeCodes.has(c))).toEqual([]);
-  return { fixed, before, after, fix: fix! };
-}
+import { actionable, analyseNetlist, applyAndRecheck, check, lineOf } from './netlist-check';
 
 const ONE_M = `Reference resistor written 1M
 VCC vcc 0 12

@@ -249,7 +249,7 @@ describe('checkTargets', () => {
   it('reports a miss at nominal with both numbers and the percent', () => {
     const [f] = checkMisses(mirror('; expect 1mA ±2%'), {
       codes: ['target-missed'],
-      says: [['Q2 carries 964 µA at the operating point (hand estimate', '−3.6 % from its target of 1 mA ±2 %', 'Changing R1']],
+      says: [['Q2 carries 964 µA at the operating point (hand estimate', '−3.6 % from its target of 1 mA ±2 %', 'R1 sets it.']],
       severities: ['warning'],
     });
     expect(f.data).toMatchObject({ element: 'Q2', target: 1e-3, tolerance: 0.02, resistor: 'R1', series: 'E24' });

@@ -75,7 +75,7 @@ describe('mirror-output-out-of-region', () => {
       {
         code: 'mirror-output-out-of-region',
         at: 'Q2',
-        says: [/saturated/, /VBC = \+0\.\d+ V/, /past the forward-active edge/, /Keep V\(out\) ≥ 0\.7\d+ V/, /RL ≤ 4\.\d+ kΩ at 96\d µA/, /−\d+ %/],
+        says: [/saturated/, /VBC = \+0\.\d+ V/, /past the forward-active edge/, /Keep V\(out\) ≥ 1\.0\d+ V \(the edge at 0\.7\d+ V plus the 0\.3 V margin\)/, /RL ≤ 4\.\d+ kΩ at 96\d µA/, /−\d+ %/],
         related: ['Q1', 'RREF'],
       },
       { code: 'estimate-differs-from-solved', at: 'Q2', says: [/Q2 is out of its active region/] },
@@ -86,8 +86,8 @@ describe('mirror-output-out-of-region', () => {
     expect(d.edgeV).toBeCloseTo(op!.nodes.a, 9);
     expect(d.pastEdgeV).toBeCloseTo(op!.nodes.a - op!.nodes.out, 9);
     expect(d.activeA).toBeCloseTo(structures[0].estimate!.iout.Q2, 15);
-    // Source: Ohm's law on the load — the largest RL that keeps V(out) at the edge carries the active current.
-    expect(d.maxLoadOhms).toBeCloseTo((5 - d.edgeV) / d.activeA, 6);
+    // Source: Ohm's law on the load — the largest RL that keeps V(out) the margin beyond the edge carries the active current.
+    expect(d.maxLoadOhms).toBeCloseTo((5 - d.edgeV - 0.3) / d.activeA, 6);
     expect(d.solvedA).toBeLessThan(d.activeA);
     expect(d.currentError).toBeCloseTo((d.solvedA - d.activeA) / d.activeA, 12);
     // Applying the advice (RL just under the limit) brings the output back.
@@ -104,7 +104,7 @@ describe('mirror-output-out-of-region', () => {
       .q('Q2', 'out', 'a', 'vcc', 'qp')
       .r('RL', 'out', '0', 10e3);
     check(b, [
-      { code: 'mirror-output-out-of-region', at: 'Q2', says: [/VCB = \+0\.\d+ V/, /Keep V\(out\) ≤ 4\.2\d V/, /RL ≤ 4\.\d+ kΩ/] },
+      { code: 'mirror-output-out-of-region', at: 'Q2', says: [/VCB = \+0\.\d+ V/, /Keep V\(out\) ≤ 3\.9\d V \(the edge at 4\.2\d V plus the 0\.3 V margin\)/, /RL ≤ 4\.\d+ kΩ/] },
       { code: 'estimate-differs-from-solved', at: 'Q2' },
     ]);
   });
@@ -118,14 +118,14 @@ describe('mirror-output-out-of-region', () => {
       .mos('M2', 'd', 'g', '0', '0', 'nch', { w: 1e-6, l: 1e-6 })
       .r('RL', 'vdd', 'd', 100e3);
     const { findings, op } = check(b, [
-      { code: 'mirror-output-out-of-region', at: 'M2', says: [/triode/, /VDS is 0\.\d+ V below the overdrive VGS − VTH = 1 V/, /Keep V\(d\) ≥ 1 V/, /RL ≤ 46 kΩ at 50 µA/] },
+      { code: 'mirror-output-out-of-region', at: 'M2', says: [/triode/, /VDS is 0\.\d+ V below the overdrive VGS − VTH = 1 V/, /Keep V\(d\) ≥ 1\.3 V \(the edge at 1 V plus the 0\.3 V margin\)/, /RL ≤ 40 kΩ at 50 µA/] },
       { code: 'estimate-differs-from-solved', at: 'M2' },
     ]);
     const d = findings.find((f) => f.code === 'mirror-output-out-of-region')!.data as Record<string, number>;
     // Source: square law, VOV = sqrt(2·ID/(KP·W/L)) = sqrt(2 × 50 µA / 100 µA/V²) = 1 V, so the edge is V(g) − VTH = 1 V.
     expect(d.edgeV).toBeCloseTo(1, 6);
     expect(d.edgeV).toBeCloseTo(op!.nodes.g - 0.5, 6);
-    expect(d.maxLoadOhms).toBeCloseTo((3.3 - 1) / 50e-6, 3);
+    expect(d.maxLoadOhms).toBeCloseTo((3.3 - 1 - 0.3) / 50e-6, 3);
   });
 });
 
@@ -204,7 +204,31 @@ describe('reference-starved', () => {
 });
 
 describe('mirror-unmatched', () => {
-  it('an output with twice the IS: about +100 % ratio error, model names in the data', () => {
+  it('an output with twice the IS and a lower BF: about +100 % ratio error, model names in the data', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qa', 'npn')
+      .model('qb', 'npn', { IS: 2e-16, BF: 90 })
+      .r('RREF', 'vcc', 'a', 4.3e3)
+      .q('Q1', 'a', 'a', '0', 'qa')
+      .q('Q2', 'out', 'a', '0', 'qb')
+      .r('RL', 'vcc', 'out', 1e3);
+    const { findings, structures } = check(b, [
+      { code: 'mirror-unmatched', at: 'Q2', says: [/model qb while the reference Q1 uses qa/, /IS \(2e-16 vs 1e-16\), BF \(90 vs 100\)/, /\+\d+ %/], related: ['Q1'] },
+      { code: 'estimate-differs-from-solved', at: 'Q2', says: [/unmatched devices/] },
+    ]);
+    const d = findings.find((f) => f.code === 'mirror-unmatched')!.data as Record<string, unknown>;
+    expect(d.models).toEqual(['qa', 'qb']);
+    expect(d.differing).toEqual(['IS', 'BF']);
+    // Source: junction law — at equal VBE, IC scales with IS (×2); the base currents with 1/BF move it by well under 1 %.
+    expect(d.ratioErrorPercent as number).toBeGreaterThan(99);
+    expect(d.ratioErrorPercent as number).toBeLessThan(101);
+    const s = structures[0];
+    expect(s.solved!.iout.Q2 / s.estimate!.iout.Q2).toBeGreaterThan(1.95);
+    expect(s.solved!.iout.Q2 / s.estimate!.iout.Q2).toBeLessThan(2.0);
+  });
+
+  it('an output whose model differs only in IS is an intended ratio, not a mismatch', () => {
     const b = new CircuitBuilder()
       .v('VCC', 'vcc', '0', 5)
       .model('qa', 'npn')
@@ -213,18 +237,11 @@ describe('mirror-unmatched', () => {
       .q('Q1', 'a', 'a', '0', 'qa')
       .q('Q2', 'out', 'a', '0', 'qb')
       .r('RL', 'vcc', 'out', 1e3);
-    const { findings, structures } = check(b, [
-      { code: 'mirror-unmatched', at: 'Q2', says: [/model qb while the reference Q1 uses qa/, /IS \(2e-16 vs 1e-16\)/, /\+100 %/], related: ['Q1'] },
-      { code: 'estimate-differs-from-solved', at: 'Q2', says: [/unmatched devices/] },
+    const { findings } = check(b, [
+      { code: 'mirror-ratio', at: 'Q2', says: [/1:2 output/, /only in IS \(2e-16 vs 1e-16\), read as an intended ratio of 2/] },
+      { code: 'estimate-differs-from-solved', at: 'Q2' },
     ]);
-    const d = findings.find((f) => f.code === 'mirror-unmatched')!.data as Record<string, unknown>;
-    expect(d.models).toEqual(['qa', 'qb']);
-    expect(d.differing).toEqual(['IS']);
-    expect(d.ratioErrorPercent as number).toBeCloseTo(100, 6);
-    // Source: junction law — at equal VBE, IC scales with IS, so the solved output is about twice the matched estimate.
-    const s = structures[0];
-    expect(s.solved!.iout.Q2 / s.estimate!.iout.Q2).toBeGreaterThan(1.95);
-    expect(s.solved!.iout.Q2 / s.estimate!.iout.Q2).toBeLessThan(2.0);
+    expect((findings.find((f) => f.code === 'mirror-ratio')!.data as Record<string, number>).isRatio).toBeCloseTo(2, 12);
   });
 
   it('two models with the same parameters are not a mismatch', () => {
@@ -299,7 +316,7 @@ describe('chained mirrors', () => {
       .v('VCC', 'vcc', '0', 5)
       .model('qn', 'npn')
       .model('qp', 'pnp')
-      .model('qp2', 'pnp', { IS: 2e-16 })
+      .model('qp2', 'pnp', { IS: 2e-16, BF: 50 })
       .r('R1', 'p1', '0', 10e3)
       .q('QP1', 'p1', 'p1', 'vcc', 'qp')
       .q('QP2', 'n1', 'p1', 'vcc', 'qp2')

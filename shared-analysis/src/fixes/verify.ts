@@ -1,0 +1,57 @@
+// The re-solve every resistor fix passes before it is offered: what the change does to each output of the structure.
+
+import type { Circuit } from '../circuit';
+import type { DcSolver } from '../solve/dc';
+import type { OperatingPoint } from '../solve/types';
+import { measureStructure, type Measurement } from '../structures/measure';
+import { isBipolar } from '../structures/topology';
+import type { Structure } from '../structures/types';
+
+/** A structure measured at an operating point solved with some resistances changed. */
+export interface Resolved {
+  op: OperatingPoint;
+  m: Measurement;
+}
+
+/** Solves the circuit with `resistances` (element name -> ohms) in effect and measures the structure; undefined when it does not converge or a value is refused. */
+export function resolveWith(circuit: Circuit, solver: DcSolver, s: Structure, resistances: Record<string, number>, temperatureC: number | undefined): Resolved | undefined {
+  const result = solver.solve({ temperatureC, resistances });
+  if (!result.op.converged || result.findings.some((f) => f.code === 'dc-override-refused')) return undefined;
+  return { op: result.op, m: measureStructure(circuit, result.op, s) };
+}
+
+/** The words for an output out of its active region in its technology. */
+function outWord(s: Structure): string {
+  return isBipolar(s.technology) ? 'saturated' : 'in triode';
+}
+
+/**
+ * What a change does to the structure's other outputs, for a fix title: `; Q4 stays saturated`
+ * or `; Q4 saturates`, with the reason a saturated bipolar output matters to the others (it draws
+ * extra base current from the shared line). `clean` is true when, re-solved, every output of the
+ * structure is in its active region. `except` is the output the fix is about (its own state is in
+ * the title already). Undefined when the circuit does not converge with the change.
+ */
+export function regionChanges(
+  circuit: Circuit,
+  solver: DcSolver,
+  s: Structure,
+  resistances: Record<string, number>,
+  temperatureC: number | undefined,
+  except?: string,
+  before?: Measurement,
+): { text: string; clean: boolean; after: Resolved } | undefined {
+  const after = resolveWith(circuit, solver, s, resistances, temperatureC);
+  if (!after) return undefined;
+  const base = before ?? resolveWith(circuit, solver, s, {}, temperatureC)?.m;
+  const parts: string[] = [];
+  const exceptLower = except?.toLowerCase();
+  for (const o of s.outputs) {
+    if (o.device.toLowerCase() === exceptLower) continue;
+    if (!after.m.outOfRegion.includes(o.device)) continue;
+    parts.push(`${o.device} ${base?.outOfRegion.includes(o.device) ? 'stays' : 'becomes'} ${outWord(s)}`);
+  }
+  let text = parts.length ? `; ${parts.join(', ')}` : '';
+  if (parts.length && isBipolar(s.technology) && s.outputs.length > 1) text += ' (its extra base current lowers the other outputs: fix it first)';
+  return { text, clean: after.m.outOfRegion.length === 0, after };
+}
