@@ -17,6 +17,12 @@ describe('README', () => {
     expect(block).toEqual(['npm ci && npm run demo', 'npm test']);
   });
 
+  it('has no relative links, which the extension packager refuses without a repository URL', () => {
+    // A Markdown link whose target is not an absolute URL breaks `npm run package` (and so the editor test).
+    const relative = [...README.matchAll(/\]\(([^)\s]+)\)/g)].map((m) => m[1]).filter((t) => !/^(https?:|mailto:|#)/.test(t));
+    expect(relative).toEqual([]);
+  });
+
   it('carries the safety caution', () => {
     expect(README).toMatch(/local codes and licensed practice/);
   });
