@@ -48,7 +48,7 @@ import {
   type SizeResistorParams,
   type SizeResistorResult,
 } from './protocol';
-import { DEFAULT_SETTINGS, settingsFromConfiguration, type ServerSettings } from './settings';
+import { DEFAULT_SETTINGS, layerSections, sectionOfInitializationOptions, settingsFromConfiguration, type ServerSettings } from './settings';
 import {
   Converters,
   toCompletionItem,
@@ -122,6 +122,9 @@ strictReader?.onError((e) => {
 });
 let encoding: PositionEncoding = 'utf-16';
 let settings: ServerSettings = DEFAULT_SETTINGS;
+/** The `qpoint` section of initializationOptions (the starting values), and the client's own section, pulled or pushed, laid over it. */
+let initialSection: unknown;
+let clientSection: unknown;
 let canPullConfiguration = false;
 let canRefreshInlays = false;
 let canReportProgress = false;
@@ -487,14 +490,21 @@ function publishFailure(uri: string, message: string): void {
   published.add(uri);
 }
 
+/** Makes the settings from the starting section and the client's section (see layerSections), logging every value that is ignored. */
+function applySettings(source: string): void {
+  const { settings: next, problems } = settingsFromConfiguration(layerSections(initialSection, clientSection));
+  for (const p of problems) log(`${p} (from ${source})`);
+  settings = next;
+  sendReadPolicy();
+}
+
 async function pullSettings(): Promise<void> {
   if (!canPullConfiguration) return;
   try {
-    const raw = await connection.workspace.getConfiguration('qpoint');
-    const { settings: next, problems } = settingsFromConfiguration(raw);
-    for (const p of problems) log(p);
-    settings = next;
-    sendReadPolicy();
+    const [raw] = await connection.workspace.getConfiguration([{ section: 'qpoint' }]);
+    // null: the client has no qpoint section; the starting values stay.
+    clientSection = raw ?? undefined;
+    applySettings('workspace/configuration');
   } catch (e) {
     log(`Could not read the qpoint settings: ${e instanceof Error ? e.message : String(e)}`);
   }
@@ -512,12 +522,13 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
   canPullConfiguration = !!caps.workspace?.configuration;
   canRefreshInlays = !!caps.workspace?.inlayHint?.refreshSupport;
   canReportProgress = !!caps.window?.workDoneProgress;
-  const init = params.initializationOptions as { settings?: unknown; workspaceTrusted?: unknown } | undefined;
-  if (init && typeof init === 'object' && init.settings !== undefined) {
-    const { settings: s, problems } = settingsFromConfiguration(init.settings);
-    settings = s;
-    for (const p of problems) log(p);
-  }
+  const init = params.initializationOptions as { workspaceTrusted?: unknown } | undefined;
+  const fromInit = sectionOfInitializationOptions(init);
+  for (const p of fromInit.problems) log(p);
+  initialSection = fromInit.section;
+  const { settings: s, problems } = settingsFromConfiguration(initialSection);
+  settings = s;
+  for (const p of problems) log(`${p} (from initializationOptions)`);
   workspaceTrusted = !(init && typeof init === 'object' && init.workspaceTrusted === false);
   workspaceRoots = folderPaths(params);
   if (!workspaceTrusted) log('The workspace is not trusted: only open documents are analysed; no included file is read from disk.');
@@ -551,13 +562,12 @@ connection.onInitialized(() => {
 });
 
 connection.onDidChangeConfiguration(async (change) => {
+  // A client that can be asked is asked (its notification may carry nothing); otherwise the notification's settings.qpoint is read.
   if (canPullConfiguration) await pullSettings();
   else {
-    const raw = (change?.settings as { qpoint?: unknown } | undefined)?.qpoint;
-    const { settings: s, problems } = settingsFromConfiguration(raw);
-    settings = s;
-    for (const p of problems) log(p);
-    sendReadPolicy();
+    const pushed = change?.settings as unknown;
+    clientSection = pushed && typeof pushed === 'object' ? (pushed as { qpoint?: unknown }).qpoint ?? undefined : undefined;
+    applySettings('workspace/didChangeConfiguration');
   }
   for (const d of documents.all()) schedule(d.uri, 0);
 });

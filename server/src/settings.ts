@@ -31,7 +31,7 @@ const DETAILS: InlayDetail[] = ['off', 'terse', 'full'];
  */
 export function settingsFromConfiguration(raw: unknown): { settings: ServerSettings; problems: string[] } {
   const problems: string[] = [];
-  const section = isRecord(raw) ? raw : {};
+  const section = isRecord(raw) ? nested(raw) : {};
   if (raw !== undefined && raw !== null && !isRecord(raw)) problems.push('The qpoint settings are not an object; using the defaults.');
   const get = (path: string): unknown => {
     if (path in section) return section[path];
@@ -129,6 +129,54 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
     settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true, includeSearchFolders },
     problems,
   };
+}
+
+/**
+ * The one shape settings reach the server in, from every source: the `qpoint` section, nested
+ * (`{ corners: { enabled: false } }`) or with dotted keys (`{ "corners.enabled": false }`).
+ * - `initializationOptions.qpoint`: the starting values;
+ * - the answer to `workspace/configuration` for section `qpoint` (pulled when the client can answer);
+ * - `workspace/didChangeConfiguration` params `settings.qpoint` (read when the client cannot be asked).
+ * The client's section (pulled or pushed) is laid over the starting values key by key; a client
+ * that has no `qpoint` section (answers null, or pushes no `qpoint` key) leaves the starting values alone.
+ */
+export function layerSections(base: unknown, over: unknown): unknown {
+  if (!isRecord(over)) return base === undefined ? over : base;
+  if (!isRecord(base)) return over;
+  return mergeNested(nested(base), nested(over));
+}
+
+/** Dotted keys (`corners.enabled`) spread into nested objects, so two sections can be merged key by key. */
+function nested(section: Record<string, unknown>): Record<string, unknown> {
+  const out: Record<string, unknown> = nameTable();
+  for (const [key, value] of Object.entries(section)) {
+    const parts = key.startsWith('findingSeverity.') ? ['findingSeverity', key.slice('findingSeverity.'.length)] : key.split('.');
+    let cur = out;
+    for (const part of parts.slice(0, -1)) {
+      if (!isRecord(cur[part])) cur[part] = nameTable();
+      cur = cur[part] as Record<string, unknown>;
+    }
+    const last = parts[parts.length - 1]!;
+    cur[last] = isRecord(value) && isRecord(cur[last]) ? mergeNested(cur[last] as Record<string, unknown>, value) : value;
+  }
+  return out;
+}
+
+function mergeNested(a: Record<string, unknown>, b: Record<string, unknown>): Record<string, unknown> {
+  const out: Record<string, unknown> = nameTable();
+  for (const [k, v] of Object.entries(a)) out[k] = v;
+  for (const [k, v] of Object.entries(b)) out[k] = isRecord(v) && isRecord(out[k]) ? mergeNested(out[k] as Record<string, unknown>, v) : v;
+  return out;
+}
+
+/** The settings section an initialize request carries (`initializationOptions.qpoint`), and a sentence for the log when it is sent in an unread place. */
+export function sectionOfInitializationOptions(init: unknown): { section: unknown; problems: string[] } {
+  if (!isRecord(init)) return { section: undefined, problems: [] };
+  const problems: string[] = [];
+  if (init['settings'] !== undefined && init['qpoint'] === undefined) {
+    problems.push('initializationOptions.settings is not read; send the qpoint settings as initializationOptions.qpoint (see docs/PROTOCOL.md).');
+  }
+  return { section: init['qpoint'], problems };
 }
 
 function isRecord(v: unknown): v is Record<string, unknown> {

@@ -13,6 +13,7 @@ import {
   InitializeRequest,
   type InitializeResult,
   InlayHintRefreshRequest,
+  LogMessageNotification,
   PublishDiagnosticsNotification,
   RegistrationRequest,
   ShutdownRequest,
@@ -37,6 +38,10 @@ export interface ServerSession {
   refreshes: number;
   /** What the server answered to initialize (its capabilities). */
   initializeResult: InitializeResult | undefined;
+  /** What the client answers to workspace/configuration for section `qpoint` (null: the client has no such section). */
+  section: unknown;
+  /** The server's log lines (window/logMessage). */
+  logs: string[];
   open(uri: string, text: string, version?: number): void;
   change(uri: string, version: number, changes: TextDocumentContentChangeEvent[]): void;
   /** Polls until `pick()` returns a value (not undefined/false) or the time runs out. */
@@ -54,6 +59,10 @@ export interface StartOptions {
   initializationOptions?: unknown;
   /** Workspace folder URIs. */
   workspaceFolders?: string[];
+  /** Whether the client answers workspace/configuration (default true); without it the server reads pushed settings. */
+  pullConfiguration?: boolean;
+  /** Extra client capabilities, merged over the defaults one level deep (e.g. `{ window: { showMessage: {} } }`). */
+  capabilities?: Record<string, Record<string, unknown>>;
 }
 
 /** Spawns `node dist/server.js --stdio` and initializes it like an editor would. */
@@ -73,6 +82,8 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
     stderr,
     refreshes: 0,
     initializeResult: undefined,
+    section: options.settings === undefined ? {} : options.settings,
+    logs: [],
     open(uri, text, version = 1) {
       void connection.sendNotification(DidOpenTextDocumentNotification.type, { textDocument: { uri, languageId: 'netlist', version, text } });
     },
@@ -109,7 +120,8 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
     diagnostics.set(p.uri, p);
     publishCount.set(p.uri, (publishCount.get(p.uri) ?? 0) + 1);
   });
-  connection.onRequest(ConfigurationRequest.type, (p) => p.items.map((i) => (i.section === 'qpoint' ? (options.settings ?? {}) : null)));
+  connection.onRequest(ConfigurationRequest.type, (p) => p.items.map((i) => (i.section === 'qpoint' ? session.section : null)));
+  connection.onNotification(LogMessageNotification.type, (p) => void session.logs.push(p.message));
   connection.onRequest(RegistrationRequest.type, () => undefined);
   connection.onRequest(WorkDoneProgressCreateRequest.type, () => undefined);
   connection.onRequest(InlayHintRefreshRequest.type, () => {
@@ -121,15 +133,24 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
   session.initializeResult = await connection.sendRequest(InitializeRequest.type, {
     processId: process.pid,
     rootUri: null,
-    capabilities: {
-      general: { positionEncodings: (options.positionEncodings ?? ['utf-16']) as never },
-      workspace: { configuration: true, inlayHint: { refreshSupport: true }, didChangeWatchedFiles: { dynamicRegistration: false } },
-      window: { workDoneProgress: true },
-      textDocument: { publishDiagnostics: { relatedInformation: true }, inlayHint: {}, hover: { contentFormat: ['markdown'] } },
-    },
+    capabilities: mergeCapabilities(
+      {
+        general: { positionEncodings: (options.positionEncodings ?? ['utf-16']) as never },
+        workspace: { configuration: options.pullConfiguration !== false, inlayHint: { refreshSupport: true }, didChangeWatchedFiles: { dynamicRegistration: false } },
+        window: { workDoneProgress: true },
+        textDocument: { publishDiagnostics: { relatedInformation: true }, inlayHint: {}, hover: { contentFormat: ['markdown'] } },
+      },
+      options.capabilities,
+    ),
     workspaceFolders: options.workspaceFolders ? options.workspaceFolders.map((uri, i) => ({ uri, name: `folder${i}` })) : null,
     ...(options.initializationOptions !== undefined ? { initializationOptions: options.initializationOptions } : {}),
   });
   await connection.sendNotification(InitializedNotification.type, {});
   return session;
+}
+
+function mergeCapabilities(base: Record<string, Record<string, unknown>>, extra: Record<string, Record<string, unknown>> | undefined): never {
+  const out: Record<string, Record<string, unknown>> = { ...base };
+  for (const [k, v] of Object.entries(extra ?? {})) out[k] = { ...(out[k] ?? {}), ...v };
+  return out as never;
 }
