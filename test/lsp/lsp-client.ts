@@ -53,7 +53,7 @@ export interface ServerSession {
 /** Options for {@link startServer}. */
 export interface StartOptions {
   /** The qpoint settings section the client hands out on workspace/configuration. */
-  settings?: Record<string, unknown>;
+  settings?: Record<string, unknown> | null;
   positionEncodings?: string[];
   /** Sent as initializationOptions (the VS Code client sends `{ workspaceTrusted }`). */
   initializationOptions?: unknown;
