@@ -198,7 +198,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     solved.push({ spec, converged: ok });
     structures.forEach((s, i) => {
       measured[i].push(ok ? measureStructure(circuit, result!.op, s) : undefined);
-      voltagesAt[i].push(ok ? structureVoltages(s, result!.op) : undefined);
+      voltagesAt[i].push(ok ? structureVoltages(s, result!.op, circuit) : undefined);
     });
   }
 

@@ -1,7 +1,7 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
 import type { Circuit, Element } from '../circuit';
-import type { DeviceColumns, DeviceConditions, StartHint } from '../devices/device';
+import type { DeviceColumns, DeviceConditions, DeviceKind, StartHint } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { thermalVoltage, UNBOUNDED } from '../devices/physics';
 import { deviceKindOf } from '../devices/registry';
@@ -17,6 +17,7 @@ import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
 import { pushAll } from '../arrays';
+import { lazyPoint, pointVectors } from './point';
 import { nameTable } from '../names';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
@@ -85,6 +86,15 @@ const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
 const RECORD_LIMIT = 1e300;
 
+const quantityIndexes = new WeakMap<DeviceKind, Map<string, number>>();
+
+/** Position of `quantity` in a kind's columns, −1 when the kind has none of that name. */
+function quantityIndex(kind: DeviceKind, quantity: string): number {
+  let m = quantityIndexes.get(kind);
+  if (!m) quantityIndexes.set(kind, (m = new Map(kind.quantities.map((q, i) => [q, i]))));
+  return m.get(quantity) ?? -1;
+}
+
 /** The temperature each returned solution vector was solved at, so a warm start from it can predict junction voltages. */
 const solvedAt = new WeakMap<Float64Array, number>();
 
@@ -109,6 +119,8 @@ export class DcSolver {
   private readonly elementByName = new Map<string, number>();
   /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
   private conductanceOverride = new Map<number, number>();
+  /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
+  private readonly elementSlot: Int32Array;
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
@@ -128,6 +140,9 @@ export class DcSolver {
       const key = el.name.toLowerCase();
       if (!this.elementByName.has(key)) this.elementByName.set(key, i);
     });
+    this.elementSlot = new Int32Array(circuit.elements.length).fill(-1);
+    this.layout.readers.forEach((r, k) => (this.elementSlot[r.element] = k));
+    for (let d = 0; d < this.layout.deviceOrder.element.length; d++) this.elementSlot[this.layout.deviceOrder.element[d]] = -2 - d;
     this.structure = this.analyseStructure(undefined);
     pushAll(this.staticFindings, this.shortedJunctionFindings());
     pushAll(this.staticFindings, this.outOfRangeFindings());
@@ -433,34 +448,43 @@ export class DcSolver {
 
   // ---- records ----
 
+  /**
+   * The operating point at `x`: node voltages, two-terminal values and every device kind's columns
+   * are computed now into typed arrays; the name-keyed `nodes` and `devices` tables are built only
+   * when something reads them (see `lazyPoint`). Values beyond ±1e300 are found now, so the
+   * overflow finding is raised by the solve; the tables are then built at once to name them.
+   */
   private buildOperatingPoint(
     x: Float64Array,
     head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
     findings: Finding[],
   ): OperatingPoint {
     const c = this.circuit;
-    const nodes: Record<string, number> = nameTable();
-    const overflowed: string[] = [];
-    // The label is built only on overflow: records are made for every device on every solve.
-    const clamp = (v: number, where: () => string): number => {
-      if (Number.isFinite(v) && Math.abs(v) <= RECORD_LIMIT) return v;
-      overflowed.push(where());
-      if (Number.isNaN(v)) return 0;
-      return v > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
-    };
-    c.nodes.forEach((name, i) => {
-      nodes[name] = i === 0 ? 0 : clamp(x[i - 1], () => `node ${name}`);
-    });
+    const { tables, deviceOrder, readers } = this.layout;
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
-    const devices: Record<string, DeviceRecord> = nameTable();
-    const overflowElements = new Set<number>();
-    for (const r of this.layout.readers) {
-      const el = c.elements[r.element];
+    const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
+    let overflow = false;
+    const volts = new Float64Array(c.nodes.length);
+    for (let i = 1; i < c.nodes.length; i++) {
+      const val = x[i - 1];
+      if (inRange(val)) volts[i] = val;
+      else {
+        overflow = true;
+        volts[i] = Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
+      }
+    }
+    // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
+    const tv = new Float64Array(readers.length);
+    const ti = new Float64Array(readers.length);
+    const override = this.conductanceOverride;
+    const sourceValues = this.engine.sourceValues;
+    for (let k = 0; k < readers.length; k++) {
+      const r = readers[k];
       const voltage = v(r.a) - v(r.b);
       let current = 0;
       switch (r.kind) {
         case 'conductance':
-          current = voltage * (this.conductanceOverride.size > 0 ? (this.conductanceOverride.get(r.element) ?? r.g) : r.g);
+          current = voltage * (override.size > 0 ? (override.get(r.element) ?? r.g) : r.g);
           break;
         case 'branch':
           current = x[r.branch];
@@ -469,7 +493,7 @@ export class DcSolver {
           current = 0;
           break;
         case 'source-current':
-          current = this.engine.sourceValues[r.hook];
+          current = sourceValues[r.hook];
           break;
         case 'vccs':
           current = r.gain * (v(r.cp) - v(r.cn));
@@ -478,12 +502,32 @@ export class DcSolver {
           current = r.gain * x[r.branch];
           break;
       }
+      tv[k] = voltage;
+      ti[k] = current;
+      if (!(inRange(current) && inRange(voltage) && inRange(voltage * current))) overflow = true;
+    }
+    const columns: DeviceColumns[] = tables.map((t) => t.evaluate(x));
+    for (const col of columns) {
+      for (const q of col.values) {
+        for (let i = 0; i < q.length; i++) {
+          if (!inRange(q[i])) {
+            overflow = true;
+            break;
+          }
+        }
+      }
+    }
+
+    const slot = this.elementSlot;
+    const twoTerminal = (k: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
+      const r = readers[k];
+      const el = c.elements[r.element];
       const type =
         el.kind === 'R' ? 'resistor' : el.kind === 'V' ? 'voltage-source' : el.kind === 'I' ? 'current-source' : el.kind === 'L' ? 'inductor' : el.kind === 'C' ? 'capacitor' : 'controlled-source';
-      const before = overflowed.length;
+      const voltage = tv[k];
+      const current = ti[k];
       const power = voltage * current;
-      const inRange = Math.abs(current) <= RECORD_LIMIT && Math.abs(voltage) <= RECORD_LIMIT && Math.abs(power) <= RECORD_LIMIT;
-      devices[el.name] = inRange
+      return inRange(current) && inRange(voltage) && inRange(power)
         ? { type, current, voltage, power }
         : {
             type,
@@ -491,35 +535,85 @@ export class DcSolver {
             voltage: clamp(voltage, () => `voltage of ${el.name}`),
             power: clamp(power, () => `power of ${el.name}`),
           };
-      if (overflowed.length > before) overflowElements.add(r.element);
-    }
-    const { tables, deviceOrder } = this.layout;
-    const columns: DeviceColumns[] = tables.map((t) => t.evaluate(x));
-    for (let d = 0; d < deviceOrder.element.length; d++) {
+    };
+    const device = (d: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
       const table = tables[deviceOrder.table[d]];
-      const row = deviceOrder.instance[d];
       const name = c.elements[deviceOrder.element[d]].name;
-      const rec = table.kind.record(columns[deviceOrder.table[d]], table.instances, row) as unknown as Record<string, unknown>;
-      const before = overflowed.length;
+      const rec = table.kind.record(columns[deviceOrder.table[d]], table.instances, deviceOrder.instance[d]) as unknown as Record<string, unknown>;
       for (const k in rec) {
         const val = rec[k];
-        if (typeof val === 'number' && !(Math.abs(val) <= RECORD_LIMIT)) rec[k] = clamp(val, () => `${k} of ${name}`);
+        if (typeof val === 'number' && !inRange(val)) rec[k] = clamp(val, () => `${k} of ${name}`);
       }
-      if (overflowed.length > before) overflowElements.add(deviceOrder.element[d]);
-      devices[name] = rec as unknown as DeviceRecord;
+      return rec as unknown as DeviceRecord;
+    };
+    const quietClamp = (val: number): number => (inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT);
+    const record = (e: number): DeviceRecord | undefined => {
+      const k = e >= 0 && e < slot.length ? slot[e] : -1;
+      return k >= 0 ? twoTerminal(k, quietClamp) : k <= -2 ? device(-k - 2, quietClamp) : undefined;
+    };
+
+    const overflowed: string[] = [];
+    const overflowElements = new Set<number>();
+    const build = () => {
+      const nodes: Record<string, number> = nameTable();
+      c.nodes.forEach((name, i) => {
+        nodes[name] = volts[i];
+      });
+      const devices: Record<string, DeviceRecord> = nameTable();
+      // The label is built only on overflow.
+      const clamp = (val: number, where: () => string): number => {
+        if (inRange(val)) return val;
+        overflowed.push(where());
+        return quietClamp(val);
+      };
+      for (let k = 0; k < readers.length; k++) {
+        const before = overflowed.length;
+        devices[c.elements[readers[k].element].name] = twoTerminal(k, clamp);
+        if (overflowed.length > before) overflowElements.add(readers[k].element);
+      }
+      for (let d = 0; d < deviceOrder.element.length; d++) {
+        const before = overflowed.length;
+        devices[c.elements[deviceOrder.element[d]].name] = device(d, clamp);
+        if (overflowed.length > before) overflowElements.add(deviceOrder.element[d]);
+      }
+      return { nodes, devices };
+    };
+    const value = (e: number, quantity: string): number | undefined => {
+      const k = e >= 0 && e < slot.length ? slot[e] : -1;
+      if (k >= 0) {
+        const val = quantity === 'current' ? ti[k] : quantity === 'voltage' ? tv[k] : quantity === 'power' ? tv[k] * ti[k] : undefined;
+        return val === undefined ? undefined : quietClamp(val);
+      }
+      if (k === -1) return undefined;
+      const d = -k - 2;
+      const t = deviceOrder.table[d];
+      const q = quantityIndex(tables[t].kind, quantity);
+      return q < 0 ? undefined : quietClamp(columns[t].values[q][deviceOrder.instance[d]]);
+    };
+    const region = (e: number): string | undefined => {
+      const k = e >= 0 && e < slot.length ? slot[e] : -1;
+      if (k > -2) return undefined;
+      const d = -k - 2;
+      const t = deviceOrder.table[d];
+      return tables[t].kind.regions[columns[t].region[deviceOrder.instance[d]]];
+    };
+    const op = lazyPoint(head, { volts, record, value, region }, build);
+    if (overflow) {
+      for (let i = 1; i < c.nodes.length; i++) if (!inRange(x[i - 1])) overflowed.push(`node ${c.nodes[i]}`);
+      void op.devices;
+      if (overflowed.length > 0) {
+        const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();
+        findings.push(
+          this.elementFinding(
+            'dc-value-overflow',
+            'error',
+            `Some results are beyond ±1e300 and were clamped (${listNames(overflowed, 4)}); the circuit's values are too extreme for double-precision arithmetic. ${this.extremeValueHint()}`,
+            idx,
+          ),
+        );
+      }
     }
-    if (overflowed.length > 0) {
-      const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();
-      findings.push(
-        this.elementFinding(
-          'dc-value-overflow',
-          'error',
-          `Some results are beyond ±1e300 and were clamped (${listNames(overflowed, 4)}); the circuit's values are too extreme for double-precision arithmetic. ${this.extremeValueHint()}`,
-          idx,
-        ),
-      );
-    }
-    return { converged: head.converged, temperatureC: head.temperatureC, iterations: head.iterations, fallbacks: head.fallbacks, nodes, devices };
+    return op;
   }
 
   // ---- findings ----
@@ -744,11 +838,13 @@ export class DcSolver {
     const out: Finding[] = [];
     const c = this.circuit;
     const { tables, deviceOrder } = this.layout;
+    const point = pointVectors(op)!;
+    const volt = point.volts;
     for (let d = 0; d < deviceOrder.element.length; d++) {
       const over = tables[deviceOrder.table[d]].overdriven(x, deviceOrder.instance[d]);
       if (over.length === 0) continue;
       const element = c.elements[deviceOrder.element[d]];
-      const rec = op.devices[element.name];
+      const rec = point.record(deviceOrder.element[d]);
       const current = rec && rec.type === 'bjt' ? rec.ic : rec && rec.type === 'diode' ? rec.id : 0;
       const j = over[0];
       const f = this.elementFinding(
@@ -765,10 +861,10 @@ export class DcSolver {
       let net = 0;
       let worst = g.nodes[0];
       for (const k of g.nodes) {
-        net += op.nodes[c.nodes[k]] * TIE_CONDUCTANCE;
-        if (Math.abs(op.nodes[c.nodes[k]]) > Math.abs(op.nodes[c.nodes[worst]])) worst = k;
+        net += volt[k] * TIE_CONDUCTANCE;
+        if (Math.abs(volt[k]) > Math.abs(volt[worst])) worst = k;
       }
-      const volts = op.nodes[c.nodes[worst]];
+      const volts = volt[worst];
       if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS) continue;
       const sources = g.elements.filter((k) => 'IGF'.includes(c.elements[k].kind));
       const at = sources[0] ?? g.elements[0] ?? 0;
@@ -786,7 +882,7 @@ export class DcSolver {
     }
     const tiedSet = structure.tied.length > 0 ? new Set(structure.tied) : undefined;
     for (let i = 1; i < c.nodes.length; i++) {
-      const volts = op.nodes[c.nodes[i]];
+      const volts = volt[i];
       if (Math.abs(volts) <= IMPLAUSIBLE_VOLTS || tiedSet?.has(i)) continue;
       const touching = c.elements.map((el, k) => (el.nodes.includes(i) ? k : -1)).filter((k) => k >= 0);
       const f = this.elementFinding(

@@ -83,10 +83,13 @@ export class Topology {
   private readonly conductingCache = new Map<number, Attachment[]>();
   readonly nodeIndex = new Map<string, number>();
   readonly elementByName = new Map<string, Element>();
+  /** Element name -> index in `circuit.elements` (the last element of that name, as `elementByName`), for reading a solved point by index. */
+  readonly elementIndex = new Map<string, number>();
 
   constructor(readonly circuit: Circuit) {
     circuit.nodes.forEach((n, i) => this.nodeIndex.set(n, i));
-    for (const e of circuit.elements) {
+    circuit.elements.forEach((e, k) => {
+      this.elementIndex.set(e.name, k);
       this.elementByName.set(e.name, e);
       // A BJT's optional substrate node carries no DC current; leave it out of the incidence.
       const slots = e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
@@ -103,7 +106,7 @@ export class Topology {
         push(this.byCtrl, t.ctrl, t);
         push(this.byCommon, t.common, t);
       }
-    }
+    });
   }
 
   /** Everything connected to a node, capacitors included (callers drop what they do not want). */

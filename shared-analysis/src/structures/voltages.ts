@@ -2,7 +2,9 @@
 
 import { maxOf, minOf } from '../arrays';
 import type { OperatingPoint } from '../solve/types';
-import { polaritySign } from './topology';
+import { polaritySign, topologyOf } from './topology';
+import type { Circuit } from '../circuit';
+import { pointVectors } from '../solve/point';
 import type { DerivedVoltage, Structure } from './types';
 import { nameTable } from '../names';
 
@@ -11,21 +13,35 @@ import { nameTable } from '../names';
  * beyond `from` in the structure's own polarity (above for NPN/NMOS, below for PNP/PMOS).
  * Undefined when a node is missing or not finite.
  */
-export function voltageAt(s: Pick<Structure, 'technology'>, v: DerivedVoltage, nodes: Record<string, number>): number | undefined {
-  const a = nodes[v.node];
+export function voltageAt(s: Pick<Structure, 'technology'>, v: DerivedVoltage, nodes: Record<string, number> | ((name: string) => number | undefined)): number | undefined {
+  const at = typeof nodes === 'function' ? nodes : (name: string) => nodes[name];
+  const a = at(v.node);
   if (a === undefined || !Number.isFinite(a)) return undefined;
   if (v.from === undefined) return a;
-  const b = nodes[v.from];
+  const b = at(v.from);
   if (b === undefined || !Number.isFinite(b)) return undefined;
   return polaritySign(s.technology) * (a - b);
 }
 
-/** Every derived voltage of a structure at one operating point (name -> volts), or undefined when it has none. */
-export function structureVoltages(s: Structure, op: OperatingPoint): Record<string, number> | undefined {
+/**
+ * Every derived voltage of a structure at one operating point (name -> volts), or undefined when it
+ * has none. With the point's `circuit` the voltages are read by node index, without building the
+ * point's name-keyed tables.
+ */
+export function structureVoltages(s: Structure, op: OperatingPoint, circuit?: Circuit): Record<string, number> | undefined {
   if (!s.voltages || s.voltages.length === 0) return undefined;
   const out: Record<string, number> = nameTable();
+  const vec = circuit ? pointVectors(op) : undefined;
+  const index = circuit && vec ? topologyOf(circuit).nodeIndex : undefined;
+  const nodes: Record<string, number> | ((name: string) => number | undefined) =
+    vec && index
+      ? (name) => {
+          const i = index.get(name);
+          return i === undefined ? undefined : vec.volts[i];
+        }
+      : op.nodes;
   for (const v of s.voltages) {
-    const x = voltageAt(s, v, op.nodes);
+    const x = voltageAt(s, v, nodes);
     if (x !== undefined) out[v.name] = x;
   }
   return out;

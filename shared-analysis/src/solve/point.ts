@@ -1,0 +1,78 @@
+// The operating point as vectors indexed by node and element; the name-keyed records are built only when something reads them.
+
+import type { Circuit } from '../circuit';
+import type { DeviceRecord, Fallback, OperatingPoint } from './types';
+
+/**
+ * Index-based access to one solved operating point, for code that reads many values of many
+ * points (corners, measurements, sweeps): no name look-up, no table of every device built.
+ */
+export interface PointVectors {
+  /** Volts by circuit node index (`circuit.nodes`), ground (index 0) included; exactly what `op.nodes` shows. */
+  readonly volts: Float64Array;
+  /** The record of circuit element `e` (what `op.devices[name]` shows), or undefined when the element has none. */
+  record(e: number): DeviceRecord | undefined;
+  /**
+   * One number of element `e`'s record without building the record: a device kind's quantity
+   * (`'ic'`, `'vov'`, ...) or a two-terminal element's `'current'`, `'voltage'` or `'power'`;
+   * undefined when the element has no such number.
+   */
+  value(e: number, quantity: string): number | undefined;
+  /** The region name of a nonlinear device's record, undefined for other elements. */
+  region(e: number): string | undefined;
+}
+
+const vectors = new WeakMap<OperatingPoint, PointVectors>();
+
+/** The vectors behind a point the solver returned, or undefined for a point built by hand (tests) or copied (JSON, another thread). */
+export function pointVectors(op: OperatingPoint): PointVectors | undefined {
+  return vectors.get(op);
+}
+
+/** What reads a point by index: the solver's vectors when the point has them, the name-keyed tables otherwise. */
+export interface PointReader {
+  volts(node: number): number;
+  record(e: number): DeviceRecord | undefined;
+}
+
+/** A reader of `op`, a point of `circuit`: by index when the solver's vectors are there, by name otherwise. */
+export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
+  const v = vectors.get(op);
+  if (v) {
+    const volts = v.volts;
+    return { volts: (node) => (node >= 0 && node < volts.length ? volts[node] : 0), record: (e) => v.record(e) };
+  }
+  const nodes = op.nodes;
+  const devices = op.devices;
+  return {
+    volts: (node) => nodes[circuit.nodes[node]] ?? 0,
+    record: (e) => {
+      const el = circuit.elements[e];
+      return el ? devices[el.name] : undefined;
+    },
+  };
+}
+
+/**
+ * An OperatingPoint whose `nodes` and `devices` tables are built by `build` on first read (and
+ * then kept), with `vectors` registered for `pointVectors`. The tables are ordinary enumerable
+ * properties to every reader: JSON, spreading and structured cloning build and copy them.
+ */
+export function lazyPoint(
+  head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
+  v: PointVectors,
+  build: () => { nodes: Record<string, number>; devices: Record<string, DeviceRecord> },
+): OperatingPoint {
+  const op = { converged: head.converged, temperatureC: head.temperatureC, iterations: head.iterations, fallbacks: head.fallbacks } as OperatingPoint;
+  let built: { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } | undefined;
+  const table = (key: 'nodes' | 'devices') => ({
+    enumerable: true,
+    configurable: true,
+    get: () => (built ??= build())[key],
+    set: (value: unknown) => Object.defineProperty(op, key, { value, writable: true, enumerable: true, configurable: true }),
+  });
+  Object.defineProperty(op, 'nodes', table('nodes'));
+  Object.defineProperty(op, 'devices', table('devices'));
+  vectors.set(op, v);
+  return op;
+}

@@ -1,0 +1,101 @@
+// The operating point as vectors: index reads, lazily built records and index-based measurement agree with the name-keyed tables.
+
+import { describe, expect, it } from 'vitest';
+import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
+import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
+import { measureStructure } from '../../../shared-analysis/src/structures/measure';
+import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
+import { structureVoltages } from '../../../shared-analysis/src/structures/voltages';
+import type { Spec } from './build';
+import { circuit, model } from './build';
+
+const QN = model('QN', 'npn', { IS: 1e-15, BF: 120, VAF: 80 });
+const QP = model('QP', 'pnp', { IS: 2e-15, BF: 80, VAF: 50 });
+const NM = model('NM', 'nmos', { KP: 1e-4, VTO: 0.6, LAMBDA: 0.03 });
+const DD = model('DD', 'd', { IS: 1e-14 });
+
+/** Two NPN mirrors, a PNP mirror and an NMOS mirror on one 5 V rail, with a diode and two sources of each kind: invented values. */
+const SPECS: Spec[] = [
+  ['V', 'VCC', 'vcc', '0', 5],
+  ['R', 'RR1', 'vcc', 'r1', 4.3e3],
+  ['Q', 'QR1', 'r1', 'r1', '0', QN],
+  ['Q', 'QO1', 'o1', 'r1', '0', QN],
+  ['R', 'RL1', 'vcc', 'o1', 2e3],
+  ['R', 'RR2', 'r2', '0', 10e3],
+  ['Q', 'QR2', 'r2', 'r2', 'vcc', QP],
+  ['Q', 'QO2', 'o2', 'r2', 'vcc', QP, { area: 2 }],
+  ['R', 'RL2', 'o2', '0', 1e3],
+  ['I', 'IB', 'vcc', 'g', 50e-6],
+  ['M', 'MR', 'g', 'g', '0', '0', NM, { w: 10e-6, l: 1e-6 }],
+  ['M', 'MO', 'd', 'g', '0', '0', NM, { w: 10e-6, l: 1e-6 }],
+  ['R', 'RD', 'vcc', 'd', 20e3],
+  ['D', 'D1', 'vcc', 'k', DD],
+  ['R', 'RK', 'k', '0', 47e3],
+];
+
+function solved(): { c: ReturnType<typeof circuit>; op: OperatingPoint } {
+  const c = circuit(SPECS);
+  const r = new DcSolver(c).solve();
+  expect(r.op.converged).toBe(true);
+  return { c, op: r.op };
+}
+
+describe('operating point vectors', () => {
+  it('read every node voltage and every record by index, as the name-keyed tables show them', () => {
+    const { c, op } = solved();
+    const v = pointVectors(op)!;
+    expect(v).toBeDefined();
+    c.nodes.forEach((name, i) => expect(v.volts[i]).toBe(op.nodes[name]));
+    c.elements.forEach((el, e) => {
+      expect(v.record(e)).toEqual(op.devices[el.name]);
+      const rec = op.devices[el.name] as unknown as Record<string, unknown>;
+      for (const [k, val] of Object.entries(rec)) {
+        if (typeof val === 'number') expect(v.value(e, k)).toBe(val);
+      }
+      expect(v.region(e)).toBe('region' in rec ? rec.region : undefined);
+    });
+    expect(v.value(0, 'no-such-quantity')).toBeUndefined();
+  });
+
+  it('give a resistor the current Ohm\'s law gives for its solved node voltages', () => {
+    const { c, op } = solved();
+    const v = pointVectors(op)!;
+    const e = c.elements.findIndex((x) => x.name === 'RL1');
+    const [a, b] = c.elements[e].nodes;
+    // Ohm's law, computed here from the solved node voltages.
+    expect(v.value(e, 'current')).toBeCloseTo((v.volts[a] - v.volts[b]) / 2e3, 15);
+  });
+
+  it('build the same tables whether they are read first or after index reads, and copy into JSON whole', () => {
+    const { op } = solved();
+    const copy = JSON.parse(JSON.stringify(op)) as OperatingPoint;
+    expect(Object.keys(copy)).toEqual(['converged', 'temperatureC', 'iterations', 'fallbacks', 'nodes', 'devices']);
+    expect(copy.nodes).toEqual(op.nodes);
+    expect(copy.devices).toEqual(op.devices);
+    expect(structuredClone(op).devices).toEqual(op.devices);
+    // A copy has no vectors; the reader falls back to the names.
+    expect(pointVectors(copy)).toBeUndefined();
+  });
+
+  it('let a caller replace a table', () => {
+    const { op } = solved();
+    op.nodes = { vcc: 1 };
+    expect(op.nodes).toEqual({ vcc: 1 });
+  });
+
+  it('measure every structure by index exactly as from a copied point read by name', () => {
+    const { c, op } = solved();
+    const copy = JSON.parse(JSON.stringify(op)) as OperatingPoint;
+    const structures = recogniseStructures(c);
+    expect(structures.length).toBeGreaterThanOrEqual(3);
+    for (const s of structures) {
+      expect(measureStructure(c, op, s)).toEqual(measureStructure(c, copy, s));
+      expect(structureVoltages(s, op, c)).toEqual(structureVoltages(s, copy));
+    }
+    const byIndex = pointReader(c, op);
+    const byName = pointReader(c, copy);
+    c.elements.forEach((_, e) => expect(byIndex.record(e)).toEqual(byName.record(e)));
+    c.nodes.forEach((_, i) => expect(byIndex.volts(i)).toBe(byName.volts(i)));
+  });
+});
