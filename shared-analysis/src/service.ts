@@ -19,6 +19,7 @@ import type { Finding, Fix, Location, Workspace } from './types';
 import { netlistSeverity } from './checks/netlist';
 import { pushAll } from './arrays';
 import { nameTable } from './names';
+import { clampFindingSpans, keepFinite } from './output-guard';
 
 declare const performance: { now(): number };
 
@@ -114,6 +115,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     pushAll(findings, implausible);
   }
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
+  // Nothing leaves the engine with a range past its document's end or a number that is not finite.
+  clampFindingSpans(findings, elab.documents);
+  const notFinite = keepFinite(findings, { operatingPoint, structures }, input.uri);
+  if (notFinite) findings.push(notFinite);
 
   const analysis: Analysis = {
     uri: input.uri,
@@ -162,6 +167,9 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
     // The corner phase is an addition; a failure leaves the first-phase analysis standing.
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
+  clampFindingSpans(findings, analysis.documents);
+  const notFinite = keepFinite(findings, { structures: analysis.structures }, analysis.uri);
+  if (notFinite) findings.push(notFinite);
   return sortFindings(applySeverities(findings, analysis.options), analysis.uri);
 }
 

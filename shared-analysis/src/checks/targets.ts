@@ -63,7 +63,7 @@ import { topologyOf, type Attachment, type Topology, type Transistor } from '../
 import type { ResolvedOptions } from '../analysis';
 import { parseNumber, splitSuffix } from '../elaborate/units';
 import { seriesTolerance } from '../fixes/e-series';
-import { formatEngineering, formatPercent } from '../fixes/format';
+import { NOISE_FLOOR, formatEngineering, formatPercent } from '../fixes/format';
 import type { OperatingPoint } from '../solve/types';
 import type { Structure } from '../structures/types';
 import type { Card, ElementCard, ParsedDocument } from '../syntax/ast';
@@ -132,7 +132,13 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
   const skip = (): void => {
     while (i < text.length && /\s/.test(text[i])) i++;
   };
-  const at = (start: number, end: number): Span => ({ start: base + start, end: base + Math.max(end, start + 1) });
+  // At least one character where the text has one, never past its end (typing `; expect 1mA ±` at the end of a file).
+  const at = (start: number, end: number): Span => {
+    const hi = text.length;
+    const e = Math.min(Math.max(end, start + 1), hi);
+    const s = Math.max(0, Math.min(start, e > 0 ? e - 1 : 0));
+    return { start: base + s, end: base + e };
+  };
   const example = named ? '`* expect Q2 = 1mA ±5%`' : '`; expect 1mA ±5%`';
 
   let name: string | undefined;
@@ -208,6 +214,15 @@ function parseAnnotation(text: string, base: number, named: boolean, whole: Span
     return {
       problem: {
         message: `A target current must be a positive magnitude (the direction is the element’s own), but \`${numberText}\` is ${read.value === 0 ? 'zero' : 'negative'}.`,
+        span: at(currentStart, currentEnd),
+      },
+    };
+  }
+  if (read.value < NOISE_FLOOR.A) {
+    // Currents below the floor read ≈ 0 A, and the relative error of a subnormal target overflows to ∞.
+    return {
+      problem: {
+        message: `A target current of \`${numberText}\` is below the ${formatEngineering(NOISE_FLOOR.A, { unit: 'A', style: 'display' })} floor that solved currents are resolved to, so it cannot be checked.`,
         span: at(currentStart, currentEnd),
       },
     };

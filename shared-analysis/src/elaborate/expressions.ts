@@ -1001,12 +1001,13 @@ function describeNode(type: string): string {
   return names[type] ?? type;
 }
 
+/** `span` inside the source (`offset`, `length`): at least one character, none past its end (an empty source gives an empty span). */
 function clampSpan(span: Span, offset: number, length: number): Span {
   const lo = offset;
-  const hi = offset + Math.max(length, 1);
-  const start = Math.min(Math.max(span.start, lo), hi - 1);
+  const hi = offset + length;
+  const start = Math.min(Math.max(span.start, lo), Math.max(hi - 1, lo));
   const end = Math.min(Math.max(span.end, start + 1), hi);
-  return { start, end };
+  return { start, end: Math.max(end, start) };
 }
 
 function lowerFirst(s: string): string {

@@ -43,7 +43,9 @@ export function tokenValue(tok: Token, scope: ParamScope, uri: string): ValueRes
     const { source, offset } = expressionOf(tok);
     const r = scope.evaluate(uri, source, offset);
     if (r.ok) return r;
-    return { ok: false, message: r.error.message, span: r.error.span, related: r.error.related, inherited: r.error.inherited };
+    // An error with no text of its own (an empty `{}`, or `{` as the last character of a file) points at the braces.
+    const span = r.error.span.end > r.error.span.start ? r.error.span : tok.span;
+    return { ok: false, message: r.error.message, span, related: r.error.related, inherited: r.error.inherited };
   }
   const n = parseNumber(tok.text);
   if (n.ok) return n;

@@ -5,7 +5,7 @@ import { MODEL_PARAMETERS } from '../devices/parameters';
 import { railsByIndex } from '../structures/rails';
 import type { Card, ParsedDocument } from '../syntax/ast';
 import { LineIndex } from '../syntax/line-index';
-import { nearestDotCard } from '../syntax/parser';
+import { nearestDotCard, parse } from '../syntax/parser';
 import type { Finding, Fix, Span, TextEdit } from '../types';
 
 /** The device kinds a `.model` card can declare with defaults (everything but the resistor model). */
@@ -48,6 +48,13 @@ export function defaultModelCardText(name: string, kind: DefaultedKind): string 
   if (unbounded.length === 0) return card;
   const why = unbounded.includes('VAF') ? 'no Early effect' : 'unbounded';
   return `${card} ; ${unbounded.join(', ')} not given: ${why}`;
+}
+
+/** Whether `cardText`, read as the parser reads a line of a netlist, is one error-free `.model` card named `name`. */
+export function definesModel(cardText: string, name: string): boolean {
+  const doc = parse('qpoint:fix', cardText, { hasTitle: false });
+  const cards = doc.cards.filter((c) => c.kind !== 'comment');
+  return doc.errors.length === 0 && cards.length === 1 && cards[0]!.kind === 'model' && cards[0]!.name.text === name;
 }
 
 /** Short plain numbers for model parameters: `1e-16`, `2e-5`, `100`, `1.11`. */
@@ -130,6 +137,8 @@ export function missingModelFixes(finding: Finding, documents: Record<string, Pa
     if (seen.has(kind)) continue;
     seen.add(kind);
     const text = defaultModelCardText(modelName, kind);
+    // A name the card cannot carry (`q$` reads as `q` and a comment) gets no card that would not define it.
+    if (!definesModel(text, modelName)) continue;
     fixes.push({
       title: `Add a .model card for ${modelName} as ${KIND_DESCRIPTIONS[kind]} with default parameters`,
       edits: [modelInsertionEdit(doc, text)],

@@ -1,0 +1,90 @@
+// The engine's last step before an Analysis leaves it: every range lies inside its document and every
+// number is finite. A producer that breaks either rule is a defect; this keeps the defect from reaching a
+// host as a range past the end of a file, a `null` in JSON or "×Infinity" in a report, and says so in
+// one finding instead.
+
+import type { Finding, Span } from './types';
+import type { ParsedDocument } from './syntax/ast';
+
+/** `span` inside a text of `length` characters: 0 ≤ start ≤ end ≤ length. */
+export function clampSpan(span: Span, length: number): Span {
+  const end = Math.min(Math.max(span.end, 0), length);
+  const start = Math.min(Math.max(span.start, 0), end);
+  return start === span.start && end === span.end ? span : { start, end };
+}
+
+/** Clamps the range of every finding, related location and fix edit to the document it names. */
+export function clampFindingSpans(findings: Finding[], documents: Record<string, ParsedDocument>): void {
+  const lengthOf = (uri: string): number | undefined => documents[uri]?.text.length;
+  for (const f of findings) {
+    const n = lengthOf(f.uri);
+    if (n !== undefined) f.span = clampSpan(f.span, n);
+    for (const r of f.related ?? []) {
+      const m = lengthOf(r.uri);
+      if (m !== undefined) r.span = clampSpan(r.span, m);
+    }
+    for (const fix of f.fixes ?? []) {
+      for (const e of fix.edits) {
+        const m = lengthOf(e.uri);
+        if (m !== undefined) e.span = clampSpan(e.span, m);
+      }
+    }
+  }
+}
+
+/** Most paths one `value-not-finite` finding names. */
+const MAX_PATHS_NAMED = 5;
+
+/**
+ * Removes every number that is not finite from `value` (a property is deleted, an array element
+ * dropped; typed arrays are left alone, they never leave as JSON) and returns the paths removed.
+ * Walks each object once; linear in the size of the data.
+ */
+export function dropNonFinite(value: unknown, path: string, removed: string[], seen = new Set<object>()): void {
+  if (value === null || typeof value !== 'object' || seen.has(value) || ArrayBuffer.isView(value)) return;
+  seen.add(value);
+  if (Array.isArray(value)) {
+    let kept = 0;
+    for (let i = 0; i < value.length; i++) {
+      const v: unknown = value[i];
+      if (typeof v === 'number' && !Number.isFinite(v)) {
+        removed.push(`${path}[${i}]`);
+        continue;
+      }
+      dropNonFinite(v, `${path}[${i}]`, removed, seen);
+      value[kept++] = v;
+    }
+    value.length = kept;
+    return;
+  }
+  const record = value as Record<string, unknown>;
+  for (const key of Object.keys(record)) {
+    const v = record[key];
+    if (typeof v === 'number' && !Number.isFinite(v)) {
+      removed.push(`${path}.${key}`);
+      delete record[key];
+    } else dropNonFinite(v, `${path}.${key}`, removed, seen);
+  }
+}
+
+/**
+ * Drops non-finite numbers from the findings' data and from `parts` (named roots such as the
+ * operating point and the structures). When anything was dropped, returns one `value-not-finite`
+ * finding at the start of `uri` that names what was left out; otherwise undefined.
+ */
+export function keepFinite(findings: readonly Finding[], parts: Record<string, unknown>, uri: string): Finding | undefined {
+  const removed: string[] = [];
+  for (const f of findings) if (f.data) dropNonFinite(f.data, `${f.code}.data`, removed);
+  for (const [name, part] of Object.entries(parts)) dropNonFinite(part, name, removed);
+  if (removed.length === 0) return undefined;
+  const named = removed.slice(0, MAX_PATHS_NAMED).map((p) => `\`${p}\``).join(', ');
+  const more = removed.length > MAX_PATHS_NAMED ? ` and ${removed.length - MAX_PATHS_NAMED} more` : '';
+  return {
+    code: 'value-not-finite',
+    severity: 'warning',
+    message: `qpoint computed ${removed.length === 1 ? 'a value' : `${removed.length} values`} that ${removed.length === 1 ? 'is' : 'are'} not a finite number (${named}${more}); ${removed.length === 1 ? 'it is' : 'they are'} left out of the results. Please report this netlist.`,
+    uri,
+    span: { start: 0, end: 0 },
+    data: { paths: removed.slice(0, 50), count: removed.length },
+  };
+}

@@ -1,0 +1,131 @@
+// What leaves the engine: ranges inside their documents while a person types at the end of a file,
+// finite numbers only (JSON has no NaN or Infinity: JSON.stringify writes null, ECMA-404 / RFC 8259),
+// and quick fixes whose text parses as what they claim to add.
+
+import { describe, expect, it } from 'vitest';
+import { analyse } from '../../shared-analysis/src/service';
+import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
+import { clampSpan, dropNonFinite, keepFinite } from '../../shared-analysis/src/output-guard';
+import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
+import { findingCatalogue } from '../../shared-analysis/src/codes';
+
+const URI = '/w/typing.cir';
+
+function run(text: string) {
+  return analyse({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+}
+
+/** Every range of every finding, related location and fix edit, with what it belongs to. */
+function ranges(findings: Finding[]) {
+  const out: { what: string; uri: string; start: number; end: number }[] = [];
+  for (const f of findings) {
+    out.push({ what: f.code, uri: f.uri, ...f.span });
+    for (const r of f.related ?? []) out.push({ what: `${f.code} related`, uri: r.uri, ...r.span });
+    for (const fix of f.fixes ?? []) for (const e of fix.edits) out.push({ what: `${f.code} fix`, uri: e.uri, ...e.span });
+  }
+  return out;
+}
+
+describe('ranges while typing at the end of a file', () => {
+  // Each netlist is typed character by character; after every keystroke the document ends at the cursor.
+  const typed = [
+    'Divider\nV1 a 0 5\nR1 a b {',
+    'Divider\nV1 a 0 5\nR1 a b {2*',
+    'Sense resistor\nV1 a 0 1\nR1 a 0 10k ; expect 100uA ±',
+    'Sense resistor\nV1 a 0 1\nR1 a 0 10k ; expect 100uA ±5% corners ±',
+    'Mirror\n.param r={',
+    'Mirror\n* expect Q2 = ',
+  ];
+  for (const text of typed) {
+    it(`keeps every range inside the text at each keystroke of ${JSON.stringify(text.slice(text.lastIndexOf('\n') + 1))}`, () => {
+      for (let n = 1; n <= text.length; n++) {
+        const prefix = text.slice(0, n);
+        const a = run(prefix);
+        for (const r of ranges(a.findings)) {
+          expect(r.start >= 0 && r.start <= r.end && r.end <= prefix.length, `${r.what} ${r.start}..${r.end} in ${JSON.stringify(prefix)} (${prefix.length} chars)`).toBe(true);
+        }
+      }
+    });
+  }
+
+  it('points an empty expression at its brace and a cut-off tolerance at its ± sign', () => {
+    const brace = run('Divider\nV1 a 0 5\nR1 a b {');
+    const empty = brace.findings.find((f) => f.code === 'element-value-invalid')!;
+    expect(empty.span).toEqual({ start: 24, end: 25 }); // the `{`, the last character
+    const tol = run('Sense resistor\nV1 a 0 1\nR1 a 0 10k ; expect 100uA ±');
+    const t = tol.findings.find((f) => f.code === 'target-unreadable')!;
+    expect(t.span.end).toBe(tol.documents[URI]!.text.length);
+    expect(tol.documents[URI]!.text.slice(t.span.start, t.span.end)).toBe('±');
+  });
+
+  it('clamps a span to its text', () => {
+    expect(clampSpan({ start: 10, end: 11 }, 10)).toEqual({ start: 10, end: 10 });
+    expect(clampSpan({ start: -3, end: 4 }, 10)).toEqual({ start: 0, end: 4 });
+    expect(clampSpan({ start: 12, end: 9 }, 10)).toEqual({ start: 9, end: 9 });
+  });
+});
+
+describe('finite numbers only', () => {
+  it('refuses a target below the 1 pA floor instead of carrying an infinite error', () => {
+    // (i − t)/t with t = 1e-320 A (subnormal) overflows to Infinity, which JSON writes as null.
+    const a = run('Tiny target\nV1 a 0 5\nR1 a 0 1k ; expect 1e-320A\n');
+    expect(a.findings.map((f) => f.code)).toContain('target-unreadable');
+    expect(a.findings.some((f) => f.code === 'target-missed')).toBe(false);
+    expect(JSON.stringify(a.findings)).not.toContain('null');
+    expect(a.findings.find((f) => f.code === 'target-unreadable')!.message).toMatch(/below the 1 pA floor/);
+  });
+
+  it('drops non-finite numbers from nested data and says where, in one finding', () => {
+    const structures = [{ irefShortcut: NaN, ratio: 2, compliance: { Q2: { low: -Infinity, high: 4.2 } }, steps: [1, Infinity, 3] }];
+    const findings: Finding[] = [{ code: 'target-missed', severity: 'warning', message: 'm', uri: URI, span: { start: 0, end: 1 }, data: { error: Infinity, target: 1e-3 } }];
+    const f = keepFinite(findings, { structures }, URI)!;
+    expect(f.code).toBe('value-not-finite');
+    expect(findingCatalogue()[f.code]).toBeDefined();
+    expect(f.data).toEqual({ paths: ['target-missed.data.error', 'structures[0].irefShortcut', 'structures[0].compliance.Q2.low', 'structures[0].steps[1]'], count: 4 });
+    expect(structures).toEqual([{ ratio: 2, compliance: { Q2: { high: 4.2 } }, steps: [1, 3] }]);
+    expect(findings[0]!.data).toEqual({ target: 1e-3 });
+    // Afterwards the data survives a JSON round trip unchanged.
+    expect(JSON.parse(JSON.stringify(structures))).toEqual(structures);
+    expect(keepFinite(findings, { structures }, URI)).toBeUndefined();
+  });
+
+  it('leaves typed arrays and finite data alone', () => {
+    const removed: string[] = [];
+    const data = { a: new Float64Array([NaN]), b: [0, -0, 1e308], c: { d: 'NaN' } };
+    dropNonFinite(data, 'x', removed);
+    expect(removed).toEqual([]);
+    expect(data.b).toEqual([0, -0, 1e308]);
+  });
+});
+
+describe('quick fixes produce text that parses', () => {
+  it('offers no .model card for a name the card cannot carry', () => {
+    // `q$$` at the end of the line is read as model `q$` (the last `$` opens a comment); a card
+    // `.model q$ d …` would read as `.model q` followed by a comment, defining nothing of that name.
+    const a = run('Clamp\nV1 c 0 5\nD1 c 0 q$$\n');
+    const f = a.findings.find((x) => x.code === 'model-not-found')!;
+    expect(f).toBeDefined();
+    for (const fix of f.fixes ?? []) for (const e of fix.edits) expect(e.newText.startsWith('.model q$ ')).toBe(false);
+  });
+
+  it('applies every .model fix of an ordinary name to a netlist that then defines the model', () => {
+    const text = 'Clamp\nV1 c 0 5\nR1 c a 1k\nD1 a 0 dclamp\nQ1 c a 0 q_2n\n';
+    const a = run(text);
+    const fixes = a.findings.filter((f) => f.code === 'model-not-found').flatMap((f) => f.fixes ?? []).filter((x) => x.edits.some((e) => e.newText.startsWith('.model')));
+    expect(fixes.length).toBeGreaterThanOrEqual(2);
+    for (const fix of fixes) {
+      const e = fix.edits[0]!;
+      const fixed = text.slice(0, e.span.start) + e.newText + text.slice(e.span.end);
+      const b = run(fixed);
+      const name = /^\.model (\S+)/.exec(e.newText)![1]!;
+      expect(b.findings.filter((f) => f.code === 'model-not-found' && f.data?.['modelName'] === name), fix.title).toEqual([]);
+      expect(b.findings.filter((f) => f.code.startsWith('syntax') || f.code === 'model-missing-fields'), fix.title).toEqual([]);
+    }
+  });
+
+  it('checks a card by reading it', () => {
+    expect(definesModel('.model q_2n npn (IS=1e-16)', 'q_2n')).toBe(true);
+    expect(definesModel('.model q$ npn (IS=1e-16)', 'q$')).toBe(false);
+    expect(definesModel('.model q npn (IS=1e-16) ; note', 'q')).toBe(true);
+  });
+});
