@@ -58,13 +58,30 @@ function checkBjt(polarity: 'npn' | 'pnp', vbe: number, vce: number, p: Partial<
 describe('BJT equations (docs/DEVICE-MODELS.md, written out in the test)', () => {
   it('forward-active NPN with Early effect, and its small-signal parameters', () => {
     const q = checkBjt('npn', 0.7, 5, { IS: 1e-15, BF: 150, VAF: 60 }, 'forward-active');
-    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 1 — gm = IC/VT (with the Early factor), rπ = β/gm, ro = VA/IC.
+    // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 1 — gm = IC/VT (with the Early factor), rπ = β/gm, and
+    // ro = (VA + VCB)/IC, the slope of IC = IS·e^(VBE/VT)·(1 + VCB/VA) at the operating point.
     const icc = 1e-15 * Math.exp(0.7 / VT27);
     const early = 1 - (0.7 - 5) / 60;
     expect(q.gm).toBeCloseTo((icc / VT27) * early, 9);
     expect(q.rpi / (150 / (icc / VT27))).toBeCloseTo(1, 9);
-    expect(q.ro / (60 / q.ic)).toBeCloseTo(1, 12);
+    expect(q.ro / ((60 + (5 - 0.7)) / q.ic)).toBeCloseTo(1, 7); // gmin·VCB in IC is the 1e-8 left
     expect(q.roInfinite).toBeUndefined();
+  });
+
+  it('saturated NPN: ro is the slope ∂VCE/∂IC with VBE held, far below VA/IC', () => {
+    // Source: the equations of docs/DEVICE-MODELS.md differentiated here: with BR = 2 and VBC = 0.6 V,
+    // ∂IC/∂VCE = −∂IC/∂VBC = IS·e^(VBC/VT)/VT·(1/qb + 1/BR) + IT/(VA·d) (qb = 1/d, d = 1 − VBC/VA).
+    const q = checkBjt('npn', 0.75, 0.15, { IS: 1e-15, BF: 80, BR: 2, VAF: 60 }, 'saturation');
+    const vbc = 0.75 - 0.15;
+    const d = 1 - vbc / 60;
+    const ibe = 1e-15 * (Math.exp(0.75 / VT27) - 1);
+    const ibc = 1e-15 * (Math.exp(vbc / VT27) - 1);
+    const gbc = (1e-15 * Math.exp(vbc / VT27)) / VT27;
+    const go = gbc * d + gbc / 2 + (ibe - ibc) / 60;
+    expect(q.ro * go).toBeCloseTo(1, 6);
+    expect(q.ro).toBeLessThan(60 / q.ic / 10);
+    // gμ = ∂IB/∂VBC = IS·e^(VBC/VT)/(BR·VT).
+    expect(q.gmu / (gbc / 2)).toBeCloseTo(1, 6);
   });
 
   it('forward-active NPN without Early effect reports ro = 1e30 and roInfinite', () => {

@@ -15,7 +15,7 @@ import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
-import type { Structure } from '../structures/types';
+import type { Structure, StructureOutput } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
@@ -305,18 +305,22 @@ class StructureCheck {
     if (this.bipolar) {
       const beta = p.BF > 0 ? p.BF : 100;
       if (rec && rec.type === 'bjt' && rec.gm > 0) {
-        // The device law IC = IT·(1 − VBC/VA) has the slope IT/VA: ro = (VA + VCB)/IC, VA/IC plus the operating-point term.
-        const va = p.VAF ?? Infinity;
-        const ic = Math.abs(rec.ic);
-        const ro = Number.isFinite(va) && va > 0 && ic > 0 ? Math.min((va - rec.vbc) / ic, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
-        return { gm: rec.gm, ro: ro > 0 ? ro : UNBOUNDED_OHMS, rpi: rec.rpi > 0 ? rec.rpi : beta / rec.gm, beta: rec.rpi > 0 ? rec.gm * rec.rpi : beta };
+        // The record's ro is the slope ∂VCE/∂IC at the operating point: (VA + VCB)/IC in forward-active in
+        // either polarity (the device law IC = IT·(1 − VBC/VA) in its own polarity), the low saturated slope otherwise.
+        const ro = rec.roInfinite || !(rec.ro > 0) ? UNBOUNDED_OHMS : Math.min(rec.ro, UNBOUNDED_OHMS);
+        return { gm: rec.gm, ro, rpi: rec.rpi > 0 ? rec.rpi : beta / rec.gm, beta: rec.rpi > 0 ? rec.gm * rec.rpi : beta, gmb: 0 };
       }
       const gm = i / ((p.NF > 0 ? p.NF : 1) * thermalVolts(this.temperatureC));
-      return { gm, ro: bjtRo(p.VAF ?? Infinity, i), rpi: gm > 0 ? beta / gm : UNBOUNDED_OHMS, beta };
+      return { gm, ro: bjtRo(p.VAF ?? Infinity, i), rpi: gm > 0 ? beta / gm : UNBOUNDED_OHMS, beta, gmb: 0 };
     }
-    if (rec && rec.type === 'mosfet' && rec.gm > 0) return { gm: rec.gm, ro: rec.roInfinite ? UNBOUNDED_OHMS : rec.ro, rpi: Infinity, beta: Infinity };
+    if (rec && rec.type === 'mosfet' && rec.gm > 0) {
+      // Body effect: a source off its bulk node moves VBS with the output (none when the bulk is tied to the source).
+      const el = t.element;
+      const gmb = el.kind === 'M' && el.nodes[3] !== el.nodes[2] && rec.gmbs > 0 ? rec.gmbs : 0;
+      return { gm: rec.gm, ro: rec.roInfinite ? UNBOUNDED_OHMS : rec.ro, rpi: Infinity, beta: Infinity, gmb };
+    }
     const kb = (p.KP > 0 ? p.KP : 2e-5) * t.scale;
-    return { gm: Math.sqrt(2 * kb * Math.max(i, 0)), ro: mosRo(p.LAMBDA ?? 0, i), rpi: Infinity, beta: Infinity };
+    return { gm: Math.sqrt(2 * kb * Math.max(i, 0)), ro: mosRo(p.LAMBDA ?? 0, i), rpi: Infinity, beta: Infinity, gmb: 0 };
   }
 
   /** Resistance of the reference feed seen from the reference node (a current source is ideal). */
@@ -351,10 +355,30 @@ class StructureCheck {
         continue;
       }
       const out = this.smallSignal(o.device, i);
-      const r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(ctx, o, out, i);
+      let r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(ctx, o, out, i);
+      r = this.saturatedBaseLoading(o, out, r, ctx);
       res[o.device] = Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
     }
     return res;
+  }
+
+  /**
+   * A saturated bipolar output whose base sits on the reference node: its forward-biased
+   * base–collector junction (gμ) lets the collector move the shared base line, whose resistance
+   * RB is the diode-connected reference (1/gm1) in parallel with the feed; the base moves by
+   * gμ·ΔV·(RB ∥ rπ) and the collector current by gm times that. Output conductance
+   * go + gm·gμ·(RB ∥ rπ) (node analysis of the hybrid-π model with rμ, Gray, Hurst, Lewis, Meyer,
+   * 5th ed., ch. 1/3; from memory). Active outputs (gμ ≈ 0) are left as the kind computed them.
+   */
+  private saturatedBaseLoading(o: StructureOutput, out: SmallSignal, r: number, ctx: ResistanceContext): number {
+    const rec = this.op?.devices[o.device];
+    if (!rec || rec.type !== 'bjt' || rec.region !== 'saturation' || !(rec.gmu > 0) || !(r > 0) || r >= UNBOUNDED_OHMS) return r;
+    if (this.t(o.device).ctrl !== this.t(this.s.reference.device).ctrl) return r;
+    const q1 = this.smallSignal(this.s.reference.device, ctx.irefOr(0));
+    const par = (a: number, b: number) => (a >= UNBOUNDED_OHMS ? b : b >= UNBOUNDED_OHMS ? a : (a * b) / (a + b));
+    const rb = par(par(q1.gm > 0 ? 1 / q1.gm : UNBOUNDED_OHMS, this.feedOhms()), out.rpi);
+    if (!(rb > 0) || rb >= UNBOUNDED_OHMS) return r;
+    return 1 / (1 / r + out.gm * rec.gmu * rb);
   }
 
   /**

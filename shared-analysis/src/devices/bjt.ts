@@ -289,7 +289,7 @@ const EI = 5;
 const T = 6;
 
 /** Solved quantities, in the record's key order. */
-const QUANTITIES = ['ic', 'ib', 'ie', 'vbe', 'vbc', 'vce', 'gm', 'rpi', 'ro', 'beta'] as const;
+const QUANTITIES = ['ic', 'ib', 'ie', 'vbe', 'vbc', 'vce', 'gm', 'rpi', 'ro', 'beta', 'gmu'] as const;
 const REGIONS: readonly BjtRegion[] = ['forward-active', 'saturation', 'cutoff', 'reverse-active'];
 const Q_IC = 0;
 const Q_IB = 1;
@@ -301,6 +301,7 @@ const Q_GM = 6;
 const Q_RPI = 7;
 const Q_RO = 8;
 const Q_BETA = 9;
+const Q_GMU = 10;
 
 /** `DeviceColumns.flags` bit: the model has no Early effect, so `ro` stands for unbounded. */
 const NO_EARLY = 1;
@@ -571,11 +572,18 @@ export class BjtTable implements DeviceTable {
       v[Q_VCE][i] = vc - ve;
       v[Q_GM][i] = ev[GM];
       v[Q_RPI][i] = reciprocalOrUnbounded(ev[GPI]);
-      v[Q_RO][i] = Number.isFinite(vaf) ? Math.min(UNBOUNDED, Math.abs(ic) > 0 ? vaf / Math.abs(ic) : UNBOUNDED) : UNBOUNDED;
+      // Output resistance as the slope at the operating point with VBE held: ∂IC/∂VCE = −∂IC/∂VBC
+      // (gmin, a solver aid, left out). That is (VAF − VBC)/IC in forward-active and the low
+      // collector–emitter resistance of a saturated device, whatever the polarity.
+      const region = regionCode(vbe, vbc);
+      const go = -(ev[DIC_DVBC] + this.par[i * PARAMS + P_GMIN]);
+      const noEarly = !Number.isFinite(vaf) && region !== 1;
+      v[Q_RO][i] = noEarly || !(go > 1 / UNBOUNDED) ? UNBOUNDED : Math.min(UNBOUNDED, 1 / go);
       const beta = ic / ib;
       v[Q_BETA][i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : UNBOUNDED;
-      out.region[i] = regionCode(vbe, vbc);
-      if (!Number.isFinite(vaf)) out.flags[i] = NO_EARLY;
+      v[Q_GMU][i] = Math.max(ev[DIB_DVBC] - this.par[i * PARAMS + P_GMIN], 0);
+      out.region[i] = region;
+      if (noEarly) out.flags[i] = NO_EARLY;
     }
     return out;
   }
@@ -680,6 +688,7 @@ export const BJT: DeviceKind = deviceKind<Bjt>({
       rpi: v[Q_RPI][i],
       ro: v[Q_RO][i],
       beta: v[Q_BETA][i],
+      gmu: v[Q_GMU][i],
     };
     if (cols.flags[i] & NO_EARLY) rec.roInfinite = true;
     return rec;

@@ -116,7 +116,7 @@ const BULK = 3;
 /** Terminals per instance: drain, gate, source, bulk. */
 const T = 4;
 
-const QUANTITIES = ['id', 'vgs', 'vds', 'vth', 'vov', 'gm', 'ro'] as const;
+const QUANTITIES = ['id', 'vgs', 'vds', 'vth', 'vov', 'gm', 'ro', 'gmbs'] as const;
 const Q_ID = 0;
 const Q_VGS = 1;
 const Q_VDS = 2;
@@ -124,6 +124,7 @@ const Q_VTH = 3;
 const Q_VOV = 4;
 const Q_GM = 5;
 const Q_RO = 6;
+const Q_GMBS = 7;
 /** `DeviceColumns.flags` bit: no channel-length modulation at this point, so `ro` stands for unbounded. */
 const NO_CLM = 1;
 
@@ -311,6 +312,7 @@ export class MosfetTable implements DeviceTable {
       v[Q_VOV][i] = ev[VOV];
       v[Q_GM][i] = ev[GM];
       v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : UNBOUNDED;
+      v[Q_GMBS][i] = ev[GMBS];
       out.region[i] = region;
       if (!(gds > 1 / UNBOUNDED)) out.flags[i] = NO_CLM;
     }
@@ -376,6 +378,7 @@ export const MOSFET: DeviceKind = deviceKind<Mosfet>({
       vov: v[Q_VOV][i],
       gm: v[Q_GM][i],
       ro: v[Q_RO][i],
+      gmbs: v[Q_GMBS][i],
     };
     if (cols.flags[i] & NO_CLM) rec.roInfinite = true;
     return rec;

@@ -18,14 +18,21 @@ export interface BjtRecord {
   vbe: number;
   vbc: number;
   vce: number;
-  /** Small-signal transconductance (S), input resistance (Ω), output resistance (Ω; a large finite cap when VAF is infinite is not used: see `roInfinite`). */
+  /**
+   * Small-signal transconductance (S), input resistance (Ω) and output resistance (Ω): the slope
+   * 1/(∂IC/∂VCE) at the operating point with VBE held, so (VAF − VBC)/IC in forward-active (own
+   * polarity) and the low resistance of the collector–emitter path in saturation. With no Early
+   * voltage in forward-active or cutoff it is 1e30 and `roInfinite` is set.
+   */
   gm: number;
   rpi: number;
   ro: number;
-  /** True when the model has no Early effect and `ro` is reported as 1e30 Ω. */
+  /** True when the model has no Early effect, the device is not saturated, and `ro` is reported as 1e30 Ω. */
   roInfinite?: boolean;
   /** DC current gain IC/IB at this operating point: the model's β at the operating current (high injection, leakage and temperature included). */
   beta: number;
+  /** Base–collector conductance ∂IB/∂VBC (S), own polarity, gmin left out: tiny in forward-active, large in saturation, where it lets the collector move the base. */
+  gmu: number;
 }
 
 export interface MosRecord {
@@ -42,6 +49,8 @@ export interface MosRecord {
   gm: number;
   ro: number;
   roInfinite?: boolean;
+  /** Body transconductance ∂ID/∂VBS (S): the body effect's share of a source-degenerated or cascode output's resistance. */
+  gmbs: number;
 }
 
 export interface DiodeRecord {

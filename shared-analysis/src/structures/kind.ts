@@ -13,6 +13,8 @@ export interface SmallSignal {
   ro: number;
   rpi: number;
   beta: number;
+  /** Body transconductance of a MOSFET whose source is off its bulk node (S; 0 for a BJT, a bulk tied to its source, or no operating point). */
+  gmb: number;
 }
 
 /** What a kind's output-resistance hook may ask the structure check. */

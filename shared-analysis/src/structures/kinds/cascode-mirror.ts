@@ -105,10 +105,10 @@ export const cascodeMirror: KindModule = {
     // base-current change too, which halves the β·ro bound of a cascode with a fixed base bias: ≈ β·ro/2 (checked
     // against the solver in the reference tests).
     if (c.bipolar) return (out.beta * out.ro) / 2;
-    // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + gm4·ro4·ro2 (body effect left out; from memory).
+    // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + (gm4 + gmb4)·ro4·ro2, the body effect of the cascode included (from memory).
     const low = c.withRole('lower-partner');
     const ro2 = low ? c.smallSignal(low, i).ro : out.ro;
-    return ro2 >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro + ro2 + out.gm * out.ro * ro2;
+    return ro2 >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro + ro2 + (out.gm + out.gmb) * out.ro * ro2;
   },
   ratio: (c, o) => geometricRatio(c, o, cascodeMirror.name),
   earlyInFormula: false,

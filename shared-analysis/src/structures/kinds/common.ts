@@ -32,8 +32,8 @@ export function geometricRatio(c: RatioContext, o: StructureOutput, kindName: st
 
 /**
  * Output resistance of a common-emitter (common-source) output: ro, or with an emitter resistor
- * ro·(1 + gm·(R2∥rπ)) + R2∥rπ. Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 3/4 (from memory).
+ * ro·(1 + gm·(R2∥rπ)) + R2∥rπ, with gm + gmb for a MOSFET whose source is off its bulk (body effect). Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 3/4 (from memory).
  */
 export function commonEmitterRo(o: StructureOutput, out: SmallSignal): number {
-  return o.degeneration ? degeneratedRo(out.ro, out.gm, o.degeneration.ohms, out.rpi) : out.ro;
+  return o.degeneration ? degeneratedRo(out.ro, out.gm + out.gmb, o.degeneration.ohms, out.rpi) : out.ro;
 }

@@ -261,12 +261,13 @@ export const degeneratedMirror: KindModule = {
     if (!o.degeneration) return out.ro;
     // Source: Gray et al., ch. 3 — degenerated output with a base-side resistance RB (from memory; node analysis in
     // formulas.ts). RB is the reference side seen from the base node: 1/(gm1 + 1/rπ1) + R1 of the diode-connected
-    // reference with its emitter resistor, in parallel with the feed.
+    // reference with its emitter resistor, in parallel with the feed. A MOSFET's source resistor also moves its
+    // VBS, so gm + gmb takes the place of gm (Razavi, ch. 3, source degeneration with body effect; from memory).
     const par = (a: number, b: number) => (a >= UNBOUNDED_OHMS ? b : b >= UNBOUNDED_OHMS ? a : (a * b) / (a + b));
     const q1 = c.smallSignal(c.s.reference.device, c.irefOr(i));
     const r1 = c.s.reference.degeneration?.ohms ?? 0;
     const diode = q1.gm > 0 ? 1 / (q1.gm + (Number.isFinite(q1.rpi) && q1.rpi > 0 ? 1 / q1.rpi : 0)) + r1 : UNBOUNDED_OHMS;
-    return degeneratedRoWithBase(out.ro, out.gm, o.degeneration.ohms, out.rpi, par(diode, c.feedOhms()));
+    return degeneratedRoWithBase(out.ro, out.gm + out.gmb, o.degeneration.ohms, out.rpi, par(diode, c.feedOhms()));
   },
   ratio: (c, o) => {
     const s = c.s;

@@ -166,7 +166,7 @@ export function analysePtat(h: Hand, iref: number, c: Chain): ChainResult {
 export function loopOutputRo(c: ResistanceContext, o: StructureOutput, out: SmallSignal): number {
   const r = Object.entries(c.s.parts ?? {}).find(([, role]) => role === LOOP_RESISTOR)?.[0];
   const ohms = r ? c.resistance(r) : 0;
-  return ohms > 0 ? degeneratedRo(out.ro, out.gm, ohms, out.rpi) : out.ro;
+  return ohms > 0 ? degeneratedRo(out.ro, out.gm + out.gmb, ohms, out.rpi) : out.ro;
 }
 
 export const ptatCell: KindModule = {

@@ -329,12 +329,12 @@ export const wideSwingCascode: KindModule = {
   requiredRoles: ['cascode', 'lower-partner', 'cascode-bias'],
   analyse,
   outputResistance: (c, o, out, i) => {
-    // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + gm4·ro4·ro2 of a cascode (body effect left out; from memory); with the
+    // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + (gm4 + gmb4)·ro4·ro2 of a cascode, body effect included (from memory); with the
     // bottom device in triode its ro is the triode channel resistance, which the solved record carries.
     const k = c.s.outputs.indexOf(o);
     const partners = c.s.devices.filter((d) => c.s.roles?.[d] === 'lower-partner');
     const ro2 = partners[k] ? c.smallSignal(partners[k], i).ro : out.ro;
-    return ro2 >= 1e30 ? 1e30 : out.ro + ro2 + out.gm * out.ro * ro2;
+    return ro2 >= 1e30 ? 1e30 : out.ro + ro2 + (out.gm + out.gmb) * out.ro * ro2;
   },
   ratio: (c, o) => {
     if (Math.abs(o.ratio - 1) < 1e-9) return undefined;

@@ -118,7 +118,7 @@ export function analyseWilson(h: Hand, iref: number, c: Chain, improved: boolean
  * ch. 4; from memory). MOS by its small-signal loop: the input device Q1 turns the lower diode's
  * voltage change into a gate drive of the output through (ro1 ∥ R_feed):
  * Rout ≈ ro3·(1 + gm3·(gm1/gm2)·(ro1 ∥ R_feed)) (derived as in Gray et al., ch. 4 for the Wilson
- * source; a resistor feed lowers it below gm·ro²).
+ * source; a resistor feed lowers it below gm·ro²), with gm3 + gmb3 when the output's source is off its bulk.
  */
 export function wilsonRo(c: ResistanceContext, out: SmallSignal, i: number, input: string | undefined): number {
   if (c.bipolar) return (out.beta * out.ro) / 2;
@@ -127,7 +127,7 @@ export function wilsonRo(c: ResistanceContext, out: SmallSignal, i: number, inpu
   const q1 = input ? c.smallSignal(input, c.irefOr(i)) : out;
   const q2 = diodeName ? c.smallSignal(diodeName, i) : out;
   const loopR = par(q1.ro, c.feedOhms());
-  return loopR >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro * (1 + out.gm * (q2.gm > 0 ? q1.gm / q2.gm : 1) * loopR);
+  return loopR >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : out.ro * (1 + (out.gm + out.gmb) * (q2.gm > 0 ? q1.gm / q2.gm : 1) * loopR);
 }
 
 export const wilsonMirror: KindModule = {
