@@ -15,6 +15,7 @@ import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value'
 import { resistorValueChange, writtenScale } from './value-edit';
 import { headroomFixes, headroomRequest, headroomRequestOf } from './headroom';
 import { regionChanges } from './verify';
+import { isBipolar } from '../structures/topology';
 import { nameTable } from '../names';
 
 /** The next finer series to fall back on when the chosen one has no value within the target's tolerance. */
@@ -84,7 +85,7 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
   },
   'target-missed': {
     severity: 'warning',
-    summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; when neither meets the target tolerance, the closest value of the next finer series is offered too; the closest is preferred.',
+    summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; when neither meets the target tolerance, the closest value of the next finer series is offered too; the closest that leaves every output in its region is preferred. When the current levels off short of the target, no value is offered and the nearest reachable current is said instead.',
   },
 };
 
@@ -292,9 +293,12 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
     if (!change) continue;
     const side = structure ? regionChanges(circuit, solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element) : { text: '', clean: true };
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
+    // The targeted output itself leaving (or staying out of) its region is said in the title too.
+    const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;
+    const selfText = selfOut && structure ? `; ${selfOut} is ${isBipolar(structure.technology) ? 'saturated' : 'in triode'} there` : '';
     built.push({
       fix: {
-        title: `Set ${r.name} to ${change.text}${change.note} (${o.series}): ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}${side.text}`,
+        title: `Set ${r.name} to ${change.text}${change.note} (${o.series}): ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}${selfText}${side.text}`,
         edits: change.edits,
       },
       error: Math.abs(c.error),

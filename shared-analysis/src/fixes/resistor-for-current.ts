@@ -276,9 +276,19 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
         problem: `No resistance between 1 mΩ and 1 GΩ gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}; the nearest it gets is ${formatEngineering(best.current, { unit: 'A' })}.`,
       };
     }
-    problem = atEdge
-      ? `No resistance between 1 mΩ and 1 GΩ gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}; the nearest it gets is ${formatEngineering(best.current, { unit: 'A' })}.`
-      : `The refinement stopped ${formatPercentPlain(Math.exp(best.g) - 1)} from the target after ${solves} solves; the values offered are the nearest found.`;
+    // Every trial on one side of the target: the current levels off before reaching it (a saturating
+    // output, a load or supply that caps it), so no value of this resistor meets it. Say how far it gets.
+    if (!(lo && hi) && Math.abs(Math.exp(best.g) - 1) > 0.01) {
+      return {
+        ideal,
+        candidates: [],
+        device: deviceName,
+        firstValueFrom,
+        solves,
+        problem: `No value of ${resistor.name} gives ${deviceName} ${formatEngineering(target, { unit: 'A' })}: the nearest reachable is ${formatEngineering(best.current, { unit: 'A' })} (with ${resistor.name} ≈ ${formatEngineering(ideal, { unit: 'Ω' })}), where the current levels off, so something else (a load, the supply, a device leaving its region) limits it.`,
+      };
+    }
+    problem = `The refinement stopped ${formatPercentPlain(Math.exp(best.g) - 1)} from the target after ${solves} solves; the values offered are the nearest found.`;
   }
 
   const standard = standardCandidates(ideal, ctx.series, target, measure);

@@ -153,7 +153,28 @@ RL vcc out 1k
     const usable = (f.fixes ?? []).filter((x) => !x.disabled);
     const reason = (f.fixes ?? []).find((x) => x.disabled)?.disabled;
     expect(usable).toEqual([]);
-    expect(reason).toMatch(/the nearest it gets is [\d.]+ mA/);
+    expect(reason).toMatch(/the nearest (it gets|reachable) is [\d.]+ mA/);
+  });
+
+  it('a target the output cannot reach before the current levels off gets the nearest reachable current, not values far off', () => {
+    // 5 V across a 1 kΩ load caps the output near 5 mA (Ohm's law): 50 mA is out of reach whatever RREF is.
+    const text = `Target past the load's limit
+VCC vcc 0 5
+RREF vcc ref 4.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN ; expect 50mA ±1%
+RL vcc out 1k
+.model QN npn (IS=1e-15 BF=100 VAF=80)
+.end
+`;
+    const a = analyseWithFixes(text);
+    const f = a.findings.find((x) => x.code === 'target-missed')!;
+    expect((f.fixes ?? []).filter((x) => !x.disabled)).toEqual([]);
+    const reason = (f.fixes ?? []).find((x) => x.disabled)?.disabled ?? '';
+    const reach = /the nearest reachable is ([\d.]+) mA/.exec(reason);
+    expect(reach, reason).not.toBeNull();
+    expect(Number(reach![1])).toBeGreaterThan(4.5);
+    expect(Number(reach![1])).toBeLessThanOrEqual(5);
   });
 
   it('the demo mirror: its target fixes say that the saturated output stays saturated', () => {
