@@ -10,6 +10,8 @@ import { formatMeasured } from '../../shared-analysis/src/fixes/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
 import { powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
+import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
+import { derivedVoltageLines, outputWords } from '../../shared-analysis/src/features/structure-words';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapeJsonText } from './escape';
@@ -450,7 +452,7 @@ export function textReport(r: FileResult): string {
       ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
       : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;
     out.push('');
-    out.push(`${s.kind} (${s.technology}) ${s.reference.device} → ${outs}; ${feed}`);
+    out.push(`${capitalised(kindName(s.kind))} (${s.technology.toUpperCase()}) ${s.reference.device}${outs ? ` → ${outs}` : ''}; ${feed}`);
     const est = s.estimate;
     const sol = s.solved;
     const refLine = ['  IREF'.padEnd(12)];
@@ -464,8 +466,10 @@ export function textReport(r: FileResult): string {
       if (s.headroom[o.device] !== undefined) cells.push(`headroom ${volts(s.headroom[o.device])}`);
       const rec = op?.devices[o.device];
       if (rec && 'region' in rec) cells.push(recordIsOff(rec) ? 'off' : rec.region);
+      cells.push(`(${outputWords(s, o)})`);
       out.push(cells.join('  '));
     }
+    for (const line of derivedVoltageLines(s)) out.push(`  ${line}`);
     if (s.discrepancy) out.push(`  note: ${s.discrepancy}`);
     if (s.corners.length) {
       for (const o of s.outputs) {

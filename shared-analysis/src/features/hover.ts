@@ -22,7 +22,8 @@ import { formatNumber, formatPercent, formatQuantity } from './quantity';
 import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';
-import { maxOf, minOf } from '../arrays';
+import { maxOf, minOf, pushAll } from '../arrays';
+import { derivedVoltageLines, outputWords } from './structure-words';
 import { recordIsOff } from '../checks/devices/context';
 
 /** Markdown hover content and the span it describes. */
@@ -233,7 +234,7 @@ function structureSection(s: Structure, device: string): string {
   const lower = device.toLowerCase();
   const isRef = s.reference.device.toLowerCase() === lower;
   const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
-  const role = isRef ? 'reference (diode-connected) device' : out ? `output device (intended ratio ${formatNumber(out.ratio)})` : 'device';
+  const role = isRef ? 'reference (diode-connected) device' : out ? outputWords(s, out) : s.roles?.[device] ? `${s.roles[device].replace(/-/g, ' ')} device` : 'device';
   const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
   const est = s.estimate;
   // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
@@ -263,6 +264,7 @@ function structureSection(s: Structure, device: string): string {
       rows.push(`Across ${spread.length} corners: ${formatQuantity(minOf(vals), 'A')} to ${formatQuantity(maxOf(vals), 'A')}${spread.some((k) => k.outOfRegion.includes(out.device)) ? ' (leaves its active region at some corners)' : ''}`);
     }
   }
+  pushAll(rows, derivedVoltageLines(s));
   if (rows.length) parts.push(bullet(rows));
   if (s.discrepancy) parts.push(`Why estimate and solve differ: ${s.discrepancy}`);
   return parts.join('\n\n');

@@ -9,6 +9,7 @@ import { formatQuantity } from './quantity';
 import { dissipation } from '../checks/devices/power';
 import { maxOf, minOf } from '../arrays';
 import { recordIsOff } from '../checks/devices/context';
+import { derivedVoltageLabel } from './structure-words';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
@@ -30,6 +31,17 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
   const op = analysis.operatingPoint;
   if (!doc || !op) return [];
   const out: InlayHintData[] = [];
+  // The voltages a structure produces (VBG, a VBE multiplier's voltage) ride on its reference device's label.
+  const produced = new Map<string, string>();
+  for (const s of analysis.structures) {
+    const label = derivedVoltageLabel(s);
+    if (label) produced.set(s.reference.device, label);
+  }
+  const labelOf = (el: Element, d: InlayDetail): string | undefined => {
+    const text = labelFor(el, op.devices[el.name], d);
+    const extra = produced.get(el.name);
+    return text !== undefined && extra ? `${text} · ${extra}` : text;
+  };
   const cards = doc.cards;
   // Cards are in document order: skip to the first that can overlap the span.
   let lo = 0;
@@ -45,7 +57,7 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
     if (card.kind !== 'element') continue;
     const elements = elementsOfCard(analysis, uri, card);
     const labelled = elements
-      .map((el) => ({ el, text: labelFor(el, op.devices[el.name], detail) }))
+      .map((el) => ({ el, text: labelOf(el, detail) }))
       .filter((x): x is { el: Element; text: string } => x.text !== undefined);
     if (labelled.length === 0) continue;
     const offset = labelEnd(doc.text, card);
@@ -53,7 +65,7 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
       out.push({ offset, label: labelled[0].text, tooltip: op.converged ? undefined : 'The DC solve did not converge; this is its last iteration.' });
       continue;
     }
-    const tooltip = labelled.map((x) => `${x.el.name}: ${labelFor(x.el, op.devices[x.el.name], 'full')}`).join('\n');
+    const tooltip = labelled.map((x) => `${x.el.name}: ${labelOf(x.el, 'full')}`).join('\n');
     if (labelled.length <= MAX_LISTED_INSTANCES) {
       out.push({ offset, label: labelled.map((x) => `${instancePrefix(x.el).replace(/\.$/, '')}: ${x.text}`).join(' | '), tooltip });
     } else {

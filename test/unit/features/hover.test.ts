@@ -96,7 +96,7 @@ describe('hover on a bipolar mirror', () => {
   it('shows the output transistor with region, currents and the mirror estimate', () => {
     const md = check(mark(MIRROR, 'Q2 out'), {
       spanText: 'Q2',
-      contains: ['forward-active', 'VBE', 'VCE', 'gm', 'rπ', 'ro', 'Simple current mirror', 'output device'],
+      contains: ['forward-active', 'VBE', 'VCE', 'gm', 'rπ', 'ro', 'Simple current mirror', 'this is its mirror output.'],
     });
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — with matched devices and no Early effect
     // IOUT = IREF/(1 + 2/β) with IREF = (VCC − VBE)/RREF; β = BF = 100 (given in the model).

@@ -1,0 +1,58 @@
+// The words every host uses for a structure's outputs and the voltages it produces: hover, inlay hints and the command line's report.
+
+import { outputKindName } from '../structures/catalogue';
+import type { DerivedVoltage, Structure, StructureOutput } from '../structures/types';
+import { formatNumber, formatQuantity } from './quantity';
+
+/** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP/PMOS structures). */
+function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {
+  if (v.from === undefined || v.from === '0') return `on ${v.node}`;
+  const below = s.technology === 'pnp' || s.technology === 'pmos';
+  return `on ${v.node}, ${below ? 'below' : 'above'} ${v.from}`;
+}
+
+/** A temperature coefficient in ppm/°C with its sign and at most four significant figures. */
+export function formatTempco(ppmPerC: number): string {
+  const sign = ppmPerC > 0 ? '+' : ppmPerC < 0 ? '−' : '';
+  return `${sign}${formatNumber(Math.abs(ppmPerC), 3)} ppm/°C`;
+}
+
+/**
+ * One sentence per voltage the structure produces: what it is, where, by hand and solved, its
+ * spread across the corners and its drift (from the cold and hot corners, and by hand where the
+ * kind derives one). Empty when the structure produces none.
+ */
+export function derivedVoltageLines(s: Structure): string[] {
+  return (s.voltages ?? []).map((v) => {
+    const values: string[] = [];
+    if (v.estimate !== undefined) values.push(`hand estimate ${formatQuantity(v.estimate, 'V')}`);
+    if (v.solved !== undefined) values.push(`solved ${formatQuantity(v.solved, 'V')}`);
+    const extra: string[] = [];
+    if (v.cornerRange && v.cornerRange.max > v.cornerRange.min) extra.push(`${formatQuantity(v.cornerRange.min, 'V')} to ${formatQuantity(v.cornerRange.max, 'V')} across the corners`);
+    const drift: string[] = [];
+    if (v.tempcoPpmPerC !== undefined && Number.isFinite(v.tempcoPpmPerC)) drift.push(`${formatTempco(v.tempcoPpmPerC)} from the cold and hot corners`);
+    if (v.tempcoByHandPpmPerC !== undefined && Number.isFinite(v.tempcoByHandPpmPerC)) drift.push(`${formatTempco(v.tempcoByHandPpmPerC)} by hand`);
+    if (drift.length) extra.push(`drift ${drift.join(', ')}`);
+    return `${v.name} (${v.description}) ${placeOf(s, v)}: ${values.length ? values.join(', ') : 'not solved'}${extra.length ? `; ${extra.join('; ')}` : ''}`;
+  });
+}
+
+/** A short label of the voltages a structure produces ("VBG 1.22 V"), solved where it was, else by hand; undefined when none. */
+export function derivedVoltageLabel(s: Structure): string | undefined {
+  const parts = (s.voltages ?? [])
+    .map((v) => {
+      const x = v.solved ?? v.estimate;
+      return x === undefined ? undefined : `${v.name} ${formatQuantity(x, 'V')}`;
+    })
+    .filter((x): x is string => x !== undefined);
+  return parts.length ? parts.join(' · ') : undefined;
+}
+
+/**
+ * What an output is, in words: its kind's output name ("Widlar output", "cascode output"), with
+ * the intended ratio only where there is one ("1:2 simple-mirror output").
+ */
+export function outputWords(s: Pick<Structure, 'kind' | 'outputs'>, o: StructureOutput): string {
+  const name = outputKindName(s, o.device);
+  return Math.abs(o.ratio - 1) > 1e-9 ? `${name}, intended ratio 1:${formatNumber(o.ratio)}` : name;
+}

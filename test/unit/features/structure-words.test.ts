@@ -1,0 +1,86 @@
+// The voltages a structure produces and the kind of each output, said in words in hover, inlay hints and JSON.
+
+import { describe, expect, it } from 'vitest';
+import { hoverAt } from '../../../shared-analysis/src/features/hover';
+import { inlayHints } from '../../../shared-analysis/src/features/inlay';
+import { derivedVoltageLines, formatTempco, outputWords } from '../../../shared-analysis/src/features/structure-words';
+import { analyseText, quantityAfter, withCursor } from './fixture';
+
+/** A VBE multiplier on a 1 mA current source: V = VBE·(1 + R1/R2) across collector and emitter. */
+const MULTIPLIER = `VBE multiplier
+VCC vcc 0 12
+IB vcc c 1m
+R1 c b 4.7k
+R2 b e 2.2k
+Q|1 c b e QN
+VE e 0 2
+.model QN NPN (IS=1e-15 BF=150 VAF=80)
+.end
+`;
+
+/** A simple mirror with a Widlar output and a 1:2 plain output. */
+const MIRROR = `Mirror with a Widlar output
+VCC vcc 0 5
+RREF vcc ref 4.3k
+Q1 ref ref 0 QN
+Q2 a ref e2 QN
+RE e2 0 1k
+Q3 b ref 0 QN 2
+RA vcc a 1k
+RB vcc b 1k
+.model QN NPN (IS=1e-15 BF=100 VAF=80)
+.end
+`;
+
+describe('derived voltages', () => {
+  it('hover on the multiplier shows its voltage by hand and solved, where it is measured and its drift', () => {
+    const { text, offset } = withCursor(MULTIPLIER);
+    const a = analyseText(text, {}, true);
+    const md = hoverAt(a, '/t/main.cir', offset)!.markdown;
+    expect(md).toMatch(/VBE multiplier voltage/);
+    expect(md).toMatch(/on c, above e/);
+    // Source: VBE·(1 + R1/R2) with VBE ≈ 0.7 V at 1 mA (Gray et al., ch. 5, from memory): about 0.71·(1 + 4.7/2.2) ≈ 2.2 V.
+    const solved = quantityAfter(md, 'solved', 'V');
+    expect(solved).toBeGreaterThan(2.0);
+    expect(solved).toBeLessThan(2.45);
+    // A junction voltage falls with temperature (about −2 mV/°C, common practice), so the drift is negative.
+    expect(md).toMatch(/drift −\d[\d.]* ppm\/°C from the cold and hot corners/);
+  });
+
+  it('the inlay label of the multiplier device carries its voltage', () => {
+    const { text } = withCursor(MULTIPLIER);
+    const a = analyseText(text);
+    const hints = inlayHints(a, '/t/main.cir', { start: 0, end: text.length }, 'terse');
+    const q1 = hints.find((h) => text.slice(text.lastIndexOf('\n', h.offset - 1) + 1).startsWith('Q1'))!;
+    expect(q1.label).toMatch(/VCE 2\.\d+ V/);
+  });
+
+  it('JSON carries them as structures[].voltages with the solved value', () => {
+    const { text } = withCursor(MULTIPLIER);
+    const a = analyseText(text);
+    const json = JSON.parse(JSON.stringify(a.structures));
+    expect(json[0].voltages[0]).toMatchObject({ name: 'VCE', node: 'c', from: 'e' });
+    expect(Math.abs(json[0].voltages[0].solved - (a.operatingPoint!.nodes.c - a.operatingPoint!.nodes.e))).toBeLessThan(1e-9);
+    expect(derivedVoltageLines(a.structures[0])[0]).toMatch(/^VCE \(VBE multiplier voltage/);
+  });
+
+  it('tempco text has a sign and no exponent', () => {
+    expect(formatTempco(-2261.4)).toBe('−2260 ppm/°C');
+    expect(formatTempco(52.44)).toBe('+52.4 ppm/°C');
+    expect(formatTempco(0)).toBe('0 ppm/°C');
+  });
+});
+
+describe('the kind of each output in words', () => {
+  it('a degenerated output of a simple mirror is a Widlar output; a 1:2 output says its ratio; a 1:1 says none', () => {
+    const a = analyseText(MIRROR);
+    const s = a.structures[0];
+    const words = Object.fromEntries(s.outputs.map((o) => [o.device, outputWords(s, o)]));
+    expect(words.Q2).toBe('Widlar output');
+    expect(words.Q3).toBe('mirror output, intended ratio 1:2');
+    const at = (name: string) => hoverAt(a, '/t/main.cir', MIRROR.indexOf(`\n${name} `) + 2)!.markdown;
+    expect(at('Q2')).toMatch(/this is its Widlar output\./);
+    expect(at('Q2')).not.toMatch(/intended ratio/);
+    expect(at('Q3')).toMatch(/this is its mirror output, intended ratio 1:2\./);
+  });
+});
