@@ -292,7 +292,15 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
     const conns = connectionsOf(analysis, r.node);
     const shown = conns.slice(0, 12).map((c) => `${c.element.name} (${c.terminal})`);
     const more = conns.length > shown.length ? `, and ${conns.length - shown.length} more` : '';
-    return `${head}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
+    // A voltage a structure produces on this node (a bandgap's VBG, a VBE multiplier's voltage) is said here too.
+    const produced: string[] = [];
+    for (const s of analysis.structures) {
+      const lines = derivedVoltageLines(s);
+      (s.voltages ?? []).forEach((v, k) => {
+        if (v.node === r.name) produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
+      });
+    }
+    return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
   });
   return { markdown: sections.join('\n\n---\n\n'), span: token.span };
 }

@@ -47,6 +47,14 @@ describe('derived voltages', () => {
     expect(md).toMatch(/drift −\d[\d.]* ppm\/°C from the cold and hot corners/);
   });
 
+  it('hover on the node it appears on says the voltage and which structure produces it', () => {
+    const { text } = withCursor(MULTIPLIER);
+    const a = analyseText(text);
+    const md = hoverAt(a, '/t/main.cir', text.indexOf('IB vcc c') + 'IB vcc '.length)!.markdown;
+    expect(md).toMatch(/Node \*\*c\*\*/);
+    expect(md).toMatch(/VCE \(VBE multiplier voltage.*\) on c, above e: hand estimate 2\.\d+ V, solved 2\.\d+ V.* — from the VBE multiplier on Q1/);
+  });
+
   it('the inlay label of the multiplier device carries its voltage', () => {
     const { text } = withCursor(MULTIPLIER);
     const a = analyseText(text);
