@@ -141,6 +141,16 @@ export interface Mosfet extends ElementBase {
   m: number;
 }
 
+/** nodes: [drain, gate, source]. */
+export interface Jfet extends ElementBase {
+  kind: 'J';
+  model: Model;
+  /** Area factor: multiplies BETA and IS. */
+  area: number;
+  /** Parallel count (M=). */
+  m: number;
+}
+
 export type Element =
   | Resistor
   | Capacitor
@@ -153,7 +163,8 @@ export type Element =
   | Ccvs
   | Diode
   | Bjt
-  | Mosfet;
+  | Mosfet
+  | Jfet;
 
 export type ElementKind = Element['kind'];
 

@@ -207,13 +207,13 @@ function implausibleCurrents(ctx: PlausibilityContext): Finding[] {
   const out: Finding[] = [];
   const op = ctx.op!;
   for (const el of ctx.circuit.elements) {
-    if (el.kind !== 'Q' && el.kind !== 'M' && el.kind !== 'D') continue;
+    if (el.kind !== 'Q' && el.kind !== 'M' && el.kind !== 'D' && el.kind !== 'J') continue;
     const limit = powerLimit(el, ctx.options);
     if (limit && limit.from !== 'setting') continue; // a rated power part may carry amperes
     const rec = op.devices[el.name];
     if (!rec) continue;
     // The largest terminal current: a saturated output fed from an overdriven base line carries its amperes in the base.
-    const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : 0;
+    const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' || rec.type === 'jfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : 0;
     if (!(i >= IMPLAUSIBLE_CURRENT_A)) continue;
     const suspects = suspectsNear(ctx, el.nodes);
     const what = el.kind === 'D' ? 'diode' : 'transistor';

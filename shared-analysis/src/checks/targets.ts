@@ -533,7 +533,7 @@ export class TargetIndex {
 export function solvedCurrent(op: OperatingPoint, element: string): number | undefined {
   const rec = op.devices[element];
   if (!rec) return undefined;
-  const value = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  const value = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' || rec.type === 'jfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
   return Number.isFinite(value) ? Math.abs(value) : undefined;
 }
 

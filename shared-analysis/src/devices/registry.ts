@@ -3,10 +3,11 @@
 import { BJT } from './bjt';
 import type { DeviceKind } from './device';
 import { DIODE } from './diode';
+import { JFET } from './jfet';
 import { MOSFET } from './mosfet';
 
 /** Every nonlinear kind, one per element letter. */
-export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET];
+export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET, JFET];
 
 const BY_LETTER = new Map<string, DeviceKind>(DEVICE_KINDS.map((k) => [k.letter, k]));
 

@@ -57,10 +57,11 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nam
   D: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
   Q: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
   M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
+  J: { used: ['AREA', 'M', 'RATEDPOWER'], silent: ['IC', 'TEMP', 'DTEMP'] },
 });
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
-const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 });
+const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3 });
 
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
@@ -574,13 +575,19 @@ class Elaborator {
         break;
       }
       case 'D':
-      case 'Q': {
+      case 'Q':
+      case 'J': {
         const model = this.findModel(card, inst, uri);
         if (!model) return;
         const areaTok = card.area ?? params.get('AREA')?.value;
         const area = areaTok ? this.positiveToken(areaTok, inst, uri, card, 'area factor') : 1;
         const m = this.positive(params.get('M'), inst, uri, card, 'parallel count M');
-        element = card.letter === 'D' ? { name, nodes, origin, kind: 'D', model, area, m } : { name, nodes, origin, kind: 'Q', model, area, m };
+        element =
+          card.letter === 'D'
+            ? { name, nodes, origin, kind: 'D', model, area, m }
+            : card.letter === 'Q'
+              ? { name, nodes, origin, kind: 'Q', model, area, m }
+              : { name, nodes, origin, kind: 'J', model, area, m };
         break;
       }
       case 'M': {
@@ -1197,7 +1204,6 @@ function chooseBin(bins: ModelEntry[], size: { w: number; l: number }): ModelEnt
 
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */
 const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nameTable({
-  J: { one: 'junction FET', many: 'junction FETs', dc: true },
   Z: { one: 'MESFET', many: 'MESFETs', dc: true },
   S: { one: 'voltage-controlled switch', many: 'voltage-controlled switches', dc: true },
   W: { one: 'current-controlled switch', many: 'current-controlled switches', dc: true },
@@ -1251,13 +1257,14 @@ function describeLetter(letter: string): string {
     D: 'a diode',
     Q: 'a bipolar transistor',
     M: 'a MOSFET',
+    J: 'a junction FET',
     X: 'a subcircuit instance',
   };
   return names[letter] ?? 'an element';
 }
 
 function describeKind(kind: string): string {
-  const names: Record<string, string> = { npn: 'an NPN model', pnp: 'a PNP model', d: 'a diode model', nmos: 'an NMOS model', pmos: 'a PMOS model', r: 'a resistor model' };
+  const names: Record<string, string> = { npn: 'an NPN model', pnp: 'a PNP model', d: 'a diode model', nmos: 'an NMOS model', pmos: 'a PMOS model', njf: 'an N-channel JFET model', pjf: 'a P-channel JFET model', r: 'a resistor model' };
   return names[kind] ?? `a ${kind} model`;
 }
 

@@ -10,11 +10,12 @@ import { formatEngineering } from '../fixes/format';
 import { nameTable } from '../names';
 
 /** Type words of a `.model` card, case-insensitive. */
-const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', r: 'r', res: 'r' });
+const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', njf: 'njf', pjf: 'pjf', r: 'r', res: 'r' });
 
 /** The device kinds each element letter accepts. */
-export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'R', ModelKind[]> = {
+export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'J' | 'R', ModelKind[]> = {
   D: ['d'],
+  J: ['njf', 'pjf'],
   Q: ['npn', 'pnp'],
   M: ['nmos', 'pmos'],
   R: ['r'],
@@ -81,6 +82,7 @@ const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = name
   RS: { ok: (v) => v >= 0, must: 'cannot be negative' },
   GAMMA: { ok: (v) => v >= 0, must: 'cannot be negative' },
   LAMBDA: { ok: (v) => v >= 0, must: 'cannot be negative' },
+  BETA: { ok: (v) => v > 0, must: 'must be greater than 0' },
 });
 
 /** Where and how a model card is being elaborated. */
@@ -102,7 +104,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   if (!kind) {
     sink.add(
       'model-unknown-type',
-      `\`${card.type.text}\` is not a device type this analysis reads; a model is NPN, PNP, D, NMOS, PMOS or R.`,
+      `\`${card.type.text}\` is not a device type this analysis reads; a model is NPN, PNP, D, NMOS, PMOS, NJF, PJF or R.`,
       uri,
       card.type.span,
       undefined,

@@ -279,6 +279,8 @@ export function terminalNames(el: Element): string[] {
       return ['collector', 'base', 'emitter', 'substrate'];
     case 'M':
       return ['drain', 'gate', 'source', 'bulk'];
+    case 'J':
+      return ['drain', 'gate', 'source'];
   }
 }
 

@@ -163,6 +163,19 @@ function elementSection(analysis: Analysis, el: Element): string {
         `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}, bulk ${nodeNames[3]}`,
       ]),
     );
+  } else if (rec.type === 'jfet') {
+    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity === 'pjf' ? 'P-channel' : 'N-channel'} JFET)`);
+    const own = rec.polarity === 'pjf' ? -1 : 1;
+    const vov = own * rec.vgs - rec.vto;
+    lines.push(
+      bullet([
+        `ID ${formatQuantity(rec.id, 'A')} (positive into the drain) · IG ${formatQuantity(rec.ig, 'A')}`,
+        `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · pinch-off VTO ${formatQuantity(own * rec.vto, 'V')} · VGS − VTO ${formatQuantity(vov, 'V')}`,
+        vov > 0 ? `|VDS| − (VGS − VTO): ${formatQuantity(Math.abs(rec.vds) - vov, 'V')} (${Math.abs(rec.vds) >= vov ? 'beyond' : 'short of'} the saturation edge)` : 'Pinched off.',
+        `gm ${formatQuantity(rec.gm, 'S')} · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`,
+        `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}`,
+      ]),
+    );
   } else if (rec.type === 'diode') {
     lines.push(`Region: **${regionWord(rec)}**`);
     lines.push(bullet([`ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`, `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`]));
@@ -221,6 +234,8 @@ function describeElement(el: Element): string {
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'M':
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}, W ${formatQuantity(el.w, 'm')}, L ${formatQuantity(el.l, 'm')}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+    case 'J':
+      return `${el.model.kind === 'pjf' ? 'P-channel' : 'N-channel'} JFET, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
   }
 }
 

@@ -96,6 +96,7 @@ function mainCurrent(rec: DeviceRecord | undefined): number | undefined {
     case 'bjt':
       return Math.abs(rec.ic);
     case 'mosfet':
+    case 'jfet':
       return Math.abs(rec.id);
     case 'diode':
       return rec.id;
@@ -106,7 +107,7 @@ function mainCurrent(rec: DeviceRecord | undefined): number | undefined {
 
 function labelFor(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): string | undefined {
   const label = baseLabel(el, rec, detail);
-  if (label === undefined || detail !== 'full' || !(el.kind === 'R' || el.kind === 'D' || el.kind === 'Q' || el.kind === 'M')) return label;
+  if (label === undefined || detail !== 'full' || !(el.kind === 'R' || el.kind === 'D' || el.kind === 'Q' || el.kind === 'M' || el.kind === 'J')) return label;
   const p = dissipation(rec);
   return p === undefined ? label : `${label} · ${formatQuantity(p, 'W')}`;
 }
@@ -121,6 +122,12 @@ function baseLabel(el: Element, rec: DeviceRecord | undefined, detail: InlayDeta
     return region === 'forward-active' ? i : `${i} · ${region}`;
   }
   if (rec.type === 'mosfet') {
+    const i = formatQuantity(Math.abs(rec.id), 'A');
+    const region = recordIsOff(rec) ? 'off' : rec.region;
+    if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${region}`;
+    return region === 'saturation' ? i : `${i} · ${region}`;
+  }
+  if (rec.type === 'jfet') {
     const i = formatQuantity(Math.abs(rec.id), 'A');
     const region = recordIsOff(rec) ? 'off' : rec.region;
     if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${region}`;

@@ -88,7 +88,7 @@ function findElement(circuit: Circuit, name: string): Element | undefined {
 function currentOf(op: OperatingPoint, name: string): number | undefined {
   const rec = op.devices[name];
   if (!rec) return undefined;
-  const v = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  const v = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' || rec.type === 'jfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
   return Number.isFinite(v) ? Math.abs(v) : undefined;
 }
 

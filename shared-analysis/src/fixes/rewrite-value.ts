@@ -84,7 +84,7 @@ function outcomeText(op: OperatingPoint, circuit: Circuit, request: RewriteReque
   if ('device' in request.check) {
     const rec = op.devices[request.check.device];
     if (!rec) return undefined;
-    const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : Math.abs(rec.current);
+    const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' || rec.type === 'jfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : Math.abs(rec.current);
     if (!(i < IMPLAUSIBLE_CURRENT_A)) return undefined;
     return `${request.check.device} then carries ${formatMeasured(i, 'A')}`;
   }

@@ -7,6 +7,9 @@ export type DiodeRegion = 'forward' | 'reverse' | 'breakdown';
 /** MOSFET regions of the square-law model. */
 export type MosRegion = 'saturation' | 'triode' | 'cutoff';
 
+/** JFET regions of the Shichman–Hodges form, as the trade names them. */
+export type JfetRegion = 'saturation' | 'linear' | 'cutoff';
+
 /** Currents are positive flowing into the terminal. */
 export interface BjtRecord {
   type: 'bjt';
@@ -53,6 +56,24 @@ export interface MosRecord {
   gmbs: number;
 }
 
+/** Junction FET: currents positive into the terminal (the source carries −(id + ig)). */
+export interface JfetRecord {
+  type: 'jfet';
+  polarity: 'njf' | 'pjf';
+  region: JfetRegion;
+  /** Drain current (channel minus gate-drain junction current). */
+  id: number;
+  /** Gate current: the two gate junctions' currents (picoamperes when the gate is reverse-biased). */
+  ig: number;
+  vgs: number;
+  vds: number;
+  /** Pinch-off voltage at the analysis temperature, own polarity (negative for a depletion device). */
+  vto: number;
+  gm: number;
+  ro: number;
+  roInfinite?: boolean;
+}
+
 export interface DiodeRecord {
   type: 'diode';
   /** Anode-to-cathode current and voltage (across the whole device including RS). */
@@ -72,7 +93,7 @@ export interface TwoTerminalRecord {
   power: number;
 }
 
-export type DeviceRecord = BjtRecord | MosRecord | DiodeRecord | TwoTerminalRecord;
+export type DeviceRecord = BjtRecord | MosRecord | JfetRecord | DiodeRecord | TwoTerminalRecord;
 
 export type Fallback = 'gmin-stepping' | 'source-stepping';
 

@@ -49,7 +49,7 @@ export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Struct
       const el = topo.elementByName.get(name);
       const type = p.type(name);
       if (!el || !type || el.nodes.length < 2) continue;
-      const through = type === 'diode' ? p.num(name, 'id') : type === 'bjt' || type === 'mosfet' ? 0 : p.num(name, 'current');
+      const through = type === 'diode' ? p.num(name, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(name, 'current');
       if (el.nodes[0] === refNode) iref += finite(through);
       else if (el.nodes[1] === refNode) iref -= finite(through);
     }

@@ -92,11 +92,11 @@ export interface ElementCard extends CardBase {
 }
 
 /** The element letters the solver reads today. */
-export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'X';
+export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'J' | 'X';
 
 /**
  * Letters of the family that are read into cards but not solved yet:
- * - J, Z: nodes[3] (drain, gate, source), model, area? (junction FET, MESFET)
+ * - Z: nodes[3] (drain, gate, source), model, area? (MESFET)
  * - S: nodes[4] (out+, out-, ctrl+, ctrl-), model (voltage-controlled switch)
  * - W: nodes[2], control (controlling V source), model (current-controlled switch)
  * - B: nodes[2], value = the V= or I= expression, params (behavioural source)
@@ -104,7 +104,7 @@ export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' |
  * - T, O, P, Y: nodes (every positional field), params (transmission lines and the like)
  * - U, A, N: nodes (every positional field but the last), model (digital, mixed-signal and model-only devices)
  */
-export type UnsolvedLetter = 'J' | 'Z' | 'S' | 'W' | 'B' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
+export type UnsolvedLetter = 'Z' | 'S' | 'W' | 'B' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
 
 export type ElementLetter = SolvedLetter | UnsolvedLetter;
 

@@ -1139,7 +1139,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       card.params = asgs;
       return card;
     }
-    // Letters read into cards for a later solver; the elaborator leaves them out of the circuit.
+    // J is solved; Z and the letters below are read into cards for a later solver, and the elaborator leaves them out of the circuit.
     case 'J':
     case 'Z': {
       const kept = dropOff(ctx, owner, pos, 3);

@@ -118,6 +118,21 @@ RD2 vcc d2 1k
 `,
     ],
     [
+      'a self-biased N-channel JFET stage and a P-channel JFET current source',
+      `JFET bias: source resistor self-bias and a P-channel current limiter
+VDD vdd 0 15
+RD vdd d 3.3k
+J1 d 0 s JN
+RS s 0 470
+JP2 out src vdd JP
+RSP vdd src 1k
+RL out 0 2.2k
+.model JN njf (VTO=-2 BETA=1.3m LAMBDA=0.01)
+.model JP pjf (VTO=-2.5 BETA=1m LAMBDA=0.02)
+.end
+`,
+    ],
+    [
       'a divider-biased common-emitter stage and an emitter follower',
       `Divider-biased amplifier bias point
 VCC vcc 0 12

@@ -35,7 +35,7 @@ const cells = (extra = ''): string => {
 };
 
 const current = (r: DeviceRecord | undefined): number =>
-  !r ? NaN : r.type === 'bjt' ? r.ic : r.type === 'mosfet' ? r.id : r.type === 'diode' ? r.id : r.current;
+  !r ? NaN : r.type === 'bjt' ? r.ic : r.type === 'mosfet' || r.type === 'jfet' ? r.id : r.type === 'diode' ? r.id : r.current;
 
 describe('affectedBlock', () => {
   // Source: nodal analysis (from memory: any circuit-theory text) — a node held by an ideal voltage

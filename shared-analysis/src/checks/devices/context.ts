@@ -245,6 +245,7 @@ export function recordIsOff(rec: DeviceRecord | undefined): boolean {
   if (!rec) return false;
   if (rec.type === 'bjt') return currentsOff([rec.ic, rec.ib, rec.ie], Math.abs(rec.vbe) + Math.abs(rec.vbc));
   if (rec.type === 'mosfet') return currentsOff([rec.id], Math.abs(rec.vds));
+  if (rec.type === 'jfet') return currentsOff([rec.id, rec.ig], Math.abs(rec.vds) + Math.abs(rec.vgs));
   if (rec.type === 'diode') return currentsOff([rec.id], Math.abs(rec.vd));
   return false;
 }

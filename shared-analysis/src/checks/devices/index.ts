@@ -60,6 +60,7 @@ export const DEVICE_JUDGES: Record<string, DeviceJudge> = nameTable({
   Q: { kind: 'Q', judge: (el, rec, ctx, memory) => el.kind === 'Q' && rec.type === 'bjt' && judgeBjt(el, rec, ctx, memory) },
   M: { kind: 'M', judge: (el, rec, ctx, memory) => el.kind === 'M' && rec.type === 'mosfet' && judgeMosfet(el, rec, ctx, memory) },
   D: { kind: 'D', judge: (el, rec, ctx, memory) => el.kind === 'D' && rec.type === 'diode' && judgeDiode(el, rec, ctx, memory) },
+  J: { kind: 'J' },
   R: { kind: 'R' },
 });
 

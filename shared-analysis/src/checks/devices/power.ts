@@ -24,6 +24,10 @@ export function dissipation(rec: DeviceRecord | undefined): number | undefined {
     case 'diode':
       p = rec.id * rec.vd;
       break;
+    case 'jfet':
+      // ID·VDS + IG·VGS: the source carries −(ID + IG).
+      p = rec.id * rec.vds + rec.ig * rec.vgs;
+      break;
     default:
       p = rec.power;
   }

@@ -1,0 +1,393 @@
+// Junction FET: the Shichman–Hodges form of docs/DEVICE-MODELS.md with gate-source and gate-drain junction diodes and temperature terms, N- and P-channel, source/drain swap, as one table of typed arrays with limiting, stamps and records.
+
+import type { Jfet } from '../circuit';
+import type { JfetRecord, JfetRegion } from '../solve/types';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { allocateColumns, deviceKind } from './device';
+import type { ParamIssue } from './params';
+import { elementParam, modelParam } from './params';
+import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitChannelValue, limitGateValue, limitJunctionValue, saturationCurrentAt } from './physics';
+
+/** Channel parameters of one JFET at the solve's temperature, own polarity. */
+export interface JfetParams {
+  /** BETA·area·M, A/V². */
+  beta: number;
+  /** Pinch-off voltage (negative for a depletion device), own polarity. */
+  vto: number;
+  lambda: number;
+}
+
+/** Channel current (VDS ≥ 0 frame, own polarity) and its derivatives. */
+export interface JfetChannel {
+  id: number;
+  gm: number;
+  gds: number;
+  region: JfetRegion;
+}
+
+/**
+ * Temperature terms (docs/DEVICE-MODELS.md): VTO(T) = VTO + VTOTC·ΔT and
+ * BETA(T) = BETA·1.01^(BETATCE·ΔT). Returns the own-polarity VTO and the factor on BETA.
+ */
+export function jfetTemperature(vto: number, vtotc: number, betatce: number, temperatureC: number, tnomC: number): { vto: number; betaFactor: number } {
+  const dt = temperatureC - tnomC;
+  if (dt === 0) return { vto, betaFactor: 1 };
+  return { vto: vto + vtotc * dt, betaFactor: Math.pow(1.01, betatce * dt) };
+}
+
+const REGIONS: readonly JfetRegion[] = ['saturation', 'linear', 'cutoff'];
+const SATURATION = 0;
+const LINEAR = 1;
+const CUTOFF = 2;
+
+// Slots of the scratch array `jfetCore` fills.
+const ID = 0;
+const GM = 1;
+const GDS = 2;
+
+/**
+ * docs/DEVICE-MODELS.md channel equations for VDS ≥ 0: cutoff when VGS − VTO ≤ 0; saturation
+ * (VDS ≥ VGS − VTO) ID = BETA·(VGS − VTO)²·(1 + LAMBDA·VDS); linear
+ * ID = BETA·VDS·(2·(VGS − VTO) − VDS)·(1 + LAMBDA·VDS). Writes ID, gm, gds into `out` and
+ * returns the region's index in REGIONS.
+ */
+function jfetCore(vgs: number, vds: number, beta: number, vto: number, lambda: number, out: Float64Array): number {
+  const vov = vgs - vto;
+  if (!(vov > 0)) {
+    out[ID] = 0;
+    out[GM] = 0;
+    out[GDS] = 0;
+    return CUTOFF;
+  }
+  const clm = 1 + lambda * vds;
+  if (vds >= vov) {
+    const core = beta * vov * vov;
+    out[ID] = core * clm;
+    out[GM] = 2 * beta * vov * clm;
+    out[GDS] = core * lambda;
+    return SATURATION;
+  }
+  const core = beta * vds * (2 * vov - vds);
+  out[ID] = core * clm;
+  out[GM] = 2 * beta * vds * clm;
+  out[GDS] = 2 * beta * (vov - vds) * clm + core * lambda;
+  return LINEAR;
+}
+
+/** The channel equations at one bias (VDS ≥ 0 frame), for tests and hand checks; the table evaluates the same function in its loop. */
+export function evaluateJfetChannel(vgs: number, vds: number, p: JfetParams): JfetChannel {
+  const s = new Float64Array(3);
+  const region = jfetCore(vgs, vds, p.beta, p.vto, p.lambda, s);
+  return { id: s[ID], gm: s[GM], gds: s[GDS], region: REGIONS[region] };
+}
+
+const D = 0;
+const G = 1;
+const S = 2;
+/** Terminals per instance: drain, gate, source. */
+const T = 3;
+
+const QUANTITIES = ['id', 'ig', 'vgs', 'vds', 'vto', 'gm', 'ro'] as const;
+const Q_ID = 0;
+const Q_IG = 1;
+const Q_VGS = 2;
+const Q_VDS = 3;
+const Q_VTO = 4;
+const Q_GM = 5;
+const Q_RO = 6;
+/** `DeviceColumns.flags` bit: no channel-length modulation at this point, so `ro` stands for unbounded. */
+const NO_CLM = 1;
+
+/**
+ * Every JFET of a circuit. Terminals are [drain, gate, source]; the channel is symmetric, so the
+ * lower-potential end (own polarity) acts as source. The gate-source and gate-drain junctions
+ * are diodes IS·(exp(V/(N·VT)) − 1) with 1 pS across each.
+ */
+export class JfetTable implements DeviceTable {
+  readonly kind: DeviceKind = JFET;
+  private readonly n: number;
+  private readonly sign: Float64Array;
+  private readonly betaNom: Float64Array;
+  private readonly vtoNom: Float64Array;
+  private readonly vtotc: Float64Array;
+  private readonly betatce: Float64Array;
+  private readonly lambda: Float64Array;
+  private readonly isNom: Float64Array;
+  private readonly nEmission: Float64Array;
+  private readonly xti: Float64Array;
+  private readonly eg: Float64Array;
+  private readonly beta: Float64Array;
+  private readonly vto: Float64Array;
+  private readonly is: Float64Array;
+  private readonly nvt: Float64Array;
+  private readonly vcrit: Float64Array;
+  private gmin = 0;
+  private readonly vgsOld: Float64Array;
+  private readonly vdsOld: Float64Array;
+  private readonly startVgs: Float64Array;
+  private readonly startVds: Float64Array;
+  private readonly scratch = new Float64Array(3);
+
+  constructor(readonly instances: DeviceInstances<Jfet>, issues: ParamIssue[]) {
+    const n = (this.n = instances.count);
+    const col = (): Float64Array => new Float64Array(n);
+    this.sign = col();
+    this.betaNom = col();
+    this.vtoNom = col();
+    this.vtotc = col();
+    this.betatce = col();
+    this.lambda = col();
+    this.isNom = col();
+    this.nEmission = col();
+    this.xti = col();
+    this.eg = col();
+    this.beta = col();
+    this.vto = col();
+    this.is = col();
+    this.nvt = col().fill(0.025);
+    this.vcrit = col().fill(0.6);
+    this.vgsOld = col();
+    this.vdsOld = col();
+    this.startVgs = col().fill(Number.NaN);
+    this.startVds = col().fill(Number.NaN);
+    for (let i = 0; i < n; i++) {
+      const element = instances.elements[i];
+      const md = element.model;
+      this.sign[i] = md.kind === 'pjf' ? -1 : 1;
+      const area = elementParam(element, 'AREA', element.area, 'positive', 0, issues);
+      const mult = elementParam(element, 'M', element.m, 'positive', 0, issues);
+      const scale = area * mult;
+      this.betaNom[i] = modelParam(element, md, 'BETA', 'non-negative', issues) * scale;
+      this.vtoNom[i] = modelParam(element, md, 'VTO', 'finite', issues);
+      this.vtotc[i] = modelParam(element, md, 'VTOTC', 'finite', issues);
+      this.betatce[i] = modelParam(element, md, 'BETATCE', 'finite', issues);
+      this.lambda[i] = modelParam(element, md, 'LAMBDA', 'non-negative', issues);
+      this.isNom[i] = modelParam(element, md, 'IS', 'non-negative', issues) * scale;
+      this.nEmission[i] = modelParam(element, md, 'N', 'positive', issues);
+      this.xti[i] = modelParam(element, md, 'XTI', 'finite', issues);
+      this.eg[i] = modelParam(element, md, 'EG', 'finite', issues);
+    }
+    this.beta.set(this.betaNom);
+    this.vto.set(this.vtoNom);
+  }
+
+  /** The channel parameters of instance i at the prepared temperature (own polarity). */
+  modelParams(i: number): JfetParams {
+    return { beta: this.beta[i], vto: this.vto[i], lambda: this.lambda[i] };
+  }
+
+  prepare(c: DeviceConditions): void {
+    this.gmin = c.junctionGmin;
+    for (let i = 0; i < this.n; i++) {
+      const t = jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, c.tnomC);
+      this.beta[i] = this.betaNom[i] * t.betaFactor;
+      this.vto[i] = t.vto;
+      this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+      this.nvt[i] = this.nEmission[i] * c.vt;
+      this.vcrit[i] = criticalVoltage(this.nvt[i], this.is[i]);
+    }
+  }
+
+  resetState(x: Float64Array, start?: StartHint): void {
+    const t = this.instances.terminals;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      this.vgsOld[i] = s * (voltage(x, t[i * T + G]) - vs);
+      this.vdsOld[i] = s * (voltage(x, t[i * T + D]) - vs);
+      this.startVgs[i] = Number.NaN;
+      if (start?.kind !== 'cold') continue;
+      // A depletion device starts with its gate at its source, an enhancement one just above pinch-off; the drain at the edge of saturation, so the first linearisation has a gm.
+      const vgs = Math.max(0, this.vto[i] + 0.5);
+      this.startVgs[i] = vgs;
+      this.startVds[i] = vgs - this.vto[i];
+    }
+  }
+
+  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const ev = this.scratch;
+    const gmin = this.gmin;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      let vgs = s * (voltage(x, t[i * T + G]) - vs);
+      let vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vto = this.vto[i];
+      if (Number.isFinite(this.startVgs[i])) {
+        vgs = this.startVgs[i];
+        vds = this.startVds[i];
+        this.startVgs[i] = Number.NaN;
+        tally.limited = true;
+      } else if (limit) {
+        const vdsIn = vds;
+        const vgsIn = vgs;
+        vds = limitChannelValue(vds, this.vdsOld[i]);
+        const nvt = this.nvt[i];
+        const vcrit = this.vcrit[i];
+        const vgdOld = this.vgsOld[i] - this.vdsOld[i];
+        if (vds >= 0) {
+          // Forward channel: the gate-source voltage steers the channel; both junctions are limited.
+          vgs = limitJunctionValue(limitGateValue(vgs, this.vgsOld[i], vto), this.vgsOld[i], nvt, vcrit);
+          const vgd = limitJunctionValue(vgs - vds, vgdOld, nvt, vcrit);
+          vds = vgs - vgd;
+        } else {
+          // Swapped: the drain acts as source.
+          const vgd = limitJunctionValue(limitGateValue(vgs - vds, vgdOld, vto), vgdOld, nvt, vcrit);
+          vgs = limitJunctionValue(vgd + vds, this.vgsOld[i], nvt, vcrit);
+          vds = vgs - vgd;
+        }
+        if (vds !== vdsIn || vgs !== vgsIn) tally.limited = true;
+      }
+      this.vgsOld[i] = vgs;
+      this.vdsOld[i] = vds;
+      const vgd = vgs - vds;
+      const forward = vds >= 0;
+      const fvgs = forward ? vgs : vgd;
+      const fvds = forward ? vds : -vds;
+      jfetCore(fvgs, fvds, this.beta[i], vto, this.lambda[i], ev);
+      const id = ev[ID];
+      const gm = ev[GM];
+      const gds = ev[GDS];
+      const effD = forward ? D : S;
+      const effS = forward ? S : D;
+      const p = i * T * T;
+      // Channel: current id from effD to effS, linearised in (VG − VeffS) and (VeffD − VeffS).
+      const ieq = id - gm * fvgs - gds * fvds;
+      stampChannelRow(values, rhs, pos, p + effD * T, effS, effD, t[i * T + effD], gm, gds, s * ieq);
+      stampChannelRow(values, rhs, pos, p + effS * T, effS, effD, t[i * T + effS], -gm, -gds, -s * ieq);
+      // Gate junctions: gate (anode) to source and to drain (cathodes).
+      let finite = Number.isFinite(id) && Number.isFinite(gm) && Number.isFinite(gds);
+      const is = this.is[i];
+      const nvt = this.nvt[i];
+      const kg = t[i * T + G];
+      if (!stampGateJunction(values, rhs, pos, p, S, kg, t[i * T + S], vgs, is, nvt, gmin, s)) finite = false;
+      if (!stampGateJunction(values, rhs, pos, p, D, kg, t[i * T + D], vgd, is, nvt, gmin, s)) finite = false;
+      // Robustness conductance across the channel (linear, so no equivalent current).
+      add(values, pos[p + D * T + D], gmin);
+      add(values, pos[p + D * T + S], -gmin);
+      add(values, pos[p + S * T + D], -gmin);
+      add(values, pos[p + S * T + S], gmin);
+      if (!finite) tally.nonFinite.push(this.instances.elementIndex[i]);
+    }
+  }
+
+  evaluate(x: Float64Array): DeviceColumns {
+    const out = allocateColumns(QUANTITIES.length, this.n);
+    const v = out.values;
+    const t = this.instances.terminals;
+    const ev = this.scratch;
+    const gmin = this.gmin;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      const vgs = s * (voltage(x, t[i * T + G]) - vs);
+      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vgd = vgs - vds;
+      const forward = vds >= 0;
+      const region = forward ? jfetCore(vgs, vds, this.beta[i], this.vto[i], this.lambda[i], ev) : jfetCore(vgd, -vds, this.beta[i], this.vto[i], this.lambda[i], ev);
+      const ich = forward ? ev[ID] : -ev[ID];
+      const is = this.is[i];
+      const nvt = this.nvt[i];
+      const igs = is * (guardedExpValue(vgs / nvt) - 1) + gmin * vgs;
+      const igd = is * (guardedExpValue(vgd / nvt) - 1) + gmin * vgd;
+      const gds = ev[GDS];
+      v[Q_ID][i] = s * (ich - igd + gmin * vds);
+      v[Q_IG][i] = s * (igs + igd);
+      v[Q_VGS][i] = s * vgs;
+      v[Q_VDS][i] = s * vds;
+      v[Q_VTO][i] = this.vto[i];
+      v[Q_GM][i] = ev[GM];
+      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : UNBOUNDED;
+      out.region[i] = region;
+      if (!(gds > 1 / UNBOUNDED)) out.flags[i] = NO_CLM;
+    }
+    return out;
+  }
+
+  overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
+    const t = this.instances.terminals;
+    const s = this.sign[i];
+    const vg = voltage(x, t[i * T + G]);
+    const out: OverdrivenJunction[] = [];
+    if (!(this.is[i] > 0)) return out;
+    const vgs = s * (vg - voltage(x, t[i * T + S]));
+    const vgd = s * (vg - voltage(x, t[i * T + D]));
+    if (vgs / this.nvt[i] > EXP_ARG_LIMIT) out.push({ junction: 'gate-source junction', volts: vgs });
+    if (vgd / this.nvt[i] > EXP_ARG_LIMIT) out.push({ junction: 'gate-drain junction', volts: vgd });
+    return out;
+  }
+}
+
+/** One channel row (effective drain or source): gm to (G, effS), gds to (effD, effS), and the equivalent current on unknown `k`; values carry the row's sign. */
+function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, effD: number, k: number, gm: number, gds: number, ieq: number): void {
+  add(values, pos[row + G], gm);
+  add(values, pos[row + effS], -gm);
+  add(values, pos[row + effD], gds);
+  add(values, pos[row + effS], -gds);
+  if (k >= 0) rhs[k] -= ieq;
+}
+
+/** The junction from the gate (anode) to terminal `k` (cathode) at own-polarity voltage v; false when its stamp is not finite. */
+function stampGateJunction(values: Float64Array, rhs: Float64Array, pos: Int32Array, p: number, k: number, kg: number, kk: number, v: number, is: number, nvt: number, gmin: number, s: number): boolean {
+  const xj = v / nvt;
+  const ij = is * (guardedExpValue(xj) - 1) + gmin * v;
+  const gj = (is * guardedExpSlope(xj)) / nvt + gmin;
+  const jeq = s * (ij - gj * v);
+  add(values, pos[p + G * T + G], gj);
+  add(values, pos[p + G * T + k], -gj);
+  add(values, pos[p + k * T + G], -gj);
+  add(values, pos[p + k * T + k], gj);
+  if (kg >= 0) rhs[kg] -= jeq;
+  if (kk >= 0) rhs[kk] += jeq;
+  return Number.isFinite(gj) && Number.isFinite(jeq);
+}
+
+function voltage(x: Float64Array, k: number): number {
+  return k >= 0 ? x[k] : 0;
+}
+
+function add(values: Float64Array, slot: number, v: number): void {
+  if (slot >= 0) values[slot] += v;
+}
+
+/** The JFET kind (element letter J). */
+export const JFET: DeviceKind = deviceKind<Jfet>({
+  letter: 'J',
+  nodeCount: 3,
+  terminalCount: T,
+  quantities: QUANTITIES,
+  regions: REGIONS,
+  internalNodes: () => [],
+  terminals: (el, node) => [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2])],
+  dcPaths: (el) => [
+    [el.nodes[0], el.nodes[2]],
+    [el.nodes[1], el.nodes[2]],
+    [el.nodes[1], el.nodes[0]],
+  ],
+  checkedJunctions: () => [],
+  instanceValues: (el) => [
+    { name: 'area', value: el.area, typical: 1 },
+    { name: 'M', value: el.m, typical: 1 },
+  ],
+  createTable: (instances, issues) => new JfetTable(instances, issues),
+  record(cols, instances, i): JfetRecord {
+    const v = cols.values;
+    const rec: JfetRecord = {
+      type: 'jfet',
+      polarity: instances.elements[i].model.kind === 'pjf' ? 'pjf' : 'njf',
+      region: REGIONS[cols.region[i]],
+      id: v[Q_ID][i],
+      ig: v[Q_IG][i],
+      vgs: v[Q_VGS][i],
+      vds: v[Q_VDS][i],
+      vto: v[Q_VTO][i],
+      gm: v[Q_GM][i],
+      ro: v[Q_RO][i],
+    };
+    if (cols.flags[i] & NO_CLM) rec.roInfinite = true;
+    return rec;
+  },
+  terminalCurrent: (cols, i, t) => (t === D ? cols.values[Q_ID][i] : t === G ? cols.values[Q_IG][i] : t === S ? -cols.values[Q_ID][i] - cols.values[Q_IG][i] : 0),
+});
