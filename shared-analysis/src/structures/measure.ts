@@ -95,7 +95,7 @@ interface MeasureReader {
   region(name: string): string | undefined;
 }
 
-const RECORD_TYPE: Record<string, DeviceRecord['type']> = { Q: 'bjt', M: 'mosfet', D: 'diode' };
+const RECORD_TYPE: Record<string, DeviceRecord['type']> = { Q: 'bjt', M: 'mosfet', D: 'diode', J: 'jfet' };
 
 /**
  * Reads by index when the point carries the solver's vectors (no record and no name-keyed table of
