@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { allocateColumns, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitChannelValue, limitGateValue, limitJunctionValue, saturationCurrentAt } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt } from './physics';
 
 /** Channel parameters of one JFET at the solve's temperature, own polarity. */
 export interface JfetParams {
@@ -223,20 +223,24 @@ export class JfetTable implements DeviceTable {
       } else if (limit) {
         const vdsIn = vds;
         const vgsIn = vgs;
-        vds = limitChannelValue(vds, this.vdsOld[i]);
         const nvt = this.nvt[i];
         const vcrit = this.vcrit[i];
         const vgdOld = this.vgsOld[i] - this.vdsOld[i];
         if (vds >= 0) {
           // Forward channel: the gate-source voltage steers the channel; both junctions are limited.
-          vgs = limitJunctionValue(limitGateValue(vgs, this.vgsOld[i], vto), this.vgsOld[i], nvt, vcrit);
-          const vgd = limitJunctionValue(vgs - vds, vgdOld, nvt, vcrit);
-          vds = vgs - vgd;
+          vgs = limitJunctionValue(limitTurnOff(vgs, this.vgsOld[i], vto), this.vgsOld[i], nvt, vcrit);
+          const vgd = vgs - vds;
+          const vgdLimited = limitJunctionValue(vgd, vgdOld, nvt, vcrit);
+          if (vgdLimited !== vgd) vds = vgs - vgdLimited;
         } else {
           // Swapped: the drain acts as source.
-          const vgd = limitJunctionValue(limitGateValue(vgs - vds, vgdOld, vto), vgdOld, nvt, vcrit);
-          vgs = limitJunctionValue(vgd + vds, this.vgsOld[i], nvt, vcrit);
-          vds = vgs - vgd;
+          const vgdIn = vgs - vds;
+          const vgd = limitJunctionValue(limitTurnOff(vgdIn, vgdOld, vto), vgdOld, nvt, vcrit);
+          const vgsLimited = limitJunctionValue(vgd + vds, this.vgsOld[i], nvt, vcrit);
+          if (vgd !== vgdIn || vgsLimited !== vgs) {
+            vgs = vgsLimited;
+            vds = vgs - vgd;
+          }
         }
         if (vds !== vdsIn || vgs !== vgsIn) tally.limited = true;
       }
@@ -342,6 +346,15 @@ function stampGateJunction(values: Float64Array, rhs: Float64Array, pos: Int32Ar
   if (kg >= 0) rhs[kg] -= jeq;
   if (kk >= 0) rhs[kk] += jeq;
   return Number.isFinite(gj) && Number.isFinite(jeq);
+}
+
+/**
+ * A step of a conducting channel's gate voltage far into cutoff stops half a volt below pinch-off,
+ * so the next iteration still sees the turn-off (the MOS rule of `limitGateValue` for downward
+ * steps; upward steps are left to the gate junction's own limiting).
+ */
+function limitTurnOff(vNew: number, vOld: number, vto: number): number {
+  return vOld > vto && vNew < vto - 0.5 ? vto - 0.5 : vNew;
 }
 
 function voltage(x: Float64Array, k: number): number {

@@ -17,6 +17,9 @@ const PM = model('PM', 'pmos', { KP: 5e-5, VTO: -0.7, LAMBDA: 0.02, GAMMA: 0.3 }
 const DD = model('DD', 'd', { IS: 1e-14, N: 1.5 });
 /** A breakdown voltage inside the test points' range, so the breakdown term's stamp is exercised. */
 const DZ = model('DZ', 'd', { IS: 1e-14, BV: 0.3, IBV: 1e-4, NBV: 1.5 });
+/** JFETs with gate junctions that the test points bias forward and reverse. */
+const JN = model('JN', 'njf', { VTO: -0.5, BETA: 1e-3, LAMBDA: 0.02, IS: 1e-14 });
+const JP = model('JP', 'pjf', { VTO: -0.4, BETA: 5e-4, LAMBDA: 0.01, IS: 1e-14, N: 1.2 });
 
 /** Devices of every kind and polarity on shared nodes (no series resistances, so every row is a netlist node). */
 const MIXED: Spec[] = [
@@ -29,6 +32,8 @@ const MIXED: Spec[] = [
   ['M', 'M3', 'b', 'g', 'a', 'sub', NM],
   ['D', 'D1', 'b', 'e', DD],
   ['D', 'D2', 'e', 'g', DZ, { area: 3 }],
+  ['J', 'J1', 'a', 'b', 'e', JN],
+  ['J', 'J2', 'g', 'e', 'b', JP, { area: 2 }],
   ['R', 'R2', 'e', '0', 1e3],
   ['R', 'R3', 'g', '0', 47e3],
   ['R', 'R4', 'b', '0', 22e3],
