@@ -447,7 +447,7 @@ export function textReport(r: FileResult): string {
   }
   if (a.structures.length === 0) out.push('No mirrors or reference branches recognised.');
   for (const s of a.structures) {
-    const outs = s.outputs.map((o) => (o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device)).join(', ');
+    const outs = s.outputs.map((o) => (typeof o.ratio === 'number' && o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device)).join(', ');
     const feed = s.reference.feed === 'resistor' && s.reference.rail
       ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
       : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;

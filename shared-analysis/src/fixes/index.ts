@@ -91,7 +91,7 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
 
 const BUILDERS: Record<string, FixBuilder> = nameTable({
   'model-not-found': (f, ctx) => missingModelFixes(f, ctx.documents, ctx.circuit),
-  'dot-card-unknown': (f) => misspeltDotCardFixes(f),
+  'dot-card-unknown': (f, ctx) => misspeltDotCardFixes(f, ctx.documents),
   'mirror-unmatched': (f, ctx) => unifyMirrorModelFixes(f, ctx.circuit),
 });
 

@@ -57,6 +57,40 @@ export function definesModel(cardText: string, name: string): boolean {
   return doc.errors.length === 0 && cards.length === 1 && cards[0]!.kind === 'model' && cards[0]!.name.text === name;
 }
 
+/**
+ * Whether inserting `edit` makes a `.model` card named `name` that the parser reads as one: the
+ * card before the insertion point and the inserted text are parsed together (a card read from a
+ * card boundary does not depend on what came earlier), so the cost is that of one card.
+ */
+export function insertedCardDefines(doc: ParsedDocument, edit: TextEdit, name: string): boolean {
+  const at = edit.span.start;
+  // The last card that starts before the insertion point (cards are in document order).
+  let lo = 0;
+  let hi = doc.cards.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (doc.cards[mid]!.span.start < at) lo = mid + 1;
+    else hi = mid;
+  }
+  const before = doc.cards[lo - 1];
+  const from = !before ? 0 : before.kind === 'title' ? Math.min(at, before.span.end) : before.span.start;
+  const local = parse('qpoint:fix', doc.text.slice(from, at) + edit.newText, { hasTitle: false });
+  const cards = local.cards.filter((c) => c.kind !== 'comment');
+  const last = cards[cards.length - 1];
+  return last !== undefined && last.kind === 'model' && last.name.text === name;
+}
+
+/**
+ * Whether the card of `doc` that holds `span`, with `span` replaced by `newText`, reads without a
+ * syntax error (the card alone is parsed, so the cost does not grow with the document).
+ */
+export function editedCardParses(doc: ParsedDocument, span: Span, newText: string): boolean {
+  const card = doc.cards.find((c) => c.span.start <= span.start && span.end <= c.span.end);
+  if (!card) return false;
+  const text = doc.text.slice(card.span.start, span.start) + newText + doc.text.slice(span.end, card.span.end);
+  return parse('qpoint:fix', text, { hasTitle: false }).errors.length === 0;
+}
+
 /** Short plain numbers for model parameters: `1e-16`, `2e-5`, `100`, `1.11`. */
 function formatNumber(value: number): string {
   if (value !== 0 && Math.abs(value) < 1e-3) return value.toExponential().replace('e+', 'e').replace(/\.?0+e/, 'e');
@@ -128,7 +162,7 @@ export function missingModelFixes(finding: Finding, documents: Record<string, Pa
     }
   }
   const suggestion = typeof data['suggestion'] === 'string' ? data['suggestion'] : undefined;
-  if (suggestion && !misspelt) {
+  if (suggestion && !misspelt && editedCardParses(doc, finding.span, suggestion)) {
     fixes.push({ title: `Use model ${suggestion} (did you mean ${suggestion}?)`, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] });
   }
   const seen = new Set<string>();
@@ -139,9 +173,12 @@ export function missingModelFixes(finding: Finding, documents: Record<string, Pa
     const text = defaultModelCardText(modelName, kind);
     // A name the card cannot carry (`q$` reads as `q` and a comment) gets no card that would not define it.
     if (!definesModel(text, modelName)) continue;
+    const edit = modelInsertionEdit(doc, text);
+    // Not where a block the netlist leaves open (`.control` with no `.endc`) would swallow it.
+    if (!insertedCardDefines(doc, edit, modelName)) continue;
     fixes.push({
       title: `Add a .model card for ${modelName} as ${KIND_DESCRIPTIONS[kind]} with default parameters`,
-      edits: [modelInsertionEdit(doc, text)],
+      edits: [edit],
     });
   }
   if (fixes.length > 0) fixes[0].preferred = true;
@@ -158,7 +195,7 @@ function misspeltModelCard(modelName: string, documents: Record<string, ParsedDo
       if (nearestDotCard(command.toLowerCase()) !== '.model') continue;
       const rest = doc.text.slice(card.command.span.end, card.span.end);
       const first = /^\s+([^\s()]+)/.exec(rest)?.[1];
-      if (first && first.toLowerCase() === want) return { uri: doc.uri, span: { ...card.command.span }, command };
+      if (first && first.toLowerCase() === want && editedCardParses(doc, card.command.span, '.model')) return { uri: doc.uri, span: { ...card.command.span }, command };
     }
   }
   return undefined;
@@ -192,10 +229,13 @@ function orderedKinds(kinds: DefaultedKind[], finding: Finding, doc: ParsedDocum
 }
 
 /** The fix for a `dot-card-unknown` finding that carries a near known command (`data.suggestion`): write that command instead. */
-export function misspeltDotCardFixes(finding: Finding): Fix[] {
+export function misspeltDotCardFixes(finding: Finding, documents: Record<string, ParsedDocument>): Fix[] {
   const suggestion = finding.data?.['suggestion'];
   const command = finding.data?.['command'];
   if (typeof suggestion !== 'string' || typeof command !== 'string') return [];
+  // `.paramV9 a 0 1` is near `.param`, but `.param a 0 1` is no parameter card: offer only a card that reads cleanly.
+  const doc = documents[finding.uri];
+  if (!doc || !editedCardParses(doc, finding.span, suggestion)) return [];
   return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] }];
 }
 

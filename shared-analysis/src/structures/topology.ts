@@ -37,12 +37,16 @@ export function asTransistor(e: Element): Transistor | undefined {
     const tech = e.model?.kind;
     if (tech !== 'npn' && tech !== 'pnp') return undefined;
     const scale = positive(e.area, 1) * positive(e.m, 1);
+    // A geometry that overflows (AREA=1e300 M=1e300) gives no ratio to reason with.
+    if (!Number.isFinite(scale)) return undefined;
     return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], scale };
   }
   if (e.kind === 'M') {
     const tech = e.model?.kind;
     if (tech !== 'nmos' && tech !== 'pmos') return undefined;
     const wl = positive(e.w, 1) / positive(e.l, 1);
+    // A subnormal length (L=1e-320) makes W/L infinite: no ratio to reason with.
+    if (!Number.isFinite(wl * positive(e.m, 1))) return undefined;
     return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: e.nodes[3], scale: wl * positive(e.m, 1) };
   }
   return undefined;
