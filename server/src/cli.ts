@@ -9,6 +9,7 @@ import type { Finding, Severity, Workspace } from '../../shared-analysis/src/typ
 import { formatMeasured } from '../../shared-analysis/src/fixes/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
 import { powerTable } from '../../shared-analysis/src/checks/devices/power';
+import { spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
 import { derivedVoltageLines, outputWords } from '../../shared-analysis/src/features/structure-words';
@@ -357,6 +358,7 @@ export function jsonReport(results: FileResult[]): unknown {
         ? { power: powerTable(r.analysis.circuit.elements, r.analysis.operatingPoint.devices, r.analysis.options) }
         : {}),
       ...(r.analysis ? { structures: r.analysis.structures } : {}),
+      ...(r.analysis?.variation ? { variation: r.analysis.variation } : {}),
     })),
   };
 }
@@ -459,6 +461,7 @@ export function textReport(r: FileResult): string {
     if (est) refLine.push(`estimate ${amps(est.iref)}` + (est.irefShortcut !== undefined ? ` (0.7 V shortcut ${amps(est.irefShortcut)})` : ''));
     if (sol) refLine.push(`solved ${amps(sol.iref)}`);
     out.push(refLine.join('  '));
+    if (s.variation?.iref) out.push(`              spread: ${spreadText(s.variation.iref)}`);
     for (const o of s.outputs) {
       const cells = [`  ${o.device}`.padEnd(12)];
       if (est?.iout[o.device] !== undefined) cells.push(`estimate ${amps(est.iout[o.device])}`);
@@ -468,8 +471,11 @@ export function textReport(r: FileResult): string {
       if (rec && 'region' in rec) cells.push(recordIsOff(rec) ? 'off' : rec.region);
       cells.push(`(${outputWords(s, o)})`);
       out.push(cells.join('  '));
+      const v = s.variation?.iout[o.device];
+      if (v) out.push(`              spread: ${spreadText(v)}`);
     }
     for (const line of derivedVoltageLines(s)) out.push(`  ${line}`);
+    for (const v of Object.values(s.variation?.voltages ?? {})) out.push(`              ${v.output} spread: ${spreadText(v)}`);
     if (s.discrepancy) out.push(`  note: ${s.discrepancy}`);
     if (s.corners.length) {
       for (const o of s.outputs) {

@@ -4,6 +4,7 @@ import type { Circuit } from './circuit';
 import type { ParsedDocument } from './syntax/ast';
 import type { OperatingPoint } from './solve/types';
 import type { Structure } from './structures/types';
+import type { VariationResult } from './variation/types';
 import type { Finding, Location, Severity, Span } from './types';
 
 /** IEC 60063 series a resistor fix may pick from. */
@@ -21,6 +22,17 @@ export interface CornerOptions {
   betaLow: number;
   betaHigh: number;
 }
+
+/** The spread analysis of docs/VARIATION.md. */
+export interface VariationOptions {
+  enabled: boolean;
+  /** Resistor tolerance (relative) for a card without `; tol`; absent: the chosen series' tolerance. */
+  resistorTolerance?: number;
+  /** Predicted yield (0…1) below which a target gets `target-yield-low`: 0.997 (±3σ, common practice). */
+  yieldTarget: number;
+}
+
+export const DEFAULT_VARIATION: VariationOptions = { enabled: true, yieldTarget: 0.997 };
 
 /** Per-call analysis settings. Every field is optional; `resolveOptions` fills the defaults. */
 export interface AnalysisOptions {
@@ -41,6 +53,7 @@ export interface AnalysisOptions {
    * (ids as the host's Workspace names files: paths in the CLI, file: URIs in the server).
    */
   includeFolders?: string[];
+  variation?: Partial<VariationOptions>;
 }
 
 /** Default dissipation limits, watts, for parts that do not give their own. */
@@ -62,6 +75,7 @@ export interface ResolvedOptions {
   severities: Record<string, Severity | 'off'>;
   solve: boolean;
   powerLimits: PowerLimits;
+  variation: VariationOptions;
 }
 
 export const DEFAULT_CORNERS: CornerOptions = {
@@ -82,6 +96,7 @@ export function resolveOptions(options: AnalysisOptions = {}): ResolvedOptions {
     severities: options.severities ?? {},
     solve: options.solve ?? true,
     powerLimits: { ...DEFAULT_POWER_LIMITS, ...definedOnly(options.powerLimits) },
+    variation: { ...DEFAULT_VARIATION, ...definedOnly(options.variation), enabled: options.variation?.enabled ?? true },
   };
 }
 
@@ -158,6 +173,8 @@ export interface Analysis {
   findings: Finding[];
   operatingPoint?: OperatingPoint;
   structures: Structure[];
+  /** Spread, drift and supply sensitivity of every output (docs/VARIATION.md), when the nominal point converged. */
+  variation?: VariationResult;
   options: ResolvedOptions;
   /** Milliseconds spent per stage. */
   timings: Record<string, number>;

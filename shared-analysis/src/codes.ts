@@ -10,6 +10,7 @@ import { PLAUSIBILITY_CODES } from './checks/plausibility';
 import { CORNER_CODES } from './checks/corners';
 import { STARTUP_CODES } from './checks/startup';
 import { TARGET_CODES } from './checks/targets';
+import { VARIATION_CODES } from './checks/variation';
 import { FIX_CODES } from './fixes/index';
 import { nameTable } from './names';
 
@@ -39,6 +40,7 @@ export function findingCatalogue(): Record<string, CodeInfo> {
     ['plausibility', PLAUSIBILITY_CODES],
     ['corners', CORNER_CODES],
     ['targets', TARGET_CODES],
+    ['targets', VARIATION_CODES],
     ['fixes', FIX_CODES],
     ['host', HOST_CODES],
   ];

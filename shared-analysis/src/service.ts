@@ -18,6 +18,13 @@ import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Location, Workspace } from './types';
 import { netlistSeverity } from './checks/netlist';
 import { pushAll } from './arrays';
+import type { Circuit } from './circuit';
+import type { Structure } from './structures/types';
+import type { Target } from './checks/targets';
+import { seriesTolerance } from './fixes/e-series';
+import { checkYield } from './checks/variation';
+import { analyseVariation, attachVariation, type VariationDetail } from './variation/index';
+import type { VariationResult } from './variation/types';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
 
@@ -77,6 +84,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let operatingPoint: Analysis['operatingPoint'];
   let solver: DcSolver | undefined;
   let nominal: DcSolveResult | undefined;
+  let variation: VariationResult | undefined;
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
       solver = new DcSolver(circuit);
@@ -98,6 +106,14 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, timed('targets', () =>
           checkTargets({ circuit, op: result.op, structures, targets: targets.targets, options: resolved }),
         ));
+      if (resolved.variation.enabled && result.op.converged) {
+        const detail = timed('variation', () => variationOf(circuit, structures, elab.documents, dc, result, targets.targets, resolved));
+        if (detail) {
+          variation = detail.result;
+          attachVariation(structures, detail.result);
+          pushAll(findings, checkYield(circuit, structures, targets.targets, detail, resolved.variation.yieldTarget));
+        }
+      }
     }
   } else {
     pushAll(findings, analyseStructures({ circuit, op: undefined, structures, options: resolved }));
@@ -130,6 +146,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     findings: capFindings(sortFindings(applySeverities(limitIncludedExcerpts(findings, input.uri, elab.documents, elab.symbols.includes), resolved), input.uri)),
     operatingPoint,
     structures,
+    ...(variation ? { variation } : {}),
     options: resolved,
     timings,
   };
@@ -190,6 +207,35 @@ export function attachAllSizingFixes(session: AnalysisSession): void {
   // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
   if (!solver || !analysis.circuit || !session.nominal) return;
   attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
+}
+
+/** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners). */
+export function variationOf(
+  circuit: Circuit,
+  structures: Structure[],
+  documents: Record<string, ParsedDocument>,
+  solver: DcSolver,
+  nominal: DcSolveResult,
+  targets: Target[],
+  options: ResolvedOptions,
+): VariationDetail | undefined {
+  try {
+    const seriesTol = seriesTolerance(options.resistorSeries);
+    const set = options.variation.resistorTolerance;
+    return analyseVariation({
+      circuit,
+      structures,
+      documents,
+      solver,
+      nominal,
+      targets,
+      settings: { resistorTolerance: set ?? seriesTol, resistorFrom: set !== undefined ? 'setting' : 'series', supplyTolerance: options.corners.supplyTolerance },
+      defaultTargetTolerance: seriesTol,
+    });
+  } catch {
+    // The spread is an addition; a failure leaves the rest of the analysis standing.
+    return undefined;
+  }
 }
 
 /** Findings that do not lie inside one of the inactive ranges. */

@@ -344,7 +344,7 @@ function annotationIn(text: string, bodyStart: number, bodyEnd: number): Annotat
 }
 
 /** End-of-line comments of an element card: each `;` or `$ ` outside the card's tokens, to the end of its line. */
-function endOfLineComments(text: string, card: ElementCard): { start: number; end: number }[] {
+export function endOfLineComments(text: string, card: ElementCard): { start: number; end: number }[] {
   const out: { start: number; end: number }[] = [];
   const tokens = [...card.tokens].sort((a, b) => a.span.start - b.span.start);
   let t = 0;

@@ -46,6 +46,8 @@ const BJT: ModelParameterInfo[] = [
   { name: 'RC', meaning: 'collector resistance', unit: 'Ω', default: 0 },
   ...TEMPERATURE_IS,
   { name: 'XTB', meaning: 'temperature exponent of beta (BF, BR)', unit: '', default: 0 },
+  { name: 'MATCHVBE', meaning: 'σ of the VBE difference of two unit devices at equal current, for the spread analysis (docs/VARIATION.md; 0.5 mV when not given)', unit: 'V' },
+  { name: 'MATCHBF', meaning: 'relative σ of the β difference of two unit devices, for the spread analysis (1 % when not given)', unit: '' },
 ];
 
 const DIODE: ModelParameterInfo[] = [
@@ -76,6 +78,8 @@ const MOS: ModelParameterInfo[] = [
   { name: 'LMAX', meaning: 'longest channel length this bin covers', unit: 'm' },
   { name: 'WMIN', meaning: 'narrowest channel width this bin covers', unit: 'm' },
   { name: 'WMAX', meaning: 'widest channel width this bin covers', unit: 'm' },
+  { name: 'MATCHVT', meaning: 'Pelgrom threshold-mismatch coefficient: σ(ΔVTH) of a pair = MATCHVT/√(W·L), for the spread analysis (docs/VARIATION.md; 5 mV·µm when not given)', unit: 'V·m' },
+  { name: 'MATCHKP', meaning: 'Pelgrom current-factor mismatch coefficient: σ(ΔKP/KP) of a pair = MATCHKP/√(W·L) (1 %·µm when not given)', unit: 'm' },
 ];
 
 const JFET: ModelParameterInfo[] = [

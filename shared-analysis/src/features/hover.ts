@@ -25,6 +25,7 @@ import { dissipation, powerLimit } from '../checks/devices/power';
 import { maxOf, minOf, pushAll } from '../arrays';
 import { derivedVoltageLines, outputWords } from './structure-words';
 import { recordIsOff } from '../checks/devices/context';
+import { spreadText, variationOfElement } from '../variation/text';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -187,6 +188,8 @@ function elementSection(analysis: Analysis, el: Element): string {
     ];
     lines.push(bullet(items));
   }
+  const spread = variationOfElement(analysis, el.name);
+  if (spread) lines.push(`Spread of ${spread.output === 'IREF' ? 'IREF' : 'its current'}: ${spreadText(spread)}`);
   const power = powerLine(analysis, el, rec);
   if (power) lines.push(power);
   for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));

@@ -1,7 +1,7 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
 import type { Circuit, Element } from '../circuit';
-import type { DeviceColumns, DeviceConditions, DeviceKind, StartHint } from '../devices/device';
+import type { DeviceColumns, DeviceConditions, DeviceKind, DeviceTable, StartHint } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { thermalVoltage, UNBOUNDED } from '../devices/physics';
 import { deviceKindOf } from '../devices/registry';
@@ -25,6 +25,21 @@ export { evaluateMos } from '../devices/mosfet';
 export { diodeJunction } from '../devices/diode';
 export { thermalVoltage, saturationCurrentAt } from '../devices/physics';
 export { TOLERANCES, JUNCTION_GMIN } from './newton';
+
+/**
+ * The exact Jacobian of a converged nominal solution, factored: what adjoint sensitivities
+ * need (docs/VARIATION.md). `solveTransposed(c, out)` solves Jᵀ·λ = c on these factors; it is
+ * valid until the solver's next `solve` or `linearise`.
+ */
+export interface Linearisation {
+  layout: MnaLayout;
+  conditions: DeviceConditions;
+  /** The solution the Jacobian was assembled at. */
+  x: Float64Array;
+  /** DC values of the independent sources, aligned with `layout.sources`. */
+  sourceValues: Float64Array;
+  solveTransposed(c: Float64Array, out: Float64Array): Float64Array;
+}
 
 /** One solve's answer: the operating point, what went wrong (located), effort spent, and the raw solution for warm starts. */
 export interface DcSolveResult {
@@ -121,11 +136,17 @@ export class DcSolver {
   private conductanceOverride = new Map<number, number>();
   /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
   private readonly elementSlot: Int32Array;
+  /** The device tables as the netlist gives them; a solve with `deviceParameters` swaps rebuilt ones in for its duration. */
+  private readonly nominalTables: DeviceTable[];
+  private tablesVaried = false;
+  /** Element index -> position in `layout.deviceOrder` (built on first use). */
+  private deviceIndex: Map<number, number> | undefined;
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
+    this.nominalTables = [...this.layout.tables];
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
-    this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b });
+    this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
 
     for (const issue of this.layout.layoutIssues) {
@@ -184,6 +205,7 @@ export class DcSolver {
       betaScale,
       junctionGmin: JUNCTION_GMIN,
     };
+    this.applyDeviceParameters(options.deviceParameters);
     this.engine.prepare(conditions);
     this.applySourceValues(options.sourceValues, findings);
     const cap = options.maxIterations;
@@ -251,6 +273,78 @@ export class DcSolver {
       stats: { iterations, factorizations: this.engine.factorizations - factorizationsBefore, ms: now() - t0 },
       x: out,
     };
+  }
+
+  /**
+   * Assembles and factors the exact Jacobian at a converged solution of this solver, under the
+   * nominal netlist values (no overrides) at the solution's temperature: the basis of adjoint
+   * sensitivities. Undefined when the result did not converge or the Jacobian is singular.
+   */
+  linearise(result: DcSolveResult): Linearisation | undefined {
+    const n = this.layout.size;
+    if (!result.op.converged || result.x.length !== n || n === 0) return undefined;
+    const scratch: Finding[] = [];
+    const plan = this.resolveResistances(undefined, scratch);
+    this.loadLinearValues(this.structure, plan);
+    this.applyDeviceParameters(undefined);
+    const temperatureC = result.op.temperatureC;
+    const conditions: DeviceConditions = {
+      temperatureC,
+      tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
+      vt: thermalVoltage(temperatureC),
+      betaScale: 1,
+      junctionGmin: JUNCTION_GMIN,
+    };
+    this.engine.prepare(conditions);
+    this.applySourceValues(undefined, scratch);
+    if (!this.engine.factorAt(result.x)) return undefined;
+    const engine = this.engine;
+    return {
+      layout: this.layout,
+      conditions,
+      x: result.x,
+      sourceValues: Float64Array.from(engine.sourceValues),
+      solveTransposed: (c, out) => engine.solveTransposed(c, out),
+    };
+  }
+
+  /** Rebuilds the tables of the kinds whose instances get model-parameter overrides (elements copied, models copied), or restores the nominal tables. */
+  private applyDeviceParameters(overrides: Record<string, Record<string, number>> | undefined): void {
+    const tables = this.layout.tables;
+    const names = overrides ? Object.keys(overrides) : [];
+    if (names.length === 0) {
+      if (this.tablesVaried) this.nominalTables.forEach((t, k) => (tables[k] = t));
+      this.tablesVaried = false;
+      return;
+    }
+    const order = this.layout.deviceOrder;
+    if (!this.deviceIndex) {
+      this.deviceIndex = new Map();
+      for (let d = 0; d < order.element.length; d++) this.deviceIndex.set(order.element[d], d);
+    }
+    const byTable = new Map<number, Map<number, Record<string, number>>>();
+    for (const name of names) {
+      const e = this.elementByName.get(name.toLowerCase());
+      const d = e === undefined ? undefined : this.deviceIndex.get(e);
+      if (d === undefined) continue;
+      let rows = byTable.get(order.table[d]);
+      if (!rows) byTable.set(order.table[d], (rows = new Map()));
+      rows.set(order.instance[d], overrides![name]);
+    }
+    this.nominalTables.forEach((nominal, k) => {
+      const rows = byTable.get(k);
+      if (!rows) {
+        tables[k] = nominal;
+        return;
+      }
+      const inst = nominal.instances;
+      const elements = inst.elements.map((el, r) => {
+        const p = rows.get(r);
+        return p && 'model' in el ? { ...el, model: { ...el.model, params: { ...el.model.params, ...p } } } : el;
+      });
+      tables[k] = nominal.kind.createTable({ ...inst, elements }, []);
+    });
+    this.tablesVaried = true;
   }
 
   // ---- continuation methods ----

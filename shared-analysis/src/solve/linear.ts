@@ -19,6 +19,8 @@ export type FactorResult = { ok: true } | { ok: false; /** Row/column (unknown) 
 export interface LinearSolver {
   factor(values: Float64Array): FactorResult;
   solve(b: Float64Array, x?: Float64Array): Float64Array;
+  /** Returns x with Aᵀ·x = b for the last successful factor (the adjoint solve of sensitivity analysis); zeros after a failed one. */
+  solveTranspose(b: Float64Array, x?: Float64Array): Float64Array;
 }
 
 /** Dense LU with partial pivoting over the same interface: a reference for tests and the fallback for tiny systems. */
@@ -75,6 +77,25 @@ export class DenseLU implements LinearSolver {
       for (let j = i + 1; j < n; j++) s -= a[i * n + j] * x[j];
       x[i] = s / a[i * n + i];
     }
+    return x;
+  }
+
+  solveTranspose(b: Float64Array, x: Float64Array = new Float64Array(this.pattern.n)): Float64Array {
+    // P·A = L·U, so Aᵀ = Uᵀ·Lᵀ·P: solve Uᵀ·z = b, then Lᵀ·w = z, then x = Pᵀ·w.
+    const n = this.pattern.n;
+    const a = this.a;
+    const z = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      let s = b[i];
+      for (let j = 0; j < i; j++) s -= a[j * n + i] * z[j];
+      z[i] = s / a[i * n + i];
+    }
+    for (let i = n - 1; i >= 0; i--) {
+      let s = z[i];
+      for (let j = i + 1; j < n; j++) s -= a[j * n + i] * z[j];
+      z[i] = s;
+    }
+    for (let i = 0; i < n; i++) x[this.perm[i]] = z[i];
     return x;
   }
 }

@@ -146,6 +146,39 @@ export class NewtonEngine {
     for (let k = 0; k < x.length; k++) x[k] *= colScale[k];
   }
 
+  /**
+   * Assembles and factors the exact Jacobian of the circuit equations at `x` (no limiting,
+   * full sources, no shunts), for adjoint sensitivities: afterwards `solveTransposed` solves
+   * Jᵀ·λ = c on these factors, as often as there are outputs. False when J is singular.
+   */
+  factorAt(x: Float64Array): boolean {
+    for (const t of this.layout.tables) t.resetState(x);
+    const { values, rhs, layout } = this;
+    values.set(this.linearValues);
+    rhs.fill(0);
+    const tally = this.tally;
+    tally.limited = false;
+    tally.nonFinite.length = 0;
+    for (const t of layout.tables) t.load(x, values, rhs, false, tally);
+    if (tally.nonFinite.length > 0) return false;
+    this.equilibrate();
+    const f = this.solver.factor(this.scaled);
+    this.factorizations++;
+    return f.ok;
+  }
+
+  /**
+   * Solves Jᵀ·λ = c with the equilibrated factors of the last `factorAt`: the factored matrix is
+   * S = R·J·C, so Jᵀ = C⁻¹·Sᵀ·R⁻¹ and λ = R·S⁻ᵀ·(C·c). `out` may not be `c`.
+   */
+  solveTransposed(c: Float64Array, out: Float64Array): Float64Array {
+    const { rowScale, colScale, scaledRhs } = this;
+    for (let k = 0; k < c.length; k++) scaledRhs[k] = c[k] * colScale[k];
+    this.solver.solveTranspose(scaledRhs, out);
+    for (let k = 0; k < out.length; k++) out[k] *= rowScale[k];
+    return out;
+  }
+
   /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis). */
   get lastScaledValues(): Float64Array {
     return this.scaled;

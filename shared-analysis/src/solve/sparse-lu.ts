@@ -321,6 +321,45 @@ export class SparseLU implements LinearSolver {
     return x;
   }
 
+  /**
+   * Solves Aᵀ·x = b with the last successful factorisation (P·A·Q = L·U, so
+   * Aᵀ = Q·Uᵀ·Lᵀ·P): the adjoint solve of sensitivity analysis, on the same factors and
+   * without allocating when `x` is given (it may be `b`). After a failed `factor`, returns zeros.
+   */
+  solveTranspose(b: Float64Array, x: Float64Array = new Float64Array(this.n)): Float64Array {
+    const n = this.n;
+    if (!this.valid) {
+      x.fill(0);
+      return x;
+    }
+    const y = this.work;
+    const q = this.q;
+    for (let k = 0; k < n; k++) y[k] = b[q[k]] ?? 0;
+    // Uᵀ is lower triangular; row k of Uᵀ is column k of U (entries above the diagonal, in pivot positions).
+    const uStart = this.uStart;
+    const uRow = this.uRow;
+    const uVal = this.uVal;
+    const uDiag = this.uDiag;
+    for (let k = 0; k < n; k++) {
+      let s = y[k];
+      for (let p = uStart[k], end = uStart[k + 1]; p < end; p++) s -= uVal[p] * y[uRow[p]];
+      y[k] = s / uDiag[k];
+    }
+    // Lᵀ is unit upper triangular; row k of Lᵀ is column k of L (entries below the diagonal).
+    const lStart = this.lStart;
+    const lRow = this.lRow;
+    const lVal = this.lVal;
+    for (let k = n - 1; k >= 0; k--) {
+      let s = y[k];
+      for (let p = lStart[k], end = lStart[k + 1]; p < end; p++) s -= lVal[p] * y[lRow[p]];
+      y[k] = s;
+    }
+    const rowOf = this.rowOf;
+    for (let k = 0; k < n; k++) x[rowOf[k]] = y[k];
+    y.fill(0);
+    return x;
+  }
+
   private fail(reason: FactorFailure, index: number): FactorResult {
     this.valid = false;
     this.lastFailure = reason;

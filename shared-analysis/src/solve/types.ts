@@ -140,4 +140,11 @@ export interface SolveOptions {
    * Refused entries keep the netlist value and give a located `dc-override-refused` finding.
    */
   resistances?: Record<string, number>;
+  /**
+   * Element name -> model parameters (upper-case name -> value) that this one device uses
+   * instead of its model's, for this solve only: the per-device draws of mismatch and Monte
+   * Carlo (docs/VARIATION.md). The tables of the kinds concerned are rebuilt; the matrix
+   * pattern and its symbolic factorisation are kept. Names that are not devices are ignored.
+   */
+  deviceParameters?: Record<string, Record<string, number>>;
 }

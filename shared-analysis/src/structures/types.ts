@@ -1,5 +1,7 @@
 // Recognised bias structures and their hand analysis, as plain JSON-safe data.
 
+import type { OutputVariation } from '../variation/types';
+
 /** What kind of bias structure was recognised. */
 export type StructureKind =
   /** Diode-connected reference plus one or more outputs sharing its control node (ratioed outputs included). */
@@ -209,6 +211,8 @@ export interface Structure {
   /** Output device -> small-signal output resistance estimate (Ω; 1e30 stands for unbounded). */
   outputResistance: Record<string, number>;
   corners: CornerResult[];
+  /** Predicted spread, drift and supply sensitivity of IREF, each output and each produced voltage (docs/VARIATION.md). */
+  variation?: { iref?: OutputVariation; iout: Record<string, OutputVariation>; voltages?: Record<string, OutputVariation> };
   /** Why estimate and solved values differ by more than a few percent, when they do. */
   discrepancy?: string;
   /** Device -> its role in the structure. */

@@ -1,0 +1,87 @@
+// The quantities whose spread is reported: each structure's reference current, output currents and produced voltages, and every element with a target current, as adjoint output functionals.
+
+import type { Circuit } from '../circuit';
+import { isBipolar, polaritySign, topologyOf } from '../structures/topology';
+import type { Structure } from '../structures/types';
+import type { OutputFunctional, OutputTerm } from './sensitivity';
+
+/** One reported quantity and how it is read from the solution. */
+export interface OutputSpec {
+  /** Unique within one analysis: `structure-id iref`, `structure-id out Q2`, `structure-id voltage VBG`, `element Q2`. */
+  key: string;
+  /** As people read it: `IREF`, `Q2`, `VBG`. */
+  label: string;
+  unit: 'A' | 'V';
+  role: 'iref' | 'iout' | 'voltage' | 'element';
+  structure?: string;
+  /** The element whose current it is (outputs and element currents). */
+  element?: string;
+  functional: OutputFunctional;
+}
+
+/**
+ * The current an element carries, as the target check and the records read it: a BJT's
+ * collector current, a MOSFET's drain current, a diode's forward current, a two-terminal
+ * element's current; as a magnitude.
+ */
+export function elementCurrent(circuit: Circuit, index: number): OutputFunctional | undefined {
+  const el = circuit.elements[index];
+  if (!el) return undefined;
+  if (el.kind === 'Q' || el.kind === 'M' || el.kind === 'D') return { terms: [{ kind: 'terminal', element: index, terminal: 0, weight: 1 }], magnitude: true };
+  if ('RLVIEFGH'.includes(el.kind)) return { terms: [{ kind: 'element', element: index, weight: 1 }], magnitude: true };
+  return undefined;
+}
+
+/** The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage. */
+export function structureOutputs(circuit: Circuit, structures: readonly Structure[]): OutputSpec[] {
+  const topo = topologyOf(circuit);
+  const indexOf = new Map<string, number>();
+  circuit.elements.forEach((e, i) => indexOf.set(e.name, i));
+  const out: OutputSpec[] = [];
+  for (const s of structures) {
+    const refNode = topo.nodeIndex.get(s.reference.node);
+    if (refNode !== undefined) {
+      const terms: OutputTerm[] = [];
+      for (const name of s.devices) {
+        const t = topo.byName.get(name);
+        const i = indexOf.get(name);
+        if (!t || i === undefined) continue;
+        // Currents into the terminals on the reference node (record convention: into the terminal).
+        if (t.out === refNode) terms.push({ kind: 'terminal', element: i, terminal: 0, weight: 1 });
+        if (isBipolar(t.tech)) {
+          if (t.ctrl === refNode) terms.push({ kind: 'terminal', element: i, terminal: 1, weight: 1 });
+          if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
+        } else if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
+      }
+      for (const name of Object.keys(s.parts ?? {})) {
+        const i = indexOf.get(name);
+        if (i === undefined) continue;
+        const el = circuit.elements[i];
+        if (el.nodes.length < 2 || el.kind === 'Q' || el.kind === 'M') continue;
+        const w = el.nodes[0] === refNode ? 1 : el.nodes[1] === refNode ? -1 : 0;
+        if (w === 0) continue;
+        terms.push(el.kind === 'D' ? { kind: 'terminal', element: i, terminal: 0, weight: w } : { kind: 'element', element: i, weight: w });
+      }
+      if (terms.length > 0) out.push({ key: `${s.id} iref`, label: 'IREF', unit: 'A', role: 'iref', structure: s.id, element: s.reference.device, functional: { terms, magnitude: true } });
+    }
+    for (const o of s.outputs) {
+      const i = indexOf.get(o.device);
+      if (i === undefined) continue;
+      out.push({ key: `${s.id} out ${o.device}`, label: o.device, unit: 'A', role: 'iout', structure: s.id, element: o.device, functional: { terms: [{ kind: 'terminal', element: i, terminal: 0, weight: 1 }], magnitude: true } });
+    }
+    for (const v of s.voltages ?? []) {
+      const a = topo.nodeIndex.get(v.node);
+      if (a === undefined) continue;
+      const terms: OutputTerm[] = [];
+      if (v.from === undefined) terms.push({ kind: 'node', node: a, weight: 1 });
+      else {
+        const b = topo.nodeIndex.get(v.from);
+        if (b === undefined) continue;
+        const sign = polaritySign(s.technology);
+        terms.push({ kind: 'node', node: a, weight: sign }, { kind: 'node', node: b, weight: -sign });
+      }
+      out.push({ key: `${s.id} voltage ${v.name}`, label: v.name, unit: 'V', role: 'voltage', structure: s.id, functional: { terms, magnitude: false } });
+    }
+  }
+  return out;
+}

@@ -1,0 +1,157 @@
+// Where the spread comes from: resistor tolerances (written on the card or from the series), supply tolerance, and the mismatch of the devices of each recognised structure (docs/VARIATION.md).
+
+import type { Bjt, Circuit, Element, Mosfet } from '../circuit';
+import { endOfLineComments } from '../checks/targets';
+import type { ElementCard, ParsedDocument } from '../syntax/ast';
+import type { Structure } from '../structures/types';
+import { thermalVoltage } from '../devices/physics';
+import type { VariedParameter } from './sensitivity';
+import { modelValue } from './sensitivity';
+
+/**
+ * Mismatch defaults for a device without its own figure (docs/VARIATION.md; common practice,
+ * from memory): the σ of the difference between two identical unit devices.
+ * - `MATCHVBE`: VBE difference of two BJTs at equal current, 0.5 mV (matched integrated devices;
+ *   separate discrete parts are several mV: set it on their model).
+ * - `MATCHBF`: relative difference of their β, 1 %.
+ * - `MATCHVT`: Pelgrom's A_VT, 5 mV·µm (written in V·m: 5e-9).
+ * - `MATCHKP`: Pelgrom's A_β, 1 %·µm (written in m: 1e-8).
+ */
+export const MISMATCH_DEFAULTS = { MATCHVBE: 0.5e-3, MATCHBF: 0.01, MATCHVT: 5e-9, MATCHKP: 1e-8 } as const;
+
+/** One independent source of spread: a parameter, its nominal value, its σ and its worst-case excursion (both in the parameter's units). */
+export interface ToleranceSource {
+  /** What a designer calls it: `RREF`, `VCC`, `Q1 VBE`, `M2 VTH`. */
+  label: string;
+  /** Contributors with the same group are summed when ranked (the mismatch of one parameter across one structure's devices). */
+  group: string;
+  /** For a mismatch group: the parameter (`VBE`), so the ranked name lists the devices that matter (`Q1/Q2 VBE`). */
+  aspect?: string;
+  element: string;
+  parameter: VariedParameter;
+  nominal: number;
+  sigma: number;
+  /** Worst-case excursion: the tolerance itself, or 3σ for a mismatch figure. */
+  bound: number;
+  /** Where the figure came from. */
+  from: 'card' | 'series' | 'setting' | 'supply' | 'model' | 'default';
+  /** The relative tolerance (resistors and sources) or the σ in its own unit (mismatch), as shown to people. */
+  figure: number;
+}
+
+/** Reads `tol 0.1%` (also `tol=1%`, `tolerance ±2%`) from an element card's end-of-line comments. */
+const TOL = /\btol(?:erance)?\s*[:=]?\s*(?:±|\+\/-|\+-)?\s*([0-9]*\.?[0-9]+(?:e[-+]?\d+)?)\s*%/i;
+
+/** Element card (uri, card start) -> relative tolerance written on it. */
+export function readCardTolerances(documents: Record<string, ParsedDocument>): Map<string, number> {
+  const out = new Map<string, number>();
+  for (const uri of Object.keys(documents)) {
+    const doc = documents[uri];
+    for (const card of doc.cards) {
+      if (card.kind !== 'element') continue;
+      for (const c of endOfLineComments(doc.text, card as ElementCard)) {
+        const m = TOL.exec(doc.text.slice(c.start, c.end));
+        if (!m) continue;
+        const pct = Number(m[1]);
+        if (Number.isFinite(pct) && pct >= 0 && pct < 100) out.set(`${uri}\u0000${card.span.start}`, pct / 100);
+      }
+    }
+  }
+  return out;
+}
+
+/** The tolerance written on an element's card (every instance of a subcircuit card shares it). */
+export function cardTolerance(tolerances: Map<string, number>, el: Element): number | undefined {
+  return tolerances.get(`${el.origin.uri}\u0000${el.origin.span.start}`);
+}
+
+export interface SourceSettings {
+  /** Resistor tolerance when the card gives none (relative). */
+  resistorTolerance: number;
+  /** Whether that figure is the series default or an explicit setting. */
+  resistorFrom: 'series' | 'setting';
+  /** Relative tolerance of every voltage source (the supply tolerance of the corners). */
+  supplyTolerance: number;
+}
+
+/** Every independent source of spread of a circuit. */
+export function toleranceSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): ToleranceSource[] {
+  const out: ToleranceSource[] = [];
+  const index = new Map<string, number>();
+  circuit.elements.forEach((el, i) => index.set(el.name, i));
+  circuit.elements.forEach((el, i) => {
+    if (el.kind === 'R') {
+      const r = el.resistance;
+      if (!(Number.isFinite(r) && r > 0)) return;
+      const written = cardTolerance(tolerances, el);
+      const tol = written ?? settings.resistorTolerance;
+      if (!(tol > 0)) return;
+      out.push({ label: el.name, group: el.name, element: el.name, parameter: { kind: 'resistance', element: i }, nominal: r, sigma: (tol * r) / 3, bound: tol * r, from: written !== undefined ? 'card' : settings.resistorFrom, figure: tol });
+    } else if (el.kind === 'V' || el.kind === 'I') {
+      const v = el.dc;
+      if (!(Number.isFinite(v) && v !== 0)) return;
+      const written = cardTolerance(tolerances, el);
+      // A current source stands for a reference the designer gives; it spreads only when its card says so.
+      const tol = written ?? (el.kind === 'V' ? settings.supplyTolerance : 0);
+      if (!(tol > 0)) return;
+      out.push({ label: el.name, group: el.name, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol });
+    }
+  });
+  // Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together.
+  const seen = new Set<string>();
+  const vt = thermalVoltage(temperatureC);
+  for (const s of structures) {
+    const members = s.devices.filter((d) => index.has(d) && !seen.has(d));
+    if (members.length < 2) continue;
+    const groupName = (what: string) => `${s.id} ${what}`;
+    for (const name of members) {
+      seen.add(name);
+      const i = index.get(name)!;
+      const el = circuit.elements[i];
+      if (el.kind === 'Q') pushBjt(out, el, i, groupName, vt);
+      else if (el.kind === 'M') pushMos(out, el, i, groupName);
+    }
+  }
+  return out;
+}
+
+function figureOf(el: Bjt | Mosfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {
+  const v = el.model.params[name];
+  if (v !== undefined && Number.isFinite(v) && v >= 0) return { value: v, from: el.model.given.includes(name) ? 'model' : 'default' };
+  return { value: MISMATCH_DEFAULTS[name], from: 'default' };
+}
+
+function pushBjt(out: ToleranceSource[], el: Bjt, i: number, group: (what: string) => string, vt: number): void {
+  const units = Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30);
+  const nf = modelValue(el, 'NF') || 1;
+  const is = modelValue(el, 'IS');
+  const vbe = figureOf(el, 'MATCHVBE');
+  // A VBE offset ΔV at equal current is an IS ratio of e^(ΔV/(NF·VT)): σ(ΔIS/IS) = σ(ΔVBE)/(NF·VT) for one device.
+  const sigmaV = vbe.value / Math.sqrt(2 * units);
+  if (is > 0 && sigmaV > 0) {
+    const rel = sigmaV / (nf * vt);
+    out.push({ label: `${el.name} VBE`, group: group('VBE'), aspect: 'VBE', element: el.name, parameter: { kind: 'model', element: i, param: 'IS' }, nominal: is, sigma: rel * is, bound: 3 * rel * is, from: vbe.from, figure: sigmaV });
+  }
+  const bf = modelValue(el, 'BF');
+  const beta = figureOf(el, 'MATCHBF');
+  const rel = beta.value / Math.sqrt(2 * units);
+  if (bf > 0 && rel > 0) {
+    out.push({ label: `${el.name} β`, group: group('β'), aspect: 'β', element: el.name, parameter: { kind: 'model', element: i, param: 'BF' }, nominal: bf, sigma: rel * bf, bound: 3 * rel * bf, from: beta.from, figure: rel });
+  }
+}
+
+function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: (what: string) => string): void {
+  const area = el.w * el.l * el.m;
+  if (!(area > 0) || !Number.isFinite(area)) return;
+  const vt = figureOf(el, 'MATCHVT');
+  const sigmaVt = vt.value / Math.sqrt(2 * area);
+  if (sigmaVt > 0) {
+    out.push({ label: `${el.name} VTH`, group: group('VTH'), aspect: 'VTH', element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt });
+  }
+  const kp = modelValue(el, 'KP');
+  const b = figureOf(el, 'MATCHKP');
+  const rel = b.value / Math.sqrt(2 * area);
+  if (kp > 0 && rel > 0) {
+    out.push({ label: `${el.name} KP`, group: group('KP'), aspect: 'KP', element: el.name, parameter: { kind: 'model', element: i, param: 'KP' }, nominal: kp, sigma: rel * kp, bound: 3 * rel * kp, from: b.from, figure: rel });
+  }
+}

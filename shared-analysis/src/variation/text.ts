@@ -1,0 +1,45 @@
+// The variation figures in words, one compact line per output, shared by the hover and the text report.
+
+import type { Analysis } from '../analysis';
+import { formatEngineering } from '../fixes/format';
+import type { OutputVariation } from './types';
+
+/** A percentage without a sign, at most three figures: `2.82 %`, `0.004 %`. */
+export function percentText(ratio: number): string {
+  if (!Number.isFinite(ratio)) return '—';
+  const p = Math.abs(ratio * 100);
+  if (p === 0) return '0 %';
+  if (p < 0.001) return '< 0.001 %';
+  return `${+p.toPrecision(3)} %`;
+}
+
+function signed(v: number, digits = 3): string {
+  const t = +Math.abs(v).toPrecision(digits);
+  return `${v < 0 ? '−' : '+'}${t}`;
+}
+
+/** `σ 2.82 % (±3σ 8.46 %), worst case ±18.7 %; drift +115 ppm/°C; VCC +9.48 %/V; from VCC 45 %, Q1/Q2 VBE 34 %, RREF 18 %` (and the yield when the output has a target). */
+export function spreadText(v: OutputVariation): string {
+  const parts = [`σ ${percentText(v.sigmaRelative)} (±3σ ${percentText(3 * v.sigmaRelative)}), worst case ±${percentText(v.worstCaseRelative)}`];
+  parts.push(`drift ${signed(v.tempcoPpmPerC)} ppm/°C`);
+  const supplies = Object.entries(v.supplyPercentPerVolt)
+    .filter(([, s]) => Math.abs(s) >= 0.01)
+    .sort((a, b) => Math.abs(b[1]) - Math.abs(a[1]))
+    .slice(0, 3)
+    .map(([name, s]) => `${name} ${signed(s)} %/V`);
+  if (supplies.length) parts.push(supplies.join(', '));
+  const top = v.contributors.filter((c) => c.share >= 0.005).slice(0, 3);
+  if (top.length) parts.push(`from ${top.map((c) => `${c.name} ${Math.round(c.share * 100)} %`).join(', ')}`);
+  if (v.target) parts.push(`predicted yield ${percentText(v.target.yield)} within ${formatEngineering(v.target.current, { unit: 'A', digits: 3 })} ±${percentText(v.target.tolerance)}`);
+  if (v.monteCarlo && v.monteCarlo.converged > 1) parts.push(`Monte Carlo (${v.monteCarlo.converged} runs): σ ${percentText(v.monteCarlo.sigma / Math.abs(v.nominal || 1))}`);
+  return parts.join('; ');
+}
+
+/** The variation of the output an element carries: its structure output current, else its target current, else the IREF of the structure it references. */
+export function variationOfElement(analysis: Analysis, name: string): OutputVariation | undefined {
+  const list = analysis.variation?.outputs;
+  if (!list) return undefined;
+  const lower = name.toLowerCase();
+  const mine = list.filter((o) => o.element?.toLowerCase() === lower);
+  return mine.find((o) => o.key.includes(' out ')) ?? mine.find((o) => o.key.startsWith('element ')) ?? mine.find((o) => o.key.endsWith(' iref'));
+}

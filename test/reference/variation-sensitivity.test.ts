@@ -1,0 +1,192 @@
+// Adjoint sensitivities against central finite differences of full re-solves on a circuit of every recognised structure kind, and against closed forms (the resistor-fed diode-connected reference, Pelgrom's law, root-sum-square).
+
+import { describe, expect, it } from 'vitest';
+import type { Circuit } from '../../shared-analysis/src/circuit';
+import { DcSolver, type DcSolveResult } from '../../shared-analysis/src/solve/dc';
+import type { SolveOptions } from '../../shared-analysis/src/solve/types';
+import { measureStructure } from '../../shared-analysis/src/structures/measure';
+import { recogniseStructures } from '../../shared-analysis/src/structures/recognise';
+import { KINDS } from '../../shared-analysis/src/structures/catalogue';
+import type { Structure, StructureKind, Technology } from '../../shared-analysis/src/structures/types';
+import { structureVoltages } from '../../shared-analysis/src/structures/voltages';
+import { structureOutputs } from '../../shared-analysis/src/variation/outputs';
+import { modelValue, sensitivities, type VariedParameter } from '../../shared-analysis/src/variation/sensitivity';
+import { toleranceSources } from '../../shared-analysis/src/variation/sources';
+import { spreadOf } from '../../shared-analysis/src/variation/index';
+import { fixture } from '../unit/structures/fixtures';
+import { multiplier, selfBiasedLoop, wideSwing } from '../unit/structures/kinds/circuits';
+import { CircuitBuilder } from '../unit/structures/build';
+
+// Source: BIPM SI Brochure, 9th ed. (2019): k and q exact.
+const VT27 = (1.380649e-23 * 300.15) / 1.602176634e-19;
+
+/** A circuit of every kind in the catalogue, in one technology each (the kind tests cover the rest). */
+function circuitsOfEveryKind(): { name: string; circuit: Circuit }[] {
+  const out: { name: string; circuit: Circuit }[] = [];
+  const simple: [StructureKind, Technology][] = [
+    ['simple-mirror', 'npn'],
+    ['simple-mirror', 'pmos'],
+    ['widlar-source', 'npn'],
+    ['degenerated-mirror', 'nmos'],
+    ['helper-mirror', 'pnp'],
+    ['wilson-mirror', 'npn'],
+    ['improved-wilson-mirror', 'nmos'],
+    ['cascode-mirror', 'npn'],
+  ];
+  for (const [kind, tech] of simple) out.push({ name: `${kind} ${tech}`, circuit: fixture(kind, tech, { model: tech === 'npn' || tech === 'pnp' ? { VAF: 60 } : { LAMBDA: 0.02 } }).circuit });
+  out.push({ name: 'ptat-cell npn', circuit: selfBiasedLoop({ core: 'npn', startup: 2e6 }).circuit });
+  out.push({ name: 'beta-multiplier nmos', circuit: selfBiasedLoop({ core: 'nmos', startup: 2e6 }).circuit });
+  out.push({ name: 'bandgap-core npn', circuit: selfBiasedLoop({ core: 'npn', startup: 2e6, bandgap: { r2: 10e3 } }).circuit });
+  out.push({ name: 'vbe-multiplier npn', circuit: multiplier('npn') });
+  out.push({ name: 'wide-swing-cascode nmos', circuit: wideSwing('nmos', { lambda: 0.02 }) });
+  return out;
+}
+
+/** Every output of every structure, measured off an operating point independently of the adjoint code (measureStructure, structureVoltages). */
+function measureAll(circuit: Circuit, structures: Structure[], op: DcSolveResult['op']): number[] {
+  const out: number[] = [];
+  for (const s of structures) {
+    const m = measureStructure(circuit, op, s);
+    out.push(m.iref);
+    for (const o of s.outputs) out.push(m.iout[o.device]);
+    const v = structureVoltages(s, op);
+    for (const dv of s.voltages ?? []) out.push(v?.[dv.name] ?? NaN);
+  }
+  return out;
+}
+
+function check(circuit: Circuit): { kinds: StructureKind[]; compared: number } {
+  const structures = recogniseStructures(circuit);
+  const solver = new DcSolver(circuit);
+  const nominal = solver.solve();
+  expect(nominal.op.converged).toBe(true);
+  const t = nominal.op.temperatureC;
+  const specs = structureOutputs(circuit, structures);
+  // Parameters: every resistor and voltage source, the temperature, and the mismatch parameters of every structure device.
+  const params: VariedParameter[] = [{ kind: 'temperature' }];
+  circuit.elements.forEach((el, i) => {
+    if (el.kind === 'R') params.push({ kind: 'resistance', element: i });
+    if (el.kind === 'V' || el.kind === 'I') params.push({ kind: 'source', element: i });
+  });
+  for (const s of toleranceSources(circuit, structures, new Map(), { resistorTolerance: 0, resistorFrom: 'setting', supplyTolerance: 0 }, t)) params.push(s.parameter);
+  const lin = solver.linearise(nominal)!;
+  const adj = sensitivities(lin, specs.map((s) => s.functional), params);
+  const base = measureAll(circuit, structures, nominal.op);
+  expect(adj.value.map((v) => +v.toPrecision(9))).toEqual(base.map((v) => +v.toPrecision(9)));
+  let compared = 0;
+  const solveWith = (o: SolveOptions): number[] => {
+    const r = solver.solve({ temperatureC: t, initialGuess: nominal.x, ...o });
+    expect(r.op.converged).toBe(true);
+    return measureAll(circuit, structures, r.op);
+  };
+  for (let j = 0; j < params.length; j++) {
+    const p = params[j];
+    let h: number;
+    let up: number[];
+    let down: number[];
+    let scale: number;
+    if (p.kind === 'temperature') {
+      h = 0.1;
+      up = solveWith({ temperatureC: t + h });
+      down = solveWith({ temperatureC: t - h });
+      scale = 1;
+    } else if (p.kind === 'resistance') {
+      const el = circuit.elements[p.element] as { name: string; resistance: number };
+      h = el.resistance * 1e-3;
+      up = solveWith({ resistances: { [el.name]: el.resistance + h } });
+      down = solveWith({ resistances: { [el.name]: el.resistance - h } });
+      scale = el.resistance;
+    } else if (p.kind === 'source') {
+      const el = circuit.elements[p.element] as { name: string; dc: number };
+      h = Math.max(Math.abs(el.dc), 1e-6) * 1e-3;
+      up = solveWith({ sourceValues: { [el.name]: el.dc + h } });
+      down = solveWith({ sourceValues: { [el.name]: el.dc - h } });
+      scale = Math.abs(el.dc);
+    } else {
+      const el = circuit.elements[p.element];
+      const v = modelValue(el, p.param);
+      h = p.param === 'VTO' ? 1e-4 : Math.abs(v) * 1e-3;
+      up = solveWith({ deviceParameters: { [el.name]: { [p.param]: v + h } } });
+      down = solveWith({ deviceParameters: { [el.name]: { [p.param]: v - h } } });
+      scale = p.param === 'VTO' ? 1e-3 : Math.abs(v);
+    }
+    for (let o = 0; o < base.length; o++) {
+      const fd = (up[o] - down[o]) / (2 * h);
+      const a = adj.derivative[o][j];
+      // 1e-4 relative, with a floor of 1e-7 in the normalised sensitivity (d ln y per unit of the parameter's own scale).
+      const floor = (1e-7 * Math.abs(base[o])) / scale;
+      expect(Math.abs(a - fd), `${JSON.stringify(p)} on output ${o}: adjoint ${a}, finite difference ${fd}`).toBeLessThanOrEqual(1e-4 * Math.abs(fd) + floor);
+      compared++;
+    }
+  }
+  return { kinds: structures.map((s) => s.kind), compared };
+}
+
+describe('adjoint sensitivities against finite differences of re-solves', () => {
+  const seen = new Set<StructureKind>();
+  for (const { name, circuit } of circuitsOfEveryKind()) {
+    it(name, () => {
+      const r = check(circuit);
+      expect(r.compared).toBeGreaterThan(0);
+      for (const k of r.kinds) seen.add(k);
+    });
+  }
+  it('covered every kind of the catalogue', () => {
+    for (const k of KINDS) expect(seen.has(k.id), `no circuit of kind ${k.id}`).toBe(true);
+  });
+});
+
+describe('closed forms', () => {
+  it('a resistor-fed diode-connected reference: S = −(V+ − V− − VBE)/(V+ − V− − VBE + NF·VT)', () => {
+    // Differentiate IREF·R = V+ − V− − NF·VT·ln(IREF/IS): dIREF/IREF · (IREF·R + NF·VT) = −IREF·R · dR/R.
+    for (const [supply, ohms, nf] of [
+      [5, 10e3, 1],
+      [12, 2.2e3, 1],
+      [1.8, 47e3, 1.2],
+    ]) {
+      const b = new CircuitBuilder();
+      b.v('VCC', 'vcc', '0', supply);
+      b.model('qn', 'npn', { IS: 1e-15, BF: 1e12, NF: nf });
+      b.r('RREF', 'vcc', 'a', ohms);
+      b.q('Q1', 'a', 'a', '0', 'qn');
+      const circuit = b.build();
+      const solver = new DcSolver(circuit);
+      const nominal = solver.solve();
+      const lin = solver.linearise(nominal)!;
+      const r = circuit.elements.findIndex((e) => e.name === 'RREF');
+      const adj = sensitivities(lin, [{ terms: [{ kind: 'element', element: r, weight: 1 }], magnitude: true }], [{ kind: 'resistance', element: r }]);
+      const iref = adj.value[0];
+      const drop = iref * ohms; // V+ − V− − VBE
+      const want = -drop / (drop + nf * VT27);
+      expect(adj.derivative[0][0] * (ohms / iref)).toBeCloseTo(want, 6);
+    }
+  });
+
+  it("Pelgrom's law for the VTH mismatch of a MOS pair", () => {
+    // Source: M. J. M. Pelgrom, A. C. J. Duinmaijer, A. P. G. Welbers, IEEE JSSC 24(5), 1989: σ(ΔVT) = AVT/√(W·L) for a pair,
+    // so each device's own σ is AVT/√(2·W·L). AVT here is the project default, 5 mV·µm (common practice, from memory).
+    const c = fixture('simple-mirror', 'nmos').circuit;
+    const m1 = c.elements.find((e) => e.name === 'Q1')! as { w: number; l: number; m: number };
+    m1.w = 20e-6;
+    m1.l = 2e-6;
+    const structures = recogniseStructures(c);
+    const s = toleranceSources(c, structures, new Map(), { resistorTolerance: 0.01, resistorFrom: 'setting', supplyTolerance: 0.05 }, 27);
+    const vth = s.find((x) => x.label === 'Q1 VTH')!;
+    const pair = 5e-3 / Math.sqrt(20 * 2); // 5 mV·µm over √(40 µm²)
+    expect(vth.sigma * Math.SQRT2).toBeCloseTo(pair, 9);
+    expect(pair * 1e3).toBeCloseTo(0.7906, 3);
+  });
+
+  it('root-sum-square and linear sum of independent contributions', () => {
+    // σ = √Σ(Sᵢσᵢ)², worst case = Σ|Sᵢ·Δᵢ| (independent contributions; common practice).
+    const src = (label: string, sigma: number, bound: number) => ({ label, group: label, element: label, parameter: { kind: 'temperature' } as VariedParameter, nominal: 1, sigma, bound, from: 'card' as const, figure: 0 });
+    const sources = [src('A', 3, 9), src('B', 4, 12)];
+    const r = spreadOf(sources, Float64Array.of(1, -1));
+    expect(r.sigma).toBeCloseTo(5, 12);
+    expect(r.worstCase).toBeCloseTo(21, 12);
+    expect(r.contributors.map((c) => [c.name, +c.share.toFixed(4)])).toEqual([
+      ['B', 0.64],
+      ['A', 0.36],
+    ]);
+  });
+});

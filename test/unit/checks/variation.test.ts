@@ -1,0 +1,57 @@
+// The spread analysis through the whole pipeline: card tolerances, the yield finding with its cause and fix, and its absence on a well-specified circuit.
+
+import { describe, expect, it } from 'vitest';
+import { analyse } from '../../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+
+function run(text: string) {
+  return analyse({ uri: 'mem://y.cir', text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+}
+
+/** A resistor-fed NPN mirror whose output is 1 mA within a percent or so at nominal. */
+const mirror = (rrefCard: string, target: string) => `yield check
+VCC vcc 0 10 ; tol 0.5%
+${rrefCard}
+Q1 ref ref 0 qn
+Q2 out ref 0 qn ${target}
+RL vcc out 2k
+.model qn npn(IS=1e-15 BF=200)
+.end
+`;
+
+describe('yield against targets', () => {
+  it('flags a target whose window is narrower than the 5 % resistor and supply spread, on the annotation, naming the contributor and the fix', () => {
+    const text = mirror('RREF vcc ref 9.1k', '; expect 1mA ±6%');
+    const a = run(text);
+    const f = a.findings.filter((x) => x.code === 'target-yield-low');
+    expect(f).toHaveLength(1);
+    expect(text.slice(f[0].span.start, f[0].span.end)).toBe('expect 1mA ±6%');
+    expect(f[0].message).toMatch(/Predicted yield of Q2 against 1 mA ±6 % is/);
+    // 5 % RREF (σ 1.67 %) and the default 0.5 mV VBE mismatch (σ ≈ 1.9 % of the output) against a ±6 % window.
+    console.log(f[0].message);
+    expect(f[0].message).toMatch(/largest contributor is Q1\/Q2 VBE \(\d+(\.\d+)? % of the variance\)\. Making Q1, Q2 \d+ times larger .* would give \d/);
+    expect(a.findings.some((x) => x.code === 'target-missed')).toBe(false);
+    const y = f[0].data!['yield'] as number;
+    expect(y).toBeGreaterThan(0.3);
+    expect(y).toBeLessThan(0.997);
+  });
+
+  it('stays quiet when the card tolerances make the window safe', () => {
+    const text = mirror('RREF vcc ref 9.1k ; tol 0.1%', '; expect 1mA ±10%');
+    const a = run(text);
+    expect(a.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
+    const v = a.variation!.outputs.find((o) => o.key === 'element Q2' || o.key.endsWith('out Q2'))!;
+    expect(v.target!.yield).toBeGreaterThan(0.997);
+    // The card's 0.1 % is read: RREF is then a small contributor next to the 5 % supply.
+    const rref = a.variation!.sources.find((s) => s.name === 'RREF')!;
+    expect(rref).toMatchObject({ figure: 0.001, from: 'card' });
+  });
+
+  it('reads the series tolerance when no card says otherwise', () => {
+    const a = analyse({ uri: 'mem://y.cir', text: mirror('RREF vcc ref 9.1k', '') }, new MemoryWorkspace({}), { corners: { enabled: false }, resistorSeries: 'E96' });
+    expect(a.variation!.sources.find((s) => s.name === 'RREF')).toMatchObject({ figure: 0.01, from: 'series' });
+    const s = a.structures[0];
+    expect(s.variation?.iout['Q2']?.sigmaRelative).toBeGreaterThan(0);
+    expect(s.variation?.iref?.contributors[0].name).toBe('RREF');
+  });
+});
