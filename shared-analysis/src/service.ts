@@ -25,6 +25,7 @@ import { seriesTolerance } from './fixes/e-series';
 import { checkYield } from './checks/variation';
 import { analyseVariation, attachVariation, type VariationDetail } from './variation/index';
 import type { VariationResult } from './variation/types';
+import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
 
@@ -46,6 +47,8 @@ export interface AnalysisSession {
   analysis: Analysis;
   solver?: DcSolver;
   nominal?: DcSolveResult;
+  /** The spread analysis behind `analysis.variation` (sources and derivatives), for Monte Carlo. */
+  variation?: VariationDetail;
 }
 
 /**
@@ -85,6 +88,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let solver: DcSolver | undefined;
   let nominal: DcSolveResult | undefined;
   let variation: VariationResult | undefined;
+  let variationDetail: VariationDetail | undefined;
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
       solver = new DcSolver(circuit);
@@ -109,6 +113,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       if (resolved.variation.enabled && result.op.converged) {
         const detail = timed('variation', () => variationOf(circuit, structures, elab.documents, dc, result, targets.targets, resolved));
         if (detail) {
+          variationDetail = detail;
           variation = detail.result;
           attachVariation(structures, detail.result);
           pushAll(findings, checkYield(circuit, structures, targets.targets, detail, resolved.variation.yieldTarget));
@@ -150,7 +155,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     options: resolved,
     timings,
   };
-  return { analysis, solver, nominal: nominal && nominal.op.converged ? nominal : undefined };
+  const converged = nominal && nominal.op.converged ? nominal : undefined;
+  return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}) };
 }
 
 /** What `addCorners` needs besides the Analysis: the session's solver and converged nominal solution. */
@@ -234,6 +240,27 @@ export function variationOf(
     });
   } catch {
     // The spread is an addition; a failure leaves the rest of the analysis standing.
+    return undefined;
+  }
+}
+
+/**
+ * Monte Carlo on a session (docs/VARIATION.md): `options.runs` seeded re-solves drawing every
+ * source of spread, on the session's prepared solver. Fills `monteCarlo` of every output of
+ * `analysis.variation` (and so of `structure.variation`) and `analysis.variation.monteCarlo`.
+ * Undefined when the session has no converged spread analysis. Never throws.
+ */
+export function monteCarloOf(session: AnalysisSession, options: MonteCarloOptions): MonteCarloResult | undefined {
+  const { analysis, solver, nominal, variation } = session;
+  if (!solver || !nominal || !variation || !analysis.circuit || !analysis.variation) return undefined;
+  try {
+    const t0 = performance.now();
+    const r = runMonteCarlo(analysis.circuit, analysis.structures, solver, nominal, variation, options);
+    analysis.variation.outputs.forEach((o, k) => (o.monteCarlo = r.figures[k]));
+    analysis.variation.monteCarlo = { runs: r.runs, seed: r.seed, converged: r.converged, ms: r.ms };
+    analysis.timings['monte-carlo'] = (analysis.timings['monte-carlo'] ?? 0) + performance.now() - t0;
+    return r;
+  } catch {
     return undefined;
   }
 }

@@ -1,0 +1,71 @@
+// Monte Carlo as the check on the linear spread: reproducible with a fixed seed, and its σ within sampling error of the root-sum-square σ on a near-linear circuit.
+
+import { describe, expect, it } from 'vitest';
+import { analyseSession, monteCarloOf } from '../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import { normalSource } from '../../shared-analysis/src/variation/monte-carlo';
+
+const MIRROR = `near-linear mirror
+VCC vcc 0 10 ; tol 1%
+RREF vcc ref 9.1k ; tol 1%
+Q1 ref ref 0 qn
+Q2 out ref 0 qn ; expect 1mA ±5%
+RL vcc out 2k
+.model qn npn(IS=1e-15 BF=200 MATCHVBE=1m)
+.end
+`;
+
+const session = () => analyseSession({ uri: 'mem://mc.cir', text: MIRROR }, new MemoryWorkspace({}), { corners: { enabled: false } });
+
+describe('Monte Carlo', () => {
+  it('reproduces its own numbers exactly with the same seed, and differs with another', () => {
+    const a = monteCarloOf(session(), { runs: 200, seed: 7 })!;
+    const b = monteCarloOf(session(), { runs: 200, seed: 7 })!;
+    const c = monteCarloOf(session(), { runs: 200, seed: 8 })!;
+    expect(a.converged).toBe(200);
+    expect(Array.from(a.samples[1])).toEqual(Array.from(b.samples[1]));
+    expect(a.figures).toEqual(b.figures);
+    expect(Array.from(c.samples[1])).not.toEqual(Array.from(a.samples[1]));
+  });
+
+  it('agrees with the linear σ within sampling error', () => {
+    const s = session();
+    const r = monteCarloOf(s, { runs: 3000, seed: 12345 })!;
+    const outputs = s.analysis.variation!.outputs;
+    for (let o = 0; o < outputs.length; o++) {
+      const linear = outputs[o].sigma;
+      const mc = r.figures[o].sigma;
+      // The sample σ of N normal draws has a relative standard error of about 1/√(2(N − 1)) (common statistics):
+      // 1.3 % at N = 3000; allow four of them plus 1 % for the curvature the linear figure leaves out.
+      const se = 1 / Math.sqrt(2 * (r.converged - 1));
+      expect(Math.abs(mc - linear) / linear, `${outputs[o].key}: Monte Carlo σ ${mc}, linear σ ${linear}`).toBeLessThan(4 * se + 0.01);
+      // The mean sits on the nominal within a few standard errors of the mean.
+      expect(Math.abs(r.figures[o].mean - outputs[o].nominal)).toBeLessThan(4 * (linear / Math.sqrt(r.converged)) + 0.002 * Math.abs(outputs[o].nominal));
+      expect(r.figures[o].histogram.reduce((a, b) => a + b, 0)).toBe(r.converged);
+    }
+    // The target's Monte Carlo yield is reported beside the predicted one.
+    const q2 = outputs.find((o) => o.key === 'element Q2')!;
+    expect(q2.monteCarlo?.yield).toBeDefined();
+    expect(Math.abs(q2.monteCarlo!.yield! - q2.target!.yield)).toBeLessThan(0.03);
+  });
+
+  it('draws standard normal numbers (mean 0, variance 1)', () => {
+    const d = normalSource(3);
+    let m = 0;
+    let v = 0;
+    const n = 20000;
+    const xs: number[] = [];
+    for (let k = 0; k < n; k++) xs.push(d());
+    for (const x of xs) m += x / n;
+    for (const x of xs) v += ((x - m) * (x - m)) / (n - 1);
+    expect(Math.abs(m)).toBeLessThan(4 / Math.sqrt(n));
+    expect(Math.abs(v - 1)).toBeLessThan(4 * Math.sqrt(2 / n));
+  });
+
+  it('stops when cancelled and reports progress', () => {
+    let seen = 0;
+    const r = monteCarloOf(session(), { runs: 100, seed: 1, onProgress: (d) => (seen = d), cancelled: () => seen >= 10 })!;
+    expect(r.runs).toBe(10);
+    expect(r.cancelled).toBe(true);
+  });
+});
