@@ -168,7 +168,7 @@ function handle(msg: ToWorker): void {
       if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
       const corners: Record<string, Structure['corners']> = nameTable();
       for (const st of kept.analysis.structures) corners[st.id] = st.corners;
-      post({ type: 'cornered', id: msg.id, findings, corners });
+      post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
       return;
     }
     case 'sizing-fixes': {

@@ -2,14 +2,14 @@
 
 import * as fs from 'node:fs';
 import * as path from 'node:path';
-import { analyseSession, attachAllSizingFixes } from '../../shared-analysis/src/service';
+import { analyseSession, attachAllSizingFixes, monteCarloOf } from '../../shared-analysis/src/service';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatMeasured } from '../../shared-analysis/src/fixes/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
 import { powerTable } from '../../shared-analysis/src/checks/devices/power';
-import { spreadText } from '../../shared-analysis/src/variation/text';
+import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
 import { derivedVoltageLines, outputWords } from '../../shared-analysis/src/features/structure-words';
@@ -50,6 +50,13 @@ Options:
   --cold C / --hot C           corner temperatures, hot above cold (default -40 / 125)
   --beta-low F / --beta-high F beta corner factors, low in (0, 1], high in [1, 100] (default 0.5 / 2)
   --no-corners                 skip the corner re-solves
+  --no-variation               skip the spread analysis (sensitivities, σ, worst case, yield)
+  --resistor-tolerance PCT     tolerance of a resistor without '; tol' on its card, 0 to 50
+                               (default: the --series tolerance, E24 5 %)
+  --yield-target PCT           predicted yield below which a target is flagged (default 99.7)
+  --monte-carlo N              also run N seeded Monte Carlo re-solves (1 to 100000); 'report'
+                               prints their σ and histogram beside the linear figures
+  --seed S                     the Monte Carlo seed (default 1); the same seed repeats the numbers
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
   --include-root DIR           also let .include read files under DIR; repeatable
@@ -82,6 +89,8 @@ interface CliOptions {
   /** Folders besides the current one and each netlist's own whose files includes may read. */
   includeRoots: string[];
   includeAnywhere: boolean;
+  /** `--monte-carlo N` and `--seed S`: seeded re-solves after the analysis (docs/VARIATION.md). */
+  monteCarlo?: { runs: number; seed: number };
 }
 
 /**
@@ -206,6 +215,21 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--no-corners':
         corners.enabled = false;
         break;
+      case '--no-variation':
+        (opts.analysis.variation ??= {}).enabled = false;
+        break;
+      case '--resistor-tolerance':
+        (opts.analysis.variation ??= {}).resistorTolerance = numberFlag(a, next(), OPTION_RULES.resistorTolerancePercent) / 100;
+        break;
+      case '--yield-target':
+        (opts.analysis.variation ??= {}).yieldTarget = numberFlag(a, next(), OPTION_RULES.yieldTargetPercent) / 100;
+        break;
+      case '--monte-carlo':
+        opts.monteCarlo = { runs: numberFlag(a, next(), OPTION_RULES.monteCarloRuns), seed: opts.monteCarlo?.seed ?? 1 };
+        break;
+      case '--seed':
+        opts.monteCarlo = { runs: opts.monteCarlo?.runs ?? 0, seed: numberFlag(a, next(), OPTION_RULES.seed) };
+        break;
       case '--severity': {
         const spec = next() ?? '';
         const m = /^([a-z0-9-]+)=(error|warning|info|hint|off)$/.exec(spec);
@@ -248,6 +272,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (command === 'report' && opts.format === 'sarif') throw new UsageError(`'report' writes text or json; SARIF lists findings for code scanning, so use 'check --format sarif'.`);
   const crossed = crossCheckCorners(corners, { cold: '--cold', hot: '--hot' });
   if (crossed.length) throw new UsageError(crossed[0]!);
+  if (opts.monteCarlo && opts.monteCarlo.runs === 0) throw new UsageError('--seed needs --monte-carlo N (the number of runs).');
   opts.analysis.corners = corners;
   opts.analysis.severities = severities;
   return opts;
@@ -292,6 +317,7 @@ function analyseFiles(opts: CliOptions): FileResult[] {
       // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
       // (only around a converged operating point: sizing re-solves from it).
       attachAllSizingFixes(session);
+      if (opts.monteCarlo) monteCarloOf(session, opts.monteCarlo);
       return { path: p, absolute, analysis: session.analysis };
     } catch (e) {
       return { path: p, absolute, internalError: e instanceof Error ? (e.stack ?? e.message) : String(e) };
@@ -462,6 +488,8 @@ export function textReport(r: FileResult): string {
     if (sol) refLine.push(`solved ${amps(sol.iref)}`);
     out.push(refLine.join('  '));
     if (s.variation?.iref) out.push(`              spread: ${spreadText(s.variation.iref)}`);
+    const irefMc = s.variation?.iref ? histogramText(s.variation.iref) : undefined;
+    if (irefMc) out.push(`              ${irefMc}`);
     for (const o of s.outputs) {
       const cells = [`  ${o.device}`.padEnd(12)];
       if (est?.iout[o.device] !== undefined) cells.push(`estimate ${amps(est.iout[o.device])}`);
@@ -473,6 +501,8 @@ export function textReport(r: FileResult): string {
       out.push(cells.join('  '));
       const v = s.variation?.iout[o.device];
       if (v) out.push(`              spread: ${spreadText(v)}`);
+      const mc = v ? histogramText(v) : undefined;
+      if (mc) out.push(`              ${mc}`);
     }
     for (const line of derivedVoltageLines(s)) out.push(`  ${line}`);
     for (const v of Object.values(s.variation?.voltages ?? {})) out.push(`              ${v.output} spread: ${spreadText(v)}`);

@@ -71,6 +71,7 @@ import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { restoreNameTables } from '../../shared-analysis/src/names';
+import { attachVariation } from '../../shared-analysis/src/variation/index';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -409,6 +410,10 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   for (const s of analysis.structures) {
     const c = r.corners[s.id];
     if (c) s.corners = c;
+  }
+  if (r.variation && !analysis.variation) {
+    analysis.variation = r.variation;
+    attachVariation(analysis.structures, r.variation);
   }
   restoreNameTables(analysis);
   // Appended, so the indices of published diagnostics stay valid.

@@ -8,6 +8,7 @@ import { indexBuilder } from '../../shared-analysis/src/features/document-index'
 import { mergePart } from './analysis-transfer';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
+import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
@@ -206,9 +207,9 @@ export class WorkerHost {
   }
 
   /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings and each structure's corners by id. */
-  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, Structure['corners']>; stale: boolean }> {
+  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, Structure['corners']>; variation?: VariationResult; stale: boolean }> {
     const msg = await this.request((id) => ({ type: 'corners', id, uri, version }), `The corners of ${uri}`);
-    if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, stale: msg.stale === true };
+    if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, ...(msg.variation ? { variation: msg.variation } : {}), stale: msg.stale === true };
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 

@@ -6,6 +6,7 @@ import type { OutputCharacteristicResult } from '../../shared-analysis/src/featu
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { ReadPolicy } from './read-policy';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
@@ -58,5 +59,5 @@ export type FromWorker =
   /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
   /** The corner phase's findings and each structure's corner results by structure id; `stale` when the worker holds another version. */
-  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, Structure['corners']>; stale?: boolean }
+  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, Structure['corners']>; variation?: VariationResult; stale?: boolean }
   | { type: 'failed'; id: number; message: string };

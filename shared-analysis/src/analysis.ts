@@ -96,7 +96,18 @@ export function resolveOptions(options: AnalysisOptions = {}): ResolvedOptions {
     severities: options.severities ?? {},
     solve: options.solve ?? true,
     powerLimits: { ...DEFAULT_POWER_LIMITS, ...definedOnly(options.powerLimits) },
-    variation: { ...DEFAULT_VARIATION, ...definedOnly(options.variation), enabled: options.variation?.enabled ?? true },
+    variation: resolveVariation(options.variation),
+  };
+}
+
+/** The spread settings with defaults; a value out of range keeps the default. */
+function resolveVariation(v: Partial<VariationOptions> | undefined): VariationOptions {
+  const rt = v?.resistorTolerance;
+  const yt = v?.yieldTarget;
+  return {
+    enabled: v?.enabled ?? DEFAULT_VARIATION.enabled,
+    yieldTarget: typeof yt === 'number' && yt > 0 && yt < 1 ? yt : DEFAULT_VARIATION.yieldTarget,
+    ...(typeof rt === 'number' && rt >= 0 && rt < 1 ? { resistorTolerance: rt } : {}),
   };
 }
 

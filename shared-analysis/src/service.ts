@@ -110,7 +110,9 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, timed('targets', () =>
           checkTargets({ circuit, op: result.op, structures, targets: targets.targets, options: resolved }),
         ));
-      if (resolved.variation.enabled && result.op.converged) {
+      // A host that solves the corners in a second phase gets the spread of a large circuit there too (it costs a few solves' worth).
+      const spreadNow = resolved.corners.enabled || dc.unknownCount <= FIRST_PASS_VARIATION_UNKNOWNS;
+      if (resolved.variation.enabled && result.op.converged && spreadNow) {
         const detail = timed('variation', () => variationOf(circuit, structures, elab.documents, dc, result, targets.targets, resolved));
         if (detail) {
           variationDetail = detail;
@@ -159,6 +161,9 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}) };
 }
 
+/** Circuits up to this many unknowns get their spread in the first pass even when the corners come later (a few milliseconds). */
+const FIRST_PASS_VARIATION_UNKNOWNS = 400;
+
 /** What `addCorners` needs besides the Analysis: the session's solver and converged nominal solution. */
 export interface CornerPhaseContext {
   solver: DcSolver;
@@ -170,7 +175,8 @@ export interface CornerPhaseContext {
 /**
  * The second, slower phase for a host that analysed with `corners.enabled = false`: solves the
  * supply/temperature/beta corners, fills `structure.corners` of `analysis.structures`, records
- * `timings.corners`, and returns the corner findings and the `target-missed-at-corner` findings,
+ * `timings.corners`, computes the spread (`analysis.variation`, `structure.variation`) when the
+ * first pass left it out, and returns the corner findings, the `target-missed-at-corner` and `target-yield-low` findings,
  * severities mapped and sorted like `analysis.findings`. `analysis.findings` itself is left as it
  * is (a host may have published indices into it). Returns [] when the nominal point did not
  * converge, there are no structures, or the options passed to `analyse` had no corners to
@@ -186,6 +192,14 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
     pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats }));
     const { targets } = readTargets(analysis.documents);
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
+    if (!analysis.variation && options.variation.enabled) {
+      const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options);
+      if (detail) {
+        analysis.variation = detail.result;
+        attachVariation(analysis.structures, detail.result);
+        pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget));
+      }
+    }
   } catch {
     // The corner phase is an addition; a failure leaves the first-phase analysis standing.
   }

@@ -10,7 +10,7 @@ import { KINDS } from '../../shared-analysis/src/structures/catalogue';
 import type { Structure, StructureKind, Technology } from '../../shared-analysis/src/structures/types';
 import { structureVoltages } from '../../shared-analysis/src/structures/voltages';
 import { structureOutputs } from '../../shared-analysis/src/variation/outputs';
-import { modelValue, sensitivities, type VariedParameter } from '../../shared-analysis/src/variation/sensitivity';
+import { derivativeOf, modelValue, sensitivities, type VariedParameter } from '../../shared-analysis/src/variation/sensitivity';
 import { toleranceSources } from '../../shared-analysis/src/variation/sources';
 import { spreadOf } from '../../shared-analysis/src/variation/index';
 import { fixture } from '../unit/structures/fixtures';
@@ -112,7 +112,7 @@ function check(circuit: Circuit): { kinds: StructureKind[]; compared: number } {
     }
     for (let o = 0; o < base.length; o++) {
       const fd = (up[o] - down[o]) / (2 * h);
-      const a = adj.derivative[o][j];
+      const a = derivativeOf(adj, o, j);
       // 1e-4 relative, with a floor of 1e-7 in the normalised sensitivity (d ln y per unit of the parameter's own scale).
       const floor = (1e-7 * Math.abs(base[o])) / scale;
       expect(Math.abs(a - fd), `${JSON.stringify(p)} on output ${o}: adjoint ${a}, finite difference ${fd}`).toBeLessThanOrEqual(1e-4 * Math.abs(fd) + floor);
@@ -158,7 +158,7 @@ describe('closed forms', () => {
       const iref = adj.value[0];
       const drop = iref * ohms; // V+ − V− − VBE
       const want = -drop / (drop + nf * VT27);
-      expect(adj.derivative[0][0] * (ohms / iref)).toBeCloseTo(want, 6);
+      expect(derivativeOf(adj, 0, 0) * (ohms / iref)).toBeCloseTo(want, 6);
     }
   });
 
@@ -181,7 +181,7 @@ describe('closed forms', () => {
     // σ = √Σ(Sᵢσᵢ)², worst case = Σ|Sᵢ·Δᵢ| (independent contributions; common practice).
     const src = (label: string, sigma: number, bound: number) => ({ label, group: label, element: label, parameter: { kind: 'temperature' } as VariedParameter, nominal: 1, sigma, bound, from: 'card' as const, figure: 0 });
     const sources = [src('A', 3, 9), src('B', 4, 12)];
-    const r = spreadOf(sources, Float64Array.of(1, -1));
+    const r = spreadOf(sources, { index: [0, 1], value: [1, -1] });
     expect(r.sigma).toBeCloseTo(5, 12);
     expect(r.worstCase).toBeCloseTo(21, 12);
     expect(r.contributors.map((c) => [c.name, +c.share.toFixed(4)])).toEqual([

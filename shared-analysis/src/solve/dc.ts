@@ -39,6 +39,8 @@ export interface Linearisation {
   /** DC values of the independent sources, aligned with `layout.sources`. */
   sourceValues: Float64Array;
   solveTransposed(c: Float64Array, out: Float64Array): Float64Array;
+  /** The same for a sparse c: the non-zero entries of λ go to `out`. */
+  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: { index: number[]; value: number[] }): void;
 }
 
 /** One solve's answer: the operating point, what went wrong (located), effort spent, and the raw solution for warm starts. */
@@ -305,6 +307,7 @@ export class DcSolver {
       x: result.x,
       sourceValues: Float64Array.from(engine.sourceValues),
       solveTransposed: (c, out) => engine.solveTransposed(c, out),
+      solveTransposedSparse: (i, v, out) => engine.solveTransposedSparse(i, v, out),
     };
   }
 

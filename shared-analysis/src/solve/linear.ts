@@ -21,6 +21,8 @@ export interface LinearSolver {
   solve(b: Float64Array, x?: Float64Array): Float64Array;
   /** Returns x with Aᵀ·x = b for the last successful factor (the adjoint solve of sensitivity analysis); zeros after a failed one. */
   solveTranspose(b: Float64Array, x?: Float64Array): Float64Array;
+  /** Aᵀ·x = b for a sparse b; the non-zero entries of x go to `out` (see SparseLU). `x` is an all-zero work vector of length n, left all zeros. */
+  solveTransposeSparse?(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: { index: number[]; value: number[] }): void;
 }
 
 /** Dense LU with partial pivoting over the same interface: a reference for tests and the fallback for tiny systems. */

@@ -179,6 +179,34 @@ export class NewtonEngine {
     return out;
   }
 
+  /**
+   * `solveTransposed` for a sparse right-hand side (indices `cIndex`, values `cValue`), with the
+   * non-zero entries of λ in `out`; uses the linear solver's sparse transposed solve when it has
+   * one, else the dense one.
+   */
+  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: { index: number[]; value: number[] }): void {
+    const { rowScale, colScale } = this;
+    const n = colScale.length;
+    const work = (this.sparseWork ??= new Float64Array(n));
+    const scaled: number[] = [];
+    for (let k = 0; k < cIndex.length; k++) scaled.push(cValue[k] * colScale[cIndex[k]]);
+    if (this.solver.solveTransposeSparse) {
+      this.solver.solveTransposeSparse(cIndex, scaled, work, out);
+      for (let k = 0; k < out.index.length; k++) out.value[k] *= rowScale[out.index[k]];
+      return;
+    }
+    const dense = new Float64Array(n);
+    for (let k = 0; k < cIndex.length; k++) dense[cIndex[k]] += scaled[k];
+    const x = this.solver.solveTranspose(dense, new Float64Array(n));
+    out.index.length = 0;
+    out.value.length = 0;
+    for (let k = 0; k < n; k++) if (x[k] !== 0) {
+      out.index.push(k);
+      out.value.push(x[k] * rowScale[k]);
+    }
+  }
+  private sparseWork: Float64Array | undefined;
+
   /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis). */
   get lastScaledValues(): Float64Array {
     return this.scaled;

@@ -126,6 +126,9 @@ export class SparseLU implements LinearSolver {
   private visitStamp = 0;
 
   private haveSymbolic = false;
+  /** Row-wise copies of L and U for sparse transposed solves, rebuilt after each factorisation (see `transposeRows`). */
+  private rowsOf: { factorCount: number; uStart: Int32Array; uCol: Int32Array; uVal: Float64Array; lStart: Int32Array; lCol: Int32Array; lVal: Float64Array; qinv: Int32Array } | undefined;
+  private factorCount = 0;
   private valid = false;
   private lastFailure: FactorFailure | undefined;
   private readonly counters = { pivoting: 0, refactor: 0, fallbacks: 0 };
@@ -249,6 +252,7 @@ export class SparseLU implements LinearSolver {
    */
   factor(values: Float64Array): FactorResult {
     this.valid = false;
+    this.factorCount++;
     if (this.invalidIndex >= 0) return this.fail('invalid-pattern', this.invalidIndex);
     const n = this.n;
     const aVal = this.aVal;
@@ -358,6 +362,111 @@ export class SparseLU implements LinearSolver {
     for (let k = 0; k < n; k++) x[rowOf[k]] = y[k];
     y.fill(0);
     return x;
+  }
+
+  /**
+   * Aᵀ·x = b for a sparse b (`bIndex`/`bValue`, original indices), touching only the entries
+   * the factors can reach from b's (J. R. Gilbert and T. Peierls' reach, applied to Uᵀ and then
+   * Lᵀ): the adjoint solve of one output costs what its part of the circuit costs. Returns the
+   * non-zero entries of x (original indices, any order) in `out`; `x` must be all zeros on entry
+   * (length n) and is left all zeros. After a failed `factor`, returns no entries.
+   */
+  solveTransposeSparse(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: { index: number[]; value: number[] }): void {
+    out.index.length = 0;
+    out.value.length = 0;
+    if (!this.valid) return;
+    const r = this.transposeRows();
+    const y = x; // pivot-position workspace, all zeros on entry
+    const mark = this.visited;
+    const stamp = ++this.visitStamp;
+    const stack = this.stack;
+    const reach: number[] = [];
+    // Step 1: y = Qᵀ·b.
+    for (let k = 0; k < bIndex.length; k++) {
+      const pos = r.qinv[bIndex[k]];
+      y[pos] += bValue[k];
+      if (mark[pos] !== stamp) {
+        mark[pos] = stamp;
+        stack[0] = pos;
+        let top = 1;
+        // Depth-first over the graph k → j of the rows of U (j > k) and of L (j < k): every position either solve can touch.
+        while (top > 0) {
+          const v = stack[--top];
+          reach.push(v);
+          for (let p = r.uStart[v]; p < r.uStart[v + 1]; p++) {
+            const w = r.uCol[p];
+            if (mark[w] !== stamp) {
+              mark[w] = stamp;
+              stack[top++] = w;
+            }
+          }
+          for (let p = r.lStart[v]; p < r.lStart[v + 1]; p++) {
+            const w = r.lCol[p];
+            if (mark[w] !== stamp) {
+              mark[w] = stamp;
+              stack[top++] = w;
+            }
+          }
+        }
+      }
+    }
+    reach.sort((a, b) => a - b);
+    // Step 2: Uᵀ·z = y, in increasing pivot order; row k of U holds column k of Uᵀ.
+    const uDiag = this.uDiag;
+    for (const k of reach) {
+      const zk = (y[k] /= uDiag[k]);
+      if (zk === 0) continue;
+      for (let p = r.uStart[k]; p < r.uStart[k + 1]; p++) y[r.uCol[p]] -= r.uVal[p] * zk;
+    }
+    // Step 3: Lᵀ·w = z, in decreasing pivot order; row k of L holds column k of Lᵀ.
+    for (let i = reach.length - 1; i >= 0; i--) {
+      const k = reach[i];
+      const wk = y[k];
+      if (wk === 0) continue;
+      for (let p = r.lStart[k]; p < r.lStart[k + 1]; p++) y[r.lCol[p]] -= r.lVal[p] * wk;
+    }
+    // Step 4: x = Pᵀ·w.
+    const rowOf = this.rowOf;
+    for (const k of reach) {
+      if (y[k] !== 0) {
+        out.index.push(rowOf[k]);
+        out.value.push(y[k]);
+      }
+      y[k] = 0;
+    }
+  }
+
+  /**
+   * Row-wise copies of U and L, built once per factorisation. (The search in
+   * `solveTransposeSparse` follows both, so its set holds every position either triangular
+   * solve can touch; positions that stay zero are skipped.)
+   */
+  private transposeRows(): NonNullable<SparseLU['rowsOf']> {
+    if (this.rowsOf && this.rowsOf.factorCount === this.factorCount) return this.rowsOf;
+    const n = this.n;
+    const build = (start: Int32Array, idx: Int32Array, val: Float64Array): { s: Int32Array; c: Int32Array; v: Float64Array } => {
+      const count = new Int32Array(n + 1);
+      const m = start[n];
+      for (let p = 0; p < m; p++) count[idx[p] + 1]++;
+      for (let i = 0; i < n; i++) count[i + 1] += count[i];
+      const fill = count.slice(0, n);
+      const c = new Int32Array(m);
+      const v = new Float64Array(m);
+      for (let j = 0; j < n; j++) {
+        for (let p = start[j]; p < start[j + 1]; p++) {
+          const at = fill[idx[p]]++;
+          c[at] = j;
+          v[at] = val[p];
+        }
+      }
+      return { s: count, c, v };
+    };
+    const u = build(this.uStart, this.uRow, this.uVal);
+    const l = build(this.lStart, this.lRow, this.lVal);
+    const qinv = new Int32Array(n);
+    for (let k = 0; k < n; k++) qinv[this.q[k]] = k;
+    this.rowsOf = { factorCount: this.factorCount, uStart: u.s, uCol: u.c, uVal: u.v, lStart: l.s, lCol: l.c, lVal: l.v, qinv };
+    return this.rowsOf;
   }
 
   private fail(reason: FactorFailure, index: number): FactorResult {

@@ -8,7 +8,7 @@ import type { Target } from '../checks/targets';
 import { targetElements, TargetIndex } from '../checks/targets';
 import { nameTable } from '../names';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { sensitivities, type VariedParameter } from './sensitivity';
+import { derivativeOf, sensitivities, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 
@@ -51,13 +51,19 @@ export interface VariationContext {
   defaultTargetTolerance: number;
 }
 
+/** The tolerance sources an output depends on and its derivatives with respect to them. */
+export interface SourceRow {
+  index: number[];
+  value: number[];
+}
+
 /** Everything the yield finding and Monte Carlo need beyond the plain result. */
 export interface VariationDetail {
   result: VariationResult;
   specs: OutputSpec[];
   sources: ToleranceSource[];
-  /** Per output: d(output)/d(source) for each tolerance source. */
-  bySource: Float64Array[];
+  /** Per output: the tolerance sources it depends on (indices into `sources`) and d(output)/d(source). */
+  bySource: SourceRow[];
 }
 
 /** The spread of every structure output and target element at the nominal solution; undefined when it did not converge. */
@@ -68,11 +74,11 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const specs = structureOutputs(circuit, structures);
   const targetOf = new Map<string, { current: number; tolerance: number }>();
   const have = new Set(specs.map((s) => s.key));
-  const index = new TargetIndex(circuit, structures);
+  const index = ctx.targets.length > 0 ? new TargetIndex(circuit, structures) : undefined;
   const elementIndex = new Map<string, number>();
   circuit.elements.forEach((e, i) => elementIndex.set(e.name, i));
   for (const t of ctx.targets) {
-    for (const el of targetElements(circuit, t, index)) {
+    for (const el of targetElements(circuit, t, index!)) {
       const key = `element ${el.name}`;
       targetOf.set(el.name, { current: t.current, tolerance: t.tolerance ?? ctx.defaultTargetTolerance });
       if (have.has(key)) continue;
@@ -111,28 +117,41 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   });
 
   const sens = sensitivities(lin, specs.map((s) => s.functional), params);
-  const bySource: Float64Array[] = [];
+  const sourceOfParam = new Int32Array(params.length).fill(-1);
+  sourceParam.forEach((j, k) => (sourceOfParam[j] = k));
+  // How each parameter's derivative is shown normalised: value · factor / |y|, in `unit`.
+  const shown: ({ name: string; unit: string; factor: number } | undefined)[] = new Array(params.length).fill(undefined);
+  for (const r of resistors) shown[r.j] = { name: r.name, unit: '%/%', factor: r.ohms };
+  for (const s of supplies) shown[s.j] = { name: s.name, unit: '%/V', factor: 100 };
+  sources.forEach((s, k) => {
+    if (s.parameter.kind !== 'model') return;
+    const j = sourceParam[k];
+    // A VBE shift ΔV is the IS ratio e^(−ΔV/(NF·VT)): dIS/dΔV = −σ_IS/σ_V (docs/VARIATION.md); per millivolt of the device's own shift.
+    if (s.aspect === 'VBE') shown[j] = { name: s.label, unit: '%/mV', factor: (-s.sigma / s.figure) * 1e-3 * 100 };
+    else if (s.aspect === 'VTH') shown[j] = { name: s.label, unit: '%/mV', factor: 1e-3 * 100 };
+    else shown[j] = { name: s.label, unit: '%/%', factor: s.nominal };
+  });
+  const bySource: SourceRow[] = [];
   const outputs: OutputVariation[] = specs.map((spec, o) => {
     const y = sens.value[o];
-    const d = sens.derivative[o];
+    const row = sens.derivative[o];
     const scale = Math.abs(y) > 0 ? Math.abs(y) : 1;
-    const per = new Float64Array(sources.length);
-    sources.forEach((s, k) => (per[k] = d[sourceParam[k]]));
+    const per: SourceRow = { index: [], value: [] };
+    const sensList: Sensitivity[] = [];
+    for (let q = 0; q < row.index.length; q++) {
+      const j = row.index[q];
+      const k = sourceOfParam[j];
+      if (k >= 0) {
+        per.index.push(k);
+        per.value.push(row.value[q]);
+      }
+      const how = shown[j];
+      if (how) sensList.push({ parameter: how.name, unit: how.unit, value: (row.value[q] * how.factor) / scale });
+    }
     bySource.push(per);
     const spread = spreadOf(sources, per);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
-    for (const s of supplies) supplyPercentPerVolt[s.name] = (d[s.j] / scale) * 100;
-    const sensList: Sensitivity[] = [];
-    for (const r of resistors) sensList.push({ parameter: r.name, unit: '%/%', value: (d[r.j] * r.ohms) / scale });
-    for (const s of supplies) sensList.push({ parameter: s.name, unit: '%/V', value: (d[s.j] / scale) * 100 });
-    sources.forEach((s, k) => {
-      if (s.parameter.kind !== 'model') return;
-      // A VBE shift is the IS ratio e^(−ΔV/(NF·VT)) (docs/VARIATION.md); per millivolt of the device's own shift.
-      const v = per[k];
-      if (s.label.endsWith(' VBE')) sensList.push({ parameter: s.label, unit: '%/mV', value: (-v * s.nominal * (s.sigma / s.nominal / s.figure)) * 1e-3 / scale * 100 });
-      else if (s.label.endsWith(' VTH')) sensList.push({ parameter: s.label, unit: '%/mV', value: (v * 1e-3 * 100) / scale });
-      else sensList.push({ parameter: s.label, unit: '%/%', value: (v * s.nominal) / scale });
-    });
+    for (const s of supplies) supplyPercentPerVolt[s.name] = (derivativeOf(sens, o, s.j) / scale) * 100;
     sensList.sort((a, b) => Math.abs(b.value) - Math.abs(a.value));
     const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
     const out: OutputVariation = {
@@ -146,7 +165,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
       sigmaRelative: spread.sigma / scale,
       worstCase: spread.worstCase,
       worstCaseRelative: spread.worstCase / scale,
-      tempcoPpmPerC: (d[temperature] / scale) * 1e6,
+      tempcoPpmPerC: (derivativeOf(sens, o, temperature) / scale) * 1e6,
       supplyPercentPerVolt,
       contributors: spread.contributors.slice(0, 8),
       sensitivities: sensList.slice(0, 10),
@@ -168,16 +187,17 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   return { result, specs, sources, bySource };
 }
 
-/** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives per source. */
-export function spreadOf(sources: readonly ToleranceSource[], per: Float64Array, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
+/** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives with respect to its sources. */
+export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
   const groups = new Map<string, { variance: number; worst: number; aspect?: string; members: { name: string; variance: number }[] }>();
   let variance = 0;
   let worstCase = 0;
-  sources.forEach((s, k) => {
+  per.index.forEach((k, q) => {
+    const s = sources[k];
     const sigma = sigmaOverride ? sigmaOverride(k) : s.sigma;
     const bound = sigmaOverride ? (s.bound / s.sigma) * sigma : s.bound;
-    const a = Math.abs(per[k] * sigma);
-    const w = Math.abs(per[k] * bound);
+    const a = Math.abs(per.value[q] * sigma);
+    const w = Math.abs(per.value[q] * bound);
     variance += a * a;
     worstCase += w;
     let g = groups.get(s.group);

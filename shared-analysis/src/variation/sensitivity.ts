@@ -2,7 +2,7 @@
 
 import type { Element } from '../circuit';
 import { MODEL_DEFAULTS } from '../devices/parameters';
-import type { DeviceKind, DeviceTable, LoadTally } from '../devices/device';
+import type { DeviceConditions, DeviceKind, DeviceTable, LoadTally } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
 import type { LinearReader } from '../solve/mna';
@@ -30,13 +30,33 @@ export interface OutputFunctional {
   magnitude: boolean;
 }
 
+/** The non-zero derivatives of one output: parameter indices (ascending) and d(output)/d(parameter). */
+export interface SparseRow {
+  index: Int32Array;
+  value: Float64Array;
+}
+
 export interface SensitivityResult {
   /** Each output's value at the solution. */
   value: number[];
-  /** `derivative[o][p]`: d(output o)/d(parameter p). */
-  derivative: Float64Array[];
+  /** Per output, the parameters it depends on and its derivatives (every other derivative is exactly zero). */
+  derivative: SparseRow[];
   /** Transposed solves done (one per output). */
   adjointSolves: number;
+}
+
+/** d(output o)/d(parameter j) from a result (0 where the output does not depend on it). */
+export function derivativeOf(r: SensitivityResult, o: number, j: number): number {
+  const row = r.derivative[o];
+  let lo = 0;
+  let hi = row.index.length - 1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    if (row.index[mid] === j) return row.value[mid];
+    if (row.index[mid] < j) lo = mid + 1;
+    else hi = mid - 1;
+  }
+  return 0;
 }
 
 /** Voltage step of the device-level central differences, volts (docs/VARIATION.md: truncation ≈ (h/VT)²/6 ≈ 3e-10). */
@@ -45,128 +65,6 @@ const VOLTAGE_STEP = 1e-6;
 const TEMPERATURE_STEP = 0.01;
 /** Relative step for a model parameter (absolute 1e-7 for a parameter at 0, such as VTO = 0). */
 const PARAMETER_STEP = 1e-6;
-
-/** One device instance evaluated on its own: its distinct unknowns, a one-instance table on local slots, and its local solution. */
-interface Probe {
-  kind: DeviceKind;
-  element: Element;
-  elementIndex: number;
-  /** Distinct MNA unknowns of the instance (ground left out); local index k stands for `globals[k]`. */
-  globals: Int32Array;
-  terminals: Int32Array;
-  positions: Int32Array;
-  x: Float64Array;
-  table: DeviceTable;
-}
-
-/** Everything a set of sensitivities is computed from, built on one linearisation. */
-class Context {
-  private readonly probes = new Map<number, Probe>();
-  private readonly deviceIndex = new Map<number, number>();
-  private readonly readerOf = new Map<number, LinearReader>();
-  private readonly sourceOf = new Map<number, number>();
-  private readonly tally: LoadTally = { limited: false, nonFinite: [] };
-
-  constructor(readonly lin: Linearisation) {
-    const order = lin.layout.deviceOrder;
-    for (let d = 0; d < order.element.length; d++) this.deviceIndex.set(order.element[d], d);
-    for (const r of lin.layout.readers) this.readerOf.set(r.element, r);
-    lin.layout.sources.forEach((s, k) => this.sourceOf.set(s.element, k));
-  }
-
-  v(u: number): number {
-    return u >= 0 ? this.lin.x[u] : 0;
-  }
-
-  isDevice(element: number): boolean {
-    return this.deviceIndex.has(element);
-  }
-
-  deviceElements(): number[] {
-    return [...this.deviceIndex.keys()];
-  }
-
-  probe(element: number): Probe | undefined {
-    const cached = this.probes.get(element);
-    if (cached) return cached;
-    const d = this.deviceIndex.get(element);
-    if (d === undefined) return undefined;
-    const { layout } = this.lin;
-    const table = layout.tables[layout.deviceOrder.table[d]];
-    const row = layout.deviceOrder.instance[d];
-    const kind = table.kind;
-    const T = kind.terminalCount;
-    const globals: number[] = [];
-    const terminals = new Int32Array(T);
-    for (let t = 0; t < T; t++) {
-      const g = table.instances.terminals[row * T + t];
-      if (g < 0) {
-        terminals[t] = -1;
-        continue;
-      }
-      let k = globals.indexOf(g);
-      if (k < 0) {
-        k = globals.length;
-        globals.push(g);
-      }
-      terminals[t] = k;
-    }
-    const L = globals.length;
-    const positions = new Int32Array(T * T);
-    for (let r = 0; r < T; r++) for (let c = 0; c < T; c++) positions[r * T + c] = terminals[r] < 0 || terminals[c] < 0 ? -1 : terminals[r] * L + terminals[c];
-    const x = new Float64Array(L);
-    for (let k = 0; k < L; k++) x[k] = this.lin.x[globals[k]];
-    const el = table.instances.elements[row];
-    const p: Probe = { kind, element: el, elementIndex: element, globals: Int32Array.from(globals), terminals, positions, x, table: undefined as unknown as DeviceTable };
-    p.table = this.tableFor(p, el);
-    this.probes.set(element, p);
-    return p;
-  }
-
-  /** A one-instance table of `el` on the probe's local slots, prepared for the linearisation's conditions. */
-  tableFor(p: Probe, el: Element): DeviceTable {
-    const table = p.kind.createTable({ count: 1, elements: [el], elementIndex: Int32Array.of(p.elementIndex), terminals: p.terminals, positions: p.positions }, []);
-    table.prepare(this.lin.conditions);
-    return table;
-  }
-
-  /** The currents the instance draws from each of its distinct unknowns (its part of the KCL rows) at the solution. */
-  residual(p: Probe, table: DeviceTable, out: Float64Array): Float64Array {
-    const L = p.globals.length;
-    const values = new Float64Array(L * L);
-    const rhs = new Float64Array(L);
-    table.resetState(p.x);
-    this.tally.limited = false;
-    this.tally.nonFinite.length = 0;
-    table.load(p.x, values, rhs, false, this.tally);
-    for (let r = 0; r < L; r++) {
-      let s = -rhs[r];
-      for (let c = 0; c < L; c++) s += values[r * L + c] * p.x[c];
-      out[r] = s;
-    }
-    return out;
-  }
-
-  terminalCurrent(p: Probe, table: DeviceTable, terminal: number): number {
-    return p.kind.terminalCurrent(table.evaluate(p.x), 0, terminal);
-  }
-
-  /** The probe table of the device with model parameter `param` moved by `delta`. */
-  variedTable(p: Probe, param: string, delta: number): DeviceTable {
-    const el = p.element;
-    if (!('model' in el)) return p.table;
-    const base = modelValue(el, param);
-    return this.tableFor(p, { ...el, model: { ...el.model, params: { ...el.model.params, [param]: base + delta } } } as Element);
-  }
-
-  reader(element: number): LinearReader | undefined {
-    return this.readerOf.get(element);
-  }
-
-  sourceHook(element: number): number | undefined {
-    return this.sourceOf.get(element);
-  }
-}
 
 /** A model parameter's value as the device uses it (the card's, else the default). */
 export function modelValue(el: Element, param: string): number {
@@ -182,201 +80,392 @@ function parameterStep(el: Element, param: string): number {
   return base > 0 ? base * PARAMETER_STEP : 1e-7;
 }
 
-/** The sparse column ∂F/∂p of every parameter (rows are MNA unknowns), built once per call. */
-interface Columns {
-  start: Int32Array;
-  row: Int32Array;
-  value: Float64Array;
+/** One device copy evaluated in a batch: the instance (maybe with changed parameters) and the solution it sees (maybe with one unknown moved). */
+interface Variant {
+  element: Element;
+  /** Global MNA unknown of each terminal (−1: ground). */
+  globals: ArrayLike<number>;
+  /** Moves global unknown `shift` by `delta` in this copy's view of the solution (−1: none). */
+  shift: number;
+  delta: number;
 }
 
-function buildColumns(ctx: Context, params: readonly VariedParameter[]): Columns {
-  const start: number[] = [0];
-  const row: number[] = [];
-  const value: number[] = [];
-  const { layout, conditions } = ctx.lin;
-  const els = layout.circuit.elements;
-  const put = (u: number, v: number): void => {
-    if (u < 0 || v === 0) return;
-    row.push(u);
-    value.push(v);
-  };
-  for (const p of params) {
-    switch (p.kind) {
-      case 'resistance': {
-        const stamp = layout.resistorStamps.get(p.element);
-        if (stamp?.kind === 'conductance' && stamp.g !== 0) {
-          const el = els[p.element];
-          const a = el.nodes[0] - 1;
-          const b = el.nodes[1] - 1;
-          // F_a gains g·(Va − Vb); dg/dR = −g².
-          const d = -stamp.g * stamp.g * (ctx.v(a) - ctx.v(b));
-          put(a, d);
-          put(b, -d);
-        }
-        break;
-      }
-      case 'source': {
-        const k = ctx.sourceHook(p.element);
-        if (k !== undefined) {
-          const hook = layout.sources[k];
-          if (hook.kind === 'V') put(hook.rows[0], -1);
-          else {
-            put(hook.rows[0], 1);
-            put(hook.rows[1], -1);
-          }
-        }
-        break;
-      }
-      case 'temperature': {
-        const dense = new Float64Array(layout.size);
-        const h = TEMPERATURE_STEP;
-        const at = (t: number) => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
-        for (const e of ctx.deviceElements()) {
-          const probe = ctx.probe(e)!;
-          const L = probe.globals.length;
-          const up = new Float64Array(L);
-          const down = new Float64Array(L);
-          probe.table.prepare(at(conditions.temperatureC + h));
-          ctx.residual(probe, probe.table, up);
-          probe.table.prepare(at(conditions.temperatureC - h));
-          ctx.residual(probe, probe.table, down);
-          probe.table.prepare(conditions);
-          for (let k = 0; k < L; k++) dense[probe.globals[k]] += (up[k] - down[k]) / (2 * h);
-        }
-        for (let u = 0; u < dense.length; u++) put(u, dense[u]);
-        break;
-      }
-      case 'model': {
-        const probe = ctx.probe(p.element);
-        if (probe) {
-          const h = parameterStep(probe.element, p.param);
-          const L = probe.globals.length;
-          const up = ctx.residual(probe, ctx.variedTable(probe, p.param, h), new Float64Array(L));
-          const down = ctx.residual(probe, ctx.variedTable(probe, p.param, -h), new Float64Array(L));
-          for (let k = 0; k < L; k++) put(probe.globals[k], (up[k] - down[k]) / (2 * h));
-        }
-        break;
-      }
-    }
-    start.push(row.length);
-  }
-  return { start: Int32Array.from(start), row: Int32Array.from(row), value: Float64Array.from(value) };
-}
+/**
+ * Copies of devices of one kind, each on its own local slots, in one table: a single load or
+ * evaluate computes every copy (so the cost of a sensitivity run is a few passes over the
+ * devices, not one table per device and perturbation).
+ */
+class Batch {
+  readonly table: DeviceTable;
+  readonly x: Float64Array;
+  private readonly T: number;
+  private readonly values: Float64Array;
+  private readonly rhs: Float64Array;
+  private readonly tally: LoadTally = { limited: false, nonFinite: [] };
 
-/** Value, ∂g/∂x (into `c`) and the explicit ∂g/∂p of one output. */
-function linearOutput(ctx: Context, out: OutputFunctional, params: readonly VariedParameter[], c: Float64Array, explicit: Float64Array): number {
-  const { layout, conditions } = ctx.lin;
-  const els = layout.circuit.elements;
-  c.fill(0);
-  explicit.fill(0);
-  let value = 0;
-  for (const term of out.terms) {
-    const w = term.weight;
-    if (term.kind === 'node') {
-      value += w * ctx.v(term.node - 1);
-      if (term.node > 0) c[term.node - 1] += w;
-      continue;
-    }
-    if (term.kind === 'element') {
-      const r = ctx.reader(term.element);
-      if (!r) continue;
-      const va = ctx.v(r.a) - ctx.v(r.b);
-      switch (r.kind) {
-        case 'conductance': {
-          value += w * r.g * va;
-          if (r.a >= 0) c[r.a] += w * r.g;
-          if (r.b >= 0) c[r.b] -= w * r.g;
-          params.forEach((p, j) => {
-            if (p.kind === 'resistance' && p.element === term.element) explicit[j] += -w * r.g * r.g * va;
-          });
-          break;
-        }
-        case 'branch':
-          value += w * ctx.lin.x[r.branch];
-          c[r.branch] += w;
-          break;
-        case 'source-current': {
-          value += w * ctx.lin.sourceValues[r.hook];
-          params.forEach((p, j) => {
-            if (p.kind === 'source' && p.element === term.element) explicit[j] += w;
-          });
-          break;
-        }
-        case 'vccs':
-          value += w * r.gain * (ctx.v(r.cp) - ctx.v(r.cn));
-          if (r.cp >= 0) c[r.cp] += w * r.gain;
-          if (r.cn >= 0) c[r.cn] -= w * r.gain;
-          break;
-        case 'cccs':
-          value += w * r.gain * ctx.lin.x[r.branch];
-          c[r.branch] += w * r.gain;
-          break;
-        case 'open':
-          break;
+  constructor(
+    readonly kind: DeviceKind,
+    readonly variants: Variant[],
+    solution: Float64Array,
+    conditions: DeviceConditions,
+  ) {
+    const T = (this.T = kind.terminalCount);
+    const V = variants.length;
+    const terminals = new Int32Array(V * T);
+    const positions = new Int32Array(V * T * T);
+    this.x = new Float64Array(V * T);
+    variants.forEach((v, i) => {
+      for (let t = 0; t < T; t++) {
+        const g = v.globals[t];
+        terminals[i * T + t] = g < 0 ? -1 : i * T + t;
+        this.x[i * T + t] = g < 0 ? 0 : solution[g] + (g === v.shift ? v.delta : 0);
       }
-      continue;
-    }
-    const probe = ctx.probe(term.element);
-    if (!probe) continue;
-    value += w * ctx.terminalCurrent(probe, probe.table, term.terminal);
-    for (let k = 0; k < probe.globals.length; k++) {
-      const x0 = probe.x[k];
-      const h = VOLTAGE_STEP;
-      probe.x[k] = x0 + h;
-      const up = ctx.terminalCurrent(probe, probe.table, term.terminal);
-      probe.x[k] = x0 - h;
-      const down = ctx.terminalCurrent(probe, probe.table, term.terminal);
-      probe.x[k] = x0;
-      c[probe.globals[k]] += (w * (up - down)) / (2 * h);
-    }
-    params.forEach((p, j) => {
-      if (p.kind === 'temperature') {
-        const at = (t: number) => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
-        probe.table.prepare(at(conditions.temperatureC + TEMPERATURE_STEP));
-        const up = ctx.terminalCurrent(probe, probe.table, term.terminal);
-        probe.table.prepare(at(conditions.temperatureC - TEMPERATURE_STEP));
-        const down = ctx.terminalCurrent(probe, probe.table, term.terminal);
-        probe.table.prepare(conditions);
-        explicit[j] += (w * (up - down)) / (2 * TEMPERATURE_STEP);
-      } else if (p.kind === 'model' && p.element === term.element) {
-        const h = parameterStep(probe.element, p.param);
-        const up = ctx.terminalCurrent(probe, ctx.variedTable(probe, p.param, h), term.terminal);
-        const down = ctx.terminalCurrent(probe, ctx.variedTable(probe, p.param, -h), term.terminal);
-        explicit[j] += (w * (up - down)) / (2 * h);
-      }
+      for (let r = 0; r < T; r++) for (let c = 0; c < T; c++) positions[i * T * T + r * T + c] = v.globals[r] < 0 || v.globals[c] < 0 ? -1 : i * T * T + r * T + c;
     });
+    this.table = kind.createTable({ count: V, elements: variants.map((v) => v.element), elementIndex: new Int32Array(V), terminals, positions }, []);
+    this.table.prepare(conditions);
+    this.table.resetState(this.x);
+    this.values = new Float64Array(V * T * T);
+    this.rhs = new Float64Array(V * T);
   }
-  void els;
-  return value;
+
+  /** The currents each copy draws at each of its terminals (its part of the KCL rows), at the copies' solutions. */
+  residuals(): Float64Array {
+    const { T, values, rhs, x } = this;
+    values.fill(0);
+    rhs.fill(0);
+    this.tally.limited = false;
+    this.tally.nonFinite.length = 0;
+    this.table.resetState(x);
+    this.table.load(x, values, rhs, false, this.tally);
+    const out = new Float64Array(rhs.length);
+    const V = this.variants.length;
+    for (let i = 0; i < V; i++) {
+      for (let r = 0; r < T; r++) {
+        let s = -rhs[i * T + r];
+        for (let c = 0; c < T; c++) s += values[i * T * T + r * T + c] * x[i * T + c];
+        out[i * T + r] = s;
+      }
+    }
+    return out;
+  }
+
+  /** Current into netlist terminal t of every copy. */
+  currents(terminal: (i: number) => number): Float64Array {
+    const cols = this.table.evaluate(this.x);
+    const out = new Float64Array(this.variants.length);
+    for (let i = 0; i < out.length; i++) {
+      const t = terminal(i);
+      out[i] = t < 0 ? 0 : this.kind.terminalCurrent(cols, i, t);
+    }
+    return out;
+  }
 }
 
 /**
  * d(output)/d(parameter) for every output and parameter at the linearised solution: one
- * transposed solve per output (Jᵀ·λ = ∂g/∂x), then dy/dp = ∂g/∂p − λ·∂F/∂p over the sparse
- * columns ∂F/∂p (docs/VARIATION.md). Device equations enter through the devices' own
- * tables, evaluated one instance at a time at the solution.
+ * transposed solve per output (Jᵀ·λ = ∂g/∂x, sparse, so an output costs what its part of the
+ * circuit costs), then dy/dp = ∂g/∂p − λ·∂F/∂p over the sparse columns ∂F/∂p
+ * (docs/VARIATION.md). Device equations enter through the devices' own tables, evaluated in
+ * batches of copies at the solution.
  */
 export function sensitivities(lin: Linearisation, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): SensitivityResult {
-  const ctx = new Context(lin);
-  const cols = buildColumns(ctx, params);
-  const n = lin.layout.size;
-  const c = new Float64Array(n);
-  const lambda = new Float64Array(n);
-  const explicit = new Float64Array(params.length);
-  const value: number[] = [];
-  const derivative: Float64Array[] = [];
-  for (const out of outputs) {
-    const y = linearOutput(ctx, out, params, c, explicit);
-    lin.solveTransposed(c, lambda);
-    const sign = out.magnitude && y < 0 ? -1 : 1;
-    const d = new Float64Array(params.length);
-    for (let j = 0; j < params.length; j++) {
-      let s = explicit[j];
-      for (let q = cols.start[j]; q < cols.start[j + 1]; q++) s -= lambda[cols.row[q]] * cols.value[q];
-      d[j] = sign * s;
+  const { layout, conditions, x } = lin;
+  const els = layout.circuit.elements;
+  const n = layout.size;
+  const order = layout.deviceOrder;
+  const v = (u: number): number => (u >= 0 ? x[u] : 0);
+  const deviceOf = new Map<number, number>();
+  for (let d = 0; d < order.element.length; d++) deviceOf.set(order.element[d], d);
+  const globalsOf = (d: number): Int32Array => {
+    const table = layout.tables[order.table[d]];
+    const T = table.kind.terminalCount;
+    return table.instances.terminals.subarray(order.instance[d] * T, order.instance[d] * T + T);
+  };
+  const elementOf = (d: number): Element => layout.tables[order.table[d]].instances.elements[order.instance[d]];
+  const readerOf = new Map<number, LinearReader>();
+  for (const r of layout.readers) readerOf.set(r.element, r);
+  const sourceOf = new Map<number, number>();
+  layout.sources.forEach((s, k) => sourceOf.set(s.element, k));
+  const at = (t: number): DeviceConditions => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
+  const temperatureParam = params.findIndex((p) => p.kind === 'temperature');
+
+  // Which parameters belong to which element (for the explicit ∂g/∂p of an output's own elements).
+  const paramsOfElement = new Map<number, number[]>();
+  params.forEach((p, j) => {
+    if (p.kind === 'temperature') return;
+    const list = paramsOfElement.get(p.element);
+    if (list) list.push(j);
+    else paramsOfElement.set(p.element, [j]);
+  });
+
+  // ---- the columns ∂F/∂p, gathered by row: rowParams[u] lists (parameter, value) ----
+  const colRow: number[] = [];
+  const colParam: number[] = [];
+  const colValue: number[] = [];
+  const put = (j: number, u: number, val: number): void => {
+    if (u < 0 || val === 0 || !Number.isFinite(val)) return;
+    colRow.push(u);
+    colParam.push(j);
+    colValue.push(val);
+  };
+
+  // Devices by kind: the nominal copies (temperature) and the parameter copies (model parameters).
+  const devicesByKind = new Map<DeviceKind, number[]>();
+  for (let d = 0; d < order.element.length; d++) {
+    const kind = layout.tables[order.table[d]].kind;
+    const list = devicesByKind.get(kind);
+    if (list) list.push(d);
+    else devicesByKind.set(kind, [d]);
+  }
+  // Explicit partials of device currents, filled below: (device, terminal, parameter) -> d current / d parameter.
+  // Keys are device·16 + terminal (no kind has 16 terminals) and, for a parameter, that times the parameter count plus j.
+  const explicitDevice = new Map<number, number>();
+  const slot = (d: number, t: number): number => d * 16 + t;
+  const key = (d: number, t: number, j: number): number => slot(d, t) * params.length + j;
+  const wantedTerminals = new Map<number, Set<number>>();
+  for (const out of outputs)
+    for (const term of out.terms)
+      if (term.kind === 'terminal') {
+        const d = deviceOf.get(term.element);
+        if (d === undefined) continue;
+        let set = wantedTerminals.get(d);
+        if (!set) wantedTerminals.set(d, (set = new Set()));
+        set.add(term.terminal);
+      }
+
+  for (const [kind, devices] of devicesByKind) {
+    const T = kind.terminalCount;
+    // Temperature: every device's residual at T ± h, and the wanted terminal currents.
+    if (temperatureParam >= 0) {
+      const batch = new Batch(kind, devices.map((d) => ({ element: elementOf(d), globals: globalsOf(d), shift: -1, delta: 0 })), x, conditions);
+      const h = TEMPERATURE_STEP;
+      batch.table.prepare(at(conditions.temperatureC + h));
+      const up = batch.residuals();
+      const upI = new Map<number, Float64Array>();
+      for (const t of new Set([...wantedTerminals.values()].flatMap((s) => [...s]))) upI.set(t, batch.currents(() => t));
+      batch.table.prepare(at(conditions.temperatureC - h));
+      const down = batch.residuals();
+      devices.forEach((d, i) => {
+        const g = globalsOf(d);
+        for (let t = 0; t < T; t++) put(temperatureParam, g[t], (up[i * T + t] - down[i * T + t]) / (2 * h));
+      });
+      for (const [t, ups] of upI) {
+        const downs = batch.currents(() => t);
+        devices.forEach((d, i) => {
+          if (wantedTerminals.get(d)?.has(t)) explicitDevice.set(key(d, t, temperatureParam), (ups[i] - downs[i]) / (2 * h));
+        });
+      }
     }
+    // Model parameters: a +h and a −h copy of the device for each.
+    const copies: Variant[] = [];
+    const meta: { d: number; j: number; h: number }[] = [];
+    for (const d of devices) {
+      const e = order.element[d];
+      for (const j of paramsOfElement.get(e) ?? []) {
+        const p = params[j];
+        if (p.kind !== 'model') continue;
+        const el = elementOf(d);
+        if (!('model' in el)) continue;
+        const h = parameterStep(el, p.param);
+        const base = modelValue(el, p.param);
+        for (const delta of [h, -h]) copies.push({ element: { ...el, model: { ...el.model, params: { ...el.model.params, [p.param]: base + delta } } } as Element, globals: globalsOf(d), shift: -1, delta: 0 });
+        meta.push({ d, j, h });
+      }
+    }
+    if (copies.length > 0) {
+      const batch = new Batch(kind, copies, x, conditions);
+      const res = batch.residuals();
+      meta.forEach((m, k) => {
+        const g = globalsOf(m.d);
+        for (let t = 0; t < T; t++) put(m.j, g[t], (res[2 * k * T + t] - res[(2 * k + 1) * T + t]) / (2 * m.h));
+      });
+      const terminalsWanted = new Set([...wantedTerminals.values()].flatMap((s) => [...s]));
+      for (const t of terminalsWanted) {
+        const cur = batch.currents(() => t);
+        meta.forEach((m, k) => {
+          if (wantedTerminals.get(m.d)?.has(t)) explicitDevice.set(key(m.d, t, m.j), (cur[2 * k] - cur[2 * k + 1]) / (2 * m.h));
+        });
+      }
+    }
+  }
+
+  params.forEach((p, j) => {
+    if (p.kind === 'resistance') {
+      const stamp = layout.resistorStamps.get(p.element);
+      if (stamp?.kind === 'conductance' && stamp.g !== 0) {
+        const el = els[p.element];
+        const a = el.nodes[0] - 1;
+        const b = el.nodes[1] - 1;
+        // F_a gains g·(Va − Vb); dg/dR = −g².
+        const d = -stamp.g * stamp.g * (v(a) - v(b));
+        put(j, a, d);
+        put(j, b, -d);
+      }
+    } else if (p.kind === 'source') {
+      const k = sourceOf.get(p.element);
+      if (k !== undefined) {
+        const hook = layout.sources[k];
+        if (hook.kind === 'V') put(j, hook.rows[0], -1);
+        else {
+          put(j, hook.rows[0], 1);
+          put(j, hook.rows[1], -1);
+        }
+      }
+    }
+  });
+
+  // Row-major index of the columns.
+  const rowStart = new Int32Array(n + 1);
+  for (const u of colRow) rowStart[u + 1]++;
+  for (let u = 0; u < n; u++) rowStart[u + 1] += rowStart[u];
+  const fill = rowStart.slice(0, n);
+  const rowParam = new Int32Array(colRow.length);
+  const rowValue = new Float64Array(colRow.length);
+  for (let q = 0; q < colRow.length; q++) {
+    const at = fill[colRow[q]]++;
+    rowParam[at] = colParam[q];
+    rowValue[at] = colValue[q];
+  }
+
+  // ---- ∂g/∂x of device terminal currents: copies with one unknown moved by ±h ----
+  const deviceRows = new Map<number, { u: number[]; d: number[] }>();
+  const deviceValue = new Map<number, number>();
+  for (const [kind, devices] of devicesByKind) {
+    const wanted = devices.filter((d) => wantedTerminals.has(d));
+    if (wanted.length === 0) continue;
+    const copies: Variant[] = [];
+    const meta: { d: number; u: number }[] = [];
+    const nominalCopies: Variant[] = [];
+    for (const d of wanted) {
+      const g = globalsOf(d);
+      nominalCopies.push({ element: elementOf(d), globals: g, shift: -1, delta: 0 });
+      const seen = new Set<number>();
+      for (let t = 0; t < g.length; t++) {
+        const u = g[t];
+        if (u < 0 || seen.has(u)) continue;
+        seen.add(u);
+        copies.push({ element: elementOf(d), globals: g, shift: u, delta: VOLTAGE_STEP }, { element: elementOf(d), globals: g, shift: u, delta: -VOLTAGE_STEP });
+        meta.push({ d, u });
+      }
+    }
+    const nominalBatch = new Batch(kind, nominalCopies, x, conditions);
+    const batch = new Batch(kind, copies, x, conditions);
+    const terminals = new Set([...wanted].flatMap((d) => [...wantedTerminals.get(d)!]));
+    for (const t of terminals) {
+      const nominalI = nominalBatch.currents(() => t);
+      wanted.forEach((d, i) => {
+        if (wantedTerminals.get(d)!.has(t)) deviceValue.set(slot(d, t), nominalI[i]);
+      });
+      const cur = batch.currents(() => t);
+      meta.forEach((m, k) => {
+        if (!wantedTerminals.get(m.d)!.has(t)) return;
+        const id = slot(m.d, t);
+        let row = deviceRows.get(id);
+        if (!row) deviceRows.set(id, (row = { u: [], d: [] }));
+        row.u.push(m.u);
+        row.d.push((cur[2 * k] - cur[2 * k + 1]) / (2 * VOLTAGE_STEP));
+      });
+    }
+  }
+
+  // ---- one sparse transposed solve per output ----
+  const value: number[] = [];
+  const derivative: SparseRow[] = [];
+  const acc = new Float64Array(params.length);
+  const touched: number[] = [];
+  const mark = new Uint8Array(params.length);
+  const lambda = { index: [] as number[], value: [] as number[] };
+  const cMap = new Map<number, number>();
+  const add = (j: number, val: number): void => {
+    if (!mark[j]) {
+      mark[j] = 1;
+      touched.push(j);
+    }
+    acc[j] += val;
+  };
+  for (const out of outputs) {
+    cMap.clear();
+    const addC = (u: number, val: number): void => {
+      if (u < 0) return;
+      cMap.set(u, (cMap.get(u) ?? 0) + val);
+    };
+    let y = 0;
+    touched.length = 0;
+    const explicitTerms: [number, number][] = [];
+    for (const term of out.terms) {
+      const w = term.weight;
+      if (term.kind === 'node') {
+        y += w * v(term.node - 1);
+        addC(term.node - 1, w);
+        continue;
+      }
+      if (term.kind === 'element') {
+        const r = readerOf.get(term.element);
+        if (!r) continue;
+        const drop = v(r.a) - v(r.b);
+        switch (r.kind) {
+          case 'conductance':
+            y += w * r.g * drop;
+            addC(r.a, w * r.g);
+            addC(r.b, -w * r.g);
+            for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'resistance') explicitTerms.push([j, -w * r.g * r.g * drop]);
+            break;
+          case 'branch':
+            y += w * x[r.branch];
+            addC(r.branch, w);
+            break;
+          case 'source-current':
+            y += w * lin.sourceValues[r.hook];
+            for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'source') explicitTerms.push([j, w]);
+            break;
+          case 'vccs':
+            y += w * r.gain * (v(r.cp) - v(r.cn));
+            addC(r.cp, w * r.gain);
+            addC(r.cn, -w * r.gain);
+            break;
+          case 'cccs':
+            y += w * r.gain * x[r.branch];
+            addC(r.branch, w * r.gain);
+            break;
+          case 'open':
+            break;
+        }
+        continue;
+      }
+      const d = deviceOf.get(term.element);
+      if (d === undefined) continue;
+      const id = slot(d, term.terminal);
+      y += w * (deviceValue.get(id) ?? 0);
+      const row = deviceRows.get(id);
+      if (row) for (let k = 0; k < row.u.length; k++) addC(row.u[k], w * row.d[k]);
+      if (temperatureParam >= 0) explicitTerms.push([temperatureParam, w * (explicitDevice.get(key(d, term.terminal, temperatureParam)) ?? 0)]);
+      for (const j of paramsOfElement.get(term.element) ?? []) {
+        const e = explicitDevice.get(key(d, term.terminal, j));
+        if (e !== undefined) explicitTerms.push([j, w * e]);
+      }
+    }
+    const sign = out.magnitude && y < 0 ? -1 : 1;
+    for (const [j, val] of explicitTerms) add(j, val);
+    const cIndex = [...cMap.keys()];
+    const cValue = cIndex.map((u) => cMap.get(u)!);
+    lin.solveTransposedSparse(cIndex, cValue, lambda);
+    for (let k = 0; k < lambda.index.length; k++) {
+      const u = lambda.index[k];
+      const l = lambda.value[k];
+      for (let q = rowStart[u]; q < rowStart[u + 1]; q++) add(rowParam[q], -l * rowValue[q]);
+    }
+    touched.sort((a, b) => a - b);
+    const index = new Int32Array(touched.length);
+    const vals = new Float64Array(touched.length);
+    touched.forEach((j, k) => {
+      index[k] = j;
+      vals[k] = sign * acc[j];
+      acc[j] = 0;
+      mark[j] = 0;
+    });
     value.push(sign * y);
-    derivative.push(d);
+    derivative.push({ index, value: vals });
   }
   return { value, derivative, adjointSolves: outputs.length };
 }

@@ -31,7 +31,6 @@ export function spreadText(v: OutputVariation): string {
   const top = v.contributors.filter((c) => c.share >= 0.005).slice(0, 3);
   if (top.length) parts.push(`from ${top.map((c) => `${c.name} ${Math.round(c.share * 100)} %`).join(', ')}`);
   if (v.target) parts.push(`predicted yield ${percentText(v.target.yield)} within ${formatEngineering(v.target.current, { unit: 'A', digits: 3 })} ±${percentText(v.target.tolerance)}`);
-  if (v.monteCarlo && v.monteCarlo.converged > 1) parts.push(`Monte Carlo (${v.monteCarlo.converged} runs): σ ${percentText(v.monteCarlo.sigma / Math.abs(v.nominal || 1))}`);
   return parts.join('; ');
 }
 
@@ -42,4 +41,17 @@ export function variationOfElement(analysis: Analysis, name: string): OutputVari
   const lower = name.toLowerCase();
   const mine = list.filter((o) => o.element?.toLowerCase() === lower);
   return mine.find((o) => o.key.includes(' out ')) ?? mine.find((o) => o.key.startsWith('element ')) ?? mine.find((o) => o.key.endsWith(' iref'));
+}
+
+const BARS = '▁▂▃▄▅▆▇█';
+
+/** A Monte Carlo histogram as one line of block characters, with its range: `▁▂▅█▆▃▁ 431 µA … 529 µA`. */
+export function histogramText(v: OutputVariation): string | undefined {
+  const mc = v.monteCarlo;
+  if (!mc || mc.converged < 2) return undefined;
+  const top = Math.max(1, ...mc.histogram.slice(0, 64));
+  const bars = mc.histogram.map((c) => (c === 0 ? ' ' : BARS[Math.min(BARS.length - 1, Math.floor((c / top) * (BARS.length - 1) + 0.5))])).join('');
+  const unit = v.unit;
+  const y = mc.yield !== undefined ? `; ${percentText(mc.yield)} of runs within the target` : '';
+  return `Monte Carlo, ${mc.converged} runs: mean ${formatEngineering(mc.mean, { unit, digits: 4 })}, σ ${percentText(mc.sigma / Math.abs(v.nominal || 1))}${y}; ${formatEngineering(mc.min, { unit, digits: 3 })} ${bars} ${formatEngineering(mc.max, { unit, digits: 3 })}`;
 }
