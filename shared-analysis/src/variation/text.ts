@@ -1,6 +1,7 @@
 // The variation figures in words, one compact line per output, shared by the hover and the text report.
 
 import type { Analysis } from '../analysis';
+import { maxOf } from '../arrays';
 import { formatEngineering } from '../fixes/format';
 import type { OutputVariation } from './types';
 
@@ -49,7 +50,7 @@ const BARS = '▁▂▃▄▅▆▇█';
 export function histogramText(v: OutputVariation): string | undefined {
   const mc = v.monteCarlo;
   if (!mc || mc.converged < 2) return undefined;
-  const top = Math.max(1, ...mc.histogram.slice(0, 64));
+  const top = Math.max(1, maxOf(mc.histogram));
   const bars = mc.histogram.map((c) => (c === 0 ? ' ' : BARS[Math.min(BARS.length - 1, Math.floor((c / top) * (BARS.length - 1) + 0.5))])).join('');
   const unit = v.unit;
   const y = mc.yield !== undefined ? `; ${percentText(mc.yield)} of runs within the target` : '';
