@@ -50,6 +50,8 @@ Options:
   --cold C / --hot C           corner temperatures, hot above cold (default -40 / 125)
   --beta-low F / --beta-high F beta corner factors, low in (0, 1], high in [1, 100] (default 0.5 / 2)
   --no-corners                 skip the corner re-solves
+  --process-kp PCT             add slow/fast MOS process corners: every KP down/up by PCT (0 to 50)
+  --process-vto V              ... and every |VTO| up/down by V (0 to 1); either one turns them on
   --no-variation               skip the spread analysis (sensitivities, σ, worst case, yield)
   --resistor-tolerance PCT     tolerance of a resistor without '; tol' on its card, 0 to 50
                                (default: the --series tolerance, E24 5 %)
@@ -214,6 +216,12 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         break;
       case '--no-corners':
         corners.enabled = false;
+        break;
+      case '--process-kp':
+        corners.processKpTolerance = numberFlag(a, next(), OPTION_RULES.processKpPercent) / 100;
+        break;
+      case '--process-vto':
+        corners.processVtoShift = numberFlag(a, next(), OPTION_RULES.processVtoShiftV);
         break;
       case '--no-variation':
         (opts.analysis.variation ??= {}).enabled = false;

@@ -27,6 +27,8 @@ export const OPTION_RULES = {
   betaHigh: { ok: (v: number) => v >= 1 && v <= 100, rule: 'a factor from 1 to 100' },
   headroomMarginV: { ok: (v: number) => v >= 0 && v < 1000, rule: 'a voltage from 0 to 1000 V' },
   powerLimitW: { ok: (v: number) => v > 0 && v < 1e6, rule: 'a number of watts above 0 and below 1 MW' },
+  processKpPercent: { ok: (v: number) => v >= 0 && v <= 50, rule: 'a percentage from 0 to 50' },
+  processVtoShiftV: { ok: (v: number) => v >= 0 && v <= 1, rule: 'a voltage from 0 to 1 V' },
   resistorTolerancePercent: { ok: (v: number) => v >= 0 && v <= 50, rule: 'a percentage from 0 to 50' },
   yieldTargetPercent: { ok: (v: number) => v > 0 && v < 100, rule: 'a percentage above 0 and below 100' },
   monteCarloRuns: { ok: (v: number) => Number.isInteger(v) && v >= 1 && v <= 100000, rule: 'a whole number of runs from 1 to 100000' },

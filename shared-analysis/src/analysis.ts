@@ -21,6 +21,13 @@ export interface CornerOptions {
   /** Beta multipliers for the low and high corner. */
   betaLow: number;
   betaHigh: number;
+  /**
+   * MOS process corners (off at 0): every MOSFET's KP moved down (slow) and up (fast) by this
+   * relative amount, together with `processVtoShift`.
+   */
+  processKpTolerance?: number;
+  /** MOS process corners: the threshold magnitude raised (slow) and lowered (fast) by this many volts (off at 0). */
+  processVtoShift?: number;
 }
 
 /** The spread analysis of docs/VARIATION.md. */

@@ -11,6 +11,7 @@ import { structureVoltages, summariseVoltageCorners } from '../structures/voltag
 import type { CornerResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
+import { modelValue } from '../variation/sensitivity';
 import { nameTable } from '../names';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
@@ -49,6 +50,8 @@ export interface CornerSpec {
   singleScale?: number;
   temperatureC: number;
   betaScale: number;
+  /** MOS process corner: every MOSFET slow (KP down, |VTO| up) or fast (the reverse), when the options enable it. */
+  process?: 'slow' | 'fast';
 }
 
 /** Inputs of `runCorners`. */
@@ -106,8 +109,11 @@ function degrees(t: number): string {
  * is the beta axis for a circuit without bipolar devices. Current sources keep their value: the
  * supply tolerance applies to voltage sources on the rails only.
  */
-export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[], scope: { bipolar: boolean } = { bipolar: true }): CornerSpec[] {
+export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[], scope: { bipolar: boolean; mos?: boolean } = { bipolar: true }): CornerSpec[] {
   const c = options.corners;
+  // The MOS process axis (slow, typical, fast) exists only when a setting gives it a size and the circuit has MOSFETs.
+  const processOn = scope.mos === true && ((c.processKpTolerance ?? 0) > 0 || (c.processVtoShift ?? 0) > 0);
+  const processes: ('slow' | 'fast' | undefined)[] = processOn ? ['slow', undefined, 'fast'] : [undefined];
   const tol = Number.isFinite(c.supplyTolerance) ? Math.abs(c.supplyTolerance) : 0;
   const supply = uniq(sources.length > 0 ? [1 - tol, 1, 1 + tol] : [1]);
   const temps = uniq([c.coldC, nominalC, c.hotC].filter(Number.isFinite));
@@ -117,12 +123,15 @@ export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources:
   for (const s of supply) {
     for (const t of temps) {
       for (const b of betas) {
-        if (s === 1 && t === nominalC && b === 1) continue;
-        const parts: string[] = [];
-        if (s !== 1) parts.push(`supply ${signedPct(s)}`);
-        if (t !== nominalC) parts.push(degrees(t));
-        if (b !== 1) parts.push(`beta ×${Number(b.toPrecision(3))}`);
-        specs.push({ label: parts.join(', '), supplyScale: s, temperatureC: t, betaScale: b });
+        for (const process of processes) {
+          if (s === 1 && t === nominalC && b === 1 && !process) continue;
+          const parts: string[] = [];
+          if (s !== 1) parts.push(`supply ${signedPct(s)}`);
+          if (t !== nominalC) parts.push(degrees(t));
+          if (b !== 1) parts.push(`beta ×${Number(b.toPrecision(3))}`);
+          if (process) parts.push(`${process} MOS`);
+          specs.push({ label: parts.join(', '), supplyScale: s, temperatureC: t, betaScale: b, ...(process ? { process } : {}) });
+        }
       }
     }
   }
@@ -166,7 +175,20 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
-  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q') });
+  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q'), mos: circuit.elements.some((e) => e.kind === 'M') });
+  const processParameters = (process: 'slow' | 'fast'): Record<string, Record<string, number>> => {
+    // Slow: KP·(1 − tol) and the threshold magnitude raised by the shift; fast the reverse (every MOSFET together).
+    const sign = process === 'slow' ? 1 : -1;
+    const out: Record<string, Record<string, number>> = nameTable();
+    for (const e of circuit.elements) {
+      if (e.kind !== 'M') continue;
+      const kp = modelValue(e, 'KP');
+      const vto = modelValue(e, 'VTO');
+      const polarity = e.model.kind === 'pmos' ? -1 : 1;
+      out[e.name] = { KP: kp * (1 - sign * (options.corners.processKpTolerance ?? 0)), VTO: vto + polarity * sign * (options.corners.processVtoShift ?? 0) };
+    }
+    return out;
+  };
 
   let solveMs = 0;
   const tStart = clock();
@@ -183,7 +205,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
       const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
       if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
     }
-    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x };
+    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     let result: DcSolveResult | undefined;
     const ts = clock();
     try {
@@ -245,6 +267,7 @@ function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structu
       supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
       temperatureC: spec.temperatureC,
       betaScale: spec.betaScale,
+      ...(spec.process ? { process: spec.process } : {}),
       converged: false,
       iref: 0,
       iout: Object.fromEntries(s.outputs.map((o) => [o.device, 0])),
@@ -257,6 +280,7 @@ function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structu
     supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
     temperatureC: spec.temperatureC,
     betaScale: spec.betaScale,
+    ...(spec.process ? { process: spec.process } : {}),
     converged: true,
     iref: finite(m.iref),
     iout: mapFinite(m.iout),

@@ -179,6 +179,8 @@ export interface CornerResult {
   supplyScale: number;
   temperatureC: number;
   betaScale: number;
+  /** MOS process corner (every MOSFET slow or fast), when the options enable that axis. */
+  process?: 'slow' | 'fast';
   converged: boolean;
   iref: number;
   iout: Record<string, number>;

@@ -57,7 +57,7 @@ export function summariseVoltageCorners(s: Structure): void {
     const vals = s.corners.filter((c) => c.converged && c.voltages?.[v.name] !== undefined).map((c) => c.voltages![v.name]);
     if (v.solved !== undefined) vals.push(v.solved);
     v.cornerRange = vals.length > 0 ? { min: minOf(vals), max: maxOf(vals) } : undefined;
-    const temps = s.corners.filter((c) => c.converged && c.supplyScale === 1 && c.betaScale === 1 && c.voltages?.[v.name] !== undefined);
+    const temps = s.corners.filter((c) => c.converged && c.supplyScale === 1 && c.betaScale === 1 && !c.process && c.voltages?.[v.name] !== undefined);
     const cold = temps.reduce<(typeof temps)[number] | undefined>((a, c) => (!a || c.temperatureC < a.temperatureC ? c : a), undefined);
     const hot = temps.reduce<(typeof temps)[number] | undefined>((a, c) => (!a || c.temperatureC > a.temperatureC ? c : a), undefined);
     const nominal = v.solved ?? v.estimate;

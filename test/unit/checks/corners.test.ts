@@ -73,6 +73,38 @@ describe('cornerSpecs', () => {
     expect(cornerSpecs(resolveOptions({}), 27, ['VDD'], { bipolar: false })).toHaveLength(8);
   });
 
+  it('adds slow and fast MOS process corners only when a setting sizes them and the circuit has MOSFETs: 3 × 3 × 3 − 1 = 26', () => {
+    const on = resolveOptions({ corners: { processKpTolerance: 0.1, processVtoShift: 0.05 } });
+    const specs = cornerSpecs(on, 27, ['VDD'], { bipolar: false, mos: true });
+    expect(specs).toHaveLength(26);
+    expect(specs.filter((s) => s.process === 'slow')).toHaveLength(9);
+    expect(specs.find((s) => s.process === 'fast' && s.supplyScale === 1 && s.temperatureC === 27)?.label).toBe('fast MOS');
+    expect(cornerSpecs(on, 27, ['VDD'], { bipolar: true, mos: false })).toHaveLength(26);
+    expect(cornerSpecs(on, 27, ['VDD'], { bipolar: true, mos: false }).some((s) => s.process)).toBe(false);
+    expect(cornerSpecs(resolveOptions({}), 27, ['VDD'], { bipolar: false, mos: true })).toHaveLength(8);
+  });
+
+  it('solves a slow corner below and a fast corner above nominal for a square-law mirror fed by a resistor', () => {
+    // I = KP/2·(W/L)·(VGS − VTO)²: lower KP and higher VTO both lower the current (Shichman–Hodges).
+    const net = `nmos mirror
+VDD vdd 0 3.3
+RREF vdd g 20k
+M1 g g 0 0 nch W=10u L=1u
+M2 out g 0 0 nch W=10u L=1u
+RL vdd out 5k
+.model nch nmos (KP=100u VTO=0.6)
+.end
+`;
+    const { structures } = run(net, { corners: { processKpTolerance: 0.1, processVtoShift: 0.05 } });
+    const corners = structures[0].corners;
+    const slow = corners.find((c) => c.label === 'slow MOS')!;
+    const fast = corners.find((c) => c.label === 'fast MOS')!;
+    const root = parse(URI, net, { hasTitle: true });
+    const nominal = solveOperatingPoint(elaborate(root, new MemoryWorkspace({ [URI]: net }), {}).circuit).op.devices['M2'] as { id: number };
+    expect(slow.iout['M2']).toBeLessThan(Math.abs(nominal.id));
+    expect(fast.iout['M2']).toBeGreaterThan(Math.abs(nominal.id));
+  });
+
   it('drops levels equal to nominal', () => {
     expect(cornerSpecs(resolveOptions({ corners: { supplyTolerance: 0 } }), 27, ['V1'])).toHaveLength(8);
     expect(cornerSpecs(resolveOptions({ corners: { coldC: 27 } }), 27, ['V1'])).toHaveLength(17);
