@@ -12,7 +12,7 @@ import { checkPlausibility } from './checks/plausibility';
 import { runCorners, type CornerStats } from './checks/corners';
 import { checkStartup } from './checks/startup';
 import { readTargets, checkTargets } from './checks/targets';
-import { attachFixes, attachSizingFixes, sizingFixes } from './fixes/index';
+import { attachFixes, attachSizingFixes, sizingFixes, type SizingFixContext } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
 import { limitIncludedExcerpts } from './excerpts';
 import type { Finding, Fix, Location, Workspace } from './types';
@@ -218,7 +218,21 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
 export function sizingFixesOf(session: AnalysisSession, finding: Finding): Fix[] {
   const { analysis, solver } = session;
   if (!solver || !analysis.circuit) return [];
-  return sizingFixes(finding, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
+  return sizingFixes(finding, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) });
+}
+
+/** The relative σ of each element's current from `analysis.variation`, for the sizing fixes' predicted yield. */
+function spreadOf(analysis: Analysis): SizingFixContext['spread'] {
+  const outputs = analysis.variation?.outputs;
+  if (!outputs) return undefined;
+  return {
+    yieldTarget: analysis.options.variation.yieldTarget,
+    sigmaRelative: (element) => {
+      const lower = element.toLowerCase();
+      const o = outputs.find((v) => v.element?.toLowerCase() === lower && !v.key.endsWith(' iref') && v.unit === 'A');
+      return o?.sigmaRelative;
+    },
+  };
 }
 
 /** Appends the sizing fixes to every `target-missed` finding of the session's analysis (for reports that list all fixes). */
@@ -226,7 +240,7 @@ export function attachAllSizingFixes(session: AnalysisSession): void {
   const { analysis, solver } = session;
   // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
   if (!solver || !analysis.circuit || !session.nominal) return;
-  attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options });
+  attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) });
 }
 
 /** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners). */

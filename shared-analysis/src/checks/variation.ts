@@ -12,7 +12,7 @@ import { fractionWithin, spreadOf, type VariationDetail } from '../variation/ind
 export const VARIATION_CODES: Record<string, { severity: Severity; summary: string }> = {
   'target-yield-low': {
     severity: 'warning',
-    summary: 'An element meets its target at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it.',
+    summary: 'An element meets a target that states its tolerance at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it.',
   },
 };
 
@@ -26,7 +26,7 @@ const AREA_FACTORS = [2, 4, 8, 16, 32];
 const pct = (r: number): string => formatPercent(r, 3).replace(/^\+/, '');
 const plain = (r: number): string => `${+(r * 100).toPrecision(3)} %`;
 
-/** A `target-yield-low` finding for every target element whose predicted yield falls below `yieldTarget`; targets already missed at nominal are left to `target-missed`. */
+/** A `target-yield-low` finding for every target element, of a target that writes its own tolerance, whose predicted yield falls below `yieldTarget`; targets already missed at nominal are left to `target-missed`. */
 export function checkYield(circuit: Circuit, structures: Structure[], targets: Target[], detail: VariationDetail, yieldTarget: number): Finding[] {
   const out: Finding[] = [];
   const index = new TargetIndex(circuit, structures);
@@ -35,6 +35,8 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
     if (s.role === 'element' || s.role === 'iout') if (s.element && !specIndex.has(s.element)) specIndex.set(s.element, o);
   });
   for (const t of targets) {
+    // A window the designer did not write (the series tolerance by default) is not theirs to be held to.
+    if (t.tolerance === undefined) continue;
     for (const el of targetElements(circuit, t, index)) {
       const o = specIndex.get(el.name);
       if (o === undefined) continue;

@@ -9,6 +9,7 @@ import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Finding, Fix, Severity } from '../types';
 import { isSeriesName, seriesTolerance, type SeriesName } from './e-series';
 import { formatEngineering, formatPercent } from './format';
+import { fractionWithin } from '../variation/index';
 import { misspeltDotCardFixes, missingModelFixes, unifyMirrorModelFixes } from './model-fixes';
 import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingResult } from './resistor-for-current';
 import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value';
@@ -40,6 +41,8 @@ export interface SizingFixContext {
   options: ResolvedOptions;
   /** Sizing results by (resistor, device, target, series), shared across calls; optional. */
   cache?: Map<string, SizingResult>;
+  /** The relative σ of an element's current from the spread analysis, when it has one (docs/VARIATION.md): sizing then says each value's predicted yield and prefers acceptable ones. */
+  spread?: { sigmaRelative: (element: string) => number | undefined; yieldTarget: number };
 }
 
 /**
@@ -286,7 +289,9 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   // Writing the value the card already has would change nothing.
   const useful = offered.filter((o) => Math.abs(o.c.value - current) > 1e-9 * current);
   if (useful.length === 0) return { fixes: [], problem: sizing.problem };
-  const built: { fix: Fix; error: number; clean: boolean }[] = [];
+  const built: { fix: Fix; error: number; clean: boolean; yieldOk: boolean }[] = [];
+  // The spread scales with the current: the candidate's σ is the analysed relative σ times its current.
+  const sigmaRel = ctx.spread?.sigmaRelative(element);
   for (const o of useful) {
     const c = o.c;
     const change = resistorValueChange(r, documents, c.value);
@@ -296,17 +301,22 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;
     const selfText = selfOut && structure ? `; ${selfOut} is ${isBipolar(structure.technology) ? 'saturated' : 'in triode'} there` : '';
+    const predicted = sigmaRel !== undefined && sigmaRel > 0 ? fractionWithin(c.current, sigmaRel * c.current, target * (1 - tolerance), target * (1 + tolerance)) : undefined;
+    const yieldText = predicted !== undefined ? `; predicted yield ${formatPercent(predicted, 3).replace(/^\+/, '')}` : '';
     built.push({
       fix: {
-        title: `Set ${r.name} to ${change.text}${change.note} (${o.series}): ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}${selfText}${side.text}`,
+        title: `Set ${r.name} to ${change.text}${change.note} (${o.series}): ${sizing.device} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)} from ${formatEngineering(target, { unit: 'A' })}${yieldText}${selfText}${side.text}`,
         edits: change.edits,
       },
       error: Math.abs(c.error),
       clean: side.clean,
+      yieldOk: predicted === undefined || predicted >= (ctx.spread?.yieldTarget ?? 0),
     });
   }
   if (built.length === 0) return { fixes: [], problem: sizing.problem };
-  const pool = built.some((b) => b.clean) ? built.filter((b) => b.clean) : built;
+  const clean = built.some((b) => b.clean) ? built.filter((b) => b.clean) : built;
+  // Among those, a value whose predicted yield is acceptable wins over a closer one whose is not.
+  const pool = clean.some((b) => b.yieldOk) ? clean.filter((b) => b.yieldOk) : clean;
   const best = pool.reduce((a, b) => (b.error < a.error ? b : a));
   best.fix.preferred = true;
   return { fixes: built.map((b) => b.fix) };

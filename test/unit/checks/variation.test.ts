@@ -1,7 +1,7 @@
 // The spread analysis through the whole pipeline: card tolerances, the yield finding with its cause and fix, and its absence on a well-specified circuit.
 
 import { describe, expect, it } from 'vitest';
-import { analyse } from '../../../shared-analysis/src/service';
+import { analyse, analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 
 function run(text: string) {
@@ -52,5 +52,30 @@ describe('yield against targets', () => {
     const s = a.structures[0];
     expect(s.variation?.iout['Q2']?.sigmaRelative).toBeGreaterThan(0);
     expect(s.variation?.iref?.contributors[0].name).toBe('RREF');
+  });
+});
+
+describe('sizing fixes and yield', () => {
+  it('say the predicted yield of each value in their titles', () => {
+    const text = `yield in the sizing titles
+VCC vcc 0 10 ; tol 0.5%
+RREF vcc ref 12k ; tol 0.1%
+Q1 ref ref 0 qn
+Q2 out ref 0 qn ; expect 1mA ±10%
+RL vcc out 2k
+.model qn npn(IS=1e-15 BF=200)
+.end
+`;
+    const s = analyseSession({ uri: 'mem://s.cir', text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    attachAllSizingFixes(s);
+    const f = s.analysis.findings.find((x) => x.code === 'target-missed')!;
+    expect(f.fixes!.length).toBeGreaterThan(0);
+    for (const fix of f.fixes!) expect(fix.title).toMatch(/; predicted yield \d+(\.\d+)? %/);
+  });
+
+  it('are not flagged for a target that writes no tolerance of its own', () => {
+    const a = run(mirror('RREF vcc ref 9.1k', '; expect 1mA'));
+    expect(a.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
+    expect(a.variation!.outputs.find((o) => o.key === 'element Q2')!.target!.yield).toBeLessThan(0.997);
   });
 });
