@@ -315,7 +315,10 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
     for (const s of analysis.structures) {
       const lines = derivedVoltageLines(s);
       (s.voltages ?? []).forEach((v, k) => {
-        if (v.node === r.name) produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
+        if (v.node !== r.name) return;
+        produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
+        const spread = s.variation?.voltages?.[v.name];
+        if (spread) produced.push(`${v.name} spread: ${spreadText(spread)}`);
       });
     }
     return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
