@@ -5,11 +5,14 @@ import * as vscode from 'vscode';
 import { LanguageClient, TransportKind, type LanguageClientOptions, type ServerOptions } from 'vscode-languageclient/node';
 import {
   LIST_OUTPUTS_REQUEST,
+  MONTE_CARLO_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
   REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
   type ListOutputsParams,
   type ListOutputsResult,
+  type MonteCarloParams,
+  type MonteCarloReply,
   type OutputCharacteristicParams,
   type OutputCharacteristicResult,
   type SizeResistorParams,
@@ -17,6 +20,7 @@ import {
 } from '../../server/src/protocol';
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
 import { readTargetCurrent } from './current-input';
+import { parseRunsAndSeed } from './monte-carlo-input';
 import { renderPanelHtml } from './panel';
 import { elementAtLine, isResistorName, outputsMatching } from './targets';
 
@@ -58,6 +62,7 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     vscode.commands.registerCommand('qpoint.sizeResistorForCurrent', (args?: unknown) => sizeResistorCommand(args)),
     vscode.commands.registerCommand('qpoint.plotOutputCharacteristic', (args?: unknown) => plotCommand(args)),
     vscode.commands.registerCommand('qpoint.reanalyse', () => reanalyseCommand()),
+    vscode.commands.registerCommand('qpoint.runMonteCarlo', () => monteCarloCommand(output)),
   );
 
   // Trust granted later: start the server again so it may read included files.
@@ -217,6 +222,54 @@ async function sizeResistorCommand(args: unknown): Promise<void> {
   }
   const applied = await vscode.workspace.applyEdit(edit);
   if (!applied) void vscode.window.showErrorMessage(`The editor refused the edit that sets ${resistor} to ${picked.candidate.valueText} (the file may have changed or be read-only).`);
+}
+
+/** Runs per Monte Carlo request: small enough that progress moves and a stop is quick. */
+const MONTE_CARLO_CHUNK = 50;
+
+/**
+ * `qpoint.runMonteCarlo`: asks for the number of runs (and a seed), runs them in the server's
+ * worker chunk by chunk with a cancellable progress notification, and writes every output's
+ * Monte Carlo figures and histogram beside its linear spread to the qpoint output.
+ */
+async function monteCarloCommand(output: vscode.OutputChannel): Promise<void> {
+  const c = await runningClient();
+  if (!c) return;
+  const editor = activeNetlistEditor();
+  if (!editor) return;
+  const answer = await vscode.window.showInputBox({
+    title: 'qpoint: Monte Carlo',
+    prompt: 'Number of runs, and optionally a seed (the same seed repeats the numbers)',
+    value: '1000',
+    validateInput: (text) => (parseRunsAndSeed(text) ? undefined : 'Write a whole number of runs from 1 to 100000, optionally followed by a whole seed, e.g. "1000" or "1000 7".'),
+  });
+  const parsed = answer === undefined ? undefined : parseRunsAndSeed(answer);
+  if (!parsed) return;
+  const uri = c.code2ProtocolConverter.asUri(editor.document.uri);
+  const name = path.basename(editor.document.uri.fsPath);
+  const reply = await vscode.window.withProgress(
+    { location: vscode.ProgressLocation.Notification, title: `Monte Carlo of ${name}`, cancellable: true },
+    async (progress, token): Promise<MonteCarloReply | undefined> => {
+      try {
+        let first = 0;
+        while (first < parsed.runs && !token.isCancellationRequested) {
+          const count = Math.min(MONTE_CARLO_CHUNK, parsed.runs - first);
+          const r = await c.sendRequest<MonteCarloReply>(MONTE_CARLO_REQUEST, { uri, seed: parsed.seed, first, count } satisfies MonteCarloParams);
+          first += count;
+          progress.report({ increment: (100 * count) / parsed.runs, message: `${r.runs} of ${parsed.runs} runs` });
+        }
+        // Stopped or done: the figures of the runs made so far.
+        return await c.sendRequest<MonteCarloReply>(MONTE_CARLO_REQUEST, { uri, seed: parsed.seed, first, count: 0, finish: true } satisfies MonteCarloParams);
+      } catch (e) {
+        void vscode.window.showErrorMessage(`Monte Carlo of ${name} failed: ${errorText(e)}`);
+        return undefined;
+      }
+    },
+  );
+  if (!reply?.report) return;
+  output.appendLine(`Monte Carlo of ${name}: ${reply.runs} runs (${reply.converged} converged), seed ${parsed.seed}`);
+  for (const line of reply.report) output.appendLine(line);
+  output.show(true);
 }
 
 /** `qpoint.plotOutputCharacteristic`: pick a mirror output and show its output characteristic. */

@@ -5,7 +5,11 @@ import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { sizingFixes } from '../../shared-analysis/src/fixes/index';
-import { addCorners, analyseSession } from '../../shared-analysis/src/service';
+import { addCorners, analyseSession, monteCarloChunk, prepareMonteCarlo, type MonteCarloSetup } from '../../shared-analysis/src/service';
+import { monteCarloFigures } from '../../shared-analysis/src/variation/monte-carlo';
+import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
+import { formatEngineering } from '../../shared-analysis/src/fixes/format';
+import type { MonteCarloReply } from './protocol';
 import type { DcSolver, DcSolveResult } from '../../shared-analysis/src/solve/dc';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
@@ -57,6 +61,41 @@ function textDocuments(texts: Map<string, string>): Record<string, ParsedDocumen
   const out: Record<string, ParsedDocument> = nameTable();
   for (const [uri, text] of texts) out[uri] = { uri, text, cards: [], errors: [] };
   return out;
+}
+
+/** Monte Carlo in progress per root: the rebuilt setup and every run's values so far. */
+const monteCarlo = new Map<string, { analysis: Analysis; seed: number; setup: MonteCarloSetup; samples: number[][]; runs: number; converged: number }>();
+
+/** One chunk of Monte Carlo runs; `first` = 0 starts afresh on the current analysis. */
+function monteCarloStep(uri: string, analysis: Analysis, msg: { seed: number; first: number; count: number; finish: boolean }): MonteCarloReply | { error: string } {
+  let state = monteCarlo.get(uri);
+  if (msg.first === 0 || !state || state.analysis !== analysis || state.seed !== msg.seed || state.runs !== msg.first) {
+    if (msg.first !== 0) return { error: 'The netlist changed while Monte Carlo ran; start it again.' };
+    const setup = prepareMonteCarlo(analysis);
+    if (!setup) return { error: 'Monte Carlo needs a converged operating point with recognised structures or targets.' };
+    state = { analysis, seed: msg.seed, setup, samples: setup.detail.specs.map(() => []), runs: 0, converged: 0 };
+    monteCarlo.set(uri, state);
+  }
+  if (msg.count > 0) {
+    const r = monteCarloChunk(state.setup, { runs: msg.count, seed: msg.seed, first: msg.first });
+    r.samples.forEach((xs, o) => {
+      for (const x of xs) state!.samples[o].push(x);
+    });
+    state.runs += r.runs;
+    state.converged += r.converged;
+  }
+  if (!msg.finish) return { runs: state.runs, converged: state.converged };
+  monteCarlo.delete(uri);
+  const report: string[] = [];
+  state.setup.detail.result.outputs.forEach((o, k) => {
+    const figures = monteCarloFigures(state!.samples[k], 20, o.target, state!.runs);
+    const shown = { ...o, monteCarlo: figures };
+    report.push(`${o.structure ? `${o.structure} ` : ''}${o.output}: nominal ${formatEngineering(o.nominal, { unit: o.unit, digits: 4 })}`);
+    report.push(`  linear: ${spreadText(o)}`);
+    const line = histogramText(shown);
+    if (line) report.push(`  ${line}`);
+  });
+  return { runs: state.runs, converged: state.converged, report };
 }
 
 function handle(msg: ToWorker): void {
@@ -123,6 +162,19 @@ function handle(msg: ToWorker): void {
       outgoing!.parts[msg.index] = undefined;
       if (msg.index === outgoing!.parts.length - 1) outgoing = undefined;
       post({ type: 'part', id: msg.id, index: msg.index, part: build() });
+      return;
+    }
+    case 'monte-carlo': {
+      const kept = keptHolding(msg.uri);
+      if (!kept) {
+        post({ type: 'monte-carlo-ran', id: msg.id, result: { error: `There is no finished analysis of ${msg.uri} yet.` } });
+        return;
+      }
+      try {
+        post({ type: 'monte-carlo-ran', id: msg.id, result: monteCarloStep(msg.uri, kept.analysis, msg) });
+      } catch (e) {
+        post({ type: 'failed', id: msg.id, message: `Monte Carlo stopped with an internal error: ${errorText(e)}` });
+      }
       return;
     }
     case 'sweep': {

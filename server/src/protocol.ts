@@ -53,3 +53,25 @@ export interface SizeResistorResult {
   ideal: number;
   candidates: SizeResistorCandidate[];
 }
+
+/**
+ * `qpoint/monteCarlo`: one chunk of seeded Monte Carlo runs on the last analysis of a netlist
+ * (docs/VARIATION.md). The client asks chunk after chunk (runs `first` … `first + count − 1`),
+ * which gives it progress and a place to stop; `first` = 0 starts afresh, and `finish` asks for
+ * the figures of every run so far.
+ */
+export const MONTE_CARLO_REQUEST = 'qpoint/monteCarlo';
+export interface MonteCarloParams {
+  uri: string;
+  seed: number;
+  first: number;
+  count: number;
+  finish?: boolean;
+}
+export interface MonteCarloReply {
+  /** Runs done so far and how many of them converged. */
+  runs: number;
+  converged: number;
+  /** With `finish`: one block of lines per output (its linear spread, then the Monte Carlo figures and histogram). */
+  report?: string[];
+}

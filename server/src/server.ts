@@ -37,12 +37,15 @@ import { documentSymbols } from '../../shared-analysis/src/features/symbols';
 import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import {
   LIST_OUTPUTS_REQUEST,
+  MONTE_CARLO_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
   REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
   SIZE_COMMAND,
   type ListOutputsParams,
   type ListOutputsResult,
+  type MonteCarloParams,
+  type MonteCarloReply,
   type OutputCharacteristicParams,
   type OutputCharacteristicResult,
   type SizeResistorParams,
@@ -870,6 +873,22 @@ connection.onRequest(
     if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${params.uri} has not been analysed (is it open?).`);
     const root = [...cache].find(([, e]) => e === entry)![0];
     const r = await host.sweep(root, params.device, points);
+    if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
+    return r;
+  }),
+);
+
+connection.onRequest(
+  MONTE_CARLO_REQUEST,
+  guard('Monte Carlo', async (params: MonteCarloParams): Promise<MonteCarloReply> => {
+    const ok = (v: unknown, max: number): v is number => typeof v === 'number' && Number.isInteger(v) && v >= 0 && v <= max;
+    if (typeof params?.uri !== 'string' || !ok(params.seed, 4294967295) || !ok(params.first, 100000) || !ok(params.count, 100000)) {
+      throw new ResponseError(ErrorCodes.InvalidParams, 'The Monte Carlo request needs a document uri, a whole seed and a run range (first, count) up to 100000.');
+    }
+    const entry = holderOf(params.uri);
+    if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${params.uri} has not been analysed (is it open?).`);
+    const root = [...cache].find(([, e]) => e === entry)![0];
+    const r = await host.monteCarlo(root, params.seed, params.first, params.count, params.finish === true);
     if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
     return r;
   }),

@@ -9,6 +9,7 @@ import { mergePart } from './analysis-transfer';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
+import type { MonteCarloReply } from './protocol';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
@@ -181,6 +182,13 @@ export class WorkerHost {
     elementIndex?.finish(analysis);
     restoreNameTables(analysis);
     return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
+  }
+
+  /** One chunk of Monte Carlo runs on the last analysis of root `uri`. */
+  async monteCarlo(uri: string, seed: number, first: number, count: number, finish: boolean): Promise<MonteCarloReply | { error: string }> {
+    const msg = await this.request((id) => ({ type: 'monte-carlo', id, uri, seed, first, count, finish }), `Monte Carlo of ${uri}`);
+    if (msg.type === 'monte-carlo-ran') return msg.result;
+    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 
   async sweep(uri: string, device: string, points: number): Promise<OutputCharacteristicResult | { error: string }> {

@@ -8,6 +8,7 @@ import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { ReadPolicy } from './read-policy';
+import type { MonteCarloReply } from './protocol';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
 export interface SizingCandidateData {
@@ -45,6 +46,8 @@ export type ToWorker =
   /** Send part `index` of the analysis answered to request `analysisId`. */
   | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
+  /** One chunk of Monte Carlo runs on the last analysis of root `uri`. */
+  | { type: 'monte-carlo'; id: number; uri: string; seed: number; first: number; count: number; finish: boolean }
   | { type: 'size-resistor'; id: number; uri: string; resistor: string; target: string; encoding: PositionEncoding }
   /** Compute the resistor-sizing fixes of these `target-missed` findings (with `data.sizing`) of the analysis of root `uri` at `version`. */
   | { type: 'sizing-fixes'; id: number; uri: string; version: number | undefined; findings: Finding[] };
@@ -55,6 +58,7 @@ export type FromWorker =
   | { type: 'analysed'; id: number; analysis: Analysis; parts: number; ms: number }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
+  | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }
   | { type: 'sized'; id: number; result: SizingData | { error: string } }
   /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }

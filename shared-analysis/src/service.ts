@@ -293,6 +293,40 @@ export function monteCarloOf(session: AnalysisSession, options: MonteCarloOption
   }
 }
 
+/** What a host keeps to run Monte Carlo on a finished analysis in chunks (`prepareMonteCarlo`). */
+export interface MonteCarloSetup {
+  analysis: Analysis;
+  solver: DcSolver;
+  nominal: DcSolveResult;
+  detail: VariationDetail;
+}
+
+/**
+ * Rebuilds what Monte Carlo needs from a finished analysis alone (a host that did not keep the
+ * session): a prepared solver, the nominal solution and the spread analysis, re-reading the
+ * documents' cards when the host kept only their texts. Undefined when nothing converges.
+ */
+export function prepareMonteCarlo(analysis: Analysis): MonteCarloSetup | undefined {
+  const circuit = analysis.circuit;
+  if (!circuit || circuit.elements.length === 0) return undefined;
+  const documents: Record<string, ParsedDocument> = nameTable();
+  for (const [uri, d] of Object.entries(analysis.documents)) {
+    documents[uri] = d.cards.length > 0 || d.text.length === 0 ? d : parse(uri, d.text, { hasTitle: uri === analysis.uri && !startsWithDefinitionCard(d.text) });
+  }
+  const solver = new DcSolver(circuit);
+  const nominal = solver.solve({ temperatureC: analysis.options.temperatureC });
+  if (!nominal.op.converged) return undefined;
+  const { targets } = readTargets(documents);
+  const detail = variationOf(circuit, analysis.structures, documents, solver, nominal, targets, analysis.options);
+  return detail ? { analysis, solver, nominal, detail } : undefined;
+}
+
+/** Runs `runs` Monte Carlo runs from run `first` on a setup (chunks of one seed add up to the same runs as one call). */
+export function monteCarloChunk(setup: MonteCarloSetup, options: MonteCarloOptions): MonteCarloResult {
+  const { analysis, solver, nominal, detail } = setup;
+  return runMonteCarlo(analysis.circuit!, analysis.structures, solver, nominal, detail, options);
+}
+
 /** Findings that do not lie inside one of the inactive ranges. */
 function withoutInactive(findings: Finding[], inactive: readonly Location[]): Finding[] {
   if (inactive.length === 0) return findings;

@@ -151,6 +151,20 @@ describe('the language server over stdio', () => {
     await expect(server.connection.sendRequest('qpoint/outputCharacteristic', { uri: uri(), device: 'Q1' })).rejects.toThrow(/not the output/);
   });
 
+  it('runs Monte Carlo in chunks that add up to the same runs, and says the spread in the hover', async () => {
+    // Chunks of one seed equal one run of all of them: runs are seeded by their index (docs/VARIATION.md).
+    const a = (await server.connection.sendRequest('qpoint/monteCarlo', { uri: uri(), seed: 3, first: 0, count: 20 })) as { runs: number };
+    expect(a.runs).toBe(20);
+    const b = (await server.connection.sendRequest('qpoint/monteCarlo', { uri: uri(), seed: 3, first: 20, count: 20, finish: true })) as { runs: number; converged: number; report: string[] };
+    expect(b.runs).toBe(40);
+    const whole = (await server.connection.sendRequest('qpoint/monteCarlo', { uri: uri(), seed: 3, first: 0, count: 40, finish: true })) as { report: string[] };
+    expect(whole.report).toEqual(b.report);
+    expect(b.report.join('\n')).toMatch(/Monte Carlo, 40 runs: mean /);
+    await expect(server.connection.sendRequest('qpoint/monteCarlo', { uri: uri(), seed: -1, first: 0, count: 1 })).rejects.toThrow(/needs a document uri/);
+    const hover = (await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: uri() }, position: posOf(text, 'Q2 out', 1) })) as Hover;
+    expect((hover.contents as MarkupContent).value).toMatch(/Spread of its current: σ [\d.]+ % \(±3σ [\d.]+ %\), worst case ±[\d.]+ %; drift [+−][\d.]+ ppm\/°C/);
+  });
+
   it('offers the sizing refactor on a resistor line', async () => {
     const actions = (await server.connection.sendRequest(CodeActionRequest.type, {
       textDocument: { uri: uri() },

@@ -28,6 +28,13 @@ describe('Monte Carlo', () => {
     expect(Array.from(c.samples[1])).not.toEqual(Array.from(a.samples[1]));
   });
 
+  it('gives the same runs in chunks as at once (each run is seeded by its index)', () => {
+    const whole = monteCarloOf(session(), { runs: 60, seed: 11 })!;
+    const a = monteCarloOf(session(), { runs: 25, seed: 11 })!;
+    const b = monteCarloOf(session(), { runs: 35, seed: 11, first: 25 })!;
+    expect([...Array.from(a.samples[1]), ...Array.from(b.samples[1])]).toEqual(Array.from(whole.samples[1]));
+  });
+
   it('agrees with the linear σ within sampling error', () => {
     const s = session();
     const r = monteCarloOf(s, { runs: 3000, seed: 12345 })!;

@@ -10,12 +10,15 @@ import type { Structure } from '../structures/types';
 import { structureVoltages } from '../structures/voltages';
 import type { VariationDetail } from './index';
 import type { MonteCarloFigures } from './types';
+import { nameTable } from '../names';
 
 declare const performance: { now(): number };
 
 export interface MonteCarloOptions {
   runs: number;
   seed: number;
+  /** Index of the first run (default 0): run r always draws the same numbers for a seed, so runs done in chunks equal runs done at once. */
+  first?: number;
   /** Histogram bins per output (default 20). */
   bins?: number;
   /** Called after every run (for progress). */
@@ -67,6 +70,14 @@ export function normalSource(seed: number): () => number {
   };
 }
 
+/** The seed of run r: seed and run index mixed (a 32-bit integer hash, common practice), so every run has its own stream. */
+export function runSeed(seed: number, r: number): number {
+  let h = (seed ^ Math.imul(r + 1, 0x9e3779b1)) >>> 0;
+  h = Math.imul(h ^ (h >>> 16), 0x85ebca6b) >>> 0;
+  h = Math.imul(h ^ (h >>> 13), 0xc2b2ae35) >>> 0;
+  return (h ^ (h >>> 16)) >>> 0;
+}
+
 /** Reads every output of the detail off an operating point with the structures' own measurements (not the adjoint functionals). */
 function reader(circuit: Circuit, structures: Structure[], detail: VariationDetail): (op: OperatingPoint, out: Float64Array) => void {
   const byId = new Map(structures.map((s) => [s.id, s]));
@@ -101,7 +112,6 @@ function reader(circuit: Circuit, structures: Structure[], detail: VariationDeta
 export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver: DcSolver, nominal: DcSolveResult, detail: VariationDetail, options: MonteCarloOptions): MonteCarloResult {
   const t0 = performance.now();
   const runs = Math.max(0, Math.floor(options.runs));
-  const draw = normalSource(options.seed);
   const read = reader(circuit, structures, detail);
   const n = detail.specs.length;
   const values = new Float64Array(n);
@@ -110,14 +120,16 @@ export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver:
   let converged = 0;
   let cancelled = false;
   let done = 0;
-  for (let r = 0; r < runs; r++) {
+  const first = Math.max(0, Math.floor(options.first ?? 0));
+  for (let r = first; r < first + runs; r++) {
     if (options.cancelled?.()) {
       cancelled = true;
       break;
     }
-    const resistances: Record<string, number> = {};
-    const sourceValues: Record<string, number> = {};
-    const deviceParameters: Record<string, Record<string, number>> = {};
+    const draw = normalSource(runSeed(options.seed, r));
+    const resistances: Record<string, number> = nameTable();
+    const sourceValues: Record<string, number> = nameTable();
+    const deviceParameters: Record<string, Record<string, number>> = nameTable();
     for (const s of detail.sources) {
       const z = draw();
       const p = s.parameter;
@@ -143,19 +155,21 @@ export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver:
     options.onProgress?.(done, runs);
   }
   const bins = Math.max(1, Math.floor(options.bins ?? 20));
-  const figures = detail.specs.map((_, o) => summarise(samples[o], bins, detail.result.outputs[o].target, done));
+  const figures = detail.specs.map((_, o) => monteCarloFigures(samples[o], bins, detail.result.outputs[o].target, done));
   return { runs: done, converged, seed: options.seed, ms: performance.now() - t0, cancelled, figures, samples: samples.map((s) => Float64Array.from(s)) };
 }
 
-function summarise(xs: number[], bins: number, target: { current: number; tolerance: number } | undefined, runs: number): MonteCarloFigures {
+/** Mean, sample σ, range, histogram and target yield of one output's Monte Carlo values. */
+export function monteCarloFigures(xs: ArrayLike<number>, bins: number, target: { current: number; tolerance: number } | undefined, runs: number): MonteCarloFigures {
   const k = xs.length;
   let mean = 0;
-  for (const x of xs) mean += x;
+  for (let i = 0; i < k; i++) mean += xs[i];
   mean = k > 0 ? mean / k : NaN;
   let ss = 0;
   let min = Infinity;
   let max = -Infinity;
-  for (const x of xs) {
+  for (let i = 0; i < k; i++) {
+    const x = xs[i];
     ss += (x - mean) * (x - mean);
     if (x < min) min = x;
     if (x > max) max = x;
@@ -163,13 +177,13 @@ function summarise(xs: number[], bins: number, target: { current: number; tolera
   const sigma = k > 1 ? Math.sqrt(ss / (k - 1)) : 0;
   const histogram = new Array<number>(bins).fill(0);
   const width = max > min ? (max - min) / bins : 0;
-  for (const x of xs) histogram[width > 0 ? Math.min(bins - 1, Math.floor((x - min) / width)) : 0]++;
+  for (let i = 0; i < k; i++) histogram[width > 0 ? Math.min(bins - 1, Math.floor((xs[i] - min) / width)) : 0]++;
   const out: MonteCarloFigures = { runs, converged: k, mean, sigma, min: k ? min : NaN, max: k ? max : NaN, histogram };
   if (target) {
     const lo = target.current * (1 - target.tolerance);
     const hi = target.current * (1 + target.tolerance);
     let inside = 0;
-    for (const x of xs) if (Math.abs(x) >= lo && Math.abs(x) <= hi) inside++;
+    for (let i = 0; i < k; i++) if (Math.abs(xs[i]) >= lo && Math.abs(xs[i]) <= hi) inside++;
     out.yield = k > 0 ? inside / k : 0;
   }
   return out;
