@@ -1,6 +1,6 @@
 // Builds the HTML page of the output-characteristic panel: the chart, the corner table and a strict Content-Security-Policy.
 import type { OutputCharacteristicResult } from '../../server/src/protocol';
-import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderOutputCharacteristicSvg } from './plot';
+import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderDriftSvg, renderOutputCharacteristicSvg } from './plot';
 
 /** What the panel page shows besides the sweep itself. */
 export interface PanelPageOptions {
@@ -18,6 +18,16 @@ export interface PanelPageOptions {
  */
 export function panelContentSecurityPolicy(nonce: string): string {
   return `default-src 'none'; style-src 'nonce-${nonce}'; img-src data:; script-src 'none'; frame-src 'none'; form-action 'none'; base-uri 'none'`;
+}
+
+/** The output's predicted spread and drift in one sentence, or what is missing. */
+export function spreadSentence(result: OutputCharacteristicResult): string {
+  const sp = result.spread;
+  const where = 'Output current with its load in place, solved from the cold to the hot corner temperature.';
+  if (!sp || !Number.isFinite(sp.sigmaRelative)) return where;
+  const pct = (r: number) => `${+(Math.abs(r) * 100).toPrecision(3)} %`;
+  const ppm = `${sp.tempcoPpmPerC < 0 ? '−' : '+'}${+Math.abs(sp.tempcoPpmPerC).toPrecision(3)} ppm/°C`;
+  return `${where} At the operating point it drifts ${ppm}; its predicted spread is σ ${pct(sp.sigmaRelative)} (±3σ ${pct(3 * sp.sigmaRelative)}), worst case ±${pct(sp.worstCaseRelative)}.`;
 }
 
 /** The complete HTML page for one output characteristic. */
@@ -39,6 +49,9 @@ export function renderPanelHtml(result: OutputCharacteristicResult, options: Pan
 <p class="qp-subtitle">Output current against the voltage at node ${escapeXml(result.node)}, in ${escapeXml(options.documentLabel)}. The shaded band is where the output leaves its active region.</p>
 ${renderOutputCharacteristicSvg(result, size)}
 ${renderCornerTableHtml(result)}
+<h2>Drift with temperature</h2>
+<p class="qp-subtitle">${escapeXml(spreadSentence(result))}</p>
+${renderDriftSvg(result, { width: size.width, height: Math.round(size.height * 0.7) })}
 </body>
 </html>
 `;

@@ -328,3 +328,42 @@ h1 { font-size: 1.2em; font-weight: 600; margin: 12px 0 4px; }
 .qp-corners th, .qp-corners td { border: 1px solid var(--vscode-editorWidget-border, var(--vscode-foreground)); padding: 2px 10px; text-align: left; }
 .qp-corners td { font-variant-numeric: tabular-nums; }
 `;
+
+/**
+ * The output current against temperature (the drift sweep) as an SVG fragment, with the same
+ * classes as the output characteristic; a note instead when fewer than two points came.
+ */
+export function renderDriftSvg(result: OutputCharacteristicResult, size: PlotSize): string {
+  const width = Math.max(240, Number.isFinite(size.width) ? size.width : 0);
+  const height = Math.max(160, Number.isFinite(size.height) ? size.height : 0);
+  const device = escapeXml(result.device ?? '');
+  const pts = (Array.isArray(result.drift) ? result.drift : []).filter((p) => Number.isFinite(p?.t) && Number.isFinite(p?.i)).sort((a, b) => a.t - b.t);
+  if (pts.length < 2) {
+    return `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img"><title>Drift of ${device}</title><text class="qp-note" x="${n(width / 2)}" y="${n(height / 2)}" text-anchor="middle">No drift sweep came with this result.</text></svg>`;
+  }
+  const plot = { left: 72, top: 20, right: width - 24, bottom: height - 52 };
+  const [x0, x1] = spanOf(minOf(pts.map((p) => p.t)), maxOf(pts.map((p) => p.t)), 1);
+  const [y0, y1] = spanOf(minOf(pts.map((p) => p.i)), maxOf(pts.map((p) => p.i)), 1e-6);
+  const x = buildAxis(x0, x1, Math.max(3, Math.min(10, Math.round((plot.right - plot.left) / 90))), '°C', 'Temperature', (f) => plot.left + f * (plot.right - plot.left));
+  const y = buildAxis(y0, y1, Math.max(3, Math.min(6, Math.round((plot.bottom - plot.top) / 50))), 'A', 'Output current', (f) => plot.bottom - f * (plot.bottom - plot.top));
+  const px = (t: number) => plot.left + ((t - x.min) / (x.max - x.min)) * (plot.right - plot.left);
+  const py = (i: number) => plot.bottom - ((i - y.min) / (y.max - y.min)) * (plot.bottom - plot.top);
+  const out: string[] = [];
+  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart qp-drift" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" aria-labelledby="qp-drift-title">`);
+  out.push(`<title id="qp-drift-title">Output current of ${device} against temperature, ${escapeXml(formatEngineering(pts[0].t, { unit: '°C' }))} to ${escapeXml(formatEngineering(pts[pts.length - 1].t, { unit: '°C' }))}</title>`);
+  for (const t of x.ticks) out.push(`<line class="qp-grid" x1="${n(t.px)}" y1="${n(plot.top)}" x2="${n(t.px)}" y2="${n(plot.bottom)}"/>`);
+  for (const t of y.ticks) out.push(`<line class="qp-grid" x1="${n(plot.left)}" y1="${n(t.px)}" x2="${n(plot.right)}" y2="${n(t.px)}"/>`);
+  out.push(`<rect class="qp-frame" x="${n(plot.left)}" y="${n(plot.top)}" width="${n(plot.right - plot.left)}" height="${n(plot.bottom - plot.top)}"/>`);
+  out.push('<g class="qp-axis qp-axis-x">');
+  for (const t of x.ticks) out.push(`<text class="qp-tick-label" data-value="${t.value}" x="${n(t.px)}" y="${n(plot.bottom + 18)}" text-anchor="middle">${escapeXml(t.label)}</text>`);
+  out.push(`<text class="qp-axis-title" x="${n((plot.left + plot.right) / 2)}" y="${n(height - 12)}" text-anchor="middle">${escapeXml(x.title)}</text>`);
+  out.push('</g>');
+  out.push('<g class="qp-axis qp-axis-y">');
+  for (const t of y.ticks) out.push(`<text class="qp-tick-label" data-value="${t.value}" x="${n(plot.left - 8)}" y="${n(t.px + 4)}" text-anchor="end">${escapeXml(t.label)}</text>`);
+  const yMid = (plot.top + plot.bottom) / 2;
+  out.push(`<text class="qp-axis-title" x="16" y="${n(yMid)}" text-anchor="middle" transform="rotate(-90 16 ${n(yMid)})">${escapeXml(y.title)}</text>`);
+  out.push('</g>');
+  out.push(`<polyline class="qp-curve" points="${pts.map((p) => `${n(px(p.t))},${n(py(p.i))}`).join(' ')}"/>`);
+  out.push('</svg>');
+  return out.join('\n');
+}

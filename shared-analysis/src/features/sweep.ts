@@ -20,7 +20,14 @@ export interface OutputCharacteristicResult {
   operatingV: number;
   /** The output current at each corner at the operating point. */
   cornerSpread: { label: string; i: number }[];
+  /** The output current (A) against temperature (°C) with its load in place, from the cold to the hot corner temperature. */
+  drift?: { t: number; i: number }[];
+  /** The output's predicted spread (docs/VARIATION.md), when the analysis has it: σ and worst case relative to nominal, drift in ppm/°C. */
+  spread?: { sigmaRelative: number; worstCaseRelative: number; tempcoPpmPerC: number };
 }
+
+/** Temperature points of the drift sweep. */
+const DRIFT_POINTS = 23;
 
 /** Name of the sweep source added to the copied circuit; it cannot clash because `#` never starts an element name. */
 const SWEEP_SOURCE = '#output-sweep';
@@ -76,7 +83,11 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   const cornerSpread = structure.corners
     .filter((c) => c.iout[output.device] !== undefined && Number.isFinite(c.iout[output.device]))
     .map((c) => ({ label: c.label, i: c.iout[output.device] }));
+  const drift = driftSweep(circuit, outEl, analysis.options.corners.coldC, analysis.options.corners.hotC);
+  const v = structure.variation?.iout[output.device];
   return {
+    ...(drift.length >= 2 ? { drift } : {}),
+    ...(v ? { spread: { sigmaRelative: v.sigmaRelative, worstCaseRelative: v.worstCaseRelative, tempcoPpmPerC: v.tempcoPpmPerC } } : {}),
     device: output.device,
     structureId: structure.id,
     node: circuit.nodes[nodeIndex],
@@ -85,6 +96,26 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     operatingV: Number.isFinite(operatingV) ? operatingV : pts[0].v,
     cornerSpread,
   };
+}
+
+/** The output current of `device` in the whole circuit, solved from `cold` to `hot` (warm-started point to point). */
+function driftSweep(circuit: Circuit, device: Element, cold: number, hot: number): { t: number; i: number }[] {
+  const out: { t: number; i: number }[] = [];
+  if (!(Number.isFinite(cold) && Number.isFinite(hot) && hot > cold)) return out;
+  const solver = new DcSolver(circuit);
+  let guess: Float64Array | undefined;
+  for (let k = 0; k < DRIFT_POINTS; k++) {
+    const t = cold + ((hot - cold) * k) / (DRIFT_POINTS - 1);
+    const res = solver.solve({ temperatureC: t, initialGuess: guess });
+    if (!res.op.converged) {
+      guess = undefined;
+      continue;
+    }
+    guess = res.x;
+    const i = outputCurrent(res.op.devices[device.name]);
+    if (i !== undefined && Number.isFinite(i)) out.push({ t, i });
+  }
+  return out;
 }
 
 /** Lowest and highest node voltage pinned by a voltage source to ground (ground itself counts as a rail). */

@@ -231,3 +231,20 @@ describe('panel page', () => {
     expect(html).not.toMatch(/<script|\son[a-z]+=/i);
   });
 });
+
+describe('the drift plot', () => {
+  it('draws the current against temperature in order, with both axes titled, and a note without points', async () => {
+    const { renderDriftSvg } = await import('../../../client/src/plot');
+    const base = { device: 'Q2', structureId: 's', node: 'out', points: [], edgeV: 0, operatingV: 0, cornerSpread: [] };
+    const svg = renderDriftSvg({ ...base, drift: [{ t: 125, i: 1.1e-3 }, { t: -40, i: 0.9e-3 }, { t: 27, i: 1e-3 }] }, { width: 480, height: 240 });
+    expect(svg).toContain('Temperature (°C)');
+    expect(svg).toMatch(/Output current \((m|µ)A\)/);
+    const pts = /points="([^"]+)"/.exec(svg)![1].split(' ').map((p) => p.split(',').map(Number));
+    expect(pts).toHaveLength(3);
+    // Sorted by temperature, left to right, and the current rising with it goes up the page (smaller y).
+    expect(pts[0][0]).toBeLessThan(pts[1][0]);
+    expect(pts[1][0]).toBeLessThan(pts[2][0]);
+    expect(pts[0][1]).toBeGreaterThan(pts[2][1]);
+    expect(renderDriftSvg({ ...base }, { width: 480, height: 240 })).toContain('No drift sweep');
+  });
+});

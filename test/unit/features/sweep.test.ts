@@ -31,6 +31,19 @@ function check(text: string, device: string, points: number, expectations: RegEx
 }
 
 describe('output characteristic', () => {
+  it('carries the drift with temperature from the cold to the hot corner, and the predicted spread', () => {
+    check(MIRROR, 'Q2', 11, (r) => {
+      const d = r.drift!;
+      expect(d[0].t).toBe(-40);
+      expect(d[d.length - 1].t).toBe(125);
+      // Source: a resistor-fed mirror's IREF = (VCC − VBE)/R rises as VBE falls with temperature (about −2 mV/°C,
+      // Horowitz and Hill, 3rd ed., ch. 2), so the output current rises from cold to hot.
+      expect(d[d.length - 1].i).toBeGreaterThan(d[0].i);
+      expect(r.spread!.tempcoPpmPerC).toBeGreaterThan(0);
+      expect(r.spread!.sigmaRelative).toBeGreaterThan(0);
+    });
+  });
+
   it('sweeps rail to rail, finds the saturation edge and follows the Early slope', () => {
     check(MIRROR, 'Q2', 41, (r, analysis) => {
       expect(r.node).toBe('out');
