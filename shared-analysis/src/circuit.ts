@@ -59,6 +59,13 @@ export interface Resistor extends ElementBase {
   m?: number;
   /** `RATEDPOWER` of the resistor's model, when it names one that gives it (W, per part). */
   modelRatedPowerW?: number;
+  /**
+   * Temperature coefficients (instance `TC1=`/`TC2=`/`TC=a,b`, else the model's), when either is
+   * non-zero: at temperature T the solver uses R·(1 + TC1·ΔT + TC2·ΔT²), ΔT = T − Tnom.
+   * `resistance` is the value at Tnom.
+   */
+  tc1?: number;
+  tc2?: number;
 }
 
 /** nodes: [a, b]. Open at DC. */

@@ -45,7 +45,7 @@ const ABSOLUTE_ZERO_C = -273.15;
 
 /** Element parameters each letter reads; others get `element-unknown-parameter`. Geometry of junction areas is accepted silently. */
 const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nameTable({
-  R: { used: ['M', 'RATEDPOWER'], silent: [] },
+  R: { used: ['M', 'RATEDPOWER', 'TC1', 'TC2', 'TC', 'L', 'W'], silent: ['TEMP', 'DTEMP', 'NOISE', 'AC'] },
   C: { used: ['M'], silent: ['IC'] },
   L: { used: ['M'], silent: ['IC'] },
   V: { used: [], silent: ['*'] },
@@ -507,20 +507,29 @@ class Elaborator {
     switch (card.letter) {
       case 'R': {
         const resistorModel = card.model ? this.findModel(card, inst, uri) : undefined;
-        if (!card.value) {
+        let v: number | undefined;
+        if (card.value) {
+          v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``, 'The resistor is left out of the analysis.');
+          if (v === undefined) return;
+        } else if (resistorModel && resistorModel.given.includes('RSH')) {
+          // A model resistor: R = RSH·L/W from its sheet resistance and the card's drawn size.
+          v = this.sheetResistance(card, resistorModel, params, inst, uri);
+          if (v === undefined) return;
+        } else {
           this.sink.add('element-value-missing', `Resistor \`${card.name.text}\` has no resistance value; it is left out of the analysis.`, uri, card.name.span);
           return;
         }
-        const v = this.value(card.value, inst, uri, `the resistance of \`${card.name.text}\``, 'The resistor is left out of the analysis.');
-        if (v === undefined) return;
         const m = this.positive(params.get('M'), inst, uri, card, 'parallel count M');
         if (v === 0) {
-          this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω, as a jumper or option link is; it is solved as a short and the current through it is reported.`, uri, card.value.span);
+          this.sink.add('resistor-zero-value', `Resistor \`${card.name.text}\` is 0 Ω, as a jumper or option link is; it is solved as a short and the current through it is reported.`, uri, (card.value ?? card.name).span);
         } else if (v < 0) {
-          this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, card.value.span, undefined, { value: v });
+          this.sink.add('resistor-negative-value', `Resistor \`${card.name.text}\` is ${formatEngineering(v, { unit: 'Ω' })}; a negative resistance is kept as written, which bias networks rarely intend.`, uri, (card.value ?? card.name).span, undefined, { value: v });
         }
         const resistor: Resistor = { name, nodes, origin, kind: 'R', resistance: v / m };
         if (m !== 1) resistor.m = m;
+        const tc = this.temperatureCoefficients(card, resistorModel, params, inst, uri);
+        if (tc.tc1 !== 0) resistor.tc1 = tc.tc1;
+        if (tc.tc2 !== 0) resistor.tc2 = tc.tc2;
         const modelRating = resistorModel?.ratings?.['RATEDPOWER'];
         if (modelRating !== undefined) resistor.modelRatedPowerW = modelRating;
         element = resistor;
@@ -618,6 +627,49 @@ class Elaborator {
       }
       this.elements.push(element);
     }
+  }
+
+  /**
+   * R = RSH·L/W for a resistor that names a model with RSH and gives no value; the card's L and W
+   * are in metres (as drawn; `.option scale` applies to MOSFETs only). Undefined, with a finding,
+   * when L or W is missing or not positive.
+   */
+  private sheetResistance(card: ElementCard, model: Model, params: ReadonlyMap<string, Assignment>, inst: Instance, uri: string): number | undefined {
+    const rsh = model.params['RSH'] ?? NaN;
+    const size = (key: 'L' | 'W'): number | undefined => {
+      const a = params.get(key);
+      if (!a) return undefined;
+      const x = this.value(a.value, inst, uri, `${key} of \`${card.name.text}\``, 'The resistor is left out of the analysis.');
+      return x !== undefined && x > 0 && Number.isFinite(x) ? x : undefined;
+    };
+    const l = size('L');
+    const w = size('W');
+    if (l === undefined || w === undefined || !(rsh > 0) || !Number.isFinite(rsh)) {
+      const missing = [l === undefined ? 'L' : '', w === undefined ? 'W' : ''].filter(Boolean);
+      const why = missing.length > 0 ? `no usable ${missing.join(' or ')} (a length and width in metres, both above 0)` : `a sheet resistance RSH of ${String(rsh)}, which is not above 0`;
+      this.sink.add(
+        'element-value-missing',
+        `Resistor \`${card.name.text}\` takes its value from model \`${model.name}\` as RSH·L/W, but has ${why}; it is left out of the analysis.`,
+        uri,
+        card.name.span,
+      );
+      return undefined;
+    }
+    return (rsh * l) / w;
+  }
+
+  /** TC1 and TC2 of a resistor: the card's `TC1=`, `TC2=` or `TC=a,b` first, then its model's; 0 when neither gives one. */
+  private temperatureCoefficients(card: ElementCard, model: Model | undefined, params: ReadonlyMap<string, Assignment>, inst: Instance, uri: string): { tc1: number; tc2: number } {
+    const read = (key: string): number | undefined => {
+      const a = params.get(key);
+      if (!a) return undefined;
+      const x = this.value(a.value, inst, uri, `${key} of \`${card.name.text}\``, 'The model value or 0 is used.');
+      return x !== undefined && Number.isFinite(x) ? x : undefined;
+    };
+    const fromModel = (key: string): number => (model && model.given.includes(key) ? (model.params[key] ?? 0) : 0);
+    const tc1 = read('TC1') ?? read('TC') ?? fromModel('TC1');
+    const tc2 = read('TC2') ?? fromModel('TC2');
+    return { tc1, tc2 };
   }
 
   /** Element parameters by upper-case name; reports unknown ones. */

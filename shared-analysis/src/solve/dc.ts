@@ -136,6 +136,8 @@ export class DcSolver {
   private readonly elementByName = new Map<string, number>();
   /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
   private conductanceOverride = new Map<number, number>();
+  /** Resistors with a temperature coefficient, scaled at every solve. */
+  private readonly tcResistors: number[] = [];
   /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
   private readonly elementSlot: Int32Array;
   /** The device tables as the netlist gives them; a solve with `deviceParameters` swaps rebuilt ones in for its duration. */
@@ -160,6 +162,7 @@ export class DcSolver {
     }
     for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
     circuit.elements.forEach((el, i) => {
+      if (el.kind === 'R' && (el.tc1 || el.tc2)) this.tcResistors.push(i);
       const key = el.name.toLowerCase();
       if (!this.elementByName.has(key)) this.elementByName.set(key, i);
     });
@@ -194,11 +197,12 @@ export class DcSolver {
     const t0 = now();
     const findings: Finding[] = [...this.staticFindings];
     const n = this.layout.size;
+    const temperatureC = this.pickTemperature(options, findings);
     const plan = this.resolveResistances(options.resistances, findings);
+    this.applyTemperatureCoefficients(plan, temperatureC, findings);
     const structure = plan.changesStructure ? this.analyseStructure(this.resistanceLookup(plan)) : this.structure;
     pushAll(findings, structure.findings);
     this.loadLinearValues(structure, plan);
-    const temperatureC = this.pickTemperature(options, findings);
     const betaScale = this.pickBetaScale(options, findings);
     const conditions: DeviceConditions = {
       temperatureC,
@@ -429,6 +433,7 @@ export class DcSolver {
     const plan: ResistancePlan = { conductance: new Map(), branchOhms: new Map(), changesStructure: false };
     this.conductanceOverride = plan.conductance;
     if (!overrides) return plan;
+
     const c = this.circuit;
     for (const [name, ohms] of Object.entries(overrides)) {
       const i = this.elementByName.get(name.toLowerCase());
@@ -460,6 +465,40 @@ export class DcSolver {
       }
     }
     return plan;
+  }
+
+  /**
+   * Scales every resistor with TC1/TC2 to the solve's temperature (docs/DEVICE-MODELS.md):
+   * R(T) = R·(1 + TC1·ΔT + TC2·ΔT²), on top of any override. A factor that is not positive keeps
+   * the value at Tnom, with a finding.
+   */
+  private applyTemperatureCoefficients(plan: ResistancePlan, temperatureC: number, findings: Finding[]): void {
+    if (this.tcResistors.length === 0) return;
+    const tnom = Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27;
+    const dt = temperatureC - tnom;
+    for (const i of this.tcResistors) {
+      const el = this.circuit.elements[i];
+      const stamp = this.layout.resistorStamps.get(i);
+      if (el.kind !== 'R' || !stamp) continue;
+      const f = resistorTemperatureFactor(el.tc1 ?? 0, el.tc2 ?? 0, dt);
+      if (!(f > 0) || !Number.isFinite(f)) {
+        findings.push(
+          this.elementFinding(
+            'dc-value-unusable',
+            'warning',
+            `At ${formatEng(temperatureC, '°C')} the temperature coefficients of ${el.name} (TC1 = ${String(el.tc1 ?? 0)}, TC2 = ${String(el.tc2 ?? 0)}) multiply its resistance by ${String(Number(f.toPrecision(3)))}, which is not a resistance; its value at the nominal temperature was used.`,
+            i,
+          ),
+        );
+        continue;
+      }
+      if (f === 1) continue;
+      if (stamp.kind === 'conductance') plan.conductance.set(i, (plan.conductance.get(i) ?? stamp.g) / f);
+      else {
+        const ohms = plan.branchOhms.get(i);
+        if (ohms !== undefined) plan.branchOhms.set(i, ohms * f);
+      }
+    }
   }
 
   /** The resistor values a plan implies, for the structural checks. */
@@ -1174,3 +1213,8 @@ export function solveOperatingPoint(circuit: Circuit, options?: SolveOptions): D
 }
 
 export { UNBOUNDED };
+
+/** R(T)/R = 1 + TC1·ΔT + TC2·ΔT² (docs/DEVICE-MODELS.md). */
+export function resistorTemperatureFactor(tc1: number, tc2: number, dt: number): number {
+  return 1 + tc1 * dt + tc2 * dt * dt;
+}

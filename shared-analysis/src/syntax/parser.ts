@@ -1011,7 +1011,17 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
         used = 1;
       }
       if (!card.value && valueAsg) card.value = valueAsg.value;
-      for (const t of rest.slice(used)) unexpected(ctx, owner, t, `${need.noun} uses`);
+      // `TC=a,b` gives both temperature coefficients; the second is read as TC2.
+      const tc = L === 'R' ? asgs.find((a) => a.name.text.toUpperCase() === 'TC') : undefined;
+      let leftover = rest.slice(used);
+      if (tc) {
+        const second = leftover.find((t) => t.span.start > tc.value.span.end && isNumberLike(t) && /^[\s,]*$/.test(ctx.text.slice(tc.value.span.end, t.span.start)));
+        if (second) {
+          asgs.push({ name: { text: 'TC2', span: second.span, kind: 'word' }, value: second, span: { start: tc.span.start, end: second.span.end } });
+          leftover = leftover.filter((t) => t !== second);
+        }
+      }
+      for (const t of leftover) unexpected(ctx, owner, t, `${need.noun} uses`);
       card.params = asgs.filter((a) => a !== valueAsg || card.value !== a.value);
       return card;
     }
