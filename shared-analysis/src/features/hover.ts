@@ -214,7 +214,7 @@ function powerLine(analysis: Analysis, el: Element, rec: DeviceRecord): string |
 function describeElement(el: Element): string {
   switch (el.kind) {
     case 'R':
-      return `resistor, ${formatQuantity(el.resistance, 'Ω')}`;
+      return `resistor, ${formatQuantity(el.resistance, 'Ω')}${el.tc1 || el.tc2 ? ` at the nominal temperature, TC1 ${formatNumber(el.tc1 ?? 0)}/K, TC2 ${formatNumber(el.tc2 ?? 0)}/K²` : ''}`;
     case 'C':
       return `capacitor, ${formatQuantity(el.capacitance, 'F')} (open at DC)`;
     case 'L':
