@@ -158,6 +158,20 @@ export interface Jfet extends ElementBase {
   m: number;
 }
 
+/** nodes: [out+, out−, ctrl+, ctrl−]; a resistance between the outputs set by V(ctrl+) − V(ctrl−). */
+export interface VoltageSwitch extends ElementBase {
+  kind: 'S';
+  model: Model;
+}
+
+/** nodes: [out+, out−]; a resistance between them set by the current through voltage source `control`. */
+export interface CurrentSwitch extends ElementBase {
+  kind: 'W';
+  model: Model;
+  /** Name of the controlling voltage source (hierarchical, as in `elements`). */
+  control: string;
+}
+
 export type Element =
   | Resistor
   | Capacitor
@@ -171,7 +185,9 @@ export type Element =
   | Diode
   | Bjt
   | Mosfet
-  | Jfet;
+  | Jfet
+  | VoltageSwitch
+  | CurrentSwitch;
 
 export type ElementKind = Element['kind'];
 

@@ -155,7 +155,14 @@ RSP vdd src 1k
 RL out 0 2.2k
 J3 d3 g3 0 jn
 RG g3 0 1meg
-RD3 vdd d3 10k
+RD3 vdd d3 10k TC1=1.5m TC2=2u
+S1 d3 0 ctl 0 smod
+VCTL ctl 0 2
+W1 out 0 VCTL wmod
+RP vdd out RPOLY L=20u W=2u
+.model smod SW (RON=50 ROFF=1meg VT=1 VH=0.2)
+.model wmod CSW (RON=10 ROFF=1e9 IT=1u)
+.model RPOLY R (RSH=150 TC1=-1m)
 .model jn NJF (VTO=-2 BETA=1.3m LAMBDA=0.01 IS=2e-14 VTOTC=-2m BETATCE=-0.5)
 .model jp PJF (VTO=-2.5 BETA=1m LAMBDA=0.02)
 .end
@@ -175,7 +182,8 @@ const FRAGMENTS = [
   '{1/0}', '{sqrt(-1)}', '{zz}', '{1e308*10}', '; expect 1mA ±5%', '; expect 0A', '; expect -3mA ±200%', '* expect Q2 = 1e99A',
   '* expect QZ = 1mA', '.param a={b} b={a}', '.include "lib/drivers.inc"', '.include missing.inc', '.lib "lib/corners.lib" nosuch',
   '.subckt', '.ends', 'X9 a b cell', 'X8 a', '.model qz npn (is=0 bf=-1 vaf=-3)', '.model mz nmos (kp=0 vto=1e9)',
-  'Q9 a b c qamp', 'M9 a b c d nch W=0 L=1e3', 'J9 a b c jn', 'J8 a b c jp 0', '.model jz njf (beta=-1 vto=1e9 is=-1)', 'F9 a b Vnope 1', 'R9 a a 0', 'V9 a a 1', 'I9 a 0 1e9', 'V8 n 0 1e12', 'R8 n 0 1e-30',
+  'Q9 a b c qamp', 'M9 a b c d nch W=0 L=1e3', 'J9 a b c jn', 'J8 a b c jp 0', '.model jz njf (beta=-1 vto=1e9 is=-1)',
+  'S9 a b c d smod', 'W9 a b VCTL wmod', 'W8 a b Vnope wmod', '.model sz sw (ron=0 roff=-1 vh=-3)', 'R7 a b RPOLY L=1u', 'R6 a b 1k TC=1,2', 'TC2=1e9', 'F9 a b Vnope 1', 'R9 a a 0', 'V9 a a 1', 'I9 a 0 1e9', 'V8 n 0 1e12', 'R8 n 0 1e-30',
   '.temp -400', '.temp 1e6', 'M=0', 'M=-2', 'µ', '\u00a0', '\ud83d\ude00', '\u0000', '\ud800',
 ];
 

@@ -58,3 +58,46 @@ describe('resistor models with a sheet resistance', () => {
     expect(f?.message).toMatch(/RSH·L\/W.*no usable W/);
   });
 });
+
+describe('switches', () => {
+  const sw = (text: string, t?: number) => solved(text, t).operatingPoint!.devices;
+
+  it('is RON above VT + VH and ROFF below VT − VH (voltage-controlled)', () => {
+    // Independent computation: a 5 V source, a 1 kΩ load and the switch in series: I = 5/(1k + R).
+    const on = sw('s on\nV1 a 0 5\nRL a b 1k\nS1 b 0 c 0 SMOD\nVC c 0 2\n.model SMOD SW (RON=10 ROFF=1meg VT=1 VH=0.2)\n.end\n');
+    expect((on.S1 as { current: number }).current).toBeCloseTo(5 / 1010, 15);
+    expect(on.S1).toMatchObject({ type: 'switch', region: 'on', resistance: 10 });
+    const off = sw('s off\nV1 a 0 5\nRL a b 1k\nS1 b 0 c 0 SMOD\nVC c 0 0.5\n.model SMOD SW (RON=10 ROFF=1meg VT=1 VH=0.2)\n.end\n');
+    expect((off.S1 as { current: number }).current).toBeCloseTo(5 / 1.001e6, 15);
+    expect(off.S1).toMatchObject({ region: 'off' });
+  });
+
+  it('interpolates ln R smoothly inside the hysteresis band', () => {
+    // docs/DEVICE-MODELS.md: u = (c − VT + h)/(2h), s = 3u² − 2u³, ln R = ln ROFF + (ln RON − ln ROFF)·s, written out here.
+    const c = 1.05;
+    const u = (c - 1 + 0.2) / 0.4;
+    const s = u * u * (3 - 2 * u);
+    const r = Math.exp(Math.log(1e6) + (Math.log(10) - Math.log(1e6)) * s);
+    const d = sw(`s mid\nV1 a 0 5\nRL a b 1k\nS1 b 0 c 0 SMOD\nVC c 0 ${c}\n.model SMOD SW (RON=10 ROFF=1meg VT=1 VH=0.2)\n.end\n`);
+    expect((d.S1 as { resistance: number }).resistance / r).toBeCloseTo(1, 12);
+    expect((d.S1 as { current: number }).current).toBeCloseTo(5 / (1000 + r), 12);
+  });
+
+  it('switches on the current through its controlling source (current-controlled)', () => {
+    // The control loop carries 2 V/1 kΩ = 2 mA through VSENSE, above IT = 1 mA: the switch is RON = 1 Ω.
+    const d = sw('w\nV1 a 0 5\nRL a b 100\nW1 b 0 VSENSE WMOD\nV2 c 0 2\nVSENSE c d 0\nRC d 0 1k\n.model WMOD CSW (RON=1 ROFF=1e9 IT=1m IH=0.1m)\n.end\n');
+    expect(d.W1).toMatchObject({ type: 'switch', region: 'on', resistance: 1 });
+    expect((d.W1 as { control: number }).control).toBeCloseTo(2e-3, 12);
+    expect((d.W1 as { current: number }).current).toBeCloseTo(5 / 101, 12);
+  });
+
+  it('settles a switch whose control is its own output (a comparator-like loop) without a finding', () => {
+    // The switch pulls its own control node down through the divider: the solution lies inside the transition band.
+    const a = solved('loop\nV1 a 0 5\nR1 a c 10k\nS1 c 0 c 0 SMOD\n.model SMOD SW (RON=100 ROFF=1meg VT=2.5 VH=0.1)\n.end\n');
+    const v = a.operatingPoint!.nodes.c;
+    const rec = a.operatingPoint!.devices.S1 as { resistance: number };
+    // KCL at c, checked independently: (5 − v)/10k = v/R.
+    expect((5 - v) / 10e3).toBeCloseTo(v / rec.resistance, 12);
+    expect(a.findings.filter((f) => f.severity === 'error')).toEqual([]);
+  });
+});

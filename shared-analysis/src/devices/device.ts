@@ -132,9 +132,11 @@ export interface DeviceKind<E extends Element = Element> {
   internalNodes(element: E): string[];
   /**
    * The instance's `terminalCount` MNA unknowns: `node(k)` maps a netlist node index to its
-   * unknown (−1 for ground); `internal` holds the unknowns of the labels `internalNodes` gave.
+   * unknown (−1 for ground); `internal` holds the unknowns of the labels `internalNodes` gave;
+   * `branch(name)` is the branch-current unknown of the element of that name (a V source, an
+   * inductor, an E or H), −1 when it has none — for kinds controlled by a current (W).
    */
-  terminals(element: E, node: (netlistNode: number) => number, internal: readonly number[]): number[];
+  terminals(element: E, node: (netlistNode: number) => number, internal: readonly number[], branch?: (elementName: string) => number): number[];
   /** Netlist node pairs the instance connects at DC (a junction's robustness conductance counts), for the floating-node check. */
   dcPaths(element: E): [number, number][];
   /** Junctions that a short across them would keep from ever conducting. */

@@ -5,9 +5,10 @@ import type { DeviceKind } from './device';
 import { DIODE } from './diode';
 import { JFET } from './jfet';
 import { MOSFET } from './mosfet';
+import { CURRENT_SWITCH, VOLTAGE_SWITCH } from './switch';
 
 /** Every nonlinear kind, one per element letter. */
-export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET, JFET];
+export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET, JFET, VOLTAGE_SWITCH, CURRENT_SWITCH];
 
 const BY_LETTER = new Map<string, DeviceKind>(DEVICE_KINDS.map((k) => [k.letter, k]));
 

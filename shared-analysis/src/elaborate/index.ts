@@ -1,7 +1,7 @@
 // Elaboration: from parsed documents to a flat circuit with parameters evaluated, models filled in and subcircuits flattened.
 
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
-import type { Cccs, Ccvs, Circuit, Element, Model, Origin, Resistor } from '../circuit';
+import type { Cccs, Ccvs, Circuit, CurrentSwitch, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
@@ -58,10 +58,12 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nam
   Q: { used: ['AREA', 'M', 'RATEDPOWER'], silent: [] },
   M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
   J: { used: ['AREA', 'M', 'RATEDPOWER'], silent: ['IC', 'TEMP', 'DTEMP'] },
+  S: { used: [], silent: ['ON', 'OFF', 'M'] },
+  W: { used: [], silent: ['ON', 'OFF', 'M'] },
 });
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
-const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3 });
+const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2 });
 
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
@@ -128,7 +130,7 @@ class Elaborator {
   /** Lower-case hierarchical name -> the card that first used it (elements and instances), for duplicates. */
   private readonly names = new Map<string, Located<ElementCard>>();
   private readonly models: Record<string, Model> = nameTable();
-  private readonly controls: { element: Cccs | Ccvs; token: Token; uri: string; full: string }[] = [];
+  private readonly controls: { element: Cccs | Ccvs | CurrentSwitch; token: Token; uri: string; full: string }[] = [];
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
   private tooLarge = false;
@@ -599,6 +601,20 @@ class Elaborator {
               : { name, nodes, origin, kind: 'J', model, area, m };
         break;
       }
+      case 'S':
+      case 'W': {
+        const model = this.findModel(card, inst, uri);
+        if (!model) return;
+        if (card.letter === 'S') {
+          element = { name, nodes, origin, kind: 'S', model };
+        } else {
+          if (!card.control) return;
+          const el: CurrentSwitch = { name, nodes, origin, kind: 'W', model, control: inst.prefix + card.control.text };
+          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text });
+          element = el;
+        }
+        break;
+      }
       case 'M': {
         const w = this.geometry(params.get('W'), inst, uri, card, 'W');
         const l = this.geometry(params.get('L'), inst, uri, card, 'L');
@@ -1055,7 +1071,7 @@ class Elaborator {
     }
   }
 
-  /** Resolves F and H controls against the flattened voltage sources; drops those whose control does not exist. */
+  /** Resolves F, H and W controls against the flattened voltage sources; drops those whose control does not exist. */
   private resolveControls(): void {
     if (this.controls.length === 0) return;
     const byName = new Map<string, Element>();
@@ -1257,8 +1273,6 @@ function chooseBin(bins: ModelEntry[], size: { w: number; l: number }): ModelEnt
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */
 const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nameTable({
   Z: { one: 'MESFET', many: 'MESFETs', dc: true },
-  S: { one: 'voltage-controlled switch', many: 'voltage-controlled switches', dc: true },
-  W: { one: 'current-controlled switch', many: 'current-controlled switches', dc: true },
   B: { one: 'behavioural source', many: 'behavioural sources', dc: true },
   K: { one: 'inductor coupling', many: 'inductor couplings', dc: false },
   T: { one: 'transmission line', many: 'transmission lines', dc: true },
@@ -1310,13 +1324,15 @@ function describeLetter(letter: string): string {
     Q: 'a bipolar transistor',
     M: 'a MOSFET',
     J: 'a junction FET',
+    S: 'a voltage-controlled switch',
+    W: 'a current-controlled switch',
     X: 'a subcircuit instance',
   };
   return names[letter] ?? 'an element';
 }
 
 function describeKind(kind: string): string {
-  const names: Record<string, string> = { npn: 'an NPN model', pnp: 'a PNP model', d: 'a diode model', nmos: 'an NMOS model', pmos: 'a PMOS model', njf: 'an N-channel JFET model', pjf: 'a P-channel JFET model', r: 'a resistor model' };
+  const names: Record<string, string> = { npn: 'an NPN model', pnp: 'a PNP model', d: 'a diode model', nmos: 'an NMOS model', pmos: 'a PMOS model', njf: 'an N-channel JFET model', pjf: 'a P-channel JFET model', sw: 'a voltage-controlled switch model', csw: 'a current-controlled switch model', r: 'a resistor model' };
   return names[kind] ?? `a ${kind} model`;
 }
 

@@ -10,10 +10,12 @@ import { formatEngineering } from '../fixes/format';
 import { nameTable } from '../names';
 
 /** Type words of a `.model` card, case-insensitive. */
-const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', njf: 'njf', pjf: 'pjf', r: 'r', res: 'r' });
+const KIND_OF_TYPE: Record<string, ModelKind> = nameTable({ npn: 'npn', pnp: 'pnp', d: 'd', nmos: 'nmos', pmos: 'pmos', njf: 'njf', pjf: 'pjf', sw: 'sw', csw: 'csw', r: 'r', res: 'r' });
 
 /** The device kinds each element letter accepts. */
-export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'J' | 'R', ModelKind[]> = {
+export const KINDS_FOR_LETTER: Record<'D' | 'Q' | 'M' | 'J' | 'S' | 'W' | 'R', ModelKind[]> = {
+  S: ['sw'],
+  W: ['csw'],
   D: ['d'],
   J: ['njf', 'pjf'],
   Q: ['npn', 'pnp'],
@@ -83,6 +85,8 @@ const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = name
   GAMMA: { ok: (v) => v >= 0, must: 'cannot be negative' },
   LAMBDA: { ok: (v) => v >= 0, must: 'cannot be negative' },
   BETA: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  RON: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  ROFF: { ok: (v) => v > 0, must: 'must be greater than 0' },
 });
 
 /** Where and how a model card is being elaborated. */
@@ -104,7 +108,7 @@ export function elaborateModel(card: ModelCard, ctx: ModelContext): Model | unde
   if (!kind) {
     sink.add(
       'model-unknown-type',
-      `\`${card.type.text}\` is not a device type this analysis reads; a model is NPN, PNP, D, NMOS, PMOS, NJF, PJF or R.`,
+      `\`${card.type.text}\` is not a device type this analysis reads; a model is NPN, PNP, D, NMOS, PMOS, NJF, PJF, SW, CSW or R.`,
       uri,
       card.type.span,
       undefined,

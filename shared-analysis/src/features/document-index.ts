@@ -281,6 +281,10 @@ export function terminalNames(el: Element): string[] {
       return ['drain', 'gate', 'source', 'bulk'];
     case 'J':
       return ['drain', 'gate', 'source'];
+    case 'S':
+      return ['switch +', 'switch −', 'control +', 'control −'];
+    case 'W':
+      return ['switch +', 'switch −'];
   }
 }
 

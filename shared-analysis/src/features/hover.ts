@@ -177,6 +177,14 @@ function elementSection(analysis: Analysis, el: Element): string {
         `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}`,
       ]),
     );
+  } else if (rec.type === 'switch') {
+    lines.push(`State: **${rec.region}** (${formatQuantity(rec.resistance, 'Ω')})`);
+    lines.push(
+      bullet([
+        `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the switch to ${nodeNames[1]}) · voltage ${formatQuantity(rec.voltage, 'V')}`,
+        `Control ${formatQuantity(rec.control, el.kind === 'W' ? 'A' : 'V')}`,
+      ]),
+    );
   } else if (rec.type === 'diode') {
     lines.push(`Region: **${regionWord(rec)}**`);
     lines.push(bullet([`ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`, `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`]));
@@ -237,6 +245,10 @@ function describeElement(el: Element): string {
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'M':
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}, W ${formatQuantity(el.w, 'm')}, L ${formatQuantity(el.l, 'm')}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+    case 'S':
+      return `voltage-controlled switch, model ${el.model.name}`;
+    case 'W':
+      return `current-controlled switch, model ${el.model.name}, controlled by I(${el.control})`;
     case 'J':
       return `${el.model.kind === 'pjf' ? 'P-channel' : 'N-channel'} JFET, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
   }

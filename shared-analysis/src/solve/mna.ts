@@ -143,6 +143,10 @@ export class MnaLayout {
     this.nodeDiagonals = new Int32Array(nodeCount - 1);
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
 
+    const branchOf = (name: string): number => {
+      const ci = byName.get(name.toLowerCase());
+      return ci === undefined ? -1 : (this.branchOfElement.get(ci) ?? -1);
+    };
     // Pass 2: linear stamps, and every nonlinear instance's terminals and matrix slots.
     const u = (node: number): number => node - 1;
     const builders = new Map<DeviceKind, KindBuilder>();
@@ -152,7 +156,7 @@ export class MnaLayout {
       if (kind) {
         let b = builders.get(kind);
         if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: [], positions: [] }));
-        this.bindDevice(b, el, i, kind.terminals(el, u, internalOf.get(i) ?? []));
+        this.bindDevice(b, el, i, kind.terminals(el, u, internalOf.get(i) ?? [], branchOf));
         return;
       }
       const a = u(el.nodes[0]);

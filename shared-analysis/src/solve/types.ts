@@ -74,6 +74,23 @@ export interface JfetRecord {
   roInfinite?: boolean;
 }
 
+/** Switch states: fully on (RON), fully off (ROFF), or inside the smooth transition between them. */
+export type SwitchRegion = 'on' | 'off' | 'transition';
+
+/** A voltage- or current-controlled switch: the two-terminal values of its switched path, its resistance and its control. */
+export interface SwitchRecord {
+  type: 'switch';
+  region: SwitchRegion;
+  /** From the first output node through the switch to the second. */
+  current: number;
+  voltage: number;
+  power: number;
+  /** Resistance at this operating point, ohms. */
+  resistance: number;
+  /** The controlling voltage (S, volts) or current (W, amperes). */
+  control: number;
+}
+
 export interface DiodeRecord {
   type: 'diode';
   /** Anode-to-cathode current and voltage (across the whole device including RS). */
@@ -93,7 +110,7 @@ export interface TwoTerminalRecord {
   power: number;
 }
 
-export type DeviceRecord = BjtRecord | MosRecord | JfetRecord | DiodeRecord | TwoTerminalRecord;
+export type DeviceRecord = BjtRecord | MosRecord | JfetRecord | DiodeRecord | SwitchRecord | TwoTerminalRecord;
 
 export type Fallback = 'gmin-stepping' | 'source-stepping';
 

@@ -201,10 +201,10 @@ describe('values and sources', () => {
   });
 
   it('warns about values beyond 1e15 and unknown instance parameters', () => {
-    check(`range\nV1 a 0 5\nR1 a 0 2e16\nR2 a 0 1k tc1=0.01\n`, {
+    check(`range\nV1 a 0 5\nR1 a 0 2e16\nR2 a 0 1k tcx=0.01\n`, {
       findings: [
         { code: 'value-out-of-range', at: '2e16' },
-        { code: 'element-unknown-parameter', at: 'tc1', message: /it reads M/ },
+        { code: 'element-unknown-parameter', at: 'tcx', message: /it reads M, RATEDPOWER, TC1, TC2, TC, L, W/ },
       ],
     });
   });

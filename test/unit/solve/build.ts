@@ -24,7 +24,9 @@ export type Spec =
   | ['D', string, string, string, Model, { area?: number; m?: number }?]
   | ['Q', string, string, string, string, Model, { area?: number; m?: number }?]
   | ['M', string, string, string, string, string, Model, { w?: number; l?: number; m?: number }?]
-  | ['J', string, string, string, string, Model, { area?: number; m?: number }?];
+  | ['J', string, string, string, string, Model, { area?: number; m?: number }?]
+  | ['S', string, string, string, string, string, Model]
+  | ['W', string, string, string, string, Model];
 
 /**
  * Builds a Circuit. Node '0' (or 'gnd') is ground; other nodes are numbered in order of
@@ -69,6 +71,10 @@ export function circuit(specs: Spec[], opts: { temperatureC?: number; tnomC?: nu
         return { kind: 'D', name, nodes: [node(s[2]), node(s[3])], model: s[4], area: s[5]?.area ?? 1, m: s[5]?.m ?? 1, origin };
       case 'Q':
         return { kind: 'Q', name, nodes: [node(s[2]), node(s[3]), node(s[4])], model: s[5], area: s[6]?.area ?? 1, m: s[6]?.m ?? 1, origin };
+      case 'S':
+        return { kind: 'S', name, nodes: [node(s[2]), node(s[3]), node(s[4]), node(s[5])], model: s[6], origin };
+      case 'W':
+        return { kind: 'W', name, nodes: [node(s[2]), node(s[3])], control: s[4], model: s[5], origin };
       case 'J':
         return { kind: 'J', name, nodes: [node(s[2]), node(s[3]), node(s[4])], model: s[5], area: s[6]?.area ?? 1, m: s[6]?.m ?? 1, origin };
       case 'M':

@@ -19,6 +19,9 @@ const DD = model('DD', 'd', { IS: 1e-14, N: 1.5 });
 const DZ = model('DZ', 'd', { IS: 1e-14, BV: 0.3, IBV: 1e-4, NBV: 1.5 });
 /** JFETs with gate junctions that the test points bias forward and reverse. */
 const JN = model('JN', 'njf', { VTO: -0.5, BETA: 1e-3, LAMBDA: 0.02, IS: 1e-14 });
+/** A switch whose transition band the test points reach. */
+const SW = model('SW', 'sw', { RON: 100, ROFF: 1e5, VT: 0.2, VH: 0.5 });
+const CW = model('CW', 'csw', { RON: 50, ROFF: 1e6, IT: 1e-3, IH: 1e-4 });
 const JP = model('JP', 'pjf', { VTO: -0.4, BETA: 5e-4, LAMBDA: 0.01, IS: 1e-14, N: 1.2 });
 
 /** Devices of every kind and polarity on shared nodes (no series resistances, so every row is a netlist node). */
@@ -34,6 +37,8 @@ const MIXED: Spec[] = [
   ['D', 'D2', 'e', 'g', DZ, { area: 3 }],
   ['J', 'J1', 'a', 'b', 'e', JN],
   ['J', 'J2', 'g', 'e', 'b', JP, { area: 2 }],
+  ['S', 'S1', 'a', 'g', 'b', 'e', SW],
+  ['W', 'W1', 'sub', 'e', 'VCC', CW],
   ['R', 'R2', 'e', '0', 1e3],
   ['R', 'R3', 'g', '0', 47e3],
   ['R', 'R4', 'b', '0', 22e3],
