@@ -1,5 +1,6 @@
 // The elaborated circuit: parameters evaluated, includes read, subcircuits flattened. Solver and recognisers work on this.
 
+import type { BehaviourProgram } from './devices/behaviour-program';
 import type { ModelKind } from './devices/parameters';
 import type { Span } from './types';
 
@@ -172,6 +173,24 @@ export interface CurrentSwitch extends ElementBase {
   control: string;
 }
 
+/** A controlling quantity of a behavioural source: V(a) − V(b) (netlist node indices), or the current through element `source`. */
+export type BehaviourInput = { kind: 'v'; a: number; b: number } | { kind: 'i'; source: string };
+
+/**
+ * nodes: [out+, out−]. A behavioural source: B with V= or I=, or E, F, G, H written as VALUE,
+ * TABLE or POLY. `output` 'V' fixes V(out+) − V(out−) = f; 'I' drives f amperes from out+
+ * through the element to out−. f is `program` of `inputs`.
+ */
+export interface BehaviouralSource extends ElementBase {
+  kind: 'B';
+  /** The letter the card is written with. */
+  written: 'B' | 'E' | 'F' | 'G' | 'H';
+  form: 'expression' | 'VALUE' | 'TABLE' | 'POLY';
+  output: 'V' | 'I';
+  program: BehaviourProgram;
+  inputs: BehaviourInput[];
+}
+
 export type Element =
   | Resistor
   | Capacitor
@@ -187,7 +206,8 @@ export type Element =
   | Mosfet
   | Jfet
   | VoltageSwitch
-  | CurrentSwitch;
+  | CurrentSwitch
+  | BehaviouralSource;
 
 export type ElementKind = Element['kind'];
 

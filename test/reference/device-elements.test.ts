@@ -101,3 +101,85 @@ describe('switches', () => {
     expect(a.findings.filter((f) => f.severity === 'error')).toEqual([]);
   });
 });
+
+describe('behavioural sources', () => {
+  it('gives exact gradients: the program’s slope equals mathjs’s symbolic derivative', async () => {
+    // Source: mathjs `derivative` (symbolic differentiation, a general-purpose library) of the same formula.
+    const { derivative, evaluate } = await import('mathjs');
+    const { compileBehaviour } = await import('../../shared-analysis/src/elaborate/behaviour');
+    const { evaluateProgram } = await import('../../shared-analysis/src/devices/behaviour-program');
+    const { EvaluationContext, ParamScope } = await import('../../shared-analysis/src/elaborate/expressions');
+    const scope = new ParamScope(new EvaluationContext(() => undefined), { label: 'top level' });
+    const formula = 'a^2*exp(-b/2) + log(a+3)*sin(b) + sqrt(a*b) - atan(a/b) + tanh(b)^3';
+    const written = formula.replace(/\ba\b/g, 'V(x)').replace(/\bb\b/g, 'V(y,z)');
+    const c = compileBehaviour({ text: `{${written}}`, span: { start: 0, end: written.length + 2 }, kind: 'expr' }, scope);
+    if (!c.ok) throw new Error(c.error.message);
+    expect(c.inputs.map((i) => i.kind)).toEqual(['v', 'v']);
+    for (const [a, b] of [[0.7, 1.3], [2.5, 0.4], [1e-3, 5]]) {
+      const g = new Float64Array(2);
+      const r = evaluateProgram(c.program, [a, b], g);
+      expect(r.ok).toBe(true);
+      if (!r.ok) continue;
+      expect(r.value).toBeCloseTo(evaluate(formula, { a, b }), 12);
+      const da = derivative(formula, 'a').evaluate({ a, b }) as number;
+      const db = derivative(formula, 'b').evaluate({ a, b }) as number;
+      expect(Math.abs(g[0] - da)).toBeLessThanOrEqual(1e-12 * Math.max(1, Math.abs(da)));
+      expect(Math.abs(g[1] - db)).toBeLessThanOrEqual(1e-12 * Math.max(1, Math.abs(db)));
+    }
+  });
+
+  it('orders POLY(2) coefficients as P0, P1·x1, P2·x2, P11·x1², P12·x1·x2, P22·x2² (worked by hand)', () => {
+    // Hand-worked example (the trade's coefficient order): x1 = V(a) = 2 V, x2 = V(b) = 3 V,
+    // P = 1, 2, 3, 4, 5, 6 → 1 + 2·2 + 3·3 + 4·4 + 5·2·3 + 6·9 = 1 + 4 + 9 + 16 + 30 + 54 = 114 V.
+    const a = solved('poly\nVA a 0 2\nVB b 0 3\nE1 out 0 POLY(2) a 0 b 0 1 2 3 4 5 6\nRL out 0 1k\n.end\n');
+    expect(a.operatingPoint!.nodes.out).toBeCloseTo(114, 12);
+    // Fewer coefficients stop early: 1 + 2·2 + 3·3 = 14.
+    const b = solved('poly short\nVA a 0 2\nVB b 0 3\nE1 out 0 POLY(2) (a,0) (b,0) 1 2 3\nRL out 0 1k\n.end\n');
+    expect(b.operatingPoint!.nodes.out).toBeCloseTo(14, 12);
+  });
+
+  it('reads POLY(1) of a controlling current for F and H', () => {
+    // I(V1) = −2 mA (the source delivers 2 mA into 1 kΩ); F1 = 0.5 + 3·I → 0.5 − 6 mA… in amperes: 0.5m + 3·(−2m).
+    const a = solved('fh\nV1 a 0 2\nR1 a 0 1k\nF1 0 f POLY(1) V1 0.5m 3\nRF f 0 1k\nH1 h 0 POLY(1) V1 1 1k\nRH h 0 1k\n.end\n');
+    // F: current 0.5m − 6m = −5.5 mA flows from 0 through F1 to f, i.e. 5.5 mA leaves f: V(f) = −5.5 V.
+    expect(a.operatingPoint!.nodes.f).toBeCloseTo(-5.5, 12);
+    // H: V = 1 + 1k·(−2 mA) = −1 V.
+    expect(a.operatingPoint!.nodes.h).toBeCloseTo(-1, 12);
+  });
+
+  it('interpolates a TABLE and holds its end values outside it', () => {
+    const out = (v: number): number =>
+      solved(`table\nVA a 0 ${v}\nE1 out 0 TABLE {V(a)} = (0, 0) (1, 2) (3, 3)\nRL out 0 1k\n.end\n`).operatingPoint!.nodes.out;
+    expect(out(0.5)).toBeCloseTo(1, 12);
+    expect(out(2)).toBeCloseTo(2.5, 12);
+    expect(out(-1)).toBeCloseTo(0, 12);
+    expect(out(7)).toBeCloseTo(3, 12);
+  });
+
+  it('solves a nonlinear B source in feedback against an independent scalar Newton, to 1e-9', () => {
+    // A current B1 = 1e-3·tanh(V(x)/0.2) leaves node x, fed by 5 V through 10 kΩ: (5 − v)/10k = 1e-3·tanh(v/0.2).
+    const a = solved('b loop\nV1 s 0 5\nR1 s x 10k\nB1 x 0 I={1m*tanh(V(x)/0.2)}\n.end\n');
+    // Independent solution by bisection (the residual falls monotonically in v).
+    let lo = 0;
+    let hi = 5;
+    for (let k = 0; k < 200; k++) {
+      const mid = (lo + hi) / 2;
+      if ((5 - mid) / 10e3 - 1e-3 * Math.tanh(mid / 0.2) > 0) lo = mid;
+      else hi = mid;
+    }
+    const v = (lo + hi) / 2;
+    expect(Math.abs(a.operatingPoint!.nodes.x - v)).toBeLessThanOrEqual(1e-9 * v);
+    expect(a.operatingPoint!.devices.B1).toMatchObject({ type: 'controlled-source' });
+  });
+
+  it('names the element, the sub-expression and the point when the function cannot be evaluated', () => {
+    const a = analyseNetlist('bad\nV1 a 0 1\nR1 a 0 1k\nB1 b 0 V={log(V(a) - 2)}\nRB b 0 1k\n.end\n');
+    const f = a.findings.find((x) => x.code === 'dc-behaviour-not-evaluable');
+    expect(f?.message).toMatch(/B1.*V\(a\) = 1\b.*`log\(V\(a\) - 2\)` is not defined there \(log of -1\)/);
+    const line = 'B1 b 0 V={log(V(a) - 2)}';
+    const text = a.documents[f!.uri]!.text;
+    expect(text.slice(f!.span.start, f!.span.end)).toBe('log(V(a) - 2)');
+    expect(text.indexOf(line)).toBeGreaterThan(0);
+    expect(JSON.stringify(a.operatingPoint)).not.toMatch(/NaN|null/);
+  });
+});

@@ -1,12 +1,13 @@
 // Elaboration: from parsed documents to a flat circuit with parameters evaluated, models filled in and subcircuits flattened.
 
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
-import type { Cccs, Ccvs, Circuit, CurrentSwitch, Element, Model, Origin, Resistor } from '../circuit';
+import type { BehaviouralSource, BehaviourInput, Cccs, Ccvs, Circuit, CurrentSwitch, Element, Model, Origin, Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
+import { compileBehaviour, compilePoly, compileTable } from './behaviour';
 import { formatEngineering } from '../fixes/format';
 import { Sink } from './sink';
 import { readSources, type Body, type Located, type SubcktDef } from './sources';
@@ -59,11 +60,12 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nam
   M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
   J: { used: ['AREA', 'M', 'RATEDPOWER'], silent: ['IC', 'TEMP', 'DTEMP'] },
   S: { used: [], silent: ['ON', 'OFF', 'M'] },
+  B: { used: ['V', 'I'], silent: ['TC1', 'TC2', 'TEMP', 'DTEMP', 'SMOOTHBSRC', 'M'] },
   W: { used: [], silent: ['ON', 'OFF', 'M'] },
 });
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
-const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2 });
+const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2, B: 2 });
 
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
@@ -130,7 +132,7 @@ class Elaborator {
   /** Lower-case hierarchical name -> the card that first used it (elements and instances), for duplicates. */
   private readonly names = new Map<string, Located<ElementCard>>();
   private readonly models: Record<string, Model> = nameTable();
-  private readonly controls: { element: Cccs | Ccvs | CurrentSwitch; token: Token; uri: string; full: string }[] = [];
+  private readonly controls: { element: Element; token: Token; uri: string; full: string; set: (name: string) => void }[] = [];
   private readonly modelSymbols = new Map<string, ModelSymbol>();
   private readonly maxElements: number;
   private tooLarge = false;
@@ -476,7 +478,7 @@ class Elaborator {
       return;
     }
 
-    const expected = NODE_COUNT[card.letter] ?? 2;
+    const expected = card.behaviour ? 2 : (NODE_COUNT[card.letter] ?? 2);
     const allowedMax = card.letter === 'Q' ? 4 : expected;
     if (card.nodes.length < expected || card.nodes.length > allowedMax) {
       this.sink.add(
@@ -565,10 +567,16 @@ class Elaborator {
         element = card.letter === 'V' ? { name, nodes, origin, kind: 'V', dc } : { name, nodes, origin, kind: 'I', dc };
         break;
       }
+      case 'B':
       case 'E':
       case 'G':
       case 'F':
       case 'H': {
+        if (card.letter === 'B' || card.behaviour) {
+          element = this.behavioural(card, inst, uri, name, nodes, origin);
+          if (!element) return;
+          break;
+        }
         if (!card.value) {
           this.sink.add('element-value-missing', `Controlled source \`${card.name.text}\` has no gain; it is left out of the analysis.`, uri, card.name.span);
           return;
@@ -580,7 +588,7 @@ class Elaborator {
         } else {
           if (!card.control) return;
           const el: Cccs | Ccvs = { name, nodes, origin, kind: card.letter, control: inst.prefix + card.control.text, gain };
-          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text });
+          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text, set: (n) => (el.control = n) });
           element = el;
         }
         break;
@@ -610,7 +618,7 @@ class Elaborator {
         } else {
           if (!card.control) return;
           const el: CurrentSwitch = { name, nodes, origin, kind: 'W', model, control: inst.prefix + card.control.text };
-          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text });
+          this.controls.push({ element: el, token: card.control, uri, full: inst.prefix + card.control.text, set: (n) => (el.control = n) });
           element = el;
         }
         break;
@@ -686,6 +694,57 @@ class Elaborator {
     const tc1 = read('TC1') ?? read('TC') ?? fromModel('TC1');
     const tc2 = read('TC2') ?? fromModel('TC2');
     return { tc1, tc2 };
+  }
+
+  /**
+   * A behavioural source: B with V= or I=, or E, F, G, H written as VALUE, TABLE or POLY. Its
+   * function is compiled with the parameters of its scope; a function that cannot be compiled is
+   * reported on its text and the element is left out.
+   */
+  private behavioural(card: ElementCard, inst: Instance, uri: string, name: string, nodes: number[], origin: Origin): BehaviouralSource | undefined {
+    const written = card.letter as BehaviouralSource['written'];
+    const valueOf = (t: Token): number | undefined => this.value(t, inst, uri, `a value of \`${card.name.text}\``, 'The source is left out of the analysis.');
+    let output: 'V' | 'I';
+    let form: BehaviouralSource['form'];
+    let compiled: ReturnType<typeof compileBehaviour>;
+    if (written === 'B') {
+      const asg = card.params.find((a) => /^[vi]$/i.test(a.name.text));
+      if (!asg || !card.value) return undefined;
+      output = asg.name.text.toUpperCase() === 'V' ? 'V' : 'I';
+      form = 'expression';
+      compiled = compileBehaviour(card.value, inst.scope);
+    } else {
+      const b = card.behaviour!;
+      output = written === 'E' || written === 'H' ? 'V' : 'I';
+      form = b.form as BehaviouralSource['form'];
+      const fields = card.tokens.filter((t) => t.span.start > b.keyword.span.start && t.span.start < b.span.end);
+      if (form === 'VALUE') {
+        const tok = fields.find((t) => t.kind === 'expr') ?? fields[0];
+        compiled = tok ? compileBehaviour(tok, inst.scope) : { ok: false, error: { message: 'VALUE needs an expression in braces.', span: b.keyword.span } };
+      } else if (form === 'TABLE') compiled = compileTable(fields, inst.scope, valueOf);
+      else compiled = compilePoly(fields, written === 'F' || written === 'H', valueOf);
+    }
+    if (!compiled.ok) {
+      if (!compiled.error.inherited) {
+        this.sink.add('element-value-invalid', `The function of \`${card.name.text}\` cannot be read: ${lowerFirst(compiled.error.message)} The source is left out of the analysis.`, uri, compiled.error.span, compiled.error.related);
+      }
+      return undefined;
+    }
+    const inputs: BehaviourInput[] = [];
+    const el: BehaviouralSource = { name, nodes, origin, kind: 'B', written, form, output, program: compiled.program, inputs };
+    for (const ref of compiled.inputs) {
+      if (ref.kind === 'v') {
+        const a = this.node(ref.a, inst, uri);
+        const b = ref.b ? this.node(ref.b, inst, uri) : 0;
+        if (a === undefined || b === undefined) return undefined;
+        inputs.push({ kind: 'v', a, b });
+      } else {
+        const input: BehaviourInput = { kind: 'i', source: inst.prefix + ref.source.text };
+        inputs.push(input);
+        this.controls.push({ element: el, token: ref.source, uri, full: inst.prefix + ref.source.text, set: (n) => (input.source = n) });
+      }
+    }
+    return el;
   }
 
   /** Element parameters by upper-case name; reports unknown ones. */
@@ -1071,7 +1130,7 @@ class Elaborator {
     }
   }
 
-  /** Resolves F, H and W controls against the flattened voltage sources; drops those whose control does not exist. */
+  /** Resolves F, H and W controls and the I(…) inputs of behavioural sources against the flattened voltage sources; drops those whose control does not exist. */
   private resolveControls(): void {
     if (this.controls.length === 0) return;
     const byName = new Map<string, Element>();
@@ -1080,7 +1139,7 @@ class Elaborator {
     for (const c of this.controls) {
       const target = byName.get(c.full.toLowerCase());
       if (target && target.kind === 'V') {
-        c.element.control = target.name;
+        c.set(target.name);
         continue;
       }
       const message = target
@@ -1273,7 +1332,6 @@ function chooseBin(bins: ModelEntry[], size: { w: number; l: number }): ModelEnt
 /** How the elements the solver does not read yet are named in the one finding per kind, and whether they matter at DC. */
 const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nameTable({
   Z: { one: 'MESFET', many: 'MESFETs', dc: true },
-  B: { one: 'behavioural source', many: 'behavioural sources', dc: true },
   K: { one: 'inductor coupling', many: 'inductor couplings', dc: false },
   T: { one: 'transmission line', many: 'transmission lines', dc: true },
   O: { one: 'lossy transmission line', many: 'lossy transmission lines', dc: true },
@@ -1282,12 +1340,15 @@ const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nam
   U: { one: 'digital or distributed element', many: 'digital or distributed elements', dc: true },
   A: { one: 'mixed-signal (code model) element', many: 'mixed-signal (code model) elements', dc: true },
   N: { one: 'model-defined device', many: 'model-defined devices', dc: true },
-  behaviour: { one: 'controlled source in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', many: 'controlled sources in a behavioural form (POLY, VALUE, TABLE, LAPLACE)', dc: true },
+  behaviour: { one: 'controlled source in a frequency-domain form (LAPLACE, FREQ, CHEBYSHEV)', many: 'controlled sources in a frequency-domain form (LAPLACE, FREQ, CHEBYSHEV)', dc: true },
 });
+
+/** Behavioural forms of E, F, G, H the solver reads (LAPLACE and the frequency forms have no DC meaning it can take). */
+const SOLVED_FORMS = new Set(['VALUE', 'TABLE', 'POLY']);
 
 /** The left-out kind of an element the solver does not read yet, or undefined for one it solves. */
 function leftOutKind(card: ElementCard): string | undefined {
-  if (card.behaviour) return 'behaviour';
+  if (card.behaviour) return SOLVED_FORMS.has(card.behaviour.form) ? undefined : 'behaviour';
   return LEFT_OUT[card.letter] ? card.letter : undefined;
 }
 
@@ -1326,6 +1387,7 @@ function describeLetter(letter: string): string {
     J: 'a junction FET',
     S: 'a voltage-controlled switch',
     W: 'a current-controlled switch',
+    B: 'a behavioural source',
     X: 'a subcircuit instance',
   };
   return names[letter] ?? 'an element';

@@ -285,6 +285,8 @@ export function terminalNames(el: Element): string[] {
       return ['switch +', 'switch −', 'control +', 'control −'];
     case 'W':
       return ['switch +', 'switch −'];
+    case 'B':
+      return ['output +', 'output −'];
   }
 }
 

@@ -18,5 +18,6 @@ export const SOLVER_CODES: Record<string, { severity: Severity; summary: string 
   'dc-junction-shorted': { severity: 'warning', summary: 'Both ends of a junction on one node: it can never be biased.' },
   'dc-junction-overdriven': { severity: 'warning', summary: 'A source drives a junction directly far past its turn-on voltage.' },
   'dc-override-refused': { severity: 'warning', summary: 'A per-solve resistance override that could not be applied (unknown element, not a resistor, not a finite number, or a change to 0 Ω); the netlist value was used.' },
+  'dc-behaviour-not-evaluable': { severity: 'error', summary: 'A behavioural source’s function has no finite value at the point the solver reached (the log of a negative number, a division by zero, …); names the element, the sub-expression and the controlling values.' },
   'dc-implausible-voltage': { severity: 'warning', summary: 'A solved node voltage far outside every source voltage.' },
 };

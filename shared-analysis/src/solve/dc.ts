@@ -1,5 +1,6 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
+import { BehaviouralTable } from '../devices/behavioural';
 import type { Circuit, Element } from '../circuit';
 import type { DeviceColumns, DeviceConditions, DeviceKind, DeviceTable, StartHint } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
@@ -233,6 +234,7 @@ export class DcSolver {
     this.engine.lastFinite.set(x);
 
     const fallbacks: Fallback[] = [];
+    let firstPoint: Float64Array | undefined;
     let iterations = 0;
     let converged = false;
     let last: NewtonOutcome | undefined;
@@ -241,6 +243,8 @@ export class DcSolver {
       last = this.engine.run(x, { sourceScale: 1, nodeShunt: 0, maxIterations, start: startHint });
       iterations += last.iterations;
       converged = last.status === 'converged';
+      // Where the sources are at full value: a behavioural function that fails there is named at this point.
+      if (!converged) firstPoint = Float64Array.from(x);
       if (!converged) {
         // A singular linearisation may be numerical (one bad iterate); node shunts can step past it.
         // If the circuit itself is singular, the last step without shunts fails the same way.
@@ -267,6 +271,7 @@ export class DcSolver {
     }
 
     if (last && !converged) pushAll(findings, this.failureFindings(last, fallbacks, iterations));
+    pushAll(findings, this.behaviourFindings(converged || !firstPoint ? x : firstPoint));
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged) pushAll(findings, this.postSolveFindings(x, op, structure));
@@ -967,6 +972,34 @@ export class DcSolver {
         break;
       }
     });
+    return out;
+  }
+
+  /** `dc-behaviour-not-evaluable` for each behavioural source whose function has no finite value (or slope) at x. */
+  private behaviourFindings(x: Float64Array): Finding[] {
+    const out: Finding[] = [];
+    const c = this.circuit;
+    for (const table of this.layout.tables) {
+      if (!(table instanceof BehaviouralTable)) continue;
+      const describe = (i: number, k: number): string => {
+        const input = table.instances.elements[i].inputs[k];
+        if (!input) return '?';
+        if (input.kind === 'i') return `I(${input.source})`;
+        return input.b === 0 ? `V(${c.nodes[input.a]})` : `V(${c.nodes[input.a]}, ${c.nodes[input.b]})`;
+      };
+      for (const p of table.problems(x, describe)) {
+        const el = c.elements[p.element];
+        const f = this.elementFinding(
+          'dc-behaviour-not-evaluable',
+          'error',
+          `The function of ${el.name} cannot be evaluated at the operating point reached (${p.at || 'no controlling values'}): ${p.failure.message}. The solver kept its last usable value, so the point is not a solution.`,
+          p.element,
+        );
+        f.span = p.failure.span;
+        f.data = { element: el.name };
+        out.push(f);
+      }
+    }
     return out;
   }
 

@@ -129,7 +129,7 @@ export class MnaLayout {
       }
     });
     const hasBranch = (el: Element): boolean =>
-      el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0);
+      el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0) || (el.kind === 'B' && el.output === 'V');
     els.forEach((el, i) => {
       if (this.skipped.has(i) || !hasBranch(el)) return;
       this.branchOfElement.set(i, this.unknowns.length);

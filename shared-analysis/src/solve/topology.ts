@@ -60,7 +60,7 @@ function conductingPairs(el: Element, resistance: number): [number, number][] {
 
 /** Whether an element fixes the voltage between its first two nodes (`resistance` overrides a resistor's netlist value). */
 export function isVoltageDefining(el: Element, resistance?: number): boolean {
-  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && (resistance ?? el.resistance) === 0);
+  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'B' && el.output === 'V') || (el.kind === 'R' && (resistance ?? el.resistance) === 0);
 }
 
 /** Resistance of element `i` for one solve (a per-solve override, else the netlist value); `undefined` means "as written". */

@@ -84,7 +84,7 @@ export interface ElementCard extends CardBase {
   /**
    * A behavioural form of a controlled source (`POLY(n) ...`, `VALUE={...}`, `TABLE {...} = ...`,
    * `LAPLACE ...`): the form's keyword and every field from it to the end of the card. Set only on
-   * E, F, G and H cards; the solver does not read these forms yet, so such an element is left out.
+   * E, F, G and H cards; VALUE, TABLE and POLY are solved as behavioural sources, the frequency-domain forms are left out.
    */
   behaviour?: { form: string; keyword: Token; fields: Token[]; span: Span };
   /** K: the inductors it couples (`value` holds the coupling coefficient). */
@@ -92,7 +92,7 @@ export interface ElementCard extends CardBase {
 }
 
 /** The element letters the solver reads today. */
-export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'J' | 'S' | 'W' | 'X';
+export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'J' | 'S' | 'W' | 'B' | 'X';
 
 /**
  * Letters of the family that are read into cards but not solved yet:
@@ -104,7 +104,7 @@ export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' |
  * - T, O, P, Y: nodes (every positional field), params (transmission lines and the like)
  * - U, A, N: nodes (every positional field but the last), model (digital, mixed-signal and model-only devices)
  */
-export type UnsolvedLetter = 'Z' | 'B' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
+export type UnsolvedLetter = 'Z' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
 
 export type ElementLetter = SolvedLetter | UnsolvedLetter;
 

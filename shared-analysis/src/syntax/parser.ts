@@ -45,7 +45,7 @@ const TRANSIENT_VALUE_ARGUMENT = new Map<string, number>([
   ['PWL', 1],
 ]);
 
-/** Behavioural forms of controlled sources: read into `behaviour`, not solved yet. */
+/** Behavioural forms of controlled sources, read into `behaviour` (VALUE, TABLE and POLY are solved; the others are left out). */
 const BEHAVIOUR_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ', 'CHEBYSHEV']);
 /** Source forms of V and I that are recognised but not supported. */
 const UNSUPPORTED_SOURCE_WORDS = new Set(['POLY', 'VALUE', 'TABLE', 'LAPLACE', 'FREQ']);
@@ -615,6 +615,12 @@ function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
   let i = 0;
   while (i < lx.length) {
     const l = lx[i];
+    // `TABLE {expr} = (x, y) …`: an expression before `=` and a bracket is a table's input, not a name.
+    if (l.type === 'expr' && lx[i + 1]?.type === 'eq' && lx[i + 2]?.type === 'lp') {
+      items.push({ k: 'pos', tok: makeToken(text, l) });
+      i += 2;
+      continue;
+    }
     if (isField(l) && lx[i + 1]?.type === 'eq') {
       const name = makeToken(text, l);
       const v = lx[i + 2];

@@ -109,7 +109,7 @@ describe('.global, .if and instance overrides', () => {
 describe('elements the solver does not read yet', () => {
   it('leaves them out with one finding per kind and no error cascade', () => {
     const a = run(
-      'mixed\nV1 in 0 5\nR1 in out 1k\nR2 out 0 1k\nZ1 out g 0 ZN\nZ2 out g 0 ZN\nZ3 out g 0 ZN\nU1 in out DGATE\nU2 in out DGATE\nE1 x 0 VALUE={V(in)*2}\nRX x 0 1k\nK1 L1 L2 0.9\nL1 in a 1m\nR3 a 0 1k\nL2 b 0 1m\nR4 in b 1k\n',
+      'mixed\nV1 in 0 5\nR1 in out 1k\nR2 out 0 1k\nZ1 out g 0 ZN\nZ2 out g 0 ZN\nZ3 out g 0 ZN\nU1 in out DGATE\nU2 in out DGATE\nE1 x 0 LAPLACE {V(in)} {1/(1+s)}\nRX x 0 1k\nK1 L1 L2 0.9\nL1 in a 1m\nR3 a 0 1k\nL2 b 0 1m\nR4 in b 1k\n',
     );
     expect(errors(a)).toEqual([]);
     const leftOut = a.findings.filter((f) => f.code.startsWith('element-not-analysed'));

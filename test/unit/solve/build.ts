@@ -1,6 +1,7 @@
 // Test builder: makes elaborated Circuit objects directly from a compact element list, with distinct spans per element.
 
-import type { Circuit, Element, Model, ModelKind } from '../../../shared-analysis/src/circuit';
+import type { BehaviouralSource, BehaviourInput, Circuit, Element, Model, ModelKind } from '../../../shared-analysis/src/circuit';
+import type { BehaviourProgram } from '../../../shared-analysis/src/devices/behaviour-program';
 import { MODEL_DEFAULTS } from '../../../shared-analysis/src/circuit';
 
 /** A model for tests: defaults filled in, given parameters marked. */
@@ -26,7 +27,8 @@ export type Spec =
   | ['M', string, string, string, string, string, Model, { w?: number; l?: number; m?: number }?]
   | ['J', string, string, string, string, Model, { area?: number; m?: number }?]
   | ['S', string, string, string, string, string, Model]
-  | ['W', string, string, string, string, Model];
+  | ['W', string, string, string, string, Model]
+  | ['B', string, string, string, BehaviouralSource['output'], BehaviourProgram, [string, string][]];
 
 /**
  * Builds a Circuit. Node '0' (or 'gnd') is ground; other nodes are numbered in order of
@@ -73,6 +75,8 @@ export function circuit(specs: Spec[], opts: { temperatureC?: number; tnomC?: nu
         return { kind: 'Q', name, nodes: [node(s[2]), node(s[3]), node(s[4])], model: s[5], area: s[6]?.area ?? 1, m: s[6]?.m ?? 1, origin };
       case 'S':
         return { kind: 'S', name, nodes: [node(s[2]), node(s[3]), node(s[4]), node(s[5])], model: s[6], origin };
+      case 'B':
+        return { kind: 'B', name, nodes: [node(s[2]), node(s[3])], written: 'B', form: 'expression', output: s[4], program: s[5], inputs: s[6].map(([a, b]): BehaviourInput => ({ kind: 'v', a: node(a), b: node(b) })), origin };
       case 'W':
         return { kind: 'W', name, nodes: [node(s[2]), node(s[3])], control: s[4], model: s[5], origin };
       case 'J':
