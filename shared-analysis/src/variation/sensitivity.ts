@@ -150,13 +150,14 @@ class Batch {
     return out;
   }
 
-  /** Current into netlist terminal t of every copy. */
-  currents(terminal: (i: number) => number): Float64Array {
+  /** Current into each of the netlist terminals `terminals` of every copy, from one evaluation. */
+  currents(terminals: Iterable<number>): Map<number, Float64Array> {
     const cols = this.table.evaluate(this.x);
-    const out = new Float64Array(this.variants.length);
-    for (let i = 0; i < out.length; i++) {
-      const t = terminal(i);
-      out[i] = t < 0 ? 0 : this.kind.terminalCurrent(cols, i, t);
+    const out = new Map<number, Float64Array>();
+    for (const t of terminals) {
+      const col = new Float64Array(this.variants.length);
+      for (let i = 0; i < col.length; i++) col[i] = this.kind.terminalCurrent(cols, i, t);
+      out.set(t, col);
     }
     return out;
   }
@@ -234,6 +235,19 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         set.add(term.terminal);
       }
 
+  const allWanted = new Set<number>();
+  for (const set of wantedTerminals.values()) for (const t of set) allWanted.add(t);
+  // A model with one parameter moved by ±h is the same for every device that shares the model: build each once.
+  const modelCache = new Map<unknown, Map<string, unknown>>();
+  const movedModel = (model: { params: Record<string, number> }, param: string, value: number): unknown => {
+    let byKey = modelCache.get(model);
+    if (!byKey) modelCache.set(model, (byKey = new Map()));
+    const k = `${param}\u0000${value}`;
+    let m = byKey.get(k);
+    if (!m) byKey.set(k, (m = { ...model, params: { ...model.params, [param]: value } }));
+    return m;
+  };
+
   for (const [kind, devices] of devicesByKind) {
     const T = kind.terminalCount;
     // Temperature: every device's residual at T ± h, and the wanted terminal currents.
@@ -242,16 +256,16 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
       const h = TEMPERATURE_STEP;
       batch.table.prepare(at(conditions.temperatureC + h));
       const up = batch.residuals();
-      const upI = new Map<number, Float64Array>();
-      for (const t of new Set([...wantedTerminals.values()].flatMap((s) => [...s]))) upI.set(t, batch.currents(() => t));
+      const upI = batch.currents(allWanted);
       batch.table.prepare(at(conditions.temperatureC - h));
       const down = batch.residuals();
+      const downI = batch.currents(allWanted);
       devices.forEach((d, i) => {
         const g = globalsOf(d);
         for (let t = 0; t < T; t++) put(temperatureParam, g[t], (up[i * T + t] - down[i * T + t]) / (2 * h));
       });
       for (const [t, ups] of upI) {
-        const downs = batch.currents(() => t);
+        const downs = downI.get(t)!;
         devices.forEach((d, i) => {
           if (wantedTerminals.get(d)?.has(t)) explicitDevice.set(key(d, t, temperatureParam), (ups[i] - downs[i]) / (2 * h));
         });
@@ -269,7 +283,7 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         if (!('model' in el)) continue;
         const h = parameterStep(el, p.param);
         const base = modelValue(el, p.param);
-        for (const delta of [h, -h]) copies.push({ element: { ...el, model: { ...el.model, params: { ...el.model.params, [p.param]: base + delta } } } as Element, globals: globalsOf(d), shift: -1, delta: 0 });
+        for (const delta of [h, -h]) copies.push({ element: { ...el, model: movedModel(el.model, p.param, base + delta) } as Element, globals: globalsOf(d), shift: -1, delta: 0 });
         meta.push({ d, j, h });
       }
     }
@@ -280,9 +294,9 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         const g = globalsOf(m.d);
         for (let t = 0; t < T; t++) put(m.j, g[t], (res[2 * k * T + t] - res[(2 * k + 1) * T + t]) / (2 * m.h));
       });
-      const terminalsWanted = new Set([...wantedTerminals.values()].flatMap((s) => [...s]));
-      for (const t of terminalsWanted) {
-        const cur = batch.currents(() => t);
+      const currents = batch.currents(allWanted);
+      for (const t of allWanted) {
+        const cur = currents.get(t)!;
         meta.forEach((m, k) => {
           if (wantedTerminals.get(m.d)?.has(t)) explicitDevice.set(key(m.d, t, m.j), (cur[2 * k] - cur[2 * k + 1]) / (2 * m.h));
         });
@@ -352,12 +366,14 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
     const nominalBatch = new Batch(kind, nominalCopies, x, conditions);
     const batch = new Batch(kind, copies, x, conditions);
     const terminals = new Set([...wanted].flatMap((d) => [...wantedTerminals.get(d)!]));
+    const nominalAll = nominalBatch.currents(terminals);
+    const shiftedAll = batch.currents(terminals);
     for (const t of terminals) {
-      const nominalI = nominalBatch.currents(() => t);
+      const nominalI = nominalAll.get(t)!;
       wanted.forEach((d, i) => {
         if (wantedTerminals.get(d)!.has(t)) deviceValue.set(slot(d, t), nominalI[i]);
       });
-      const cur = batch.currents(() => t);
+      const cur = shiftedAll.get(t)!;
       meta.forEach((m, k) => {
         if (!wantedTerminals.get(m.d)!.has(t)) return;
         const id = slot(m.d, t);
