@@ -1,6 +1,6 @@
 // Variation benchmark: every sensitivity of every output of a 2,000-device mirror array against its nominal solve, and 1,000 Monte Carlo runs of the example netlist.
 //
-// Run (a script that prints figures, not a test):
+// Run from the repository's root (a script that prints figures, not a test):
 //   npx esbuild test/bench/variation-bench.ts --bundle --platform=node --format=cjs --outfile=/tmp/variation-bench.js && node /tmp/variation-bench.js
 //
 // Targets (docs/VARIATION.md): all sensitivities of all outputs of the 2,000-device mirror array in
@@ -89,8 +89,8 @@ function sensitivityRun(kind: 'npn' | 'nmos'): void {
 }
 
 function monteCarloRun(): void {
-  const root = path.resolve(__dirname, '..', '..');
-  const dir = path.join(root, 'examples');
+  // Run from the repository's root (as the header says), so the example is found wherever the bundle was written.
+  const dir = path.join(process.cwd(), 'examples');
   const text = readFileSync(path.join(dir, 'sensor-bias.cir'), 'utf8');
   const inc = readFileSync(path.join(dir, 'models', 'front-end-models.inc'), 'utf8');
   const ws = new MemoryWorkspace({ 'mem://examples/models/front-end-models.inc': inc });
