@@ -7,5 +7,8 @@ export default defineConfig({
     exclude: ['test/editor/**', 'node_modules/**'],
     testTimeout: 30000,
     pool: 'threads',
+    // Test files share a worker's module cache instead of re-importing the engine for each file
+    // (import time dominated the run). A test must therefore not depend on fresh module state.
+    isolate: false,
   },
 });
