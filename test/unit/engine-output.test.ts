@@ -3,7 +3,8 @@
 // and quick fixes whose text parses as what they claim to add.
 
 import { describe, expect, it } from 'vitest';
-import { analyse } from '../../shared-analysis/src/service';
+import { analyse, analyseSession, sizingFixesOf } from '../../shared-analysis/src/service';
+import { parse } from '../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 import { clampSpan, dropNonFinite, keepFinite } from '../../shared-analysis/src/output-guard';
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
@@ -127,5 +128,32 @@ describe('quick fixes produce text that parses', () => {
     expect(definesModel('.model q_2n npn (IS=1e-16)', 'q_2n')).toBe(true);
     expect(definesModel('.model q$ npn (IS=1e-16)', 'q$')).toBe(false);
     expect(definesModel('.model q npn (IS=1e-16) ; note', 'q')).toBe(true);
+  });
+});
+
+describe('cases the fuzz target found', () => {
+  it('says a power limit scaled to almost nothing is exceeded without an infinite ratio', () => {
+    // M=1e-320 scales the default 0.5 W limit to a subnormal ≈5e-321 W; p/limit overflows to ∞.
+    const a = run('PMOS mirror\nVDD vdd 0 3.3\nMP1 gp gp vdd vdd pch W=8u L=1u\nMP2 op gp vdd vdd pch W=8u L=1u M=1e-320\nRGP gp 0 100k\nROP op 0 30k\n.model pch PMOS (VTO=-0.5 KP=40u LAMBDA=0.05)\n.end\n');
+    const power = a.findings.filter((f) => f.code === 'power-over-rating' && f.data?.['device'] !== 'MP1');
+    expect(power.length).toBeGreaterThan(0);
+    for (const f of power) expect(f.message).not.toMatch(/Infinity|NaN/);
+    expect(a.findings.some((f) => f.code === 'value-not-finite')).toBe(false);
+  });
+
+  it('keeps a blank after a sized value written against the next field', () => {
+    // `{rset}M=1` is a value and a parameter; writing 24k in place of {rset} must not make `24kM=1` one field.
+    const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref {rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';
+    const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const missed = s.analysis.findings.find((f) => f.code === 'target-missed');
+    expect(missed).toBeDefined();
+    const fixes = sizingFixesOf(s, missed!).filter((f) => f.edits.length > 0);
+    expect(fixes.length).toBeGreaterThan(0);
+    for (const fix of fixes) {
+      for (const e of fix.edits) {
+        const fixed = text.slice(0, e.span.start) + e.newText + text.slice(e.span.end);
+        expect(parse(URI, fixed, { hasTitle: true }).errors, fixed).toEqual([]);
+      }
+    }
   });
 });

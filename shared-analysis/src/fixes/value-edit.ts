@@ -46,6 +46,17 @@ const identifierIn = (name: string) => new RegExp(`(^|[^A-Za-z0-9_.])${name.repl
  * Undefined when the card has no value field or `ohms` is not a positive finite number.
  */
 export function resistorValueChange(r: Resistor, documents: Record<string, ParsedDocument>, ohms: number): ValueChange | undefined {
+  const change = valueChange(r, documents, ohms);
+  if (!change) return undefined;
+  // A value written against the next field (`{rset}M=2`) keeps a blank after it, or `24kM=2` would read as one field.
+  for (const e of change.edits) {
+    const next = documents[e.uri]?.text.charAt(e.span.end) ?? '';
+    if (next !== '' && !/\s/.test(next)) e.newText += ' ';
+  }
+  return change;
+}
+
+function valueChange(r: Resistor, documents: Record<string, ParsedDocument>, ohms: number): ValueChange | undefined {
   const doc = documents[r.origin.uri];
   const span = r.origin.valueSpan;
   if (!doc || !span || !(ohms > 0) || !Number.isFinite(ohms)) return undefined;

@@ -108,10 +108,12 @@ function judgePower(el: Element, rec: DeviceRecord, ctx: JudgeContext): void {
           ? 'the default for an ordinary resistor, common practice; give a larger part its RATEDPOWER= on the card'
           : 'the default for a small-signal part, common practice; give a power part its RATEDPOWER= on the card or model';
   const ratio = Number((p / limit.watts).toPrecision(3));
+  // A limit scaled almost to nothing (M=1e-320) gives a ratio past any number: say "above" instead.
+  const times = Number.isFinite(ratio) ? `${ratio}× its limit` : 'above its limit';
   ctx.emit(
     'power-over-rating',
     el,
-    `${el.name} dissipates ${formatMeasured(p, 'W')}, ${ratio}× its limit of ${formatMeasured(limit.watts, 'W')} (${whence}).`,
+    `${el.name} dissipates ${formatMeasured(p, 'W')}, ${times} of ${formatMeasured(limit.watts, 'W')} (${whence}).`,
     { powerW: p, limitW: limit.watts, limitFrom: limit.from },
   );
 }
