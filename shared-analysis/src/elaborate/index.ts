@@ -10,10 +10,11 @@ import { KINDS_FOR_LETTER, elaborateModel } from './models';
 import { compileBehaviour, compilePoly, compileTable } from './behaviour';
 import { formatEngineering } from '../fixes/format';
 import { Sink } from './sink';
-import { readSources, type Body, type Located, type SubcktDef } from './sources';
+import { readSources, type Body, type ConditionOracle, type Located, type SubcktDef } from './sources';
 import { expressionOf, tokenValue, type ValueResult } from './values';
 import { pushAll } from '../arrays';
 import { nameTable } from '../names';
+import { Branches } from './branches';
 
 /** Per-call elaboration settings. */
 export interface ElaborateOptions {
@@ -156,7 +157,7 @@ class Elaborator {
   }
 
   run(): ElaborationResult {
-    const read = readSources(this.root, this.workspace, this.sink, this.options.includeFolders ?? []);
+    const read = readSources(this.root, this.workspace, this.sink, this.options.includeFolders ?? [], this.topConditions());
     for (const def of read.allDefs) this.checkPortsUsed(def);
     for (const body of [read.top, ...read.allDefs.map((d) => d.body)]) {
       for (const { card } of body.items) if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
@@ -214,6 +215,30 @@ class Elaborator {
       includes: read.includes as IncludeSymbol[],
     };
     return { circuit, documents: read.documents, symbols, findings: this.sink.findings, inactive: this.inactiveBranches() };
+  }
+
+  /**
+   * Decides top-level `.if` conditions while the files are read, so an include or a subcircuit in a
+   * branch that is not taken is never read or defined. The parameters are evaluated in a scratch
+   * scope in reading order, as `activeItems` does for the top level afterwards (which reports).
+   */
+  private topConditions(): ConditionOracle {
+    const scratch = new ParamScope(new EvaluationContext(() => undefined), { label: 'top level' });
+    return {
+      define: (card, uri) => {
+        if (card.kind === 'func' && card.body) {
+          const { source, offset } = expressionOf(card.body);
+          scratch.defineFunction({ name: card.name.text, args: card.args.map((a) => a.text.toLowerCase()), source, offset, uri, nameSpan: card.name.span });
+        } else if (card.kind === 'param') {
+          for (const a of card.params) scratch.define(paramDefinition(a, uri));
+        }
+      },
+      holds: (card, uri) => {
+        if (!card.condition) return false;
+        const v = tokenValue(card.condition, scratch, uri);
+        return v.ok && v.value !== 0;
+      },
+    };
   }
 
   /**
@@ -314,9 +339,7 @@ class Elaborator {
       return body.items;
     }
     const out: Located[] = [];
-    /** Per open `.if`: whether its enclosing branch is active, whether a branch was taken, whether the current one is. */
-    const stack: { outer: boolean; taken: boolean; active: boolean }[] = [];
-    const active = (): boolean => stack.length === 0 || stack[stack.length - 1]!.active;
+    const branches = new Branches();
     const test = (card: ConditionCard, uri: string): boolean => {
       if (!card.condition) return false;
       const v = tokenValue(card.condition, scope, uri);
@@ -338,41 +361,18 @@ class Elaborator {
     for (const item of body.items) {
       const { card, uri } = item;
       if (card.kind !== 'condition') {
-        if (active()) {
+        if (branches.active()) {
           out.push(item);
           defineAll(card, uri);
         }
         continue;
       }
       branchEnds(item, branchTaken);
-      const top = stack[stack.length - 1];
-      switch (card.branch) {
-        case 'if': {
-          const outer = active();
-          const taken = outer && test(card, uri);
-          stack.push({ outer, taken, active: taken });
-          break;
-        }
-        case 'elseif':
-          if (!top) break;
-          if (top.outer && !top.taken) {
-            top.active = test(card, uri);
-            top.taken = top.active;
-          } else top.active = false;
-          break;
-        case 'else':
-          if (!top) break;
-          top.active = top.outer && !top.taken;
-          top.taken = true;
-          break;
-        case 'endif':
-          stack.pop();
-          break;
-      }
+      branches.step(card, () => test(card, uri));
       // The branch this card opens (none after `.endif`), and whether it is taken in this instance.
       opener = card.branch === 'endif' ? undefined : card;
       openerUri = uri;
-      branchTaken = active() && stack.length > 0;
+      branchTaken = branches.active() && branches.open();
     }
     return out;
   }

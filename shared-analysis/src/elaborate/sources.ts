@@ -1,12 +1,13 @@
 // Reads the root netlist and every file it includes into one tree of bodies: top level and subcircuit definitions.
 
 import { parse, unquote } from '../syntax/parser';
-import type { Card, LibCard, ParsedDocument, SubcktCard, Token } from '../syntax/ast';
+import type { Card, ConditionCard, LibCard, ParsedDocument, SubcktCard, Token } from '../syntax/ast';
 import type { IncludeSymbol } from '../analysis';
 import type { Workspace } from '../types';
 import type { Sink } from './sink';
 import { findInclude } from './include-search';
 import { nameTable } from '../names';
+import { Branches } from './branches';
 
 /** Deepest chain of nested includes followed. */
 export const MAX_INCLUDE_DEPTH = 64;
@@ -48,11 +49,20 @@ export interface ReadResult {
 }
 
 /**
+ * Decides the top level's `.if` conditions while files are read: `define` sees each top-level
+ * `.param` and `.func` card taken, in reading order; `holds` evaluates a condition with them.
+ */
+export interface ConditionOracle {
+  define(card: Card, uri: string): void;
+  holds(card: ConditionCard, uri: string): boolean;
+}
+
+/**
  * Reads `root` and, through the workspace, every file it includes (`.include`, `.lib path section`),
  * relative to the including file. Each file, or library section, is read once; cycles, missing
  * files and missing sections are reported to `sink`.
  */
-export function readSources(root: ParsedDocument, workspace: Workspace, sink: Sink, folders: readonly string[] = []): ReadResult {
+export function readSources(root: ParsedDocument, workspace: Workspace, sink: Sink, folders: readonly string[] = [], conditions?: ConditionOracle): ReadResult {
   const documents: Record<string, ParsedDocument> = nameTable({ [root.uri]: root });
   const includes: IncludeSymbol[] = [];
   const allDefs: SubcktDef[] = [];
@@ -63,12 +73,39 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
   readAt.set(`${root.uri}\u0000`, { uri: root.uri, token: { text: root.uri, span: { start: 0, end: 0 }, kind: 'word' } });
 
 
+  // The top level's `.if` blocks, decided as they are read (only the taken branch exists: an include
+  // or a subcircuit in another branch is not read or defined). Inside a subcircuit the branch
+  // depends on each instance's parameters, so those are decided when instances are flattened.
+  const branches = new Branches();
+  /** Nesting of `.subckt` cards inside a top-level branch that is not taken (skipped whole). */
+  let skippedDepth = 0;
+  /** Whether a top-level card is left out by a branch not taken; steps over condition cards. */
+  const leftOut = (card: Card, uri: string, body: Body): boolean => {
+    if (skippedDepth > 0) {
+      if (card.kind === 'subckt') skippedDepth++;
+      else if (card.kind === 'ends') skippedDepth--;
+      return true;
+    }
+    if (card.kind === 'condition') {
+      branches.step(card, () => conditions!.holds(card, uri));
+      body.items.push({ card, uri });
+      return true;
+    }
+    if (!branches.active()) {
+      if (card.kind === 'subckt') skippedDepth = 1;
+      return true;
+    }
+    if (card.kind === 'param' || card.kind === 'func') conditions!.define(card, uri);
+    return false;
+  };
+
   /** Reads a list of cards of document `uri` into the body on top of `stack`. */
   const readCards = (uri: string, cards: readonly Card[], stack: Body[], chain: string[]): void => {
     const openHere: number[] = [];
     for (let i = 0; i < cards.length; i++) {
       const card = cards[i]!;
       const body = stack[stack.length - 1]!;
+      if (conditions && stack.length === 1 && leftOut(card, uri, body)) continue;
       switch (card.kind) {
         case 'title':
         case 'comment':
