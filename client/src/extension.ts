@@ -4,6 +4,7 @@ import * as path from 'node:path';
 import * as vscode from 'vscode';
 import { LanguageClient, TransportKind, type LanguageClientOptions, type ServerOptions } from 'vscode-languageclient/node';
 import {
+  INACTIVE_TEXT_NOTIFICATION,
   LIST_OUTPUTS_REQUEST,
   MONTE_CARLO_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
@@ -23,6 +24,7 @@ import { readTargetCurrent } from './current-input';
 import { parseRunsAndSeed } from './monte-carlo-input';
 import { renderPanelHtml } from './panel';
 import { elementAtLine, isResistorName, outputsMatching } from './targets';
+import { INACTIVE_OPACITY, InactiveText } from './inactive';
 
 /** Files whose changes can change an analysis: netlists and the files they include. */
 export const NETLIST_FILE_GLOB = '**/*.{cir,sp,spi,ckt,net,inc,lib,mod}';
@@ -63,6 +65,23 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     vscode.commands.registerCommand('qpoint.plotOutputCharacteristic', (args?: unknown) => plotCommand(args)),
     vscode.commands.registerCommand('qpoint.reanalyse', () => reanalyseCommand()),
     vscode.commands.registerCommand('qpoint.runMonteCarlo', () => monteCarloCommand(output)),
+  );
+
+  // `.if` branches no instance takes, drawn faded in every visible editor of their document.
+  const inactive = new InactiveText();
+  const faded = vscode.window.createTextEditorDecorationType({ opacity: INACTIVE_OPACITY, rangeBehavior: vscode.DecorationRangeBehavior.ClosedClosed });
+  const drawInactive = (editor: vscode.TextEditor): void => {
+    const ranges = inactive.rangesOf(editor.document.uri.toString()).map((r) => new vscode.Range(r.start.line, r.start.character, r.end.line, r.end.character));
+    editor.setDecorations(faded, ranges);
+  };
+  context.subscriptions.push(
+    faded,
+    client.onNotification(INACTIVE_TEXT_NOTIFICATION, (params: unknown) => {
+      const uri = inactive.update(params);
+      if (uri === undefined) return;
+      for (const editor of vscode.window.visibleTextEditors) if (editor.document.uri.toString() === uri) drawInactive(editor);
+    }),
+    vscode.window.onDidChangeVisibleTextEditors((editors) => editors.forEach(drawInactive)),
   );
 
   // Trust granted later: start the server again so it may read included files.

@@ -75,3 +75,14 @@ export interface MonteCarloReply {
   /** With `finish`: one block of lines per output (its linear spread, then the Monte Carlo figures and histogram). */
   report?: string[];
 }
+
+/**
+ * `qpoint/inactiveText` (server → client notification): the text of a document that does not exist
+ * for the analysis (`.if` branches no instance takes), sent after each analysis that changes it; an
+ * empty list clears it. The VS Code client shows it faded.
+ */
+export const INACTIVE_TEXT_NOTIFICATION = 'qpoint/inactiveText';
+export interface InactiveTextParams {
+  uri: string;
+  ranges: { start: { line: number; character: number }; end: { line: number; character: number } }[];
+}

@@ -36,12 +36,14 @@ import { definitionAt, prepareRename, referencesAt, renameAt } from '../../share
 import { documentSymbols } from '../../shared-analysis/src/features/symbols';
 import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import {
+  INACTIVE_TEXT_NOTIFICATION,
   LIST_OUTPUTS_REQUEST,
   MONTE_CARLO_REQUEST,
   OUTPUT_CHARACTERISTIC_REQUEST,
   REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
   SIZE_COMMAND,
+  type InactiveTextParams,
   type ListOutputsParams,
   type ListOutputsResult,
   type MonteCarloParams,
@@ -452,10 +454,14 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
 }
 
 /** Publishes, for each document, the findings of every cached analysis that read it (`always`: even when there are none, so the client sees the new version). */
+/** Documents the client was told have inactive text (so a later analysis without any clears it). */
+const faded = new Set<string>();
+
 function publish(uris: Iterable<string>, always?: string): void {
   for (const uri of uris) {
     const diagnostics: Diagnostic[] = [];
     const seen = new Set<string>();
+    const inactive: InactiveTextParams['ranges'] = [];
     let version: number | undefined;
     for (const [root, entry] of cache) {
       const a = entry.analysis;
@@ -464,6 +470,7 @@ function publish(uris: Iterable<string>, always?: string): void {
       const conv = lookup(uri);
       if (!conv) continue;
       if (root === uri) version = a.version;
+      for (const r of a.inactive ?? []) if (r.uri === uri) inactive.push(conv.toRange(r.span));
       a.findings.forEach((f, i) => {
         if (f.uri !== uri) return;
         const key = `${f.code}|${f.span.start}|${f.span.end}|${f.message}`;
@@ -471,6 +478,12 @@ function publish(uris: Iterable<string>, always?: string): void {
         seen.add(key);
         diagnostics.push(toDiagnostic(f, i, a.version, conv, lookup));
       });
+    }
+    // Text no instance takes, for the client to fade (sent when there is some, or to clear what was sent).
+    if (inactive.length > 0 || faded.has(uri)) {
+      void connection.sendNotification(INACTIVE_TEXT_NOTIFICATION, { uri, ranges: inactive } satisfies InactiveTextParams);
+      if (inactive.length > 0) faded.add(uri);
+      else faded.delete(uri);
     }
     if (diagnostics.length === 0 && !published.has(uri) && uri !== always) continue;
     void connection.sendDiagnostics({ uri, version, diagnostics });

@@ -10,6 +10,21 @@ import { ensureEditor, progress, runStep, StepError } from './install-editor.mjs
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '..', '..');
 const OUT = join(ROOT, 'test-output', 'editor');
 const DEMO = 'sensor-bias.cir';
+const CORNER_FILE = 'corner-switch.cir';
+/** An invented divider whose `.if` branch (the 9k resistor) is not taken with corner=2. */
+const CORNER_TEXT = [
+  'Reference divider with a corner switch',
+  '.param corner=2',
+  '.if (corner == 1)',
+  'R2 mid 0 9k',
+  '.else',
+  'R2 mid 0 10k',
+  '.endif',
+  'V1 top 0 10',
+  'R1 top mid 10k',
+  '.end',
+  '',
+].join('\n');
 const SECOND = 1000;
 
 /** Outcome of every check, printed at the end. */
@@ -261,6 +276,8 @@ async function main() {
   for (const d of [userData, extensions, browserProfile, xdg, join(userData, 'User')]) mkdirSync(d, { recursive: true });
   cpSync(join(ROOT, 'examples'), workspace, { recursive: true });
   if (!existsSync(join(workspace, DEMO))) throw new StepError('Preparing the workspace', `examples/${DEMO} does not exist.`);
+  // A netlist with a corner switch: its `.if` branch is not taken, so the editor must show it faded.
+  writeFileSync(join(workspace, CORNER_FILE), CORNER_TEXT);
   const demoFile = join(workspace, DEMO);
   const demoText = readFileSync(demoFile, 'utf8');
   let currentText = demoText;
@@ -611,6 +628,41 @@ async function main() {
         return ours.length > 0 ? ours : null;
       }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'no qpoint finding came back after re-analysing' });
       return `"${status}", then ${rows.length} qpoint row(s)`;
+    });
+
+    await check('an .if branch that is not taken is shown faded, the taken one is not', async () => {
+      await page.keyboard.press('Escape');
+      await until(async () => {
+        await page.keyboard.press('Control+P');
+        const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 5 * SECOND });
+        await input.fill(CORNER_FILE);
+        const listed = await until(async () => page.evaluate((name) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')]
+          .some((r) => (r.textContent ?? '').includes(name)), CORNER_FILE), { timeoutMs: 4 * SECOND, intervalMs: 200, message: 'not listed' }).catch(() => false);
+        if (!listed) {
+          await page.keyboard.press('Escape');
+          return false;
+        }
+        await page.keyboard.press('Enter');
+        return until(async () => (await editorLines(page)).some((l) => l.startsWith('R2 mid 0 9k')), { timeoutMs: 8 * SECOND, message: 'not shown' }).catch(() => false);
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: `${CORNER_FILE} did not open` });
+      // The lowest opacity Monaco renders on any part of a line (decorations are spans with their own style).
+      const opacityOf = (start) => page.evaluate((s) => {
+        for (const line of document.querySelectorAll('.monaco-editor .view-lines .view-line')) {
+          if (!(line.textContent ?? '').replace(/\u00a0/g, ' ').startsWith(s)) continue;
+          let lowest = 1;
+          for (const el of line.querySelectorAll('span')) lowest = Math.min(lowest, Number(getComputedStyle(el).opacity));
+          return lowest;
+        }
+        return null;
+      }, start);
+      const faded = await until(async () => {
+        const o = await opacityOf('R2 mid 0 9k');
+        return o !== null && o < 0.8 ? o : null;
+      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'the untaken branch (R2 mid 0 9k) was never drawn faded' });
+      const taken = await opacityOf('R2 mid 0 10k');
+      await screenshot(page, 'inactive-branch');
+      if (taken === null || taken < 0.99) throw new Error(`the taken branch (R2 mid 0 10k) is drawn with opacity ${taken}`);
+      return `untaken branch opacity ${faded}, taken branch ${taken}`;
     });
 
     await check('the page raised no uncaught script errors from the extension', async () => {
