@@ -5,6 +5,7 @@ import type { BehaviouralSource, BehaviourInput, Cccs, Ccvs, Circuit, CurrentSwi
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
+import { unquote } from '../syntax/parser';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
 import { compileBehaviour, compilePoly, compileTable } from './behaviour';
@@ -185,6 +186,7 @@ class Elaborator {
       modelScopes: [new Map()],
     };
     this.flattenBody(topInstance);
+    if (!this.root.cards.some((c) => c.kind === 'title')) this.elaborateSections();
     this.reportLeftOut();
     this.resolveControls();
     const detachedNames = [...this.detached].map((k) => this.nodes[k]!);
@@ -215,6 +217,48 @@ class Elaborator {
       includes: read.includes as IncludeSymbol[],
     };
     return { circuit, documents: read.documents, symbols, findings: this.sink.findings, inactive: this.inactiveBranches() };
+  }
+
+  /**
+   * A section-style library opened on its own (`.lib NAME` … `.endl`, no title): each section's
+   * models are elaborated with the section's parameters, so hovers show their values. Nothing
+   * is reported (a section is checked when a test bench reads it) and no device uses them; they
+   * are keyed `lib:section:model`, apart from the circuit's own models.
+   */
+  private elaborateSections(): void {
+    const cards = this.root.cards;
+    const uri = this.root.uri;
+    /** `.param` cards outside every section: a section may use them. */
+    const shared: (typeof cards)[number][] = [];
+    let inSection = false;
+    for (const c of cards) {
+      if (c.kind === 'lib' && !c.path && c.section) inSection = true;
+      else if (c.kind === 'endl') inSection = false;
+      else if (!inSection && c.kind === 'param') shared.push(c);
+    }
+    for (let i = 0; i < cards.length; i++) {
+      const open = cards[i]!;
+      if (open.kind !== 'lib' || open.path || !open.section) continue;
+      const section = unquote(open.section).toLowerCase();
+      const quiet = new Sink();
+      const scope = new ParamScope(new EvaluationContext(() => undefined), { label: `library section ${section}` });
+      const define = (card: (typeof cards)[number]): void => {
+        if (card.kind === 'param') for (const a of card.params) scope.define(paramDefinition(a, uri));
+      };
+      shared.forEach(define);
+      let j = i + 1;
+      for (; j < cards.length && cards[j]!.kind !== 'endl'; j++) define(cards[j]!);
+      for (let k = i + 1; k < j; k++) {
+        const card = cards[k]!;
+        if (card.kind !== 'model') continue;
+        const model = elaborateModel(card, { uri, scope, sink: quiet, instances: [] });
+        if (!model) continue;
+        const key = `lib:${section}:${card.name.text.toLowerCase()}`;
+        this.models[key] = model;
+        this.modelSymbols.set(`${uri}#${card.span.start}`, { name: card.name.text, uri, span: card.span, nameSpan: card.name.span, kind: card.type.text.toLowerCase(), key });
+      }
+      i = j;
+    }
   }
 
   /**
