@@ -184,8 +184,11 @@ export function scopeInstances(analysis: Analysis, uri: string, scope: SubcktSco
     if (scopeAt(doc, card.span.start) !== scope) continue;
     for (const el of elementsOfCard(analysis, uri, card)) prefixes.add(instancePrefix(el));
   }
-  return [...prefixes].sort();
+  // Natural order (X2 before X10), as a person counts instances.
+  return [...prefixes].sort(NATURAL.compare);
 }
+
+const NATURAL = new Intl.Collator('en', { numeric: true });
 
 /** One elaborated node behind a node token: the instance it belongs to and the circuit node. */
 export interface ResolvedNode {
@@ -231,19 +234,28 @@ export function resolveNodeName(analysis: Analysis, uri: string, scope: SubcktSc
   const lower = name.toLowerCase();
   if (isGround(lower)) return [{ instance: '', node: 0, name: circuit.nodes[0] ?? '0' }];
   const out: ResolvedNode[] = [];
+  // A port is no node of its own (it is the node each instance attaches there): found through a use, for every instance in one pass.
+  let viaUse: Map<string, number> | undefined;
   for (const prefix of scopeInstances(analysis, uri, scope)) {
     const direct = nodeByName.get((prefix + name).toLowerCase());
     if (direct !== undefined) {
       out.push({ instance: prefix, node: direct, name: circuit.nodes[direct] });
       continue;
     }
-    const viaUse = nodeByUse(analysis, doc, scope, lower, prefix);
-    if (viaUse !== undefined) out.push({ instance: prefix, node: viaUse, name: circuit.nodes[viaUse] });
+    viaUse ??= nodesByUse(analysis, doc, scope, lower);
+    const node = viaUse.get(prefix);
+    if (node !== undefined) out.push({ instance: prefix, node, name: circuit.nodes[node] });
   }
   return out;
 }
 
-function nodeByUse(analysis: Analysis, doc: ParsedDocument, scope: SubcktScope | undefined, lower: string, prefix: string): number | undefined {
+/**
+ * The circuit node that `lower`, written in `scope`, stands for in each instance, by instance
+ * prefix: from the first device card of the scope that uses the name. Linear in the elements of
+ * the scope's cards (it used to search them again for every instance: quadratic in instances).
+ */
+function nodesByUse(analysis: Analysis, doc: ParsedDocument, scope: SubcktScope | undefined, lower: string): Map<string, number> {
+  const out = new Map<string, number>();
   for (const card of doc.cards) {
     if (card.kind !== 'element' || card.letter === 'X') continue;
     if (scope && (card.span.start < scope.span.start || card.span.end > scope.span.end)) continue;
@@ -251,10 +263,13 @@ function nodeByUse(analysis: Analysis, doc: ParsedDocument, scope: SubcktScope |
     const i = card.nodes.findIndex((t) => t.text.toLowerCase() === lower);
     if (i < 0) continue;
     for (const el of elementsOfCard(analysis, doc.uri, card)) {
-      if (instancePrefix(el) === prefix && el.nodes[i] !== undefined) return el.nodes[i];
+      const n = el.nodes[i];
+      if (n === undefined) continue;
+      const prefix = instancePrefix(el);
+      if (!out.has(prefix)) out.set(prefix, n);
     }
   }
-  return undefined;
+  return out;
 }
 
 /** Terminal names per element kind, in node order. */

@@ -16,6 +16,7 @@ import {
   scopeAt,
   tokenAt,
   tokenIndex,
+  type ResolvedNode,
   type SubcktScope,
 } from './document-index';
 import { formatNumber, formatPercent, formatQuantity } from './quantity';
@@ -315,7 +316,9 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
   const resolved = resolveNodeToken(analysis, uri, card, token);
   if (resolved.length === 0) return { markdown: `Node **${token.text}** — not in the elaborated circuit.`, span: token.span };
   const op = analysis.operatingPoint;
-  const sections = resolved.map((r) => {
+  // A node of a subcircuit stands for one node per instance: the first few in full, the rest as a range.
+  const shown = resolved.length > MAX_NODE_SECTIONS ? resolved.slice(0, MAX_NODE_SECTIONS - 1) : resolved;
+  const sections = shown.map((r) => {
     const v = op?.nodes[r.name];
     const tied = op?.tiedNodes?.includes(r.name) ?? false;
     const head =
@@ -337,7 +340,27 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
     }
     return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
   });
+  if (shown.length < resolved.length) sections.push(restOfInstances(resolved.slice(shown.length), op));
   return { markdown: sections.join('\n\n---\n\n'), span: token.span };
+}
+
+/** Instances of a subcircuit node listed one by one in a hover; past it the rest are summarised. */
+const MAX_NODE_SECTIONS = 8;
+
+/** One line for the instances a node hover does not list: how many, and the range of their voltages. */
+function restOfInstances(rest: readonly ResolvedNode[], op: Analysis['operatingPoint']): string {
+  let low = Infinity;
+  let high = -Infinity;
+  let solved = 0;
+  for (const r of rest) {
+    const v = op?.nodes[r.name];
+    if (v === undefined || !Number.isFinite(v)) continue;
+    solved++;
+    if (v < low) low = v;
+    if (v > high) high = v;
+  }
+  const range = solved === 0 ? 'not solved' : low === high ? `all at ${formatQuantity(low, 'V')}` : `from ${formatQuantity(low, 'V')} to ${formatQuantity(high, 'V')}`;
+  return `…and ${rest.length} more instances (${rest[0]!.name} to ${rest[rest.length - 1]!.name}): ${range}.`;
 }
 
 function modelHover(
