@@ -313,6 +313,20 @@ function displayPath(absolute: string): string {
   return rel && !rel.startsWith('..') ? rel : absolute;
 }
 
+/** Wall-clock time the command line spends sizing resistors for one file's missed targets (docs/RELIABILITY.md, "Cost per file"). */
+export const SIZING_BUDGET_MS = 30_000;
+
+function sizingBudgetSpent(uri: string, unsized: number): Finding {
+  return {
+    code: 'sizing-budget-spent',
+    severity: 'info',
+    message: `Resistor sizing stopped after its ${SIZING_BUDGET_MS / 1000} s budget for this file: ${unsized} missed target${unsized === 1 ? ' has' : 's have'} no suggested value. Open the netlist in the editor to size ${unsized === 1 ? 'it' : 'them'} one at a time.`,
+    uri,
+    span: { start: 0, end: 0 },
+    data: { unsized, budgetSeconds: SIZING_BUDGET_MS / 1000 },
+  };
+}
+
 function analyseFiles(opts: CliOptions): FileResult[] {
   const workspace = new PathWorkspace({ ...defaultPolicy([process.cwd(), ...opts.includeRoots]), anywhere: opts.includeAnywhere });
   return opts.files.map((p) => {
@@ -323,8 +337,10 @@ function analyseFiles(opts: CliOptions): FileResult[] {
     try {
       const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis);
       // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
-      // (only around a converged operating point: sizing re-solves from it).
-      attachAllSizingFixes(session);
+      // (only around a converged operating point: sizing re-solves from it), within the file's budget.
+      const until = Date.now() + SIZING_BUDGET_MS;
+      const unsized = attachAllSizingFixes(session, () => Date.now() > until);
+      if (unsized > 0) session.analysis.findings.push(sizingBudgetSpent(absolute, unsized));
       if (opts.monteCarlo) monteCarloOf(session, opts.monteCarlo);
       return { path: p, absolute, analysis: session.analysis };
     } catch (e) {

@@ -235,12 +235,16 @@ function spreadOf(analysis: Analysis): SizingFixContext['spread'] {
   };
 }
 
-/** Appends the sizing fixes to every `target-missed` finding of the session's analysis (for reports that list all fixes). */
-export function attachAllSizingFixes(session: AnalysisSession): void {
+/**
+ * Appends the sizing fixes to every `target-missed` finding of the session's analysis (for reports
+ * that list all fixes). `stop`, asked before each target, ends the sizing early (a host's time
+ * budget); returns how many missed targets were left unsized because of it.
+ */
+export function attachAllSizingFixes(session: AnalysisSession, stop?: () => boolean): number {
   const { analysis, solver } = session;
   // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
-  if (!solver || !analysis.circuit || !session.nominal) return;
-  attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) });
+  if (!solver || !analysis.circuit || !session.nominal) return 0;
+  return attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) }, stop);
 }
 
 /** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners). */

@@ -3,7 +3,7 @@
 // and quick fixes whose text parses as what they claim to add.
 
 import { describe, expect, it } from 'vitest';
-import { analyse, analyseSession, sizingFixesOf } from '../../shared-analysis/src/service';
+import { analyse, analyseSession, attachAllSizingFixes, sizingFixesOf } from '../../shared-analysis/src/service';
 import { parse } from '../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 import { clampSpan, dropNonFinite, keepFinite } from '../../shared-analysis/src/output-guard';
@@ -155,5 +155,28 @@ describe('cases the fuzz target found', () => {
         expect(parse(URI, fixed, { hasTitle: true }).errors, fixed).toEqual([]);
       }
     }
+  });
+});
+
+describe('the command line sizing budget', () => {
+  const text = 'Two mirrors\nVCC vcc 0 12\nR1 vcc r1 10k\nQ1 r1 r1 0 qn\nQ2 o1 r1 0 qn ; expect 2mA ±1%\nRL1 vcc o1 1k\nR2 vcc r2 22k\nQ3 r2 r2 0 qn\nQ4 o2 r2 0 qn ; expect 1mA ±1%\nRL2 vcc o2 1k\n.model qn NPN (BF=100)\n.end\n';
+  const sized = (f: Finding) => (f.fixes ?? []).some((x) => x.edits.some((e) => /^\d/.test(e.newText)));
+
+  it('sizes every missed target when the budget is not spent', () => {
+    const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const missed = s.analysis.findings.filter((f) => f.code === 'target-missed');
+    expect(missed.length).toBe(2);
+    expect(attachAllSizingFixes(s, () => false)).toBe(0);
+    expect(missed.every(sized)).toBe(true);
+  });
+
+  it('stops sizing once the budget is spent and counts the targets left', () => {
+    const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    let asked = 0;
+    // The budget runs out after the first target.
+    expect(attachAllSizingFixes(s, () => asked++ >= 1)).toBe(1);
+    const missed = s.analysis.findings.filter((f) => f.code === 'target-missed');
+    expect(missed.filter(sized).length).toBe(1);
+    expect(findingCatalogue()['sizing-budget-spent']?.group).toBe('host');
   });
 });

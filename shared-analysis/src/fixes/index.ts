@@ -207,12 +207,20 @@ export function sizingFixes(finding: Finding, ctx: SizingFixContext): Fix[] {
  * Runs `sizingFixes` for every marked finding and appends the fixes, for hosts that want them all
  * up front (the command line's reports). Repeated targets share one sizing.
  */
-export function attachSizingFixes(findings: Finding[], ctx: SizingFixContext): void {
+export function attachSizingFixes(findings: Finding[], ctx: SizingFixContext, stop?: () => boolean): number {
   const shared = { ...ctx, cache: ctx.cache ?? new Map<string, SizingResult>() };
+  let unsized = 0;
   for (const f of findings) {
+    if (f.code !== 'target-missed') continue;
+    // Past the host's budget the remaining targets are counted, not sized.
+    if (stop?.()) {
+      unsized++;
+      continue;
+    }
     const fixes = sizingFixes(f, shared);
     if (fixes.length > 0) f.fixes = [...(f.fixes ?? []), ...fixes];
   }
+  return unsized;
 }
 
 /** The sizing marker for a `target-missed` finding from the target check's data, when its resistor can be rewritten. */
