@@ -180,3 +180,14 @@ describe('the command line sizing budget', () => {
     expect(findingCatalogue()['sizing-budget-spent']?.group).toBe('host');
   });
 });
+
+describe('a misspelt .end', () => {
+  const fixesOf = (text: string) => run(text).findings.filter((f) => f.code === 'dot-card-unknown').flatMap((f) => f.fixes ?? []);
+  it('is corrected to .end where no card follows', () => {
+    expect(fixesOf('Divider\nV1 a 0 1\nR1 a 0 1k\n.en\n').map((f) => f.edits[0]!.newText)).toEqual(['.end']);
+  });
+  it('is not corrected to .end above other cards, which .end would stop reading', () => {
+    // Found by the fuzz target: `.en` inside a library section became `.end`, and every later card was left unread.
+    expect(fixesOf('Divider\nV1 a 0 1\n.en\nR1 a 0 1k\n').map((f) => f.edits[0]!.newText)).not.toContain('.end');
+  });
+});

@@ -80,6 +80,16 @@ export function insertedCardDefines(doc: ParsedDocument, edit: TextEdit, name: s
   return last !== undefined && last.kind === 'model' && last.name.text === name;
 }
 
+/** Whether a card other than a comment starts after `offset` in `doc` (cards are in document order: the search stops at the first). */
+function cardFollows(doc: ParsedDocument, offset: number): boolean {
+  for (let k = doc.cards.length - 1; k >= 0; k--) {
+    const c = doc.cards[k]!;
+    if (c.span.start < offset) return false;
+    if (c.kind !== 'comment') return true;
+  }
+  return false;
+}
+
 /**
  * Whether the card of `doc` that holds `span`, with `span` replaced by `newText`, reads without a
  * syntax error (the card alone is parsed, so the cost does not grow with the document).
@@ -236,6 +246,8 @@ export function misspeltDotCardFixes(finding: Finding, documents: Record<string,
   // `.paramV9 a 0 1` is near `.param`, but `.param a 0 1` is no parameter card: offer only a card that reads cleanly.
   const doc = documents[finding.uri];
   if (!doc || !editedCardParses(doc, finding.span, suggestion)) return [];
+  // `.end` stops the reading: it is right only where no card follows (`.en` above other cards is more likely `.ends` or `.endl`).
+  if (suggestion.toLowerCase() === '.end' && cardFollows(doc, finding.span.end)) return [];
   return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] }];
 }
 
