@@ -119,7 +119,12 @@ function deviceHover(analysis: Analysis, uri: string, card: ElementCard, span: S
   if (elements.length === 0) {
     return { markdown: `**${card.name.text}** — not part of the elaborated circuit (see the findings on this line).`, span };
   }
-  const sections = elements.map((el) => elementSection(analysis, el));
+  // One card of a subcircuit is one device per instance: the first few in full, the rest counted (a hover of thousands of sections helps nobody and costs seconds).
+  const listed = elements.length > MAX_NODE_SECTIONS ? elements.slice(0, MAX_NODE_SECTIONS - 1) : elements;
+  const sections = listed.map((el) => elementSection(analysis, el));
+  if (listed.length < elements.length) {
+    sections.push(`…and ${elements.length - listed.length} more instances (${elements[listed.length]!.name} to ${elements[elements.length - 1]!.name}).`);
+  }
   return { markdown: sections.join('\n\n---\n\n'), span };
 }
 

@@ -42,3 +42,15 @@ describe(`hover on a subcircuit port with ${N} instances`, () => {
     });
   }
 });
+
+describe(`hover on a device card of a subcircuit with ${N} instances`, () => {
+  it('shows the first instances in full and counts the rest', () => {
+    const text = ladder();
+    const a = analyse({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const h = hoverAt(a, URI, text.indexOf('RB mid 0') + 1)!;
+    const sections = h.markdown.split('\n\n---\n\n');
+    expect(sections.length).toBe(8);
+    expect(sections[0]).toMatch(/X0\.RB/);
+    expect(sections[7]).toBe(`…and ${N - 7} more instances (X7.RB to X299.RB).`);
+  });
+});
