@@ -320,7 +320,7 @@ function sizingBudgetSpent(uri: string, unsized: number): Finding {
   return {
     code: 'sizing-budget-spent',
     severity: 'info',
-    message: `Resistor sizing stopped after its ${SIZING_BUDGET_MS / 1000} s budget for this file: ${unsized} missed target${unsized === 1 ? ' has' : 's have'} no suggested value. Open the netlist in the editor to size ${unsized === 1 ? 'it' : 'them'} one at a time.`,
+    message: `Resistor sizing stopped after its ${SIZING_BUDGET_MS / 1000} s budget for this file: ${unsized} finding${unsized === 1 ? ' has' : 's have'} no re-solved resistor fix. Open the netlist in the editor to get ${unsized === 1 ? 'it' : 'them'} one at a time.`,
     uri,
     span: { start: 0, end: 0 },
     data: { unsized, budgetSeconds: SIZING_BUDGET_MS / 1000 },

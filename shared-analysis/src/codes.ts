@@ -24,7 +24,7 @@ export interface CodeInfo {
 /** Codes a host reports about the analysis itself (the language server or the CLI; the engine never emits them). */
 export const HOST_CODES: Record<string, { severity: Severity; summary: string }> = {
   'analysis-stopped': { severity: 'error', summary: 'An analysis failed or ran past its time limit (the language server keeps the last finished results shown; the CLI exits with code 3).' },
-  'sizing-budget-spent': { severity: 'info', summary: 'The command line spent its per-file time budget for resistor sizing (30 s); the missed targets it did not reach have no suggested value.' },
+  'sizing-budget-spent': { severity: 'info', summary: 'The command line spent its per-file time budget for re-solved resistor fixes (30 s); the findings it did not reach (missed targets, outputs out of region, implausible values) have none.' },
   'file-unreadable': { severity: 'error', summary: 'A netlist named on the command line cannot be read (missing, not a regular text file, or too large); the CLI exits with code 3.' },
 };
 

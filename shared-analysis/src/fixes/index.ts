@@ -211,8 +211,8 @@ export function attachSizingFixes(findings: Finding[], ctx: SizingFixContext, st
   const shared = { ...ctx, cache: ctx.cache ?? new Map<string, SizingResult>() };
   let unsized = 0;
   for (const f of findings) {
-    if (f.code !== 'target-missed') continue;
-    // Past the host's budget the remaining targets are counted, not sized.
+    if (!hasSolvedFixes(f)) continue;
+    // Past the host's budget the remaining findings are counted, not sized.
     if (stop?.()) {
       unsized++;
       continue;
