@@ -140,7 +140,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
   // Nothing leaves the engine with a range past its document's end or a number that is not finite.
   clampFindingSpans(findings, elab.documents);
-  const notFinite = keepFinite(findings, { operatingPoint, structures }, input.uri);
+  const notFinite = keepFinite(findings, { operatingPoint, structures, variation }, input.uri);
   if (notFinite) findings.push(notFinite);
 
   const analysis: Analysis = {
@@ -205,7 +205,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
   clampFindingSpans(findings, analysis.documents);
-  const notFinite = keepFinite(findings, { structures: analysis.structures }, analysis.uri);
+  const notFinite = keepFinite(findings, { structures: analysis.structures, variation: analysis.variation }, analysis.uri);
   if (notFinite) findings.push(notFinite);
   return sortFindings(applySeverities(findings, analysis.options), analysis.uri);
 }

@@ -191,3 +191,22 @@ describe('a misspelt .end', () => {
     expect(fixesOf('Divider\nV1 a 0 1\n.en\nR1 a 0 1k\n').map((f) => f.edits[0]!.newText)).not.toContain('.end');
   });
 });
+
+describe('the spread analysis leaves the engine finite', () => {
+  it('drops the non-finite spread of a mirror whose threshold is subnormal, with one finding', () => {
+    // Found by the fuzz target (seed 20261202, case 5339): VTO=1e-320 made every σ of the spread NaN,
+    // which JSON writes as null.
+    const a = analyse(
+      { uri: URI, text: 'NMOS mirror\nVDD vdd 0 3.3\nIREF vdd gn 20u\nM1 gn gn 0 0 nch W=4u L=1u\nM2 dn gn 0 0 nch W=8u L=1u ; expect 40uA ±10%\nRDN vdd dn 15k\n.model nch NMOS (VTO=1e-320 KP=120u LAMBDA=0.04)\n.end\n' },
+      new MemoryWorkspace({}),
+    );
+    const numbers: number[] = [];
+    JSON.stringify({ variation: a.variation, structures: a.structures }, (_k, v: unknown) => {
+      if (typeof v === 'number') numbers.push(v);
+      return v;
+    });
+    expect(numbers.every(Number.isFinite)).toBe(true);
+    const bad = a.findings.filter((f) => f.code === 'value-not-finite');
+    expect(bad.length).toBeLessThanOrEqual(1);
+  });
+});
