@@ -191,6 +191,11 @@ export interface BehaviouralSource extends ElementBase {
   inputs: BehaviourInput[];
 }
 
+/** nodes: [port-1 +, port-1 −, port-2 +, port-2 −]; a lossless line, at DC a short along each conductor. */
+export interface TransmissionLine extends ElementBase {
+  kind: 'T';
+}
+
 export type Element =
   | Resistor
   | Capacitor
@@ -207,7 +212,8 @@ export type Element =
   | Jfet
   | VoltageSwitch
   | CurrentSwitch
-  | BehaviouralSource;
+  | BehaviouralSource
+  | TransmissionLine;
 
 export type ElementKind = Element['kind'];
 

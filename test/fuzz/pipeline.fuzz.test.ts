@@ -169,6 +169,8 @@ G5 0 go POLY(2) d 0 s 0 1u 2u 0 1n
 RGO go 0 1k
 E6 to 0 TABLE {V(d)} = (0,0) (5,1) (10,3)
 H5 ho 0 POLY(1) VCTL 0 100
+T1 ho 0 tl 0 Z0=50 TD=2n
+RTL tl 0 10k
 RHO ho 0 1k
 .model smod SW (RON=50 ROFF=1meg VT=1 VH=0.2)
 .model wmod CSW (RON=10 ROFF=1e9 IT=1u)
@@ -194,7 +196,7 @@ const FRAGMENTS = [
   '.subckt', '.ends', 'X9 a b cell', 'X8 a', '.model qz npn (is=0 bf=-1 vaf=-3)', '.model mz nmos (kp=0 vto=1e9)',
   'Q9 a b c qamp', 'M9 a b c d nch W=0 L=1e3', 'J9 a b c jn', 'J8 a b c jp 0', '.model jz njf (beta=-1 vto=1e9 is=-1)',
   'S9 a b c d smod', 'W9 a b VCTL wmod', 'W8 a b Vnope wmod', '.model sz sw (ron=0 roff=-1 vh=-3)', 'R7 a b RPOLY L=1u', 'R6 a b 1k TC=1,2', 'TC2=1e9',
-  'B9 a b V={log(V(a))}', 'B8 a 0 I={1/V(b)}', 'E9 a 0 POLY(3) a 0 b', 'G9 a b TABLE {V(c)} = (1,1) (0,2)', 'E8 a 0 VALUE={I(Vnope)}', 'B7 a 0 V={V(a,b,c)}', 'F9 a b Vnope 1', 'R9 a a 0', 'V9 a a 1', 'I9 a 0 1e9', 'V8 n 0 1e12', 'R8 n 0 1e-30',
+  'B9 a b V={log(V(a))}', 'B8 a 0 I={1/V(b)}', 'E9 a 0 POLY(3) a 0 b', 'G9 a b TABLE {V(c)} = (1,1) (0,2)', 'E8 a 0 VALUE={I(Vnope)}', 'B7 a 0 V={V(a,b,c)}', 'T9 a 0 a 0 Z0=50', 'T8 a b', 'T7 a b c d e f', 'F9 a b Vnope 1', 'R9 a a 0', 'V9 a a 1', 'I9 a 0 1e9', 'V8 n 0 1e12', 'R8 n 0 1e-30',
   '.temp -400', '.temp 1e6', 'M=0', 'M=-2', 'µ', '\u00a0', '\ud83d\ude00', '\u0000', '\ud800',
 ];
 

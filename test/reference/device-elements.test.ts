@@ -183,3 +183,21 @@ describe('behavioural sources', () => {
     expect(JSON.stringify(a.operatingPoint)).not.toMatch(/NaN|null/);
   });
 });
+
+describe('transmission lines and couplings at DC', () => {
+  it('shorts each conductor of a T line from port 1 to port 2', () => {
+    // At DC a lossless line has no series resistance (its Z0 and delay describe waves, not DC): Ohm's law across the load.
+    const a = solved('line\nV1 a 0 5\nRS a p1 50\nT1 p1 0 p2 0 Z0=50 TD=10n\nRL p2 0 50\n.end\n');
+    expect(a.operatingPoint!.nodes.p2).toBeCloseTo(2.5, 12);
+    expect(a.operatingPoint!.nodes.p1).toBeCloseTo(2.5, 12);
+    expect(a.operatingPoint!.devices.T1).toMatchObject({ type: 'transmission-line' });
+    expect((a.operatingPoint!.devices.T1 as { current: number }).current).toBeCloseTo(0.05, 12);
+    expect(a.findings.filter((f) => f.code.startsWith('element-not-analysed'))).toEqual([]);
+  });
+
+  it('leaves a K coupling with a note and the inductors shorted', () => {
+    const a = solved('k\nV1 a 0 1\nL1 a b 1m\nR1 b 0 1k\nL2 c 0 1m\nR2 c 0 1k\nK1 L1 L2 0.99\n.end\n');
+    expect(a.operatingPoint!.nodes.b).toBeCloseTo(1, 12);
+    expect(a.findings.find((f) => f.code === 'element-not-analysed-no-dc-effect')?.severity).toBe('info');
+  });
+});

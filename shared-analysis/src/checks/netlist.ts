@@ -20,7 +20,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'card-ignored': { severity: 'info', summary: 'A card that reruns the analysis at other values (`.step`); one note per kind of card, and the nominal netlist is analysed.' },
   'alternatives-not-analysed': { severity: 'info', summary: 'The netlist analysed ends at `.alter`; the alternative versions after it are not analysed.' },
   'condition-invalid': { severity: 'error', summary: 'An `.if` or `.elseif` condition that cannot be evaluated; its branch is not taken.' },
-  'element-not-analysed': { severity: 'warning', summary: 'Elements of a kind the solver does not read yet (Z, T, digital elements, E/F/G/H in a frequency-domain form); one finding per kind, and they are left out.' },
+  'element-not-analysed': { severity: 'warning', summary: 'Elements of a kind the solver does not read yet (Z, lossy and coupled lines, digital elements, E/F/G/H in a frequency-domain form); one finding per kind, and they are left out.' },
   'element-not-analysed-no-dc-effect': { severity: 'info', summary: 'Elements the solver does not read that have no effect at DC (inductor couplings K); one finding per kind.' },
 
   // Parameters.

@@ -5,11 +5,12 @@ import { BJT } from './bjt';
 import type { DeviceKind } from './device';
 import { DIODE } from './diode';
 import { JFET } from './jfet';
+import { LINE } from './line';
 import { MOSFET } from './mosfet';
 import { CURRENT_SWITCH, VOLTAGE_SWITCH } from './switch';
 
 /** Every nonlinear kind, one per element letter. */
-export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET, JFET, VOLTAGE_SWITCH, CURRENT_SWITCH, BEHAVIOURAL];
+export const DEVICE_KINDS: readonly DeviceKind[] = [DIODE, BJT, MOSFET, JFET, VOLTAGE_SWITCH, CURRENT_SWITCH, BEHAVIOURAL, LINE];
 
 const BY_LETTER = new Map<string, DeviceKind>(DEVICE_KINDS.map((k) => [k.letter, k]));
 

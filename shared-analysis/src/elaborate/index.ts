@@ -62,12 +62,13 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nam
   M: { used: ['W', 'L', 'M', 'RATEDPOWER'], silent: ['AD', 'AS', 'PD', 'PS', 'NRD', 'NRS'] },
   J: { used: ['AREA', 'M', 'RATEDPOWER'], silent: ['IC', 'TEMP', 'DTEMP'] },
   S: { used: [], silent: ['ON', 'OFF', 'M'] },
+  T: { used: [], silent: ['*'] },
   B: { used: ['V', 'I'], silent: ['TC1', 'TC2', 'TEMP', 'DTEMP', 'SMOOTHBSRC', 'M'] },
   W: { used: [], silent: ['ON', 'OFF', 'M'] },
 });
 
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
-const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2, B: 2 });
+const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2, B: 2, T: 4 });
 
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
@@ -653,6 +654,10 @@ class Elaborator {
               : { name, nodes, origin, kind: 'J', model, area, m };
         break;
       }
+      case 'T':
+        // At DC a lossless line is a short along each conductor; its delay and impedance do not matter.
+        element = { name, nodes, origin, kind: 'T' };
+        break;
       case 'S':
       case 'W': {
         const model = this.findModel(card, inst, uri);
@@ -1377,7 +1382,6 @@ function chooseBin(bins: ModelEntry[], size: { w: number; l: number }): ModelEnt
 const LEFT_OUT: Record<string, { one: string; many: string; dc: boolean }> = nameTable({
   Z: { one: 'MESFET', many: 'MESFETs', dc: true },
   K: { one: 'inductor coupling', many: 'inductor couplings', dc: false },
-  T: { one: 'transmission line', many: 'transmission lines', dc: true },
   O: { one: 'lossy transmission line', many: 'lossy transmission lines', dc: true },
   P: { one: 'coupled multiconductor line', many: 'coupled multiconductor lines', dc: true },
   Y: { one: 'transmission-line element', many: 'transmission-line elements', dc: true },
@@ -1432,6 +1436,7 @@ function describeLetter(letter: string): string {
     S: 'a voltage-controlled switch',
     W: 'a current-controlled switch',
     B: 'a behavioural source',
+    T: 'a transmission line',
     X: 'a subcircuit instance',
   };
   return names[letter] ?? 'an element';

@@ -302,6 +302,8 @@ export function terminalNames(el: Element): string[] {
       return ['switch +', 'switch −'];
     case 'B':
       return ['output +', 'output −'];
+    case 'T':
+      return ['port 1 +', 'port 1 −', 'port 2 +', 'port 2 −'];
   }
 }
 

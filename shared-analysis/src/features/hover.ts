@@ -253,6 +253,8 @@ function describeElement(el: Element): string {
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}, W ${formatQuantity(el.w, 'm')}, L ${formatQuantity(el.l, 'm')}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'B':
       return `behavioural ${el.output === 'V' ? 'voltage' : 'current'} source${el.written !== 'B' ? ` (${el.written} in ${el.form} form)` : ''}, a function of ${el.inputs.length} controlling ${el.inputs.length === 1 ? 'quantity' : 'quantities'}`;
+    case 'T':
+      return 'transmission line (at DC each conductor is a short from port 1 to port 2)';
     case 'S':
       return `voltage-controlled switch, model ${el.model.name}`;
     case 'W':

@@ -104,10 +104,12 @@ export interface DiodeRecord {
 
 /** Resistors, sources and controlled sources: current from the first node through the element to the second, voltage first minus second, power absorbed (negative when delivering). */
 export interface TwoTerminalRecord {
-  type: 'resistor' | 'voltage-source' | 'current-source' | 'inductor' | 'capacitor' | 'controlled-source';
+  type: 'resistor' | 'voltage-source' | 'current-source' | 'inductor' | 'capacitor' | 'controlled-source' | 'transmission-line';
   current: number;
   voltage: number;
   power: number;
+  /** A transmission line's return-conductor current (port-1 − to port-2 −); `current` is its signal conductor's. */
+  returnCurrent?: number;
 }
 
 export type DeviceRecord = BjtRecord | MosRecord | JfetRecord | DiodeRecord | SwitchRecord | TwoTerminalRecord;

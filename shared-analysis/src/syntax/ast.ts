@@ -92,7 +92,7 @@ export interface ElementCard extends CardBase {
 }
 
 /** The element letters the solver reads today. */
-export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'J' | 'S' | 'W' | 'B' | 'X';
+export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' | 'D' | 'Q' | 'M' | 'J' | 'S' | 'W' | 'B' | 'T' | 'X';
 
 /**
  * Letters of the family that are read into cards but not solved yet:
@@ -104,7 +104,7 @@ export type SolvedLetter = 'R' | 'C' | 'L' | 'V' | 'I' | 'E' | 'F' | 'G' | 'H' |
  * - T, O, P, Y: nodes (every positional field), params (transmission lines and the like)
  * - U, A, N: nodes (every positional field but the last), model (digital, mixed-signal and model-only devices)
  */
-export type UnsolvedLetter = 'Z' | 'K' | 'T' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
+export type UnsolvedLetter = 'Z' | 'K' | 'O' | 'P' | 'Y' | 'U' | 'A' | 'N';
 
 export type ElementLetter = SolvedLetter | UnsolvedLetter;
 

@@ -28,6 +28,7 @@ export type Spec =
   | ['J', string, string, string, string, Model, { area?: number; m?: number }?]
   | ['S', string, string, string, string, string, Model]
   | ['W', string, string, string, string, Model]
+  | ['T', string, string, string, string, string]
   | ['B', string, string, string, BehaviouralSource['output'], BehaviourProgram, [string, string][]];
 
 /**
@@ -77,6 +78,8 @@ export function circuit(specs: Spec[], opts: { temperatureC?: number; tnomC?: nu
         return { kind: 'S', name, nodes: [node(s[2]), node(s[3]), node(s[4]), node(s[5])], model: s[6], origin };
       case 'B':
         return { kind: 'B', name, nodes: [node(s[2]), node(s[3])], written: 'B', form: 'expression', output: s[4], program: s[5], inputs: s[6].map(([a, b]): BehaviourInput => ({ kind: 'v', a: node(a), b: node(b) })), origin };
+      case 'T':
+        return { kind: 'T', name, nodes: [node(s[2]), node(s[3]), node(s[4]), node(s[5])], origin };
       case 'W':
         return { kind: 'W', name, nodes: [node(s[2]), node(s[3])], control: s[4], model: s[5], origin };
       case 'J':
