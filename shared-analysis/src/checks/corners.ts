@@ -106,17 +106,20 @@ function degrees(t: number): string {
  * circuit has more than one supply source, by each source alone at ±tol (nominal temperature
  * and beta), for at most 8 sources: at most 26 + 16 = 42 solves per circuit, shared by every
  * structure. Levels equal to nominal (a zero tolerance, a beta factor of 1) are dropped, and so
- * is the beta axis for a circuit without bipolar devices. Current sources keep their value: the
+ * is the beta axis for a circuit without bipolar devices and the temperature axis for one where
+ * nothing depends on temperature (no junction, FET or resistor with a coefficient): no corner
+ * repeats another. Current sources keep their value: the
  * supply tolerance applies to voltage sources on the rails only.
  */
-export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[], scope: { bipolar: boolean; mos?: boolean } = { bipolar: true }): CornerSpec[] {
+export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources: string[], scope: { bipolar: boolean; mos?: boolean; thermal?: boolean } = { bipolar: true }): CornerSpec[] {
   const c = options.corners;
   // The MOS process axis (slow, typical, fast) exists only when a setting gives it a size and the circuit has MOSFETs.
   const processOn = scope.mos === true && ((c.processKpTolerance ?? 0) > 0 || (c.processVtoShift ?? 0) > 0);
   const processes: ('slow' | 'fast' | undefined)[] = processOn ? ['slow', undefined, 'fast'] : [undefined];
   const tol = Number.isFinite(c.supplyTolerance) ? Math.abs(c.supplyTolerance) : 0;
   const supply = uniq(sources.length > 0 ? [1 - tol, 1, 1 + tol] : [1]);
-  const temps = uniq([c.coldC, nominalC, c.hotC].filter(Number.isFinite));
+  // Temperature only moves junctions, FETs and resistors with a coefficient; without any, a temperature corner would repeat nominal.
+  const temps = scope.thermal === false ? [nominalC] : uniq([c.coldC, nominalC, c.hotC].filter(Number.isFinite));
   // Beta only moves bipolar devices; a circuit without any keeps its corner count down to supply × temperature.
   const betas = scope.bipolar ? uniq([c.betaLow, 1, c.betaHigh].filter((b) => Number.isFinite(b) && b > 0)) : [1];
   const specs: CornerSpec[] = [];
@@ -143,6 +146,21 @@ export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources:
     }
   }
   return specs;
+}
+
+/** Whether an element's DC behaviour depends on temperature (docs/DEVICE-MODELS.md): diodes, transistors, JFETs, and resistors with TC1/TC2. */
+export function movesWithTemperature(el: Element): boolean {
+  switch (el.kind) {
+    case 'D':
+    case 'Q':
+    case 'M':
+    case 'J':
+      return true;
+    case 'R':
+      return Boolean(el.tc1 || el.tc2);
+    default:
+      return false;
+  }
 }
 
 function uniq(xs: number[]): number[] {
@@ -175,7 +193,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
-  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q'), mos: circuit.elements.some((e) => e.kind === 'M') });
+  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q'), mos: circuit.elements.some((e) => e.kind === 'M'), thermal: circuit.elements.some(movesWithTemperature) });
   const processParameters = (process: 'slow' | 'fast'): Record<string, Record<string, number>> => {
     // Slow: KP·(1 − tol) and the threshold magnitude raised by the shift; fast the reverse (every MOSFET together).
     const sign = process === 'slow' ? 1 : -1;

@@ -71,6 +71,8 @@ describe('cornerSpecs', () => {
 
   it('drops the beta axis for a circuit without bipolar devices: 3 × 3 − 1 = 8', () => {
     expect(cornerSpecs(resolveOptions({}), 27, ['VDD'], { bipolar: false })).toHaveLength(8);
+    // Nothing that moves with temperature: only the supply corners remain (every other row would repeat one of them).
+    expect(cornerSpecs(resolveOptions({}), 27, ['VDD'], { bipolar: false, thermal: false }).map((c) => c.label)).toEqual(['supply −5 %', 'supply +5 %']);
   });
 
   it('adds slow and fast MOS process corners only when a setting sizes them and the circuit has MOSFETs: 3 × 3 × 3 − 1 = 26', () => {
@@ -191,5 +193,16 @@ describe('runCorners', () => {
 
   it('does nothing when corners are disabled', () => {
     expect(run(cell('6k'), { corners: { enabled: false } }).findings).toEqual([]);
+  });
+});
+
+describe('which elements move with temperature', () => {
+  it('counts junctions, FETs and resistors with a coefficient, and nothing else', async () => {
+    const { movesWithTemperature } = await import('../../../shared-analysis/src/checks/corners');
+    const base = { name: 'x', nodes: [1, 0], origin: { uri: 'u', span: { start: 0, end: 1 }, instances: [] } };
+    expect(movesWithTemperature({ ...base, kind: 'R', resistance: 1e3 })).toBe(false);
+    expect(movesWithTemperature({ ...base, kind: 'R', resistance: 1e3, tc1: 1e-3 })).toBe(true);
+    expect(movesWithTemperature({ ...base, kind: 'V', dc: 1 })).toBe(false);
+    expect(movesWithTemperature({ ...base, kind: 'T' })).toBe(false);
   });
 });
