@@ -118,7 +118,11 @@ function modelTypeItems(replace: Span): CompletionData[] {
     ['D', 'diode'],
     ['NMOS', 'n-channel MOS transistor (square law)'],
     ['PMOS', 'p-channel MOS transistor (square law)'],
-    ['R', 'resistor model (parameters not used at DC)'],
+    ['NJF', 'n-channel junction FET'],
+    ['PJF', 'p-channel junction FET'],
+    ['SW', 'voltage-controlled switch'],
+    ['CSW', 'current-controlled switch'],
+    ['R', 'resistor model (sheet resistance RSH, temperature coefficients TC1, TC2)'],
   ];
   return types.map(([label, detail]) => ({ label, kind: 'model-type', detail, replace }));
 }

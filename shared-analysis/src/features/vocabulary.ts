@@ -24,6 +24,11 @@ export const ELEMENT_LETTERS: ElementLetterInfo[] = [
   { letter: 'D', title: 'Diode', fields: 'Dname anode cathode model [area]', note: 'Uses a .model of type D.' },
   { letter: 'Q', title: 'Bipolar transistor', fields: 'Qname collector base emitter [substrate] model [area] [M=count]', note: 'Uses a .model of type NPN or PNP; area multiplies IS.' },
   { letter: 'M', title: 'MOS transistor', fields: 'Mname drain gate source bulk model W=width L=length [M=count]', note: 'Uses a .model of type NMOS or PMOS (square law).' },
+  { letter: 'J', title: 'Junction FET', fields: 'Jname drain gate source model [area] [M=count]', note: 'Uses a .model of type NJF or PJF; IDSS = BETA·VTO².' },
+  { letter: 'S', title: 'Voltage-controlled switch', fields: 'Sname node1 node2 control+ control− model', note: 'Uses a .model of type SW: RON above VT + VH, ROFF below VT − VH.' },
+  { letter: 'W', title: 'Current-controlled switch', fields: 'Wname node1 node2 Vcontrol model', note: 'Uses a .model of type CSW, switched by the current through Vcontrol.' },
+  { letter: 'B', title: 'Behavioural source', fields: 'Bname out+ out− V={expression} | I={expression}', note: 'A voltage or current that is a function of V(node), V(node, node), I(Vsource) and parameters.' },
+  { letter: 'T', title: 'Transmission line', fields: 'Tname port1+ port1− port2+ port2− Z0=… TD=…', note: 'At DC each conductor is a short from port 1 to port 2.' },
   { letter: 'X', title: 'Subcircuit instance', fields: 'Xname node… subcircuit [param=value …]', note: 'Copies a .subckt body; its devices are named Xname.device.' },
 ];
 
@@ -35,7 +40,7 @@ export interface DotCardInfo {
 }
 
 export const DOT_CARDS: DotCardInfo[] = [
-  { name: '.model', form: '.model name type (param=value …)', description: 'Defines device parameters for D, Q or M elements (types D, NPN, PNP, NMOS, PMOS, R).' },
+  { name: '.model', form: '.model name type (param=value …)', description: 'Defines device parameters for D, Q, M, J, S, W or R elements (types D, NPN, PNP, NMOS, PMOS, NJF, PJF, SW, CSW, R).' },
   { name: '.param', form: '.param name=value …', description: 'Defines named values usable in {expressions}.' },
   { name: '.subckt', form: '.subckt name port… [param=default …]', description: 'Starts a reusable subcircuit body, ended by .ends.' },
   { name: '.ends', form: '.ends [name]', description: 'Ends the current subcircuit body.' },
@@ -56,12 +61,12 @@ export { MODEL_PARAMETERS } from '../devices/parameters';
 /** The model kinds a model type word names (`npn` → npn), or undefined. */
 export function modelKindOf(type: string): ModelKind | undefined {
   const t = type.toLowerCase();
-  return t === 'npn' || t === 'pnp' || t === 'd' || t === 'nmos' || t === 'pmos' || t === 'r' ? t : undefined;
+  if (t === 'res') return 'r';
+  return t === 'npn' || t === 'pnp' || t === 'd' || t === 'nmos' || t === 'pmos' || t === 'njf' || t === 'pjf' || t === 'sw' || t === 'csw' || t === 'r' ? t : undefined;
 }
 
 /** The default of a model parameter, if the engine has one. */
 export function defaultOf(kind: ModelKind, param: string): number | undefined {
-  if (kind === 'r') return undefined;
   return MODEL_DEFAULTS[kind][param.toUpperCase()];
 }
 
@@ -74,6 +79,12 @@ export function modelKindsFor(letter: string): ModelKind[] {
       return ['nmos', 'pmos'];
     case 'D':
       return ['d'];
+    case 'J':
+      return ['njf', 'pjf'];
+    case 'S':
+      return ['sw'];
+    case 'W':
+      return ['csw'];
     case 'R':
       return ['r'];
     default:
@@ -90,5 +101,16 @@ export const INSTANCE_PARAMETERS: Record<string, ModelParameterInfo[]> = nameTab
   ],
   Q: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
   D: [{ name: 'M', meaning: 'number of parallel devices', unit: '' }],
-  R: [{ name: 'M', meaning: 'number of parallel resistors', unit: '' }],
+  R: [
+    { name: 'M', meaning: 'number of parallel resistors', unit: '' },
+    { name: 'TC1', meaning: 'first-order temperature coefficient (overrides the model’s)', unit: '1/K' },
+    { name: 'TC2', meaning: 'second-order temperature coefficient (overrides the model’s)', unit: '1/K²' },
+    { name: 'TC', meaning: 'TC=a,b gives TC1 and TC2 together', unit: '1/K' },
+    { name: 'L', meaning: 'drawn length, for R = RSH·L/W from a model', unit: 'm' },
+    { name: 'W', meaning: 'drawn width, for R = RSH·L/W from a model', unit: 'm' },
+  ],
+  J: [
+    { name: 'AREA', meaning: 'area factor: multiplies BETA and IS', unit: '' },
+    { name: 'M', meaning: 'number of parallel devices', unit: '' },
+  ],
 });

@@ -68,9 +68,15 @@ describe('completion', () => {
     // Defaults: docs/DEVICE-MODELS.md (BF = 100).
     expect(items.find((i) => i.label === 'BF')!.documentation).toBe('Default 100.');
     check(BASE('.model MX PMOS |'), ['KP', 'VTO', 'LAMBDA'], ['BF']);
+    // The newer kinds have their own tables (docs/DEVICE-MODELS.md): JFET IDSS = BETA·VTO², VTO −2 V by default.
+    const jfet = check(BASE('.model JX NJF (|'), ['BETA', 'VTO', 'LAMBDA', 'VTOTC', 'BETATCE'], ['BF', 'KP']);
+    expect(jfet.find((i) => i.label === 'VTO')!.documentation).toBe('Default −2.');
+    check(BASE('.model SX SW (|'), ['RON', 'ROFF', 'VT', 'VH'], ['IT']);
+    check(BASE('.model WX CSW (|'), ['RON', 'ROFF', 'IT', 'IH'], ['VT']);
+    check(BASE('.model RX R (|'), ['RSH', 'TC1', 'TC2'], ['BF']);
   });
   it('offers model types after a model name', () => {
-    check(BASE('.model QX |'), ['NPN', 'PNP', 'NMOS', 'PMOS', 'D']);
+    check(BASE('.model QX |'), ['NPN', 'PNP', 'NMOS', 'PMOS', 'D', 'NJF', 'PJF', 'SW', 'CSW', 'R']);
   });
   it('offers parameters inside braces', () => {
     const items = check(BASE('R8 vcc 0 {rs|'), ['rset']);
