@@ -193,7 +193,13 @@ function elementSection(analysis: Analysis, el: Element): string {
     );
   } else if (rec.type === 'diode') {
     lines.push(`Region: **${regionWord(rec)}**`);
-    lines.push(bullet([`ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`, `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`]));
+    lines.push(
+      bullet([
+        `ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`,
+        `Dynamic resistance rd ${formatQuantity(rec.rd, 'Ω')} (dVD/dID here, series resistance included)`,
+        `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`,
+      ]),
+    );
   } else {
     const items = [
       `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the element to ${nodeNames[1]})`,

@@ -243,3 +243,25 @@ describe('hover on a node with no DC path to ground', () => {
     expect(hoverAt(analysis, uri, text.indexOf(' d ') + 1)?.markdown).not.toMatch(/arbitrary/);
   });
 });
+
+describe('hover on the newer device kinds', () => {
+  it('shows a JFET’s region, currents, gm and ro', () => {
+    // Source: docs/DEVICE-MODELS.md JFET saturation law; with the gate at the source ID = BETA·VTO²·(1 + LAMBDA·VDS) = 1m·4·(1 + 0.1) = 4.4 mA.
+    check(`JFET hover\nVD d 0 10\nJ|1 d 0 0 JN\n.model JN NJF (VTO=-2 BETA=1m LAMBDA=0.01)\n.end\n`, {
+      contains: ['Region: **saturation** (N-channel JFET)', 'gm', 'ro', 'pinch-off VTO −2 V'],
+      numbers: [{ label: 'ID', unit: 'A', value: 4.4e-3, tol: 1e-3 }],
+    });
+  });
+  it('shows a diode’s dynamic resistance', () => {
+    // Source: rd = N·VT/ID for the ideal diode law (common practice): about 25.9 mV/1 mA ≈ 25.9 Ω at 27 °C.
+    check(`Diode hover\nI1 0 a 1m\nD|1 a 0 DN\n.model DN D (IS=1e-14)\n.end\n`, {
+      contains: ['Dynamic resistance rd'],
+      numbers: [{ label: 'rd', unit: 'Ω', value: 25.865, tol: 2e-3 }],
+    });
+  });
+  it('shows a switch’s state and resistance', () => {
+    check(`Switch hover\nV1 a 0 5\nR1 a b 1k\nS|1 b 0 c 0 SM\nVC c 0 3\n.model SM SW (RON=10 ROFF=1meg VT=1)\n.end\n`, {
+      contains: ['State: **on** (10 Ω)', 'Control 3 V'],
+    });
+  });
+});
