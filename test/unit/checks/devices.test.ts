@@ -298,3 +298,12 @@ RE e 0 100 RATEDPOWER=1
     expect(Math.abs(total)).toBeLessThan(1e-9);
   });
 });
+
+describe('JFET gate bias', () => {
+  it('warns when a gate junction conducts forward, on the JFET line', () => {
+    // An N-channel JFET with its gate pulled to the supply: the gate-source junction conducts through RS.
+    check(`JFET gate pulled up\nVDD vdd 0 12\nRD vdd d 2.2k\nJ1 d vdd s JN\nRS s 0 1k\n.model JN NJF (VTO=-2 BETA=1m)\n.end\n`, [
+      { code: 'jfet-gate-forward', line: 4, says: [/gate-source junction is forward-biased/, /N-channel/] },
+    ]);
+  });
+});

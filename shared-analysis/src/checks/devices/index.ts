@@ -6,6 +6,7 @@ import type { DeviceRecord } from '../../solve/types';
 import type { Finding, Severity } from '../../types';
 import { JudgeContext, type DeviceCheckContext } from './context';
 import { judgeDiode } from './diode';
+import { judgeJfet } from './jfet';
 import { isPowered } from '../plausibility';
 import { dissipation, powerLimit } from './power';
 import { judgeBjt, judgeMosfet, type JudgeMemory } from './transistors';
@@ -37,6 +38,10 @@ export const DEVICE_CODES: Record<string, { severity: Severity; summary: string 
     severity: 'error',
     summary: 'A BJT’s emitter–base junction is reverse-biased beyond the 5–6 V such junctions are rated for (common practice); the solved point is then not what the part does, and the pins often look swapped.',
   },
+  'jfet-gate-forward': {
+    severity: 'warning',
+    summary: 'A JFET’s gate-source or gate-drain junction is forward-biased and its gate draws more than 1 µA; a JFET’s gate is meant to stay reverse-biased.',
+  },
   'power-over-rating': {
     severity: 'warning',
     summary: 'A device or resistor dissipates more than its rating: its `RATEDPOWER=` (instance or model), else the setting (0.25 W for a resistor, 0.5 W for a small-signal transistor or diode; common practice).',
@@ -60,7 +65,7 @@ export const DEVICE_JUDGES: Record<string, DeviceJudge> = nameTable({
   Q: { kind: 'Q', judge: (el, rec, ctx, memory) => el.kind === 'Q' && rec.type === 'bjt' && judgeBjt(el, rec, ctx, memory) },
   M: { kind: 'M', judge: (el, rec, ctx, memory) => el.kind === 'M' && rec.type === 'mosfet' && judgeMosfet(el, rec, ctx, memory) },
   D: { kind: 'D', judge: (el, rec, ctx, memory) => el.kind === 'D' && rec.type === 'diode' && judgeDiode(el, rec, ctx, memory) },
-  J: { kind: 'J' },
+  J: { kind: 'J', judge: (el, rec, ctx) => el.kind === 'J' && rec.type === 'jfet' && judgeJfet(el, rec, ctx) },
   R: { kind: 'R' },
 });
 
