@@ -77,6 +77,8 @@ class SwitchTable implements DeviceTable {
   private readonly halfWidth: Float64Array;
   private readonly scratch = new Float64Array(2);
   private readonly T: number;
+  /** Control value of the last linearisation, for limiting. */
+  private readonly cOld: Float64Array;
 
   constructor(
     readonly kind: DeviceKind,
@@ -89,6 +91,7 @@ class SwitchTable implements DeviceTable {
     this.roff = new Float64Array(n);
     this.threshold = new Float64Array(n);
     this.halfWidth = new Float64Array(n);
+    this.cOld = new Float64Array(n);
     const current = kind.letter === 'W';
     for (let i = 0; i < n; i++) {
       const el = instances.elements[i];
@@ -103,7 +106,9 @@ class SwitchTable implements DeviceTable {
 
   prepare(_c: DeviceConditions): void {}
 
-  resetState(): void {}
+  resetState(x: Float64Array): void {
+    for (let i = 0; i < this.n; i++) this.cOld[i] = this.control(x, i);
+  }
 
   /** Control value of instance i at x. */
   private control(x: Float64Array, i: number): number {
@@ -113,7 +118,7 @@ class SwitchTable implements DeviceTable {
     return voltage(x, t[i * T + 2]);
   }
 
-  load(x: Float64Array, values: Float64Array, rhs: Float64Array, _limit: boolean, tally: LoadTally): void {
+  load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void {
     const t = this.instances.terminals;
     const pos = this.instances.positions;
     const T = this.T;
@@ -122,7 +127,15 @@ class SwitchTable implements DeviceTable {
       const a = t[i * T];
       const b = t[i * T + 1];
       const vs = voltage(x, a) - voltage(x, b);
-      const c = this.control(x, i);
+      let c = this.control(x, i);
+      if (limit) {
+        const limited = limitControl(c, this.cOld[i], this.threshold[i], this.halfWidth[i]);
+        if (limited !== c) {
+          tally.limited = true;
+          c = limited;
+        }
+      }
+      this.cOld[i] = c;
       switchCore(c, this.ron[i], this.roff[i], this.threshold[i], this.halfWidth[i], s);
       const g = s[0];
       const gc = vs * s[1];
@@ -170,6 +183,24 @@ class SwitchTable implements DeviceTable {
   overdriven(): OverdrivenJunction[] {
     return [];
   }
+}
+
+/**
+ * Control limiting (our scheme, in the spirit of junction limiting): a step that enters, leaves or
+ * stays in the transition band moves at most one half-width h per iteration, because across the
+ * band the resistance changes by many decades and the linearisation there overshoots. Steps that
+ * stay on one side outside the band are free (the resistance does not change).
+ */
+function limitControl(c: number, cOld: number, threshold: number, h: number): number {
+  const lo = threshold - h;
+  const hi = threshold + h;
+  if ((c <= lo && cOld <= lo) || (c >= hi && cOld >= hi)) return c;
+  const step = c - cOld;
+  if (Math.abs(step) <= h) return c;
+  // Entering the band from outside: stop at its edge first.
+  if (cOld <= lo && c > lo) return Math.min(c, lo + (cOld < lo ? 0 : h));
+  if (cOld >= hi && c < hi) return Math.max(c, hi - (cOld > hi ? 0 : h));
+  return cOld + Math.sign(step) * h;
 }
 
 function voltage(x: Float64Array, k: number): number {
