@@ -499,7 +499,11 @@ export function textReport(r: FileResult): string {
   }
   if (a.structures.length === 0) out.push('No mirrors or reference branches recognised.');
   for (const s of a.structures) {
-    const outs = s.outputs.map((o) => (typeof o.ratio === 'number' && o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device)).join(', ');
+    // A source whose own device is its output (a diode-referenced source) has no arrow to draw.
+    const outs = s.outputs
+      .filter((o) => o.device !== s.reference.device)
+      .map((o) => (typeof o.ratio === 'number' && o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device))
+      .join(', ');
     const feed = s.reference.feed === 'resistor' && s.reference.rail
       ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
       : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;

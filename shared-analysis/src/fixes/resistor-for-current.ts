@@ -3,7 +3,7 @@
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
 import { DcSolver } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
-import { referenceJunctions } from '../structures/catalogue';
+import { kindOf, referenceJunctions } from '../structures/catalogue';
 import { measureStructure } from '../structures/measure';
 import { thermalVolts } from '../structures/formulas';
 import type { Structure } from '../structures/types';
@@ -181,7 +181,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const rRec = baseline.op.devices[resistor.name];
   const vR = rRec && rRec.type === 'resistor' ? Math.abs(rRec.voltage) : Math.abs(currentOf(baseline.op, resistor.name) ?? 0) * resistor.resistance;
   const iR = currentOf(baseline.op, resistor.name) ?? 0;
-  if (structure && role === 'widlar' && actedOn && deviceName.toLowerCase() === actedOn.device.toLowerCase()) {
+  if (structure && role === 'widlar' && actedOn && deviceName.toLowerCase() === actedOn.device.toLowerCase() && !kindOf(structure.kind).emitterResistorByOhmsLaw) {
     const m = measureStructure(work, baseline.op, structure);
     const nf = deviceNf(circuit, actedOn.device);
     if (!(m.iref > target)) {

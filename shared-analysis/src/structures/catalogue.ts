@@ -5,6 +5,7 @@ import { bandgapCore } from './kinds/bandgap-core';
 import { betaMultiplier } from './kinds/beta-multiplier';
 import { cascodeMirror } from './kinds/cascode-mirror';
 import { degeneratedMirror } from './kinds/degenerated-mirror';
+import { diodeReferencedSource } from './kinds/diode-referenced-source';
 import { helperMirror } from './kinds/helper-mirror';
 import { improvedWilsonMirror } from './kinds/improved-wilson-mirror';
 import { ptatCell } from './kinds/ptat-cell';
@@ -33,6 +34,7 @@ export const KINDS: readonly KindModule[] = [
   betaMultiplier,
   degeneratedMirror,
   widlarSource,
+  diodeReferencedSource,
   simpleMirror,
 ];
 

@@ -106,6 +106,12 @@ export interface KindModule {
   /** The 0.7 V shortcut step of a resistor-fed bipolar reference, when the kind words it differently. */
   shortcut?(h: Hand, x: ShortcutInput): EstimateStep;
 
+  /**
+   * Its outputs' emitter (source) resistors set their currents by Ohm's law, IOUT ≈ (VREF − VBE)/RE,
+   * not by a Widlar logarithm: resistor sizing starts from Ohm's law.
+   */
+  readonly emitterResistorByOhmsLaw?: boolean;
+
   /** Small-signal output resistance of one output (called only when the output's own ro is bounded). */
   outputResistance(c: ResistanceContext, o: StructureOutput, out: SmallSignal, i: number): number;
   /** The `mirror-ratio` note of an output, or undefined when the output has no intended ratio. */

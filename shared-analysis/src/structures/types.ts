@@ -24,6 +24,8 @@ export type StructureKind =
   | 'beta-multiplier'
   /** A ΔVBE cell whose PTAT current, mirrored into a resistor on a diode-connected device, gives VBG = VBE + I·R2. */
   | 'bandgap-core'
+  /** A transistor whose base (gate) sits on a zener or a string of forward junctions, with an emitter (source) resistor: I = (VREF − VBE)/RE. */
+  | 'diode-referenced-source'
   /** VBE (VGS) multiplier: a device with a resistor divider from collector to emitter on its base; V = VBE·(1 + R1/R2). */
   | 'vbe-multiplier'
   /** Wide-swing (high-swing) MOS cascode mirror with its own cascode-bias branch. */

@@ -18,7 +18,8 @@ describe('structure catalogue', () => {
     // devices plus one; a bandgap core is a ΔVBE cell with an output branch; the ΔVBE cell and the
     // beta multiplier are Widlar pairs whose output returns to their reference; a degenerated mirror's
     // outputs look like Widlar outputs of a reference on X1; a Widlar source is a simple mirror whose
-    // every output is degenerated.
+    // every output is degenerated; a diode-referenced source's string of diode-connected devices would
+    // otherwise leave its lower device as a lone diode.
     expect(KINDS.map((k) => k.id)).toEqual([
       'wide-swing-cascode',
       'cascode-mirror',
@@ -31,6 +32,7 @@ describe('structure catalogue', () => {
       'beta-multiplier',
       'degenerated-mirror',
       'widlar-source',
+      'diode-referenced-source',
       'simple-mirror',
     ]);
   });
