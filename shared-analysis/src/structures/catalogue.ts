@@ -9,6 +9,7 @@ import { diodeReferencedSource } from './kinds/diode-referenced-source';
 import { helperMirror } from './kinds/helper-mirror';
 import { improvedWilsonMirror } from './kinds/improved-wilson-mirror';
 import { ptatCell } from './kinds/ptat-cell';
+import { regulatedSource } from './kinds/regulated-source';
 import { simpleMirror } from './kinds/simple-mirror';
 import { vbeMultiplier } from './kinds/vbe-multiplier';
 import { wideSwingCascode } from './kinds/wide-swing-cascode';
@@ -35,6 +36,7 @@ export const KINDS: readonly KindModule[] = [
   degeneratedMirror,
   widlarSource,
   diodeReferencedSource,
+  regulatedSource,
   simpleMirror,
 ];
 

@@ -26,6 +26,8 @@ export type StructureKind =
   | 'bandgap-core'
   /** A transistor whose base (gate) sits on a zener or a string of forward junctions, with an emitter (source) resistor: I = (VREF − VBE)/RE. */
   | 'diode-referenced-source'
+  /** An amplifier (E source) driving a transistor whose emitter (source) feeds back across a sense resistor: I = VREF/RSENSE. */
+  | 'regulated-source'
   /** VBE (VGS) multiplier: a device with a resistor divider from collector to emitter on its base; V = VBE·(1 + R1/R2). */
   | 'vbe-multiplier'
   /** Wide-swing (high-swing) MOS cascode mirror with its own cascode-bias branch. */

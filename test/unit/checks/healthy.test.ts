@@ -68,6 +68,12 @@ function healthy(kind: StructureKind, tech: Technology): string {
       dev('Q1', 'out', 'a', 'e');
       lines.push(`RE e ${rail} ${bip ? '1.5k' : '2.2k'}`);
       break;
+    case 'regulated-source':
+      // RREF with R2 divides the supply to about 0.94 V for the amplifier's reference input; about 1.4 mA through RS.
+      lines.push(`R2 a ${rail} 1k`, 'EAMP b 0 a s 1e5');
+      dev('Q1', 'out', 'b', 's');
+      lines.push(`RS s ${rail} 680`);
+      break;
     default:
       return '';
   }

@@ -89,6 +89,12 @@ export class CircuitBuilder {
     return this;
   }
 
+  /** A voltage-controlled voltage source: V(outP) − V(outN) = gain·(V(ctrlP) − V(ctrlN)). */
+  e(name: string, outP: string, outN: string, ctrlP: string, ctrlN: string, gain: number): this {
+    this.elements.push({ kind: 'E', name, nodes: [this.node(outP), this.node(outN), this.node(ctrlP), this.node(ctrlN)], gain, origin: this.origin(name) });
+    return this;
+  }
+
   q(name: string, c: string, b: string, e: string, model: string, o: DeviceOptions = {}): this {
     this.elements.push({
       kind: 'Q',

@@ -33,6 +33,7 @@ describe('structure catalogue', () => {
       'degenerated-mirror',
       'widlar-source',
       'diode-referenced-source',
+      'regulated-source',
       'simple-mirror',
     ]);
   });

@@ -1,4 +1,4 @@
-// The diode-referenced current source against its published formula, I = (VREF − VBE)/RE, worked out independently in the test, and against the solver.
+// Current sources against their published formulas worked out independently in the test, and against the solver: the diode-referenced source, I = (VREF − VBE)/RE, and the op-amp-regulated source, I = VREF/RSENSE.
 
 import { describe, expect, it } from 'vitest';
 import { resolveOptions } from '../../shared-analysis/src/analysis';
@@ -93,5 +93,40 @@ RL vcc out 1k
     // Ohm's law on RE (common practice): 3 mA needs about (5.6 − 0.7)/3 mA ≈ 1.6 kΩ; the fix is re-solved and applied.
     const { fix } = applyAndRecheck(text, 'target-missed');
     expect(fix.title).toMatch(/^Set RE to 1\.[5-7]k/);
+  });
+});
+
+describe('op-amp-regulated NPN current sink', () => {
+  // A 10 k/1 k divider from 12 V on the non-inverting input, gain 1e5, a 100 Ω sense resistor (invented values).
+  const text = (target = '') => `Op-amp regulated NPN current sink
+VCC vcc 0 12
+R1 vcc ref 10k
+R2 ref 0 1k
+EAMP b 0 ref s 1e5
+Q1 out b s QN${target}
+RS s 0 100
+RL vcc out 470
+.model QN npn (IS=1e-15 BF=150 VAF=80)
+.end
+`;
+
+  it('IE = VREF/RSENSE·A/(1 + A), IC = IE·β/(β + 1), against the divider worked out here and the solve', () => {
+    // Source: Horowitz and Hill, 3rd ed., ch. 4 — the loop holds the sense node at VREF, so I = VREF/RSENSE (from memory).
+    const a = analyseNetlist(text());
+    const s = a.structures.find((x) => x.kind === 'regulated-source')!;
+    expect(s).toBeDefined();
+    const vref = (12 * 1e3) / (10e3 + 1e3); // the divider, Ohm's law
+    const ie = (vref / 100) * (1e5 / (1 + 1e5));
+    check(s.estimate!.iref, ie, 1e-9);
+    check(s.estimate!.iout.Q1, (ie * 150) / 151, 1e-9);
+    check(s.estimate!.voltages!.VREF, vref, 1e-12);
+    // The solver's collector current differs by the Early effect on β (VAF = 80 V) only.
+    check(s.solved!.iout.Q1, (ie * 150) / 151, 0.01);
+  });
+
+  it('a missed target sizes the sense resistor, and the applied fix meets it', () => {
+    const { fix } = applyAndRecheck(text(' ; expect 5mA ±2%'), 'target-missed');
+    // Ohm's law: 1.09 V/5 mA ≈ 218 Ω.
+    expect(fix.title).toMatch(/^Set RS to 2[12]\d /);
   });
 });
