@@ -34,7 +34,8 @@ export function spreadSentence(result: OutputCharacteristicResult): string {
 export function renderPanelHtml(result: OutputCharacteristicResult, options: PanelPageOptions): string {
   const nonce = options.nonce.replace(/[^A-Za-z0-9+/=]/g, '');
   const size = options.size ?? { width: 640, height: 400 };
-  const structure = result.structureId ? ` (${escapeXml(result.structureId)})` : '';
+  // The output's kind in words when the server says it ("Widlar output of the simple current mirror on Q1"), else the structure's id.
+  const structure = result.outputKind ? `, ${escapeXml(result.outputKind)}` : result.structureId ? ` (${escapeXml(result.structureId)})` : '';
   return `<!DOCTYPE html>
 <html lang="en">
 <head>

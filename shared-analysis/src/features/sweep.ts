@@ -1,5 +1,7 @@
 // The output characteristic of one mirror output: its current against a swept output-node voltage, rail to rail.
 
+import { kindName } from '../structures/catalogue';
+import { outputWords } from './structure-words';
 import type { Analysis } from '../analysis';
 import type { Circuit, Element, VoltageSource } from '../circuit';
 import { DcSolver } from '../solve/dc';
@@ -10,6 +12,8 @@ import type { Structure } from '../structures/types';
 export interface OutputCharacteristicResult {
   device: string;
   structureId: string;
+  /** What the output is, in words: "Widlar output of the simple current mirror on Q1". */
+  outputKind?: string;
   /** The output node that was swept. */
   node: string;
   /** Output-node voltage (V) against output current magnitude (A), in sweep order (lower rail to upper rail). */
@@ -90,6 +94,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     ...(v ? { spread: { sigmaRelative: v.sigmaRelative, worstCaseRelative: v.worstCaseRelative, tempcoPpmPerC: v.tempcoPpmPerC } } : {}),
     device: output.device,
     structureId: structure.id,
+    outputKind: `${outputWords(structure, output)} of the ${kindName(structure.kind)} on ${structure.reference.device}`,
     node: circuit.nodes[nodeIndex],
     points: pts.map(({ v, i }) => ({ v, i })),
     edgeV,

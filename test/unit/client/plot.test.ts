@@ -230,6 +230,12 @@ describe('panel page', () => {
     expect(html).toContain('<style nonce="n0nce">');
     expect(html).not.toMatch(/<script|\son[a-z]+=/i);
   });
+
+  it('titles the chart with the kind of output in words when the server gives it, escaped', () => {
+    const html = renderPanelHtml(sweep({ outputKind: 'Widlar output of the simple current mirror on Q<1>' }), { nonce: 'n', documentLabel: 'x.cir' });
+    expect(html).toContain('<h1>Output characteristic of Q2, Widlar output of the simple current mirror on Q&lt;1&gt;</h1>');
+    expect(renderPanelHtml(sweep(), { nonce: 'n', documentLabel: 'x.cir' })).toContain('<h1>Output characteristic of Q2 (mirror-1)</h1>');
+  });
 });
 
 describe('the drift plot', () => {

@@ -63,6 +63,8 @@ describe('output characteristic', () => {
       // The operating point lies on the swept curve (RL only set where on the curve the circuit sits).
       expect(r.operatingV).toBeGreaterThan(r.edgeV);
       expect(r.cornerSpread.length).toBeGreaterThan(0);
+      // The chart's title says what the output is, in words.
+      expect(r.outputKind).toBe('mirror output of the simple current mirror on Q1');
     });
   });
 
