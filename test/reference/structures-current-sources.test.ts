@@ -124,6 +124,30 @@ RL vcc out 470
     check(s.solved!.iout.Q1, (ie * 150) / 151, 0.01);
   });
 
+  it('with the amplifier written as a subcircuit (an E source behind 100 Ω), the same current', () => {
+    const a = analyseNetlist(`Regulated sink with a subcircuit amplifier
+VCC vcc 0 12
+R1 vcc ref 10k
+R2 ref 0 1k
+.subckt amp inp inn out
+E1 int 0 inp inn 1e5
+RO int out 100
+.ends amp
+XA ref s b amp
+Q1 out b s QN
+RS s 0 100
+RL vcc out 470
+.model QN npn (IS=1e-15 BF=150 VAF=80)
+.end
+`);
+    const s = a.structures.find((x) => x.kind === 'regulated-source')!;
+    expect(s).toBeDefined();
+    expect(Object.keys(s.parts ?? {}).sort()).toEqual(['XA.E1', 'XA.RO']);
+    const ie = ((12 * 1e3) / 11e3 / 100) * (1e5 / (1 + 1e5));
+    check(s.estimate!.iref, ie, 1e-9);
+    check(s.solved!.iout.Q1, (ie * 150) / 151, 0.01);
+  });
+
   it('a missed target sizes the sense resistor, and the applied fix meets it', () => {
     const { fix } = applyAndRecheck(text(' ; expect 5mA ±2%'), 'target-missed');
     // Ohm's law: 1.09 V/5 mA ≈ 218 Ω.

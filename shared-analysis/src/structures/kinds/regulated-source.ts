@@ -13,6 +13,7 @@ import type { Transistor } from '../topology';
 export const REGULATED_SOURCE = 'Horowitz and Hill, 3rd ed., ch. 4 (op-amp current source with a sense resistor); Franco, Design with Operational Amplifiers, ch. 2; from memory';
 
 const AMPLIFIER = 'regulating amplifier';
+const AMPLIFIER_OUTPUT = 'output resistance of the regulating amplifier';
 
 /** Below this open-loop gain the controlled source is a buffer or a gain stage, not a regulating amplifier. */
 const MIN_GAIN = 100;
@@ -21,9 +22,10 @@ const MIN_GAIN = 100;
  * A transistor Q (not diode-connected) whose base (gate) B is the output of an E source (out− on a
  * rail), whose emitter (source) node S carries only Q and a sense resistor RSENSE to a rail, and whose
  * emitter closes the loop on the amplifier's inverting input (ctrl− = S with a positive gain, or
- * ctrl+ = S with a negative one); the other input is the reference node.
+ * ctrl+ = S with a negative one); the other input is the reference node. The E source may drive B
+ * through one series resistor (a subcircuit amplifier's output resistance).
  * ```
- *   E: out+ = B, out− = rail, ctrl+ = REF, ctrl− = S, gain ≥ 100
+ *   E: out+ = B (or B through one resistor), out− = rail, ctrl+ = REF, ctrl− = S, gain ≥ 100
  *   Q: c = OUT, b = B, e = S;  RSENSE: S ── rail
  * ```
  */
@@ -36,9 +38,7 @@ function recognise(m: Matcher, t: Transistor): Draft | undefined {
   const rs = sense.element;
   const rail = rs.nodes[0] === s ? rs.nodes[1] : rs.nodes[0];
   if (!m.rails.has(rail)) return undefined;
-  for (const a of m.topo.at(b)) {
-    if (a.element.kind !== 'E' || a.slot !== 0) continue;
-    const amp = a.element;
+  for (const { amp, series } of amplifiersOn(m, b)) {
     if (!m.rails.has(amp.nodes[1]) || !(Math.abs(amp.gain) >= MIN_GAIN) || !Number.isFinite(amp.gain)) continue;
     const ref = feedbackReference(amp, s);
     if (ref === undefined || ref === s) continue;
@@ -48,12 +48,34 @@ function recognise(m: Matcher, t: Transistor): Draft | undefined {
       refNode: s,
       members: [{ t, role: 'pass' }],
       outputs: [{ device: t.name, node: m.nodeName(t.out), ratio: 1 }],
-      parts: { [amp.name]: AMPLIFIER },
+      parts: series ? { [amp.name]: AMPLIFIER, [series.name]: AMPLIFIER_OUTPUT } : { [amp.name]: AMPLIFIER },
       params: { gain: Math.abs(amp.gain) },
       voltages: [{ name: 'VREF', description: `reference voltage the amplifier ${amp.name} holds across the sense resistor ${rs.name}`, node: m.nodeName(ref), from: m.nodeName(rail) }],
     };
   }
   return undefined;
+}
+
+/**
+ * The E sources driving node `b`: directly (their out+ on it), or through one series resistor whose
+ * other end carries only that resistor and the E source's out+ — the output resistance of an
+ * amplifier written as a subcircuit (an E source behind a resistor), which flattening leaves as
+ * `X1.E1` and `X1.ROUT`.
+ */
+function amplifiersOn(m: Matcher, b: number): { amp: Vcvs; series?: Element }[] {
+  const out: { amp: Vcvs; series?: Element }[] = [];
+  for (const a of m.topo.at(b)) {
+    if (a.element.kind === 'E' && a.slot === 0) out.push({ amp: a.element });
+    else if (a.element.kind === 'R') {
+      const r = a.element;
+      const x = r.nodes[0] === b ? r.nodes[1] : r.nodes[0];
+      if (x === b) continue;
+      const at = [...new Set(m.topo.conducting(x).map((y) => y.element))];
+      const amp = at.find((e) => e !== r);
+      if (at.length === 2 && amp && amp.kind === 'E' && amp.nodes[0] === x) out.push({ amp, series: r });
+    }
+  }
+  return out;
 }
 
 /** The amplifier's reference input when its feedback from `sense` is negative; undefined otherwise. */
@@ -171,7 +193,7 @@ export const regulatedSource: KindModule = {
   name: 'op-amp-regulated current source',
   outputName: 'regulated output',
   summary:
-    'An amplifier (a high-gain E source) drives a transistor whose emitter (source) returns through a sense resistor and feeds back to its inverting input, so the sense resistor carries VREF/RSENSE; the reference voltage is shown on its node.',
+    'An amplifier (a high-gain E source, or a subcircuit amplifier whose E source sits behind an output resistor) drives a transistor whose emitter (source) returns through a sense resistor and feeds back to its inverting input, so the sense resistor carries VREF/RSENSE; the reference voltage is shown on its node.',
   technologies: ['npn', 'pnp', 'nmos', 'pmos'],
   seeds: 'not-diode-connected',
   recognise,
