@@ -280,7 +280,15 @@ function structureSection(s: Structure, device: string): string {
   const lower = device.toLowerCase();
   const isRef = s.reference.device.toLowerCase() === lower;
   const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
-  const role = isRef ? 'reference (diode-connected) device' : out ? outputWords(s, out) : s.roles?.[device] ? `${s.roles[device].replace(/-/g, ' ')} device` : 'device';
+  // A source whose own device is its output (diode-referenced, regulated) says output; a VBE multiplier's device is its pass device.
+  const own = s.roles?.[s.devices.find((d) => d.toLowerCase() === lower) ?? ''];
+  const role = out
+    ? outputWords(s, out)
+    : isRef && (own === undefined || own === 'reference')
+      ? 'reference (diode-connected) device'
+      : own
+        ? `${own.replace(/-/g, ' ')} device`
+        : 'device';
   const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
   const est = s.estimate;
   // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.

@@ -55,6 +55,13 @@ describe('derived voltages', () => {
     expect(md).toMatch(/VCE \(VBE multiplier voltage.*\) on c, above e: hand estimate 2\.\d+ V, solved 2\.\d+ V.* — from the VBE multiplier on Q1/);
   });
 
+  it('the multiplier device is its pass device, not a diode-connected reference', () => {
+    const { text, offset } = withCursor(MULTIPLIER);
+    const md = hoverAt(analyseText(text), '/t/main.cir', offset)!.markdown;
+    expect(md).toMatch(/\*\*VBE multiplier\*\* \(NPN\) — this is its pass device\./);
+    expect(md).not.toMatch(/diode-connected/);
+  });
+
   it('the inlay label of the multiplier device carries its voltage', () => {
     const { text } = withCursor(MULTIPLIER);
     const a = analyseText(text);
@@ -80,6 +87,23 @@ describe('derived voltages', () => {
 });
 
 describe('the kind of each output in words', () => {
+  it('a source whose device is its own output says so, not "reference"', () => {
+    const text = `Zener-referenced sink
+VCC vcc 0 12
+RB vcc b 4.7k
+DZ 0 b DZ56
+Q1 out b e QN
+RE e 0 2.2k
+RL vcc out 1k
+.model DZ56 d (IS=1e-14 BV=5.6 IBV=1m)
+.model QN npn (BF=150)
+.end
+`;
+    const md = hoverAt(analyseText(text), '/t/main.cir', text.indexOf('Q1 out') + 1)!.markdown;
+    expect(md).toMatch(/\*\*Diode-referenced current source\*\* \(NPN\) — this is its diode-referenced output\./);
+    expect(md).toMatch(/VREF \(reference voltage of the zener string\) on b: hand estimate 5\.6\d* V/);
+  });
+
   it('a degenerated output of a simple mirror is a Widlar output; a 1:2 output says its ratio; a 1:1 says none', () => {
     const a = analyseText(MIRROR);
     const s = a.structures[0];
