@@ -14,6 +14,7 @@ import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
+import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import type { Structure, StructureOutput } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
@@ -143,11 +144,6 @@ function applySeverities(findings: Finding[], options: ResolvedOptions): Finding
   return out;
 }
 
-/** Parameters whose difference between devices of one mirror breaks its matching. */
-const MATCH_PARAMS: Record<'bjt' | 'mos', string[]> = {
-  bjt: ['IS', 'BF', 'VAF', 'NF', 'XTI', 'EG'],
-  mos: ['KP', 'VTO', 'LAMBDA', 'GAMMA', 'PHI'],
-};
 
 class StructureCheck {
   private readonly sign: 1 | -1;
@@ -512,14 +508,10 @@ class StructureCheck {
     const out: Record<string, { ratio: number; model: Model; refModel: Model }> = nameTable();
     if (!this.bipolar) return out;
     const ref = this.t(this.s.reference.device).element.model;
-    const keys = MATCH_PARAMS.bjt;
     for (const o of this.s.outputs) {
       const m = this.t(o.device).element.model;
-      if (m === ref) continue;
-      const differing = keys.filter((k) => !sameNumber(m.params[k], ref.params[k]));
-      const isR = ref.params.IS ?? 1e-16;
-      const isO = m.params.IS ?? 1e-16;
-      if (differing.length === 1 && differing[0] === 'IS' && isR > 0 && isO > 0) out[o.device] = { ratio: isO / isR, model: m, refModel: ref };
+      const ratio = isOnlyRatio(m, ref);
+      if (ratio !== undefined) out[o.device] = { ratio, model: m, refModel: ref };
     }
     return out;
   }
@@ -712,14 +704,16 @@ class StructureCheck {
       if (this.off.has(o.device)) continue; // no ratio on a device that carries nothing
       const is = byIs[o.device];
       if (is) {
-        // Source: the transport model (DESIGN.md) — at one VBE, IC scales with IS, so IS2/IS1 multiplies the geometric ratio.
-        const total = o.ratio * is.ratio;
-        const geometry = Math.abs(o.ratio - 1) < 1e-9 ? '' : ` and ${sig(o.ratio)} by area × M`;
+        // Source: the transport model (docs/DEVICE-MODELS.md) — at one VBE, IC scales with IS, so IS2/IS1 multiplies the
+        // geometric ratio; recognition already folded it into the output's intended ratio (`isRatio` says how much).
+        const total = o.ratio;
+        const geometric = o.ratio / (o.isRatio ?? 1);
+        const geometry = Math.abs(geometric - 1) < 1e-9 ? '' : ` and ${sig(geometric)} by area × M`;
         this.emit(
           'mirror-ratio',
           this.t(o.device).element,
           `${o.device} is a 1:${sig(total)} output of the ${kindName(this.s.kind)} on ${this.s.reference.device}: its model ${is.model.name} differs from the reference's ${is.refModel.name} only in IS (${sig(is.model.params.IS!)} vs ${sig(is.refModel.params.IS!)}), read as an intended ratio of ${sig(is.ratio)}${geometry}, as an emitter-area ratio would be.`,
-          { device: o.device, ratio: total, isRatio: is.ratio, geometricRatio: o.ratio },
+          { device: o.device, ratio: total, isRatio: is.ratio, geometricRatio: geometric },
         );
         continue;
       }
@@ -756,12 +750,6 @@ class StructureCheck {
   }
 }
 
-function sameNumber(a: number | undefined, b: number | undefined): boolean {
-  if (a === b) return true;
-  if (a === undefined || b === undefined) return false;
-  if (!Number.isFinite(a) || !Number.isFinite(b)) return a === b;
-  return Math.abs(a - b) <= 1e-9 * Math.max(Math.abs(a), Math.abs(b));
-}
 
 /** Replaces non-finite numbers (not JSON-safe) by null and drops undefined fields. */
 function jsonSafe(data: Record<string, unknown>): Record<string, unknown> {

@@ -3,7 +3,8 @@
 import type { Circuit, Resistor } from '../circuit';
 import { KINDS } from './catalogue';
 import { Matcher, type Draft } from './match';
-import type { ReferenceBranch, Structure, StructureRole } from './types';
+import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from './types';
+import { isOnlyRatio } from './matching';
 import { nameTable } from '../names';
 
 /**
@@ -53,7 +54,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
     devices,
     roles,
     reference: { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [], ...(d.refDegeneration ? { degeneration: d.refDegeneration } : {}) },
-    outputs: d.outputs,
+    outputs: d.outputs.map((o) => withIsRatio(m, d, o)),
     ...(d.parts ? { parts: d.parts } : {}),
     ...(d.params ? { params: d.params } : {}),
     ...(d.voltages ? { voltages: d.voltages.map((v) => ({ ...v })) } : {}),
@@ -63,6 +64,18 @@ function toStructure(m: Matcher, d: Draft): Structure {
     outputResistance: {},
     corners: [],
   };
+}
+
+/**
+ * A bipolar output whose model differs from the reference device's only in IS is ratioed by that
+ * IS, as an emitter-area ratio would ratio it: the ratio is folded into the output's intended
+ * ratio (and kept as `isRatio`), so every kind's formula carries it.
+ */
+function withIsRatio(m: Matcher, d: Draft, o: StructureOutput): StructureOutput {
+  const t = m.topo.byName.get(o.device);
+  if (!t || t.element.kind !== 'Q' || d.reference.element.kind !== 'Q' || t === d.reference) return o;
+  const r = isOnlyRatio(t.element.model, d.reference.element.model);
+  return r === undefined ? o : { ...o, ratio: o.ratio * r, isRatio: r };
 }
 
 /**

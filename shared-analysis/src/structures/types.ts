@@ -70,8 +70,10 @@ export interface StructureOutput {
   device: string;
   /** Output node (collector/drain of the output device). */
   node: string;
-  /** Intended ratio IOUT/IREF from geometry (area, M=, W/L): 1 for a matched output. */
+  /** Intended ratio IOUT/IREF from geometry (area, M=, W/L), times `isRatio` when there is one: 1 for a matched output. */
   ratio: number;
+  /** IS(output)/IS(reference) when a bipolar output's model differs from the reference's only in IS: an intended ratio, folded into `ratio`. */
+  isRatio?: number;
   /** Widlar and degenerated-mirror outputs: the emitter (source) resistor between the output's emitter and the shared common node. */
   degeneration?: { resistor: string; ohms: number };
 }

@@ -32,6 +32,42 @@ kindTests({
       ],
     },
     {
+      // Source: the transport model (docs/DEVICE-MODELS.md) — at one VBE, IC scales with IS, so a model with 3×IS (and 2× area)
+      // is a 1:6 output; a PNP pair ratioed the same way. The estimate must carry it (within 10 % of the solve).
+      name: 'outputs ratioed by IS in their model (with area on top), NPN and PNP',
+      circuit: () =>
+        new CircuitBuilder()
+          .v('VCC', 'vcc', '0', 9)
+          .model('qa', 'npn', { IS: 1e-16, BF: 150 })
+          .model('qb', 'npn', { IS: 3e-16, BF: 150 })
+          .r('R1', 'vcc', 'ref', 47e3)
+          .q('Q1', 'ref', 'ref', '0', 'qa')
+          .q('Q2', 'o2', 'ref', '0', 'qb', { area: 2 })
+          .r('RL2', 'vcc', 'o2', 1e3)
+          .build(),
+      technology: 'npn',
+      reference: 'Q1',
+      devices: ['Q1', 'Q2'],
+      outputs: [{ device: 'Q2', ratio: 6 }],
+    },
+    {
+      name: 'a PNP output ratioed by IS',
+      circuit: () =>
+        new CircuitBuilder()
+          .v('VCC', 'vcc', '0', 9)
+          .model('pa', 'pnp', { IS: 1e-16, BF: 80 })
+          .model('pb', 'pnp', { IS: 4e-16, BF: 80 })
+          .r('R1', 'ref', '0', 47e3)
+          .q('Q1', 'ref', 'ref', 'vcc', 'pa')
+          .q('Q2', 'o2', 'ref', 'vcc', 'pb')
+          .r('RL2', 'o2', '0', 1e3)
+          .build(),
+      technology: 'pnp',
+      reference: 'Q1',
+      devices: ['Q1', 'Q2'],
+      outputs: [{ device: 'Q2', ratio: 4 }],
+    },
+    {
       name: 'a plain output beside a Widlar output keeps the simple mirror',
       circuit: () =>
         new CircuitBuilder()
