@@ -12,7 +12,7 @@ import { powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
-import { derivedVoltageLines, outputWords } from '../../shared-analysis/src/features/structure-words';
+import { derivedVoltageLines, outputWords, startupLine } from '../../shared-analysis/src/features/structure-words';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapeJsonText } from './escape';
@@ -534,6 +534,8 @@ export function textReport(r: FileResult): string {
     }
     for (const line of derivedVoltageLines(s)) out.push(`  ${line}`);
     for (const v of Object.values(s.variation?.voltages ?? {})) out.push(`              ${v.output} spread: ${spreadText(v)}`);
+    const startup = startupLine(s);
+    if (startup) out.push(`  ${startup}`);
     if (s.discrepancy) out.push(`  note: ${s.discrepancy}`);
     if (s.corners.length) {
       for (const o of s.outputs) {

@@ -24,7 +24,7 @@ import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';
 import { maxOf, minOf, pushAll } from '../arrays';
-import { derivedVoltageLines, outputWords } from './structure-words';
+import { derivedVoltageLines, outputWords, startupLine } from './structure-words';
 import { recordIsOff } from '../checks/devices/context';
 import { spreadText, variationOfElement } from '../variation/text';
 
@@ -319,6 +319,8 @@ function structureSection(s: Structure, device: string): string {
     }
   }
   pushAll(rows, derivedVoltageLines(s));
+  const startup = startupLine(s);
+  if (startup) rows.push(startup);
   if (rows.length) parts.push(bullet(rows));
   if (s.discrepancy) parts.push(`Why estimate and solve differ: ${s.discrepancy}`);
   return parts.join('\n\n');

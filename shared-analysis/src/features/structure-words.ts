@@ -56,3 +56,22 @@ export function outputWords(s: Pick<Structure, 'kind' | 'outputs'>, o: Structure
   const name = outputKindName(s, o.device);
   return Math.abs(o.ratio - 1) > 1e-9 ? `${name}, intended ratio 1:${formatNumber(o.ratio)}` : name;
 }
+
+/**
+ * What the start-up check found for a self-biased loop, in one sentence: that it can rest at zero
+ * current (at nominal or at which corners) and the state the solver chose, or the start-up path that
+ * excludes the dead state. Undefined for a structure that is not part of such a loop.
+ */
+export function startupLine(s: Structure): string | undefined {
+  const r = s.startup;
+  if (!r) return undefined;
+  const chosen = r.solvedCurrent !== undefined ? `; the solver settled at ${formatQuantity(r.solvedCurrent, 'A')} in ${s.reference.device}` : '';
+  if (r.zeroStateNominal) {
+    return `Start-up: the loop can rest at zero current at power-up${r.zeroStateCorners.length ? ` (also at ${r.zeroStateCorners.length} of the corners)` : ''}; no start-up path${chosen}.`;
+  }
+  const path = r.startupPath
+    ? `${r.startupPath.elements.join(', ')} ${r.startupPath.elements.length > 1 ? 'drive' : 'drives'} ${r.startupPath.node} to ${formatQuantity(r.startupPath.volts, 'V')} with the loop off, which turns on ${r.startupPath.turnsOn}`
+    : 'the rest of the circuit turns the loop on';
+  const corners = r.zeroStateCorners.length ? `, except at ${r.zeroStateCorners.join('; ')}, where it can rest at zero current` : '';
+  return `Start-up: ${path}, so the loop cannot stay off at power-up${corners}${chosen}.`;
+}

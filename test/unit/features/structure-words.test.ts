@@ -116,3 +116,30 @@ RL vcc out 1k
     expect(at('Q3')).toMatch(/this is its mirror output, intended ratio 1:2\./);
   });
 });
+
+describe('start-up in the hover', () => {
+  // An invented ΔVBE cell, with or without a start-up resistor into its reference node.
+  const cell = (startup: string) => `ΔVBE cell
+VCC vcc 0 5
+Q1 n1 n1 0 QN
+Q2 p n1 x QN 8
+R x 0 1k
+QP1 p p vcc QP
+QP2 n1 p vcc QP
+${startup}
+.model QN npn (BF=100)
+.model QP pnp (BF=50)
+.end
+`;
+  const hoverQ1 = (text: string) => hoverAt(analyseText(text), '/t/main.cir', text.indexOf('Q1 n1') + 1)!.markdown;
+
+  it('with a start-up resistor, says which element drives which node and that the loop cannot stay off', () => {
+    const md = hoverQ1(cell('RSU vcc n1 1meg'));
+    expect(md).toMatch(/Start-up: RSU drives n1 to [\d.]+ V with the loop off, which turns on Q1, so the loop cannot stay off at power-up; the solver settled at [\d.]+ µA in Q1\./);
+  });
+
+  it('without one, says the loop can rest at zero current and which state the solver chose', () => {
+    const md = hoverQ1(cell(''));
+    expect(md).toMatch(/Start-up: the loop can rest at zero current at power-up.*; no start-up path; the solver settled at [\d.]+ µA in Q1\./);
+  });
+});
