@@ -504,7 +504,10 @@ export function textReport(r: FileResult): string {
       .filter((o) => o.device !== s.reference.device)
       .map((o) => (typeof o.ratio === 'number' && o.ratio !== 1 ? `${o.device} (×${+o.ratio.toPrecision(4)})` : o.device))
       .join(', ');
-    const feed = s.reference.feed === 'resistor' && s.reference.rail
+    // A self-biased or regulated kind sets its current by its own equation, whatever sits on its reference node.
+    const feed = s.estimate?.irefFrom === 'own-equation'
+      ? `current set by its own equation${s.reference.elements.length ? ` through ${s.reference.elements.join(', ')}` : ''}`
+      : s.reference.feed === 'resistor' && s.reference.rail
       ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
       : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;
     out.push('');
