@@ -39,6 +39,48 @@ function circuitsOfEveryKind(): { name: string; circuit: Circuit }[] {
   out.push({ name: 'bandgap-core npn', circuit: selfBiasedLoop({ core: 'npn', startup: 2e6, bandgap: { r2: 10e3 } }).circuit });
   out.push({ name: 'vbe-multiplier npn', circuit: multiplier('npn') });
   out.push({ name: 'wide-swing-cascode nmos', circuit: wideSwing('nmos', { lambda: 0.02 }) });
+  // A zener-referenced NPN sink and a two-diode PNP source (invented values).
+  out.push({
+    name: 'diode-referenced-source npn (zener)',
+    circuit: new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 12)
+      .model('dz', 'd', { IS: 1e-14, BV: 5.6, IBV: 1e-3 })
+      .model('qn', 'npn', { BF: 150, VAF: 80 })
+      .r('RB', 'vcc', 'b', 4.7e3)
+      .d('DZ', '0', 'b', 'dz')
+      .q('Q1', 'out', 'b', 'e', 'qn')
+      .r('RE', 'e', '0', 2.2e3)
+      .r('RL', 'vcc', 'out', 1e3)
+      .build(),
+  });
+  out.push({
+    name: 'diode-referenced-source pnp (two diodes)',
+    circuit: new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 9)
+      .model('dn', 'd', { IS: 1e-14 })
+      .model('qp', 'pnp', { BF: 80, VAF: 60 })
+      .d('D1', 'vcc', 'm', 'dn')
+      .d('D2', 'm', 'b', 'dn')
+      .r('RB', 'b', '0', 10e3)
+      .q('Q1', 'out', 'b', 'e', 'qp')
+      .r('RE', 'vcc', 'e', 680)
+      .r('RL', 'out', '0', 2.2e3)
+      .build(),
+  });
+  // An NPN sink held by a high-gain amplifier across a 100 Ω sense resistor.
+  out.push({
+    name: 'regulated-source npn',
+    circuit: new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 12)
+      .model('qn', 'npn', { BF: 150, VAF: 80 })
+      .r('R1', 'vcc', 'ref', 10e3)
+      .r('R2', 'ref', '0', 1e3)
+      .e('EAMP', 'b', '0', 'ref', 's', 1e5)
+      .q('Q1', 'out', 'b', 's', 'qn')
+      .r('RS', 's', '0', 100)
+      .r('RL', 'vcc', 'out', 470)
+      .build(),
+  });
   return out;
 }
 
