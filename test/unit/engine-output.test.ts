@@ -141,9 +141,9 @@ describe('cases the fuzz target found', () => {
     expect(a.findings.some((f) => f.code === 'value-not-finite')).toBe(false);
   });
 
-  it('keeps a blank after a sized value written against the next field', () => {
-    // `{rset}M=1` is a value and a parameter; writing 24k in place of {rset} must not make `24kM=1` one field.
-    const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref {rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';
+  it('keeps a blank on each side of a sized value written against its neighbours', () => {
+    // `ref{rset}M=1` is a node, a value and a parameter; writing 24k in place of {rset} must not make `ref24kM=1` one field.
+    const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref{rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';
     const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
     const missed = s.analysis.findings.find((f) => f.code === 'target-missed');
     expect(missed).toBeDefined();

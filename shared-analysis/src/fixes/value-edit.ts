@@ -48,10 +48,13 @@ const identifierIn = (name: string) => new RegExp(`(^|[^A-Za-z0-9_.])${name.repl
 export function resistorValueChange(r: Resistor, documents: Record<string, ParsedDocument>, ohms: number): ValueChange | undefined {
   const change = valueChange(r, documents, ohms);
   if (!change) return undefined;
-  // A value written against the next field (`{rset}M=2`) keeps a blank after it, or `24kM=2` would read as one field.
+  // A value written against its neighbours (`vee{rset}M=2`) keeps a blank on each side, or `vee24kM=2` would read as one field.
   for (const e of change.edits) {
-    const next = documents[e.uri]?.text.charAt(e.span.end) ?? '';
+    const text = documents[e.uri]?.text ?? '';
+    const next = text.charAt(e.span.end);
+    const before = e.span.start > 0 ? text.charAt(e.span.start - 1) : '';
     if (next !== '' && !/\s/.test(next)) e.newText += ' ';
+    if (before !== '' && !/[\s=(]/.test(before)) e.newText = ' ' + e.newText;
   }
   return change;
 }
