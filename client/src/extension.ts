@@ -10,6 +10,8 @@ import {
   OUTPUT_CHARACTERISTIC_REQUEST,
   REANALYSE_COMMAND,
   SIZE_RESISTOR_REQUEST,
+  SIZE_COMMAND,
+  CLIENT_COMMANDS_OPTION,
   type ListOutputsParams,
   type ListOutputsResult,
   type MonteCarloParams,
@@ -56,12 +58,13 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
     synchronize: { configurationSection: 'qpoint', fileEvents: watcher },
     outputChannel: output,
     // In an untrusted workspace the server reads no included file from disk (see capabilities.untrustedWorkspaces).
-    initializationOptions: () => ({ workspaceTrusted: vscode.workspace.isTrusted }),
+    // The sizing refactor runs this extension's own command, which asks for the current in an input box.
+    initializationOptions: () => ({ workspaceTrusted: vscode.workspace.isTrusted, [CLIENT_COMMANDS_OPTION]: [SIZE_COMMAND] }),
   };
   client = new LanguageClient('qpoint', 'qpoint', serverOptions, clientOptions);
 
   context.subscriptions.push(
-    vscode.commands.registerCommand('qpoint.sizeResistorForCurrent', (args?: unknown) => sizeResistorCommand(args)),
+    vscode.commands.registerCommand(SIZE_COMMAND, (args?: unknown) => sizeResistorCommand(args)),
     vscode.commands.registerCommand('qpoint.plotOutputCharacteristic', (args?: unknown) => plotCommand(args)),
     vscode.commands.registerCommand('qpoint.reanalyse', () => reanalyseCommand()),
     vscode.commands.registerCommand('qpoint.runMonteCarlo', () => monteCarloCommand(output)),

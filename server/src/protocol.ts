@@ -2,8 +2,37 @@
 
 /** The server command that re-reads included files from disk and re-analyses every open netlist (the client's re-analyse command sends it). */
 export const REANALYSE_COMMAND = 'qpoint.server.reanalyse';
-/** The client-side command the server's size refactor runs (declared in package.json; it asks for the target first). */
+/** The client-side command the server's size refactor runs for a client that has it (the VS Code extension; it asks for the target first). */
 export const SIZE_COMMAND = 'qpoint.sizeResistorForCurrent';
+/**
+ * The server-side sizing command, for any client: it asks for the target current with
+ * `window/showMessageRequest` (or takes it as an argument) and writes the value with `workspace/applyEdit`.
+ */
+export const SIZE_SERVER_COMMAND = 'qpoint.server.sizeResistor';
+
+/** The one argument of SIZE_SERVER_COMMAND. */
+export interface SizeCommandArgs {
+  uri: string;
+  /** Resistor name (hierarchical, or a card name inside a subcircuit used once). */
+  resistor: string;
+  /** Target current text (`250u`, `1.2mA`); asked for when absent. */
+  target?: string;
+  /** The standard value to write (`4.3k`, one of the candidates); the nearest candidate when absent and the client cannot be asked. */
+  value?: string;
+}
+
+/** What SIZE_SERVER_COMMAND answers. */
+export interface SizeCommandResult {
+  /** True when the client applied the edit. */
+  applied: boolean;
+  /** The value written. */
+  value?: string;
+  /** A sentence saying what was done, or why nothing was (also shown with window/showMessage). */
+  message: string;
+}
+
+/** `initializationOptions.clientCommands`: commands the client runs itself; a client listing SIZE_COMMAND gets it in the sizing refactor. */
+export const CLIENT_COMMANDS_OPTION = 'clientCommands';
 
 /** `qpoint/outputCharacteristic`: sweep one mirror output's node voltage and return its current. */
 export const OUTPUT_CHARACTERISTIC_REQUEST = 'qpoint/outputCharacteristic';

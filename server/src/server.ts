@@ -12,11 +12,14 @@ import {
   ErrorCodes,
   FileChangeType,
   LSPErrorCodes,
+  MessageType,
   ProposedFeatures,
   ResponseError,
   TextDocuments,
   TextDocumentSyncKind,
   type CodeActionParams,
+  type ExecuteCommandParams,
+  ShowMessageNotification,
   type Connection,
   type Diagnostic,
   type InitializeParams,
@@ -44,6 +47,10 @@ import {
   SIZE_RESISTOR_REQUEST,
   SIZE_COMMAND,
   type InactiveTextParams,
+  SIZE_SERVER_COMMAND,
+  CLIENT_COMMANDS_OPTION,
+  type SizeCommandArgs,
+  type SizeCommandResult,
   type ListOutputsParams,
   type ListOutputsResult,
   type MonteCarloParams,
@@ -75,6 +82,8 @@ import { FrameError, StrictStreamReader } from './strict-reader';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
+import { seriesValues } from '../../shared-analysis/src/fixes/e-series';
+import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import { attachVariation } from '../../shared-analysis/src/variation/index';
 
@@ -134,6 +143,12 @@ let clientSection: unknown;
 let canPullConfiguration = false;
 let canRefreshInlays = false;
 let canReportProgress = false;
+/** The client applies workspace edits the server sends (workspace/applyEdit). */
+let canApplyEdit = false;
+/** The client answers window/showMessageRequest with the action the user picked. */
+let canAskUser = false;
+/** The client runs SIZE_COMMAND itself (it says so in initializationOptions.clientCommands): the sizing refactor runs that. */
+let clientSizes = false;
 const converters = new Converters();
 const cache = new Map<string, CacheEntry>();
 const published = new Set<string>();
@@ -543,6 +558,8 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
   canPullConfiguration = !!caps.workspace?.configuration;
   canRefreshInlays = !!caps.workspace?.inlayHint?.refreshSupport;
   canReportProgress = !!caps.window?.workDoneProgress;
+  canApplyEdit = !!caps.workspace?.applyEdit;
+  canAskUser = !!caps.window?.showMessage;
   const init = params.initializationOptions as { workspaceTrusted?: unknown } | undefined;
   const fromInit = sectionOfInitializationOptions(init);
   for (const p of fromInit.problems) log(p);
@@ -551,6 +568,8 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
   settings = s;
   for (const p of problems) log(`${p} (from initializationOptions)`);
   workspaceTrusted = !(init && typeof init === 'object' && init.workspaceTrusted === false);
+  const clientCommands = init && typeof init === 'object' ? (init as Record<string, unknown>)[CLIENT_COMMANDS_OPTION] : undefined;
+  clientSizes = Array.isArray(clientCommands) && clientCommands.includes(SIZE_COMMAND);
   workspaceRoots = folderPaths(params);
   if (!workspaceTrusted) log('The workspace is not trusted: only open documents are analysed; no included file is read from disk.');
   sendReadPolicy();
@@ -566,8 +585,8 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
       renameProvider: { prepareProvider: true },
       completionProvider: { triggerCharacters: ['.', '{', ' ', '='], resolveProvider: false },
       codeActionProvider: { codeActionKinds: [CodeActionKind.QuickFix, CodeActionKind.Refactor] },
-      // Only server-side commands belong here; SIZE_COMMAND runs in the client (it asks for the target first).
-      executeCommandProvider: { commands: [REANALYSE_COMMAND] },
+      // Only server-side commands belong here; SIZE_COMMAND runs in a client that has it (it asks for the target first).
+      executeCommandProvider: { commands: [REANALYSE_COMMAND, SIZE_SERVER_COMMAND] },
     },
     serverInfo: { name: 'qpoint-language-server', version: '0.1.0' },
   };
@@ -804,7 +823,9 @@ connection.onCodeAction(
         if (a) actions.push(a);
       }
     }
-    // A refactor on every resistor line in the range: pick a standard value for a target current.
+    // A refactor on every resistor line in the range: pick a standard value for a target current,
+    // offered only to a client that can run it (its own command, or the server's with a question and an edit).
+    if (!clientSizes && !(canApplyEdit && canAskUser)) return actions;
     const doc = ctx.analysis.documents[uri];
     const span = ctx.conv.toSpan(params.range);
     const seen = new Set<number>();
@@ -827,7 +848,8 @@ connection.onCodeAction(
           const title = feeds
             ? `Size ${card.name.text} for a target output current of ${feeds.outputs.map((o) => o.device).join(', ') || feeds.reference.device}…`
             : `Size ${card.name.text} for a target current…`;
-          const action = CodeAction.create(title, Command.create(title, SIZE_COMMAND, { uri, resistor }), CodeActionKind.Refactor);
+          const args: SizeCommandArgs = { uri, resistor };
+          const action = CodeAction.create(title, Command.create(title, clientSizes ? SIZE_COMMAND : SIZE_SERVER_COMMAND, args), CodeActionKind.Refactor);
           actions.push(action);
         }
       }
@@ -838,10 +860,11 @@ connection.onCodeAction(
 );
 
 connection.onExecuteCommand(
-  guard('execute command', (params) => {
+  guard<ExecuteCommandParams, SizeCommandResult | { netlists: number }>('execute command', (params) => {
     const command = params?.command;
+    if (command === SIZE_SERVER_COMMAND) return runSizeCommand(Array.isArray(params.arguments) ? params.arguments[0] : undefined);
     if (command !== REANALYSE_COMMAND) {
-      throw new ResponseError(ErrorCodes.InvalidParams, `qpoint's server has no command ${JSON.stringify(command)}; it runs only ${REANALYSE_COMMAND}.`);
+      throw new ResponseError(ErrorCodes.InvalidParams, `qpoint's server has no command ${JSON.stringify(command)}; it runs only ${REANALYSE_COMMAND} and ${SIZE_SERVER_COMMAND}.`);
     }
     return reanalyseAll();
   }),
@@ -913,25 +936,120 @@ connection.onRequest(
     if (typeof params?.uri !== 'string' || typeof params.resistor !== 'string' || typeof params.target !== 'string') {
       throw new ResponseError(ErrorCodes.InvalidParams, 'The size-resistor request needs a document uri, a resistor name and a target current text.');
     }
-    const entry = holderOf(params.uri);
-    if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${params.uri} has not been analysed (is it open?).`);
-    const root = [...cache].find(([, e]) => e === entry)![0];
-    const r = await host.sizeResistor(root, params.resistor, params.target, encoding);
-    if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
-    return {
-      ideal: r.ideal,
-      candidates: r.candidates.map((c) => {
-        const version = c.edit.uri === root ? r.version : undefined;
-        const open = documents.get(c.edit.uri);
-        const edit =
-          open && version !== undefined
-            ? { documentChanges: [{ textDocument: { uri: c.edit.uri, version }, edits: [{ range: c.range, newText: c.edit.newText }] }] }
-            : { changes: { [c.edit.uri]: [{ range: c.range, newText: c.edit.newText }] } };
-        return { label: c.label, valueText: c.valueText, current: c.current, error: c.error, edit };
-      }),
-    };
+    return sizingCandidates(params.uri, params.resistor, params.target);
   }),
 );
+
+/** Standard-value candidates for `resistor` of `uri` and a target current, each with the WorkspaceEdit that writes it. */
+async function sizingCandidates(uri: string, resistor: string, target: string): Promise<SizeResistorResult> {
+  const entry = holderOf(uri);
+  if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${uri} has not been analysed (is it open?).`);
+  const root = [...cache].find(([, e]) => e === entry)![0];
+  const r = await host.sizeResistor(root, resistor, target, encoding);
+  if ('error' in r) throw new ResponseError(LSPErrorCodes.RequestFailed, r.error);
+  return {
+    ideal: r.ideal,
+    candidates: r.candidates.map((c) => {
+      const version = c.edit.uri === root ? r.version : undefined;
+      const open = documents.get(c.edit.uri);
+      const edit =
+        open && version !== undefined
+          ? { documentChanges: [{ textDocument: { uri: c.edit.uri, version }, edits: [{ range: c.range, newText: c.edit.newText }] }] }
+          : { changes: { [c.edit.uri]: [{ range: c.range, newText: c.edit.newText }] } };
+      return { label: c.label, valueText: c.valueText, current: c.current, error: c.error, edit };
+    }),
+  };
+}
+
+/** The element whose current a resistor sets (as the sizing does: a degenerated output, a structure's first output, else itself) and that current now. */
+function presentCurrent(analysis: Analysis, resistor: string): { device: string; amps: number | undefined } {
+  const lower = resistor.toLowerCase();
+  const s = structureOfResistor(analysis.structures, resistor);
+  const device = s?.outputs.find((o) => o.degeneration?.resistor.toLowerCase() === lower)?.device ?? s?.outputs[0]?.device ?? resistor;
+  const devices = analysis.operatingPoint?.devices ?? {};
+  const key = Object.keys(devices).find((k) => k.toLowerCase() === device.toLowerCase());
+  const rec = key === undefined ? undefined : devices[key];
+  const v = !rec ? undefined : rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  return { device: key ?? device, amps: v !== undefined && Number.isFinite(v) && v !== 0 ? Math.abs(v) : undefined };
+}
+
+/** Round targets to offer around a present current: the E12 values within a factor of two either side (IEC 60063). */
+function targetChoices(amps: number): number[] {
+  const out: number[] = [];
+  const decade = Math.floor(Math.log10(amps));
+  for (let d = decade - 1; d <= decade + 1; d++) {
+    for (const m of seriesValues('E12')) {
+      const v = Number((m * 10 ** d).toPrecision(3));
+      if (v >= amps / 2 && v <= amps * 2) out.push(v);
+    }
+  }
+  return out;
+}
+
+/**
+ * `qpoint.server.sizeResistor`: asks for the target current (window/showMessageRequest) unless
+ * the argument gives it, sizes the resistor in the worker, asks which standard value to write
+ * (or takes the argument's, or the nearest when the client cannot be asked), and writes it with
+ * workspace/applyEdit. Cancelling either question changes nothing.
+ */
+async function runSizeCommand(arg: unknown): Promise<SizeCommandResult> {
+  const a = (arg && typeof arg === 'object' ? arg : {}) as Partial<Record<keyof SizeCommandArgs, unknown>>;
+  if (typeof a.uri !== 'string' || typeof a.resistor !== 'string') {
+    throw new ResponseError(ErrorCodes.InvalidParams, `The ${SIZE_SERVER_COMMAND} command needs one argument { uri, resistor, target?, value? }.`);
+  }
+  const { uri, resistor } = a as { uri: string; resistor: string };
+  if (!canApplyEdit) {
+    throw new ResponseError(ErrorCodes.InvalidRequest, `This client cannot apply edits the server sends (workspace/applyEdit), so ${SIZE_SERVER_COMMAND} cannot write a value; send the qpoint/sizeResistor request and apply one of its edits instead.`);
+  }
+  const entry = holderOf(uri);
+  if (!entry) throw new ResponseError(ErrorCodes.InvalidRequest, `${uri} has not been analysed (is it open?).`);
+  let target = typeof a.target === 'string' && a.target.trim() !== '' ? a.target.trim() : undefined;
+  if (target === undefined) {
+    if (!canAskUser) {
+      throw new ResponseError(ErrorCodes.InvalidParams, `This client cannot be asked for the target current (window/showMessageRequest); give it as the argument's target, e.g. "250u".`);
+    }
+    const { device, amps } = presentCurrent(entry.analysis, resistor);
+    if (amps === undefined) {
+      throw new ResponseError(LSPErrorCodes.RequestFailed, `${device} has no solved current to choose a target around; give the target as the argument's target, e.g. "250u".`);
+    }
+    const choices = targetChoices(amps).map((v) => ({ title: formatEngineering(v, { unit: 'A' }), text: formatEngineering(v, { style: 'netlist' }) }));
+    const picked = await connection.window.showInformationMessage(
+      `Size ${resistor} for which current of ${device}? It carries ${formatEngineering(amps, { unit: 'A' })} now.`,
+      ...choices.map((c) => ({ title: c.title })),
+    );
+    const choice = picked && choices.find((c) => c.title === picked.title);
+    if (!choice) return { applied: false, message: `Sizing ${resistor} was cancelled; nothing was changed.` };
+    target = choice.text;
+  }
+  const sized = await sizingCandidates(uri, resistor, target);
+  const candidates = [...sized.candidates].sort((x, y) => Math.abs(x.error) - Math.abs(y.error));
+  if (candidates.length === 0) return tell(false, `No standard value of ${resistor} gives ${target}; nothing was changed.`);
+  let chosen = candidates[0]!;
+  if (typeof a.value === 'string') {
+    const want = a.value.trim().toLowerCase();
+    const found = candidates.find((c) => c.valueText.toLowerCase() === want);
+    if (!found) throw new ResponseError(ErrorCodes.InvalidParams, `${a.value} is not a candidate for ${resistor} at ${target}; the candidates are ${candidates.map((c) => c.valueText).join(', ')}.`);
+    chosen = found;
+  } else if (canAskUser) {
+    const titled = candidates.map((c) => ({ title: `${c.valueText} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)}`, c }));
+    const exact = Number.isFinite(sized.ideal) && sized.ideal > 0 ? ` (exactly ${formatEngineering(sized.ideal, { unit: 'Ω' })} meets the target)` : '';
+    const picked = await connection.window.showInformationMessage(`Which standard value should ${resistor} take${exact}?`, ...titled.map((t) => ({ title: t.title })));
+    const t = picked && titled.find((x) => x.title === picked.title);
+    if (!t) return { applied: false, message: `Sizing ${resistor} was cancelled; nothing was changed.` };
+    chosen = t.c;
+  }
+  const result = await connection.workspace.applyEdit({ label: `Set ${resistor} to ${chosen.valueText}`, edit: chosen.edit as never });
+  if (!result.applied) {
+    return tell(false, `The editor did not apply the edit that sets ${resistor} to ${chosen.valueText}${result.failureReason ? ` (${result.failureReason})` : ''}; the file may have changed since.`, chosen.valueText);
+  }
+  return tell(true, `Set ${resistor} to ${chosen.label}.`, chosen.valueText);
+}
+
+/** The command's answer, also shown to the user (a client may drop a command's result). */
+function tell(applied: boolean, message: string, value?: string): SizeCommandResult {
+  void connection.sendNotification(ShowMessageNotification.type, { type: applied ? MessageType.Info : MessageType.Warning, message });
+  return { applied, ...(value !== undefined ? { value } : {}), message };
+}
 
 documents.listen(connection);
 connection.listen();
