@@ -20,6 +20,7 @@ import {
   type CodeActionParams,
   type ExecuteCommandParams,
   ShowMessageNotification,
+  ShowMessageRequest,
   type Connection,
   type Diagnostic,
   type InitializeParams,
@@ -1013,11 +1014,8 @@ async function runSizeCommand(arg: unknown): Promise<SizeCommandResult> {
       throw new ResponseError(LSPErrorCodes.RequestFailed, `${device} has no solved current to choose a target around; give the target as the argument's target, e.g. "250u".`);
     }
     const choices = targetChoices(amps).map((v) => ({ title: formatEngineering(v, { unit: 'A' }), text: formatEngineering(v, { style: 'netlist' }) }));
-    const picked = await connection.window.showInformationMessage(
-      `Size ${resistor} for which current of ${device}? It carries ${formatEngineering(amps, { unit: 'A' })} now.`,
-      ...choices.map((c) => ({ title: c.title })),
-    );
-    const choice = picked && choices.find((c) => c.title === picked.title);
+    const picked = await ask(`Size ${resistor} for which current of ${device}? It carries ${formatEngineering(amps, { unit: 'A' })} now.`, choices.map((c) => c.title));
+    const choice = choices.find((c) => c.title === picked);
     if (!choice) return { applied: false, message: `Sizing ${resistor} was cancelled; nothing was changed.` };
     target = choice.text;
   }
@@ -1033,8 +1031,8 @@ async function runSizeCommand(arg: unknown): Promise<SizeCommandResult> {
   } else if (canAskUser) {
     const titled = candidates.map((c) => ({ title: `${c.valueText} → ${formatEngineering(c.current, { unit: 'A' })}, ${formatPercent(c.error)}`, c }));
     const exact = Number.isFinite(sized.ideal) && sized.ideal > 0 ? ` (exactly ${formatEngineering(sized.ideal, { unit: 'Ω' })} meets the target)` : '';
-    const picked = await connection.window.showInformationMessage(`Which standard value should ${resistor} take${exact}?`, ...titled.map((t) => ({ title: t.title })));
-    const t = picked && titled.find((x) => x.title === picked.title);
+    const picked = await ask(`Which standard value should ${resistor} take${exact}?`, titled.map((t) => t.title));
+    const t = titled.find((x) => x.title === picked);
     if (!t) return { applied: false, message: `Sizing ${resistor} was cancelled; nothing was changed.` };
     chosen = t.c;
   }
@@ -1043,6 +1041,12 @@ async function runSizeCommand(arg: unknown): Promise<SizeCommandResult> {
     return tell(false, `The editor did not apply the edit that sets ${resistor} to ${chosen.valueText}${result.failureReason ? ` (${result.failureReason})` : ''}; the file may have changed since.`, chosen.valueText);
   }
   return tell(true, `Set ${resistor} to ${chosen.label}.`, chosen.valueText);
+}
+
+/** Asks the user with window/showMessageRequest; the title of the action picked, or undefined when the question was dismissed. */
+async function ask(message: string, titles: string[]): Promise<string | undefined> {
+  const picked = await connection.sendRequest(ShowMessageRequest.type, { type: MessageType.Info, message, actions: titles.map((title) => ({ title })) });
+  return picked && typeof picked.title === 'string' ? picked.title : undefined;
 }
 
 /** The command's answer, also shown to the user (a client may drop a command's result). */
