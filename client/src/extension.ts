@@ -24,6 +24,7 @@ import {
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
 import { readTargetCurrent } from './current-input';
 import { parseRunsAndSeed } from './monte-carlo-input';
+import { isUnclaimedNetFile, readsAsSpiceNetlist } from './net-sniff';
 import { renderPanelHtml } from './panel';
 import { elementAtLine, isResistorName, outputsMatching } from './targets';
 import { INACTIVE_OPACITY, InactiveText } from './inactive';
@@ -36,6 +37,9 @@ const REQUEST_TIMEOUT_MS = 60_000;
 let client: LanguageClient | undefined;
 /** Settles when the first start of the server has finished (successfully or not). */
 let firstStart: Promise<void> = Promise.resolve();
+let started = false;
+/** Starts the server if it has not been started (a command may run before any netlist is open). */
+let startServer: () => Promise<void> = () => Promise.resolve();
 const panels = new Map<string, vscode.WebviewPanel>();
 
 /** Starts the language server and registers the commands. */
@@ -91,18 +95,33 @@ export async function activate(context: vscode.ExtensionContext): Promise<void> 
   context.subscriptions.push(
     vscode.workspace.onDidGrantWorkspaceTrust(() => {
       const c = client;
-      if (c) {
+      if (c && started) {
         void c.restart().catch((e: unknown) => output.error(`qpoint could not restart its language server: ${errorText(e)}`));
       }
     }),
   );
 
-  firstStart = client.start().catch((e: unknown) => {
-    const message = `qpoint could not start its language server (${serverModule}): ${errorText(e)}`;
-    output.error(message);
-    void vscode.window.showErrorMessage(message);
-  });
-  await firstStart;
+  // `.net` is also what PCB tools write: such a file opens as plain text, and becomes a netlist only when its
+  // first cards read as one. The server starts with the first netlist, so other plain-text files cost nothing.
+  const c = client;
+  const startOnce = (): Promise<void> => {
+    if (!started) {
+      started = true;
+      firstStart = c.start().catch((e: unknown) => {
+        const message = `qpoint could not start its language server (${serverModule}): ${errorText(e)}`;
+        output.error(message);
+        void vscode.window.showErrorMessage(message);
+      });
+    }
+    return firstStart;
+  };
+  startServer = startOnce;
+  const consider = (doc: vscode.TextDocument): void => {
+    if (doc.languageId === 'netlist') void startOnce();
+    else if (isUnclaimedNetFile(doc) && readsAsSpiceNetlist(doc.getText())) void vscode.languages.setTextDocumentLanguage(doc, 'netlist');
+  };
+  context.subscriptions.push(vscode.workspace.onDidOpenTextDocument(consider));
+  for (const doc of vscode.workspace.textDocuments) consider(doc);
 }
 
 /** Stops the language server. */
@@ -120,7 +139,7 @@ function errorText(e: unknown): string {
 
 /** The running client (waiting a bounded time for a start in progress), or undefined after telling the user why there is none. */
 async function runningClient(): Promise<LanguageClient | undefined> {
-  await Promise.race([firstStart, new Promise((resolve) => setTimeout(resolve, 30_000))]);
+  await Promise.race([startServer(), new Promise((resolve) => setTimeout(resolve, 30_000))]);
   if (client && client.isRunning()) return client;
   void vscode.window.showErrorMessage('The qpoint language server is not running; open a netlist or run "qpoint: Re-analyse open netlists" to start it, and see the "qpoint" output for the reason.');
   return undefined;
@@ -382,6 +401,7 @@ async function reanalyseCommand(): Promise<void> {
   }
   try {
     if (c.isRunning()) await c.restart();
+    else if (!started) await startServer();
     else await c.start();
     vscode.window.setStatusBarMessage('qpoint: language server restarted', 3000);
   } catch (e) {

@@ -280,6 +280,12 @@ async function main() {
   writeFileSync(join(workspace, CORNER_FILE), CORNER_TEXT);
   const demoFile = join(workspace, DEMO);
   const demoText = readFileSync(demoFile, 'utf8');
+  // Two .net files: a SPICE-style netlist (claimed) and another tool's s-expression netlist (left alone); both invented here.
+  const NET_FILES = {
+    'bias-cell.net': 'Bias cell saved with a .net name\nVCC vcc 0 DC 5\nR1 vcc b 4.3k\nQ1 b b 0 qn\nQ2 out b 0 qn\nRL vcc out 2k\n.model qn npn (IS=1e-16 BF=100)\n.end\n',
+    'board-wiring.net': '(board-netlist (format 2)\n  (parts (part (ref R1) (value 10k)))\n  (nets (net GND (pin R1 2))))\n',
+  };
+  for (const [name, text] of Object.entries(NET_FILES)) writeFileSync(join(workspace, name), text);
   let currentText = demoText;
   const configFile = join(work, 'code-server.yaml');
   writeFileSync(configFile, 'auth: none\ncert: false\n');
@@ -663,6 +669,29 @@ async function main() {
       await screenshot(page, 'inactive-branch');
       if (taken === null || taken < 0.99) throw new Error(`the taken branch (R2 mid 0 10k) is drawn with opacity ${taken}`);
       return `untaken branch opacity ${faded}, taken branch ${taken}`;
+    });
+
+    await check('a .net file is a netlist only when its first cards read as one', async () => {
+      await page.keyboard.press('Escape');
+      const modes = {};
+      for (const [name, text] of Object.entries(NET_FILES)) {
+        const firstLine = text.split('\n')[0];
+        await until(async () => {
+          await page.keyboard.press('Control+P');
+          const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 5 * SECOND });
+          await input.fill(name);
+          await sleep(600);
+          await page.keyboard.press('Enter');
+          return until(async () => (await editorLines(page)).some((l) => l.includes(firstLine.slice(0, 24))), { timeoutMs: 8 * SECOND, message: 'not shown' }).catch(() => false);
+        }, { timeoutMs: 40 * SECOND, intervalMs: 500, message: `${name} did not open` });
+        const want = name === 'bias-cell.net' ? /netlist/i : /plain text/i;
+        modes[name] = await until(async () => page.evaluate((source) => {
+          const items = [...document.querySelectorAll('.statusbar-item')].map((e) => (e.textContent ?? '').trim());
+          return items.find((t) => new RegExp(source, 'i').test(t));
+        }, want.source), { timeoutMs: 20 * SECOND, message: `the status bar does not show ${want} for ${name}` });
+      }
+      await screenshot(page, 'net-file-left-alone');
+      return Object.entries(modes).map(([n, m]) => `${n}: "${m}"`).join(', ');
     });
 
     await check('the page raised no uncaught script errors from the extension', async () => {
