@@ -39,6 +39,7 @@ import { inlayHints } from '../../shared-analysis/src/features/inlay';
 import { definitionAt, prepareRename, referencesAt, renameAt } from '../../shared-analysis/src/features/navigation';
 import { documentSymbols } from '../../shared-analysis/src/features/symbols';
 import { LineIndex, type PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
+import { parse } from '../../shared-analysis/src/syntax/parser';
 import {
   INACTIVE_TEXT_NOTIFICATION,
   LIST_OUTPUTS_REQUEST,
@@ -100,6 +101,8 @@ const HARD_DEADLINE_MS = 120_000;
  * and the late answer is kept for the next request on the same analysis.
  */
 const SIZING_WAIT_MS = 800;
+/** Completion parses the live text of a document up to this size (characters); a bigger one is read from its last analysis. */
+const LIVE_PARSE_LIMIT = 250_000;
 
 /** One open editor document, its text kept in sync by incremental changes in the negotiated encoding. */
 class OpenDocument {
@@ -144,6 +147,8 @@ let clientSection: unknown;
 let canPullConfiguration = false;
 let canRefreshInlays = false;
 let canReportProgress = false;
+/** The client takes snippets in completion items (placeholders in element and model templates). */
+let canSnippet = false;
 /** The client applies workspace edits the server sends (workspace/applyEdit). */
 let canApplyEdit = false;
 /** The client answers window/showMessageRequest with the action the user picked. */
@@ -560,6 +565,7 @@ connection.onInitialize((params: InitializeParams): InitializeResult => {
   canRefreshInlays = !!caps.workspace?.inlayHint?.refreshSupport;
   canReportProgress = !!caps.window?.workDoneProgress;
   canApplyEdit = !!caps.workspace?.applyEdit;
+  canSnippet = !!caps.textDocument?.completion?.completionItem?.snippetSupport;
   canAskUser = !!caps.window?.showMessage;
   const init = params.initializationOptions as { workspaceTrusted?: unknown } | undefined;
   const fromInit = sectionOfInitializationOptions(init);
@@ -750,13 +756,16 @@ connection.onCompletion(
     if (!ctx) return [];
     const uri = params.textDocument.uri;
     const doc = documents.get(uri);
-    // Completion follows the live text: the cached analysis supplies names, the current line supplies context.
-    if (doc && ctx.analysis.documents[uri] && doc.text !== ctx.analysis.documents[uri].text) {
-      const live = { ...ctx.analysis, documents: { ...ctx.analysis.documents, [uri]: { ...ctx.analysis.documents[uri], text: doc.text, cards: [] } } };
+    // Completion follows the live text: the cached analysis supplies models, subcircuits and parameters; the live
+    // text, parsed again, supplies the context and the node names (so a node typed since the analysis is offered).
+    const analysed = ctx.analysis.documents[uri];
+    if (doc && analysed && doc.text !== analysed.text) {
+      const cards = doc.text.length <= LIVE_PARSE_LIMIT ? parse(uri, doc.text, { hasTitle: analysed.cards[0]?.kind === 'title' }).cards : [];
+      const live = { ...ctx.analysis, documents: { ...ctx.analysis.documents, [uri]: { ...analysed, text: doc.text, cards } } };
       const conv = converters.get(`${uri}#live`, doc.text);
-      return completionsAt(live, uri, conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, conv));
+      return completionsAt(live, uri, conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, conv, canSnippet));
     }
-    return completionsAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, ctx.conv));
+    return completionsAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, ctx.conv, canSnippet));
   }),
 );
 

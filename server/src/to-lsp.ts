@@ -5,6 +5,7 @@ import {
   CodeActionKind,
   CompletionItem,
   CompletionItemKind,
+  InsertTextFormat,
   Diagnostic,
   DiagnosticRelatedInformation,
   DiagnosticSeverity,
@@ -191,11 +192,16 @@ const COMPLETION_KIND: Record<CompletionData['kind'], CompletionItemKind> = {
   parameter: CompletionItemKind.Constant,
 };
 
-export function toCompletionItem(c: CompletionData, conv: PositionConverter): CompletionItem {
+/** An LSP completion item; a template goes in as a snippet when the client takes snippets, else as plain text with its defaults. */
+export function toCompletionItem(c: CompletionData, conv: PositionConverter, snippets = false): CompletionItem {
   const item = CompletionItem.create(c.label);
   item.kind = COMPLETION_KIND[c.kind];
   item.detail = c.detail;
   if (c.documentation) item.documentation = { kind: MarkupKind.PlainText, value: c.documentation };
-  item.textEdit = { range: conv.toRange(c.replace), newText: c.insertText ?? c.label };
+  if (c.sortText) item.sortText = c.sortText;
+  if (c.snippet && snippets) {
+    item.insertTextFormat = InsertTextFormat.Snippet;
+    item.textEdit = { range: conv.toRange(c.replace), newText: c.snippet };
+  } else item.textEdit = { range: conv.toRange(c.replace), newText: c.insertText ?? c.label };
   return item;
 }

@@ -7,6 +7,7 @@ import type { Span } from '../types';
 import { cardAt, scopeAt, type SubcktScope } from './document-index';
 import { DOT_CARDS, ELEMENT_LETTERS, INSTANCE_PARAMETERS, MODEL_PARAMETERS, defaultOf, modelKindOf, modelKindsFor } from './vocabulary';
 import { formatNumber } from './quantity';
+import { formatNumber as modelNumber } from '../fixes/model-fixes';
 
 /** What a completion item stands for. */
 export type CompletionKind = 'element' | 'dot-card' | 'model' | 'model-type' | 'model-parameter' | 'instance-parameter' | 'subcircuit' | 'node' | 'parameter';
@@ -17,12 +18,23 @@ export interface CompletionData {
   kind: CompletionKind;
   detail: string;
   documentation?: string;
+  /** Plain text to insert (default: the label); for a template, the template with its placeholders' defaults. */
   insertText?: string;
+  /** The same template in LSP snippet syntax (`${1:collector}`), for a client that takes snippets. */
+  snippet?: string;
+  /** Where the item sorts among the others: the order they are offered in (most likely first). */
+  sortText?: string;
   replace: Span;
 }
 
-/** Completions at `offset` of `uri`, chosen by the card and field the cursor is in. */
+/** Completions at `offset` of `uri`, chosen by the card and field the cursor is in, most likely first. */
 export function completionsAt(analysis: Analysis, uri: string, offset: number): CompletionData[] {
+  const items = offered(analysis, uri, offset);
+  items.forEach((item, i) => (item.sortText = String(i).padStart(4, '0')));
+  return items;
+}
+
+function offered(analysis: Analysis, uri: string, offset: number): CompletionData[] {
   const doc = analysis.documents[uri];
   if (!doc || !Number.isFinite(offset) || offset < 0 || offset > doc.text.length) return [];
   const text = doc.text;
@@ -55,8 +67,8 @@ export function completionsAt(analysis: Analysis, uri: string, offset: number): 
   const typingFirst = fields.length === 0 || (fields.length === 1 && word.length > 0 && !/\s$/.test(head));
   if (typingFirst) {
     if (isTitleLine(doc, lineStart)) return [];
-    if (word.startsWith('.')) return dotItems(replace);
-    return word.length <= 1 ? [...letterItems(replace, word), ...dotItems(replace)] : [];
+    if (word.startsWith('.')) return [...modelTemplateItems(analysis, replace), ...dotItems(replace)];
+    return word.length <= 1 ? [...letterItems(analysis, uri, doc, scope, replace, word), ...dotItems(replace)] : [];
   }
   const done = word.length ? fields.slice(0, -1) : fields;
   const first = done[0];
@@ -84,7 +96,13 @@ export function completionsAt(analysis: Analysis, uri: string, offset: number): 
   const n = nodeCount[letter];
   if (position <= n) return nodeItems(analysis, doc, scope, replace);
   const kinds = modelKindsFor(letter);
-  if (letter === 'Q' && position >= 4) return [...modelItems(analysis, uri, scope, kinds, replace), ...instanceParamItems(letter, replace)];
+  if (letter === 'Q' && position >= 4) {
+    // The model comes first: after an optional substrate node (position 4), and before the area and M=.
+    const models = modelItems(analysis, uri, scope, kinds, replace);
+    const known = new Set(models.map((m) => m.label.toLowerCase()));
+    if (done.slice(4).some((f) => known.has(f.toLowerCase()))) return instanceParamItems(letter, replace);
+    return [...models, ...(position === 4 ? nodeItems(analysis, doc, scope, replace) : []), ...instanceParamItems(letter, replace)];
+  }
   if (letter === 'M' && position === 5) return modelItems(analysis, uri, scope, kinds, replace);
   if ((letter === 'M' && position > 5) || ((letter === 'D' || letter === 'R') && position > n + 1)) return instanceParamItems(letter, replace);
   if (letter === 'D' && position === n + 1) return modelItems(analysis, uri, scope, kinds, replace);
@@ -97,14 +115,128 @@ function isTitleLine(doc: ParsedDocument, lineStart: number): boolean {
   return lineStart === 0 && first?.kind === 'title';
 }
 
-function letterItems(replace: Span, typed: string): CompletionData[] {
-  return ELEMENT_LETTERS.filter((l) => !typed || l.letter === typed.toUpperCase()).map((l) => ({
-    label: l.letter,
-    kind: 'element',
-    detail: l.title,
-    documentation: `${l.fields}\n\n${l.note}`,
-    replace,
-  }));
+/** A template field: literal text, or a placeholder with its default (after a literal prefix such as `W=`). */
+type Field = string | { default: string; prefix?: string };
+
+/** What an element card of each letter is made of after its name: nodes, then model or value (the family's field order). */
+function elementFields(letter: string, model: (kinds: ModelKind[]) => string, source: string): Field[] | undefined {
+  const p = (d: string, prefix?: string): Field => ({ default: d, prefix });
+  switch (letter) {
+    case 'R':
+      return [p('node1'), p('node2'), p('1k')];
+    case 'C':
+      return [p('node1'), p('node2'), p('1u')];
+    case 'L':
+      return [p('node1'), p('node2'), p('1m')];
+    case 'V':
+      return [p('plus'), p('0'), 'DC', p('5')];
+    case 'I':
+      return [p('plus'), p('minus'), 'DC', p('1m')];
+    case 'E':
+      return [p('outp'), p('outn'), p('ctrlp'), p('ctrln'), p('1')];
+    case 'G':
+      return [p('outp'), p('outn'), p('ctrlp'), p('ctrln'), p('1m')];
+    case 'F':
+      return [p('outp'), p('outn'), p(source), p('1')];
+    case 'H':
+      return [p('outp'), p('outn'), p(source), p('1k')];
+    case 'D':
+      return [p('anode'), p('cathode'), p(model(['d']))];
+    case 'Q':
+      return [p('collector'), p('base'), p('emitter'), p(model(['npn', 'pnp']))];
+    case 'M':
+      return [p('drain'), p('gate'), p('source'), p('bulk'), p(model(['nmos', 'pmos'])), p('10u', 'W='), p('1u', 'L=')];
+    case 'X':
+      return [p('nodes'), p('subckt')];
+    default:
+      return undefined;
+  }
+}
+
+/** Escapes text for a snippet (`$`, `}` and `\` are special there). */
+function snippetText(t: string): string {
+  return t.replace(/[\\$}]/g, (c) => `\\${c}`);
+}
+
+/** A template as plain text (the defaults) and as a snippet (numbered placeholders): the head, then the fields separated by spaces, then the tail. */
+function template(head: string, fields: Field[], tail = ''): { plain: string; snippet: string } {
+  let plain = head;
+  let snippet = snippetText(head);
+  let k = 0;
+  for (const f of fields) {
+    if (typeof f === 'string') {
+      plain += ` ${f}`;
+      snippet += ` ${snippetText(f)}`;
+    } else {
+      const prefix = f.prefix ?? '';
+      plain += ` ${prefix}${f.default}`;
+      snippet += ` ${snippetText(prefix)}\${${++k}:${snippetText(f.default)}}`;
+    }
+  }
+  return { plain: plain + tail, snippet: snippet + snippetText(tail) };
+}
+
+/** The first free name of a letter in this document: R1, R2, … (case-insensitive, as the family compares names). */
+function nextName(doc: ParsedDocument, letter: string): string {
+  const used = new Set<string>();
+  for (const c of doc.cards) if (c.kind === 'element') used.add(c.name.text.toUpperCase());
+  let n = 1;
+  while (used.has(`${letter}${n}`) && n < 100000) n++;
+  return `${letter}${n}`;
+}
+
+/** Element templates for the letters that match what is typed: name, then placeholders for nodes, model and value. */
+function letterItems(analysis: Analysis, uri: string, doc: ParsedDocument, scope: SubcktScope | undefined, replace: Span, typed: string): CompletionData[] {
+  const model = (kinds: ModelKind[]) => modelItems(analysis, uri, scope, kinds, replace)[0]?.label ?? 'model';
+  const source = sourceItems(analysis, replace)[0]?.label ?? 'Vsense';
+  const out: CompletionData[] = [];
+  for (const l of ELEMENT_LETTERS) {
+    if (typed && l.letter !== typed.toUpperCase()) continue;
+    const name = nextName(doc, l.letter);
+    const fields = elementFields(l.letter, model, source);
+    const t = fields ? template(name, fields) : undefined;
+    out.push({ label: l.letter, kind: 'element', detail: l.title, documentation: `${l.fields}\n\n${l.note}`, insertText: t?.plain, snippet: t?.snippet, replace });
+    if (l.letter === 'X') {
+      // One template per subcircuit, its ports as the node placeholders.
+      for (const sub of analysis.symbols.subckts) {
+        const x = template(name, [...sub.ports.map((port) => ({ default: port })), sub.name]);
+        out.push({ label: `X ${sub.name}`, kind: 'subcircuit', detail: `instance of ${sub.name}`, documentation: `Ports ${sub.ports.join(' ')}`, insertText: x.plain, snippet: x.snippet, replace });
+      }
+    }
+  }
+  return out;
+}
+
+/** The model types a `.model` template is offered for, with a default name stem. */
+const MODEL_TEMPLATES: { word: string; kind: Exclude<ModelKind, 'r'>; stem: string; title: string }[] = [
+  { word: 'NPN', kind: 'npn', stem: 'QN', title: 'NPN bipolar transistor model' },
+  { word: 'PNP', kind: 'pnp', stem: 'QP', title: 'PNP bipolar transistor model' },
+  { word: 'D', kind: 'd', stem: 'DX', title: 'diode model' },
+  { word: 'NMOS', kind: 'nmos', stem: 'NM', title: 'n-channel MOS transistor model' },
+  { word: 'PMOS', kind: 'pmos', stem: 'PM', title: 'p-channel MOS transistor model' },
+];
+
+/**
+ * `.model` templates, one per device type: a free name, the type, and the parameters of record
+ * (those a reader expects on the card) with the engine's defaults as placeholders. Parameters whose
+ * default is unbounded (VAF) cannot be written as a number and are named in a trailing comment.
+ */
+function modelTemplateItems(analysis: Analysis, replace: Span): CompletionData[] {
+  const taken = new Set(analysis.symbols.models.map((m) => m.name.toLowerCase()));
+  return MODEL_TEMPLATES.map(({ word, kind, stem, title }) => {
+    let n = 1;
+    while (taken.has(`${stem}${n}`.toLowerCase()) && n < 100000) n++;
+    const params: Field[] = [];
+    const unbounded: string[] = [];
+    for (const p of MODEL_PARAMETERS[kind]) {
+      if (!p.core || p.default === undefined) continue;
+      if (Number.isFinite(p.default)) params.push({ default: modelNumber(p.default), prefix: `${params.length ? '' : '('}${p.name}=` });
+      else unbounded.push(p.name);
+    }
+    const note = unbounded.length ? ` ; ${unbounded.join(', ')} not given: ${unbounded.includes('VAF') ? 'no Early effect' : 'unbounded'}` : '';
+    const t = template(`.model ${stem}${n} ${word}`, params, `)${note}`);
+    return { label: `.model ${word}`, kind: 'dot-card' as const, detail: title, documentation: `${t.plain}\n\nThe engine's default of each parameter (docs/DEVICE-MODELS.md).`, insertText: t.plain, snippet: t.snippet, replace };
+  });
 }
 
 function dotItems(replace: Span): CompletionData[] {

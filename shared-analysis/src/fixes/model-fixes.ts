@@ -102,7 +102,7 @@ export function editedCardParses(doc: ParsedDocument, span: Span, newText: strin
 }
 
 /** Short plain numbers for model parameters: `1e-16`, `2e-5`, `100`, `1.11`. */
-function formatNumber(value: number): string {
+export function formatNumber(value: number): string {
   if (value !== 0 && Math.abs(value) < 1e-3) return value.toExponential().replace('e+', 'e').replace(/\.?0+e/, 'e');
   return String(value);
 }
