@@ -24,25 +24,36 @@ local cmd = vim.g.qpoint_server_cmd or { 'qpoint-language-server', '--stdio' }
 local netlist_patterns = { '*.cir', '*.sp', '*.spi', '*.ckt', '*.net' }
 
 -- A .net file is also what PCB tools write; claim it only when its first cards read as a SPICE
--- netlist, by the same rule as the VS Code extension (see client/src/net-sniff.ts): the first line
--- is the title, then, skipping blank lines and comments, a dot card or an element card.
+-- netlist, by the rule the VS Code extension uses (client/src/net-sniff.ts): the first line is the
+-- title (unless it opens with ( < { [ or %), then, skipping blank lines and * or ; comments, the
+-- first lines are dot cards or element cards with as many fields as their letter needs.
+local min_fields = { R = 3, C = 3, L = 3, V = 2, I = 2, B = 3, K = 3, D = 3, X = 2, E = 5, G = 5, F = 4, H = 4, Q = 4, J = 4, Z = 4, W = 4, M = 5, S = 5 }
+local function is_card(line)
+  if line:match('^%s*%.%a') then return true end
+  local fields = vim.split(vim.trim(line), '[%s,]+')
+  local name = fields[1] or ''
+  if not name:match('^%a[^%s=(){}]*$') then return false end
+  local least = min_fields[name:sub(1, 1):upper()]
+  return least ~= nil and #fields - 1 >= least
+end
 local function reads_as_spice(bufnr)
   local lines = vim.api.nvim_buf_get_lines(bufnr, 0, 60, false)
-  local first = lines[1] or ''
-  if first:match('^%s*%(') or first:match('^%s*[<{]') or first:match('^%s*%%') then return false end
+  if (lines[1] or ''):match('^%s*[%(<{%[%%]') then return false end
   local cards = 0
   for i = 2, #lines do
     local l = lines[i]
-    if not (l:match('^%s*$') or l:match('^%s*%*') or l:match('^%s*;')) then
-      if l:match('^%s*%.%a') or l:match('^%s*[RrCcLlVvIiEeGgFfHhDdQqMmJjXxKkSsWwBbZz][%w_.#+-]*%s+%S+%s+%S+') then
+    if not (l:match('^%s*$') or l:match('^%s*[%*;]')) then
+      if l:match('^%s*%+') then
+        if cards == 0 then return false end
+      elseif is_card(l) then
         cards = cards + 1
-        if cards >= 2 then return true end
-      elseif not l:match('^%s*%+') then
+        if cards >= 3 then return true end
+      else
         return false
       end
     end
   end
-  return cards >= 1
+  return cards > 0
 end
 
 local client_id -- Neovim 0.7 has no vim.lsp.start: one client is started and attached to every netlist buffer.
