@@ -979,7 +979,7 @@ function presentCurrent(analysis: Analysis, resistor: string): { device: string;
   const devices = analysis.operatingPoint?.devices ?? {};
   const key = Object.keys(devices).find((k) => k.toLowerCase() === device.toLowerCase());
   const rec = key === undefined ? undefined : devices[key];
-  const v = !rec ? undefined : rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
+  const v = !rec ? undefined : rec.type === 'bjt' ? rec.ic : 'id' in rec ? rec.id : rec.current;
   return { device: key ?? device, amps: v !== undefined && Number.isFinite(v) && v !== 0 ? Math.abs(v) : undefined };
 }
 

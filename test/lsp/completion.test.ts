@@ -8,7 +8,7 @@ import { MODEL_PARAMETERS } from '../../shared-analysis/src/devices/parameters';
 import { parse } from '../../shared-analysis/src/syntax/parser';
 import { startServer, type ServerSession } from './lsp-client';
 
-const TEXT = 'Completion over LSP\nVCC vcc 0 DC 5\nR1 vcc b 4.3k\nQ1 b b 0 qn\nQ2 out b 0 qn\n.model qn npn (IS=1e-16 BF=100)\n.model nch nmos (KP=50u)\n.subckt cell in out\nRC in out 1k\n.ends cell\n.end\n';
+const TEXT = 'Completion over LSP\nVCC vcc 0 DC 5\nR1 vcc b 4.3k\nQ1 b b 0 qn\nQ2 out b 0 qn\n.model qn npn (IS=1e-16 BF=100)\n.model nch nmos (KP=50u)\n.model jn njf (VTO=-2 BETA=1e-4)\n.subckt cell in out\nRC in out 1k\n.ends cell\n.end\n';
 
 let snippets: ServerSession;
 let plain: ServerSession;
@@ -71,6 +71,7 @@ describe('completion templates', () => {
     const byLabel = new Map(items.map((i) => [i.label, (i.textEdit as TextEdit).newText]));
     expect(byLabel.get('R')).toBe('R2 ${1:node1} ${2:node2} ${3:1k}');
     expect(byLabel.get('M')).toBe('M1 ${1:drain} ${2:gate} ${3:source} ${4:bulk} ${5:nch} W=${6:10u} L=${7:1u}');
+    expect(byLabel.get('J')).toBe('J1 ${1:drain} ${2:gate} ${3:source} ${4:jn}');
     expect(byLabel.get('X cell')).toBe('X1 ${1:in} ${2:out} cell');
   });
 
@@ -90,10 +91,10 @@ describe('completion templates', () => {
     // parameter of record appears once, with the engine's default.
     for (const p of MODEL_PARAMETERS.npn.filter((x) => x.core && Number.isFinite(x.default))) expect(body).toContain(`${p.name}=\${`);
     expect(body).toContain('; VAF not given: no Early effect');
-    const card = parse('x', `t\n${inserted(text, npn).split('\n')[10]}\n`, { hasTitle: true });
+    const card = parse('x', `t\n${inserted(text, npn).split('\n')[11]}\n`, { hasTitle: true });
     expect(card.errors).toEqual([]);
     expect(card.cards.find((c) => c.kind === 'model')).toMatchObject({ kind: 'model', name: { text: 'QN1' } });
-    expect(items.map((i) => i.label)).toEqual(expect.arrayContaining(['.model PNP', '.model D', '.model NMOS', '.model PMOS', '.model']));
+    expect(items.map((i) => i.label)).toEqual(expect.arrayContaining(['.model PNP', '.model D', '.model NMOS', '.model PMOS', '.model NJF', '.model PJF', '.model']));
   });
 });
 
@@ -109,8 +110,9 @@ describe('completion in fields', () => {
     expect(after.items.map((i) => i.label)).toEqual(['M']);
   });
 
-  it('offers models in the model field of M and D cards', async () => {
+  it('offers models in the model field of M, J and D cards', async () => {
     expect((await check(snippets, TEXT.replace('.model qn', 'M3 d g 0 0 |\n.model qn'))).items.map((i) => i.label)).toEqual(['nch']);
+    expect((await check(snippets, TEXT.replace('.model qn', 'J3 d g 0 |\n.model qn'))).items.map((i) => i.label)).toEqual(['jn']);
     // No diode model in the document: nothing to offer but nothing wrong either.
     expect((await check(snippets, TEXT.replace('.model qn', 'D3 a 0 |\n.model qn'))).items).toEqual([]);
   });

@@ -89,7 +89,7 @@ function offered(analysis: Analysis, uri: string, offset: number): CompletionDat
   const letter = first[0].toUpperCase();
   const info = ELEMENT_LETTERS.find((l) => l.letter === letter);
   if (!info) return [];
-  const nodeCount: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4 };
+  const nodeCount: Record<string, number> = { R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2 };
   if (letter === 'X') {
     return position >= 2 ? [...subcktItems(analysis, replace), ...nodeItems(analysis, doc, scope, replace)] : nodeItems(analysis, doc, scope, replace);
   }
@@ -105,7 +105,9 @@ function offered(analysis: Analysis, uri: string, offset: number): CompletionDat
   }
   if (letter === 'M' && position === 5) return modelItems(analysis, uri, scope, kinds, replace);
   if ((letter === 'M' && position > 5) || ((letter === 'D' || letter === 'R') && position > n + 1)) return instanceParamItems(letter, replace);
-  if (letter === 'D' && position === n + 1) return modelItems(analysis, uri, scope, kinds, replace);
+  if ((letter === 'D' || letter === 'J' || letter === 'S') && position === n + 1) return modelItems(analysis, uri, scope, kinds, replace);
+  if (letter === 'W' && position === 3) return sourceItems(analysis, replace);
+  if (letter === 'W' && position === 4) return modelItems(analysis, uri, scope, kinds, replace);
   if ((letter === 'F' || letter === 'H') && position === 3) return sourceItems(analysis, replace);
   return [];
 }
@@ -144,6 +146,12 @@ function elementFields(letter: string, model: (kinds: ModelKind[]) => string, so
       return [p('anode'), p('cathode'), p(model(['d']))];
     case 'Q':
       return [p('collector'), p('base'), p('emitter'), p(model(['npn', 'pnp']))];
+    case 'J':
+      return [p('drain'), p('gate'), p('source'), p(model(['njf', 'pjf']))];
+    case 'S':
+      return [p('node1'), p('node2'), p('ctrlp'), p('ctrln'), p(model(['sw']))];
+    case 'W':
+      return [p('node1'), p('node2'), p(source), p(model(['csw']))];
     case 'M':
       return [p('drain'), p('gate'), p('source'), p('bulk'), p(model(['nmos', 'pmos'])), p('10u', 'W='), p('1u', 'L=')];
     case 'X':
@@ -214,6 +222,10 @@ const MODEL_TEMPLATES: { word: string; kind: Exclude<ModelKind, 'r'>; stem: stri
   { word: 'D', kind: 'd', stem: 'DX', title: 'diode model' },
   { word: 'NMOS', kind: 'nmos', stem: 'NM', title: 'n-channel MOS transistor model' },
   { word: 'PMOS', kind: 'pmos', stem: 'PM', title: 'p-channel MOS transistor model' },
+  { word: 'NJF', kind: 'njf', stem: 'JN', title: 'n-channel junction FET model' },
+  { word: 'PJF', kind: 'pjf', stem: 'JP', title: 'p-channel junction FET model' },
+  { word: 'SW', kind: 'sw', stem: 'SWV', title: 'voltage-controlled switch model' },
+  { word: 'CSW', kind: 'csw', stem: 'SWI', title: 'current-controlled switch model' },
 ];
 
 /**
