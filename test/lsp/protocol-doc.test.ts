@@ -69,6 +69,7 @@ describe('docs/PROTOCOL.md', () => {
     check('qpoint/listOutputs', await s.connection.sendRequest('qpoint/listOutputs', { uri }));
     check('qpoint/outputCharacteristic', await s.connection.sendRequest('qpoint/outputCharacteristic', { uri, device: 'Q2', points: 5 }));
     check('qpoint/sizeResistor', await s.connection.sendRequest('qpoint/sizeResistor', { uri, resistor: 'R1', target: '1m' }));
+    check('qpoint/monteCarlo', await s.connection.sendRequest('qpoint/monteCarlo', { uri, seed: 1, first: 0, count: 4, finish: true }));
     check('Commands the server runs', await s.connection.sendRequest(ExecuteCommandRequest.type, { command: 'qpoint.server.reanalyse', arguments: [] }));
     check('Commands the server runs', await s.connection.sendRequest(ExecuteCommandRequest.type, { command: 'qpoint.server.sizeResistor', arguments: [{ uri, resistor: 'R1', target: '1m' }] }));
   });
