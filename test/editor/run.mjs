@@ -684,10 +684,11 @@ async function main() {
           await page.keyboard.press('Enter');
           return until(async () => (await editorLines(page)).some((l) => l.includes(firstLine.slice(0, 24))), { timeoutMs: 8 * SECOND, message: 'not shown' }).catch(() => false);
         }, { timeoutMs: 40 * SECOND, intervalMs: 500, message: `${name} did not open` });
-        const want = name === 'bias-cell.net' ? /netlist/i : /plain text/i;
+        // The language-mode item of the status bar, by its whole text (other items, such as qpoint's status messages, say "netlists").
+        const want = name === 'bias-cell.net' ? /^Netlist \(SPICE-style\)$/ : /^Plain Text$/;
         modes[name] = await until(async () => page.evaluate((source) => {
           const items = [...document.querySelectorAll('.statusbar-item')].map((e) => (e.textContent ?? '').trim());
-          return items.find((t) => new RegExp(source, 'i').test(t));
+          return items.find((t) => new RegExp(source).test(t));
         }, want.source), { timeoutMs: 20 * SECOND, message: `the status bar does not show ${want} for ${name}` });
       }
       await screenshot(page, 'net-file-left-alone');
