@@ -81,6 +81,10 @@ function circuitsOfEveryKind(): { name: string; circuit: Circuit }[] {
       .r('RL', 'vcc', 'out', 470)
       .build(),
   });
+  // Resistors with temperature coefficients, solved away from Tnom: R(T) = R·(1 + TC1·ΔT + TC2·ΔT²) enters the drift.
+  const tc = fixture('widlar-source', 'npn', { model: { VAF: 60 }, temperatureC: 85 }).circuit;
+  for (const el of tc.elements) if (el.kind === 'R') Object.assign(el, { tc1: 2e-3, tc2: 4e-6 });
+  out.push({ name: 'widlar-source npn with TC resistors at 85 °C', circuit: tc });
   return out;
 }
 

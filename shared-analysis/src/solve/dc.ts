@@ -39,6 +39,10 @@ export interface Linearisation {
   x: Float64Array;
   /** DC values of the independent sources, aligned with `layout.sources`. */
   sourceValues: Float64Array;
+  /** A conductance-stamped resistor's conductance at this solution (its temperature coefficients applied), siemens. */
+  conductanceOf(element: number): number | undefined;
+  /** d ln(conductance)/dT of a resistor with temperature coefficients at this solution, per kelvin (0 for the others). */
+  conductanceSlopeOf(element: number): number;
   solveTransposed(c: Float64Array, out: Float64Array): Float64Array;
   /** The same for a sparse c: the non-zero entries of λ go to `out`. */
   solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: { index: number[]; value: number[] }): void;
@@ -295,10 +299,11 @@ export class DcSolver {
     const n = this.layout.size;
     if (!result.op.converged || result.x.length !== n || n === 0) return undefined;
     const scratch: Finding[] = [];
+    const temperatureC = result.op.temperatureC;
     const plan = this.resolveResistances(undefined, scratch);
+    this.applyTemperatureCoefficients(plan, temperatureC, scratch);
     this.loadLinearValues(this.structure, plan);
     this.applyDeviceParameters(undefined);
-    const temperatureC = result.op.temperatureC;
     const conditions: DeviceConditions = {
       temperatureC,
       tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
@@ -315,6 +320,18 @@ export class DcSolver {
       conditions,
       x: result.x,
       sourceValues: Float64Array.from(engine.sourceValues),
+      conductanceOf: (i) => {
+        const stamp = this.layout.resistorStamps.get(i);
+        return stamp?.kind === 'conductance' ? (plan.conductance.get(i) ?? stamp.g) : undefined;
+      },
+      conductanceSlopeOf: (i) => {
+        const el = this.circuit.elements[i];
+        if (el?.kind !== 'R' || !plan.conductance.has(i) || !(el.tc1 || el.tc2)) return 0;
+        // g = 1/(R·f) with f = 1 + TC1·ΔT + TC2·ΔT², so d ln g/dT = −(TC1 + 2·TC2·ΔT)/f.
+        const dt = temperatureC - (Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27);
+        const f = resistorTemperatureFactor(el.tc1 ?? 0, el.tc2 ?? 0, dt);
+        return f > 0 && Number.isFinite(f) ? -((el.tc1 ?? 0) + 2 * (el.tc2 ?? 0) * dt) / f : 0;
+      },
       solveTransposed: (c, out) => engine.solveTransposed(c, out),
       solveTransposedSparse: (i, v, out) => engine.solveTransposedSparse(i, v, out),
     };

@@ -306,13 +306,13 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
 
   params.forEach((p, j) => {
     if (p.kind === 'resistance') {
-      const stamp = layout.resistorStamps.get(p.element);
-      if (stamp?.kind === 'conductance' && stamp.g !== 0) {
-        const el = els[p.element];
+      const g = lin.conductanceOf(p.element);
+      const el = els[p.element];
+      if (g !== undefined && g !== 0 && el.kind === 'R' && el.resistance > 0) {
         const a = el.nodes[0] - 1;
         const b = el.nodes[1] - 1;
-        // F_a gains g·(Va − Vb); dg/dR = −g².
-        const d = -stamp.g * stamp.g * (v(a) - v(b));
+        // F_a gains g·(Va − Vb); g = 1/(R·f) (f: the temperature coefficients' factor), so dg/dR = −g/R.
+        const d = (-g / el.resistance) * (v(a) - v(b));
         put(j, a, d);
         put(j, b, -d);
       }
@@ -328,6 +328,18 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
       }
     }
   });
+
+  // Resistors with temperature coefficients: dg/dT = g·(d ln g/dT) on their KCL rows.
+  if (temperatureParam >= 0) {
+    for (const r of layout.readers) {
+      if (r.kind !== 'conductance') continue;
+      const slope = lin.conductanceSlopeOf(r.element);
+      if (slope === 0) continue;
+      const d = (lin.conductanceOf(r.element) ?? r.g) * slope * (v(r.a) - v(r.b));
+      put(temperatureParam, r.a, d);
+      put(temperatureParam, r.b, -d);
+    }
+  }
 
   // Row-major index of the columns.
   const rowStart = new Int32Array(n + 1);
@@ -421,12 +433,17 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         if (!r) continue;
         const drop = v(r.a) - v(r.b);
         switch (r.kind) {
-          case 'conductance':
-            y += w * r.g * drop;
-            addC(r.a, w * r.g);
-            addC(r.b, -w * r.g);
-            for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'resistance') explicitTerms.push([j, -w * r.g * r.g * drop]);
+          case 'conductance': {
+            const g = lin.conductanceOf(term.element) ?? r.g;
+            const el = els[term.element];
+            y += w * g * drop;
+            addC(r.a, w * g);
+            addC(r.b, -w * g);
+            if (el.kind === 'R' && el.resistance > 0) for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'resistance') explicitTerms.push([j, (-w * g * drop) / el.resistance]);
+            const slope = lin.conductanceSlopeOf(term.element);
+            if (slope !== 0 && temperatureParam >= 0) explicitTerms.push([temperatureParam, w * g * slope * drop]);
             break;
+          }
           case 'branch':
             y += w * x[r.branch];
             addC(r.branch, w);
