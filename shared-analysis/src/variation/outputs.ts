@@ -1,6 +1,7 @@
 // The quantities whose spread is reported: each structure's reference current, output currents and produced voltages, and every element with a target current, as adjoint output functionals.
 
 import type { Circuit } from '../circuit';
+import { deviceKindOf } from '../devices/registry';
 import { isBipolar, polaritySign, topologyOf } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { OutputFunctional, OutputTerm } from './sensitivity';
@@ -21,13 +22,14 @@ export interface OutputSpec {
 
 /**
  * The current an element carries, as the target check and the records read it: a BJT's
- * collector current, a MOSFET's drain current, a diode's forward current, a two-terminal
- * element's current; as a magnitude.
+ * collector current, a MOSFET's or JFET's drain current, a diode's forward current, a
+ * two-terminal element's current; as a magnitude.
  */
 export function elementCurrent(circuit: Circuit, index: number): OutputFunctional | undefined {
   const el = circuit.elements[index];
   if (!el) return undefined;
-  if (el.kind === 'Q' || el.kind === 'M' || el.kind === 'D') return { terms: [{ kind: 'terminal', element: index, terminal: 0, weight: 1 }], magnitude: true };
+  // Every nonlinear kind reports the current into its first terminal (collector, drain, anode, the + node of a switch or behavioural source).
+  if (deviceKindOf(el.kind)) return { terms: [{ kind: 'terminal', element: index, terminal: 0, weight: 1 }], magnitude: true };
   if ('RLVIEFGH'.includes(el.kind)) return { terms: [{ kind: 'element', element: index, weight: 1 }], magnitude: true };
   return undefined;
 }

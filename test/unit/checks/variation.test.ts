@@ -3,6 +3,8 @@
 import { describe, expect, it } from 'vitest';
 import { analyse, analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { elementCurrent } from '../../../shared-analysis/src/variation/outputs';
+import { derivativeOf, sensitivities } from '../../../shared-analysis/src/variation/sensitivity';
 
 function run(text: string) {
   return analyse({ uri: 'mem://y.cir', text }, new MemoryWorkspace({}), { corners: { enabled: false } });
@@ -77,5 +79,26 @@ RL vcc out 2k
     const a = run(mirror('RREF vcc ref 9.1k', '; expect 1mA'));
     expect(a.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
     expect(a.variation!.outputs.find((o) => o.key === 'element Q2')!.target!.yield).toBeLessThan(0.997);
+  });
+});
+
+describe('every kind of current carrier', () => {
+  it('reads the drain current of a JFET as its output, with its derivatives', () => {
+    const s = analyseSession({ uri: 'mem://j.cir', text: `jfet source
+VDD vdd 0 12
+RD vdd d 2k
+J1 d 0 s nj
+RS s 0 1k
+.model nj njf (VTO=-2 BETA=1m)
+.end
+` }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const c = s.analysis.circuit!;
+    const j = c.elements.findIndex((e) => e.name === 'J1');
+    const rs = c.elements.findIndex((e) => e.name === 'RS');
+    const r = sensitivities(s.solver!.linearise(s.nominal!)!, [elementCurrent(c, j)!], [{ kind: 'resistance', element: rs }]);
+    const rec = s.nominal!.op.devices['J1'] as { id: number };
+    expect(r.value[0]).toBeCloseTo(Math.abs(rec.id), 12);
+    // More source resistance, less drain current (self-bias: VGS = −ID·RS).
+    expect(derivativeOf(r, 0, 0)).toBeLessThan(0);
   });
 });
