@@ -61,12 +61,14 @@ export function checkStartup(ctx: StartupContext): Finding[] {
   const conditions = startupConditions(circuit, ctx.options, op.temperatureC);
   const batched = loops.length > MAX_SEPARATE_LOOPS;
   const allOff = batched ? offSolver(circuit, new Set(loops.flat().flatMap((s) => s.devices))) : undefined;
+  const full = batched ? undefined : new DcSolver(circuit);
   for (const loop of loops) {
     const devices = new Set(loop.flatMap((s) => s.devices));
     const solver = allOff ?? offSolver(circuit, devices);
     const current = referenceCurrent(mainOf(loop), op);
     const zeroAt: string[] = [];
     let nominal: Verdict | undefined;
+    let nominalOff: OperatingPoint | undefined;
     for (const cond of conditions) {
       let offOp: OperatingPoint | undefined;
       try {
@@ -77,7 +79,10 @@ export function checkStartup(ctx: StartupContext): Finding[] {
       }
       if (!offOp) continue;
       const v = zeroStateVerdict(topo, devices, offOp, current, cond.temperatureC, circuit);
-      if (cond.label === '') nominal = v;
+      if (cond.label === '') {
+        nominal = v;
+        nominalOff = offOp;
+      }
       else if (v.feasible) zeroAt.push(cond.label);
     }
     const result: StartupResult = {
@@ -88,6 +93,7 @@ export function checkStartup(ctx: StartupContext): Finding[] {
       ...(nominal && !nominal.feasible && nominal.path ? { startupPath: nominal.path } : {}),
       solvedCurrent: current,
     };
+    if (nominal?.rest && nominalOff) result.allOffStart = allOffStart(full, circuit, topo, devices, mainOf(loop), nominalOff, nominal, op.temperatureC);
     for (const s of loop) s.startup = result;
     if (result.zeroStateNominal || zeroAt.length > 0) findings.push(loopFinding(topo, loop, result));
   }
@@ -137,6 +143,57 @@ function referenceCurrent(s: Structure, op: OperatingPoint): number {
 interface Verdict {
   feasible: boolean;
   path?: StartupResult['startupPath'];
+  /** Voltages of the loop's free nodes that keep every loop junction off (with the start-up node left at its driven voltage when there is a path). */
+  rest?: Map<number, number>;
+}
+
+/**
+ * The all-off state of a loop: the rest of the circuit at its loop-off solution, the loop's free
+ * nodes at voltages that keep every loop junction off (`restNodes`). When a start-up path exists,
+ * the whole circuit (loop devices in) is solved from that start, so the record says which state
+ * the solver reaches from power-up; the caller compares its current with the nominal solution.
+ * Without a path the all-off state is not solved: with ideal devices the off nodes are held only by
+ * the solver's leakage aid, which would float them (a continuum of zero-current states), so the
+ * verdict there is the bounds above, and `restNodes` is one such state.
+ */
+function allOffStart(
+  full: DcSolver | undefined,
+  circuit: Circuit,
+  topo: Topology,
+  devices: Set<string>,
+  main: Structure,
+  offOp: OperatingPoint,
+  verdict: Verdict,
+  temperatureC: number,
+): StartupResult['allOffStart'] {
+  const rest = verdict.rest ?? new Map<number, number>();
+  const n = full?.unknownCount ?? circuit.nodes.length - 1;
+  const guess = new Float64Array(Math.max(n, 0));
+  for (let i = 1; i < circuit.nodes.length && i - 1 < guess.length; i++) {
+    const v = rest.get(i) ?? offOp.nodes[circuit.nodes[i]];
+    guess[i - 1] = v !== undefined && Number.isFinite(v) ? v : 0;
+  }
+  const loopNodes = new Set<number>();
+  for (const d of devices) {
+    const t = topo.byName.get(d);
+    if (t) loopNodes.add(t.out).add(t.ctrl).add(t.common);
+  }
+  const restNodes: Record<string, number> = nameTable();
+  for (const k of loopNodes) restNodes[topo.nodeName(k)] = k === 0 ? 0 : guess[k - 1];
+  if (!full || verdict.feasible || !verdict.path) return { restNodes };
+  let r;
+  try {
+    r = full.solve({ temperatureC, initialGuess: guess, initialGuessTemperatureC: temperatureC });
+  } catch {
+    return { restNodes };
+  }
+  if (!r.op.converged) return { restNodes, solved: { converged: false, current: 0, nodes: {} } };
+  const nodes: Record<string, number> = nameTable();
+  for (const k of loopNodes) {
+    const v = r.op.nodes[topo.nodeName(k)];
+    if (v !== undefined) nodes[topo.nodeName(k)] = v;
+  }
+  return { restNodes, solved: { converged: true, current: referenceCurrent(main, r.op), nodes } };
 }
 
 /** One bound x[to] − x[from] ≤ w between node voltages (node −1 is the fixed reference, 0 V). */
@@ -168,23 +225,47 @@ function zeroStateVerdict(topo: Topology, devices: Set<string>, offOp: Operating
       else bounds.push({ from: t.ctrl, to: x, w });
     }
   }
-  const feasible = feasibleBounds(bounds, fixed);
-  if (feasible) return { feasible };
+  const potentials = feasibleBounds(bounds, fixed);
+  const feasible = potentials !== undefined;
+  if (feasible) return { feasible, rest: restVoltages(bounds, fixed, potentials) };
   // Which fixed loop node makes it impossible: free it and see (rails are not a start-up path).
   const rails = new Set<number>([0]);
   for (const e of circuit.elements) if (e.kind === 'V') for (const n of e.nodes) if (fixed.has(n)) rails.add(n);
   for (const n of [...fixed.keys()].filter((k) => nodes.has(k) && !rails.has(k))) {
     const without = new Map(fixed);
     without.delete(n);
-    if (!feasibleBounds(bounds, without)) continue;
+    const freed = feasibleBounds(bounds, without);
+    if (!freed) continue;
     const drivers = topo
       .conducting(n)
       .filter((a) => !devices.has(a.element.name))
       .map((a) => a.element.name);
     const turnsOn = loopT.find((t) => t.ctrl === n || t.common === n)?.name ?? '';
-    return { feasible, path: { node: topo.nodeName(n), volts: fixed.get(n)!, elements: drivers, turnsOn } };
+    return { feasible, path: { node: topo.nodeName(n), volts: fixed.get(n)!, elements: drivers, turnsOn }, rest: restVoltages(bounds, without, freed) };
   }
   return { feasible };
+}
+
+/** Biases (V) of the loop's junctions in an all-off start, when the free nodes allow it: well inside off, so Newton is not already on the exponential's slope. */
+const REST_BIAS = 1e-3;
+
+/**
+ * Voltages for the free loop nodes in an all-off start: every junction at most REST_BIAS forward
+ * where the fixed nodes allow it, else the potentials that keep them below their off voltage.
+ */
+function restVoltages(bounds: Bound[], fixed: Map<number, number>, fallback: Map<number, number>): Map<number, number> {
+  const deep = feasibleBounds(
+    bounds.map((b) => ({ ...b, w: Math.min(b.w, REST_BIAS) })),
+    fixed,
+  );
+  return freeOf(deep ?? fallback, fixed);
+}
+
+/** The potentials of the nodes that are not fixed (the loop-only nodes an all-off start places). */
+function freeOf(potentials: Map<number, number>, fixed: Map<number, number>): Map<number, number> {
+  const out = new Map<number, number>();
+  for (const [n, v] of potentials) if (n > 0 && !fixed.has(n)) out.set(n, v);
+  return out;
 }
 
 /** Loop nodes the rest of the circuit fixes, with their voltages (free: tied by the solver or touched only by loop devices). */
@@ -214,9 +295,10 @@ function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit:
 
 /**
  * Feasibility of x[to] − x[from] ≤ w with the fixed nodes pinned to their voltages, by Bellman–Ford
- * from a virtual source: infeasible exactly when the constraint graph has a negative cycle.
+ * from a virtual source: infeasible exactly when the constraint graph has a negative cycle. Returns
+ * node voltages that meet every bound (shortest distances less the reference's), or undefined.
  */
-function feasibleBounds(bounds: Bound[], fixed: Map<number, number>): boolean {
+function feasibleBounds(bounds: Bound[], fixed: Map<number, number>): Map<number, number> | undefined {
   const REF = -1;
   const all: Bound[] = [...bounds];
   // Node 0 is ground: pinned at 0 V like any fixed node.
@@ -240,9 +322,14 @@ function feasibleBounds(bounds: Bound[], fixed: Map<number, number>): boolean {
         changed = true;
       }
     }
-    if (!changed) return true;
+    if (!changed) {
+      const ref = dist.get(REF)!;
+      const out = new Map<number, number>();
+      for (const [v, d] of dist) if (v !== REF) out.set(v, d - ref);
+      return out;
+    }
   }
-  return false;
+  return undefined;
 }
 
 function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Finding {

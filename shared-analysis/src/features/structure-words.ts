@@ -72,6 +72,12 @@ export function startupLine(s: Structure): string | undefined {
   const path = r.startupPath
     ? `${r.startupPath.elements.join(', ')} ${r.startupPath.elements.length > 1 ? 'drive' : 'drives'} ${r.startupPath.node} to ${formatQuantity(r.startupPath.volts, 'V')} with the loop off, which turns on ${r.startupPath.turnsOn}`
     : 'the rest of the circuit turns the loop on';
+  const a = r.allOffStart?.solved;
+  const climbs = a
+    ? a.converged
+      ? `; solved from an all-off start it reaches ${formatQuantity(a.current, 'A')} in ${s.reference.device}`
+      : '; solved from an all-off start it did not converge'
+    : '';
   const corners = r.zeroStateCorners.length ? `, except at ${r.zeroStateCorners.join('; ')}, where it can rest at zero current` : '';
-  return `Start-up: ${path}, so the loop cannot stay off at power-up${corners}${chosen}.`;
+  return `Start-up: ${path}, so the loop cannot stay off at power-up${corners}${climbs}${chosen}.`;
 }

@@ -176,6 +176,13 @@ export interface StartupResult {
   startupPath?: { node: string; volts: number; elements: string[]; turnsOn: string };
   /** The current the solver settled on (the loop's reference current at the operating point, A). */
   solvedCurrent?: number;
+  /**
+   * The all-off state at nominal conditions: the loop's node voltages with every loop junction off
+   * and the rest of the circuit at its loop-off solution (`restNodes`), and, when a start-up path
+   * exists, the whole circuit solved from that start (`solved`: the loop's reference current it
+   * reached, A, and the loop's node voltages there), which shows the path turns the loop on.
+   */
+  allOffStart?: { restNodes: Record<string, number>; solved?: { converged: boolean; current: number; nodes: Record<string, number> } };
 }
 
 /** Currents and headroom at one corner of supply, temperature and beta. */

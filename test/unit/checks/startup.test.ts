@@ -37,6 +37,59 @@ ${startup}
 .end
 `;
 
+/** Thermal voltage kT/q at 27 °C (CODATA constants). */
+const VT = (1.380649e-23 * 300.15) / 1.602176634e-19;
+
+/**
+ * Currents into each terminal of a transistor at the given node voltages, written here without the
+ * project's device code: Ebers–Moll transport form for a BJT (Ebers and Moll, 1954; IS = 1e-16 A
+ * and BR = 1 are the family's usual defaults, from memory), square law for a MOSFET (Shichman and
+ * Hodges, 1968; zero below the threshold). Returns [node, current into the device] pairs.
+ */
+function terminalCurrents(card: string, v: (n: string) => number): [string, number][] {
+  const f = card.trim().split(/\s+/);
+  if (f[0].startsWith('Q')) {
+    const [c, b, e] = [f[1], f[2], f[3]];
+    const pnp = f[4] === 'qp';
+    const area = Number((card.match(/area=(\d+)/) ?? [])[1] ?? 1);
+    const bf = pnp ? 50 : 100;
+    const s = pnp ? -1 : 1;
+    const is = 1e-16 * area;
+    const fe = Math.expm1((s * (v(b) - v(e))) / VT);
+    const fc = Math.expm1((s * (v(b) - v(c))) / VT);
+    const ic = s * (is * (fe - fc) - is * fc);
+    const ib = s * ((is / bf) * fe + is * fc);
+    return [[c, ic], [b, ib], [e, -ic - ib]];
+  }
+  const [d, g, src] = [f[1], f[2], f[3]];
+  const pmos = f[5] === 'pch';
+  const s = pmos ? -1 : 1;
+  const kp = pmos ? 40e-6 : 100e-6;
+  const vto = pmos ? 0.6 : 0.5;
+  const w = Number(card.match(/w=(\d+)u/)![1]);
+  const vov = s * (v(g) - v(src)) - vto;
+  const vds = s * (v(d) - v(src));
+  const id = vov <= 0 ? 0 : vds >= vov ? 0.5 * kp * w * vov * vov : kp * w * (vov - vds / 2) * vds;
+  return [[d, s * id], [g, 0], [src, -s * id]];
+}
+
+/** The largest KCL imbalance at the given nodes of the netlist's transistors and resistors (A), at the given node voltages. */
+function largestImbalance(text: string, volts: Record<string, number>, nodes: string[]): number {
+  const v = (n: string) => (n === '0' ? 0 : volts[n]);
+  const sum = new Map<string, number>();
+  for (const line of text.split('\n')) {
+    if (/^[QM]/.test(line)) for (const [n, i] of terminalCurrents(line, v)) sum.set(n, (sum.get(n) ?? 0) + i);
+    const r = line.match(/^R\w*\s+(\S+)\s+(\S+)\s+(\S+)/);
+    if (r) {
+      const ohms = Number(r[3].replace(/meg$/, 'e6').replace(/k$/, 'e3'));
+      const i = (v(r[1]) - v(r[2])) / ohms;
+      sum.set(r[1], (sum.get(r[1]) ?? 0) + i);
+      sum.set(r[2], (sum.get(r[2]) ?? 0) - i);
+    }
+  }
+  return Math.max(...nodes.map((n) => Math.abs(sum.get(n) ?? 0)));
+}
+
 describe('self-biased loops at power-up', () => {
   it('a ΔVBE cell without a start-up path is flagged on its reference device, naming the state the solver chose', () => {
     const { a, warnings, loops } = check(BJT_CELL(''));
@@ -86,6 +139,39 @@ describe('self-biased loops at power-up', () => {
     expect(warnings).toHaveLength(1);
     expect(warnings[0].message).toMatch(/at supply −5 %.*\(not at nominal\)/);
   });
+
+  for (const [name, cell, resistor, ref] of [
+    ['ΔVBE cell', BJT_CELL, 'RSU vcc n1 2meg', 'Q1'],
+    ['beta multiplier', MOS_CELL, 'RSU vdd n1 5meg', 'M1'],
+  ] as const) {
+    it(`the ${name}'s all-off state: a zero-current solution without a start-up resistor, solved into the nominal state with one`, () => {
+      // Without: the recorded all-off state balances every loop node's KCL (computed here) to far
+      // below the loop's current, so zero current satisfies the circuit; nothing is solved from it.
+      const bare = check(cell(''));
+      const st = bare.loops[0].startup!;
+      const rest = st.allOffStart!.restNodes;
+      const loopNodes = Object.keys(rest).filter((n) => n !== '0' && !/^v(cc|dd)$/.test(n));
+      expect(loopNodes.length).toBeGreaterThanOrEqual(2);
+      expect(largestImbalance(cell(''), rest, loopNodes)).toBeLessThan(1e-6 * st.solvedCurrent!);
+      expect(st.allOffStart!.solved).toBeUndefined();
+      // The warning names the state the solver chose: the conducting one.
+      expect(bare.warnings[0].message).toContain(`settled on (`);
+
+      // With: the same all-off start leaves the resistor's current unbalanced at n1 (so zero current
+      // is no solution), and the whole circuit solved from it reaches the nominal operating point.
+      const text = cell(resistor);
+      const started = check(text);
+      const s2 = started.loops[0].startup!;
+      const r2 = s2.allOffStart!;
+      expect(largestImbalance(text, r2.restNodes, ['n1'])).toBeGreaterThan(1e3 * 1e-6 * s2.solvedCurrent!);
+      expect(r2.solved!.converged).toBe(true);
+      const nominal = started.a.operatingPoint!.devices[ref] as { ic?: number; id?: number };
+      expect(r2.solved!.current).toBeCloseTo(Math.abs(nominal.ic ?? nominal.id!), 9);
+      // And the solved state is an operating point: KCL at the loop nodes balances (computed here).
+      const solvedNodes = { ...r2.solved!.nodes };
+      expect(largestImbalance(text, solvedNodes, ['n1', 'p'])).toBeLessThan(1e-3 * s2.solvedCurrent!);
+    });
+  }
 
   it('mirrors that are not in a loop get no start-up record and no warning', () => {
     const { warnings, loops } = check(`an invented two-stage bias chain
