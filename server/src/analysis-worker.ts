@@ -11,7 +11,7 @@ import { histogramText, spreadText } from '../../shared-analysis/src/variation/t
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
 import type { MonteCarloReply } from './protocol';
 import type { DcSolver, DcSolveResult } from '../../shared-analysis/src/solve/dc';
-import type { Structure } from '../../shared-analysis/src/structures/types';
+import { cornerColumns, type CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
@@ -218,8 +218,12 @@ function handle(msg: ToWorker): void {
       const findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal });
       kept.nominal = undefined;
       if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
-      const corners: Record<string, Structure['corners']> = nameTable();
-      for (const st of kept.analysis.structures) corners[st.id] = st.corners;
+      // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.
+      const corners: Record<string, CornerColumns> = nameTable();
+      for (const st of kept.analysis.structures) {
+        const cols = cornerColumns(st);
+        if (cols) corners[st.id] = cols;
+      }
       post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
       return;
     }

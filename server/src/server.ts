@@ -88,6 +88,7 @@ import { seriesValues } from '../../shared-analysis/src/fixes/e-series';
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import { attachVariation } from '../../shared-analysis/src/variation/index';
+import { setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -435,7 +436,7 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   if (r.stale || cache.get(uri)?.analysis !== analysis) return;
   for (const s of analysis.structures) {
     const c = r.corners[s.id];
-    if (c) s.corners = c;
+    if (c) setCornerColumns(s, c);
   }
   if (r.variation && !analysis.variation) {
     analysis.variation = r.variation;

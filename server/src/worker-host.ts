@@ -10,7 +10,7 @@ import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { MonteCarloReply } from './protocol';
-import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { FromWorker, SizingData, ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
 
@@ -215,7 +215,7 @@ export class WorkerHost {
   }
 
   /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings and each structure's corners by id. */
-  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, Structure['corners']>; variation?: VariationResult; stale: boolean }> {
+  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale: boolean }> {
     const msg = await this.request((id) => ({ type: 'corners', id, uri, version }), `The corners of ${uri}`);
     if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, ...(msg.variation ? { variation: msg.variation } : {}), stale: msg.stale === true };
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');

@@ -5,8 +5,8 @@ import type { AnalysisPart } from './analysis-transfer';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
-import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
+import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { ReadPolicy } from './read-policy';
 import type { MonteCarloReply } from './protocol';
 
@@ -63,5 +63,5 @@ export type FromWorker =
   /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
   /** The corner phase's findings and each structure's corner results by structure id; `stale` when the worker holds another version. */
-  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, Structure['corners']>; variation?: VariationResult; stale?: boolean }
+  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale?: boolean }
   | { type: 'failed'; id: number; message: string };

@@ -60,6 +60,8 @@ export function restoreNameTables<A extends NameTables>(analysis: A): A {
     if (s.estimate) for (const t of [s.estimate.iout, s.estimate.outputEdge, s.estimate.voltages, s.estimate.voltageTempco]) asNameTable(t);
     asNameTable(s.solved?.iout);
     for (const t of [s.headroom, s.compliance, s.outputResistance, s.roles, s.parts, s.params]) asNameTable(t as Record<string, unknown> | undefined);
+    // Corners still held as columns (an accessor) build prototype-free records when first read.
+    if (Object.getOwnPropertyDescriptor(s, 'corners')?.get) continue;
     for (const c of s.corners ?? []) for (const t of [c.iout, c.headroom, c.voltages]) asNameTable(t);
   }
   for (const sc of analysis.symbols?.subckts ?? []) asNameTable(sc.params);

@@ -8,7 +8,9 @@ import type { SolveOptions } from '../solve/types';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
-import type { CornerResult, Structure } from '../structures/types';
+import type { Structure } from '../structures/types';
+import { setCornerColumns, summariseOutputs, type CornerAxis, type CornerColumns, type OutputCornerSummary } from '../structures/corner-columns';
+import { topologyOf } from '../structures/topology';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
 import { modelValue } from '../variation/sensitivity';
@@ -211,13 +213,34 @@ export function runCorners(ctx: CornerContext): Finding[] {
   let solveMs = 0;
   const tStart = clock();
   let iterations = 0;
-  // Each corner's point is measured for every structure as soon as it is solved and then dropped:
-  // holding every corner's full operating point at once (tens of thousands of records each on a
-  // large array) costs more in memory and garbage collection than the measurements themselves.
-  const solved: { spec: CornerSpec; converged: boolean }[] = [];
-  const measured: (Measurement | undefined)[][] = structures.map(() => []);
-  const voltagesAt: (Record<string, number> | undefined)[][] = structures.map(() => []);
-  for (const spec of specs) {
+  // Results go straight into one typed array per quantity per structure (corner k of output o at
+  // o·C + k); no corner's full operating point is kept, and its name-keyed tables are never built.
+  const C = specs.length;
+  const axis: CornerAxis = {
+    labels: specs.map((s) => s.label),
+    supplyScale: Float64Array.from(specs, (s) => (s.singleSource ? s.singleScale ?? 1 : s.supplyScale)),
+    temperatureC: Float64Array.from(specs, (s) => s.temperatureC),
+    betaScale: Float64Array.from(specs, (s) => s.betaScale),
+    process: specs.map((s) => s.process),
+    converged: new Uint8Array(C),
+  };
+  const columns: CornerColumns[] = structures.map((s) => {
+    const O = s.outputs.length;
+    const voltageNames = (s.voltages ?? []).map((v) => v.name);
+    return {
+      axis,
+      outputs: s.outputs.map((o) => o.device),
+      iref: new Float64Array(C),
+      iout: new Float64Array(O * C),
+      headroom: new Float64Array(O * C),
+      outOfRegion: new Uint8Array(O * C),
+      voltageNames,
+      voltages: new Float64Array(voltageNames.length * C).fill(NaN),
+    };
+  });
+  const topology = topologyOf(circuit);
+  let failedCount = 0;
+  specs.forEach((spec, k) => {
     const sourceValues: Record<string, number> = nameTable();
     for (const name of sources) {
       const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
@@ -234,15 +257,32 @@ export function runCorners(ctx: CornerContext): Finding[] {
     }
     solveMs += clock() - ts;
     iterations += result?.stats.iterations ?? 0;
-    const ok = !!result && result.op.converged;
-    solved.push({ spec, converged: ok });
+    if (!result || !result.op.converged) {
+      failedCount++;
+      return;
+    }
+    axis.converged[k] = 1;
+    const op = result.op;
     structures.forEach((s, i) => {
-      measured[i].push(ok ? measureStructure(circuit, result!.op, s) : undefined);
-      voltagesAt[i].push(ok ? structureVoltages(s, result!.op, circuit) : undefined);
+      const m = measureStructure(circuit, op, s, topology);
+      const col = columns[i];
+      col.iref[k] = finite(m.iref);
+      col.outputs.forEach((device, o) => {
+        col.iout[o * C + k] = finite(m.iout[device]);
+        col.headroom[o * C + k] = finite(m.headroom[device]);
+        if (m.outOfRegion.includes(device)) col.outOfRegion[o * C + k] = 1;
+      });
+      if (col.voltageNames.length > 0) {
+        const vs = structureVoltages(s, op, circuit);
+        col.voltageNames.forEach((name, v) => {
+          const x = vs?.[name];
+          if (x !== undefined) col.voltages[v * C + k] = x;
+        });
+      }
     });
-  }
+  });
 
-  const failed = solved.filter((s) => !s.converged).map((s) => s.spec.label);
+  const failed = axis.labels.filter((_, k) => axis.converged[k] !== 1);
   const elements = new Map<string, Element>();
   for (const e of circuit.elements) elements.set(e.name, e);
 
@@ -259,71 +299,40 @@ export function runCorners(ctx: CornerContext): Finding[] {
     });
   }
 
+  const converged = C - failedCount;
   structures.forEach((s, index) => {
     // The whole circuit, not a per-structure view: its topology is built once and cached, so every
-    // (structure, corner) measurement is a handful of map look-ups.
-    const nominalM = measureStructure(circuit, nominal.op, s);
-    s.corners = solved.map(({ spec }, k) => toCornerResult(spec, measured[index][k], s, voltagesAt[index][k]));
+    // (structure, corner) measurement is a handful of index reads.
+    const nominalM = measureStructure(circuit, nominal.op, s, topology);
+    setCornerColumns(s, columns[index]);
     summariseVoltageCorners(s);
-    for (const o of s.outputs) {
-      const sweep = sweepOf(o.device, s, nominalM);
+    const summaries = summariseOutputs(columns[index]);
+    s.outputs.forEach((o, oi) => {
       const el = elements.get(o.device);
-      if (!el) continue;
-      pushAll(findings, outputFindings(s, el, sweep, options, s.corners.filter((c) => c.converged).length));
-    }
+      if (!el) return;
+      pushAll(findings, outputFindings(s, el, sweepOf(o.device, nominalM, columns[index], oi, summaries[oi]), options, converged));
+    });
   });
   if (ctx.stats) {
-    Object.assign(ctx.stats, { corners: specs.length, converged: specs.length - failed.length, iterations, solveMs, measureMs: clock() - tStart - solveMs });
+    Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs });
   }
   return findings;
 }
 
-function toCornerResult(spec: CornerSpec, m: Measurement | undefined, s: Structure, voltages?: Record<string, number>): CornerResult {
-  if (!m) {
-    return {
-      label: spec.label,
-      supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
-      temperatureC: spec.temperatureC,
-      betaScale: spec.betaScale,
-      ...(spec.process ? { process: spec.process } : {}),
-      converged: false,
-      iref: 0,
-      iout: Object.fromEntries(s.outputs.map((o) => [o.device, 0])),
-      headroom: Object.fromEntries(s.outputs.map((o) => [o.device, 0])),
-      outOfRegion: [],
-    };
+function sweepOf(device: string, nominalM: Measurement, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
+  const C = cols.axis.labels.length;
+  const out: { label: string; headroom: number }[] = [];
+  for (let k = 0; k < C; k++) {
+    if (cols.axis.converged[k] === 1 && cols.outOfRegion[o * C + k]) out.push({ label: cols.axis.labels[k], headroom: cols.headroom[o * C + k] });
   }
   return {
-    label: spec.label,
-    supplyScale: spec.singleSource ? spec.singleScale ?? 1 : spec.supplyScale,
-    temperatureC: spec.temperatureC,
-    betaScale: spec.betaScale,
-    ...(spec.process ? { process: spec.process } : {}),
-    converged: true,
-    iref: finite(m.iref),
-    iout: mapFinite(m.iout),
-    headroom: mapFinite(m.headroom),
-    outOfRegion: [...m.outOfRegion],
-    ...(voltages ? { voltages } : {}),
-  };
-}
-
-function sweepOf(device: string, s: Structure, nominalM: Measurement): OutputSweep {
-  const sweep: OutputSweep = {
     device,
     nominal: { iout: finite(nominalM.iout[device]), headroom: finite(nominalM.headroom[device]), outOfRegion: nominalM.outOfRegion.includes(device) },
-    out: [],
+    out,
+    minHeadroom: summary.minHeadroom && { label: summary.minHeadroom.corner, headroom: summary.minHeadroom.value },
+    minCurrent: summary.minCurrent && { label: summary.minCurrent.corner, value: summary.minCurrent.value },
+    maxCurrent: summary.maxCurrent && { label: summary.maxCurrent.corner, value: summary.maxCurrent.value },
   };
-  for (const c of s.corners) {
-    if (!c.converged) continue;
-    const h = finite(c.headroom[device]);
-    const i = finite(c.iout[device]);
-    if (c.outOfRegion.includes(device)) sweep.out.push({ label: c.label, headroom: h });
-    if (!sweep.minHeadroom || h < sweep.minHeadroom.headroom) sweep.minHeadroom = { label: c.label, headroom: h };
-    if (!sweep.minCurrent || i < sweep.minCurrent.value) sweep.minCurrent = { label: c.label, value: i };
-    if (!sweep.maxCurrent || i > sweep.maxCurrent.value) sweep.maxCurrent = { label: c.label, value: i };
-  }
-  return sweep;
 }
 
 const V = (v: number): string => formatEngineering(v, { unit: 'V' });
@@ -409,10 +418,4 @@ function outputFindings(s: Structure, el: Element, sw: OutputSweep, options: Res
 
 function finite(x: number | undefined): number {
   return x !== undefined && Number.isFinite(x) ? x : 0;
-}
-
-function mapFinite(m: Record<string, number>): Record<string, number> {
-  const out: Record<string, number> = nameTable();
-  for (const [k, v] of Object.entries(m)) out[k] = finite(v);
-  return out;
 }

@@ -1,0 +1,135 @@
+// A structure's corner results stored column-wise: one typed array per quantity, one entry per corner (and per output).
+
+import { nameTable } from '../names';
+import type { CornerResult, Structure } from './types';
+
+/**
+ * The corner list one analysis solved, shared by every structure of it: labels and conditions,
+ * one entry per corner in solve order.
+ */
+export interface CornerAxis {
+  labels: string[];
+  supplyScale: Float64Array;
+  temperatureC: Float64Array;
+  betaScale: Float64Array;
+  /** The MOS process corner of each corner ('slow', 'fast'), undefined where the process is typical. */
+  process: ('slow' | 'fast' | undefined)[];
+  /** 1 where the corner's operating point converged. */
+  converged: Uint8Array;
+}
+
+/**
+ * One structure's results at every corner of an axis. Output o at corner k sits at `o·C + k`
+ * (C = number of corners); outputs in the order of `outputs` (the structure's own order).
+ * Values of a corner that did not converge are 0.
+ */
+export interface CornerColumns {
+  axis: CornerAxis;
+  outputs: string[];
+  iref: Float64Array;
+  iout: Float64Array;
+  headroom: Float64Array;
+  /** 1 where the output is out of its active region. */
+  outOfRegion: Uint8Array;
+  /** Names of the structure's derived voltages; voltage v at corner k sits at `v·C + k`, NaN where it could not be read. */
+  voltageNames: string[];
+  voltages: Float64Array;
+}
+
+const columnsOf = new WeakMap<Structure, CornerColumns>();
+
+/** The column-wise corner results of a structure, when its corners were solved in this process (or handed over as columns). */
+export function cornerColumns(s: Structure): CornerColumns | undefined {
+  return columnsOf.get(s);
+}
+
+/**
+ * Stores a structure's corner results as columns. `s.corners` then builds the per-corner records
+ * from them the first time it is read (hover, a full JSON report), and keeps them; until then no
+ * per-corner object exists. The columns are not an enumerable property, so copying the structure
+ * (JSON, structured cloning) copies `corners` as plain records.
+ */
+export function setCornerColumns(s: Structure, cols: CornerColumns): void {
+  columnsOf.set(s, cols);
+  let built: CornerResult[] | undefined;
+  Object.defineProperty(s, 'corners', {
+    enumerable: true,
+    configurable: true,
+    get: () => (built ??= cornerRecords(cols)),
+    set: (value: CornerResult[]) => {
+      columnsOf.delete(s);
+      Object.defineProperty(s, 'corners', { value, writable: true, enumerable: true, configurable: true });
+    },
+  });
+}
+
+/** The per-corner records of a structure's columns, as `Structure.corners` lists them. */
+export function cornerRecords(cols: CornerColumns): CornerResult[] {
+  const { axis, outputs } = cols;
+  const C = axis.labels.length;
+  const out: CornerResult[] = [];
+  for (let k = 0; k < C; k++) {
+    const iout: Record<string, number> = nameTable();
+    const headroom: Record<string, number> = nameTable();
+    const outOfRegion: string[] = [];
+    outputs.forEach((name, o) => {
+      iout[name] = cols.iout[o * C + k];
+      headroom[name] = cols.headroom[o * C + k];
+      if (cols.outOfRegion[o * C + k]) outOfRegion.push(name);
+    });
+    const r: CornerResult = {
+      label: axis.labels[k],
+      supplyScale: axis.supplyScale[k],
+      temperatureC: axis.temperatureC[k],
+      betaScale: axis.betaScale[k],
+      ...(axis.process[k] ? { process: axis.process[k] } : {}),
+      converged: axis.converged[k] === 1,
+      iref: cols.iref[k],
+      iout,
+      headroom,
+      outOfRegion: axis.converged[k] === 1 ? outOfRegion : [],
+    };
+    if (axis.converged[k] === 1 && cols.voltageNames.length > 0) {
+      const voltages: Record<string, number> = nameTable();
+      cols.voltageNames.forEach((name, v) => {
+        const x = cols.voltages[v * C + k];
+        if (!Number.isNaN(x)) voltages[name] = x;
+      });
+      r.voltages = voltages;
+    }
+    out.push(r);
+  }
+  return out;
+}
+
+/** Per output, the worst corners: lowest and highest current and lowest headroom, with where (converged corners only). */
+export interface OutputCornerSummary {
+  device: string;
+  convergedCorners: number;
+  minCurrent?: { value: number; corner: string };
+  maxCurrent?: { value: number; corner: string };
+  minHeadroom?: { value: number; corner: string };
+  /** Labels of the corners where the output leaves its active region. */
+  outOfRegionAt: string[];
+}
+
+/** The summary of every output of one structure's columns (first corner wins a tie, as the corner checks read them). */
+export function summariseOutputs(cols: CornerColumns): OutputCornerSummary[] {
+  const { axis } = cols;
+  const C = axis.labels.length;
+  return cols.outputs.map((device, o) => {
+    const s: OutputCornerSummary = { device, convergedCorners: 0, outOfRegionAt: [] };
+    for (let k = 0; k < C; k++) {
+      if (axis.converged[k] !== 1) continue;
+      s.convergedCorners++;
+      const i = cols.iout[o * C + k];
+      const h = cols.headroom[o * C + k];
+      const label = axis.labels[k];
+      if (!s.minCurrent || i < s.minCurrent.value) s.minCurrent = { value: i, corner: label };
+      if (!s.maxCurrent || i > s.maxCurrent.value) s.maxCurrent = { value: i, corner: label };
+      if (!s.minHeadroom || h < s.minHeadroom.value) s.minHeadroom = { value: h, corner: label };
+      if (cols.outOfRegion[o * C + k]) s.outOfRegionAt.push(label);
+    }
+    return s;
+  });
+}

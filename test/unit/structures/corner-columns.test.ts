@@ -1,0 +1,83 @@
+// Corner results stored column-wise: the per-corner records built from the columns, the per-output summary, and a copy across threads.
+
+import { describe, expect, it } from 'vitest';
+import { cornerColumns, cornerRecords, setCornerColumns, summariseOutputs, type CornerColumns } from '../../../shared-analysis/src/structures/corner-columns';
+import { analyse } from '../../../shared-analysis/src/service';
+import type { Structure } from '../../../shared-analysis/src/structures/types';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+
+/** Three corners, two outputs, one derived voltage; the second corner did not converge. Invented numbers. */
+function sample(): CornerColumns {
+  return {
+    axis: {
+      labels: ['supply −5 %', 'supply +5 %', '125 °C'],
+      supplyScale: Float64Array.of(0.95, 1.05, 1),
+      temperatureC: Float64Array.of(27, 27, 125),
+      betaScale: Float64Array.of(1, 1, 1),
+      process: [undefined, undefined, 'slow'],
+      converged: Uint8Array.of(1, 0, 1),
+    },
+    outputs: ['Q2', 'Q3'],
+    iref: Float64Array.of(1e-3, 0, 1.1e-3),
+    // Output o at corner k sits at o·3 + k.
+    iout: Float64Array.of(0.9e-3, 0, 1.2e-3, 2e-3, 0, 1.8e-3),
+    headroom: Float64Array.of(1.5, 0, -0.1, 2, 0, 0.2),
+    outOfRegion: Uint8Array.of(0, 0, 1, 0, 0, 0),
+    voltageNames: ['VREF'],
+    voltages: Float64Array.of(1.2, NaN, NaN),
+  };
+}
+
+describe('corner columns', () => {
+  it('build the records Structure.corners lists, a corner that did not converge carrying zeros', () => {
+    const recs = cornerRecords(sample());
+    expect(recs.map((r) => r.label)).toEqual(['supply −5 %', 'supply +5 %', '125 °C']);
+    expect(recs[0]).toEqual({ label: 'supply −5 %', supplyScale: 0.95, temperatureC: 27, betaScale: 1, converged: true, iref: 1e-3, iout: { Q2: 0.9e-3, Q3: 2e-3 }, headroom: { Q2: 1.5, Q3: 2 }, outOfRegion: [], voltages: { VREF: 1.2 } });
+    expect(recs[1]).toEqual({ label: 'supply +5 %', supplyScale: 1.05, temperatureC: 27, betaScale: 1, converged: false, iref: 0, iout: { Q2: 0, Q3: 0 }, headroom: { Q2: 0, Q3: 0 }, outOfRegion: [] });
+    // A voltage that could not be read is left out, not shown as NaN.
+    expect(recs[2].voltages).toEqual({});
+    expect(recs[2].outOfRegion).toEqual(['Q2']);
+    expect(recs[2].process).toBe('slow');
+    expect('process' in recs[0]).toBe(false);
+  });
+
+  it('summarise each output over the converged corners only', () => {
+    const [q2, q3] = summariseOutputs(sample());
+    expect(q2).toEqual({ device: 'Q2', convergedCorners: 2, minCurrent: { value: 0.9e-3, corner: 'supply −5 %' }, maxCurrent: { value: 1.2e-3, corner: '125 °C' }, minHeadroom: { value: -0.1, corner: '125 °C' }, outOfRegionAt: ['125 °C'] });
+    expect(q3.minCurrent).toEqual({ value: 1.8e-3, corner: '125 °C' });
+    expect(q3.outOfRegionAt).toEqual([]);
+  });
+
+  it('give a structure its records on first read, and copy them as plain records', () => {
+    const s = { id: 's', corners: [] } as unknown as Structure;
+    const cols = sample();
+    setCornerColumns(s, cols);
+    expect(cornerColumns(s)).toBe(cols);
+    expect(s.corners).toEqual(cornerRecords(cols));
+    expect(s.corners).toBe(s.corners);
+    expect(JSON.parse(JSON.stringify(s)).corners).toEqual(cornerRecords(cols));
+    expect(structuredClone(cols).iout).toEqual(cols.iout);
+    s.corners = [];
+    expect(s.corners).toEqual([]);
+    expect(cornerColumns(s)).toBeUndefined();
+  });
+
+  it('hold what an analysis measured at every corner, read back through the records', () => {
+    // An invented NPN mirror: 4.3 kΩ from 5 V into the reference, 2 kΩ load.
+    const text = 'mirror\nVCC vcc 0 5\nR1 vcc r 4.3k\nQ1 r r 0 QN\nQ2 o r 0 QN\nRL vcc o 2k\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n.end\n';
+    const a = analyse({ uri: '/m.cir', text }, new MemoryWorkspace({ '/m.cir': text }));
+    const s = a.structures[0];
+    const cols = cornerColumns(s)!;
+    expect(cols.axis.labels.length).toBe(26);
+    const C = cols.axis.labels.length;
+    s.corners.forEach((c, k) => {
+      expect(c.iout['Q2']).toBe(cols.iout[k]);
+      expect(c.headroom['Q2']).toBe(cols.headroom[k]);
+      expect(c.converged).toBe(true);
+    });
+    // Physics, not bookkeeping: the output current is higher at +5 % supply than at −5 % (a larger IREF = (VCC − VBE)/R1).
+    const at = (label: string) => cols.iout[cols.axis.labels.indexOf(label)];
+    expect(at('supply +5 %')).toBeGreaterThan(at('supply −5 %'));
+    expect(C).toBe(s.corners.length);
+  });
+});
