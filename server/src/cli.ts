@@ -8,7 +8,7 @@ import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-ana
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatMeasured } from '../../shared-analysis/src/fixes/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
-import { powerTable } from '../../shared-analysis/src/checks/devices/power';
+import { powerEntries } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
@@ -16,6 +16,11 @@ import { derivedVoltageLines, outputWords, startupLine } from '../../shared-anal
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapeJsonText } from './escape';
+import { JsonEntries, writeJson } from './json-stream';
+import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
+import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
+import type { Structure } from '../../shared-analysis/src/structures/types';
+import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 
 /** Shown with every report: the numbers are for design review, not sign-off. */
 export const CAUTION =
@@ -59,6 +64,9 @@ Options:
   --monte-carlo N              also run N seeded Monte Carlo re-solves (1 to 100000); 'report'
                                prints their σ and histogram beside the linear figures
   --seed S                     the Monte Carlo seed (default 1); the same seed repeats the numbers
+  --all-corners                JSON: every structure's results at every corner, not only the
+                               per-output summary (worst current and headroom, and where)
+  --compact                    JSON and SARIF on one line, without indentation
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
   --include-root DIR           also let .include read files under DIR; repeatable
@@ -93,6 +101,10 @@ interface CliOptions {
   includeAnywhere: boolean;
   /** `--monte-carlo N` and `--seed S`: seeded re-solves after the analysis (docs/VARIATION.md). */
   monteCarlo?: { runs: number; seed: number };
+  /** JSON: every corner's results, not only the summary. */
+  allCorners: boolean;
+  /** JSON and SARIF without indentation. */
+  compact: boolean;
 }
 
 /**
@@ -159,7 +171,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {}, includeRoots: [], includeAnywhere: false };
+  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {}, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -237,6 +249,12 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         break;
       case '--seed':
         opts.monteCarlo = { runs: opts.monteCarlo?.runs ?? 0, seed: numberFlag(a, next(), OPTION_RULES.seed) };
+        break;
+      case '--all-corners':
+        opts.allCorners = true;
+        break;
+      case '--compact':
+        opts.compact = true;
         break;
       case '--severity': {
         const spec = next() ?? '';
@@ -394,23 +412,119 @@ function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
   });
 }
 
-/** The CLI's JSON document (version 1). Field meanings are documented in the README. */
-export function jsonReport(results: FileResult[]): unknown {
+/** The version of the CLI's JSON document; 2 summarises corners per output unless `--all-corners` asks for them all. */
+export const JSON_VERSION = 2;
+
+/**
+ * The CLI's JSON document. Field meanings are documented in the README. The operating point,
+ * the power table and the structures are `JsonEntries`, produced while `writeJson` writes them
+ * (from the solver's vectors, without building the point's name-keyed tables).
+ */
+export function jsonReport(results: FileResult[], options: { allCorners?: boolean } = {}): unknown {
   return {
-    version: 1,
+    version: JSON_VERSION,
     tool: 'qpoint',
     caution: CAUTION,
-    files: results.map((r) => ({
-      path: r.path,
-      diagnostics: toJsonDiagnostics(r),
-      ...(r.analysis?.operatingPoint ? { operatingPoint: r.analysis.operatingPoint } : {}),
-      ...(r.analysis?.operatingPoint && r.analysis.circuit
-        ? { power: powerTable(r.analysis.circuit.elements, r.analysis.operatingPoint.devices, r.analysis.options) }
-        : {}),
-      ...(r.analysis ? { structures: r.analysis.structures } : {}),
-      ...(r.analysis?.variation ? { variation: r.analysis.variation } : {}),
-    })),
+    files: results.map((r) => {
+      const a = r.analysis;
+      const op = a?.operatingPoint;
+      const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
+      return {
+        path: r.path,
+        diagnostics: toJsonDiagnostics(r),
+        ...(op && a ? { operatingPoint: pointForJson(op) } : {}),
+        ...(op && a?.circuit && reader
+          ? { power: new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options)) }
+          : {}),
+        ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
+        ...(a?.variation ? { variation: a.variation } : {}),
+      };
+    }),
   };
+}
+
+/** The operating point as JSON shows it, its tables streamed from the vectors when it has them. */
+function pointForJson(op: OperatingPoint): unknown {
+  const v = pointVectors(op);
+  if (!v) return op;
+  return new JsonEntries(function* () {
+    for (const k of Object.keys(op)) {
+      if (k === 'nodes') yield [k, new JsonEntries(() => v.nodeEntries())];
+      else if (k === 'devices') yield [k, new JsonEntries(() => v.deviceEntries())];
+      else yield [k, (op as unknown as Record<string, unknown>)[k]];
+    }
+  });
+}
+
+/**
+ * A structure as JSON shows it: every field, with `corners` replaced by `cornerSummary` (per output
+ * the lowest and highest current and the lowest headroom, each with its corner, and where it leaves
+ * its region) unless every corner is asked for, when both are written.
+ */
+function structureForJson(s: Structure, allCorners: boolean): unknown {
+  return new JsonEntries(function* () {
+    for (const k of Object.keys(s)) {
+      if (k !== 'corners') {
+        yield [k, (s as unknown as Record<string, unknown>)[k]];
+        continue;
+      }
+      const cols = cornerColumns(s);
+      const summaries = cols ? summariseOutputs(cols) : summariseCornerRecords(s);
+      const total = cols ? cols.axis.labels.length : s.corners.length;
+      if (total > 0) {
+        yield ['cornerSummary', {
+          corners: total,
+          converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
+          outputs: summaries.map((o) => ({
+            device: o.device,
+            ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent) } : {}),
+            ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent) } : {}),
+            ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom) } : {}),
+            outOfRegionAt: o.outOfRegionAt.map(cornerKey),
+          })),
+        }];
+      }
+      if (allCorners) yield ['corners', s.corners];
+    }
+  });
+}
+
+/** A value at a corner: the corner's ASCII key and its label as people read it. */
+function cornerValue(x: { value: number; corner: string }): { value: number; corner: string; label: string } {
+  return { value: x.value, corner: cornerKey(x.corner), label: x.corner };
+}
+
+/**
+ * A corner label as a plain-ASCII key: 'supply −5 %, −40 °C, beta ×0.5' → 'supply_-5%,-40C,beta_x0.5',
+ * 'VCC alone +5 %' → 'VCC_alone_+5%'; any other character outside printable ASCII becomes uXXXX.
+ */
+export function cornerKey(label: string): string {
+  return label
+    .replace(/\u2212/g, '-')
+    .replace(/ °C/g, 'C')
+    .replace(/ %/g, '%')
+    .replace(/, /g, ',')
+    .replace(/×/g, 'x')
+    .replace(/ /g, '_')
+    .replace(/[^\x21-\x7e]/g, (c) => `u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
+}
+
+/** The per-output summary from a structure's corner records (corners that did not come as columns). */
+function summariseCornerRecords(s: Structure): OutputCornerSummary[] {
+  return s.outputs.map((o) => {
+    const r: OutputCornerSummary = { device: o.device, convergedCorners: 0, outOfRegionAt: [] };
+    for (const c of s.corners) {
+      if (!c.converged) continue;
+      r.convergedCorners++;
+      const i = c.iout[o.device] ?? 0;
+      const h = c.headroom[o.device] ?? 0;
+      if (!r.minCurrent || i < r.minCurrent.value) r.minCurrent = { value: i, corner: c.label };
+      if (!r.maxCurrent || i > r.maxCurrent.value) r.maxCurrent = { value: i, corner: c.label };
+      if (!r.minHeadroom || h < r.minHeadroom.value) r.minHeadroom = { value: h, corner: c.label };
+      if (c.outOfRegion.includes(o.device)) r.outOfRegionAt.push(c.label);
+    }
+    return r;
+  });
 }
 
 const SARIF_LEVEL: Record<Severity, string> = { error: 'error', warning: 'warning', info: 'note', hint: 'note' };
@@ -567,6 +681,12 @@ export function textReport(r: FileResult): string {
 
 const VERSION = '0.1.0';
 
+/** Writes a JSON document in chunks (never as one string), indented unless `--compact`, control characters escaped. */
+function writeDocument(doc: unknown, opts: CliOptions, write: (s: string) => void): void {
+  writeJson(doc, write, { indent: opts.compact ? 0 : 2, transform: escapeJsonText });
+  write('\n');
+}
+
 /** Runs the CLI; returns the exit code (see EXIT). */
 export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number {
   let opts: ReturnType<typeof parseArgs>;
@@ -594,12 +714,12 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
   const failing = results.some((r) => r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
   if (opts.command === 'report') {
     // The same document as `check --format json` (it carries the caution too); the exit code stays the report's.
-    if (opts.format === 'json') write(escapeJsonText(JSON.stringify(jsonReport(results), null, 2)) + '\n');
+    if (opts.format === 'json') writeDocument(jsonReport(results, opts), opts, write);
     else write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
     return failed ? EXIT.failed : EXIT.clean;
   }
-  if (opts.format === 'json') write(escapeJsonText(JSON.stringify(jsonReport(results), null, 2)) + '\n');
-  else if (opts.format === 'sarif') write(escapeJsonText(JSON.stringify(sarifReport(results), null, 2)) + '\n');
+  if (opts.format === 'json') writeDocument(jsonReport(results, opts), opts, write);
+  else if (opts.format === 'sarif') writeDocument(sarifReport(results), opts, write);
   else {
     const lines = textLines(results);
     write(lines.length ? lines.join('\n') + '\n' : '');

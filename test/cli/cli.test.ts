@@ -54,7 +54,7 @@ describe('qpoint check', () => {
     const p = file('bad2.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
     const r = run(['check', '--format', 'json', p]);
     const doc = JSON.parse(r.stdout);
-    expect(doc.version).toBe(1);
+    expect(doc.version).toBe(2);
     expect(doc.files).toHaveLength(1);
     expect(doc.files[0].path).toBe(p);
     const d = doc.files[0].diagnostics.find((x: { code: string }) => x.code === 'model-not-found');
@@ -75,6 +75,30 @@ describe('qpoint check', () => {
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — IOUT = IREF/(1 + 2/β), β = 100 (no Early effect in this model).
     expect(s.estimate.iout.Q2 / s.estimate.iref).toBeCloseTo(1 / 1.02, 6);
     expect(Math.abs(s.solved.iout.Q2 - s.estimate.iout.Q2) / s.estimate.iout.Q2).toBeLessThan(0.005);
+  });
+
+  it('summarises each output over the corners by default, lists every corner on request, and writes one line with --compact', () => {
+    const p = file('mc.cir', MIRROR);
+    const summary = JSON.parse(run(['check', '--format', 'json', p]).stdout).files[0].structures[0];
+    expect(summary.corners).toBeUndefined();
+    expect(summary.cornerSummary.corners).toBe(26);
+    const all = JSON.parse(run(['check', '--format', 'json', '--all-corners', p]).stdout).files[0].structures[0];
+    expect(all.corners).toHaveLength(26);
+    // The summary is the extreme of the full list, computed here independently.
+    const out = summary.cornerSummary.outputs[0];
+    expect(out.device).toBe('Q2');
+    const currents = all.corners.map((c: { iout: Record<string, number> }) => c.iout.Q2);
+    expect(out.minCurrent.value).toBe(Math.min(...currents));
+    expect(out.maxCurrent.value).toBe(Math.max(...currents));
+    expect(out.minHeadroom.value).toBe(Math.min(...all.corners.map((c: { headroom: Record<string, number> }) => c.headroom.Q2)));
+    const at = all.corners.find((c: { iout: Record<string, number> }) => c.iout.Q2 === out.maxCurrent.value);
+    expect(out.maxCurrent.label).toBe(at.label);
+    expect(out.maxCurrent.corner).toMatch(/^[\x21-\x7e]+$/);
+    // Source: (common practice) a larger supply gives the resistor-fed reference more current: the maximum is at +5 %.
+    expect(out.maxCurrent.label).toMatch(/^supply \+5 %/);
+    const compact = run(['check', '--format', 'json', '--compact', p]).stdout;
+    expect(compact.trimEnd().split('\n')).toHaveLength(1);
+    expect(JSON.parse(compact)).toEqual(JSON.parse(run(['check', '--format', 'json', p]).stdout));
   });
 
   it('writes SARIF 2.1.0 with rules and 1-based regions', () => {

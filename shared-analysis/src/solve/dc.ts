@@ -143,6 +143,16 @@ export class DcSolver {
   private conductanceOverride = new Map<number, number>();
   /** Resistors with a temperature coefficient, scaled at every solve. */
   private readonly tcResistors: number[] = [];
+  private namesUnique: boolean | undefined;
+  /** Whether every element of the circuit has its own name (worked out on first use). */
+  private readonly uniqueNames = (): boolean => {
+    if (this.namesUnique === undefined) {
+      const seen = new Set<string>();
+      for (const el of this.circuit.elements) seen.add(el.name);
+      this.namesUnique = seen.size === this.circuit.elements.length;
+    }
+    return this.namesUnique;
+  };
   /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
   private readonly elementSlot: Int32Array;
   /** The device tables as the netlist gives them; a solve with `deviceParameters` swaps rebuilt ones in for its duration. */
@@ -755,7 +765,20 @@ export class DcSolver {
       const t = deviceOrder.table[d];
       return tables[t].kind.regions[columns[t].region[deviceOrder.instance[d]]];
     };
-    const op = lazyPoint(head, { volts, record, value, region }, build);
+    const unique = this.uniqueNames;
+    function* nodeEntries(): Iterable<[string, number]> {
+      for (let i = 0; i < c.nodes.length; i++) yield [c.nodes[i], volts[i]];
+    }
+    // With a name written twice the table keeps the first position and the last record: read the table then.
+    function* deviceEntries(): Iterable<[string, DeviceRecord]> {
+      if (!unique()) {
+        for (const [k, r] of Object.entries(op.devices)) yield [k, r];
+        return;
+      }
+      for (let k = 0; k < readers.length; k++) yield [c.elements[readers[k].element].name, twoTerminal(k, quietClamp)];
+      for (let d = 0; d < deviceOrder.element.length; d++) yield [c.elements[deviceOrder.element[d]].name, device(d, quietClamp)];
+    }
+    const op = lazyPoint(head, { volts, record, value, region, nodeEntries, deviceEntries }, build);
     if (overflow) {
       for (let i = 1; i < c.nodes.length; i++) if (!inRange(x[i - 1])) overflowed.push(`node ${c.nodes[i]}`);
       void op.devices;

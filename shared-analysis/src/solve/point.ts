@@ -20,6 +20,12 @@ export interface PointVectors {
   value(e: number, quantity: string): number | undefined;
   /** The region name of a nonlinear device's record, undefined for other elements. */
   region(e: number): string | undefined;
+  /**
+   * The `nodes` and `devices` tables' entries in their order, produced one at a time (for a writer
+   * that streams a large point without building its tables; records are not kept).
+   */
+  nodeEntries(): Iterable<[string, number]>;
+  deviceEntries(): Iterable<[string, DeviceRecord]>;
 }
 
 const vectors = new WeakMap<OperatingPoint, PointVectors>();

@@ -70,12 +70,18 @@ export interface PowerEntry {
  */
 export function powerTable(elements: readonly Element[], devices: Record<string, DeviceRecord>, options: ResolvedOptions): Record<string, PowerEntry> {
   const out: Record<string, PowerEntry> = nameTable();
-  for (const el of elements) {
+  for (const [name, entry] of powerEntries(elements, (e) => devices[elements[e].name], options)) out[name] = entry;
+  return out;
+}
+
+/** The entries of `powerTable` one at a time, each element's record read through `recordOf(element index)` (a streaming writer's form). */
+export function* powerEntries(elements: readonly Element[], recordOf: (e: number) => DeviceRecord | undefined, options: ResolvedOptions): Iterable<[string, PowerEntry]> {
+  for (let e = 0; e < elements.length; e++) {
+    const el = elements[e];
     const limit = powerLimit(el, options);
     if (!limit) continue;
-    const watts = dissipation(devices[el.name]);
+    const watts = dissipation(recordOf(e));
     if (watts === undefined) continue;
-    out[el.name] = { watts, limitW: limit.watts, limitFrom: limit.from };
+    yield [el.name, { watts, limitW: limit.watts, limitFrom: limit.from }];
   }
-  return out;
 }

@@ -1,0 +1,115 @@
+// Writes a JSON document in chunks, so a report of a million-element netlist never exists as one string.
+
+/**
+ * An object whose members are produced while it is written (a table read straight from the
+ * solver's vectors, say) instead of held in memory. `JSON.stringify` sees the same object
+ * through `toJSON`, so code that stringifies a report whole still gets the same text.
+ */
+export class JsonEntries {
+  constructor(readonly entries: () => Iterable<readonly [string, unknown]>) {}
+
+  toJSON(): Record<string, unknown> {
+    const out: Record<string, unknown> = Object.create(null);
+    for (const [k, v] of this.entries()) out[k] = v;
+    return out;
+  }
+}
+
+/** Characters gathered before they are handed to `write`. */
+const CHUNK = 1 << 16;
+
+/**
+ * Writes `value` as JSON text through `write`, in pieces of about 64 K characters: the same text
+ * as `JSON.stringify(value, null, indent)` (`indent` 0 or absent: compact, no spaces), with
+ * `JsonEntries` written as objects member by member, lists item by item, and any other object
+ * whole by `JSON.stringify` (so a plain object must be of modest size). Each piece goes through `transform` first
+ * (escaping, say). Nesting is as deep as the document's own, never as long as its lists.
+ */
+export function writeJson(value: unknown, write: (s: string) => void, options: { indent?: number; transform?: (s: string) => string } = {}): void {
+  const step = options.indent && options.indent > 0 ? ' '.repeat(Math.min(10, options.indent)) : '';
+  const transform = options.transform ?? ((s: string) => s);
+  let parts: string[] = [];
+  let size = 0;
+  const emit = (s: string): void => {
+    parts.push(s);
+    size += s.length;
+    if (size >= CHUNK) flush();
+  };
+  const flush = (): void => {
+    if (parts.length === 0) return;
+    const text = parts.join('');
+    parts = [];
+    size = 0;
+    write(transform(text));
+  };
+  const colon = step ? ': ' : ':';
+
+  /** Writes v (already known to be writable) at the given indentation. */
+  const put = (v: unknown, indent: string): void => {
+    if (v instanceof JsonEntries) {
+      putObject(v.entries(), indent);
+      return;
+    }
+    if (v !== null && typeof v === 'object' && typeof (v as { toJSON?: unknown }).toJSON === 'function') {
+      v = (v as { toJSON(key: string): unknown }).toJSON('');
+    }
+    if (v === null || typeof v !== 'object') {
+      emit(JSON.stringify(v) ?? 'null');
+      return;
+    }
+    if (Array.isArray(v)) {
+      if (v.length === 0) {
+        emit('[]');
+        return;
+      }
+      const inner = indent + step;
+      emit('[');
+      for (let i = 0; i < v.length; i++) {
+        if (i > 0) emit(',');
+        if (step) emit('\n' + inner);
+        const item = v[i];
+        if (item === undefined || typeof item === 'function' || typeof item === 'symbol') emit('null');
+        else put(item, inner);
+      }
+      if (step) emit('\n' + indent);
+      emit(']');
+      return;
+    }
+    // An object none of whose members is a list or JsonEntries (a record, a range) is small: the
+    // native writer does it whole, re-indented. Lists and JsonEntries, which can be as long as the
+    // netlist, and the objects holding them are walked.
+    const o = v as Record<string, unknown>;
+    const keys = Object.keys(o);
+    if (keys.some((k) => Array.isArray(o[k]) || o[k] instanceof JsonEntries)) {
+      putObject(members(o, keys), indent);
+      return;
+    }
+    const text = JSON.stringify(v, null, step);
+    emit(step ? text.replace(/\n/g, '\n' + indent) : text);
+  };
+
+  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
+    const inner = indent + step;
+    let first = true;
+    for (const [k, item] of members) {
+      if (item === undefined || typeof item === 'function' || typeof item === 'symbol') continue;
+      emit(first ? '{' : ',');
+      first = false;
+      if (step) emit('\n' + inner);
+      emit(JSON.stringify(k) + colon);
+      put(item, inner);
+    }
+    if (first) emit('{}');
+    else {
+      if (step) emit('\n' + indent);
+      emit('}');
+    }
+  };
+
+  put(value, '');
+  flush();
+}
+
+function* members(o: Record<string, unknown>, keys: string[]): Iterable<readonly [string, unknown]> {
+  for (const k of keys) yield [k, o[k]];
+}

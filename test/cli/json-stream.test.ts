@@ -1,0 +1,61 @@
+// The CLI's chunked JSON writer against the language's own JSON.stringify (ECMA-262, JSON.stringify), and the JSON document's corner summary.
+
+import { describe, expect, it } from 'vitest';
+import fc from 'fast-check';
+import { JsonEntries, writeJson } from '../../server/src/json-stream';
+import { cornerKey } from '../../server/src/cli';
+
+function written(value: unknown, indent?: number): { text: string; pieces: number } {
+  const out: string[] = [];
+  writeJson(value, (s) => out.push(s), { indent });
+  return { text: out.join(''), pieces: out.length };
+}
+
+describe('writeJson', () => {
+  it('writes the text JSON.stringify writes, compact and indented, for any JSON value', () => {
+    fc.assert(
+      fc.property(fc.jsonValue(), (v) => {
+        expect(written(v).text).toBe(JSON.stringify(v));
+        expect(written(v, 2).text).toBe(JSON.stringify(v, null, 2));
+      }),
+      { seed: 11, numRuns: 300 },
+    );
+  });
+
+  it('skips undefined members, writes undefined list items as null, and calls toJSON', () => {
+    const v = { a: undefined, b: [undefined, 1, () => 0], c: { toJSON: () => 'x' }, d: new Date(0), e: NaN, f: [] , g: {} };
+    expect(written(v, 2).text).toBe(JSON.stringify(v, null, 2));
+    expect(written(v).text).toBe(JSON.stringify(v));
+  });
+
+  it('writes JsonEntries as the object JSON.stringify makes of it, member by member', () => {
+    const entries = new JsonEntries(function* () {
+      yield ['n', 1];
+      yield ['skip', undefined];
+      yield ['list', [1, { deep: [2, 3] }]];
+      yield ['inner', new JsonEntries(() => [['k', 'v']])];
+    });
+    const doc = { top: entries, empty: new JsonEntries(() => []) };
+    expect(written(doc, 2).text).toBe(JSON.stringify(doc, null, 2));
+    expect(written(doc).text).toBe(JSON.stringify(doc));
+  });
+
+  it('hands a long document over in pieces, never as one string', () => {
+    const rows = new JsonEntries(function* () {
+      for (let i = 0; i < 50000; i++) yield [`R${i}`, { type: 'resistor', current: i * 1e-6, voltage: 1, power: i * 1e-6 }];
+    });
+    const { text, pieces } = written({ devices: rows }, 2);
+    expect(pieces).toBeGreaterThan(20);
+    expect(Object.keys(JSON.parse(text).devices)).toHaveLength(50000);
+  });
+});
+
+describe('cornerKey', () => {
+  it('turns corner labels into distinct plain-ASCII keys', () => {
+    const labels = ['supply −5 %, −40 °C, beta ×0.5', 'supply +5 %, 125 °C', 'beta ×2', 'VCC alone +5 %', 'VCC alone −5 %', 'Vµ alone +5 %'];
+    const keys = labels.map(cornerKey);
+    expect(keys.slice(0, 4)).toEqual(['supply_-5%,-40C,beta_x0.5', 'supply_+5%,125C', 'beta_x2', 'VCC_alone_+5%']);
+    expect(new Set(keys).size).toBe(labels.length);
+    for (const k of keys) expect(k).toMatch(/^[\x21-\x7e]+$/);
+  });
+});
