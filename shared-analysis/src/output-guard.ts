@@ -37,7 +37,8 @@ const MAX_PATHS_NAMED = 5;
 
 /**
  * Removes every number that is not finite from `value` (a property is deleted, an array element
- * dropped; typed arrays are left alone, they never leave as JSON) and returns the paths removed.
+ * dropped; typed arrays are left alone, they never leave as JSON, and so are properties read through
+ * a getter, the engine's lazily built tables) and returns the paths removed.
  * Walks each object once; linear in the size of the data.
  */
 export function dropNonFinite(value: unknown, path: string, removed: string[], seen = new Set<object>()): void {
@@ -59,6 +60,10 @@ export function dropNonFinite(value: unknown, path: string, removed: string[], s
   }
   const record = value as Record<string, unknown>;
   for (const key of Object.keys(record)) {
+    // A table built on first read (an operating point's `nodes` and `devices`, a structure's
+    // `corners`: solve/point.ts, structures/corner-columns.ts) is finite by construction, clamped
+    // where it is built; reading it here would build it for nothing.
+    if (Object.getOwnPropertyDescriptor(record, key)?.get) continue;
     const v = record[key];
     if (typeof v === 'number' && !Number.isFinite(v)) {
       removed.push(`${path}.${key}`);

@@ -5,7 +5,7 @@ import type { Circuit, Element } from '../circuit';
 import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
-import { measureStructure, type Measurement } from '../structures/measure';
+import { measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -239,6 +239,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
     };
   });
   const topology = topologyOf(circuit);
+  // Every name a measurement reads resolved once per structure, not once per corner.
+  const plans = structures.map((s) => planMeasurement(topology, s));
   let failedCount = 0;
   specs.forEach((spec, k) => {
     const sourceValues: Record<string, number> = nameTable();
@@ -263,15 +265,16 @@ export function runCorners(ctx: CornerContext): Finding[] {
     }
     axis.converged[k] = 1;
     const op = result.op;
+    const reader = readerOf(op, topology);
     structures.forEach((s, i) => {
-      const m = measureStructure(circuit, op, s, topology);
       const col = columns[i];
-      col.iref[k] = finite(m.iref);
-      col.outputs.forEach((device, o) => {
-        col.iout[o * C + k] = finite(m.iout[device]);
-        col.headroom[o * C + k] = finite(m.headroom[device]);
-        if (m.outOfRegion.includes(device)) col.outOfRegion[o * C + k] = 1;
-      });
+      col.iref[k] = finite(
+        runMeasurement(plans[i], reader, (o, current, headroom, out) => {
+          col.iout[o * C + k] = finite(current);
+          col.headroom[o * C + k] = finite(headroom);
+          col.outOfRegion[o * C + k] = out ? 1 : 0;
+        }),
+      );
       if (col.voltageNames.length > 0) {
         const vs = structureVoltages(s, op, circuit);
         col.voltageNames.forEach((name, v) => {

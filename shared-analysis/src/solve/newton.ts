@@ -282,8 +282,36 @@ export class NewtonEngine {
 }
 
 /** 2^−round(log2 a) for a finite positive a, else 1: a scale that maps a to [0.71, 1.41) without rounding error. */
-function powerOfTwoInverse(a: number): number {
+const bits = new Float64Array(1);
+const words = new Uint32Array(bits.buffer);
+/** Which 32-bit word of a double holds its sign and exponent (the high word; index 1 on little-endian machines). */
+const HIGH = (() => {
+  bits[0] = 1;
+  return words[1] === 0x3ff00000 ? 1 : 0;
+})();
+/** √2 and a band around it where the exponent read from the bits might round differently from Math.round(Math.log2(a)). */
+const SQRT2_LOW = Math.SQRT2 * (1 - 1e-12);
+const SQRT2_HIGH = Math.SQRT2 * (1 + 1e-12);
+
+export function powerOfTwoInverse(a: number): number {
   if (!(a > 0) || !Number.isFinite(a)) return 1;
+  // Fast path for normal numbers: round(log2 a) read from the exponent bits (one up when the
+  // mantissa is at least √2), and 2^−e written as bits. Exactly Math.round(Math.log2(a)) away
+  // from the √2 boundary; at it and for subnormals the library functions decide.
+  bits[0] = a;
+  const biased = (words[HIGH] >>> 20) & 0x7ff;
+  if (biased > 0) {
+    let e = biased - 1023;
+    words[HIGH] = (words[HIGH] & 0x000fffff) | 0x3ff00000;
+    const m = bits[0];
+    if (m < SQRT2_LOW || m > SQRT2_HIGH) {
+      if (m > SQRT2_HIGH) e++;
+      e = Math.max(-1000, Math.min(1000, e));
+      words[HIGH] = (1023 - e) << 20;
+      words[1 - HIGH] = 0;
+      return bits[0];
+    }
+  }
   const e = Math.round(Math.log2(a));
   // Clamp so the scale itself stays a normal double.
   return Math.pow(2, -Math.max(-1000, Math.min(1000, e)));

@@ -34,65 +34,114 @@ export interface Measurement {
  */
 export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology): Measurement {
   const topo = topology ?? topologyOf(circuit);
-  const p = readerOf(op, topo);
-  const v = (node: number) => finite(p.volts(node));
-  const refNode = topo.nodeIndex.get(s.reference.node);
-  let iref = 0;
-  for (const name of s.devices) {
-    const t = topo.byName.get(name);
-    if (!t || refNode === undefined) continue;
-    iref += terminalCurrentInto(t, p, name, refNode);
-  }
-  // Resistors and diodes of the structure itself (a VBE multiplier's divider, a diode string) on the reference node.
-  if (refNode !== undefined && s.parts) {
-    for (const name of Object.keys(s.parts)) {
-      const el = topo.elementByName.get(name);
-      const type = p.type(name);
-      if (!el || !type || el.nodes.length < 2) continue;
-      const through = type === 'diode' ? p.num(name, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(name, 'current');
-      if (el.nodes[0] === refNode) iref += finite(through);
-      else if (el.nodes[1] === refNode) iref -= finite(through);
-    }
-  }
+  const plan = planMeasurement(topo, s);
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
-  for (const o of s.outputs) {
-    const t = topo.byName.get(o.device);
-    if (!t) {
-      iout[o.device] = 0;
-      headroom[o.device] = 0;
-      continue;
+  const iref = runMeasurement(plan, readerOf(op, topo), (o, current, room, out) => {
+    const device = plan.outputs[o].device;
+    iout[device] = current;
+    headroom[device] = room;
+    if (out) outOfRegion.push(device);
+  });
+  return { iref, iout, headroom, outOfRegion };
+}
+
+/** A structure's measurement with every name resolved to an element or node index, for measuring it at many points. */
+export interface MeasurementPlan {
+  refNode: number | undefined;
+  /** The structure's transistors, for IREF: the element and which of its terminals sit on the reference node. */
+  devices: { e: number; bipolar: boolean; out: boolean; ctrl: boolean; common: boolean }[];
+  /** The structure's own resistors and diodes on the reference node: +1 when the first node is on it, −1 the second. */
+  parts: { e: number; sign: 1 | -1 }[];
+  outputs: { device: string; e: number; t: Transistor | undefined }[];
+}
+
+/** Resolves the names of a structure's measurement once (see `measureStructure` for what is measured). */
+export function planMeasurement(topo: Topology, s: Structure): MeasurementPlan {
+  const refNode = topo.nodeIndex.get(s.reference.node);
+  const devices: MeasurementPlan['devices'] = [];
+  const parts: MeasurementPlan['parts'] = [];
+  if (refNode !== undefined) {
+    for (const name of s.devices) {
+      const t = topo.byName.get(name);
+      const e = topo.elementIndex.get(name);
+      if (!t || e === undefined) continue;
+      devices.push({ e, bipolar: t.element.kind === 'Q', out: t.out === refNode, ctrl: t.ctrl === refNode, common: t.common === refNode });
     }
-    const type = p.type(o.device);
+    for (const name of Object.keys(s.parts ?? {})) {
+      const el = topo.elementByName.get(name);
+      const e = topo.elementIndex.get(name);
+      if (!el || e === undefined || el.nodes.length < 2) continue;
+      if (el.nodes[0] === refNode) parts.push({ e, sign: 1 });
+      else if (el.nodes[1] === refNode) parts.push({ e, sign: -1 });
+    }
+  }
+  const outputs = s.outputs.map((o) => ({ device: o.device, e: topo.elementIndex.get(o.device) ?? -1, t: topo.byName.get(o.device) }));
+  return { refNode, devices, parts, outputs };
+}
+
+/**
+ * Measures a planned structure at one point: hands each output's current, headroom and whether it
+ * is out of region to `output` (by its position in `plan.outputs`) and returns IREF.
+ */
+export function runMeasurement(plan: MeasurementPlan, p: PointIndexReader, output: (o: number, current: number, headroom: number, outOfRegion: boolean) => void): number {
+  const v = (node: number) => finite(p.volts(node));
+  let iref = 0;
+  for (const d of plan.devices) {
+    const type = p.type(d.e);
+    if (d.bipolar) {
+      if (type !== 'bjt') continue;
+      if (d.out) iref += finite(p.num(d.e, 'ic'));
+      if (d.ctrl) iref += finite(p.num(d.e, 'ib'));
+      if (d.common) iref += finite(p.num(d.e, 'ie'));
+    } else {
+      if (type !== 'mosfet') continue;
+      const id = finite(p.num(d.e, 'id'));
+      if (d.out) iref += id;
+      if (d.common) iref -= id;
+    }
+  }
+  for (const part of plan.parts) {
+    const type = p.type(part.e);
+    if (!type) continue;
+    const through = type === 'diode' ? p.num(part.e, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(part.e, 'current');
+    iref += part.sign * finite(through);
+  }
+  plan.outputs.forEach(({ e, t }, o) => {
+    if (!t) {
+      output(o, 0, 0, false);
+      return;
+    }
+    const type = p.type(e);
     const sign = polaritySign(t.tech);
     if (isBipolar(t.tech)) {
       const r = type === 'bjt';
-      iout[o.device] = Math.abs(finite(r ? p.num(o.device, 'ic') : undefined));
-      headroom[o.device] = sign * (v(t.out) - v(t.ctrl));
+      const current = Math.abs(finite(r ? p.num(e, 'ic') : undefined));
+      const headroom = sign * (v(t.out) - v(t.ctrl));
       const vbe = sign * (v(t.ctrl) - v(t.common));
-      const active = r ? p.region(o.device) === 'forward-active' : vbe > 0 && headroom[o.device] >= 0;
-      if (!active) outOfRegion.push(o.device);
+      const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
+      output(o, current, headroom, !active);
     } else {
       const r = type === 'mosfet';
-      iout[o.device] = Math.abs(finite(r ? p.num(o.device, 'id') : undefined));
+      const current = Math.abs(finite(r ? p.num(e, 'id') : undefined));
       const vds = sign * (v(t.out) - v(t.common));
-      const vov = r ? finite(p.num(o.device, 'vov')) : sign * (v(t.ctrl) - v(t.common)) - sign * finite(t.element.model.params.VTO);
-      headroom[o.device] = vds - vov;
-      const active = r ? p.region(o.device) === 'saturation' : vov > 0 && vds >= vov;
-      if (!active) outOfRegion.push(o.device);
+      const vov = r ? finite(p.num(e, 'vov')) : sign * (v(t.ctrl) - v(t.common)) - sign * finite(t.element.model.params.VTO);
+      const headroom = vds - vov;
+      const active = r ? p.region(e) === 'saturation' : vov > 0 && vds >= vov;
+      output(o, current, headroom, !active);
     }
-  }
-  return { iref: Math.abs(iref), iout, headroom, outOfRegion };
+  });
+  return Math.abs(iref);
 }
 
-/** The few things a measurement reads of a point, by element name. */
-interface MeasureReader {
+/** What a measurement reads of a point, by element and node index. */
+export interface PointIndexReader {
   volts(node: number): number | undefined;
-  /** The record type of a named element, undefined when it has no record. */
-  type(name: string): DeviceRecord['type'] | undefined;
-  num(name: string, quantity: string): number | undefined;
-  region(name: string): string | undefined;
+  /** The record type of an element, undefined when it has none. */
+  type(e: number): DeviceRecord['type'] | undefined;
+  num(e: number, quantity: string): number | undefined;
+  region(e: number): string | undefined;
 }
 
 const RECORD_TYPE: Record<string, DeviceRecord['type']> = { Q: 'bjt', M: 'mosfet', D: 'diode', J: 'jfet' };
@@ -100,65 +149,39 @@ const RECORD_TYPE: Record<string, DeviceRecord['type']> = { Q: 'bjt', M: 'mosfet
 /**
  * Reads by index when the point carries the solver's vectors (no record and no name-keyed table of
  * the whole point is built, which is what makes measuring every structure at every corner cheap),
- * by the point's records otherwise.
+ * by the point's records (element index → name) otherwise.
  */
-function readerOf(op: OperatingPoint, topo: Topology): MeasureReader {
+export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
+  const elements = topo.circuit.elements;
   const vec = pointVectors(op);
   if (vec) {
-    const index = topo.elementIndex;
-    const elements = topo.circuit.elements;
     return {
       volts: (node) => (node >= 0 ? vec.volts[node] : undefined),
-      type: (name) => {
-        const e = index.get(name);
-        if (e === undefined) return undefined;
-        const letter = elements[e].kind;
-        const nonlinear = RECORD_TYPE[letter];
+      type: (e) => {
+        const el = elements[e];
+        if (!el) return undefined;
+        const nonlinear = RECORD_TYPE[el.kind];
         if (nonlinear) return vec.region(e) === undefined ? undefined : nonlinear;
-        return vec.value(e, 'current') === undefined ? undefined : (vec.record(e)?.type ?? undefined);
+        return vec.value(e, 'current') === undefined ? undefined : vec.record(e)?.type;
       },
-      num: (name, q) => {
-        const e = index.get(name);
-        return e === undefined ? undefined : vec.value(e, q);
-      },
-      region: (name) => {
-        const e = index.get(name);
-        return e === undefined ? undefined : vec.region(e);
-      },
+      num: (e, q) => vec.value(e, q),
+      region: (e) => vec.region(e),
     };
   }
   const devices = op.devices;
+  const rec = (e: number) => (elements[e] ? devices[elements[e].name] : undefined);
   return {
     volts: (node) => op.nodes[topo.nodeName(node)],
-    type: (name) => devices[name]?.type,
-    num: (name, q) => {
-      const rec = devices[name] as unknown as Record<string, unknown> | undefined;
-      const val = rec?.[q];
+    type: (e) => rec(e)?.type,
+    num: (e, q) => {
+      const val = (rec(e) as unknown as Record<string, unknown> | undefined)?.[q];
       return typeof val === 'number' ? val : undefined;
     },
-    region: (name) => {
-      const rec = devices[name];
-      return rec && 'region' in rec ? rec.region : undefined;
+    region: (e) => {
+      const r = rec(e);
+      return r && 'region' in r ? r.region : undefined;
     },
   };
-}
-
-/** Current into the terminals of `t` that sit on `node` (positive into the terminal, per the record convention). */
-function terminalCurrentInto(t: Transistor, p: MeasureReader, name: string, node: number): number {
-  let sum = 0;
-  const type = p.type(name);
-  if (t.element.kind === 'Q') {
-    if (type !== 'bjt') return 0;
-    if (t.out === node) sum += finite(p.num(name, 'ic'));
-    if (t.ctrl === node) sum += finite(p.num(name, 'ib'));
-    if (t.common === node) sum += finite(p.num(name, 'ie'));
-  } else {
-    if (type !== 'mosfet') return 0;
-    const id = finite(p.num(name, 'id'));
-    if (t.out === node) sum += id;
-    if (t.common === node) sum -= id;
-  }
-  return sum;
 }
 
 function finite(x: number | undefined): number {
