@@ -1,0 +1,251 @@
+// Large-array benchmark: `check --format json` on NPN sink arrays of 2k, 20k and 100k elements, against a data-oriented reference loop over the same device equations, measured in one run.
+//
+// Run (a script that prints figures, not a test):
+//   npm run bench:arrays
+// Environment:
+//   QPOINT_ARRAY_BENCH_SIZES  comma-separated element counts (default "2000,20000,100000"; 4 elements a cell)
+//
+// Every figure is process CPU time (user + system) of a child process that does one thing, and
+// its peak resident memory, so sizes do not share a heap. What is measured for each size:
+//   cli        the CLI in-process as `qpoint check --format json FILE` writes it (corners on), output
+//              counted and dropped;
+//   cli-nc     the same with --no-corners;
+//   engine     the nominal solve and the corner phase alone (DcSolver + solve + addCorners) on an
+//              already elaborated circuit;
+//   reference  the reference loop below: the same nominal point and the same 26 corners, warm-started
+//              from the nominal, with the same device equations, written as plain loops over typed arrays.
+// The ratios printed (engine ÷ reference, growth from the smallest size) are measured in the same run,
+// so the machine's load affects both sides alike. The load average is printed before and after.
+//
+// The reference loop: every cell is a reference resistor RR from VCC into a diode-connected NPN QR,
+// whose base drives an output NPN QO with a load RL from VCC. The BJT equations are those of
+// docs/DEVICE-MODELS.md with IS, BF and VAF given and every other parameter at its default
+// (IKF = IKR = VAR = ∞, ISE = ISC = 0): IC = (IBE1 − IBC1)·(1 − VBC/VAF) − IBC1/BR,
+// IB = IBE1/BF + IBC1/BR, IBE1 = IS·(exp(VBE/VT) − 1), IBC1 = IS·(exp(VBC/VT) − 1), with the 1 pS
+// junction conductance the solver adds across each junction; IS(T) = IS·(T/Tnom)^3·exp(EG/VT'·…)
+// with EG = 1.11 eV. With VCC fixed by its source, the two unknowns of a cell (its reference and
+// output node) couple to no other cell, so Newton's 2 × 2 block per cell is the whole linear
+// algebra; junction steps are limited as the solver limits them (the logarithmic junction limit of
+// L. W. Nagel, "SPICE2", UC Berkeley ERL M520, 1975).
+
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { loadavg, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { main } from '../../server/src/cli';
+import { addCorners, analyseSession } from '../../shared-analysis/src/service';
+import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
+
+const IS = 1e-15;
+const BF = 120;
+const BR = 1;
+const VAF = 80;
+const VCC = 5;
+const GMIN = 1e-12;
+const K_OVER_Q = 1.380649e-23 / 1.602176634e-19;
+const EG = 1.11;
+
+/** The sink array of `elements` elements (4 a cell): invented values, varied with the index. */
+export function sinkArray(elements: number): string {
+  const L = [`NPN sink array, ${elements} elements`, `VCC vcc 0 DC ${VCC}`, `.model QN NPN (IS=${IS} BF=${BF} VAF=${VAF})`];
+  for (let i = 0; i < elements / 4; i++) {
+    L.push(`RR${i} vcc r${i} ${rr(i) / 1e3}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN`, `RL${i} vcc o${i} ${rl(i) / 1e3}k`);
+  }
+  L.push('.end', '');
+  return L.join('\n');
+}
+const rr = (i: number) => (10 + (i % 7)) * 1e3;
+const rl = (i: number) => (1 + (i % 3)) * 1e3;
+
+function cpuMs(): number {
+  const u = process.cpuUsage();
+  return (u.user + u.system) / 1000;
+}
+
+/** The corners the analysis solves for this circuit: supply × temperature × beta without the nominal point. */
+function corners(): { supply: number; tC: number; beta: number }[] {
+  const out: { supply: number; tC: number; beta: number }[] = [];
+  for (const supply of [0.95, 1, 1.05]) for (const tC of [-40, 27, 125]) for (const beta of [0.5, 1, 2]) if (!(supply === 1 && tC === 27 && beta === 1)) out.push({ supply, tC, beta });
+  return out;
+}
+
+/** Newton on every cell at once; x holds V(r) and V(o) of each cell (warm start in, solution out). Returns iterations. */
+function referenceSolve(cells: number, x: Float64Array, cond: { supply: number; tC: number; beta: number }): number {
+  const T = cond.tC + 273.15;
+  const Tn = 27 + 273.15;
+  const vt = K_OVER_Q * T;
+  const is = IS * Math.pow(T / Tn, 3) * Math.exp((EG / (K_OVER_Q * Tn) - EG / vt) * 1);
+  const bf = BF * cond.beta;
+  const br = BR * cond.beta;
+  const vcc = VCC * cond.supply;
+  const vcrit = vt * Math.log(vt / (Math.SQRT2 * is));
+  const limit = (vnew: number, vold: number): number => {
+    if (vnew > vcrit && Math.abs(vnew - vold) > 2 * vt) {
+      if (vold > 0) {
+        const arg = 1 + (vnew - vold) / vt;
+        return arg > 0 ? vold + vt * Math.log(arg) : vcrit;
+      }
+      return vt * Math.log(vnew / vt);
+    }
+    return vnew;
+  };
+  let it = 0;
+  let moving = true;
+  const vbeOld = new Float64Array(cells);
+  const vbcOld = new Float64Array(cells);
+  for (let c = 0; c < cells; c++) {
+    vbeOld[c] = x[2 * c];
+    vbcOld[c] = x[2 * c] - x[2 * c + 1];
+  }
+  while (moving && it < 150) {
+    it++;
+    moving = false;
+    for (let c = 0; c < cells; c++) {
+      const vr = x[2 * c];
+      const vo = x[2 * c + 1];
+      const gr = 1 / rr(c);
+      const gl = 1 / rl(c);
+      // The limited junction voltages: VBE of both devices (they share it), VBC of the output device.
+      const vbe = limit(vr, vbeOld[c]);
+      const vbc = limit(vr - vo, vbcOld[c]);
+      const limited = vbe !== vr || vbc !== vr - vo;
+      vbeOld[c] = vbe;
+      vbcOld[c] = vbc;
+      const ebe = Math.exp(vbe / vt);
+      const ibe = is * (ebe - 1);
+      const gbe = (is * ebe) / vt;
+      const ebc = Math.exp(vbc / vt);
+      const ibc = is * (ebc - 1);
+      const gbc = (is * ebc) / vt;
+      // QR (collector on its base, VBC = 0): collector plus base current into node r.
+      const iR = ibe * (1 + 1 / bf) + GMIN * vbe;
+      const dR = gbe * (1 + 1 / bf) + GMIN;
+      // QO: base current into node r, collector current into node o, and their slopes by VBE and VBC.
+      const early = 1 - vbc / VAF;
+      const ibO = ibe / bf + ibc / br + GMIN * vbe + GMIN * vbc;
+      const icO = (ibe - ibc) * early - ibc / br - GMIN * vbc;
+      const bBe = gbe / bf + GMIN;
+      const bBc = gbc / br + GMIN;
+      const cBe = gbe * early;
+      const cBc = -gbc * early - (ibe - ibc) / VAF - gbc / br - GMIN;
+      // The linearised KCL at r and o in u = V(r) = VBE and w = V(r) − V(o) = VBC:
+      //   (VCC − u)·gr = iR + dR·(u − vbe) + ibO + bBe·(u − vbe) + bBc·(w − vbc)
+      //   (VCC − u + w)·gl = icO + cBe·(u − vbe) + cBc·(w − vbc)
+      const a11 = gr + dR + bBe;
+      const a12 = bBc;
+      const b1 = vcc * gr - iR + dR * vbe - ibO + bBe * vbe + bBc * vbc;
+      const a21 = gl + cBe;
+      const a22 = cBc - gl;
+      const b2 = vcc * gl - icO + cBe * vbe + cBc * vbc;
+      const det = a11 * a22 - a12 * a21;
+      const u = (b1 * a22 - a12 * b2) / det;
+      const w = (a11 * b2 - a21 * b1) / det;
+      const nr = u;
+      const no = u - w;
+      if (limited || Math.abs(nr - vr) > 1e-9 + 1e-9 * Math.abs(nr) || Math.abs(no - vo) > 1e-9 + 1e-9 * Math.abs(no)) moving = true;
+      x[2 * c] = nr;
+      x[2 * c + 1] = no;
+    }
+  }
+  return it;
+}
+
+function reference(elements: number): { ms: number; iterations: number; check: number[] } {
+  const cells = elements / 4;
+  const t0 = cpuMs();
+  const nominal = new Float64Array(2 * cells);
+  let iterations = referenceSolve(cells, nominal, { supply: 1, tC: 27, beta: 1 });
+  const x = new Float64Array(2 * cells);
+  let check: number[] = [];
+  for (const c of corners()) {
+    x.set(nominal);
+    iterations += referenceSolve(cells, x, c);
+    if (c.supply === 1.05 && c.tC === 125 && c.beta === 2) check = [x[0], x[1]];
+  }
+  return { ms: cpuMs() - t0, iterations, check: [nominal[0], nominal[1], ...check] };
+}
+
+function child(args: string[]): void {
+  const [what, file] = args;
+  const text = readFileSync(file, 'utf8');
+  const elements = Number(args[2]);
+  let out: Record<string, unknown> = {};
+  if (what === 'cli' || what === 'cli-nc') {
+    let bytes = 0;
+    const t0 = cpuMs();
+    main(['check', '--format', 'json', ...(what === 'cli-nc' ? ['--no-corners'] : []), file], (s) => {
+      bytes += s.length;
+    });
+    out = { ms: cpuMs() - t0, bytes };
+  } else if (what === 'engine') {
+    const session = analyseSession({ uri: file, text }, new MemoryWorkspace({ [file]: text }), { corners: { enabled: false } });
+    const circuit = session.analysis.circuit!;
+    const t0 = cpuMs();
+    const solver = new DcSolver(circuit);
+    const nominal = solver.solve();
+    addCorners(session.analysis, { solver, nominal });
+    const ms = cpuMs() - t0;
+    const s = session.analysis.structures[0];
+    const hot = s.corners.find((c) => c.label === 'supply +5 %, 125 °C, beta ×2');
+    out = { ms, check: [nominal.op.nodes['r0'], nominal.op.nodes['o0'], hot ? s.corners.length : 0] };
+    // The same corner's node voltages, re-solved, for the comparison with the reference loop.
+    const r = solver.solve({ temperatureC: 125, betaScale: 2, sourceValues: { VCC: VCC * 1.05 }, initialGuess: nominal.x });
+    (out.check as number[]).push(r.op.nodes['r0'], r.op.nodes['o0']);
+  } else if (what === 'reference') {
+    out = reference(elements);
+  }
+  out.maxRssMB = process.resourceUsage().maxRSS / 1024;
+  process.stderr.write(`@@${JSON.stringify(out)}\n`);
+}
+
+function runChild(what: string, file: string, elements: number): Record<string, number & unknown> & { ms: number; maxRssMB: number } {
+  const r = spawnSync(process.execPath, [__filename, '--child', what, file, String(elements)], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  const line = (r.stderr ?? '').split('\n').find((l) => l.startsWith('@@'));
+  if (!line) throw new Error(`${what} on ${elements} elements failed: ${r.stderr}`);
+  return JSON.parse(line.slice(2));
+}
+
+const fmt = (ms: number) => (ms >= 1000 ? `${(ms / 1000).toFixed(2)} s` : `${ms.toFixed(0)} ms`);
+
+function bench(): void {
+  const sizes = (process.env.QPOINT_ARRAY_BENCH_SIZES ?? '2000,20000,100000').split(',').map(Number);
+  const dir = mkdtempSync(join(tmpdir(), 'qpoint-array-bench-'));
+  console.log(`load average before: ${loadavg().map((x) => x.toFixed(2)).join(' ')}; node ${process.version}`);
+  console.log('elements | cli (corners) | peak RSS | JSON | cli --no-corners | engine solve+corners | reference loop | engine ÷ reference | nominal V(o0) engine / reference | hot corner V(o0)');
+  const rows: { elements: number; cli: number; engine: number }[] = [];
+  for (const n of sizes) {
+    const file = join(dir, `sink${n}.cir`);
+    writeFileSync(file, sinkArray(n));
+    const cli = runChild('cli', file, n);
+    const nc = runChild('cli-nc', file, n);
+    const engine = runChild('engine', file, n) as unknown as { ms: number; check: number[] };
+    const ref = runChild('reference', file, n) as unknown as { ms: number; check: number[]; iterations: number };
+    rows.push({ elements: n, cli: cli.ms, engine: engine.ms });
+    console.log(
+      [
+        n.toLocaleString('en'),
+        fmt(cli.ms),
+        `${cli.maxRssMB.toFixed(0)} MB`,
+        `${(Number(cli.bytes) / 1e6).toFixed(1)} MB`,
+        fmt(nc.ms),
+        fmt(engine.ms),
+        fmt(ref.ms),
+        `${(engine.ms / ref.ms).toFixed(2)}×`,
+        `${engine.check[1].toFixed(9)} / ${ref.check[1].toFixed(9)}`,
+        `${engine.check[4].toFixed(9)} / ${ref.check[3].toFixed(9)}`,
+      ].join(' | '),
+    );
+  }
+  if (rows.length > 1) {
+    const a = rows[0];
+    for (const b of rows.slice(1)) {
+      console.log(`growth ${a.elements} → ${b.elements} elements (${(b.elements / a.elements).toFixed(0)}×): cli ${(b.cli / a.cli).toFixed(1)}×, engine ${(b.engine / a.engine).toFixed(1)}×`);
+    }
+  }
+  console.log(`load average after: ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
+}
+
+const at = process.argv.indexOf('--child');
+if (at >= 0) child(process.argv.slice(at + 1));
+else bench();
