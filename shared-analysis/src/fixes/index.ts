@@ -1,5 +1,6 @@
 // Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
+import { elementNamed } from './circuit-index';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Resistor } from '../circuit';
 import { parseNumber } from '../elaborate/units';
@@ -271,7 +272,7 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   const { circuit, solver, documents } = ctx;
   const { target, series, tolerance } = request;
   const element = request.device;
-  const r = circuit.elements.find((e) => e.name.toLowerCase() === request.resistor.toLowerCase());
+  const r = elementNamed(circuit, request.resistor);
   if (!r || r.kind !== 'R') return { fixes: [] };
   const structure = request.structureId ? ctx.structures.find((s) => s.id === request.structureId) : undefined;
 

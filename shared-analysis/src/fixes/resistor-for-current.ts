@@ -1,5 +1,6 @@
 // Sizes a resistor for a target current: a hand-formula first value, refined with the DC solver, then the nearest standard values re-solved.
 
+import { circuitIndex, elementNamed } from './circuit-index';
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
 import { DcSolver } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
@@ -80,8 +81,7 @@ export function withResistance(circuit: Circuit, resistor: Resistor, ohms: numbe
 }
 
 function findElement(circuit: Circuit, name: string): Element | undefined {
-  const want = name.toLowerCase();
-  return circuit.elements.find((e) => e.name.toLowerCase() === want);
+  return elementNamed(circuit, name);
 }
 
 /** The current magnitude an element carries at an operating point (collector, drain, diode or branch current). */
@@ -316,58 +316,42 @@ const BLOCK_WORTHWHILE = 0.5;
  */
 export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): Circuit | undefined {
   const n = circuit.nodes.length;
-  if (n === 0 || circuit.elements.some((e) => e.kind === 'E' || e.kind === 'G' || e.kind === 'F' || e.kind === 'H')) return undefined;
-  const valid = (e: Element): boolean => e.nodes.every((k) => Number.isInteger(k) && k >= 0 && k < n);
-  if (!circuit.elements.every(valid)) return undefined;
+  // Incidence, fixed nodes and names come from the circuit's index, built once: a target costs the size of its block.
+  const index = circuitIndex(circuit);
+  if (!index.splittable) return undefined;
+  const { fixed, pinning, touchStart, touching, position } = index;
+  const els = circuit.elements;
+  const start = position.get(resistor);
+  if (start === undefined) return undefined;
 
-  // Nodes fixed by V sources to ground, to a fixed point.
-  const fixed = new Uint8Array(n);
-  fixed[0] = 1;
-  const vs = circuit.elements.filter((e) => e.kind === 'V');
-  // A source the solver would leave out (unusable value) fixes nothing.
-  if (vs.some((v) => !Number.isFinite(v.dc))) return undefined;
-  for (let changed = true; changed; ) {
-    changed = false;
-    for (const v of vs) {
-      const [a, b] = v.nodes;
-      if (fixed[a] && !fixed[b]) (fixed[b] = 1), (changed = true);
-      else if (fixed[b] && !fixed[a]) (fixed[a] = 1), (changed = true);
-    }
-  }
-  const pinning = vs.filter((v) => fixed[v.nodes[0]] && fixed[v.nodes[1]]);
-
-  // Node -> elements touching it.
-  const touching: Element[][] = Array.from({ length: n }, () => []);
-  for (const e of circuit.elements) for (const k of new Set(e.nodes)) touching[k].push(e);
-  const inBlock = new Set<Element>();
-  const seen = new Uint8Array(n);
+  const inBlock = new Set<number>([start]);
+  const seen = new Set<number>();
   const queue: number[] = [];
-  inBlock.add(resistor);
-  for (const k of resistor.nodes) if (!fixed[k] && !seen[k]) (seen[k] = 1), queue.push(k);
+  for (const k of resistor.nodes) if (!fixed[k] && !seen.has(k)) seen.add(k), queue.push(k);
   while (queue.length > 0) {
     const k = queue.pop()!;
-    for (const e of touching[k]) {
-      if (inBlock.has(e)) continue;
-      inBlock.add(e);
-      for (const j of e.nodes) if (!fixed[j] && !seen[j]) (seen[j] = 1), queue.push(j);
+    for (let t = touchStart[k]; t < touchStart[k + 1]; t++) {
+      const i = touching[t];
+      if (inBlock.has(i)) continue;
+      inBlock.add(i);
+      for (const j of els[i].nodes) if (!fixed[j] && !seen.has(j)) seen.add(j), queue.push(j);
     }
   }
-  const pins = new Set<Element>(pinning);
-  for (const e of inBlock) if (pins.has(e)) return undefined; // a fixing source carries the block's current together with others'
-  for (const p of pinning) inBlock.add(p);
-  if (inBlock.size > BLOCK_WORTHWHILE * circuit.elements.length) return undefined;
-  const names = new Set([...inBlock].map((e) => e.name.toLowerCase()));
+  for (const p of pinning) if (inBlock.has(position.get(p)!)) return undefined; // a fixing source carries the block's current together with others'
+  for (const p of pinning) inBlock.add(position.get(p)!);
+  if (inBlock.size > BLOCK_WORTHWHILE * els.length) return undefined;
+  const names = new Set([...inBlock].map((i) => els[i].name.toLowerCase()));
   if (mustHold.some((m) => !names.has(m.toLowerCase()))) return undefined;
 
-  // Renumber: ground stays 0, the block's other nodes follow in the circuit's order.
-  const used = new Uint8Array(n);
-  for (const e of inBlock) for (const k of e.nodes) used[k] = 1;
-  const map = new Int32Array(n).fill(-1);
-  const nodes: string[] = [circuit.nodes[0]];
-  map[0] = 0;
-  for (let k = 1; k < n; k++) if (used[k]) (map[k] = nodes.length), nodes.push(circuit.nodes[k]);
   // Keep the circuit's element order so the block's records come out as the whole circuit's would.
-  const elements = circuit.elements.filter((e) => inBlock.has(e)).map((e) => ({ ...e, nodes: e.nodes.map((k) => map[k]) }) as Element);
+  const order = [...inBlock].sort((a, b) => a - b);
+  // Renumber: ground stays 0, the block's other nodes follow in the circuit's order.
+  const used = new Set<number>();
+  for (const i of order) for (const k of els[i].nodes) used.add(k);
+  const map = new Map<number, number>([[0, 0]]);
+  const nodes: string[] = [circuit.nodes[0]];
+  for (const k of [...used].sort((a, b) => a - b)) if (k !== 0 && k < n) map.set(k, nodes.length), nodes.push(circuit.nodes[k]);
+  const elements = order.map((i) => ({ ...els[i], nodes: els[i].nodes.map((k) => map.get(k)!) }) as Element);
   return { ...circuit, nodes, elements };
 }
 
