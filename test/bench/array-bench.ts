@@ -4,6 +4,7 @@
 //   npm run bench:arrays
 // Environment:
 //   QPOINT_ARRAY_BENCH_SIZES  comma-separated element counts (default "2000,20000,100000"; 4 elements a cell)
+//   QPOINT_ARRAY_BENCH_SIZING elements of the sizing case (default 40000, with 1,000 missed targets; 0 skips it)
 //
 // Every figure is process CPU time (user + system) of a child process that does one thing, and
 // its peak resident memory, so sizes do not share a heap. What is measured for each size:
@@ -12,6 +13,8 @@
 //   cli-nc     the same with --no-corners;
 //   engine     the nominal solve and the corner phase alone (DcSolver + solve + addCorners) on an
 //              already elaborated circuit;
+//   sizing     (one case) the resistor-value fixes of 1,000 missed `expect` targets on a 40k-element
+//              array, what `check` computes for every target-missed finding;
 //   reference  the reference loop below: the same nominal point and the same 26 corners, warm-started
 //              from the nominal, with the same device equations, written as plain loops over typed arrays.
 // The ratios printed (engine ÷ reference, growth from the smallest size) are measured in the same run,
@@ -34,8 +37,9 @@ import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../../server/src/cli';
 import { addCorners, analyseSession } from '../../shared-analysis/src/service';
+import { sizingFixes, sizingRequest } from '../../shared-analysis/src/fixes/index';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
-import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 
 const IS = 1e-15;
 const BF = 120;
@@ -47,10 +51,14 @@ const K_OVER_Q = 1.380649e-23 / 1.602176634e-19;
 const EG = 1.11;
 
 /** The sink array of `elements` elements (4 a cell): invented values, varied with the index. */
-export function sinkArray(elements: number): string {
+export function sinkArray(elements: number, targets = 0): string {
   const L = [`NPN sink array, ${elements} elements`, `VCC vcc 0 DC ${VCC}`, `.model QN NPN (IS=${IS} BF=${BF} VAF=${VAF})`];
-  for (let i = 0; i < elements / 4; i++) {
-    L.push(`RR${i} vcc r${i} ${rr(i) / 1e3}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN`, `RL${i} vcc o${i} ${rl(i) / 1e3}k`);
+  const cells = elements / 4;
+  const every = targets > 0 ? Math.floor(cells / targets) : 0;
+  for (let i = 0; i < cells; i++) {
+    // A target of 0.5 mA ±1 %: the cells give 0.26–0.42 mA, so every target is missed.
+    const target = every > 0 && i % every === 0 && i / every < targets ? ' ; expect 0.5mA ±1%' : '';
+    L.push(`RR${i} vcc r${i} ${rr(i) / 1e3}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN${target}`, `RL${i} vcc o${i} ${rl(i) / 1e3}k`);
   }
   L.push('.end', '');
   return L.join('\n');
@@ -192,6 +200,27 @@ function child(args: string[]): void {
     // The same corner's node voltages, re-solved, for the comparison with the reference loop.
     const r = solver.solve({ temperatureC: 125, betaScale: 2, sourceValues: { VCC: VCC * 1.05 }, initialGuess: nominal.x });
     (out.check as number[]).push(r.op.nodes['r0'], r.op.nodes['o0']);
+  } else if (what === 'sizing') {
+    // Every target missed: sizing offers standard values for each, re-solving its block.
+    // The findings are capped at 50 per code, so the other targets' requests are made here the same
+    // way (the cell's reference resistor for its output device), as an editor asks for each one.
+    const session = analyseSession({ uri: file, text }, new MemoryWorkspace({ [file]: text }), { corners: { enabled: false } });
+    const a = session.analysis;
+    const shown = a.findings.find((f) => f.code === 'target-missed' && sizingRequest(f));
+    if (!shown) throw new Error('no target-missed finding with a sizing request');
+    const marker = shown.data!['sizing'] as Record<string, unknown>;
+    const requests: Finding[] = [];
+    const targets = text.split('\n').filter((l) => l.includes('; expect')).map((l) => Number(/^QO(\d+)/.exec(l)![1]));
+    for (const i of targets) {
+      const structure = a.structures.find((s) => s.outputs.some((o) => o.device === `QO${i}`));
+      requests.push({ ...shown, data: { ...shown.data, sizing: { ...marker, resistor: `RR${i}`, device: `QO${i}`, structureId: structure?.id } } });
+    }
+    const ctx = { circuit: a.circuit!, solver: session.solver!, structures: a.structures, documents: a.documents, options: a.options };
+    const t0 = cpuMs();
+    let fixed = 0;
+    for (const f of requests) if (sizingFixes(f, ctx).length > 0) fixed++;
+    const ms = cpuMs() - t0;
+    out = { ms, missed: requests.length, fixed };
   } else if (what === 'reference') {
     out = reference(elements);
   }
@@ -236,6 +265,13 @@ function bench(): void {
         `${engine.check[4].toFixed(9)} / ${ref.check[3].toFixed(9)}`,
       ].join(' | '),
     );
+  }
+  const sizingElements = Number(process.env.QPOINT_ARRAY_BENCH_SIZING ?? 40000);
+  if (sizingElements > 0) {
+    const file = join(dir, `targets${sizingElements}.cir`);
+    writeFileSync(file, sinkArray(sizingElements, Math.min(1000, sizingElements / 4)));
+    const sz = runChild('sizing', file, sizingElements) as unknown as { ms: number; missed: number; fixed: number };
+    console.log(`sizing: ${sz.missed} missed targets on ${sizingElements.toLocaleString('en')} elements : ${fmt(sz.ms)} CPU, ${sz.fixed} findings with a fix, ${(sz.ms / Math.max(1, sz.missed)).toFixed(1)} ms a target`);
   }
   if (rows.length > 1) {
     const a = rows[0];

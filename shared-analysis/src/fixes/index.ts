@@ -1,6 +1,7 @@
 // Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
 import { elementNamed } from './circuit-index';
+import { sizingBlock } from './resistor-for-current';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Resistor } from '../circuit';
 import { parseNumber } from '../elaborate/units';
@@ -301,11 +302,15 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   const built: { fix: Fix; error: number; clean: boolean; yieldOk: boolean }[] = [];
   // The spread scales with the current: the candidate's σ is the analysed relative σ times its current.
   const sigmaRel = ctx.spread?.sigmaRelative(element);
+  // The re-solves that verify each value run on the part of the circuit the resistor can move, when
+  // it splits off (its solution there equals the whole circuit's), so a target costs its block's size.
+  const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements]) : undefined;
+  const verifyOn = block ?? { circuit, solver };
   for (const o of useful) {
     const c = o.c;
     const change = resistorValueChange(r, documents, c.value);
     if (!change) continue;
-    const side = structure ? regionChanges(circuit, solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element) : { text: '', clean: true };
+    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element) : { text: '', clean: true };
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;

@@ -138,10 +138,11 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   // Every trial rebuilds a solver for the changed circuit, so the trials are solved on the smallest
   // part of the circuit that a change of this resistor can move, when one exists.
   const structureDevices = structure ? [...structure.devices, ...structure.reference.elements] : [];
-  const block = ctx.scope === 'whole-circuit' ? undefined : affectedBlock(circuit, resistor, [deviceName, ...structureDevices]);
+  const local = ctx.scope === 'whole-circuit' ? undefined : sizingBlock(circuit, resistor, [deviceName, ...structureDevices]);
+  const block = local?.circuit;
   const work = block ?? circuit;
   const workResistor = block ? (findElement(block, resistor.name) as Resistor) : resistor;
-  const baseline = (block ? new DcSolver(block) : ctx.solver).solve(baseOptions);
+  const baseline = (local ? local.solver : ctx.solver).solve(baseOptions);
   solves++;
   if (!baseline.op.converged) {
     return fail('The circuit has no converged operating point to size from, so no resistor value is offered.', deviceName, solves);
@@ -353,6 +354,27 @@ export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: st
   for (const k of [...used].sort((a, b) => a - b)) if (k !== 0 && k < n) map.set(k, nodes.length), nodes.push(circuit.nodes[k]);
   const elements = order.map((i) => ({ ...els[i], nodes: els[i].nodes.map((k) => map.get(k)!) }) as Element);
   return { ...circuit, nodes, elements };
+}
+
+const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: DcSolver } | null>>();
+
+/**
+ * `affectedBlock` of a resistor with a prepared solver of it, kept per circuit and resistor so the
+ * sizing of a target and the re-solves that verify its candidates share them; undefined when the
+ * circuit is not split there. The block's solution equals the whole circuit's at every element it
+ * holds, so a structure inside it can be measured on it.
+ */
+export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): { circuit: Circuit; solver: DcSolver } | undefined {
+  let perCircuit = blocks.get(circuit);
+  if (!perCircuit) blocks.set(circuit, (perCircuit = new Map()));
+  const key = `${resistor.name}\u0000${mustHold.map((m) => m.toLowerCase()).sort().join('\u0000')}`;
+  let entry = perCircuit.get(key);
+  if (entry === undefined) {
+    const block = affectedBlock(circuit, resistor, mustHold);
+    entry = block ? { circuit: block, solver: new DcSolver(block) } : null;
+    perCircuit.set(key, entry);
+  }
+  return entry ?? undefined;
 }
 
 /** The standard neighbours of `ideal` in `series`, each re-solved through `measure`. */
