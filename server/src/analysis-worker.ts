@@ -1,11 +1,11 @@
 // The analysis worker thread: runs the engine off the server's main thread and answers sweeps, sizing and sizing fixes from its own last analyses.
 
-import { parentPort } from 'node:worker_threads';
+import { parentPort, workerData } from 'node:worker_threads';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { sizingFixes } from '../../shared-analysis/src/fixes/index';
-import { addCorners, analyseSession, monteCarloChunk, prepareMonteCarlo, type MonteCarloSetup } from '../../shared-analysis/src/service';
+import { addCorners, analyseSession, AnalysisStopped, monteCarloChunk, prepareMonteCarlo, type MonteCarloSetup } from '../../shared-analysis/src/service';
 import { monteCarloFigures } from '../../shared-analysis/src/variation/monte-carlo';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
@@ -19,10 +19,14 @@ import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
-import type { FromWorker, ToWorker } from './worker-messages';
+import { STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
 
 const workspace = new FileWorkspace();
+/** The stop flag shared with the main thread (absent when the worker was started without one). */
+const stopFlag: Int32Array | undefined = workerData && (workerData as { stop?: Int32Array }).stop;
+/** The check the engine makes before each stage and corner: has the main thread moved the generation past `generation`? */
+const stopper = (generation: number) => (stopFlag ? () => Atomics.load(stopFlag, STOP_GENERATION) !== generation : undefined);
 const openTexts = new Map<string, string>();
 /** The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once sent). */
 let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[] } | undefined;
@@ -128,7 +132,7 @@ function handle(msg: ToWorker): void {
         outgoing = undefined;
         if (dropped >= COLLECT_FROM_ELEMENTS) collectGarbage();
         const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
-        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options);
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options, { shouldStop: stopper(msg.generation) });
         // The corner phase needs the requested corner settings back, with corners on.
         if (msg.cornersLater) session.analysis.options = { ...session.analysis.options, corners: { ...session.analysis.options.corners, ...(msg.options.corners ?? {}), enabled: true } };
         const cornersNext = msg.cornersLater === true && session.nominal !== undefined && session.analysis.structures.length > 0;
@@ -149,7 +153,8 @@ function handle(msg: ToWorker): void {
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
         if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {
-        post({ type: 'failed', id: msg.id, message: `The analysis stopped with an internal error: ${errorText(e)}` });
+        if (e instanceof AnalysisStopped) post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
+        else post({ type: 'failed', id: msg.id, message: `The analysis stopped with an internal error: ${errorText(e)}` });
       }
       return;
     }
@@ -215,7 +220,15 @@ function handle(msg: ToWorker): void {
         post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
         return;
       }
-      const findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal });
+      let findings;
+      try {
+        findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop: stopper(msg.generation) });
+      } catch (e) {
+        if (!(e instanceof AnalysisStopped)) throw e;
+        // Superseded: the next analysis replaces this one; its structures keep no half-filled corners.
+        post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
+        return;
+      }
       kept.nominal = undefined;
       if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
       // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.

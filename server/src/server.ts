@@ -78,7 +78,7 @@ import {
   type PositionConverter,
 } from './to-lsp';
 import { structureOfResistor } from './sizing';
-import { WorkerHost, WorkerRestartedError } from './worker-host';
+import { AnalysisStoppedError, WorkerHost, WorkerRestartedError } from './worker-host';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FrameError, StrictStreamReader } from './strict-reader';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
@@ -347,6 +347,9 @@ function schedule(uri: string, delay = settings.analysisDelayMs): void {
   if (running && running.uri === uri && !running.superseded) {
     running.superseded = true;
     const job = running;
+    // The worker stops it at the engine's next check (before a stage, between corner solves); the
+    // restart below is only for a check that never comes.
+    host.stopRunning();
     // Only a run with a known typical duration can be "far past" it; a first run is left to the hard deadline.
     const expected = cache.get(uri)?.ms;
     if (expected === undefined) return;
@@ -409,7 +412,7 @@ async function pump(): Promise<void> {
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {
-    if (!(e instanceof WorkerRestartedError) || !job.superseded) {
+    if (!((e instanceof WorkerRestartedError || e instanceof AnalysisStoppedError) && job.superseded)) {
       const message = e instanceof Error ? e.message : String(e);
       log(`Analysis of ${uri} failed: ${message}`);
       if (!job.superseded) publishFailure(uri, message);

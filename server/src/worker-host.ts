@@ -11,7 +11,7 @@ import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { MonteCarloReply } from './protocol';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
-import type { FromWorker, SizingData, ToWorker } from './worker-messages';
+import { STOP_GENERATION, type FromWorker, type SizingData, type ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
 
 /** Options for {@link WorkerHost}. */
@@ -37,6 +37,9 @@ const PARTS_IN_FLIGHT = 4;
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
 
+/** Thrown when an analysis or corner request was stopped by `stopRunning` at the engine's next check. */
+export class AnalysisStoppedError extends Error {}
+
 /**
  * Owns the worker thread. Open-document texts are mirrored into it so a restarted worker
  * can carry on; requests are answered in order by message id.
@@ -49,6 +52,8 @@ export class WorkerHost {
   private disposed = false;
   /** How many times the worker was restarted (for logs and tests). */
   restarts = 0;
+  /** The stop generation shared with the worker (see STOP_GENERATION). */
+  private readonly stopFlag = new Int32Array(new SharedArrayBuffer(4));
 
   constructor(private readonly options: WorkerHostOptions) {
     this.start();
@@ -57,7 +62,7 @@ export class WorkerHost {
   private policy: ReadPolicy | undefined;
 
   private start(): void {
-    const w = new Worker(this.options.script);
+    const w = new Worker(this.options.script, { workerData: { stop: this.stopFlag } });
     w.on('message', (msg: FromWorker) => this.onMessage(msg));
     w.on('error', (e) => {
       this.options.log(`The analysis worker failed: ${e.message}`);
@@ -126,6 +131,25 @@ export class WorkerHost {
     });
   }
 
+  /**
+   * Stops the analysis or corner phase the worker is running (and any already sent) at the engine's
+   * next check, between stages or corner solves: their requests fail with AnalysisStoppedError.
+   * Requests sent afterwards are not affected.
+   */
+  stopRunning(): void {
+    Atomics.add(this.stopFlag, STOP_GENERATION, 1);
+  }
+
+  private generation(): number {
+    return Atomics.load(this.stopFlag, STOP_GENERATION);
+  }
+
+  /** The error a 'failed' answer stands for. */
+  private failure(msg: FromWorker): Error {
+    if (msg.type === 'failed') return msg.stopped ? new AnalysisStoppedError(msg.message) : new Error(msg.message);
+    return new Error('The worker answered with something unexpected.');
+  }
+
   /** How long the oldest unanswered request has been running (ms), or 0. */
   busyForMs(): number {
     let oldest = 0;
@@ -152,8 +176,9 @@ export class WorkerHost {
    * answered between parts instead of waiting for one long deserialisation.
    */
   async analyse(uri: string, version: number, options: AnalysisOptions, phases: { cornersLater?: boolean } = {}): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
-    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater }), `The analysis of ${uri}`);
-    if (msg.type !== 'analysed') throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+    const generation = this.generation();
+    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation }), `The analysis of ${uri}`);
+    if (msg.type !== 'analysed') throw this.failure(msg);
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
@@ -216,9 +241,10 @@ export class WorkerHost {
 
   /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings and each structure's corners by id. */
   async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale: boolean }> {
-    const msg = await this.request((id) => ({ type: 'corners', id, uri, version }), `The corners of ${uri}`);
+    const generation = this.generation();
+    const msg = await this.request((id) => ({ type: 'corners', id, uri, version, generation }), `The corners of ${uri}`);
     if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, ...(msg.variation ? { variation: msg.variation } : {}), stale: msg.stale === true };
-    throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
+    throw this.failure(msg);
   }
 
   /** The worker's thread id, for memory readings. */

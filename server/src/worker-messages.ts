@@ -40,9 +40,9 @@ export type ToWorker =
   /** What the worker may read from disk (trust, allowed roots); each root netlist's folder is added per analysis. */
   | { type: 'read-policy'; policy: ReadPolicy }
   /** `cornersLater`: analyse without corners and keep what the `corners` request needs to solve them next. */
-  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean }
+  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number }
   /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */
-  | { type: 'corners'; id: number; uri: string; version: number }
+  | { type: 'corners'; id: number; uri: string; version: number; generation: number }
   /** Send part `index` of the analysis answered to request `analysisId`. */
   | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
@@ -64,4 +64,12 @@ export type FromWorker =
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
   /** The corner phase's findings and each structure's corner results by structure id; `stale` when the worker holds another version. */
   | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale?: boolean }
-  | { type: 'failed'; id: number; message: string };
+  /** `stopped`: the request was cancelled (the stop generation moved past the request's) at one of the engine's checks. */
+  | { type: 'failed'; id: number; message: string; stopped?: boolean };
+
+/**
+ * The stop flag the main thread and the worker share (an Int32Array over a SharedArrayBuffer):
+ * element 0 is the stop generation. An analysis or corner request carries the generation it was
+ * sent at; the worker stops it at the engine's next check once the generation has moved on.
+ */
+export const STOP_GENERATION = 0;

@@ -62,11 +62,28 @@ export function analyse(input: AnalysisInput, workspace: Workspace, options: Ana
   return analyseSession(input, workspace, options).analysis;
 }
 
+/**
+ * Thrown out of `analyseSession` and `addCorners` when their `shouldStop` answers true at one of
+ * their checks (before each stage, between corner solves): the analysis was of a text that is no
+ * longer current. Nothing half-done is returned.
+ */
+export class AnalysisStopped extends Error {
+  constructor() {
+    super('The analysis was stopped: its text was superseded.');
+  }
+}
+
+/** How a host can stop an analysis it no longer needs: asked before each stage and between corner solves. */
+export interface AnalysisControl {
+  shouldStop?: () => boolean;
+}
+
 /** `analyse`, also returning the prepared solver and the nominal solution for `addCorners` and `sizingFixesOf`. */
-export function analyseSession(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}): AnalysisSession {
+export function analyseSession(input: AnalysisInput, workspace: Workspace, options: AnalysisOptions = {}, control: AnalysisControl = {}): AnalysisSession {
   const resolved = resolveOptions(options);
   const timings: Record<string, number> = nameTable();
   const timed = <T>(stage: string, run: () => T): T => {
+    if (control.shouldStop?.()) throw new AnalysisStopped();
     const t0 = performance.now();
     try {
       return run();
@@ -103,7 +120,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
       if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
-        pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result })));
+        pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result, shouldStop: control.shouldStop, stop: () => new AnalysisStopped() })));
       }
       const targets = timed('targets', () => readTargets(elab.documents));
       pushAll(findings, targets.findings);
@@ -170,6 +187,8 @@ export interface CornerPhaseContext {
   nominal: DcSolveResult;
   /** When given, filled with the corner solves' effort (solve vs measurement time). */
   stats?: CornerStats;
+  /** Asked between corner solves; true stops the phase with `AnalysisStopped`. */
+  shouldStop?: () => boolean;
 }
 
 /**
@@ -189,7 +208,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
   const findings: Finding[] = [];
   try {
-    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats }));
+    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped() }));
     const { targets } = readTargets(analysis.documents);
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
     if (!analysis.variation && options.variation.enabled) {
@@ -200,7 +219,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
         pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget));
       }
     }
-  } catch {
+  } catch (e) {
+    if (e instanceof AnalysisStopped) throw e;
     // The corner phase is an addition; a failure leaves the first-phase analysis standing.
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;

@@ -24,6 +24,7 @@ import { definitionAt, prepareRename, referencesAt, renameAt } from '../../share
 import { completionsAt } from '../../shared-analysis/src/features/completion';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { jsonReport, sarifReport, textReport } from '../../server/src/cli';
+import { writeJson } from '../../server/src/json-stream';
 
 /** Fixed seed; QPOINT_FUZZ_SEED and QPOINT_FUZZ_RUNS (a multiplier) let a person explore further by hand. */
 const SEED = Number(process.env.QPOINT_FUZZ_SEED ?? 20261201);
@@ -449,7 +450,13 @@ function checkFeatures(a: Analysis, random: number[]): void {
 function checkCliReports(a: Analysis): void {
   const result = { path: 'top.cir', absolute: ROOT, analysis: a };
   const json = jsonReport([result]);
-  expectJsonSafe(json, 'jsonReport');
+  // The CLI writes the document in pieces (tables streamed from the solver's vectors): the text must
+  // be JSON.stringify's, and read back it must hold only finite numbers.
+  const pieces: string[] = [];
+  writeJson(json, (t) => pieces.push(t), { indent: 2 });
+  const text = pieces.join('');
+  expect(text, 'jsonReport text').toBe(JSON.stringify(json, null, 2));
+  expectJsonSafe(JSON.parse(text), 'jsonReport');
   const sarif = sarifReport([result]) as { runs: { results: { ruleId: string; locations: { physicalLocation: { region: Record<string, number> } }[] }[] }[] };
   const catalogue = findingCatalogue();
   for (const r of sarif.runs[0]!.results) {

@@ -65,6 +65,10 @@ export interface CornerContext {
   nominal: DcSolveResult;
   /** When given, filled with where the time went (for benchmarks and the host's logs). */
   stats?: CornerStats;
+  /** Asked before each corner solve; true stops the corners by throwing `stop()`. */
+  shouldStop?: () => boolean;
+  /** What to throw when `shouldStop` says so (the facade passes its `AnalysisStopped`). */
+  stop?: () => Error;
 }
 
 /** Effort of one `runCorners` call. */
@@ -243,6 +247,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const plans = structures.map((s) => planMeasurement(topology, s));
   let failedCount = 0;
   specs.forEach((spec, k) => {
+    if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
     const sourceValues: Record<string, number> = nameTable();
     for (const name of sources) {
       const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
