@@ -87,6 +87,9 @@ Control characters and bidirectional marks in echoed text are printed escaped (\
 
 const SEVERITY_RANK: Record<Severity, number> = { error: 0, warning: 1, info: 2, hint: 3 };
 
+/** The command line reads netlists up to this many flattened elements (the editor stops at 500,000). */
+export const CLI_MAX_ELEMENTS = 2_000_000;
+
 /** Thrown for bad command lines; reported with the usage text and exit code 2. */
 class UsageError extends Error {}
 
@@ -171,7 +174,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: {}, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false };
+  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();

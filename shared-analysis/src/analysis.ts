@@ -61,6 +61,8 @@ export interface AnalysisOptions {
    */
   includeFolders?: string[];
   variation?: Partial<VariationOptions>;
+  /** Most elements flattening may produce before `circuit-too-large` (default 500,000; the CLI allows 2,000,000). */
+  maxElements?: number;
 }
 
 /** Default dissipation limits, watts, for parts that do not give their own. */

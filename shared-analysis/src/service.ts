@@ -94,7 +94,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
 
   // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
   const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
-  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders }));
+  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders, maxElements: options.maxElements }));
   // Text in an `.if` branch no instance takes does not exist for the analysis: its syntax problems are not reported.
   const findings: Finding[] = [...withoutInactive(syntaxFindings(elab.documents), elab.inactive), ...elab.findings];
   const circuit = elab.circuit;
