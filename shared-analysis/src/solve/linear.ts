@@ -109,5 +109,22 @@ export class DenseLU implements LinearSolver {
  * code path, with the sparse LU's singularity checks and original-index reporting, serves all.
  */
 export function createLinearSolver(pattern: SparsePattern): LinearSolver {
-  return new SparseLU(pattern);
+  if (pattern.n < ORDER_REUSE_FROM) return new SparseLU(pattern);
+  // A re-analysis after a value edit builds the same pattern again: take the column order of the
+  // last large pattern when it is exactly this one, instead of ordering it again.
+  const same = lastOrder !== undefined && samePattern(lastOrder.pattern, pattern);
+  const lu = new SparseLU(pattern, same ? { columnOrder: lastOrder!.order } : {});
+  if (!same) lastOrder = { pattern: { n: pattern.n, rows: pattern.rows.slice(), cols: pattern.cols.slice() }, order: lu.columnOrder };
+  return lu;
+}
+
+/** Patterns with at least this many unknowns keep their column order for the next identical pattern (ordering costs milliseconds from here). */
+const ORDER_REUSE_FROM = 2000;
+/** The last large pattern ordered, with its order. */
+let lastOrder: { pattern: SparsePattern; order: Int32Array } | undefined;
+
+function samePattern(a: SparsePattern, b: SparsePattern): boolean {
+  if (a.n !== b.n || a.rows.length !== b.rows.length || a.cols.length !== b.cols.length) return false;
+  for (let k = 0; k < a.rows.length; k++) if (a.rows[k] !== b.rows[k] || a.cols[k] !== b.cols[k]) return false;
+  return true;
 }

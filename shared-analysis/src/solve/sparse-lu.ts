@@ -23,6 +23,11 @@ export interface SparseLUOptions {
   singularTolerance?: number;
   /** Column ordering: `minimum-degree` (default) or `natural` (the pattern's own order, for tests). */
   ordering?: 'minimum-degree' | 'natural';
+  /**
+   * A column order to use instead of computing one: the `columnOrder` of a solver built on the very
+   * same pattern (a re-analysis after a value edit). Ignored unless it is a permutation of 0..n−1.
+   */
+  columnOrder?: Int32Array;
 }
 
 /** Why a factorisation failed, beyond the index of the unknown. */
@@ -194,7 +199,9 @@ export class SparseLU implements LinearSolver {
     for (let j = 0; j < n && empty < 0; j++) if (aStart[j + 1] === aStart[j] || !rowUsed[j]) empty = j;
     this.emptyIndex = empty;
 
-    if (options.ordering === 'natural' || n === 0) {
+    if (options.columnOrder && isPermutation(options.columnOrder, n)) {
+      this.q = options.columnOrder.slice();
+    } else if (options.ordering === 'natural' || n === 0) {
       this.q = new Int32Array(n);
       for (let j = 0; j < n; j++) this.q[j] = j;
     } else {
@@ -663,4 +670,16 @@ export class SparseLU implements LinearSolver {
 
 function clampFraction(v: number | undefined, fallback: number): number {
   return v !== undefined && v >= 0 && v <= 1 ? v : fallback;
+}
+
+/** Whether `q` holds each of 0..n−1 exactly once. */
+function isPermutation(q: Int32Array, n: number): boolean {
+  if (q.length !== n) return false;
+  const seen = new Uint8Array(n);
+  for (let k = 0; k < n; k++) {
+    const j = q[k];
+    if (!(j >= 0 && j < n) || seen[j]) return false;
+    seen[j] = 1;
+  }
+  return true;
 }
