@@ -727,6 +727,8 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
   const want = ctx.findings ?? 'all';
   const nominalWanted = want !== 'corners';
   const findings: Finding[] = [];
+  // The index costs a pass over every element and structure: a netlist without targets skips it.
+  if (targets.length === 0) return findings;
   const defaultTolerance = seriesTolerance(options.resistorSeries);
   const index = new TargetIndex(circuit, structures);
   for (const target of targets) {
