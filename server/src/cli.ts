@@ -8,7 +8,7 @@ import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-ana
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatMeasured } from '../../shared-analysis/src/fixes/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
-import { powerEntries } from '../../shared-analysis/src/checks/devices/power';
+import { powerEntries, powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
@@ -437,13 +437,28 @@ export function jsonReport(results: FileResult[], options: { allCorners?: boolea
         diagnostics: toJsonDiagnostics(r),
         ...(op && a ? { operatingPoint: pointForJson(op) } : {}),
         ...(op && a?.circuit && reader
-          ? { power: new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options)) }
+          ? {
+              // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
+              power: namesUnique(a.circuit.elements)
+                ? new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options))
+                : powerTable(a.circuit.elements, op.devices, a.options),
+            }
           : {}),
         ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
         ...(a?.variation ? { variation: a.variation } : {}),
       };
     }),
   };
+}
+
+/** Whether no two elements share a name. */
+function namesUnique(elements: readonly { name: string }[]): boolean {
+  const seen = new Set<string>();
+  for (const e of elements) {
+    if (seen.has(e.name)) return false;
+    seen.add(e.name);
+  }
+  return true;
 }
 
 /** The operating point as JSON shows it, its tables streamed from the vectors when it has them. */

@@ -3,7 +3,9 @@
 /**
  * An object whose members are produced while it is written (a table read straight from the
  * solver's vectors, say) instead of held in memory. `JSON.stringify` sees the same object
- * through `toJSON`, so code that stringifies a report whole still gets the same text.
+ * through `toJSON`, so code that stringifies a report whole gets the same document; `writeJson`
+ * writes the members in the order produced, where an object puts integer-like names ("1", "2")
+ * first, and each name must be produced once.
  */
 export class JsonEntries {
   constructor(readonly entries: () => Iterable<readonly [string, unknown]>) {}
