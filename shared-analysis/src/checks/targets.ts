@@ -114,7 +114,7 @@ export interface Target {
 const MINUS_LIKE = /^(±|\+\/-|\+-)/;
 
 /** Element letters whose current a target can name. */
-const CURRENT_CARRIERS = new Set(['R', 'L', 'V', 'I', 'E', 'F', 'G', 'H', 'D', 'Q', 'M']);
+const CURRENT_CARRIERS = new Set(['R', 'L', 'V', 'I', 'E', 'F', 'G', 'H', 'B', 'D', 'Q', 'M', 'J', 'S', 'W']);
 
 interface Parsed {
   target?: Omit<Target, 'uri' | 'span' | 'subject'> & { name?: string; nameSpan?: Span };
@@ -432,7 +432,9 @@ export function readTargets(documents: Record<string, ParsedDocument>): { target
             severity: TARGET_CODES['target-not-applicable'].severity,
             message: card.letter === 'X'
               ? `A target on the subcircuit instance ${card.name.text} does not say which device it means; put a comment line such as \`* expect ${card.name.text}.Q1 = 1mA\` instead.`
-              : `${card.name.text} is a capacitor, which carries no DC current, so it cannot have a target current.`,
+              : card.letter === 'C'
+                ? `${card.name.text} is a capacitor, which carries no DC current, so it cannot have a target current.`
+                : `${card.name.text} is not an element whose one DC current qpoint reports (targets name a resistor, source, diode, transistor, behavioural source or switch), so it cannot have a target current.`,
             uri,
             span: found.span,
             data: { element: card.name.text },

@@ -180,6 +180,10 @@ describe('readTargets: malformed annotations are located', () => {
       targets: [],
       problems: [{ code: 'target-not-applicable', spanText: 'expect 1mA', says: 'no DC current' }],
     });
+    check('t\nK1 L1 L2 0.9 ; expect 1mA\n', {
+      targets: [],
+      problems: [{ code: 'target-not-applicable', spanText: 'expect 1mA', says: 'K1 is not an element whose one DC current' }],
+    });
   });
 
   it('a standalone target inside a .subckt naming no local element', () =>
@@ -254,6 +258,22 @@ describe('checkTargets', () => {
     });
     expect(f.data).toMatchObject({ element: 'Q2', target: 1e-3, tolerance: 0.02, resistor: 'R1', series: 'E24' });
     expect(f.data!['estimate'] as number).toBeCloseTo(0.964e-3, 5);
+  });
+
+  // A JFET with its gate tied to its source carries IDSS = BETA·VTO² in saturation (Shichman–Hodges
+  // square law; LAMBDA = 0): BETA = 1 mA/V², VTO = −2 V → 4 mA. With 1 kΩ from 10 V, VDS = 6 V > |VTO|.
+  const jfet = (note: string): string => `jfet source\nV1 vdd 0 10\nR1 vdd d 1k\nJ1 d 0 0 jn ${note}\n.model jn NJF VTO=-2 BETA=1m\n.end\n`;
+  it('takes a target on a JFET and checks it against the drain current', () => {
+    checkMisses(jfet('; expect 4mA ±1%'), { codes: [] }, { corners: { enabled: false } });
+    checkMisses(jfet('; expect 3mA ±1%'), { codes: ['target-missed'], says: [['J1 carries 4']] }, { corners: { enabled: false } });
+  });
+
+  it('takes a target on a switch and checks it against its current', () => {
+    // Closed switch (RON = 1 Ω, control 5 V far above VT = 1 V) in series with 999 Ω across 10 V: 10 mA by Ohm's law.
+    const sw = (note: string): string =>
+      `switch\nV1 vdd 0 10\nVc c 0 5\nR1 vdd a 999\nS1 a 0 c 0 sm ${note}\n.model sm SW VT=1 VH=0.1 RON=1 ROFF=1G\n.end\n`;
+    checkMisses(sw('; expect 10mA ±1%'), { codes: [] }, { corners: { enabled: false } });
+    checkMisses(sw('; expect 20mA ±1%'), { codes: ['target-missed'] }, { corners: { enabled: false } });
   });
 
   it('makes a miss beyond three times the tolerance an error', () =>
