@@ -6,7 +6,7 @@ import type { ParsedDocument } from '../syntax/ast';
 import type { Span } from '../types';
 import { cardAt, scopeAt, type SubcktScope } from './document-index';
 import { DOT_CARDS, ELEMENT_LETTERS, INSTANCE_PARAMETERS, MODEL_PARAMETERS, defaultOf, modelKindOf, modelKindsFor } from './vocabulary';
-import { formatNumber } from './quantity';
+import { formatNumber } from '../view/format';
 import { formatNumber as modelNumber } from '../fixes/model-fixes';
 
 /** What a completion item stands for. */

@@ -19,7 +19,7 @@ import {
   type ResolvedNode,
   type SubcktScope,
 } from './document-index';
-import { formatNumber, formatPercent, formatQuantity } from './quantity';
+import { formatNumber, formatPercent, formatQuantity } from '../view/format';
 import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';

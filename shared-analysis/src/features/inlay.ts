@@ -5,7 +5,7 @@ import type { Element } from '../circuit';
 import type { DeviceRecord } from '../solve/types';
 import type { Span } from '../types';
 import { elementsOfCard, instancePrefix } from './document-index';
-import { formatQuantity } from './quantity';
+import { formatQuantity } from '../view/format';
 import { dissipation } from '../checks/devices/power';
 import { maxOf, minOf } from '../arrays';
 import { recordIsOff } from '../checks/devices/context';
