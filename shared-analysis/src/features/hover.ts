@@ -19,14 +19,16 @@ import {
   type ResolvedNode,
   type SubcktScope,
 } from './document-index';
-import { formatNumber, formatPercent, formatQuantity } from '../view/format';
+import { formatDifference, formatHeadroom, formatNumber, formatQuantity, formatRange, formatShare, formatTargetState } from '../view/format';
+import { readTargets, type Target } from '../checks/targets';
+import { seriesTolerance } from '../fixes/e-series';
 import { identifierAt, resolveParam } from './params';
 import { MODEL_PARAMETERS, modelKindOf, type ModelParameterInfo } from './vocabulary';
 import { dissipation, powerLimit } from '../checks/devices/power';
 import { maxOf, minOf, pushAll } from '../arrays';
 import { derivedVoltageLines, outputWords, startupLine } from './structure-words';
-import { recordIsOff } from '../checks/devices/context';
 import { spreadText, variationOfElement } from '../variation/text';
+import { recordIsOff } from '../checks/devices/context';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -128,98 +130,286 @@ function deviceHover(analysis: Analysis, uri: string, card: ElementCard, span: S
   return { markdown: sections.join('\n\n---\n\n'), span };
 }
 
+/**
+ * One device's hover, ordered for a decision:
+ *  1. the answer — current, region, headroom and the state of any target, on the first line;
+ *  2. the estimate against the solved value, with the difference in words and its reason;
+ *  3. spread and drift (only when there is data: the corner re-solves today);
+ *  4. how it is worked out — the derivation, compact, then the bias record's remaining values;
+ *  5. the sources the derivation cites, last.
+ * Each quantity appears once: one headroom, one compliance edge, one output resistance.
+ */
 function elementSection(analysis: Analysis, el: Element): string {
   const op = analysis.operatingPoint;
   const rec: DeviceRecord | undefined = op?.devices[el.name];
-  const lines: string[] = [];
   const heading = `**${el.name}** — ${describeElement(el)}`;
-  lines.push(heading);
-  if (!op) {
-    lines.push('No operating point: the circuit was not solved (see the findings).');
-    return lines.join('\n\n');
-  }
+  if (!op) return [heading, 'No operating point: the circuit was not solved (see the findings).'].join('\n\n');
+  if (!rec) return [heading, 'No bias record for this device.'].join('\n\n');
+  const structures = structuresOf(analysis, el.name);
+  const lines: string[] = [answerLine(analysis, el, rec, structures)];
   const tied = op.tiedNodes ? el.nodes.map((n) => analysis.circuit?.nodes[n]).filter((n): n is string => !!n && op.tiedNodes!.includes(n)) : [];
   if (tied.length > 0) {
     lines.push(`**Arbitrary values:** ${tied.join(', ')} ${tied.length > 1 ? 'have' : 'has'} no DC path to ground, so the solver tied ${tied.length > 1 ? 'them' : 'it'} to ground through 1 TΩ; the numbers below that depend on ${tied.length > 1 ? 'them' : 'it'} mean nothing until the node is connected.`);
   }
   if (!op.converged) lines.push('_The DC solve did not converge; the values below are from its last iteration._');
-  if (!rec) {
-    lines.push('No bias record for this device.');
-    return lines.join('\n\n');
+  const sources = new Sources();
+  for (const s of structures) {
+    const cmp = comparison(s, el.name);
+    if (cmp) lines.push(cmp);
   }
-  const nodeNames = el.nodes.map((n) => analysis.circuit?.nodes[n] ?? String(n));
-  if (rec.type === 'bjt') {
-    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity.toUpperCase()})`);
-    lines.push(
-      bullet([
-        `IC ${formatQuantity(rec.ic, 'A')} · IB ${formatQuantity(rec.ib, 'A')} · IE ${formatQuantity(rec.ie, 'A')} (positive into the terminal)`,
-        `VBE ${formatQuantity(rec.vbe, 'V')} · VBC ${formatQuantity(rec.vbc, 'V')} · VCE ${formatQuantity(rec.vce, 'V')}`,
-        `gm ${formatQuantity(rec.gm, 'S')} · rπ ${formatQuantity(rec.rpi, 'Ω')} · ro ${rec.roInfinite ? 'unbounded (no Early voltage in the model)' : formatQuantity(rec.ro, 'Ω')}`,
-        `Collector ${nodeNames[0]}, base ${nodeNames[1]}, emitter ${nodeNames[2]}`,
-      ]),
-    );
-  } else if (rec.type === 'mosfet') {
-    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity.toUpperCase()})`);
-    const edge = rec.polarity === 'nmos' ? rec.vds - rec.vov : -rec.vds - rec.vov;
-    lines.push(
-      bullet([
-        `ID ${formatQuantity(rec.id, 'A')} (positive into the drain)`,
-        `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · VTH ${formatQuantity(rec.vth, 'V')} · overdrive ${formatQuantity(rec.vov, 'V')}`,
-        rec.vov > 0 ? `|VDS| − overdrive: ${formatQuantity(edge, 'V')} (${edge >= 0 ? 'beyond' : 'short of'} the saturation edge)` : 'Below threshold.',
-        `gm ${formatQuantity(rec.gm, 'S')} · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`,
-        `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}, bulk ${nodeNames[3]}`,
-      ]),
-    );
-  } else if (rec.type === 'jfet') {
-    lines.push(`Region: **${regionWord(rec)}** (${rec.polarity === 'pjf' ? 'P-channel' : 'N-channel'} JFET)`);
-    const own = rec.polarity === 'pjf' ? -1 : 1;
-    const vov = own * rec.vgs - rec.vto;
-    lines.push(
-      bullet([
-        `ID ${formatQuantity(rec.id, 'A')} (positive into the drain) · IG ${formatQuantity(rec.ig, 'A')}`,
-        `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · pinch-off VTO ${formatQuantity(own * rec.vto, 'V')} · VGS − VTO ${formatQuantity(vov, 'V')}`,
-        vov > 0 ? `|VDS| − (VGS − VTO): ${formatQuantity(Math.abs(rec.vds) - vov, 'V')} (${Math.abs(rec.vds) >= vov ? 'beyond' : 'short of'} the saturation edge)` : 'Pinched off.',
-        `gm ${formatQuantity(rec.gm, 'S')} · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`,
-        `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}`,
-      ]),
-    );
-  } else if (rec.type === 'switch') {
-    lines.push(`State: **${rec.region}** (${formatQuantity(rec.resistance, 'Ω')})`);
-    lines.push(
-      bullet([
-        `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the switch to ${nodeNames[1]}) · voltage ${formatQuantity(rec.voltage, 'V')}`,
-        `Control ${formatQuantity(rec.control, el.kind === 'W' ? 'A' : 'V')}`,
-      ]),
-    );
-  } else if (rec.type === 'diode') {
-    lines.push(`Region: **${regionWord(rec)}**`);
-    lines.push(
-      bullet([
-        `ID ${formatQuantity(rec.id, 'A')} · VD ${formatQuantity(rec.vd, 'V')}`,
-        `Dynamic resistance rd ${formatQuantity(rec.rd, 'Ω')} (dVD/dID here, series resistance included)`,
-        `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`,
-      ]),
-    );
-  } else {
-    const items = [
-      `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the element to ${nodeNames[1]})`,
-      `Voltage ${formatQuantity(rec.voltage, 'V')} (V(${nodeNames[0]}) − V(${nodeNames[1]}))`,
-      `Power ${formatQuantity(rec.power, 'W')} ${rec.power < 0 ? '(delivered)' : '(absorbed)'}`,
-    ];
-    lines.push(bullet(items));
+  // One section for spread and drift: the corner re-solves, then the variation analysis (σ, worst case, drift).
+  const spreadRows: string[] = [];
+  for (const s of structures) {
+    const rows = spreadAndDrift(s, el.name);
+    if (rows) spreadRows.push(rows);
   }
-  const spread = variationOfElement(analysis, el.name);
-  if (spread) lines.push(`Spread of ${spread.output === 'IREF' ? 'IREF' : 'its current'}: ${spreadText(spread)}`);
+  const variation = variationOfElement(analysis, el.name);
+  if (variation) spreadRows.push(`${variation.output === 'IREF' ? 'IREF' : 'its current'}: ${spreadText(variation)}`);
+  if (spreadRows.length) lines.push(`**Spread and drift:** ${spreadRows.join('; ')}.`);
+  lines.push(`**How it is worked out** — ${el.name}, ${describeElement(el)}`);
+  for (const s of structures) lines.push(derivation(s, el.name, sources));
+  const ownRo = structures.some((s) => s.outputs.some((o) => o.device.toLowerCase() === el.name.toLowerCase() && s.outputResistance[o.device] !== undefined));
+  lines.push(recordDetails(analysis, el, rec, ownRo));
   const power = powerLine(analysis, el, rec);
   if (power) lines.push(power);
-  for (const s of structuresOf(analysis, el.name)) lines.push(structureSection(s, el.name));
+  const cited = sources.markdown();
+  if (cited) lines.push(cited);
   return lines.join('\n\n');
 }
 
-/** The region to show: `off` when every terminal current is below the 1 pA floor, whatever the junction signs say. */
-function regionWord(rec: DeviceRecord): string {
-  if (recordIsOff(rec)) return 'off (every terminal current below 1 pA)';
-  return 'region' in rec ? rec.region : '';
+/** The device's main current, signed as the record keeps it, with its label. */
+function mainCurrentOf(el: Element, rec: DeviceRecord): { label: string; amps: number } {
+  if (rec.type === 'bjt') return { label: 'IC', amps: rec.ic };
+  if (rec.type === 'mosfet' || rec.type === 'jfet') return { label: 'ID', amps: rec.id };
+  if (rec.type === 'diode') return { label: 'ID', amps: rec.id };
+  return { label: 'I', amps: el.kind === 'R' ? Math.abs(rec.current) : rec.current };
+}
+
+/** Volts by which a transistor sits inside its active region, from its own record (negative: beyond the edge). */
+function recordHeadroom(rec: DeviceRecord): number | undefined {
+  if (rec.type === 'bjt') return rec.polarity === 'npn' ? -rec.vbc : rec.vbc;
+  if (rec.type === 'mosfet') return rec.vov > 0 ? Math.abs(rec.vds) - rec.vov : undefined;
+  if (rec.type === 'jfet') {
+    const vov = (rec.polarity === 'pjf' ? -rec.vgs : rec.vgs) - rec.vto;
+    return vov > 0 ? Math.abs(rec.vds) - vov : undefined;
+  }
+  return undefined;
+}
+
+/** The region a device is meant to work in; any other is shown in bold. */
+const ACTIVE_REGION = { bjt: 'forward-active', mosfet: 'saturation', jfet: 'saturation', diode: 'forward' } as const;
+
+/** The first line: what the designer came for. */
+function answerLine(analysis: Analysis, el: Element, rec: DeviceRecord, structures: Structure[]): string {
+  const { label, amps } = mainCurrentOf(el, rec);
+  const parts: string[] = [`**${el.name}**`, `${label} ${formatQuantity(el.kind === 'Q' || el.kind === 'M' || el.kind === 'J' ? Math.abs(amps) : amps, 'A')}`];
+  const off = recordIsOff(rec);
+  if (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet' || rec.type === 'diode') parts.push(off ? 'off' : rec.region === ACTIVE_REGION[rec.type] ? rec.region : `**${rec.region}**`);
+  else if (rec.type === 'switch') parts.push(`switch **${rec.region}**`);
+  else parts.push(`${formatQuantity(Math.abs(rec.voltage), 'V')} across`);
+  if (!off && (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet')) {
+    const lower = el.name.toLowerCase();
+    const out = structures.flatMap((s) => s.outputs.filter((o) => o.device.toLowerCase() === lower).map((o) => ({ s, o })))[0];
+    const diodeConnected = el.nodes[0] === el.nodes[1];
+    const h = out ? out.s.headroom[out.o.device] : diodeConnected ? undefined : recordHeadroom(rec);
+    const tech = rec.type === 'bjt' ? rec.polarity : rec.type === 'mosfet' ? rec.polarity : rec.polarity === 'pjf' ? 'pmos' : 'nmos';
+    if (h !== undefined && Number.isFinite(h)) parts.push(formatHeadroom(h, tech));
+  }
+  const target = targetState(analysis, el, rec);
+  if (target) parts.push(target.met ? target.text : `**${target.text}**`);
+  return parts.join(' · ');
+}
+
+/** Where the element's current stands against an `expect` annotation, when it has one. */
+function targetState(analysis: Analysis, el: Element, rec: DeviceRecord): { met: boolean; text: string } | undefined {
+  let targets: Target[];
+  try {
+    targets = readTargets(analysis.documents).targets;
+  } catch {
+    return undefined;
+  }
+  const lower = el.name.toLowerCase();
+  const t = targets.find((x) =>
+    x.subject.kind === 'name' ? x.subject.name.toLowerCase() === lower : x.uri === el.origin.uri && x.subject.cardSpan.start === el.origin.span.start,
+  );
+  if (!t) return undefined;
+  const { amps } = mainCurrentOf(el, rec);
+  return formatTargetState(Math.abs(amps), t.current, t.tolerance ?? seriesTolerance(analysis.options.resistorSeries));
+}
+
+/** Estimate against solved for this device's role in a structure, with the difference in words and its reason. */
+function comparison(s: Structure, device: string): string | undefined {
+  const lower = device.toLowerCase();
+  const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
+  const label = out ? 'IOUT' : 'IREF';
+  const e = out ? s.estimate?.iout[out.device] : s.estimate?.iref;
+  const v = out ? s.solved?.iout[out.device] : s.solved?.iref;
+  if (e === undefined && v === undefined) return undefined;
+  const where = `${capitalised(kindName(s.kind))}${s.instance ? ` in ${s.instance.replace(/\.$/, '')}` : ''}`;
+  let text: string;
+  if (e !== undefined && v !== undefined) text = `${label} estimate ${formatQuantity(e, 'A')}, solved ${formatQuantity(v, 'A')}: ${formatDifference(e, v)}`;
+  else if (v !== undefined) text = `${label} solved ${formatQuantity(v, 'A')} (no hand estimate)`;
+  else text = `${label} estimate ${formatQuantity(e!, 'A')} (not solved)`;
+  const reason = s.discrepancy ? ` — ${s.discrepancy}` : '';
+  return `${where}: ${text}${reason}.`.replace(/\)\.$/, ').').replace(/\.\.$/, '.');
+}
+
+/**
+ * The corner part of this device's spread and drift (supply, temperature, beta re-solves). The
+ * hover's one "Spread and drift" section joins it with the variation analysis (σ from tolerances,
+ * worst case, drift); it is shown only when there is data.
+ */
+function spreadAndDrift(s: Structure, device: string): string | undefined {
+  const lower = device.toLowerCase();
+  const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
+  const rows: string[] = [];
+  if (out) {
+    const spread = s.corners.filter((k) => k.converged && k.iout[out.device] !== undefined && Number.isFinite(k.iout[out.device]));
+    if (spread.length) {
+      const vals = spread.map((k) => k.iout[out.device]);
+      const outside = spread.filter((k) => k.outOfRegion.includes(out.device));
+      const worst = spread.reduce((m, k) => ((k.headroom[out.device] ?? Infinity) < (m.headroom[out.device] ?? Infinity) ? k : m));
+      rows.push(`IOUT ${formatRange(minOf(vals), maxOf(vals), 'A')} across ${spread.length} corners`);
+      const wh = worst.headroom[out.device];
+      if (wh !== undefined && Number.isFinite(wh)) rows.push(`least headroom ${formatHeadroom(wh, s.technology)} (${worst.label})`);
+      if (outside.length) rows.push(`**leaves its active region at ${outside.length} of them**`);
+    }
+  } else if (s.reference.device.toLowerCase() === lower) {
+    const spread = s.corners.filter((k) => k.converged && Number.isFinite(k.iref));
+    if (spread.length) rows.push(`IREF ${formatRange(minOf(spread.map((k) => k.iref)), maxOf(spread.map((k) => k.iref)), 'A')} across ${spread.length} corners`);
+  }
+  return rows.length ? rows.join('; ') : undefined;
+}
+
+/** The sources the derivation cites, numbered in order of first use and listed at the end. */
+class Sources {
+  private readonly list: string[] = [];
+  /** The reference mark for `source` (`[1]`). */
+  mark(source: string): string {
+    let i = this.list.indexOf(source);
+    if (i < 0) i = this.list.push(source) - 1;
+    return `[${i + 1}]`;
+  }
+  markdown(): string | undefined {
+    return this.list.length ? `Sources: ${this.list.map((s, i) => `[${i + 1}] ${s}`).join('; ')}` : undefined;
+  }
+}
+
+/**
+ * Splits a step's formula into the formula and the source it names in a closing parenthesis
+ * (`… (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4)`); a closing parenthesis of mathematics
+ * (`(1 + (VCE2 − VBE)/VA)`) holds no word of four lower-case letters and stays.
+ */
+export function splitSource(formula: string): { formula: string; source?: string } {
+  const text = formula.trimEnd();
+  if (!text.endsWith(')')) return { formula };
+  let depth = 0;
+  for (let i = text.length - 1; i >= 0; i--) {
+    const c = text[i];
+    if (c === ')') depth++;
+    else if (c === '(') {
+      depth--;
+      if (depth === 0) {
+        const inner = text.slice(i + 1, -1);
+        if (i === 0 || !/[a-z]{4}|\b(1[89]|20)\d\d\b/.test(inner)) return { formula };
+        return { formula: text.slice(0, i).trimEnd().replace(/[,;]$/, ''), source: inner };
+      }
+    }
+  }
+  return { formula };
+}
+
+/** How the structure's numbers for this device are worked out: its role, the hand steps, the compliance edge and output resistance. */
+function derivation(s: Structure, device: string, sources: Sources): string {
+  const lower = device.toLowerCase();
+  const isRef = s.reference.device.toLowerCase() === lower;
+  const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
+  // A source whose own device is its output (diode-referenced, regulated) says output; a VBE multiplier's device is its pass device.
+  const own = s.roles?.[s.devices.find((d) => d.toLowerCase() === lower) ?? ''];
+  const role = out
+    ? outputWords(s, out)
+    : isRef && (own === undefined || own === 'reference')
+      ? 'reference (diode-connected) device'
+      : own
+        ? `${own.replace(/-/g, ' ')} device`
+        : 'device';
+  const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
+  // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
+  // The solved compliance edge below replaces the estimate's, so one edge is shown.
+  const solvedEdge = out ? s.compliance[out.device] : undefined;
+  const steps = (s.estimate?.steps ?? [])
+    .filter((st) => !st.devices || st.devices.length === 0 || st.devices.some((d) => d.toLowerCase() === lower))
+    .filter((st) => !(solvedEdge && /^compliance edge/i.test(st.quantity)));
+  if (steps.length) {
+    parts.push(
+      'Hand estimate:\n\n' +
+        steps
+          .map((st) => {
+            const { formula, source } = splitSource(st.formula);
+            return `- ${st.quantity} = ${formula} = ${st.substituted} = **${formatQuantity(st.value, st.unit)}**${source ? ' ' + sources.mark(source) : ''}`;
+          })
+          .join('\n'),
+    );
+  }
+  const rows: string[] = [];
+  if (out) {
+    const c = s.compliance[out.device];
+    if (c) rows.push(`Stays active for ${formatQuantity(c.min, 'V')} ≤ V(${out.node}) ≤ ${formatQuantity(c.max, 'V')} (solved compliance)`);
+    const ro = s.outputResistance[out.device];
+    if (ro !== undefined) rows.push(`Output resistance ${formatQuantity(ro, 'Ω')}`);
+  }
+  pushAll(rows, derivedVoltageLines(s));
+  const startup = startupLine(s);
+  if (startup) rows.push(startup);
+  if (rows.length) parts.push(bullet(rows));
+  return parts.join('\n\n');
+}
+
+/** The bias record's values not already said above (the main current and region are on the first line). */
+function recordDetails(analysis: Analysis, el: Element, rec: DeviceRecord, roShownAsOutputResistance: boolean): string {
+  const nodeNames = el.nodes.map((n) => analysis.circuit?.nodes[n] ?? String(n));
+  if (rec.type === 'bjt') {
+    return bullet([
+      `IB ${formatQuantity(rec.ib, 'A')} · IE ${formatQuantity(rec.ie, 'A')} (${rec.polarity.toUpperCase()}; positive into the terminal)`,
+      `VBE ${formatQuantity(rec.vbe, 'V')} · VBC ${formatQuantity(rec.vbc, 'V')} · VCE ${formatQuantity(rec.vce, 'V')}`,
+      `gm ${formatQuantity(rec.gm, 'S')} · rπ ${formatQuantity(rec.rpi, 'Ω')}${roShownAsOutputResistance ? '' : ` · ro ${rec.roInfinite ? 'unbounded (no Early voltage in the model)' : formatQuantity(rec.ro, 'Ω')}`}`,
+      `Collector ${nodeNames[0]}, base ${nodeNames[1]}, emitter ${nodeNames[2]}`,
+    ]);
+  }
+  if (rec.type === 'mosfet') {
+    return bullet([
+      `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · VTH ${formatQuantity(rec.vth, 'V')} · overdrive ${formatQuantity(rec.vov, 'V')} (${rec.polarity.toUpperCase()}; ID positive into the drain: ${formatQuantity(rec.id, 'A')})`,
+      `gm ${formatQuantity(rec.gm, 'S')}${roShownAsOutputResistance ? '' : ` · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`}`,
+      `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}, bulk ${nodeNames[3]}`,
+    ]);
+  }
+  if (rec.type === 'jfet') {
+    const own = rec.polarity === 'pjf' ? -1 : 1;
+    return bullet([
+      `IG ${formatQuantity(rec.ig, 'A')} (${rec.polarity === 'pjf' ? 'P' : 'N'}-channel; ID positive into the drain: ${formatQuantity(rec.id, 'A')})`,
+      `VGS ${formatQuantity(rec.vgs, 'V')} · VDS ${formatQuantity(rec.vds, 'V')} · pinch-off VTO ${formatQuantity(own * rec.vto, 'V')} · VGS − VTO ${formatQuantity(own * rec.vgs - rec.vto, 'V')}`,
+      `gm ${formatQuantity(rec.gm, 'S')}${roShownAsOutputResistance ? '' : ` · ro ${rec.roInfinite ? 'unbounded (LAMBDA = 0)' : formatQuantity(rec.ro, 'Ω')}`}`,
+      `Drain ${nodeNames[0]}, gate ${nodeNames[1]}, source ${nodeNames[2]}`,
+    ]);
+  }
+  if (rec.type === 'switch') {
+    return bullet([
+      `Resistance ${formatQuantity(rec.resistance, 'Ω')} · voltage ${formatQuantity(rec.voltage, 'V')} (from ${nodeNames[0]} through the switch to ${nodeNames[1]}; current ${formatQuantity(rec.current, 'A')})`,
+      `Control ${formatQuantity(rec.control, el.kind === 'W' ? 'A' : 'V')}`,
+    ]);
+  }
+  if (rec.type === 'diode') {
+    return bullet([
+      `VD ${formatQuantity(rec.vd, 'V')}`,
+      `Dynamic resistance rd ${formatQuantity(rec.rd, 'Ω')} (dVD/dID here, series resistance included)`,
+      `Anode ${nodeNames[0]}, cathode ${nodeNames[1]}`,
+    ]);
+  }
+  return bullet([
+    `Current ${formatQuantity(rec.current, 'A')} (from ${nodeNames[0]} through the element to ${nodeNames[1]})`,
+    `Voltage ${formatQuantity(rec.voltage, 'V')} (V(${nodeNames[0]}) − V(${nodeNames[1]}))`,
+    `Power ${formatQuantity(Math.abs(rec.power), 'W')} ${rec.power < 0 ? '(delivered)' : '(absorbed)'}`,
+  ]);
 }
 
 /** `Power: 12.3 mW of 500 mW (2.5 %)` for a device or resistor with a limit. */
@@ -228,7 +418,7 @@ function powerLine(analysis: Analysis, el: Element, rec: DeviceRecord): string |
   const p = dissipation(rec);
   if (!limit || p === undefined) return undefined;
   const whence = limit.from === 'instance' ? 'its RATEDPOWER' : limit.from === 'model' ? 'its model’s RATEDPOWER' : 'the default limit';
-  return `Power: ${formatQuantity(p, 'W')} of ${formatQuantity(limit.watts, 'W')} (${whence})${p > limit.watts ? ' — **over its limit**' : ''}`;
+  return `Power ${formatQuantity(p, 'W')}, ${formatShare(p / limit.watts)} of ${formatQuantity(limit.watts, 'W')} (${whence})${p > limit.watts ? ' — **over its limit**' : ''}`;
 }
 
 function describeElement(el: Element): string {
@@ -255,6 +445,8 @@ function describeElement(el: Element): string {
       return `diode, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'Q':
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
+    case 'J':
+      return `${el.model.kind === 'pjf' ? 'P-channel' : 'N-channel'} JFET, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'M':
       return `${el.model.kind.toUpperCase()} transistor, model ${el.model.name}, W ${formatQuantity(el.w, 'm')}, L ${formatQuantity(el.l, 'm')}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
     case 'B':
@@ -265,8 +457,6 @@ function describeElement(el: Element): string {
       return `voltage-controlled switch, model ${el.model.name}`;
     case 'W':
       return `current-controlled switch, model ${el.model.name}, controlled by I(${el.control})`;
-    case 'J':
-      return `${el.model.kind === 'pjf' ? 'P-channel' : 'N-channel'} JFET, model ${el.model.name}${el.area !== 1 ? `, area ${formatNumber(el.area)}` : ''}${el.m !== 1 ? `, ${formatNumber(el.m)} in parallel` : ''}`;
   }
 }
 
@@ -274,65 +464,6 @@ function describeElement(el: Element): string {
 export function structuresOf(analysis: Analysis, device: string): Structure[] {
   const lower = device.toLowerCase();
   return analysis.structures.filter((s) => s.devices.some((d) => d.toLowerCase() === lower));
-}
-
-function structureSection(s: Structure, device: string): string {
-  const lower = device.toLowerCase();
-  const isRef = s.reference.device.toLowerCase() === lower;
-  const out = s.outputs.find((o) => o.device.toLowerCase() === lower);
-  // A source whose own device is its output (diode-referenced, regulated) says output; a VBE multiplier's device is its pass device.
-  const own = s.roles?.[s.devices.find((d) => d.toLowerCase() === lower) ?? ''];
-  const role = out
-    ? outputWords(s, out)
-    : isRef && (own === undefined || own === 'reference')
-      ? 'reference (diode-connected) device'
-      : own
-        ? `${own.replace(/-/g, ' ')} device`
-        : 'device';
-  const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
-  const est = s.estimate;
-  // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
-  const steps = (est?.steps ?? []).filter((st) => !st.devices || st.devices.length === 0 || st.devices.some((d) => d.toLowerCase() === lower));
-  if (steps.length) {
-    parts.push('Hand estimate:\n\n' + steps.map((st) => `- ${st.quantity} = ${st.formula} = ${st.substituted} = **${formatQuantity(st.value, st.unit)}**`).join('\n'));
-  }
-  const rows: string[] = [];
-  if (isRef || !out) {
-    const e = est?.iref;
-    const v = s.solved?.iref;
-    if (e !== undefined || v !== undefined) rows.push(compareLine('IREF', e, v));
-  }
-  if (out) {
-    const e = est?.iout[out.device];
-    const v = s.solved?.iout[out.device];
-    if (e !== undefined || v !== undefined) rows.push(compareLine('IOUT', e, v));
-    const h = s.headroom[out.device];
-    if (h !== undefined) rows.push(`Headroom: ${formatQuantity(h, 'V')} ${h >= 0 ? 'beyond' : 'short of'} the edge of the active region`);
-    const c = s.compliance[out.device];
-    if (c) rows.push(`Output stays active for ${formatQuantity(c.min, 'V')} ≤ V(${out.node}) ≤ ${formatQuantity(c.max, 'V')}`);
-    const ro = s.outputResistance[out.device];
-    if (ro !== undefined) rows.push(`Output resistance ≈ ${formatQuantity(ro, 'Ω')}`);
-    const spread = s.corners.filter((k) => k.iout[out.device] !== undefined);
-    if (spread.length) {
-      const vals = spread.map((k) => k.iout[out.device]);
-      rows.push(`Across ${spread.length} corners: ${formatQuantity(minOf(vals), 'A')} to ${formatQuantity(maxOf(vals), 'A')}${spread.some((k) => k.outOfRegion.includes(out.device)) ? ' (leaves its active region at some corners)' : ''}`);
-    }
-  }
-  pushAll(rows, derivedVoltageLines(s));
-  const startup = startupLine(s);
-  if (startup) rows.push(startup);
-  if (rows.length) parts.push(bullet(rows));
-  if (s.discrepancy) parts.push(`Why estimate and solve differ: ${s.discrepancy}`);
-  return parts.join('\n\n');
-}
-
-function compareLine(label: string, estimate: number | undefined, solved: number | undefined): string {
-  if (estimate !== undefined && solved !== undefined) {
-    const rel = estimate !== 0 ? (solved - estimate) / Math.abs(estimate) : NaN;
-    return `${label}: hand estimate ${formatQuantity(estimate, 'A')}, solved ${formatQuantity(solved, 'A')}${Number.isFinite(rel) ? ` (${formatPercent(rel)})` : ''}`;
-  }
-  if (solved !== undefined) return `${label}: solved ${formatQuantity(solved, 'A')}`;
-  return `${label}: hand estimate ${formatQuantity(estimate ?? NaN, 'A')}`;
 }
 
 function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): HoverResult | undefined {
@@ -355,10 +486,7 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
     for (const s of analysis.structures) {
       const lines = derivedVoltageLines(s);
       (s.voltages ?? []).forEach((v, k) => {
-        if (v.node !== r.name) return;
-        produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
-        const spread = s.variation?.voltages?.[v.name];
-        if (spread) produced.push(`${v.name} spread: ${spreadText(spread)}`);
+        if (v.node === r.name) produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
       });
     }
     return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;

@@ -2,7 +2,7 @@
 
 import { outputKindName } from '../structures/catalogue';
 import type { DerivedVoltage, Structure, StructureOutput } from '../structures/types';
-import { formatNumber, formatQuantity } from './quantity';
+import { formatNumber, formatQuantity } from '../view/format';
 
 /** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP/PMOS structures). */
 function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {

@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-import { hoverAt } from '../../../shared-analysis/src/features/hover';
+import { hoverAt, splitSource } from '../../../shared-analysis/src/features/hover';
 import { analyseText, quantityAfter, relErr, withCursor } from './fixture';
 
 interface HoverExpectation {
@@ -96,7 +96,7 @@ describe('hover on a bipolar mirror', () => {
   it('shows the output transistor with region, currents and the mirror estimate', () => {
     const md = check(mark(MIRROR, 'Q2 out'), {
       spanText: 'Q2',
-      contains: ['forward-active', 'VBE', 'VCE', 'gm', 'rπ', 'ro', 'Simple current mirror', 'this is its mirror output.'],
+      contains: ['forward-active', 'VBE', 'VCE', 'gm', 'rπ', 'Output resistance', 'Simple current mirror', 'this is its mirror output.'],
     });
     // Source: Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4 — with matched devices and no Early effect
     // IOUT = IREF/(1 + 2/β) with IREF = (VCC − VBE)/RREF; β = BF = 100 (given in the model).
@@ -248,7 +248,7 @@ describe('hover on the newer device kinds', () => {
   it('shows a JFET’s region, currents, gm and ro', () => {
     // Source: docs/DEVICE-MODELS.md JFET saturation law; with the gate at the source ID = BETA·VTO²·(1 + LAMBDA·VDS) = 1m·4·(1 + 0.1) = 4.4 mA.
     check(`JFET hover\nVD d 0 10\nJ|1 d 0 0 JN\n.model JN NJF (VTO=-2 BETA=1m LAMBDA=0.01)\n.end\n`, {
-      contains: ['Region: **saturation** (N-channel JFET)', 'gm', 'ro', 'pinch-off VTO −2 V'],
+      contains: [/^\*\*J1\*\* · ID [0-9.]+ mA · saturation/, 'N-channel', 'gm', 'ro', 'pinch-off VTO −2 V'],
       numbers: [{ label: 'ID', unit: 'A', value: 4.4e-3, tol: 1e-3 }],
     });
   });
@@ -261,7 +261,18 @@ describe('hover on the newer device kinds', () => {
   });
   it('shows a switch’s state and resistance', () => {
     check(`Switch hover\nV1 a 0 5\nR1 a b 1k\nS|1 b 0 c 0 SM\nVC c 0 3\n.model SM SW (RON=10 ROFF=1meg VT=1)\n.end\n`, {
-      contains: ['State: **on** (10 Ω)', 'Control 3 V'],
+      contains: ['switch **on**', 'Resistance 10 Ω', 'Control 3 V'],
     });
+  });
+});
+
+describe('sources of the hand steps, listed last', () => {
+  it('takes a closing citation off a formula and leaves closing mathematics alone', () => {
+    expect(splitSource('IREF = (V+ − V− − VBE)/R (Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4)')).toEqual({
+      formula: 'IREF = (V+ − V− − VBE)/R',
+      source: 'Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4',
+    });
+    expect(splitSource('m·IREF × (1 + (VCE2 − VBE)/VA)')).toEqual({ formula: 'm·IREF × (1 + (VCE2 − VBE)/VA)' });
+    expect(splitSource('(V+ − V− − 0.7 V)/R (common practice)').source).toBe('common practice');
   });
 });
