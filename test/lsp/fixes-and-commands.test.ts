@@ -132,11 +132,11 @@ describe('corners as a second phase', () => {
       };
       let md = '';
       const until = Date.now() + 20000;
-      while (!/Across \d+ corners/.test(md) && Date.now() < until) {
+      while (!/across \d+ corners/.test(md) && Date.now() < until) {
         md = await hoverText();
         await new Promise((r) => setTimeout(r, 20));
       }
-      expect(md).toMatch(/Across \d+ corners/);
+      expect(md).toMatch(/across \d+ corners/);
       expect(s.child.exitCode).toBeNull();
     } finally {
       expect(await s.stop()).toBe(0);
