@@ -1,4 +1,4 @@
-// End-of-line bias labels for device cards: currents, terminal voltages and regions.
+// End-of-line bias labels for device cards: currents, terminal voltages, out-of-region marks, and one label per card however many instances it has.
 
 import type { Analysis } from '../analysis';
 import type { Element } from '../circuit';
@@ -7,12 +7,14 @@ import type { Span } from '../types';
 import { elementsOfCard, instancePrefix } from './document-index';
 import { formatQuantity } from '../view/format';
 import { dissipation } from '../checks/devices/power';
-import { maxOf, minOf } from '../arrays';
 import { recordIsOff } from '../checks/devices/context';
 import { derivedVoltageLabel } from './structure-words';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
+
+/** Where a label sits: right after the card's last field, or after its end-of-line comment (so comments stay aligned). */
+export type InlayPlacement = 'afterCode' | 'afterComment';
 
 /** One label, placed at `offset` (the end of a device card). */
 export interface InlayHintData {
@@ -21,27 +23,27 @@ export interface InlayHintData {
   tooltip?: string;
 }
 
-/** Instances listed one by one before the label switches to a range. */
-const MAX_LISTED_INSTANCES = 3;
+/**
+ * The longest label written, in characters. VS Code cuts an inlay hint at
+ * `editor.inlayHints.maximumLength`, 43 by default (read from the editor's own settings
+ * schema); a label is built to fit rather than be cut: the power, then the voltage, are left
+ * out (they stay in the tooltip and the hover).
+ */
+export const MAX_LABEL_LENGTH = 43;
+
+/**
+ * The mark in front of a transistor that is out of its active region (a BJT not forward-active,
+ * a MOSFET not saturated), so such a label reads differently from a healthy one without colour.
+ */
+export const OUT_OF_REGION_MARK = '◆';
 
 /** Labels for the device cards of `uri` that overlap `span`. */
-export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: InlayDetail): InlayHintData[] {
+export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: InlayDetail, placement: InlayPlacement = 'afterCode'): InlayHintData[] {
   if (detail === 'off') return [];
   const doc = analysis.documents[uri];
   const op = analysis.operatingPoint;
   if (!doc || !op) return [];
   const out: InlayHintData[] = [];
-  // The voltages a structure produces (VBG, a VBE multiplier's voltage) ride on its reference device's label.
-  const produced = new Map<string, string>();
-  for (const s of analysis.structures) {
-    const label = derivedVoltageLabel(s);
-    if (label) produced.set(s.reference.device, label);
-  }
-  const labelOf = (el: Element, d: InlayDetail): string | undefined => {
-    const text = labelFor(el, op.devices[el.name], d);
-    const extra = produced.get(el.name);
-    return text !== undefined && extra ? `${text} · ${extra}` : text;
-  };
   const cards = doc.cards;
   // Cards are in document order: skip to the first that can overlap the span.
   let lo = 0;
@@ -51,32 +53,101 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
     if (cards[mid].span.end < span.start) lo = mid + 1;
     else hi = mid;
   }
+  // The voltages a structure produces (VBG, a VBE multiplier's voltage) ride on its reference device's label.
+  const produced = new Map<string, string>();
+  for (const s of analysis.structures) {
+    const label = derivedVoltageLabel(s);
+    if (label) produced.set(s.reference.device, label);
+  }
+  const partsOf = (el: Element, d: InlayDetail): Part[] | undefined => {
+    const parts = labelParts(el, op.devices[el.name], d);
+    const extra = produced.get(el.name);
+    // Left out after the power and the terminal voltage when the label is too long.
+    return parts !== undefined && extra ? [...parts, { text: extra, drop: 0.5 }] : parts;
+  };
+  const unsolved = op.converged ? undefined : 'The DC solve did not converge; this is its last iteration.';
   for (let i = lo; i < cards.length; i++) {
     const card = cards[i];
     if (card.span.start > span.end) break;
     if (card.kind !== 'element') continue;
-    const elements = elementsOfCard(analysis, uri, card);
-    const labelled = elements
-      .map((el) => ({ el, text: labelOf(el, detail) }))
-      .filter((x): x is { el: Element; text: string } => x.text !== undefined);
+    const labelled = elementsOfCard(analysis, uri, card)
+      .map((el) => ({ el, rec: op.devices[el.name], parts: partsOf(el, detail) }))
+      .filter((x): x is { el: Element; rec: DeviceRecord; parts: Part[] } => x.parts !== undefined && x.rec !== undefined);
     if (labelled.length === 0) continue;
-    const offset = labelEnd(doc.text, card);
+    const code = labelEnd(doc.text, card);
+    const offset = placement === 'afterComment' ? lineEnd(doc.text, code) : code;
     if (labelled.length === 1 && !instancePrefix(labelled[0].el)) {
-      out.push({ offset, label: labelled[0].text, tooltip: op.converged ? undefined : 'The DC solve did not converge; this is its last iteration.' });
+      out.push({ offset, label: fit(labelled[0].parts, ''), tooltip: unsolved });
       continue;
     }
-    const tooltip = labelled.map((x) => `${x.el.name}: ${labelOf(x.el, 'full')}`).join('\n');
-    if (labelled.length <= MAX_LISTED_INSTANCES) {
-      out.push({ offset, label: labelled.map((x) => `${instancePrefix(x.el).replace(/\.$/, '')}: ${x.text}`).join(' | '), tooltip });
-    } else {
-      const currents = labelled.map((x) => mainCurrent(op.devices[x.el.name])).filter((v): v is number => v !== undefined);
-      const label = currents.length
-        ? `${labelled.length} instances: ${formatQuantity(minOf(currents), 'A')} to ${formatQuantity(maxOf(currents), 'A')}`
-        : `${labelled.length} instances`;
-      out.push({ offset, label, tooltip });
-    }
+    out.push(instancesHint(labelled, offset, unsolved));
   }
   return out;
+}
+
+/** One label for a card flattened into several subcircuit instances: the count and the worst instance, every instance in the tooltip. */
+function instancesHint(labelled: { el: Element; rec: DeviceRecord; parts: Part[] }[], offset: number, note: string | undefined): InlayHintData {
+  const ranked = [...labelled].sort((a, b) => severity(b.rec) - severity(a.rec));
+  const worst = ranked[0];
+  const texts = labelled.map((x) => fit(x.parts, ''));
+  const same = texts.every((t) => t === texts[0]);
+  // The instance names the worst copy (`XADC2`); the tooltip gives the full hierarchical names.
+  const name = instancePrefix(worst.el).replace(/\.$/, '') || worst.el.name;
+  const count = `×${labelled.length}`;
+  let label: string;
+  if (same && labelled.length > 1) label = fit(worst.parts, `${count}: `);
+  else {
+    const prefix = `${count}, worst ${name}: `;
+    // A name too long for the label moves to the tooltip rather than pushing the numbers out.
+    label = prefix.length + 12 <= MAX_LABEL_LENGTH ? fit(worst.parts, prefix) : fit(worst.parts, `${count}, worst: `);
+  }
+  const lines = labelled.map((x) => `${x.el === worst.el && !same ? '▸ ' : ''}${x.el.name}: ${x.parts.map((p) => p.text).join(' · ')}`);
+  const heading = same ? `${labelled.length} instances, all alike:` : `${labelled.length} instances; the worst (▸) is labelled:`;
+  return { offset, label, tooltip: [heading, ...lines, ...(note ? [note] : [])].join('\n') };
+}
+
+/** A label's pieces in order, each with the rank at which it is dropped when the label is too long (higher goes first). */
+interface Part {
+  text: string;
+  drop: number;
+}
+
+/** Joins `parts` after `prefix`, leaving out the most droppable parts until the label fits {@link MAX_LABEL_LENGTH}. */
+function fit(parts: Part[], prefix: string): string {
+  let kept = parts;
+  const text = () => prefix + kept.map((p) => p.text).join(' · ');
+  while ([...text()].length > MAX_LABEL_LENGTH) {
+    const top = Math.max(...kept.map((p) => p.drop));
+    if (top <= 0) break;
+    const k = kept.findIndex((p) => p.drop === top);
+    kept = kept.filter((_, j) => j !== k);
+  }
+  return text();
+}
+
+/** How badly a device needs attention, for picking the worst instance: out of region first, then least headroom, then most power. */
+function severity(rec: DeviceRecord): number {
+  if (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet') {
+    if (recordIsOff(rec)) return 1e6;
+    if (outOfRegion(rec)) return 2e6 - headroom(rec);
+    return 1e3 - headroom(rec);
+  }
+  return Math.abs(dissipation(rec) ?? 0);
+}
+
+/** Volts inside the active region (negative: beyond its edge). */
+function headroom(rec: DeviceRecord): number {
+  if (rec.type === 'bjt') return rec.polarity === 'npn' ? -rec.vbc : rec.vbc;
+  if (rec.type === 'mosfet') return Math.abs(rec.vds) - rec.vov;
+  if (rec.type === 'jfet') return Math.abs(rec.vds) - ((rec.polarity === 'pjf' ? -rec.vgs : rec.vgs) - rec.vto);
+  return 0;
+}
+
+function outOfRegion(rec: DeviceRecord): boolean {
+  if (recordIsOff(rec)) return false;
+  if (rec.type === 'bjt') return rec.region !== 'forward-active';
+  if (rec.type === 'mosfet' || rec.type === 'jfet') return rec.region !== 'saturation';
+  return false;
 }
 
 /** The end of the card's last field, so the label sits before any end-of-line comment. */
@@ -90,60 +161,57 @@ function labelEnd(text: string, card: { span: Span; tokens: { span: Span }[] }):
   return end;
 }
 
-function mainCurrent(rec: DeviceRecord | undefined): number | undefined {
-  if (!rec) return undefined;
-  switch (rec.type) {
-    case 'bjt':
-      return Math.abs(rec.ic);
-    case 'mosfet':
-    case 'jfet':
-      return Math.abs(rec.id);
-    case 'diode':
-      return rec.id;
-    default:
-      return Math.abs(rec.current);
-  }
+/** The end of the line `offset` is on, before trailing blanks: after an end-of-line comment when there is one. */
+function lineEnd(text: string, offset: number): number {
+  let end = text.indexOf('\n', offset);
+  if (end < 0) end = text.length;
+  while (end > offset && /\s/.test(text[end - 1])) end--;
+  return end;
 }
 
-function labelFor(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): string | undefined {
-  const label = baseLabel(el, rec, detail);
-  if (label === undefined || detail !== 'full' || !(el.kind === 'R' || el.kind === 'D' || el.kind === 'Q' || el.kind === 'M' || el.kind === 'J')) return label;
+function labelParts(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): Part[] | undefined {
+  const parts = baseParts(el, rec, detail);
+  if (parts === undefined || detail !== 'full' || !(el.kind === 'R' || el.kind === 'D' || el.kind === 'Q' || el.kind === 'M' || el.kind === 'J')) return parts;
   const p = dissipation(rec);
-  return p === undefined ? label : `${label} · ${formatQuantity(p, 'W')}`;
+  return p === undefined ? parts : [...parts, { text: formatQuantity(p, 'W'), drop: 2 }];
 }
 
-function baseLabel(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): string | undefined {
+/** The region piece of a transistor's label: nothing when it is where it should be, `off`, or the marked region. */
+function regionPart(rec: DeviceRecord & { region: string }, active: string): Part[] {
+  if (recordIsOff(rec)) return [{ text: 'off', drop: 0 }];
+  if (rec.region === active) return [];
+  return [{ text: `${OUT_OF_REGION_MARK} ${rec.region}`, drop: 0 }];
+}
+
+function baseParts(el: Element, rec: DeviceRecord | undefined, detail: InlayDetail): Part[] | undefined {
   if (!rec) return undefined;
   const full = detail === 'full';
   if (rec.type === 'bjt') {
     const i = formatQuantity(Math.abs(rec.ic), 'A');
-    const region = recordIsOff(rec) ? 'off' : rec.region;
-    if (full) return `IC ${i} · VCE ${formatQuantity(rec.vce, 'V')} · ${region}`;
-    return region === 'forward-active' ? i : `${i} · ${region}`;
+    const region = regionPart(rec, 'forward-active');
+    return full ? [...region, { text: `IC ${i}`, drop: 0 }, { text: `VCE ${formatQuantity(rec.vce, 'V')}`, drop: 1 }] : [...region, { text: i, drop: 0 }];
   }
   if (rec.type === 'mosfet') {
     const i = formatQuantity(Math.abs(rec.id), 'A');
-    const region = recordIsOff(rec) ? 'off' : rec.region;
-    if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${region}`;
-    return region === 'saturation' ? i : `${i} · ${region}`;
+    const region = regionPart(rec, 'saturation');
+    return full ? [...region, { text: `ID ${i}`, drop: 0 }, { text: `VDS ${formatQuantity(rec.vds, 'V')}`, drop: 1 }] : [...region, { text: i, drop: 0 }];
   }
   if (rec.type === 'jfet') {
     const i = formatQuantity(Math.abs(rec.id), 'A');
-    const region = recordIsOff(rec) ? 'off' : rec.region;
-    if (full) return `ID ${i} · VDS ${formatQuantity(rec.vds, 'V')} · ${region}`;
-    return region === 'saturation' ? i : `${i} · ${region}`;
+    const region = regionPart(rec, 'saturation');
+    return full ? [...region, { text: `ID ${i}`, drop: 0 }, { text: `VDS ${formatQuantity(rec.vds, 'V')}`, drop: 1 }] : [...region, { text: i, drop: 0 }];
   }
   if (rec.type === 'diode') {
     const i = formatQuantity(rec.id, 'A');
-    return full ? `ID ${i} · VD ${formatQuantity(rec.vd, 'V')}` : i;
+    return full ? [{ text: `ID ${i}`, drop: 0 }, { text: `VD ${formatQuantity(rec.vd, 'V')}`, drop: 1 }] : [{ text: i, drop: 0 }];
   }
   if (el.kind === 'R') {
     const i = formatQuantity(Math.abs(rec.current), 'A');
-    return full ? `I ${i} · ${formatQuantity(Math.abs(rec.voltage), 'V')} across` : i;
+    return full ? [{ text: `I ${i}`, drop: 0 }, { text: `${formatQuantity(Math.abs(rec.voltage), 'V')} across`, drop: 1 }] : [{ text: i, drop: 0 }];
   }
   if (el.kind === 'V' && full) {
     // A supply delivers power when its current leaves the plus terminal.
-    return rec.power < 0 ? `delivers ${formatQuantity(Math.abs(rec.current), 'A')}` : `absorbs ${formatQuantity(Math.abs(rec.current), 'A')}`;
+    return [{ text: `${rec.power < 0 ? 'delivers' : 'absorbs'} ${formatQuantity(Math.abs(rec.current), 'A')}`, drop: 0 }];
   }
   return undefined;
 }
