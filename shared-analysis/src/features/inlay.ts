@@ -99,7 +99,8 @@ function instancesHint(labelled: { el: Element; rec: DeviceRecord; parts: Part[]
   else {
     const prefix = `${count}, worst ${name}: `;
     // A name too long for the label moves to the tooltip rather than pushing the numbers out.
-    label = prefix.length + 12 <= MAX_LABEL_LENGTH ? fit(worst.parts, prefix) : fit(worst.parts, `${count}, worst: `);
+    label = fit(worst.parts, prefix);
+    if ([...label].length > MAX_LABEL_LENGTH) label = fit(worst.parts, `${count}, worst: `);
   }
   const lines = labelled.map((x) => `${x.el === worst.el && !same ? '▸ ' : ''}${x.el.name}: ${x.parts.map((p) => p.text).join(' · ')}`);
   const heading = same ? `${labelled.length} instances, all alike:` : `${labelled.length} instances; the worst (▸) is labelled:`;
