@@ -696,7 +696,7 @@ connection.languages.inlayHint.on(
     const ctx = featureContext(params?.textDocument?.uri);
     if (!ctx || !params.range) return [];
     const span = { start: ctx.conv.toOffset(checkPosition(params.range.start)), end: ctx.conv.toOffset(checkPosition(params.range.end)) };
-    return inlayHints(ctx.analysis, params.textDocument.uri, span, settings.inlayDetail).map((h) => toInlayHint(h, ctx.conv));
+    return inlayHints(ctx.analysis, params.textDocument.uri, span, settings.inlayDetail, settings.inlayPlacement).map((h) => toInlayHint(h, ctx.conv));
   }),
 );
 

@@ -1,7 +1,7 @@
 // Maps the editor's `qpoint.*` settings to the engine's AnalysisOptions and the server's own knobs, in one place.
 
 import type { AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
-import type { InlayDetail } from '../../shared-analysis/src/features/inlay';
+import type { InlayDetail, InlayPlacement } from '../../shared-analysis/src/features/inlay';
 import type { Severity } from '../../shared-analysis/src/types';
 import { crossCheckCorners, OPTION_RULES, type NumberRule } from './option-rules';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -10,6 +10,8 @@ import { nameTable } from '../../shared-analysis/src/names';
 export interface ServerSettings {
   options: AnalysisOptions;
   inlayDetail: InlayDetail;
+  /** `qpoint.inlayHints.placement`: labels right after the card's fields, or after its end-of-line comment. */
+  inlayPlacement: InlayPlacement;
   analysisDelayMs: number;
   /** Lets `.include` read files outside the workspace and the netlist's folder tree (still regular files within the limits). */
   includesAnywhere: boolean;
@@ -18,11 +20,12 @@ export interface ServerSettings {
 }
 
 /** The settings when the client sends none. */
-export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', analysisDelayMs: 200, includesAnywhere: false, includeSearchFolders: [] };
+export const DEFAULT_SETTINGS: ServerSettings = { options: {}, inlayDetail: 'full', inlayPlacement: 'afterCode', analysisDelayMs: 200, includesAnywhere: false, includeSearchFolders: [] };
 
 const SERIES: ResistorSeries[] = ['E12', 'E24', 'E48', 'E96', 'E192'];
 const SEVERITIES: (Severity | 'off')[] = ['error', 'warning', 'info', 'hint', 'off'];
 const DETAILS: InlayDetail[] = ['off', 'terse', 'full'];
+const PLACEMENTS: InlayPlacement[] = ['afterCode', 'afterComment'];
 
 /**
  * Reads the `qpoint` section (nested objects as VS Code sends them, or flat dotted keys)
@@ -107,6 +110,11 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   if (typeof detail === 'string' && (DETAILS as string[]).includes(detail)) inlayDetail = detail as InlayDetail;
   else if (detail !== undefined && detail !== null) problems.push(`Setting qpoint.inlayHints.detail = ${JSON.stringify(detail)} is ignored: it must be one of ${DETAILS.join(', ')}.`);
 
+  const placement = get('inlayHints.placement');
+  let inlayPlacement: InlayPlacement = DEFAULT_SETTINGS.inlayPlacement;
+  if (typeof placement === 'string' && (PLACEMENTS as string[]).includes(placement)) inlayPlacement = placement as InlayPlacement;
+  else if (placement !== undefined && placement !== null) problems.push(`Setting qpoint.inlayHints.placement = ${JSON.stringify(placement)} is ignored: it must be one of ${PLACEMENTS.join(', ')}.`);
+
   const delay = num('analysisDelayMs', { ok: (v) => v >= 0 && v <= 60000, rule: 'a number of milliseconds from 0 to 60000' });
 
   const anywhere = get('includes.readOutsideWorkspace');
@@ -126,7 +134,7 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   }
 
   return {
-    settings: { options, inlayDetail, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true, includeSearchFolders },
+    settings: { options, inlayDetail, inlayPlacement, analysisDelayMs: delay ?? DEFAULT_SETTINGS.analysisDelayMs, includesAnywhere: anywhere === true, includeSearchFolders },
     problems,
   };
 }

@@ -46,3 +46,13 @@ describe('package.json settings', () => {
     expect(props['qpoint.headroomMarginVolts']!.description).toMatch(/VBC = 0/);
   });
 });
+
+describe('the inlay placement setting', () => {
+  it('defaults to the place documented in package.json and reads both values', () => {
+    expect(props['qpoint.inlayHints.placement']!.default).toBe(DEFAULT_SETTINGS.inlayPlacement);
+    expect(settingsFromConfiguration({ inlayHints: { placement: 'afterComment' } }).settings.inlayPlacement).toBe('afterComment');
+    const bad = settingsFromConfiguration({ 'inlayHints.placement': 'middle' });
+    expect(bad.settings.inlayPlacement).toBe('afterCode');
+    expect(bad.problems.join(' ')).toMatch(/inlayHints\.placement/);
+  });
+});
