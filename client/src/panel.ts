@@ -1,6 +1,7 @@
 // Builds the HTML page of the output-characteristic panel: the chart, the corner table and a strict Content-Security-Policy.
 import type { OutputCharacteristicResult } from '../../server/src/protocol';
-import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderDriftSvg, renderOutputCharacteristicSvg } from './plot';
+import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderDriftSvg, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
+import { formatQuantity } from '../../shared-analysis/src/view/format';
 
 /** What the panel page shows besides the sweep itself. */
 export interface PanelPageOptions {
@@ -20,6 +21,16 @@ export function panelContentSecurityPolicy(nonce: string): string {
   return `default-src 'none'; style-src 'nonce-${nonce}'; img-src data:; script-src 'none'; frame-src 'none'; form-action 'none'; base-uri 'none'`;
 }
 
+/** The sentence under the title: what is swept, where the output is a current source, and the rails it spans. */
+export function panelSubtitle(result: OutputCharacteristicResult, documentLabel: string): string {
+  const side = result.activeSide === 'below' ? 'below' : 'above';
+  const where = result.activeSide === 'below' ? 'right' : 'left';
+  const range = result.range && Number.isFinite(result.range.low) && Number.isFinite(result.range.high)
+    ? ` Swept from ${formatQuantity(result.range.low, 'V')} to ${formatQuantity(result.range.high, 'V')}, the rails the structure hangs from${result.range.rails?.length ? ` (${result.range.rails.join(', ')})` : ''}.`
+    : '';
+  return `Output current against the voltage at node ${result.node}, in ${documentLabel}, with its load removed. It is a current source ${side} the edge of its active region; the hatched band to the ${where} is where it leaves that region. Positive current flows the way the output normally carries it.${range}`;
+}
+
 /** The output's predicted spread and drift in one sentence, or what is missing. */
 export function spreadSentence(result: OutputCharacteristicResult): string {
   const sp = result.spread;
@@ -34,8 +45,7 @@ export function spreadSentence(result: OutputCharacteristicResult): string {
 export function renderPanelHtml(result: OutputCharacteristicResult, options: PanelPageOptions): string {
   const nonce = options.nonce.replace(/[^A-Za-z0-9+/=]/g, '');
   const size = options.size ?? { width: 640, height: 400 };
-  // The output's kind in words when the server says it ("Widlar output of the simple current mirror on Q1"), else the structure's id.
-  const structure = result.outputKind ? `, ${escapeXml(result.outputKind)}` : result.structureId ? ` (${escapeXml(result.structureId)})` : '';
+  const title = result.title || `Output characteristic of ${result.device}`;
   return `<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -46,13 +56,15 @@ export function renderPanelHtml(result: OutputCharacteristicResult, options: Pan
 <style nonce="${nonce}">${OUTPUT_CHARACTERISTIC_CSS}</style>
 </head>
 <body>
-<h1>Output characteristic of ${escapeXml(result.device)}${structure}</h1>
-<p class="qp-subtitle">Output current against the voltage at node ${escapeXml(result.node)}, in ${escapeXml(options.documentLabel)}. The shaded band is where the output leaves its active region.</p>
+<main>
+<h1 tabindex="-1">${escapeXml(title)}</h1>
+<p class="qp-subtitle">${escapeXml(panelSubtitle(result, options.documentLabel))}</p>
 ${renderOutputCharacteristicSvg(result, size)}
 ${renderCornerTableHtml(result)}
 <h2>Drift with temperature</h2>
 <p class="qp-subtitle">${escapeXml(spreadSentence(result))}</p>
 ${renderDriftSvg(result, { width: size.width, height: Math.round(size.height * 0.7) })}
+</main>
 </body>
 </html>
 `;

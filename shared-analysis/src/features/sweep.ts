@@ -1,30 +1,45 @@
-// The output characteristic of one mirror output: its current against a swept output-node voltage, rail to rail.
+// The output characteristic of one mirror output: its current against a swept output-node voltage, across the structure's own rails.
 
-import { kindName } from '../structures/catalogue';
-import { outputWords } from './structure-words';
 import type { Analysis } from '../analysis';
 import type { Circuit, Element, VoltageSource } from '../circuit';
 import { DcSolver } from '../solve/dc';
 import type { DeviceRecord, OperatingPoint } from '../solve/types';
-import type { Structure } from '../structures/types';
+import type { Structure, Technology } from '../structures/types';
+import { capitalised, kindName, outputKindName } from '../structures/catalogue';
+import { railsByIndex } from '../structures/rails';
+import { outputWords } from './structure-words';
 
-/** One output's current (magnitude, A) against its output-node voltage (V), plus where it leaves its active region. */
+/** One output's current against its output-node voltage, with the solved markers the plot draws. */
 export interface OutputCharacteristicResult {
   device: string;
   structureId: string;
+  /** What is plotted, in words: "Widlar output Q5 of the simple current mirror on Q1 (NPN)". */
+  title: string;
   /** What the output is, in words: "Widlar output of the simple current mirror on Q1". */
   outputKind?: string;
+  technology: Technology;
   /** The output node that was swept. */
   node: string;
-  /** Output-node voltage (V) against output current magnitude (A), in sweep order (lower rail to upper rail). */
+  /**
+   * Output-node voltage (V) against the output current (A), in sweep order (lower rail to upper
+   * rail). The current is signed in the output's own direction: positive when it flows as a mirror
+   * output's does (into an NPN collector or NMOS drain, out of a PNP collector or PMOS drain),
+   * negative where the output is driven backwards.
+   */
   points: { v: number; i: number }[];
-  /** Output-node voltage at the edge of the active region (saturation / triode edge). */
+  /** Output-node voltage at the edge of the active region: the solved compliance edge, else where the sweep crosses it. */
   edgeV: number;
+  /** The side of the edge where the output is active: above it for NPN/NMOS outputs, below it for PNP/PMOS outputs. */
+  activeSide: 'above' | 'below';
   /** Output-node voltage at the solved operating point. */
   operatingV: number;
-  /** The output current at each corner at the operating point. */
+  /** The output current at the operating point, from the operating-point solve (not read off the sweep). */
+  operatingI: number;
+  /** The swept span: the rails the structure itself hangs from (its devices' and feed's nodes pinned by sources), widened to the operating point. */
+  range: { low: number; high: number; rails: string[] };
+  /** The output current at each corner, from the corner re-solves. */
   cornerSpread: { label: string; i: number }[];
-  /** The output current (A) against temperature (°C) with its load in place, from the cold to the hot corner temperature. */
+  /** The output current (A, signed as `points`) against temperature (°C) with its load in place, from the cold to the hot corner temperature. */
   drift?: { t: number; i: number }[];
   /** The output's predicted spread (docs/VARIATION.md), when the analysis has it: σ and worst case relative to nominal, drift in ppm/°C. */
   spread?: { sigmaRelative: number; worstCaseRelative: number; tempcoPpmPerC: number };
@@ -38,8 +53,8 @@ const SWEEP_SOURCE = '#output-sweep';
 const MAX_POINTS = 2001;
 
 /**
- * Sweeps the output node of `device` (a mirror output) from the lowest to the highest rail:
- * the circuit is copied, every element on the output node other than the structure's own
+ * Sweeps the output node of `device` (a mirror output) across the rails the structure hangs
+ * from: the circuit is copied, every element on the output node other than the structure's own
  * devices (the load) is removed, a voltage source to ground drives the node, and one DcSolver
  * is re-solved at each point, warm-started from the previous one.
  */
@@ -59,52 +74,100 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   const outEl = circuit.elements.find((e) => e.name.toLowerCase() === lower);
   if (!outEl || (outEl.kind !== 'Q' && outEl.kind !== 'M')) return { error: `${device} is not a transistor of the circuit.` };
 
-  const { low, high } = railSpan(circuit, analysis.operatingPoint);
-  if (!(high > low)) return { error: `The circuit has no supply rails to sweep between (lowest ${low} V, highest ${high} V).` };
+  const op = analysis.operatingPoint;
+  const operatingV = op?.nodes[circuit.nodes[nodeIndex]] ?? NaN;
+  const range = structureRails(circuit, structure, op, operatingV);
+  const { low, high } = range;
+  if (!(high > low)) return { error: `The structure has no supply rails to sweep between (lowest ${low} V, highest ${high} V).` };
 
+  const sink = structure.technology === 'npn' || structure.technology === 'nmos';
   const swept = sweepCircuit(circuit, structure, nodeIndex);
   const solver = new DcSolver(swept);
   const pts: { v: number; i: number; active: boolean; margin: number }[] = [];
   let guess: Float64Array | undefined;
-  // Sweep from the side where the output conducts best so each warm start is a small step.
   const order = Array.from({ length: points }, (_, k) => low + ((high - low) * k) / (points - 1));
   for (const v of order) {
-    const res = solver.solve({ sourceValues: { [SWEEP_SOURCE]: v }, initialGuess: guess, temperatureC: analysis.operatingPoint?.temperatureC });
+    const res = solver.solve({ sourceValues: { [SWEEP_SOURCE]: v }, initialGuess: guess, temperatureC: op?.temperatureC });
     if (!res.op.converged) {
       guess = undefined;
       continue;
     }
     guess = res.x;
     const rec = res.op.devices[outEl.name];
-    const i = outputCurrent(rec);
+    const i = outputCurrent(rec, sink);
     if (i === undefined || !Number.isFinite(i)) continue;
     pts.push({ v, i, active: isActive(rec), margin: activeMargin(rec) });
   }
   if (pts.length < 2) return { error: `The sweep of ${output.node} did not converge at enough points to draw (${pts.length} of ${points}).` };
 
-  const operatingV = analysis.operatingPoint?.nodes[circuit.nodes[nodeIndex]] ?? NaN;
-  const edgeV = activeEdge(pts, operatingV);
+  const compliance = structure.compliance[output.device];
+  const solvedEdge = compliance ? (sink ? compliance.min : compliance.max) : NaN;
+  const edgeV = Number.isFinite(solvedEdge) ? solvedEdge : activeEdge(pts, operatingV);
+  const solvedI = structure.solved?.iout[output.device];
+  const recI = outputCurrent(op?.devices[outEl.name], sink);
   const cornerSpread = structure.corners
-    .filter((c) => c.iout[output.device] !== undefined && Number.isFinite(c.iout[output.device]))
+    .filter((c) => c.converged && c.iout[output.device] !== undefined && Number.isFinite(c.iout[output.device]))
     .map((c) => ({ label: c.label, i: c.iout[output.device] }));
-  const drift = driftSweep(circuit, outEl, analysis.options.corners.coldC, analysis.options.corners.hotC);
-  const v = structure.variation?.iout[output.device];
+  const where = structure.instance ? `, in ${structure.instance.replace(/\.$/, '')}` : '';
+  const drift = driftSweep(circuit, outEl, sink, analysis.options.corners.coldC, analysis.options.corners.hotC);
+  const variation = structure.variation?.iout[output.device];
   return {
     ...(drift.length >= 2 ? { drift } : {}),
-    ...(v ? { spread: { sigmaRelative: v.sigmaRelative, worstCaseRelative: v.worstCaseRelative, tempcoPpmPerC: v.tempcoPpmPerC } } : {}),
+    ...(variation ? { spread: { sigmaRelative: variation.sigmaRelative, worstCaseRelative: variation.worstCaseRelative, tempcoPpmPerC: variation.tempcoPpmPerC } } : {}),
     device: output.device,
     structureId: structure.id,
+    title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${structure.technology.toUpperCase()}${where})`,
+    technology: structure.technology,
     outputKind: `${outputWords(structure, output)} of the ${kindName(structure.kind)} on ${structure.reference.device}`,
     node: circuit.nodes[nodeIndex],
     points: pts.map(({ v, i }) => ({ v, i })),
     edgeV,
-    operatingV: Number.isFinite(operatingV) ? operatingV : pts[0].v,
+    activeSide: sink ? 'above' : 'below',
+    operatingV: Number.isFinite(operatingV) ? operatingV : NaN,
+    operatingI: recI ?? solvedI ?? NaN,
+    range,
     cornerSpread,
   };
 }
 
+/**
+ * The rails the structure hangs from: nodes pinned by voltage sources that its devices, its
+ * reference feed or its outputs' emitter (source) resistors touch. The span is widened to take
+ * in the operating voltage (a load to another rail can hold the output beyond them); a structure
+ * that touches fewer than two rails falls back to every rail of the circuit.
+ */
+function structureRails(circuit: Circuit, s: Structure, op: OperatingPoint | undefined, operatingV: number): { low: number; high: number; rails: string[] } {
+  const rails = railsByIndex(circuit);
+  const names = new Set([...s.devices, ...s.reference.elements, ...s.outputs.map((o) => o.degeneration?.resistor ?? '')].filter(Boolean).map((n) => n.toLowerCase()));
+  if (s.reference.degeneration) names.add(s.reference.degeneration.resistor.toLowerCase());
+  const touched = new Map<string, number>();
+  for (const el of circuit.elements) {
+    if (!names.has(el.name.toLowerCase())) continue;
+    for (const n of el.nodes) {
+      const r = rails.get(n);
+      if (r && Number.isFinite(r.volts)) touched.set(r.node, r.volts);
+    }
+  }
+  if (s.reference.rail && Number.isFinite(s.reference.rail.volts)) touched.set(s.reference.rail.node, s.reference.rail.volts);
+  let volts = [...touched.values()];
+  let railNames = [...touched.keys()];
+  if (new Set(volts).size < 2) {
+    const all = [...rails.values()].filter((r) => Number.isFinite(r.volts));
+    volts = all.map((r) => r.volts);
+    railNames = all.map((r) => r.node);
+    if (volts.length === 0 && op) volts = [0];
+  }
+  let low = Math.min(...volts);
+  let high = Math.max(...volts);
+  if (Number.isFinite(operatingV)) {
+    low = Math.min(low, operatingV);
+    high = Math.max(high, operatingV);
+  }
+  return { low, high, rails: railNames };
+}
+
 /** The output current of `device` in the whole circuit, solved from `cold` to `hot` (warm-started point to point). */
-function driftSweep(circuit: Circuit, device: Element, cold: number, hot: number): { t: number; i: number }[] {
+function driftSweep(circuit: Circuit, device: Element, sink: boolean, cold: number, hot: number): { t: number; i: number }[] {
   const out: { t: number; i: number }[] = [];
   if (!(Number.isFinite(cold) && Number.isFinite(hot) && hot > cold)) return out;
   const solver = new DcSolver(circuit);
@@ -117,25 +180,10 @@ function driftSweep(circuit: Circuit, device: Element, cold: number, hot: number
       continue;
     }
     guess = res.x;
-    const i = outputCurrent(res.op.devices[device.name]);
+    const i = outputCurrent(res.op.devices[device.name], sink);
     if (i !== undefined && Number.isFinite(i)) out.push({ t, i });
   }
   return out;
-}
-
-/** Lowest and highest node voltage pinned by a voltage source to ground (ground itself counts as a rail). */
-function railSpan(circuit: Circuit, op: OperatingPoint | undefined): { low: number; high: number } {
-  let low = 0;
-  let high = 0;
-  for (const el of circuit.elements) {
-    if (el.kind !== 'V') continue;
-    const [p, m] = el.nodes;
-    const v = p !== 0 && m === 0 ? el.dc : m !== 0 && p === 0 ? -el.dc : op ? (op.nodes[circuit.nodes[p]] ?? 0) : 0;
-    if (!Number.isFinite(v)) continue;
-    low = Math.min(low, v);
-    high = Math.max(high, v);
-  }
-  return { low, high };
 }
 
 /** A copy of the circuit with the output node's load replaced by the sweep source. */
@@ -152,10 +200,11 @@ function sweepCircuit(circuit: Circuit, structure: Structure, node: number): Cir
   return { ...circuit, elements: [...elements, source] };
 }
 
-function outputCurrent(rec: DeviceRecord | undefined): number | undefined {
+/** The output current signed in the output's own direction: IC or ID for a sink (NPN, NMOS), −IC or −ID for a source (PNP, PMOS). */
+function outputCurrent(rec: DeviceRecord | undefined, sink: boolean): number | undefined {
   if (!rec) return undefined;
-  if (rec.type === 'bjt') return Math.abs(rec.ic);
-  if (rec.type === 'mosfet') return Math.abs(rec.id);
+  if (rec.type === 'bjt') return sink ? rec.ic : -rec.ic;
+  if (rec.type === 'mosfet') return sink ? rec.id : -rec.id;
   return undefined;
 }
 

@@ -68,6 +68,62 @@ describe('output characteristic', () => {
     });
   });
 
+  it('sweeps a PMOS output over its own cell rails, with the active side below the edge and a signed current', () => {
+    // A 3.3 V PMOS cell on a 12 V board: the cell hangs from vdd and ground, so the sweep spans 0–3.3 V, not 0–12 V.
+    const text = `PMOS cell on a 12 V board
+VCC vcc 0 DC 12
+VDD vdd 0 DC 3.3
+MREF g g vdd vdd PM W=20u L=2u
+MOUT out g vdd vdd PM W=40u L=2u
+RSET g 0 47k
+RL out 0 10k
+RBIG vcc 0 10k
+.model PM PMOS (VTO=-0.6 KP=50u LAMBDA=0.05)
+.end
+`;
+    check(text, 'MOUT', 34, (r, analysis) => {
+      expect(r.range.low).toBeCloseTo(0, 9);
+      expect(r.range.high).toBeCloseTo(3.3, 9);
+      expect(r.points.at(-1)!.v).toBeCloseTo(3.3, 9);
+      expect(r.activeSide).toBe('below');
+      expect(r.technology).toBe('pmos');
+      expect(r.title).toBe('Mirror output MOUT of the simple current mirror on MREF (PMOS)');
+      // Source: Razavi, Design of Analog CMOS Integrated Circuits, ch. 5 — a PMOS output stays saturated while
+      // VSD ≥ VSG − |VTH|, i.e. V(out) ≤ V(g) + |VTH|: the edge is the gate voltage plus 0.6 V.
+      const g = analysis.operatingPoint!.nodes.g;
+      expect(Math.abs(r.edgeV - (g + 0.6))).toBeLessThan(0.02);
+      // The operating current is the solve's, not a point read off the sweep.
+      const rec = analysis.operatingPoint!.devices.MOUT;
+      expect(r.operatingI).toBe(rec.type === 'mosfet' ? -rec.id : NaN);
+      // Positive in the output's own direction (out of the PMOS drain) where it works as a source.
+      expect(r.points[0]!.i).toBeGreaterThan(0);
+    });
+  });
+
+  it('marks the reversed current of an NPN output driven below its emitter rail', () => {
+    // Emitters on a −5 V rail; sweeping the collector down to −5 V and the base node above it forward-biases
+    // the collector-base junction hard, which drives current out of the collector (reverse of a sink's).
+    const text = `NPN mirror on split rails
+VCC vcc 0 DC 5
+VEE vee 0 DC -5
+RREF vcc ref 9.3k
+Q1 ref ref vee QN
+Q2 out ref vee QN
+RL vcc out 1k
+.model QN NPN (BF=100 VAF=50)
+.end
+`;
+    check(text, 'Q2', 41, (r) => {
+      expect(r.range.low).toBeCloseTo(-5, 9);
+      expect(r.range.high).toBeCloseTo(5, 9);
+      expect(r.activeSide).toBe('above');
+      // Source: Ebers–Moll (Sedra & Smith, BJT modes) — at VCE = 0 with the base forward-biased the collector
+      // junction conducts forward too, so IC is negative at the bottom of the sweep.
+      expect(r.points[0]!.i).toBeLessThan(0);
+      expect(r.points.at(-1)!.i).toBeGreaterThan(0);
+    });
+  });
+
   it('explains what cannot be swept', () => {
     check(MIRROR, 'Q1', 41, /not the output of a recognised mirror; the outputs are Q2/);
     check(MIRROR, 'Q9', 41, /not the output/);

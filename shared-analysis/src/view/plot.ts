@@ -1,7 +1,8 @@
-// Lays out and draws a mirror output characteristic (output current against output-node voltage) as a self-contained SVG string.
-import type { OutputCharacteristicResult } from '../../server/src/protocol';
-import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
-import { maxOf, minOf } from '../../shared-analysis/src/arrays';
+// Lays out and draws a mirror output characteristic (output current against output-node voltage) as a self-contained SVG string,
+// for the editor's panel and the HTML report alike.
+import type { OutputCharacteristicResult } from '../features/sweep';
+import { formatQuantity, formatPercent } from './format';
+import { maxOf, minOf } from '../arrays';
 
 /** Pixel size of the drawing. */
 export interface PlotSize {
@@ -31,7 +32,13 @@ export interface PlotLayout {
   curve: { px: number; py: number }[];
   /** Vertical marker at the edge of the active region, when the edge is known and inside the plot. */
   edge?: { volts: number; px: number };
-  /** The operating point on the curve, when known. */
+  /** The band where the output has left its active region: left of the edge for NPN/NMOS outputs, right of it for PNP/PMOS. */
+  outside?: { x0: number; x1: number };
+  /** Bands of the sweep where the output current is reversed (negative in the output's own direction). */
+  reversed: { x0: number; x1: number; v0: number; v1: number }[];
+  /** The most negative current of the sweep when it lies below the drawn axis (the curve is clipped there). */
+  clippedBelow?: number;
+  /** The operating point from the operating-point solve, when known. */
   operating?: { volts: number; amps: number; px: number; py: number };
   /** The corner spread at the operating voltage: lowest and highest corner current. */
   spread?: { low: number; high: number; px: number; pyLow: number; pyHigh: number };
@@ -130,19 +137,6 @@ function spanOf(lo: number, hi: number, fallback: number): [number, number] {
   return [lo - pad, hi + pad];
 }
 
-/** Linear interpolation of the curve's current at `v`, holding the end values beyond the sweep. */
-function currentAt(points: { v: number; i: number }[], v: number): number {
-  if (v <= points[0]!.v) return points[0]!.i;
-  const last = points[points.length - 1]!;
-  if (v >= last.v) return last.i;
-  for (let k = 1; k < points.length; k++) {
-    const a = points[k - 1]!;
-    const b = points[k]!;
-    if (v <= b.v) return b.v === a.v ? b.i : a.i + ((b.i - a.i) * (v - a.v)) / (b.v - a.v);
-  }
-  return last.i;
-}
-
 /**
  * Computes the positions of everything in the chart. Non-finite numbers in the result are
  * dropped and reported in `notes`; the layout itself only ever holds finite numbers.
@@ -158,15 +152,19 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
   if (points.length < 2) return undefined;
 
   const edgeKnown = Number.isFinite(result.edgeV);
-  const opKnown = Number.isFinite(result.operatingV);
+  const opKnown = Number.isFinite(result.operatingV) && Number.isFinite(result.operatingI);
   if (!edgeKnown) notes.push('The edge of the active region is not known, so it is not marked.');
   if (!opKnown) notes.push('The operating point is not known, so it is not marked.');
   const corners = (Array.isArray(result.cornerSpread) ? result.cornerSpread : []).filter((c) => Number.isFinite(c?.i));
 
   const xs = points.map((p) => p.v).concat(edgeKnown ? [result.edgeV] : [], opKnown ? [result.operatingV] : []);
-  const ys = points.map((p) => p.i).concat(corners.map((c) => c.i), [0]);
+  // The current axis is set by the forward current: a reversed spike is clipped at a sixth of it below zero and said in a note.
+  const forward = points.map((p) => p.i).filter((i) => i > 0).concat(corners.map((c) => c.i).filter((i) => i > 0), opKnown && result.operatingI > 0 ? [result.operatingI] : []);
+  const top = forward.length ? maxOf(forward) : 0;
+  const lowest = minOf(points.map((p) => p.i));
+  const floor = top > 0 ? Math.max(lowest, -top / 6) : lowest;
   const [x0, x1] = spanOf(minOf(xs), maxOf(xs), 0.5);
-  const [y0, y1] = spanOf(minOf(ys), maxOf(ys), 1e-6);
+  const [y0, y1] = spanOf(Math.min(0, floor), top > 0 ? top : maxOf(points.map((p) => p.i).concat([0])), 1e-6);
 
   const plot = { left: 72, top: 34, right: width - 24, bottom: height - 52 };
   const xCount = Math.max(3, Math.min(10, Math.round((plot.right - plot.left) / 90)));
@@ -176,10 +174,29 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
   const px = (v: number) => plot.left + ((v - x.min) / (x.max - x.min)) * (plot.right - plot.left);
   const py = (i: number) => plot.bottom - ((i - y.min) / (y.max - y.min)) * (plot.bottom - plot.top);
 
-  const layout: PlotLayout = { width, height, plot, x, y, curve: points.map((p) => ({ px: px(p.v), py: py(p.i) })), notes };
-  if (edgeKnown) layout.edge = { volts: result.edgeV, px: px(result.edgeV) };
+  const layout: PlotLayout = { width, height, plot, x, y, curve: points.map((p) => ({ px: px(p.v), py: py(p.i) })), reversed: [], notes };
+  if (lowest < y.min) {
+    layout.clippedBelow = lowest;
+    notes.push(`The current reverses to ${formatQuantity(lowest, 'A')}; the curve is cut at the bottom of the axis so the forward current sets the scale.`);
+  }
+  // Reversed bands: runs of points whose current flows backwards, from midway to the neighbouring points.
+  for (let k = 0; k < points.length; k++) {
+    if (!(points[k].i < 0)) continue;
+    let e = k;
+    while (e + 1 < points.length && points[e + 1].i < 0) e++;
+    const v0 = k > 0 ? (points[k - 1].v + points[k].v) / 2 : points[k].v;
+    const v1 = e + 1 < points.length ? (points[e].v + points[e + 1].v) / 2 : points[e].v;
+    layout.reversed.push({ v0, v1, x0: px(v0), x1: px(v1) });
+    k = e;
+  }
+  if (edgeKnown) {
+    layout.edge = { volts: result.edgeV, px: px(result.edgeV) };
+    const ex = Math.min(plot.right, Math.max(plot.left, layout.edge.px));
+    const side = result.activeSide === 'below' ? { x0: ex, x1: plot.right } : { x0: plot.left, x1: ex };
+    if (side.x1 > side.x0) layout.outside = side;
+  }
   if (opKnown) {
-    const amps = currentAt(points, result.operatingV);
+    const amps = result.operatingI;
     layout.operating = { volts: result.operatingV, amps, px: px(result.operatingV), py: py(amps) };
     if (corners.length > 0) {
       const low = minOf(corners.map((c) => c.i));
@@ -200,20 +217,30 @@ function n(v: number): string {
   return (Math.round(v * 100) / 100).toString();
 }
 
+/** A short id fragment for SVG element ids, so several charts can share one page. */
+function idOf(text: string): string {
+  let h = 0;
+  for (let k = 0; k < text.length; k++) h = (h * 31 + text.charCodeAt(k)) | 0;
+  return `qp${(h >>> 0).toString(36)}`;
+}
+
 /**
  * Draws the output characteristic as an SVG document fragment. Colours come from CSS classes
- * (`qp-*`, see OUTPUT_CHARACTERISTIC_CSS) so the panel can map them to the editor theme.
+ * (`qp-*`, see OUTPUT_CHARACTERISTIC_CSS) so the panel can map them to the editor theme; the
+ * bands are hatched and the edge dashed, so nothing depends on colour alone. The chart takes
+ * the keyboard focus (tabindex) and describes itself in words for a screen reader.
  */
 export function renderOutputCharacteristicSvg(result: OutputCharacteristicResult, size: PlotSize): string {
   const layout = layoutOutputCharacteristic(result, size);
   const device = escapeXml(result.device ?? '');
   const node = escapeXml(result.node ?? '');
+  const id = idOf(`${result.structureId}#${result.device}`);
   if (!layout) {
     const w = Math.max(240, Number.isFinite(size.width) ? size.width : 0);
     const h = Math.max(180, Number.isFinite(size.height) ? size.height : 0);
     const count = Array.isArray(result.points) ? result.points.length : 0;
     return [
-      `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${w} ${h}" width="${w}" height="${h}" role="img">`,
+      `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${w} ${h}" width="${w}" height="${h}" role="img" tabindex="0">`,
       `<title>Output characteristic of ${device}</title>`,
       `<text class="qp-note" x="${n(w / 2)}" y="${n(h / 2)}" text-anchor="middle">The sweep of ${device} returned fewer than two drawable points (${count} received), so there is no curve to draw.</text>`,
       '</svg>',
@@ -221,17 +248,39 @@ export function renderOutputCharacteristicSvg(result: OutputCharacteristicResult
   }
   const { plot, x, y } = layout;
   const out: string[] = [];
-  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${layout.width} ${layout.height}" width="${layout.width}" height="${layout.height}" role="img" aria-labelledby="qp-title qp-desc">`);
-  out.push(`<title id="qp-title">Output characteristic of ${device} at node ${node}</title>`);
-  out.push(`<desc id="qp-desc">Output current of ${device} against the voltage at node ${node}${layout.edge ? `, with the edge of the active region at ${escapeXml(formatEngineering(layout.edge.volts, { unit: 'V' }))}` : ''}${layout.operating ? ` and the operating point at ${escapeXml(formatEngineering(layout.operating.volts, { unit: 'V' }))}, ${escapeXml(formatEngineering(layout.operating.amps, { unit: 'A' }))}` : ''}.</desc>`);
+  const v = (volts: number) => escapeXml(formatQuantity(volts, 'V'));
+  const a = (amps: number) => escapeXml(formatQuantity(amps, 'A'));
+  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${layout.width} ${layout.height}" width="${layout.width}" height="${layout.height}" role="img" tabindex="0" aria-labelledby="${id}-title ${id}-desc">`);
+  out.push(`<title id="${id}-title">${escapeXml(result.title ?? `Output characteristic of ${result.device}`)}</title>`);
+  const side = result.activeSide === 'below' ? 'below' : 'above';
+  out.push(
+    `<desc id="${id}-desc">Output current of ${device} against the voltage at node ${node}` +
+      (layout.edge ? `; it is a current source ${side} ${v(layout.edge.volts)} (the edge of its active region)` : '') +
+      (layout.operating ? `; the operating point is ${v(layout.operating.volts)}, ${a(layout.operating.amps)}` : '') +
+      (layout.reversed.length ? `; the current is reversed between ${layout.reversed.map((r) => `${v(r.v0)} and ${v(r.v1)}`).join(', ')}` : '') +
+      '.</desc>',
+  );
+  out.push('<defs>');
+  out.push(`<clipPath id="${id}-clip"><rect x="${n(plot.left)}" y="${n(plot.top)}" width="${n(plot.right - plot.left)}" height="${n(plot.bottom - plot.top)}"/></clipPath>`);
+  out.push(`<pattern id="${id}-hatch-out" class="qp-hatch-outside" width="8" height="8" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="8"/></pattern>`);
+  out.push(`<pattern id="${id}-hatch-rev" class="qp-hatch-reversed" width="6" height="6" patternUnits="userSpaceOnUse"><path d="M0 3h6M3 0v6"/></pattern>`);
+  out.push('</defs>');
 
-  // The region left of the edge is where the output is no longer a current source.
-  if (layout.edge && layout.edge.px > plot.left) {
-    const right = Math.min(layout.edge.px, plot.right);
-    out.push(`<rect class="qp-region-outside" x="${n(plot.left)}" y="${n(plot.top)}" width="${n(right - plot.left)}" height="${n(plot.bottom - plot.top)}"/>`);
+  // Where the output is no longer a current source: left of the edge for a sink (NPN, NMOS), right of it for a source (PNP, PMOS).
+  if (layout.outside) {
+    out.push(`<rect class="qp-region-outside qp-${side === 'above' ? 'left' : 'right'}" x="${n(layout.outside.x0)}" y="${n(plot.top)}" width="${n(layout.outside.x1 - layout.outside.x0)}" height="${n(plot.bottom - plot.top)}" fill="url(#${id}-hatch-out)"/>`);
+  }
+  for (const r of layout.reversed) {
+    const x0 = Math.max(plot.left, Math.min(r.x0, r.x1));
+    const x1 = Math.min(plot.right, Math.max(r.x0, r.x1));
+    if (x1 > x0) out.push(`<rect class="qp-region-reversed" data-from="${r.v0}" data-to="${r.v1}" x="${n(x0)}" y="${n(plot.top)}" width="${n(x1 - x0)}" height="${n(plot.bottom - plot.top)}" fill="url(#${id}-hatch-rev)"/>`);
   }
   for (const t of x.ticks) out.push(`<line class="qp-grid" x1="${n(t.px)}" y1="${n(plot.top)}" x2="${n(t.px)}" y2="${n(plot.bottom)}"/>`);
   for (const t of y.ticks) out.push(`<line class="qp-grid" x1="${n(plot.left)}" y1="${n(t.px)}" x2="${n(plot.right)}" y2="${n(t.px)}"/>`);
+  if (y.min < 0 && y.max > 0) {
+    const zy = plot.bottom - ((0 - y.min) / (y.max - y.min)) * (plot.bottom - plot.top);
+    out.push(`<line class="qp-zero" x1="${n(plot.left)}" y1="${n(zy)}" x2="${n(plot.right)}" y2="${n(zy)}"/>`);
+  }
   out.push(`<rect class="qp-frame" x="${n(plot.left)}" y="${n(plot.top)}" width="${n(plot.right - plot.left)}" height="${n(plot.bottom - plot.top)}"/>`);
 
   out.push('<g class="qp-axis qp-axis-x">');
@@ -250,10 +299,15 @@ export function renderOutputCharacteristicSvg(result: OutputCharacteristicResult
   out.push(`<text class="qp-axis-title" x="16" y="${n(yMid)}" text-anchor="middle" transform="rotate(-90 16 ${n(yMid)})">${escapeXml(y.title)}</text>`);
   out.push('</g>');
 
-  out.push(`<polyline class="qp-curve" points="${layout.curve.map((p) => `${n(p.px)},${n(p.py)}`).join(' ')}"/>`);
+  out.push(`<polyline class="qp-curve" clip-path="url(#${id}-clip)" points="${layout.curve.map((p) => `${n(p.px)},${n(p.py)}`).join(' ')}"/>`);
 
-  if (layout.edge) {
-    const label = `edge of active region ${formatEngineering(layout.edge.volts, { unit: 'V' })}`;
+  if (layout.reversed.length) {
+    const r = layout.reversed[0];
+    const cx = Math.min(plot.right - 4, Math.max(plot.left + 4, (r.x0 + r.x1) / 2));
+    out.push(`<text class="qp-reversed-label" x="${n(cx)}" y="${n(plot.bottom - 8)}" text-anchor="middle">reversed</text>`);
+  }
+  if (layout.edge && layout.edge.px >= plot.left && layout.edge.px <= plot.right) {
+    const label = `edge of active region ${formatQuantity(layout.edge.volts, 'V')}`;
     const anchor = layout.edge.px > (plot.left + plot.right) / 2 ? 'end' : 'start';
     const dx = anchor === 'end' ? -4 : 4;
     out.push(`<line class="qp-edge" data-volts="${layout.edge.volts}" x1="${n(layout.edge.px)}" y1="${n(plot.top)}" x2="${n(layout.edge.px)}" y2="${n(plot.bottom)}"/>`);
@@ -269,7 +323,7 @@ export function renderOutputCharacteristicSvg(result: OutputCharacteristicResult
   }
   if (layout.operating) {
     const o = layout.operating;
-    const label = `operating point ${formatEngineering(o.volts, { unit: 'V' })}, ${formatEngineering(o.amps, { unit: 'A' })}`;
+    const label = `operating point ${formatQuantity(o.volts, 'V')}, ${formatQuantity(o.amps, 'A')}`;
     const anchor = o.px > (plot.left + plot.right) / 2 ? 'end' : 'start';
     const dx = anchor === 'end' ? -10 : 10;
     out.push(`<circle class="qp-operating" data-volts="${o.volts}" data-amps="${o.amps}" cx="${n(o.px)}" cy="${n(o.py)}" r="5"/>`);
@@ -280,25 +334,24 @@ export function renderOutputCharacteristicSvg(result: OutputCharacteristicResult
 }
 
 /**
- * The corner spread as a small HTML table: each corner's output current and its deviation
- * from the current at the operating point.
+ * The corner spread as a small HTML table: each corner's output current (from its re-solve) and
+ * its change from the nominal solve at the operating point.
  */
 export function renderCornerTableHtml(result: OutputCharacteristicResult): string {
   const corners = Array.isArray(result.cornerSpread) ? result.cornerSpread : [];
   if (corners.length === 0) return '<p class="qp-note">No corner results came with this sweep (corners may be turned off in the settings).</p>';
   const finite = corners.filter((c) => Number.isFinite(c?.i));
-  const points = (Array.isArray(result.points) ? result.points : []).filter((p) => Number.isFinite(p?.v) && Number.isFinite(p?.i)).sort((a, b) => a.v - b.v);
-  const nominal = points.length > 0 && Number.isFinite(result.operatingV) ? currentAt(points, result.operatingV) : undefined;
+  const nominal = Number.isFinite(result.operatingI) && result.operatingI !== 0 ? result.operatingI : undefined;
   const rows = corners.map((c) => {
-    const amps = Number.isFinite(c?.i) ? formatEngineering(c.i, { unit: 'A' }) : 'not available';
-    const dev = nominal !== undefined && nominal !== 0 && Number.isFinite(c?.i) ? formatPercent((c.i - nominal) / nominal) : '—';
+    const amps = Number.isFinite(c?.i) ? formatQuantity(c.i, 'A') : 'not available';
+    const dev = nominal !== undefined && Number.isFinite(c?.i) ? formatPercent((c.i - nominal) / Math.abs(nominal)) : '—';
     return `<tr><th scope="row">${escapeXml(c?.label ?? '')}</th><td>${escapeXml(amps)}</td><td>${escapeXml(dev)}</td></tr>`;
   });
   const range = finite.length > 0
-    ? `<caption>Output current at the operating point across the corners: ${escapeXml(formatEngineering(minOf(finite.map((c) => c.i)), { unit: 'A' }))} to ${escapeXml(formatEngineering(maxOf(finite.map((c) => c.i)), { unit: 'A' }))}</caption>`
+    ? `<caption>Output current at the operating point across the corners: ${escapeXml(formatQuantity(minOf(finite.map((c) => c.i)), 'A'))} to ${escapeXml(formatQuantity(maxOf(finite.map((c) => c.i)), 'A'))}${nominal !== undefined ? `; nominal ${escapeXml(formatQuantity(nominal, 'A'))}` : ''}</caption>`
     : '<caption>Output current at the operating point across the corners</caption>';
   return [
-    '<table class="qp-corners">',
+    '<table class="qp-corners" tabindex="0">',
     range,
     '<thead><tr><th scope="col">Corner</th><th scope="col">Output current</th><th scope="col">Change from nominal</th></tr></thead>',
     `<tbody>${rows.join('')}</tbody>`,
@@ -306,27 +359,47 @@ export function renderCornerTableHtml(result: OutputCharacteristicResult): strin
   ].join('\n');
 }
 
-/** Theme-aware styles for the chart's classes, taken from the editor's CSS variables. */
+/**
+ * Styles for the chart's classes. In the editor they take the theme's colours (VS Code's CSS
+ * variables, with thicker strokes and no translucency in high-contrast themes); elsewhere (the
+ * HTML report) the fallbacks give a light page, and a dark one when the reader's system asks.
+ */
 export const OUTPUT_CHARACTERISTIC_CSS = `
-body { color: var(--vscode-foreground); background: var(--vscode-editor-background); font-family: var(--vscode-font-family); font-size: var(--vscode-font-size); padding: 0 16px 16px; }
+:root { --qp-fg: var(--vscode-foreground, #1d2125); --qp-bg: var(--vscode-editor-background, #ffffff); --qp-muted: var(--vscode-descriptionForeground, #59636e);
+  --qp-line: var(--vscode-editorWidget-border, #8c959f); --qp-grid: var(--vscode-editorIndentGuide-background1, #d8dee4);
+  --qp-curve: var(--vscode-charts-blue, #1f5fbf); --qp-edge: var(--vscode-charts-red, #b3261e); --qp-op: var(--vscode-charts-orange, #b35900);
+  --qp-reversed: var(--vscode-charts-purple, #6f42c1); --qp-focus: var(--vscode-focusBorder, #1f5fbf); }
+@media (prefers-color-scheme: dark) { :root:not(.qp-light) { --qp-fg: var(--vscode-foreground, #e6edf3); --qp-bg: var(--vscode-editor-background, #1b1f24);
+  --qp-muted: var(--vscode-descriptionForeground, #9198a1); --qp-line: var(--vscode-editorWidget-border, #6e7681); --qp-grid: var(--vscode-editorIndentGuide-background1, #30363d);
+  --qp-curve: var(--vscode-charts-blue, #6cb6ff); --qp-edge: var(--vscode-charts-red, #ff7b72); --qp-op: var(--vscode-charts-orange, #f0a04b); --qp-reversed: var(--vscode-charts-purple, #d2a8ff); } }
+body { color: var(--qp-fg); background: var(--qp-bg); font-family: var(--vscode-font-family, system-ui, sans-serif); font-size: var(--vscode-font-size, 14px); padding: 0 16px 16px; }
 h1 { font-size: 1.2em; font-weight: 600; margin: 12px 0 4px; }
-.qp-subtitle, .qp-note { color: var(--vscode-descriptionForeground); }
-.qp-chart { max-width: 100%; height: auto; font-family: var(--vscode-font-family); font-size: 13px; }
-.qp-chart text { fill: var(--vscode-foreground); }
-.qp-chart .qp-note { fill: var(--vscode-descriptionForeground); }
-.qp-frame { fill: none; stroke: var(--vscode-editorWidget-border, var(--vscode-foreground)); stroke-width: 1; }
-.qp-grid { stroke: var(--vscode-editorIndentGuide-background1, var(--vscode-editorWidget-border)); stroke-width: 1; opacity: 0.6; }
-.qp-tick { stroke: var(--vscode-foreground); stroke-width: 1; }
-.qp-curve { fill: none; stroke: var(--vscode-charts-blue); stroke-width: 2; }
-.qp-region-outside { fill: var(--vscode-charts-red); opacity: 0.12; }
-.qp-edge { stroke: var(--vscode-charts-red); stroke-width: 1.5; stroke-dasharray: 6 4; }
-.qp-chart .qp-edge-label { fill: var(--vscode-charts-red); }
-.qp-operating { fill: var(--vscode-charts-orange); stroke: var(--vscode-editor-background); stroke-width: 1.5; }
-.qp-spread line { stroke: var(--vscode-charts-orange); stroke-width: 2; }
+.qp-subtitle, .qp-note { color: var(--qp-muted); }
+.qp-chart { max-width: 100%; height: auto; font-family: inherit; font-size: 13px; }
+.qp-chart:focus-visible, .qp-corners:focus-visible { outline: 2px solid var(--qp-focus); outline-offset: 2px; }
+.qp-chart text { fill: var(--qp-fg); }
+.qp-chart .qp-note { fill: var(--qp-muted); }
+.qp-frame { fill: none; stroke: var(--qp-line); stroke-width: 1; }
+.qp-grid { stroke: var(--qp-grid); stroke-width: 1; }
+.qp-zero { stroke: var(--qp-fg); stroke-width: 1; }
+.qp-tick { stroke: var(--qp-fg); stroke-width: 1; }
+.qp-curve { fill: none; stroke: var(--qp-curve); stroke-width: 2.5; }
+.qp-hatch-outside line { stroke: var(--qp-edge); stroke-width: 1.5; opacity: 0.45; }
+.qp-hatch-reversed path { stroke: var(--qp-reversed); stroke-width: 1; opacity: 0.5; }
+.qp-edge { stroke: var(--qp-edge); stroke-width: 1.5; stroke-dasharray: 6 4; }
+.qp-chart .qp-edge-label { fill: var(--qp-edge); }
+.qp-chart .qp-reversed-label { fill: var(--qp-reversed); font-style: italic; }
+.qp-operating { fill: var(--qp-op); stroke: var(--qp-bg); stroke-width: 1.5; }
+.qp-spread line { stroke: var(--qp-op); stroke-width: 2; }
 .qp-corners { border-collapse: collapse; margin-top: 12px; }
-.qp-corners caption { text-align: left; margin-bottom: 4px; color: var(--vscode-descriptionForeground); }
-.qp-corners th, .qp-corners td { border: 1px solid var(--vscode-editorWidget-border, var(--vscode-foreground)); padding: 2px 10px; text-align: left; }
+.qp-corners caption { text-align: left; margin-bottom: 4px; color: var(--qp-muted); }
+.qp-corners th, .qp-corners td { border: 1px solid var(--qp-line); padding: 2px 10px; text-align: left; }
 .qp-corners td { font-variant-numeric: tabular-nums; }
+body.vscode-high-contrast .qp-curve, body.vscode-high-contrast-light .qp-curve { stroke-width: 3.5; }
+body.vscode-high-contrast .qp-hatch-outside line, body.vscode-high-contrast-light .qp-hatch-outside line,
+body.vscode-high-contrast .qp-hatch-reversed path, body.vscode-high-contrast-light .qp-hatch-reversed path { opacity: 1; }
+body.vscode-high-contrast .qp-grid, body.vscode-high-contrast-light .qp-grid { stroke: var(--vscode-contrastBorder, var(--qp-line)); stroke-dasharray: 2 4; }
+body.vscode-high-contrast .qp-edge, body.vscode-high-contrast-light .qp-edge { stroke-width: 2.5; }
 `;
 
 /**
@@ -337,9 +410,10 @@ export function renderDriftSvg(result: OutputCharacteristicResult, size: PlotSiz
   const width = Math.max(240, Number.isFinite(size.width) ? size.width : 0);
   const height = Math.max(160, Number.isFinite(size.height) ? size.height : 0);
   const device = escapeXml(result.device ?? '');
+  const id = idOf(`drift#${result.structureId}#${result.device}`);
   const pts = (Array.isArray(result.drift) ? result.drift : []).filter((p) => Number.isFinite(p?.t) && Number.isFinite(p?.i)).sort((a, b) => a.t - b.t);
   if (pts.length < 2) {
-    return `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img"><title>Drift of ${device}</title><text class="qp-note" x="${n(width / 2)}" y="${n(height / 2)}" text-anchor="middle">No drift sweep came with this result.</text></svg>`;
+    return `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" tabindex="0"><title>Drift of ${device}</title><text class="qp-note" x="${n(width / 2)}" y="${n(height / 2)}" text-anchor="middle">No drift sweep came with this result.</text></svg>`;
   }
   const plot = { left: 72, top: 20, right: width - 24, bottom: height - 52 };
   const [x0, x1] = spanOf(minOf(pts.map((p) => p.t)), maxOf(pts.map((p) => p.t)), 1);
@@ -349,8 +423,8 @@ export function renderDriftSvg(result: OutputCharacteristicResult, size: PlotSiz
   const px = (t: number) => plot.left + ((t - x.min) / (x.max - x.min)) * (plot.right - plot.left);
   const py = (i: number) => plot.bottom - ((i - y.min) / (y.max - y.min)) * (plot.bottom - plot.top);
   const out: string[] = [];
-  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart qp-drift" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" aria-labelledby="qp-drift-title">`);
-  out.push(`<title id="qp-drift-title">Output current of ${device} against temperature, ${escapeXml(formatEngineering(pts[0].t, { unit: '°C' }))} to ${escapeXml(formatEngineering(pts[pts.length - 1].t, { unit: '°C' }))}</title>`);
+  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart qp-drift" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" tabindex="0" aria-labelledby="${id}-title">`);
+  out.push(`<title id="${id}-title">Output current of ${device} against temperature, ${escapeXml(formatQuantity(pts[0].t, '°C'))} to ${escapeXml(formatQuantity(pts[pts.length - 1].t, '°C'))}</title>`);
   for (const t of x.ticks) out.push(`<line class="qp-grid" x1="${n(t.px)}" y1="${n(plot.top)}" x2="${n(t.px)}" y2="${n(plot.bottom)}"/>`);
   for (const t of y.ticks) out.push(`<line class="qp-grid" x1="${n(plot.left)}" y1="${n(t.px)}" x2="${n(plot.right)}" y2="${n(t.px)}"/>`);
   out.push(`<rect class="qp-frame" x="${n(plot.left)}" y="${n(plot.top)}" width="${n(plot.right - plot.left)}" height="${n(plot.bottom - plot.top)}"/>`);

@@ -1,6 +1,6 @@
-// Checks the output-characteristic chart: nice axis ticks, marker positions, escaping and finite output.
+// Checks the output-characteristic chart: nice axis ticks, marker positions on the right side for each polarity, escaping and finite output.
 import { describe, expect, it } from 'vitest';
-import type { OutputCharacteristicResult } from '../../../server/src/protocol';
+import type { OutputCharacteristicResult } from '../../../shared-analysis/src/features/sweep';
 import {
   axisTicks,
   escapeXml,
@@ -9,8 +9,9 @@ import {
   niceTicks,
   renderCornerTableHtml,
   renderOutputCharacteristicSvg,
-} from '../../../client/src/plot';
+} from '../../../shared-analysis/src/view/plot';
 import { panelContentSecurityPolicy, renderPanelHtml } from '../../../client/src/panel';
+import type { Technology } from '../../../shared-analysis/src/structures/types';
 
 const SIZE = { width: 720, height: 420 };
 
@@ -24,10 +25,15 @@ function sweep(overrides: Partial<OutputCharacteristicResult> = {}): OutputChara
   return {
     device: 'Q2',
     structureId: 'mirror-1',
+    title: 'Mirror output Q2 of the simple current mirror on Q1 (NPN)',
+    technology: 'npn',
     node: 'out',
     points,
     edgeV: 0.2,
+    activeSide: 'above',
     operatingV: 3,
+    operatingI: 1.0112e-3,
+    range: { low: 0, high: 5, rails: ['0', 'vcc'] },
     cornerSpread: [
       { label: 'supply −5 %', i: 0.98e-3 },
       { label: 'hot 125 °C', i: 1.03e-3 },
@@ -39,7 +45,7 @@ function sweep(overrides: Partial<OutputCharacteristicResult> = {}): OutputChara
 
 /** Reads a numeric attribute of the first element with the given class. */
 function attr(svg: string, cls: string, name: string): number {
-  const el = new RegExp(`<[a-z]+ class="${cls}"[^>]*>`).exec(svg);
+  const el = new RegExp(`<[a-z]+ class="${cls}[" ][^>]*>`).exec(svg);
   if (!el) throw new Error(`no element with class ${cls}`);
   const m = new RegExp(`\\b${name}="([^"]*)"`).exec(el[0]);
   if (!m) throw new Error(`no ${name} on ${cls}`);
@@ -102,7 +108,7 @@ describe('chart layout', () => {
 
   it('uses µA for a 250 µA output', () => {
     const s = sweep();
-    const layout = layoutOutputCharacteristic({ ...s, points: s.points.map((p) => ({ v: p.v, i: p.i / 4 })), cornerSpread: [] }, SIZE)!;
+    const layout = layoutOutputCharacteristic({ ...s, points: s.points.map((p) => ({ v: p.v, i: p.i / 4 })), operatingI: s.operatingI / 4, cornerSpread: [] }, SIZE)!;
     expect(layout.y.title).toBe('Output current (µA)');
     expect(layout.y.ticks.at(-1)!.label).toMatch(/^\d+$/);
   });
@@ -130,16 +136,55 @@ describe('markers in the SVG', () => {
     expect(svg).toContain('edge of active region 0.2 V');
   });
 
-  it('puts the operating point on the curve at the operating voltage (linear interpolation)', () => {
-    const result = sweep({ operatingV: 3.05 });
+  it('puts the operating point where the operating-point solve says, not where the sweep interpolates', () => {
+    // The solve says 362 µA at 3.05 V; the sweep around it reads about 1.01 mA. The marker must follow the solve.
+    const result = sweep({ operatingV: 3.05, operatingI: 362e-6 });
     const svg = renderOutputCharacteristicSvg(result, SIZE);
     const layout = layoutOutputCharacteristic(result, SIZE)!;
-    // Halfway between the sweep points at 3.0 V and 3.1 V.
-    const i = (1e-3 * (1 + 2.8 / 250) + 1e-3 * (1 + 2.9 / 250)) / 2;
-    expect(attr(svg, 'qp-operating', 'data-amps')).toBeCloseTo(i, 12);
-    const py = layout.plot.bottom - ((i - layout.y.min) / (layout.y.max - layout.y.min)) * (layout.plot.bottom - layout.plot.top);
+    expect(attr(svg, 'qp-operating', 'data-amps')).toBe(362e-6);
+    const py = layout.plot.bottom - ((362e-6 - layout.y.min) / (layout.y.max - layout.y.min)) * (layout.plot.bottom - layout.plot.top);
     expect(attr(svg, 'qp-operating', 'cy')).toBeCloseTo(py, 1);
-    expect(svg).toMatch(/operating point 3\.05 V, 1\.01 mA/);
+    expect(svg).toMatch(/operating point 3\.05 V, 362 µA/);
+  });
+
+  it('draws the out-of-region band left of the edge for a sink (NPN, NMOS) and right of it for a source (PNP, PMOS)', () => {
+    // Source: Sedra & Smith, "Microelectronic Circuits" — an NPN (NMOS) output leaves forward-active (saturation)
+    // as its collector (drain) falls toward its emitter (source): below the edge. A PNP (PMOS) output, hung from
+    // the upper rail, leaves it as its collector (drain) rises toward the upper rail: above the edge.
+    const sink = layoutOutputCharacteristic(sweep({ edgeV: 0.7, activeSide: 'above' }), SIZE)!;
+    expect(sink.outside!.x0).toBeCloseTo(sink.plot.left, 6);
+    expect(sink.outside!.x1).toBeCloseTo(sink.edge!.px, 6);
+    const source = layoutOutputCharacteristic(sweep({ edgeV: 4.3, activeSide: 'below', technology: 'pmos' }), SIZE)!;
+    expect(source.outside!.x0).toBeCloseTo(source.edge!.px, 6);
+    expect(source.outside!.x1).toBeCloseTo(source.plot.right, 6);
+    const svg = renderOutputCharacteristicSvg(sweep({ edgeV: 4.3, activeSide: 'below' }), SIZE);
+    expect(svg).toMatch(/class="qp-region-outside qp-right"/);
+    expect(svg).toMatch(/a current source below 4\.3 V/);
+  });
+
+  it('marks a reversed current and keeps the forward current setting the scale', () => {
+    // Forward 1 mA, and a reversed spike of −20 mA at the first point: the axis reaches down a sixth of 1 mA at most.
+    const s = sweep();
+    const points = s.points.map((p, k) => (k === 0 ? { v: p.v, i: -20e-3 } : k === 1 ? { v: p.v, i: -1e-3 } : p));
+    const layout = layoutOutputCharacteristic({ ...s, points }, SIZE)!;
+    expect(layout.y.min).toBeGreaterThanOrEqual(-1.03e-3 / 6 - 0.1e-3);
+    expect(layout.y.min).toBeLessThan(0);
+    expect(layout.y.max).toBeLessThanOrEqual(1.2e-3);
+    expect(layout.clippedBelow).toBe(-20e-3);
+    expect(layout.reversed.length).toBe(1);
+    expect(layout.reversed[0]!.v0).toBe(0);
+    expect(layout.reversed[0]!.v1).toBeCloseTo(0.15, 9);
+    const svg = renderOutputCharacteristicSvg({ ...s, points }, SIZE);
+    expect(svg).toContain('class="qp-region-reversed"');
+    expect(svg).toContain('>reversed</text>');
+    expect(svg).toMatch(/clip-path="url\(#qp[a-z0-9]+-clip\)"/);
+  });
+
+  it('titles the chart in words and lets the keyboard reach it', () => {
+    const svg = renderOutputCharacteristicSvg(sweep(), SIZE);
+    expect(svg).toMatch(/<title id="qp[a-z0-9]+-title">Mirror output Q2 of the simple current mirror on Q1 \(NPN\)<\/title>/);
+    expect(svg).toMatch(/<svg [^>]*tabindex="0"/);
+    expect(renderCornerTableHtml(sweep())).toMatch(/<table class="qp-corners" tabindex="0">/);
   });
 
   it('spans the corner spread bar from the lowest to the highest corner current', () => {
@@ -148,11 +193,13 @@ describe('markers in the SVG', () => {
     expect(attr(svg, 'qp-spread', 'data-high')).toBeCloseTo(1.03e-3, 12);
   });
 
-  it('lists every corner in the table with its current and change from nominal', () => {
-    const html = renderCornerTableHtml(sweep({ operatingV: 0.2 }));
+  it('lists every corner in the table with its current and change from the nominal solve', () => {
+    const html = renderCornerTableHtml(sweep({ operatingV: 0.2, operatingI: 1e-3 }));
     expect(html).toContain('<th scope="row">beta low</th><td>960 µA</td><td>−4 %</td>');
     expect(html).toContain('<th scope="row">hot 125 °C</th><td>1.03 mA</td><td>+3 %</td>');
-    expect(html).toMatch(/across the corners: 960 µA to 1\.03 mA/);
+    expect(html).toMatch(/across the corners: 960 µA to 1\.03 mA; nominal 1 mA/);
+    // A corner identical to nominal reads as no change, not as an interpolation error.
+    expect(renderCornerTableHtml(sweep({ operatingI: 362e-6, cornerSpread: [{ label: 'nominal supply, 27 °C', i: 362e-6 }] }))).toContain('<td>362 µA</td><td>0 %</td>');
   });
 });
 
@@ -193,7 +240,7 @@ describe('escaping and finite output', () => {
 
   it('drops non-finite sweep points and markers and says so', () => {
     const s = sweep();
-    const bad = { ...s, points: [...s.points, { v: NaN, i: 1e-3 }, { v: 2, i: Infinity }], edgeV: NaN, operatingV: Infinity, cornerSpread: [{ label: 'cold', i: NaN }] };
+    const bad = { ...s, points: [...s.points, { v: NaN, i: 1e-3 }, { v: 2, i: Infinity }], edgeV: NaN, operatingV: Infinity, operatingI: NaN, cornerSpread: [{ label: 'cold', i: NaN }] };
     checkFinite(bad);
     const layout = layoutOutputCharacteristic(bad, SIZE)!;
     expect(layout.notes).toContain('2 of 53 sweep points were not finite numbers and are left out.');
@@ -240,8 +287,8 @@ describe('panel page', () => {
 
 describe('the drift plot', () => {
   it('draws the current against temperature in order, with both axes titled, and a note without points', async () => {
-    const { renderDriftSvg } = await import('../../../client/src/plot');
-    const base = { device: 'Q2', structureId: 's', node: 'out', points: [], edgeV: 0, operatingV: 0, cornerSpread: [] };
+    const { renderDriftSvg } = await import('../../../shared-analysis/src/view/plot');
+    const base: OutputCharacteristicResult = { device: 'Q2', structureId: 's', title: 'Mirror output Q2', technology: 'npn', node: 'out', points: [], edgeV: 0, activeSide: 'above', operatingV: 0, operatingI: 1e-3, range: { low: 0, high: 5, rails: [] }, cornerSpread: [] };
     const svg = renderDriftSvg({ ...base, drift: [{ t: 125, i: 1.1e-3 }, { t: -40, i: 0.9e-3 }, { t: 27, i: 1e-3 }] }, { width: 480, height: 240 });
     expect(svg).toContain('Temperature (°C)');
     expect(svg).toMatch(/Output current \((m|µ)A\)/);
