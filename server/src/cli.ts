@@ -21,6 +21,9 @@ import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
+import { htmlReport, markdownReport, type ReportFile } from './report-pages';
+import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
+import { OUTPUT_CHARACTERISTIC_CSS, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 
 /** Shown with every report: the numbers are for design review, not sign-off. */
 export const CAUTION =
@@ -42,10 +45,18 @@ export const EXIT = {
 const USAGE = `Usage:
   qpoint check [options] [--] FILE...    check netlists for CI
   qpoint report [options] [--] FILE...   print the bias point, structures and findings for people
+  qpoint sweep [options] --output DEVICE FILE
+                                         print one mirror output's characteristic (CSV or SVG)
   qpoint --help | --version
 
 Options:
-  --format text|json|sarif     output of 'check' (default text); 'report' writes text or json
+  --format FORMAT              'check': text, json or sarif (default text);
+                               'report': text, json, html (one self-contained page with the
+                               output characteristics) or markdown (a CI job summary);
+                               'sweep': csv (default) or svg
+  -o FILE                      'report' and 'sweep': write to FILE instead of the standard output
+  --output DEVICE              'sweep': the mirror output to sweep (hierarchical name, e.g. X1.Q3)
+  --points N                   'sweep': points across the rails, 2 to 2001 (default 81)
   --temperature C              analysis temperature in °C (overrides .temp)
   --series E12|E24|E48|E96|E192  standard series for resistor fixes (default E24)
   --headroom-margin V          minimum headroom beyond the active-region edge (default 0.3)
@@ -85,6 +96,13 @@ Exit codes: 0 nothing at or above --fail-level; 1 findings at or above --fail-le
 Text output: one line per finding, 'file:line:col severity code message' (lines and columns from 1).
 Control characters and bidirectional marks in echoed text are printed escaped (\\x1b, \\u202e).`;
 
+/** The output formats each command writes. */
+const FORMATS = {
+  check: ['text', 'json', 'sarif'],
+  report: ['text', 'json', 'html', 'markdown'],
+  sweep: ['csv', 'svg'],
+} as const;
+
 const SEVERITY_RANK: Record<Severity, number> = { error: 0, warning: 1, info: 2, hint: 3 };
 
 /** The command line reads netlists up to this many flattened elements (the editor stops at 500,000). */
@@ -94,9 +112,15 @@ export const CLI_MAX_ELEMENTS = 2_000_000;
 class UsageError extends Error {}
 
 interface CliOptions {
-  command: 'check' | 'report';
+  command: 'check' | 'report' | 'sweep';
   files: string[];
-  format: 'text' | 'json' | 'sarif';
+  format: 'text' | 'json' | 'sarif' | 'html' | 'markdown' | 'csv' | 'svg';
+  /** `-o FILE`: where 'report' and 'sweep' write. */
+  outFile?: string;
+  /** `--output DEVICE`: the output 'sweep' sweeps. */
+  device?: string;
+  /** `--points N` for 'sweep'. */
+  points: number;
   failLevel: Severity;
   analysis: AnalysisOptions;
   /** Folders besides the current one and each netlist's own whose files includes may read. */
@@ -173,8 +197,8 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--help' || argv[0] === '-h') return 'help';
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
-  if (command !== 'check' && command !== 'report') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false };
+  if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
+  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false, points: 81 };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -191,9 +215,31 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         filesOnly = true;
         break;
       case '--format': {
+        const f = next() ?? '';
+        const allowed = FORMATS[command];
+        if (!(allowed as readonly string[]).includes(f)) throw new UsageError(`'${command} --format' takes ${allowed.join(', ')}; got '${escapeControls(f)}'.${command === 'report' && f === 'sarif' ? " SARIF lists findings for code scanning, so use 'check --format sarif'." : ''}`);
+        opts.format = f as CliOptions['format'];
+        break;
+      }
+      case '-o': {
         const f = next();
-        if (f !== 'text' && f !== 'json' && f !== 'sarif') throw new UsageError(`--format takes text, json or sarif, got '${escapeControls(f ?? '')}'.`);
-        opts.format = f;
+        if (!f) throw new UsageError('-o needs a file name.');
+        if (command === 'check') throw new UsageError("-o is for 'report' and 'sweep'; 'check' writes to the standard output.");
+        opts.outFile = f;
+        break;
+      }
+      case '--output': {
+        const d = next();
+        if (!d) throw new UsageError('--output needs a device name (a mirror output, e.g. Q2 or X1.M3).');
+        if (command !== 'sweep') throw new UsageError("--output names the device 'sweep' sweeps; 'report' writes to a file with -o FILE.");
+        opts.device = d;
+        break;
+      }
+      case '--points': {
+        const text = next();
+        const v = parseDecimal(text);
+        if (v === undefined || !Number.isInteger(v) || v < 2 || v > 2001) throw new UsageError(`--points takes a whole number from 2 to 2001, got '${escapeControls(text ?? '')}'.`);
+        opts.points = v;
         break;
       }
       case '--temperature':
@@ -298,7 +344,10 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
     }
   }
   if (opts.files.length === 0) throw new UsageError(`'${command}' needs at least one netlist file.`);
-  if (command === 'report' && opts.format === 'sarif') throw new UsageError(`'report' writes text or json; SARIF lists findings for code scanning, so use 'check --format sarif'.`);
+  if (command === 'sweep') {
+    if (!opts.device) throw new UsageError("'sweep' needs --output DEVICE: the mirror output whose characteristic to print.");
+    if (opts.files.length !== 1) throw new UsageError(`'sweep' takes one netlist file, got ${opts.files.length}.`);
+  }
   const crossed = crossCheckCorners(corners, { cold: '--cold', hot: '--hot' });
   if (crossed.length) throw new UsageError(crossed[0]!);
   if (opts.monteCarlo && opts.monteCarlo.runs === 0) throw new UsageError('--seed needs --monte-carlo N (the number of runs).');
@@ -705,6 +754,52 @@ function writeDocument(doc: unknown, opts: CliOptions, write: (s: string) => voi
   write('\n');
 }
 
+/** The report pages' view of the results: each file with its analysis and findings. */
+function reportFiles(results: FileResult[]): ReportFile[] {
+  return results.map((r) => ({ path: r.path, analysis: r.analysis, diagnostics: toJsonDiagnostics(r) }));
+}
+
+/** Writes `text` to `file` (`-o`) or the standard output; false after saying why a file could not be written. */
+function writeOut(file: string | undefined, text: string, write: (s: string) => void): boolean {
+  if (file === undefined || file === '-') {
+    write(text);
+    return true;
+  }
+  try {
+    fs.writeFileSync(file, text);
+    return true;
+  } catch (e) {
+    process.stderr.write(`qpoint: cannot write '${escapeControls(file)}': ${escapeControls(e instanceof Error ? e.message : String(e))}\n`);
+    return false;
+  }
+}
+
+/** `qpoint sweep FILE --output DEVICE`: the output characteristic as CSV (volts, amperes) or a standalone SVG. */
+function sweepCommand(opts: CliOptions, r: FileResult, write: (s: string) => void): number {
+  if (!r.analysis) {
+    process.stderr.write(escapeControls(toJsonDiagnostics(r).map((d) => `qpoint: ${d.message}`).join('\n')) + '\n');
+    return EXIT.failed;
+  }
+  const result = outputCharacteristic(r.analysis, opts.device!, opts.points);
+  if ('error' in result) {
+    process.stderr.write(`qpoint: ${escapeControls(result.error)}\n`);
+    return EXIT.usage;
+  }
+  let text: string;
+  if (opts.format === 'svg') {
+    // A standalone SVG carries its own styles (light, or dark when the viewer prefers it).
+    const svg = renderOutputCharacteristicSvg(result, { width: 720, height: 420 });
+    const styled = svg.replace(/^(<svg [^>]*>)/, `$1\n<style>${OUTPUT_CHARACTERISTIC_CSS.replace(/\bbody\b/g, 'svg')}\n.qp-chart { background: var(--qp-bg); }</style>\n<rect width="100%" height="100%" fill="var(--qp-bg, #ffffff)"/>`);
+    text = `<?xml version="1.0" encoding="UTF-8"?>\n${styled}\n`;
+  } else {
+    // RFC 4180 CSV: a header line, then one record per converged sweep point, CRLF line breaks.
+    const lines = [`output_node_V,output_current_A`];
+    for (const p of result.points) lines.push(`${p.v},${p.i}`);
+    text = lines.join('\r\n') + '\r\n';
+  }
+  return writeOut(opts.outFile, text, write) ? EXIT.clean : EXIT.failed;
+}
+
 /** Runs the CLI; returns the exit code (see EXIT). */
 export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number {
   let opts: ReturnType<typeof parseArgs>;
@@ -730,10 +825,24 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
   const failRank = SEVERITY_RANK[opts.failLevel];
   const failed = results.some((r) => r.readError || r.internalError);
   const failing = results.some((r) => r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
+  if (opts.command === 'sweep') return sweepCommand(opts, results[0]!, write);
   if (opts.command === 'report') {
+    let text: string;
     // The same document as `check --format json` (it carries the caution too); the exit code stays the report's.
-    if (opts.format === 'json') writeDocument(jsonReport(results, opts), opts, write);
-    else write(results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`);
+    if (opts.format === 'json') {
+      // The JSON document is written in chunks, to the file of -o when there is one.
+      if (opts.outFile === undefined || opts.outFile === '-') writeDocument(jsonReport(results, opts), opts, write);
+      else {
+        const chunks: string[] = [];
+        writeDocument(jsonReport(results, opts), opts, (s) => chunks.push(s));
+        if (!writeOut(opts.outFile, chunks.join(''), write)) return EXIT.failed;
+      }
+      return failed ? EXIT.failed : EXIT.clean;
+    }
+    if (opts.format === 'html') text = htmlReport(reportFiles(results), CAUTION, `qpoint ${VERSION}`);
+    else if (opts.format === 'markdown') text = escapeControls(markdownReport(reportFiles(results), CAUTION)).replace(/\\n/g, '\n');
+    else text = results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`;
+    if (!writeOut(opts.outFile, text, write)) return EXIT.failed;
     return failed ? EXIT.failed : EXIT.clean;
   }
   if (opts.format === 'json') writeDocument(jsonReport(results, opts), opts, write);

@@ -246,6 +246,51 @@ function referenceEstimate(netlist) {
   return (Number(supply[1]) - 0.7) / (Number(rref[1]) * 1e3);
 }
 
+/** WCAG 2.1 relative luminance of an `rgb(r, g, b)` colour (sRGB channels linearised). */
+function luminance(rgb) {
+  const m = /rgba?\(\s*(\d+)[ ,]+(\d+)[ ,]+(\d+)/.exec(rgb ?? '');
+  if (!m) return undefined;
+  const lin = (c) => {
+    const s = Number(c) / 255;
+    return s <= 0.04045 ? s / 12.92 : ((s + 0.055) / 1.055) ** 2.4;
+  };
+  return 0.2126 * lin(m[1]) + 0.7152 * lin(m[2]) + 0.0722 * lin(m[3]);
+}
+
+/** WCAG 2.1 contrast ratio (L1 + 0.05)/(L2 + 0.05) of two colours; NaN when either cannot be read. */
+function contrastRatio(a, b) {
+  const la = luminance(a);
+  const lb = luminance(b);
+  if (la === undefined || lb === undefined) return NaN;
+  return (Math.max(la, lb) + 0.05) / (Math.min(la, lb) + 0.05);
+}
+
+/** The output-characteristic chart of `device` in any webview frame, read as the user sees it; null while there is none. */
+async function chartIn(page, device) {
+  for (const frame of page.frames()) {
+    const info = await frame.evaluate((d) => {
+      const svg = document.querySelector('svg.qp-chart');
+      const title = document.querySelector('h1')?.textContent ?? '';
+      if (!svg || !title.includes(d)) return null;
+      const curve = svg.querySelector('.qp-curve');
+      return {
+        title,
+        edge: !!svg.querySelector('.qp-edge'),
+        sides: [...svg.querySelectorAll('.qp-region-outside')].map((r) => (r.classList.contains('qp-left') ? 'left' : r.classList.contains('qp-right') ? 'right' : '?')),
+        operating: svg.querySelector('.qp-operating')?.getAttribute('data-amps') ?? null,
+        tabindex: svg.getAttribute('tabindex'),
+        ticks: svg.querySelectorAll('.qp-tick-label').length,
+        corners: document.querySelectorAll('.qp-corners tbody tr').length,
+        text: svg.textContent ?? '',
+        stroke: curve ? getComputedStyle(curve).stroke : '',
+        background: getComputedStyle(document.body).backgroundColor,
+      };
+    }, device).catch(() => null);
+    if (info) return { ...info, contrast: contrastRatio(info.stroke, info.background) };
+  }
+  return null;
+}
+
 async function main() {
   const started = Date.now();
   rmSync(OUT, { recursive: true, force: true });
@@ -591,36 +636,73 @@ async function main() {
       return `"${title}" → changed: ${changed.map((l) => l.trim()).join(' | ').slice(0, 120)}`;
     });
 
-    await check('plotting a mirror output shows a chart with the edge, the operating point and the corner table', async () => {
-      if (!qName) throw new Error('no BJT output card to plot');
-      await page.keyboard.press('Escape');
-      await clickWord(page, qName + ' ', qName);
-      await runPaletteCommand(page, 'qpoint: Plot a mirror output characteristic');
-      const chart = await until(async () => {
-        for (const frame of page.frames()) {
-          const info = await frame.evaluate(() => {
-            const svg = document.querySelector('svg.qp-chart');
-            if (!svg) return null;
-            return {
-              title: document.querySelector('h1')?.textContent ?? '',
-              edge: !!svg.querySelector('.qp-edge'),
-              operating: svg.querySelector('.qp-operating')?.getAttribute('data-amps') ?? null,
-              ticks: svg.querySelectorAll('.qp-tick-label').length,
-              corners: document.querySelectorAll('.qp-corners tbody tr').length,
-              text: svg.textContent ?? '',
-            };
-          }).catch(() => null);
-          if (info) return info;
+    // Three output characteristics of the demo: an NPN mirror output, a PMOS output inside a subcircuit and a Widlar output.
+    // Each chart must put its out-of-region band on the side its polarity puts it (left of the edge for NPN, right for PMOS),
+    // carry the operating current of the solve, a title in words, take the keyboard focus, and be screenshotted.
+    const plots = [
+      { what: 'an NPN mirror output', line: qName ? qName + ' ' : 'Q2 ', word: qName ?? 'Q2', device: qName ?? 'Q2', pick: undefined, side: 'left', shot: 'output-characteristic-npn' },
+      { what: 'a PMOS output in a subcircuit', line: 'MOUT ', word: 'MOUT', device: 'XADC1.MOUT', pick: 'XADC1.MOUT', side: 'right', shot: 'output-characteristic-pmos', themes: true },
+      { what: 'a Widlar output', line: 'Q5 ', word: 'Q5', device: 'Q5', pick: undefined, side: 'left', shot: 'output-characteristic-widlar' },
+    ];
+    for (const plotCase of plots) {
+      await check(`plotting ${plotCase.what} (${plotCase.device}) draws its out-of-region band on the ${plotCase.side} of the edge, the solved operating point and a title in words`, async () => {
+        await page.keyboard.press('Escape');
+        // Go to the card's line (Ctrl+G), as a user would for a line below the fold; the command reads the card under the cursor.
+        const lineNo = currentText.split(/\r?\n/).findIndex((l) => l.startsWith(plotCase.line)) + 1;
+        if (lineNo < 1) throw new Error(`no line starts with "${plotCase.line}"`);
+        await page.keyboard.press('Control+1');
+        await sleep(200);
+        await page.keyboard.press('Control+G');
+        const goTo = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+        await goTo.fill(`:${lineNo}`);
+        await sleep(300);
+        await page.keyboard.press('Enter');
+        await sleep(300);
+        await runPaletteCommand(page, 'qpoint: Plot a mirror output characteristic');
+        if (plotCase.pick) {
+          // A card inside a subcircuit used twice is two outputs: the picker asks which.
+          await until(async () => page.evaluate((d) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').includes(d)), plotCase.pick), { timeoutMs: 30 * SECOND, message: `the picker does not offer ${plotCase.pick}` });
+          const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+          await input.fill(plotCase.pick);
+          await sleep(300);
+          await page.keyboard.press('Enter');
         }
-        return null;
-      }, { timeoutMs: 60 * SECOND, intervalMs: 500, message: 'no output-characteristic chart appeared' });
-      await screenshot(page, 'output-characteristic');
-      if (!chart.edge) throw new Error('the chart has no compliance-edge marker');
-      if (chart.operating === null || !(Number(chart.operating) > 0)) throw new Error(`the operating-point marker carries ${chart.operating}`);
-      if (chart.ticks < 6) throw new Error(`only ${chart.ticks} tick labels`);
-      if (/NaN|Infinity/.test(chart.text)) throw new Error('the chart shows NaN or Infinity');
-      return `"${chart.title}", operating point ${(Number(chart.operating) * 1e3).toFixed(4)} mA, ${chart.ticks} tick labels, ${chart.corners} corner row(s)`;
-    });
+        const chart = await until(() => chartIn(page, plotCase.device), { timeoutMs: 60 * SECOND, intervalMs: 500, message: `no output-characteristic chart of ${plotCase.device} appeared` });
+        await sleep(500);
+        await screenshot(page, plotCase.shot);
+        if (!chart.edge) throw new Error('the chart has no edge-of-active-region marker');
+        if (chart.sides.length !== 1 || chart.sides[0] !== plotCase.side) throw new Error(`the out-of-region band is drawn on the ${chart.sides.join(', ') || 'no'} side, not the ${plotCase.side}`);
+        if (chart.operating === null || !(Number(chart.operating) > 0)) throw new Error(`the operating-point marker carries ${chart.operating}`);
+        if (!/ of the .+ on /.test(chart.title) || /[a-z]-[a-z]+:/.test(chart.title)) throw new Error(`the title "${chart.title}" is not in words`);
+        if (chart.tabindex !== '0') throw new Error('the chart cannot take the keyboard focus (no tabindex="0")');
+        if (chart.ticks < 6) throw new Error(`only ${chart.ticks} tick labels`);
+        if (/NaN|Infinity/.test(chart.text)) throw new Error('the chart shows NaN or Infinity');
+        // Source: WCAG 2.1, success criterion 1.4.11 (non-text contrast) — graphical objects need 3:1 against their background.
+        if (!(chart.contrast >= 3)) throw new Error(`the curve has a contrast of ${chart.contrast.toFixed(2)}:1 against the page (WCAG 1.4.11 asks 3:1)`);
+        const shots = [];
+        let previous = chart.background;
+        if (plotCase.themes) {
+          for (const [theme, name] of [['Default High Contrast', 'hc-dark'], ['Default High Contrast Light', 'hc-light'], ['Default Dark Modern', 'dark'], ['Default Light Modern', 'light']]) {
+            // Preferences: Color Theme, as a user picks one; the panel must follow without being reopened.
+            await runPaletteCommand(page, 'Preferences: Color Theme');
+            const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
+            await input.fill(theme);
+            await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').trim().startsWith(t)), theme), { timeoutMs: 10 * SECOND, message: `the theme picker does not list ${theme}` });
+            await page.keyboard.press('Enter');
+            const themed = await until(async () => {
+              const c = await chartIn(page, plotCase.device);
+              return c && c.background !== previous ? c : null;
+            }, { timeoutMs: 20 * SECOND, intervalMs: 500, message: `the chart did not follow the ${theme} theme` });
+            previous = themed.background;
+            await sleep(500);
+            await screenshot(page, `${plotCase.shot}-${name}`);
+            if (!(themed.contrast >= 3)) throw new Error(`in ${theme} the curve has a contrast of ${themed.contrast.toFixed(2)}:1 (WCAG 1.4.11 asks 3:1)`);
+            shots.push(`${name} ${themed.contrast.toFixed(1)}:1`);
+          }
+        }
+        return `"${chart.title}", band ${chart.sides[0]}, operating point ${(Number(chart.operating) * 1e6).toFixed(1)} µA, contrast ${chart.contrast.toFixed(1)}:1${shots.length ? `; ${shots.join(', ')}` : ''}, ${chart.corners} corner row(s)`;
+      });
+    }
 
     await check('re-analysing from the palette brings the findings back', async () => {
       await page.keyboard.press('Escape');

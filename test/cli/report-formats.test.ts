@@ -1,0 +1,127 @@
+// The built `qpoint` CLI's review formats: `report --format html|markdown -o FILE` and `sweep --output DEVICE` (CSV, SVG).
+import { describe, expect, it, beforeAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, writeFileSync, existsSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+
+const ROOT = join(__dirname, '../..');
+const CLI = join(ROOT, 'dist/cli.js');
+
+function run(args: string[], cwd = ROOT) {
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: 120000 });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+let dir: string;
+function file(name: string, text: string): string {
+  const p = join(dir, name);
+  writeFileSync(p, text);
+  return p;
+}
+
+beforeAll(() => {
+  if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
+  dir = mkdtempSync(join(tmpdir(), 'qpoint-report-'));
+});
+
+// Our own scenario: an NPN mirror with a Widlar output and a PMOS cell, with a name that tries to break out of HTML and Markdown.
+const NETLIST = `Mirror bench <b>|pipe|</b>
+VCC vcc 0 DC 10
+VDD vdd 0 DC 3.3
+RREF vcc ref 9.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN
+QW trim ref ew QN
+RE ew 0 4.7k
+RL vcc out 1k
+RT vcc trim 47k
+MREF g g vdd vdd PM W=20u L=2u
+MOUT pout g vdd vdd PM W=40u L=2u
+RSET g 0 47k
+RP pout 0 10k
+.model QN NPN (BF=100 IS=1e-16 VAF=80)
+.model PM PMOS (VTO=-0.6 KP=50u LAMBDA=0.05)
+.end
+`;
+
+describe('qpoint report --format html', () => {
+  it('writes one self-contained page with the structures table, the findings and a chart per mirror output', () => {
+    const out = join(dir, 'report.html');
+    const r = run(['report', '--format', 'html', '-o', out, file('bench.cir', NETLIST)]);
+    expect(r.code, r.stderr).toBe(0);
+    expect(r.stdout).toBe('');
+    const html = readFileSync(out, 'utf8');
+    expect(html).toMatch(/^<!DOCTYPE html>/);
+    // Self-contained: no script, and nothing loaded from elsewhere (HTML Living Standard: src/href fetch resources).
+    expect(html).not.toMatch(/<script|\ssrc=|<link\s|@import|url\(http/i);
+    expect(html).toContain('default-src \'none\'');
+    // Three outputs (Q2, QW, MOUT): three charts, each titled in words.
+    expect((html.match(/<svg /g) ?? []).length).toBe(3);
+    expect(html).toContain('Widlar output QW of the simple current mirror on Q1 (NPN)');
+    expect(html).toContain('Mirror output MOUT of the simple current mirror on MREF (PMOS)');
+    expect(html).toMatch(/<th scope="col">Spread and drift<\/th>/);
+    expect(html).toMatch(/clear of saturation|into saturation/);
+    // The title is escaped, not markup.
+    expect(html).toContain('Mirror bench &lt;b&gt;|pipe|&lt;/b&gt;');
+    expect(html).not.toContain('<b>|pipe|</b>');
+    // The PMOS chart's out-of-region band lies right of its edge, the NPN charts' left of theirs.
+    expect((html.match(/qp-region-outside qp-right/g) ?? []).length).toBe(1);
+    expect((html.match(/qp-region-outside qp-left/g) ?? []).length).toBe(2);
+  });
+});
+
+describe('qpoint report --format markdown', () => {
+  it('writes a CI job summary: counts, the structures table and the findings, with pipes escaped', () => {
+    const r = run(['report', '--format', 'markdown', file('bench-md.cir', NETLIST)]);
+    expect(r.code, r.stderr).toBe(0);
+    const md = r.stdout;
+    expect(md).toMatch(/^## qpoint bias report/);
+    expect(md).toMatch(/^\| Structure \| Device \| Role \| Estimate \| Solved \| Solved against estimate \| Headroom \| Region \| Spread and drift \|$/m);
+    // GitHub Flavored Markdown tables: a cell's pipe must be escaped as \| (GFM spec, "Tables" extension).
+    expect(md).toContain('Mirror bench &lt;b&gt;\\|pipe\\|&lt;/b&gt;');
+    // Every table row has as many cells as its header.
+    for (const line of md.split('\n').filter((l) => l.startsWith('| Simple'))) expect(line.replace(/\\\|/g, '').split('|').length).toBe(11);
+    expect(md).toMatch(/> Caution:/);
+  });
+});
+
+describe('qpoint sweep', () => {
+  it('prints the output characteristic as RFC 4180 CSV across the structure\'s own rails', () => {
+    const r = run(['sweep', '--output', 'MOUT', '--points', '34', file('bench-sweep.cir', NETLIST)]);
+    expect(r.code, r.stderr).toBe(0);
+    const lines = r.stdout.split('\r\n').filter(Boolean);
+    expect(lines[0]).toBe('output_node_V,output_current_A');
+    expect(lines.length).toBeGreaterThan(30);
+    const pts = lines.slice(1).map((l) => l.split(',').map(Number));
+    // The PMOS cell hangs from vdd (3.3 V) and ground, not the board's 10 V rail.
+    expect(pts[0]![0]).toBeCloseTo(0, 9);
+    expect(pts.at(-1)![0]).toBeCloseTo(3.3, 9);
+    // Ohm's law cross-check at the bottom of the sweep: the PMOS output sources current (positive in its own direction)
+    // of the order of 2·(3.3 V − 1.05 V)/47 kΩ ≈ 96 µA (Razavi, ch. 5, W/L ratio 2), within 25 %.
+    expect(pts[0]![1]).toBeGreaterThan(0.75 * 96e-6);
+    expect(pts[0]![1]).toBeLessThan(1.25 * 96e-6);
+  });
+
+  it('writes a standalone SVG that carries its own styles', () => {
+    const out = join(dir, 'q2.svg');
+    const r = run(['sweep', '--output', 'Q2', '--format', 'svg', '-o', out, file('bench-svg.cir', NETLIST)]);
+    expect(r.code, r.stderr).toBe(0);
+    const svg = readFileSync(out, 'utf8');
+    expect(svg).toMatch(/^<\?xml version="1.0" encoding="UTF-8"\?>\n<svg xmlns="http:\/\/www.w3.org\/2000\/svg"/);
+    expect(svg).toContain('<style>');
+    expect(svg).toContain('qp-region-outside qp-left');
+  });
+
+  it('says which outputs exist when the device is not one, and refuses a sweep without --output', () => {
+    const r = run(['sweep', '--output', 'Q1', file('bench-bad.cir', NETLIST)]);
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/Q1 is not the output of a recognised mirror; the outputs are/);
+    const n = run(['sweep', file('bench-bad2.cir', NETLIST)]);
+    expect(n.code).toBe(2);
+    expect(n.stderr).toMatch(/needs --output DEVICE/);
+    const f = run(['report', '--format', 'csv', file('bench-bad3.cir', NETLIST)]);
+    expect(f.code).toBe(2);
+    expect(f.stderr).toMatch(/'report --format' takes text, json, html, markdown/);
+  });
+});
