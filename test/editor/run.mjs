@@ -684,6 +684,8 @@ async function main() {
         if (plotCase.themes) {
           for (const [theme, name] of [['Default High Contrast', 'hc-dark'], ['Default High Contrast Light', 'hc-light'], ['Default Dark Modern', 'dark'], ['Default Light Modern', 'light']]) {
             // Preferences: Color Theme, as a user picks one; the panel must follow without being reopened.
+            await page.keyboard.press('Control+1');
+            await sleep(300);
             await runPaletteCommand(page, 'Preferences: Color Theme');
             const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
             await input.fill(theme);

@@ -8,6 +8,7 @@ import { elementsOfCard, instancePrefix } from './document-index';
 import { formatQuantity } from '../view/format';
 import { dissipation } from '../checks/devices/power';
 import { recordIsOff } from '../checks/devices/context';
+import { maxOf } from '../arrays';
 import { derivedVoltageLabel } from './structure-words';
 
 /** How much a label shows. */
@@ -36,6 +37,9 @@ export const MAX_LABEL_LENGTH = 43;
  * a MOSFET not saturated), so such a label reads differently from a healthy one without colour.
  */
 export const OUT_OF_REGION_MARK = '◆';
+
+/** Instances a tooltip lists one by one before it summarises the rest (worst first). */
+const MAX_TOOLTIP_INSTANCES = 64;
 
 /** Labels for the device cards of `uri` that overlap `span`. */
 export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: InlayDetail, placement: InlayPlacement = 'afterCode'): InlayHintData[] {
@@ -102,7 +106,10 @@ function instancesHint(labelled: { el: Element; rec: DeviceRecord; parts: Part[]
     label = fit(worst.parts, prefix);
     if ([...label].length > MAX_LABEL_LENGTH) label = fit(worst.parts, `${count}, worst: `);
   }
-  const lines = labelled.map((x) => `${x.el === worst.el && !same ? '▸ ' : ''}${x.el.name}: ${x.parts.map((p) => p.text).join(' · ')}`);
+  // Every instance in document order, up to a bound: a card instantiated a hundred thousand times lists the worst first.
+  const listed = labelled.length <= MAX_TOOLTIP_INSTANCES ? labelled : ranked.slice(0, MAX_TOOLTIP_INSTANCES);
+  const lines = listed.map((x) => `${x.el === worst.el && !same ? '▸ ' : ''}${x.el.name}: ${x.parts.map((p) => p.text).join(' · ')}`);
+  if (listed.length < labelled.length) lines.push(`… and ${labelled.length - listed.length} more (the hover on the card shows each)`);
   const heading = same ? `${labelled.length} instances, all alike:` : `${labelled.length} instances; the worst (▸) is labelled:`;
   return { offset, label, tooltip: [heading, ...lines, ...(note ? [note] : [])].join('\n') };
 }
@@ -118,7 +125,7 @@ function fit(parts: Part[], prefix: string): string {
   let kept = parts;
   const text = () => prefix + kept.map((p) => p.text).join(' · ');
   while ([...text()].length > MAX_LABEL_LENGTH) {
-    const top = Math.max(...kept.map((p) => p.drop));
+    const top = maxOf(kept.map((p) => p.drop));
     if (top <= 0) break;
     const k = kept.findIndex((p) => p.drop === top);
     kept = kept.filter((_, j) => j !== k);

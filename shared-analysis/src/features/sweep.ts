@@ -8,6 +8,7 @@ import type { Structure, Technology } from '../structures/types';
 import { capitalised, kindName, outputKindName } from '../structures/catalogue';
 import { railsByIndex } from '../structures/rails';
 import { outputWords } from './structure-words';
+import { maxOf, minOf } from '../arrays';
 
 /** One output's current against its output-node voltage, with the solved markers the plot draws. */
 export interface OutputCharacteristicResult {
@@ -157,8 +158,8 @@ function structureRails(circuit: Circuit, s: Structure, op: OperatingPoint | und
     railNames = all.map((r) => r.node);
     if (volts.length === 0 && op) volts = [0];
   }
-  let low = Math.min(...volts);
-  let high = Math.max(...volts);
+  let low = minOf(volts);
+  let high = maxOf(volts);
   if (Number.isFinite(operatingV)) {
     low = Math.min(low, operatingV);
     high = Math.max(high, operatingV);
