@@ -684,9 +684,12 @@ async function main() {
         if (plotCase.themes) {
           for (const [theme, name] of [['Default High Contrast', 'hc-dark'], ['Default High Contrast Light', 'hc-light'], ['Default Dark Modern', 'dark'], ['Default Light Modern', 'light']]) {
             // Preferences: Color Theme, as a user picks one; the panel must follow without being reopened.
-            await page.keyboard.press('Control+1');
-            await sleep(300);
-            await runPaletteCommand(page, 'Preferences: Color Theme');
+            // The panel took the focus; a click on the card's line gives it back to the editor.
+            await clickWord(page, plotCase.line, plotCase.word);
+            await runPaletteCommand(page, 'Preferences: Color Theme').catch(async (e) => {
+              await screenshot(page, `${plotCase.shot}-theme-picker-missing`);
+              throw e;
+            });
             const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
             await input.fill(theme);
             await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').trim().startsWith(t)), theme), { timeoutMs: 10 * SECOND, message: `the theme picker does not list ${theme}` });
