@@ -34,8 +34,8 @@ export interface OutputCharacteristicResult {
   activeSide: 'above' | 'below';
   /** Output-node voltage at the solved operating point. */
   operatingV: number;
-  /** The output current at the operating point, from the operating-point solve (not read off the sweep). */
-  operatingI: number;
+  /** The output current at the operating point, from the operating-point solve (not read off the sweep); absent when the circuit was not solved. */
+  operatingI?: number;
   /** The swept span: the rails the structure itself hangs from (its devices' and feed's nodes pinned by sources), widened to the operating point. */
   range: { low: number; high: number; rails: string[] };
   /** The output current at each corner, from the corner re-solves. */
@@ -106,6 +106,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   const edgeV = Number.isFinite(solvedEdge) ? solvedEdge : activeEdge(pts, operatingV);
   const solvedI = structure.solved?.iout[output.device];
   const recI = outputCurrent(op?.devices[outEl.name], sink);
+  const opCurrent = recI ?? solvedI;
   const cornerSpread = structure.corners
     .filter((c) => c.converged && c.iout[output.device] !== undefined && Number.isFinite(c.iout[output.device]))
     .map((c) => ({ label: c.label, i: c.iout[output.device] }));
@@ -124,8 +125,8 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     points: pts.map(({ v, i }) => ({ v, i })),
     edgeV,
     activeSide: sink ? 'above' : 'below',
-    operatingV: Number.isFinite(operatingV) ? operatingV : NaN,
-    operatingI: recI ?? solvedI ?? NaN,
+    operatingV: Number.isFinite(operatingV) ? operatingV : pts[0].v,
+    ...(opCurrent !== undefined && Number.isFinite(opCurrent) && Number.isFinite(operatingV) ? { operatingI: opCurrent } : {}),
     range,
     cornerSpread,
   };

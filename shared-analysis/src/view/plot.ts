@@ -152,14 +152,14 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
   if (points.length < 2) return undefined;
 
   const edgeKnown = Number.isFinite(result.edgeV);
-  const opKnown = Number.isFinite(result.operatingV) && Number.isFinite(result.operatingI);
+  const opKnown = Number.isFinite(result.operatingV) && Number.isFinite(result.operatingI ?? NaN);
   if (!edgeKnown) notes.push('The edge of the active region is not known, so it is not marked.');
   if (!opKnown) notes.push('The operating point is not known, so it is not marked.');
   const corners = (Array.isArray(result.cornerSpread) ? result.cornerSpread : []).filter((c) => Number.isFinite(c?.i));
 
   const xs = points.map((p) => p.v).concat(edgeKnown ? [result.edgeV] : [], opKnown ? [result.operatingV] : []);
   // The current axis is set by the forward current: a reversed spike is clipped at a sixth of it below zero and said in a note.
-  const forward = points.map((p) => p.i).filter((i) => i > 0).concat(corners.map((c) => c.i).filter((i) => i > 0), opKnown && result.operatingI > 0 ? [result.operatingI] : []);
+  const forward = points.map((p) => p.i).filter((i) => i > 0).concat(corners.map((c) => c.i).filter((i) => i > 0), opKnown && (result.operatingI ?? 0) > 0 ? [result.operatingI!] : []);
   const top = forward.length ? maxOf(forward) : 0;
   const lowest = minOf(points.map((p) => p.i));
   const floor = top > 0 ? Math.max(lowest, -top / 6) : lowest;
@@ -196,7 +196,7 @@ export function layoutOutputCharacteristic(result: OutputCharacteristicResult, s
     if (side.x1 > side.x0) layout.outside = side;
   }
   if (opKnown) {
-    const amps = result.operatingI;
+    const amps = result.operatingI!;
     layout.operating = { volts: result.operatingV, amps, px: px(result.operatingV), py: py(amps) };
     if (corners.length > 0) {
       const low = minOf(corners.map((c) => c.i));
@@ -341,7 +341,7 @@ export function renderCornerTableHtml(result: OutputCharacteristicResult): strin
   const corners = Array.isArray(result.cornerSpread) ? result.cornerSpread : [];
   if (corners.length === 0) return '<p class="qp-note">No corner results came with this sweep (corners may be turned off in the settings).</p>';
   const finite = corners.filter((c) => Number.isFinite(c?.i));
-  const nominal = Number.isFinite(result.operatingI) && result.operatingI !== 0 ? result.operatingI : undefined;
+  const nominal = result.operatingI !== undefined && Number.isFinite(result.operatingI) && result.operatingI !== 0 ? result.operatingI : undefined;
   const rows = corners.map((c) => {
     const amps = Number.isFinite(c?.i) ? formatQuantity(c.i, 'A') : 'not available';
     const dev = nominal !== undefined && Number.isFinite(c?.i) ? formatPercent((c.i - nominal) / Math.abs(nominal)) : '—';

@@ -108,7 +108,7 @@ describe('chart layout', () => {
 
   it('uses µA for a 250 µA output', () => {
     const s = sweep();
-    const layout = layoutOutputCharacteristic({ ...s, points: s.points.map((p) => ({ v: p.v, i: p.i / 4 })), operatingI: s.operatingI / 4, cornerSpread: [] }, SIZE)!;
+    const layout = layoutOutputCharacteristic({ ...s, points: s.points.map((p) => ({ v: p.v, i: p.i / 4 })), operatingI: s.operatingI! / 4, cornerSpread: [] }, SIZE)!;
     expect(layout.y.title).toBe('Output current (µA)');
     expect(layout.y.ticks.at(-1)!.label).toMatch(/^\d+$/);
   });
