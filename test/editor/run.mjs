@@ -686,11 +686,13 @@ async function main() {
             // Preferences: Color Theme, as a user picks one; the panel must follow without being reopened.
             // The panel took the focus; a click on the card's line gives it back to the editor.
             await clickWord(page, plotCase.line, plotCase.word);
-            await runPaletteCommand(page, 'Preferences: Color Theme').catch(async (e) => {
+            // Ctrl+K Ctrl+T opens the colour-theme picker (VS Code's default keybinding).
+            await page.keyboard.press('Control+K');
+            await page.keyboard.press('Control+T');
+            const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND }).catch(async (e) => {
               await screenshot(page, `${plotCase.shot}-theme-picker-missing`);
               throw e;
             });
-            const input = await page.waitForSelector('.quick-input-widget .quick-input-box input', { timeout: 10 * SECOND });
             await input.fill(theme);
             await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').trim().startsWith(t)), theme), { timeoutMs: 10 * SECOND, message: `the theme picker does not list ${theme}` });
             await page.keyboard.press('Enter');
