@@ -6,7 +6,7 @@ import { analyseSession, attachAllSizingFixes, monteCarloOf } from '../../shared
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-analysis/src/analysis';
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
-import { formatMeasured } from '../../shared-analysis/src/fixes/format';
+import { formatHeadroom, formatQuantity } from '../../shared-analysis/src/view/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
 import { powerEntries, powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
@@ -660,8 +660,9 @@ function textLines(results: FileResult[]): string[] {
   return lines;
 }
 
-const amps = (v: number) => formatMeasured(v, 'A');
-const volts = (v: number) => formatMeasured(v, 'V');
+// The view's formatting rules (shared-analysis/src/view/format.ts), as in the hover and the labels.
+const amps = (v: number) => formatQuantity(v, 'A');
+const volts = (v: number) => formatQuantity(v, 'V');
 
 /** The human-readable bias report of one file. */
 export function textReport(r: FileResult): string {
@@ -706,7 +707,7 @@ export function textReport(r: FileResult): string {
       const cells = [`  ${o.device}`.padEnd(12)];
       if (est?.iout[o.device] !== undefined) cells.push(`estimate ${amps(est.iout[o.device])}`);
       if (sol?.iout[o.device] !== undefined) cells.push(`solved ${amps(sol.iout[o.device])}`);
-      if (s.headroom[o.device] !== undefined) cells.push(`headroom ${volts(s.headroom[o.device])}`);
+      if (s.headroom[o.device] !== undefined) cells.push(`headroom: ${formatHeadroom(s.headroom[o.device], s.technology)}`);
       const rec = op?.devices[o.device];
       if (rec && 'region' in rec) cells.push(recordIsOff(rec) ? 'off' : rec.region);
       cells.push(`(${outputWords(s, o)})`);
@@ -730,7 +731,7 @@ export function textReport(r: FileResult): string {
         const worst = vals.reduce((m, c) => ((c.headroom[o.device] ?? Infinity) < (m.headroom[o.device] ?? Infinity) ? c : m));
         out.push(
           `  corners ${o.device}: ${amps(lo.iout[o.device])} (${lo.label}) … ${amps(hi.iout[o.device])} (${hi.label}); ` +
-            `worst headroom ${volts(worst.headroom[o.device] ?? NaN)} (${worst.label})`,
+            `least headroom ${formatHeadroom(worst.headroom[o.device] ?? NaN, s.technology)} (${worst.label})`,
         );
       }
     }

@@ -682,7 +682,7 @@ async function main() {
         const shots = [];
         let previous = chart.background;
         if (plotCase.themes) {
-          for (const [theme, name] of [['Default High Contrast', 'hc-dark'], ['Default High Contrast Light', 'hc-light'], ['Default Dark Modern', 'dark'], ['Default Light Modern', 'light']]) {
+          for (const [theme, name] of [['Dark High Contrast', 'hc-dark'], ['Light High Contrast', 'hc-light'], ['Dark Modern', 'dark'], ['Light Modern', 'light']]) {
             // Preferences: Color Theme, as a user picks one; the panel must follow without being reopened.
             // The panel took the focus; a click on the card's line gives it back to the editor.
             await clickWord(page, plotCase.line, plotCase.word);
@@ -694,7 +694,7 @@ async function main() {
               throw e;
             });
             await input.fill(theme);
-            await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').trim().startsWith(t)), theme), { timeoutMs: 10 * SECOND, message: `the theme picker does not list ${theme}` });
+            await until(async () => page.evaluate((t) => [...document.querySelectorAll('.quick-input-list .monaco-list-row')].some((r) => (r.textContent ?? '').includes(t)), theme), { timeoutMs: 10 * SECOND, message: `the theme picker does not list ${theme}` });
             await page.keyboard.press('Enter');
             const themed = await until(async () => {
               const c = await chartIn(page, plotCase.device);
