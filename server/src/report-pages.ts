@@ -175,7 +175,8 @@ export function htmlReport(files: ReportFile[], caution: string, generator: stri
         }
         body.push(`<figure><figcaption>${escapeXml(r.title)}, swept from ${escapeXml(formatQuantity(r.range.low, 'V'))} to ${escapeXml(formatQuantity(r.range.high, 'V'))} at node ${escapeXml(r.node)} with its load removed; hatched: out of its active region${r.activeSide === 'below' ? ' (right of the edge)' : ' (left of the edge)'}.</figcaption>`);
         body.push(renderOutputCharacteristicSvg(r, { width: 720, height: 380 }));
-        body.push(renderCornerTableHtml(r));
+        // The corner table folds away: thirty rows per chart would bury the page (the summary says the range).
+        if (r.cornerSpread.length) body.push(`<details><summary>Output current at each of the ${r.cornerSpread.length} corners</summary>\n${renderCornerTableHtml(r)}\n</details>`);
         body.push('</figure>');
       }
       if (outputs.length > MAX_PLOTS_PER_FILE) body.push(`<p class="qp-note">${outputs.length - MAX_PLOTS_PER_FILE} more outputs are not drawn (at most ${MAX_PLOTS_PER_FILE} per file); <code>qpoint sweep</code> draws any one of them.</p>`);
