@@ -162,7 +162,7 @@ describe('the language server over stdio', () => {
     expect(b.report.join('\n')).toMatch(/Monte Carlo, 40 runs: mean /);
     await expect(server.connection.sendRequest('qpoint/monteCarlo', { uri: uri(), seed: -1, first: 0, count: 1 })).rejects.toThrow(/needs a document uri/);
     const hover = (await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: uri() }, position: posOf(text, 'Q2 out', 1) })) as Hover;
-    expect((hover.contents as MarkupContent).value).toMatch(/Spread of its current: σ [\d.]+ % \(±3σ [\d.]+ %\), worst case ±[\d.]+ %; drift [+−][\d.]+ ppm\/°C/);
+    expect((hover.contents as MarkupContent).value).toMatch(/\*\*Spread and drift:\*\*.*its current: σ [\d.]+ % \(±3σ [\d.]+ %\), worst case ±[\d.]+ %; drift [+−][\d.]+ ppm\/°C/);
   });
 
   it('offers no sizing refactor to a client that can neither run the client command nor ask and apply edits', async () => {
