@@ -22,6 +22,7 @@ import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { htmlReport, markdownReport, type ReportFile } from './report-pages';
+import { expandFiles, Progress } from './batch';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { OUTPUT_CHARACTERISTIC_CSS, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 
@@ -86,6 +87,10 @@ Options:
                                including file (after it, in the order given); repeatable;
                                DIR's tree is readable too
   --                           everything after it is a file name, even if it starts with '-'
+
+FILE may be a pattern qpoint expands itself when the shell did not: 'boards/**/*.cir'
+(** is any depth of folders), '*.sp', 'cell?.cir'. On a terminal, a run over several
+files shows a progress line on stderr.
 
 Includes are read only from the current folder's tree, the checked netlist's folder tree and
 --include-root folders; only regular text files up to 64 MiB; never network paths.
@@ -343,6 +348,8 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         opts.files.push(a);
     }
   }
+  // Patterns the shell passed on unexpanded (quoted, or a shell that does not expand them) are expanded here.
+  opts.files = expandFiles(opts.files);
   if (opts.files.length === 0) throw new UsageError(`'${command}' needs at least one netlist file.`);
   if (command === 'sweep') {
     if (!opts.device) throw new UsageError("'sweep' needs --output DEVICE: the mirror output whose characteristic to print.");
@@ -399,7 +406,10 @@ function sizingBudgetSpent(uri: string, unsized: number): Finding {
 
 function analyseFiles(opts: CliOptions): FileResult[] {
   const workspace = new PathWorkspace({ ...defaultPolicy([process.cwd(), ...opts.includeRoots]), anywhere: opts.includeAnywhere });
-  return opts.files.map((p) => {
+  // A batch run on a terminal shows which file it is on; the line is cleared before any output.
+  const progress = new Progress(opts.files.length);
+  const results = opts.files.map((p, i) => {
+    progress.update(i, escapeControls(p));
     const absolute = isNetworkPath(p) ? p : path.resolve(p);
     const read = workspace.readRoot(absolute);
     if ('refused' in read) return { path: p, absolute, readError: `Cannot read '${p}': it ${read.refused}.` };
@@ -417,6 +427,8 @@ function analyseFiles(opts: CliOptions): FileResult[] {
       return { path: p, absolute, internalError: e instanceof Error ? (e.stack ?? e.message) : String(e) };
     }
   });
+  progress.done();
+  return results;
 }
 
 interface JsonDiagnostic {

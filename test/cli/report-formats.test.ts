@@ -1,7 +1,7 @@
 // The built `qpoint` CLI's review formats: `report --format html|markdown -o FILE` and `sweep --output DEVICE` (CSV, SVG).
 import { describe, expect, it, beforeAll } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync, existsSync, readFileSync } from 'node:fs';
+import { mkdtempSync, mkdirSync, writeFileSync, existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 
@@ -123,5 +123,20 @@ describe('qpoint sweep', () => {
     const f = run(['report', '--format', 'csv', file('bench-bad3.cir', NETLIST)]);
     expect(f.code).toBe(2);
     expect(f.stderr).toMatch(/'report --format' takes text, json, html, markdown/);
+  });
+});
+
+describe('batch runs', () => {
+  it('expands a pattern the shell passed on, checks every file it names, and draws no progress line off a terminal', () => {
+    const sub = join(dir, 'boards');
+    mkdirSync(join(sub, 'deep'), { recursive: true });
+    writeFileSync(join(sub, 'one.cir'), NETLIST);
+    writeFileSync(join(sub, 'deep', 'two.cir'), NETLIST);
+    writeFileSync(join(sub, 'deep', 'notes.txt'), 'not a netlist');
+    const r = run(['check', '--no-corners', '--format', 'json', join(sub, '**', '*.cir')]);
+    const files = JSON.parse(r.stdout).files.map((f: { path: string }) => f.path.replace(/\\/g, '/'));
+    expect(files).toEqual([`${sub}/deep/two.cir`, `${sub}/one.cir`].map((f) => f.replace(/\\/g, '/')));
+    // Standard error is a pipe here, not a terminal: no progress line.
+    expect(r.stderr).toBe('');
   });
 });
