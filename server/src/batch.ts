@@ -2,6 +2,7 @@
 
 import * as fs from 'node:fs';
 import * as path from 'node:path';
+import { isNetworkPath } from './read-policy';
 
 /** Whether a command-line word is a pattern (`*`, `?` or `[...]`) rather than a file name. */
 export function isPattern(word: string): boolean {
@@ -86,7 +87,8 @@ export function expandPattern(pattern: string, cwd = process.cwd()): string[] {
 export function expandFiles(words: string[], cwd = process.cwd()): string[] {
   const out: string[] = [];
   for (const w of words) {
-    if (!isPattern(w) || fs.existsSync(path.resolve(cwd, w))) {
+    // A network path is never listed (docs/RELIABILITY.md); it stays as written and reading refuses it.
+    if (!isPattern(w) || isNetworkPath(w) || fs.existsSync(path.resolve(cwd, w))) {
       out.push(w);
       continue;
     }

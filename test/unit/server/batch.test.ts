@@ -35,6 +35,8 @@ describe('patterns on the command line', () => {
   it('keeps file names and unmatched patterns as written, so a missing file is still reported', () => {
     expect(isPattern('a.cir')).toBe(false);
     expect(expandFiles(['a.cir', 'sub/*.cir', 'none*.cir'], root)).toEqual(['a.cir', 'sub/c.cir', 'none*.cir']);
+    // A network path is never listed: it stays as written, and reading refuses it.
+    expect(expandFiles(['//host/share/*.cir', '\\\\host\\share\\*.cir'], root)).toEqual(['//host/share/*.cir', '\\\\host\\share\\*.cir']);
   });
 });
 
