@@ -278,10 +278,10 @@ describe('panel page', () => {
     expect(html).not.toMatch(/<script|\son[a-z]+=/i);
   });
 
-  it('titles the chart with the kind of output in words when the server gives it, escaped', () => {
-    const html = renderPanelHtml(sweep({ outputKind: 'Widlar output of the simple current mirror on Q<1>' }), { nonce: 'n', documentLabel: 'x.cir' });
-    expect(html).toContain('<h1>Output characteristic of Q2, Widlar output of the simple current mirror on Q&lt;1&gt;</h1>');
-    expect(renderPanelHtml(sweep(), { nonce: 'n', documentLabel: 'x.cir' })).toContain('<h1>Output characteristic of Q2 (mirror-1)</h1>');
+  it('titles the chart with the engine's title in words, escaped, and never with the internal structure id', () => {
+    const html = renderPanelHtml(sweep({ title: 'Widlar output Q<1> of the simple current mirror on Q1 (NPN)' }), { nonce: 'n', documentLabel: 'x.cir' });
+    expect(html).toContain('<h1 tabindex="-1">Widlar output Q&lt;1&gt; of the simple current mirror on Q1 (NPN)</h1>');
+    expect(renderPanelHtml(sweep(), { nonce: 'n', documentLabel: 'x.cir' })).not.toContain('mirror-1');
   });
 });
 
