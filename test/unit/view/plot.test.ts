@@ -278,7 +278,7 @@ describe('panel page', () => {
     expect(html).not.toMatch(/<script|\son[a-z]+=/i);
   });
 
-  it('titles the chart with the engine's title in words, escaped, and never with the internal structure id', () => {
+  it('titles the chart with the title in words from the engine, escaped, and never with the internal structure id', () => {
     const html = renderPanelHtml(sweep({ title: 'Widlar output Q<1> of the simple current mirror on Q1 (NPN)' }), { nonce: 'n', documentLabel: 'x.cir' });
     expect(html).toContain('<h1 tabindex="-1">Widlar output Q&lt;1&gt; of the simple current mirror on Q1 (NPN)</h1>');
     expect(renderPanelHtml(sweep(), { nonce: 'n', documentLabel: 'x.cir' })).not.toContain('mirror-1');
