@@ -73,6 +73,10 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
   if (betaLow !== undefined) corners.betaLow = betaLow;
   const betaHigh = num('corners.betaHighFactor', OPTION_RULES.betaHigh);
   if (betaHigh !== undefined) corners.betaHigh = betaHigh;
+  const processKp = num('corners.processKpPercent', OPTION_RULES.processKpPercent);
+  if (processKp !== undefined && processKp > 0) corners.processKpTolerance = processKp / 100;
+  const processVto = num('corners.processVtoShiftVolts', OPTION_RULES.processVtoShiftV);
+  if (processVto !== undefined && processVto > 0) corners.processVtoShift = processVto;
   const crossed = crossCheckCorners(corners, { cold: 'qpoint.corners.coldCelsius', hot: 'qpoint.corners.hotCelsius' });
   if (crossed.length) {
     for (const c of crossed) problems.push(`${c} Both corner temperatures are ignored.`);
@@ -80,6 +84,16 @@ export function settingsFromConfiguration(raw: unknown): { settings: ServerSetti
     delete corners.hotC;
   }
   if (Object.keys(corners).length) options.corners = corners;
+
+  const variation: NonNullable<AnalysisOptions['variation']> = {};
+  const spread = get('variation.enabled');
+  if (typeof spread === 'boolean') variation.enabled = spread;
+  else if (spread !== undefined && spread !== null) problems.push(`Setting qpoint.variation.enabled = ${JSON.stringify(spread)} is ignored: it must be true or false.`);
+  const rtol = num('variation.resistorTolerancePercent', OPTION_RULES.resistorTolerancePercent);
+  if (rtol !== undefined) variation.resistorTolerance = rtol / 100;
+  const yieldPct = num('variation.yieldTargetPercent', OPTION_RULES.yieldTargetPercent);
+  if (yieldPct !== undefined) variation.yieldTarget = yieldPct / 100;
+  if (Object.keys(variation).length) options.variation = variation;
 
   const margin = num('headroomMarginVolts', OPTION_RULES.headroomMarginV);
   if (margin !== undefined) options.headroomMarginV = margin;

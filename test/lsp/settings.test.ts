@@ -42,6 +42,24 @@ describe('settings mapping', () => {
     );
   });
 
+  it('maps the process-corner and spread settings to the engine options, in percent and volts', () => {
+    check(
+      { corners: { processKpPercent: 10, processVtoShiftVolts: 0.05 }, variation: { enabled: false, resistorTolerancePercent: 1, yieldTargetPercent: 99 } },
+      {
+        options: {
+          corners: { processKpTolerance: 0.1, processVtoShift: 0.05 },
+          variation: { enabled: false, resistorTolerance: 0.01, yieldTarget: 0.99 },
+        },
+      },
+    );
+    // 0 means "no process corners", as the package.json default says; out-of-range values are logged and ignored.
+    check({ corners: { processKpPercent: 0 } }, { options: {} });
+    check({ variation: { yieldTargetPercent: 100, resistorTolerancePercent: -1, enabled: 'no' } }, {
+      options: {},
+      problems: [/variation.enabled/, /resistorTolerancePercent/, /yieldTargetPercent/],
+    });
+  });
+
   it('reads flat dotted keys as well as nested objects', () => {
     check({ 'corners.enabled': false, 'inlayHints.detail': 'off' }, { options: { corners: { enabled: false } }, inlay: 'off' });
   });

@@ -23,6 +23,11 @@ describe('package.json settings', () => {
     expect(d('resistorSeries')).toBe(o.resistorSeries);
     expect(d('powerLimit.resistorWatts')).toBe(o.powerLimits.resistorW);
     expect(d('powerLimit.deviceWatts')).toBe(o.powerLimits.deviceW);
+    expect(d('corners.processKpPercent')).toBe((o.corners.processKpTolerance ?? 0) * 100);
+    expect(d('corners.processVtoShiftVolts')).toBe(o.corners.processVtoShift ?? 0);
+    expect(d('variation.enabled')).toBe(o.variation.enabled);
+    expect(d('variation.resistorTolerancePercent')).toBe(o.variation.resistorTolerance ?? null);
+    expect(d('variation.yieldTargetPercent')).toBeCloseTo(o.variation.yieldTarget * 100, 12);
     expect(d('inlayHints.detail')).toBe(DEFAULT_SETTINGS.inlayDetail);
     expect(d('analysisDelayMs')).toBe(DEFAULT_SETTINGS.analysisDelayMs);
   });
