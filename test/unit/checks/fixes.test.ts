@@ -201,7 +201,7 @@ RL vcc out 1k
     const ratio = a.findings.find((f) => f.code === 'mirror-ratio')!;
     expect(ratio.message).toMatch(/Q2 is a 1:2 output .* only in IS \(2e-16 vs 1e-16\), read as an intended ratio of 2/);
     expect(ratio.fixes ?? []).toEqual([]);
-    // Source: the transport model (DESIGN.md) — at equal VBE, IC2/IC1 = IS2/IS1 = 2 (base currents aside).
+    // Source: the transport model (docs/DEVICE-MODELS.md, "Bipolar transistor") — at equal VBE, IC2/IC1 = IS2/IS1 = 2 (base currents aside).
     const q1 = a.operatingPoint!.devices.Q1;
     const q2 = a.operatingPoint!.devices.Q2;
     expect(q1.type === 'bjt' && q2.type === 'bjt' && q2.ic / q1.ic).toBeCloseTo(2, 1);
