@@ -1,29 +1,14 @@
 // The built `qpoint` CLI: output formats, exit codes and bad input, run as a child process.
-import { describe, expect, it, beforeAll } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync, existsSync } from 'node:fs';
+import { mkdtempSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
+import { CLI, ROOT, runCli, scratchFolder } from './harness';
 
-const ROOT = join(__dirname, '../..');
-const CLI = join(ROOT, 'dist/cli.js');
-
-function run(args: string[], cwd = ROOT) {
-  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: 60000 });
-  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
-}
-
-let dir: string;
-function file(name: string, text: string): string {
-  const p = join(dir, name);
-  writeFileSync(p, text);
-  return p;
-}
-
-beforeAll(() => {
-  if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
-  dir = mkdtempSync(join(tmpdir(), 'qpoint-cli-'));
-});
+const run = (args: string[], cwd = ROOT) => runCli(args, cwd, 60000);
+const scratch = scratchFolder('qpoint-cli-');
+const file = scratch.file;
 
 const MIRROR = `NPN mirror with a load
 VCC vcc 0 12
@@ -116,7 +101,7 @@ describe('qpoint check', () => {
   });
 
   it('reports an unreadable file as a finding, not a crash, and exits 3 (qpoint failed)', () => {
-    const r = run(['check', join(dir, 'does-not-exist.cir')]);
+    const r = run(['check', join(scratch.dir, 'does-not-exist.cir')]);
     expect(r.code).toBe(3);
     expect(r.stdout).toMatch(/error file-unreadable Cannot read/);
   });
@@ -228,7 +213,7 @@ describe('include search and decoding from the command line', () => {
     writeFileSync(join(kit, 'Mirror.LIB'), '.model QN NPN (IS=1e-15 BF=100)\n');
     // 0xB5 is µ in Windows-1252 (and Latin-1), not valid UTF-8 on its own.
     const bench = Buffer.concat([Buffer.from('Mirror from a kit\n.include mirror.lib\nVCC vcc 0 12\nR1 vcc ref 11.3k\nC1 ref 0 1'), Buffer.from([0xb5]), Buffer.from('\nQ1 ref ref 0 QN\nQ2 out ref 0 QN\nRL vcc out 4.7k\n.end\n')]);
-    const p = join(dir, 'kit-bench.cir');
+    const p = join(scratch.dir, 'kit-bench.cir');
     writeFileSync(p, bench);
     const without = run(['check', '--no-corners', p]);
     expect(without.stdout).toMatch(/include-not-found/);

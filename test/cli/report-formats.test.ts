@@ -1,29 +1,11 @@
 // The built `qpoint` CLI's review formats: `report --format html|markdown -o FILE` and `sweep --output DEVICE` (CSV, SVG).
-import { describe, expect, it, beforeAll } from 'vitest';
-import { spawnSync } from 'node:child_process';
-import { mkdtempSync, mkdirSync, writeFileSync, existsSync, readFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { mkdirSync, writeFileSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { tmpdir } from 'node:os';
+import { runCli as run, scratchFolder } from './harness';
 
-const ROOT = join(__dirname, '../..');
-const CLI = join(ROOT, 'dist/cli.js');
-
-function run(args: string[], cwd = ROOT) {
-  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: 120000 });
-  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
-}
-
-let dir: string;
-function file(name: string, text: string): string {
-  const p = join(dir, name);
-  writeFileSync(p, text);
-  return p;
-}
-
-beforeAll(() => {
-  if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
-  dir = mkdtempSync(join(tmpdir(), 'qpoint-report-'));
-});
+const scratch = scratchFolder('qpoint-report-');
+const file = scratch.file;
 
 // Our own scenario: an NPN mirror with a Widlar output and a PMOS cell, with a name that tries to break out of HTML and Markdown.
 const NETLIST = `Mirror bench <b>|pipe|</b>
@@ -47,7 +29,7 @@ RP pout 0 10k
 
 describe('qpoint report --format html', () => {
   it('writes one self-contained page with the structures table, the findings and a chart per mirror output', () => {
-    const out = join(dir, 'report.html');
+    const out = join(scratch.dir, 'report.html');
     const r = run(['report', '--format', 'html', '-o', out, file('bench.cir', NETLIST)]);
     expect(r.code, r.stderr).toBe(0);
     expect(r.stdout).toBe('');
@@ -104,7 +86,7 @@ describe('qpoint sweep', () => {
   });
 
   it('writes a standalone SVG that carries its own styles', () => {
-    const out = join(dir, 'q2.svg');
+    const out = join(scratch.dir, 'q2.svg');
     const r = run(['sweep', '--output', 'Q2', '--format', 'svg', '-o', out, file('bench-svg.cir', NETLIST)]);
     expect(r.code, r.stderr).toBe(0);
     const svg = readFileSync(out, 'utf8');
@@ -128,7 +110,7 @@ describe('qpoint sweep', () => {
 
 describe('batch runs', () => {
   it('expands a pattern the shell passed on, checks every file it names, and draws no progress line off a terminal', () => {
-    const sub = join(dir, 'boards');
+    const sub = join(scratch.dir, 'boards');
     mkdirSync(join(sub, 'deep'), { recursive: true });
     writeFileSync(join(sub, 'one.cir'), NETLIST);
     writeFileSync(join(sub, 'deep', 'two.cir'), NETLIST);

@@ -1,26 +1,15 @@
 // `qpoint check --format sarif` validated against the SARIF 2.1.0 JSON schema (OASIS), with Ajv, a general-purpose schema validator.
-import { describe, expect, it, beforeAll } from 'vitest';
-import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync, existsSync, readFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { writeFileSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { tmpdir } from 'node:os';
 import Ajv from 'ajv-draft-04';
+import { ROOT, runCli, scratchFolder } from './harness';
 
-const ROOT = join(__dirname, '../..');
-const CLI = join(ROOT, 'dist/cli.js');
 // The standard's schema, committed with its source noted in test/fixtures/sarif/SOURCE.md.
 const SCHEMA = JSON.parse(readFileSync(join(ROOT, 'test/fixtures/sarif/sarif-2.1.0-rtm.5.json'), 'utf8'));
 
-function run(args: string[]) {
-  const r = spawnSync(process.execPath, [CLI, ...args], { cwd: ROOT, encoding: 'utf8', timeout: 120000 });
-  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
-}
-
-let dir: string;
-beforeAll(() => {
-  if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
-  dir = mkdtempSync(join(tmpdir(), 'qpoint-sarif-'));
-});
+const run = (args: string[]) => runCli(args);
+const scratch = scratchFolder('qpoint-sarif-');
 
 function validate(log: unknown): string[] {
   // The schema's `language` pattern has a stray `]` that a Unicode-mode RegExp refuses; draft-04 patterns are
@@ -40,11 +29,11 @@ describe('SARIF output against the SARIF 2.1.0 schema', () => {
   });
 
   it('validates for an unreadable file, a netlist with no findings, and several files at once', () => {
-    const clean = join(dir, 'clean.cir');
+    const clean = join(scratch.dir, 'clean.cir');
     writeFileSync(clean, 'Divider\nV1 a 0 10\nR1 a b 1k\nR2 b 0 1k\n.end\n');
-    const broken = join(dir, 'broken.cir');
+    const broken = join(scratch.dir, 'broken.cir');
     writeFileSync(broken, 'Broken\nQ1 c b e NOSUCH\nR1 c 0 4k7\n.bogus\n.end\n');
-    for (const args of [[clean], [join(dir, 'missing.cir')], [clean, broken, 'examples/sensor-bias.cir']]) {
+    for (const args of [[clean], [join(scratch.dir, 'missing.cir')], [clean, broken, 'examples/sensor-bias.cir']]) {
       const log = JSON.parse(run(['check', '--format', 'sarif', ...args]).stdout);
       expect(validate(log), args.join(' ')).toEqual([]);
     }

@@ -1,0 +1,37 @@
+// The one harness of the CLI tests: the built `qpoint` CLI run as a child process, and a scratch folder per test file.
+import { beforeAll } from 'vitest';
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { tmpdir } from 'node:os';
+
+export const ROOT = join(__dirname, '../..');
+export const CLI = join(ROOT, 'dist/cli.js');
+
+/** Runs the built CLI with `args` and returns its exit code and both streams. */
+export function runCli(args: string[], cwd = ROOT, timeoutMs = 120000): { code: number | null; stdout: string; stderr: string } {
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: timeoutMs });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+/**
+ * A fresh folder made before the calling file's tests (after checking that the CLI is built),
+ * and a writer of files into it. One object per test file: files share loaded modules.
+ */
+export function scratchFolder(prefix: string): { readonly dir: string; file(name: string, text: string): string } {
+  let dir = '';
+  beforeAll(() => {
+    if (!existsSync(CLI)) throw new Error('dist/cli.js is missing: run `npm run build` first (npm test does).');
+    dir = mkdtempSync(join(tmpdir(), prefix));
+  });
+  return {
+    get dir() {
+      return dir;
+    },
+    file(name: string, text: string): string {
+      const p = join(dir, name);
+      writeFileSync(p, text);
+      return p;
+    },
+  };
+}
