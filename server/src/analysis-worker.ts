@@ -158,6 +158,9 @@ function handle(msg: ToWorker): void {
       }
       return;
     }
+    case 'drop-parts':
+      if (outgoing && outgoing.id === msg.analysisId) outgoing = undefined;
+      return;
     case 'next-part': {
       const build = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[msg.index] : undefined;
       if (!build) {

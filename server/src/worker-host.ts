@@ -175,7 +175,16 @@ export class WorkerHost {
    * after the previous one was merged and the event loop had a turn, so editor requests are
    * answered between parts instead of waiting for one long deserialisation.
    */
-  async analyse(uri: string, version: number, options: AnalysisOptions, phases: { cornersLater?: boolean } = {}): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
+  async analyse(
+    uri: string,
+    version: number,
+    options: AnalysisOptions,
+    phases: {
+      cornersLater?: boolean;
+      /** Called after each part is merged (a hook for tests and logs). */
+      onPart?: (index: number, parts: number) => void;
+    } = {},
+  ): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
     const generation = this.generation();
     const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation }), `The analysis of ${uri}`);
     if (msg.type !== 'analysed') throw this.failure(msg);
@@ -194,6 +203,11 @@ export class WorkerHost {
     let asked = 0;
     while (asked < Math.min(PARTS_IN_FLIGHT, msg.parts)) inFlight.push(ask(asked++));
     for (let index = 0; index < msg.parts; index++) {
+      // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
+      if (this.generation() !== generation) {
+        this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
+        throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
+      }
       const part = await inFlight.shift()!;
       if (asked < msg.parts) inFlight.push(ask(asked++));
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
@@ -201,6 +215,7 @@ export class WorkerHost {
       mergePart(analysis, part.part);
       // Index the elements as they arrive, so the first request after the merge finds the tables built.
       if (elementIndex && part.part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
+      phases.onPart?.(index, msg.parts);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));
     }

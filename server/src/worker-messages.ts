@@ -43,6 +43,8 @@ export type ToWorker =
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number }
   /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */
   | { type: 'corners'; id: number; uri: string; version: number; generation: number }
+  /** The main thread stopped taking in the analysis answered to request `analysisId` (superseded): drop its remaining parts. */
+  | { type: 'drop-parts'; analysisId: number }
   /** Send part `index` of the analysis answered to request `analysisId`. */
   | { type: 'next-part'; id: number; analysisId: number; index: number }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }

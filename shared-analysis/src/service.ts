@@ -5,6 +5,7 @@ import { parse, startsWithDefinitionCard } from './syntax/parser';
 import { elaborate } from './elaborate/index';
 import { checkConnectivity } from './checks/connectivity';
 import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/dc';
+import { SolveStopped } from './solve/newton';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { judgeDevices } from './checks/devices/index';
@@ -73,7 +74,7 @@ export class AnalysisStopped extends Error {
   }
 }
 
-/** How a host can stop an analysis it no longer needs: asked before each stage and between corner solves. */
+/** How a host can stop an analysis it no longer needs: asked before each stage, before every Newton iteration of the nominal and corner solves, and between corner solves. */
 export interface AnalysisControl {
   shouldStop?: () => boolean;
 }
@@ -109,7 +110,13 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
       solver = new DcSolver(circuit);
-      nominal = solver.solve({ temperatureC: resolved.temperatureC });
+      try {
+        // The stop check is also asked before every Newton iteration, so a long solve of a superseded text ends early.
+        nominal = solver.solve({ temperatureC: resolved.temperatureC, shouldStop: control.shouldStop });
+      } catch (e) {
+        if (e instanceof SolveStopped) throw new AnalysisStopped();
+        throw e;
+      }
     });
     if (nominal && solver) {
       const result = nominal;

@@ -5,6 +5,7 @@ import type { Circuit, Element } from '../circuit';
 import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
+import { SolveStopped } from '../solve/newton';
 import { measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
@@ -253,13 +254,15 @@ export function runCorners(ctx: CornerContext): Finding[] {
       const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
       if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
     }
-    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
+    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     let result: DcSolveResult | undefined;
     const ts = clock();
     try {
       result = solver.solve(opts);
-    } catch {
-      // The solver promises not to throw; a corner that does anyway counts as not converged.
+    } catch (e) {
+      // Stopped inside the solve (the same check as between solves, asked before each Newton iteration).
+      if (e instanceof SolveStopped) throw ctx.stop?.() ?? e;
+      // The solver promises not to throw otherwise; a corner that does anyway counts as not converged.
       result = undefined;
     }
     solveMs += clock() - ts;

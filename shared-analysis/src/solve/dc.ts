@@ -207,8 +207,20 @@ export class DcSolver {
     return this.layout.size;
   }
 
-  /** Solves the DC operating point under `options`; never throws, never returns a non-finite number. */
+  /**
+   * Solves the DC operating point under `options`; never returns a non-finite number, and throws
+   * only `SolveStopped`, when `options.shouldStop` asks it to before a Newton iteration.
+   */
   solve(options: SolveOptions = {}): DcSolveResult {
+    this.engine.shouldStop = options.shouldStop;
+    try {
+      return this.solveChecked(options);
+    } finally {
+      this.engine.shouldStop = undefined;
+    }
+  }
+
+  private solveChecked(options: SolveOptions): DcSolveResult {
     const t0 = now();
     const findings: Finding[] = [...this.staticFindings];
     const n = this.layout.size;

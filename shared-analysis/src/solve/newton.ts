@@ -26,6 +26,16 @@ export interface NewtonRun {
   start?: StartHint;
 }
 
+/**
+ * Thrown out of `NewtonEngine.run` (and so out of `DcSolver.solve`) when the solve's `shouldStop`
+ * answers true before an iteration: the host no longer needs the answer (its text was superseded).
+ */
+export class SolveStopped extends Error {
+  constructor() {
+    super('The solve was stopped before its next Newton iteration.');
+  }
+}
+
 /** How a Newton run ended. */
 export type NewtonOutcome =
   | { status: 'converged'; iterations: number }
@@ -55,6 +65,8 @@ export class NewtonEngine {
   /** Source values for the current solve (overrides applied), aligned with layout.sources. */
   readonly sourceValues: Float64Array;
   factorizations = 0;
+  /** Asked before every Newton iteration of the solve in progress; true throws `SolveStopped` (set by `DcSolver.solve`). */
+  shouldStop: (() => boolean) | undefined;
   /** Reused by every assembly. */
   private readonly tally: LoadTally = { limited: false, nonFinite: [] };
   /** The last iterate that was entirely finite (reported when nothing converges). */
@@ -232,6 +244,7 @@ export class NewtonEngine {
     const rowScale = this.residualScale;
     const residual = this.residual;
     for (let it = 1; it <= run.maxIterations; it++) {
+      if (this.shouldStop?.()) throw new SolveStopped();
       const { limited, nonFinite } = this.assemble(x, run);
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: [...nonFinite] };
       // A linear system's matrix is the same every iteration: factor it once.

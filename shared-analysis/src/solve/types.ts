@@ -166,4 +166,10 @@ export interface SolveOptions {
    * pattern and its symbolic factorisation are kept. Names that are not devices are ignored.
    */
   deviceParameters?: Record<string, Record<string, number>>;
+  /**
+   * Asked before every Newton iteration (continuations included): true ends the solve by throwing
+   * `SolveStopped` (solve/newton.ts), the one case in which `solve` throws. A host passes its
+   * cancellation check here so a superseded analysis stops inside a long solve.
+   */
+  shouldStop?: () => boolean;
 }
