@@ -9,7 +9,7 @@
 //     characteristic is finite, and that data survives JSON unchanged (no NaN/Infinity turned to null);
 //   - every finding code (and every SARIF rule id) is in findingCatalogue();
 //   - no text shown to the user (messages, hovers, labels, reports) contains NaN or "undefined".
-// The seed netlists are invented scenarios. Fixed seeds; sized for well under a minute on 2 cores.
+// The seed netlists (seeds.ts, shared with the fuzz target) are invented scenarios. Fixed seeds; sized for well under a minute on 2 cores.
 
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
@@ -25,169 +25,18 @@ import { completionsAt } from '../../shared-analysis/src/features/completion';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { jsonReport, sarifReport, textReport } from '../../server/src/cli';
 import { writeJson } from '../../server/src/json-stream';
+import { FUZZ_ROOT, INCLUDING_SEED, SEED_LIBRARY, SEED_NETLISTS } from './seeds';
 
 /** Fixed seed; QPOINT_FUZZ_SEED and QPOINT_FUZZ_RUNS (a multiplier) let a person explore further by hand. */
 const SEED = Number(process.env.QPOINT_FUZZ_SEED ?? 20261201);
 const RUN_SCALE = Number(process.env.QPOINT_FUZZ_RUNS ?? 1);
 /** Wall-clock budget of one case (analysis plus every feature); far above the normal cost, so only a runaway trips it. */
 const CASE_BUDGET_MS = 20_000;
-const ROOT = '/w/top.cir';
+const ROOT = FUZZ_ROOT;
 
-/** Invented seed netlists: every card kind, mirrors of each polarity, subcircuits with parameters, includes, targets. */
-const CORPUS: string[] = [
-  `Thermocouple preamp bias: NPN mirrors, a helper and a Widlar trim
-.param vsup=9 iref=200u rref={(vsup-0.7)/iref}
-.temp 35
-.option tnom=27
-VCC vcc 0 DC {vsup}
-VP pulse 0 PULSE(0 1 1n 1n 1n 1u 2u)
-VS sine 0 SIN(0.5 0.1 1k)
-VE expo 0 EXP(0 1 1n 10n 20n 30n)
-IW sine 0 PWL(0 10u 1m 20u)
-RREF vcc ref {rref}
-Q1 ref ref 0 qamp
-Q2 out ref 0 qamp          ; expect 200uA ±5%
-Q3 out3 ref 0 qamp 2
-RL2 vcc out 10k
-RL3 vcc out3 4.7k
-Q4 trim ref et qamp
-RE4 et 0 2.2k
-RT vcc trim 22k
-D1 vcc dk dclamp
-RD dk 0 47k
-C1 ref 0 10n
-L1 vcc lf 10u
-RLF lf 0 100k
-RPU pulse 0 1k
-RSI sine 0 1k
-REX expo 0 1k
-.model qamp NPN (IS=3e-16 BF=160 VAF=70)
-.model dclamp D (IS=1e-14 N=1.1 RS=5)
-.op
-.end
-`,
-  `Battery monitor CMOS bias: NMOS ratio mirror, PMOS mirror, cascode and controlled sources
-.param wn=4u ln=1u
-VDD vdd 0 DC 3.3
-IREF vdd gn 20u
-M1 gn gn 0 0 nch W={wn} L={ln}
-M2 dn gn 0 0 nch W={2*wn} L={ln} ; expect 40uA ±10%
-M3 casc gn 0 0 nch W={wn} L={ln}
-M4 cout vb casc 0 nch W={wn} L={ln}
-VB vb 0 1.6
-RC vdd cout 20k
-MP1 gp gp vdd vdd pch W=8u L=1u
-MP2 op gp vdd vdd pch W=8u L=1u M=2
-RGP gp 0 100k
-ROP op 0 30k
-RDN vdd dn 15k
-E1 e1 0 dn 0 2
-RE1 e1 0 1k
-VSENSE dn sense 0
-RSENSE sense 0 1meg
-F1 0 f1 VSENSE 1.5
-RF1 f1 0 1k
-G1 0 g1 op 0 1m
-RG1 g1 0 1k
-H1 h1 0 VSENSE 100
-RH1 h1 0 1k
-X1 vdd xo pbias wr=2
-RX xo 0 50k
-* expect X1.MB = 20uA ±20%
-.subckt pbias top out wr=1
-RB top gb 120k
-MA gb gb 0 0 nch W=4u L=1u
-MB out gb 0 0 nch W={wr*4u} L=1u
-.ends pbias
-.model nch NMOS (VTO=0.45 KP=120u LAMBDA=0.04)
-.model pch PMOS (VTO=-0.5 KP=40u LAMBDA=0.05)
-.end
-`,
-  `Line driver: PNP source mirror and NPN Wilson sink, models from included files
-.include "lib/drivers.inc"
-.lib "lib/corners.lib" typical
-.param vcc=15 rset={(vcc-1.4)/1m}
-VCC vcc 0 {vcc}
-VEE vee 0 -5
-RSET pref vee {rset}
-QP1 pref pref vcc qsrc
-QP2 pout pref vcc qsrc   ; expect 1mA ±5%
-QP3 pout2 pref vcc qsrc
-RPL pout vee 6.8k
-RPL2 pout2 0 3.3k
-RWR vcc w1 12k
-QW1 w1 w2 vee qsink
-QW2 w2 w2 vee qsink
-QW3 wout w1 w2 qsink
-RWL vcc wout 5.6k
-.end
-`,
-  `Sensor array: one parameterised bias cell used three times
-.param vsup=5 base=10k
-VDD vdd 0 DC {vsup}
-XA vdd a1 cell ratio=1
-XB vdd b1 cell ratio=2 rtop={base/2}
-XC vdd c1 cell
-RA a1 0 1k
-RB b1 0 1k
-RC vdd c1 2k
-* expect XA.QO = 400uA ±25%
-.subckt cell top out ratio=1 rtop={base}
-.param rr={rtop*1}
-RR top r {rr}
-QR r r 0 qs
-QO out r 0 qs {ratio}
-XN top r inner
-.subckt inner p q
-RI p q 1meg
-.ends inner
-.ends cell
-.model qs NPN (BF=120 VAF=60)
-.end
-`,
-  `Audio preamp front end: JFETs of both polarities with temperature terms
-.temp 60
-VDD vdd 0 DC 15
-RD vdd d 3.3k
-J1 d 0 s jn 2
-RS s 0 470
-JP out src vdd jp M=2
-RSP vdd src 1k
-RL out 0 2.2k
-J3 d3 g3 0 jn
-RG g3 0 1meg
-RD3 vdd d3 10k TC1=1.5m TC2=2u
-S1 d3 0 ctl 0 smod
-VCTL ctl 0 2
-W1 out 0 VCTL wmod
-RP vdd out RPOLY L=20u W=2u
-B1 bo 0 V={V(d, s)*2 + (V(out) > 1 ? 0.5 : 0)}
-RBO bo 0 10k
-B2 bi 0 I={1m*tanh(V(bi)/0.3) + I(VCTL)}
-RBI vdd bi 4.7k
-E5 eo 0 VALUE={sqrt(abs(V(d)))}
-G5 0 go POLY(2) d 0 s 0 1u 2u 0 1n
-RGO go 0 1k
-E6 to 0 TABLE {V(d)} = (0,0) (5,1) (10,3)
-H5 ho 0 POLY(1) VCTL 0 100
-T1 ho 0 tl 0 Z0=50 TD=2n
-RTL tl 0 10k
-RHO ho 0 1k
-.model smod SW (RON=50 ROFF=1meg VT=1 VH=0.2)
-.model wmod CSW (RON=10 ROFF=1e9 IT=1u)
-.model RPOLY R (RSH=150 TC1=-1m)
-.model jn NJF (VTO=-2 BETA=1.3m LAMBDA=0.01 IS=2e-14 VTOTC=-2m BETATCE=-0.5)
-.model jp PJF (VTO=-2.5 BETA=1m LAMBDA=0.02)
-.end
-`,
-];
-
-/** Library files the corpus includes through the MemoryWorkspace; mutated too. */
-const LIBRARY: Record<string, string> = {
-  '/w/lib/drivers.inc': `* driver transistors\n.model qsrc PNP (IS=1e-15 BF=90 VAF=45)\n.include common.inc\n`,
-  '/w/lib/common.inc': `.model qsink NPN (IS=2e-16 BF=200 VAF=90)\n.param rbase=4.7k\n`,
-  '/w/lib/corners.lib': `.lib typical\n.param bscale=1\n.endl typical\n.lib slow\n.param bscale=0.6\n.endl slow\n`,
-};
+/** The seed netlists and the files they include, shared with the fuzz target (seeds.ts). */
+const CORPUS = SEED_NETLISTS;
+const LIBRARY = SEED_LIBRARY;
 
 /** Insertable pieces: syntax and values that reach the error paths of every stage. */
 const FRAGMENTS = [
@@ -499,7 +348,7 @@ describe('the whole pipeline under random and mutated netlists', () => {
   it('holds its invariants when the included files are mutated', () => {
     fc.assert(
       fc.property(fc.constantFrom(...Object.keys(LIBRARY)), fc.array(mutation, { minLength: 1, maxLength: 5 }), randomOffsets, (file, muts, random) => {
-        runCase({ ...LIBRARY, [file]: apply(LIBRARY[file]!, muts), [ROOT]: CORPUS[2]! }, random, { cli: false });
+        runCase({ ...LIBRARY, [file]: apply(LIBRARY[file]!, muts), [ROOT]: CORPUS[INCLUDING_SEED]! }, random, { cli: false });
       }),
       { seed: SEED + 1, numRuns: 20 * RUN_SCALE },
     );

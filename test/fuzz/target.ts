@@ -32,13 +32,14 @@ import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { parse, startsWithDefinitionCard } from '../../shared-analysis/src/syntax/parser';
 import { jsonReport, sarifReport, textReport } from '../../server/src/cli';
 import { rng } from '../seeded-random';
+import { FUZZ_ROOT, INCLUDING_SEED, SEED_LIBRARY as LIBRARY, SEED_NETLISTS as SEEDS } from './seeds';
 
 declare const performance: { now(): number };
 
 /** Wall-clock budget of one case; far above the normal cost (milliseconds), so only a runaway trips it. */
 export const CASE_BUDGET_MS = 20_000;
 export const DEFAULT_SEED = 20261202;
-const ROOT = '/w/top.cir';
+const ROOT = FUZZ_ROOT;
 
 /** A violated invariant; the message names it and where. */
 export class InvariantError extends Error {}
@@ -49,133 +50,6 @@ function check(ok: boolean, message: () => string): void {
 
 // ---------------------------------------------------------------------------------------------
 // Inputs
-
-/** Invented seed netlists covering every card kind the engine reads and the dialect it skips. */
-const SEEDS: string[] = [
-  `Thermocouple preamp bias: NPN mirrors and a Widlar trim
-.param vsup=9 iref=200u rref={(vsup-0.7)/iref}
-.temp 35
-.option tnom=27
-VCC vcc 0 DC {vsup}
-VP pulse 0 PULSE(0 1 1n 1n 1n 1u 2u)
-RREF vcc ref {rref}
-Q1 ref ref 0 qamp
-Q2 out ref 0 qamp          ; expect 200uA ±5%
-Q3 out3 ref 0 qamp 2
-RL2 vcc out 10k
-RL3 vcc out3 4.7k
-Q4 trim ref et qamp
-RE4 et 0 2.2k
-RT vcc trim 22k
-D1 vcc dk dclamp
-RD dk 0 47k
-C1 ref 0 10n
-RPU pulse 0 1k
-.model qamp NPN (IS=3e-16 BF=160 VAF=70)
-.model dclamp D (IS=1e-14 N=1.1 RS=5)
-.op
-.end
-`,
-  `Battery monitor CMOS bias: NMOS ratio mirror, PMOS mirror and a cascode
-.param wn=4u ln=1u
-VDD vdd 0 DC 3.3
-IREF vdd gn 20u
-M1 gn gn 0 0 nch W={wn} L={ln}
-M2 dn gn 0 0 nch W={2*wn} L={ln} ; expect 40uA ±10%
-M3 casc gn 0 0 nch W={wn} L={ln}
-M4 cout vb casc 0 nch W={wn} L={ln}
-VB vb 0 1.6
-RC vdd cout 20k
-MP1 gp gp vdd vdd pch W=8u L=1u
-MP2 op gp vdd vdd pch W=8u L=1u M=2
-RGP gp 0 100k
-ROP op 0 30k
-RDN vdd dn 15k
-E1 e1 0 dn 0 2
-RE1 e1 0 1k
-VSENSE dn sense 0
-RSENSE sense 0 1meg
-F1 0 f1 VSENSE 1.5
-RF1 f1 0 1k
-X1 vdd xo pbias wr=2
-RX xo 0 50k
-* expect X1.MB = 20uA ±20%
-.subckt pbias top out wr=1
-RB top gb 120k
-MA gb gb 0 0 nch W=4u L=1u
-MB out gb 0 0 nch W={wr*4u} L=1u
-.ends pbias
-.model nch NMOS (VTO=0.45 KP=120u LAMBDA=0.04)
-.model pch PMOS (VTO=-0.5 KP=40u LAMBDA=0.05)
-.end
-`,
-  `Line driver: models from included files, a corner chosen by .if
-.include "lib/drivers.inc"
-.param corner=1
-.if (corner == 1)
-.lib "lib/corners.lib" typical
-.else
-.lib "lib/corners.lib" slow
-.endif
-.param vcc=15 rset={(vcc-1.4)/1m}
-VCC vcc 0 {vcc}
-VEE vee 0 -5
-RSET pref vee {rset}
-QP1 pref pref vcc qsrc
-QP2 pout pref vcc qsrc   ; expect 1mA ±5%
-RPL pout vee 6.8k
-RWR vcc w1 12k
-QW1 w1 w2 vee qsink
-QW2 w2 w2 vee qsink
-QW3 wout w1 w2 qsink
-RWL vcc wout 5.6k
-.control
-op
-if v(wout) > 0.5
-  let x = 1
-end
-.endc
-.meas dc vx when v(wout)=2
-.end
-`,
-  `Sensor array: one parameterised bias cell used three times
-.param vsup=5 base=10k
-.func half(x) = x/2
-.global vdd
-VDD vdd 0 DC {vsup}
-XA a1 cell ratio=1
-XB b1 cell ratio=2 rtop={half(base)}
-XC c1 cell
-RA a1 0 1k
-RB b1 0 1k
-RC vdd c1 2k
-* expect XA.QO = 400uA ±25%
-.subckt cell out ratio=1 rtop={base}
-.param rr={rtop*1}
-RR vdd r {rr}
-QR r r 0 qs
-QO out r 0 qs {ratio}
-.ends cell
-.model qs NPN (BF=120 VAF=60)
-.end
-`,
-  `.lib typical
-.model qk NPN (IS=5e-16 BF=120 VAF=80 VA=70)
-.endl typical
-.subckt ref top out
-R1 top b 47k
-Q1 b b 0 qk
-Q2 out b 0 qk
-.ends ref
-`,
-];
-
-/** Files the seeds include; mutated in some cases. */
-const LIBRARY: Record<string, string> = {
-  '/w/lib/drivers.inc': '* driver transistors\n.model qsrc PNP (IS=1e-15 BF=90 VAF=45)\n.include common.inc\n',
-  '/w/lib/common.inc': '.model qsink NPN (IS=2e-16 BF=200 VAF=90)\n.param rbase=4.7k\n',
-  '/w/lib/corners.lib': '.lib typical\n.param bscale=1\n.endl typical\n.lib slow\n.param bscale=0.6\n.endl slow\n',
-};
 
 /** Pieces inserted anywhere: syntax and values that reach every stage's error paths, and hostile names. */
 const FRAGMENTS = [
@@ -188,6 +62,9 @@ const FRAGMENTS = [
   'Q9 a b c qamp', 'Q7 a b c q$$', 'M9 a b c d nch W=0 L=1e3', 'F9 a b Vnope 1', 'R9 a a 0', 'V9 a a 1', 'I9 a 0 1e9', 'V8 n 0 1e12', 'R8 n 0 1e-30',
   'R7 __proto__ 0 1k', 'R6 constructor toString 1k', '.temp -400', '.temp 1e6', '.option scale=1e-6', 'M=0', 'M=-2', 'µ', 'Ω', '\u00a0', '\ud83d\ude00',
   '\u0000', '\ud800', '\u001b[31m', '\u009b', '\u202e', '\ufeff', '\u001a',
+  'J9 a b c jn', 'J8 a b c jp 0', '.model jz njf (beta=-1 vto=1e9 is=-1)', 'S9 a b c d smod', 'W9 a b VCTL wmod', 'W8 a b Vnope wmod',
+  '.model sz sw (ron=0 roff=-1 vh=-3)', 'R7 a b RPOLY L=1u', 'R6 a b 1k TC=1,2', 'TC2=1e9', 'B9 a b V={log(V(a))}', 'B8 a 0 I={1/V(b)}',
+  'E9 a 0 POLY(3) a 0 b', 'G9 a b TABLE {V(c)} = (1,1) (0,2)', 'E8 a 0 VALUE={I(Vnope)}', 'B7 a 0 V={V(a,b,c)}', 'T9 a 0 a 0 Z0=50', 'T8 a b',
 ];
 
 /** Engineering numbers a value may be replaced with, from ordinary to extreme. */
@@ -289,7 +166,7 @@ export function caseInput(seed: number, index: number): FuzzCase {
   else if (mode < 9) {
     const lib = p.one(Object.keys(LIBRARY));
     files[lib] = mutate(LIBRARY[lib]!, p);
-    files[ROOT] = SEEDS[2]!;
+    files[ROOT] = SEEDS[INCLUDING_SEED]!;
   } else {
     // Text with no structure at all, sometimes from fragments only.
     let t = p.chance(0.5) ? 'Junk\n' : '';
