@@ -444,7 +444,16 @@ interface JsonDiagnostic {
   fixes?: { title: string; preferred?: boolean; disabled?: string; edits: { path: string; range: JsonDiagnostic['range']; newText: string }[] }[];
 }
 
+/** Each result's diagnostics, worked out once however many formats write them. */
+const diagnosticsOf = new WeakMap<FileResult, JsonDiagnostic[]>();
+
 function toJsonDiagnostics(r: FileResult): JsonDiagnostic[] {
+  let d = diagnosticsOf.get(r);
+  if (!d) diagnosticsOf.set(r, (d = jsonDiagnostics(r)));
+  return d;
+}
+
+function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
   const zero = { line: 0, character: 0 };
   if (r.readError) return [{ code: 'file-unreadable', severity: 'error', message: r.readError, range: { start: zero, end: zero } }];
   if (r.internalError) {
@@ -606,11 +615,14 @@ function summariseCornerRecords(s: Structure): OutputCornerSummary[] {
   });
 }
 
+/** The finding catalogue, built on first use (it does not change while the process runs). */
+let catalogueOnce: ReturnType<typeof findingCatalogue> | undefined;
+
 const SARIF_LEVEL: Record<Severity, string> = { error: 'error', warning: 'warning', info: 'note', hint: 'note' };
 
 /** SARIF 2.1.0 (OASIS standard): one run, one result per finding, 1-based UTF-16 columns. */
 export function sarifReport(results: FileResult[]): unknown {
-  const catalogue = findingCatalogue();
+  const catalogue = (catalogueOnce ??= findingCatalogue());
   const codes = new Set<string>();
   const sarifResults: unknown[] = [];
   for (const r of results) {

@@ -5,7 +5,8 @@
 import { describe, expect, it } from 'vitest';
 import { analyse } from '../../shared-analysis/src/service';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
-import { DEFAULT_SEED, InvariantError, caseText, checkAnalysis, checkFix, runCase } from './target';
+import { DEFAULT_SEED, InvariantError, caseText, checkAnalysis, checkFix, jsonCarriesEveryNumber, runCase } from './target';
+import { JsonEntries } from '../../server/src/json-stream';
 
 const URI = '/w/top.cir';
 const healthy = () => analyse({ uri: URI, text: 'Divider\nV1 a 0 10\nR1 a b 1k\nR2 b 0 1k\n.end\n' }, new MemoryWorkspace({}), { corners: { enabled: false } });
@@ -52,6 +53,13 @@ describe('the fuzz target', () => {
     const a = healthy();
     a.operatingPoint!.nodes['b'] = -Infinity;
     expect(() => checkAnalysis(a)).toThrow(/operatingPoint\.nodes\.b/);
+  });
+
+  it('fails on a number JSON would write as null, also inside a streamed table, and passes a null of its own', () => {
+    // ECMA-404 has no NaN or Infinity; JSON.stringify writes them as null (ECMA-262, SerializeJSONProperty).
+    expect(() => jsonCarriesEveryNumber({ files: [{ power: new JsonEntries(() => [['R1', NaN]]) }] }, 'doc')).toThrow(/doc\.files\.0\.power\.R1 = NaN/);
+    expect(() => jsonCarriesEveryNumber({ v: new Float64Array([1, Infinity]) }, 'doc')).toThrow(/doc\.v\.1 = Infinity/);
+    expect(() => jsonCarriesEveryNumber({ note: null, text: 'a:null', n: [1, 2] }, 'doc')).not.toThrow();
   });
 
   it('fails on a fix whose text does not parse or does not define its model', () => {
