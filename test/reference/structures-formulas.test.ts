@@ -1,6 +1,6 @@
 // The mirror and reference-branch hand formulas against their published sources, mathjs node-equation solves, and the DC solver.
 
-import { lusolve } from 'mathjs';
+import { lusolve, polynomialRoot } from 'mathjs';
 import { describe, expect, it } from 'vitest';
 import { resolveOptions } from '../../shared-analysis/src/analysis';
 import type { Circuit } from '../../shared-analysis/src/circuit';
@@ -380,4 +380,60 @@ describe('estimate against the DC solver on the same circuit', () => {
     analyseStructures({ circuit, structures, options: resolveOptions() });
     check(structures[0].outputResistance.Q2, 60 / structures[0].estimate!.iout.Q2, 1e-12);
   });
+});
+
+describe('JFET self-biased current source against Shockley\'s law', () => {
+  /** The source as the catalogue sees it: IDSS and VP written as the model's BETA = IDSS/VP² and VTO = VP (docs/DEVICE-MODELS.md). */
+  function jfetSource(channel: 'njf' | 'pjf', idss: number, vp: number, rs: number): { c: Circuit; s: Structure } {
+    const up = channel === 'njf';
+    const rail = up ? '0' : 'vcc';
+    const c = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 24)
+      .model('jx', channel, { VTO: vp, BETA: idss / (vp * vp) })
+      .jfet('J1', 'd', rail, 's', 'jx')
+      .r('RS', 's', rail, rs)
+      .r('RL', up ? 'vcc' : '0', 'd', 1e3)
+      .build();
+    const s = recogniseStructures(c).find((x) => x.kind === 'jfet-self-biased-source')!;
+    expect(s).toBeDefined();
+    return { c, s };
+  }
+
+  it('matches the self-bias worked example (IDSS = 8 mA, VP = −6 V, RS = 1 kΩ: ID ≈ 2.6 mA, VGS ≈ −2.6 V)', () => {
+    // Source: Boylestad and Nashelsky, Electronic Devices and Circuit Theory, ch. 7, self-bias configuration example (from memory);
+    // the book reads the answer off a graph to two figures, hence 2 %.
+    const { c, s } = jfetSource('njf', 8e-3, -6, 1e3);
+    const est = estimateStructure(c, s, { temperatureC: 27 });
+    check(est.iref, 2.6e-3, 0.02);
+    const vgs = est.steps.find((x) => x.quantity === 'VGS(J1)')!;
+    check(vgs.value, -2.6, 0.02);
+  });
+
+  for (const [channel, idss, vp, rs] of [
+    ['njf', 8e-3, -6, 1e3],
+    ['njf', 4e-3, -2, 500],
+    ['njf', 12e-3, -4, 47],
+    ['pjf', 2e-3, -3, 3.3e3],
+    ['pjf', 20e-3, -1.5, 10],
+  ] as const) {
+    it(`takes the root with |VGS| < |VP| of the quadratic (${channel}, IDSS ${idss * 1e3} mA, VP ${vp} V, RS ${rs} Ω), as mathjs finds it`, () => {
+      // VGS = −RS·IDSS·(1 − VGS/VP)² rearranged: (RS·IDSS/VP²)·VGS² + (1 − 2·RS·IDSS/VP)·VGS + RS·IDSS = 0 (Shockley, Proc. IRE 1952),
+      // solved by mathjs's polynomialRoot, an independent library; the other root lies beyond pinch-off.
+      const k = rs * idss;
+      const roots = (polynomialRoot(k, 1 - (2 * k) / vp, k / (vp * vp)) as unknown[]).map(Number);
+      const inside = roots.filter((v) => Math.abs(v) < Math.abs(vp));
+      expect(inside).toHaveLength(1);
+      expect(roots.some((v) => Math.abs(v) > Math.abs(vp))).toBe(true);
+      const want = -inside[0] / rs;
+      const { c, s } = jfetSource(channel, idss, vp, rs);
+      const est = estimateStructure(c, s, { temperatureC: 27 });
+      check(est.iref, want, 1e-9);
+      check(est.iout.J1, want, 1e-9);
+      // And the solver, whose device law is the same square law, settles there (the gate leakage is picoamperes).
+      const op = new DcSolver(c).solve({}).op;
+      const rec = op.devices.J1;
+      expect(rec.type).toBe('jfet');
+      check(Math.abs(rec.type === 'jfet' ? rec.id : 0), want, 1e-6);
+    });
+  }
 });

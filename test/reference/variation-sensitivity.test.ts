@@ -39,6 +39,17 @@ function circuitsOfEveryKind(): { name: string; circuit: Circuit }[] {
   out.push({ name: 'bandgap-core npn', circuit: selfBiasedLoop({ core: 'npn', startup: 2e6, bandgap: { r2: 10e3 } }).circuit });
   out.push({ name: 'vbe-multiplier npn', circuit: multiplier('npn') });
   out.push({ name: 'wide-swing-cascode nmos', circuit: wideSwing('nmos', { lambda: 0.02 }) });
+  // A P-channel JFET self-biased source (invented values: IDSS = 4 mA, RS = 500 Ω, ID ≈ 1.5 mA).
+  out.push({
+    name: 'jfet-self-biased-source pjf',
+    circuit: new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 15)
+      .model('jp', 'pjf', { VTO: -2, BETA: 1e-3, LAMBDA: 0.01, VTOTC: -2e-3 })
+      .jfet('J1', 'd', 'vcc', 's', 'jp')
+      .r('RS', 'vcc', 's', 500)
+      .r('RL', 'd', '0', 3.3e3)
+      .build(),
+  });
   // A zener-referenced NPN sink and a two-diode PNP source (invented values).
   out.push({
     name: 'diode-referenced-source npn (zener)',

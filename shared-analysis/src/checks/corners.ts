@@ -1,5 +1,6 @@
 // Re-solves the circuit at supply, temperature and beta corners and reports outputs that leave their region, lose headroom or spread.
 
+import { technologyFacts } from '../structures/technology';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element } from '../circuit';
 import { formatEngineering, formatPercent } from '../fixes/format';
@@ -350,11 +351,11 @@ const V = (v: number): string => formatEngineering(v, { unit: 'V' });
 const A = (v: number): string => formatEngineering(v, { unit: 'A' });
 
 function regionName(s: Structure): string {
-  return s.technology === 'npn' || s.technology === 'pnp' ? 'forward-active' : 'saturation';
+  return technologyFacts(s.technology)?.activeRegion ?? 'active';
 }
 
 function edgeName(s: Structure): string {
-  return s.technology === 'npn' || s.technology === 'pnp' ? 'the VBC = 0 edge' : 'the VDS = VGS − VTH edge';
+  return technologyFacts(s.technology)?.edge ?? 'the edge of its active region';
 }
 
 function listLabels(labels: string[], max = 4): string {

@@ -136,7 +136,7 @@ function mainOf(loop: Structure[]): Structure {
 /** The collector (drain) current of a structure's reference device at the operating point. */
 function referenceCurrent(s: Structure, op: OperatingPoint): number {
   const rec = op.devices[s.reference.device];
-  const i = rec?.type === 'bjt' ? Math.abs(rec.ic) : rec?.type === 'mosfet' ? Math.abs(rec.id) : 0;
+  const i = rec?.type === 'bjt' ? Math.abs(rec.ic) : rec?.type === 'mosfet' || rec?.type === 'jfet' ? Math.abs(rec.id) : 0;
   return Number.isFinite(i) ? i : 0;
 }
 
@@ -207,7 +207,7 @@ interface Bound {
  * Whether the loop's devices can all be off with the rest of the circuit at `offOp`: every junction
  * (base–emitter and base–collector; gate–source and gate–drain) at most at its off voltage, in its
  * own polarity. BJT: the voltage at which the junction carries OFF_FRACTION of the loop's current
- * (never above 0.4 V); MOS: the threshold (no current below it in the square law).
+ * (never above 0.4 V); MOS: the threshold (no current below it in the square law); JFET: the pinch-off voltage.
  */
 function zeroStateVerdict(topo: Topology, devices: Set<string>, offOp: OperatingPoint, loopI: number, temperatureC: number, circuit: Circuit): Verdict {
   const loopT = [...devices].map((d) => topo.byName.get(d)).filter((t): t is Transistor => !!t);
@@ -287,6 +287,8 @@ function fixedNodes(topo: Topology, devices: Set<string>, offOp: OperatingPoint,
 function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit: Circuit): number {
   const p = t.element.model.params;
   if (t.element.kind === 'M') return Math.max(polaritySign(t.tech) * (p.VTO ?? 0), 0) + 1e-3;
+  // A JFET's channel is off at or below its pinch-off voltage, which keeps the device's own sense (negative for a depletion device).
+  if (t.element.kind === 'J') return Number.isFinite(p.VTO) ? p.VTO : -2;
   const is = isAtTemperature(p.IS > 0 ? p.IS : 1e-16, temperatureC, circuit.tnomC, p.XTI ?? 3, p.EG ?? 1.11) * t.scale;
   const nVt = (p.NF > 0 ? p.NF : 1) * thermalVolts(temperatureC);
   const target = Math.max(loopI, 1e-9) * OFF_FRACTION;

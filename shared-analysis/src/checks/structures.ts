@@ -16,6 +16,7 @@ import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
+import { TECHNOLOGIES } from '../structures/technology';
 import type { Structure, StructureOutput } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
@@ -30,7 +31,7 @@ export type { EstimateAt } from '../structures/estimate';
 export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: string }> = {
   'mirror-output-out-of-region': {
     severity: 'error',
-    summary: 'A mirror output is saturated (BJT), in triode (MOS) or cut off at the operating point; says by how much and what output voltage or load would bring it back.',
+    summary: 'A mirror output is saturated (BJT), in triode (MOS), in the linear region (JFET) or cut off at the operating point; says by how much and what output voltage or load would bring it back.',
   },
   'mirror-headroom-low': {
     severity: 'warning',
@@ -283,6 +284,9 @@ class StructureCheck {
         const vs = this.v(t.common);
         if (vs !== undefined) return vs + this.sign * rec.vov;
       }
+      // A JFET's pinch-off voltage keeps the device's own sense for both channel types: edge = V(gate) − sign·VP.
+      if (rec && rec.type === 'jfet') return vb - this.sign * rec.vto;
+      if (t.element.kind === 'J') return vb - this.sign * (t.element.model.params.VTO ?? 0);
       return vb - (t.element.model.params.VTO ?? 0);
     }
     return this.s.estimate?.outputEdge?.[device];
@@ -315,7 +319,9 @@ class StructureCheck {
       const gmb = el.kind === 'M' && el.nodes[3] !== el.nodes[2] && rec.gmbs > 0 ? rec.gmbs : 0;
       return { gm: rec.gm, ro: rec.roInfinite ? UNBOUNDED_OHMS : rec.ro, rpi: Infinity, beta: Infinity, gmb };
     }
-    const kb = (p.KP > 0 ? p.KP : 2e-5) * t.scale;
+    if (rec && rec.type === 'jfet' && rec.gm > 0) return { gm: rec.gm, ro: rec.roInfinite ? UNBOUNDED_OHMS : rec.ro, rpi: Infinity, beta: Infinity, gmb: 0 };
+    // Square law ID = k/2·VOV²: k = KP·(W/L)·M for a MOSFET, 2·BETA·area·M for a JFET (docs/DEVICE-MODELS.md).
+    const kb = t.element.kind === 'J' ? 2 * (p.BETA > 0 ? p.BETA : 1e-4) * t.scale : (p.KP > 0 ? p.KP : 2e-5) * t.scale;
     return { gm: Math.sqrt(2 * kb * Math.max(i, 0)), ro: mosRo(p.LAMBDA ?? 0, i), rpi: Infinity, beta: Infinity, gmb: 0 };
   }
 
@@ -586,7 +592,8 @@ class StructureCheck {
       const vout = this.v(t.out);
       if (off || this.measured.outOfRegion.includes(o.device)) {
         const rec = this.op.devices[o.device];
-        const region = off ? 'cutoff' : rec && (rec.type === 'bjt' || rec.type === 'mosfet') ? rec.region : head < 0 ? (this.bipolar ? 'saturation' : 'triode') : 'cutoff';
+        const facts = TECHNOLOGIES[this.s.technology];
+        const region = off ? 'cutoff' : rec && (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet') ? rec.region : head < 0 ? facts.beyondRegion : 'cutoff';
         const err = active > 0 ? (solved - active) / active : 0;
         const parts: string[] = [];
         let what: string;
@@ -597,6 +604,9 @@ class StructureCheck {
         } else if (this.bipolar) {
           const j = this.sign > 0 ? 'VBC' : 'VCB';
           what = `is ${region === 'reverse-active' ? 'reverse-active' : 'saturated'} at the operating point: ${j} = ${signedVolts(-head)}, ${eng(-head, 'V')} past the forward-active edge (${j} ≤ 0)`;
+        } else if (facts.family === 'jfet') {
+          const vov = rec && rec.type === 'jfet' ? this.sign * rec.vgs - rec.vto : 0;
+          what = `is ${facts.beyondState} at the operating point: ${this.sign > 0 ? 'VDS' : 'VSD'} is ${eng(-head, 'V')} below ${this.sign > 0 ? 'VGS − VP' : 'VSG + VP'} = ${eng(vov, 'V')} (VP the pinch-off voltage)`;
         } else {
           const vov = rec && rec.type === 'mosfet' ? rec.vov : 0;
           what = `is in triode at the operating point: ${this.sign > 0 ? 'VDS' : 'VSD'} is ${eng(-head, 'V')} below the overdrive ${this.sign > 0 ? 'VGS − VTH' : 'VSG − |VTH|'} = ${eng(vov, 'V')}`;

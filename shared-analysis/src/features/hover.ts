@@ -212,8 +212,7 @@ function answerLine(analysis: Analysis, el: Element, rec: DeviceRecord, structur
     const out = structures.flatMap((s) => s.outputs.filter((o) => o.device.toLowerCase() === lower).map((o) => ({ s, o })))[0];
     const diodeConnected = el.nodes[0] === el.nodes[1];
     const h = out ? out.s.headroom[out.o.device] : diodeConnected ? undefined : recordHeadroom(rec);
-    const tech = rec.type === 'bjt' ? rec.polarity : rec.type === 'mosfet' ? rec.polarity : rec.polarity === 'pjf' ? 'pmos' : 'nmos';
-    if (h !== undefined && Number.isFinite(h)) parts.push(formatHeadroom(h, tech));
+    if (h !== undefined && Number.isFinite(h)) parts.push(formatHeadroom(h, rec.polarity));
   }
   const target = targetState(analysis, el, rec);
   if (target) parts.push(target.met ? target.text : `**${target.text}**`);

@@ -1,13 +1,14 @@
 // The words every host uses for a structure's outputs and the voltages it produces: hover, inlay hints and the command line's report.
 
+import { polaritySign } from '../structures/technology';
 import { outputKindName } from '../structures/catalogue';
 import type { DerivedVoltage, Structure, StructureOutput } from '../structures/types';
 import { formatNumber, formatQuantity } from '../view/format';
 
-/** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP/PMOS structures). */
+/** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP, PMOS and P-channel JFET structures). */
 function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {
   if (v.from === undefined || v.from === '0') return `on ${v.node}`;
-  const below = s.technology === 'pnp' || s.technology === 'pmos';
+  const below = polaritySign(s.technology) < 0;
   return `on ${v.node}, ${below ? 'below' : 'above'} ${v.from}`;
 }
 

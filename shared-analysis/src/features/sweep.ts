@@ -1,5 +1,6 @@
 // The output characteristic of one mirror output: its current against a swept output-node voltage, across the structure's own rails.
 
+import { polaritySign, technologyFacts } from '../structures/technology';
 import type { Analysis } from '../analysis';
 import type { Circuit, Element, VoltageSource } from '../circuit';
 import { DcSolver } from '../solve/dc';
@@ -73,7 +74,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   const nodeIndex = circuit.nodes.findIndex((n) => n.toLowerCase() === output.node.toLowerCase());
   if (nodeIndex <= 0) return { error: `The output node ${output.node} of ${output.device} is ground or missing; there is nothing to sweep.` };
   const outEl = circuit.elements.find((e) => e.name.toLowerCase() === lower);
-  if (!outEl || (outEl.kind !== 'Q' && outEl.kind !== 'M')) return { error: `${device} is not a transistor of the circuit.` };
+  if (!outEl || (outEl.kind !== 'Q' && outEl.kind !== 'M' && outEl.kind !== 'J')) return { error: `${device} is not a transistor of the circuit.` };
 
   const op = analysis.operatingPoint;
   const operatingV = op?.nodes[circuit.nodes[nodeIndex]] ?? NaN;
@@ -81,7 +82,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   const { low, high } = range;
   if (!(high > low)) return { error: `The structure has no supply rails to sweep between (lowest ${low} V, highest ${high} V).` };
 
-  const sink = structure.technology === 'npn' || structure.technology === 'nmos';
+  const sink = polaritySign(structure.technology) > 0;
   const swept = sweepCircuit(circuit, structure, nodeIndex);
   const solver = new DcSolver(swept);
   const pts: { v: number; i: number; active: boolean; margin: number }[] = [];
@@ -118,7 +119,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     ...(variation ? { spread: { sigmaRelative: variation.sigmaRelative, worstCaseRelative: variation.worstCaseRelative, tempcoPpmPerC: variation.tempcoPpmPerC } } : {}),
     device: output.device,
     structureId: structure.id,
-    title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${structure.technology.toUpperCase()}${where})`,
+    title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${technologyFacts(structure.technology)?.words ?? structure.technology.toUpperCase()}${where})`,
     technology: structure.technology,
     outputKind: `${outputWords(structure, output)} of the ${kindName(structure.kind)} on ${structure.reference.device}`,
     node: circuit.nodes[nodeIndex],
@@ -202,26 +203,27 @@ function sweepCircuit(circuit: Circuit, structure: Structure, node: number): Cir
   return { ...circuit, elements: [...elements, source] };
 }
 
-/** The output current signed in the output's own direction: IC or ID for a sink (NPN, NMOS), −IC or −ID for a source (PNP, PMOS). */
+/** The output current signed in the output's own direction: IC or ID for a sink (NPN, NMOS, N-channel JFET), −IC or −ID for a source (PNP, PMOS, P-channel JFET). */
 function outputCurrent(rec: DeviceRecord | undefined, sink: boolean): number | undefined {
   if (!rec) return undefined;
   if (rec.type === 'bjt') return sink ? rec.ic : -rec.ic;
-  if (rec.type === 'mosfet') return sink ? rec.id : -rec.id;
+  if (rec.type === 'mosfet' || rec.type === 'jfet') return sink ? rec.id : -rec.id;
   return undefined;
 }
 
-/** Volts by which a device is inside its active region (negative: outside): −VBC for NPN, |VDS| − overdrive for MOS. */
+/** Volts by which a device is inside its active region (negative: outside): −VBC for NPN, |VDS| − overdrive for MOS, |VDS| − (VGS − VP) for a JFET. */
 function activeMargin(rec: DeviceRecord | undefined): number {
   if (!rec) return NaN;
   if (rec.type === 'bjt') return rec.polarity === 'npn' ? -rec.vbc : rec.vbc;
   if (rec.type === 'mosfet') return Math.abs(rec.vds) - rec.vov;
+  if (rec.type === 'jfet') return Math.abs(rec.vds) - ((rec.polarity === 'pjf' ? -rec.vgs : rec.vgs) - rec.vto);
   return NaN;
 }
 
 function isActive(rec: DeviceRecord | undefined): boolean {
   if (!rec) return false;
   if (rec.type === 'bjt') return rec.region === 'forward-active';
-  if (rec.type === 'mosfet') return rec.region === 'saturation';
+  if (rec.type === 'mosfet' || rec.type === 'jfet') return rec.region === 'saturation';
   return false;
 }
 

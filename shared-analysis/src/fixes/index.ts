@@ -1,5 +1,6 @@
 // Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
+import { TECHNOLOGIES } from '../structures/technology';
 import { elementNamed } from './circuit-index';
 import { sizingBlock } from './resistor-for-current';
 import type { ResolvedOptions } from '../analysis';
@@ -314,7 +315,7 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;
-    const selfText = selfOut && structure ? `; ${selfOut} is ${isBipolar(structure.technology) ? 'saturated' : 'in triode'} there` : '';
+    const selfText = selfOut && structure ? `; ${selfOut} is ${TECHNOLOGIES[structure.technology].beyondState} there` : '';
     const predicted = sigmaRel !== undefined && sigmaRel > 0 ? fractionWithin(c.current, sigmaRel * c.current, target * (1 - tolerance), target * (1 + tolerance)) : undefined;
     const yieldText = predicted !== undefined ? `; predicted yield ${formatPercent(predicted, 3).replace(/^\+/, '')}` : '';
     built.push({

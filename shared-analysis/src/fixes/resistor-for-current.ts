@@ -1,5 +1,6 @@
 // Sizes a resistor for a target current: a hand-formula first value, refined with the DC solver, then the nearest standard values re-solved.
 
+import { isBipolar } from '../structures/technology';
 import { circuitIndex, elementNamed } from './circuit-index';
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
 import { DcSolver } from '../solve/dc';
@@ -200,7 +201,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     const iRefTarget = target / ratio;
     // Bipolar junctions move by n·VT·ln(ratio); a MOS gate–source drop follows the square law
     // instead, which the refinement below takes care of, so its first value keeps the drop fixed.
-    const bipolar = structure.technology === 'npn' || structure.technology === 'pnp';
+    const bipolar = isBipolar(structure.technology);
     const junctions = bipolar ? Math.max(1, referenceJunctions(structure)) : 0;
     const vAvailable = vR - junctions * deviceNf(circuit, structure.reference.device) * vt * Math.log(iRefTarget / iR);
     first = vAvailable > 0 ? vAvailable / iRefTarget : resistor.resistance * (i0 / target);

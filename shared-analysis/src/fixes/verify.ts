@@ -1,5 +1,6 @@
 // The re-solve every resistor fix passes before it is offered: what the change does to each output of the structure.
 
+import { TECHNOLOGIES } from '../structures/technology';
 import type { Circuit } from '../circuit';
 import type { DcSolver } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
@@ -22,7 +23,7 @@ export function resolveWith(circuit: Circuit, solver: DcSolver, s: Structure, re
 
 /** The words for an output out of its active region in its technology. */
 function outWord(s: Structure): string {
-  return isBipolar(s.technology) ? 'saturated' : 'in triode';
+  return TECHNOLOGIES[s.technology].beyondState;
 }
 
 /**

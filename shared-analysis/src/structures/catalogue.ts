@@ -8,6 +8,7 @@ import { degeneratedMirror } from './kinds/degenerated-mirror';
 import { diodeReferencedSource } from './kinds/diode-referenced-source';
 import { helperMirror } from './kinds/helper-mirror';
 import { improvedWilsonMirror } from './kinds/improved-wilson-mirror';
+import { jfetSelfBiasedSource } from './kinds/jfet-self-biased-source';
 import { ptatCell } from './kinds/ptat-cell';
 import { regulatedSource } from './kinds/regulated-source';
 import { simpleMirror } from './kinds/simple-mirror';
@@ -37,6 +38,7 @@ export const KINDS: readonly KindModule[] = [
   widlarSource,
   diodeReferencedSource,
   regulatedSource,
+  jfetSelfBiasedSource,
   simpleMirror,
 ];
 

@@ -3,7 +3,8 @@
 import type { Circuit, CurrentSource } from '../circuit';
 import { kindOf } from './catalogue';
 import { eng, sig } from './format';
-import { Chain, GRAY, Hand, RAZAVI, type ChainResult, type EstimateAt } from './hand';
+import { Chain, GRAY, Hand, RAZAVI, SQUARE_LAW, type ChainResult, type EstimateAt } from './hand';
+import { TECHNOLOGIES } from './technology';
 import type { KindModule } from './kind';
 import type { Estimate, EstimateStep, Structure } from './types';
 import { pushAll } from '../arrays';
@@ -201,7 +202,9 @@ class HandAnalysis {
           quantity: `Compliance edge V(${node})`,
           formula: h.bipolar
             ? `V(${node}) ${cmp} V(base of ${k}): the VBC = 0 edge of forward-active (stricter than the textbook VCE(sat) ≈ 0.2 V)`
-            : `V(${node}) ${cmp} V(source) ${h.sign > 0 ? '+' : '−'} VOV of ${k}, i.e. V(gate) ${h.sign > 0 ? '− VTH' : '+ |VTH|'}: the edge of saturation (${RAZAVI})`,
+            : TECHNOLOGIES[s.technology].family === 'jfet'
+              ? `V(${node}) ${cmp} V(gate of ${k}) ${h.sign > 0 ? '−' : '+'} VP: the edge of saturation, VDS = VGS − VP with VP the pinch-off voltage (${SQUARE_LAW}, JFET form)`
+              : `V(${node}) ${cmp} V(source) ${h.sign > 0 ? '+' : '−'} VOV of ${k}, i.e. V(gate) ${h.sign > 0 ? '− VTH' : '+ |VTH|'}: the edge of saturation (${RAZAVI})`,
           substituted: `${eng(vCommon, 'V')} ${h.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
           value: outputEdge[k],
           unit: 'V',

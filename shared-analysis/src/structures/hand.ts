@@ -2,10 +2,12 @@
 
 import { MODEL_DEFAULTS, type Circuit, type Model } from '../circuit';
 import { bjtBetaAt, bjtTemperatureFactors } from '../devices/bjt';
+import { jfetTemperature } from '../devices/jfet';
 import { mosTemperature } from '../devices/mosfet';
 import { eng, sig } from './format';
 import { diodeMosVgs, isAtTemperature, thermalVolts, thresholdWithBody, vbeAt } from './formulas';
 import { railsByIndex } from './rails';
+import { technologyOfModel } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { EstimateStep, Structure, StructureRole } from './types';
 
@@ -44,7 +46,10 @@ export interface DeviceParams {
   /** The collector current β was evaluated at (bipolar, when the model's β depends on current). */
   betaAtCurrent?: number;
   va: number;
-  /** MOS: KP·W/L·M, own-polarity VTO, λ, γ, φ. */
+  /**
+   * Square-law constant k of ID = k/2·(VGS − VTO)²: MOS KP·W/L·M; JFET 2·BETA·area·M (the model's
+   * ID = BETA·(VGS − VTO)², so IDSS = k/2·VTO²). With own-polarity VTO (a JFET's pinch-off voltage VP), λ, γ, φ.
+   */
   kBeta: number;
   vto: number;
   lambda: number;
@@ -109,6 +114,17 @@ export class Chain {
     }
     const v = h.vgs(p, i, vsb);
     const vth = thresholdWithBody(p.vto, p.gamma, p.phi, vsb);
+    if (p.t.element.kind === 'J') {
+      this.push(() => ({
+        quantity: `VGS(${p.t.name})`,
+        formula: `VP + sqrt(ID/(BETA·area·M)), VP the pinch-off voltage (the model's VTO) (${SQUARE_LAW}, JFET form)`,
+        substituted: `${eng(p.vto, 'V')} + sqrt(${eng(i, 'A')}/${eng(p.kBeta / 2, 'A/V²')})${label}`,
+        value: v,
+        unit: 'V',
+        devices: [p.t.name],
+      }));
+      return v;
+    }
     this.push(() => ({
       quantity: `VGS(${p.t.name})`,
       formula: `VTH + sqrt(2·ID/(KP·W/L·M·(1 + λ·VGS))) (${SQUARE_LAW})`,
@@ -164,7 +180,7 @@ export class Hand {
     const t = this.topo.byName.get(name);
     if (!t) throw new Error(`structure device ${name} is not in the circuit`);
     const model = t.element.model;
-    const kind = model.kind === 'pnp' || model.kind === 'npn' || model.kind === 'nmos' || model.kind === 'pmos' ? model.kind : 'npn';
+    const kind = technologyOfModel(model.kind) ?? 'npn';
     const get = (k: string) => {
       const v = model.params[k];
       return Number.isFinite(v) || v === Infinity ? v : MODEL_DEFAULTS[kind][k] ?? 0;
@@ -186,6 +202,22 @@ export class Hand {
         kBeta: 0,
         vto: 0,
         lambda: 0,
+        gamma: 0,
+        phi: 0.6,
+      };
+    } else if (t.element.kind === 'J') {
+      // VTO keeps the device's own sense for both channel types (docs/DEVICE-MODELS.md): no sign flip.
+      const temp = jfetTemperature(get('VTO'), get('VTOTC'), get('BETATCE'), this.at.temperatureC, this.circuit.tnomC);
+      p = {
+        t,
+        model,
+        isEff: 0,
+        nfVt: this.vt,
+        beta: Infinity,
+        va: Infinity,
+        kBeta: 2 * positiveOr(get('BETA'), 1e-4) * temp.betaFactor * t.scale,
+        vto: temp.vto,
+        lambda: Math.max(get('LAMBDA'), 0),
         gamma: 0,
         phi: 0.6,
       };

@@ -2,6 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import type { DeviceRecord, OperatingPoint } from '../solve/types';
+import { TECHNOLOGIES } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
 import { nameTable } from '../names';
@@ -23,7 +24,8 @@ export interface Measurement {
  * simple mirror, and the structure's own resistors and diodes listed in `parts`), so
  * base-current loads outside the structure are not counted. Headroom
  * of a bipolar output is −VBC in its own polarity (the distance of the collector beyond the
- * VBC = 0 edge, docs/DEVICE-MODELS.md's forward-active definition); of a MOS output VDS − (VGS − VTH).
+ * VBC = 0 edge, docs/DEVICE-MODELS.md's forward-active definition); of a MOS output VDS − (VGS − VTH);
+ * of a JFET output VDS − (VGS − VP), VP the pinch-off voltage.
  * An output is out of region when its record says so (or, without a record, when the
  * node voltages put it outside forward-active / saturation). Never NaN: a missing node or
  * record counts as 0 V / 0 A.
@@ -51,7 +53,7 @@ export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Struct
 export interface MeasurementPlan {
   refNode: number | undefined;
   /** The structure's transistors, for IREF: the element and which of its terminals sit on the reference node. */
-  devices: { e: number; bipolar: boolean; out: boolean; ctrl: boolean; common: boolean }[];
+  devices: { e: number; bipolar: boolean; record: DeviceRecord['type']; out: boolean; ctrl: boolean; common: boolean }[];
   /** The structure's own resistors and diodes on the reference node: +1 when the first node is on it, −1 the second. */
   parts: { e: number; sign: 1 | -1 }[];
   outputs: { device: string; e: number; t: Transistor | undefined }[];
@@ -67,7 +69,7 @@ export function planMeasurement(topo: Topology, s: Structure): MeasurementPlan {
       const t = topo.byName.get(name);
       const e = topo.elementIndex.get(name);
       if (!t || e === undefined) continue;
-      devices.push({ e, bipolar: t.element.kind === 'Q', out: t.out === refNode, ctrl: t.ctrl === refNode, common: t.common === refNode });
+      devices.push({ e, bipolar: isBipolar(t.tech), record: TECHNOLOGIES[t.tech].record, out: t.out === refNode, ctrl: t.ctrl === refNode, common: t.common === refNode });
     }
     for (const name of Object.keys(s.parts ?? {})) {
       const el = topo.elementByName.get(name);
@@ -96,10 +98,13 @@ export function runMeasurement(plan: MeasurementPlan, p: PointIndexReader, outpu
       if (d.ctrl) iref += finite(p.num(d.e, 'ib'));
       if (d.common) iref += finite(p.num(d.e, 'ie'));
     } else {
-      if (type !== 'mosfet') continue;
+      if (type !== d.record) continue;
       const id = finite(p.num(d.e, 'id'));
+      // A JFET's gate draws its junctions' current (leakage when reverse-biased); a MOS gate none.
+      const ig = type === 'jfet' ? finite(p.num(d.e, 'ig')) : 0;
       if (d.out) iref += id;
-      if (d.common) iref -= id;
+      if (d.ctrl) iref += ig;
+      if (d.common) iref -= id + ig;
     }
   }
   for (const part of plan.parts) {
@@ -123,12 +128,19 @@ export function runMeasurement(plan: MeasurementPlan, p: PointIndexReader, outpu
       const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
       output(o, current, headroom, !active);
     } else {
-      const r = type === 'mosfet';
+      // Field-effect output: headroom VDS − (VGS − VTH), the pinch-off voltage VP standing for VTH in a JFET (own polarity).
+      const facts = TECHNOLOGIES[t.tech];
+      const r = type === facts.record;
       const current = Math.abs(finite(r ? p.num(e, 'id') : undefined));
       const vds = sign * (v(t.out) - v(t.common));
-      const vov = r ? finite(p.num(e, 'vov')) : sign * (v(t.ctrl) - v(t.common)) - sign * finite(t.element.model.params.VTO);
+      const vgs = sign * (v(t.ctrl) - v(t.common));
+      const vov = !r
+        ? vgs - (facts.family === 'jfet' ? finite(t.element.model.params.VTO) : sign * finite(t.element.model.params.VTO))
+        : facts.family === 'jfet'
+          ? sign * finite(p.num(e, 'vgs')) - finite(p.num(e, 'vto'))
+          : finite(p.num(e, 'vov'));
       const headroom = vds - vov;
-      const active = r ? p.region(e) === 'saturation' : vov > 0 && vds >= vov;
+      const active = r ? p.region(e) === facts.activeRegion : vov > 0 && vds >= vov;
       output(o, current, headroom, !active);
     }
   });

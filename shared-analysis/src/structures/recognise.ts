@@ -19,8 +19,8 @@ import { nameTable } from '../names';
  * The kinds of `catalogue.ts` are tried in their registry order, most specific first; each
  * kind's recogniser runs on every unclaimed transistor of its seed type in natural name
  * order, and a match claims its devices, so a Wilson mirror is not also reported as the
- * simple mirror inside it. All devices of one structure share a technology (NPN, PNP, NMOS
- * or PMOS). Look-alikes that are not mirrors (two devices sharing a base with no
+ * simple mirror inside it, and only on transistors of the technologies the kind lists. All
+ * devices of one structure share a technology (NPN, PNP, NMOS, PMOS, N- or P-channel JFET). Look-alikes that are not mirrors (two devices sharing a base with no
  * diode-connected one, a differential pair, a lone diode-connected device) match no kind.
  */
 export function recogniseStructures(circuit: Circuit): Structure[] {
@@ -29,7 +29,7 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
   for (const kind of KINDS) {
     const wantDiode = kind.seeds === 'diode-connected';
     for (const t of m.ordered) {
-      if ((t.out === t.ctrl) !== wantDiode || m.isClaimed(t)) continue;
+      if ((t.out === t.ctrl) !== wantDiode || m.isClaimed(t) || !kind.technologies.includes(t.tech)) continue;
       const d = kind.recognise(m, t);
       if (!d) continue;
       m.claim(d);
@@ -89,11 +89,11 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, 
   const feeds = m.topo
     .conducting(d.refNode)
     .filter((a) => !members.has(a.element.name))
-    .filter((a) => !(a.element.kind === 'Q' && a.slot === 1));
+    .filter((a) => !((a.element.kind === 'Q' || a.element.kind === 'J') && a.slot === 1));
   if (feeds.length !== 1) return base;
   const { element: el, slot } = feeds[0];
   if (el.kind === 'I') return { ...base, feed: 'current-source', elements: [el.name] };
-  if ((el.kind === 'Q' || el.kind === 'M') && slot === 0) {
+  if ((el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && slot === 0) {
     const from = owner.get(el.name);
     if (from && from !== s) return { ...base, feed: 'mirror-output', elements: [el.name], fedBy: from.id };
     return base;

@@ -1,17 +1,20 @@
 // A polarity-neutral view of a circuit's transistors and node connections, shared by recognition, estimation and measurement.
 
-import type { Bjt, Circuit, Element, Mosfet } from '../circuit';
+import type { Bjt, Circuit, Element, Jfet, Mosfet } from '../circuit';
+import { isBipolar, polaritySign, technologyOfModel, TECHNOLOGIES } from './technology';
 import type { Technology } from './types';
+
+export { isBipolar, polaritySign };
 
 /**
  * One transistor seen through the three terminals a mirror cares about: the output
  * terminal (collector/drain), the control terminal (base/gate) and the common terminal
  * (emitter/source). `scale` is the geometry factor that sets its share of a mirror's
- * current: area × M for a BJT, (W/L) × M for a MOSFET.
+ * current: area × M for a BJT or a JFET, (W/L) × M for a MOSFET.
  */
 export interface Transistor {
   name: string;
-  element: Bjt | Mosfet;
+  element: Bjt | Mosfet | Jfet;
   tech: Technology;
   out: number;
   ctrl: number;
@@ -21,35 +24,21 @@ export interface Transistor {
   scale: number;
 }
 
-/** Whether a technology is a bipolar one (the formulas then carry beta and VBE). */
-export function isBipolar(t: Technology): boolean {
-  return t === 'npn' || t === 'pnp';
-}
-
-/** +1 when current enters the output terminal from above (NPN, NMOS), −1 for PNP and PMOS. */
-export function polaritySign(t: Technology): 1 | -1 {
-  return t === 'npn' || t === 'nmos' ? 1 : -1;
-}
-
 /** The transistor view of an element, or undefined for anything else (or a device whose model kind does not fit). */
 export function asTransistor(e: Element): Transistor | undefined {
-  if (e.kind === 'Q') {
-    const tech = e.model?.kind;
-    if (tech !== 'npn' && tech !== 'pnp') return undefined;
-    const scale = positive(e.area, 1) * positive(e.m, 1);
-    // A geometry that overflows (AREA=1e300 M=1e300) gives no ratio to reason with.
-    if (!Number.isFinite(scale)) return undefined;
-    return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], scale };
-  }
+  if (e.kind !== 'Q' && e.kind !== 'M' && e.kind !== 'J') return undefined;
+  const tech = technologyOfModel(e.model?.kind ?? '');
+  if (!tech || TECHNOLOGIES[tech].letter !== e.kind) return undefined;
   if (e.kind === 'M') {
-    const tech = e.model?.kind;
-    if (tech !== 'nmos' && tech !== 'pmos') return undefined;
     const wl = positive(e.w, 1) / positive(e.l, 1);
     // A subnormal length (L=1e-320) makes W/L infinite: no ratio to reason with.
     if (!Number.isFinite(wl * positive(e.m, 1))) return undefined;
     return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: e.nodes[3], scale: wl * positive(e.m, 1) };
   }
-  return undefined;
+  const scale = positive(e.area, 1) * positive(e.m, 1);
+  // A geometry that overflows (AREA=1e300 M=1e300) gives no ratio to reason with.
+  if (!Number.isFinite(scale)) return undefined;
+  return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], scale };
 }
 
 function positive(v: number, fallback: number): number {

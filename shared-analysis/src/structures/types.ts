@@ -32,13 +32,15 @@ export type StructureKind =
   | 'vbe-multiplier'
   /** Wide-swing (high-swing) MOS cascode mirror with its own cascode-bias branch. */
   | 'wide-swing-cascode'
+  /** JFET with a source resistor back to its gate node: ID = IDSS·(1 − VGS/VP)² with VGS = −ID·RS. */
+  | 'jfet-self-biased-source'
   /** Current source regulated by an amplifier (E source or subcircuit) across a sense resistor: I = VREF/RSENSE. */
   | 'regulated-source'
   /** Current source whose base (gate) is held by a string of forward diodes: I = (n·VD − VBE)/RE. */
   | 'diode-referenced-source';
 
-/** Device family of a structure. */
-export type Technology = 'npn' | 'pnp' | 'nmos' | 'pmos';
+/** Device family and polarity of a structure (`technology.ts` holds what each one means). */
+export type Technology = 'npn' | 'pnp' | 'nmos' | 'pmos' | 'njf' | 'pjf';
 
 /** A node pinned by a voltage source to a fixed potential (relative to ground). */
 export interface Rail {

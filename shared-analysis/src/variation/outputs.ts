@@ -50,7 +50,7 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
         if (!t || i === undefined) continue;
         // Currents into the terminals on the reference node (record convention: into the terminal).
         if (t.out === refNode) terms.push({ kind: 'terminal', element: i, terminal: 0, weight: 1 });
-        if (isBipolar(t.tech)) {
+        if (isBipolar(t.tech) || t.element.kind === 'J') {
           if (t.ctrl === refNode) terms.push({ kind: 'terminal', element: i, terminal: 1, weight: 1 });
           if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
         } else if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
@@ -59,7 +59,7 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
         const i = indexOf.get(name);
         if (i === undefined) continue;
         const el = circuit.elements[i];
-        if (el.nodes.length < 2 || el.kind === 'Q' || el.kind === 'M') continue;
+        if (el.nodes.length < 2 || el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') continue;
         const w = el.nodes[0] === refNode ? 1 : el.nodes[1] === refNode ? -1 : 0;
         if (w === 0) continue;
         terms.push(el.kind === 'D' ? { kind: 'terminal', element: i, terminal: 0, weight: w } : { kind: 'element', element: i, weight: w });

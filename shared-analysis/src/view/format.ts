@@ -11,6 +11,7 @@
 //   saturation", "8.8 % below the estimate", never "−0.236 V short of the edge".
 // The finding messages keep their own rules (checks/, fixes/format.ts); this module is for the view.
 
+import { technologyFacts } from '../structures/technology';
 import { belowFloor, formatEngineering, formatPercent as signedPercentText } from '../fixes/format';
 
 const MINUS = '\u2212';
@@ -85,19 +86,30 @@ export function formatRange(a: number, b: number, unit: string): string {
   return l === h ? l : `${l} to ${h}`;
 }
 
-/** The region a transistor enters when it leaves its active region: saturation for a BJT, triode for a MOSFET. */
-export function regionBeyondEdge(technology: 'npn' | 'pnp' | 'nmos' | 'pmos'): string {
-  return technology === 'npn' || technology === 'pnp' ? 'saturation' : 'triode';
+/**
+ * The region a transistor enters when it leaves its active region, as the view says it after "into",
+ * "clear of" and "the edge of": saturation for a BJT, triode for a MOSFET, the linear region for a JFET
+ * (the engine's own region names, docs/DEVICE-MODELS.md); for a technology the view does not know, its
+ * active region's edge in general words.
+ */
+export function regionBeyondEdge(technology: string): string {
+  return technologyFacts(technology)?.beyondWords ?? 'the region past its active edge';
 }
 
 /**
  * Headroom in words, signed by its meaning: `8.97 V clear of saturation` when the output is inside
  * its active region, `0.236 V into saturation` when it has crossed the edge (a BJT; `triode` for
- * a MOSFET), `at the edge of saturation` within a millivolt.
+ * a MOSFET, `the linear region` for a JFET), `at the edge of saturation` within a millivolt. A
+ * technology the view does not know is said without a region name (`0.2 V inside its active region`).
  */
-export function formatHeadroom(volts: number, technology: 'npn' | 'pnp' | 'nmos' | 'pmos'): string {
-  const beyond = regionBeyondEdge(technology);
+export function formatHeadroom(volts: number, technology: string): string {
   if (!Number.isFinite(volts)) return 'headroom not available';
+  const facts = technologyFacts(technology);
+  if (!facts) {
+    if (Math.abs(volts) < 1e-3) return 'at the edge of its active region';
+    return volts > 0 ? `${formatQuantity(volts, 'V')} inside its active region` : `${formatQuantity(-volts, 'V')} past the edge of its active region`;
+  }
+  const beyond = facts.beyondWords;
   if (Math.abs(volts) < 1e-3) return `at the edge of ${beyond}`;
   return volts > 0 ? `${formatQuantity(volts, 'V')} clear of ${beyond}` : `${formatQuantity(-volts, 'V')} into ${beyond}`;
 }

@@ -142,6 +142,23 @@ RSU vdd n1 2meg
 `,
     },
   ],
+  'jfet-self-biased-source': (['njf', 'pjf'] as const).map((tech) => {
+    // IDSS = 1m × 2² = 4 mA, ID = 1.53 mA by the self-bias quadratic; 1.53 mA × 3.3 kΩ = 5 V leaves the drain 10 V
+    // from its rail, far beyond the |VP| = 2 V edge at every supply and temperature corner (invented values).
+    const up = tech === 'njf';
+    return {
+      tech,
+      text: `Healthy JFET self-biased current source (${tech})
+VCC vcc 0 15
+J1 d g s JX
+RG g ${up ? '0' : 'vcc'} 1meg
+RS s ${up ? '0' : 'vcc'} 500
+RL ${up ? 'vcc d' : 'd 0'} 3.3k
+.model JX ${tech} (VTO=-2 BETA=1m LAMBDA=0.01 VTOTC=-2m)
+.end
+`,
+    };
+  }),
   'wide-swing-cascode': (['nmos', 'pmos'] as const).map((tech) => {
     const up = tech === 'nmos';
     const rail = up ? '0' : 'vdd';

@@ -252,6 +252,25 @@ describe('hover on the newer device kinds', () => {
       numbers: [{ label: 'ID', unit: 'A', value: 4.4e-3, tol: 1e-3 }],
     });
   });
+  it('says a JFET past VDS = VGS − VP is in its linear region, as the engine names it, never in triode', () => {
+    // Source: docs/DEVICE-MODELS.md JFET law. With the gate at 0 V and the source at 0 V, VGS − VTO = 2 V; the 10 V supply through
+    // 20 kΩ cannot keep VDS ≥ 2 V at any current near IDSS = 4 mA, so J1 sits in the linear region (Ohm's law: 4 mA × 20 kΩ = 80 V ≫ 10 V).
+    const md = check(`JFET in its linear region\nVD vdd 0 10\nRD vdd d 20k\nJ|1 d 0 0 JN\n.model JN NJF (VTO=-2 BETA=1m)\n.end\n`, {
+      contains: [/\*\*linear\*\*/, /V into the linear region/],
+    });
+    expect(md).not.toMatch(/triode/);
+  });
+  it('words a JFET self-biased source pushed out of saturation in the linear region, in its hover and its finding', () => {
+    // IDSS = 1m × 2² = 4 mA, RS = 500 Ω: ID = 1.53 mA by the self-bias quadratic (Boylestad and Nashelsky, ch. 7, from memory);
+    // 1.53 mA × 9.1 kΩ = 13.9 V leaves the drain 1.1 V above ground, under the 2 V edge V(gate) − VP.
+    const text = `JFET source too heavily loaded\nVCC vcc 0 15\nJ1 d 0 s JN\nRS s 0 500\nRL vcc d 9.1k\n.model JN NJF (VTO=-2 BETA=1m)\n.end\n`;
+    const md = check(mark(text, 'J1 d', 1), { contains: [/into the linear region/, /JFET self-biased current source/] });
+    expect(md).not.toMatch(/triode/);
+    const a = analyseText(text);
+    const f = a.findings.find((x) => x.code === 'mirror-output-out-of-region');
+    expect(f?.message).toMatch(/J1 .*is in the linear region at the operating point: VDS is [0-9.]+ m?V below VGS − VP/);
+    expect(f?.message).not.toMatch(/triode/);
+  });
   it('shows a diode’s dynamic resistance', () => {
     // Source: rd = N·VT/ID for the ideal diode law (common practice): about 25.9 mV/1 mA ≈ 25.9 Ω at 27 °C.
     check(`Diode hover\nI1 0 a 1m\nD|1 a 0 DN\n.model DN D (IS=1e-14)\n.end\n`, {

@@ -100,6 +100,37 @@ RBIG vcc 0 10k
     });
   });
 
+  it('sweeps a P-channel JFET self-biased source, with the linear region beyond V(gate) − VP and the solved current on the curve', () => {
+    // IDSS = 1m × 2² = 4 mA, RS = 500 Ω: the self-bias quadratic (Boylestad and Nashelsky, ch. 7, from memory).
+    const text = `P-channel JFET current source
+VCC vcc 0 DC 15
+J1 d vcc s JP
+RS vcc s 500
+RL d 0 3.3k
+.model JP PJF (VTO=-2 BETA=1m LAMBDA=0.01)
+.end
+`;
+    check(text, 'J1', 61, (r, analysis) => {
+      expect(r.technology).toBe('pjf');
+      expect(r.activeSide).toBe('below');
+      expect(r.title).toBe('Self-biased JFET output J1 of the JFET self-biased current source on J1 (P-channel JFET)');
+      // docs/DEVICE-MODELS.md: saturation while VSD ≥ VSG + VP, i.e. V(d) ≤ V(gate) + VP = 15 − 2 = 13 V.
+      expect(Math.abs(r.edgeV - 13)).toBeLessThan(0.05);
+      const rec = analysis.operatingPoint!.devices.J1;
+      expect(r.operatingI).toBe(rec.type === 'jfet' ? -rec.id : NaN);
+      // The self-bias quadratic computed here with IDSS·(1 + λ·VSD) at the solved drain: ID = 2·IDSS/((2k + 1) + sqrt(4k + 1)), k = IDSS·RS/|VP|.
+      const n = analysis.operatingPoint!.nodes;
+      const idss = 4e-3 * (1 + 0.01 * (n.s - n.d));
+      const k = (idss * 500) / 2;
+      expect(relErr(r.operatingI!, (2 * idss) / (2 * k + 1 + Math.sqrt(4 * k + 1)))).toBeLessThan(1e-6);
+      // Where the drain sits well inside saturation the curve carries the solved current within λ's slope.
+      const at = (v: number) => r.points.reduce((b, p) => (Math.abs(p.v - v) < Math.abs(b.v - v) ? p : b)).i;
+      expect(relErr(at(5), r.operatingI!)).toBeLessThan(0.03);
+      // Past the edge (the linear region) the current falls away.
+      expect(at(14.5)).toBeLessThan(0.8 * r.operatingI!);
+    });
+  });
+
   it('marks the reversed current of an NPN output driven below its emitter rail', () => {
     // Emitters on a −5 V rail; sweeping the collector down to −5 V and the base node above it forward-biases
     // the collector-base junction hard, which drives current out of the collector (reverse of a sink's).

@@ -37,7 +37,7 @@ describe('zero in display text', () => {
   });
 });
 
-import { formatDifference, formatHeadroom, formatRange, formatShare, formatSignedQuantity, formatTargetState } from '../../../shared-analysis/src/view/format';
+import { formatDifference, formatHeadroom, formatRange, regionBeyondEdge, formatShare, formatSignedQuantity, formatTargetState } from '../../../shared-analysis/src/view/format';
 
 describe('the view formatting rules (shared-analysis/src/view/format.ts)', () => {
   it('keeps three significant figures with SI prefixes, as engineering notation does (IEC 80000-1 prefixes)', () => {
@@ -66,6 +66,18 @@ describe('the view formatting rules (shared-analysis/src/view/format.ts)', () =>
     expect(formatHeadroom(8.97, 'pnp')).toBe('8.97 V clear of saturation');
     expect(formatHeadroom(0.0004, 'nmos')).toBe('at the edge of triode');
     for (const h of [-5, -0.3, -0.01, 0.01, 3]) expect(formatHeadroom(h, 'npn')).not.toMatch(/[−-]|short of/);
+    // A JFET past VDS = VGS − VP is in its linear region, the engine's own name for it (docs/DEVICE-MODELS.md), never "triode".
+    expect(formatHeadroom(-0.3, 'njf')).toBe('0.3 V into the linear region');
+    expect(formatHeadroom(2, 'pjf')).toBe('2 V clear of the linear region');
+    expect(formatHeadroom(0.0002, 'njf')).toBe('at the edge of the linear region');
+    expect(regionBeyondEdge('pjf')).toBe('the linear region');
+    expect(regionBeyondEdge('npn')).toBe('saturation');
+    expect(regionBeyondEdge('nmos')).toBe('triode');
+    // A technology the view does not know (a structure read back from a newer engine's JSON) gets no region name it might have wrong.
+    expect(formatHeadroom(-0.3, 'igbt')).toBe('0.3 V past the edge of its active region');
+    expect(formatHeadroom(1.5, 'igbt')).toBe('1.5 V inside its active region');
+    expect(formatHeadroom(0, 'igbt')).toBe('at the edge of its active region');
+    expect(regionBeyondEdge('igbt')).not.toMatch(/saturation|triode|linear/);
     // (501 − 549)/549 = −8.74 % (arithmetic in the test).
     expect(formatDifference(549e-6, 501e-6)).toBe('8.7 % below the estimate');
     expect(formatDifference(100e-6, 103.1e-6)).toBe('3.1 % above the estimate');

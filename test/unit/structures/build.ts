@@ -128,6 +128,12 @@ export class CircuitBuilder {
     return this;
   }
 
+  /** A junction FET: drain, gate, source (`o.area` and `o.m` as on the card). */
+  jfet(name: string, d: string, g: string, s: string, model: string, o: { area?: number; m?: number } = {}): this {
+    this.elements.push({ kind: 'J', name, nodes: [this.node(d), this.node(g), this.node(s)], model: this.getModel(model), area: o.area ?? 1, m: o.m ?? 1, origin: this.origin(name) });
+    return this;
+  }
+
   build(): Circuit {
     return {
       title: 'structure test',

@@ -19,7 +19,8 @@ describe('structure catalogue', () => {
     // beta multiplier are Widlar pairs whose output returns to their reference; a degenerated mirror's
     // outputs look like Widlar outputs of a reference on X1; a Widlar source is a simple mirror whose
     // every output is degenerated; a diode-referenced source's string of diode-connected devices would
-    // otherwise leave its lower device as a lone diode.
+    // otherwise leave its lower device as a lone diode. The JFET self-biased source shares no device with a
+    // mirror (it is tried only on JFETs), so its place among the single-device sources is free.
     expect(KINDS.map((k) => k.id)).toEqual([
       'wide-swing-cascode',
       'cascode-mirror',
@@ -34,6 +35,7 @@ describe('structure catalogue', () => {
       'widlar-source',
       'diode-referenced-source',
       'regulated-source',
+      'jfet-self-biased-source',
       'simple-mirror',
     ]);
   });

@@ -250,9 +250,9 @@ export function recordIsOff(rec: DeviceRecord | undefined): boolean {
   return false;
 }
 
-/** A base or gate connection (a MOS gate carries no current; a base current is a side load, not the branch's current). */
+/** A base or gate connection (a MOS gate carries no current, a JFET gate only its junctions' leakage; a base current is a side load, not the branch's current). */
 function isControl(a: Attachment): boolean {
-  return (a.element.kind === 'Q' || a.element.kind === 'M') && a.slot === 1;
+  return (a.element.kind === 'Q' || a.element.kind === 'M' || a.element.kind === 'J') && a.slot === 1;
 }
 
 /** The node at the other end of a series element entered through `a`, or undefined when it does not pass current through. */

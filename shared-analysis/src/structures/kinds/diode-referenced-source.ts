@@ -7,7 +7,7 @@ import { isAtTemperature, thresholdWithBody } from '../formulas';
 import { solveRising, type Chain, type ChainResult, type Hand } from '../hand';
 import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
-import type { Transistor } from '../topology';
+import { polaritySign, type Transistor } from '../topology';
 import type { StructureRole } from '../types';
 import { commonEmitterRo } from './common';
 
@@ -52,7 +52,7 @@ function recognise(m: Matcher, t: Transistor): Draft | undefined {
   const re = reSole.element;
   const rail = re.nodes[0] === e ? re.nodes[1] : re.nodes[0];
   if (!m.rails.has(rail) || rail === b) return undefined;
-  const sign = t.tech === 'npn' || t.tech === 'nmos' ? 1 : -1;
+  const sign = polaritySign(t.tech);
   // Distinct elements on B besides Q (a diode-connected transistor is attached there twice).
   const others = [...new Set(m.topo.conducting(b).filter((a) => a.element !== t.element).map((a) => a.element))];
   for (const first of others) {
