@@ -39,6 +39,7 @@ import { main } from '../../server/src/cli';
 import { addCorners, analyseSession } from '../../shared-analysis/src/service';
 import { sizingFixes, sizingRequest } from '../../shared-analysis/src/fixes/index';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import { SparseLU } from '../../shared-analysis/src/solve/sparse-lu';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 
 const IS = 1e-15;
@@ -174,6 +175,187 @@ function reference(elements: number): { ms: number; iterations: number; check: n
   return { ms: cpuMs() - t0, iterations, check: [nominal[0], nominal[1], ...check] };
 }
 
+/**
+ * The second reference: the whole circuit as one MNA system (the supply node, every cell's two nodes
+ * and the source's branch current), factored by the project's own sparse LU (`SparseLU`: ordering
+ * and symbolic analysis once, a numeric refactorisation every Newton iteration), with the device
+ * state in typed arrays and each stamp's matrix slot worked out once. Same device equations,
+ * limiting, convergence test and warm-started corners as the block reference; what it adds is the
+ * general linear algebra a solver of any netlist needs, and none of the engine's generality (no
+ * device tables per kind, no equilibration, no gmin or source stepping, no operating-point record).
+ */
+function referenceMnaSolver(cells: number): (x: Float64Array, cond: { supply: number; tC: number; beta: number }) => number {
+  // Unknowns: 0 = vcc, 1 + 2c = r of cell c, 2 + 2c = o of cell c, n − 1 = the source's branch current.
+  const n = 2 * cells + 2;
+  const branch = n - 1;
+  const rows: number[] = [];
+  const cols: number[] = [];
+  const slotOf = new Map<number, number>();
+  const slot = (r: number, c: number): number => {
+    const key = r * n + c;
+    let k = slotOf.get(key);
+    if (k === undefined) {
+      k = rows.length;
+      slotOf.set(key, k);
+      rows.push(r);
+      cols.push(c);
+    }
+    return k;
+  };
+  // Resistors and the source: constant entries, stamped once into `linear`.
+  const linearSlots: number[] = [];
+  const linearValues: number[] = [];
+  const stamp = (r: number, c: number, g: number) => {
+    linearSlots.push(slot(r, c));
+    linearValues.push(g);
+  };
+  for (let c = 0; c < cells; c++) {
+    const r = 1 + 2 * c;
+    const o = 2 + 2 * c;
+    for (const [a, g] of [[r, 1 / rr(c)], [o, 1 / rl(c)]] as const) {
+      stamp(0, 0, g);
+      stamp(a, a, g);
+      stamp(0, a, -g);
+      stamp(a, 0, -g);
+    }
+  }
+  stamp(0, branch, 1);
+  stamp(branch, 0, 1);
+  // BJTs (emitter on ground): collector and base unknowns, and the slots of the collector and base rows.
+  const devices = 2 * cells;
+  const col = new Int32Array(devices);
+  const base = new Int32Array(devices);
+  const sCB = new Int32Array(devices);
+  const sCC = new Int32Array(devices);
+  const sBB = new Int32Array(devices);
+  const sBC = new Int32Array(devices);
+  for (let c = 0; c < cells; c++) {
+    const r = 1 + 2 * c;
+    const o = 2 + 2 * c;
+    // QR: collector and base on r (diode-connected). QO: collector on o, base on r.
+    col[2 * c] = r;
+    base[2 * c] = r;
+    col[2 * c + 1] = o;
+    base[2 * c + 1] = r;
+  }
+  for (let d = 0; d < devices; d++) {
+    sCB[d] = slot(col[d], base[d]);
+    sCC[d] = slot(col[d], col[d]);
+    sBB[d] = slot(base[d], base[d]);
+    sBC[d] = slot(base[d], col[d]);
+  }
+  const lu = new SparseLU({ n, rows: Int32Array.from(rows), cols: Int32Array.from(cols) });
+  const linear = new Float64Array(rows.length);
+  for (let k = 0; k < linearSlots.length; k++) linear[linearSlots[k]] += linearValues[k];
+  const values = new Float64Array(rows.length);
+  const rhs = new Float64Array(n);
+  const next = new Float64Array(n);
+  const vbeOld = new Float64Array(devices);
+  const vbcOld = new Float64Array(devices);
+
+  return (x, cond) => {
+    const T = cond.tC + 273.15;
+    const Tn = 27 + 273.15;
+    const vt = K_OVER_Q * T;
+    const is = IS * Math.pow(T / Tn, 3) * Math.exp((EG / (K_OVER_Q * Tn) - EG / vt) * 1);
+    const bf = BF * cond.beta;
+    const br = BR * cond.beta;
+    const vcrit = vt * Math.log(vt / (Math.SQRT2 * is));
+    for (let d = 0; d < devices; d++) {
+      vbeOld[d] = x[base[d]];
+      vbcOld[d] = x[base[d]] - x[col[d]];
+    }
+    let it = 0;
+    let moving = true;
+    while (moving && it < 150) {
+      it++;
+      values.set(linear);
+      rhs.fill(0);
+      rhs[branch] = VCC * cond.supply;
+      const limited = stampBjts(devices, x, col, base, sCB, sCC, sBB, sBC, vbeOld, vbcOld, values, rhs, vt, is, bf, br, vcrit);
+      const f = lu.factor(values);
+      if (!f.ok) throw new Error(`reference MNA: singular at ${f.singularIndex}`);
+      lu.solve(rhs, next);
+      moving = limited;
+      for (let k = 0; k < n; k++) {
+        if (k !== branch && Math.abs(next[k] - x[k]) > 1e-9 + 1e-9 * Math.abs(next[k])) moving = true;
+        x[k] = next[k];
+      }
+    }
+    return it;
+  };
+}
+
+/** One Newton iteration's BJT stamps (emitters on ground) into `values` and `rhs`; true when a junction was limited. */
+function stampBjts(
+  devices: number, x: Float64Array, col: Int32Array, base: Int32Array, sCB: Int32Array, sCC: Int32Array, sBB: Int32Array, sBC: Int32Array,
+  vbeOld: Float64Array, vbcOld: Float64Array, values: Float64Array, rhs: Float64Array, vt: number, is: number, bf: number, br: number, vcrit: number,
+): boolean {
+  let limited = false;
+  for (let d = 0; d < devices; d++) {
+    const vb = x[base[d]];
+    const vc = x[col[d]];
+    let vbe = vb;
+    let vbc = vb - vc;
+    // The logarithmic junction limit, as in the block reference.
+    if (vbe > vcrit && Math.abs(vbe - vbeOld[d]) > 2 * vt) {
+      const vold = vbeOld[d];
+      if (vold > 0) {
+        const arg = 1 + (vbe - vold) / vt;
+        vbe = arg > 0 ? vold + vt * Math.log(arg) : vcrit;
+      } else vbe = vt * Math.log(vbe / vt);
+      limited = true;
+    }
+    if (vbc > vcrit && Math.abs(vbc - vbcOld[d]) > 2 * vt) {
+      const vold = vbcOld[d];
+      if (vold > 0) {
+        const arg = 1 + (vbc - vold) / vt;
+        vbc = arg > 0 ? vold + vt * Math.log(arg) : vcrit;
+      } else vbc = vt * Math.log(vbc / vt);
+      limited = true;
+    }
+    vbeOld[d] = vbe;
+    vbcOld[d] = vbc;
+    const ebe = Math.exp(vbe / vt);
+    const ibe = is * (ebe - 1);
+    const gbe = (is * ebe) / vt;
+    const ebc = Math.exp(vbc / vt);
+    const ibc = is * (ebc - 1);
+    const gbc = (is * ebc) / vt;
+    const early = 1 - vbc / VAF;
+    const ic = (ibe - ibc) * early - ibc / br - GMIN * vbc;
+    const ib = ibe / bf + ibc / br + GMIN * vbe + GMIN * vbc;
+    const cBe = gbe * early;
+    const cBc = -gbc * early - (ibe - ibc) / VAF - gbc / br - GMIN;
+    const bBe = gbe / bf + GMIN;
+    const bBc = gbc / br + GMIN;
+    // VBE = V(b), VBC = V(b) − V(c): d/dV(b) = d/dVBE + d/dVBC, d/dV(c) = −d/dVBC.
+    values[sCB[d]] += cBe + cBc;
+    values[sCC[d]] -= cBc;
+    values[sBB[d]] += bBe + bBc;
+    values[sBC[d]] -= bBc;
+    rhs[col[d]] -= ic - cBe * vbe - cBc * vbc;
+    rhs[base[d]] -= ib - bBe * vbe - bBc * vbc;
+  }
+  return limited;
+}
+
+function referenceMna(elements: number): { ms: number; iterations: number; check: number[] } {
+  const cells = elements / 4;
+  const t0 = cpuMs();
+  const solve = referenceMnaSolver(cells);
+  const nominal = new Float64Array(2 * cells + 2);
+  let iterations = solve(nominal, { supply: 1, tC: 27, beta: 1 });
+  const x = new Float64Array(nominal.length);
+  let check: number[] = [];
+  for (const c of corners()) {
+    x.set(nominal);
+    iterations += solve(x, c);
+    if (c.supply === 1.05 && c.tC === 125 && c.beta === 2) check = [x[1], x[2]];
+  }
+  return { ms: cpuMs() - t0, iterations, check: [nominal[1], nominal[2], ...check] };
+}
+
 function child(args: string[]): void {
   const [what, file] = args;
   const text = readFileSync(file, 'utf8');
@@ -187,7 +369,8 @@ function child(args: string[]): void {
     });
     out = { ms: cpuMs() - t0, bytes };
   } else if (what === 'engine') {
-    const session = analyseSession({ uri: file, text }, new MemoryWorkspace({ [file]: text }), { corners: { enabled: false } });
+    // The spread analysis (adjoint sensitivities) is left out: addCorners would add it, and neither reference does it.
+    const session = analyseSession({ uri: file, text }, new MemoryWorkspace({ [file]: text }), { corners: { enabled: false }, variation: { enabled: false } });
     const circuit = session.analysis.circuit!;
     const t0 = cpuMs();
     const solver = new DcSolver(circuit);
@@ -223,6 +406,8 @@ function child(args: string[]): void {
     out = { ms, missed: requests.length, fixed };
   } else if (what === 'reference') {
     out = reference(elements);
+  } else if (what === 'reference-lu') {
+    out = referenceMna(elements);
   }
   out.maxRssMB = process.resourceUsage().maxRSS / 1024;
   process.stderr.write(`@@${JSON.stringify(out)}\n`);
@@ -241,7 +426,9 @@ function bench(): void {
   const sizes = (process.env.QPOINT_ARRAY_BENCH_SIZES ?? '2000,20000,100000').split(',').map(Number);
   const dir = mkdtempSync(join(tmpdir(), 'qpoint-array-bench-'));
   console.log(`load average before: ${loadavg().map((x) => x.toFixed(2)).join(' ')}; node ${process.version}`);
-  console.log('elements | cli (corners) | peak RSS | JSON | cli --no-corners | engine solve+corners | reference loop | engine ÷ reference | nominal V(o0) engine / reference | hot corner V(o0)');
+  console.log(
+    'elements | cli (corners) | peak RSS | JSON | cli --no-corners | engine solve+corners | MNA + sparse LU reference | engine ÷ MNA reference | 2×2 block floor | engine ÷ block floor | nominal V(o0) engine / MNA / block | hot corner V(o0) engine / MNA / block',
+  );
   const rows: { elements: number; cli: number; engine: number }[] = [];
   for (const n of sizes) {
     const file = join(dir, `sink${n}.cir`);
@@ -250,6 +437,7 @@ function bench(): void {
     const nc = runChild('cli-nc', file, n);
     const engine = runChild('engine', file, n) as unknown as { ms: number; check: number[] };
     const ref = runChild('reference', file, n) as unknown as { ms: number; check: number[]; iterations: number };
+    const mna = runChild('reference-lu', file, n) as unknown as { ms: number; check: number[]; iterations: number };
     rows.push({ elements: n, cli: cli.ms, engine: engine.ms });
     console.log(
       [
@@ -259,10 +447,12 @@ function bench(): void {
         `${(Number(cli.bytes) / 1e6).toFixed(1)} MB`,
         fmt(nc.ms),
         fmt(engine.ms),
+        fmt(mna.ms),
+        `${(engine.ms / mna.ms).toFixed(2)}×`,
         fmt(ref.ms),
         `${(engine.ms / ref.ms).toFixed(2)}×`,
-        `${engine.check[1].toFixed(9)} / ${ref.check[1].toFixed(9)}`,
-        `${engine.check[4].toFixed(9)} / ${ref.check[3].toFixed(9)}`,
+        `${engine.check[1].toFixed(9)} / ${mna.check[1].toFixed(9)} / ${ref.check[1].toFixed(9)}`,
+        `${engine.check[4].toFixed(9)} / ${mna.check[3].toFixed(9)} / ${ref.check[3].toFixed(9)}`,
       ].join(' | '),
     );
   }
