@@ -59,6 +59,14 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       emit(JSON.stringify(v) ?? 'null');
       return;
     }
+    // A value of modest size holding no JsonEntries (a record, a range, a structure's estimate with
+    // its steps) is written whole by the native writer, re-indented: one call instead of a call per
+    // member. Lists and objects that are large, or hold JsonEntries, are walked.
+    if (small(v)) {
+      const text = JSON.stringify(v, null, step);
+      emit(step && indent ? text.replace(NEWLINES, '\n' + indent) : text);
+      return;
+    }
     if (Array.isArray(v)) {
       if (v.length === 0) {
         emit('[]');
@@ -77,17 +85,8 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       emit(']');
       return;
     }
-    // An object none of whose members is a list or JsonEntries (a record, a range) is small: the
-    // native writer does it whole, re-indented. Lists and JsonEntries, which can be as long as the
-    // netlist, and the objects holding them are walked.
     const o = v as Record<string, unknown>;
-    const keys = Object.keys(o);
-    if (keys.some((k) => Array.isArray(o[k]) || o[k] instanceof JsonEntries)) {
-      putObject(members(o, keys), indent);
-      return;
-    }
-    const text = JSON.stringify(v, null, step);
-    emit(step ? text.replace(/\n/g, '\n' + indent) : text);
+    putObject(members(o, Object.keys(o)), indent);
   };
 
   const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
@@ -110,6 +109,48 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
 
   put(value, '');
   flush();
+}
+
+const NEWLINES = /\n/g;
+
+/** Values (numbers, strings, members, items) a subtree may hold and still be written by one native call. */
+const SMALL_BUDGET = 4096;
+
+/**
+ * Whether `v` holds at most `SMALL_BUDGET` values and no `JsonEntries` anywhere: a bounded walk
+ * that stops as soon as the answer is no. Members read through a getter are read here too, as the
+ * native writer would read them.
+ */
+function small(v: object): boolean {
+  let budget = SMALL_BUDGET;
+  const stack: object[] = [v];
+  while (stack.length > 0) {
+    const o = stack.pop()!;
+    if (o instanceof JsonEntries) return false;
+    if (Array.isArray(o)) {
+      budget -= o.length + 1;
+      if (budget < 0) return false;
+      for (let i = 0; i < o.length; i++) {
+        const item: unknown = o[i];
+        if (item !== null && typeof item === 'object') stack.push(item);
+      }
+      continue;
+    }
+    if (ArrayBuffer.isView(o)) {
+      // The native writer writes a typed array as an object of its indices.
+      budget -= (o as unknown as ArrayLike<unknown>).length ?? 0;
+      if (budget < 0) return false;
+      continue;
+    }
+    for (const k in o) {
+      if (!Object.prototype.hasOwnProperty.call(o, k)) continue;
+      if (--budget < 0) return false;
+      const item: unknown = (o as Record<string, unknown>)[k];
+      if (item !== null && typeof item === 'object') stack.push(item);
+    }
+    budget--;
+  }
+  return true;
 }
 
 function* members(o: Record<string, unknown>, keys: string[]): Iterable<readonly [string, unknown]> {

@@ -36,39 +36,74 @@ export function clampFindingSpans(findings: Finding[], documents: Record<string,
 const MAX_PATHS_NAMED = 5;
 
 /**
+ * Objects with a table built on first read (an operating point's `nodes` and `devices`, a
+ * structure's `corners`: solve/point.ts, structures/corner-columns.ts), registered where the
+ * getter is defined so the finiteness walk asks for property descriptors only on them.
+ */
+const lazyHolders = new WeakSet<object>();
+
+/** Registers `o` as holding a property read through a getter (see `dropNonFinite`). */
+export function markLazyTables(o: object): void {
+  lazyHolders.add(o);
+}
+
+/**
  * Removes every number that is not finite from `value` (a property is deleted, an array element
  * dropped; typed arrays are left alone, they never leave as JSON, and so are properties read through
- * a getter, the engine's lazily built tables) and returns the paths removed.
- * Walks each object once; linear in the size of the data.
+ * a getter of an object registered with `markLazyTables`, the engine's lazily built tables) and
+ * returns the paths removed. Walks each object once; linear in the size of the data. A path is
+ * written only for what is removed: the walk keeps the keys it is under, not their text.
  */
 export function dropNonFinite(value: unknown, path: string, removed: string[], seen = new Set<object>()): void {
+  walkFinite(value, path, [], removed, seen);
+}
+
+/** The path of `keys` under `root`: `root[3].name`. */
+function pathOf(root: string, keys: readonly (string | number)[], last: string | number): string {
+  let p = root;
+  for (const k of keys) p += typeof k === 'number' ? `[${k}]` : `.${k}`;
+  return p + (typeof last === 'number' ? `[${last}]` : `.${last}`);
+}
+
+function walkFinite(value: unknown, root: string, keys: (string | number)[], removed: string[], seen: Set<object>): void {
   if (value === null || typeof value !== 'object' || seen.has(value) || ArrayBuffer.isView(value)) return;
   seen.add(value);
   if (Array.isArray(value)) {
     let kept = 0;
     for (let i = 0; i < value.length; i++) {
       const v: unknown = value[i];
-      if (typeof v === 'number' && !Number.isFinite(v)) {
-        removed.push(`${path}[${i}]`);
-        continue;
+      if (typeof v === 'number') {
+        if (!Number.isFinite(v)) {
+          removed.push(pathOf(root, keys, i));
+          continue;
+        }
+      } else if (v !== null && typeof v === 'object') {
+        keys.push(i);
+        walkFinite(v, root, keys, removed, seen);
+        keys.pop();
       }
-      dropNonFinite(v, `${path}[${i}]`, removed, seen);
       value[kept++] = v;
     }
     value.length = kept;
     return;
   }
   const record = value as Record<string, unknown>;
+  const lazy = lazyHolders.has(record);
   for (const key of Object.keys(record)) {
-    // A table built on first read (an operating point's `nodes` and `devices`, a structure's
-    // `corners`: solve/point.ts, structures/corner-columns.ts) is finite by construction, clamped
-    // where it is built; reading it here would build it for nothing.
-    if (Object.getOwnPropertyDescriptor(record, key)?.get) continue;
+    // A table built on first read is finite by construction, clamped where it is built; reading it
+    // here would build it for nothing.
+    if (lazy && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
     const v = record[key];
-    if (typeof v === 'number' && !Number.isFinite(v)) {
-      removed.push(`${path}.${key}`);
-      delete record[key];
-    } else dropNonFinite(v, `${path}.${key}`, removed, seen);
+    if (typeof v === 'number') {
+      if (!Number.isFinite(v)) {
+        removed.push(pathOf(root, keys, key));
+        delete record[key];
+      }
+    } else if (v !== null && typeof v === 'object') {
+      keys.push(key);
+      walkFinite(v, root, keys, removed, seen);
+      keys.pop();
+    }
   }
 }
 

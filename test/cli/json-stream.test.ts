@@ -40,6 +40,19 @@ describe('writeJson', () => {
     expect(written(doc).text).toBe(JSON.stringify(doc));
   });
 
+  it('writes large lists of records, records holding JsonEntries deep down, and typed arrays as JSON.stringify does', () => {
+    // Small subtrees go to the native writer whole, large ones and those holding JsonEntries are walked:
+    // the text must not depend on which.
+    const deep = new JsonEntries(() => [['q', [1, 2, { r: 'µ−' }]]]);
+    const doc = {
+      rows: Array.from({ length: 3000 }, (_, i) => ({ name: `R${i}`, steps: [{ v: i / 7, s: 'a\nb' }], tags: i % 2 ? [] : ['x'] })),
+      small: { a: { b: { c: [deep] } } },
+      typed: { f: new Float64Array([1.5, -2]) },
+      wide: Object.fromEntries(Array.from({ length: 5000 }, (_, i) => [`k${i}`, { v: i }])),
+    };
+    for (const indent of [0, 2]) expect(written(doc, indent).text).toBe(JSON.stringify(doc, null, indent));
+  });
+
   it('hands a long document over in pieces, never as one string', () => {
     const rows = new JsonEntries(function* () {
       for (let i = 0; i < 50000; i++) yield [`R${i}`, { type: 'resistor', current: i * 1e-6, voltage: 1, power: i * 1e-6 }];

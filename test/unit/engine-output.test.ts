@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 import { analyse, analyseSession, attachAllSizingFixes, sizingFixesOf } from '../../shared-analysis/src/service';
 import { parse } from '../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
-import { clampSpan, dropNonFinite, keepFinite } from '../../shared-analysis/src/output-guard';
+import { clampSpan, dropNonFinite, keepFinite, markLazyTables } from '../../shared-analysis/src/output-guard';
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 
@@ -88,6 +88,26 @@ describe('finite numbers only', () => {
     // Afterwards the data survives a JSON round trip unchanged.
     expect(JSON.parse(JSON.stringify(structures))).toEqual(structures);
     expect(keepFinite(findings, { structures }, URI)).toBeUndefined();
+  });
+
+  it('leaves a registered table read through a getter unread, and walks the rest of its holder', () => {
+    // The engine's lazily built tables (solve/point.ts, structures/corner-columns.ts) are registered
+    // with markLazyTables; the walk must neither build them nor miss a bad number beside them.
+    let reads = 0;
+    const holder: Record<string, unknown> = { bad: NaN, nested: { worse: -Infinity, fine: [1, 2] } };
+    Object.defineProperty(holder, 'table', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
+    markLazyTables(holder);
+    const removed: string[] = [];
+    dropNonFinite([holder], 'root', removed);
+    expect(reads).toBe(0);
+    expect(removed).toEqual(['root[0].bad', 'root[0].nested.worse']);
+    // An object that is not registered is read as a plain object, getter included.
+    const plain: Record<string, unknown> = {};
+    Object.defineProperty(plain, 'table', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
+    const removedPlain: string[] = [];
+    dropNonFinite({ p: plain }, 'p', removedPlain);
+    expect(reads).toBe(1);
+    expect(removedPlain).toEqual(['p.p.table.x']);
   });
 
   it('leaves typed arrays and finite data alone', () => {

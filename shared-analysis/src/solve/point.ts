@@ -2,6 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import type { DeviceRecord, Fallback, OperatingPoint } from './types';
+import { markLazyTables } from '../output-guard';
 
 /**
  * Index-based access to one solved operating point, for code that reads many values of many
@@ -79,6 +80,7 @@ export function lazyPoint(
   });
   Object.defineProperty(op, 'nodes', table('nodes'));
   Object.defineProperty(op, 'devices', table('devices'));
+  markLazyTables(op);
   vectors.set(op, v);
   return op;
 }

@@ -1,6 +1,7 @@
 // A structure's corner results stored column-wise: one typed array per quantity, one entry per corner (and per output).
 
 import { nameTable } from '../names';
+import { markLazyTables } from '../output-guard';
 import type { CornerResult, Structure } from './types';
 
 /**
@@ -51,6 +52,7 @@ export function cornerColumns(s: Structure): CornerColumns | undefined {
  */
 export function setCornerColumns(s: Structure, cols: CornerColumns): void {
   columnsOf.set(s, cols);
+  markLazyTables(s);
   let built: CornerResult[] | undefined;
   Object.defineProperty(s, 'corners', {
     enumerable: true,
