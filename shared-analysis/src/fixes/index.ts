@@ -18,7 +18,8 @@ import { sizeResistorForCurrent, valueEdit, type SizingCandidate, type SizingRes
 import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value';
 import { resistorValueChange, writtenScale } from './value-edit';
 import { headroomFixes, headroomRequest, headroomRequestOf } from './headroom';
-import { regionChanges } from './verify';
+import { regionChanges, resolveWith } from './verify';
+import type { Measurement } from '../structures/measure';
 import { isBipolar } from '../structures/topology';
 import { nameTable } from '../names';
 
@@ -307,11 +308,14 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   // it splits off (its solution there equals the whole circuit's), so a target costs its block's size.
   const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements]) : undefined;
   const verifyOn = block ?? { circuit, solver };
+  // The structure without the change, what each value's verification compares with: solved once, when first needed.
+  let unchanged: { m: Measurement | undefined } | undefined;
+  const before = (): Measurement | undefined => (unchanged ??= { m: structure ? resolveWith(verifyOn.circuit, verifyOn.solver, structure, {}, ctx.options.temperatureC)?.m : undefined }).m;
   for (const o of useful) {
     const c = o.c;
     const change = resistorValueChange(r, documents, c.value);
     if (!change) continue;
-    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element) : { text: '', clean: true };
+    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element, before) : { text: '', clean: true };
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;

@@ -155,8 +155,12 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const measure = (ohms: number): { current: number } | undefined => {
     if (seen.has(ohms)) return seen.get(ohms);
     solves++;
-    const solver = new DcSolver(withResistance(work, workResistor, ohms));
-    const result = solver.solve({ ...baseOptions, initialGuess: warm });
+    // On a block, its kept solver takes the trial value as an override (the prepared matrix and its
+    // factorisation are reused); the whole circuit's solver belongs to the session, so a trial there
+    // gets a solver of its own.
+    const result = local
+      ? local.solver.solve({ ...baseOptions, initialGuess: warm, resistances: { [workResistor.name]: ohms } })
+      : new DcSolver(withResistance(work, workResistor, ohms)).solve({ ...baseOptions, initialGuess: warm });
     const current = result.op.converged ? currentOf(result.op, deviceName) : undefined;
     const out = current === undefined ? undefined : { current };
     seen.set(ohms, out);

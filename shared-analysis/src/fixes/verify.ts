@@ -31,7 +31,9 @@ function outWord(s: Structure): string {
  * or `; Q4 saturates`, with the reason a saturated bipolar output matters to the others (it draws
  * extra base current from the shared line). `clean` is true when, re-solved, every output of the
  * structure is in its active region. `except` is the output the fix is about (its own state is in
- * the title already). Undefined when the circuit does not converge with the change.
+ * the title already). `before` is the structure measured without the change, or a function that
+ * gives it when first needed (a caller verifying several values solves it once); without it, it is
+ * solved here. Undefined when the circuit does not converge with the change.
  */
 export function regionChanges(
   circuit: Circuit,
@@ -40,11 +42,11 @@ export function regionChanges(
   resistances: Record<string, number>,
   temperatureC: number | undefined,
   except?: string,
-  before?: Measurement,
+  before?: Measurement | (() => Measurement | undefined),
 ): { text: string; clean: boolean; after: Resolved } | undefined {
   const after = resolveWith(circuit, solver, s, resistances, temperatureC);
   if (!after) return undefined;
-  const base = before ?? resolveWith(circuit, solver, s, {}, temperatureC)?.m;
+  const base = typeof before === 'function' ? before() : before ?? resolveWith(circuit, solver, s, {}, temperatureC)?.m;
   const parts: string[] = [];
   const exceptLower = except?.toLowerCase();
   for (const o of s.outputs) {
