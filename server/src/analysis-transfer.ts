@@ -3,13 +3,16 @@
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import type { Circuit, Element } from '../../shared-analysis/src/circuit';
 import type { Card, Token } from '../../shared-analysis/src/syntax/ast';
-import type { DeviceRecord } from '../../shared-analysis/src/solve/types';
+import type { DeviceRecord, OperatingPoint } from '../../shared-analysis/src/solve/types';
+import { pointVectors } from '../../shared-analysis/src/solve/point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding } from '../../shared-analysis/src/types';
 import { nameTable } from '../../shared-analysis/src/names';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
 const PART_SIZE = 400;
+/** Node entries per part: a name and a number each, so more fit in the same few milliseconds. */
+const NODE_PART_SIZE = 4000;
 
 /** One slice of the big arrays of an analysis. */
 export type AnalysisPart =
@@ -22,6 +25,8 @@ export type AnalysisPart =
   /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
   | { kind: 'elements'; json: string }
   | { kind: 'devices'; items: [string, DeviceRecord][] }
+  /** Entries of the operating point's node table: names and their volts, in the table's order. */
+  | { kind: 'nodes'; names: string[]; volts: Float64Array }
   | { kind: 'findings'; items: Finding[] }
   | { kind: 'structures'; items: Structure[] };
 
@@ -60,9 +65,23 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
   }
   let operatingPoint = analysis.operatingPoint;
   if (operatingPoint) {
+    // The node table goes in parts too: one table of every node in the header was the longest stall
+    // of the main thread (a structured clone of 50,000 keys). Read from the solver's vectors when the
+    // point has them, so the worker does not build the table for it.
+    const v = pointVectors(operatingPoint);
+    const nodes = v ? [...v.nodeEntries()] : Object.entries(operatingPoint.nodes);
+    for (let i = 0; i < nodes.length; i += NODE_PART_SIZE) {
+      parts.push(() => {
+        const slice = nodes.slice(i, i + NODE_PART_SIZE);
+        return { kind: 'nodes', names: slice.map(([name]) => name), volts: Float64Array.from(slice, ([, volts]) => volts) };
+      });
+    }
     slices(Object.entries(operatingPoint.devices), (items) => ({ kind: 'devices', items }));
-    // The header's copy must not share the emptied map with the analysis the builders read.
-    operatingPoint = { ...operatingPoint, devices: nameTable() };
+    // The header's copy has empty tables (own fields copied without reading the lazily built tables),
+    // and must not share them with the analysis the builders read.
+    const head: Record<string, unknown> = {};
+    for (const [key, d] of Object.entries(Object.getOwnPropertyDescriptors(operatingPoint))) if (key !== 'nodes' && key !== 'devices') head[key] = d.get ? d.get.call(operatingPoint) : d.value;
+    operatingPoint = { ...(head as Omit<OperatingPoint, 'nodes' | 'devices'>), nodes: nameTable(), devices: nameTable() };
   }
   slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   slices(analysis.structures, (items) => ({ kind: 'structures', items }));
@@ -83,6 +102,12 @@ export function mergePart(target: Analysis, part: AnalysisPart): void {
       return;
     case 'devices':
       if (target.operatingPoint) for (const [name, rec] of part.items) target.operatingPoint.devices[name] = rec;
+      return;
+    case 'nodes':
+      if (target.operatingPoint) {
+        const nodes = target.operatingPoint.nodes;
+        part.names.forEach((name, k) => (nodes[name] = part.volts[k]));
+      }
       return;
     case 'findings':
       for (const f of part.items) target.findings.push(f);
