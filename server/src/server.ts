@@ -32,7 +32,8 @@ import {
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { hasSolvedFixes } from '../../shared-analysis/src/fixes/index';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
-import { completionsAt } from '../../shared-analysis/src/features/completion';
+import { completionListAt } from '../../shared-analysis/src/features/completion';
+import { WorkBudget } from '../../shared-analysis/src/features/budget';
 import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { inlayHints } from '../../shared-analysis/src/features/inlay';
@@ -96,6 +97,28 @@ const PROGRESS_AFTER_MS = 500;
 const SUPERSEDED_GRACE_MS = 3000;
 /** Nothing the worker does may take longer than this. */
 const HARD_DEADLINE_MS = 120_000;
+/**
+ * Every editor feature answered on the main thread runs within a work budget: at most this long
+ * (the clock is read every few hundred units of work) ...
+ */
+const FEATURE_DEADLINE_MS = 150;
+/**
+ * ... and at most this many units of work (a card, an instance, a use looked at). Past either the
+ * feature returns what it has, marked partial its own way (an outline entry, an incomplete completion
+ * list, a line in the hover), and a rename refuses rather than rename some uses. The count can be
+ * lowered for tests with QPOINT_FEATURE_BUDGET_UNITS, so a cut is reproducible without timing.
+ */
+const FEATURE_UNITS = Number(process.env['QPOINT_FEATURE_BUDGET_UNITS']) > 0 ? Number(process.env['QPOINT_FEATURE_BUDGET_UNITS']) : 5_000_000;
+
+/** A fresh budget for one editor request. */
+function featureBudget(): WorkBudget {
+  return new WorkBudget(FEATURE_UNITS, FEATURE_DEADLINE_MS);
+}
+
+/** Logs that a feature's answer was cut at its budget (the answer itself says so where the protocol lets it). */
+function noteCut(name: string, uri: string, budget: WorkBudget): void {
+  if (budget.exhausted) log(`The ${name} answer for ${basename(uri)} was cut at the editor's budget (${FEATURE_DEADLINE_MS} ms or ${FEATURE_UNITS.toLocaleString('en-US')} units of work; ${budget.spent.toLocaleString('en-US')} spent).`);
+}
 /**
  * How long a code-action request waits for the worker to size resistors for missed targets.
  * A worker busy with a long analysis answers later; the request then goes without those fixes,
@@ -686,7 +709,9 @@ connection.onHover(
   guard('hover', (params) => {
     const ctx = featureContext(params?.textDocument?.uri);
     if (!ctx) return null;
-    const h = hoverAt(ctx.analysis, params.textDocument.uri, ctx.conv.toOffset(checkPosition(params.position)));
+    const budget = featureBudget();
+    const h = hoverAt(ctx.analysis, params.textDocument.uri, ctx.conv.toOffset(checkPosition(params.position)), budget);
+    noteCut('hover', params.textDocument.uri, budget);
     return h ? toHover(h, ctx.conv) : null;
   }),
 );
@@ -696,7 +721,10 @@ connection.languages.inlayHint.on(
     const ctx = featureContext(params?.textDocument?.uri);
     if (!ctx || !params.range) return [];
     const span = { start: ctx.conv.toOffset(checkPosition(params.range.start)), end: ctx.conv.toOffset(checkPosition(params.range.end)) };
-    return inlayHints(ctx.analysis, params.textDocument.uri, span, settings.inlayDetail, settings.inlayPlacement).map((h) => toInlayHint(h, ctx.conv));
+    const budget = featureBudget();
+    const hints = inlayHints(ctx.analysis, params.textDocument.uri, span, settings.inlayDetail, settings.inlayPlacement, budget);
+    noteCut('inlay hint', params.textDocument.uri, budget);
+    return hints.map((h) => toInlayHint(h, ctx.conv));
   }),
 );
 
@@ -704,7 +732,10 @@ connection.onDocumentSymbol(
   guard('document symbol', (params) => {
     const ctx = featureContext(params?.textDocument?.uri);
     if (!ctx) return [];
-    return documentSymbols(ctx.analysis, params.textDocument.uri).map((s) => toDocumentSymbol(s, ctx.conv));
+    const budget = featureBudget();
+    const symbols = documentSymbols(ctx.analysis, params.textDocument.uri, budget);
+    noteCut('outline', params.textDocument.uri, budget);
+    return symbols.map((s) => toDocumentSymbol(s, ctx.conv));
   }),
 );
 
@@ -721,7 +752,9 @@ connection.onReferences(
     const ctx = featureContext(params?.textDocument?.uri);
     if (!ctx) return [];
     const offset = ctx.conv.toOffset(checkPosition(params.position));
-    const refs = referencesAt(ctx.analysis, params.textDocument.uri, offset, { includeDeclaration: params.context?.includeDeclaration !== false });
+    const budget = featureBudget();
+    const refs = referencesAt(ctx.analysis, params.textDocument.uri, offset, { includeDeclaration: params.context?.includeDeclaration !== false }, budget);
+    noteCut('references', params.textDocument.uri, budget);
     return toLocations(refs, ctx.lookup);
   }),
 );
@@ -746,7 +779,7 @@ connection.onRenameRequest(
     if (doc && ctx.analysis.documents[uri] && doc.text !== ctx.analysis.documents[uri].text) {
       throw new ResponseError(LSPErrorCodes.ContentModified, 'The netlist changed since its last analysis; try the rename again in a moment.');
     }
-    const r = renameAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position)), params.newName.trim());
+    const r = renameAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position)), params.newName.trim(), featureBudget());
     if ('error' in r) throw new ResponseError(ErrorCodes.InvalidRequest, r.error);
     const edit = toWorkspaceEdit(r.edits, ctx.lookup);
     if (!edit) throw new ResponseError(ErrorCodes.InternalError, 'The rename touches a file whose text is not known.');
@@ -767,11 +800,33 @@ connection.onCompletion(
       const cards = doc.text.length <= LIVE_PARSE_LIMIT ? parse(uri, doc.text, { hasTitle: analysed.cards[0]?.kind === 'title' }).cards : [];
       const live = { ...ctx.analysis, documents: { ...ctx.analysis.documents, [uri]: { ...analysed, text: doc.text, cards } } };
       const conv = converters.get(`${uri}#live`, doc.text);
-      return completionsAt(live, uri, conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, conv, canSnippet));
+      const budget = featureBudget();
+      const list = completionListAt(live, uri, conv.toOffset(checkPosition(params.position)), budget);
+      noteCut('completion', uri, budget);
+      const items = list.items.map((c) => toCompletionItem(c, conv, canSnippet));
+      return list.incomplete ? { isIncomplete: true, items } : items;
     }
-    return completionsAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position))).map((c) => toCompletionItem(c, ctx.conv, canSnippet));
+    const budget = featureBudget();
+    const list = completionListAt(ctx.analysis, uri, ctx.conv.toOffset(checkPosition(params.position)), budget);
+    noteCut('completion', uri, budget);
+    const items = list.items.map((c) => toCompletionItem(c, ctx.conv, canSnippet));
+    // A complete answer is a plain list; a partial one says so, and the editor asks again as the word grows.
+    return list.incomplete ? { isIncomplete: true, items } : items;
   }),
 );
+
+/** The first card that starts after `offset` (cards are in text order: a binary search). */
+function cardAfter(doc: Analysis['documents'][string], offset: number): Analysis['documents'][string]['cards'][number] | undefined {
+  const cards = doc.cards;
+  let lo = 0;
+  let hi = cards.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >> 1;
+    if (cards[mid]!.span.start <= offset) lo = mid + 1;
+    else hi = mid;
+  }
+  return cards[lo];
+}
 
 /** Sizing fixes computed on demand, by analysis and finding index (an analysis replaced in the cache takes its entries with it). */
 const sizedFixes = new WeakMap<Analysis, Map<number, Fix[]>>();
@@ -843,10 +898,16 @@ connection.onCodeAction(
     const doc = ctx.analysis.documents[uri];
     const span = ctx.conv.toSpan(params.range);
     const seen = new Set<number>();
+    // A selection can span a whole netlist: the refactors are offered for the lines looked at within the budget.
+    const budget = featureBudget();
     for (let off = span.start; off <= span.end; ) {
+      if (!budget.spend()) {
+        noteCut('code action', uri, budget);
+        break;
+      }
       const card = cardAt(doc, off);
       if (!card) {
-        const nextCard = doc.cards.find((c) => c.span.start > off);
+        const nextCard = cardAfter(doc, off);
         if (!nextCard || nextCard.span.start > span.end) break;
         off = nextCard.span.start;
         continue;

@@ -161,6 +161,7 @@ const SYMBOL_KIND: Record<OutlineKind, SymbolKind> = {
   include: SymbolKind.File,
   section: SymbolKind.Namespace,
   'skipped-block': SymbolKind.String,
+  'cut-short': SymbolKind.Null,
 };
 
 export function toDocumentSymbol(s: OutlineSymbol, conv: PositionConverter): DocumentSymbol {

@@ -63,12 +63,14 @@ export interface StartOptions {
   pullConfiguration?: boolean;
   /** Extra client capabilities, merged over the defaults one level deep (e.g. `{ window: { showMessage: {} } }`). */
   capabilities?: Record<string, Record<string, unknown>>;
+  /** Extra environment variables for the server process. */
+  env?: Record<string, string>;
 }
 
 /** Spawns `node dist/server.js --stdio` and initializes it like an editor would. */
 export async function startServer(options: StartOptions = {}): Promise<ServerSession> {
   if (!existsSync(SERVER)) throw new Error(`Build the server first (npm run build): ${SERVER} is missing.`);
-  const child = spawn(process.execPath, [SERVER, '--stdio'], { stdio: 'pipe' });
+  const child = spawn(process.execPath, [SERVER, '--stdio'], { stdio: 'pipe', ...(options.env ? { env: { ...process.env, ...options.env } } : {}) });
   const stderr: string[] = [];
   child.stderr.on('data', (d) => stderr.push(String(d)));
   const connection = createMessageConnection(new StreamMessageReader(child.stdout), new StreamMessageWriter(child.stdin));

@@ -8,6 +8,7 @@ import { cardAt, scopeAt, type SubcktScope } from './document-index';
 import { DOT_CARDS, ELEMENT_LETTERS, INSTANCE_PARAMETERS, MODEL_PARAMETERS, defaultOf, modelKindOf, modelKindsFor } from './vocabulary';
 import { formatNumber } from '../view/format';
 import { formatNumber as modelNumber } from '../fixes/model-fixes';
+import { UNLIMITED, type WorkBudget } from './budget';
 
 /** What a completion item stands for. */
 export type CompletionKind = 'element' | 'dot-card' | 'model' | 'model-type' | 'model-parameter' | 'instance-parameter' | 'subcircuit' | 'node' | 'parameter';
@@ -29,9 +30,37 @@ export interface CompletionData {
 
 /** Completions at `offset` of `uri`, chosen by the card and field the cursor is in, most likely first. */
 export function completionsAt(analysis: Analysis, uri: string, offset: number): CompletionData[] {
-  const items = offered(analysis, uri, offset);
+  return completionListAt(analysis, uri, offset).items;
+}
+
+/** Items a completion answer carries at most; past it only the items that begin with the word typed are kept, up to this many. */
+export const MAX_COMPLETION_ITEMS = 1000;
+
+/** The budget of the completion in progress (one work unit per card read for node and source names). */
+let spending: WorkBudget = UNLIMITED;
+
+/**
+ * `completionsAt` with a work budget and a bound on the answer's size. `incomplete` when the list
+ * is not every candidate (the budget ran out while names were gathered, or there were more than
+ * MAX_COMPLETION_ITEMS): the editor then asks again as the word grows, and the list narrows to it.
+ */
+export function completionListAt(analysis: Analysis, uri: string, offset: number, budget: WorkBudget = UNLIMITED): { items: CompletionData[]; incomplete: boolean } {
+  spending = budget;
+  let items: CompletionData[];
+  try {
+    items = offered(analysis, uri, offset);
+  } finally {
+    spending = UNLIMITED;
+  }
+  let incomplete = budget.exhausted;
+  if (items.length > MAX_COMPLETION_ITEMS) {
+    incomplete = true;
+    const first = items[0]!.replace;
+    const word = (analysis.documents[uri]?.text.slice(first.start, first.end) ?? '').toLowerCase();
+    items = items.filter((item) => item.label.toLowerCase().startsWith(word)).slice(0, MAX_COMPLETION_ITEMS);
+  }
   items.forEach((item, i) => (item.sortText = String(i).padStart(4, '0')));
-  return items;
+  return { items, incomplete };
 }
 
 function offered(analysis: Analysis, uri: string, offset: number): CompletionData[] {
@@ -319,7 +348,12 @@ function subcktItems(analysis: Analysis, replace: Span): CompletionData[] {
 
 function sourceItems(analysis: Analysis, replace: Span): CompletionData[] {
   const names = new Set<string>();
-  for (const doc of Object.values(analysis.documents)) for (const c of doc.cards) if (c.kind === 'element' && c.letter === 'V') names.add(c.name.text);
+  for (const doc of Object.values(analysis.documents)) {
+    for (const c of doc.cards) {
+      if (!spending.spend()) break;
+      if (c.kind === 'element' && c.letter === 'V') names.add(c.name.text);
+    }
+  }
   return [...names].map((n) => ({ label: n, kind: 'element', detail: 'voltage source whose current controls this element', replace }));
 }
 
@@ -328,6 +362,7 @@ function nodeItems(analysis: Analysis, doc: ParsedDocument, scope: SubcktScope |
   const docs = scope ? [doc] : Object.values(analysis.documents);
   for (const d of docs) {
     for (const c of d.cards) {
+      if (!spending.spend()) break;
       const home = scopeAt(d, c.span.start);
       if (scope ? d !== doc || home !== scope : home !== undefined) continue;
       const toks = c.kind === 'element' ? c.nodes : c.kind === 'subckt' && scope && c === scope.card ? c.ports : [];

@@ -308,9 +308,15 @@ export function terminalNames(el: Element): string[] {
 }
 
 /** The elements and terminals connected to a circuit node. */
-export function connectionsOf(analysis: Analysis, node: number): { element: Element; terminal: string }[] {
-  const list = indexOf(analysis).connections[node] ?? [];
+export function connectionsOf(analysis: Analysis, node: number, limit = Number.POSITIVE_INFINITY): { element: Element; terminal: string }[] {
+  const all = indexOf(analysis).connections[node] ?? [];
+  const list = all.length > limit ? all.slice(0, limit) : all;
   return list.map((c) => ({ element: c.element, terminal: terminalNames(c.element)[c.terminal] ?? `terminal ${c.terminal + 1}` }));
+}
+
+/** How many element terminals are on circuit node `node`. */
+export function connectionCount(analysis: Analysis, node: number): number {
+  return indexOf(analysis).connections[node]?.length ?? 0;
 }
 
 /** All element cards of a document (in order). */

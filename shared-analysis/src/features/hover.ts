@@ -10,6 +10,7 @@ import type { Span } from '../types';
 import {
   cardAt,
   connectionsOf,
+  connectionCount,
   elementsOfCard,
   resolveNodeToken,
   sameToken,
@@ -29,6 +30,7 @@ import { maxOf, minOf, pushAll } from '../arrays';
 import { derivedVoltageLines, outputWords, startupLine } from './structure-words';
 import { spreadText, variationOfElement } from '../variation/text';
 import { recordIsOff } from '../checks/devices/context';
+import { UNLIMITED, type WorkBudget } from './budget';
 
 /** Markdown hover content and the span it describes. */
 export interface HoverResult {
@@ -50,7 +52,25 @@ function includeHover(analysis: Analysis, uri: string, token: { span: { start: n
   return { markdown, span: token.span };
 }
 
-export function hoverAt(analysis: Analysis, uri: string, offset: number): HoverResult | undefined {
+/** The hover of the budget in progress (one work unit per structure looked at for a node's produced voltages). */
+let spending: WorkBudget = UNLIMITED;
+
+/**
+ * The hover at `offset` of `uri`. With a `budget`, a hover whose work grows with the circuit (a
+ * node's voltages produced by structures) stops when it runs out and says so in its last line.
+ */
+export function hoverAt(analysis: Analysis, uri: string, offset: number, budget: WorkBudget = UNLIMITED): HoverResult | undefined {
+  spending = budget;
+  try {
+    const h = hoverWithin(analysis, uri, offset);
+    if (h && budget.exhausted) return { ...h, markdown: `${h.markdown}\n\n_Cut short: this hover stopped at the editor's time budget; parts of it are missing._` };
+    return h;
+  } finally {
+    spending = UNLIMITED;
+  }
+}
+
+function hoverWithin(analysis: Analysis, uri: string, offset: number): HoverResult | undefined {
   const doc = analysis.documents[uri];
   if (!doc || !Number.isFinite(offset) || offset < 0 || offset > doc.text.length) return undefined;
   const card = cardAt(doc, offset);
@@ -477,18 +497,21 @@ function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): H
     const head =
       `Node **${r.name}**${r.node === 0 ? ' (ground)' : ''}: ${v !== undefined ? formatQuantity(v, 'V') : 'not solved'}` +
       (tied ? '\n\nNo DC path to ground: the solver tied this node to ground through 1 TΩ so the rest of the circuit could be solved, so this voltage is arbitrary.' : '');
-    const conns = connectionsOf(analysis, r.node);
-    const shown = conns.slice(0, 12).map((c) => `${c.element.name} (${c.terminal})`);
-    const more = conns.length > shown.length ? `, and ${conns.length - shown.length} more` : '';
+    // Only the connections shown are looked up (a supply node can have tens of thousands).
+    const total = connectionCount(analysis, r.node);
+    const shown = connectionsOf(analysis, r.node, 12).map((c) => `${c.element.name} (${c.terminal})`);
+    const more = total > shown.length ? `, and ${total - shown.length} more` : '';
     // A voltage a structure produces on this node (a bandgap's VBG, a VBE multiplier's voltage) is said here too.
     const produced: string[] = [];
     for (const s of analysis.structures) {
+      if (!spending.spend()) break;
+      if (!s.voltages || s.voltages.length === 0) continue;
       const lines = derivedVoltageLines(s);
       (s.voltages ?? []).forEach((v, k) => {
         if (v.node === r.name) produced.push(`${lines[k]} — from the ${kindName(s.kind)} on ${s.reference.device}`);
       });
     }
-    return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${conns.length === 0 ? 'to nothing' : shown.join(', ') + more}.`;
+    return `${head}${produced.length ? `\n\n${bullet(produced)}` : ''}\n\nConnects ${total === 0 ? 'to nothing' : shown.join(', ') + more}.`;
   });
   if (shown.length < resolved.length) sections.push(restOfInstances(resolved.slice(shown.length), op));
   return { markdown: sections.join('\n\n---\n\n'), span: token.span };

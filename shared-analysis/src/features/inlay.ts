@@ -10,6 +10,7 @@ import { dissipation } from '../checks/devices/power';
 import { recordIsOff } from '../checks/devices/context';
 import { maxOf } from '../arrays';
 import { derivedVoltageLabel } from './structure-words';
+import { UNLIMITED, type WorkBudget } from './budget';
 
 /** How much a label shows. */
 export type InlayDetail = 'off' | 'terse' | 'full';
@@ -41,8 +42,12 @@ export const OUT_OF_REGION_MARK = '◆';
 /** Instances a tooltip lists one by one before it summarises the rest (worst first). */
 const MAX_TOOLTIP_INSTANCES = 64;
 
-/** Labels for the device cards of `uri` that overlap `span`. */
-export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: InlayDetail, placement: InlayPlacement = 'afterCode'): InlayHintData[] {
+/**
+ * Labels for the device cards of `uri` that overlap `span`. One work unit per structure and per
+ * instance labelled; when `budget` runs out the labels of the cards reached so far are returned
+ * (the editor asks again for what it shows next).
+ */
+export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: InlayDetail, placement: InlayPlacement = 'afterCode', budget: WorkBudget = UNLIMITED): InlayHintData[] {
   if (detail === 'off') return [];
   const doc = analysis.documents[uri];
   const op = analysis.operatingPoint;
@@ -59,6 +64,7 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
   }
   // The voltages a structure produces (VBG, a VBE multiplier's voltage) ride on its reference device's label.
   const produced = new Map<string, string>();
+  if (!budget.spend(analysis.structures.length)) return out;
   for (const s of analysis.structures) {
     const label = derivedVoltageLabel(s);
     if (label) produced.set(s.reference.device, label);
@@ -74,7 +80,9 @@ export function inlayHints(analysis: Analysis, uri: string, span: Span, detail: 
     const card = cards[i];
     if (card.span.start > span.end) break;
     if (card.kind !== 'element') continue;
-    const labelled = elementsOfCard(analysis, uri, card)
+    const elements = elementsOfCard(analysis, uri, card);
+    if (!budget.spend(1 + elements.length)) break;
+    const labelled = elements
       .map((el) => ({ el, rec: op.devices[el.name], parts: partsOf(el, detail) }))
       .filter((x): x is { el: Element; rec: DeviceRecord; parts: Part[] } => x.parts !== undefined && x.rec !== undefined);
     if (labelled.length === 0) continue;

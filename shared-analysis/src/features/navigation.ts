@@ -5,6 +5,7 @@ import type { Card, ParsedDocument, Token } from '../syntax/ast';
 import type { Location, Span, TextEdit } from '../types';
 import { cardAt, isGround, sameToken, scopeAt, tokenAt, tokenIndex, type SubcktScope } from './document-index';
 import { identifierAt, parameterUses, resolveParam } from './params';
+import { UNLIMITED, type WorkBudget } from './budget';
 
 /** What the cursor is on, as far as navigation is concerned. */
 type Target =
@@ -111,32 +112,41 @@ export interface ReferenceOptions {
   includeDeclaration: boolean;
 }
 
-/** Every place that names the same node, parameter, model or subcircuit as the cursor, across the analysed documents. */
-export function referencesAt(analysis: Analysis, uri: string, offset: number, options: ReferenceOptions = { includeDeclaration: true }): Location[] {
+/**
+ * Every place that names the same node, parameter, model or subcircuit as the cursor, across the
+ * analysed documents. One work unit per card or use looked at; when `budget` runs out the places
+ * found so far are returned (`budget.exhausted` tells the host the list is partial).
+ */
+export function referencesAt(analysis: Analysis, uri: string, offset: number, options: ReferenceOptions = { includeDeclaration: true }, budget: WorkBudget = UNLIMITED): Location[] {
   const t = targetAt(analysis, uri, offset);
   if (!t) return [];
   switch (t.kind) {
     case 'include':
       return analysis.symbols.includes.filter((i) => i.target === t.target).map((i) => ({ uri: i.uri, span: i.span }));
     case 'node':
-      return nodeReferences(analysis, t.name, t.scope);
+      return nodeReferences(analysis, t.name, t.scope, budget);
     case 'param':
-      return paramReferences(analysis, t.symbol, options.includeDeclaration);
+      return paramReferences(analysis, t.symbol, options.includeDeclaration, budget);
     case 'model':
     case 'subckt':
-      return nameReferences(analysis, t.kind, t.name, options.includeDeclaration);
+      return nameReferences(analysis, t.kind, t.name, options.includeDeclaration, budget);
   }
 }
 
-function forEachDoc(analysis: Analysis, fn: (uri: string, doc: ParsedDocument) => void): void {
-  for (const [uri, doc] of Object.entries(analysis.documents)) fn(uri, doc);
+/** Runs `fn` on each analysed document until the budget is spent. */
+function forEachDoc(analysis: Analysis, budget: WorkBudget, fn: (uri: string, doc: ParsedDocument) => void): void {
+  for (const [uri, doc] of Object.entries(analysis.documents)) {
+    if (budget.exhausted) return;
+    fn(uri, doc);
+  }
 }
 
-function nodeReferences(analysis: Analysis, name: string, scope: ScopeId): Location[] {
+function nodeReferences(analysis: Analysis, name: string, scope: ScopeId, budget: WorkBudget): Location[] {
   const lower = name.toLowerCase();
   const out: Location[] = [];
-  forEachDoc(analysis, (uri, doc) => {
+  forEachDoc(analysis, budget, (uri, doc) => {
     for (const card of doc.cards) {
+      if (!budget.spend()) return;
       for (const tok of nodeTokens(card)) {
         if (tok.text.toLowerCase() !== lower) continue;
         if (!isGround(lower) && scopeId(uri, scopeAt(doc, tok.span.start)) !== scope) continue;
@@ -147,12 +157,14 @@ function nodeReferences(analysis: Analysis, name: string, scope: ScopeId): Locat
   return out;
 }
 
-function paramReferences(analysis: Analysis, sym: ParamSymbol, includeDeclaration: boolean): Location[] {
+function paramReferences(analysis: Analysis, sym: ParamSymbol, includeDeclaration: boolean, budget: WorkBudget): Location[] {
   const lower = sym.name.toLowerCase();
   const out: Location[] = [];
   if (includeDeclaration) out.push({ uri: sym.uri, span: sym.nameSpan });
-  forEachDoc(analysis, (uri, doc) => {
+  forEachDoc(analysis, budget, (uri, doc) => {
+    if (!budget.spend(doc.cards.length)) return;
     for (const use of parameterUses(doc)) {
+      if (!budget.spend()) return;
       if (use.ref.name.toLowerCase() !== lower) continue;
       const resolved = resolveParam(analysis, uri, use.scope, use.ref.name);
       if (resolved === sym) out.push({ uri, span: use.ref.span });
@@ -160,6 +172,7 @@ function paramReferences(analysis: Analysis, sym: ParamSymbol, includeDeclaratio
     if (sym.scope) {
       // Instance overrides `Xn … sub name=value` name the subcircuit's parameter.
       for (const card of doc.cards) {
+        if (!budget.spend()) return;
         if (card.kind !== 'element' || card.letter !== 'X' || card.subckt?.text.toLowerCase() !== sym.scope) continue;
         for (const a of card.params) if (a.name.text.toLowerCase() === lower) out.push({ uri, span: a.name.span });
       }
@@ -168,11 +181,12 @@ function paramReferences(analysis: Analysis, sym: ParamSymbol, includeDeclaratio
   return dedupe(out);
 }
 
-function nameReferences(analysis: Analysis, kind: 'model' | 'subckt', name: string, includeDeclaration: boolean): Location[] {
+function nameReferences(analysis: Analysis, kind: 'model' | 'subckt', name: string, includeDeclaration: boolean, budget: WorkBudget): Location[] {
   const lower = name.toLowerCase();
   const out: Location[] = [];
-  forEachDoc(analysis, (uri, doc) => {
+  forEachDoc(analysis, budget, (uri, doc) => {
     for (const card of doc.cards) {
+      if (!budget.spend()) return;
       if (kind === 'model') {
         if (card.kind === 'element' && card.model?.text.toLowerCase() === lower) out.push({ uri, span: card.model.span });
         if (includeDeclaration && card.kind === 'model' && card.name.text.toLowerCase() === lower) out.push({ uri, span: card.name.span });
@@ -218,8 +232,19 @@ const NODE_NAME = /^[A-Za-z0-9_][A-Za-z0-9_\-#!<>:]*$/;
 const PARAM_NAME = /^[A-Za-z_][A-Za-z0-9_]*$/;
 const RESERVED_PARAMS = new Set(['pi', 'e', 'true', 'false']);
 
-/** Renames the node or parameter under the cursor everywhere it is used (within its scope). */
-export function renameAt(analysis: Analysis, uri: string, offset: number, newName: string): RenameResult {
+/**
+ * Renames the node or parameter under the cursor everywhere it is used (within its scope). A rename
+ * is never partial: when `budget` runs out before every use is found, no edit is returned, only why.
+ */
+export function renameAt(analysis: Analysis, uri: string, offset: number, newName: string, budget: WorkBudget = UNLIMITED): RenameResult {
+  const r = renameWithin(analysis, uri, offset, newName, budget);
+  if (budget.exhausted) {
+    return { error: `The rename was not made: finding every use took longer than the editor's time budget (${budget.spent.toLocaleString('en-US')} places looked at), and renaming only some uses would change the circuit.` };
+  }
+  return r;
+}
+
+function renameWithin(analysis: Analysis, uri: string, offset: number, newName: string, budget: WorkBudget): RenameResult {
   const prep = prepareRename(analysis, uri, offset);
   if ('error' in prep) return prep;
   const t = targetAt(analysis, uri, offset)!;
@@ -228,11 +253,11 @@ export function renameAt(analysis: Analysis, uri: string, offset: number, newNam
     if (!NODE_NAME.test(newName)) {
       return { error: `"${newName}" is not a valid node name: use letters, digits and _ (no spaces, '=', '.', quotes, braces, parentheses, commas, ';' or '$'); '.' is reserved for subcircuit instance paths.` };
     }
-    const existing = nodeReferences(analysis, newName, t.scope);
+    const existing = nodeReferences(analysis, newName, t.scope, budget);
     if (existing.length && newName.toLowerCase() !== t.name.toLowerCase()) {
       return { error: `Node "${newName}" already exists in this scope (${existing.length} use${existing.length === 1 ? '' : 's'}); renaming "${t.name}" to it would join the two nodes.` };
     }
-    return { edits: nodeReferences(analysis, t.name, t.scope).map((l) => ({ uri: l.uri, span: l.span, newText: newName })) };
+    return { edits: nodeReferences(analysis, t.name, t.scope, budget).map((l) => ({ uri: l.uri, span: l.span, newText: newName })) };
   }
   if (t.kind === 'param') {
     if (!PARAM_NAME.test(newName) || RESERVED_PARAMS.has(newName.toLowerCase())) {
@@ -240,7 +265,7 @@ export function renameAt(analysis: Analysis, uri: string, offset: number, newNam
     }
     const clash = analysis.symbols.params.find((p) => p !== t.symbol && p.scope === t.symbol.scope && p.name.toLowerCase() === newName.toLowerCase());
     if (clash) return { error: `Parameter "${newName}" is already defined in the same scope; pick another name.` };
-    return { edits: paramReferences(analysis, t.symbol, true).map((l) => ({ uri: l.uri, span: l.span, newText: newName })) };
+    return { edits: paramReferences(analysis, t.symbol, true, budget).map((l) => ({ uri: l.uri, span: l.span, newText: newName })) };
   }
   return { error: 'Only node names and parameter names can be renamed.' };
 }

@@ -4,9 +4,13 @@ import type { Analysis } from '../analysis';
 import type { Span } from '../types';
 import { cardAt, elementByName, subcktScopes } from './document-index';
 import { maxOf, minOf } from '../arrays';
+import { UNLIMITED, type WorkBudget } from './budget';
 
 /** What an outline entry stands for. */
-export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include' | 'section' | 'skipped-block';
+export type OutlineKind = 'subcircuit' | 'model' | 'parameter' | 'structure' | 'device' | 'include' | 'section' | 'skipped-block' | 'cut-short';
+
+/** The name of the last entry of an outline cut at its budget. */
+export const OUTLINE_CUT_NAME = 'Outline cut short';
 
 /** One entry of the outline. `span` covers the whole definition, `selectionSpan` its name. */
 export interface OutlineSymbol {
@@ -18,13 +22,27 @@ export interface OutlineSymbol {
   children: OutlineSymbol[];
 }
 
-/** The outline of document `uri`: structures first (their devices as children), then subcircuits, models and parameters in text order. */
-export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[] {
+/**
+ * The outline of document `uri`: structures first (their devices as children), then subcircuits,
+ * models and parameters in text order. One work unit per entry looked at; when `budget` runs out
+ * the outline ends with an `Outline cut short` entry saying so, at the end of the document.
+ */
+export function documentSymbols(analysis: Analysis, uri: string, budget: WorkBudget = UNLIMITED): OutlineSymbol[] {
   const doc = analysis.documents[uri];
   if (!doc) return [];
+  const out = outline(analysis, uri, doc, budget);
+  if (budget.exhausted) {
+    const end = { start: doc.text.length, end: doc.text.length };
+    out.push({ name: OUTLINE_CUT_NAME, detail: `only the first ${budget.spent.toLocaleString('en-US')} entries were looked at within the editor's time budget`, kind: 'cut-short', span: end, selectionSpan: end, children: [] });
+  }
+  return out;
+}
+
+function outline(analysis: Analysis, uri: string, doc: Analysis['documents'][string], budget: WorkBudget): OutlineSymbol[] {
   const out: OutlineSymbol[] = [];
 
   for (const s of analysis.structures) {
+    if (!budget.spend(1 + s.devices.length)) break;
     const ref = elementByName(analysis, s.reference.device);
     if (!ref || ref.origin.uri !== uri) continue;
     const children: OutlineSymbol[] = [];
@@ -55,19 +73,32 @@ export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[
 
   const defs: OutlineSymbol[] = [];
   const scopes = subcktScopes(doc);
+  const cards = doc.cards;
   for (const sc of scopes) {
     const children: OutlineSymbol[] = [];
-    for (const card of doc.cards) {
-      if (card.kind !== 'element' || card.span.start < sc.span.start || card.span.end > sc.span.end) continue;
+    // Cards are in text order: start at the first card of the body (a binary search), not at the top for every subcircuit.
+    let lo = 0;
+    let hi = cards.length;
+    while (lo < hi) {
+      const mid = (lo + hi) >> 1;
+      if (cards[mid]!.span.start < sc.span.start) lo = mid + 1;
+      else hi = mid;
+    }
+    for (let i = lo; i < cards.length && cards[i]!.span.start <= sc.span.end; i++) {
+      const card = cards[i]!;
+      if (!budget.spend()) break;
+      if (card.kind !== 'element' || card.span.end > sc.span.end) continue;
       children.push({ name: card.name.text, detail: card.letter, kind: 'device', span: card.span, selectionSpan: card.name.span, children: [] });
     }
     defs.push({ name: sc.card.name.text, detail: `ports ${sc.card.ports.map((p) => p.text).join(' ')}`, kind: 'subcircuit', span: sc.span, selectionSpan: sc.card.name.span, children });
   }
   for (const m of analysis.symbols.models) {
+    if (!budget.spend()) break;
     if (m.uri !== uri) continue;
     defs.push({ name: m.name, detail: m.kind.toUpperCase(), kind: 'model', span: m.span, selectionSpan: m.nameSpan, children: [] });
   }
   for (const p of analysis.symbols.params) {
+    if (!budget.spend()) break;
     if (p.uri !== uri) continue;
     defs.push({ name: p.name, detail: p.expression, kind: 'parameter', span: p.span, selectionSpan: p.nameSpan, children: [] });
   }
@@ -76,6 +107,7 @@ export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[
     defs.push({ name: inc.target, detail: inc.found ? 'included file' : 'included file (not found)', kind: 'include', span: inc.span, selectionSpan: inc.span, children: [] });
   }
   for (let i = 0; i < doc.cards.length; i++) {
+    if (!budget.spend()) break;
     const card = doc.cards[i]!;
     // A script, control or data block is one entry: nothing inside it is read.
     if (card.kind === 'skipped' && card.group === 'block') {
@@ -100,12 +132,17 @@ export function documentSymbols(analysis: Analysis, uri: string): OutlineSymbol[
     }
   }
   defs.sort((a, b) => a.span.start - b.span.start);
-  // Symbols declared inside a subcircuit body belong under it.
+  // Symbols declared inside a subcircuit body belong under it: under the outermost subcircuit that holds them.
+  // The subcircuits still open at a symbol are kept on a stack (text order), so this is one pass, not a search per symbol.
   const top: OutlineSymbol[] = [];
+  const open: OutlineSymbol[] = [];
   for (const d of defs) {
-    const parent = d.kind !== 'subcircuit' && d.kind !== 'section' ? top.find((t) => t.kind === 'subcircuit' && t.span.start < d.span.start && d.span.end <= t.span.end) : undefined;
+    while (open.length > 0 && open[open.length - 1]!.span.end < d.span.start) open.pop();
+    const outer = open.find((t) => t.span.start < d.span.start && d.span.end <= t.span.end);
+    const parent = d.kind !== 'subcircuit' && d.kind !== 'section' ? outer : undefined;
     if (parent) parent.children.push(d);
     else top.push(d);
+    if (d.kind === 'subcircuit') open.push(d);
   }
   for (const t of top) t.children.sort((a, b) => a.span.start - b.span.start);
   return [...out, ...top];
