@@ -193,6 +193,152 @@ describe('adjoint sensitivities against finite differences of re-solves', () => 
   });
 });
 
+/**
+ * Every closed-form device derivative (`DeviceTable.sensitivity`: temperature, IS, BF, VTO, KP, W, L) against central
+ * finite differences of full re-solves, on devices of our own invention that reach every branch of the equations: a
+ * Gummel–Poon NPN with leakage, high injection, both Early voltages and ohmic resistances away from Tnom, in
+ * forward-active and in saturation, a PNP, MOSFETs with body effect and temperature terms in saturation, in triode and
+ * with the channel reversed, and a diode (its kind has no closed forms, so it is differenced numerically).
+ */
+describe('device derivatives against finite differences of re-solves', () => {
+  type Read = { element: string; terminal: number };
+  /** Current into netlist terminal `terminal` of a device, read off the operating point's record (independent of the derivative code). */
+  const currentOf = (op: DcSolveResult['op'], r: Read): number => {
+    const rec = op.devices[r.element];
+    if (rec.type === 'bjt') return [rec.ic, rec.ib, rec.ie][r.terminal];
+    if (rec.type === 'mosfet') return r.terminal === 0 ? rec.id : r.terminal === 2 ? -rec.id : 0;
+    if (rec.type === 'diode') return r.terminal === 0 ? rec.id : -rec.id;
+    throw new Error(`no current read for ${rec.type}`);
+  };
+  const compare = (build: (change?: { element: string; param: string; value: number }) => Circuit, reads: Read[], deviceParams: string[]): number => {
+    const circuit = build();
+    const solver = new DcSolver(circuit);
+    const nominal = solver.solve();
+    expect(nominal.op.converged).toBe(true);
+    const t = nominal.op.temperatureC;
+    const index = (name: string): number => circuit.elements.findIndex((e) => e.name === name);
+    const params: VariedParameter[] = [{ kind: 'temperature' }];
+    const devices = [...new Set(reads.map((r) => r.element))];
+    for (const d of devices) for (const param of deviceParams) if (circuit.elements[index(d)].kind !== 'D') params.push({ kind: 'model', element: index(d), param });
+    const outputs = reads.map((r) => ({ terms: [{ kind: 'terminal' as const, element: index(r.element), terminal: r.terminal, weight: 1 }], magnitude: false }));
+    const adj = sensitivities(solver.linearise(nominal)!, outputs, params);
+    const base = reads.map((r) => currentOf(nominal.op, r));
+    reads.forEach((_, o) => expect(adj.value[o]).toBeCloseTo(base[o], 15));
+    let compared = 0;
+    params.forEach((p, j) => {
+      let up: number[];
+      let down: number[];
+      let h: number;
+      let scale: number;
+      if (p.kind === 'temperature') {
+        h = 0.1;
+        scale = 1;
+        const at = (dt: number) => solver.solve({ temperatureC: t + dt, initialGuess: nominal.x }).op;
+        up = reads.map((r) => currentOf(at(h), r));
+        down = reads.map((r) => currentOf(at(-h), r));
+      } else if (p.kind === 'model') {
+        const el = circuit.elements[p.element] as unknown as Record<string, number> & { name: string };
+        const v = p.param === 'W' || p.param === 'L' ? el[p.param.toLowerCase()] : modelValue(circuit.elements[p.element], p.param);
+        h = p.param === 'VTO' ? 1e-4 : Math.abs(v) * 1e-3;
+        scale = p.param === 'VTO' ? 1e-3 : Math.abs(v);
+        // W and L are the instance's own: a circuit built with the changed value and solved afresh.
+        const at = (value: number) => {
+          const solved = p.param === 'W' || p.param === 'L' ? new DcSolver(build({ element: el.name, param: p.param, value })).solve() : solver.solve({ initialGuess: nominal.x, deviceParameters: { [el.name]: { [p.param]: value } } });
+          expect(solved.op.converged).toBe(true);
+          return solved.op;
+        };
+        const opUp = at(v + h);
+        const opDown = at(v - h);
+        up = reads.map((r) => currentOf(opUp, r));
+        down = reads.map((r) => currentOf(opDown, r));
+      } else return;
+      reads.forEach((r, o) => {
+        const fd = (up[o] - down[o]) / (2 * h);
+        const a = derivativeOf(adj, o, j);
+        const floor = (1e-7 * Math.abs(base[o])) / scale;
+        expect(Math.abs(a - fd), `${JSON.stringify(p)} on ${r.element}.${r.terminal}: closed form ${a}, finite difference ${fd}`).toBeLessThanOrEqual(1e-4 * Math.abs(fd) + floor);
+        compared++;
+      });
+    });
+    return compared;
+  };
+  const all = (names: string[], terminals: number[]): Read[] => names.flatMap((element) => terminals.map((terminal) => ({ element, terminal })));
+
+  it('Gummel–Poon NPN and PNP away from Tnom: temperature, IS, BF', () => {
+    const build = (): Circuit => {
+      const b = new CircuitBuilder();
+      b.temperatureC = 70;
+      b.v('VCC', 'vcc', '0', 9)
+        .model('qg', 'npn', { IS: 2e-16, BF: 180, BR: 3, NF: 1.02, NR: 1.05, ISE: 5e-15, NE: 1.6, ISC: 2e-14, NC: 1.8, IKF: 8e-3, IKR: 2e-3, VAF: 70, VAR: 15, XTB: 1.6, XTI: 3.2, EG: 1.12, RB: 120, RE: 1.5, RC: 12 })
+        .model('qp', 'pnp', { IS: 5e-16, BF: 90, VAF: 45, XTB: 1.2, ISE: 1e-15, NE: 1.5 })
+        .r('RB1', 'vcc', 'b1', 1e6)
+        .q('Q1', 'c1', 'b1', '0', 'qg')
+        .r('RC1', 'vcc', 'c1', 2.2e3)
+        // Q2 saturated: a heavy base drive into a large collector resistor.
+        .r('RB2', 'vcc', 'b2', 10e3)
+        .q('Q2', 'c2', 'b2', '0', 'qg')
+        .r('RC2', 'vcc', 'c2', 47e3)
+        .r('RB3', 'b3', '0', 150e3)
+        .q('Q3', 'c3', 'b3', 'e3', 'qp')
+        .r('RE3', 'vcc', 'e3', 1e3)
+        .r('RC3', 'c3', '0', 1.5e3);
+      return b.build();
+    };
+    const devices = new DcSolver(build()).solve().op.devices;
+    expect((devices.Q1 as { region: string }).region).toBe('forward-active');
+    expect((devices.Q2 as { region: string }).region).toBe('saturation');
+    expect(compare(build, all(['Q1', 'Q2', 'Q3'], [0, 1, 2]), ['IS', 'BF'])).toBe(9 * 7);
+  });
+
+  it('MOSFETs with body effect and temperature terms, in saturation, triode and reversed: temperature, VTO, KP, W, L', () => {
+    const build = (change?: { element: string; param: string; value: number }): Circuit => {
+      const b = new CircuitBuilder();
+      b.temperatureC = 85;
+      const o = (name: string, w: number, l: number) => ({ w: change?.element === name && change.param === 'W' ? change.value : w, l: change?.element === name && change.param === 'L' ? change.value : l });
+      b.v('VDD', 'vdd', '0', 5)
+        .v('VB', 'vb', '0', -1)
+        .model('nt', 'nmos', { VTO: 0.6, KP: 110e-6, LAMBDA: 0.03, GAMMA: 0.45, PHI: 0.7, BEX: -1.5, TCV: 2e-3 })
+        .model('pt', 'pmos', { VTO: -0.7, KP: 45e-6, LAMBDA: 0.05, GAMMA: 0.3, PHI: 0.65, BEX: -1.2, TCV: 1.5e-3 })
+        // M1 saturated, its bulk below its source (body effect).
+        .r('RG1', 'vdd', 'g1', 100e3)
+        .r('RG1B', 'g1', '0', 100e3)
+        .mos('M1', 'd1', 'g1', 's1', 'vb', 'nt', o('M1', 8e-6, 2e-6))
+        .r('RS1', 's1', '0', 1e3)
+        .r('RD1', 'vdd', 'd1', 4.7e3)
+        // M2 in triode: gate at the rail, a large drain resistor.
+        .mos('M2', 'd2', 'vdd', '0', '0', 'nt', o('M2', 4e-6, 1e-6))
+        .r('RD2', 'vdd', 'd2', 20e3)
+        // M3 reversed: its netlist drain sits below its netlist source.
+        .mos('M3', 'x3', 'vdd', 'y3', '0', 'nt', o('M3', 6e-6, 1e-6))
+        .r('RX3', 'x3', '0', 4.7e3)
+        .r('RY3', 'vdd', 'y3', 1e3)
+        // M4 a PMOS in saturation.
+        .mos('M4', 'd4', 'g4', 'vdd', 'vdd', 'pt', o('M4', 20e-6, 2e-6))
+        .r('RG4', 'g4', '0', 100e3)
+        .r('RG4B', 'vdd', 'g4', 150e3)
+        .r('RD4', 'd4', '0', 1.5e3);
+      return b.build();
+    };
+    const op = new DcSolver(build()).solve().op;
+    const rec = (n: string) => op.devices[n] as { region: string; vds: number };
+    expect(rec('M1').region).toBe('saturation');
+    expect(rec('M2').region).toBe('triode');
+    expect(rec('M3').vds).toBeLessThan(0);
+    expect(rec('M4').region).toBe('saturation');
+    expect(compare(build, all(['M1', 'M2', 'M3', 'M4'], [0, 2]), ['VTO', 'KP', 'W', 'L'])).toBe(8 * 17);
+  });
+
+  it('a diode (differenced numerically, its kind has no closed forms): temperature', () => {
+    const build = (): Circuit => {
+      const b = new CircuitBuilder();
+      b.temperatureC = 50;
+      b.v('V1', 'a', '0', 3).model('dd', 'd', { IS: 1e-14, N: 1.1, XTI: 3, EG: 1.11, RS: 5 }).r('R1', 'a', 'k', 2.2e3).d('D1', 'k', '0', 'dd');
+      return b.build();
+    };
+    expect(compare(build, [{ element: 'D1', terminal: 0 }], [])).toBe(1);
+  });
+});
+
 describe('closed forms', () => {
   it('a resistor-fed diode-connected reference: S = −(V+ − V− − VBE)/(V+ − V− − VBE + NF·VT)', () => {
     // Differentiate IREF·R = V+ − V− − NF·VT·ln(IREF/IS): dIREF/IREF · (IREF·R + NF·VT) = −IREF·R · dR/R.

@@ -9,6 +9,7 @@ import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 import { clampSpan, dropNonFinite, keepFinite, markLazyTables } from '../../shared-analysis/src/output-guard';
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
+import { parameterStep } from '../../shared-analysis/src/variation/sensitivity';
 
 const URI = '/w/typing.cir';
 
@@ -212,21 +213,43 @@ describe('a misspelt .end', () => {
   });
 });
 
-describe('the spread analysis leaves the engine finite', () => {
-  it('drops the non-finite spread of a mirror whose threshold is subnormal, with one finding', () => {
-    // Found by the fuzz target (seed 20261202, case 5339): VTO=1e-320 made every σ of the spread NaN,
-    // which JSON writes as null.
-    const a = analyse(
-      { uri: URI, text: 'NMOS mirror\nVDD vdd 0 3.3\nIREF vdd gn 20u\nM1 gn gn 0 0 nch W=4u L=1u\nM2 dn gn 0 0 nch W=8u L=1u ; expect 40uA ±10%\nRDN vdd dn 15k\n.model nch NMOS (VTO=1e-320 KP=120u LAMBDA=0.04)\n.end\n' },
+describe('the spread analysis of a subnormal threshold', () => {
+  // Found by the fuzz target (seed 20261202, case 5339): VTO=1e-320 made every σ of the spread NaN. The cause was the
+  // relative step of the threshold's central difference, 1e-320 × 1e-6, which underflows to 0 (0/0 = NaN); the output
+  // guard then dropped the figures. A threshold of 1e-320 V is 0 V for every purpose, so its figures must be those of
+  // VTO=0 (an independent run of the same circuit), all finite, and nothing is dropped.
+  const mirror = (vto: string) =>
+    analyse(
+      { uri: URI, text: `NMOS mirror\nVDD vdd 0 3.3\nIREF vdd gn 20u\nM1 gn gn 0 0 nch W=4u L=1u\nM2 dn gn 0 0 nch W=8u L=1u ; expect 40uA ±10%\nRDN vdd dn 15k\n.model nch NMOS (VTO=${vto} KP=120u LAMBDA=0.04)\n.end\n` },
       new MemoryWorkspace({}),
     );
-    const numbers: number[] = [];
-    JSON.stringify({ variation: a.variation, structures: a.structures }, (_k, v: unknown) => {
-      if (typeof v === 'number') numbers.push(v);
-      return v;
+  it('gives the figures of a zero threshold, finite, with nothing left out', () => {
+    const tiny = mirror('1e-320');
+    const zero = mirror('0');
+    expect(tiny.findings.filter((f) => f.code === 'value-not-finite')).toEqual([]);
+    const outputs = tiny.variation!.outputs;
+    // IREF is fed by an ideal current source (no spread); the mirror's output spreads with both devices' mismatch.
+    expect(outputs.filter((o) => o.sigma > 0).length).toBeGreaterThan(0);
+    outputs.forEach((o, k) => {
+      const z = zero.variation!.outputs[k]!;
+      expect(o.output).toBe(z.output);
+      expect(Number.isFinite(o.sigma)).toBe(true);
+      expect(o.sigma).toBeCloseTo(z.sigma, 12);
+      expect(o.worstCase).toBeCloseTo(z.worstCase, 12);
+      const vth = o.sensitivities.filter((s) => s.parameter.endsWith('VTH'));
+      expect(vth.length).toBeGreaterThan(0);
+      for (const s of vth) expect(s.value).toBeCloseTo(z.sensitivities.find((t) => t.parameter === s.parameter)!.value, 9);
+      expect(o.sensitivities.every((s) => Number.isFinite(s.value))).toBe(true);
     });
-    expect(numbers.every(Number.isFinite)).toBe(true);
-    const bad = a.findings.filter((f) => f.code === 'value-not-finite');
-    expect(bad.length).toBeLessThanOrEqual(1);
+  });
+  it('differences a model parameter with a step that is a normal number', () => {
+    const el = mirror('1e-320').circuit!.elements.find((e) => e.name === 'M1')!;
+    // 1e-320 × 1e-6 is below the smallest normal double (2^−1022 ≈ 2.2e-308, IEEE 754 binary64).
+    expect(1e-320 * 1e-6).toBe(0);
+    const h = parameterStep(el, 'VTO');
+    expect(h).toBeGreaterThan(2.2250738585072014e-308);
+    expect(1e-320 + h).not.toBe(1e-320 - h);
+    // A usual value keeps its relative step (10⁻⁶ of it).
+    expect(parameterStep(el, 'KP')).toBeCloseTo(120e-6 * 1e-6, 20);
   });
 });

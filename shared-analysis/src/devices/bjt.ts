@@ -2,11 +2,11 @@
 
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
-import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { allocateColumns, deviceKind } from './device';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
+import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
 
 /**
  * Region by intrinsic junction bias in the device's own polarity (docs/DEVICE-MODELS.md):
@@ -192,6 +192,95 @@ function bjtCore(vbe: number, vbc: number, par: Float64Array, o: number, out: Fl
   return xbe > EXP_ARG_LIMIT || xbc > EXP_ARG_LIMIT;
 }
 
+// Slots of the scratch array `bjtCoreByParam` fills: ∂IC/∂(row entry) at [2·k], ∂IB/∂(row entry) at [2·k + 1].
+const BY_IS = 0;
+const BY_ISE = 1;
+const BY_ISC = 2;
+const BY_BF = 3;
+const BY_BR = 4;
+const BY_NFVT = 5;
+const BY_NRVT = 6;
+const BY_NEVT = 7;
+const BY_NCVT = 8;
+const BY_PARAMS = 9;
+
+/**
+ * The partial derivatives of `bjtCore`'s IC and IB with respect to the temperature-dependent
+ * entries of the parameter row (IS, ISE, ISC, BF, BR and the four n·VT), at fixed vbe, vbc, by
+ * the chain rule through the same equations: with E = e^(VBE/NF·VT),
+ * ∂IBE1/∂IS = E − 1 and ∂IBE1/∂(NF·VT) = −gbe1·VBE/(NF·VT); IBC1, IBE2, IBC2 likewise;
+ * qb depends on IBE1 and IBC1 through q2, so ∂IT/∂IBE1 = (1 − IT·∂qb/∂IBE1)/qb and
+ * ∂IT/∂IBC1 = −(1 + IT·∂qb/∂IBC1)/qb; IC = IT − IBC1/BR − IBC2 and IB = IBE1/BF + IBE2 + IBC1/BR + IBC2.
+ */
+function bjtCoreByParam(vbe: number, vbc: number, par: Float64Array, o: number, out: Float64Array): void {
+  const is = par[o + P_IS];
+  const nfvt = par[o + P_NFVT];
+  const nrvt = par[o + P_NRVT];
+  const xbe = vbe / nfvt;
+  const xbc = vbc / nrvt;
+  const ebe = guardedExpValue(xbe) - 1;
+  const ebc = guardedExpValue(xbc) - 1;
+  const ibe1 = is * ebe;
+  const ibc1 = is * ebc;
+  const gbe1 = (is * guardedExpSlope(xbe)) / nfvt;
+  const gbc1 = (is * guardedExpSlope(xbc)) / nrvt;
+  const invVaf = par[o + P_INV_VAF];
+  const invVar = par[o + P_INV_VAR];
+  let d = 1 - vbc * invVaf - vbe * invVar;
+  if (d < EARLY_FLOOR) d = EARLY_FLOOR * Math.exp((d - EARLY_FLOOR) / EARLY_FLOOR);
+  const q1 = 1 / d;
+  const invIkf = par[o + P_INV_IKF];
+  const invIkr = par[o + P_INV_IKR];
+  let qb = q1;
+  let dqbDibe1 = 0;
+  let dqbDibc1 = 0;
+  if (invIkf > 0 || invIkr > 0) {
+    const arg = 1 + 4 * (ibe1 * invIkf + ibc1 * invIkr);
+    if (arg > 1e-12) {
+      const root = Math.sqrt(arg);
+      qb = (q1 * (1 + root)) / 2;
+      dqbDibe1 = (q1 * invIkf) / root;
+      dqbDibc1 = (q1 * invIkr) / root;
+    } else qb = (q1 * (1 + Math.sqrt(1e-12))) / 2;
+  }
+  const it = (ibe1 - ibc1) / qb;
+  const bf = par[o + P_BF];
+  const br = par[o + P_BR];
+  // Partials of IC and IB with respect to the four junction currents.
+  const icByIbe1 = (1 - it * dqbDibe1) / qb;
+  const icByIbc1 = -(1 + it * dqbDibc1) / qb - 1 / br;
+  const ibByIbe1 = 1 / bf;
+  const ibByIbc1 = 1 / br;
+  out[2 * BY_IS] = icByIbe1 * ebe + icByIbc1 * ebc;
+  out[2 * BY_IS + 1] = ibByIbe1 * ebe + ibByIbc1 * ebc;
+  const ise = par[o + P_ISE];
+  const nevt = par[o + P_NEVT];
+  const ee = guardedExpValue(vbe / nevt) - 1;
+  out[2 * BY_ISE] = 0;
+  out[2 * BY_ISE + 1] = ee;
+  const isc = par[o + P_ISC];
+  const ncvt = par[o + P_NCVT];
+  const ec = guardedExpValue(vbc / ncvt) - 1;
+  out[2 * BY_ISC] = -ec;
+  out[2 * BY_ISC + 1] = ec;
+  out[2 * BY_BF] = 0;
+  out[2 * BY_BF + 1] = -ibe1 / (bf * bf);
+  out[2 * BY_BR] = ibc1 / (br * br);
+  out[2 * BY_BR + 1] = -ibc1 / (br * br);
+  const ibe1ByNfvt = -gbe1 * xbe;
+  const ibc1ByNrvt = -gbc1 * xbc;
+  out[2 * BY_NFVT] = icByIbe1 * ibe1ByNfvt;
+  out[2 * BY_NFVT + 1] = ibByIbe1 * ibe1ByNfvt;
+  out[2 * BY_NRVT] = icByIbc1 * ibc1ByNrvt;
+  out[2 * BY_NRVT + 1] = ibByIbc1 * ibc1ByNrvt;
+  const ibe2ByNevt = ise > 0 ? (-ise * guardedExpSlope(vbe / nevt) * vbe) / (nevt * nevt) : 0;
+  const ibc2ByNcvt = isc > 0 ? (-isc * guardedExpSlope(vbc / ncvt) * vbc) / (ncvt * ncvt) : 0;
+  out[2 * BY_NEVT] = 0;
+  out[2 * BY_NEVT + 1] = ibe2ByNevt;
+  out[2 * BY_NCVT] = -ibc2ByNcvt;
+  out[2 * BY_NCVT + 1] = ibc2ByNcvt;
+}
+
 /** Writes the parameter row of `p` (M folded into the currents) at `par[o …]`. */
 function paramRow(p: BjtParams, par: Float64Array, o: number): void {
   const m = p.m;
@@ -335,6 +424,8 @@ export class BjtTable implements DeviceTable {
   private readonly ne: Float64Array;
   private readonly nc: Float64Array;
   private readonly vaf: Float64Array;
+  /** Area × M of each instance (the factor on IS, ISE, ISC). */
+  private readonly scale: Float64Array;
   /** Series conductances of RC, RB, RE (0 when the resistance is zero). */
   private readonly gc: Float64Array;
   private readonly gb: Float64Array;
@@ -369,6 +460,7 @@ export class BjtTable implements DeviceTable {
     this.ne = col();
     this.nc = col();
     this.vaf = col();
+    this.scale = col();
     this.gc = col();
     this.gb = col();
     this.ge = col();
@@ -387,6 +479,7 @@ export class BjtTable implements DeviceTable {
       const area = elementParam(element, 'AREA', element.area, 'positive', 0, issues);
       const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
       const scale = area * m;
+      this.scale[i] = scale;
       this.isNom[i] = modelParam(element, md, 'IS', 'non-negative', issues) * scale;
       this.iseNom[i] = modelParam(element, md, 'ISE', 'non-negative', issues) * scale;
       this.iscNom[i] = modelParam(element, md, 'ISC', 'non-negative', issues) * scale;
@@ -599,10 +692,114 @@ export class BjtTable implements DeviceTable {
     if (vbc / (this.nr[i] * this.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-collector junction', volts: vbc });
     return out;
   }
+
+  /**
+   * Exact partials for adjoint sensitivities (docs/VARIATION.md): temperature, IS and BF as the
+   * model card writes them, for each instance alone. The temperature enters through IS(T)
+   * (d ln IS/dT = XTI/T + EG·q/(k·T²)), the leakage currents (d ln ISE/dT = −XTB/T + (d ln IS/dT)/NE),
+   * BF and BR (d ln BF/dT = XTB/T) and every n·VT (d(n·VT)/dT = n·VT/T), T in kelvin; a card IS
+   * enters as IS·area·M·(IS(T)/IS), a card BF as BF·(T/Tnom)^XTB·(the beta scale).
+   */
+  sensitivity(x: Float64Array, c: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined {
+    for (const p of params) if (p !== TEMPERATURE_PARAMETER && p !== 'IS' && p !== 'BF') return undefined;
+    const n = this.n;
+    const N = 3;
+    const out = allocateSensitivity(n, T, N, params.length);
+    const t = this.instances.terminals;
+    const par = this.par;
+    const ev = this.scratch;
+    const by = new Float64Array(2 * BY_PARAMS);
+    const tk = c.temperatureC + ZERO_CELSIUS_K;
+    const gapSlope = (ELEMENTARY_CHARGE / BOLTZMANN) / (tk * tk);
+    const dIc = new Float64Array(params.length);
+    const dIb = new Float64Array(params.length);
+    for (let i = 0; i < n; i++) {
+      const s = this.sign[i];
+      const o = i * PARAMS;
+      const vbI = voltage(x, t[i * T + BI]);
+      const vbe = s * (vbI - voltage(x, t[i * T + EI]));
+      const vbc = s * (vbI - voltage(x, t[i * T + CI]));
+      bjtCore(vbe, vbc, par, o, ev);
+      bjtCoreByParam(vbe, vbc, par, o, by);
+      const ic = s * ev[IC];
+      const ib = s * ev[IB];
+      const row = i * N;
+      out.current[row + C] = ic;
+      out.current[row + B] = ib;
+      out.current[row + E] = -(ic + ib);
+      // Netlist currents against the intrinsic terminal voltages (the load's rows): VBE = s·(V_B′ − V_E′), VBC = s·(V_B′ − V_C′).
+      const w = out.currentByVoltage;
+      currentRow(w, (row + C) * T, ev[DIC_DVBE], ev[DIC_DVBC]);
+      currentRow(w, (row + B) * T, ev[DIB_DVBE], ev[DIB_DVBC]);
+      currentRow(w, (row + E) * T, -(ev[DIC_DVBE] + ev[DIB_DVBE]), -(ev[DIC_DVBC] + ev[DIB_DVBC]));
+      const dIs = this.xti[i] / tk + this.eg[i] * gapSlope;
+      for (let k = 0; k < params.length; k++) {
+        const p = params[k];
+        let a: number;
+        let b: number;
+        if (p === TEMPERATURE_PARAMETER) {
+          const xtb = this.xtb[i] / tk;
+          // The leakage currents follow IS(T)/IS only when there is an IS to follow.
+          const dRatio = this.isNom[i] > 0 ? dIs : 0;
+          const ise = par[o + P_ISE] * (-this.xtb[i] / tk + dRatio / this.ne[i]);
+          const isc = par[o + P_ISC] * (-this.xtb[i] / tk + dRatio / this.nc[i]);
+          a =
+            by[2 * BY_IS] * (par[o + P_IS] * dIs) +
+            by[2 * BY_ISE] * ise +
+            by[2 * BY_ISC] * isc +
+            by[2 * BY_BF] * (par[o + P_BF] * xtb) +
+            by[2 * BY_BR] * (par[o + P_BR] * xtb) +
+            by[2 * BY_NFVT] * (par[o + P_NFVT] / tk) +
+            by[2 * BY_NRVT] * (par[o + P_NRVT] / tk) +
+            by[2 * BY_NEVT] * (par[o + P_NEVT] / tk) +
+            by[2 * BY_NCVT] * (par[o + P_NCVT] / tk);
+          b =
+            by[2 * BY_IS + 1] * par[o + P_IS] * dIs +
+            by[2 * BY_ISE + 1] * ise +
+            by[2 * BY_ISC + 1] * isc +
+            by[2 * BY_BF + 1] * par[o + P_BF] * xtb +
+            by[2 * BY_BR + 1] * par[o + P_BR] * xtb +
+            by[2 * BY_NFVT + 1] * (par[o + P_NFVT] / tk) +
+            by[2 * BY_NRVT + 1] * (par[o + P_NRVT] / tk) +
+            by[2 * BY_NEVT + 1] * (par[o + P_NEVT] / tk) +
+            by[2 * BY_NCVT + 1] * (par[o + P_NCVT] / tk);
+        } else if (p === 'IS') {
+          // d(row IS)/d(card IS) = area·M·IS(T)/IS, from the unit saturation current (exact for any card value, zero or subnormal included).
+          const f = this.scale[i] * saturationCurrentAt(1, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+          a = by[2 * BY_IS] * f;
+          b = by[2 * BY_IS + 1] * f;
+        } else {
+          const f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]).beta * c.betaScale;
+          a = by[2 * BY_BF] * f;
+          b = by[2 * BY_BF + 1] * f;
+        }
+        dIc[k] = s * a;
+        dIb[k] = s * b;
+      }
+      for (let k = 0; k < params.length; k++) {
+        const r = out.residualByParam[k];
+        r[i * T + CI] = dIc[k];
+        r[i * T + BI] = dIb[k];
+        r[i * T + EI] = -(dIc[k] + dIb[k]);
+        const cp = out.currentByParam[k];
+        cp[row + C] = dIc[k];
+        cp[row + B] = dIb[k];
+        cp[row + E] = -(dIc[k] + dIb[k]);
+      }
+    }
+    return out;
+  }
 }
 
 function voltage(x: Float64Array, k: number): number {
   return k >= 0 ? x[k] : 0;
+}
+
+/** Adds a netlist current's partials with respect to the intrinsic VBE and VBC as partials with respect to the voltages of B′, E′ and C′ (row q of `w`). */
+function currentRow(w: Float64Array, q: number, dVbe: number, dVbc: number): void {
+  w[q + BI] += dVbe + dVbc;
+  w[q + EI] -= dVbe;
+  w[q + CI] -= dVbc;
 }
 
 /**

@@ -94,6 +94,44 @@ export interface DeviceTable {
   evaluate(x: Float64Array): DeviceColumns;
   /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (empty when none). */
   overdriven(x: Float64Array, i: number): OverdrivenJunction[];
+  /**
+   * Exact partial derivatives of every instance at `x` (no limiting; the table prepared for
+   * `conditions`) with respect to the parameters `params`, for adjoint sensitivities
+   * (docs/VARIATION.md): `TEMPERATURE_PARAMETER` or a model or instance parameter name as the
+   * netlist writes it (`IS`, `BF`, `VTO`, `KP`, `W`, `L`). Undefined when the kind does not
+   * have all of them in closed form (the caller then differences the device numerically).
+   */
+  sensitivity?(x: Float64Array, conditions: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined;
+}
+
+/** The parameter name `DeviceTable.sensitivity` takes for the analysis temperature (per kelvin). */
+export const TEMPERATURE_PARAMETER = 'temperature';
+
+/**
+ * What `DeviceTable.sensitivity` gives for every instance, with T = `kind.terminalCount` and
+ * N = `kind.nodeCount`; parameter k is `params[k]`, and a derivative with respect to a model
+ * parameter is for this instance's value alone (a mismatch draw), per unit as written.
+ */
+export interface DeviceSensitivity {
+  /** ∂(current into table terminal r)/∂(parameter k) at fixed terminal voltages: `residualByParam[k][i·T + r]` (the instance's part of the KCL residual). */
+  residualByParam: Float64Array[];
+  /** Current into netlist terminal t of instance i, as `kind.terminalCurrent` gives it: `current[i·N + t]`. */
+  current: Float64Array;
+  /** ∂(that current)/∂(voltage of table terminal c): `currentByVoltage[(i·N + t)·T + c]`. */
+  currentByVoltage: Float64Array;
+  /** ∂(that current)/∂(parameter k) at fixed terminal voltages: `currentByParam[k][i·N + t]`. */
+  currentByParam: Float64Array[];
+}
+
+/** Zeroed arrays of a `DeviceSensitivity` for `count` instances of a kind with `terminals` table terminals and `nodes` netlist terminals. */
+export function allocateSensitivity(count: number, terminals: number, nodes: number, params: number): DeviceSensitivity {
+  const residualByParam: Float64Array[] = [];
+  const currentByParam: Float64Array[] = [];
+  for (let k = 0; k < params; k++) {
+    residualByParam.push(new Float64Array(count * terminals));
+    currentByParam.push(new Float64Array(count * nodes));
+  }
+  return { residualByParam, current: new Float64Array(count * nodes), currentByVoltage: new Float64Array(count * nodes * terminals), currentByParam };
 }
 
 /** A junction the solver checks for being shorted by a wire-like element (a 0 V source, an inductor, a 0 Ω resistor). */

@@ -2,8 +2,8 @@
 
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
-import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { allocateColumns, deviceKind } from './device';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue } from './physics';
@@ -138,6 +138,10 @@ export class MosfetTable implements DeviceTable {
   private readonly vtoNom: Float64Array;
   private readonly bex: Float64Array;
   private readonly tcv: Float64Array;
+  /** W·M/L (β per unit of KP), W and L as used. */
+  private readonly betaPerKp: Float64Array;
+  private readonly w: Float64Array;
+  private readonly l: Float64Array;
   /** β and VTO of the solve in progress. */
   private readonly beta: Float64Array;
   private readonly vto: Float64Array;
@@ -160,6 +164,9 @@ export class MosfetTable implements DeviceTable {
     this.vtoNom = col();
     this.bex = col();
     this.tcv = col();
+    this.betaPerKp = col();
+    this.w = col();
+    this.l = col();
     this.beta = col();
     this.vto = col();
     this.lambda = col();
@@ -180,6 +187,10 @@ export class MosfetTable implements DeviceTable {
       const kp = modelParam(element, md, 'KP', 'non-negative', issues);
       const beta = l > 0 ? (kp * w * m) / l : 0;
       this.betaNom[i] = Number.isFinite(beta) ? beta : 0;
+      const perKp = l > 0 ? (w * m) / l : 0;
+      this.betaPerKp[i] = Number.isFinite(perKp) ? perKp : 0;
+      this.w[i] = w;
+      this.l[i] = l;
       this.vtoNom[i] = sign * modelParam(element, md, 'VTO', 'finite', issues);
       this.bex[i] = modelParam(element, md, 'BEX', 'finite', issues);
       this.tcv[i] = modelParam(element, md, 'TCV', 'finite', issues);
@@ -321,6 +332,84 @@ export class MosfetTable implements DeviceTable {
 
   overdriven(): OverdrivenJunction[] {
     return [];
+  }
+
+  /**
+   * Exact partials for adjoint sensitivities (docs/VARIATION.md), for each instance alone:
+   * temperature, VTO, KP, W and L as the netlist writes them. The level-1 current depends on
+   * them only through β = KP·W·M/L·(T/Tnom)^BEX and the own-polarity threshold
+   * VTO(T) = s·VTO − sign(VTO)·TCV·ΔT, with ∂ID/∂VTO = −gm (gm = ∂ID/∂VOV in both regions) and
+   * ∂ID/∂β = ID/β (the bracket of the region's formula).
+   */
+  sensitivity(x: Float64Array, c: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined {
+    for (const p of params) if (p !== TEMPERATURE_PARAMETER && p !== 'VTO' && p !== 'KP' && p !== 'W' && p !== 'L') return undefined;
+    const n = this.n;
+    const N = 4;
+    const out = allocateSensitivity(n, T, N, params.length);
+    const t = this.instances.terminals;
+    const ev = this.scratch;
+    const gmin = this.gmin;
+    const tk = c.temperatureC + ZERO_CELSIUS_K;
+    const kpFactor = (i: number): number => mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, c.tnomC).kpFactor;
+    for (let i = 0; i < n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      const vgs = s * (voltage(x, t[i * T + G]) - vs);
+      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
+      const forward = vds >= 0;
+      const fvds = forward ? vds : -vds;
+      const beta = this.beta[i];
+      const lambda = this.lambda[i];
+      const region = forward ? mosCore(vgs, vds, vbs, beta, this.vto[i], lambda, this.gamma[i], this.phi[i], ev) : mosCore(vgs - vds, -vds, vbs - vds, beta, this.vto[i], lambda, this.gamma[i], this.phi[i], ev);
+      const gm = ev[GM];
+      const gds = ev[GDS];
+      const gmbs = ev[GMBS];
+      const vov = ev[VOV];
+      // ∂ID/∂β: the region's bracket times the channel-length factor.
+      const byBeta = region === SATURATION ? 0.5 * vov * vov * (1 + lambda * fvds) : region === TRIODE ? (vov * fvds - 0.5 * fvds * fvds) * (1 + lambda * fvds) : 0;
+      const byVto = -gm;
+      const idNet = s * (forward ? ev[ID] : -ev[ID]) + gmin * s * vds;
+      const row = i * N;
+      out.current[row + D] = idNet;
+      out.current[row + S] = -idNet;
+      const w = out.currentByVoltage;
+      const qd = (row + D) * T;
+      const qs = (row + S) * T;
+      // Drain current against the terminal voltages (the load's rows, in the frame that conducts), and gmin across the channel.
+      if (forward) {
+        w[qd + G] = gm;
+        w[qd + D] = gds + gmin;
+        w[qd + BULK] = gmbs;
+        w[qd + S] = -(gm + gds + gmbs) - gmin;
+      } else {
+        w[qd + G] = -gm;
+        w[qd + S] = -gds - gmin;
+        w[qd + BULK] = -gmbs;
+        w[qd + D] = gm + gds + gmbs + gmin;
+      }
+      for (let c2 = 0; c2 < T; c2++) w[qs + c2] = -w[qd + c2];
+      // The frame current ID flows into the acting drain (D forward, S swapped); into the netlist drain it is ±ID.
+      const into = s * (forward ? 1 : -1);
+      for (let k = 0; k < params.length; k++) {
+        const p = params[k];
+        let d: number;
+        if (p === TEMPERATURE_PARAMETER) {
+          const direction = this.vtoNom[i] >= 0 ? 1 : -1;
+          d = byBeta * ((beta * this.bex[i]) / tk) + byVto * (-direction * this.tcv[i]);
+        } else if (p === 'VTO') d = byVto * s;
+        else if (p === 'KP') d = byBeta * this.betaPerKp[i] * kpFactor(i);
+        else if (p === 'W') d = this.w[i] > 0 ? (byBeta * beta) / this.w[i] : 0;
+        else d = this.l[i] > 0 ? (-byBeta * beta) / this.l[i] : 0;
+        const dNet = into * d;
+        const r = out.residualByParam[k];
+        r[i * T + D] = dNet;
+        r[i * T + S] = -dNet;
+        out.currentByParam[k][row + D] = dNet;
+        out.currentByParam[k][row + S] = -dNet;
+      }
+    }
+    return out;
   }
 }
 

@@ -2,7 +2,8 @@
 
 import type { Element } from '../circuit';
 import { MODEL_DEFAULTS } from '../devices/parameters';
-import type { DeviceConditions, DeviceKind, DeviceTable, LoadTally } from '../devices/device';
+import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally } from '../devices/device';
+import { TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
 import type { LinearReader } from '../solve/mna';
@@ -63,8 +64,12 @@ export function derivativeOf(r: SensitivityResult, o: number, j: number): number
 const VOLTAGE_STEP = 1e-6;
 /** Temperature step of the device-level central differences, kelvin. */
 const TEMPERATURE_STEP = 0.01;
-/** Relative step for a model parameter (absolute 1e-7 for a parameter at 0, such as VTO = 0). */
+/** Relative step for a model parameter, of its value or of its default, whichever is larger. */
 const PARAMETER_STEP = 1e-6;
+/** Absolute step for a parameter whose value and default are both zero or too small for a relative step (VTO = 0 or 1e-320). */
+const ABSOLUTE_PARAMETER_STEP = 1e-7;
+/** The smallest positive normal double: below it a product loses its precision and soon underflows to 0. */
+const SMALLEST_NORMAL = 2.2250738585072014e-308;
 
 /** A model parameter's value as the device uses it (the card's, else the default). */
 export function modelValue(el: Element, param: string): number {
@@ -75,9 +80,17 @@ export function modelValue(el: Element, param: string): number {
   return MODEL_DEFAULTS[kind][param] ?? 0;
 }
 
-function parameterStep(el: Element, param: string): number {
-  const base = Math.abs(modelValue(el, param));
-  return base > 0 ? base * PARAMETER_STEP : 1e-7;
+/**
+ * The central-difference step of a model parameter. A relative step alone fails for a subnormal
+ * value: VTO = 1e-320 times 10⁻⁶ underflows to 0, both copies are the nominal device, and the
+ * difference quotient 0/0 made every σ of the circuit NaN. The step is therefore relative to the
+ * larger of the value and the model's default, and absolute when that is still not a normal number.
+ */
+export function parameterStep(el: Element, param: string): number {
+  const kind = 'model' in el ? (el.model.kind === 'r' ? 'd' : el.model.kind) : undefined;
+  const usual = kind ? Math.abs(MODEL_DEFAULTS[kind][param] ?? 0) : 0;
+  const h = Math.max(Math.abs(modelValue(el, param)), usual) * PARAMETER_STEP;
+  return h >= SMALLEST_NORMAL && Number.isFinite(h) ? h : ABSOLUTE_PARAMETER_STEP;
 }
 
 /** One device copy evaluated in a batch: the instance (maybe with changed parameters) and the solution it sees (maybe with one unknown moved). */
@@ -164,144 +177,89 @@ class Batch {
 }
 
 /**
+ * The device derivatives of one table: from its kind's closed forms (`DeviceTable.sensitivity`)
+ * or, for a kind without them, from central differences of batched copies; `names` lists the
+ * parameters in the order of the result's columns.
+ */
+interface TableDerivatives {
+  T: number;
+  N: number;
+  names: string[];
+  result: DeviceSensitivity;
+}
+
+/**
  * d(output)/d(parameter) for every output and parameter at the linearised solution: one
  * transposed solve per output (Jᵀ·λ = ∂g/∂x, sparse, so an output costs what its part of the
  * circuit costs), then dy/dp = ∂g/∂p − λ·∂F/∂p over the sparse columns ∂F/∂p
- * (docs/VARIATION.md). Device equations enter through the devices' own tables, evaluated in
- * batches of copies at the solution.
+ * (docs/VARIATION.md). Device equations enter through each kind's exact partial derivatives
+ * (`DeviceTable.sensitivity`), one pass over each table; a kind without them is differenced
+ * numerically in batches of copies.
  */
 export function sensitivities(lin: Linearisation, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): SensitivityResult {
   const { layout, conditions, x } = lin;
   const els = layout.circuit.elements;
   const n = layout.size;
   const order = layout.deviceOrder;
+  const tables = layout.tables;
   const v = (u: number): number => (u >= 0 ? x[u] : 0);
-  const deviceOf = new Map<number, number>();
-  for (let d = 0; d < order.element.length; d++) deviceOf.set(order.element[d], d);
-  const globalsOf = (d: number): Int32Array => {
-    const table = layout.tables[order.table[d]];
-    const T = table.kind.terminalCount;
-    return table.instances.terminals.subarray(order.instance[d] * T, order.instance[d] * T + T);
-  };
-  const elementOf = (d: number): Element => layout.tables[order.table[d]].instances.elements[order.instance[d]];
+  // Element index -> its device table and instance (−1: not a device).
+  const tableOf = new Int32Array(els.length).fill(-1);
+  const instanceOf = new Int32Array(els.length);
+  for (let d = 0; d < order.element.length; d++) {
+    tableOf[order.element[d]] = order.table[d];
+    instanceOf[order.element[d]] = order.instance[d];
+  }
   const readerOf = new Map<number, LinearReader>();
   for (const r of layout.readers) readerOf.set(r.element, r);
   const sourceOf = new Map<number, number>();
   layout.sources.forEach((s, k) => sourceOf.set(s.element, k));
-  const at = (t: number): DeviceConditions => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
   const temperatureParam = params.findIndex((p) => p.kind === 'temperature');
 
-  // Which parameters belong to which element (for the explicit ∂g/∂p of an output's own elements).
-  const paramsOfElement = new Map<number, number[]>();
-  params.forEach((p, j) => {
-    if (p.kind === 'temperature') return;
-    const list = paramsOfElement.get(p.element);
-    if (list) list.push(j);
-    else paramsOfElement.set(p.element, [j]);
-  });
+  // The parameters of each element, by element index (for the explicit ∂g/∂p of an output's own elements).
+  const elementParamStart = new Int32Array(els.length + 1);
+  for (const p of params) if (p.kind !== 'temperature') elementParamStart[p.element + 1]++;
+  for (let e = 0; e < els.length; e++) elementParamStart[e + 1] += elementParamStart[e];
+  const elementParams = new Int32Array(elementParamStart[els.length]);
+  {
+    const fill = elementParamStart.slice(0, els.length);
+    params.forEach((p, j) => {
+      if (p.kind !== 'temperature') elementParams[fill[p.element]++] = j;
+    });
+  }
 
-  // ---- the columns ∂F/∂p, gathered by row: rowParams[u] lists (parameter, value) ----
-  const colRow: number[] = [];
-  const colParam: number[] = [];
-  const colValue: number[] = [];
+  // ---- the columns ∂F/∂p, as (row, parameter, value) triples ----
+  const cols = new Triples();
   const put = (j: number, u: number, val: number): void => {
     if (u < 0 || val === 0 || !Number.isFinite(val)) return;
-    colRow.push(u);
-    colParam.push(j);
-    colValue.push(val);
+    cols.push(u, j, val);
   };
 
-  // Devices by kind: the nominal copies (temperature) and the parameter copies (model parameters).
-  const devicesByKind = new Map<DeviceKind, number[]>();
-  for (let d = 0; d < order.element.length; d++) {
-    const kind = layout.tables[order.table[d]].kind;
-    const list = devicesByKind.get(kind);
-    if (list) list.push(d);
-    else devicesByKind.set(kind, [d]);
-  }
-  // Explicit partials of device currents, filled below: (device, terminal, parameter) -> d current / d parameter.
-  // Keys are device·16 + terminal (no kind has 16 terminals) and, for a parameter, that times the parameter count plus j.
-  const explicitDevice = new Map<number, number>();
-  const slot = (d: number, t: number): number => d * 16 + t;
-  const key = (d: number, t: number, j: number): number => slot(d, t) * params.length + j;
-  const wantedTerminals = new Map<number, Set<number>>();
-  for (const out of outputs)
-    for (const term of out.terms)
-      if (term.kind === 'terminal') {
-        const d = deviceOf.get(term.element);
-        if (d === undefined) continue;
-        let set = wantedTerminals.get(d);
-        if (!set) wantedTerminals.set(d, (set = new Set()));
-        set.add(term.terminal);
-      }
+  // Device parameters asked for, per table: the temperature and the model or instance parameters of its instances.
+  const namesOf: Set<string>[] = tables.map(() => new Set<string>());
+  if (temperatureParam >= 0) for (const set of namesOf) set.add(TEMPERATURE_PARAMETER);
+  for (const p of params) if (p.kind === 'model' && tableOf[p.element] >= 0) namesOf[tableOf[p.element]].add(p.param);
+  // Tables an output reads a terminal current of need their current rows even without parameters.
+  const readsTable = new Uint8Array(tables.length);
+  for (const out of outputs) for (const term of out.terms) if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
+  const derivatives: (TableDerivatives | undefined)[] = tables.map((table, k) => {
+    const names = [...namesOf[k]];
+    if (names.length === 0 && !readsTable[k]) return undefined;
+    const result = table.sensitivity?.(x, conditions, names) ?? numericalSensitivity(table, x, conditions, names);
+    return { T: table.kind.terminalCount, N: table.kind.nodeCount, names, result };
+  });
+  // Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result.
+  const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
+  const temperatureColumn: (Float64Array | undefined)[] = derivatives.map((td) => (td && temperatureParam >= 0 ? td.result.currentByParam[td.names.indexOf(TEMPERATURE_PARAMETER)] : undefined));
 
-  const allWanted = new Set<number>();
-  for (const set of wantedTerminals.values()) for (const t of set) allWanted.add(t);
-  // A model with one parameter moved by ±h is the same for every device that shares the model: build each once.
-  const modelCache = new Map<unknown, Map<string, unknown>>();
-  const movedModel = (model: { params: Record<string, number> }, param: string, value: number): unknown => {
-    let byKey = modelCache.get(model);
-    if (!byKey) modelCache.set(model, (byKey = new Map()));
-    const k = `${param}\u0000${value}`;
-    let m = byKey.get(k);
-    if (!m) byKey.set(k, (m = { ...model, params: { ...model.params, [param]: value } }));
-    return m;
-  };
-
-  for (const [kind, devices] of devicesByKind) {
-    const T = kind.terminalCount;
-    // Temperature: every device's residual at T ± h, and the wanted terminal currents.
-    if (temperatureParam >= 0) {
-      const batch = new Batch(kind, devices.map((d) => ({ element: elementOf(d), globals: globalsOf(d), shift: -1, delta: 0 })), x, conditions);
-      const h = TEMPERATURE_STEP;
-      batch.table.prepare(at(conditions.temperatureC + h));
-      const up = batch.residuals();
-      const upI = batch.currents(allWanted);
-      batch.table.prepare(at(conditions.temperatureC - h));
-      const down = batch.residuals();
-      const downI = batch.currents(allWanted);
-      devices.forEach((d, i) => {
-        const g = globalsOf(d);
-        for (let t = 0; t < T; t++) put(temperatureParam, g[t], (up[i * T + t] - down[i * T + t]) / (2 * h));
-      });
-      for (const [t, ups] of upI) {
-        const downs = downI.get(t)!;
-        devices.forEach((d, i) => {
-          if (wantedTerminals.get(d)?.has(t)) explicitDevice.set(key(d, t, temperatureParam), (ups[i] - downs[i]) / (2 * h));
-        });
-      }
-    }
-    // Model parameters: a +h and a −h copy of the device for each.
-    const copies: Variant[] = [];
-    const meta: { d: number; j: number; h: number }[] = [];
-    for (const d of devices) {
-      const e = order.element[d];
-      for (const j of paramsOfElement.get(e) ?? []) {
-        const p = params[j];
-        if (p.kind !== 'model') continue;
-        const el = elementOf(d);
-        if (!('model' in el)) continue;
-        const h = parameterStep(el, p.param);
-        const base = modelValue(el, p.param);
-        for (const delta of [h, -h]) copies.push({ element: { ...el, model: movedModel(el.model, p.param, base + delta) } as Element, globals: globalsOf(d), shift: -1, delta: 0 });
-        meta.push({ d, j, h });
-      }
-    }
-    if (copies.length > 0) {
-      const batch = new Batch(kind, copies, x, conditions);
-      const res = batch.residuals();
-      meta.forEach((m, k) => {
-        const g = globalsOf(m.d);
-        for (let t = 0; t < T; t++) put(m.j, g[t], (res[2 * k * T + t] - res[(2 * k + 1) * T + t]) / (2 * m.h));
-      });
-      const currents = batch.currents(allWanted);
-      for (const t of allWanted) {
-        const cur = currents.get(t)!;
-        meta.forEach((m, k) => {
-          if (wantedTerminals.get(m.d)?.has(t)) explicitDevice.set(key(m.d, t, m.j), (cur[2 * k] - cur[2 * k + 1]) / (2 * m.h));
-        });
-      }
-    }
+  // Temperature: every instance's residual rows.
+  if (temperatureParam >= 0) {
+    derivatives.forEach((td, k) => {
+      if (!td) return;
+      const col = td.result.residualByParam[td.names.indexOf(TEMPERATURE_PARAMETER)];
+      const terminals = tables[k].instances.terminals;
+      for (let q = 0; q < col.length; q++) if (col[q] !== 0) put(temperatureParam, terminals[q], col[q]);
+    });
   }
 
   params.forEach((p, j) => {
@@ -326,6 +284,16 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
           put(j, hook.rows[1], -1);
         }
       }
+    } else if (p.kind === 'model') {
+      const t = tableOf[p.element];
+      const td = t >= 0 ? derivatives[t] : undefined;
+      if (!td) return;
+      const k = td.names.indexOf(p.param);
+      currentColumn[j] = td.result.currentByParam[k];
+      const col = td.result.residualByParam[k];
+      const terminals = tables[t].instances.terminals;
+      const first = instanceOf[p.element] * td.T;
+      for (let r = first; r < first + td.T; r++) put(j, terminals[r], col[r]);
     }
   });
 
@@ -343,84 +311,58 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
 
   // Row-major index of the columns.
   const rowStart = new Int32Array(n + 1);
-  for (const u of colRow) rowStart[u + 1]++;
+  const colCount = cols.length;
+  for (let q = 0; q < colCount; q++) rowStart[cols.row[q] + 1]++;
   for (let u = 0; u < n; u++) rowStart[u + 1] += rowStart[u];
-  const fill = rowStart.slice(0, n);
-  const rowParam = new Int32Array(colRow.length);
-  const rowValue = new Float64Array(colRow.length);
-  for (let q = 0; q < colRow.length; q++) {
-    const at = fill[colRow[q]]++;
-    rowParam[at] = colParam[q];
-    rowValue[at] = colValue[q];
-  }
-
-  // ---- ∂g/∂x of device terminal currents: copies with one unknown moved by ±h ----
-  const deviceRows = new Map<number, { u: number[]; d: number[] }>();
-  const deviceValue = new Map<number, number>();
-  for (const [kind, devices] of devicesByKind) {
-    const wanted = devices.filter((d) => wantedTerminals.has(d));
-    if (wanted.length === 0) continue;
-    const copies: Variant[] = [];
-    const meta: { d: number; u: number }[] = [];
-    const nominalCopies: Variant[] = [];
-    for (const d of wanted) {
-      const g = globalsOf(d);
-      nominalCopies.push({ element: elementOf(d), globals: g, shift: -1, delta: 0 });
-      const seen = new Set<number>();
-      for (let t = 0; t < g.length; t++) {
-        const u = g[t];
-        if (u < 0 || seen.has(u)) continue;
-        seen.add(u);
-        copies.push({ element: elementOf(d), globals: g, shift: u, delta: VOLTAGE_STEP }, { element: elementOf(d), globals: g, shift: u, delta: -VOLTAGE_STEP });
-        meta.push({ d, u });
-      }
-    }
-    const nominalBatch = new Batch(kind, nominalCopies, x, conditions);
-    const batch = new Batch(kind, copies, x, conditions);
-    const terminals = new Set([...wanted].flatMap((d) => [...wantedTerminals.get(d)!]));
-    const nominalAll = nominalBatch.currents(terminals);
-    const shiftedAll = batch.currents(terminals);
-    for (const t of terminals) {
-      const nominalI = nominalAll.get(t)!;
-      wanted.forEach((d, i) => {
-        if (wantedTerminals.get(d)!.has(t)) deviceValue.set(slot(d, t), nominalI[i]);
-      });
-      const cur = shiftedAll.get(t)!;
-      meta.forEach((m, k) => {
-        if (!wantedTerminals.get(m.d)!.has(t)) return;
-        const id = slot(m.d, t);
-        let row = deviceRows.get(id);
-        if (!row) deviceRows.set(id, (row = { u: [], d: [] }));
-        row.u.push(m.u);
-        row.d.push((cur[2 * k] - cur[2 * k + 1]) / (2 * VOLTAGE_STEP));
-      });
+  const rowParam = new Int32Array(colCount);
+  const rowValue = new Float64Array(colCount);
+  {
+    const fill = rowStart.slice(0, n);
+    for (let q = 0; q < colCount; q++) {
+      const at = fill[cols.row[q]]++;
+      rowParam[at] = cols.param[q];
+      rowValue[at] = cols.value[q];
     }
   }
 
   // ---- one sparse transposed solve per output ----
-  const value: number[] = [];
-  const derivative: SparseRow[] = [];
+  const value: number[] = new Array(outputs.length);
+  const derivative: SparseRow[] = new Array(outputs.length);
   const acc = new Float64Array(params.length);
-  const touched: number[] = [];
   const mark = new Uint8Array(params.length);
+  let touched = new Int32Array(64);
+  let touchedCount = 0;
   const lambda = { index: [] as number[], value: [] as number[] };
-  const cMap = new Map<number, number>();
+  // ∂g/∂x, dense with the list of its non-zero unknowns.
+  const cDense = new Float64Array(n);
+  const cMark = new Uint8Array(n);
+  const cIndex: number[] = [];
+  const cValue: number[] = [];
   const add = (j: number, val: number): void => {
     if (!mark[j]) {
       mark[j] = 1;
-      touched.push(j);
+      if (touchedCount === touched.length) {
+        const grown = new Int32Array(touched.length * 2);
+        grown.set(touched);
+        touched = grown;
+      }
+      touched[touchedCount++] = j;
     }
     acc[j] += val;
   };
-  for (const out of outputs) {
-    cMap.clear();
-    const addC = (u: number, val: number): void => {
-      if (u < 0) return;
-      cMap.set(u, (cMap.get(u) ?? 0) + val);
-    };
+  const addC = (u: number, val: number): void => {
+    if (u < 0) return;
+    if (!cMark[u]) {
+      cMark[u] = 1;
+      cIndex.push(u);
+    }
+    cDense[u] += val;
+  };
+  for (let o = 0; o < outputs.length; o++) {
+    const out = outputs[o];
+    cIndex.length = 0;
+    touchedCount = 0;
     let y = 0;
-    touched.length = 0;
-    const explicitTerms: [number, number][] = [];
     for (const term of out.terms) {
       const w = term.weight;
       if (term.kind === 'node') {
@@ -428,20 +370,22 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         addC(term.node - 1, w);
         continue;
       }
+      const e = term.element;
       if (term.kind === 'element') {
-        const r = readerOf.get(term.element);
+        const r = readerOf.get(e);
         if (!r) continue;
         const drop = v(r.a) - v(r.b);
         switch (r.kind) {
           case 'conductance': {
-            const g = lin.conductanceOf(term.element) ?? r.g;
-            const el = els[term.element];
+            const g = lin.conductanceOf(e) ?? r.g;
+            const el = els[e];
             y += w * g * drop;
             addC(r.a, w * g);
             addC(r.b, -w * g);
-            if (el.kind === 'R' && el.resistance > 0) for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'resistance') explicitTerms.push([j, (-w * g * drop) / el.resistance]);
-            const slope = lin.conductanceSlopeOf(term.element);
-            if (slope !== 0 && temperatureParam >= 0) explicitTerms.push([temperatureParam, w * g * slope * drop]);
+            if (el.kind === 'R' && el.resistance > 0)
+              for (let q = elementParamStart[e]; q < elementParamStart[e + 1]; q++) if (params[elementParams[q]].kind === 'resistance') add(elementParams[q], (-w * g * drop) / el.resistance);
+            const slope = lin.conductanceSlopeOf(e);
+            if (slope !== 0 && temperatureParam >= 0) add(temperatureParam, w * g * slope * drop);
             break;
           }
           case 'branch':
@@ -450,7 +394,7 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
             break;
           case 'source-current':
             y += w * lin.sourceValues[r.hook];
-            for (const j of paramsOfElement.get(term.element) ?? []) if (params[j].kind === 'source') explicitTerms.push([j, w]);
+            for (let q = elementParamStart[e]; q < elementParamStart[e + 1]; q++) if (params[elementParams[q]].kind === 'source') add(elementParams[q], w);
             break;
           case 'vccs':
             y += w * r.gain * (v(r.cp) - v(r.cn));
@@ -466,39 +410,167 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         }
         continue;
       }
-      const d = deviceOf.get(term.element);
-      if (d === undefined) continue;
-      const id = slot(d, term.terminal);
-      y += w * (deviceValue.get(id) ?? 0);
-      const row = deviceRows.get(id);
-      if (row) for (let k = 0; k < row.u.length; k++) addC(row.u[k], w * row.d[k]);
-      if (temperatureParam >= 0) explicitTerms.push([temperatureParam, w * (explicitDevice.get(key(d, term.terminal, temperatureParam)) ?? 0)]);
-      for (const j of paramsOfElement.get(term.element) ?? []) {
-        const e = explicitDevice.get(key(d, term.terminal, j));
-        if (e !== undefined) explicitTerms.push([j, w * e]);
+      const t = tableOf[e];
+      const td = t >= 0 ? derivatives[t] : undefined;
+      if (!td || term.terminal >= td.N) continue;
+      const i = instanceOf[e];
+      const q = i * td.N + term.terminal;
+      y += w * td.result.current[q];
+      const terminals = tables[t].instances.terminals;
+      const byV = td.result.currentByVoltage;
+      for (let c = 0; c < td.T; c++) {
+        const d = byV[q * td.T + c];
+        if (d !== 0) addC(terminals[i * td.T + c], w * d);
+      }
+      const tc = temperatureColumn[t];
+      if (tc) add(temperatureParam, w * tc[q]);
+      for (let k = elementParamStart[e]; k < elementParamStart[e + 1]; k++) {
+        const col = currentColumn[elementParams[k]];
+        if (col) add(elementParams[k], w * col[q]);
       }
     }
     const sign = out.magnitude && y < 0 ? -1 : 1;
-    for (const [j, val] of explicitTerms) add(j, val);
-    const cIndex = [...cMap.keys()];
-    const cValue = cIndex.map((u) => cMap.get(u)!);
+    cValue.length = cIndex.length;
+    for (let k = 0; k < cIndex.length; k++) {
+      cValue[k] = cDense[cIndex[k]];
+      cDense[cIndex[k]] = 0;
+      cMark[cIndex[k]] = 0;
+    }
     lin.solveTransposedSparse(cIndex, cValue, lambda);
     for (let k = 0; k < lambda.index.length; k++) {
       const u = lambda.index[k];
       const l = lambda.value[k];
+      if (l === 0) continue;
       for (let q = rowStart[u]; q < rowStart[u + 1]; q++) add(rowParam[q], -l * rowValue[q]);
     }
-    touched.sort((a, b) => a - b);
-    const index = new Int32Array(touched.length);
-    const vals = new Float64Array(touched.length);
-    touched.forEach((j, k) => {
-      index[k] = j;
+    const index = touched.slice(0, touchedCount).sort();
+    const vals = new Float64Array(touchedCount);
+    for (let k = 0; k < touchedCount; k++) {
+      const j = index[k];
       vals[k] = sign * acc[j];
       acc[j] = 0;
       mark[j] = 0;
-    });
-    value.push(sign * y);
-    derivative.push({ index, value: vals });
+    }
+    value[o] = sign * y;
+    derivative[o] = { index, value: vals };
   }
   return { value, derivative, adjointSolves: outputs.length };
+}
+
+/** A growable list of (row, parameter, value) triples in typed arrays. */
+class Triples {
+  row = new Int32Array(1024);
+  param = new Int32Array(1024);
+  value = new Float64Array(1024);
+  length = 0;
+  push(row: number, param: number, value: number): void {
+    if (this.length === this.row.length) {
+      const size = this.row.length * 2;
+      const r = new Int32Array(size);
+      r.set(this.row);
+      this.row = r;
+      const p = new Int32Array(size);
+      p.set(this.param);
+      this.param = p;
+      const v = new Float64Array(size);
+      v.set(this.value);
+      this.value = v;
+    }
+    this.row[this.length] = row;
+    this.param[this.length] = param;
+    this.value[this.length++] = value;
+  }
+}
+
+/**
+ * A kind without closed-form partials: its table's parameters moved one at a time, and every
+ * terminal voltage by ±1 µV, in batched copies of its instances (central differences; steps in
+ * VOLTAGE_STEP, TEMPERATURE_STEP and `parameterStep`).
+ */
+function numericalSensitivity(table: DeviceTable, x: Float64Array, conditions: DeviceConditions, names: readonly string[]): DeviceSensitivity {
+  const kind = table.kind;
+  const T = kind.terminalCount;
+  const N = kind.nodeCount;
+  const inst = table.instances;
+  const count = inst.count;
+  const out = allocateSensitivity(count, T, N, names.length);
+  const globalsOf = (i: number): Int32Array => inst.terminals.subarray(i * T, i * T + T);
+  const at = (t: number): DeviceConditions => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
+  const all = Array.from({ length: N }, (_, t) => t);
+  const nominal = new Batch(kind, inst.elements.map((el, i) => ({ element: el, globals: globalsOf(i), shift: -1, delta: 0 })), x, conditions);
+  const base = nominal.currents(all);
+  for (let t = 0; t < N; t++) for (let i = 0; i < count; i++) out.current[i * N + t] = base.get(t)![i];
+  names.forEach((name, k) => {
+    let up: Float64Array;
+    let down: Float64Array;
+    let upI: Map<number, Float64Array>;
+    let downI: Map<number, Float64Array>;
+    let h: Float64Array;
+    if (name === TEMPERATURE_PARAMETER) {
+      nominal.table.prepare(at(conditions.temperatureC + TEMPERATURE_STEP));
+      up = nominal.residuals();
+      upI = nominal.currents(all);
+      nominal.table.prepare(at(conditions.temperatureC - TEMPERATURE_STEP));
+      down = nominal.residuals();
+      downI = nominal.currents(all);
+      nominal.table.prepare(conditions);
+      h = new Float64Array(count).fill(TEMPERATURE_STEP);
+    } else {
+      h = new Float64Array(count);
+      const copies: Variant[] = [];
+      for (let i = 0; i < count; i++) {
+        const el = inst.elements[i];
+        h[i] = parameterStep(el, name);
+        const value = modelValue(el, name);
+        for (const delta of [h[i], -h[i]]) copies.push({ element: withModelValue(el, name, value + delta), globals: globalsOf(i), shift: -1, delta: 0 });
+      }
+      const batch = new Batch(kind, copies, x, conditions);
+      const res = batch.residuals();
+      const cur = batch.currents(all);
+      up = new Float64Array(count * T);
+      down = new Float64Array(count * T);
+      upI = new Map();
+      downI = new Map();
+      for (let i = 0; i < count; i++)
+        for (let t = 0; t < T; t++) {
+          up[i * T + t] = res[2 * i * T + t];
+          down[i * T + t] = res[(2 * i + 1) * T + t];
+        }
+      for (let t = 0; t < N; t++) {
+        const c = cur.get(t)!;
+        upI.set(t, Float64Array.from({ length: count }, (_, i) => c[2 * i]));
+        downI.set(t, Float64Array.from({ length: count }, (_, i) => c[2 * i + 1]));
+      }
+    }
+    for (let i = 0; i < count; i++) {
+      for (let r = 0; r < T; r++) out.residualByParam[k][i * T + r] = (up[i * T + r] - down[i * T + r]) / (2 * h[i]);
+      for (let t = 0; t < N; t++) out.currentByParam[k][i * N + t] = (upI.get(t)![i] - downI.get(t)![i]) / (2 * h[i]);
+    }
+  });
+  // ∂(terminal current)/∂(terminal voltage): a +1 µV and a −1 µV copy per terminal with its own unknown.
+  const copies: Variant[] = [];
+  const meta: { i: number; c: number }[] = [];
+  for (let i = 0; i < count; i++) {
+    const g = globalsOf(i);
+    for (let c = 0; c < T; c++) {
+      const u = g[c];
+      if (u < 0 || g.indexOf(u) !== c) continue;
+      copies.push({ element: inst.elements[i], globals: g, shift: u, delta: VOLTAGE_STEP }, { element: inst.elements[i], globals: g, shift: u, delta: -VOLTAGE_STEP });
+      meta.push({ i, c });
+    }
+  }
+  if (copies.length > 0) {
+    const cur = new Batch(kind, copies, x, conditions).currents(all);
+    for (let t = 0; t < N; t++) {
+      const col = cur.get(t)!;
+      meta.forEach((m, q) => (out.currentByVoltage[(m.i * N + t) * T + m.c] = (col[2 * q] - col[2 * q + 1]) / (2 * VOLTAGE_STEP)));
+    }
+  }
+  return out;
+}
+
+/** The element with one model parameter replaced (its own copy of the model). */
+function withModelValue(el: Element, param: string, value: number): Element {
+  if (!('model' in el)) return el;
+  return { ...el, model: { ...el.model, params: { ...el.model.params, [param]: value } } } as Element;
 }
