@@ -12,7 +12,7 @@ import { fractionWithin, spreadOf, type VariationDetail } from '../variation/ind
 export const VARIATION_CODES: Record<string, { severity: Severity; summary: string }> = {
   'target-yield-low': {
     severity: 'warning',
-    summary: 'An element meets a target that states its tolerance at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it.',
+    summary: 'An element meets its target at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it. A warning when the target writes its tolerance, information when the window is the default one (the resistor series\' tolerance).',
   },
 };
 
@@ -26,7 +26,13 @@ const AREA_FACTORS = [2, 4, 8, 16, 32];
 const pct = (r: number): string => formatPercent(r, 3).replace(/^\+/, '');
 const plain = (r: number): string => `${+(r * 100).toPrecision(3)} %`;
 
-/** A `target-yield-low` finding for every target element, of a target that writes its own tolerance, whose predicted yield falls below `yieldTarget`; targets already missed at nominal are left to `target-missed`. */
+/**
+ * A `target-yield-low` finding for every target element whose predicted yield falls below
+ * `yieldTarget`. A target without its own tolerance is held to the window the target check holds
+ * it to (the resistor series' tolerance), so it gets the same finding, as information: the window
+ * is a default, not a figure the designer wrote (as `target-missed-at-corner` does for a corner
+ * tolerance). Targets already missed at nominal are left to `target-missed`.
+ */
 export function checkYield(circuit: Circuit, structures: Structure[], targets: Target[], detail: VariationDetail, yieldTarget: number): Finding[] {
   const out: Finding[] = [];
   const index = new TargetIndex(circuit, structures);
@@ -35,8 +41,7 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
     if (s.role === 'element' || s.role === 'iout') if (s.element && !specIndex.has(s.element)) specIndex.set(s.element, o);
   });
   for (const t of targets) {
-    // A window the designer did not write (the series tolerance by default) is not theirs to be held to.
-    if (t.tolerance === undefined) continue;
+    const own = t.tolerance !== undefined;
     for (const el of targetElements(circuit, t, index)) {
       const o = specIndex.get(el.name);
       if (o === undefined) continue;
@@ -52,14 +57,14 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
       const topGroup = top ? groupOf(detail, o, top.name) : undefined;
       const fix = topGroup ? fixFor(detail, o, topGroup, lo, hi, yieldTarget) : undefined;
       const message =
-        `Predicted yield of ${el.name} against ${formatEngineering(current, { unit: 'A', digits: 3 })} ±${plain(tolerance)} is ${pct(y)}, below ${pct(yieldTarget)}: ` +
+        `Predicted yield of ${el.name} against ${formatEngineering(current, { unit: 'A', digits: 3 })} ±${plain(tolerance)}${own ? '' : ' (the default window: the target writes no tolerance, so it takes the resistor series\' tolerance)'} is ${pct(y)}, below ${pct(yieldTarget)}: ` +
         `σ ${plain(v.sigmaRelative)} (±3σ ${plain(3 * v.sigmaRelative)}), worst case ±${plain(v.worstCaseRelative)}` +
         (top ? `; the largest contributor is ${top.name} (${plain(top.share)} of the variance).` : '.') +
         (fix ? ` ${fix.text}` : top ? ` No single change to ${top.name} brings the yield to ${pct(yieldTarget)}: widen the window or reduce the other contributors too.` : '') +
         centring(nominal, current, v.sigma, lo, hi, y);
       out.push({
         code: 'target-yield-low',
-        severity: VARIATION_CODES['target-yield-low'].severity,
+        severity: own ? VARIATION_CODES['target-yield-low'].severity : 'info',
         message,
         uri: t.uri,
         span: t.span,
@@ -67,6 +72,8 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
           element: el.name,
           yield: y,
           yieldTarget,
+          tolerance,
+          windowFrom: own ? 'target' : 'default',
           sigmaRelative: v.sigmaRelative,
           worstCaseRelative: v.worstCaseRelative,
           contributors: v.contributors.slice(0, 3),

@@ -27,6 +27,7 @@ describe('yield against targets', () => {
     const a = run(text);
     const f = a.findings.filter((x) => x.code === 'target-yield-low');
     expect(f).toHaveLength(1);
+    expect(f[0].severity).toBe('warning');
     expect(text.slice(f[0].span.start, f[0].span.end)).toBe('expect 1mA ±6%');
     expect(f[0].message).toMatch(/Predicted yield of Q2 against 1 mA ±6 % is/);
     // 5 % RREF (σ 1.67 %) and the default 0.5 mV VBE mismatch (σ ≈ 1.9 % of the output) against a ±6 % window.
@@ -75,11 +76,41 @@ RL vcc out 2k
     for (const fix of f.fixes!) expect(fix.title).toMatch(/; predicted yield \d+(\.\d+)? %/);
   });
 
-  it('are not flagged for a target that writes no tolerance of its own', () => {
-    const a = run(mirror('RREF vcc ref 9.1k', '; expect 1mA'));
-    expect(a.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
-    expect(a.variation!.outputs.find((o) => o.key === 'element Q2')!.target!.yield).toBeLessThan(0.997);
+  it('are flagged, as information, for a target that writes no tolerance of its own (the series tolerance is its window)', () => {
+    const text = mirror('RREF vcc ref 9.1k', '; expect 1mA');
+    const a = run(text);
+    const f = a.findings.filter((x) => x.code === 'target-yield-low');
+    expect(f).toHaveLength(1);
+    expect(f[0].severity).toBe('info');
+    expect(text.slice(f[0].span.start, f[0].span.end)).toBe('expect 1mA');
+    // The default series is E24, whose tolerance is 5 % (IEC 60063 series; the tolerance is common practice).
+    expect(f[0].message).toMatch(/against 1 mA ±5 % \(the default window: .*series' tolerance\) is \d/);
+    expect(f[0].data).toMatchObject({ tolerance: 0.05, windowFrom: 'default' });
+    expect(f[0].message).toMatch(/largest contributor is /);
+    const v = a.variation!.outputs.find((o) => o.key === 'element Q2')!;
+    expect(v.target!.tolerance).toBe(0.05);
+    expect(f[0].data!['yield']).toBe(v.target!.yield);
+    expect(v.target!.yield).toBeLessThan(0.997);
   });
+
+  it('give every target its predicted yield, with or without its own tolerance', () => {
+    const a = run(`two targets
+VCC vcc 0 10 ; tol 0.5%
+RREF vcc ref 9.1k ; tol 0.1%
+Q1 ref ref 0 qn
+Q2 out ref 0 qn ; expect 1mA
+Q3 out3 ref 0 qn ; expect 1mA ±10%
+RL vcc out 2k
+RL3 vcc out3 2k
+.model qn npn(IS=1e-15 BF=200)
+.end
+`);
+    const yields = ['Q2', 'Q3'].map((d) => a.variation!.outputs.find((o) => o.element === d && o.target)?.target);
+    expect(yields[0]).toMatchObject({ current: 1e-3, tolerance: 0.05 });
+    expect(yields[1]).toMatchObject({ current: 1e-3, tolerance: 0.1 });
+    for (const y of yields) expect(y!.yield).toBeGreaterThan(0);
+  });
+
 });
 
 describe('every kind of current carrier', () => {
