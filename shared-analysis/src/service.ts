@@ -125,10 +125,11 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
       pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
       pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
-      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result, shouldStop: control.shouldStop, stop: () => new AnalysisStopped() })));
       }
+      // After the corners: the start-up check reads the state each corner's solve chose.
+      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       const targets = timed('targets', () => readTargets(elab.documents));
       pushAll(findings, targets.findings);
       pushAll(findings, timed('targets', () =>

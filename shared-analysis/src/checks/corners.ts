@@ -156,6 +156,35 @@ export function cornerSpecs(options: ResolvedOptions, nominalC: number, sources:
   return specs;
 }
 
+/** The supply values of one corner: every supply scaled, or one supply alone (a single-source corner). */
+export function cornerSourceValues(spec: CornerSpec, sources: string[], dcOf: Map<string, number>): Record<string, number> {
+  const sourceValues: Record<string, number> = nameTable();
+  for (const name of sources) {
+    const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
+    if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
+  }
+  return sourceValues;
+}
+
+/** Which corner axes a circuit has: beta with bipolar devices, the MOS process with MOSFETs, temperature with anything that moves with it. */
+export function cornerScope(circuit: Circuit): { bipolar: boolean; mos: boolean; thermal: boolean } {
+  return { bipolar: circuit.elements.some((e) => e.kind === 'Q'), mos: circuit.elements.some((e) => e.kind === 'M'), thermal: circuit.elements.some(movesWithTemperature) };
+}
+
+/** The model parameters of a MOS process corner: slow is KP·(1 − tol) with the threshold magnitude raised by the shift, fast the reverse (every MOSFET together). */
+export function processCornerParameters(circuit: Circuit, options: ResolvedOptions, process: 'slow' | 'fast'): Record<string, Record<string, number>> {
+  const sign = process === 'slow' ? 1 : -1;
+  const out: Record<string, Record<string, number>> = nameTable();
+  for (const e of circuit.elements) {
+    if (e.kind !== 'M') continue;
+    const kp = modelValue(e, 'KP');
+    const vto = modelValue(e, 'VTO');
+    const polarity = e.model.kind === 'pmos' ? -1 : 1;
+    out[e.name] = { KP: kp * (1 - sign * (options.corners.processKpTolerance ?? 0)), VTO: vto + polarity * sign * (options.corners.processVtoShift ?? 0) };
+  }
+  return out;
+}
+
 /** Whether an element's DC behaviour depends on temperature (docs/DEVICE-MODELS.md): diodes, transistors, JFETs, and resistors with TC1/TC2. */
 export function movesWithTemperature(el: Element): boolean {
   switch (el.kind) {
@@ -201,20 +230,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
-  const specs = cornerSpecs(options, nominalC, sources, { bipolar: circuit.elements.some((e) => e.kind === 'Q'), mos: circuit.elements.some((e) => e.kind === 'M'), thermal: circuit.elements.some(movesWithTemperature) });
-  const processParameters = (process: 'slow' | 'fast'): Record<string, Record<string, number>> => {
-    // Slow: KP·(1 − tol) and the threshold magnitude raised by the shift; fast the reverse (every MOSFET together).
-    const sign = process === 'slow' ? 1 : -1;
-    const out: Record<string, Record<string, number>> = nameTable();
-    for (const e of circuit.elements) {
-      if (e.kind !== 'M') continue;
-      const kp = modelValue(e, 'KP');
-      const vto = modelValue(e, 'VTO');
-      const polarity = e.model.kind === 'pmos' ? -1 : 1;
-      out[e.name] = { KP: kp * (1 - sign * (options.corners.processKpTolerance ?? 0)), VTO: vto + polarity * sign * (options.corners.processVtoShift ?? 0) };
-    }
-    return out;
-  };
+  const specs = cornerSpecs(options, nominalC, sources, cornerScope(circuit));
+  const processParameters = (process: 'slow' | 'fast'): Record<string, Record<string, number>> => processCornerParameters(circuit, options, process);
 
   let solveMs = 0;
   const tStart = clock();
@@ -250,11 +267,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   let failedCount = 0;
   specs.forEach((spec, k) => {
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
-    const sourceValues: Record<string, number> = nameTable();
-    for (const name of sources) {
-      const scale = spec.singleSource === undefined ? spec.supplyScale : name === spec.singleSource ? spec.singleScale ?? 1 : 1;
-      if (scale !== 1) sourceValues[name] = (dcOf.get(name) ?? 0) * scale;
-    }
+    const sourceValues = cornerSourceValues(spec, sources, dcOf);
     const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     let result: DcSolveResult | undefined;
     const ts = clock();

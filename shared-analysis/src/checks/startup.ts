@@ -8,10 +8,12 @@ import { kindName, kindOf } from '../structures/catalogue';
 import { eng } from '../structures/format';
 import { isAtTemperature, thermalVolts } from '../structures/formulas';
 import { feedLoops } from '../structures/loops';
+import { measureStructure } from '../structures/measure';
 import { polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import type { StartupResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
-import { cornerSpecs, supplySources } from './corners';
+import { cornerScope, cornerSourceValues, cornerSpecs, processCornerParameters, supplySources } from './corners';
+import { maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
@@ -48,8 +50,17 @@ const OFF_FRACTION = 1e-6;
  * (Bellman–Ford; Cormen, Leiserson, Rivest and Stein, "Introduction to Algorithms", ch. 24).
  * Nodes only the loop's devices touch are free; nodes the rest of the circuit fixes are not. A start-up
  * resistor or device drives a loop node with the loop off and makes the zero state impossible.
- * Repeated at the supply and temperature corners. Fills `structure.startup` on every loop member
- * and returns one warning per loop that can rest at zero current.
+ *
+ * Repeated at every corner of the corner table (`cornerSpecs`, when corners are enabled). Beta does not
+ * move the zero state (no device conducts in it), so corners that differ only in beta share one verdict
+ * and one loop-off solve; supply, temperature, the MOS process and single-supply corners each get theirs.
+ * The state the solver chose at each corner is the corner table's own solve (run before this check), so
+ * it costs nothing more. Where a start-up path exists, the whole circuit is solved once from the all-off
+ * state at nominal and once at the hardest corner (lowest supply, then coldest, then slow MOS: where a
+ * start-up resistor delivers least and the junctions it must open need most, common practice), which
+ * shows by a solve that the path turns the loop on there too.
+ *
+ * Fills `structure.startup` on every loop member and returns one warning per loop that can rest at zero current.
  */
 export function checkStartup(ctx: StartupContext): Finding[] {
   const { circuit, structures, op } = ctx;
@@ -58,68 +69,140 @@ export function checkStartup(ctx: StartupContext): Finding[] {
   const loops = feedLoops(topo, structures);
   if (loops.length === 0) return [];
   const findings: Finding[] = [];
-  const conditions = startupConditions(circuit, ctx.options, op.temperatureC);
+  const { conditions, labels: cornerLabels } = startupConditions(circuit, ctx.options, op.temperatureC);
   const batched = loops.length > MAX_SEPARATE_LOOPS;
   const allOff = batched ? offSolver(circuit, new Set(loops.flat().flatMap((s) => s.devices))) : undefined;
   const full = batched ? undefined : new DcSolver(circuit);
   for (const loop of loops) {
     const devices = new Set(loop.flatMap((s) => s.devices));
     const solver = allOff ?? offSolver(circuit, devices);
-    const current = referenceCurrent(mainOf(loop), op);
-    const zeroAt: string[] = [];
+    const main = mainOf(loop);
+    const current = referenceCurrent(main, op);
+    const zeroAt = new Set<string>();
+    const checked = new Set<string>();
     let nominal: Verdict | undefined;
     let nominalOff: OperatingPoint | undefined;
+    let hardest: { cond: Condition; verdict: Verdict; offOp: OperatingPoint } | undefined;
+    // Each corner's loop-off solve starts from the nominal one (conditions[0]), as the corner table's solves start from the nominal point.
+    let warm: { x: Float64Array; temperatureC: number } | undefined;
     for (const cond of conditions) {
       let offOp: OperatingPoint | undefined;
       try {
-        const r = solver.solve({ temperatureC: cond.temperatureC, sourceValues: cond.sourceValues });
+        const r = solver.solve({
+          temperatureC: cond.temperatureC,
+          sourceValues: cond.sourceValues,
+          ...(cond.deviceParameters ? { deviceParameters: cond.deviceParameters } : {}),
+          ...(warm ? { initialGuess: warm.x, initialGuessTemperatureC: warm.temperatureC } : {}),
+        });
         offOp = r.op.converged ? r.op : undefined;
+        if (cond.nominal && offOp) warm = { x: r.x, temperatureC: cond.temperatureC };
       } catch {
         offOp = undefined;
       }
       if (!offOp) continue;
-      const v = zeroStateVerdict(topo, devices, offOp, current, cond.temperatureC, circuit);
-      if (cond.label === '') {
-        nominal = v;
-        nominalOff = offOp;
+      const v = zeroStateVerdict(topo, devices, offOp, current, cond.temperatureC, circuit, cond.deviceParameters);
+      for (const label of cond.labels) {
+        if (label === '') {
+          nominal = v;
+          nominalOff = offOp;
+          continue;
+        }
+        checked.add(label);
+        if (v.feasible) zeroAt.add(label);
       }
-      else if (v.feasible) zeroAt.push(cond.label);
+      if (!cond.nominal && !v.feasible && v.path && v.rest && (!hardest || harder(cond, hardest.cond))) hardest = { cond, verdict: v, offOp };
     }
+    const labels = cornerLabels;
     const result: StartupResult = {
       loopDevices: [...devices],
       loopStructures: loop.map((s) => s.id),
       zeroStateNominal: nominal?.feasible ?? false,
-      zeroStateCorners: zeroAt,
+      zeroStateCorners: labels.filter((l) => zeroAt.has(l)),
       ...(nominal && !nominal.feasible && nominal.path ? { startupPath: nominal.path } : {}),
       solvedCurrent: current,
+      corners: labels.filter((l) => checked.has(l)).map((label) => chosenState(main, label, zeroAt.has(label))),
     };
-    if (nominal?.rest && nominalOff) result.allOffStart = allOffStart(full, circuit, topo, devices, mainOf(loop), nominalOff, nominal, op.temperatureC);
+    if (nominal?.rest && nominalOff) {
+      const start = allOffStart(full, circuit, topo, devices, main, nominalOff, nominal, { temperatureC: op.temperatureC });
+      if (start) result.allOffStart = { restNodes: start.restNodes, ...(start.solved ? { solved: start.solved } : {}) };
+    }
+    if (hardest && nominal && !nominal.feasible) {
+      const c = hardest.cond;
+      const start = allOffStart(full, circuit, topo, devices, main, hardest.offOp, hardest.verdict, { temperatureC: c.temperatureC, sourceValues: c.sourceValues, deviceParameters: c.deviceParameters });
+      // Measured as the corner table measures IREF, so it compares with the state that corner's own solve chose.
+      if (start?.solved) result.allOffStartCorner = { label: c.label, solved: { converged: start.solved.converged, current: start.solved.converged ? start.iref ?? 0 : 0 } };
+    }
     for (const s of loop) s.startup = result;
-    if (result.zeroStateNominal || zeroAt.length > 0) findings.push(loopFinding(topo, loop, result));
+    if (result.zeroStateNominal || result.zeroStateCorners.length > 0) findings.push(loopFinding(topo, loop, result));
   }
   return findings;
 }
 
-/** One condition the zero state is checked at: nominal (label '') and the supply/temperature corners. */
-interface Condition {
-  label: string;
-  temperatureC: number;
-  sourceValues?: Record<string, number>;
+/** One corner's line of a loop's start-up record: whether the zero state exists there, and the state the corner table's solve chose. */
+function chosenState(main: Structure, label: string, zeroState: boolean): NonNullable<StartupResult['corners']>[number] {
+  const c = main.corners.find((x) => x.label === label);
+  if (!c) return { label, zeroState };
+  return { label, zeroState, converged: c.converged, ...(c.converged && Number.isFinite(c.iref) ? { solvedCurrent: c.iref } : {}) };
 }
 
-function startupConditions(circuit: Circuit, options: ResolvedOptions, nominalC: number): Condition[] {
-  const out: Condition[] = [{ label: '', temperatureC: nominalC }];
+/**
+ * One state of the rest of the circuit the zero state is checked in: nominal, or one corner's supply,
+ * temperature and MOS process. `labels` are the corner-table labels that share it ('' for nominal):
+ * corners that differ only in beta.
+ */
+interface Condition {
+  label: string;
+  labels: string[];
+  nominal: boolean;
+  temperatureC: number;
+  /** Scale of the supply that moves (every supply, or the one of a single-source corner). */
+  supplyScale: number;
+  process?: 'slow' | 'fast';
+  sourceValues?: Record<string, number>;
+  deviceParameters?: Record<string, Record<string, number>>;
+}
+
+/** Whether `a` is a harder condition to start in than `b`: lower supply, then colder, then slow MOS. */
+function harder(a: Condition, b: Condition): boolean {
+  if (a.supplyScale !== b.supplyScale) return a.supplyScale < b.supplyScale;
+  if (a.temperatureC !== b.temperatureC) return a.temperatureC < b.temperatureC;
+  return a.process === 'slow' && b.process !== 'slow';
+}
+
+/** The conditions to check, nominal first, and every corner label in the corner table's order. */
+function startupConditions(circuit: Circuit, options: ResolvedOptions, nominalC: number): { conditions: Condition[]; labels: string[] } {
+  const nominal: Condition = { label: '', labels: [''], nominal: true, temperatureC: nominalC, supplyScale: 1 };
+  const out: Condition[] = [nominal];
+  const labels: string[] = [];
+  if (!options.corners.enabled) return { conditions: out, labels };
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
-  // Beta does not move the zero state (no device conducts); supply and temperature do (a start-up device's threshold).
-  for (const spec of cornerSpecs(options, nominalC, sources, { bipolar: false })) {
-    if (spec.singleSource !== undefined) continue;
-    const sourceValues: Record<string, number> = nameTable();
-    if (spec.supplyScale !== 1) for (const n of sources) sourceValues[n] = (dcOf.get(n) ?? 0) * spec.supplyScale;
-    out.push({ label: spec.label, temperatureC: spec.temperatureC, sourceValues });
+  const byKey = new Map<string, Condition>([['|1|' + nominalC + '|', nominal]]);
+  // The corner table's own corners; beta does not move the zero state (no device conducts), so corners that differ only in beta share one condition.
+  for (const spec of cornerSpecs(options, nominalC, sources, cornerScope(circuit))) {
+    labels.push(spec.label);
+    const scale = spec.singleSource === undefined ? spec.supplyScale : spec.singleScale ?? 1;
+    const key = `${spec.singleSource ?? ''}|${scale}|${spec.temperatureC}|${spec.process ?? ''}`;
+    const known = byKey.get(key);
+    if (known) {
+      known.labels.push(spec.label);
+      if (spec.betaScale === 1 && !known.nominal) known.label = spec.label;
+      continue;
+    }
+    const cond: Condition = {
+      label: spec.label,
+      labels: [spec.label],
+      nominal: false,
+      temperatureC: spec.temperatureC,
+      supplyScale: scale,
+      ...(spec.process ? { process: spec.process, deviceParameters: processCornerParameters(circuit, options, spec.process) } : {}),
+      sourceValues: cornerSourceValues(spec, sources, dcOf),
+    };
+    byKey.set(key, cond);
+    out.push(cond);
   }
-  return out;
+  return { conditions: out, labels };
 }
 
 /** A solver for the circuit with the given devices taken out (they carry no current in the zero state). */
@@ -164,8 +247,8 @@ function allOffStart(
   main: Structure,
   offOp: OperatingPoint,
   verdict: Verdict,
-  temperatureC: number,
-): StartupResult['allOffStart'] {
+  at: { temperatureC: number; sourceValues?: Record<string, number>; deviceParameters?: Record<string, Record<string, number>> },
+): (StartupResult['allOffStart'] & { iref?: number }) | undefined {
   const rest = verdict.rest ?? new Map<number, number>();
   const n = full?.unknownCount ?? circuit.nodes.length - 1;
   const guess = new Float64Array(Math.max(n, 0));
@@ -183,7 +266,13 @@ function allOffStart(
   if (!full || verdict.feasible || !verdict.path) return { restNodes };
   let r;
   try {
-    r = full.solve({ temperatureC, initialGuess: guess, initialGuessTemperatureC: temperatureC });
+    r = full.solve({
+      temperatureC: at.temperatureC,
+      initialGuess: guess,
+      initialGuessTemperatureC: at.temperatureC,
+      ...(at.sourceValues ? { sourceValues: at.sourceValues } : {}),
+      ...(at.deviceParameters ? { deviceParameters: at.deviceParameters } : {}),
+    });
   } catch {
     return { restNodes };
   }
@@ -193,7 +282,7 @@ function allOffStart(
     const v = r.op.nodes[topo.nodeName(k)];
     if (v !== undefined) nodes[topo.nodeName(k)] = v;
   }
-  return { restNodes, solved: { converged: true, current: referenceCurrent(main, r.op), nodes } };
+  return { restNodes, solved: { converged: true, current: referenceCurrent(main, r.op), nodes }, iref: measureStructure(circuit, r.op, main, topo).iref };
 }
 
 /** One bound x[to] − x[from] ≤ w between node voltages (node −1 is the fixed reference, 0 V). */
@@ -209,7 +298,15 @@ interface Bound {
  * own polarity. BJT: the voltage at which the junction carries OFF_FRACTION of the loop's current
  * (never above 0.4 V); MOS: the threshold (no current below it in the square law); JFET: the pinch-off voltage.
  */
-function zeroStateVerdict(topo: Topology, devices: Set<string>, offOp: OperatingPoint, loopI: number, temperatureC: number, circuit: Circuit): Verdict {
+function zeroStateVerdict(
+  topo: Topology,
+  devices: Set<string>,
+  offOp: OperatingPoint,
+  loopI: number,
+  temperatureC: number,
+  circuit: Circuit,
+  parameters?: Record<string, Record<string, number>>,
+): Verdict {
   const loopT = [...devices].map((d) => topo.byName.get(d)).filter((t): t is Transistor => !!t);
   const nodes = new Set<number>();
   for (const t of loopT) nodes.add(t.out).add(t.ctrl).add(t.common);
@@ -217,7 +314,7 @@ function zeroStateVerdict(topo: Topology, devices: Set<string>, offOp: Operating
   const bounds: Bound[] = [];
   for (const t of loopT) {
     const sign = polaritySign(t.tech);
-    const w = offVoltage(t, loopI, temperatureC, circuit);
+    const w = offVoltage(t, loopI, temperatureC, circuit, parameters?.[t.name]);
     // sign·(V(ctrl) − V(x)) ≤ w for x the common and the output terminal.
     for (const x of [t.common, t.out]) {
       if (x === t.ctrl) continue;
@@ -284,8 +381,9 @@ function fixedNodes(topo: Topology, devices: Set<string>, offOp: OperatingPoint,
 }
 
 /** The junction voltage (own polarity) below which a loop device counts as off. */
-function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit: Circuit): number {
-  const p = t.element.model.params;
+function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit: Circuit, overrides?: Record<string, number>): number {
+  // A process corner's model parameters (VTO, KP) replace the model's for this device.
+  const p = overrides ? { ...t.element.model.params, ...overrides } : t.element.model.params;
   if (t.element.kind === 'M') return Math.max(polaritySign(t.tech) * (p.VTO ?? 0), 0) + 1e-3;
   // A JFET's channel is off at or below its pinch-off voltage, which keeps the device's own sense (negative for a depletion device).
   if (t.element.kind === 'J') return Number.isFinite(p.VTO) ? p.VTO : -2;
@@ -334,13 +432,35 @@ function feasibleBounds(bounds: Bound[], fixed: Map<number, number>): Map<number
   return undefined;
 }
 
+/** Corner labels in running text: at most four, then how many more. */
+function listed(labels: string[], max = 4): string {
+  return labels.length <= max ? labels.join('; ') : `${labels.slice(0, max).join('; ')}; and ${labels.length - max} more`;
+}
+
+/** The states the corner solves chose where the zero state also exists: conducting (with their range) or at rest. */
+function cornerStates(r: StartupResult): string {
+  const at = (r.corners ?? []).filter((c) => c.zeroState && c.converged && c.solvedCurrent !== undefined);
+  if (at.length === 0) return '';
+  const on = at.filter((c) => c.solvedCurrent! >= SETTLED_ON);
+  const off = at.filter((c) => c.solvedCurrent! < SETTLED_ON);
+  const parts: string[] = [];
+  if (on.length) {
+    const lo = minOf(on.map((c) => c.solvedCurrent!));
+    const hi = maxOf(on.map((c) => c.solvedCurrent!));
+    parts.push(` At ${on.length === at.length ? 'those corners' : `${on.length} of those corners`} the corner solves settled on the conducting state (${lo === hi ? eng(lo, 'A') : `${eng(lo, 'A')} to ${eng(hi, 'A')}`}).`);
+  }
+  if (off.length) parts.push(` At ${listed(off.map((c) => c.label))} the corner solve itself settled at almost no current.`);
+  return parts.join('');
+}
+
 function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Finding {
   const main = mainOf(loop);
   const at = topo.elementByName.get(main.reference.device) as Element;
   const names = loop.map((s) => `the ${kindName(s.kind)} on ${s.reference.device}`).join(' and ');
+  const total = r.corners?.length ?? 0;
   const when = r.zeroStateNominal
-    ? `at nominal supply and temperature${r.zeroStateCorners.length ? ` (and at ${r.zeroStateCorners.length} of the corners)` : ''}`
-    : `at ${r.zeroStateCorners.join('; ')} (not at nominal)`;
+    ? `at nominal supply and temperature${r.zeroStateCorners.length ? ` (and at ${r.zeroStateCorners.length} of the ${total} corners)` : ''}`
+    : `at ${listed(r.zeroStateCorners)} (not at nominal)`;
   const i = r.solvedCurrent ?? 0;
   const solved =
     i >= SETTLED_ON
@@ -349,6 +469,7 @@ function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Findi
   const message =
     `The self-biased loop of ${names} can rest at zero current ${when}: with its devices off, nothing in the rest of the circuit drives any of them on, so at power-up it can stay dead.` +
     solved +
+    cornerStates(r) +
     ` Usual remedies: a start-up resistor from the supply into the loop's reference node (large enough not to disturb the bias), or a start-up device that injects current while the loop is off and turns itself off once it conducts.`;
   const related: RelatedLocation[] = [];
   for (const d of r.loopDevices) {

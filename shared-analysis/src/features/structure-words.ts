@@ -3,7 +3,8 @@
 import { polaritySign } from '../structures/technology';
 import { outputKindName } from '../structures/catalogue';
 import type { DerivedVoltage, Structure, StructureOutput } from '../structures/types';
-import { formatNumber, formatQuantity } from '../view/format';
+import { maxOf, minOf } from '../arrays';
+import { formatNumber, formatQuantity, formatRange } from '../view/format';
 
 /** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP, PMOS and P-channel JFET structures). */
 function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {
@@ -58,17 +59,25 @@ export function outputWords(s: Pick<Structure, 'kind' | 'outputs'>, o: Structure
   return Math.abs(o.ratio - 1) > 1e-9 ? `${name}, intended ratio 1:${formatNumber(o.ratio)}` : name;
 }
 
+/** Corner labels in running text: at most four, then how many more. */
+function listed(labels: string[], max = 4): string {
+  return labels.length <= max ? labels.join('; ') : `${labels.slice(0, max).join('; ')}; and ${labels.length - max} more`;
+}
+
 /**
  * What the start-up check found for a self-biased loop, in one sentence: that it can rest at zero
  * current (at nominal or at which corners) and the state the solver chose, or the start-up path that
- * excludes the dead state. Undefined for a structure that is not part of such a loop.
+ * excludes the dead state, then how many corners were checked and what an all-off start reaches at the
+ * hardest of them. Undefined for a structure that is not part of such a loop.
  */
 export function startupLine(s: Structure): string | undefined {
   const r = s.startup;
   if (!r) return undefined;
   const chosen = r.solvedCurrent !== undefined ? `; the solver settled at ${formatQuantity(r.solvedCurrent, 'A')} in ${s.reference.device}` : '';
   if (r.zeroStateNominal) {
-    return `Start-up: the loop can rest at zero current at power-up${r.zeroStateCorners.length ? ` (also at ${r.zeroStateCorners.length} of the corners)` : ''}; no start-up path${chosen}.`;
+    const on = (r.corners ?? []).filter((c) => c.zeroState && c.converged && c.solvedCurrent !== undefined).map((c) => c.solvedCurrent!);
+    const range = on.length ? `, where the corner solves settled at IREF ${formatRange(minOf(on), maxOf(on), 'A')}` : '';
+    return `Start-up: the loop can rest at zero current at power-up${r.zeroStateCorners.length ? ` (also at ${r.zeroStateCorners.length} of the ${r.corners?.length ?? r.zeroStateCorners.length} corners${range})` : ''}; no start-up path${chosen}.`;
   }
   const path = r.startupPath
     ? `${r.startupPath.elements.join(', ')} ${r.startupPath.elements.length > 1 ? 'drive' : 'drives'} ${r.startupPath.node} to ${formatQuantity(r.startupPath.volts, 'V')} with the loop off, which turns on ${r.startupPath.turnsOn}`
@@ -79,6 +88,13 @@ export function startupLine(s: Structure): string | undefined {
       ? `; solved from an all-off start it reaches ${formatQuantity(a.current, 'A')} in ${s.reference.device}`
       : '; solved from an all-off start it did not converge'
     : '';
-  const corners = r.zeroStateCorners.length ? `, except at ${r.zeroStateCorners.join('; ')}, where it can rest at zero current` : '';
-  return `Start-up: ${path}, so the loop cannot stay off at power-up${corners}${climbs}${chosen}.`;
+  const corners = r.zeroStateCorners.length ? `, except at ${listed(r.zeroStateCorners)}, where it can rest at zero current` : '';
+  const checked = r.corners?.length ? ` Checked at ${r.corners.length} corners` : '';
+  const c = r.allOffStartCorner;
+  const hardest = c
+    ? c.solved.converged
+      ? `${checked ? '; at' : ' At'} the hardest (${c.label}) an all-off start reaches IREF ${formatQuantity(c.solved.current, 'A')}.`
+      : `${checked ? '; at' : ' At'} the hardest (${c.label}) the solve from an all-off start did not converge.`
+    : checked ? '.' : '';
+  return `Start-up: ${path}, so the loop cannot stay off at power-up${corners}${climbs}${chosen}.${checked}${hardest}`;
 }

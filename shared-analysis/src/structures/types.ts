@@ -185,6 +185,17 @@ export interface StartupResult {
    * reached, A, and the loop's node voltages there), which shows the path turns the loop on.
    */
   allOffStart?: { restNodes: Record<string, number>; solved?: { converged: boolean; current: number; nodes: Record<string, number> } };
+  /**
+   * Every corner of the corner table the zero state was checked at (corners are enabled): whether the
+   * zero state exists there, and the state the corner's own solve chose (the loop's IREF there, A).
+   */
+  corners?: { label: string; zeroState: boolean; converged?: boolean; solvedCurrent?: number }[];
+  /**
+   * When a start-up path exists: the whole circuit solved from the all-off state at the hardest corner
+   * that has the path (lowest supply, then coldest, then slow MOS), and the loop's IREF it reached (A, measured
+   * as the corner table measures it, so it compares with `corners[].solvedCurrent` at the same label).
+   */
+  allOffStartCorner?: { label: string; solved: { converged: boolean; current: number } };
 }
 
 /** Currents and headroom at one corner of supply, temperature and beta. */

@@ -1,12 +1,13 @@
 // Start-up of self-biased loops: the zero-current state found with and without a start-up path, at nominal and at the corners.
 
 import { describe, expect, it } from 'vitest';
+import type { AnalysisOptions } from '../../../shared-analysis/src/analysis';
 import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 
 /** The one entry point: analyse netlist text and return the start-up findings and the loop structures' start-up records. */
-function check(text: string) {
-  const a = analyse({ uri: 't.cir', text }, new MemoryWorkspace({ 't.cir': text }), {});
+function check(text: string, options: AnalysisOptions = {}) {
+  const a = analyse({ uri: 't.cir', text }, new MemoryWorkspace({ 't.cir': text }), options);
   const warnings = a.findings.filter((f) => f.code === 'bias-loop-can-stay-off');
   return { a, warnings, loops: a.structures.filter((s) => s.startup) };
 }
@@ -172,6 +173,67 @@ describe('self-biased loops at power-up', () => {
       expect(largestImbalance(text, solvedNodes, ['n1', 'p'])).toBeLessThan(1e-3 * s2.solvedCurrent!);
     });
   }
+
+  it('checks the ΔVBE cell at every corner of the corner table, beta corners included, and reports the state each corner solve chose', () => {
+    const { a, warnings, loops } = check(BJT_CELL(''));
+    const st = loops[0].startup!;
+    const ptat = a.structures.find((s) => s.kind === 'ptat-cell')!;
+    // The same corners as the corner table (supply × temperature × beta), none left out: the zero state exists at all of them.
+    expect(st.corners!.map((c) => c.label)).toEqual(ptat.corners.map((c) => c.label));
+    expect(st.corners!.some((c) => /beta ×/.test(c.label))).toBe(true);
+    expect(st.zeroStateCorners).toEqual(ptat.corners.map((c) => c.label));
+    // The chosen state at each corner is the corner table's own solve (conducting: far above the 1 nA rest floor).
+    for (const c of st.corners!) {
+      const row = ptat.corners.find((x) => x.label === c.label)!;
+      expect(c.zeroState).toBe(true);
+      expect(c.solvedCurrent).toBe(row.iref);
+      expect(c.solvedCurrent!).toBeGreaterThan(1e-6);
+    }
+    expect(warnings[0].message).toContain(`(and at ${ptat.corners.length} of the ${ptat.corners.length} corners)`);
+    expect(warnings[0].message).toMatch(/At those corners the corner solves settled on the conducting state \([\d.]+ µA to [\d.]+ µA\)/);
+  });
+
+  it('with a start-up resistor the cell is not flagged at any corner, and an all-off start at the hardest corner reaches that corner’s state', () => {
+    const text = BJT_CELL('RSU vcc n1 2meg');
+    const { a, warnings, loops } = check(text);
+    expect(warnings).toEqual([]);
+    const st = loops[0].startup!;
+    const ptat = a.structures.find((s) => s.kind === 'ptat-cell')!;
+    expect(st.corners!.length).toBe(ptat.corners.length);
+    expect(st.corners!.every((c) => !c.zeroState)).toBe(true);
+    // The hardest corner: the lowest supply at the coldest temperature, where the resistor delivers least and VBE is highest (common practice).
+    const hard = st.allOffStartCorner!;
+    expect(hard.label).toBe('supply −5 %, −40 °C');
+    expect(hard.solved.converged).toBe(true);
+    // Started from all-off there, the circuit reaches the state the corner table's solve (warm-started from nominal) shows.
+    const row = ptat.corners.find((x) => x.label === hard.label)!;
+    expect(Math.abs(hard.solved.current - row.iref)).toBeLessThan(1e-6 * row.iref);
+    // An independent solve of the same corner from the solver's own cold start agrees too: the conducting state is the only one.
+    const cold = check(text.replace('VCC vcc 0 5', 'VCC vcc 0 4.75'), { temperatureC: -40, corners: { enabled: false } });
+    const q1 = cold.a.operatingPoint!.devices.Q1 as { ic: number };
+    expect(Math.abs(q1.ic)).toBeGreaterThan(0.9 * row.iref);
+    expect(Math.abs(q1.ic)).toBeLessThan(row.iref);
+  });
+
+  it('with corners off, the start-up check runs at nominal only', () => {
+    const { warnings, loops } = check(BJT_CELL(''), { corners: { enabled: false } });
+    expect(warnings).toHaveLength(1);
+    const st = loops[0].startup!;
+    expect(st.zeroStateNominal).toBe(true);
+    expect(st.zeroStateCorners).toEqual([]);
+    expect(st.corners).toEqual([]);
+  });
+
+  it('a slow MOS process corner that lifts the threshold above the start-up tap shows up at the process corners only', () => {
+    // The tap sits at 3.3 V × 1k/6.5345k = 0.505 V; VTO = 0.5 V nominal, 0.52 V at the slow corner (shift 20 mV), 0.48 V fast.
+    const { warnings, loops } = check(MOS_CELL('RA vdd tap 5.5345k\nRB tap 0 1k\nRSU tap n1 1meg'), { corners: { processVtoShift: 0.02 } });
+    const st = loops[0].startup!;
+    expect(st.zeroStateNominal).toBe(false);
+    expect(st.zeroStateCorners).toContain('slow MOS');
+    expect(st.zeroStateCorners.some((c) => c.includes('fast MOS') && !c.includes('supply'))).toBe(false);
+    expect(st.zeroStateCorners.filter((c) => !c.includes('supply −5 %')).every((c) => c.includes('slow MOS'))).toBe(true);
+    expect(warnings).toHaveLength(1);
+  });
 
   it('mirrors that are not in a loop get no start-up record and no warning', () => {
     const { warnings, loops } = check(`an invented two-stage bias chain

@@ -131,7 +131,7 @@ ${startup}
 .model QP pnp (BF=50)
 .end
 `;
-  const hoverQ1 = (text: string) => hoverAt(analyseText(text), '/t/main.cir', text.indexOf('Q1 n1') + 1)!.markdown;
+  const hoverQ1 = (text: string, corners = false) => hoverAt(analyseText(text, {}, corners), '/t/main.cir', text.indexOf('Q1 n1') + 1)!.markdown;
 
   it('with a start-up resistor, says which element drives which node and that the loop cannot stay off', () => {
     const md = hoverQ1(cell('RSU vcc n1 1meg'));
@@ -139,6 +139,23 @@ ${startup}
     // The all-off start reaches the state the nominal solve chose (same current in the hover's three digits).
     const m = md.match(/reaches ([\d.]+) µA in Q1; the solver settled at ([\d.]+) µA/)!;
     expect(m[1]).toBe(m[2]);
+  });
+
+  it('says how many corners were checked and what an all-off start reaches at the hardest, the state that corner’s solve shows', () => {
+    const text = cell('RSU vcc n1 1meg');
+    const md = hoverQ1(text, true);
+    const m = md.match(/Checked at (\d+) corners; at the hardest \(supply −5 %, −40 °C\) an all-off start reaches IREF ([\d.]+) µA\./)!;
+    expect(m).not.toBeNull();
+    const ptat = analyseText(text, {}, true).structures.find((s) => s.kind === 'ptat-cell')!;
+    expect(Number(m[1])).toBe(ptat.corners.length);
+    // Three figures of the corner table's own IREF at that corner.
+    const row = ptat.corners.find((c) => c.label === 'supply −5 %, −40 °C')!;
+    expect(m[2]).toBe((row.iref * 1e6).toPrecision(3));
+  });
+
+  it('without one, names the corners where it can also rest at zero and the currents the corner solves chose there', () => {
+    const md = hoverQ1(cell(''), true);
+    expect(md).toMatch(/also at (\d+) of the \1 corners, where the corner solves settled at IREF [\d.]+ µA to [\d.]+ µA\)/);
   });
 
   it('without one, says the loop can rest at zero current and which state the solver chose', () => {
