@@ -1,4 +1,4 @@
-// Bundles the client, the language server, its analysis worker, the CLI and the solver benchmark with esbuild.
+// Bundles the client, the language server, its analysis worker, the CLI, its batch worker and the solver benchmark with esbuild.
 import { build } from 'esbuild';
 import { existsSync } from 'node:fs';
 
@@ -16,6 +16,7 @@ const entries = [
   { in: 'server/src/server.ts', out: 'dist/server.js', bin: true },
   { in: 'server/src/analysis-worker.ts', out: 'dist/analysis-worker.js' },
   { in: 'server/src/cli-main.ts', out: 'dist/cli.js', bin: true },
+  { in: 'server/src/batch-worker.ts', out: 'dist/batch-worker.js' },
   { in: 'bench/solve-bench.ts', out: 'dist/bench-solve.js', optional: true },
 ];
 

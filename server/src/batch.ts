@@ -1,7 +1,8 @@
-// Batch runs of the command line: file patterns expanded by qpoint itself, and a progress line on a terminal.
+// Batch runs of the command line: file patterns expanded by qpoint itself, a pool of worker threads, and a progress line on a terminal.
 
 import * as fs from 'node:fs';
 import * as path from 'node:path';
+import { Worker } from 'node:worker_threads';
 import { isNetworkPath } from './read-policy';
 
 /** Whether a command-line word is a pattern (`*`, `?` or `[...]`) rather than a file name. */
@@ -138,4 +139,91 @@ export class Progress {
     if (this.shown) this.stream.write('\r\x1b[2K');
     this.shown = false;
   }
+}
+
+/** A file of a batch run that a worker did not report on: it stopped (crashed, or ended) or overran its time. */
+export interface PoolFailure {
+  index: number;
+  path: string;
+  /** Why, in words: "its worker thread stopped: …", or "it ran past the 600 s time limit of a file …". */
+  reason: string;
+}
+
+export interface PoolOptions<T> {
+  /** The worker's script: it answers each `{ index, path }` message with `{ index, outcome }`. */
+  script: string;
+  workerData: unknown;
+  /** Threads to run at once (at least 1, never more than the files). */
+  workers: number;
+  files: readonly string[];
+  /** Wall-clock time one file may take in its worker; past it the worker is stopped and the file reported. */
+  fileTimeLimitMs: number;
+  /** Called when a file is handed to a worker (for the progress line). */
+  started?(index: number, done: number): void;
+  /** The outcome to report for a file whose worker failed it. */
+  failed(f: PoolFailure): T;
+}
+
+/**
+ * Runs the files on a pool of worker threads, one file per worker at a time, and gives their
+ * outcomes in the files' order whatever order they finish in. A worker that crashes, ends or
+ * runs past the time limit of a file costs that file only: it is reported through `failed` and a
+ * fresh worker takes the next file.
+ */
+export function runPool<T>(o: PoolOptions<T>): Promise<T[]> {
+  const outcomes: T[] = new Array(o.files.length);
+  let next = 0;
+  let done = 0;
+  let live = 0;
+  return new Promise((resolve) => {
+    const start = (): void => {
+      if (next >= o.files.length) return;
+      live++;
+      const worker = new Worker(o.script, { workerData: o.workerData, stdout: false, stderr: false });
+      let current = -1;
+      let timer: NodeJS.Timeout | undefined;
+      let finished = false;
+      const give = (): void => {
+        if (next >= o.files.length) {
+          finished = true;
+          void worker.terminate();
+          return;
+        }
+        current = next++;
+        o.started?.(current, done);
+        timer = setTimeout(() => {
+          fail(`it ran past the ${o.fileTimeLimitMs / 1000} s time limit of a file (--file-time-limit), so its worker thread was stopped`);
+          void worker.terminate();
+        }, o.fileTimeLimitMs);
+        worker.postMessage({ index: current, path: o.files[current] });
+      };
+      /** The file in hand is reported as failed; this worker is done with, and a fresh one carries on. */
+      const fail = (reason: string): void => {
+        if (finished) return;
+        finished = true;
+        if (timer) clearTimeout(timer);
+        if (current >= 0 && outcomes[current] === undefined) {
+          outcomes[current] = o.failed({ index: current, path: o.files[current]!, reason });
+          done++;
+        }
+        current = -1;
+      };
+      worker.on('message', (m: { index: number; outcome: T }) => {
+        if (finished || m.index !== current) return;
+        clearTimeout(timer);
+        outcomes[current] = m.outcome;
+        done++;
+        give();
+      });
+      worker.on('error', (e) => fail(`its worker thread stopped: ${e instanceof Error ? e.message : String(e)}`));
+      worker.on('exit', (code) => {
+        fail(`its worker thread ended with exit code ${code}`);
+        live--;
+        if (next < o.files.length) start();
+        else if (live === 0) resolve(outcomes);
+      });
+      give();
+    };
+    for (let w = 0; w < Math.max(1, Math.min(o.workers, o.files.length)); w++) start();
+  });
 }

@@ -53,11 +53,17 @@ if (heapMB !== undefined) {
     });
   }
 
-  try {
-    process.exitCode = main(args);
-  } catch (e) {
+  const internalError = (e: unknown): void => {
     // A defect of qpoint, not of the netlist: say so, and exit with the code CI reads as "qpoint failed".
     process.stderr.write(`qpoint: internal error: ${e instanceof Error ? (e.stack ?? e.message) : String(e)}\n`);
     process.exitCode = EXIT.failed;
+  };
+  try {
+    // A run on worker threads gives a promise of its exit code.
+    const code = main(args);
+    if (typeof code === 'number') process.exitCode = code;
+    else code.then((c) => (process.exitCode = c), internalError);
+  } catch (e) {
+    internalError(e);
   }
 }

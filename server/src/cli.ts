@@ -1,6 +1,7 @@
 // The command-line checker: `qpoint check` for CI (text, JSON, SARIF) and `qpoint report` for people.
 
 import * as fs from 'node:fs';
+import * as os from 'node:os';
 import * as path from 'node:path';
 import { analyseSession, attachAllSizingFixes, monteCarloOf } from '../../shared-analysis/src/service';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
@@ -16,13 +17,14 @@ import { derivedVoltageLines, outputWords, startupLine } from '../../shared-anal
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapeJsonText } from './escape';
-import { JsonEntries, writeJson } from './json-stream';
+import { JsonEntries, JsonText, writeJson } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
+import { pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
-import { htmlReport, markdownReport, type ReportFile } from './report-pages';
-import { expandFiles, Progress } from './batch';
+import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
+import { expandFiles, Progress, runPool } from './batch';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { OUTPUT_CHARACTERISTIC_CSS, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 
@@ -86,11 +88,20 @@ Options:
   --search-folder DIR          look for included files in DIR when they are not beside the
                                including file (after it, in the order given); repeatable;
                                DIR's tree is readable too
+  --workers N                  'check' and 'report': analyse N files at once, each on its own worker
+                               thread (default: one per core, at most one per file; more than the
+                               cores counts as the cores); 1 analyses them one after another in
+                               this process. The output is the same and in the files' order
+  --file-time-limit S          with more than one worker: seconds one file may take (default 600);
+                               past it its worker is stopped and the file reported as failed (exit 3)
+  --charts-per-file N|all      'report --format html': output characteristics drawn per file, least
+                               headroom first (default 24); the page names the outputs left out
   --                           everything after it is a file name, even if it starts with '-'
 
 FILE may be a pattern qpoint expands itself when the shell did not: 'boards/**/*.cir'
 (** is any depth of folders), '*.sp', 'cell?.cir'. On a terminal, a run over several
-files shows a progress line on stderr.
+files shows a progress line on stderr. A worker thread that crashes or runs past
+--file-time-limit costs its own file only: that file gets an analysis-stopped finding.
 
 Includes are read only from the current folder's tree, the checked netlist's folder tree and
 --include-root folders; only regular text files up to 64 MiB; never network paths.
@@ -137,6 +148,12 @@ interface CliOptions {
   allCorners: boolean;
   /** JSON and SARIF without indentation. */
   compact: boolean;
+  /** `--workers N`: files analysed at once on worker threads; 1 analyses them one after another in this thread. */
+  workers?: number;
+  /** `--file-time-limit S` in milliseconds: how long one file may take in a worker before it is stopped and reported. */
+  fileTimeLimitMs: number;
+  /** `--charts-per-file N` ('report --format html'): output characteristics drawn per file, worst first; Infinity for all. */
+  chartsPerFile: number;
 }
 
 /**
@@ -203,7 +220,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false, points: 81 };
+  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -307,6 +324,29 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--all-corners':
         opts.allCorners = true;
         break;
+      case '--workers': {
+        const text = next();
+        const v = parseDecimal(text);
+        if (v === undefined || !Number.isInteger(v) || v < 1) throw new UsageError(`--workers takes a whole number of at least 1, got '${escapeControls(text ?? '')}'.`);
+        // More threads than cores only share the cores: at most one per core.
+        opts.workers = Math.min(v, coreCount());
+        break;
+      }
+      case '--file-time-limit': {
+        const text = next();
+        const v = parseDecimal(text);
+        if (v === undefined || !(v > 0) || v > 86_400) throw new UsageError(`--file-time-limit takes seconds above 0 and at most 86400, got '${escapeControls(text ?? '')}'.`);
+        opts.fileTimeLimitMs = v * 1000;
+        break;
+      }
+      case '--charts-per-file': {
+        const text = next();
+        if (command !== 'report') throw new UsageError("--charts-per-file is for 'report --format html'.");
+        const v = text === 'all' ? Infinity : parseDecimal(text);
+        if (v === undefined || !(v === Infinity || (Number.isInteger(v) && v >= 0))) throw new UsageError(`--charts-per-file takes a whole number (0 or more) or 'all', got '${escapeControls(text ?? '')}'.`);
+        opts.chartsPerFile = v;
+        break;
+      }
       case '--compact':
         opts.compact = true;
         break;
@@ -404,31 +444,138 @@ function sizingBudgetSpent(uri: string, unsized: number): Finding {
   };
 }
 
-function analyseFiles(opts: CliOptions): FileResult[] {
-  const workspace = new PathWorkspace({ ...defaultPolicy([process.cwd(), ...opts.includeRoots]), anywhere: opts.includeAnywhere });
+/** One file read, analysed, sized and (with --monte-carlo) re-solved; a read refusal or an internal error is its result too. */
+function analyseOne(opts: CliOptions, workspace: PathWorkspace, p: string): FileResult {
+  const absolute = isNetworkPath(p) ? p : path.resolve(p);
+  const read = workspace.readRoot(absolute);
+  if ('refused' in read) return { path: p, absolute, readError: `Cannot read '${p}': it ${read.refused}.` };
+  workspace.setRoot(absolute);
+  try {
+    const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis);
+    // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
+    // (only around a converged operating point: sizing re-solves from it), within the file's budget.
+    const until = Date.now() + SIZING_BUDGET_MS;
+    const unsized = attachAllSizingFixes(session, () => Date.now() > until);
+    if (unsized > 0) session.analysis.findings.push(sizingBudgetSpent(absolute, unsized));
+    if (opts.monteCarlo) monteCarloOf(session, opts.monteCarlo);
+    return { path: p, absolute, analysis: session.analysis };
+  } catch (e) {
+    return { path: p, absolute, internalError: e instanceof Error ? (e.stack ?? e.message) : String(e) };
+  }
+}
+
+/** The workspace of a run: the shared reading policy with the run's include roots. */
+function runWorkspace(opts: CliOptions): PathWorkspace {
+  return new PathWorkspace({ ...defaultPolicy([process.cwd(), ...opts.includeRoots]), anywhere: opts.includeAnywhere });
+}
+
+/**
+ * What one file contributes to the output, in the format asked for. It is made where the file was
+ * analysed (a worker thread, or this one) and carries no analysis, so a worker sends text; the
+ * outcomes are assembled in the order of the files.
+ */
+export interface FileOutcome {
+  path: string;
+  /** The file could not be read or its analysis stopped (exit code 3). */
+  failed: boolean;
+  /** A finding at or above --fail-level. */
+  failing: boolean;
+  /** The stack of an internal error (or why a worker stopped), printed on stderr. */
+  internalError?: string;
+  /** 'check' text: the finding lines; 'report' text: the file's report; html and markdown: the file's section. */
+  text?: string;
+  /** JSON: the file's entry of the document (in this thread). */
+  json?: unknown;
+  /** JSON: the file's entry already written, in pieces (from a worker: text crosses threads, objects with methods do not). */
+  jsonPieces?: string[];
+  /** SARIF: the file's results and the rule ids they use. */
+  sarif?: { results: unknown[]; codes: string[] };
+}
+
+/** The file's outcome from its result; `written` writes its JSON entry out (a worker must send text). */
+function outcomeOf(opts: CliOptions, index: number, r: FileResult, written: boolean): FileOutcome {
+  const failRank = SEVERITY_RANK[opts.failLevel];
+  const out: FileOutcome = {
+    path: r.path,
+    failed: !!(r.readError || r.internalError),
+    failing: !!r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank),
+    ...(r.internalError ? { internalError: r.internalError } : {}),
+  };
+  if (opts.format === 'json') {
+    const entry = jsonFileEntry(r, opts);
+    if (!written) out.json = entry;
+    else {
+      // Written at the depth of a file in the document (version, files: [ here ]), unescaped: the document's writer escapes.
+      const pieces: string[] = [];
+      writeJson(entry, (t) => pieces.push(t), { indent: opts.compact ? 0 : 2, depth: 2 });
+      out.jsonPieces = pieces;
+    }
+  } else if (opts.format === 'sarif') out.sarif = sarifParts(r);
+  else if (opts.format === 'html') out.text = htmlSection(reportFiles([r])[0]!, index, { maxCharts: opts.chartsPerFile });
+  else if (opts.format === 'markdown') out.text = markdownSection(reportFiles([r])[0]!);
+  else if (opts.command === 'report') out.text = textReport(r);
+  else out.text = textLines([r]).join('\n');
+  return out;
+}
+
+/** Analyses one file and gives its outcome with the JSON written out: the work of a batch worker (batch-worker.ts). */
+export function checkFileForWorker(opts: CliOptions, workspace: PathWorkspace, index: number, p: string): FileOutcome {
+  return outcomeOf(opts, index, analyseOne(opts, workspace, p), true);
+}
+
+/** The options as a batch worker receives them (a structured clone): name-keyed tables get their null prototype back. */
+export function optionsInWorker(cloned: CliOptions): CliOptions {
+  const severities: Record<string, Severity | 'off'> = Object.create(null);
+  Object.assign(severities, cloned.analysis.severities ?? {});
+  return { ...cloned, analysis: { ...cloned.analysis, severities } };
+}
+
+export { runWorkspace as workspaceForWorker };
+
+/** Wall-clock seconds one file may take in a batch worker before the worker is stopped and the file reported (`--file-time-limit`). */
+export const DEFAULT_FILE_TIME_LIMIT_S = 600;
+
+/** The cores this process may use. */
+function coreCount(): number {
+  return Math.max(1, typeof os.availableParallelism === 'function' ? os.availableParallelism() : os.cpus().length);
+}
+
+/** Threads a run uses: --workers, else one per core; never more than the files; 1 for a single file. */
+function workerCount(opts: CliOptions): number {
+  return Math.max(1, Math.min(opts.workers ?? coreCount(), opts.files.length));
+}
+
+/** The files one after another in this thread, with the progress line on a terminal. */
+function outcomesInProcess(opts: CliOptions): FileOutcome[] {
+  const workspace = runWorkspace(opts);
   // A batch run on a terminal shows which file it is on; the line is cleared before any output.
   const progress = new Progress(opts.files.length);
-  const results = opts.files.map((p, i) => {
+  const outcomes = opts.files.map((p, i) => {
     progress.update(i, escapeControls(p));
-    const absolute = isNetworkPath(p) ? p : path.resolve(p);
-    const read = workspace.readRoot(absolute);
-    if ('refused' in read) return { path: p, absolute, readError: `Cannot read '${p}': it ${read.refused}.` };
-    workspace.setRoot(absolute);
-    try {
-      const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis);
-      // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
-      // (only around a converged operating point: sizing re-solves from it), within the file's budget.
-      const until = Date.now() + SIZING_BUDGET_MS;
-      const unsized = attachAllSizingFixes(session, () => Date.now() > until);
-      if (unsized > 0) session.analysis.findings.push(sizingBudgetSpent(absolute, unsized));
-      if (opts.monteCarlo) monteCarloOf(session, opts.monteCarlo);
-      return { path: p, absolute, analysis: session.analysis };
-    } catch (e) {
-      return { path: p, absolute, internalError: e instanceof Error ? (e.stack ?? e.message) : String(e) };
-    }
+    return outcomeOf(opts, i, analyseOne(opts, workspace, p), false);
   });
   progress.done();
-  return results;
+  return outcomes;
+}
+
+/** The files on a pool of worker threads (dist/batch-worker.js), outcomes in the files' order. */
+async function outcomesInWorkers(opts: CliOptions, workers: number): Promise<FileOutcome[]> {
+  const progress = new Progress(opts.files.length);
+  const outcomes = await runPool<FileOutcome>({
+    script: path.join(__dirname, 'batch-worker.js'),
+    workerData: { options: opts },
+    workers,
+    files: opts.files,
+    fileTimeLimitMs: opts.fileTimeLimitMs,
+    started: (index, done) => progress.update(done, escapeControls(opts.files[index]!)),
+    // A worker that crashed, ended or overran costs this file only; it reads as an internal error of the file.
+    failed: (f) => {
+      const absolute = isNetworkPath(f.path) ? f.path : path.resolve(f.path);
+      return outcomeOf(opts, f.index, { path: f.path, absolute, internalError: `${f.reason.charAt(0).toUpperCase()}${f.reason.slice(1)}.` }, false);
+    },
+  });
+  progress.done();
+  return outcomes;
 }
 
 interface JsonDiagnostic {
@@ -494,30 +641,38 @@ export const JSON_VERSION = 2;
  * (from the solver's vectors, without building the point's name-keyed tables).
  */
 export function jsonReport(results: FileResult[], options: { allCorners?: boolean } = {}): unknown {
+  return jsonDocument(results.map((r) => jsonFileEntry(r, options)));
+}
+
+/** The JSON document around its files' entries (each an entry, or a `JsonText` a worker wrote). */
+function jsonDocument(files: unknown[]): unknown {
+  return { version: JSON_VERSION, tool: 'qpoint', caution: CAUTION, files };
+}
+
+/** A file's entry of the JSON document from its outcome. */
+function jsonOf(o: FileOutcome): unknown {
+  return o.jsonPieces ? new JsonText(o.jsonPieces) : o.json;
+}
+
+/** One file's entry of the JSON document. */
+function jsonFileEntry(r: FileResult, options: { allCorners?: boolean }): unknown {
+  const a = r.analysis;
+  const op = a?.operatingPoint;
+  const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
   return {
-    version: JSON_VERSION,
-    tool: 'qpoint',
-    caution: CAUTION,
-    files: results.map((r) => {
-      const a = r.analysis;
-      const op = a?.operatingPoint;
-      const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
-      return {
-        path: r.path,
-        diagnostics: toJsonDiagnostics(r),
-        ...(op && a ? { operatingPoint: pointForJson(op) } : {}),
-        ...(op && a?.circuit && reader
-          ? {
-              // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
-              power: namesUnique(a.circuit.elements)
-                ? new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options))
-                : powerTable(a.circuit.elements, op.devices, a.options),
-            }
-          : {}),
-        ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
-        ...(a?.variation ? { variation: a.variation } : {}),
-      };
-    }),
+    path: r.path,
+    diagnostics: toJsonDiagnostics(r),
+    ...(op && a ? { operatingPoint: pointForJson(op) } : {}),
+    ...(op && a?.circuit && reader
+      ? {
+          // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
+          power: namesUnique(a.circuit.elements)
+            ? new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options))
+            : powerTable(a.circuit.elements, op.devices, a.options),
+        }
+      : {}),
+    ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
+    ...(a?.variation ? { variation: a.variation } : {}),
   };
 }
 
@@ -622,44 +777,58 @@ const SARIF_LEVEL: Record<Severity, string> = { error: 'error', warning: 'warnin
 
 /** SARIF 2.1.0 (OASIS standard): one run, one result per finding, 1-based UTF-16 columns. */
 export function sarifReport(results: FileResult[]): unknown {
+  return sarifDocument(results.map(sarifParts));
+}
+
+/** One file's SARIF results and the rule ids they use. */
+function sarifParts(r: FileResult): { results: unknown[]; codes: string[] } {
+  const codes = new Set<string>();
+  const sarifResults: unknown[] = [];
+  for (const d of toJsonDiagnostics(r)) {
+    codes.add(d.code);
+    const file = d.path ?? displayPath(r.absolute);
+    const region = (rg: JsonDiagnostic['range']) => ({
+      startLine: rg.start.line + 1,
+      startColumn: rg.start.character + 1,
+      endLine: rg.end.line + 1,
+      endColumn: rg.end.character + 1,
+    });
+    sarifResults.push({
+      ruleId: d.code,
+      level: SARIF_LEVEL[d.severity],
+      message: { text: d.message },
+      locations: [
+        {
+          physicalLocation: {
+            artifactLocation: { uri: file.split(path.sep).join('/') },
+            region: region(d.range),
+          },
+        },
+      ],
+      ...(d.fixes
+        ? {
+            fixes: d.fixes.map((x) => ({
+              description: { text: x.title },
+              artifactChanges: x.edits.map((e) => ({
+                artifactLocation: { uri: e.path.split(path.sep).join('/') },
+                replacements: [{ deletedRegion: region(e.range), insertedContent: { text: e.newText } }],
+              })),
+            })),
+          }
+        : {}),
+    });
+  }
+  return { results: sarifResults, codes: [...codes] };
+}
+
+/** The SARIF document of a run from its files' parts, in the files' order; one rule per code used. */
+function sarifDocument(parts: { results: unknown[]; codes: string[] }[]): unknown {
   const catalogue = (catalogueOnce ??= findingCatalogue());
   const codes = new Set<string>();
   const sarifResults: unknown[] = [];
-  for (const r of results) {
-    for (const d of toJsonDiagnostics(r)) {
-      codes.add(d.code);
-      const file = d.path ?? displayPath(r.absolute);
-      const region = (rg: JsonDiagnostic['range']) => ({
-        startLine: rg.start.line + 1,
-        startColumn: rg.start.character + 1,
-        endLine: rg.end.line + 1,
-        endColumn: rg.end.character + 1,
-      });
-      sarifResults.push({
-        ruleId: d.code,
-        level: SARIF_LEVEL[d.severity],
-        message: { text: d.message },
-        locations: [
-          {
-            physicalLocation: {
-              artifactLocation: { uri: file.split(path.sep).join('/') },
-              region: region(d.range),
-            },
-          },
-        ],
-        ...(d.fixes
-          ? {
-              fixes: d.fixes.map((x) => ({
-                description: { text: x.title },
-                artifactChanges: x.edits.map((e) => ({
-                  artifactLocation: { uri: e.path.split(path.sep).join('/') },
-                  replacements: [{ deletedRegion: region(e.range), insertedContent: { text: e.newText } }],
-                })),
-              })),
-            }
-          : {}),
-      });
-    }
+  for (const part of parts) {
+    for (const c of part.codes) codes.add(c);
+    pushAll(sarifResults, part.results);
   }
   const rules = [...codes].sort().map((id) => ({
     id,
@@ -826,7 +995,11 @@ function sweepCommand(opts: CliOptions, r: FileResult, write: (s: string) => voi
 }
 
 /** Runs the CLI; returns the exit code (see EXIT). */
-export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number {
+/**
+ * Runs the CLI; gives the exit code (see EXIT), or a promise of it when the files run on worker
+ * threads (`--workers`, several files): one file, or `--workers 1`, runs in this thread at once.
+ */
+export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number | Promise<number> {
   let opts: ReturnType<typeof parseArgs>;
   try {
     opts = parseArgs(argv);
@@ -845,35 +1018,50 @@ export function main(argv: string[], write: (s: string) => void = (s) => process
     write(VERSION + '\n');
     return EXIT.clean;
   }
-  const results = analyseFiles(opts);
-  for (const r of results) if (r.internalError) process.stderr.write(`qpoint: internal error in ${escapeControls(r.path)}:\n${escapeControls(r.internalError).replace(/\\n/g, '\n')}\n`);
-  const failRank = SEVERITY_RANK[opts.failLevel];
-  const failed = results.some((r) => r.readError || r.internalError);
-  const failing = results.some((r) => r.analysis?.findings.some((f: Finding) => SEVERITY_RANK[f.severity] <= failRank));
-  if (opts.command === 'sweep') return sweepCommand(opts, results[0]!, write);
+  if (opts.command === 'sweep') {
+    const r = analyseOne(opts, runWorkspace(opts), opts.files[0]!);
+    if (r.internalError) printInternalError(r.path, r.internalError);
+    return sweepCommand(opts, r, write);
+  }
+  const workers = workerCount(opts);
+  const finish = writeRun.bind(undefined, opts as CliOptions, write);
+  return workers <= 1 ? finish(outcomesInProcess(opts)) : outcomesInWorkers(opts, workers).then(finish);
+}
+
+function printInternalError(file: string, error: string): void {
+  process.stderr.write(`qpoint: internal error in ${escapeControls(file)}:\n${escapeControls(error).replace(/\\n/g, '\n')}\n`);
+}
+
+/** Writes a run's output from its files' outcomes, in the files' order, and gives the exit code. */
+function writeRun(opts: CliOptions, write: (s: string) => void, outcomes: FileOutcome[]): number {
+  for (const o of outcomes) if (o.internalError) printInternalError(o.path, o.internalError);
+  const failed = outcomes.some((o) => o.failed);
+  const failing = outcomes.some((o) => o.failing);
+  const texts = outcomes.map((o) => o.text ?? '');
   if (opts.command === 'report') {
     let text: string;
     // The same document as `check --format json` (it carries the caution too); the exit code stays the report's.
     if (opts.format === 'json') {
+      const doc = jsonDocument(outcomes.map(jsonOf));
       // The JSON document is written in chunks, to the file of -o when there is one.
-      if (opts.outFile === undefined || opts.outFile === '-') writeDocument(jsonReport(results, opts), opts, write);
+      if (opts.outFile === undefined || opts.outFile === '-') writeDocument(doc, opts, write);
       else {
         const chunks: string[] = [];
-        writeDocument(jsonReport(results, opts), opts, (s) => chunks.push(s));
+        writeDocument(doc, opts, (s) => chunks.push(s));
         if (!writeOut(opts.outFile, chunks.join(''), write)) return EXIT.failed;
       }
       return failed ? EXIT.failed : EXIT.clean;
     }
-    if (opts.format === 'html') text = htmlReport(reportFiles(results), CAUTION, `qpoint ${VERSION}`);
-    else if (opts.format === 'markdown') text = escapeControls(markdownReport(reportFiles(results), CAUTION)).replace(/\\n/g, '\n');
-    else text = results.map(textReport).join('\n\n') + `\n\n${CAUTION}\n`;
+    if (opts.format === 'html') text = htmlPage(outcomes.map((o) => o.path), texts, CAUTION, `qpoint ${VERSION}`);
+    else if (opts.format === 'markdown') text = escapeControls(markdownPage(texts, CAUTION)).replace(/\\n/g, '\n');
+    else text = texts.join('\n\n') + `\n\n${CAUTION}\n`;
     if (!writeOut(opts.outFile, text, write)) return EXIT.failed;
     return failed ? EXIT.failed : EXIT.clean;
   }
-  if (opts.format === 'json') writeDocument(jsonReport(results, opts), opts, write);
-  else if (opts.format === 'sarif') writeDocument(sarifReport(results), opts, write);
+  if (opts.format === 'json') writeDocument(jsonDocument(outcomes.map(jsonOf)), opts, write);
+  else if (opts.format === 'sarif') writeDocument(sarifDocument(outcomes.map((o) => o.sarif!)), opts, write);
   else {
-    const lines = textLines(results);
+    const lines = texts.filter((t) => t !== '');
     write(lines.length ? lines.join('\n') + '\n' : '');
   }
   return failed ? EXIT.failed : failing ? EXIT.findings : EXIT.clean;

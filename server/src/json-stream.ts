@@ -17,6 +17,18 @@ export class JsonEntries {
   }
 }
 
+/**
+ * A value already written as JSON text (by `writeJson` at the depth where it is placed, in another
+ * thread say): `writeJson` writes its pieces as they are, and `JSON.stringify` sees the value.
+ */
+export class JsonText {
+  constructor(readonly pieces: readonly string[]) {}
+
+  toJSON(): unknown {
+    return JSON.parse(this.pieces.join(''));
+  }
+}
+
 /** Characters gathered before they are handed to `write`. */
 const CHUNK = 1 << 16;
 
@@ -24,10 +36,12 @@ const CHUNK = 1 << 16;
  * Writes `value` as JSON text through `write`, in pieces of about 64 K characters: the same text
  * as `JSON.stringify(value, null, indent)` (`indent` 0 or absent: compact, no spaces), with
  * `JsonEntries` written as objects member by member, lists item by item, and any other object
- * whole by `JSON.stringify` (so a plain object must be of modest size). Each piece goes through `transform` first
- * (escaping, say). Nesting is as deep as the document's own, never as long as its lists.
+ * whole by `JSON.stringify` (so a plain object must be of modest size), and `JsonText` as its pieces. Each piece
+ * goes through `transform` first (escaping, say). Nesting is as deep as the document's own, never as long as
+ * its lists. `depth` writes the value as it reads at that depth of a larger document (its inner lines
+ * indented `depth` steps more), for a `JsonText` to be placed there.
  */
-export function writeJson(value: unknown, write: (s: string) => void, options: { indent?: number; transform?: (s: string) => string } = {}): void {
+export function writeJson(value: unknown, write: (s: string) => void, options: { indent?: number; transform?: (s: string) => string; depth?: number } = {}): void {
   const step = options.indent && options.indent > 0 ? ' '.repeat(Math.min(10, options.indent)) : '';
   const transform = options.transform ?? ((s: string) => s);
   let parts: string[] = [];
@@ -48,6 +62,10 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
 
   /** Writes v (already known to be writable) at the given indentation. */
   const put = (v: unknown, indent: string): void => {
+    if (v instanceof JsonText) {
+      for (const piece of v.pieces) emit(piece);
+      return;
+    }
     if (v instanceof JsonEntries) {
       putObject(v.entries(), indent);
       return;
@@ -107,7 +125,7 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
     }
   };
 
-  put(value, '');
+  put(value, step.repeat(Math.max(0, options.depth ?? 0)));
   flush();
 }
 
@@ -126,7 +144,7 @@ function small(v: object): boolean {
   const stack: object[] = [v];
   while (stack.length > 0) {
     const o = stack.pop()!;
-    if (o instanceof JsonEntries) return false;
+    if (o instanceof JsonEntries || o instanceof JsonText) return false;
     if (Array.isArray(o)) {
       budget -= o.length + 1;
       if (budget < 0) return false;

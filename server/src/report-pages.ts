@@ -44,8 +44,42 @@ export interface StructureRow {
   spread: string;
 }
 
-/** Sweeps drawn per file at most: each costs a few dozen solves, and a page of hundreds of charts helps nobody. */
+/**
+ * Output characteristics drawn per file unless `--charts-per-file` says otherwise: each costs a few
+ * dozen solves, and a page of hundreds of charts buries the few a reviewer must see. The charts
+ * drawn are the outputs with the least headroom; the page names the ones left out and how to draw them.
+ */
 export const MAX_PLOTS_PER_FILE = 24;
+
+/** An output of a file's structures with the least headroom it has at the nominal point and at any converged corner. */
+export interface RankedOutput {
+  device: string;
+  /** Volts beyond the edge of the active region (negative: out of it); NaN when there is no figure. */
+  worstHeadroom: number;
+}
+
+/**
+ * Every mirror output of the analysis, least headroom first (nominal or at any converged corner,
+ * whichever is less), so the outputs nearest to or past the edge of their active region come first;
+ * outputs without a headroom figure last, and ties in the netlist's order.
+ */
+export function outputsWorstFirst(a: Analysis): RankedOutput[] {
+  const ranked: RankedOutput[] = [];
+  for (const s of a.structures) {
+    for (const o of s.outputs) {
+      let worst = s.headroom[o.device];
+      if (worst === undefined || !Number.isFinite(worst)) worst = NaN;
+      for (const c of s.corners) {
+        const h = c.converged ? c.headroom[o.device] : undefined;
+        if (h !== undefined && Number.isFinite(h) && !(h >= worst)) worst = h;
+      }
+      ranked.push({ device: o.device, worstHeadroom: worst });
+    }
+  }
+  const key = (r: RankedOutput) => (Number.isNaN(r.worstHeadroom) ? Infinity : r.worstHeadroom);
+  // Array.prototype.sort is stable (ECMA-262 since 2019), so equal keys keep the netlist's order.
+  return ranked.sort((x, y) => (key(x) === key(y) ? 0 : key(x) < key(y) ? -1 : 1));
+}
 
 /** The structures table of one analysis, in words and SI units. */
 export function structureRows(a: Analysis): StructureRow[] {
@@ -129,60 +163,83 @@ figcaption { color: var(--qp-muted); margin-bottom: 4px; }
 code { font-family: ui-monospace, monospace; }
 `;
 
+/** How a file's section is drawn. */
+export interface SectionOptions {
+  /** Output characteristics drawn at most (least headroom first); Infinity draws every one. */
+  maxCharts?: number;
+  /** The command that draws them all, named when some are left out. */
+  allChartsHint?: string;
+}
+
 /**
- * One self-contained HTML page for reviewers: per file the operating point, a structures table
- * (estimate, solved, headroom, spread and drift), the findings with their fixes, and an
- * output-characteristic chart per mirror output. No script, no outside resource; the colours
- * follow the reader's light or dark preference.
+ * One file's section of the HTML page: the operating point, the structures table (estimate, solved,
+ * headroom, spread and drift), the findings with their fixes, and the output characteristics, least
+ * headroom first, at most `maxCharts` of them with a line naming those left out. `index` numbers the
+ * file in the run (for its heading's anchor).
  */
-export function htmlReport(files: ReportFile[], caution: string, generator: string): string {
+export function htmlSection(f: ReportFile, index: number, options: SectionOptions = {}): string {
+  const maxCharts = options.maxCharts ?? MAX_PLOTS_PER_FILE;
   const body: string[] = [];
-  files.forEach((f, fi) => {
-    const a = f.analysis;
-    body.push(`<section aria-labelledby="file-${fi}">`);
-    body.push(`<h2 id="file-${fi}"><code>${escapeXml(f.path)}</code>${a?.circuit?.title ? ` — ${escapeXml(a.circuit.title)}` : ''}</h2>`);
-    const op = a?.operatingPoint;
-    if (op) body.push(`<p>Operating point at ${escapeXml(formatQuantity(op.temperatureC, ''))} °C: ${op.converged ? 'converged' : '<strong>did not converge</strong>'} in ${op.iterations} Newton iterations${op.fallbacks.length ? ` (${escapeXml(op.fallbacks.join(', '))})` : ''}.</p>`);
-    else if (a) body.push('<p>Operating point: not solved.</p>');
-    const rows = a ? structureRows(a) : [];
-    body.push('<h3>Structures</h3>');
-    if (rows.length === 0) body.push('<p>No mirrors or reference branches recognised.</p>');
-    else {
-      body.push('<table class="qp-structures"><thead><tr>' + HEADERS.map(([, h]) => `<th scope="col">${h}</th>`).join('') + '</tr></thead><tbody>');
-      for (const r of rows) body.push('<tr>' + HEADERS.map(([k]) => `<td>${escapeXml(r[k])}</td>`).join('') + '</tr>');
-      body.push('</tbody></table>');
-      const why = a ? discrepancies(a.structures) : [];
-      if (why.length) body.push('<ul>' + why.map((w) => `<li>${escapeXml(w)}</li>`).join('') + '</ul>');
+  const a = f.analysis;
+  body.push(`<section aria-labelledby="file-${index}">`);
+  body.push(`<h2 id="file-${index}"><code>${escapeXml(f.path)}</code>${a?.circuit?.title ? ` — ${escapeXml(a.circuit.title)}` : ''}</h2>`);
+  const op = a?.operatingPoint;
+  if (op) body.push(`<p>Operating point at ${escapeXml(formatQuantity(op.temperatureC, ''))} °C: ${op.converged ? 'converged' : '<strong>did not converge</strong>'} in ${op.iterations} Newton iterations${op.fallbacks.length ? ` (${escapeXml(op.fallbacks.join(', '))})` : ''}.</p>`);
+  else if (a) body.push('<p>Operating point: not solved.</p>');
+  const rows = a ? structureRows(a) : [];
+  body.push('<h3>Structures</h3>');
+  if (rows.length === 0) body.push('<p>No mirrors or reference branches recognised.</p>');
+  else {
+    body.push('<table class="qp-structures"><thead><tr>' + HEADERS.map(([, h]) => `<th scope="col">${h}</th>`).join('') + '</tr></thead><tbody>');
+    for (const r of rows) body.push('<tr>' + HEADERS.map(([k]) => `<td>${escapeXml(r[k])}</td>`).join('') + '</tr>');
+    body.push('</tbody></table>');
+    const why = a ? discrepancies(a.structures) : [];
+    if (why.length) body.push('<ul>' + why.map((w) => `<li>${escapeXml(w)}</li>`).join('') + '</ul>');
+  }
+  body.push(`<h3>Findings (${f.diagnostics.length})</h3>`);
+  if (f.diagnostics.length === 0) body.push('<p>None.</p>');
+  else {
+    body.push('<table class="qp-findings"><thead><tr><th scope="col">Severity</th><th scope="col">Code</th><th scope="col">Where</th><th scope="col">Finding and fixes</th></tr></thead><tbody>');
+    for (const d of f.diagnostics) {
+      const fixes = d.fixes?.length ? `<ul class="qp-fixes">${d.fixes.map((x) => `<li>fix${x.preferred ? ' (preferred)' : ''}: ${escapeXml(x.title)}</li>`).join('')}</ul>` : '';
+      body.push(`<tr><td class="qp-sev-${escapeXml(d.severity)}">${escapeXml(d.severity)}</td><td><code>${escapeXml(d.code)}</code></td><td><code>${escapeXml(location(f, d))}</code></td><td>${escapeXml(d.message)}${fixes}</td></tr>`);
     }
-    body.push(`<h3>Findings (${f.diagnostics.length})</h3>`);
-    if (f.diagnostics.length === 0) body.push('<p>None.</p>');
-    else {
-      body.push('<table class="qp-findings"><thead><tr><th scope="col">Severity</th><th scope="col">Code</th><th scope="col">Where</th><th scope="col">Finding and fixes</th></tr></thead><tbody>');
-      for (const d of f.diagnostics) {
-        const fixes = d.fixes?.length ? `<ul class="qp-fixes">${d.fixes.map((x) => `<li>fix${x.preferred ? ' (preferred)' : ''}: ${escapeXml(x.title)}</li>`).join('')}</ul>` : '';
-        body.push(`<tr><td class="qp-sev-${escapeXml(d.severity)}">${escapeXml(d.severity)}</td><td><code>${escapeXml(d.code)}</code></td><td><code>${escapeXml(location(f, d))}</code></td><td>${escapeXml(d.message)}${fixes}</td></tr>`);
+    body.push('</tbody></table>');
+  }
+  const outputs = a ? outputsWorstFirst(a) : [];
+  if (a && outputs.length) {
+    const drawn = outputs.slice(0, maxCharts);
+    const left = outputs.slice(drawn.length);
+    body.push(`<h3>Output characteristics${outputs.length > 1 ? ', least headroom first' : ''}</h3>`);
+    for (const { device } of drawn) {
+      const r = outputCharacteristic(a, device, 61);
+      if ('error' in r) {
+        body.push(`<p class="qp-note">${escapeXml(device)}: ${escapeXml(r.error)}</p>`);
+        continue;
       }
-      body.push('</tbody></table>');
+      body.push(`<figure><figcaption>${escapeXml(r.title)}, swept from ${escapeXml(formatQuantity(r.range.low, 'V'))} to ${escapeXml(formatQuantity(r.range.high, 'V'))} at node ${escapeXml(r.node)} with its load removed; hatched: out of its active region${r.activeSide === 'below' ? ' (right of the edge)' : ' (left of the edge)'}.</figcaption>`);
+      body.push(renderOutputCharacteristicSvg(r, { width: 720, height: 380 }));
+      // The corner table folds away: thirty rows per chart would bury the page (the summary says the range).
+      if (r.cornerSpread.length) body.push(`<details><summary>Output current at each of the ${r.cornerSpread.length} corners</summary>\n${renderCornerTableHtml(r)}\n</details>`);
+      body.push('</figure>');
     }
-    const outputs = a ? a.structures.flatMap((s) => s.outputs.map((o) => o.device)) : [];
-    if (a && outputs.length) {
-      body.push('<h3>Output characteristics</h3>');
-      for (const device of outputs.slice(0, MAX_PLOTS_PER_FILE)) {
-        const r = outputCharacteristic(a, device, 61);
-        if ('error' in r) {
-          body.push(`<p class="qp-note">${escapeXml(device)}: ${escapeXml(r.error)}</p>`);
-          continue;
-        }
-        body.push(`<figure><figcaption>${escapeXml(r.title)}, swept from ${escapeXml(formatQuantity(r.range.low, 'V'))} to ${escapeXml(formatQuantity(r.range.high, 'V'))} at node ${escapeXml(r.node)} with its load removed; hatched: out of its active region${r.activeSide === 'below' ? ' (right of the edge)' : ' (left of the edge)'}.</figcaption>`);
-        body.push(renderOutputCharacteristicSvg(r, { width: 720, height: 380 }));
-        // The corner table folds away: thirty rows per chart would bury the page (the summary says the range).
-        if (r.cornerSpread.length) body.push(`<details><summary>Output current at each of the ${r.cornerSpread.length} corners</summary>\n${renderCornerTableHtml(r)}\n</details>`);
-        body.push('</figure>');
-      }
-      if (outputs.length > MAX_PLOTS_PER_FILE) body.push(`<p class="qp-note">${outputs.length - MAX_PLOTS_PER_FILE} more outputs are not drawn (at most ${MAX_PLOTS_PER_FILE} per file); <code>qpoint sweep</code> draws any one of them.</p>`);
+    if (left.length) {
+      const how = options.allChartsHint ?? 'qpoint report --format html --charts-per-file all';
+      body.push(
+        `<p class="qp-note qp-charts-left-out"><strong>${left.length} more output${left.length === 1 ? ' is' : 's are'} not drawn</strong> ` +
+          `(at most ${drawn.length} per file, least headroom first, so ${left.length === 1 ? 'it has' : 'these have'} the most): ` +
+          `draw every one with <code>${escapeXml(how)}</code>, or one with <code>qpoint sweep FILE --output DEVICE</code>. ` +
+          `${left.length === 1 ? 'Its' : 'Their'} figures are in the structures table above.</p>`,
+      );
+      body.push(`<details><summary>Outputs not drawn (${left.length})</summary><p>${left.map((o) => `<code>${escapeXml(o.device)}</code>`).join(', ')}</p></details>`);
     }
-    body.push('</section>');
-  });
+  }
+  body.push('</section>');
+  return body.join('\n');
+}
+
+/** The HTML page around the files' sections (from `htmlSection`, in the files' order). */
+export function htmlPage(paths: string[], sections: string[], caution: string, generator: string): string {
   return `<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -196,13 +253,28 @@ export function htmlReport(files: ReportFile[], caution: string, generator: stri
 <body>
 <main>
 <header><h1>qpoint bias report</h1>
-<p>${files.length} netlist${files.length === 1 ? '' : 's'}: ${files.map((f) => `<code>${escapeXml(f.path)}</code>`).join(', ')}</p>
+<p>${paths.length} netlist${paths.length === 1 ? '' : 's'}: ${paths.map((p) => `<code>${escapeXml(p)}</code>`).join(', ')}</p>
 <p class="qp-caution">${escapeXml(caution)}</p></header>
-${body.join('\n')}
+${sections.join('\n')}
 </main>
 </body>
 </html>
 `;
+}
+
+/**
+ * One self-contained HTML page for reviewers: per file the operating point, a structures table
+ * (estimate, solved, headroom, spread and drift), the findings with their fixes, and the
+ * output-characteristic charts (`htmlSection`). No script, no outside resource; the colours
+ * follow the reader's light or dark preference.
+ */
+export function htmlReport(files: ReportFile[], caution: string, generator: string, options: SectionOptions = {}): string {
+  return htmlPage(
+    files.map((f) => f.path),
+    files.map((f, i) => htmlSection(f, i, options)),
+    caution,
+    generator,
+  );
 }
 
 /** Text for a Markdown table cell: pipes and line breaks escaped, so a netlist's text cannot break the table. */
@@ -215,28 +287,35 @@ function cell(text: string): string {
  * counts of findings by severity, the structures table and the findings table with their fixes.
  */
 export function markdownReport(files: ReportFile[], caution: string): string {
-  const out: string[] = ['## qpoint bias report', ''];
-  for (const f of files) {
-    const a = f.analysis;
-    const counts = ['error', 'warning', 'info', 'hint'].map((s) => [s, f.diagnostics.filter((d) => d.severity === s).length] as const).filter(([, n]) => n > 0);
-    out.push(`### \`${f.path.replace(/`/g, "'")}\`${a?.circuit?.title ? ` — ${cell(a.circuit.title)}` : ''}`, '');
-    out.push(counts.length ? `Findings: ${counts.map(([s, n]) => `${n} ${s}${n === 1 ? '' : 's'}`).join(', ')}.` : 'Findings: none.', '');
-    const rows = a ? structureRows(a) : [];
-    if (rows.length) {
-      out.push('| ' + HEADERS.map(([, h]) => h).join(' | ') + ' |');
-      out.push('|' + HEADERS.map(() => '---').join('|') + '|');
-      for (const r of rows) out.push('| ' + HEADERS.map(([k]) => cell(r[k])).join(' | ') + ' |');
-      out.push('');
-    } else if (a) out.push('No mirrors or reference branches recognised.', '');
-    if (f.diagnostics.length) {
-      out.push('| Severity | Code | Where | Finding |', '|---|---|---|---|');
-      for (const d of f.diagnostics) {
-        const fixes = d.fixes?.length ? `<br>${d.fixes.map((x) => `fix${x.preferred ? ' (preferred)' : ''}: ${cell(x.title)}`).join('<br>')}` : '';
-        out.push(`| ${d.severity} | \`${d.code}\` | \`${cell(location(f, d)).replace(/`/g, "'")}\` | ${cell(d.message)}${fixes} |`);
-      }
-      out.push('');
+  return markdownPage(files.map(markdownSection), caution);
+}
+
+/** The Markdown summary around the files' sections (from `markdownSection`, in the files' order). */
+export function markdownPage(sections: string[], caution: string): string {
+  return ['## qpoint bias report', '', ...sections, `> ${caution}`, ''].join('\n');
+}
+
+/** One file's part of the Markdown summary. */
+export function markdownSection(f: ReportFile): string {
+  const out: string[] = [];
+  const a = f.analysis;
+  const counts = ['error', 'warning', 'info', 'hint'].map((s) => [s, f.diagnostics.filter((d) => d.severity === s).length] as const).filter(([, n]) => n > 0);
+  out.push(`### \`${f.path.replace(/`/g, "'")}\`${a?.circuit?.title ? ` — ${cell(a.circuit.title)}` : ''}`, '');
+  out.push(counts.length ? `Findings: ${counts.map(([s, n]) => `${n} ${s}${n === 1 ? '' : 's'}`).join(', ')}.` : 'Findings: none.', '');
+  const rows = a ? structureRows(a) : [];
+  if (rows.length) {
+    out.push('| ' + HEADERS.map(([, h]) => h).join(' | ') + ' |');
+    out.push('|' + HEADERS.map(() => '---').join('|') + '|');
+    for (const r of rows) out.push('| ' + HEADERS.map(([k]) => cell(r[k])).join(' | ') + ' |');
+    out.push('');
+  } else if (a) out.push('No mirrors or reference branches recognised.', '');
+  if (f.diagnostics.length) {
+    out.push('| Severity | Code | Where | Finding |', '|---|---|---|---|');
+    for (const d of f.diagnostics) {
+      const fixes = d.fixes?.length ? `<br>${d.fixes.map((x) => `fix${x.preferred ? ' (preferred)' : ''}: ${cell(x.title)}`).join('<br>')}` : '';
+      out.push(`| ${d.severity} | \`${d.code}\` | \`${cell(location(f, d)).replace(/`/g, "'")}\` | ${cell(d.message)}${fixes} |`);
     }
+    out.push('');
   }
-  out.push(`> ${caution}`, '');
   return out.join('\n');
 }

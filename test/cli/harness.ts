@@ -8,9 +8,9 @@ import { tmpdir } from 'node:os';
 export const ROOT = join(__dirname, '../..');
 export const CLI = join(ROOT, 'dist/cli.js');
 
-/** Runs the built CLI with `args` and returns its exit code and both streams. */
-export function runCli(args: string[], cwd = ROOT, timeoutMs = 120000): { code: number | null; stdout: string; stderr: string } {
-  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: timeoutMs });
+/** Runs the built CLI with `args` (and `env` added to the environment) and returns its exit code and both streams. */
+export function runCli(args: string[], cwd = ROOT, timeoutMs = 120000, env: Record<string, string> = {}): { code: number | null; stdout: string; stderr: string } {
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: timeoutMs, env: { ...process.env, ...env } });
   return { code: r.status, stdout: r.stdout, stderr: r.stderr };
 }
 

@@ -2,7 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { JsonEntries, writeJson } from '../../server/src/json-stream';
+import { JsonEntries, JsonText, writeJson } from '../../server/src/json-stream';
 import { cornerKey } from '../../server/src/cli';
 
 function written(value: unknown, indent?: number): { text: string; pieces: number } {
@@ -19,6 +19,26 @@ describe('writeJson', () => {
         expect(written(v, 2).text).toBe(JSON.stringify(v, null, 2));
       }),
       { seed: 11, numRuns: 300 },
+    );
+  });
+
+  it('places a value written at its depth elsewhere (a worker thread\'s file entry) as JSON.stringify writes the whole', () => {
+    fc.assert(
+      fc.property(fc.array(fc.jsonValue(), { maxLength: 4 }), fc.constantFrom(0, 2, 4), (files, indent) => {
+        const doc = { version: 2, files };
+        // Each entry written alone at depth 2 (inside { files: [ … ] }), then placed as JsonText.
+        const placed = {
+          version: 2,
+          files: files.map((f) => {
+            const pieces: string[] = [];
+            writeJson(f, (t) => pieces.push(t), { indent, depth: 2 });
+            return new JsonText(pieces);
+          }),
+        };
+        expect(written(placed, indent).text).toBe(JSON.stringify(doc, null, indent));
+        expect(JSON.stringify(placed)).toBe(JSON.stringify(doc));
+      }),
+      { seed: 12, numRuns: 200 },
     );
   });
 

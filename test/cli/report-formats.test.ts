@@ -53,6 +53,54 @@ describe('qpoint report --format html', () => {
   });
 });
 
+// Our own scenario: one NPN reference feeding thirty equal outputs, output Qk loaded by (k − 1) × 300 Ω.
+// Equal currents (≈ (12 V − 0.7 V) / 11.3 kΩ ≈ 1 mA each; VBE ≈ 0.7 V, common practice) through
+// larger loads leave lower collector voltages (Ohm's law on the load line, V = VCC − I·R), so the
+// least headroom is at the largest load: Q31, then Q30, Q29, ...
+const WIDE_MIRROR = [
+  'Bias fan-out for a thirty-channel sensor front end',
+  'VCC vcc 0 12',
+  'RREF vcc ref 11.3k',
+  'Q1 ref ref 0 QW',
+  ...Array.from({ length: 30 }, (_, i) => i + 2).flatMap((k) => [`Q${k} out${k} ref 0 QW`, `RL${k} vcc out${k} ${(k - 1) * 300}`]),
+  '.model QW NPN (BF=200 IS=1e-16 VAF=100)',
+  '.end',
+  '',
+].join('\n');
+
+/** The output devices of the charts drawn, in the page's order (each chart's caption names its device). */
+function chartDevices(html: string): string[] {
+  return [...html.matchAll(/<figcaption>[^<]*? (Q\d+) of the /g)].map((m) => m[1]!);
+}
+
+describe('qpoint report --format html on a netlist with more outputs than charts', () => {
+  it('draws the outputs with the least headroom first and names the ones left out and the flag that draws them', () => {
+    const f = file('wide.cir', WIDE_MIRROR);
+    const r = run(['report', '--format', 'html', '--charts-per-file', '3', f]);
+    expect(r.code, r.stderr).toBe(0);
+    expect(chartDevices(r.stdout)).toEqual(['Q31', 'Q30', 'Q29']);
+    expect(r.stdout).toContain('<strong>27 more outputs are not drawn</strong>');
+    expect(r.stdout).toContain('<code>qpoint report --format html --charts-per-file all</code>');
+    const left = /<summary>Outputs not drawn \(27\)<\/summary><p>(.*?)<\/p>/.exec(r.stdout)?.[1] ?? '';
+    expect([...left.matchAll(/<code>(Q\d+)<\/code>/g)].map((m) => m[1])).toEqual(Array.from({ length: 27 }, (_, i) => `Q${28 - i}`));
+    // Every output is still in the structures table.
+    for (let k = 2; k <= 31; k++) expect(r.stdout).toContain(`<td>Q${k}</td>`);
+  }, 120_000);
+
+  it('draws 24 by default and every one with --charts-per-file all', () => {
+    const f = file('wide2.cir', WIDE_MIRROR);
+    const capped = run(['report', '--format', 'html', f]);
+    expect(chartDevices(capped.stdout)).toEqual(Array.from({ length: 24 }, (_, i) => `Q${31 - i}`));
+    expect(capped.stdout).toContain('<strong>6 more outputs are not drawn</strong>');
+    const all = run(['report', '--format', 'html', '--charts-per-file', 'all', f]);
+    expect(all.code, all.stderr).toBe(0);
+    expect(chartDevices(all.stdout)).toHaveLength(30);
+    expect(all.stdout).not.toContain('not drawn');
+    expect(run(['report', '--format', 'html', '--charts-per-file', 'some', f]).code).toBe(2);
+    expect(run(['check', '--charts-per-file', '3', f]).code).toBe(2);
+  }, 180_000);
+});
+
 describe('qpoint report --format markdown', () => {
   it('writes a CI job summary: counts, the structures table and the findings, with pipes escaped', () => {
     const r = run(['report', '--format', 'markdown', file('bench-md.cir', NETLIST)]);
