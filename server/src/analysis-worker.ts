@@ -21,6 +21,7 @@ import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import { STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
+import type { WarmStart } from '../../shared-analysis/src/solve/warm-start';
 
 const workspace = new FileWorkspace();
 /** The stop flag shared with the main thread (absent when the worker was started without one). */
@@ -43,6 +44,8 @@ interface Kept {
   sizingCache: Map<string, SizingResult>;
 }
 const lastAnalysis = new Map<string, Kept>();
+/** Per root, the last converged nominal solution, for the next analysis of an edited text to start Newton from. */
+const warmStarts = new Map<string, WarmStart>();
 
 function post(msg: FromWorker): void {
   parentPort?.postMessage(msg);
@@ -109,6 +112,7 @@ function handle(msg: ToWorker): void {
       if (msg.text === undefined) {
         openTexts.delete(msg.uri);
         lastAnalysis.delete(msg.uri);
+        warmStarts.delete(msg.uri);
       } else openTexts.set(msg.uri, msg.text);
       return;
     case 'files-changed':
@@ -132,7 +136,9 @@ function handle(msg: ToWorker): void {
         outgoing = undefined;
         if (dropped >= COLLECT_FROM_ELEMENTS) collectGarbage();
         const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
-        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options, { shouldStop: stopper(msg.generation) });
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options, { shouldStop: stopper(msg.generation), warmStart: warmStarts.get(msg.uri) });
+        if (session.warmStart) warmStarts.set(msg.uri, session.warmStart);
+        else warmStarts.delete(msg.uri);
         // The corner phase needs the requested corner settings back, with corners on.
         if (msg.cornersLater) session.analysis.options = { ...session.analysis.options, corners: { ...session.analysis.options.corners, ...(msg.options.corners ?? {}), enabled: true } };
         const cornersNext = msg.cornersLater === true && session.nominal !== undefined && session.analysis.structures.length > 0;

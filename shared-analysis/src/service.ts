@@ -6,6 +6,9 @@ import { elaborate } from './elaborate/index';
 import { checkConnectivity } from './checks/connectivity';
 import { DcSolver, withoutNetlistDuplicates, type DcSolveResult } from './solve/dc';
 import { SolveStopped } from './solve/newton';
+import { unknownsFingerprint, type WarmStart } from './solve/warm-start';
+import { feedLoops } from './structures/loops';
+import { topologyOf } from './structures/topology';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
 import { judgeDevices } from './checks/devices/index';
@@ -50,6 +53,8 @@ export interface AnalysisSession {
   nominal?: DcSolveResult;
   /** The spread analysis behind `analysis.variation` (sources and derivatives), for Monte Carlo. */
   variation?: VariationDetail;
+  /** What the next analysis of an edited version may start its nominal solve from (absent when it must start cold). */
+  warmStart?: WarmStart;
 }
 
 /**
@@ -77,6 +82,11 @@ export class AnalysisStopped extends Error {
 /** How a host can stop an analysis it no longer needs: asked before each stage, before every Newton iteration of the nominal and corner solves, and between corner solves. */
 export interface AnalysisControl {
   shouldStop?: () => boolean;
+  /**
+   * The `warmStart` of the session of the previous version of this text: the nominal solve starts
+   * Newton from its solution when the unknowns are the same (see `analyseSession`).
+   */
+  warmStart?: WarmStart;
 }
 
 /** `analyse`, also returning the prepared solver and the nominal solution for `addCorners` and `sizingFixesOf`. */
@@ -107,12 +117,24 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let nominal: DcSolveResult | undefined;
   let variation: VariationResult | undefined;
   let variationDetail: VariationDetail | undefined;
+  let fingerprint: string | undefined;
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
       solver = new DcSolver(circuit);
       try {
         // The stop check is also asked before every Newton iteration, so a long solve of a superseded text ends early.
-        nominal = solver.solve({ temperatureC: resolved.temperatureC, shouldStop: control.shouldStop });
+        const cold = { temperatureC: resolved.temperatureC, shouldStop: control.shouldStop };
+        const warm = control.warmStart;
+        // A value edit keeps the unknowns: Newton starts from the last version's solution and needs a few
+        // iterations instead of a cold start's many. Not for a circuit with a self-biased loop, which has a
+        // second (off) state a warm start could keep where a cold start would not; and a warm start that
+        // does not converge is dropped for the cold one, so the answer is always the cold start's point.
+        const tryWarm = warm !== undefined && warm.x.length === solver.unknownCount && warm.unknowns === (fingerprint ??= unknownsFingerprint(circuit)) && !hasSelfBiasedLoop(circuit, structures);
+        if (tryWarm) {
+          const w = solver.solve({ ...cold, initialGuess: warm.x, initialGuessTemperatureC: warm.temperatureC });
+          if (w.op.converged) nominal = w;
+        }
+        nominal ??= solver.solve(cold);
       } catch (e) {
         if (e instanceof SolveStopped) throw new AnalysisStopped();
         throw e;
@@ -183,7 +205,13 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     timings,
   };
   const converged = nominal && nominal.op.converged ? nominal : undefined;
-  return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}) };
+  const warmStart: WarmStart | undefined = converged ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
+  return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}) };
+}
+
+/** Whether recognised structures feed each other round (a self-biased loop, which also balances at zero current). */
+function hasSelfBiasedLoop(circuit: Circuit, structures: Structure[]): boolean {
+  return structures.length > 0 && feedLoops(topologyOf(circuit), structures).length > 0;
 }
 
 /** Circuits up to this many unknowns get their spread in the first pass even when the corners come later (a few milliseconds). */

@@ -11,6 +11,7 @@ import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { derivativeOf, sensitivities, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
+import { rankOf } from './rank';
 
 declare const performance: { now(): number };
 
@@ -152,7 +153,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     const spread = spreadOf(sources, per);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
     for (const s of supplies) supplyPercentPerVolt[s.name] = (derivativeOf(sens, o, s.j) / scale) * 100;
-    sensList.sort((a, b) => Math.abs(b.value) - Math.abs(a.value));
+    sensList.sort((a, b) => rankOf(b.value) - rankOf(a.value));
     const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
     const out: OutputVariation = {
       output: spec.label,
@@ -215,7 +216,7 @@ export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, si
       : group;
     contributors.push({ name, share: variance > 0 ? g.variance / variance : 0, sigma: Math.sqrt(g.variance), worstCase: g.worst });
   }
-  contributors.sort((a, b) => b.share - a.share || (a.name < b.name ? -1 : 1));
+  contributors.sort((a, b) => rankOf(b.share) - rankOf(a.share) || (a.name < b.name ? -1 : 1));
   return { sigma: Math.sqrt(variance), worstCase, contributors };
 }
 
@@ -242,3 +243,4 @@ export function attachVariation(structures: Structure[], result: VariationResult
     s.variation = { ...(iref ? { iref } : {}), iout, ...(Object.keys(voltages).length ? { voltages } : {}) };
   }
 }
+

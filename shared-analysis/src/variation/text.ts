@@ -4,6 +4,7 @@ import type { Analysis } from '../analysis';
 import { maxOf } from '../arrays';
 import { formatEngineering } from '../fixes/format';
 import type { OutputVariation } from './types';
+import { rankOf } from './rank';
 
 /** A percentage without a sign, at most three figures: `2.82 %`, `0.004 %`. */
 export function percentText(ratio: number): string {
@@ -25,7 +26,7 @@ export function spreadText(v: OutputVariation): string {
   parts.push(`drift ${signed(v.tempcoPpmPerC)} ppm/°C`);
   const supplies = Object.entries(v.supplyPercentPerVolt)
     .filter(([, s]) => Math.abs(s) >= 0.01)
-    .sort((a, b) => Math.abs(b[1]) - Math.abs(a[1]))
+    .sort((a, b) => rankOf(b[1]) - rankOf(a[1]))
     .slice(0, 3)
     .map(([name, s]) => `${name} ${signed(s)} %/V`);
   if (supplies.length) parts.push(supplies.join(', '));
