@@ -35,7 +35,7 @@ import type { Finding, Fix } from '../../shared-analysis/src/types';
 import { completionListAt } from '../../shared-analysis/src/features/completion';
 import { WorkBudget } from '../../shared-analysis/src/features/budget';
 import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
-import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { hoverAt, prepareHover } from '../../shared-analysis/src/features/hover';
 import { inlayHints } from '../../shared-analysis/src/features/inlay';
 import { definitionAt, prepareRename, referencesAt, renameAt } from '../../shared-analysis/src/features/navigation';
 import { documentSymbols } from '../../shared-analysis/src/features/symbols';
@@ -488,7 +488,10 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   const replacedElements = before?.analysis.circuit?.elements.length ?? 0;
   // Build the lookup tables now rather than inside the first hover.
   setImmediate(() => {
-    if (cache.get(uri)?.analysis === analysis) indexOf(analysis);
+    if (cache.get(uri)?.analysis === analysis) {
+      indexOf(analysis);
+      prepareHover(analysis);
+    }
     // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
     if (replacedElements >= COLLECT_FROM_ELEMENTS) {
       whenQuiet(() => {

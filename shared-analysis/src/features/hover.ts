@@ -243,7 +243,7 @@ function answerLine(analysis: Analysis, el: Element, rec: DeviceRecord, structur
 function targetState(analysis: Analysis, el: Element, rec: DeviceRecord): { met: boolean; text: string } | undefined {
   let targets: Target[];
   try {
-    targets = readTargets(analysis.documents).targets;
+    targets = targetsOf(analysis);
   } catch {
     return undefined;
   }
@@ -481,8 +481,46 @@ function describeElement(el: Element): string {
 
 /** Structures a device (hierarchical name) belongs to. */
 export function structuresOf(analysis: Analysis, device: string): Structure[] {
-  const lower = device.toLowerCase();
-  return analysis.structures.filter((s) => s.devices.some((d) => d.toLowerCase() === lower));
+  let byDevice = structuresByDevice.get(analysis.structures);
+  if (!byDevice) {
+    // Built once per analysis: a hover asks for one device among thousands of structures.
+    byDevice = new Map();
+    for (const s of analysis.structures) {
+      const seen = new Set<string>();
+      for (const d of s.devices) {
+        const lower = d.toLowerCase();
+        if (seen.has(lower)) continue;
+        seen.add(lower);
+        const list = byDevice.get(lower);
+        if (list) list.push(s);
+        else byDevice.set(lower, [s]);
+      }
+    }
+    structuresByDevice.set(analysis.structures, byDevice);
+  }
+  return [...(byDevice.get(device.toLowerCase()) ?? [])];
+}
+
+/** Builds the tables hovers read (structures by device, targets) now, so the first hover after an analysis lands does not. */
+export function prepareHover(analysis: Analysis): void {
+  structuresOf(analysis, '');
+  try {
+    targetsOf(analysis);
+  } catch {
+    // A hover reads them again and says nothing of targets when they cannot be read.
+  }
+}
+
+/** The structures of an analysis by lower-case device name (in the analysis's order). */
+const structuresByDevice = new WeakMap<Structure[], Map<string, Structure[]>>();
+
+/** The `; expect` targets of an analysis's documents, read once per set of documents (a hover used to read every card's comment each time). */
+const targetsByDocuments = new WeakMap<Analysis['documents'], Target[]>();
+
+function targetsOf(analysis: Analysis): Target[] {
+  let targets = targetsByDocuments.get(analysis.documents);
+  if (!targets) targetsByDocuments.set(analysis.documents, (targets = readTargets(analysis.documents).targets));
+  return targets;
 }
 
 function nodeHover(analysis: Analysis, uri: string, card: Card, token: Token): HoverResult | undefined {
