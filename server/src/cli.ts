@@ -1,5 +1,6 @@
 // The command-line checker: `qpoint check` for CI (text, JSON, SARIF) and `qpoint report` for people.
 
+import { technologyWords } from '../../shared-analysis/src/structures/technology';
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
@@ -886,7 +887,7 @@ export function textReport(r: FileResult): string {
       ? `fed by ${s.reference.elements.join(' + ')} from ${s.reference.rail.node} (${volts(s.reference.rail.volts)})`
       : `fed by ${s.reference.feed.replace('-', ' ')}${s.reference.elements.length ? ` ${s.reference.elements.join(', ')}` : ''}`;
     out.push('');
-    out.push(`${capitalised(kindName(s.kind))} (${s.technology.toUpperCase()}) ${s.reference.device}${outs ? ` → ${outs}` : ''}; ${feed}`);
+    out.push(`${capitalised(kindName(s.kind))} (${technologyWords(s.technology)}) ${s.reference.device}${outs ? ` → ${outs}` : ''}; ${feed}`);
     const est = s.estimate;
     const sol = s.solved;
     const refLine = ['  IREF'.padEnd(12)];

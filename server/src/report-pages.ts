@@ -1,5 +1,6 @@
 // The review formats of `qpoint report`: one self-contained HTML page with the output characteristics, and Markdown for a CI job summary.
 
+import { technologyWords } from '../../shared-analysis/src/structures/technology';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
@@ -86,7 +87,7 @@ export function structureRows(a: Analysis): StructureRow[] {
   const rows: StructureRow[] = [];
   const op = a.operatingPoint;
   for (const s of a.structures) {
-    const name = `${capitalised(kindName(s.kind))} (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''})`;
+    const name = `${capitalised(kindName(s.kind))} (${technologyWords(s.technology)}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''})`;
     const region = (device: string) => {
       const rec = op?.devices[device];
       return rec && 'region' in rec ? (recordIsOff(rec) ? 'off' : rec.region) : '';

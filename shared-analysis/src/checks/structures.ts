@@ -16,7 +16,7 @@ import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
-import { TECHNOLOGIES } from '../structures/technology';
+import { TECHNOLOGIES, technologyWords } from '../structures/technology';
 import type { Structure, StructureOutput } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
@@ -562,7 +562,7 @@ class StructureCheck {
       this.emit(
         'reference-starved',
         at,
-        `${first?.name ?? 'The current source'} drives current out of the reference node ${ref.node}, the wrong way for the ${this.s.technology.toUpperCase()} reference ${ref.device}: the ${kindName(this.s.kind)} carries no current.`,
+        `${first?.name ?? 'The current source'} drives current out of the reference node ${ref.node}, the wrong way for the ${technologyWords(this.s.technology)} reference ${ref.device}: the ${kindName(this.s.kind)} carries no current.`,
         { referenceDevice: ref.device, iref: est.iref },
       );
       return;

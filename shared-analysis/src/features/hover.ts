@@ -1,5 +1,6 @@
 // Hover text for an offset of an analysed netlist: device bias, node voltages, models, parameters and hand estimates.
 
+import { technologyWords } from '../structures/technology';
 import type { Analysis, ParamSymbol } from '../analysis';
 import type { Element, Model } from '../circuit';
 import type { Card, ElementCard, Token } from '../syntax/ast';
@@ -352,7 +353,7 @@ function derivation(s: Structure, device: string, sources: Sources): string {
       : own
         ? `${own.replace(/-/g, ' ')} device`
         : 'device';
-  const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${s.technology.toUpperCase()}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
+  const parts: string[] = [`**${capitalised(kindName(s.kind))}** (${technologyWords(s.technology)}${s.instance ? `, in ${s.instance.replace(/\.$/, '')}` : ''}) — this is its ${role}.`];
   // Structure-wide steps (no `devices`) plus the steps about this device: another output's IOUT is not this device's business.
   // The solved compliance edge below replaces the estimate's, so one edge is shown.
   const solvedEdge = out ? s.compliance[out.device] : undefined;

@@ -1,6 +1,6 @@
 // The output characteristic of one mirror output: its current against a swept output-node voltage, across the structure's own rails.
 
-import { polaritySign, technologyFacts } from '../structures/technology';
+import { polaritySign, technologyWords } from '../structures/technology';
 import type { Analysis } from '../analysis';
 import type { Circuit, Element, VoltageSource } from '../circuit';
 import { DcSolver } from '../solve/dc';
@@ -119,7 +119,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     ...(variation ? { spread: { sigmaRelative: variation.sigmaRelative, worstCaseRelative: variation.worstCaseRelative, tempcoPpmPerC: variation.tempcoPpmPerC } } : {}),
     device: output.device,
     structureId: structure.id,
-    title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${technologyFacts(structure.technology)?.words ?? structure.technology.toUpperCase()}${where})`,
+    title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${technologyWords(structure.technology)}${where})`,
     technology: structure.technology,
     outputKind: `${outputWords(structure, output)} of the ${kindName(structure.kind)} on ${structure.reference.device}`,
     node: circuit.nodes[nodeIndex],

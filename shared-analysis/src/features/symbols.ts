@@ -1,5 +1,6 @@
 // The outline of a netlist: subcircuits with their devices, models, parameters and recognised bias structures.
 
+import { technologyWords } from '../structures/technology';
 import type { Analysis } from '../analysis';
 import type { Span } from '../types';
 import { cardAt, elementByName, subcktScopes } from './document-index';
@@ -63,7 +64,7 @@ function outline(analysis: Analysis, uri: string, doc: Analysis['documents'][str
     const label = s.kind.replace(/-/g, ' ');
     out.push({
       name: `${s.instance}${label} (${s.reference.device})`,
-      detail: `${s.technology.toUpperCase()}, ${s.outputs.length} output${s.outputs.length === 1 ? '' : 's'}`,
+      detail: `${technologyWords(s.technology)}, ${s.outputs.length} output${s.outputs.length === 1 ? '' : 's'}`,
       kind: 'structure',
       span,
       selectionSpan: children[0]?.selectionSpan ?? ref.origin.span,

@@ -97,6 +97,11 @@ export function technologyFacts(t: string): TechnologyFacts | undefined {
   return Object.prototype.hasOwnProperty.call(TECHNOLOGIES, t) ? TECHNOLOGIES[t as Technology] : undefined;
 }
 
+/** A technology in words for headings ("NPN", "NMOS", "N-channel JFET"); one the engine does not know reads as its name in capitals. */
+export function technologyWords(t: string): string {
+  return technologyFacts(t)?.words ?? t.toUpperCase();
+}
+
 /** Whether a technology is a bipolar one (the formulas then carry beta and VBE). */
 export function isBipolar(t: Technology): boolean {
   return TECHNOLOGIES[t]?.family === 'bipolar';

@@ -264,7 +264,7 @@ describe('hover on the newer device kinds', () => {
     // IDSS = 1m × 2² = 4 mA, RS = 500 Ω: ID = 1.53 mA by the self-bias quadratic (Boylestad and Nashelsky, ch. 7, from memory);
     // 1.53 mA × 9.1 kΩ = 13.9 V leaves the drain 1.1 V above ground, under the 2 V edge V(gate) − VP.
     const text = `JFET source too heavily loaded\nVCC vcc 0 15\nJ1 d 0 s JN\nRS s 0 500\nRL vcc d 9.1k\n.model JN NJF (VTO=-2 BETA=1m)\n.end\n`;
-    const md = check(mark(text, 'J1 d', 1), { contains: [/into the linear region/, /JFET self-biased current source/] });
+    const md = check(mark(text, 'J1 d', 1), { contains: [/into the linear region/, /\*\*JFET self-biased current source\*\* \(N-channel JFET\)/] });
     expect(md).not.toMatch(/triode/);
     const a = analyseText(text);
     const f = a.findings.find((x) => x.code === 'mirror-output-out-of-region');
