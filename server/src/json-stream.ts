@@ -81,8 +81,7 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
     // its steps) is written whole by the native writer, re-indented: one call instead of a call per
     // member. Lists and objects that are large, or hold JsonEntries, are walked.
     if (small(v)) {
-      const text = JSON.stringify(v, null, step);
-      emit(step && indent ? text.replace(NEWLINES, '\n' + indent) : text);
+      emit(step && indent ? indented(v, indent.length / step.length, step) : JSON.stringify(v, null, step));
       return;
     }
     if (Array.isArray(v)) {
@@ -129,7 +128,23 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
   flush();
 }
 
-const NEWLINES = /\n/g;
+/**
+ * `JSON.stringify(v, null, step)` as it reads `depth` levels down in a document: `v` wrapped in
+ * `depth` one-item lists is written by the native writer, which indents every line, and the
+ * wrappers' brackets are cut off (no second pass over the text to re-indent it).
+ */
+function indented(v: unknown, depth: number, step: string): string {
+  let w = v;
+  let head = 0;
+  let tail = 0;
+  for (let d = 1; d <= depth; d++) {
+    w = [w];
+    head += 2 + d * step.length; // "[\n" and the next line's indentation
+    tail += 2 + (d - 1) * step.length; // "\n", the indentation of a closing "]", and "]"
+  }
+  const text = JSON.stringify(w, null, step);
+  return text.slice(head, text.length - tail);
+}
 
 /** Values (numbers, strings, members, items) a subtree may hold and still be written by one native call. */
 const SMALL_BUDGET = 4096;
