@@ -66,8 +66,16 @@ function pathOf(root: string, keys: readonly (string | number)[], last: string |
 }
 
 function walkFinite(value: unknown, root: string, keys: (string | number)[], removed: string[], seen: Set<object>): void {
-  if (value === null || typeof value !== 'object' || seen.has(value) || ArrayBuffer.isView(value)) return;
-  seen.add(value);
+  if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value)) return;
+  const lazy = lazyHolders.has(value);
+  // Only a container (something holding objects) is remembered: it is where a shared object or a
+  // cycle would be reached again. An object of numbers and strings reached twice is simply looked
+  // at twice, which finds nothing the second time; remembering every such leaf cost more than the
+  // rest of the walk.
+  if (lazy || holdsObject(value)) {
+    if (seen.has(value)) return;
+    seen.add(value);
+  }
   if (Array.isArray(value)) {
     let kept = 0;
     for (let i = 0; i < value.length; i++) {
@@ -84,12 +92,12 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
       }
       value[kept++] = v;
     }
-    value.length = kept;
+    if (kept !== value.length) value.length = kept;
     return;
   }
   const record = value as Record<string, unknown>;
-  const lazy = lazyHolders.has(record);
-  for (const key of Object.keys(record)) {
+  for (const key in record) {
+    if (!Object.prototype.hasOwnProperty.call(record, key)) continue;
     // A table built on first read is finite by construction, clamped where it is built; reading it
     // here would build it for nothing.
     if (lazy && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
@@ -105,6 +113,24 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
       keys.pop();
     }
   }
+}
+
+/** Whether an array or a plain object (not one registered with `markLazyTables`) holds an object among its values. */
+function holdsObject(value: object): boolean {
+  if (Array.isArray(value)) {
+    for (let i = 0; i < value.length; i++) {
+      const v: unknown = value[i];
+      if (v !== null && typeof v === 'object') return true;
+    }
+    return false;
+  }
+  const record = value as Record<string, unknown>;
+  for (const key in record) {
+    if (!Object.prototype.hasOwnProperty.call(record, key)) continue;
+    const v = record[key];
+    if (v !== null && typeof v === 'object') return true;
+  }
+  return false;
 }
 
 /**
