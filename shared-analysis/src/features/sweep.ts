@@ -112,7 +112,7 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
     .filter((c) => c.converged && c.iout[output.device] !== undefined && Number.isFinite(c.iout[output.device]))
     .map((c) => ({ label: c.label, i: c.iout[output.device] }));
   const where = structure.instance ? `, in ${structure.instance.replace(/\.$/, '')}` : '';
-  const drift = driftSweep(circuit, outEl, sink, analysis.options.corners.coldC, analysis.options.corners.hotC);
+  const drift = driftOf(analysis, circuit, outEl.name);
   const variation = structure.variation?.iout[output.device];
   return {
     ...(drift.length >= 2 ? { drift } : {}),
@@ -169,10 +169,43 @@ function structureRails(circuit: Circuit, s: Structure, op: OperatingPoint | und
   return { low, high, rails: railNames };
 }
 
-/** The output current of `device` in the whole circuit, solved from `cold` to `hot` (warm-started point to point). */
-function driftSweep(circuit: Circuit, device: Element, sink: boolean, cold: number, hot: number): { t: number; i: number }[] {
-  const out: { t: number; i: number }[] = [];
-  if (!(Number.isFinite(cold) && Number.isFinite(hot) && hot > cold)) return out;
+/**
+ * Each analysis's temperature sweep of its mirror outputs, worked out once for all of them: the
+ * whole circuit is solved at the same temperatures whichever output is asked for, so a report that
+ * draws every output (and a panel that redraws one) pays for one sweep, not one per chart.
+ */
+const driftByAnalysis = new WeakMap<Analysis, Map<string, Map<string, { t: number; i: number }[]>>>();
+
+/** The drift of the output element `name` (as the circuit spells it) from the analysis's cold to its hot corner. */
+function driftOf(analysis: Analysis, circuit: Circuit, name: string): { t: number; i: number }[] {
+  const { coldC, hotC } = analysis.options.corners;
+  const key = `${coldC} ${hotC}`;
+  let byRange = driftByAnalysis.get(analysis);
+  if (!byRange) driftByAnalysis.set(analysis, (byRange = new Map()));
+  let table = byRange.get(key);
+  if (!table) {
+    // Every mirror output of the analysis, by the element's own name, with its direction.
+    const elements = new Map<string, Element>();
+    for (const e of circuit.elements) if (!elements.has(e.name.toLowerCase())) elements.set(e.name.toLowerCase(), e);
+    const outputs = new Map<string, boolean>();
+    for (const s of analysis.structures) {
+      const sink = polaritySign(s.technology) > 0;
+      for (const o of s.outputs) {
+        const el = elements.get(o.device.toLowerCase());
+        if (el && (el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && !outputs.has(el.name)) outputs.set(el.name, sink);
+      }
+    }
+    table = driftSweep(circuit, outputs, coldC, hotC);
+    byRange.set(key, table);
+  }
+  return table.get(name) ?? [];
+}
+
+/** The output current of each device (name → sink) in the whole circuit, solved from `cold` to `hot` (warm-started point to point). */
+function driftSweep(circuit: Circuit, devices: Map<string, boolean>, cold: number, hot: number): Map<string, { t: number; i: number }[]> {
+  const out = new Map<string, { t: number; i: number }[]>();
+  for (const name of devices.keys()) out.set(name, []);
+  if (!(Number.isFinite(cold) && Number.isFinite(hot) && hot > cold) || devices.size === 0) return out;
   const solver = new DcSolver(circuit);
   let guess: Float64Array | undefined;
   for (let k = 0; k < DRIFT_POINTS; k++) {
@@ -183,8 +216,10 @@ function driftSweep(circuit: Circuit, device: Element, sink: boolean, cold: numb
       continue;
     }
     guess = res.x;
-    const i = outputCurrent(res.op.devices[device.name], sink);
-    if (i !== undefined && Number.isFinite(i)) out.push({ t, i });
+    for (const [name, sink] of devices) {
+      const i = outputCurrent(res.op.devices[name], sink);
+      if (i !== undefined && Number.isFinite(i)) out.get(name)!.push({ t, i });
+    }
   }
   return out;
 }

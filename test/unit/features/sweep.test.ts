@@ -44,6 +44,21 @@ describe('output characteristic', () => {
     });
   });
 
+  it('gives each output the drift of its own solves when one temperature sweep serves every output of the analysis', () => {
+    const two = MIRROR.replace('RL vcc out 1k', 'RL vcc out 1k\nQ3 out3 ref 0 QN\nRL3 vcc out3 4.7k');
+    const shared = analyseText(two, {}, true);
+    const q2 = outputCharacteristic(shared, 'Q2', 5);
+    const q3 = outputCharacteristic(shared, 'Q3', 5);
+    // Independent computation: a fresh analysis of the same netlist asked for Q3 alone.
+    const alone = outputCharacteristic(analyseText(two, {}, true), 'Q3', 5);
+    if ('error' in q2 || 'error' in q3 || 'error' in alone) throw new Error('no sweep');
+    expect(q3.drift).toEqual(alone.drift);
+    expect(q3.drift!.length).toBeGreaterThan(2);
+    // Equal devices on one reference, but Q3's larger load leaves it a lower VCE, so less Early-effect
+    // current (IC ∝ 1 + VCE/VA; Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4): the two drifts are the outputs' own.
+    expect(q3.drift![0]!.i).toBeLessThan(q2.drift![0]!.i);
+  });
+
   it('sweeps rail to rail, finds the saturation edge and follows the Early slope', () => {
     check(MIRROR, 'Q2', 41, (r, analysis) => {
       expect(r.node).toBe('out');
