@@ -177,6 +177,20 @@ describe('cases the fuzz target found', () => {
     expect(a.findings.some((f) => f.code === 'value-not-finite')).toBe(false);
   });
 
+  it('reads a behavioural source\'s V(node) from that node when an element left out took its node with it', () => {
+    // Fuzz case 20199 of seed 20261202 (`V(undefined)` in a message): Q1 has no model and is left out, so
+    // its node x is dropped and the nodes after it renumbered; B1's V(a) kept the old number and read
+    // V(out) instead. Ohm's law on the divider: V(a) = 2 V × 1k / (1k + 1k) = 1 V, so V(out) = 2 × V(a) = 2 V.
+    const a = run('Level probe: a doubler reading a divider, beside a transistor with no model\nV1 in 0 2\nQ1 x x 0 nomodel\nR1 in a 1k\nR2 a 0 1k\nB1 out 0 V={2*V(a)}\nR3 out 0 1k\n.end\n');
+    expect(a.findings.map((f) => f.code)).toContain('model-not-found');
+    expect(a.operatingPoint!.nodes['a']).toBeCloseTo(1, 6);
+    expect(a.operatingPoint!.nodes['out']).toBeCloseTo(2, 6);
+    // A function that cannot be evaluated names the node it reads.
+    const b = run('Log probe\nV1 in 0 -2\nQ1 x x 0 nomodel\nR1 in a 1k\nR2 a 0 1k\nB1 out 0 V={log(V(a))}\nR3 out 0 1k\n.end\n');
+    const f = b.findings.find((x) => x.code === 'dc-behaviour-not-evaluable');
+    expect(f?.message).toMatch(/V\(a\) = -1\b/);
+  });
+
   it('keeps a blank on each side of a sized value written against its neighbours', () => {
     // `ref{rset}M=1` is a node, a value and a parameter; writing 24k in place of {rset} must not make `ref24kM=1` one field.
     const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref{rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';

@@ -1205,12 +1205,16 @@ class Elaborator {
 
   /**
    * Removes nodes no kept element touches (their element was left out because of a finding) and
-   * renumbers the rest in order, so the solver never sees a node with nothing attached.
+   * renumbers the rest in order, so the solver never sees a node with nothing attached. A node a
+   * behavioural source reads (`V(a)`) counts as touched, and its input is renumbered with it.
    */
   private dropUnusedNodes(): void {
     const used = new Uint8Array(this.nodes.length);
     used[0] = 1;
-    for (const e of this.elements) for (const k of e.nodes) used[k] = 1;
+    for (const e of this.elements) {
+      for (const k of e.nodes) used[k] = 1;
+      if (e.kind === 'B') for (const input of e.inputs) if (input.kind === 'v') used[input.a] = used[input.b] = 1;
+    }
     if (used.every((u) => u === 1)) return;
     const remap = new Int32Array(this.nodes.length);
     const kept: string[] = [];
@@ -1220,7 +1224,15 @@ class Elaborator {
         kept.push(this.nodes[k]!);
       }
     }
-    for (const e of this.elements) e.nodes = e.nodes.map((k) => remap[k]!);
+    for (const e of this.elements) {
+      e.nodes = e.nodes.map((k) => remap[k]!);
+      if (e.kind !== 'B') continue;
+      for (const input of e.inputs) {
+        if (input.kind !== 'v') continue;
+        input.a = remap[input.a]!;
+        input.b = remap[input.b]!;
+      }
+    }
     // A loop rather than push(...kept): spreading 100k+ arguments overflows the call stack.
     this.nodes.length = 0;
     for (const n of kept) this.nodes.push(n);
