@@ -191,6 +191,14 @@ describe('cases the fuzz target found', () => {
     expect(f?.message).toMatch(/V\(a\) = -1\b/);
   });
 
+  it('says a temperature coefficient that overflows at an extreme temperature makes the resistance too large, without Infinity', () => {
+    // Fuzz case 44995 of seed 20261202: at 1e300 °C, 1 + TC1·ΔT + TC2·ΔT² overflows to +∞ (IEEE 754 double range ≈ 1.8e308).
+    const a = run('Heater sense\n.temp 1e300\nV1 a 0 1\nR1 a 0 1k TC1=1.5m TC2=2u\n.end\n');
+    const f = a.findings.find((x) => x.code === 'dc-value-unusable' && x.message.includes('R1'));
+    expect(f?.message).toMatch(/make its resistance too large for a number; its value at the nominal temperature was used/);
+    for (const x of a.findings) expect(x.message).not.toMatch(/Infinity|NaN/);
+  });
+
   it('keeps a blank on each side of a sized value written against its neighbours', () => {
     // `ref{rset}M=1` is a node, a value and a parameter; writing 24k in place of {rset} must not make `ref24kM=1` one field.
     const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref{rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';

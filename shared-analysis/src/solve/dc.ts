@@ -530,7 +530,7 @@ export class DcSolver {
           this.elementFinding(
             'dc-value-unusable',
             'warning',
-            `At ${formatEng(temperatureC, '°C')} the temperature coefficients of ${el.name} (TC1 = ${String(el.tc1 ?? 0)}, TC2 = ${String(el.tc2 ?? 0)}) multiply its resistance by ${String(Number(f.toPrecision(3)))}, which is not a resistance; its value at the nominal temperature was used.`,
+            `At ${formatEng(temperatureC, '°C')} the temperature coefficients of ${el.name} (TC1 = ${String(el.tc1 ?? 0)}, TC2 = ${String(el.tc2 ?? 0)}) ${Number.isNaN(f) ? 'give no number for its resistance' : Number.isFinite(f) ? `multiply its resistance by ${String(Number(f.toPrecision(3)))}, which is not a resistance` : 'make its resistance too large for a number'}; its value at the nominal temperature was used.`,
             i,
           ),
         );
