@@ -10,6 +10,8 @@ import { clampSpan, dropNonFinite, keepFinite, markLazyTables } from '../../shar
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { parameterStep } from '../../shared-analysis/src/variation/sensitivity';
+import { spreadText } from '../../shared-analysis/src/variation/text';
+import type { OutputVariation } from '../../shared-analysis/src/variation/types';
 
 const URI = '/w/typing.cir';
 
@@ -197,6 +199,17 @@ describe('cases the fuzz target found', () => {
     const f = a.findings.find((x) => x.code === 'dc-value-unusable' && x.message.includes('R1'));
     expect(f?.message).toMatch(/make its resistance too large for a number; its value at the nominal temperature was used/);
     for (const x of a.findings) expect(x.message).not.toMatch(/Infinity|NaN/);
+  });
+
+  it('shows a spread figure the output guard left out as a dash, not NaN', () => {
+    // Fuzz cases 24792 … 46977 of seed 20261202 (a PNP with BF=1e-320 in an included file): the spread's σ,
+    // worst case and drift were NaN, the guard removed them (value-not-finite), and the text report printed
+    // "drift +NaN ppm/°C". The root, the NaN in the spread analysis, is reported to its owner.
+    const left = { sigmaRelative: undefined, worstCaseRelative: undefined, tempcoPpmPerC: undefined, supplyPercentPerVolt: { VEE: Infinity, VCC: 2 }, contributors: [] } as unknown as OutputVariation;
+    const text = spreadText(left);
+    expect(text).not.toMatch(/NaN|Infinity|undefined/);
+    expect(text).toContain('drift —');
+    expect(text).toContain('VCC +2 %/V');
   });
 
   it('keeps a blank on each side of a sized value written against its neighbours', () => {

@@ -15,7 +15,9 @@ export function percentText(ratio: number): string {
   return `${+p.toPrecision(3)} %`;
 }
 
+/** A signed figure, or — when there is none (a value the output guard left out as not finite). */
 function signed(v: number, digits = 3): string {
+  if (!Number.isFinite(v)) return '—';
   const t = +Math.abs(v).toPrecision(digits);
   return `${v < 0 ? '−' : '+'}${t}`;
 }
@@ -23,7 +25,7 @@ function signed(v: number, digits = 3): string {
 /** `σ 2.82 % (±3σ 8.46 %), worst case ±18.7 %; drift +115 ppm/°C; VCC +9.48 %/V; from VCC 45 %, Q1/Q2 VBE 34 %, RREF 18 %` (and the yield when the output has a target). */
 export function spreadText(v: OutputVariation): string {
   const parts = [`σ ${percentText(v.sigmaRelative)} (±3σ ${percentText(3 * v.sigmaRelative)}), worst case ±${percentText(v.worstCaseRelative)}`];
-  parts.push(`drift ${signed(v.tempcoPpmPerC)} ppm/°C`);
+  parts.push(Number.isFinite(v.tempcoPpmPerC) ? `drift ${signed(v.tempcoPpmPerC)} ppm/°C` : 'drift —');
   const supplies = Object.entries(v.supplyPercentPerVolt)
     .filter(([, s]) => Math.abs(s) >= 0.01)
     .sort((a, b) => rankOf(b[1]) - rankOf(a[1]))
