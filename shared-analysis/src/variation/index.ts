@@ -15,6 +15,9 @@ import { rankOf } from './rank';
 
 declare const performance: { now(): number };
 
+/** Normalised sensitivities kept per output (the largest). */
+const SHOWN_SENSITIVITIES = 10;
+
 export type { OutputVariation, VariationResult } from './types';
 
 /** Standard normal cumulative distribution Φ(z), from erfc by the rational Chebyshev approximation of W. J. Cody (Math. Comp. 23, 1969) as given in Numerical Recipes §6.2 (fractional error below 1.2e-7). */
@@ -96,15 +99,23 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
   // Parameters: every tolerance source, the temperature, and every voltage source (for %/V) and resistor (for % per %).
   const params: VariedParameter[] = [];
-  const paramKey = (p: VariedParameter): string => (p.kind === 'temperature' ? 'T' : p.kind === 'model' ? `m${p.element}:${p.param}` : `${p.kind[0]}${p.element}`);
-  const paramIndex = new Map<string, number>();
+  // Each parameter once: keyed by kind and element (a model parameter by its name, then its element).
+  const plainIndex = new Map<number, number>();
+  const modelIndex = new Map<string, Map<number, number>>();
   const addParam = (p: VariedParameter): number => {
-    const k = paramKey(p);
-    let j = paramIndex.get(k);
+    let table = plainIndex;
+    let k = 0;
+    if (p.kind === 'model') {
+      let byElement = modelIndex.get(p.param);
+      if (!byElement) modelIndex.set(p.param, (byElement = new Map()));
+      table = byElement;
+      k = p.element;
+    } else if (p.kind !== 'temperature') k = (p.element + 1) * 2 + (p.kind === 'resistance' ? 0 : 1);
+    let j = table.get(k);
     if (j === undefined) {
       j = params.length;
       params.push(p);
-      paramIndex.set(k, j);
+      table.set(k, j);
     }
     return j;
   };
@@ -138,7 +149,10 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     const row = sens.derivative[o];
     const scale = Math.abs(y) > 0 ? Math.abs(y) : 1;
     const per: SourceRow = { index: [], value: [] };
-    const sensList: Sensitivity[] = [];
+    // The ten largest normalised sensitivities by `rankOf`, kept in order as they come (ties keep the parameter order).
+    const topValue: number[] = [];
+    const topRank: number[] = [];
+    const topParam: number[] = [];
     for (let q = 0; q < row.index.length; q++) {
       const j = row.index[q];
       const k = sourceOfParam[j];
@@ -147,13 +161,29 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
         per.value.push(row.value[q]);
       }
       const how = shown[j];
-      if (how) sensList.push({ parameter: how.name, unit: how.unit, value: (row.value[q] * how.factor) / scale });
+      if (!how) continue;
+      const value = (row.value[q] * how.factor) / scale;
+      const rank = rankOf(value);
+      if (topValue.length === SHOWN_SENSITIVITIES && !(rank > topRank[SHOWN_SENSITIVITIES - 1])) continue;
+      let at = topValue.length;
+      while (at > 0 && rank > topRank[at - 1]) at--;
+      topValue.splice(at, 0, value);
+      topRank.splice(at, 0, rank);
+      topParam.splice(at, 0, j);
+      if (topValue.length > SHOWN_SENSITIVITIES) {
+        topValue.pop();
+        topRank.pop();
+        topParam.pop();
+      }
     }
+    const sensList: Sensitivity[] = topValue.map((value, k) => {
+      const how = shown[topParam[k]]!;
+      return { parameter: how.name, unit: how.unit, value };
+    });
     bySource.push(per);
     const spread = spreadOf(sources, per);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
     for (const s of supplies) supplyPercentPerVolt[s.name] = (derivativeOf(sens, o, s.j) / scale) * 100;
-    sensList.sort((a, b) => rankOf(b.value) - rankOf(a.value));
     const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
     const out: OutputVariation = {
       output: spec.label,
@@ -169,7 +199,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
       tempcoPpmPerC: (derivativeOf(sens, o, temperature) / scale) * 1e6,
       supplyPercentPerVolt,
       contributors: spread.contributors.slice(0, 8),
-      sensitivities: sensList.slice(0, 10),
+      sensitivities: sensList,
     };
     if (target) {
       const lo = target.current * (1 - target.tolerance);
@@ -188,12 +218,46 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   return { result, specs, sources, bySource };
 }
 
+/** The group of each source as a number (sources of one group are summed when ranked), built once per list of sources. */
+interface GroupIndex {
+  of: Int32Array;
+  names: string[];
+  aspects: (string | undefined)[];
+}
+const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
+function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
+  let g = groupIndexes.get(sources);
+  if (g) return g;
+  const byName = new Map<string, number>();
+  g = { of: new Int32Array(sources.length), names: [], aspects: [] };
+  sources.forEach((s, k) => {
+    let i = byName.get(s.group);
+    if (i === undefined) {
+      byName.set(s.group, (i = g!.names.length));
+      g!.names.push(s.group);
+      g!.aspects.push(s.aspect);
+    }
+    g!.of[k] = i;
+  });
+  groupIndexes.set(sources, g);
+  return g;
+}
+/** Per-group sums of one call, kept between calls (reset after use). */
+let groupVariance = new Float64Array(64);
+let groupWorst = new Float64Array(64);
+
 /** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
-  const groups = new Map<string, { variance: number; worst: number; aspect?: string; members: { name: string; variance: number }[] }>();
+  const groups = groupIndexOf(sources);
+  if (groupVariance.length < groups.names.length) {
+    groupVariance = new Float64Array(groups.names.length * 2);
+    groupWorst = new Float64Array(groups.names.length * 2);
+  }
+  const touched: number[] = [];
   let variance = 0;
   let worstCase = 0;
-  per.index.forEach((k, q) => {
+  for (let q = 0; q < per.index.length; q++) {
+    const k = per.index[q];
     const s = sources[k];
     const sigma = sigmaOverride ? sigmaOverride(k) : s.sigma;
     const bound = sigmaOverride ? (s.bound / s.sigma) * sigma : s.bound;
@@ -201,20 +265,32 @@ export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, si
     const w = Math.abs(per.value[q] * bound);
     variance += a * a;
     worstCase += w;
-    let g = groups.get(s.group);
-    if (!g) groups.set(s.group, (g = { variance: 0, worst: 0, aspect: s.aspect, members: [] }));
-    g.variance += a * a;
-    g.worst += w;
-    g.members.push({ name: s.element, variance: a * a });
-  });
+    const g = groups.of[k];
+    if (groupVariance[g] === 0 && groupWorst[g] === 0 && !touched.includes(g)) touched.push(g);
+    groupVariance[g] += a * a;
+    groupWorst[g] += w;
+  }
   const contributors: Contribution[] = [];
-  for (const [group, g] of groups) {
-    if (!(g.variance > 0)) continue;
-    // A mismatch group is named by the devices that carry at least 1 % of its variance (`Q1/Q2 VBE`).
-    const name = g.aspect
-      ? `${g.members.filter((m) => m.variance >= 0.01 * g.variance).map((m) => m.name).join('/')} ${g.aspect}`
-      : group;
-    contributors.push({ name, share: variance > 0 ? g.variance / variance : 0, sigma: Math.sqrt(g.variance), worstCase: g.worst });
+  for (const g of touched) {
+    const v = groupVariance[g];
+    const worst = groupWorst[g];
+    groupVariance[g] = 0;
+    groupWorst[g] = 0;
+    if (!(v > 0)) continue;
+    const aspect = groups.aspects[g];
+    let name = groups.names[g];
+    if (aspect) {
+      // A mismatch group is named by the devices that carry at least 1 % of its variance (`Q1/Q2 VBE`).
+      const members: string[] = [];
+      for (let q = 0; q < per.index.length; q++) {
+        const k = per.index[q];
+        if (groups.of[k] !== g) continue;
+        const a = Math.abs(per.value[q] * (sigmaOverride ? sigmaOverride(k) : sources[k].sigma));
+        if (a * a >= 0.01 * v) members.push(sources[k].element);
+      }
+      name = `${members.join('/')} ${aspect}`;
+    }
+    contributors.push({ name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst });
   }
   contributors.sort((a, b) => rankOf(b.share) - rankOf(a.share) || (a.name < b.name ? -1 : 1));
   return { sigma: Math.sqrt(variance), worstCase, contributors };
