@@ -310,7 +310,25 @@ async function monteCarloCommand(output: vscode.OutputChannel): Promise<void> {
   if (!reply?.report) return;
   output.appendLine(`Monte Carlo of ${name}: ${reply.runs} runs (${reply.converged} converged), seed ${parsed.seed}`);
   for (const line of reply.report) output.appendLine(line);
+  output.appendLine('Each output’s histogram is drawn in its output-characteristic panel (qpoint: Plot a mirror output characteristic).');
   output.show(true);
+  await redrawPanels(c, editor.document.uri);
+}
+
+/** Asks again for the output characteristic of every open panel of a netlist (after Monte Carlo, so they show its histogram). */
+async function redrawPanels(c: LanguageClient, documentUri: vscode.Uri): Promise<void> {
+  const prefix = `${documentUri.toString()}#`;
+  const uri = c.code2ProtocolConverter.asUri(documentUri);
+  for (const key of [...panels.keys()]) {
+    if (!key.startsWith(prefix)) continue;
+    const device = key.slice(prefix.length);
+    try {
+      const result = await c.sendRequest<OutputCharacteristicResult>(OUTPUT_CHARACTERISTIC_REQUEST, { uri, device } satisfies OutputCharacteristicParams);
+      if (panels.has(key)) showCharacteristic(documentUri, result);
+    } catch {
+      // The panel keeps what it showed; plotting again shows the histogram.
+    }
+  }
 }
 
 /** `qpoint.plotOutputCharacteristic`: pick a mirror output and show its output characteristic. */

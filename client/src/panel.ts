@@ -1,6 +1,6 @@
 // Builds the HTML page of the output-characteristic panel: the chart, the corner table and a strict Content-Security-Policy.
 import type { OutputCharacteristicResult } from '../../server/src/protocol';
-import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderDriftSvg, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
+import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, monteCarloSentence, renderCornerTableHtml, renderDriftSvg, renderHistogramSvg, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 import { formatQuantity } from '../../shared-analysis/src/view/format';
 
 /** What the panel page shows besides the sweep itself. */
@@ -64,6 +64,9 @@ ${renderCornerTableHtml(result)}
 <h2>Drift with temperature</h2>
 <p class="qp-subtitle">${escapeXml(spreadSentence(result))}</p>
 ${renderDriftSvg(result, { width: size.width, height: Math.round(size.height * 0.7) })}
+<h2>Spread over Monte Carlo runs</h2>
+<p class="qp-subtitle">${escapeXml(monteCarloSentence(result))}</p>
+${result.monteCarlo ? renderHistogramSvg(result, { width: size.width, height: Math.round(size.height * 0.7) }) : ''}
 </main>
 </body>
 </html>

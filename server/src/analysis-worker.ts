@@ -94,8 +94,12 @@ function monteCarloStep(uri: string, analysis: Analysis, msg: { seed: number; fi
   if (!msg.finish) return { runs: state.runs, converged: state.converged };
   monteCarlo.delete(uri);
   const report: string[] = [];
+  // The analysis's own outputs (and so its structures') get the figures: an output-characteristic request on this analysis shows the histogram.
+  const own = new Map((state.analysis.variation?.outputs ?? []).map((o) => [o.key, o]));
   state.setup.detail.result.outputs.forEach((o, k) => {
     const figures = monteCarloFigures(state!.samples[k], 20, o.target, state!.runs);
+    const mine = own.get(o.key);
+    if (mine) mine.monteCarlo = figures;
     const shown = { ...o, monteCarlo: figures };
     report.push(`${o.structure ? `${o.structure} ` : ''}${o.output}: nominal ${formatEngineering(o.nominal, { unit: o.unit, digits: 4 })}`);
     report.push(`  linear: ${spreadText(o)}`);

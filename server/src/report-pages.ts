@@ -7,7 +7,7 @@ import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { capitalised, kindName, outputKindName } from '../../shared-analysis/src/structures/catalogue';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import { formatDifference, formatHeadroom, formatQuantity, formatRange } from '../../shared-analysis/src/view/format';
-import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, renderCornerTableHtml, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
+import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, monteCarloSentence, renderCornerTableHtml, renderDriftSvg, renderHistogramSvg, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 import { minOf, maxOf } from '../../shared-analysis/src/arrays';
 
 /** A finding as the command line reports it (the JSON output's diagnostic). */
@@ -223,6 +223,9 @@ export function htmlSection(f: ReportFile, index: number, options: SectionOption
       // The corner table folds away: thirty rows per chart would bury the page (the summary says the range).
       if (r.cornerSpread.length) body.push(`<details><summary>Output current at each of the ${r.cornerSpread.length} corners</summary>\n${renderCornerTableHtml(r)}\n</details>`);
       body.push('</figure>');
+      // The same drift and Monte Carlo figures as the editor's panel and the JSON (`variation` per output).
+      if (r.drift && r.drift.length >= 2) body.push(`<figure><figcaption>Output current of ${escapeXml(device)} against temperature, its load in place.</figcaption>\n${renderDriftSvg(r, { width: 720, height: 260 })}</figure>`);
+      if (r.monteCarlo) body.push(`<figure><figcaption>${escapeXml(monteCarloSentence(r))}</figcaption>\n${renderHistogramSvg(r, { width: 720, height: 260 })}</figure>`);
     }
     if (left.length) {
       const how = options.allChartsHint ?? 'qpoint report --format html --charts-per-file all';

@@ -38,8 +38,11 @@ describe('qpoint report --format html', () => {
     // Self-contained: no script, and nothing loaded from elsewhere (HTML Living Standard: src/href fetch resources).
     expect(html).not.toMatch(/<script|\ssrc=|<link\s|@import|url\(http/i);
     expect(html).toContain('default-src \'none\'');
-    // Three outputs (Q2, QW, MOUT): three charts, each titled in words.
-    expect((html.match(/<svg /g) ?? []).length).toBe(3);
+    // Three outputs (Q2, QW, MOUT): three characteristics, each titled in words, each with its drift against temperature.
+    expect((html.match(/<svg /g) ?? []).length).toBe(6);
+    expect((html.match(/class="qp-chart qp-drift"/g) ?? []).length).toBe(3);
+    // No Monte Carlo asked for: no histogram.
+    expect(html).not.toContain('qp-histogram');
     expect(html).toContain('Widlar output QW of the simple current mirror on Q1 (NPN)');
     expect(html).toContain('Mirror output MOUT of the simple current mirror on MREF (PMOS)');
     expect(html).toMatch(/<th scope="col">Spread and drift<\/th>/);
@@ -99,6 +102,24 @@ describe('qpoint report --format html on a netlist with more outputs than charts
     expect(run(['report', '--format', 'html', '--charts-per-file', 'some', f]).code).toBe(2);
     expect(run(['check', '--charts-per-file', '3', f]).code).toBe(2);
   }, 180_000);
+});
+
+describe('qpoint report --format html --monte-carlo N', () => {
+  it('draws each output\'s histogram of the runs beside its figures, the same figures as the JSON', () => {
+    const out = join(scratch.dir, 'report-mc.html');
+    const bench = file('bench-mc.cir', NETLIST);
+    const r = run(['report', '--format', 'html', '--monte-carlo', '200', '--seed', '5', '-o', out, bench]);
+    expect(r.code, r.stderr).toBe(0);
+    const html = readFileSync(out, 'utf8');
+    expect((html.match(/class="qp-chart qp-histogram"/g) ?? []).length).toBe(3);
+    const j = run(['report', '--format', 'json', '--monte-carlo', '200', '--seed', '5', bench]);
+    expect(j.code, j.stderr).toBe(0);
+    const outputs = (JSON.parse(j.stdout) as { files: { variation: { outputs: { key: string; monteCarlo?: { converged: number; runs: number } }[] } }[] }).files[0].variation.outputs;
+    for (const device of ['Q2', 'QW', 'MOUT']) {
+      const o = outputs.find((x) => x.key.endsWith(` out ${device}`))!;
+      expect(html).toContain(`${o.monteCarlo!.converged} of ${o.monteCarlo!.runs} Monte Carlo runs`);
+    }
+  });
 });
 
 describe('qpoint report --format markdown', () => {

@@ -45,6 +45,25 @@ export interface OutputCharacteristicResult {
   drift?: { t: number; i: number }[];
   /** The output's predicted spread (docs/VARIATION.md), when the analysis has it: σ and worst case relative to nominal, drift in ppm/°C. */
   spread?: { sigmaRelative: number; worstCaseRelative: number; tempcoPpmPerC: number };
+  /**
+   * The output's Monte Carlo figures when Monte Carlo ran on this analysis (docs/VARIATION.md):
+   * the magnitude of the current in each of `histogram.length` equal bins from `min` to `max`,
+   * beside the linear prediction (`nominal`, `linearSigma`) and the target window, if any.
+   */
+  monteCarlo?: {
+    runs: number;
+    converged: number;
+    mean: number;
+    sigma: number;
+    min: number;
+    max: number;
+    histogram: number[];
+    nominal: number;
+    linearSigma: number;
+    target?: { low: number; high: number };
+    yield?: number;
+    predictedYield?: number;
+  };
 }
 
 /** Temperature points of the drift sweep. */
@@ -117,6 +136,23 @@ export function outputCharacteristic(analysis: Analysis, device: string, points 
   return {
     ...(drift.length >= 2 ? { drift } : {}),
     ...(variation ? { spread: { sigmaRelative: variation.sigmaRelative, worstCaseRelative: variation.worstCaseRelative, tempcoPpmPerC: variation.tempcoPpmPerC } } : {}),
+    ...(variation?.monteCarlo && variation.monteCarlo.converged > 0
+      ? {
+          monteCarlo: {
+            runs: variation.monteCarlo.runs,
+            converged: variation.monteCarlo.converged,
+            mean: variation.monteCarlo.mean,
+            sigma: variation.monteCarlo.sigma,
+            min: variation.monteCarlo.min,
+            max: variation.monteCarlo.max,
+            histogram: [...variation.monteCarlo.histogram],
+            nominal: Math.abs(variation.nominal),
+            linearSigma: variation.sigma,
+            ...(variation.target ? { target: { low: variation.target.current * (1 - variation.target.tolerance), high: variation.target.current * (1 + variation.target.tolerance) }, predictedYield: variation.target.yield } : {}),
+            ...(variation.monteCarlo.yield !== undefined ? { yield: variation.monteCarlo.yield } : {}),
+          },
+        }
+      : {}),
     device: output.device,
     structureId: structure.id,
     title: `${capitalised(outputKindName(structure, output.device))} ${output.device} of the ${kindName(structure.kind)} on ${structure.reference.device} (${technologyWords(structure.technology)}${where})`,

@@ -395,6 +395,14 @@ h1 { font-size: 1.2em; font-weight: 600; margin: 12px 0 4px; }
 .qp-corners caption { text-align: left; margin-bottom: 4px; color: var(--qp-muted); }
 .qp-corners th, .qp-corners td { border: 1px solid var(--qp-line); padding: 2px 10px; text-align: left; }
 .qp-corners td { font-variant-numeric: tabular-nums; }
+.qp-bar { fill: var(--qp-curve); fill-opacity: 0.55; stroke: var(--qp-curve); stroke-width: 1; }
+.qp-predicted { fill: none; stroke: var(--qp-op); stroke-width: 2; stroke-dasharray: 5 3; }
+.qp-nominal { stroke: var(--qp-op); stroke-width: 2; }
+.qp-window { stroke: var(--qp-edge); stroke-width: 1.5; stroke-dasharray: 6 4; }
+.qp-chart .qp-window-label { fill: var(--qp-edge); }
+.qp-chart .qp-predicted-label { fill: var(--qp-op); }
+body.vscode-high-contrast .qp-bar, body.vscode-high-contrast-light .qp-bar { fill-opacity: 1; stroke: var(--vscode-contrastBorder, var(--qp-fg)); stroke-width: 1.5; }
+body.vscode-high-contrast .qp-predicted, body.vscode-high-contrast-light .qp-predicted, body.vscode-high-contrast .qp-window, body.vscode-high-contrast-light .qp-window { stroke-width: 3; }
 body.vscode-high-contrast .qp-curve, body.vscode-high-contrast-light .qp-curve { stroke-width: 3.5; }
 body.vscode-high-contrast .qp-hatch-outside line, body.vscode-high-contrast-light .qp-hatch-outside line,
 body.vscode-high-contrast .qp-hatch-reversed path, body.vscode-high-contrast-light .qp-hatch-reversed path { opacity: 1; }
@@ -440,4 +448,105 @@ export function renderDriftSvg(result: OutputCharacteristicResult, size: PlotSiz
   out.push(`<polyline class="qp-curve" points="${pts.map((p) => `${n(px(p.t))},${n(py(p.i))}`).join(' ')}"/>`);
   out.push('</svg>');
   return out.join('\n');
+}
+
+/**
+ * The output's Monte Carlo histogram as an SVG fragment (the same classes as the other charts):
+ * one bar per bin of the runs' currents, the linear prediction — a normal curve at the nominal
+ * value with the linear σ, scaled to the runs and bin width — and the target window when there is
+ * one. A note instead when no Monte Carlo figures came.
+ */
+export function renderHistogramSvg(result: OutputCharacteristicResult, size: PlotSize): string {
+  const width = Math.max(240, Number.isFinite(size.width) ? size.width : 0);
+  const height = Math.max(160, Number.isFinite(size.height) ? size.height : 0);
+  const device = escapeXml(result.device ?? '');
+  const id = idOf(`histogram#${result.structureId}#${result.device}`);
+  const mc = result.monteCarlo;
+  const bins = Array.isArray(mc?.histogram) ? mc.histogram.filter((c) => Number.isFinite(c) && c >= 0) : [];
+  if (!mc || bins.length === 0 || bins.length !== mc.histogram.length || !(mc.converged > 0) || !Number.isFinite(mc.min) || !Number.isFinite(mc.max)) {
+    return `<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart qp-histogram" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" tabindex="0"><title>Monte Carlo histogram of ${device}</title><text class="qp-note" x="${n(width / 2)}" y="${n(height / 2)}" text-anchor="middle">No Monte Carlo runs for this output yet.</text></svg>`;
+  }
+  const plot = { left: 72, top: 20, right: width - 24, bottom: height - 52 };
+  const binWidth = mc.max > mc.min ? (mc.max - mc.min) / bins.length : 0;
+  const linear = Number.isFinite(mc.linearSigma) && mc.linearSigma > 0 && Number.isFinite(mc.nominal) ? { mean: mc.nominal, sigma: mc.linearSigma } : undefined;
+  // The axis spans the runs and the linear ±3σ, so the two can be compared at a glance.
+  let lo = mc.min;
+  let hi = binWidth > 0 ? mc.max : mc.min;
+  if (linear) {
+    lo = Math.min(lo, linear.mean - 3 * linear.sigma);
+    hi = Math.max(hi, linear.mean + 3 * linear.sigma);
+  }
+  const [x0, x1] = spanOf(lo, hi, Math.max(Math.abs(lo) * 1e-3, 1e-12));
+  const top = Math.max(1, maxOf(bins));
+  const x = buildAxis(x0, x1, Math.max(3, Math.min(8, Math.round((plot.right - plot.left) / 100))), 'A', 'Output current', (f) => plot.left + f * (plot.right - plot.left));
+  const yTicks = niceTicks(0, top * 1.1, Math.max(3, Math.min(6, Math.round((plot.bottom - plot.top) / 50))));
+  const px = (v: number) => plot.left + ((v - x.min) / (x.max - x.min)) * (plot.right - plot.left);
+  const py = (c: number) => plot.bottom - (c / yTicks.max) * (plot.bottom - plot.top);
+  const fmtA = (v: number) => escapeXml(formatQuantity(v, 'A'));
+  const out: string[] = [];
+  out.push(`<svg xmlns="http://www.w3.org/2000/svg" class="qp-chart qp-histogram" viewBox="0 0 ${width} ${height}" width="${width}" height="${height}" role="img" tabindex="0" aria-labelledby="${id}-title ${id}-desc">`);
+  out.push(`<title id="${id}-title">Monte Carlo histogram of the output current of ${device}: ${mc.converged} of ${mc.runs} runs</title>`);
+  out.push(
+    `<desc id="${id}-desc">Mean ${fmtA(mc.mean)}, σ ${fmtA(mc.sigma)}, from ${fmtA(mc.min)} to ${fmtA(mc.max)}` +
+      (linear ? `; the linear prediction is ${fmtA(linear.mean)} with σ ${fmtA(linear.sigma)}` : '') +
+      (mc.target ? `; target window ${fmtA(mc.target.low)} to ${fmtA(mc.target.high)}${mc.yield !== undefined ? `, ${+(mc.yield * 100).toPrecision(3)} % of runs inside` : ''}` : '') +
+      `.</desc>`,
+  );
+  for (const t of x.ticks) out.push(`<line class="qp-grid" x1="${n(t.px)}" y1="${n(plot.top)}" x2="${n(t.px)}" y2="${n(plot.bottom)}"/>`);
+  for (const v of yTicks.values) out.push(`<line class="qp-grid" x1="${n(plot.left)}" y1="${n(py(v))}" x2="${n(plot.right)}" y2="${n(py(v))}"/>`);
+  out.push('<g class="qp-bars">');
+  bins.forEach((c, k) => {
+    if (c === 0) return;
+    const a = px(mc.min + k * binWidth);
+    const b = binWidth > 0 ? px(mc.min + (k + 1) * binWidth) : a + 4;
+    out.push(`<rect class="qp-bar" x="${n(Math.min(a, b))}" y="${n(py(c))}" width="${n(Math.max(1, Math.abs(b - a)))}" height="${n(plot.bottom - py(c))}"><title>${c} runs from ${fmtA(mc.min + k * binWidth)} to ${fmtA(mc.min + (k + 1) * binWidth)}</title></rect>`);
+  });
+  out.push('</g>');
+  if (linear && binWidth > 0) {
+    // Expected runs per bin of a normal population: N·w·φ((x − μ)/σ)/σ.
+    const pts: string[] = [];
+    const steps = 120;
+    for (let k = 0; k <= steps; k++) {
+      const v = x.min + ((x.max - x.min) * k) / steps;
+      const z = (v - linear.mean) / linear.sigma;
+      const c = (mc.converged * binWidth * Math.exp(-0.5 * z * z)) / (linear.sigma * Math.sqrt(2 * Math.PI));
+      pts.push(`${n(px(v))},${n(py(Math.min(c, yTicks.max)))}`);
+    }
+    out.push(`<polyline class="qp-predicted" points="${pts.join(' ')}"/>`);
+    out.push(`<line class="qp-nominal" x1="${n(px(linear.mean))}" y1="${n(plot.top)}" x2="${n(px(linear.mean))}" y2="${n(plot.bottom)}"/>`);
+    out.push(`<text class="qp-predicted-label" x="${n(Math.min(plot.right - 4, px(linear.mean) + 6))}" y="${n(plot.top + 14)}" text-anchor="${px(linear.mean) > (plot.left + plot.right) / 2 ? 'end' : 'start'}">linear prediction (dashed), nominal</text>`);
+  }
+  if (mc.target) {
+    for (const [v, label] of [[mc.target.low, 'target low'], [mc.target.high, 'target high']] as const) {
+      if (!(v >= x.min && v <= x.max)) continue;
+      out.push(`<line class="qp-window" x1="${n(px(v))}" y1="${n(plot.top)}" x2="${n(px(v))}" y2="${n(plot.bottom)}"/>`);
+      out.push(`<text class="qp-window-label" x="${n(px(v) + (label === 'target low' ? 4 : -4))}" y="${n(plot.bottom - 8)}" text-anchor="${label === 'target low' ? 'start' : 'end'}">${label}</text>`);
+    }
+  }
+  out.push(`<rect class="qp-frame" x="${n(plot.left)}" y="${n(plot.top)}" width="${n(plot.right - plot.left)}" height="${n(plot.bottom - plot.top)}"/>`);
+  out.push('<g class="qp-axis qp-axis-x">');
+  for (const t of x.ticks) out.push(`<text class="qp-tick-label" data-value="${t.value}" x="${n(t.px)}" y="${n(plot.bottom + 18)}" text-anchor="middle">${escapeXml(t.label)}</text>`);
+  out.push(`<text class="qp-axis-title" x="${n((plot.left + plot.right) / 2)}" y="${n(height - 12)}" text-anchor="middle">${escapeXml(x.title)}</text>`);
+  out.push('</g>');
+  out.push('<g class="qp-axis qp-axis-y">');
+  for (const v of yTicks.values) out.push(`<text class="qp-tick-label" data-value="${v}" x="${n(plot.left - 8)}" y="${n(py(v) + 4)}" text-anchor="end">${v}</text>`);
+  const yMid = (plot.top + plot.bottom) / 2;
+  out.push(`<text class="qp-axis-title" x="16" y="${n(yMid)}" text-anchor="middle" transform="rotate(-90 16 ${n(yMid)})">Runs per bin</text>`);
+  out.push('</g>');
+  out.push('</svg>');
+  return out.join('\n');
+}
+
+/** The Monte Carlo figures of an output in one sentence beside the linear ones, or how to get them. */
+export function monteCarloSentence(result: OutputCharacteristicResult): string {
+  const mc = result.monteCarlo;
+  if (!mc || !(mc.converged > 0)) return 'No Monte Carlo runs for this output yet: run “qpoint: Run Monte Carlo on this netlist” (or qpoint report --monte-carlo N) and its histogram appears here.';
+  const pct = (r: number) => `${+(Math.abs(r) * 100).toPrecision(3)} %`;
+  const rel = (s: number) => (mc.nominal > 0 ? ` (${pct(s / mc.nominal)})` : '');
+  return (
+    `${mc.converged} of ${mc.runs} Monte Carlo runs: mean ${formatQuantity(mc.mean, 'A')}, σ ${formatQuantity(mc.sigma, 'A')}${rel(mc.sigma)}, from ${formatQuantity(mc.min, 'A')} to ${formatQuantity(mc.max, 'A')}; ` +
+    `the linear prediction is σ ${formatQuantity(mc.linearSigma, 'A')}${rel(mc.linearSigma)} about ${formatQuantity(mc.nominal, 'A')}` +
+    (mc.target ? `; ${mc.yield !== undefined ? `${pct(mc.yield)} of the runs` : 'runs'} inside the target window${mc.predictedYield !== undefined ? ` (predicted ${pct(mc.predictedYield)})` : ''}` : '') +
+    '.'
+  );
 }

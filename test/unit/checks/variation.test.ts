@@ -133,3 +133,20 @@ RS s 0 1k
     expect(derivativeOf(r, 0, 0)).toBeLessThan(0);
   });
 });
+
+describe('Monte Carlo in the output characteristic', () => {
+  it('carries the output\'s histogram of the runs, the same figures as the spread analysis', async () => {
+    const { monteCarloOf } = await import('../../../shared-analysis/src/service');
+    const { outputCharacteristic } = await import('../../../shared-analysis/src/features/sweep');
+    const s = analyseSession({ uri: 'mem://m.cir', text: mirror('RREF vcc ref 9.1k', '; expect 1mA ±6%') }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const before = outputCharacteristic(s.analysis, 'Q2', 11);
+    expect('error' in before || before.monteCarlo === undefined).toBe(true);
+    monteCarloOf(s, { runs: 200, seed: 3 });
+    const r = outputCharacteristic(s.analysis, 'Q2', 11);
+    if ('error' in r) throw new Error(r.error);
+    const v = s.analysis.structures[0].variation!.iout['Q2']!;
+    expect(r.monteCarlo).toMatchObject({ runs: 200, converged: v.monteCarlo!.converged, mean: v.monteCarlo!.mean, sigma: v.monteCarlo!.sigma, linearSigma: v.sigma });
+    expect(r.monteCarlo!.histogram.reduce((a, b) => a + b, 0)).toBe(r.monteCarlo!.converged);
+    expect(r.monteCarlo!.target).toEqual({ low: 1e-3 * 0.94, high: 1e-3 * 1.06 });
+  });
+});

@@ -301,3 +301,53 @@ describe('the drift plot', () => {
     expect(renderDriftSvg({ ...base }, { width: 480, height: 240 })).toContain('No drift sweep');
   });
 });
+
+describe('the Monte Carlo histogram', () => {
+  const base = (): OutputCharacteristicResult => ({ device: 'Q2', structureId: 's', title: 'Mirror output Q2', technology: 'npn', node: 'out', points: [], edgeV: 0, activeSide: 'above', operatingV: 0, operatingI: 1e-3, range: { low: 0, high: 5, rails: [] }, cornerSpread: [] });
+  const figures = { runs: 500, converged: 500, mean: 1.001e-3, sigma: 2e-5, min: 0.94e-3, max: 1.06e-3, histogram: [1, 4, 20, 60, 110, 130, 100, 50, 20, 5], nominal: 1e-3, linearSigma: 2.1e-5, target: { low: 0.95e-3, high: 1.05e-3 }, yield: 0.994, predictedYield: 0.98 };
+
+  it('draws one bar per non-empty bin, at heights in proportion to its runs, with the linear prediction and the target window', async () => {
+    const { renderHistogramSvg } = await import('../../../shared-analysis/src/view/plot');
+    const svg = renderHistogramSvg({ ...base(), monteCarlo: figures }, { width: 600, height: 300 });
+    const bars = [...svg.matchAll(/<rect class="qp-bar" x="([^"]+)" y="([^"]+)" width="([^"]+)" height="([^"]+)"/g)].map((m) => m.slice(1).map(Number));
+    expect(bars).toHaveLength(10);
+    // Heights in proportion to the counts (130 runs against 10 times fewer, 13).
+    const h = bars.map((b) => b[3]);
+    expect(h[5] / h[8]).toBeCloseTo(130 / 20, 6);
+    // Left to right in current.
+    for (let k = 1; k < bars.length; k++) expect(bars[k][0]).toBeGreaterThan(bars[k - 1][0]);
+    expect(svg).toContain('class="qp-predicted"');
+    expect((svg.match(/class="qp-window"/g) ?? []).length).toBe(2);
+    expect(svg).toMatch(/Output current \((m|µ)A\)/);
+    expect(svg).toContain('Runs per bin');
+    // Reachable by keyboard and read as one image with its title and a description of the figures.
+    expect(svg).toMatch(/role="img" tabindex="0" aria-labelledby="[^"]+-title [^"]+-desc"/);
+    expect(svg).toContain('500 of 500 runs');
+    expect(svg).not.toMatch(/NaN|Infinity/);
+  });
+
+  it('scales the linear prediction so its area is the runs times the bin width (a normal density)', async () => {
+    const { renderHistogramSvg } = await import('../../../shared-analysis/src/view/plot');
+    // A flat histogram far narrower than the prediction: the curve's peak is N·w/(σ·√(2π)) runs (normal density; common practice).
+    const mc = { ...figures, histogram: [50, 50, 50, 50, 50, 50, 50, 50, 50, 50], linearSigma: 6e-5, target: undefined, yield: undefined, predictedYield: undefined };
+    const svg = renderHistogramSvg({ ...base(), monteCarlo: mc }, { width: 600, height: 300 });
+    const peak = (500 * 1.2e-5) / (6e-5 * Math.sqrt(2 * Math.PI));
+    const ys = /class="qp-predicted" points="([^"]+)"/.exec(svg)![1].split(' ').map((p) => Number(p.split(',')[1]));
+    const bar = /<rect class="qp-bar" x="[^"]+" y="([^"]+)" width="[^"]+" height="([^"]+)"/.exec(svg)!;
+    const bottom = Number(bar[1]) + Number(bar[2]);
+    const perRun = Number(bar[2]) / 50;
+    expect((bottom - Math.min(...ys)) / perRun).toBeCloseTo(peak, 0);
+  });
+
+  it('says how to get runs when there are none, and the panel shows the histogram section either way', async () => {
+    const { renderHistogramSvg, monteCarloSentence } = await import('../../../shared-analysis/src/view/plot');
+    expect(renderHistogramSvg(base(), { width: 600, height: 300 })).toContain('No Monte Carlo runs');
+    expect(monteCarloSentence(base())).toMatch(/Run Monte Carlo on this netlist/);
+    expect(monteCarloSentence({ ...base(), monteCarlo: figures })).toMatch(/^500 of 500 Monte Carlo runs: mean 1(\.\d+)? mA, σ 20(\.0)? µA \(2 %\).* 99\.4 % of the runs inside the target window \(predicted 98 %\)\.$/);
+    const without = renderPanelHtml(sweep(), { nonce: 'n', documentLabel: 'x.cir' });
+    expect(without).toContain('Spread over Monte Carlo runs');
+    expect(without).not.toContain('qp-histogram');
+    const withRuns = renderPanelHtml(sweep({ monteCarlo: figures }), { nonce: 'n', documentLabel: 'x.cir' });
+    expect(withRuns).toContain('class="qp-chart qp-histogram"');
+  });
+});
