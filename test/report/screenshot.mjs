@@ -73,7 +73,8 @@ async function main() {
       tab.on('pageerror', (e) => errors.push(e.message));
       await tab.goto(pathToFileURL(page).href, { waitUntil: 'load' });
       const info = await tab.evaluate(() => ({
-        charts: [...document.querySelectorAll('svg.qp-chart')].map((s) => {
+        drifts: document.querySelectorAll('svg.qp-chart.qp-drift').length,
+        charts: [...document.querySelectorAll('svg.qp-chart:not(.qp-drift):not(.qp-histogram)')].map((s) => {
           const r = s.getBoundingClientRect();
           const curve = s.querySelector('.qp-curve');
           return { w: r.width, h: r.height, title: s.querySelector('title')?.textContent ?? '', stroke: curve ? getComputedStyle(curve).stroke : '', sides: [...s.querySelectorAll('.qp-region-outside')].map((b) => b.getAttribute('class')) };
@@ -98,7 +99,9 @@ async function main() {
         }
         const pmos = info.charts.filter((c) => /\(PMOS/.test(c.title));
         if (!pmos.length || pmos.some((c) => !c.sides.every((s) => /qp-right/.test(s)))) throw new Error('a PMOS chart has its out-of-region band left of the edge');
-        return `${info.charts.length} charts; screenshot ${shot}`;
+        // Each characteristic has its drift against temperature under it (the same figures as the panel and the JSON).
+        if (info.drifts !== info.charts.length) throw new Error(`${info.drifts} drift plots for ${info.charts.length} charts`);
+        return `${info.charts.length} charts, each with its drift plot; screenshot ${shot}`;
       });
       await check(`the ${scheme} report lists the structures and findings`, async () => {
         if (info.rows < outputs.length) throw new Error(`${info.rows} structure rows for ${outputs.length} outputs`);
