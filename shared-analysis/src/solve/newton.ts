@@ -200,8 +200,9 @@ export class NewtonEngine {
     const { rowScale, colScale } = this;
     const n = colScale.length;
     const work = (this.sparseWork ??= new Float64Array(n));
-    const scaled: number[] = [];
-    for (let k = 0; k < cIndex.length; k++) scaled.push(cValue[k] * colScale[cIndex[k]]);
+    const scaled = this.sparseScaled;
+    scaled.length = cIndex.length;
+    for (let k = 0; k < cIndex.length; k++) scaled[k] = cValue[k] * colScale[cIndex[k]];
     if (this.solver.solveTransposeSparse) {
       this.solver.solveTransposeSparse(cIndex, scaled, work, out);
       for (let k = 0; k < out.index.length; k++) out.value[k] *= rowScale[out.index[k]];
@@ -218,6 +219,7 @@ export class NewtonEngine {
     }
   }
   private sparseWork: Float64Array | undefined;
+  private readonly sparseScaled: number[] = [];
 
   /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis). */
   get lastScaledValues(): Float64Array {

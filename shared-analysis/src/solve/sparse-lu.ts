@@ -129,6 +129,8 @@ export class SparseLU implements LinearSolver {
   private readonly reach: Int32Array;
   private readonly visited: Int32Array;
   private visitStamp = 0;
+  /** The positions one sparse transposed solve touches (its own buffer: the factorisation's `reach` is separate). */
+  private readonly transposeReach: Int32Array;
 
   private haveSymbolic = false;
   /** Row-wise copies of L and U for sparse transposed solves, rebuilt after each factorisation (see `transposeRows`). */
@@ -218,6 +220,7 @@ export class SparseLU implements LinearSolver {
     this.resume = new Int32Array(n);
     this.reach = new Int32Array(n);
     this.visited = new Int32Array(n);
+    this.transposeReach = new Int32Array(n);
   }
 
   /** Row indices of the compressed entries, for the ordering. */
@@ -387,7 +390,8 @@ export class SparseLU implements LinearSolver {
     const mark = this.visited;
     const stamp = ++this.visitStamp;
     const stack = this.stack;
-    const reach: number[] = [];
+    const buffer = this.transposeReach;
+    let count = 0;
     // Step 1: y = Qᵀ·b.
     for (let k = 0; k < bIndex.length; k++) {
       const pos = r.qinv[bIndex[k]];
@@ -399,7 +403,7 @@ export class SparseLU implements LinearSolver {
         // Depth-first over the graph k → j of the rows of U (j > k) and of L (j < k): every position either solve can touch.
         while (top > 0) {
           const v = stack[--top];
-          reach.push(v);
+          buffer[count++] = v;
           for (let p = r.uStart[v]; p < r.uStart[v + 1]; p++) {
             const w = r.uCol[p];
             if (mark[w] !== stamp) {
@@ -417,16 +421,18 @@ export class SparseLU implements LinearSolver {
         }
       }
     }
-    reach.sort((a, b) => a - b);
+    // A typed array sorts numerically, in place.
+    const reach = buffer.subarray(0, count).sort();
     // Step 2: Uᵀ·z = y, in increasing pivot order; row k of U holds column k of Uᵀ.
     const uDiag = this.uDiag;
-    for (const k of reach) {
+    for (let i = 0; i < count; i++) {
+      const k = reach[i];
       const zk = (y[k] /= uDiag[k]);
       if (zk === 0) continue;
       for (let p = r.uStart[k]; p < r.uStart[k + 1]; p++) y[r.uCol[p]] -= r.uVal[p] * zk;
     }
     // Step 3: Lᵀ·w = z, in decreasing pivot order; row k of L holds column k of Lᵀ.
-    for (let i = reach.length - 1; i >= 0; i--) {
+    for (let i = count - 1; i >= 0; i--) {
       const k = reach[i];
       const wk = y[k];
       if (wk === 0) continue;
@@ -434,7 +440,8 @@ export class SparseLU implements LinearSolver {
     }
     // Step 4: x = Pᵀ·w.
     const rowOf = this.rowOf;
-    for (const k of reach) {
+    for (let i = 0; i < count; i++) {
+      const k = reach[i];
       if (y[k] !== 0) {
         out.index.push(rowOf[k]);
         out.value.push(y[k]);

@@ -292,7 +292,11 @@ export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, si
     }
     contributors.push({ name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst });
   }
-  contributors.sort((a, b) => rankOf(b.share) - rankOf(a.share) || (a.name < b.name ? -1 : 1));
+  // Ranked by `rankOf` of the share, worked out once per contributor rather than per comparison.
+  if (contributors.length > 1) {
+    const rank = new Map(contributors.map((c) => [c, rankOf(c.share)]));
+    contributors.sort((a, b) => rank.get(b)! - rank.get(a)! || (a.name < b.name ? -1 : 1));
+  }
   return { sigma: Math.sqrt(variance), worstCase, contributors };
 }
 

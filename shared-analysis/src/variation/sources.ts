@@ -62,6 +62,7 @@ export function readCardTolerances(documents: Record<string, ParsedDocument>): M
 
 /** The tolerance written on an element's card (every instance of a subcircuit card shares it). */
 export function cardTolerance(tolerances: Map<string, number>, el: Element): number | undefined {
+  if (tolerances.size === 0) return undefined;
   return tolerances.get(`${el.origin.uri}\u0000${el.origin.span.start}`);
 }
 
