@@ -14,7 +14,7 @@ import { analyseStructures } from './checks/structures';
 import { judgeDevices } from './checks/devices/index';
 import { checkPlausibility } from './checks/plausibility';
 import { runCorners, type CornerStats } from './checks/corners';
-import { checkStartup } from './checks/startup';
+import { checkStartup, fillStartupCorners } from './checks/startup';
 import { readTargets, checkTargets } from './checks/targets';
 import { attachFixes, attachSizingFixes, sizingFixes, type SizingFixContext } from './fixes/index';
 import type { ParsedDocument } from './syntax/ast';
@@ -147,11 +147,12 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
       pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
       pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
+      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result, shouldStop: control.shouldStop, stop: () => new AnalysisStopped() })));
+        // The state each corner's solve chose, into the self-biased loops' start-up records (as addCorners does).
+        fillStartupCorners(structures);
       }
-      // After the corners: the start-up check reads the state each corner's solve chose.
-      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       const targets = timed('targets', () => readTargets(elab.documents));
       pushAll(findings, targets.findings);
       pushAll(findings, timed('targets', () =>
@@ -245,6 +246,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const findings: Finding[] = [];
   try {
     pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped() }));
+    fillStartupCorners(analysis.structures);
     const { targets } = readTargets(analysis.documents);
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
     if (!analysis.variation && options.variation.enabled) {

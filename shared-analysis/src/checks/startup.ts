@@ -13,7 +13,6 @@ import { polaritySign, topologyOf, type Topology, type Transistor } from '../str
 import type { StartupResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { cornerScope, cornerSourceValues, cornerSpecs, processCornerParameters, supplySources } from './corners';
-import { maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
@@ -54,8 +53,9 @@ const OFF_FRACTION = 1e-6;
  * Repeated at every corner of the corner table (`cornerSpecs`, when corners are enabled). Beta does not
  * move the zero state (no device conducts in it), so corners that differ only in beta share one verdict
  * and one loop-off solve; supply, temperature, the MOS process and single-supply corners each get theirs.
- * The state the solver chose at each corner is the corner table's own solve (run before this check), so
- * it costs nothing more. Where a start-up path exists, the whole circuit is solved once from the all-off
+ * The state the solver chose at each corner is the corner table's own solve, added by `fillStartupCorners`
+ * once the corners are solved (in the same pass, or a host's second phase), so it costs nothing more and
+ * the check itself does not depend on the corners having run. Where a start-up path exists, the whole circuit is solved once from the all-off
  * state at nominal and once at the hardest corner (lowest supply, then coldest, then slow MOS: where a
  * start-up resistor delivers least and the junctions it must open need most, common practice), which
  * shows by a solve that the path turns the loop on there too.
@@ -120,7 +120,7 @@ export function checkStartup(ctx: StartupContext): Finding[] {
       zeroStateCorners: labels.filter((l) => zeroAt.has(l)),
       ...(nominal && !nominal.feasible && nominal.path ? { startupPath: nominal.path } : {}),
       solvedCurrent: current,
-      corners: labels.filter((l) => checked.has(l)).map((label) => chosenState(main, label, zeroAt.has(label))),
+      corners: labels.filter((l) => checked.has(l)).map((label) => ({ label, zeroState: zeroAt.has(label) })),
     };
     if (nominal?.rest && nominalOff) {
       const start = allOffStart(full, circuit, topo, devices, main, nominalOff, nominal, { temperatureC: op.temperatureC });
@@ -138,11 +138,28 @@ export function checkStartup(ctx: StartupContext): Finding[] {
   return findings;
 }
 
-/** One corner's line of a loop's start-up record: whether the zero state exists there, and the state the corner table's solve chose. */
-function chosenState(main: Structure, label: string, zeroState: boolean): NonNullable<StartupResult['corners']>[number] {
-  const c = main.corners.find((x) => x.label === label);
-  if (!c) return { label, zeroState };
-  return { label, zeroState, converged: c.converged, ...(c.converged && Number.isFinite(c.iref) ? { solvedCurrent: c.iref } : {}) };
+/**
+ * Adds to every loop's start-up record the state each corner's own solve chose (the loop's IREF in the
+ * corner table), once the corners have been solved: by the one-pass analysis, or by a host's second
+ * phase (`addCorners`), so both show the same. No solve of its own.
+ */
+export function fillStartupCorners(structures: Structure[]): void {
+  const byId = new Map(structures.map((s) => [s.id, s]));
+  const done = new Set<StartupResult>();
+  for (const s of structures) {
+    const r = s.startup;
+    if (!r || done.has(r) || !r.corners) continue;
+    done.add(r);
+    const loop = r.loopStructures.map((id) => byId.get(id)).filter((x): x is Structure => !!x);
+    if (loop.length === 0) continue;
+    const main = mainOf(loop);
+    if (main.corners.length === 0) continue;
+    r.corners = r.corners.map(({ label, zeroState }) => {
+      const c = main.corners.find((x) => x.label === label);
+      if (!c) return { label, zeroState };
+      return { label, zeroState, converged: c.converged, ...(c.converged && Number.isFinite(c.iref) ? { solvedCurrent: c.iref } : {}) };
+    });
+  }
 }
 
 /**
@@ -174,7 +191,6 @@ function startupConditions(circuit: Circuit, options: ResolvedOptions, nominalC:
   const nominal: Condition = { label: '', labels: [''], nominal: true, temperatureC: nominalC, supplyScale: 1 };
   const out: Condition[] = [nominal];
   const labels: string[] = [];
-  if (!options.corners.enabled) return { conditions: out, labels };
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
   for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
@@ -437,22 +453,6 @@ function listed(labels: string[], max = 4): string {
   return labels.length <= max ? labels.join('; ') : `${labels.slice(0, max).join('; ')}; and ${labels.length - max} more`;
 }
 
-/** The states the corner solves chose where the zero state also exists: conducting (with their range) or at rest. */
-function cornerStates(r: StartupResult): string {
-  const at = (r.corners ?? []).filter((c) => c.zeroState && c.converged && c.solvedCurrent !== undefined);
-  if (at.length === 0) return '';
-  const on = at.filter((c) => c.solvedCurrent! >= SETTLED_ON);
-  const off = at.filter((c) => c.solvedCurrent! < SETTLED_ON);
-  const parts: string[] = [];
-  if (on.length) {
-    const lo = minOf(on.map((c) => c.solvedCurrent!));
-    const hi = maxOf(on.map((c) => c.solvedCurrent!));
-    parts.push(` At ${on.length === at.length ? 'those corners' : `${on.length} of those corners`} the corner solves settled on the conducting state (${lo === hi ? eng(lo, 'A') : `${eng(lo, 'A')} to ${eng(hi, 'A')}`}).`);
-  }
-  if (off.length) parts.push(` At ${listed(off.map((c) => c.label))} the corner solve itself settled at almost no current.`);
-  return parts.join('');
-}
-
 function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Finding {
   const main = mainOf(loop);
   const at = topo.elementByName.get(main.reference.device) as Element;
@@ -469,7 +469,6 @@ function loopFinding(topo: Topology, loop: Structure[], r: StartupResult): Findi
   const message =
     `The self-biased loop of ${names} can rest at zero current ${when}: with its devices off, nothing in the rest of the circuit drives any of them on, so at power-up it can stay dead.` +
     solved +
-    cornerStates(r) +
     ` Usual remedies: a start-up resistor from the supply into the loop's reference node (large enough not to disturb the bias), or a start-up device that injects current while the loop is off and turns itself off once it conducts.`;
   const related: RelatedLocation[] = [];
   for (const d of r.loopDevices) {

@@ -73,6 +73,20 @@ describe('addCorners after a first pass without corners', () => {
   it('maps severities through the options, as the one pass does', () =>
     check(cell('6k'), { cornerCodes: ['corner-output-out-of-region'] }, { severities: { 'corner-current-spread': 'off', 'corner-output-out-of-region': 'error' } }));
 
+  it('gives a self-biased loop the same start-up record and finding as the one pass, the corner solves’ chosen states included', () => {
+    // An invented ΔVBE cell without a start-up path (as in startup.test.ts): it can rest at zero current everywhere.
+    const text = `ΔVBE cell\nVCC vcc 0 5\nQ1 n1 n1 0 qn\nQ2 p n1 x qn 8\nR x 0 1k\nQP1 p p vcc qp\nQP2 n1 p vcc qp\n.model qn npn (BF=100)\n.model qp pnp (BF=50)\n.end\n`;
+    const one = analyseText(text).analysis;
+    const first = analyseText(text, { corners: { enabled: false } });
+    addCorners(first.analysis, { solver: first.solver!, nominal: first.nominal! });
+    const startup = (a: typeof one) => a.structures.map((s) => s.startup);
+    expect(startup(first.analysis)).toEqual(startup(one));
+    expect(one.structures.find((s) => s.kind === 'ptat-cell')!.startup!.corners!.every((c) => c.solvedCurrent! > 0)).toBe(true);
+    const loop = (fs: Finding[]) => shown(fs.filter((f) => f.code === 'bias-loop-can-stay-off'));
+    expect(loop(first.analysis.findings)).toHaveLength(1);
+    expect(loop(first.analysis.findings)).toEqual(loop(one.findings));
+  });
+
   it('adds nothing and does not throw when the nominal point did not converge', () => {
     const s = analyseText(cell('2k'));
     const broken = { ...s.nominal!, op: { ...s.nominal!.op, converged: false } };

@@ -9,6 +9,7 @@ import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace, type Finding } from '../../../shared-analysis/src/types';
 
 interface ExpectedTarget {
@@ -266,6 +267,19 @@ describe('checkTargets', () => {
   it('takes a target on a JFET and checks it against the drain current', () => {
     checkMisses(jfet('; expect 4mA ±1%'), { codes: [] }, { corners: { enabled: false } });
     checkMisses(jfet('; expect 3mA ±1%'), { codes: ['target-missed'], says: [['J1 carries 4']] }, { corners: { enabled: false } });
+  });
+
+  it('sizes the source resistor of a JFET self-biased source for its target, verified by re-solves', () => {
+    // Shockley's law with VGS = −ID·RS (Boylestad and Nashelsky, ch. 7, from memory): IDSS = 1m × 2² = 4 mA, VP = −2 V.
+    // ID = 2·IDSS/((2k + 1) + sqrt(4k + 1)) with k = IDSS·RS/|VP|: 1.53 mA at RS = 500 Ω (k = 1), exactly 1 mA at RS = 1 kΩ (k = 2), an E24 value.
+    const text = `JFET source with a target\nVCC vcc 0 15\nJ1 d 0 s JN ; expect 1mA ±2%\nRS s 0 500\nRL vcc d 3.3k\n.model JN NJF (VTO=-2 BETA=1m)\n.end\n`;
+    const session = analyseSession({ uri: '/t.cir', text }, new MemoryWorkspace({ '/t.cir': text }), { corners: { enabled: false } });
+    attachAllSizingFixes(session);
+    const f = session.analysis.findings.find((x) => x.code === 'target-missed')!;
+    expect(f.message).toMatch(/J1 carries 1\.53 mA at the operating point \(hand estimate 1\.53 mA\).*RS sets it/);
+    const best = f.fixes!.find((x) => x.preferred)!;
+    expect(best.title).toMatch(/^Set RS to 1k \(E24\): J1 → 1 mA/);
+    expect(best.edits.map((e) => e.newText)).toEqual(['1k']);
   });
 
   it('takes a target on a switch and checks it against its current', () => {
