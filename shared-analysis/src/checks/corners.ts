@@ -328,7 +328,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   structures.forEach((s, index) => {
     // The whole circuit, not a per-structure view: its topology is built once and cached, so every
     // (structure, corner) measurement is a handful of index reads.
-    const nominalM = measureStructure(circuit, nominal.op, s, topology);
+    const nominalM = measureStructure(circuit, nominal.op, s, topology, plans[index]);
     setCornerColumns(s, columns[index]);
     summariseVoltageCorners(s);
     const summaries = summariseOutputs(columns[index]);

@@ -32,11 +32,12 @@ export interface Measurement {
  *
  * `topology` is the circuit's prebuilt {@link Topology} (from `topologyOf(circuit)`), for
  * callers that measure many structures at many operating points; when absent it is looked
- * up (and built once per Circuit object).
+ * up (and built once per Circuit object). `planned` is the structure's `planMeasurement` on that
+ * topology, for a caller that has it already.
  */
-export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology): Measurement {
+export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology, planned?: MeasurementPlan): Measurement {
   const topo = topology ?? topologyOf(circuit);
-  const plan = planMeasurement(topo, s);
+  const plan = planned ?? planMeasurement(topo, s);
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
