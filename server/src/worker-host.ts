@@ -33,6 +33,8 @@ type Pending = {
 
 /** Part requests kept in flight while an analysis is taken in. */
 const PARTS_IN_FLIGHT = 4;
+/** A result of at most this many parts (a netlist of a few thousand elements) has every part asked for at once. */
+const SMALL_RESULT_PARTS = 32;
 
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
@@ -201,7 +203,9 @@ export class WorkerHost {
     const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
     const inFlight: Promise<FromWorker>[] = [];
     let asked = 0;
-    while (asked < Math.min(PARTS_IN_FLIGHT, msg.parts)) inFlight.push(ask(asked++));
+    // A small result is asked for whole at once (its parts take a few milliseconds in all; round trips would cost more).
+    const ahead = msg.parts <= SMALL_RESULT_PARTS ? msg.parts : PARTS_IN_FLIGHT;
+    while (asked < Math.min(ahead, msg.parts)) inFlight.push(ask(asked++));
     for (let index = 0; index < msg.parts; index++) {
       // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
       if (this.generation() !== generation) {

@@ -250,6 +250,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
     const { targets } = readTargets(analysis.documents);
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
     if (!analysis.variation && options.variation.enabled) {
+      // The spread analysis is a stage of its own: a superseded text stops before it.
+      if (ctx.shouldStop?.()) throw new AnalysisStopped();
       const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options);
       if (detail) {
         analysis.variation = detail.result;
