@@ -177,7 +177,7 @@ export function readSources(root: ParsedDocument, workspace: Workspace, sink: Si
     const target = search.target;
     let doc = documents[target];
     if (!doc && search.text !== undefined) {
-      doc = parse(target, search.text, { hasTitle: false });
+      doc = parsedInclude(target, search.text);
       documents[target] = doc;
     }
     const symbol: IncludeSymbol = { uri: fromUri, span: pathToken.span, target, found: doc !== undefined };
@@ -279,4 +279,41 @@ function describeKey(key: string): string {
 
 function capitalise(s: string): string {
   return s.length > 0 ? s[0]!.toUpperCase() + s.slice(1) : s;
+}
+
+/**
+ * Included files parsed by recent analyses, by file: an edit to a netlist leaves the model libraries
+ * it includes as they were, so a re-analysis takes their parse as it is (a parse is a function of the
+ * file and its text alone, and nothing changes a parsed document afterwards). At most
+ * PARSED_INCLUDES_KEPT files of PARSED_INCLUDE_CHARS characters in all, the least recently used
+ * dropped first.
+ */
+const parsedIncludes = new Map<string, { text: string; doc: ParsedDocument }>();
+const PARSED_INCLUDES_KEPT = 32;
+const PARSED_INCLUDE_CHARS = 2_000_000;
+let parsedIncludeChars = 0;
+
+function parsedInclude(target: string, text: string): ParsedDocument {
+  const kept = parsedIncludes.get(target);
+  if (kept && kept.text === text) {
+    // Most recently used last.
+    parsedIncludes.delete(target);
+    parsedIncludes.set(target, kept);
+    return kept.doc;
+  }
+  const doc = parse(target, text, { hasTitle: false });
+  if (kept) {
+    parsedIncludes.delete(target);
+    parsedIncludeChars -= kept.text.length;
+  }
+  if (text.length <= PARSED_INCLUDE_CHARS) {
+    parsedIncludes.set(target, { text, doc });
+    parsedIncludeChars += text.length;
+    while (parsedIncludes.size > PARSED_INCLUDES_KEPT || parsedIncludeChars > PARSED_INCLUDE_CHARS) {
+      const [oldest, entry] = parsedIncludes.entries().next().value as [string, { text: string }];
+      parsedIncludes.delete(oldest);
+      parsedIncludeChars -= entry.text.length;
+    }
+  }
+  return doc;
 }
