@@ -292,6 +292,21 @@ describe('the spread analysis of a subnormal threshold', () => {
       expect(o.sensitivities.every((s) => Number.isFinite(s.value))).toBe(true);
     });
   });
+  it('keeps a subnormal β finite through the closed-form BJT derivatives', () => {
+    // Fuzz cases 24792 … 46977 of seed 20261202: a PNP with BF=1e-320 made the spread's σ and drift NaN. The BJT's
+    // derivatives divided by BF (1/BF and IBE1/BF² overflow to Infinity); they are now taken per unit of ln BF, and a
+    // source whose σ is not a normal number (here 1e-320 × 1 % / √2) is left out of the spread.
+    const a = analyse({ uri: URI, text: 'PNP mirror\nVCC vcc 0 10\nQ1 ref ref vcc qp\nQ2 out ref vcc qp\nRREF ref 0 9.1k\nRL out 0 2k\n.model qp PNP (BF=1e-320)\n.end\n' }, new MemoryWorkspace({}));
+    expect(a.findings.filter((f) => f.code === 'value-not-finite')).toEqual([]);
+    expect(a.variation!.outputs.length).toBeGreaterThan(0);
+    const numbers: number[] = [];
+    JSON.stringify(a.variation, (_k, v: unknown) => {
+      if (typeof v === 'number') numbers.push(v);
+      return v;
+    });
+    expect(numbers.every(Number.isFinite)).toBe(true);
+    expect(a.variation!.sources.some((s) => s.name.endsWith(' β'))).toBe(false);
+  });
   it('differences a model parameter with a step that is a normal number', () => {
     const el = mirror('1e-320').circuit!.elements.find((e) => e.name === 'M1')!;
     // 1e-320 × 1e-6 is below the smallest normal double (2^−1022 ≈ 2.2e-308, IEEE 754 binary64).

@@ -193,22 +193,27 @@ function bjtCore(vbe: number, vbc: number, par: Float64Array, o: number, out: Fl
 }
 
 // Slots of the scratch array `bjtCoreByParam` fills: ∂IC/∂(row entry) at [2·k], ∂IB/∂(row entry) at [2·k + 1].
-const BY_IS = 0;
-const BY_ISE = 1;
-const BY_ISC = 2;
-const BY_BF = 3;
-const BY_BR = 4;
+// The multiplicative entries (IS, ISE, ISC, BF, BR) are given per unit of their logarithm, p·∂/∂p: a current
+// proportional to IS is its own IS-derivative that way, and nothing is divided by a value that may be subnormal
+// (BF = 1e-320 made 1/BF and ibe1/BF² overflow to Infinity and the spread NaN).
+const BY_LN_IS = 0;
+const BY_LN_ISE = 1;
+const BY_LN_ISC = 2;
+const BY_LN_BF = 3;
+const BY_LN_BR = 4;
 const BY_NFVT = 5;
 const BY_NRVT = 6;
 const BY_NEVT = 7;
 const BY_NCVT = 8;
-const BY_PARAMS = 9;
+/** ∂/∂IS per unit of IS (for a card IS of 0, where the logarithmic form says nothing). */
+const BY_IS = 9;
+const BY_PARAMS = 10;
 
 /**
  * The partial derivatives of `bjtCore`'s IC and IB with respect to the temperature-dependent
  * entries of the parameter row (IS, ISE, ISC, BF, BR and the four n·VT), at fixed vbe, vbc, by
- * the chain rule through the same equations: with E = e^(VBE/NF·VT),
- * ∂IBE1/∂IS = E − 1 and ∂IBE1/∂(NF·VT) = −gbe1·VBE/(NF·VT); IBC1, IBE2, IBC2 likewise;
+ * the chain rule through the same equations: with E = e^(VBE/NF·VT), IBE1 = IS·(E − 1), so
+ * IS·∂IBE1/∂IS = IBE1, and ∂IBE1/∂(NF·VT) = −gbe1·VBE/(NF·VT); IBC1, IBE2, IBC2 likewise;
  * qb depends on IBE1 and IBC1 through q2, so ∂IT/∂IBE1 = (1 − IT·∂qb/∂IBE1)/qb and
  * ∂IT/∂IBC1 = −(1 + IT·∂qb/∂IBC1)/qb; IC = IT − IBC1/BR − IBC2 and IB = IBE1/BF + IBE2 + IBC1/BR + IBC2.
  */
@@ -246,33 +251,33 @@ function bjtCoreByParam(vbe: number, vbc: number, par: Float64Array, o: number, 
   const it = (ibe1 - ibc1) / qb;
   const bf = par[o + P_BF];
   const br = par[o + P_BR];
-  // Partials of IC and IB with respect to the four junction currents.
-  const icByIbe1 = (1 - it * dqbDibe1) / qb;
-  const icByIbc1 = -(1 + it * dqbDibc1) / qb - 1 / br;
-  const ibByIbe1 = 1 / bf;
-  const ibByIbc1 = 1 / br;
-  out[2 * BY_IS] = icByIbe1 * ebe + icByIbc1 * ebc;
-  out[2 * BY_IS + 1] = ibByIbe1 * ebe + ibByIbc1 * ebc;
+  // ∂IT/∂IBE1 and ∂IT/∂IBC1; IB's parts are divided by BF and BR, never multiplied by their reciprocals.
+  const itByIbe1 = (1 - it * dqbDibe1) / qb;
+  const itByIbc1 = -(1 + it * dqbDibc1) / qb;
+  out[2 * BY_LN_IS] = itByIbe1 * ibe1 + itByIbc1 * ibc1 - ibc1 / br;
+  out[2 * BY_LN_IS + 1] = ibe1 / bf + ibc1 / br;
+  out[2 * BY_IS] = itByIbe1 * ebe + itByIbc1 * ebc - ebc / br;
+  out[2 * BY_IS + 1] = ebe / bf + ebc / br;
   const ise = par[o + P_ISE];
   const nevt = par[o + P_NEVT];
-  const ee = guardedExpValue(vbe / nevt) - 1;
-  out[2 * BY_ISE] = 0;
-  out[2 * BY_ISE + 1] = ee;
+  const ibe2 = ise > 0 ? ise * (guardedExpValue(vbe / nevt) - 1) : 0;
+  out[2 * BY_LN_ISE] = 0;
+  out[2 * BY_LN_ISE + 1] = ibe2;
   const isc = par[o + P_ISC];
   const ncvt = par[o + P_NCVT];
-  const ec = guardedExpValue(vbc / ncvt) - 1;
-  out[2 * BY_ISC] = -ec;
-  out[2 * BY_ISC + 1] = ec;
-  out[2 * BY_BF] = 0;
-  out[2 * BY_BF + 1] = -ibe1 / (bf * bf);
-  out[2 * BY_BR] = ibc1 / (br * br);
-  out[2 * BY_BR + 1] = -ibc1 / (br * br);
+  const ibc2 = isc > 0 ? isc * (guardedExpValue(vbc / ncvt) - 1) : 0;
+  out[2 * BY_LN_ISC] = -ibc2;
+  out[2 * BY_LN_ISC + 1] = ibc2;
+  out[2 * BY_LN_BF] = 0;
+  out[2 * BY_LN_BF + 1] = -ibe1 / bf;
+  out[2 * BY_LN_BR] = ibc1 / br;
+  out[2 * BY_LN_BR + 1] = -ibc1 / br;
   const ibe1ByNfvt = -gbe1 * xbe;
   const ibc1ByNrvt = -gbc1 * xbc;
-  out[2 * BY_NFVT] = icByIbe1 * ibe1ByNfvt;
-  out[2 * BY_NFVT + 1] = ibByIbe1 * ibe1ByNfvt;
-  out[2 * BY_NRVT] = icByIbc1 * ibc1ByNrvt;
-  out[2 * BY_NRVT + 1] = ibByIbc1 * ibc1ByNrvt;
+  out[2 * BY_NFVT] = itByIbe1 * ibe1ByNfvt;
+  out[2 * BY_NFVT + 1] = ibe1ByNfvt / bf;
+  out[2 * BY_NRVT] = itByIbc1 * ibc1ByNrvt - ibc1ByNrvt / br;
+  out[2 * BY_NRVT + 1] = ibc1ByNrvt / br;
   const ibe2ByNevt = ise > 0 ? (-ise * guardedExpSlope(vbe / nevt) * vbe) / (nevt * nevt) : 0;
   const ibc2ByNcvt = isc > 0 ? (-isc * guardedExpSlope(vbc / ncvt) * vbc) / (ncvt * ncvt) : 0;
   out[2 * BY_NEVT] = 0;
@@ -741,37 +746,42 @@ export class BjtTable implements DeviceTable {
           const xtb = this.xtb[i] / tk;
           // The leakage currents follow IS(T)/IS only when there is an IS to follow.
           const dRatio = this.isNom[i] > 0 ? dIs : 0;
-          const ise = par[o + P_ISE] * (-this.xtb[i] / tk + dRatio / this.ne[i]);
-          const isc = par[o + P_ISC] * (-this.xtb[i] / tk + dRatio / this.nc[i]);
+          const ise = -xtb + dRatio / this.ne[i];
+          const isc = -xtb + dRatio / this.nc[i];
           a =
-            by[2 * BY_IS] * (par[o + P_IS] * dIs) +
-            by[2 * BY_ISE] * ise +
-            by[2 * BY_ISC] * isc +
-            by[2 * BY_BF] * (par[o + P_BF] * xtb) +
-            by[2 * BY_BR] * (par[o + P_BR] * xtb) +
+            by[2 * BY_LN_IS] * dIs +
+            by[2 * BY_LN_ISE] * ise +
+            by[2 * BY_LN_ISC] * isc +
+            (by[2 * BY_LN_BF] + by[2 * BY_LN_BR]) * xtb +
             by[2 * BY_NFVT] * (par[o + P_NFVT] / tk) +
             by[2 * BY_NRVT] * (par[o + P_NRVT] / tk) +
             by[2 * BY_NEVT] * (par[o + P_NEVT] / tk) +
             by[2 * BY_NCVT] * (par[o + P_NCVT] / tk);
           b =
-            by[2 * BY_IS + 1] * par[o + P_IS] * dIs +
-            by[2 * BY_ISE + 1] * ise +
-            by[2 * BY_ISC + 1] * isc +
-            by[2 * BY_BF + 1] * par[o + P_BF] * xtb +
-            by[2 * BY_BR + 1] * par[o + P_BR] * xtb +
+            by[2 * BY_LN_IS + 1] * dIs +
+            by[2 * BY_LN_ISE + 1] * ise +
+            by[2 * BY_LN_ISC + 1] * isc +
+            (by[2 * BY_LN_BF + 1] + by[2 * BY_LN_BR + 1]) * xtb +
             by[2 * BY_NFVT + 1] * (par[o + P_NFVT] / tk) +
             by[2 * BY_NRVT + 1] * (par[o + P_NRVT] / tk) +
             by[2 * BY_NEVT + 1] * (par[o + P_NEVT] / tk) +
             by[2 * BY_NCVT + 1] * (par[o + P_NCVT] / tk);
         } else if (p === 'IS') {
-          // d(row IS)/d(card IS) = area·M·IS(T)/IS, from the unit saturation current (exact for any card value, zero or subnormal included).
-          const f = this.scale[i] * saturationCurrentAt(1, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
-          a = by[2 * BY_IS] * f;
-          b = by[2 * BY_IS + 1] * f;
+          // The row's IS is the card's times area·M·IS(T)/IS: per unit of the card, (IS·∂/∂IS)/IS_card, or the per-unit form at IS = 0.
+          const card = this.scale[i] > 0 ? this.isNom[i] / this.scale[i] : 0;
+          if (card > 0) {
+            a = by[2 * BY_LN_IS] / card;
+            b = by[2 * BY_LN_IS + 1] / card;
+          } else {
+            const f = this.scale[i] * saturationCurrentAt(1, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+            a = by[2 * BY_IS] * f;
+            b = by[2 * BY_IS + 1] * f;
+          }
         } else {
-          const f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]).beta * c.betaScale;
-          a = by[2 * BY_BF] * f;
-          b = by[2 * BY_BF + 1] * f;
+          // The row's BF is the card's times (T/Tnom)^XTB and the beta scale: (BF·∂/∂BF)/BF_card.
+          const card = this.bfNom[i];
+          a = by[2 * BY_LN_BF] / card;
+          b = by[2 * BY_LN_BF + 1] / card;
         }
         dIc[k] = s * a;
         dIb[k] = s * b;

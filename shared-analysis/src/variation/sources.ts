@@ -75,7 +75,14 @@ export interface SourceSettings {
   supplyTolerance: number;
 }
 
-/** Every independent source of spread of a circuit. */
+/** The smallest positive normal double (IEEE 754 binary64). */
+const SMALLEST_NORMAL = 2.2250738585072014e-308;
+
+/**
+ * Every independent source of spread of a circuit. A source whose σ is not a normal number (a
+ * resistor, β or IS of 1e-320, say) is left out: its σ has lost its digits, and its derivative per
+ * unit overflows (the device already has its out-of-range finding).
+ */
 export function toleranceSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): ToleranceSource[] {
   const out: ToleranceSource[] = [];
   const index = new Map<string, number>();
@@ -113,7 +120,7 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
       else if (el.kind === 'M') pushMos(out, el, i, groupName);
     }
   }
-  return out;
+  return out.filter((x) => x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound));
 }
 
 function figureOf(el: Bjt | Mosfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {
