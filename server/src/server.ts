@@ -90,6 +90,7 @@ import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixe
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import { attachVariation } from '../../shared-analysis/src/variation/index';
 import { setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
+import { fillStartupCorners } from '../../shared-analysis/src/checks/startup';
 
 /** Analyses running longer than this get a progress report. */
 const PROGRESS_AFTER_MS = 500;
@@ -464,6 +465,8 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
     const c = r.corners[s.id];
     if (c) setCornerColumns(s, c);
   }
+  // The self-biased loops' start-up records take the state each corner's solve chose from those corners, as the one pass does.
+  fillStartupCorners(analysis.structures);
   if (r.variation && !analysis.variation) {
     analysis.variation = r.variation;
     attachVariation(analysis.structures, r.variation);

@@ -142,4 +142,28 @@ describe('corners as a second phase', () => {
       expect(await s.stop()).toBe(0);
     }
   });
+
+  it('adds the corner solves’ chosen states to a self-biased loop’s start-up line once the corners are in', async () => {
+    const s = await startServer({ settings: { analysisDelayMs: 0 } });
+    try {
+      const uri = pathToFileURL(join(dir, 'ptat.cir')).href;
+      // An invented ΔVBE cell without a start-up path: it can rest at zero current at nominal and at every corner.
+      const text = 'ΔVBE cell\nVCC vcc 0 5\nQ1 n1 n1 0 qn\nQ2 p n1 x qn 8\nR x 0 1k\nQP1 p p vcc qp\nQP2 n1 p vcc qp\n.model qn npn (BF=100)\n.model qp pnp (BF=50)\n.end\n';
+      s.open(uri, text, 1);
+      await s.waitFor('first diagnostics', () => s.diagnostics.get(uri));
+      const hoverText = async () => {
+        const h = (await s.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: { line: 2, character: 1 } })) as Hover | null;
+        return (h?.contents as MarkupContent | undefined)?.value ?? '';
+      };
+      let md = '';
+      const until = Date.now() + 20000;
+      while (!/where the corner solves settled at IREF/.test(md) && Date.now() < until) {
+        md = await hoverText();
+        await new Promise((r) => setTimeout(r, 20));
+      }
+      expect(md).toMatch(/Start-up: the loop can rest at zero current at power-up \(also at (\d+) of the \1 corners, where the corner solves settled at IREF [\d.]+ µA to [\d.]+ µA\)/);
+    } finally {
+      expect(await s.stop()).toBe(0);
+    }
+  });
 });
