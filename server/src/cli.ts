@@ -22,6 +22,7 @@ import { JsonEntries, JsonText, writeJson } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
@@ -673,7 +674,24 @@ function jsonFileEntry(r: FileResult, options: { allCorners?: boolean }): unknow
         }
       : {}),
     ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
-    ...(a?.variation ? { variation: a.variation } : {}),
+    ...(a?.variation ? { variation: variationForJson(a.variation, a.structures) } : {}),
+  };
+}
+
+/**
+ * The file's spread analysis as JSON: each output's figures are written once. An output of a
+ * structure stands in that structure's `variation` (iref, iout, voltages); the file level keeps
+ * the sources, the effort, the Monte Carlo run and the outputs that belong to no structure listed
+ * (`outputsOutsideStructures`). Writing every output twice made the spread analysis about 45 MB of
+ * a 20,000-element array's 99 MB document (docs/PERFORMANCE.md).
+ */
+function variationForJson(v: VariationResult, structures: readonly Structure[]): unknown {
+  const shown = new Set(structures.filter((s) => s.variation).map((s) => s.id));
+  return {
+    outputsOutsideStructures: v.outputs.filter((o) => !o.structure || !shown.has(o.structure)),
+    sources: v.sources,
+    stats: v.stats,
+    ...(v.monteCarlo ? { monteCarlo: v.monteCarlo } : {}),
   };
 }
 

@@ -114,11 +114,43 @@ describe('qpoint report --format html --monte-carlo N', () => {
     expect((html.match(/class="qp-chart qp-histogram"/g) ?? []).length).toBe(3);
     const j = run(['report', '--format', 'json', '--monte-carlo', '200', '--seed', '5', bench]);
     expect(j.code, j.stderr).toBe(0);
-    const outputs = (JSON.parse(j.stdout) as { files: { variation: { outputs: { key: string; monteCarlo?: { converged: number; runs: number } }[] } }[] }).files[0].variation.outputs;
+    type Mc = { key: string; monteCarlo?: { converged: number; runs: number } };
+    const structures = (JSON.parse(j.stdout) as { files: { structures: { variation?: { iout: Record<string, Mc> } }[] }[] }).files[0].structures;
     for (const device of ['Q2', 'QW', 'MOUT']) {
-      const o = outputs.find((x) => x.key.endsWith(` out ${device}`))!;
+      const o = structures.map((s) => s.variation?.iout[device]).find((x) => x !== undefined)!;
       expect(html).toContain(`${o.monteCarlo!.converged} of ${o.monteCarlo!.runs} Monte Carlo runs`);
     }
+  });
+});
+
+describe('qpoint check --format json: the spread analysis', () => {
+  it('writes each output\'s figures once: under its structure, or at the file level when it belongs to none', () => {
+    // An expect target on RP (a load resistor, part of no structure) adds an output of its own.
+    const bench = file('bench-once.cir', NETLIST.replace('RP pout 0 10k', 'RP pout 0 10k ; expect 60uA ±20%'));
+    const r = run(['check', '--format', 'json', bench]);
+    type Out = { key: string; structure?: string; nominal: number };
+    type Spread = { iref?: Out; iout: Record<string, Out>; voltages?: Record<string, Out> };
+    const f = (JSON.parse(r.stdout) as {
+      files: { structures: { id: string; variation?: Spread }[]; variation: { outputsOutsideStructures: Out[]; sources: unknown[]; stats: { adjointSolves: number } } }[];
+    }).files[0];
+    const keys: string[] = [];
+    for (const s of f.structures) {
+      if (!s.variation) continue;
+      for (const o of [s.variation.iref, ...Object.values(s.variation.iout), ...Object.values(s.variation.voltages ?? {})]) {
+        if (!o) continue;
+        expect(o.structure).toBe(s.id);
+        keys.push(o.key);
+      }
+    }
+    const outside = f.variation.outputsOutsideStructures;
+    expect(outside.map((o) => o.key)).toEqual(['element RP']);
+    expect(outside[0].structure).toBeUndefined();
+    keys.push(...outside.map((o) => o.key));
+    // Q2, QW and MOUT outputs and their IREFs are under their structures; nothing is written twice.
+    for (const device of ['Q2', 'QW', 'MOUT']) expect(keys.some((k) => k.endsWith(` out ${device}`))).toBe(true);
+    expect(new Set(keys).size).toBe(keys.length);
+    expect(f.variation.stats.adjointSolves).toBeGreaterThan(0);
+    expect(f.variation).not.toHaveProperty('outputs');
   });
 });
 
