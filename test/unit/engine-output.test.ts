@@ -212,6 +212,22 @@ describe('cases the fuzz target found', () => {
     expect(text).toContain('VCC +2 %/V');
   });
 
+  it('replaces a $ glued before a sized value with the value, so the blank kept before it opens no comment', () => {
+    // Fuzz case 132209 of seed 20261202: `RREF vcc ref ${rref}` became `RREF vcc ref $ 43k`, and `$ ` starts a comment.
+    const text = 'Reference\n.param rref=23k\nVCC vcc 0 15\nRREF vcc ref ${rref}\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';
+    const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({}), { corners: { enabled: false } });
+    const missed = s.analysis.findings.find((f) => f.code === 'target-missed');
+    expect(missed).toBeDefined();
+    const fixes = sizingFixesOf(s, missed!).filter((f) => f.edits.length > 0);
+    expect(fixes.length).toBeGreaterThan(0);
+    for (const fix of fixes) {
+      let fixed = text;
+      for (const e of [...fix.edits].sort((x, y) => y.span.start - x.span.start)) fixed = fixed.slice(0, e.span.start) + e.newText + fixed.slice(e.span.end);
+      expect(parse(URI, fixed, { hasTitle: true }).errors, fixed).toEqual([]);
+      expect(fixed).not.toContain('$ ');
+    }
+  });
+
   it('keeps a blank on each side of a sized value written against its neighbours', () => {
     // `ref{rset}M=1` is a node, a value and a parameter; writing 24k in place of {rset} must not make `ref24kM=1` one field.
     const text = 'Reference\n.param rset=23k\nVCC vcc 0 15\nRSET vcc ref{rset}M=1\nQ1 ref ref 0 qn\nQ2 out ref 0 qn ; expect 1mA ±1%\nRL vcc out 1k\n.model qn NPN (BF=100)\n.end\n';

@@ -52,6 +52,9 @@ export function resistorValueChange(r: Resistor, documents: Record<string, Parse
   for (const e of change.edits) {
     const text = documents[e.uri]?.text ?? '';
     const next = text.charAt(e.span.end);
+    // A `$` glued before the value (`ref ${rset}`) would start a comment once a blank followed it
+    // (`ref $ 24k`): it goes with the value it stood before.
+    if (e.span.start > 0 && text.charAt(e.span.start - 1) === '$') e.span = { start: e.span.start - 1, end: e.span.end };
     const before = e.span.start > 0 ? text.charAt(e.span.start - 1) : '';
     if (next !== '' && !/\s/.test(next)) e.newText += ' ';
     if (before !== '' && !/[\s=(]/.test(before)) e.newText = ' ' + e.newText;
