@@ -78,6 +78,8 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const specs = structureOutputs(circuit, structures);
   const targetOf = new Map<string, { current: number; tolerance: number }>();
   const have = new Set(specs.map((s) => s.key));
+  // A target on a structure's output device reads that output: its figures are not computed and listed twice.
+  for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
   const index = ctx.targets.length > 0 ? new TargetIndex(circuit, structures) : undefined;
   const elementIndex = new Map<string, number>();
   circuit.elements.forEach((e, i) => elementIndex.set(e.name, i));

@@ -42,7 +42,7 @@ describe('yield against targets', () => {
     const text = mirror('RREF vcc ref 9.1k ; tol 0.1%', '; expect 1mA ±10%');
     const a = run(text);
     expect(a.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
-    const v = a.variation!.outputs.find((o) => o.key === 'element Q2' || o.key.endsWith('out Q2'))!;
+    const v = a.variation!.outputs.find((o) => o.element === 'Q2' && o.target)!;
     expect(v.target!.yield).toBeGreaterThan(0.997);
     // The card's 0.1 % is read: RREF is then a small contributor next to the 5 % supply.
     const rref = a.variation!.sources.find((s) => s.name === 'RREF')!;
@@ -87,10 +87,18 @@ RL vcc out 2k
     expect(f[0].message).toMatch(/against 1 mA ±5 % \(the default window: .*series' tolerance\) is \d/);
     expect(f[0].data).toMatchObject({ tolerance: 0.05, windowFrom: 'default' });
     expect(f[0].message).toMatch(/largest contributor is /);
-    const v = a.variation!.outputs.find((o) => o.key === 'element Q2')!;
+    const v = a.variation!.outputs.find((o) => o.element === 'Q2' && o.target)!;
     expect(v.target!.tolerance).toBe(0.05);
     expect(f[0].data!['yield']).toBe(v.target!.yield);
     expect(v.target!.yield).toBeLessThan(0.997);
+  });
+
+  it('read a target on a mirror output from that output, listed once', () => {
+    const a = run(mirror('RREF vcc ref 9.1k', '; expect 1mA ±10%'));
+    const q2 = a.variation!.outputs.filter((o) => o.element === 'Q2');
+    expect(q2).toHaveLength(1);
+    expect(q2[0].key).toMatch(/ out Q2$/);
+    expect(q2[0].target).toMatchObject({ current: 1e-3, tolerance: 0.1 });
   });
 
   it('give every target its predicted yield, with or without its own tolerance', () => {
