@@ -1,7 +1,7 @@
 // Builds the HTML page of the output-characteristic panel: the chart, the corner table and a strict Content-Security-Policy.
 import type { OutputCharacteristicResult } from '../../server/src/protocol';
 import { OUTPUT_CHARACTERISTIC_CSS, escapeXml, monteCarloSentence, renderCornerTableHtml, renderDriftSvg, renderHistogramSvg, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
-import { formatQuantity } from '../../shared-analysis/src/view/format';
+import { formatQuantity, formatTempco } from '../../shared-analysis/src/view/format';
 
 /** What the panel page shows besides the sweep itself. */
 export interface PanelPageOptions {
@@ -37,7 +37,7 @@ export function spreadSentence(result: OutputCharacteristicResult): string {
   const where = 'Output current with its load in place, solved from the cold to the hot corner temperature.';
   if (!sp || !Number.isFinite(sp.sigmaRelative)) return where;
   const pct = (r: number) => `${+(Math.abs(r) * 100).toPrecision(3)} %`;
-  const ppm = `${sp.tempcoPpmPerC < 0 ? '−' : '+'}${+Math.abs(sp.tempcoPpmPerC).toPrecision(3)} ppm/°C`;
+  const ppm = formatTempco(sp.tempcoPpmPerC);
   return `${where} At the operating point it drifts ${ppm}; its predicted spread is σ ${pct(sp.sigmaRelative)} (±3σ ${pct(3 * sp.sigmaRelative)}), worst case ±${pct(sp.worstCaseRelative)}.`;
 }
 

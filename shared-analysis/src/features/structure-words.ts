@@ -4,7 +4,7 @@ import { polaritySign } from '../structures/technology';
 import { outputKindName } from '../structures/catalogue';
 import type { DerivedVoltage, Structure, StructureOutput } from '../structures/types';
 import { maxOf, minOf } from '../arrays';
-import { formatNumber, formatQuantity, formatRange } from '../view/format';
+import { formatNumber, formatQuantity, formatRange, formatTempco } from '../view/format';
 
 /** Where a derived voltage is measured: "on vbg" or "on vbg above e1" (below for PNP, PMOS and P-channel JFET structures). */
 function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {
@@ -13,11 +13,6 @@ function placeOf(s: Pick<Structure, 'technology'>, v: DerivedVoltage): string {
   return `on ${v.node}, ${below ? 'below' : 'above'} ${v.from}`;
 }
 
-/** A temperature coefficient in ppm/°C with its sign and at most four significant figures. */
-export function formatTempco(ppmPerC: number): string {
-  const sign = ppmPerC > 0 ? '+' : ppmPerC < 0 ? '−' : '';
-  return `${sign}${formatNumber(Math.abs(ppmPerC), 3)} ppm/°C`;
-}
 
 /**
  * One sentence per voltage the structure produces: what it is, where, by hand and solved, its

@@ -3,6 +3,7 @@
 import type { Analysis } from '../analysis';
 import { maxOf } from '../arrays';
 import { formatEngineering } from '../fixes/format';
+import { formatTempco } from '../view/format';
 import type { OutputVariation } from './types';
 import { rankOf } from './rank';
 
@@ -25,7 +26,7 @@ function signed(v: number, digits = 3): string {
 /** `σ 2.82 % (±3σ 8.46 %), worst case ±18.7 %; drift +115 ppm/°C; VCC +9.48 %/V; from VCC 45 %, Q1/Q2 VBE 34 %, RREF 18 %` (and the yield when the output has a target). */
 export function spreadText(v: OutputVariation): string {
   const parts = [`σ ${percentText(v.sigmaRelative)} (±3σ ${percentText(3 * v.sigmaRelative)}), worst case ±${percentText(v.worstCaseRelative)}`];
-  parts.push(Number.isFinite(v.tempcoPpmPerC) ? `drift ${signed(v.tempcoPpmPerC)} ppm/°C` : 'drift —');
+  parts.push(Number.isFinite(v.tempcoPpmPerC) ? `drift ${formatTempco(v.tempcoPpmPerC)}` : 'drift —');
   const supplies = Object.entries(v.supplyPercentPerVolt)
     .filter(([, s]) => Math.abs(s) >= 0.01)
     .sort((a, b) => rankOf(b[1]) - rankOf(a[1]))

@@ -7,6 +7,8 @@
 // - A current, voltage or power below its noise floor reads `≈ 0 A`; the engine's 1e30 stand-in
 //   for "no limit" reads `∞`; NaN never reaches a reader (`not available`); zero has no sign.
 // - Percentages keep at most three figures and never an exponent; a share below 0.01 % reads `≈ 0 %`.
+// - A temperature coefficient below 0.01 ppm/°C reads `≈ 0 ppm/°C` (a thousandth of a precision
+//   resistor's: common practice puts those at 1–25 ppm/°C), never `−0.00000167 ppm/°C`.
 // - A signed quantity is written as a magnitude with words that say its direction: "0.236 V into
 //   saturation", "8.8 % below the estimate", never "−0.236 V short of the edge".
 // The finding messages keep their own rules (checks/, fixes/format.ts); this module is for the view.
@@ -64,6 +66,17 @@ export function formatNumber(value: number, digits = 4): string {
   // toPrecision keeps trailing zeros below 1e-3 without an exponent (0.0004000); a reader wants 0.0004.
   const tidy = !text.includes('e') && text.includes('.') ? text.replace(/0+$/, '').replace(/\.$/, '') : text;
   return unsignedZero(sign + tidy);
+}
+
+/** Below this magnitude (ppm/°C) a temperature coefficient reads `≈ 0 ppm/°C`. */
+export const TEMPCO_FLOOR_PPM_PER_C = 0.01;
+
+/** A temperature coefficient with its sign and three significant figures: `+115 ppm/°C`, `−3.2 ppm/°C`, `≈ 0 ppm/°C`; `—` when there is none. */
+export function formatTempco(ppmPerC: number): string {
+  if (!Number.isFinite(ppmPerC)) return '— ppm/°C';
+  if (ppmPerC === 0) return '0 ppm/°C';
+  if (Math.abs(ppmPerC) < TEMPCO_FLOOR_PPM_PER_C) return '≈ 0 ppm/°C';
+  return `${ppmPerC > 0 ? '+' : MINUS}${formatNumber(Math.abs(ppmPerC), 3)} ppm/°C`;
 }
 
 /** Formats a ratio as a signed percentage, e.g. `+2.1 %`, `≈ 0 %` below 0.01 %; zero (either sign) is `0 %`. */

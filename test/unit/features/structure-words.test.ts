@@ -3,7 +3,8 @@
 import { describe, expect, it } from 'vitest';
 import { hoverAt } from '../../../shared-analysis/src/features/hover';
 import { inlayHints } from '../../../shared-analysis/src/features/inlay';
-import { derivedVoltageLines, formatTempco, outputWords } from '../../../shared-analysis/src/features/structure-words';
+import { derivedVoltageLines, outputWords } from '../../../shared-analysis/src/features/structure-words';
+import { formatTempco } from '../../../shared-analysis/src/view/format';
 import { analyseText, quantityAfter, withCursor } from './fixture';
 
 /** A VBE multiplier on a 1 mA current source: V = VBE·(1 + R1/R2) across collector and emitter. */
@@ -83,6 +84,10 @@ describe('derived voltages', () => {
     expect(formatTempco(-2261.4)).toBe('−2260 ppm/°C');
     expect(formatTempco(52.44)).toBe('+52.4 ppm/°C');
     expect(formatTempco(0)).toBe('0 ppm/°C');
+    // A drift far below any part's (a JFET source with no temperature coefficients solves to about 1e-6 ppm/°C of rounding).
+    expect(formatTempco(-1.67e-6)).toBe('≈ 0 ppm/°C');
+    expect(formatTempco(0.012)).toBe('+0.012 ppm/°C');
+    expect(formatTempco(Number.NaN)).toBe('— ppm/°C');
   });
 });
 
