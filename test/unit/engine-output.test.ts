@@ -334,3 +334,24 @@ describe('the spread analysis of a subnormal threshold', () => {
     expect(parameterStep(el, 'KP')).toBeCloseTo(120e-6 * 1e-6, 20);
   });
 });
+
+describe('a MOSFET whose default size meets an extreme one', () => {
+  // Found by the fuzz target (seed 20261202, cases 267168 and 287593): L=1e-320 with W left out made the
+  // geometry message read "W/L = Infinity" (10 µm / 1e-320 m overflows: the largest double is about 1.8e308).
+  it('says the ratio is too large for a number instead of printing Infinity', () => {
+    const a = run(`tiny length
+VDD d 0 1
+M1 d d 0 0 nch L=1e-320
+.model nch NMOS (VTO=0.45 KP=120u)
+.end
+`);
+    const f = a.findings.find((x) => x.code === 'mosfet-geometry-missing')!;
+    expect(f.message).not.toMatch(/Infinity|NaN|∞/);
+    expect(f.message).toMatch(/W\/L = 10 µm \/ .* m, a ratio too large for a number/);
+    // The out-of-range length has its own finding on the value.
+    expect(a.findings.some((x) => x.code === 'value-out-of-range')).toBe(true);
+    // A usual case keeps its plain ratio.
+    const b = run('usual\nVDD d 0 1\nM1 d d 0 0 nch L=2u\n.model nch NMOS (VTO=0.45 KP=120u)\n.end\n');
+    expect(b.findings.find((x) => x.code === 'mosfet-geometry-missing')!.message).toContain('(W/L = 5)');
+  });
+});

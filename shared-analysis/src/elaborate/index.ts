@@ -679,9 +679,11 @@ class Elaborator {
         if (!model) return;
         if (!params.has('W') || !params.has('L')) {
           const missing = [params.has('W') ? '' : 'W', params.has('L') ? '' : 'L'].filter(Boolean);
+          // A size far outside 1 nm–1 m (its own value-out-of-range finding) can make the ratio overflow.
+          const ratio = Number.isFinite(w / l) ? `W/L = ${formatRatio(w / l)}` : `W/L = ${formatEngineering(w, { unit: 'm' })} / ${formatEngineering(l, { unit: 'm' })}, a ratio too large for a number`;
           this.sink.add(
             'mosfet-geometry-missing',
-            `MOSFET \`${card.name.text}\` gives no ${missing.join(' or ')}; ${missing.join(' and ')} = 10 µm is used (W/L = ${formatRatio(w / l)}), so its currents follow KP·W/L with that ratio.`,
+            `MOSFET \`${card.name.text}\` gives no ${missing.join(' or ')}; ${missing.join(' and ')} = 10 µm is used (${ratio}), so its currents follow KP·W/L with that ratio.`,
             uri,
             card.name.span,
             undefined,
