@@ -277,6 +277,12 @@ describe('a misspelt .end', () => {
     // Found by the fuzz target: `.en` inside a library section became `.end`, and every later card was left unread.
     expect(fixesOf('Divider\nV1 a 0 1\n.en\nR1 a 0 1k\n').map((f) => f.edits[0]!.newText)).not.toContain('.end');
   });
+  it('is not corrected to .alter above other cards, which .alter would turn into alternatives', () => {
+    // Found by the fuzz target (seed 20261202, case 377887): `.alterRI` inside a subcircuit became `.alter`, and the
+    // subcircuit's `.ends` cards after it were no longer read.
+    const text = 'Cell\nV1 a 0 1\n.subckt inner p q\n.alterRI p q 1meg\n.ends inner\nX1 a 0 inner\n.end\n';
+    expect(fixesOf(text).map((f) => f.edits[0]!.newText)).not.toContain('.alter');
+  });
 });
 
 describe('the spread analysis of a subnormal threshold', () => {

@@ -246,8 +246,11 @@ export function misspeltDotCardFixes(finding: Finding, documents: Record<string,
   // `.paramV9 a 0 1` is near `.param`, but `.param a 0 1` is no parameter card: offer only a card that reads cleanly.
   const doc = documents[finding.uri];
   if (!doc || !editedCardParses(doc, finding.span, suggestion)) return [];
-  // `.end` stops the reading: it is right only where no card follows (`.en` above other cards is more likely `.ends` or `.endl`).
-  if (suggestion.toLowerCase() === '.end' && cardFollows(doc, finding.span.end)) return [];
+  // `.end` stops the reading and `.alter` ends the analysed netlist (what follows is kept as alternatives): either is
+  // right only where no card follows (`.en` above other cards is more likely `.ends` or `.endl`; an `.alter` inside
+  // a subcircuit would leave its `.ends` unread).
+  const ending = suggestion.toLowerCase();
+  if ((ending === '.end' || ending === '.alter') && cardFollows(doc, finding.span.end)) return [];
   return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] }];
 }
 
