@@ -1,5 +1,6 @@
 // The output characteristic of one mirror output: its current against a swept output-node voltage, across the structure's own rails.
 
+import type { MonteCarloFigures } from '../variation/types';
 import { polaritySign, technologyWords } from '../structures/technology';
 import type { Analysis } from '../analysis';
 import type { Circuit, Element, VoltageSource } from '../circuit';
@@ -50,18 +51,10 @@ export interface OutputCharacteristicResult {
    * the magnitude of the current in each of `histogram.length` equal bins from `min` to `max`,
    * beside the linear prediction (`nominal`, `linearSigma`) and the target window, if any.
    */
-  monteCarlo?: {
-    runs: number;
-    converged: number;
-    mean: number;
-    sigma: number;
-    min: number;
-    max: number;
-    histogram: number[];
+  monteCarlo?: MonteCarloFigures & {
     nominal: number;
     linearSigma: number;
     target?: { low: number; high: number };
-    yield?: number;
     predictedYield?: number;
   };
 }
