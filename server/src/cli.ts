@@ -82,6 +82,8 @@ Options:
   --seed S                     the Monte Carlo seed (default 1); the same seed repeats the numbers
   --all-corners                JSON: every structure's results at every corner, not only the
                                per-output summary (worst current and headroom, and where)
+  --hand-analysis-steps        JSON: each structure's worked hand-analysis steps (formula, numbers
+                               substituted, value) in its estimate; left out by default
   --compact                    JSON and SARIF on one line, without indentation
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
@@ -148,6 +150,8 @@ interface CliOptions {
   monteCarlo?: { runs: number; seed: number };
   /** JSON: every corner's results, not only the summary. */
   allCorners: boolean;
+  /** JSON: the hand analysis's worked steps in each structure's estimate (the engine formats them only then). */
+  handAnalysisSteps: boolean;
   /** JSON and SARIF without indentation. */
   compact: boolean;
   /** `--workers N`: files analysed at once on worker threads; 1 analyses them one after another in this thread. */
@@ -222,7 +226,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
+  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, handAnalysisSteps: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -326,6 +330,9 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--all-corners':
         opts.allCorners = true;
         break;
+      case '--hand-analysis-steps':
+        opts.handAnalysisSteps = true;
+        break;
       case '--workers': {
         const text = next();
         const v = parseDecimal(text);
@@ -402,6 +409,8 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (opts.monteCarlo && opts.monteCarlo.runs === 0) throw new UsageError('--seed needs --monte-carlo N (the number of runs).');
   opts.analysis.corners = corners;
   opts.analysis.severities = severities;
+  // Nothing but the JSON with --hand-analysis-steps shows the worked steps; formatting them costs a good part of the hand analysis.
+  opts.analysis.handAnalysisSteps = opts.handAnalysisSteps;
   return opts;
 }
 
@@ -634,15 +643,27 @@ function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
   });
 }
 
-/** The version of the CLI's JSON document; 2 summarises corners per output unless `--all-corners` asks for them all. */
-export const JSON_VERSION = 2;
+/**
+ * The version of the CLI's JSON document: 2 summarises corners per output unless `--all-corners`
+ * asks for them all; 3 leaves each estimate's `steps` out unless `--hand-analysis-steps` asks for them.
+ */
+export const JSON_VERSION = 3;
+
+/** What the JSON document holds beyond its default content. */
+export interface JsonDetail {
+  /** Every corner's results, besides the per-output summary. */
+  allCorners?: boolean;
+  /** The hand analysis's worked steps in each structure's estimate. */
+  handAnalysisSteps?: boolean;
+}
 
 /**
- * The CLI's JSON document. Field meanings are documented in the README. The operating point,
- * the power table and the structures are `JsonEntries`, produced while `writeJson` writes them
- * (from the solver's vectors, without building the point's name-keyed tables).
+ * The CLI's JSON document. Field meanings are documented in the README. The operating point and
+ * the power table are `JsonEntries`, produced while `writeJson` writes them (from the solver's
+ * vectors, without building the point's name-keyed tables); each structure's entry is made when it
+ * is written (`toJSON`) and dropped after.
  */
-export function jsonReport(results: FileResult[], options: { allCorners?: boolean } = {}): unknown {
+export function jsonReport(results: FileResult[], options: JsonDetail = {}): unknown {
   return jsonDocument(results.map((r) => jsonFileEntry(r, options)));
 }
 
@@ -657,7 +678,7 @@ function jsonOf(o: FileOutcome): unknown {
 }
 
 /** One file's entry of the JSON document. */
-function jsonFileEntry(r: FileResult, options: { allCorners?: boolean }): unknown {
+function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
   const a = r.analysis;
   const op = a?.operatingPoint;
   const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
@@ -673,7 +694,7 @@ function jsonFileEntry(r: FileResult, options: { allCorners?: boolean }): unknow
             : powerTable(a.circuit.elements, op.devices, a.options),
         }
       : {}),
-    ...(a ? { structures: a.structures.map((s) => structureForJson(s, options.allCorners === true)) } : {}),
+    ...(a ? { structures: a.structures.map((s) => ({ toJSON: () => structureForJson(s, options) })) } : {}),
     ...(a?.variation ? { variation: variationForJson(a.variation, a.structures) } : {}),
   };
 }
@@ -721,34 +742,43 @@ function pointForJson(op: OperatingPoint): unknown {
 /**
  * A structure as JSON shows it: every field, with `corners` replaced by `cornerSummary` (per output
  * the lowest and highest current and the lowest headroom, each with its corner, and where it leaves
- * its region) unless every corner is asked for, when both are written.
+ * its region) unless every corner is asked for, when both are written, and the estimate without its
+ * `steps` unless they are asked for. A plain object of a few hundred values, so the writer hands it
+ * to the native JSON writer in one call (a structure written member by member cost about twice as much).
  */
-function structureForJson(s: Structure, allCorners: boolean): unknown {
-  return new JsonEntries(function* () {
-    for (const k of Object.keys(s)) {
-      if (k !== 'corners') {
-        yield [k, (s as unknown as Record<string, unknown>)[k]];
-        continue;
-      }
-      const cols = cornerColumns(s);
-      const summaries = cols ? summariseOutputs(cols) : summariseCornerRecords(s);
-      const total = cols ? cols.axis.labels.length : s.corners.length;
-      if (total > 0) {
-        yield ['cornerSummary', {
-          corners: total,
-          converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
-          outputs: summaries.map((o) => ({
-            device: o.device,
-            ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent) } : {}),
-            ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent) } : {}),
-            ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom) } : {}),
-            outOfRegionAt: o.outOfRegionAt.map(cornerKey),
-          })),
-        }];
-      }
-      if (allCorners) yield ['corners', s.corners];
-    }
-  });
+function structureForJson(s: Structure, detail: JsonDetail): Record<string, unknown> {
+  const out: Record<string, unknown> = {};
+  const fields = s as unknown as Record<string, unknown>;
+  for (const k of Object.keys(s)) {
+    if (k === 'corners') {
+      const summary = cornerSummary(s);
+      if (summary) out['cornerSummary'] = summary;
+      if (detail.allCorners) out['corners'] = s.corners;
+    } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
+      const { steps: _steps, ...estimate } = s.estimate;
+      out[k] = estimate;
+    } else out[k] = fields[k];
+  }
+  return out;
+}
+
+/** A structure's corners summarised per output, or undefined when none were solved. */
+function cornerSummary(s: Structure): unknown {
+  const cols = cornerColumns(s);
+  const total = cols ? cols.axis.labels.length : s.corners.length;
+  if (total === 0) return undefined;
+  const summaries = cols ? summariseOutputs(cols) : summariseCornerRecords(s);
+  return {
+    corners: total,
+    converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
+    outputs: summaries.map((o) => ({
+      device: o.device,
+      ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent) } : {}),
+      ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent) } : {}),
+      ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom) } : {}),
+      outOfRegionAt: o.outOfRegionAt.map(cornerKey),
+    })),
+  };
 }
 
 /** A value at a corner: the corner's ASCII key and its label as people read it. */

@@ -63,6 +63,11 @@ export interface AnalysisOptions {
   variation?: Partial<VariationOptions>;
   /** Most elements flattening may produce before `circuit-too-large` (default 500,000; the CLI allows 2,000,000). */
   maxElements?: number;
+  /**
+   * Set false to leave the hand analysis's worked steps out (`estimate.steps` stays empty), for a host
+   * that shows none: formatting them is a good part of the hand analysis of a large array.
+   */
+  handAnalysisSteps?: boolean;
 }
 
 /** Default dissipation limits, watts, for parts that do not give their own. */
@@ -85,6 +90,7 @@ export interface ResolvedOptions {
   solve: boolean;
   powerLimits: PowerLimits;
   variation: VariationOptions;
+  handAnalysisSteps: boolean;
 }
 
 export const DEFAULT_CORNERS: CornerOptions = {
@@ -106,6 +112,7 @@ export function resolveOptions(options: AnalysisOptions = {}): ResolvedOptions {
     solve: options.solve ?? true,
     powerLimits: { ...DEFAULT_POWER_LIMITS, ...definedOnly(options.powerLimits) },
     variation: resolveVariation(options.variation),
+    handAnalysisSteps: options.handAnalysisSteps ?? true,
   };
 }
 

@@ -39,7 +39,7 @@ describe('qpoint check', () => {
     const p = file('bad2.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
     const r = run(['check', '--format', 'json', p]);
     const doc = JSON.parse(r.stdout);
-    expect(doc.version).toBe(2);
+    expect(doc.version).toBe(3);
     expect(doc.files).toHaveLength(1);
     expect(doc.files[0].path).toBe(p);
     const d = doc.files[0].diagnostics.find((x: { code: string }) => x.code === 'model-not-found');
@@ -86,6 +86,21 @@ describe('qpoint check', () => {
     // Timings ('ms') differ from run to run; everything else must be the same document.
     const untimed = (t: string) => JSON.parse(t, (k, v) => (k === 'ms' ? undefined : v));
     expect(untimed(compact)).toEqual(untimed(run(['check', '--format', 'json', p]).stdout));
+  });
+
+  it('leaves the hand-analysis steps out of the JSON unless --hand-analysis-steps asks for them, and changes nothing else', () => {
+    const p = file('steps.cir', MIRROR);
+    const untimed = (t: string) => JSON.parse(t, (k, v) => (k === 'ms' ? undefined : v));
+    const plain = untimed(run(['check', '--format', 'json', '--no-corners', p]).stdout);
+    const detailed = untimed(run(['check', '--format', 'json', '--no-corners', '--hand-analysis-steps', p]).stdout);
+    expect(plain.files[0].structures[0].estimate.steps).toBeUndefined();
+    const steps: { quantity: string; value: number; substituted: string }[] = detailed.files[0].structures[0].estimate.steps;
+    const value = (q: string) => steps.find((x) => x.quantity === q)!.value;
+    // Kirchhoff's voltage law round the reference branch: 12 V = IREF · 11.3 kΩ + VBE(Q1).
+    expect(value('IREF') * 11.3e3 + value('VBE(Q1)')).toBeCloseTo(12, 9);
+    expect(steps.find((x) => x.quantity === 'IREF')!.substituted).toContain('11.3 kΩ');
+    for (const s of detailed.files[0].structures) delete s.estimate.steps;
+    expect(detailed).toEqual(plain);
   });
 
   it('writes SARIF 2.1.0 with rules and 1-based regions', () => {

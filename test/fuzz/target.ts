@@ -375,7 +375,7 @@ function checkSweep(a: Analysis, p: Pick): void {
 function checkReports(a: Analysis, catalogue: Record<string, CodeInfo>): void {
   const result = { path: 'top.cir', absolute: ROOT, analysis: a };
   // Every corner too, so the per-corner records are checked as well as their summary.
-  jsonCarriesEveryNumber(jsonReport([result], { allCorners: true }), 'jsonReport');
+  jsonCarriesEveryNumber(jsonReport([result], { allCorners: true, handAnalysisSteps: true }), 'jsonReport');
   const sarif = sarifReport([result]) as { runs: { results: { ruleId: string; message: { text: string }; locations: { physicalLocation: { region: Record<string, number> } }[] }[] }[] };
   for (const r of sarif.runs[0]!.results) {
     check(catalogue[r.ruleId] !== undefined, () => `SARIF rule ${r.ruleId} is not in the catalogue`);

@@ -206,6 +206,7 @@ class StructureCheck {
       irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
       deviceCurrents: this.op ? this.collectorCurrents() : undefined,
       nodeVolts: this.op?.nodes,
+      recordSteps: this.options.handAnalysisSteps,
     });
     // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
     if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;

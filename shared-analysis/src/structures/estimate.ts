@@ -47,6 +47,11 @@ class HandAnalysis {
   run(): Estimate {
     const { h, kind, s } = this;
     const steps: EstimateStep[] = [];
+    const record = this.at.recordSteps ?? true;
+    // Each step is formatted only when steps are recorded; the numbers never depend on them.
+    const add = (x: () => EstimateStep): void => {
+      if (record) steps.push(x());
+    };
     // A structure built elsewhere (or edited) without its devices or roles has nothing to compute from.
     const complete =
       s.devices.every((d) => h.topo.byName.has(d)) &&
@@ -58,14 +63,14 @@ class HandAnalysis {
     if (!complete) {
       return { iref: 0, iout: Object.fromEntries(s.outputs.map((o) => [o.device, 0])), vControl: 0, steps, irefFrom: 'unknown' };
     }
-    steps.push({
+    add(() => ({
       quantity: 'VT',
       formula: 'k·T/q (k = 1.380649e-23 J/K, q = 1.602176634e-19 C, exact, SI 2019)',
       substituted: `k × ${sig(this.at.temperatureC + 273.15, 5)} K / q`,
       value: h.vt,
       unit: 'V',
-    });
-    steps.push(...this.betaSteps()); // bounded: one step per device of the structure
+    }));
+    if (record) steps.push(...this.betaSteps()); // bounded: one step per device of the structure
     const feed = s.reference;
     let iref = 0;
     let irefFrom: Estimate['irefFrom'] = 'unknown';
@@ -76,12 +81,12 @@ class HandAnalysis {
     const nStack = kind.referenceJunctions;
 
     // The IREF step of a feed other than a resistor chain, shown before the chain's VBE/VGS steps.
-    let irefStep: EstimateStep | undefined;
+    let irefStep: (() => EstimateStep) | undefined;
     let resistorFed: { ohms: number; available: number; hi: string } | undefined;
 
     if (kind.ownReference) {
       irefFrom = 'own-equation';
-      const own = new Chain(h, true);
+      const own = new Chain(h, true, record);
       iref = kind.ownReference(h, own);
       pushAll(steps, own.steps);
     } else if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
@@ -110,13 +115,14 @@ class HandAnalysis {
         const into = src.nodes[1] === refNode ? dc : -dc;
         iref = Math.max(h.sign * into, 0);
         if (!(h.sign * into > 0)) starved = true;
-        irefStep = {
+        const value = iref;
+        irefStep = () => ({
           quantity: 'IREF',
           formula: 'the current source value',
           substituted: `${src.name} = ${eng(Math.abs(dc), 'A')}${h.sign * into > 0 ? '' : ' (flows the wrong way for this reference)'}`,
-          value: iref,
+          value,
           unit: 'A',
-        };
+        });
       }
     } else if (feed.feed === 'mirror-output' && this.loopWithoutEquation()) {
       // Mirrors feeding each other round with no kind that sets the current: their ratios balance at any current
@@ -126,30 +132,32 @@ class HandAnalysis {
         irefFrom = 'given';
         iref = Math.abs(this.at.irefGiven);
       }
-      irefStep = {
+      const given = irefFrom === 'given';
+      const value = iref;
+      irefStep = () => ({
         quantity: 'IREF',
-        formula: `set by the self-biased loop ${loop.join(' → ')}: each mirror's formula only passes the current on, so no hand formula fixes its value (the loop balances wherever the product of its ratios is 1, or only at zero)${irefFrom === 'given' ? '; taken from the operating point' : ''}`,
-        substituted: irefFrom === 'given' ? eng(iref, 'A') : 'not determined by hand',
-        value: iref,
+        formula: `set by the self-biased loop ${loop.join(' → ')}: each mirror's formula only passes the current on, so no hand formula fixes its value (the loop balances wherever the product of its ratios is 1, or only at zero)${given ? '; taken from the operating point' : ''}`,
+        substituted: given ? eng(value, 'A') : 'not determined by hand',
+        value,
         unit: 'A',
-      };
+      });
     } else if (feed.feed === 'mirror-output') {
       irefFrom = 'mirror-output';
-      iref = this.feedingOutput();
-      irefStep = {
+      const value = (iref = this.feedingOutput());
+      irefStep = () => ({
         quantity: 'IREF',
         formula: "the feeding structure's estimated output current",
-        substituted: `${feed.elements[0]} of ${feed.fedBy ?? '?'} = ${eng(iref, 'A')}`,
-        value: iref,
+        substituted: `${feed.elements[0]} of ${feed.fedBy ?? '?'} = ${eng(value, 'A')}`,
+        value,
         unit: 'A',
-      };
+      });
     } else if (this.at.irefGiven !== undefined && Number.isFinite(this.at.irefGiven)) {
       irefFrom = 'given';
-      iref = Math.abs(this.at.irefGiven);
-      irefStep = { quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(iref, 'A'), value: iref, unit: 'A' };
+      const value = (iref = Math.abs(this.at.irefGiven));
+      irefStep = () => ({ quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(value, 'A'), value, unit: 'A' });
     }
 
-    const st = this.chain(iref, true);
+    const st = this.chain(iref, true, record);
     const isVoltage = (x: EstimateStep) => x.quantity.startsWith('V');
     if (resistorFed) {
       const { ohms, available, hi } = resistorFed;
@@ -157,33 +165,37 @@ class HandAnalysis {
       const vName = h.bipolar ? 'VBE' : 'VGS';
       const stackFormula = kind.stackFormula?.(h, vName) ?? (nStack > 1 ? `${nStack} stacked ${vName}` : vName);
       pushAll(steps, st.steps.filter(isVoltage));
-      steps.push({
+      add(() => ({
         quantity: 'IREF',
         formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${h.bipolar ? GRAY : RAZAVI})`,
         substituted: `(${hi} − ${eng(st.stack, 'V')})/${rText}`,
         value: iref,
         unit: 'A',
-      });
+      }));
       if (h.bipolar && ohms > 0) {
-        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi }) ?? {
-          quantity: 'IREF (0.7 V shortcut)',
-          formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
-          substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
-          value: Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0),
-          unit: 'A' as const,
-        };
-        irefShortcut = shortcut.value;
-        steps.push(shortcut);
+        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi });
+        irefShortcut = shortcut ? shortcut.value : Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
+        const value = irefShortcut;
+        add(
+          () =>
+            shortcut ?? {
+              quantity: 'IREF (0.7 V shortcut)',
+              formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
+              substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
+              value,
+              unit: 'A',
+            },
+        );
       }
     } else {
-      if (irefStep) steps.push(irefStep);
+      if (irefStep) add(irefStep);
       pushAll(steps, st.steps.filter(isVoltage));
     }
     pushAll(steps, st.steps.filter((x) => !isVoltage(x)));
     let voltages: Record<string, number> | undefined;
     let voltageTempco: Record<string, number> | undefined;
     if (kind.voltages) {
-      const vc = new Chain(h, true);
+      const vc = new Chain(h, true, record);
       const got = kind.voltages(h, st, vc);
       voltages = nameTable();
       for (const [k, v] of Object.entries(got)) {
@@ -196,20 +208,7 @@ class HandAnalysis {
     if (vCommon !== undefined) {
       for (const [k, v] of Object.entries(st.edge)) {
         outputEdge[k] = vCommon + h.sign * v;
-        const node = s.outputs.find((o) => o.device === k)?.node ?? k;
-        const cmp = h.sign > 0 ? '≥' : '≤';
-        steps.push({
-          quantity: `Compliance edge V(${node})`,
-          formula: h.bipolar
-            ? `V(${node}) ${cmp} V(base of ${k}): the VBC = 0 edge of forward-active (stricter than the textbook VCE(sat) ≈ 0.2 V)`
-            : TECHNOLOGIES[s.technology].family === 'jfet'
-              ? `V(${node}) ${cmp} V(gate of ${k}) ${h.sign > 0 ? '−' : '+'} VP: the edge of saturation, VDS = VGS − VP with VP the pinch-off voltage (${SQUARE_LAW}, JFET form)`
-              : `V(${node}) ${cmp} V(source) ${h.sign > 0 ? '+' : '−'} VOV of ${k}, i.e. V(gate) ${h.sign > 0 ? '− VTH' : '+ |VTH|'}: the edge of saturation (${RAZAVI})`,
-          substituted: `${eng(vCommon, 'V')} ${h.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
-          value: outputEdge[k],
-          unit: 'V',
-          devices: [k],
-        });
+        add(() => this.edgeStep(k, v, vCommon, outputEdge[k]));
       }
     }
     return {
@@ -224,6 +223,25 @@ class HandAnalysis {
       outputEdge: vCommon !== undefined ? outputEdge : undefined,
       ...(voltages ? { voltages } : {}),
       ...(voltageTempco ? { voltageTempco } : {}),
+    };
+  }
+
+  /** The step of the output-node voltage `value` at the edge of output `k`'s active region, `v` beyond the common rail `vCommon`. */
+  private edgeStep(k: string, v: number, vCommon: number, value: number): EstimateStep {
+    const { h, s } = this;
+    const node = s.outputs.find((o) => o.device === k)?.node ?? k;
+    const cmp = h.sign > 0 ? '≥' : '≤';
+    return {
+      quantity: `Compliance edge V(${node})`,
+      formula: h.bipolar
+        ? `V(${node}) ${cmp} V(base of ${k}): the VBC = 0 edge of forward-active (stricter than the textbook VCE(sat) ≈ 0.2 V)`
+        : TECHNOLOGIES[s.technology].family === 'jfet'
+          ? `V(${node}) ${cmp} V(gate of ${k}) ${h.sign > 0 ? '−' : '+'} VP: the edge of saturation, VDS = VGS − VP with VP the pinch-off voltage (${SQUARE_LAW}, JFET form)`
+          : `V(${node}) ${cmp} V(source) ${h.sign > 0 ? '+' : '−'} VOV of ${k}, i.e. V(gate) ${h.sign > 0 ? '− VTH' : '+ |VTH|'}: the edge of saturation (${RAZAVI})`,
+      substituted: `${eng(vCommon, 'V')} ${h.sign > 0 ? '+' : '−'} ${eng(v, 'V')}`,
+      value,
+      unit: 'V',
+      devices: [k],
     };
   }
 
@@ -255,9 +273,9 @@ class HandAnalysis {
     return out;
   }
 
-  /** The structure at one IREF through its kind's analysis; with `record`, the substituted steps too. */
-  private chain(iref: number, record: boolean): ChainState {
-    const c = new Chain(this.h, record);
+  /** The structure at one IREF through its kind's analysis; `final` for the evaluation kept, `format` to write its steps. */
+  private chain(iref: number, final: boolean, format = final): ChainState {
+    const c = new Chain(this.h, final, format);
     return { ...this.kind.analyse(this.h, iref, c), steps: c.steps };
   }
 

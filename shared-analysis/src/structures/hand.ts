@@ -33,6 +33,8 @@ export interface EstimateAt {
   deviceCurrents?: Record<string, number>;
   /** Solved node voltages (name -> volts), for a voltage the hand analysis cannot derive (e.g. an amplifier's reference input). */
   nodeVolts?: Record<string, number>;
+  /** Set false to skip formatting the worked steps (`Estimate.steps` stays empty); the numbers are the same. */
+  recordSteps?: boolean;
 }
 
 /** The parameters of one device at the analysis temperature, in the structure's own polarity. */
@@ -82,19 +84,22 @@ export const RAZAVI = 'Razavi, Design of Analog CMOS Integrated Circuits, ch. 5'
 export const SQUARE_LAW = 'square law, Shichman and Hodges, IEEE JSSC, 1968';
 
 /**
- * The steps of one evaluation of a structure at one IREF. Steps are formatted only when
- * `record` is set: the IREF solve evaluates the chain dozens of times per structure.
+ * The steps of one evaluation of a structure at one IREF. `final` marks the evaluation whose
+ * results the estimate keeps (the IREF solve evaluates the chain dozens of times per structure
+ * before it); steps are formatted only on the final evaluation, and not even then when the
+ * caller asked for none (`EstimateAt.recordSteps`).
  */
 export class Chain {
   readonly steps: EstimateStep[] = [];
 
   constructor(
     private readonly h: Hand,
-    readonly record: boolean,
+    readonly final: boolean,
+    private readonly format = final,
   ) {}
 
   push(x: () => EstimateStep): void {
-    if (this.record) this.steps.push(x());
+    if (this.format) this.steps.push(x());
   }
 
   /** VBE (junction law) or VGS (square law) of `p` at current `i`, with its step. */

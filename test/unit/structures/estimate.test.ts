@@ -7,6 +7,9 @@ import { eng, percent, sig } from '../../../shared-analysis/src/structures/forma
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { CircuitBuilder } from './build';
 import { fixture } from './fixtures';
+import { analyse } from '../../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { FUZZ_ROOT, SEED_LIBRARY, SEED_NETLISTS } from '../../fuzz/seeds';
 
 /** The one entry point: estimate the first structure and compare its steps (quantity, substituted text) in order. */
 function check(circuit: Circuit, at: EstimateAt, expected: [string, RegExp][]): void {
@@ -85,5 +88,49 @@ describe('engineering formatting (SI prefixes, BIPM SI Brochure, 9th ed.)', () =
     expect(sig(2e-16)).toBe('2e-16');
     expect(percent(-0.394)).toBe('−39 %');
     expect(percent(0.052)).toBe('+5.2 %');
+  });
+});
+
+describe('estimate without steps', () => {
+  // A zener-referenced NPN sink (invented): its kind keeps the string current of the final evaluation for VREF.
+  const ZENER_SINK = `Zener-referenced NPN current sink
+VCC vcc 0 12
+RB vcc b 4.7k
+DZ 0 b dz
+Q1 c b e qn
+RE e 0 1.5k
+RL vcc c 2k
+.model dz D (IS=1e-14 BV=3.9 IBV=1m)
+.model qn NPN (IS=1e-15 BF=150 VAF=80)
+.end
+`;
+
+  it('gives the same numbers and findings with the steps left out, on every seed netlist and a diode-referenced source', () => {
+    let compared = 0;
+    for (const text of [...SEED_NETLISTS, ZENER_SINK]) {
+      const files = { ...SEED_LIBRARY, [FUZZ_ROOT]: text };
+      const run = (steps: boolean) => analyse({ uri: FUZZ_ROOT, text }, new MemoryWorkspace(files), { corners: { enabled: false }, handAnalysisSteps: steps });
+      const withSteps = run(true);
+      const without = run(false);
+      expect(without.findings).toEqual(withSteps.findings);
+      expect(without.structures.length).toBe(withSteps.structures.length);
+      without.structures.forEach((s, i) => {
+        const full = withSteps.structures[i];
+        expect(s.estimate?.steps ?? []).toEqual([]);
+        if (full.estimate) {
+          expect(full.estimate.steps.length).toBeGreaterThan(0);
+          expect({ ...s.estimate, steps: undefined }).toEqual({ ...full.estimate, steps: undefined });
+          compared++;
+        }
+        expect(s.voltages).toEqual(full.voltages);
+      });
+    }
+    // The VREF left without steps is still the string's voltage at its current: the breakdown law
+    // V = BV + VT·ln(I/IBV) (docs/DEVICE-MODELS.md) at I ≈ (12 V − 3.9 V)/4.7 kΩ = 1.72 mA gives
+    // 3.9 V + 25.9 mV × ln(1.72) = 3.914 V (the base current, about 14 µA, moves it by under 0.3 mV).
+    const zener = analyse({ uri: FUZZ_ROOT, text: ZENER_SINK }, new MemoryWorkspace({ [FUZZ_ROOT]: ZENER_SINK }), { corners: { enabled: false }, handAnalysisSteps: false }).structures[0];
+    expect(zener.kind).toBe('diode-referenced-source');
+    expect(zener.estimate!.voltages!['VREF']).toBeCloseTo(3.9 + 0.025865 * Math.log((12 - 3.9) / 4.7e3 / 1e-3), 2);
+    expect(compared).toBeGreaterThan(5);
   });
 });

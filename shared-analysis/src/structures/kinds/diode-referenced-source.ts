@@ -191,7 +191,7 @@ function analyse(h: Hand, iref: number, c: Chain): ChainResult {
   const istring = (i: number) => Math.max(iref - i / beta, iref * 1e-6);
   const g = (i: number) => i * (1 + 1 / beta) * re.ohms + vCtl(i) - stringVolts(h, istring(i));
   const iout = iref > 0 && re.ohms > 0 ? solveRising(g, Math.max(stringVolts(h, iref) / re.ohms, 1e-9)) : 0;
-  if (c.record) h.memo.set(STRING_CURRENT, istring(iout));
+  if (c.final) h.memo.set(STRING_CURRENT, istring(iout));
   const vref = stringVolts(h, istring(iout));
   const parts = stringOf(h);
   c.push(() => ({
