@@ -22,9 +22,10 @@ import { JsonEntries, JsonText, writeJson } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
-import type { VariationResult } from '../../shared-analysis/src/variation/types';
+import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
+import { nameTable } from '../../shared-analysis/src/names';
 import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
 import { expandFiles, Progress, runPool } from './batch';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
@@ -84,6 +85,8 @@ Options:
                                per-output summary (worst current and headroom, and where)
   --hand-analysis-steps        JSON: each structure's worked hand-analysis steps (formula, numbers
                                substituted, value) in its estimate; left out by default
+  --spread-breakdown           JSON: each output's ranked spread contributors and largest
+                               sensitivities besides its σ, worst case and drift; left out by default
   --compact                    JSON and SARIF on one line, without indentation
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
@@ -152,6 +155,8 @@ interface CliOptions {
   allCorners: boolean;
   /** JSON: the hand analysis's worked steps in each structure's estimate (the engine formats them only then). */
   handAnalysisSteps: boolean;
+  /** JSON: each output's ranked spread contributors and sensitivities. */
+  spreadBreakdown: boolean;
   /** JSON and SARIF without indentation. */
   compact: boolean;
   /** `--workers N`: files analysed at once on worker threads; 1 analyses them one after another in this thread. */
@@ -226,7 +231,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, handAnalysisSteps: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
+  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, handAnalysisSteps: false, spreadBreakdown: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -332,6 +337,9 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         break;
       case '--hand-analysis-steps':
         opts.handAnalysisSteps = true;
+        break;
+      case '--spread-breakdown':
+        opts.spreadBreakdown = true;
         break;
       case '--workers': {
         const text = next();
@@ -645,7 +653,8 @@ function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
 
 /**
  * The version of the CLI's JSON document: 2 summarises corners per output unless `--all-corners`
- * asks for them all; 3 leaves each estimate's `steps` out unless `--hand-analysis-steps` asks for them.
+ * asks for them all; 3 leaves each estimate's `steps` out unless `--hand-analysis-steps` asks for
+ * them, and each output's spread `contributors` and `sensitivities` unless `--spread-breakdown` does.
  */
 export const JSON_VERSION = 3;
 
@@ -655,6 +664,8 @@ export interface JsonDetail {
   allCorners?: boolean;
   /** The hand analysis's worked steps in each structure's estimate. */
   handAnalysisSteps?: boolean;
+  /** Each output's ranked spread contributors and largest sensitivities. */
+  spreadBreakdown?: boolean;
 }
 
 /**
@@ -695,7 +706,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
         }
       : {}),
     ...(a ? { structures: a.structures.map((s) => ({ toJSON: () => structureForJson(s, options) })) } : {}),
-    ...(a?.variation ? { variation: variationForJson(a.variation, a.structures) } : {}),
+    ...(a?.variation ? { variation: variationForJson(a.variation, a.structures, options) } : {}),
   };
 }
 
@@ -706,10 +717,10 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
  * (`outputsOutsideStructures`). Writing every output twice made the spread analysis about 45 MB of
  * a 20,000-element array's 99 MB document (docs/PERFORMANCE.md).
  */
-function variationForJson(v: VariationResult, structures: readonly Structure[]): unknown {
+function variationForJson(v: VariationResult, structures: readonly Structure[], detail: JsonDetail): unknown {
   const shown = new Set(structures.filter((s) => s.variation).map((s) => s.id));
   return {
-    outputsOutsideStructures: v.outputs.filter((o) => !o.structure || !shown.has(o.structure)),
+    outputsOutsideStructures: v.outputs.filter((o) => !o.structure || !shown.has(o.structure)).map((o) => spreadForJson(o, detail)),
     sources: v.sources,
     stats: v.stats,
     ...(v.monteCarlo ? { monteCarlo: v.monteCarlo } : {}),
@@ -757,9 +768,37 @@ function structureForJson(s: Structure, detail: JsonDetail): Record<string, unkn
     } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
       const { steps: _steps, ...estimate } = s.estimate;
       out[k] = estimate;
+    } else if (k === 'variation' && s.variation && !detail.spreadBreakdown) {
+      out[k] = structureSpreadForJson(s.variation, detail);
     } else out[k] = fields[k];
   }
   return out;
+}
+
+/** A structure's spread as JSON shows it: every output (`iref`, and each of `iout` and `voltages`) through `spreadForJson`. */
+function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: JsonDetail): unknown {
+  const out: Record<string, unknown> = {};
+  for (const [k, x] of Object.entries(v)) {
+    if (x === undefined) continue;
+    if (k === 'iref') out[k] = spreadForJson(x as OutputVariation, detail);
+    else {
+      const table = nameTable<unknown>();
+      for (const [name, o] of Object.entries(x as Record<string, OutputVariation>)) table[name] = spreadForJson(o, detail);
+      out[k] = table;
+    }
+  }
+  return out;
+}
+
+/**
+ * One output's spread as JSON shows it: without its ranked `contributors` and `sensitivities`
+ * unless `--spread-breakdown` asks for them (they were about half of a large array's document; a
+ * CI gate reads σ, worst case, drift and yield).
+ */
+function spreadForJson(o: OutputVariation, detail: JsonDetail): unknown {
+  if (detail.spreadBreakdown) return o;
+  const { contributors: _contributors, sensitivities: _sensitivities, ...figures } = o;
+  return figures;
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */

@@ -103,6 +103,26 @@ describe('qpoint check', () => {
     expect(detailed).toEqual(plain);
   });
 
+  it('leaves each output\'s spread contributors and sensitivities out of the JSON unless --spread-breakdown asks for them', () => {
+    const p = file('spread.cir', MIRROR);
+    const untimed = (t: string) => JSON.parse(t, (k, v) => (k === 'ms' ? undefined : v));
+    const plain = untimed(run(['check', '--format', 'json', '--no-corners', p]).stdout);
+    const detailed = untimed(run(['check', '--format', 'json', '--no-corners', '--spread-breakdown', p]).stdout);
+    const short = plain.files[0].structures[0].variation.iout.Q2;
+    const full = detailed.files[0].structures[0].variation.iout.Q2;
+    expect(short.contributors).toBeUndefined();
+    expect(short.sensitivities).toBeUndefined();
+    // σ is the root of the summed squares of the contributors' σ (independent errors add in quadrature; docs/VARIATION.md).
+    const rss = Math.sqrt(full.contributors.reduce((sum: number, c: { sigma: number }) => sum + c.sigma ** 2, 0));
+    expect(rss / short.sigma).toBeCloseTo(1, 6);
+    for (const o of [...detailed.files[0].structures.flatMap((s: { variation: { iref?: object; iout: object } }) => [s.variation.iref, ...Object.values(s.variation.iout)]), ...detailed.files[0].variation.outputsOutsideStructures]) {
+      if (!o) continue;
+      delete (o as { contributors?: unknown }).contributors;
+      delete (o as { sensitivities?: unknown }).sensitivities;
+    }
+    expect(detailed).toEqual(plain);
+  });
+
   it('writes SARIF 2.1.0 with rules and 1-based regions', () => {
     const p = file('bad3.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
     const sarif = JSON.parse(run(['check', '--format', 'sarif', p]).stdout);
