@@ -129,7 +129,7 @@ function check(circuit: Circuit): { kinds: StructureKind[]; compared: number } {
   const lin = solver.linearise(nominal)!;
   const adj = sensitivities(lin, specs.map((s) => s.functional), params);
   const base = measureAll(circuit, structures, nominal.op);
-  expect(adj.value.map((v) => +v.toPrecision(9))).toEqual(base.map((v) => +v.toPrecision(9)));
+  expect(Array.from(adj.value, (v) => +v.toPrecision(9))).toEqual(base.map((v) => +v.toPrecision(9)));
   let compared = 0;
   const solveWith = (o: SolveOptions): number[] => {
     const r = solver.solve({ temperatureC: t, initialGuess: nominal.x, ...o });

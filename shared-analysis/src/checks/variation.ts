@@ -6,7 +6,7 @@ import { targetElements, TargetIndex } from './targets';
 import type { Structure } from '../structures/types';
 import type { Finding, Severity } from '../types';
 import { formatEngineering, formatPercent } from '../fixes/format';
-import { fractionWithin, spreadOf, type VariationDetail } from '../variation/index';
+import { fractionWithin, sourceRowOf, spreadOf, type VariationDetail } from '../variation/index';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const VARIATION_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -107,7 +107,7 @@ function groupOf(detail: VariationDetail, o: number, name: string): string | und
 /** The smallest change to the largest contributor that brings the yield to the target, in words and data. */
 function fixFor(detail: VariationDetail, o: number, group: string, lo: number, hi: number, yieldTarget: number): { text: string; data: Record<string, unknown> } | undefined {
   const sources = detail.sources;
-  const per = detail.bySource[o];
+  const per = sourceRowOf(detail.bySource, o);
   const nominal = Math.abs(detail.result.outputs[o].nominal);
   const members = sources.map((s, k) => (s.group === group ? k : -1)).filter((k) => k >= 0);
   if (members.length === 0) return undefined;

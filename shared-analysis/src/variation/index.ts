@@ -8,7 +8,7 @@ import type { Target } from '../checks/targets';
 import { targetElements, TargetIndex } from '../checks/targets';
 import { nameTable } from '../names';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { derivativeOf, sensitivities, type VariedParameter } from './sensitivity';
+import { sensitivities, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
@@ -57,8 +57,25 @@ export interface VariationContext {
 
 /** The tolerance sources an output depends on and its derivatives with respect to them. */
 export interface SourceRow {
-  index: number[];
-  value: number[];
+  index: ArrayLike<number>;
+  value: ArrayLike<number>;
+}
+
+/**
+ * Every output's source row in compressed form: output o depends on sources
+ * `index[start[o] … start[o + 1] − 1]` with d(output)/d(source) in `value` at the same places.
+ */
+export interface SourceRows {
+  start: Int32Array;
+  index: Int32Array;
+  value: Float64Array;
+}
+
+/** Output o's row of `rows` (views, no copy). */
+export function sourceRowOf(rows: SourceRows, o: number): SourceRow {
+  const from = rows.start[o];
+  const to = rows.start[o + 1];
+  return { index: rows.index.subarray(from, to), value: rows.value.subarray(from, to) };
 }
 
 /** Everything the yield finding and Monte Carlo need beyond the plain result. */
@@ -67,7 +84,7 @@ export interface VariationDetail {
   specs: OutputSpec[];
   sources: ToleranceSource[];
   /** Per output: the tolerance sources it depends on (indices into `sources`) and d(output)/d(source). */
-  bySource: SourceRow[];
+  bySource: SourceRows;
 }
 
 /** The spread of every structure output and target element at the nominal solution; undefined when it did not converge. */
@@ -76,116 +93,46 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const { circuit, structures, solver, nominal } = ctx;
   if (!nominal.op.converged) return undefined;
   const specs = structureOutputs(circuit, structures);
-  const targetOf = new Map<string, { current: number; tolerance: number }>();
-  const have = new Set(specs.map((s) => s.key));
-  // A target on a structure's output device reads that output: its figures are not computed and listed twice.
-  for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
-  const index = ctx.targets.length > 0 ? new TargetIndex(circuit, structures) : undefined;
-  const elementIndex = new Map<string, number>();
-  circuit.elements.forEach((e, i) => elementIndex.set(e.name, i));
-  for (const t of ctx.targets) {
-    for (const el of targetElements(circuit, t, index!)) {
-      const key = `element ${el.name}`;
-      targetOf.set(el.name, { current: t.current, tolerance: t.tolerance ?? ctx.defaultTargetTolerance });
-      if (have.has(key)) continue;
-      const f = elementCurrent(circuit, elementIndex.get(el.name)!);
-      if (!f) continue;
-      have.add(key);
-      specs.push({ key, label: el.name, unit: 'A', role: 'element', element: el.name, functional: f });
-    }
-  }
+  const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
   const lin = solver.linearise(nominal);
   if (!lin) return undefined;
 
   const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
   // Parameters: every tolerance source, the temperature, and every voltage source (for %/V) and resistor (for % per %).
-  const params: VariedParameter[] = [];
-  // Each parameter once: keyed by kind and element (a model parameter by its name, then its element).
-  const plainIndex = new Map<number, number>();
-  const modelIndex = new Map<string, Map<number, number>>();
-  const addParam = (p: VariedParameter): number => {
-    let table = plainIndex;
-    let k = 0;
-    if (p.kind === 'model') {
-      let byElement = modelIndex.get(p.param);
-      if (!byElement) modelIndex.set(p.param, (byElement = new Map()));
-      table = byElement;
-      k = p.element;
-    } else if (p.kind !== 'temperature') k = (p.element + 1) * 2 + (p.kind === 'resistance' ? 0 : 1);
-    let j = table.get(k);
-    if (j === undefined) {
-      j = params.length;
-      params.push(p);
-      table.set(k, j);
-    }
-    return j;
-  };
-  const sourceParam = sources.map((s) => addParam(s.parameter));
-  const temperature = addParam({ kind: 'temperature' });
+  const params = new ParameterList(circuit.elements.length);
+  const sourceParam = sources.map((s) => params.add(s.parameter));
+  const temperature = params.add({ kind: 'temperature' });
   const supplies: { name: string; j: number }[] = [];
   const resistors: { name: string; j: number; ohms: number }[] = [];
   circuit.elements.forEach((el, i) => {
-    if (el.kind === 'V' && Number.isFinite(el.dc) && el.dc !== 0) supplies.push({ name: el.name, j: addParam({ kind: 'source', element: i }) });
-    if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: addParam({ kind: 'resistance', element: i }), ohms: el.resistance });
+    if (el.kind === 'V' && Number.isFinite(el.dc) && el.dc !== 0) supplies.push({ name: el.name, j: params.add({ kind: 'source', element: i }) });
+    if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: params.add({ kind: 'resistance', element: i }), ohms: el.resistance });
   });
 
-  const sens = sensitivities(lin, specs.map((s) => s.functional), params);
-  const sourceOfParam = new Int32Array(params.length).fill(-1);
-  sourceParam.forEach((j, k) => (sourceOfParam[j] = k));
-  // How each parameter's derivative is shown normalised: value · factor / |y|, in `unit`.
-  const shown: ({ name: string; unit: string; factor: number } | undefined)[] = new Array(params.length).fill(undefined);
-  for (const r of resistors) shown[r.j] = { name: r.name, unit: '%/%', factor: r.ohms };
-  for (const s of supplies) shown[s.j] = { name: s.name, unit: '%/V', factor: 100 };
-  sources.forEach((s, k) => {
-    if (s.parameter.kind !== 'model') return;
-    const j = sourceParam[k];
-    // A VBE shift ΔV is the IS ratio e^(−ΔV/(NF·VT)): dIS/dΔV = −σ_IS/σ_V (docs/VARIATION.md); per millivolt of the device's own shift.
-    if (s.aspect === 'VBE') shown[j] = { name: s.label, unit: '%/mV', factor: (-s.sigma / s.figure) * 1e-3 * 100 };
-    else if (s.aspect === 'VTH') shown[j] = { name: s.label, unit: '%/mV', factor: 1e-3 * 100 };
-    else shown[j] = { name: s.label, unit: '%/%', factor: s.nominal };
-  });
-  const bySource: SourceRow[] = [];
-  const outputs: OutputVariation[] = specs.map((spec, o) => {
+  const sens = sensitivities(lin, specs.map((s) => s.functional), params.list);
+  const shown = shownForms(params.list.length, sources, sourceParam, resistors, supplies);
+  const bySource = sourceRowsOf(sens, sourceParam, params.list.length, sources.length);
+  const supplyOfParam = new Int32Array(params.list.length).fill(-1);
+  supplies.forEach((s, k) => (supplyOfParam[s.j] = k));
+  const supplySlope = new Float64Array(supplies.length);
+  const groups = groupIndexOf(sources);
+  const ranked = new RankedLists(sens, shown, sources, groups, bySource);
+  const outputs: OutputVariation[] = new Array(specs.length);
+  for (let o = 0; o < specs.length; o++) {
+    const spec = specs[o];
     const y = sens.value[o];
-    const row = sens.derivative[o];
     const scale = Math.abs(y) > 0 ? Math.abs(y) : 1;
-    const per: SourceRow = { index: [], value: [] };
-    // The ten largest normalised sensitivities by `rankOf`, kept in order as they come (ties keep the parameter order).
-    const topValue: number[] = [];
-    const topRank: number[] = [];
-    const topParam: number[] = [];
-    for (let q = 0; q < row.index.length; q++) {
-      const j = row.index[q];
-      const k = sourceOfParam[j];
-      if (k >= 0) {
-        per.index.push(k);
-        per.value.push(row.value[q]);
-      }
-      const how = shown[j];
-      if (!how) continue;
-      const value = (row.value[q] * how.factor) / scale;
-      const rank = rankOf(value);
-      if (topValue.length === SHOWN_SENSITIVITIES && !(rank > topRank[SHOWN_SENSITIVITIES - 1])) continue;
-      let at = topValue.length;
-      while (at > 0 && rank > topRank[at - 1]) at--;
-      topValue.splice(at, 0, value);
-      topRank.splice(at, 0, rank);
-      topParam.splice(at, 0, j);
-      if (topValue.length > SHOWN_SENSITIVITIES) {
-        topValue.pop();
-        topRank.pop();
-        topParam.pop();
-      }
+    let tempco = 0;
+    supplySlope.fill(0);
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const j = sens.index[q];
+      if (j === temperature) tempco = sens.derivative[q];
+      if (supplyOfParam[j] >= 0) supplySlope[supplyOfParam[j]] = sens.derivative[q];
     }
-    const sensList: Sensitivity[] = topValue.map((value, k) => {
-      const how = shown[topParam[k]]!;
-      return { parameter: how.name, unit: how.unit, value };
-    });
-    bySource.push(per);
-    const spread = spreadOf(sources, per);
+    const { sigma, worstCase } = spreadOfRange(sources, groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined, false);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
-    for (const s of supplies) supplyPercentPerVolt[s.name] = (derivativeOf(sens, o, s.j) / scale) * 100;
+    supplies.forEach((s, k) => (supplyPercentPerVolt[s.name] = (supplySlope[k] / scale) * 100));
     const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
     const out: OutputVariation = {
       output: spec.label,
@@ -194,112 +141,348 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
       ...(spec.structure ? { structure: spec.structure } : {}),
       ...(spec.element ? { element: spec.element } : {}),
       nominal: y,
-      sigma: spread.sigma,
-      sigmaRelative: spread.sigma / scale,
-      worstCase: spread.worstCase,
-      worstCaseRelative: spread.worstCase / scale,
-      tempcoPpmPerC: (derivativeOf(sens, o, temperature) / scale) * 1e6,
+      sigma,
+      sigmaRelative: sigma / scale,
+      worstCase,
+      worstCaseRelative: worstCase / scale,
+      tempcoPpmPerC: (tempco / scale) * 1e6,
       supplyPercentPerVolt,
-      contributors: spread.contributors.slice(0, 8),
-      sensitivities: sensList,
+      contributors: ranked.contributors(o),
+      sensitivities: ranked.sensitivities(o, scale),
     };
     if (target) {
       const lo = target.current * (1 - target.tolerance);
       const hi = target.current * (1 + target.tolerance);
-      out.target = { ...target, yield: fractionWithin(Math.abs(y), spread.sigma, lo, hi) };
+      out.target = { ...target, yield: fractionWithin(Math.abs(y), sigma, lo, hi) };
     }
-    return out;
-  });
+    outputs[o] = out;
+  }
   const summaries: SourceSummary[] = sources.map((s) => ({
     name: s.label,
     kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : 'mismatch',
     figure: s.figure,
     from: s.from,
   }));
-  const result: VariationResult = { outputs, sources: summaries, stats: { adjointSolves: sens.adjointSolves, parameters: params.length, ms: performance.now() - t0 } };
+  const result: VariationResult = { outputs, sources: summaries, stats: { adjointSolves: sens.adjointSolves, parameters: params.list.length, ms: performance.now() - t0 } };
   return { result, specs, sources, bySource };
 }
 
-/** The group of each source as a number (sources of one group are summed when ranked), built once per list of sources. */
+/** A target's window: its current and relative tolerance. */
+interface TargetWindow {
+  current: number;
+  tolerance: number;
+}
+
+/** The window of every element with a target, by element name; each such element not yet among `specs` joins them as an output. */
+function addTargetOutputs(circuit: Circuit, structures: Structure[], targets: readonly Target[], defaultTolerance: number, specs: OutputSpec[]): Map<string, TargetWindow> {
+  const targetOf = new Map<string, TargetWindow>();
+  const have = new Set(specs.map((s) => s.key));
+  // A target on a structure's output device reads that output: its figures are not computed and listed twice.
+  for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
+  const index = new TargetIndex(circuit, structures);
+  const elementIndex = new Map<string, number>();
+  circuit.elements.forEach((e, i) => elementIndex.set(e.name, i));
+  for (const t of targets) {
+    for (const el of targetElements(circuit, t, index)) {
+      const key = `element ${el.name}`;
+      targetOf.set(el.name, { current: t.current, tolerance: t.tolerance ?? defaultTolerance });
+      if (have.has(key)) continue;
+      const f = elementCurrent(circuit, elementIndex.get(el.name)!);
+      if (!f) continue;
+      have.add(key);
+      specs.push({ key, label: el.name, unit: 'A', role: 'element', element: el.name, functional: f });
+    }
+  }
+  return targetOf;
+}
+
+/** The varied parameters, each once: a resistor's or source's by its element, a model parameter by its name and element. */
+class ParameterList {
+  readonly list: VariedParameter[] = [];
+  private readonly resistance: Int32Array;
+  private readonly source: Int32Array;
+  private readonly model = new Map<string, Int32Array>();
+  private temperature = -1;
+
+  constructor(private readonly elementCount: number) {
+    this.resistance = new Int32Array(elementCount).fill(-1);
+    this.source = new Int32Array(elementCount).fill(-1);
+  }
+
+  /** The index of `p` in the list, added when new. */
+  add(p: VariedParameter): number {
+    if (p.kind === 'temperature') return this.temperature >= 0 ? this.temperature : (this.temperature = this.push(p));
+    let table = p.kind === 'resistance' ? this.resistance : this.source;
+    if (p.kind === 'model') {
+      const byElement = this.model.get(p.param);
+      if (byElement) table = byElement;
+      else this.model.set(p.param, (table = new Int32Array(this.elementCount).fill(-1)));
+    }
+    return table[p.element] >= 0 ? table[p.element] : (table[p.element] = this.push(p));
+  }
+
+  private push(p: VariedParameter): number {
+    this.list.push(p);
+    return this.list.length - 1;
+  }
+}
+
+/** How each parameter's derivative is shown normalised: value · factor / |y|, in `unit`, under `name` (`isShown` 0: not shown). */
+interface ShownForms {
+  isShown: Uint8Array;
+  factor: Float64Array;
+  name: string[];
+  unit: string[];
+}
+
+function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: readonly number[], resistors: readonly { name: string; j: number; ohms: number }[], supplies: readonly { name: string; j: number }[]): ShownForms {
+  const forms: ShownForms = { isShown: new Uint8Array(count), factor: new Float64Array(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
+  const show = (j: number, name: string, unit: string, factor: number): void => {
+    forms.isShown[j] = 1;
+    forms.name[j] = name;
+    forms.unit[j] = unit;
+    forms.factor[j] = factor;
+  };
+  for (const r of resistors) show(r.j, r.name, '%/%', r.ohms);
+  for (const s of supplies) show(s.j, s.name, '%/V', 100);
+  sources.forEach((s, k) => {
+    if (s.parameter.kind !== 'model') return;
+    const j = sourceParam[k];
+    // A VBE shift ΔV is the IS ratio e^(−ΔV/(NF·VT)): dIS/dΔV = −σ_IS/σ_V (docs/VARIATION.md); per millivolt of the device's own shift.
+    if (s.aspect === 'VBE') show(j, s.label, '%/mV', (-s.sigma / s.figure) * 1e-3 * 100);
+    else if (s.aspect === 'VTH') show(j, s.label, '%/mV', 1e-3 * 100);
+    else show(j, s.label, '%/%', s.nominal);
+  });
+  return forms;
+}
+
+/** Every output's derivatives with respect to the tolerance sources, picked out of its parameter row (parameter order kept). */
+function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], paramCount: number, sourceCount: number): SourceRows {
+  const sourceOfParam = new Int32Array(paramCount).fill(-1);
+  for (let k = 0; k < sourceCount; k++) sourceOfParam[sourceParam[k]] = k;
+  const outputs = sens.rowStart.length - 1;
+  const rows: SourceRows = { start: new Int32Array(outputs + 1), index: new Int32Array(sens.index.length), value: new Float64Array(sens.index.length) };
+  let at = 0;
+  for (let o = 0; o < outputs; o++) {
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const k = sourceOfParam[sens.index[q]];
+      if (k < 0) continue;
+      rows.index[at] = k;
+      rows.value[at++] = sens.derivative[q];
+    }
+    rows.start[o + 1] = at;
+  }
+  return rows;
+}
+
+/** The ranked lists of each output (contributors, the largest normalised sensitivities), from the analysis' rows. */
+class RankedLists {
+  private readonly top = new TopSensitivities(SHOWN_SENSITIVITIES);
+
+  constructor(
+    private readonly sens: SensitivityResult,
+    private readonly shown: ShownForms,
+    private readonly sources: readonly ToleranceSource[],
+    private readonly groups: GroupIndex,
+    private readonly bySource: SourceRows,
+  ) {}
+
+  contributors(o: number): Contribution[] {
+    const { bySource } = this;
+    const list = spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined, true).contributors;
+    return list.length > 8 ? list.slice(0, 8) : list;
+  }
+
+  sensitivities(o: number, scale: number): Sensitivity[] {
+    const { sens, shown, top } = this;
+    top.clear();
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const j = sens.index[q];
+      if (shown.isShown[j]) top.offer((sens.derivative[q] * shown.factor[j]) / scale, j);
+    }
+    return top.list(shown);
+  }
+}
+
+/**
+ * The largest normalised sensitivities of one output by `rankOf`, kept in the order they are
+ * offered when equal (ties keep the parameter order), in reused typed arrays.
+ */
+class TopSensitivities {
+  private readonly value: Float64Array;
+  private readonly rank: Float64Array;
+  private readonly param: Int32Array;
+  private count = 0;
+
+  constructor(private readonly size: number) {
+    this.value = new Float64Array(size);
+    this.rank = new Float64Array(size);
+    this.param = new Int32Array(size);
+  }
+
+  clear(): void {
+    this.count = 0;
+  }
+
+  offer(value: number, j: number): void {
+    const rank = rankOf(value);
+    if (this.count === this.size && !(rank > this.rank[this.size - 1])) return;
+    let at = this.count < this.size ? this.count++ : this.size - 1;
+    while (at > 0 && rank > this.rank[at - 1]) {
+      this.value[at] = this.value[at - 1];
+      this.rank[at] = this.rank[at - 1];
+      this.param[at] = this.param[at - 1];
+      at--;
+    }
+    this.value[at] = value;
+    this.rank[at] = rank;
+    this.param[at] = j;
+  }
+
+  list(shown: ShownForms): Sensitivity[] {
+    const out: Sensitivity[] = new Array(this.count);
+    for (let k = 0; k < this.count; k++) {
+      const j = this.param[k];
+      out[k] = { parameter: shown.name[j], unit: shown.unit[j], value: this.value[k] };
+    }
+    return out;
+  }
+}
+
+/**
+ * The group of each source as a number (sources of one group are summed when ranked), built once
+ * per list of sources, with the names of mismatch groups kept once made (a name lists the devices
+ * that matter, mostly all of the group's or one).
+ */
 interface GroupIndex {
   of: Int32Array;
   names: string[];
   aspects: (string | undefined)[];
+  /** Sources per group. */
+  size: Int32Array;
+  /** A mismatch group's name when all its devices matter (made on first use). */
+  allName: (string | undefined)[];
+  /** A mismatch source's name when it alone matters in its group (made on first use). */
+  aloneName: (string | undefined)[];
 }
 const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
 function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
   let g = groupIndexes.get(sources);
   if (g) return g;
   const byName = new Map<string, number>();
-  g = { of: new Int32Array(sources.length), names: [], aspects: [] };
+  const of = new Int32Array(sources.length);
+  const names: string[] = [];
+  const aspects: (string | undefined)[] = [];
   sources.forEach((s, k) => {
     let i = byName.get(s.group);
     if (i === undefined) {
-      byName.set(s.group, (i = g!.names.length));
-      g!.names.push(s.group);
-      g!.aspects.push(s.aspect);
+      byName.set(s.group, (i = names.length));
+      names.push(s.group);
+      aspects.push(s.aspect);
     }
-    g!.of[k] = i;
+    of[k] = i;
   });
+  const size = new Int32Array(names.length);
+  for (let k = 0; k < of.length; k++) size[of[k]]++;
+  g = { of, names, aspects, size, allName: new Array(names.length).fill(undefined), aloneName: new Array(sources.length).fill(undefined) };
   groupIndexes.set(sources, g);
   return g;
 }
-/** Per-group sums of one call, kept between calls (reset after use). */
+
+/** A mismatch group's ranked name: the devices that carry at least 1 % of its variance `v` in this row, then the parameter (`Q1/Q2 VBE`). */
+function mismatchName(sources: readonly ToleranceSource[], groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, to: number, sigmaOf: (k: number) => number): string {
+  const matters = (q: number): boolean => {
+    if (groups.of[index[q]] !== g) return false;
+    const a = Math.abs(value[q] * sigmaOf(index[q]));
+    return a * a >= 0.01 * v;
+  };
+  let count = 0;
+  let last = -1;
+  for (let q = from; q < to; q++) {
+    if (!matters(q)) continue;
+    count++;
+    last = index[q];
+  }
+  if (count === 1 && groups.aloneName[last] !== undefined) return groups.aloneName[last]!;
+  if (count === groups.size[g] && groups.allName[g] !== undefined) return groups.allName[g]!;
+  let members = '';
+  for (let q = from; q < to; q++) if (matters(q)) members = members ? `${members}/${sources[index[q]].element}` : sources[index[q]].element;
+  const name = `${members} ${groups.aspects[g]}`;
+  if (count === 1) groups.aloneName[last] = name;
+  else if (count === groups.size[g]) groups.allName[g] = name;
+  return name;
+}
+
+/** Per-group sums of one call and the list of groups it touched, kept between calls (reset after use). */
 let groupVariance = new Float64Array(64);
 let groupWorst = new Float64Array(64);
+let groupTouched = new Int32Array(64);
 
 /** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
-  const groups = groupIndexOf(sources);
+  return spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride, true);
+}
+
+/** `spreadOf` over entries `from … to − 1` of a row's arrays; without `ranked`, σ and worst case only (no contributors). */
+function spreadOfRange(
+  sources: readonly ToleranceSource[],
+  groups: GroupIndex,
+  index: ArrayLike<number>,
+  value: ArrayLike<number>,
+  from: number,
+  to: number,
+  sigmaOverride: ((k: number) => number) | undefined,
+  ranked: boolean,
+): { sigma: number; worstCase: number; contributors: Contribution[] } {
   if (groupVariance.length < groups.names.length) {
     groupVariance = new Float64Array(groups.names.length * 2);
     groupWorst = new Float64Array(groups.names.length * 2);
+    groupTouched = new Int32Array(groups.names.length * 2);
   }
-  const touched: number[] = [];
+  const sigmaOf = (k: number): number => (sigmaOverride ? sigmaOverride(k) : sources[k].sigma);
+  let touched = 0;
   let variance = 0;
   let worstCase = 0;
-  for (let q = 0; q < per.index.length; q++) {
-    const k = per.index[q];
+  for (let q = from; q < to; q++) {
+    const k = index[q];
     const s = sources[k];
-    const sigma = sigmaOverride ? sigmaOverride(k) : s.sigma;
+    const sigma = sigmaOf(k);
     const bound = sigmaOverride ? (s.bound / s.sigma) * sigma : s.bound;
-    const a = Math.abs(per.value[q] * sigma);
-    const w = Math.abs(per.value[q] * bound);
+    const a = Math.abs(value[q] * sigma);
+    const w = Math.abs(value[q] * bound);
     variance += a * a;
     worstCase += w;
+    if (!ranked) continue;
     const g = groups.of[k];
-    if (groupVariance[g] === 0 && groupWorst[g] === 0 && !touched.includes(g)) touched.push(g);
+    if (groupVariance[g] === 0 && groupWorst[g] === 0 && !groupListed(touched, g)) groupTouched[touched++] = g;
     groupVariance[g] += a * a;
     groupWorst[g] += w;
   }
   const contributors: Contribution[] = [];
-  for (const g of touched) {
+  const ranks: number[] = [];
+  for (let t = 0; t < touched; t++) {
+    const g = groupTouched[t];
     const v = groupVariance[g];
     const worst = groupWorst[g];
     groupVariance[g] = 0;
     groupWorst[g] = 0;
     if (!(v > 0)) continue;
-    const aspect = groups.aspects[g];
-    let name = groups.names[g];
-    if (aspect) {
-      // A mismatch group is named by the devices that carry at least 1 % of its variance (`Q1/Q2 VBE`).
-      const members: string[] = [];
-      for (let q = 0; q < per.index.length; q++) {
-        const k = per.index[q];
-        if (groups.of[k] !== g) continue;
-        const a = Math.abs(per.value[q] * (sigmaOverride ? sigmaOverride(k) : sources[k].sigma));
-        if (a * a >= 0.01 * v) members.push(sources[k].element);
-      }
-      name = `${members.join('/')} ${aspect}`;
-    }
-    contributors.push({ name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst });
-  }
-  // Ranked by `rankOf` of the share, worked out once per contributor rather than per comparison.
-  if (contributors.length > 1) {
-    const rank = new Map(contributors.map((c) => [c, rankOf(c.share)]));
-    contributors.sort((a, b) => rank.get(b)! - rank.get(a)! || (a.name < b.name ? -1 : 1));
+    const name = groups.aspects[g] ? mismatchName(sources, groups, g, v, index, value, from, to, sigmaOf) : groups.names[g];
+    // Ranked by `rankOf` of the share (worked out once per contributor), then by name: inserted in place.
+    const c: Contribution = { name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst };
+    const rank = rankOf(c.share);
+    let at = contributors.length;
+    while (at > 0 && (rank > ranks[at - 1] || (rank === ranks[at - 1] && name < contributors[at - 1].name))) at--;
+    contributors.splice(at, 0, c);
+    ranks.splice(at, 0, rank);
   }
   return { sigma: Math.sqrt(variance), worstCase, contributors };
+}
+
+/** Whether group g is among the first `count` touched groups of the current call. */
+function groupListed(count: number, g: number): boolean {
+  for (let t = 0; t < count; t++) if (groupTouched[t] === g) return true;
+  return false;
 }
 
 /** Attaches each structure's output variations (`structure.variation`) from a result. */

@@ -6,7 +6,6 @@ import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, Load
 import { TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
-import type { LinearReader } from '../solve/mna';
 
 /**
  * A quantity the outputs may depend on. Derivatives are per unit of the parameter as the
@@ -31,30 +30,29 @@ export interface OutputFunctional {
   magnitude: boolean;
 }
 
-/** The non-zero derivatives of one output: parameter indices (ascending) and d(output)/d(parameter). */
-export interface SparseRow {
-  index: Int32Array;
-  value: Float64Array;
-}
-
 export interface SensitivityResult {
   /** Each output's value at the solution. */
-  value: number[];
-  /** Per output, the parameters it depends on and its derivatives (every other derivative is exactly zero). */
-  derivative: SparseRow[];
+  value: Float64Array;
+  /**
+   * The non-zero derivatives, output by output (compressed rows): output o depends on parameters
+   * `index[rowStart[o] … rowStart[o + 1] − 1]` (ascending) with d(output)/d(parameter) in `derivative`
+   * at the same places; every other derivative is exactly zero.
+   */
+  rowStart: Int32Array;
+  index: Int32Array;
+  derivative: Float64Array;
   /** Transposed solves done (one per output). */
   adjointSolves: number;
 }
 
 /** d(output o)/d(parameter j) from a result (0 where the output does not depend on it). */
 export function derivativeOf(r: SensitivityResult, o: number, j: number): number {
-  const row = r.derivative[o];
-  let lo = 0;
-  let hi = row.index.length - 1;
+  let lo = r.rowStart[o];
+  let hi = r.rowStart[o + 1] - 1;
   while (lo <= hi) {
     const mid = (lo + hi) >> 1;
-    if (row.index[mid] === j) return row.value[mid];
-    if (row.index[mid] < j) lo = mid + 1;
+    if (r.index[mid] === j) return r.derivative[mid];
+    if (r.index[mid] < j) lo = mid + 1;
     else hi = mid - 1;
   }
   return 0;
@@ -210,10 +208,11 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
     tableOf[order.element[d]] = order.table[d];
     instanceOf[order.element[d]] = order.instance[d];
   }
-  const readerOf = new Map<number, LinearReader>();
-  for (const r of layout.readers) readerOf.set(r.element, r);
-  const sourceOf = new Map<number, number>();
-  layout.sources.forEach((s, k) => sourceOf.set(s.element, k));
+  // Element index -> its reader in the layout and its source hook (−1: none).
+  const readerOf = new Int32Array(els.length).fill(-1);
+  layout.readers.forEach((r, k) => (readerOf[r.element] = k));
+  const sourceOf = new Int32Array(els.length).fill(-1);
+  layout.sources.forEach((s, k) => (sourceOf[s.element] = k));
   const temperatureParam = params.findIndex((p) => p.kind === 'temperature');
 
   // The parameters of each element, by element index (for the explicit ∂g/∂p of an output's own elements).
@@ -275,8 +274,8 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
         put(j, b, -d);
       }
     } else if (p.kind === 'source') {
-      const k = sourceOf.get(p.element);
-      if (k !== undefined) {
+      const k = sourceOf[p.element];
+      if (k >= 0) {
         const hook = layout.sources[k];
         if (hook.kind === 'V') put(j, hook.rows[0], -1);
         else {
@@ -326,30 +325,15 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
   }
 
   // ---- one sparse transposed solve per output ----
-  const value: number[] = new Array(outputs.length);
-  const derivative: SparseRow[] = new Array(outputs.length);
-  const acc = new Float64Array(params.length);
-  const mark = new Uint8Array(params.length);
-  let touched = new Int32Array(64);
-  let touchedCount = 0;
+  const value = new Float64Array(outputs.length);
+  const rows = new DerivativeRows(params.length, outputs.length);
   const lambda = { index: [] as number[], value: [] as number[] };
   // ∂g/∂x, dense with the list of its non-zero unknowns.
   const cDense = new Float64Array(n);
   const cMark = new Uint8Array(n);
   const cIndex: number[] = [];
   const cValue: number[] = [];
-  const add = (j: number, val: number): void => {
-    if (!mark[j]) {
-      mark[j] = 1;
-      if (touchedCount === touched.length) {
-        const grown = new Int32Array(touched.length * 2);
-        grown.set(touched);
-        touched = grown;
-      }
-      touched[touchedCount++] = j;
-    }
-    acc[j] += val;
-  };
+  const add = (j: number, val: number): void => rows.add(j, val);
   const addC = (u: number, val: number): void => {
     if (u < 0) return;
     if (!cMark[u]) {
@@ -361,7 +345,6 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
   for (let o = 0; o < outputs.length; o++) {
     const out = outputs[o];
     cIndex.length = 0;
-    touchedCount = 0;
     let y = 0;
     for (const term of out.terms) {
       const w = term.weight;
@@ -372,8 +355,8 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
       }
       const e = term.element;
       if (term.kind === 'element') {
-        const r = readerOf.get(e);
-        if (!r) continue;
+        if (readerOf[e] < 0) continue;
+        const r = layout.readers[readerOf[e]];
         const drop = v(r.a) - v(r.b);
         switch (r.kind) {
           case 'conductance': {
@@ -441,20 +424,80 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
       const u = lambda.index[k];
       const l = lambda.value[k];
       if (l === 0) continue;
-      for (let q = rowStart[u]; q < rowStart[u + 1]; q++) add(rowParam[q], -l * rowValue[q]);
+      for (let q = rowStart[u]; q < rowStart[u + 1]; q++) rows.add(rowParam[q], -l * rowValue[q]);
     }
-    const index = touched.slice(0, touchedCount).sort();
-    const vals = new Float64Array(touchedCount);
-    for (let k = 0; k < touchedCount; k++) {
-      const j = index[k];
-      vals[k] = sign * acc[j];
-      acc[j] = 0;
-      mark[j] = 0;
-    }
+    rows.close(sign);
     value[o] = sign * y;
-    derivative[o] = { index, value: vals };
   }
-  return { value, derivative, adjointSolves: outputs.length };
+  return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length };
+}
+
+/**
+ * The derivatives of the outputs, one output at a time: a dense accumulator over the parameters
+ * with the list of those touched, closed into compressed rows (parameters ascending) in growable
+ * typed arrays, so no object is made per output.
+ */
+class DerivativeRows {
+  readonly start: Int32Array;
+  index = new Int32Array(1024);
+  value = new Float64Array(1024);
+  length = 0;
+  private rowsClosed = 0;
+  private readonly acc: Float64Array;
+  private readonly mark: Uint8Array;
+  private touched = new Int32Array(64);
+  private touchedCount = 0;
+
+  constructor(params: number, outputs: number) {
+    this.acc = new Float64Array(params);
+    this.mark = new Uint8Array(params);
+    this.start = new Int32Array(outputs + 1);
+  }
+
+  add(j: number, val: number): void {
+    if (this.mark[j] === 0) {
+      this.mark[j] = 1;
+      if (this.touchedCount === this.touched.length) this.touched = grown(this.touched, this.touched.length * 2);
+      this.touched[this.touchedCount++] = j;
+    }
+    this.acc[j] += val;
+  }
+
+  /** Ends the current output's row, every derivative multiplied by `sign`. */
+  close(sign: number): void {
+    const count = this.touchedCount;
+    const need = this.length + count;
+    if (need > this.index.length) {
+      const size = Math.max(need, this.index.length * 2);
+      this.index = grown(this.index, size);
+      this.value = grownFloat(this.value, size);
+    }
+    // A typed array sorts numerically, in place.
+    const order = this.touched.subarray(0, count).sort();
+    for (let k = 0; k < count; k++) {
+      const j = order[k];
+      this.index[this.length] = j;
+      this.value[this.length++] = sign * this.acc[j];
+      this.acc[j] = 0;
+      this.mark[j] = 0;
+    }
+    this.touchedCount = 0;
+    this.start[++this.rowsClosed] = this.length;
+  }
+}
+
+/** A copy of an Int32Array at a larger size. */
+function grown(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
+  const b = new Int32Array(size);
+  b.set(a);
+  return b;
+}
+
+/** A copy of a Float64Array at a larger size. */
+function grownFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
+  const b = new Float64Array(size);
+  b.set(a);
+  return b;
 }
 
 /** A growable list of (row, parameter, value) triples in typed arrays. */
@@ -466,15 +509,9 @@ class Triples {
   push(row: number, param: number, value: number): void {
     if (this.length === this.row.length) {
       const size = this.row.length * 2;
-      const r = new Int32Array(size);
-      r.set(this.row);
-      this.row = r;
-      const p = new Int32Array(size);
-      p.set(this.param);
-      this.param = p;
-      const v = new Float64Array(size);
-      v.set(this.value);
-      this.value = v;
+      this.row = grown(this.row, size);
+      this.param = grown(this.param, size);
+      this.value = grownFloat(this.value, size);
     }
     this.row[this.length] = row;
     this.param[this.length] = param;

@@ -111,7 +111,9 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
   for (const s of structures) {
     const members = s.devices.filter((d) => index.has(d) && !seen.has(d));
     if (members.length < 2) continue;
-    const groupName = (what: string) => `${s.id} ${what}`;
+    // One string per group (its devices' sources share it, and ranking looks groups up by it).
+    const made: { [what: string]: string } = {};
+    const groupName = (what: string): string => (made[what] ??= `${s.id} ${what}`);
     for (const name of members) {
       seen.add(name);
       const i = index.get(name)!;
