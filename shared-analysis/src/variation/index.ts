@@ -117,7 +117,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   supplies.forEach((s, k) => (supplyOfParam[s.j] = k));
   const supplySlope = new Float64Array(supplies.length);
   const groups = groupIndexOf(sources);
-  const ranked = new RankedLists(sens, shown, sources, groups, bySource);
+  const top = new TopSensitivities(SHOWN_SENSITIVITIES);
   const outputs: OutputVariation[] = new Array(specs.length);
   for (let o = 0; o < specs.length; o++) {
     const spec = specs[o];
@@ -130,26 +130,23 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
       if (j === temperature) tempco = sens.derivative[q];
       if (supplyOfParam[j] >= 0) supplySlope[supplyOfParam[j]] = sens.derivative[q];
     }
-    const { sigma, worstCase } = spreadOfRange(sources, groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined, false);
+    const { sigma, worstCase, contributors } = spreadOfRange(sources, groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
     supplies.forEach((s, k) => (supplyPercentPerVolt[s.name] = (supplySlope[k] / scale) * 100));
     const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
-    const out: OutputVariation = {
-      output: spec.label,
-      key: spec.key,
-      unit: spec.unit,
-      ...(spec.structure ? { structure: spec.structure } : {}),
-      ...(spec.element ? { element: spec.element } : {}),
-      nominal: y,
-      sigma,
-      sigmaRelative: sigma / scale,
-      worstCase,
-      worstCaseRelative: worstCase / scale,
-      tempcoPpmPerC: (tempco / scale) * 1e6,
-      supplyPercentPerVolt,
-      contributors: ranked.contributors(o),
-      sensitivities: ranked.sensitivities(o, scale),
-    };
+    // Field by field, in the order the JSON shows them (the optional structure and element in their places).
+    const out = { output: spec.label, key: spec.key, unit: spec.unit } as OutputVariation;
+    if (spec.structure) out.structure = spec.structure;
+    if (spec.element) out.element = spec.element;
+    out.nominal = y;
+    out.sigma = sigma;
+    out.sigmaRelative = sigma / scale;
+    out.worstCase = worstCase;
+    out.worstCaseRelative = worstCase / scale;
+    out.tempcoPpmPerC = (tempco / scale) * 1e6;
+    out.supplyPercentPerVolt = supplyPercentPerVolt;
+    out.contributors = contributors.length > 8 ? contributors.slice(0, 8) : contributors;
+    out.sensitivities = top.of(sens, shown, o, scale);
     if (target) {
       const lo = target.current * (1 - target.tolerance);
       const hi = target.current * (1 + target.tolerance);
@@ -275,35 +272,6 @@ function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], p
   return rows;
 }
 
-/** The ranked lists of each output (contributors, the largest normalised sensitivities), from the analysis' rows. */
-class RankedLists {
-  private readonly top = new TopSensitivities(SHOWN_SENSITIVITIES);
-
-  constructor(
-    private readonly sens: SensitivityResult,
-    private readonly shown: ShownForms,
-    private readonly sources: readonly ToleranceSource[],
-    private readonly groups: GroupIndex,
-    private readonly bySource: SourceRows,
-  ) {}
-
-  contributors(o: number): Contribution[] {
-    const { bySource } = this;
-    const list = spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined, true).contributors;
-    return list.length > 8 ? list.slice(0, 8) : list;
-  }
-
-  sensitivities(o: number, scale: number): Sensitivity[] {
-    const { sens, shown, top } = this;
-    top.clear();
-    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
-      const j = sens.index[q];
-      if (shown.isShown[j]) top.offer((sens.derivative[q] * shown.factor[j]) / scale, j);
-    }
-    return top.list(shown);
-  }
-}
-
 /**
  * The largest normalised sensitivities of one output by `rankOf`, kept in the order they are
  * offered when equal (ties keep the parameter order), in reused typed arrays.
@@ -320,11 +288,17 @@ class TopSensitivities {
     this.param = new Int32Array(size);
   }
 
-  clear(): void {
+  /** Output o's list, from its row of `sens` normalised by `shown` and its magnitude `scale`. */
+  of(sens: SensitivityResult, shown: ShownForms, o: number, scale: number): Sensitivity[] {
     this.count = 0;
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const j = sens.index[q];
+      if (shown.isShown[j]) this.offer((sens.derivative[q] * shown.factor[j]) / scale, j);
+    }
+    return this.list(shown);
   }
 
-  offer(value: number, j: number): void {
+  private offer(value: number, j: number): void {
     const rank = rankOf(value);
     if (this.count === this.size && !(rank > this.rank[this.size - 1])) return;
     let at = this.count < this.size ? this.count++ : this.size - 1;
@@ -339,7 +313,7 @@ class TopSensitivities {
     this.param[at] = j;
   }
 
-  list(shown: ShownForms): Sensitivity[] {
+  private list(shown: ShownForms): Sensitivity[] {
     const out: Sensitivity[] = new Array(this.count);
     for (let k = 0; k < this.count; k++) {
       const j = this.param[k];
@@ -420,10 +394,10 @@ let groupTouched = new Int32Array(64);
 
 /** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
-  return spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride, true);
+  return spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
 }
 
-/** `spreadOf` over entries `from … to − 1` of a row's arrays; without `ranked`, σ and worst case only (no contributors). */
+/** `spreadOf` over entries `from … to − 1` of a row's arrays. */
 function spreadOfRange(
   sources: readonly ToleranceSource[],
   groups: GroupIndex,
@@ -432,7 +406,6 @@ function spreadOfRange(
   from: number,
   to: number,
   sigmaOverride: ((k: number) => number) | undefined,
-  ranked: boolean,
 ): { sigma: number; worstCase: number; contributors: Contribution[] } {
   if (groupVariance.length < groups.names.length) {
     groupVariance = new Float64Array(groups.names.length * 2);
@@ -452,7 +425,6 @@ function spreadOfRange(
     const w = Math.abs(value[q] * bound);
     variance += a * a;
     worstCase += w;
-    if (!ranked) continue;
     const g = groups.of[k];
     if (groupVariance[g] === 0 && groupWorst[g] === 0 && !groupListed(touched, g)) groupTouched[touched++] = g;
     groupVariance[g] += a * a;
@@ -472,9 +444,14 @@ function spreadOfRange(
     const c: Contribution = { name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst };
     const rank = rankOf(c.share);
     let at = contributors.length;
-    while (at > 0 && (rank > ranks[at - 1] || (rank === ranks[at - 1] && name < contributors[at - 1].name))) at--;
-    contributors.splice(at, 0, c);
-    ranks.splice(at, 0, rank);
+    contributors.push(c);
+    ranks.push(rank);
+    for (; at > 0 && (rank > ranks[at - 1] || (rank === ranks[at - 1] && name < contributors[at - 1].name)); at--) {
+      contributors[at] = contributors[at - 1];
+      ranks[at] = ranks[at - 1];
+    }
+    contributors[at] = c;
+    ranks[at] = rank;
   }
   return { sigma: Math.sqrt(variance), worstCase, contributors };
 }

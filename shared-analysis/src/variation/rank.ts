@@ -10,7 +10,11 @@
 export function rankOf(v: number): number {
   const a = Math.abs(v);
   if (!(a > 0) || a === Infinity) return a;
-  const scale = 10 ** (5 - Math.floor(Math.log10(a)));
+  const scale = POWERS_OF_TEN[5 - Math.floor(Math.log10(a)) + POWER_OFFSET];
   const rounded = Math.round(a * scale) / scale;
   return Number.isFinite(rounded) && rounded > 0 ? rounded : Number(a.toPrecision(6));
 }
+
+/** 10^k for k = −POWER_OFFSET … POWER_OFFSET, each the double nearest to it (read from its decimal text; `10 ** k` costs a general power per figure). */
+const POWER_OFFSET = 330;
+const POWERS_OF_TEN = Float64Array.from({ length: 2 * POWER_OFFSET + 1 }, (_, i) => Number(`1e${i - POWER_OFFSET}`));
