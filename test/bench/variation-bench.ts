@@ -17,9 +17,10 @@ import { recogniseStructures } from '../../shared-analysis/src/structures/recogn
 import { analyseVariation } from '../../shared-analysis/src/variation/index';
 import { analyseSession, monteCarloOf } from '../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import { minOf } from '../../shared-analysis/src/arrays';
 
 const ORIGIN: Origin = { uri: 'bench://generated', span: { start: 0, end: 0 }, instances: [] };
-const REPS = 7;
+const REPS = 15;
 const now = (): number => performance.now();
 /** CPU time of this process (user + system), ms: on a shared machine it counts less of the other work than the wall clock does. */
 const cpu = (): number => {
@@ -30,6 +31,7 @@ const median = (xs: number[]): number => {
   const s = [...xs].sort((a, b) => a - b);
   return s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
 };
+const best = (xs: number[]): number => minOf(xs);
 const ms = (v: number): string => `${v.toFixed(1)} ms`;
 
 /** `cells` mirrors on a 5 V rail (our own scenario): a reference resistor into a diode-connected device and a resistor load on the output device. */
@@ -64,6 +66,7 @@ function sensitivityRun(kind: 'npn' | 'nmos'): void {
   const spreads: number[] = [];
   const solvesCpu: number[] = [];
   const spreadsCpu: number[] = [];
+  const derivatives: number[] = [];
   let outputs = 0;
   let parameters = 0;
   for (let r = 0; r < REPS + 1; r++) {
@@ -91,15 +94,20 @@ function sensitivityRun(kind: 'npn' | 'nmos'): void {
     spreads.push(spreadMs);
     solvesCpu.push(solveCpu);
     spreadsCpu.push(spreadCpu);
+    derivatives.push(d.sensitivityMs);
     outputs = d.result.stats.adjointSolves;
     parameters = d.result.stats.parameters;
   }
-  const ratio = median(spreads) / median(solves);
-  const ratioCpu = median(spreadsCpu) / median(solvesCpu);
-  console.log(
-    `${kind === 'npn' ? 'BJT' : 'MOS'} mirror array, 2,000 devices, ${solver.unknownCount} unknowns: nominal solve (cold) ${ms(median(solves))}; ` +
-      `every sensitivity of ${outputs} outputs to ${parameters} parameters, with σ, worst case and contributors, ${ms(median(spreads))}; ratio ${ratio.toFixed(2)}× (target < 3×: ${ratio < 3 ? 'met' : 'missed'}); in CPU time ${ms(median(solvesCpu))} and ${ms(median(spreadsCpu))}, ratio ${ratioCpu.toFixed(2)}×`,
-  );
+  const label = `${kind === 'npn' ? 'BJT' : 'MOS'} mirror array, 2,000 devices, ${solver.unknownCount} unknowns, ${outputs} outputs, ${parameters} parameters`;
+  // The median, and the best repetition: on a shared machine the best is the run least slowed by other work, so its ratio is the steadier one.
+  for (const [how, pick] of [['median', median], ['best', best]] as const) {
+    const ratio = pick(spreads) / pick(solves);
+    console.log(
+      `${label} (${how} of ${REPS}): nominal solve (cold) ${ms(pick(solves))}; spread analysis (every sensitivity, σ, worst case, ranked contributors) ${ms(pick(spreads))}, ratio ${ratio.toFixed(2)}× (target < 3×: ${ratio < 3 ? 'met' : 'missed'}); ` +
+        `in CPU time ${ms(pick(solvesCpu))} and ${ms(pick(spreadsCpu))}, ratio ${(pick(spreadsCpu) / pick(solvesCpu)).toFixed(2)}×; ` +
+        `the derivatives alone (Jacobian factored at the solution, ∂F/∂p, one transposed solve per output) ${ms(pick(derivatives))}, ratio ${(pick(derivatives) / pick(solves)).toFixed(2)}×`,
+    );
+  }
 }
 
 function monteCarloRun(): void {

@@ -85,6 +85,8 @@ export interface VariationDetail {
   sources: ToleranceSource[];
   /** Per output: the tolerance sources it depends on (indices into `sources`) and d(output)/d(source). */
   bySource: SourceRows;
+  /** Time of the derivatives alone, ms: the Jacobian factored at the solution, ∂F/∂p and every transposed solve (the benchmark's figure). */
+  sensitivityMs: number;
 }
 
 /** The spread of every structure output and target element at the nominal solution; undefined when it did not converge. */
@@ -95,7 +97,9 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const specs = structureOutputs(circuit, structures);
   const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
+  const tLinearise = performance.now();
   const lin = solver.linearise(nominal);
+  const lineariseMs = performance.now() - tLinearise;
   if (!lin) return undefined;
 
   const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
@@ -110,7 +114,10 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: params.add({ kind: 'resistance', element: i }), ohms: el.resistance });
   });
 
+  const tSensitivities = performance.now();
   const sens = sensitivities(lin, specs.map((s) => s.functional), params.list);
+  // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
+  const sensitivityMs = lineariseMs + performance.now() - tSensitivities;
   const shown = shownForms(params.list.length, sources, sourceParam, resistors, supplies);
   const bySource = sourceRowsOf(sens, sourceParam, params.list.length, sources.length);
   const supplyOfParam = new Int32Array(params.list.length).fill(-1);
@@ -145,7 +152,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     out.worstCaseRelative = worstCase / scale;
     out.tempcoPpmPerC = (tempco / scale) * 1e6;
     out.supplyPercentPerVolt = supplyPercentPerVolt;
-    out.contributors = contributors.length > 8 ? contributors.slice(0, 8) : contributors;
+    out.contributors = contributors;
     out.sensitivities = top.of(sens, shown, o, scale);
     if (target) {
       const lo = target.current * (1 - target.tolerance);
@@ -161,7 +168,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     from: s.from,
   }));
   const result: VariationResult = { outputs, sources: summaries, stats: { adjointSolves: sens.adjointSolves, parameters: params.list.length, ms: performance.now() - t0 } };
-  return { result, specs, sources, bySource };
+  return { result, specs, sources, bySource, sensitivityMs };
 }
 
 /** A target's window: its current and relative tolerance. */
@@ -392,7 +399,7 @@ let groupVariance = new Float64Array(64);
 let groupWorst = new Float64Array(64);
 let groupTouched = new Int32Array(64);
 
-/** Worst case, σ and the contributors ranked by variance, summed within each group, for one output's derivatives with respect to its sources. */
+/** Worst case, σ and the contributors ranked by variance (the 8 largest), summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
   return spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
 }
@@ -430,8 +437,10 @@ function spreadOfRange(
     groupVariance[g] += a * a;
     groupWorst[g] += w;
   }
-  const contributors: Contribution[] = [];
-  const ranks: number[] = [];
+  const contributors = rankedScratch;
+  const ranks = rankScratch;
+  contributors.length = 0;
+  ranks.length = 0;
   for (let t = 0; t < touched; t++) {
     const g = groupTouched[t];
     const v = groupVariance[g];
@@ -453,8 +462,14 @@ function spreadOfRange(
     contributors[at] = c;
     ranks[at] = rank;
   }
-  return { sigma: Math.sqrt(variance), worstCase, contributors };
+  return { sigma: Math.sqrt(variance), worstCase, contributors: contributors.slice(0, MAX_CONTRIBUTORS) };
 }
+
+/** Contributors kept per output (the largest). */
+const MAX_CONTRIBUTORS = 8;
+/** The ranking of one call, copied out at its exact length (a list grown by pushing keeps spare room in every output). */
+const rankedScratch: Contribution[] = [];
+const rankScratch: number[] = [];
 
 /** Whether group g is among the first `count` touched groups of the current call. */
 function groupListed(count: number, g: number): boolean {

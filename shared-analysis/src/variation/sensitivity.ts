@@ -472,10 +472,9 @@ class DerivativeRows {
       this.index = grown(this.index, size);
       this.value = grownFloat(this.value, size);
     }
-    // A typed array sorts numerically, in place.
-    const order = this.touched.subarray(0, count).sort();
+    sortAscending(this.touched, count);
     for (let k = 0; k < count; k++) {
-      const j = order[k];
+      const j = this.touched[k];
       this.index[this.length] = j;
       this.value[this.length++] = sign * this.acc[j];
       this.acc[j] = 0;
@@ -483,6 +482,20 @@ class DerivativeRows {
     }
     this.touchedCount = 0;
     this.start[++this.rowsClosed] = this.length;
+  }
+}
+
+/** Sorts the first `count` entries of `a` ascending, in place: by insertion for the few parameters of most outputs, else by the typed array's own numeric sort. */
+function sortAscending(a: Int32Array, count: number): void {
+  if (count > 32) {
+    a.subarray(0, count).sort();
+    return;
+  }
+  for (let i = 1; i < count; i++) {
+    const v = a[i];
+    let k = i;
+    for (; k > 0 && a[k - 1] > v; k--) a[k] = a[k - 1];
+    a[k] = v;
   }
 }
 
