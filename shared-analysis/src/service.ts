@@ -265,9 +265,26 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
   clampFindingSpans(findings, analysis.documents);
-  const notFinite = keepFinite(findings, { structures: analysis.structures, variation: analysis.variation }, analysis.uri);
+  const notFinite = keepFinite(findings, { ...cornerPhaseParts(analysis.structures), variation: analysis.variation }, analysis.uri);
   if (notFinite) findings.push(notFinite);
   return sortFindings(applySeverities(findings, analysis.options), analysis.uri);
+}
+
+/**
+ * What the corner phase writes into the structures, named as their paths under `structures`: the
+ * voltages' corner ranges, the start-up records' corners and the spread. The first pass's walk
+ * covered the rest of every structure, and the walk leaves the corner columns (typed arrays) and the
+ * lazily built `corners` records alone anyway; walking every structure again cost about a tenth of
+ * the engine's corner phase at 100,000 elements.
+ */
+function cornerPhaseParts(structures: Structure[]): Record<string, unknown> {
+  const parts = nameTable<unknown>();
+  structures.forEach((s, i) => {
+    if (s.voltages) parts[`structures[${i}].voltages`] = s.voltages;
+    if (s.startup) parts[`structures[${i}].startup`] = s.startup;
+    if (s.variation) parts[`structures[${i}].variation`] = s.variation;
+  });
+  return parts;
 }
 
 /**

@@ -108,13 +108,9 @@ const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
 const RECORD_LIMIT = 1e300;
 
-const quantityIndexes = new WeakMap<DeviceKind, Map<string, number>>();
-
-/** Position of `quantity` in a kind's columns, −1 when the kind has none of that name. */
-function quantityIndex(kind: DeviceKind, quantity: string): number {
-  let m = quantityIndexes.get(kind);
-  if (!m) quantityIndexes.set(kind, (m = new Map(kind.quantities.map((q, i) => [q, i]))));
-  return m.get(quantity) ?? -1;
+/** Quantity name -> position in a kind's columns. */
+function quantityPositions(kind: DeviceKind): Map<string, number> {
+  return new Map(kind.quantities.map((q, i) => [q, i]));
 }
 
 /** The temperature each returned solution vector was solved at, so a warm start from it can predict junction voltages. */
@@ -160,10 +156,20 @@ export class DcSolver {
   private tablesVaried = false;
   /** Element index -> position in `layout.deviceOrder` (built on first use). */
   private deviceIndex: Map<number, number> | undefined;
+  /** Per table, quantity name -> column: what a measurement's `value` reads at every corner, resolved without a look-up per kind. */
+  private readonly quantityColumns: Map<string, number>[];
+  /**
+   * Element index -> the type of its record, null for none; filled on first ask, since it depends on the
+   * layout only. A measurement asks it of every device at every corner, and building a record (or reading
+   * the element) for it cost more than the rest of the reading at 100,000 elements.
+   */
+  private readonly recordTypes: (DeviceRecord['type'] | null | undefined)[];
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
     this.nominalTables = [...this.layout.tables];
+    this.quantityColumns = this.layout.tables.map((t) => quantityPositions(t.kind));
+    this.recordTypes = new Array<undefined>(circuit.elements.length).fill(undefined);
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
@@ -767,8 +773,14 @@ export class DcSolver {
       if (k === -1) return undefined;
       const d = -k - 2;
       const t = deviceOrder.table[d];
-      const q = quantityIndex(tables[t].kind, quantity);
-      return q < 0 ? undefined : quietClamp(columns[t].values[q][deviceOrder.instance[d]]);
+      const q = this.quantityColumns[t].get(quantity);
+      return q === undefined ? undefined : quietClamp(columns[t].values[q][deviceOrder.instance[d]]);
+    };
+    const type = (e: number): DeviceRecord['type'] | undefined => {
+      if (!(e >= 0 && e < slot.length)) return undefined;
+      let known = this.recordTypes[e];
+      if (known === undefined) this.recordTypes[e] = known = record(e)?.type ?? null;
+      return known ?? undefined;
     };
     const region = (e: number): string | undefined => {
       const k = e >= 0 && e < slot.length ? slot[e] : -1;
@@ -790,7 +802,7 @@ export class DcSolver {
       for (let k = 0; k < readers.length; k++) yield [c.elements[readers[k].element].name, twoTerminal(k, quietClamp)];
       for (let d = 0; d < deviceOrder.element.length; d++) yield [c.elements[deviceOrder.element[d]].name, device(d, quietClamp)];
     }
-    const op = lazyPoint(head, { volts, record, value, region, nodeEntries, deviceEntries }, build);
+    const op = lazyPoint(head, { volts, record, type, value, region, nodeEntries, deviceEntries }, build);
     if (overflow) {
       for (let i = 1; i < c.nodes.length; i++) if (!inRange(x[i - 1])) overflowed.push(`node ${c.nodes[i]}`);
       void op.devices;

@@ -13,6 +13,8 @@ export interface PointVectors {
   readonly volts: Float64Array;
   /** The record of circuit element `e` (what `op.devices[name]` shows), or undefined when the element has none. */
   record(e: number): DeviceRecord | undefined;
+  /** The `type` of element `e`'s record without building the record; undefined when the element has none. */
+  type(e: number): DeviceRecord['type'] | undefined;
   /**
    * One number of element `e`'s record without building the record: a device kind's quantity
    * (`'ic'`, `'vov'`, ...) or a two-terminal element's `'current'`, `'voltage'` or `'power'`;

@@ -157,8 +157,6 @@ export interface PointIndexReader {
   region(e: number): string | undefined;
 }
 
-const RECORD_TYPE: Record<string, DeviceRecord['type']> = { Q: 'bjt', M: 'mosfet', D: 'diode', J: 'jfet' };
-
 /**
  * Reads by index when the point carries the solver's vectors (no record and no name-keyed table of
  * the whole point is built, which is what makes measuring every structure at every corner cheap),
@@ -170,13 +168,7 @@ export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
   if (vec) {
     return {
       volts: (node) => (node >= 0 ? vec.volts[node] : undefined),
-      type: (e) => {
-        const el = elements[e];
-        if (!el) return undefined;
-        const nonlinear = RECORD_TYPE[el.kind];
-        if (nonlinear) return vec.region(e) === undefined ? undefined : nonlinear;
-        return vec.value(e, 'current') === undefined ? undefined : vec.record(e)?.type;
-      },
+      type: (e) => vec.type(e),
       num: (e, q) => vec.value(e, q),
       region: (e) => vec.region(e),
     };
