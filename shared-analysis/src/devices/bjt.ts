@@ -119,10 +119,13 @@ function bjtCore(vbe: number, vbc: number, par: Float64Array, o: number, out: Fl
   const g = par[o + P_GMIN];
   const xbe = vbe / nfvt;
   const xbc = vbc / nrvt;
-  const ibe1 = is * (guardedExpValue(xbe) - 1);
-  const gbe1 = (is * guardedExpSlope(xbe)) / nfvt;
-  const ibc1 = is * (guardedExpValue(xbc) - 1);
-  const gbc1 = (is * guardedExpSlope(xbc)) / nrvt;
+  // One exponential per junction: below the limit the value and the slope are the same number.
+  const sbe = guardedExpSlope(xbe);
+  const sbc = guardedExpSlope(xbc);
+  const ibe1 = is * ((xbe <= EXP_ARG_LIMIT ? sbe : guardedExpValue(xbe)) - 1);
+  const gbe1 = (is * sbe) / nfvt;
+  const ibc1 = is * ((xbc <= EXP_ARG_LIMIT ? sbc : guardedExpValue(xbc)) - 1);
+  const gbc1 = (is * sbc) / nrvt;
   let ibe2 = 0;
   let gbe2 = 0;
   const ise = par[o + P_ISE];
@@ -543,11 +546,32 @@ export class BjtTable implements DeviceTable {
     this.vt = c.vt;
     this.tnomC = c.tnomC;
     const par = this.par;
+    // Instances of one model follow each other with the same nominal values: the temperature laws
+    // (a power, an exponential and two logarithms each) are worked out again only when one changes.
+    let lastXtb = this.n > 0 ? this.xtb[0] : 0;
+    let f = bjtTemperatureFactors(c.temperatureC, c.tnomC, lastXtb);
+    let lastIs = NaN;
+    let lastXti = NaN;
+    let lastEg = NaN;
+    let is = 0;
+    let lastNf = NaN;
+    let lastNr = NaN;
+    let vcritBe = 0;
+    let vcritBc = 0;
     for (let i = 0; i < this.n; i++) {
       const o = i * PARAMS;
       const isNom = this.isNom[i];
-      const is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
-      const f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]);
+      const isChanged = !(Object.is(isNom, lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg);
+      if (isChanged) {
+        is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+        lastIs = isNom;
+        lastXti = this.xti[i];
+        lastEg = this.eg[i];
+      }
+      if (!(this.xtb[i] === lastXtb)) {
+        f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]);
+        lastXtb = this.xtb[i];
+      }
       const ratio = isNom > 0 ? is / isNom : 1;
       par[o + P_IS] = is;
       par[o + P_ISE] = this.iseNom[i] > 0 ? this.iseNom[i] * f.leakage * Math.pow(ratio, 1 / this.ne[i]) : 0;
@@ -559,8 +583,14 @@ export class BjtTable implements DeviceTable {
       par[o + P_NEVT] = this.ne[i] * c.vt;
       par[o + P_NCVT] = this.nc[i] * c.vt;
       par[o + P_GMIN] = c.junctionGmin;
-      this.vcritBe[i] = criticalVoltage(this.nf[i] * c.vt, is);
-      this.vcritBc[i] = criticalVoltage(this.nr[i] * c.vt, is);
+      if (isChanged || !(this.nf[i] === lastNf && this.nr[i] === lastNr)) {
+        vcritBe = criticalVoltage(this.nf[i] * c.vt, is);
+        vcritBc = criticalVoltage(this.nr[i] * c.vt, is);
+        lastNf = this.nf[i];
+        lastNr = this.nr[i];
+      }
+      this.vcritBe[i] = vcritBe;
+      this.vcritBc[i] = vcritBc;
     }
   }
 

@@ -374,6 +374,16 @@ export class MnaLayout {
     b.elements.push(el);
     b.elementIndex.push(i);
     for (let r = 0; r < nt; r++) b.terminals.push(terminals[r]);
-    for (let r = 0; r < nt; r++) for (let c = 0; c < nt; c++) b.positions.push(this.entry(terminals[r], terminals[c]));
+    // Terminals often share an unknown (an intrinsic node without its series resistance is the netlist
+    // node): such a pair's slot is the one already found for the first terminal on that unknown.
+    const first = new Array<number>(nt);
+    for (let r = 0; r < nt; r++) first[r] = terminals.indexOf(terminals[r]);
+    const base = b.positions.length;
+    for (let r = 0; r < nt; r++) {
+      for (let c = 0; c < nt; c++) {
+        const known = first[r] < r || first[c] < c;
+        b.positions.push(known ? b.positions[base + first[r] * nt + first[c]] : this.entry(terminals[r], terminals[c]));
+      }
+    }
   }
 }

@@ -59,6 +59,8 @@ export class NewtonEngine {
   private readonly rowScale: Float64Array;
   private readonly colScale: Float64Array;
   private readonly scaledRhs: Float64Array;
+  /** Each row's largest |entry| at the last `measureRows`, what the equilibration's row scales come from. */
+  private readonly rowMax: Float64Array;
   private readonly residual: Float64Array;
   private readonly residualScale: Float64Array;
   private readonly isVoltage: Uint8Array;
@@ -85,6 +87,7 @@ export class NewtonEngine {
     this.rowScale = new Float64Array(n);
     this.colScale = new Float64Array(n);
     this.scaledRhs = new Float64Array(n);
+    this.rowMax = new Float64Array(n);
     this.residual = new Float64Array(n);
     this.residualScale = new Float64Array(n);
     this.lastFinite = new Float64Array(n);
@@ -131,14 +134,9 @@ export class NewtonEngine {
    * mistaken for a singular pivot.
    */
   private equilibrate(): void {
-    const { values, scaled, rowScale, colScale } = this;
+    const { values, scaled, rowMax, rowScale, colScale } = this;
     const { rows, cols } = this.layout.pattern;
-    rowScale.fill(0);
-    for (let e = 0; e < rows.length; e++) {
-      const a = Math.abs(values[e]);
-      if (a > rowScale[rows[e]]) rowScale[rows[e]] = a;
-    }
-    for (let k = 0; k < rowScale.length; k++) rowScale[k] = powerOfTwoInverse(rowScale[k]);
+    for (let k = 0; k < rowScale.length; k++) rowScale[k] = powerOfTwoInverse(rowMax[k]);
     colScale.fill(0);
     for (let e = 0; e < rows.length; e++) {
       const v = values[e] * rowScale[rows[e]];
@@ -148,6 +146,29 @@ export class NewtonEngine {
     }
     for (let k = 0; k < colScale.length; k++) colScale[k] = powerOfTwoInverse(colScale[k]);
     for (let e = 0; e < rows.length; e++) scaled[e] *= colScale[cols[e]];
+  }
+
+  /**
+   * One pass over the assembled matrix: each row's largest |entry| (for `equilibrate`) and, at x, the
+   * product A·x and each row's largest |term| (for the convergence test). The two used to be separate
+   * passes over every entry; both only read the matrix and x.
+   */
+  private measureRows(x: Float64Array): void {
+    const { values, rowMax, residual, residualScale } = this;
+    const { rows, cols } = this.layout.pattern;
+    rowMax.fill(0);
+    residual.fill(0);
+    residualScale.fill(0);
+    for (let e = 0; e < rows.length; e++) {
+      const v = values[e];
+      const r = rows[e];
+      const a = Math.abs(v);
+      if (a > rowMax[r]) rowMax[r] = a;
+      const term = v * x[cols[e]];
+      residual[r] += term;
+      const t = Math.abs(term);
+      if (t > residualScale[r]) residualScale[r] = t;
+    }
   }
 
   /** Solves A·x = rhs with the equilibrated factors: x = C·(RAC)⁻¹·R·rhs. */
@@ -173,6 +194,7 @@ export class NewtonEngine {
     tally.nonFinite.length = 0;
     for (const t of layout.tables) t.load(x, values, rhs, false, tally);
     if (tally.nonFinite.length > 0) return false;
+    this.measureRows(x);
     this.equilibrate();
     const f = this.solver.factor(this.scaled);
     this.factorizations++;
@@ -236,9 +258,8 @@ export class NewtonEngine {
    * unlimited iteration whose update and residual are both within TOLERANCES.
    */
   run(x: Float64Array, run: NewtonRun): NewtonOutcome {
-    const { layout, values, rhs, xNew } = this;
+    const { layout, rhs, xNew } = this;
     const n = layout.size;
-    const { rows, cols } = layout.pattern;
     for (const t of layout.tables) t.resetState(x, run.start);
     const linear = layout.tables.length === 0;
     let factored = false;
@@ -249,6 +270,8 @@ export class NewtonEngine {
       if (this.shouldStop?.()) throw new SolveStopped();
       const { limited, nonFinite } = this.assemble(x, run);
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: [...nonFinite] };
+      // Residual F(x) = A(x)·x − b(x), the exact KCL/branch residual at x when nothing was limited, with the row maxima.
+      this.measureRows(x);
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
         this.equilibrate();
@@ -262,15 +285,6 @@ export class NewtonEngine {
       for (let k = 0; k < n; k++) if (!Number.isFinite(xNew[k])) finite = false;
       if (!finite) return { status: 'non-finite', iterations: it, culprits: [] };
 
-      // Residual F(x) = A(x)·x − b(x): exact KCL/branch residual at x when nothing was limited.
-      residual.fill(0);
-      rowScale.fill(0);
-      for (let e = 0; e < rows.length; e++) {
-        const term = values[e] * x[cols[e]];
-        residual[rows[e]] += term;
-        const a = Math.abs(term);
-        if (a > rowScale[rows[e]]) rowScale[rows[e]] = a;
-      }
       const { reltol, vntol, abstol } = TOLERANCES;
       // Indices are kept only on the last allowed iteration (for the finding); earlier ones just count.
       const keep = it === run.maxIterations;
