@@ -42,11 +42,14 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
  * smaller than the parsed cards, which the sender need not keep). The builders read `analysis`,
  * which must not change until the last part is built.
  */
-export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; parts: (() => AnalysisPart)[] } {
+export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; parts: (() => AnalysisPart)[]; findingParts: number } {
   const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart) => {
     for (let i = 0; i < list.length; i += PART_SIZE) parts.push(() => make(list.slice(i, i + PART_SIZE)));
   };
+  // Findings first: the host can publish the diagnostics as soon as they are in, before the rest is taken in.
+  slices(analysis.findings, (items) => ({ kind: 'findings', items }));
+  const findingParts = parts.length;
   const documents: Analysis['documents'] = {};
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
@@ -83,10 +86,9 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
     for (const [key, d] of Object.entries(Object.getOwnPropertyDescriptors(operatingPoint))) if (key !== 'nodes' && key !== 'devices') head[key] = d.get ? d.get.call(operatingPoint) : d.value;
     operatingPoint = { ...(head as Omit<OperatingPoint, 'nodes' | 'devices'>), nodes: nameTable(), devices: nameTable() };
   }
-  slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   slices(analysis.structures, (items) => ({ kind: 'structures', items }));
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: [], structures: [] };
-  return { header, parts };
+  return { header, parts, findingParts };
 }
 
 /** Puts one part back into an analysis being assembled from its header. */

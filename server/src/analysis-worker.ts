@@ -157,9 +157,9 @@ function handle(msg: ToWorker): void {
           nominal: cornersNext ? session.nominal : undefined,
           sizingCache: new Map(),
         });
-        const { header, parts } = splitAnalysisLazily(analysis);
+        const { header, parts, findingParts } = splitAnalysisLazily(analysis);
         outgoing = { id: msg.id, parts };
-        post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, ms: performance.now() - t0 });
+        post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms: performance.now() - t0 });
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
         if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {

@@ -427,7 +427,12 @@ async function pump(): Promise<void> {
   try {
     // Corners cost many solves: publish the nominal findings first, the corner findings after.
     const cornersLater = settings.options.corners?.enabled !== false;
-    const { analysis, ms, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater });
+    // The diagnostics go out as soon as the findings are in; hovers and the rest answer from the last
+    // analysis until the whole result is taken in (a code action on a new diagnostic waits for that).
+    const onFindings = (partial: Analysis) => {
+      if (!job.superseded && documents.get(uri)?.version === partial.version) publish(new Set([uri, ...Object.keys(partial.documents)]), uri, partial);
+    };
+    const { analysis, ms, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
     if (current && current.version === analysis.version) {
@@ -507,18 +512,31 @@ function accept(uri: string, analysis: Analysis, ms: number): void {
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
 
-/** Publishes, for each document, the findings of every cached analysis that read it (`always`: even when there are none, so the client sees the new version). */
+/**
+ * The cached analyses by root, with `partial` (a result of root `root` whose findings are in but not yet
+ * the rest) in place of that root's cached one.
+ */
+function publishedAnalyses(root: string | undefined, partial: Analysis | undefined): [string, Analysis][] {
+  const out: [string, Analysis][] = [...cache].map(([r, entry]) => [r, partial && r === root ? partial : entry.analysis]);
+  if (partial && root !== undefined && !cache.has(root)) out.push([root, partial]);
+  return out;
+}
+
 /** Documents the client was told have inactive text (so a later analysis without any clears it). */
 const faded = new Set<string>();
 
-function publish(uris: Iterable<string>, always?: string): void {
+/**
+ * Publishes, for each document, the findings of every cached analysis that read it (`always`: even when
+ * there are none, so the client sees the new version; `partial`: a newer result of root `always` whose
+ * findings are in, published in place of its cached analysis).
+ */
+function publish(uris: Iterable<string>, always?: string, partial?: Analysis): void {
   for (const uri of uris) {
     const diagnostics: Diagnostic[] = [];
     const seen = new Set<string>();
     const inactive: InactiveTextParams['ranges'] = [];
     let version: number | undefined;
-    for (const [root, entry] of cache) {
-      const a = entry.analysis;
+    for (const [root, a] of publishedAnalyses(always, partial)) {
       if (!a.documents[uri] && root !== uri) continue;
       const lookup = lookupFor(a);
       const conv = lookup(uri);

@@ -56,8 +56,8 @@ export type ToWorker =
 
 /** Worker → main thread. */
 export type FromWorker =
-  /** The analysis without its big arrays; `parts` more slices follow, each on request. */
-  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; ms: number }
+  /** The analysis without its big arrays; `parts` more slices follow, each on request, the first `findingParts` of them its findings. */
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }

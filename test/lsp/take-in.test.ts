@@ -1,0 +1,54 @@
+// Taking a result in from the worker: the findings come first, so the server can publish diagnostics before
+// the cards, elements, point and structures of a large result are in.
+
+import { describe, expect, it } from 'vitest';
+import { join } from 'node:path';
+import { existsSync } from 'node:fs';
+import { WorkerHost } from '../../server/src/worker-host';
+import { analyse } from '../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
+
+const URI = 'file:///take-in.cir';
+
+/** An invented NPN mirror whose load leaves the output saturated, plus a ladder of 1,200 resistors (several parts of cards and elements). */
+function netlist(): string {
+  const ladder = Array.from({ length: 1200 }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === 1199 ? '0' : `l${i + 1}`} 1k`).join('\n');
+  return `take-in test\nVCC vcc 0 5\nR1 vcc r 4.3k\nQ1 r r 0 QN\nQ2 o r 0 QN\nRC vcc o 200k\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n${ladder}\n.end\n`;
+}
+
+describe('taking a result in', () => {
+  it('hands over the complete findings before any other part, and they are the final ones', async () => {
+    const script = join(__dirname, '../../dist/analysis-worker.js');
+    if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
+    const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
+    const text = netlist();
+    try {
+      host.setDocument(URI, text);
+      const events: string[] = [];
+      let early: string | undefined;
+      const { analysis } = await host.analyse(URI, 1, { corners: { enabled: false } }, {
+        onPart: (index) => events.push(`part ${index}`),
+        onFindings: (partial) => {
+          events.push('findings');
+          // What a publish reads: the findings and the texts to place them; nothing else is in yet.
+          early = JSON.stringify(partial.findings);
+          expect(partial.documents[URI]?.text).toBe(text);
+          expect(partial.circuit?.elements.length ?? 0).toBe(0);
+        },
+      });
+      // The independent computation: the engine run in this thread on the same text.
+      const direct = analyse({ uri: URI, text, version: 1 }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false } });
+      expect(direct.findings.length).toBeGreaterThan(0);
+      expect(early).toBe(JSON.stringify(direct.findings));
+      expect(JSON.stringify(analysis.findings)).toBe(early);
+      // Called once, right after the findings' own part(s) and before the 20-odd parts of the rest.
+      const at = events.indexOf('findings');
+      expect(events.filter((e) => e === 'findings')).toHaveLength(1);
+      expect(at).toBeGreaterThan(0);
+      expect(events.length - at - 1).toBeGreaterThan(10);
+      expect(analysis.circuit?.elements.length).toBe(1205);
+    } finally {
+      host.dispose();
+    }
+  });
+});
