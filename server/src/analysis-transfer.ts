@@ -2,7 +2,7 @@
 
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import type { Circuit, Element } from '../../shared-analysis/src/circuit';
-import type { Card, Token } from '../../shared-analysis/src/syntax/ast';
+import type { Card, ParsedDocument, Token } from '../../shared-analysis/src/syntax/ast';
 import type { DeviceRecord, OperatingPoint } from '../../shared-analysis/src/solve/types';
 import { pointVectors } from '../../shared-analysis/src/solve/point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
@@ -19,9 +19,17 @@ export type AnalysisPart =
   /**
    * Cards as JSON text (far cheaper to cross the thread boundary than a structured clone of many
    * small objects). Tokens travel once, as `[start, end, isExpression]`, and the card's fields
-   * refer to them by index; their text is sliced back out of the document on arrival.
+   * refer to them by index; their text is sliced back out of the document on arrival. Every offset
+   * is written from its card's start (`starts`), so a card that only moved encodes the same.
    */
-  | { kind: 'cards'; uri: string; json: string }
+  | { kind: 'cards'; uri: string; json: string; starts: number[] }
+  /**
+   * Cards `start` to `start + count − 1` of document `uri` are those the receiver holds (of the analysis
+   * it named as held): the same objects before `moved`, and from `moved` on the same cards moved by
+   * `delta` characters. The sender checked that each encodes exactly as the held one and that its text
+   * lies in the part of the document the edit left alone.
+   */
+  | { kind: 'cards-kept'; uri: string; start: number; count: number; moved: number; delta: number }
   /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
   | { kind: 'elements'; json: string }
   | { kind: 'devices'; items: [string, DeviceRecord][] }
@@ -29,6 +37,23 @@ export type AnalysisPart =
   | { kind: 'nodes'; names: string[]; volts: Float64Array }
   | { kind: 'findings'; items: Finding[] }
   | { kind: 'structures'; items: Structure[] };
+
+/** The text two versions of a document share: the first `prefix` characters, and the last `suffix`. */
+function sharedEnds(before: string, after: string): { prefix: number; suffix: number } {
+  const shorter = Math.min(before.length, after.length);
+  let prefix = 0;
+  while (prefix < shorter && before.charCodeAt(prefix) === after.charCodeAt(prefix)) prefix++;
+  let suffix = 0;
+  while (suffix < shorter - prefix && before.charCodeAt(before.length - 1 - suffix) === after.charCodeAt(after.length - 1 - suffix)) suffix++;
+  return { prefix, suffix };
+}
+
+/** What a sender keeps of the cards it sent, to send only what changed next time: per document its text and each part's JSON and card starts. */
+export type SentCards = Map<string, SentDocument>;
+interface SentDocument {
+  text: string;
+  parts: { json: string; starts: number[] }[];
+}
 
 /** The analysis with its big arrays emptied, and the parts that refill them in order. */
 export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: AnalysisPart[] } {
@@ -42,7 +67,7 @@ export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: An
  * smaller than the parsed cards, which the sender need not keep). The builders read `analysis`,
  * which must not change until the last part is built.
  */
-export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; parts: (() => AnalysisPart)[]; findingParts: number } {
+export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): { header: Analysis; parts: (() => AnalysisPart)[]; findingParts: number; sent: SentCards } {
   const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart) => {
     for (let i = 0; i < list.length; i += PART_SIZE) parts.push(() => make(list.slice(i, i + PART_SIZE)));
@@ -51,13 +76,13 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
   slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   const findingParts = parts.length;
   const documents: Analysis['documents'] = {};
+  const sent: SentCards = new Map();
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
     // Cards are encoded now, not on request: their JSON text is far smaller than the card objects, which the sender can then drop.
-    for (let i = 0; i < doc.cards.length; i += PART_SIZE) {
-      const part: AnalysisPart = { kind: 'cards', uri, json: JSON.stringify(doc.cards.slice(i, i + PART_SIZE).map(encodeCard)) };
-      parts.push(() => part);
-    }
+    const kept = cardParts(uri, doc, held?.get(uri));
+    sent.set(uri, kept.sent);
+    for (const part of kept.parts) parts.push(() => part);
   }
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
@@ -88,15 +113,66 @@ export function splitAnalysisLazily(analysis: Analysis): { header: Analysis; par
   }
   slices(analysis.structures, (items) => ({ kind: 'structures', items }));
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: [], structures: [] };
-  return { header, parts, findingParts };
+  return { header, parts, findingParts, sent };
 }
 
-/** Puts one part back into an analysis being assembled from its header. */
-export function mergePart(target: Analysis, part: AnalysisPart): void {
+/**
+ * The card parts of one document, each either its JSON or, where the receiver holds the same cards
+ * (`held`: what was sent of its previous analysis), a `cards-kept` part; and what was sent, to compare
+ * the next analysis with.
+ */
+function cardParts(uri: string, doc: ParsedDocument, held: SentDocument | undefined): { parts: AnalysisPart[]; sent: SentDocument } {
+  const ends = held ? sharedEnds(held.text, doc.text) : undefined;
+  const parts: AnalysisPart[] = [];
+  const sent: SentDocument = { text: doc.text, parts: [] };
+  for (let i = 0; i < doc.cards.length; i += PART_SIZE) {
+    const slice = doc.cards.slice(i, i + PART_SIZE);
+    const reach: [number, number][] = [];
+    const json = JSON.stringify(slice.map((c) => encodeCard(c, reach)));
+    const starts = slice.map((c) => c.span.start);
+    const before = held?.parts[sent.parts.length];
+    sent.parts.push({ json, starts });
+    const moved = before && ends && before.json === json ? keptFrom(starts, reach, before.starts, ends, held!.text.length, doc.text.length) : undefined;
+    parts.push(moved ? { kind: 'cards-kept', uri, start: i, count: slice.length, ...moved } : { kind: 'cards', uri, json, starts });
+  }
+  return { parts, sent };
+}
+
+/**
+ * Whether the cards of a part whose encoding equals the held one's are the held cards, unmoved up to some
+ * card and moved by the change in length from it on: each card's offsets (`reach`, lowest and highest, new
+ * text) lie in the shared prefix with its start unchanged, or in the shared suffix with its start moved.
+ */
+function keptFrom(starts: number[], reach: [number, number][], heldStarts: number[], ends: { prefix: number; suffix: number }, heldLength: number, length: number): { moved: number; delta: number } | undefined {
+  const delta = length - heldLength;
+  let moved = starts.length;
+  for (let k = 0; k < starts.length; k++) {
+    const [low, high] = reach[k];
+    const unmoved = moved === starts.length && high <= ends.prefix && heldStarts[k] === starts[k];
+    const shifted = low >= length - ends.suffix && heldStarts[k] === starts[k] - delta;
+    if (unmoved) continue;
+    if (!shifted) return undefined;
+    if (moved === starts.length) moved = k;
+  }
+  return { moved, delta };
+}
+
+/**
+ * Puts one part back into an analysis being assembled from its header. `held` is the analysis the
+ * receiver holds of the same root, which `cards-kept` parts copy from (left unchanged).
+ */
+export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis): void {
   switch (part.kind) {
     case 'cards': {
       const doc = target.documents[part.uri];
-      if (doc) for (const c of JSON.parse(part.json) as EncodedCard[]) doc.cards.push(decodeCard(doc.text, c));
+      if (doc) (JSON.parse(part.json) as EncodedCard[]).forEach((c, k) => doc.cards.push(decodeCard(doc.text, c, part.starts[k])));
+      return;
+    }
+    case 'cards-kept': {
+      const doc = target.documents[part.uri];
+      const from = held?.documents[part.uri];
+      if (!doc || !from || from.cards.length < part.start + part.count) throw new Error(`The held cards of ${part.uri} are not the ones the worker kept.`);
+      for (let k = part.start; k < part.start + part.count; k++) doc.cards.push(k < part.start + part.moved ? from.cards[k] : movedCard(from.cards[k], part.delta));
       return;
     }
     case 'elements':
@@ -126,28 +202,79 @@ interface EncodedCard {
   [field: string]: unknown;
 }
 
-function encodeCard(card: Card): EncodedCard {
+/**
+ * Every offset written from the card's start; the lowest and highest offset (absolute) are pushed to
+ * `reach`, so the sender knows what text the card covers.
+ */
+function encodeCard(card: Card, reach: [number, number][]): EncodedCard {
+  const base = card.span.start;
+  let low = base;
+  let high = base;
+  const offset = (x: number): number => {
+    if (x < low) low = x;
+    if (x > high) high = x;
+    return x - base;
+  };
   const index = new Map<Token, number>();
   card.tokens.forEach((t, i) => index.set(t, i));
+  const token = (t: Token): [number, number, number] => [offset(t.span.start), offset(t.span.end), t.kind === 'expr' ? 1 : 0];
   const encode = (v: unknown): unknown => {
     if (Array.isArray(v)) return v.map(encode);
     if (v && typeof v === 'object') {
       const i = index.get(v as Token);
       if (i !== undefined) return { $t: i };
-      if (isToken(v)) return { $tok: [v.span.start, v.span.end, v.kind === 'expr' ? 1 : 0] };
+      if (isToken(v)) return { $tok: token(v) };
       const out: Record<string, unknown> = nameTable();
-      for (const [k, x] of Object.entries(v)) out[k] = encode(x);
+      const span = isSpan(v);
+      for (const [k, x] of Object.entries(v)) out[k] = span ? offset(x as number) : encode(x);
       return out;
     }
     return v;
   };
-  const out: EncodedCard = { tokens: card.tokens.map((t) => [t.span.start, t.span.end, t.kind === 'expr' ? 1 : 0]) };
+  const out: EncodedCard = { tokens: card.tokens.map(token) };
   for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = encode(v);
+  reach.push([low, high]);
   return out;
 }
 
-function decodeCard(text: string, enc: EncodedCard): Card {
-  const token = ([start, end, expr]: [number, number, number]): Token => ({ text: text.slice(start, end), span: { start, end }, kind: expr ? 'expr' : 'word' });
+/** A held card moved `delta` characters: the same fields and token texts, every offset moved; built as `decodeCard` builds a card. */
+function movedCard(card: Card, delta: number): Card {
+  const tokens = new Map<Token, Token>();
+  const token = (t: Token): Token => ({ text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind });
+  const copy = (v: unknown): unknown => {
+    if (Array.isArray(v)) return v.map(copy);
+    if (v && typeof v === 'object') {
+      const t = tokens.get(v as Token);
+      if (t) return t;
+      if (isToken(v)) return token(v);
+      const out: Record<string, unknown> = nameTable();
+      const span = isSpan(v);
+      for (const [k, x] of Object.entries(v)) out[k] = span ? (x as number) + delta : copy(x);
+      return out;
+    }
+    return v;
+  };
+  const out: Record<string, unknown> = {
+    tokens: card.tokens.map((t) => {
+      const moved = token(t);
+      tokens.set(t, moved);
+      return moved;
+    }),
+  };
+  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = copy(v);
+  return out as unknown as Card;
+}
+
+/** A `{ start, end }` offset pair and nothing else. */
+function isSpan(v: object): boolean {
+  const keys = Object.keys(v);
+  const s = v as { start?: unknown; end?: unknown };
+  return keys.length === 2 && typeof s.start === 'number' && typeof s.end === 'number';
+}
+
+/** The inverse of {@link encodeCard} for a card starting at `base`. */
+function decodeCard(text: string, enc: EncodedCard, base: number): Card {
+  const token = ([s, e, expr]: [number, number, number]): Token => ({ text: text.slice(s + base, e + base), span: { start: s + base, end: e + base }, kind: expr ? 'expr' : 'word' });
   const tokens = enc.tokens.map(token);
   const decode = (v: unknown): unknown => {
     if (Array.isArray(v)) return v.map(decode);
@@ -156,7 +283,8 @@ function decodeCard(text: string, enc: EncodedCard): Card {
       if (typeof tagged.$t === 'number') return tokens[tagged.$t];
       if (tagged.$tok) return token(tagged.$tok);
       const out: Record<string, unknown> = nameTable();
-      for (const [k, x] of Object.entries(v)) out[k] = decode(x);
+      const span = isSpan(v);
+      for (const [k, x] of Object.entries(v)) out[k] = span ? (x as number) + base : decode(x);
       return out;
     }
     return v;

@@ -17,7 +17,7 @@ import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
-import { splitAnalysisLazily, type AnalysisPart } from './analysis-transfer';
+import { splitAnalysisLazily, type AnalysisPart, type SentCards } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import { STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -44,6 +44,11 @@ interface Kept {
   sizingCache: Map<string, SizingResult>;
 }
 const lastAnalysis = new Map<string, Kept>();
+/**
+ * Per root, what was sent of the cards of its recent analyses, by request id: the latest and the one the
+ * main thread last said it holds (the only ones a next analysis can be compared with).
+ */
+const sentCards = new Map<string, Map<number, SentCards>>();
 /** Per root, the last converged nominal solution, for the next analysis of an edited text to start Newton from. */
 const warmStarts = new Map<string, WarmStart>();
 
@@ -116,6 +121,7 @@ function handle(msg: ToWorker): void {
       if (msg.text === undefined) {
         openTexts.delete(msg.uri);
         lastAnalysis.delete(msg.uri);
+        sentCards.delete(msg.uri);
         warmStarts.delete(msg.uri);
       } else openTexts.set(msg.uri, msg.text);
       return;
@@ -157,7 +163,10 @@ function handle(msg: ToWorker): void {
           nominal: cornersNext ? session.nominal : undefined,
           sizingCache: new Map(),
         });
-        const { header, parts, findingParts } = splitAnalysisLazily(analysis);
+        const sentBefore = sentCards.get(msg.uri);
+        const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
+        const { header, parts, findingParts, sent } = splitAnalysisLazily(analysis, held);
+        sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         outgoing = { id: msg.id, parts };
         post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms: performance.now() - t0 });
         // The session (parsed cards, solver scratch) is garbage once this handler returns.

@@ -54,6 +54,8 @@ export class WorkerHost {
   private disposed = false;
   /** How many times the worker was restarted (for logs and tests). */
   restarts = 0;
+  /** The id of the `analyse` request each taken-in result answered (what the worker knows it by). */
+  private readonly analysisIds = new WeakMap<Analysis, number>();
   /** The stop generation shared with the worker (see STOP_GENERATION). */
   private readonly stopFlag = new Int32Array(new SharedArrayBuffer(4));
 
@@ -191,10 +193,13 @@ export class WorkerHost {
        * diagnostics. It is the object later parts are merged into; do not keep it past the call.
        */
       onFindings?: (partial: Analysis) => void;
+      /** The result of an earlier `analyse` of this root that the caller holds: cards the worker finds unchanged are copied from it (it is left as it is). */
+      held?: Analysis;
     } = {},
   ): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
     const generation = this.generation();
-    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation }), `The analysis of ${uri}`);
+    const held = phases.held && this.analysisIds.get(phases.held);
+    const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation, held }), `The analysis of ${uri}`);
     if (msg.type !== 'analysed') throw this.failure(msg);
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
@@ -223,7 +228,7 @@ export class WorkerHost {
       if (asked < msg.parts) inFlight.push(ask(asked++));
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
       const before = analysis.circuit?.elements.length ?? 0;
-      mergePart(analysis, part.part);
+      mergePart(analysis, part.part, phases.held);
       // Index the elements as they arrive, so the first request after the merge finds the tables built.
       if (elementIndex && part.part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
       phases.onPart?.(index, msg.parts);
@@ -233,6 +238,7 @@ export class WorkerHost {
     }
     elementIndex?.finish(analysis);
     restoreNameTables(analysis);
+    this.analysisIds.set(analysis, msg.id);
     return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
 

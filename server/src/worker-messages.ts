@@ -39,8 +39,12 @@ export type ToWorker =
   | { type: 'files-changed'; uris?: string[] }
   /** What the worker may read from disk (trust, allowed roots); each root netlist's folder is added per analysis. */
   | { type: 'read-policy'; policy: ReadPolicy }
-  /** `cornersLater`: analyse without corners and keep what the `corners` request needs to solve them next. */
-  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number }
+  /**
+   * `cornersLater`: analyse without corners and keep what the `corners` request needs to solve them next.
+   * `held`: the id of the `analyse` request whose result the main thread holds for `uri`, whose unchanged
+   * cards it can keep (`cards-kept` parts).
+   */
+  | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number; held?: number }
   /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */
   | { type: 'corners'; id: number; uri: string; version: number; generation: number }
   /** The main thread stopped taking in the analysis answered to request `analysisId` (superseded): drop its remaining parts. */

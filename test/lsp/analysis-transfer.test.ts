@@ -1,7 +1,8 @@
 // Splitting an analysis into parts for the thread boundary and putting it back together loses nothing.
 
 import { describe, expect, it } from 'vitest';
-import { mergePart, splitAnalysis } from '../../server/src/analysis-transfer';
+import { mergePart, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
+import type { Analysis } from '../../shared-analysis/src/analysis';
 import { analyse } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { indexBuilder, indexOf } from '../../shared-analysis/src/features/document-index';
@@ -43,5 +44,58 @@ describe('analysis transfer', () => {
     for (let k = 0; k < 4000; k++) lines.push(`RX${k} vcc x${k} 1k`, `RY${k} x${k} 0 2k`);
     lines.push('.end', '');
     check(lines.join('\n'), ['Q2 out', 'QN\nRL', 'RX17 ', 'x3999 0']);
+  });
+
+  it('keeps the held cards an edit leaves alone, moved past the edit, and equals a full transfer', () => {
+    const lines = ['Kept cards', 'VCC vcc 0 DC 10', 'RREF vcc ref 9.3k ; the reference', 'Q1 ref ref 0 QN', 'Q2 out ref 0 QN', 'RL vcc out 1k', '.model QN NPN (BF=100)', '* a comment line'];
+    for (let k = 0; k < 600; k++) lines.push(`RX${k} vcc x${k} ${1 + (k % 9)}k`, `RY${k} x${k} 0 2k`);
+    lines.push('.end', '');
+    const before = lines.join('\n');
+    // Each edit against the text above: a value made longer and shorter, a digit at a token's start, a
+    // comment's text, a card added, the title, the first and the last character, no change at all.
+    const edits: [string, string, boolean][] = [
+      ['RREF vcc ref 9.3k', 'RREF vcc ref 10.25k', true],
+      ['RY599 x599 0 2k', 'RY599 x599 0 2', true],
+      ['RX300 vcc x300 4k', 'RX300 vcc x300 5k', true],
+      ['RX300 vcc x300 4k', 'RX300 vcc x300 14k', true],
+      ['; the reference', '; the new reference', true],
+      ['* a comment line', '* a comment line that grew', true],
+      ['RL vcc out 1k\n', 'RL vcc out 1k\nRZ out 0 1meg\n', false],
+      ['Kept cards', 'Kept cardz', true],
+      ['.end\n', '.end', true],
+      ['Q2 out', 'Q2 out', true],
+    ];
+    const uri = '/t/main.cir';
+    const run = (text: string): Analysis => analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+    const first = splitAnalysisLazily(run(before));
+    // What the main thread holds: the first analysis taken in whole.
+    const held = structuredClone(first.header);
+    for (const make of first.parts) mergePart(held, structuredClone(make()));
+    const heldCopy = structuredClone(held);
+    for (const [from, to, keeps] of edits) {
+      expect(before.includes(from), from).toBe(true);
+      const after = before.replace(from, to);
+      const original = run(after);
+      const next = splitAnalysisLazily(original, first.sent);
+      const parts = next.parts.map((make) => structuredClone(make()));
+      const kept = parts.filter((p) => p.kind === 'cards-kept').length;
+      const cardParts = parts.filter((p) => p.kind === 'cards' || p.kind === 'cards-kept').length;
+      // Only the part(s) holding the edited card travel as JSON; a card added moves every later card into another part.
+      if (keeps) expect(kept, to).toBeGreaterThan(0);
+      expect(kept, to).toBeLessThanOrEqual(cardParts);
+      const copy = structuredClone(next.header);
+      for (const p of parts) mergePart(copy, p, held);
+      // The independent computation: the parser's own cards of the edited text.
+      expect(copy.documents[uri], to).toEqual(original.documents[uri]);
+      // The held analysis is left as it was.
+      expect(held).toEqual(heldCopy);
+    }
+    // The same text again: every card is kept, and the very same objects are shared.
+    const again = splitAnalysisLazily(run(before), first.sent);
+    const parts = again.parts.map((make) => make());
+    expect(parts.filter((p) => p.kind === 'cards').length).toBe(0);
+    const copy = structuredClone(again.header);
+    for (const p of parts) mergePart(copy, p, held);
+    expect(copy.documents[uri]!.cards[5]).toBe(held.documents[uri]!.cards[5]);
   });
 });

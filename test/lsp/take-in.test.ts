@@ -51,4 +51,29 @@ describe('taking a result in', () => {
       host.dispose();
     }
   });
+
+  it('copies the cards an edit leaves alone from the result the caller holds, through the worker', async () => {
+    const script = join(__dirname, '../../dist/analysis-worker.js');
+    if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
+    const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
+    const text = netlist();
+    const edited = text.replace('RL600 l600 l601 1k', 'RL600 l600 l601 1.5k');
+    try {
+      host.setDocument(URI, text);
+      let whole = 0;
+      const first = await host.analyse(URI, 1, { corners: { enabled: false } }, { onPart: () => whole++ });
+      host.setDocument(URI, edited);
+      let fewer = 0;
+      const second = await host.analyse(URI, 2, { corners: { enabled: false } }, { held: first.analysis, onPart: () => fewer++ });
+      // The independent computation: the engine's own parse of the edited text.
+      const direct = analyse({ uri: URI, text: edited, version: 2 }, new MemoryWorkspace({ [URI]: edited }), { corners: { enabled: false } });
+      expect(second.analysis.documents[URI]).toEqual(direct.documents[URI]);
+      expect(second.analysis.documents[URI]?.cards[5]).toBe(first.analysis.documents[URI]?.cards[5]);
+      expect(first.analysis.documents[URI]?.text).toBe(text);
+      // As many parts either way; the kept ones are a few bytes each instead of 400 cards.
+      expect(fewer).toBe(whole);
+    } finally {
+      host.dispose();
+    }
+  });
 });
