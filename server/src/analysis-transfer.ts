@@ -57,33 +57,51 @@ interface SentDocument {
 
 /** The analysis with its big arrays emptied, and the parts that refill them in order. */
 export function splitAnalysis(analysis: Analysis): { header: Analysis; parts: AnalysisPart[] } {
-  const { header, parts } = splitAnalysisLazily(analysis);
+  const { header, parts, prepare } = splitAnalysisLazily(analysis);
+  prepare();
   return { header, parts: parts.map((make) => make()) };
+}
+
+/** What `splitAnalysisLazily` gives the sender. */
+export interface LazySplit {
+  /** The analysis without its big arrays; it carries the findings itself when they fit in one part. */
+  header: Analysis;
+  parts: (() => AnalysisPart)[];
+  /** How many of the parts, the first ones, are findings (0 when the header carries them). */
+  findingParts: number;
+  /**
+   * Encodes the cards and lists the point's entries, so the card objects need not be kept; to call
+   * after the header is sent (the receiver can publish the findings meanwhile) and before any part is
+   * built. Returns what was sent of the cards, to compare the next analysis with.
+   */
+  prepare: () => SentCards;
 }
 
 /**
  * `splitAnalysis` with the parts of elements, devices, findings and structures built only when
- * asked for (the sender keeps those objects anyway), and the cards encoded at once (their JSON is
- * smaller than the parsed cards, which the sender need not keep). The builders read `analysis`,
- * which must not change until the last part is built.
+ * asked for (the sender keeps those objects anyway), and the cards encoded by `prepare` (their
+ * JSON is smaller than the parsed cards, which the sender need not keep). The builders read
+ * `analysis`, which must not change until the last part is built. Where the receiver holds the
+ * previous analysis of the same root (`held`: what `prepare` returned for it), unchanged cards are
+ * sent as `cards-kept` parts.
  */
-export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): { header: Analysis; parts: (() => AnalysisPart)[]; findingParts: number; sent: SentCards } {
+export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazySplit {
   const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart) => {
     for (let i = 0; i < list.length; i += PART_SIZE) parts.push(() => make(list.slice(i, i + PART_SIZE)));
   };
-  // Findings first: the host can publish the diagnostics as soon as they are in, before the rest is taken in.
-  slices(analysis.findings, (items) => ({ kind: 'findings', items }));
+  // Findings first (in the header when few): the receiver can publish the diagnostics before the rest is taken in.
+  const inHeader = analysis.findings.length <= PART_SIZE;
+  if (!inHeader) slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   const findingParts = parts.length;
   const documents: Analysis['documents'] = {};
+  const cards: AnalysisPart[][] = [];
   const sent: SentCards = new Map();
-  for (const [uri, doc] of Object.entries(analysis.documents)) {
+  const docs = Object.entries(analysis.documents);
+  docs.forEach(([uri, doc], d) => {
     documents[uri] = { ...doc, cards: [] };
-    // Cards are encoded now, not on request: their JSON text is far smaller than the card objects, which the sender can then drop.
-    const kept = cardParts(uri, doc, held?.get(uri));
-    sent.set(uri, kept.sent);
-    for (const part of kept.parts) parts.push(() => part);
-  }
+    for (let i = 0, k = 0; i < doc.cards.length; i += PART_SIZE, k++) parts.push(() => cards[d][k]);
+  });
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
     circuit = { ...analysis.circuit, elements: [] };
@@ -92,19 +110,31 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): { hea
     slices(analysis.circuit.elements, (items) => ({ kind: 'elements', json: JSON.stringify(items.map((e) => encodeElement(e, keyOf))) }));
   }
   let operatingPoint = analysis.operatingPoint;
+  let entries: (() => void) | undefined;
   if (operatingPoint) {
     // The node table goes in parts too: one table of every node in the header was the longest stall
     // of the main thread (a structured clone of 50,000 keys). Read from the solver's vectors when the
     // point has them, so the worker does not build the table for it.
-    const v = pointVectors(operatingPoint);
-    const nodes = v ? [...v.nodeEntries()] : Object.entries(operatingPoint.nodes);
-    for (let i = 0; i < nodes.length; i += NODE_PART_SIZE) {
+    const point = operatingPoint;
+    const v = pointVectors(point);
+    let nodes: [string, number][] = [];
+    let devices: [string, DeviceRecord][] = [];
+    entries = () => {
+      nodes = v ? [...v.nodeEntries()] : Object.entries(point.nodes);
+      devices = Object.entries(point.devices);
+    };
+    // Counted without building the tables: a node per volt of the vectors, at most one device record per element.
+    const nodeCount = v ? v.volts.length : Object.keys(point.nodes).length;
+    // The last part of each takes whatever is left, so a count that fell short loses nothing.
+    const upTo = (i: number, size: number, count: number) => (i + size >= count ? undefined : i + size);
+    for (let i = 0; i < nodeCount; i += NODE_PART_SIZE) {
       parts.push(() => {
-        const slice = nodes.slice(i, i + NODE_PART_SIZE);
+        const slice = nodes.slice(i, upTo(i, NODE_PART_SIZE, nodeCount));
         return { kind: 'nodes', names: slice.map(([name]) => name), volts: Float64Array.from(slice, ([, volts]) => volts) };
       });
     }
-    slices(Object.entries(operatingPoint.devices), (items) => ({ kind: 'devices', items }));
+    const deviceBound = v ? (analysis.circuit?.elements.length ?? 0) : Object.keys(point.devices).length;
+    for (let i = 0; i < deviceBound; i += PART_SIZE) parts.push(() => ({ kind: 'devices', items: devices.slice(i, upTo(i, PART_SIZE, deviceBound)) }));
     // The header's copy has empty tables (own fields copied without reading the lazily built tables),
     // and must not share them with the analysis the builders read.
     const head: Record<string, unknown> = {};
@@ -112,8 +142,17 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): { hea
     operatingPoint = { ...(head as Omit<OperatingPoint, 'nodes' | 'devices'>), nodes: nameTable(), devices: nameTable() };
   }
   slices(analysis.structures, (items) => ({ kind: 'structures', items }));
-  const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: [], structures: [] };
-  return { header, parts, findingParts, sent };
+  const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: inHeader ? analysis.findings : [], structures: [] };
+  const prepare = (): SentCards => {
+    for (const [uri, doc] of docs) {
+      const made = cardParts(uri, doc, held?.get(uri));
+      cards.push(made.parts);
+      sent.set(uri, made.sent);
+    }
+    entries?.();
+    return sent;
+  };
+  return { header, parts, findingParts, prepare };
 }
 
 /**

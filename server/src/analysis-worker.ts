@@ -165,10 +165,11 @@ function handle(msg: ToWorker): void {
         });
         const sentBefore = sentCards.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
-        const { header, parts, findingParts, sent } = splitAnalysisLazily(analysis, held);
-        sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
+        const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
         outgoing = { id: msg.id, parts };
         post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms: performance.now() - t0 });
+        // The main thread publishes the findings while the cards are encoded here.
+        sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, prepare()] as const]));
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
         if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {

@@ -427,8 +427,9 @@ async function pump(): Promise<void> {
   try {
     // Corners cost many solves: publish the nominal findings first, the corner findings after.
     const cornersLater = settings.options.corners?.enabled !== false;
-    // The diagnostics go out as soon as the findings are in; hovers and the rest answer from the last
-    // analysis until the whole result is taken in (a code action on a new diagnostic waits for that).
+    // The diagnostics of a large result go out as soon as its findings are in; hovers and the rest answer
+    // from the last analysis until the whole result is taken in (a code action on a new diagnostic waits
+    // for that). A small result is taken in at once, so its diagnostics go out with everything else.
     const onFindings = (partial: Analysis) => {
       if (!job.superseded && documents.get(uri)?.version === partial.version) publish(new Set([uri, ...Object.keys(partial.documents)]), uri, partial);
     };

@@ -188,9 +188,10 @@ export class WorkerHost {
       /** Called after each part is merged (a hook for tests and logs). */
       onPart?: (index: number, parts: number) => void;
       /**
-       * Called once every finding is in, before the rest of the result (cards, elements, the point,
-       * structures) is taken in: `partial` has the header and the complete findings, enough to publish
-       * diagnostics. It is the object later parts are merged into; do not keep it past the call.
+       * For a result taken in slices (more than SMALL_RESULT_PARTS parts), called once every finding is
+       * in, before the rest (cards, elements, the point, structures) is taken in: `partial` has the header
+       * and the complete findings, enough to publish diagnostics. It is the object later parts are merged
+       * into; do not keep it past the call. A small result is taken in at once and not announced early.
        */
       onFindings?: (partial: Analysis) => void;
       /** The result of an earlier `analyse` of this root that the caller holds: cards the worker finds unchanged are copied from it (it is left as it is). */
@@ -217,7 +218,8 @@ export class WorkerHost {
     // A small result is asked for whole at once (its parts take a few milliseconds in all; round trips would cost more).
     const ahead = msg.parts <= SMALL_RESULT_PARTS ? msg.parts : PARTS_IN_FLIGHT;
     while (asked < Math.min(ahead, msg.parts)) inFlight.push(ask(asked++));
-    if (msg.findingParts === 0) phases.onFindings?.(analysis);
+    const onFindings = msg.parts > SMALL_RESULT_PARTS ? phases.onFindings : undefined;
+    if (msg.findingParts === 0) onFindings?.(analysis);
     for (let index = 0; index < msg.parts; index++) {
       // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
       if (this.generation() !== generation) {
@@ -232,7 +234,7 @@ export class WorkerHost {
       // Index the elements as they arrive, so the first request after the merge finds the tables built.
       if (elementIndex && part.part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
       phases.onPart?.(index, msg.parts);
-      if (index === msg.findingParts - 1) phases.onFindings?.(analysis);
+      if (index === msg.findingParts - 1) onFindings?.(analysis);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));
     }

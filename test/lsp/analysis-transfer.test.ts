@@ -68,6 +68,7 @@ describe('analysis transfer', () => {
     const uri = '/t/main.cir';
     const run = (text: string): Analysis => analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
     const first = splitAnalysisLazily(run(before));
+    const sent = first.prepare();
     // What the main thread holds: the first analysis taken in whole.
     const held = structuredClone(first.header);
     for (const make of first.parts) mergePart(held, structuredClone(make()));
@@ -76,7 +77,8 @@ describe('analysis transfer', () => {
       expect(before.includes(from), from).toBe(true);
       const after = before.replace(from, to);
       const original = run(after);
-      const next = splitAnalysisLazily(original, first.sent);
+      const next = splitAnalysisLazily(original, sent);
+      next.prepare();
       const parts = next.parts.map((make) => structuredClone(make()));
       const kept = parts.filter((p) => p.kind === 'cards-kept').length;
       const cardParts = parts.filter((p) => p.kind === 'cards' || p.kind === 'cards-kept').length;
@@ -91,7 +93,8 @@ describe('analysis transfer', () => {
       expect(held).toEqual(heldCopy);
     }
     // The same text again: every card is kept, and the very same objects are shared.
-    const again = splitAnalysisLazily(run(before), first.sent);
+    const again = splitAnalysisLazily(run(before), sent);
+    again.prepare();
     const parts = again.parts.map((make) => make());
     expect(parts.filter((p) => p.kind === 'cards').length).toBe(0);
     const copy = structuredClone(again.header);

@@ -10,18 +10,19 @@ import { MemoryWorkspace } from '../../shared-analysis/src/types';
 
 const URI = 'file:///take-in.cir';
 
-/** An invented NPN mirror whose load leaves the output saturated, plus a ladder of 1,200 resistors (several parts of cards and elements). */
-function netlist(): string {
-  const ladder = Array.from({ length: 1200 }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === 1199 ? '0' : `l${i + 1}`} 1k`).join('\n');
+/** An invented NPN mirror whose load leaves the output saturated, plus a ladder of `rungs` resistors (several parts of cards and elements). */
+function netlist(rungs: number): string {
+  const ladder = Array.from({ length: rungs }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === rungs - 1 ? '0' : `l${i + 1}`} 1k`).join('\n');
   return `take-in test\nVCC vcc 0 5\nR1 vcc r 4.3k\nQ1 r r 0 QN\nQ2 o r 0 QN\nRC vcc o 200k\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n${ladder}\n.end\n`;
 }
 
 describe('taking a result in', () => {
-  it('hands over the complete findings before any other part, and they are the final ones', async () => {
+  it('hands over the complete findings of a large result before any other part, and they are the final ones', async () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
     if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
     const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
-    const text = netlist();
+    // 5,000 rungs: over 32 parts, so the result is taken in slices.
+    const text = netlist(5000);
     try {
       host.setDocument(URI, text);
       const events: string[] = [];
@@ -41,12 +42,16 @@ describe('taking a result in', () => {
       expect(direct.findings.length).toBeGreaterThan(0);
       expect(early).toBe(JSON.stringify(direct.findings));
       expect(JSON.stringify(analysis.findings)).toBe(early);
-      // Called once, right after the findings' own part(s) and before the 20-odd parts of the rest.
-      const at = events.indexOf('findings');
+      // Called once, with the header (a few findings travel in it), before any of the 40-odd parts of the rest.
       expect(events.filter((e) => e === 'findings')).toHaveLength(1);
-      expect(at).toBeGreaterThan(0);
-      expect(events.length - at - 1).toBeGreaterThan(10);
-      expect(analysis.circuit?.elements.length).toBe(1205);
+      expect(events[0]).toBe('findings');
+      expect(events.length).toBeGreaterThan(33);
+      expect(analysis.circuit?.elements.length).toBe(5005);
+      // A small result (1,200 rungs: fewer parts) is taken in at once and not announced early.
+      host.setDocument(URI, netlist(1200));
+      let announced = 0;
+      await host.analyse(URI, 2, { corners: { enabled: false } }, { onFindings: () => announced++ });
+      expect(announced).toBe(0);
     } finally {
       host.dispose();
     }
@@ -56,7 +61,7 @@ describe('taking a result in', () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
     if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
     const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
-    const text = netlist();
+    const text = netlist(1200);
     const edited = text.replace('RL600 l600 l601 1k', 'RL600 l600 l601 1.5k');
     try {
       host.setDocument(URI, text);
