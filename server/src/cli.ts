@@ -85,8 +85,8 @@ Options:
                                per-output summary (worst current and headroom, and where)
   --hand-analysis-steps        JSON: each structure's worked hand-analysis steps (formula, numbers
                                substituted, value) in its estimate; left out by default
-  --spread-breakdown           JSON: each output's ranked spread contributors and largest
-                               sensitivities besides its σ, worst case and drift; left out by default
+  --spread-breakdown           JSON: every ranked spread contributor of each output (by default
+                               the three largest) and its largest sensitivities (left out by default)
   --compact                    JSON and SARIF on one line, without indentation
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
@@ -654,7 +654,8 @@ function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
 /**
  * The version of the CLI's JSON document: 2 summarises corners per output unless `--all-corners`
  * asks for them all; 3 leaves each estimate's `steps` out unless `--hand-analysis-steps` asks for
- * them, and each output's spread `contributors` and `sensitivities` unless `--spread-breakdown` does.
+ * them, and each output's spread `sensitivities` and all but its three largest `contributors` unless
+ * `--spread-breakdown` asks for them.
  */
 export const JSON_VERSION = 3;
 
@@ -664,7 +665,7 @@ export interface JsonDetail {
   allCorners?: boolean;
   /** The hand analysis's worked steps in each structure's estimate. */
   handAnalysisSteps?: boolean;
-  /** Each output's ranked spread contributors and largest sensitivities. */
+  /** Each output's every ranked spread contributor (else the three largest) and largest sensitivities. */
   spreadBreakdown?: boolean;
 }
 
@@ -790,15 +791,19 @@ function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: 
   return out;
 }
 
+/** How many of an output's ranked spread contributors the JSON keeps without `--spread-breakdown`: the three the hover names. */
+const CONTRIBUTORS_BY_DEFAULT = 3;
+
 /**
- * One output's spread as JSON shows it: without its ranked `contributors` and `sensitivities`
- * unless `--spread-breakdown` asks for them (they were about half of a large array's document; a
- * CI gate reads σ, worst case, drift and yield).
+ * One output's spread as JSON shows it: its three largest contributors (what dominates, as the
+ * hover says it) and no `sensitivities`, unless `--spread-breakdown` asks for every contributor
+ * (at most 8) and the largest sensitivities (together about half of a large array's document; a
+ * CI gate reads σ, worst case, drift, yield and what dominates).
  */
 function spreadForJson(o: OutputVariation, detail: JsonDetail): unknown {
   if (detail.spreadBreakdown) return o;
-  const { contributors: _contributors, sensitivities: _sensitivities, ...figures } = o;
-  return figures;
+  const { contributors, sensitivities: _sensitivities, ...figures } = o;
+  return { ...figures, contributors: contributors.slice(0, CONTRIBUTORS_BY_DEFAULT) };
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */
