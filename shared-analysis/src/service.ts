@@ -166,7 +166,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
           variationDetail = detail;
           variation = detail.result;
           attachVariation(structures, detail.result);
-          pushAll(findings, checkYield(circuit, structures, targets.targets, detail, resolved.variation.yieldTarget));
+          pushAll(findings, checkYield(circuit, structures, targets.targets, detail, resolved.variation.yieldTarget, elab.documents));
         }
       }
     }
@@ -256,7 +256,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
       if (detail) {
         analysis.variation = detail.result;
         attachVariation(analysis.structures, detail.result);
-        pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget));
+        pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget, analysis.documents));
       }
     }
   } catch (e) {

@@ -4,7 +4,9 @@ import type { Circuit } from '../circuit';
 import type { Target } from './targets';
 import { targetElements, TargetIndex } from './targets';
 import type { Structure } from '../structures/types';
-import type { Finding, Severity } from '../types';
+import type { Finding, Fix, Severity } from '../types';
+import type { ParsedDocument } from '../syntax/ast';
+import { toleranceNoteEdit, tolerancePercentText } from '../fixes/tolerance-note';
 import { formatEngineering, formatPercent } from '../fixes/format';
 import { fractionWithin, sourceRowOf, spreadOf, type VariationDetail } from '../variation/index';
 
@@ -12,7 +14,7 @@ import { fractionWithin, sourceRowOf, spreadOf, type VariationDetail } from '../
 export const VARIATION_CODES: Record<string, { severity: Severity; summary: string }> = {
   'target-yield-low': {
     severity: 'warning',
-    summary: 'An element meets its target at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it. A warning when the target writes its tolerance, information when the window is the default one (the resistor series\' tolerance).',
+    summary: 'An element meets its target at nominal, but the tolerances and mismatch leave too few builds inside the window (predicted yield below the setting, 99.7 % by default); the message names the largest contributor and what would fix it; a tighter resistor or supply tolerance is also a code action that writes it on the card, titled with the yield it gives. A warning when the target writes its tolerance, information when the window is the default one (the resistor series\' tolerance).',
   },
 };
 
@@ -33,7 +35,7 @@ const plain = (r: number): string => `${+(r * 100).toPrecision(3)} %`;
  * is a default, not a figure the designer wrote (as `target-missed-at-corner` does for a corner
  * tolerance). Targets already missed at nominal are left to `target-missed`.
  */
-export function checkYield(circuit: Circuit, structures: Structure[], targets: Target[], detail: VariationDetail, yieldTarget: number): Finding[] {
+export function checkYield(circuit: Circuit, structures: Structure[], targets: Target[], detail: VariationDetail, yieldTarget: number, documents: Record<string, ParsedDocument>): Finding[] {
   const out: Finding[] = [];
   const index = new TargetIndex(circuit, structures);
   const specIndex = new Map<string, number>();
@@ -55,7 +57,7 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
       if (y >= yieldTarget) continue;
       const top = v.contributors[0];
       const topGroup = top ? groupOf(detail, o, top.name) : undefined;
-      const fix = topGroup ? fixFor(detail, o, topGroup, lo, hi, yieldTarget) : undefined;
+      const fix = topGroup ? fixFor(detail, o, topGroup, lo, hi, yieldTarget, circuit, documents) : undefined;
       const message =
         `Predicted yield of ${el.name} against ${formatEngineering(current, { unit: 'A', digits: 3 })} ±${plain(tolerance)}${own ? '' : ' (the default window: the target writes no tolerance, so it takes the resistor series\' tolerance)'} is ${pct(y)}, below ${pct(yieldTarget)}: ` +
         `σ ${plain(v.sigmaRelative)} (±3σ ${plain(3 * v.sigmaRelative)}), worst case ±${plain(v.worstCaseRelative)}` +
@@ -79,6 +81,7 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
           contributors: v.contributors.slice(0, 3),
           ...(fix ? { remedy: fix.data } : {}),
         },
+        ...(fix?.edit ? { fixes: [fix.edit] } : {}),
       });
     }
   }
@@ -104,8 +107,21 @@ function groupOf(detail: VariationDetail, o: number, name: string): string | und
     ?? detail.sources.find((s) => s.aspect === aspect && s.element === first)?.group;
 }
 
-/** The smallest change to the largest contributor that brings the yield to the target, in words and data. */
-function fixFor(detail: VariationDetail, o: number, group: string, lo: number, hi: number, yieldTarget: number): { text: string; data: Record<string, unknown> } | undefined {
+/**
+ * The smallest change to the largest contributor that brings the yield to the target, in words
+ * and data, each candidate's yield worked out again with its σ; a tighter tolerance is also an
+ * edit of the card (`edit`), titled with that yield.
+ */
+function fixFor(
+  detail: VariationDetail,
+  o: number,
+  group: string,
+  lo: number,
+  hi: number,
+  yieldTarget: number,
+  circuit: Circuit,
+  documents: Record<string, ParsedDocument>,
+): { text: string; data: Record<string, unknown>; edit?: Fix } | undefined {
   const sources = detail.sources;
   const per = sourceRowOf(detail.bySource, o);
   const nominal = Math.abs(detail.result.outputs[o].nominal);
@@ -122,11 +138,12 @@ function fixFor(detail: VariationDetail, o: number, group: string, lo: number, h
       if (tol >= first.figure) continue;
       const y = yieldWith(() => tol / first.figure);
       if (y >= yieldTarget) {
-        const text =
-          first.parameter.kind === 'resistance'
-            ? `A ${plain(tol)} part for ${first.label} (write \`; tol ${+(tol * 100).toPrecision(3)}%\` on its card) would give ${pct(y)}.`
-            : `Holding ${first.label} to ±${plain(tol)} would give ${pct(y)}.`;
-        return { text, data: { element: first.element, tolerance: tol, yield: y } };
+        const resistor = first.parameter.kind === 'resistance';
+        const note = `; tol ${tolerancePercentText(tol)}%`;
+        const text = resistor ? `A ${plain(tol)} part for ${first.label} (write \`${note}\` on its card) would give ${pct(y)}.` : `Holding ${first.label} to ±${plain(tol)} would give ${pct(y)}.`;
+        const edit = toleranceNoteEdit(documents, circuit.elements[first.parameter.element], tol);
+        const title = `Write \`${note}\` on ${first.label}'s card (${resistor ? `a ${plain(tol)} part` : `held to ±${plain(tol)}`}): predicted yield ${pct(y)}`;
+        return { text, data: { element: first.element, tolerance: tol, yield: y }, ...(edit ? { edit: { title, preferred: true, edits: [edit] } } : {}) };
       }
     }
     return undefined;

@@ -90,6 +90,10 @@ export const FIX_CODES: Record<string, { severity: Severity; summary: string }> 
     severity: 'warning',
     summary: 'Fix: make every device of the mirror use the reference device’s model (only the model names change).',
   },
+  'target-yield-low': {
+    severity: 'warning',
+    summary: 'Fix: when the largest contributor is a resistor or a supply, write the tighter tolerance that brings the predicted yield to the setting on its card (`; tol 1%`, or the figure of the note it has replaced); offered only when that yield, worked out again with the tighter part, meets the setting, and titled with it. A card whose comment holds a target gets the advice in the message only.',
+  },
   'target-missed': {
     severity: 'warning',
     summary: 'Fix: set the reference (or Widlar emitter) resistor to the nearest standard value below or above the exact one, each re-solved; when neither meets the target tolerance, the closest value of the next finer series is offered too; the closest that leaves every output in its region is preferred. When the current levels off short of the target, no value is offered and the nearest reachable current is said instead.',

@@ -39,8 +39,8 @@ export interface ToleranceSource {
   figure: number;
 }
 
-/** Reads `tol 0.1%` (also `tol=1%`, `tolerance ±2%`) from an element card's end-of-line comments. */
-const TOL = /\btol(?:erance)?\s*[:=]?\s*(?:±|\+\/-|\+-)?\s*([0-9]*\.?[0-9]+(?:e[-+]?\d+)?)\s*%/i;
+/** A tolerance note in an end-of-line comment: `tol 0.1%` (also `tol=1%`, `tolerance ±2%`); group 1 is the figure in percent. */
+export const TOLERANCE_NOTE = /\btol(?:erance)?\s*[:=]?\s*(?:±|\+\/-|\+-)?\s*([0-9]*\.?[0-9]+(?:e[-+]?\d+)?)\s*%/i;
 
 /** Element card (uri, card start) -> relative tolerance written on it. */
 export function readCardTolerances(documents: Record<string, ParsedDocument>): Map<string, number> {
@@ -50,7 +50,7 @@ export function readCardTolerances(documents: Record<string, ParsedDocument>): M
     for (const card of doc.cards) {
       if (card.kind !== 'element') continue;
       for (const c of endOfLineComments(doc.text, card as ElementCard)) {
-        const m = TOL.exec(doc.text.slice(c.start, c.end));
+        const m = TOLERANCE_NOTE.exec(doc.text.slice(c.start, c.end));
         if (!m) continue;
         const pct = Number(m[1]);
         if (Number.isFinite(pct) && pct >= 0 && pct < 100) out.set(`${uri}\u0000${card.span.start}`, pct / 100);

@@ -2,7 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { analyse, analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { MemoryWorkspace, type Fix } from '../../../shared-analysis/src/types';
 import { elementCurrent } from '../../../shared-analysis/src/variation/outputs';
 import { derivativeOf, sensitivities } from '../../../shared-analysis/src/variation/sensitivity';
 
@@ -119,6 +119,72 @@ RL3 vcc out3 2k
     for (const y of yields) expect(y!.yield).toBeGreaterThan(0);
   });
 
+});
+
+/** The text with every edit of a fix applied (edits of one document, applied from the end). */
+function applied(text: string, fix: Fix): string {
+  let out = text;
+  for (const e of [...fix.edits].sort((a, b) => b.span.start - a.span.start)) out = out.slice(0, e.span.start) + e.newText + out.slice(e.span.end);
+  return out;
+}
+
+/** A mirror whose spread comes from its reference resistor: matched devices (MATCHVBE 0.05 mV) and a 0.1 % supply. */
+const resistorLed = (rrefCard: string, target: string) => `resistor-led spread
+VCC vcc 0 10 ; tol 0.1%
+${rrefCard}
+Q1 ref ref 0 qm
+Q2 out ref 0 qm ${target}
+RL vcc out 2k
+.model qm npn(IS=1e-15 BF=200 MATCHVBE=0.05m MATCHBF=0.001)
+.end
+`;
+
+describe('the yield fix as an edit', () => {
+  it('writes the tighter tolerance on the resistor card, and the edited netlist re-analysed meets the yield the title says', () => {
+    const text = resistorLed('RREF vcc ref 9.1k', '; expect 1mA ±4%');
+    const f = run(text).findings.find((x) => x.code === 'target-yield-low')!;
+    expect(f.message).toMatch(/largest contributor is RREF/);
+    expect(f.fixes).toHaveLength(1);
+    const fix = f.fixes![0];
+    expect(fix.title).toMatch(/^Write `; tol 2%` on RREF's card \(a 2 % part\): predicted yield (\d+(\.\d+)?) %$/);
+    const after = applied(text, fix);
+    expect(after).toContain('RREF vcc ref 9.1k ; tol 2%\n');
+    // The check outside the fix: the whole analysis of the edited text (its own solve and spread).
+    const again = run(after);
+    expect(again.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
+    const y = again.variation!.outputs.find((o) => o.element === 'Q2' && o.target)!.target!.yield;
+    expect(y).toBeGreaterThanOrEqual(0.997);
+    expect(fix.title).toContain(`${+(y * 100).toPrecision(3)} %`);
+  });
+
+  it('replaces the figure of a tolerance note the card already has, keeping the rest of its comment', () => {
+    const text = resistorLed('RREF vcc ref 9.1k ; metal film, tol 5% from stock', '; expect 1mA ±4%');
+    const fix = run(text).findings.find((x) => x.code === 'target-yield-low')!.fixes![0];
+    expect(applied(text, fix)).toContain('RREF vcc ref 9.1k ; metal film, tol 2% from stock\n');
+  });
+
+  it('leaves a card whose comment holds a target without an edit (text after a target makes it unreadable)', () => {
+    const text = `target on the resistor
+VCC vcc 0 10 ; tol 0.1%
+RREF vcc ref 9.1k ; expect 1mA ±4%
+Q1 ref ref 0 qm
+.model qm npn(IS=1e-15 BF=200 MATCHVBE=0.05m MATCHBF=0.001)
+.end
+`;
+    const f = run(text).findings.find((x) => x.code === 'target-yield-low')!;
+    expect(f.message).toMatch(/write `; tol 2%` on its card/);
+    expect(f.fixes ?? []).toEqual([]);
+  });
+
+  it('holds a supply that dominates to a tighter tolerance on its card', () => {
+    const text = resistorLed('RREF vcc ref 9.1k ; tol 0.1%', '; expect 1mA ±4%').replace('VCC vcc 0 10 ; tol 0.1%', 'VCC vcc 0 10');
+    const f = run(text).findings.find((x) => x.code === 'target-yield-low')!;
+    expect(f.message).toMatch(/largest contributor is VCC/);
+    const fix = f.fixes![0];
+    expect(fix.title).toMatch(/^Write `; tol \d+(\.\d+)?%` on VCC's card \(held to ±\d+(\.\d+)? %\): predicted yield/);
+    const again = run(applied(text, fix));
+    expect(again.findings.filter((x) => x.code === 'target-yield-low')).toEqual([]);
+  });
 });
 
 describe('every kind of current carrier', () => {
