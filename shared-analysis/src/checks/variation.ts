@@ -148,6 +148,13 @@ function fixFor(
     }
     return undefined;
   }
+  // A part's own spread does not average out over a larger device: the remedy is choosing the parts or trimming each build.
+  if (first.partSpread) {
+    return {
+      text: `${first.element}'s pinch-off voltage spreads from part to part (σ ${formatEngineering(first.sigma, { unit: 'V', digits: 3 })}); no larger device narrows that: select the parts by their pinch-off voltage or IDSS, or trim the resistor that sets the current in each build.`,
+      data: { element: first.element, partSpread: 'VTO' },
+    };
+  }
   for (const k of AREA_FACTORS) {
     const y = yieldWith(() => 1 / Math.sqrt(k));
     if (y >= yieldTarget) {

@@ -91,6 +91,9 @@ const JFET: ModelParameterInfo[] = [
   { name: 'VTOTC', meaning: 'temperature coefficient of VTO', unit: 'V/K', default: 0 },
   { name: 'BETATCE', meaning: 'temperature coefficient of BETA, percent per kelvin', unit: '%/K', default: 0 },
   ...TEMPERATURE_IS,
+  { name: 'SPREADVTO', meaning: 'σ of the pinch-off voltage from one part to the next, as a fraction of |VTO|, for the spread analysis (docs/VARIATION.md; 0.25 when not given)', unit: '' },
+  { name: 'MATCHVTO', meaning: 'σ of the VTO difference of two matched unit devices, for the spread analysis (5 mV when not given)', unit: 'V' },
+  { name: 'MATCHBETA', meaning: 'relative σ of the BETA difference of two matched unit devices, for the spread analysis (2 % when not given)', unit: '' },
 ];
 
 const VOLTAGE_SWITCH: ModelParameterInfo[] = [

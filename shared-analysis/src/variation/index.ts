@@ -163,7 +163,7 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   }
   const summaries: SourceSummary[] = sources.map((s) => ({
     name: s.label,
-    kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : 'mismatch',
+    kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : s.partSpread ? 'part spread' : 'mismatch',
     figure: s.figure,
     from: s.from,
   }));
@@ -254,7 +254,7 @@ function shownForms(count: number, sources: readonly ToleranceSource[], sourcePa
     const j = sourceParam[k];
     // A VBE shift ΔV is the IS ratio e^(−ΔV/(NF·VT)): dIS/dΔV = −σ_IS/σ_V (docs/VARIATION.md); per millivolt of the device's own shift.
     if (s.aspect === 'VBE') show(j, s.label, '%/mV', (-s.sigma / s.figure) * 1e-3 * 100);
-    else if (s.aspect === 'VTH') show(j, s.label, '%/mV', 1e-3 * 100);
+    else if (s.parameter.param === 'VTO') show(j, s.label, '%/mV', 1e-3 * 100);
     else show(j, s.label, '%/%', s.nominal);
   });
   return forms;

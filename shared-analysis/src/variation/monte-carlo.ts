@@ -138,7 +138,9 @@ export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver:
       else if (p.kind === 'model') {
         const name = els[p.element].name;
         const set = (deviceParameters[name] ??= {});
-        set[p.param] = p.param === 'IS' ? s.nominal * Math.exp((z * s.sigma) / s.nominal) : s.nominal + z * s.sigma;
+        // Sources on one parameter add up (a JFET's VTO spreads from part to part and mismatches its partner).
+        const drawn = set[p.param] ?? s.nominal;
+        set[p.param] = p.param === 'IS' ? drawn * Math.exp((z * s.sigma) / s.nominal) : drawn + z * s.sigma;
       }
     }
     const res = solver.solve({ temperatureC: nominal.op.temperatureC, initialGuess: nominal.x, resistances, sourceValues, deviceParameters });

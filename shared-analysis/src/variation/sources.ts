@@ -1,6 +1,6 @@
 // Where the spread comes from: resistor tolerances (written on the card or from the series), supply tolerance, and the mismatch of the devices of each recognised structure (docs/VARIATION.md).
 
-import type { Bjt, Circuit, Element, Mosfet } from '../circuit';
+import type { Bjt, Circuit, Element, Jfet, Mosfet } from '../circuit';
 import { endOfLineComments } from '../checks/targets';
 import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Structure } from '../structures/types';
@@ -16,8 +16,16 @@ import { modelValue } from './sensitivity';
  * - `MATCHBF`: relative difference of their β, 1 %.
  * - `MATCHVT`: Pelgrom's A_VT, 5 mV·µm (written in V·m: 5e-9).
  * - `MATCHKP`: Pelgrom's A_β, 1 %·µm (written in m: 1e-8).
+ * - `MATCHVTO`: JFET pinch-off voltage difference of two matched unit devices, 5 mV (the offset
+ *   limits of monolithic dual JFETs are 5–25 mV, read as about 3σ; from memory).
+ * - `MATCHBETA`: relative difference of their BETA, 2 % (the IDSS ratio of such duals is held
+ *   to about 5 %; from memory).
+ * - `SPREADVTO`: a JFET's pinch-off voltage from one part to the next, as a fraction of |VTO|:
+ *   25 % (general-purpose discrete n-channel JFETs specify VGS(off) over ranges such as −0.5 to
+ *   −6 V, −0.3 to −3 V or −0.3 to −1.5 V; read as ±3σ about the middle, that is 22–28 % of it;
+ *   from memory).
  */
-export const MISMATCH_DEFAULTS = { MATCHVBE: 0.5e-3, MATCHBF: 0.01, MATCHVT: 5e-9, MATCHKP: 1e-8 } as const;
+export const MISMATCH_DEFAULTS = { MATCHVBE: 0.5e-3, MATCHBF: 0.01, MATCHVT: 5e-9, MATCHKP: 1e-8, MATCHVTO: 5e-3, MATCHBETA: 0.02, SPREADVTO: 0.25 } as const;
 
 /** One independent source of spread: a parameter, its nominal value, its σ and its worst-case excursion (both in the parameter's units). */
 export interface ToleranceSource {
@@ -37,6 +45,8 @@ export interface ToleranceSource {
   from: 'card' | 'series' | 'setting' | 'supply' | 'model' | 'default';
   /** The relative tolerance (resistors and sources) or the σ in its own unit (mismatch), as shown to people. */
   figure: number;
+  /** A device's own spread from one part to the next (a JFET's pinch-off voltage), not a mismatch among matched devices. */
+  partSpread?: boolean;
 }
 
 /** A tolerance note in an end-of-line comment: `tol 0.1%` (also `tol=1%`, `tolerance ±2%`); group 1 is the figure in percent. */
@@ -105,6 +115,17 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
       out.push({ label: el.name, group: el.name, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol });
     }
   });
+  // A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too.
+  const spreadSeen = new Set<string>();
+  for (const s of structures) {
+    for (const name of s.devices) {
+      const i = index.get(name);
+      if (i === undefined || spreadSeen.has(name)) continue;
+      spreadSeen.add(name);
+      const el = circuit.elements[i];
+      if (el.kind === 'J') pushJfetSpread(out, el, i);
+    }
+  }
   // Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together.
   const seen = new Set<string>();
   const vt = thermalVoltage(temperatureC);
@@ -120,12 +141,13 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
       const el = circuit.elements[i];
       if (el.kind === 'Q') pushBjt(out, el, i, groupName, vt);
       else if (el.kind === 'M') pushMos(out, el, i, groupName);
+      else if (el.kind === 'J') pushJfetMismatch(out, el, i, groupName);
     }
   }
   return out.filter((x) => x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound));
 }
 
-function figureOf(el: Bjt | Mosfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {
+function figureOf(el: Bjt | Mosfet | Jfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {
   const v = el.model.params[name];
   if (v !== undefined && Number.isFinite(v) && v >= 0) return { value: v, from: el.model.given.includes(name) ? 'model' : 'default' };
   return { value: MISMATCH_DEFAULTS[name], from: 'default' };
@@ -163,5 +185,31 @@ function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: (what: st
   const rel = b.value / Math.sqrt(2 * area);
   if (kp > 0 && rel > 0) {
     out.push({ label: `${el.name} KP`, group: group('KP'), aspect: 'KP', element: el.name, parameter: { kind: 'model', element: i, param: 'KP' }, nominal: kp, sigma: rel * kp, bound: 3 * rel * kp, from: b.from, figure: rel });
+  }
+}
+
+/** A JFET's own pinch-off spread: σ = SPREADVTO·|VTO| on VTO, independent of every other part. */
+function pushJfetSpread(out: ToleranceSource[], el: Jfet, i: number): void {
+  const vto = modelValue(el, 'VTO');
+  const spread = figureOf(el, 'SPREADVTO');
+  const sigma = spread.value * Math.abs(vto);
+  if (!(sigma > 0)) return;
+  const label = `${el.name} VTO spread`;
+  out.push({ label, group: label, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: vto, sigma, bound: 3 * sigma, from: spread.from, figure: sigma, partSpread: true });
+}
+
+/** The mismatch of a JFET among its structure's matched devices: VTO by MATCHVTO, BETA by MATCHBETA, each falling as 1/√(area·M). */
+function pushJfetMismatch(out: ToleranceSource[], el: Jfet, i: number, group: (what: string) => string): void {
+  const units = Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30);
+  const vto = figureOf(el, 'MATCHVTO');
+  const sigmaV = vto.value / Math.sqrt(2 * units);
+  if (sigmaV > 0) {
+    out.push({ label: `${el.name} VTO`, group: group('VTO'), aspect: 'VTO', element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaV, bound: 3 * sigmaV, from: vto.from, figure: sigmaV });
+  }
+  const beta = modelValue(el, 'BETA');
+  const b = figureOf(el, 'MATCHBETA');
+  const rel = b.value / Math.sqrt(2 * units);
+  if (beta > 0 && rel > 0) {
+    out.push({ label: `${el.name} BETA`, group: group('BETA'), aspect: 'BETA', element: el.name, parameter: { kind: 'model', element: i, param: 'BETA' }, nominal: beta, sigma: rel * beta, bound: 3 * rel * beta, from: b.from, figure: rel });
   }
 }

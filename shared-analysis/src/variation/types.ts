@@ -67,8 +67,9 @@ export interface OutputVariation {
 /** One source of spread as used, for the report. */
 export interface SourceSummary {
   name: string;
-  kind: 'resistor' | 'source' | 'mismatch';
-  /** Relative tolerance (resistors, sources), σ in volts (VBE, VTH) or relative σ (β, KP). */
+  /** `part spread`: a device's own spread from one part to the next (a JFET's pinch-off voltage). */
+  kind: 'resistor' | 'source' | 'mismatch' | 'part spread';
+  /** Relative tolerance (resistors, sources), σ in volts (VBE, VTH, a JFET's VTO) or relative σ (β, KP, BETA). */
   figure: number;
   from: 'card' | 'series' | 'setting' | 'supply' | 'model' | 'default';
 }
