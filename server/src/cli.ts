@@ -706,7 +706,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
             : powerTable(a.circuit.elements, op.devices, a.options),
         }
       : {}),
-    ...(a ? { structures: a.structures.map((s) => ({ toJSON: () => structureForJson(s, options) })) } : {}),
+    ...(a ? { structures: structuresForJson(a.structures, options) } : {}),
     ...(a?.variation ? { variation: variationForJson(a.variation, a.structures, options) } : {}),
   };
 }
@@ -752,18 +752,32 @@ function pointForJson(op: OperatingPoint): unknown {
 }
 
 /**
+ * A file's structures as JSON shows them: each entry made when it is written (`toJSON`) and dropped
+ * after, the corners' keys worked out once per label (the structures share the same few corners).
+ */
+function structuresForJson(structures: readonly Structure[], detail: JsonDetail): unknown[] {
+  const keys = new Map<string, string>();
+  const keyOf = (label: string): string => {
+    let k = keys.get(label);
+    if (k === undefined) keys.set(label, (k = cornerKey(label)));
+    return k;
+  };
+  return structures.map((s) => ({ toJSON: () => structureForJson(s, detail, keyOf) }));
+}
+
+/**
  * A structure as JSON shows it: every field, with `corners` replaced by `cornerSummary` (per output
  * the lowest and highest current and the lowest headroom, each with its corner, and where it leaves
  * its region) unless every corner is asked for, when both are written, and the estimate without its
  * `steps` unless they are asked for. A plain object of a few hundred values, so the writer hands it
  * to the native JSON writer in one call (a structure written member by member cost about twice as much).
  */
-function structureForJson(s: Structure, detail: JsonDetail): Record<string, unknown> {
+function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: string) => string): Record<string, unknown> {
   const out: Record<string, unknown> = {};
   const fields = s as unknown as Record<string, unknown>;
   for (const k of Object.keys(s)) {
     if (k === 'corners') {
-      const summary = cornerSummary(s);
+      const summary = cornerSummary(s, keyOf);
       if (summary) out['cornerSummary'] = summary;
       if (detail.allCorners) out['corners'] = s.corners;
     } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
@@ -807,7 +821,7 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail): unknown {
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */
-function cornerSummary(s: Structure): unknown {
+function cornerSummary(s: Structure, keyOf: (label: string) => string): unknown {
   const cols = cornerColumns(s);
   const total = cols ? cols.axis.labels.length : s.corners.length;
   if (total === 0) return undefined;
@@ -817,17 +831,17 @@ function cornerSummary(s: Structure): unknown {
     converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
     outputs: summaries.map((o) => ({
       device: o.device,
-      ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent) } : {}),
-      ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent) } : {}),
-      ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom) } : {}),
-      outOfRegionAt: o.outOfRegionAt.map(cornerKey),
+      ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent, keyOf) } : {}),
+      ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent, keyOf) } : {}),
+      ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom, keyOf) } : {}),
+      outOfRegionAt: o.outOfRegionAt.map(keyOf),
     })),
   };
 }
 
 /** A value at a corner: the corner's ASCII key and its label as people read it. */
-function cornerValue(x: { value: number; corner: string }): { value: number; corner: string; label: string } {
-  return { value: x.value, corner: cornerKey(x.corner), label: x.corner };
+function cornerValue(x: { value: number; corner: string }, keyOf: (label: string) => string): { value: number; corner: string; label: string } {
+  return { value: x.value, corner: keyOf(x.corner), label: x.corner };
 }
 
 /**

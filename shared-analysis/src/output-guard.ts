@@ -68,14 +68,12 @@ function pathOf(root: string, keys: readonly (string | number)[], last: string |
 function walkFinite(value: unknown, root: string, keys: (string | number)[], removed: string[], seen: Set<object>): void {
   if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value)) return;
   const lazy = lazyHolders.has(value);
-  // Only a container (something holding objects) is remembered: it is where a shared object or a
-  // cycle would be reached again. An object of numbers and strings reached twice is simply looked
-  // at twice, which finds nothing the second time; remembering every such leaf cost more than the
-  // rest of the walk.
-  if (lazy || holdsObject(value)) {
-    if (seen.has(value)) return;
-    seen.add(value);
-  }
+  // Only a container (something holding objects) is remembered, when its first object is met: it is
+  // where a shared object or a cycle would be reached again. An object of numbers and strings reached
+  // twice is simply looked at twice, which finds nothing the second time; remembering every such leaf
+  // cost more than the rest of the walk, and so did scanning each object first to see whether it holds one.
+  let remembered = lazy;
+  if (lazy && !remember(value, seen)) return;
   if (Array.isArray(value)) {
     let kept = 0;
     for (let i = 0; i < value.length; i++) {
@@ -86,6 +84,8 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
           continue;
         }
       } else if (v !== null && typeof v === 'object') {
+        // Walked before: its numbers were cleaned then, so nothing before this item was dropped now.
+        if (!remembered && !(remembered = remember(value, seen))) return;
         keys.push(i);
         walkFinite(v, root, keys, removed, seen);
         keys.pop();
@@ -96,8 +96,10 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
     return;
   }
   const record = value as Record<string, unknown>;
-  for (const key in record) {
-    if (!Object.prototype.hasOwnProperty.call(record, key)) continue;
+  // Own enumerable names, as for-in with an own-property test would give them, at a fraction of its cost.
+  const names = Object.keys(record);
+  for (let k = 0; k < names.length; k++) {
+    const key = names[k]!;
     // A table built on first read is finite by construction, clamped where it is built; reading it
     // here would build it for nothing.
     if (lazy && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
@@ -108,6 +110,7 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
         delete record[key];
       }
     } else if (v !== null && typeof v === 'object') {
+      if (!remembered && !(remembered = remember(value, seen))) return;
       keys.push(key);
       walkFinite(v, root, keys, removed, seen);
       keys.pop();
@@ -115,22 +118,11 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
   }
 }
 
-/** Whether an array or a plain object (not one registered with `markLazyTables`) holds an object among its values. */
-function holdsObject(value: object): boolean {
-  if (Array.isArray(value)) {
-    for (let i = 0; i < value.length; i++) {
-      const v: unknown = value[i];
-      if (v !== null && typeof v === 'object') return true;
-    }
-    return false;
-  }
-  const record = value as Record<string, unknown>;
-  for (const key in record) {
-    if (!Object.prototype.hasOwnProperty.call(record, key)) continue;
-    const v = record[key];
-    if (v !== null && typeof v === 'object') return true;
-  }
-  return false;
+/** Remembers `o` as walked; false when it was already. */
+function remember(o: object, seen: Set<object>): boolean {
+  if (seen.has(o)) return false;
+  seen.add(o);
+  return true;
 }
 
 /**
