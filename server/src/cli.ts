@@ -689,21 +689,27 @@ function jsonOf(o: FileOutcome): unknown {
   return o.jsonPieces ? new JsonText(o.jsonPieces) : o.json;
 }
 
-/** One file's entry of the JSON document. */
+/**
+ * One file's entry of the JSON document. What is written later (the streamed tables, the
+ * structures) holds the parts it reads, never the Analysis, so the parsed documents, symbols and
+ * findings can be collected before the document is written (about a tenth of a large array's heap).
+ */
 function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
   const a = r.analysis;
   const op = a?.operatingPoint;
   const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
+  const elements = a?.circuit?.elements;
+  const analysisOptions = a?.options;
   return {
     path: r.path,
     diagnostics: toJsonDiagnostics(r),
     ...(op && a ? { operatingPoint: pointForJson(op) } : {}),
-    ...(op && a?.circuit && reader
+    ...(op && elements && analysisOptions && reader
       ? {
           // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
-          power: namesUnique(a.circuit.elements)
-            ? new JsonEntries(() => powerEntries(a.circuit!.elements, (e) => reader.record(e), a.options))
-            : powerTable(a.circuit.elements, op.devices, a.options),
+          power: namesUnique(elements)
+            ? new JsonEntries(() => powerEntries(elements, (e) => reader.record(e), analysisOptions))
+            : powerTable(elements, op.devices, analysisOptions),
         }
       : {}),
     ...(a ? { structures: structuresForJson(a.structures, options) } : {}),

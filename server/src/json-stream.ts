@@ -60,6 +60,49 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
   };
   const colon = step ? ': ' : ':';
 
+  /** The native writer's text of `v` at `indent`: its first line unindented, the rest indented as the document needs. */
+  const native = (v: unknown, indent: string): string => (step && indent ? indented(v, indent.length / step.length, step) : JSON.stringify(v, null, step));
+
+  /**
+   * Gathers consecutive items of a list or members of an object that are each of modest size and
+   * hold no JsonEntries into one list (object) of at most `SMALL_BUDGET` values, which the native
+   * writer writes in one call: its text without the brackets is the items' text with their
+   * separators and indentation, as writing them one by one gives. A call per item (a device
+   * record, a structure) cost more than writing the item.
+   */
+  class Batch {
+    private items: unknown[] | Record<string, unknown> | undefined;
+    private used = 0;
+
+    constructor(
+      private readonly list: boolean,
+      private readonly indent: string,
+      private readonly separate: () => void,
+    ) {}
+
+    /** Takes the item (member `key` of an object) when it is small enough; false when it must be written alone. */
+    add(item: unknown, key?: string): boolean {
+      const w = weight(item);
+      if (w < 0) return false;
+      if (this.used + w > SMALL_BUDGET) this.write();
+      if (this.list) ((this.items ??= []) as unknown[]).push(item);
+      else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
+      this.used += w;
+      return true;
+    }
+
+    /** Writes what was gathered (after the separator before it) and starts again. */
+    write(): void {
+      if (this.items === undefined) return;
+      const text = native(this.items, this.indent);
+      this.items = undefined;
+      this.used = 0;
+      this.separate();
+      // Cut the brackets: "[" … "]" compact; "[" … "\n" + indent + "]" indented.
+      emit(text.slice(1, text.length - (step ? this.indent.length + 2 : 1)));
+    }
+  }
+
   /** Writes v (already known to be writable) at the given indentation. */
   const put = (v: unknown, indent: string): void => {
     if (v instanceof JsonText) {
@@ -70,18 +113,17 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       putObject(v.entries(), indent);
       return;
     }
-    if (v !== null && typeof v === 'object' && typeof (v as { toJSON?: unknown }).toJSON === 'function') {
-      v = (v as { toJSON(key: string): unknown }).toJSON('');
-    }
+    v = resolved(v);
     if (v === null || typeof v !== 'object') {
       emit(JSON.stringify(v) ?? 'null');
       return;
     }
     // A value of modest size holding no JsonEntries (a record, a range, a structure's estimate with
     // its steps) is written whole by the native writer, re-indented: one call instead of a call per
-    // member. Lists and objects that are large, or hold JsonEntries, are walked.
-    if (small(v)) {
-      emit(step && indent ? indented(v, indent.length / step.length, step) : JSON.stringify(v, null, step));
+    // member. Lists and objects that are large, or hold JsonEntries, are walked, their small items
+    // gathered into batches.
+    if (weight(v) >= 0) {
+      emit(native(v, indent));
       return;
     }
     if (Array.isArray(v)) {
@@ -90,14 +132,21 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
         return;
       }
       const inner = indent + step;
-      emit('[');
+      let first = true;
+      const separate = (): void => {
+        emit(first ? '[' : ',');
+        first = false;
+      };
+      const batch = new Batch(true, indent, separate);
       for (let i = 0; i < v.length; i++) {
-        if (i > 0) emit(',');
+        const item = resolved(v[i]);
+        if (batch.add(item)) continue;
+        batch.write();
+        separate();
         if (step) emit('\n' + inner);
-        const item = v[i];
-        if (item === undefined || typeof item === 'function' || typeof item === 'symbol') emit('null');
-        else put(item, inner);
+        put(item, inner);
       }
+      batch.write();
       if (step) emit('\n' + indent);
       emit(']');
       return;
@@ -109,14 +158,24 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
   const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
     const inner = indent + step;
     let first = true;
-    for (const [k, item] of members) {
-      if (item === undefined || typeof item === 'function' || typeof item === 'symbol') continue;
+    const separate = (): void => {
       emit(first ? '{' : ',');
       first = false;
+    };
+    const batch = new Batch(false, indent, separate);
+    for (const [k, member] of members) {
+      if (member === undefined || typeof member === 'function' || typeof member === 'symbol') continue;
+      const item = resolved(member);
+      // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
+      if (item !== undefined && typeof item !== 'function' && typeof item !== 'symbol' && !ARRAY_INDEX.test(k) && batch.add(item, k)) continue;
+      batch.write();
+      if (item === undefined || typeof item === 'function' || typeof item === 'symbol') continue;
+      separate();
       if (step) emit('\n' + inner);
       emit(JSON.stringify(k) + colon);
       put(item, inner);
     }
+    batch.write();
     if (first) emit('{}');
     else {
       if (step) emit('\n' + indent);
@@ -149,20 +208,33 @@ function indented(v: unknown, depth: number, step: string): string {
 /** Values (numbers, strings, members, items) a subtree may hold and still be written by one native call. */
 const SMALL_BUDGET = 4096;
 
+/** A canonical array index ("0", "17"): an object lists such names first, whatever the order they were set in. */
+const ARRAY_INDEX = /^(?:0|[1-9][0-9]{0,9})$/;
+
+/** `v` as the writer writes it: what its `toJSON` gives, when it has one (called with '' as the writer's own items are). */
+function resolved(v: unknown): unknown {
+  if (v !== null && typeof v === 'object' && !(v instanceof JsonEntries) && !(v instanceof JsonText) && typeof (v as { toJSON?: unknown }).toJSON === 'function') {
+    return (v as { toJSON(key: string): unknown }).toJSON('');
+  }
+  return v;
+}
+
 /**
- * Whether `v` holds at most `SMALL_BUDGET` values and no `JsonEntries` anywhere: a bounded walk
+ * How many values (numbers, strings, members, items) `v` holds, when that is at most
+ * `SMALL_BUDGET` and it holds no `JsonEntries` or `JsonText` anywhere; otherwise −1. A bounded walk
  * that stops as soon as the answer is no. Members read through a getter are read here too, as the
  * native writer would read them.
  */
-function small(v: object): boolean {
+function weight(v: unknown): number {
+  if (v === null || typeof v !== 'object') return 1;
   let budget = SMALL_BUDGET;
   const stack: object[] = [v];
   while (stack.length > 0) {
     const o = stack.pop()!;
-    if (o instanceof JsonEntries || o instanceof JsonText) return false;
+    if (o instanceof JsonEntries || o instanceof JsonText) return -1;
     if (Array.isArray(o)) {
       budget -= o.length + 1;
-      if (budget < 0) return false;
+      if (budget < 0) return -1;
       for (let i = 0; i < o.length; i++) {
         const item: unknown = o[i];
         if (item !== null && typeof item === 'object') stack.push(item);
@@ -172,18 +244,18 @@ function small(v: object): boolean {
     if (ArrayBuffer.isView(o)) {
       // The native writer writes a typed array as an object of its indices.
       budget -= (o as unknown as ArrayLike<unknown>).length ?? 0;
-      if (budget < 0) return false;
+      if (budget < 0) return -1;
       continue;
     }
     for (const k in o) {
       if (!Object.prototype.hasOwnProperty.call(o, k)) continue;
-      if (--budget < 0) return false;
+      if (--budget < 0) return -1;
       const item: unknown = (o as Record<string, unknown>)[k];
       if (item !== null && typeof item === 'object') stack.push(item);
     }
     budget--;
   }
-  return true;
+  return SMALL_BUDGET - budget;
 }
 
 function* members(o: Record<string, unknown>, keys: string[]): Iterable<readonly [string, unknown]> {

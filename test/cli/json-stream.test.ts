@@ -73,6 +73,19 @@ describe('writeJson', () => {
     for (const indent of [0, 2]) expect(written(doc, indent).text).toBe(JSON.stringify(doc, null, indent));
   });
 
+  it('keeps the order of JsonEntries members among gathered ones, integer-like and prototype names included', () => {
+    const entries = new JsonEntries(function* () {
+      yield ['b', 1];
+      yield ['2', { x: 1 }];
+      yield ['a', [3]];
+      yield ['__proto__', 4];
+      yield ['10', 'ten'];
+    });
+    // Written out by hand: an object would list "2" and "10" first (ECMA-262, OrdinaryOwnPropertyKeys).
+    expect(written({ e: entries }).text).toBe('{"e":{"b":1,"2":{"x":1},"a":[3],"__proto__":4,"10":"ten"}}');
+    expect(written({ e: entries }, 2).text).toBe('{\n  "e": {\n    "b": 1,\n    "2": {\n      "x": 1\n    },\n    "a": [\n      3\n    ],\n    "__proto__": 4,\n    "10": "ten"\n  }\n}');
+  });
+
   it('hands a long document over in pieces, never as one string', () => {
     const rows = new JsonEntries(function* () {
       for (let i = 0; i < 50000; i++) yield [`R${i}`, { type: 'resistor', current: i * 1e-6, voltage: 1, power: i * 1e-6 }];
