@@ -16,6 +16,8 @@ import { spreadOf } from '../../shared-analysis/src/variation/index';
 import { fixture } from '../unit/structures/fixtures';
 import { multiplier, selfBiasedLoop, wideSwing } from '../unit/structures/kinds/circuits';
 import { CircuitBuilder } from '../unit/structures/build';
+import { analyseSession } from '../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
 
 // Source: BIPM SI Brochure, 9th ed. (2019): k and q exact.
 const VT27 = (1.380649e-23 * 300.15) / 1.602176634e-19;
@@ -194,11 +196,12 @@ describe('adjoint sensitivities against finite differences of re-solves', () => 
 });
 
 /**
- * Every closed-form device derivative (`DeviceTable.sensitivity`: temperature, IS, BF, VTO, KP, W, L) against central
+ * Every closed-form device derivative (`DeviceTable.sensitivity`: temperature, IS, BF, VTO, KP, W, L, BETA) against central
  * finite differences of full re-solves, on devices of our own invention that reach every branch of the equations: a
  * Gummel–Poon NPN with leakage, high injection, both Early voltages and ohmic resistances away from Tnom, in
  * forward-active and in saturation, a PNP, MOSFETs with body effect and temperature terms in saturation, in triode and
- * with the channel reversed, and a diode (its kind has no closed forms, so it is differenced numerically).
+ * with the channel reversed, JFETs (temperature, VTO, BETA) in every region, reversed and with a conducting gate, and a
+ * diode (its kind has no closed forms, so it is differenced numerically).
  */
 describe('device derivatives against finite differences of re-solves', () => {
   type Read = { element: string; terminal: number };
@@ -208,6 +211,7 @@ describe('device derivatives against finite differences of re-solves', () => {
     if (rec.type === 'bjt') return [rec.ic, rec.ib, rec.ie][r.terminal];
     if (rec.type === 'mosfet') return r.terminal === 0 ? rec.id : r.terminal === 2 ? -rec.id : 0;
     if (rec.type === 'diode') return r.terminal === 0 ? rec.id : -rec.id;
+    if (rec.type === 'jfet') return [rec.id, rec.ig, -rec.id - rec.ig][r.terminal];
     throw new Error(`no current read for ${rec.type}`);
   };
   const compare = (build: (change?: { element: string; param: string; value: number }) => Circuit, reads: Read[], deviceParams: string[]): number => {
@@ -328,6 +332,39 @@ describe('device derivatives against finite differences of re-solves', () => {
     expect(compare(build, all(['M1', 'M2', 'M3', 'M4'], [0, 2]), ['VTO', 'KP', 'W', 'L'])).toBe(8 * 17);
   });
 
+
+  it('JFETs with temperature terms, N- and P-channel, saturated, linear, swapped and with a conducting gate: temperature, VTO, BETA', () => {
+    // Our own circuit: five JFETs, each in one branch of the equations, at 60 °C (away from Tnom).
+    const text = `jfet derivatives
+.temp 60
+VDD vdd 0 12
+RD1 vdd d1 2k
+J1 d1 0 s1 nj
+RS1 s1 0 1k
+RD2 vdd d2 20k
+J2 d2 0 0 nj
+RY3 vdd y3 5k
+J3 x3 0 y3 nj
+RX3 x3 0 1k
+RG4 vdd g4 100k
+J4 d4 g4 0 nj
+RD4 vdd d4 1k
+RS5 vdd s5 1k
+J5 d5 vdd s5 pj
+RD5 d5 0 2k
+.model nj njf (VTO=-2 BETA=1m LAMBDA=0.02 IS=1e-14 N=1.1 VTOTC=-2.5m BETATCE=-0.5 XTI=3 EG=1.11)
+.model pj pjf (VTO=-1.5 BETA=0.5m LAMBDA=0.01 IS=2e-14 VTOTC=2m BETATCE=-0.6)
+.end
+`;
+    const build = (): Circuit => analyseSession({ uri: 'mem://jfets.cir', text }, new MemoryWorkspace({}), { corners: { enabled: false }, variation: { enabled: false } }).analysis.circuit!;
+    const devices = new DcSolver(build()).solve().op.devices as Record<string, { region: string; vds: number; ig: number }>;
+    expect(devices.J1.region).toBe('saturation');
+    expect(devices.J2.region).toBe('linear');
+    expect(devices.J3.vds).toBeLessThan(0);
+    expect(devices.J4.ig).toBeGreaterThan(1e-5);
+    expect(devices.J5.region).toBe('saturation');
+    expect(compare(build, all(['J1', 'J2', 'J3', 'J4', 'J5'], [0, 1, 2]), ['VTO', 'BETA'])).toBe(15 * 11);
+  });
   it('a diode (differenced numerically, its kind has no closed forms): temperature', () => {
     const build = (): Circuit => {
       const b = new CircuitBuilder();

@@ -2,11 +2,11 @@
 
 import type { Jfet } from '../circuit';
 import type { JfetRecord, JfetRegion } from '../solve/types';
-import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { allocateColumns, deviceKind } from './device';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt } from './physics';
+import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt } from './physics';
 
 /** Channel parameters of one JFET at the solve's temperature, own polarity. */
 export interface JfetParams {
@@ -108,6 +108,8 @@ export class JfetTable implements DeviceTable {
   private readonly n: number;
   private readonly sign: Float64Array;
   private readonly betaNom: Float64Array;
+  /** area·M: BETA of the card to BETA of the instance. */
+  private readonly betaScale: Float64Array;
   private readonly vtoNom: Float64Array;
   private readonly vtotc: Float64Array;
   private readonly betatce: Float64Array;
@@ -133,6 +135,7 @@ export class JfetTable implements DeviceTable {
     const col = (): Float64Array => new Float64Array(n);
     this.sign = col();
     this.betaNom = col();
+    this.betaScale = col();
     this.vtoNom = col();
     this.vtotc = col();
     this.betatce = col();
@@ -157,6 +160,7 @@ export class JfetTable implements DeviceTable {
       const area = elementParam(element, 'AREA', element.area, 'positive', 0, issues);
       const mult = elementParam(element, 'M', element.m, 'positive', 0, issues);
       const scale = area * mult;
+      this.betaScale[i] = scale;
       this.betaNom[i] = modelParam(element, md, 'BETA', 'non-negative', issues) * scale;
       this.vtoNom[i] = modelParam(element, md, 'VTO', 'finite', issues);
       this.vtotc[i] = modelParam(element, md, 'VTOTC', 'finite', issues);
@@ -322,6 +326,86 @@ export class JfetTable implements DeviceTable {
     if (vgd / this.nvt[i] > EXP_ARG_LIMIT) out.push({ junction: 'gate-drain junction', volts: vgd });
     return out;
   }
+
+  /**
+   * Exact partial derivatives at fixed terminal voltages (docs/VARIATION.md), for the temperature,
+   * VTO and BETA: the channel through the square law's gm and gds and its current per unit of
+   * BETA (it is linear in it), the gate junctions through their exponentials; VTO(T) = VTO +
+   * VTOTC·ΔT, BETA(T) = BETA·1.01^(BETATCE·ΔT), d ln IS/dT = XTI/T + EG·q/(k·T²) and N·VT ∝ T.
+   */
+  sensitivity(x: Float64Array, c: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined {
+    for (const p of params) if (p !== TEMPERATURE_PARAMETER && p !== 'VTO' && p !== 'BETA') return undefined;
+    const out = allocateSensitivity(this.n, T, T, params.length);
+    const t = this.instances.terminals;
+    const ev = this.scratch;
+    const gmin = this.gmin;
+    const tk = c.temperatureC + ZERO_CELSIUS_K;
+    for (let i = 0; i < this.n; i++) {
+      const s = this.sign[i];
+      const vs = voltage(x, t[i * T + S]);
+      const vgs = s * (voltage(x, t[i * T + G]) - vs);
+      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vgd = vgs - vds;
+      const forward = vds >= 0;
+      const beta = this.beta[i];
+      const vto = this.vto[i];
+      const lambda = this.lambda[i];
+      // The channel per unit of BETA(T), then at BETA(T); swapped, the drain acts as source.
+      if (forward) jfetCore(vgs, vds, 1, vto, lambda, ev);
+      else jfetCore(vgd, -vds, 1, vto, lambda, ev);
+      const perBeta = forward ? ev[ID] : -ev[ID];
+      if (forward) jfetCore(vgs, vds, beta, vto, lambda, ev);
+      else jfetCore(vgd, -vds, beta, vto, lambda, ev);
+      const ich = forward ? ev[ID] : -ev[ID];
+      const byVgs = forward ? ev[GM] : -ev[GM];
+      const byVds = forward ? ev[GDS] : ev[GM] + ev[GDS];
+      const is = this.is[i];
+      const nvt = this.nvt[i];
+      const ejs = guardedExpValue(vgs / nvt);
+      const ejd = guardedExpValue(vgd / nvt);
+      const gjs = (is / nvt) * guardedExpSlope(vgs / nvt) + gmin;
+      const gjd = (is / nvt) * guardedExpSlope(vgd / nvt) + gmin;
+      const igs = is * (ejs - 1) + gmin * vgs;
+      const igd = is * (ejd - 1) + gmin * vgd;
+      // Own-frame currents into D and G and their partials in vgs and vds; S carries the rest. The polarity sign cancels in the voltage partials.
+      const row = i * T;
+      out.current[row + D] = s * (ich - igd + gmin * vds);
+      out.current[row + G] = s * (igs + igd);
+      out.current[row + S] = -out.current[row + D] - out.current[row + G];
+      setVoltagePartials(out.currentByVoltage, row, D, byVgs - gjd, byVds + gjd + gmin);
+      setVoltagePartials(out.currentByVoltage, row, G, gjs + gjd, -gjd);
+      for (let k = 0; k < T; k++) out.currentByVoltage[(row + S) * T + k] = -out.currentByVoltage[(row + D) * T + k] - out.currentByVoltage[(row + G) * T + k];
+      // Junction current per kelvin at a fixed voltage v: IS·(d ln IS/dT)·(e − 1) − IS·e'·v/(N·VT·T).
+      const lnIsPerK = this.xti[i] / tk + (this.eg[i] * ELEMENTARY_CHARGE) / (BOLTZMANN * tk * tk);
+      const junctionPerK = (v: number, e: number): number => is * lnIsPerK * (e - 1) - ((is * guardedExpSlope(v / nvt)) * v) / (nvt * tk);
+      for (let k = 0; k < params.length; k++) {
+        const p = params[k];
+        let dD: number;
+        let dG = 0;
+        if (p === 'VTO') dD = -byVgs;
+        else if (p === 'BETA') dD = perBeta * this.betaScale[i] * jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, c.tnomC).betaFactor;
+        else {
+          const jd = junctionPerK(vgd, ejd);
+          dD = -byVgs * this.vtotc[i] + perBeta * beta * this.betatce[i] * Math.log(1.01) - jd;
+          dG = junctionPerK(vgs, ejs) + jd;
+        }
+        const r = out.residualByParam[k];
+        const q = out.currentByParam[k];
+        q[row + D] = r[row + D] = s * dD;
+        q[row + G] = r[row + G] = s * dG;
+        q[row + S] = r[row + S] = -s * (dD + dG);
+      }
+    }
+    return out;
+  }
+}
+
+/** The row of ∂(current into terminal `term`)/∂(terminal voltages) of one instance from its own-frame partials in vgs = VG − VS and vds = VD − VS. */
+function setVoltagePartials(w: Float64Array, row: number, term: number, byVgs: number, byVds: number): void {
+  const q = (row + term) * T;
+  w[q + G] = byVgs;
+  w[q + D] = byVds;
+  w[q + S] = -byVgs - byVds;
 }
 
 /** One channel row (effective drain or source): gm to (G, effS), gds to (effD, effS), and the equivalent current on unknown `k`; values carry the row's sign. */
