@@ -200,8 +200,8 @@ describe('adjoint sensitivities against finite differences of re-solves', () => 
  * finite differences of full re-solves, on devices of our own invention that reach every branch of the equations: a
  * Gummel–Poon NPN with leakage, high injection, both Early voltages and ohmic resistances away from Tnom, in
  * forward-active and in saturation, a PNP, MOSFETs with body effect and temperature terms in saturation, in triode and
- * with the channel reversed, JFETs (temperature, VTO, BETA) in every region, reversed and with a conducting gate, and a
- * diode (its kind has no closed forms, so it is differenced numerically).
+ * with the channel reversed, JFETs (temperature, VTO, BETA) in every region, reversed and with a conducting gate, and
+ * diodes (temperature) forward with RS and in breakdown.
  */
 describe('device derivatives against finite differences of re-solves', () => {
   type Read = { element: string; terminal: number };
@@ -365,14 +365,17 @@ RD5 d5 0 2k
     expect(devices.J5.region).toBe('saturation');
     expect(compare(build, all(['J1', 'J2', 'J3', 'J4', 'J5'], [0, 1, 2]), ['VTO', 'BETA'])).toBe(15 * 11);
   });
-  it('a diode (differenced numerically, its kind has no closed forms): temperature', () => {
+  it('diodes, forward with RS and in breakdown with its temperature coefficient: temperature', () => {
     const build = (): Circuit => {
       const b = new CircuitBuilder();
       b.temperatureC = 50;
       b.v('V1', 'a', '0', 3).model('dd', 'd', { IS: 1e-14, N: 1.1, XTI: 3, EG: 1.11, RS: 5 }).r('R1', 'a', 'k', 2.2e3).d('D1', 'k', '0', 'dd');
+      // D2: a 5.1 V zener fed from 12 V, its breakdown voltage drifting with TBV1.
+      b.v('V2', 'h', '0', 12).model('dz', 'd', { IS: 2e-14, BV: 5.1, IBV: 1e-3, NBV: 1.3, TBV1: 4e-4 }).r('R2', 'h', 'z', 1e3).d('D2', '0', 'z', 'dz');
       return b.build();
     };
-    expect(compare(build, [{ element: 'D1', terminal: 0 }], [])).toBe(1);
+    expect((new DcSolver(build()).solve().op.devices.D2 as { region: string }).region).toBe('breakdown');
+    expect(compare(build, all(['D1', 'D2'], [0, 1]), [])).toBe(4);
   });
 });
 

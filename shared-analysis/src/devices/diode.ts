@@ -2,11 +2,11 @@
 
 import type { Diode } from '../circuit';
 import type { DiodeRecord, DiodeRegion } from '../solve/types';
-import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { allocateColumns, deviceKind } from './device';
+import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
+import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, saturationCurrentLogSlope, shiftJunction } from './physics';
 
 /** Current and conductance of the intrinsic junction at voltage vd. */
 export interface DiodeJunction {
@@ -249,6 +249,48 @@ export class DiodeTable implements DeviceTable {
   overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
     const v = this.junctionVoltage(x, i);
     return this.is[i] > 0 && v / this.nvt[i] > EXP_ARG_LIMIT ? [{ junction: 'junction', volts: v }] : [];
+  }
+
+  /**
+   * Exact partial derivatives at fixed terminal voltages (docs/VARIATION.md), for the temperature
+   * only (a diode carries no source of spread of its own): the junction current and its slope as
+   * `diodeJunction` gives them, and per kelvin IS·(d ln IS/dT)·(e − 1) − IS·e'·VD/(N·VT·T) (N·VT ∝ T)
+   * less the breakdown term's IBV·e'(xb)·dxb/dT with xb = −(VD + BV(T))/(NBV·VT) and
+   * dBV/dT = BV·TBV1. The current read at the anode is the junction's (the record's), so RS enters
+   * only through the circuit's equations.
+   */
+  sensitivity(x: Float64Array, c: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined {
+    if (params.some((p) => p !== TEMPERATURE_PARAMETER)) return undefined;
+    const N = 2;
+    const out = allocateSensitivity(this.n, T, N, params.length);
+    const tk = c.temperatureC + ZERO_CELSIUS_K;
+    for (let i = 0; i < this.n; i++) {
+      const vd = this.junctionVoltage(x, i);
+      const is = this.is[i];
+      const nvt = this.nvt[i];
+      const bv = this.bv[i];
+      const j = diodeJunction(vd, is, nvt, this.gmin, bv, this.ibv[i], this.nbvvt[i]);
+      out.current[i * N] = j.id;
+      out.current[i * N + 1] = -j.id;
+      const w = out.currentByVoltage;
+      w[i * N * T + JA] = j.gd;
+      w[i * N * T + JK] = -j.gd;
+      w[(i * N + 1) * T + JA] = -j.gd;
+      w[(i * N + 1) * T + JK] = j.gd;
+      if (params.length === 0) continue;
+      const x0 = vd / nvt;
+      let perK = is * saturationCurrentLogSlope(this.xti[i], this.eg[i], c.temperatureC) * (guardedExpValue(x0) - 1) - (is * guardedExpSlope(x0) * x0) / tk;
+      if (Number.isFinite(bv)) {
+        const nbvvt = this.nbvvt[i];
+        const xb = -(vd + bv) / nbvvt;
+        perK -= this.ibv[i] * guardedExpSlope(xb) * (-(this.bvNom[i] * this.tbv1[i]) / nbvvt - xb / tk);
+      }
+      out.residualByParam[0][i * T + JA] = perK;
+      out.residualByParam[0][i * T + JK] = -perK;
+      out.currentByParam[0][i * N] = perK;
+      out.currentByParam[0][i * N + 1] = -perK;
+    }
+    return out;
   }
 }
 

@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope } from './physics';
 
 /** Channel parameters of one JFET at the solve's temperature, own polarity. */
 export interface JfetParams {
@@ -376,7 +376,7 @@ export class JfetTable implements DeviceTable {
       setVoltagePartials(out.currentByVoltage, row, G, gjs + gjd, -gjd);
       for (let k = 0; k < T; k++) out.currentByVoltage[(row + S) * T + k] = -out.currentByVoltage[(row + D) * T + k] - out.currentByVoltage[(row + G) * T + k];
       // Junction current per kelvin at a fixed voltage v: IS·(d ln IS/dT)·(e − 1) − IS·e'·v/(N·VT·T).
-      const lnIsPerK = this.xti[i] / tk + (this.eg[i] * ELEMENTARY_CHARGE) / (BOLTZMANN * tk * tk);
+      const lnIsPerK = saturationCurrentLogSlope(this.xti[i], this.eg[i], c.temperatureC);
       const junctionPerK = (v: number, e: number): number => is * lnIsPerK * (e - 1) - ((is * guardedExpSlope(v / nvt)) * v) / (nvt * tk);
       for (let k = 0; k < params.length; k++) {
         const p = params[k];

@@ -23,6 +23,12 @@ export function saturationCurrentAt(is: number, xti: number, eg: number, tempera
   return is * Math.pow(t / tnom, xti) * Math.exp(((eg * ELEMENTARY_CHARGE) / BOLTZMANN) * (1 / tnom - 1 / t));
 }
 
+/** d ln IS(T)/dT of `saturationCurrentAt`, per kelvin: XTI/T + EG·q/(k·T²) (at Tnom too: the law is smooth there). */
+export function saturationCurrentLogSlope(xti: number, eg: number, temperatureC: number): number {
+  const t = temperatureC + ZERO_CELSIUS_K;
+  return xti / t + (eg * ELEMENTARY_CHARGE) / (BOLTZMANN * t * t);
+}
+
 /**
  * Largest exponent evaluated exactly. Beyond it the exponential is continued by its
  * tangent line, so a wildly forward-biased junction gives a huge but finite current
