@@ -3,7 +3,7 @@
 import { isBipolar } from '../structures/technology';
 import { circuitIndex, elementNamed } from './circuit-index';
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
-import { DcSolver } from '../solve/dc';
+import { DcSolver, type DcSolveResult } from '../solve/dc';
 import type { OperatingPoint } from '../solve/types';
 import { kindOf, referenceJunctions } from '../structures/catalogue';
 import { measureStructure } from '../structures/measure';
@@ -361,7 +361,34 @@ export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: st
   return { ...circuit, nodes, elements };
 }
 
-const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: DcSolver } | null>>();
+/** What a sizing solves on: a solver, or a block's solver that keeps its answers (`keptSolves`). */
+export type Solves = Pick<DcSolver, 'solve'>;
+
+const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solves } | null>>();
+
+/**
+ * `solver` with each answer kept by the solve's temperature and resistance overrides, for a block
+ * whose solves repeat: a target's sizing solves the unchanged block, refines, and re-solves the
+ * nearest standard values; a finer series' sizing of the same target starts from the same unchanged
+ * block; and the verification of every value offered solves the unchanged block and each value again.
+ * A value's verification now reads the solve its sizing made (a solve of the same circuit with the
+ * same value, started from the unchanged point), so every distinct circuit is solved once. Options
+ * beyond the temperature, the overrides and the initial guess are solved afresh.
+ */
+function keptSolves(solver: DcSolver): Solves {
+  const kept = new Map<string, DcSolveResult>();
+  return {
+    solve: (options = {}) => {
+      // The initial guess changes where Newton starts, not the answer; anything else asks afresh.
+      const { temperatureC, resistances, initialGuess: _start, ...rest } = options;
+      if (Object.keys(rest).length > 0) return solver.solve(options);
+      const key = `${String(temperatureC)}|${JSON.stringify(resistances ?? {})}`;
+      let result = kept.get(key);
+      if (!result) kept.set(key, (result = solver.solve(options)));
+      return result;
+    },
+  };
+}
 
 /**
  * `affectedBlock` of a resistor with a prepared solver of it, kept per circuit and resistor so the
@@ -369,14 +396,14 @@ const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: DcSo
  * circuit is not split there. The block's solution equals the whole circuit's at every element it
  * holds, so a structure inside it can be measured on it.
  */
-export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): { circuit: Circuit; solver: DcSolver } | undefined {
+export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): { circuit: Circuit; solver: Solves } | undefined {
   let perCircuit = blocks.get(circuit);
   if (!perCircuit) blocks.set(circuit, (perCircuit = new Map()));
   const key = `${resistor.name}\u0000${mustHold.map((m) => m.toLowerCase()).sort().join('\u0000')}`;
   let entry = perCircuit.get(key);
   if (entry === undefined) {
     const block = affectedBlock(circuit, resistor, mustHold);
-    entry = block ? { circuit: block, solver: new DcSolver(block) } : null;
+    entry = block ? { circuit: block, solver: keptSolves(new DcSolver(block)) } : null;
     perCircuit.set(key, entry);
   }
   return entry ?? undefined;

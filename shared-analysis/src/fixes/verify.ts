@@ -2,7 +2,7 @@
 
 import { TECHNOLOGIES } from '../structures/technology';
 import type { Circuit } from '../circuit';
-import type { DcSolver } from '../solve/dc';
+import type { Solves } from './resistor-for-current';
 import type { OperatingPoint } from '../solve/types';
 import { measureStructure, type Measurement } from '../structures/measure';
 import { isBipolar } from '../structures/topology';
@@ -15,7 +15,7 @@ export interface Resolved {
 }
 
 /** Solves the circuit with `resistances` (element name -> ohms) in effect and measures the structure; undefined when it does not converge or a value is refused. */
-export function resolveWith(circuit: Circuit, solver: DcSolver, s: Structure, resistances: Record<string, number>, temperatureC: number | undefined): Resolved | undefined {
+export function resolveWith(circuit: Circuit, solver: Solves, s: Structure, resistances: Record<string, number>, temperatureC: number | undefined): Resolved | undefined {
   const result = solver.solve({ temperatureC, resistances });
   if (!result.op.converged || result.findings.some((f) => f.code === 'dc-override-refused')) return undefined;
   return { op: result.op, m: measureStructure(circuit, result.op, s) };
@@ -37,7 +37,7 @@ function outWord(s: Structure): string {
  */
 export function regionChanges(
   circuit: Circuit,
-  solver: DcSolver,
+  solver: Solves,
   s: Structure,
   resistances: Record<string, number>,
   temperatureC: number | undefined,
