@@ -247,20 +247,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     process: specs.map((s) => s.process),
     converged: new Uint8Array(C),
   };
-  const columns: CornerColumns[] = structures.map((s) => {
-    const O = s.outputs.length;
-    const voltageNames = (s.voltages ?? []).map((v) => v.name);
-    return {
-      axis,
-      outputs: s.outputs.map((o) => o.device),
-      iref: new Float64Array(C),
-      iout: new Float64Array(O * C),
-      headroom: new Float64Array(O * C),
-      outOfRegion: new Uint8Array(O * C),
-      voltageNames,
-      voltages: new Float64Array(voltageNames.length * C).fill(NaN),
-    };
-  });
+  const columns = cornerColumnsOf(structures, axis);
   const topology = topologyOf(circuit);
   // Every name a measurement reads resolved once per structure, not once per corner.
   const plans = structures.map((s) => planMeasurement(topology, s));
@@ -342,6 +329,46 @@ export function runCorners(ctx: CornerContext): Finding[] {
     Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs });
   }
   return findings;
+}
+
+/**
+ * Empty corner columns for every structure, each a view of one buffer per quantity for the whole
+ * circuit: a typed array per quantity per structure was an allocation of its own (100,000 of them
+ * at 100,000 elements) scattered over the heap, which every corner then wrote into.
+ */
+function cornerColumnsOf(structures: Structure[], axis: CornerAxis): CornerColumns[] {
+  const C = axis.labels.length;
+  let outputs = 0;
+  let voltages = 0;
+  for (const s of structures) {
+    outputs += s.outputs.length;
+    voltages += s.voltages?.length ?? 0;
+  }
+  const iref = new Float64Array(structures.length * C);
+  const iout = new Float64Array(outputs * C);
+  const headroom = new Float64Array(outputs * C);
+  const outOfRegion = new Uint8Array(outputs * C);
+  const volts = new Float64Array(voltages * C).fill(NaN);
+  let o = 0;
+  let v = 0;
+  return structures.map((s, i) => {
+    const voltageNames = (s.voltages ?? []).map((x) => x.name);
+    const from = o * C;
+    const to = (o + s.outputs.length) * C;
+    const cols: CornerColumns = {
+      axis,
+      outputs: s.outputs.map((x) => x.device),
+      iref: iref.subarray(i * C, (i + 1) * C),
+      iout: iout.subarray(from, to),
+      headroom: headroom.subarray(from, to),
+      outOfRegion: outOfRegion.subarray(from, to),
+      voltageNames,
+      voltages: volts.subarray(v * C, (v + voltageNames.length) * C),
+    };
+    o += s.outputs.length;
+    v += voltageNames.length;
+    return cols;
+  });
 }
 
 function sweepOf(device: string, nominalM: Measurement, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
