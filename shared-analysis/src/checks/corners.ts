@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement } from '../structures/measure';
+import { flattenPlans, measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -251,6 +251,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const topology = topologyOf(circuit);
   // Every name a measurement reads resolved once per structure, not once per corner.
   const plans = structures.map((s) => planMeasurement(topology, s));
+  const flat = flattenPlans(plans);
   let failedCount = 0;
   specs.forEach((spec, k) => {
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
@@ -278,7 +279,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     structures.forEach((s, i) => {
       const col = columns[i];
       col.iref[k] = finite(
-        runMeasurement(plans[i], reader, (o, current, headroom, out) => {
+        runMeasurement(flat, i, reader, (o, current, headroom, out) => {
           col.iout[o * C + k] = finite(current);
           col.headroom[o * C + k] = finite(headroom);
           col.outOfRegion[o * C + k] = out ? 1 : 0;

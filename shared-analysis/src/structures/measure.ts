@@ -41,7 +41,7 @@ export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Struct
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
-  const iref = runMeasurement(plan, readerOf(op, topo), (o, current, room, out) => {
+  const iref = runMeasurement(flattenPlans([plan]), 0, readerOf(op, topo), (o, current, room, out) => {
     const device = plan.outputs[o].device;
     iout[device] = current;
     headroom[device] = room;
@@ -84,57 +84,145 @@ export function planMeasurement(topo: Topology, s: Structure): MeasurementPlan {
   return { refNode, devices, parts, outputs };
 }
 
+// Bits of `MeasurementPlans.devFlags`: the device is bipolar; its output, control or common terminal is on the reference node.
+const DEV_BIPOLAR = 1;
+const DEV_OUT = 2;
+const DEV_CTRL = 4;
+const DEV_COMMON = 8;
+
 /**
- * Measures a planned structure at one point: hands each output's current, headroom and whether it
- * is out of region to `output` (by its position in `plan.outputs`) and returns IREF.
+ * The plans of many structures in flat arrays, structure i's devices at [devStart[i], devStart[i + 1]),
+ * its parts and outputs likewise: what the corner phase reads at every corner for every structure.
+ * A plan as objects (arrays of small records, each output pointing into the topology) was a walk over
+ * scattered memory per structure per corner, which at 100,000 elements cost more than its arithmetic.
  */
-export function runMeasurement(plan: MeasurementPlan, p: PointIndexReader, output: (o: number, current: number, headroom: number, outOfRegion: boolean) => void): number {
+export interface MeasurementPlans {
+  devStart: Int32Array;
+  devE: Int32Array;
+  devFlags: Uint8Array;
+  devRecord: DeviceRecord['type'][];
+  partStart: Int32Array;
+  partE: Int32Array;
+  partSign: Int8Array;
+  outStart: Int32Array;
+  outE: Int32Array;
+  /** Output, control and common node of each output's transistor (3 per output). */
+  outNodes: Int32Array;
+  /** The output's transistor, undefined when the output is no transistor of the circuit. */
+  outT: (Transistor | undefined)[];
+}
+
+/** `plans` as flat arrays, in their order. */
+export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlans {
+  let devices = 0;
+  let parts = 0;
+  let outputs = 0;
+  for (const p of plans) {
+    devices += p.devices.length;
+    parts += p.parts.length;
+    outputs += p.outputs.length;
+  }
+  const f: MeasurementPlans = {
+    devStart: new Int32Array(plans.length + 1),
+    devE: new Int32Array(devices),
+    devFlags: new Uint8Array(devices),
+    devRecord: [],
+    partStart: new Int32Array(plans.length + 1),
+    partE: new Int32Array(parts),
+    partSign: new Int8Array(parts),
+    outStart: new Int32Array(plans.length + 1),
+    outE: new Int32Array(outputs),
+    outNodes: new Int32Array(3 * outputs),
+    outT: [],
+  };
+  let d = 0;
+  let q = 0;
+  let o = 0;
+  plans.forEach((p, i) => {
+    for (const dev of p.devices) {
+      f.devE[d] = dev.e;
+      f.devFlags[d] = (dev.bipolar ? DEV_BIPOLAR : 0) | (dev.out ? DEV_OUT : 0) | (dev.ctrl ? DEV_CTRL : 0) | (dev.common ? DEV_COMMON : 0);
+      f.devRecord.push(dev.record);
+      d++;
+    }
+    for (const part of p.parts) {
+      f.partE[q] = part.e;
+      f.partSign[q] = part.sign;
+      q++;
+    }
+    for (const out of p.outputs) {
+      f.outE[o] = out.e;
+      if (out.t) f.outNodes.set([out.t.out, out.t.ctrl, out.t.common], 3 * o);
+      f.outT.push(out.t);
+      o++;
+    }
+    f.devStart[i + 1] = d;
+    f.partStart[i + 1] = q;
+    f.outStart[i + 1] = o;
+  });
+  return f;
+}
+
+/**
+ * Measures planned structure `i` of `plans` at one point: hands each output's current, headroom and
+ * whether it is out of region to `output` (by its position among the structure's outputs) and returns IREF.
+ */
+export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, output: (o: number, current: number, headroom: number, outOfRegion: boolean) => void): number {
   const v = (node: number) => finite(p.volts(node));
   let iref = 0;
-  for (const d of plan.devices) {
-    const type = p.type(d.e);
-    if (d.bipolar) {
+  for (let d = plans.devStart[i]; d < plans.devStart[i + 1]; d++) {
+    const e = plans.devE[d];
+    const flags = plans.devFlags[d];
+    const type = p.type(e);
+    if (flags & DEV_BIPOLAR) {
       if (type !== 'bjt') continue;
-      if (d.out) iref += finite(p.num(d.e, 'ic'));
-      if (d.ctrl) iref += finite(p.num(d.e, 'ib'));
-      if (d.common) iref += finite(p.num(d.e, 'ie'));
+      if (flags & DEV_OUT) iref += finite(p.num(e, 'ic'));
+      if (flags & DEV_CTRL) iref += finite(p.num(e, 'ib'));
+      if (flags & DEV_COMMON) iref += finite(p.num(e, 'ie'));
     } else {
-      if (type !== d.record) continue;
-      const id = finite(p.num(d.e, 'id'));
+      if (type !== plans.devRecord[d]) continue;
+      const id = finite(p.num(e, 'id'));
       // A JFET's gate draws its junctions' current (leakage when reverse-biased); a MOS gate none.
-      const ig = type === 'jfet' ? finite(p.num(d.e, 'ig')) : 0;
-      if (d.out) iref += id;
-      if (d.ctrl) iref += ig;
-      if (d.common) iref -= id + ig;
+      const ig = type === 'jfet' ? finite(p.num(e, 'ig')) : 0;
+      if (flags & DEV_OUT) iref += id;
+      if (flags & DEV_CTRL) iref += ig;
+      if (flags & DEV_COMMON) iref -= id + ig;
     }
   }
-  for (const part of plan.parts) {
-    const type = p.type(part.e);
+  for (let q = plans.partStart[i]; q < plans.partStart[i + 1]; q++) {
+    const e = plans.partE[q];
+    const type = p.type(e);
     if (!type) continue;
-    const through = type === 'diode' ? p.num(part.e, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(part.e, 'current');
-    iref += part.sign * finite(through);
+    const through = type === 'diode' ? p.num(e, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(e, 'current');
+    iref += plans.partSign[q] * finite(through);
   }
-  plan.outputs.forEach(({ e, t }, o) => {
+  const first = plans.outStart[i];
+  for (let o = first; o < plans.outStart[i + 1]; o++) {
+    const t = plans.outT[o];
     if (!t) {
-      output(o, 0, 0, false);
-      return;
+      output(o - first, 0, 0, false);
+      continue;
     }
+    const e = plans.outE[o];
+    const vOut = v(plans.outNodes[3 * o]);
+    const vCtrl = v(plans.outNodes[3 * o + 1]);
+    const vCommon = v(plans.outNodes[3 * o + 2]);
     const type = p.type(e);
     const sign = polaritySign(t.tech);
     if (isBipolar(t.tech)) {
       const r = type === 'bjt';
       const current = Math.abs(finite(r ? p.num(e, 'ic') : undefined));
-      const headroom = sign * (v(t.out) - v(t.ctrl));
-      const vbe = sign * (v(t.ctrl) - v(t.common));
+      const headroom = sign * (vOut - vCtrl);
+      const vbe = sign * (vCtrl - vCommon);
       const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
-      output(o, current, headroom, !active);
+      output(o - first, current, headroom, !active);
     } else {
       // Field-effect output: headroom VDS − (VGS − VTH), the pinch-off voltage VP standing for VTH in a JFET (own polarity).
       const facts = TECHNOLOGIES[t.tech];
       const r = type === facts.record;
       const current = Math.abs(finite(r ? p.num(e, 'id') : undefined));
-      const vds = sign * (v(t.out) - v(t.common));
-      const vgs = sign * (v(t.ctrl) - v(t.common));
+      const vds = sign * (vOut - vCommon);
+      const vgs = sign * (vCtrl - vCommon);
       const vov = !r
         ? vgs - (facts.family === 'jfet' ? finite(t.element.model.params.VTO) : sign * finite(t.element.model.params.VTO))
         : facts.family === 'jfet'
@@ -142,9 +230,9 @@ export function runMeasurement(plan: MeasurementPlan, p: PointIndexReader, outpu
           : finite(p.num(e, 'vov'));
       const headroom = vds - vov;
       const active = r ? p.region(e) === facts.activeRegion : vov > 0 && vds >= vov;
-      output(o, current, headroom, !active);
+      output(o - first, current, headroom, !active);
     }
-  });
+  }
   return Math.abs(iref);
 }
 
