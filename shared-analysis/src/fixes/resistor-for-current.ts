@@ -361,6 +361,9 @@ export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: st
   return { ...circuit, nodes, elements };
 }
 
+/** The answers of the block being sized (`keptSolves`); another block's first solve empties them. */
+let keptInUse: Map<string, unknown> | undefined;
+
 /** What a sizing solves on: a solver, or a block's solver that keeps its answers (`keptSolves`). */
 export type Solves = Pick<DcSolver, 'solve'>;
 
@@ -373,12 +376,18 @@ const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solv
  * block; and the verification of every value offered solves the unchanged block and each value again.
  * A value's verification now reads the solve its sizing made (a solve of the same circuit with the
  * same value, started from the unchanged point), so every distinct circuit is solved once. Options
- * beyond the temperature, the overrides and the initial guess are solved afresh.
+ * beyond the temperature, the overrides and the initial guess are solved afresh. Only the block in
+ * use keeps its answers: a thousand targets' answers kept at once made the collector's work grow
+ * more than the repeated solves cost.
  */
 function keptSolves(solver: DcSolver): Solves {
   const kept = new Map<string, DcSolveResult>();
   return {
     solve: (options = {}) => {
+      if (keptInUse !== kept) {
+        keptInUse?.clear();
+        keptInUse = kept;
+      }
       // The initial guess changes where Newton starts, not the answer; anything else asks afresh.
       const { temperatureC, resistances, initialGuess: _start, ...rest } = options;
       if (Object.keys(rest).length > 0) return solver.solve(options);
