@@ -132,8 +132,10 @@ export function formatHeadroom(volts: number, technology: string): string {
  * `8.8 % below the estimate`, `matches the estimate` within 0.01 %.
  */
 export function formatDifference(estimate: number, solved: number): string {
-  if (!Number.isFinite(estimate) || !Number.isFinite(solved) || estimate === 0) return 'not comparable with the estimate';
   const rel = (solved - estimate) / Math.abs(estimate);
+  // A zero or subnormal estimate (a 1e-320 A reference) makes the ratio, or the ratio in per cent,
+  // overflow even where both values are finite.
+  if (!Number.isFinite(rel * 100)) return 'not comparable with the estimate';
   const share = formatShare(rel);
   if (share === '≈ 0 %' || share === '0 %') return 'matches the estimate';
   return `${share} ${rel > 0 ? 'above' : 'below'} the estimate`;
@@ -146,5 +148,7 @@ export function formatTargetState(current: number, target: number, tolerance: nu
   const rel = (Math.abs(current) - target) / target;
   const met = Math.abs(rel) <= tolerance * (1 + 1e-9);
   if (met) return { met, text: `on target ${band}` };
+  // A subnormal target makes the ratio in per cent overflow, as in formatDifference.
+  if (!Number.isFinite(rel * 100)) return { met, text: `far above target ${band}` };
   return { met, text: `${formatShare(rel)} ${rel > 0 ? 'above' : 'below'} target ${band}` };
 }

@@ -82,11 +82,20 @@ describe('the view formatting rules (shared-analysis/src/view/format.ts)', () =>
     expect(formatDifference(549e-6, 501e-6)).toBe('8.7 % below the estimate');
     expect(formatDifference(100e-6, 103.1e-6)).toBe('3.1 % above the estimate');
     expect(formatDifference(101e-6, 101e-6 * (1 + 1e-9))).toBe('matches the estimate');
+    // A zero or subnormal estimate has no finite relative difference (1.65e-12 / 1e-320 overflows a
+    // double; fuzz case 919681 of seed 20261202 printed "Infinity % above the estimate").
+    expect(formatDifference(0, 1.65e-12)).toBe('not comparable with the estimate');
+    expect(formatDifference(1e-320, 1.65e-12)).toBe('not comparable with the estimate');
+    expect(formatDifference(Number.NaN, 1e-6)).toBe('not comparable with the estimate');
     expect(formatRange(555e-6, 452e-6, 'A')).toBe('452 µA to 555 µA');
   });
   it('says where a current stands against its target', () => {
     // 501 µA against 450 µA ±2 %: (501 − 450)/450 = +11.3 %, outside the band.
     expect(formatTargetState(501e-6, 450e-6, 0.02)).toEqual({ met: false, text: '11 % above target 450 µA ±2 %' });
     expect(formatTargetState(455e-6, 450e-6, 0.02)).toEqual({ met: true, text: 'on target 450 µA ±2 %' });
+    // 1 µA against a subnormal 1e-320 A target: the ratio in per cent would overflow to Infinity.
+    const subnormal = formatTargetState(1e-6, 1e-320, 0.1);
+    expect(subnormal.met).toBe(false);
+    expect(subnormal.text).toMatch(/^far above target /);
   });
 });
