@@ -172,20 +172,39 @@ function pushBjt(out: ToleranceSource[], el: Bjt, i: number, group: (what: strin
   }
 }
 
+/**
+ * What a field-effect device's mismatch reads: its threshold (VTO, shown as VTH for a MOSFET) and
+ * its gain parameter, and the figures of record that set their σ per unit of area.
+ */
+interface FieldEffectMismatch {
+  threshold: 'VTH' | 'VTO';
+  thresholdFigure: 'MATCHVT' | 'MATCHVTO';
+  gain: 'KP' | 'BETA';
+  gainFigure: 'MATCHKP' | 'MATCHBETA';
+}
+
+const MOS_MISMATCH: FieldEffectMismatch = { threshold: 'VTH', thresholdFigure: 'MATCHVT', gain: 'KP', gainFigure: 'MATCHKP' };
+const JFET_MISMATCH: FieldEffectMismatch = { threshold: 'VTO', thresholdFigure: 'MATCHVTO', gain: 'BETA', gainFigure: 'MATCHBETA' };
+
+/** A field-effect device's threshold and gain mismatch, each device's σ the pair's Pelgrom figure over √(2·area) (docs/VARIATION.md). */
+function pushFieldEffect(out: ToleranceSource[], el: Mosfet | Jfet, i: number, group: (what: string) => string, area: number, m: FieldEffectMismatch): void {
+  const vt = figureOf(el, m.thresholdFigure);
+  const sigmaVt = vt.value / Math.sqrt(2 * area);
+  if (sigmaVt > 0) {
+    out.push({ label: `${el.name} ${m.threshold}`, group: group(m.threshold), aspect: m.threshold, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt });
+  }
+  const gain = modelValue(el, m.gain);
+  const g = figureOf(el, m.gainFigure);
+  const rel = g.value / Math.sqrt(2 * area);
+  if (gain > 0 && rel > 0) {
+    out.push({ label: `${el.name} ${m.gain}`, group: group(m.gain), aspect: m.gain, element: el.name, parameter: { kind: 'model', element: i, param: m.gain }, nominal: gain, sigma: rel * gain, bound: 3 * rel * gain, from: g.from, figure: rel });
+  }
+}
+
 function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: (what: string) => string): void {
   const area = el.w * el.l * el.m;
   if (!(area > 0) || !Number.isFinite(area)) return;
-  const vt = figureOf(el, 'MATCHVT');
-  const sigmaVt = vt.value / Math.sqrt(2 * area);
-  if (sigmaVt > 0) {
-    out.push({ label: `${el.name} VTH`, group: group('VTH'), aspect: 'VTH', element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt });
-  }
-  const kp = modelValue(el, 'KP');
-  const b = figureOf(el, 'MATCHKP');
-  const rel = b.value / Math.sqrt(2 * area);
-  if (kp > 0 && rel > 0) {
-    out.push({ label: `${el.name} KP`, group: group('KP'), aspect: 'KP', element: el.name, parameter: { kind: 'model', element: i, param: 'KP' }, nominal: kp, sigma: rel * kp, bound: 3 * rel * kp, from: b.from, figure: rel });
-  }
+  pushFieldEffect(out, el, i, group, area, MOS_MISMATCH);
 }
 
 /** A JFET's own pinch-off spread: σ = SPREADVTO·|VTO| on VTO, independent of every other part. */
@@ -200,16 +219,5 @@ function pushJfetSpread(out: ToleranceSource[], el: Jfet, i: number): void {
 
 /** The mismatch of a JFET among its structure's matched devices: VTO by MATCHVTO, BETA by MATCHBETA, each falling as 1/√(area·M). */
 function pushJfetMismatch(out: ToleranceSource[], el: Jfet, i: number, group: (what: string) => string): void {
-  const units = Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30);
-  const vto = figureOf(el, 'MATCHVTO');
-  const sigmaV = vto.value / Math.sqrt(2 * units);
-  if (sigmaV > 0) {
-    out.push({ label: `${el.name} VTO`, group: group('VTO'), aspect: 'VTO', element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaV, bound: 3 * sigmaV, from: vto.from, figure: sigmaV });
-  }
-  const beta = modelValue(el, 'BETA');
-  const b = figureOf(el, 'MATCHBETA');
-  const rel = b.value / Math.sqrt(2 * units);
-  if (beta > 0 && rel > 0) {
-    out.push({ label: `${el.name} BETA`, group: group('BETA'), aspect: 'BETA', element: el.name, parameter: { kind: 'model', element: i, param: 'BETA' }, nominal: beta, sigma: rel * beta, bound: 3 * rel * beta, from: b.from, figure: rel });
-  }
+  pushFieldEffect(out, el, i, group, Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30), JFET_MISMATCH);
 }
