@@ -2,10 +2,11 @@
 
 import type { Element } from '../circuit';
 import { endOfLineComments } from '../checks/targets';
-import type { ElementCard, ParsedDocument } from '../syntax/ast';
+import type { ParsedDocument } from '../syntax/ast';
 import type { TextEdit } from '../types';
 import { TOLERANCE_NOTE } from '../variation/sources';
 import { maxOf } from '../arrays';
+import { cardAt } from '../features/document-index';
 
 /** A tolerance as the note writes it: `1`, `0.25`, `0.1` (percent, at most three figures). */
 export function tolerancePercentText(tolerance: number): string {
@@ -23,7 +24,9 @@ export function tolerancePercentText(tolerance: number): string {
 export function toleranceNoteEdit(documents: Record<string, ParsedDocument>, el: Element, tolerance: number): TextEdit | undefined {
   const uri = el.origin.uri;
   const doc = documents[uri];
-  const card = doc?.cards.find((c): c is ElementCard => c.kind === 'element' && c.span.start === el.origin.span.start);
+  // By binary search over the document's cards: an array can carry thousands of these findings.
+  const found = doc ? cardAt(doc, el.origin.span.start) : undefined;
+  const card = found?.kind === 'element' && found.span.start === el.origin.span.start ? found : undefined;
   if (!doc || !card || card.tokens.length === 0) return undefined;
   const figure = tolerancePercentText(tolerance);
   const comments = endOfLineComments(doc.text, card);
