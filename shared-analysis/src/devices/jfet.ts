@@ -281,6 +281,12 @@ export class JfetTable implements DeviceTable {
     }
   }
 
+  /** V(terminal) − V(source) of instance i in its channel's own polarity (an N-channel's sense). */
+  private fromSource(x: Float64Array, i: number, terminal: number): number {
+    const t = this.instances.terminals;
+    return this.sign[i] * (voltage(x, t[i * T + terminal]) - voltage(x, t[i * T + S]));
+  }
+
   evaluate(x: Float64Array): DeviceColumns {
     const out = allocateColumns(QUANTITIES.length, this.n);
     const v = out.values;
@@ -289,9 +295,8 @@ export class JfetTable implements DeviceTable {
     const gmin = this.gmin;
     for (let i = 0; i < this.n; i++) {
       const s = this.sign[i];
-      const vs = voltage(x, t[i * T + S]);
-      const vgs = s * (voltage(x, t[i * T + G]) - vs);
-      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vgs = this.fromSource(x, i, G);
+      const vds = this.fromSource(x, i, D);
       const vgd = vgs - vds;
       const forward = vds >= 0;
       const region = forward ? jfetCore(vgs, vds, this.beta[i], this.vto[i], this.lambda[i], ev) : jfetCore(vgd, -vds, this.beta[i], this.vto[i], this.lambda[i], ev);
@@ -342,9 +347,8 @@ export class JfetTable implements DeviceTable {
     const tk = c.temperatureC + ZERO_CELSIUS_K;
     for (let i = 0; i < this.n; i++) {
       const s = this.sign[i];
-      const vs = voltage(x, t[i * T + S]);
-      const vgs = s * (voltage(x, t[i * T + G]) - vs);
-      const vds = s * (voltage(x, t[i * T + D]) - vs);
+      const vgs = this.fromSource(x, i, G);
+      const vds = this.fromSource(x, i, D);
       const vgd = vgs - vds;
       const forward = vds >= 0;
       const beta = this.beta[i];
