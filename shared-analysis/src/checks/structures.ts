@@ -11,7 +11,7 @@ import { loadResistorOf } from './targets';
 import { KINDS, kindName, kindOf, referenceJunctions } from '../structures/catalogue';
 import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
-import { measureStructure, type Measurement } from '../structures/measure';
+import { flattenPlans, measurePlanned, planMeasurement, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
@@ -100,9 +100,11 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const topo = topologyOf(circuit);
   const rails = [...railsByIndex(circuit).values()].map((r) => r.volts);
   const railRange = { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS };
+  const measuring = op ? nominalMeasuring(topo, structures, op) : undefined;
   for (const s of feedOrder(structures)) {
     try {
-      pushAll(out, new StructureCheck(circuit, topo, s, structures, op, options, railRange).run());
+      const measured = measuring?.measure(s);
+      pushAll(out, new StructureCheck(circuit, topo, s, structures, op, options, railRange, measured).run());
     } catch (err) {
       // A defect in one structure's analysis must not take down the others or the editor.
       const dev = topo.elementByName.get(s.reference.device);
@@ -116,6 +118,15 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
     }
   }
   return applySeverities(out, options);
+}
+
+/** Every structure's measurement at the operating point, its names resolved and its plans flattened once for all structures. */
+function nominalMeasuring(topo: Topology, structures: Structure[], op: OperatingPoint): { measure: (s: Structure) => Measurement } {
+  const plans = flattenPlans(structures.map((s) => planMeasurement(topo, s)));
+  const reader = readerOf(op, topo);
+  const position = new Map<Structure, number>();
+  structures.forEach((s, i) => position.set(s, i));
+  return { measure: (s) => measurePlanned(plans, position.get(s)!, reader, s.outputs) };
 }
 
 /** Structures ordered so that a mirror fed by another mirror's output comes after it. */
@@ -151,7 +162,6 @@ class StructureCheck {
   private readonly bipolar: boolean;
   private readonly temperatureC: number;
   private readonly findings: Finding[] = [];
-  private measured?: Measurement;
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
   private readonly off = new Set<string>();
 
@@ -164,6 +174,8 @@ class StructureCheck {
     private readonly options: ResolvedOptions,
     /** Highest and lowest rail potential of the circuit (the compliance range's outer ends). */
     private readonly railRange: { top: number; bottom: number },
+    /** The structure's measurement at `op` (given with it). */
+    private readonly measured: Measurement | undefined,
   ) {
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
@@ -183,8 +195,7 @@ class StructureCheck {
 
   run(): Finding[] {
     const s = this.s;
-    if (this.op) {
-      this.measured = measureStructure(this.circuit, this.op, s, this.topo);
+    if (this.op && this.measured) {
       for (const d of s.devices) if (recordIsOff(this.op.devices[d])) this.off.add(d);
       s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
       s.headroom = { ...this.measured.headroom };

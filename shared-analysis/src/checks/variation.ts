@@ -37,6 +37,8 @@ const plain = (r: number): string => `${+(r * 100).toPrecision(3)} %`;
  */
 export function checkYield(circuit: Circuit, structures: Structure[], targets: Target[], detail: VariationDetail, yieldTarget: number, documents: Record<string, ParsedDocument>): Finding[] {
   const out: Finding[] = [];
+  // The index costs a pass over every element and structure: a netlist without targets skips it (as checkTargets does).
+  if (targets.length === 0) return out;
   const index = new TargetIndex(circuit, structures);
   const specIndex = new Map<string, number>();
   detail.specs.forEach((s, o) => {

@@ -38,11 +38,20 @@ export interface Measurement {
 export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology, planned?: MeasurementPlan): Measurement {
   const topo = topology ?? topologyOf(circuit);
   const plan = planned ?? planMeasurement(topo, s);
+  return measurePlanned(flattenPlans([plan]), 0, readerOf(op, topo), plan.outputs);
+}
+
+/**
+ * Planned structure `i` of `plans` measured through `reader`, as `measureStructure` reports it;
+ * `outputs` are the structure's outputs in their order. For a caller that measures every structure
+ * at one point: the plans flattened and the reader made once, not once per structure.
+ */
+export function measurePlanned(plans: MeasurementPlans, i: number, reader: PointIndexReader, outputs: readonly { device: string }[]): Measurement {
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
-  const iref = runMeasurement(flattenPlans([plan]), 0, readerOf(op, topo), (o, current, room, out) => {
-    const device = plan.outputs[o].device;
+  const iref = runMeasurement(plans, i, reader, (o, current, room, out) => {
+    const device = outputs[o].device;
     iout[device] = current;
     headroom[device] = room;
     if (out) outOfRegion.push(device);

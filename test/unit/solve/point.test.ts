@@ -4,7 +4,8 @@ import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import { pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
-import { measureStructure } from '../../../shared-analysis/src/structures/measure';
+import { flattenPlans, measurePlanned, measureStructure, planMeasurement, readerOf } from '../../../shared-analysis/src/structures/measure';
+import { topologyOf } from '../../../shared-analysis/src/structures/topology';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { structureVoltages } from '../../../shared-analysis/src/structures/voltages';
 import type { Spec } from './build';
@@ -93,6 +94,10 @@ describe('operating point vectors', () => {
       expect(measureStructure(c, op, s)).toEqual(measureStructure(c, copy, s));
       expect(structureVoltages(s, op, c)).toEqual(structureVoltages(s, copy));
     }
+    // All plans flattened into one set and read through one reader (what the hand analysis does) give the same figures.
+    const plans = flattenPlans(structures.map((s) => planMeasurement(topologyOf(c), s)));
+    const reader = readerOf(op, topologyOf(c));
+    structures.forEach((s, i) => expect(measurePlanned(plans, i, reader, s.outputs)).toEqual(measureStructure(c, copy, s)));
     const byIndex = pointReader(c, op);
     const byName = pointReader(c, copy);
     c.elements.forEach((_, e) => expect(byIndex.record(e)).toEqual(byName.record(e)));
