@@ -6,7 +6,7 @@ import type { Card, ParsedDocument, Token } from '../../shared-analysis/src/synt
 import type { DeviceRecord, OperatingPoint } from '../../shared-analysis/src/solve/types';
 import { pointVectors } from '../../shared-analysis/src/solve/point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
-import type { Finding } from '../../shared-analysis/src/types';
+import type { Finding, Span } from '../../shared-analysis/src/types';
 import { nameTable } from '../../shared-analysis/src/names';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
@@ -97,7 +97,7 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   const documents: Analysis['documents'] = {};
   const cards: AnalysisPart[][] = [];
   const sent: SentCards = new Map();
-  const docs = Object.entries(analysis.documents);
+  let docs = Object.entries(analysis.documents);
   docs.forEach(([uri, doc], d) => {
     documents[uri] = { ...doc, cards: [] };
     for (let i = 0, k = 0; i < doc.cards.length; i += PART_SIZE, k++) parts.push(() => cards[d][k]);
@@ -149,6 +149,8 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
       cards.push(made.parts);
       sent.set(uri, made.sent);
     }
+    // The part builders share this scope: without this they would keep every parsed card alive until the last part is sent.
+    docs = [];
     entries?.();
     return sent;
   };
@@ -167,7 +169,7 @@ function cardParts(uri: string, doc: ParsedDocument, held: SentDocument | undefi
   for (let i = 0; i < doc.cards.length; i += PART_SIZE) {
     const slice = doc.cards.slice(i, i + PART_SIZE);
     const reach: [number, number][] = [];
-    const json = JSON.stringify(slice.map((c) => encodeCard(c, reach)));
+    const json = `[${slice.map((c) => encodeCard(c, reach)).join(',')}]`;
     const starts = slice.map((c) => c.span.start);
     const before = held?.parts[sent.parts.length];
     sent.parts.push({ json, starts });
@@ -242,10 +244,23 @@ interface EncodedCard {
 }
 
 /**
- * Every offset written from the card's start; the lowest and highest offset (absolute) are pushed to
- * `reach`, so the sender knows what text the card covers.
+ * The position of a value among a card's tokens (by identity), or −1: a scan for the few tokens of
+ * most cards, a table for a long one (a model card with many parameters).
  */
-function encodeCard(card: Card, reach: [number, number][]): EncodedCard {
+function tokenFinder(tokens: readonly Token[]): (v: object) => number {
+  if (tokens.length <= 16) return (v) => tokens.indexOf(v as Token);
+  const index = new Map<object, number>();
+  tokens.forEach((t, i) => index.set(t, i));
+  return (v) => index.get(v) ?? -1;
+}
+
+/**
+ * A card's JSON, written directly (no intermediate objects: this runs for every card of every
+ * analysis). Every offset is written from the card's start; the lowest and highest offset (absolute)
+ * are pushed to `reach`, so the sender knows what text the card covers. Fields are written as
+ * `JSON.stringify` would write them (an undefined field left out).
+ */
+function encodeCard(card: Card, reach: [number, number][]): string {
   const base = card.span.start;
   let low = base;
   let high = base;
@@ -254,93 +269,99 @@ function encodeCard(card: Card, reach: [number, number][]): EncodedCard {
     if (x > high) high = x;
     return x - base;
   };
-  const index = new Map<Token, number>();
-  card.tokens.forEach((t, i) => index.set(t, i));
-  const token = (t: Token): [number, number, number] => [offset(t.span.start), offset(t.span.end), t.kind === 'expr' ? 1 : 0];
-  const encode = (v: unknown): unknown => {
-    if (Array.isArray(v)) return v.map(encode);
-    if (v && typeof v === 'object') {
-      const i = index.get(v as Token);
-      if (i !== undefined) return { $t: i };
-      if (isToken(v)) return { $tok: token(v) };
-      const out: Record<string, unknown> = nameTable();
-      const span = isSpan(v);
-      for (const [k, x] of Object.entries(v)) out[k] = span ? offset(x as number) : encode(x);
-      return out;
-    }
-    return v;
+  const tokenAt = tokenFinder(card.tokens);
+  const token = (t: Token): string => `[${offset(t.span.start)},${offset(t.span.end)},${t.kind === 'expr' ? 1 : 0}]`;
+  const encode = (v: unknown): string | undefined => {
+    if (v === null || typeof v !== 'object') return JSON.stringify(v);
+    if (Array.isArray(v)) return `[${v.map((x) => encode(x) ?? 'null').join(',')}]`;
+    const i = tokenAt(v);
+    if (i >= 0) return `{"$t":${i}}`;
+    if (isToken(v)) return `{"$tok":${token(v)}}`;
+    if (isSpan(v)) return `{"start":${offset(v.start)},"end":${offset(v.end)}}`;
+    return `{${fields(v)}}`;
   };
-  const out: EncodedCard = { tokens: card.tokens.map(token) };
-  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = encode(v);
+  const fields = (o: object, skip?: string): string => {
+    const out: string[] = [];
+    for (const [k, x] of Object.entries(o)) {
+      const json = k === skip ? undefined : encode(x);
+      if (json !== undefined) out.push(`${JSON.stringify(k)}:${json}`);
+    }
+    return out.join(',');
+  };
+  const rest = fields(card, 'tokens');
+  const json = `{"tokens":[${card.tokens.map(token).join(',')}]${rest ? `,${rest}` : ''}}`;
   reach.push([low, high]);
-  return out;
+  return json;
 }
 
 /** A held card moved `delta` characters: the same fields and token texts, every offset moved; built as `decodeCard` builds a card. */
 function movedCard(card: Card, delta: number): Card {
-  const tokens = new Map<Token, Token>();
+  const tokenAt = tokenFinder(card.tokens);
   const token = (t: Token): Token => ({ text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind });
+  const tokens = card.tokens.map(token);
   const copy = (v: unknown): unknown => {
+    if (v === null || typeof v !== 'object') return v;
     if (Array.isArray(v)) return v.map(copy);
-    if (v && typeof v === 'object') {
-      const t = tokens.get(v as Token);
-      if (t) return t;
-      if (isToken(v)) return token(v);
-      const out: Record<string, unknown> = nameTable();
-      const span = isSpan(v);
-      for (const [k, x] of Object.entries(v)) out[k] = span ? (x as number) + delta : copy(x);
-      return out;
-    }
-    return v;
+    const i = tokenAt(v);
+    if (i >= 0) return tokens[i];
+    if (isToken(v)) return token(v);
+    if (isSpan(v)) return { start: v.start + delta, end: v.end + delta };
+    const out: Record<string, unknown> = {};
+    for (const [k, x] of Object.entries(v)) out[k] = copy(x);
+    return out;
   };
-  const out: Record<string, unknown> = {
-    tokens: card.tokens.map((t) => {
-      const moved = token(t);
-      tokens.set(t, moved);
-      return moved;
-    }),
-  };
+  const out: Record<string, unknown> = { tokens };
   for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = copy(v);
   return out as unknown as Card;
 }
 
 /** A `{ start, end }` offset pair and nothing else. */
-function isSpan(v: object): boolean {
-  const keys = Object.keys(v);
-  const s = v as { start?: unknown; end?: unknown };
-  return keys.length === 2 && typeof s.start === 'number' && typeof s.end === 'number';
+function isSpan(v: object): v is Span {
+  const s = v as Partial<Span>;
+  return typeof s.start === 'number' && typeof s.end === 'number' && Object.keys(v).length === 2;
 }
 
-/** The inverse of {@link encodeCard} for a card starting at `base`. */
+/**
+ * The inverse of {@link encodeCard} for a card starting at `base`, rebuilding the parsed JSON in
+ * place (its objects are this card's own): tokens and spans get their absolute offsets back.
+ */
 function decodeCard(text: string, enc: EncodedCard, base: number): Card {
   const token = ([s, e, expr]: [number, number, number]): Token => ({ text: text.slice(s + base, e + base), span: { start: s + base, end: e + base }, kind: expr ? 'expr' : 'word' });
   const tokens = enc.tokens.map(token);
   const decode = (v: unknown): unknown => {
-    if (Array.isArray(v)) return v.map(decode);
-    if (v && typeof v === 'object') {
-      const tagged = v as { $t?: number; $tok?: [number, number, number] };
-      if (typeof tagged.$t === 'number') return tokens[tagged.$t];
-      if (tagged.$tok) return token(tagged.$tok);
-      const out: Record<string, unknown> = nameTable();
-      const span = isSpan(v);
-      for (const [k, x] of Object.entries(v)) out[k] = span ? (x as number) + base : decode(x);
-      return out;
+    if (v === null || typeof v !== 'object') return v;
+    if (Array.isArray(v)) {
+      for (let i = 0; i < v.length; i++) v[i] = decode(v[i]);
+      return v;
     }
-    return v;
+    const tagged = v as { $t?: number; $tok?: [number, number, number] };
+    if (typeof tagged.$t === 'number') return tokens[tagged.$t];
+    if (tagged.$tok) return token(tagged.$tok);
+    if (isSpan(v)) {
+      v.start += base;
+      v.end += base;
+      return v;
+    }
+    const o = v as Record<string, unknown>;
+    for (const k of Object.keys(o)) o[k] = decode(o[k]);
+    return o;
   };
-  const card: Record<string, unknown> = { tokens };
-  for (const [k, v] of Object.entries(enc)) if (k !== 'tokens') card[k] = decode(v);
+  const card = enc as Record<string, unknown>;
+  card['tokens'] = tokens;
+  for (const k of Object.keys(card)) if (k !== 'tokens') card[k] = decode(card[k]);
   return card as unknown as Card;
 }
 
+/** A token (`word` or `expr`), not a card that also has text, kind and span (a comment card inside a card's `comments`). */
 function isToken(v: object): v is Token {
-  const t = v as Partial<Token>;
-  return typeof t.text === 'string' && typeof t.kind === 'string' && !!t.span && typeof t.span.start === 'number';
+  const t = v as Partial<Token> & { tokens?: unknown };
+  return typeof t.text === 'string' && (t.kind === 'word' || t.kind === 'expr') && !!t.span && typeof t.span.start === 'number' && t.tokens === undefined;
 }
 
 /** An element as JSON-safe data: its model by key, non-finite numbers as `{ $num }`. */
 function encodeElement(e: Element, keyOf: Map<unknown, string>): Record<string, unknown> {
-  const out: Record<string, unknown> = nameTable();
+  // A plain object: its keys are the element's field names, never a netlist's (and JSON writes it faster than a prototype-free table).
+  const out: Record<string, unknown> = {};
   for (const [k, v] of Object.entries(e)) {
     if (k === 'model' && v && typeof v === 'object') {
       const key = keyOf.get(v);

@@ -19,7 +19,7 @@ import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart, type SentCards } from './analysis-transfer';
 import { sizeResistor } from './sizing';
-import { STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
+import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
 import type { WarmStart } from '../../shared-analysis/src/solve/warm-start';
 
@@ -166,10 +166,18 @@ function handle(msg: ToWorker): void {
         const sentBefore = sentCards.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
         const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
-        outgoing = { id: msg.id, parts };
-        post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms: performance.now() - t0 });
-        // The main thread publishes the findings while the cards are encoded here.
-        sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, prepare()] as const]));
+        const keep = (sent: SentCards) => sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
+        const ms = performance.now() - t0;
+        if (parts.length <= SMALL_RESULT_PARTS) {
+          // Small: the whole result in one message (the main thread takes it in at once).
+          keep(prepare());
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, inline: parts.map((make) => make()) });
+        } else {
+          outgoing = { id: msg.id, parts };
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms });
+          // The main thread publishes the findings while the cards are encoded here.
+          keep(prepare());
+        }
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
         if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {

@@ -5,13 +5,13 @@ import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analys
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import { indexBuilder } from '../../shared-analysis/src/features/document-index';
-import { mergePart } from './analysis-transfer';
+import { mergePart, type AnalysisPart } from './analysis-transfer';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import type { MonteCarloReply } from './protocol';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
-import { STOP_GENERATION, type FromWorker, type SizingData, type ToWorker } from './worker-messages';
+import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type SizingData, type ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
 
 /** Options for {@link WorkerHost}. */
@@ -33,8 +33,6 @@ type Pending = {
 
 /** Part requests kept in flight while an analysis is taken in. */
 const PARTS_IN_FLIGHT = 4;
-/** A result of at most this many parts (a netlist of a few thousand elements) has every part asked for at once. */
-const SMALL_RESULT_PARTS = 32;
 
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
@@ -175,9 +173,10 @@ export class WorkerHost {
   }
 
   /**
-   * Analyses an open document in the worker. The result comes over in parts, each fetched
+   * Analyses an open document in the worker. A large result comes over in parts, each fetched
    * after the previous one was merged and the event loop had a turn, so editor requests are
-   * answered between parts instead of waiting for one long deserialisation.
+   * answered between parts instead of waiting for one long deserialisation; a small one comes in
+   * one message and is merged at once.
    */
   async analyse(
     uri: string,
@@ -205,43 +204,65 @@ export class WorkerHost {
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
-    // Keep a few part requests in flight so the worker prepares the next while this thread merges one.
+    const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
+    const merge = (index: number, part: AnalysisPart) => {
+      const before = analysis.circuit?.elements.length ?? 0;
+      mergePart(analysis, part, phases.held);
+      // Index the elements as they arrive, so the first request after the merge finds the tables built.
+      if (elementIndex && part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
+      phases.onPart?.(index, msg.parts);
+    };
+    // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
+    const stopIfSuperseded = (index: number) => {
+      if (this.generation() === generation) return;
+      if (!msg.inline) this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
+      throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
+    };
+    if (msg.inline) {
+      // A small result came whole: merged at once (a few milliseconds), no turns between parts.
+      msg.inline.forEach((part, index) => {
+        stopIfSuperseded(index);
+        merge(index, part);
+      });
+    } else await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
+    elementIndex?.finish(analysis);
+    restoreNameTables(analysis);
+    this.analysisIds.set(analysis, msg.id);
+    return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
+  }
+
+  /**
+   * Asks for the parts of a large result (a few requests in flight, so the worker prepares the next while
+   * this thread merges one) and merges each, giving queued editor requests a turn between parts;
+   * `onFindings` once every finding is in.
+   */
+  private async takeInParts(
+    msg: Extract<FromWorker, { type: 'analysed' }>,
+    merge: (index: number, part: AnalysisPart) => void,
+    stopIfSuperseded: (index: number) => void,
+    onFindings: ((partial: Analysis) => void) | undefined,
+    uri: string,
+  ): Promise<void> {
     const ask = (index: number) => {
       const p = this.request((rid) => ({ type: 'next-part', id: rid, analysisId: msg.id, index }), `Taking in part ${index + 1} of the analysis of ${uri}`);
       // A failure is seen where the part is awaited; this only keeps the parts never awaited from counting as unhandled.
       p.catch(() => undefined);
       return p;
     };
-    const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
     const inFlight: Promise<FromWorker>[] = [];
     let asked = 0;
-    // A small result is asked for whole at once (its parts take a few milliseconds in all; round trips would cost more).
-    const ahead = msg.parts <= SMALL_RESULT_PARTS ? msg.parts : PARTS_IN_FLIGHT;
-    while (asked < Math.min(ahead, msg.parts)) inFlight.push(ask(asked++));
-    const onFindings = msg.parts > SMALL_RESULT_PARTS ? phases.onFindings : undefined;
-    if (msg.findingParts === 0) onFindings?.(analysis);
+    while (asked < Math.min(PARTS_IN_FLIGHT, msg.parts)) inFlight.push(ask(asked++));
+    if (msg.findingParts === 0) onFindings?.(msg.analysis);
     for (let index = 0; index < msg.parts; index++) {
-      // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
-      if (this.generation() !== generation) {
-        this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
-        throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
-      }
+      stopIfSuperseded(index);
       const part = await inFlight.shift()!;
       if (asked < msg.parts) inFlight.push(ask(asked++));
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
-      const before = analysis.circuit?.elements.length ?? 0;
-      mergePart(analysis, part.part, phases.held);
-      // Index the elements as they arrive, so the first request after the merge finds the tables built.
-      if (elementIndex && part.part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
-      phases.onPart?.(index, msg.parts);
-      if (index === msg.findingParts - 1) onFindings?.(analysis);
+      merge(index, part.part);
+      if (index === msg.findingParts - 1) onFindings?.(msg.analysis);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));
     }
-    elementIndex?.finish(analysis);
-    restoreNameTables(analysis);
-    this.analysisIds.set(analysis, msg.id);
-    return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
   }
 
   /** One chunk of Monte Carlo runs on the last analysis of root `uri`. */

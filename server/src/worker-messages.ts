@@ -60,8 +60,11 @@ export type ToWorker =
 
 /** Worker → main thread. */
 export type FromWorker =
-  /** The analysis without its big arrays; `parts` more slices follow, each on request, the first `findingParts` of them its findings. */
-  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number }
+  /**
+   * The analysis without its big arrays; `parts` more slices follow, each on request, the first `findingParts` of them its findings.
+   * A small result (at most SMALL_RESULT_PARTS parts) carries them all in `inline` instead: one message, no round trips.
+   */
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; inline?: AnalysisPart[] }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }
@@ -72,6 +75,9 @@ export type FromWorker =
   | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale?: boolean }
   /** `stopped`: the request was cancelled (the stop generation moved past the request's) at one of the engine's checks. */
   | { type: 'failed'; id: number; message: string; stopped?: boolean };
+
+/** A result of at most this many parts (a netlist of a few thousand elements) travels whole in its `analysed` message. */
+export const SMALL_RESULT_PARTS = 32;
 
 /**
  * The stop flag the main thread and the worker share (an Int32Array over a SharedArrayBuffer):

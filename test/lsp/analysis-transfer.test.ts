@@ -39,11 +39,14 @@ function check(text: string, hoverAtText: string[]): void {
 
 describe('analysis transfer', () => {
   it('round-trips a mirror with an unbounded Early voltage and many cards', () => {
-    const lines = ['Transfer check', 'VCC vcc 0 DC 10', 'RREF vcc ref 9.3k', 'Q1 ref ref 0 QN', 'Q2 out ref 0 QN', 'RL vcc out 1k', '.model QN NPN (BF=100)'];
+    // Q3's card goes on past a comment line: the comment is kept inside the card (`comments`), a card within a card.
+    const lines = ['Transfer check', 'VCC vcc 0 DC 10', 'RREF vcc ref 9.3k', 'Q1 ref ref 0 QN', 'Q2 out ref 0 QN', 'Q3 out3 ref 0', '* the model follows', '+ QN', 'RL vcc out 1k', 'RL3 vcc out3 1k', '.model QN NPN (BF=100)'];
     // Enough resistors to need several parts of each kind.
     for (let k = 0; k < 4000; k++) lines.push(`RX${k} vcc x${k} 1k`, `RY${k} x${k} 0 2k`);
     lines.push('.end', '');
-    check(lines.join('\n'), ['Q2 out', 'QN\nRL', 'RX17 ', 'x3999 0']);
+    const text = lines.join('\n');
+    expect(analyse({ uri: '/t/main.cir', text }, new MemoryWorkspace({ '/t/main.cir': text })).documents['/t/main.cir']!.cards[5]!.comments).toHaveLength(1);
+    check(text, ['Q2 out', 'QN\nRL', 'RX17 ', 'x3999 0']);
   });
 
   it('keeps the held cards an edit leaves alone, moved past the edit, and equals a full transfer', () => {
