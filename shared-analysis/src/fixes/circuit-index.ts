@@ -1,6 +1,7 @@
 // What resistor sizing looks up in a circuit, built once per circuit: names, node incidence and the nodes the supplies fix.
 
 import type { Circuit, Element } from '../circuit';
+import type { Structure } from '../structures/types';
 
 /** Look-ups sizing needs per target, each built once per (immutable) Circuit object. */
 export interface CircuitIndex {
@@ -31,6 +32,22 @@ export function circuitIndex(circuit: Circuit): CircuitIndex {
 /** The element named `name` (any letter case), the first one when several share it. */
 export function elementNamed(circuit: Circuit, name: string): Element | undefined {
   return circuitIndex(circuit).byName.get(name.toLowerCase());
+}
+
+const structuresById = new WeakMap<Structure[], { count: number; byId: Map<string, Structure> }>();
+
+/**
+ * The structure of `structures` with `id`, through a map built once per list (a scan per target
+ * made a thousand targets cost targets × structures); built again if the list has grown since.
+ */
+export function structureWithId(structures: Structure[], id: string): Structure | undefined {
+  let index = structuresById.get(structures);
+  if (!index || index.count !== structures.length) {
+    const byId = new Map<string, Structure>();
+    for (const s of structures) if (!byId.has(s.id)) byId.set(s.id, s);
+    structuresById.set(structures, (index = { count: structures.length, byId }));
+  }
+  return index.byId.get(id);
 }
 
 function build(circuit: Circuit): CircuitIndex {

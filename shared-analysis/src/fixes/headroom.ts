@@ -1,6 +1,7 @@
 // Fixes for a mirror output out of its region or short of headroom: a smaller load resistor, or a larger current-setting resistor, each re-solved before it is offered.
 
 import type { Circuit, Element, Resistor } from '../circuit';
+import { structureWithId } from './circuit-index';
 import { loadResistorOf, sizingKnob } from '../checks/targets';
 import type { OperatingPoint } from '../solve/types';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -76,7 +77,7 @@ function amps(x: number): string {
  */
 export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[] {
   const { circuit, solver } = ctx;
-  const s = ctx.structures.find((x) => x.id === req.structureId);
+  const s = structureWithId(ctx.structures, req.structureId);
   const topo = topologyOf(circuit);
   const t = topo.byName.get(req.output);
   if (!s || !t || !s.outputs.some((o) => o.device === req.output)) return [];

@@ -1,7 +1,7 @@
 // Attaches quick fixes to findings: cheap text fixes eagerly (missing model, mismatched mirror), solver-backed resistor sizing on demand (missed target current).
 
 import { TECHNOLOGIES } from '../structures/technology';
-import { elementNamed } from './circuit-index';
+import { elementNamed, structureWithId } from './circuit-index';
 import { sizingBlock } from './resistor-for-current';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Resistor } from '../circuit';
@@ -19,7 +19,6 @@ import { rewriteFixes, rewriteRequest, rewriteRequestOf } from './rewrite-value'
 import { resistorValueChange, writtenScale } from './value-edit';
 import { headroomFixes, headroomRequest, headroomRequestOf } from './headroom';
 import { regionChanges, resolveWith } from './verify';
-import type { Measurement } from '../structures/measure';
 import { isBipolar } from '../structures/topology';
 import { nameTable } from '../names';
 
@@ -281,7 +280,7 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   const element = request.device;
   const r = elementNamed(circuit, request.resistor);
   if (!r || r.kind !== 'R') return { fixes: [] };
-  const structure = request.structureId ? ctx.structures.find((s) => s.id === request.structureId) : undefined;
+  const structure = request.structureId ? structureWithId(ctx.structures, request.structureId) : undefined;
 
   const size = (sr: SeriesName, knownIdeal?: number): SizingResult => {
     const key = `${r.name}|${element}|${target}|${sr}`;
@@ -312,14 +311,14 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   // it splits off (its solution there equals the whole circuit's), so a target costs its block's size.
   const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements]) : undefined;
   const verifyOn = block ?? { circuit, solver };
-  // The structure without the change, what each value's verification compares with: solved once, when first needed.
-  let unchanged: { m: Measurement | undefined } | undefined;
-  const before = (): Measurement | undefined => (unchanged ??= { m: structure ? resolveWith(verifyOn.circuit, verifyOn.solver, structure, {}, ctx.options.temperatureC)?.m : undefined }).m;
+  // The structure without the change: what each value's verification compares with, and where its solve
+  // starts, as the sizing's trials started there (a circuit with two operating points stays in its state).
+  const unchanged = structure ? resolveWith(verifyOn.circuit, verifyOn.solver, structure, {}, ctx.options.temperatureC) : undefined;
   for (const o of useful) {
     const c = o.c;
     const change = resistorValueChange(r, documents, c.value);
     if (!change) continue;
-    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element, before) : { text: '', clean: true };
+    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element, () => unchanged?.m, unchanged?.x) : { text: '', clean: true };
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;

@@ -369,16 +369,31 @@ export type Solves = Pick<DcSolver, 'solve'>;
 
 const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solves } | null>>();
 
+/** A number per initial-guess array (0 for none), so kept answers are told apart by where Newton started. */
+const guessIds = new WeakMap<Float64Array, number>();
+let guessCount = 0;
+
+function guessId(guess: Float64Array | undefined): number {
+  if (!guess) return 0;
+  let id = guessIds.get(guess);
+  if (id === undefined) guessIds.set(guess, (id = ++guessCount));
+  return id;
+}
+
 /**
- * `solver` with each answer kept by the solve's temperature and resistance overrides, for a block
- * whose solves repeat: a target's sizing solves the unchanged block, refines, and re-solves the
- * nearest standard values; a finer series' sizing of the same target starts from the same unchanged
- * block; and the verification of every value offered solves the unchanged block and each value again.
- * A value's verification now reads the solve its sizing made (a solve of the same circuit with the
- * same value, started from the unchanged point), so every distinct circuit is solved once. Options
- * beyond the temperature, the overrides and the initial guess are solved afresh. Only the block in
- * use keeps its answers: a thousand targets' answers kept at once made the collector's work grow
- * more than the repeated solves cost.
+ * `solver` with each answer kept by the solve's temperature, resistance overrides and initial
+ * guess, for a block whose solves repeat: a target's sizing solves the unchanged block, refines, and
+ * re-solves the nearest standard values; a finer series' sizing of the same target starts from the
+ * same unchanged block; and the verification of every value offered solves the unchanged block and
+ * each value again, started from the unchanged point as the sizing's trials were, so it reads the
+ * solve its sizing made and every distinct circuit is solved once.
+ *
+ * The initial guess is part of the key because it can change the answer, not only the way to it: a
+ * block with more than one operating point (a latch) settles in the state nearest its start. A guess
+ * is known by its array (the solver's results are never written to afterwards), so only a solve from
+ * the very same start is read back. Options beyond these are solved afresh. Only the block in use
+ * keeps its answers: a thousand targets' answers kept at once made the collector's work grow more
+ * than the repeated solves cost.
  */
 function keptSolves(solver: DcSolver): Solves {
   const kept = new Map<string, DcSolveResult>();
@@ -388,10 +403,9 @@ function keptSolves(solver: DcSolver): Solves {
         keptInUse?.clear();
         keptInUse = kept;
       }
-      // The initial guess changes where Newton starts, not the answer; anything else asks afresh.
-      const { temperatureC, resistances, initialGuess: _start, ...rest } = options;
+      const { temperatureC, resistances, initialGuess, ...rest } = options;
       if (Object.keys(rest).length > 0) return solver.solve(options);
-      const key = `${String(temperatureC)}|${JSON.stringify(resistances ?? {})}`;
+      const key = `${String(temperatureC)}|${guessId(initialGuess)}|${JSON.stringify(resistances ?? {})}`;
       let result = kept.get(key);
       if (!result) kept.set(key, (result = solver.solve(options)));
       return result;

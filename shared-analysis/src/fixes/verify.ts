@@ -12,13 +12,26 @@ import type { Structure } from '../structures/types';
 export interface Resolved {
   op: OperatingPoint;
   m: Measurement;
+  /** The solver's unknowns at `op`, where a re-solve of a nearby change can start. */
+  x: Float64Array;
 }
 
-/** Solves the circuit with `resistances` (element name -> ohms) in effect and measures the structure; undefined when it does not converge or a value is refused. */
-export function resolveWith(circuit: Circuit, solver: Solves, s: Structure, resistances: Record<string, number>, temperatureC: number | undefined): Resolved | undefined {
-  const result = solver.solve({ temperatureC, resistances });
+/**
+ * Solves the circuit with `resistances` (element name -> ohms) in effect and measures the structure;
+ * undefined when it does not converge or a value is refused. `start` is where Newton starts (the
+ * solver's own unknowns of an earlier point), cold when absent.
+ */
+export function resolveWith(
+  circuit: Circuit,
+  solver: Solves,
+  s: Structure,
+  resistances: Record<string, number>,
+  temperatureC: number | undefined,
+  start?: Float64Array,
+): Resolved | undefined {
+  const result = solver.solve(start ? { temperatureC, resistances, initialGuess: start } : { temperatureC, resistances });
   if (!result.op.converged || result.findings.some((f) => f.code === 'dc-override-refused')) return undefined;
-  return { op: result.op, m: measureStructure(circuit, result.op, s) };
+  return { op: result.op, m: measureStructure(circuit, result.op, s), x: result.x };
 }
 
 /** The words for an output out of its active region in its technology. */
@@ -33,7 +46,9 @@ function outWord(s: Structure): string {
  * structure is in its active region. `except` is the output the fix is about (its own state is in
  * the title already). `before` is the structure measured without the change, or a function that
  * gives it when first needed (a caller verifying several values solves it once); without it, it is
- * solved here. Undefined when the circuit does not converge with the change.
+ * solved here. `start` is where the changed circuit's solve starts (see `resolveWith`): a circuit with
+ * more than one operating point keeps the state it starts nearest. Undefined when the circuit does
+ * not converge with the change.
  */
 export function regionChanges(
   circuit: Circuit,
@@ -43,8 +58,9 @@ export function regionChanges(
   temperatureC: number | undefined,
   except?: string,
   before?: Measurement | (() => Measurement | undefined),
+  start?: Float64Array,
 ): { text: string; clean: boolean; after: Resolved } | undefined {
-  const after = resolveWith(circuit, solver, s, resistances, temperatureC);
+  const after = resolveWith(circuit, solver, s, resistances, temperatureC, start);
   if (!after) return undefined;
   const base = typeof before === 'function' ? before() : before ?? resolveWith(circuit, solver, s, {}, temperatureC)?.m;
   const parts: string[] = [];

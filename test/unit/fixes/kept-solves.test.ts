@@ -1,0 +1,76 @@
+// The solves a sizing block keeps (`sizingBlock`): read back only for the same circuit, temperature and start, so a block with two operating points never answers with the other state's.
+
+import { describe, expect, it } from 'vitest';
+import type { Circuit, Resistor } from '../../../shared-analysis/src/circuit';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
+import { sizingBlock } from '../../../shared-analysis/src/fixes/resistor-for-current';
+import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+
+const URI = '/latch.cir';
+
+// An invented cross-coupled NPN pair (a set–reset latch without its inputs) on a 5 V rail, beside
+// five dividers on the same rail so that the latch is a block of its own. Each collector drives the
+// other device's base through 22 kΩ. Source: the bistable multivibrator (from memory: any electronics
+// text) — with loop gain above one it has two stable states, one device saturated and the other cut
+// off, and an unstable balanced point between them.
+const LATCH = [
+  'latch beside dividers',
+  'VCC vcc 0 DC 5',
+  'RC1 vcc c1 2k',
+  'RC2 vcc c2 2.2k',
+  'RB1 c2 b1 22k',
+  'RB2 c1 b2 22k',
+  'Q1 c1 b1 0 qn',
+  'Q2 c2 b2 0 qn',
+  ...Array.from({ length: 5 }, (_, i) => `RA${i} vcc a${i} 1k\nRG${i} a${i} 0 ${i + 1}k`),
+  '.model qn npn (IS=1e-15 BF=100)',
+  '.end',
+  '',
+].join('\n');
+
+function circuitOf(text: string): Circuit {
+  return elaborate(parse(URI, text, { hasTitle: true }), new MemoryWorkspace({ [URI]: text }), {}).circuit;
+}
+
+/** A start for the block's unknowns with Q1 on (`q1On`) or off: its collector low and its base at a junction drop, or the reverse. */
+function startIn(block: Circuit, q1On: boolean): Float64Array {
+  const x = new Float64Array(new DcSolver(block).unknownCount);
+  const volts: Record<string, number> = q1On ? { c1: 0.1, b1: 0.75, c2: 4.5, b2: 0.1, vcc: 5 } : { c1: 4.5, b1: 0.1, c2: 0.1, b2: 0.75, vcc: 5 };
+  // The solver's first unknowns are the node voltages, node k at k − 1 (ground is node 0).
+  block.nodes.forEach((name, k) => {
+    if (k > 0) x[k - 1] = volts[name] ?? 0;
+  });
+  return x;
+}
+
+describe('the solves a sizing block keeps', () => {
+  it('tells two starts apart in a block with two stable states', () => {
+    const circuit = circuitOf(LATCH);
+    const rc1 = circuit.elements.find((e) => e.name === 'RC1') as Resistor;
+    const block = sizingBlock(circuit, rc1, ['Q1', 'Q2']);
+    expect(block?.circuit.elements.map((e) => e.name)).toEqual(['VCC', 'RC1', 'RC2', 'RB1', 'RB2', 'Q1', 'Q2']);
+    const resistances = { RC1: 2.2e3 };
+    const onStart = startIn(block!.circuit, true);
+    const offStart = startIn(block!.circuit, false);
+    const kept = [block!.solver.solve({ resistances, initialGuess: onStart }), block!.solver.solve({ resistances, initialGuess: offStart })];
+    // Each answer against a solver of its own started at the same point (the plain path, nothing kept).
+    const plain = [onStart, offStart].map((start) => new DcSolver(block!.circuit).solve({ resistances, initialGuess: start }));
+    const ic = (r: (typeof kept)[number], q: string): number => {
+      const d = r.op.devices[q];
+      return d?.type === 'bjt' ? d.ic : NaN;
+    };
+    for (const r of [...kept, ...plain]) expect(r.op.converged).toBe(true);
+    // The premise: the two starts settle in different states (Q1 carrying the current, then Q2).
+    expect(ic(plain[0], 'Q1')).toBeGreaterThan(1e-3);
+    expect(ic(plain[0], 'Q2')).toBeLessThan(1e-6);
+    expect(ic(plain[1], 'Q2')).toBeGreaterThan(1e-3);
+    expect(ic(plain[1], 'Q1')).toBeLessThan(1e-6);
+    for (const i of [0, 1]) {
+      for (const node of ['c1', 'c2', 'b1', 'b2']) expect(kept[i].op.nodes[node]).toBeCloseTo(plain[i].op.nodes[node], 9);
+    }
+    // The same start again is read back, not solved again.
+    expect(block!.solver.solve({ resistances, initialGuess: offStart })).toBe(kept[1]);
+  });
+});
