@@ -278,7 +278,7 @@ function handle(msg: ToWorker): void {
         post({ type: 'sizing-fixed', id: msg.id, fixes: msg.findings.map(() => []), stale: true });
         return;
       }
-      const ctx = { circuit: a.circuit, solver: kept.solver, structures: a.structures, documents: a.documents, options: a.options, cache: kept.sizingCache };
+      const ctx = { circuit: a.circuit, solver: kept.solver, structures: a.structures, documents: a.documents, options: a.options, cache: kept.sizingCache, point: a.operatingPoint };
       // sizingFixes never throws; each finding is sized on its own (shared cache).
       post({ type: 'sizing-fixed', id: msg.id, fixes: msg.findings.map((f) => sizingFixes(f, ctx)) });
       return;

@@ -64,6 +64,7 @@ export function sizeResistor(analysis: Analysis, resistor: string, targetText: s
     target,
     series,
     temperatureC: analysis.operatingPoint?.temperatureC,
+    point: analysis.operatingPoint,
   });
   if (result.candidates.length === 0) return { error: result.problem ?? `No standard value of the ${series} series could be found for ${el.name}.` };
   const what = `current of ${result.device}`;

@@ -295,19 +295,26 @@ function cornerPhaseParts(structures: Structure[]): Record<string, unknown> {
 export function sizingFixesOf(session: AnalysisSession, finding: Finding): Fix[] {
   const { analysis, solver } = session;
   if (!solver || !analysis.circuit) return [];
-  return sizingFixes(finding, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) });
+  return sizingFixes(finding, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis), point: analysis.operatingPoint });
 }
 
 /** The relative σ of each element's current from `analysis.variation`, for the sizing fixes' predicted yield. */
 function spreadOf(analysis: Analysis): SizingFixContext['spread'] {
   const outputs = analysis.variation?.outputs;
   if (!outputs) return undefined;
+  // Element (lower case) -> the first output current of it, built on first ask: a scan of every output per target cost targets × outputs.
+  let byElement: Map<string, number | undefined> | undefined;
   return {
     yieldTarget: analysis.options.variation.yieldTarget,
     sigmaRelative: (element) => {
-      const lower = element.toLowerCase();
-      const o = outputs.find((v) => v.element?.toLowerCase() === lower && !v.key.endsWith(' iref') && v.unit === 'A');
-      return o?.sigmaRelative;
+      if (!byElement) {
+        byElement = new Map();
+        for (const v of outputs) {
+          const lower = v.element?.toLowerCase();
+          if (lower !== undefined && !byElement.has(lower) && !v.key.endsWith(' iref') && v.unit === 'A') byElement.set(lower, v.sigmaRelative);
+        }
+      }
+      return byElement.get(element.toLowerCase());
     },
   };
 }
@@ -321,7 +328,7 @@ export function attachAllSizingFixes(session: AnalysisSession, stop?: () => bool
   const { analysis, solver } = session;
   // Sizing re-solves from the nominal solution; with none (no convergence) it would only spend time and find nothing.
   if (!solver || !analysis.circuit || !session.nominal) return 0;
-  return attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis) }, stop);
+  return attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis), point: analysis.operatingPoint }, stop);
 }
 
 /** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners). */

@@ -398,7 +398,7 @@ function child(args: string[]): void {
       const structure = a.structures.find((s) => s.outputs.some((o) => o.device === `QO${i}`));
       requests.push({ ...shown, data: { ...shown.data, sizing: { ...marker, resistor: `RR${i}`, device: `QO${i}`, structureId: structure?.id } } });
     }
-    const ctx = { circuit: a.circuit!, solver: session.solver!, structures: a.structures, documents: a.documents, options: a.options };
+    const ctx = { circuit: a.circuit!, solver: session.solver!, structures: a.structures, documents: a.documents, options: a.options, point: a.operatingPoint };
     const t0 = cpuMs();
     let fixed = 0;
     for (const f of requests) if (sizingFixes(f, ctx).length > 0) fixed++;

@@ -119,7 +119,7 @@ export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[
   const knobResistor = knob ? (circuit.elements.find((e) => e.name.toLowerCase() === knob.resistor.toLowerCase()) as Resistor | undefined) : undefined;
   if (knobResistor && knobResistor !== load.resistor && room > 0) {
     const target = room / load.resistor.resistance;
-    const sizing = sizeResistorForCurrent({ circuit, solver, structure: s, resistor: knobResistor.name, target, series: req.series, device: req.output, temperatureC: tC });
+    const sizing = sizeResistorForCurrent({ circuit, solver, structure: s, resistor: knobResistor.name, target, series: req.series, device: req.output, temperatureC: tC, point: ctx.point });
     // The standard values whose current is at or below the target, nearest first; then the next larger ones.
     const values = sizing.candidates.filter((c) => c.current <= target * (1 + 1e-6)).map((c) => c.value);
     let next = values.length ? values[0] : sizing.candidates.at(-1)?.value;

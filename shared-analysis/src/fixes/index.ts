@@ -7,6 +7,7 @@ import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Resistor } from '../circuit';
 import { parseNumber } from '../elaborate/units';
 import type { DcSolver } from '../solve/dc';
+import type { OperatingPoint } from '../solve/types';
 import type { Structure } from '../structures/types';
 import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Finding, Fix, Severity } from '../types';
@@ -42,6 +43,8 @@ export interface SizingFixContext {
   structures: Structure[];
   documents: Record<string, ParsedDocument>;
   options: ResolvedOptions;
+  /** The analysed operating point of `circuit`, where the sizing's solves on a block start (see `SizingContext.point`). */
+  point?: OperatingPoint;
   /** Sizing results by (resistor, device, target, series), shared across calls; optional. */
   cache?: Map<string, SizingResult>;
   /** The relative σ of an element's current from the spread analysis, when it has one (docs/VARIATION.md): sizing then says each value's predicted yield and prefers acceptable ones. */
@@ -286,7 +289,7 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
     const key = `${r.name}|${element}|${target}|${sr}`;
     let sizing = ctx.cache.get(key);
     if (!sizing) {
-      sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC, knownIdeal });
+      sizing = sizeResistorForCurrent({ circuit, solver, structure, resistor: r.name, target, series: sr, device: element, temperatureC: ctx.options.temperatureC, knownIdeal, point: ctx.point });
       ctx.cache.set(key, sizing);
     }
     return sizing;
@@ -309,7 +312,7 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   const sigmaRel = ctx.spread?.sigmaRelative(element);
   // The re-solves that verify each value run on the part of the circuit the resistor can move, when
   // it splits off (its solution there equals the whole circuit's), so a target costs its block's size.
-  const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements]) : undefined;
+  const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements], ctx.point) : undefined;
   const verifyOn = block ?? { circuit, solver };
   // The structure without the change: what each value's verification compares with, and where its solve
   // starts, as the sizing's trials started there (a circuit with two operating points stays in its state).

@@ -32,6 +32,12 @@ export interface SizingContext {
    * else the resistor itself.
    */
   device?: string;
+  /**
+   * The analysed operating point of `circuit`: the block a target is sized on starts its solves there,
+   * so it settles in the state the whole circuit is in (a circuit with two operating points, a latch,
+   * could settle in the other from a cold start) and in fewer Newton iterations.
+   */
+  point?: OperatingPoint;
   /** An exact resistance found by an earlier sizing of the same target (another series): skips the refinement. */
   knownIdeal?: number;
   /**
@@ -139,7 +145,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   // Every trial rebuilds a solver for the changed circuit, so the trials are solved on the smallest
   // part of the circuit that a change of this resistor can move, when one exists.
   const structureDevices = structure ? [...structure.devices, ...structure.reference.elements] : [];
-  const local = ctx.scope === 'whole-circuit' ? undefined : sizingBlock(circuit, resistor, [deviceName, ...structureDevices]);
+  const local = ctx.scope === 'whole-circuit' ? undefined : sizingBlock(circuit, resistor, [deviceName, ...structureDevices], ctx.point);
   const block = local?.circuit;
   const work = block ?? circuit;
   const workResistor = block ? (findElement(block, resistor.name) as Resistor) : resistor;
@@ -369,14 +375,14 @@ export type Solves = Pick<DcSolver, 'solve'>;
 
 const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solves } | null>>();
 
-/** A number per initial-guess array (0 for none), so kept answers are told apart by where Newton started. */
-const guessIds = new WeakMap<Float64Array, number>();
-let guessCount = 0;
+/** A number per object (0 for none): an initial guess or an analysed point, known by identity in the keys below. */
+const objectIds = new WeakMap<object, number>();
+let objectCount = 0;
 
-function guessId(guess: Float64Array | undefined): number {
-  if (!guess) return 0;
-  let id = guessIds.get(guess);
-  if (id === undefined) guessIds.set(guess, (id = ++guessCount));
+function objectId(o: object | undefined): number {
+  if (!o) return 0;
+  let id = objectIds.get(o);
+  if (id === undefined) objectIds.set(o, (id = ++objectCount));
   return id;
 }
 
@@ -395,17 +401,20 @@ function guessId(guess: Float64Array | undefined): number {
  * keeps its answers: a thousand targets' answers kept at once made the collector's work grow more
  * than the repeated solves cost.
  */
-function keptSolves(solver: DcSolver): Solves {
+function keptSolves(solver: DcSolver, start: { x: Float64Array; temperatureC: number } | undefined): Solves {
   const kept = new Map<string, DcSolveResult>();
   return {
-    solve: (options = {}) => {
+    solve: (asked = {}) => {
       if (keptInUse !== kept) {
         keptInUse?.clear();
         keptInUse = kept;
       }
+      // A solve told no start, at the analysed point's temperature, starts from that point.
+      const fromPoint = start && !asked.initialGuess && (asked.temperatureC === undefined || asked.temperatureC === start.temperatureC);
+      const options = fromPoint ? { ...asked, initialGuess: start.x } : asked;
       const { temperatureC, resistances, initialGuess, ...rest } = options;
       if (Object.keys(rest).length > 0) return solver.solve(options);
-      const key = `${String(temperatureC)}|${guessId(initialGuess)}|${JSON.stringify(resistances ?? {})}`;
+      const key = `${String(temperatureC)}|${objectId(initialGuess)}|${JSON.stringify(resistances ?? {})}`;
       let result = kept.get(key);
       if (!result) kept.set(key, (result = solver.solve(options)));
       return result;
@@ -414,22 +423,41 @@ function keptSolves(solver: DcSolver): Solves {
 }
 
 /**
- * `affectedBlock` of a resistor with a prepared solver of it, kept per circuit and resistor so the
- * sizing of a target and the re-solves that verify its candidates share them; undefined when the
- * circuit is not split there. The block's solution equals the whole circuit's at every element it
- * holds, so a structure inside it can be measured on it.
+ * `affectedBlock` of a resistor with a prepared solver of it, kept per circuit, resistor and analysed
+ * point so the sizing of a target and the re-solves that verify its candidates share them; undefined
+ * when the circuit is not split there. The block's solution equals the whole circuit's at every
+ * element it holds, so a structure inside it can be measured on it. With `point` (the analysed
+ * operating point of `circuit`), a solve on the block told no start starts from the point's node
+ * voltages: the block stays in the state the circuit is in.
  */
-export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: string[]): { circuit: Circuit; solver: Solves } | undefined {
+export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: string[], point?: OperatingPoint): { circuit: Circuit; solver: Solves } | undefined {
   let perCircuit = blocks.get(circuit);
   if (!perCircuit) blocks.set(circuit, (perCircuit = new Map()));
-  const key = `${resistor.name}\u0000${mustHold.map((m) => m.toLowerCase()).sort().join('\u0000')}`;
+  const key = `${resistor.name}\u0000${objectId(point)}\u0000${mustHold.map((m) => m.toLowerCase()).sort().join('\u0000')}`;
   let entry = perCircuit.get(key);
   if (entry === undefined) {
     const block = affectedBlock(circuit, resistor, mustHold);
-    entry = block ? { circuit: block, solver: keptSolves(new DcSolver(block)) } : null;
+    const solver = block && new DcSolver(block);
+    entry = block && solver ? { circuit: block, solver: keptSolves(solver, pointOnBlock(block, solver.unknownCount, point)) } : null;
     perCircuit.set(key, entry);
   }
   return entry ?? undefined;
+}
+
+/**
+ * The block's unknowns at `point`: its node voltages (the solver's first unknowns, node k at k − 1),
+ * with the block's other unknowns (branch currents, internal nodes) left at 0 for Newton to find.
+ * Undefined when the point did not converge or lacks a node.
+ */
+function pointOnBlock(block: Circuit, size: number, point: OperatingPoint | undefined): { x: Float64Array; temperatureC: number } | undefined {
+  if (!point?.converged) return undefined;
+  const x = new Float64Array(size);
+  for (let k = 1; k < block.nodes.length && k - 1 < size; k++) {
+    const v = point.nodes[block.nodes[k]];
+    if (typeof v !== 'number' || !Number.isFinite(v)) return undefined;
+    x[k - 1] = v;
+  }
+  return { x, temperatureC: point.temperatureC };
 }
 
 /** The standard neighbours of `ideal` in `series`, each re-solved through `measure`. */

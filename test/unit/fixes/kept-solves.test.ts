@@ -4,7 +4,7 @@ import { describe, expect, it } from 'vitest';
 import type { Circuit, Resistor } from '../../../shared-analysis/src/circuit';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { sizingBlock } from '../../../shared-analysis/src/fixes/resistor-for-current';
-import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { DcSolver, type DcSolveResult } from '../../../shared-analysis/src/solve/dc';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 
@@ -45,6 +45,11 @@ function startIn(block: Circuit, q1On: boolean): Float64Array {
   return x;
 }
 
+const collectorCurrent = (r: DcSolveResult, q: string): number => {
+  const d = r.op.devices[q];
+  return d?.type === 'bjt' ? d.ic : NaN;
+};
+
 describe('the solves a sizing block keeps', () => {
   it('tells two starts apart in a block with two stable states', () => {
     const circuit = circuitOf(LATCH);
@@ -57,10 +62,7 @@ describe('the solves a sizing block keeps', () => {
     const kept = [block!.solver.solve({ resistances, initialGuess: onStart }), block!.solver.solve({ resistances, initialGuess: offStart })];
     // Each answer against a solver of its own started at the same point (the plain path, nothing kept).
     const plain = [onStart, offStart].map((start) => new DcSolver(block!.circuit).solve({ resistances, initialGuess: start }));
-    const ic = (r: (typeof kept)[number], q: string): number => {
-      const d = r.op.devices[q];
-      return d?.type === 'bjt' ? d.ic : NaN;
-    };
+    const ic = collectorCurrent;
     for (const r of [...kept, ...plain]) expect(r.op.converged).toBe(true);
     // The premise: the two starts settle in different states (Q1 carrying the current, then Q2).
     expect(ic(plain[0], 'Q1')).toBeGreaterThan(1e-3);
@@ -72,5 +74,23 @@ describe('the solves a sizing block keeps', () => {
     }
     // The same start again is read back, not solved again.
     expect(block!.solver.solve({ resistances, initialGuess: offStart })).toBe(kept[1]);
+  });
+
+  it('starts the block in the state of the analysed point of the whole circuit', () => {
+    const circuit = circuitOf(LATCH);
+    const rc1 = circuit.elements.find((e) => e.name === 'RC1') as Resistor;
+    const whole = new DcSolver(circuit);
+    for (const q1On of [true, false]) {
+      // The whole circuit solved in one state (its start built like the block's: node k at k − 1).
+      const analysed = whole.solve({ initialGuess: startIn(circuit, q1On) });
+      const on = q1On ? 'Q1' : 'Q2';
+      const off = q1On ? 'Q2' : 'Q1';
+      expect(collectorCurrent(analysed, on)).toBeGreaterThan(1e-3);
+      const block = sizingBlock(circuit, rc1, ['Q1', 'Q2'], analysed.op)!;
+      // Told no start, the block's solves start at the analysed point: the same state, the same currents.
+      const unchanged = block.solver.solve({});
+      expect(collectorCurrent(unchanged, on)).toBeCloseTo(collectorCurrent(analysed, on), 9);
+      expect(collectorCurrent(unchanged, off)).toBeLessThan(1e-6);
+    }
   });
 });
