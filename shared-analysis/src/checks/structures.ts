@@ -198,7 +198,8 @@ class StructureCheck {
     if (this.op && this.measured) {
       for (const d of s.devices) if (recordIsOff(this.op.devices[d])) this.off.add(d);
       s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
-      s.headroom = { ...this.measured.headroom };
+      // Tables keyed by device names are prototype-free: a literal would give every structure hidden classes of its own.
+      s.headroom = nameTable(this.measured.headroom);
     } else {
       s.solved = undefined;
       s.headroom = {};
@@ -241,7 +242,7 @@ class StructureCheck {
 
   /** Solved collector current of each bipolar device of the structure, so the hand analysis uses the model's β there. */
   private collectorCurrents(): Record<string, number> {
-    const out: Record<string, number> = {};
+    const out: Record<string, number> = nameTable();
     for (const d of this.s.devices) {
       const rec = this.op?.devices[d];
       if (rec && rec.type === 'bjt') out[d] = rec.ic;
@@ -274,7 +275,7 @@ class StructureCheck {
 
   private compliance(): Structure['compliance'] {
     const { top, bottom } = this.railRange;
-    const out: Structure['compliance'] = {};
+    const out: Structure['compliance'] = nameTable();
     for (const o of this.s.outputs) {
       const edge = this.edgeVolts(o.device);
       if (edge === undefined) continue;

@@ -206,7 +206,9 @@ class HandAnalysis {
     }
     const outputEdge: Record<string, number> = nameTable();
     if (vCommon !== undefined) {
-      for (const [k, v] of Object.entries(st.edge)) {
+      // `in` lists the table's names in Object.entries' order (no table here inherits enumerable names), without a pair per name.
+      for (const k in st.edge) {
+        const v = st.edge[k];
         outputEdge[k] = vCommon + h.sign * v;
         add(() => this.edgeStep(k, v, vCommon, outputEdge[k]));
       }

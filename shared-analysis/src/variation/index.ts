@@ -7,6 +7,7 @@ import type { ParsedDocument } from '../syntax/ast';
 import type { Target } from '../checks/targets';
 import { targetElements, TargetIndex } from '../checks/targets';
 import { nameTable } from '../names';
+import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
@@ -184,8 +185,7 @@ function addTargetOutputs(circuit: Circuit, structures: Structure[], targets: re
   // A target on a structure's output device reads that output: its figures are not computed and listed twice.
   for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
   const index = new TargetIndex(circuit, structures);
-  const elementIndex = new Map<string, number>();
-  circuit.elements.forEach((e, i) => elementIndex.set(e.name, i));
+  const elementIndex = topologyOf(circuit).elementIndex;
   for (const t of targets) {
     for (const el of targetElements(circuit, t, index)) {
       const key = `element ${el.name}`;

@@ -37,8 +37,7 @@ export function elementCurrent(circuit: Circuit, index: number): OutputFunctiona
 /** The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage. */
 export function structureOutputs(circuit: Circuit, structures: readonly Structure[]): OutputSpec[] {
   const topo = topologyOf(circuit);
-  const indexOf = new Map<string, number>();
-  circuit.elements.forEach((e, i) => indexOf.set(e.name, i));
+  const indexOf = topo.elementIndex;
   const out: OutputSpec[] = [];
   for (const s of structures) {
     const refNode = topo.nodeIndex.get(s.reference.node);

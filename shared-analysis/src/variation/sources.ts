@@ -5,6 +5,7 @@ import { endOfLineComments } from '../checks/targets';
 import type { ElementCard, ParsedDocument } from '../syntax/ast';
 import type { Structure } from '../structures/types';
 import { thermalVoltage } from '../devices/physics';
+import { topologyOf } from '../structures/topology';
 import type { VariedParameter } from './sensitivity';
 import { modelValue } from './sensitivity';
 
@@ -95,8 +96,8 @@ const SMALLEST_NORMAL = 2.2250738585072014e-308;
  */
 export function toleranceSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): ToleranceSource[] {
   const out: ToleranceSource[] = [];
-  const index = new Map<string, number>();
-  circuit.elements.forEach((el, i) => index.set(el.name, i));
+  // Element name -> index, the last of a name (the topology's table, built once per circuit).
+  const index = topologyOf(circuit).elementIndex;
   circuit.elements.forEach((el, i) => {
     if (el.kind === 'R') {
       const r = el.resistance;
