@@ -345,6 +345,9 @@ interface GroupIndex {
   allName: (string | undefined)[];
   /** A mismatch source's name when it alone matters in its group (made on first use). */
   aloneName: (string | undefined)[];
+  /** Each source's σ and worst-case bound, as columns (a row's spread reads them for every entry). */
+  sigma: Float64Array;
+  bound: Float64Array;
 }
 const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
 function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
@@ -365,7 +368,9 @@ function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
   });
   const size = new Int32Array(names.length);
   for (let k = 0; k < of.length; k++) size[of[k]]++;
-  g = { of, names, aspects, size, allName: new Array(names.length).fill(undefined), aloneName: new Array(sources.length).fill(undefined) };
+  const sigma = Float64Array.from(sources, (s) => s.sigma);
+  const bound = Float64Array.from(sources, (s) => s.bound);
+  g = { of, names, aspects, size, allName: new Array(names.length).fill(undefined), aloneName: new Array(sources.length).fill(undefined), sigma, bound };
   groupIndexes.set(sources, g);
   return g;
 }
@@ -419,15 +424,16 @@ function spreadOfRange(
     groupWorst = new Float64Array(groups.names.length * 2);
     groupTouched = new Int32Array(groups.names.length * 2);
   }
-  const sigmaOf = (k: number): number => (sigmaOverride ? sigmaOverride(k) : sources[k].sigma);
+  const sigmas = groups.sigma;
+  const bounds = groups.bound;
+  const sigmaOf = (k: number): number => (sigmaOverride ? sigmaOverride(k) : sigmas[k]);
   let touched = 0;
   let variance = 0;
   let worstCase = 0;
   for (let q = from; q < to; q++) {
     const k = index[q];
-    const s = sources[k];
-    const sigma = sigmaOf(k);
-    const bound = sigmaOverride ? (s.bound / s.sigma) * sigma : s.bound;
+    const sigma = sigmaOverride ? sigmaOverride(k) : sigmas[k];
+    const bound = sigmaOverride ? (bounds[k] / sigmas[k]) * sigma : bounds[k];
     const a = Math.abs(value[q] * sigma);
     const w = Math.abs(value[q] * bound);
     variance += a * a;

@@ -117,29 +117,35 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
     }
   });
   // A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too.
-  const spreadSeen = new Set<string>();
+  // Devices are marked by element index (one index per name), not kept in sets of names.
+  const elements = circuit.elements;
+  const spreadSeen = new Uint8Array(elements.length);
   for (const s of structures) {
     for (const name of s.devices) {
       const i = index.get(name);
-      if (i === undefined || spreadSeen.has(name)) continue;
-      spreadSeen.add(name);
-      const el = circuit.elements[i];
+      if (i === undefined || spreadSeen[i]) continue;
+      spreadSeen[i] = 1;
+      const el = elements[i];
       if (el.kind === 'J') pushJfetSpread(out, el, i);
     }
   }
   // Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together.
-  const seen = new Set<string>();
+  const seen = new Uint8Array(elements.length);
   const vt = thermalVoltage(temperatureC);
+  const members: number[] = [];
   for (const s of structures) {
-    const members = s.devices.filter((d) => index.has(d) && !seen.has(d));
+    members.length = 0;
+    for (const name of s.devices) {
+      const i = index.get(name);
+      if (i !== undefined && !seen[i]) members.push(i);
+    }
     if (members.length < 2) continue;
     // One string per group (its devices' sources share it, and ranking looks groups up by it).
     const made: { [what: string]: string } = {};
     const groupName = (what: string): string => (made[what] ??= `${s.id} ${what}`);
-    for (const name of members) {
-      seen.add(name);
-      const i = index.get(name)!;
-      const el = circuit.elements[i];
+    for (const i of members) {
+      seen[i] = 1;
+      const el = elements[i];
       if (el.kind === 'Q') pushBjt(out, el, i, groupName, vt);
       else if (el.kind === 'M') pushMos(out, el, i, groupName);
       else if (el.kind === 'J') pushJfetMismatch(out, el, i, groupName);
