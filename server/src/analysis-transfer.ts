@@ -26,7 +26,7 @@ export type AnalysisPart =
   /**
    * Cards `start` to `start + count − 1` of document `uri` are those the receiver holds (of the analysis
    * it named as held): the same objects before `moved`, and from `moved` on the same cards moved by
-   * `delta` characters. The sender checked that each encodes exactly as the held one and that its text
+   * `delta` characters (moved in place when the result is adopted). The sender checked that each encodes exactly as the held one and that its text
    * lies in the part of the document the edit left alone.
    */
   | { kind: 'cards-kept'; uri: string; start: number; count: number; moved: number; delta: number }
@@ -198,9 +198,13 @@ function keptFrom(starts: number[], reach: [number, number][], heldStarts: numbe
   return { moved, delta };
 }
 
+/** Per analysis being taken in, the held cards it shares that the edit moved, and by how much: moved by `adoptKeptCards`. */
+const pendingMoves = new WeakMap<Analysis, { cards: Card[]; delta: number }[]>();
+
 /**
  * Puts one part back into an analysis being assembled from its header. `held` is the analysis the
- * receiver holds of the same root, which `cards-kept` parts copy from (left unchanged).
+ * receiver holds of the same root: `cards-kept` parts share its cards (left unchanged until the result
+ * is adopted, see `adoptKeptCards`).
  */
 export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis): void {
   switch (part.kind) {
@@ -213,7 +217,13 @@ export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis)
       const doc = target.documents[part.uri];
       const from = held?.documents[part.uri];
       if (!doc || !from || from.cards.length < part.start + part.count) throw new Error(`The held cards of ${part.uri} are not the ones the worker kept.`);
-      for (let k = part.start; k < part.start + part.count; k++) doc.cards.push(k < part.start + part.moved ? from.cards[k] : movedCard(from.cards[k], part.delta));
+      for (let k = part.start; k < part.start + part.count; k++) doc.cards.push(from.cards[k]!);
+      // The cards past the edit are moved when the result is adopted: the held analysis answers requests until then.
+      if (part.moved < part.count) {
+        const moves = pendingMoves.get(target) ?? [];
+        moves.push({ cards: from.cards.slice(part.start + part.moved, part.start + part.count), delta: part.delta });
+        pendingMoves.set(target, moves);
+      }
       return;
     }
     case 'elements':
@@ -294,25 +304,30 @@ function encodeCard(card: Card, reach: [number, number][]): string {
   return json;
 }
 
-/** A held card moved `delta` characters: the same fields and token texts, every offset moved; built as `decodeCard` builds a card. */
-function movedCard(card: Card, delta: number): Card {
-  const tokenAt = tokenFinder(card.tokens);
-  const token = (t: Token): Token => ({ text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind });
-  const tokens = card.tokens.map(token);
-  const copy = (v: unknown): unknown => {
-    if (v === null || typeof v !== 'object') return v;
-    if (Array.isArray(v)) return v.map(copy);
-    const i = tokenAt(v);
-    if (i >= 0) return tokens[i];
-    if (isToken(v)) return token(v);
-    if (isSpan(v)) return { start: v.start + delta, end: v.end + delta };
-    const out: Record<string, unknown> = {};
-    for (const [k, x] of Object.entries(v)) out[k] = copy(x);
-    return out;
+/**
+ * Makes a taken-in result whole: the held cards it shares that lie past the edit get their offsets moved,
+ * in place (no second copy of every card past the edit). The held analysis they came from gives them up:
+ * call this only when the result replaces it, before anything reads the result's cards.
+ */
+export function adoptKeptCards(analysis: Analysis): void {
+  // Each object moves once, however many fields share it (a token is in `tokens` and in its field).
+  const seen = new Set<object>();
+  for (const { cards, delta } of pendingMoves.get(analysis) ?? []) for (const card of cards) moveCard(card, delta, seen);
+  pendingMoves.delete(analysis);
+}
+
+/** Moves every offset of a card `delta` characters, skipping the objects in `seen` (and adding those it moves). */
+function moveCard(card: Card, delta: number, seen: Set<object>): void {
+  const move = (v: unknown): void => {
+    if (v === null || typeof v !== 'object' || seen.has(v)) return;
+    seen.add(v);
+    if (Array.isArray(v)) for (const x of v) move(x);
+    else if (isSpan(v)) {
+      v.start += delta;
+      v.end += delta;
+    } else for (const x of Object.values(v)) move(x);
   };
-  const out: Record<string, unknown> = { tokens };
-  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') out[k] = copy(v);
-  return out as unknown as Card;
+  move(card);
 }
 
 /** A `{ start, end }` offset pair and nothing else. */

@@ -80,6 +80,7 @@ import {
 } from './to-lsp';
 import { structureOfResistor } from './sizing';
 import { AnalysisStoppedError, WorkerHost, WorkerRestartedError } from './worker-host';
+import { adoptKeptCards } from './analysis-transfer';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FrameError, StrictStreamReader } from './strict-reader';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
@@ -487,6 +488,8 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
 
 function accept(uri: string, analysis: Analysis, ms: number): void {
   const before = cache.get(uri);
+  // The replaced analysis gives up the cards the new one shares with it past the edit: they are moved now.
+  adoptKeptCards(analysis);
   cache.set(uri, { analysis, ms });
   // Documents this netlist includes are no longer netlists of their own.
   for (const inc of Object.keys(analysis.documents)) if (inc !== uri && cache.has(inc)) cache.delete(inc);
@@ -911,6 +914,8 @@ connection.onCodeAction(
     }
     const toSize = wanted.filter((w) => hasSolvedFixes(w.f)).map((w) => w.index);
     const sized = toSize.length > 0 ? await sizingFixesFor(ctx.analysis, toSize) : undefined;
+    // Replaced while the fixes were sized: its cards past the edit now carry the new text's offsets, so no refactor is read from them.
+    const replaced = sized !== undefined && holderOf(uri)?.analysis !== ctx.analysis;
     for (const { d, f, index } of wanted) {
       for (const fix of [...(f.fixes ?? []), ...(sized?.get(index) ?? [])]) {
         const a = toQuickFix(fix, d, ctx.lookup);
@@ -919,7 +924,7 @@ connection.onCodeAction(
     }
     // A refactor on every resistor line in the range: pick a standard value for a target current,
     // offered only to a client that can run it (its own command, or the server's with a question and an edit).
-    if (!clientSizes && !(canApplyEdit && canAskUser)) return actions;
+    if (replaced || (!clientSizes && !(canApplyEdit && canAskUser))) return actions;
     const doc = ctx.analysis.documents[uri];
     const span = ctx.conv.toSpan(params.range);
     const seen = new Set<number>();

@@ -193,7 +193,11 @@ export class WorkerHost {
        * into; do not keep it past the call. A small result is taken in at once and not announced early.
        */
       onFindings?: (partial: Analysis) => void;
-      /** The result of an earlier `analyse` of this root that the caller holds: cards the worker finds unchanged are copied from it (it is left as it is). */
+      /**
+       * The result of an earlier `analyse` of this root that the caller holds: the new result shares the cards the
+       * worker finds unchanged. `held` is left as it is until the caller adopts the result (`adoptKeptCards`), which
+       * moves the shared cards past the edit: adopt only a result that replaces `held`.
+       */
       held?: Analysis;
     } = {},
   ): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {

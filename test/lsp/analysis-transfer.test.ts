@@ -1,7 +1,7 @@
 // Splitting an analysis into parts for the thread boundary and putting it back together loses nothing.
 
 import { describe, expect, it } from 'vitest';
-import { mergePart, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
+import { adoptKeptCards, mergePart, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { analyse } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
@@ -73,10 +73,12 @@ describe('analysis transfer', () => {
     const first = splitAnalysisLazily(run(before));
     const sent = first.prepare();
     // What the main thread holds: the first analysis taken in whole.
-    const held = structuredClone(first.header);
-    for (const make of first.parts) mergePart(held, structuredClone(make()));
-    const heldCopy = structuredClone(held);
+    const firstHeld = structuredClone(first.header);
+    for (const make of first.parts) mergePart(firstHeld, structuredClone(make()));
+    const heldCopy = structuredClone(firstHeld);
     for (const [from, to, keeps] of edits) {
+      // What the main thread holds (a fresh copy each time: adopting a result moves the held cards past the edit).
+      const held = structuredClone(heldCopy);
       expect(before.includes(from), from).toBe(true);
       const after = before.replace(from, to);
       const original = run(after);
@@ -90,11 +92,16 @@ describe('analysis transfer', () => {
       expect(kept, to).toBeLessThanOrEqual(cardParts);
       const copy = structuredClone(next.header);
       for (const p of parts) mergePart(copy, p, held);
+      // The held analysis is left as it was until the result is adopted (it answers requests meanwhile).
+      expect(held).toEqual(heldCopy);
+      adoptKeptCards(copy);
       // The independent computation: the parser's own cards of the edited text.
       expect(copy.documents[uri], to).toEqual(original.documents[uri]);
-      // The held analysis is left as it was.
-      expect(held).toEqual(heldCopy);
+      // Kept cards are the held objects themselves, moved or not: no second copy.
+      const shared = copy.documents[uri]!.cards.filter((c, k) => c === held.documents[uri]!.cards[k]).length;
+      if (keeps) expect(shared, to).toBeGreaterThan(0);
     }
+    const held = structuredClone(heldCopy);
     // The same text again: every card is kept, and the very same objects are shared.
     const again = splitAnalysisLazily(run(before), sent);
     again.prepare();

@@ -5,6 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { join } from 'node:path';
 import { existsSync } from 'node:fs';
 import { WorkerHost } from '../../server/src/worker-host';
+import { adoptKeptCards } from '../../server/src/analysis-transfer';
 import { analyse } from '../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 
@@ -72,6 +73,8 @@ describe('taking a result in', () => {
       const second = await host.analyse(URI, 2, { corners: { enabled: false } }, { held: first.analysis, onPart: () => fewer++ });
       // The independent computation: the engine's own parse of the edited text.
       const direct = analyse({ uri: URI, text: edited, version: 2 }, new MemoryWorkspace({ [URI]: edited }), { corners: { enabled: false } });
+      // Adopted as the server adopts a result it accepts: the shared cards past the edit are moved.
+      adoptKeptCards(second.analysis);
       expect(second.analysis.documents[URI]).toEqual(direct.documents[URI]);
       expect(second.analysis.documents[URI]?.cards[5]).toBe(first.analysis.documents[URI]?.cards[5]);
       expect(first.analysis.documents[URI]?.text).toBe(text);
