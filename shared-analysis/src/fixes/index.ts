@@ -314,14 +314,14 @@ function targetFixes(request: SizingRequest, ctx: SizingFixContext & { cache: Ma
   // it splits off (its solution there equals the whole circuit's), so a target costs its block's size.
   const block = structure ? sizingBlock(circuit, r, [element, ...structure.devices, ...structure.reference.elements], ctx.point) : undefined;
   const verifyOn = block ?? { circuit, solver };
-  // The structure without the change: what each value's verification compares with, and where its solve
-  // starts, as the sizing's trials started there (a circuit with two operating points stays in its state).
+  // The structure without the change, what each value's verification compares with. Each value's
+  // verification starts where the sizing's solve of it started (`start`), so it reads that solve back.
   const unchanged = structure ? resolveWith(verifyOn.circuit, verifyOn.solver, structure, {}, ctx.options.temperatureC) : undefined;
   for (const o of useful) {
     const c = o.c;
     const change = resistorValueChange(r, documents, c.value);
     if (!change) continue;
-    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element, () => unchanged?.m, unchanged?.x) : { text: '', clean: true };
+    const side = structure ? regionChanges(verifyOn.circuit, verifyOn.solver, structure, { [r.name]: c.value }, ctx.options.temperatureC, element, () => unchanged?.m, c.start) : { text: '', clean: true };
     if (side === undefined) continue; // did not converge with the whole circuit: not offered
     // The targeted output itself leaving (or staying out of) its region is said in the title too.
     const selfOut = 'after' in side ? side.after.m.outOfRegion.find((d: string) => d.toLowerCase() === element.toLowerCase()) : undefined;
