@@ -256,7 +256,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
   specs.forEach((spec, k) => {
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
     const sourceValues = cornerSourceValues(spec, sources, dcOf);
-    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
+    // Each corner's point is read here and dropped before the next solve: its vectors can be reused.
+    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     let result: DcSolveResult | undefined;
     const ts = clock();
     try {

@@ -4,7 +4,7 @@ import type { BehaviouralSource } from '../circuit';
 import type { TwoTerminalRecord } from '../solve/types';
 import { evaluateProgram, type ProgramFailure } from './behaviour-program';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { allocateColumns, deviceKind } from './device';
+import { columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 
 /** Most controlling quantities per source (each takes two terminals: the plus and minus unknown). */
@@ -125,8 +125,8 @@ export class BehaviouralTable implements DeviceTable {
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const [current, voltage, power] = out.values;
     const t = this.instances.terminals;
     for (let i = 0; i < this.n; i++) {

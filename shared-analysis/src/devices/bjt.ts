@@ -3,7 +3,7 @@
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
+import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
@@ -94,7 +94,17 @@ const DIB_DVBC = 5;
 const GM = 6;
 const GPI = 7;
 const QB = 8;
-const OUTPUTS = 9;
+// The two input slots: the intrinsic VBE and VBC to evaluate at. They travel in the scratch array, not as
+// arguments, because bjtCore is too large to be inlined and a double passed to a call that is not inlined
+// is boxed on the heap: two objects per device per Newton iteration, 0.14 GB of garbage for 26 corners of
+// 10,000 devices, whose collections cost more than the device equations.
+const IN_VBE = 9;
+const IN_VBC = 10;
+// The emitter current and its partials, which `load` works out from the others for its stamps.
+const IE = 11;
+const DIE_DVBE = 12;
+const DIE_DVBC = 13;
+const SCRATCH = 14;
 
 /**
  * Below this the Early factor 1 − VBC/VAF − VBE/VAR is continued by δ·exp((D − δ)/δ), which
@@ -104,15 +114,17 @@ const OUTPUTS = 9;
 const EARLY_FLOOR = 0.1;
 
 /**
- * The Gummel–Poon equations of docs/DEVICE-MODELS.md in the NPN sense at intrinsic biases vbe,
- * vbc, with the parameter row at `par[o …]`:
+ * The Gummel–Poon equations of docs/DEVICE-MODELS.md in the NPN sense at the intrinsic biases
+ * vbe = `out[IN_VBE]`, vbc = `out[IN_VBC]`, with the parameter row at `par[o …]`:
  *   IBE1 = IS·(e^(VBE/NF·VT) − 1), IBE2 = ISE·(e^(VBE/NE·VT) − 1), IBC1, IBC2 likewise,
  *   q1 = 1/(1 − VBC/VAF − VBE/VAR), q2 = IBE1/IKF + IBC1/IKR, qb = q1/2·(1 + √(1 + 4·q2)),
  *   IC = (IBE1 − IBC1)/qb − IBC1/BR − IBC2, IB = IBE1/BF + IBE2 + IBC1/BR + IBC2,
  * plus gmin across each junction. Writes the slots above into `out` (derivatives exact) and
  * returns whether an exponential ran beyond the evaluated range.
  */
-function bjtCore(vbe: number, vbc: number, par: Float64Array, o: number, out: Float64Array): boolean {
+function bjtCore(par: Float64Array, o: number, out: Float64Array): boolean {
+  const vbe = out[IN_VBE];
+  const vbc = out[IN_VBC];
   const is = par[o + P_IS];
   const nfvt = par[o + P_NFVT];
   const nrvt = par[o + P_NRVT];
@@ -317,8 +329,10 @@ function inverse(v: number): number {
 export function evaluateBjt(vbe: number, vbc: number, p: BjtParams, out?: BjtEvaluation): BjtEvaluation {
   const par = new Float64Array(PARAMS);
   paramRow(p, par, 0);
-  const s = new Float64Array(OUTPUTS);
-  const clipped = bjtCore(vbe, vbc, par, 0, s);
+  const s = new Float64Array(SCRATCH);
+  s[IN_VBE] = vbe;
+  s[IN_VBC] = vbc;
+  const clipped = bjtCore(par, 0, s);
   const r = out ?? ({} as BjtEvaluation);
   r.ic = s[IC];
   r.ib = s[IB];
@@ -344,13 +358,15 @@ export function bjtBetaAt(p: BjtParams, ic: number): number {
   if (!(ic > 0) || !Number.isFinite(ic) || !(p.is > 0)) return p.bf;
   const par = new Float64Array(PARAMS);
   paramRow({ ...p, gmin: 0 }, par, 0);
-  const s = new Float64Array(OUTPUTS);
+  const s = new Float64Array(SCRATCH);
   const nfvt = p.nf * p.vt;
   // IC(VBE) rises monotonically at VBC = 0: bracket the root in VBE, then bisect on ln(IC).
   let lo = nfvt * Math.log(ic / (p.is * p.m) + 1) - 10 * nfvt;
   let hi = lo + 40 * nfvt;
   const icAt = (v: number): number => {
-    bjtCore(v, 0, par, 0, s);
+    s[IN_VBE] = v;
+    s[IN_VBC] = 0;
+    bjtCore(par, 0, s);
     return s[IC];
   };
   for (let k = 0; k < 60 && icAt(hi) < ic; k++) hi += 10 * nfvt;
@@ -360,7 +376,7 @@ export function bjtBetaAt(p: BjtParams, ic: number): number {
     if (icAt(mid) < ic) lo = mid;
     else hi = mid;
   }
-  bjtCore(0.5 * (lo + hi), 0, par, 0, s);
+  icAt(0.5 * (lo + hi));
   const beta = s[IC] / s[IB];
   return Number.isFinite(beta) && beta > 0 ? beta : p.bf;
 }
@@ -416,8 +432,8 @@ function regionCode(vbe: number, vbc: number): number {
 export class BjtTable implements DeviceTable {
   readonly kind: DeviceKind = BJT;
   private readonly n: number;
-  /** +1 NPN, −1 PNP. */
-  private readonly sign: Float64Array;
+  /** +1 NPN, −1 PNP (integers, so passing one to a call boxes nothing). */
+  private readonly sign: Int8Array;
   // Nominal parameters (currents times area × M), read once from the cards.
   private readonly isNom: Float64Array;
   private readonly iseNom: Float64Array;
@@ -449,12 +465,12 @@ export class BjtTable implements DeviceTable {
   private readonly vbcOld: Float64Array;
   private readonly startVbe: Float64Array;
   private readonly startVbc: Float64Array;
-  private readonly scratch = new Float64Array(OUTPUTS);
+  private readonly scratch = new Float64Array(SCRATCH);
 
   constructor(readonly instances: DeviceInstances<Bjt>, issues: ParamIssue[]) {
     const n = (this.n = instances.count);
     const col = (): Float64Array => new Float64Array(n);
-    this.sign = col();
+    this.sign = new Int8Array(n);
     this.isNom = col();
     this.iseNom = col();
     this.iscNom = col();
@@ -629,7 +645,6 @@ export class BjtTable implements DeviceTable {
 
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void {
     const t = this.instances.terminals;
-    const pos = this.instances.positions;
     const ev = this.scratch;
     const vt = this.vt;
     for (let i = 0; i < this.n; i++) {
@@ -655,27 +670,48 @@ export class BjtTable implements DeviceTable {
       }
       this.vbeOld[i] = vbe;
       this.vbcOld[i] = vbc;
-      bjtCore(vbe, vbc, this.par, i * PARAMS, ev);
-      const ic = ev[IC];
-      const ib = ev[IB];
-      const ie = -(ic + ib);
-      const dieDvbe = -(ev[DIC_DVBE] + ev[DIB_DVBE]);
-      const dieDvbc = -(ev[DIC_DVBC] + ev[DIB_DVBC]);
-      // Each intrinsic row: ∂I/∂VBE into (B′, E′), ∂I/∂VBC into (B′, C′), then the equivalent current on the right-hand side.
-      const p = i * T * T;
-      stampRow(values, rhs, pos, p + CI * T, tc, ic, ev[DIC_DVBE], ev[DIC_DVBC], vbe, vbc, s);
-      stampRow(values, rhs, pos, p + BI * T, tb, ib, ev[DIB_DVBE], ev[DIB_DVBC], vbe, vbc, s);
-      stampRow(values, rhs, pos, p + EI * T, te, ie, dieDvbe, dieDvbc, vbe, vbc, s);
-      stampSeries(values, pos, p, C, CI, this.gc[i]);
-      stampSeries(values, pos, p, B, BI, this.gb[i]);
-      stampSeries(values, pos, p, E, EI, this.ge[i]);
-      const finite = Number.isFinite(ic) && Number.isFinite(ib) && Number.isFinite(ev[DIC_DVBE] + ev[DIC_DVBC] + ev[DIB_DVBE] + ev[DIB_DVBC]) && Number.isFinite(ie);
+      ev[IN_VBE] = vbe;
+      ev[IN_VBC] = vbc;
+      bjtCore(this.par, i * PARAMS, ev);
+      const finite = this.stamp(i, values, rhs);
       if (!finite) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  /**
+   * Adds instance i's companion stamps for the evaluation in the scratch array (bias in its input
+   * slots); false when a stamp is not finite. A method of its own, with only indices and arrays for
+   * arguments, so `load` stays small enough for the junction limiting to be inlined into it (see
+   * `IN_VBE`: a double passed to a call that is not inlined is boxed).
+   */
+  private stamp(i: number, values: Float64Array, rhs: Float64Array): boolean {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const ev = this.scratch;
+    const s = this.sign[i];
+    ev[IE] = -(ev[IC] + ev[IB]);
+    ev[DIE_DVBE] = -(ev[DIC_DVBE] + ev[DIB_DVBE]);
+    ev[DIE_DVBC] = -(ev[DIC_DVBC] + ev[DIB_DVBC]);
+    // Each intrinsic row: ∂I/∂VBE into (B′, E′), ∂I/∂VBC into (B′, C′), then the equivalent current on the right-hand side.
+    const p = i * T * T;
+    stampRow(values, rhs, pos, p + CI * T, t[i * T + CI], ev, IC, DIC_DVBE, DIC_DVBC, s);
+    stampRow(values, rhs, pos, p + BI * T, t[i * T + BI], ev, IB, DIB_DVBE, DIB_DVBC, s);
+    stampRow(values, rhs, pos, p + EI * T, t[i * T + EI], ev, IE, DIE_DVBE, DIE_DVBC, s);
+    if (this.gc[i] > 0 || this.gb[i] > 0 || this.ge[i] > 0) this.stampSeriesResistances(i, values);
+    return Number.isFinite(ev[IC]) && Number.isFinite(ev[IB]) && Number.isFinite(ev[DIC_DVBE] + ev[DIC_DVBC] + ev[DIB_DVBE] + ev[DIB_DVBC]) && Number.isFinite(ev[IE]);
+  }
+
+  /** The conductances of RC, RB and RE of instance i between each netlist terminal and its intrinsic one. */
+  private stampSeriesResistances(i: number, values: Float64Array): void {
+    const pos = this.instances.positions;
+    const p = i * T * T;
+    stampSeries(values, pos, p, C, CI, this.gc[i]);
+    stampSeries(values, pos, p, B, BI, this.gb[i]);
+    stampSeries(values, pos, p, E, EI, this.ge[i]);
+  }
+
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const v = out.values;
     const t = this.instances.terminals;
     const ev = this.scratch;
@@ -684,7 +720,9 @@ export class BjtTable implements DeviceTable {
       const vbI = voltage(x, t[i * T + BI]);
       const vbe = s * (vbI - voltage(x, t[i * T + EI]));
       const vbc = s * (vbI - voltage(x, t[i * T + CI]));
-      bjtCore(vbe, vbc, this.par, i * PARAMS, ev);
+      ev[IN_VBE] = vbe;
+      ev[IN_VBC] = vbc;
+      bjtCore(this.par, i * PARAMS, ev);
       const ic = s * ev[IC];
       const ib = s * ev[IB];
       const vaf = this.vaf[i];
@@ -754,7 +792,9 @@ export class BjtTable implements DeviceTable {
       const vbI = voltage(x, t[i * T + BI]);
       const vbe = s * (vbI - voltage(x, t[i * T + EI]));
       const vbc = s * (vbI - voltage(x, t[i * T + CI]));
-      bjtCore(vbe, vbc, par, o, ev);
+      ev[IN_VBE] = vbe;
+      ev[IN_VBC] = vbc;
+      bjtCore(par, o, ev);
       bjtCoreByParam(vbe, vbc, par, o, by);
       const ic = s * ev[IC];
       const ib = s * ev[IB];
@@ -844,11 +884,14 @@ function currentRow(w: Float64Array, q: number, dVbe: number, dVbc: number): voi
 
 /**
  * One intrinsic row of the companion model: the conductances to the base-emitter and
- * base-collector controls at slots `pos[row + B′]`, `pos[row + E′]`, `pos[row + C′]`, and the
- * equivalent current (the terminal current not explained by them) moved to the right-hand side
- * of unknown `k`.
+ * base-collector controls (`ev[qbe]`, `ev[qbc]`) at slots `pos[row + B′]`, `pos[row + E′]`,
+ * `pos[row + C′]`, and the equivalent current (the terminal current `ev[qi]` not explained by
+ * them) moved to the right-hand side of unknown `k`. Every argument is an index or an array, so
+ * nothing is boxed when the call is not inlined.
  */
-function stampRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, k: number, i: number, gbe: number, gbc: number, vbe: number, vbc: number, s: number): void {
+function stampRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, k: number, ev: Float64Array, qi: number, qbe: number, qbc: number, s: number): void {
+  const gbe = ev[qbe];
+  const gbc = ev[qbc];
   const pb = pos[row + BI];
   const pe = pos[row + EI];
   const pc = pos[row + CI];
@@ -856,7 +899,7 @@ function stampRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row:
   if (pe >= 0) values[pe] -= gbe;
   if (pb >= 0) values[pb] += gbc;
   if (pc >= 0) values[pc] -= gbc;
-  if (k >= 0) rhs[k] -= s * (i - gbe * vbe - gbc * vbc);
+  if (k >= 0) rhs[k] -= s * (ev[qi] - gbe * ev[IN_VBE] - gbc * ev[IN_VBC]);
 }
 
 /** A series conductance g between terminals a and b of the instance whose slots start at p (nothing when g is 0). */

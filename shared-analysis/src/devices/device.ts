@@ -90,8 +90,11 @@ export interface DeviceTable {
   resetState(x: Float64Array, start?: StartHint): void;
   /** Linearises every instance at `x` (limited against its history when `limit`) and adds the companion stamps to `values` and `rhs`. */
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void;
-  /** Every instance's solved quantities at `x` (no limiting), one tight loop. */
-  evaluate(x: Float64Array): DeviceColumns;
+  /**
+   * Every instance's solved quantities at `x` (no limiting), one tight loop; written into `into`
+   * (columns an earlier `evaluate` of this table returned) when given, through `columnsFor`.
+   */
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns;
   /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (empty when none). */
   overdriven(x: Float64Array, i: number): OverdrivenJunction[];
   /**
@@ -194,6 +197,18 @@ export interface DeviceKind<E extends Element = Element> {
 /** Widens a kind descriptor for the registry (each kind is typed with its own element). */
 export function deviceKind<E extends Element>(kind: DeviceKind<E>): DeviceKind {
   return kind as unknown as DeviceKind;
+}
+
+/**
+ * The columns an `evaluate` writes: `into` cleared to zeros when it has this shape (so a kind that
+ * writes only some regions or flags sees what a fresh allocation gives), else new ones.
+ */
+export function columnsFor(into: DeviceColumns | undefined, quantities: number, count: number): DeviceColumns {
+  if (!into || into.values.length !== quantities || into.region.length !== count) return allocateColumns(quantities, count);
+  for (const v of into.values) v.fill(0);
+  into.region.fill(0);
+  into.flags.fill(0);
+  return into;
 }
 
 /** Allocates the columns of `count` instances for `quantities` numbers each. */

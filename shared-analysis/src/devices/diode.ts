@@ -3,7 +3,7 @@
 import type { Diode } from '../circuit';
 import type { DiodeRecord, DiodeRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
+import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, saturationCurrentLogSlope, shiftJunction } from './physics';
@@ -225,8 +225,8 @@ export class DiodeTable implements DeviceTable {
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const [id, vdCol, rd] = out.values;
     const t = this.instances.terminals;
     const gmin = this.gmin;

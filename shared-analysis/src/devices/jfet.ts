@@ -3,7 +3,7 @@
 import type { Jfet } from '../circuit';
 import type { JfetRecord, JfetRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
+import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope } from './physics';
@@ -287,8 +287,8 @@ export class JfetTable implements DeviceTable {
     return this.sign[i] * (voltage(x, t[i * T + terminal]) - voltage(x, t[i * T + S]));
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const v = out.values;
     const t = this.instances.terminals;
     const ev = this.scratch;

@@ -3,7 +3,7 @@
 import type { TransmissionLine } from '../circuit';
 import type { TwoTerminalRecord } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { allocateColumns, deviceKind } from './device';
+import { columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 
 /** Terminals: port 1 (+, −), port 2 (+, −), the current of the signal conductor and of the return conductor. */
@@ -44,8 +44,8 @@ class LineTable implements DeviceTable {
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const t = this.instances.terminals;
     for (let i = 0; i < this.n; i++) {
       const v = (k: number): number => (t[i * T + k] >= 0 ? x[t[i * T + k]] : 0);

@@ -3,7 +3,7 @@
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateColumns, allocateSensitivity, deviceKind } from './device';
+import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue } from './physics';
@@ -299,8 +299,8 @@ export class MosfetTable implements DeviceTable {
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const v = out.values;
     const t = this.instances.terminals;
     const ev = this.scratch;

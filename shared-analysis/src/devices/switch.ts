@@ -3,7 +3,7 @@
 import type { CurrentSwitch, VoltageSwitch } from '../circuit';
 import type { SwitchRecord, SwitchRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { allocateColumns, deviceKind } from './device';
+import { columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { modelParam } from './params';
 
@@ -160,8 +160,8 @@ class SwitchTable implements DeviceTable {
     }
   }
 
-  evaluate(x: Float64Array): DeviceColumns {
-    const out = allocateColumns(QUANTITIES.length, this.n);
+  evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
+    const out = columnsFor(into, QUANTITIES.length, this.n);
     const v = out.values;
     const t = this.instances.terminals;
     const T = this.T;

@@ -119,6 +119,15 @@ function allFinite(v: Float64Array): boolean {
   return true;
 }
 
+/** The vectors a `reuseResult` solve writes its result into, made at the first such solve. */
+interface ReusedVectors {
+  x?: Float64Array;
+  volts?: Float64Array;
+  tv?: Float64Array;
+  ti?: Float64Array;
+  columns?: DeviceColumns[];
+}
+
 /** The temperature each returned solution vector was solved at, so a warm start from it can predict junction voltages. */
 const solvedAt = new WeakMap<Float64Array, number>();
 
@@ -170,12 +179,17 @@ export class DcSolver {
    * the element) for it cost more than the rest of the reading at 100,000 elements.
    */
   private readonly recordTypes: (DeviceRecord['type'] | null | undefined)[];
+  /** The Newton iterate of every solve (copied into the result). */
+  private readonly iterate: Float64Array;
+  /** The vectors of the last result solved with `reuseResult`, overwritten by the next such solve. */
+  private reused: ReusedVectors | undefined;
 
   constructor(private readonly circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
     this.nominalTables = [...this.layout.tables];
     this.quantityColumns = this.layout.tables.map((t) => quantityPositions(t.kind));
     this.recordTypes = new Array<undefined>(circuit.elements.length).fill(undefined);
+    this.iterate = new Float64Array(this.layout.size);
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
@@ -257,18 +271,25 @@ export class DcSolver {
     const maxIterations = cap !== undefined && Number.isFinite(cap) ? Math.max(1, Math.min(100000, Math.floor(cap))) : DEFAULT_MAX_ITERATIONS;
     const factorizationsBefore = this.engine.factorizations;
 
-    const x = new Float64Array(n);
+    // The Newton iterate lives in the solver's own vector: the result gets a copy.
+    const x = this.iterate;
     const guess = options.initialGuess;
     let startHint: StartHint | undefined = { kind: 'cold' };
+    // Where the fallbacks start again from: the guess when it is usable, else zeros.
+    let start: Float64Array | undefined;
     if (guess && guess.length === n && allFinite(guess)) {
-      x.set(guess);
+      start = guess;
       const from = options.initialGuessTemperatureC ?? solvedAt.get(guess);
       startHint =
         from !== undefined && Number.isFinite(from) && from > -273.15 && from !== temperatureC
           ? { kind: 'temperature', temperatureC: from, vt: thermalVoltage(from) }
           : undefined;
     }
-    const start = Float64Array.from(x);
+    const restart = (): void => {
+      if (start) x.set(start);
+      else x.fill(0);
+    };
+    restart();
     this.engine.lastFinite.set(x);
 
     const fallbacks: Fallback[] = [];
@@ -288,7 +309,7 @@ export class DcSolver {
         // If the circuit itself is singular, the last step without shunts fails the same way.
         const singularFirst = last.status === 'singular';
         fallbacks.push('gmin-stepping');
-        x.set(start);
+        restart();
         const budget = { remaining: FALLBACK_BUDGET_FACTOR * maxIterations };
         const g = this.gminStepping(x, maxIterations, budget);
         iterations += g.iterations;
@@ -310,10 +331,11 @@ export class DcSolver {
 
     if (last && !converged) pushAll(findings, this.failureFindings(last, fallbacks, iterations));
     pushAll(findings, this.behaviourFindings(converged || !firstPoint ? x : firstPoint));
-    const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings);
+    const reuse = options.reuseResult === true ? (this.reused ??= {}) : undefined;
+    const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings, reuse);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged) pushAll(findings, this.postSolveFindings(x, op, structure));
-    const out = new Float64Array(n);
+    const out = reuse ? (reuse.x ??= new Float64Array(n)) : new Float64Array(n);
     for (let k = 0; k < n; k++) out[k] = Number.isFinite(x[k]) ? x[k] : 0;
     if (converged) solvedAt.set(out, temperatureC);
     return {
@@ -650,13 +672,14 @@ export class DcSolver {
     x: Float64Array,
     head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
     findings: Finding[],
+    reuse?: ReusedVectors,
   ): OperatingPoint {
     const c = this.circuit;
     const { tables, deviceOrder, readers } = this.layout;
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
     const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
     let overflow = false;
-    const volts = new Float64Array(c.nodes.length);
+    const volts = reuse ? (reuse.volts ??= new Float64Array(c.nodes.length)) : new Float64Array(c.nodes.length);
     for (let i = 1; i < c.nodes.length; i++) {
       const val = x[i - 1];
       if (inRange(val)) volts[i] = val;
@@ -666,8 +689,8 @@ export class DcSolver {
       }
     }
     // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
-    const tv = new Float64Array(readers.length);
-    const ti = new Float64Array(readers.length);
+    const tv = reuse ? (reuse.tv ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
+    const ti = reuse ? (reuse.ti ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
     const override = this.conductanceOverride;
     const sourceValues = this.engine.sourceValues;
     for (let k = 0; k < readers.length; k++) {
@@ -698,7 +721,8 @@ export class DcSolver {
       ti[k] = current;
       if (!(inRange(current) && inRange(voltage) && inRange(voltage * current))) overflow = true;
     }
-    const columns: DeviceColumns[] = tables.map((t) => t.evaluate(x));
+    const columns: DeviceColumns[] = tables.map((t, k) => t.evaluate(x, reuse?.columns?.[k]));
+    if (reuse) reuse.columns = columns;
     for (const col of columns) {
       for (const q of col.values) {
         for (let i = 0; i < q.length; i++) {

@@ -103,4 +103,31 @@ describe('operating point vectors', () => {
     c.elements.forEach((_, e) => expect(byIndex.record(e)).toEqual(byName.record(e)));
     c.nodes.forEach((_, i) => expect(byIndex.volts(i)).toBe(byName.volts(i)));
   });
+
+  it('are the same when a solve writes them into the vectors of the last such solve, and leave no trace of it', () => {
+    // A device with no Early voltage whose beta takes it from forward-active (ro unbounded, flagged)
+    // into saturation (no flag) between two solves: 4.3 V over 100 kΩ drives the base, so
+    // IC ≈ β·43 µA against the 4.3 mA the 1 kΩ collector resistor allows at VCE = 0.7 V.
+    const QX = model('QX', 'npn', { IS: 1e-15, BF: 100 });
+    const c = circuit([...SPECS, ['R', 'RB', 'vcc', 'b', 100e3], ['Q', 'QS', 'cs', 'b', '0', QX], ['R', 'RC', 'vcc', 'cs', 1e3]]);
+    const solver = new DcSolver(c);
+    const kept = solver.solve({ betaScale: 0.5 });
+    const keptDevices = structuredClone(kept.op.devices);
+    const keptX = Float64Array.from(kept.x);
+    const active = solver.solve({ betaScale: 0.5, reuseResult: true });
+    expect(active.op.devices['QS']).toMatchObject({ region: 'forward-active', roInfinite: true });
+    expect(active.op.devices).toEqual(keptDevices);
+    const reused = solver.solve({ betaScale: 2, temperatureC: 85, sourceValues: { VCC: 4.5 }, initialGuess: kept.x, reuseResult: true });
+    const plain = solver.solve({ betaScale: 2, temperatureC: 85, sourceValues: { VCC: 4.5 }, initialGuess: kept.x });
+    expect(reused.op.converged).toBe(true);
+    expect(reused.op.devices['QS']).toMatchObject({ region: 'saturation' });
+    expect(reused.op.devices['QS']).not.toHaveProperty('roInfinite');
+    expect(reused.x).toEqual(plain.x);
+    expect(reused.op.nodes).toEqual(plain.op.nodes);
+    expect(reused.op.devices).toEqual(plain.op.devices);
+    c.elements.forEach((_, e) => expect(pointVectors(reused.op)!.record(e)).toEqual(pointVectors(plain.op)!.record(e)));
+    // The result of a solve without the flag keeps its own vectors.
+    expect(kept.op.devices).toEqual(keptDevices);
+    expect(kept.x).toEqual(keptX);
+  });
 });
