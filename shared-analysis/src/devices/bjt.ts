@@ -934,15 +934,17 @@ export const BJT: DeviceKind = deviceKind<Bjt>({
   terminalCount: T,
   quantities: QUANTITIES,
   regions: REGIONS,
-  internalNodes: (el) => SERIES.filter(([r]) => hasSeries(el, r)).map(([, label]) => label),
+  internalNodes: (el) => {
+    const labels: string[] = [];
+    for (const [r, label] of SERIES) if (hasSeries(el, r)) labels.push(label);
+    return labels;
+  },
+  // One array per instance (the layout binds every instance of a large circuit through here).
   terminals: (el, node, internal) => {
-    const outer = [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2])];
-    const inner = outer.slice();
+    const t = [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2]), 0, 0, 0];
     let k = 0;
-    SERIES.forEach(([r], j) => {
-      if (hasSeries(el, r)) inner[j] = internal[k++];
-    });
-    return [...outer, ...inner];
+    for (let j = 0; j < SERIES.length; j++) t[3 + j] = hasSeries(el, SERIES[j][0]) ? internal[k++] : t[j];
+    return t;
   },
   dcPaths: (el) => [
     [el.nodes[0], el.nodes[1]],

@@ -41,7 +41,7 @@ export type LinearReader =
 /** Where a resistor's value sits in the matrix, so a per-solve override can change it without rebuilding the pattern. */
 export type ResistorStamp =
   /** A conductance stamp: pattern positions of (a,a), (b,b), (a,b), (b,a) (−1 at ground) and the netlist conductance. */
-  | { kind: 'conductance'; element: number; positions: Int32Array; g: number }
+  | { kind: 'conductance'; element: number; positions: readonly [number, number, number, number]; g: number }
   /** A 0 Ω resistor solved as a branch: the branch row's diagonal (registered at 0, so the row can become V(a) − V(b) − R·I = 0). */
   | { kind: 'short'; element: number; branch: number; diagonal: number };
 
@@ -53,8 +53,8 @@ interface KindBuilder {
   kind: DeviceKind;
   elements: Element[];
   elementIndex: number[];
-  terminals: number[];
-  positions: number[];
+  terminals: Int32List;
+  positions: Int32List;
 }
 
 /** Every nonlinear instance in element order: its element index, its table (index into `tables`) and its row in that table. */
@@ -87,10 +87,11 @@ export class MnaLayout {
   /** Element index -> where its resistance is stamped (resistors with a usable value only). */
   readonly resistorStamps = new Map<number, ResistorStamp>();
 
-  private readonly entries = new Map<number, number>();
-  private readonly rowsList: number[] = [];
-  private readonly colsList: number[] = [];
-  private readonly linearList: number[] = [];
+  private readonly entries = new EntryIndex();
+  private readonly rowsList = new Int32List();
+  private readonly colsList = new Int32List();
+  /** Each pattern entry's linear value, grown with the pattern. */
+  private linearList = new Float64Array(1024);
 
   constructor(readonly circuit: Circuit) {
     // A circuit always has ground, even if the node list arrived empty.
@@ -108,7 +109,8 @@ export class MnaLayout {
         return;
       }
       const need = kind ? kind.nodeCount : el.kind === 'E' || el.kind === 'G' ? 4 : 2;
-      const bad = el.nodes.length < need || el.nodes.slice(0, need).some((n) => !Number.isInteger(n) || n < 0 || n >= nodeCount);
+      let bad = el.nodes.length < need;
+      for (let k = 0; k < need && !bad; k++) bad = !Number.isInteger(el.nodes[k]) || el.nodes[k] < 0 || el.nodes[k] >= nodeCount;
       if (bad) {
         this.skipped.add(i);
         this.layoutIssues.push({
@@ -155,7 +157,7 @@ export class MnaLayout {
       const kind = deviceKindOf(el.kind);
       if (kind) {
         let b = builders.get(kind);
-        if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: [], positions: [] }));
+        if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: new Int32List(), positions: new Int32List() }));
         this.bindDevice(b, el, i, kind.terminals(el, u, internalOf.get(i) ?? [], branchOf));
         return;
       }
@@ -194,7 +196,7 @@ export class MnaLayout {
           }
           const g = 1 / r; // an infinite resistance is an open circuit (g = 0)
           this.stampConductance(a, b, g);
-          this.resistorStamps.set(i, { kind: 'conductance', element: i, positions: Int32Array.of(this.entry(a, a), this.entry(b, b), this.entry(a, b), this.entry(b, a)), g });
+          this.resistorStamps.set(i, { kind: 'conductance', element: i, positions: [this.entry(a, a), this.entry(b, b), this.entry(a, b), this.entry(b, a)], g });
           this.readers.push({ kind: 'conductance', element: i, a, b, g });
           break;
         }
@@ -273,8 +275,8 @@ export class MnaLayout {
       }
     });
 
-    this.pattern = { n: this.size, rows: Int32Array.from(this.rowsList), cols: Int32Array.from(this.colsList) };
-    this.linearValues = Float64Array.from(this.linearList);
+    this.pattern = { n: this.size, rows: this.rowsList.toArray(), cols: this.colsList.toArray() };
+    this.linearValues = this.linearList.slice(0, this.rowsList.length);
     this.deviceOrder = this.buildTables(builders, els.length);
   }
 
@@ -290,8 +292,8 @@ export class MnaLayout {
           count: b.elements.length,
           elements: b.elements,
           elementIndex: Int32Array.from(b.elementIndex),
-          terminals: Int32Array.from(b.terminals),
-          positions: Int32Array.from(b.positions),
+          terminals: b.terminals.toArray(),
+          positions: b.positions.toArray(),
         },
         this.paramIssues,
       );
@@ -336,14 +338,17 @@ export class MnaLayout {
   /** Pattern position of (row, col), registering it on first use; −1 when either is ground. */
   private entry(row: number, col: number): number {
     if (row < 0 || col < 0) return -1;
-    const key = row * this.size + col;
-    let p = this.entries.get(key);
-    if (p === undefined) {
+    let p = this.entries.get(row, col);
+    if (p < 0) {
       p = this.rowsList.length;
-      this.entries.set(key, p);
+      this.entries.set(row, col, p);
       this.rowsList.push(row);
       this.colsList.push(col);
-      this.linearList.push(0);
+      if (p === this.linearList.length) {
+        const grown = new Float64Array(2 * p);
+        grown.set(this.linearList);
+        this.linearList = grown;
+      }
     }
     return p;
   }
@@ -382,8 +387,85 @@ export class MnaLayout {
     for (let r = 0; r < nt; r++) {
       for (let c = 0; c < nt; c++) {
         const known = first[r] < r || first[c] < c;
-        b.positions.push(known ? b.positions[base + first[r] * nt + first[c]] : this.entry(terminals[r], terminals[c]));
+        b.positions.push(known ? b.positions.at(base + first[r] * nt + first[c]) : this.entry(terminals[r], terminals[c]));
       }
     }
+  }
+}
+
+/**
+ * (row, col) → pattern position, by open addressing over typed arrays. A Map keyed by row·n + col
+ * held a boxed number for every key past 2³⁰ (n above 32,768 unknowns) and cost about half of the
+ * layout's time at 100,000 elements.
+ */
+class EntryIndex {
+  private rows = new Int32Array(1024);
+  private cols = new Int32Array(1024);
+  /** Position + 1 at each slot, 0 for an empty slot. */
+  private slots = new Int32Array(1024);
+  private count = 0;
+
+  /** The position of (row, col), −1 when it has none. */
+  get(row: number, col: number): number {
+    const mask = this.slots.length - 1;
+    for (let h = slotHash(row, col) & mask; ; h = (h + 1) & mask) {
+      const p = this.slots[h];
+      if (p === 0) return -1;
+      if (this.rows[h] === row && this.cols[h] === col) return p - 1;
+    }
+  }
+
+  /** Records the position of a (row, col) that has none yet. */
+  set(row: number, col: number, position: number): void {
+    if (2 * (this.count + 1) > this.slots.length) this.grow();
+    this.place(row, col, position + 1);
+    this.count++;
+  }
+
+  private place(row: number, col: number, stored: number): void {
+    const mask = this.slots.length - 1;
+    let h = slotHash(row, col) & mask;
+    while (this.slots[h] !== 0) h = (h + 1) & mask;
+    this.rows[h] = row;
+    this.cols[h] = col;
+    this.slots[h] = stored;
+  }
+
+  private grow(): void {
+    const { rows, cols, slots } = this;
+    this.rows = new Int32Array(2 * slots.length);
+    this.cols = new Int32Array(2 * slots.length);
+    this.slots = new Int32Array(2 * slots.length);
+    for (let h = 0; h < slots.length; h++) if (slots[h] !== 0) this.place(rows[h], cols[h], slots[h]);
+  }
+}
+
+/** A well-mixed 32-bit hash of a pair of non-negative integers (multiplicative mixing, then a xor-shift). */
+function slotHash(row: number, col: number): number {
+  const h = Math.imul(row, 0x9e3779b1) ^ Math.imul(col + 0x7f4a7c15, 0x85ebca77);
+  return (h ^ (h >>> 15)) >>> 0;
+}
+
+/** A list of 32-bit integers that grows by doubling: the layout's per-entry and per-terminal lists reach millions of entries. */
+class Int32List {
+  private data = new Int32Array(1024);
+  length = 0;
+
+  push(v: number): void {
+    if (this.length === this.data.length) {
+      const grown = new Int32Array(2 * this.length);
+      grown.set(this.data);
+      this.data = grown;
+    }
+    this.data[this.length++] = v;
+  }
+
+  at(k: number): number {
+    return this.data[k];
+  }
+
+  /** A copy of the entries, exactly `length` long. */
+  toArray(): Int32Array {
+    return this.data.slice(0, this.length);
   }
 }
