@@ -18,6 +18,8 @@ export type FactorResult = { ok: true } | { ok: false; /** Row/column (unknown) 
  */
 export interface LinearSolver {
   factor(values: Float64Array): FactorResult;
+  /** `factor` of R·A·C for the diagonal scales R = `rowScale`, C = `colScale`, with no scaled copy of `values` made (see SparseLU). */
+  factorScaled?(values: Float64Array, rowScale: Float64Array, colScale: Float64Array): FactorResult;
   solve(b: Float64Array, x?: Float64Array): Float64Array;
   /** Returns x with Aᵀ·x = b for the last successful factor (the adjoint solve of sensitivity analysis); zeros after a failed one. */
   solveTranspose(b: Float64Array, x?: Float64Array): Float64Array;

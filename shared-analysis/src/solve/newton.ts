@@ -1,7 +1,7 @@
 // Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
 
 import type { DeviceConditions, LoadTally, StartHint } from '../devices/device';
-import type { LinearSolver } from './linear';
+import type { FactorResult, LinearSolver } from './linear';
 import type { MnaLayout } from './mna';
 
 /**
@@ -134,19 +134,36 @@ export class NewtonEngine {
    * mistaken for a singular pivot.
    */
   private equilibrate(): void {
-    const { values, scaled, rowMax, rowScale, colScale } = this;
+    const { values, rowMax, rowScale, colScale } = this;
     const { rows, cols } = this.layout.pattern;
     for (let k = 0; k < rowScale.length; k++) rowScale[k] = powerOfTwoInverse(rowMax[k]);
     colScale.fill(0);
     for (let e = 0; e < rows.length; e++) {
-      const v = values[e] * rowScale[rows[e]];
-      scaled[e] = v;
-      const a = Math.abs(v);
+      const a = Math.abs(values[e] * rowScale[rows[e]]);
       if (a > colScale[cols[e]]) colScale[cols[e]] = a;
     }
     for (let k = 0; k < colScale.length; k++) colScale[k] = powerOfTwoInverse(colScale[k]);
-    for (let e = 0; e < rows.length; e++) scaled[e] *= colScale[cols[e]];
+    this.scaledCurrent = false;
   }
+
+  /**
+   * Factors R·A·C with the scales of the last `equilibrate`: a solver that scales while it loads its
+   * values is handed them (no pass writing a scaled copy, and none reading it back), any other gets the copy.
+   */
+  private factorEquilibrated(): FactorResult {
+    if (this.solver.factorScaled) return this.solver.factorScaled(this.values, this.rowScale, this.colScale);
+    return this.solver.factor(this.lastScaledValues);
+  }
+
+  /** The entries of R·A·C, (a·r)·c in that order as the factorisation takes them, into `scaled`. */
+  private writeScaled(): void {
+    const { values, scaled, rowScale, colScale } = this;
+    const { rows, cols } = this.layout.pattern;
+    for (let e = 0; e < rows.length; e++) scaled[e] = values[e] * rowScale[rows[e]] * colScale[cols[e]];
+    this.scaledCurrent = true;
+  }
+  /** Whether `scaled` holds the matrix of the last equilibration. */
+  private scaledCurrent = false;
 
   /**
    * One pass over the assembled matrix: each row's largest |entry| (for `equilibrate`) and, at x, the
@@ -196,7 +213,7 @@ export class NewtonEngine {
     if (tally.nonFinite.length > 0) return false;
     this.measureRows(x);
     this.equilibrate();
-    const f = this.solver.factor(this.scaled);
+    const f = this.factorEquilibrated();
     this.factorizations++;
     return f.ok;
   }
@@ -243,8 +260,9 @@ export class NewtonEngine {
   private sparseWork: Float64Array | undefined;
   private readonly sparseScaled: number[] = [];
 
-  /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis). */
+  /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis), written when first asked. */
   get lastScaledValues(): Float64Array {
+    if (!this.scaledCurrent) this.writeScaled();
     return this.scaled;
   }
 
@@ -275,7 +293,7 @@ export class NewtonEngine {
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
         this.equilibrate();
-        const f = this.solver.factor(this.scaled);
+        const f = this.factorEquilibrated();
         this.factorizations++;
         if (!f.ok) return { status: 'singular', iterations: it, singularIndex: f.singularIndex };
         factored = true;

@@ -103,6 +103,7 @@ export class SparseLU implements LinearSolver {
   private readonly aVal: Float64Array;
   private readonly slot: Int32Array;
   private readonly patternRow: Int32Array;
+  private readonly patternCol: Int32Array;
   /** Column order: q[k] is the original column factorised k-th. */
   private readonly q: Int32Array;
   /** A row or column with no entries at all (-1 when there is none). */
@@ -156,6 +157,7 @@ export class SparseLU implements LinearSolver {
     }
     this.invalidIndex = invalid;
     this.patternRow = pattern.rows;
+    this.patternCol = pattern.cols;
 
     // Compressed columns; duplicate (row, col) entries share one slot and are summed.
     const count = new Int32Array(n + 1);
@@ -261,6 +263,15 @@ export class SparseLU implements LinearSolver {
    * pivots and patterns when they are still numerically sound.
    */
   factor(values: Float64Array): FactorResult {
+    return this.factorScaled(values, undefined, undefined);
+  }
+
+  /**
+   * `factor` of R·A·C, with R and C the diagonal matrices `rowScale` and `colScale` (both or
+   * neither): entry k is taken as (values[k]·R[row])·C[col] as it is scattered into the compressed
+   * columns, the very numbers a scaled copy of `values` would hold, without writing that copy.
+   */
+  factorScaled(values: Float64Array, rowScale: Float64Array | undefined, colScale: Float64Array | undefined): FactorResult {
     this.valid = false;
     this.factorCount++;
     if (this.invalidIndex >= 0) return this.fail('invalid-pattern', this.invalidIndex);
@@ -270,9 +281,12 @@ export class SparseLU implements LinearSolver {
     const slot = this.slot;
     const m = slot.length;
     if (values.length < m) return this.fail('missing-values', this.patternRow[values.length]);
+    const rows = this.patternRow;
+    const cols = this.patternCol;
+    const scaled = rowScale !== undefined && colScale !== undefined;
     for (let k = 0; k < m; k++) {
-      const v = values[k];
-      if (v - v !== 0) return this.fail('non-finite-value', this.patternRow[k]);
+      const v = scaled ? values[k] * rowScale[rows[k]] * colScale[cols[k]] : values[k];
+      if (v - v !== 0) return this.fail('non-finite-value', rows[k]);
       aVal[slot[k]] += v;
     }
     if (n === 0) {

@@ -231,6 +231,29 @@ describe('SparseLU refactorisation', () => {
     expect(lu.stats.pivotFallbacks).toBe(0);
   });
 
+  it('factors R·A·C from A and the diagonal scales exactly as from a scaled copy of A', () => {
+    const { s, b } = mnaSystem(60, 3, 11);
+    const n = s.pattern.n;
+    const rand = rng(110);
+    // Powers of two, as the Newton loop's equilibration uses, and arbitrary factors: both must match the copy bit for bit.
+    for (const power of [true, false]) {
+      const scale = (): number => (power ? 2 ** Math.round(40 * rand() - 20) : 0.1 + 10 * rand());
+      const r = Float64Array.from({ length: n }, scale);
+      const c = Float64Array.from({ length: n }, scale);
+      const copy = s.values.map((v, k) => v * r[s.pattern.rows[k]] * c[s.pattern.cols[k]]);
+      const byCopy = new SparseLU(s.pattern);
+      const byScales = new SparseLU(s.pattern);
+      for (let round = 0; round < 2; round++) {
+        expect(byScales.factorScaled(s.values, r, c)).toEqual(byCopy.factor(copy));
+        expect(byScales.solve(b)).toEqual(byCopy.solve(b));
+      }
+    }
+    const bad = s.values.slice();
+    bad[3] = Number.NaN;
+    const one = new Float64Array(n).fill(1);
+    expect(new SparseLU(s.pattern).factorScaled(bad, one, one)).toEqual({ ok: false, singularIndex: s.pattern.rows[3] });
+  });
+
   it('falls back to a fresh pivot order when a recorded pivot vanishes', () => {
     // First values choose the diagonal of column 0; then a00 becomes 0 and row 1 must take over.
     // [[0, 1], [1, 1]]·x = [1, 3] has x = [2, 1]. Source: arithmetic.
