@@ -22,6 +22,7 @@ import { sizeResistor } from './sizing';
 import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
 import type { WarmStart } from '../../shared-analysis/src/solve/warm-start';
+import { revertValueEdit, type IncrementalState } from '../../shared-analysis/src/incremental';
 
 const workspace = new FileWorkspace();
 /** The stop flag shared with the main thread (absent when the worker was started without one). */
@@ -51,6 +52,8 @@ const lastAnalysis = new Map<string, Kept>();
 const sentCards = new Map<string, Map<number, SentCards>>();
 /** Per root, the last converged nominal solution, for the next analysis of an edited text to start Newton from. */
 const warmStarts = new Map<string, WarmStart>();
+/** Per root, what the next analysis of a value edit reuses (its solver, structures and hand analysis); see `incremental.ts`. */
+const incrementals = new Map<string, IncrementalState>();
 
 function post(msg: FromWorker): void {
   parentPort?.postMessage(msg);
@@ -123,6 +126,7 @@ function handle(msg: ToWorker): void {
         lastAnalysis.delete(msg.uri);
         sentCards.delete(msg.uri);
         warmStarts.delete(msg.uri);
+        incrementals.delete(msg.uri);
       } else openTexts.set(msg.uri, msg.text);
       return;
     case 'files-changed':
@@ -139,6 +143,9 @@ function handle(msg: ToWorker): void {
         return;
       }
       const t0 = performance.now();
+      // The state is the next session's once an analysis takes it: it comes back only when the analysis stops half-way.
+      const previous = incrementals.get(msg.uri);
+      incrementals.delete(msg.uri);
       try {
         // Free the previous analysis of this root before building the next (peak memory holds one, not two).
         const dropped = lastAnalysis.get(msg.uri)?.analysis.circuit?.elements.length ?? 0;
@@ -146,9 +153,11 @@ function handle(msg: ToWorker): void {
         outgoing = undefined;
         if (dropped >= COLLECT_FROM_ELEMENTS) collectGarbage();
         const options = msg.cornersLater ? { ...msg.options, corners: { ...(msg.options.corners ?? {}), enabled: false } } : msg.options;
-        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options, { shouldStop: stopper(msg.generation), warmStart: warmStarts.get(msg.uri) });
+        const control = { shouldStop: stopper(msg.generation), warmStart: warmStarts.get(msg.uri), previous, keepIncremental: msg.cornersLater === true };
+        const session = analyseSession({ uri: msg.uri, text, version: msg.version }, workspace.forRoot(msg.uri), options, control);
         if (session.warmStart) warmStarts.set(msg.uri, session.warmStart);
         else warmStarts.delete(msg.uri);
+        if (session.incremental) incrementals.set(msg.uri, session.incremental);
         // The corner phase needs the requested corner settings back, with corners on.
         if (msg.cornersLater) session.analysis.options = { ...session.analysis.options, corners: { ...session.analysis.options.corners, ...(msg.options.corners ?? {}), enabled: true } };
         const cornersNext = msg.cornersLater === true && session.nominal !== undefined && session.analysis.structures.length > 0;
@@ -181,6 +190,10 @@ function handle(msg: ToWorker): void {
         // The session (parsed cards, solver scratch) is garbage once this handler returns.
         if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {
+        if (e instanceof AnalysisStopped && previous) {
+          revertValueEdit(previous);
+          incrementals.set(msg.uri, previous);
+        }
         if (e instanceof AnalysisStopped) post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
         else post({ type: 'failed', id: msg.id, message: `The analysis stopped with an internal error: ${errorText(e)}` });
       }

@@ -32,6 +32,7 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
+import { IncrementalKeeper, ValueEdit, type IncrementalState } from './incremental';
 
 declare const performance: { now(): number };
 
@@ -55,6 +56,8 @@ export interface AnalysisSession {
   variation?: VariationDetail;
   /** What the next analysis of an edited version may start its nominal solve from (absent when it must start cold). */
   warmStart?: WarmStart;
+  /** What the next analysis of an edited version may reuse when only values changed (asked for with `AnalysisControl.keepIncremental`). */
+  incremental?: IncrementalState;
 }
 
 /**
@@ -87,6 +90,16 @@ export interface AnalysisControl {
    * Newton from its solution when the unknowns are the same (see `analyseSession`).
    */
   warmStart?: WarmStart;
+  /**
+   * The `incremental` state of the session of the previous version of this text. When the edit changed only
+   * resistor values, the analysis takes the state's prepared solver (moved to the new values in place) and
+   * structures, and analyses again only the structures the edit can have changed (`incremental.ts`); the
+   * result is a cold analysis's. The state is then the new session's: reuse it only through that session.
+   * When the analysis stops half-way, `revertValueEdit(previous)` makes it usable again.
+   */
+  previous?: IncrementalState;
+  /** Keep what the next analysis of an edited version may reuse (`AnalysisSession.incremental`): the first pass of a host that solves corners later. */
+  keepIncremental?: boolean;
 }
 
 /** `analyse`, also returning the prepared solver and the nominal solution for `addCorners` and `sizingFixesOf`. */
@@ -111,7 +124,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const circuit = elab.circuit;
   pushAll(findings, timed('connectivity', () => checkConnectivity(circuit)));
 
-  const structures = timed('structures', () => recogniseStructures(circuit));
+  // A value edit keeps the structures recognition found (recognition reads a resistor only as positive and finite, which such an edit keeps).
+  const edit = control.previous ? timed('structures', () => ValueEdit.of(control.previous!, input.uri, input.text, elab, resolved)) : undefined;
+  const structures = edit ? [] : timed('structures', () => recogniseStructures(circuit));
+  const keeper = control.keepIncremental ? new IncrementalKeeper(edit, structures) : undefined;
   let operatingPoint: Analysis['operatingPoint'];
   let solver: DcSolver | undefined;
   let nominal: DcSolveResult | undefined;
@@ -120,7 +136,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let fingerprint: string | undefined;
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
-      solver = new DcSolver(circuit);
+      solver = edit?.solver ?? new DcSolver(circuit);
       try {
         // The stop check is also asked before every Newton iteration, so a long solve of a superseded text ends early.
         const cold = { temperatureC: resolved.temperatureC, shouldStop: control.shouldStop };
@@ -144,8 +160,9 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       const result = nominal;
       const dc = solver;
       operatingPoint = result.op;
+      if (edit) pushAll(structures, timed('structures', () => edit.structuresAt(result)));
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
-      pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved })));
+      pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved, kept: edit?.keptFindings, record: keeper?.record })));
       pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
       if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
@@ -188,7 +205,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   timed('fixes', () => attachFixes(findings, { documents: elab.documents, circuit, structures, options: resolved }));
   // Nothing leaves the engine with a range past its document's end or a number that is not finite.
   clampFindingSpans(findings, elab.documents);
-  const notFinite = keepFinite(findings, { operatingPoint, structures, variation }, input.uri);
+  // A kept structure was walked when it was analysed (a state is kept only when nothing was removed), and nothing has written into it since.
+  const notFinite = keepFinite(findings, { operatingPoint, ...(edit ? edit.analysedParts(structures) : { structures }), variation }, input.uri);
   if (notFinite) findings.push(notFinite);
 
   const analysis: Analysis = {
@@ -207,7 +225,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   };
   const converged = nominal && nominal.op.converged ? nominal : undefined;
   const warmStart: WarmStart | undefined = converged ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
-  return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}) };
+  // A self-biased loop's state depends on where Newton starts, and a removed number leaves no finding to keep: the next edit starts afresh.
+  const dc: DcSolver | undefined = solver;
+  const incremental = keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures)) ? keeper.state(input, resolved, circuit, dc, converged, structures) : undefined;
+  return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}), ...(incremental ? { incremental } : {}) };
 }
 
 /** Whether recognised structures feed each other round (a self-biased loop, which also balances at zero current). */

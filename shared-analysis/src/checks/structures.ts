@@ -86,6 +86,13 @@ export interface StructureCheckContext {
   op?: OperatingPoint;
   structures: Structure[];
   options: ResolvedOptions;
+  /**
+   * A re-analysis after a value edit: the findings a structure the edit cannot have changed had last time
+   * (that structure is then not analysed again), or undefined to analyse it.
+   */
+  kept?: (s: Structure) => Finding[] | undefined;
+  /** Told each structure's findings (severities mapped), in the order they are returned. */
+  record?: (s: Structure, findings: Finding[]) => void;
 }
 
 /**
@@ -100,24 +107,31 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const topo = topologyOf(circuit);
   const rails = [...railsByIndex(circuit).values()].map((r) => r.volts);
   const railRange = { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS };
-  const measuring = op ? nominalMeasuring(topo, structures, op) : undefined;
+  const measuring = op ? nominalMeasuring(topo, ctx.kept ? structures.filter((s) => !ctx.kept!(s)) : structures, op) : undefined;
   for (const s of feedOrder(structures)) {
-    try {
-      const measured = measuring?.measure(s);
-      pushAll(out, new StructureCheck(circuit, topo, s, structures, op, options, railRange, measured).run());
-    } catch (err) {
-      // A defect in one structure's analysis must not take down the others or the editor.
-      const dev = topo.elementByName.get(s.reference.device);
-      out.push({
+    const own = ctx.kept?.(s) ?? applySeverities(checkStructure(() => new StructureCheck(circuit, topo, s, structures, op, options, railRange, measuring?.measure(s)).run(), s, topo), options);
+    ctx.record?.(s, own);
+    pushAll(out, own);
+  }
+  return out;
+}
+
+/** One structure's findings; a defect in its analysis must not take down the others or the editor. */
+function checkStructure(run: () => Finding[], s: Structure, topo: Topology): Finding[] {
+  try {
+    return run();
+  } catch (err) {
+    const dev = topo.elementByName.get(s.reference.device);
+    return [
+      {
         code: 'structure-analysis-incomplete',
         severity: STRUCTURE_CODES['structure-analysis-incomplete'].severity,
         message: `The hand analysis of the ${kindName(s.kind)} on ${s.reference.device} could not be completed (${err instanceof Error ? err.message : String(err)}); its currents are not annotated.`,
         uri: dev?.origin.uri ?? '',
         span: dev?.origin.span ?? { start: 0, end: 0 },
-      });
-    }
+      },
+    ];
   }
-  return applySeverities(out, options);
 }
 
 /** Every structure's measurement at the operating point, its names resolved and its plans flattened once for all structures. */

@@ -10,7 +10,7 @@ import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { formatEng, listNames } from './format';
 import type { LinearSolver } from './linear';
 import { createLinearSolver } from './linear';
-import { MnaLayout } from './mna';
+import { MnaLayout, type UnknownInfo } from './mna';
 import type { NewtonOutcome } from './newton';
 import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
 import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
@@ -147,7 +147,7 @@ export class DcSolver {
   private readonly engine: NewtonEngine;
   /** Findings that do not depend on the solve options (element and parameter problems, structure). */
   private readonly staticFindings: Finding[] = [];
-  private readonly structure: Structure;
+  private structure: Structure;
   private readonly sourceIndexByName = new Map<string, number>();
   private readonly elementByName = new Map<string, number>();
   /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
@@ -184,7 +184,7 @@ export class DcSolver {
   /** The vectors of the last result solved with `reuseResult`, overwritten by the next such solve. */
   private reused: ReusedVectors | undefined;
 
-  constructor(private readonly circuit: Circuit) {
+  constructor(private circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
     this.nominalTables = [...this.layout.tables];
     this.quantityColumns = this.layout.tables.map((t) => quantityPositions(t.kind));
@@ -193,15 +193,6 @@ export class DcSolver {
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
-
-    for (const issue of this.layout.layoutIssues) {
-      const sev: Severity = issue.code === 'dc-zero-resistance' ? 'info' : issue.code === 'dc-negative-resistance' ? 'warning' : 'error';
-      const f = this.elementFinding(issue.code, sev, issue.message, issue.element);
-      const same = LAYOUT_NETLIST_CODES[issue.code];
-      if (same) f.data = { ...(f.data ?? {}), netlistCodes: same };
-      this.staticFindings.push(f);
-    }
-    for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
     circuit.elements.forEach((el, i) => {
       if (el.kind === 'R' && (el.tc1 || el.tc2)) this.tcResistors.push(i);
       const key = el.name.toLowerCase();
@@ -210,9 +201,40 @@ export class DcSolver {
     this.elementSlot = new Int32Array(circuit.elements.length).fill(-1);
     this.layout.readers.forEach((r, k) => (this.elementSlot[r.element] = k));
     for (let d = 0; d < this.layout.deviceOrder.element.length; d++) this.elementSlot[this.layout.deviceOrder.element[d]] = -2 - d;
-    this.structure = this.analyseStructure(undefined);
+    this.structure = this.staticChecks();
+  }
+
+  /** The findings that do not depend on the solve options, into `staticFindings`, and the structural checks under the netlist values. */
+  private staticChecks(): Structure {
+    this.staticFindings.length = 0;
+    for (const issue of this.layout.layoutIssues) {
+      const sev: Severity = issue.code === 'dc-zero-resistance' ? 'info' : issue.code === 'dc-negative-resistance' ? 'warning' : 'error';
+      const f = this.elementFinding(issue.code, sev, issue.message, issue.element);
+      const same = LAYOUT_NETLIST_CODES[issue.code];
+      if (same) f.data = { ...(f.data ?? {}), netlistCodes: same };
+      this.staticFindings.push(f);
+    }
+    for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
+    const structure = this.analyseStructure(undefined);
     pushAll(this.staticFindings, this.shortedJunctionFindings());
     pushAll(this.staticFindings, this.outOfRangeFindings());
+    return structure;
+  }
+
+  /**
+   * Prepares this solver for `circuit`, an edited copy of its circuit that differs only in the values of the
+   * resistors `changed` (same nodes, elements, kinds, models and unknowns; each resistor finite and positive
+   * before and after): the stamps of those resistors move, the matrix pattern, the device tables and the
+   * linear solver's symbolic analysis stay, and the findings that locate elements are made again from
+   * `circuit` (whose text offsets an edit may have moved). False, with nothing changed, when the edit is
+   * not of that form; the caller then builds a new solver.
+   */
+  adoptValues(circuit: Circuit, changed: readonly number[]): boolean {
+    if (circuit.elements.length !== this.circuit.elements.length || circuit.nodes.length !== this.circuit.nodes.length) return false;
+    if (!this.layout.adoptResistances(circuit, changed)) return false;
+    this.circuit = circuit;
+    this.structure = this.staticChecks();
+    return true;
   }
 
   /** Floating groups and voltage loops under the given resistor values, with their findings. */
@@ -226,6 +248,11 @@ export class DcSolver {
     for (const l of loops) findings.push(this.loopFinding(l.elements));
     const tied = solvable ? floating.flatMap((g) => g.nodes).sort((a, b) => a - b) : [];
     return { floating, loops, findings, tied };
+  }
+
+  /** What each MNA unknown stands for (a node, a device's internal node, a branch current), in the order of `DcSolveResult.x`. */
+  get unknowns(): readonly UnknownInfo[] {
+    return this.layout.unknowns;
   }
 
   /** Number of MNA unknowns (length of `DcSolveResult.x`). */

@@ -1,6 +1,6 @@
 // Modified nodal analysis layout: unknown numbering, the fixed sparsity pattern, linear stamps and the nonlinear devices bound to it.
 
-import type { Circuit, Element } from '../circuit';
+import type { Circuit, Element, Resistor } from '../circuit';
 import type { DeviceKind, DeviceTable } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { DEVICE_KINDS, deviceKindOf } from '../devices/registry';
@@ -93,7 +93,11 @@ export class MnaLayout {
   /** Each pattern entry's linear value, grown with the pattern. */
   private linearList = new Float64Array(1024);
 
-  constructor(readonly circuit: Circuit) {
+  /** The circuit whose values the stamps hold (`adoptResistances` moves it to an edited copy of the same circuit). */
+  circuit: Circuit;
+
+  constructor(circuit: Circuit) {
+    this.circuit = circuit;
     // A circuit always has ground, even if the node list arrived empty.
     const nodeCount = Math.max(1, circuit.nodes.length);
     for (let i = 1; i < nodeCount; i++) this.unknowns.push({ kind: 'node', node: i });
@@ -333,6 +337,39 @@ export class MnaLayout {
       message: `The ${what} of ${el.name} is ${String(v)}${unit ? ' ' + unit : ''}, which is not a finite number; the solver uses 0 instead.`,
     });
     return 0;
+  }
+
+  /**
+   * Takes the values of `circuit`, an edited copy of this layout's circuit with the same nodes, elements, kinds
+   * and models, where the resistors `changed` are the only elements whose values differ: their conductance
+   * stamps move by the difference, and the pattern, every position and the order of the unknowns stay. Each
+   * changed resistor must keep a finite positive resistance on both sides of the edit (a move to 0 Ω, an open
+   * or a negative value changes the unknowns or the layout's findings); otherwise nothing changes and the
+   * answer is false.
+   */
+  adoptResistances(circuit: Circuit, changed: readonly number[]): boolean {
+    const usable = (r: number) => Number.isFinite(r) && r > 0;
+    for (const i of changed) {
+      const el = circuit.elements[i];
+      const stamp = this.resistorStamps.get(i);
+      if (el?.kind !== 'R' || stamp?.kind !== 'conductance' || !usable(el.resistance) || !usable(1 / stamp.g)) return false;
+    }
+    const conductances = new Map<number, number>();
+    for (const i of changed) {
+      const stamp = this.resistorStamps.get(i) as Extract<ResistorStamp, { kind: 'conductance' }>;
+      const g = 1 / (circuit.elements[i] as Resistor).resistance;
+      const delta = g - stamp.g;
+      const p = stamp.positions;
+      if (p[0] >= 0) this.linearValues[p[0]] += delta;
+      if (p[1] >= 0) this.linearValues[p[1]] += delta;
+      if (p[2] >= 0) this.linearValues[p[2]] -= delta;
+      if (p[3] >= 0) this.linearValues[p[3]] -= delta;
+      stamp.g = g;
+      conductances.set(i, g);
+    }
+    for (const r of this.readers) if (r.kind === 'conductance' && conductances.has(r.element)) r.g = conductances.get(r.element)!;
+    this.circuit = circuit;
+    return true;
   }
 
   /** Pattern position of (row, col), registering it on first use; −1 when either is ground. */

@@ -6,59 +6,12 @@ import { describe, expect, it } from 'vitest';
 import { analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { unknownsFingerprint } from '../../../shared-analysis/src/solve/warm-start';
+import { expectSameAnalysis } from './same-analysis';
 
 const URI = '/t/warm.cir';
 
 function run(text: string, previous?: AnalysisSession, corners = true): AnalysisSession {
   return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: corners } }, previous?.warmStart ? { warmStart: previous.warmStart } : {});
-}
-
-/**
- * Equal up to rounding: numbers within `rel` relative, everything else (every message, code and
- * span) exactly. Two converged Newton runs from different starts agree to about 1e-15 relative;
- * quantities the engine derives by finite differences from the solution (spread contributions)
- * carry that difference divided by their step, so they are compared at 1e-6.
- * `path` names the place of a difference in the failure message.
- */
-function expectSame(a: unknown, b: unknown, path = 'analysis', rel = 1e-12): void {
-  if (typeof a === 'number' && typeof b === 'number') {
-    if (Number.isNaN(a) && Number.isNaN(b)) return;
-    // A share of the variance is a fraction of 1: there an absolute 1e-9 is the measure (a contributor of a
-    // millionth carries the rounding of the large ones).
-    // The spread analysis derives its figures from differences at the solution, so its small figures (a
-    // contributor of a millionth, a weak sensitivity) carry the rounding of the large ones: 1e-4 relative
-    // there, and 1e-3 for the σ and worst case of a contributor (its share's square root times the output's);
-    // they are shown to three digits.
-    const small = /\.contributors\.\d+\.(sigma|worstCase)$/.test(path);
-    const spread = path.includes('.variation.');
-    const tol = (small ? 1e-3 : spread ? Math.max(rel, 1e-4) : rel) * Math.max(Math.abs(a), Math.abs(b)) + (path.endsWith('.share') ? 1e-9 : 1e-18);
-    if (!(Math.abs(a - b) <= tol || a === b)) expect.fail(`${path}: ${a} vs ${b}`);
-    return;
-  }
-  if (a && b && typeof a === 'object' && typeof b === 'object') {
-    if (ArrayBuffer.isView(a) && ArrayBuffer.isView(b)) {
-      const x = a as unknown as ArrayLike<number>;
-      const y = b as unknown as ArrayLike<number>;
-      expect(x.length, path).toBe(y.length);
-      for (let i = 0; i < x.length; i++) expectSame(x[i], y[i], `${path}[${i}]`, rel);
-      return;
-    }
-    const ka = Object.keys(a).sort();
-    expect(ka, path).toEqual(Object.keys(b).sort());
-    for (const k of ka) expectSame((a as Record<string, unknown>)[k], (b as Record<string, unknown>)[k], `${path}.${k}`, rel);
-    return;
-  }
-  expect(a, path).toEqual(b);
-}
-
-/** What a user sees of an analysis, warm against cold: the solved point at 1e-12, findings and structures (corners included) at 1e-6. */
-function expectSameAnalysis(warm: AnalysisSession, cold: AnalysisSession): void {
-  const point = (s: AnalysisSession) => ({ nodes: s.analysis.operatingPoint!.nodes, devices: s.analysis.operatingPoint!.devices, converged: s.analysis.operatingPoint!.converged });
-  expectSame(point(warm), point(cold), 'operatingPoint', 1e-12);
-  const rest = (s: AnalysisSession) => ({ findings: s.analysis.findings, structures: s.analysis.structures.map((st) => ({ ...st, corners: st.corners })) });
-  expectSame(rest(warm), rest(cold), 'analysis', 1e-6);
-  // The text of every finding exactly.
-  expect(warm.analysis.findings.map((f) => f.message)).toEqual(cold.analysis.findings.map((f) => f.message));
 }
 
 // An invented two-output NPN mirror with a Widlar output and loads, and a resistor divider.

@@ -1,0 +1,463 @@
+// Re-analysis after a value edit: the prepared solver takes the new values in place, and only the structures the edit can have changed are analysed again.
+
+import type { ResolvedOptions } from './analysis';
+import type { Circuit, Element, Model } from './circuit';
+import type { ElaborationResult } from './elaborate/index';
+import type { DcSolver, DcSolveResult } from './solve/dc';
+import { railsByIndex } from './structures/rails';
+import type { Structure } from './structures/types';
+import type { Finding, Span } from './types';
+import { nameTable } from './names';
+
+/**
+ * An unknown counts as moved when it differs from the value its structures were analysed at by more than
+ * this, relative to the larger magnitude (plus `MOVED_FLOOR`). Two converged Newton runs from different
+ * starts agree to about 1e-15; a structure kept within this tolerance differs from a cold analysis's by
+ * about as much times its gain, far below the digits any finding prints.
+ */
+const MOVED_RELATIVE = 1e-11;
+/** Absolute part of the moved test (volts or amperes): a node at 0 V is not moved by rounding noise. */
+const MOVED_FLOOR = 1e-15;
+
+/** One recognised structure as a re-analysis may reuse it. */
+interface KeptStructure {
+  /** As recognition made it, before any analysis wrote into it. */
+  pristine: Structure;
+  /** As the first pass left it (hand analysis, no corners, no spread); nested records shared, never written again. */
+  firstPass: Structure;
+  /** Its hand-analysis findings, severities mapped, before fixes were attached. */
+  findings: Finding[];
+}
+
+/**
+ * What an analysis leaves for the next analysis of an edited version of the same text (`AnalysisSession.incremental`).
+ * Not plain data; it stays in the process that analysed. The solver is shared with the session.
+ */
+export interface IncrementalState {
+  uri: string;
+  text: string;
+  optionsKey: string;
+  circuit: Circuit;
+  solver: DcSolver;
+  /** The nominal solution of `circuit`. */
+  x: Float64Array;
+  /** Per unknown, the value the kept structures were analysed at (refreshed where an unknown moves). */
+  basis: Float64Array;
+  structures: KeptStructure[];
+  /** Element name -> index, node -> incident elements, rail nodes: the same for every value edit. */
+  index: CircuitIndex;
+  /** Which structures a moved node or element concerns (see `watchers`): the same for every value edit. */
+  watch: { byNode: Watchers; byElement: Watchers };
+  /** Set while an edit has moved the solver to its circuit and the analysis has not finished (see `revertValueEdit`). */
+  adopted?: { circuit: Circuit; changed: number[] };
+}
+
+/** Name and incidence tables of a circuit; a value edit keeps all of them. */
+interface CircuitIndex {
+  elementOf: Map<string, number>;
+  /** Incident elements of node n: `incident[start[n] .. start[n + 1])`. */
+  start: Int32Array;
+  incident: Int32Array;
+  rail: Uint8Array;
+}
+
+function indexCircuit(circuit: Circuit): CircuitIndex {
+  const elementOf = new Map<string, number>();
+  const n = circuit.nodes.length;
+  const start = new Int32Array(n + 1);
+  circuit.elements.forEach((el, i) => {
+    if (!elementOf.has(el.name)) elementOf.set(el.name, i);
+    for (const node of el.nodes) if (node >= 0 && node < n) start[node + 1]++;
+  });
+  for (let k = 0; k < n; k++) start[k + 1] += start[k];
+  const fill = start.slice(0, n);
+  const incident = new Int32Array(start[n]);
+  circuit.elements.forEach((el, i) => {
+    for (const node of el.nodes) if (node >= 0 && node < n) incident[fill[node]++] = i;
+  });
+  const rail = new Uint8Array(n);
+  rail[0] = 1;
+  for (const k of railsByIndex(circuit).keys()) rail[k] = 1;
+  return { elementOf, start, incident, rail };
+}
+
+/** The text that an edit replaced: `[start, oldEnd)` of the old text became `[start, start + oldEnd − start + delta)`. */
+interface EditRegion {
+  start: number;
+  oldEnd: number;
+  delta: number;
+}
+
+function editRegion(before: string, after: string): EditRegion {
+  const most = Math.min(before.length, after.length);
+  let p = 0;
+  while (p < most && before.charCodeAt(p) === after.charCodeAt(p)) p++;
+  let s = 0;
+  while (s < most - p && before.charCodeAt(before.length - 1 - s) === after.charCodeAt(after.length - 1 - s)) s++;
+  return { start: p, oldEnd: before.length - s, delta: after.length - before.length };
+}
+
+/** A span of the old text moved to the new one, or undefined when it touches the edited text. */
+function movedSpan(span: Span, r: EditRegion): Span | undefined {
+  if (span.end < r.start) return { start: span.start, end: span.end };
+  if (span.start > r.oldEnd) return { start: span.start + r.delta, end: span.end + r.delta };
+  return undefined;
+}
+
+/** A kept finding with its spans moved past the edit, or undefined when it cannot be moved (it touches the edit, or carries edits of its own). */
+function movedFinding(f: Finding, uri: string, r: EditRegion): Finding | undefined {
+  if (f.uri !== uri || f.fixes) return undefined;
+  const span = movedSpan(f.span, r);
+  if (!span) return undefined;
+  if (!f.related) return { ...f, span };
+  const related: NonNullable<Finding['related']> = [];
+  for (const x of f.related) {
+    const at = x.uri === uri ? movedSpan(x.span, r) : undefined;
+    if (!at) return undefined;
+    related.push({ ...x, span: at });
+  }
+  return { ...f, span, related };
+}
+
+function sameNumbers(a: readonly number[], b: readonly number[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (!Object.is(a[i], b[i])) return false;
+  return true;
+}
+
+function sameStrings(a: readonly string[], b: readonly string[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
+}
+
+function sameRecord(a: Record<string, unknown> | undefined, b: Record<string, unknown> | undefined): boolean {
+  if (!a || !b) return a === b;
+  const ka = Object.keys(a);
+  if (ka.length !== Object.keys(b).length) return false;
+  return ka.every((k) => Object.prototype.hasOwnProperty.call(b, k) && Object.is(a[k], b[k]));
+}
+
+/** Whether two elaborated models solve and read alike (their card's place aside). */
+function sameModel(a: Model | undefined, b: Model | undefined, seen: Map<Model, Model>): boolean {
+  if (!a || !b) return a === b;
+  if (seen.get(a) === b) return true;
+  const same = a.name === b.name && a.kind === b.kind && sameRecord(a.params, b.params) && sameStrings(a.given, b.given) && sameRecord(a.ratings, b.ratings);
+  if (same) seen.set(a, b);
+  return same;
+}
+
+/**
+ * The elements of `after` whose values differ from `before`'s, when nothing else differs: the same title,
+ * temperatures, parameters, models, nodes and, element by element, kind, name, nodes and every field but
+ * the place in the text; only a resistor's resistance may change. Undefined for any other difference
+ * (a field that is not a plain value, such as a behavioural program, counts as a difference).
+ */
+export function valueChanges(before: Circuit, after: Circuit): number[] | undefined {
+  const models = new Map<Model, Model>();
+  if (before.title !== after.title || !Object.is(before.temperatureC, after.temperatureC) || !Object.is(before.tnomC, after.tnomC)) return undefined;
+  if (!sameStrings(before.nodes, after.nodes) || !sameStrings(before.detachedNodes ?? [], after.detachedNodes ?? []) || !sameRecord(before.params, after.params)) return undefined;
+  const names = Object.keys(before.models);
+  if (names.length !== Object.keys(after.models).length || !names.every((k) => sameModel(before.models[k], after.models[k], models))) return undefined;
+  if (before.elements.length !== after.elements.length) return undefined;
+  const changed: number[] = [];
+  for (let i = 0; i < after.elements.length; i++) {
+    const d = elementDifference(before.elements[i], after.elements[i], models);
+    if (d === 'other') return undefined;
+    if (d === 'value') changed.push(i);
+  }
+  return changed;
+}
+
+function elementDifference(a: Element, b: Element, models: Map<Model, Model>): 'none' | 'value' | 'other' {
+  if (a.kind !== b.kind || a.name !== b.name || !sameNumbers(a.nodes, b.nodes)) return 'other';
+  const keys = Object.keys(b);
+  if (keys.length !== Object.keys(a).length) return 'other';
+  let value = false;
+  for (const k of keys) {
+    if (k === 'origin' || k === 'nodes') continue;
+    const u = (a as unknown as Record<string, unknown>)[k];
+    const v = (b as unknown as Record<string, unknown>)[k];
+    if (k === 'model') {
+      if (!sameModel(u as Model | undefined, v as Model | undefined, models)) return 'other';
+    } else if (!Object.is(u, v)) {
+      if (b.kind === 'R' && k === 'resistance') value = true;
+      else return 'other';
+    }
+  }
+  return value ? 'value' : 'none';
+}
+
+/** The settings that must be equal for a re-analysis to reuse anything. */
+export function optionsKey(options: ResolvedOptions): string {
+  return JSON.stringify(options);
+}
+
+/**
+ * An edit that changed only values, under way: the session's solver holds the new values, and after the
+ * nominal solve `structuresAt` says which structures are analysed again.
+ */
+export class ValueEdit {
+  private readonly kept = new Map<Structure, Finding[]>();
+  /** The basis of the next state: the previous one with the moved unknowns refreshed. */
+  basis: Float64Array;
+  /** Per structure of `structuresAt`, recognition's form of it in the edited circuit. */
+  private pristine: Structure[] = [];
+
+  private constructor(
+    readonly previous: IncrementalState,
+    readonly circuit: Circuit,
+    private readonly changed: number[],
+    private readonly region: EditRegion,
+  ) {
+    this.basis = previous.basis;
+  }
+
+  /** The value edit from `previous` to this analysis, with the solver moved to the new values; undefined when the analysis must start afresh. */
+  static of(previous: IncrementalState, uri: string, text: string, elab: ElaborationResult, options: ResolvedOptions): ValueEdit | undefined {
+    const docs = Object.keys(elab.documents);
+    if (previous.uri !== uri || docs.length !== 1 || docs[0] !== uri || previous.optionsKey !== optionsKey(options)) return undefined;
+    if (!options.solve || options.corners.enabled || elab.circuit.elements.length === 0) return undefined;
+    const changed = valueChanges(previous.circuit, elab.circuit);
+    if (!changed || copiedByRecognition(previous, changed) || !previous.solver.adoptValues(elab.circuit, changed)) return undefined;
+    previous.adopted = { circuit: elab.circuit, changed };
+    return new ValueEdit(previous, elab.circuit, changed, editRegion(previous.text, text));
+  }
+
+  get solver(): DcSolver {
+    return this.previous.solver;
+  }
+
+  /**
+   * The structures of the edited circuit: those the edit cannot have changed as the last first pass left them
+   * (with their findings kept, see `keptFindings`), the others as recognition made them, to be analysed again.
+   * A structure is analysed again when one of its elements changed value or has a moved unknown, when a node
+   * of its elements moved, when an element on one of its nodes that is not a rail changed value or has a moved
+   * node (the hand analysis reads the neighbours of a structure's nodes), when a finding of it touches the
+   * edited text, and when a structure it feeds or that feeds it is analysed again.
+   */
+  structuresAt(result: DcSolveResult): Structure[] {
+    const prev = this.previous;
+    this.pristine = prev.structures.map((k) => withDegenerations(k.pristine, this.circuit, prev.index));
+    const touched = new Array<boolean>(prev.structures.length).fill(!result.op.converged);
+    const { movedNode, movedElement } = this.moved(result);
+    const mark = (watch: Watchers, k: number) => {
+      for (let j = watch.start[k]; j < watch.start[k + 1]; j++) touched[watch.structures[j]] = true;
+    };
+    movedNode.forEach((m, n) => m && mark(prev.watch.byNode, n));
+    movedElement.forEach((m, e) => m && mark(prev.watch.byElement, e));
+    prev.structures.forEach((k, i) => {
+      if (!touched[i] && k.findings.some((f) => !movedFinding(f, prev.uri, this.region))) touched[i] = true;
+    });
+    spreadAlongFeeds(prev.structures.map((k) => k.pristine), touched);
+    return prev.structures.map((k, i) => {
+      if (touched[i]) return copyStructure(this.pristine[i]);
+      const s = copyStructure(k.firstPass);
+      this.kept.set(s, k.findings.map((f) => movedFinding(f, prev.uri, this.region)!));
+      return s;
+    });
+  }
+
+  /** The findings of a structure kept from the last analysis (moved past the edit), or undefined for one analysed again. */
+  keptFindings = (s: Structure): Finding[] | undefined => this.kept.get(s);
+
+  /** The structures analysed again, named by their paths under `structures` (for the finiteness walk, which the kept ones passed). */
+  analysedParts(structures: Structure[]): Record<string, unknown> {
+    const parts = nameTable<unknown>();
+    structures.forEach((s, i) => {
+      if (!this.kept.has(s)) parts[`structures[${i}]`] = s;
+    });
+    return parts;
+  }
+
+  /** Recognition's form of structure i of `structuresAt` in the edited circuit. */
+  pristineOf(i: number): Structure {
+    return this.pristine[i];
+  }
+
+  /** Which unknowns moved from the basis, by node and by element (internal nodes, branch currents); refreshes the basis. */
+  private moved(result: DcSolveResult): { movedNode: Uint8Array; movedElement: Uint8Array } {
+    const movedNode = new Uint8Array(this.circuit.nodes.length);
+    const movedElement = new Uint8Array(this.circuit.elements.length);
+    for (const e of this.changed) movedElement[e] = 1;
+    const x = result.x;
+    const before = this.previous.basis;
+    const basis = Float64Array.from(before);
+    const unknowns = this.solver.unknowns;
+    for (let k = 0; k < x.length; k++) {
+      const a = before[k];
+      const b = x[k];
+      if (Math.abs(a - b) <= MOVED_RELATIVE * Math.max(Math.abs(a), Math.abs(b)) + MOVED_FLOOR) continue;
+      basis[k] = b;
+      const u = unknowns[k];
+      if (u.kind === 'node') movedNode[u.node] = 1;
+      else movedElement[u.element] = 1;
+    }
+    this.basis = basis;
+    return { movedNode, movedElement };
+  }
+}
+
+/**
+ * Whether recognition copied the value of a changed resistor where `withDegenerations` does not re-derive it:
+ * the source resistor of a self-biased JFET source (`params.rsOhms`), which the structure does not name.
+ */
+function copiedByRecognition(state: IncrementalState, changed: number[]): boolean {
+  const nodes = new Set<number>();
+  for (const k of state.structures) {
+    if (k.pristine.kind !== 'jfet-self-biased-source') continue;
+    for (const e of memberElements(k.pristine, state.index)) for (const n of state.circuit.elements[e].nodes) nodes.add(n);
+  }
+  return nodes.size > 0 && changed.some((e) => state.circuit.elements[e].nodes.some((n) => nodes.has(n)));
+}
+
+/** Recognition's copy of each degeneration resistor's value (`ohms`), read again from the edited circuit. */
+function withDegenerations(s: Structure, circuit: Circuit, index: CircuitIndex): Structure {
+  const ohms = (d: { resistor: string; ohms: number }) => {
+    const e = index.elementOf.get(d.resistor);
+    const el = e === undefined ? undefined : circuit.elements[e];
+    return el && el.kind === 'R' ? el.resistance : d.ohms;
+  };
+  const stale = (d: { resistor: string; ohms: number } | undefined) => d !== undefined && !Object.is(ohms(d), d.ohms);
+  if (!stale(s.reference.degeneration) && !s.outputs.some((o) => stale(o.degeneration))) return s;
+  const degeneration = s.reference.degeneration;
+  return {
+    ...s,
+    reference: degeneration ? { ...s.reference, degeneration: { ...degeneration, ohms: ohms(degeneration) } } : s.reference,
+    outputs: s.outputs.map((o) => (o.degeneration ? { ...o, degeneration: { ...o.degeneration, ohms: ohms(o.degeneration) } } : o)),
+  };
+}
+
+/** Structure indices by node or element: those of key k are `structures[start[k] .. start[k + 1])`. */
+interface Watchers {
+  start: Int32Array;
+  structures: Int32Array;
+}
+
+/** Inverts per-structure lists of keys (nodes or elements) in `0 .. size`. */
+function invert(lists: number[][], size: number): Watchers {
+  const start = new Int32Array(size + 1);
+  for (const list of lists) for (const k of list) start[k + 1]++;
+  for (let k = 0; k < size; k++) start[k + 1] += start[k];
+  const fill = start.slice(0, size);
+  const structures = new Int32Array(start[size]);
+  lists.forEach((list, i) => {
+    for (const k of list) structures[fill[k]++] = i;
+  });
+  return { start, structures };
+}
+
+/**
+ * What each structure's analysis reads, inverted: a structure is analysed again when an element it names, or one
+ * on a node of those that is not a rail (the hand analysis reads the neighbours of a structure's nodes), changed
+ * value or has a moved internal node or branch current, or when a node of any of those elements moved.
+ */
+function watchers(structures: Structure[], circuit: Circuit, index: CircuitIndex): { byNode: Watchers; byElement: Watchers } {
+  const nodes: number[][] = [];
+  const elements: number[][] = [];
+  for (const s of structures) {
+    const watched = new Set<number>();
+    for (const e of memberElements(s, index)) {
+      watched.add(e);
+      for (const n of circuit.elements[e].nodes) {
+        if (index.rail[n]) continue;
+        for (let j = index.start[n]; j < index.start[n + 1]; j++) watched.add(index.incident[j]);
+      }
+    }
+    const atNodes = new Set<number>();
+    for (const e of watched) for (const n of circuit.elements[e].nodes) atNodes.add(n);
+    elements.push([...watched]);
+    nodes.push([...atNodes]);
+  }
+  return { byNode: invert(nodes, circuit.nodes.length), byElement: invert(elements, circuit.elements.length) };
+}
+
+/** Element indices of everything a structure names: devices, parts, the reference chain and degeneration resistors. */
+function memberElements(s: Structure, index: CircuitIndex): number[] {
+  const names = [...s.devices, ...Object.keys(s.parts ?? {}), ...s.reference.elements];
+  if (s.reference.degeneration) names.push(s.reference.degeneration.resistor);
+  for (const o of s.outputs) if (o.degeneration) names.push(o.degeneration.resistor);
+  const out: number[] = [];
+  for (const n of names) {
+    const e = index.elementOf.get(n);
+    if (e !== undefined) out.push(e);
+  }
+  return out;
+}
+
+/** Marks every structure that feeds or is fed by a marked one, until nothing changes. */
+function spreadAlongFeeds(structures: Structure[], touched: boolean[]): void {
+  const at = new Map(structures.map((s, i) => [s.id, i]));
+  for (let changed = true; changed; ) {
+    changed = false;
+    structures.forEach((s, i) => {
+      const j = s.reference.fedBy !== undefined ? at.get(s.reference.fedBy) : undefined;
+      if (j === undefined || touched[i] === touched[j]) return;
+      touched[i] = touched[j] = true;
+      changed = true;
+    });
+  }
+}
+
+/** A structure object of its own: nested records shared, the lists an analysis writes into (voltages, corners) copied. */
+function copyStructure(s: Structure): Structure {
+  return { ...s, corners: [], ...(s.voltages ? { voltages: s.voltages.map((v) => ({ ...v })) } : {}) };
+}
+
+/** A first-pass snapshot of a structure: what its hand analysis wrote, without the spread that each analysis attaches afresh. */
+function firstPassOf(s: Structure): Structure {
+  const copy = copyStructure(s);
+  delete copy.variation;
+  return copy;
+}
+
+/** Records each structure's findings during the hand analysis and makes the state the next edit starts from. */
+export class IncrementalKeeper {
+  private readonly findings = new Map<Structure, Finding[]>();
+  private readonly pristine: Structure[];
+
+  constructor(
+    private readonly edit: ValueEdit | undefined,
+    recognised: Structure[],
+  ) {
+    this.pristine = edit ? [] : recognised.map(copyStructure);
+  }
+
+  record = (s: Structure, findings: Finding[]): void => {
+    this.findings.set(s, findings.map((f) => ({ ...f })));
+  };
+
+  /** The state for the next edit, when this analysis can be one's start: converged, no notice of a number removed. */
+  state(input: { uri: string; text: string }, options: ResolvedOptions, circuit: Circuit, solver: DcSolver, nominal: DcSolveResult, structures: Structure[]): IncrementalState | undefined {
+    if (!nominal.op.converged || !options.solve || options.corners.enabled) return undefined;
+    const previous = this.edit?.previous;
+    if (previous) previous.adopted = undefined;
+    const kept: KeptStructure[] = [];
+    const index = previous ? previous.index : indexCircuit(circuit);
+    for (let i = 0; i < structures.length; i++) {
+      const findings = this.findings.get(structures[i]);
+      if (!findings) return undefined;
+      kept.push({ pristine: this.edit ? this.edit.pristineOf(i) : this.pristine[i], firstPass: firstPassOf(structures[i]), findings });
+    }
+    return {
+      uri: input.uri,
+      text: input.text,
+      optionsKey: optionsKey(options),
+      circuit,
+      solver,
+      x: nominal.x,
+      basis: this.edit ? this.edit.basis : nominal.x,
+      structures: kept,
+      index,
+      watch: previous ? previous.watch : watchers(kept.map((k) => k.pristine), circuit, index),
+    };
+  }
+}
+
+/** After an analysis that took `state` as its start stopped half-way: puts the solver back to `state`'s values, so the state stays usable. */
+export function revertValueEdit(state: IncrementalState): void {
+  const a = state.adopted;
+  if (!a) return;
+  state.solver.adoptValues(state.circuit, a.changed);
+  state.adopted = undefined;
+}

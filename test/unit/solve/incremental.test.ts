@@ -1,0 +1,232 @@
+// A re-analysis after a value edit reuses the last analysis (its prepared solver, its structures, and the hand
+// analysis of every structure the edit cannot have changed). The check: for many random value edits on several
+// invented circuits, the incremental result equals a cold analysis of the edited text (the cold analysis is the
+// independent computation): the point to 1e-12, every finding's code, place and text exactly, the structures'
+// figures, and then the corner phase on both. A kept structure that should have changed fails the comparison.
+
+import { describe, expect, it } from 'vitest';
+import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { revertValueEdit, valueChanges } from '../../../shared-analysis/src/incremental';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { rng } from '../../seeded-random';
+import { expectSame, expectSameAnalysis } from './same-analysis';
+
+const URI = '/t/incremental.cir';
+/** The server's first pass: corners later, in a phase of their own. */
+const OPTIONS = { corners: { enabled: false } };
+
+function cold(text: string): AnalysisSession {
+  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS);
+}
+
+function incremental(text: string, previous?: AnalysisSession, shouldStop?: () => boolean): AnalysisSession {
+  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart, shouldStop };
+  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS, control);
+}
+
+/** Findings exactly (code, severity, place, text), then everything else as `expectSameAnalysis` compares it. */
+function expectColdResult(got: AnalysisSession, want: AnalysisSession): void {
+  const exact = (s: AnalysisSession) => s.analysis.findings.map((f) => ({ code: f.code, severity: f.severity, uri: f.uri, span: f.span, message: f.message, related: f.related, fixes: f.fixes }));
+  expect(exact(got)).toEqual(exact(want));
+  expectSameAnalysis(got, want, 1e-9);
+}
+
+/** The corner phase on both: its findings exactly, the structures' corner figures and spread as `expectSame` compares them. */
+function expectSameCorners(got: AnalysisSession, want: AnalysisSession): void {
+  const a = addCorners(got.analysis, { solver: got.solver!, nominal: got.nominal! });
+  const b = addCorners(want.analysis, { solver: want.solver!, nominal: want.nominal! });
+  expect(a.map((f) => [f.code, f.span, f.message])).toEqual(b.map((f) => [f.code, f.span, f.message]));
+  expectSame(
+    got.analysis.structures.map((s) => ({ ...s, corners: s.corners })),
+    want.analysis.structures.map((s) => ({ ...s, corners: s.corners })),
+    'structures after the corner phase',
+    1e-6,
+  );
+}
+
+// Invented: NPN sink cells on one rail (reference resistor, diode-connected device, output device, load); every
+// fifth load is too large for the current, so that output saturates and has a finding; some outputs carry a target.
+function sinkCells(cells: number): string {
+  const L = ['incremental sink cells', 'VCC vcc 0 DC 5', '.model QN NPN (IS=1e-15 BF=120 VAF=80)'];
+  for (let i = 0; i < cells; i++) {
+    const target = i % 4 === 1 ? ' ; expect 0.35mA ±5%' : '';
+    L.push(`RR${i} vcc r${i} ${10 + (i % 7)}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN${target}`, `RL${i} vcc o${i} ${i % 5 === 3 ? 30 : 1 + (i % 3)}k`);
+  }
+  L.push('.end', '');
+  return L.join('\n');
+}
+
+// Invented: mirrors that share nodes and feed each other. A three-output NPN mirror whose loads are chained
+// (RLB hangs from RLA's node), a PNP mirror whose output feeds an NPN mirror's reference, which feeds a
+// degenerated PNP mirror; a Widlar output; a divider and a lone resistor string no structure owns.
+const SHARED = `incremental shared and chained mirrors
+VCC vcc 0 DC 9
+.model QN NPN (IS=2e-15 BF=150 VAF=70)
+.model QP PNP (IS=1e-15 BF=80 VAF=50)
+RREF vcc ref 15k
+Q1 ref ref 0 QN
+Q2 a ref 0 QN
+Q3 b ref 0 QN ; expect 0.5mA ±10%
+Q4 c ref e4 QN
+RE4 e4 0 2.2k
+RLA vcc a 4.7k
+RLB a b 3.3k
+RLC vcc c 8.2k
+RPREF p 0 22k
+QP1 p p vcc QP
+QP2 n p vcc QP
+QN1 n n 0 QN
+QN2 m n 0 QN
+RM1 m1 m 1k
+QD1 m1 m1 d1 QP
+RD1 d1 vcc 1k
+QD2 out m1 dx QP
+RD2 dx vcc 1.5k
+ROUT out 0 5.6k
+RDIV1 vcc div 10k
+RDIV2 div 0 6.8k
+RS1 vcc s1 1k
+RS2 s1 s2 2k
+RS3 s2 0 3k
+.end
+`;
+
+// Invented: a chain where each mirror's output is the next one's reference, alternating NPN and PNP.
+const CHAIN = `incremental mirror chain
+VCC vcc 0 DC 12
+.model QN NPN (IS=1e-15 BF=100 VAF=60)
+.model QP PNP (IS=1e-15 BF=60 VAF=40)
+R0 vcc n0 20k
+QA1 n0 n0 0 QN
+QA2 p1 n0 0 QN
+QB1 p1 p1 vcc QP
+QB2 n2 p1 vcc QP
+QC1 n2 n2 0 QN
+QC2 p3 n2 e3 QN
+RC3 e3 0 500
+QD1 p3 p3 vcc QP
+QD2 o4 p3 vcc QP ; expect 0.2mA ±5%
+RL4 o4 0 6.8k
+.end
+`;
+
+const CARD = /^(R\S+ \S+ \S+ )(\S+)(.*)$/;
+
+/** The text with the value of one resistor card (chosen by `random`) replaced by a random positive value in another notation. */
+function randomValueEdit(text: string, random: () => number): string {
+  const lines = text.split('\n');
+  const cards = lines.flatMap((l, i) => (CARD.test(l) ? [i] : []));
+  const at = cards[Math.floor(random() * cards.length)];
+  const ohms = 300 * Math.pow(10, 2 * random());
+  const forms = [`${(ohms / 1e3).toFixed(2)}k`, `${Math.round(ohms)}`, `${(ohms / 1e3).toPrecision(5)}K`, `${ohms.toExponential(3)}`];
+  lines[at] = lines[at].replace(CARD, (_m, head: string, _v: string, tail: string) => `${head}${forms[Math.floor(random() * forms.length)]}${tail}`);
+  return lines.join('\n');
+}
+
+/** How many structures of `next` were kept from `previous` (their estimate is the same object, not computed again). */
+function keptCount(previous: AnalysisSession, next: AnalysisSession): number {
+  const before = new Set(previous.analysis.structures.map((s) => s.estimate));
+  return next.analysis.structures.filter((s) => s.estimate !== undefined && before.has(s.estimate)).length;
+}
+
+describe('incremental re-analysis of a value edit', () => {
+  // In the chain every edit moves every node after it, so nothing is kept there: the feeds are what it tests.
+  for (const [name, text, edits, keeps] of [
+    ['sink cells', sinkCells(24), 30, true],
+    ['shared and chained mirrors', SHARED, 30, true],
+    ['a mirror chain', CHAIN, 20, false],
+  ] as const) {
+    it(`equals a cold analysis after random value edits: ${name}`, () => {
+      const random = rng(20261202);
+      let current = text;
+      let session = incremental(current);
+      expect(session.incremental).toBeDefined();
+      let kept = 0;
+      for (let k = 0; k < edits; k++) {
+        current = randomValueEdit(current, random);
+        const next = incremental(current, session);
+        const want = cold(current);
+        // The prepared solver was taken over (the edit changed values only), not built again.
+        expect(next.solver).toBe(session.solver);
+        expectColdResult(next, want);
+        kept += keptCount(session, next);
+        // Every few edits the corner phase runs on the result, as the server runs it; the next edit starts from its analysis all the same.
+        if (k % 3 === 0) expectSameCorners(next, want);
+        session = next;
+      }
+      // Structures were kept, so the comparison above judged the kept ones too.
+      if (keeps) expect(kept).toBeGreaterThan(0);
+    });
+  }
+
+  it('keeps every structure of a large array but the edited cell and moves the findings after the edit', () => {
+    const text = sinkCells(40);
+    const first = incremental(text);
+    const edited = text.replace('RR2 vcc r2 12k', 'RR2 vcc r2 12.75k');
+    const next = incremental(edited, first);
+    expectColdResult(next, cold(edited));
+    expect(keptCount(first, next)).toBe(next.analysis.structures.length - 1);
+  });
+
+  it('reuses nothing but the warm start when the edit is not a value edit', () => {
+    const first = incremental(SHARED);
+    for (const edited of [
+      SHARED.replace('RS3 s2 0 3k', 'RS3 s2 0 3k\nRS4 s2 0 3k'), // a new element
+      SHARED.replace('RLC vcc c 8.2k', 'RLC vcc b 8.2k'), // a node moved
+      SHARED.replace('VAF=70', 'VAF=75'), // a model card
+      SHARED.replace('VCC vcc 0 DC 9', 'VCC vcc 0 DC 10'), // a rail, which recognition reads
+      SHARED.replace('RS3 s2 0 3k', 'RS3 s2 0 0'), // a resistor to 0 Ω, solved with a current unknown
+      SHARED.replace('RS3 s2 0 3k', 'RS3 s2 0 -3k'), // a negative resistor, which recognition does not count
+    ]) {
+      const next = incremental(edited, first);
+      expect(next.solver).not.toBe(first.solver);
+      expectColdResult(next, cold(edited));
+    }
+  });
+
+  it('reuses everything for an edit of a comment, and re-reads its target', () => {
+    const first = incremental(CHAIN);
+    const edited = CHAIN.replace('; expect 0.2mA ±5%', '; expect 0.25mA ±5%');
+    const next = incremental(edited, first);
+    expect(next.solver).toBe(first.solver);
+    expectColdResult(next, cold(edited));
+    expect(keptCount(first, next)).toBe(next.analysis.structures.length);
+  });
+
+  it('keeps no state for a circuit with a self-biased loop', () => {
+    const loop = `incremental self-biased cell
+.model qn npn (bf=100)
+.model qp pnp (bf=50)
+VCC vcc 0 5
+Q1 n1 n1 0 qn
+Q2 p n1 x qn area=8
+R x 0 1k
+QP1 p p vcc qp
+QP2 n1 p vcc qp
+RSTART vcc n1 1meg
+.end
+`;
+    expect(incremental(loop).incremental).toBeUndefined();
+  });
+
+  it('stays usable after an analysis that took it as its start was stopped', () => {
+    const first = incremental(CHAIN);
+    const edited = CHAIN.replace('R0 vcc n0 20k', 'R0 vcc n0 25k');
+    let asked = 0;
+    // Stop at the third check: after the solver took the new values.
+    expect(() => incremental(edited, first, () => ++asked >= 3)).toThrow();
+    revertValueEdit(first.incremental!);
+    const again = CHAIN.replace('R0 vcc n0 20k', 'R0 vcc n0 18k');
+    const next = incremental(again, first);
+    expect(next.solver).toBe(first.solver);
+    expectColdResult(next, cold(again));
+  });
+
+  it('finds the resistors whose values changed and nothing else', () => {
+    const a = cold(SHARED).analysis.circuit!;
+    const b = cold(SHARED.replace('RLB a b 3.3k', 'RLB a b 3.9k').replace('RD2 dx vcc 1.5k', 'RD2 dx vcc 1.2k')).analysis.circuit!;
+    expect(valueChanges(a, b)!.map((i) => b.elements[i].name)).toEqual(['RLB', 'RD2']);
+    expect(valueChanges(a, a)).toEqual([]);
+    expect(valueChanges(a, cold(SHARED.replace('Q3 b ref 0 QN', 'Q3 b ref 0 QN area=2')).analysis.circuit!)).toBeUndefined();
+  });
+});
