@@ -132,7 +132,7 @@ function keptCount(previous: AnalysisSession, next: AnalysisSession): number {
 describe('incremental re-analysis of a value edit', () => {
   // In the chain every edit moves every node after it, so nothing is kept there: the feeds are what it tests.
   for (const [name, text, edits, keeps] of [
-    ['sink cells', sinkCells(24), 30, true],
+    ['sink cells', sinkCells(16), 20, true],
     ['shared and chained mirrors', SHARED, 30, true],
     ['a mirror chain', CHAIN, 20, false],
   ] as const) {
