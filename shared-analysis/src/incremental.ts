@@ -12,10 +12,12 @@ import { nameTable } from './names';
 /**
  * An unknown counts as moved when it differs from the value its structures were analysed at by more than
  * this, relative to the larger magnitude (plus `MOVED_FLOOR`). Two converged Newton runs from different
- * starts agree to about 1e-15; a structure kept within this tolerance differs from a cold analysis's by
- * about as much times its gain, far below the digits any finding prints.
+ * starts agree to about 1e-15 (a cell the edit does not reach usually to the last bit); a structure kept
+ * within this tolerance differs from a cold analysis's by about as much times its gain, and a figure made
+ * of a difference (an estimate's error against its target) by that over the difference, far below the
+ * digits any finding prints.
  */
-const MOVED_RELATIVE = 1e-11;
+const MOVED_RELATIVE = 1e-13;
 /** Absolute part of the moved test (volts or amperes): a node at 0 V is not moved by rounding noise. */
 const MOVED_FLOOR = 1e-15;
 
