@@ -14,14 +14,15 @@ export function expectSame(a: unknown, b: unknown, path = 'analysis', rel = 1e-1
   if (typeof a === 'number' && typeof b === 'number') {
     if (Number.isNaN(a) && Number.isNaN(b)) return;
     // A share of the variance is a fraction of 1: there an absolute 1e-9 is the measure (a contributor of a
-    // millionth carries the rounding of the large ones).
+    // millionth carries the rounding of the large ones). A relative error (`currentError`) is a fraction of 1
+    // too, made of a difference: two points that agree to 1e-15 give it an absolute difference of that order.
     // The spread analysis derives its figures from differences at the solution, so its small figures (a
     // contributor of a millionth, a weak sensitivity) carry the rounding of the large ones: 1e-4 relative
     // there, and 1e-3 for the σ and worst case of a contributor (its share's square root times the output's);
     // they are shown to three digits.
     const small = /\.contributors\.\d+\.(sigma|worstCase)$/.test(path);
     const spread = path.includes('.variation.');
-    const tol = (small ? 1e-3 : spread ? Math.max(rel, 1e-4) : rel) * Math.max(Math.abs(a), Math.abs(b)) + (path.endsWith('.share') ? 1e-9 : 1e-18);
+    const tol = (small ? 1e-3 : spread ? Math.max(rel, 1e-4) : rel) * Math.max(Math.abs(a), Math.abs(b)) + (path.endsWith('.share') ? 1e-9 : /Error$/.test(path) ? 1e-12 : 1e-18);
     if (!(Math.abs(a - b) <= tol || a === b)) expect.fail(`${path}: ${a} vs ${b}`);
     return;
   }
