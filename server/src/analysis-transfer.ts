@@ -11,8 +11,13 @@ import { nameTable } from '../../shared-analysis/src/names';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
 const PART_SIZE = 400;
-/** Node entries per part: a name and a number each, so more fit in the same few milliseconds. */
-const NODE_PART_SIZE = 4000;
+/** Node entries per part: a name and a number each, so more fit in the same few milliseconds (4,000 took 47 ms to merge at load 12). */
+const NODE_PART_SIZE = 1000;
+/**
+ * Structures per part: a structure carries its hand-analysis steps (about 2 KB each as JSON), and 400 of
+ * them took 120 ms to deserialise on the main thread at load 10 (the 20k array has 5,000).
+ */
+const STRUCTURE_PART_SIZE = 50;
 
 /** One slice of the big arrays of an analysis. */
 export type AnalysisPart =
@@ -87,8 +92,8 @@ export interface LazySplit {
  */
 export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazySplit {
   const parts: (() => AnalysisPart)[] = [];
-  const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart) => {
-    for (let i = 0; i < list.length; i += PART_SIZE) parts.push(() => make(list.slice(i, i + PART_SIZE)));
+  const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart, size = PART_SIZE) => {
+    for (let i = 0; i < list.length; i += size) parts.push(() => make(list.slice(i, i + size)));
   };
   // Findings first (in the header when few): the receiver can publish the diagnostics before the rest is taken in.
   const inHeader = analysis.findings.length <= PART_SIZE;
@@ -141,7 +146,7 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
     for (const [key, d] of Object.entries(Object.getOwnPropertyDescriptors(operatingPoint))) if (key !== 'nodes' && key !== 'devices') head[key] = d.get ? d.get.call(operatingPoint) : d.value;
     operatingPoint = { ...(head as Omit<OperatingPoint, 'nodes' | 'devices'>), nodes: nameTable(), devices: nameTable() };
   }
-  slices(analysis.structures, (items) => ({ kind: 'structures', items }));
+  slices(analysis.structures, (items) => ({ kind: 'structures', items }), STRUCTURE_PART_SIZE);
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: inHeader ? analysis.findings : [], structures: [] };
   const prepare = (): SentCards => {
     for (const [uri, doc] of docs) {
