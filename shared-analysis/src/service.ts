@@ -171,6 +171,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
         fillStartupCorners(structures);
       }
       const targets = timed('targets', () => readTargets(elab.documents));
+      targetsRead.set(elab.documents, targets.targets);
       pushAll(findings, targets.findings);
       pushAll(findings, timed('targets', () =>
           checkTargets({ circuit, op: result.op, structures, targets: targets.targets, options: resolved }),
@@ -250,6 +251,13 @@ export interface CornerPhaseContext {
 }
 
 /**
+ * The targets the first pass read from each analysis' documents, for its corner phase: reading every
+ * card's comments again cost about a tenth of a second per 40,000 elements. A host that rebuilt the
+ * documents (another thread) reads them again.
+ */
+const targetsRead = new WeakMap<Record<string, ParsedDocument>, Target[]>();
+
+/**
  * The second, slower phase for a host that analysed with `corners.enabled = false`: solves the
  * supply/temperature/beta corners, fills `structure.corners` of `analysis.structures`, records
  * `timings.corners`, computes the spread (`analysis.variation`, `structure.variation`) when the
@@ -268,7 +276,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   try {
     pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped() }));
     fillStartupCorners(analysis.structures);
-    const { targets } = readTargets(analysis.documents);
+    const targets = targetsRead.get(analysis.documents) ?? readTargets(analysis.documents).targets;
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));
     if (!analysis.variation && options.variation.enabled) {
       // The spread analysis is a stage of its own: a superseded text stops before it.

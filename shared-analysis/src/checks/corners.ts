@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { flattenPlans, measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement } from '../structures/measure';
+import { flattenPlans, measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -252,6 +252,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   // Every name a measurement reads resolved once per structure, not once per corner.
   const plans = structures.map((s) => planMeasurement(topology, s));
   const flat = flattenPlans(plans);
+  const sink: OutputSink = { current: new Float64Array(0), headroom: new Float64Array(0), outOfRegion: new Uint8Array(0), first: 0, stride: C };
   let failedCount = 0;
   specs.forEach((spec, k) => {
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
@@ -279,13 +280,16 @@ export function runCorners(ctx: CornerContext): Finding[] {
     const reader = readerOf(op, topology);
     structures.forEach((s, i) => {
       const col = columns[i];
-      col.iref[k] = finite(
-        runMeasurement(flat, i, reader, (o, current, headroom, out) => {
-          col.iout[o * C + k] = finite(current);
-          col.headroom[o * C + k] = finite(headroom);
-          col.outOfRegion[o * C + k] = out ? 1 : 0;
-        }),
-      );
+      // Output o of this structure at corner k sits at o·C + k of its columns.
+      sink.current = col.iout;
+      sink.headroom = col.headroom;
+      sink.outOfRegion = col.outOfRegion;
+      sink.first = k;
+      col.iref[k] = finite(runMeasurement(flat, i, reader, sink));
+      for (let o = 0; o < s.outputs.length; o++) {
+        col.iout[o * C + k] = finite(col.iout[o * C + k]);
+        col.headroom[o * C + k] = finite(col.headroom[o * C + k]);
+      }
       if (col.voltageNames.length > 0) {
         const vs = structureVoltages(s, op, circuit);
         col.voltageNames.forEach((name, v) => {

@@ -621,6 +621,11 @@ export class BjtTable implements DeviceTable {
 
   resetState(x: Float64Array, start?: StartHint): void {
     const v = this.scratch;
+    // IS at the guess's temperature, worked out again only when the nominal values change (as in `prepare`).
+    let lastIs = NaN;
+    let lastXti = NaN;
+    let lastEg = NaN;
+    let is0 = 0;
     for (let i = 0; i < this.n; i++) {
       this.intrinsic(x, i, v);
       const vbe = v[0];
@@ -637,7 +642,12 @@ export class BjtTable implements DeviceTable {
         this.startVbc[i] = 0;
         continue;
       }
-      const is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
+      if (!(Object.is(this.isNom[i], lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg)) {
+        is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
+        lastIs = this.isNom[i];
+        lastXti = this.xti[i];
+        lastEg = this.eg[i];
+      }
       this.startVbe[i] = vbe > 0 ? shiftJunction(vbe, this.nf[i] * start.vt, this.nf[i] * this.vt, is0, is) : vbe;
       this.startVbc[i] = vbc > 0 ? shiftJunction(vbc, this.nr[i] * start.vt, this.nr[i] * this.vt, is0, is) : vbc;
     }

@@ -149,7 +149,8 @@ export class DcSolver {
   private readonly staticFindings: Finding[] = [];
   private structure: Structure;
   private readonly sourceIndexByName = new Map<string, number>();
-  private readonly elementByName = new Map<string, number>();
+  /** Element index by lower-case name (the first element of a name written twice), built at the first override. */
+  private elementsByName: Map<string, number> | undefined;
   /** Conductance overrides of the solve in progress (element -> siemens), read when records are built. */
   private conductanceOverride = new Map<number, number>();
   /** Resistors with a temperature coefficient, scaled at every solve. */
@@ -195,8 +196,6 @@ export class DcSolver {
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
     circuit.elements.forEach((el, i) => {
       if (el.kind === 'R' && (el.tc1 || el.tc2)) this.tcResistors.push(i);
-      const key = el.name.toLowerCase();
-      if (!this.elementByName.has(key)) this.elementByName.set(key, i);
     });
     this.elementSlot = new Int32Array(circuit.elements.length).fill(-1);
     this.layout.readers.forEach((r, k) => (this.elementSlot[r.element] = k));
@@ -235,6 +234,18 @@ export class DcSolver {
     this.circuit = circuit;
     this.structure = this.staticChecks();
     return true;
+  }
+
+  /** The index of the element called `name`, in any case. */
+  private elementNamed(name: string): number | undefined {
+    if (!this.elementsByName) {
+      const table = (this.elementsByName = new Map<string, number>());
+      this.circuit.elements.forEach((el, i) => {
+        const key = el.name.toLowerCase();
+        if (!table.has(key)) table.set(key, i);
+      });
+    }
+    return this.elementsByName.get(name.toLowerCase());
   }
 
   /** Floating groups and voltage loops under the given resistor values, with their findings. */
@@ -436,7 +447,7 @@ export class DcSolver {
     }
     const byTable = new Map<number, Map<number, Record<string, number>>>();
     for (const name of names) {
-      const e = this.elementByName.get(name.toLowerCase());
+      const e = this.elementNamed(name);
       const d = e === undefined ? undefined : this.deviceIndex.get(e);
       if (d === undefined) continue;
       let rows = byTable.get(order.table[d]);
@@ -541,7 +552,7 @@ export class DcSolver {
 
     const c = this.circuit;
     for (const [name, ohms] of Object.entries(overrides)) {
-      const i = this.elementByName.get(name.toLowerCase());
+      const i = this.elementNamed(name);
       const refuse = (why: string, at: number): void => {
         const f = this.elementFinding('dc-override-refused', 'warning', `The resistance override ${name} = ${String(ohms)} Ω was not applied: ${why}`, at);
         f.data = { element: name, requested: Number.isFinite(ohms) ? ohms : String(ohms) };

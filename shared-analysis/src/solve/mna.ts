@@ -142,15 +142,23 @@ export class MnaLayout {
       this.unknowns.push({ kind: 'branch', element: i });
     });
     this.size = this.unknowns.length;
-    const byName = new Map<string, number>();
-    els.forEach((el, i) => byName.set(el.name.toLowerCase(), i));
+    // Element index by lower-case name (the last element of a name written twice), built at the first
+    // look-up: only current-controlled elements ask, and most circuits have none.
+    let byName: Map<string, number> | undefined;
+    const elementNamed = (name: string): number | undefined => {
+      if (!byName) {
+        const table = (byName = new Map<string, number>());
+        els.forEach((el, i) => table.set(el.name.toLowerCase(), i));
+      }
+      return byName.get(name.toLowerCase());
+    };
 
     // Node diagonals are always in the pattern so shunts can be added without changing it.
     this.nodeDiagonals = new Int32Array(nodeCount - 1);
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
 
     const branchOf = (name: string): number => {
-      const ci = byName.get(name.toLowerCase());
+      const ci = elementNamed(name);
       return ci === undefined ? -1 : (this.branchOfElement.get(ci) ?? -1);
     };
     // Pass 2: linear stamps, and every nonlinear instance's terminals and matrix slots.
@@ -248,7 +256,7 @@ export class MnaLayout {
         case 'F':
         case 'H': {
           const gain = this.finiteValue(i, el.gain, 'gain', el.kind === 'H' ? 'Ω' : '');
-          const ci = byName.get(el.control.toLowerCase());
+          const ci = elementNamed(el.control);
           const ctrl = ci === undefined ? undefined : this.branchOfElement.get(ci);
           if (ctrl === undefined) {
             this.layoutIssues.push({

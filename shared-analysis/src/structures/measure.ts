@@ -50,11 +50,13 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
-  const iref = runMeasurement(plans, i, reader, (o, current, room, out) => {
-    const device = outputs[o].device;
-    iout[device] = current;
-    headroom[device] = room;
-    if (out) outOfRegion.push(device);
+  const count = outputs.length;
+  const sink: OutputSink = { current: new Float64Array(count), headroom: new Float64Array(count), outOfRegion: new Uint8Array(count), first: 0, stride: 1 };
+  const iref = runMeasurement(plans, i, reader, sink);
+  outputs.forEach(({ device }, o) => {
+    iout[device] = sink.current[o];
+    headroom[device] = sink.headroom[o];
+    if (sink.outOfRegion[o]) outOfRegion.push(device);
   });
   return { iref, iout, headroom, outOfRegion };
 }
@@ -173,10 +175,21 @@ export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlan
 }
 
 /**
- * Measures planned structure `i` of `plans` at one point: hands each output's current, headroom and
- * whether it is out of region to `output` (by its position among the structure's outputs) and returns IREF.
+ * Where `runMeasurement` writes the figures of output o (its position among the structure's outputs):
+ * at `first + o·stride` of each array (1 for out of region). Arrays rather than a callback per output:
+ * the corner phase measures every structure at every corner, and a callback that is not inlined gets
+ * its numbers boxed.
  */
-export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, output: (o: number, current: number, headroom: number, outOfRegion: boolean) => void): number {
+export interface OutputSink {
+  current: Float64Array;
+  headroom: Float64Array;
+  outOfRegion: Uint8Array;
+  first: number;
+  stride: number;
+}
+
+/** Measures planned structure `i` of `plans` at one point: writes each output's current, headroom and region into `sink` and returns IREF. */
+export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, sink: OutputSink): number {
   const v = (node: number) => finite(p.volts(node));
   let iref = 0;
   for (let d = plans.devStart[i]; d < plans.devStart[i + 1]; d++) {
@@ -208,8 +221,11 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
   const first = plans.outStart[i];
   for (let o = first; o < plans.outStart[i + 1]; o++) {
     const t = plans.outT[o];
+    const at = sink.first + (o - first) * sink.stride;
     if (!t) {
-      output(o - first, 0, 0, false);
+      sink.current[at] = 0;
+      sink.headroom[at] = 0;
+      sink.outOfRegion[at] = 0;
       continue;
     }
     const e = plans.outE[o];
@@ -224,7 +240,9 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
       const headroom = sign * (vOut - vCtrl);
       const vbe = sign * (vCtrl - vCommon);
       const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
-      output(o - first, current, headroom, !active);
+      sink.current[at] = current;
+      sink.headroom[at] = headroom;
+      sink.outOfRegion[at] = active ? 0 : 1;
     } else {
       // Field-effect output: headroom VDS − (VGS − VTH), the pinch-off voltage VP standing for VTH in a JFET (own polarity).
       const facts = TECHNOLOGIES[t.tech];
@@ -239,7 +257,9 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
           : finite(p.num(e, 'vov'));
       const headroom = vds - vov;
       const active = r ? p.region(e) === facts.activeRegion : vov > 0 && vds >= vov;
-      output(o - first, current, headroom, !active);
+      sink.current[at] = current;
+      sink.headroom[at] = headroom;
+      sink.outOfRegion[at] = active ? 0 : 1;
     }
   }
   return Math.abs(iref);
