@@ -41,8 +41,6 @@ export interface IncrementalState {
   optionsKey: string;
   circuit: Circuit;
   solver: DcSolver;
-  /** The nominal solution of `circuit`. */
-  x: Float64Array;
   /** Per unknown, the value the kept structures were analysed at (refreshed where an unknown moves). */
   basis: Float64Array;
   structures: KeptStructure[];
@@ -50,6 +48,8 @@ export interface IncrementalState {
   index: CircuitIndex;
   /** Which structures a moved node or element concerns (see `watchers`): the same for every value edit. */
   watch: { byNode: Watchers; byElement: Watchers };
+  /** The fingerprint of the MNA unknowns (`unknownsFingerprint`), which a value edit keeps. */
+  unknowns: string;
   /** Set while an edit has moved the solver to its circuit and the analysis has not finished (see `revertValueEdit`). */
   adopted?: { circuit: Circuit; changed: number[] };
 }
@@ -430,7 +430,7 @@ export class IncrementalKeeper {
   };
 
   /** The state for the next edit, when this analysis can be one's start: converged, no notice of a number removed. */
-  state(input: { uri: string; text: string }, options: ResolvedOptions, circuit: Circuit, solver: DcSolver, nominal: DcSolveResult, structures: Structure[]): IncrementalState | undefined {
+  state(input: { uri: string; text: string }, options: ResolvedOptions, circuit: Circuit, solver: DcSolver, nominal: DcSolveResult, structures: Structure[], unknowns: string): IncrementalState | undefined {
     if (!nominal.op.converged || !options.solve || options.corners.enabled) return undefined;
     const previous = this.edit?.previous;
     if (previous) previous.adopted = undefined;
@@ -447,11 +447,11 @@ export class IncrementalKeeper {
       optionsKey: optionsKey(options),
       circuit,
       solver,
-      x: nominal.x,
       basis: this.edit ? this.edit.basis : nominal.x,
       structures: kept,
       index,
       watch: previous ? previous.watch : watchers(kept.map((k) => k.pristine), circuit, index),
+      unknowns,
     };
   }
 }

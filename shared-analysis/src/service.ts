@@ -133,7 +133,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let nominal: DcSolveResult | undefined;
   let variation: VariationResult | undefined;
   let variationDetail: VariationDetail | undefined;
-  let fingerprint: string | undefined;
+  // A value edit keeps the unknowns, and so their fingerprint.
+  let fingerprint: string | undefined = edit?.previous.unknowns;
   if (resolved.solve && circuit.elements.length > 0) {
     timed('solve', () => {
       solver = edit?.solver ?? new DcSolver(circuit);
@@ -164,7 +165,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
       pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved, kept: edit?.keptFindings, record: keeper?.record })));
       pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
-      if (result.op.converged) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
+      // A value edit keeps the structures of an analysis that had no self-biased loop, which is all the start-up check looks at.
+      if (result.op.converged && !edit) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
         pushAll(findings, timed('corners', () => runCorners({ circuit, solver: dc, structures, options: resolved, nominal: result, shouldStop: control.shouldStop, stop: () => new AnalysisStopped() })));
         // The state each corner's solve chose, into the self-biased loops' start-up records (as addCorners does).
@@ -228,7 +230,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const warmStart: WarmStart | undefined = converged ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
   // A self-biased loop's state depends on where Newton starts, and a removed number leaves no finding to keep: the next edit starts afresh.
   const dc: DcSolver | undefined = solver;
-  const incremental = keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures)) ? keeper.state(input, resolved, circuit, dc, converged, structures) : undefined;
+  const incremental = keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures)) ? keeper.state(input, resolved, circuit, dc, converged, structures, (fingerprint ??= unknownsFingerprint(circuit))) : undefined;
   return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}), ...(incremental ? { incremental } : {}) };
 }
 
