@@ -183,6 +183,15 @@ describe('hover inside an included file', () => {
     // Source: Ohm's law, 4 V / 2 kΩ = 2 mA.
     expect(relErr(quantityAfter(h!.markdown, 'Current', 'A'), 2e-3)).toBeLessThan(1e-3);
   });
+
+  it('shows the state of a target written in capitals in an included file, the including text having none', () => {
+    // Only documents whose text has the target word are read for targets: the word in any case, in any document.
+    const files = { '/t/cells.inc': 'RIN vcc 0 2k ; EXPECTED 2mA ±5%\nRLO vcc 0 4k ; EXPECTS 3mA ±5%\n' };
+    const analysis = analyseText('Includer\n.include "cells.inc"\nVCC vcc 0 DC 4\n.end\n', files);
+    // Source: Ohm's law, 4 V / 2 kΩ = 2 mA (on the 2 mA target) and 4 V / 4 kΩ = 1 mA (about 67 % below 3 mA).
+    expect(hoverAt(analysis, '/t/cells.inc', 1)!.markdown).toContain('on target 2 mA ±5 %');
+    expect(hoverAt(analysis, '/t/cells.inc', 'RIN vcc 0 2k ; EXPECTED 2mA ±5%\n'.length + 1)!.markdown).toMatch(/6[67](\.\d+)? % below target 3 mA ±5 %/);
+  });
 });
 
 describe('hover robustness', () => {
