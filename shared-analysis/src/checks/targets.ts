@@ -479,6 +479,21 @@ export function targetElements(circuit: Circuit, target: Target, index: TargetIn
   return index.byCard.get(target.uri)?.get(target.subject.cardSpan.start) ?? [];
 }
 
+const targetIndexes = new WeakMap<Structure[], { circuit: Circuit; count: number; index: TargetIndex }>();
+
+/**
+ * The target index of a circuit and its list of structures, built once per list: the target check,
+ * the spread analysis's target outputs and the yield check all read it (each pass costs a walk over
+ * every element and structure). A list of another length or another circuit gets a fresh index.
+ */
+export function targetIndexOf(circuit: Circuit, structures: Structure[]): TargetIndex {
+  const kept = targetIndexes.get(structures);
+  if (kept && kept.circuit === circuit && kept.count === structures.length) return kept.index;
+  const index = new TargetIndex(circuit, structures);
+  targetIndexes.set(structures, { circuit, count: structures.length, index });
+  return index;
+}
+
 /**
  * Look-up tables for the target checks, built once per check so that each target costs a few map
  * look-ups instead of scans over every element and structure (thousands of targets on large arrays).
@@ -732,7 +747,7 @@ export function checkTargets(ctx: TargetCheckContext): Finding[] {
   // The index costs a pass over every element and structure: a netlist without targets skips it.
   if (targets.length === 0) return findings;
   const defaultTolerance = seriesTolerance(options.resistorSeries);
-  const index = new TargetIndex(circuit, structures);
+  const index = targetIndexOf(circuit, structures);
   for (const target of targets) {
     const elements = targetElements(circuit, target, index);
     if (elements.length === 0) {

@@ -2,7 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import type { Target } from './targets';
-import { targetElements, TargetIndex } from './targets';
+import { targetElements, targetIndexOf } from './targets';
 import type { Structure } from '../structures/types';
 import type { Finding, Fix, Severity } from '../types';
 import type { ParsedDocument } from '../syntax/ast';
@@ -39,7 +39,7 @@ export function checkYield(circuit: Circuit, structures: Structure[], targets: T
   const out: Finding[] = [];
   // The index costs a pass over every element and structure: a netlist without targets skips it (as checkTargets does).
   if (targets.length === 0) return out;
-  const index = new TargetIndex(circuit, structures);
+  const index = targetIndexOf(circuit, structures);
   const specIndex = new Map<string, number>();
   detail.specs.forEach((s, o) => {
     if (s.role === 'element' || s.role === 'iout') if (s.element && !specIndex.has(s.element)) specIndex.set(s.element, o);

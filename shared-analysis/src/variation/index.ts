@@ -5,7 +5,7 @@ import type { DcSolveResult, DcSolver } from '../solve/dc';
 import type { Structure } from '../structures/types';
 import type { ParsedDocument } from '../syntax/ast';
 import type { Target } from '../checks/targets';
-import { targetElements, TargetIndex } from '../checks/targets';
+import { targetElements, targetIndexOf } from '../checks/targets';
 import { nameTable } from '../names';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
@@ -184,7 +184,7 @@ function addTargetOutputs(circuit: Circuit, structures: Structure[], targets: re
   const have = new Set(specs.map((s) => s.key));
   // A target on a structure's output device reads that output: its figures are not computed and listed twice.
   for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
-  const index = new TargetIndex(circuit, structures);
+  const index = targetIndexOf(circuit, structures);
   const elementIndex = topologyOf(circuit).elementIndex;
   for (const t of targets) {
     for (const el of targetElements(circuit, t, index)) {

@@ -1,7 +1,7 @@
 // TargetIndex: the look-up tables of the target check give the same elements and structure roles as scanning the circuit.
 
 import { describe, expect, it } from 'vitest';
-import { structureRole, targetElements, TargetIndex, readTargets, sizingKnob } from '../../../shared-analysis/src/checks/targets';
+import { structureRole, targetElements, TargetIndex, targetIndexOf, readTargets, sizingKnob } from '../../../shared-analysis/src/checks/targets';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
@@ -63,4 +63,24 @@ RX2 vcc x2o 3k
 
 describe('TargetIndex', () => {
   it('answers as the scans do, for every element and target', () => check(netlist, { targets: 5, withRole: 13 }));
+
+  it('is built once per list of structures, and again for another circuit or a list of another length', () => {
+    const read = () => elaborate(parse(URI, netlist, { hasTitle: true }), new MemoryWorkspace({ [URI]: netlist }), {}).circuit;
+    const circuit = read();
+    const structures = recogniseStructures(circuit);
+    const index = targetIndexOf(circuit, structures);
+    expect(targetIndexOf(circuit, structures)).toBe(index);
+    // The shared index answers as a fresh one does (common practice: a cache must not change an answer).
+    const fresh = new TargetIndex(circuit, structures);
+    expect([...index.roles.keys()]).toEqual([...fresh.roles.keys()]);
+    expect([...index.loads.keys()]).toEqual([...fresh.loads.keys()]);
+    const other = read();
+    expect(targetIndexOf(other, structures)).not.toBe(index);
+    const fewer = structures.slice(0, 1);
+    expect(targetIndexOf(circuit, fewer).roles.size).toBeLessThan(index.roles.size);
+    const again = targetIndexOf(circuit, structures);
+    expect(targetIndexOf(circuit, structures)).toBe(again);
+    structures.pop();
+    expect(targetIndexOf(circuit, structures)).not.toBe(again);
+  });
 });
