@@ -121,15 +121,10 @@ function movedFinding(f: Finding, uri: string, r: EditRegion): Finding | undefin
   return { ...f, span, related };
 }
 
-function sameNumbers(a: readonly number[], b: readonly number[]): boolean {
+/** Whether two lists hold the same items in the same order (numbers compared as \`Object.is\` does: NaN equals NaN, −0 differs from 0). */
+function sameItems<T>(a: readonly T[], b: readonly T[]): boolean {
   if (a.length !== b.length) return false;
   for (let i = 0; i < a.length; i++) if (!Object.is(a[i], b[i])) return false;
-  return true;
-}
-
-function sameStrings(a: readonly string[], b: readonly string[]): boolean {
-  if (a.length !== b.length) return false;
-  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
   return true;
 }
 
@@ -144,7 +139,7 @@ function sameRecord(a: Record<string, unknown> | undefined, b: Record<string, un
 function sameModel(a: Model | undefined, b: Model | undefined, seen: Map<Model, Model>): boolean {
   if (!a || !b) return a === b;
   if (seen.get(a) === b) return true;
-  const same = a.name === b.name && a.kind === b.kind && sameRecord(a.params, b.params) && sameStrings(a.given, b.given) && sameRecord(a.ratings, b.ratings);
+  const same = a.name === b.name && a.kind === b.kind && sameRecord(a.params, b.params) && sameItems(a.given, b.given) && sameRecord(a.ratings, b.ratings);
   if (same) seen.set(a, b);
   return same;
 }
@@ -158,7 +153,7 @@ function sameModel(a: Model | undefined, b: Model | undefined, seen: Map<Model, 
 export function valueChanges(before: Circuit, after: Circuit): number[] | undefined {
   const models = new Map<Model, Model>();
   if (before.title !== after.title || !Object.is(before.temperatureC, after.temperatureC) || !Object.is(before.tnomC, after.tnomC)) return undefined;
-  if (!sameStrings(before.nodes, after.nodes) || !sameStrings(before.detachedNodes ?? [], after.detachedNodes ?? []) || !sameRecord(before.params, after.params)) return undefined;
+  if (!sameItems(before.nodes, after.nodes) || !sameItems(before.detachedNodes ?? [], after.detachedNodes ?? []) || !sameRecord(before.params, after.params)) return undefined;
   const names = Object.keys(before.models);
   if (names.length !== Object.keys(after.models).length || !names.every((k) => sameModel(before.models[k], after.models[k], models))) return undefined;
   if (before.elements.length !== after.elements.length) return undefined;
@@ -172,7 +167,7 @@ export function valueChanges(before: Circuit, after: Circuit): number[] | undefi
 }
 
 function elementDifference(a: Element, b: Element, models: Map<Model, Model>): 'none' | 'value' | 'other' {
-  if (a.kind !== b.kind || a.name !== b.name || !sameNumbers(a.nodes, b.nodes)) return 'other';
+  if (a.kind !== b.kind || a.name !== b.name || !sameItems(a.nodes, b.nodes)) return 'other';
   const keys = Object.keys(b);
   if (keys.length !== Object.keys(a).length) return 'other';
   let value = false;

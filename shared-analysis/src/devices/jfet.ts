@@ -290,7 +290,6 @@ export class JfetTable implements DeviceTable {
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
     const out = columnsFor(into, QUANTITIES.length, this.n);
     const v = out.values;
-    const t = this.instances.terminals;
     const ev = this.scratch;
     const gmin = this.gmin;
     for (let i = 0; i < this.n; i++) {
@@ -341,7 +340,6 @@ export class JfetTable implements DeviceTable {
   sensitivity(x: Float64Array, c: DeviceConditions, params: readonly string[]): DeviceSensitivity | undefined {
     for (const p of params) if (p !== TEMPERATURE_PARAMETER && p !== 'VTO' && p !== 'BETA') return undefined;
     const out = allocateSensitivity(this.n, T, T, params.length);
-    const t = this.instances.terminals;
     const ev = this.scratch;
     const gmin = this.gmin;
     const tk = c.temperatureC + ZERO_CELSIUS_K;

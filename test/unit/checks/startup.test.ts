@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import type { AnalysisOptions } from '../../../shared-analysis/src/analysis';
 import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { BJT_CELL } from './self-biased-cells';
 
 /** The one entry point: analyse netlist text and return the start-up findings and the loop structures' start-up records. */
 function check(text: string, options: AnalysisOptions = {}) {
@@ -11,19 +12,6 @@ function check(text: string, options: AnalysisOptions = {}) {
   const warnings = a.findings.filter((f) => f.code === 'bias-loop-can-stay-off');
   return { a, warnings, loops: a.structures.filter((s) => s.startup) };
 }
-
-const BJT_CELL = (startup: string) => `an invented ΔVBE cell
-.model qn npn (bf=100)
-.model qp pnp (bf=50)
-VCC vcc 0 5
-Q1 n1 n1 0 qn
-Q2 p n1 x qn area=8
-R x 0 1k
-QP1 p p vcc qp
-QP2 n1 p vcc qp
-${startup}
-.end
-`;
 
 const MOS_CELL = (startup: string) => `an invented beta-multiplier reference
 .model nch nmos (kp=100u vto=0.5)

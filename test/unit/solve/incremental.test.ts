@@ -9,6 +9,7 @@ import { addCorners, analyseSession, type AnalysisSession } from '../../../share
 import { revertValueEdit, valueChanges } from '../../../shared-analysis/src/incremental';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
+import { BJT_CELL } from '../checks/self-biased-cells';
 import { expectSame, expectSameAnalysis } from './same-analysis';
 
 const URI = '/t/incremental.cir';
@@ -194,18 +195,7 @@ describe('incremental re-analysis of a value edit', () => {
   });
 
   it('keeps no state for a circuit with a self-biased loop', () => {
-    const loop = `incremental self-biased cell
-.model qn npn (bf=100)
-.model qp pnp (bf=50)
-VCC vcc 0 5
-Q1 n1 n1 0 qn
-Q2 p n1 x qn area=8
-R x 0 1k
-QP1 p p vcc qp
-QP2 n1 p vcc qp
-RSTART vcc n1 1meg
-.end
-`;
+    const loop = BJT_CELL('RSTART vcc n1 1meg');
     expect(incremental(loop).incremental).toBeUndefined();
   });
 
