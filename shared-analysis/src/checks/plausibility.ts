@@ -5,6 +5,7 @@ import type { Circuit, Element } from '../circuit';
 import { parseNumber, splitSuffix } from '../elaborate/units';
 import { formatMeasured } from '../fixes/format';
 import type { OperatingPoint } from '../solve/types';
+import { namedPointReader } from '../solve/point';
 import { railsByIndex } from '../structures/rails';
 import { topologyOf } from '../structures/topology';
 import type { ParsedDocument } from '../syntax/ast';
@@ -205,12 +206,13 @@ function suspectData(suspects: SuspectValue[]): Record<string, unknown>[] {
 /** `current-implausible` on each transistor or diode without a rating of its own that carries an ampere or more. */
 function implausibleCurrents(ctx: PlausibilityContext): Finding[] {
   const out: Finding[] = [];
-  const op = ctx.op!;
+  // By name without building the table of every device's record.
+  const at = namedPointReader(ctx.op!, topologyOf(ctx.circuit));
   for (const el of ctx.circuit.elements) {
     if (el.kind !== 'Q' && el.kind !== 'M' && el.kind !== 'D' && el.kind !== 'J') continue;
     const limit = powerLimit(el, ctx.options);
     if (limit && limit.from !== 'setting') continue; // a rated power part may carry amperes
-    const rec = op.devices[el.name];
+    const rec = at.record(el.name);
     if (!rec) continue;
     // The largest terminal current: a saturated output fed from an overdriven base line carries its amperes in the base.
     const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' || rec.type === 'jfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : 0;
@@ -244,11 +246,12 @@ function nodesOutsideRails(ctx: PlausibilityContext): Finding[] {
   }
   const margin = Math.max(1, high - low);
   const topo = topologyOf(circuit);
+  const point = namedPointReader(op, topo);
   const out: Finding[] = [];
   const tied = new Set(op.tiedNodes ?? []);
   for (let n = 1; n < circuit.nodes.length; n++) {
     const name = circuit.nodes[n]!;
-    const v = op.nodes[name];
+    const v = point.volts(name);
     if (v === undefined || !Number.isFinite(v) || rails.has(n) || tied.has(name)) continue;
     if (v <= high + margin && v >= low - margin) continue;
     const suspects = suspectsNear(ctx, [n]);

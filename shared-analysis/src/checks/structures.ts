@@ -3,6 +3,7 @@
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Model } from '../circuit';
 import type { OperatingPoint } from '../solve/types';
+import { namedPointReader, type NamedPointReader } from '../solve/point';
 import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
@@ -178,6 +179,8 @@ class StructureCheck {
   private readonly findings: Finding[] = [];
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
   private readonly off = new Set<string>();
+  /** Reads `op` by name without building the records of every device. */
+  private readonly at: NamedPointReader | undefined;
 
   constructor(
     private readonly circuit: Circuit,
@@ -194,6 +197,7 @@ class StructureCheck {
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
     this.temperatureC = op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC;
+    this.at = op ? namedPointReader(op, topo) : undefined;
   }
 
   private t(name: string): Transistor {
@@ -203,14 +207,14 @@ class StructureCheck {
   }
 
   private v(node: number): number | undefined {
-    const x = this.op?.nodes[this.topo.nodeName(node)];
+    const x = this.at?.volts(this.topo.nodeName(node));
     return x !== undefined && Number.isFinite(x) ? x : undefined;
   }
 
   run(): Finding[] {
     const s = this.s;
     if (this.op && this.measured) {
-      for (const d of s.devices) if (recordIsOff(this.op.devices[d])) this.off.add(d);
+      for (const d of s.devices) if (recordIsOff(this.at!.record(d))) this.off.add(d);
       s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
       // Tables keyed by device names are prototype-free: a literal would give every structure hidden classes of its own.
       s.headroom = nameTable(this.measured.headroom);
@@ -231,7 +235,7 @@ class StructureCheck {
       structures: this.all,
       irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
       deviceCurrents: this.op ? this.collectorCurrents() : undefined,
-      nodeVolts: this.op?.nodes,
+      nodeVolts: this.at?.volts,
       recordSteps: this.options.handAnalysisSteps,
     });
     // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
@@ -239,7 +243,7 @@ class StructureCheck {
     for (const v of s.voltages ?? []) {
       v.estimate = s.estimate?.voltages?.[v.name];
       v.tempcoByHandPpmPerC = s.estimate?.voltageTempco?.[v.name];
-      v.solved = this.op ? voltageAt(s, v, this.op.nodes) : undefined;
+      v.solved = this.at ? voltageAt(s, v, this.at.volts) : undefined;
     }
     s.compliance = this.compliance();
     s.outputResistance = this.outputResistance();
@@ -258,7 +262,7 @@ class StructureCheck {
   private collectorCurrents(): Record<string, number> {
     const out: Record<string, number> = nameTable();
     for (const d of this.s.devices) {
-      const rec = this.op?.devices[d];
+      const rec = this.at?.record(d);
       if (rec && rec.type === 'bjt') out[d] = rec.ic;
     }
     return out;
@@ -274,7 +278,7 @@ class StructureCheck {
       sign: this.sign,
       op: this.op,
       v: (node) => {
-        const x = this.op?.nodes[node];
+        const x = this.at?.volts(node);
         return x !== undefined && Number.isFinite(x) ? x : undefined;
       },
       headroomMarginV: this.options.headroomMarginV,
@@ -305,7 +309,7 @@ class StructureCheck {
       const vb = this.v(t.ctrl);
       if (vb === undefined) return undefined;
       if (this.bipolar) return vb;
-      const rec = this.op.devices[device];
+      const rec = this.at!.record(device);
       // MosRecord.vov is in the device's own polarity (positive when on): edge = V(source) ± VOV.
       if (rec && rec.type === 'mosfet') {
         const vs = this.v(t.common);
@@ -328,7 +332,7 @@ class StructureCheck {
   private smallSignal(name: string, i: number): SmallSignal {
     const t = this.t(name);
     const p = t.element.model.params;
-    const rec = this.op?.devices[name];
+    const rec = this.at?.record(name);
     if (this.bipolar) {
       const beta = p.BF > 0 ? p.BF : 100;
       if (rec && rec.type === 'bjt' && rec.gm > 0) {
@@ -400,7 +404,7 @@ class StructureCheck {
    * 5th ed., ch. 1/3; from memory). Active outputs (gμ ≈ 0) are left as the kind computed them.
    */
   private saturatedBaseLoading(o: StructureOutput, out: SmallSignal, r: number, ctx: ResistanceContext): number {
-    const rec = this.op?.devices[o.device];
+    const rec = this.at?.record(o.device);
     if (!rec || rec.type !== 'bjt' || rec.region !== 'saturation' || !(rec.gmu > 0) || !(r > 0) || r >= UNBOUNDED_OHMS) return r;
     if (this.t(o.device).ctrl !== this.t(this.s.reference.device).ctrl) return r;
     const q1 = this.smallSignal(this.s.reference.device, ctx.irefOr(0));
@@ -449,7 +453,7 @@ class StructureCheck {
     }
     for (const d of this.measured?.outOfRegion ?? []) {
       if (this.off.has(d)) continue;
-      const rec = this.op?.devices[d];
+      const rec = this.at?.record(d);
       const saturated = rec?.type === 'bjt' && rec.region === 'saturation';
       reasons.push(
         `${d} is out of its active region at the operating point` +
@@ -618,7 +622,7 @@ class StructureCheck {
       const edge = this.edgeVolts(o.device);
       const vout = this.v(t.out);
       if (off || this.measured.outOfRegion.includes(o.device)) {
-        const rec = this.op.devices[o.device];
+        const rec = this.at!.record(o.device);
         const facts = TECHNOLOGIES[this.s.technology];
         const region = off ? 'cutoff' : rec && (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet') ? rec.region : head < 0 ? facts.beyondRegion : 'cutoff';
         const err = active > 0 ? (solved - active) / active : 0;

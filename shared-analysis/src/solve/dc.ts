@@ -148,6 +148,8 @@ export class DcSolver {
   /** Findings that do not depend on the solve options (element and parameter problems, structure). */
   private readonly staticFindings: Finding[] = [];
   private structure: Structure;
+  /** How many junction-short and out-of-range findings the static checks made (`staticChecks` after a value edit looks again only where one could appear). */
+  private staticCounts = { shorted: 0, outOfRange: 0 };
   private readonly sourceIndexByName = new Map<string, number>();
   /** Element index by lower-case name (the first element of a name written twice), built at the first override. */
   private elementsByName: Map<string, number> | undefined;
@@ -203,8 +205,14 @@ export class DcSolver {
     this.structure = this.staticChecks();
   }
 
-  /** The findings that do not depend on the solve options, into `staticFindings`, and the structural checks under the netlist values. */
-  private staticChecks(): Structure {
+  /**
+   * The findings that do not depend on the solve options, into `staticFindings`, and the structural checks under the netlist values.
+   * After a value edit (`adoptValues`: resistors finite and positive before and after, everything else the same) the floating
+   * groups and voltage loops are `kept`'s (every resistor still conducts and none fixes a voltage), and so are the shorts across
+   * junctions (a short needs a 0 Ω resistor); their findings are made again, since they locate elements whose text may have moved.
+   * Values out of range are looked for among the `changed` elements only when no other element had one.
+   */
+  private staticChecks(kept?: { structure: Structure; changed: readonly number[] }): Structure {
     this.staticFindings.length = 0;
     for (const issue of this.layout.layoutIssues) {
       const sev: Severity = issue.code === 'dc-zero-resistance' ? 'info' : issue.code === 'dc-negative-resistance' ? 'warning' : 'error';
@@ -214,9 +222,12 @@ export class DcSolver {
       this.staticFindings.push(f);
     }
     for (const issue of this.layout.paramIssues) this.staticFindings.push(this.paramFinding(issue));
-    const structure = this.analyseStructure(undefined);
-    pushAll(this.staticFindings, this.shortedJunctionFindings());
-    pushAll(this.staticFindings, this.outOfRangeFindings());
+    const structure = kept ? this.structureFindings(kept.structure.floating, kept.structure.loops) : this.analyseStructure(undefined);
+    const shorted = kept && this.staticCounts.shorted === 0 ? [] : this.shortedJunctionFindings();
+    const outOfRange = kept && this.staticCounts.outOfRange === 0 ? this.outOfRangeFindings(kept.changed) : this.outOfRangeFindings();
+    this.staticCounts = { shorted: shorted.length, outOfRange: outOfRange.length };
+    pushAll(this.staticFindings, shorted);
+    pushAll(this.staticFindings, outOfRange);
     return structure;
   }
 
@@ -232,7 +243,7 @@ export class DcSolver {
     if (circuit.elements.length !== this.circuit.elements.length || circuit.nodes.length !== this.circuit.nodes.length) return false;
     if (!this.layout.adoptResistances(circuit, changed)) return false;
     this.circuit = circuit;
-    this.structure = this.staticChecks();
+    this.structure = this.staticChecks({ structure: this.structure, changed });
     return true;
   }
 
@@ -250,8 +261,11 @@ export class DcSolver {
 
   /** Floating groups and voltage loops under the given resistor values, with their findings. */
   private analyseStructure(resistanceOf: ResistanceOf | undefined): Structure {
-    const floating = findFloatingGroups(this.circuit, this.layout.skipped, resistanceOf);
-    const loops = findVoltageLoops(this.circuit, this.layout.skipped, resistanceOf);
+    return this.structureFindings(findFloatingGroups(this.circuit, this.layout.skipped, resistanceOf), findVoltageLoops(this.circuit, this.layout.skipped, resistanceOf));
+  }
+
+  /** The findings of given floating groups and voltage loops. */
+  private structureFindings(floating: FloatingGroup[], loops: VoltageLoop[]): Structure {
     const findings: Finding[] = [];
     // With a source loop nothing is solved, so no node is tied and the floating findings keep saying so.
     const solvable = loops.length === 0;
@@ -1070,15 +1084,17 @@ export class DcSolver {
   }
 
   /** Values so extreme (beyond 10^±150, saturation currents and KP judged against their defaults) that products of them overflow. */
-  private outOfRangeFindings(): Finding[] {
+  private outOfRangeFindings(among?: readonly number[]): Finding[] {
     const out: Finding[] = [];
     // Devices share models: judge each model's parameters once, and look closer only where one is extreme.
     const modelExtreme = new Map<object, boolean>();
     const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
     const far = (value: number, t = 1): boolean =>
       value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value)) - Math.log10(t)) > OUT_OF_RANGE_DECADES;
-    this.circuit.elements.forEach((el, i) => {
-      if (this.layout.skipped.has(i)) return;
+    const elements = this.circuit.elements;
+    for (const i of among ?? elements.keys()) {
+      const el = elements[i];
+      if (this.layout.skipped.has(i)) continue;
       const kind = deviceKindOf(el.kind);
       if (kind && 'model' in el) {
         let m = modelExtreme.get(el.model);
@@ -1088,7 +1104,7 @@ export class DcSolver {
           modelExtreme.set(el.model, m);
         }
         const own = kind.instanceValues(el).some((v) => far(v.value, v.typical));
-        if (!m && !own) return;
+        if (!m && !own) continue;
       }
       for (const v of this.valuesOf(el)) {
         if (v.decades <= OUT_OF_RANGE_DECADES) continue;
@@ -1103,7 +1119,7 @@ export class DcSolver {
         out.push(f);
         break;
       }
-    });
+    }
     return out;
   }
 

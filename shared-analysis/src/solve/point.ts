@@ -86,3 +86,29 @@ export function lazyPoint(
   vectors.set(op, v);
   return op;
 }
+
+/** Reads a point by node and element name, as `op.nodes[name]` and `op.devices[name]` show it. */
+export interface NamedPointReader {
+  volts(node: string): number | undefined;
+  record(element: string): DeviceRecord | undefined;
+}
+
+/**
+ * A name reader of `op`, a point of the circuit `names` indexes (a `Topology`): through the solver's vectors when the
+ * point has them, so a check that reads a few devices does not build the records of all of them; through the tables
+ * otherwise, and when two elements share a name (the table then holds the record its build order leaves last).
+ */
+export function namedPointReader(op: OperatingPoint, names: { circuit: Circuit; nodeIndex: ReadonlyMap<string, number>; elementIndex: ReadonlyMap<string, number> }): NamedPointReader {
+  const v = vectors.get(op);
+  if (!v || names.elementIndex.size !== names.circuit.elements.length) return { volts: (node) => op.nodes[node], record: (element) => op.devices[element] };
+  return {
+    volts: (node) => {
+      const i = names.nodeIndex.get(node);
+      return i === undefined ? undefined : v.volts[i];
+    },
+    record: (element) => {
+      const e = names.elementIndex.get(element);
+      return e === undefined ? undefined : v.record(e);
+    },
+  };
+}

@@ -32,7 +32,7 @@ export interface EstimateAt {
    */
   deviceCurrents?: Record<string, number>;
   /** Solved node voltages (name -> volts), for a voltage the hand analysis cannot derive (e.g. an amplifier's reference input). */
-  nodeVolts?: Record<string, number>;
+  nodeVolts?: (name: string) => number | undefined;
   /** Set false to skip formatting the worked steps (`Estimate.steps` stays empty); the numbers are the same. */
   recordSteps?: boolean;
 }

@@ -2,7 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
-import { pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
+import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
 import { flattenPlans, measurePlanned, measureStructure, planMeasurement, readerOf } from '../../../shared-analysis/src/structures/measure';
 import { topologyOf } from '../../../shared-analysis/src/structures/topology';
@@ -57,6 +57,22 @@ describe('operating point vectors', () => {
       expect(v.region(e)).toBe('region' in rec ? rec.region : undefined);
     });
     expect(v.value(0, 'no-such-quantity')).toBeUndefined();
+  });
+
+  it('read by name as the name-keyed tables show them, without building the tables; through the tables when two elements share a name', () => {
+    const { c, op } = solved();
+    const at = namedPointReader(op, topologyOf(c));
+    const names = [...c.nodes, 'no-such-node', '__proto__', 'constructor'];
+    const elements = [...c.elements.map((el) => el.name), 'RNONE', '__proto__'];
+    const read = () => ({ nodes: names.map((n) => at.volts(n)), devices: elements.map((e) => at.record(e)) });
+    const got = read();
+    // Nothing above read a table: they are still accessors (see lazyPoint).
+    expect(Object.getOwnPropertyDescriptor(op, 'devices')?.get).toBeDefined();
+    expect(got).toEqual({ nodes: names.map((n) => op.nodes[n]), devices: elements.map((e) => op.devices[e]) });
+    // Two resistors called RL1: the table keeps the record of the one its build order puts last, and the reader agrees.
+    const twice = circuit([...SPECS, ['R', 'RL1', 'vcc', 'k', 1e3]]);
+    const r = new DcSolver(twice).solve().op;
+    expect(namedPointReader(r, topologyOf(twice)).record('RL1')).toEqual(r.devices['RL1']);
   });
 
   it('give a resistor the current Ohm\'s law gives for its solved node voltages', () => {

@@ -5,6 +5,7 @@ import type { Circuit, Element } from '../../circuit';
 import { NOISE_FLOOR } from '../../fixes/format';
 import { JUNCTION_GMIN } from '../../solve/newton';
 import type { DeviceRecord, OperatingPoint } from '../../solve/types';
+import { namedPointReader, type NamedPointReader } from '../../solve/point';
 import { railsByIndex } from '../../structures/rails';
 import { topologyOf, type Attachment, type Topology, type Transistor } from '../../structures/topology';
 import type { Rail, Structure, Technology } from '../../structures/types';
@@ -51,6 +52,8 @@ const MAX_CHAIN = 64;
  */
 export class JudgeContext {
   readonly topo: Topology;
+  /** Reads `op` by name without building the records of every device. */
+  private readonly at: NamedPointReader;
   readonly rails: Map<number, Rail>;
   readonly findings: Finding[] = [];
   /** Lower-case names of devices that are outputs of a recognised structure (the structure checks judge those). */
@@ -70,6 +73,7 @@ export class JudgeContext {
     private readonly codes: CodeTable,
   ) {
     this.topo = topologyOf(circuit);
+    this.at = namedPointReader(op, this.topo);
     this.rails = railsByIndex(circuit);
     let low = 0;
     let high = 0;
@@ -87,13 +91,13 @@ export class JudgeContext {
 
   /** The solved voltage of a node (0 V for ground or an unknown node). */
   v(node: number): number {
-    const x = this.op.nodes[this.topo.nodeName(node)];
+    const x = this.at.volts(this.topo.nodeName(node));
     return x !== undefined && Number.isFinite(x) ? x : 0;
   }
 
   /** The operating-point record of an element, by its hierarchical name. */
   record(name: string): DeviceRecord | undefined {
-    return this.op.devices[name];
+    return this.at.record(name);
   }
 
   nodeName(node: number): string {

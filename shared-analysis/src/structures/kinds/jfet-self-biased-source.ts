@@ -124,7 +124,7 @@ function ownReference(h: Hand, c: Chain): number {
   }
   // λ: IDSS·(1 + λ·VDS) with VDS = V(drain) − V(G) − ID·RS in the device's own sense, a few fixed-point passes.
   const vdOut = h.at.outputVolts?.[name];
-  const vg = h.railVolts.get(loop.g) ?? h.at.nodeVolts?.[h.topo.nodeName(loop.g)];
+  const vg = h.railVolts.get(loop.g) ?? h.at.nodeVolts?.(h.topo.nodeName(loop.g));
   const withClm = p.lambda > 0 && vdOut !== undefined && vg !== undefined && Number.isFinite(vdOut) && Number.isFinite(vg);
   let id = selfBiasedCurrent(idss0, vp, rs);
   let clm = 1;

@@ -118,7 +118,7 @@ function referenceVolts(h: Hand, node: number): { volts: number; how: string } |
       return { volts: (a.v! * b.r + b.v! * a.r) / (a.r + b.r), how: `the divider ${a.name}/${b.name}` };
     }
   }
-  const solved = h.at.nodeVolts?.[h.topo.nodeName(node)];
+  const solved = h.at.nodeVolts?.(h.topo.nodeName(node));
   return solved !== undefined && Number.isFinite(solved) ? { volts: solved, how: 'the operating point (the reference input is driven by more than a divider)' } : undefined;
 }
 

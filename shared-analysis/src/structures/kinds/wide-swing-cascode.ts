@@ -145,7 +145,7 @@ function findBias(h: Hand): Bias {
     }));
     return out;
   }
-  const solved = h.at.nodeVolts?.[h.topo.nodeName(gc)];
+  const solved = h.at.nodeVolts?.(h.topo.nodeName(gc));
   if (solved !== undefined && Number.isFinite(solved)) {
     const vgc = h.sign * (solved - vc);
     out.vgc = vgc;
