@@ -18,7 +18,7 @@ import { derivedVoltageLines, outputWords, startupLine } from '../../shared-anal
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapeJsonText } from './escape';
-import { JsonEntries, JsonText, writeJson } from './json-stream';
+import { JsonEntries, JsonItems, JsonText, writeJson } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
@@ -708,7 +708,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
       ? {
           // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
           power: namesUnique(elements)
-            ? new JsonEntries(() => powerEntries(elements, (e) => reader.record(e), analysisOptions))
+            ? new JsonEntries(() => powerEntries(elements, (e) => reader.record(e), analysisOptions), true)
             : powerTable(elements, op.devices, analysisOptions),
         }
       : {}),
@@ -728,7 +728,7 @@ function variationForJson(v: VariationResult, structures: readonly Structure[], 
   const shown = new Set(structures.filter((s) => s.variation).map((s) => s.id));
   return {
     outputsOutsideStructures: v.outputs.filter((o) => !o.structure || !shown.has(o.structure)).map((o) => spreadForJson(o, detail)),
-    sources: v.sources,
+    sources: new JsonItems(v.sources.length, (i) => v.sources[i]),
     stats: v.stats,
     ...(v.monteCarlo ? { monteCarlo: v.monteCarlo } : {}),
   };
@@ -751,24 +751,24 @@ function pointForJson(op: OperatingPoint): unknown {
   return new JsonEntries(function* () {
     for (const k of Object.keys(op)) {
       if (k === 'nodes') yield [k, new JsonEntries(() => v.nodeEntries())];
-      else if (k === 'devices') yield [k, new JsonEntries(() => v.deviceEntries())];
+      else if (k === 'devices') yield [k, new JsonEntries(() => v.deviceEntries(), true)];
       else yield [k, (op as unknown as Record<string, unknown>)[k]];
     }
   });
 }
 
 /**
- * A file's structures as JSON shows them: each entry made when it is written (`toJSON`) and dropped
+ * A file's structures as JSON shows them: each entry made when it is written (`JsonItems`) and dropped
  * after, the corners' keys worked out once per label (the structures share the same few corners).
  */
-function structuresForJson(structures: readonly Structure[], detail: JsonDetail): unknown[] {
+function structuresForJson(structures: readonly Structure[], detail: JsonDetail): JsonItems {
   const keys = new Map<string, string>();
   const keyOf = (label: string): string => {
     let k = keys.get(label);
     if (k === undefined) keys.set(label, (k = cornerKey(label)));
     return k;
   };
-  return structures.map((s) => ({ toJSON: () => structureForJson(s, detail, keyOf) }));
+  return new JsonItems(structures.length, (i) => structureForJson(structures[i]!, detail, keyOf));
 }
 
 /**
@@ -822,8 +822,13 @@ const CONTRIBUTORS_BY_DEFAULT = 3;
  */
 function spreadForJson(o: OutputVariation, detail: JsonDetail): unknown {
   if (detail.spreadBreakdown) return o;
-  const { contributors, sensitivities: _sensitivities, ...figures } = o;
-  return { ...figures, contributors: contributors.slice(0, CONTRIBUTORS_BY_DEFAULT) };
+  // Member by member in the output's order, the contributors last (a rest and a spread of the
+  // object cost about as much as writing it, for 10,000 outputs of a large array).
+  const out: Record<string, unknown> = {};
+  const fields = o as unknown as Record<string, unknown>;
+  for (const k of Object.keys(o)) if (k !== 'contributors' && k !== 'sensitivities') out[k] = fields[k];
+  out['contributors'] = o.contributors.slice(0, CONTRIBUTORS_BY_DEFAULT);
+  return out;
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */

@@ -8,7 +8,14 @@
  * first, and each name must be produced once.
  */
 export class JsonEntries {
-  constructor(readonly entries: () => Iterable<readonly [string, unknown]>) {}
+  /**
+   * `modestValues`: every member's value is a plain value of modest size holding nothing streamed
+   * (a device record, say), so the writer gathers members by count without walking each one.
+   */
+  constructor(
+    readonly entries: () => Iterable<readonly [string, unknown]>,
+    readonly modestValues = false,
+  ) {}
 
   toJSON(): Record<string, unknown> {
     const out: Record<string, unknown> = Object.create(null);
@@ -29,13 +36,29 @@ export class JsonText {
   }
 }
 
+/**
+ * A list whose items are made when written (a structure's entry, say), each a plain value of modest
+ * size holding nothing streamed: the writer gathers them by count without walking each one, and
+ * each item can be collected once written. `JSON.stringify` sees the list through `toJSON`.
+ */
+export class JsonItems {
+  constructor(
+    readonly length: number,
+    readonly item: (i: number) => unknown,
+  ) {}
+
+  toJSON(): unknown[] {
+    return Array.from({ length: this.length }, (_, i) => this.item(i));
+  }
+}
+
 /** Characters gathered before they are handed to `write`. */
 const CHUNK = 1 << 16;
 
 /**
  * Writes `value` as JSON text through `write`, in pieces of about 64 K characters: the same text
  * as `JSON.stringify(value, null, indent)` (`indent` 0 or absent: compact, no spaces), with
- * `JsonEntries` written as objects member by member, lists item by item, and any other object
+ * `JsonEntries` written as objects member by member, lists and `JsonItems` item by item, and any other object
  * whole by `JSON.stringify` (so a plain object must be of modest size), and `JsonText` as its pieces. Each piece
  * goes through `transform` first (escaping, say). Nesting is as deep as the document's own, never as long as
  * its lists. `depth` writes the value as it reads at that depth of a larger document (its inner lines
@@ -73,21 +96,36 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
   class Batch {
     private items: unknown[] | Record<string, unknown> | undefined;
     private used = 0;
+    /** Items gathered, and how many a batch of modest items may take (from the weight of its first). */
+    private count = 0;
+    private limit = 0;
 
+    /** `modest`: the items are known to be of modest size and hold nothing streamed (`JsonItems`, `modestValues`). */
     constructor(
       private readonly list: boolean,
       private readonly indent: string,
       private readonly separate: () => void,
+      private readonly modest = false,
     ) {}
 
     /** Takes the item (member `key` of an object) when it is small enough; false when it must be written alone. */
     add(item: unknown, key?: string): boolean {
+      if (this.modest && this.count > 0 && this.count < this.limit) return this.take(item, key, 0);
       const w = weight(item);
       if (w < 0) return false;
-      if (this.used + w > SMALL_BUDGET) this.write();
+      if (this.modest) {
+        // One walk per batch: the items that follow are taken to weigh about as much as the first.
+        this.write();
+        this.limit = Math.floor(SMALL_BUDGET / w);
+      } else if (this.used + w > SMALL_BUDGET) this.write();
+      return this.take(item, key, w);
+    }
+
+    private take(item: unknown, key: string | undefined, w: number): boolean {
       if (this.list) ((this.items ??= []) as unknown[]).push(item);
       else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
       this.used += w;
+      this.count++;
       return true;
     }
 
@@ -97,6 +135,7 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       const text = native(this.items, this.indent);
       this.items = undefined;
       this.used = 0;
+      this.count = 0;
       this.separate();
       // Cut the brackets: "[" … "]" compact; "[" … "\n" + indent + "]" indented.
       emit(text.slice(1, text.length - (step ? this.indent.length + 2 : 1)));
@@ -110,7 +149,11 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       return;
     }
     if (v instanceof JsonEntries) {
-      putObject(v.entries(), indent);
+      putObject(v.entries(), indent, v.modestValues);
+      return;
+    }
+    if (v instanceof JsonItems) {
+      putList(v.length, (i) => v.item(i), indent, true);
       return;
     }
     v = resolved(v);
@@ -127,42 +170,47 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       return;
     }
     if (Array.isArray(v)) {
-      if (v.length === 0) {
-        emit('[]');
-        return;
-      }
-      const inner = indent + step;
-      let first = true;
-      const separate = (): void => {
-        emit(first ? '[' : ',');
-        first = false;
-      };
-      const batch = new Batch(true, indent, separate);
-      for (let i = 0; i < v.length; i++) {
-        const item = resolved(v[i]);
-        if (batch.add(item)) continue;
-        batch.write();
-        separate();
-        if (step) emit('\n' + inner);
-        put(item, inner);
-      }
-      batch.write();
-      if (step) emit('\n' + indent);
-      emit(']');
+      const list = v;
+      putList(list.length, (i) => list[i], indent, false);
       return;
     }
     const o = v as Record<string, unknown>;
-    putObject(members(o, Object.keys(o)), indent);
+    putObject(members(o, Object.keys(o)), indent, false);
   };
 
-  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
+  const putList = (length: number, itemAt: (i: number) => unknown, indent: string, modest: boolean): void => {
+    if (length === 0) {
+      emit('[]');
+      return;
+    }
+    const inner = indent + step;
+    let first = true;
+    const separate = (): void => {
+      emit(first ? '[' : ',');
+      first = false;
+    };
+    const batch = new Batch(true, indent, separate, modest);
+    for (let i = 0; i < length; i++) {
+      const item = resolved(itemAt(i));
+      if (batch.add(item)) continue;
+      batch.write();
+      separate();
+      if (step) emit('\n' + inner);
+      put(item, inner);
+    }
+    batch.write();
+    if (step) emit('\n' + indent);
+    emit(']');
+  };
+
+  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string, modest: boolean): void => {
     const inner = indent + step;
     let first = true;
     const separate = (): void => {
       emit(first ? '{' : ',');
       first = false;
     };
-    const batch = new Batch(false, indent, separate);
+    const batch = new Batch(false, indent, separate, modest);
     for (const [k, member] of members) {
       if (member === undefined || typeof member === 'function' || typeof member === 'symbol') continue;
       const item = resolved(member);
@@ -213,7 +261,7 @@ const ARRAY_INDEX = /^(?:0|[1-9][0-9]{0,9})$/;
 
 /** `v` as the writer writes it: what its `toJSON` gives, when it has one (called with '' as the writer's own items are). */
 function resolved(v: unknown): unknown {
-  if (v !== null && typeof v === 'object' && !(v instanceof JsonEntries) && !(v instanceof JsonText) && typeof (v as { toJSON?: unknown }).toJSON === 'function') {
+  if (v !== null && typeof v === 'object' && !(v instanceof JsonEntries) && !(v instanceof JsonText) && !(v instanceof JsonItems) && typeof (v as { toJSON?: unknown }).toJSON === 'function') {
     return (v as { toJSON(key: string): unknown }).toJSON('');
   }
   return v;
@@ -221,7 +269,7 @@ function resolved(v: unknown): unknown {
 
 /**
  * How many values (numbers, strings, members, items) `v` holds, when that is at most
- * `SMALL_BUDGET` and it holds no `JsonEntries` or `JsonText` anywhere; otherwise −1. A bounded walk
+ * `SMALL_BUDGET` and it holds no `JsonEntries`, `JsonItems` or `JsonText` anywhere; otherwise −1. A bounded walk
  * that stops as soon as the answer is no. Members read through a getter are read here too, as the
  * native writer would read them.
  */
@@ -231,7 +279,7 @@ function weight(v: unknown): number {
   const stack: object[] = [v];
   while (stack.length > 0) {
     const o = stack.pop()!;
-    if (o instanceof JsonEntries || o instanceof JsonText) return -1;
+    if (o instanceof JsonEntries || o instanceof JsonText || o instanceof JsonItems) return -1;
     if (Array.isArray(o)) {
       budget -= o.length + 1;
       if (budget < 0) return -1;

@@ -2,7 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { JsonEntries, JsonText, writeJson } from '../../server/src/json-stream';
+import { JsonEntries, JsonItems, JsonText, writeJson } from '../../server/src/json-stream';
 import { cornerKey } from '../../server/src/cli';
 
 function written(value: unknown, indent?: number): { text: string; pieces: number } {
@@ -84,6 +84,28 @@ describe('writeJson', () => {
     // Written out by hand: an object would list "2" and "10" first (ECMA-262, OrdinaryOwnPropertyKeys).
     expect(written({ e: entries }).text).toBe('{"e":{"b":1,"2":{"x":1},"a":[3],"__proto__":4,"10":"ten"}}');
     expect(written({ e: entries }, 2).text).toBe('{\n  "e": {\n    "b": 1,\n    "2": {\n      "x": 1\n    },\n    "a": [\n      3\n    ],\n    "__proto__": 4,\n    "10": "ten"\n  }\n}');
+  });
+
+  it('writes JsonItems and JsonEntries of modest values, gathered by count, as JSON.stringify writes them', () => {
+    // Items of very different weights in one list: a batch is sized from its first item, so a light
+    // first item followed by heavy ones, and the other way round, must give the same text.
+    const itemAt = (i: number): unknown =>
+      i % 97 === 0 ? { heavy: Array.from({ length: 300 }, (_, k) => ({ k, v: k / 3 })) } : i % 5 === 0 ? `s${i}` : { name: `Q${i}`, ic: i * 1e-6, region: 'forward-active', tags: [i, -i] };
+    const list = (n: number): unknown[] => Array.from({ length: n }, (_, i) => itemAt(i));
+    const entries = (name: (i: number) => string, modest: boolean) =>
+      new JsonEntries(function* () {
+        for (let i = 0; i < 3000; i++) yield [name(i), itemAt(i)];
+      }, modest);
+    const named = (i: number): string => `R${i}`;
+    for (const indent of [0, 2]) {
+      const doc = { items: new JsonItems(2000, itemAt), none: new JsonItems(0, itemAt), deep: [{ items: new JsonItems(3, itemAt) }], records: entries(named, true) };
+      const plain = { items: list(2000), none: [], deep: [{ items: list(3) }], records: Object.fromEntries(list(3000).map((v, i) => [named(i), v])) };
+      expect(written(doc, indent).text).toBe(JSON.stringify(plain, null, indent));
+      expect(JSON.stringify(doc)).toBe(JSON.stringify(plain));
+      // Integer-like names keep the producer's order: the same text as the walked path, which the test above checks by hand.
+      const numbered = (i: number): string => (i % 7 === 0 ? String(i) : named(i));
+      expect(written({ r: entries(numbered, true) }, indent).text).toBe(written({ r: entries(numbered, false) }, indent).text);
+    }
   });
 
   it('hands a long document over in pieces, never as one string', () => {
