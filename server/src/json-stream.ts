@@ -153,7 +153,8 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
       return;
     }
     if (v instanceof JsonItems) {
-      putList(v.length, (i) => v.item(i), indent, true);
+      const items = v;
+      putList(items.length, (i) => items.item(i), indent, true);
       return;
     }
     v = resolved(v);
