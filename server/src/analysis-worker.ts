@@ -266,7 +266,7 @@ function handle(msg: ToWorker): void {
       }
       let findings;
       try {
-        findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop: stopper(msg.generation) });
+        findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop: stopper(msg.generation), incremental: incrementals.get(msg.uri) });
       } catch (e) {
         if (!(e instanceof AnalysisStopped)) throw e;
         // Superseded: the next analysis replaces this one; its structures keep no half-filled corners.

@@ -32,7 +32,7 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { IncrementalKeeper, ValueEdit, type IncrementalState } from './incremental';
+import { cornerStarts, IncrementalKeeper, ValueEdit, type IncrementalState } from './incremental';
 
 declare const performance: { now(): number };
 
@@ -250,6 +250,12 @@ export interface CornerPhaseContext {
   stats?: CornerStats;
   /** Asked between corner solves; true stops the phase with `AnalysisStopped`. */
   shouldStop?: () => boolean;
+  /**
+   * The `incremental` state of the session whose analysis this is: after a value edit the corner solves start from
+   * the last corner phase's solutions (see `cornerStarts`), and leave theirs for the next. Ignored when it belongs
+   * to another analysis.
+   */
+  incremental?: IncrementalState;
 }
 
 /**
@@ -276,7 +282,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
   const findings: Finding[] = [];
   try {
-    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped() }));
+    const starts = cornerStarts(ctx.incremental, circuit, ctx.nominal);
+    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped(), ...starts }));
     fillStartupCorners(analysis.structures);
     const targets = targetsRead.get(analysis.documents) ?? readTargets(analysis.documents).targets;
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));

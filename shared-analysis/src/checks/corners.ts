@@ -71,6 +71,14 @@ export interface CornerContext {
   shouldStop?: () => boolean;
   /** What to throw when `shouldStop` says so (the facade passes its `AnalysisStopped`). */
   stop?: () => Error;
+  /**
+   * Where corner k's Newton starts instead of the nominal solution (after a value edit: the last corner phase's
+   * solution of that corner, moved by the change of the nominal one). A start that does not converge is dropped
+   * for the nominal one, so a corner converges whenever it would from the nominal start.
+   */
+  startOf?: (spec: CornerSpec, k: number) => Float64Array | undefined;
+  /** Told each converged corner's solution (the solver's own vector, overwritten by the next solve: copy what is kept). */
+  solved?: (spec: CornerSpec, k: number, x: Float64Array) => void;
 }
 
 /** Effort of one `runCorners` call. */
@@ -262,7 +270,15 @@ export function runCorners(ctx: CornerContext): Finding[] {
     let result: DcSolveResult | undefined;
     const ts = clock();
     try {
-      result = solver.solve(opts);
+      const own = ctx.startOf?.(spec, k);
+      if (own) {
+        result = solver.solve({ ...opts, initialGuess: own, initialGuessTemperatureC: spec.temperatureC });
+        if (!result.op.converged) {
+          iterations += result.stats.iterations;
+          result = undefined;
+        }
+      }
+      result ??= solver.solve(opts);
     } catch (e) {
       // Stopped inside the solve (the same check as between solves, asked before each Newton iteration).
       if (e instanceof SolveStopped) throw ctx.stop?.() ?? e;
@@ -276,6 +292,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
       return;
     }
     axis.converged[k] = 1;
+    ctx.solved?.(spec, k, result.x);
     const op = result.op;
     const reader = readerOf(op, topology);
     structures.forEach((s, i) => {
