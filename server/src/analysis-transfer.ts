@@ -29,10 +29,10 @@ export type AnalysisPart =
    */
   | { kind: 'cards'; uri: string; json: string; starts: number[] }
   /**
-   * Cards `start` to `start + count − 1` of document `uri` are those the receiver holds (of the analysis
-   * it named as held): the same objects before `moved`, and from `moved` on the same cards moved by
-   * `delta` characters (moved in place when the result is adopted). The sender checked that each encodes exactly as the held one and that its text
-   * lies in the part of the document the edit left alone.
+   * The next `count` cards of document `uri` are the receiver's held cards `start` to `start + count − 1`
+   * (of the analysis it named as held): the same objects before `moved`, and from `moved` on the same
+   * cards moved by `delta` characters (moved in place when the result is adopted). The sender checked
+   * that each has the held card's span in the text the edit left alone (see `howCardsTravel`).
    */
   | { kind: 'cards-kept'; uri: string; start: number; count: number; moved: number; delta: number }
   /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
@@ -53,11 +53,17 @@ function sharedEnds(before: string, after: string): { prefix: number; suffix: nu
   return { prefix, suffix };
 }
 
-/** What a sender keeps of the cards it sent, to send only what changed next time: per document its text and each part's JSON and card starts. */
+/**
+ * What a sender keeps of the cards it sent, to send only what changed next time: per document its text,
+ * whether its first card is a title, and every card's span.
+ */
 export type SentCards = Map<string, SentDocument>;
 interface SentDocument {
   text: string;
-  parts: { json: string; starts: number[] }[];
+  /** Whether the first card is a title: the parser's `hasTitle`, which decides how line 0 and a lone `.lib` field read. */
+  titled: boolean;
+  /** Card k's span is `[spans[2k], spans[2k + 1])`. */
+  spans: Int32Array;
 }
 
 /** The analysis with its big arrays emptied, and the parts that refill them in order. */
@@ -100,13 +106,24 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   if (!inHeader) slices(analysis.findings, (items) => ({ kind: 'findings', items }));
   const findingParts = parts.length;
   const documents: Analysis['documents'] = {};
-  const cards: AnalysisPart[][] = [];
+  // Which cards travel and which the receiver keeps is known now (from the spans); the changed ones are encoded by `prepare`.
+  const cardSlots: (AnalysisPart | undefined)[] = [];
   const sent: SentCards = new Map();
-  let docs = Object.entries(analysis.documents);
-  docs.forEach(([uri, doc], d) => {
+  let toEncode: { uri: string; cards: Card[]; slot: number }[] = [];
+  for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
-    for (let i = 0, k = 0; i < doc.cards.length; i += PART_SIZE, k++) parts.push(() => cards[d][k]);
-  });
+    const plan = cardRuns(uri, doc, held?.get(uri));
+    sent.set(uri, plan.sent);
+    for (const run of plan.runs) {
+      const slot = cardSlots.length;
+      if ('part' in run) cardSlots.push(run.part);
+      else {
+        cardSlots.push(undefined);
+        toEncode.push({ uri, cards: doc.cards.slice(run.from, run.to), slot });
+      }
+      parts.push(() => cardSlots[slot]!);
+    }
+  }
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
     circuit = { ...analysis.circuit, elements: [] };
@@ -149,58 +166,77 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   slices(analysis.structures, (items) => ({ kind: 'structures', items }), STRUCTURE_PART_SIZE);
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: inHeader ? analysis.findings : [], structures: [] };
   const prepare = (): SentCards => {
-    for (const [uri, doc] of docs) {
-      const made = cardParts(uri, doc, held?.get(uri));
-      cards.push(made.parts);
-      sent.set(uri, made.sent);
-    }
-    // The part builders share this scope: without this they would keep every parsed card alive until the last part is sent.
-    docs = [];
+    for (const { uri, cards, slot } of toEncode) cardSlots[slot] = { kind: 'cards', uri, json: `[${cards.map(encodeCard).join(',')}]`, starts: cards.map((c) => c.span.start) };
+    // The part builders share this scope: without this they would keep the changed cards alive until the last part is sent.
+    toEncode = [];
     entries?.();
     return sent;
   };
   return { header, parts, findingParts, prepare };
 }
 
+/** A run of a document's cards: kept by the receiver (a `cards-kept` part), or new cards `[from, to)` to encode (at most a part's worth). */
+type CardRun = { part: AnalysisPart } | { from: number; to: number };
+
+/** How a card travels: encoded, kept where the receiver holds it, or kept and moved by the change in length. */
+const SENT = 0;
+const KEPT = 1;
+const MOVED = 2;
+
 /**
- * The card parts of one document, each either its JSON or, where the receiver holds the same cards
- * (`held`: what was sent of its previous analysis), a `cards-kept` part; and what was sent, to compare
- * the next analysis with.
+ * The runs of a document's cards, each either encoded or, where the receiver holds the same card
+ * (`held`: what was sent of its previous analysis), kept; and what is sent, to compare the next
+ * analysis with. Decided from the spans alone, without encoding a card (see `howCardsTravel`).
  */
-function cardParts(uri: string, doc: ParsedDocument, held: SentDocument | undefined): { parts: AnalysisPart[]; sent: SentDocument } {
-  const ends = held ? sharedEnds(held.text, doc.text) : undefined;
-  const parts: AnalysisPart[] = [];
-  const sent: SentDocument = { text: doc.text, parts: [] };
-  for (let i = 0; i < doc.cards.length; i += PART_SIZE) {
-    const slice = doc.cards.slice(i, i + PART_SIZE);
-    const reach: [number, number][] = [];
-    const json = `[${slice.map((c) => encodeCard(c, reach)).join(',')}]`;
-    const starts = slice.map((c) => c.span.start);
-    const before = held?.parts[sent.parts.length];
-    sent.parts.push({ json, starts });
-    const moved = before && ends && before.json === json ? keptFrom(starts, reach, before.starts, ends, held!.text.length, doc.text.length) : undefined;
-    parts.push(moved ? { kind: 'cards-kept', uri, start: i, count: slice.length, ...moved } : { kind: 'cards', uri, json, starts });
+function cardRuns(uri: string, doc: ParsedDocument, held: SentDocument | undefined): { runs: CardRun[]; sent: SentDocument } {
+  const n = doc.cards.length;
+  const spans = new Int32Array(2 * n);
+  doc.cards.forEach((c, k) => {
+    spans[2 * k] = c.span.start;
+    spans[2 * k + 1] = c.span.end;
+  });
+  const sent: SentDocument = { text: doc.text, titled: doc.cards[0]?.kind === 'title', spans };
+  const travel = held && held.titled === sent.titled ? howCardsTravel(held, sent) : undefined;
+  const how = (k: number) => (travel ? travel.how[k]! : SENT);
+  const runs: CardRun[] = [];
+  for (let k = 0; k < n; ) {
+    const kind = how(k);
+    let end = k + 1;
+    while (end < n && how(end) === kind && (kind !== SENT || end - k < PART_SIZE)) end++;
+    if (kind === SENT) runs.push({ from: k, to: end });
+    else {
+      const moved = kind === MOVED;
+      runs.push({ part: { kind: 'cards-kept', uri, start: moved ? k - travel!.shift : k, count: end - k, moved: moved ? 0 : end - k, delta: moved ? travel!.delta : 0 } });
+    }
+    k = end;
   }
-  return { parts, sent };
+  return { runs, sent };
 }
 
 /**
- * Whether the cards of a part whose encoding equals the held one's are the held cards, unmoved up to some
- * card and moved by the change in length from it on: each card's offsets (`reach`, lowest and highest, new
- * text) lie in the shared prefix with its start unchanged, or in the shared suffix with its start moved.
+ * For each new card, whether the receiver's held card is the same. A card is a function of its span's
+ * text and of whether the document has a title (the parser reads a document line by line; which lines
+ * make a card shows in its span, and a card never reads text outside it), so a card is the held one
+ * when both have the same span in the text the edit left alone: in the shared prefix at the same index,
+ * or in the shared suffix at the same index from the end, moved by the change in length. The title
+ * (card 0, the first line whatever it holds) is kept only from the prefix.
  */
-function keptFrom(starts: number[], reach: [number, number][], heldStarts: number[], ends: { prefix: number; suffix: number }, heldLength: number, length: number): { moved: number; delta: number } | undefined {
-  const delta = length - heldLength;
-  let moved = starts.length;
-  for (let k = 0; k < starts.length; k++) {
-    const [low, high] = reach[k];
-    const unmoved = moved === starts.length && high <= ends.prefix && heldStarts[k] === starts[k];
-    const shifted = low >= length - ends.suffix && heldStarts[k] === starts[k] - delta;
-    if (unmoved) continue;
-    if (!shifted) return undefined;
-    if (moved === starts.length) moved = k;
+function howCardsTravel(held: SentDocument, sent: SentDocument): { how: Uint8Array; shift: number; delta: number } {
+  const { prefix, suffix } = sharedEnds(held.text, sent.text);
+  const n = sent.spans.length / 2;
+  const heldCount = held.spans.length / 2;
+  const delta = sent.text.length - held.text.length;
+  const shift = n - heldCount;
+  const tail = sent.text.length - suffix;
+  const how = new Uint8Array(n);
+  for (let k = 0; k < n; k++) {
+    const start = sent.spans[2 * k]!;
+    const end = sent.spans[2 * k + 1]!;
+    const h = k - shift;
+    if (k < heldCount && end <= prefix && held.spans[2 * k] === start && held.spans[2 * k + 1] === end) how[k] = KEPT;
+    else if (k >= 1 && h >= 1 && h < heldCount && start >= tail && held.spans[2 * h] === start - delta && held.spans[2 * h + 1] === end - delta) how[k] = MOVED;
   }
-  return { moved, delta };
+  return { how, shift, delta };
 }
 
 /** Per analysis being taken in, the held cards it shares that the edit moved, and by how much: moved by `adoptKeptCards`. */
@@ -270,20 +306,13 @@ function tokenFinder(tokens: readonly Token[]): (v: object) => number {
 }
 
 /**
- * A card's JSON, written directly (no intermediate objects: this runs for every card of every
- * analysis). Every offset is written from the card's start; the lowest and highest offset (absolute)
- * are pushed to `reach`, so the sender knows what text the card covers. Fields are written as
+ * A card's JSON, written directly (no intermediate objects: this runs for every changed card of
+ * every analysis). Every offset is written from the card's start. Fields are written as
  * `JSON.stringify` would write them (an undefined field left out).
  */
-function encodeCard(card: Card, reach: [number, number][]): string {
+function encodeCard(card: Card): string {
   const base = card.span.start;
-  let low = base;
-  let high = base;
-  const offset = (x: number): number => {
-    if (x < low) low = x;
-    if (x > high) high = x;
-    return x - base;
-  };
+  const offset = (x: number): number => x - base;
   const tokenAt = tokenFinder(card.tokens);
   const token = (t: Token): string => `[${offset(t.span.start)},${offset(t.span.end)},${t.kind === 'expr' ? 1 : 0}]`;
   const encode = (v: unknown): string | undefined => {
@@ -304,9 +333,7 @@ function encodeCard(card: Card, reach: [number, number][]): string {
     return out.join(',');
   };
   const rest = fields(card, 'tokens');
-  const json = `{"tokens":[${card.tokens.map(token).join(',')}]${rest ? `,${rest}` : ''}}`;
-  reach.push([low, high]);
-  return json;
+  return `{"tokens":[${card.tokens.map(token).join(',')}]${rest ? `,${rest}` : ''}}`;
 }
 
 /**

@@ -180,10 +180,11 @@ function handle(msg: ToWorker): void {
         if (parts.length <= SMALL_RESULT_PARTS) {
           // Small: the whole result in one message (the main thread takes it in at once).
           keep(prepare());
-          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, inline: parts.map((make) => make()) });
+          const inline = parts.map((make) => make());
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, inline });
         } else {
           outgoing = { id: msg.id, parts };
-          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms });
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms });
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }

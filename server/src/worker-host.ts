@@ -200,7 +200,7 @@ export class WorkerHost {
        */
       held?: Analysis;
     } = {},
-  ): Promise<{ analysis: Analysis; ms: number; transferMs: number }> {
+  ): Promise<{ analysis: Analysis; ms: number; sendMs: number; transferMs: number }> {
     const generation = this.generation();
     const held = phases.held && this.analysisIds.get(phases.held);
     const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation, held }), `The analysis of ${uri}`);
@@ -232,7 +232,7 @@ export class WorkerHost {
     elementIndex?.finish(analysis);
     restoreNameTables(analysis);
     this.analysisIds.set(analysis, msg.id);
-    return { analysis, ms: msg.ms, transferMs: Date.now() - t0 };
+    return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0 };
   }
 
   /**

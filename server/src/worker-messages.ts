@@ -63,8 +63,9 @@ export type FromWorker =
   /**
    * The analysis without its big arrays; `parts` more slices follow, each on request, the first `findingParts` of them its findings.
    * A small result (at most SMALL_RESULT_PARTS parts) carries them all in `inline` instead: one message, no round trips.
+   * `ms`: the engine's time; `sendMs`: the time after it to make what this message carries (the header, and for a small result every part).
    */
-  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; inline?: AnalysisPart[] }
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; inline?: AnalysisPart[] }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }

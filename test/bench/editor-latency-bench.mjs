@@ -67,8 +67,8 @@ async function main() {
   });
   const analysed = [];
   conn.onNotification('window/logMessage', (p) => {
-    const m = /Analysed (\S+) \(version (\d+)\) in (\d+) ms in the worker; taking the result in took (\d+) ms/.exec(p.message);
-    if (m) analysed.push({ file: m[1], version: Number(m[2]), worker: Number(m[3]), takeIn: Number(m[4]) });
+    const m = /Analysed (\S+) \(version (\d+)\) in (\d+) ms in the worker, then (\d+) ms preparing it to send; taking the result in took (\d+) ms/.exec(p.message);
+    if (m) analysed.push({ file: m[1], version: Number(m[2]), worker: Number(m[3]), send: Number(m[4]), takeIn: Number(m[5]) });
     if (p.message.includes('Solved the corners of') || p.message.includes('corner phase')) events.push({ kind: 'corners', at: performance.now(), message: p.message });
     notify();
   });
@@ -150,7 +150,7 @@ async function main() {
     }
     console.log(`  single-value edit → fresh diagnostics: median ${f(median(toDiagnostics))} ms (${toDiagnostics.map(f).join(', ')})`);
     const mine = analysed.filter((x) => uri.endsWith(x.file) && x.version > 1);
-    console.log(`    of which the engine in the worker: median ${f(median(mine.map((x) => x.worker)))} ms; taking the result in: median ${f(median(mine.map((x) => x.takeIn)))} ms`);
+    console.log(`    of which the engine in the worker: median ${f(median(mine.map((x) => x.worker)))} ms; preparing it to send: median ${f(median(mine.map((x) => x.send)))} ms; taking the result in: median ${f(median(mine.map((x) => x.takeIn)))} ms`);
     if (withCorners) console.log(`  single-value edit → fresh corner findings: median ${f(median(toCorners))} ms (${toCorners.map(f).join(', ')})`);
     console.log(`  hover while editing: n=${hovers.length} median ${f(median(hovers))} ms p99 ${f(p99(hovers))} ms; inlay hints: median ${f(median(inlays))} ms p99 ${f(p99(inlays))} ms`);
     await conn.sendNotification('textDocument/didClose', { textDocument: { uri } });

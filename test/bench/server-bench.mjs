@@ -211,6 +211,7 @@ async function main() {
   const edits = [];
   const workerMs = [];
   const transferMs = [];
+  const sendMs = [];
   for (let k = 0; k < 10; k++) {
     const v = k + 2;
     const text = smallLines[rLine];
@@ -224,15 +225,17 @@ async function main() {
       await diagnosticsFor(smallUri, v);
     });
     edits.push(ms);
-    const m = /in (\d+) ms in the worker; taking the result in took (\d+) ms/.exec(lastLog());
+    const m = /in (\d+) ms in the worker, then (\d+) ms preparing it to send; taking the result in took (\d+) ms/.exec(lastLog());
     if (m) {
       workerMs.push(Number(m[1]));
-      transferMs.push(Number(m[2]));
+      sendMs.push(Number(m[2]));
+      transferMs.push(Number(m[3]));
     }
   }
   console.log(`2,000-element netlist (${small.elements} elements):`);
   console.log(summary('  Edit → re-published diagnostics', edits));
   console.log(summary('  of which the engine in the worker', workerMs));
+  console.log(summary('  of which preparing it to send in the worker', sendMs));
   console.log(summary('  of which taking the result in', transferMs));
   const memEnd = memoryOf(child.pid);
   console.log(`Server peak memory over the whole run: ${memEnd.hwmMB.toFixed(0)} MB (VmHWM)`);

@@ -7,6 +7,7 @@ import { analyse } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { indexBuilder, indexOf } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import { rng } from '../seeded-random';
 
 /** The one helper: split, pass every message through a structured clone (as postMessage does), merge, compare. */
 function check(text: string, hoverAtText: string[]): void {
@@ -111,4 +112,76 @@ describe('analysis transfer', () => {
     for (const p of parts) mergePart(copy, p, held);
     expect(copy.documents[uri]!.cards[5]).toBe(held.documents[uri]!.cards[5]);
   });
+
+  it('after random edits that regroup cards, keeps only cards the parser makes again (seeded)', () => {
+    // Snippets that change how lines group into cards and how the first line reads: continuation and
+    // comment lines, blocks, sections, conditions, the end card, line breaks, a definition card as the
+    // first line (no title then). The independent computation is the parser's own cards of each text.
+    const snippets = ['\n', '\r\n', ' ', '\t', '+ m=2\n', '\n+ QN', '* note\n', '; c', 'k', '{a*2}', "'", 'R9 a 0 1k\n', '.control\nrun\n', '.endc\n',
+      '.lib sec\n', '.endl\n', '.subckt S a b\n', '.ends\n', '.if (a==1)\n', '.endif\n', '.end\n', '.alter\n', '.title T\n', '.model QN NPN (BF=90)\n', '.param a=1\n', 'Q7 o r 0 QN\n'];
+    const lines = ['Random edits', 'VCC vcc 0 DC 10', '.param a=2', 'RREF vcc ref {a*4.65}k ; the reference', 'Q1 ref ref 0 QN', 'Q2 out ref 0', '* between', '+ QN', '.control', 'op', '.endc'];
+    for (let k = 0; k < 30; k++) lines.push(`RX${k} vcc x${k} ${1 + (k % 9)}k`, k % 7 === 3 ? `+ m=${k}` : `* line ${k}`);
+    lines.push('.model QN NPN (BF=100)', '.end', '');
+    const uri = '/t/main.cir';
+    const random = rng(20261203);
+    const pick = <T>(xs: readonly T[]): T => xs[Math.floor(random() * xs.length)]!;
+    let text = lines.join('\n');
+    let keptCards = 0;
+    let sentCards = 0;
+    let { sent, held } = takeInWhole(uri, text, undefined, undefined);
+    for (let round = 0; round < 300; round++) {
+      const next = randomEdit(text, round, random, pick, snippets);
+      const result = takeInWhole(uri, next, sent, held);
+      expect(result.analysis.documents[uri], `round ${round}`).toEqual(result.original.documents[uri]);
+      keptCards += result.kept;
+      sentCards += result.sentCount;
+      ({ sent, held } = result);
+      text = next;
+    }
+    // The edits are small: most cards are kept rather than sent.
+    expect(keptCards).toBeGreaterThan(5 * sentCards);
+  });
 });
+
+/**
+ * One random edit of `text`: a snippet inserted at a line start or anywhere, with a few characters cut after it; a
+ * character replaced in place (same length, same spans, other text); a whole line deleted or doubled; now and then
+ * a definition card or another line put before the title.
+ */
+function randomEdit(text: string, round: number, random: () => number, pick: <T>(xs: readonly T[]) => T, snippets: readonly string[]): string {
+  const lineStart = text.lastIndexOf('\n', Math.floor(random() * text.length)) + 1;
+  const lineEnd = text.indexOf('\n', lineStart) + 1 || text.length;
+  const at = random() < 0.5 ? lineStart : Math.floor(random() * (text.length + 1));
+  switch (round % 6) {
+    case 0:
+      return pick(['.model QN NPN\n', '.lib sec\n', 'R0 a 0 1\n', '', '']) + (random() < 0.5 ? text.slice(text.indexOf('\n') + 1) : text);
+    case 1:
+      return text.slice(0, at) + pick(['1', '2', 'k', '+', '*', '.', ' ', 'x']) + text.slice(at + 1);
+    case 2:
+      return random() < 0.5 ? text.slice(0, lineStart) + text.slice(lineEnd) : text.slice(0, lineEnd) + text.slice(lineStart, lineEnd) + text.slice(lineEnd);
+    default:
+      return text.slice(0, at) + (random() < 0.8 ? pick(snippets) : '') + text.slice(at + (random() < 0.4 ? Math.floor(random() * 12) : 0));
+  }
+}
+
+/**
+ * The analysis of `text` split (against `sent`, what was sent of the held analysis), passed through structured clones as postMessage does,
+ * merged onto `held` and adopted, as the server takes in a result; with how many cards were kept and how many sent.
+ */
+function takeInWhole(uri: string, text: string, sent: ReturnType<ReturnType<typeof splitAnalysisLazily>['prepare']> | undefined, held: Analysis | undefined) {
+  const original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+  const split = splitAnalysisLazily(original, sent);
+  const nextSent = split.prepare();
+  const copy = structuredClone(split.header);
+  let kept = 0;
+  let sentCount = 0;
+  for (const make of split.parts) {
+    const part = structuredClone(make());
+    if (part.kind === 'cards-kept') kept += part.count;
+    if (part.kind === 'cards') sentCount += part.starts.length;
+    mergePart(copy, part, held);
+  }
+  adoptKeptCards(copy);
+  return { analysis: copy, original, sent: nextSent, held: copy, kept, sentCount };
+}
+

@@ -78,8 +78,8 @@ describe('taking a result in', () => {
       expect(second.analysis.documents[URI]).toEqual(direct.documents[URI]);
       expect(second.analysis.documents[URI]?.cards[5]).toBe(first.analysis.documents[URI]?.cards[5]);
       expect(first.analysis.documents[URI]?.text).toBe(text);
-      // As many parts either way; the kept ones are a few bytes each instead of 400 cards.
-      expect(fewer).toBe(whole);
+      // Fewer parts: the cards before and after the edited one are one kept run each (a few bytes) instead of slices of 400 cards.
+      expect(fewer).toBeLessThan(whole);
     } finally {
       host.dispose();
     }
