@@ -1,10 +1,12 @@
 // Sizes a resistor for a target current: a hand-formula first value, refined with the DC solver, then the nearest standard values re-solved.
 
 import { isBipolar } from '../structures/technology';
+import { blockSolver, objectId, type BlockSolver } from './block-solvers';
 import { circuitIndex, elementNamed } from './circuit-index';
 import type { Circuit, Element, Origin, Resistor } from '../circuit';
 import { DcSolver, type DcSolveResult } from '../solve/dc';
-import type { OperatingPoint } from '../solve/types';
+import { pointVectors } from '../solve/point';
+import type { DeviceRecord, OperatingPoint } from '../solve/types';
 import { kindOf, referenceJunctions } from '../structures/catalogue';
 import { measureStructure } from '../structures/measure';
 import { thermalVolts } from '../structures/formulas';
@@ -96,12 +98,41 @@ function findElement(circuit: Circuit, name: string): Element | undefined {
   return elementNamed(circuit, name);
 }
 
-/** The current magnitude an element carries at an operating point (collector, drain, diode or branch current). */
-function currentOf(op: OperatingPoint, name: string): number | undefined {
-  const rec = op.devices[name];
-  if (!rec) return undefined;
-  const v = rec.type === 'bjt' ? rec.ic : rec.type === 'mosfet' || rec.type === 'jfet' ? rec.id : rec.type === 'diode' ? rec.id : rec.current;
-  return Number.isFinite(v) ? Math.abs(v) : undefined;
+/** The record field that is an element's current, by record type (collector, drain, diode or branch current). */
+function currentQuantity(type: DeviceRecord['type']): 'ic' | 'id' | 'current' {
+  return type === 'bjt' ? 'ic' : type === 'mosfet' || type === 'jfet' || type === 'diode' ? 'id' : 'current';
+}
+
+/**
+ * How to read a number of element `name`'s record at a point of `circuit` (`quantity` picks the
+ * field by the record's type, undefined for none): from the point's vectors by the element's index
+ * when the solver left them (a trial reads one number, and no table of every record is built), else
+ * from its record.
+ */
+function recordReader(circuit: Circuit, name: string, quantity: (type: DeviceRecord['type']) => string | undefined): (op: OperatingPoint) => number | undefined {
+  const el = findElement(circuit, name);
+  const e = el ? circuitIndex(circuit).position.get(el) : undefined;
+  return (op) => {
+    const v = pointVectors(op);
+    if (v && e !== undefined) {
+      const type = v.type(e);
+      const q = type === undefined ? undefined : quantity(type);
+      return q === undefined ? undefined : v.value(e, q);
+    }
+    const rec = op.devices[name] as unknown as Record<string, unknown> | undefined;
+    const q = rec ? quantity(rec['type'] as DeviceRecord['type']) : undefined;
+    const field = rec && q !== undefined ? rec[q] : undefined;
+    return typeof field === 'number' ? field : undefined;
+  };
+}
+
+/** How to read the current magnitude element `name` carries at a point of `circuit` (see `currentQuantity`). */
+function currentReader(circuit: Circuit, name: string): (op: OperatingPoint) => number | undefined {
+  const read = recordReader(circuit, name, currentQuantity);
+  return (op) => {
+    const value = read(op);
+    return value !== undefined && Number.isFinite(value) ? Math.abs(value) : undefined;
+  };
 }
 
 /**
@@ -160,6 +191,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     return fail('The circuit has no converged operating point to size from, so no resistor value is offered.', deviceName, solves);
   }
   const warm = baseline.x;
+  const deviceCurrent = currentReader(work, deviceName);
 
   // Each distinct resistance is solved once; the card's own value is the baseline already solved. A
   // trial starts from the solved point nearest it (`start`; the baseline by default), so a small step
@@ -174,13 +206,13 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
     const result = local
       ? local.solver.solve({ ...baseOptions, initialGuess: start, resistances: { [workResistor.name]: ohms } })
       : new DcSolver(withResistance(work, workResistor, ohms)).solve({ ...baseOptions, initialGuess: start });
-    const current = result.op.converged ? currentOf(result.op, deviceName) : undefined;
+    const current = result.op.converged ? deviceCurrent(result.op) : undefined;
     const out = current === undefined ? undefined : { current, x: result.x, start };
     seen.set(ohms, out);
     return out;
   };
 
-  const i0 = currentOf(baseline.op, deviceName);
+  const i0 = deviceCurrent(baseline.op);
   if (i0 === undefined || !(i0 > 0)) {
     return fail(`${deviceName} carries no current at the present operating point, so the change needed cannot be estimated.`, deviceName, solves);
   }
@@ -197,9 +229,10 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const vt = thermalVolts(tempC);
   let first: number;
   let firstValueFrom: SizingResult['firstValueFrom'] = 'ohms-law';
-  const rRec = baseline.op.devices[resistor.name];
-  const vR = rRec && rRec.type === 'resistor' ? Math.abs(rRec.voltage) : Math.abs(currentOf(baseline.op, resistor.name) ?? 0) * resistor.resistance;
-  const iR = currentOf(baseline.op, resistor.name) ?? 0;
+  const resistorVoltage = recordReader(work, resistor.name, (type) => (type === 'resistor' ? 'voltage' : undefined))(baseline.op);
+  const resistorCurrent = currentReader(work, resistor.name);
+  const vR = resistorVoltage !== undefined ? Math.abs(resistorVoltage) : Math.abs(resistorCurrent(baseline.op) ?? 0) * resistor.resistance;
+  const iR = resistorCurrent(baseline.op) ?? 0;
   if (structure && role === 'widlar' && actedOn && deviceName.toLowerCase() === actedOn.device.toLowerCase() && !kindOf(structure.kind).emitterResistorByOhmsLaw) {
     const m = measureStructure(work, baseline.op, structure);
     const nf = deviceNf(circuit, actedOn.device);
@@ -382,17 +415,6 @@ export type Solves = Pick<DcSolver, 'solve'>;
 
 const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solves } | null>>();
 
-/** A number per object (0 for none): an initial guess or an analysed point, known by identity in the keys below. */
-const objectIds = new WeakMap<object, number>();
-let objectCount = 0;
-
-function objectId(o: object | undefined): number {
-  if (!o) return 0;
-  let id = objectIds.get(o);
-  if (id === undefined) objectIds.set(o, (id = ++objectCount));
-  return id;
-}
-
 /**
  * `solver` with each answer kept by the solve's temperature, resistance overrides and initial
  * guess, for a block whose solves repeat: a target's sizing solves the unchanged block, refines, and
@@ -408,7 +430,7 @@ function objectId(o: object | undefined): number {
  * keeps its answers: a thousand targets' answers kept at once made the collector's work grow more
  * than the repeated solves cost.
  */
-function keptSolves(solver: DcSolver, start: { x: Float64Array; temperatureC: number } | undefined): Solves {
+function keptSolves(solver: BlockSolver, start: { x: Float64Array; temperatureC: number } | undefined): Solves {
   const kept = new Map<string, DcSolveResult>();
   return {
     solve: (asked = {}) => {
@@ -430,8 +452,8 @@ function keptSolves(solver: DcSolver, start: { x: Float64Array; temperatureC: nu
 }
 
 /**
- * `affectedBlock` of a resistor with a prepared solver of it, kept per circuit, resistor and analysed
- * point so the sizing of a target and the re-solves that verify its candidates share them; undefined
+ * `affectedBlock` of a resistor with a prepared solver of it (shared with the blocks of the same
+ * shape, see `blockSolver`), kept per circuit, resistor and analysed point so the sizing of a target and the re-solves that verify its candidates share them; undefined
  * when the circuit is not split there. The block's solution equals the whole circuit's at every
  * element it holds, so a structure inside it can be measured on it. With `point` (the analysed
  * operating point of `circuit`), a solve on the block told no start starts from the point's node
@@ -444,7 +466,7 @@ export function sizingBlock(circuit: Circuit, resistor: Resistor, mustHold: stri
   let entry = perCircuit.get(key);
   if (entry === undefined) {
     const block = affectedBlock(circuit, resistor, mustHold);
-    const solver = block && new DcSolver(block);
+    const solver = block && blockSolver(circuit, block);
     entry = block && solver ? { circuit: block, solver: keptSolves(solver, pointOnBlock(block, solver.unknownCount, point)) } : null;
     perCircuit.set(key, entry);
   }
