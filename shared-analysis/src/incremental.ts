@@ -51,6 +51,8 @@ export interface IncrementalState {
   watch: { byNode: Watchers; byElement: Watchers };
   /** The fingerprint of the MNA unknowns (`unknownsFingerprint`), which a value edit keeps. */
   unknowns: string;
+  /** The connectivity check's findings, which read nodes, kinds and current sources' values only: a value edit keeps them (`keptConnectivity`). */
+  connectivity: Finding[];
   /** Set while an edit has moved the solver to its circuit and the analysis has not finished (see `revertValueEdit`). */
   adopted?: { circuit: Circuit; changed: number[] };
   /** Per corner label, the last converged solution of that corner on this state or one it came from by value edits (see `cornerStarts`). */
@@ -289,6 +291,21 @@ export class ValueEdit {
     });
   }
 
+  /**
+   * The last connectivity findings moved past the edit: the check reads the nodes and kinds of the elements and the
+   * values of current sources, none of which a value edit changes. Undefined when one of them touches the edited text
+   * (its place is made anew then), so the check runs again.
+   */
+  keptConnectivity(): Finding[] | undefined {
+    const out: Finding[] = [];
+    for (const f of this.previous.connectivity) {
+      const moved = movedFinding(f, this.previous.uri, this.region);
+      if (!moved) return undefined;
+      out.push(moved);
+    }
+    return out;
+  }
+
   /** The findings of a structure kept from the last analysis (moved past the edit), or undefined for one analysed again. */
   keptFindings = (s: Structure): Finding[] | undefined => this.kept.get(s);
 
@@ -459,7 +476,12 @@ export class IncrementalKeeper {
   };
 
   /** The state for the next edit, when this analysis can be one's start: converged, no notice of a number removed. */
-  state(input: { uri: string; text: string }, options: ResolvedOptions, circuit: Circuit, solver: DcSolver, nominal: DcSolveResult, structures: Structure[], unknowns: string): IncrementalState | undefined {
+  state(
+    input: { uri: string; text: string },
+    options: ResolvedOptions,
+    analysed: { circuit: Circuit; solver: DcSolver; nominal: DcSolveResult; structures: Structure[]; unknowns: string; connectivity: Finding[] },
+  ): IncrementalState | undefined {
+    const { circuit, solver, nominal, structures, unknowns, connectivity } = analysed;
     if (!nominal.op.converged || !options.solve || options.corners.enabled) return undefined;
     const previous = this.edit?.previous;
     if (previous) previous.adopted = undefined;
@@ -481,6 +503,7 @@ export class IncrementalKeeper {
       index,
       watch: previous ? previous.watch : watchers(kept.map((k) => k.pristine), circuit, index),
       unknowns,
+      connectivity,
       ...(previous?.corners ? { corners: previous.corners } : {}),
     };
   }

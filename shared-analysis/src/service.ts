@@ -122,10 +122,11 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   // Text in an `.if` branch no instance takes does not exist for the analysis: its syntax problems are not reported.
   const findings: Finding[] = [...withoutInactive(syntaxFindings(elab.documents), elab.inactive), ...elab.findings];
   const circuit = elab.circuit;
-  pushAll(findings, timed('connectivity', () => checkConnectivity(circuit)));
-
   // A value edit keeps the structures recognition found (recognition reads a resistor only as positive and finite, which such an edit keeps).
   const edit = control.previous ? timed('structures', () => ValueEdit.of(control.previous!, input.uri, input.text, elab, resolved)) : undefined;
+  const connectivity = timed('connectivity', () => edit?.keptConnectivity() ?? checkConnectivity(circuit));
+  // Copies into the analysis: fixes are attached to its findings and spans clamped in place, and the kept ones stay as the check made them.
+  pushAll(findings, connectivity.map((f) => ({ ...f })));
   const structures = edit ? [] : timed('structures', () => recogniseStructures(circuit));
   const keeper = control.keepIncremental ? new IncrementalKeeper(edit, structures) : undefined;
   let operatingPoint: Analysis['operatingPoint'];
@@ -230,7 +231,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const warmStart: WarmStart | undefined = converged ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
   // A self-biased loop's state depends on where Newton starts, and a removed number leaves no finding to keep: the next edit starts afresh.
   const dc: DcSolver | undefined = solver;
-  const incremental = keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures)) ? keeper.state(input, resolved, circuit, dc, converged, structures, (fingerprint ??= unknownsFingerprint(circuit))) : undefined;
+  const incremental =
+    keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures))
+      ? keeper.state(input, resolved, { circuit, solver: dc, nominal: converged, structures, unknowns: (fingerprint ??= unknownsFingerprint(circuit)), connectivity })
+      : undefined;
   return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}), ...(incremental ? { incremental } : {}) };
 }
 

@@ -220,9 +220,10 @@ describe('incremental re-analysis of a value edit', () => {
     expect(keptCount(first, next)).toBe(next.analysis.structures.length);
   });
 
-  it("makes the solver's static findings again after value edits: floating nodes, a shorted junction, a value out of range", () => {
+  it("keeps or makes again the solver's static findings and the connectivity findings after value edits: floating nodes, a shorted junction, a value out of range, a dangling node", () => {
     // Invented: a mirror, a resistor pair that reaches ground only through a capacitor (a floating group), a diode
-    // whose two ends are one node, and a resistor across the supply whose value the edits push out of range and back.
+    // whose two ends are one node, a resistor across the supply whose value the edits push out of range and back,
+    // and a resistor to a node nothing else reaches (the connectivity check's findings, kept across value edits).
     const text = `incremental static findings
 VCC vcc 0 DC 5
 .model QN NPN (IS=1e-15 BF=120 VAF=80)
@@ -238,6 +239,7 @@ RF1 f1 f2 1k
 RF2 f2 f3 1k
 CF f3 0 1u
 D1 x x DX
+RDANGLE x open 3.3k
 .end
 `;
     let session = incremental(text);
@@ -247,6 +249,8 @@ D1 x x DX
       ['RBIG vcc 0 100k', 'RBIG vcc 0 1e200'], // out of range
       ['RR vcc r 12.75k', 'RR vcc r 9k'], // the out-of-range finding moves
       ['RBIG vcc 0 1e200', 'RBIG vcc 0 100k'], // back in range
+      ['RDANGLE x open 3.3k', 'RDANGLE x open 3.35k'], // the card of the dangling node's finding
+      ['RF2 f2 f3 1k', 'RF2 f2 f3 1.5k'], // a resistor of the floating group
     ]) {
       current = current.replace(from, to);
       const next = incremental(current, session);
