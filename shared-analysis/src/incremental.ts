@@ -231,7 +231,8 @@ export function optionsKey(options: ResolvedOptions): string {
  * nominal solve `structuresAt` says which structures are analysed again.
  */
 export class ValueEdit {
-  private readonly kept = new Map<Structure, Finding[]>();
+  /** Per structure kept from the last analysis: its findings moved past the edit, and the first-pass snapshot it was copied from. */
+  private readonly kept = new Map<Structure, { findings: Finding[]; firstPass: Structure }>();
   /** The basis of the next state: the previous one with the moved unknowns refreshed. */
   basis: Float64Array;
   /** Per structure of `structuresAt`, recognition's form of it in the edited circuit. */
@@ -286,7 +287,7 @@ export class ValueEdit {
     return prev.structures.map((k, i) => {
       if (touched[i]) return copyStructure(this.pristine[i]);
       const s = copyStructure(k.firstPass);
-      this.kept.set(s, k.findings.map((f) => movedFinding(f, prev.uri, this.region)!));
+      this.kept.set(s, { findings: k.findings.map((f) => movedFinding(f, prev.uri, this.region)!), firstPass: k.firstPass });
       return s;
     });
   }
@@ -307,7 +308,12 @@ export class ValueEdit {
   }
 
   /** The findings of a structure kept from the last analysis (moved past the edit), or undefined for one analysed again. */
-  keptFindings = (s: Structure): Finding[] | undefined => this.kept.get(s);
+  keptFindings = (s: Structure): Finding[] | undefined => this.kept.get(s)?.findings;
+
+  /** The first-pass snapshot a kept structure was copied from (never written, so the next state shares it), or undefined for one analysed again. */
+  firstPassOf(s: Structure): Structure | undefined {
+    return this.kept.get(s)?.firstPass;
+  }
 
   /** The structures analysed again, named by their paths under `structures` (for the finiteness walk, which the kept ones passed). */
   analysedParts(structures: Structure[]): Record<string, unknown> {
@@ -490,7 +496,7 @@ export class IncrementalKeeper {
     for (let i = 0; i < structures.length; i++) {
       const findings = this.findings.get(structures[i]);
       if (!findings) return undefined;
-      kept.push({ pristine: this.edit ? this.edit.pristineOf(i) : this.pristine[i], firstPass: firstPassOf(structures[i]), findings });
+      kept.push({ pristine: this.edit ? this.edit.pristineOf(i) : this.pristine[i], firstPass: this.edit?.firstPassOf(structures[i]) ?? firstPassOf(structures[i]), findings });
     }
     return {
       uri: input.uri,
