@@ -44,15 +44,32 @@ const CUTOFF = 2;
 const ID = 0;
 const GM = 1;
 const GDS = 2;
+// Its input slots: the bias in the frame where VDS ≥ 0 and the instance's parameters. They travel in the
+// scratch array, not as arguments, because `jfetCore` is not inlined into the table's load and a double
+// passed to a call that is not inlined is boxed on the heap (about 220 bytes per device per Newton
+// iteration before, with the stamps' and the gate junctions' arguments).
+const IN_VGS = 3;
+const IN_VDS = 4;
+const IN_BETA = 5;
+const IN_VTO = 6;
+const IN_LAMBDA = 7;
+/** The equivalent current of the channel's companion model, which the stamps read. */
+const IEQ = 8;
+/** The own-polarity voltage of the gate junction `gateJunction` stamps. */
+const IN_VJ = 9;
+const SCRATCH = 10;
 
 /**
  * docs/DEVICE-MODELS.md channel equations for VDS ≥ 0: cutoff when VGS − VTO ≤ 0; saturation
  * (VDS ≥ VGS − VTO) ID = BETA·(VGS − VTO)²·(1 + LAMBDA·VDS); linear
- * ID = BETA·VDS·(2·(VGS − VTO) − VDS)·(1 + LAMBDA·VDS). Writes ID, gm, gds into `out` and
- * returns the region's index in REGIONS.
+ * ID = BETA·VDS·(2·(VGS − VTO) − VDS)·(1 + LAMBDA·VDS), at the bias and parameters in `out`'s
+ * input slots. Writes ID, gm, gds into `out` and returns the region's index in REGIONS.
  */
-function jfetCore(vgs: number, vds: number, beta: number, vto: number, lambda: number, out: Float64Array): number {
-  const vov = vgs - vto;
+function jfetCore(out: Float64Array): number {
+  const vds = out[IN_VDS];
+  const beta = out[IN_BETA];
+  const lambda = out[IN_LAMBDA];
+  const vov = out[IN_VGS] - out[IN_VTO];
   if (!(vov > 0)) {
     out[ID] = 0;
     out[GM] = 0;
@@ -76,8 +93,13 @@ function jfetCore(vgs: number, vds: number, beta: number, vto: number, lambda: n
 
 /** The channel equations at one bias (VDS ≥ 0 frame), for tests and hand checks; the table evaluates the same function in its loop. */
 export function evaluateJfetChannel(vgs: number, vds: number, p: JfetParams): JfetChannel {
-  const s = new Float64Array(3);
-  const region = jfetCore(vgs, vds, p.beta, p.vto, p.lambda, s);
+  const s = new Float64Array(SCRATCH);
+  s[IN_VGS] = vgs;
+  s[IN_VDS] = vds;
+  s[IN_BETA] = p.beta;
+  s[IN_VTO] = p.vto;
+  s[IN_LAMBDA] = p.lambda;
+  const region = jfetCore(s);
   return { id: s[ID], gm: s[GM], gds: s[GDS], region: REGIONS[region] };
 }
 
@@ -106,7 +128,8 @@ const NO_CLM = 1;
 export class JfetTable implements DeviceTable {
   readonly kind: DeviceKind = JFET;
   private readonly n: number;
-  private readonly sign: Float64Array;
+  /** +1 N-channel, −1 P-channel (integers, so passing one to a call boxes nothing). */
+  private readonly sign: Int8Array;
   private readonly betaNom: Float64Array;
   /** area·M: BETA of the card to BETA of the instance. */
   private readonly betaScale: Float64Array;
@@ -128,12 +151,12 @@ export class JfetTable implements DeviceTable {
   private readonly vdsOld: Float64Array;
   private readonly startVgs: Float64Array;
   private readonly startVds: Float64Array;
-  private readonly scratch = new Float64Array(3);
+  private readonly scratch = new Float64Array(SCRATCH);
 
   constructor(readonly instances: DeviceInstances<Jfet>, issues: ParamIssue[]) {
     const n = (this.n = instances.count);
     const col = (): Float64Array => new Float64Array(n);
-    this.sign = col();
+    this.sign = new Int8Array(n);
     this.betaNom = col();
     this.betaScale = col();
     this.vtoNom = col();
@@ -216,69 +239,141 @@ export class JfetTable implements DeviceTable {
     for (let i = 0; i < this.n; i++) {
       const s = this.sign[i];
       const vs = voltage(x, t[i * T + S]);
-      let vgs = s * (voltage(x, t[i * T + G]) - vs);
-      let vds = s * (voltage(x, t[i * T + D]) - vs);
-      const vto = this.vto[i];
+      ev[IN_VGS] = s * (voltage(x, t[i * T + G]) - vs);
+      ev[IN_VDS] = s * (voltage(x, t[i * T + D]) - vs);
       if (Number.isFinite(this.startVgs[i])) {
-        vgs = this.startVgs[i];
-        vds = this.startVds[i];
+        ev[IN_VGS] = this.startVgs[i];
+        ev[IN_VDS] = this.startVds[i];
         this.startVgs[i] = Number.NaN;
         tally.limited = true;
-      } else if (limit) {
-        const vdsIn = vds;
-        const vgsIn = vgs;
-        const nvt = this.nvt[i];
-        const vcrit = this.vcrit[i];
-        const vgdOld = this.vgsOld[i] - this.vdsOld[i];
-        if (vds >= 0) {
-          // Forward channel: the gate-source voltage steers the channel; both junctions are limited.
-          vgs = limitJunctionValue(limitTurnOff(vgs, this.vgsOld[i], vto), this.vgsOld[i], nvt, vcrit);
-          const vgd = vgs - vds;
-          const vgdLimited = limitJunctionValue(vgd, vgdOld, nvt, vcrit);
-          if (vgdLimited !== vgd) vds = vgs - vgdLimited;
-        } else {
-          // Swapped: the drain acts as source.
-          const vgdIn = vgs - vds;
-          const vgd = limitJunctionValue(limitTurnOff(vgdIn, vgdOld, vto), vgdOld, nvt, vcrit);
-          const vgsLimited = limitJunctionValue(vgd + vds, this.vgsOld[i], nvt, vcrit);
-          if (vgd !== vgdIn || vgsLimited !== vgs) {
-            vgs = vgsLimited;
-            vds = vgs - vgd;
-          }
-        }
-        if (vds !== vdsIn || vgs !== vgsIn) tally.limited = true;
-      }
+      } else if (limit && this.limitBias(i)) tally.limited = true;
+      const vgs = ev[IN_VGS];
+      const vds = ev[IN_VDS];
       this.vgsOld[i] = vgs;
       this.vdsOld[i] = vds;
-      const vgd = vgs - vds;
       const forward = vds >= 0;
-      const fvgs = forward ? vgs : vgd;
-      const fvds = forward ? vds : -vds;
-      jfetCore(fvgs, fvds, this.beta[i], vto, this.lambda[i], ev);
-      const id = ev[ID];
-      const gm = ev[GM];
-      const gds = ev[GDS];
-      const effD = forward ? D : S;
-      const effS = forward ? S : D;
-      const p = i * T * T;
-      // Channel: current id from effD to effS, linearised in (VG − VeffS) and (VeffD − VeffS).
-      const ieq = id - gm * fvgs - gds * fvds;
-      stampChannelRow(values, rhs, pos, p + effD * T, effS, effD, t[i * T + effD], gm, gds, s * ieq);
-      stampChannelRow(values, rhs, pos, p + effS * T, effS, effD, t[i * T + effS], -gm, -gds, -s * ieq);
+      if (!forward) this.swapFrame();
+      this.channel(i);
+      this.stamp(i, values, rhs, forward);
+      let finite = Number.isFinite(ev[ID]) && Number.isFinite(ev[GM]) && Number.isFinite(ev[GDS]);
       // Gate junctions: gate (anode) to source and to drain (cathodes).
-      let finite = Number.isFinite(id) && Number.isFinite(gm) && Number.isFinite(gds);
-      const is = this.is[i];
-      const nvt = this.nvt[i];
-      const kg = t[i * T + G];
-      if (!stampGateJunction(values, rhs, pos, p, S, kg, t[i * T + S], vgs, is, nvt, gmin, s)) finite = false;
-      if (!stampGateJunction(values, rhs, pos, p, D, kg, t[i * T + D], vgd, is, nvt, gmin, s)) finite = false;
+      ev[IN_VJ] = vgs;
+      if (!this.gateJunction(i, S, values, rhs)) finite = false;
+      ev[IN_VJ] = vgs - vds;
+      if (!this.gateJunction(i, D, values, rhs)) finite = false;
       // Robustness conductance across the channel (linear, so no equivalent current).
+      const p = i * T * T;
       add(values, pos[p + D * T + D], gmin);
       add(values, pos[p + D * T + S], -gmin);
       add(values, pos[p + S * T + D], -gmin);
       add(values, pos[p + S * T + S], gmin);
       if (!finite) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
+  }
+
+  /** Instance i's own-polarity bias at x into the scratch's input slots, in the frame where VDS ≥ 0; true when that is the netlist's (not swapped). */
+  private biasAt(x: Float64Array, i: number): boolean {
+    const ev = this.scratch;
+    ev[IN_VGS] = this.fromSource(x, i, G);
+    ev[IN_VDS] = this.fromSource(x, i, D);
+    const forward = ev[IN_VDS] >= 0;
+    if (!forward) this.swapFrame();
+    return forward;
+  }
+
+  /**
+   * Limits instance i's bias in the scratch's input slots against the last iteration's; true when it
+   * changed. Forward, the gate-source voltage steers the channel and both junctions are limited;
+   * swapped, the drain acts as source.
+   */
+  private limitBias(i: number): boolean {
+    const ev = this.scratch;
+    const vgsIn = ev[IN_VGS];
+    const vdsIn = ev[IN_VDS];
+    let vgs = vgsIn;
+    let vds = vdsIn;
+    const vto = this.vto[i];
+    const nvt = this.nvt[i];
+    const vcrit = this.vcrit[i];
+    const vgdOld = this.vgsOld[i] - this.vdsOld[i];
+    if (vds >= 0) {
+      vgs = limitJunctionValue(limitTurnOff(vgs, this.vgsOld[i], vto), this.vgsOld[i], nvt, vcrit);
+      const vgd = vgs - vds;
+      const vgdLimited = limitJunctionValue(vgd, vgdOld, nvt, vcrit);
+      if (vgdLimited !== vgd) vds = vgs - vgdLimited;
+    } else {
+      const vgdIn = vgs - vds;
+      const vgd = limitJunctionValue(limitTurnOff(vgdIn, vgdOld, vto), vgdOld, nvt, vcrit);
+      const vgsLimited = limitJunctionValue(vgd + vds, this.vgsOld[i], nvt, vcrit);
+      if (vgd !== vgdIn || vgsLimited !== vgs) {
+        vgs = vgsLimited;
+        vds = vgs - vgd;
+      }
+    }
+    ev[IN_VGS] = vgs;
+    ev[IN_VDS] = vds;
+    return vds !== vdsIn || vgs !== vgsIn;
+  }
+
+  /** The scratch's bias into the swapped frame, where the drain acts as source: VGS→VGD, VDS→−VDS. */
+  private swapFrame(): void {
+    const ev = this.scratch;
+    const vds = ev[IN_VDS];
+    ev[IN_VGS] = ev[IN_VGS] - vds;
+    ev[IN_VDS] = -vds;
+  }
+
+  /** `jfetCore` of instance i at the bias in the scratch's input slots; returns the region's index. */
+  private channel(i: number): number {
+    const ev = this.scratch;
+    ev[IN_BETA] = this.beta[i];
+    ev[IN_VTO] = this.vto[i];
+    ev[IN_LAMBDA] = this.lambda[i];
+    return jfetCore(ev);
+  }
+
+  /**
+   * Instance i's channel stamps for the evaluation in the scratch (frame bias in its input slots): current
+   * from the acting drain to the acting source, linearised in (VG − VeffS) and (VeffD − VeffS).
+   */
+  private stamp(i: number, values: Float64Array, rhs: Float64Array, forward: boolean): void {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const ev = this.scratch;
+    const s = this.sign[i];
+    ev[IEQ] = ev[ID] - ev[GM] * ev[IN_VGS] - ev[GDS] * ev[IN_VDS];
+    const effD = forward ? D : S;
+    const effS = forward ? S : D;
+    const p = i * T * T;
+    stampChannelRow(values, rhs, pos, p + effD * T, effS, effD, t[i * T + effD], ev, s, 1);
+    stampChannelRow(values, rhs, pos, p + effS * T, effS, effD, t[i * T + effS], ev, s, -1);
+  }
+
+  /**
+   * The junction from the gate (anode) of instance i to its terminal `k` (cathode) at the own-polarity
+   * voltage in the scratch's `IN_VJ`; false when its stamp is not finite.
+   */
+  private gateJunction(i: number, k: number, values: Float64Array, rhs: Float64Array): boolean {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const v = this.scratch[IN_VJ];
+    const is = this.is[i];
+    const nvt = this.nvt[i];
+    const gmin = this.gmin;
+    const xj = v / nvt;
+    const ij = is * (guardedExpValue(xj) - 1) + gmin * v;
+    const gj = (is * guardedExpSlope(xj)) / nvt + gmin;
+    const jeq = this.sign[i] * (ij - gj * v);
+    const p = i * T * T;
+    add(values, pos[p + G * T + G], gj);
+    add(values, pos[p + G * T + k], -gj);
+    add(values, pos[p + k * T + G], -gj);
+    add(values, pos[p + k * T + k], gj);
+    const kg = t[i * T + G];
+    const kk = t[i * T + k];
+    if (kg >= 0) rhs[kg] -= jeq;
+    if (kk >= 0) rhs[kk] += jeq;
+    return Number.isFinite(gj) && Number.isFinite(jeq);
   }
 
   /** V(terminal) − V(source) of instance i in its channel's own polarity (an N-channel's sense). */
@@ -297,8 +392,8 @@ export class JfetTable implements DeviceTable {
       const vgs = this.fromSource(x, i, G);
       const vds = this.fromSource(x, i, D);
       const vgd = vgs - vds;
-      const forward = vds >= 0;
-      const region = forward ? jfetCore(vgs, vds, this.beta[i], this.vto[i], this.lambda[i], ev) : jfetCore(vgd, -vds, this.beta[i], this.vto[i], this.lambda[i], ev);
+      const forward = this.biasAt(x, i);
+      const region = this.channel(i);
       const ich = forward ? ev[ID] : -ev[ID];
       const is = this.is[i];
       const nvt = this.nvt[i];
@@ -348,16 +443,14 @@ export class JfetTable implements DeviceTable {
       const vgs = this.fromSource(x, i, G);
       const vds = this.fromSource(x, i, D);
       const vgd = vgs - vds;
-      const forward = vds >= 0;
       const beta = this.beta[i];
-      const vto = this.vto[i];
-      const lambda = this.lambda[i];
       // The channel per unit of BETA(T), then at BETA(T); swapped, the drain acts as source.
-      if (forward) jfetCore(vgs, vds, 1, vto, lambda, ev);
-      else jfetCore(vgd, -vds, 1, vto, lambda, ev);
+      const forward = this.biasAt(x, i);
+      this.channel(i);
+      ev[IN_BETA] = 1;
+      jfetCore(ev);
       const perBeta = forward ? ev[ID] : -ev[ID];
-      if (forward) jfetCore(vgs, vds, beta, vto, lambda, ev);
-      else jfetCore(vgd, -vds, beta, vto, lambda, ev);
+      this.channel(i);
       const ich = forward ? ev[ID] : -ev[ID];
       const byVgs = forward ? ev[GM] : -ev[GM];
       const byVds = forward ? ev[GDS] : ev[GM] + ev[GDS];
@@ -410,28 +503,18 @@ function setVoltagePartials(w: Float64Array, row: number, term: number, byVgs: n
   w[q + S] = -byVgs - byVds;
 }
 
-/** One channel row (effective drain or source): gm to (G, effS), gds to (effD, effS), and the equivalent current on unknown `k`; values carry the row's sign. */
-function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, effD: number, k: number, gm: number, gds: number, ieq: number): void {
+/**
+ * One channel row (the acting drain, r = 1, or the acting source, r = −1) for the evaluation in `ev`:
+ * r·gm to (G, effS), r·gds to (effD, effS), and the equivalent current s·r·ieq on unknown `k`.
+ */
+function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, effD: number, k: number, ev: Float64Array, s: number, r: number): void {
+  const gm = r * ev[GM];
+  const gds = r * ev[GDS];
   add(values, pos[row + G], gm);
   add(values, pos[row + effS], -gm);
   add(values, pos[row + effD], gds);
   add(values, pos[row + effS], -gds);
-  if (k >= 0) rhs[k] -= ieq;
-}
-
-/** The junction from the gate (anode) to terminal `k` (cathode) at own-polarity voltage v; false when its stamp is not finite. */
-function stampGateJunction(values: Float64Array, rhs: Float64Array, pos: Int32Array, p: number, k: number, kg: number, kk: number, v: number, is: number, nvt: number, gmin: number, s: number): boolean {
-  const xj = v / nvt;
-  const ij = is * (guardedExpValue(xj) - 1) + gmin * v;
-  const gj = (is * guardedExpSlope(xj)) / nvt + gmin;
-  const jeq = s * (ij - gj * v);
-  add(values, pos[p + G * T + G], gj);
-  add(values, pos[p + G * T + k], -gj);
-  add(values, pos[p + k * T + G], -gj);
-  add(values, pos[p + k * T + k], gj);
-  if (kg >= 0) rhs[kg] -= jeq;
-  if (kk >= 0) rhs[kk] += jeq;
-  return Number.isFinite(gj) && Number.isFinite(jeq);
+  if (k >= 0) rhs[k] -= s * r * ev[IEQ];
 }
 
 /**

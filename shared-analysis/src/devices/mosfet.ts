@@ -57,17 +57,39 @@ const GDS = 2;
 const GMBS = 3;
 const VTH = 4;
 const VOV = 5;
+// Its input slots: the bias in the frame where VDS ≥ 0 and the instance's parameters. They travel in the
+// scratch array, not as arguments, because `mosCore` is not inlined into the table's load and a double
+// passed to a call that is not inlined is boxed on the heap (about 130 bytes per device per Newton
+// iteration before, with the threshold and the stamps' arguments).
+const IN_VGS = 6;
+const IN_VDS = 7;
+const IN_VBS = 8;
+const IN_BETA = 9;
+const IN_VTO = 10;
+const IN_LAMBDA = 11;
+const IN_GAMMA = 12;
+const IN_PHI = 13;
+/** The equivalent current of the companion model, which the stamps read. */
+const IEQ = 14;
+const SCRATCH = 15;
 
 /**
  * docs/DEVICE-MODELS.md level-1 equations for VDS ≥ 0: VTH = VTO + GAMMA·(√(PHI − VBS) − √PHI);
  * saturation (VDS ≥ VGS − VTH > 0) ID = β/2·(VGS − VTH)²·(1 + LAMBDA·VDS);
- * triode ID = β·((VGS − VTH)·VDS − VDS²/2)·(1 + LAMBDA·VDS); cutoff ID = 0. Writes the
- * slots above into `out` and returns the region's index in REGIONS.
+ * triode ID = β·((VGS − VTH)·VDS − VDS²/2)·(1 + LAMBDA·VDS); cutoff ID = 0, at the bias and
+ * parameters in `out`'s input slots. Writes the result slots into `out` and returns the region's
+ * index in REGIONS.
  */
-function mosCore(vgs: number, vds: number, vbs: number, beta: number, vto: number, lambda: number, gamma: number, phi: number, out: Float64Array): number {
-  const arg = phi - vbs;
+function mosCore(out: Float64Array): number {
+  const vgs = out[IN_VGS];
+  const vds = out[IN_VDS];
+  const beta = out[IN_BETA];
+  const lambda = out[IN_LAMBDA];
+  const gamma = out[IN_GAMMA];
+  const phi = out[IN_PHI];
+  const arg = phi - out[IN_VBS];
   const root = Math.sqrt(Math.max(arg, SQRT_ARG_FLOOR));
-  const vth = vto + gamma * (root - Math.sqrt(phi));
+  const vth = out[IN_VTO] + gamma * (root - Math.sqrt(phi));
   // ∂ID/∂VBS = ∂ID/∂VOV · GAMMA/(2√(PHI − VBS)); zero where the root is held constant.
   const bodyFactor = arg > SQRT_ARG_FLOOR ? gamma / (2 * root) : 0;
   const vov = vgs - vth;
@@ -101,8 +123,16 @@ function mosCore(vgs: number, vds: number, vbs: number, beta: number, vto: numbe
 
 /** The level-1 equations at one bias (VDS ≥ 0 frame), for tests and hand checks; the table evaluates the same function in its loop. */
 export function evaluateMos(vgs: number, vds: number, vbs: number, p: MosParams): MosEvaluation {
-  const s = new Float64Array(6);
-  const region = mosCore(vgs, vds, vbs, p.beta, p.vto, p.lambda, p.gamma, p.phi, s);
+  const s = new Float64Array(SCRATCH);
+  s[IN_VGS] = vgs;
+  s[IN_VDS] = vds;
+  s[IN_VBS] = vbs;
+  s[IN_BETA] = p.beta;
+  s[IN_VTO] = p.vto;
+  s[IN_LAMBDA] = p.lambda;
+  s[IN_GAMMA] = p.gamma;
+  s[IN_PHI] = p.phi;
+  const region = mosCore(s);
   return { id: s[ID], gm: s[GM], gds: s[GDS], gmbs: s[GMBS], vth: s[VTH], vov: s[VOV], region: REGIONS[region] };
 }
 
@@ -132,7 +162,8 @@ const NO_CLM = 1;
 export class MosfetTable implements DeviceTable {
   readonly kind: DeviceKind = MOSFET;
   private readonly n: number;
-  private readonly sign: Float64Array;
+  /** +1 N-channel, −1 P-channel (integers, so passing one to a call boxes nothing). */
+  private readonly sign: Int8Array;
   /** KP·W/L·M and own-polarity VTO at Tnom, with their temperature coefficients. */
   private readonly betaNom: Float64Array;
   private readonly vtoNom: Float64Array;
@@ -154,12 +185,12 @@ export class MosfetTable implements DeviceTable {
   /** Gate and channel voltages the next load linearises at (NaN when none is pending). */
   private readonly startVgs: Float64Array;
   private readonly startVds: Float64Array;
-  private readonly scratch = new Float64Array(6);
+  private readonly scratch = new Float64Array(SCRATCH);
 
   constructor(readonly instances: DeviceInstances<Mosfet>, issues: ParamIssue[]) {
     const n = (this.n = instances.count);
     const col = (): Float64Array => new Float64Array(n);
-    this.sign = col();
+    this.sign = new Int8Array(n);
     this.betaNom = col();
     this.vtoNom = col();
     this.bex = col();
@@ -246,57 +277,108 @@ export class MosfetTable implements DeviceTable {
     for (let i = 0; i < this.n; i++) {
       const s = this.sign[i];
       const vs = voltage(x, t[i * T + S]);
-      let vgs = s * (voltage(x, t[i * T + G]) - vs);
-      let vds = s * (voltage(x, t[i * T + D]) - vs);
-      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
+      ev[IN_VGS] = s * (voltage(x, t[i * T + G]) - vs);
+      ev[IN_VDS] = s * (voltage(x, t[i * T + D]) - vs);
+      ev[IN_VBS] = s * (voltage(x, t[i * T + BULK]) - vs);
       if (Number.isFinite(this.startVgs[i])) {
-        vgs = this.startVgs[i];
-        vds = this.startVds[i];
+        ev[IN_VGS] = this.startVgs[i];
+        ev[IN_VDS] = this.startVds[i];
         this.startVgs[i] = Number.NaN;
         tally.limited = true;
-      } else if (limit) {
-        // Channel first, then the gate of whichever end acts as source after the step.
-        const vdsIn = vds;
-        vds = limitChannelValue(vds, this.vdsOld[i]);
-        let gateLimited: boolean;
-        if (vds >= 0) {
-          const g = limitGateValue(vgs, this.vgsOld[i], this.thresholdAt(i, vbs));
-          gateLimited = g !== vgs;
-          vgs = g;
-        } else {
-          // Swapped: the drain acts as source, so limit VGD and rebuild VGS from it.
-          const vgd = vgs - vds;
-          const g = limitGateValue(vgd, this.vgsOld[i] - this.vdsOld[i], this.thresholdAt(i, vbs - vds));
-          gateLimited = g !== vgd;
-          vgs = g + vds;
-        }
-        if (vds !== vdsIn || gateLimited) tally.limited = true;
-      }
-      this.vgsOld[i] = vgs;
-      this.vdsOld[i] = vds;
-      const forward = vds >= 0;
+      } else if (limit && this.limitBias(i)) tally.limited = true;
+      this.vgsOld[i] = ev[IN_VGS];
+      this.vdsOld[i] = ev[IN_VDS];
+      const forward = ev[IN_VDS] >= 0;
       // In the swapped frame the drain terminal acts as source: VGS→VGD, VDS→−VDS, VBS→VBD.
-      const fvgs = forward ? vgs : vgs - vds;
-      const fvds = forward ? vds : -vds;
-      const fvbs = forward ? vbs : vbs - vds;
-      mosCore(fvgs, fvds, fvbs, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev);
-      const id = ev[ID];
-      const gm = ev[GM];
-      const gds = ev[GDS];
-      const gmbs = ev[GMBS];
-      const effD = forward ? D : S;
-      const effS = forward ? S : D;
-      const p = i * T * T;
-      const ieq = id - gm * fvgs - gds * fvds - gmbs * fvbs;
-      stampChannelRow(values, rhs, pos, p + effD * T, effS, t[i * T + effD], gm, gds, gmbs, effD, s * 1 * ieq);
-      stampChannelRow(values, rhs, pos, p + effS * T, effS, t[i * T + effS], -gm, -gds, -gmbs, effD, s * -1 * ieq);
+      if (!forward) this.swapFrame();
+      this.channel(i);
+      this.stamp(i, values, rhs, forward);
       // Robustness conductance across the channel (linear, so no equivalent current).
+      const p = i * T * T;
       add(values, pos[p + D * T + D], gmin);
       add(values, pos[p + D * T + S], -gmin);
       add(values, pos[p + S * T + D], -gmin);
       add(values, pos[p + S * T + S], gmin);
-      if (!(Number.isFinite(id) && Number.isFinite(gm) && Number.isFinite(gds) && Number.isFinite(gmbs))) tally.nonFinite.push(this.instances.elementIndex[i]);
+      if (!(Number.isFinite(ev[ID]) && Number.isFinite(ev[GM]) && Number.isFinite(ev[GDS]) && Number.isFinite(ev[GMBS]))) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
+  }
+
+  /** Instance i's own-polarity bias at x into the scratch's input slots, in the frame where VDS ≥ 0; true when that is the netlist's (not swapped). */
+  private biasAt(x: Float64Array, i: number): boolean {
+    const t = this.instances.terminals;
+    const ev = this.scratch;
+    const s = this.sign[i];
+    const vs = voltage(x, t[i * T + S]);
+    ev[IN_VGS] = s * (voltage(x, t[i * T + G]) - vs);
+    ev[IN_VDS] = s * (voltage(x, t[i * T + D]) - vs);
+    ev[IN_VBS] = s * (voltage(x, t[i * T + BULK]) - vs);
+    const forward = ev[IN_VDS] >= 0;
+    if (!forward) this.swapFrame();
+    return forward;
+  }
+
+  /**
+   * Limits instance i's bias in the scratch's input slots against the last iteration's: the channel
+   * first, then the gate of whichever end acts as source after the step. True when it changed.
+   */
+  private limitBias(i: number): boolean {
+    const ev = this.scratch;
+    const vgs = ev[IN_VGS];
+    const vbs = ev[IN_VBS];
+    const vdsIn = ev[IN_VDS];
+    const vds = limitChannelValue(vdsIn, this.vdsOld[i]);
+    let gateLimited: boolean;
+    if (vds >= 0) {
+      const g = limitGateValue(vgs, this.vgsOld[i], this.thresholdAt(i, vbs));
+      gateLimited = g !== vgs;
+      ev[IN_VGS] = g;
+    } else {
+      // Swapped: the drain acts as source, so limit VGD and rebuild VGS from it.
+      const vgd = vgs - vds;
+      const g = limitGateValue(vgd, this.vgsOld[i] - this.vdsOld[i], this.thresholdAt(i, vbs - vds));
+      gateLimited = g !== vgd;
+      ev[IN_VGS] = g + vds;
+    }
+    ev[IN_VDS] = vds;
+    return vds !== vdsIn || gateLimited;
+  }
+
+  /** The scratch's bias into the swapped frame, where the drain acts as source: VGS→VGD, VDS→−VDS, VBS→VBD. */
+  private swapFrame(): void {
+    const ev = this.scratch;
+    const vds = ev[IN_VDS];
+    ev[IN_VGS] = ev[IN_VGS] - vds;
+    ev[IN_VDS] = -vds;
+    ev[IN_VBS] = ev[IN_VBS] - vds;
+  }
+
+  /** `mosCore` of instance i at the bias in the scratch's input slots; returns the region's index. */
+  private channel(i: number): number {
+    const ev = this.scratch;
+    ev[IN_BETA] = this.beta[i];
+    ev[IN_VTO] = this.vto[i];
+    ev[IN_LAMBDA] = this.lambda[i];
+    ev[IN_GAMMA] = this.gamma[i];
+    ev[IN_PHI] = this.phi[i];
+    return mosCore(ev);
+  }
+
+  /**
+   * Instance i's channel stamps for the evaluation in the scratch (frame bias in its input slots):
+   * the acting drain's row, then the acting source's with the opposite sign. Indices and arrays only
+   * for arguments (see `IN_VGS`).
+   */
+  private stamp(i: number, values: Float64Array, rhs: Float64Array, forward: boolean): void {
+    const t = this.instances.terminals;
+    const pos = this.instances.positions;
+    const ev = this.scratch;
+    const s = this.sign[i];
+    ev[IEQ] = ev[ID] - ev[GM] * ev[IN_VGS] - ev[GDS] * ev[IN_VDS] - ev[GMBS] * ev[IN_VBS];
+    const effD = forward ? D : S;
+    const effS = forward ? S : D;
+    const p = i * T * T;
+    stampChannelRow(values, rhs, pos, p + effD * T, effS, t[i * T + effD], effD, ev, s, 1);
+    stampChannelRow(values, rhs, pos, p + effS * T, effS, t[i * T + effS], effD, ev, s, -1);
   }
 
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
@@ -309,11 +391,8 @@ export class MosfetTable implements DeviceTable {
       const vs = voltage(x, t[i * T + S]);
       const vgs = s * (voltage(x, t[i * T + G]) - vs);
       const vds = s * (voltage(x, t[i * T + D]) - vs);
-      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
-      const forward = vds >= 0;
-      const region = forward
-        ? mosCore(vgs, vds, vbs, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev)
-        : mosCore(vgs - vds, -vds, vbs - vds, this.beta[i], this.vto[i], this.lambda[i], this.gamma[i], this.phi[i], ev);
+      const forward = this.biasAt(x, i);
+      const region = this.channel(i);
       const idOwn = forward ? ev[ID] : -ev[ID];
       const gds = ev[GDS];
       v[Q_ID][i] = s * idOwn + this.gmin * s * vds;
@@ -354,14 +433,12 @@ export class MosfetTable implements DeviceTable {
     for (let i = 0; i < n; i++) {
       const s = this.sign[i];
       const vs = voltage(x, t[i * T + S]);
-      const vgs = s * (voltage(x, t[i * T + G]) - vs);
       const vds = s * (voltage(x, t[i * T + D]) - vs);
-      const vbs = s * (voltage(x, t[i * T + BULK]) - vs);
-      const forward = vds >= 0;
+      const forward = this.biasAt(x, i);
       const fvds = forward ? vds : -vds;
       const beta = this.beta[i];
       const lambda = this.lambda[i];
-      const region = forward ? mosCore(vgs, vds, vbs, beta, this.vto[i], lambda, this.gamma[i], this.phi[i], ev) : mosCore(vgs - vds, -vds, vbs - vds, beta, this.vto[i], lambda, this.gamma[i], this.phi[i], ev);
+      const region = this.channel(i);
       const gm = ev[GM];
       const gds = ev[GDS];
       const gmbs = ev[GMBS];
@@ -414,18 +491,21 @@ export class MosfetTable implements DeviceTable {
 }
 
 /**
- * One channel row (the effective drain or source) of the companion model: gm to (G, effS),
- * gds to (effD, effS), gmbs to (BULK, effS), and the equivalent current on unknown `k`.
- * `row` is the slot offset of the row; `gm`, `gds`, `gmbs` and `ieq` carry the row's sign.
+ * One channel row (the acting drain, r = 1, or the acting source, r = −1) of the companion model for
+ * the evaluation in `ev`: r·gm to (G, effS), r·gds to (effD, effS), r·gmbs to (BULK, effS), and the
+ * equivalent current s·r·ieq on unknown `k`.
  */
-function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, k: number, gm: number, gds: number, gmbs: number, effD: number, ieq: number): void {
+function stampChannelRow(values: Float64Array, rhs: Float64Array, pos: Int32Array, row: number, effS: number, k: number, effD: number, ev: Float64Array, s: number, r: number): void {
+  const gm = r * ev[GM];
+  const gds = r * ev[GDS];
+  const gmbs = r * ev[GMBS];
   add(values, pos[row + G], gm);
   add(values, pos[row + effS], -gm);
   add(values, pos[row + effD], gds);
   add(values, pos[row + effS], -gds);
   add(values, pos[row + BULK], gmbs);
   add(values, pos[row + effS], -gmbs);
-  if (k >= 0) rhs[k] -= ieq;
+  if (k >= 0) rhs[k] -= s * r * ev[IEQ];
 }
 
 function voltage(x: Float64Array, k: number): number {

@@ -59,7 +59,7 @@ export class NewtonEngine {
   private readonly rowScale: Float64Array;
   private readonly colScale: Float64Array;
   private readonly scaledRhs: Float64Array;
-  /** Each row's largest |entry| at the last `measureRows`, what the equilibration's row scales come from. */
+  /** Each row's largest |entry| at the last `measureRowMax`, what the equilibration's row scales come from. */
   private readonly rowMax: Float64Array;
   private readonly residual: Float64Array;
   private readonly residualScale: Float64Array;
@@ -136,13 +136,13 @@ export class NewtonEngine {
   private equilibrate(): void {
     const { values, rowMax, rowScale, colScale } = this;
     const { rows, cols } = this.layout.pattern;
-    for (let k = 0; k < rowScale.length; k++) rowScale[k] = powerOfTwoInverse(rowMax[k]);
+    powerOfTwoInverses(rowMax, rowScale);
     colScale.fill(0);
     for (let e = 0; e < rows.length; e++) {
       const a = Math.abs(values[e] * rowScale[rows[e]]);
       if (a > colScale[cols[e]]) colScale[cols[e]] = a;
     }
-    for (let k = 0; k < colScale.length; k++) colScale[k] = powerOfTwoInverse(colScale[k]);
+    powerOfTwoInverses(colScale, colScale);
     this.scaledCurrent = false;
   }
 
@@ -165,27 +165,65 @@ export class NewtonEngine {
   /** Whether `scaled` holds the matrix of the last equilibration. */
   private scaledCurrent = false;
 
-  /**
-   * One pass over the assembled matrix: each row's largest |entry| (for `equilibrate`) and, at x, the
-   * product A·x and each row's largest |term| (for the convergence test). The two used to be separate
-   * passes over every entry; both only read the matrix and x.
-   */
-  private measureRows(x: Float64Array): void {
-    const { values, rowMax, residual, residualScale } = this;
-    const { rows, cols } = this.layout.pattern;
+  /** Each row's largest |entry| of the assembled matrix, for `equilibrate`. */
+  private measureRowMax(): void {
+    const { values, rowMax } = this;
+    const rows = this.layout.pattern.rows;
     rowMax.fill(0);
+    for (let e = 0; e < rows.length; e++) {
+      const a = Math.abs(values[e]);
+      if (a > rowMax[rows[e]]) rowMax[rows[e]] = a;
+    }
+  }
+
+  /**
+   * The product A·x of the assembled matrix and each row's largest |term|, for the convergence test's
+   * residual. Only an iteration that may converge (or the last allowed one, which names what did not
+   * settle) needs it, so it is a pass of its own rather than part of every iteration's `measureRowMax`.
+   */
+  private measureResidual(x: Float64Array): void {
+    const { values, residual, residualScale } = this;
+    const { rows, cols } = this.layout.pattern;
     residual.fill(0);
     residualScale.fill(0);
     for (let e = 0; e < rows.length; e++) {
-      const v = values[e];
       const r = rows[e];
-      const a = Math.abs(v);
-      if (a > rowMax[r]) rowMax[r] = a;
-      const term = v * x[cols[e]];
+      const term = values[e] * x[cols[e]];
       residual[r] += term;
       const t = Math.abs(term);
       if (t > residualScale[r]) residualScale[r] = t;
     }
+  }
+
+  /** Whether unknown k's update from x to the new iterate is within TOLERANCES. */
+  private updateSettled(x: Float64Array, k: number): boolean {
+    const { reltol, vntol, abstol } = TOLERANCES;
+    const next = this.xNew[k];
+    const floor = this.isVoltage[k] ? vntol : abstol;
+    return Math.abs(next - x[k]) <= reltol * Math.max(Math.abs(next), Math.abs(x[k])) + floor;
+  }
+
+  /** Whether row k's residual (of the last `measureResidual`) is within TOLERANCES: branch rows are voltage equations, node rows KCL (amperes). */
+  private residualSettled(k: number): boolean {
+    const { reltol, vntol, abstol } = TOLERANCES;
+    const b = this.rhs[k];
+    const floor = this.isVoltage[k] ? abstol : vntol;
+    return Math.abs(this.residual[k] - b) <= reltol * Math.max(this.residualScale[k], Math.abs(b)) + floor;
+  }
+
+  /** Whether every update settled and then, with the residual measured at x, every row: the convergence test of an unlimited iteration. */
+  private settled(x: Float64Array): boolean {
+    const n = x.length;
+    for (let k = 0; k < n; k++) if (!this.updateSettled(x, k)) return false;
+    this.measureResidual(x);
+    for (let k = 0; k < n; k++) if (!this.residualSettled(k)) return false;
+    return true;
+  }
+
+  /** The unknowns whose update or row residual at x is not within TOLERANCES, ascending, into `into`. */
+  private collectUnsettled(x: Float64Array, into: number[]): void {
+    this.measureResidual(x);
+    for (let k = 0; k < x.length; k++) if (!this.updateSettled(x, k) || !this.residualSettled(k)) into.push(k);
   }
 
   /** Solves A·x = rhs with the equilibrated factors: x = C·(RAC)⁻¹·R·rhs. */
@@ -211,7 +249,7 @@ export class NewtonEngine {
     tally.nonFinite.length = 0;
     for (const t of layout.tables) t.load(x, values, rhs, false, tally);
     if (tally.nonFinite.length > 0) return false;
-    this.measureRows(x);
+    this.measureRowMax();
     this.equilibrate();
     const f = this.factorEquilibrated();
     this.factorizations++;
@@ -282,16 +320,13 @@ export class NewtonEngine {
     const linear = layout.tables.length === 0;
     let factored = false;
     const unsettled: number[] = [];
-    const rowScale = this.residualScale;
-    const residual = this.residual;
     for (let it = 1; it <= run.maxIterations; it++) {
       if (this.shouldStop?.()) throw new SolveStopped();
       const { limited, nonFinite } = this.assemble(x, run);
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: [...nonFinite] };
-      // Residual F(x) = A(x)·x − b(x), the exact KCL/branch residual at x when nothing was limited, with the row maxima.
-      this.measureRows(x);
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
+        this.measureRowMax();
         this.equilibrate();
         const f = this.factorEquilibrated();
         this.factorizations++;
@@ -303,32 +338,22 @@ export class NewtonEngine {
       for (let k = 0; k < n; k++) if (!Number.isFinite(xNew[k])) finite = false;
       if (!finite) return { status: 'non-finite', iterations: it, culprits: [] };
 
-      const { reltol, vntol, abstol } = TOLERANCES;
-      // Indices are kept only on the last allowed iteration (for the finding); earlier ones just count.
-      const keep = it === run.maxIterations;
-      let unsettledCount = 0;
-      for (let k = 0; k < n; k++) {
-        const floor = this.isVoltage[k] ? vntol : abstol;
-        const d = Math.abs(xNew[k] - x[k]);
-        const settledUpdate = d <= reltol * Math.max(Math.abs(xNew[k]), Math.abs(x[k])) + floor;
-        // Branch rows are voltage equations; node rows are KCL (amperes).
-        const resFloor = this.isVoltage[k] ? abstol : vntol;
-        const r = Math.abs(residual[k] - rhs[k]);
-        const settledResidual = r <= reltol * Math.max(rowScale[k], Math.abs(rhs[k])) + resFloor;
-        if (!settledUpdate || !settledResidual) {
-          unsettledCount++;
-          if (keep) unsettled.push(k);
-        }
-      }
+      // Convergence needs an unlimited iteration whose every update is settled and whose residual
+      // F(x) = A(x)·x − b(x) (the exact KCL/branch residual at x when nothing was limited) is small in
+      // every row. The unsettled unknowns are listed only on the last allowed iteration (for the finding).
+      let converged: boolean;
+      if (it === run.maxIterations) {
+        this.collectUnsettled(x, unsettled);
+        converged = !limited && unsettled.length === 0;
+      } else converged = !limited && this.settled(x);
       x.set(xNew);
       this.lastFinite.set(xNew);
-      if (!limited && unsettledCount === 0) return { status: 'converged', iterations: it };
+      if (converged) return { status: 'converged', iterations: it };
     }
     return { status: 'iteration-limit', iterations: run.maxIterations, unsettled };
   }
 }
 
-/** 2^−round(log2 a) for a finite positive a, else 1: a scale that maps a to [0.71, 1.41) without rounding error. */
 const bits = new Float64Array(1);
 const words = new Uint32Array(bits.buffer);
 /** Which 32-bit word of a double holds its sign and exponent (the high word; index 1 on little-endian machines). */
@@ -340,26 +365,60 @@ const HIGH = (() => {
 const SQRT2_LOW = Math.SQRT2 * (1 - 1e-12);
 const SQRT2_HIGH = Math.SQRT2 * (1 + 1e-12);
 
+const one = new Float64Array(1);
+
+/** 2^−round(log2 a) for a finite positive a, else 1: a scale that maps a to [0.71, 1.41) without rounding error. */
 export function powerOfTwoInverse(a: number): number {
-  if (!(a > 0) || !Number.isFinite(a)) return 1;
-  // Fast path for normal numbers: round(log2 a) read from the exponent bits (one up when the
-  // mantissa is at least √2), and 2^−e written as bits. Exactly Math.round(Math.log2(a)) away
-  // from the √2 boundary; at it and for subnormals the library functions decide.
+  one[0] = a;
+  powerOfTwoInverses(one, one);
+  return one[0];
+}
+
+/** The high and low 32-bit words of a double (high: sign, exponent and the mantissa's top 20 bits). */
+function wordsOfDouble(a: number): [number, number] {
   bits[0] = a;
-  const biased = (words[HIGH] >>> 20) & 0x7ff;
-  if (biased > 0) {
-    let e = biased - 1023;
-    words[HIGH] = (words[HIGH] & 0x000fffff) | 0x3ff00000;
-    const m = bits[0];
-    if (m < SQRT2_LOW || m > SQRT2_HIGH) {
-      if (m > SQRT2_HIGH) e++;
-      e = Math.max(-1000, Math.min(1000, e));
-      words[HIGH] = (1023 - e) << 20;
-      words[1 - HIGH] = 0;
-      return bits[0];
+  return [words[HIGH], words[1 - HIGH]];
+}
+/** The mantissa words of the band's limits, to compare a mantissa with them as integers. */
+const [BAND_LOW_HIGH, BAND_LOW_LOW] = wordsOfDouble(SQRT2_LOW);
+const [BAND_HIGH_HIGH, BAND_HIGH_LOW] = wordsOfDouble(SQRT2_HIGH);
+
+/**
+ * `powerOfTwoInverse` of every entry of `from`, into `to` (of the same length; it may be `from`), read
+ * and written as 32-bit words through views of the two arrays: one loop with no call and no store of a
+ * double to read back as words, once per row and column of every Newton iteration. A positive normal
+ * number's round(log2 a) is its exponent, one up when its mantissa is at least √2, and 2^−e is written
+ * as bits: exactly Math.round(Math.log2(a)) away from the √2 boundary. At it, for subnormals and for
+ * what is not a positive finite number, `libraryScale` decides.
+ */
+export function powerOfTwoInverses(from: Float64Array, to: Float64Array): void {
+  const src = new Uint32Array(from.buffer, from.byteOffset, 2 * from.length);
+  const dst = new Uint32Array(to.buffer, to.byteOffset, 2 * to.length);
+  const LOW = 1 - HIGH;
+  for (let k = 0; k < from.length; k++) {
+    const high = src[2 * k + HIGH];
+    const low = src[2 * k + LOW];
+    const biased = (high >>> 20) & 0x7ff;
+    // Sign bit clear, exponent neither zero (subnormal) nor all ones (infinite or NaN).
+    if (high >>> 31 === 0 && biased > 0 && biased < 0x7ff) {
+      // The mantissa 1.f against the band [SQRT2_LOW, SQRT2_HIGH], compared as the integer f (high word first).
+      const f = high & 0x000fffff;
+      const below = f < (BAND_LOW_HIGH & 0x000fffff) || (f === (BAND_LOW_HIGH & 0x000fffff) && low < BAND_LOW_LOW);
+      const above = f > (BAND_HIGH_HIGH & 0x000fffff) || (f === (BAND_HIGH_HIGH & 0x000fffff) && low > BAND_HIGH_LOW);
+      if (below || above) {
+        const e = Math.max(-1000, Math.min(1000, above ? biased - 1022 : biased - 1023));
+        dst[2 * k + HIGH] = (1023 - e) << 20;
+        dst[2 * k + LOW] = 0;
+        continue;
+      }
     }
+    to[k] = libraryScale(from[k]);
   }
+}
+
+/** 2^−round(log2 a) by the library functions, clamped so the scale stays a normal double; 1 for what is not a positive finite number. */
+function libraryScale(a: number): number {
+  if (!(a > 0) || !Number.isFinite(a)) return 1;
   const e = Math.round(Math.log2(a));
-  // Clamp so the scale itself stays a normal double.
   return Math.pow(2, -Math.max(-1000, Math.min(1000, e)));
 }
