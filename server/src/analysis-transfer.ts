@@ -1,7 +1,7 @@
 // Splits an Analysis into a small header and parts so the main thread can take it in slices, answering editor requests between slices.
 
 import type { Analysis } from '../../shared-analysis/src/analysis';
-import type { Circuit, Element } from '../../shared-analysis/src/circuit';
+import type { Circuit, Element, Origin } from '../../shared-analysis/src/circuit';
 import type { Card, ParsedDocument, Token } from '../../shared-analysis/src/syntax/ast';
 import type { DeviceRecord, OperatingPoint } from '../../shared-analysis/src/solve/types';
 import { pointVectors } from '../../shared-analysis/src/solve/point';
@@ -13,6 +13,11 @@ import { nameTable } from '../../shared-analysis/src/names';
 const PART_SIZE = 400;
 /** Node entries per part: a name and a number each, so more fit in the same few milliseconds (4,000 took 47 ms to merge at load 12). */
 const NODE_PART_SIZE = 1000;
+/**
+ * A sender keeps the elements it sent of a circuit up to this size (about 600 bytes an element, 15 MB at
+ * the most), to send only the changed ones next time; a larger circuit's elements all travel.
+ */
+const KEEP_ELEMENTS_UP_TO = 25_000;
 /**
  * Structures per part: a structure carries its hand-analysis steps (about 2 KB each as JSON), and 400 of
  * them took 120 ms to deserialise on the main thread at load 10 (the 20k array has 5,000).
@@ -35,8 +40,13 @@ export type AnalysisPart =
    * that each has the held card's span in the text the edit left alone (see `howCardsTravel`).
    */
   | { kind: 'cards-kept'; uri: string; start: number; count: number; moved: number; delta: number }
-  /** Elements as JSON text, models replaced by their key into `circuit.models` and non-finite numbers spelled out. */
-  | { kind: 'elements'; json: string }
+  /**
+   * Elements as JSON text: each an element, its model replaced by its key into `circuit.models` and
+   * non-finite numbers spelled out, or a run `[start, count]` of the receiver's held elements that are
+   * the same but for their spans, moved by `moves` (per document of the held analysis,
+   * `[uri, prefix, tail, delta]`: see `TextMove`).
+   */
+  | { kind: 'elements'; json: string; moves?: [string, number, number, number][] }
   | { kind: 'devices'; items: [string, DeviceRecord][] }
   /** Entries of the operating point's node table: names and their volts, in the table's order. */
   | { kind: 'nodes'; names: string[]; volts: Float64Array }
@@ -54,10 +64,38 @@ function sharedEnds(before: string, after: string): { prefix: number; suffix: nu
 }
 
 /**
- * What a sender keeps of the cards it sent, to send only what changed next time: per document its text,
- * whether its first card is a title, and every card's span.
+ * Where an edit left a document's text alone, in the held (older) text's offsets: nothing before `prefix`
+ * moved, and everything from `tail` on moved by `delta` characters.
  */
-export type SentCards = Map<string, SentDocument>;
+interface TextMove {
+  prefix: number;
+  tail: number;
+  delta: number;
+}
+
+function textMove(before: string, after: string): TextMove {
+  const { prefix, suffix } = sharedEnds(before, after);
+  return { prefix, tail: before.length - suffix, delta: after.length - before.length };
+}
+
+/** How far a held span moves: 0 in the unchanged prefix, `delta` in the unchanged suffix, undefined when it touches the edit or its document has no move. */
+function shiftOf(span: Span, move: TextMove | undefined): number | undefined {
+  if (!move) return undefined;
+  if (span.end <= move.prefix) return 0;
+  return span.start >= move.tail ? move.delta : undefined;
+}
+
+/** What a sender keeps of an analysis it sent, to send only what changed next time. */
+export interface SentAnalysis {
+  /** Per document: its text, whether its first card is a title, and every card's span. */
+  documents: Map<string, SentDocument>;
+  /** The circuit's elements and each model object's key, while the circuit is small enough to keep them. */
+  elements?: SentElements;
+}
+interface SentElements {
+  list: readonly Element[];
+  modelKeys: Map<unknown, string>;
+}
 interface SentDocument {
   text: string;
   /** Whether the first card is a title: the parser's `hasTitle`, which decides how line 0 and a lone `.lib` field read. */
@@ -85,7 +123,7 @@ export interface LazySplit {
    * after the header is sent (the receiver can publish the findings meanwhile) and before any part is
    * built. Returns what was sent of the cards, to compare the next analysis with.
    */
-  prepare: () => SentCards;
+  prepare: () => SentAnalysis;
 }
 
 /**
@@ -94,9 +132,9 @@ export interface LazySplit {
  * JSON is smaller than the parsed cards, which the sender need not keep). The builders read
  * `analysis`, which must not change until the last part is built. Where the receiver holds the
  * previous analysis of the same root (`held`: what `prepare` returned for it), unchanged cards are
- * sent as `cards-kept` parts.
+ * sent as `cards-kept` parts and unchanged elements as runs of the held ones.
  */
-export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazySplit {
+export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): LazySplit {
   const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart, size = PART_SIZE) => {
     for (let i = 0; i < list.length; i += size) parts.push(() => make(list.slice(i, i + size)));
@@ -108,12 +146,15 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   const documents: Analysis['documents'] = {};
   // Which cards travel and which the receiver keeps is known now (from the spans); the changed ones are encoded by `prepare`.
   const cardSlots: (AnalysisPart | undefined)[] = [];
-  const sent: SentCards = new Map();
+  const sent: SentAnalysis = { documents: new Map() };
+  const moves = new Map<string, TextMove>();
   let toEncode: { uri: string; cards: Card[]; slot: number }[] = [];
   for (const [uri, doc] of Object.entries(analysis.documents)) {
     documents[uri] = { ...doc, cards: [] };
-    const plan = cardRuns(uri, doc, held?.get(uri));
-    sent.set(uri, plan.sent);
+    const before = held?.documents.get(uri);
+    if (before) moves.set(uri, textMove(before.text, doc.text));
+    const plan = cardRuns(uri, doc, before, moves.get(uri));
+    sent.documents.set(uri, plan.sent);
     for (const run of plan.runs) {
       const slot = cardSlots.length;
       if ('part' in run) cardSlots.push(run.part);
@@ -127,9 +168,13 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   let circuit: Circuit | undefined;
   if (analysis.circuit) {
     circuit = { ...analysis.circuit, elements: [] };
+    const elements = analysis.circuit.elements;
     const keyOf = new Map<unknown, string>();
     for (const [key, m] of Object.entries(analysis.circuit.models)) keyOf.set(m, key);
-    slices(analysis.circuit.elements, (items) => ({ kind: 'elements', json: JSON.stringify(items.map((e) => encodeElement(e, keyOf))) }));
+    const heldAt = held?.elements ? heldElementFinder(elements, keyOf, held.elements, moves) : undefined;
+    const moveList = [...moves].map(([uri, m]) => [uri, m.prefix, m.tail, m.delta] as [string, number, number, number]);
+    for (let i = 0; i < elements.length; i += PART_SIZE) parts.push(() => elementPart(elements, i, Math.min(i + PART_SIZE, elements.length), keyOf, heldAt, moveList));
+    if (elements.length <= KEEP_ELEMENTS_UP_TO) sent.elements = { list: elements, modelKeys: keyOf };
   }
   let operatingPoint = analysis.operatingPoint;
   let entries: (() => void) | undefined;
@@ -143,7 +188,8 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
     let devices: [string, DeviceRecord][] = [];
     entries = () => {
       nodes = v ? [...v.nodeEntries()] : Object.entries(point.nodes);
-      devices = Object.entries(point.devices);
+      // From the vectors, record by record: the name-keyed table of every device is not built for this.
+      devices = v ? [...v.deviceEntries()] : Object.entries(point.devices);
     };
     // Counted without building the tables: a node per volt of the vectors, at most one device record per element.
     const nodeCount = v ? v.volts.length : Object.keys(point.nodes).length;
@@ -165,7 +211,7 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentCards): LazyS
   }
   slices(analysis.structures, (items) => ({ kind: 'structures', items }), STRUCTURE_PART_SIZE);
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: inHeader ? analysis.findings : [], structures: [] };
-  const prepare = (): SentCards => {
+  const prepare = (): SentAnalysis => {
     for (const { uri, cards, slot } of toEncode) cardSlots[slot] = { kind: 'cards', uri, json: `[${cards.map(encodeCard).join(',')}]`, starts: cards.map((c) => c.span.start) };
     // The part builders share this scope: without this they would keep the changed cards alive until the last part is sent.
     toEncode = [];
@@ -188,7 +234,7 @@ const MOVED = 2;
  * (`held`: what was sent of its previous analysis), kept; and what is sent, to compare the next
  * analysis with. Decided from the spans alone, without encoding a card (see `howCardsTravel`).
  */
-function cardRuns(uri: string, doc: ParsedDocument, held: SentDocument | undefined): { runs: CardRun[]; sent: SentDocument } {
+function cardRuns(uri: string, doc: ParsedDocument, held: SentDocument | undefined, move: TextMove | undefined): { runs: CardRun[]; sent: SentDocument } {
   const n = doc.cards.length;
   const spans = new Int32Array(2 * n);
   doc.cards.forEach((c, k) => {
@@ -196,7 +242,7 @@ function cardRuns(uri: string, doc: ParsedDocument, held: SentDocument | undefin
     spans[2 * k + 1] = c.span.end;
   });
   const sent: SentDocument = { text: doc.text, titled: doc.cards[0]?.kind === 'title', spans };
-  const travel = held && held.titled === sent.titled ? howCardsTravel(held, sent) : undefined;
+  const travel = held && move && held.titled === sent.titled ? howCardsTravel(held, sent, move) : undefined;
   const how = (k: number) => (travel ? travel.how[k]! : SENT);
   const runs: CardRun[] = [];
   for (let k = 0; k < n; ) {
@@ -221,13 +267,11 @@ function cardRuns(uri: string, doc: ParsedDocument, held: SentDocument | undefin
  * or in the shared suffix at the same index from the end, moved by the change in length. The title
  * (card 0, the first line whatever it holds) is kept only from the prefix.
  */
-function howCardsTravel(held: SentDocument, sent: SentDocument): { how: Uint8Array; shift: number; delta: number } {
-  const { prefix, suffix } = sharedEnds(held.text, sent.text);
+function howCardsTravel(held: SentDocument, sent: SentDocument, { prefix, tail: heldTail, delta }: TextMove): { how: Uint8Array; shift: number; delta: number } {
   const n = sent.spans.length / 2;
   const heldCount = held.spans.length / 2;
-  const delta = sent.text.length - held.text.length;
   const shift = n - heldCount;
-  const tail = sent.text.length - suffix;
+  const tail = heldTail + delta;
   const how = new Uint8Array(n);
   for (let k = 0; k < n; k++) {
     const start = sent.spans[2 * k]!;
@@ -267,9 +311,16 @@ export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis)
       }
       return;
     }
-    case 'elements':
-      if (target.circuit) for (const e of JSON.parse(part.json) as Record<string, unknown>[]) target.circuit.elements.push(decodeElement(target.circuit, e));
+    case 'elements': {
+      const circuit = target.circuit;
+      if (!circuit) return;
+      const moves = new Map((part.moves ?? []).map(([uri, prefix, tail, delta]) => [uri, { prefix, tail, delta }]));
+      for (const e of JSON.parse(part.json) as (Record<string, unknown> | [number, number])[]) {
+        if (Array.isArray(e)) pushHeldElements(circuit, held, e[0], e[1], moves);
+        else circuit.elements.push(decodeElement(circuit, e));
+      }
       return;
+    }
     case 'devices':
       if (target.operatingPoint) for (const [name, rec] of part.items) target.operatingPoint.devices[name] = rec;
       return;
@@ -342,24 +393,31 @@ function encodeCard(card: Card): string {
  * call this only when the result replaces it, before anything reads the result's cards.
  */
 export function adoptKeptCards(analysis: Analysis): void {
-  // Each object moves once, however many fields share it (a token is in `tokens` and in its field).
-  const seen = new Set<object>();
-  for (const { cards, delta } of pendingMoves.get(analysis) ?? []) for (const card of cards) moveCard(card, delta, seen);
+  for (const { cards, delta } of pendingMoves.get(analysis) ?? []) for (const card of cards) moveCard(card, delta);
   pendingMoves.delete(analysis);
 }
 
-/** Moves every offset of a card `delta` characters, skipping the objects in `seen` (and adding those it moves). */
-function moveCard(card: Card, delta: number, seen: Set<object>): void {
+/**
+ * Moves every offset of a card `delta` characters. A card taken in shares no object with another card, and
+ * within it only its tokens are reached twice (in `tokens` and in the field that holds one): they are moved
+ * first and skipped in the fields, so no table of moved objects is needed.
+ */
+function moveCard(card: Card, delta: number): void {
+  const tokens = card.tokens;
+  for (const t of tokens) {
+    t.span.start += delta;
+    t.span.end += delta;
+  }
+  const listed = tokenFinder(tokens);
   const move = (v: unknown): void => {
-    if (v === null || typeof v !== 'object' || seen.has(v)) return;
-    seen.add(v);
+    if (v === null || typeof v !== 'object') return;
     if (Array.isArray(v)) for (const x of v) move(x);
     else if (isSpan(v)) {
       v.start += delta;
       v.end += delta;
-    } else for (const x of Object.values(v)) move(x);
+    } else if (listed(v) < 0) for (const x of Object.values(v)) move(x);
   };
-  move(card);
+  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') move(v);
 }
 
 /** A `{ start, end }` offset pair and nothing else. */
@@ -403,6 +461,191 @@ function decodeCard(text: string, enc: EncodedCard, base: number): Card {
 function isToken(v: object): v is Token {
   const t = v as Partial<Token> & { tokens?: unknown };
   return typeof t.text === 'string' && (t.kind === 'word' || t.kind === 'expr') && !!t.span && typeof t.span.start === 'number' && t.tokens === undefined;
+}
+
+/**
+ * For the elements of a circuit being sent, the index of the same element among those sent before
+ * (`held`), or −1: tried at the same index, then at the same index from the end (an element added or
+ * removed before it).
+ */
+function heldElementFinder(elements: readonly Element[], keyOf: Map<unknown, string>, held: SentElements, moves: Map<string, TextMove>): (i: number) => number {
+  const shift = elements.length - held.list.length;
+  const same = (i: number, h: number) => h >= 0 && h < held.list.length && sameElement(elements[i]!, held.list[h]!, keyOf, held.modelKeys, moves);
+  return (i) => (same(i, i) ? i : shift !== 0 && same(i, i - shift) ? i - shift : -1);
+}
+
+/**
+ * Whether element `a` of the circuit being sent is `b`, sent before, but for its spans moved past the edit:
+ * the same fields in the same order with the same values, the same model by key. No objects are made: this
+ * runs for every element of every analysis.
+ */
+function sameElement(a: Element, b: Element, keyOf: Map<unknown, string>, heldKeyOf: Map<unknown, string>, moves: Map<string, TextMove>): boolean {
+  // An element object the engine reused may have changed since it was sent: only a new object is compared.
+  if (a === b) return false;
+  const fields = Object.keys(a);
+  const heldFields = Object.keys(b);
+  if (fields.length !== heldFields.length) return false;
+  for (let i = 0; i < fields.length; i++) {
+    const k = fields[i]!;
+    if (k !== heldFields[i]) return false;
+    const u = (a as unknown as Record<string, unknown>)[k];
+    const v = (b as unknown as Record<string, unknown>)[k];
+    if (k === 'origin') {
+      if (!sameOrigin(u as Origin, v as Origin, moves)) return false;
+    } else if (k === 'model' && u && typeof u === 'object') {
+      const key = keyOf.get(u);
+      if (key === undefined || key !== heldKeyOf.get(v)) return false;
+    } else if (!sameData(u, v)) return false;
+  }
+  return true;
+}
+
+/** Whether two values hold the same data: arrays item by item, objects field by field in order, numbers as `Object.is` compares them. */
+function sameData(u: unknown, v: unknown): boolean {
+  if (Object.is(u, v)) return true;
+  if (!u || !v || typeof u !== 'object' || typeof v !== 'object') return false;
+  if (Array.isArray(u)) {
+    if (!Array.isArray(v) || u.length !== v.length) return false;
+    for (let i = 0; i < u.length; i++) if (!sameData(u[i], v[i])) return false;
+    return true;
+  }
+  if (Array.isArray(v)) return false;
+  const a = u as Record<string, unknown>;
+  const b = v as Record<string, unknown>;
+  const keys = Object.keys(a);
+  const heldKeys = Object.keys(b);
+  if (keys.length !== heldKeys.length) return false;
+  for (let i = 0; i < keys.length; i++) if (keys[i] !== heldKeys[i] || !sameData(a[keys[i]!], b[keys[i]!])) return false;
+  return true;
+}
+
+/** The fields of an `Origin` that hold spans in the origin's document (every other field but `instances` is compared and kept as it is). */
+const ORIGIN_SPANS = new Set(['span', 'valueSpan', 'modelSpan']);
+
+/** Whether a new element's origin is a held one's with its spans moved past the edit (see `movedOrigin`). */
+function sameOrigin(a: Origin, b: Origin, moves: Map<string, TextMove>): boolean {
+  const fields = Object.keys(a);
+  const heldFields = Object.keys(b);
+  if (fields.length !== heldFields.length || a.uri !== b.uri) return false;
+  const move = moves.get(a.uri);
+  for (let i = 0; i < fields.length; i++) {
+    const k = fields[i]!;
+    if (k !== heldFields[i]) return false;
+    const u = (a as unknown as Record<string, unknown>)[k];
+    const v = (b as unknown as Record<string, unknown>)[k];
+    if (u === undefined || v === undefined) {
+      if (u !== v) return false;
+    } else if (ORIGIN_SPANS.has(k)) {
+      if (!sameMovedSpan(u as Span, v as Span, move)) return false;
+    } else if (k === 'nodeSpans') {
+      const x = u as Span[];
+      const y = v as Span[];
+      if (x.length !== y.length) return false;
+      for (let j = 0; j < x.length; j++) if (!sameMovedSpan(x[j]!, y[j]!, move)) return false;
+    } else if (k === 'instances') {
+      const x = u as Origin['instances'];
+      const y = v as Origin['instances'];
+      if (x.length !== y.length) return false;
+      for (let j = 0; j < x.length; j++) {
+        const p = x[j]!;
+        const q = y[j]!;
+        if (p.name !== q.name || p.uri !== q.uri || Object.keys(p).length !== 3 || Object.keys(q).length !== 3 || !sameMovedSpan(p.span, q.span, moves.get(p.uri))) return false;
+      }
+    } else if (!sameData(u, v)) return false;
+  }
+  return true;
+}
+
+/** Whether span `a` of the new text is held span `b` moved past the edit (and both are plain spans). */
+function sameMovedSpan(a: Span, b: Span, move: TextMove | undefined): boolean {
+  const d = shiftOf(b, move);
+  return d !== undefined && a.start === b.start + d && a.end === b.end + d && isSpan(a) && isSpan(b);
+}
+
+/**
+ * An element's origin with its spans moved past the edit (the same object when none moves), or undefined
+ * when a span touches the edited text: the spans in the origin's document, and each instance's in its own.
+ */
+function movedOrigin(origin: Origin, moves: Map<string, TextMove>): Origin | undefined {
+  let moved = false;
+  const at = (uri: string, span: Span): Span | undefined => {
+    const d = shiftOf(span, moves.get(uri));
+    if (d === undefined || d === 0) return d === undefined ? undefined : span;
+    moved = true;
+    return { start: span.start + d, end: span.end + d };
+  };
+  const out: Record<string, unknown> = {};
+  for (const [k, v] of Object.entries(origin)) {
+    if (v === undefined) out[k] = v;
+    else if (ORIGIN_SPANS.has(k)) {
+      const span = at(origin.uri, v as Span);
+      if (!span) return undefined;
+      out[k] = span;
+    } else if (k === 'nodeSpans') {
+      const spans: Span[] = [];
+      for (const x of v as Span[]) {
+        const span = at(origin.uri, x);
+        if (!span) return undefined;
+        spans.push(span);
+      }
+      out[k] = spans;
+    } else if (k === 'instances') {
+      const list: Origin['instances'] = [];
+      for (const x of v as Origin['instances']) {
+        const span = at(x.uri, x.span);
+        if (!span) return undefined;
+        list.push(span === x.span ? x : { ...x, span });
+      }
+      out[k] = list;
+    } else out[k] = v;
+  }
+  return moved ? (out as unknown as Origin) : origin;
+}
+
+/**
+ * Elements `[from, to)` of a circuit being sent: each encoded, or, where `heldAt` finds the same element
+ * among those sent before, in a run `[start, count]` of those.
+ */
+function elementPart(elements: readonly Element[], from: number, to: number, keyOf: Map<unknown, string>, heldAt: ((i: number) => number) | undefined, moves: [string, number, number, number][]): AnalysisPart {
+  const items: string[] = [];
+  let run: [number, number] | undefined;
+  let kept = false;
+  for (let i = from; i < to; i++) {
+    const h = heldAt ? heldAt(i) : -1;
+    if (h >= 0 && run && run[0] + run[1] === h) {
+      run[1]++;
+      continue;
+    }
+    if (run) items.push(`[${run[0]},${run[1]}]`);
+    run = h >= 0 ? [h, 1] : undefined;
+    kept ||= h >= 0;
+    if (h < 0) items.push(JSON.stringify(encodeElement(elements[i]!, keyOf)));
+  }
+  if (run) items.push(`[${run[0]},${run[1]}]`);
+  return kept ? { kind: 'elements', json: `[${items.join(',')}]`, moves } : { kind: 'elements', json: `[${items.join(',')}]` };
+}
+
+/** Each held analysis's model keys by model object, made when its elements are first kept. */
+const heldModelKeys = new WeakMap<Circuit, Map<unknown, string>>();
+
+/**
+ * Appends copies of the receiver's held elements `start` to `start + count − 1` to `circuit`: spans moved
+ * past the edit, the model the new circuit's of the same key.
+ */
+function pushHeldElements(circuit: Circuit, held: Analysis | undefined, start: number, count: number, moves: Map<string, TextMove>): void {
+  const from = held?.circuit;
+  if (!from || from.elements.length < start + count) throw new Error('The held elements are not the ones the worker kept.');
+  let keys = heldModelKeys.get(from);
+  if (!keys) heldModelKeys.set(from, (keys = new Map(Object.entries(from.models).map(([key, m]) => [m, key]))));
+  for (let k = start; k < start + count; k++) {
+    const el = from.elements[k]!;
+    const origin = movedOrigin(el.origin, moves);
+    const key = 'model' in el && el.model ? keys.get(el.model) : undefined;
+    if (!origin || (key === undefined && 'model' in el && el.model)) throw new Error(`The held element ${el.name} is not the one the worker kept.`);
+    const copy = { ...el, origin } as Element;
+    if (key !== undefined) (copy as { model?: unknown }).model = circuit.models[key];
+    circuit.elements.push(copy);
+  }
 }
 
 /** An element as JSON-safe data: its model by key, non-finite numbers as `{ $num }`. */

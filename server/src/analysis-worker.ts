@@ -17,7 +17,7 @@ import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
-import { splitAnalysisLazily, type AnalysisPart, type SentCards } from './analysis-transfer';
+import { splitAnalysisLazily, type AnalysisPart, type SentAnalysis } from './analysis-transfer';
 import { sizeResistor } from './sizing';
 import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type ToWorker } from './worker-messages';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -46,10 +46,10 @@ interface Kept {
 }
 const lastAnalysis = new Map<string, Kept>();
 /**
- * Per root, what was sent of the cards of its recent analyses, by request id: the latest and the one the
+ * Per root, what was sent of its recent analyses (cards, elements), by request id: the latest and the one the
  * main thread last said it holds (the only ones a next analysis can be compared with).
  */
-const sentCards = new Map<string, Map<number, SentCards>>();
+const sentAnalyses = new Map<string, Map<number, SentAnalysis>>();
 /** Per root, the last converged nominal solution, for the next analysis of an edited text to start Newton from. */
 const warmStarts = new Map<string, WarmStart>();
 /** Per root, what the next analysis of a value edit reuses (its solver, structures and hand analysis); see `incremental.ts`. */
@@ -124,7 +124,7 @@ function handle(msg: ToWorker): void {
       if (msg.text === undefined) {
         openTexts.delete(msg.uri);
         lastAnalysis.delete(msg.uri);
-        sentCards.delete(msg.uri);
+        sentAnalyses.delete(msg.uri);
         warmStarts.delete(msg.uri);
         incrementals.delete(msg.uri);
       } else openTexts.set(msg.uri, msg.text);
@@ -172,10 +172,10 @@ function handle(msg: ToWorker): void {
           nominal: cornersNext ? session.nominal : undefined,
           sizingCache: new Map(),
         });
-        const sentBefore = sentCards.get(msg.uri);
+        const sentBefore = sentAnalyses.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
         const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
-        const keep = (sent: SentCards) => sentCards.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
+        const keep = (sent: SentAnalysis) => sentAnalyses.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         const ms = performance.now() - t0;
         if (parts.length <= SMALL_RESULT_PARTS) {
           // Small: the whole result in one message (the main thread takes it in at once).

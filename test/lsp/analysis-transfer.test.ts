@@ -113,7 +113,7 @@ describe('analysis transfer', () => {
     expect(copy.documents[uri]!.cards[5]).toBe(held.documents[uri]!.cards[5]);
   });
 
-  it('after random edits that regroup cards, keeps only cards the parser makes again (seeded)', () => {
+  it('after random edits that regroup cards, keeps only cards the parser makes again and elements the elaborator makes again (seeded)', () => {
     // Snippets that change how lines group into cards and how the first line reads: continuation and
     // comment lines, blocks, sections, conditions, the end card, line breaks, a definition card as the
     // first line (no title then). The independent computation is the parser's own cards of each text.
@@ -121,6 +121,8 @@ describe('analysis transfer', () => {
       '.lib sec\n', '.endl\n', '.subckt S a b\n', '.ends\n', '.if (a==1)\n', '.endif\n', '.end\n', '.alter\n', '.title T\n', '.model QN NPN (BF=90)\n', '.param a=1\n', 'Q7 o r 0 QN\n'];
     const lines = ['Random edits', 'VCC vcc 0 DC 10', '.param a=2', 'RREF vcc ref {a*4.65}k ; the reference', 'Q1 ref ref 0 QN', 'Q2 out ref 0', '* between', '+ QN', '.control', 'op', '.endc'];
     for (let k = 0; k < 30; k++) lines.push(`RX${k} vcc x${k} ${1 + (k % 9)}k`, k % 7 === 3 ? `+ m=${k}` : `* line ${k}`);
+    // Elements flattened from a subcircuit: their origin is the definition's card, and the instance's card in `instances`.
+    lines.push('.subckt CELL top bot p=1', 'RA top mid {p}k', 'QC mid mid bot QN', '.ends CELL', 'XC1 vcc 0 CELL p=2', 'XC2 x3 0 CELL', 'XC3 x5 0 CELL p={a}');
     lines.push('.model QN NPN (BF=100)', '.end', '');
     const uri = '/t/main.cir';
     const random = rng(20261203);
@@ -128,31 +130,44 @@ describe('analysis transfer', () => {
     let text = lines.join('\n');
     let keptCards = 0;
     let sentCards = 0;
+    let keptElements = 0;
+    let sentElements = 0;
     let { sent, held } = takeInWhole(uri, text, undefined, undefined);
     for (let round = 0; round < 300; round++) {
       const next = randomEdit(text, round, random, pick, snippets);
       const result = takeInWhole(uri, next, sent, held);
       expect(result.analysis.documents[uri], `round ${round}`).toEqual(result.original.documents[uri]);
+      expect(result.analysis.circuit, `round ${round}`).toEqual(result.original.circuit);
+      // Every element's model is the new circuit's own object of that name, kept or sent.
+      for (const e of result.analysis.circuit?.elements ?? []) if ('model' in e && e.model) expect(Object.values(result.analysis.circuit!.models)).toContain(e.model);
+      keptElements += result.keptElements;
+      sentElements += result.sentElements;
       keptCards += result.kept;
       sentCards += result.sentCount;
       ({ sent, held } = result);
       text = next;
     }
-    // The edits are small: most cards are kept rather than sent.
+    // The edits are small: most cards and elements are kept rather than sent.
     expect(keptCards).toBeGreaterThan(5 * sentCards);
+    expect(keptElements).toBeGreaterThan(3 * sentElements);
   });
 });
 
 /**
  * One random edit of `text`: a snippet inserted at a line start or anywhere, with a few characters cut after it; a
  * character replaced in place (same length, same spans, other text); a whole line deleted or doubled; now and then
- * a definition card or another line put before the title.
+ * a definition card or another line put before the title, or a model put into the subcircuit.
  */
 function randomEdit(text: string, round: number, random: () => number, pick: <T>(xs: readonly T[]) => T, snippets: readonly string[]): string {
   const lineStart = text.lastIndexOf('\n', Math.floor(random() * text.length)) + 1;
   const lineEnd = text.indexOf('\n', lineStart) + 1 || text.length;
   const at = random() < 0.5 ? lineStart : Math.floor(random() * (text.length + 1));
-  switch (round % 6) {
+  switch (round % 7) {
+    case 6: {
+      // A model of the subcircuit's own that shadows the top-level one (its elements' model changes, their cards do not), and back.
+      const local = '.model QN NPN (BF=50)\n.ends CELL';
+      return text.includes(local) ? text.replace(local, '.ends CELL') : text.replace('.ends CELL', local);
+    }
     case 0:
       return pick(['.model QN NPN\n', '.lib sec\n', 'R0 a 0 1\n', '', '']) + (random() < 0.5 ? text.slice(text.indexOf('\n') + 1) : text);
     case 1:
@@ -175,13 +190,21 @@ function takeInWhole(uri: string, text: string, sent: ReturnType<ReturnType<type
   const copy = structuredClone(split.header);
   let kept = 0;
   let sentCount = 0;
+  let keptElements = 0;
+  let sentElements = 0;
   for (const make of split.parts) {
     const part = structuredClone(make());
     if (part.kind === 'cards-kept') kept += part.count;
     if (part.kind === 'cards') sentCount += part.starts.length;
+    if (part.kind === 'elements') {
+      for (const e of JSON.parse(part.json) as unknown[]) {
+        if (Array.isArray(e)) keptElements += e[1] as number;
+        else sentElements++;
+      }
+    }
     mergePart(copy, part, held);
   }
   adoptKeptCards(copy);
-  return { analysis: copy, original, sent: nextSent, held: copy, kept, sentCount };
+  return { analysis: copy, original, sent: nextSent, held: copy, kept, sentCount, keptElements, sentElements };
 }
 
