@@ -5,7 +5,7 @@
 // figures, and then the corner phase on both. A kept structure that should have changed fails the comparison.
 
 import { describe, expect, it } from 'vitest';
-import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, analyseSession, AnalysisStopped, type AnalysisSession } from '../../../shared-analysis/src/service';
 import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
 import { revertValueEdit, valueChanges } from '../../../shared-analysis/src/incremental';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
@@ -281,6 +281,21 @@ RDANGLE x open 3.3k
     const next = incremental(again, first);
     expect(next.solver).toBe(first.solver);
     expectColdResult(next, cold(again));
+  });
+
+  it('keeps the corner solutions of a corner phase stopped half-way, and the next corner phase equals a cold one', () => {
+    const text = sinkCells(12);
+    const first = incremental(text);
+    addCorners(first.analysis, { solver: first.solver!, nominal: first.nominal!, incremental: first.incremental });
+    const edited = text.replace('RR5 vcc r5 15k', 'RR5 vcc r5 14k');
+    const next = incremental(edited, first);
+    let asked = 0;
+    // Stopped after a few corners: those have new solutions, the others keep the last phase's.
+    expect(() => addCorners(next.analysis, { solver: next.solver!, nominal: next.nominal!, incremental: next.incremental, shouldStop: () => ++asked > 5 })).toThrow(AnalysisStopped);
+    const again = edited.replace('RR5 vcc r5 14k', 'RR5 vcc r5 13.5k');
+    const last = incremental(again, next);
+    expect(last.solver).toBe(first.solver);
+    expectSameCorners(last, cold(again));
   });
 
   it('finds the resistors whose values changed and nothing else', () => {
