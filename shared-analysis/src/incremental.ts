@@ -311,7 +311,7 @@ export class ValueEdit {
   keptFindings = (s: Structure): Finding[] | undefined => this.kept.get(s)?.findings;
 
   /** The first-pass snapshot a kept structure was copied from (never written, so the next state shares it), or undefined for one analysed again. */
-  firstPassOf(s: Structure): Structure | undefined {
+  keptSnapshot(s: Structure): Structure | undefined {
     return this.kept.get(s)?.firstPass;
   }
 
@@ -496,7 +496,7 @@ export class IncrementalKeeper {
     for (let i = 0; i < structures.length; i++) {
       const findings = this.findings.get(structures[i]);
       if (!findings) return undefined;
-      kept.push({ pristine: this.edit ? this.edit.pristineOf(i) : this.pristine[i], firstPass: this.edit?.firstPassOf(structures[i]) ?? firstPassOf(structures[i]), findings });
+      kept.push({ pristine: this.edit ? this.edit.pristineOf(i) : this.pristine[i], firstPass: this.edit?.keptSnapshot(structures[i]) ?? firstPassOf(structures[i]), findings });
     }
     return {
       uri: input.uri,
