@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { flattenPlans, measureStructure, planMeasurement, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
+import { flattenPlans, measurePlanned, planMeasurement, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -295,7 +295,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
     ctx.solved?.(spec, k, result.x);
     const op = result.op;
     const reader = readerOf(op, topology);
-    structures.forEach((s, i) => {
+    for (let i = 0; i < structures.length; i++) {
+      const s = structures[i];
       const col = columns[i];
       // Output o of this structure at corner k sits at o·C + k of its columns.
       sink.current = col.iout;
@@ -314,7 +315,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
           if (x !== undefined) col.voltages[v * C + k] = x;
         });
       }
-    });
+    }
   });
 
   const failed = axis.labels.filter((_, k) => axis.converged[k] !== 1);
@@ -335,10 +336,10 @@ export function runCorners(ctx: CornerContext): Finding[] {
   }
 
   const converged = C - failedCount;
+  // The nominal point read as the corners were: the plans already flat, one reader for every structure.
+  const nominalReader = readerOf(nominal.op, topology);
   structures.forEach((s, index) => {
-    // The whole circuit, not a per-structure view: its topology is built once and cached, so every
-    // (structure, corner) measurement is a handful of index reads.
-    const nominalM = measureStructure(circuit, nominal.op, s, topology, plans[index]);
+    const nominalM = measurePlanned(flat, index, nominalReader, s.outputs);
     setCornerColumns(s, columns[index]);
     summariseVoltageCorners(s);
     const summaries = summariseOutputs(columns[index]);

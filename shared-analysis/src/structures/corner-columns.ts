@@ -119,19 +119,24 @@ export interface OutputCornerSummary {
 export function summariseOutputs(cols: CornerColumns): OutputCornerSummary[] {
   const { axis } = cols;
   const C = axis.labels.length;
+  const { iout, headroom } = cols;
   return cols.outputs.map((device, o) => {
     const s: OutputCornerSummary = { device, convergedCorners: 0, outOfRegionAt: [] };
-    for (let k = 0; k < C; k++) {
-      if (axis.converged[k] !== 1) continue;
+    // Where each extreme is (the first corner that reaches it), as positions in the columns; its record is made once, at the end.
+    let minCurrent = -1;
+    let maxCurrent = -1;
+    let minHeadroom = -1;
+    for (let k = o * C; k < (o + 1) * C; k++) {
+      if (axis.converged[k - o * C] !== 1) continue;
       s.convergedCorners++;
-      const i = cols.iout[o * C + k];
-      const h = cols.headroom[o * C + k];
-      const label = axis.labels[k];
-      if (!s.minCurrent || i < s.minCurrent.value) s.minCurrent = { value: i, corner: label };
-      if (!s.maxCurrent || i > s.maxCurrent.value) s.maxCurrent = { value: i, corner: label };
-      if (!s.minHeadroom || h < s.minHeadroom.value) s.minHeadroom = { value: h, corner: label };
-      if (cols.outOfRegion[o * C + k]) s.outOfRegionAt.push(label);
+      if (minCurrent < 0 || iout[k] < iout[minCurrent]) minCurrent = k;
+      if (maxCurrent < 0 || iout[k] > iout[maxCurrent]) maxCurrent = k;
+      if (minHeadroom < 0 || headroom[k] < headroom[minHeadroom]) minHeadroom = k;
+      if (cols.outOfRegion[k]) s.outOfRegionAt.push(axis.labels[k - o * C]);
     }
+    if (minCurrent >= 0) s.minCurrent = { value: iout[minCurrent], corner: axis.labels[minCurrent - o * C] };
+    if (maxCurrent >= 0) s.maxCurrent = { value: iout[maxCurrent], corner: axis.labels[maxCurrent - o * C] };
+    if (minHeadroom >= 0) s.minHeadroom = { value: headroom[minHeadroom], corner: axis.labels[minHeadroom - o * C] };
     return s;
   });
 }

@@ -190,7 +190,6 @@ export interface OutputSink {
 
 /** Measures planned structure `i` of `plans` at one point: writes each output's current, headroom and region into `sink` and returns IREF. */
 export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, sink: OutputSink): number {
-  const v = (node: number) => finite(p.volts(node));
   let iref = 0;
   for (let d = plans.devStart[i]; d < plans.devStart[i + 1]; d++) {
     const e = plans.devE[d];
@@ -229,9 +228,9 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
       continue;
     }
     const e = plans.outE[o];
-    const vOut = v(plans.outNodes[3 * o]);
-    const vCtrl = v(plans.outNodes[3 * o + 1]);
-    const vCommon = v(plans.outNodes[3 * o + 2]);
+    const vOut = finite(p.volts(plans.outNodes[3 * o]));
+    const vCtrl = finite(p.volts(plans.outNodes[3 * o + 1]));
+    const vCommon = finite(p.volts(plans.outNodes[3 * o + 2]));
     const type = p.type(e);
     const sign = polaritySign(t.tech);
     if (isBipolar(t.tech)) {

@@ -5,6 +5,7 @@ import { cornerColumns, cornerRecords, setCornerColumns, summariseOutputs, type 
 import { analyse } from '../../../shared-analysis/src/service';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { rng } from '../../seeded-random';
 
 /** Three corners, two outputs, one derived voltage; the second corner did not converge. Invented numbers. */
 function sample(): CornerColumns {
@@ -46,6 +47,45 @@ describe('corner columns', () => {
     expect(q2).toEqual({ device: 'Q2', convergedCorners: 2, minCurrent: { value: 0.9e-3, corner: 'supply −5 %' }, maxCurrent: { value: 1.2e-3, corner: '125 °C' }, minHeadroom: { value: -0.1, corner: '125 °C' }, outOfRegionAt: ['125 °C'] });
     expect(q3.minCurrent).toEqual({ value: 1.8e-3, corner: '125 °C' });
     expect(q3.outOfRegionAt).toEqual([]);
+  });
+
+  it('summarise as a plain scan of the per-corner records does, the first corner winning a tie', () => {
+    const r = rng(11);
+    const C = 26;
+    const outputs = ['QA', 'QB', 'QC'];
+    // Few distinct values, so extremes tie between corners; some corners not converged.
+    const pick = (values: number[]) => values[Math.floor(r() * values.length)];
+    const cols: CornerColumns = {
+      axis: {
+        labels: Array.from({ length: C }, (_, k) => `corner ${k}`),
+        supplyScale: new Float64Array(C).fill(1),
+        temperatureC: new Float64Array(C).fill(27),
+        betaScale: new Float64Array(C).fill(1),
+        process: new Array(C).fill(undefined),
+        converged: Uint8Array.from({ length: C }, () => (r() < 0.8 ? 1 : 0)),
+      },
+      outputs,
+      iref: new Float64Array(C),
+      iout: Float64Array.from({ length: outputs.length * C }, () => pick([1e-3, 2e-3, 3e-3])),
+      headroom: Float64Array.from({ length: outputs.length * C }, () => pick([-0.2, 0.5, 1.5])),
+      outOfRegion: Uint8Array.from({ length: outputs.length * C }, () => (r() < 0.3 ? 1 : 0)),
+      voltageNames: [],
+      voltages: new Float64Array(0),
+    };
+    const records = cornerRecords(cols).filter((c) => c.converged);
+    const extreme = (read: (c: (typeof records)[number]) => number, better: (a: number, b: number) => boolean) => {
+      let best: { value: number; corner: string } | undefined;
+      for (const c of records) if (!best || better(read(c), best.value)) best = { value: read(c), corner: c.label };
+      return best;
+    };
+    summariseOutputs(cols).forEach((s, o) => {
+      const device = outputs[o];
+      expect(s.convergedCorners).toBe(records.length);
+      expect(s.minCurrent).toEqual(extreme((c) => c.iout[device], (a, b) => a < b));
+      expect(s.maxCurrent).toEqual(extreme((c) => c.iout[device], (a, b) => a > b));
+      expect(s.minHeadroom).toEqual(extreme((c) => c.headroom[device], (a, b) => a < b));
+      expect(s.outOfRegionAt).toEqual(records.filter((c) => c.outOfRegion.includes(device)).map((c) => c.label));
+    });
   });
 
   it('give a structure its records on first read, and copy them as plain records', () => {
