@@ -41,20 +41,25 @@ class UnionFind {
   }
 }
 
-/** Node pairs through which an element conducts at DC (a junction's robustness conductance counts; a MOS gate and bulk do not). */
-function conductingPairs(el: Element, resistance: number): [number, number][] {
+/**
+ * Joins the node pairs through which an element conducts at DC (a junction's robustness conductance counts; a MOS
+ * gate and bulk do not). Two-terminal kinds join their nodes directly: no list of pairs for each of them.
+ */
+function uniteConducting(uf: UnionFind, el: Element, resistance: number): void {
   const n = el.nodes;
   switch (el.kind) {
     case 'R':
-      return Number.isNaN(resistance) || resistance === Infinity ? [] : [[n[0], n[1]]];
+      if (!(Number.isNaN(resistance) || resistance === Infinity)) uf.union(n[0], n[1]);
+      return;
     case 'L':
     case 'V':
     case 'E':
     case 'H':
-      return [[n[0], n[1]]];
+      uf.union(n[0], n[1]);
+      return;
     default:
       // Nonlinear kinds say which of their nodes they connect; C, I, G and F conduct nothing at DC, and anything unrecognised is treated the same way.
-      return deviceKindOf(el.kind)?.dcPaths(el) ?? [];
+      for (const [a, b] of deviceKindOf(el.kind)?.dcPaths(el) ?? []) uf.union(a, b);
   }
 }
 
@@ -73,11 +78,12 @@ export type ResistanceOf = (element: number) => number | undefined;
 export function findFloatingGroups(circuit: Circuit, skip: Set<number>, resistanceOf?: ResistanceOf): FloatingGroup[] {
   const n = Math.max(1, circuit.nodes.length);
   const uf = new UnionFind(n);
-  circuit.elements.forEach((el, i) => {
-    if (skip.has(i)) return;
-    const r = el.kind === 'R' ? (resistanceOf?.(i) ?? el.resistance) : 0;
-    for (const [a, b] of conductingPairs(el, r)) uf.union(a, b);
-  });
+  const elements = circuit.elements;
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i];
+    if (skip.has(i)) continue;
+    uniteConducting(uf, el, el.kind === 'R' ? (resistanceOf?.(i) ?? el.resistance) : 0);
+  }
   const groundRoot = uf.find(0);
   const groups = new Map<number, FloatingGroup>();
   for (let node = 1; node < n; node++) {
