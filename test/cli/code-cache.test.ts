@@ -2,9 +2,8 @@
 // must be one this Node accepts, and a run through it must print what the bundle alone prints.
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { copyFileSync, readFileSync } from 'node:fs';
+import { copyFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { Script } from 'node:vm';
 import { ROOT, runCli, scratchFolder } from './harness';
 
 const BUNDLE = join(ROOT, 'dist/cli-main.js');
@@ -12,13 +11,20 @@ const scratch = scratchFolder('qpoint-code-cache-');
 
 describe('the CLI code cache', () => {
   it('is accepted by this Node for the bundle as the loader wraps it', () => {
-    const source = readFileSync(BUNDLE, 'utf8');
-    // The same wrapper and file name as the loader: V8 rejects a cache made for other source text or other flags.
-    const script = new Script(`(function (exports, require, module, __filename, __dirname) {${source}\n})`, {
-      filename: BUNDLE,
-      cachedData: readFileSync(join(ROOT, 'dist/cli-main.cache')),
-    });
-    expect(script.cachedDataRejected).toBe(false);
+    // In a fresh process, as the bin runs: V8 rejects a cache made for other source text or other flags (and a
+    // test worker's flags may differ). The same wrapper and file name as the loader.
+    const check = `
+      const { readFileSync } = require('node:fs');
+      const { Script } = require('node:vm');
+      const source = readFileSync(${JSON.stringify(BUNDLE)}, 'utf8');
+      const script = new Script('(function (exports, require, module, __filename, __dirname) {' + source + '\\n})', {
+        filename: ${JSON.stringify(BUNDLE)},
+        cachedData: readFileSync(${JSON.stringify(join(ROOT, 'dist/cli-main.cache'))}),
+      });
+      process.stdout.write(String(script.cachedDataRejected));`;
+    const r = spawnSync(process.execPath, ['-e', check], { cwd: ROOT, encoding: 'utf8' });
+    expect(r.stderr).toBe('');
+    expect(r.stdout).toBe('false');
   });
 
   it('gives the same output and exit code as the bundle run alone', () => {
