@@ -98,6 +98,24 @@ function findElement(circuit: Circuit, name: string): Element | undefined {
   return elementNamed(circuit, name);
 }
 
+/** Below this many elements a circuit (a target's block) is searched by name directly instead of through its index. */
+const SCANNED_CIRCUIT = 32;
+
+/**
+ * The index in `circuit.elements` of the first element named `name` (any letter case). A block of a
+ * few elements is scanned: building its whole index (names, incidence, fixed nodes) for the three
+ * names a target looks up cost more than the look-ups.
+ */
+function elementPosition(circuit: Circuit, name: string): number | undefined {
+  if (circuit.elements.length >= SCANNED_CIRCUIT) {
+    const el = findElement(circuit, name);
+    return el ? circuitIndex(circuit).position.get(el) : undefined;
+  }
+  const lower = name.toLowerCase();
+  const e = circuit.elements.findIndex((el) => el.name.toLowerCase() === lower);
+  return e >= 0 ? e : undefined;
+}
+
 /** The record field that is an element's current, by record type (collector, drain, diode or branch current). */
 function currentQuantity(type: DeviceRecord['type']): 'ic' | 'id' | 'current' {
   return type === 'bjt' ? 'ic' : type === 'mosfet' || type === 'jfet' || type === 'diode' ? 'id' : 'current';
@@ -110,8 +128,7 @@ function currentQuantity(type: DeviceRecord['type']): 'ic' | 'id' | 'current' {
  * from its record.
  */
 function recordReader(circuit: Circuit, name: string, quantity: (type: DeviceRecord['type']) => string | undefined): (op: OperatingPoint) => number | undefined {
-  const el = findElement(circuit, name);
-  const e = el ? circuitIndex(circuit).position.get(el) : undefined;
+  const e = elementPosition(circuit, name);
   return (op) => {
     const v = pointVectors(op);
     if (v && e !== undefined) {
@@ -184,7 +201,7 @@ export function sizeResistorForCurrent(ctx: SizingContext): SizingResult {
   const local = ctx.scope === 'whole-circuit' ? undefined : sizingBlock(circuit, resistor, [deviceName, ...structureDevices], ctx.point);
   const block = local?.circuit;
   const work = block ?? circuit;
-  const workResistor = block ? (findElement(block, resistor.name) as Resistor) : resistor;
+  const workResistor = block ? (block.elements[elementPosition(block, resistor.name)!] as Resistor) : resistor;
   const baseline = (local ? local.solver : ctx.solver).solve(baseOptions);
   solves++;
   if (!baseline.op.converged) {
