@@ -203,17 +203,18 @@ function handle(msg: ToWorker): void {
     case 'drop-parts':
       if (outgoing && outgoing.id === msg.analysisId) outgoing = undefined;
       return;
-    case 'next-part': {
-      const build = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[msg.index] : undefined;
-      if (!build) {
-        post({ type: 'failed', id: msg.id, message: `Part ${msg.index} of analysis ${msg.analysisId} is no longer available.` });
-        return;
+    case 'next-parts':
+      for (const { id, index } of msg.asks) {
+        const build = outgoing && outgoing.id === msg.analysisId ? outgoing.parts[index] : undefined;
+        if (!build) {
+          post({ type: 'failed', id, message: `Part ${index} of analysis ${msg.analysisId} is no longer available.` });
+          continue;
+        }
+        outgoing!.parts[index] = undefined;
+        if (index === outgoing!.parts.length - 1) outgoing = undefined;
+        post({ type: 'part', id, index, part: build() });
       }
-      outgoing!.parts[msg.index] = undefined;
-      if (msg.index === outgoing!.parts.length - 1) outgoing = undefined;
-      post({ type: 'part', id: msg.id, index: msg.index, part: build() });
       return;
-    }
     case 'monte-carlo': {
       const kept = keptHolding(msg.uri);
       if (!kept) {

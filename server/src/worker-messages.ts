@@ -49,8 +49,8 @@ export type ToWorker =
   | { type: 'corners'; id: number; uri: string; version: number; generation: number }
   /** The main thread stopped taking in the analysis answered to request `analysisId` (superseded): drop its remaining parts. */
   | { type: 'drop-parts'; analysisId: number }
-  /** Send part `index` of the analysis answered to request `analysisId`. */
-  | { type: 'next-part'; id: number; analysisId: number; index: number }
+  /** Send these parts of the analysis answered to request `analysisId`, in order, each answered under its own id (one message asks for several: each message costs the main thread a post). */
+  | { type: 'next-parts'; analysisId: number; asks: { id: number; index: number }[] }
   | { type: 'sweep'; id: number; uri: string; device: string; points: number }
   /** One chunk of Monte Carlo runs on the last analysis of root `uri`. */
   | { type: 'monte-carlo'; id: number; uri: string; seed: number; first: number; count: number; finish: boolean }

@@ -43,9 +43,30 @@ export function spreadText(v: OutputVariation): string {
 export function variationOfElement(analysis: Analysis, name: string): OutputVariation | undefined {
   const list = analysis.variation?.outputs;
   if (!list) return undefined;
-  const lower = name.toLowerCase();
-  const mine = list.filter((o) => o.element?.toLowerCase() === lower);
+  const mine = outputsByElement(list).get(name.toLowerCase()) ?? [];
   return mine.find((o) => o.key.includes(' out ')) ?? mine.find((o) => o.key.startsWith('element ')) ?? mine.find((o) => o.key.endsWith(' iref'));
+}
+
+/** Per list of outputs, its outputs by lower-case element name, in list order, with the list's length when it was built. */
+const byElement = new WeakMap<readonly OutputVariation[], { length: number; table: Map<string, OutputVariation[]> }>();
+
+/**
+ * The outputs of `list` by lower-case element name, built once per list (a hover on a large circuit read
+ * every output of the list, about ten thousand on the 20k sink array); built again if the list grew.
+ */
+function outputsByElement(list: readonly OutputVariation[]): Map<string, OutputVariation[]> {
+  const cached = byElement.get(list);
+  if (cached && cached.length === list.length) return cached.table;
+  const table = new Map<string, OutputVariation[]>();
+  for (const o of list) {
+    if (o.element === undefined) continue;
+    const key = o.element.toLowerCase();
+    const mine = table.get(key);
+    if (mine) mine.push(o);
+    else table.set(key, [o]);
+  }
+  byElement.set(list, { length: list.length, table });
+  return table;
 }
 
 const BARS = '▁▂▃▄▅▆▇█';

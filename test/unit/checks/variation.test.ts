@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { analyse, analyseSession, attachAllSizingFixes } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace, type Fix } from '../../../shared-analysis/src/types';
 import { elementCurrent } from '../../../shared-analysis/src/variation/outputs';
+import { variationOfElement } from '../../../shared-analysis/src/variation/text';
 import { derivativeOf, sensitivities } from '../../../shared-analysis/src/variation/sensitivity';
 
 function run(text: string) {
@@ -222,5 +223,38 @@ describe('Monte Carlo in the output characteristic', () => {
     expect(r.monteCarlo).toMatchObject({ runs: 200, converged: v.monteCarlo!.converged, mean: v.monteCarlo!.mean, sigma: v.monteCarlo!.sigma, linearSigma: v.sigma });
     expect(r.monteCarlo!.histogram.reduce((a, b) => a + b, 0)).toBe(r.monteCarlo!.converged);
     expect(r.monteCarlo!.target).toEqual({ low: 1e-3 * 0.94, high: 1e-3 * 1.06 });
+  });
+});
+
+describe('the variation of an element, as the hover reads it', () => {
+  it('is the output a plain scan of every output finds, for every element name in any case, and follows a list that grew', () => {
+    // Two mirrors, one with a target: outputs of structure currents, a target current and the references.
+    const text = `two mirrors
+VCC vcc 0 10
+RREF vcc ref 9.1k
+Q1 ref ref 0 qn
+Q2 out ref 0 qn ; expect 1mA ±6%
+RL vcc out 2k
+RREF2 vcc ref2 18k
+Q3 ref2 ref2 0 qn
+Q4 out2 ref2 0 qn
+RL2 vcc out2 2k
+.model qn npn(IS=1e-15 BF=200)
+.end
+`;
+    const a = run(text);
+    const list = a.variation!.outputs;
+    // The independent computation: the rule written out as a scan of the list.
+    const scan = (name: string) => {
+      const mine = list.filter((o) => o.element?.toLowerCase() === name.toLowerCase());
+      return mine.find((o) => o.key.includes(' out ')) ?? mine.find((o) => o.key.startsWith('element ')) ?? mine.find((o) => o.key.endsWith(' iref'));
+    };
+    const names = a.circuit!.elements.flatMap((e) => [e.name, e.name.toLowerCase(), e.name.toUpperCase()]);
+    expect(names.filter((n) => scan(n) !== undefined).length).toBeGreaterThan(3);
+    for (const name of [...names, 'nothing']) expect(variationOfElement(a, name), name).toBe(scan(name));
+    // An output added to the list after the first look-up is found too.
+    const extra = { ...list[0]!, key: 'element extra out ', element: 'QX' };
+    list.push(extra);
+    expect(variationOfElement(a, 'qx')).toBe(extra);
   });
 });
