@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { solveOperatingPoint, thermalVoltage } from '../../shared-analysis/src/solve/dc';
 import type { BjtRecord, MosRecord } from '../../shared-analysis/src/solve/types';
 import { circuit, model } from '../unit/solve/build';
+import { mosDrainCurrent, type MosP } from './level1-mosfet';
 
 // Source: BIPM SI Brochure, 9th ed. (2019): k and q exact.
 const VT27 = (1.380649e-23 * 300.15) / 1.602176634e-19;
@@ -110,18 +111,6 @@ describe('BJT equations (docs/DEVICE-MODELS.md, written out in the test)', () =>
   it('area multiplies IS and M multiplies every current', () => checkBjt('npn', 0.68, 2, { IS: 1e-15, VAF: 80 }, 'forward-active', { area: 4, m: 3 }));
 });
 
-type MosP = { KP: number; VTO: number; LAMBDA: number; GAMMA: number; PHI: number };
-
-/** docs/DEVICE-MODELS.md level-1 equations for VDS ≥ 0 (NMOS sense), written out for the test. */
-function squareLaw(vgs: number, vds: number, vbs: number, p: MosP, wl: number): number {
-  const vth = p.VTO + p.GAMMA * (Math.sqrt(p.PHI - vbs) - Math.sqrt(p.PHI));
-  const vov = vgs - vth;
-  const beta = p.KP * wl;
-  if (vov <= 0) return 0;
-  if (vds >= vov) return (beta / 2) * vov * vov * (1 + p.LAMBDA * vds);
-  return beta * (vov * vds - (vds * vds) / 2) * (1 + p.LAMBDA * vds);
-}
-
 /** Biases one MOSFET with ideal sources (own polarity, source grounded) and compares ID (into the drain) and region. */
 function checkMos(polarity: 'nmos' | 'pmos', vgs: number, vds: number, vbs: number, p: Partial<MosP>, region: string): MosRecord {
   const full: MosP = { KP: 2e-5, VTO: 0, LAMBDA: 0, GAMMA: 0, PHI: 0.6, ...p };
@@ -136,7 +125,7 @@ function checkMos(polarity: 'nmos' | 'pmos', vgs: number, vds: number, vbs: numb
   expect(r.op.converged).toBe(true);
   const rec = r.op.devices.M1 as MosRecord;
   // For VDS < 0 the channel is symmetric: the drain acts as source (VGD, −VDS, VBD) and the current reverses.
-  const expected = vds >= 0 ? squareLaw(vgs, vds, vbs, full, 10) : -squareLaw(vgs - vds, -vds, vbs - vds, full, 10);
+  const expected = mosDrainCurrent(vgs, vds, vbs, full, 10);
   // 1e-12 S across the channel is the solver's robustness conductance (common practice); it is included here.
   const gminPart = 1e-12 * vds;
   expect(Math.abs(rec.id - s * (expected + gminPart))).toBeLessThanOrEqual(1e-9 * Math.abs(expected) + 1e-18);

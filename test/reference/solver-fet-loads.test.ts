@@ -7,24 +7,12 @@
 import { describe, expect, it } from 'vitest';
 import { solveOperatingPoint } from '../../shared-analysis/src/solve/dc';
 import { circuit, model } from '../unit/solve/build';
+import { mosDrainCurrent, type MosP } from './level1-mosfet';
 
 // Source: BIPM SI Brochure, 9th ed. (2019): k and q exact.
 const VT27 = (1.380649e-23 * 300.15) / 1.602176634e-19;
 /** The 1 pS the solver places across every channel and junction (docs/DEVICE-MODELS.md, numerical guards). */
 const GMIN = 1e-12;
-
-type MosP = { KP: number; VTO: number; LAMBDA: number; GAMMA: number; PHI: number };
-
-/** Level-1 drain current in the N-channel sense for any VDS: the channel is symmetric, so for VDS < 0 the drain acts as source (docs/DEVICE-MODELS.md). */
-function mosDrainCurrent(vgs: number, vds: number, vbs: number, p: MosP, wl: number): number {
-  if (vds < 0) return -mosDrainCurrent(vgs - vds, -vds, vbs - vds, p, wl);
-  const vth = p.VTO + p.GAMMA * (Math.sqrt(p.PHI - vbs) - Math.sqrt(p.PHI));
-  const vov = vgs - vth;
-  const beta = p.KP * wl;
-  if (vov <= 0) return 0;
-  if (vds >= vov) return (beta / 2) * vov * vov * (1 + p.LAMBDA * vds);
-  return beta * (vov * vds - (vds * vds) / 2) * (1 + p.LAMBDA * vds);
-}
 
 type JfetP = { BETA: number; VTO: number; LAMBDA: number; IS: number };
 
