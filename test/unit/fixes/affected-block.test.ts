@@ -2,20 +2,11 @@
 
 import { describe, expect, it } from 'vitest';
 import type { Circuit, Resistor } from '../../../shared-analysis/src/circuit';
-import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { affectedBlock, sizeResistorForCurrent } from '../../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import type { DeviceRecord } from '../../../shared-analysis/src/solve/types';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-
-const URI = '/block.cir';
-
-function circuitOf(text: string): Circuit {
-  const { circuit } = elaborate(parse(URI, text, { hasTitle: true }), new MemoryWorkspace({ [URI]: text }), {});
-  return circuit;
-}
+import { circuitOf } from './elaborated';
 
 /** The one helper: the element names of the block around `resistor` (undefined when the circuit is not split). */
 function check(text: string, resistor: string, expected: string[] | undefined, mustHold: string[] = []): Circuit | undefined {

@@ -2,14 +2,10 @@
 
 import { describe, expect, it } from 'vitest';
 import type { Circuit, Resistor } from '../../../shared-analysis/src/circuit';
-import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { blockShape, blockSolver } from '../../../shared-analysis/src/fixes/block-solvers';
 import { affectedBlock } from '../../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver, type DcSolveResult } from '../../../shared-analysis/src/solve/dc';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-
-const URI = '/cells.cir';
+import { circuitOf } from './elaborated';
 
 // Invented: four NPN current sinks on a 5 V rail (reference resistor, diode-connected device, output
 // device, load). Cells 0–2 are equal but for their names; cell 3 has another reference resistor, and
@@ -28,10 +24,6 @@ const CELLS = [
   '.end',
   '',
 ].join('\n');
-
-function circuitOf(text: string): Circuit {
-  return elaborate(parse(URI, text, { hasTitle: true }), new MemoryWorkspace({ [URI]: text }), {}).circuit;
-}
 
 function blockOf(circuit: Circuit, i: number): Circuit {
   const rr = circuit.elements.find((e) => e.name === `RR${i}`) as Resistor;

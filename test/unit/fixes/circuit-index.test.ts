@@ -1,17 +1,8 @@
 // The per-circuit index sizing reads: names without letter case, node incidence and supply-fixed nodes, against brute-force scans written here.
 
 import { describe, expect, it } from 'vitest';
-import type { Circuit } from '../../../shared-analysis/src/circuit';
-import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { circuitIndex, elementNamed } from '../../../shared-analysis/src/fixes/circuit-index';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-
-const URI = '/index.cir';
-
-function circuitOf(text: string): Circuit {
-  return elaborate(parse(URI, text, { hasTitle: true }), new MemoryWorkspace({ [URI]: text }), {}).circuit;
-}
+import { circuitOf } from './elaborated';
 
 // Invented: two rails (one stacked on the other through a second source), a mirror, a floating divider.
 const TEXT = `index test

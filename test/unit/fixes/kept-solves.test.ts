@@ -2,13 +2,9 @@
 
 import { describe, expect, it } from 'vitest';
 import type { Circuit, Resistor } from '../../../shared-analysis/src/circuit';
-import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { sizingBlock } from '../../../shared-analysis/src/fixes/resistor-for-current';
 import { DcSolver, type DcSolveResult } from '../../../shared-analysis/src/solve/dc';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-
-const URI = '/latch.cir';
+import { circuitOf } from './elaborated';
 
 // An invented cross-coupled NPN pair (a set–reset latch without its inputs) on a 5 V rail, beside
 // five dividers on the same rail so that the latch is a block of its own. Each collector drives the
@@ -29,10 +25,6 @@ const LATCH = [
   '.end',
   '',
 ].join('\n');
-
-function circuitOf(text: string): Circuit {
-  return elaborate(parse(URI, text, { hasTitle: true }), new MemoryWorkspace({ [URI]: text }), {}).circuit;
-}
 
 /** A start for the block's unknowns with Q1 on (`q1On`) or off: its collector low and its base at a junction drop, or the reverse. */
 function startIn(block: Circuit, q1On: boolean): Float64Array {
