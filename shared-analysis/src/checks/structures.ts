@@ -2,8 +2,8 @@
 
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Model } from '../circuit';
-import type { OperatingPoint } from '../solve/types';
-import { namedPointReader, type NamedPointReader } from '../solve/point';
+import type { DeviceRecord, OperatingPoint } from '../solve/types';
+import { namedPointReader, pointVectors, type NamedPointReader } from '../solve/point';
 import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
@@ -181,6 +181,10 @@ class StructureCheck {
   private readonly off = new Set<string>();
   /** Reads `op` by name without building the records of every device. */
   private readonly at: NamedPointReader | undefined;
+  /** The solver's node voltages of `op` by index, when it has them (else `at` reads them by name). */
+  private readonly voltsByIndex: Float64Array | undefined;
+  /** The records of `op` read so far, by device: each is built once, though several checks read it. */
+  private readonly records = new Map<string, DeviceRecord | undefined>();
 
   constructor(
     private readonly circuit: Circuit,
@@ -198,6 +202,16 @@ class StructureCheck {
     this.bipolar = isBipolar(s.technology);
     this.temperatureC = op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC;
     this.at = op ? namedPointReader(op, topo) : undefined;
+    this.voltsByIndex = op ? pointVectors(op)?.volts : undefined;
+  }
+
+  /** The record of a device at `op` (undefined without a solve). */
+  private record(name: string): DeviceRecord | undefined {
+    if (!this.at) return undefined;
+    if (this.records.has(name)) return this.records.get(name);
+    const rec = this.at.record(name);
+    this.records.set(name, rec);
+    return rec;
   }
 
   private t(name: string): Transistor {
@@ -207,14 +221,14 @@ class StructureCheck {
   }
 
   private v(node: number): number | undefined {
-    const x = this.at?.volts(this.topo.nodeName(node));
+    const x = this.voltsByIndex ? this.voltsByIndex[node] : this.at?.volts(this.topo.nodeName(node));
     return x !== undefined && Number.isFinite(x) ? x : undefined;
   }
 
   run(): Finding[] {
     const s = this.s;
     if (this.op && this.measured) {
-      for (const d of s.devices) if (recordIsOff(this.at!.record(d))) this.off.add(d);
+      for (const d of s.devices) if (recordIsOff(this.record(d))) this.off.add(d);
       s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
       // Tables keyed by device names are prototype-free: a literal would give every structure hidden classes of its own.
       s.headroom = nameTable(this.measured.headroom);
@@ -262,7 +276,7 @@ class StructureCheck {
   private collectorCurrents(): Record<string, number> {
     const out: Record<string, number> = nameTable();
     for (const d of this.s.devices) {
-      const rec = this.at?.record(d);
+      const rec = this.record(d);
       if (rec && rec.type === 'bjt') out[d] = rec.ic;
     }
     return out;
@@ -309,7 +323,7 @@ class StructureCheck {
       const vb = this.v(t.ctrl);
       if (vb === undefined) return undefined;
       if (this.bipolar) return vb;
-      const rec = this.at!.record(device);
+      const rec = this.record(device);
       // MosRecord.vov is in the device's own polarity (positive when on): edge = V(source) ± VOV.
       if (rec && rec.type === 'mosfet') {
         const vs = this.v(t.common);
@@ -332,7 +346,7 @@ class StructureCheck {
   private smallSignal(name: string, i: number): SmallSignal {
     const t = this.t(name);
     const p = t.element.model.params;
-    const rec = this.at?.record(name);
+    const rec = this.record(name);
     if (this.bipolar) {
       const beta = p.BF > 0 ? p.BF : 100;
       if (rec && rec.type === 'bjt' && rec.gm > 0) {
@@ -404,7 +418,7 @@ class StructureCheck {
    * 5th ed., ch. 1/3; from memory). Active outputs (gμ ≈ 0) are left as the kind computed them.
    */
   private saturatedBaseLoading(o: StructureOutput, out: SmallSignal, r: number, ctx: ResistanceContext): number {
-    const rec = this.at?.record(o.device);
+    const rec = this.record(o.device);
     if (!rec || rec.type !== 'bjt' || rec.region !== 'saturation' || !(rec.gmu > 0) || !(r > 0) || r >= UNBOUNDED_OHMS) return r;
     if (this.t(o.device).ctrl !== this.t(this.s.reference.device).ctrl) return r;
     const q1 = this.smallSignal(this.s.reference.device, ctx.irefOr(0));
@@ -453,7 +467,7 @@ class StructureCheck {
     }
     for (const d of this.measured?.outOfRegion ?? []) {
       if (this.off.has(d)) continue;
-      const rec = this.at?.record(d);
+      const rec = this.record(d);
       const saturated = rec?.type === 'bjt' && rec.region === 'saturation';
       reasons.push(
         `${d} is out of its active region at the operating point` +
@@ -622,7 +636,7 @@ class StructureCheck {
       const edge = this.edgeVolts(o.device);
       const vout = this.v(t.out);
       if (off || this.measured.outOfRegion.includes(o.device)) {
-        const rec = this.at!.record(o.device);
+        const rec = this.record(o.device);
         const facts = TECHNOLOGIES[this.s.technology];
         const region = off ? 'cutoff' : rec && (rec.type === 'bjt' || rec.type === 'mosfet' || rec.type === 'jfet') ? rec.region : head < 0 ? facts.beyondRegion : 'cutoff';
         const err = active > 0 ? (solved - active) / active : 0;

@@ -152,7 +152,8 @@ export class Hand {
   readonly sign: 1 | -1;
   readonly bipolar: boolean;
   readonly vt: number;
-  readonly railVolts = new Map<number, number>();
+  /** Rail potentials by node index: the circuit's (shared by every structure of it), or a copy with the supply corner's overrides. */
+  readonly railVolts: ReadonlyMap<number, number>;
   /** Per-structure numbers a kind keeps between evaluations at trial currents (e.g. a Newton start). */
   readonly memo = new Map<string, number>();
   private readonly params = new Map<string, DeviceParams>();
@@ -171,11 +172,7 @@ export class Hand {
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
     this.vt = thermalVolts(at.temperatureC);
-    for (const [i, r] of railsByIndex(circuit)) this.railVolts.set(i, r.volts);
-    for (const [name, v] of Object.entries(at.railVolts ?? {})) {
-      const i = this.topo.nodeIndex.get(name);
-      if (i !== undefined && Number.isFinite(v)) this.railVolts.set(i, v);
-    }
+    this.railVolts = at.railVolts ? railVoltsWith(circuit, this.topo, at.railVolts) : railVoltsOf(circuit);
   }
 
   /** The device's parameters at the analysis conditions (throws for a name that is not a transistor of the circuit). */
@@ -275,8 +272,13 @@ export class Hand {
   /** The node every current of the structure returns to. */
   commonNode(): number | undefined {
     if (this.commonOf) return this.commonOf(this);
-    const lower = this.role('lower-diode')[0];
-    return (lower ?? this.refT()).common;
+    const s = this.s;
+    // The first lower diode of the structure (as `role('lower-diode')[0]`), else the reference.
+    for (const d of s.devices) {
+      const t = s.roles?.[d] === 'lower-diode' ? this.topo.byName.get(d) : undefined;
+      if (t) return t.common;
+    }
+    return this.refT().common;
   }
 
   /** Potential of the common node, when it is a rail (looked up once: the IREF solve asks at every trial current). */
@@ -387,6 +389,29 @@ export class Hand {
   bulkText(vsb: number): string {
     return Math.abs(vsb) > 1e-12 ? ` at VSB = ${eng(vsb, 'V')}` : '';
   }
+}
+
+const railVoltsCache = new WeakMap<Circuit, ReadonlyMap<number, number>>();
+
+/** The circuit's rail potentials by node index, made once per Circuit object and shared (read only). */
+function railVoltsOf(circuit: Circuit): ReadonlyMap<number, number> {
+  let m = railVoltsCache.get(circuit);
+  if (!m) {
+    const own = new Map<number, number>();
+    for (const [i, r] of railsByIndex(circuit)) own.set(i, r.volts);
+    railVoltsCache.set(circuit, (m = own));
+  }
+  return m;
+}
+
+/** The circuit's rail potentials with `overrides` (node name → volts; a name that is no node, or a value that is not finite, is left out). */
+function railVoltsWith(circuit: Circuit, topo: Topology, overrides: Record<string, number>): ReadonlyMap<number, number> {
+  const m = new Map(railVoltsOf(circuit));
+  for (const [name, v] of Object.entries(overrides)) {
+    const i = topo.nodeIndex.get(name);
+    if (i !== undefined && Number.isFinite(v)) m.set(i, v);
+  }
+  return m;
 }
 
 /** The root of a function that rises with its argument, on [0, hi] (the bracket is widened when g(hi) < 0), by bisection. */

@@ -50,8 +50,7 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
   const iout: Record<string, number> = nameTable();
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
-  const count = outputs.length;
-  const sink: OutputSink = { current: new Float64Array(count), headroom: new Float64Array(count), outOfRegion: new Uint8Array(count), first: 0, stride: 1 };
+  const sink = scratchSink(outputs.length);
   const iref = runMeasurement(plans, i, reader, sink);
   outputs.forEach(({ device }, o) => {
     iout[device] = sink.current[o];
@@ -59,6 +58,25 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
     if (sink.outOfRegion[o]) outOfRegion.push(device);
   });
   return { iref, iout, headroom, outOfRegion };
+}
+
+let scratch: OutputSink | undefined;
+
+/**
+ * A sink for `count` outputs at stride 1, shared by every `measurePlanned` call (each reads it back
+ * before the next call writes it): three typed arrays per structure measured were most of its cost.
+ */
+function scratchSink(count: number): OutputSink {
+  if (!scratch || scratch.current.length < count) {
+    const n = Math.max(count, 16);
+    scratch = { current: new Float64Array(n), headroom: new Float64Array(n), outOfRegion: new Uint8Array(n), first: 0, stride: 1 };
+  } else {
+    // What a plan with fewer outputs leaves unwritten reads as 0, as in fresh arrays.
+    scratch.current.fill(0, 0, count);
+    scratch.headroom.fill(0, 0, count);
+    scratch.outOfRegion.fill(0, 0, count);
+  }
+  return scratch;
 }
 
 /** A structure's measurement with every name resolved to an element or node index, for measuring it at many points. */

@@ -5,7 +5,8 @@ import { KINDS } from './catalogue';
 import { Matcher, type Draft } from './match';
 import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from './types';
 import { isOnlyRatio } from './matching';
-import { nameTable } from '../names';
+import { nameTable, own } from '../names';
+import type { Attachment } from './topology';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -27,9 +28,8 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
   const m = new Matcher(circuit);
   const drafts: Draft[] = [];
   for (const kind of KINDS) {
-    const wantDiode = kind.seeds === 'diode-connected';
-    for (const t of m.ordered) {
-      if ((t.out === t.ctrl) !== wantDiode || m.isClaimed(t) || !kind.technologies.includes(t.tech)) continue;
+    for (const t of m.seeds(kind.seeds)) {
+      if (m.isClaimed(t) || !kind.technologies.includes(t.tech)) continue;
       const d = kind.recognise(m, t);
       if (!d) continue;
       m.claim(d);
@@ -47,23 +47,19 @@ function toStructure(m: Matcher, d: Draft): Structure {
   const devices = d.members.map((x) => x.t.name);
   const roles: Record<string, StructureRole> = nameTable();
   for (const x of d.members) roles[x.t.name] = x.role;
-  return {
-    id: `${d.kind}:${d.reference.name}`,
-    kind: d.kind,
-    technology: d.reference.tech,
-    devices,
-    roles,
-    reference: { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [], ...(d.refDegeneration ? { degeneration: d.refDegeneration } : {}) },
-    outputs: d.outputs.map((o) => withIsRatio(m, d, o)),
-    ...(d.parts ? { parts: d.parts } : {}),
-    ...(d.params ? { params: d.params } : {}),
-    ...(d.voltages ? { voltages: d.voltages.map((v) => ({ ...v })) } : {}),
-    instance: instancePrefix(devices),
-    headroom: nameTable(),
-    compliance: {},
-    outputResistance: {},
-    corners: [],
-  };
+  const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
+  if (d.refDegeneration) reference.degeneration = d.refDegeneration;
+  // Optional fields are added in the order the JSON shows them (a literal of spreads built a temporary object per field).
+  const s = { id: `${d.kind}:${d.reference.name}`, kind: d.kind, technology: d.reference.tech, devices, roles, reference, outputs: d.outputs.map((o) => withIsRatio(m, d, o)) } as Structure;
+  if (d.parts) s.parts = d.parts;
+  if (d.params) s.params = d.params;
+  if (d.voltages) s.voltages = d.voltages.map((v) => ({ ...v }));
+  s.instance = instancePrefix(devices);
+  s.headroom = nameTable();
+  s.compliance = {};
+  s.outputResistance = {};
+  s.corners = [];
+  return s;
 }
 
 /**
@@ -84,14 +80,11 @@ function withIsRatio(m: Matcher, d: Draft, o: StructureOutput): StructureOutput 
  * devices outside the structure (base-current loads) and capacitors do not count as feeds.
  */
 function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
-  const base: ReferenceBranch = { ...s.reference, feed: 'other', elements: [] };
-  const members = new Set([...s.devices, ...Object.keys(s.parts ?? {})]);
-  const feeds = m.topo
-    .conducting(d.refNode)
-    .filter((a) => !members.has(a.element.name))
-    .filter((a) => !((a.element.kind === 'Q' || a.element.kind === 'J') && a.slot === 1));
-  if (feeds.length !== 1) return base;
-  const { element: el, slot } = feeds[0];
+  // `toStructure` made the reference afresh, fed by 'other' with no elements: the answer when nothing better is found.
+  const base = s.reference;
+  const feed = soleFeed(m, d.refNode, s);
+  if (!feed) return base;
+  const { element: el, slot } = feed;
   if (el.kind === 'I') return { ...base, feed: 'current-source', elements: [el.name] };
   if ((el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && slot === 0) {
     const from = owner.get(el.name);
@@ -116,6 +109,23 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, 
     r = onward[0].element as Resistor;
     node = next;
   }
+}
+
+/**
+ * The one DC connection of the reference node that feeds it, or undefined when there are none or
+ * several: the structure's devices and parts, control terminals of bipolar and JFET devices outside
+ * it (base-current loads) and capacitors do not count.
+ */
+function soleFeed(m: Matcher, refNode: number, s: Structure): Attachment | undefined {
+  let found: Attachment | undefined;
+  for (const a of m.topo.conducting(refNode)) {
+    const el = a.element;
+    if (s.devices.includes(el.name) || own(s.parts, el.name) !== undefined) continue;
+    if ((el.kind === 'Q' || el.kind === 'J') && a.slot === 1) continue;
+    if (found) return undefined;
+    found = a;
+  }
+  return found;
 }
 
 /** The hierarchical instance prefix (`X1.`, `X1.X2.`) shared by every device name, or '' at top level. */

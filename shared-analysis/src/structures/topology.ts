@@ -22,6 +22,10 @@ export interface Transistor {
   /** MOS bulk node; undefined for a BJT. */
   bulk?: number;
   scale: number;
+  /** Position in its topology's `transistors` (-1 outside one). */
+  index: number;
+  /** `index` of the first transistor of this name in its topology (devices that share a name share it). */
+  nameIndex: number;
 }
 
 /** The transistor view of an element, or undefined for anything else (or a device whose model kind does not fit). */
@@ -33,12 +37,12 @@ export function asTransistor(e: Element): Transistor | undefined {
     const wl = positive(e.w, 1) / positive(e.l, 1);
     // A subnormal length (L=1e-320) makes W/L infinite: no ratio to reason with.
     if (!Number.isFinite(wl * positive(e.m, 1))) return undefined;
-    return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: e.nodes[3], scale: wl * positive(e.m, 1) };
+    return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: e.nodes[3], scale: wl * positive(e.m, 1), index: -1, nameIndex: -1 };
   }
   const scale = positive(e.area, 1) * positive(e.m, 1);
   // A geometry that overflows (AREA=1e300 M=1e300) gives no ratio to reason with.
   if (!Number.isFinite(scale)) return undefined;
-  return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], scale };
+  return { name: e.name, element: e, tech, out: e.nodes[0], ctrl: e.nodes[1], common: e.nodes[2], bulk: undefined, scale, index: -1, nameIndex: -1 };
 }
 
 function positive(v: number, fallback: number): number {
@@ -94,6 +98,8 @@ export class Topology {
       }
       const t = asTransistor(e);
       if (t) {
+        t.index = this.transistors.length;
+        t.nameIndex = this.byName.get(t.name)?.nameIndex ?? t.index;
         this.transistors.push(t);
         this.byName.set(t.name, t);
         push(this.byCtrl, t.ctrl, t);
