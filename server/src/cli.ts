@@ -17,7 +17,7 @@ import { capitalised, kindName } from '../../shared-analysis/src/structures/cata
 import { derivedVoltageLines, outputWords, startupLine } from '../../shared-analysis/src/features/structure-words';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
-import { escapeControls, escapeJsonText } from './escape';
+import { escapeControls, escapedJsonBytes } from './escape';
 import { JsonEntries, JsonItems, JsonText, writeJson } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
@@ -87,7 +87,9 @@ Options:
                                substituted, value) in its estimate; left out by default
   --spread-breakdown           JSON: every ranked spread contributor of each output (by default
                                the three largest) and its largest sensitivities (left out by default)
-  --compact                    JSON and SARIF on one line, without indentation
+  --indented                   JSON and SARIF indented two spaces a level, for reading (by
+                               default they are written on one line, about half the size)
+  --compact                    JSON and SARIF on one line (the default; undoes --indented)
   --severity CODE=LEVEL        override one finding's severity (error|warning|info|hint|off); repeatable
   --fail-level error|warning|info|hint   lowest severity that makes 'check' exit 1 (default error)
   --include-root DIR           also let .include read files under DIR; repeatable
@@ -157,8 +159,8 @@ interface CliOptions {
   handAnalysisSteps: boolean;
   /** JSON: each output's ranked spread contributors and sensitivities. */
   spreadBreakdown: boolean;
-  /** JSON and SARIF without indentation. */
-  compact: boolean;
+  /** JSON and SARIF indented for reading (`--indented`); on one line by default. */
+  indented: boolean;
   /** `--workers N`: files analysed at once on worker threads; 1 analyses them one after another in this thread. */
   workers?: number;
   /** `--file-time-limit S` in milliseconds: how long one file may take in a worker before it is stopped and reported. */
@@ -231,7 +233,7 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
-  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, handAnalysisSteps: false, spreadBreakdown: false, compact: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
+  const opts: CliOptions = { command, files: [], format: command === 'sweep' ? 'csv' : 'text', failLevel: 'error', analysis: { maxElements: CLI_MAX_ELEMENTS }, includeRoots: [], includeAnywhere: false, allCorners: false, handAnalysisSteps: false, spreadBreakdown: false, indented: false, points: 81, fileTimeLimitMs: DEFAULT_FILE_TIME_LIMIT_S * 1000, chartsPerFile: MAX_PLOTS_PER_FILE };
   const corners: NonNullable<AnalysisOptions['corners']> = {};
   const severities: Record<string, Severity | 'off'> = Object.create(null);
   const catalogue = findingCatalogue();
@@ -364,8 +366,11 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
         opts.chartsPerFile = v;
         break;
       }
+      case '--indented':
+        opts.indented = true;
+        break;
       case '--compact':
-        opts.compact = true;
+        opts.indented = false;
         break;
       case '--severity': {
         const spec = next() ?? '';
@@ -526,7 +531,7 @@ function outcomeOf(opts: CliOptions, index: number, r: FileResult, written: bool
     else {
       // Written at the depth of a file in the document (version, files: [ here ]), unescaped: the document's writer escapes.
       const pieces: string[] = [];
-      writeJson(entry, (t) => pieces.push(t), { indent: opts.compact ? 0 : 2, depth: 2 });
+      writeJson(entry, (t) => pieces.push(t), { indent: jsonIndent(opts), depth: 2 });
       out.jsonPieces = pieces;
     }
   } else if (opts.format === 'sarif') out.sarif = sarifParts(r);
@@ -655,9 +660,11 @@ function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
  * The version of the CLI's JSON document: 2 summarises corners per output unless `--all-corners`
  * asks for them all; 3 leaves each estimate's `steps` out unless `--hand-analysis-steps` asks for
  * them, and each output's spread `sensitivities` and all but its three largest `contributors` unless
- * `--spread-breakdown` asks for them.
+ * `--spread-breakdown` asks for them; 4 names a corner in the summaries by its ASCII key only, the
+ * file's `corners` giving each key's label and conditions once (and is written on one line unless
+ * `--indented`).
  */
-export const JSON_VERSION = 3;
+export const JSON_VERSION = 4;
 
 /** What the JSON document holds beyond its default content. */
 export interface JsonDetail {
@@ -700,6 +707,8 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
   const reader = op && a.circuit ? pointReader(a.circuit, op) : undefined;
   const elements = a?.circuit?.elements;
   const analysisOptions = a?.options;
+  const keyOf = cornerKeys();
+  const corners = a ? cornersForJson(a.structures, keyOf) : undefined;
   return {
     path: r.path,
     diagnostics: toJsonDiagnostics(r),
@@ -712,7 +721,8 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
             : powerTable(elements, op.devices, analysisOptions),
         }
       : {}),
-    ...(a ? { structures: structuresForJson(a.structures, options) } : {}),
+    ...(corners ? { corners } : {}),
+    ...(a ? { structures: structuresForJson(a.structures, options, keyOf) } : {}),
     ...(a?.variation ? { variation: variationForJson(a.variation, a.structures, options) } : {}),
   };
 }
@@ -757,17 +767,49 @@ function pointForJson(op: OperatingPoint): unknown {
   });
 }
 
-/**
- * A file's structures as JSON shows them: each entry made when it is written (`JsonItems`) and dropped
- * after, the corners' keys worked out once per label (the structures share the same few corners).
- */
-function structuresForJson(structures: readonly Structure[], detail: JsonDetail): JsonItems {
+/** A corner label's key (`cornerKey`), worked out once per label: a file's structures share the same few corners. */
+function cornerKeys(): (label: string) => string {
   const keys = new Map<string, string>();
-  const keyOf = (label: string): string => {
+  return (label) => {
     let k = keys.get(label);
     if (k === undefined) keys.set(label, (k = cornerKey(label)));
     return k;
   };
+}
+
+/**
+ * The corners a file's structures were solved at, once for the file: by ASCII key, the corner's label
+ * as the messages name it and its conditions (`supplyScale`, `temperatureC`, `betaScale`, and
+ * `process` where the MOS process is not typical). The structures' corner summaries name corners by
+ * key only; repeating each label there made up a tenth of a large array's summaries, and its
+ * non-ASCII characters made the writer handle nearly every chunk of the document as two-byte text.
+ * Undefined when no structure was solved at corners.
+ */
+function cornersForJson(structures: readonly Structure[], keyOf: (label: string) => string): Record<string, unknown> | undefined {
+  const table: Record<string, unknown> = nameTable();
+  let any = false;
+  const add = (label: string, supplyScale: number, temperatureC: number, betaScale: number, process: string | undefined): void => {
+    const key = keyOf(label);
+    if (table[key] !== undefined) return;
+    table[key] = { label, supplyScale, temperatureC, betaScale, ...(process ? { process } : {}) };
+    any = true;
+  };
+  // The structures of one analysis share one corner axis: each axis (or list of records) is read once.
+  const axesSeen = new Set<unknown>();
+  for (const s of structures) {
+    const cols = cornerColumns(s);
+    if (cols) {
+      if (axesSeen.has(cols.axis)) continue;
+      axesSeen.add(cols.axis);
+      const ax = cols.axis;
+      ax.labels.forEach((label, k) => add(label, ax.supplyScale[k]!, ax.temperatureC[k]!, ax.betaScale[k]!, ax.process[k]));
+    } else for (const c of s.corners) add(c.label, c.supplyScale, c.temperatureC, c.betaScale, c.process);
+  }
+  return any ? table : undefined;
+}
+
+/** A file's structures as JSON shows them: each entry made when it is written (`JsonItems`) and dropped after. */
+function structuresForJson(structures: readonly Structure[], detail: JsonDetail, keyOf: (label: string) => string): JsonItems {
   return new JsonItems(structures.length, (i) => structureForJson(structures[i]!, detail, keyOf));
 }
 
@@ -850,9 +892,9 @@ function cornerSummary(s: Structure, keyOf: (label: string) => string): unknown 
   };
 }
 
-/** A value at a corner: the corner's ASCII key and its label as people read it. */
-function cornerValue(x: { value: number; corner: string }, keyOf: (label: string) => string): { value: number; corner: string; label: string } {
-  return { value: x.value, corner: keyOf(x.corner), label: x.corner };
+/** A value at a corner: the corner's ASCII key (the file's `corners` give its label and conditions). */
+function cornerValue(x: { value: number; corner: string }, keyOf: (label: string) => string): { value: number; corner: string } {
+  return { value: x.value, corner: keyOf(x.corner) };
 }
 
 /**
@@ -1060,9 +1102,17 @@ export function textReport(r: FileResult): string {
 
 const VERSION = '0.1.0';
 
-/** Writes a JSON document in chunks (never as one string), indented unless `--compact`, control characters escaped. */
-function writeDocument(doc: unknown, opts: CliOptions, write: (s: string) => void): void {
-  writeJson(doc, write, { indent: opts.compact ? 0 : 2, transform: escapeJsonText });
+/** Spaces per level of the JSON and SARIF documents: none (one line) unless `--indented`. */
+function jsonIndent(opts: CliOptions): number {
+  return opts.indented ? 2 : 0;
+}
+
+/**
+ * Writes a JSON document in chunks (never as one string) of UTF-8 bytes, on one line unless
+ * `--indented`, control characters escaped.
+ */
+function writeDocument(doc: unknown, opts: CliOptions, write: Sink): void {
+  writeJson(doc, (text) => write(escapedJsonBytes(text)), { indent: jsonIndent(opts) });
   write('\n');
 }
 
@@ -1071,8 +1121,11 @@ function reportFiles(results: FileResult[]): ReportFile[] {
   return results.map((r) => ({ path: r.path, analysis: r.analysis, diagnostics: toJsonDiagnostics(r) }));
 }
 
+/** Where the CLI's output goes: text, or a JSON document's UTF-8 bytes. */
+type Sink = (chunk: string | Uint8Array) => void;
+
 /** Writes `text` to `file` (`-o`) or the standard output; false after saying why a file could not be written. */
-function writeOut(file: string | undefined, text: string, write: (s: string) => void): boolean {
+function writeOut(file: string | undefined, text: string | Uint8Array, write: Sink): boolean {
   if (file === undefined || file === '-') {
     write(text);
     return true;
@@ -1087,7 +1140,7 @@ function writeOut(file: string | undefined, text: string, write: (s: string) => 
 }
 
 /** `qpoint sweep FILE --output DEVICE`: the output characteristic as CSV (volts, amperes) or a standalone SVG. */
-function sweepCommand(opts: CliOptions, r: FileResult, write: (s: string) => void): number {
+function sweepCommand(opts: CliOptions, r: FileResult, write: Sink): number {
   if (!r.analysis) {
     process.stderr.write(escapeControls(toJsonDiagnostics(r).map((d) => `qpoint: ${d.message}`).join('\n')) + '\n');
     return EXIT.failed;
@@ -1117,7 +1170,7 @@ function sweepCommand(opts: CliOptions, r: FileResult, write: (s: string) => voi
  * Runs the CLI; gives the exit code (see EXIT), or a promise of it when the files run on worker
  * threads (`--workers`, several files): one file, or `--workers 1`, runs in this thread at once.
  */
-export function main(argv: string[], write: (s: string) => void = (s) => process.stdout.write(s)): number | Promise<number> {
+export function main(argv: string[], write: Sink = (chunk) => process.stdout.write(chunk)): number | Promise<number> {
   let opts: ReturnType<typeof parseArgs>;
   try {
     opts = parseArgs(argv);
@@ -1151,7 +1204,7 @@ function printInternalError(file: string, error: string): void {
 }
 
 /** Writes a run's output from its files' outcomes, in the files' order, and gives the exit code. */
-function writeRun(opts: CliOptions, write: (s: string) => void, outcomes: FileOutcome[]): number {
+function writeRun(opts: CliOptions, write: Sink, outcomes: FileOutcome[]): number {
   for (const o of outcomes) if (o.internalError) printInternalError(o.path, o.internalError);
   const failed = outcomes.some((o) => o.failed);
   const failing = outcomes.some((o) => o.failing);
@@ -1164,9 +1217,9 @@ function writeRun(opts: CliOptions, write: (s: string) => void, outcomes: FileOu
       // The JSON document is written in chunks, to the file of -o when there is one.
       if (opts.outFile === undefined || opts.outFile === '-') writeDocument(doc, opts, write);
       else {
-        const chunks: string[] = [];
-        writeDocument(doc, opts, (s) => chunks.push(s));
-        if (!writeOut(opts.outFile, chunks.join(''), write)) return EXIT.failed;
+        const chunks: Uint8Array[] = [];
+        writeDocument(doc, opts, (chunk) => chunks.push(typeof chunk === 'string' ? Buffer.from(chunk, 'utf8') : chunk));
+        if (!writeOut(opts.outFile, Buffer.concat(chunks), write)) return EXIT.failed;
       }
       return failed ? EXIT.failed : EXIT.clean;
     }

@@ -39,7 +39,7 @@ describe('qpoint check', () => {
     const p = file('bad2.cir', 'Bad model\nV1 a 0 5\nR1 a b 1k\nQ1 b b 0 NOSUCH\n.end\n');
     const r = run(['check', '--format', 'json', p]);
     const doc = JSON.parse(r.stdout);
-    expect(doc.version).toBe(3);
+    expect(doc.version).toBe(4);
     expect(doc.files).toHaveLength(1);
     expect(doc.files[0].path).toBe(p);
     const d = doc.files[0].diagnostics.find((x: { code: string }) => x.code === 'model-not-found');
@@ -62,9 +62,11 @@ describe('qpoint check', () => {
     expect(Math.abs(s.solved.iout.Q2 - s.estimate.iout.Q2) / s.estimate.iout.Q2).toBeLessThan(0.005);
   });
 
-  it('summarises each output over the corners by default, lists every corner on request, and writes one line with --compact', () => {
+  it('summarises each output over the corners by default, lists every corner on request, and writes one line unless --indented', () => {
     const p = file('mc.cir', MIRROR);
-    const summary = JSON.parse(run(['check', '--format', 'json', p]).stdout).files[0].structures[0];
+    const plain = run(['check', '--format', 'json', p]).stdout;
+    const entry = JSON.parse(plain).files[0];
+    const summary = entry.structures[0];
     expect(summary.corners).toBeUndefined();
     expect(summary.cornerSummary.corners).toBe(26);
     const all = JSON.parse(run(['check', '--format', 'json', '--all-corners', p]).stdout).files[0].structures[0];
@@ -77,15 +79,26 @@ describe('qpoint check', () => {
     expect(out.maxCurrent.value).toBe(Math.max(...currents));
     expect(out.minHeadroom.value).toBe(Math.min(...all.corners.map((c: { headroom: Record<string, number> }) => c.headroom.Q2)));
     const at = all.corners.find((c: { iout: Record<string, number> }) => c.iout.Q2 === out.maxCurrent.value);
-    expect(out.maxCurrent.label).toBe(at.label);
+    // A summary names its corner by key; the file's corners give each key's label and conditions once.
     expect(out.maxCurrent.corner).toMatch(/^[\x21-\x7e]+$/);
+    expect(out.maxCurrent.label).toBeUndefined();
+    expect(entry.corners[out.maxCurrent.corner].label).toBe(at.label);
+    expect(Object.keys(entry.corners)).toHaveLength(26);
+    for (const c of all.corners) {
+      const listed = Object.values(entry.corners).find((x) => (x as { label: string }).label === c.label);
+      expect(listed).toEqual({ label: c.label, supplyScale: c.supplyScale, temperatureC: c.temperatureC, betaScale: c.betaScale });
+    }
     // Source: (common practice) a larger supply gives the resistor-fed reference more current: the maximum is at +5 %.
-    expect(out.maxCurrent.label).toMatch(/^supply \+5 %/);
-    const compact = run(['check', '--format', 'json', '--compact', p]).stdout;
-    expect(compact.trimEnd().split('\n')).toHaveLength(1);
-    // Timings ('ms') differ from run to run; everything else must be the same document.
+    expect(entry.corners[out.maxCurrent.corner].label).toMatch(/^supply \+5 %/);
+    expect(entry.corners[out.maxCurrent.corner].supplyScale).toBeGreaterThan(1);
+    expect(plain.trimEnd().split('\n')).toHaveLength(1);
+    const indented = run(['check', '--format', 'json', '--indented', p]).stdout;
+    expect(indented.split('\n').length).toBeGreaterThan(100);
+    expect(indented).toContain('\n  "tool": "qpoint",\n');
+    // Timings ('ms') differ from run to run; everything else must be the same document, and --compact is the default.
     const untimed = (t: string) => JSON.parse(t, (k, v) => (k === 'ms' ? undefined : v));
-    expect(untimed(compact)).toEqual(untimed(run(['check', '--format', 'json', p]).stdout));
+    expect(untimed(indented)).toEqual(untimed(plain));
+    expect(untimed(run(['check', '--format', 'json', '--indented', '--compact', p]).stdout)).toEqual(untimed(plain));
   });
 
   it('leaves the hand-analysis steps out of the JSON unless --hand-analysis-steps asks for them, and changes nothing else', () => {
