@@ -17,6 +17,8 @@ import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
 import { modelValue } from '../variation/sensitivity';
 import { nameTable } from '../names';
+import { feedLoops } from '../structures/loops';
+import { CornerStarts } from './corner-starts';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const CORNER_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -79,6 +81,11 @@ export interface CornerContext {
   startOf?: (spec: CornerSpec, k: number) => Float64Array | undefined;
   /** Told each converged corner's solution (the solver's own vector, overwritten by the next solve: copy what is kept). */
   solved?: (spec: CornerSpec, k: number, x: Float64Array) => void;
+  /**
+   * False: every corner without a start of the host's starts from the nominal point (the plain path, for tests).
+   * Otherwise a corner that moves several axes starts from a prediction of the corners solved before it (`CornerStarts`).
+   */
+  predictStarts?: boolean;
 }
 
 /** Effort of one `runCorners` call. */
@@ -225,7 +232,8 @@ interface OutputSweep {
 }
 
 /**
- * Solves every corner once for the whole circuit (warm-started from the nominal solution),
+ * Solves every corner once for the whole circuit (warm-started from the nominal solution, or from a
+ * prediction of the corners solved before it: see `CornerStarts`),
  * measures every structure from each corner's point, fills `structure.corners`, and returns the
  * corner findings in a deterministic order (structures in the given order, outputs in order).
  */
@@ -262,36 +270,25 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const flat = flattenPlans(plans);
   const sink: OutputSink = { current: new Float64Array(0), headroom: new Float64Array(0), outOfRegion: new Uint8Array(0), first: 0, stride: C };
   let failedCount = 0;
-  specs.forEach((spec, k) => {
+  // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.
+  const starts = ctx.predictStarts === false || feedLoops(topology, structures).length > 0 ? undefined : new CornerStarts(specs, nominalC, nominal.x);
+  for (const k of starts?.order() ?? specs.map((_, k) => k)) {
+    const spec = specs[k];
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
     const sourceValues = cornerSourceValues(spec, sources, dcOf);
     // Each corner's point is read here and dropped before the next solve: its vectors can be reused.
     const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
-    let result: DcSolveResult | undefined;
     const ts = clock();
-    try {
-      const own = ctx.startOf?.(spec, k);
-      if (own) {
-        result = solver.solve({ ...opts, initialGuess: own, initialGuessTemperatureC: spec.temperatureC });
-        if (!result.op.converged) {
-          iterations += result.stats.iterations;
-          result = undefined;
-        }
-      }
-      result ??= solver.solve(opts);
-    } catch (e) {
-      // Stopped inside the solve (the same check as between solves, asked before each Newton iteration).
-      if (e instanceof SolveStopped) throw ctx.stop?.() ?? e;
-      // The solver promises not to throw otherwise; a corner that does anyway counts as not converged.
-      result = undefined;
-    }
+    const solved = solveCorner(solver, opts, ctx.startOf?.(spec, k), starts, k, ctx.stop);
     solveMs += clock() - ts;
-    iterations += result?.stats.iterations ?? 0;
+    iterations += solved.iterations;
+    const result = solved.result;
     if (!result || !result.op.converged) {
       failedCount++;
-      return;
+      continue;
     }
     axis.converged[k] = 1;
+    starts?.solved(k, result.x);
     ctx.solved?.(spec, k, result.x);
     const op = result.op;
     const reader = readerOf(op, topology);
@@ -316,7 +313,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
         });
       }
     }
-  });
+  }
 
   const failed = axis.labels.filter((_, k) => axis.converged[k] !== 1);
   const elements = new Map<string, Element>();
@@ -353,6 +350,47 @@ export function runCorners(ctx: CornerContext): Finding[] {
     Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs });
   }
   return findings;
+}
+
+/** Newton iterations at most from a predicted start before the corner is solved from the nominal start instead. */
+const PREDICTED_START_ITERATIONS = 40;
+
+/**
+ * One corner's solve: from `own` (the host's start) when given, else from the predicted start when there is
+ * one, and from the nominal start (`opts.initialGuess`) when neither converges. A predicted start is tried
+ * with Newton alone (no stepping continuation), and its solution kept only when it stayed near the
+ * prediction; `iterations` counts every attempt's. An undefined result: the solver threw other than stopping.
+ */
+function solveCorner(
+  solver: DcSolver,
+  opts: SolveOptions,
+  own: Float64Array | undefined,
+  starts: CornerStarts | undefined,
+  k: number,
+  stop: (() => Error) | undefined,
+): { result?: DcSolveResult; iterations: number } {
+  let iterations = 0;
+  try {
+    if (own) {
+      const r = solver.solve({ ...opts, initialGuess: own, initialGuessTemperatureC: opts.temperatureC });
+      iterations += r.stats.iterations;
+      if (r.op.converged) return { result: r, iterations };
+    } else {
+      const predicted = starts?.start(k);
+      if (predicted) {
+        const r = solver.solve({ ...opts, initialGuess: predicted, initialGuessTemperatureC: opts.temperatureC, fallbacks: false, maxIterations: PREDICTED_START_ITERATIONS });
+        iterations += r.stats.iterations;
+        if (r.op.converged && starts!.near(predicted, r.x)) return { result: r, iterations };
+      }
+    }
+    const r = solver.solve(opts);
+    return { result: r, iterations: iterations + r.stats.iterations };
+  } catch (e) {
+    // Stopped inside the solve (the same check as between solves, asked before each Newton iteration).
+    if (e instanceof SolveStopped) throw stop?.() ?? e;
+    // The solver promises not to throw otherwise; a corner that does anyway counts as not converged.
+    return { iterations };
+  }
 }
 
 /**

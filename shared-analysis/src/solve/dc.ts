@@ -16,7 +16,7 @@ import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
 import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
 import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
-import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions } from './types';
+import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions, TwoTerminalRecord } from './types';
 import { pushAll } from '../arrays';
 import { lazyPoint, pointVectors } from './point';
 import { nameTable } from '../names';
@@ -113,6 +113,11 @@ function quantityPositions(kind: DeviceKind): Map<string, number> {
   return new Map(kind.quantities.map((q, i) => [q, i]));
 }
 
+/** The record type of a two-terminal element (one read through `readers`, not a device kind's). */
+function twoTerminalType(kind: Element['kind']): TwoTerminalRecord['type'] {
+  return kind === 'R' ? 'resistor' : kind === 'V' ? 'voltage-source' : kind === 'I' ? 'current-source' : kind === 'L' ? 'inductor' : kind === 'C' ? 'capacitor' : 'controlled-source';
+}
+
 /** Whether every entry of `v` is a finite number (a loop: `every` with a callback cost a call per unknown at every corner). */
 function allFinite(v: Float64Array): boolean {
   for (let k = 0; k < v.length; k++) if (!Number.isFinite(v[k])) return false;
@@ -182,6 +187,8 @@ export class DcSolver {
    * the element) for it cost more than the rest of the reading at 100,000 elements.
    */
   private readonly recordTypes: (DeviceRecord['type'] | null | undefined)[];
+  /** Per device table, the type of its kind's records (the same for every instance), filled on first ask. */
+  private readonly tableRecordTypes: (DeviceRecord['type'] | undefined)[] = [];
   /** The Newton iterate of every solve (copied into the result). */
   private readonly iterate: Float64Array;
   /** The vectors of the last result solved with `reuseResult`, overwritten by the next such solve. */
@@ -356,7 +363,7 @@ export class DcSolver {
       converged = last.status === 'converged';
       // Where the sources are at full value: a behavioural function that fails there is named at this point.
       if (!converged) firstPoint = Float64Array.from(x);
-      if (!converged) {
+      if (!converged && options.fallbacks !== false) {
         // A singular linearisation may be numerical (one bad iterate); node shunts can step past it.
         // If the circuit itself is singular, the last step without shunts fails the same way.
         const singularFirst = last.status === 'singular';
@@ -781,8 +788,7 @@ export class DcSolver {
     const twoTerminal = (k: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
       const r = readers[k];
       const el = c.elements[r.element];
-      const type =
-        el.kind === 'R' ? 'resistor' : el.kind === 'V' ? 'voltage-source' : el.kind === 'I' ? 'current-source' : el.kind === 'L' ? 'inductor' : el.kind === 'C' ? 'capacitor' : 'controlled-source';
+      const type = twoTerminalType(el.kind);
       const voltage = tv[k];
       const current = ti[k];
       const power = voltage * current;
@@ -849,10 +855,18 @@ export class DcSolver {
       const q = this.quantityColumns[t].get(quantity);
       return q === undefined ? undefined : quietClamp(columns[t].values[q][deviceOrder.instance[d]]);
     };
+    // A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements).
+    const typeOf = (e: number): DeviceRecord['type'] | undefined => {
+      const k = slot[e];
+      if (k >= 0) return twoTerminalType(c.elements[readers[k].element].kind);
+      if (k === -1) return undefined;
+      const t = deviceOrder.table[-k - 2];
+      return (this.tableRecordTypes[t] ??= tables[t].kind.record(columns[t], tables[t].instances, deviceOrder.instance[-k - 2]).type);
+    };
     const type = (e: number): DeviceRecord['type'] | undefined => {
       if (!(e >= 0 && e < slot.length)) return undefined;
       let known = this.recordTypes[e];
-      if (known === undefined) this.recordTypes[e] = known = record(e)?.type ?? null;
+      if (known === undefined) this.recordTypes[e] = known = typeOf(e) ?? null;
       return known ?? undefined;
     };
     const region = (e: number): string | undefined => {

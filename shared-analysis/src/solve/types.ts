@@ -152,6 +152,11 @@ export interface SolveOptions {
   /** Newton iteration cap per attempt (default 150). */
   maxIterations?: number;
   /**
+   * False: Newton from the start alone, with no gmin or source stepping after it when it does not
+   * converge (for a caller that tries a start it predicted and has a plain start to fall back on).
+   */
+  fallbacks?: boolean;
+  /**
    * Element name -> resistance in ohms for this solve only, applied to the prepared matrix
    * without rebuilding it. Any finite value is accepted, negative included, with one exception:
    * a resistor written with a non-zero value cannot be set to 0 Ω (a short needs a current

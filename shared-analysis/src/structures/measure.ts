@@ -300,12 +300,9 @@ export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
   const elements = topo.circuit.elements;
   const vec = pointVectors(op);
   if (vec) {
-    return {
-      volts: (node) => (node >= 0 ? vec.volts[node] : undefined),
-      type: (e) => vec.type(e),
-      num: (e, q) => vec.value(e, q),
-      region: (e) => vec.region(e),
-    };
+    const volts = vec.volts;
+    // The vectors' own readers (closures over the solver's arrays), not a wrapper around each: one call less per read.
+    return { volts: (node) => (node >= 0 ? volts[node] : undefined), type: vec.type, num: vec.value, region: vec.region };
   }
   const devices = op.devices;
   const rec = (e: number) => (elements[e] ? devices[elements[e].name] : undefined);
