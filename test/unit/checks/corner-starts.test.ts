@@ -6,7 +6,7 @@ import { CornerStarts } from '../../../shared-analysis/src/checks/corner-starts'
 import { cornerScope, cornerSourceValues, cornerSpecs, processCornerParameters, runCorners, supplySources, type CornerStats } from '../../../shared-analysis/src/checks/corners';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
-import type { BjtRecord, MosfetRecord } from '../../../shared-analysis/src/solve/types';
+import type { BjtRecord, MosRecord } from '../../../shared-analysis/src/solve/types';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
@@ -72,7 +72,7 @@ function check(netlist: string, options: AnalysisOptions, expected: { corners: n
     for (const s of predicted.structures) {
       expect(s.corners[k].label).toBe(spec.label);
       for (const o of s.outputs) {
-        const rec = r.op.devices[o.device] as BjtRecord | MosfetRecord;
+        const rec = r.op.devices[o.device] as BjtRecord | MosRecord;
         const current = Math.abs(rec.type === 'bjt' ? rec.ic : rec.id);
         expect(Math.abs(s.corners[k].iout[o.device] - current)).toBeLessThanOrEqual(1e-7 * current + 1e-15);
       }
