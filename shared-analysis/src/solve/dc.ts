@@ -108,9 +108,18 @@ const OUT_OF_RANGE_DECADES = 150;
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
 const RECORD_LIMIT = 1e300;
 
-/** Quantity name -> position in a kind's columns. */
-function quantityPositions(kind: DeviceKind): Map<string, number> {
-  return new Map(kind.quantities.map((q, i) => [q, i]));
+/**
+ * Quantity name -> position in a kind's columns, as an ordinary object with the kind's quantities as
+ * its own properties in their order: a measurement reads it with a name fixed in its code, which the
+ * compiler turns into a field load where a `Map` is a hash look-up at every read. The names are the
+ * kind's own (never a netlist's), and a name it lacks reads as something other than a number.
+ */
+function quantityPositions(kind: DeviceKind): Record<string, number> {
+  const positions: Record<string, number> = {};
+  kind.quantities.forEach((q, i) => {
+    positions[q] = i;
+  });
+  return positions;
 }
 
 /** The record type of a two-terminal element (one read through `readers`, not a device kind's). */
@@ -180,7 +189,7 @@ export class DcSolver {
   /** Element index -> position in `layout.deviceOrder` (built on first use). */
   private deviceIndex: Map<number, number> | undefined;
   /** Per table, quantity name -> column: what a measurement's `value` reads at every corner, resolved without a look-up per kind. */
-  private readonly quantityColumns: Map<string, number>[];
+  private readonly quantityColumns: Record<string, number>[];
   /**
    * Element index -> the type of its record, null for none; filled on first ask, since it depends on the
    * layout only. A measurement asks it of every device at every corner, and building a record (or reading
@@ -852,8 +861,9 @@ export class DcSolver {
       if (k === -1) return undefined;
       const d = -k - 2;
       const t = deviceOrder.table[d];
-      const q = this.quantityColumns[t].get(quantity);
-      return q === undefined ? undefined : quietClamp(columns[t].values[q][deviceOrder.instance[d]]);
+      // An inherited name (`constructor`) reads as a function, not a number.
+      const q: unknown = this.quantityColumns[t][quantity];
+      return typeof q === 'number' ? quietClamp(columns[t].values[q][deviceOrder.instance[d]]) : undefined;
     };
     // A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements).
     const typeOf = (e: number): DeviceRecord['type'] | undefined => {

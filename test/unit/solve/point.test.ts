@@ -55,6 +55,9 @@ describe('operating point vectors', () => {
         if (typeof val === 'number') expect(v.value(e, k)).toBe(val);
       }
       expect(v.region(e)).toBe('region' in rec ? rec.region : undefined);
+      expect(v.type(e)).toBe(rec['type']);
+      // Names every object inherits are no quantity of any record.
+      for (const inherited of ['constructor', 'toString', '__proto__', 'hasOwnProperty']) expect(v.value(e, inherited)).toBeUndefined();
     });
     expect(v.value(0, 'no-such-quantity')).toBeUndefined();
   });
