@@ -8,6 +8,7 @@ import { pointVectors } from '../../shared-analysis/src/solve/point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding, Span } from '../../shared-analysis/src/types';
 import { nameTable } from '../../shared-analysis/src/names';
+import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
 const PART_SIZE = 400;
@@ -283,19 +284,39 @@ function howCardsTravel(held: SentDocument, sent: SentDocument, { prefix, tail: 
   return { how, shift, delta };
 }
 
+/**
+ * Items merged between two yields of `mergePartSteps`: a step of any kind takes well under a millisecond,
+ * so a receiver that checks its clock at each yield never holds its thread much past its budget.
+ */
+const MERGE_STEP = 50;
+
 /** Per analysis being taken in, the held cards it shares that the edit moved, and by how much: moved by `adoptKeptCards`. */
 const pendingMoves = new WeakMap<Analysis, { cards: Card[]; delta: number }[]>();
 
 /**
- * Puts one part back into an analysis being assembled from its header. `held` is the analysis the
- * receiver holds of the same root: `cards-kept` parts share its cards (left unchanged until the result
- * is adopted, see `adoptKeptCards`).
+ * Puts one part back into an analysis being assembled from its header, all at once. `held` is the analysis the
+ * receiver holds of the same root: `cards-kept` parts share its cards (left unchanged until the result is
+ * adopted, see `adoptKeptCards`).
  */
 export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis): void {
+  for (const _ of mergePartSteps(target, part, held));
+}
+
+/**
+ * `mergePart` in steps: the generator yields after every few dozen items, so a receiver can answer queued
+ * requests inside a large part instead of after it (a part of 400 elements merged in one go held the main
+ * thread for 10–90 ms at load 6). `target` is complete once the generator is done.
+ */
+export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Analysis): Generator<void, void, undefined> {
   switch (part.kind) {
     case 'cards': {
       const doc = target.documents[part.uri];
-      if (doc) (JSON.parse(part.json) as EncodedCard[]).forEach((c, k) => doc.cards.push(decodeCard(doc.text, c, part.starts[k])));
+      if (!doc) return;
+      const cards = JSON.parse(part.json) as EncodedCard[];
+      for (let k = 0; k < cards.length; k++) {
+        doc.cards.push(decodeCard(doc.text, cards[k]!, part.starts[k]!));
+        if (k % MERGE_STEP === MERGE_STEP - 1) yield;
+      }
       return;
     }
     case 'cards-kept': {
@@ -315,9 +336,16 @@ export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis)
       const circuit = target.circuit;
       if (!circuit) return;
       const moves = new Map((part.moves ?? []).map(([uri, prefix, tail, delta]) => [uri, { prefix, tail, delta }]));
+      let since = 0;
       for (const e of JSON.parse(part.json) as (Record<string, unknown> | [number, number])[]) {
-        if (Array.isArray(e)) pushHeldElements(circuit, held, e[0], e[1], moves);
-        else circuit.elements.push(decodeElement(circuit, e));
+        if (Array.isArray(e)) {
+          // A run of held elements, copied a step at a time.
+          for (let k = e[0]; k < e[0] + e[1]; k += MERGE_STEP) {
+            pushHeldElements(circuit, held, k, Math.min(MERGE_STEP, e[0] + e[1] - k), moves);
+            yield;
+          }
+        } else circuit.elements.push(decodeElement(circuit, e));
+        if (++since % MERGE_STEP === 0) yield;
       }
       return;
     }
@@ -339,21 +367,44 @@ export function mergePart(target: Analysis, part: AnalysisPart, held?: Analysis)
   }
 }
 
+/**
+ * Makes a taken-in result whole: the held cards it shares that lie past the edit get their offsets moved,
+ * in place (no second copy of every card past the edit, whose allocation set off collections inside the
+ * take-in). The held analysis they came from gives them up: call this only when the result replaces it,
+ * before anything reads the result's cards.
+ */
+export function adoptKeptCards(analysis: Analysis): void {
+  for (const { cards, delta } of pendingMoves.get(analysis) ?? []) for (const card of cards) moveCard(card, delta);
+  pendingMoves.delete(analysis);
+}
+
+/**
+ * Moves every offset of a card `delta` characters. A card taken in shares no object with another card, and
+ * within it only its tokens are reached twice (in `tokens` and in the field that holds one): they are moved
+ * first and skipped in the fields, so no table of moved objects is needed.
+ */
+function moveCard(card: Card, delta: number): void {
+  const tokens = card.tokens;
+  for (const t of tokens) {
+    t.span.start += delta;
+    t.span.end += delta;
+  }
+  const listed = tokenFinder(tokens);
+  const move = (v: unknown): void => {
+    if (v === null || typeof v !== 'object') return;
+    if (Array.isArray(v)) for (const x of v) move(x);
+    else if (isSpan(v)) {
+      v.start += delta;
+      v.end += delta;
+    } else if (listed(v) < 0) for (const x of Object.values(v)) move(x);
+  };
+  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') move(v);
+}
+
 /** A card with its tokens as `[start, end, 1 for an expression]` and token-valued fields as `{ $t: index }`. */
 interface EncodedCard {
   tokens: [number, number, number][];
   [field: string]: unknown;
-}
-
-/**
- * The position of a value among a card's tokens (by identity), or −1: a scan for the few tokens of
- * most cards, a table for a long one (a model card with many parameters).
- */
-function tokenFinder(tokens: readonly Token[]): (v: object) => number {
-  if (tokens.length <= 16) return (v) => tokens.indexOf(v as Token);
-  const index = new Map<object, number>();
-  tokens.forEach((t, i) => index.set(t, i));
-  return (v) => index.get(v) ?? -1;
 }
 
 /**
@@ -385,45 +436,6 @@ function encodeCard(card: Card): string {
   };
   const rest = fields(card, 'tokens');
   return `{"tokens":[${card.tokens.map(token).join(',')}]${rest ? `,${rest}` : ''}}`;
-}
-
-/**
- * Makes a taken-in result whole: the held cards it shares that lie past the edit get their offsets moved,
- * in place (no second copy of every card past the edit). The held analysis they came from gives them up:
- * call this only when the result replaces it, before anything reads the result's cards.
- */
-export function adoptKeptCards(analysis: Analysis): void {
-  for (const { cards, delta } of pendingMoves.get(analysis) ?? []) for (const card of cards) moveCard(card, delta);
-  pendingMoves.delete(analysis);
-}
-
-/**
- * Moves every offset of a card `delta` characters. A card taken in shares no object with another card, and
- * within it only its tokens are reached twice (in `tokens` and in the field that holds one): they are moved
- * first and skipped in the fields, so no table of moved objects is needed.
- */
-function moveCard(card: Card, delta: number): void {
-  const tokens = card.tokens;
-  for (const t of tokens) {
-    t.span.start += delta;
-    t.span.end += delta;
-  }
-  const listed = tokenFinder(tokens);
-  const move = (v: unknown): void => {
-    if (v === null || typeof v !== 'object') return;
-    if (Array.isArray(v)) for (const x of v) move(x);
-    else if (isSpan(v)) {
-      v.start += delta;
-      v.end += delta;
-    } else if (listed(v) < 0) for (const x of Object.values(v)) move(x);
-  };
-  for (const [k, v] of Object.entries(card)) if (k !== 'tokens') move(v);
-}
-
-/** A `{ start, end }` offset pair and nothing else. */
-function isSpan(v: object): v is Span {
-  const s = v as Partial<Span>;
-  return typeof s.start === 'number' && typeof s.end === 'number' && Object.keys(v).length === 2;
 }
 
 /**

@@ -5,7 +5,7 @@ import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analys
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import { indexBuilder } from '../../shared-analysis/src/features/document-index';
-import { mergePart, type AnalysisPart } from './analysis-transfer';
+import { mergePartSteps, type AnalysisPart } from './analysis-transfer';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
@@ -37,6 +37,12 @@ type Pending = {
  * as merging a small part).
  */
 const PARTS_IN_FLIGHT = 8;
+
+/**
+ * The longest the main thread merges a part before queued editor requests get a turn (ms): the part is merged in
+ * steps (`mergePartSteps`) and the clock read at each. Parts of a few hundred items took 10–90 ms merged whole.
+ */
+const MERGE_SLICE_MS = 4;
 
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
@@ -222,11 +228,19 @@ export class WorkerHost {
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
     const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
-    const merge = (index: number, part: AnalysisPart) => {
-      const before = analysis.circuit?.elements.length ?? 0;
-      mergePart(analysis, part, phases.held);
+    const merge = function* (index: number, part: AnalysisPart): Generator<void, void, undefined> {
+      let indexed = analysis.circuit?.elements.length ?? 0;
       // Index the elements as they arrive, so the first request after the merge finds the tables built.
-      if (elementIndex && part.kind === 'elements') elementIndex.add(analysis.circuit!.elements, before);
+      const indexNew = () => {
+        if (!elementIndex || part.kind !== 'elements') return;
+        elementIndex.add(analysis.circuit!.elements, indexed);
+        indexed = analysis.circuit!.elements.length;
+      };
+      for (const _ of mergePartSteps(analysis, part, phases.held)) {
+        indexNew();
+        yield;
+      }
+      indexNew();
       phases.onPart?.(index, msg.parts);
     };
     // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
@@ -239,7 +253,7 @@ export class WorkerHost {
       // A small result came whole: merged at once (a few milliseconds), no turns between parts.
       msg.inline.forEach((part, index) => {
         stopIfSuperseded(index);
-        merge(index, part);
+        for (const _ of merge(index, part));
       });
     } else await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
     elementIndex?.finish(analysis);
@@ -255,7 +269,7 @@ export class WorkerHost {
    */
   private async takeInParts(
     msg: Extract<FromWorker, { type: 'analysed' }>,
-    merge: (index: number, part: AnalysisPart) => void,
+    merge: (index: number, part: AnalysisPart) => Generator<void, void, undefined>,
     stopIfSuperseded: (index: number) => void,
     onFindings: ((partial: Analysis) => void) | undefined,
     uri: string,
@@ -282,7 +296,12 @@ export class WorkerHost {
       const part = await inFlight.shift()!;
       refill();
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
-      merge(index, part.part);
+      let slice = performance.now();
+      for (const _ of merge(index, part.part)) {
+        if (performance.now() - slice < MERGE_SLICE_MS) continue;
+        await new Promise((r) => setImmediate(r));
+        slice = performance.now();
+      }
       if (index === msg.findingParts - 1) onFindings?.(msg.analysis);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));

@@ -9,6 +9,9 @@ import { railsByIndex } from './structures/rails';
 import type { Structure } from './structures/types';
 import type { Finding, Span } from './types';
 import { nameTable } from './names';
+import type { Card, ParsedDocument, SyntaxError } from './syntax/ast';
+import { parseElementLine } from './syntax/parser';
+import { movedCard } from './syntax/moved-card';
 
 /**
  * An unknown counts as moved when it differs from the value its structures were analysed at by more than
@@ -57,6 +60,9 @@ export interface IncrementalState {
   adopted?: { circuit: Circuit; changed: number[] };
   /** Per corner label, the last converged solution of that corner on this state or one it came from by value edits (see `cornerStarts`). */
   corners?: Map<string, CornerSolution>;
+  /** The parse of `text`, for the next analysis to read again only the card an edit changed (see `reparsedDocument`). Never written. */
+  document?: ParsedDocument;  /** The device judgements of this analysis element by element, before the flood limit (`judgeEachDevice`); undefined when nothing was judged. */
+  devices?: (Finding[] | undefined)[];
 }
 
 /** A corner's converged solution and the nominal solution it was solved around. */
@@ -97,6 +103,51 @@ interface CircuitIndex {
   start: Int32Array;
   incident: Int32Array;
   rail: Uint8Array;
+  /** The circuit's parts as the device judgements see them (see `circuitParts`). */
+  parts: CircuitParts;
+}
+
+/**
+ * The parts of a circuit joined through nodes that are not rails: each element's part (an element on rails only is a
+ * part of its own) and each such node's. A device judgement reads the point of its own part only (its walks stop at
+ * rails), except where a transistor's control and output sit on one rail: another part's diode-connected device
+ * there is read, and `sound` is false.
+ */
+interface CircuitParts {
+  ofElement: Int32Array;
+  ofNode: Int32Array;
+  count: number;
+  sound: boolean;
+}
+
+function circuitParts(circuit: Circuit, rail: Uint8Array): CircuitParts {
+  const n = circuit.nodes.length;
+  const root = Int32Array.from({ length: n }, (_, k) => k);
+  const find = (k: number): number => {
+    while (root[k] !== k) k = root[k] = root[root[k]!]!;
+    return k;
+  };
+  const inside = (node: number) => node >= 0 && node < n && !rail[node];
+  let sound = true;
+  for (const el of circuit.elements) {
+    let first = -1;
+    for (const node of el.nodes) {
+      if (!inside(node)) continue;
+      if (first < 0) first = find(node);
+      else root[find(node)] = first;
+    }
+    if ((el.kind === 'Q' || el.kind === 'M') && el.nodes[0] === el.nodes[1] && !inside(el.nodes[0]!)) sound = false;
+  }
+  const ofNode = new Int32Array(n).fill(-1);
+  let count = 0;
+  for (let k = 0; k < n; k++) if (inside(k) && find(k) === k) ofNode[k] = count++;
+  for (let k = 0; k < n; k++) if (inside(k)) ofNode[k] = ofNode[find(k)]!;
+  const ofElement = new Int32Array(circuit.elements.length);
+  circuit.elements.forEach((el, i) => {
+    const node = el.nodes.find(inside);
+    ofElement[i] = node === undefined ? count++ : ofNode[node]!;
+  });
+  return { ofElement, ofNode, count, sound };
 }
 
 function indexCircuit(circuit: Circuit): CircuitIndex {
@@ -116,7 +167,7 @@ function indexCircuit(circuit: Circuit): CircuitIndex {
   const rail = new Uint8Array(n);
   rail[0] = 1;
   for (const k of railsByIndex(circuit).keys()) rail[k] = 1;
-  return { elementOf, start, incident, rail };
+  return { elementOf, start, incident, rail, parts: circuitParts(circuit, rail) };
 }
 
 /** The text that an edit replaced: `[start, oldEnd)` of the old text became `[start, start + oldEnd − start + delta)`. */
@@ -133,6 +184,57 @@ function editRegion(before: string, after: string): EditRegion {
   let s = 0;
   while (s < most - p && before.charCodeAt(before.length - 1 - s) === after.charCodeAt(after.length - 1 - s)) s++;
   return { start: p, oldEnd: before.length - s, delta: after.length - before.length };
+}
+
+/** Whether `text` holds a line break in `[from, to)`. */
+function hasLineBreak(text: string, from: number, to: number): boolean {
+  for (let i = from; i < to; i++) {
+    const c = text.charCodeAt(i);
+    if (c === 10 || c === 13) return true;
+  }
+  return false;
+}
+
+/** The index of the last card starting at or before `offset` (cards are in text order and never overlap), or −1. */
+function cardAt(cards: readonly Card[], offset: number): number {
+  let lo = 0;
+  let hi = cards.length - 1;
+  let found = -1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >>> 1;
+    if (cards[mid]!.span.start <= offset) {
+      found = mid;
+      lo = mid + 1;
+    } else hi = mid - 1;
+  }
+  return found;
+}
+
+/**
+ * The parse of `text` made from `previous` (the parse of the text before an edit, which stays as it is) when the
+ * edit lies within one element card of a single line, after its first character, and changes no line break:
+ * that card is read again (an element card reads nothing of the cards around it, and the lines around it keep
+ * their reading), the cards before it are shared and those after it copied with their offsets moved. Undefined
+ * for any other edit, or when the card had or has a problem, and the whole text must be parsed: the result is
+ * then what `parse` makes of `text` (`test/unit/incremental-parse.test.ts` compares the two on random edits).
+ */
+export function reparsedDocument(previous: ParsedDocument, text: string): ParsedDocument | undefined {
+  const before = previous.text;
+  if (before === text) return previous;
+  const r = editRegion(before, text);
+  const k = cardAt(previous.cards, r.start);
+  const card = previous.cards[k];
+  if (!card || card.kind !== 'element' || r.start <= card.span.start || r.oldEnd > card.span.end) return undefined;
+  // The card's line whole (its span runs from its first character to the end of its line), and the edit keeps it one line.
+  if (hasLineBreak(before, card.span.start, card.span.end) || hasLineBreak(text, r.start, r.oldEnd + r.delta)) return undefined;
+  if (previous.errors.some((e) => e.span.end >= card.span.start && e.span.start <= card.span.end)) return undefined;
+  const { card: reread, errors } = parseElementLine(text, card.span.start, card.span.end + r.delta);
+  if (reread.kind !== 'element' || errors.length > 0) return undefined;
+  const cards = previous.cards.slice(0, k);
+  cards.push(reread);
+  for (let j = k + 1; j < previous.cards.length; j++) cards.push(r.delta === 0 ? previous.cards[j]! : movedCard(previous.cards[j]!, r.delta));
+  const moved = (e: SyntaxError): SyntaxError => (e.span.start > card.span.end && r.delta !== 0 ? { ...e, span: { start: e.span.start + r.delta, end: e.span.end + r.delta } } : e);
+  return { uri: previous.uri, text, cards, errors: previous.errors.map(moved) };
 }
 
 /** A span of the old text moved to the new one, or undefined when it touches the edited text. */
@@ -237,6 +339,8 @@ export class ValueEdit {
   basis: Float64Array;
   /** Per structure of `structuresAt`, recognition's form of it in the edited circuit. */
   private pristine: Structure[] = [];
+  /** Which nodes and elements moved from the basis (set by `structuresAt`). */
+  private movement?: { movedNode: Uint8Array; movedElement: Uint8Array };
 
   private constructor(
     readonly previous: IncrementalState,
@@ -274,7 +378,7 @@ export class ValueEdit {
     const prev = this.previous;
     this.pristine = prev.structures.map((k) => withDegenerations(k.pristine, this.circuit, prev.index));
     const touched = new Array<boolean>(prev.structures.length).fill(!result.op.converged);
-    const { movedNode, movedElement } = this.moved(result);
+    const { movedNode, movedElement } = (this.movement = this.moved(result));
     const mark = (watch: Watchers, k: number) => {
       for (let j = watch.start[k]; j < watch.start[k + 1]; j++) touched[watch.structures[j]] = true;
     };
@@ -305,6 +409,38 @@ export class ValueEdit {
       out.push(moved);
     }
     return out;
+  }
+
+  /**
+   * The device judgements of the edited circuit, element by element (`judge` is `judgeEachDevice` on it): the last
+   * ones moved past the edit for the elements of a part (see `circuitParts`) where nothing moved, judged again for the
+   * others. Everything is judged again when a rail moved, when the parts are not sound, when a device conducts
+   * reversed (that judgement counts every device of the circuit), and when a kept finding touches the edited text.
+   */
+  deviceFindings(judge: (only?: (element: number) => boolean) => (Finding[] | undefined)[] | undefined): (Finding[] | undefined)[] | undefined {
+    const prev = this.previous;
+    const last = prev.devices;
+    const m = this.movement;
+    const parts = prev.index.parts;
+    const reversed = (each: (Finding[] | undefined)[]) => each.some((list) => list?.some((f) => f.code === 'device-reversed'));
+    if (!last || !m || !parts.sound || reversed(last) || m.movedNode.some((moved, n) => moved === 1 && prev.index.rail[n] === 1)) return judge();
+    const touched = new Uint8Array(parts.count);
+    m.movedElement.forEach((moved, e) => moved && (touched[parts.ofElement[e]!] = 1));
+    m.movedNode.forEach((moved, n) => moved && parts.ofNode[n]! >= 0 && (touched[parts.ofNode[n]!] = 1));
+    const again = (e: number) => touched[parts.ofElement[e]!] === 1;
+    const kept: (Finding[] | undefined)[] = new Array(last.length);
+    for (let e = 0; e < last.length; e++) {
+      const list = last[e];
+      if (!list || again(e)) continue;
+      const moved = list.map((f) => movedFinding(f, prev.uri, this.region));
+      if (moved.some((f) => !f)) return judge();
+      kept[e] = moved as Finding[];
+    }
+    const fresh = judge(again);
+    if (!fresh || reversed(fresh)) return judge();
+    // Holes stay holes: a loop, not `map`, so the kept entries are not skipped.
+    for (let e = 0; e < kept.length; e++) if (again(e)) kept[e] = fresh[e];
+    return kept;
   }
 
   /** The findings of a structure kept from the last analysis (moved past the edit), or undefined for one analysed again. */
@@ -485,9 +621,9 @@ export class IncrementalKeeper {
   state(
     input: { uri: string; text: string },
     options: ResolvedOptions,
-    analysed: { circuit: Circuit; solver: DcSolver; nominal: DcSolveResult; structures: Structure[]; unknowns: string; connectivity: Finding[] },
+    analysed: { circuit: Circuit; solver: DcSolver; nominal: DcSolveResult; structures: Structure[]; unknowns: string; connectivity: Finding[]; document: ParsedDocument; devices?: (Finding[] | undefined)[] },
   ): IncrementalState | undefined {
-    const { circuit, solver, nominal, structures, unknowns, connectivity } = analysed;
+    const { circuit, solver, nominal, structures, unknowns, connectivity, document, devices } = analysed;
     if (!nominal.op.converged || !options.solve || options.corners.enabled) return undefined;
     const previous = this.edit?.previous;
     if (previous) previous.adopted = undefined;
@@ -510,6 +646,8 @@ export class IncrementalKeeper {
       watch: previous ? previous.watch : watchers(kept.map((k) => k.pristine), circuit, index),
       unknowns,
       connectivity,
+      document,
+      ...(devices ? { devices } : {}),
       ...(previous?.corners ? { corners: previous.corners } : {}),
     };
   }

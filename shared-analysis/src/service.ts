@@ -11,7 +11,7 @@ import { feedLoops } from './structures/loops';
 import { topologyOf } from './structures/topology';
 import { recogniseStructures } from './structures/recognise';
 import { analyseStructures } from './checks/structures';
-import { judgeDevices } from './checks/devices/index';
+import { judgeEachDevice, limitDeviceFlood } from './checks/devices/index';
 import { checkPlausibility } from './checks/plausibility';
 import { runCorners, type CornerStats } from './checks/corners';
 import { checkStartup, fillStartupCorners } from './checks/startup';
@@ -32,7 +32,7 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { cornerStarts, IncrementalKeeper, ValueEdit, type IncrementalState } from './incremental';
+import { cornerStarts, IncrementalKeeper, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
 
 declare const performance: { now(): number };
 
@@ -117,7 +117,9 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   };
 
   // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
-  const root = timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
+  // After an edit inside one element card only that card is read again (`reparsedDocument`).
+  const previousDocument = control.previous?.uri === input.uri ? control.previous.document : undefined;
+  const root = timed('parse', () => (previousDocument && reparsedDocument(previousDocument, input.text)) || parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
   const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders, maxElements: options.maxElements }));
   // Text in an `.if` branch no instance takes does not exist for the analysis: its syntax problems are not reported.
   const findings: Finding[] = [...withoutInactive(syntaxFindings(elab.documents), elab.inactive), ...elab.findings];
@@ -134,6 +136,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   let nominal: DcSolveResult | undefined;
   let variation: VariationResult | undefined;
   let variationDetail: VariationDetail | undefined;
+  let devices: (Finding[] | undefined)[] | undefined;
   // A value edit keeps the unknowns, and so their fingerprint.
   let fingerprint: string | undefined = edit?.previous.unknowns;
   if (resolved.solve && circuit.elements.length > 0) {
@@ -165,7 +168,10 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       if (edit) pushAll(structures, timed('structures', () => edit.structuresAt(result)));
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
       pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved, kept: edit?.keptFindings, record: keeper?.record })));
-      pushAll(findings, timed('devices', () => judgeDevices({ circuit, op: result.op, structures, options: resolved })));
+      // A value edit judges again only the devices of the parts of the circuit where the point moved.
+      const judge = (only?: (element: number) => boolean) => judgeEachDevice({ circuit, op: result.op, structures, options: resolved }, only);
+      devices = timed('devices', () => (edit ? edit.deviceFindings(judge) : judge()));
+      pushAll(findings, limitDeviceFlood(devices ?? []));
       // A value edit keeps the structures of an analysis that had no self-biased loop, which is all the start-up check looks at.
       if (result.op.converged && !edit) pushAll(findings, timed('startup', () => checkStartup({ circuit, structures, op: result.op, options: resolved })));
       if (resolved.corners.enabled && structures.length > 0 && result.op.converged) {
@@ -233,7 +239,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const dc: DcSolver | undefined = solver;
   const incremental =
     keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures))
-      ? keeper.state(input, resolved, { circuit, solver: dc, nominal: converged, structures, unknowns: (fingerprint ??= unknownsFingerprint(circuit)), connectivity })
+      ? keeper.state(input, resolved, { circuit, solver: dc, nominal: converged, structures, unknowns: (fingerprint ??= unknownsFingerprint(circuit)), connectivity, document: root, devices })
       : undefined;
   return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}), ...(incremental ? { incremental } : {}) };
 }

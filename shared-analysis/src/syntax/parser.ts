@@ -246,6 +246,16 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
   return { uri, text, cards, errors: ctx.errors };
 }
 
+/**
+ * The card `parse` makes of a line `[start, lineEnd)` of `text` that starts an element card (`start` its first
+ * non-blank character) and has no continuation, with the problems found in it. An element card reads nothing of
+ * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
+ */
+export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [] };
+  return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
+}
+
 /** True when `c` is a blank character other than a line break (a BOM counts as blank). */
 function isSpace(c: number): boolean {
   return c === 32 || c === 9 || c === 11 || c === 12 || c === 0xa0 || c === 0xfeff;

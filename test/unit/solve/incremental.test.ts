@@ -113,6 +113,33 @@ RL4 o4 0 6.8k
 .end
 `;
 
+// Invented: devices no structure owns, each with a device finding in a part of its own (joined to the others only
+// through rails): a current sink held by a bias rail whose load is too large (it saturates), a healthy one beside it,
+// a reversed diode that blocks its branch, resistors over their power rating between the rails and through a node;
+// and a sink cell (a structure) beside them. A value edit moves one part; the others keep their judgements.
+const DEVICES = `incremental device judgements
+VCC vcc 0 DC 5
+VB vb 0 DC 1.2
+.model QN NPN (IS=1e-15 BF=120 VAF=80)
+.model DN D (IS=1e-14)
+Q5 c5 vb e5 QN
+RE5 e5 0 1k
+RC5 vcc c5 20k
+Q6 c6 vb e6 QN
+RE6 e6 0 1k
+RC6 vcc c6 2k
+R7 vcc n7 10k
+D7 0 n7 DN
+RP vcc 0 47
+RQ1 vcc q 22
+RQ2 q 0 33
+RR vcc r 12k
+QR r r 0 QN
+QO o r 0 QN
+RL vcc o 1k
+.end
+`;
+
 const CARD = /^(R\S+ \S+ \S+ )(\S+)(.*)$/;
 
 /** The text with the value of one resistor card (chosen by `random`) replaced by a random positive value in another notation. */
@@ -138,6 +165,7 @@ describe('incremental re-analysis of a value edit', () => {
     ['sink cells', sinkCells(16), 20, true],
     ['shared and chained mirrors', SHARED, 30, true],
     ['a mirror chain', CHAIN, 20, false],
+    ['device judgements', DEVICES, 30, true],
   ] as const) {
     it(`equals a cold analysis after random value edits: ${name}`, () => {
       const random = rng(20261202);
@@ -161,6 +189,24 @@ describe('incremental re-analysis of a value edit', () => {
       if (keeps) expect(kept).toBeGreaterThan(0);
     });
   }
+
+  it('judges again only the devices of the part an edit moves, and keeps the other parts’ findings moved past the edit', () => {
+    const codes = (a: AnalysisSession) => new Set(a.analysis.findings.map((f) => f.code));
+    const first = incremental(DEVICES);
+    // The circuit has the findings the kept judgements must reproduce.
+    for (const code of ['current-source-out-of-region', 'branch-blocked', 'power-over-rating']) expect(codes(first), code).toContain(code);
+    const edited = DEVICES.replace('RC6 vcc c6 2k', 'RC6 vcc c6 2.25k');
+    const next = incremental(edited, first);
+    expectColdResult(next, cold(edited));
+    // The saturated sink's finding lies after the edit in another part: kept (moved), not judged again.
+    const device = (a: AnalysisSession, name: string) => a.incremental!.devices!.find((list) => list?.some((f) => f.data?.['device'] === name));
+    expect(device(next, 'D7')![0]!.span.start).toBe(device(first, 'D7')![0]!.span.start + 3);
+    expect(device(next, 'D7')![0]).not.toBe(device(first, 'D7')![0]);
+    // The edited part is judged again: its load's new value makes the sink saturate.
+    const saturating = incremental(DEVICES.replace('RC6 vcc c6 2k', 'RC6 vcc c6 25k'), first);
+    expectColdResult(saturating, cold(DEVICES.replace('RC6 vcc c6 2k', 'RC6 vcc c6 25k')));
+    expect(device(saturating, 'Q6')).toBeDefined();
+  });
 
   it('keeps every structure of a large array but the edited cell and moves the findings after the edit', () => {
     const text = sinkCells(40);

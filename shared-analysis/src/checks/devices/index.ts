@@ -79,24 +79,44 @@ export const MAX_FINDINGS_PER_CODE = 20;
  * operating point that did not converge. Never throws: a failing judge skips its device.
  */
 export function judgeDevices(ctx: DeviceCheckContext): Finding[] {
+  return limitDeviceFlood(judgeEachDevice(ctx) ?? []);
+}
+
+/**
+ * What `judgeDevices` finds, element by element (in the circuit's order) and before the flood limit
+ * (`limitDeviceFlood`): each entry the findings raised while judging that element. With `only`, only the
+ * elements it accepts are judged (the others' entries stay empty). Undefined for an operating point that
+ * did not converge or a circuit that is not powered, where nothing is judged.
+ */
+export function judgeEachDevice(ctx: DeviceCheckContext, only?: (element: number) => boolean): (Finding[] | undefined)[] | undefined {
   const { circuit, op } = ctx;
   // An unpowered circuit has every device at zero bias; `circuit-not-powered` says so once instead.
-  if (!op.converged || !isPowered(circuit)) return [];
+  if (!op.converged || !isPowered(circuit)) return undefined;
   const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES);
   const memory: JudgeMemory = { branches: new Set() };
-  for (const el of circuit.elements) {
+  const each: (Finding[] | undefined)[] = new Array(circuit.elements.length);
+  circuit.elements.forEach((el, i) => {
     const judge = DEVICE_JUDGES[el.kind];
-    if (!judge) continue;
+    if (!judge || (only && !only(i))) return;
     const rec = judges.record(el.name);
-    if (!rec) continue;
+    if (!rec) return;
+    const from = judges.findings.length;
     try {
       judge.judge?.(el, rec, judges, memory);
       judgePower(el, rec, judges);
     } catch {
       // One device's defect must not take the others (or the editor) down.
     }
-  }
-  return limitFlood(judges.findings);
+    if (judges.findings.length > from) each[i] = judges.findings.slice(from);
+  });
+  return each;
+}
+
+/** The findings of `judgeEachDevice` in the circuit's order, with the flood limit applied. */
+export function limitDeviceFlood(each: readonly (Finding[] | undefined)[]): Finding[] {
+  const all: Finding[] = [];
+  for (const list of each) if (list) pushAll(all, list);
+  return limitFlood(all);
 }
 
 /** `power-over-rating` when an element dissipates more than its limit. */
