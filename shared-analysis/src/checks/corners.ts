@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { flattenPlans, measurePlanned, planMeasurement, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
+import { measurePlanned, plannedMeasurements, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -265,9 +265,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
   };
   const columns = cornerColumnsOf(structures, axis);
   const topology = topologyOf(circuit);
-  // Every name a measurement reads resolved once per structure, not once per corner.
-  const plans = structures.map((s) => planMeasurement(topology, s));
-  const flat = flattenPlans(plans);
+  // Every name a measurement reads resolved once per list of structures (the nominal check planned the same list), not once per corner.
+  const flat = plannedMeasurements(topology, structures);
   const sink: OutputSink = { current: new Float64Array(0), headroom: new Float64Array(0), outOfRegion: new Uint8Array(0), first: 0, stride: C };
   let failedCount = 0;
   // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.

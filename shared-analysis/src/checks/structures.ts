@@ -12,7 +12,7 @@ import { loadResistorOf } from './targets';
 import { KINDS, kindName, kindOf, referenceJunctions } from '../structures/catalogue';
 import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../structures/formulas';
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
-import { flattenPlans, measurePlanned, planMeasurement, readerOf, type Measurement } from '../structures/measure';
+import { measurePlanned, plannedMeasurements, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
@@ -137,7 +137,7 @@ function checkStructure(run: () => Finding[], s: Structure, topo: Topology): Fin
 
 /** Every structure's measurement at the operating point, its names resolved and its plans flattened once for all structures. */
 function nominalMeasuring(topo: Topology, structures: Structure[], op: OperatingPoint): { measure: (s: Structure) => Measurement } {
-  const plans = flattenPlans(structures.map((s) => planMeasurement(topo, s)));
+  const plans = plannedMeasurements(topo, structures);
   const reader = readerOf(op, topo);
   const position = new Map<Structure, number>();
   structures.forEach((s, i) => position.set(s, i));

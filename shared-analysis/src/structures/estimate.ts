@@ -27,8 +27,16 @@ export function estimateStructure(circuit: Circuit, s: Structure, at: EstimateAt
   return new HandAnalysis(circuit, s, at, 0).run();
 }
 
+/** "V+ − V−" of a resistor-fed reference with its numbers: the rail and the common node, the higher first. */
+function supplyText(sign: 1 | -1, vRail: number, vCommon: number): string {
+  return sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
+}
+
 /** The state of the structure at one IREF, with the steps of that evaluation. */
-type ChainState = ChainResult & { steps: EstimateStep[] };
+interface ChainState {
+  r: ChainResult;
+  steps: EstimateStep[];
+}
 
 class HandAnalysis {
   private readonly kind: KindModule;
@@ -82,7 +90,7 @@ class HandAnalysis {
 
     // The IREF step of a feed other than a resistor chain, shown before the chain's VBE/VGS steps.
     let irefStep: (() => EstimateStep) | undefined;
-    let resistorFed: { ohms: number; available: number; hi: string } | undefined;
+    let resistorFed: { ohms: number; available: number; vRail: number; vCommon: number } | undefined;
 
     if (kind.ownReference) {
       irefFrom = 'own-equation';
@@ -98,13 +106,12 @@ class HandAnalysis {
       const railNode = h.topo.nodeIndex.get(feed.rail.node);
       const vRail = (railNode !== undefined ? h.railVolts.get(railNode) : undefined) ?? feed.rail.volts;
       const available = h.sign * (vRail - vCommon);
-      const needed = h.bipolar ? nStack * STARVED_VBE : this.chain(0, false).stack;
+      const needed = h.bipolar ? nStack * STARVED_VBE : this.chain(0, false).r.stack;
       supply = { available, needed };
-      const hi = h.sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
       if (!(ohms > 0) || available <= needed) starved = true;
       if (ohms > 0 && available > 0) iref = this.solveResistorFed(available, ohms);
       if (!h.bipolar && available <= needed) iref = 0;
-      resistorFed = { ohms, available, hi };
+      resistorFed = { ohms, available, vRail, vCommon };
     } else if (feed.feed === 'current-source') {
       irefFrom = 'current-source';
       const src = h.topo.elementByName.get(feed.elements[0]) as CurrentSource | undefined;
@@ -157,23 +164,26 @@ class HandAnalysis {
       irefStep = () => ({ quantity: 'IREF', formula: 'taken from the operating point (the feed is not a resistor chain, current source or mirror output)', substituted: eng(value, 'A'), value, unit: 'A' });
     }
 
-    const st = this.chain(iref, true, record);
+    const { r: st, steps: chainSteps } = this.chain(iref, true, record);
     const isVoltage = (x: EstimateStep) => x.quantity.startsWith('V');
     if (resistorFed) {
-      const { ohms, available, hi } = resistorFed;
-      const rText = eng(ohms, 'Ω');
-      const vName = h.bipolar ? 'VBE' : 'VGS';
-      const stackFormula = kind.stackFormula?.(h, vName) ?? (nStack > 1 ? `${nStack} stacked ${vName}` : vName);
-      pushAll(steps, st.steps.filter(isVoltage));
-      add(() => ({
-        quantity: 'IREF',
-        formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${h.bipolar ? GRAY : RAZAVI})`,
-        substituted: `(${hi} − ${eng(st.stack, 'V')})/${rText}`,
-        value: iref,
-        unit: 'A',
-      }));
+      const { ohms, available } = resistorFed;
+      // "V+ − V−" with numbers, and the other texts of these steps, are written only when a step is.
+      const hi = (): string => supplyText(h.sign, resistorFed!.vRail, resistorFed!.vCommon);
+      if (record) {
+        const vName = h.bipolar ? 'VBE' : 'VGS';
+        const stackFormula = kind.stackFormula?.(h, vName) ?? (nStack > 1 ? `${nStack} stacked ${vName}` : vName);
+        pushAll(steps, chainSteps.filter(isVoltage));
+        steps.push({
+          quantity: 'IREF',
+          formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${h.bipolar ? GRAY : RAZAVI})`,
+          substituted: `(${hi()} − ${eng(st.stack, 'V')})/${eng(ohms, 'Ω')}`,
+          value: iref,
+          unit: 'A',
+        });
+      }
       if (h.bipolar && ohms > 0) {
-        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi });
+        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi() });
         irefShortcut = shortcut ? shortcut.value : Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
         const value = irefShortcut;
         add(
@@ -181,7 +191,7 @@ class HandAnalysis {
             shortcut ?? {
               quantity: 'IREF (0.7 V shortcut)',
               formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
-              substituted: `(${hi} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${rText}`,
+              substituted: `(${hi()} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${eng(ohms, 'Ω')}`,
               value,
               unit: 'A',
             },
@@ -189,9 +199,9 @@ class HandAnalysis {
       }
     } else {
       if (irefStep) add(irefStep);
-      pushAll(steps, st.steps.filter(isVoltage));
+      if (record) pushAll(steps, chainSteps.filter(isVoltage));
     }
-    pushAll(steps, st.steps.filter((x) => !isVoltage(x)));
+    if (record) pushAll(steps, chainSteps.filter((x) => !isVoltage(x)));
     let voltages: Record<string, number> | undefined;
     let voltageTempco: Record<string, number> | undefined;
     if (kind.voltages) {
@@ -278,7 +288,7 @@ class HandAnalysis {
   /** The structure at one IREF through its kind's analysis; `final` for the evaluation kept, `format` to write its steps. */
   private chain(iref: number, final: boolean, format = final): ChainState {
     const c = new Chain(this.h, final, format);
-    return { ...this.kind.analyse(this.h, iref, c), steps: c.steps };
+    return { r: this.kind.analyse(this.h, iref, c), steps: c.steps };
   }
 
   /** The ids round a loop of feeds back to this structure when no structure on it sets the current by its own equation. */
@@ -350,7 +360,7 @@ class HandAnalysis {
 
   /** The reference-chain voltage at one IREF without recording steps: the kind's closed form when it has one. */
   private stackAt(iref: number): number {
-    return this.kind.stackAt?.(this.h, iref) ?? this.chain(iref, false).stack;
+    return this.kind.stackAt?.(this.h, iref) ?? this.chain(iref, false).r.stack;
   }
 }
 

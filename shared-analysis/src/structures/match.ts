@@ -23,6 +23,13 @@ export interface Draft {
   voltages?: { name: string; description: string; node: string; from?: string }[];
 }
 
+/** What `Matcher.diodeOutputs` finds on a diode-connected reference (shared between the kinds that ask: do not mutate). */
+export interface DiodeOutputs {
+  readonly twins: Transistor[];
+  readonly outputs: StructureOutput[];
+  readonly devices: Transistor[];
+}
+
 /**
  * The transistors of one circuit as recognisers see them: indexed by control and common node,
  * in natural name order, with the devices earlier (more specific) kinds have claimed left out.
@@ -38,6 +45,9 @@ export class Matcher {
   private readonly rank: Int32Array;
   /** Every transistor, in natural name order. */
   readonly ordered: Transistor[];
+  /** `diodeOutputs` and `lowerPartners` answers by seed index, kept until the next claim (see `kept`). */
+  private readonly outputsOf = new Map<number, DiodeOutputs>();
+  private readonly partnersOf = new Map<number, readonly Transistor[]>();
   /** The diode-connected transistors (output on the control node) and the others, each in natural name order. */
   private readonly diodeConnected: Transistor[];
   private readonly notDiodeConnected: Transistor[];
@@ -61,6 +71,9 @@ export class Matcher {
   /** Marks a draft's devices as taken, so later (less specific) kinds do not match them again. */
   claim(d: Draft): void {
     for (const m of d.members) this.claimed[m.t.nameIndex] = 1;
+    // What was worked out from the unclaimed devices may have changed.
+    this.outputsOf.clear();
+    this.partnersOf.clear();
   }
 
   isClaimed(t: Transistor): boolean {
@@ -70,10 +83,22 @@ export class Matcher {
   private byRank = (a: Transistor, b: Transistor): number => this.rank[a.index] - this.rank[b.index];
 
   /** Unclaimed transistors of one technology drawn from `pool` (an index list) that satisfy `pred`, in name order. */
-  candidates(tech: Technology, pred: (t: Transistor) => boolean, exclude: Transistor[], pool: Transistor[] | undefined): Transistor[] {
-    if (!pool) return [];
-    const out = pool.filter((t) => !this.isClaimed(t) && t.tech === tech && !exclude.includes(t) && pred(t));
+  candidates(tech: Technology, pred: (t: Transistor) => boolean, exclude: readonly Transistor[], pool: Transistor[] | undefined): Transistor[] {
+    const out: Transistor[] = [];
+    if (!pool) return out;
+    for (const t of pool) if (!this.isClaimed(t) && t.tech === tech && !exclude.includes(t) && pred(t)) out.push(t);
     return out.length > 1 ? out.sort(this.byRank) : out;
+  }
+
+  /**
+   * `work(d)` for seed `d`, kept until the next claim: several kinds ask the same of each seed (the
+   * stacked mirrors its lower partners, the Widlar source and the simple mirror its outputs), and
+   * the answer depends only on the circuit and which devices are claimed. `answers` holds one question's.
+   */
+  private kept<T>(answers: Map<number, T>, d: Transistor, work: () => T): T {
+    let answer = answers.get(d.index);
+    if (answer === undefined) answers.set(d.index, (answer = work()));
+    return answer;
   }
 
   /** Transistors whose control terminal is on `node` (claimed ones included). */
@@ -106,7 +131,11 @@ export class Matcher {
    * emitter is on E (plain output, ratioed by geometry) or reaches E through exactly one resistor
    * R2 and nothing else (degenerated, Widlar-type).
    */
-  diodeOutputs(d: Transistor): { twins: Transistor[]; outputs: StructureOutput[]; devices: Transistor[] } {
+  diodeOutputs(d: Transistor): DiodeOutputs {
+    return this.kept(this.outputsOf, d, () => this.findDiodeOutputs(d));
+  }
+
+  private findDiodeOutputs(d: Transistor): DiodeOutputs {
     const a = d.ctrl;
     const e = d.common;
     const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d], this.onCtrl(a));
@@ -132,9 +161,9 @@ export class Matcher {
    * The lower pairs stacked mirrors are built on: D diode-connected (collector = base = B, emitter
    * on the rail) and each partner N (base on B, emitter on D's emitter, collector on its own node C).
    */
-  lowerPartners(d: Transistor): Transistor[] {
+  lowerPartners(d: Transistor): readonly Transistor[] {
     const b = d.ctrl;
-    return this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b));
+    return this.kept(this.partnersOf, d, () => this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b)));
   }
 }
 

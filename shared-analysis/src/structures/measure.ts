@@ -181,7 +181,11 @@ export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlan
     }
     for (const out of p.outputs) {
       f.outE[o] = out.e;
-      if (out.t) f.outNodes.set([out.t.out, out.t.ctrl, out.t.common], 3 * o);
+      if (out.t) {
+        f.outNodes[3 * o] = out.t.out;
+        f.outNodes[3 * o + 1] = out.t.ctrl;
+        f.outNodes[3 * o + 2] = out.t.common;
+      }
       f.outT.push(out.t);
       o++;
     }
@@ -190,6 +194,20 @@ export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlan
     f.outStart[i + 1] = o;
   });
   return f;
+}
+
+const planCache = new WeakMap<readonly Structure[], { topo: Topology; count: number; plans: MeasurementPlans }>();
+
+/**
+ * The flat plans of a list of structures, made once per list (and topology): the nominal check and
+ * the corner phase measure the same list. A list whose length changed since is planned again.
+ */
+export function plannedMeasurements(topo: Topology, structures: readonly Structure[]): MeasurementPlans {
+  const known = planCache.get(structures);
+  if (known && known.topo === topo && known.count === structures.length) return known.plans;
+  const plans = flattenPlans(structures.map((s) => planMeasurement(topo, s)));
+  planCache.set(structures, { topo, count: structures.length, plans });
+  return plans;
 }
 
 /**

@@ -75,7 +75,18 @@ export class Topology {
   /** Transistors by control (base/gate) node and by common (emitter/source) node. */
   readonly byCtrl = new Map<number, Transistor[]>();
   readonly byCommon = new Map<number, Transistor[]>();
-  private readonly attached = new Map<number, Attachment[]>();
+  /**
+   * The incidence as compressed rows: node n's connections are the (element index, slot) pairs at
+   * [rowStart[n], rowStart[n + 1]), in element order and then slot order. `at` makes the list of
+   * attachments of a node when it is first asked for: most nodes of a large circuit never are.
+   */
+  private readonly rowStart: Int32Array;
+  private readonly rowElement: Int32Array;
+  private readonly rowSlot: Uint8Array;
+  /** `at` lists made so far, by node (a packed array of every node: written in any order, it stays an array). */
+  private readonly atLists: (Attachment[] | undefined)[] = [];
+  /** Connections to node numbers outside `circuit.nodes` (the elaborator makes none), as lists. */
+  private readonly strayAttached = new Map<number, Attachment[]>();
   /** `conducting` results by node; callers must not mutate the returned lists. */
   private readonly conductingCache = new Map<number, Attachment[]>();
   readonly nodeIndex = new Map<string, number>();
@@ -84,17 +95,24 @@ export class Topology {
   readonly elementIndex = new Map<string, number>();
 
   constructor(readonly circuit: Circuit) {
-    circuit.nodes.forEach((n, i) => this.nodeIndex.set(n, i));
-    circuit.elements.forEach((e, k) => {
+    const nodeCount = circuit.nodes.length;
+    for (let i = 0; i < nodeCount; i++) {
+      this.nodeIndex.set(circuit.nodes[i], i);
+      this.atLists.push(undefined);
+    }
+    const elements = circuit.elements;
+    this.rowStart = new Int32Array(nodeCount + 1);
+    let connections = 0;
+    for (let k = 0; k < elements.length; k++) {
+      const e = elements[k];
       this.elementIndex.set(e.name, k);
       this.elementByName.set(e.name, e);
-      // A BJT's optional substrate node carries no DC current; leave it out of the incidence.
-      const slots = e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
-      for (let s = 0; s < slots; s++) {
+      for (let s = 0; s < incidentSlots(e); s++) {
         const n = e.nodes[s];
-        let list = this.attached.get(n);
-        if (!list) this.attached.set(n, (list = []));
-        list.push({ element: e, slot: s });
+        if (this.isNode(n)) {
+          this.rowStart[n + 1]++;
+          connections++;
+        } else push(this.strayAttached, n, { element: e, slot: s });
       }
       const t = asTransistor(e);
       if (t) {
@@ -105,12 +123,37 @@ export class Topology {
         push(this.byCtrl, t.ctrl, t);
         push(this.byCommon, t.common, t);
       }
-    });
+    }
+    for (let n = 0; n < nodeCount; n++) this.rowStart[n + 1] += this.rowStart[n];
+    this.rowElement = new Int32Array(connections);
+    this.rowSlot = new Uint8Array(connections);
+    const next = this.rowStart.slice(0, nodeCount);
+    for (let k = 0; k < elements.length; k++) {
+      const e = elements[k];
+      for (let s = 0; s < incidentSlots(e); s++) {
+        const n = e.nodes[s];
+        if (!this.isNode(n)) continue;
+        this.rowElement[next[n]] = k;
+        this.rowSlot[next[n]++] = s;
+      }
+    }
   }
 
-  /** Everything connected to a node, capacitors included (callers drop what they do not want). */
+  /** Whether `n` is an index into `circuit.nodes`. */
+  private isNode(n: number): boolean {
+    return Number.isInteger(n) && n >= 0 && n < this.circuit.nodes.length;
+  }
+
+  /** Everything connected to a node, capacitors included (callers drop what they do not want). Shared list: do not mutate. */
   at(node: number): Attachment[] {
-    return this.attached.get(node) ?? [];
+    if (!this.isNode(node)) return this.strayAttached.get(node) ?? [];
+    let list = this.atLists[node];
+    if (!list) {
+      list = [];
+      for (let j = this.rowStart[node]; j < this.rowStart[node + 1]; j++) list.push({ element: this.circuit.elements[this.rowElement[j]], slot: this.rowSlot[j] });
+      this.atLists[node] = list;
+    }
+    return list;
   }
 
   /** The DC-relevant connections of a node: capacitors (open at DC), MOS gates/bulks and the sensing inputs of E and G sources (no DC current) left out. Shared list: do not mutate. */
@@ -143,6 +186,11 @@ export class Topology {
   nodeName(i: number): string {
     return this.circuit.nodes[i] ?? String(i);
   }
+}
+
+/** The node slots of an element that carry DC current: a BJT's optional substrate node carries none, so it is left out of the incidence. */
+function incidentSlots(e: Element): number {
+  return e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
 }
 
 function push<K, V>(m: Map<K, V[]>, k: K, v: V): void {

@@ -5,6 +5,7 @@ import { eng, sig } from '../format';
 import type { Chain, ChainResult, Hand } from '../hand';
 import type { KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
+import type { Element } from '../../circuit';
 import type { Transistor } from '../topology';
 
 /** Where the formula comes from. */
@@ -25,7 +26,13 @@ function recognise(m: Matcher, t: Transistor): Draft | undefined {
   const c = t.out;
   const e = t.common;
   if (b === c || b === e || c === e) return undefined;
-  const others = [...new Set(m.topo.conducting(b).filter((a) => a.element !== t.element).map((a) => a.element))];
+  // The elements on the base node besides the device (each once, in order): a divider has exactly two.
+  const others: Element[] = [];
+  for (const a of m.topo.conducting(b)) {
+    if (a.element === t.element || others.includes(a.element)) continue;
+    if (others.length === 2) return undefined;
+    others.push(a.element);
+  }
   if (others.length !== 2 || others.some((x) => x.kind !== 'R' || !(x.resistance > 0))) return undefined;
   const far = (r: (typeof others)[number]) => (r.nodes[0] === b ? r.nodes[1] : r.nodes[0]);
   const r1 = others.find((r) => far(r) === c);

@@ -1,0 +1,77 @@
+// The recognition context's node incidence and its kept answers, against plain scans of the circuit.
+
+import { describe, expect, it } from 'vitest';
+import type { Circuit } from '../../../shared-analysis/src/circuit';
+import { Matcher } from '../../../shared-analysis/src/structures/match';
+import { Topology } from '../../../shared-analysis/src/structures/topology';
+import { CircuitBuilder } from './build';
+import { rng } from '../../seeded-random';
+
+/** A random tangle of resistors, capacitors, sources, BJTs (some with a substrate node), MOSFETs and diodes on a few nodes (seeded). */
+function tangle(seed: number): Circuit {
+  const random = rng(seed);
+  const node = () => (random() < 0.15 ? '0' : `n${Math.floor(random() * 12)}`);
+  const b = new CircuitBuilder();
+  b.model('qn', 'npn').model('qp', 'pnp').model('mn', 'nmos', { KP: 1e-4, VTO: 0.5 }).model('dd', 'd');
+  b.v('VCC', 'n0', '0', 5);
+  for (let k = 0; k < 40; k++) {
+    const pick = random();
+    if (pick < 0.25) b.r(`R${k}`, node(), node(), 1e3 + k);
+    else if (pick < 0.35) b.c(`C${k}`, node(), node(), 1e-9);
+    else if (pick < 0.4) b.i(`I${k}`, node(), node(), 1e-4);
+    else if (pick < 0.65) b.q(`Q${k}`, node(), node(), node(), random() < 0.7 ? 'qn' : 'qp');
+    else if (pick < 0.85) b.mos(`M${k}`, node(), node(), node(), node(), 'mn');
+    else b.d(`D${k}`, node(), node(), 'dd');
+  }
+  const circuit = b.build();
+  // A substrate node on some BJTs: it carries no DC current and is left out of the incidence.
+  for (const e of circuit.elements) if (e.kind === 'Q' && random() < 0.3) e.nodes.push(circuit.nodes.indexOf('n1'));
+  return circuit;
+}
+
+describe('topology', () => {
+  it('lists every connection of a node in element order, then slot order, as a scan of the elements does (seeded)', () => {
+    for (let seed = 1; seed <= 20; seed++) {
+      const circuit = tangle(seed);
+      const topo = new Topology(circuit);
+      for (let n = 0; n < circuit.nodes.length; n++) {
+        const plain: { element: string; slot: number }[] = [];
+        for (const e of circuit.elements) {
+          // A BJT's fourth (substrate) node is not an incidence (docs of `Topology`).
+          const slots = e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
+          for (let s = 0; s < slots; s++) if (e.nodes[s] === n) plain.push({ element: e.name, slot: s });
+        }
+        expect(topo.at(n).map((a) => ({ element: a.element.name, slot: a.slot }))).toEqual(plain);
+        // Asked again, the same list.
+        expect(topo.at(n)).toBe(topo.at(n));
+      }
+      expect(topo.at(circuit.nodes.length)).toEqual([]);
+      expect(topo.at(-1)).toEqual([]);
+    }
+  });
+
+  it("keeps a seed's outputs and lower partners only until the next claim", () => {
+    // Two simple mirrors sharing one control node through a third diode-connected device: claiming one changes the other's outputs.
+    const b = new CircuitBuilder();
+    b.model('qn', 'npn');
+    b.v('VCC', 'vcc', '0', 5);
+    b.r('RREF', 'vcc', 'a', 4.3e3);
+    b.q('Q1', 'a', 'a', '0', 'qn');
+    b.q('Q2', 'o2', 'a', '0', 'qn');
+    b.q('Q3', 'o3', 'a', '0', 'qn');
+    b.r('RL2', 'vcc', 'o2', 1e3);
+    b.r('RL3', 'vcc', 'o3', 1e3);
+    const circuit = b.build();
+    const m = new Matcher(circuit);
+    const q1 = m.topo.byName.get('Q1')!;
+    const q2 = m.topo.byName.get('Q2')!;
+    const before = m.diodeOutputs(q1);
+    expect(before.devices.map((t) => t.name)).toEqual(['Q2', 'Q3']);
+    expect(m.diodeOutputs(q1)).toBe(before);
+    expect(m.lowerPartners(q1).map((t) => t.name)).toEqual(['Q2', 'Q3']);
+    // Claim Q2 (as a draft of another structure would): the answers are worked out again, without it.
+    m.claim({ kind: 'simple-mirror', reference: q2, refNode: q2.ctrl, members: [{ t: q2, role: 'output' }], outputs: [] });
+    expect(m.diodeOutputs(q1).devices.map((t) => t.name)).toEqual(['Q3']);
+    expect(m.lowerPartners(q1).map((t) => t.name)).toEqual(['Q3']);
+  });
+});
