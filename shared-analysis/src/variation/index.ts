@@ -7,9 +7,10 @@ import type { ParsedDocument } from '../syntax/ast';
 import type { Target } from '../checks/targets';
 import { targetElements, targetIndexOf } from '../checks/targets';
 import { nameTable } from '../names';
+import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { sensitivities, type SensitivityResult, type VariedParameter } from './sensitivity';
+import { grown, grownFloat, sensitivities, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
@@ -104,44 +105,99 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   if (!lin) return undefined;
 
   const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
-  // Parameters: every tolerance source, the temperature, and every voltage source (for %/V) and resistor (for % per %).
+  const varied = variedParameters(circuit, sources);
+  const tSensitivities = performance.now();
+  const sens = sensitivities(lin, specs.map((s) => s.functional), varied.params.list);
+  // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
+  const sensitivityMs = lineariseMs + performance.now() - tSensitivities;
+  const count = varied.params.list.length;
+  const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
+  const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
+  const records = new OutputRecords(sens, sources, bySource, varied, new TopSensitivities(SHOWN_SENSITIVITIES, specs.length, shown), targetOf);
+  const outputs: OutputVariation[] = new Array(specs.length);
+  for (let o = 0; o < specs.length; o++) outputs[o] = records.of(specs[o], o);
+  const result: VariationResult = { outputs, sources: sourceSummaries(sources), stats: { adjointSolves: sens.adjointSolves, parameters: count, ms: performance.now() - t0 } };
+  return { result, specs, sources, bySource, sensitivityMs };
+}
+
+/** The varied parameters: every tolerance source's, the temperature, and every voltage source (for %/V) and resistor (for % per %). */
+interface VariedParameters {
+  params: ParameterList;
+  /** Per tolerance source: its parameter. */
+  sourceParam: number[];
+  temperature: number;
+  supplies: { name: string; j: number }[];
+  resistors: { name: string; j: number; ohms: number }[];
+}
+
+function variedParameters(circuit: Circuit, sources: readonly ToleranceSource[]): VariedParameters {
   const params = new ParameterList(circuit.elements.length);
-  const sourceParam = sources.map((s) => params.add(s.parameter));
+  const sourceParam = sourceParameters(params, sources);
   const temperature = params.add({ kind: 'temperature' });
   const supplies: { name: string; j: number }[] = [];
   const resistors: { name: string; j: number; ohms: number }[] = [];
-  circuit.elements.forEach((el, i) => {
-    if (el.kind === 'V' && Number.isFinite(el.dc) && el.dc !== 0) supplies.push({ name: el.name, j: params.add({ kind: 'source', element: i }) });
-    if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: params.add({ kind: 'resistance', element: i }), ohms: el.resistance });
-  });
+  const elements = circuit.elements;
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i];
+    if (el.kind === 'V' && Number.isFinite(el.dc) && el.dc !== 0) supplies.push({ name: el.name, j: params.ofElement('source', i) });
+    if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: params.ofElement('resistance', i), ohms: el.resistance });
+  }
+  return { params, sourceParam, temperature, supplies, resistors };
+}
 
-  const tSensitivities = performance.now();
-  const sens = sensitivities(lin, specs.map((s) => s.functional), params.list);
-  // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
-  const sensitivityMs = lineariseMs + performance.now() - tSensitivities;
-  const shown = shownForms(params.list.length, sources, sourceParam, resistors, supplies);
-  const bySource = sourceRowsOf(sens, sourceParam, params.list.length, sources.length);
-  const supplyOfParam = new Int32Array(params.list.length).fill(-1);
-  supplies.forEach((s, k) => (supplyOfParam[s.j] = k));
-  const supplySlope = new Float64Array(supplies.length);
-  const groups = groupIndexOf(sources);
-  const top = new TopSensitivities(SHOWN_SENSITIVITIES);
-  const outputs: OutputVariation[] = new Array(specs.length);
-  for (let o = 0; o < specs.length; o++) {
-    const spec = specs[o];
+/** Each tolerance source's parameter, listed. */
+function sourceParameters(params: ParameterList, sources: readonly ToleranceSource[]): number[] {
+  const out: number[] = new Array(sources.length);
+  for (let k = 0; k < sources.length; k++) out[k] = params.add(sources[k].parameter);
+  return out;
+}
+
+/** One source of spread as the report lists it. */
+function sourceSummaries(sources: readonly ToleranceSource[]): SourceSummary[] {
+  const out: SourceSummary[] = new Array(sources.length);
+  for (let k = 0; k < sources.length; k++) {
+    const s = sources[k];
+    out[k] = { name: s.label, kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : s.partSpread ? 'part spread' : 'mismatch', figure: s.figure, from: s.from };
+  }
+  return out;
+}
+
+/** Makes each output's record from its row of derivatives: value, σ, worst case, drift, %/V, contributors, sensitivities, yield. */
+class OutputRecords {
+  private readonly supplyOfParam: Int32Array;
+  private readonly supplySlope: Float64Array;
+  private readonly groups: GroupIndex;
+
+  constructor(
+    private readonly sens: SensitivityResult,
+    private readonly sources: readonly ToleranceSource[],
+    private readonly bySource: SourceRows,
+    private readonly varied: VariedParameters,
+    private readonly top: TopSensitivities,
+    private readonly targetOf: Map<string, TargetWindow>,
+  ) {
+    this.supplyOfParam = new Int32Array(varied.params.list.length).fill(-1);
+    varied.supplies.forEach((s, k) => (this.supplyOfParam[s.j] = k));
+    this.supplySlope = new Float64Array(varied.supplies.length);
+    this.groups = groupIndexOf(sources);
+  }
+
+  of(spec: OutputSpec, o: number): OutputVariation {
+    const { sens, supplySlope, supplyOfParam, bySource } = this;
     const y = sens.value[o];
     const scale = Math.abs(y) > 0 ? Math.abs(y) : 1;
     let tempco = 0;
     supplySlope.fill(0);
     for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
       const j = sens.index[q];
-      if (j === temperature) tempco = sens.derivative[q];
+      if (j === this.varied.temperature) tempco = sens.derivative[q];
       if (supplyOfParam[j] >= 0) supplySlope[supplyOfParam[j]] = sens.derivative[q];
     }
-    const { sigma, worstCase, contributors } = spreadOfRange(sources, groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
+    const { sigma, worstCase, contributors } = spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
     const supplyPercentPerVolt: Record<string, number> = nameTable();
-    supplies.forEach((s, k) => (supplyPercentPerVolt[s.name] = (supplySlope[k] / scale) * 100));
-    const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
+    const supplies = this.varied.supplies;
+    for (let k = 0; k < supplies.length; k++) supplyPercentPerVolt[supplies[k].name] = (supplySlope[k] / scale) * 100;
+    const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? this.targetOf.get(spec.element) : undefined;
     // Field by field, in the order the JSON shows them (the optional structure and element in their places).
     const out = { output: spec.label, key: spec.key, unit: spec.unit } as OutputVariation;
     if (spec.structure) out.structure = spec.structure;
@@ -154,22 +210,15 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
     out.tempcoPpmPerC = (tempco / scale) * 1e6;
     out.supplyPercentPerVolt = supplyPercentPerVolt;
     out.contributors = contributors;
-    out.sensitivities = top.of(sens, shown, o, scale);
+    this.top.add(sens, o, scale);
+    this.top.attach(out, o);
     if (target) {
       const lo = target.current * (1 - target.tolerance);
       const hi = target.current * (1 + target.tolerance);
       out.target = { ...target, yield: fractionWithin(Math.abs(y), sigma, lo, hi) };
     }
-    outputs[o] = out;
+    return out;
   }
-  const summaries: SourceSummary[] = sources.map((s) => ({
-    name: s.label,
-    kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : s.partSpread ? 'part spread' : 'mismatch',
-    figure: s.figure,
-    from: s.from,
-  }));
-  const result: VariationResult = { outputs, sources: summaries, stats: { adjointSolves: sens.adjointSolves, parameters: params.list.length, ms: performance.now() - t0 } };
-  return { result, specs, sources, bySource, sensitivityMs };
 }
 
 /** A target's window: its current and relative tolerance. */
@@ -225,6 +274,12 @@ class ParameterList {
     return table[p.element] >= 0 ? table[p.element] : (table[p.element] = this.push(p));
   }
 
+  /** The index of element i's resistance or source value, added when new (no parameter object made for one already listed). */
+  ofElement(kind: 'resistance' | 'source', element: number): number {
+    const table = kind === 'resistance' ? this.resistance : this.source;
+    return table[element] >= 0 ? table[element] : (table[element] = this.push({ kind, element }));
+  }
+
   private push(p: VariedParameter): number {
     this.list.push(p);
     return this.list.length - 1;
@@ -241,23 +296,30 @@ interface ShownForms {
 
 function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: readonly number[], resistors: readonly { name: string; j: number; ohms: number }[], supplies: readonly { name: string; j: number }[]): ShownForms {
   const forms: ShownForms = { isShown: new Uint8Array(count), factor: new Float64Array(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
-  const show = (j: number, name: string, unit: string, factor: number): void => {
-    forms.isShown[j] = 1;
-    forms.name[j] = name;
-    forms.unit[j] = unit;
-    forms.factor[j] = factor;
-  };
-  for (const r of resistors) show(r.j, r.name, '%/%', r.ohms);
-  for (const s of supplies) show(s.j, s.name, '%/V', 100);
-  sources.forEach((s, k) => {
-    if (s.parameter.kind !== 'model') return;
+  for (const r of resistors) showForm(forms, r.j, r.name, '%/%', r.ohms);
+  for (const s of supplies) showForm(forms, s.j, s.name, '%/V', 100);
+  showModelForms(forms, sources, sourceParam);
+  return forms;
+}
+
+function showForm(forms: ShownForms, j: number, name: string, unit: string, factor: number): void {
+  forms.isShown[j] = 1;
+  forms.name[j] = name;
+  forms.unit[j] = unit;
+  forms.factor[j] = factor;
+}
+
+/** A device parameter's form: a VBE or VTO shift per millivolt, a gain parameter per cent per per cent. */
+function showModelForms(forms: ShownForms, sources: readonly ToleranceSource[], sourceParam: readonly number[]): void {
+  for (let k = 0; k < sources.length; k++) {
+    const s = sources[k];
+    if (s.parameter.kind !== 'model') continue;
     const j = sourceParam[k];
     // A VBE shift ΔV is the IS ratio e^(−ΔV/(NF·VT)): dIS/dΔV = −σ_IS/σ_V (docs/VARIATION.md); per millivolt of the device's own shift.
-    if (s.aspect === 'VBE') show(j, s.label, '%/mV', (-s.sigma / s.figure) * 1e-3 * 100);
-    else if (s.parameter.param === 'VTO') show(j, s.label, '%/mV', 1e-3 * 100);
-    else show(j, s.label, '%/%', s.nominal);
-  });
-  return forms;
+    if (s.aspect === 'VBE') showForm(forms, j, s.label, '%/mV', (-s.sigma / s.figure) * 1e-3 * 100);
+    else if (s.parameter.param === 'VTO') showForm(forms, j, s.label, '%/mV', 1e-3 * 100);
+    else showForm(forms, j, s.label, '%/%', s.nominal);
+  }
 }
 
 /** Every output's derivatives with respect to the tolerance sources, picked out of its parameter row (parameter order kept). */
@@ -280,55 +342,121 @@ function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], p
 }
 
 /**
- * The largest normalised sensitivities of one output by `rankOf`, kept in the order they are
- * offered when equal (ties keep the parameter order), in reused typed arrays.
+ * The largest normalised sensitivities of every output by `rankOf`, kept in the order they are
+ * offered when equal (ties keep the parameter order), in typed arrays: output o's list is
+ * `param`/`value` from `start[o]` to `start[o + 1]`. Its records are made when the list is first
+ * read (the default JSON leaves them out; they were about a third of the spread's objects).
  */
 class TopSensitivities {
-  private readonly value: Float64Array;
+  private readonly start: Int32Array;
+  private param: Int32Array;
+  private value: Float64Array;
   private readonly rank: Float64Array;
-  private readonly param: Int32Array;
-  private count = 0;
+  private length = 0;
 
-  constructor(private readonly size: number) {
-    this.value = new Float64Array(size);
+  constructor(
+    private readonly size: number,
+    outputs: number,
+    private readonly shown: ShownForms,
+  ) {
+    this.start = new Int32Array(outputs + 1);
+    this.param = new Int32Array(size * Math.min(outputs, 1024));
+    this.value = new Float64Array(this.param.length);
     this.rank = new Float64Array(size);
-    this.param = new Int32Array(size);
   }
 
-  /** Output o's list, from its row of `sens` normalised by `shown` and its magnitude `scale`. */
-  of(sens: SensitivityResult, shown: ShownForms, o: number, scale: number): Sensitivity[] {
-    this.count = 0;
+  /** Output o's list (the next), from its row of `sens` normalised by the shown forms and its magnitude `scale`. */
+  add(sens: SensitivityResult, o: number, scale: number): void {
+    if (this.length + this.size > this.param.length) {
+      this.param = grown(this.param, this.param.length * 2);
+      this.value = grownFloat(this.value, this.param.length);
+    }
+    const shown = this.shown;
+    const from = this.length;
     for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
       const j = sens.index[q];
-      if (shown.isShown[j]) this.offer((sens.derivative[q] * shown.factor[j]) / scale, j);
+      if (shown.isShown[j]) this.offer(from, (sens.derivative[q] * shown.factor[j]) / scale, j);
     }
-    return this.list(shown);
+    this.start[o + 1] = this.length;
   }
 
-  private offer(value: number, j: number): void {
+  /**
+   * Gives `out` output o's list as `sensitivities`: built on first read, unless a figure is not
+   * finite (then now, so the finiteness walk removes it as from any record).
+   */
+  attach(out: OutputVariation, o: number): void {
+    const from = this.start[o];
+    const to = this.start[o + 1];
+    let finite = true;
+    for (let k = from; k < to; k++) if (!Number.isFinite(this.value[k])) finite = false;
+    if (!finite) {
+      out.sensitivities = this.list(from, to);
+      return;
+    }
+    const holder = out as LazySensitivities;
+    holder[LISTS] = this;
+    holder[LIST_INDEX] = o;
+    Object.defineProperty(out, 'sensitivities', LAZY_SENSITIVITIES);
+    markLazyTables(out);
+  }
+
+  /** Output o's list as records. */
+  listOf(o: number): Sensitivity[] {
+    return this.list(this.start[o], this.start[o + 1]);
+  }
+
+  /** Inserts one figure into the list that starts at `from` (kept sorted, at most `size` long). */
+  private offer(from: number, value: number, j: number): void {
     const rank = rankOf(value);
-    if (this.count === this.size && !(rank > this.rank[this.size - 1])) return;
-    let at = this.count < this.size ? this.count++ : this.size - 1;
-    while (at > 0 && rank > this.rank[at - 1]) {
-      this.value[at] = this.value[at - 1];
-      this.rank[at] = this.rank[at - 1];
-      this.param[at] = this.param[at - 1];
+    const count = this.length - from;
+    const ranks = this.rank;
+    if (count === this.size && !(rank > ranks[this.size - 1])) return;
+    let at = count < this.size ? this.length++ - from : this.size - 1;
+    while (at > 0 && rank > ranks[at - 1]) {
+      this.value[from + at] = this.value[from + at - 1];
+      ranks[at] = ranks[at - 1];
+      this.param[from + at] = this.param[from + at - 1];
       at--;
     }
-    this.value[at] = value;
-    this.rank[at] = rank;
-    this.param[at] = j;
+    this.value[from + at] = value;
+    ranks[at] = rank;
+    this.param[from + at] = j;
   }
 
-  private list(shown: ShownForms): Sensitivity[] {
-    const out: Sensitivity[] = new Array(this.count);
-    for (let k = 0; k < this.count; k++) {
+  private list(from: number, to: number): Sensitivity[] {
+    const shown = this.shown;
+    const out: Sensitivity[] = new Array(to - from);
+    for (let k = from; k < to; k++) {
       const j = this.param[k];
-      out[k] = { parameter: shown.name[j], unit: shown.unit[j], value: this.value[k] };
+      out[k - from] = { parameter: shown.name[j], unit: shown.unit[j], value: this.value[k] };
     }
     return out;
   }
 }
+
+/** Where an output with a list not yet made finds it (symbol keys: no copy, JSON or walk sees them). */
+const LISTS = Symbol('sensitivity lists');
+const LIST_INDEX = Symbol('sensitivity list index');
+type LazySensitivities = OutputVariation & { [LISTS]: TopSensitivities; [LIST_INDEX]: number };
+
+/** Replaces the accessor of `sensitivities` with the plain value. */
+function keepSensitivities(out: OutputVariation, value: Sensitivity[]): void {
+  Object.defineProperty(out, 'sensitivities', { value, writable: true, enumerable: true, configurable: true });
+}
+
+/** One accessor shared by every output whose list is made on first read (one getter for all keeps the outputs alike for V8). */
+const LAZY_SENSITIVITIES: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: LazySensitivities): Sensitivity[] {
+    const list = this[LISTS].listOf(this[LIST_INDEX]);
+    keepSensitivities(this, list);
+    return list;
+  },
+  set(this: OutputVariation, value: Sensitivity[]): void {
+    keepSensitivities(this, value);
+  },
+};
 
 /**
  * The group of each source as a number (sources of one group are summed when ranked), built once
@@ -353,11 +481,26 @@ const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
 function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
   let g = groupIndexes.get(sources);
   if (g) return g;
+  const count = sources.length;
+  const columns = groupColumns(sources);
+  const size = new Int32Array(columns.names.length);
+  countGroups(columns.of, size);
+  g = { ...columns, size, allName: new Array(columns.names.length).fill(undefined), aloneName: new Array(count).fill(undefined) };
+  groupIndexes.set(sources, g);
+  return g;
+}
+
+/** Each source's group number, the groups' names and aspects, and each source's σ and bound as columns (plain loops: `Float64Array.from` with a mapping function goes through the iterator protocol per item). */
+function groupColumns(sources: readonly ToleranceSource[]): Pick<GroupIndex, 'of' | 'names' | 'aspects' | 'sigma' | 'bound'> {
   const byName = new Map<string, number>();
-  const of = new Int32Array(sources.length);
+  const count = sources.length;
+  const of = new Int32Array(count);
   const names: string[] = [];
   const aspects: (string | undefined)[] = [];
-  sources.forEach((s, k) => {
+  const sigma = new Float64Array(count);
+  const bound = new Float64Array(count);
+  for (let k = 0; k < count; k++) {
+    const s = sources[k];
     let i = byName.get(s.group);
     if (i === undefined) {
       byName.set(s.group, (i = names.length));
@@ -365,34 +508,43 @@ function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
       aspects.push(s.aspect);
     }
     of[k] = i;
-  });
-  const size = new Int32Array(names.length);
+    sigma[k] = s.sigma;
+    bound[k] = s.bound;
+  }
+  return { of, names, aspects, sigma, bound };
+}
+
+/** Sources per group. */
+function countGroups(of: Int32Array, size: Int32Array): void {
   for (let k = 0; k < of.length; k++) size[of[k]]++;
-  const sigma = Float64Array.from(sources, (s) => s.sigma);
-  const bound = Float64Array.from(sources, (s) => s.bound);
-  g = { of, names, aspects, size, allName: new Array(names.length).fill(undefined), aloneName: new Array(sources.length).fill(undefined), sigma, bound };
-  groupIndexes.set(sources, g);
-  return g;
+}
+
+/** Source k's σ, the override's when there is one. */
+function sigmaOf(groups: GroupIndex, k: number, sigmaOverride: ((k: number) => number) | undefined): number {
+  return sigmaOverride === undefined ? groups.sigma[k] : sigmaOverride(k);
+}
+
+/** Whether row entry q belongs to group g and carries at least 1 % of its variance `v`. */
+function matters(groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, q: number, sigmaOverride: ((k: number) => number) | undefined): boolean {
+  const k = index[q];
+  if (groups.of[k] !== g) return false;
+  const a = Math.abs(value[q] * sigmaOf(groups, k, sigmaOverride));
+  return a * a >= 0.01 * v;
 }
 
 /** A mismatch group's ranked name: the devices that carry at least 1 % of its variance `v` in this row, then the parameter (`Q1/Q2 VBE`). */
-function mismatchName(sources: readonly ToleranceSource[], groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, to: number, sigmaOf: (k: number) => number): string {
-  const matters = (q: number): boolean => {
-    if (groups.of[index[q]] !== g) return false;
-    const a = Math.abs(value[q] * sigmaOf(index[q]));
-    return a * a >= 0.01 * v;
-  };
+function mismatchName(sources: readonly ToleranceSource[], groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, to: number, sigmaOverride: ((k: number) => number) | undefined): string {
   let count = 0;
   let last = -1;
   for (let q = from; q < to; q++) {
-    if (!matters(q)) continue;
+    if (!matters(groups, g, v, index, value, q, sigmaOverride)) continue;
     count++;
     last = index[q];
   }
   if (count === 1 && groups.aloneName[last] !== undefined) return groups.aloneName[last]!;
   if (count === groups.size[g] && groups.allName[g] !== undefined) return groups.allName[g]!;
   let members = '';
-  for (let q = from; q < to; q++) if (matters(q)) members = members ? `${members}/${sources[index[q]].element}` : sources[index[q]].element;
+  for (let q = from; q < to; q++) if (matters(groups, g, v, index, value, q, sigmaOverride)) members = members ? `${members}/${sources[index[q]].element}` : sources[index[q]].element;
   const name = `${members} ${groups.aspects[g]}`;
   if (count === 1) groups.aloneName[last] = name;
   else if (count === groups.size[g]) groups.allName[g] = name;
@@ -403,6 +555,14 @@ function mismatchName(sources: readonly ToleranceSource[], groups: GroupIndex, g
 let groupVariance = new Float64Array(64);
 let groupWorst = new Float64Array(64);
 let groupTouched = new Int32Array(64);
+
+/**
+ * The ranking of one call: group, rank and name of each contributor in order, in scratch kept between
+ * calls, so a contributor's record is made only when it is kept (the 8 largest).
+ */
+let rankedGroup = new Int32Array(64);
+let rankedRank = new Float64Array(64);
+const rankedName: string[] = [];
 
 /** Worst case, σ and the contributors ranked by variance (the 8 largest), summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
@@ -426,14 +586,13 @@ function spreadOfRange(
   }
   const sigmas = groups.sigma;
   const bounds = groups.bound;
-  const sigmaOf = (k: number): number => (sigmaOverride ? sigmaOverride(k) : sigmas[k]);
   let touched = 0;
   let variance = 0;
   let worstCase = 0;
   for (let q = from; q < to; q++) {
     const k = index[q];
-    const sigma = sigmaOverride ? sigmaOverride(k) : sigmas[k];
-    const bound = sigmaOverride ? (bounds[k] / sigmas[k]) * sigma : bounds[k];
+    const sigma = sigmaOf(groups, k, sigmaOverride);
+    const bound = sigmaOverride === undefined ? bounds[k] : (bounds[k] / sigmas[k]) * sigma;
     const a = Math.abs(value[q] * sigma);
     const w = Math.abs(value[q] * bound);
     variance += a * a;
@@ -443,39 +602,47 @@ function spreadOfRange(
     groupVariance[g] += a * a;
     groupWorst[g] += w;
   }
-  const contributors = rankedScratch;
-  const ranks = rankScratch;
-  contributors.length = 0;
-  ranks.length = 0;
+  if (rankedGroup.length < touched) {
+    rankedGroup = new Int32Array(touched * 2);
+    rankedRank = new Float64Array(touched * 2);
+  }
+  // Ranked by `rankOf` of the share (worked out once per contributor), then by name: inserted in place.
+  let count = 0;
   for (let t = 0; t < touched; t++) {
     const g = groupTouched[t];
     const v = groupVariance[g];
-    const worst = groupWorst[g];
-    groupVariance[g] = 0;
-    groupWorst[g] = 0;
-    if (!(v > 0)) continue;
-    const name = groups.aspects[g] ? mismatchName(sources, groups, g, v, index, value, from, to, sigmaOf) : groups.names[g];
-    // Ranked by `rankOf` of the share (worked out once per contributor), then by name: inserted in place.
-    const c: Contribution = { name, share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: worst };
-    const rank = rankOf(c.share);
-    let at = contributors.length;
-    contributors.push(c);
-    ranks.push(rank);
-    for (; at > 0 && (rank > ranks[at - 1] || (rank === ranks[at - 1] && name < contributors[at - 1].name)); at--) {
-      contributors[at] = contributors[at - 1];
-      ranks[at] = ranks[at - 1];
+    if (!(v > 0)) {
+      groupWorst[g] = 0;
+      groupVariance[g] = 0;
+      continue;
     }
-    contributors[at] = c;
-    ranks[at] = rank;
+    const name = groups.aspects[g] ? mismatchName(sources, groups, g, v, index, value, from, to, sigmaOverride) : groups.names[g];
+    const rank = rankOf(variance > 0 ? v / variance : 0);
+    let at = count++;
+    for (; at > 0 && (rank > rankedRank[at - 1] || (rank === rankedRank[at - 1] && name < rankedName[at - 1])); at--) {
+      rankedGroup[at] = rankedGroup[at - 1];
+      rankedRank[at] = rankedRank[at - 1];
+      rankedName[at] = rankedName[at - 1];
+    }
+    rankedGroup[at] = g;
+    rankedRank[at] = rank;
+    rankedName[at] = name;
   }
-  return { sigma: Math.sqrt(variance), worstCase, contributors: contributors.slice(0, MAX_CONTRIBUTORS) };
+  const contributors: Contribution[] = new Array(Math.min(count, MAX_CONTRIBUTORS));
+  for (let c = 0; c < contributors.length; c++) {
+    const g = rankedGroup[c];
+    const v = groupVariance[g];
+    contributors[c] = { name: rankedName[c], share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: groupWorst[g] };
+  }
+  for (let t = 0; t < touched; t++) {
+    groupVariance[groupTouched[t]] = 0;
+    groupWorst[groupTouched[t]] = 0;
+  }
+  return { sigma: Math.sqrt(variance), worstCase, contributors };
 }
 
 /** Contributors kept per output (the largest). */
 const MAX_CONTRIBUTORS = 8;
-/** The ranking of one call, copied out at its exact length (a list grown by pushing keeps spare room in every output). */
-const rankedScratch: Contribution[] = [];
-const rankScratch: number[] = [];
 
 /** Whether group g is among the first `count` touched groups of the current call. */
 function groupListed(count: number, g: number): boolean {

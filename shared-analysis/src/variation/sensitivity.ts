@@ -195,241 +195,400 @@ interface TableDerivatives {
  * numerically in batches of copies.
  */
 export function sensitivities(lin: Linearisation, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): SensitivityResult {
-  const { layout, conditions, x } = lin;
-  const els = layout.circuit.elements;
-  const n = layout.size;
+  // Each stage is a function of its own with one loop: run once on a large circuit, a function with
+  // several long loops is compiled again for each loop it enters, and the code after a loop is then
+  // met without type feedback (measured: most of a cold spread analysis was compiling).
+  const maps = elementMaps(lin, params);
+  const derivatives = deviceDerivatives(lin, maps, outputs, params);
+  const columns = rowMajor(parameterColumns(lin, maps, derivatives, params), lin.layout.size);
+  const rows = new DerivativeRows(params.length, outputs.length);
+  const value = new Float64Array(outputs.length);
+  adjointRows(lin, maps, derivatives, columns, outputs, params, rows, value);
+  return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length };
+}
+
+/** Parameter kinds as codes, so the loops over every parameter read a typed array instead of objects of several shapes. */
+const TEMPERATURE = 0;
+const RESISTANCE = 1;
+const SOURCE = 2;
+const MODEL = 3;
+
+/** Where each element sits in the layout, and the parameters of each element. */
+interface ElementMaps {
+  /** Per element: its device table and instance (−1: not a device). */
+  tableOf: Int32Array;
+  instanceOf: Int32Array;
+  /** Per element: its reader in the layout and its source hook (−1: none). */
+  readerOf: Int32Array;
+  sourceOf: Int32Array;
+  /** Per parameter: its kind code and element (−1: the temperature). */
+  kind: Uint8Array;
+  element: Int32Array;
+  /** The temperature's parameter index (−1: not asked for). */
+  temperatureParam: number;
+  /** The parameters of element e: `elementParams[elementParamStart[e] … elementParamStart[e + 1] − 1]`. */
+  elementParamStart: Int32Array;
+  elementParams: Int32Array;
+}
+
+function elementMaps(lin: Linearisation, params: readonly VariedParameter[]): ElementMaps {
+  const layout = lin.layout;
+  const count = layout.circuit.elements.length;
   const order = layout.deviceOrder;
-  const tables = layout.tables;
-  const v = (u: number): number => (u >= 0 ? x[u] : 0);
-  // Element index -> its device table and instance (−1: not a device).
-  const tableOf = new Int32Array(els.length).fill(-1);
-  const instanceOf = new Int32Array(els.length);
+  const tableOf = new Int32Array(count).fill(-1);
+  const instanceOf = new Int32Array(count);
   for (let d = 0; d < order.element.length; d++) {
     tableOf[order.element[d]] = order.table[d];
     instanceOf[order.element[d]] = order.instance[d];
   }
-  // Element index -> its reader in the layout and its source hook (−1: none).
-  const readerOf = new Int32Array(els.length).fill(-1);
+  const readerOf = new Int32Array(count).fill(-1);
   layout.readers.forEach((r, k) => (readerOf[r.element] = k));
-  const sourceOf = new Int32Array(els.length).fill(-1);
+  const sourceOf = new Int32Array(count).fill(-1);
   layout.sources.forEach((s, k) => (sourceOf[s.element] = k));
-  const temperatureParam = params.findIndex((p) => p.kind === 'temperature');
+  const kind = new Uint8Array(params.length);
+  const element = new Int32Array(params.length);
+  const temperatureParam = parameterKinds(params, kind, element);
+  const elementParamStart = new Int32Array(count + 1);
+  const elementParams = parametersByElement(kind, element, elementParamStart);
+  return { tableOf, instanceOf, readerOf, sourceOf, kind, element, temperatureParam, elementParamStart, elementParams };
+}
 
-  // The parameters of each element, by element index (for the explicit ∂g/∂p of an output's own elements).
-  const elementParamStart = new Int32Array(els.length + 1);
-  for (const p of params) if (p.kind !== 'temperature') elementParamStart[p.element + 1]++;
-  for (let e = 0; e < els.length; e++) elementParamStart[e + 1] += elementParamStart[e];
-  const elementParams = new Int32Array(elementParamStart[els.length]);
-  {
-    const fill = elementParamStart.slice(0, els.length);
-    params.forEach((p, j) => {
-      if (p.kind !== 'temperature') elementParams[fill[p.element]++] = j;
-    });
+/** Fills each parameter's kind code and element; returns the temperature's index (−1: none). */
+function parameterKinds(params: readonly VariedParameter[], kind: Uint8Array, element: Int32Array): number {
+  let temperature = -1;
+  for (let j = 0; j < params.length; j++) {
+    const p = params[j];
+    if (p.kind === 'temperature') {
+      kind[j] = TEMPERATURE;
+      element[j] = -1;
+      if (temperature < 0) temperature = j;
+    } else {
+      kind[j] = p.kind === 'resistance' ? RESISTANCE : p.kind === 'source' ? SOURCE : MODEL;
+      element[j] = p.element;
+    }
   }
+  return temperature;
+}
 
-  // ---- the columns ∂F/∂p, as (row, parameter, value) triples ----
-  const cols = new Triples();
-  const put = (j: number, u: number, val: number): void => {
-    if (u < 0 || val === 0 || !Number.isFinite(val)) return;
-    cols.push(u, j, val);
-  };
+/** The parameters of each element in compressed rows (`start` filled, the list returned), parameter order kept. */
+function parametersByElement(kind: Uint8Array, element: Int32Array, start: Int32Array): Int32Array {
+  const count = start.length - 1;
+  for (let j = 0; j < kind.length; j++) if (kind[j] !== TEMPERATURE) start[element[j] + 1]++;
+  for (let e = 0; e < count; e++) start[e + 1] += start[e];
+  const list = new Int32Array(start[count]);
+  const fill = start.slice(0, count);
+  for (let j = 0; j < kind.length; j++) if (kind[j] !== TEMPERATURE) list[fill[element[j]]++] = j;
+  return list;
+}
 
-  // Device parameters asked for, per table: the temperature and the model or instance parameters of its instances.
+/** The device derivatives of every table an output or a parameter needs (the temperature, its instances' model parameters, a read terminal current). */
+function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): (TableDerivatives | undefined)[] {
+  const tables = lin.layout.tables;
   const namesOf: Set<string>[] = tables.map(() => new Set<string>());
-  if (temperatureParam >= 0) for (const set of namesOf) set.add(TEMPERATURE_PARAMETER);
-  for (const p of params) if (p.kind === 'model' && tableOf[p.element] >= 0) namesOf[tableOf[p.element]].add(p.param);
+  if (maps.temperatureParam >= 0) for (const set of namesOf) set.add(TEMPERATURE_PARAMETER);
+  const { kind, element, tableOf } = maps;
+  for (let j = 0; j < kind.length; j++) if (kind[j] === MODEL && tableOf[element[j]] >= 0) namesOf[tableOf[element[j]]].add((params[j] as { param: string }).param);
   // Tables an output reads a terminal current of need their current rows even without parameters.
   const readsTable = new Uint8Array(tables.length);
   for (const out of outputs) for (const term of out.terms) if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
-  const derivatives: (TableDerivatives | undefined)[] = tables.map((table, k) => {
+  return tables.map((table, k) => {
     const names = [...namesOf[k]];
     if (names.length === 0 && !readsTable[k]) return undefined;
-    const result = table.sensitivity?.(x, conditions, names) ?? numericalSensitivity(table, x, conditions, names);
+    const result = table.sensitivity?.(lin.x, lin.conditions, names) ?? numericalSensitivity(table, lin.x, lin.conditions, names);
     return { T: table.kind.terminalCount, N: table.kind.nodeCount, names, result };
   });
-  // Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result.
-  const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
-  const temperatureColumn: (Float64Array | undefined)[] = derivatives.map((td) => (td && temperatureParam >= 0 ? td.result.currentByParam[td.names.indexOf(TEMPERATURE_PARAMETER)] : undefined));
+}
 
-  // Temperature: every instance's residual rows.
-  if (temperatureParam >= 0) {
-    derivatives.forEach((td, k) => {
-      if (!td) return;
-      const col = td.result.residualByParam[td.names.indexOf(TEMPERATURE_PARAMETER)];
-      const terminals = tables[k].instances.terminals;
-      for (let q = 0; q < col.length; q++) if (col[q] !== 0) put(temperatureParam, terminals[q], col[q]);
-    });
-  }
+/** The value at unknown u of the solution (0 at ground). */
+function voltageAt(x: Float64Array, u: number): number {
+  return u >= 0 ? x[u] : 0;
+}
 
-  params.forEach((p, j) => {
-    if (p.kind === 'resistance') {
-      const g = lin.conductanceOf(p.element);
-      const el = els[p.element];
+/** Adds (row u, parameter j, value) to the columns ∂F/∂p, unless it is ground, zero or not finite. */
+function put(cols: Triples, j: number, u: number, val: number): void {
+  if (u < 0 || val === 0 || !Number.isFinite(val)) return;
+  cols.push(u, j, val);
+}
+
+/** The columns ∂F/∂p of every parameter, as (row, parameter, value) triples. */
+function parameterColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[]): Triples {
+  const cols = new Triples();
+  if (maps.temperatureParam >= 0) deviceTemperatureColumns(lin, maps.temperatureParam, derivatives, cols);
+  elementColumns(lin, maps, derivatives, params, cols);
+  if (maps.temperatureParam >= 0) resistorTemperatureColumns(lin, maps.temperatureParam, cols);
+  return cols;
+}
+
+/** Temperature: every device instance's residual rows. */
+function deviceTemperatureColumns(lin: Linearisation, temperatureParam: number, derivatives: readonly (TableDerivatives | undefined)[], cols: Triples): void {
+  derivatives.forEach((td, k) => {
+    if (!td) return;
+    const col = td.result.residualByParam[td.names.indexOf(TEMPERATURE_PARAMETER)];
+    const terminals = lin.layout.tables[k].instances.terminals;
+    for (let q = 0; q < col.length; q++) if (col[q] !== 0) put(cols, temperatureParam, terminals[q], col[q]);
+  });
+}
+
+/** Each resistor's, source's and device parameter's own rows. */
+function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], cols: Triples): void {
+  const { kind, element, sourceOf, tableOf, instanceOf } = maps;
+  const els = lin.layout.circuit.elements;
+  const x = lin.x;
+  for (let j = 0; j < kind.length; j++) {
+    const e = element[j];
+    if (kind[j] === RESISTANCE) {
+      const g = lin.conductanceOf(e);
+      const el = els[e];
       if (g !== undefined && g !== 0 && el.kind === 'R' && el.resistance > 0) {
         const a = el.nodes[0] - 1;
         const b = el.nodes[1] - 1;
         // F_a gains g·(Va − Vb); g = 1/(R·f) (f: the temperature coefficients' factor), so dg/dR = −g/R.
-        const d = (-g / el.resistance) * (v(a) - v(b));
-        put(j, a, d);
-        put(j, b, -d);
+        const d = (-g / el.resistance) * (voltageAt(x, a) - voltageAt(x, b));
+        put(cols, j, a, d);
+        put(cols, j, b, -d);
       }
-    } else if (p.kind === 'source') {
-      const k = sourceOf[p.element];
+    } else if (kind[j] === SOURCE) {
+      const k = sourceOf[e];
       if (k >= 0) {
-        const hook = layout.sources[k];
-        if (hook.kind === 'V') put(j, hook.rows[0], -1);
+        const hook = lin.layout.sources[k];
+        if (hook.kind === 'V') put(cols, j, hook.rows[0], -1);
         else {
-          put(j, hook.rows[0], 1);
-          put(j, hook.rows[1], -1);
+          put(cols, j, hook.rows[0], 1);
+          put(cols, j, hook.rows[1], -1);
         }
       }
-    } else if (p.kind === 'model') {
-      const t = tableOf[p.element];
-      const td = t >= 0 ? derivatives[t] : undefined;
-      if (!td) return;
-      const k = td.names.indexOf(p.param);
-      currentColumn[j] = td.result.currentByParam[k];
-      const col = td.result.residualByParam[k];
-      const terminals = tables[t].instances.terminals;
-      const first = instanceOf[p.element] * td.T;
-      for (let r = first; r < first + td.T; r++) put(j, terminals[r], col[r]);
-    }
-  });
-
-  // Resistors with temperature coefficients: dg/dT = g·(d ln g/dT) on their KCL rows.
-  if (temperatureParam >= 0) {
-    for (const r of layout.readers) {
-      if (r.kind !== 'conductance') continue;
-      const slope = lin.conductanceSlopeOf(r.element);
-      if (slope === 0) continue;
-      const d = (lin.conductanceOf(r.element) ?? r.g) * slope * (v(r.a) - v(r.b));
-      put(temperatureParam, r.a, d);
-      put(temperatureParam, r.b, -d);
-    }
-  }
-
-  // Row-major index of the columns.
-  const rowStart = new Int32Array(n + 1);
-  const colCount = cols.length;
-  for (let q = 0; q < colCount; q++) rowStart[cols.row[q] + 1]++;
-  for (let u = 0; u < n; u++) rowStart[u + 1] += rowStart[u];
-  const rowParam = new Int32Array(colCount);
-  const rowValue = new Float64Array(colCount);
-  {
-    const fill = rowStart.slice(0, n);
-    for (let q = 0; q < colCount; q++) {
-      const at = fill[cols.row[q]]++;
-      rowParam[at] = cols.param[q];
-      rowValue[at] = cols.value[q];
-    }
-  }
-
-  // ---- one sparse transposed solve per output ----
-  const value = new Float64Array(outputs.length);
-  const rows = new DerivativeRows(params.length, outputs.length);
-  const lambda = { index: [] as number[], value: [] as number[] };
-  // ∂g/∂x, dense with the list of its non-zero unknowns.
-  const cDense = new Float64Array(n);
-  const cMark = new Uint8Array(n);
-  const cIndex: number[] = [];
-  const cValue: number[] = [];
-  const add = (j: number, val: number): void => rows.add(j, val);
-  const addC = (u: number, val: number): void => {
-    if (u < 0) return;
-    if (!cMark[u]) {
-      cMark[u] = 1;
-      cIndex.push(u);
-    }
-    cDense[u] += val;
-  };
-  for (let o = 0; o < outputs.length; o++) {
-    const out = outputs[o];
-    cIndex.length = 0;
-    let y = 0;
-    for (const term of out.terms) {
-      const w = term.weight;
-      if (term.kind === 'node') {
-        y += w * v(term.node - 1);
-        addC(term.node - 1, w);
-        continue;
-      }
-      const e = term.element;
-      if (term.kind === 'element') {
-        if (readerOf[e] < 0) continue;
-        const r = layout.readers[readerOf[e]];
-        const drop = v(r.a) - v(r.b);
-        switch (r.kind) {
-          case 'conductance': {
-            const g = lin.conductanceOf(e) ?? r.g;
-            const el = els[e];
-            y += w * g * drop;
-            addC(r.a, w * g);
-            addC(r.b, -w * g);
-            if (el.kind === 'R' && el.resistance > 0)
-              for (let q = elementParamStart[e]; q < elementParamStart[e + 1]; q++) if (params[elementParams[q]].kind === 'resistance') add(elementParams[q], (-w * g * drop) / el.resistance);
-            const slope = lin.conductanceSlopeOf(e);
-            if (slope !== 0 && temperatureParam >= 0) add(temperatureParam, w * g * slope * drop);
-            break;
-          }
-          case 'branch':
-            y += w * x[r.branch];
-            addC(r.branch, w);
-            break;
-          case 'source-current':
-            y += w * lin.sourceValues[r.hook];
-            for (let q = elementParamStart[e]; q < elementParamStart[e + 1]; q++) if (params[elementParams[q]].kind === 'source') add(elementParams[q], w);
-            break;
-          case 'vccs':
-            y += w * r.gain * (v(r.cp) - v(r.cn));
-            addC(r.cp, w * r.gain);
-            addC(r.cn, -w * r.gain);
-            break;
-          case 'cccs':
-            y += w * r.gain * x[r.branch];
-            addC(r.branch, w * r.gain);
-            break;
-          case 'open':
-            break;
-        }
-        continue;
-      }
+    } else if (kind[j] === MODEL) {
       const t = tableOf[e];
       const td = t >= 0 ? derivatives[t] : undefined;
-      if (!td || term.terminal >= td.N) continue;
-      const i = instanceOf[e];
-      const q = i * td.N + term.terminal;
-      y += w * td.result.current[q];
-      const terminals = tables[t].instances.terminals;
-      const byV = td.result.currentByVoltage;
-      for (let c = 0; c < td.T; c++) {
-        const d = byV[q * td.T + c];
-        if (d !== 0) addC(terminals[i * td.T + c], w * d);
-      }
-      const tc = temperatureColumn[t];
-      if (tc) add(temperatureParam, w * tc[q]);
-      for (let k = elementParamStart[e]; k < elementParamStart[e + 1]; k++) {
-        const col = currentColumn[elementParams[k]];
-        if (col) add(elementParams[k], w * col[q]);
-      }
+      if (!td) continue;
+      const col = td.result.residualByParam[td.names.indexOf((params[j] as { param: string }).param)];
+      const terminals = lin.layout.tables[t].instances.terminals;
+      const first = instanceOf[e] * td.T;
+      for (let r = first; r < first + td.T; r++) put(cols, j, terminals[r], col[r]);
     }
+  }
+}
+
+/** Resistors with temperature coefficients: dg/dT = g·(d ln g/dT) on their KCL rows. */
+function resistorTemperatureColumns(lin: Linearisation, temperatureParam: number, cols: Triples): void {
+  const els = lin.layout.circuit.elements;
+  for (const r of lin.layout.readers) {
+    if (r.kind !== 'conductance') continue;
+    const el = els[r.element];
+    // The slope is zero without a coefficient (`conductanceSlopeOf` says so too, after its look-ups).
+    if (el.kind !== 'R' || !(el.tc1 || el.tc2)) continue;
+    const slope = lin.conductanceSlopeOf(r.element);
+    if (slope === 0) continue;
+    const d = (lin.conductanceOf(r.element) ?? r.g) * slope * (voltageAt(lin.x, r.a) - voltageAt(lin.x, r.b));
+    put(cols, temperatureParam, r.a, d);
+    put(cols, temperatureParam, r.b, -d);
+  }
+}
+
+/** The columns ∂F/∂p by row: row u's parameters `param[start[u] … start[u + 1] − 1]`, with their values. */
+interface ColumnsByRow {
+  start: Int32Array;
+  param: Int32Array;
+  value: Float64Array;
+}
+
+function rowMajor(cols: Triples, n: number): ColumnsByRow {
+  const start = new Int32Array(n + 1);
+  const count = cols.length;
+  const row = cols.row;
+  for (let q = 0; q < count; q++) start[row[q] + 1]++;
+  for (let u = 0; u < n; u++) start[u + 1] += start[u];
+  const param = new Int32Array(count);
+  const value = new Float64Array(count);
+  const fill = start.slice(0, n);
+  const colParam = cols.param;
+  const colValue = cols.value;
+  for (let q = 0; q < count; q++) {
+    const at = fill[row[q]]++;
+    param[at] = colParam[q];
+    value[at] = colValue[q];
+  }
+  return { start, param, value };
+}
+
+/** ∂g/∂x of one output: dense, with the list of its non-zero unknowns (reused from output to output). */
+class OutputGradient {
+  readonly dense: Float64Array;
+  private readonly mark: Uint8Array;
+  readonly index: number[] = [];
+  readonly value: number[] = [];
+
+  constructor(n: number) {
+    this.dense = new Float64Array(n);
+    this.mark = new Uint8Array(n);
+  }
+
+  add(u: number, val: number): void {
+    if (u < 0) return;
+    if (!this.mark[u]) {
+      this.mark[u] = 1;
+      this.index.push(u);
+    }
+    this.dense[u] += val;
+  }
+
+  /** Moves the dense entries into `value` (aligned with `index`) and clears them. */
+  close(): void {
+    const { index, value, dense, mark } = this;
+    value.length = index.length;
+    for (let k = 0; k < index.length; k++) {
+      value[k] = dense[index[k]];
+      dense[index[k]] = 0;
+      mark[index[k]] = 0;
+    }
+  }
+
+  clear(): void {
+    this.index.length = 0;
+  }
+}
+
+/** One sparse transposed solve per output: its row of derivatives into `rows`, its value into `value`. */
+function adjointRows(
+  lin: Linearisation,
+  maps: ElementMaps,
+  derivatives: readonly (TableDerivatives | undefined)[],
+  columns: ColumnsByRow,
+  outputs: readonly OutputFunctional[],
+  params: readonly VariedParameter[],
+  rows: DerivativeRows,
+  value: Float64Array,
+): void {
+  const temperatureColumn: (Float64Array | undefined)[] = derivatives.map((td) => (td && maps.temperatureParam >= 0 ? td.result.currentByParam[td.names.indexOf(TEMPERATURE_PARAMETER)] : undefined));
+  // Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result.
+  const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
+  for (let j = 0; j < params.length; j++) {
+    const t = maps.kind[j] === MODEL ? maps.tableOf[maps.element[j]] : -1;
+    const td = t >= 0 ? derivatives[t] : undefined;
+    if (td) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
+  }
+  const terms = new OutputTerms(lin, maps, derivatives, temperatureColumn, currentColumn, rows);
+  const lambda = { index: [] as number[], value: [] as number[] };
+  for (let o = 0; o < outputs.length; o++) {
+    const out = outputs[o];
+    const y = terms.read(out);
     const sign = out.magnitude && y < 0 ? -1 : 1;
-    cValue.length = cIndex.length;
-    for (let k = 0; k < cIndex.length; k++) {
-      cValue[k] = cDense[cIndex[k]];
-      cDense[cIndex[k]] = 0;
-      cMark[cIndex[k]] = 0;
-    }
-    lin.solveTransposedSparse(cIndex, cValue, lambda);
-    for (let k = 0; k < lambda.index.length; k++) {
-      const u = lambda.index[k];
-      const l = lambda.value[k];
-      if (l === 0) continue;
-      for (let q = rowStart[u]; q < rowStart[u + 1]; q++) rows.add(rowParam[q], -l * rowValue[q]);
-    }
+    const c = terms.gradient;
+    c.close();
+    lin.solveTransposedSparse(c.index, c.value, lambda);
+    addAdjointTerms(lambda, columns, rows);
     rows.close(sign);
     value[o] = sign * y;
   }
-  return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length };
+}
+
+/** −λ·∂F/∂p into the current row, over the rows of ∂F/∂p that λ reaches. */
+function addAdjointTerms(lambda: { index: number[]; value: number[] }, columns: ColumnsByRow, rows: DerivativeRows): void {
+  const { start, param, value } = columns;
+  for (let k = 0; k < lambda.index.length; k++) {
+    const u = lambda.index[k];
+    const l = lambda.value[k];
+    if (l === 0) continue;
+    for (let q = start[u]; q < start[u + 1]; q++) rows.add(param[q], -l * value[q]);
+  }
+}
+
+/**
+ * Reads an output's terms at the solution: its value, its ∂g/∂x (into `gradient`) and its explicit
+ * ∂g/∂p (into the current row of `rows`).
+ */
+class OutputTerms {
+  readonly gradient: OutputGradient;
+
+  constructor(
+    private readonly lin: Linearisation,
+    private readonly maps: ElementMaps,
+    private readonly derivatives: readonly (TableDerivatives | undefined)[],
+    private readonly temperatureColumn: readonly (Float64Array | undefined)[],
+    private readonly currentColumn: readonly (Float64Array | undefined)[],
+    private readonly rows: DerivativeRows,
+  ) {
+    this.gradient = new OutputGradient(lin.layout.size);
+  }
+
+  /** The output's value (before its magnitude is taken). */
+  read(out: OutputFunctional): number {
+    this.gradient.clear();
+    let y = 0;
+    for (const term of out.terms) {
+      if (term.kind === 'node') {
+        y += term.weight * voltageAt(this.lin.x, term.node - 1);
+        this.gradient.add(term.node - 1, term.weight);
+      } else if (term.kind === 'element') y += this.element(term.element, term.weight);
+      else y += this.terminal(term.element, term.terminal, term.weight);
+    }
+    return y;
+  }
+
+  /** A two-terminal element's current, by its reader. */
+  private element(e: number, w: number): number {
+    const { lin, maps, gradient: c, rows } = this;
+    if (maps.readerOf[e] < 0) return 0;
+    const r = lin.layout.readers[maps.readerOf[e]];
+    const x = lin.x;
+    switch (r.kind) {
+      case 'conductance': {
+        const drop = voltageAt(x, r.a) - voltageAt(x, r.b);
+        const g = lin.conductanceOf(e) ?? r.g;
+        const el = lin.layout.circuit.elements[e];
+        c.add(r.a, w * g);
+        c.add(r.b, -w * g);
+        if (el.kind === 'R' && el.resistance > 0) this.ownParameters(e, RESISTANCE, (-w * g * drop) / el.resistance);
+        const slope = lin.conductanceSlopeOf(e);
+        if (slope !== 0 && maps.temperatureParam >= 0) rows.add(maps.temperatureParam, w * g * slope * drop);
+        return w * g * drop;
+      }
+      case 'branch':
+        c.add(r.branch, w);
+        return w * x[r.branch];
+      case 'source-current':
+        this.ownParameters(e, SOURCE, w);
+        return w * lin.sourceValues[r.hook];
+      case 'vccs':
+        c.add(r.cp, w * r.gain);
+        c.add(r.cn, -w * r.gain);
+        return w * r.gain * (voltageAt(x, r.cp) - voltageAt(x, r.cn));
+      case 'cccs':
+        c.add(r.branch, w * r.gain);
+        return w * r.gain * x[r.branch];
+      case 'open':
+        return 0;
+    }
+  }
+
+  /** Adds `val` to the derivative of each parameter of kind `kind` of element e. */
+  private ownParameters(e: number, kind: number, val: number): void {
+    const { elementParamStart, elementParams } = this.maps;
+    for (let q = elementParamStart[e]; q < elementParamStart[e + 1]; q++) if (this.maps.kind[elementParams[q]] === kind) this.rows.add(elementParams[q], val);
+  }
+
+  /** The current into a device's netlist terminal, with its partials from the device's linearisation. */
+  private terminal(e: number, terminal: number, w: number): number {
+    const { maps, rows } = this;
+    const t = maps.tableOf[e];
+    const td = t >= 0 ? this.derivatives[t] : undefined;
+    if (!td || terminal >= td.N) return 0;
+    const i = maps.instanceOf[e];
+    const q = i * td.N + terminal;
+    const terminals = this.lin.layout.tables[t].instances.terminals;
+    const byV = td.result.currentByVoltage;
+    for (let c = 0; c < td.T; c++) {
+      const d = byV[q * td.T + c];
+      if (d !== 0) this.gradient.add(terminals[i * td.T + c], w * d);
+    }
+    const tc = this.temperatureColumn[t];
+    if (tc) rows.add(maps.temperatureParam, w * tc[q]);
+    for (let k = maps.elementParamStart[e]; k < maps.elementParamStart[e + 1]; k++) {
+      const col = this.currentColumn[maps.elementParams[k]];
+      if (col) rows.add(maps.elementParams[k], w * col[q]);
+    }
+    return w * td.result.current[q];
+  }
 }
 
 /**
@@ -500,14 +659,14 @@ function sortAscending(a: Int32Array, count: number): void {
 }
 
 /** A copy of an Int32Array at a larger size. */
-function grown(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
+export function grown(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
   const b = new Int32Array(size);
   b.set(a);
   return b;
 }
 
 /** A copy of a Float64Array at a larger size. */
-function grownFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
+export function grownFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
   const b = new Float64Array(size);
   b.set(a);
   return b;

@@ -46,7 +46,10 @@ export interface ToleranceSource {
   from: 'card' | 'series' | 'setting' | 'supply' | 'model' | 'default';
   /** The relative tolerance (resistors and sources) or the σ in its own unit (mismatch), as shown to people. */
   figure: number;
-  /** A device's own spread from one part to the next (a JFET's pinch-off voltage), not a mismatch among matched devices. */
+  /**
+   * A device's own spread from one part to the next (a JFET's pinch-off voltage), not a mismatch among matched devices.
+   * The sources made here have every field (undefined when it does not apply): sources of one shape keep the loops over them fast.
+   */
   partSpread?: boolean;
 }
 
@@ -58,6 +61,9 @@ export function readCardTolerances(documents: Record<string, ParsedDocument>): M
   const out = new Map<string, number>();
   for (const uri of Object.keys(documents)) {
     const doc = documents[uri];
+    // A note in a comment is a match within the text (a comment starts after `;` or `$`, so the note's
+    // leading word boundary holds in the whole text too): a text without one has no card to look at.
+    if (!TOLERANCE_NOTE.test(doc.text)) continue;
     for (const card of doc.cards) {
       if (card.kind !== 'element') continue;
       for (const c of endOfLineComments(doc.text, card as ElementCard)) {
@@ -96,62 +102,124 @@ const SMALLEST_NORMAL = 2.2250738585072014e-308;
  */
 export function toleranceSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): ToleranceSource[] {
   const out: ToleranceSource[] = [];
-  // Element name -> index, the last of a name (the topology's table, built once per circuit).
-  const index = topologyOf(circuit).elementIndex;
-  circuit.elements.forEach((el, i) => {
+  elementSources(out, circuit, tolerances, settings);
+  const devices = structureDevices(circuit, structures);
+  jfetSpreads(out, circuit, devices);
+  mismatchSources(out, circuit, structures, devices, temperatureC);
+  return normalSources(out);
+}
+
+/** The resistors' and the independent sources' tolerances. */
+function elementSources(out: ToleranceSource[], circuit: Circuit, tolerances: Map<string, number>, settings: SourceSettings): void {
+  const elements = circuit.elements;
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i];
     if (el.kind === 'R') {
       const r = el.resistance;
-      if (!(Number.isFinite(r) && r > 0)) return;
+      if (!(Number.isFinite(r) && r > 0)) continue;
       const written = cardTolerance(tolerances, el);
       const tol = written ?? settings.resistorTolerance;
-      if (!(tol > 0)) return;
-      out.push({ label: el.name, group: el.name, element: el.name, parameter: { kind: 'resistance', element: i }, nominal: r, sigma: (tol * r) / 3, bound: tol * r, from: written !== undefined ? 'card' : settings.resistorFrom, figure: tol });
+      if (!(tol > 0)) continue;
+      out.push({ label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'resistance', element: i }, nominal: r, sigma: (tol * r) / 3, bound: tol * r, from: written !== undefined ? 'card' : settings.resistorFrom, figure: tol, partSpread: undefined });
     } else if (el.kind === 'V' || el.kind === 'I') {
       const v = el.dc;
-      if (!(Number.isFinite(v) && v !== 0)) return;
+      if (!(Number.isFinite(v) && v !== 0)) continue;
       const written = cardTolerance(tolerances, el);
       // A current source stands for a reference the designer gives; it spreads only when its card says so.
       const tol = written ?? (el.kind === 'V' ? settings.supplyTolerance : 0);
-      if (!(tol > 0)) return;
-      out.push({ label: el.name, group: el.name, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol });
-    }
-  });
-  // A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too.
-  // Devices are marked by element index (one index per name), not kept in sets of names.
-  const elements = circuit.elements;
-  const spreadSeen = new Uint8Array(elements.length);
-  for (const s of structures) {
-    for (const name of s.devices) {
-      const i = index.get(name);
-      if (i === undefined || spreadSeen[i]) continue;
-      spreadSeen[i] = 1;
-      const el = elements[i];
-      if (el.kind === 'J') pushJfetSpread(out, el, i);
+      if (!(tol > 0)) continue;
+      out.push({ label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol, partSpread: undefined });
     }
   }
-  // Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together.
+}
+
+/** Every structure's devices as element indices (−1: a name the circuit does not have), structure s's at `index[start[s] … start[s + 1] − 1]`. */
+interface StructureDevices {
+  start: Int32Array;
+  index: Int32Array;
+}
+
+function structureDevices(circuit: Circuit, structures: readonly Structure[]): StructureDevices {
+  // Element name -> index, the last of a name (the topology's table, built once per circuit).
+  const byName = topologyOf(circuit).elementIndex;
+  const start = new Int32Array(structures.length + 1);
+  for (let s = 0; s < structures.length; s++) start[s + 1] = start[s] + structures[s].devices.length;
+  const index = new Int32Array(start[structures.length]);
+  let at = 0;
+  for (const s of structures) for (const name of s.devices) index[at++] = byName.get(name) ?? -1;
+  return { start, index };
+}
+
+/** A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too. */
+function jfetSpreads(out: ToleranceSource[], circuit: Circuit, devices: StructureDevices): void {
+  // Devices are marked by element index (one index per name), not kept in sets of names.
+  const elements = circuit.elements;
+  const seen = new Uint8Array(elements.length);
+  for (let k = 0; k < devices.index.length; k++) {
+    const i = devices.index[k];
+    if (i < 0 || seen[i]) continue;
+    seen[i] = 1;
+    const el = elements[i];
+    if (el.kind === 'J') pushJfetSpread(out, el, i);
+  }
+}
+
+/** Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together. */
+function mismatchSources(out: ToleranceSource[], circuit: Circuit, structures: readonly Structure[], devices: StructureDevices, temperatureC: number): void {
+  const elements = circuit.elements;
   const seen = new Uint8Array(elements.length);
   const vt = thermalVoltage(temperatureC);
   const members: number[] = [];
-  for (const s of structures) {
+  const bjtModels = new Map<Bjt['model'], BjtModelFigures>();
+  const groups = new GroupNames();
+  for (let s = 0; s < structures.length; s++) {
     members.length = 0;
-    for (const name of s.devices) {
-      const i = index.get(name);
-      if (i !== undefined && !seen[i]) members.push(i);
+    for (let k = devices.start[s]; k < devices.start[s + 1]; k++) {
+      const i = devices.index[k];
+      if (i >= 0 && !seen[i]) members.push(i);
     }
     if (members.length < 2) continue;
-    // One string per group (its devices' sources share it, and ranking looks groups up by it).
-    const made: { [what: string]: string } = {};
-    const groupName = (what: string): string => (made[what] ??= `${s.id} ${what}`);
+    groups.start(structures[s].id);
     for (const i of members) {
       seen[i] = 1;
       const el = elements[i];
-      if (el.kind === 'Q') pushBjt(out, el, i, groupName, vt);
-      else if (el.kind === 'M') pushMos(out, el, i, groupName);
-      else if (el.kind === 'J') pushJfetMismatch(out, el, i, groupName);
+      if (el.kind === 'Q') pushBjt(out, el, i, groups, vt, bjtModelFigures(el, bjtModels));
+      else if (el.kind === 'M') pushMos(out, el, i, groups);
+      else if (el.kind === 'J') pushJfetMismatch(out, el, i, groups);
     }
   }
-  return out.filter((x) => x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound));
+}
+
+/** The group names of one structure's mismatch, one string per group (its devices' sources share it, and ranking looks groups up by it). */
+class GroupNames {
+  private id = '';
+  private readonly whats: string[] = [];
+  private readonly names: string[] = [];
+
+  start(id: string): void {
+    this.id = id;
+    this.whats.length = 0;
+    this.names.length = 0;
+  }
+
+  /** `structure-id VBE`. */
+  of(what: string): string {
+    for (let k = 0; k < this.whats.length; k++) if (this.whats[k] === what) return this.names[k];
+    const name = `${this.id} ${what}`;
+    this.whats.push(what);
+    this.names.push(name);
+    return name;
+  }
+}
+
+/** The sources whose σ and bound are normal, finite numbers. */
+function normalSources(all: ToleranceSource[]): ToleranceSource[] {
+  const out: ToleranceSource[] = [];
+  for (let k = 0; k < all.length; k++) {
+    const x = all[k];
+    if (x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound)) out.push(x);
+  }
+  return out;
 }
 
 function figureOf(el: Bjt | Mosfet | Jfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {
@@ -160,22 +228,33 @@ function figureOf(el: Bjt | Mosfet | Jfet, name: keyof typeof MISMATCH_DEFAULTS)
   return { value: MISMATCH_DEFAULTS[name], from: 'default' };
 }
 
-function pushBjt(out: ToleranceSource[], el: Bjt, i: number, group: (what: string) => string, vt: number): void {
+/** What a BJT's mismatch reads from its model, worked out once per model (an array's devices share a few). */
+interface BjtModelFigures {
+  nf: number;
+  is: number;
+  bf: number;
+  vbe: { value: number; from: 'model' | 'default' };
+  beta: { value: number; from: 'model' | 'default' };
+}
+
+function bjtModelFigures(el: Bjt, known: Map<Bjt['model'], BjtModelFigures>): BjtModelFigures {
+  let f = known.get(el.model);
+  if (!f) known.set(el.model, (f = { nf: modelValue(el, 'NF') || 1, is: modelValue(el, 'IS'), bf: modelValue(el, 'BF'), vbe: figureOf(el, 'MATCHVBE'), beta: figureOf(el, 'MATCHBF') }));
+  return f;
+}
+
+function pushBjt(out: ToleranceSource[], el: Bjt, i: number, group: GroupNames, vt: number, model: BjtModelFigures): void {
   const units = Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30);
-  const nf = modelValue(el, 'NF') || 1;
-  const is = modelValue(el, 'IS');
-  const vbe = figureOf(el, 'MATCHVBE');
+  const { nf, is, vbe, bf, beta } = model;
   // A VBE offset ΔV at equal current is an IS ratio of e^(ΔV/(NF·VT)): σ(ΔIS/IS) = σ(ΔVBE)/(NF·VT) for one device.
   const sigmaV = vbe.value / Math.sqrt(2 * units);
   if (is > 0 && sigmaV > 0) {
     const rel = sigmaV / (nf * vt);
-    out.push({ label: `${el.name} VBE`, group: group('VBE'), aspect: 'VBE', element: el.name, parameter: { kind: 'model', element: i, param: 'IS' }, nominal: is, sigma: rel * is, bound: 3 * rel * is, from: vbe.from, figure: sigmaV });
+    out.push({ label: `${el.name} VBE`, group: group.of('VBE'), aspect: 'VBE', element: el.name, parameter: { kind: 'model', element: i, param: 'IS' }, nominal: is, sigma: rel * is, bound: 3 * rel * is, from: vbe.from, figure: sigmaV, partSpread: undefined });
   }
-  const bf = modelValue(el, 'BF');
-  const beta = figureOf(el, 'MATCHBF');
   const rel = beta.value / Math.sqrt(2 * units);
   if (bf > 0 && rel > 0) {
-    out.push({ label: `${el.name} β`, group: group('β'), aspect: 'β', element: el.name, parameter: { kind: 'model', element: i, param: 'BF' }, nominal: bf, sigma: rel * bf, bound: 3 * rel * bf, from: beta.from, figure: rel });
+    out.push({ label: `${el.name} β`, group: group.of('β'), aspect: 'β', element: el.name, parameter: { kind: 'model', element: i, param: 'BF' }, nominal: bf, sigma: rel * bf, bound: 3 * rel * bf, from: beta.from, figure: rel, partSpread: undefined });
   }
 }
 
@@ -194,21 +273,21 @@ const MOS_MISMATCH: FieldEffectMismatch = { threshold: 'VTH', thresholdFigure: '
 const JFET_MISMATCH: FieldEffectMismatch = { threshold: 'VTO', thresholdFigure: 'MATCHVTO', gain: 'BETA', gainFigure: 'MATCHBETA' };
 
 /** A field-effect device's threshold and gain mismatch, each device's σ the pair's Pelgrom figure over √(2·area) (docs/VARIATION.md). */
-function pushFieldEffect(out: ToleranceSource[], el: Mosfet | Jfet, i: number, group: (what: string) => string, area: number, m: FieldEffectMismatch): void {
+function pushFieldEffect(out: ToleranceSource[], el: Mosfet | Jfet, i: number, group: GroupNames, area: number, m: FieldEffectMismatch): void {
   const vt = figureOf(el, m.thresholdFigure);
   const sigmaVt = vt.value / Math.sqrt(2 * area);
   if (sigmaVt > 0) {
-    out.push({ label: `${el.name} ${m.threshold}`, group: group(m.threshold), aspect: m.threshold, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt });
+    out.push({ label: `${el.name} ${m.threshold}`, group: group.of(m.threshold), aspect: m.threshold, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt, partSpread: undefined });
   }
   const gain = modelValue(el, m.gain);
   const g = figureOf(el, m.gainFigure);
   const rel = g.value / Math.sqrt(2 * area);
   if (gain > 0 && rel > 0) {
-    out.push({ label: `${el.name} ${m.gain}`, group: group(m.gain), aspect: m.gain, element: el.name, parameter: { kind: 'model', element: i, param: m.gain }, nominal: gain, sigma: rel * gain, bound: 3 * rel * gain, from: g.from, figure: rel });
+    out.push({ label: `${el.name} ${m.gain}`, group: group.of(m.gain), aspect: m.gain, element: el.name, parameter: { kind: 'model', element: i, param: m.gain }, nominal: gain, sigma: rel * gain, bound: 3 * rel * gain, from: g.from, figure: rel, partSpread: undefined });
   }
 }
 
-function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: (what: string) => string): void {
+function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: GroupNames): void {
   const area = el.w * el.l * el.m;
   if (!(area > 0) || !Number.isFinite(area)) return;
   pushFieldEffect(out, el, i, group, area, MOS_MISMATCH);
@@ -221,10 +300,10 @@ function pushJfetSpread(out: ToleranceSource[], el: Jfet, i: number): void {
   const sigma = spread.value * Math.abs(vto);
   if (!(sigma > 0)) return;
   const label = `${el.name} VTO spread`;
-  out.push({ label, group: label, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: vto, sigma, bound: 3 * sigma, from: spread.from, figure: sigma, partSpread: true });
+  out.push({ label, group: label, aspect: undefined, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: vto, sigma, bound: 3 * sigma, from: spread.from, figure: sigma, partSpread: true });
 }
 
 /** The mismatch of a JFET among its structure's matched devices: VTO by MATCHVTO, BETA by MATCHBETA, each falling as 1/√(area·M). */
-function pushJfetMismatch(out: ToleranceSource[], el: Jfet, i: number, group: (what: string) => string): void {
+function pushJfetMismatch(out: ToleranceSource[], el: Jfet, i: number, group: GroupNames): void {
   pushFieldEffect(out, el, i, group, Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30), JFET_MISMATCH);
 }
