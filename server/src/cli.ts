@@ -662,7 +662,7 @@ function jsonDiagnostics(r: FileResult): JsonDiagnostic[] {
  * them, and each output's spread `sensitivities` and all but its three largest `contributors` unless
  * `--spread-breakdown` asks for them; 4 names a corner in the summaries by its ASCII key only, the
  * file's `corners` giving each key's label and conditions once (and is written on one line unless
- * `--indented`).
+ * `--indented`), and leaves out of the spreads under a structure what their place says.
  */
 export const JSON_VERSION = 4;
 
@@ -760,7 +760,7 @@ function pointForJson(op: OperatingPoint): unknown {
   if (!v) return op;
   return new JsonEntries(function* () {
     for (const k of Object.keys(op)) {
-      if (k === 'nodes') yield [k, new JsonEntries(() => v.nodeEntries())];
+      if (k === 'nodes') yield [k, new JsonEntries(() => v.nodeEntries(), true)];
       else if (k === 'devices') yield [k, new JsonEntries(() => v.deviceEntries(), true)];
       else yield [k, (op as unknown as Record<string, unknown>)[k]];
     }
@@ -831,7 +831,7 @@ function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: strin
     } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
       const { steps: _steps, ...estimate } = s.estimate;
       out[k] = estimate;
-    } else if (k === 'variation' && s.variation && !detail.spreadBreakdown) {
+    } else if (k === 'variation' && s.variation) {
       out[k] = structureSpreadForJson(s.variation, detail);
     } else out[k] = fields[k];
   }
@@ -843,10 +843,10 @@ function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: 
   const out: Record<string, unknown> = {};
   for (const [k, x] of Object.entries(v)) {
     if (x === undefined) continue;
-    if (k === 'iref') out[k] = spreadForJson(x as OutputVariation, detail);
+    if (k === 'iref') out[k] = spreadForJson(x as OutputVariation, detail, true);
     else {
       const table = nameTable<unknown>();
-      for (const [name, o] of Object.entries(x as Record<string, OutputVariation>)) table[name] = spreadForJson(o, detail);
+      for (const [name, o] of Object.entries(x as Record<string, OutputVariation>)) table[name] = spreadForJson(o, detail, true);
       out[k] = table;
     }
   }
@@ -857,19 +857,33 @@ function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: 
 const CONTRIBUTORS_BY_DEFAULT = 3;
 
 /**
+ * What an output's spread says of itself that its place in a structure's `variation` already says:
+ * `structure` (the structure's id), `output` and `element` (`IREF` and the reference device for
+ * `iref`, the member's name in `iout` and `voltages`), `unit` (A for currents, V for voltages) and
+ * `key` (`<id> iref`, `<id> out <device>`, `<id> voltage <name>`). About a twelfth of a large
+ * array's structures; written for the outputs outside structures, which have no such place.
+ */
+const IMPLIED_IN_STRUCTURE = new Set(['structure', 'output', 'element', 'unit', 'key']);
+
+/**
  * One output's spread as JSON shows it: its three largest contributors (what dominates, as the
  * hover says it) and no `sensitivities`, unless `--spread-breakdown` asks for every contributor
  * (at most 8) and the largest sensitivities (together about half of a large array's document; a
- * CI gate reads σ, worst case, drift, yield and what dominates).
+ * CI gate reads σ, worst case, drift, yield and what dominates); inside a structure, without what
+ * its place says (`IMPLIED_IN_STRUCTURE`).
  */
-function spreadForJson(o: OutputVariation, detail: JsonDetail): unknown {
-  if (detail.spreadBreakdown) return o;
-  // Member by member in the output's order, the contributors last (a rest and a spread of the
-  // object cost about as much as writing it, for 10,000 outputs of a large array).
+function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = false): unknown {
+  if (detail.spreadBreakdown && !inStructure) return o;
+  // Member by member in the output's order, the contributors last unless all are written (a rest
+  // and a spread of the object cost about as much as writing it, for 10,000 outputs of a large array).
   const out: Record<string, unknown> = {};
   const fields = o as unknown as Record<string, unknown>;
-  for (const k of Object.keys(o)) if (k !== 'contributors' && k !== 'sensitivities') out[k] = fields[k];
-  out['contributors'] = o.contributors.slice(0, CONTRIBUTORS_BY_DEFAULT);
+  const breakdown = !!detail.spreadBreakdown;
+  for (const k of Object.keys(o)) {
+    if (inStructure && IMPLIED_IN_STRUCTURE.has(k)) continue;
+    if (breakdown || (k !== 'contributors' && k !== 'sensitivities')) out[k] = fields[k];
+  }
+  if (!breakdown) out['contributors'] = o.contributors.slice(0, CONTRIBUTORS_BY_DEFAULT);
   return out;
 }
 

@@ -214,9 +214,10 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
     const batch = new Batch(false, indent, separate, modest);
     for (const [k, member] of members) {
       if (member === undefined || typeof member === 'function' || typeof member === 'symbol') continue;
-      const item = resolved(member);
+      // A modest value holds nothing streamed, so the native writer that takes its batch calls any toJSON it has.
+      const item = modest ? member : resolved(member);
       // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
-      if (item !== undefined && typeof item !== 'function' && typeof item !== 'symbol' && !ARRAY_INDEX.test(k) && batch.add(item, k)) continue;
+      if (item !== undefined && typeof item !== 'function' && typeof item !== 'symbol' && !isArrayIndex(k) && batch.add(item, k)) continue;
       batch.write();
       if (item === undefined || typeof item === 'function' || typeof item === 'symbol') continue;
       separate();
@@ -259,6 +260,12 @@ const SMALL_BUDGET = 4096;
 
 /** A canonical array index ("0", "17"): an object lists such names first, whatever the order they were set in. */
 const ARRAY_INDEX = /^(?:0|[1-9][0-9]{0,9})$/;
+
+/** Whether `k` is a canonical array index; a name that does not start with a digit is answered without the expression. */
+function isArrayIndex(k: string): boolean {
+  const first = k.charCodeAt(0);
+  return first >= 48 && first <= 57 && ARRAY_INDEX.test(k);
+}
 
 /** `v` as the writer writes it: what its `toJSON` gives, when it has one (called with '' as the writer's own items are). */
 function resolved(v: unknown): unknown {

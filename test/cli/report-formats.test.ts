@@ -128,24 +128,32 @@ describe('qpoint check --format json: the spread analysis', () => {
     // An expect target on RP (a load resistor, part of no structure) adds an output of its own.
     const bench = file('bench-once.cir', NETLIST.replace('RP pout 0 10k', 'RP pout 0 10k ; expect 60uA ±20%'));
     const r = run(['check', '--format', 'json', bench]);
-    type Out = { key: string; structure?: string; nominal: number };
+    type Out = { key?: string; structure?: string; nominal: number };
     type Spread = { iref?: Out; iout: Record<string, Out>; voltages?: Record<string, Out> };
     const f = (JSON.parse(r.stdout) as {
       files: { structures: { id: string; variation?: Spread }[]; variation: { outputsOutsideStructures: Out[]; sources: unknown[]; stats: { adjointSolves: number } } }[];
     }).files[0];
+    // Under a structure an output's key is its place (the structure's id, iref or the member's name): not written again.
     const keys: string[] = [];
     for (const s of f.structures) {
       if (!s.variation) continue;
-      for (const o of [s.variation.iref, ...Object.values(s.variation.iout), ...Object.values(s.variation.voltages ?? {})]) {
+      const placed: [string, Out | undefined][] = [
+        [`${s.id} iref`, s.variation.iref],
+        ...Object.entries(s.variation.iout).map(([device, o]): [string, Out] => [`${s.id} out ${device}`, o]),
+        ...Object.entries(s.variation.voltages ?? {}).map(([name, o]): [string, Out] => [`${s.id} voltage ${name}`, o]),
+      ];
+      for (const [key, o] of placed) {
         if (!o) continue;
-        expect(o.structure).toBe(s.id);
-        keys.push(o.key);
+        expect(o.structure).toBeUndefined();
+        expect(o.key).toBeUndefined();
+        expect(o.nominal).toBeGreaterThan(0);
+        keys.push(key);
       }
     }
     const outside = f.variation.outputsOutsideStructures;
     expect(outside.map((o) => o.key)).toEqual(['element RP']);
     expect(outside[0].structure).toBeUndefined();
-    keys.push(...outside.map((o) => o.key));
+    keys.push(...outside.map((o) => o.key ?? ''));
     // Q2, QW and MOUT outputs and their IREFs are under their structures; nothing is written twice.
     for (const device of ['Q2', 'QW', 'MOUT']) expect(keys.some((k) => k.endsWith(` out ${device}`))).toBe(true);
     expect(new Set(keys).size).toBe(keys.length);

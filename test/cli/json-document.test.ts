@@ -1,0 +1,75 @@
+// The JSON document's structure entries against the analysis they come from: what an output's spread leaves
+// out inside a structure is exactly what its place there says (README, "JSON output").
+
+import { describe, expect, it } from 'vitest';
+import { jsonReport } from '../../server/src/cli';
+import { analyseSession } from '../../shared-analysis/src/service';
+import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import type { OutputVariation } from '../../shared-analysis/src/variation/types';
+
+// A bipolar mirror, a PMOS mirror, a VBE multiplier (a structure that produces a voltage) and a load with a target
+// of its own, outside every structure.
+const NETLIST = `Spread bench
+VCC vcc 0 DC 10
+VDD vdd 0 DC 3.3
+RREF vcc ref 9.3k
+Q1 ref ref 0 QN
+Q2 out ref 0 QN
+RL vcc out 1k
+MREF g g vdd vdd PM W=20u L=2u
+MOUT pout g vdd vdd PM W=40u L=2u
+RSET g 0 47k
+RP pout 0 10k ; expect 60uA ±20%
+RB vcc c 2k
+QM c b 0 QN
+RM1 c b 10k
+RM2 b 0 4.7k
+.model QN NPN (BF=100 IS=1e-16 VAF=80)
+.model PM PMOS (VTO=-0.6 KP=50u LAMBDA=0.05)
+.end
+`;
+
+type Written = Record<string, unknown>;
+
+describe('the JSON document: spreads under their structures', () => {
+  it('leaves out of each output\'s spread exactly what its place says, and writes the rest unchanged', () => {
+    const uri = '/bench/spread.cir';
+    const analysis = analyseSession({ uri, text: NETLIST }, new MemoryWorkspace({ [uri]: NETLIST })).analysis;
+    const doc = JSON.parse(JSON.stringify(jsonReport([{ path: uri, absolute: uri, analysis }] as never))) as {
+      files: { structures: { id: string; variation?: Record<string, unknown> }[]; variation: { outputsOutsideStructures: Written[] } }[];
+    };
+    const entries = doc.files[0]!.structures;
+    const seen = { iref: 0, iout: 0, voltages: 0 };
+    for (const s of analysis.structures) {
+      const v = s.variation;
+      if (!v) continue;
+      const written = entries.find((e) => e.id === s.id)!.variation!;
+      const check = (o: OutputVariation, w: Written, place: { output: string; key: string; unit: string; element?: string }): void => {
+        // What the place says (outputs.ts builds each output's identity from the same three facts).
+        expect({ output: o.output, key: o.key, unit: o.unit, structure: o.structure, element: o.element }).toEqual({ ...place, structure: s.id, element: place.element });
+        for (const k of ['output', 'key', 'unit', 'structure', 'element']) expect(w).not.toHaveProperty(k);
+        expect(w['sigma']).toBe(o.sigma);
+        expect(w['worstCaseRelative']).toBe(o.worstCaseRelative);
+        expect(w['contributors']).toEqual(JSON.parse(JSON.stringify(o.contributors.slice(0, 3))));
+      };
+      if (v.iref) {
+        seen.iref++;
+        check(v.iref, written['iref'] as Written, { output: 'IREF', key: `${s.id} iref`, unit: 'A', element: s.reference.device });
+      }
+      for (const [device, o] of Object.entries(v.iout)) {
+        seen.iout++;
+        check(o, (written['iout'] as Record<string, Written>)[device]!, { output: device, key: `${s.id} out ${device}`, unit: 'A', element: device });
+      }
+      for (const [name, o] of Object.entries(v.voltages ?? {})) {
+        seen.voltages++;
+        check(o, (written['voltages'] as Record<string, Written>)[name]!, { output: name, key: `${s.id} voltage ${name}`, unit: 'V' });
+      }
+    }
+    expect(seen.iref).toBeGreaterThan(0);
+    expect(seen.iout).toBeGreaterThanOrEqual(2);
+    expect(seen.voltages).toBeGreaterThan(0);
+    // An output outside every structure has no place to say it: it keeps its identity.
+    const outside = doc.files[0]!.variation.outputsOutsideStructures;
+    expect(outside.map((o) => [o['key'], o['output'], o['unit'], o['element']])).toEqual([['element RP', 'RP', 'A', 'RP']]);
+  });
+});
