@@ -227,14 +227,17 @@ export class WorkerHost {
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
-    const elementIndex = analysis.circuit ? indexBuilder(analysis.circuit) : undefined;
+    // Made with the first elements part, not before the findings are published (its node table alone is a
+    // pass over every node).
+    let elementIndex: ReturnType<typeof indexBuilder> | undefined;
     const merge = function* (index: number, part: AnalysisPart): Generator<void, void, undefined> {
       let indexed = analysis.circuit?.elements.length ?? 0;
       // Index the elements as they arrive, so the first request after the merge finds the tables built.
       const indexNew = () => {
-        if (!elementIndex || part.kind !== 'elements') return;
-        elementIndex.add(analysis.circuit!.elements, indexed);
-        indexed = analysis.circuit!.elements.length;
+        if (!analysis.circuit || part.kind !== 'elements') return;
+        elementIndex ??= indexBuilder(analysis.circuit);
+        elementIndex.add(analysis.circuit.elements, indexed);
+        indexed = analysis.circuit.elements.length;
       };
       for (const _ of mergePartSteps(analysis, part, phases.held)) {
         indexNew();

@@ -52,6 +52,8 @@ export interface IncrementalState {
   index: CircuitIndex;
   /** Which structures a moved node or element concerns (see `watchers`): the same for every value edit. */
   watch: { byNode: Watchers; byElement: Watchers };
+  /** Which structure feeds which (see `feedPairs`): the same for every value edit. */
+  feeds: Int32Array;
   /** The fingerprint of the MNA unknowns (`unknownsFingerprint`), which a value edit keeps. */
   unknowns: string;
   /** The connectivity check's findings, which read nodes, kinds and current sources' values only: a value edit keeps them (`keptConnectivity`). */
@@ -387,7 +389,7 @@ export class ValueEdit {
     prev.structures.forEach((k, i) => {
       if (!touched[i] && k.findings.some((f) => !movedFinding(f, prev.uri, this.region))) touched[i] = true;
     });
-    spreadAlongFeeds(prev.structures.map((k) => k.pristine), touched);
+    spreadAlongFeeds(prev.feeds, touched);
     return prev.structures.map((k, i) => {
       if (touched[i]) return copyStructure(this.pristine[i]);
       const s = copyStructure(k.firstPass);
@@ -575,17 +577,28 @@ function memberElements(s: Structure, index: CircuitIndex): number[] {
   return out;
 }
 
-/** Marks every structure that feeds or is fed by a marked one, until nothing changes. */
-function spreadAlongFeeds(structures: Structure[], touched: boolean[]): void {
+/** The pairs `[i, j]` (flattened) of structures where structure j feeds structure i's reference. */
+function feedPairs(structures: Structure[]): Int32Array {
   const at = new Map(structures.map((s, i) => [s.id, i]));
+  const pairs: number[] = [];
+  structures.forEach((s, i) => {
+    const j = s.reference.fedBy !== undefined ? at.get(s.reference.fedBy) : undefined;
+    if (j !== undefined) pairs.push(i, j);
+  });
+  return Int32Array.from(pairs);
+}
+
+/** Marks every structure that feeds or is fed by a marked one (`feeds` from `feedPairs`), until nothing changes. */
+function spreadAlongFeeds(feeds: Int32Array, touched: boolean[]): void {
   for (let changed = true; changed; ) {
     changed = false;
-    structures.forEach((s, i) => {
-      const j = s.reference.fedBy !== undefined ? at.get(s.reference.fedBy) : undefined;
-      if (j === undefined || touched[i] === touched[j]) return;
+    for (let k = 0; k < feeds.length; k += 2) {
+      const i = feeds[k]!;
+      const j = feeds[k + 1]!;
+      if (touched[i] === touched[j]) continue;
       touched[i] = touched[j] = true;
       changed = true;
-    });
+    }
   }
 }
 
@@ -644,6 +657,7 @@ export class IncrementalKeeper {
       structures: kept,
       index,
       watch: previous ? previous.watch : watchers(kept.map((k) => k.pristine), circuit, index),
+      feeds: previous ? previous.feeds : feedPairs(kept.map((k) => k.pristine)),
       unknowns,
       connectivity,
       document,

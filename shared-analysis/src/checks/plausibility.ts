@@ -5,9 +5,9 @@ import type { Circuit, Element } from '../circuit';
 import { parseNumber, splitSuffix } from '../elaborate/units';
 import { formatMeasured } from '../fixes/format';
 import type { OperatingPoint } from '../solve/types';
-import { namedPointReader } from '../solve/point';
+import { namedPointReader, pointVectors } from '../solve/point';
 import { railsByIndex } from '../structures/rails';
-import { topologyOf } from '../structures/topology';
+import { topologyOf, type Topology } from '../structures/topology';
 import type { ParsedDocument } from '../syntax/ast';
 import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { powerLimit } from './devices/power';
@@ -204,19 +204,41 @@ function suspectData(suspects: SuspectValue[]): Record<string, unknown>[] {
 }
 
 /** `current-implausible` on each transistor or diode without a rating of its own that carries an ampere or more. */
+/**
+ * The largest terminal current of an element's record (a saturated output fed from an overdriven base line carries
+ * its amperes in the base), by name and index; undefined when it has no record. Read from the solver's vectors
+ * without building the record where names are unique (then the index is the name's element), by name otherwise.
+ */
+function largestCurrent(op: OperatingPoint, topo: Topology): (name: string, e: number) => number | undefined {
+  const v = topo.elementIndex.size === topo.circuit.elements.length ? pointVectors(op) : undefined;
+  if (v) {
+    return (_name, e) => {
+      const type = v.type(e);
+      if (type === undefined) return undefined;
+      const abs = (q: string) => Math.abs(v.value(e, q) ?? NaN);
+      return type === 'bjt' ? Math.max(abs('ic'), abs('ib'), abs('ie')) : type === 'mosfet' || type === 'jfet' || type === 'diode' ? abs('id') : 0;
+    };
+  }
+  const at = namedPointReader(op, topo);
+  return (name) => {
+    const rec = at.record(name);
+    if (!rec) return undefined;
+    return rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' || rec.type === 'jfet' || rec.type === 'diode' ? Math.abs(rec.id) : 0;
+  };
+}
+
 function implausibleCurrents(ctx: PlausibilityContext): Finding[] {
   const out: Finding[] = [];
-  // By name without building the table of every device's record.
-  const at = namedPointReader(ctx.op!, topologyOf(ctx.circuit));
-  for (const el of ctx.circuit.elements) {
+  const topo = topologyOf(ctx.circuit);
+  const current = largestCurrent(ctx.op!, topo);
+  const elements = ctx.circuit.elements;
+  for (let e = 0; e < elements.length; e++) {
+    const el = elements[e]!;
     if (el.kind !== 'Q' && el.kind !== 'M' && el.kind !== 'D' && el.kind !== 'J') continue;
     const limit = powerLimit(el, ctx.options);
     if (limit && limit.from !== 'setting') continue; // a rated power part may carry amperes
-    const rec = at.record(el.name);
-    if (!rec) continue;
-    // The largest terminal current: a saturated output fed from an overdriven base line carries its amperes in the base.
-    const i = rec.type === 'bjt' ? Math.max(Math.abs(rec.ic), Math.abs(rec.ib), Math.abs(rec.ie)) : rec.type === 'mosfet' || rec.type === 'jfet' ? Math.abs(rec.id) : rec.type === 'diode' ? Math.abs(rec.id) : 0;
-    if (!(i >= IMPLAUSIBLE_CURRENT_A)) continue;
+    const i = current(el.name, e);
+    if (!(i !== undefined && i >= IMPLAUSIBLE_CURRENT_A)) continue;
     const suspects = suspectsNear(ctx, el.nodes);
     const what = el.kind === 'D' ? 'diode' : 'transistor';
     out.push(

@@ -56,6 +56,25 @@ export function splitSuffix(letters: string): { suffix: string; scale: number; u
  *    number is an error.
  */
 export function parseNumber(text: string): NumberResult {
+  let read = numbersRead.get(text);
+  if (!read) {
+    // Bounded: a stream of distinct numbers (a generated netlist of millions) must not grow it for ever.
+    if (numbersRead.size >= NUMBERS_KEPT) numbersRead.clear();
+    numbersRead.set(text, (read = readNumber(text)));
+  }
+  return read;
+}
+
+/**
+ * The numbers read lately, by text: each edit of a large netlist elaborates every value again, and its
+ * texts are mostly the same few (a regular expression and a split per value otherwise, a tenth of an
+ * elaboration). Results are never written by their readers.
+ */
+const numbersRead = new Map<string, NumberResult>();
+const NUMBERS_KEPT = 100_000;
+
+/** `parseNumber` without the memory of texts read. */
+function readNumber(text: string): NumberResult {
   const head = NUMBER_HEAD.exec(text);
   if (!head) {
     if (text.trim() === '') return { ok: false, message: 'A number was expected but the field is empty.' };

@@ -83,9 +83,9 @@ export class JudgeContext {
     }
     this.railSpan = { low, high };
     for (const s of structures) {
-      for (const o of s.outputs) this.structureOutputs.add(o.device.toLowerCase());
-      for (const d of s.devices) this.structureMembers.add(d.toLowerCase());
-      for (const e of s.reference.elements) this.structureMembers.add(e.toLowerCase());
+      for (const o of lowerNames(s.outputs, (x) => x.device)) this.structureOutputs.add(o);
+      for (const d of lowerNames(s.devices, (x) => x)) this.structureMembers.add(d);
+      for (const e of lowerNames(s.reference.elements, (x) => x)) this.structureMembers.add(e);
     }
   }
 
@@ -233,6 +233,18 @@ export class JudgeContext {
       data: jsonSafe({ device: at.name, ...data }),
     });
   }
+}
+
+/**
+ * Lower-case names of a list, by list: a value edit's structures share their lists with the last analysis's, so
+ * each name is lowered (and hashed) once rather than once per edit (25,000 names on the 20k array). A list of
+ * another length than when it was lowered is lowered again.
+ */
+const loweredNames = new WeakMap<readonly unknown[], string[]>();
+function lowerNames<T>(list: readonly T[], name: (x: T) => string): string[] {
+  let out = loweredNames.get(list);
+  if (!out || out.length !== list.length) loweredNames.set(list, (out = list.map((x) => name(x).toLowerCase())));
+  return out;
 }
 
 /**
