@@ -229,9 +229,9 @@ class StructureCheck {
     const s = this.s;
     if (this.op && this.measured) {
       for (const d of s.devices) if (recordIsOff(this.record(d))) this.off.add(d);
-      s.solved = { iref: this.measured.iref, iout: nameTable(this.measured.iout) };
-      // Tables keyed by device names are prototype-free: a literal would give every structure hidden classes of its own.
-      s.headroom = nameTable(this.measured.headroom);
+      // The measurement's own tables (prototype-free, made for this structure alone, only read from here on).
+      s.solved = { iref: this.measured.iref, iout: this.measured.iout };
+      s.headroom = this.measured.headroom;
     } else {
       s.solved = undefined;
       s.headroom = {};

@@ -433,6 +433,9 @@ export function positiveOr(v: number, fallback: number): number {
   return Number.isFinite(v) && v > 0 ? v : fallback;
 }
 
+/** The model parameters that make β depend on the collector current. */
+const CURRENT_BETA_PARAMETERS: readonly string[] = ['IKF', 'IKR', 'ISE'];
+
 /**
  * The β a hand analysis uses for a bipolar device (docs/DEVICE-MODELS.md): BF·(T/Tnom)^XTB times
  * the beta corner's scale, and — when the model's β depends on current (IKF, IKR or ISE given)
@@ -451,7 +454,7 @@ function bipolarBeta(
   const f = bjtTemperatureFactors(at.temperatureC, tnomC, get('XTB'));
   const bf = positiveOr(get('BF'), 100) * f.beta * positiveOr(at.betaScale ?? 1, 1);
   const current = at.deviceCurrents?.[name];
-  const dependsOnCurrent = ['IKF', 'IKR', 'ISE'].some((k) => model.given.includes(k));
+  const dependsOnCurrent = CURRENT_BETA_PARAMETERS.some((k) => model.given.includes(k));
   if (!dependsOnCurrent || current === undefined || !(Math.abs(current) > 0)) return { value: bf };
   const is = positiveOr(get('IS'), 1e-16);
   const ratio = isT / is;

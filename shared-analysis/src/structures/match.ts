@@ -23,7 +23,7 @@ export interface Draft {
   voltages?: { name: string; description: string; node: string; from?: string }[];
 }
 
-/** What `Matcher.diodeOutputs` finds on a diode-connected reference (shared between the kinds that ask: do not mutate). */
+/** What `Matcher.diodeOutputs` finds on a diode-connected reference. */
 export interface DiodeOutputs {
   readonly twins: Transistor[];
   readonly outputs: StructureOutput[];
@@ -45,9 +45,6 @@ export class Matcher {
   private readonly rank: Int32Array;
   /** Every transistor, in natural name order. */
   readonly ordered: Transistor[];
-  /** `diodeOutputs` and `lowerPartners` answers by seed index, kept until the next claim (see `kept`). */
-  private readonly outputsOf = new Map<number, DiodeOutputs>();
-  private readonly partnersOf = new Map<number, readonly Transistor[]>();
   /** The diode-connected transistors (output on the control node) and the others, each in natural name order. */
   private readonly diodeConnected: Transistor[];
   private readonly notDiodeConnected: Transistor[];
@@ -55,7 +52,7 @@ export class Matcher {
   constructor(readonly circuit: Circuit) {
     this.topo = topologyOf(circuit);
     this.rails = railsByIndex(circuit);
-    this.ordered = sortByName(this.topo.transistors);
+    this.ordered = [...this.topo.transistors].sort((a, b) => compareNames(a.name, b.name));
     this.claimed = new Uint8Array(this.topo.transistors.length);
     this.rank = new Int32Array(this.topo.transistors.length);
     this.ordered.forEach((t, i) => (this.rank[t.index] = i));
@@ -71,9 +68,6 @@ export class Matcher {
   /** Marks a draft's devices as taken, so later (less specific) kinds do not match them again. */
   claim(d: Draft): void {
     for (const m of d.members) this.claimed[m.t.nameIndex] = 1;
-    // What was worked out from the unclaimed devices may have changed.
-    this.outputsOf.clear();
-    this.partnersOf.clear();
   }
 
   isClaimed(t: Transistor): boolean {
@@ -90,16 +84,6 @@ export class Matcher {
     return out.length > 1 ? out.sort(this.byRank) : out;
   }
 
-  /**
-   * `work(d)` for seed `d`, kept until the next claim: several kinds ask the same of each seed (the
-   * stacked mirrors its lower partners, the Widlar source and the simple mirror its outputs), and
-   * the answer depends only on the circuit and which devices are claimed. `answers` holds one question's.
-   */
-  private kept<T>(answers: Map<number, T>, d: Transistor, work: () => T): T {
-    let answer = answers.get(d.index);
-    if (answer === undefined) answers.set(d.index, (answer = work()));
-    return answer;
-  }
 
   /** Transistors whose control terminal is on `node` (claimed ones included). */
   onCtrl(node: number): Transistor[] | undefined {
@@ -132,10 +116,6 @@ export class Matcher {
    * R2 and nothing else (degenerated, Widlar-type).
    */
   diodeOutputs(d: Transistor): DiodeOutputs {
-    return this.kept(this.outputsOf, d, () => this.findDiodeOutputs(d));
-  }
-
-  private findDiodeOutputs(d: Transistor): DiodeOutputs {
     const a = d.ctrl;
     const e = d.common;
     const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d], this.onCtrl(a));
@@ -163,7 +143,7 @@ export class Matcher {
    */
   lowerPartners(d: Transistor): readonly Transistor[] {
     const b = d.ctrl;
-    return this.kept(this.partnersOf, d, () => this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b)));
+    return this.candidates(d.tech, (t) => t.ctrl === b && t.common === d.common && t.out !== b && t.out !== t.ctrl, [d], this.onCtrl(b));
   }
 }
 
@@ -173,43 +153,4 @@ const NAME_ORDER = new Intl.Collator('en', { numeric: true, sensitivity: 'base' 
 /** Natural order of device names (Q2 before Q10), case-insensitive. */
 export function compareNames(a: string, b: string): number {
   return NAME_ORDER.compare(a, b);
-}
-
-/**
- * A name of ASCII letters and then at most 15 digits (`QR12`), as its letters in lower case and its
- * number (-1 when it has no digits); undefined for any other name. Two such names compare under
- * `compareNames` as their letters (the collator orders a–z as ASCII does, case aside, and a digit or
- * the end before a letter) and then their numbers (numeric collation: leading zeros do not count).
- */
-function plainNameKey(name: string): { letters: string; number: number } | undefined {
-  let i = 0;
-  while (i < name.length && isAsciiLetter(name.charCodeAt(i))) i++;
-  if (i === 0 || name.length - i > 15) return undefined;
-  for (let j = i; j < name.length; j++) {
-    const c = name.charCodeAt(j);
-    if (c < 48 || c > 57) return undefined;
-  }
-  return { letters: name.slice(0, i).toLowerCase(), number: i === name.length ? -1 : Number(name.slice(i)) };
-}
-
-function isAsciiLetter(c: number): boolean {
-  return (c >= 65 && c <= 90) || (c >= 97 && c <= 122);
-}
-
-/**
- * Transistors in natural name order, as a sort by `compareNames` puts them (ties keep their order):
- * plain names (letters then digits, nearly every device) compare by precomputed keys, any other
- * pair through the collator. At 10,000 devices the collator's comparisons were most of the sort.
- */
-export function sortByName<T extends { name: string }>(items: readonly T[]): T[] {
-  const keys = items.map((t) => plainNameKey(t.name));
-  const order = items.map((_, i) => i);
-  order.sort((i, j) => {
-    const a = keys[i];
-    const b = keys[j];
-    if (!a || !b) return compareNames(items[i].name, items[j].name);
-    if (a.letters !== b.letters) return a.letters < b.letters ? -1 : 1;
-    return a.number - b.number;
-  });
-  return order.map((i) => items[i]);
 }

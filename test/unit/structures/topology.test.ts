@@ -1,8 +1,7 @@
-// The recognition context's node incidence and its kept answers, against plain scans of the circuit.
+// The topology's node incidence against a plain scan of the circuit's elements.
 
 import { describe, expect, it } from 'vitest';
 import type { Circuit } from '../../../shared-analysis/src/circuit';
-import { Matcher } from '../../../shared-analysis/src/structures/match';
 import { Topology } from '../../../shared-analysis/src/structures/topology';
 import { CircuitBuilder } from './build';
 import { rng } from '../../seeded-random';
@@ -48,30 +47,5 @@ describe('topology', () => {
       expect(topo.at(circuit.nodes.length)).toEqual([]);
       expect(topo.at(-1)).toEqual([]);
     }
-  });
-
-  it("keeps a seed's outputs and lower partners only until the next claim", () => {
-    // Two simple mirrors sharing one control node through a third diode-connected device: claiming one changes the other's outputs.
-    const b = new CircuitBuilder();
-    b.model('qn', 'npn');
-    b.v('VCC', 'vcc', '0', 5);
-    b.r('RREF', 'vcc', 'a', 4.3e3);
-    b.q('Q1', 'a', 'a', '0', 'qn');
-    b.q('Q2', 'o2', 'a', '0', 'qn');
-    b.q('Q3', 'o3', 'a', '0', 'qn');
-    b.r('RL2', 'vcc', 'o2', 1e3);
-    b.r('RL3', 'vcc', 'o3', 1e3);
-    const circuit = b.build();
-    const m = new Matcher(circuit);
-    const q1 = m.topo.byName.get('Q1')!;
-    const q2 = m.topo.byName.get('Q2')!;
-    const before = m.diodeOutputs(q1);
-    expect(before.devices.map((t) => t.name)).toEqual(['Q2', 'Q3']);
-    expect(m.diodeOutputs(q1)).toBe(before);
-    expect(m.lowerPartners(q1).map((t) => t.name)).toEqual(['Q2', 'Q3']);
-    // Claim Q2 (as a draft of another structure would): the answers are worked out again, without it.
-    m.claim({ kind: 'simple-mirror', reference: q2, refNode: q2.ctrl, members: [{ t: q2, role: 'output' }], outputs: [] });
-    expect(m.diodeOutputs(q1).devices.map((t) => t.name)).toEqual(['Q3']);
-    expect(m.lowerPartners(q1).map((t) => t.name)).toEqual(['Q3']);
   });
 });

@@ -56,9 +56,9 @@ export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult
   if (h.bipolar) {
     const sumSimple = simple.reduce((a, x) => a + x.o.ratio, 0);
     let ic1 = iref / (1 + (1 + sumSimple) / beta);
-    const wout: Record<string, number> = nameTable();
-    // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1.
-    const wEarly: Record<string, number> = nameTable();
+    // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1 (tables only when there are some).
+    const wout: Record<string, number> = widlar.length > 0 ? nameTable() : NO_WIDLAR;
+    const wEarly: Record<string, number> = widlar.length > 0 ? nameTable() : NO_WIDLAR;
     for (let pass = 0; pass < (widlar.length > 0 ? 8 : 1); pass++) {
       let ibW = 0;
       const vbe1Now = h.vbe(ref, ic1);
@@ -138,6 +138,9 @@ export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult
   }
   return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge };
 }
+
+/** The Widlar tables of a mirror without Widlar outputs: never written, since nothing iterates over them. */
+const NO_WIDLAR: Readonly<Record<string, number>> = Object.freeze(nameTable<number>());
 
 /**
  * The reference-chain voltage in closed form when no output is degenerated (the common case, asked
