@@ -4,8 +4,8 @@ import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
 import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
-import type { ParamIssue } from './params';
-import { elementParam, modelParam } from './params';
+import type { ParamIssue, ParamRule } from './params';
+import { elementParam, ModelReads } from './params';
 import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
 
 /**
@@ -429,6 +429,36 @@ function regionCode(vbe: number, vbc: number): number {
  * area × M) join each netlist terminal to its intrinsic one, which is the netlist node itself
  * when the resistance is zero. A substrate node, if any, carries no DC current.
  */
+/** The model parameters a table reads for each instance, in the order `modelParam` read them one by one (so issues keep their order). */
+const MODEL_READS: readonly (readonly [string, ParamRule])[] = [
+  ['IS', 'non-negative'],
+  ['ISE', 'non-negative'],
+  ['ISC', 'non-negative'],
+  ['BF', 'positive'],
+  ['BR', 'positive'],
+  ['XTI', 'finite'],
+  ['XTB', 'finite'],
+  ['EG', 'finite'],
+  ['NF', 'positive'],
+  ['NR', 'positive'],
+  ['NE', 'positive'],
+  ['NC', 'positive'],
+  ['VAF', 'positive-or-infinite'],
+  ['VAR', 'positive-or-infinite'],
+  ['IKF', 'positive-or-infinite'],
+  ['IKR', 'positive-or-infinite'],
+  ['RC', 'non-negative'],
+  ['RB', 'non-negative'],
+  ['RE', 'non-negative'],
+];
+// Positions in MODEL_READS.
+const [M_IS, M_ISE, M_ISC, M_BF, M_BR, M_XTI, M_XTB, M_EG, M_NF, M_NR, M_NE, M_NC, M_VAF, M_VAR, M_IKF, M_IKR, M_RC, M_RB, M_RE] = MODEL_READS.map((_, k) => k);
+
+/** A series resistance's conductance (area × M over R), 0 when its internal node is the netlist node (no resistance) or R is not positive. */
+function seriesConductance(internal: boolean, r: number, scale: number): number {
+  return internal && r > 0 && scale > 0 ? scale / r : 0;
+}
+
 export class BjtTable implements DeviceTable {
   readonly kind: DeviceKind = BJT;
   private readonly n: number;
@@ -496,6 +526,7 @@ export class BjtTable implements DeviceTable {
     this.startVbe = col().fill(Number.NaN);
     this.startVbc = col().fill(Number.NaN);
     const t = instances.terminals;
+    const reads = new ModelReads(MODEL_READS);
     for (let i = 0; i < n; i++) {
       const element = instances.elements[i];
       const md = element.model;
@@ -504,31 +535,28 @@ export class BjtTable implements DeviceTable {
       const m = elementParam(element, 'M', element.m, 'positive', 0, issues);
       const scale = area * m;
       this.scale[i] = scale;
-      this.isNom[i] = modelParam(element, md, 'IS', 'non-negative', issues) * scale;
-      this.iseNom[i] = modelParam(element, md, 'ISE', 'non-negative', issues) * scale;
-      this.iscNom[i] = modelParam(element, md, 'ISC', 'non-negative', issues) * scale;
-      this.bfNom[i] = modelParam(element, md, 'BF', 'positive', issues);
-      this.brNom[i] = modelParam(element, md, 'BR', 'positive', issues);
-      this.xti[i] = modelParam(element, md, 'XTI', 'finite', issues);
-      this.xtb[i] = modelParam(element, md, 'XTB', 'finite', issues);
-      this.eg[i] = modelParam(element, md, 'EG', 'finite', issues);
-      this.nf[i] = modelParam(element, md, 'NF', 'positive', issues);
-      this.nr[i] = modelParam(element, md, 'NR', 'positive', issues);
-      this.ne[i] = modelParam(element, md, 'NE', 'positive', issues);
-      this.nc[i] = modelParam(element, md, 'NC', 'positive', issues);
-      this.vaf[i] = modelParam(element, md, 'VAF', 'positive-or-infinite', issues);
+      const mp = reads.of(element, md, issues);
+      this.isNom[i] = mp[M_IS] * scale;
+      this.iseNom[i] = mp[M_ISE] * scale;
+      this.iscNom[i] = mp[M_ISC] * scale;
+      this.bfNom[i] = mp[M_BF];
+      this.brNom[i] = mp[M_BR];
+      this.xti[i] = mp[M_XTI];
+      this.xtb[i] = mp[M_XTB];
+      this.eg[i] = mp[M_EG];
+      this.nf[i] = mp[M_NF];
+      this.nr[i] = mp[M_NR];
+      this.ne[i] = mp[M_NE];
+      this.nc[i] = mp[M_NC];
+      this.vaf[i] = mp[M_VAF];
       const o = i * PARAMS;
       this.par[o + P_INV_VAF] = inverse(this.vaf[i]);
-      this.par[o + P_INV_VAR] = inverse(modelParam(element, md, 'VAR', 'positive-or-infinite', issues));
-      this.par[o + P_INV_IKF] = inverse(modelParam(element, md, 'IKF', 'positive-or-infinite', issues) * scale);
-      this.par[o + P_INV_IKR] = inverse(modelParam(element, md, 'IKR', 'positive-or-infinite', issues) * scale);
-      const series = (name: string, outer: number, inner: number): number => {
-        const r = modelParam(element, md, name, 'non-negative', issues);
-        return t[i * T + outer] !== t[i * T + inner] && r > 0 && scale > 0 ? scale / r : 0;
-      };
-      this.gc[i] = series('RC', C, CI);
-      this.gb[i] = series('RB', B, BI);
-      this.ge[i] = series('RE', E, EI);
+      this.par[o + P_INV_VAR] = inverse(mp[M_VAR]);
+      this.par[o + P_INV_IKF] = inverse(mp[M_IKF] * scale);
+      this.par[o + P_INV_IKR] = inverse(mp[M_IKR] * scale);
+      this.gc[i] = seriesConductance(t[i * T + C] !== t[i * T + CI], mp[M_RC], scale);
+      this.gb[i] = seriesConductance(t[i * T + B] !== t[i * T + BI], mp[M_RB], scale);
+      this.ge[i] = seriesConductance(t[i * T + E] !== t[i * T + EI], mp[M_RE], scale);
     }
     this.prepare({ temperatureC: 27, tnomC: 27, vt: thermalVoltage(27), betaScale: 1, junctionGmin: 0 });
   }

@@ -56,3 +56,31 @@ export function elementParam(element: Element, name: string, given: number, rule
   issues.push({ element, name, given, used: fallback, rule: RULE_TEXT[rule], inModel: false });
   return fallback;
 }
+
+/**
+ * The parameters `reads` (upper-case name and rule) of each instance's model, for a table that reads
+ * its instances in turn: read once per run of instances sharing one model object (every card of an
+ * array names the same `.model`), where reading each parameter of each card with `modelParam` was
+ * most of a device table's construction. An unusable value is reported for every instance that uses
+ * it, in the order `modelParam` calls would report it.
+ */
+export class ModelReads {
+  private model: Model | undefined;
+  private readonly values: Float64Array;
+  private found: ParamIssue[] = [];
+
+  constructor(private readonly reads: readonly (readonly [string, ParamRule])[]) {
+    this.values = new Float64Array(reads.length);
+  }
+
+  /** The values of `reads` for `element` (of its model `model`), in their order; the array is overwritten by the next model's. */
+  of(element: Element, model: Model, issues: ParamIssue[]): Float64Array {
+    if (model !== this.model) {
+      this.found = [];
+      for (let k = 0; k < this.reads.length; k++) this.values[k] = modelParam(element, model, this.reads[k][0], this.reads[k][1], this.found);
+      this.model = model;
+    }
+    for (const issue of this.found) issues.push(issue.element === element ? issue : { ...issue, element });
+    return this.values;
+  }
+}

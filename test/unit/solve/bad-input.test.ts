@@ -7,6 +7,7 @@ import type { BjtRecord, DiodeRecord, TwoTerminalRecord } from '../../../shared-
 import type { Spec } from './build';
 import { SOLVER_CODES } from '../../../shared-analysis/src/solve/codes';
 import { circuit, model } from './build';
+import { ModelReads, modelParam, type ParamIssue, type ParamRule } from '../../../shared-analysis/src/devices/params';
 
 /** Every number in the operating point and the finding data is finite (JSON-safe). */
 function allFinite(r: DcSolveResult): boolean {
@@ -159,7 +160,46 @@ describe('device parameters', () => {
     const f = r.findings.find((x) => x.code === 'dc-parameter-unusable')!;
     expect(f.related?.[0].span).toEqual({ start: 9000, end: 9010 });
   });
+
+  it('reads a model shared by several devices once, and reports its unusable values for each of them as one by one', () => {
+    const bad = model('QNEG', 'npn', { BF: -5, NF: 0, RB: -1 });
+    const good = model('QOK', 'npn', { IS: 2e-15, BF: 150 });
+    const c = circuit([
+      ['V', 'V1', 'a', '0', 5],
+      ['R', 'R1', 'a', 'b', 4700],
+      ['Q', 'Q1', 'b', 'b', '0', bad],
+      ['Q', 'Q2', 'c', 'b', '0', bad, { area: 0 }],
+      ['R', 'R2', 'a', 'c', 2200],
+      ['Q', 'Q3', 'd', 'b', '0', good],
+      ['R', 'R3', 'a', 'd', 2200],
+      ['Q', 'Q4', 'e', 'b', '0', bad],
+      ['R', 'R4', 'a', 'e', 2200],
+    ]);
+    const issues: ParamIssue[] = [];
+    const reads = new ModelReads(READS);
+    const plain: ParamIssue[] = [];
+    for (const el of c.elements) {
+      if (el.kind !== 'Q') continue;
+      const values = reads.of(el, el.model, issues);
+      // Source: the plain path — each parameter read for each element with modelParam.
+      READS.forEach(([name, rule], k) => expect(values[k]).toBe(modelParam(el, el.model, name, rule, plain)));
+    }
+    expect(issues).toEqual(plain);
+    expect(issues.map((i) => `${i.element.name} ${i.name}`)).toEqual(['Q1 BF', 'Q1 NF', 'Q1 RB', 'Q2 BF', 'Q2 NF', 'Q2 RB', 'Q4 BF', 'Q4 NF', 'Q4 RB']);
+    // The solver's findings name each device on its own card, as before.
+    const r = solveOperatingPoint(c);
+    const named = r.findings.filter((f) => f.code === 'dc-parameter-unusable').map((f) => f.span.start / 100);
+    expect(new Set(named)).toEqual(new Set([2, 3, 7]));
+  });
 });
+
+const READS: [string, ParamRule][] = [
+  ['IS', 'non-negative'],
+  ['BF', 'positive'],
+  ['NF', 'positive'],
+  ['VAF', 'positive-or-infinite'],
+  ['RB', 'non-negative'],
+];
 
 describe('structure', () => {
   it('a 0 V source directly across a junction is reported', () => {
