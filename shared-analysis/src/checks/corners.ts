@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { measurePlanned, plannedMeasurements, readerOf, runMeasurement, type Measurement, type OutputSink } from '../structures/measure';
+import { measurePlanned, plannedMeasurements, readerOf, runMeasurement, type Measurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -263,11 +263,11 @@ export function runCorners(ctx: CornerContext): Finding[] {
     process: specs.map((s) => s.process),
     converged: new Uint8Array(C),
   };
-  const columns = cornerColumnsOf(structures, axis);
+  const { columns, buffers } = cornerColumnsOf(structures, axis);
   const topology = topologyOf(circuit);
   // Every name a measurement reads resolved once per list of structures (the nominal check planned the same list), not once per corner.
   const flat = plannedMeasurements(topology, structures);
-  const sink: OutputSink = { current: new Float64Array(0), headroom: new Float64Array(0), outOfRegion: new Uint8Array(0), first: 0, stride: C };
+  const withVoltages = structures.flatMap((_, i) => (columns[i].voltageNames.length > 0 ? [i] : []));
   let failedCount = 0;
   // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.
   const starts = ctx.predictStarts === false || feedLoops(topology, structures).length > 0 ? undefined : new CornerStarts(specs, nominalC, nominal.x);
@@ -290,27 +290,14 @@ export function runCorners(ctx: CornerContext): Finding[] {
     starts?.solved(k, result.x);
     ctx.solved?.(spec, k, result.x);
     const op = result.op;
-    const reader = readerOf(op, topology);
-    for (let i = 0; i < structures.length; i++) {
-      const s = structures[i];
+    measureCorner(flat, readerOf(op, topology), buffers, k);
+    for (const i of withVoltages) {
       const col = columns[i];
-      // Output o of this structure at corner k sits at o·C + k of its columns.
-      sink.current = col.iout;
-      sink.headroom = col.headroom;
-      sink.outOfRegion = col.outOfRegion;
-      sink.first = k;
-      col.iref[k] = finite(runMeasurement(flat, i, reader, sink));
-      for (let o = 0; o < s.outputs.length; o++) {
-        col.iout[o * C + k] = finite(col.iout[o * C + k]);
-        col.headroom[o * C + k] = finite(col.headroom[o * C + k]);
-      }
-      if (col.voltageNames.length > 0) {
-        const vs = structureVoltages(s, op, circuit);
-        col.voltageNames.forEach((name, v) => {
-          const x = vs?.[name];
-          if (x !== undefined) col.voltages[v * C + k] = x;
-        });
-      }
+      const vs = structureVoltages(structures[i], op, circuit);
+      col.voltageNames.forEach((name, v) => {
+        const x = vs?.[name];
+        if (x !== undefined) col.voltages[v * C + k] = x;
+      });
     }
   }
 
@@ -392,12 +379,38 @@ function solveCorner(
   }
 }
 
+/** The circuit's corner figures, one buffer per quantity: structure i's IREF at corner k at i·C + k, output o's (counted over every structure in order) at o·C + k. */
+interface CornerBuffers {
+  corners: number;
+  iref: Float64Array;
+  sink: OutputSink;
+}
+
+/**
+ * Measures every planned structure at corner k into `buffers`, straight into the circuit-wide buffers
+ * (one sink for all, moved to each structure's first output), figures that are not finite as 0.
+ */
+function measureCorner(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number): void {
+  const { corners: C, iref, sink } = buffers;
+  const count = flat.outStart.length - 1;
+  for (let i = 0; i < count; i++) {
+    sink.first = flat.outStart[i] * C + k;
+    iref[i * C + k] = finite(runMeasurement(flat, i, reader, sink));
+  }
+  const { current, headroom } = sink;
+  for (let o = flat.outStart[count] - 1; o >= 0; o--) {
+    current[o * C + k] = finite(current[o * C + k]);
+    headroom[o * C + k] = finite(headroom[o * C + k]);
+  }
+}
+
 /**
  * Empty corner columns for every structure, each a view of one buffer per quantity for the whole
  * circuit: a typed array per quantity per structure was an allocation of its own (100,000 of them
- * at 100,000 elements) scattered over the heap, which every corner then wrote into.
+ * at 100,000 elements) scattered over the heap, which every corner then wrote into. The corner loop
+ * writes the buffers themselves.
  */
-function cornerColumnsOf(structures: Structure[], axis: CornerAxis): CornerColumns[] {
+function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: CornerColumns[]; buffers: CornerBuffers } {
   const C = axis.labels.length;
   let outputs = 0;
   let voltages = 0;
@@ -412,7 +425,8 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): CornerColum
   const volts = new Float64Array(voltages * C).fill(NaN);
   let o = 0;
   let v = 0;
-  return structures.map((s, i) => {
+  const buffers: CornerBuffers = { corners: C, iref, sink: { current: iout, headroom, outOfRegion, first: 0, stride: C } };
+  const columns = structures.map((s, i) => {
     const voltageNames = (s.voltages ?? []).map((x) => x.name);
     const from = o * C;
     const to = (o + s.outputs.length) * C;
@@ -430,6 +444,7 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): CornerColum
     v += voltageNames.length;
     return cols;
   });
+  return { columns, buffers };
 }
 
 function sweepOf(device: string, nominalM: Measurement, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
