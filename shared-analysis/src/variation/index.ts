@@ -323,18 +323,28 @@ function showModelForms(forms: ShownForms, sources: readonly ToleranceSource[], 
 }
 
 /** Every output's derivatives with respect to the tolerance sources, picked out of its parameter row (parameter order kept). */
-function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], paramCount: number, sourceCount: number): SourceRows {
-  const sourceOfParam = new Int32Array(paramCount).fill(-1);
-  for (let k = 0; k < sourceCount; k++) sourceOfParam[sourceParam[k]] = k;
+export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], paramCount: number, sourceCount: number): SourceRows {
+  // Several sources may vary one parameter (a JFET's part-to-part VTO spread and its VTO mismatch
+  // within a structure): each is an independent term with the parameter's derivative, so the
+  // parameter's sources are listed together (compressed, in source order) and every one gets a row entry.
+  const firstOfParam = new Int32Array(paramCount + 1);
+  for (let k = 0; k < sourceCount; k++) firstOfParam[sourceParam[k] + 1]++;
+  for (let j = 0; j < paramCount; j++) firstOfParam[j + 1] += firstOfParam[j];
+  const sourcesOfParam = new Int32Array(sourceCount);
+  const fill = firstOfParam.slice(0, paramCount);
+  for (let k = 0; k < sourceCount; k++) sourcesOfParam[fill[sourceParam[k]]++] = k;
   const outputs = sens.rowStart.length - 1;
-  const rows: SourceRows = { start: new Int32Array(outputs + 1), index: new Int32Array(sens.index.length), value: new Float64Array(sens.index.length) };
+  let entries = 0;
+  for (let q = 0; q < sens.index.length; q++) entries += firstOfParam[sens.index[q] + 1] - firstOfParam[sens.index[q]];
+  const rows: SourceRows = { start: new Int32Array(outputs + 1), index: new Int32Array(entries), value: new Float64Array(entries) };
   let at = 0;
   for (let o = 0; o < outputs; o++) {
     for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
-      const k = sourceOfParam[sens.index[q]];
-      if (k < 0) continue;
-      rows.index[at] = k;
-      rows.value[at++] = sens.derivative[q];
+      const j = sens.index[q];
+      for (let m = firstOfParam[j]; m < firstOfParam[j + 1]; m++) {
+        rows.index[at] = sourcesOfParam[m];
+        rows.value[at++] = sens.derivative[q];
+      }
     }
     rows.start[o + 1] = at;
   }
