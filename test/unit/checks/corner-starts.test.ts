@@ -4,24 +4,16 @@ import { describe, expect, it } from 'vitest';
 import { resolveOptions, type AnalysisOptions } from '../../../shared-analysis/src/analysis';
 import { CornerStarts } from '../../../shared-analysis/src/checks/corner-starts';
 import { cornerScope, cornerSourceValues, cornerSpecs, processCornerParameters, runCorners, supplySources, type CornerStats } from '../../../shared-analysis/src/checks/corners';
-import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import type { BjtRecord, MosRecord } from '../../../shared-analysis/src/solve/types';
-import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { solvedNetlist } from './solved-netlist';
 
 const URI = '/starts.cir';
 
 /** The corners of one netlist, from predicted starts or from the nominal start only, with the effort. */
 function corners(netlist: string, predictStarts: boolean, options: AnalysisOptions) {
-  const root = parse(URI, netlist, { hasTitle: true });
-  const { circuit } = elaborate(root, new MemoryWorkspace({ [URI]: netlist }), {});
-  const solver = new DcSolver(circuit);
-  const nominal = solver.solve({});
-  expect(nominal.op.converged).toBe(true);
-  const structures = recogniseStructures(circuit);
+  const { circuit, solver, nominal, structures } = solvedNetlist(netlist, URI);
   const stats = {} as CornerStats;
   const resolved = resolveOptions(options);
   runCorners({ circuit, solver, structures, options: resolved, nominal, stats, predictStarts });

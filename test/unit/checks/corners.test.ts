@@ -9,18 +9,14 @@ import type { BjtRecord } from '../../../shared-analysis/src/solve/types';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { solvedNetlist } from './solved-netlist';
 import { MemoryWorkspace, type Finding } from '../../../shared-analysis/src/types';
 
 const URI = '/c.cir';
 
 /** Parses, elaborates, solves, recognises and runs the corners of one netlist. */
 function run(netlist: string, options: AnalysisOptions = {}): { findings: Finding[]; structures: Structure[]; text: string } {
-  const root = parse(URI, netlist, { hasTitle: true });
-  const { circuit } = elaborate(root, new MemoryWorkspace({ [URI]: netlist }), {});
-  const solver = new DcSolver(circuit);
-  const nominal = solver.solve({});
-  expect(nominal.op.converged).toBe(true);
-  const structures = recogniseStructures(circuit);
+  const { circuit, solver, nominal, structures } = solvedNetlist(netlist, URI);
   const findings = runCorners({ circuit, solver, structures, options: resolveOptions(options), nominal });
   return { findings, structures, text: netlist };
 }

@@ -1,4 +1,4 @@
-// The circuit of one netlist text, parsed (first line a title) and elaborated, for the sizing tests.
+// The circuit of one netlist text, parsed (first line a title) and elaborated, for the sizing and corner tests.
 
 import type { Circuit } from '../../../shared-analysis/src/circuit';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
