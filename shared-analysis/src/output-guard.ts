@@ -37,14 +37,15 @@ const MAX_PATHS_NAMED = 5;
 
 /**
  * Objects with a table built on first read (an operating point's `nodes` and `devices`, a
- * structure's `corners`: solve/point.ts, structures/corner-columns.ts), registered where the
- * getter is defined so the finiteness walk asks for property descriptors only on them.
+ * structure's `corners`, an output's spread `sensitivities`: solve/point.ts,
+ * structures/corner-columns.ts, variation/index.ts), registered where the getter is defined with the
+ * names it is defined under, so the finiteness walk asks for a property descriptor only there.
  */
-const lazyHolders = new WeakSet<object>();
+const lazyHolders = new WeakMap<object, readonly string[]>();
 
-/** Registers `o` as holding a property read through a getter (see `dropNonFinite`). */
-export function markLazyTables(o: object): void {
-  lazyHolders.add(o);
+/** Registers `o` as holding the properties `names`, read through a getter (see `dropNonFinite`). */
+export function markLazyTables(o: object, names: readonly string[]): void {
+  lazyHolders.set(o, names);
 }
 
 /**
@@ -67,13 +68,11 @@ function pathOf(root: string, keys: readonly (string | number)[], last: string |
 
 function walkFinite(value: unknown, root: string, keys: (string | number)[], removed: string[], seen: Set<object>): void {
   if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value)) return;
-  const lazy = lazyHolders.has(value);
   // Only a container (something holding objects) is remembered, when its first object is met: it is
   // where a shared object or a cycle would be reached again. An object of numbers and strings reached
   // twice is simply looked at twice, which finds nothing the second time; remembering every such leaf
   // cost more than the rest of the walk, and so did scanning each object first to see whether it holds one.
-  let remembered = lazy;
-  if (lazy && !remember(value, seen)) return;
+  let remembered = false;
   if (Array.isArray(value)) {
     let kept = 0;
     for (let i = 0; i < value.length; i++) {
@@ -86,23 +85,30 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
       } else if (v !== null && typeof v === 'object') {
         // Walked before: its numbers were cleaned then, so nothing before this item was dropped now.
         if (!remembered && !(remembered = remember(value, seen))) return;
+        // Moved up before it is walked: a list that holds itself must not show a dropped number again.
+        if (kept !== i) value[kept] = v;
+        kept++;
         keys.push(i);
         walkFinite(v, root, keys, removed, seen);
         keys.pop();
+        continue;
       }
-      value[kept++] = v;
+      if (kept !== i) value[kept] = v;
+      kept++;
     }
     if (kept !== value.length) value.length = kept;
     return;
   }
+  const lazy = lazyHolders.get(value);
+  if (lazy && !(remembered = remember(value, seen))) return;
   const record = value as Record<string, unknown>;
   // Own enumerable names, as for-in with an own-property test would give them, at a fraction of its cost.
   const names = Object.keys(record);
   for (let k = 0; k < names.length; k++) {
     const key = names[k]!;
     // A table built on first read is finite by construction, clamped where it is built; reading it
-    // here would build it for nothing.
-    if (lazy && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
+    // here would build it for nothing. (Assigned a value, it is an ordinary property again.)
+    if (lazy && isOneOf(key, lazy) && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
     const v = record[key];
     if (typeof v === 'number') {
       if (!Number.isFinite(v)) {
@@ -118,13 +124,17 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
   }
 }
 
-/** Remembers `o` as walked; false when it was already. */
-function remember(o: object, seen: Set<object>): boolean {
-  if (seen.has(o)) return false;
-  seen.add(o);
-  return true;
+/** Whether `key` is one of the few `names` (a loop, where `includes` was a call per member of every holder). */
+function isOneOf(key: string, names: readonly string[]): boolean {
+  for (let i = 0; i < names.length; i++) if (names[i] === key) return true;
+  return false;
 }
 
+/** Remembers `o` as walked; false when it was already (one look-up in the set, not two). */
+function remember(o: object, seen: Set<object>): boolean {
+  const before = seen.size;
+  return seen.add(o).size !== before;
+}
 /**
  * Drops non-finite numbers from the findings' data and from `parts` (named roots such as the
  * operating point and the structures). When anything was dropped, returns one `value-not-finite`

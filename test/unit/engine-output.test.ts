@@ -7,6 +7,7 @@ import { analyse, analyseSession, attachAllSizingFixes, sizingFixesOf } from '..
 import { parse } from '../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 import { clampSpan, dropNonFinite, keepFinite, markLazyTables } from '../../shared-analysis/src/output-guard';
+import { rng } from '../seeded-random';
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { parameterStep } from '../../shared-analysis/src/variation/sensitivity';
@@ -99,7 +100,7 @@ describe('finite numbers only', () => {
     let reads = 0;
     const holder: Record<string, unknown> = { bad: NaN, nested: { worse: -Infinity, fine: [1, 2] } };
     Object.defineProperty(holder, 'table', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
-    markLazyTables(holder);
+    markLazyTables(holder, ['table']);
     const removed: string[] = [];
     dropNonFinite([holder], 'root', removed);
     expect(reads).toBe(0);
@@ -111,6 +112,83 @@ describe('finite numbers only', () => {
     dropNonFinite({ p: plain }, 'p', removedPlain);
     expect(reads).toBeGreaterThan(0);
     expect(removedPlain).toEqual(['p.p.table.x']);
+  });
+
+  it('skips only the getters a holder registered, and walks one that was replaced by a value', () => {
+    let reads = 0;
+    const holder: Record<string, unknown> = { n: 1 };
+    for (const key of ['lazy', 'other']) Object.defineProperty(holder, key, { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
+    markLazyTables(holder, ['lazy', 'later']);
+    // A registered name assigned a plain value (as the tables' setters do) is an ordinary member again.
+    holder['later'] = { y: Infinity };
+    const removed: string[] = [];
+    dropNonFinite(holder, 'h', removed);
+    expect(reads).toBe(1);
+    expect(removed).toEqual(['h.other.x', 'h.later.y']);
+  });
+
+  it('removes what an independent walk of random nested data removes, and names the same paths', () => {
+    // The reference: a plain depth-first walk that remembers every object it enters (the guard
+    // remembers only containers and reads records another way), deleting members and compacting
+    // lists in place as it goes. Paths are written as the guard's doc comment says: root[3].name.
+    const reference = (value: unknown, path: string, removed: string[], seen: Set<object>): void => {
+      if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value) || seen.has(value)) return;
+      seen.add(value);
+      if (Array.isArray(value)) {
+        const kept: unknown[] = [];
+        value.forEach((v, i) => {
+          if (typeof v === 'number' && !Number.isFinite(v)) removed.push(`${path}[${i}]`);
+          else {
+            reference(v, `${path}[${i}]`, removed, seen);
+            kept.push(v);
+          }
+        });
+        value.splice(0, value.length, ...kept);
+        return;
+      }
+      const record = value as Record<string, unknown>;
+      for (const key of Object.keys(record)) {
+        const v = record[key];
+        if (typeof v === 'number' && !Number.isFinite(v)) {
+          removed.push(`${path}.${key}`);
+          delete record[key];
+        } else reference(v, `${path}.${key}`, removed, seen);
+      }
+    };
+    const random = rng(20261203);
+    const pick = <T>(xs: readonly T[]): T => xs[Math.floor(random() * xs.length)]!;
+    const numbers = [0, -0, 1.5, -2e-300, 1e308, NaN, Infinity, -Infinity];
+    // Names include integer-like ones ("7", listed first by an object) and inherited ones.
+    const names = ['a', 'b', '7', '0', 'value', 'constructor', '__proto__x', 'x y'];
+    for (let trial = 0; trial < 200; trial++) {
+      const made: object[] = [];
+      const make = (depth: number): unknown => {
+        const r = random();
+        if (depth > 4 || r < 0.35) return pick(numbers);
+        if (r < 0.42) return pick(['s', 'NaN', '']);
+        if (r < 0.46 && made.length > 0) return pick(made); // shared, or a cycle back up
+        if (r < 0.48) return new Float64Array([NaN, 1]);
+        if (r < 0.49) return null;
+        const o: unknown = r < 0.7 ? [] : {};
+        made.push(o as object);
+        const n = Math.floor(random() * 6);
+        for (let i = 0; i < n; i++) {
+          const v = make(depth + 1);
+          if (Array.isArray(o)) o.push(v);
+          else (o as Record<string, unknown>)[pick(names)] = v;
+        }
+        return o;
+      };
+      const data = { root: make(0) };
+      // The reference runs on a structured clone: same shape, sharing and cycles.
+      const copy = structuredClone(data);
+      const expected: string[] = [];
+      reference(copy.root, 'x', expected, new Set());
+      const removed: string[] = [];
+      dropNonFinite(data.root, 'x', removed);
+      expect(removed).toEqual(expected);
+      expect(data).toEqual(copy);
+    }
   });
 
   it('names each removed value once, at its first path, when an object is shared or part of a cycle', () => {

@@ -62,6 +62,9 @@ export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
   };
 }
 
+/** The properties `lazyPoint` builds on first read. */
+const POINT_TABLES = ['nodes', 'devices'];
+
 /**
  * An OperatingPoint whose `nodes` and `devices` tables are built by `build` on first read (and
  * then kept), with `vectors` registered for `pointVectors`. The tables are ordinary enumerable
@@ -82,7 +85,7 @@ export function lazyPoint(
   });
   Object.defineProperty(op, 'nodes', table('nodes'));
   Object.defineProperty(op, 'devices', table('devices'));
-  markLazyTables(op);
+  markLazyTables(op, POINT_TABLES);
   vectors.set(op, v);
   return op;
 }

@@ -44,6 +44,9 @@ export function cornerColumns(s: Structure): CornerColumns | undefined {
   return columnsOf.get(s);
 }
 
+/** The property `setCornerColumns` builds on first read. */
+const CORNERS_TABLE = ['corners'];
+
 /**
  * Stores a structure's corner results as columns. `s.corners` then builds the per-corner records
  * from them the first time it is read (hover, a full JSON report), and keeps them; until then no
@@ -52,7 +55,7 @@ export function cornerColumns(s: Structure): CornerColumns | undefined {
  */
 export function setCornerColumns(s: Structure, cols: CornerColumns): void {
   columnsOf.set(s, cols);
-  markLazyTables(s);
+  markLazyTables(s, CORNERS_TABLE);
   let built: CornerResult[] | undefined;
   Object.defineProperty(s, 'corners', {
     enumerable: true,

@@ -407,7 +407,7 @@ class TopSensitivities {
     holder[LISTS] = this;
     holder[LIST_INDEX] = o;
     Object.defineProperty(out, 'sensitivities', LAZY_SENSITIVITIES);
-    markLazyTables(out);
+    markLazyTables(out, SENSITIVITIES_TABLE);
   }
 
   /** Output o's list as records. */
@@ -453,6 +453,9 @@ type LazySensitivities = OutputVariation & { [LISTS]: TopSensitivities; [LIST_IN
 function keepSensitivities(out: OutputVariation, value: Sensitivity[]): void {
   Object.defineProperty(out, 'sensitivities', { value, writable: true, enumerable: true, configurable: true });
 }
+
+/** The property `LAZY_SENSITIVITIES` defines. */
+const SENSITIVITIES_TABLE = ['sensitivities'];
 
 /** One accessor shared by every output whose list is made on first read (one getter for all keeps the outputs alike for V8). */
 const LAZY_SENSITIVITIES: PropertyDescriptor = {
