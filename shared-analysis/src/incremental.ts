@@ -12,6 +12,7 @@ import { nameTable } from './names';
 import type { Card, ParsedDocument, SyntaxError } from './syntax/ast';
 import { parseElementLine } from './syntax/parser';
 import { movedCard } from './syntax/moved-card';
+import { PartStarts, resistancesOf, type PartCircuit } from './solve/part-starts';
 
 /**
  * An unknown counts as moved when it differs from the value its structures were analysed at by more than
@@ -67,18 +68,20 @@ export interface IncrementalState {
   devices?: (Finding[] | undefined)[];
 }
 
-/** A corner's converged solution and the nominal solution it was solved around. */
+/** A corner's converged solution, the nominal solution it was solved around and the resistances it was solved with (`resistancesOf`). */
 interface CornerSolution {
   x: Float64Array;
   nominal: Float64Array;
+  resistances: Float64Array;
 }
 
 /**
  * The corner solves' starts and their record, for `runCorners` on the analysis `state` belongs to: corner k starts
  * from the last solution of the same corner moved by the change of the nominal solution since (x_c + x_nominal −
- * x_nominal,then: after a value edit only the unknowns near the edit move, and by about as much at every corner,
- * so Newton needs two or three iterations instead of the four or so from the nominal start on the 20k array), and
- * each converged corner's solution is kept for the next phase. A value edit keeps the unknowns, and a state is kept
+ * x_nominal,then: after a value edit only the unknowns near the edit move, and by about as much at every corner),
+ * made exact in the parts of the circuit holding a changed resistor by solving those parts alone (`PartStarts`), so
+ * the whole circuit's Newton needs one iteration to confirm the corner's point instead of two to four; and each
+ * converged corner's solution is kept for the next phase. A value edit keeps the unknowns, and a state is kept
  * only for a circuit without a self-biased loop, whose corner point does not depend on where Newton starts.
  * Nothing when `state` is not this circuit's.
  */
@@ -86,15 +89,22 @@ export function cornerStarts(state: IncrementalState | undefined, circuit: Circu
   if (!state || state.circuit !== circuit || state.solver.unknownCount !== nominal.x.length) return {};
   const byLabel = (state.corners ??= new Map());
   const around = Float64Array.from(nominal.x);
+  const whole: PartCircuit = { circuit, unknowns: state.solver.unknowns, rail: state.index.rail, partOf: state.index.parts.ofElement };
+  // One per set of resistances the last solutions were solved with (a phase stopped half-way leaves two).
+  const partStarts = new Map<Float64Array, PartStarts>();
+  let resistances: Float64Array | undefined;
   return {
-    startOf: (spec) => {
+    startOf: (spec, _k, options) => {
       const last = byLabel.get(spec.label);
       if (!last || last.x.length !== around.length) return undefined;
       const start = new Float64Array(around.length);
       for (let k = 0; k < start.length; k++) start[k] = last.x[k] + (around[k] - last.nominal[k]);
+      let parts = partStarts.get(last.resistances);
+      if (!parts) partStarts.set(last.resistances, (parts = new PartStarts(whole, last.resistances)));
+      parts.refine(start, last.x, options);
       return start;
     },
-    solved: (spec, _k, x) => byLabel.set(spec.label, { x: Float64Array.from(x), nominal: around }),
+    solved: (spec, _k, x) => byLabel.set(spec.label, { x: Float64Array.from(x), nominal: around, resistances: (resistances ??= resistancesOf(circuit)) }),
   };
 }
 

@@ -75,10 +75,10 @@ export interface CornerContext {
   stop?: () => Error;
   /**
    * Where corner k's Newton starts instead of the nominal solution (after a value edit: the last corner phase's
-   * solution of that corner, moved by the change of the nominal one). A start that does not converge is dropped
+   * solution of that corner, moved by the change of the nominal one), given the corner's solve options. A start that does not converge is dropped
    * for the nominal one, so a corner converges whenever it would from the nominal start.
    */
-  startOf?: (spec: CornerSpec, k: number) => Float64Array | undefined;
+  startOf?: (spec: CornerSpec, k: number, options: SolveOptions) => Float64Array | undefined;
   /** Told each converged corner's solution (the solver's own vector, overwritten by the next solve: copy what is kept). */
   solved?: (spec: CornerSpec, k: number, x: Float64Array) => void;
   /**
@@ -278,7 +278,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     // Each corner's point is read here and dropped before the next solve: its vectors can be reused.
     const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     const ts = clock();
-    const solved = solveCorner(solver, opts, ctx.startOf?.(spec, k), starts, k, ctx.stop);
+    const solved = solveCorner(solver, opts, ctx.startOf?.(spec, k, opts), starts, k, ctx.stop);
     solveMs += clock() - ts;
     iterations += solved.iterations;
     const result = solved.result;

@@ -1,0 +1,170 @@
+// After a value edit, a corner solve's start made exact in the parts of the circuit the edit reached: each such part
+// solved alone with the rails held at the corner's values, the rest of the start left at the corner's last solution.
+
+import type { Circuit, Element } from '../circuit';
+import { DcSolver } from './dc';
+import type { UnknownInfo } from './mna';
+import type { SolveOptions } from './types';
+
+/**
+ * Element kinds whose equations read only the nodes they list: in a circuit of these alone, parts joined through
+ * nodes that are not rails (nodes held by voltage sources) share nothing but the rails and those sources' currents.
+ * A current-controlled kind (F, H, W) or a behavioural source reads what another part may hold.
+ */
+const LOCAL_KINDS: ReadonlySet<Element['kind']> = new Set(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'S', 'D', 'Q', 'M', 'J']);
+
+/** A part larger than this share of the circuit is not solved apart: the whole circuit's Newton is as cheap then. */
+const MOST_ELEMENTS_SHARE = 1 / 8;
+/** ... unless it is this small. */
+const ALWAYS_ELEMENTS = 64;
+
+/** What a part solve needs to know of the whole circuit. */
+export interface PartCircuit {
+  circuit: Circuit;
+  /** The global solver's unknowns (MNA order). */
+  unknowns: readonly UnknownInfo[];
+  /** Per node, 1 for a rail (ground included). */
+  rail: Uint8Array;
+  /** Per element, its part (see `circuitParts` in incremental.ts). */
+  partOf: Int32Array;
+}
+
+/**
+ * Per element, the resistance it had when a corner was solved (NaN for other kinds): what a later start compares
+ * with the circuit's values to find the resistors an edit changed.
+ */
+export function resistancesOf(circuit: Circuit): Float64Array {
+  return Float64Array.from(circuit.elements, (el) => (el.kind === 'R' ? el.resistance : NaN));
+}
+
+/**
+ * Makes `start` (a corner's Newton start: its last solution moved by the nominal change) exact in the parts holding a
+ * resistor whose value differs from `before` (the resistances that solution was solved with, see `resistancesOf`):
+ * each unknown of those parts is replaced by a solve of the parts alone at the corner's conditions (`options`), and
+ * the current of every rail source by its value in `last` (the corner's last solution) plus the change of the parts'
+ * share of it (the parts solved alone with the old values, from `last`, and with the new ones). The other parts'
+ * unknowns already solve their equations, which the edit did not touch, so the whole circuit's Newton then needs
+ * one iteration to confirm the point by its own convergence test. Undefined (the start left as it was) when the
+ * circuit has a kind that reads across parts, nothing changed, the parts are large, or a part solve did not converge.
+ */
+export class PartStarts {
+  private readonly solves: { now: PartSolve; before: PartSolve } | undefined;
+
+  constructor(whole: PartCircuit, before: Float64Array) {
+    this.solves = partSolves(whole, before);
+  }
+
+  /** Whether `refine` can change a start (false: there is nothing to solve apart). */
+  get active(): boolean {
+    return this.solves !== undefined;
+  }
+
+  /** Writes the refined unknowns into `start`; false (and `start` as it was) when a part solve did not converge. */
+  refine(start: Float64Array, last: Float64Array, options: SolveOptions): boolean {
+    if (!this.solves) return false;
+    const { now, before } = this.solves;
+    const xNow = now.solve(start, options);
+    const xBefore = xNow && before.solve(last, options);
+    if (!xNow || !xBefore) return false;
+    const { toGlobal, kind } = now;
+    for (let k = 0; k < toGlobal.length; k++) {
+      const g = toGlobal[k];
+      if (kind[k] === PART_UNKNOWN) start[g] = xNow[k];
+      else if (kind[k] === RAIL_CURRENT) start[g] = last[g] + (xNow[k] - xBefore[k]);
+    }
+    return true;
+  }
+}
+
+/** Unknowns of a part solve: the parts' own (copied into the start), a rail source's current (moved by the change), a rail's voltage (left). */
+const PART_UNKNOWN = 0;
+const RAIL_CURRENT = 1;
+const RAIL_VOLTAGE = 2;
+
+function partSolves(whole: PartCircuit, before: Float64Array): { now: PartSolve; before: PartSolve } | undefined {
+  const { circuit, rail, partOf } = whole;
+  const elements = circuit.elements;
+  if (before.length !== elements.length || !elements.every((el) => LOCAL_KINDS.has(el.kind))) return undefined;
+  const touched = new Set<number>();
+  elements.forEach((el, i) => {
+    if (el.kind === 'R' && !Object.is(el.resistance, before[i])) touched.add(partOf[i]);
+  });
+  if (touched.size === 0) return undefined;
+  const inParts: number[] = [];
+  const railSources: number[] = [];
+  elements.forEach((el, i) => {
+    if (touched.has(partOf[i])) inParts.push(i);
+    else if ((el.kind === 'V' || el.kind === 'L') && el.nodes.every((n) => rail[n] === 1)) railSources.push(i);
+  });
+  if (inParts.length > Math.max(ALWAYS_ELEMENTS, elements.length * MOST_ELEMENTS_SHARE)) return undefined;
+  const chosen = [...inParts, ...railSources].sort((a, b) => a - b);
+  const globalOf = globalUnknowns(whole.unknowns);
+  const now = PartSolve.of(whole, globalOf, chosen, (el) => el);
+  const old = PartSolve.of(whole, globalOf, chosen, (el, i) => (el.kind === 'R' && !Object.is(el.resistance, before[i]) ? { ...el, resistance: before[i] } : el));
+  return now && old ? { now, before: old } : undefined;
+}
+
+/** A circuit made of some of a circuit's elements (renumbered nodes, the same names and models), with its own solver. */
+class PartSolve {
+  private constructor(
+    private readonly solver: DcSolver,
+    /** Part unknown k -> the whole circuit's unknown. */
+    readonly toGlobal: Int32Array,
+    /** Part unknown k: PART_UNKNOWN, RAIL_CURRENT or RAIL_VOLTAGE. */
+    readonly kind: Uint8Array,
+  ) {}
+
+  static of(whole: PartCircuit, globalOf: Map<string, number>, chosen: readonly number[], valueOf: (el: Element, i: number) => Element): PartSolve | undefined {
+    const { circuit, rail } = whole;
+    const nodeOf = new Map<number, number>([[0, 0]]);
+    const globalNode = [0];
+    const local = (n: number): number => {
+      let k = nodeOf.get(n);
+      if (k === undefined) {
+        nodeOf.set(n, (k = globalNode.length));
+        globalNode.push(n);
+      }
+      return k;
+    };
+    const elements = chosen.map((i) => ({ ...valueOf(circuit.elements[i]!, i), nodes: circuit.elements[i]!.nodes.map(local) }) as Element);
+    const part: Circuit = { ...circuit, nodes: globalNode.map((n) => circuit.nodes[n] ?? '0'), elements };
+    delete part.detachedNodes;
+    const solver = new DcSolver(part);
+    const n = solver.unknownCount;
+    const toGlobal = new Int32Array(n);
+    const kind = new Uint8Array(n);
+    for (let k = 0; k < n; k++) {
+      const u = solver.unknowns[k]!;
+      if (u.kind === 'node') {
+        toGlobal[k] = globalNode[u.node]! - 1;
+        kind[k] = rail[globalNode[u.node]!] === 1 ? RAIL_VOLTAGE : PART_UNKNOWN;
+        continue;
+      }
+      const e = chosen[u.element]!;
+      const g = globalOf.get(u.kind === 'internal' ? `${e} ${u.label}` : `${e}`);
+      if (g === undefined) return undefined;
+      toGlobal[k] = g;
+      kind[k] = u.kind === 'branch' && circuit.elements[e]!.nodes.every((x) => rail[x] === 1) ? RAIL_CURRENT : PART_UNKNOWN;
+    }
+    return new PartSolve(solver, toGlobal, kind);
+  }
+
+  /** The part's unknowns solved at `options` from the whole circuit's `start`; undefined when Newton did not converge. */
+  solve(start: Float64Array, options: SolveOptions): Float64Array | undefined {
+    const guess = new Float64Array(this.toGlobal.length);
+    for (let k = 0; k < guess.length; k++) guess[k] = start[this.toGlobal[k]];
+    // Not stopped from inside (the corner loop asks before each whole solve) and with vectors of its own.
+    const r = this.solver.solve({ ...options, initialGuess: guess, initialGuessTemperatureC: options.temperatureC, reuseResult: false, shouldStop: undefined });
+    return r.op.converged ? r.x : undefined;
+  }
+}
+
+/** The whole circuit's internal and branch unknowns by `element label` and `element`. */
+function globalUnknowns(unknowns: readonly UnknownInfo[]): Map<string, number> {
+  const out = new Map<string, number>();
+  unknowns.forEach((u, k) => {
+    if (u.kind === 'internal') out.set(`${u.element} ${u.label}`, k);
+    else if (u.kind === 'branch') out.set(`${u.element}`, k);
+  });
+  return out;
+}
