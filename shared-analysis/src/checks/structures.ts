@@ -18,7 +18,7 @@ import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
 import { TECHNOLOGIES, technologyWords } from '../structures/technology';
-import type { Structure, StructureOutput } from '../structures/types';
+import type { Structure, StructureOutput, StructureRole } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
@@ -107,20 +107,49 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
   const out: Finding[] = [];
   const topo = topologyOf(circuit);
   const rails = [...railsByIndex(circuit).values()].map((r) => r.volts);
-  const railRange = { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS };
+  const shared: CheckShared = {
+    circuit,
+    topo,
+    all: structures,
+    op,
+    options,
+    railRange: { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS },
+    temperatureC: op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC,
+    at: op ? namedPointReader(op, topo) : undefined,
+    voltsByIndex: op ? pointVectors(op)?.volts : undefined,
+  };
   const measuring = op ? nominalMeasuring(topo, ctx.kept ? structures.filter((s) => !ctx.kept!(s)) : structures, op) : undefined;
   for (const s of feedOrder(structures)) {
-    const own = ctx.kept?.(s) ?? applySeverities(checkStructure(() => new StructureCheck(circuit, topo, s, structures, op, options, railRange, measuring?.measure(s)).run(), s, topo), options);
+    const own = ctx.kept?.(s) ?? applySeverities(checkStructure(shared, s, measuring), options);
     ctx.record?.(s, own);
     pushAll(out, own);
   }
   return out;
 }
 
+/** What the checks of one list of structures share: made once per `analyseStructures` call, not once per structure. */
+interface CheckShared {
+  circuit: Circuit;
+  topo: Topology;
+  /** Every structure of the circuit (a mirror fed by another's output reads that one's estimate). */
+  all: Structure[];
+  /** The converged operating point, if any. */
+  op: OperatingPoint | undefined;
+  options: ResolvedOptions;
+  /** Highest and lowest rail potential of the circuit (the compliance range's outer ends). */
+  railRange: { top: number; bottom: number };
+  temperatureC: number;
+  /** Reads `op` by name without building the records of every device. */
+  at: NamedPointReader | undefined;
+  /** The solver's node voltages of `op` by index, when it has them (else `at` reads them by name). */
+  voltsByIndex: Float64Array | undefined;
+}
+
 /** One structure's findings; a defect in its analysis must not take down the others or the editor. */
-function checkStructure(run: () => Finding[], s: Structure, topo: Topology): Finding[] {
+function checkStructure(shared: CheckShared, s: Structure, measuring: Measuring | undefined): Finding[] {
+  const topo = shared.topo;
   try {
-    return run();
+    return new StructureCheck(shared, s, measuring?.measure(s)).run();
   } catch (err) {
     const dev = topo.elementByName.get(s.reference.device);
     return [
@@ -135,8 +164,13 @@ function checkStructure(run: () => Finding[], s: Structure, topo: Topology): Fin
   }
 }
 
+/** Measures one structure at the nominal point. */
+interface Measuring {
+  measure(s: Structure): Measurement;
+}
+
 /** Every structure's measurement at the operating point, its names resolved and its plans flattened once for all structures. */
-function nominalMeasuring(topo: Topology, structures: Structure[], op: OperatingPoint): { measure: (s: Structure) => Measurement } {
+function nominalMeasuring(topo: Topology, structures: Structure[], op: OperatingPoint): Measuring {
   const plans = plannedMeasurements(topo, structures);
   const reader = readerOf(op, topo);
   const position = new Map<Structure, number>();
@@ -172,37 +206,38 @@ function applySeverities(findings: Finding[], options: ResolvedOptions): Finding
 }
 
 
-class StructureCheck {
+/** One structure's check; it is also the context its kind's output-resistance hook asks. */
+class StructureCheck implements ResistanceContext {
   private readonly sign: 1 | -1;
-  private readonly bipolar: boolean;
-  private readonly temperatureC: number;
+  readonly bipolar: boolean;
   private readonly findings: Finding[] = [];
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
   private readonly off = new Set<string>();
-  /** Reads `op` by name without building the records of every device. */
-  private readonly at: NamedPointReader | undefined;
-  /** The solver's node voltages of `op` by index, when it has them (else `at` reads them by name). */
-  private readonly voltsByIndex: Float64Array | undefined;
   /** The records of `op` read so far, by device: each is built once, though several checks read it. */
   private readonly records = new Map<string, DeviceRecord | undefined>();
+  private readonly circuit: Circuit;
+  private readonly topo: Topology;
+  private readonly op: OperatingPoint | undefined;
+  private readonly options: ResolvedOptions;
+  private readonly temperatureC: number;
+  private readonly at: NamedPointReader | undefined;
+  private readonly voltsByIndex: Float64Array | undefined;
 
   constructor(
-    private readonly circuit: Circuit,
-    private readonly topo: Topology,
-    private readonly s: Structure,
-    private readonly all: Structure[],
-    private readonly op: OperatingPoint | undefined,
-    private readonly options: ResolvedOptions,
-    /** Highest and lowest rail potential of the circuit (the compliance range's outer ends). */
-    private readonly railRange: { top: number; bottom: number },
+    private readonly shared: CheckShared,
+    readonly s: Structure,
     /** The structure's measurement at `op` (given with it). */
     private readonly measured: Measurement | undefined,
   ) {
     this.sign = polaritySign(s.technology);
     this.bipolar = isBipolar(s.technology);
-    this.temperatureC = op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC;
-    this.at = op ? namedPointReader(op, topo) : undefined;
-    this.voltsByIndex = op ? pointVectors(op)?.volts : undefined;
+    this.circuit = shared.circuit;
+    this.topo = shared.topo;
+    this.op = shared.op;
+    this.options = shared.options;
+    this.temperatureC = shared.temperatureC;
+    this.at = shared.at;
+    this.voltsByIndex = shared.voltsByIndex;
   }
 
   /** The record of a device at `op` (undefined without a solve). */
@@ -246,7 +281,7 @@ class StructureCheck {
     s.estimate = estimateStructure(this.circuit, s, {
       temperatureC: this.temperatureC,
       outputVolts: this.op ? outputVolts : undefined,
-      structures: this.all,
+      structures: this.shared.all,
       irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
       deviceCurrents: this.op ? this.collectorCurrents() : undefined,
       nodeVolts: this.at?.volts,
@@ -306,7 +341,7 @@ class StructureCheck {
   // ---- records ----------------------------------------------------------
 
   private compliance(): Structure['compliance'] {
-    const { top, bottom } = this.railRange;
+    const { top, bottom } = this.shared.railRange;
     const out: Structure['compliance'] = nameTable();
     for (const o of this.s.outputs) {
       const edge = this.edgeVolts(o.device);
@@ -343,7 +378,7 @@ class StructureCheck {
    * gm = IC/(NF·VT), rπ = β/gm, ro = VA/IC (Gray et al., ch. 1); gm = sqrt(2·KP·(W/L)·M·ID),
    * ro = 1/(λ·ID) (Razavi, ch. 2).
    */
-  private smallSignal(name: string, i: number): SmallSignal {
+  smallSignal(name: string, i: number): SmallSignal {
     const t = this.t(name);
     const p = t.element.model.params;
     const rec = this.record(name);
@@ -371,7 +406,7 @@ class StructureCheck {
   }
 
   /** Resistance of the reference feed seen from the reference node (a current source is ideal). */
-  private feedOhms(): number {
+  feedOhms(): number {
     const ref = this.s.reference;
     if (ref.feed !== 'resistor') return UNBOUNDED_OHMS;
     return ref.elements.reduce((sum, r) => {
@@ -380,21 +415,22 @@ class StructureCheck {
     }, 0);
   }
 
+  irefOr(fallback: number): number {
+    return this.measured?.iref || this.s.estimate?.iref || fallback;
+  }
+
+  withRole(role: StructureRole): string | undefined {
+    return this.s.devices.find((d) => this.s.roles?.[d] === role);
+  }
+
+  resistance(name: string): number {
+    const el = this.topo.elementByName.get(name);
+    return el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0;
+  }
+
   private outputResistance(): Record<string, number> {
     const res: Record<string, number> = nameTable();
     const kind = kindOf(this.s.kind);
-    const ctx: ResistanceContext = {
-      s: this.s,
-      bipolar: this.bipolar,
-      smallSignal: (name, i) => this.smallSignal(name, i),
-      feedOhms: () => this.feedOhms(),
-      irefOr: (fallback) => this.measured?.iref || this.s.estimate?.iref || fallback,
-      withRole: (role) => this.s.devices.find((d) => this.s.roles?.[d] === role),
-      resistance: (name) => {
-        const el = this.topo.elementByName.get(name);
-        return el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0;
-      },
-    };
     for (const o of this.s.outputs) {
       const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;
       if (!(i > 0)) {
@@ -402,8 +438,8 @@ class StructureCheck {
         continue;
       }
       const out = this.smallSignal(o.device, i);
-      let r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(ctx, o, out, i);
-      r = this.saturatedBaseLoading(o, out, r, ctx);
+      let r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(this, o, out, i);
+      r = this.saturatedBaseLoading(o, out, r);
       res[o.device] = Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
     }
     return res;
@@ -417,11 +453,11 @@ class StructureCheck {
    * go + gm·gμ·(RB ∥ rπ) (node analysis of the hybrid-π model with rμ, Gray, Hurst, Lewis, Meyer,
    * 5th ed., ch. 1/3; from memory). Active outputs (gμ ≈ 0) are left as the kind computed them.
    */
-  private saturatedBaseLoading(o: StructureOutput, out: SmallSignal, r: number, ctx: ResistanceContext): number {
+  private saturatedBaseLoading(o: StructureOutput, out: SmallSignal, r: number): number {
     const rec = this.record(o.device);
     if (!rec || rec.type !== 'bjt' || rec.region !== 'saturation' || !(rec.gmu > 0) || !(r > 0) || r >= UNBOUNDED_OHMS) return r;
     if (this.t(o.device).ctrl !== this.t(this.s.reference.device).ctrl) return r;
-    const q1 = this.smallSignal(this.s.reference.device, ctx.irefOr(0));
+    const q1 = this.smallSignal(this.s.reference.device, this.irefOr(0));
     const par = (a: number, b: number) => (a >= UNBOUNDED_OHMS ? b : b >= UNBOUNDED_OHMS ? a : (a * b) / (a + b));
     const rb = par(par(q1.gm > 0 ? 1 / q1.gm : UNBOUNDED_OHMS, this.feedOhms()), out.rpi);
     if (!(rb > 0) || rb >= UNBOUNDED_OHMS) return r;

@@ -27,6 +27,12 @@ export function estimateStructure(circuit: Circuit, s: Structure, at: EstimateAt
   return new HandAnalysis(circuit, s, at, 0).run();
 }
 
+/** Whether every name is a transistor of the circuit. */
+function allTransistors(h: Hand, names: readonly string[]): boolean {
+  for (const d of names) if (!h.topo.byName.has(d)) return false;
+  return true;
+}
+
 /** "V+ − V−" of a resistor-fed reference with its numbers: the rail and the common node, the higher first. */
 function supplyText(sign: 1 | -1, vRail: number, vCommon: number): string {
   return sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
@@ -62,23 +68,25 @@ class HandAnalysis {
     };
     // A structure built elsewhere (or edited) without its devices or roles has nothing to compute from.
     const complete =
-      s.devices.every((d) => h.topo.byName.has(d)) &&
+      allTransistors(h, s.devices) &&
       h.topo.byName.has(s.reference.device) &&
       (s.outputs.length > 0 || kind.voltageOnly === true) &&
       s.outputs.every((o) => h.topo.byName.has(o.device)) &&
-      (kind.requiredRoles ?? []).every((r) => h.role(r).length > 0) &&
+      (kind.requiredRoles === undefined || kind.requiredRoles.every((r) => h.role(r).length > 0)) &&
       (kind.complete?.(h) ?? true);
     if (!complete) {
       return { iref: 0, iout: Object.fromEntries(s.outputs.map((o) => [o.device, 0])), vControl: 0, steps, irefFrom: 'unknown' };
     }
-    add(() => ({
-      quantity: 'VT',
-      formula: 'k·T/q (k = 1.380649e-23 J/K, q = 1.602176634e-19 C, exact, SI 2019)',
-      substituted: `k × ${sig(this.at.temperatureC + 273.15, 5)} K / q`,
-      value: h.vt,
-      unit: 'V',
-    }));
-    if (record) steps.push(...this.betaSteps()); // bounded: one step per device of the structure
+    if (record) {
+      steps.push({
+        quantity: 'VT',
+        formula: 'k·T/q (k = 1.380649e-23 J/K, q = 1.602176634e-19 C, exact, SI 2019)',
+        substituted: `k × ${sig(this.at.temperatureC + 273.15, 5)} K / q`,
+        value: h.vt,
+        unit: 'V',
+      });
+      steps.push(...this.betaSteps()); // bounded: one step per device of the structure
+    }
     const feed = s.reference;
     let iref = 0;
     let irefFrom: Estimate['irefFrom'] = 'unknown';
@@ -99,10 +107,11 @@ class HandAnalysis {
       pushAll(steps, own.steps);
     } else if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
       irefFrom = 'resistor';
-      const ohms = feed.elements.reduce((sum, r) => {
+      let ohms = 0;
+      for (const r of feed.elements) {
         const el = h.topo.elementByName.get(r);
-        return sum + (el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0);
-      }, 0);
+        ohms += el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0;
+      }
       const railNode = h.topo.nodeIndex.get(feed.rail.node);
       const vRail = (railNode !== undefined ? h.railVolts.get(railNode) : undefined) ?? feed.rail.volts;
       const available = h.sign * (vRail - vCommon);
@@ -185,17 +194,16 @@ class HandAnalysis {
       if (h.bipolar && ohms > 0) {
         const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi() });
         irefShortcut = shortcut ? shortcut.value : Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
-        const value = irefShortcut;
-        add(
-          () =>
+        if (record)
+          steps.push(
             shortcut ?? {
               quantity: 'IREF (0.7 V shortcut)',
               formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
               substituted: `(${hi()} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${eng(ohms, 'Ω')}`,
-              value,
+              value: irefShortcut,
               unit: 'A',
             },
-        );
+          );
       }
     } else {
       if (irefStep) add(irefStep);
@@ -220,10 +228,10 @@ class HandAnalysis {
       for (const k in st.edge) {
         const v = st.edge[k];
         outputEdge[k] = vCommon + h.sign * v;
-        add(() => this.edgeStep(k, v, vCommon, outputEdge[k]));
+        if (record) steps.push(this.edgeStep(k, v, vCommon, outputEdge[k]));
       }
     }
-    return {
+    const estimate: Estimate = {
       iref,
       iout: st.iout,
       vControl: st.vControl,
@@ -233,9 +241,11 @@ class HandAnalysis {
       starved,
       supply,
       outputEdge: vCommon !== undefined ? outputEdge : undefined,
-      ...(voltages ? { voltages } : {}),
-      ...(voltageTempco ? { voltageTempco } : {}),
     };
+    // Added only when there are some, after the others (the order the JSON shows).
+    if (voltages) estimate.voltages = voltages;
+    if (voltageTempco) estimate.voltageTempco = voltageTempco;
+    return estimate;
   }
 
   /** The step of the output-node voltage `value` at the edge of output `k`'s active region, `v` beyond the common rail `vCommon`. */
@@ -325,14 +335,10 @@ class HandAnalysis {
    */
   private solveResistorFed(available: number, ohms: number): number {
     const hi0 = available / ohms;
-    const f = (u: number) => {
-      const i = Math.exp(u);
-      return i * ohms + this.stackAt(i) - available;
-    };
     let lo = Math.log(hi0 * 1e-18);
     let hi = Math.log(hi0);
-    let flo = f(lo);
-    let fhi = f(hi);
+    let flo = this.resistorFedResidual(lo, available, ohms);
+    let fhi = this.resistorFedResidual(hi, available, ohms);
     if (flo >= 0) return 0;
     if (fhi <= 0) return hi0;
     // Residuals are in volts: 1e-12 of the supply is far below any printed digit.
@@ -341,7 +347,7 @@ class HandAnalysis {
     for (let n = 0; n < 200 && hi - lo > 1e-13; n++) {
       let u = hi - (fhi * (hi - lo)) / (fhi - flo);
       if (!(u > lo && u < hi)) u = 0.5 * (lo + hi);
-      const fu = f(u);
+      const fu = this.resistorFedResidual(u, available, ohms);
       if (Math.abs(fu) <= tol) return Math.exp(u);
       if (fu > 0) {
         hi = u;
@@ -356,6 +362,12 @@ class HandAnalysis {
       }
     }
     return Math.exp(0.5 * (lo + hi));
+  }
+
+  /** IREF·R + stack(IREF) − available at IREF = e^u, volts: the residual `solveResistorFed` drives to zero. */
+  private resistorFedResidual(u: number, available: number, ohms: number): number {
+    const i = Math.exp(u);
+    return i * ohms + this.stackAt(i) - available;
   }
 
   /** The reference-chain voltage at one IREF without recording steps: the kind's closed form when it has one. */

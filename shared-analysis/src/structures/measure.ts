@@ -52,11 +52,12 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
   const outOfRegion: string[] = [];
   const sink = scratchSink(outputs.length);
   const iref = runMeasurement(plans, i, reader, sink);
-  outputs.forEach(({ device }, o) => {
+  for (let o = 0; o < outputs.length; o++) {
+    const device = outputs[o].device;
     iout[device] = sink.current[o];
     headroom[device] = sink.headroom[o];
     if (sink.outOfRegion[o]) outOfRegion.push(device);
-  });
+  }
   return { iref, iout, headroom, outOfRegion };
 }
 

@@ -5,7 +5,8 @@ import type { Circuit, Element } from '../../circuit';
 import { NOISE_FLOOR } from '../../fixes/format';
 import { JUNCTION_GMIN } from '../../solve/newton';
 import type { DeviceRecord, OperatingPoint } from '../../solve/types';
-import { namedPointReader, type NamedPointReader } from '../../solve/point';
+import { namedPointReader, pointVectors, type NamedPointReader, type PointVectors } from '../../solve/point';
+import { dissipation } from './power';
 import { railsByIndex } from '../../structures/rails';
 import { topologyOf, type Attachment, type Topology, type Transistor } from '../../structures/topology';
 import type { Rail, Structure, Technology } from '../../structures/types';
@@ -56,14 +57,17 @@ export class JudgeContext {
   private readonly at: NamedPointReader;
   readonly rails: Map<number, Rail>;
   readonly findings: Finding[] = [];
-  /** Lower-case names of devices that are outputs of a recognised structure (the structure checks judge those). */
-  readonly structureOutputs = new Set<string>();
-  /** Lower-case names of every device of a recognised structure and of the elements of its reference feed. */
-  readonly structureMembers = new Set<string>();
+  /**
+   * Lower-case names of every device of a recognised structure and of the elements of its reference feed, made
+   * when a judge first asks (only a device that is off or out of its region does: a healthy circuit never).
+   */
+  private members?: Set<string>;
   /** Lowest and highest rail potential. */
   readonly railSpan: { low: number; high: number };
   /** Transistors by output (collector/drain) node, built on first use. */
   private byOut?: Map<number, Transistor[]>;
+  /** The point's vectors, when records can be read by element index (see `recordAt`). */
+  private readonly records: PointVectors | undefined;
 
   constructor(
     readonly circuit: Circuit,
@@ -82,11 +86,19 @@ export class JudgeContext {
       if (r.volts > high) high = r.volts;
     }
     this.railSpan = { low, high };
-    for (const s of structures) {
-      for (const o of lowerNames(s.outputs, (x) => x.device)) this.structureOutputs.add(o);
-      for (const d of lowerNames(s.devices, (x) => x)) this.structureMembers.add(d);
-      for (const e of lowerNames(s.reference.elements, (x) => x)) this.structureMembers.add(e);
+    this.records = pointVectors(op) && this.topo.elementIndex.size === circuit.elements.length ? pointVectors(op) : undefined;
+  }
+
+  /** Whether an element (by name, any case) is a device of a recognised structure or an element of its reference feed. */
+  inStructure(name: string): boolean {
+    if (!this.members) {
+      this.members = new Set<string>();
+      for (const s of this.structures) {
+        for (const d of lowerNames(s.devices)) this.members.add(d);
+        for (const e of lowerNames(s.reference.elements)) this.members.add(e);
+      }
     }
+    return this.members.has(name.toLowerCase());
   }
 
   /** The solved voltage of a node (0 V for ground or an unknown node). */
@@ -98,6 +110,26 @@ export class JudgeContext {
   /** The operating-point record of an element, by its hierarchical name. */
   record(name: string): DeviceRecord | undefined {
     return this.at.record(name);
+  }
+
+  /**
+   * The record of circuit element `e` (what `record` gives for its name): read by index when the point has the
+   * solver's vectors and every element has a name of its own, by name otherwise (a name written twice reads the
+   * last element of that name, as the point's table does).
+   */
+  recordAt(e: number): DeviceRecord | undefined {
+    return this.records ? this.records.record(e) : this.at.record(this.circuit.elements[e].name);
+  }
+
+  /**
+   * `dissipation` of element `e`'s record. A two-terminal element's record (whose power is its `power`) is not
+   * built where the point has vectors: its power is read from them.
+   */
+  powerAt(e: number): number | undefined {
+    const type = this.records?.type(e);
+    if (!this.records || !isTwoTerminal(type)) return dissipation(this.recordAt(e));
+    const p = this.records.value(e, 'power');
+    return p !== undefined && Number.isFinite(p) ? p : undefined;
   }
 
   nodeName(node: number): string {
@@ -240,10 +272,10 @@ export class JudgeContext {
  * each name is lowered (and hashed) once rather than once per edit (25,000 names on the 20k array). A list of
  * another length than when it was lowered is lowered again.
  */
-const loweredNames = new WeakMap<readonly unknown[], string[]>();
-function lowerNames<T>(list: readonly T[], name: (x: T) => string): string[] {
+const loweredNames = new WeakMap<readonly string[], string[]>();
+function lowerNames(list: readonly string[]): string[] {
   let out = loweredNames.get(list);
-  if (!out || out.length !== list.length) loweredNames.set(list, (out = list.map((x) => name(x).toLowerCase())));
+  if (!out || out.length !== list.length) loweredNames.set(list, (out = list.map((x) => x.toLowerCase())));
   return out;
 }
 
@@ -252,18 +284,42 @@ function lowerNames<T>(list: readonly T[], name: (x: T) => string): string[] {
  * top of it the current the solver's 1 pS robustness conductance carries across `leakVolts`.
  */
 export function currentsOff(currents: number[], leakVolts: number): boolean {
-  const allowance = NOISE_FLOOR.A + JUNCTION_GMIN * Math.abs(leakVolts);
-  return currents.every((i) => !(Math.abs(i) >= allowance));
+  const floor = offFloor(leakVolts);
+  return currents.every((i) => below(i, floor));
 }
 
-/** Whether a transistor or diode record is off (see `currentsOff`); false for other records. */
+/**
+ * Whether a transistor or diode record is off (see `currentsOff`); false for other records. Read field by field
+ * (no list of the currents): the structure checks ask it of every device of every structure.
+ */
 export function recordIsOff(rec: DeviceRecord | undefined): boolean {
   if (!rec) return false;
-  if (rec.type === 'bjt') return currentsOff([rec.ic, rec.ib, rec.ie], Math.abs(rec.vbe) + Math.abs(rec.vbc));
-  if (rec.type === 'mosfet') return currentsOff([rec.id], Math.abs(rec.vds));
-  if (rec.type === 'jfet') return currentsOff([rec.id, rec.ig], Math.abs(rec.vds) + Math.abs(rec.vgs));
-  if (rec.type === 'diode') return currentsOff([rec.id], Math.abs(rec.vd));
+  if (rec.type === 'bjt') {
+    const floor = offFloor(Math.abs(rec.vbe) + Math.abs(rec.vbc));
+    return below(rec.ic, floor) && below(rec.ib, floor) && below(rec.ie, floor);
+  }
+  if (rec.type === 'mosfet') return below(rec.id, offFloor(Math.abs(rec.vds)));
+  if (rec.type === 'jfet') {
+    const floor = offFloor(Math.abs(rec.vds) + Math.abs(rec.vgs));
+    return below(rec.id, floor) && below(rec.ig, floor);
+  }
+  if (rec.type === 'diode') return below(rec.id, offFloor(Math.abs(rec.vd)));
   return false;
+}
+
+/** The "off" floor of `currentsOff` at junction voltages `leakVolts`. */
+function offFloor(leakVolts: number): number {
+  return NOISE_FLOOR.A + JUNCTION_GMIN * Math.abs(leakVolts);
+}
+
+/** A current under the floor, as `currentsOff` tests each one (NaN counts as under). */
+function below(current: number, floor: number): boolean {
+  return !(Math.abs(current) >= floor);
+}
+
+/** Whether a record type is a two-terminal element's (`TwoTerminalRecord`, whose dissipation is its `power`). */
+function isTwoTerminal(type: DeviceRecord['type'] | undefined): boolean {
+  return type !== undefined && type !== 'bjt' && type !== 'mosfet' && type !== 'jfet' && type !== 'switch' && type !== 'diode';
 }
 
 /** A base or gate connection (a MOS gate carries no current, a JFET gate only its junctions' leakage; a base current is a side load, not the branch's current). */

@@ -20,7 +20,7 @@ export function judgeDiode(el: Diode, rec: DiodeRecord, ctx: JudgeContext, memor
   const bv = breakdownVolts(el);
   if (!ctx.isOff([rec.id], Math.abs(rec.vd))) return;
   // A diode with a breakdown voltage is often meant to sit reversed (a zener reference); its breakdown is judged above.
-  if (bv !== undefined || ctx.structureMembers.has(el.name.toLowerCase())) return;
+  if (bv !== undefined || ctx.inStructure(el.name)) return;
   const [anode, cathode] = el.nodes;
   judgeBlockedBranch(
     ctx,

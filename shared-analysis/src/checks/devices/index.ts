@@ -94,21 +94,28 @@ export function judgeEachDevice(ctx: DeviceCheckContext, only?: (element: number
   if (!op.converged || !isPowered(circuit)) return undefined;
   const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES);
   const memory: JudgeMemory = { branches: new Set() };
-  const each: (Finding[] | undefined)[] = new Array(circuit.elements.length);
-  circuit.elements.forEach((el, i) => {
+  const elements = circuit.elements;
+  const each: (Finding[] | undefined)[] = new Array(elements.length);
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i];
     const judge = DEVICE_JUDGES[el.kind];
-    if (!judge || (only && !only(i))) return;
-    const rec = judges.record(el.name);
-    if (!rec) return;
+    if (!judge || (only && !only(i))) continue;
     const from = judges.findings.length;
     try {
-      judge.judge?.(el, rec, judges, memory);
-      judgePower(el, rec, judges);
+      if (judge.judge) {
+        const rec = judges.recordAt(i);
+        if (!rec) continue;
+        judge.judge(el, rec, judges, memory);
+        judgePower(el, dissipation(rec), judges);
+      } else {
+        // A kind judged for its power alone (a resistor): its record is not built, only its power read.
+        judgePower(el, judges.powerAt(i), judges);
+      }
     } catch {
       // One device's defect must not take the others (or the editor) down.
     }
     if (judges.findings.length > from) each[i] = judges.findings.slice(from);
-  });
+  }
   return each;
 }
 
@@ -119,9 +126,8 @@ export function limitDeviceFlood(each: readonly (Finding[] | undefined)[]): Find
   return limitFlood(all);
 }
 
-/** `power-over-rating` when an element dissipates more than its limit. */
-function judgePower(el: Element, rec: DeviceRecord, ctx: JudgeContext): void {
-  const p = dissipation(rec);
+/** `power-over-rating` when an element dissipates more than its limit (`p`, watts: its `dissipation`). */
+function judgePower(el: Element, p: number | undefined, ctx: JudgeContext): void {
   const limit = powerLimit(el, ctx.options);
   if (p === undefined || !limit || !(p > limit.watts)) return;
   const whence =

@@ -150,7 +150,7 @@ export function judgeMosfet(el: Mosfet, rec: MosRecord, ctx: JudgeContext, memor
 
 /** Off-device branch checks apply to devices outside recognised structures whose control is not held at a rail on purpose. */
 function blockedBranchApplies(ctx: JudgeContext, t: Transistor): boolean {
-  if (ctx.structureMembers.has(t.name.toLowerCase())) return false;
+  if (ctx.inStructure(t.name)) return false;
   // A base or gate held by a source is switched off on purpose (a logic level, a disabled cell).
   return !ctx.rail(t.ctrl);
 }
@@ -174,7 +174,7 @@ function roleText(ctx: JudgeContext, t: Transistor, role: TransistorRole): strin
 function judgeCurrentSource(ctx: JudgeContext, el: Bjt | Mosfet, t: Transistor, regionWord: string, detail: string, data: Record<string, unknown>): void {
   // A recognised structure's devices are judged by its own checks, which know where its design puts each one
   // (the improved Wilson's input device sits at VBC ≈ 0 on purpose).
-  if (ctx.structureMembers.has(el.name.toLowerCase())) return;
+  if (ctx.inStructure(el.name)) return;
   const role = ctx.role(t);
   if (role !== 'current-source' && role !== 'cascode') return;
   const outWord = t.element.kind === 'Q' ? 'collector' : 'drain';

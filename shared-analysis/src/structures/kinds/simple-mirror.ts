@@ -147,9 +147,10 @@ const NO_WIDLAR: Readonly<Record<string, number>> = Object.freeze(nameTable<numb
  * for at every trial current of the IREF solve): VBE at IC1 = IREF/(1 + (1 + Σm)/β), or VGS at IREF.
  */
 export function diodeMirrorStack(h: Hand, iref: number): number | undefined {
-  if (h.s.outputs.some((o) => o.degeneration)) return undefined;
+  // Σm of the outputs, or NaN when one is degenerated (no closed form): worked out once per structure.
   let sum = h.memo.get('sumM');
-  if (sum === undefined) h.memo.set('sumM', (sum = h.s.outputs.reduce((a, o) => a + o.ratio, 0)));
+  if (sum === undefined) h.memo.set('sumM', (sum = h.s.outputs.some((o) => o.degeneration) ? NaN : h.s.outputs.reduce((a, o) => a + o.ratio, 0)));
+  if (Number.isNaN(sum)) return undefined;
   const ref = h.dev(h.s.reference.device);
   if (h.bipolar) return h.vbe(ref, iref / (1 + (1 + sum) / ref.beta));
   return h.vgs(ref, iref, h.vsbBase(ref));
