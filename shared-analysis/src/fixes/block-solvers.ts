@@ -131,7 +131,7 @@ function renamedPoint(op: OperatingPoint, first: Circuit, block: Circuit, blockN
     for (const [name, record] of deviceEntries()) devices[name] = record;
     return { nodes, devices };
   };
-  const renamed = lazyPoint(op, { volts: v.volts, record: v.record, type: v.type, value: v.value, region: v.region, nodeEntries, deviceEntries }, build);
+  const renamed = lazyPoint(op, { volts: v.volts, record: v.record, type: v.type, value: v.value, quantity: v.quantity, region: v.region, nodeEntries, deviceEntries }, build);
   if (op.tiedNodes) renamed.tiedNodes = op.tiedNodes.map((name) => block.nodes[first.nodes.indexOf(name)] ?? name);
   return renamed;
 }

@@ -865,6 +865,13 @@ export class DcSolver {
       const q: unknown = this.quantityColumns[t][quantity];
       return typeof q === 'number' ? quietClamp(columns[t].values[q][deviceOrder.instance[d]]) : undefined;
     };
+    const quantity = (e: number, q: number): number | undefined => {
+      const k = e >= 0 && e < slot.length ? slot[e] : -1;
+      if (k > -2) return undefined;
+      const d = -k - 2;
+      const column = columns[deviceOrder.table[d]].values[q];
+      return column === undefined ? undefined : quietClamp(column[deviceOrder.instance[d]]);
+    };
     // A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements).
     const typeOf = (e: number): DeviceRecord['type'] | undefined => {
       const k = slot[e];
@@ -899,7 +906,7 @@ export class DcSolver {
       for (let k = 0; k < readers.length; k++) yield [c.elements[readers[k].element].name, twoTerminal(k, quietClamp)];
       for (let d = 0; d < deviceOrder.element.length; d++) yield [c.elements[deviceOrder.element[d]].name, device(d, quietClamp)];
     }
-    const op = lazyPoint(head, { volts, record, type, value, region, nodeEntries, deviceEntries }, build);
+    const op = lazyPoint(head, { volts, record, type, value, quantity, region, nodeEntries, deviceEntries }, build);
     if (overflow) {
       for (let i = 1; i < c.nodes.length; i++) if (!inRange(x[i - 1])) overflowed.push(`node ${c.nodes[i]}`);
       void op.devices;

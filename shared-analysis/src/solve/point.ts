@@ -21,6 +21,12 @@ export interface PointVectors {
    * undefined when the element has no such number.
    */
   value(e: number, quantity: string): number | undefined;
+  /**
+   * Quantity `q` of element `e`'s device kind by its position in the kind's `quantities`: what
+   * `value(e, kind.quantities[q])` gives, without the look-up by name (for a reader of many points that
+   * resolved its names once); undefined for an element without a device record or a position past its kind's.
+   */
+  quantity(e: number, q: number): number | undefined;
   /** The region name of a nonlinear device's record, undefined for other elements. */
   region(e: number): string | undefined;
   /**

@@ -7,6 +7,11 @@ import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } f
 import type { Structure } from './types';
 import { nameTable } from '../names';
 import { pointVectors } from '../solve/point';
+import { BJT } from '../devices/bjt';
+import { DIODE } from '../devices/diode';
+import { JFET } from '../devices/jfet';
+import { MOSFET } from '../devices/mosfet';
+import type { DeviceKind } from '../devices/device';
 
 /** What `measureStructure` returns: magnitudes in A, headroom in V (negative when out of region). */
 export interface Measurement {
@@ -225,6 +230,28 @@ export interface OutputSink {
   stride: number;
 }
 
+/** The record types a measurement reads quantities of, with the device kind whose columns hold them. */
+const KIND_OF_RECORD: Readonly<Partial<Record<DeviceRecord['type'], DeviceKind>>> = { bjt: BJT, mosfet: MOSFET, jfet: JFET, diode: DIODE };
+
+/** The position of quantity `name` in `kind`'s columns (`PointIndexReader.quantity` reads by it). */
+function positionOf(kind: DeviceKind, name: string): number {
+  const q = kind.quantities.indexOf(name);
+  if (q < 0) throw new Error(`device kind ${kind.letter} has no quantity ${name}`);
+  return q;
+}
+
+// The quantities a measurement reads, resolved to their positions once (a look-up by name at every read was most of a corner's measuring).
+const BJT_IC = positionOf(BJT, 'ic');
+const BJT_IB = positionOf(BJT, 'ib');
+const BJT_IE = positionOf(BJT, 'ie');
+const MOS_ID = positionOf(MOSFET, 'id');
+const MOS_VOV = positionOf(MOSFET, 'vov');
+const JFET_ID = positionOf(JFET, 'id');
+const JFET_IG = positionOf(JFET, 'ig');
+const JFET_VGS = positionOf(JFET, 'vgs');
+const JFET_VTO = positionOf(JFET, 'vto');
+const DIODE_ID = positionOf(DIODE, 'id');
+
 /** Measures planned structure `i` of `plans` at one point: writes each output's current, headroom and region into `sink` and returns IREF. */
 export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, sink: OutputSink): number {
   let iref = 0;
@@ -234,14 +261,15 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
     const type = p.type(e);
     if (flags & DEV_BIPOLAR) {
       if (type !== 'bjt') continue;
-      if (flags & DEV_OUT) iref += finite(p.num(e, 'ic'));
-      if (flags & DEV_CTRL) iref += finite(p.num(e, 'ib'));
-      if (flags & DEV_COMMON) iref += finite(p.num(e, 'ie'));
+      if (flags & DEV_OUT) iref += finite(p.quantity(e, BJT_IC));
+      if (flags & DEV_CTRL) iref += finite(p.quantity(e, BJT_IB));
+      if (flags & DEV_COMMON) iref += finite(p.quantity(e, BJT_IE));
     } else {
       if (type !== plans.devRecord[d]) continue;
-      const id = finite(p.num(e, 'id'));
+      const jfet = type === 'jfet';
+      const id = finite(p.quantity(e, jfet ? JFET_ID : MOS_ID));
       // A JFET's gate draws its junctions' current (leakage when reverse-biased); a MOS gate none.
-      const ig = type === 'jfet' ? finite(p.num(e, 'ig')) : 0;
+      const ig = jfet ? finite(p.quantity(e, JFET_IG)) : 0;
       if (flags & DEV_OUT) iref += id;
       if (flags & DEV_CTRL) iref += ig;
       if (flags & DEV_COMMON) iref -= id + ig;
@@ -251,7 +279,7 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
     const e = plans.partE[q];
     const type = p.type(e);
     if (!type) continue;
-    const through = type === 'diode' ? p.num(e, 'id') : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(e, 'current');
+    const through = type === 'diode' ? p.quantity(e, DIODE_ID) : type === 'bjt' || type === 'mosfet' || type === 'jfet' ? 0 : p.num(e, 'current');
     iref += plans.partSign[q] * finite(through);
   }
   const first = plans.outStart[i];
@@ -272,7 +300,7 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
     const sign = polaritySign(t.tech);
     if (isBipolar(t.tech)) {
       const r = type === 'bjt';
-      const current = Math.abs(finite(r ? p.num(e, 'ic') : undefined));
+      const current = Math.abs(finite(r ? p.quantity(e, BJT_IC) : undefined));
       const headroom = sign * (vOut - vCtrl);
       const vbe = sign * (vCtrl - vCommon);
       const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
@@ -283,14 +311,15 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
       // Field-effect output: headroom VDS − (VGS − VTH), the pinch-off voltage VP standing for VTH in a JFET (own polarity).
       const facts = TECHNOLOGIES[t.tech];
       const r = type === facts.record;
-      const current = Math.abs(finite(r ? p.num(e, 'id') : undefined));
+      const jfet = facts.family === 'jfet';
+      const current = Math.abs(finite(r ? p.quantity(e, jfet ? JFET_ID : MOS_ID) : undefined));
       const vds = sign * (vOut - vCommon);
       const vgs = sign * (vCtrl - vCommon);
       const vov = !r
-        ? vgs - (facts.family === 'jfet' ? finite(t.element.model.params.VTO) : sign * finite(t.element.model.params.VTO))
-        : facts.family === 'jfet'
-          ? sign * finite(p.num(e, 'vgs')) - finite(p.num(e, 'vto'))
-          : finite(p.num(e, 'vov'));
+        ? vgs - (jfet ? finite(t.element.model.params.VTO) : sign * finite(t.element.model.params.VTO))
+        : jfet
+          ? sign * finite(p.quantity(e, JFET_VGS)) - finite(p.quantity(e, JFET_VTO))
+          : finite(p.quantity(e, MOS_VOV));
       const headroom = vds - vov;
       const active = r ? p.region(e) === facts.activeRegion : vov > 0 && vds >= vov;
       sink.current[at] = current;
@@ -307,6 +336,8 @@ export interface PointIndexReader {
   /** The record type of an element, undefined when it has none. */
   type(e: number): DeviceRecord['type'] | undefined;
   num(e: number, quantity: string): number | undefined;
+  /** Quantity `q` of a device record by its position in its kind's `quantities` (as `PointVectors.quantity`). */
+  quantity(e: number, q: number): number | undefined;
   region(e: number): string | undefined;
 }
 
@@ -321,16 +352,22 @@ export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
   if (vec) {
     const volts = vec.volts;
     // The vectors' own readers (closures over the solver's arrays), not a wrapper around each: one call less per read.
-    return { volts: (node) => (node >= 0 ? volts[node] : undefined), type: vec.type, num: vec.value, region: vec.region };
+    return { volts: (node) => (node >= 0 ? volts[node] : undefined), type: vec.type, num: vec.value, quantity: vec.quantity, region: vec.region };
   }
   const devices = op.devices;
   const rec = (e: number) => (elements[e] ? devices[elements[e].name] : undefined);
+  const num = (e: number, q: string): number | undefined => {
+    const val = (rec(e) as unknown as Record<string, unknown> | undefined)?.[q];
+    return typeof val === 'number' ? val : undefined;
+  };
   return {
     volts: (node) => op.nodes[topo.nodeName(node)],
     type: (e) => rec(e)?.type,
-    num: (e, q) => {
-      const val = (rec(e) as unknown as Record<string, unknown> | undefined)?.[q];
-      return typeof val === 'number' ? val : undefined;
+    num,
+    quantity: (e, q) => {
+      const type = rec(e)?.type;
+      const name = type ? KIND_OF_RECORD[type]?.quantities[q] : undefined;
+      return name === undefined ? undefined : num(e, name);
     },
     region: (e) => {
       const r = rec(e);

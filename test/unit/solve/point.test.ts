@@ -2,6 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { deviceKindOf } from '../../../shared-analysis/src/devices/registry';
 import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
 import { flattenPlans, measurePlanned, measureStructure, planMeasurement, readerOf } from '../../../shared-analysis/src/structures/measure';
@@ -51,9 +52,15 @@ describe('operating point vectors', () => {
     c.elements.forEach((el, e) => {
       expect(v.record(e)).toEqual(op.devices[el.name]);
       const rec = op.devices[el.name] as unknown as Record<string, unknown>;
+      // A device kind's quantities read by position in its columns too (what a measurement resolved once).
+      const kind = deviceKindOf(el.kind);
       for (const [k, val] of Object.entries(rec)) {
-        if (typeof val === 'number') expect(v.value(e, k)).toBe(val);
+        if (typeof val !== 'number') continue;
+        expect(v.value(e, k)).toBe(val);
+        if (kind) expect(v.quantity(e, kind.quantities.indexOf(k)), `${el.name} ${k}`).toBe(val);
       }
+      if (!kind) expect(v.quantity(e, 0)).toBeUndefined();
+      expect(v.quantity(e, 99)).toBeUndefined();
       expect(v.region(e)).toBe('region' in rec ? rec.region : undefined);
       expect(v.type(e)).toBe(rec['type']);
       // Names every object inherits are no quantity of any record.
