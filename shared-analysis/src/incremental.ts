@@ -13,6 +13,7 @@ import type { Card, ParsedDocument, SyntaxError } from './syntax/ast';
 import { parseElementLine } from './syntax/parser';
 import { movedCard } from './syntax/moved-card';
 import { PartStarts, resistancesOf, type PartCircuit } from './solve/part-starts';
+import { patchedElaboration, type EditRegion, type KeptElaboration, type PatchedElaboration } from './incremental-elaborate';
 
 /**
  * An unknown counts as moved when it differs from the value its structures were analysed at by more than
@@ -64,7 +65,10 @@ export interface IncrementalState {
   /** Per corner label, the last converged solution of that corner on this state or one it came from by value edits (see `cornerStarts`). */
   corners?: Map<string, CornerSolution>;
   /** The parse of `text`, for the next analysis to read again only the card an edit changed (see `reparsedDocument`). Never written. */
-  document?: ParsedDocument;  /** The device judgements of this analysis element by element, before the flood limit (`judgeEachDevice`); undefined when nothing was judged. */
+  document?: ParsedDocument;
+  /** What the elaboration of `text` left for the next one to patch (see `patchedElaboration`). */
+  elaboration?: KeptElaboration;
+  /** The device judgements of this analysis element by element, before the flood limit (`judgeEachDevice`); undefined when nothing was judged. */
   devices?: (Finding[] | undefined)[];
 }
 
@@ -182,19 +186,19 @@ function indexCircuit(circuit: Circuit): CircuitIndex {
   return { elementOf, start, incident, rail, parts: circuitParts(circuit, rail) };
 }
 
-/** The text that an edit replaced: `[start, oldEnd)` of the old text became `[start, start + oldEnd − start + delta)`. */
-interface EditRegion {
-  start: number;
-  oldEnd: number;
-  delta: number;
-}
+/** Characters compared at once by `editRegion` (native string equality) before the last stretch is compared one by one. */
+const COMPARED_AT_ONCE = 2048;
 
+/** The text that an edit replaced: `[start, oldEnd)` of the old text became `[start, oldEnd + delta)` of the new one. */
 function editRegion(before: string, after: string): EditRegion {
   const most = Math.min(before.length, after.length);
   let p = 0;
+  while (p + COMPARED_AT_ONCE <= most && before.substring(p, p + COMPARED_AT_ONCE) === after.substring(p, p + COMPARED_AT_ONCE)) p += COMPARED_AT_ONCE;
   while (p < most && before.charCodeAt(p) === after.charCodeAt(p)) p++;
   let s = 0;
-  while (s < most - p && before.charCodeAt(before.length - 1 - s) === after.charCodeAt(after.length - 1 - s)) s++;
+  const room = most - p;
+  while (s + COMPARED_AT_ONCE <= room && before.substring(before.length - s - COMPARED_AT_ONCE, before.length - s) === after.substring(after.length - s - COMPARED_AT_ONCE, after.length - s)) s += COMPARED_AT_ONCE;
+  while (s < room && before.charCodeAt(before.length - 1 - s) === after.charCodeAt(after.length - 1 - s)) s++;
   return { start: p, oldEnd: before.length - s, delta: after.length - before.length };
 }
 
@@ -246,7 +250,28 @@ export function reparsedDocument(previous: ParsedDocument, text: string): Parsed
   cards.push(reread);
   for (let j = k + 1; j < previous.cards.length; j++) cards.push(r.delta === 0 ? previous.cards[j]! : movedCard(previous.cards[j]!, r.delta));
   const moved = (e: SyntaxError): SyntaxError => (e.span.start > card.span.end && r.delta !== 0 ? { ...e, span: { start: e.span.start + r.delta, end: e.span.end + r.delta } } : e);
-  return { uri: previous.uri, text, cards, errors: previous.errors.map(moved) };
+  const document: ParsedDocument = { uri: previous.uri, text, cards, errors: previous.errors.map(moved) };
+  rereads.set(document, { from: previous, card: k, region: r });
+  return document;
+}
+
+/** For each parse `reparsedDocument` made: the parse it was made from, which card it read again, and the edit. */
+const rereads = new WeakMap<ParsedDocument, { from: ParsedDocument; card: number; region: EditRegion }>();
+
+/** The edit from `from` to `document` when `reparsedDocument` made the one from the other. */
+function rereadFrom(from: ParsedDocument | undefined, document: ParsedDocument | undefined): { card: number; region: EditRegion } | undefined {
+  const edit = document ? rereads.get(document) : undefined;
+  return edit && from && edit.from === from ? edit : undefined;
+}
+
+/**
+ * The elaboration of `document` patched from `state`'s (see `patchedElaboration`) when `document` is the parse
+ * `reparsedDocument` made of an edit to `state`'s text; undefined when it must be elaborated afresh.
+ */
+export function patchedElaborationOf(state: IncrementalState, document: ParsedDocument, settings: string): PatchedElaboration | undefined {
+  const edit = rereadFrom(state.document, document);
+  if (!edit || !state.document || !state.elaboration || state.document.text !== state.text) return undefined;
+  return patchedElaboration({ circuit: state.circuit, document: state.document, kept: state.elaboration }, document, edit, settings);
 }
 
 /** A span of the old text moved to the new one, or undefined when it touches the edited text. */
@@ -364,14 +389,15 @@ export class ValueEdit {
   }
 
   /** The value edit from `previous` to this analysis, with the solver moved to the new values; undefined when the analysis must start afresh. */
-  static of(previous: IncrementalState, uri: string, text: string, elab: ElaborationResult, options: ResolvedOptions): ValueEdit | undefined {
+  static of(previous: IncrementalState, uri: string, text: string, elab: ElaborationResult, options: ResolvedOptions, patched?: PatchedElaboration): ValueEdit | undefined {
     const docs = Object.keys(elab.documents);
     if (previous.uri !== uri || docs.length !== 1 || docs[0] !== uri || previous.optionsKey !== optionsKey(options)) return undefined;
     if (!options.solve || options.corners.enabled || elab.circuit.elements.length === 0) return undefined;
-    const changed = valueChanges(previous.circuit, elab.circuit);
+    // A patched elaboration knows which element it changed; anything else is compared element by element.
+    const changed = patched?.result === elab ? patched.changed : valueChanges(previous.circuit, elab.circuit);
     if (!changed || copiedByRecognition(previous, changed) || !previous.solver.adoptValues(elab.circuit, changed)) return undefined;
     previous.adopted = { circuit: elab.circuit, changed };
-    return new ValueEdit(previous, elab.circuit, changed, editRegion(previous.text, text));
+    return new ValueEdit(previous, elab.circuit, changed, rereadFrom(previous.document, elab.documents[uri])?.region ?? editRegion(previous.text, text));
   }
 
   get solver(): DcSolver {
@@ -644,9 +670,9 @@ export class IncrementalKeeper {
   state(
     input: { uri: string; text: string },
     options: ResolvedOptions,
-    analysed: { circuit: Circuit; solver: DcSolver; nominal: DcSolveResult; structures: Structure[]; unknowns: string; connectivity: Finding[]; document: ParsedDocument; devices?: (Finding[] | undefined)[] },
+    analysed: { circuit: Circuit; solver: DcSolver; nominal: DcSolveResult; structures: Structure[]; unknowns: string; connectivity: Finding[]; document: ParsedDocument; elaboration?: KeptElaboration; devices?: (Finding[] | undefined)[] },
   ): IncrementalState | undefined {
-    const { circuit, solver, nominal, structures, unknowns, connectivity, document, devices } = analysed;
+    const { circuit, solver, nominal, structures, unknowns, connectivity, document, elaboration, devices } = analysed;
     if (!nominal.op.converged || !options.solve || options.corners.enabled) return undefined;
     const previous = this.edit?.previous;
     if (previous) previous.adopted = undefined;
@@ -671,6 +697,7 @@ export class IncrementalKeeper {
       unknowns,
       connectivity,
       document,
+      ...(elaboration ? { elaboration } : {}),
       ...(devices ? { devices } : {}),
       ...(previous?.corners ? { corners: previous.corners } : {}),
     };

@@ -32,7 +32,8 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { cornerStarts, IncrementalKeeper, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
+import { cornerStarts, IncrementalKeeper, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
+import { elaborationSettings, keptElaboration } from './incremental-elaborate';
 
 declare const performance: { now(): number };
 
@@ -118,14 +119,20 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
 
   // A file whose first line is a definition card is a model or library file opened on its own: it has no title.
   // After an edit inside one element card only that card is read again (`reparsedDocument`).
-  const previousDocument = control.previous?.uri === input.uri ? control.previous.document : undefined;
-  const root = timed('parse', () => (previousDocument && reparsedDocument(previousDocument, input.text)) || parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
-  const elab = timed('elaborate', () => elaborate(root, workspace, { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders, maxElements: options.maxElements }));
+  const previous = control.previous?.uri === input.uri ? control.previous : undefined;
+  const reread = previous?.document ? timed('parse', () => reparsedDocument(previous.document!, input.text)) : undefined;
+  const root = reread ?? timed('parse', () => parse(input.uri, input.text, { hasTitle: !startsWithDefinitionCard(input.text) }));
+  // After an edit of one resistor's number only that element changes (`patchedElaboration`).
+  const settings = { temperatureC: resolved.temperatureC, includeFolders: options.includeFolders, maxElements: options.maxElements };
+  const patched = previous && reread ? timed('elaborate', () => patchedElaborationOf(previous, reread, elaborationSettings(settings))) : undefined;
+  const elab = patched?.result ?? timed('elaborate', () => elaborate(root, workspace, settings));
+  // What the next edit's patch starts from, taken before the analysis attaches fixes to the findings.
+  const keptElab = control.keepIncremental ? (patched?.kept ?? keptElaboration(elab, elaborationSettings(settings))) : undefined;
   // Text in an `.if` branch no instance takes does not exist for the analysis: its syntax problems are not reported.
   const findings: Finding[] = [...withoutInactive(syntaxFindings(elab.documents), elab.inactive), ...elab.findings];
   const circuit = elab.circuit;
   // A value edit keeps the structures recognition found (recognition reads a resistor only as positive and finite, which such an edit keeps).
-  const edit = control.previous ? timed('structures', () => ValueEdit.of(control.previous!, input.uri, input.text, elab, resolved)) : undefined;
+  const edit = control.previous ? timed('structures', () => ValueEdit.of(control.previous!, input.uri, input.text, elab, resolved, patched)) : undefined;
   const connectivity = timed('connectivity', () => edit?.keptConnectivity() ?? checkConnectivity(circuit));
   // Copies into the analysis: fixes are attached to its findings and spans clamped in place, and the kept ones stay as the check made them.
   pushAll(findings, connectivity.map((f) => ({ ...f })));
@@ -239,7 +246,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
   const dc: DcSolver | undefined = solver;
   const incremental =
     keeper && converged && dc && !notFinite && (edit !== undefined || !hasSelfBiasedLoop(circuit, structures))
-      ? keeper.state(input, resolved, { circuit, solver: dc, nominal: converged, structures, unknowns: (fingerprint ??= unknownsFingerprint(circuit)), connectivity, document: root, devices })
+      ? keeper.state(input, resolved, { circuit, solver: dc, nominal: converged, structures, unknowns: (fingerprint ??= unknownsFingerprint(circuit)), connectivity, document: root, elaboration: keptElab, devices })
       : undefined;
   return { analysis, solver, nominal: converged, ...(variationDetail && converged ? { variation: variationDetail } : {}), ...(warmStart ? { warmStart } : {}), ...(incremental ? { incremental } : {}) };
 }
