@@ -5,7 +5,8 @@ import type { Circuit, Element, Model } from './circuit';
 import type { ElaborationResult } from './elaborate/index';
 import type { DcSolver, DcSolveResult } from './solve/dc';
 import type { CornerContext } from './checks/corners';
-import { railsByIndex } from './structures/rails';
+import { followRails, railsByIndex } from './structures/rails';
+import { followTopology } from './structures/topology';
 import type { Structure } from './structures/types';
 import type { Finding, Span } from './types';
 import { nameTable } from './names';
@@ -397,6 +398,9 @@ export class ValueEdit {
     const changed = patched?.result === elab ? patched.changed : valueChanges(previous.circuit, elab.circuit);
     if (!changed || copiedByRecognition(previous, changed) || !previous.solver.adoptValues(elab.circuit, changed)) return undefined;
     previous.adopted = { circuit: elab.circuit, changed };
+    // Only resistances changed: the topology's incidence and name tables and the rails are the last circuit's.
+    followTopology(previous.circuit, elab.circuit);
+    followRails(previous.circuit, elab.circuit);
     return new ValueEdit(previous, elab.circuit, changed, rereadFrom(previous.document, elab.documents[uri])?.region ?? editRegion(previous.text, text));
   }
 

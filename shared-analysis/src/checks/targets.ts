@@ -346,6 +346,8 @@ function annotationIn(text: string, bodyStart: number, bodyEnd: number): Annotat
 /** End-of-line comments of an element card: each `;` or `$ ` outside the card's tokens, to the end of its line. */
 export function endOfLineComments(text: string, card: ElementCard): { start: number; end: number }[] {
   const out: { start: number; end: number }[] = [];
+  // Most cards hold neither mark: one pass over the card's text before the tokens are sorted.
+  if (!hasCommentMark(text, card.span.start, card.span.end)) return out;
   const tokens = [...card.tokens].sort((a, b) => a.span.start - b.span.start);
   let t = 0;
   for (let p = card.span.start; p < card.span.end; p++) {
@@ -363,6 +365,15 @@ export function endOfLineComments(text: string, card: ElementCard): { start: num
     p = end;
   }
   return out;
+}
+
+/** Whether `text` holds a `;` or a `$` in `[from, to)`. */
+function hasCommentMark(text: string, from: number, to: number): boolean {
+  for (let p = from; p < to; p++) {
+    const c = text.charCodeAt(p);
+    if (c === 59 || c === 36) return true;
+  }
+  return false;
 }
 
 /**

@@ -55,6 +55,12 @@ export function railsByIndex(circuit: Circuit, rails?: Rail[]): Map<number, Rail
   return m;
 }
 
+/** Gives `next` the rails of `previous` when they are known, for a circuit whose sources, inductors and nodes are `previous`'s (a value edit's: `ValueEdit`). */
+export function followRails(previous: Circuit, next: Circuit): void {
+  const m = cache.get(previous);
+  if (m && !cache.has(next)) cache.set(next, m);
+}
+
 function indexRails(circuit: Circuit, rails: Rail[]): Map<number, Rail> {
   const index = new Map<string, number>();
   circuit.nodes.forEach((n, i) => index.set(n, i));

@@ -68,6 +68,28 @@ export function topologyOf(circuit: Circuit): Topology {
   return t;
 }
 
+/**
+ * Makes `next`'s topology from `previous`'s, when `previous`'s is built, for a circuit that differs from it only in
+ * values that are no part of a topology (resistances, places in the text): the same nodes and, element by element,
+ * the same name, kind, nodes, model kind and geometry. The incidence and the name tables are shared; the transistor
+ * views are made again for `next`'s elements (a value edit's circuit: `ValueEdit`).
+ */
+export function followTopology(previous: Circuit, next: Circuit): void {
+  const t = cache.get(previous);
+  if (t && !cache.has(next)) cache.set(next, new Topology(next, t));
+}
+
+/** What a topology shares with one that follows it: everything indexed by position, nothing holding an element. */
+interface SharedIndex {
+  rowStart: Int32Array;
+  rowElement: Int32Array;
+  rowSlot: Uint8Array;
+  nodeIndex: Map<string, number>;
+  elementIndex: Map<string, number>;
+  /** Per transistor, its element's index in `circuit.elements`. */
+  transistorElement: Int32Array;
+}
+
 /** Node-to-element incidence and the transistor views of one circuit. */
 export class Topology {
   readonly transistors: Transistor[] = [];
@@ -89,28 +111,72 @@ export class Topology {
   private readonly strayAttached = new Map<number, Attachment[]>();
   /** `conducting` results by node; callers must not mutate the returned lists. */
   private readonly conductingCache = new Map<number, Attachment[]>();
-  readonly nodeIndex = new Map<string, number>();
-  readonly elementByName = new Map<string, Element>();
+  readonly nodeIndex: Map<string, number>;
+  /** Element name -> element (the last of that name), read through `elementIndex`. */
+  readonly elementByName: { get(name: string): Element | undefined; has(name: string): boolean } = {
+    get: (name) => {
+      const k = this.elementIndex.get(name);
+      return k === undefined ? undefined : this.circuit.elements[k];
+    },
+    has: (name) => this.elementIndex.has(name),
+  };
   /** Element name -> index in `circuit.elements` (the last element of that name, as `elementByName`), for reading a solved point by index. */
-  readonly elementIndex = new Map<string, number>();
+  readonly elementIndex: Map<string, number>;
+  private readonly transistorElement: Int32Array;
 
-  constructor(readonly circuit: Circuit) {
+  /** `from`: the topology of a circuit this one differs from only in values (see `followTopology`). */
+  constructor(
+    readonly circuit: Circuit,
+    from?: Topology,
+  ) {
     const nodeCount = circuit.nodes.length;
-    for (let i = 0; i < nodeCount; i++) {
-      this.nodeIndex.set(circuit.nodes[i], i);
-      this.atLists.push(undefined);
+    for (let i = 0; i < nodeCount; i++) this.atLists.push(undefined);
+    const shared = from && from.strayAttached.size === 0 ? from.index() : this.build();
+    this.rowStart = shared.rowStart;
+    this.rowElement = shared.rowElement;
+    this.rowSlot = shared.rowSlot;
+    this.nodeIndex = shared.nodeIndex;
+    this.elementIndex = shared.elementIndex;
+    this.transistorElement = shared.transistorElement;
+    if (from && from.strayAttached.size === 0) this.follow(from);
+  }
+
+  private index(): SharedIndex {
+    const { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement } = this;
+    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement };
+  }
+
+  /** The transistor views and the name table made again for this circuit's elements, the rest shared with `from`. */
+  private follow(from: Topology): void {
+    const elements = this.circuit.elements;
+    for (let i = 0; i < from.transistors.length; i++) {
+      const old = from.transistors[i];
+      const t: Transistor = { ...old, element: elements[this.transistorElement[i]] as Transistor['element'] };
+      this.transistors.push(t);
+      this.byName.set(t.name, t);
+      push(this.byCtrl, t.ctrl, t);
+      push(this.byCommon, t.common, t);
     }
+  }
+
+  private build(): SharedIndex {
+    const circuit = this.circuit;
+    const nodeCount = circuit.nodes.length;
+    const nodeIndex = new Map<string, number>();
+    const elementIndex = new Map<string, number>();
+    const transistorElement: number[] = [];
+    for (let i = 0; i < nodeCount; i++) nodeIndex.set(circuit.nodes[i], i);
     const elements = circuit.elements;
-    this.rowStart = new Int32Array(nodeCount + 1);
+    const rowStart = new Int32Array(nodeCount + 1);
+    const isNode = (n: number) => Number.isInteger(n) && n >= 0 && n < nodeCount;
     let connections = 0;
     for (let k = 0; k < elements.length; k++) {
       const e = elements[k];
-      this.elementIndex.set(e.name, k);
-      this.elementByName.set(e.name, e);
+      elementIndex.set(e.name, k);
       for (let s = 0; s < incidentSlots(e); s++) {
         const n = e.nodes[s];
-        if (this.isNode(n)) {
-          this.rowStart[n + 1]++;
+        if (isNode(n)) {
+          rowStart[n + 1]++;
           connections++;
         } else push(this.strayAttached, n, { element: e, slot: s });
       }
@@ -119,24 +185,26 @@ export class Topology {
         t.index = this.transistors.length;
         t.nameIndex = this.byName.get(t.name)?.nameIndex ?? t.index;
         this.transistors.push(t);
+        transistorElement.push(k);
         this.byName.set(t.name, t);
         push(this.byCtrl, t.ctrl, t);
         push(this.byCommon, t.common, t);
       }
     }
-    for (let n = 0; n < nodeCount; n++) this.rowStart[n + 1] += this.rowStart[n];
-    this.rowElement = new Int32Array(connections);
-    this.rowSlot = new Uint8Array(connections);
-    const next = this.rowStart.slice(0, nodeCount);
+    for (let n = 0; n < nodeCount; n++) rowStart[n + 1] += rowStart[n];
+    const rowElement = new Int32Array(connections);
+    const rowSlot = new Uint8Array(connections);
+    const next = rowStart.slice(0, nodeCount);
     for (let k = 0; k < elements.length; k++) {
       const e = elements[k];
       for (let s = 0; s < incidentSlots(e); s++) {
         const n = e.nodes[s];
-        if (!this.isNode(n)) continue;
-        this.rowElement[next[n]] = k;
-        this.rowSlot[next[n]++] = s;
+        if (!isNode(n)) continue;
+        rowElement[next[n]] = k;
+        rowSlot[next[n]++] = s;
       }
     }
+    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement: Int32Array.from(transistorElement) };
   }
 
   /** Whether `n` is an index into `circuit.nodes`. */

@@ -48,4 +48,31 @@ describe('topology', () => {
       expect(topo.at(-1)).toEqual([]);
     }
   });
+
+  it('follows a circuit that differs only in resistances and element objects: the same views as one built afresh, holding the new elements (seeded)', () => {
+    for (let seed = 1; seed <= 20; seed++) {
+      const before = tangle(seed);
+      // The value edit's circuit: every element a new object, resistors with new values.
+      const after: Circuit = { ...before, elements: before.elements.map((e) => (e.kind === 'R' ? { ...e, resistance: e.resistance * 2 } : { ...e })) };
+      const followed = new Topology(after, new Topology(before));
+      const fresh = new Topology(after);
+      const view = (t: Topology) => ({
+        transistors: t.transistors,
+        byName: [...t.byName],
+        byCtrl: [...t.byCtrl],
+        byCommon: [...t.byCommon],
+        at: after.nodes.map((_, n) => t.at(n)),
+        conducting: after.nodes.map((_, n) => t.conducting(n)),
+        nodeIndex: [...t.nodeIndex],
+        elementIndex: [...t.elementIndex],
+      });
+      expect(view(followed)).toEqual(view(fresh));
+      // Every element object reached is the new circuit's (toEqual above cannot tell copies apart).
+      const mine = new Set(after.elements);
+      for (const x of followed.transistors) expect(mine.has(x.element)).toBe(true);
+      for (let n = 0; n < after.nodes.length; n++) for (const a of followed.at(n)) expect(mine.has(a.element)).toBe(true);
+      for (const e of after.elements) expect(followed.elementByName.get(e.name)).toBe(fresh.elementByName.get(e.name));
+      expect(followed.elementByName.get('no such element')).toBeUndefined();
+    }
+  });
 });
