@@ -75,9 +75,10 @@ export function patchedElaboration(
   const el = e === undefined ? undefined : circuit.elements[e];
   if (!el || el.kind !== 'R' || !Object.is(el.resistance, oldValue / (el.m ?? 1))) return undefined;
   const mover = new OffsetMover(edit.region);
-  const models = mover.models(circuit.models);
+  // An edit that kept the length moves nothing: every other element and model is another card's, and stays as it is.
+  const models = edit.region.delta === 0 ? { table: circuit.models, moved: new Map<Model, Model>() } : mover.models(circuit.models);
   if (!models) return undefined;
-  const elements = mover.elements(circuit.elements, models.moved, e!);
+  const elements = edit.region.delta === 0 ? circuit.elements.slice() : mover.elements(circuit.elements, models.moved, e!);
   const findings = mover.findings(kept.findings);
   const symbols = mover.symbols(kept.symbols);
   const inactive = mover.locations(kept.inactive);
