@@ -17,8 +17,8 @@ import { capitalised, kindName } from '../../shared-analysis/src/structures/cata
 import { derivedVoltageLines, outputWords, startupLine } from '../../shared-analysis/src/features/structure-words';
 import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy } from './read-policy';
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
-import { escapeControls, escapedJsonBytes } from './escape';
-import { JsonEntries, JsonItems, JsonText, writeJson } from './json-stream';
+import { escapeControls, escapedJsonChunk } from './escape';
+import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from './json-stream';
 import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
@@ -1126,7 +1126,7 @@ function jsonIndent(opts: CliOptions): number {
  * `--indented`, control characters escaped.
  */
 function writeDocument(doc: unknown, opts: CliOptions, write: Sink): void {
-  writeJson(doc, (text) => write(escapedJsonBytes(text)), { indent: jsonIndent(opts) });
+  writeJsonBytes(doc, write, { indent: jsonIndent(opts), transform: escapedJsonChunk });
   write('\n');
 }
 

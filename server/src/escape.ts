@@ -30,15 +30,15 @@ export function escapeJsonText(json: string): string {
 }
 
 /**
- * `escapeJsonText(json)` as UTF-8 bytes. The text is encoded first (as writing it would) and its
- * bytes searched for the lead bytes of the characters to escape, which the native byte search finds
- * at memory speed; only text that holds one of them goes through the escape pass. A document's text
- * is nearly all numbers, names and keys, so the pass (a regular expression over every character)
- * is skipped for almost every chunk.
+ * A chunk of JSON text's UTF-8 bytes (whole characters) with the unsafe characters escaped as
+ * `escapeJsonText` escapes them: the same bytes unless they hold one. The bytes are searched for the
+ * lead bytes of the characters to escape, which the native byte search finds at memory speed; only a
+ * chunk that holds one of them is decoded and goes through the escape pass. A document's text is
+ * nearly all numbers, names and keys, so the pass (a regular expression over every character) is
+ * skipped for almost every chunk.
  */
-export function escapedJsonBytes(json: string): Buffer {
-  const bytes = Buffer.from(json, 'utf8');
-  return mayHoldRawUnsafe(bytes) ? Buffer.from(escapeJsonText(json), 'utf8') : bytes;
+export function escapedJsonChunk(bytes: Buffer): Buffer {
+  return mayHoldRawUnsafe(bytes) ? Buffer.from(escapeJsonText(bytes.toString('utf8')), 'utf8') : bytes;
 }
 
 /**

@@ -52,8 +52,24 @@ export class JsonItems {
   }
 }
 
-/** Characters gathered before they are handed to `write`. */
+/** Characters gathered before they are handed to `write` as text. */
 const CHUNK = 1 << 16;
+
+/** Bytes gathered before they are handed to `write` as UTF-8 (`writeJsonBytes`): the first chunk's, doubled each chunk up to the last. */
+const FIRST_BYTE_CHUNK = 1 << 14;
+const BYTE_CHUNK = 1 << 20;
+
+/** Where the writer's pieces of text go: gathered into chunks, handed on by `end` at the latest. */
+interface JsonOut {
+  add(s: string): void;
+  end(): void;
+}
+
+/** Options of `writeJson` and `writeJsonBytes`. */
+interface WriteOptions {
+  indent?: number;
+  depth?: number;
+}
 
 /**
  * Writes `value` as JSON text through `write`, in pieces of about 64 K characters: the same text
@@ -64,23 +80,73 @@ const CHUNK = 1 << 16;
  * its lists. `depth` writes the value as it reads at that depth of a larger document (its inner lines
  * indented `depth` steps more), for a `JsonText` to be placed there.
  */
-export function writeJson(value: unknown, write: (s: string) => void, options: { indent?: number; transform?: (s: string) => string; depth?: number } = {}): void {
-  const step = options.indent && options.indent > 0 ? ' '.repeat(Math.min(10, options.indent)) : '';
-  const transform = options.transform ?? ((s: string) => s);
+export function writeJson(value: unknown, write: (s: string) => void, options: WriteOptions & { transform?: (s: string) => string } = {}): void {
+  writeTo(value, textChunks(write, options.transform ?? ((s: string) => s)), options);
+}
+
+/**
+ * `writeJson` as UTF-8 bytes, in chunks of about 1 MiB: each piece of text is encoded straight into the
+ * chunk (no text of the chunk is joined first, and the writer hands over a few large chunks instead of
+ * hundreds of small ones). Each chunk goes through `transform` (escaping, say: it gets whole pieces, so
+ * valid UTF-8) and is then `write`'s to keep: the next chunk is a new buffer.
+ */
+export function writeJsonBytes(value: unknown, write: (bytes: Uint8Array) => void, options: WriteOptions & { transform?: (bytes: Buffer) => Uint8Array } = {}): void {
+  writeTo(value, byteChunks(write, options.transform ?? ((b: Buffer) => b)), options);
+}
+
+function textChunks(write: (s: string) => void, transform: (s: string) => string): JsonOut {
   let parts: string[] = [];
   let size = 0;
-  const emit = (s: string): void => {
-    parts.push(s);
-    size += s.length;
-    if (size >= CHUNK) flush();
-  };
-  const flush = (): void => {
+  const end = (): void => {
     if (parts.length === 0) return;
     const text = parts.join('');
     parts = [];
     size = 0;
     write(transform(text));
   };
+  return {
+    add: (s) => {
+      parts.push(s);
+      size += s.length;
+      if (size >= CHUNK) end();
+    },
+    end,
+  };
+}
+
+function byteChunks(write: (bytes: Uint8Array) => void, transform: (bytes: Buffer) => Uint8Array): JsonOut {
+  // A small document takes a small buffer; a large one is handed over in few chunks.
+  let buf = Buffer.allocUnsafe(FIRST_BYTE_CHUNK);
+  let used = 0;
+  const end = (): void => {
+    if (used === 0) return;
+    const full = buf.subarray(0, used);
+    buf = Buffer.allocUnsafe(Math.min(BYTE_CHUNK, 2 * buf.length));
+    used = 0;
+    write(transform(full));
+  };
+  return {
+    add: (s) => {
+      // A UTF-16 unit takes at most three bytes.
+      const most = 3 * s.length;
+      if (used + most > buf.length) {
+        end();
+        if (most > BYTE_CHUNK) {
+          write(transform(Buffer.from(s, 'utf8')));
+          return;
+        }
+        if (most > buf.length) buf = Buffer.allocUnsafe(BYTE_CHUNK);
+      }
+      used += buf.write(s, used, 'utf8');
+    },
+    end,
+  };
+}
+
+/** Writes `value` into `out` (see `writeJson`). */
+function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
+  const step = options.indent && options.indent > 0 ? ' '.repeat(Math.min(10, options.indent)) : '';
+  const emit = (s: string): void => out.add(s);
   const colon = step ? ': ' : ':';
 
   /** The native writer's text of `v` at `indent`: its first line unindented, the rest indented as the document needs. */
@@ -234,7 +300,7 @@ export function writeJson(value: unknown, write: (s: string) => void, options: {
   };
 
   put(value, step.repeat(Math.max(0, options.depth ?? 0)));
-  flush();
+  out.end();
 }
 
 /**

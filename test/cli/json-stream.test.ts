@@ -1,8 +1,9 @@
-// The CLI's chunked JSON writer against the language's own JSON.stringify (ECMA-262, JSON.stringify), and the JSON document's corner summary.
+// The CLI's chunked JSON writer, as text and as UTF-8 bytes, against the language's own JSON.stringify (ECMA-262, JSON.stringify), and the JSON document's corner summary.
 
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { JsonEntries, JsonItems, JsonText, writeJson } from '../../server/src/json-stream';
+import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from '../../server/src/json-stream';
+import { escapedJsonChunk, escapeJsonText } from '../../server/src/escape';
 import { cornerKey } from '../../server/src/cli';
 
 function written(value: unknown, indent?: number): { text: string; pieces: number } {
@@ -115,6 +116,74 @@ describe('writeJson', () => {
     const { text, pieces } = written({ devices: rows }, 2);
     expect(pieces).toBeGreaterThan(20);
     expect(Object.keys(JSON.parse(text).devices)).toHaveLength(50000);
+  });
+});
+
+describe('writeJsonBytes', () => {
+  /** The chunks handed over, kept as they come (the writer must not reuse a chunk it handed over). */
+  function chunks(value: unknown, indent?: number, transform?: (b: Buffer) => Uint8Array): Buffer[] {
+    const out: Buffer[] = [];
+    writeJsonBytes(value, (b) => out.push(Buffer.from(b.buffer, b.byteOffset, b.byteLength)), { indent, transform });
+    return out;
+  }
+  const text = (value: unknown, indent?: number): string => Buffer.concat(chunks(value, indent)).toString('utf8');
+
+  it('writes the UTF-8 of the text JSON.stringify writes, compact and indented, for any JSON value', () => {
+    fc.assert(
+      fc.property(fc.jsonValue(), (v) => {
+        expect(text(v)).toBe(JSON.stringify(v));
+        expect(text(v, 2)).toBe(JSON.stringify(v, null, 2));
+      }),
+      { seed: 13, numRuns: 300 },
+    );
+  });
+
+  it('writes numbers that are not finite as JSON.stringify does (null), in lists, members, gathered entries and items', () => {
+    const odd = [NaN, Infinity, -Infinity, -0, 5e-324, 1.7976931348623157e308];
+    const plain = { list: odd, record: { a: NaN, b: -Infinity, c: 1 }, entries: Object.fromEntries(odd.map((x, i) => [`n${i}`, x])), items: odd.map((x) => ({ x })) };
+    const doc = { ...plain, entries: new JsonEntries(() => odd.map((x, i) => [`n${i}`, x] as const), true), items: new JsonItems(odd.length, (i) => ({ x: odd[i] })) };
+    for (const indent of [0, 2]) {
+      expect(text(doc, indent)).toBe(JSON.stringify(plain, null, indent));
+      expect(JSON.parse(text(doc, indent))).toEqual(JSON.parse(JSON.stringify(plain)));
+    }
+  });
+
+  it('writes deeply nested and long lists of lists as JSON.stringify does', () => {
+    let deep: unknown = [1];
+    for (let d = 0; d < 200; d++) deep = [deep, d % 2 ? [] : [d, [d / 3]]];
+    const long = Array.from({ length: 5000 }, (_, i) => (i % 3 ? [i, [i / 7, [String(i)]]] : []));
+    const doc = { deep, long, items: new JsonItems(3000, (i) => [[i], [[i * 1e-9]]]) };
+    const plain = { deep, long, items: Array.from({ length: 3000 }, (_, i) => [[i], [[i * 1e-9]]]) };
+    for (const indent of [0, 2]) expect(JSON.parse(text(doc, indent))).toEqual(JSON.parse(JSON.stringify(plain, null, indent)));
+    expect(text(doc)).toBe(JSON.stringify(plain));
+  });
+
+  it('hands over a large document in chunks of at most 1 MiB, each escaped whole, as the escaped UTF-8 of the whole text', () => {
+    // Unsafe characters (a bidirectional override, a C1 control, a line separator) and multi-byte ones kept
+    // (−, °, µ, an emoji) spread over about 6 MB, so chunk ends fall in every kind of text.
+    const odd = ['\u202e', '\u0085', '\u2028', '−40 °C', 'µA', '\ud83d\ude00', 'plain'];
+    const rows = Array.from({ length: 60000 }, (_, i) => ({ name: `Q${i}${odd[i % odd.length]}`, ic: i * 1.1e-6, tags: [odd[(i * 3) % odd.length]] }));
+    const doc = { rows: new JsonEntries(function* () {
+      for (let i = 0; i < rows.length; i++) yield [`R${i}${odd[(i * 5) % odd.length]}`, rows[i]];
+    }, true) };
+    const plain = { rows: Object.fromEntries(rows.map((r, i) => [`R${i}${odd[(i * 5) % odd.length]}`, r])) };
+    const got = chunks(doc, 0, escapedJsonChunk);
+    expect(got.length).toBeGreaterThan(3);
+    for (const c of got) expect(c.length).toBeLessThanOrEqual(1 << 20);
+    // The plain path: the whole text escaped character by character (escape.ts), then encoded.
+    expect(Buffer.concat(got).equals(Buffer.from(escapeJsonText(JSON.stringify(plain)), 'utf8'))).toBe(true);
+    expect(JSON.parse(Buffer.concat(got).toString('utf8'))).toEqual(plain);
+  });
+
+  it('hands over a string longer than a chunk in one piece, and fits pieces larger than the first chunks', () => {
+    const long = 'x'.repeat(600000) + '\u00e9'.repeat(300000);
+    const got = chunks({ a: 1, long, b: [2] });
+    expect(Buffer.concat(got).toString('utf8')).toBe(JSON.stringify({ a: 1, long, b: [2] }));
+    // Pieces of 10 k to 300 k characters (each written as it comes: a JsonText) among small ones, from the
+    // first, small chunk on: each must fit whole in the chunk it starts.
+    const strings = [10000, 3, 40000, 7, 100000, 300000, 1, 200000].map((n) => '\u00b5'.repeat(n));
+    const pieces = strings.map((x) => new JsonText([JSON.stringify(x)]));
+    expect(Buffer.concat(chunks(pieces)).toString('utf8')).toBe(JSON.stringify(strings));
   });
 });
 
