@@ -197,8 +197,9 @@ function handle(msg: ToWorker): void {
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
-        // The session (parsed cards, solver scratch) is garbage once this handler returns.
-        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
+        // The session (parsed cards, solver scratch) is garbage once this handler returns; when a corner phase
+        // follows, it is collected after that phase, which would otherwise start only after the collection.
+        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && !cornersNext) setImmediate(collectGarbage);
       } catch (e) {
         if (e instanceof AnalysisStopped && previous) {
           revertValueEdit(previous);
@@ -321,6 +322,8 @@ function solveCorners(msg: Extract<ToWorker, { type: 'corners' }>): void {
     if (cols) corners[st.id] = cols;
   }
   post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
+  // What the analysis before this phase left (see 'analyse').
+  if ((kept.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
 }
 
 /**
