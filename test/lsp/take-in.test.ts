@@ -13,6 +13,9 @@ import { adoptKeptCards } from '../../server/src/analysis-transfer';
 import { addCorners, analyse, analyseSession } from '../../shared-analysis/src/service';
 import { cornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import type { Analysis } from '../../shared-analysis/src/analysis';
+import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { inlayHints } from '../../shared-analysis/src/features/inlay';
 
 const URI = 'file:///take-in.cir';
 
@@ -142,6 +145,50 @@ describe('taking a result in', () => {
       }
     } finally {
       await worker.terminate();
+    }
+  });
+
+  it('answers hovers and inlay hints during a sliced take-in from the held result as it was, and after adoption from the new one', async () => {
+    const script = join(__dirname, '../../dist/analysis-worker.js');
+    if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
+    const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
+    // 5,000 rungs: taken in slices. The edit lengthens a value near the top, so nearly every card is kept and
+    // moved; the two edits after it keep the length (nothing to move) and shorten it again.
+    const texts = [netlist(5000)];
+    texts.push(texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 4.75k'), texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 4.7k'), texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 5k'));
+    // Devices before the edit, on the edited card, just past it and far past it.
+    const needles = ['Q1 r r', 'R1 vcc', 'RC vcc', 'RL10 ', 'RL2500 ', 'RL4999 '];
+    /** What a hover at each needle and the inlay hints of a stretch of lines past the edit show, as text (so a later change of the objects shows). */
+    const answers = (a: Analysis, text: string): string[] => {
+      const hovers = needles.map((n) => JSON.stringify(hoverAt(a, URI, text.indexOf(n) + 1) ?? null));
+      const from = text.indexOf('RL2490 ');
+      return [...hovers, JSON.stringify(inlayHints(a, URI, { start: from, end: text.indexOf('RL2510 ') }, 'full'))];
+    };
+    try {
+      host.setDocument(URI, texts[0]!);
+      let held = (await host.analyse(URI, 1, { corners: { enabled: false } })).analysis;
+      for (let v = 1; v < texts.length; v++) {
+        const before = answers(held, texts[v - 1]!);
+        host.setDocument(URI, texts[v]!);
+        let turns = 0;
+        const heldNow = held;
+        // Between parts the server answers queued requests from the result it holds: that result must read exactly as before.
+        const taken = await host.analyse(URI, v + 1, { corners: { enabled: false } }, {
+          held: heldNow,
+          onPart: () => {
+            if (turns++ % 8 === 0) expect(answers(heldNow, texts[v - 1]!)).toEqual(before);
+          },
+        });
+        expect(turns).toBeGreaterThan(33);
+        expect(answers(heldNow, texts[v - 1]!)).toEqual(before);
+        adoptKeptCards(taken.analysis);
+        // The independent computation: the engine run in this thread on the edited text.
+        const direct = analyse({ uri: URI, text: texts[v]!, version: v + 1 }, new MemoryWorkspace({ [URI]: texts[v]! }), { corners: { enabled: false } });
+        expect(answers(taken.analysis, texts[v]!)).toEqual(answers(direct, texts[v]!));
+        held = taken.analysis;
+      }
+    } finally {
+      host.dispose();
     }
   });
 });

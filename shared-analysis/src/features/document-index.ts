@@ -29,11 +29,17 @@ interface AnalysisIndex {
 const analysisIndexes = new WeakMap<Analysis, AnalysisIndex>();
 const scopeCache = new WeakMap<ParsedDocument, SubcktScope[]>();
 
-/** Empty tables for a circuit's nodes. */
+/** Empty tables for a circuit's nodes; `nodeByName` is filled by `addNodeNames`. */
 function emptyIndex(circuit: Circuit | undefined): AnalysisIndex {
-  const nodeByName = new Map<string, number>();
-  circuit?.nodes.forEach((n, i) => nodeByName.set(n.toLowerCase(), i));
-  return { elementsByCard: new Map(), nodeByName, connections: new Array(circuit?.nodes.length ?? 0), elementByName: new Map() };
+  return { elementsByCard: new Map(), nodeByName: new Map(), connections: new Array(circuit?.nodes.length ?? 0), elementByName: new Map() };
+}
+
+/** Adds the circuit's node names `from` up to `to` to `nodeByName`; returns where it stopped. */
+function addNodeNames(idx: AnalysisIndex, circuit: Circuit | undefined, from: number, to = Number.POSITIVE_INFINITY): number {
+  const nodes = circuit?.nodes ?? [];
+  const end = Math.min(to, nodes.length);
+  for (let i = from; i < end; i++) idx.nodeByName.set(nodes[i]!.toLowerCase(), i);
+  return end;
 }
 
 /** Adds elements `from` on to the tables. Lists start as one-item literals: an empty array grown by `push` reserves 17 slots, which over 50,000 cards and nodes is megabytes of nothing. */
@@ -62,24 +68,32 @@ export function indexOf(analysis: Analysis): AnalysisIndex {
   let idx = analysisIndexes.get(analysis);
   if (idx) return idx;
   idx = emptyIndex(analysis.circuit);
+  addNodeNames(idx, analysis.circuit, 0);
   if (analysis.circuit) addElements(idx, analysis.circuit.elements, 0);
   analysisIndexes.set(analysis, idx);
   return idx;
 }
 
+/** Node names a builder's `add` adds beside the elements, so the node table is made over many slices too (a pass over 50,000 names in one slice took 10–70 ms). */
+const NODE_NAMES_PER_ADD = 1000;
+
 /**
  * Builds the lookup tables of `indexOf` a slice of elements at a time, for a host that takes an
  * analysis in parts and wants no long pause when the first request arrives. `add` takes the
- * circuit's elements from index `from` on; `finish` registers the tables for `analysis`, whose
- * circuit must by then hold every element added and no others.
+ * circuit's elements from index `from` on (and the next few node names); `finish` adds the node
+ * names still missing and registers the tables for `analysis`, whose circuit must by then hold
+ * every element added and no others.
  */
 export function indexBuilder(circuit: Circuit): { add(elements: readonly Element[], from: number): void; finish(analysis: Analysis): void } {
   const idx = emptyIndex(circuit);
+  let named = 0;
   return {
     add(elements, from) {
       addElements(idx, elements, from);
+      named = addNodeNames(idx, circuit, named, named + NODE_NAMES_PER_ADD);
     },
     finish(analysis) {
+      named = addNodeNames(idx, circuit, named);
       if (analysis.circuit === circuit && !analysisIndexes.has(analysis)) analysisIndexes.set(analysis, idx);
     },
   };

@@ -150,6 +150,13 @@ const now: () => number = (() => {
   return perf ? () => perf.now() : () => Date.now();
 })();
 
+/** Whether every element of the circuit has its own name (as the name-keyed tables need). */
+function hasUniqueNames(circuit: Circuit): boolean {
+  const seen = new Set<string>();
+  for (const el of circuit.elements) seen.add(el.name);
+  return seen.size === circuit.elements.length;
+}
+
 /**
  * A circuit prepared for repeated DC solves. The constructor builds the unknown
  * numbering, the sparsity pattern, the linear stamps, the structural checks and the
@@ -173,14 +180,7 @@ export class DcSolver {
   private readonly tcResistors: number[] = [];
   private namesUnique: boolean | undefined;
   /** Whether every element of the circuit has its own name (worked out on first use). */
-  private readonly uniqueNames = (): boolean => {
-    if (this.namesUnique === undefined) {
-      const seen = new Set<string>();
-      for (const el of this.circuit.elements) seen.add(el.name);
-      this.namesUnique = seen.size === this.circuit.elements.length;
-    }
-    return this.namesUnique;
-  };
+  private readonly uniqueNames = (): boolean => (this.namesUnique ??= hasUniqueNames(this.circuit));
   /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
   private readonly elementSlot: Int32Array;
   /** The device tables as the netlist gives them; a solve with `deviceParameters` swaps rebuilt ones in for its duration. */
@@ -744,6 +744,9 @@ export class DcSolver {
   ): OperatingPoint {
     const c = this.circuit;
     const { tables, deviceOrder, readers } = this.layout;
+    // The point's readers below outlive the solve: they take what they read from the solver now, so they do not
+    // keep the solver itself (its matrix and factors, tens of megabytes at 50,000 elements) alive with the point.
+    const { quantityColumns, recordTypes, tableRecordTypes } = this;
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
     const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
     let overflow = false;
@@ -862,7 +865,7 @@ export class DcSolver {
       const d = -k - 2;
       const t = deviceOrder.table[d];
       // An inherited name (`constructor`) reads as a function, not a number.
-      const q: unknown = this.quantityColumns[t][quantity];
+      const q: unknown = quantityColumns[t][quantity];
       return typeof q === 'number' ? quietClamp(columns[t].values[q][deviceOrder.instance[d]]) : undefined;
     };
     const quantity = (e: number, q: number): number | undefined => {
@@ -878,12 +881,12 @@ export class DcSolver {
       if (k >= 0) return twoTerminalType(c.elements[readers[k].element].kind);
       if (k === -1) return undefined;
       const t = deviceOrder.table[-k - 2];
-      return (this.tableRecordTypes[t] ??= tables[t].kind.record(columns[t], tables[t].instances, deviceOrder.instance[-k - 2]).type);
+      return (tableRecordTypes[t] ??= tables[t].kind.record(columns[t], tables[t].instances, deviceOrder.instance[-k - 2]).type);
     };
     const type = (e: number): DeviceRecord['type'] | undefined => {
       if (!(e >= 0 && e < slot.length)) return undefined;
-      let known = this.recordTypes[e];
-      if (known === undefined) this.recordTypes[e] = known = typeOf(e) ?? null;
+      let known = recordTypes[e];
+      if (known === undefined) recordTypes[e] = known = typeOf(e) ?? null;
       return known ?? undefined;
     };
     const region = (e: number): string | undefined => {
@@ -893,7 +896,8 @@ export class DcSolver {
       const t = deviceOrder.table[d];
       return tables[t].kind.regions[columns[t].region[deviceOrder.instance[d]]];
     };
-    const unique = this.uniqueNames;
+    // Worked out here, not through the solver's cache: reading that would keep the solver alive with the point.
+    const unique = () => hasUniqueNames(c);
     function* nodeEntries(): Iterable<[string, number]> {
       for (let i = 0; i < c.nodes.length; i++) yield [c.nodes[i], volts[i]];
     }

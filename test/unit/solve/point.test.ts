@@ -3,6 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import { deviceKindOf } from '../../../shared-analysis/src/devices/registry';
+import { collectGarbage } from '../../../server/src/collect';
 import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
 import { flattenPlans, measurePlanned, measureStructure, planMeasurement, readerOf } from '../../../shared-analysis/src/structures/measure';
@@ -155,5 +156,25 @@ describe('operating point vectors', () => {
     // The result of a solve without the flag keeps its own vectors.
     expect(kept.op.devices).toEqual(keptDevices);
     expect(kept.x).toEqual(keptX);
+  });
+
+  it('does not keep its solver alive: the records read the same after the solver is collected', async () => {
+    const c = circuit(SPECS);
+    let solver: DcSolver | undefined = new DcSolver(c);
+    const op = solver.solve().op;
+    const v = pointVectors(op)!;
+    // Read before the solver goes; the tables (built on first read) are not built yet.
+    const records = c.elements.map((_, e) => JSON.stringify(v.record(e) ?? null));
+    const volts = [...v.volts];
+    const solverRef = new WeakRef(solver);
+    solver = undefined;
+    // A WeakRef's target is kept until the job that made it ends.
+    await new Promise((r) => setImmediate(r));
+    collectGarbage();
+    // The solver holds the matrix and its factors (tens of megabytes at 50,000 elements): a point kept for hovers must not keep them.
+    expect(solverRef.deref()).toBeUndefined();
+    expect(c.elements.map((_, e) => JSON.stringify(v.record(e) ?? null))).toEqual(records);
+    expect([...v.volts]).toEqual(volts);
+    expect(c.elements.map((el) => JSON.stringify(op.devices[el.name] ?? null))).toEqual(records);
   });
 });
