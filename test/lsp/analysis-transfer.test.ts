@@ -5,7 +5,7 @@ import { adoptKeptCards, mergePart, splitAnalysis, splitAnalysisLazily } from '.
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { analyse } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
-import { indexBuilder, indexOf } from '../../shared-analysis/src/features/document-index';
+import { connectionCount, connectionsOf, indexBuilder, indexOf, terminalNames } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 import { rng } from '../seeded-random';
 
@@ -30,6 +30,16 @@ function check(text: string, hoverAtText: string[]): void {
   // The tables built part by part are the ones built in one go.
   expect(indexOf(copy)).toEqual(indexOf(original));
   expect(indexOf(copy).elementByName.get('q2')).toBe(copy.circuit!.elements.find((e) => e.name === 'Q2'));
+  // The terminals on each node against a plain scan of the elements, in element order, then terminal order.
+  for (const a of [copy, original]) {
+    const scan = a.circuit!.nodes.map((): string[] => []);
+    for (const el of a.circuit!.elements) el.nodes.forEach((n, t) => scan[n]?.push(`${el.name} ${terminalNames(el)[t]}`));
+    scan.forEach((expected, n) => {
+      expect(connectionsOf(a, n).map((c) => `${c.element.name} ${c.terminal}`), `node ${n}`).toEqual(expected);
+      expect(connectionCount(a, n)).toBe(expected.length);
+      expect(connectionsOf(a, n, 1).length).toBe(Math.min(1, expected.length));
+    });
+  }
   // Models are shared objects again, as the elaborator made them.
   for (const e of copy.circuit!.elements) if ('model' in e) expect(Object.values(copy.circuit!.models)).toContain(e.model);
   for (const needle of hoverAtText) {
