@@ -591,16 +591,17 @@ class StructureCheck implements ResistanceContext {
   }
 
   /** Outputs whose model differs from the reference's only in IS: the intended ratio IS(output)/IS(reference), by device. */
-  private isRatios(): Record<string, { ratio: number; model: Model; refModel: Model }> {
-    const out: Record<string, { ratio: number; model: Model; refModel: Model }> = nameTable();
-    if (!this.bipolar) return out;
+  private isRatios(): Readonly<Record<string, { ratio: number; model: Model; refModel: Model }>> {
+    // The table is made only for a structure that has such an output (a mirror of one model has none).
+    let out: Record<string, { ratio: number; model: Model; refModel: Model }> | undefined;
+    if (!this.bipolar) return NO_IS_RATIOS;
     const ref = this.t(this.s.reference.device).element.model;
     for (const o of this.s.outputs) {
       const m = this.t(o.device).element.model;
       const ratio = isOnlyRatio(m, ref);
-      if (ratio !== undefined) out[o.device] = { ratio, model: m, refModel: ref };
+      if (ratio !== undefined) (out ??= nameTable())[o.device] = { ratio, model: m, refModel: ref };
     }
-    return out;
+    return out ?? NO_IS_RATIOS;
   }
 
   // ---- findings ---------------------------------------------------------
@@ -841,6 +842,9 @@ class StructureCheck implements ResistanceContext {
   }
 }
 
+
+/** The IS ratios of a structure without IS-only outputs: never written, only looked up. */
+const NO_IS_RATIOS: Readonly<Record<string, { ratio: number; model: Model; refModel: Model }>> = Object.freeze(nameTable<{ ratio: number; model: Model; refModel: Model }>());
 
 /** Replaces non-finite numbers (not JSON-safe) by null and drops undefined fields. */
 function jsonSafe(data: Record<string, unknown>): Record<string, unknown> {

@@ -80,7 +80,10 @@ export class Matcher {
   candidates(tech: Technology, pred: (t: Transistor) => boolean, exclude: readonly Transistor[], pool: Transistor[] | undefined): Transistor[] {
     const out: Transistor[] = [];
     if (!pool) return out;
-    for (const t of pool) if (!this.isClaimed(t) && t.tech === tech && !exclude.includes(t) && pred(t)) out.push(t);
+    for (let k = 0; k < pool.length; k++) {
+      const t = pool[k];
+      if (!this.isClaimed(t) && t.tech === tech && !exclude.includes(t) && pred(t)) out.push(t);
+    }
     return out.length > 1 ? out.sort(this.byRank) : out;
   }
 

@@ -37,13 +37,11 @@ export interface Measurement {
  *
  * `topology` is the circuit's prebuilt {@link Topology} (from `topologyOf(circuit)`), for
  * callers that measure many structures at many operating points; when absent it is looked
- * up (and built once per Circuit object). `planned` is the structure's `planMeasurement` on that
- * topology, for a caller that has it already.
+ * up (and built once per Circuit object).
  */
-export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology, planned?: MeasurementPlan): Measurement {
+export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology): Measurement {
   const topo = topology ?? topologyOf(circuit);
-  const plan = planned ?? planMeasurement(topo, s);
-  return measurePlanned(flattenPlans([plan]), 0, readerOf(op, topo), plan.outputs);
+  return measurePlanned(planMeasurements(topo, [s]), 0, readerOf(op, topo), s.outputs);
 }
 
 /**
@@ -85,40 +83,6 @@ function scratchSink(count: number): OutputSink {
   return scratch;
 }
 
-/** A structure's measurement with every name resolved to an element or node index, for measuring it at many points. */
-export interface MeasurementPlan {
-  refNode: number | undefined;
-  /** The structure's transistors, for IREF: the element and which of its terminals sit on the reference node. */
-  devices: { e: number; bipolar: boolean; record: DeviceRecord['type']; out: boolean; ctrl: boolean; common: boolean }[];
-  /** The structure's own resistors and diodes on the reference node: +1 when the first node is on it, −1 the second. */
-  parts: { e: number; sign: 1 | -1 }[];
-  outputs: { device: string; e: number; t: Transistor | undefined }[];
-}
-
-/** Resolves the names of a structure's measurement once (see `measureStructure` for what is measured). */
-export function planMeasurement(topo: Topology, s: Structure): MeasurementPlan {
-  const refNode = topo.nodeIndex.get(s.reference.node);
-  const devices: MeasurementPlan['devices'] = [];
-  const parts: MeasurementPlan['parts'] = [];
-  if (refNode !== undefined) {
-    for (const name of s.devices) {
-      const t = topo.byName.get(name);
-      const e = topo.elementIndex.get(name);
-      if (!t || e === undefined) continue;
-      devices.push({ e, bipolar: isBipolar(t.tech), record: TECHNOLOGIES[t.tech].record, out: t.out === refNode, ctrl: t.ctrl === refNode, common: t.common === refNode });
-    }
-    for (const name of Object.keys(s.parts ?? {})) {
-      const el = topo.elementByName.get(name);
-      const e = topo.elementIndex.get(name);
-      if (!el || e === undefined || el.nodes.length < 2) continue;
-      if (el.nodes[0] === refNode) parts.push({ e, sign: 1 });
-      else if (el.nodes[1] === refNode) parts.push({ e, sign: -1 });
-    }
-  }
-  const outputs = s.outputs.map((o) => ({ device: o.device, e: topo.elementIndex.get(o.device) ?? -1, t: topo.byName.get(o.device) }));
-  return { refNode, devices, parts, outputs };
-}
-
 // Bits of `MeasurementPlans.devFlags`: the device is bipolar; its output, control or common terminal is on the reference node.
 const DEV_BIPOLAR = 1;
 const DEV_OUT = 2;
@@ -126,20 +90,24 @@ const DEV_CTRL = 4;
 const DEV_COMMON = 8;
 
 /**
- * The plans of many structures in flat arrays, structure i's devices at [devStart[i], devStart[i + 1]),
- * its parts and outputs likewise: what the corner phase reads at every corner for every structure.
- * A plan as objects (arrays of small records, each output pointing into the topology) was a walk over
- * scattered memory per structure per corner, which at 100,000 elements cost more than its arithmetic.
+ * The measurements of many structures with every name resolved to an element or node index, in flat
+ * arrays: structure i's devices at [devStart[i], devStart[i + 1]), its parts and outputs likewise. What
+ * the corner phase reads at every corner for every structure. A plan as objects (arrays of small
+ * records, each output pointing into the topology) was a walk over scattered memory per structure per
+ * corner, which at 100,000 elements cost more than its arithmetic.
  */
 export interface MeasurementPlans {
+  /** The structure's transistors, for IREF: the element, its record type, and which of its terminals sit on the reference node (`DEV_*` bits). */
   devStart: Int32Array;
   devE: Int32Array;
   devFlags: Uint8Array;
   devRecord: DeviceRecord['type'][];
+  /** The structure's own resistors and diodes on the reference node: +1 when the first node is on it, −1 the second. */
   partStart: Int32Array;
   partE: Int32Array;
   partSign: Int8Array;
   outStart: Int32Array;
+  /** The output's element index (−1 when no element has its name). */
   outE: Int32Array;
   /** Output, control and common node of each output's transistor (3 per output). */
   outNodes: Int32Array;
@@ -147,25 +115,26 @@ export interface MeasurementPlans {
   outT: (Transistor | undefined)[];
 }
 
-/** `plans` as flat arrays, in their order. */
-export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlans {
+/** Resolves the names of the structures' measurements once, straight into the flat arrays (see `measureStructure` for what is measured). */
+export function planMeasurements(topo: Topology, structures: readonly Structure[]): MeasurementPlans {
+  // Sized for every name resolving; the arrays are cut to what did.
   let devices = 0;
-  let parts = 0;
   let outputs = 0;
-  for (const p of plans) {
-    devices += p.devices.length;
-    parts += p.parts.length;
-    outputs += p.outputs.length;
+  let parts = 0;
+  for (const s of structures) {
+    devices += s.devices.length;
+    outputs += s.outputs.length;
+    if (s.parts) parts += Object.keys(s.parts).length;
   }
   const f: MeasurementPlans = {
-    devStart: new Int32Array(plans.length + 1),
+    devStart: new Int32Array(structures.length + 1),
     devE: new Int32Array(devices),
     devFlags: new Uint8Array(devices),
     devRecord: [],
-    partStart: new Int32Array(plans.length + 1),
+    partStart: new Int32Array(structures.length + 1),
     partE: new Int32Array(parts),
     partSign: new Int8Array(parts),
-    outStart: new Int32Array(plans.length + 1),
+    outStart: new Int32Array(structures.length + 1),
     outE: new Int32Array(outputs),
     outNodes: new Int32Array(3 * outputs),
     outT: [],
@@ -173,32 +142,49 @@ export function flattenPlans(plans: readonly MeasurementPlan[]): MeasurementPlan
   let d = 0;
   let q = 0;
   let o = 0;
-  plans.forEach((p, i) => {
-    for (const dev of p.devices) {
-      f.devE[d] = dev.e;
-      f.devFlags[d] = (dev.bipolar ? DEV_BIPOLAR : 0) | (dev.out ? DEV_OUT : 0) | (dev.ctrl ? DEV_CTRL : 0) | (dev.common ? DEV_COMMON : 0);
-      f.devRecord.push(dev.record);
-      d++;
-    }
-    for (const part of p.parts) {
-      f.partE[q] = part.e;
-      f.partSign[q] = part.sign;
-      q++;
-    }
-    for (const out of p.outputs) {
-      f.outE[o] = out.e;
-      if (out.t) {
-        f.outNodes[3 * o] = out.t.out;
-        f.outNodes[3 * o + 1] = out.t.ctrl;
-        f.outNodes[3 * o + 2] = out.t.common;
+  for (let i = 0; i < structures.length; i++) {
+    const s = structures[i];
+    const refNode = topo.nodeIndex.get(s.reference.node);
+    if (refNode !== undefined) {
+      for (const name of s.devices) {
+        const t = topo.byName.get(name);
+        const e = topo.elementIndex.get(name);
+        if (!t || e === undefined) continue;
+        f.devE[d] = e;
+        f.devFlags[d] = (isBipolar(t.tech) ? DEV_BIPOLAR : 0) | (t.out === refNode ? DEV_OUT : 0) | (t.ctrl === refNode ? DEV_CTRL : 0) | (t.common === refNode ? DEV_COMMON : 0);
+        f.devRecord.push(TECHNOLOGIES[t.tech].record);
+        d++;
       }
-      f.outT.push(out.t);
+      if (s.parts) {
+        for (const name of Object.keys(s.parts)) {
+          const el = topo.elementByName.get(name);
+          const e = topo.elementIndex.get(name);
+          if (!el || e === undefined || el.nodes.length < 2) continue;
+          if (el.nodes[0] !== refNode && el.nodes[1] !== refNode) continue;
+          f.partE[q] = e;
+          f.partSign[q++] = el.nodes[0] === refNode ? 1 : -1;
+        }
+      }
+    }
+    for (const out of s.outputs) {
+      const t = topo.byName.get(out.device);
+      f.outE[o] = topo.elementIndex.get(out.device) ?? -1;
+      if (t) {
+        f.outNodes[3 * o] = t.out;
+        f.outNodes[3 * o + 1] = t.ctrl;
+        f.outNodes[3 * o + 2] = t.common;
+      }
+      f.outT.push(t);
       o++;
     }
     f.devStart[i + 1] = d;
     f.partStart[i + 1] = q;
     f.outStart[i + 1] = o;
-  });
+  }
+  f.devE = f.devE.subarray(0, d);
+  f.devFlags = f.devFlags.subarray(0, d);
+  f.partE = f.partE.subarray(0, q);
+  f.partSign = f.partSign.subarray(0, q);
   return f;
 }
 
@@ -211,7 +197,7 @@ const planCache = new WeakMap<readonly Structure[], { topo: Topology; count: num
 export function plannedMeasurements(topo: Topology, structures: readonly Structure[]): MeasurementPlans {
   const known = planCache.get(structures);
   if (known && known.topo === topo && known.count === structures.length) return known.plans;
-  const plans = flattenPlans(structures.map((s) => planMeasurement(topo, s)));
+  const plans = planMeasurements(topo, structures);
   planCache.set(structures, { topo, count: structures.length, plans });
   return plans;
 }

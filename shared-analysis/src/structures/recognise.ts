@@ -28,7 +28,10 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
   const m = new Matcher(circuit);
   const drafts: Draft[] = [];
   for (const kind of KINDS) {
-    for (const t of m.seeds(kind.seeds)) {
+    // Indexed: cold code allocates a result object per step of a for-of, and this loop takes every kind over every seed.
+    const seeds = m.seeds(kind.seeds);
+    for (let k = 0; k < seeds.length; k++) {
+      const t = seeds[k];
       if (m.isClaimed(t) || !kind.technologies.includes(t.tech)) continue;
       const d = kind.recognise(m, t);
       if (!d) continue;
@@ -80,28 +83,36 @@ function withIsRatio(m: Matcher, d: Draft, o: StructureOutput): StructureOutput 
  * devices outside the structure (base-current loads) and capacitors do not count as feeds.
  */
 function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
-  // `toStructure` made the reference afresh, fed by 'other' with no elements: the answer when nothing better is found.
+  // `toStructure` made the reference afresh, fed by 'other' with no elements: the answer when nothing better is found,
+  // and otherwise filled in place (its feed and elements keep their place among its fields, the rail or feeding structure follows).
   const base = s.reference;
   const feed = soleFeed(m, d.refNode, s);
   if (!feed) return base;
   const { element: el, slot } = feed;
-  if (el.kind === 'I') return { ...base, feed: 'current-source', elements: [el.name] };
+  if (el.kind === 'I') return fed(base, 'current-source', [el.name]);
   if ((el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && slot === 0) {
     const from = owner.get(el.name);
-    if (from && from !== s) return { ...base, feed: 'mirror-output', elements: [el.name], fedBy: from.id };
+    if (from && from !== s) {
+      fed(base, 'mirror-output', [el.name]).fedBy = from.id;
+      return base;
+    }
     return base;
   }
   if (el.kind !== 'R') return base;
-  // Follow a chain of series resistors until a rail.
+  // Follow a chain of series resistors until a rail (the nodes passed are remembered from the second resistor on).
   const chain: string[] = [];
-  const seen = new Set<number>([d.refNode]);
+  let seen: Set<number> | undefined;
   let r: Resistor = el;
   let node = d.refNode;
   for (;;) {
     chain.push(r.name);
     const next = r.nodes[0] === node ? r.nodes[1] : r.nodes[0];
     const rail = m.rails.get(next);
-    if (rail) return { ...base, feed: 'resistor', elements: chain, rail };
+    if (rail) {
+      fed(base, 'resistor', chain).rail = rail;
+      return base;
+    }
+    seen ??= new Set<number>([d.refNode]);
     if (seen.has(next)) return base;
     seen.add(next);
     const onward = m.topo.conducting(next).filter((a) => a.element !== r);
@@ -109,6 +120,13 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, 
     r = onward[0].element as Resistor;
     node = next;
   }
+}
+
+/** Sets what feeds a reference branch, in place. */
+function fed(reference: ReferenceBranch, feed: ReferenceBranch['feed'], elements: string[]): ReferenceBranch {
+  reference.feed = feed;
+  reference.elements = elements;
+  return reference;
 }
 
 /**
@@ -128,10 +146,14 @@ function soleFeed(m: Matcher, refNode: number, s: Structure): Attachment | undef
   return found;
 }
 
+function hasDot(name: string): boolean {
+  return name.indexOf('.') >= 0;
+}
+
 /** The hierarchical instance prefix (`X1.`, `X1.X2.`) shared by every device name, or '' at top level. */
 export function instancePrefix(names: string[]): string {
   // Top-level devices (no dot in any name) are the common case: skip the splitting.
-  if (names.every((n) => n.indexOf('.') < 0)) return '';
+  if (!names.some(hasDot)) return '';
   let common: string[] | undefined;
   for (const n of names) {
     const parts = n.split('.').slice(0, -1);

@@ -109,8 +109,10 @@ export class Topology {
   private readonly atLists: (Attachment[] | undefined)[] = [];
   /** Connections to node numbers outside `circuit.nodes` (the elaborator makes none), as lists. */
   private readonly strayAttached = new Map<number, Attachment[]>();
-  /** `conducting` results by node; callers must not mutate the returned lists. */
-  private readonly conductingCache = new Map<number, Attachment[]>();
+  /** `conducting` lists made so far, by node (as `atLists`); callers must not mutate them. */
+  private readonly conductingLists: (Attachment[] | undefined)[] = [];
+  /** `conducting` lists of node numbers outside `circuit.nodes`. */
+  private readonly strayConducting = new Map<number, Attachment[]>();
   readonly nodeIndex: Map<string, number>;
   /** Element name -> element (the last of that name), read through `elementIndex`. */
   readonly elementByName: { get(name: string): Element | undefined; has(name: string): boolean } = {
@@ -130,7 +132,10 @@ export class Topology {
     from?: Topology,
   ) {
     const nodeCount = circuit.nodes.length;
-    for (let i = 0; i < nodeCount; i++) this.atLists.push(undefined);
+    for (let i = 0; i < nodeCount; i++) {
+      this.atLists.push(undefined);
+      this.conductingLists.push(undefined);
+    }
     const shared = from && from.strayAttached.size === 0 ? from.index() : this.build();
     this.rowStart = shared.rowStart;
     this.rowElement = shared.rowElement;
@@ -228,15 +233,25 @@ export class Topology {
 
   /** The DC-relevant connections of a node: capacitors (open at DC), MOS gates/bulks and the sensing inputs of E and G sources (no DC current) left out. Shared list: do not mutate. */
   conducting(node: number): Attachment[] {
-    let list = this.conductingCache.get(node);
+    if (!this.isNode(node)) {
+      let stray = this.strayConducting.get(node);
+      if (!stray) this.strayConducting.set(node, (stray = this.at(node).filter((a) => conducts(a.element, a.slot))));
+      return stray;
+    }
+    let list = this.conductingLists[node];
     if (!list) {
-      list = this.at(node).filter(
-        (a) => a.element.kind !== 'C' && !(a.element.kind === 'M' && (a.slot === 1 || a.slot === 3)) && !((a.element.kind === 'E' || a.element.kind === 'G') && a.slot >= 2),
-      );
-      this.conductingCache.set(node, list);
+      // Straight from the compressed rows: a node's `at` list is made only for a caller that wants every connection.
+      list = [];
+      for (let j = this.rowStart[node]; j < this.rowStart[node + 1]; j++) {
+        const element = this.circuit.elements[this.rowElement[j]];
+        const slot = this.rowSlot[j];
+        if (conducts(element, slot)) list.push({ element, slot });
+      }
+      this.conductingLists[node] = list;
     }
     return list;
   }
+
 
   /**
    * The one DC-relevant connection of `node` besides the elements in `except`, or undefined when
@@ -256,6 +271,11 @@ export class Topology {
   nodeName(i: number): string {
     return this.circuit.nodes[i] ?? String(i);
   }
+}
+
+/** Whether an element's connection in node slot `slot` carries DC current: capacitors (open at DC), MOS gates and bulks and the sensing inputs of E and G sources do not. */
+function conducts(element: Element, slot: number): boolean {
+  return element.kind !== 'C' && !(element.kind === 'M' && (slot === 1 || slot === 3)) && !((element.kind === 'E' || element.kind === 'G') && slot >= 2);
 }
 
 /** The node slots of an element that carry DC current: a BJT's optional substrate node carries none, so it is left out of the incidence. */

@@ -6,7 +6,7 @@ import { deviceKindOf } from '../../../shared-analysis/src/devices/registry';
 import { collectGarbage } from '../../../server/src/collect';
 import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
-import { flattenPlans, measurePlanned, measureStructure, planMeasurement, readerOf } from '../../../shared-analysis/src/structures/measure';
+import { measurePlanned, measureStructure, planMeasurements, readerOf } from '../../../shared-analysis/src/structures/measure';
 import { topologyOf } from '../../../shared-analysis/src/structures/topology';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { structureVoltages } from '../../../shared-analysis/src/structures/voltages';
@@ -122,7 +122,7 @@ describe('operating point vectors', () => {
       expect(structureVoltages(s, op, c)).toEqual(structureVoltages(s, copy));
     }
     // All plans flattened into one set and read through one reader (what the hand analysis does) give the same figures.
-    const plans = flattenPlans(structures.map((s) => planMeasurement(topologyOf(c), s)));
+    const plans = planMeasurements(topologyOf(c), structures);
     const reader = readerOf(op, topologyOf(c));
     structures.forEach((s, i) => expect(measurePlanned(plans, i, reader, s.outputs)).toEqual(measureStructure(c, copy, s)));
     const byIndex = pointReader(c, op);

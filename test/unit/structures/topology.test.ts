@@ -75,4 +75,27 @@ describe('topology', () => {
       expect(followed.elementByName.get('no such element')).toBeUndefined();
     }
   });
+
+  it('lists the DC connections of a node as a scan of the elements does: no capacitor, no MOS gate or bulk (seeded)', () => {
+    for (let seed = 1; seed <= 20; seed++) {
+      const circuit = tangle(seed);
+      const topo = new Topology(circuit);
+      // Every other node asked for all its connections first: the DC list must not depend on what was asked before.
+      for (let n = 0; n < circuit.nodes.length; n += 2) topo.at(n);
+      for (let n = 0; n < circuit.nodes.length; n++) {
+        const plain: { element: string; slot: number }[] = [];
+        for (const e of circuit.elements) {
+          const slots = e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
+          for (let s = 0; s < slots; s++) {
+            // A capacitor is open at DC; a MOSFET's gate (slot 1) and bulk (slot 3) draw no DC current (level-1 model).
+            if (e.nodes[s] !== n || e.kind === 'C' || (e.kind === 'M' && (s === 1 || s === 3))) continue;
+            plain.push({ element: e.name, slot: s });
+          }
+        }
+        expect(topo.conducting(n).map((a) => ({ element: a.element.name, slot: a.slot }))).toEqual(plain);
+        expect(topo.conducting(n)).toBe(topo.conducting(n));
+      }
+      expect(topo.conducting(circuit.nodes.length)).toEqual([]);
+    }
+  });
 });
