@@ -128,6 +128,16 @@ function twoTerminalType(kind: Element['kind']): TwoTerminalRecord['type'] {
 }
 
 /** Whether every entry of `v` is a finite number (a loop: `every` with a callback cost a call per unknown at every corner). */
+/**
+ * Whether a linear element's one judged value (resistance, DC value, gain) is beyond OUT_OF_RANGE_DECADES
+ * of 1, as `valuesOf` judges it; undefined for an element that is not of those kinds.
+ */
+function linearValueFar(el: Element): boolean | undefined {
+  const value = el.kind === 'R' ? el.resistance : el.kind === 'V' || el.kind === 'I' ? el.dc : el.kind === 'E' || el.kind === 'G' || el.kind === 'F' || el.kind === 'H' ? el.gain : undefined;
+  if (value === undefined) return el.kind === 'C' || el.kind === 'L' ? false : undefined;
+  return value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value))) > OUT_OF_RANGE_DECADES;
+}
+
 function allFinite(v: Float64Array): boolean {
   for (let k = 0; k < v.length; k++) if (!Number.isFinite(v[k])) return false;
   return true;
@@ -445,8 +455,8 @@ export class DcSolver {
       x: result.x,
       sourceValues: Float64Array.from(engine.sourceValues),
       conductanceOf: (i) => {
-        const stamp = this.layout.resistorStamps.get(i);
-        return stamp?.kind === 'conductance' ? (plan.conductance.get(i) ?? stamp.g) : undefined;
+        const g = this.layout.resistorStamps.conductance(i);
+        return g === undefined ? undefined : (plan.conductance.get(i) ?? g);
       },
       conductanceSlopeOf: (i) => {
         const el = this.circuit.elements[i];
@@ -661,20 +671,12 @@ export class DcSolver {
     const values = this.engine.linearValues;
     values.set(this.layout.linearValues);
     for (const node of structure.tied) values[this.layout.nodeDiagonals[node - 1]] += TIE_CONDUCTANCE;
-    for (const [i, g] of plan.conductance) {
-      const stamp = this.layout.resistorStamps.get(i);
-      if (stamp?.kind !== 'conductance') continue;
-      const delta = g - stamp.g;
-      const p = stamp.positions;
-      if (p[0] >= 0) values[p[0]] += delta;
-      if (p[1] >= 0) values[p[1]] += delta;
-      if (p[2] >= 0) values[p[2]] -= delta;
-      if (p[3] >= 0) values[p[3]] -= delta;
-    }
+    const stamps = this.layout.resistorStamps;
+    for (const [i, g] of plan.conductance) if (stamps.conductance(i) !== undefined) stamps.addDifference(i, g, values);
     // The branch row of a 0 Ω resistor reads V(a) − V(b) = 0; with R it reads V(a) − V(b) − R·I = 0.
     for (const [i, ohms] of plan.branchOhms) {
-      const stamp = this.layout.resistorStamps.get(i);
-      if (stamp?.kind === 'short' && stamp.diagonal >= 0) values[stamp.diagonal] -= ohms;
+      const diagonal = stamps.shortDiagonal(i);
+      if (diagonal >= 0) values[diagonal] -= ohms;
     }
   }
 
@@ -1118,9 +1120,13 @@ export class DcSolver {
     const far = (value: number, t = 1): boolean =>
       value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value)) - Math.log10(t)) > OUT_OF_RANGE_DECADES;
     const elements = this.circuit.elements;
-    for (const i of among ?? elements.keys()) {
+    const count = among ? among.length : elements.length;
+    for (let n = 0; n < count; n++) {
+      const i = among ? among[n] : n;
       const el = elements[i];
       if (this.layout.skipped.has(i)) continue;
+      // A linear element has one value to judge: judged here, its record list is made only for a finding.
+      if (!(linearValueFar(el) ?? true)) continue;
       const kind = deviceKindOf(el.kind);
       if (kind && 'model' in el) {
         let m = modelExtreme.get(el.model);

@@ -45,6 +45,78 @@ export type ResistorStamp =
   /** A 0 Ω resistor solved as a branch: the branch row's diagonal (registered at 0, so the row can become V(a) − V(b) − R·I = 0). */
   | { kind: 'short'; element: number; branch: number; diagonal: number };
 
+/** `ResistorStamps` codes of a resistor's stamp (0: none). */
+const CONDUCTANCE_STAMP = 1;
+const SHORT_STAMP = 2;
+
+/**
+ * Every usable resistor's stamp, in columns indexed by element: a record per resistor in a map cost
+ * about a tenth of the layout at 20,000 elements, and the solver reads only a few of them (overrides,
+ * temperature coefficients). `get` makes a record when asked.
+ */
+export class ResistorStamps {
+  private readonly kind: Uint8Array;
+  /** Conductance stamps: the four positions of (a,a), (b,b), (a,b), (b,a). Shorts: the branch and its diagonal. */
+  private readonly positions: Int32Array;
+  /** The netlist conductance of each conductance stamp. */
+  private readonly g: Float64Array;
+
+  constructor(elementCount: number) {
+    this.kind = new Uint8Array(elementCount);
+    this.positions = new Int32Array(4 * elementCount);
+    this.g = new Float64Array(elementCount);
+  }
+
+  /** Element i's stamp, made now; undefined when it has none. */
+  get(i: number): ResistorStamp | undefined {
+    const kind = this.kind[i];
+    const p = this.positions;
+    if (kind === CONDUCTANCE_STAMP) return { kind: 'conductance', element: i, positions: [p[4 * i], p[4 * i + 1], p[4 * i + 2], p[4 * i + 3]], g: this.g[i] };
+    if (kind === SHORT_STAMP) return { kind: 'short', element: i, branch: p[4 * i], diagonal: p[4 * i + 1] };
+    return undefined;
+  }
+
+  /** Element i's netlist conductance when it is stamped as one, else undefined. */
+  conductance(i: number): number | undefined {
+    return this.kind[i] === CONDUCTANCE_STAMP ? this.g[i] : undefined;
+  }
+
+  /** The diagonal of element i's branch row when it is stamped as a short, else −1. */
+  shortDiagonal(i: number): number {
+    return this.kind[i] === SHORT_STAMP ? this.positions[4 * i + 1] : -1;
+  }
+
+  setConductance(i: number, aa: number, bb: number, ab: number, ba: number, g: number): void {
+    this.kind[i] = CONDUCTANCE_STAMP;
+    this.positions[4 * i] = aa;
+    this.positions[4 * i + 1] = bb;
+    this.positions[4 * i + 2] = ab;
+    this.positions[4 * i + 3] = ba;
+    this.g[i] = g;
+  }
+
+  setShort(i: number, branch: number, diagonal: number): void {
+    this.kind[i] = SHORT_STAMP;
+    this.positions[4 * i] = branch;
+    this.positions[4 * i + 1] = diagonal;
+  }
+
+  /** Adds what element i's conductance stamp changes by at `g` (against its netlist conductance) to `values`. */
+  addDifference(i: number, g: number, values: Float64Array): void {
+    const delta = g - this.g[i];
+    const p = this.positions;
+    if (p[4 * i] >= 0) values[p[4 * i]] += delta;
+    if (p[4 * i + 1] >= 0) values[p[4 * i + 1]] += delta;
+    if (p[4 * i + 2] >= 0) values[p[4 * i + 2]] -= delta;
+    if (p[4 * i + 3] >= 0) values[p[4 * i + 3]] -= delta;
+  }
+
+  /** Makes `g` element i's netlist conductance (an edit of its value). */
+  adopt(i: number, g: number): void {
+    this.g[i] = g;
+  }
+}
+
 /** Linear element letters the layout stamps itself; nonlinear ones come from the device registry. */
 const LINEAR_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H']);
 
@@ -64,10 +136,26 @@ export interface DeviceOrder {
   instance: Int32Array;
 }
 
+/** `MnaLayout.unknownKind` codes. */
+export const NODE_UNKNOWN = 0;
+export const INTERNAL_UNKNOWN = 1;
+export const BRANCH_UNKNOWN = 2;
+
+/** The unknowns as they are numbered: kind code and owner (node or element) per unknown, in two growing lists. */
+interface Numbering {
+  kind: Int32List;
+  owner: Int32List;
+}
+
+/** No internal nodes (shared, so a device without any allocates nothing). */
+const NO_INTERNAL: number[] = [];
+
 /** The MNA system for one circuit: built once, reused by every solve. */
 export class MnaLayout {
   readonly size: number;
-  readonly unknowns: UnknownInfo[] = [];
+  /** Per unknown: a kind code (`NODE_UNKNOWN`, …) and its owner, the node of a node unknown and the element of the others. */
+  readonly unknownKind: Uint8Array;
+  readonly unknownOwner: Int32Array;
   readonly pattern: SparsePattern;
   /** Matrix values of every linear element, aligned with the pattern. */
   readonly linearValues: Float64Array;
@@ -84,14 +172,19 @@ export class MnaLayout {
   readonly branchOfElement = new Map<number, number>();
   /** Elements skipped because they could not be stamped (bad nodes). */
   readonly skipped = new Set<number>();
-  /** Element index -> where its resistance is stamped (resistors with a usable value only). */
-  readonly resistorStamps = new Map<number, ResistorStamp>();
+  /** Where each resistor with a usable value has its resistance stamped. */
+  readonly resistorStamps: ResistorStamps;
 
-  private readonly entries = new EntryIndex();
-  private readonly rowsList = new Int32List();
-  private readonly colsList = new Int32List();
+  private readonly entries: EntryIndex;
+  private readonly rowsList: Int32List;
+  private readonly colsList: Int32List;
   /** Each pattern entry's linear value, grown with the pattern. */
-  private linearList = new Float64Array(1024);
+  private linearList: Float64Array;
+  /** Unknown -> the label of an internal node (`Q1 collector`). */
+  private readonly internalLabels = new Map<number, string>();
+  private unknownList: UnknownInfo[] | undefined;
+  /** `bindDevice`'s scratch: per terminal, the first terminal on the same unknown. */
+  private firstTerminal = new Int32Array(8);
 
   /** The circuit whose values the stamps hold (`adoptResistances` moves it to an edited copy of the same circuit). */
   circuit: Circuit;
@@ -100,48 +193,104 @@ export class MnaLayout {
     this.circuit = circuit;
     // A circuit always has ground, even if the node list arrived empty.
     const nodeCount = Math.max(1, circuit.nodes.length);
-    for (let i = 1; i < nodeCount; i++) this.unknowns.push({ kind: 'node', node: i });
     const els = circuit.elements;
+    const numbering: Numbering = { kind: new Int32List(), owner: new Int32List() };
+    for (let i = 1; i < nodeCount; i++) this.addUnknown(numbering, NODE_UNKNOWN, i);
+    const internalOf = this.numberInternalNodes(numbering, nodeCount);
+    this.numberBranches(numbering);
+    this.size = numbering.kind.length;
+    this.unknownKind = Uint8Array.from(numbering.kind.toArray());
+    this.unknownOwner = numbering.owner.toArray();
+    this.resistorStamps = new ResistorStamps(els.length);
+    // Room for the usual count of pattern entries (a diagonal per node, four per element), so the index rarely grows.
+    const expected = nodeCount + 4 * els.length;
+    this.entries = new EntryIndex(expected);
+    this.rowsList = new Int32List(expected);
+    this.colsList = new Int32List(expected);
+    this.linearList = new Float64Array(expected);
 
-    // Pass 1: check node indices, then number internal nodes and branch currents.
+    // Node diagonals are always in the pattern so shunts can be added without changing it.
+    this.nodeDiagonals = new Int32Array(nodeCount - 1);
+    for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
+    const builders = this.stampElements(internalOf);
+    this.pattern = { n: this.size, rows: this.rowsList.toArray(), cols: this.colsList.toArray() };
+    this.linearValues = this.linearList.slice(0, this.rowsList.length);
+    this.deviceOrder = this.buildTables(builders, els.length);
+  }
+
+  /** What each MNA unknown stands for, listed when first asked. */
+  get unknowns(): readonly UnknownInfo[] {
+    return (this.unknownList ??= this.listUnknowns());
+  }
+
+  private listUnknowns(): UnknownInfo[] {
+    const out: UnknownInfo[] = new Array(this.size);
+    for (let k = 0; k < this.size; k++) {
+      const owner = this.unknownOwner[k];
+      const kind = this.unknownKind[k];
+      out[k] = kind === NODE_UNKNOWN ? { kind: 'node', node: owner } : kind === INTERNAL_UNKNOWN ? { kind: 'internal', element: owner, label: this.internalLabels.get(k) ?? '' } : { kind: 'branch', element: owner };
+    }
+    return out;
+  }
+
+  private addUnknown(numbering: Numbering, kind: number, owner: number): number {
+    numbering.kind.push(kind);
+    numbering.owner.push(owner);
+    return numbering.kind.length - 1;
+  }
+
+  /** Pass 1: checks every element's node indices (skipping the unusable ones) and numbers the internal nodes; element -> its internal unknowns. */
+  private numberInternalNodes(numbering: Numbering, nodeCount: number): Map<number, number[]> {
     const internalOf = new Map<number, number[]>();
-    els.forEach((el, i) => {
+    const els = this.circuit.elements;
+    for (let i = 0; i < els.length; i++) {
+      const el = els[i];
       const kind = deviceKindOf(el.kind);
-      if (!LINEAR_KINDS.has(el.kind) && !kind) {
-        this.skipped.add(i);
-        this.layoutIssues.push({ element: i, code: 'dc-bad-node', message: `${el.name} is of a kind the solver does not know, so it is left out.` });
-        return;
+      if (!this.usable(el, i, kind, nodeCount) || !kind) continue;
+      const labels = kind.internalNodes(el);
+      if (labels.length === 0) continue;
+      const ks: number[] = [];
+      for (const label of labels) {
+        const k = this.addUnknown(numbering, INTERNAL_UNKNOWN, i);
+        this.internalLabels.set(k, `${el.name} ${label}`);
+        ks.push(k);
       }
-      const need = kind ? kind.nodeCount : el.kind === 'E' || el.kind === 'G' ? 4 : 2;
-      let bad = el.nodes.length < need;
-      for (let k = 0; k < need && !bad; k++) bad = !Number.isInteger(el.nodes[k]) || el.nodes[k] < 0 || el.nodes[k] >= nodeCount;
-      if (bad) {
-        this.skipped.add(i);
-        this.layoutIssues.push({
-          element: i,
-          code: 'dc-bad-node',
-          message: `${el.name} does not have the ${need} valid node connections its kind needs, so the solver leaves it out.`,
-        });
-        return;
-      }
-      const labels = kind ? kind.internalNodes(el) : [];
-      if (labels.length > 0) {
-        const ks: number[] = [];
-        for (const label of labels) {
-          ks.push(this.unknowns.length);
-          this.unknowns.push({ kind: 'internal', element: i, label: `${el.name} ${label}` });
-        }
-        internalOf.set(i, ks);
-      }
+      internalOf.set(i, ks);
+    }
+    return internalOf;
+  }
+
+  /** Whether element i is of a known kind with the valid node indices it needs; if not, it is skipped with an issue. */
+  private usable(el: Element, i: number, kind: DeviceKind | undefined, nodeCount: number): boolean {
+    if (!kind && !LINEAR_KINDS.has(el.kind)) {
+      this.skipped.add(i);
+      this.layoutIssues.push({ element: i, code: 'dc-bad-node', message: `${el.name} is of a kind the solver does not know, so it is left out.` });
+      return false;
+    }
+    const need = kind ? kind.nodeCount : el.kind === 'E' || el.kind === 'G' ? 4 : 2;
+    let bad = el.nodes.length < need;
+    for (let k = 0; k < need && !bad; k++) bad = !Number.isInteger(el.nodes[k]) || el.nodes[k] < 0 || el.nodes[k] >= nodeCount;
+    if (!bad) return true;
+    this.skipped.add(i);
+    this.layoutIssues.push({
+      element: i,
+      code: 'dc-bad-node',
+      message: `${el.name} does not have the ${need} valid node connections its kind needs, so the solver leaves it out.`,
     });
-    const hasBranch = (el: Element): boolean =>
-      el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0) || (el.kind === 'B' && el.output === 'V');
-    els.forEach((el, i) => {
-      if (this.skipped.has(i) || !hasBranch(el)) return;
-      this.branchOfElement.set(i, this.unknowns.length);
-      this.unknowns.push({ kind: 'branch', element: i });
-    });
-    this.size = this.unknowns.length;
+    return false;
+  }
+
+  /** The branch-current unknowns, in element order. */
+  private numberBranches(numbering: Numbering): void {
+    const els = this.circuit.elements;
+    for (let i = 0; i < els.length; i++) {
+      if (hasBranch(els[i]) && !this.skipped.has(i)) this.branchOfElement.set(i, this.addUnknown(numbering, BRANCH_UNKNOWN, i));
+    }
+  }
+
+  /** Pass 2: the linear stamps, and every nonlinear instance's terminals and matrix slots, by kind. */
+  private stampElements(internalOf: Map<number, number[]>): Map<DeviceKind, KindBuilder> {
+    const els = this.circuit.elements;
     // Element index by lower-case name (the last element of a name written twice), built at the first
     // look-up: only current-controlled elements ask, and most circuits have none.
     let byName: Map<string, number> | undefined;
@@ -152,144 +301,154 @@ export class MnaLayout {
       }
       return byName.get(name.toLowerCase());
     };
-
-    // Node diagonals are always in the pattern so shunts can be added without changing it.
-    this.nodeDiagonals = new Int32Array(nodeCount - 1);
-    for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
-
     const branchOf = (name: string): number => {
       const ci = elementNamed(name);
       return ci === undefined ? -1 : (this.branchOfElement.get(ci) ?? -1);
     };
-    // Pass 2: linear stamps, and every nonlinear instance's terminals and matrix slots.
-    const u = (node: number): number => node - 1;
     const builders = new Map<DeviceKind, KindBuilder>();
-    els.forEach((el, i) => {
-      if (this.skipped.has(i)) return;
+    for (let i = 0; i < els.length; i++) {
+      if (this.skipped.has(i)) continue;
+      const el = els[i];
       const kind = deviceKindOf(el.kind);
-      if (kind) {
-        let b = builders.get(kind);
-        if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: new Int32List(), positions: new Int32List() }));
-        this.bindDevice(b, el, i, kind.terminals(el, u, internalOf.get(i) ?? [], branchOf));
-        return;
+      if (!kind) {
+        this.stampLinear(el, i, elementNamed);
+        continue;
       }
-      const a = u(el.nodes[0]);
-      const b = u(el.nodes[1]);
-      switch (el.kind) {
-        case 'R': {
-          const r = el.resistance;
-          if (Number.isNaN(r)) {
-            this.layoutIssues.push({
-              element: i,
-              code: 'dc-value-unusable',
-              message: `The resistance of ${el.name} is not a number; the solver treats ${el.name} as an open circuit.`,
-            });
-            this.readers.push({ kind: 'open', element: i, a, b });
-            break;
-          }
-          if (r === 0) {
-            const k = this.branchOfElement.get(i)!;
-            this.stampBranchIncidence(a, b, k);
-            this.resistorStamps.set(i, { kind: 'short', element: i, branch: k, diagonal: this.entry(k, k) });
-            this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
-            this.layoutIssues.push({
-              element: i,
-              code: 'dc-zero-resistance',
-              message: `${el.name} has zero resistance; the solver treats it as a short circuit and reports the current through it.`,
-            });
-            break;
-          }
-          if (r < 0) {
-            this.layoutIssues.push({
-              element: i,
-              code: 'dc-negative-resistance',
-              message: `${el.name} has a negative resistance (${r} Ω); the solver uses it as written, but no passive resistor behaves like this.`,
-            });
-          }
-          const g = 1 / r; // an infinite resistance is an open circuit (g = 0)
-          this.stampConductance(a, b, g);
-          this.resistorStamps.set(i, { kind: 'conductance', element: i, positions: [this.entry(a, a), this.entry(b, b), this.entry(a, b), this.entry(b, a)], g });
-          this.readers.push({ kind: 'conductance', element: i, a, b, g });
-          break;
-        }
-        case 'C':
-          this.readers.push({ kind: 'open', element: i, a, b });
-          break;
-        case 'L': {
-          const k = this.branchOfElement.get(i)!;
-          this.stampBranchIncidence(a, b, k);
-          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
-          break;
-        }
-        case 'V': {
-          const k = this.branchOfElement.get(i)!;
-          this.stampBranchIncidence(a, b, k);
-          this.sources.push({ element: i, kind: 'V', rows: [k, -1], nominal: this.finiteValue(i, el.dc, 'DC value', 'V') });
-          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
-          break;
-        }
-        case 'I': {
-          this.sources.push({ element: i, kind: 'I', rows: [a, b], nominal: this.finiteValue(i, el.dc, 'DC value', 'A') });
-          this.readers.push({ kind: 'source-current', element: i, a, b, hook: this.sources.length - 1 });
-          break;
-        }
-        case 'E': {
-          const k = this.branchOfElement.get(i)!;
-          const gain = this.finiteValue(i, el.gain, 'gain', '');
-          this.stampBranchIncidence(a, b, k);
-          this.add(k, u(el.nodes[2]), -gain);
-          this.add(k, u(el.nodes[3]), gain);
-          this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
-          break;
-        }
-        case 'G': {
-          const gain = this.finiteValue(i, el.gain, 'gain', 'S');
-          const cp = u(el.nodes[2]);
-          const cn = u(el.nodes[3]);
-          this.add(a, cp, gain);
-          this.add(a, cn, -gain);
-          this.add(b, cp, -gain);
-          this.add(b, cn, gain);
-          this.readers.push({ kind: 'vccs', element: i, a, b, cp, cn, gain });
-          break;
-        }
-        case 'F':
-        case 'H': {
-          const gain = this.finiteValue(i, el.gain, 'gain', el.kind === 'H' ? 'Ω' : '');
-          const ci = elementNamed(el.control);
-          const ctrl = ci === undefined ? undefined : this.branchOfElement.get(ci);
-          if (ctrl === undefined) {
-            this.layoutIssues.push({
-              element: i,
-              code: 'dc-unknown-control',
-              message:
-                ci === undefined
-                  ? `${el.name} is controlled by the current of '${el.control}', which is not an element of this circuit; its gain is taken as 0.`
-                  : `${el.name} is controlled by the current of ${els[ci].name}, whose current is not a circuit unknown (use a voltage source, inductor or controlled voltage source); its gain is taken as 0.`,
-            });
-          }
-          if (el.kind === 'F') {
-            if (ctrl !== undefined) {
-              this.add(a, ctrl, gain);
-              this.add(b, ctrl, -gain);
-              this.readers.push({ kind: 'cccs', element: i, a, b, branch: ctrl, gain });
-            } else {
-              this.readers.push({ kind: 'open', element: i, a, b });
-            }
-          } else {
-            const k = this.branchOfElement.get(i)!;
-            this.stampBranchIncidence(a, b, k);
-            if (ctrl !== undefined) this.add(k, ctrl, -gain);
-            this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
-          }
-          break;
-        }
-      }
-    });
+      let b = builders.get(kind);
+      if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: new Int32List(), positions: new Int32List() }));
+      this.bindDevice(b, el, i, kind.terminals(el, unknownOfNode, internalOf.get(i) ?? NO_INTERNAL, branchOf));
+    }
+    return builders;
+  }
 
-    this.pattern = { n: this.size, rows: this.rowsList.toArray(), cols: this.colsList.toArray() };
-    this.linearValues = this.linearList.slice(0, this.rowsList.length);
-    this.deviceOrder = this.buildTables(builders, els.length);
+  /** One linear element's stamps and its reader. */
+  private stampLinear(el: Element, i: number, elementNamed: (name: string) => number | undefined): void {
+    const a = unknownOfNode(el.nodes[0]);
+    const b = unknownOfNode(el.nodes[1]);
+    switch (el.kind) {
+      case 'R':
+        this.stampResistor(el, i, a, b);
+        break;
+      case 'C':
+        this.readers.push({ kind: 'open', element: i, a, b });
+        break;
+      case 'L': {
+        const k = this.branchOfElement.get(i)!;
+        this.stampBranchIncidence(a, b, k);
+        this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+        break;
+      }
+      case 'V': {
+        const k = this.branchOfElement.get(i)!;
+        this.stampBranchIncidence(a, b, k);
+        this.sources.push({ element: i, kind: 'V', rows: [k, -1], nominal: this.finiteValue(i, el.dc, 'DC value', 'V') });
+        this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+        break;
+      }
+      case 'I': {
+        this.sources.push({ element: i, kind: 'I', rows: [a, b], nominal: this.finiteValue(i, el.dc, 'DC value', 'A') });
+        this.readers.push({ kind: 'source-current', element: i, a, b, hook: this.sources.length - 1 });
+        break;
+      }
+      case 'E': {
+        const k = this.branchOfElement.get(i)!;
+        const gain = this.finiteValue(i, el.gain, 'gain', '');
+        this.stampBranchIncidence(a, b, k);
+        this.add(k, unknownOfNode(el.nodes[2]), -gain);
+        this.add(k, unknownOfNode(el.nodes[3]), gain);
+        this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+        break;
+      }
+      case 'G': {
+        const gain = this.finiteValue(i, el.gain, 'gain', 'S');
+        const cp = unknownOfNode(el.nodes[2]);
+        const cn = unknownOfNode(el.nodes[3]);
+        this.add(a, cp, gain);
+        this.add(a, cn, -gain);
+        this.add(b, cp, -gain);
+        this.add(b, cn, gain);
+        this.readers.push({ kind: 'vccs', element: i, a, b, cp, cn, gain });
+        break;
+      }
+      case 'F':
+      case 'H':
+        this.stampCurrentControlled(el, i, a, b, elementNamed);
+        break;
+    }
+  }
+
+  private stampResistor(el: Resistor, i: number, a: number, b: number): void {
+    const r = el.resistance;
+    if (Number.isNaN(r)) {
+      this.layoutIssues.push({
+        element: i,
+        code: 'dc-value-unusable',
+        message: `The resistance of ${el.name} is not a number; the solver treats ${el.name} as an open circuit.`,
+      });
+      this.readers.push({ kind: 'open', element: i, a, b });
+      return;
+    }
+    if (r === 0) {
+      const k = this.branchOfElement.get(i)!;
+      this.stampBranchIncidence(a, b, k);
+      this.resistorStamps.setShort(i, k, this.entry(k, k));
+      this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
+      this.layoutIssues.push({
+        element: i,
+        code: 'dc-zero-resistance',
+        message: `${el.name} has zero resistance; the solver treats it as a short circuit and reports the current through it.`,
+      });
+      return;
+    }
+    if (r < 0) {
+      this.layoutIssues.push({
+        element: i,
+        code: 'dc-negative-resistance',
+        message: `${el.name} has a negative resistance (${r} Ω); the solver uses it as written, but no passive resistor behaves like this.`,
+      });
+    }
+    const g = 1 / r; // an infinite resistance is an open circuit (g = 0)
+    const aa = this.entry(a, a);
+    const bb = this.entry(b, b);
+    const ab = this.entry(a, b);
+    const ba = this.entry(b, a);
+    this.addAt(aa, g);
+    this.addAt(bb, g);
+    this.addAt(ab, -g);
+    this.addAt(ba, -g);
+    this.resistorStamps.setConductance(i, aa, bb, ab, ba, g);
+    this.readers.push({ kind: 'conductance', element: i, a, b, g });
+  }
+
+  /** F (current-controlled current source) and H (current-controlled voltage source): the gain on the controlling branch current. */
+  private stampCurrentControlled(el: Extract<Element, { kind: 'F' | 'H' }>, i: number, a: number, b: number, elementNamed: (name: string) => number | undefined): void {
+    const gain = this.finiteValue(i, el.gain, 'gain', el.kind === 'H' ? 'Ω' : '');
+    const ci = elementNamed(el.control);
+    const ctrl = ci === undefined ? undefined : this.branchOfElement.get(ci);
+    if (ctrl === undefined) {
+      this.layoutIssues.push({
+        element: i,
+        code: 'dc-unknown-control',
+        message:
+          ci === undefined
+            ? `${el.name} is controlled by the current of '${el.control}', which is not an element of this circuit; its gain is taken as 0.`
+            : `${el.name} is controlled by the current of ${this.circuit.elements[ci].name}, whose current is not a circuit unknown (use a voltage source, inductor or controlled voltage source); its gain is taken as 0.`,
+      });
+    }
+    if (el.kind === 'F') {
+      if (ctrl !== undefined) {
+        this.add(a, ctrl, gain);
+        this.add(b, ctrl, -gain);
+        this.readers.push({ kind: 'cccs', element: i, a, b, branch: ctrl, gain });
+      } else {
+        this.readers.push({ kind: 'open', element: i, a, b });
+      }
+      return;
+    }
+    const k = this.branchOfElement.get(i)!;
+    this.stampBranchIncidence(a, b, k);
+    if (ctrl !== undefined) this.add(k, ctrl, -gain);
+    this.readers.push({ kind: 'branch', element: i, a, b, branch: k });
   }
 
   /** Builds one table per kind present (registry order) and the element-ordered index of every instance. */
@@ -329,11 +488,11 @@ export class MnaLayout {
 
   /** Human-readable name of unknown `k`: a node name, an internal node, or the element whose branch current it is. */
   describeUnknown(k: number): string {
-    const info = this.unknowns[k];
-    if (!info) return `unknown ${k}`;
-    if (info.kind === 'node') return `node ${this.circuit.nodes[info.node]}`;
-    if (info.kind === 'internal') return info.label;
-    return `the current through ${this.circuit.elements[info.element].name}`;
+    if (!(k >= 0 && k < this.size)) return `unknown ${k}`;
+    const kind = this.unknownKind[k];
+    if (kind === NODE_UNKNOWN) return `node ${this.circuit.nodes[this.unknownOwner[k]]}`;
+    if (kind === INTERNAL_UNKNOWN) return this.internalLabels.get(k) ?? '';
+    return `the current through ${this.circuit.elements[this.unknownOwner[k]].name}`;
   }
 
   private finiteValue(i: number, v: number, what: string, unit: string): number {
@@ -359,20 +518,14 @@ export class MnaLayout {
     const usable = (r: number) => Number.isFinite(r) && r > 0;
     for (const i of changed) {
       const el = circuit.elements[i];
-      const stamp = this.resistorStamps.get(i);
-      if (el?.kind !== 'R' || stamp?.kind !== 'conductance' || !usable(el.resistance) || !usable(1 / stamp.g)) return false;
+      const g = this.resistorStamps.conductance(i);
+      if (el?.kind !== 'R' || g === undefined || !usable(el.resistance) || !usable(1 / g)) return false;
     }
     const conductances = new Map<number, number>();
     for (const i of changed) {
-      const stamp = this.resistorStamps.get(i) as Extract<ResistorStamp, { kind: 'conductance' }>;
       const g = 1 / (circuit.elements[i] as Resistor).resistance;
-      const delta = g - stamp.g;
-      const p = stamp.positions;
-      if (p[0] >= 0) this.linearValues[p[0]] += delta;
-      if (p[1] >= 0) this.linearValues[p[1]] += delta;
-      if (p[2] >= 0) this.linearValues[p[2]] -= delta;
-      if (p[3] >= 0) this.linearValues[p[3]] -= delta;
-      stamp.g = g;
+      this.resistorStamps.addDifference(i, g, this.linearValues);
+      this.resistorStamps.adopt(i, g);
       conductances.set(i, g);
     }
     for (const r of this.readers) if (r.kind === 'conductance' && conductances.has(r.element)) r.g = conductances.get(r.element)!;
@@ -399,15 +552,12 @@ export class MnaLayout {
   }
 
   private add(row: number, col: number, v: number): void {
-    const p = this.entry(row, col);
-    if (p >= 0) this.linearList[p] += v;
+    this.addAt(this.entry(row, col), v);
   }
 
-  private stampConductance(a: number, b: number, g: number): void {
-    this.add(a, a, g);
-    this.add(b, b, g);
-    this.add(a, b, -g);
-    this.add(b, a, -g);
+  /** Adds v to the linear value at pattern position p (none at −1, ground). */
+  private addAt(p: number, v: number): void {
+    if (p >= 0) this.linearList[p] += v;
   }
 
   /** Branch current k leaves node a and enters node b; the branch row reads V(a) − V(b) (further terms added by the caller). */
@@ -426,7 +576,8 @@ export class MnaLayout {
     for (let r = 0; r < nt; r++) b.terminals.push(terminals[r]);
     // Terminals often share an unknown (an intrinsic node without its series resistance is the netlist
     // node): such a pair's slot is the one already found for the first terminal on that unknown.
-    const first = new Array<number>(nt);
+    if (this.firstTerminal.length < nt) this.firstTerminal = new Int32Array(nt);
+    const first = this.firstTerminal;
     for (let r = 0; r < nt; r++) first[r] = terminals.indexOf(terminals[r]);
     const base = b.positions.length;
     for (let r = 0; r < nt; r++) {
@@ -444,11 +595,20 @@ export class MnaLayout {
  * layout's time at 100,000 elements.
  */
 class EntryIndex {
-  private rows = new Int32Array(1024);
-  private cols = new Int32Array(1024);
+  private rows: Int32Array;
+  private cols: Int32Array;
   /** Position + 1 at each slot, 0 for an empty slot. */
-  private slots = new Int32Array(1024);
+  private slots: Int32Array;
   private count = 0;
+
+  /** An index with room for `expected` entries before it grows (at most half its slots in use). */
+  constructor(expected: number) {
+    let size = 1024;
+    while (size < 2 * expected) size *= 2;
+    this.rows = new Int32Array(size);
+    this.cols = new Int32Array(size);
+    this.slots = new Int32Array(size);
+  }
 
   /** The position of (row, col), −1 when it has none. */
   get(row: number, col: number): number {
@@ -493,8 +653,12 @@ function slotHash(row: number, col: number): number {
 
 /** A list of 32-bit integers that grows by doubling: the layout's per-entry and per-terminal lists reach millions of entries. */
 class Int32List {
-  private data = new Int32Array(1024);
+  private data: Int32Array;
   length = 0;
+
+  constructor(capacity = 1024) {
+    this.data = new Int32Array(Math.max(1, capacity));
+  }
 
   push(v: number): void {
     if (this.length === this.data.length) {
@@ -513,4 +677,14 @@ class Int32List {
   toArray(): Int32Array {
     return this.data.slice(0, this.length);
   }
+}
+
+/** The unknown of a netlist node (ground, node 0, has none: −1). */
+function unknownOfNode(node: number): number {
+  return node - 1;
+}
+
+/** Whether an element has a branch-current unknown. */
+function hasBranch(el: Element): boolean {
+  return el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H' || (el.kind === 'R' && el.resistance === 0) || (el.kind === 'B' && el.output === 'V');
 }

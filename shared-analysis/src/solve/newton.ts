@@ -2,7 +2,7 @@
 
 import type { DeviceConditions, LoadTally, StartHint } from '../devices/device';
 import type { FactorResult, LinearSolver } from './linear';
-import type { MnaLayout } from './mna';
+import { BRANCH_UNKNOWN, type MnaLayout } from './mna';
 
 /**
  * Convergence tolerances. An unknown has settled when its update is within
@@ -92,9 +92,7 @@ export class NewtonEngine {
     this.residualScale = new Float64Array(n);
     this.lastFinite = new Float64Array(n);
     this.isVoltage = new Uint8Array(n);
-    layout.unknowns.forEach((u, k) => {
-      this.isVoltage[k] = u.kind === 'branch' ? 0 : 1;
-    });
+    for (let k = 0; k < n; k++) this.isVoltage[k] = layout.unknownKind[k] === BRANCH_UNKNOWN ? 0 : 1;
     this.sourceValues = new Float64Array(layout.sources.length);
   }
 
@@ -314,8 +312,7 @@ export class NewtonEngine {
    * unlimited iteration whose update and residual are both within TOLERANCES.
    */
   run(x: Float64Array, run: NewtonRun): NewtonOutcome {
-    const { layout, rhs, xNew } = this;
-    const n = layout.size;
+    const { layout, xNew } = this;
     for (const t of layout.tables) t.resetState(x, run.start);
     const linear = layout.tables.length === 0;
     let factored = false;
@@ -334,9 +331,7 @@ export class NewtonEngine {
         factored = true;
       }
       this.solveScaled(xNew);
-      let finite = true;
-      for (let k = 0; k < n; k++) if (!Number.isFinite(xNew[k])) finite = false;
-      if (!finite) return { status: 'non-finite', iterations: it, culprits: [] };
+      if (!allFinite(xNew)) return { status: 'non-finite', iterations: it, culprits: [] };
 
       // Convergence needs an unlimited iteration whose every update is settled and whose residual
       // F(x) = A(x)·x − b(x) (the exact KCL/branch residual at x when nothing was limited) is small in
@@ -352,6 +347,15 @@ export class NewtonEngine {
     }
     return { status: 'iteration-limit', iterations: run.maxIterations, unsettled };
   }
+}
+
+/**
+ * Whether every entry of v is finite. A function of its own: the Newton loop then has no long loop of its
+ * own, so V8 compiles it (with what it inlines) once rather than again at each entry of such a loop.
+ */
+function allFinite(v: Float64Array): boolean {
+  for (let k = 0; k < v.length; k++) if (!Number.isFinite(v[k])) return false;
+  return true;
 }
 
 const bits = new Float64Array(1);
