@@ -4,7 +4,7 @@ import type { BehaviouralSource } from '../circuit';
 import type { TwoTerminalRecord } from '../solve/types';
 import { evaluateProgram, type ProgramFailure } from './behaviour-program';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 
 /** Most controlling quantities per source (each takes two terminals: the plus and minus unknown). */
@@ -167,8 +167,8 @@ export class BehaviouralTable implements DeviceTable {
     return out;
   }
 
-  overdriven(): OverdrivenJunction[] {
-    return [];
+  overdriven(): readonly OverdrivenJunction[] {
+    return NOT_OVERDRIVEN;
   }
 }
 

@@ -3,7 +3,7 @@
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
 import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
@@ -792,15 +792,18 @@ export class BjtTable implements DeviceTable {
     return out;
   }
 
-  overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
+  overdriven(x: Float64Array, i: number): readonly OverdrivenJunction[] {
     const v = this.scratch;
     this.intrinsic(x, i, v);
     const vbe = v[0];
     const vbc = v[1];
+    if (!(this.par[i * PARAMS + P_IS] > 0)) return NOT_OVERDRIVEN;
+    const be = vbe / (this.nf[i] * this.vt) > EXP_ARG_LIMIT;
+    const bc = vbc / (this.nr[i] * this.vt) > EXP_ARG_LIMIT;
+    if (!be && !bc) return NOT_OVERDRIVEN;
     const out: OverdrivenJunction[] = [];
-    if (!(this.par[i * PARAMS + P_IS] > 0)) return out;
-    if (vbe / (this.nf[i] * this.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-emitter junction', volts: vbe });
-    if (vbc / (this.nr[i] * this.vt) > EXP_ARG_LIMIT) out.push({ junction: 'base-collector junction', volts: vbc });
+    if (be) out.push({ junction: 'base-emitter junction', volts: vbe });
+    if (bc) out.push({ junction: 'base-collector junction', volts: vbc });
     return out;
   }
 

@@ -38,6 +38,9 @@ export interface OverdrivenJunction {
   volts: number;
 }
 
+/** No overdriven junction: one shared empty list, since every solve asks every device (no list made per device per solve). */
+export const NOT_OVERDRIVEN: readonly OverdrivenJunction[] = Object.freeze([]);
+
 /** What one assembly pass over every table reports back to the Newton loop. Tables only ever set `limited` and append to `nonFinite`. */
 export interface LoadTally {
   /** Some junction or terminal voltage was limited (the point is not a true Newton point). */
@@ -95,8 +98,8 @@ export interface DeviceTable {
    * (columns an earlier `evaluate` of this table returned) when given, through `columnsFor`.
    */
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns;
-  /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (empty when none). */
-  overdriven(x: Float64Array, i: number): OverdrivenJunction[];
+  /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (`NOT_OVERDRIVEN` when none). */
+  overdriven(x: Float64Array, i: number): readonly OverdrivenJunction[];
   /**
    * Exact partial derivatives of every instance at `x` (no limiting; the table prepared for
    * `conditions`) with respect to the parameters `params`, for adjoint sensitivities

@@ -3,7 +3,7 @@
 import type { Diode } from '../circuit';
 import type { DiodeRecord, DiodeRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, saturationCurrentLogSlope, shiftJunction } from './physics';
@@ -246,9 +246,9 @@ export class DiodeTable implements DeviceTable {
     return out;
   }
 
-  overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
+  overdriven(x: Float64Array, i: number): readonly OverdrivenJunction[] {
     const v = this.junctionVoltage(x, i);
-    return this.is[i] > 0 && v / this.nvt[i] > EXP_ARG_LIMIT ? [{ junction: 'junction', volts: v }] : [];
+    return this.is[i] > 0 && v / this.nvt[i] > EXP_ARG_LIMIT ? [{ junction: 'junction', volts: v }] : NOT_OVERDRIVEN;
   }
 
   /**

@@ -3,7 +3,7 @@
 import type { Jfet } from '../circuit';
 import type { JfetRecord, JfetRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope } from './physics';
@@ -413,16 +413,19 @@ export class JfetTable implements DeviceTable {
     return out;
   }
 
-  overdriven(x: Float64Array, i: number): OverdrivenJunction[] {
+  overdriven(x: Float64Array, i: number): readonly OverdrivenJunction[] {
     const t = this.instances.terminals;
     const s = this.sign[i];
     const vg = voltage(x, t[i * T + G]);
-    const out: OverdrivenJunction[] = [];
-    if (!(this.is[i] > 0)) return out;
+    if (!(this.is[i] > 0)) return NOT_OVERDRIVEN;
     const vgs = s * (vg - voltage(x, t[i * T + S]));
     const vgd = s * (vg - voltage(x, t[i * T + D]));
-    if (vgs / this.nvt[i] > EXP_ARG_LIMIT) out.push({ junction: 'gate-source junction', volts: vgs });
-    if (vgd / this.nvt[i] > EXP_ARG_LIMIT) out.push({ junction: 'gate-drain junction', volts: vgd });
+    const gs = vgs / this.nvt[i] > EXP_ARG_LIMIT;
+    const gd = vgd / this.nvt[i] > EXP_ARG_LIMIT;
+    if (!gs && !gd) return NOT_OVERDRIVEN;
+    const out: OverdrivenJunction[] = [];
+    if (gs) out.push({ junction: 'gate-source junction', volts: vgs });
+    if (gd) out.push({ junction: 'gate-drain junction', volts: vgd });
     return out;
   }
 

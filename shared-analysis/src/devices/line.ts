@@ -3,7 +3,7 @@
 import type { TransmissionLine } from '../circuit';
 import type { TwoTerminalRecord } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 
 /** Terminals: port 1 (+, −), port 2 (+, −), the current of the signal conductor and of the return conductor. */
@@ -57,8 +57,8 @@ class LineTable implements DeviceTable {
     return out;
   }
 
-  overdriven(): OverdrivenJunction[] {
-    return [];
+  overdriven(): readonly OverdrivenJunction[] {
+    return NOT_OVERDRIVEN;
   }
 }
 

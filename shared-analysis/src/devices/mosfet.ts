@@ -3,7 +3,7 @@
 import type { Mosfet } from '../circuit';
 import type { MosRecord, MosRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
 import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue } from './physics';
@@ -409,8 +409,8 @@ export class MosfetTable implements DeviceTable {
     return out;
   }
 
-  overdriven(): OverdrivenJunction[] {
-    return [];
+  overdriven(): readonly OverdrivenJunction[] {
+    return NOT_OVERDRIVEN;
   }
 
   /**

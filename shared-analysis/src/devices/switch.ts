@@ -3,7 +3,7 @@
 import type { CurrentSwitch, VoltageSwitch } from '../circuit';
 import type { SwitchRecord, SwitchRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceTable, LoadTally, OverdrivenJunction } from './device';
-import { columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { modelParam } from './params';
 
@@ -180,8 +180,8 @@ class SwitchTable implements DeviceTable {
     return out;
   }
 
-  overdriven(): OverdrivenJunction[] {
-    return [];
+  overdriven(): readonly OverdrivenJunction[] {
+    return NOT_OVERDRIVEN;
   }
 }
 
