@@ -115,6 +115,11 @@ export class ResistorStamps {
   adopt(i: number, g: number): void {
     this.g[i] = g;
   }
+
+  /** Position k (0..3: (a,a), (b,b), (a,b), (b,a)) of element i's conductance stamp, −1 at ground. */
+  position(i: number, k: number): number {
+    return this.positions[4 * i + k];
+  }
 }
 
 /** Linear element letters the layout stamps itself; nonlinear ones come from the device registry. */
@@ -508,11 +513,11 @@ export class MnaLayout {
 
   /**
    * Takes the values of `circuit`, an edited copy of this layout's circuit with the same nodes, elements, kinds
-   * and models, where the resistors `changed` are the only elements whose values differ: their conductance
-   * stamps move by the difference, and the pattern, every position and the order of the unknowns stay. Each
-   * changed resistor must keep a finite positive resistance on both sides of the edit (a move to 0 Ω, an open
-   * or a negative value changes the unknowns or the layout's findings); otherwise nothing changes and the
-   * answer is false.
+   * and models, where the resistors `changed` are the only elements whose values differ: the entries their
+   * conductance stamps reach are summed again (`sumAgain`), and the pattern, every position and the order of
+   * the unknowns stay. Each changed resistor must keep a finite positive resistance on both sides of the edit
+   * (a move to 0 Ω, an open or a negative value changes the unknowns or the layout's findings); otherwise
+   * nothing changes and the answer is false.
    */
   adoptResistances(circuit: Circuit, changed: readonly number[]): boolean {
     const usable = (r: number) => Number.isFinite(r) && r > 0;
@@ -524,13 +529,63 @@ export class MnaLayout {
     const conductances = new Map<number, number>();
     for (const i of changed) {
       const g = 1 / (circuit.elements[i] as Resistor).resistance;
-      this.resistorStamps.addDifference(i, g, this.linearValues);
       this.resistorStamps.adopt(i, g);
       conductances.set(i, g);
     }
-    for (const r of this.readers) if (r.kind === 'conductance' && conductances.has(r.element)) r.g = conductances.get(r.element)!;
+    this.sumAgain(conductances);
     this.circuit = circuit;
     return true;
+  }
+
+  /**
+   * Gives the edited resistors' readers their new conductances `changed` (element → g) and sums the node-to-node entries
+   * they stamp again from zero, term by term in element order as the constructor did, so they are the very numbers a new
+   * layout of the edited circuit would hold. Moving an entry by the difference of the old and new conductance rounds
+   * otherwise, and a loop made singular by the edit would then keep a residue of one rounding, which the factorisation
+   * cannot tell from a pivot (a cold analysis finds the loop singular). Node-to-node entries get terms from conductances
+   * and voltage-controlled current sources only, each in the rows of its own two nodes.
+   */
+  private sumAgain(changed: Map<number, number>): void {
+    const values = this.linearValues;
+    const stamps = this.resistorStamps;
+    const positions = new Set<number>();
+    const row = new Uint8Array(this.size);
+    for (const i of changed.keys()) {
+      for (let k = 0; k < 4; k++) {
+        const p = stamps.position(i, k);
+        if (p < 0) continue;
+        positions.add(p);
+        values[p] = 0;
+        row[this.rowsList.at(p)] = 1;
+      }
+    }
+    const add = (p: number, v: number): void => {
+      if (positions.has(p)) values[p] += v;
+    };
+    const at = (r: number, c: number): number => (r < 0 || c < 0 ? -1 : this.entries.get(r, c));
+    for (const r of this.readers) {
+      // Ground (−1) is never a row here.
+      if (row[r.a] !== 1 && row[r.b] !== 1) continue;
+      if (r.kind === 'conductance') {
+        r.g = changed.get(r.element) ?? r.g;
+        // With one node in a summed row, only that node's diagonal is summed (an entry between two nodes is summed only
+        // when both are ends of edited resistors): the diagonal straight from `nodeDiagonals`, without a lookup, since a
+        // rail's diagonal takes a term from every element on the rail.
+        if (row[r.a] !== 1) values[this.nodeDiagonals[r.b]] += r.g;
+        else if (row[r.b] !== 1) values[this.nodeDiagonals[r.a]] += r.g;
+        else {
+          add(stamps.position(r.element, 0), r.g);
+          add(stamps.position(r.element, 1), r.g);
+          add(stamps.position(r.element, 2), -r.g);
+          add(stamps.position(r.element, 3), -r.g);
+        }
+      } else if (r.kind === 'vccs') {
+        add(at(r.a, r.cp), r.gain);
+        add(at(r.a, r.cn), -r.gain);
+        add(at(r.b, r.cp), -r.gain);
+        add(at(r.b, r.cn), r.gain);
+      }
+    }
   }
 
   /** Pattern position of (row, col), registering it on first use; −1 when either is ground. */
