@@ -1,11 +1,11 @@
 // The analysis worker thread: runs the engine off the server's main thread and answers sweeps, sizing and sizing fixes from its own last analyses.
 
-import { parentPort, receiveMessageOnPort, workerData } from 'node:worker_threads';
+import { parentPort, workerData } from 'node:worker_threads';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
 import { sizingFixes } from '../../shared-analysis/src/fixes/index';
-import { addCorners, analyseSession, AnalysisStopped, monteCarloChunk, prepareMonteCarlo, structureBeforeCorners, type MonteCarloSetup } from '../../shared-analysis/src/service';
+import { addCorners, analyseSession, AnalysisStopped, monteCarloChunk, prepareMonteCarlo, type MonteCarloSetup } from '../../shared-analysis/src/service';
 import { monteCarloFigures } from '../../shared-analysis/src/variation/monte-carlo';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
@@ -15,7 +15,6 @@ import { cornerColumns, type CornerColumns } from '../../shared-analysis/src/str
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
-import type { Structure } from '../../shared-analysis/src/structures/types';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart, type SentAnalysis } from './analysis-transfer';
@@ -31,11 +30,8 @@ const stopFlag: Int32Array | undefined = workerData && (workerData as { stop?: I
 /** The check the engine makes before each stage and corner: has the main thread moved the generation past `generation`? */
 const stopper = (generation: number) => (stopFlag ? () => Atomics.load(stopFlag, STOP_GENERATION) !== generation : undefined);
 const openTexts = new Map<string, string>();
-/**
- * The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once
- * sent), and the list of structures its structure parts are sliced from (see `keepStructuresAsSent`).
- */
-let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[]; structures: Structure[]; of: Structure[] } | undefined;
+/** The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once sent). */
+let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[] } | undefined;
 
 /** What the worker keeps of a root's last analysis to answer sweeps and sizing without re-solving. */
 interface Kept {
@@ -181,9 +177,7 @@ function handle(msg: ToWorker): void {
         });
         const sentBefore = sentAnalyses.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
-        // The structure parts slice a list of their own, which `keepStructuresAsSent` can point at copies.
-        const structures = [...analysis.structures];
-        const { header, parts, findingParts, prepare } = splitAnalysisLazily({ ...analysis, structures }, held);
+        const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
         const keep = (sent: SentAnalysis) => sentAnalyses.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         const ms = performance.now() - t0;
         if (parts.length <= SMALL_RESULT_PARTS) {
@@ -192,14 +186,13 @@ function handle(msg: ToWorker): void {
           const inline = parts.map((make) => make());
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, inline });
         } else {
-          outgoing = { id: msg.id, parts, structures, of: analysis.structures };
+          outgoing = { id: msg.id, parts };
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms });
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
-        // The session (parsed cards, solver scratch) is garbage once this handler returns; when a corner phase
-        // follows, it is collected after that phase, which would otherwise start only after the collection.
-        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && !cornersNext) setImmediate(collectGarbage);
+        // The session (parsed cards, solver scratch) is garbage once this handler returns.
+        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
       } catch (e) {
         if (e instanceof AnalysisStopped && previous) {
           revertValueEdit(previous);
@@ -270,14 +263,32 @@ function handle(msg: ToWorker): void {
       }
       return;
     }
-    case 'corners':
-      try {
-        solveCorners(msg);
-      } finally {
-        // After this phase's answer: messages that came meanwhile, in their order.
-        handleDeferred();
+    case 'corners': {
+      const kept = lastAnalysis.get(msg.uri);
+      if (!kept || kept.analysis.version !== msg.version || !kept.solver || !kept.nominal) {
+        post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
+        return;
       }
+      let findings;
+      try {
+        findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop: stopper(msg.generation), incremental: incrementals.get(msg.uri) });
+      } catch (e) {
+        if (!(e instanceof AnalysisStopped)) throw e;
+        // Superseded: the next analysis replaces this one; its structures keep no half-filled corners.
+        post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
+        return;
+      }
+      kept.nominal = undefined;
+      if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
+      // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.
+      const corners: Record<string, CornerColumns> = nameTable();
+      for (const st of kept.analysis.structures) {
+        const cols = cornerColumns(st);
+        if (cols) corners[st.id] = cols;
+      }
+      post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
       return;
+    }
     case 'sizing-fixes': {
       const kept = lastAnalysis.get(msg.uri);
       const a = kept?.analysis;
@@ -293,77 +304,11 @@ function handle(msg: ToWorker): void {
   }
 }
 
-/** The corner phase of the last analysis of a root (analysed with `cornersLater`), answered with its findings and each structure's corners. */
-function solveCorners(msg: Extract<ToWorker, { type: 'corners' }>): void {
-  const kept = lastAnalysis.get(msg.uri);
-  if (!kept || kept.analysis.version !== msg.version || !kept.solver || !kept.nominal) {
-    post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
-    return;
-  }
-  let findings;
-  // Asked for while the main thread still takes the analysis in: its part requests are answered between corner solves.
-  const stop = stopper(msg.generation);
-  if (outgoing?.of === kept.analysis.structures) keepStructuresAsSent(outgoing);
-  const shouldStop = outgoing ? () => (answerPartRequests(), stop?.() ?? false) : stop;
-  try {
-    findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop, incremental: incrementals.get(msg.uri) });
-  } catch (e) {
-    if (!(e instanceof AnalysisStopped)) throw e;
-    // Superseded: the next analysis replaces this one; its structures keep no half-filled corners.
-    post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
-    return;
-  }
-  kept.nominal = undefined;
-  if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
-  // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.
-  const corners: Record<string, CornerColumns> = nameTable();
-  for (const st of kept.analysis.structures) {
-    const cols = cornerColumns(st);
-    if (cols) corners[st.id] = cols;
-  }
-  post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
-  // What the analysis before this phase left (see 'analyse').
-  if ((kept.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
-}
-
-/**
- * Before a corner phase that runs while the main thread still takes the analysis in: the structure parts not yet
- * sent are sliced from copies the phase does not write into, so they travel as the first pass left them, like the
- * ones already sent (the corners follow in the phase's own message).
- */
-function keepStructuresAsSent(parts: NonNullable<typeof outgoing>): void {
-  const list = parts.structures;
-  for (let i = 0; i < list.length; i++) list[i] = structureBeforeCorners(list[i]!);
-}
-
-/** Messages taken off the port during a corner phase that are not part requests: handled in order once it ends. */
-const deferred: ToWorker[] = [];
-
-/**
- * Answers the part requests waiting on the port now (a corner phase asks between its solves), so the main thread
- * takes the analysis in while the corners are solved; any other message waits in `deferred`, keeping its order.
- */
-function answerPartRequests(): void {
-  if (!parentPort) return;
-  for (let m = receiveMessageOnPort(parentPort); m; m = receiveMessageOnPort(parentPort)) {
-    const msg = m.message as ToWorker;
-    if (deferred.length === 0 && (msg.type === 'next-parts' || msg.type === 'drop-parts')) guarded(msg);
-    else deferred.push(msg);
-  }
-}
-
-function handleDeferred(): void {
-  // Taken one by one: a deferred corner phase may defer messages of its own.
-  for (let msg = deferred.shift(); msg; msg = deferred.shift()) guarded(msg);
-}
-
-function guarded(msg: ToWorker): void {
+parentPort?.on('message', (msg: ToWorker) => {
   try {
     handle(msg);
   } catch (e) {
     const id = 'id' in msg && typeof msg.id === 'number' ? msg.id : -1;
     post({ type: 'failed', id, message: errorText(e) });
   }
-}
-
-parentPort?.on('message', guarded);
+});

@@ -440,20 +440,15 @@ async function pump(): Promise<void> {
     // The diagnostics of a large result go out as soon as its findings are in; hovers and the rest answer
     // from the last analysis until the whole result is taken in (a code action on a new diagnostic waits
     // for that). A small result is taken in at once, so its diagnostics go out with everything else.
-    let corners: ReturnType<WorkerHost['corners']> | undefined;
     const onFindings = (partial: Analysis) => {
-      if (job.superseded || documents.get(uri)?.version !== partial.version) return;
-      publish(new Set([uri, ...Object.keys(partial.documents)]), uri, partial);
-      // The worker solves the corners while this thread takes the rest of the result in (it answers the part
-      // requests between its solves); a result without structures answers stale at once.
-      if (cornersLater) (corners = host.corners(uri, job.version)).catch(() => undefined);
+      if (!job.superseded && documents.get(uri)?.version === partial.version) publish(new Set([uri, ...Object.keys(partial.documents)]), uri, partial);
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
     if (current && current.version === analysis.version) {
       accept(uri, analysis, ms);
-      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await cornerPhase(uri, analysis, corners);
+      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await cornerPhase(uri, analysis);
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {
@@ -470,15 +465,12 @@ async function pump(): Promise<void> {
   }
 }
 
-/**
- * Solves the corners of a just-accepted analysis in the worker (or waits for the solve `asked` while it was taken in)
- * and adds their findings and results to it, then re-publishes.
- */
-async function cornerPhase(uri: string, analysis: Analysis, asked?: ReturnType<WorkerHost['corners']>): Promise<void> {
+/** Solves the corners of a just-accepted analysis in the worker and adds their findings and results to it, then re-publishes. */
+async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   const t0 = Date.now();
   let r: Awaited<ReturnType<WorkerHost['corners']>>;
   try {
-    r = await (asked ?? host.corners(uri, analysis.version ?? 0));
+    r = await host.corners(uri, analysis.version ?? 0);
   } catch (e) {
     // The nominal diagnostics stay published; only the corner additions are lost.
     log(`The corner phase of ${basename(uri)} did not finish: ${e instanceof Error ? e.message : String(e)}`);

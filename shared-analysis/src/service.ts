@@ -343,19 +343,6 @@ function cornerPhaseParts(structures: Structure[]): Record<string, unknown> {
 }
 
 /**
- * A copy of a structure that its corner phase (`addCorners`) leaves as it is: the phase sets the structure's
- * `corners` and `variation`, its derived voltages' corner ranges and temperature coefficients, and its start-up
- * record's corners, so those are copied one level down and the rest is shared. For a host that sends the
- * structures as the first pass left them while their corners are being solved.
- */
-export function structureBeforeCorners(s: Structure): Structure {
-  const copy: Structure = { ...s };
-  if (s.voltages) copy.voltages = s.voltages.map((v) => ({ ...v }));
-  if (s.startup) copy.startup = { ...s.startup };
-  return copy;
-}
-
-/**
  * The resistor-value fixes of one `target-missed` finding of `session.analysis` (or a copy of
  * it, e.g. after a JSON round trip), computed now: a few DC solves. Empty for any other
  * finding, or when the session has no solver.

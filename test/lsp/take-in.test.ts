@@ -4,14 +4,9 @@
 import { describe, expect, it } from 'vitest';
 import { join } from 'node:path';
 import { existsSync } from 'node:fs';
-import { Worker } from 'node:worker_threads';
-import type { FromWorker, ToWorker } from '../../server/src/worker-messages';
-import type { Structure } from '../../shared-analysis/src/structures/types';
-import { pushAll } from '../../shared-analysis/src/arrays';
 import { WorkerHost } from '../../server/src/worker-host';
 import { adoptKeptCards } from '../../server/src/analysis-transfer';
-import { addCorners, analyse, analyseSession } from '../../shared-analysis/src/service';
-import { cornerColumns } from '../../shared-analysis/src/structures/corner-columns';
+import { analyse } from '../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
@@ -90,61 +85,6 @@ describe('taking a result in', () => {
       expect(fewer).toBeLessThan(whole);
     } finally {
       host.dispose();
-    }
-  });
-
-  it('solves the corners while a large result is taken in: the structures arrive as the first pass left them, the corners as a plain corner phase makes them', async () => {
-    const script = join(__dirname, '../../dist/analysis-worker.js');
-    if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
-    // The worker driven by its messages, so the order is fixed: the corners are asked for before any part, the first
-    // part while they are solved, and the rest (the structures among them) after the phase has written into its structures.
-    const worker = new Worker(script, { workerData: { stop: new Int32Array(new SharedArrayBuffer(4)) } });
-    const answers = new Map<number, (m: FromWorker) => void>();
-    worker.on('message', (m: FromWorker) => answers.get((m as { id: number }).id)?.(m));
-    let nextId = 1;
-    const ask = (build: (id: number) => ToWorker) => {
-      const id = nextId++;
-      return new Promise<FromWorker>((resolve) => {
-        answers.set(id, resolve);
-        worker.postMessage(build(id));
-      });
-    };
-    // 800 invented NPN sink cells whose loads leave some outputs close to saturation at the low-supply corners:
-    // structures, corner findings and over 32 parts (cards, elements, devices, nodes, 16 parts of structures).
-    const cells = Array.from({ length: 800 }, (_, i) => `RR${i} vcc r${i} 4.3k\nQR${i} r${i} r${i} 0 QN\nQO${i} o${i} r${i} 0 QN\nRL${i} vcc o${i} ${40 + (i % 9)}00`);
-    const text = `sink cells\nVCC vcc 0 5\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n${cells.join('\n')}\n.end\n`;
-    try {
-      worker.postMessage({ type: 'set-document', uri: URI, text } satisfies ToWorker);
-      const analysed = await ask((id) => ({ type: 'analyse', id, uri: URI, version: 1, options: { corners: { enabled: false } }, cornersLater: true, generation: 0 }));
-      if (analysed.type !== 'analysed') throw new Error(JSON.stringify(analysed));
-      const order: string[] = [];
-      const cornered = ask((id) => ({ type: 'corners', id, uri: URI, version: 1, generation: 0 })).then((m) => (order.push(m.type), m));
-      // Asked for while the corners are solved: answered between two corner solves, before the phase ends.
-      const firstPart = ask((id) => ({ type: 'next-parts', analysisId: analysed.id, asks: [{ id, index: 0 }] })).then((m) => (order.push(m.type), m));
-      const [solved] = await Promise.all([cornered, firstPart]);
-      expect(order).toEqual(['part', 'cornered']);
-      if (solved.type !== 'cornered') throw new Error(JSON.stringify(solved));
-      const structures: Structure[] = [];
-      for (let index = 1; index < analysed.parts; index++) {
-        const part = await ask((id) => ({ type: 'next-parts', analysisId: analysed.id, asks: [{ id, index }] }));
-        if (part.type === 'part' && part.part.kind === 'structures') pushAll(structures, part.part.items);
-      }
-      // The independent computation: the same two phases run in this thread, one after the other.
-      const direct = analyseSession({ uri: URI, text, version: 1 }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false } });
-      const firstPass = structuredClone(direct.analysis.structures);
-      const findings = addCorners(direct.analysis, { solver: direct.solver!, nominal: direct.nominal! });
-      expect(structures).toHaveLength(800);
-      expect(structures).toEqual(firstPass);
-      expect(solved.stale).toBeFalsy();
-      expect(findings.length).toBeGreaterThan(0);
-      expect(JSON.stringify(solved.findings)).toBe(JSON.stringify(findings));
-      for (const s of direct.analysis.structures) {
-        const mine = solved.corners[s.id]!;
-        const theirs = cornerColumns(s)!;
-        expect([mine.iout, mine.headroom, mine.iref, mine.outOfRegion]).toEqual([theirs.iout, theirs.headroom, theirs.iref, theirs.outOfRegion]);
-      }
-    } finally {
-      await worker.terminate();
     }
   });
 
