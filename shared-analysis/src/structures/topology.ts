@@ -136,14 +136,16 @@ export class Topology {
       this.atLists.push(undefined);
       this.conductingLists.push(undefined);
     }
-    const shared = from && from.strayAttached.size === 0 ? from.index() : this.build();
+    // A topology with connections outside `circuit.nodes` keeps them in per-node lists of its own elements: built afresh.
+    const followed = from !== undefined && from.strayAttached.size === 0 ? from : undefined;
+    const shared = followed ? followed.index() : this.build();
     this.rowStart = shared.rowStart;
     this.rowElement = shared.rowElement;
     this.rowSlot = shared.rowSlot;
     this.nodeIndex = shared.nodeIndex;
     this.elementIndex = shared.elementIndex;
     this.transistorElement = shared.transistorElement;
-    if (from && from.strayAttached.size === 0) this.follow(from);
+    if (followed) this.follow(followed);
   }
 
   private index(): SharedIndex {
