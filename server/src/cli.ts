@@ -28,6 +28,7 @@ import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../..
 import { nameTable } from '../../shared-analysis/src/names';
 import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
 import { expandFiles, Progress, runPool } from './batch';
+import { EXIT } from './cli-exit';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import { OUTPUT_CHARACTERISTIC_CSS, renderOutputCharacteristicSvg } from '../../shared-analysis/src/view/plot';
 
@@ -36,17 +37,7 @@ export const CAUTION =
   'Caution: these figures are design-review estimates, not a sign-off. Mains-powered and high-voltage ' +
   'circuits need review by a qualified person under local codes and licensed practice.';
 
-/** Exit codes of the `qpoint` command (documented in the README and in the usage text). */
-export const EXIT = {
-  /** Every file was checked and nothing reached --fail-level. */
-  clean: 0,
-  /** Every file was checked and a finding reached --fail-level. */
-  findings: 1,
-  /** The command line was wrong (usage printed on stderr). */
-  usage: 2,
-  /** qpoint could not do the job: a file could not be read, or an analysis stopped with an internal error. */
-  failed: 3,
-} as const;
+export { EXIT };
 
 const USAGE = `Usage:
   qpoint check [options] [--] FILE...    check netlists for CI

@@ -9,7 +9,9 @@
 // Every figure is process CPU time (user + system) of a child process that does one thing, and
 // its peak resident memory, so sizes do not share a heap. What is measured for each size:
 //   cli        the CLI in-process as `qpoint check --format json FILE` writes it (corners on), output
-//              counted and dropped;
+//              counted and dropped, in a process started with the V8 flags the bin uses for a file of
+//              that size (server/src/cli-launch.ts; the bin's first process, which only starts this
+//              one, is not counted: about 0.05 s);
 //   cli-nc     the same with --no-corners;
 //   engine     the nominal solve and the corner phase alone (DcSolver + solve + addCorners) on an
 //              already elaborated circuit;
@@ -32,10 +34,11 @@
 // L. W. Nagel, "SPICE2", UC Berkeley ERL M520, 1975).
 
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, statSync, writeFileSync } from 'node:fs';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { main } from '../../server/src/cli';
+import { relaunchFlags, thisMachine } from '../../server/src/cli-launch';
 import { addCorners, analyseSession } from '../../shared-analysis/src/service';
 import { sizingFixes, sizingRequest } from '../../shared-analysis/src/fixes/index';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
@@ -414,7 +417,9 @@ function child(args: string[]): void {
 }
 
 function runChild(what: string, file: string, elements: number): Record<string, number & unknown> & { ms: number; maxRssMB: number } {
-  const r = spawnSync(process.execPath, [__filename, '--child', what, file, String(elements)], { encoding: 'utf8', maxBuffer: 1 << 26 });
+  // The CLI's children run under the V8 flags the `qpoint` bin starts a run of this size with (server/src/cli-launch.ts).
+  const flags = what === 'cli' || what === 'cli-nc' ? (relaunchFlags(statSync(file).size, false, thisMachine()) ?? []) : [];
+  const r = spawnSync(process.execPath, [...flags, __filename, '--child', what, file, String(elements)], { encoding: 'utf8', maxBuffer: 1 << 26 });
   const line = (r.stderr ?? '').split('\n').find((l) => l.startsWith('@@'));
   if (!line) throw new Error(`${what} on ${elements} elements failed: ${r.stderr}`);
   return JSON.parse(line.slice(2));

@@ -1,0 +1,102 @@
+// How the `qpoint` bin starts the CLI for the netlists it is given. A run on large netlists is started again in a
+// Node process with V8 settings for a long batch job; every other run goes on in this process. Only Node's own
+// modules and the exit codes are used here: the loader decides before it loads the CLI bundle, so a run that
+// starts again never compiles the bundle twice.
+import { spawn } from 'node:child_process';
+import { statSync } from 'node:fs';
+import { totalmem } from 'node:os';
+import { getHeapStatistics } from 'node:v8';
+import { EXIT } from './cli-exit';
+
+/**
+ * Netlist bytes from which a run is started again with LARGE_RUN_FLAGS: about 5,000 elements of a bias array
+ * (25 bytes of text each). Below it the second start (about a tenth of a second of CPU) would cost more than the
+ * flags save; above it they save about half the whole process's CPU (docs/PERFORMANCE.md, "The CLI process").
+ */
+export const LARGE_RUN_BYTES = 128 * 1024;
+
+/**
+ * V8 settings for a large run. A young generation of 64 MB semi-spaces lets the analysis's short-lived objects die
+ * before a collection copies them (the default 16 MB collects about four times as often, each time copying what a
+ * corner or a structure still holds). `--single-threaded` keeps the compiler and the collector on this thread: on
+ * a batch run their helper threads cost more CPU than they save in wall time (about a third of the whole process's
+ * CPU went to them at 20,000 elements, for no shorter run).
+ */
+export const LARGE_RUN_FLAGS: readonly string[] = ['--max-semi-space-size=64', '--single-threaded'];
+
+/** Netlist bytes beyond which the default heap may not hold the analysis (about 8 KB of heap per element). */
+const HEAP_SIZED_BYTES = 8 * 1024 * 1024;
+
+/** Set in the environment of the process started again, so it does not start another; the loader reads it too. */
+export const RELAUNCHED = 'QPOINT_CLI_STARTED_FOR_SIZE';
+
+/** The total size of the files named on the command line (options and names that are not files count nothing). */
+export function namedFileBytes(args: readonly string[]): number {
+  let bytes = 0;
+  for (const a of args) {
+    if (a.startsWith('-')) continue;
+    try {
+      const st = statSync(a);
+      if (st.isFile()) bytes += st.size;
+    } catch {
+      // Not a file (an option's value, a missing file): the CLI reports what it must.
+    }
+  }
+  return bytes;
+}
+
+/** What the machine offers, passed in so the choice can be checked without a large machine. */
+export interface MachineLimits {
+  /** Bytes of memory. */
+  totalMemory: number;
+  /** The heap this process may grow to, bytes. */
+  heapLimit: number;
+}
+
+/**
+ * The Node arguments to start the run again with (before the script and its arguments), or undefined when this
+ * process should run it: not already started again, and the named netlists at least LARGE_RUN_BYTES. Beyond
+ * HEAP_SIZED_BYTES the heap is also sized: about 500 bytes of heap per byte of netlist, at most three quarters of
+ * the machine's memory, when that is more than a tenth above what this process has.
+ */
+export function relaunchFlags(inputBytes: number, alreadyRelaunched: boolean, machine: MachineLimits): string[] | undefined {
+  if (alreadyRelaunched || inputBytes < LARGE_RUN_BYTES) return undefined;
+  const flags = [...LARGE_RUN_FLAGS];
+  if (inputBytes >= HEAP_SIZED_BYTES) {
+    const mb = Math.min(Math.ceil((inputBytes * 500) / 2 ** 20), Math.floor((machine.totalMemory * 0.75) / 2 ** 20));
+    if (mb > (machine.heapLimit / 2 ** 20) * 1.1) flags.push(`--max-old-space-size=${mb}`);
+  }
+  return flags;
+}
+
+/** This process's limits. */
+export function thisMachine(): MachineLimits {
+  return { totalMemory: totalmem(), heapLimit: getHeapStatistics().heap_size_limit };
+}
+
+/** Signals a user or a job runner sends to stop a run: passed on to the second process, which then ends both. */
+const STOP_SIGNALS: readonly NodeJS.Signals[] = ['SIGINT', 'SIGTERM', 'SIGHUP'];
+
+/**
+ * Runs the CLI again in a Node process started with `flags` (then this process's own Node arguments), on the same
+ * standard streams; this process ends with its exit code, or by the signal that stopped it.
+ */
+export function runAgainWith(flags: readonly string[], script: string, args: readonly string[]): void {
+  const child = spawn(process.execPath, [...flags, ...process.execArgv, script, ...args], {
+    stdio: 'inherit',
+    env: { ...process.env, [RELAUNCHED]: '1' },
+  });
+  const passOn = (signal: NodeJS.Signals): void => {
+    child.kill(signal);
+  };
+  for (const s of STOP_SIGNALS) process.on(s, passOn);
+  child.on('error', (e) => {
+    process.stderr.write(`qpoint: could not start the analysis process: ${e.message}\n`);
+    process.exitCode = EXIT.failed;
+  });
+  child.on('exit', (code, signal) => {
+    for (const s of STOP_SIGNALS) process.off(s, passOn);
+    if (signal) process.kill(process.pid, signal);
+    else process.exitCode = code ?? EXIT.failed;
+  });
+}

@@ -1,0 +1,138 @@
+// How the `qpoint` bin starts a run (server/src/cli-launch.ts): large netlists are analysed in a second Node process
+// started with V8 flags for a batch job. The choice is checked against the rule written out here; the second process
+// must print what the bundle alone prints, read the code cache made for its flags, and end when the first is stopped.
+import { describe, expect, it } from 'vitest';
+import { spawn, spawnSync } from 'node:child_process';
+import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { LARGE_RUN_BYTES, LARGE_RUN_FLAGS, namedFileBytes, relaunchFlags } from '../../server/src/cli-launch';
+import { CLI, ROOT, runCli, scratchFolder } from './harness';
+
+const scratch = scratchFolder('qpoint-launch-');
+const MB = 2 ** 20;
+const bigMachine = { totalMemory: 64 * 1024 * MB, heapLimit: 4 * 1024 * MB };
+
+/** An invented NPN sink array of `n` cells (reference resistor, diode-connected device, output device, load). */
+function sinkArray(n: number, comment = 0): string {
+  const lines = ['NPN sink array', 'VCC vcc 0 DC 5', '.model QN NPN (IS=1e-15 BF=120 VAF=80)'];
+  for (let i = 0; i < n; i++) lines.push(`RR${i} vcc r${i} ${10 + (i % 7)}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN`, `RL${i} vcc o${i} ${1 + (i % 3)}k`);
+  // Comment lines make the file large without making the analysis long.
+  for (let i = 0; i < comment; i++) lines.push(`* note ${i}: the cells above are sized for about 0.4 mA each`);
+  return [...lines, '.end', ''].join('\n');
+}
+
+describe('which runs start again', () => {
+  it('starts netlists from LARGE_RUN_BYTES again with the large-run flags, once', () => {
+    expect(relaunchFlags(LARGE_RUN_BYTES - 1, false, bigMachine)).toBeUndefined();
+    expect(relaunchFlags(LARGE_RUN_BYTES, false, bigMachine)).toEqual(LARGE_RUN_FLAGS);
+    expect(relaunchFlags(LARGE_RUN_BYTES, true, bigMachine)).toBeUndefined();
+    expect(relaunchFlags(100 * MB, true, bigMachine)).toBeUndefined();
+  });
+
+  it('sizes the heap beyond 8 MB of netlist: 500 bytes of heap a byte, at most three quarters of memory', () => {
+    // 20 MB of netlist wants 10,000 MB of heap; a 4 GB heap is less, so the flag is given.
+    expect(relaunchFlags(20 * MB, false, bigMachine)).toEqual([...LARGE_RUN_FLAGS, '--max-old-space-size=10000']);
+    // On a 8 GB machine the cap is 6,144 MB.
+    expect(relaunchFlags(20 * MB, false, { totalMemory: 8 * 1024 * MB, heapLimit: 2 * 1024 * MB })).toEqual([...LARGE_RUN_FLAGS, '--max-old-space-size=6144']);
+    // A heap already within a tenth of what is wanted is kept (9 MB wants 4,500 MB; 4,096 × 1.1 = 4,506 MB).
+    expect(relaunchFlags(9 * MB, false, bigMachine)).toEqual(LARGE_RUN_FLAGS);
+  });
+
+  it('counts the files named, not options, option values or missing files', () => {
+    const a = scratch.file('a.cir', 'x'.repeat(1000));
+    const b = scratch.file('b.cir', 'y'.repeat(234));
+    expect(namedFileBytes(['check', '--format', 'json', a, '--fail-level', 'error', b, join(scratch.dir, 'missing.cir'), scratch.dir])).toBe(1234);
+  });
+});
+
+describe('a run started again', () => {
+  it('prints what the bundle alone prints, with its exit code', () => {
+    const netlist = scratch.file('large.cir', sinkArray(40, 3000));
+    expect(readFileSync(netlist).length).toBeGreaterThanOrEqual(LARGE_RUN_BYTES);
+    for (const args of [['check', '--format', 'sarif', netlist], ['report', netlist]]) {
+      const started = runCli(args);
+      const alone = spawnSync(process.execPath, [join(ROOT, 'dist/cli-main.js'), ...args], { cwd: ROOT, encoding: 'utf8' });
+      expect(started.stdout).toBe(alone.stdout);
+      expect(started.stderr).toBe(alone.stderr);
+      expect(started.code).toBe(alone.status);
+    }
+  });
+
+  it('is a second process, with this Node’s own arguments passed on; a small run is not', () => {
+    // Each Node process started with --cpu-prof writes one profile when it ends.
+    const profiles = (netlist: string): number => {
+      const out = mkdtempSync(join(scratch.dir, 'profiles-'));
+      spawnSync(process.execPath, ['--cpu-prof', `--cpu-prof-dir=${out}`, CLI, 'check', netlist], { cwd: ROOT });
+      return readdirSync(out).filter((f) => f.endsWith('.cpuprofile')).length;
+    };
+    expect(profiles(scratch.file('big.cir', sinkArray(4, 3000)))).toBe(2);
+    expect(profiles(scratch.file('small.cir', sinkArray(4)))).toBe(1);
+  });
+
+  it('reads a code cache this Node accepts under the large-run flags', () => {
+    const bundle = join(ROOT, 'dist/cli-main.js');
+    const check = `
+      const { readFileSync } = require('node:fs');
+      const { Script } = require('node:vm');
+      const source = readFileSync(${JSON.stringify(bundle)}, 'utf8');
+      const script = new Script('(function (exports, require, module, __filename, __dirname) {' + source + '\\n})', {
+        filename: ${JSON.stringify(bundle)},
+        cachedData: readFileSync(${JSON.stringify(join(ROOT, 'dist/cli-main-large-run.cache'))}),
+      });
+      process.stdout.write(String(script.cachedDataRejected));`;
+    const r = spawnSync(process.execPath, [...LARGE_RUN_FLAGS, '-e', check], { cwd: ROOT, encoding: 'utf8' });
+    expect(r.stderr).toBe('');
+    expect(r.stdout).toBe('false');
+  });
+
+  it('ends when the first process is stopped, and the first ends by the same signal', async () => {
+    // An array whose analysis takes seconds: a second process left running would still be found after the 1 s
+    // this test waits for it to end.
+    const netlist = scratch.file('long.cir', sinkArray(20000));
+    const first = spawn(process.execPath, [CLI, 'check', '--format', 'json', netlist], { cwd: ROOT, stdio: 'ignore' });
+    const second = await childOf(first.pid!);
+    expect(alive(second)).toBe(true);
+    const ended = new Promise<NodeJS.Signals | null>((resolve) => first.on('exit', (_code, signal) => resolve(signal)));
+    first.kill('SIGTERM');
+    expect(await ended).toBe('SIGTERM');
+    await until(() => !alive(second), 1000);
+    expect(alive(second)).toBe(false);
+  }, 60000);
+});
+
+/** Whether process `pid` still exists (a zombie not yet reaped by its parent counts as gone). */
+function alive(pid: number): boolean {
+  try {
+    return !/\) Z /.test(readFileSync(`/proc/${pid}/stat`, 'utf8'));
+  } catch {
+    return false;
+  }
+}
+
+/** The first child process of `pid`, once it has one (read from /proc: Linux, as CI runs). */
+async function childOf(pid: number): Promise<number> {
+  let child: number | undefined;
+  await until(() => {
+    child = readdirSync('/proc')
+      .filter((d) => /^\d+$/.test(d))
+      .map(Number)
+      .find((p) => parentOf(p) === pid);
+    return child !== undefined;
+  });
+  return child!;
+}
+
+/** The parent's process id of `pid` (the fourth field of /proc/PID/stat, after the name in parentheses). */
+function parentOf(pid: number): number | undefined {
+  try {
+    const stat = readFileSync(`/proc/${pid}/stat`, 'utf8');
+    return Number(stat.slice(stat.lastIndexOf(')') + 2).split(' ')[1]);
+  } catch {
+    return undefined;
+  }
+}
+
+/** Waits (polling every 20 ms, at most `limitMs`) until `done()` holds. */
+async function until(done: () => boolean, limitMs = 20000): Promise<void> {
+  for (let waited = 0; waited < limitMs && !done(); waited += 20) await new Promise((r) => setTimeout(r, 20));
+}
