@@ -510,8 +510,10 @@ function heldElementFinder(elements: readonly Element[], keyOf: Map<unknown, str
  * runs for every element of every analysis.
  */
 function sameElement(a: Element, b: Element, keyOf: Map<unknown, string>, heldKeyOf: Map<unknown, string>, moves: Map<string, TextMove>): boolean {
-  // An element object the engine reused may have changed since it was sent: only a new object is compared.
-  if (a === b) return false;
+  // The same object: an element the elaboration patch shared with the last circuit (an edit of another card). The engine
+  // writes into no element once elaborated but a behavioural source (its program keeps the solver's scratch values), so
+  // the object holds what was sent; it is the held one when its spans lie where the edit left them in place.
+  if (a === b) return a.kind !== 'B' && sameOrigin(a.origin, b.origin, moves);
   const fields = Object.keys(a);
   const heldFields = Object.keys(b);
   if (fields.length !== heldFields.length) return false;

@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { adoptKeptCards, mergePart, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
 import type { Analysis } from '../../shared-analysis/src/analysis';
-import { analyse } from '../../shared-analysis/src/service';
+import { analyse, analyseSession } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { connectionCount, connectionsOf, indexBuilder, indexOf, terminalNames } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
@@ -161,6 +161,37 @@ describe('analysis transfer', () => {
     expect(keptCards).toBeGreaterThan(5 * sentCards);
     expect(keptElements).toBeGreaterThan(3 * sentElements);
   });
+
+  it('after value edits the engine analysed incrementally, sends only the edited element and takes in the cold circuit (seeded)', () => {
+    // The elaboration patch of a value edit shares every element object it did not change with the last circuit:
+    // those travel as runs of the held elements, and the circuit taken in must still be a cold analysis's.
+    const lines = ['Shared elements', 'VCC vcc 0 DC 9', '.model QN NPN (BF=110 VAF=60)'];
+    for (let k = 0; k < 12; k++) lines.push(`RR${k} vcc r${k} ${20 + k}k`, `QR${k} r${k} r${k} 0 QN`, `QO${k} o${k} r${k} 0 QN`, `RL${k} vcc o${k} ${2 + (k % 4)}.2k`);
+    lines.push('.end', '');
+    const uri = '/t/main.cir';
+    const random = rng(20261204);
+    const options = { corners: { enabled: false } };
+    let text = lines.join('\n');
+    let session = analyseSession({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), options, { keepIncremental: true });
+    let { sent, held } = takeInWhole(uri, text, undefined, undefined, session.analysis);
+    for (let round = 0; round < 40; round++) {
+      // A resistor's number of the same length or of another length.
+      const line = 3 + Math.floor(random() * 12) * 4 + (random() < 0.5 ? 0 : 3);
+      const value = random() < 0.5 ? `${10 + Math.floor(random() * 90)}k` : `${1 + Math.floor(random() * 9)}.${Math.floor(random() * 10)}${Math.floor(random() * 10)}k`;
+      lines[line] = lines[line]!.replace(/\S+$/, value);
+      text = lines.join('\n');
+      const cold = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), options);
+      session = analyseSession({ uri, text, version: round + 2 }, new MemoryWorkspace({ [uri]: text }), options, { keepIncremental: true, previous: session.incremental, warmStart: session.warmStart });
+      const result = takeInWhole(uri, text, sent, held, session.analysis);
+      // The independent computation: the elaborator's own circuit and the parser's own cards of the edited text.
+      expect(result.analysis.circuit, `round ${round}`).toEqual(cold.circuit);
+      expect(result.analysis.documents[uri], `round ${round}`).toEqual(cold.documents[uri]);
+      // Only the edited resistor is encoded (none when the value read the same); every other element is a held one.
+      expect(result.sentElements, `round ${round}`).toBeLessThanOrEqual(1);
+      expect(result.sentElements + result.keptElements).toBe(cold.circuit!.elements.length);
+      ({ sent, held } = result);
+    }
+  });
 });
 
 /**
@@ -193,8 +224,13 @@ function randomEdit(text: string, round: number, random: () => number, pick: <T>
  * The analysis of `text` split (against `sent`, what was sent of the held analysis), passed through structured clones as postMessage does,
  * merged onto `held` and adopted, as the server takes in a result; with how many cards were kept and how many sent.
  */
-function takeInWhole(uri: string, text: string, sent: ReturnType<ReturnType<typeof splitAnalysisLazily>['prepare']> | undefined, held: Analysis | undefined) {
-  const original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+function takeInWhole(
+  uri: string,
+  text: string,
+  sent: ReturnType<ReturnType<typeof splitAnalysisLazily>['prepare']> | undefined,
+  held: Analysis | undefined,
+  original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } }),
+) {
   const split = splitAnalysisLazily(original, sent);
   const nextSent = split.prepare();
   const copy = structuredClone(split.header);
