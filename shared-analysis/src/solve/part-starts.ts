@@ -34,7 +34,14 @@ export interface PartCircuit {
  * with the circuit's values to find the resistors an edit changed.
  */
 export function resistancesOf(circuit: Circuit): Float64Array {
-  return Float64Array.from(circuit.elements, (el) => (el.kind === 'R' ? el.resistance : NaN));
+  const elements = circuit.elements;
+  const out = new Float64Array(elements.length);
+  // A plain loop: `Float64Array.from` with a mapping function took about 5 ms for 20,000 elements, on an edit's path.
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i]!;
+    out[i] = el.kind === 'R' ? el.resistance : NaN;
+  }
+  return out;
 }
 
 /**
@@ -84,24 +91,34 @@ const RAIL_VOLTAGE = 2;
 function partSolves(whole: PartCircuit, before: Float64Array): { now: PartSolve; before: PartSolve } | undefined {
   const { circuit, rail, partOf } = whole;
   const elements = circuit.elements;
-  if (before.length !== elements.length || !elements.every((el) => LOCAL_KINDS.has(el.kind))) return undefined;
+  if (before.length !== elements.length) return undefined;
+  // Plain loops over every element: this runs before each corner solve and each nominal solve after a value edit.
   const touched = new Set<number>();
-  elements.forEach((el, i) => {
-    if (el.kind === 'R' && !Object.is(el.resistance, before[i])) touched.add(partOf[i]);
-  });
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i]!;
+    if (!LOCAL_KINDS.has(el.kind)) return undefined;
+    if (el.kind === 'R' && !Object.is(el.resistance, before[i])) touched.add(partOf[i]!);
+  }
   if (touched.size === 0) return undefined;
   const inParts: number[] = [];
   const railSources: number[] = [];
-  elements.forEach((el, i) => {
-    if (touched.has(partOf[i])) inParts.push(i);
-    else if ((el.kind === 'V' || el.kind === 'L') && el.nodes.every((n) => rail[n] === 1)) railSources.push(i);
-  });
+  for (let i = 0; i < elements.length; i++) {
+    const el = elements[i]!;
+    if (touched.has(partOf[i]!)) inParts.push(i);
+    else if ((el.kind === 'V' || el.kind === 'L') && onRails(el.nodes, rail)) railSources.push(i);
+  }
   if (inParts.length > Math.max(ALWAYS_ELEMENTS, elements.length * MOST_ELEMENTS_SHARE)) return undefined;
   const chosen = [...inParts, ...railSources].sort((a, b) => a - b);
   const globalOf = globalUnknowns(whole.unknowns);
   const now = PartSolve.of(whole, globalOf, chosen, (el) => el);
   const old = PartSolve.of(whole, globalOf, chosen, (el, i) => (el.kind === 'R' && !Object.is(el.resistance, before[i]) ? { ...el, resistance: before[i] } : el));
   return now && old ? { now, before: old } : undefined;
+}
+
+/** Whether every node of a list is a rail. */
+function onRails(nodes: readonly number[], rail: Uint8Array): boolean {
+  for (let k = 0; k < nodes.length; k++) if (rail[nodes[k]!] !== 1) return false;
+  return true;
 }
 
 /** A circuit made of some of a circuit's elements (renumbered nodes, the same names and models), with its own solver. */
