@@ -4,6 +4,8 @@ import type { ResolvedOptions } from './analysis';
 import type { Circuit, Element, Model } from './circuit';
 import type { ElaborationResult } from './elaborate/index';
 import type { DcSolver, DcSolveResult } from './solve/dc';
+import type { SolveOptions } from './solve/types';
+import type { WarmStart } from './solve/warm-start';
 import type { CornerContext } from './checks/corners';
 import { followRails, railsByIndex } from './structures/rails';
 import { followTopology } from './structures/topology';
@@ -406,6 +408,22 @@ export class ValueEdit {
 
   get solver(): DcSolver {
     return this.previous.solver;
+  }
+
+  /**
+   * The nominal solve's start: the last version's solution (`warm`) made exact in the parts of the circuit holding the
+   * changed resistors by solving those parts alone (`PartStarts`, as the corner phase does for its starts). The other
+   * parts' unknowns already solve their equations, which the edit left alone, so the whole circuit's Newton confirms
+   * the point in one iteration instead of three or four from `warm.x` itself, which is returned when there is nothing
+   * to solve apart (or a part solve fails), or `warm` was solved at another temperature.
+   */
+  nominalStart(warm: WarmStart, options: SolveOptions): Float64Array {
+    const prev = this.previous;
+    const temperatureC = options.temperatureC ?? this.circuit.temperatureC;
+    if (warm.temperatureC !== temperatureC) return warm.x;
+    const parts = new PartStarts({ circuit: this.circuit, unknowns: prev.solver.unknowns, rail: prev.index.rail, partOf: prev.index.parts.ofElement }, resistancesOf(prev.circuit));
+    const start = Float64Array.from(warm.x);
+    return parts.refine(start, warm.x, { ...options, temperatureC }) ? start : warm.x;
   }
 
   /**

@@ -156,10 +156,11 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
         // A value edit keeps the unknowns: Newton starts from the last version's solution and needs a few
         // iterations instead of a cold start's many. Not for a circuit with a self-biased loop, which has a
         // second (off) state a warm start could keep where a cold start would not; and a warm start that
-        // does not converge is dropped for the cold one, so the answer is always the cold start's point.
+        // does not converge is dropped for the cold one, so the answer is always the cold start's point. After a value
+        // edit the start is also solved anew in the parts the edit reached (`nominalStart`): one iteration then.
         const tryWarm = warm !== undefined && warm.x.length === solver.unknownCount && warm.unknowns === (fingerprint ??= unknownsFingerprint(circuit)) && !hasSelfBiasedLoop(circuit, structures);
         if (tryWarm) {
-          const w = solver.solve({ ...cold, initialGuess: warm.x, initialGuessTemperatureC: warm.temperatureC });
+          const w = solver.solve({ ...cold, initialGuess: edit?.nominalStart(warm, cold) ?? warm.x, initialGuessTemperatureC: warm.temperatureC });
           if (w.op.converged) nominal = w;
         }
         nominal ??= solver.solve(cold);
