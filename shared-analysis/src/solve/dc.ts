@@ -603,17 +603,19 @@ export class DcSolver {
         continue;
       }
       const el = c.elements[i];
-      const stamp = this.layout.resistorStamps.get(i);
+      // Read off the stamp columns: the stamp's record (`get`) is an object made per call, and sizing asks here for every trial.
+      const stamps = this.layout.resistorStamps;
+      const g = stamps.conductance(i);
       if (el.kind !== 'R') refuse(`${el.name} is not a resistor.`, i);
-      else if (!stamp) refuse(`the netlist value of ${el.name} is unusable, so the solver leaves it out as an open circuit.`, i);
+      else if (!stamps.has(i)) refuse(`the netlist value of ${el.name} is unusable, so the solver leaves it out as an open circuit.`, i);
       else if (typeof ohms !== 'number' || !Number.isFinite(ohms)) refuse(`the value is not a finite number; the netlist value ${formatEng(el.resistance, 'Ω')} was used.`, i);
-      else if (stamp.kind === 'conductance' && ohms === 0)
+      else if (g !== undefined && ohms === 0)
         refuse(
           `${el.name} is written as ${formatEng(el.resistance, 'Ω')}, and a 0 Ω short needs a current unknown the prepared equations lack; write 0 in the netlist, or use a small value such as 1 mΩ.`,
           i,
         );
-      else if (stamp.kind === 'conductance') {
-        if (stamp.g === 0) plan.changesStructure = true; // an open resistor now conducts
+      else if (g !== undefined) {
+        if (g === 0) plan.changesStructure = true; // an open resistor now conducts
         plan.conductance.set(i, 1 / ohms);
       } else if (ohms !== 0) {
         plan.branchOhms.set(i, ohms);

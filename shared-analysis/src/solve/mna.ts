@@ -76,6 +76,11 @@ export class ResistorStamps {
     return undefined;
   }
 
+  /** Whether element i has a stamp (a conductance or a short). */
+  has(i: number): boolean {
+    return this.kind[i] === CONDUCTANCE_STAMP || this.kind[i] === SHORT_STAMP;
+  }
+
   /** Element i's netlist conductance when it is stamped as one, else undefined. */
   conductance(i: number): number | undefined {
     return this.kind[i] === CONDUCTANCE_STAMP ? this.g[i] : undefined;

@@ -396,8 +396,8 @@ const [BAND_HIGH_HIGH, BAND_HIGH_LOW] = wordsOfDouble(SQRT2_HIGH);
  * what is not a positive finite number, `libraryScale` decides.
  */
 export function powerOfTwoInverses(from: Float64Array, to: Float64Array): void {
-  const src = new Uint32Array(from.buffer, from.byteOffset, 2 * from.length);
-  const dst = new Uint32Array(to.buffer, to.byteOffset, 2 * to.length);
+  const src = wordsOf(from);
+  const dst = wordsOf(to);
   const LOW = 1 - HIGH;
   for (let k = 0; k < from.length; k++) {
     const high = src[2 * k + HIGH];
@@ -418,6 +418,19 @@ export function powerOfTwoInverses(from: Float64Array, to: Float64Array): void {
     }
     to[k] = libraryScale(from[k]);
   }
+}
+
+/** The 32-bit word views of the vectors `powerOfTwoInverses` was given (a solver's scale vectors live as long as it). */
+const wordViews = new WeakMap<Float64Array, Uint32Array>();
+
+/**
+ * The 32-bit words of `a`, a view made once per vector: making two views on every call cost about
+ * a tenth of a Newton iteration on a block of a few unknowns (what sizing solves thousands of times).
+ */
+function wordsOf(a: Float64Array): Uint32Array {
+  let words = wordViews.get(a);
+  if (!words) wordViews.set(a, (words = new Uint32Array(a.buffer, a.byteOffset, 2 * a.length)));
+  return words;
 }
 
 /** 2^−round(log2 a) by the library functions, clamped so the scale stays a normal double; 1 for what is not a positive finite number. */

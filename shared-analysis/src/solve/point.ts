@@ -71,26 +71,58 @@ export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
 /** The properties `lazyPoint` builds on first read. */
 const POINT_TABLES = ['nodes', 'devices'];
 
+type PointTables = { nodes: Record<string, number>; devices: Record<string, DeviceRecord> };
+
+/** Per lazy point: how to build its tables, and the tables once built. */
+const pending = new WeakMap<OperatingPoint, { build: () => PointTables; built?: PointTables }>();
+
+/** The tables of lazy point `op`, built on the first read of either. */
+function tablesOf(op: OperatingPoint): PointTables {
+  const state = pending.get(op)!;
+  return (state.built ??= state.build());
+}
+
+/** An assignment replaces the table with a plain data property. */
+function assigned(op: OperatingPoint, key: 'nodes' | 'devices', value: unknown): void {
+  Object.defineProperty(op, key, { value, writable: true, enumerable: true, configurable: true });
+}
+
+/*
+ * The accessors are the same functions for every point (they find their point as `this`): a pair made
+ * per point gave every point a hidden class of its own, thousands in a sizing run, and made every read
+ * of a point's fields megamorphic.
+ */
+const NODES_TABLE: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: OperatingPoint) {
+    return tablesOf(this).nodes;
+  },
+  set(this: OperatingPoint, value: unknown) {
+    assigned(this, 'nodes', value);
+  },
+};
+const DEVICES_TABLE: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: OperatingPoint) {
+    return tablesOf(this).devices;
+  },
+  set(this: OperatingPoint, value: unknown) {
+    assigned(this, 'devices', value);
+  },
+};
+
 /**
  * An OperatingPoint whose `nodes` and `devices` tables are built by `build` on first read (and
  * then kept), with `vectors` registered for `pointVectors`. The tables are ordinary enumerable
  * properties to every reader: JSON, spreading and structured cloning build and copy them.
  */
-export function lazyPoint(
-  head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
-  v: PointVectors,
-  build: () => { nodes: Record<string, number>; devices: Record<string, DeviceRecord> },
-): OperatingPoint {
+export function lazyPoint(head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] }, v: PointVectors, build: () => PointTables): OperatingPoint {
   const op = { converged: head.converged, temperatureC: head.temperatureC, iterations: head.iterations, fallbacks: head.fallbacks } as OperatingPoint;
-  let built: { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } | undefined;
-  const table = (key: 'nodes' | 'devices') => ({
-    enumerable: true,
-    configurable: true,
-    get: () => (built ??= build())[key],
-    set: (value: unknown) => Object.defineProperty(op, key, { value, writable: true, enumerable: true, configurable: true }),
-  });
-  Object.defineProperty(op, 'nodes', table('nodes'));
-  Object.defineProperty(op, 'devices', table('devices'));
+  pending.set(op, { build });
+  Object.defineProperty(op, 'nodes', NODES_TABLE);
+  Object.defineProperty(op, 'devices', DEVICES_TABLE);
   markLazyTables(op, POINT_TABLES);
   vectors.set(op, v);
   return op;

@@ -110,6 +110,22 @@ describe('operating point vectors', () => {
     const { op } = solved();
     op.nodes = { vcc: 1 };
     expect(op.nodes).toEqual({ vcc: 1 });
+    // Replacing one point's table leaves another point's alone (the accessors are shared by every point).
+    expect(solved().op.nodes['vcc']).toBe(5);
+  });
+
+  it('build each point\'s tables from its own vectors, whichever point is read first', () => {
+    const c = circuit(SPECS);
+    const solver = new DcSolver(c);
+    const cold = solver.solve({ temperatureC: -40 }).op;
+    const hot = solver.solve({ temperatureC: 125 }).op;
+    // Read the later point first: each table must still come from its own point's vectors.
+    for (const op of [hot, cold]) {
+      const v = pointVectors(op)!;
+      c.nodes.forEach((name, i) => expect(op.nodes[name]).toBe(v.volts[i]));
+      c.elements.forEach((el, e) => expect(op.devices[el.name]).toEqual(v.record(e)));
+    }
+    expect(hot.nodes['r1']).not.toBe(cold.nodes['r1']);
   });
 
   it('measure every structure by index exactly as from a copied point read by name', () => {
