@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { measurePlanned, plannedMeasurements, readerOf, runMeasurement, type Measurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
+import { plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -319,17 +319,19 @@ export function runCorners(ctx: CornerContext): Finding[] {
   }
 
   const converged = C - failedCount;
-  // The nominal point read as the corners were: the plans already flat, one reader for every structure.
-  const nominalReader = readerOf(nominal.op, topology);
+  // The nominal point measured as the corners were, as a one-corner column of every output: the plans
+  // already flat, one reader for every structure, and no name-keyed record per structure.
+  const nominalFigures = figureBuffers(structures.length, flat.outStart[structures.length], 1);
+  measureCorner(flat, readerOf(nominal.op, topology), nominalFigures, 0);
   structures.forEach((s, index) => {
-    const nominalM = measurePlanned(flat, index, nominalReader, s.outputs);
     setCornerColumns(s, columns[index]);
     summariseVoltageCorners(s);
     const summaries = summariseOutputs(columns[index]);
     s.outputs.forEach((o, oi) => {
       const el = elements.get(o.device);
       if (!el) return;
-      pushAll(findings, outputFindings(s, el, sweepOf(o.device, nominalM, columns[index], oi, summaries[oi]), options, converged));
+      const sweep = sweepOf(o.device, nominalFigures.sink, flat.outStart[index] + oi, columns[index], oi, summaries[oi]);
+      pushAll(findings, outputFindings(s, el, sweep, options, converged));
     });
   });
   if (ctx.stats) {
@@ -404,6 +406,12 @@ function measureCorner(flat: MeasurementPlans, reader: PointIndexReader, buffers
   }
 }
 
+/** Zeroed buffers for the figures of `structures` structures and `outputs` outputs at C corners (see `CornerBuffers`). */
+function figureBuffers(structures: number, outputs: number, C: number): CornerBuffers {
+  const sink: OutputSink = { current: new Float64Array(outputs * C), headroom: new Float64Array(outputs * C), outOfRegion: new Uint8Array(outputs * C), first: 0, stride: C };
+  return { corners: C, iref: new Float64Array(structures * C), sink };
+}
+
 /**
  * Empty corner columns for every structure, each a view of one buffer per quantity for the whole
  * circuit: a typed array per quantity per structure was an allocation of its own (100,000 of them
@@ -418,14 +426,12 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
     outputs += s.outputs.length;
     voltages += s.voltages?.length ?? 0;
   }
-  const iref = new Float64Array(structures.length * C);
-  const iout = new Float64Array(outputs * C);
-  const headroom = new Float64Array(outputs * C);
-  const outOfRegion = new Uint8Array(outputs * C);
+  const buffers = figureBuffers(structures.length, outputs, C);
+  const { iref } = buffers;
+  const { current: iout, headroom, outOfRegion } = buffers.sink;
   const volts = new Float64Array(voltages * C).fill(NaN);
   let o = 0;
   let v = 0;
-  const buffers: CornerBuffers = { corners: C, iref, sink: { current: iout, headroom, outOfRegion, first: 0, stride: C } };
   const columns = structures.map((s, i) => {
     const voltageNames = (s.voltages ?? []).map((x) => x.name);
     const from = o * C;
@@ -447,7 +453,8 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
   return { columns, buffers };
 }
 
-function sweepOf(device: string, nominalM: Measurement, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
+/** Output o's sweep over the corners; its nominal figures are at `at` of `nominal` (measured as a one-corner column, non-finite figures 0). */
+function sweepOf(device: string, nominal: OutputSink, at: number, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
   const C = cols.axis.labels.length;
   const out: { label: string; headroom: number }[] = [];
   for (let k = 0; k < C; k++) {
@@ -455,7 +462,7 @@ function sweepOf(device: string, nominalM: Measurement, cols: CornerColumns, o: 
   }
   return {
     device,
-    nominal: { iout: finite(nominalM.iout[device]), headroom: finite(nominalM.headroom[device]), outOfRegion: nominalM.outOfRegion.includes(device) },
+    nominal: { iout: nominal.current[at], headroom: nominal.headroom[at], outOfRegion: nominal.outOfRegion[at] === 1 },
     out,
     minHeadroom: summary.minHeadroom && { label: summary.minHeadroom.corner, headroom: summary.minHeadroom.value },
     minCurrent: summary.minCurrent && { label: summary.minCurrent.corner, value: summary.minCurrent.value },

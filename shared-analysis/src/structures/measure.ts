@@ -41,7 +41,21 @@ export interface Measurement {
  */
 export function measureStructure(circuit: Circuit, op: OperatingPoint, s: Structure, topology?: Topology): Measurement {
   const topo = topology ?? topologyOf(circuit);
-  return measurePlanned(planMeasurements(topo, [s]), 0, readerOf(op, topo), s.outputs);
+  return measurePlanned(plannedStructure(topo, s), 0, readerOf(op, topo), s.outputs);
+}
+
+const singlePlans = new WeakMap<Structure, { topo: Topology; plans: MeasurementPlans }>();
+
+/**
+ * The plan of one structure, made once per structure and topology: sizing measures a target's
+ * structure at every value it verifies, and the spread's Monte Carlo at every sample.
+ */
+function plannedStructure(topo: Topology, s: Structure): MeasurementPlans {
+  const known = singlePlans.get(s);
+  if (known && known.topo === topo) return known.plans;
+  const plans = planMeasurements(topo, [s]);
+  singlePlans.set(s, { topo, plans });
+  return plans;
 }
 
 /**
