@@ -466,7 +466,7 @@ function analyseOne(opts: CliOptions, workspace: PathWorkspace, p: string): File
   if ('refused' in read) return { path: p, absolute, readError: `Cannot read '${p}': it ${read.refused}.` };
   workspace.setRoot(absolute);
   try {
-    const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis);
+    const session = analyseSession({ uri: absolute, text: read.text }, workspace, opts.analysis, { oneShot: true });
     // A CI run wants the resistor suggestions too, so the solver-backed fixes are computed here
     // (only around a converged operating point: sizing re-solves from it), within the file's budget.
     const until = Date.now() + SIZING_BUDGET_MS;

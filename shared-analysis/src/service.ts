@@ -92,6 +92,11 @@ export interface AnalysisControl {
    */
   warmStart?: WarmStart;
   /**
+   * The host analyses this text once and starts no later analysis from it (the CLI): the session gets no
+   * `warmStart`, whose fingerprint of the unknowns costs a pass over every element's name and nodes.
+   */
+  oneShot?: boolean;
+  /**
    * The `incremental` state of the session of the previous version of this text. When the edit changed only
    * resistor values, the analysis takes the state's prepared solver (moved to the new values in place) and
    * structures, and analyses again only the structures the edit can have changed (`incremental.ts`); the
@@ -242,7 +247,7 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
     timings,
   };
   const converged = nominal && nominal.op.converged ? nominal : undefined;
-  const warmStart: WarmStart | undefined = converged ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
+  const warmStart: WarmStart | undefined = converged && !control.oneShot ? { unknowns: (fingerprint ??= unknownsFingerprint(circuit)), x: converged.x, temperatureC: converged.op.temperatureC } : undefined;
   // A self-biased loop's state depends on where Newton starts, and a removed number leaves no finding to keep: the next edit starts afresh.
   const dc: DcSolver | undefined = solver;
   const incremental =

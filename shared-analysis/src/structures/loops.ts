@@ -90,11 +90,33 @@ export function closingGain(h: Hand, c: ClosingMirror): { gain: number; ratio: n
   return { gain: ratio / (1 + (1 + sum) / beta), ratio, beta, sum };
 }
 
+/** The last list `feedLoops` was asked about for each topology, and its answer. */
+const lastLoops = new WeakMap<Topology, { list: Structure[]; members: Structure[]; loops: Structure[][] }>();
+
 /**
  * Loops of structures that feed each other round: each one's reference node is driven by an output of
  * the next (whatever else also drives it, e.g. a start-up resistor). Each loop once, in structure order.
+ * The start-up check and the corner phase ask it of the same list in one analysis: the answer is kept
+ * with the topology and given again while the list holds the same structures (a new list, or one whose
+ * members changed, is searched afresh). The caller may change the returned list, not the loops in it.
  */
 export function feedLoops(topo: Topology, structures: Structure[]): Structure[][] {
+  const last = lastLoops.get(topo);
+  if (last && last.list === structures && sameMembers(last.members, structures)) return last.loops.slice();
+  const loops = searchFeedLoops(topo, structures);
+  lastLoops.set(topo, { list: structures, members: structures.slice(), loops });
+  return loops.slice();
+}
+
+/** Whether two lists hold the same structures in the same order. */
+function sameMembers(a: readonly Structure[], b: readonly Structure[]): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
+}
+
+/** `feedLoops` without the kept answer: a depth-first search from each structure over the drives between them. */
+function searchFeedLoops(topo: Topology, structures: Structure[]): Structure[][] {
   const owner = new Map<string, Structure>();
   for (const s of structures) for (const o of s.outputs) owner.set(o.device, s);
   const next = new Map<Structure, Structure[]>();
