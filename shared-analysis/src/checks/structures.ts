@@ -3,7 +3,7 @@
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Model } from '../circuit';
 import type { DeviceRecord, OperatingPoint } from '../solve/types';
-import { namedPointReader, pointVectors, type NamedPointReader } from '../solve/point';
+import { namedPointReader, pointVectors, type NamedPointReader, type RecordReader } from '../solve/point';
 import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
@@ -94,6 +94,8 @@ export interface StructureCheckContext {
   kept?: (s: Structure) => Finding[] | undefined;
   /** Told each structure's findings (severities mapped), in the order they are returned. */
   record?: (s: Structure, findings: Finding[]) => void;
+  /** Reads the point's records (`keptRecords`: each built once for the checks of one analysis); the point's own vectors when absent. */
+  records?: RecordReader;
 }
 
 /**
@@ -115,7 +117,7 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
     options,
     railRange: { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS },
     temperatureC: op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC,
-    at: op ? namedPointReader(op, topo) : undefined,
+    at: op ? namedPointReader(op, topo, ctx.records) : undefined,
     voltsByIndex: op ? pointVectors(op)?.volts : undefined,
   };
   const measuring = op ? nominalMeasuring(topo, ctx.kept ? structures.filter((s) => !ctx.kept!(s)) : structures, op) : undefined;

@@ -191,7 +191,10 @@ export interface DeviceKind<E extends Element = Element> {
   readonly floatingNote?: string;
   /** Builds the table of every instance; unusable parameters are replaced and reported in `issues`. */
   createTable(instances: DeviceInstances<E>, issues: ParamIssue[]): DeviceTable;
-  /** The record of instance i at a solution (the edge form: JSON, hover, messages). */
+  /**
+   * The record of instance i at a solution (the edge form: JSON, hover, messages). Every number in it is one of the
+   * instance's column values, or a constant: the solver clamps a record only when a column is out of range.
+   */
   record(columns: DeviceColumns, instances: DeviceInstances<E>, i: number): DeviceRecord;
   /** Current into netlist terminal t of instance i (the record's sign convention), 0 for a terminal that carries none. */
   terminalCurrent(columns: DeviceColumns, i: number, t: number): number;

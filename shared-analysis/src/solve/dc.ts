@@ -798,7 +798,12 @@ export class DcSolver {
     }
     const columns: DeviceColumns[] = tables.map((t, k) => t.evaluate(x, reuse?.columns?.[k]));
     if (reuse) reuse.columns = columns;
-    for (const col of columns) for (const q of col.values) if (!allInRecordRange(q)) overflow = true;
+    let columnsInRange = true;
+    for (const col of columns) for (const q of col.values) if (!allInRecordRange(q)) columnsInRange = false;
+    if (!columnsInRange) overflow = true;
+    // A record's numbers are its columns' (`DeviceKind.record`): with every column in range there is nothing to clamp.
+    // A reused result's columns are overwritten by the next solve, so its records are always looked over.
+    const clampsRecords = reuse !== undefined || !columnsInRange;
 
     const slot = this.elementSlot;
     const twoTerminal = (k: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
@@ -821,6 +826,7 @@ export class DcSolver {
       const table = tables[deviceOrder.table[d]];
       const name = c.elements[deviceOrder.element[d]].name;
       const rec = table.kind.record(columns[deviceOrder.table[d]], table.instances, deviceOrder.instance[d]) as unknown as Record<string, unknown>;
+      if (!clampsRecords) return rec as unknown as DeviceRecord;
       for (const k in rec) {
         const val = rec[k];
         if (typeof val === 'number' && !inRange(val)) rec[k] = clamp(val, () => `${k} of ${name}`);
