@@ -4,7 +4,8 @@ import type { Analysis } from '../../shared-analysis/src/analysis';
 import type { Circuit, Element, Origin } from '../../shared-analysis/src/circuit';
 import type { Card, ParsedDocument, Token } from '../../shared-analysis/src/syntax/ast';
 import type { DeviceRecord, OperatingPoint } from '../../shared-analysis/src/solve/types';
-import { pointVectors } from '../../shared-analysis/src/solve/point';
+import { pointVectors, type PointVectors } from '../../shared-analysis/src/solve/point';
+import { addWholeRecords, elementsByName, installPointTables, pointColumns, wholeRecordCount, type PointColumns } from './point-tables';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding, Span } from '../../shared-analysis/src/types';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -49,6 +50,10 @@ export type AnalysisPart =
    */
   | { kind: 'elements'; json: string; moves?: [string, number, number, number][] }
   | { kind: 'devices'; items: [string, DeviceRecord][] }
+  /** The point's tables as columns (see `PointColumns`): one part, before its `point-records` parts. */
+  | { kind: 'point'; columns: PointColumns }
+  /** Records of the point's devices table that do not fit the columns, by position in the table. */
+  | { kind: 'point-records'; items: [number, DeviceRecord][] }
   /** Entries of the operating point's node table: names and their volts, in the table's order. */
   | { kind: 'nodes'; names: string[]; volts: Float64Array }
   | { kind: 'findings'; items: Finding[] }
@@ -180,30 +185,9 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): La
   let operatingPoint = analysis.operatingPoint;
   let entries: (() => void) | undefined;
   if (operatingPoint) {
-    // The node table goes in parts too: one table of every node in the header was the longest stall
-    // of the main thread (a structured clone of 50,000 keys). Read from the solver's vectors when the
-    // point has them, so the worker does not build the table for it.
-    const point = operatingPoint;
-    const v = pointVectors(point);
-    let nodes: [string, number][] = [];
-    let devices: [string, DeviceRecord][] = [];
-    entries = () => {
-      nodes = v ? [...v.nodeEntries()] : Object.entries(point.nodes);
-      // From the vectors, record by record: the name-keyed table of every device is not built for this.
-      devices = v ? [...v.deviceEntries()] : Object.entries(point.devices);
-    };
-    // Counted without building the tables: a node per volt of the vectors, at most one device record per element.
-    const nodeCount = v ? v.volts.length : Object.keys(point.nodes).length;
-    // The last part of each takes whatever is left, so a count that fell short loses nothing.
-    const upTo = (i: number, size: number, count: number) => (i + size >= count ? undefined : i + size);
-    for (let i = 0; i < nodeCount; i += NODE_PART_SIZE) {
-      parts.push(() => {
-        const slice = nodes.slice(i, upTo(i, NODE_PART_SIZE, nodeCount));
-        return { kind: 'nodes', names: slice.map(([name]) => name), volts: Float64Array.from(slice, ([, volts]) => volts) };
-      });
-    }
-    const deviceBound = v ? (analysis.circuit?.elements.length ?? 0) : Object.keys(point.devices).length;
-    for (let i = 0; i < deviceBound; i += PART_SIZE) parts.push(() => ({ kind: 'devices', items: devices.slice(i, upTo(i, PART_SIZE, deviceBound)) }));
+    const v = pointVectors(operatingPoint);
+    const elementOf = v && analysis.circuit ? elementsByName(analysis.circuit) : undefined;
+    entries = v && elementOf && analysis.circuit ? pointColumnParts(parts, analysis.circuit, v, elementOf) : namedPointParts(parts, operatingPoint, v, analysis.circuit);
     // The header's copy has empty tables (own fields copied without reading the lazily built tables),
     // and must not share them with the analysis the builders read.
     const head: Record<string, unknown> = {};
@@ -220,6 +204,53 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): La
     return sent;
   };
   return { header, parts, findingParts, prepare };
+}
+
+/** The last part of a list sent `size` at a time takes whatever is left, so a count that fell short loses nothing. */
+function upTo(i: number, size: number, count: number): number | undefined {
+  return i + size >= count ? undefined : i + size;
+}
+
+/**
+ * Plans the parts of a point whose element names are unique and that has the solver's vectors: one part of
+ * columns (volts, and the two-terminal records), then the other records a part at a time. Returns what makes
+ * them, to run in `prepare`.
+ */
+function pointColumnParts(parts: (() => AnalysisPart)[], circuit: Circuit, v: PointVectors, elementOf: ReadonlyMap<string, number>): () => void {
+  let made: ReturnType<typeof pointColumns> | undefined;
+  parts.push(() => ({ kind: 'point', columns: made!.columns }));
+  const bound = wholeRecordCount(circuit, v);
+  for (let i = 0; i < bound; i += PART_SIZE) parts.push(() => ({ kind: 'point-records', items: made!.whole.slice(i, upTo(i, PART_SIZE, bound)) }));
+  return () => {
+    made = pointColumns(circuit, v, elementOf);
+  };
+}
+
+/**
+ * Plans the parts of a point's tables as entries: its nodes, then its devices by name (a point without the
+ * solver's vectors, or whose circuit has two elements of one name). Returns what lists the entries, to run in `prepare`.
+ */
+function namedPointParts(parts: (() => AnalysisPart)[], point: OperatingPoint, v: PointVectors | undefined, circuit: Circuit | undefined): () => void {
+  // The node table goes in parts too: one table of every node in the header was the longest stall
+  // of the main thread (a structured clone of 50,000 keys). Read from the solver's vectors when the
+  // point has them, so the worker does not build the table for it.
+  let nodes: [string, number][] = [];
+  let devices: [string, DeviceRecord][] = [];
+  // Counted without building the tables: a node per volt of the vectors, at most one device record per element.
+  const nodeCount = v ? v.volts.length : Object.keys(point.nodes).length;
+  for (let i = 0; i < nodeCount; i += NODE_PART_SIZE) {
+    parts.push(() => {
+      const slice = nodes.slice(i, upTo(i, NODE_PART_SIZE, nodeCount));
+      return { kind: 'nodes', names: slice.map(([name]) => name), volts: Float64Array.from(slice, ([, volts]) => volts) };
+    });
+  }
+  const deviceBound = v ? (circuit?.elements.length ?? 0) : Object.keys(point.devices).length;
+  for (let i = 0; i < deviceBound; i += PART_SIZE) parts.push(() => ({ kind: 'devices', items: devices.slice(i, upTo(i, PART_SIZE, deviceBound)) }));
+  return () => {
+    nodes = v ? [...v.nodeEntries()] : Object.entries(point.nodes);
+    // From the vectors, record by record: the name-keyed table of every device is not built for this.
+    devices = v ? [...v.deviceEntries()] : Object.entries(point.devices);
+  };
 }
 
 /** A run of a document's cards: kept by the receiver (a `cards-kept` part), or new cards `[from, to)` to encode (at most a part's worth). */
@@ -352,6 +383,12 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
     }
     case 'devices':
       if (target.operatingPoint) for (const [name, rec] of part.items) target.operatingPoint.devices[name] = rec;
+      return;
+    case 'point':
+      if (target.operatingPoint && target.circuit) yield* installPointTables(target.operatingPoint, target.circuit, part.columns);
+      return;
+    case 'point-records':
+      if (target.operatingPoint) addWholeRecords(target.operatingPoint, part.items);
       return;
     case 'nodes':
       if (target.operatingPoint) {

@@ -7,6 +7,7 @@ import { analyse, analyseSession } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { connectionCount, connectionsOf, indexBuilder, indexOf, terminalNames } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import { restoreNameTables } from '../../shared-analysis/src/names';
 import { rng } from '../seeded-random';
 
 /** The one helper: split, pass every message through a structured clone (as postMessage does), merge, compare. */
@@ -14,10 +15,10 @@ function check(text: string, hoverAtText: string[]): void {
   const ws = new MemoryWorkspace({ '/t/main.cir': text });
   const original = analyse({ uri: '/t/main.cir', text, version: 3 }, ws, { corners: { enabled: false } });
   const { header, parts } = splitAnalysis(original);
-  // The header is small whatever the circuit's size: the point's node and device tables come in parts.
+  // The header is small whatever the circuit's size: the point's node and device tables come in parts, as columns.
   expect(Object.keys(header.operatingPoint!.nodes)).toEqual([]);
   expect(Object.keys(header.operatingPoint!.devices)).toEqual([]);
-  expect(parts.filter((p) => p.kind === 'nodes').length).toBeGreaterThan(1);
+  expect(parts.filter((p) => p.kind === 'point')).toHaveLength(1);
   const copy = structuredClone(header);
   const builder = indexBuilder(copy.circuit!);
   for (const p of parts) {
@@ -60,6 +61,64 @@ describe('analysis transfer', () => {
     check(text, ['Q2 out', 'QN\nRL', 'RX17 ', 'x3999 0']);
   });
 
+  it("reads the point's tables from columns exactly as the engine's tables read", () => {
+    // Node names that are array indices (an object lists those first, in numeric order), names an object would
+    // inherit, transistors and a diode (records that travel whole), sources and resistors (records from the columns).
+    const text = [
+      'Point tables',
+      'VCC 10 0 DC 9',
+      'IB 0 2 1m',
+      'R1 10 2 4.7k',
+      'R2 2 1 1k',
+      'Rc 1 0 2k',
+      'RREF 10 __proto__ 8.2k',
+      'Q1 __proto__ __proto__ 0 QN',
+      'Q2 constructor __proto__ 0 QN',
+      'RL 10 constructor 3k',
+      'D1 2 toString DM',
+      'RD toString 0 1k',
+      '.model QN NPN (BF=100)',
+      '.model DM D (IS=1e-14)',
+      '.end',
+      '',
+    ].join('\n');
+    const uri = '/t/main.cir';
+    const original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+    const { header, parts } = splitAnalysis(original);
+    expect(parts.filter((p) => p.kind === 'point-records').length).toBeGreaterThan(0);
+    const copy = structuredClone(header);
+    for (const p of parts) mergePart(copy, structuredClone(p));
+    // The independent computation: the tables the engine builds itself from the solver's vectors.
+    const op = original.operatingPoint!;
+    const taken = copy.operatingPoint!;
+    expect(Object.keys(taken.nodes)).toEqual(Object.keys(op.nodes));
+    expect(Object.keys(taken.nodes).slice(0, 3)).toEqual(['0', '1', '2']);
+    expect(Object.keys(taken.devices)).toEqual(Object.keys(op.devices));
+    expect(JSON.stringify(taken)).toBe(JSON.stringify(op));
+    for (const name of [...Object.keys(op.devices), 'nothing', 'toString', 'constructor', '__proto__', 'hasOwnProperty']) {
+      expect(taken.devices[name], name).toEqual(op.devices[name]);
+      expect(name in taken.devices, name).toBe(name in op.devices);
+    }
+    for (const name of [...Object.keys(op.nodes), 'nothing', 'valueOf']) {
+      expect(taken.nodes[name], name).toBe(op.nodes[name]);
+      expect(name in taken.nodes, name).toBe(name in op.nodes);
+    }
+    expect(Object.getPrototypeOf(taken.devices)).toBe(null);
+    // A record read twice is one object, as in a table; nothing may write to a taken-in point's tables.
+    expect(taken.devices['R1']).toBe(taken.devices['R1']);
+    expect(() => {
+      taken.devices['R1'] = taken.devices['R2']!;
+    }).toThrow(TypeError);
+    // A point without the solver's vectors (a copy) travels as its tables' entries, and reads the same.
+    const plain = structuredClone(original);
+    const split = splitAnalysis(plain);
+    expect(split.parts.filter((p) => p.kind === 'point')).toHaveLength(0);
+    // As the server does: a cloned header's tables get their prototype-free form back before parts are merged into them.
+    const plainCopy = restoreNameTables(structuredClone(split.header));
+    for (const p of split.parts) mergePart(plainCopy, structuredClone(p));
+    expect(JSON.stringify(plainCopy.operatingPoint)).toBe(JSON.stringify(op));
+  });
+
   it('keeps the held cards an edit leaves alone, moved past the edit, and equals a full transfer', () => {
     const lines = ['Kept cards', 'VCC vcc 0 DC 10', 'RREF vcc ref 9.3k ; the reference', 'Q1 ref ref 0 QN', 'Q2 out ref 0 QN', 'RL vcc out 1k', '.model QN NPN (BF=100)', '* a comment line'];
     for (let k = 0; k < 600; k++) lines.push(`RX${k} vcc x${k} ${1 + (k % 9)}k`, `RY${k} x${k} 0 2k`);
@@ -83,13 +142,17 @@ describe('analysis transfer', () => {
     const run = (text: string): Analysis => analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
     const first = splitAnalysisLazily(run(before));
     const sent = first.prepare();
-    // What the main thread holds: the first analysis taken in whole.
-    const firstHeld = structuredClone(first.header);
-    for (const make of first.parts) mergePart(firstHeld, structuredClone(make()));
-    const heldCopy = structuredClone(firstHeld);
+    // What the main thread holds: the first analysis taken in whole (its point's tables read from columns, which
+    // do not clone: a fresh one is taken in for each edit, since adopting a result moves the held cards past the edit).
+    const firstParts = first.parts.map((make) => structuredClone(make()));
+    const takeInFirst = (): Analysis => {
+      const taken = structuredClone(first.header);
+      for (const p of firstParts) mergePart(taken, structuredClone(p));
+      return taken;
+    };
+    const heldCopy = takeInFirst();
     for (const [from, to, keeps] of edits) {
-      // What the main thread holds (a fresh copy each time: adopting a result moves the held cards past the edit).
-      const held = structuredClone(heldCopy);
+      const held = takeInFirst();
       expect(before.includes(from), from).toBe(true);
       const after = before.replace(from, to);
       const original = run(after);
@@ -112,7 +175,7 @@ describe('analysis transfer', () => {
       const shared = copy.documents[uri]!.cards.filter((c, k) => c === held.documents[uri]!.cards[k]).length;
       if (keeps) expect(shared, to).toBeGreaterThan(0);
     }
-    const held = structuredClone(heldCopy);
+    const held = takeInFirst();
     // The same text again: every card is kept, and the very same objects are shared.
     const again = splitAnalysisLazily(run(before), sent);
     again.prepare();

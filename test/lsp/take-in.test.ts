@@ -25,8 +25,8 @@ describe('taking a result in', () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
     if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
     const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
-    // 5,000 rungs: over 32 parts, so the result is taken in slices.
-    const text = netlist(5000);
+    // 7,000 rungs: over 32 parts, so the result is taken in slices.
+    const text = netlist(7000);
     try {
       host.setDocument(URI, text);
       const events: string[] = [];
@@ -46,11 +46,11 @@ describe('taking a result in', () => {
       expect(direct.findings.length).toBeGreaterThan(0);
       expect(early).toBe(JSON.stringify(direct.findings));
       expect(JSON.stringify(analysis.findings)).toBe(early);
-      // Called once, with the header (a few findings travel in it), before any of the 40-odd parts of the rest.
+      // Called once, with the header (a few findings travel in it), before any of the 30-odd parts of the rest.
       expect(events.filter((e) => e === 'findings')).toHaveLength(1);
       expect(events[0]).toBe('findings');
       expect(events.length).toBeGreaterThan(33);
-      expect(analysis.circuit?.elements.length).toBe(5005);
+      expect(analysis.circuit?.elements.length).toBe(7005);
       // A small result (1,200 rungs: fewer parts) is taken in at once and not announced early.
       host.setDocument(URI, netlist(1200));
       let announced = 0;
@@ -92,9 +92,10 @@ describe('taking a result in', () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
     if (!existsSync(script)) throw new Error('dist/analysis-worker.js is missing: run `npm run build` first (npm test does).');
     const host = new WorkerHost({ script, log: () => undefined, hardDeadlineMs: 60000 });
-    // 5,000 rungs: taken in slices. The edit lengthens a value near the top, so nearly every card is kept and
-    // moved; the two edits after it keep the length (nothing to move) and shorten it again.
-    const texts = [netlist(5000)];
+    // 12,000 rungs: taken in slices (the kept cards travel in a few parts, the elements in 30). The edit lengthens a
+    // value near the top, so nearly every card is kept and moved; the two edits after it keep the length (nothing to
+    // move) and shorten it again.
+    const texts = [netlist(12000)];
     texts.push(texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 4.75k'), texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 4.7k'), texts[0]!.replace('R1 vcc r 4.3k', 'R1 vcc r 5k'));
     // Devices before the edit, on the edited card, just past it and far past it.
     const needles = ['Q1 r r', 'R1 vcc', 'RC vcc', 'RL10 ', 'RL2500 ', 'RL4999 '];
