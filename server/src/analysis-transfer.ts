@@ -368,6 +368,7 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       const circuit = target.circuit;
       if (!circuit) return;
       const moves = new Map((part.moves ?? []).map(([uri, prefix, tail, delta]) => [uri, { prefix, tail, delta }]));
+      const uris = documentUris(target.documents);
       let since = 0;
       for (const e of JSON.parse(part.json) as (Record<string, unknown> | [number, number])[]) {
         if (Array.isArray(e)) {
@@ -376,7 +377,7 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
             pushHeldElements(circuit, held, k, Math.min(MERGE_STEP, e[0] + e[1] - k), moves);
             yield;
           }
-        } else circuit.elements.push(decodeElement(circuit, e));
+        } else circuit.elements.push(decodeElement(circuit, e, uris));
         if (++since % MERGE_STEP === 0) yield;
       }
       return;
@@ -731,13 +732,47 @@ function encodeElement(e: Element, keyOf: Map<unknown, string>): Record<string, 
   return out;
 }
 
-/** The inverse of {@link encodeElement}, pointing the model at the circuit's own model object. */
-function decodeElement(circuit: Circuit, e: Record<string, unknown>): Element {
-  for (const [k, v] of Object.entries(e)) {
+/**
+ * The inverse of {@link encodeElement}, pointing the model at the circuit's own model object and the origin's
+ * document at the analysis's own string for it (`uris`): a worker message shares no strings, so every element
+ * would otherwise hold a copy of its document's URI (2.8 MB over 50,000 elements, twice while a result is taken
+ * in beside the last one). No lists are made: this runs for every element a result carries.
+ */
+function decodeElement(circuit: Circuit, e: Record<string, unknown>, uris: DocumentUris): Element {
+  for (const k in e) {
+    const v = e[k];
     if (!v || typeof v !== 'object') continue;
     const tagged = v as { $model?: string; $num?: string };
     if (k === 'model' && typeof tagged.$model === 'string') e[k] = circuit.models[tagged.$model] ?? v;
     else if (typeof tagged.$num === 'string') e[k] = Number(tagged.$num);
   }
+  const origin = e['origin'] as Origin | undefined;
+  if (origin) {
+    origin.uri = uris(origin.uri);
+    if (origin.instances.length === 0) origin.instances = NO_INSTANCES;
+    for (const instance of origin.instances) instance.uri = uris(instance.uri);
+  }
   return e as unknown as Element;
+}
+
+/**
+ * The one empty instance list of every top-level element taken in (a list each was 1.6 MB over 50,000 elements);
+ * frozen, since nothing on the receiving side may add to an element's origin.
+ */
+const NO_INSTANCES: Origin['instances'] = Object.freeze([]) as unknown as Origin['instances'];
+
+/** Gives a document URI read from a message the analysis's own string of the same text (the one it was given otherwise). */
+type DocumentUris = (uri: string) => string;
+
+/** The URIs of `documents` as their own strings, for `decodeElement`; the last one found is tried first. */
+function documentUris(documents: Analysis['documents']): DocumentUris {
+  const own = Object.keys(documents);
+  let last = own[0];
+  return (uri) => {
+    if (uri === last) return last;
+    const found = own.find((u) => u === uri);
+    if (found === undefined) return uri;
+    last = found;
+    return found;
+  };
 }
