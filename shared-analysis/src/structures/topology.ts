@@ -72,7 +72,8 @@ export function topologyOf(circuit: Circuit): Topology {
  * Makes `next`'s topology from `previous`'s, when `previous`'s is built, for a circuit that differs from it only in
  * values that are no part of a topology (resistances, places in the text): the same nodes and, element by element,
  * the same name, kind, nodes, model kind and geometry. The incidence and the name tables are shared; the transistor
- * views are made again for `next`'s elements (a value edit's circuit: `ValueEdit`).
+ * views are made again for `next`'s elements (a value edit's circuit: `ValueEdit`), or shared too when every
+ * transistor is the same element object (a value edit that moved no offset).
  */
 export function followTopology(previous: Circuit, next: Circuit): void {
   const t = cache.get(previous);
@@ -92,11 +93,11 @@ interface SharedIndex {
 
 /** Node-to-element incidence and the transistor views of one circuit. */
 export class Topology {
-  readonly transistors: Transistor[] = [];
-  readonly byName = new Map<string, Transistor>();
+  readonly transistors: Transistor[];
+  readonly byName: Map<string, Transistor>;
   /** Transistors by control (base/gate) node and by common (emitter/source) node. */
-  readonly byCtrl = new Map<number, Transistor[]>();
-  readonly byCommon = new Map<number, Transistor[]>();
+  readonly byCtrl: Map<number, Transistor[]>;
+  readonly byCommon: Map<number, Transistor[]>;
   /**
    * The incidence as compressed rows: node n's connections are the (element index, slot) pairs at
    * [rowStart[n], rowStart[n + 1]), in element order and then slot order. `at` makes the list of
@@ -138,6 +139,13 @@ export class Topology {
     }
     // A topology with connections outside `circuit.nodes` keeps them in per-node lists of its own elements: built afresh.
     const followed = from !== undefined && from.strayAttached.size === 0 ? from : undefined;
+    // The views hold elements: shared with `followed` when every transistor is the same element object (a value edit
+    // that moved no offset shares them), made again otherwise. Nothing writes into a view or these tables once built.
+    const views = followed?.viewsHold(circuit.elements) ? followed : undefined;
+    this.transistors = views ? views.transistors : [];
+    this.byName = views ? views.byName : new Map();
+    this.byCtrl = views ? views.byCtrl : new Map();
+    this.byCommon = views ? views.byCommon : new Map();
     const shared = followed ? followed.index() : this.build();
     this.rowStart = shared.rowStart;
     this.rowElement = shared.rowElement;
@@ -145,7 +153,13 @@ export class Topology {
     this.nodeIndex = shared.nodeIndex;
     this.elementIndex = shared.elementIndex;
     this.transistorElement = shared.transistorElement;
-    if (followed) this.follow(followed);
+    if (followed && !views) this.follow(followed);
+  }
+
+  /** Whether each transistor view holds the very element object `elements` has in its place. */
+  private viewsHold(elements: readonly Element[]): boolean {
+    for (let i = 0; i < this.transistors.length; i++) if (elements[this.transistorElement[i]!] !== this.transistors[i]!.element) return false;
+    return true;
   }
 
   private index(): SharedIndex {

@@ -76,6 +76,31 @@ describe('topology', () => {
     }
   });
 
+  it('follows a circuit that shares its transistor elements: the same view objects, equal to the views built afresh (seeded)', () => {
+    for (let seed = 1; seed <= 20; seed++) {
+      const before = tangle(seed);
+      const previous = new Topology(before);
+      // A value edit that moved no offset: the resistors new objects with new values, every other element shared.
+      const after: Circuit = { ...before, elements: before.elements.map((e) => (e.kind === 'R' ? { ...e, resistance: e.resistance * 3 } : e)) };
+      const followed = new Topology(after, previous);
+      const fresh = new Topology(after);
+      const views = (t: Topology) => ({ transistors: t.transistors, byName: [...t.byName], byCtrl: [...t.byCtrl], byCommon: [...t.byCommon] });
+      expect(views(followed)).toEqual(views(fresh));
+      expect(followed.transistors).toBe(previous.transistors);
+      // The connections hold the new circuit's elements all the same (the edited resistors among them).
+      const mine = new Set(after.elements);
+      for (let n = 0; n < after.nodes.length; n++) for (const a of followed.at(n)) expect(mine.has(a.element)).toBe(true);
+      // One transistor a new object: the views are made again, holding it.
+      const q = after.elements.findIndex((e) => e.kind === 'Q' || e.kind === 'M');
+      if (q < 0) continue;
+      const moved: Circuit = { ...after, elements: after.elements.map((e, i) => (i === q ? { ...e } : e)) };
+      const again = new Topology(moved, previous);
+      expect(again.transistors).not.toBe(previous.transistors);
+      expect(views(again)).toEqual(views(new Topology(moved)));
+      expect(again.byName.get(moved.elements[q]!.name)!.element).toBe(moved.elements[q]);
+    }
+  });
+
   it('lists the DC connections of a node as a scan of the elements does: no capacitor, no MOS gate or bulk (seeded)', () => {
     for (let seed = 1; seed <= 20; seed++) {
       const circuit = tangle(seed);
