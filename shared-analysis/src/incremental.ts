@@ -193,7 +193,7 @@ function indexCircuit(circuit: Circuit): CircuitIndex {
 const COMPARED_AT_ONCE = 2048;
 
 /** The text that an edit replaced: `[start, oldEnd)` of the old text became `[start, oldEnd + delta)` of the new one. */
-function editRegion(before: string, after: string): EditRegion {
+export function editRegion(before: string, after: string): EditRegion {
   const most = Math.min(before.length, after.length);
   let p = 0;
   while (p + COMPARED_AT_ONCE <= most && before.substring(p, p + COMPARED_AT_ONCE) === after.substring(p, p + COMPARED_AT_ONCE)) p += COMPARED_AT_ONCE;
