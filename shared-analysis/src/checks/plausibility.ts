@@ -268,12 +268,15 @@ function nodesOutsideRails(ctx: PlausibilityContext): Finding[] {
   }
   const margin = Math.max(1, high - low);
   const topo = topologyOf(circuit);
-  const point = namedPointReader(op, topo);
+  // By node index from the solver's vectors when the point has them (what `op.nodes` shows): a look-up by name per
+  // node cost milliseconds at 20,000 nodes, on every edit's path to the diagnostics.
+  const vectors = pointVectors(op);
+  const point = vectors ? undefined : namedPointReader(op, topo);
   const out: Finding[] = [];
   const tied = new Set(op.tiedNodes ?? []);
   for (let n = 1; n < circuit.nodes.length; n++) {
     const name = circuit.nodes[n]!;
-    const v = point.volts(name);
+    const v = vectors ? vectors.volts[n] : point!.volts(name);
     if (v === undefined || !Number.isFinite(v) || rails.has(n) || tied.has(name)) continue;
     if (v <= high + margin && v >= low - margin) continue;
     const suspects = suspectsNear(ctx, [n]);

@@ -2,6 +2,10 @@
 
 import { describe, expect, it } from 'vitest';
 import { actionable, analyseNetlist, applyAndRecheck, check, lineOf } from './netlist-check';
+import { analyseSession } from '../../../shared-analysis/src/service';
+import { checkPlausibility } from '../../../shared-analysis/src/checks/plausibility';
+import { pointVectors } from '../../../shared-analysis/src/solve/point';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 
 const ONE_M = `Reference resistor written 1M
 VCC vcc 0 12
@@ -58,6 +62,30 @@ RB b 0 2k
     expect(fixed).toContain('IB vcc b 1m');
     // Source: Ohm's law — 1 mA pushed into node b through 2 kΩ to ground gives 2 V.
     expect(fix.title).toMatch(/b then sits at 2 V/);
+  });
+
+  it("reads the same nodes from the solver's vectors as from a copy of the point that has only its tables", () => {
+    const text = `Two nodes pushed out, read by index and by name
+VCC vcc 0 5
+IB vcc b 1
+RB b 0 2k
+IC vcc c 2
+RC c 0 1k
+RD vcc d 1k
+RE d 0 1k
+.end
+`;
+    const uri = '/t/vectors.cir';
+    const session = analyseSession({ uri, text }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+    const op = session.nominal!.op;
+    const ctx = { circuit: session.analysis.circuit!, documents: session.analysis.documents, options: session.analysis.options };
+    // The independent reading: a JSON copy of the point, which carries the name-keyed tables and no vectors.
+    const copy = JSON.parse(JSON.stringify(op)) as typeof op;
+    expect(pointVectors(op)).toBeDefined();
+    expect(pointVectors(copy)).toBeUndefined();
+    const byIndex = checkPlausibility({ ...ctx, op });
+    expect(byIndex.filter((f) => f.code === 'node-outside-rails').map((f) => f.data?.['node'])).toEqual(['b', 'c']);
+    expect(byIndex).toEqual(checkPlausibility({ ...ctx, op: copy }));
   });
 });
 
