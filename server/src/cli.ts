@@ -23,6 +23,7 @@ import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
+import { leadingContributors } from '../../shared-analysis/src/variation/index';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -874,7 +875,7 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
     if (inStructure && IMPLIED_IN_STRUCTURE.has(k)) continue;
     if (breakdown || (k !== 'contributors' && k !== 'sensitivities')) out[k] = fields[k];
   }
-  if (!breakdown) out['contributors'] = o.contributors.slice(0, CONTRIBUTORS_BY_DEFAULT);
+  if (!breakdown) out['contributors'] = leadingContributors(o, CONTRIBUTORS_BY_DEFAULT);
   return out;
 }
 

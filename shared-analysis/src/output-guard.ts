@@ -37,7 +37,7 @@ const MAX_PATHS_NAMED = 5;
 
 /**
  * Objects with a table built on first read (an operating point's `nodes` and `devices`, a
- * structure's `corners`, an output's spread `sensitivities`: solve/point.ts,
+ * structure's `corners`, an output's spread `contributors` and `sensitivities`: solve/point.ts,
  * structures/corner-columns.ts, variation/index.ts), registered where the getter is defined with the
  * names it is defined under, so the finiteness walk asks for a property descriptor only there.
  */

@@ -9,7 +9,7 @@ import { analyseSession } from '../../shared-analysis/src/service';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
 import { recogniseStructures } from '../../shared-analysis/src/structures/recognise';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
-import { analyseVariation, type VariationDetail } from '../../shared-analysis/src/variation/index';
+import { analyseVariation, leadingContributors, type VariationDetail } from '../../shared-analysis/src/variation/index';
 import { sensitivities, type VariedParameter } from '../../shared-analysis/src/variation/sensitivity';
 import type { Contribution, OutputVariation, Sensitivity } from '../../shared-analysis/src/variation/types';
 import type { Linearisation } from '../../shared-analysis/src/solve/dc';
@@ -131,12 +131,19 @@ function checkAgainstPlain(circuit: Circuit, detail: VariationDetail, lin: Linea
     close(out.tempcoPpmPerC, plain.tempcoPpmPerC, `${what} drift`);
     expect(Object.keys(out.supplyPercentPerVolt)).toEqual(Object.keys(plain.supplyPercentPerVolt));
     for (const k of Object.keys(plain.supplyPercentPerVolt)) close(out.supplyPercentPerVolt[k], plain.supplyPercentPerVolt[k], `${what} ${k} %/V`);
+    // The three the JSON writes, read from the kept columns before the list is made, then the list itself.
+    const leading = leadingContributors(out, 3);
+    expect(leading.map((c) => c.name), `${what} leading contributors`).toEqual(plain.contributors.slice(0, 3).map((c) => c.name));
+    const sameContributors = (list: Contribution[]): void =>
+      list.forEach((c, k) => {
+        close(c.share, plain.contributors[k].share, `${what} ${c.name} share`);
+        close(c.sigma, plain.contributors[k].sigma, `${what} ${c.name} σ`);
+        close(c.worstCase, plain.contributors[k].worstCase, `${what} ${c.name} worst case`);
+      });
+    sameContributors(leading);
     expect(out.contributors.map((c) => c.name), `${what} contributors`).toEqual(plain.contributors.map((c) => c.name));
-    out.contributors.forEach((c, k) => {
-      close(c.share, plain.contributors[k].share, `${what} ${c.name} share`);
-      close(c.sigma, plain.contributors[k].sigma, `${what} ${c.name} σ`);
-      close(c.worstCase, plain.contributors[k].worstCase, `${what} ${c.name} worst case`);
-    });
+    sameContributors(out.contributors);
+    expect(leadingContributors(out, 3)).toEqual(out.contributors.slice(0, 3));
     // Written out (as the JSON with every breakdown and a structured copy read them) and read directly: the same list.
     const written = JSON.parse(JSON.stringify(out)) as OutputVariation;
     expect(written.sensitivities).toEqual(out.sensitivities);

@@ -113,7 +113,8 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const count = varied.params.list.length;
   const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
   const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
-  const records = new OutputRecords(sens, sources, bySource, varied, new TopSensitivities(SHOWN_SENSITIVITIES, specs.length, shown), targetOf);
+  const lists = new OutputLists(new RankedContributors(specs.length), new TopSensitivities(SHOWN_SENSITIVITIES, specs.length, shown));
+  const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
   const outputs: OutputVariation[] = new Array(specs.length);
   for (let o = 0; o < specs.length; o++) outputs[o] = records.of(specs[o], o);
   const result: VariationResult = { outputs, sources: sourceSummaries(sources), stats: { adjointSolves: sens.adjointSolves, parameters: count, ms: performance.now() - t0 } };
@@ -173,7 +174,7 @@ class OutputRecords {
     private readonly sources: readonly ToleranceSource[],
     private readonly bySource: SourceRows,
     private readonly varied: VariedParameters,
-    private readonly top: TopSensitivities,
+    private readonly lists: OutputLists,
     private readonly targetOf: Map<string, TargetWindow>,
   ) {
     this.supplyOfParam = new Int32Array(varied.params.list.length).fill(-1);
@@ -193,7 +194,8 @@ class OutputRecords {
       if (j === this.varied.temperature) tempco = sens.derivative[q];
       if (supplyOfParam[j] >= 0) supplySlope[supplyOfParam[j]] = sens.derivative[q];
     }
-    const { sigma, worstCase, contributors } = spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
+    spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
+    const { sigma, worstCase } = KEPT;
     const supplyPercentPerVolt: Record<string, number> = nameTable();
     const supplies = this.varied.supplies;
     for (let k = 0; k < supplies.length; k++) supplyPercentPerVolt[supplies[k].name] = (supplySlope[k] / scale) * 100;
@@ -209,9 +211,9 @@ class OutputRecords {
     out.worstCaseRelative = worstCase / scale;
     out.tempcoPpmPerC = (tempco / scale) * 1e6;
     out.supplyPercentPerVolt = supplyPercentPerVolt;
-    out.contributors = contributors;
-    this.top.add(sens, o, scale);
-    this.top.attach(out, o);
+    this.lists.contributors.add(o);
+    this.lists.top.add(sens, o, scale);
+    this.lists.attach(out, o);
     if (target) {
       const lo = target.current * (1 - target.tolerance);
       const hi = target.current * (1 + target.tolerance);
@@ -352,10 +354,117 @@ export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly numb
 }
 
 /**
+ * The two ranked lists of every output, kept in typed arrays and made into records when an output's
+ * list is first read: its contributors (the default JSON writes three of up to eight) and its largest
+ * sensitivities (the default JSON writes none). They were most of the spread's objects, and the
+ * finiteness walk entered each one.
+ */
+class OutputLists {
+  constructor(
+    readonly contributors: RankedContributors,
+    readonly top: TopSensitivities,
+  ) {}
+
+  /**
+   * Gives `out` output o's lists as `contributors` and `sensitivities`, in that order: each built on
+   * first read, unless one of its figures is not finite (then now, so the finiteness walk removes it
+   * as from any record).
+   */
+  attach(out: OutputVariation, o: number): void {
+    const contributorsLater = this.contributors.finite(o);
+    const sensitivitiesLater = this.top.finite(o);
+    if (contributorsLater || sensitivitiesLater) {
+      const holder = out as LazyLists;
+      holder[LISTS] = this;
+      holder[LIST_INDEX] = o;
+      markLazyTables(out, LIST_TABLES);
+    }
+    if (contributorsLater) Object.defineProperty(out, 'contributors', LAZY_CONTRIBUTORS);
+    else out.contributors = this.contributors.madeOf(o);
+    if (sensitivitiesLater) Object.defineProperty(out, 'sensitivities', LAZY_SENSITIVITIES);
+    else out.sensitivities = this.top.listOf(o);
+  }
+}
+
+/**
+ * Every output's ranked contributors (`spreadOfRange`'s kept list) in columns: output o's are
+ * `name`, `share`, `sigma`, `worst` from `start[o]` to `start[o + 1]`. `made[o]` is set once the
+ * output holds its list as records (read, assigned, or made at once because a figure is not finite).
+ */
+class RankedContributors {
+  readonly made: Uint8Array;
+  private readonly start: Int32Array;
+  private readonly name: string[] = [];
+  private share: Float64Array;
+  private sigma: Float64Array;
+  private worst: Float64Array;
+
+  constructor(outputs: number) {
+    this.made = new Uint8Array(outputs);
+    this.start = new Int32Array(outputs + 1);
+    const size = MAX_CONTRIBUTORS * Math.min(Math.max(outputs, 1), 1024);
+    this.share = new Float64Array(size);
+    this.sigma = new Float64Array(size);
+    this.worst = new Float64Array(size);
+  }
+
+  /** Output o's list (the next) from what the last `spreadOfRange` kept. */
+  add(o: number): void {
+    let at = this.start[o];
+    if (at + KEPT.count > this.share.length) {
+      const size = 2 * this.share.length;
+      this.share = grownFloat(this.share, size);
+      this.sigma = grownFloat(this.sigma, size);
+      this.worst = grownFloat(this.worst, size);
+    }
+    for (let c = 0; c < KEPT.count; c++, at++) {
+      this.name[at] = rankedName[c];
+      this.share[at] = KEPT.shares[c];
+      this.sigma[at] = KEPT.sigmas[c];
+      this.worst[at] = KEPT.worsts[c];
+    }
+    this.start[o + 1] = at;
+  }
+
+  /** Whether every figure of output o's list is finite. */
+  finite(o: number): boolean {
+    for (let k = this.start[o]; k < this.start[o + 1]; k++) if (!(Number.isFinite(this.share[k]) && Number.isFinite(this.sigma[k]) && Number.isFinite(this.worst[k]))) return false;
+    return true;
+  }
+
+  /** Output o's list as records, now kept by the output. */
+  madeOf(o: number): Contribution[] {
+    this.made[o] = 1;
+    return this.leading(o, MAX_CONTRIBUTORS);
+  }
+
+  /** The first `count` of output o's list as records. */
+  leading(o: number, count: number): Contribution[] {
+    const from = this.start[o];
+    const to = Math.min(this.start[o + 1], from + count);
+    const out: Contribution[] = new Array(to - from);
+    for (let k = from; k < to; k++) out[k - from] = { name: this.name[k], share: this.share[k], sigma: this.sigma[k], worstCase: this.worst[k] };
+    return out;
+  }
+}
+
+/**
+ * The first `count` ranked contributors of an output, as records: read from the columns when the
+ * output has not made its list yet (the JSON writes three of up to eight), else from its list.
+ */
+export function leadingContributors(out: OutputVariation, count: number): Contribution[] {
+  const holder = out as Partial<LazyLists>;
+  const lists = holder[LISTS];
+  const o = holder[LIST_INDEX];
+  if (lists !== undefined && o !== undefined && !lists.contributors.made[o]) return lists.contributors.leading(o, count);
+  return out.contributors.slice(0, count);
+}
+
+/**
  * The largest normalised sensitivities of every output by `rankOf`, kept in the order they are
  * offered when equal (ties keep the parameter order), in typed arrays: output o's list is
  * `param`/`value` from `start[o]` to `start[o + 1]`. Its records are made when the list is first
- * read (the default JSON leaves them out; they were about a third of the spread's objects).
+ * read (the default JSON leaves them out).
  */
 class TopSensitivities {
   private readonly start: Int32Array;
@@ -390,24 +499,10 @@ class TopSensitivities {
     this.start[o + 1] = this.length;
   }
 
-  /**
-   * Gives `out` output o's list as `sensitivities`: built on first read, unless a figure is not
-   * finite (then now, so the finiteness walk removes it as from any record).
-   */
-  attach(out: OutputVariation, o: number): void {
-    const from = this.start[o];
-    const to = this.start[o + 1];
-    let finite = true;
-    for (let k = from; k < to; k++) if (!Number.isFinite(this.value[k])) finite = false;
-    if (!finite) {
-      out.sensitivities = this.list(from, to);
-      return;
-    }
-    const holder = out as LazySensitivities;
-    holder[LISTS] = this;
-    holder[LIST_INDEX] = o;
-    Object.defineProperty(out, 'sensitivities', LAZY_SENSITIVITIES);
-    markLazyTables(out, SENSITIVITIES_TABLE);
+  /** Whether every figure of output o's list is finite. */
+  finite(o: number): boolean {
+    for (let k = this.start[o]; k < this.start[o + 1]; k++) if (!Number.isFinite(this.value[k])) return false;
+    return true;
   }
 
   /** Output o's list as records. */
@@ -445,29 +540,44 @@ class TopSensitivities {
 }
 
 /** Where an output with a list not yet made finds it (symbol keys: no copy, JSON or walk sees them). */
-const LISTS = Symbol('sensitivity lists');
-const LIST_INDEX = Symbol('sensitivity list index');
-type LazySensitivities = OutputVariation & { [LISTS]: TopSensitivities; [LIST_INDEX]: number };
+const LISTS = Symbol('output lists');
+const LIST_INDEX = Symbol('output list index');
+type LazyLists = OutputVariation & { [LISTS]: OutputLists; [LIST_INDEX]: number };
 
-/** Replaces the accessor of `sensitivities` with the plain value. */
-function keepSensitivities(out: OutputVariation, value: Sensitivity[]): void {
-  Object.defineProperty(out, 'sensitivities', { value, writable: true, enumerable: true, configurable: true });
+/** Replaces the accessor of `name` with the plain value. */
+function keepList(out: OutputVariation, name: 'contributors' | 'sensitivities', value: unknown): void {
+  Object.defineProperty(out, name, { value, writable: true, enumerable: true, configurable: true });
 }
 
-/** The property `LAZY_SENSITIVITIES` defines. */
-const SENSITIVITIES_TABLE = ['sensitivities'];
+/** The properties `LAZY_CONTRIBUTORS` and `LAZY_SENSITIVITIES` define. */
+const LIST_TABLES = ['contributors', 'sensitivities'];
 
-/** One accessor shared by every output whose list is made on first read (one getter for all keeps the outputs alike for V8). */
+/** One accessor shared by every output whose contributors are made on first read (one getter for all keeps the outputs alike for V8). */
+const LAZY_CONTRIBUTORS: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: LazyLists): Contribution[] {
+    const list = this[LISTS].contributors.madeOf(this[LIST_INDEX]);
+    keepList(this, 'contributors', list);
+    return list;
+  },
+  set(this: LazyLists, value: Contribution[]): void {
+    this[LISTS].contributors.made[this[LIST_INDEX]] = 1;
+    keepList(this, 'contributors', value);
+  },
+};
+
+/** The same for the sensitivities. */
 const LAZY_SENSITIVITIES: PropertyDescriptor = {
   enumerable: true,
   configurable: true,
-  get(this: LazySensitivities): Sensitivity[] {
-    const list = this[LISTS].listOf(this[LIST_INDEX]);
-    keepSensitivities(this, list);
+  get(this: LazyLists): Sensitivity[] {
+    const list = this[LISTS].top.listOf(this[LIST_INDEX]);
+    keepList(this, 'sensitivities', list);
     return list;
   },
   set(this: OutputVariation, value: Sensitivity[]): void {
-    keepSensitivities(this, value);
+    keepList(this, 'sensitivities', value);
   },
 };
 
@@ -577,12 +687,24 @@ let rankedGroup = new Int32Array(64);
 let rankedRank = new Float64Array(64);
 const rankedName: string[] = [];
 
+/** Contributors kept per output (the largest). */
+const MAX_CONTRIBUTORS = 8;
+
+/**
+ * What the last `spreadOfRange` found: σ, worst case, and its kept contributors (`count`, at most
+ * `MAX_CONTRIBUTORS`, names in `rankedName`) with each one's share, σ and worst case, in order.
+ */
+const KEPT = { sigma: 0, worstCase: 0, count: 0, shares: new Float64Array(MAX_CONTRIBUTORS), sigmas: new Float64Array(MAX_CONTRIBUTORS), worsts: new Float64Array(MAX_CONTRIBUTORS) };
+
 /** Worst case, σ and the contributors ranked by variance (the 8 largest), summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
-  return spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
+  spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
+  const contributors: Contribution[] = new Array(KEPT.count);
+  for (let c = 0; c < KEPT.count; c++) contributors[c] = { name: rankedName[c], share: KEPT.shares[c], sigma: KEPT.sigmas[c], worstCase: KEPT.worsts[c] };
+  return { sigma: KEPT.sigma, worstCase: KEPT.worstCase, contributors };
 }
 
-/** `spreadOf` over entries `from … to − 1` of a row's arrays. */
+/** `spreadOf` over entries `from … to − 1` of a row's arrays, into `KEPT`. */
 function spreadOfRange(
   sources: readonly ToleranceSource[],
   groups: GroupIndex,
@@ -591,7 +713,7 @@ function spreadOfRange(
   from: number,
   to: number,
   sigmaOverride: ((k: number) => number) | undefined,
-): { sigma: number; worstCase: number; contributors: Contribution[] } {
+): void {
   if (groupVariance.length < groups.names.length) {
     groupVariance = new Float64Array(groups.names.length * 2);
     groupWorst = new Float64Array(groups.names.length * 2);
@@ -641,21 +763,21 @@ function spreadOfRange(
     rankedRank[at] = rank;
     rankedName[at] = name;
   }
-  const contributors: Contribution[] = new Array(Math.min(count, MAX_CONTRIBUTORS));
-  for (let c = 0; c < contributors.length; c++) {
+  KEPT.count = Math.min(count, MAX_CONTRIBUTORS);
+  for (let c = 0; c < KEPT.count; c++) {
     const g = rankedGroup[c];
     const v = groupVariance[g];
-    contributors[c] = { name: rankedName[c], share: variance > 0 ? v / variance : 0, sigma: Math.sqrt(v), worstCase: groupWorst[g] };
+    KEPT.shares[c] = variance > 0 ? v / variance : 0;
+    KEPT.sigmas[c] = Math.sqrt(v);
+    KEPT.worsts[c] = groupWorst[g];
   }
   for (let t = 0; t < touched; t++) {
     groupVariance[groupTouched[t]] = 0;
     groupWorst[groupTouched[t]] = 0;
   }
-  return { sigma: Math.sqrt(variance), worstCase, contributors };
+  KEPT.sigma = Math.sqrt(variance);
+  KEPT.worstCase = worstCase;
 }
-
-/** Contributors kept per output (the largest). */
-const MAX_CONTRIBUTORS = 8;
 
 /** Whether group g is among the first `count` touched groups of the current call. */
 function groupListed(count: number, g: number): boolean {
@@ -676,14 +798,16 @@ export function attachVariation(structures: Structure[], result: VariationResult
     const list = byStructure.get(s.id);
     if (!list) continue;
     const iout: Record<string, OutputVariation> = nameTable();
-    const voltages: Record<string, OutputVariation> = nameTable();
+    let voltages: Record<string, OutputVariation> | undefined;
     let iref: OutputVariation | undefined;
     for (const o of list) {
       if (o.key.endsWith(' iref')) iref = o;
-      else if (o.unit === 'V') voltages[o.output] = o;
+      else if (o.unit === 'V') (voltages ??= nameTable())[o.output] = o;
       else iout[o.output] = o;
     }
-    s.variation = { ...(iref ? { iref } : {}), iout, ...(Object.keys(voltages).length ? { voltages } : {}) };
+    // Made in its final shape (iref, iout, voltages in that order; no spreads of conditional parts).
+    const variation: NonNullable<Structure['variation']> = iref ? { iref, iout } : { iout };
+    if (voltages) variation.voltages = voltages;
+    s.variation = variation;
   }
 }
-
