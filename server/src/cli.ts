@@ -23,7 +23,7 @@ import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
-import { leadingContributors } from '../../shared-analysis/src/variation/index';
+import { leadingContributors, sourceSummaries } from '../../shared-analysis/src/variation/index';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { nameTable } from '../../shared-analysis/src/names';
@@ -728,9 +728,11 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
  */
 function variationForJson(v: VariationResult, structures: readonly Structure[], detail: JsonDetail): unknown {
   const shown = new Set(structures.filter((s) => s.variation).map((s) => s.id));
+  // Each source's entry made when written (from the analysis's columns while its list is not made).
+  const sources = sourceSummaries(v);
   return {
     outputsOutsideStructures: v.outputs.filter((o) => !o.structure || !shown.has(o.structure)).map((o) => spreadForJson(o, detail)),
-    sources: new JsonItems(v.sources.length, (i) => v.sources[i]),
+    sources: new JsonItems(sources.length, sources.at),
     stats: v.stats,
     ...(v.monteCarlo ? { monteCarlo: v.monteCarlo } : {}),
   };

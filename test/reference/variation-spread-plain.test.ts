@@ -9,9 +9,9 @@ import { analyseSession } from '../../shared-analysis/src/service';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
 import { recogniseStructures } from '../../shared-analysis/src/structures/recognise';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
-import { analyseVariation, leadingContributors, type VariationDetail } from '../../shared-analysis/src/variation/index';
+import { analyseVariation, leadingContributors, sourceSummaries, type VariationDetail } from '../../shared-analysis/src/variation/index';
 import { sensitivities, type VariedParameter } from '../../shared-analysis/src/variation/sensitivity';
-import type { Contribution, OutputVariation, Sensitivity } from '../../shared-analysis/src/variation/types';
+import type { Contribution, OutputVariation, Sensitivity, SourceSummary } from '../../shared-analysis/src/variation/types';
 import type { Linearisation } from '../../shared-analysis/src/solve/dc';
 import { fixture } from '../unit/structures/fixtures';
 import { multiplier, selfBiasedLoop } from '../unit/structures/kinds/circuits';
@@ -119,8 +119,25 @@ function close(actual: number, expected: number, what: string): void {
   expect(Math.abs(actual - expected), `${what}: ${actual} against ${expected}`).toBeLessThanOrEqual(1e-12 * Math.max(Math.abs(expected), 1e-300));
 }
 
+/** Each source as the report lists it (docs/VARIATION.md): its label, what it varies, its figure and where the figure came from. */
+function plainSummary(s: VariationDetail['sources'][number]): SourceSummary {
+  const kind = s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : s.partSpread ? 'part spread' : 'mismatch';
+  return { name: s.label, kind, figure: s.figure, from: s.from };
+}
+
+/** The result's source list as a writer reads it before the list is made, then the list itself: each the plain summary of its source. */
+function checkSources(detail: VariationDetail): void {
+  const plain = detail.sources.map(plainSummary);
+  const written = sourceSummaries(detail.result);
+  expect(Array.from({ length: written.length }, (_, k) => written.at(k))).toEqual(plain);
+  expect(detail.result.sources).toEqual(plain);
+  const after = sourceSummaries(detail.result);
+  expect(Array.from({ length: after.length }, (_, k) => after.at(k))).toEqual(plain);
+}
+
 /** Every output of a result against its plain computation; the sensitivities read from the output and from its JSON alike. */
 function checkAgainstPlain(circuit: Circuit, detail: VariationDetail, lin: Linearisation): number {
+  checkSources(detail);
   const outputs = detail.result.outputs;
   outputs.forEach((out: OutputVariation, o) => {
     const plain = plainOutput(circuit, detail, lin, o);

@@ -117,7 +117,10 @@ export function analyseVariation(ctx: VariationContext): VariationDetail | undef
   const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
   const outputs: OutputVariation[] = new Array(specs.length);
   for (let o = 0; o < specs.length; o++) outputs[o] = records.of(specs[o], o);
-  const result: VariationResult = { outputs, sources: sourceSummaries(sources), stats: { adjointSolves: sens.adjointSolves, parameters: count, ms: performance.now() - t0 } };
+  // Field by field, in the order the JSON shows them.
+  const result = { outputs } as VariationResult;
+  attachSources(result, sources);
+  result.stats = { adjointSolves: sens.adjointSolves, parameters: count, ms: performance.now() - t0 };
   return { result, specs, sources, bySource, sensitivityMs };
 }
 
@@ -153,15 +156,103 @@ function sourceParameters(params: ParameterList, sources: readonly ToleranceSour
   return out;
 }
 
-/** One source of spread as the report lists it. */
-function sourceSummaries(sources: readonly ToleranceSource[]): SourceSummary[] {
-  const out: SourceSummary[] = new Array(sources.length);
-  for (let k = 0; k < sources.length; k++) {
-    const s = sources[k];
-    out[k] = { name: s.label, kind: s.parameter.kind === 'resistance' ? 'resistor' : s.parameter.kind === 'source' ? 'source' : s.partSpread ? 'part spread' : 'mismatch', figure: s.figure, from: s.from };
+/** Each source's kind and origin as a code: its position in these lists. */
+const SOURCE_KINDS: readonly SourceSummary['kind'][] = ['resistor', 'source', 'mismatch', 'part spread'];
+const SOURCE_ORIGINS: readonly SourceSummary['from'][] = ['card', 'series', 'setting', 'supply', 'model', 'default'];
+
+/**
+ * The sources as the report lists them, in columns (name, kind, figure and origin of each). The
+ * result's `sources` are made from them when first read, and the JSON writes each entry from the
+ * columns (`sourceSummaries`): 30,001 records at 20k that the analysis no longer makes, the finiteness
+ * walk no longer enters and the heap no longer keeps until the document is written.
+ */
+class SourceColumns {
+  readonly name: string[];
+  private readonly kind: Uint8Array;
+  private readonly figure: Float64Array;
+  private readonly origin: Uint8Array;
+
+  constructor(sources: readonly ToleranceSource[]) {
+    const count = sources.length;
+    this.name = new Array<string>(count);
+    this.kind = new Uint8Array(count);
+    this.figure = new Float64Array(count);
+    this.origin = new Uint8Array(count);
+    for (let k = 0; k < count; k++) {
+      const s = sources[k];
+      this.name[k] = s.label;
+      this.kind[k] = s.parameter.kind === 'resistance' ? 0 : s.parameter.kind === 'source' ? 1 : s.partSpread ? 3 : 2;
+      this.figure[k] = s.figure;
+      this.origin[k] = SOURCE_ORIGINS.indexOf(s.from);
+    }
   }
-  return out;
+
+  /** Whether every figure is finite. */
+  finite(): boolean {
+    for (let k = 0; k < this.figure.length; k++) if (!Number.isFinite(this.figure[k])) return false;
+    return true;
+  }
+
+  /** Source k as a record. */
+  at(k: number): SourceSummary {
+    return { name: this.name[k], kind: SOURCE_KINDS[this.kind[k]], figure: this.figure[k], from: SOURCE_ORIGINS[this.origin[k]] };
+  }
+
+  /** Every source as a record. */
+  all(): SourceSummary[] {
+    const out: SourceSummary[] = new Array(this.name.length);
+    for (let k = 0; k < out.length; k++) out[k] = this.at(k);
+    return out;
+  }
 }
+
+/** Gives `result` its `sources`, made on first read unless a figure is not finite (then now, so the finiteness walk removes it as from any record). */
+function attachSources(result: VariationResult, sources: readonly ToleranceSource[]): void {
+  const columns = new SourceColumns(sources);
+  if (!columns.finite()) {
+    result.sources = columns.all();
+    return;
+  }
+  (result as LazySources)[SOURCE_COLUMNS] = columns;
+  Object.defineProperty(result, 'sources', LAZY_SOURCES);
+  markLazyTables(result, SOURCES_TABLE);
+}
+
+/**
+ * A result's sources for a writer: how many, and each as a record, made from the columns while the
+ * list is not made (each record can be collected once written), else read from the list.
+ */
+export function sourceSummaries(result: VariationResult): { length: number; at: (k: number) => SourceSummary } {
+  const columns = (result as Partial<LazySources>)[SOURCE_COLUMNS];
+  if (columns !== undefined && Object.getOwnPropertyDescriptor(result, 'sources')?.get) return { length: columns.name.length, at: (k) => columns.at(k) };
+  const list = result.sources;
+  return { length: list.length, at: (k) => list[k] };
+}
+
+/** Where a result with its sources not yet made finds them (a symbol key: no copy, JSON or walk sees it). */
+const SOURCE_COLUMNS = Symbol('source columns');
+type LazySources = VariationResult & { [SOURCE_COLUMNS]: SourceColumns };
+
+/** The property `LAZY_SOURCES` defines. */
+const SOURCES_TABLE = ['sources'];
+
+/** Replaces the accessor of `sources` with the plain value. */
+function keepSources(result: VariationResult, value: SourceSummary[]): void {
+  Object.defineProperty(result, 'sources', { value, writable: true, enumerable: true, configurable: true });
+}
+
+const LAZY_SOURCES: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: LazySources): SourceSummary[] {
+    const list = this[SOURCE_COLUMNS].all();
+    keepSources(this, list);
+    return list;
+  },
+  set(this: VariationResult, value: SourceSummary[]): void {
+    keepSources(this, value);
+  },
+};
 
 /** Makes each output's record from its row of derivatives: value, σ, worst case, drift, %/V, contributors, sensitivities, yield. */
 class OutputRecords {
