@@ -236,21 +236,16 @@ type LazySources = VariationResult & { [SOURCE_COLUMNS]: SourceColumns };
 /** The property `LAZY_SOURCES` defines. */
 const SOURCES_TABLE = ['sources'];
 
-/** Replaces the accessor of `sources` with the plain value. */
-function keepSources(result: VariationResult, value: SourceSummary[]): void {
-  Object.defineProperty(result, 'sources', { value, writable: true, enumerable: true, configurable: true });
-}
-
 const LAZY_SOURCES: PropertyDescriptor = {
   enumerable: true,
   configurable: true,
   get(this: LazySources): SourceSummary[] {
     const list = this[SOURCE_COLUMNS].all();
-    keepSources(this, list);
+    keepValue(this, 'sources', list);
     return list;
   },
   set(this: VariationResult, value: SourceSummary[]): void {
-    keepSources(this, value);
+    keepValue(this, 'sources', value);
   },
 };
 
@@ -635,9 +630,9 @@ const LISTS = Symbol('output lists');
 const LIST_INDEX = Symbol('output list index');
 type LazyLists = OutputVariation & { [LISTS]: OutputLists; [LIST_INDEX]: number };
 
-/** Replaces the accessor of `name` with the plain value. */
-function keepList(out: OutputVariation, name: 'contributors' | 'sensitivities', value: unknown): void {
-  Object.defineProperty(out, name, { value, writable: true, enumerable: true, configurable: true });
+/** Replaces the accessor of a table made on first read (`name` of `o`) with the plain value. */
+function keepValue(o: object, name: string, value: unknown): void {
+  Object.defineProperty(o, name, { value, writable: true, enumerable: true, configurable: true });
 }
 
 /** The properties `LAZY_CONTRIBUTORS` and `LAZY_SENSITIVITIES` define. */
@@ -649,12 +644,12 @@ const LAZY_CONTRIBUTORS: PropertyDescriptor = {
   configurable: true,
   get(this: LazyLists): Contribution[] {
     const list = this[LISTS].contributors.madeOf(this[LIST_INDEX]);
-    keepList(this, 'contributors', list);
+    keepValue(this, 'contributors', list);
     return list;
   },
   set(this: LazyLists, value: Contribution[]): void {
     this[LISTS].contributors.made[this[LIST_INDEX]] = 1;
-    keepList(this, 'contributors', value);
+    keepValue(this, 'contributors', value);
   },
 };
 
@@ -664,11 +659,11 @@ const LAZY_SENSITIVITIES: PropertyDescriptor = {
   configurable: true,
   get(this: LazyLists): Sensitivity[] {
     const list = this[LISTS].top.listOf(this[LIST_INDEX]);
-    keepList(this, 'sensitivities', list);
+    keepValue(this, 'sensitivities', list);
     return list;
   },
   set(this: OutputVariation, value: Sensitivity[]): void {
-    keepList(this, 'sensitivities', value);
+    keepValue(this, 'sensitivities', value);
   },
 };
 
