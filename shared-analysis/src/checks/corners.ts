@@ -393,14 +393,26 @@ interface CornerBuffers {
  * (one sink for all, moved to each structure's first output), figures that are not finite as 0.
  */
 function measureCorner(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number): void {
+  // Each loop is a function of its own: a function compiled while its first loop ran held code for the
+  // second that had never run, and gave up its compiled code at every corner.
+  measureEachStructure(flat, reader, buffers, k);
+  keepFiniteFigures(buffers.sink, flat.outStart[flat.outStart.length - 1], buffers.corners, k);
+}
+
+/** Every planned structure's IREF and output figures at corner k into `buffers` (see `measureCorner`). */
+function measureEachStructure(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number): void {
   const { corners: C, iref, sink } = buffers;
   const count = flat.outStart.length - 1;
   for (let i = 0; i < count; i++) {
     sink.first = flat.outStart[i] * C + k;
     iref[i * C + k] = finite(runMeasurement(flat, i, reader, sink));
   }
+}
+
+/** Corner k's current and headroom of each of the first `outputs` outputs in `sink` (C corners an output), 0 where not finite. */
+function keepFiniteFigures(sink: OutputSink, outputs: number, C: number, k: number): void {
   const { current, headroom } = sink;
-  for (let o = flat.outStart[count] - 1; o >= 0; o--) {
+  for (let o = outputs - 1; o >= 0; o--) {
     current[o * C + k] = finite(current[o * C + k]);
     headroom[o * C + k] = finite(headroom[o * C + k]);
   }

@@ -735,39 +735,17 @@ export class DcSolver {
   // ---- records ----
 
   /**
-   * The operating point at `x`: node voltages, two-terminal values and every device kind's columns
-   * are computed now into typed arrays; the name-keyed `nodes` and `devices` tables are built only
-   * when something reads them (see `lazyPoint`). Values beyond ±1e300 are found now, so the
-   * overflow finding is raised by the solve; the tables are then built at once to name them.
+   * Every two-terminal element's voltage and current at x into tv and ti (reader k at k); true when one
+   * of them, or their product, is past ±1e300. A method of its own: compiled while its loop ran, code
+   * after the loop had never run and gave up the compiled code at every point built.
    */
-  private buildOperatingPoint(
-    x: Float64Array,
-    head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
-    findings: Finding[],
-    reuse?: ReusedVectors,
-  ): OperatingPoint {
-    const c = this.circuit;
-    const { tables, deviceOrder, readers } = this.layout;
-    // The point's readers below outlive the solve: they take what they read from the solver now, so they do not
-    // keep the solver itself (its matrix and factors, tens of megabytes at 50,000 elements) alive with the point.
-    const { quantityColumns, recordTypes, tableRecordTypes } = this;
+  private twoTerminalValues(x: Float64Array, tv: Float64Array, ti: Float64Array): boolean {
+    const readers = this.layout.readers;
     const v = (u: number): number => (u >= 0 ? x[u] : 0);
     const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
-    let overflow = false;
-    const volts = reuse ? (reuse.volts ??= new Float64Array(c.nodes.length)) : new Float64Array(c.nodes.length);
-    for (let i = 1; i < c.nodes.length; i++) {
-      const val = x[i - 1];
-      if (inRange(val)) volts[i] = val;
-      else {
-        overflow = true;
-        volts[i] = Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
-      }
-    }
-    // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
-    const tv = reuse ? (reuse.tv ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
-    const ti = reuse ? (reuse.ti ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
     const override = this.conductanceOverride;
     const sourceValues = this.engine.sourceValues;
+    let overflow = false;
     for (let k = 0; k < readers.length; k++) {
       const r = readers[k];
       const voltage = v(r.a) - v(r.b);
@@ -796,6 +774,35 @@ export class DcSolver {
       ti[k] = current;
       if (!(inRange(current) && inRange(voltage) && inRange(voltage * current))) overflow = true;
     }
+    return overflow;
+  }
+
+  /**
+   * The operating point at `x`: node voltages, two-terminal values and every device kind's columns
+   * are computed now into typed arrays; the name-keyed `nodes` and `devices` tables are built only
+   * when something reads them (see `lazyPoint`). Values beyond ±1e300 are found now, so the
+   * overflow finding is raised by the solve; the tables are then built at once to name them.
+   */
+  private buildOperatingPoint(
+    x: Float64Array,
+    head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
+    findings: Finding[],
+    reuse?: ReusedVectors,
+  ): OperatingPoint {
+    const c = this.circuit;
+    const { tables, deviceOrder, readers } = this.layout;
+    // The point's readers below outlive the solve: they take what they read from the solver now, so they do not
+    // keep the solver itself (its matrix and factors, tens of megabytes at 50,000 elements) alive with the point.
+    const { quantityColumns, recordTypes, tableRecordTypes } = this;
+    const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
+    const volts = reuse ? (reuse.volts ??= new Float64Array(c.nodes.length)) : new Float64Array(c.nodes.length);
+    // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
+    const tv = reuse ? (reuse.tv ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
+    const ti = reuse ? (reuse.ti ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
+    // Both passes always run: each fills its vector.
+    const nodesOverflow = nodeVolts(x, volts);
+    const valuesOverflow = this.twoTerminalValues(x, tv, ti);
+    let overflow = nodesOverflow || valuesOverflow;
     const columns: DeviceColumns[] = tables.map((t, k) => t.evaluate(x, reuse?.columns?.[k]));
     if (reuse) reuse.columns = columns;
     let columnsInRange = true;
@@ -1391,6 +1398,23 @@ function allInRecordRange(q: Float64Array): boolean {
     if (!(v <= RECORD_LIMIT && v >= -RECORD_LIMIT)) return false;
   }
   return true;
+}
+
+/**
+ * Node i's voltage (unknown i − 1) into volts[i], ground 0 left as it is, a value past ±1e300 clamped;
+ * true when one was. A loop of its own: see `twoTerminalValues`.
+ */
+function nodeVolts(x: Float64Array, volts: Float64Array): boolean {
+  let overflow = false;
+  for (let i = 1; i < volts.length; i++) {
+    const val = x[i - 1];
+    if (Math.abs(val) <= RECORD_LIMIT) volts[i] = val;
+    else {
+      overflow = true;
+      volts[i] = Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
+    }
+  }
+  return overflow;
 }
 
 /**

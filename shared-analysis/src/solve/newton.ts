@@ -226,10 +226,11 @@ export class NewtonEngine {
 
   /** Solves A·x = rhs with the equilibrated factors: x = C·(RAC)⁻¹·R·rhs. */
   private solveScaled(x: Float64Array): void {
-    const { rhs, scaledRhs, rowScale, colScale } = this;
-    for (let k = 0; k < rhs.length; k++) scaledRhs[k] = rhs[k] * rowScale[k];
-    this.solver.solve(scaledRhs, x);
-    for (let k = 0; k < x.length; k++) x[k] *= colScale[k];
+    // The loops are functions of their own: a loop long enough to be compiled while it runs left code
+    // after it that had never run, which gave up its compiled code at every call (two a Newton iteration).
+    multiplyInto(this.scaledRhs, this.rhs, this.rowScale);
+    this.solver.solve(this.scaledRhs, x);
+    multiplyInPlace(x, this.colScale);
   }
 
   /**
@@ -418,6 +419,16 @@ export function powerOfTwoInverses(from: Float64Array, to: Float64Array): void {
     }
     to[k] = libraryScale(from[k]);
   }
+}
+
+/** out[k] = a[k]·b[k] for every k of `a`. */
+function multiplyInto(out: Float64Array, a: Float64Array, b: Float64Array): void {
+  for (let k = 0; k < a.length; k++) out[k] = a[k] * b[k];
+}
+
+/** x[k] ·= s[k] for every k of `x`. */
+function multiplyInPlace(x: Float64Array, s: Float64Array): void {
+  for (let k = 0; k < x.length; k++) x[k] *= s[k];
 }
 
 /** The 32-bit word views of the vectors `powerOfTwoInverses` was given (a solver's scale vectors live as long as it). */

@@ -276,19 +276,10 @@ export class SparseLU implements LinearSolver {
     this.factorCount++;
     if (this.invalidIndex >= 0) return this.fail('invalid-pattern', this.invalidIndex);
     const n = this.n;
-    const aVal = this.aVal;
-    aVal.fill(0);
-    const slot = this.slot;
-    const m = slot.length;
-    if (values.length < m) return this.fail('missing-values', this.patternRow[values.length]);
-    const rows = this.patternRow;
-    const cols = this.patternCol;
-    const scaled = rowScale !== undefined && colScale !== undefined;
-    for (let k = 0; k < m; k++) {
-      const v = scaled ? values[k] * rowScale[rows[k]] * colScale[cols[k]] : values[k];
-      if (v - v !== 0) return this.fail('non-finite-value', rows[k]);
-      aVal[slot[k]] += v;
-    }
+    this.aVal.fill(0);
+    if (values.length < this.slot.length) return this.fail('missing-values', this.patternRow[values.length]);
+    const nonFinite = this.scatter(values, rowScale, colScale);
+    if (nonFinite >= 0) return this.fail('non-finite-value', nonFinite);
     if (n === 0) {
       this.valid = true;
       this.lastFailure = undefined;
@@ -311,6 +302,26 @@ export class SparseLU implements LinearSolver {
       this.lastFailure = undefined;
     }
     return r;
+  }
+
+  /**
+   * Adds every entry of `values` (scaled as `factorScaled` says) into the compressed columns; the row of
+   * the first entry that is not finite, or −1. A function of its own: compiled while its loop ran, code
+   * after the loop in the same function had never run and gave up the compiled code at every call.
+   */
+  private scatter(values: Float64Array, rowScale: Float64Array | undefined, colScale: Float64Array | undefined): number {
+    const aVal = this.aVal;
+    const slot = this.slot;
+    const m = slot.length;
+    const rows = this.patternRow;
+    const cols = this.patternCol;
+    const scaled = rowScale !== undefined && colScale !== undefined;
+    for (let k = 0; k < m; k++) {
+      const v = scaled ? values[k] * rowScale[rows[k]] * colScale[cols[k]] : values[k];
+      if (v - v !== 0) return rows[k];
+      aVal[slot[k]] += v;
+    }
+    return -1;
   }
 
   /**
