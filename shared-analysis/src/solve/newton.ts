@@ -135,11 +135,8 @@ export class NewtonEngine {
     const { values, rowMax, rowScale, colScale } = this;
     const { rows, cols } = this.layout.pattern;
     powerOfTwoInverses(rowMax, rowScale);
-    colScale.fill(0);
-    for (let e = 0; e < rows.length; e++) {
-      const a = Math.abs(values[e] * rowScale[rows[e]]);
-      if (a > colScale[cols[e]]) colScale[cols[e]] = a;
-    }
+    // A function of its own, as the other passes: see `solveScaled`.
+    columnMaxima(values, rows, cols, rowScale, colScale);
     powerOfTwoInverses(colScale, colScale);
     this.scaledCurrent = false;
   }
@@ -211,9 +208,20 @@ export class NewtonEngine {
 
   /** Whether every update settled and then, with the residual measured at x, every row: the convergence test of an unlimited iteration. */
   private settled(x: Float64Array): boolean {
-    const n = x.length;
-    for (let k = 0; k < n; k++) if (!this.updateSettled(x, k)) return false;
+    // Each loop is a method of its own, as the other passes: see `solveScaled`.
+    if (!this.updatesSettled(x)) return false;
     this.measureResidual(x);
+    return this.residualsSettled(x.length);
+  }
+
+  /** Whether every unknown's update from x settled. */
+  private updatesSettled(x: Float64Array): boolean {
+    for (let k = 0; k < x.length; k++) if (!this.updateSettled(x, k)) return false;
+    return true;
+  }
+
+  /** Whether every one of the n rows' residual (of the last `measureResidual`) settled. */
+  private residualsSettled(n: number): boolean {
     for (let k = 0; k < n; k++) if (!this.residualSettled(k)) return false;
     return true;
   }
@@ -418,6 +426,15 @@ export function powerOfTwoInverses(from: Float64Array, to: Float64Array): void {
       }
     }
     to[k] = libraryScale(from[k]);
+  }
+}
+
+/** Each column's largest |a·r| of the matrix `values` (entry e at rows[e], cols[e]) with its rows scaled by rowScale, into colScale. */
+function columnMaxima(values: Float64Array, rows: Int32Array, cols: Int32Array, rowScale: Float64Array, colScale: Float64Array): void {
+  colScale.fill(0);
+  for (let e = 0; e < rows.length; e++) {
+    const a = Math.abs(values[e] * rowScale[rows[e]]);
+    if (a > colScale[cols[e]]) colScale[cols[e]] = a;
   }
 }
 

@@ -334,28 +334,13 @@ export class SparseLU implements LinearSolver {
       x.fill(0);
       return x;
     }
+    // Each pass is a function of its own: compiled while one pass ran (a large circuit's), the code of the
+    // passes after it had never run, and a small circuit's solve then gave up that code at every call.
     const y = this.work;
-    const rowOf = this.rowOf;
-    for (let k = 0; k < n; k++) y[k] = b[rowOf[k]] ?? 0;
-    const lStart = this.lStart;
-    const lRow = this.lRow;
-    const lVal = this.lVal;
-    for (let k = 0; k < n; k++) {
-      const yk = y[k];
-      if (yk === 0) continue;
-      for (let p = lStart[k], end = lStart[k + 1]; p < end; p++) y[lRow[p]] -= lVal[p] * yk;
-    }
-    const uStart = this.uStart;
-    const uRow = this.uRow;
-    const uVal = this.uVal;
-    const uDiag = this.uDiag;
-    for (let k = n - 1; k >= 0; k--) {
-      const yk = (y[k] /= uDiag[k]);
-      if (yk === 0) continue;
-      for (let p = uStart[k], end = uStart[k + 1]; p < end; p++) y[uRow[p]] -= uVal[p] * yk;
-    }
-    const q = this.q;
-    for (let k = 0; k < n; k++) x[q[k]] = y[k];
+    gatherRows(y, b, this.rowOf, n);
+    forwardSubstitute(y, this.lStart, this.lRow, this.lVal, n);
+    backSubstitute(y, this.uStart, this.uRow, this.uVal, this.uDiag, n);
+    scatterColumns(x, y, this.q, n);
     y.fill(0);
     return x;
   }
@@ -714,4 +699,32 @@ function isPermutation(q: Int32Array, n: number): boolean {
     seen[j] = 1;
   }
   return true;
+}
+
+/** y[k] = b[rowOf[k]] (0 past the end of b), for k < n: the row permutation of `SparseLU.solve`. */
+function gatherRows(y: Float64Array, b: Float64Array, rowOf: Int32Array, n: number): void {
+  for (let k = 0; k < n; k++) y[k] = b[rowOf[k]] ?? 0;
+}
+
+/** Solves L·z = y in place (unit lower triangle by columns). */
+function forwardSubstitute(y: Float64Array, lStart: Int32Array, lRow: Int32Array, lVal: Float64Array, n: number): void {
+  for (let k = 0; k < n; k++) {
+    const yk = y[k];
+    if (yk === 0) continue;
+    for (let p = lStart[k], end = lStart[k + 1]; p < end; p++) y[lRow[p]] -= lVal[p] * yk;
+  }
+}
+
+/** Solves U·z = y in place (upper triangle by columns, its diagonal apart). */
+function backSubstitute(y: Float64Array, uStart: Int32Array, uRow: Int32Array, uVal: Float64Array, uDiag: Float64Array, n: number): void {
+  for (let k = n - 1; k >= 0; k--) {
+    const yk = (y[k] /= uDiag[k]);
+    if (yk === 0) continue;
+    for (let p = uStart[k], end = uStart[k + 1]; p < end; p++) y[uRow[p]] -= uVal[p] * yk;
+  }
+}
+
+/** x[q[k]] = y[k] for k < n: the column permutation back. */
+function scatterColumns(x: Float64Array, y: Float64Array, q: Int32Array, n: number): void {
+  for (let k = 0; k < n; k++) x[q[k]] = y[k];
 }
