@@ -32,7 +32,6 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { keptRecords } from './solve/point';
 import { cornerStarts, IncrementalKeeper, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
 import { elaborationSettings, keptElaboration } from './incremental-elaborate';
 
@@ -181,11 +180,9 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       operatingPoint = result.op;
       if (edit) pushAll(structures, timed('structures', () => edit.structuresAt(result)));
       pushAll(findings, withoutNetlistDuplicates(result.findings, findings));
-      // The structure check and the device judgements read the same devices' records: each is built once for both.
-      const records = keptRecords(result.op, circuit.elements.length);
-      pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved, kept: edit?.keptFindings, record: keeper?.record, records })));
+      pushAll(findings, timed('hand-analysis', () => analyseStructures({ circuit, op: result.op, structures, options: resolved, kept: edit?.keptFindings, record: keeper?.record })));
       // A value edit judges again only the devices of the parts of the circuit where the point moved.
-      const judge = (only?: (element: number) => boolean) => judgeEachDevice({ circuit, op: result.op, structures, options: resolved, records }, only);
+      const judge = (only?: (element: number) => boolean) => judgeEachDevice({ circuit, op: result.op, structures, options: resolved }, only);
       devices = timed('devices', () => (edit ? edit.deviceFindings(judge) : judge()));
       pushAll(findings, limitDeviceFlood(devices ?? []));
       // A value edit keeps the structures of an analysis that had no self-biased loop, which is all the start-up check looks at.

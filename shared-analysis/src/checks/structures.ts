@@ -3,7 +3,7 @@
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element, Model } from '../circuit';
 import type { DeviceRecord, OperatingPoint } from '../solve/types';
-import { keptRecords, namedPointReader, pointVectors, type NamedPointReader, type RecordReader } from '../solve/point';
+import { namedPointReader, pointVectors, type NamedPointReader } from '../solve/point';
 import { estimateStructure } from '../structures/estimate';
 import { eng as engRaw, sig, signedVolts as signedRaw } from '../structures/format';
 import { belowFloor, formatPercent as percent } from '../fixes/format';
@@ -94,8 +94,6 @@ export interface StructureCheckContext {
   kept?: (s: Structure) => Finding[] | undefined;
   /** Told each structure's findings (severities mapped), in the order they are returned. */
   record?: (s: Structure, findings: Finding[]) => void;
-  /** Reads the point's records (`keptRecords`: each built once for the checks of one analysis); when absent, the call keeps its own. */
-  records?: RecordReader;
 }
 
 /**
@@ -117,7 +115,7 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
     options,
     railRange: { top: rails.length ? maxOf(rails) : UNBOUNDED_OHMS, bottom: rails.length ? minOf(rails) : -UNBOUNDED_OHMS },
     temperatureC: op?.temperatureC ?? options.temperatureC ?? circuit.temperatureC,
-    at: op ? namedPointReader(op, topo, ctx.records ?? keptRecords(op, circuit.elements.length)) : undefined,
+    at: op ? namedPointReader(op, topo) : undefined,
     voltsByIndex: op ? pointVectors(op)?.volts : undefined,
   };
   const measuring = op ? nominalMeasuring(topo, ctx.kept ? structures.filter((s) => !ctx.kept!(s)) : structures, op) : undefined;
@@ -141,7 +139,7 @@ interface CheckShared {
   /** Highest and lowest rail potential of the circuit (the compliance range's outer ends). */
   railRange: { top: number; bottom: number };
   temperatureC: number;
-  /** Reads `op` by name without building the records of every device, each record built once for every structure. */
+  /** Reads `op` by name without building the records of every device. */
   at: NamedPointReader | undefined;
   /** The solver's node voltages of `op` by index, when it has them (else `at` reads them by name). */
   voltsByIndex: Float64Array | undefined;
@@ -215,6 +213,8 @@ class StructureCheck implements ResistanceContext {
   private readonly findings: Finding[] = [];
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
   private readonly off = new Set<string>();
+  /** The records of `op` read so far, by device: each is built once, though several checks read it. */
+  private readonly records = new Map<string, DeviceRecord | undefined>();
   private readonly circuit: Circuit;
   private readonly topo: Topology;
   private readonly op: OperatingPoint | undefined;
@@ -240,9 +240,13 @@ class StructureCheck implements ResistanceContext {
     this.voltsByIndex = shared.voltsByIndex;
   }
 
-  /** The record of a device at `op` (undefined without a solve): built once for every check that reads it (`CheckShared.at`). */
+  /** The record of a device at `op` (undefined without a solve). */
   private record(name: string): DeviceRecord | undefined {
-    return this.at?.record(name);
+    if (!this.at) return undefined;
+    if (this.records.has(name)) return this.records.get(name);
+    const rec = this.at.record(name);
+    this.records.set(name, rec);
+    return rec;
   }
 
   private t(name: string): Transistor {

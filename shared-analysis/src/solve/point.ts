@@ -128,32 +128,6 @@ export function lazyPoint(head: { converged: boolean; temperatureC: number; iter
   return op;
 }
 
-/** Reads a point's records by circuit element index. */
-export interface RecordReader {
-  record(e: number): DeviceRecord | undefined;
-}
-
-/**
- * A reader of the records of `op`, a point of a circuit of `elementCount` elements, that builds each record at its
- * first read and keeps it: for the checks of one analysis that read the same devices one after the other (the
- * structure check, then the device judgements). Undefined for a point without the solver's vectors. The records
- * live as long as the reader, which is why the point does not keep them itself.
- */
-export function keptRecords(op: OperatingPoint, elementCount: number): RecordReader | undefined {
-  const v = vectors.get(op);
-  if (!v) return undefined;
-  // null: read, and the element has no record.
-  const kept = new Array<DeviceRecord | null | undefined>(elementCount).fill(undefined);
-  return {
-    record: (e) => {
-      if (!(e >= 0 && e < elementCount)) return v.record(e);
-      let r = kept[e];
-      if (r === undefined) kept[e] = r = v.record(e) ?? null;
-      return r ?? undefined;
-    },
-  };
-}
-
 /** Reads a point by node and element name, as `op.nodes[name]` and `op.devices[name]` show it. */
 export interface NamedPointReader {
   volts(node: string): number | undefined;
@@ -165,12 +139,7 @@ export interface NamedPointReader {
  * point has them, so a check that reads a few devices does not build the records of all of them; through the tables
  * otherwise, and when two elements share a name (the table then holds the record its build order leaves last).
  */
-export function namedPointReader(
-  op: OperatingPoint,
-  names: { circuit: Circuit; nodeIndex: ReadonlyMap<string, number>; elementIndex: ReadonlyMap<string, number> },
-  /** Where the records are read by index (`keptRecords`), when not straight from the vectors. */
-  records?: RecordReader,
-): NamedPointReader {
+export function namedPointReader(op: OperatingPoint, names: { circuit: Circuit; nodeIndex: ReadonlyMap<string, number>; elementIndex: ReadonlyMap<string, number> }): NamedPointReader {
   const v = vectors.get(op);
   if (!v || names.elementIndex.size !== names.circuit.elements.length) return { volts: (node) => op.nodes[node], record: (element) => op.devices[element] };
   return {
@@ -180,7 +149,7 @@ export function namedPointReader(
     },
     record: (element) => {
       const e = names.elementIndex.get(element);
-      return e === undefined ? undefined : (records ?? v).record(e);
+      return e === undefined ? undefined : v.record(e);
     },
   };
 }

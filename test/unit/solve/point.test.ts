@@ -4,7 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import { deviceKindOf } from '../../../shared-analysis/src/devices/registry';
 import { collectGarbage } from '../../../server/src/collect';
-import { keptRecords, namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
+import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../../shared-analysis/src/solve/types';
 import { measurePlanned, measureStructure, planMeasurements, readerOf } from '../../../shared-analysis/src/structures/measure';
 import { topologyOf } from '../../../shared-analysis/src/structures/topology';
@@ -45,22 +45,6 @@ function solved(): { c: ReturnType<typeof circuit>; op: OperatingPoint } {
 }
 
 describe('operating point vectors', () => {
-  it('kept records: each as the table of the point shows it, built once and given again, none for an element without one or past the end', () => {
-    const { c, op } = solved();
-    const kept = keptRecords(op, c.elements.length)!;
-    const first = c.elements.map((_, e) => kept.record(e));
-    c.elements.forEach((el, e) => {
-      expect(first[e]).toEqual(op.devices[el.name]);
-      // The same object at the next read: built once for every check that reads it.
-      if (first[e]) expect(kept.record(e)).toBe(first[e]);
-    });
-    expect(first.filter((r) => r === undefined).length).toBe(c.elements.filter((el) => op.devices[el.name] === undefined).length);
-    expect(kept.record(c.elements.length)).toBeUndefined();
-    expect(kept.record(-1)).toBeUndefined();
-    // A point without the solver's vectors (a copy) has nothing to keep them from.
-    expect(keptRecords(structuredClone(op), c.elements.length)).toBeUndefined();
-  });
-
   it('read every node voltage and every record by index, as the name-keyed tables show them', () => {
     const { c, op } = solved();
     const v = pointVectors(op)!;

@@ -5,7 +5,7 @@ import type { Circuit, Element } from '../../circuit';
 import { NOISE_FLOOR } from '../../fixes/format';
 import { JUNCTION_GMIN } from '../../solve/newton';
 import type { DeviceRecord, OperatingPoint } from '../../solve/types';
-import { namedPointReader, pointVectors, type NamedPointReader, type PointVectors, type RecordReader } from '../../solve/point';
+import { namedPointReader, pointVectors, type NamedPointReader, type PointVectors } from '../../solve/point';
 import { dissipation } from './power';
 import { railsByIndex } from '../../structures/rails';
 import { topologyOf, type Attachment, type Topology, type Transistor } from '../../structures/topology';
@@ -19,8 +19,6 @@ export interface DeviceCheckContext {
   op: OperatingPoint;
   structures: Structure[];
   options: ResolvedOptions;
-  /** Reads the point's records (`keptRecords`: each built once for the checks of one analysis); the point's own vectors when absent. */
-  records?: RecordReader;
 }
 
 /** What a transistor is there to do, read from the wiring alone (never from the operating point). */
@@ -70,8 +68,6 @@ export class JudgeContext {
   private byOut?: Map<number, Transistor[]>;
   /** The point's vectors, when records can be read by element index (see `recordAt`). */
   private readonly records: PointVectors | undefined;
-  /** Where `recordAt` reads a record by index: `kept` when given, else the vectors. */
-  private readonly byIndex: RecordReader | undefined;
 
   constructor(
     readonly circuit: Circuit,
@@ -79,11 +75,9 @@ export class JudgeContext {
     readonly structures: Structure[],
     readonly options: ResolvedOptions,
     private readonly codes: CodeTable,
-    /** The analysis' records of `op`, each built once (`keptRecords`), when it has them. */
-    kept?: RecordReader,
   ) {
     this.topo = topologyOf(circuit);
-    this.at = namedPointReader(op, this.topo, kept);
+    this.at = namedPointReader(op, this.topo);
     this.rails = railsByIndex(circuit);
     let low = 0;
     let high = 0;
@@ -93,7 +87,6 @@ export class JudgeContext {
     }
     this.railSpan = { low, high };
     this.records = pointVectors(op) && this.topo.elementIndex.size === circuit.elements.length ? pointVectors(op) : undefined;
-    this.byIndex = this.records ? (kept ?? this.records) : undefined;
   }
 
   /** Whether an element (by name, any case) is a device of a recognised structure or an element of its reference feed. */
@@ -125,7 +118,7 @@ export class JudgeContext {
    * last element of that name, as the point's table does).
    */
   recordAt(e: number): DeviceRecord | undefined {
-    return this.byIndex ? this.byIndex.record(e) : this.at.record(this.circuit.elements[e].name);
+    return this.records ? this.records.record(e) : this.at.record(this.circuit.elements[e].name);
   }
 
   /**

@@ -92,7 +92,7 @@ export function judgeEachDevice(ctx: DeviceCheckContext, only?: (element: number
   const { circuit, op } = ctx;
   // An unpowered circuit has every device at zero bias; `circuit-not-powered` says so once instead.
   if (!op.converged || !isPowered(circuit)) return undefined;
-  const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES, ctx.records);
+  const judges = new JudgeContext(circuit, op, ctx.structures, ctx.options, DEVICE_CODES);
   const memory: JudgeMemory = { branches: new Set() };
   const elements = circuit.elements;
   const each: (Finding[] | undefined)[] = new Array(elements.length);
