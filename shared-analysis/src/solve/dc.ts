@@ -414,7 +414,8 @@ export class DcSolver {
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged) pushAll(findings, this.postSolveFindings(x, op, structure));
     const out = reuse ? (reuse.x ??= new Float64Array(n)) : new Float64Array(n);
-    for (let k = 0; k < n; k++) out[k] = Number.isFinite(x[k]) ? x[k] : 0;
+    // A function of its own: compiled while this loop ran, the code after it had never run and gave up the compiled code at every corner solve.
+    copyFinite(out, x, n);
     if (converged) solvedAt.set(out, temperatureC);
     return {
       op,
@@ -1398,6 +1399,11 @@ function allInRecordRange(q: Float64Array): boolean {
     if (!(v <= RECORD_LIMIT && v >= -RECORD_LIMIT)) return false;
   }
   return true;
+}
+
+/** out[k] = x[k] for k < n, 0 where x[k] is not finite. */
+function copyFinite(out: Float64Array, x: Float64Array, n: number): void {
+  for (let k = 0; k < n; k++) out[k] = Number.isFinite(x[k]) ? x[k] : 0;
 }
 
 /**
