@@ -6,7 +6,7 @@ import type { ElaborationResult } from './elaborate/index';
 import type { DcSolver, DcSolveResult } from './solve/dc';
 import type { SolveOptions } from './solve/types';
 import type { WarmStart } from './solve/warm-start';
-import type { CornerContext } from './checks/corners';
+import type { CornerContext, CornerRecord } from './checks/corners';
 import { followRails, railsByIndex } from './structures/rails';
 import { followTopology } from './structures/topology';
 import type { Structure } from './structures/types';
@@ -15,7 +15,8 @@ import { nameTable } from './names';
 import type { Card, ParsedDocument, SyntaxError } from './syntax/ast';
 import { parseElementLine } from './syntax/parser';
 import { movedCard } from './syntax/moved-card';
-import { PartStarts, resistancesOf, type PartCircuit } from './solve/part-starts';
+import { PartStarts, partsAreSeparate, resistancesOf, type PartCircuit } from './solve/part-starts';
+import { topologyOf } from './structures/topology';
 import { patchedElaboration, type EditRegion, type KeptElaboration, type PatchedElaboration } from './incremental-elaborate';
 
 /**
@@ -67,6 +68,8 @@ export interface IncrementalState {
   adopted?: { circuit: Circuit; changed: number[] };
   /** Per corner label, the last converged solution of that corner on this state or one it came from by value edits (see `cornerStarts`). */
   corners?: Map<string, CornerSolution>;
+  /** The last finished corner phase's figures and findings on this state or one it came from by value edits, with the resistances it was solved with (see `keptCorners`). */
+  cornerRecord?: { record: CornerRecord; resistances: Float64Array; text: string };
   /** The parse of `text`, for the next analysis to read again only the card an edit changed (see `reparsedDocument`). Never written. */
   document?: ParsedDocument;
   /** What the elaboration of `text` left for the next one to patch (see `patchedElaboration`). */
@@ -108,11 +111,71 @@ export function cornerStarts(state: IncrementalState | undefined, circuit: Circu
       for (let k = 0; k < start.length; k++) start[k] = last.x[k] + (around[k] - last.nominal[k]);
       let parts = partStarts.get(last.resistances);
       if (!parts) partStarts.set(last.resistances, (parts = new PartStarts(whole, last.resistances)));
-      parts.refine(start, last.x, options);
-      return start;
+      const point = parts.refine(start, last.x, options);
+      return point ? { x: start, parts: point } : { x: start };
     },
     solved: (spec, _k, x) => byLabel.set(spec.label, { x: Float64Array.from(x), nominal: around, resistances: (resistances ??= resistancesOf(circuit)) }),
   };
+}
+
+/**
+ * What the corner phase of the analysis `state` belongs to may keep of the last finished one (`CornerContext.reuse`),
+ * and the record of this one for the next. At a corner, the circuit's parts joined through nodes that are not rails
+ * (rails are held by ideal sources at the corner's values) share nothing but those sources' currents when every
+ * element reads only the nodes it lists: a part holding no resistor whose value differs from the last phase's solves
+ * to the same point there (to the solver's tolerance), so a structure whose elements and voltage nodes all lie in such
+ * parts measures as last time. A structure naming a source that holds a rail reads a current every part shares, so it
+ * is measured again whenever anything changed. Nothing is kept when `state` is not this circuit's, the circuit has an
+ * element reading across parts, or the structures are not the recorded ones (`runCorners` checks the corners and
+ * the structures' shapes too).
+ */
+export function keptCorners(state: IncrementalState | undefined, circuit: Circuit, structures: readonly Structure[]): Pick<CornerContext, 'reuse' | 'record'> {
+  if (!state || state.circuit !== circuit) return {};
+  const resistances = resistancesOf(circuit);
+  const record = (r: CornerRecord) => (state.cornerRecord = { record: r, resistances, text: state.text });
+  const last = state.cornerRecord;
+  if (!last || last.resistances.length !== resistances.length || !partsAreSeparate(circuit)) return { record };
+  const touched = touchedStructures(state, structures, touchedParts(state.index.parts, resistances, last.resistances));
+  if (!touched) return { record };
+  const region = editRegion(last.text, state.text);
+  const members = new Set<number>();
+  structures.forEach((s, i) => touched[i] === 1 && memberElements(s, state.index).forEach((e) => members.add(e)));
+  return { record, reuse: { record: last.record, touched, members: Int32Array.from(members), moved: (f) => movedFinding(f, state.uri, region) } };
+}
+
+/** Per part (see `circuitParts`), 1 where a resistor's value differs between `now` and `before` (per element, NaN but for resistors). */
+function touchedParts(parts: CircuitParts, now: Float64Array, before: Float64Array): Uint8Array {
+  const touched = new Uint8Array(parts.count);
+  for (let e = 0; e < now.length; e++) if (!Object.is(now[e], before[e])) touched[parts.ofElement[e]!] = 1;
+  return touched;
+}
+
+/** Per structure, 1 when its corner figures may differ from the last phase's (see `keptCorners`); undefined when a structure cannot be placed. */
+function touchedStructures(state: IncrementalState, structures: readonly Structure[], parts: Uint8Array): Uint8Array | undefined {
+  const { index, circuit } = state;
+  const anyTouched = parts.some((p) => p === 1);
+  const nodeIndex = topologyOf(circuit).nodeIndex;
+  const out = new Uint8Array(structures.length);
+  for (let i = 0; i < structures.length; i++) {
+    const s = structures[i]!;
+    const members = memberElements(s, index);
+    let touched = members.some((e) => parts[index.parts.ofElement[e]!] === 1 || (anyTouched && holdsRail(circuit.elements[e]!, index.rail)));
+    for (const v of s.voltages ?? []) {
+      for (const name of v.from === undefined ? [v.node] : [v.node, v.from]) {
+        const n = nodeIndex.get(name);
+        if (n === undefined) return undefined;
+        const part = index.parts.ofNode[n]!;
+        if (part >= 0 && parts[part] === 1) touched = true;
+      }
+    }
+    out[i] = touched ? 1 : 0;
+  }
+  return out;
+}
+
+/** Whether an element with a branch current of its own sits on rails alone: its current changes with any part's. */
+function holdsRail(el: Element, rail: Uint8Array): boolean {
+  return (el.kind === 'V' || el.kind === 'L' || el.kind === 'E' || el.kind === 'H') && el.nodes.every((n) => rail[n] === 1);
 }
 
 /** Name and incidence tables of a circuit; a value edit keeps all of them. */
@@ -722,6 +785,7 @@ export class IncrementalKeeper {
       ...(elaboration ? { elaboration } : {}),
       ...(devices ? { devices } : {}),
       ...(previous?.corners ? { corners: previous.corners } : {}),
+      ...(previous?.cornerRecord ? { cornerRecord: previous.cornerRecord } : {}),
     };
   }
 }

@@ -34,6 +34,7 @@ import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
 import { cornerStarts, IncrementalKeeper, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
 import { elaborationSettings, keptElaboration } from './incremental-elaborate';
+import { keptCorners } from './incremental';
 
 declare const performance: { now(): number };
 
@@ -306,7 +307,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const findings: Finding[] = [];
   try {
     const starts = cornerStarts(ctx.incremental, circuit, ctx.nominal);
-    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped(), ...starts }));
+    const kept = keptCorners(ctx.incremental, circuit, analysis.structures);
+    pushAll(findings, runCorners({ circuit, solver: ctx.solver, structures: analysis.structures, options, nominal: ctx.nominal, stats: ctx.stats, shouldStop: ctx.shouldStop, stop: () => new AnalysisStopped(), ...starts, ...kept }));
     fillStartupCorners(analysis.structures);
     const targets = targetsRead.get(analysis.documents) ?? readTargets(analysis.documents).targets;
     pushAll(findings, checkTargets({ circuit, op: ctx.nominal.op, structures: analysis.structures, targets, options, findings: 'corners' }));

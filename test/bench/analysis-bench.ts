@@ -115,7 +115,7 @@ function benchSize(cells: number, runs: number): void {
     const ms = now() - t0;
     // addCorners adds its own time to the same timings object; keep the first pass's figures apart.
     const firstTimings = { ...session.analysis.timings };
-    const stats: CornerStats = { corners: 0, converged: 0, iterations: 0, solveMs: 0, measureMs: 0 };
+    const stats: CornerStats = { corners: 0, converged: 0, iterations: 0, solveMs: 0, measureMs: 0, keptFigures: 0, keptFindings: 0, partCorners: 0 };
     const t1 = now();
     const extra = session.solver && session.nominal ? addCorners(session.analysis, { solver: session.solver, nominal: session.nominal, stats }) : [];
     const phaseMs = now() - t1;

@@ -19,6 +19,7 @@ import { modelValue } from '../variation/sensitivity';
 import { nameTable } from '../names';
 import { feedLoops } from '../structures/loops';
 import { CornerStarts } from './corner-starts';
+import type { PartPoint } from '../solve/part-starts';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const CORNER_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -78,7 +79,7 @@ export interface CornerContext {
    * solution of that corner, moved by the change of the nominal one), given the corner's solve options. A start that does not converge is dropped
    * for the nominal one, so a corner converges whenever it would from the nominal start.
    */
-  startOf?: (spec: CornerSpec, k: number, options: SolveOptions) => Float64Array | undefined;
+  startOf?: (spec: CornerSpec, k: number, options: SolveOptions) => CornerStart | undefined;
   /** Told each converged corner's solution (the solver's own vector, overwritten by the next solve: copy what is kept). */
   solved?: (spec: CornerSpec, k: number, x: Float64Array) => void;
   /**
@@ -86,6 +87,46 @@ export interface CornerContext {
    * Otherwise a corner that moves several axes starts from a prediction of the corners solved before it (`CornerStarts`).
    */
   predictStarts?: boolean;
+  /**
+   * The last corner phase's results and which structures may differ from them (after a value edit: see `keptCorners`
+   * in incremental.ts). Only the structures marked in `touched` are measured at a corner that converged both times;
+   * the others keep the record's figures, and their findings when every corner converged as before.
+   */
+  reuse?: CornerReuse;
+  /** Told this phase's results, for the next phase's `reuse`. */
+  record?: (record: CornerRecord) => void;
+}
+
+/**
+ * Where a corner's Newton starts (`CornerContext.startOf`), and when the parts an edit reached were solved alone for
+ * it (the rest of the start being the corner's last solution, see `PartStarts`), their point: a corner whose
+ * figures are kept for every structure outside those parts is measured there, without a whole-circuit solve.
+ */
+export interface CornerStart {
+  x: Float64Array;
+  parts?: PartPoint;
+}
+
+/** What one corner phase measured, for the next phase of an edited circuit (`CornerContext.reuse`). */
+export interface CornerRecord {
+  labels: string[];
+  converged: Uint8Array;
+  /** Structure ids in the order the buffers and findings follow. */
+  ids: string[];
+  buffers: CornerBuffers;
+  /** Per structure, its corner findings as `runCorners` made them (before severities and sorting). */
+  findings: Finding[][];
+}
+
+/** A record and which structures can differ from it. */
+export interface CornerReuse {
+  record: CornerRecord;
+  /** 1 for a structure that must be measured again at every corner. */
+  touched: Uint8Array;
+  /** The elements the touched structures name (devices, reference chains, degenerations), whole-circuit indices. */
+  members: Int32Array;
+  /** A finding of the record moved past the edit, or undefined when it cannot be (it touches the edit). */
+  moved: (f: Finding) => Finding | undefined;
 }
 
 /** Effort of one `runCorners` call. */
@@ -97,6 +138,11 @@ export interface CornerStats {
   /** Milliseconds in the corner solves, and in measuring every structure at every corner and wording the findings. */
   solveMs: number;
   measureMs: number;
+  /** Structures that kept the last phase's figures at every corner that converged both times (`CornerContext.reuse`), and of those, how many kept its findings. */
+  keptFigures: number;
+  keptFindings: number;
+  /** Corners measured on the point of the parts an edit reached, solved alone, without a whole-circuit solve (see `CornerStart`). */
+  partCorners: number;
 }
 
 const clock: () => number = (() => {
@@ -264,6 +310,11 @@ export function runCorners(ctx: CornerContext): Finding[] {
     converged: new Uint8Array(C),
   };
   const { columns, buffers } = cornerColumnsOf(structures, axis);
+  // After a value edit, the structures the edit cannot reach keep the last phase's figures: only the others are measured.
+  const reuse = usableReuse(ctx.reuse, axis.labels, structures, buffers);
+  const touchedOnly = reuse ? touchedIndices(reuse.touched) : undefined;
+  const onParts = reuse ? new PartMeasurement(reuse, structures, touchedOnly!) : undefined;
+  let partCorners = 0;
   const topology = topologyOf(circuit);
   // Every name a measurement reads resolved once per list of structures (the nominal check planned the same list), not once per corner.
   const flat = plannedMeasurements(topology, structures);
@@ -278,21 +329,38 @@ export function runCorners(ctx: CornerContext): Finding[] {
     // Each corner's point is read here and dropped before the next solve: its vectors can be reused.
     const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     const ts = clock();
-    const solved = solveCorner(solver, opts, ctx.startOf?.(spec, k, opts), starts, k, ctx.stop);
+    const own = ctx.startOf?.(spec, k, opts);
+    // Kept figures everywhere but in the parts the start solved alone: the corner is measured on their point.
+    if (reuse?.record.converged[k] === 1 && own?.parts && onParts!.covers(own.parts)) {
+      solveMs += clock() - ts;
+      axis.converged[k] = 1;
+      starts?.solved(k, own.x);
+      ctx.solved?.(spec, k, own.x);
+      onParts!.measure(own.parts, flat, buffers, k);
+      partCorners++;
+      continue;
+    }
+    const solved = solveCorner(solver, opts, own?.x, starts, k, ctx.stop);
     solveMs += clock() - ts;
     iterations += solved.iterations;
     const result = solved.result;
     if (!result || !result.op.converged) {
       failedCount++;
+      if (reuse?.record.converged[k] === 1) clearCorner(buffers, k);
       continue;
     }
     axis.converged[k] = 1;
     starts?.solved(k, result.x);
     ctx.solved?.(spec, k, result.x);
     const op = result.op;
-    measureCorner(flat, readerOf(op, topology), buffers, k);
+    // A corner that did not converge last time has no figures to keep: every structure is measured there.
+    const only = reuse?.record.converged[k] === 1 ? touchedOnly : undefined;
+    if (only) measureListed(flat, readerOf(op, topology), buffers, k, only);
+    else measureCorner(flat, readerOf(op, topology), buffers, k);
     for (const i of withVoltages) {
+      if (only && reuse!.touched[i] !== 1) continue;
       const col = columns[i];
+      for (let v = 0; v < col.voltageNames.length; v++) col.voltages[v * C + k] = NaN;
       const vs = structureVoltages(structures[i], op, circuit);
       col.voltageNames.forEach((name, v) => {
         const x = vs?.[name];
@@ -319,25 +387,100 @@ export function runCorners(ctx: CornerContext): Finding[] {
   }
 
   const converged = C - failedCount;
-  // The nominal point measured as the corners were, as a one-corner column of every output: the plans
-  // already flat, one reader for every structure, and no name-keyed record per structure.
-  const nominalFigures = figureBuffers(structures.length, flat.outStart[structures.length], 1);
-  measureCorner(flat, readerOf(nominal.op, topology), nominalFigures, 0);
+  // A finding counts the converged corners and names those where an output leaves its region: kept only when they are the last phase's.
+  const sameCorners = reuse !== undefined && sameBytes(reuse.record.converged, axis.converged);
+  // The nominal point measured as the corners were, as a one-corner column of every output whose findings are made
+  // afresh: the plans already flat, one reader for every structure, and no name-keyed record per structure.
+  const nominalFigures = figureBuffers(structures.length, flat.outStart[structures.length], 0, 1);
+  const nominalReader = readerOf(nominal.op, topology);
+  const byStructure: Finding[][] = new Array(structures.length);
+  let keptFindings = 0;
   structures.forEach((s, index) => {
     setCornerColumns(s, columns[index]);
     summariseVoltageCorners(s);
-    const summaries = summariseOutputs(columns[index]);
-    s.outputs.forEach((o, oi) => {
-      const el = elements.get(o.device);
-      if (!el) return;
-      const sweep = sweepOf(o.device, nominalFigures.sink, flat.outStart[index] + oi, columns[index], oi, summaries[oi]);
-      pushAll(findings, outputFindings(s, el, sweep, options, converged));
-    });
+    const kept = sameCorners && reuse!.touched[index] !== 1 ? movedAll(reuse!.record.findings[index], reuse!.moved) : undefined;
+    if (!kept) measureStructureAt(flat, index, nominalReader, nominalFigures, 0, index, flat.outStart[index]);
+    const own = kept ?? structureFindings(s, nominalFigures.sink, flat.outStart[index], columns[index], elements, options, converged);
+    if (kept) keptFindings++;
+    byStructure[index] = own;
+    pushAll(findings, own);
   });
+  ctx.record?.({ labels: axis.labels, converged: axis.converged, ids: structures.map((s) => s.id), buffers, findings: byStructure });
   if (ctx.stats) {
-    Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs });
+    const keptFigures = reuse ? structures.length - touchedOnly!.length : 0;
+    Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs, keptFigures, keptFindings, partCorners });
   }
   return findings;
+}
+
+/** One structure's corner findings from its columns and its nominal figures (its first output at `first` of `nominal`), outputs in order. */
+function structureFindings(s: Structure, nominal: OutputSink, first: number, cols: CornerColumns, elements: Map<string, Element>, options: ResolvedOptions, converged: number): Finding[] {
+  const out: Finding[] = [];
+  const summaries = summariseOutputs(cols);
+  s.outputs.forEach((o, oi) => {
+    const el = elements.get(o.device);
+    if (el) pushAll(out, outputFindings(s, el, sweepOf(o.device, nominal, first + oi, cols, oi, summaries[oi]), options, converged));
+  });
+  return out;
+}
+
+/** `ctx.reuse` when its record was made for the same corners and structures (same outputs and voltages), with its figures copied into `buffers`. */
+function usableReuse(reuse: CornerReuse | undefined, labels: readonly string[], structures: readonly Structure[], buffers: CornerBuffers): CornerReuse | undefined {
+  if (!reuse) return undefined;
+  const { record } = reuse;
+  const from = record.buffers;
+  const same =
+    record.labels.length === labels.length &&
+    record.labels.every((l, k) => l === labels[k]) &&
+    record.ids.length === structures.length &&
+    structures.every((s, i) => s.id === record.ids[i]) &&
+    from.iref.length === buffers.iref.length &&
+    from.sink.current.length === buffers.sink.current.length &&
+    from.volts.length === buffers.volts.length;
+  if (!same) return undefined;
+  buffers.iref.set(from.iref);
+  buffers.sink.current.set(from.sink.current);
+  buffers.sink.headroom.set(from.sink.headroom);
+  buffers.sink.outOfRegion.set(from.sink.outOfRegion);
+  buffers.volts.set(from.volts);
+  return reuse;
+}
+
+function touchedIndices(touched: Uint8Array): Int32Array {
+  let n = 0;
+  for (let i = 0; i < touched.length; i++) n += touched[i];
+  const out = new Int32Array(n);
+  for (let i = 0, j = 0; i < touched.length; i++) if (touched[i] === 1) out[j++] = i;
+  return out;
+}
+
+/** Every structure's figures at corner k as a corner that did not converge leaves them (0, voltages NaN). */
+function clearCorner(buffers: CornerBuffers, k: number): void {
+  const { corners: C, iref, sink, volts } = buffers;
+  for (let at = k; at < iref.length; at += C) iref[at] = 0;
+  for (let at = k; at < sink.current.length; at += C) {
+    sink.current[at] = 0;
+    sink.headroom[at] = 0;
+    sink.outOfRegion[at] = 0;
+  }
+  for (let at = k; at < volts.length; at += C) volts[at] = NaN;
+}
+
+function sameBytes(a: Uint8Array, b: Uint8Array): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
+}
+
+/** Every finding moved, or undefined when one cannot be. */
+function movedAll(findings: readonly Finding[], moved: (f: Finding) => Finding | undefined): Finding[] | undefined {
+  const out: Finding[] = [];
+  for (const f of findings) {
+    const m = moved(f);
+    if (!m) return undefined;
+    out.push(m);
+  }
+  return out;
 }
 
 /** Newton iterations at most from a predicted start before the corner is solved from the nominal start instead. */
@@ -382,10 +525,12 @@ function solveCorner(
 }
 
 /** The circuit's corner figures, one buffer per quantity: structure i's IREF at corner k at i·C + k, output o's (counted over every structure in order) at o·C + k. */
-interface CornerBuffers {
+export interface CornerBuffers {
   corners: number;
   iref: Float64Array;
   sink: OutputSink;
+  /** Voltage v (counted over every structure in order) at corner k at v·C + k. */
+  volts: Float64Array;
 }
 
 /**
@@ -418,10 +563,63 @@ function keepFiniteFigures(sink: OutputSink, outputs: number, C: number, k: numb
   }
 }
 
-/** Zeroed buffers for the figures of `structures` structures and `outputs` outputs at C corners (see `CornerBuffers`). */
-function figureBuffers(structures: number, outputs: number, C: number): CornerBuffers {
+/** `measureCorner` for the structures listed in `only` alone. */
+function measureListed(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number, only: Int32Array): void {
+  for (let j = 0; j < only.length; j++) measureStructureAt(flat, only[j], reader, buffers, k, only[j], flat.outStart[only[j]]);
+}
+
+/** Measures plan p of `plans` at corner k into the buffers' places of structure i, whose first output is output `first` of the circuit. */
+function measureStructureAt(plans: MeasurementPlans, p: number, reader: PointIndexReader, buffers: CornerBuffers, k: number, i: number, first: number): void {
+  const { corners: C, iref, sink } = buffers;
+  sink.first = first * C + k;
+  iref[i * C + k] = finite(runMeasurement(plans, p, reader, sink));
+  const { current, headroom } = sink;
+  const last = first + plans.outStart[p + 1] - plans.outStart[p];
+  for (let o = first; o < last; o++) {
+    current[o * C + k] = finite(current[o * C + k]);
+    headroom[o * C + k] = finite(headroom[o * C + k]);
+  }
+}
+
+/** Zeroed buffers for the figures of `structures` structures, `outputs` outputs and `voltages` derived voltages (NaN) at C corners (see `CornerBuffers`). */
+function figureBuffers(structures: number, outputs: number, voltages: number, C: number): CornerBuffers {
   const sink: OutputSink = { current: new Float64Array(outputs * C), headroom: new Float64Array(outputs * C), outOfRegion: new Uint8Array(outputs * C), first: 0, stride: C };
-  return { corners: C, iref: new Float64Array(structures * C), sink };
+  return { corners: C, iref: new Float64Array(structures * C), sink, volts: new Float64Array(voltages * C).fill(NaN) };
+}
+
+/**
+ * Measures the structures an edit reached on the point of the parts solved alone (`CornerStart.parts`), which holds
+ * every element they read when it `covers` them: those elements, and no derived voltage (read by node name, which a
+ * part's circuit may lack).
+ */
+class PartMeasurement {
+  private readonly touched: Structure[];
+  private covered: { circuit: Circuit; covers: boolean } | undefined;
+
+  constructor(
+    private readonly reuse: CornerReuse,
+    structures: readonly Structure[],
+    private readonly indices: Int32Array,
+  ) {
+    this.touched = Array.from(indices, (i) => structures[i]);
+  }
+
+  covers(parts: PartPoint): boolean {
+    if (this.covered?.circuit !== parts.circuit) {
+      const held = new Set(parts.elements);
+      const covers = this.touched.every((s) => !s.voltages?.length) && this.reuse.members.every((e) => held.has(e));
+      this.covered = { circuit: parts.circuit, covers };
+    }
+    return this.covered.covers;
+  }
+
+  measure(parts: PartPoint, flat: MeasurementPlans, buffers: CornerBuffers, k: number): void {
+    const topo = topologyOf(parts.circuit);
+    const plans = plannedMeasurements(topo, this.touched);
+    const reader = readerOf(parts.op, topo);
+    const { indices } = this;
+    for (let j = 0; j < indices.length; j++) measureStructureAt(plans, j, reader, buffers, k, indices[j], flat.outStart[indices[j]]);
+  }
 }
 
 /**
@@ -438,10 +636,10 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
     outputs += s.outputs.length;
     voltages += s.voltages?.length ?? 0;
   }
-  const buffers = figureBuffers(structures.length, outputs, C);
+  const buffers = figureBuffers(structures.length, outputs, voltages, C);
   const { iref } = buffers;
   const { current: iout, headroom, outOfRegion } = buffers.sink;
-  const volts = new Float64Array(voltages * C).fill(NaN);
+  const { volts } = buffers;
   let o = 0;
   let v = 0;
   const columns = structures.map((s, i) => {

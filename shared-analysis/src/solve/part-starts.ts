@@ -2,9 +2,9 @@
 // solved alone with the rails held at the corner's values, the rest of the start left at the corner's last solution.
 
 import type { Circuit, Element } from '../circuit';
-import { DcSolver } from './dc';
+import { DcSolver, type DcSolveResult } from './dc';
 import type { UnknownInfo } from './mna';
-import type { SolveOptions } from './types';
+import type { OperatingPoint, SolveOptions } from './types';
 
 /**
  * Element kinds whose equations read only the nodes they list: in a circuit of these alone, parts joined through
@@ -12,6 +12,11 @@ import type { SolveOptions } from './types';
  * A current-controlled kind (F, H, W) or a behavioural source reads what another part may hold.
  */
 const LOCAL_KINDS: ReadonlySet<Element['kind']> = new Set(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'S', 'D', 'Q', 'M', 'J']);
+
+/** Whether every element of the circuit reads only the nodes it lists, so that parts joined through rails alone share nothing but the rail sources' currents. */
+export function partsAreSeparate(circuit: Circuit): boolean {
+  return circuit.elements.every((el) => LOCAL_KINDS.has(el.kind));
+}
 
 /** A part larger than this share of the circuit is not solved apart: the whole circuit's Newton is as cheap then. */
 const MOST_ELEMENTS_SHARE = 1 / 8;
@@ -66,21 +71,32 @@ export class PartStarts {
     return this.solves !== undefined;
   }
 
-  /** Writes the refined unknowns into `start`; false (and `start` as it was) when a part solve did not converge. */
-  refine(start: Float64Array, last: Float64Array, options: SolveOptions): boolean {
-    if (!this.solves) return false;
+  /**
+   * Writes the refined unknowns into `start` and returns the parts' point with the new values; undefined (and `start`
+   * as it was) when a part solve did not converge.
+   */
+  refine(start: Float64Array, last: Float64Array, options: SolveOptions): PartPoint | undefined {
+    if (!this.solves) return undefined;
     const { now, before } = this.solves;
-    const xNow = now.solve(start, options);
-    const xBefore = xNow && before.solve(last, options);
-    if (!xNow || !xBefore) return false;
+    const solvedNow = now.solve(start, options);
+    const xBefore = solvedNow && before.solve(last, options)?.x;
+    if (!solvedNow || !xBefore) return undefined;
+    const xNow = solvedNow.x;
     const { toGlobal, kind } = now;
     for (let k = 0; k < toGlobal.length; k++) {
       const g = toGlobal[k];
       if (kind[k] === PART_UNKNOWN) start[g] = xNow[k];
       else if (kind[k] === RAIL_CURRENT) start[g] = last[g] + (xNow[k] - xBefore[k]);
     }
-    return true;
+    return { circuit: now.circuit, op: solvedNow.op, elements: now.elements };
   }
+}
+
+/** The parts an edit reached solved alone at a corner: their circuit (with the rail sources), its point, and each of its elements' index in the whole circuit. */
+export interface PartPoint {
+  circuit: Circuit;
+  op: OperatingPoint;
+  elements: Int32Array;
 }
 
 /** Unknowns of a part solve: the parts' own (copied into the start), a rail source's current (moved by the change), a rail's voltage (left). */
@@ -125,6 +141,9 @@ function onRails(nodes: readonly number[], rail: Uint8Array): boolean {
 class PartSolve {
   private constructor(
     private readonly solver: DcSolver,
+    readonly circuit: Circuit,
+    /** Part element i -> the whole circuit's element. */
+    readonly elements: Int32Array,
     /** Part unknown k -> the whole circuit's unknown. */
     readonly toGlobal: Int32Array,
     /** Part unknown k: PART_UNKNOWN, RAIL_CURRENT or RAIL_VOLTAGE. */
@@ -163,16 +182,16 @@ class PartSolve {
       toGlobal[k] = g;
       kind[k] = u.kind === 'branch' && circuit.elements[e]!.nodes.every((x) => rail[x] === 1) ? RAIL_CURRENT : PART_UNKNOWN;
     }
-    return new PartSolve(solver, toGlobal, kind);
+    return new PartSolve(solver, part, Int32Array.from(chosen), toGlobal, kind);
   }
 
-  /** The part's unknowns solved at `options` from the whole circuit's `start`; undefined when Newton did not converge. */
-  solve(start: Float64Array, options: SolveOptions): Float64Array | undefined {
+  /** The part solved at `options` from the whole circuit's `start` (vectors of its own); undefined when Newton did not converge. */
+  solve(start: Float64Array, options: SolveOptions): DcSolveResult | undefined {
     const guess = new Float64Array(this.toGlobal.length);
     for (let k = 0; k < guess.length; k++) guess[k] = start[this.toGlobal[k]];
     // Not stopped from inside (the corner loop asks before each whole solve) and with vectors of its own.
     const r = this.solver.solve({ ...options, initialGuess: guess, initialGuessTemperatureC: options.temperatureC, reuseResult: false, shouldStop: undefined });
-    return r.op.converged ? r.x : undefined;
+    return r.op.converged ? r : undefined;
   }
 }
 

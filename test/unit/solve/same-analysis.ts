@@ -1,7 +1,8 @@
 // Comparison of two analyses of the same text reached by different paths (warm or incremental against cold).
 
 import { expect } from 'vitest';
-import type { AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, type AnalysisSession } from '../../../shared-analysis/src/service';
+import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
 
 /**
  * Equal up to rounding: numbers within `rel` relative, everything else (every message, code and
@@ -55,4 +56,31 @@ export function expectSameAnalysis(warm: AnalysisSession, cold: AnalysisSession,
   expectSame(rest(warm), rest(cold), 'analysis', 1e-6);
   // The text of every finding exactly.
   expect(warm.analysis.findings.map((f) => f.message)).toEqual(cold.analysis.findings.map((f) => f.message));
+}
+
+/** The corner phase on both: its findings exactly, the structures' corner figures and spread as `expectSame` compares them. */
+export function expectSameCorners(got: AnalysisSession, want: AnalysisSession, stats?: { got: CornerStats; want: CornerStats }): void {
+  // The incremental session's corner phase as the server runs it: from the last corner phase's solutions and figures, when its state has them.
+  const a = addCorners(got.analysis, { solver: got.solver!, nominal: got.nominal!, incremental: got.incremental, stats: stats?.got });
+  const b = addCorners(want.analysis, { solver: want.solver!, nominal: want.nominal!, stats: stats?.want });
+  expect(a.map((f) => [f.code, f.span, f.message, f.related])).toEqual(b.map((f) => [f.code, f.span, f.message, f.related]));
+  expectSame(
+    got.analysis.structures.map((s) => ({ ...s, corners: s.corners })),
+    want.analysis.structures.map((s) => ({ ...s, corners: s.corners })),
+    'structures after the corner phase',
+    1e-6,
+  );
+}
+
+const CARD = /^(R\S+ \S+ \S+ )(\S+)(.*)$/;
+
+/** The text with the value of one resistor card (chosen by `random`) replaced by a random positive value in another notation. */
+export function randomValueEdit(text: string, random: () => number): string {
+  const lines = text.split('\n');
+  const cards = lines.flatMap((l, i) => (CARD.test(l) ? [i] : []));
+  const at = cards[Math.floor(random() * cards.length)];
+  const ohms = 300 * Math.pow(10, 2 * random());
+  const forms = [`${(ohms / 1e3).toFixed(2)}k`, `${Math.round(ohms)}`, `${(ohms / 1e3).toPrecision(5)}K`, `${ohms.toExponential(3)}`];
+  lines[at] = lines[at].replace(CARD, (_m, head: string, _v: string, tail: string) => `${head}${forms[Math.floor(random() * forms.length)]}${tail}`);
+  return lines.join('\n');
 }
