@@ -32,9 +32,8 @@ import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { cornerStarts, IncrementalKeeper, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
+import { cornerStarts, IncrementalKeeper, keptCorners, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
 import { elaborationSettings, keptElaboration } from './incremental-elaborate';
-import { keptCorners } from './incremental';
 
 declare const performance: { now(): number };
 

@@ -66,11 +66,6 @@ export class PartStarts {
     this.solves = partSolves(whole, before);
   }
 
-  /** Whether `refine` can change a start (false: there is nothing to solve apart). */
-  get active(): boolean {
-    return this.solves !== undefined;
-  }
-
   /**
    * Writes the refined unknowns into `start` and returns the parts' point with the new values; undefined (and `start`
    * as it was) when a part solve did not converge.
