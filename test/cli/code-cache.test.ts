@@ -4,25 +4,15 @@ import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
 import { copyFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { ROOT, runCli, scratchFolder } from './harness';
+import { codeCacheRejected, ROOT, runCli, scratchFolder } from './harness';
 
 const BUNDLE = join(ROOT, 'dist/cli-main.js');
 const scratch = scratchFolder('qpoint-code-cache-');
 
 describe('the CLI code cache', () => {
   it('is accepted by this Node for the bundle as the loader wraps it', () => {
-    // In a fresh process, as the bin runs: V8 rejects a cache made for other source text or other flags (and a
-    // test worker's flags may differ). The same wrapper and file name as the loader.
-    const check = `
-      const { readFileSync } = require('node:fs');
-      const { Script } = require('node:vm');
-      const source = readFileSync(${JSON.stringify(BUNDLE)}, 'utf8');
-      const script = new Script('(function (exports, require, module, __filename, __dirname) {' + source + '\\n})', {
-        filename: ${JSON.stringify(BUNDLE)},
-        cachedData: readFileSync(${JSON.stringify(join(ROOT, 'dist/cli-main.cache'))}),
-      });
-      process.stdout.write(String(script.cachedDataRejected));`;
-    const r = spawnSync(process.execPath, ['-e', check], { cwd: ROOT, encoding: 'utf8' });
+    // In a fresh process, as the bin runs (a test worker's flags may differ from the bin's).
+    const r = codeCacheRejected('cli-main.cache');
     expect(r.stderr).toBe('');
     expect(r.stdout).toBe('false');
   });

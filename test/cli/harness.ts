@@ -35,3 +35,23 @@ export function scratchFolder(prefix: string): { readonly dir: string; file(name
     },
   };
 }
+
+/**
+ * Whether V8 rejects `cache` (a file in dist/) for the CLI bundle in a fresh process started with `nodeFlags`, wrapped and
+ * named as the loader (server/src/cli-loader.ts) wraps it: V8 rejects a cache made for other source text or other flags.
+ * Gives the child's stdout ('true' or 'false') and stderr.
+ */
+export function codeCacheRejected(cache: string, nodeFlags: readonly string[] = []): { stdout: string; stderr: string } {
+  const bundle = join(ROOT, 'dist/cli-main.js');
+  const check = `
+    const { readFileSync } = require('node:fs');
+    const { Script } = require('node:vm');
+    const source = readFileSync(${JSON.stringify(bundle)}, 'utf8');
+    const script = new Script('(function (exports, require, module, __filename, __dirname) {' + source + '\\n})', {
+      filename: ${JSON.stringify(bundle)},
+      cachedData: readFileSync(${JSON.stringify(join(ROOT, 'dist', cache))}),
+    });
+    process.stdout.write(String(script.cachedDataRejected));`;
+  const r = spawnSync(process.execPath, [...nodeFlags, '-e', check], { cwd: ROOT, encoding: 'utf8' });
+  return { stdout: r.stdout, stderr: r.stderr };
+}

@@ -6,7 +6,7 @@ import { spawn, spawnSync } from 'node:child_process';
 import { mkdtempSync, readdirSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { LARGE_RUN_BYTES, LARGE_RUN_FLAGS, namedFileBytes, relaunchFlags } from '../../server/src/cli-launch';
-import { CLI, ROOT, runCli, scratchFolder } from './harness';
+import { CLI, codeCacheRejected, ROOT, runCli, scratchFolder } from './harness';
 
 const scratch = scratchFolder('qpoint-launch-');
 const MB = 2 ** 20;
@@ -70,17 +70,7 @@ describe('a run started again', () => {
   });
 
   it('reads a code cache this Node accepts under the large-run flags', () => {
-    const bundle = join(ROOT, 'dist/cli-main.js');
-    const check = `
-      const { readFileSync } = require('node:fs');
-      const { Script } = require('node:vm');
-      const source = readFileSync(${JSON.stringify(bundle)}, 'utf8');
-      const script = new Script('(function (exports, require, module, __filename, __dirname) {' + source + '\\n})', {
-        filename: ${JSON.stringify(bundle)},
-        cachedData: readFileSync(${JSON.stringify(join(ROOT, 'dist/cli-main-large-run.cache'))}),
-      });
-      process.stdout.write(String(script.cachedDataRejected));`;
-    const r = spawnSync(process.execPath, [...LARGE_RUN_FLAGS, '-e', check], { cwd: ROOT, encoding: 'utf8' });
+    const r = codeCacheRejected('cli-main-large-run.cache', LARGE_RUN_FLAGS);
     expect(r.stderr).toBe('');
     expect(r.stdout).toBe('false');
   });
