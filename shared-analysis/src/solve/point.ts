@@ -88,30 +88,24 @@ function assigned(op: OperatingPoint, key: 'nodes' | 'devices', value: unknown):
 }
 
 /*
- * The accessors are the same functions for every point (they find their point as `this`): a pair made
+ * The accessors are the same functions for every point, made once per table (they find their point as `this`): a pair made
  * per point gave every point a hidden class of its own, thousands in a sizing run, and made every read
  * of a point's fields megamorphic.
  */
-const NODES_TABLE: PropertyDescriptor = {
-  enumerable: true,
-  configurable: true,
-  get(this: OperatingPoint) {
-    return tablesOf(this).nodes;
-  },
-  set(this: OperatingPoint, value: unknown) {
-    assigned(this, 'nodes', value);
-  },
-};
-const DEVICES_TABLE: PropertyDescriptor = {
-  enumerable: true,
-  configurable: true,
-  get(this: OperatingPoint) {
-    return tablesOf(this).devices;
-  },
-  set(this: OperatingPoint, value: unknown) {
-    assigned(this, 'devices', value);
-  },
-};
+function tableAccessor(key: 'nodes' | 'devices'): PropertyDescriptor {
+  return {
+    enumerable: true,
+    configurable: true,
+    get(this: OperatingPoint) {
+      return tablesOf(this)[key];
+    },
+    set(this: OperatingPoint, value: unknown) {
+      assigned(this, key, value);
+    },
+  };
+}
+const NODES_TABLE = tableAccessor('nodes');
+const DEVICES_TABLE = tableAccessor('devices');
 
 /**
  * An OperatingPoint whose `nodes` and `devices` tables are built by `build` on first read (and
