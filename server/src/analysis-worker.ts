@@ -107,7 +107,8 @@ function monteCarloStep(uri: string, analysis: Analysis, msg: { seed: number; fi
   state.setup.detail.result.outputs.forEach((o, k) => {
     const figures = monteCarloFigures(state!.samples[k], 20, o.target, state!.runs);
     const mine = own.get(o.key);
-    if (mine) mine.monteCarlo = figures;
+    if (mine && figures) mine.monteCarlo = figures;
+    else if (mine) delete mine.monteCarlo;
     const shown = { ...o, monteCarlo: figures };
     report.push(`${o.structure ? `${o.structure} ` : ''}${o.output}: nominal ${formatEngineering(o.nominal, { unit: o.unit, digits: 4 })}`);
     report.push(`  linear: ${spreadText(o)}`);

@@ -434,7 +434,11 @@ export function monteCarloOf(session: AnalysisSession, options: MonteCarloOption
   try {
     const t0 = performance.now();
     const r = runMonteCarlo(analysis.circuit, analysis.structures, solver, nominal, variation, options);
-    analysis.variation.outputs.forEach((o, k) => (o.monteCarlo = r.figures[k]));
+    analysis.variation.outputs.forEach((o, k) => {
+      const figures = r.figures[k];
+      if (figures) o.monteCarlo = figures;
+      else delete o.monteCarlo;
+    });
     analysis.variation.monteCarlo = { runs: r.runs, seed: r.seed, converged: r.converged, ms: r.ms };
     analysis.timings['monte-carlo'] = (analysis.timings['monte-carlo'] ?? 0) + performance.now() - t0;
     return r;

@@ -33,8 +33,8 @@ export interface MonteCarloResult {
   seed: number;
   ms: number;
   cancelled: boolean;
-  /** Per output of the detail (same order). */
-  figures: MonteCarloFigures[];
+  /** Per output of the detail (same order); undefined for an output no run was counted for (no statistics exist). */
+  figures: (MonteCarloFigures | undefined)[];
   /** Per output, the value of every counted run (for tests and plots). */
   samples: Float64Array[];
 }
@@ -161,12 +161,17 @@ export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver:
   return { runs: done, converged, seed: options.seed, ms: performance.now() - t0, cancelled, figures, samples: samples.map((s) => Float64Array.from(s)) };
 }
 
-/** Mean, sample σ, range, histogram and target yield of one output's Monte Carlo values. */
-export function monteCarloFigures(xs: ArrayLike<number>, bins: number, target: { current: number; tolerance: number } | undefined, runs: number): MonteCarloFigures {
+/**
+ * Mean, sample σ, range, histogram and target yield of one output's Monte Carlo values; undefined when no run was
+ * counted (every run failed to converge or read a non-finite value): there is no mean or range to state, and the
+ * run summary's `converged: 0` says why.
+ */
+export function monteCarloFigures(xs: ArrayLike<number>, bins: number, target: { current: number; tolerance: number } | undefined, runs: number): MonteCarloFigures | undefined {
   const k = xs.length;
+  if (k === 0) return undefined;
   let mean = 0;
   for (let i = 0; i < k; i++) mean += xs[i];
-  mean = k > 0 ? mean / k : NaN;
+  mean /= k;
   let ss = 0;
   let min = Infinity;
   let max = -Infinity;
@@ -180,13 +185,13 @@ export function monteCarloFigures(xs: ArrayLike<number>, bins: number, target: {
   const histogram = new Array<number>(bins).fill(0);
   const width = max > min ? (max - min) / bins : 0;
   for (let i = 0; i < k; i++) histogram[width > 0 ? Math.min(bins - 1, Math.floor((xs[i] - min) / width)) : 0]++;
-  const out: MonteCarloFigures = { runs, converged: k, mean, sigma, min: k ? min : NaN, max: k ? max : NaN, histogram };
+  const out: MonteCarloFigures = { runs, converged: k, mean, sigma, min, max, histogram };
   if (target) {
     const lo = target.current * (1 - target.tolerance);
     const hi = target.current * (1 + target.tolerance);
     let inside = 0;
     for (let i = 0; i < k; i++) if (Math.abs(xs[i]) >= lo && Math.abs(xs[i]) <= hi) inside++;
-    out.yield = k > 0 ? inside / k : 0;
+    out.yield = inside / k;
   }
   return out;
 }
