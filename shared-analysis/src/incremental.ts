@@ -17,6 +17,8 @@ import { parseElementLine } from './syntax/parser';
 import { movedCard } from './syntax/moved-card';
 import { PartStarts, partsAreSeparate, resistancesOf, type PartCircuit } from './solve/part-starts';
 import { topologyOf } from './structures/topology';
+import type { OutputSpec } from './variation/outputs';
+import type { SpreadRecord, SpreadReuse } from './variation/reuse';
 import { patchedElaboration, type EditRegion, type KeptElaboration, type PatchedElaboration } from './incremental-elaborate';
 
 /**
@@ -70,6 +72,8 @@ export interface IncrementalState {
   corners?: Map<string, CornerSolution>;
   /** The last finished corner phase's figures and findings on this state or one it came from by value edits, with the resistances it was solved with (see `keptCorners`). */
   cornerRecord?: { record: CornerRecord; resistances: Float64Array; text: string };
+  /** The last spread analysis on this state or one it came from by value edits, with the resistances it was made with (see `keptSpread`). */
+  spreadRecord?: { record: SpreadRecord; resistances: Float64Array };
   /** The parse of `text`, for the next analysis to read again only the card an edit changed (see `reparsedDocument`). Never written. */
   document?: ParsedDocument;
   /** What the elaboration of `text` left for the next one to patch (see `patchedElaboration`). */
@@ -141,6 +145,30 @@ export function keptCorners(state: IncrementalState | undefined, circuit: Circui
   const members = new Set<number>();
   structures.forEach((s, i) => touched[i] === 1 && memberElements(s, state.index).forEach((e) => members.add(e)));
   return { record, reuse: { record: last.record, touched, members: Int32Array.from(members), moved: (f) => movedFinding(f, state.uri, region) } };
+}
+
+/**
+ * What the spread analysis of the analysis `state` belongs to may keep of the last one (`SpreadReuse`), and the record
+ * of this one for the next. An output's derivatives come from one transposed solve whose solution lives in the part of
+ * the circuit holding the output's terms and in the rows of the rail sources (at a rail the adjoint's KCL row is zero:
+ * its source's branch current is read by no output of another part), when every element reads only the nodes it lists.
+ * So an output none of whose terms lies in a part holding a changed resistor (or reads the current of a source holding
+ * a rail, which every part shares) has the same value and row as last time, to the solver's tolerance. Nothing is kept
+ * when `state` is not this circuit's or the circuit has an element reading across parts; `analyseVariation` checks the
+ * outputs, the sources and the targets.
+ */
+export function keptSpread(state: IncrementalState | undefined, circuit: Circuit): { reuse?: SpreadReuse; record: (r: SpreadRecord) => void } {
+  if (!state || state.circuit !== circuit) return { record: () => undefined };
+  const resistances = resistancesOf(circuit);
+  const record = (r: SpreadRecord) => (state.spreadRecord = { record: r, resistances });
+  const last = state.spreadRecord;
+  if (!last || last.resistances.length !== resistances.length || !partsAreSeparate(circuit)) return { record };
+  const { parts, rail } = state.index;
+  const touched = touchedParts(parts, resistances, last.resistances);
+  const anyTouched = touched.some((p) => p === 1);
+  const reachedElement = (e: number) => touched[parts.ofElement[e]!] === 1 || (anyTouched && holdsRail(circuit.elements[e]!, rail));
+  const reached = (spec: OutputSpec) => spec.functional.terms.some((t) => (t.kind === 'node' ? parts.ofNode[t.node]! >= 0 && touched[parts.ofNode[t.node]!] === 1 : reachedElement(t.element)));
+  return { record, reuse: { last: last.record, reached } };
 }
 
 /** Per part (see `circuitParts`), 1 where a resistor's value differs between `now` and `before` (per element, NaN but for resistors). */
@@ -786,6 +814,7 @@ export class IncrementalKeeper {
       ...(devices ? { devices } : {}),
       ...(previous?.corners ? { corners: previous.corners } : {}),
       ...(previous?.cornerRecord ? { cornerRecord: previous.cornerRecord } : {}),
+      ...(previous?.spreadRecord ? { spreadRecord: previous.spreadRecord } : {}),
     };
   }
 }

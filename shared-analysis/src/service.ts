@@ -27,12 +27,13 @@ import type { Structure } from './structures/types';
 import type { Target } from './checks/targets';
 import { seriesTolerance } from './fixes/e-series';
 import { checkYield } from './checks/variation';
-import { analyseVariation, attachVariation, type VariationDetail } from './variation/index';
+import { analyseVariation, attachVariation, spreadRecordOf, type VariationDetail } from './variation/index';
+import type { SpreadReuse } from './variation/reuse';
 import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
 import { nameTable } from './names';
 import { clampFindingSpans, keepFinite } from './output-guard';
-import { cornerStarts, IncrementalKeeper, keptCorners, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
+import { cornerStarts, IncrementalKeeper, keptCorners, keptSpread, patchedElaborationOf, reparsedDocument, ValueEdit, type IncrementalState } from './incremental';
 import { elaborationSettings, keptElaboration } from './incremental-elaborate';
 
 declare const performance: { now(): number };
@@ -314,8 +315,10 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
     if (!analysis.variation && options.variation.enabled) {
       // The spread analysis is a stage of its own: a superseded text stops before it.
       if (ctx.shouldStop?.()) throw new AnalysisStopped();
-      const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options);
+      const spread = keptSpread(ctx.incremental, circuit);
+      const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options, spread.reuse);
       if (detail) {
+        spread.record(spreadRecordOf(detail));
         analysis.variation = detail.result;
         attachVariation(analysis.structures, detail.result);
         pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget, analysis.documents));
@@ -393,7 +396,7 @@ export function attachAllSizingFixes(session: AnalysisSession, stop?: () => bool
   return attachSizingFixes(analysis.findings, { circuit: analysis.circuit, solver, structures: analysis.structures, documents: analysis.documents, options: analysis.options, spread: spreadOf(analysis), point: analysis.operatingPoint }, stop);
 }
 
-/** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners). */
+/** The variation analysis with the settings of `options` (resistor tolerance from the setting or the series, supply tolerance from the corners), keeping what `reuse` allows of the last one. */
 export function variationOf(
   circuit: Circuit,
   structures: Structure[],
@@ -402,20 +405,13 @@ export function variationOf(
   nominal: DcSolveResult,
   targets: Target[],
   options: ResolvedOptions,
+  reuse?: SpreadReuse,
 ): VariationDetail | undefined {
   try {
     const seriesTol = seriesTolerance(options.resistorSeries);
     const set = options.variation.resistorTolerance;
-    return analyseVariation({
-      circuit,
-      structures,
-      documents,
-      solver,
-      nominal,
-      targets,
-      settings: { resistorTolerance: set ?? seriesTol, resistorFrom: set !== undefined ? 'setting' : 'series', supplyTolerance: options.corners.supplyTolerance },
-      defaultTargetTolerance: seriesTol,
-    });
+    const settings = { resistorTolerance: set ?? seriesTol, resistorFrom: set !== undefined ? ('setting' as const) : ('series' as const), supplyTolerance: options.corners.supplyTolerance };
+    return analyseVariation({ circuit, structures, documents, solver, nominal, targets, settings, defaultTargetTolerance: seriesTol }, reuse);
   } catch {
     // The spread is an addition; a failure leaves the rest of the analysis standing.
     return undefined;

@@ -10,10 +10,11 @@ import { nameTable } from '../names';
 import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { grown, grownFloat, sensitivities, type SensitivityResult, type VariedParameter } from './sensitivity';
+import { grown, grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
+import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
 
 declare const performance: { now(): number };
 
@@ -89,39 +90,139 @@ export interface VariationDetail {
   bySource: SourceRows;
   /** Time of the derivatives alone, ms: the Jacobian factored at the solution, ∂F/∂p and every transposed solve (the benchmark's figure). */
   sensitivityMs: number;
+  /** Per output, 1 when every figure of its record is finite (what a later analysis may keep: see `SpreadRecord`). */
+  finite: Uint8Array;
 }
 
-/** The spread of every structure output and target element at the nominal solution; undefined when it did not converge. */
-export function analyseVariation(ctx: VariationContext): VariationDetail | undefined {
+/**
+ * The spread of every structure output and target element at the nominal solution; undefined when it did not converge.
+ * With `reuse` (after a value edit), an output the edit cannot reach keeps the last analysis's record (`keptOutputs`),
+ * and only the others are derived: their transposed solves, rows and records.
+ */
+export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): VariationDetail | undefined {
   const t0 = performance.now();
   const { circuit, structures, solver, nominal } = ctx;
   if (!nominal.op.converged) return undefined;
   const specs = structureOutputs(circuit, structures);
   const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
-  const tLinearise = performance.now();
-  const lin = solver.linearise(nominal);
-  const lineariseMs = performance.now() - tLinearise;
-  if (!lin) return undefined;
-
   const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
+  const kept = reuse ? keptOutputs(reuse, specs, sources, (spec) => targetWindowOf(targetOf, spec)) : undefined;
+  const fresh = freshOutputs(specs.length, kept);
   const varied = variedParameters(circuit, sources);
-  const tSensitivities = performance.now();
-  const sens = sensitivities(lin, specs.map((s) => s.functional), varied.params.list);
-  // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
-  const sensitivityMs = lineariseMs + performance.now() - tSensitivities;
-  const count = varied.params.list.length;
-  const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
-  const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
-  const lists = new OutputLists(new RankedContributors(specs.length), new TopSensitivities(SHOWN_SENSITIVITIES, specs.length, shown));
-  const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
-  const outputs: OutputVariation[] = new Array(specs.length);
-  for (let o = 0; o < specs.length; o++) outputs[o] = records.of(specs[o], o);
+  const derived = fresh.length > 0 ? derivedOutputs(ctx, specs, fresh, sources, varied, targetOf) : nothingDerived(specs.length);
+  if (!derived) return undefined;
+  const outputs = derived.outputs;
+  let bySource = derived.bySource;
+  let finite = derived.finite;
+  if (kept && reuse) {
+    const last = reuse.last;
+    const merged = mergedOutputs(kept, derived, last);
+    bySource = merged.bySource;
+    finite = merged.finite;
+    for (let o = 0; o < outputs.length; o++) if (kept[o]) outputs[o] = last.outputs[o];
+  }
   // Field by field, in the order the JSON shows them.
   const result = { outputs } as VariationResult;
   attachSources(result, sources);
-  result.stats = { adjointSolves: sens.adjointSolves, parameters: count, ms: performance.now() - t0 };
-  return { result, specs, sources, bySource, sensitivityMs };
+  result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
+  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite };
+}
+
+/** What a later spread analysis may keep of this one (see `keptSpread`). */
+export function spreadRecordOf(detail: VariationDetail): SpreadRecord {
+  return { specs: detail.specs, sources: detail.sources, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
+}
+
+/** The outputs whose records are derived now: those not kept (all of them without `kept`), ascending. */
+function freshOutputs(count: number, kept: Uint8Array | undefined): Int32Array {
+  let n = 0;
+  for (let o = 0; o < count; o++) if (!kept?.[o]) n++;
+  const out = new Int32Array(n);
+  for (let o = 0, at = 0; o < count; o++) if (!kept?.[o]) out[at++] = o;
+  return out;
+}
+
+/** The derived part of an analysis: records at the places of the fresh outputs (the others left empty), and the fresh outputs' rows in their order. */
+interface DerivedOutputs {
+  outputs: OutputVariation[];
+  bySource: SourceRows;
+  finite: Uint8Array;
+  adjointSolves: number;
+  sensitivityMs: number;
+}
+
+/** What `derivedOutputs` gives when every one of `count` outputs is kept: no record, no row, no solve. */
+function nothingDerived(count: number): DerivedOutputs {
+  return { outputs: new Array(count), bySource: { start: new Int32Array(1), index: new Int32Array(0), value: new Float64Array(0) }, finite: new Uint8Array(0), adjointSolves: 0, sensitivityMs: 0 };
+}
+
+/** The records of the outputs `fresh` (indices into `specs`), from the Jacobian at the solution; undefined when it cannot be factored. */
+function derivedOutputs(
+  ctx: VariationContext,
+  specs: readonly OutputSpec[],
+  fresh: Int32Array,
+  sources: readonly ToleranceSource[],
+  varied: VariedParameters,
+  targetOf: Map<string, TargetWindow>,
+): DerivedOutputs | undefined {
+  const tLinearise = performance.now();
+  const lin = ctx.solver.linearise(ctx.nominal);
+  if (!lin) return undefined;
+  const functionals: OutputFunctional[] = new Array(fresh.length);
+  for (let r = 0; r < fresh.length; r++) functionals[r] = specs[fresh[r]].functional;
+  const sens = sensitivities(lin, functionals, varied.params.list);
+  // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
+  const sensitivityMs = performance.now() - tLinearise;
+  const count = varied.params.list.length;
+  const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
+  const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
+  const lists = new OutputLists(new RankedContributors(fresh.length), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown));
+  const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
+  const outputs: OutputVariation[] = new Array(specs.length);
+  const finite = new Uint8Array(fresh.length);
+  for (let r = 0; r < fresh.length; r++) {
+    outputs[fresh[r]] = records.of(specs[fresh[r]], r);
+    finite[r] = records.finite(outputs[fresh[r]], r) ? 1 : 0;
+  }
+  return { outputs, bySource, finite, adjointSolves: sens.adjointSolves, sensitivityMs };
+}
+
+/** Every output's row and finite flag: the last analysis's for a kept output, the derived one's for a fresh one (in output order). */
+function mergedOutputs(kept: Uint8Array, derived: DerivedOutputs, last: SpreadRecord): { bySource: SourceRows; finite: Uint8Array } {
+  const count = kept.length;
+  const rows = derived.bySource;
+  const lastRows = last.rows;
+  const start = new Int32Array(count + 1);
+  for (let o = 0, r = 0; o < count; o++) {
+    const length = kept[o] ? lastRows.start[o + 1] - lastRows.start[o] : rows.start[r + 1] - rows.start[r++];
+    start[o + 1] = start[o] + length;
+  }
+  const bySource: SourceRows = { start, index: new Int32Array(start[count]), value: new Float64Array(start[count]) };
+  const finite = new Uint8Array(count);
+  for (let o = 0, r = 0; o < count; o++) {
+    if (kept[o]) {
+      copyRow(lastRows, o, bySource, start[o]);
+      finite[o] = last.finite[o];
+    } else {
+      copyRow(rows, r, bySource, start[o]);
+      finite[o] = derived.finite[r++];
+    }
+  }
+  return { bySource, finite };
+}
+
+/** Row o of `from` into `to` at `at`. */
+function copyRow(from: SourceRows, o: number, to: SourceRows, at: number): void {
+  const a = from.start[o];
+  const b = from.start[o + 1];
+  to.index.set(from.index.subarray(a, b), at);
+  to.value.set(from.value.subarray(a, b), at);
+}
+
+/** An output's target window, when it reads an element with a target. */
+function targetWindowOf(targetOf: Map<string, TargetWindow>, spec: OutputSpec): TargetWindow | undefined {
+  return spec.element && (spec.role === 'element' || spec.role === 'iout') ? targetOf.get(spec.element) : undefined;
 }
 
 /** The varied parameters: every tolerance source's, the temperature, and every voltage source (for %/V) and resistor (for % per %). */
@@ -285,7 +386,7 @@ class OutputRecords {
     const supplyPercentPerVolt: Record<string, number> = nameTable();
     const supplies = this.varied.supplies;
     for (let k = 0; k < supplies.length; k++) supplyPercentPerVolt[supplies[k].name] = (supplySlope[k] / scale) * 100;
-    const target = spec.element && (spec.role === 'element' || spec.role === 'iout') ? this.targetOf.get(spec.element) : undefined;
+    const target = targetWindowOf(this.targetOf, spec);
     // Field by field, in the order the JSON shows them (the optional structure and element in their places).
     const out = { output: spec.label, key: spec.key, unit: spec.unit } as OutputVariation;
     if (spec.structure) out.structure = spec.structure;
@@ -306,6 +407,14 @@ class OutputRecords {
       out.target = { ...target, yield: fractionWithin(Math.abs(y), sigma, lo, hi) };
     }
     return out;
+  }
+
+  /** Whether every figure of `out`, made by `of` as output o, is finite (its lists read from the columns). */
+  finite(out: OutputVariation, o: number): boolean {
+    const figures = [out.nominal, out.sigma, out.sigmaRelative, out.worstCase, out.worstCaseRelative, out.tempcoPpmPerC, out.target?.yield ?? 0];
+    for (const v of figures) if (!Number.isFinite(v)) return false;
+    for (const name in out.supplyPercentPerVolt) if (!Number.isFinite(out.supplyPercentPerVolt[name])) return false;
+    return this.lists.contributors.finite(o) && this.lists.top.finite(o);
   }
 }
 
