@@ -8,7 +8,8 @@ import { pointVectors, type PointVectors } from '../../shared-analysis/src/solve
 import { addWholeRecords, elementsByName, installPointTables, pointColumns, wholeRecordCount, type PointColumns } from './point-tables';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding, Span } from '../../shared-analysis/src/types';
-import { nameTable } from '../../shared-analysis/src/names';
+import { nameTable, restoreNameTables } from '../../shared-analysis/src/names';
+import { indexBuilder } from '../../shared-analysis/src/features/document-index';
 import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
 import { editRegion } from '../../shared-analysis/src/incremental';
 
@@ -397,6 +398,44 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       for (const s of part.items) target.structures.push(s);
       return;
   }
+}
+
+/** What merges the parts of one result into its header (see `partMerger`). */
+export interface PartMerger {
+  /** Merges one part in steps (see `mergePartSteps`), indexing the elements it brought at each step. */
+  steps(part: AnalysisPart): Generator<void, void, undefined>;
+  /** Once every part is in: finishes the element index and gives the name-keyed tables their prototype-free form. */
+  finish(): void;
+}
+
+/**
+ * Merges a result's parts into `analysis` (the header as it arrived, its tables already restored) as the
+ * receiver takes them in, and builds its element index meanwhile, so the first request after the merge finds
+ * the tables built. `held`: as for `mergePartSteps`.
+ */
+export function partMerger(analysis: Analysis, held?: Analysis): PartMerger {
+  // Made with the first elements part, not before the findings are published (its node table alone is a pass over every node).
+  let elementIndex: ReturnType<typeof indexBuilder> | undefined;
+  return {
+    *steps(part) {
+      let indexed = analysis.circuit?.elements.length ?? 0;
+      const indexNew = () => {
+        if (!analysis.circuit || part.kind !== 'elements') return;
+        elementIndex ??= indexBuilder(analysis.circuit);
+        elementIndex.add(analysis.circuit.elements, indexed);
+        indexed = analysis.circuit.elements.length;
+      };
+      for (const _ of mergePartSteps(analysis, part, held)) {
+        indexNew();
+        yield;
+      }
+      indexNew();
+    },
+    finish() {
+      elementIndex?.finish(analysis);
+      restoreNameTables(analysis);
+    },
+  };
 }
 
 /**

@@ -56,19 +56,26 @@ export class PositionConverter {
   }
 }
 
-/** Hands out converters by document id; a converter is reused while its text is unchanged. */
+/**
+ * Texts whose converters are kept per document: while a large result is taken in, its diagnostics are published
+ * from the new text and hovers answered from the held analysis's, so a single converter was made again for each
+ * in turn (a pass over the whole text, 5–30 ms for 1.4 MB, inside a hover).
+ */
+const TEXTS_KEPT_PER_DOCUMENT = 2;
+
+/** Hands out converters by document id; a converter is reused while its text is one of the last few it was asked for. */
 export class Converters {
-  private readonly cache = new Map<string, PositionConverter>();
+  private readonly cache = new Map<string, PositionConverter[]>();
 
   constructor(public encoding: PositionEncoding = 'utf-16') {}
 
-  /** A converter for `uri` whose current text is `text`. */
+  /** A converter for `uri` whose text is `text`. */
   get(uri: string, text: string): PositionConverter {
-    const c = this.cache.get(uri);
-    if (c && c.text === text && c.encoding === this.encoding) return c;
-    const fresh = new PositionConverter(text, this.encoding);
-    this.cache.set(uri, fresh);
-    return fresh;
+    const kept = (this.cache.get(uri) ?? []).filter((c) => c.encoding === this.encoding);
+    const at = kept.findIndex((c) => c.text === text);
+    const converter = at >= 0 ? kept[at]! : new PositionConverter(text, this.encoding);
+    if (at !== 0) this.cache.set(uri, [converter, ...kept.filter((c) => c !== converter)].slice(0, TEXTS_KEPT_PER_DOCUMENT));
+    return converter;
   }
 
   forget(uri: string): void {

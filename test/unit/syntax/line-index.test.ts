@@ -66,6 +66,20 @@ describe('line breaks', () => {
     ]);
   });
 
+  it('finds the same line starts in a text of LF breaks only as a count of the lines split at LF', () => {
+    // The LF-only text takes another path: lines at its start and end, empty ones in a row, a last line with and without a break.
+    for (const text of ['\n\nR1 a 0 1k\n\n\nR2 b 0 2k', 'R1 a 0 1k\nR2 b 0 2k\n', '\n', 'no break at all']) {
+      const index = new LineIndex(text);
+      const lines = text.split('\n');
+      expect(index.lineCount).toBe(lines.length);
+      let start = 0;
+      lines.forEach((line, l) => {
+        expect(index.lineStart(l)).toBe(start);
+        start += line.length + 1;
+      });
+    }
+  });
+
   it('reads LF CR as two breaks', () => {
     expect(new LineIndex('a\n\rb').lineCount).toBe(3);
   });
