@@ -192,8 +192,12 @@ function handle(msg: ToWorker): void {
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
-        // The session (parsed cards, solver scratch) is garbage once this handler returns.
-        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectGarbage);
+        // The session (parsed cards, solver scratch) is garbage once this handler returns. Not after a value edit that
+        // reused the last analysis's solver: a full collection then frees only that edit's garbage, but also gives up
+        // the compiled code that held objects of the replaced analysis, and the next edit ran on that code's slower
+        // tiers (on the 20,000-element array the worker's CPU for an edit about 1.6 times as much; docs/PERFORMANCE.md).
+        const valueEdit = previous !== undefined && session.solver === previous.solver;
+        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && !valueEdit) setImmediate(collectGarbage);
       } catch (e) {
         if (e instanceof AnalysisStopped && previous) {
           revertValueEdit(previous);
