@@ -62,6 +62,12 @@ const BYTE_CHUNK = 1 << 20;
 /** Where the writer's pieces of text go: gathered into chunks, handed on by `end` at the latest. */
 interface JsonOut {
   add(s: string): void;
+  /**
+   * Adds `separator` (one ASCII character) and `text` without its first character and its last `cut`
+   * (a batch's brackets and the line before its closing one, all ASCII): the batch's inside, without a
+   * copy of it where the chunk can take the text whole.
+   */
+  addInside(separator: string, text: string, cut: number): void;
   end(): void;
 }
 
@@ -104,11 +110,16 @@ function textChunks(write: (s: string) => void, transform: (s: string) => string
     size = 0;
     write(transform(text));
   };
+  const add = (s: string): void => {
+    parts.push(s);
+    size += s.length;
+    if (size >= CHUNK) end();
+  };
   return {
-    add: (s) => {
-      parts.push(s);
-      size += s.length;
-      if (size >= CHUNK) end();
+    add,
+    addInside: (separator, text, cut) => {
+      add(separator);
+      add(text.slice(1, text.length - cut));
     },
     end,
   };
@@ -125,19 +136,32 @@ function byteChunks(write: (bytes: Uint8Array) => void, transform: (bytes: Buffe
     used = 0;
     write(transform(full));
   };
+  /** Makes room for `most` bytes in the chunk, handing a full one over; false when no chunk can take them. */
+  const room = (most: number): boolean => {
+    if (used + most <= buf.length) return true;
+    end();
+    if (most > BYTE_CHUNK) return false;
+    if (most > buf.length) buf = Buffer.allocUnsafe(BYTE_CHUNK);
+    return true;
+  };
+  // A UTF-16 unit takes at most three bytes.
+  const add = (s: string): void => {
+    if (room(3 * s.length)) used += buf.write(s, used, 'utf8');
+    else write(transform(Buffer.from(s, 'utf8')));
+  };
   return {
-    add: (s) => {
-      // A UTF-16 unit takes at most three bytes.
-      const most = 3 * s.length;
-      if (used + most > buf.length) {
-        end();
-        if (most > BYTE_CHUNK) {
-          write(transform(Buffer.from(s, 'utf8')));
-          return;
-        }
-        if (most > buf.length) buf = Buffer.allocUnsafe(BYTE_CHUNK);
+    add,
+    addInside: (separator, text, cut) => {
+      if (!room(3 * text.length)) {
+        add(separator);
+        add(text.slice(1, text.length - cut));
+        return;
       }
-      used += buf.write(s, used, 'utf8');
+      // The text is written whole, its opening bracket overwritten by the separator and its end dropped.
+      const start = used;
+      used += buf.write(text, used, 'utf8');
+      buf[start] = separator.charCodeAt(0);
+      used -= cut;
     },
     end,
   };
@@ -162,36 +186,22 @@ function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
   class Batch {
     private items: unknown[] | Record<string, unknown> | undefined;
     private used = 0;
-    /** Items gathered, and how many a batch of modest items may take (from the weight of its first). */
-    private count = 0;
-    private limit = 0;
 
-    /** `modest`: the items are known to be of modest size and hold nothing streamed (`JsonItems`, `modestValues`). */
     constructor(
       private readonly list: boolean,
       private readonly indent: string,
-      private readonly separate: () => void,
-      private readonly modest = false,
+      /** The separator before the next piece of the list or object ("[" or "{" first, then ","). */
+      private readonly separator: () => string,
     ) {}
 
     /** Takes the item (member `key` of an object) when it is small enough; false when it must be written alone. */
     add(item: unknown, key?: string): boolean {
-      if (this.modest && this.count > 0 && this.count < this.limit) return this.take(item, key, 0);
       const w = weight(item);
       if (w < 0) return false;
-      if (this.modest) {
-        // One walk per batch: the items that follow are taken to weigh about as much as the first.
-        this.write();
-        this.limit = Math.floor(SMALL_BUDGET / w);
-      } else if (this.used + w > SMALL_BUDGET) this.write();
-      return this.take(item, key, w);
-    }
-
-    private take(item: unknown, key: string | undefined, w: number): boolean {
+      if (this.used + w > SMALL_BUDGET) this.write();
       if (this.list) ((this.items ??= []) as unknown[]).push(item);
       else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
       this.used += w;
-      this.count++;
       return true;
     }
 
@@ -201,12 +211,95 @@ function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
       const text = native(this.items, this.indent);
       this.items = undefined;
       this.used = 0;
-      this.count = 0;
-      this.separate();
-      // Cut the brackets: "[" … "]" compact; "[" … "\n" + indent + "]" indented.
-      emit(text.slice(1, text.length - (step ? this.indent.length + 2 : 1)));
+      emitInside(this.separator(), text, this.indent);
     }
   }
+
+  /** A batch's text after `separator`, without its brackets: "[" … "]" compact; "[" … "\n" + indent + "]" indented. */
+  const emitInside = (separator: string, text: string, indent: string): void => out.addInside(separator, text, step ? indent.length + 2 : 1);
+
+  /** Writes a list's item alone (too large to be gathered), after its separator. */
+  const putItem = (item: unknown, inner: string, separator: string): void => {
+    emit(separator);
+    if (step) emit('\n' + inner);
+    put(item, inner);
+  };
+
+  /** Writes member `k` (a name that is not to be gathered, or a value too large to be) alone, after its separator. */
+  const putMember = (k: string, item: unknown, inner: string, separator: string): void => {
+    emit(separator);
+    if (step) emit('\n' + inner);
+    emit(JSON.stringify(k) + colon);
+    put(item, inner);
+  };
+
+  /**
+   * A streamed table of modest values (`JsonEntries` with `modestValues`: the node voltages, the device
+   * records, the power table): members gathered by count, the count set by the weight of each batch's first
+   * member, so the writer walks one member per batch. A loop of its own, not the walk of every other object,
+   * so V8 compiles it once for these tables (the shared walk was compiled six times over in a cold run, each
+   * new kind of member giving up its compiled code).
+   */
+  const putModestMembers = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
+    const inner = indent + step;
+    let separator = '{';
+    let batch: Record<string, unknown> | undefined;
+    let count = 0;
+    let limit = 0;
+    const flush = (): void => {
+      if (batch === undefined) return;
+      emitInside(separator, native(batch, indent), indent);
+      separator = ',';
+      batch = undefined;
+      count = 0;
+    };
+    for (const [k, member] of members) {
+      if (!writable(member)) continue;
+      // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
+      if (isArrayIndex(k) || (count === 0 && (limit = Math.floor(SMALL_BUDGET / weight(member))) <= 0)) {
+        flush();
+        putMember(k, member, inner, separator);
+        separator = ',';
+        continue;
+      }
+      // A modest value holds nothing streamed, so the native writer that takes its batch calls any toJSON it has.
+      (batch ??= Object.create(null) as Record<string, unknown>)[k] = member;
+      if (++count >= limit) flush();
+    }
+    flush();
+    if (separator === '{') emit('{}');
+    else emit(step ? '\n' + indent + '}' : '}');
+  };
+
+  /** `JsonItems`: items gathered by count as `putModestMembers` gathers members, in a loop of its own for the same reason. */
+  const putModestItems = (items: JsonItems, indent: string): void => {
+    if (items.length === 0) {
+      emit('[]');
+      return;
+    }
+    const inner = indent + step;
+    let separator = '[';
+    let batch: unknown[] = [];
+    let limit = 0;
+    const flush = (): void => {
+      if (batch.length === 0) return;
+      emitInside(separator, native(batch, indent), indent);
+      separator = ',';
+      batch = [];
+    };
+    for (let i = 0; i < items.length; i++) {
+      const item = resolved(items.item(i));
+      if (batch.length === 0 && (limit = Math.floor(SMALL_BUDGET / weight(item))) <= 0) {
+        putItem(item, inner, separator);
+        separator = ',';
+        continue;
+      }
+      batch.push(item);
+      if (batch.length >= limit) flush();
+    }
+    flush();
+    emit(step ? '\n' + indent + ']' : ']');
+  };
 
   /** Writes v (already known to be writable) at the given indentation. */
   const put = (v: unknown, indent: string): void => {
@@ -215,12 +308,12 @@ function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
       return;
     }
     if (v instanceof JsonEntries) {
-      putObject(v.entries(), indent, v.modestValues);
+      if (v.modestValues) putModestMembers(v.entries(), indent);
+      else putObject(v.entries(), indent);
       return;
     }
     if (v instanceof JsonItems) {
-      const items = v;
-      putList(items.length, (i) => items.item(i), indent, true);
+      putModestItems(v, indent);
       return;
     }
     v = resolved(v);
@@ -238,58 +331,53 @@ function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
     }
     if (Array.isArray(v)) {
       const list = v;
-      putList(list.length, (i) => list[i], indent, false);
+      putList(list, indent);
       return;
     }
     const o = v as Record<string, unknown>;
-    putObject(members(o, Object.keys(o)), indent, false);
+    putObject(members(o, Object.keys(o)), indent);
   };
 
-  const putList = (length: number, itemAt: (i: number) => unknown, indent: string, modest: boolean): void => {
-    if (length === 0) {
+  const putList = (list: readonly unknown[], indent: string): void => {
+    if (list.length === 0) {
       emit('[]');
       return;
     }
     const inner = indent + step;
     let first = true;
-    const separate = (): void => {
-      emit(first ? '[' : ',');
+    const separator = (): string => {
+      const s = first ? '[' : ',';
       first = false;
+      return s;
     };
-    const batch = new Batch(true, indent, separate, modest);
-    for (let i = 0; i < length; i++) {
-      const item = resolved(itemAt(i));
+    const batch = new Batch(true, indent, separator);
+    for (let i = 0; i < list.length; i++) {
+      const item = resolved(list[i]);
       if (batch.add(item)) continue;
       batch.write();
-      separate();
-      if (step) emit('\n' + inner);
-      put(item, inner);
+      putItem(item, inner, separator());
     }
     batch.write();
     if (step) emit('\n' + indent);
     emit(']');
   };
 
-  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string, modest: boolean): void => {
+  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
     const inner = indent + step;
     let first = true;
-    const separate = (): void => {
-      emit(first ? '{' : ',');
+    const separator = (): string => {
+      const s = first ? '{' : ',';
       first = false;
+      return s;
     };
-    const batch = new Batch(false, indent, separate, modest);
+    const batch = new Batch(false, indent, separator);
     for (const [k, member] of members) {
-      if (member === undefined || typeof member === 'function' || typeof member === 'symbol') continue;
-      // A modest value holds nothing streamed, so the native writer that takes its batch calls any toJSON it has.
-      const item = modest ? member : resolved(member);
+      const item = resolved(member);
+      if (!writable(item)) continue;
       // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
-      if (item !== undefined && typeof item !== 'function' && typeof item !== 'symbol' && !isArrayIndex(k) && batch.add(item, k)) continue;
+      if (!isArrayIndex(k) && batch.add(item, k)) continue;
       batch.write();
-      if (item === undefined || typeof item === 'function' || typeof item === 'symbol') continue;
-      separate();
-      if (step) emit('\n' + inner);
-      emit(JSON.stringify(k) + colon);
-      put(item, inner);
+      putMember(k, item, inner, separator());
     }
     batch.write();
     if (first) emit('{}');
@@ -331,6 +419,11 @@ const ARRAY_INDEX = /^(?:0|[1-9][0-9]{0,9})$/;
 function isArrayIndex(k: string): boolean {
   const first = k.charCodeAt(0);
   return first >= 48 && first <= 57 && ARRAY_INDEX.test(k);
+}
+
+/** Whether the native writer writes `v` as a member's value (it leaves out undefined, functions and symbols). */
+function writable(v: unknown): boolean {
+  return v !== undefined && typeof v !== 'function' && typeof v !== 'symbol';
 }
 
 /** `v` as the writer writes it: what its `toJSON` gives, when it has one (called with '' as the writer's own items are). */

@@ -175,6 +175,17 @@ describe('writeJsonBytes', () => {
     expect(JSON.parse(Buffer.concat(got).toString('utf8'))).toEqual(plain);
   });
 
+  it('writes gathered batches larger than a chunk, and batches of multi-byte text, as JSON.stringify does', () => {
+    // A batch is sized by its count of values, not its bytes: forty items of 30,000 characters make one
+    // batch of about 1.2 million, more than a chunk takes, which goes over in pieces of its own; the
+    // small items around it are written into chunks with their brackets cut in place.
+    const itemAt = (i: number): unknown => (i >= 100 && i < 140 ? { big: (i % 2 ? 'µ' : 'x').repeat(30000) } : { i, name: `Q${i}−` });
+    const records = (i: number): readonly [string, unknown] => [`R${i}°`, itemAt(i)];
+    const doc = { items: new JsonItems(300, itemAt), entries: new JsonEntries(() => Array.from({ length: 300 }, (_, i) => records(i)), true) };
+    const plain = { items: Array.from({ length: 300 }, (_, i) => itemAt(i)), entries: Object.fromEntries(Array.from({ length: 300 }, (_, i) => records(i))) };
+    for (const indent of [0, 2]) expect(text(doc, indent)).toBe(JSON.stringify(plain, null, indent));
+  });
+
   it('hands over a string longer than a chunk in one piece, and fits pieces larger than the first chunks', () => {
     const long = 'x'.repeat(600000) + '\u00e9'.repeat(300000);
     const got = chunks({ a: 1, long, b: [2] });
