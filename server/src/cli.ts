@@ -10,7 +10,7 @@ import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-ana
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatHeadroom, formatQuantity } from '../../shared-analysis/src/view/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
-import { powerEntries, powerTable } from '../../shared-analysis/src/checks/devices/power';
+import { dissipation, dissipationAt, powerEntries, powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
@@ -19,7 +19,7 @@ import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy 
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapedJsonChunk } from './escape';
 import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from './json-stream';
-import { pointReader, pointVectors } from '../../shared-analysis/src/solve/point';
+import { pointReader, pointVectors, type PointReader } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
@@ -709,7 +709,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
       ? {
           // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
           power: namesUnique(elements)
-            ? new JsonEntries(() => powerEntries(elements, (e) => reader.record(e), analysisOptions), true)
+            ? new JsonEntries(() => powerEntries(elements, powerReader(op, reader), analysisOptions), true)
             : powerTable(elements, op.devices, analysisOptions),
         }
       : {}),
@@ -736,6 +736,12 @@ function variationForJson(v: VariationResult, structures: readonly Structure[], 
     stats: v.stats,
     ...(v.monteCarlo ? { monteCarlo: v.monteCarlo } : {}),
   };
+}
+
+/** Each element's dissipation at `op`: from the solver's vectors without building its record where the point has them. */
+function powerReader(op: OperatingPoint, reader: PointReader): (e: number) => number | undefined {
+  const v = pointVectors(op);
+  return v ? (e) => dissipationAt(v, e) : (e) => dissipation(reader.record(e));
 }
 
 /** Whether no two elements share a name. */

@@ -5,7 +5,8 @@ import { describe, expect, it } from 'vitest';
 import { resolveOptions } from '../../../shared-analysis/src/analysis';
 import { JudgeContext, currentsOff, recordIsOff } from '../../../shared-analysis/src/checks/devices/context';
 import { DEVICE_CODES, judgeEachDevice } from '../../../shared-analysis/src/checks/devices/index';
-import { dissipation } from '../../../shared-analysis/src/checks/devices/power';
+import { dissipation, dissipationAt } from '../../../shared-analysis/src/checks/devices/power';
+import { pointVectors as vectorsOf } from '../../../shared-analysis/src/solve/point';
 import type { DeviceRecord, OperatingPoint } from '../../../shared-analysis/src/solve/types';
 import { solvedNetlist } from './solved-netlist';
 
@@ -74,6 +75,26 @@ describe('device judgements by element index', () => {
     });
     // RP carries 12 V across 100 Ω: 1.44 W.
     expect(ctx.powerAt(circuit.elements.findIndex((x) => x.name === 'RP'))).toBeCloseTo(1.44, 9);
+  });
+
+  it("read a transistor's power from the vectors as the sum of its terminals' voltage times the current into each", () => {
+    // The power a multi-terminal device absorbs is Σ V_k·I_k over its terminals, currents counted into the device
+    // (Tellegen's theorem); the emitter's current is −(IC + IB). Written here from the node voltages and the
+    // record's currents, not through the IC·VCE + IB·VBE form the code uses.
+    const vectors = vectorsOf(nominal.op)!;
+    const nodes = nominal.op.nodes;
+    const volts = (n: number): number => nodes[circuit.nodes[n]] ?? 0;
+    let checked = 0;
+    circuit.elements.forEach((el, e) => {
+      if (el.kind !== 'Q') return;
+      const rec = nominal.op.devices[el.name] as DeviceRecord & { ic: number; ib: number };
+      const terminals = volts(el.nodes[0]) * rec.ic + volts(el.nodes[1]) * rec.ib - volts(el.nodes[2]) * (rec.ic + rec.ib);
+      const p = dissipationAt(vectors, e)!;
+      expect(p, el.name).toBe(dissipation(rec));
+      expect(Math.abs(p - terminals), el.name).toBeLessThanOrEqual(1e-9 * Math.max(1e-9, Math.abs(terminals)) + 1e-15);
+      checked++;
+    });
+    expect(checked).toBe(4);
   });
 });
 

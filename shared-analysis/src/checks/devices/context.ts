@@ -6,7 +6,7 @@ import { NOISE_FLOOR } from '../../fixes/format';
 import { JUNCTION_GMIN } from '../../solve/newton';
 import type { DeviceRecord, OperatingPoint } from '../../solve/types';
 import { namedPointReader, pointVectors, type NamedPointReader, type PointVectors } from '../../solve/point';
-import { dissipation } from './power';
+import { dissipation, dissipationAt } from './power';
 import { railsByIndex } from '../../structures/rails';
 import { topologyOf, type Attachment, type Topology, type Transistor } from '../../structures/topology';
 import type { Rail, Structure, Technology } from '../../structures/types';
@@ -121,15 +121,9 @@ export class JudgeContext {
     return this.records ? this.records.record(e) : this.at.record(this.circuit.elements[e].name);
   }
 
-  /**
-   * `dissipation` of element `e`'s record. A two-terminal element's record (whose power is its `power`) is not
-   * built where the point has vectors: its power is read from them.
-   */
+  /** `dissipation` of element `e`'s record, read from the point's vectors without the record where it has them. */
   powerAt(e: number): number | undefined {
-    const type = this.records?.type(e);
-    if (!this.records || !isTwoTerminal(type)) return dissipation(this.recordAt(e));
-    const p = this.records.value(e, 'power');
-    return p !== undefined && Number.isFinite(p) ? p : undefined;
+    return this.records ? dissipationAt(this.records, e) : dissipation(this.recordAt(e));
   }
 
   nodeName(node: number): string {
@@ -315,11 +309,6 @@ function offFloor(leakVolts: number): number {
 /** A current under the floor, as `currentsOff` tests each one (NaN counts as under). */
 function below(current: number, floor: number): boolean {
   return !(Math.abs(current) >= floor);
-}
-
-/** Whether a record type is a two-terminal element's (`TwoTerminalRecord`, whose dissipation is its `power`). */
-function isTwoTerminal(type: DeviceRecord['type'] | undefined): boolean {
-  return type !== undefined && type !== 'bjt' && type !== 'mosfet' && type !== 'jfet' && type !== 'switch' && type !== 'diode';
 }
 
 /** A base or gate connection (a MOS gate carries no current, a JFET gate only its junctions' leakage; a base current is a side load, not the branch's current). */

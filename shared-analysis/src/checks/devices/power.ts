@@ -3,6 +3,7 @@
 import type { ResolvedOptions } from '../../analysis';
 import type { Element } from '../../circuit';
 import type { DeviceRecord } from '../../solve/types';
+import type { PointVectors } from '../../solve/point';
 import { nameTable } from '../../names';
 
 /**
@@ -13,23 +14,38 @@ import { nameTable } from '../../names';
  */
 export function dissipation(rec: DeviceRecord | undefined): number | undefined {
   if (!rec) return undefined;
+  const fields = rec as unknown as Record<string, number | undefined>;
+  return dissipationOf(rec.type, (q) => fields[q]);
+}
+
+/**
+ * `dissipation` of element `e` of a point, read from the point's vectors: the few numbers it multiplies,
+ * without the record (which a power table of every element would otherwise build once more per device).
+ */
+export function dissipationAt(v: PointVectors, e: number): number | undefined {
+  const type = v.type(e);
+  return type === undefined ? undefined : dissipationOf(type, (q) => v.value(e, q));
+}
+
+/** `dissipation` of a record of `type` whose numbers `n` reads by name (undefined, and so NaN in a product, when it has none). */
+function dissipationOf(type: DeviceRecord['type'], n: (quantity: string) => number | undefined): number | undefined {
   let p: number;
-  switch (rec.type) {
+  switch (type) {
     case 'bjt':
-      p = rec.ic * rec.vce + rec.ib * rec.vbe;
+      p = n('ic')! * n('vce')! + n('ib')! * n('vbe')!;
       break;
     case 'mosfet':
-      p = rec.id * rec.vds;
+      p = n('id')! * n('vds')!;
       break;
     case 'diode':
-      p = rec.id * rec.vd;
+      p = n('id')! * n('vd')!;
       break;
     case 'jfet':
       // ID·VDS + IG·VGS: the source carries −(ID + IG).
-      p = rec.id * rec.vds + rec.ig * rec.vgs;
+      p = n('id')! * n('vds')! + n('ig')! * n('vgs')!;
       break;
     default:
-      p = rec.power;
+      p = n('power')!;
   }
   return Number.isFinite(p) ? p : undefined;
 }
@@ -70,17 +86,20 @@ export interface PowerEntry {
  */
 export function powerTable(elements: readonly Element[], devices: Record<string, DeviceRecord>, options: ResolvedOptions): Record<string, PowerEntry> {
   const out: Record<string, PowerEntry> = nameTable();
-  for (const [name, entry] of powerEntries(elements, (e) => devices[elements[e].name], options)) out[name] = entry;
+  for (const [name, entry] of powerEntries(elements, (e) => dissipation(devices[elements[e].name]), options)) out[name] = entry;
   return out;
 }
 
-/** The entries of `powerTable` one at a time, each element's record read through `recordOf(element index)` (a streaming writer's form). */
-export function* powerEntries(elements: readonly Element[], recordOf: (e: number) => DeviceRecord | undefined, options: ResolvedOptions): Iterable<[string, PowerEntry]> {
+/**
+ * The entries of `powerTable` one at a time (a streaming writer's form), each element's power read through
+ * `powerOf(element index)` (its record's `dissipation`, or `dissipationAt` the point's vectors).
+ */
+export function* powerEntries(elements: readonly Element[], powerOf: (e: number) => number | undefined, options: ResolvedOptions): Iterable<[string, PowerEntry]> {
   for (let e = 0; e < elements.length; e++) {
     const el = elements[e];
     const limit = powerLimit(el, options);
     if (!limit) continue;
-    const watts = dissipation(recordOf(e));
+    const watts = powerOf(e);
     if (watts === undefined) continue;
     yield [el.name, { watts, limitW: limit.watts, limitFrom: limit.from }];
   }
