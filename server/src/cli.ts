@@ -896,14 +896,22 @@ function cornerSummary(s: Structure, keyOf: (label: string) => string): unknown 
   return {
     corners: total,
     converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
-    outputs: summaries.map((o) => ({
-      device: o.device,
-      ...(o.minCurrent ? { minCurrent: cornerValue(o.minCurrent, keyOf) } : {}),
-      ...(o.maxCurrent ? { maxCurrent: cornerValue(o.maxCurrent, keyOf) } : {}),
-      ...(o.minHeadroom ? { minHeadroom: cornerValue(o.minHeadroom, keyOf) } : {}),
-      outOfRegionAt: o.outOfRegionAt.map(keyOf),
-    })),
+    outputs: summaries.map((o) => outputSummaryForJson(o, keyOf)),
   };
+}
+
+/**
+ * One output's corner summary as JSON shows it: its extremes that were found, each with its corner's key. Built
+ * field by field in the document's order (spreading a literal per optional field made and copied a temporary
+ * object for each, three per output of every structure).
+ */
+function outputSummaryForJson(o: OutputCornerSummary, keyOf: (label: string) => string): Record<string, unknown> {
+  const out: Record<string, unknown> = { device: o.device };
+  if (o.minCurrent) out['minCurrent'] = cornerValue(o.minCurrent, keyOf);
+  if (o.maxCurrent) out['maxCurrent'] = cornerValue(o.maxCurrent, keyOf);
+  if (o.minHeadroom) out['minHeadroom'] = cornerValue(o.minHeadroom, keyOf);
+  out['outOfRegionAt'] = o.outOfRegionAt.map(keyOf);
+  return out;
 }
 
 /** A value at a corner: the corner's ASCII key (the file's `corners` give its label and conditions). */
