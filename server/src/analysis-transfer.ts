@@ -406,6 +406,8 @@ export interface PartMerger {
   steps(part: AnalysisPart): Generator<void, void, undefined>;
   /** Once every part is in: finishes the element index and gives the name-keyed tables their prototype-free form. */
   finish(): void;
+  /** `finish` in steps (the element index's node rows are sorted in a few), for a receiver that slices its work. */
+  finishSteps(): Generator<void, void, undefined>;
 }
 
 /**
@@ -416,7 +418,7 @@ export interface PartMerger {
 export function partMerger(analysis: Analysis, held?: Analysis): PartMerger {
   // Made with the first elements part, not before the findings are published (its node table alone is a pass over every node).
   let elementIndex: ReturnType<typeof indexBuilder> | undefined;
-  return {
+  const merger: PartMerger = {
     *steps(part) {
       let indexed = analysis.circuit?.elements.length ?? 0;
       const indexNew = () => {
@@ -432,10 +434,14 @@ export function partMerger(analysis: Analysis, held?: Analysis): PartMerger {
       indexNew();
     },
     finish() {
-      elementIndex?.finish(analysis);
+      for (const _ of merger.finishSteps());
+    },
+    *finishSteps() {
+      if (elementIndex) yield* elementIndex.finishSteps(analysis);
       restoreNameTables(analysis);
     },
   };
+  return merger;
 }
 
 /**

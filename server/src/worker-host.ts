@@ -59,6 +59,19 @@ export const TAKE_IN_YOUNG_BYTES = 4 * 2 ** 20;
  */
 const WORKER_YOUNG_GENERATION_MB = 16;
 
+/**
+ * Runs `steps` to their end on this thread, giving queued editor requests a turn whenever a slice has run
+ * MERGE_SLICE_MS (the clock read at each step); the first slice began at `started`.
+ */
+async function inSlices(steps: Iterable<void>, started = performance.now()): Promise<void> {
+  let slice = started;
+  for (const _ of steps) {
+    if (performance.now() - slice < MERGE_SLICE_MS) continue;
+    await new Promise((r) => setImmediate(r));
+    slice = performance.now();
+  }
+}
+
 /** Thrown when a request was abandoned because the worker was restarted. */
 export class WorkerRestartedError extends Error {}
 
@@ -259,8 +272,11 @@ export class WorkerHost {
         stopIfSuperseded(index);
         for (const _ of merge(index, part));
       });
-    } else await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
-    merger.finish();
+      merger.finish();
+    } else {
+      await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
+      await inSlices(merger.finishSteps());
+    }
     this.analysisIds.set(analysis, msg.id);
     return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0 };
   }
@@ -299,14 +315,10 @@ export class WorkerHost {
       const part = await inFlight.shift()!;
       refill();
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
-      let slice = performance.now();
+      const started = performance.now();
       // Within this slice's budget, a short collection now rather than a long one inside some later task.
       collectYoungGenerationPast(TAKE_IN_YOUNG_BYTES);
-      for (const _ of merge(index, part.part)) {
-        if (performance.now() - slice < MERGE_SLICE_MS) continue;
-        await new Promise((r) => setImmediate(r));
-        slice = performance.now();
-      }
+      await inSlices(merge(index, part.part), started);
       if (index === msg.findingParts - 1) onFindings?.(msg.analysis);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));

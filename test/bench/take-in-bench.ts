@@ -135,9 +135,15 @@ function takeIn(sent: Sent, held: Analysis | undefined, tasks: Task[]): Analysis
     clock.end(label);
   });
   clock.reset();
-  merger.finish();
+  let label = 'finish (index rows, name tables), the first slice';
+  for (const _ of merger.finishSteps()) {
+    if (clock.elapsed() < MERGE_SLICE_MS) continue;
+    clock.end(label);
+    label = 'finish, a later slice';
+  }
+  clock.end(label);
   adoptKeptCards(analysis);
-  clock.end('finish (index, name tables) and adoption');
+  clock.end('adoption (the kept cards moved)');
   indexOf(analysis);
   prepareHover(analysis);
   clock.end('hover tables (indexOf, prepareHover)');

@@ -534,11 +534,13 @@ class Elaborator {
       );
       return;
     }
-    const nodes: number[] = [];
-    for (const t of card.nodes) {
-      const k = this.node(t, inst, uri);
+    // Sized to its count: a list grown by push from empty reserves 17 slots, which the circuit the worker keeps
+    // after an analysis held as 6 MB of nothing over 50,000 elements.
+    const nodes = new Array<number>(card.nodes.length);
+    for (let i = 0; i < card.nodes.length; i++) {
+      const k = this.node(card.nodes[i]!, inst, uri);
       if (k === undefined) return;
-      nodes.push(k);
+      nodes[i] = k;
     }
     const params = this.elementParams(card, uri);
     const name = inst.prefix + card.name.text;
