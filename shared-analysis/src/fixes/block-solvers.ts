@@ -3,7 +3,7 @@
 import type { Circuit } from '../circuit';
 import { nameTable } from '../names';
 import { DcSolver, type DcSolveResult } from '../solve/dc';
-import { lazyPoint, pointVectors } from '../solve/point';
+import { lazyPoint, pointVectors, type PointVectors } from '../solve/point';
 import type { DeviceRecord, OperatingPoint, SolveOptions } from '../solve/types';
 
 /** What a sizing solves on: a prepared solver of the block, or one shared with an equal block under its names. */
@@ -118,20 +118,61 @@ function renamedSolver(solver: DcSolver, first: Circuit, block: Circuit): BlockS
 function renamedPoint(op: OperatingPoint, first: Circuit, block: Circuit, blockName: Map<string, string>): OperatingPoint {
   const v = pointVectors(op);
   if (!v) throw new Error('a solver result without its vectors');
-  const nodeEntries = function* (): Iterable<[string, number]> {
-    for (let i = 0; i < block.nodes.length; i++) yield [block.nodes[i], v.volts[i]];
-  };
-  const deviceEntries = function* (): Iterable<[string, DeviceRecord]> {
-    for (const [name, record] of v.deviceEntries()) yield [blockName.get(name) ?? name, record];
-  };
-  const build = () => {
+  const renamed = new RenamedVectors(v, block, blockName);
+  const point = lazyPoint(op, renamed, () => renamed.tables());
+  if (op.tiedNodes) point.tiedNodes = op.tiedNodes.map((name) => block.nodes[first.nodes.indexOf(name)] ?? name);
+  return point;
+}
+
+/**
+ * A shared solver's vectors read under another block's names: by index they are the same (the blocks are equal but
+ * for names), so those readers pass through; the entries and tables carry `block`'s names. Methods of a class rather
+ * than closures per point: sizing renames a point at every solve on a shared solver.
+ */
+class RenamedVectors implements PointVectors {
+  readonly volts: Float64Array;
+
+  constructor(
+    private readonly v: PointVectors,
+    private readonly block: Circuit,
+    private readonly blockName: Map<string, string>,
+  ) {
+    this.volts = v.volts;
+  }
+
+  record(e: number): DeviceRecord | undefined {
+    return this.v.record(e);
+  }
+
+  type(e: number): DeviceRecord['type'] | undefined {
+    return this.v.type(e);
+  }
+
+  value(e: number, quantity: string): number | undefined {
+    return this.v.value(e, quantity);
+  }
+
+  quantity(e: number, q: number): number | undefined {
+    return this.v.quantity(e, q);
+  }
+
+  region(e: number): string | undefined {
+    return this.v.region(e);
+  }
+
+  *nodeEntries(): Iterable<[string, number]> {
+    for (let i = 0; i < this.block.nodes.length; i++) yield [this.block.nodes[i], this.volts[i]];
+  }
+
+  *deviceEntries(): Iterable<[string, DeviceRecord]> {
+    for (const [name, record] of this.v.deviceEntries()) yield [this.blockName.get(name) ?? name, record];
+  }
+
+  tables(): { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } {
     const nodes: Record<string, number> = nameTable();
-    for (const [name, volts] of nodeEntries()) nodes[name] = volts;
+    for (const [name, volts] of this.nodeEntries()) nodes[name] = volts;
     const devices: Record<string, DeviceRecord> = nameTable();
-    for (const [name, record] of deviceEntries()) devices[name] = record;
+    for (const [name, record] of this.deviceEntries()) devices[name] = record;
     return { nodes, devices };
-  };
-  const renamed = lazyPoint(op, { volts: v.volts, record: v.record, type: v.type, value: v.value, quantity: v.quantity, region: v.region, nodeEntries, deviceEntries }, build);
-  if (op.tiedNodes) renamed.tiedNodes = op.tiedNodes.map((name) => block.nodes[first.nodes.indexOf(name)] ?? name);
-  return renamed;
+  }
 }

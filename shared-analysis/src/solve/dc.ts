@@ -16,9 +16,10 @@ import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
 import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
 import type { FloatingGroup, ResistanceOf, VoltageLoop } from './topology';
 import { findFloatingGroups, findVoltageLoops } from './topology';
-import type { DeviceRecord, Fallback, OperatingPoint, SolveOptions, TwoTerminalRecord } from './types';
+import type { Fallback, OperatingPoint, SolveOptions } from './types';
 import { pushAll } from '../arrays';
 import { lazyPoint, pointVectors } from './point';
+import { RECORD_LIMIT, SolvedVectors, type RecordShapes } from './solved-point';
 import { nameTable } from '../names';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
@@ -105,9 +106,6 @@ interface ResistancePlan {
 
 /** Parameters more than this many decades from 1 (IS and KP relative to their defaults) are reported as out of range. */
 const OUT_OF_RANGE_DECADES = 150;
-/** Largest magnitude written into a record; anything beyond is clamped and reported. */
-const RECORD_LIMIT = 1e300;
-
 /**
  * Quantity name -> position in a kind's columns, as an ordinary object with the kind's quantities as
  * its own properties in their order: a measurement reads it with a name fixed in its code, which the
@@ -120,11 +118,6 @@ function quantityPositions(kind: DeviceKind): Record<string, number> {
     positions[q] = i;
   });
   return positions;
-}
-
-/** The record type of a two-terminal element (one read through `readers`, not a device kind's). */
-function twoTerminalType(kind: Element['kind']): TwoTerminalRecord['type'] {
-  return kind === 'R' ? 'resistor' : kind === 'V' ? 'voltage-source' : kind === 'I' ? 'current-source' : kind === 'L' ? 'inductor' : kind === 'C' ? 'capacitor' : 'controlled-source';
 }
 
 /** Whether every entry of `v` is a finite number (a loop: `every` with a callback cost a call per unknown at every corner). */
@@ -160,13 +153,6 @@ const now: () => number = (() => {
   return perf ? () => perf.now() : () => Date.now();
 })();
 
-/** Whether every element of the circuit has its own name (as the name-keyed tables need). */
-function hasUniqueNames(circuit: Circuit): boolean {
-  const seen = new Set<string>();
-  for (const el of circuit.elements) seen.add(el.name);
-  return seen.size === circuit.elements.length;
-}
-
 /**
  * A circuit prepared for repeated DC solves. The constructor builds the unknown
  * numbering, the sparsity pattern, the linear stamps, the structural checks and the
@@ -188,9 +174,6 @@ export class DcSolver {
   private conductanceOverride = new Map<number, number>();
   /** Resistors with a temperature coefficient, scaled at every solve. */
   private readonly tcResistors: number[] = [];
-  private namesUnique: boolean | undefined;
-  /** Whether every element of the circuit has its own name (worked out on first use). */
-  private readonly uniqueNames = (): boolean => (this.namesUnique ??= hasUniqueNames(this.circuit));
   /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
   private readonly elementSlot: Int32Array;
   /** The device tables as the netlist gives them; a solve with `deviceParameters` swaps rebuilt ones in for its duration. */
@@ -198,16 +181,13 @@ export class DcSolver {
   private tablesVaried = false;
   /** Element index -> position in `layout.deviceOrder` (built on first use). */
   private deviceIndex: Map<number, number> | undefined;
-  /** Per table, quantity name -> column: what a measurement's `value` reads at every corner, resolved without a look-up per kind. */
-  private readonly quantityColumns: Record<string, number>[];
   /**
-   * Element index -> the type of its record, null for none; filled on first ask, since it depends on the
-   * layout only. A measurement asks it of every device at every corner, and building a record (or reading
-   * the element) for it cost more than the rest of the reading at 100,000 elements.
+   * What every point of this solver reads its records by: per table, quantity name -> column (what a measurement's
+   * `value` reads at every corner, resolved without a look-up per kind), and the record types of elements and tables,
+   * filled on first ask since they depend on the layout only (a measurement asks the type of every device at every
+   * corner, and building a record, or reading the element, for it cost more than the rest of the reading at 100,000 elements).
    */
-  private readonly recordTypes: (DeviceRecord['type'] | null | undefined)[];
-  /** Per device table, the type of its kind's records (the same for every instance), filled on first ask. */
-  private readonly tableRecordTypes: (DeviceRecord['type'] | undefined)[] = [];
+  private readonly shapes: RecordShapes;
   /** The Newton iterate of every solve (copied into the result). */
   private readonly iterate: Float64Array;
   /** The vectors of the last result solved with `reuseResult`, overwritten by the next such solve. */
@@ -216,8 +196,11 @@ export class DcSolver {
   constructor(private circuit: Circuit) {
     this.layout = new MnaLayout(circuit);
     this.nominalTables = [...this.layout.tables];
-    this.quantityColumns = this.layout.tables.map((t) => quantityPositions(t.kind));
-    this.recordTypes = new Array<undefined>(circuit.elements.length).fill(undefined);
+    this.shapes = {
+      quantityColumns: this.layout.tables.map((t) => quantityPositions(t.kind)),
+      recordTypes: new Array<undefined>(circuit.elements.length).fill(undefined),
+      tableRecordTypes: [],
+    };
     this.iterate = new Float64Array(this.layout.size);
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
@@ -792,10 +775,6 @@ export class DcSolver {
   ): OperatingPoint {
     const c = this.circuit;
     const { tables, deviceOrder, readers } = this.layout;
-    // The point's readers below outlive the solve: they take what they read from the solver now, so they do not
-    // keep the solver itself (its matrix and factors, tens of megabytes at 50,000 elements) alive with the point.
-    const { quantityColumns, recordTypes, tableRecordTypes } = this;
-    const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
     const volts = reuse ? (reuse.volts ??= new Float64Array(c.nodes.length)) : new Float64Array(c.nodes.length);
     // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
     const tv = reuse ? (reuse.tv ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
@@ -812,125 +791,15 @@ export class DcSolver {
     // A record's numbers are its columns' (`DeviceKind.record`): with every column in range there is nothing to clamp.
     // A reused result's columns are overwritten by the next solve, so its records are always looked over.
     const clampsRecords = reuse !== undefined || !columnsInRange;
-
-    const slot = this.elementSlot;
-    const twoTerminal = (k: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
-      const r = readers[k];
-      const el = c.elements[r.element];
-      const type = twoTerminalType(el.kind);
-      const voltage = tv[k];
-      const current = ti[k];
-      const power = voltage * current;
-      return inRange(current) && inRange(voltage) && inRange(power)
-        ? { type, current, voltage, power }
-        : {
-            type,
-            current: clamp(current, () => `current of ${el.name}`),
-            voltage: clamp(voltage, () => `voltage of ${el.name}`),
-            power: clamp(power, () => `power of ${el.name}`),
-          };
-    };
-    const device = (d: number, clamp: (val: number, where: () => string) => number): DeviceRecord => {
-      const table = tables[deviceOrder.table[d]];
-      const name = c.elements[deviceOrder.element[d]].name;
-      const rec = table.kind.record(columns[deviceOrder.table[d]], table.instances, deviceOrder.instance[d]) as unknown as Record<string, unknown>;
-      if (!clampsRecords) return rec as unknown as DeviceRecord;
-      for (const k in rec) {
-        const val = rec[k];
-        if (typeof val === 'number' && !inRange(val)) rec[k] = clamp(val, () => `${k} of ${name}`);
-      }
-      return rec as unknown as DeviceRecord;
-    };
-    const quietClamp = (val: number): number => (inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT);
-    const record = (e: number): DeviceRecord | undefined => {
-      const k = e >= 0 && e < slot.length ? slot[e] : -1;
-      return k >= 0 ? twoTerminal(k, quietClamp) : k <= -2 ? device(-k - 2, quietClamp) : undefined;
-    };
-
+    // The point's vectors outlive the solve: they hold what they read, not the solver (its matrix and factors, tens of
+    // megabytes at 50,000 elements).
+    const vectors = new SolvedVectors(c, tables, deviceOrder, readers, this.elementSlot, this.shapes, { volts, tv, ti, columns }, clampsRecords);
     const overflowed: string[] = [];
     const overflowElements = new Set<number>();
-    const build = () => {
-      const nodes: Record<string, number> = nameTable();
-      c.nodes.forEach((name, i) => {
-        nodes[name] = volts[i];
-      });
-      const devices: Record<string, DeviceRecord> = nameTable();
-      // The label is built only on overflow.
-      const clamp = (val: number, where: () => string): number => {
-        if (inRange(val)) return val;
-        overflowed.push(where());
-        return quietClamp(val);
-      };
-      for (let k = 0; k < readers.length; k++) {
-        const before = overflowed.length;
-        devices[c.elements[readers[k].element].name] = twoTerminal(k, clamp);
-        if (overflowed.length > before) overflowElements.add(readers[k].element);
-      }
-      for (let d = 0; d < deviceOrder.element.length; d++) {
-        const before = overflowed.length;
-        devices[c.elements[deviceOrder.element[d]].name] = device(d, clamp);
-        if (overflowed.length > before) overflowElements.add(deviceOrder.element[d]);
-      }
-      return { nodes, devices };
-    };
-    const value = (e: number, quantity: string): number | undefined => {
-      const k = e >= 0 && e < slot.length ? slot[e] : -1;
-      if (k >= 0) {
-        const val = quantity === 'current' ? ti[k] : quantity === 'voltage' ? tv[k] : quantity === 'power' ? tv[k] * ti[k] : undefined;
-        return val === undefined ? undefined : quietClamp(val);
-      }
-      if (k === -1) return undefined;
-      const d = -k - 2;
-      const t = deviceOrder.table[d];
-      // An inherited name (`constructor`) reads as a function, not a number.
-      const q: unknown = quantityColumns[t][quantity];
-      return typeof q === 'number' ? quietClamp(columns[t].values[q][deviceOrder.instance[d]]) : undefined;
-    };
-    const quantity = (e: number, q: number): number | undefined => {
-      const k = e >= 0 && e < slot.length ? slot[e] : -1;
-      if (k > -2) return undefined;
-      const d = -k - 2;
-      const column = columns[deviceOrder.table[d]].values[q];
-      return column === undefined ? undefined : quietClamp(column[deviceOrder.instance[d]]);
-    };
-    // A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements).
-    const typeOf = (e: number): DeviceRecord['type'] | undefined => {
-      const k = slot[e];
-      if (k >= 0) return twoTerminalType(c.elements[readers[k].element].kind);
-      if (k === -1) return undefined;
-      const t = deviceOrder.table[-k - 2];
-      return (tableRecordTypes[t] ??= tables[t].kind.record(columns[t], tables[t].instances, deviceOrder.instance[-k - 2]).type);
-    };
-    const type = (e: number): DeviceRecord['type'] | undefined => {
-      if (!(e >= 0 && e < slot.length)) return undefined;
-      let known = recordTypes[e];
-      if (known === undefined) recordTypes[e] = known = typeOf(e) ?? null;
-      return known ?? undefined;
-    };
-    const region = (e: number): string | undefined => {
-      const k = e >= 0 && e < slot.length ? slot[e] : -1;
-      if (k > -2) return undefined;
-      const d = -k - 2;
-      const t = deviceOrder.table[d];
-      return tables[t].kind.regions[columns[t].region[deviceOrder.instance[d]]];
-    };
-    // Worked out here, not through the solver's cache: reading that would keep the solver alive with the point.
-    const unique = () => hasUniqueNames(c);
-    function* nodeEntries(): Iterable<[string, number]> {
-      for (let i = 0; i < c.nodes.length; i++) yield [c.nodes[i], volts[i]];
-    }
-    // With a name written twice the table keeps the first position and the last record: read the table then.
-    function* deviceEntries(): Iterable<[string, DeviceRecord]> {
-      if (!unique()) {
-        for (const [k, r] of Object.entries(op.devices)) yield [k, r];
-        return;
-      }
-      for (let k = 0; k < readers.length; k++) yield [c.elements[readers[k].element].name, twoTerminal(k, quietClamp)];
-      for (let d = 0; d < deviceOrder.element.length; d++) yield [c.elements[deviceOrder.element[d]].name, device(d, quietClamp)];
-    }
-    const op = lazyPoint(head, { volts, record, type, value, quantity, region, nodeEntries, deviceEntries }, build);
+    const op = lazyPoint(head, vectors, () => vectors.buildTables(overflowed, overflowElements));
+    vectors.point = op;
     if (overflow) {
-      for (let i = 1; i < c.nodes.length; i++) if (!inRange(x[i - 1])) overflowed.push(`node ${c.nodes[i]}`);
+      for (let i = 1; i < c.nodes.length; i++) if (!(Math.abs(x[i - 1]) <= RECORD_LIMIT)) overflowed.push(`node ${c.nodes[i]}`);
       void op.devices;
       if (overflowed.length > 0) {
         const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();

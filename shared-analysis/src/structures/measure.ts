@@ -6,7 +6,7 @@ import { TECHNOLOGIES } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
 import { nameTable } from '../names';
-import { pointVectors } from '../solve/point';
+import { pointVectors, type PointVectors } from '../solve/point';
 import { BJT } from '../devices/bjt';
 import { DIODE } from '../devices/diode';
 import { JFET } from '../devices/jfet';
@@ -349,11 +349,7 @@ export interface PointIndexReader {
 export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
   const elements = topo.circuit.elements;
   const vec = pointVectors(op);
-  if (vec) {
-    const volts = vec.volts;
-    // The vectors' own readers (closures over the solver's arrays), not a wrapper around each: one call less per read.
-    return { volts: (node) => (node >= 0 ? volts[node] : undefined), type: vec.type, num: vec.value, quantity: vec.quantity, region: vec.region };
-  }
+  if (vec) return new VectorReader(vec);
   const devices = op.devices;
   const rec = (e: number) => (elements[e] ? devices[elements[e].name] : undefined);
   const num = (e: number, q: string): number | undefined => {
@@ -374,6 +370,34 @@ export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
       return r && 'region' in r ? r.region : undefined;
     },
   };
+}
+
+/**
+ * A point read through the solver's vectors. Its methods are one class's, the same functions at every point:
+ * a measurement compiled for the readers of one corner's point then keeps its code at the next corner's.
+ */
+class VectorReader implements PointIndexReader {
+  constructor(private readonly vec: PointVectors) {}
+
+  volts(node: number): number | undefined {
+    return node >= 0 ? this.vec.volts[node] : undefined;
+  }
+
+  type(e: number): DeviceRecord['type'] | undefined {
+    return this.vec.type(e);
+  }
+
+  num(e: number, quantity: string): number | undefined {
+    return this.vec.value(e, quantity);
+  }
+
+  quantity(e: number, q: number): number | undefined {
+    return this.vec.quantity(e, q);
+  }
+
+  region(e: number): string | undefined {
+    return this.vec.region(e);
+  }
 }
 
 function finite(x: number | undefined): number {

@@ -2,6 +2,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { DcSolver } from '../../../shared-analysis/src/solve/dc';
+import { BJT } from '../../../shared-analysis/src/devices/bjt';
 import { deviceKindOf } from '../../../shared-analysis/src/devices/registry';
 import { collectGarbage } from '../../../server/src/collect';
 import { namedPointReader, pointReader, pointVectors } from '../../../shared-analysis/src/solve/point';
@@ -126,6 +127,29 @@ describe('operating point vectors', () => {
       c.elements.forEach((el, e) => expect(op.devices[el.name]).toEqual(v.record(e)));
     }
     expect(hot.nodes['r1']).not.toBe(cold.nodes['r1']);
+  });
+
+  it('read every point through the same reader functions, each point its own values', () => {
+    const c = circuit(SPECS);
+    const solver = new DcSolver(c);
+    const points = [-40, 27, 125].map((temperatureC) => solver.solve({ temperatureC }).op);
+    const vectors = points.map((op) => pointVectors(op)!);
+    // One function per reader for every point (closures made per point gave a measurement compiled for one corner's
+    // readers a call target the next corner's did not match).
+    for (const reader of ['record', 'type', 'value', 'quantity', 'region', 'nodeEntries', 'deviceEntries'] as const) {
+      expect(new Set(vectors.map((v) => v[reader])).size, reader).toBe(1);
+    }
+    // Each point still reads its own solve: the collector current of QO1 against its record in that point's own table,
+    // and the three temperatures give three different currents.
+    const e = c.elements.findIndex((el) => el.name === 'QO1');
+    const ic = BJT.quantities.indexOf('ic');
+    const readCurrents = points.map((op, k) => {
+      const viaReader = readerOf(op, topologyOf(c)).quantity(e, ic);
+      expect(viaReader).toBe((op.devices['QO1'] as { ic: number }).ic);
+      expect(vectors[k].value(e, 'ic')).toBe(viaReader);
+      return viaReader;
+    });
+    expect(new Set(readCurrents).size).toBe(3);
   });
 
   it('measure every structure by index exactly as from a copied point read by name', () => {

@@ -1,0 +1,219 @@
+// One solved operating point read by index: the vectors a solve filled, and its records made from them when asked.
+
+import type { Circuit, Element } from '../circuit';
+import type { DeviceColumns, DeviceTable } from '../devices/device';
+import { nameTable } from '../names';
+import type { DeviceOrder, LinearReader } from './mna';
+import type { PointVectors } from './point';
+import type { DeviceRecord, OperatingPoint, TwoTerminalRecord } from './types';
+
+/** Largest magnitude written into a record; anything beyond is clamped and reported. */
+export const RECORD_LIMIT = 1e300;
+
+/** How a value past ±RECORD_LIMIT is written: `clamp(value, where)` gets the label made only when it clamps. */
+export type Clamp = (val: number, where: () => string) => number;
+
+function inRange(val: number): boolean {
+  return Math.abs(val) <= RECORD_LIMIT;
+}
+
+/** `val` within ±RECORD_LIMIT, NaN as 0, without saying so. */
+export function quietClamp(val: number): number {
+  return inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
+}
+
+/** The record type of a two-terminal element (one read through `readers`, not a device kind's). */
+function twoTerminalType(kind: Element['kind']): TwoTerminalRecord['type'] {
+  return kind === 'R' ? 'resistor' : kind === 'V' ? 'voltage-source' : kind === 'I' ? 'current-source' : kind === 'L' ? 'inductor' : kind === 'C' ? 'capacitor' : 'controlled-source';
+}
+
+/** Whether every element of the circuit has its own name (as the name-keyed tables need). */
+export function hasUniqueNames(circuit: Circuit): boolean {
+  const seen = new Set<string>();
+  for (const el of circuit.elements) seen.add(el.name);
+  return seen.size === circuit.elements.length;
+}
+
+/** What a solver keeps for every point it makes: the quantity positions per table and the record types, filled on first ask. */
+export interface RecordShapes {
+  /** Per table, quantity name -> column (see `quantityPositions` in dc.ts). */
+  quantityColumns: readonly Record<string, number>[];
+  /** Element index -> the type of its record, null for none, undefined until asked. */
+  recordTypes: (DeviceRecord['type'] | null | undefined)[];
+  /** Per device table, the type of its kind's records, undefined until asked. */
+  tableRecordTypes: (DeviceRecord['type'] | undefined)[];
+}
+
+/** The vectors one solve filled: node voltages, two-terminal voltages and currents (reader k at k), and every table's columns. */
+export interface SolvedValues {
+  volts: Float64Array;
+  tv: Float64Array;
+  ti: Float64Array;
+  columns: DeviceColumns[];
+}
+
+/**
+ * A solved point's `PointVectors`. Its readers are methods of one class, the same functions for every
+ * point: closures made per point allocated a dozen functions a solve (sizing makes thousands of small
+ * solves), and a reader compiled for one point's closure gave up its code when the next corner's came.
+ * It holds what it reads (the circuit, the tables, the vectors), not the solver, so a kept point does
+ * not keep the solver's matrix and factors alive.
+ */
+export class SolvedVectors implements PointVectors {
+  readonly volts: Float64Array;
+  /** The point these vectors are read through, set once it is made: with a name written twice, its table is what is listed. */
+  point: OperatingPoint | undefined;
+
+  constructor(
+    private readonly circuit: Circuit,
+    private readonly tables: readonly DeviceTable[],
+    private readonly deviceOrder: DeviceOrder,
+    private readonly readers: readonly LinearReader[],
+    /** Circuit element -> where its record comes from: reader k (k ≥ 0), device-order entry d (−2 − d), or none (−1). */
+    private readonly slot: Int32Array,
+    private readonly shapes: RecordShapes,
+    private readonly values: SolvedValues,
+    /** Whether a device record is looked over for values past ±RECORD_LIMIT (its columns are not all in range, or are overwritten later). */
+    private readonly clampsRecords: boolean,
+  ) {
+    this.volts = values.volts;
+  }
+
+  /** Reader k's record, with `clamp` applied to each number past ±RECORD_LIMIT. */
+  twoTerminal(k: number, clamp: Clamp): DeviceRecord {
+    const el = this.circuit.elements[this.readers[k].element];
+    const type = twoTerminalType(el.kind);
+    const voltage = this.values.tv[k];
+    const current = this.values.ti[k];
+    const power = voltage * current;
+    return inRange(current) && inRange(voltage) && inRange(power)
+      ? { type, current, voltage, power }
+      : {
+          type,
+          current: clamp(current, () => `current of ${el.name}`),
+          voltage: clamp(voltage, () => `voltage of ${el.name}`),
+          power: clamp(power, () => `power of ${el.name}`),
+        };
+  }
+
+  /** Device-order entry d's record, with `clamp` applied to each number past ±RECORD_LIMIT. */
+  device(d: number, clamp: Clamp): DeviceRecord {
+    const { deviceOrder } = this;
+    const t = deviceOrder.table[d];
+    const table = this.tables[t];
+    const rec = table.kind.record(this.values.columns[t], table.instances, deviceOrder.instance[d]) as unknown as Record<string, unknown>;
+    if (!this.clampsRecords) return rec as unknown as DeviceRecord;
+    const name = this.circuit.elements[deviceOrder.element[d]].name;
+    for (const k in rec) {
+      const val = rec[k];
+      if (typeof val === 'number' && !inRange(val)) rec[k] = clamp(val, () => `${k} of ${name}`);
+    }
+    return rec as unknown as DeviceRecord;
+  }
+
+  /** Where element e's record comes from (see `slot`), −1 for an index outside the circuit. */
+  private slotOf(e: number): number {
+    return e >= 0 && e < this.slot.length ? this.slot[e] : -1;
+  }
+
+  record(e: number): DeviceRecord | undefined {
+    const k = this.slotOf(e);
+    return k >= 0 ? this.twoTerminal(k, quietClamp) : k <= -2 ? this.device(-k - 2, quietClamp) : undefined;
+  }
+
+  value(e: number, quantity: string): number | undefined {
+    const k = this.slotOf(e);
+    if (k >= 0) {
+      const { tv, ti } = this.values;
+      const val = quantity === 'current' ? ti[k] : quantity === 'voltage' ? tv[k] : quantity === 'power' ? tv[k] * ti[k] : undefined;
+      return val === undefined ? undefined : quietClamp(val);
+    }
+    if (k === -1) return undefined;
+    const d = -k - 2;
+    const t = this.deviceOrder.table[d];
+    // An inherited name (`constructor`) reads as a function, not a number.
+    const q: unknown = this.shapes.quantityColumns[t][quantity];
+    return typeof q === 'number' ? quietClamp(this.values.columns[t].values[q][this.deviceOrder.instance[d]]) : undefined;
+  }
+
+  quantity(e: number, q: number): number | undefined {
+    const k = this.slotOf(e);
+    if (k > -2) return undefined;
+    const d = -k - 2;
+    const column = this.values.columns[this.deviceOrder.table[d]].values[q];
+    return column === undefined ? undefined : quietClamp(column[this.deviceOrder.instance[d]]);
+  }
+
+  type(e: number): DeviceRecord['type'] | undefined {
+    if (!(e >= 0 && e < this.slot.length)) return undefined;
+    const types = this.shapes.recordTypes;
+    let known = types[e];
+    if (known === undefined) types[e] = known = this.typeOf(e) ?? null;
+    return known ?? undefined;
+  }
+
+  /** A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements). */
+  private typeOf(e: number): DeviceRecord['type'] | undefined {
+    const k = this.slot[e];
+    if (k >= 0) return twoTerminalType(this.circuit.elements[this.readers[k].element].kind);
+    if (k === -1) return undefined;
+    const d = -k - 2;
+    const t = this.deviceOrder.table[d];
+    const tables = this.tables;
+    return (this.shapes.tableRecordTypes[t] ??= tables[t].kind.record(this.values.columns[t], tables[t].instances, this.deviceOrder.instance[d]).type);
+  }
+
+  region(e: number): string | undefined {
+    const k = this.slotOf(e);
+    if (k > -2) return undefined;
+    const d = -k - 2;
+    const t = this.deviceOrder.table[d];
+    return this.tables[t].kind.regions[this.values.columns[t].region[this.deviceOrder.instance[d]]];
+  }
+
+  *nodeEntries(): Iterable<[string, number]> {
+    const { circuit, volts } = this;
+    for (let i = 0; i < circuit.nodes.length; i++) yield [circuit.nodes[i], volts[i]];
+  }
+
+  /** With a name written twice the table keeps the first position and the last record: the point's table is read then. */
+  *deviceEntries(): Iterable<[string, DeviceRecord]> {
+    const { circuit, readers, deviceOrder } = this;
+    if (!hasUniqueNames(circuit) && this.point) {
+      for (const [k, r] of Object.entries(this.point.devices)) yield [k, r];
+      return;
+    }
+    for (let k = 0; k < readers.length; k++) yield [circuit.elements[readers[k].element].name, this.twoTerminal(k, quietClamp)];
+    for (let d = 0; d < deviceOrder.element.length; d++) yield [circuit.elements[deviceOrder.element[d]].name, this.device(d, quietClamp)];
+  }
+
+  /**
+   * The `nodes` and `devices` tables. Each number past ±RECORD_LIMIT is clamped, and what it was is added to
+   * `overflowed` (`current of R1`); the elements whose records had one are added to `clamped`.
+   */
+  buildTables(overflowed: string[], clamped: Set<number>): { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } {
+    const { circuit, readers, deviceOrder, volts } = this;
+    const nodes: Record<string, number> = nameTable();
+    circuit.nodes.forEach((name, i) => {
+      nodes[name] = volts[i];
+    });
+    // The label is built only on overflow.
+    const clamp: Clamp = (val, where) => {
+      if (inRange(val)) return val;
+      overflowed.push(where());
+      return quietClamp(val);
+    };
+    const devices: Record<string, DeviceRecord> = nameTable();
+    for (let k = 0; k < readers.length; k++) {
+      const before = overflowed.length;
+      devices[circuit.elements[readers[k].element].name] = this.twoTerminal(k, clamp);
+      if (overflowed.length > before) clamped.add(readers[k].element);
+    }
+    for (let d = 0; d < deviceOrder.element.length; d++) {
+      const before = overflowed.length;
+      devices[circuit.elements[deviceOrder.element[d]].name] = this.device(d, clamp);
+      if (overflowed.length > before) clamped.add(deviceOrder.element[d]);
+    }
+    return { nodes, devices };
+  }
+}
