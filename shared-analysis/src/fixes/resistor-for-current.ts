@@ -425,7 +425,7 @@ export function affectedBlock(circuit: Circuit, resistor: Resistor, mustHold: st
 }
 
 /** The answers of the block being sized (`keptSolves`); another block's first solve empties them. */
-let keptInUse: Map<string, unknown> | undefined;
+let keptInUse: Map<Float64Array | undefined, Map<string, DcSolveResult>> | undefined;
 
 /** What a sizing solves on: a solver, or a block's solver that keeps its answers (`keptSolves`). */
 export type Solves = Pick<DcSolver, 'solve'>;
@@ -448,7 +448,9 @@ const blocks = new WeakMap<Circuit, Map<string, { circuit: Circuit; solver: Solv
  * than the repeated solves cost.
  */
 function keptSolves(solver: BlockSolver, start: { x: Float64Array; temperatureC: number } | undefined): Solves {
-  const kept = new Map<string, DcSolveResult>();
+  // By the start's very array, then by temperature and resistances. (A number per start in a WeakMap, made for every
+  // trial's solution, cost the collector more than the look-up saved: this map is emptied with the block's answers.)
+  const kept = new Map<Float64Array | undefined, Map<string, DcSolveResult>>();
   return {
     solve: (asked = {}) => {
       if (keptInUse !== kept) {
@@ -460,9 +462,11 @@ function keptSolves(solver: BlockSolver, start: { x: Float64Array; temperatureC:
       const options = fromPoint ? { ...asked, initialGuess: start.x } : asked;
       const { temperatureC, resistances, initialGuess, ...rest } = options;
       if (Object.keys(rest).length > 0) return solver.solve(options);
-      const key = `${String(temperatureC)}|${objectId(initialGuess)}|${JSON.stringify(resistances ?? {})}`;
-      let result = kept.get(key);
-      if (!result) kept.set(key, (result = solver.solve(options)));
+      let fromStart = kept.get(initialGuess);
+      if (!fromStart) kept.set(initialGuess, (fromStart = new Map()));
+      const key = `${String(temperatureC)}|${JSON.stringify(resistances ?? {})}`;
+      let result = fromStart.get(key);
+      if (!result) fromStart.set(key, (result = solver.solve(options)));
       return result;
     },
   };

@@ -19,7 +19,7 @@ import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { Fallback, OperatingPoint, SolveOptions } from './types';
 import { pushAll } from '../arrays';
 import { lazyPoint, pointVectors } from './point';
-import { RECORD_LIMIT, SolvedVectors, type RecordShapes } from './solved-point';
+import { RECORD_LIMIT, SolvedVectors, type Clamped, type RecordShapes } from './solved-point';
 import { nameTable } from '../names';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
@@ -794,15 +794,17 @@ export class DcSolver {
     // The point's vectors outlive the solve: they hold what they read, not the solver (its matrix and factors, tens of
     // megabytes at 50,000 elements).
     const vectors = new SolvedVectors(c, tables, deviceOrder, readers, this.elementSlot, this.shapes, { volts, tv, ti, columns }, clampsRecords);
-    const overflowed: string[] = [];
-    const overflowElements = new Set<number>();
-    const op = lazyPoint(head, vectors, () => vectors.buildTables(overflowed, overflowElements));
+    // What the tables clamp is collected only where the solve names it (an overflow); a later first read clamps quietly.
+    let collected: Clamped | undefined;
+    const op = lazyPoint(head, vectors, () => vectors.buildTables(collected));
     vectors.point = op;
     if (overflow) {
+      const overflowed: string[] = [];
       for (let i = 1; i < c.nodes.length; i++) if (!(Math.abs(x[i - 1]) <= RECORD_LIMIT)) overflowed.push(`node ${c.nodes[i]}`);
+      const clamped = (collected = { overflowed, elements: new Set<number>() }).elements;
       void op.devices;
       if (overflowed.length > 0) {
-        const idx = overflowElements.size > 0 ? [...overflowElements][0] : this.mostExtremeElement();
+        const idx = clamped.size > 0 ? [...clamped][0] : this.mostExtremeElement();
         findings.push(
           this.elementFinding(
             'dc-value-overflow',

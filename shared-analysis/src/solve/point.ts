@@ -37,11 +37,28 @@ export interface PointVectors {
   deviceEntries(): Iterable<[string, DeviceRecord]>;
 }
 
-const vectors = new WeakMap<OperatingPoint, PointVectors>();
+type PointTables = { nodes: Record<string, number>; devices: Record<string, DeviceRecord> };
+
+/** What a lazy point keeps beside its fields: its vectors, how to build its tables, and the tables once built. */
+interface PointState {
+  v: PointVectors;
+  build: () => PointTables;
+  built?: PointTables;
+}
+
+/**
+ * Where a lazy point keeps its `PointState`: a property keyed by a symbol and not enumerable, which JSON, spreading,
+ * `Object.keys` and structured cloning all leave out (a copy of a point has none, and is read by its names). Two
+ * WeakMaps held it before; an entry in one cost about as much as the rest of making a point, and sizing makes about
+ * 16,000 points for 1,000 targets.
+ */
+const STATE: unique symbol = Symbol('lazy point state');
+
+type StatefulPoint = OperatingPoint & { readonly [STATE]?: PointState };
 
 /** The vectors behind a point the solver returned, or undefined for a point built by hand (tests) or copied (JSON, another thread). */
 export function pointVectors(op: OperatingPoint): PointVectors | undefined {
-  return vectors.get(op);
+  return (op as StatefulPoint)[STATE]?.v;
 }
 
 /** What reads a point by index: the solver's vectors when the point has them, the name-keyed tables otherwise. */
@@ -52,7 +69,7 @@ export interface PointReader {
 
 /** A reader of `op`, a point of `circuit`: by index when the solver's vectors are there, by name otherwise. */
 export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
-  const v = vectors.get(op);
+  const v = pointVectors(op);
   if (v) {
     const volts = v.volts;
     return { volts: (node) => (node >= 0 && node < volts.length ? volts[node] : 0), record: (e) => v.record(e) };
@@ -71,14 +88,9 @@ export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
 /** The properties `lazyPoint` builds on first read. */
 const POINT_TABLES = ['nodes', 'devices'];
 
-type PointTables = { nodes: Record<string, number>; devices: Record<string, DeviceRecord> };
-
-/** Per lazy point: how to build its tables, and the tables once built. */
-const pending = new WeakMap<OperatingPoint, { build: () => PointTables; built?: PointTables }>();
-
 /** The tables of lazy point `op`, built on the first read of either. */
 function tablesOf(op: OperatingPoint): PointTables {
-  const state = pending.get(op)!;
+  const state = (op as StatefulPoint)[STATE]!;
   return (state.built ??= state.build());
 }
 
@@ -114,11 +126,11 @@ const DEVICES_TABLE = tableAccessor('devices');
  */
 export function lazyPoint(head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] }, v: PointVectors, build: () => PointTables): OperatingPoint {
   const op = { converged: head.converged, temperatureC: head.temperatureC, iterations: head.iterations, fallbacks: head.fallbacks } as OperatingPoint;
-  pending.set(op, { build });
+  const state: PointState = { v, build };
+  Object.defineProperty(op, STATE, { value: state });
   Object.defineProperty(op, 'nodes', NODES_TABLE);
   Object.defineProperty(op, 'devices', DEVICES_TABLE);
   markLazyTables(op, POINT_TABLES);
-  vectors.set(op, v);
   return op;
 }
 
@@ -134,7 +146,7 @@ export interface NamedPointReader {
  * otherwise, and when two elements share a name (the table then holds the record its build order leaves last).
  */
 export function namedPointReader(op: OperatingPoint, names: { circuit: Circuit; nodeIndex: ReadonlyMap<string, number>; elementIndex: ReadonlyMap<string, number> }): NamedPointReader {
-  const v = vectors.get(op);
+  const v = pointVectors(op);
   if (!v || names.elementIndex.size !== names.circuit.elements.length) return { volts: (node) => op.nodes[node], record: (element) => op.devices[element] };
   return {
     volts: (node) => {

@@ -17,6 +17,12 @@ function inRange(val: number): boolean {
   return Math.abs(val) <= RECORD_LIMIT;
 }
 
+/** What clamping a point's tables found: each value clamped (`current of R1`), and the elements whose records had one. */
+export interface Clamped {
+  overflowed: string[];
+  elements: Set<number>;
+}
+
 /** `val` within ±RECORD_LIMIT, NaN as 0, without saying so. */
 export function quietClamp(val: number): number {
   return inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
@@ -187,32 +193,30 @@ export class SolvedVectors implements PointVectors {
     for (let d = 0; d < deviceOrder.element.length; d++) yield [circuit.elements[deviceOrder.element[d]].name, this.device(d, quietClamp)];
   }
 
-  /**
-   * The `nodes` and `devices` tables. Each number past ±RECORD_LIMIT is clamped, and what it was is added to
-   * `overflowed` (`current of R1`); the elements whose records had one are added to `clamped`.
-   */
-  buildTables(overflowed: string[], clamped: Set<number>): { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } {
+  /** The `nodes` and `devices` tables, each number past ±RECORD_LIMIT clamped, and told to `collected` when given. */
+  buildTables(collected?: Clamped): { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } {
     const { circuit, readers, deviceOrder, volts } = this;
     const nodes: Record<string, number> = nameTable();
     circuit.nodes.forEach((name, i) => {
       nodes[name] = volts[i];
     });
+    const overflowed = collected?.overflowed ?? [];
     // The label is built only on overflow.
     const clamp: Clamp = (val, where) => {
       if (inRange(val)) return val;
-      overflowed.push(where());
+      if (collected) overflowed.push(where());
       return quietClamp(val);
     };
     const devices: Record<string, DeviceRecord> = nameTable();
     for (let k = 0; k < readers.length; k++) {
       const before = overflowed.length;
       devices[circuit.elements[readers[k].element].name] = this.twoTerminal(k, clamp);
-      if (overflowed.length > before) clamped.add(readers[k].element);
+      if (overflowed.length > before) collected?.elements.add(readers[k].element);
     }
     for (let d = 0; d < deviceOrder.element.length; d++) {
       const before = overflowed.length;
       devices[circuit.elements[deviceOrder.element[d]].name] = this.device(d, clamp);
-      if (overflowed.length > before) clamped.add(deviceOrder.element[d]);
+      if (overflowed.length > before) collected?.elements.add(deviceOrder.element[d]);
     }
     return { nodes, devices };
   }

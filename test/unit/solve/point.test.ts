@@ -105,6 +105,13 @@ describe('operating point vectors', () => {
     expect(structuredClone(op).devices).toEqual(op.devices);
     // A copy has no vectors; the reader falls back to the names.
     expect(pointVectors(copy)).toBeUndefined();
+    // Neither has a spread copy or a structured clone: what a point keeps beside its fields is not enumerable.
+    const spread = { ...op };
+    expect(Object.keys(spread)).toEqual(Object.keys(copy));
+    expect(Object.keys(op)).toEqual(Object.keys(copy));
+    expect(pointVectors(spread)).toBeUndefined();
+    expect(pointVectors(structuredClone(op))).toBeUndefined();
+    expect(pointVectors(op)).toBeDefined();
   });
 
   it('let a caller replace a table', () => {
