@@ -235,10 +235,11 @@ function implausibleCurrents(ctx: PlausibilityContext): Finding[] {
   for (let e = 0; e < elements.length; e++) {
     const el = elements[e]!;
     if (el.kind !== 'Q' && el.kind !== 'M' && el.kind !== 'D' && el.kind !== 'J') continue;
-    const limit = powerLimit(el, ctx.options);
-    if (limit && limit.from !== 'setting') continue; // a rated power part may carry amperes
+    // The current before the rating: reading a column costs less than the rating's record, and nearly every device passes here.
     const i = current(el.name, e);
     if (!(i !== undefined && i >= IMPLAUSIBLE_CURRENT_A)) continue;
+    const limit = powerLimit(el, ctx.options);
+    if (limit && limit.from !== 'setting') continue; // a rated power part may carry amperes
     const suspects = suspectsNear(ctx, el.nodes);
     const what = el.kind === 'D' ? 'diode' : 'transistor';
     out.push(
@@ -277,8 +278,9 @@ function nodesOutsideRails(ctx: PlausibilityContext): Finding[] {
   for (let n = 1; n < circuit.nodes.length; n++) {
     const name = circuit.nodes[n]!;
     const v = vectors ? vectors.volts[n] : point!.volts(name);
-    if (v === undefined || !Number.isFinite(v) || rails.has(n) || tied.has(name)) continue;
-    if (v <= high + margin && v >= low - margin) continue;
+    // The range first: nearly every node is within it, and the two look-ups after it cost more.
+    if (v === undefined || !Number.isFinite(v) || (v <= high + margin && v >= low - margin)) continue;
+    if (rails.has(n) || tied.has(name)) continue;
     const suspects = suspectsNear(ctx, [n]);
     const first = topo.at(n)[0]?.element;
     const at = suspects[0] ? { uri: suspects[0].element.origin.uri, span: suspects[0].element.origin.span } : first?.origin;

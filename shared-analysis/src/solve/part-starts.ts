@@ -103,19 +103,25 @@ function partSolves(whole: PartCircuit, before: Float64Array): { now: PartSolve;
   const { circuit, rail, partOf } = whole;
   const elements = circuit.elements;
   if (before.length !== elements.length) return undefined;
-  // Plain loops over every element: this runs before each corner solve and each nominal solve after a value edit.
-  const touched = new Set<number>();
+  // Plain loops over every element, and the touched parts marked in an array rather than a set (a look-up per
+  // element): this runs before each corner solve and each nominal solve after a value edit. Parts are numbered
+  // below the count of nodes and elements (a part holds a node or is an element on rails alone).
+  const touched = new Uint8Array(circuit.nodes.length + elements.length);
+  let any = false;
   for (let i = 0; i < elements.length; i++) {
     const el = elements[i]!;
     if (!LOCAL_KINDS.has(el.kind)) return undefined;
-    if (el.kind === 'R' && !Object.is(el.resistance, before[i])) touched.add(partOf[i]!);
+    if (el.kind === 'R' && !Object.is(el.resistance, before[i])) {
+      touched[partOf[i]!] = 1;
+      any = true;
+    }
   }
-  if (touched.size === 0) return undefined;
+  if (!any) return undefined;
   const inParts: number[] = [];
   const railSources: number[] = [];
   for (let i = 0; i < elements.length; i++) {
     const el = elements[i]!;
-    if (touched.has(partOf[i]!)) inParts.push(i);
+    if (touched[partOf[i]!] === 1) inParts.push(i);
     else if ((el.kind === 'V' || el.kind === 'L') && onRails(el.nodes, rail)) railSources.push(i);
   }
   if (inParts.length > Math.max(ALWAYS_ELEMENTS, elements.length * MOST_ELEMENTS_SHARE)) return undefined;
