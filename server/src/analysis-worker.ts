@@ -169,7 +169,8 @@ function handle(msg: ToWorker): void {
         const texts = new Map(Object.entries(analysis.documents).map(([u, d]) => [u, d.text] as [string, string]));
         const needsCards = analysis.findings.some((f) => f.data?.['sizing'] !== undefined);
         lastAnalysis.set(msg.uri, {
-          analysis: { ...analysis, documents: needsCards ? analysis.documents : textDocuments(texts) },
+          // The corner phase reads the targets from the parsed cards (stand-ins without cards gave it none): kept until it has run.
+          analysis: { ...analysis, documents: needsCards || cornersNext ? analysis.documents : textDocuments(texts) },
           texts,
           // The prepared solver is large for big circuits; keep it only when a finding will ask for sizing (the refactor builds its own).
           solver: needsCards || cornersNext ? session.solver : undefined,
@@ -284,7 +285,10 @@ function handle(msg: ToWorker): void {
         return;
       }
       kept.nominal = undefined;
-      if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) kept.solver = undefined;
+      if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) {
+        kept.solver = undefined;
+        kept.analysis = { ...kept.analysis, documents: textDocuments(kept.texts) };
+      }
       // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.
       const corners: Record<string, CornerColumns> = nameTable();
       for (const st of kept.analysis.structures) {
