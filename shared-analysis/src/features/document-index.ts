@@ -104,7 +104,9 @@ const scopeCache = new WeakMap<ParsedDocument, SubcktScope[]>();
 
 /** Empty tables for a circuit's nodes; `nodeByName` is filled by `addNodeNames`, `links` made by a `LinkCollector`. */
 function emptyIndex(circuit: Circuit | undefined): AnalysisIndex {
-  return { elementsByCard: new Map(), nodeByName: new Map(), links: new LinkCollector().links(circuit?.nodes.length ?? 0), elementByName: new Map() };
+  // No terminal on any node: every row starts and ends at 0 (what sorting no terminals gives, without the sort).
+  const links = { start: new Int32Array((circuit?.nodes.length ?? 0) + 1), element: new Int32Array(0), terminal: new Int32Array(0) };
+  return { elementsByCard: new Map(), nodeByName: new Map(), links, elementByName: new Map() };
 }
 
 /** Adds the circuit's node names `from` up to `to` to `nodeByName`; returns where it stopped. */
