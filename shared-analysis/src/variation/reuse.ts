@@ -25,7 +25,8 @@ export interface SpreadReuse {
 /**
  * Per output, 1 when its record is the last analysis's: the outputs are the last ones (same keys in the same order),
  * the sources are the last ones (same parameters in the same order), the output is not reached by the edit, no source
- * its row holds has a changed figure, its target window is the same and its last record was finite. Undefined when
+ * its row holds has a changed figure, its target window is the same and its last record was finite and holds no Monte
+ * Carlo figures. Undefined when
  * nothing can be kept.
  */
 export function keptOutputs(reuse: SpreadReuse, specs: readonly OutputSpec[], sources: readonly ToleranceSource[], windowOf: (spec: OutputSpec) => { current: number; tolerance: number } | undefined): Uint8Array | undefined {
@@ -36,7 +37,8 @@ export function keptOutputs(reuse: SpreadReuse, specs: readonly OutputSpec[], so
   const kept = new Uint8Array(specs.length);
   const { start, index } = last.rows;
   for (let o = 0; o < specs.length; o++) {
-    if (!last.finite[o] || reuse.reached(specs[o])) continue;
+    // A record a host gave Monte Carlo figures (the worker's finished run writes them into its analysis's outputs) is made again without them.
+    if (!last.finite[o] || last.outputs[o].monteCarlo !== undefined || reuse.reached(specs[o])) continue;
     if (!sameWindow(last.outputs[o].target, windowOf(specs[o]))) continue;
     let moved = false;
     for (let q = start[o]; q < start[o + 1] && !moved; q++) moved = changed[index[q]] === 1;
