@@ -1,6 +1,6 @@
 // The analysis worker thread: runs the engine off the server's main thread and answers sweeps, sizing and sizing fixes from its own last analyses.
 
-import { parentPort, workerData } from 'node:worker_threads';
+import { parentPort, threadId, workerData } from 'node:worker_threads';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { outputCharacteristic } from '../../shared-analysis/src/features/sweep';
 import type { SizingResult } from '../../shared-analysis/src/fixes/resistor-for-current';
@@ -23,6 +23,7 @@ import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type ToWorker } f
 import { nameTable } from '../../shared-analysis/src/names';
 import type { WarmStart } from '../../shared-analysis/src/solve/warm-start';
 import { revertValueEdit, type IncrementalState } from '../../shared-analysis/src/incremental';
+import { SpreadSender } from './spread-transfer';
 
 const workspace = new FileWorkspace();
 /** The stop flag shared with the main thread (absent when the worker was started without one). */
@@ -45,6 +46,8 @@ interface Kept {
   sizingCache: Map<string, SizingResult>;
 }
 const lastAnalysis = new Map<string, Kept>();
+/** The last spread result posted for each root: the next one sends only the outputs whose record changed (`spread-transfer.ts`). */
+const spreads = new SpreadSender(`${threadId}`);
 /**
  * Per root, what was sent of its recent analyses (cards, elements), by request id: the latest and the one the
  * main thread last said it holds (the only ones a next analysis can be compared with).
@@ -128,6 +131,7 @@ function handle(msg: ToWorker): void {
         sentAnalyses.delete(msg.uri);
         warmStarts.delete(msg.uri);
         incrementals.delete(msg.uri);
+        spreads.forget(msg.uri);
       } else openTexts.set(msg.uri, msg.text);
       return;
     case 'files-changed':
@@ -295,7 +299,8 @@ function handle(msg: ToWorker): void {
         const cols = cornerColumns(st);
         if (cols) corners[st.id] = cols;
       }
-      post({ type: 'cornered', id: msg.id, findings, corners, ...(kept.analysis.variation ? { variation: kept.analysis.variation } : {}) });
+      const variation = kept.analysis.variation ? spreads.message(msg.uri, kept.analysis.variation, msg.heldSpread) : undefined;
+      post({ type: 'cornered', id: msg.id, findings, corners, ...(variation ? { variation } : {}) });
       return;
     }
     case 'sizing-fixes': {

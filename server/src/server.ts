@@ -90,6 +90,7 @@ import { seriesValues } from '../../shared-analysis/src/fixes/e-series';
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import { attachVariation } from '../../shared-analysis/src/variation/index';
+import { SpreadReceiver } from './spread-transfer';
 import { setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import { fillStartupCorners } from '../../shared-analysis/src/checks/startup';
 
@@ -183,6 +184,8 @@ let canAskUser = false;
 let clientSizes = false;
 const converters = new Converters();
 const cache = new Map<string, CacheEntry>();
+/** The spread result of each root's last corner phase taken in, which the next one's message is told against (`spread-transfer.ts`). */
+const spreads = new SpreadReceiver();
 const published = new Set<string>();
 const timers = new Map<string, ReturnType<typeof setTimeout>>();
 const queue = new Set<string>();
@@ -470,7 +473,7 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   const t0 = Date.now();
   let r: Awaited<ReturnType<WorkerHost['corners']>>;
   try {
-    r = await host.corners(uri, analysis.version ?? 0);
+    r = await host.corners(uri, analysis.version ?? 0, spreads.heldId(uri));
   } catch (e) {
     // The nominal diagnostics stay published; only the corner additions are lost.
     log(`The corner phase of ${basename(uri)} did not finish: ${e instanceof Error ? e.message : String(e)}`);
@@ -483,9 +486,10 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   }
   // The self-biased loops' start-up records take the state each corner's solve chose from those corners, as the one pass does.
   fillStartupCorners(analysis.structures);
-  if (r.variation && !analysis.variation) {
-    analysis.variation = r.variation;
-    attachVariation(analysis.structures, r.variation);
+  const variation = r.variation && spreads.takeIn(uri, r.variation);
+  if (variation && !analysis.variation) {
+    analysis.variation = variation;
+    attachVariation(analysis.structures, variation);
   }
   restoreNameTables(analysis);
   // Appended, so the indices of published diagnostics stay valid.
@@ -704,6 +708,7 @@ documents.onDidClose((e) => {
   const entry = cache.get(uri);
   cache.delete(uri);
   converters.forget(uri);
+  spreads.forget(uri);
   const touched = new Set<string>([uri, ...(entry ? Object.keys(entry.analysis.documents) : [])]);
   // Netlists that include the closed file now read it from disk again.
   for (const root of dependants(uri)) schedule(root);

@@ -8,7 +8,7 @@ import { partMerger, type AnalysisPart } from './analysis-transfer';
 import { collectYoungGenerationPast } from './collect';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import type { Finding, Fix } from '../../shared-analysis/src/types';
-import type { VariationResult } from '../../shared-analysis/src/variation/types';
+import type { SpreadMessage } from './spread-transfer';
 import type { MonteCarloReply } from './protocol';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type SizingData, type ToWorker } from './worker-messages';
@@ -355,10 +355,10 @@ export class WorkerHost {
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 
-  /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings and each structure's corners by id. */
-  async corners(uri: string, version: number): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale: boolean }> {
+  /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings, each structure's corners by id and its spread told against the one held (`heldSpread`). */
+  async corners(uri: string, version: number, heldSpread?: string): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: SpreadMessage; stale: boolean }> {
     const generation = this.generation();
-    const msg = await this.request((id) => ({ type: 'corners', id, uri, version, generation }), `The corners of ${uri}`);
+    const msg = await this.request((id) => ({ type: 'corners', id, uri, version, generation, ...(heldSpread !== undefined ? { heldSpread } : {}) }), `The corners of ${uri}`);
     if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, ...(msg.variation ? { variation: msg.variation } : {}), stale: msg.stale === true };
     throw this.failure(msg);
   }

@@ -5,7 +5,7 @@ import type { AnalysisPart } from './analysis-transfer';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { Finding, Fix, TextEdit } from '../../shared-analysis/src/types';
-import type { VariationResult } from '../../shared-analysis/src/variation/types';
+import type { SpreadMessage } from './spread-transfer';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { ReadPolicy } from './read-policy';
 import type { MonteCarloReply } from './protocol';
@@ -45,8 +45,8 @@ export type ToWorker =
    * cards it can keep (`cards-kept` parts).
    */
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number; held?: number }
-  /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`). */
-  | { type: 'corners'; id: number; uri: string; version: number; generation: number }
+  /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`); `heldSpread`: the spread result the main thread holds for it. */
+  | { type: 'corners'; id: number; uri: string; version: number; generation: number; heldSpread?: string }
   /** The main thread stopped taking in the analysis answered to request `analysisId` (superseded): drop its remaining parts. */
   | { type: 'drop-parts'; analysisId: number }
   /** Send these parts of the analysis answered to request `analysisId`, in order, each answered under its own id (one message asks for several: each message costs the main thread a post). */
@@ -73,7 +73,7 @@ export type FromWorker =
   /** The fixes of each finding of a `sizing-fixes` request, in its order (edits in engine offsets); `stale` when the worker's analysis is of another version. */
   | { type: 'sizing-fixed'; id: number; fixes: Fix[][]; stale?: boolean }
   /** The corner phase's findings and each structure's corner results by structure id; `stale` when the worker holds another version. */
-  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, CornerColumns>; variation?: VariationResult; stale?: boolean }
+  | { type: 'cornered'; id: number; findings: Finding[]; corners: Record<string, CornerColumns>; variation?: SpreadMessage; stale?: boolean }
   /** `stopped`: the request was cancelled (the stop generation moved past the request's) at one of the engine's checks. */
   | { type: 'failed'; id: number; message: string; stopped?: boolean };
 
