@@ -27,7 +27,7 @@ import type { Structure } from './structures/types';
 import type { Target } from './checks/targets';
 import { seriesTolerance } from './fixes/e-series';
 import { checkYield } from './checks/variation';
-import { analyseVariation, attachVariation, spreadRecordOf, type VariationDetail } from './variation/index';
+import { analyseVariation, attachVariation, spreadRecordOf, unkeptSpread, type VariationDetail } from './variation/index';
 import type { SpreadReuse } from './variation/reuse';
 import type { VariationResult } from './variation/types';
 import { runMonteCarlo, type MonteCarloOptions, type MonteCarloResult } from './variation/monte-carlo';
@@ -305,6 +305,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   const t0 = performance.now();
   const options = { ...analysis.options, corners: { ...analysis.options.corners, enabled: true } };
   const findings: Finding[] = [];
+  // A spread that kept records of the last one: the walk below looks only at what it made.
+  let keptSpreadDetail: VariationDetail | undefined;
   try {
     const starts = cornerStarts(ctx.incremental, circuit, ctx.nominal);
     const kept = keptCorners(ctx.incremental, circuit, analysis.structures);
@@ -319,6 +321,7 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
       const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options, spread.reuse);
       if (detail) {
         spread.record(spreadRecordOf(detail));
+        if (detail.kept) keptSpreadDetail = detail;
         analysis.variation = detail.result;
         attachVariation(analysis.structures, detail.result);
         pushAll(findings, checkYield(circuit, analysis.structures, targets, detail, options.variation.yieldTarget, analysis.documents));
@@ -330,7 +333,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
   clampFindingSpans(findings, analysis.documents);
-  const notFinite = keepFinite(findings, { ...cornerPhaseParts(analysis.structures), variation: analysis.variation }, analysis.uri);
+  const unkept = keptSpreadDetail ? unkeptSpread(keptSpreadDetail) : undefined;
+  const notFinite = keepFinite(findings, { ...cornerPhaseParts(analysis.structures, unkept?.structures), ...(unkept ? unkept.parts : { variation: analysis.variation }) }, analysis.uri);
   if (notFinite) findings.push(notFinite);
   return sortFindings(applySeverities(findings, analysis.options), analysis.uri);
 }
@@ -340,14 +344,15 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
  * voltages' corner ranges, the start-up records' corners and the spread. The first pass's walk
  * covered the rest of every structure, and the walk leaves the corner columns (typed arrays) and the
  * lazily built `corners` records alone anyway; walking every structure again cost about a tenth of
- * the engine's corner phase at 100,000 elements.
+ * the engine's corner phase at 100,000 elements. With `spreadOf`, only those structures' spread (the others
+ * hold only records a spread analysis kept, finite).
  */
-function cornerPhaseParts(structures: Structure[]): Record<string, unknown> {
+function cornerPhaseParts(structures: Structure[], spreadOf?: Set<string>): Record<string, unknown> {
   const parts = nameTable<unknown>();
   structures.forEach((s, i) => {
     if (s.voltages) parts[`structures[${i}].voltages`] = s.voltages;
     if (s.startup) parts[`structures[${i}].startup`] = s.startup;
-    if (s.variation) parts[`structures[${i}].variation`] = s.variation;
+    if (s.variation && (!spreadOf || spreadOf.has(s.id))) parts[`structures[${i}].variation`] = s.variation;
   });
   return parts;
 }

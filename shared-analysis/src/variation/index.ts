@@ -92,6 +92,8 @@ export interface VariationDetail {
   sensitivityMs: number;
   /** Per output, 1 when every figure of its record is finite (what a later analysis may keep: see `SpreadRecord`). */
   finite: Uint8Array;
+  /** Per output, 1 when its record is the last analysis's, kept (see `keptOutputs`); undefined when none was. */
+  kept?: Uint8Array;
 }
 
 /**
@@ -126,7 +128,24 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const result = { outputs } as VariationResult;
   attachSources(result, sources);
   result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
-  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite };
+  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}) };
+}
+
+/**
+ * What the finiteness walk after a spread analysis needs to look at: every output but the kept ones, whose records were
+ * walked when they were made and are finite (`keptOutputs` keeps no other), named as paths under `variation`, and the
+ * result's other parts but a table not made yet (`parts`); and the structures whose spread holds such an output.
+ */
+export function unkeptSpread(detail: VariationDetail): { parts: Record<string, unknown>; structures: Set<string> } {
+  const parts = nameTable<unknown>();
+  const structures = new Set<string>();
+  const { result, kept, specs } = detail;
+  for (let o = 0; o < specs.length; o++) if (!kept?.[o] && specs[o].structure !== undefined) structures.add(specs[o].structure!);
+  for (let o = 0; o < result.outputs.length; o++) if (!kept?.[o]) parts[`variation.outputs[${o}]`] = result.outputs[o];
+  for (const key of Object.keys(result)) {
+    if (key !== 'outputs' && !Object.getOwnPropertyDescriptor(result, key)?.get) parts[`variation.${key}`] = (result as unknown as Record<string, unknown>)[key];
+  }
+  return { parts, structures };
 }
 
 /** What a later spread analysis may keep of this one (see `keptSpread`). */

@@ -9,6 +9,8 @@
 
 import { describe, expect, it } from 'vitest';
 import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { dropNonFinite, keepFinite } from '../../../shared-analysis/src/output-guard';
+import { unkeptSpread } from '../../../shared-analysis/src/variation/index';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
 import { expectSame, randomValueEdit } from '../solve/same-analysis';
@@ -161,4 +163,31 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
     expectSameSpread(after, cold(commented));
     expect(after.analysis.variation!.stats.adjointSolves).toBe(0);
   }, LONG);
+});
+
+describe('the finiteness walk after a spread analysis that kept records', () => {
+  it('looks at the outputs it made and names a figure that is not finite as a walk of the whole result does', () => {
+    const text = noteCells(220);
+    const first = incremental(text);
+    addCorners(first.analysis, { solver: first.solver!, nominal: first.nominal!, incremental: first.incremental });
+    const edited = text.replace(/^(RR11 \S+ \S+ )(\S+)/m, (_m, head: string) => `${head}4.1k`);
+    const next = incremental(edited, first);
+    addCorners(next.analysis, { solver: next.solver!, nominal: next.nominal!, incremental: next.incremental });
+    const record = next.incremental!.spreadRecord!.record;
+    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length) };
+    detail.kept.fill(1);
+    // Cell 11's two outputs were made again: the walk looks at those (and the stats), not at the kept ones.
+    const fresh = record.specs.flatMap((s, o) => (s.structure?.endsWith(':QR11') ? [o] : []));
+    expect(fresh.length).toBe(2);
+    for (const o of fresh) detail.kept[o] = 0;
+    const { parts, structures } = unkeptSpread(detail);
+    expect(Object.keys(parts)).toEqual([...fresh.map((o) => `variation.outputs[${o}]`), 'variation.stats']);
+    expect([...structures]).toEqual([record.specs[fresh[0]].structure]);
+    // A figure that is not finite in a record made now: the same path as the whole result's walk gives (dropNonFinite, the independent path).
+    next.analysis.variation!.outputs[fresh[1]].sigma = NaN;
+    const whole: string[] = [];
+    dropNonFinite(structuredClone({ outputs: next.analysis.variation!.outputs.map((o) => ({ ...o })) }), 'variation', whole);
+    expect(whole).toEqual([`variation.outputs[${fresh[1]}].sigma`]);
+    expect(keepFinite([], parts, URI)?.data?.['paths']).toEqual(whole);
+  });
 });
