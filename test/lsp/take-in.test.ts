@@ -14,6 +14,12 @@ import { inlayHints } from '../../shared-analysis/src/features/inlay';
 
 const URI = 'file:///take-in.cir';
 
+/**
+ * These tests analyse and take in results of 1,200 to 12,000 ladder resistors through a real worker: up to 20 s each when
+ * the machine runs other test files beside them. The limit only stops a hang; it states no speed.
+ */
+const LARGE_RESULT_TIMEOUT_MS = 120_000;
+
 /** An invented NPN mirror whose load leaves the output saturated, plus a ladder of `rungs` resistors (several parts of cards and elements). */
 function netlist(rungs: number): string {
   const ladder = Array.from({ length: rungs }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === rungs - 1 ? '0' : `l${i + 1}`} 1k`).join('\n');
@@ -59,7 +65,7 @@ describe('taking a result in', () => {
     } finally {
       host.dispose();
     }
-  });
+  }, LARGE_RESULT_TIMEOUT_MS);
 
   it('copies the cards an edit leaves alone from the result the caller holds, through the worker', async () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
@@ -86,7 +92,7 @@ describe('taking a result in', () => {
     } finally {
       host.dispose();
     }
-  });
+  }, LARGE_RESULT_TIMEOUT_MS);
 
   it('answers hovers and inlay hints during a sliced take-in from the held result as it was, and after adoption from the new one', async () => {
     const script = join(__dirname, '../../dist/analysis-worker.js');
@@ -131,5 +137,5 @@ describe('taking a result in', () => {
     } finally {
       host.dispose();
     }
-  });
+  }, LARGE_RESULT_TIMEOUT_MS);
 });

@@ -132,6 +132,12 @@ function keptCount(previous: AnalysisSession, next: AnalysisSession): number {
   return next.analysis.structures.filter((s) => s.estimate !== undefined && before.has(s.estimate)).length;
 }
 
+/**
+ * A sequence of seeded edits, each compared with a cold analysis and its corner phase: 2–10 s alone, several times
+ * that beside other test files on a loaded machine. The limit only stops a hang; it states no speed.
+ */
+const SEEDED_EDITS_TIMEOUT_MS = 120_000;
+
 describe('incremental re-analysis of a value edit', () => {
   // In the chain every edit moves every node after it, so nothing is kept there: the feeds are what it tests.
   for (const [name, text, edits, keeps] of [
@@ -163,7 +169,7 @@ describe('incremental re-analysis of a value edit', () => {
       }
       // Structures were kept, so the comparison above judged the kept ones too.
       if (keeps) expect(kept).toBeGreaterThan(0);
-    });
+    }, SEEDED_EDITS_TIMEOUT_MS);
   }
 
   it('judges again only the devices of the part an edit moves, and keeps the other parts’ findings moved past the edit', () => {
@@ -247,7 +253,7 @@ describe('incremental re-analysis of a value edit', () => {
         expect(stats.got.iterations).toBe(stats.got.converged);
         session = next;
       }
-    });
+    }, SEEDED_EDITS_TIMEOUT_MS);
   }
 
   it('reuses nothing but the warm start when the edit is not a value edit', () => {
