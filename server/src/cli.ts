@@ -21,6 +21,7 @@ import { escapeControls, escapedJsonChunk } from './escape';
 import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from './json-stream';
 import { pointReader, pointVectors, type PointReader } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
+import { hasUniqueNames } from '../../shared-analysis/src/solve/solved-point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
 import { leadingContributors, sourceSummaries } from '../../shared-analysis/src/variation/index';
@@ -708,7 +709,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
     ...(op && elements && analysisOptions && reader
       ? {
           // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
-          power: namesUnique(elements)
+          power: a.circuit && hasUniqueNames(a.circuit)
             ? new JsonEntries(() => powerEntries(elements, powerReader(op, reader), analysisOptions), true)
             : powerTable(elements, op.devices, analysisOptions),
         }
@@ -742,16 +743,6 @@ function variationForJson(v: VariationResult, structures: readonly Structure[], 
 function powerReader(op: OperatingPoint, reader: PointReader): (e: number) => number | undefined {
   const v = pointVectors(op);
   return v ? (e) => dissipationAt(v, e) : (e) => dissipation(reader.record(e));
-}
-
-/** Whether no two elements share a name. */
-function namesUnique(elements: readonly { name: string }[]): boolean {
-  const seen = new Set<string>();
-  for (const e of elements) {
-    if (seen.has(e.name)) return false;
-    seen.add(e.name);
-  }
-  return true;
 }
 
 /** The operating point as JSON shows it, its tables streamed from the vectors when it has them. */
