@@ -4,10 +4,10 @@
 // path), and only the changed outputs crossed.
 
 import { describe, expect, it } from 'vitest';
-import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { addCorners, type AnalysisSession } from '../../../shared-analysis/src/service';
 import type { VariationResult } from '../../../shared-analysis/src/variation/types';
 import { SpreadReceiver, SpreadSender } from '../../../server/src/spread-transfer';
+import { editedSession } from '../solve/same-analysis';
 
 const URI = '/t/spread-transfer.cir';
 
@@ -21,8 +21,7 @@ function cells(reference: (i: number) => string): string {
 
 /** The worker's side: an analysis after `previous` by value edits, with its corner phase, as the worker runs both. */
 function analysed(text: string, previous?: AnalysisSession): AnalysisSession {
-  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart };
-  const s = analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false } }, control);
+  const s = editedSession(URI, text, { corners: { enabled: false } }, previous);
   addCorners(s.analysis, { solver: s.solver!, nominal: s.nominal!, incremental: s.incremental });
   return s;
 }

@@ -6,23 +6,16 @@
 // comparison judged kept ones. Leaving a reached structure unmeasured, or a kept finding unmoved, fails it.
 
 import { describe, expect, it } from 'vitest';
-import { analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import type { AnalysisSession } from '../../../shared-analysis/src/service';
 import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
-import { expectSameCorners, randomValueEdit } from './same-analysis';
+import { coldSession, editedSession, expectSameCorners, randomValueEdit } from './same-analysis';
 
 const URI = '/t/incremental-corners.cir';
 const OPTIONS = { corners: { enabled: false } };
 
-function cold(text: string): AnalysisSession {
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS);
-}
-
-function incremental(text: string, previous?: AnalysisSession): AnalysisSession {
-  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart };
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS, control);
-}
+const cold = (text: string): AnalysisSession => coldSession(URI, text, OPTIONS);
+const incremental = (text: string, previous?: AnalysisSession): AnalysisSession => editedSession(URI, text, OPTIONS, previous);
 
 // Invented: NPN sink cells on two rails. On the 1.8 V rail the reference current (VCC − VBE)/R moves by more than
 // ±20 % across supply ±10 % and the temperature corners (VBE about −2 mV/°C, common practice), so those outputs carry

@@ -5,26 +5,19 @@
 // figures, and then the corner phase on both. A kept structure that should have changed fails the comparison.
 
 import { describe, expect, it } from 'vitest';
-import { addCorners, analyseSession, AnalysisStopped, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, AnalysisStopped, type AnalysisSession } from '../../../shared-analysis/src/service';
 import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
 import { revertValueEdit, valueChanges } from '../../../shared-analysis/src/incremental';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
 import { BJT_CELL } from '../checks/self-biased-cells';
-import { expectSameAnalysis, expectSameCorners, randomValueEdit } from './same-analysis';
+import { coldSession, editedSession, expectSameAnalysis, expectSameCorners, randomValueEdit } from './same-analysis';
 
 const URI = '/t/incremental.cir';
 /** The server's first pass: corners later, in a phase of their own. */
 const OPTIONS = { corners: { enabled: false } };
 
-function cold(text: string): AnalysisSession {
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS);
-}
-
-function incremental(text: string, previous?: AnalysisSession, shouldStop?: () => boolean): AnalysisSession {
-  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart, shouldStop };
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), OPTIONS, control);
-}
+const cold = (text: string): AnalysisSession => coldSession(URI, text, OPTIONS);
+const incremental = (text: string, previous?: AnalysisSession, shouldStop?: () => boolean): AnalysisSession => editedSession(URI, text, OPTIONS, previous, shouldStop);
 
 /** Findings exactly (code, severity, place, text), then everything else as `expectSameAnalysis` compares it. */
 function expectColdResult(got: AnalysisSession, want: AnalysisSession): void {

@@ -1,8 +1,21 @@
 // Comparison of two analyses of the same text reached by different paths (warm or incremental against cold).
 
 import { expect } from 'vitest';
-import { addCorners, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import type { AnalysisOptions } from '../../../shared-analysis/src/analysis';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
+
+/** A cold analysis of `text` as the only file of a workspace at `uri`. */
+export function coldSession(uri: string, text: string, options: AnalysisOptions): AnalysisSession {
+  return analyseSession({ uri, text }, new MemoryWorkspace({ [uri]: text }), options);
+}
+
+/** An analysis of `text` that keeps its incremental state and starts from `previous`'s, as the language server's worker runs one after an edit. */
+export function editedSession(uri: string, text: string, options: AnalysisOptions, previous?: AnalysisSession, shouldStop?: () => boolean): AnalysisSession {
+  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart, shouldStop };
+  return analyseSession({ uri, text }, new MemoryWorkspace({ [uri]: text }), options, control);
+}
 
 /**
  * Equal up to rounding: numbers within `rel` relative, everything else (every message, code and

@@ -8,12 +8,11 @@
 // changed tolerance source as unchanged, fails it.
 
 import { describe, expect, it } from 'vitest';
-import { addCorners, analyseSession, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, type AnalysisSession } from '../../../shared-analysis/src/service';
 import { dropNonFinite, keepFinite } from '../../../shared-analysis/src/output-guard';
 import { unkeptSpread } from '../../../shared-analysis/src/variation/index';
-import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
-import { expectSame, randomValueEdit } from '../solve/same-analysis';
+import { coldSession, editedSession, expectSame, randomValueEdit } from '../solve/same-analysis';
 
 const URI = '/t/incremental-spread.cir';
 const OPTIONS = { corners: { enabled: false } };
@@ -24,14 +23,8 @@ const LONG = 120_000;
 
 type Options = typeof OPTIONS | typeof EXACT_RESISTORS;
 
-function cold(text: string, options: Options = OPTIONS): AnalysisSession {
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), options);
-}
-
-function incremental(text: string, previous?: AnalysisSession, options: Options = OPTIONS): AnalysisSession {
-  const control = { keepIncremental: true, previous: previous?.incremental, warmStart: previous?.warmStart };
-  return analyseSession({ uri: URI, text }, new MemoryWorkspace({ [URI]: text }), options, control);
-}
+const cold = (text: string, options: Options = OPTIONS): AnalysisSession => coldSession(URI, text, options);
+const incremental = (text: string, previous?: AnalysisSession, options: Options = OPTIONS): AnalysisSession => editedSession(URI, text, options, previous);
 
 // Invented: NPN sink cells on a 3.3 V and a 5 V rail (220 cells: over 400 unknowns, so the spread waits for the corner
 // phase).
