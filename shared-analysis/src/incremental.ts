@@ -168,7 +168,28 @@ export function keptSpread(state: IncrementalState | undefined, circuit: Circuit
   const anyTouched = touched.some((p) => p === 1);
   const reachedElement = (e: number) => touched[parts.ofElement[e]!] === 1 || (anyTouched && holdsRail(circuit.elements[e]!, rail));
   const reached = (spec: OutputSpec) => spec.functional.terms.some((t) => (t.kind === 'node' ? parts.ofNode[t.node]! >= 0 && touched[parts.ofNode[t.node]!] === 1 : reachedElement(t.element)));
-  return { record, reuse: { last: last.record, reached } };
+  return { record, reuse: { last: last.record, reached, scope: (outputs) => adjointScope(circuit, state.index, outputs) } };
+}
+
+/**
+ * The elements an output's adjoint can reach when every element reads only the nodes it lists: the parts holding the
+ * outputs' terms (the adjoint's KCL rows at a rail are zero: a rail's source fixes the node) and the sources holding
+ * rails (their branch rows carry the supply's derivative). Undefined when a term lies on a rail (its row is the rail's).
+ */
+function adjointScope(circuit: Circuit, index: CircuitIndex, outputs: readonly OutputSpec[]): Uint8Array | undefined {
+  const { parts, rail } = index;
+  const inPart = new Uint8Array(parts.count);
+  for (const spec of outputs) {
+    for (const t of spec.functional.terms) {
+      const part = t.kind === 'node' ? parts.ofNode[t.node]! : parts.ofElement[t.element]!;
+      if (part < 0) return undefined;
+      inPart[part] = 1;
+    }
+  }
+  const elements = circuit.elements;
+  const scope = new Uint8Array(elements.length);
+  for (let e = 0; e < elements.length; e++) if (inPart[parts.ofElement[e]!] === 1 || holdsRail(elements[e]!, rail)) scope[e] = 1;
+  return scope;
 }
 
 /** Per part (see `circuitParts`), 1 where a resistor's value differs between `now` and `before` (per element, NaN but for resistors). */

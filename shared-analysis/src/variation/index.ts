@@ -94,6 +94,8 @@ export interface VariationDetail {
   finite: Uint8Array;
   /** Per output, 1 when its record is the last analysis's, kept (see `keptOutputs`); undefined when none was. */
   kept?: Uint8Array;
+  /** Device instances whose partial derivatives were computed: every instance after a cold analysis, those the derived outputs reach after an edit (`SpreadReuse.scope`). */
+  devicesDerived: number;
 }
 
 /**
@@ -112,7 +114,7 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const kept = reuse ? keptOutputs(reuse, specs, sources, (spec) => targetWindowOf(targetOf, spec)) : undefined;
   const fresh = freshOutputs(specs.length, kept);
   const varied = variedParameters(circuit, sources);
-  const derived = fresh.length > 0 ? derivedOutputs(ctx, specs, fresh, sources, varied, targetOf) : nothingDerived(specs.length);
+  const derived = fresh.length > 0 ? derivedOutputs(ctx, specs, fresh, sources, varied, targetOf, kept && reuse ? reuse.scope : undefined) : nothingDerived(specs.length);
   if (!derived) return undefined;
   const outputs = derived.outputs;
   let bySource = derived.bySource;
@@ -128,7 +130,7 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const result = { outputs } as VariationResult;
   attachSources(result, sources);
   result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
-  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}) };
+  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived };
 }
 
 /**
@@ -168,15 +170,20 @@ interface DerivedOutputs {
   bySource: SourceRows;
   finite: Uint8Array;
   adjointSolves: number;
+  devicesDerived: number;
   sensitivityMs: number;
 }
 
 /** What `derivedOutputs` gives when every one of `count` outputs is kept: no record, no row, no solve. */
 function nothingDerived(count: number): DerivedOutputs {
-  return { outputs: new Array(count), bySource: { start: new Int32Array(1), index: new Int32Array(0), value: new Float64Array(0) }, finite: new Uint8Array(0), adjointSolves: 0, sensitivityMs: 0 };
+  return { outputs: new Array(count), bySource: { start: new Int32Array(1), index: new Int32Array(0), value: new Float64Array(0) }, finite: new Uint8Array(0), adjointSolves: 0, devicesDerived: 0, sensitivityMs: 0 };
 }
 
-/** The records of the outputs `fresh` (indices into `specs`), from the Jacobian at the solution; undefined when it cannot be factored. */
+/**
+ * The records of the outputs `fresh` (indices into `specs`), from the Jacobian at the solution; undefined when it cannot
+ * be factored. With `scopeOf`, the device derivatives and the columns ∂F/∂p are made for the elements it gives for the
+ * fresh outputs (see `sensitivities`).
+ */
 function derivedOutputs(
   ctx: VariationContext,
   specs: readonly OutputSpec[],
@@ -184,13 +191,16 @@ function derivedOutputs(
   sources: readonly ToleranceSource[],
   varied: VariedParameters,
   targetOf: Map<string, TargetWindow>,
+  scopeOf: SpreadReuse['scope'] | undefined,
 ): DerivedOutputs | undefined {
   const tLinearise = performance.now();
   const lin = ctx.solver.linearise(ctx.nominal);
   if (!lin) return undefined;
+  const freshSpecs: OutputSpec[] = new Array(fresh.length);
+  for (let r = 0; r < fresh.length; r++) freshSpecs[r] = specs[fresh[r]];
   const functionals: OutputFunctional[] = new Array(fresh.length);
-  for (let r = 0; r < fresh.length; r++) functionals[r] = specs[fresh[r]].functional;
-  const sens = sensitivities(lin, functionals, varied.params.list);
+  for (let r = 0; r < fresh.length; r++) functionals[r] = freshSpecs[r].functional;
+  const sens = sensitivities(lin, functionals, varied.params.list, scopeOf?.(freshSpecs));
   // The derivatives proper: the Jacobian factored at the solution, ∂F/∂p and one transposed solve per output.
   const sensitivityMs = performance.now() - tLinearise;
   const count = varied.params.list.length;
@@ -204,7 +214,7 @@ function derivedOutputs(
     outputs[fresh[r]] = records.of(specs[fresh[r]], r);
     finite[r] = records.finite(outputs[fresh[r]], r) ? 1 : 0;
   }
-  return { outputs, bySource, finite, adjointSolves: sens.adjointSolves, sensitivityMs };
+  return { outputs, bySource, finite, adjointSolves: sens.adjointSolves, devicesDerived: sens.devicesDerived, sensitivityMs };
 }
 
 /** Every output's row and finite flag: the last analysis's for a kept output, the derived one's for a fresh one (in output order). */

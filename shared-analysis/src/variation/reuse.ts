@@ -20,6 +20,11 @@ export interface SpreadReuse {
   last: SpreadRecord;
   /** Whether an output's value or derivatives may differ from the last analysis's: one of its terms lies in a part holding a changed resistor. */
   reached: (spec: OutputSpec) => boolean;
+  /**
+   * The elements (1 per element) whose equations the adjoints of `outputs` can reach: the parts holding their terms and
+   * the sources holding rails; undefined when that is not known. `sensitivities` checks every adjoint against it.
+   */
+  scope: (outputs: readonly OutputSpec[]) => Uint8Array | undefined;
 }
 
 /**

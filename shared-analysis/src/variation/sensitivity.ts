@@ -6,6 +6,7 @@ import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, Load
 import { TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
+import { NODE_UNKNOWN } from '../solve/mna';
 
 /**
  * A quantity the outputs may depend on. Derivatives are per unit of the parameter as the
@@ -43,6 +44,8 @@ export interface SensitivityResult {
   derivative: Float64Array;
   /** Transposed solves done (one per output). */
   adjointSolves: number;
+  /** Device instances whose partial derivatives were computed (every instance of a table a parameter or output needs, or those in scope). */
+  devicesDerived: number;
 }
 
 /** d(output o)/d(parameter j) from a result (0 where the output does not depend on it). */
@@ -184,6 +187,15 @@ interface TableDerivatives {
   N: number;
   names: string[];
   result: DeviceSensitivity;
+  /** The terminals of the table the result was computed on (`instances.terminals`: the layout's, or a table of the instances in scope). */
+  terminals: Int32Array;
+  /** Per instance of the layout's table, its row in the result (−1: out of scope); undefined when the rows are the layout's. */
+  rowOf: Int32Array | undefined;
+}
+
+/** Instance i's row in a table's derivatives (−1: not computed). */
+function rowIn(td: TableDerivatives, i: number): number {
+  return td.rowOf === undefined ? i : td.rowOf[i];
 }
 
 /**
@@ -194,17 +206,50 @@ interface TableDerivatives {
  * (`DeviceTable.sensitivity`), one pass over each table; a kind without them is differenced
  * numerically in batches of copies.
  */
-export function sensitivities(lin: Linearisation, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): SensitivityResult {
+export function sensitivities(lin: Linearisation, outputs: readonly OutputFunctional[], params: readonly VariedParameter[], scope?: Uint8Array): SensitivityResult {
   // Each stage is a function of its own with one loop: run once on a large circuit, a function with
   // several long loops is compiled again for each loop it enters, and the code after a loop is then
   // met without type feedback (measured: most of a cold spread analysis was compiling).
   const maps = elementMaps(lin, params);
-  const derivatives = deviceDerivatives(lin, maps, outputs, params);
-  const columns = rowMajor(parameterColumns(lin, maps, derivatives, params), lin.layout.size);
+  return (scope && derivativesWithin(lin, maps, outputs, params, scope)) || derivativesWithin(lin, maps, outputs, params, undefined)!;
+}
+
+/**
+ * The derivatives with the device derivatives and the columns ∂F/∂p made only for the elements of `scope` (1 per
+ * element; all of them without it). An output's adjoint λ is exact when every row it reaches is one whose every stamp
+ * comes from an element in scope (`coveredRows`): −λ·∂F/∂p then sums the same terms as over the whole circuit.
+ * Undefined when an output's λ reaches another row, as it does when the output reads a device out of scope (the caller
+ * derives over the whole circuit): a scope that misses part of an output's reach costs that, never a wrong figure.
+ */
+function derivativesWithin(lin: Linearisation, maps: ElementMaps, outputs: readonly OutputFunctional[], params: readonly VariedParameter[], scope: Uint8Array | undefined): SensitivityResult | undefined {
+  const derivatives = deviceDerivatives(lin, maps, outputs, params, scope);
+  const columns = rowMajor(parameterColumns(lin, maps, derivatives, params, scope), lin.layout.size);
   const rows = new DerivativeRows(params.length, outputs.length);
   const value = new Float64Array(outputs.length);
-  adjointRows(lin, maps, derivatives, columns, outputs, params, rows, value);
-  return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length };
+  const covered = scope ? coveredRows(lin, scope) : undefined;
+  if (!adjointRows(lin, maps, derivatives, columns, outputs, params, rows, value, covered)) return undefined;
+  return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length, devicesDerived: derivedInstances(derivatives) };
+}
+
+/** Per unknown, 1 when every element that stamps into its row is in `scope`: its terminals' KCL rows and the unknowns it owns (internal nodes, branch currents). */
+function coveredRows(lin: Linearisation, scope: Uint8Array): Uint8Array {
+  const { size, unknownKind, unknownOwner, circuit } = lin.layout;
+  const covered = new Uint8Array(size).fill(1);
+  const elements = circuit.elements;
+  for (let e = 0; e < elements.length; e++) {
+    if (scope[e]) continue;
+    const nodes = elements[e].nodes;
+    for (let k = 0; k < nodes.length; k++) if (nodes[k] > 0 && nodes[k] <= size) covered[nodes[k] - 1] = 0;
+  }
+  for (let u = 0; u < size; u++) if (unknownKind[u] !== NODE_UNKNOWN && !scope[unknownOwner[u]]) covered[u] = 0;
+  return covered;
+}
+
+/** Device instances whose derivatives were computed. */
+function derivedInstances(derivatives: readonly (TableDerivatives | undefined)[]): number {
+  let count = 0;
+  for (const td of derivatives) if (td) count += td.result.current.length / td.N;
+  return count;
 }
 
 /** Parameter kinds as codes, so the loops over every parameter read a typed array instead of objects of several shapes. */
@@ -281,8 +326,8 @@ function parametersByElement(kind: Uint8Array, element: Int32Array, start: Int32
   return list;
 }
 
-/** The device derivatives of every table an output or a parameter needs (the temperature, its instances' model parameters, a read terminal current). */
-function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: readonly OutputFunctional[], params: readonly VariedParameter[]): (TableDerivatives | undefined)[] {
+/** The device derivatives of every table an output or a parameter needs (the temperature, its instances' model parameters, a read terminal current), for its instances in `scope` (all without it). */
+function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: readonly OutputFunctional[], params: readonly VariedParameter[], scope: Uint8Array | undefined): (TableDerivatives | undefined)[] {
   const tables = lin.layout.tables;
   const namesOf: Set<string>[] = tables.map(() => new Set<string>());
   if (maps.temperatureParam >= 0) for (const set of namesOf) set.add(TEMPERATURE_PARAMETER);
@@ -291,12 +336,51 @@ function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: reado
   // Tables an output reads a terminal current of need their current rows even without parameters.
   const readsTable = new Uint8Array(tables.length);
   for (const out of outputs) for (const term of out.terms) if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
-  return tables.map((table, k) => {
+  return tables.map((layoutTable, k) => {
     const names = [...namesOf[k]];
     if (names.length === 0 && !readsTable[k]) return undefined;
+    const rowOf = scope ? rowsInScope(layoutTable, scope) : undefined;
+    const table = rowOf ? tableOfRows(layoutTable, rowOf, lin.conditions) : layoutTable;
+    if (table.instances.count === 0) return undefined;
     const result = table.sensitivity?.(lin.x, lin.conditions, names) ?? numericalSensitivity(table, lin.x, lin.conditions, names);
-    return { T: table.kind.terminalCount, N: table.kind.nodeCount, names, result };
+    return { T: table.kind.terminalCount, N: table.kind.nodeCount, names, result, terminals: table.instances.terminals, rowOf };
   });
+}
+
+/** Per instance of `table`, its row among the instances whose element is in `scope` (−1: out of scope); undefined when all are. */
+function rowsInScope(table: DeviceTable, scope: Uint8Array): Int32Array | undefined {
+  const elementIndex = table.instances.elementIndex;
+  const rowOf = new Int32Array(elementIndex.length);
+  let count = 0;
+  for (let i = 0; i < elementIndex.length; i++) rowOf[i] = scope[elementIndex[i]] ? count++ : -1;
+  return count === elementIndex.length ? undefined : rowOf;
+}
+
+/**
+ * A table of the instances of `table` that `rowOf` keeps, in its rows, on the same terminals and matrix slots, prepared
+ * for `conditions`: its derivatives are those instances' rows of the whole table's (each instance is computed alone
+ * from its own parameters and terminal voltages).
+ */
+function tableOfRows(table: DeviceTable, rowOf: Int32Array, conditions: DeviceConditions): DeviceTable {
+  const inst = table.instances;
+  const T = table.kind.terminalCount;
+  let count = 0;
+  for (let i = 0; i < rowOf.length; i++) if (rowOf[i] >= 0) count++;
+  const elements: Element[] = new Array(count);
+  const elementIndex = new Int32Array(count);
+  const terminals = new Int32Array(count * T);
+  const positions = new Int32Array(count * T * T);
+  for (let i = 0; i < rowOf.length; i++) {
+    const r = rowOf[i];
+    if (r < 0) continue;
+    elements[r] = inst.elements[i];
+    elementIndex[r] = inst.elementIndex[i];
+    terminals.set(inst.terminals.subarray(i * T, i * T + T), r * T);
+    positions.set(inst.positions.subarray(i * T * T, (i + 1) * T * T), r * T * T);
+  }
+  const sub = table.kind.createTable({ count, elements, elementIndex, terminals, positions }, []);
+  sub.prepare(conditions);
+  return sub;
 }
 
 /** The value at unknown u of the solution (0 at ground). */
@@ -311,31 +395,32 @@ function put(cols: Triples, j: number, u: number, val: number): void {
 }
 
 /** The columns ∂F/∂p of every parameter, as (row, parameter, value) triples. */
-function parameterColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[]): Triples {
+function parameterColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], scope: Uint8Array | undefined): Triples {
   const cols = new Triples();
-  if (maps.temperatureParam >= 0) deviceTemperatureColumns(lin, maps.temperatureParam, derivatives, cols);
-  elementColumns(lin, maps, derivatives, params, cols);
-  if (maps.temperatureParam >= 0) resistorTemperatureColumns(lin, maps.temperatureParam, cols);
+  if (maps.temperatureParam >= 0) deviceTemperatureColumns(maps.temperatureParam, derivatives, cols);
+  elementColumns(lin, maps, derivatives, params, scope, cols);
+  if (maps.temperatureParam >= 0) resistorTemperatureColumns(lin, maps.temperatureParam, scope, cols);
   return cols;
 }
 
-/** Temperature: every device instance's residual rows. */
-function deviceTemperatureColumns(lin: Linearisation, temperatureParam: number, derivatives: readonly (TableDerivatives | undefined)[], cols: Triples): void {
-  derivatives.forEach((td, k) => {
+/** Temperature: every derived device instance's residual rows. */
+function deviceTemperatureColumns(temperatureParam: number, derivatives: readonly (TableDerivatives | undefined)[], cols: Triples): void {
+  derivatives.forEach((td) => {
     if (!td) return;
     const col = td.result.residualByParam[td.names.indexOf(TEMPERATURE_PARAMETER)];
-    const terminals = lin.layout.tables[k].instances.terminals;
+    const terminals = td.terminals;
     for (let q = 0; q < col.length; q++) if (col[q] !== 0) put(cols, temperatureParam, terminals[q], col[q]);
   });
 }
 
-/** Each resistor's, source's and device parameter's own rows. */
-function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], cols: Triples): void {
+/** Each resistor's, source's and device parameter's own rows (of the elements in `scope`, all without it). */
+function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], scope: Uint8Array | undefined, cols: Triples): void {
   const { kind, element, sourceOf, tableOf, instanceOf } = maps;
   const els = lin.layout.circuit.elements;
   const x = lin.x;
   for (let j = 0; j < kind.length; j++) {
     const e = element[j];
+    if (kind[j] === TEMPERATURE || (scope && !scope[e])) continue;
     if (kind[j] === RESISTANCE) {
       const g = lin.conductanceOf(e);
       const el = els[e];
@@ -361,19 +446,20 @@ function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: read
       const t = tableOf[e];
       const td = t >= 0 ? derivatives[t] : undefined;
       if (!td) continue;
+      const row = rowIn(td, instanceOf[e]);
+      if (row < 0) continue;
       const col = td.result.residualByParam[td.names.indexOf((params[j] as { param: string }).param)];
-      const terminals = lin.layout.tables[t].instances.terminals;
-      const first = instanceOf[e] * td.T;
-      for (let r = first; r < first + td.T; r++) put(cols, j, terminals[r], col[r]);
+      const first = row * td.T;
+      for (let r = first; r < first + td.T; r++) put(cols, j, td.terminals[r], col[r]);
     }
   }
 }
 
-/** Resistors with temperature coefficients: dg/dT = g·(d ln g/dT) on their KCL rows. */
-function resistorTemperatureColumns(lin: Linearisation, temperatureParam: number, cols: Triples): void {
+/** Resistors with temperature coefficients (in `scope`, all without it): dg/dT = g·(d ln g/dT) on their KCL rows. */
+function resistorTemperatureColumns(lin: Linearisation, temperatureParam: number, scope: Uint8Array | undefined, cols: Triples): void {
   const els = lin.layout.circuit.elements;
   for (const r of lin.layout.readers) {
-    if (r.kind !== 'conductance') continue;
+    if (r.kind !== 'conductance' || (scope && !scope[r.element])) continue;
     const el = els[r.element];
     // The slope is zero without a coefficient (`conductanceSlopeOf` says so too, after its look-ups).
     if (el.kind !== 'R' || !(el.tc1 || el.tc2)) continue;
@@ -448,7 +534,10 @@ class OutputGradient {
   }
 }
 
-/** One sparse transposed solve per output: its row of derivatives into `rows`, its value into `value`. */
+/**
+ * One sparse transposed solve per output: its row of derivatives into `rows`, its value into `value`. With `covered`
+ * (derivatives made for a scope), false as soon as an output's λ reaches a row that is not covered.
+ */
 function adjointRows(
   lin: Linearisation,
   maps: ElementMaps,
@@ -458,7 +547,8 @@ function adjointRows(
   params: readonly VariedParameter[],
   rows: DerivativeRows,
   value: Float64Array,
-): void {
+  covered: Uint8Array | undefined,
+): boolean {
   const temperatureColumn: (Float64Array | undefined)[] = derivatives.map((td) => (td && maps.temperatureParam >= 0 ? td.result.currentByParam[td.names.indexOf(TEMPERATURE_PARAMETER)] : undefined));
   // Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result.
   const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
@@ -476,10 +566,18 @@ function adjointRows(
     const c = terms.gradient;
     c.close();
     lin.solveTransposedSparse(c.index, c.value, lambda);
+    if (covered && !within(lambda, covered)) return false;
     addAdjointTerms(lambda, columns, rows);
     rows.close(sign);
     value[o] = sign * y;
   }
+  return true;
+}
+
+/** Whether every non-zero entry of λ lies in a covered row. */
+function within(lambda: { index: number[]; value: number[] }, covered: Uint8Array): boolean {
+  for (let k = 0; k < lambda.index.length; k++) if (lambda.value[k] !== 0 && !covered[lambda.index[k]]) return false;
+  return true;
 }
 
 /** −λ·∂F/∂p into the current row, over the rows of ∂F/∂p that λ reaches. */
@@ -572,10 +670,12 @@ class OutputTerms {
     const { maps, rows } = this;
     const t = maps.tableOf[e];
     const td = t >= 0 ? this.derivatives[t] : undefined;
-    if (!td || terminal >= td.N) return 0;
-    const i = maps.instanceOf[e];
+    // A device out of scope is read as nothing: its current's adjoint sits on its terminals' rows, which it stamps into,
+    // so `within` finds them uncovered (a device on ground alone carries no current and no derivative).
+    const i = td ? rowIn(td, maps.instanceOf[e]) : -1;
+    if (!td || i < 0 || terminal >= td.N) return 0;
     const q = i * td.N + terminal;
-    const terminals = this.lin.layout.tables[t].instances.terminals;
+    const terminals = td.terminals;
     const byV = td.result.currentByVoltage;
     for (let c = 0; c < td.T; c++) {
       const d = byV[q * td.T + c];

@@ -8,7 +8,9 @@
 // changed tolerance source as unchanged, fails it.
 
 import { describe, expect, it } from 'vitest';
-import { addCorners, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { addCorners, variationOf, type AnalysisSession } from '../../../shared-analysis/src/service';
+import { keptSpread } from '../../../shared-analysis/src/incremental';
+import { readTargets } from '../../../shared-analysis/src/checks/targets';
 import { dropNonFinite, keepFinite } from '../../../shared-analysis/src/output-guard';
 import { unkeptSpread } from '../../../shared-analysis/src/variation/index';
 import { rng } from '../../seeded-random';
@@ -142,6 +144,11 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
     const edited = text.replace(/^(RR7 \S+ \S+ )(\S+)/m, (_m, head: string) => `${head}3.9k`);
     expect(edited).not.toBe(text);
     const next = incremental(edited, first);
+    // The device derivatives and the columns ∂F/∂p are made for the edited cell's part alone (and the rail sources):
+    // its two transistors, and the other part of the output with Monte Carlo figures (cell 0: two more).
+    const { circuit, structures, documents, options } = next.analysis;
+    const spread = variationOf(circuit!, structures, documents, next.solver!, next.nominal!, readTargets(documents).targets, options, keptSpread(next.incremental, circuit!).reuse);
+    expect(spread!.devicesDerived).toBe(4);
     const outputs = expectSameSpread(next, cold(edited)).kept + next.analysis.variation!.stats.adjointSolves;
     // Cell 7: its reference current, its output and its load's target current, and the output with Monte Carlo figures.
     expect(next.analysis.variation!.stats.adjointSolves).toBe(4);
@@ -167,7 +174,7 @@ describe('the finiteness walk after a spread analysis that kept records', () => 
     const next = incremental(edited, first);
     addCorners(next.analysis, { solver: next.solver!, nominal: next.nominal!, incremental: next.incremental });
     const record = next.incremental!.spreadRecord!.record;
-    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length) };
+    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length), devicesDerived: 0 };
     detail.kept.fill(1);
     // Cell 11's two outputs were made again: the walk looks at those (and the stats), not at the kept ones.
     const fresh = record.specs.flatMap((s, o) => (s.structure?.endsWith(':QR11') ? [o] : []));

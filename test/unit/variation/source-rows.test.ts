@@ -19,6 +19,7 @@ const sens: SensitivityResult = {
   index: new Int32Array([0, 2, 1, 2]),
   derivative: new Float64Array([0.5, -0.25, 2, 0.125]),
   adjointSolves: 2,
+  devicesDerived: 0,
 };
 
 describe('source rows when several sources vary one parameter', () => {
