@@ -187,10 +187,12 @@ function handle(msg: ToWorker): void {
         const keep = (sent: SentAnalysis) => sentAnalyses.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         const ms = performance.now() - t0;
         if (parts.length <= SMALL_RESULT_PARTS) {
-          // Small: the whole result in one message (the main thread takes it in at once).
+          // Small: the header, whose findings the main thread publishes while the parts are made here, then every part
+          // in one message (taken in at once).
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, partsFollow: true });
           keep(prepare());
-          const inline = parts.map((make) => make());
-          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, inline });
+          const all = parts.map((make) => make());
+          post({ type: 'parts', id: msg.id, parts: all, sendMs: performance.now() - t0 - ms });
         } else {
           outgoing = { id: msg.id, parts };
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms });

@@ -355,6 +355,7 @@ function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: 
     lastRequestAt = Date.now();
     // The protocol: after shutdown, every request but exit fails with InvalidRequest.
     if (shuttingDown) throw new ResponseError(ErrorCodes.InvalidRequest, `The server is shutting down; the ${name} request is not answered.`);
+    if (settling) await settling;
     try {
       return await fn(params);
     } catch (e) {
@@ -410,6 +411,17 @@ function dependants(uri: string): string[] {
   return [...out];
 }
 
+/** While the rest of a small result whose diagnostics were published is on its way: what requests wait for. */
+let settling: Promise<void> | undefined;
+let settled: (() => void) | undefined;
+
+/** Lets the requests waiting for a small result's rest go on (it was accepted, or will not be). */
+function settle(): void {
+  settled?.();
+  settling = undefined;
+  settled = undefined;
+}
+
 async function pump(): Promise<void> {
   if (running || shuttingDown) return;
   const next = queue.values().next();
@@ -440,17 +452,23 @@ async function pump(): Promise<void> {
   try {
     // Corners cost many solves: publish the nominal findings first, the corner findings after.
     const cornersLater = settings.options.corners?.enabled !== false;
-    // The diagnostics of a large result go out as soon as its findings are in; hovers and the rest answer
-    // from the last analysis until the whole result is taken in (a code action on a new diagnostic waits
-    // for that). A small result is taken in at once, so its diagnostics go out with everything else.
-    const onFindings = (partial: Analysis) => {
-      if (!job.superseded && documents.get(uri)?.version === partial.version) publish(new Set([uri, ...Object.keys(partial.documents)]), uri, partial);
+    // The diagnostics go out as soon as the findings are in. While a large result is taken in, hovers and the rest
+    // answer from the last analysis (a code action on a new diagnostic waits for that); while a small one's rest
+    // is on its way (a few milliseconds), requests wait for it (`settling`), so each answers from the result
+    // whose diagnostics the editor has.
+    let early: Set<string> | undefined;
+    const onFindings = (partial: Analysis, small: boolean) => {
+      if (job.superseded || documents.get(uri)?.version !== partial.version) return;
+      early = new Set([uri, ...Object.keys(partial.documents)]);
+      publish(early, uri, partial);
+      if (small) settling ??= new Promise<void>((r) => (settled = r));
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
     if (current && current.version === analysis.version) {
-      accept(uri, analysis, ms);
+      accept(uri, analysis, ms, early);
+      settle();
       if (cornersLater && analysis.structures.length > 0 && !job.superseded) await cornerPhase(uri, analysis);
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
@@ -461,6 +479,7 @@ async function pump(): Promise<void> {
       if (!job.superseded) publishFailure(uri, message);
     }
   } finally {
+    settle();
     if (progressTimer) clearTimeout(progressTimer);
     progress?.done();
     running = undefined;
@@ -499,15 +518,26 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
 
-function accept(uri: string, analysis: Analysis, ms: number): void {
+/**
+ * Makes `analysis` the cached one of root `uri` and publishes what that changes. `early`: the documents whose diagnostics
+ * were published from this analysis when its findings were in; they are the same now (every finding was in, and the rest
+ * of the result adds none), so they go out again only when a document it includes stops being a root of its own here.
+ */
+function accept(uri: string, analysis: Analysis, ms: number, early?: Set<string>): void {
   const before = cache.get(uri);
   // The replaced analysis gives up the cards the new one shares with it past the edit: they are moved now.
   adoptKeptCards(analysis);
   cache.set(uri, { analysis, ms });
   // Documents this netlist includes are no longer netlists of their own.
-  for (const inc of Object.keys(analysis.documents)) if (inc !== uri && cache.has(inc)) cache.delete(inc);
+  let includedRoots = false;
+  for (const inc of Object.keys(analysis.documents)) {
+    if (inc === uri || !cache.has(inc)) continue;
+    cache.delete(inc);
+    includedRoots = true;
+  }
   const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
   for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
+  if (early && !includedRoots) for (const u of early) touched.delete(u);
   publish(touched, uri);
   // Only the size: the callback must not keep the replaced analysis alive.
   const replacedElements = before?.analysis.circuit?.elements.length ?? 0;

@@ -123,11 +123,21 @@ export class WorkerHost {
     for (const [uri, text] of this.texts) w.postMessage({ type: 'set-document', uri, text } satisfies ToWorker);
   }
 
+  /** The `parts` message each small result's header announced, by request id, until `analyse` takes it. */
+  private readonly following = new Map<number, Promise<FromWorker>>();
+
   private onMessage(msg: FromWorker): void {
     const p = this.pending.get(msg.id);
     if (!p) return;
     this.pending.delete(msg.id);
     clearTimeout(p.timer);
+    // Waited for from here, before the next message can arrive: the worker sends the parts unasked, right after the header.
+    if (msg.type === 'analysed' && msg.partsFollow) {
+      const parts = this.answerTo(msg.id, `${p.label} (its parts)`);
+      // Seen where `analyse` awaits it; this only keeps a failure before then from counting as unhandled.
+      parts.catch(() => undefined);
+      this.following.set(msg.id, parts);
+    }
     p.resolve(msg);
   }
 
@@ -166,18 +176,20 @@ export class WorkerHost {
     if (this.disposed) return Array.from({ length: count }, () => Promise.reject(new Error('The server is shutting down.')));
     if (!this.worker) this.start();
     const ids = Array.from({ length: count }, () => this.nextId++);
-    const answers = ids.map(
-      (id) =>
-        new Promise<FromWorker>((resolve, reject) => {
-          const timer = setTimeout(() => {
-            this.options.log(`${label} ran past ${Math.round(this.options.hardDeadlineMs / 1000)} s; restarting the analysis worker.`);
-            this.restart(new Error(`${label} took longer than ${Math.round(this.options.hardDeadlineMs / 1000)} s and was stopped.`));
-          }, this.options.hardDeadlineMs);
-          this.pending.set(id, { resolve, reject, started: Date.now(), label, timer });
-        }),
-    );
+    const answers = ids.map((id) => this.answerTo(id, label));
     this.worker!.postMessage(build(ids));
     return answers;
+  }
+
+  /** The worker's next message under `id`, within the hard deadline. */
+  private answerTo(id: number, label: string): Promise<FromWorker> {
+    return new Promise<FromWorker>((resolve, reject) => {
+      const timer = setTimeout(() => {
+        this.options.log(`${label} ran past ${Math.round(this.options.hardDeadlineMs / 1000)} s; restarting the analysis worker.`);
+        this.restart(new Error(`${label} took longer than ${Math.round(this.options.hardDeadlineMs / 1000)} s and was stopped.`));
+      }, this.options.hardDeadlineMs);
+      this.pending.set(id, { resolve, reject, started: Date.now(), label, timer });
+    });
   }
 
   /**
@@ -234,12 +246,12 @@ export class WorkerHost {
       /** Called after each part is merged (a hook for tests and logs). */
       onPart?: (index: number, parts: number) => void;
       /**
-       * For a result taken in slices (more than SMALL_RESULT_PARTS parts), called once every finding is
-       * in, before the rest (cards, elements, the point, structures) is taken in: `partial` has the header
-       * and the complete findings, enough to publish diagnostics. It is the object later parts are merged
-       * into; do not keep it past the call. A small result is taken in at once and not announced early.
+       * Called once every finding is in, before the rest (cards, elements, the point, structures) is taken in:
+       * `partial` has the header and the complete findings, enough to publish diagnostics. It is the object later
+       * parts are merged into; do not keep it past the call. `small`: the rest is a small result's, which arrives
+       * whole in one message and is merged at once (a few milliseconds); a large one's is taken in slices.
        */
-      onFindings?: (partial: Analysis) => void;
+      onFindings?: (partial: Analysis, small: boolean) => void;
       /**
        * The result of an earlier `analyse` of this root that the caller holds: the new result shares the cards the
        * worker finds unchanged. `held` is left as it is until the caller adopts the result (`adoptKeptCards`), which
@@ -263,22 +275,42 @@ export class WorkerHost {
     // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
     const stopIfSuperseded = (index: number) => {
       if (this.generation() === generation) return;
-      if (!msg.inline) this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
+      if (!msg.partsFollow) this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
       throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
     };
-    if (msg.inline) {
-      // A small result came whole: merged at once (a few milliseconds), no turns between parts.
-      msg.inline.forEach((part, index) => {
+    if (msg.partsFollow) {
+      const whole = await this.smallParts(msg, analysis, phases.onFindings);
+      const t1 = Date.now();
+      // A small result's parts came whole: merged at once (a few milliseconds), no turns between parts.
+      whole.parts.forEach((part, index) => {
         stopIfSuperseded(index);
         for (const _ of merge(index, part));
+        if (index === msg.findingParts - 1) phases.onFindings?.(analysis, true);
       });
       merger.finish();
-    } else {
-      await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
-      await inSlices(merger.finishSteps());
+      this.analysisIds.set(analysis, msg.id);
+      return { analysis, ms: msg.ms, sendMs: whole.sendMs, transferMs: Date.now() - t1 };
     }
+    await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
+    await inSlices(merger.finishSteps());
     this.analysisIds.set(analysis, msg.id);
     return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0 };
+  }
+
+  /**
+   * The `parts` message of a small result whose header is `msg` (`analysis` restored from it), with the findings
+   * announced first when the header carries them. The worker makes the parts after posting the header, so the
+   * diagnostics can go out meanwhile; the parts are merged a turn later, after the writes the announcement queued.
+   */
+  private async smallParts(msg: Extract<FromWorker, { type: 'analysed' }>, analysis: Analysis, onFindings: ((partial: Analysis, small: boolean) => void) | undefined): Promise<Extract<FromWorker, { type: 'parts' }>> {
+    const whole = this.following.get(msg.id);
+    this.following.delete(msg.id);
+    if (!whole) throw new Error('The worker announced the parts of a result that it then did not send.');
+    if (msg.findingParts === 0) onFindings?.(analysis, true);
+    const answer = await whole;
+    if (answer.type !== 'parts') throw this.failure(answer);
+    if (msg.findingParts === 0 && onFindings) await new Promise((r) => setImmediate(r));
+    return answer;
   }
 
   /**
@@ -290,7 +322,7 @@ export class WorkerHost {
     msg: Extract<FromWorker, { type: 'analysed' }>,
     merge: (index: number, part: AnalysisPart) => Generator<void, void, undefined>,
     stopIfSuperseded: (index: number) => void,
-    onFindings: ((partial: Analysis) => void) | undefined,
+    onFindings: ((partial: Analysis, small: boolean) => void) | undefined,
     uri: string,
   ): Promise<void> {
     const inFlight: Promise<FromWorker>[] = [];
@@ -309,7 +341,7 @@ export class WorkerHost {
       asked += count;
     };
     refill();
-    if (msg.findingParts === 0) onFindings?.(msg.analysis);
+    if (msg.findingParts === 0) onFindings?.(msg.analysis, false);
     for (let index = 0; index < msg.parts; index++) {
       stopIfSuperseded(index);
       const part = await inFlight.shift()!;
@@ -319,7 +351,7 @@ export class WorkerHost {
       // Within this slice's budget, a short collection now rather than a long one inside some later task.
       collectYoungGenerationPast(TAKE_IN_YOUNG_BYTES);
       await inSlices(merge(index, part.part), started);
-      if (index === msg.findingParts - 1) onFindings?.(msg.analysis);
+      if (index === msg.findingParts - 1) onFindings?.(msg.analysis, false);
       // Give queued editor requests a turn between parts.
       await new Promise((r) => setImmediate(r));
     }

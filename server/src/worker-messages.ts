@@ -61,11 +61,14 @@ export type ToWorker =
 /** Worker → main thread. */
 export type FromWorker =
   /**
-   * The analysis without its big arrays; `parts` more slices follow, each on request, the first `findingParts` of them its findings.
-   * A small result (at most SMALL_RESULT_PARTS parts) carries them all in `inline` instead: one message, no round trips.
-   * `ms`: the engine's time; `sendMs`: the time after it to make what this message carries (the header, and for a small result every part).
+   * The analysis without its big arrays; `parts` more slices follow, the first `findingParts` of them its findings: each
+   * on request, or for a small result (`partsFollow`: at most SMALL_RESULT_PARTS parts) all in one `parts` message under
+   * the same id, which the worker sends unasked right after this one (the main thread publishes the findings meanwhile).
+   * `ms`: the engine's time; `sendMs`: the time after it to make the header.
    */
-  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; inline?: AnalysisPart[] }
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; partsFollow?: boolean }
+  /** Every part of a small result, in order; `sendMs`: the time after the engine's to make the header and them. */
+  | { type: 'parts'; id: number; parts: AnalysisPart[]; sendMs: number }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }
@@ -77,7 +80,7 @@ export type FromWorker =
   /** `stopped`: the request was cancelled (the stop generation moved past the request's) at one of the engine's checks. */
   | { type: 'failed'; id: number; message: string; stopped?: boolean };
 
-/** A result of at most this many parts (a netlist of a few thousand elements) travels whole in its `analysed` message. */
+/** A result of at most this many parts (a netlist of a few thousand elements) travels in two messages, the header and then every part, unasked. */
 export const SMALL_RESULT_PARTS = 32;
 
 /**

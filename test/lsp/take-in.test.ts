@@ -39,8 +39,9 @@ describe('taking a result in', () => {
       let early: string | undefined;
       const { analysis } = await host.analyse(URI, 1, { corners: { enabled: false } }, {
         onPart: (index) => events.push(`part ${index}`),
-        onFindings: (partial) => {
+        onFindings: (partial, small) => {
           events.push('findings');
+          expect(small).toBe(false);
           // What a publish reads: the findings and the texts to place them; nothing else is in yet.
           early = JSON.stringify(partial.findings);
           expect(partial.documents[URI]?.text).toBe(text);
@@ -57,11 +58,22 @@ describe('taking a result in', () => {
       expect(events[0]).toBe('findings');
       expect(events.length).toBeGreaterThan(33);
       expect(analysis.circuit?.elements.length).toBe(7005);
-      // A small result (1,200 rungs: fewer parts) is taken in at once and not announced early.
-      host.setDocument(URI, netlist(1200));
-      let announced = 0;
-      await host.analyse(URI, 2, { corners: { enabled: false } }, { onFindings: () => announced++ });
-      expect(announced).toBe(0);
+      // A small result (1,200 rungs: fewer parts) is announced from its header too, before its parts arrive in one
+      // message, and marked small (the server holds requests for the few milliseconds until it is taken in).
+      const smallText = netlist(1200);
+      host.setDocument(URI, smallText);
+      const announced: { findings: string; elements: number; small: boolean }[] = [];
+      let partsBeforeAnnounced = 0;
+      const small = await host.analyse(URI, 2, { corners: { enabled: false } }, {
+        onPart: () => {
+          if (announced.length === 0) partsBeforeAnnounced++;
+        },
+        onFindings: (partial, isSmall) => announced.push({ findings: JSON.stringify(partial.findings), elements: partial.circuit?.elements.length ?? 0, small: isSmall }),
+      });
+      const smallDirect = analyse({ uri: URI, text: smallText, version: 2 }, new MemoryWorkspace({ [URI]: smallText }), { corners: { enabled: false } });
+      expect(announced).toEqual([{ findings: JSON.stringify(smallDirect.findings), elements: 0, small: true }]);
+      expect(partsBeforeAnnounced).toBe(0);
+      expect(small.analysis.circuit?.elements.length).toBe(smallDirect.circuit?.elements.length);
     } finally {
       host.dispose();
     }
