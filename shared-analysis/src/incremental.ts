@@ -80,6 +80,8 @@ export interface IncrementalState {
   elaboration?: KeptElaboration;
   /** The device judgements of this analysis element by element, before the flood limit (`judgeEachDevice`); undefined when nothing was judged. */
   devices?: (Finding[] | undefined)[];
+  /** The part solves of this analysis's nominal start (`ValueEdit.nominalStart`), which the next edit of the same parts moves on. */
+  nominalParts?: PartStarts;
 }
 
 /** A corner's converged solution, the nominal solution it was solved around and the resistances it was solved with (`resistancesOf`). */
@@ -493,6 +495,8 @@ export class ValueEdit {
   private pristine: Structure[] = [];
   /** Which nodes and elements moved from the basis (set by `structuresAt`). */
   private movement?: { movedNode: Uint8Array; movedElement: Uint8Array };
+  /** The part solves of the nominal start (set by `nominalStart`), for the next edit. */
+  nominalParts?: PartStarts;
 
   private constructor(
     readonly previous: IncrementalState,
@@ -533,7 +537,10 @@ export class ValueEdit {
     const prev = this.previous;
     const temperatureC = options.temperatureC ?? this.circuit.temperatureC;
     if (warm.temperatureC !== temperatureC) return warm.x;
-    const parts = new PartStarts({ circuit: this.circuit, unknowns: prev.solver.unknowns, rail: prev.index.rail, partOf: prev.index.parts.ofElement }, resistancesOf(prev.circuit));
+    const whole = { circuit: this.circuit, unknowns: prev.solver.unknowns, rail: prev.index.rail, partOf: prev.index.parts.ofElement };
+    const before = resistancesOf(prev.circuit);
+    // An editor changing one value again and again: the last edit's part solvers take the new values in place.
+    const parts = (this.nominalParts = prev.nominalParts ? prev.nominalParts.followedBy(whole, before) : new PartStarts(whole, before));
     const start = Float64Array.from(warm.x);
     return parts.refine(start, warm.x, { ...options, temperatureC }) ? start : warm.x;
   }
@@ -844,6 +851,7 @@ export class IncrementalKeeper {
       document,
       ...(elaboration ? { elaboration } : {}),
       ...(devices ? { devices } : {}),
+      ...(this.edit?.nominalParts ? { nominalParts: this.edit.nominalParts } : {}),
       ...(previous?.corners ? { corners: previous.corners } : {}),
       ...(previous?.cornerRecord ? { cornerRecord: previous.cornerRecord } : {}),
       ...(previous?.spreadRecord ? { spreadRecord: previous.spreadRecord } : {}),

@@ -60,10 +60,26 @@ export function resistancesOf(circuit: Circuit): Float64Array {
  * circuit has a kind that reads across parts, nothing changed, the parts are large, or a part solve did not converge.
  */
 export class PartStarts {
-  private readonly solves: { now: PartSolve; before: PartSolve } | undefined;
+  private solves: { now: PartSolve; before: PartSolve } | undefined;
 
-  constructor(whole: PartCircuit, before: Float64Array) {
-    this.solves = partSolves(whole, before);
+  constructor(whole: PartCircuit, before: Float64Array, solves: { now: PartSolve; before: PartSolve } | undefined = partSolves(whole, before)) {
+    this.solves = solves;
+  }
+
+  /**
+   * The part starts of the next value edit, whose circuit is `whole` and whose last values are `before` (this one's
+   * new values): when it changed resistors in the same parts (an editor changing one value again and again), this
+   * one's solvers are moved on instead of built again, the one with the new values becoming the next `before` and the
+   * other taking the newest values in place (`DcSolver.adoptValues`). This one is spent either way (its solvers may
+   * now hold other values): a state an edit stopped half-way returns to builds its part starts afresh.
+   */
+  followedBy(whole: PartCircuit, before: Float64Array): PartStarts {
+    const last = this.solves;
+    this.solves = undefined;
+    const chosen = partElements(whole, before);
+    if (!chosen) return new PartStarts(whole, before, undefined);
+    const reused = last && last.now.holds(chosen, whole.circuit, before) ? last.before.movedTo(whole.circuit) : undefined;
+    return new PartStarts(whole, before, reused ? { now: reused, before: last!.now } : solvesOf(whole, chosen, before));
   }
 
   /**
@@ -100,6 +116,23 @@ const RAIL_CURRENT = 1;
 const RAIL_VOLTAGE = 2;
 
 function partSolves(whole: PartCircuit, before: Float64Array): { now: PartSolve; before: PartSolve } | undefined {
+  const chosen = partElements(whole, before);
+  return chosen && solvesOf(whole, chosen, before);
+}
+
+/** The part solves of the elements `chosen` (`partElements`) with the circuit's values and with `before`'s. */
+function solvesOf(whole: PartCircuit, chosen: readonly number[], before: Float64Array): { now: PartSolve; before: PartSolve } | undefined {
+  const globalOf = globalUnknowns(whole.unknowns);
+  const now = PartSolve.of(whole, globalOf, chosen, (el) => el);
+  const old = PartSolve.of(whole, globalOf, chosen, (el, i) => (el.kind === 'R' && !Object.is(el.resistance, before[i]) ? { ...el, resistance: before[i] } : el));
+  return now && old ? { now, before: old } : undefined;
+}
+
+/**
+ * The elements of the parts holding a resistor whose value differs from `before`, with the sources that hold the rails,
+ * in circuit order; undefined when nothing changed, the circuit has a kind that reads across parts, or the parts are large.
+ */
+function partElements(whole: PartCircuit, before: Float64Array): number[] | undefined {
   const { circuit, rail, partOf } = whole;
   const elements = circuit.elements;
   if (before.length !== elements.length) return undefined;
@@ -125,11 +158,7 @@ function partSolves(whole: PartCircuit, before: Float64Array): { now: PartSolve;
     else if ((el.kind === 'V' || el.kind === 'L') && onRails(el.nodes, rail)) railSources.push(i);
   }
   if (inParts.length > Math.max(ALWAYS_ELEMENTS, elements.length * MOST_ELEMENTS_SHARE)) return undefined;
-  const chosen = [...inParts, ...railSources].sort((a, b) => a - b);
-  const globalOf = globalUnknowns(whole.unknowns);
-  const now = PartSolve.of(whole, globalOf, chosen, (el) => el);
-  const old = PartSolve.of(whole, globalOf, chosen, (el, i) => (el.kind === 'R' && !Object.is(el.resistance, before[i]) ? { ...el, resistance: before[i] } : el));
-  return now && old ? { now, before: old } : undefined;
+  return [...inParts, ...railSources].sort((a, b) => a - b);
 }
 
 /** Whether every node of a list is a rail. */
@@ -184,6 +213,36 @@ class PartSolve {
       kind[k] = u.kind === 'branch' && circuit.elements[e]!.nodes.every((x) => rail[x] === 1) ? RAIL_CURRENT : PART_UNKNOWN;
     }
     return new PartSolve(solver, part, Int32Array.from(chosen), toGlobal, kind);
+  }
+
+  /** Whether this part is made of the elements `chosen` of `circuit` (a value edit of its circuit) with the resistances `values` holds for them. */
+  holds(chosen: readonly number[], circuit: Circuit, values: Float64Array): boolean {
+    if (chosen.length !== this.elements.length) return false;
+    for (let k = 0; k < chosen.length; k++) {
+      const i = chosen[k]!;
+      const mine = this.circuit.elements[k]!;
+      if (i !== this.elements[k] || mine.kind !== circuit.elements[i]!.kind || (mine.kind === 'R' && !Object.is(mine.resistance, values[i]))) return false;
+    }
+    return true;
+  }
+
+  /**
+   * This part with the values of `circuit` (a value edit of the circuit it was made from, `holds` its elements): the
+   * solver takes the changed resistances in place and is shared with the result, so this part is not to be solved
+   * again. Undefined when the solver cannot take them (the caller builds the part afresh).
+   */
+  movedTo(circuit: Circuit): PartSolve | undefined {
+    const changed: number[] = [];
+    const elements = new Array<Element>(this.elements.length);
+    for (let k = 0; k < elements.length; k++) {
+      const mine = this.circuit.elements[k]!;
+      const el = circuit.elements[this.elements[k]!]!;
+      elements[k] = { ...el, nodes: mine.nodes } as Element;
+      if (el.kind === 'R' && mine.kind === 'R' && !Object.is(el.resistance, mine.resistance)) changed.push(k);
+    }
+    const part: Circuit = { ...circuit, nodes: this.circuit.nodes, elements };
+    delete part.detachedNodes;
+    return this.solver.adoptValues(part, changed) ? new PartSolve(this.solver, part, this.elements, this.toGlobal, this.kind) : undefined;
   }
 
   /** The part solved at `options` from the whole circuit's `start` (vectors of its own); undefined when Newton did not converge. */

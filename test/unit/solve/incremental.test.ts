@@ -4,10 +4,11 @@
 // independent computation): the point to 1e-12, every finding's code, place and text exactly, the structures'
 // figures, and then the corner phase on both. A kept structure that should have changed fails the comparison.
 
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { addCorners, AnalysisStopped, type AnalysisSession } from '../../../shared-analysis/src/service';
 import type { CornerStats } from '../../../shared-analysis/src/checks/corners';
 import { revertValueEdit, valueChanges } from '../../../shared-analysis/src/incremental';
+import { DcSolver } from '../../../shared-analysis/src/solve/dc';
 import { rng } from '../../seeded-random';
 import { BJT_CELL } from '../checks/self-biased-cells';
 import { coldSession, editedSession, expectSameAnalysis, expectSameCorners, randomValueEdit } from './same-analysis';
@@ -335,6 +336,55 @@ RDANGLE x open 3.3k
     const next = incremental(again, first);
     expect(next.solver).toBe(first.solver);
     expectColdResult(next, cold(again));
+  });
+
+  it('moves the part solvers of the nominal start on while edits keep to the same parts, and each result equals a cold analysis', () => {
+    // Counted, not timed: an edit whose part solvers are moved on calls DcSolver.adoptValues twice (the whole circuit's
+    // solver and the part's); one that builds them afresh, once.
+    const adopt = vi.spyOn(DcSolver.prototype, 'adoptValues');
+    try {
+      const text = sinkCells(8);
+      let session = incremental(text);
+      let current = text;
+      const edit = (card: string, value: string, stop?: () => boolean): number => {
+        current = current.replace(new RegExp(`^${card} (\\S+ \\S+) \\S+`, 'm'), `${card} $1 ${value}`);
+        adopt.mockClear();
+        const next = incremental(current, session, stop);
+        const calls = adopt.mock.calls.length;
+        expectColdResult(next, cold(current));
+        expect(next.nominal!.stats.iterations, `${card} = ${value}`).toBe(1);
+        session = next;
+        return calls;
+      };
+      // One value again and again, then the load of the same cell (the same part), then another cell's, then back.
+      const calls = [edit('RR2', '12.5k'), edit('RR2', '11k'), edit('RR2', '13.3k'), edit('RL2', '2.7k'), edit('RR5', '9.1k'), edit('RR5', '10k'), edit('RR2', '12k')];
+      expect(calls).toEqual([1, 2, 2, 2, 1, 2, 1]);
+      // An analysis stopped at any check, after its nominal start took the solvers or before: the state the worker goes
+      // back to (`revertValueEdit`) builds them afresh or moves them on, and the next edit still equals a cold analysis.
+      let stops = 0;
+      for (let stopAt = 1; ; stopAt++) {
+        stops = stopAt;
+        const before = current;
+        let asked = 0;
+        const stopped = (() => {
+          try {
+            edit('RR5', `${9 + stopAt / 10}k`, () => ++asked >= stopAt);
+            return false;
+          } catch (e) {
+            if (!(e instanceof AnalysisStopped)) throw e;
+            return true;
+          }
+        })();
+        if (!stopped) break;
+        current = before;
+        revertValueEdit(session.incremental!);
+        edit('RR5', `${11 + stopAt / 10}k`);
+      }
+      // Every stage's check and the Newton iteration's were a stop (the nominal start runs before the iteration's).
+      expect(stops).toBeGreaterThan(5);
+    } finally {
+      adopt.mockRestore();
+    }
   });
 
   it('keeps the corner solutions of a corner phase stopped half-way, and the next corner phase equals a cold one', () => {
