@@ -170,155 +170,127 @@ function byteChunks(write: (bytes: Uint8Array) => void, transform: (bytes: Buffe
 /** Writes `value` into `out` (see `writeJson`). */
 function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
   const step = options.indent && options.indent > 0 ? ' '.repeat(Math.min(10, options.indent)) : '';
-  const emit = (s: string): void => out.add(s);
-  const colon = step ? ': ' : ':';
+  new JsonWriter(out, step).put(value, step.repeat(Math.max(0, options.depth ?? 0)));
+  out.end();
+}
+
+/**
+ * The walk of one document. Its steps are methods of one class rather than closures made per document or per
+ * table, so each is one function for V8 whatever it writes: a closure made per table (a batch's flush, say) was a
+ * new call target at every table, and the writer's loops were given up and compiled again at each (six times for
+ * the streamed tables of a 20,000-element array).
+ */
+class JsonWriter {
+  private readonly colon: string;
+
+  constructor(
+    private readonly out: JsonOut,
+    /** One level of indentation; empty: compact. */
+    readonly step: string,
+  ) {
+    this.colon = step ? ': ' : ':';
+  }
+
+  emit(s: string): void {
+    this.out.add(s);
+  }
 
   /** The native writer's text of `v` at `indent`: its first line unindented, the rest indented as the document needs. */
-  const native = (v: unknown, indent: string): string => (step && indent ? indented(v, indent.length / step.length, step) : JSON.stringify(v, null, step));
-
-  /**
-   * Gathers consecutive items of a list or members of an object that are each of modest size and
-   * hold no JsonEntries into one list (object) of at most `SMALL_BUDGET` values, which the native
-   * writer writes in one call: its text without the brackets is the items' text with their
-   * separators and indentation, as writing them one by one gives. A call per item (a device
-   * record, a structure) cost more than writing the item.
-   */
-  class Batch {
-    private items: unknown[] | Record<string, unknown> | undefined;
-    private used = 0;
-
-    constructor(
-      private readonly list: boolean,
-      private readonly indent: string,
-      /** The separator before the next piece of the list or object ("[" or "{" first, then ","). */
-      private readonly separator: () => string,
-    ) {}
-
-    /** Takes the item (member `key` of an object) when it is small enough; false when it must be written alone. */
-    add(item: unknown, key?: string): boolean {
-      const w = weight(item);
-      if (w < 0) return false;
-      if (this.used + w > SMALL_BUDGET) this.write();
-      if (this.list) ((this.items ??= []) as unknown[]).push(item);
-      else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
-      this.used += w;
-      return true;
-    }
-
-    /** Writes what was gathered (after the separator before it) and starts again. */
-    write(): void {
-      if (this.items === undefined) return;
-      const text = native(this.items, this.indent);
-      this.items = undefined;
-      this.used = 0;
-      emitInside(this.separator(), text, this.indent);
-    }
+  native(v: unknown, indent: string): string {
+    const step = this.step;
+    return step && indent ? indented(v, indent.length / step.length, step) : JSON.stringify(v, null, step);
   }
 
   /** A batch's text after `separator`, without its brackets: "[" … "]" compact; "[" … "\n" + indent + "]" indented. */
-  const emitInside = (separator: string, text: string, indent: string): void => out.addInside(separator, text, step ? indent.length + 2 : 1);
+  emitInside(separator: string, text: string, indent: string): void {
+    this.out.addInside(separator, text, this.step ? indent.length + 2 : 1);
+  }
 
   /** Writes a list's item alone (too large to be gathered), after its separator. */
-  const putItem = (item: unknown, inner: string, separator: string): void => {
-    emit(separator);
-    if (step) emit('\n' + inner);
-    put(item, inner);
-  };
+  private putItem(item: unknown, inner: string, separator: string): void {
+    this.emit(separator);
+    if (this.step) this.emit('\n' + inner);
+    this.put(item, inner);
+  }
 
   /** Writes member `k` (a name that is not to be gathered, or a value too large to be) alone, after its separator. */
-  const putMember = (k: string, item: unknown, inner: string, separator: string): void => {
-    emit(separator);
-    if (step) emit('\n' + inner);
-    emit(JSON.stringify(k) + colon);
-    put(item, inner);
-  };
+  private putMember(k: string, item: unknown, inner: string, separator: string): void {
+    this.emit(separator);
+    if (this.step) this.emit('\n' + inner);
+    this.emit(JSON.stringify(k) + this.colon);
+    this.put(item, inner);
+  }
 
   /**
    * A streamed table of modest values (`JsonEntries` with `modestValues`: the node voltages, the device
    * records, the power table): members gathered by count, the count set by the weight of each batch's first
-   * member, so the writer walks one member per batch. A loop of its own, not the walk of every other object:
-   * per member it tests the name and counts, with no call into a batch that weighs or resolves (tens of
-   * thousands of members at 20,000 elements, where the other objects of the document are a few hundred).
+   * member, so the writer weighs one member per batch (tens of thousands of members at 20,000 elements, where
+   * the other objects of the document are a few hundred). The members after a batch's first are taken by
+   * `gatherMembers`, a loop of its own.
    */
-  const putModestMembers = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
-    const inner = indent + step;
-    let separator = '{';
-    let batch: Record<string, unknown> | undefined;
-    let count = 0;
-    let limit = 0;
-    const flush = (): void => {
-      if (batch === undefined) return;
-      emitInside(separator, native(batch, indent), indent);
-      separator = ',';
-      batch = undefined;
-      count = 0;
-    };
-    for (const [k, member] of members) {
-      if (!writable(member)) continue;
+  private putModestMembers(members: Iterable<readonly [string, unknown]>, indent: string): void {
+    const inner = indent + this.step;
+    const batch = new Batch(this, false, indent);
+    const it = members[Symbol.iterator]();
+    let next = it.next();
+    while (!next.done) {
+      const [k, member] = next.value;
+      if (!writable(member)) {
+        next = it.next();
+        continue;
+      }
       // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
-      if (isArrayIndex(k) || (count === 0 && (limit = Math.floor(SMALL_BUDGET / weight(member))) <= 0)) {
-        flush();
-        putMember(k, member, inner, separator);
-        separator = ',';
+      const limit = isArrayIndex(k) ? 0 : Math.floor(SMALL_BUDGET / weight(member));
+      if (limit <= 0) {
+        batch.write();
+        this.putMember(k, member, inner, batch.separator());
+        next = it.next();
         continue;
       }
       // A modest value holds nothing streamed, so the native writer that takes its batch calls any toJSON it has.
-      (batch ??= Object.create(null) as Record<string, unknown>)[k] = member;
-      if (++count >= limit) flush();
+      batch.take(member, k);
+      next = gatherMembers(it, batch, limit);
+      batch.write();
     }
-    flush();
-    if (separator === '{') emit('{}');
-    else emit(step ? '\n' + indent + '}' : '}');
-  };
+    batch.close();
+  }
 
-  /** `JsonItems`: items gathered by count as `putModestMembers` gathers members, in a loop of its own for the same reason. */
-  const putModestItems = (items: JsonItems, indent: string): void => {
-    if (items.length === 0) {
-      emit('[]');
-      return;
-    }
-    const inner = indent + step;
-    let separator = '[';
-    let batch: unknown[] = [];
-    let limit = 0;
-    const flush = (): void => {
-      if (batch.length === 0) return;
-      emitInside(separator, native(batch, indent), indent);
-      separator = ',';
-      batch = [];
-    };
-    for (let i = 0; i < items.length; i++) {
-      const item = resolved(items.item(i));
-      if (batch.length === 0 && (limit = Math.floor(SMALL_BUDGET / weight(item))) <= 0) {
-        putItem(item, inner, separator);
-        separator = ',';
+  /** `JsonItems`: items gathered by count as `putModestMembers` gathers members, by `gatherItems`. */
+  private putModestItems(items: JsonItems, indent: string): void {
+    const inner = indent + this.step;
+    const batch = new Batch(this, true, indent);
+    for (let i = 0; i < items.length; ) {
+      const item = resolved(items.item(i++));
+      const limit = Math.floor(SMALL_BUDGET / weight(item));
+      if (limit <= 0) {
+        this.putItem(item, inner, batch.separator());
         continue;
       }
-      batch.push(item);
-      if (batch.length >= limit) flush();
+      batch.take(item);
+      i = gatherItems(items, i, batch, limit);
+      batch.write();
     }
-    flush();
-    emit(step ? '\n' + indent + ']' : ']');
-  };
+    batch.close();
+  }
 
   /** Writes v (already known to be writable) at the given indentation. */
-  const put = (v: unknown, indent: string): void => {
+  put(v: unknown, indent: string): void {
     if (v instanceof JsonText) {
-      for (const piece of v.pieces) emit(piece);
+      for (const piece of v.pieces) this.emit(piece);
       return;
     }
     if (v instanceof JsonEntries) {
-      if (v.modestValues) putModestMembers(v.entries(), indent);
-      else putObject(v.entries(), indent);
+      if (v.modestValues) this.putModestMembers(v.entries(), indent);
+      else this.putObject(v.entries(), indent);
       return;
     }
     if (v instanceof JsonItems) {
-      putModestItems(v, indent);
+      this.putModestItems(v, indent);
       return;
     }
     v = resolved(v);
     if (v === null || typeof v !== 'object') {
-      emit(JSON.stringify(v) ?? 'null');
+      this.emit(JSON.stringify(v) ?? 'null');
       return;
     }
     // A value of modest size holding no JsonEntries (a record, a range, a structure's estimate with
@@ -326,69 +298,130 @@ function writeTo(value: unknown, out: JsonOut, options: WriteOptions): void {
     // member. Lists and objects that are large, or hold JsonEntries, are walked, their small items
     // gathered into batches.
     if (weight(v) >= 0) {
-      emit(native(v, indent));
+      this.emit(this.native(v, indent));
       return;
     }
     if (Array.isArray(v)) {
-      const list = v;
-      putList(list, indent);
+      this.putList(v, indent);
       return;
     }
     const o = v as Record<string, unknown>;
-    putObject(members(o, Object.keys(o)), indent);
-  };
+    this.putObject(members(o, Object.keys(o)), indent);
+  }
 
-  const putList = (list: readonly unknown[], indent: string): void => {
-    if (list.length === 0) {
-      emit('[]');
-      return;
-    }
-    const inner = indent + step;
-    let first = true;
-    const separator = (): string => {
-      const s = first ? '[' : ',';
-      first = false;
-      return s;
-    };
-    const batch = new Batch(true, indent, separator);
+  private putList(list: readonly unknown[], indent: string): void {
+    const inner = indent + this.step;
+    const batch = new Batch(this, true, indent);
     for (let i = 0; i < list.length; i++) {
       const item = resolved(list[i]);
       if (batch.add(item)) continue;
       batch.write();
-      putItem(item, inner, separator());
+      this.putItem(item, inner, batch.separator());
     }
-    batch.write();
-    if (step) emit('\n' + indent);
-    emit(']');
-  };
+    batch.close();
+  }
 
-  const putObject = (members: Iterable<readonly [string, unknown]>, indent: string): void => {
-    const inner = indent + step;
-    let first = true;
-    const separator = (): string => {
-      const s = first ? '{' : ',';
-      first = false;
-      return s;
-    };
-    const batch = new Batch(false, indent, separator);
+  private putObject(members: Iterable<readonly [string, unknown]>, indent: string): void {
+    const inner = indent + this.step;
+    const batch = new Batch(this, false, indent);
     for (const [k, member] of members) {
       const item = resolved(member);
       if (!writable(item)) continue;
       // An integer-like name would move to the front of a gathered object: it is written alone, in its place.
       if (!isArrayIndex(k) && batch.add(item, k)) continue;
       batch.write();
-      putMember(k, item, inner, separator());
+      this.putMember(k, item, inner, batch.separator());
     }
-    batch.write();
-    if (first) emit('{}');
-    else {
-      if (step) emit('\n' + indent);
-      emit('}');
-    }
-  };
+    batch.close();
+  }
+}
 
-  put(value, step.repeat(Math.max(0, options.depth ?? 0)));
-  out.end();
+/**
+ * One list's or object's writing: consecutive items (members) that are each of modest size and hold no
+ * JsonEntries are gathered into one list (object) of at most `SMALL_BUDGET` values, which the native writer
+ * writes in one call: its text without the brackets is the items' text with their separators and indentation,
+ * as writing them one by one gives. A call per item (a device record, a structure) cost more than writing the
+ * item. It also keeps the separator before the next piece ("[" or "{" first, then ",") and closes the list.
+ */
+class Batch {
+  private items: unknown[] | Record<string, unknown> | undefined = undefined;
+  private used = 0;
+  /** Items (members) gathered since the last write. */
+  count = 0;
+  private first = true;
+
+  constructor(
+    private readonly writer: JsonWriter,
+    private readonly list: boolean,
+    private readonly indent: string,
+  ) {}
+
+  /** The separator before the next piece written. */
+  separator(): string {
+    if (!this.first) return ',';
+    this.first = false;
+    return this.list ? '[' : '{';
+  }
+
+  /** Takes the item (member `key` of an object) when it is small enough; false when it must be written alone. */
+  add(item: unknown, key?: string): boolean {
+    const w = weight(item);
+    if (w < 0) return false;
+    if (this.used + w > SMALL_BUDGET) this.write();
+    this.take(item, key);
+    this.used += w;
+    return true;
+  }
+
+  /** Takes the item (member `key` of an object) unweighed: its caller counts. */
+  take(item: unknown, key?: string): void {
+    if (this.list) ((this.items ??= []) as unknown[]).push(item);
+    else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
+    this.count++;
+  }
+
+  /** Writes what was gathered (after the separator before it) and starts again. */
+  write(): void {
+    if (this.items === undefined) return;
+    const text = this.writer.native(this.items, this.indent);
+    this.items = undefined;
+    this.used = 0;
+    this.count = 0;
+    this.writer.emitInside(this.separator(), text, this.indent);
+  }
+
+  /** Writes what is left and the closing bracket ("[]" or "{}" when nothing was written). */
+  close(): void {
+    this.write();
+    const w = this.writer;
+    if (this.first) w.emit(this.list ? '[]' : '{}');
+    else w.emit((w.step ? '\n' + this.indent : '') + (this.list ? ']' : '}'));
+  }
+}
+
+/**
+ * Takes members from `it` into `batch` until it holds `limit` or a member must be written alone (an integer-like
+ * name); returns the entry that stopped it (`done` at the end). The loop a large table spends its time in, apart
+ * from the batches' writing: every path out of it is the loop's own test, so the code V8 compiles for it while it
+ * runs (on stack replacement) is not given up at the first batch that fills, as a loop that wrote the batch itself was.
+ */
+function gatherMembers(it: Iterator<readonly [string, unknown]>, batch: Batch, limit: number): IteratorResult<readonly [string, unknown]> {
+  let next = it.next();
+  while (!next.done && batch.count < limit) {
+    const entry = next.value;
+    if (writable(entry[1])) {
+      if (isArrayIndex(entry[0])) break;
+      batch.take(entry[1], entry[0]);
+    }
+    next = it.next();
+  }
+  return next;
+}
+
+/** Takes items from `i` on into `batch` until it holds `limit` or the list ends; returns the index of the next item (see `gatherMembers`). */
+function gatherItems(items: JsonItems, i: number, batch: Batch, limit: number): number {
+  while (i < items.length && batch.count < limit) batch.take(resolved(items.item(i++)));
+  return i;
 }
 
 /**

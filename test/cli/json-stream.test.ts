@@ -109,6 +109,21 @@ describe('writeJson', () => {
     }
   });
 
+  it('writes modest entries and items that skip undefined members or are too heavy to gather as JSON.stringify does', () => {
+    // Batches end at a member left out (undefined), at one heavier than a batch (written alone) and at the table's
+    // end, in the middle of a batch and right after one is full: the gathering loop's every way out.
+    const huge = { values: Array.from({ length: 5000 }, (_, k) => k) };
+    const valueAt = (i: number): unknown => (i % 11 === 0 ? undefined : i % 401 === 0 ? huge : i % 3 === 0 ? { i, x: i / 7 } : i * 0.5);
+    for (const n of [0, 1, 4095, 4096, 4097, 9000]) {
+      const entries = new JsonEntries(function* () {
+        for (let i = 1; i <= n; i++) yield [`m${i}`, valueAt(i)];
+      }, true);
+      const items = new JsonItems(n, (i) => valueAt(i + 1) ?? null);
+      const plain = { entries: Object.fromEntries(Array.from({ length: n }, (_, i) => [`m${i + 1}`, valueAt(i + 1)])), items: Array.from({ length: n }, (_, i) => valueAt(i + 1) ?? null) };
+      for (const indent of [0, 2]) expect(written({ entries, items }, indent).text).toBe(JSON.stringify(plain, null, indent));
+    }
+  });
+
   it('hands a long document over in pieces, never as one string', () => {
     const rows = new JsonEntries(function* () {
       for (let i = 0; i < 50000; i++) yield [`R${i}`, { type: 'resistor', current: i * 1e-6, voltage: 1, power: i * 1e-6 }];
