@@ -7,7 +7,7 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
+import { FigureSink, plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
 import { findRails } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -391,7 +391,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const sameCorners = reuse !== undefined && sameBytes(reuse.record.converged, axis.converged);
   // The nominal point measured as the corners were, as a one-corner column of every output whose findings are made
   // afresh: the plans already flat, one reader for every structure, and no name-keyed record per structure.
-  const nominalFigures = figureBuffers(structures.length, flat.outStart[structures.length], 0, 1);
+  const nominalFigures = new CornerBuffers(structures.length, flat.outStart[structures.length], 0, 1);
   const nominalReader = readerOf(nominal.op, topology);
   const byStructure: Finding[][] = new Array(structures.length);
   let keptFindings = 0;
@@ -524,13 +524,22 @@ function solveCorner(
   }
 }
 
-/** The circuit's corner figures, one buffer per quantity: structure i's IREF at corner k at i·C + k, output o's (counted over every structure in order) at o·C + k. */
-export interface CornerBuffers {
-  corners: number;
-  iref: Float64Array;
-  sink: OutputSink;
+/**
+ * The circuit's corner figures, one buffer per quantity: structure i's IREF at corner k at i·C + k, output o's
+ * (counted over every structure in order) at o·C + k; zeroed, the voltages NaN. A class for the reason
+ * `FigureSink` is one.
+ */
+export class CornerBuffers {
+  readonly iref: Float64Array;
+  readonly sink: FigureSink;
   /** Voltage v (counted over every structure in order) at corner k at v·C + k. */
-  volts: Float64Array;
+  readonly volts: Float64Array;
+
+  constructor(structures: number, outputs: number, voltages: number, readonly corners: number) {
+    this.iref = new Float64Array(structures * corners);
+    this.sink = new FigureSink(outputs * corners, corners);
+    this.volts = new Float64Array(voltages * corners).fill(NaN);
+  }
 }
 
 /**
@@ -579,12 +588,6 @@ function measureStructureAt(plans: MeasurementPlans, p: number, reader: PointInd
     current[o * C + k] = finite(current[o * C + k]);
     headroom[o * C + k] = finite(headroom[o * C + k]);
   }
-}
-
-/** Zeroed buffers for the figures of `structures` structures, `outputs` outputs and `voltages` derived voltages (NaN) at C corners (see `CornerBuffers`). */
-function figureBuffers(structures: number, outputs: number, voltages: number, C: number): CornerBuffers {
-  const sink: OutputSink = { current: new Float64Array(outputs * C), headroom: new Float64Array(outputs * C), outOfRegion: new Uint8Array(outputs * C), first: 0, stride: C };
-  return { corners: C, iref: new Float64Array(structures * C), sink, volts: new Float64Array(voltages * C).fill(NaN) };
 }
 
 /**
@@ -636,7 +639,7 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
     outputs += s.outputs.length;
     voltages += s.voltages?.length ?? 0;
   }
-  const buffers = figureBuffers(structures.length, outputs, voltages, C);
+  const buffers = new CornerBuffers(structures.length, outputs, voltages, C);
   const { iref } = buffers;
   const { current: iout, headroom, outOfRegion } = buffers.sink;
   const { volts } = buffers;

@@ -3,7 +3,7 @@
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
 import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
@@ -558,7 +558,7 @@ export class BjtTable implements DeviceTable {
       this.gb[i] = seriesConductance(t[i * T + B] !== t[i * T + BI], mp[M_RB], scale);
       this.ge[i] = seriesConductance(t[i * T + E] !== t[i * T + EI], mp[M_RE], scale);
     }
-    this.prepare({ temperatureC: 27, tnomC: 27, vt: thermalVoltage(27), betaScale: 1, junctionGmin: 0 });
+    this.prepare(new SolveConditions(27, 27, thermalVoltage(27), 1, 0));
   }
 
   /** The scaled parameters of instance i in use for the current solve (currents include area × M, so `m` is 1). */

@@ -19,6 +19,28 @@ export interface DeviceConditions {
 }
 
 /**
+ * The conditions of one solve. A class whose fields start as fractions, so V8 holds each as a double from the
+ * first solve: a field that first held an integer (a beta scale of 1, 27 °C) and later a fraction (a beta
+ * corner's 0.5) changed the layout of every such object, and the compiled device code that read one (`prepare`,
+ * `resetState`) was given up and compiled again.
+ */
+export class SolveConditions implements DeviceConditions {
+  temperatureC = NaN;
+  tnomC = NaN;
+  vt = NaN;
+  betaScale = NaN;
+  junctionGmin = NaN;
+
+  constructor(temperatureC: number, tnomC: number, vt: number, betaScale: number, junctionGmin: number) {
+    this.temperatureC = temperatureC;
+    this.tnomC = tnomC;
+    this.vt = vt;
+    this.betaScale = betaScale;
+    this.junctionGmin = junctionGmin;
+  }
+}
+
+/**
  * How the first linearisation of a Newton run is chosen.
  * - `cold`: no usable guess; junctions start at a forward bias taken from the model (BJT
  *   base-emitter and diode at the junction's critical voltage, reverse junctions at 0 V) and MOS
@@ -217,9 +239,23 @@ export function columnsFor(into: DeviceColumns | undefined, quantities: number, 
   return into;
 }
 
-/** Allocates the columns of `count` instances for `quantities` numbers each. */
+/**
+ * Allocates the columns of `count` instances for `quantities` numbers each. A class, not an object literal: V8
+ * builds a literal's template at its second run and forgets then what type each field holds, which gave up the
+ * code compiled after the nominal solve that read the columns (records, regions) at the first corner.
+ */
 export function allocateColumns(quantities: number, count: number): DeviceColumns {
-  const values: Float64Array[] = [];
-  for (let q = 0; q < quantities; q++) values.push(new Float64Array(count));
-  return { values, region: new Uint8Array(count), flags: new Uint8Array(count) };
+  return new AllocatedColumns(quantities, count);
+}
+
+class AllocatedColumns implements DeviceColumns {
+  readonly values: Float64Array[] = [];
+  readonly region: Uint8Array;
+  readonly flags: Uint8Array;
+
+  constructor(quantities: number, count: number) {
+    for (let q = 0; q < quantities; q++) this.values.push(new Float64Array(count));
+    this.region = new Uint8Array(count);
+    this.flags = new Uint8Array(count);
+  }
 }

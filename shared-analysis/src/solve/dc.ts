@@ -3,6 +3,7 @@
 import { BehaviouralTable } from '../devices/behavioural';
 import type { Circuit, Element } from '../circuit';
 import type { DeviceColumns, DeviceConditions, DeviceKind, DeviceTable, StartHint } from '../devices/device';
+import { SolveConditions } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
 import { thermalVoltage, UNBOUNDED } from '../devices/physics';
 import { deviceKindOf } from '../devices/registry';
@@ -19,7 +20,7 @@ import { findFloatingGroups, findVoltageLoops } from './topology';
 import type { Fallback, OperatingPoint, SolveOptions } from './types';
 import { pushAll } from '../arrays';
 import { lazyPoint, pointVectors } from './point';
-import { RECORD_LIMIT, SolvedVectors, type Clamped, type RecordShapes } from './solved-point';
+import { RECORD_LIMIT, SolvedValues, SolvedVectors, type Clamped, type RecordShapes } from './solved-point';
 import { nameTable } from '../names';
 
 export { bjtRegion, evaluateBjt } from '../devices/bjt';
@@ -318,13 +319,7 @@ export class DcSolver {
     pushAll(findings, structure.findings);
     this.loadLinearValues(structure, plan);
     const betaScale = this.pickBetaScale(options, findings);
-    const conditions: DeviceConditions = {
-      temperatureC,
-      tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
-      vt: thermalVoltage(temperatureC),
-      betaScale,
-      junctionGmin: JUNCTION_GMIN,
-    };
+    const conditions = this.conditionsAt(temperatureC, betaScale);
     this.applyDeviceParameters(options.deviceParameters);
     this.engine.prepare(conditions);
     this.applySourceValues(options.sourceValues, findings);
@@ -422,13 +417,7 @@ export class DcSolver {
     this.applyTemperatureCoefficients(plan, temperatureC, scratch);
     this.loadLinearValues(this.structure, plan);
     this.applyDeviceParameters(undefined);
-    const conditions: DeviceConditions = {
-      temperatureC,
-      tnomC: Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27,
-      vt: thermalVoltage(temperatureC),
-      betaScale: 1,
-      junctionGmin: JUNCTION_GMIN,
-    };
+    const conditions = this.conditionsAt(temperatureC, 1);
     this.engine.prepare(conditions);
     this.applySourceValues(undefined, scratch);
     if (!this.engine.factorAt(result.x)) return undefined;
@@ -682,6 +671,12 @@ export class DcSolver {
     return fallback;
   }
 
+  /** The devices' conditions of a solve at `temperatureC` with BF and BR scaled by `betaScale`. */
+  private conditionsAt(temperatureC: number, betaScale: number): DeviceConditions {
+    const tnomC = Number.isFinite(this.circuit.tnomC) ? this.circuit.tnomC : 27;
+    return new SolveConditions(temperatureC, tnomC, thermalVoltage(temperatureC), betaScale, JUNCTION_GMIN);
+  }
+
   private pickBetaScale(options: SolveOptions, findings: Finding[]): number {
     const b = options.betaScale;
     if (b === undefined || (Number.isFinite(b) && b > 0)) return b ?? 1;
@@ -793,7 +788,7 @@ export class DcSolver {
     const clampsRecords = reuse !== undefined || !columnsInRange;
     // The point's vectors outlive the solve: they hold what they read, not the solver (its matrix and factors, tens of
     // megabytes at 50,000 elements).
-    const vectors = new SolvedVectors(c, tables, deviceOrder, readers, this.elementSlot, this.shapes, { volts, tv, ti, columns }, clampsRecords);
+    const vectors = new SolvedVectors(c, tables, deviceOrder, readers, this.elementSlot, this.shapes, new SolvedValues(volts, tv, ti, columns), clampsRecords);
     // What the tables clamp is collected only where the solve names it (an overflow); a later first read clamps quietly.
     let collected: Clamped | undefined;
     const op = lazyPoint(head, vectors, () => vectors.buildTables(collected));

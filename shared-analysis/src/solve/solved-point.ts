@@ -50,12 +50,18 @@ export interface RecordShapes {
   tableRecordTypes: (DeviceRecord['type'] | undefined)[];
 }
 
-/** The vectors one solve filled: node voltages, two-terminal voltages and currents (reader k at k), and every table's columns. */
-export interface SolvedValues {
-  volts: Float64Array;
-  tv: Float64Array;
-  ti: Float64Array;
-  columns: DeviceColumns[];
+/**
+ * The vectors one solve filled: node voltages, two-terminal voltages and currents (reader k at k), and every
+ * table's columns. A class, not an object literal: V8 builds a literal's template at its second run and forgets then what
+ * type each field holds, which gave up the readers compiled after the nominal solve at the first corner.
+ */
+export class SolvedValues {
+  constructor(
+    readonly volts: Float64Array,
+    readonly tv: Float64Array,
+    readonly ti: Float64Array,
+    readonly columns: DeviceColumns[],
+  ) {}
 }
 
 /**

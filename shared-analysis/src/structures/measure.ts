@@ -87,7 +87,7 @@ let scratch: OutputSink | undefined;
 function scratchSink(count: number): OutputSink {
   if (!scratch || scratch.current.length < count) {
     const n = Math.max(count, 16);
-    scratch = { current: new Float64Array(n), headroom: new Float64Array(n), outOfRegion: new Uint8Array(n), first: 0, stride: 1 };
+    scratch = new FigureSink(n, 1);
   } else {
     // What a plan with fewer outputs leaves unwritten reads as 0, as in fresh arrays.
     scratch.current.fill(0, 0, count);
@@ -228,6 +228,29 @@ export interface OutputSink {
   outOfRegion: Uint8Array;
   first: number;
   stride: number;
+}
+
+/**
+ * Zeroed arrays of `size` figures read at `stride`, from 0. A class, not an object literal: V8 builds a
+ * literal's template at its second run and forgets then what type each field holds, which gave up the
+ * measurement compiled for the nominal point at the first corner.
+ */
+export class FigureSink implements OutputSink {
+  readonly current: Float64Array;
+  readonly headroom: Float64Array;
+  readonly outOfRegion: Uint8Array;
+  /** Declared, then set in the constructor: a field stored once is taken by V8 for a constant, and the code that read it was given up when the corner phase moved it. */
+  first: number;
+
+  constructor(
+    size: number,
+    readonly stride: number,
+  ) {
+    this.current = new Float64Array(size);
+    this.headroom = new Float64Array(size);
+    this.outOfRegion = new Uint8Array(size);
+    this.first = 0;
+  }
 }
 
 /** The record types a measurement reads quantities of, with the device kind whose columns hold them. */

@@ -52,17 +52,32 @@ function toStructure(m: Matcher, d: Draft): Structure {
   for (const x of d.members) roles[x.t.name] = x.role;
   const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
   if (d.refDegeneration) reference.degeneration = d.refDegeneration;
-  // Optional fields are added in the order the JSON shows them (a literal of spreads built a temporary object per field).
-  const s = { id: `${d.kind}:${d.reference.name}`, kind: d.kind, technology: d.reference.tech, devices, roles, reference, outputs: d.outputs.map((o) => withIsRatio(m, d, o)) } as Structure;
-  if (d.parts) s.parts = d.parts;
-  if (d.params) s.params = d.params;
-  if (d.voltages) s.voltages = d.voltages.map((v) => ({ ...v }));
-  s.instance = instancePrefix(devices);
-  s.headroom = nameTable();
-  s.compliance = {};
-  s.outputResistance = {};
-  s.corners = [];
-  return s;
+  // Every field is made here, in the order the JSON shows them, those the checks fill later undefined until then:
+  // a structure keeps one layout (V8's map) from recognition to the report, where fields added one by one as the
+  // checks ran gave each structure a new layout at each step, and the code that read structures was given up and
+  // compiled again for the next (a member that is undefined is left out of the JSON as an absent one).
+  return {
+    id: `${d.kind}:${d.reference.name}`,
+    kind: d.kind,
+    technology: d.reference.tech,
+    devices,
+    roles,
+    reference,
+    outputs: d.outputs.map((o) => withIsRatio(m, d, o)),
+    parts: d.parts,
+    params: d.params,
+    voltages: d.voltages?.map((v) => ({ ...v })),
+    instance: instancePrefix(devices),
+    headroom: nameTable(),
+    compliance: {},
+    outputResistance: {},
+    corners: [],
+    solved: undefined,
+    estimate: undefined,
+    discrepancy: undefined,
+    startup: undefined,
+    variation: undefined,
+  };
 }
 
 /**

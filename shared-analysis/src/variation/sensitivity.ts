@@ -3,7 +3,7 @@
 import type { Element } from '../circuit';
 import { MODEL_DEFAULTS } from '../devices/parameters';
 import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally } from '../devices/device';
-import { TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
+import { SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
 import { NODE_UNKNOWN } from '../solve/mna';
@@ -804,7 +804,7 @@ function numericalSensitivity(table: DeviceTable, x: Float64Array, conditions: D
   const count = inst.count;
   const out = allocateSensitivity(count, T, N, names.length);
   const globalsOf = (i: number): Int32Array => inst.terminals.subarray(i * T, i * T + T);
-  const at = (t: number): DeviceConditions => ({ ...conditions, temperatureC: t, vt: thermalVoltage(t) });
+  const at = (t: number): DeviceConditions => new SolveConditions(t, conditions.tnomC, thermalVoltage(t), conditions.betaScale, conditions.junctionGmin);
   const all = Array.from({ length: N }, (_, t) => t);
   const nominal = new Batch(kind, inst.elements.map((el, i) => ({ element: el, globals: globalsOf(i), shift: -1, delta: 0 })), x, conditions);
   const base = nominal.currents(all);
