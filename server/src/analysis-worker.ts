@@ -24,6 +24,8 @@ import { nameTable } from '../../shared-analysis/src/names';
 import type { WarmStart } from '../../shared-analysis/src/solve/warm-start';
 import { revertValueEdit, type IncrementalState } from '../../shared-analysis/src/incremental';
 import { SpreadSender } from './spread-transfer';
+import { pushParts } from './pushed-parts';
+import type { Finding } from '../../shared-analysis/src/types';
 
 const workspace = new FileWorkspace();
 /** The stop flag shared with the main thread (absent when the worker was started without one). */
@@ -34,14 +36,21 @@ const openTexts = new Map<string, string>();
 /** The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once sent). */
 let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[] } | undefined;
 
+/** What a corner phase run ahead of its request came to: its findings, or why it did not finish. */
+type CornerOutcome = { findings: Finding[] } | { failed: string; stopped: boolean };
+
 /** What the worker keeps of a root's last analysis to answer sweeps and sizing without re-solving. */
 interface Kept {
+  /** The id of the `analyse` request it answered. */
+  requestId: number;
   /** The analysis; its `documents` are the parsed ones only when a finding asks for sizing (cards are then needed), else text-only stand-ins. */
   analysis: Analysis;
   texts: Map<string, string>;
   solver?: DcSolver;
   /** The converged nominal solution, kept only until the corner phase has run. */
   nominal?: DcSolveResult;
+  /** The corner phase's outcome, from the moment the worker ran it (right after sending the analysis) until a `corners` request collects it. */
+  corners?: CornerOutcome;
   /** Sizing results shared by the fixes of this analysis (a finding asked twice is sized once). */
   sizingCache: Map<string, SizingResult>;
 }
@@ -58,8 +67,8 @@ const warmStarts = new Map<string, WarmStart>();
 /** Per root, what the next analysis of a value edit reuses (its solver, structures and hand analysis); see `incremental.ts`. */
 const incrementals = new Map<string, IncrementalState>();
 
-function post(msg: FromWorker): void {
-  parentPort?.postMessage(msg);
+function post(msg: FromWorker, transfer?: ArrayBuffer[]): void {
+  parentPort?.postMessage(msg, transfer);
 }
 
 function errorText(e: unknown): string {
@@ -172,7 +181,8 @@ function handle(msg: ToWorker): void {
         const analysis = session.analysis;
         const texts = new Map(Object.entries(analysis.documents).map(([u, d]) => [u, d.text] as [string, string]));
         const needsCards = analysis.findings.some((f) => f.data?.['sizing'] !== undefined);
-        lastAnalysis.set(msg.uri, {
+        const kept: Kept = {
+          requestId: msg.id,
           // The corner phase reads the targets from the parsed cards (stand-ins without cards gave it none): kept until it has run.
           analysis: { ...analysis, documents: needsCards || cornersNext ? analysis.documents : textDocuments(texts) },
           texts,
@@ -180,7 +190,8 @@ function handle(msg: ToWorker): void {
           solver: needsCards || cornersNext ? session.solver : undefined,
           nominal: cornersNext ? session.nominal : undefined,
           sizingCache: new Map(),
-        });
+        };
+        lastAnalysis.set(msg.uri, kept);
         const sentBefore = sentAnalyses.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
         const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
@@ -193,12 +204,20 @@ function handle(msg: ToWorker): void {
           keep(prepare());
           const all = parts.map((make) => make());
           post({ type: 'parts', id: msg.id, parts: all, sendMs: performance.now() - t0 - ms });
+        } else if (cornersNext) {
+          // The corner phase runs next, so no part request would be answered until it ends: every part goes now.
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, pushed: true });
+          pushParts(post, msg.id, parts, 0, findingParts);
+          keep(prepare());
+          pushParts(post, msg.id, parts, findingParts, parts.length);
         } else {
           outgoing = { id: msg.id, parts };
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms });
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
+        // The corners are solved while the main thread takes the nominal result in; its `corners` request collects them.
+        if (cornersNext) solveCornersAhead(msg.uri, kept, msg.generation);
         // The session (parsed cards, solver scratch) is garbage once this handler returns. Not after a value edit that
         // reused the last analysis's solver: a full collection then frees only that edit's garbage, but also gives up
         // the compiled code that held objects of the replaced analysis, and the next edit ran on that code's slower
@@ -277,23 +296,16 @@ function handle(msg: ToWorker): void {
     }
     case 'corners': {
       const kept = lastAnalysis.get(msg.uri);
-      if (!kept || kept.analysis.version !== msg.version || !kept.solver || !kept.nominal) {
+      if (!kept || kept.analysis.version !== msg.version || (msg.analysisId !== undefined && kept.requestId !== msg.analysisId) || !kept.corners) {
         post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
         return;
       }
-      let findings;
-      try {
-        findings = addCorners(kept.analysis, { solver: kept.solver, nominal: kept.nominal, shouldStop: stopper(msg.generation), incremental: incrementals.get(msg.uri) });
-      } catch (e) {
-        if (!(e instanceof AnalysisStopped)) throw e;
-        // Superseded: the next analysis replaces this one; its structures keep no half-filled corners.
-        post({ type: 'failed', id: msg.id, message: e.message, stopped: true });
+      const outcome = kept.corners;
+      // Collected once: a second request finds nothing to collect (the main thread asks once per analysis).
+      kept.corners = undefined;
+      if ('failed' in outcome) {
+        post({ type: 'failed', id: msg.id, message: outcome.failed, stopped: outcome.stopped });
         return;
-      }
-      kept.nominal = undefined;
-      if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) {
-        kept.solver = undefined;
-        kept.analysis = { ...kept.analysis, documents: textDocuments(kept.texts) };
       }
       // Each structure's corners as columns: a few typed arrays cross to the main thread, no per-corner records.
       const corners: Record<string, CornerColumns> = nameTable();
@@ -302,7 +314,7 @@ function handle(msg: ToWorker): void {
         if (cols) corners[st.id] = cols;
       }
       const variation = kept.analysis.variation ? spreads.message(msg.uri, kept.analysis.variation, msg.heldSpread) : undefined;
-      post({ type: 'cornered', id: msg.id, findings, corners, ...(variation ? { variation } : {}) });
+      post({ type: 'cornered', id: msg.id, findings: outcome.findings, corners, ...(variation ? { variation } : {}) });
       return;
     }
     case 'sizing-fixes': {
@@ -318,6 +330,41 @@ function handle(msg: ToWorker): void {
       return;
     }
   }
+}
+
+/**
+ * Solves the corners of the analysis just sent (analysed with `cornersLater`) and keeps the outcome on `kept` for the
+ * `corners` request that collects it. A newer edit stops it at the engine's next check, as it stops an analysis.
+ */
+function solveCornersAhead(uri: string, kept: Kept, generation: number): void {
+  try {
+    plantedCornerFault(generation);
+    const findings = addCorners(kept.analysis, { solver: kept.solver!, nominal: kept.nominal!, shouldStop: stopper(generation), incremental: incrementals.get(uri) });
+    kept.corners = { findings };
+  } catch (e) {
+    // Stopped (superseded): the next analysis replaces this one; its structures keep no half-filled corners.
+    kept.corners = e instanceof AnalysisStopped ? { failed: e.message, stopped: true } : { failed: `The corner phase stopped with an internal error: ${errorText(e)}`, stopped: false };
+    return;
+  }
+  kept.nominal = undefined;
+  if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) {
+    kept.solver = undefined;
+    kept.analysis = { ...kept.analysis, documents: textDocuments(kept.texts) };
+  }
+}
+
+/**
+ * For the server's tests only: `QPOINT_TEST_CORNER_FAULT=hold` makes a corner phase wait before it starts until the
+ * stop generation moves (at most 20 s), so a test can supersede it at a known point; `throw` makes it throw there (an
+ * internal error outside the engine's own guard). Unset, it does nothing.
+ */
+function plantedCornerFault(generation: number): void {
+  const fault = process.env['QPOINT_TEST_CORNER_FAULT'];
+  if (fault === 'throw') throw new Error('planted corner-phase fault for the tests');
+  if (fault !== 'hold' || !stopFlag) return;
+  // The main thread moves the generation without a notify: look every 5 ms.
+  const until = Date.now() + 20_000;
+  while (Atomics.load(stopFlag, STOP_GENERATION) === generation && Date.now() < until) Atomics.wait(stopFlag, STOP_GENERATION, generation, 5);
 }
 
 parentPort?.on('message', (msg: ToWorker) => {

@@ -88,7 +88,6 @@ import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
 import { seriesValues } from '../../shared-analysis/src/fixes/e-series';
 import { formatEngineering, formatPercent } from '../../shared-analysis/src/fixes/format';
-import { restoreNameTables } from '../../shared-analysis/src/names';
 import { attachVariation } from '../../shared-analysis/src/variation/index';
 import { SpreadReceiver } from './spread-transfer';
 import { setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
@@ -457,11 +456,16 @@ async function pump(): Promise<void> {
     // is on its way (a few milliseconds), requests wait for it (`settling`), so each answers from the result
     // whose diagnostics the editor has.
     let early: Set<string> | undefined;
+    const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
+    // The worker solves the corners while this thread takes the result in: they are asked for once the findings are in.
+    let corners: Promise<CornerOutcome | undefined> | undefined;
+    const askCorners = (a: Analysis) => (corners ??= collectCorners(uri, a, fresh));
     const onFindings = (partial: Analysis, small: boolean) => {
-      if (job.superseded || documents.get(uri)?.version !== partial.version) return;
+      if (!fresh(partial)) return;
       early = new Set([uri, ...Object.keys(partial.documents)]);
       publish(early, uri, partial);
       if (small) settling ??= new Promise<void>((r) => (settled = r));
+      if (cornersLater) askCorners(partial);
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
@@ -469,7 +473,7 @@ async function pump(): Promise<void> {
     if (current && current.version === analysis.version) {
       accept(uri, analysis, ms, early);
       settle();
-      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await cornerPhase(uri, analysis);
+      if (cornersLater && analysis.structures.length > 0 && !job.superseded) addCornerResults(uri, analysis, await askCorners(analysis));
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {
@@ -487,18 +491,52 @@ async function pump(): Promise<void> {
   }
 }
 
-/** Solves the corners of a just-accepted analysis in the worker and adds their findings and results to it, then re-publishes. */
-async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
-  const t0 = Date.now();
-  let r: Awaited<ReturnType<WorkerHost['corners']>>;
+/** A corner phase collected from the worker, and when it was asked for; `findingsAdded` once its findings joined the analysis's. */
+interface CornerOutcome {
+  result: Awaited<ReturnType<WorkerHost['corners']>>;
+  asked: number;
+  findingsAdded: boolean;
+}
+
+/**
+ * Collects the corner phase the worker solved for `analysis` (the result being taken in, or just accepted). When it
+ * arrives while the analysis is still taken in (its findings are complete by then) and still `fresh`, its findings join
+ * the analysis's and are published at once; the structures' corners and the spread wait for `addCornerResults`.
+ */
+async function collectCorners(uri: string, analysis: Analysis, fresh: (a: Analysis) => boolean): Promise<CornerOutcome | undefined> {
+  const asked = Date.now();
+  let result: CornerOutcome['result'];
   try {
-    r = await host.corners(uri, analysis.version ?? 0, spreads.heldId(uri));
+    result = await host.corners(uri, analysis.version ?? 0, { heldSpread: spreads.heldId(uri), of: analysis });
   } catch (e) {
     // The nominal diagnostics stay published; only the corner additions are lost.
     log(`The corner phase of ${basename(uri)} did not finish: ${e instanceof Error ? e.message : String(e)}`);
-    return;
+    return undefined;
   }
-  if (r.stale || cache.get(uri)?.analysis !== analysis) return;
+  const outcome = { result, asked, findingsAdded: false };
+  if (!result.stale && cache.get(uri)?.analysis !== analysis && fresh(analysis)) {
+    addCornerFindings(uri, analysis, outcome);
+    publish(new Set([uri, ...Object.keys(analysis.documents)]), uri, analysis);
+  }
+  return outcome;
+}
+
+function addCornerFindings(uri: string, analysis: Analysis, outcome: CornerOutcome): void {
+  outcome.findingsAdded = true;
+  // Appended, so the indices of published diagnostics stay valid.
+  pushAll(analysis.findings, outcome.result.findings);
+  const n = outcome.result.findings.length;
+  log(`Solved the corners of ${basename(uri)} in ${Date.now() - outcome.asked} ms: ${n} finding${n === 1 ? '' : 's'}.`);
+}
+
+/**
+ * Adds the corner phase's results to a just-accepted analysis (and its findings, unless they went out early), then
+ * re-publishes. No name table needs restoring again: the corners arrive as columns read through an accessor, which
+ * `restoreNameTables` skips, and the spread is not among the tables it covers.
+ */
+function addCornerResults(uri: string, analysis: Analysis, outcome: CornerOutcome | undefined): void {
+  if (!outcome || outcome.result.stale || cache.get(uri)?.analysis !== analysis) return;
+  const r = outcome.result;
   for (const s of analysis.structures) {
     const c = r.corners[s.id];
     if (c) setCornerColumns(s, c);
@@ -510,10 +548,7 @@ async function cornerPhase(uri: string, analysis: Analysis): Promise<void> {
     analysis.variation = variation;
     attachVariation(analysis.structures, variation);
   }
-  restoreNameTables(analysis);
-  // Appended, so the indices of published diagnostics stay valid.
-  pushAll(analysis.findings, r.findings);
-  log(`Solved the corners of ${basename(uri)} in ${Date.now() - t0} ms: ${r.findings.length} finding${r.findings.length === 1 ? '' : 's'}.`);
+  if (!outcome.findingsAdded) addCornerFindings(uri, analysis, outcome);
   publish(new Set([uri, ...Object.keys(analysis.documents)]), uri);
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }

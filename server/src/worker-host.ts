@@ -13,6 +13,7 @@ import type { MonteCarloReply } from './protocol';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import { SMALL_RESULT_PARTS, STOP_GENERATION, type FromWorker, type SizingData, type ToWorker } from './worker-messages';
 import type { ReadPolicy } from './read-policy';
+import { PartInbox, pushedPart } from './pushed-parts';
 
 /** Options for {@link WorkerHost}. */
 export interface WorkerHostOptions {
@@ -94,6 +95,8 @@ export class WorkerHost {
   private readonly analysisIds = new WeakMap<Analysis, number>();
   /** The stop generation shared with the worker (see STOP_GENERATION). */
   private readonly stopFlag = new Int32Array(new SharedArrayBuffer(4));
+  /** The parts the worker pushes of each result being taken in, by the id of the `analyse` request it answered. */
+  private readonly inboxes = new Map<number, PartInbox>();
 
   constructor(private readonly options: WorkerHostOptions) {
     this.start();
@@ -127,6 +130,13 @@ export class WorkerHost {
   private readonly following = new Map<number, Promise<FromWorker>>();
 
   private onMessage(msg: FromWorker): void {
+    if (msg.type === 'pushed-part') {
+      // A part of a result no longer taken in (stopped, failed) is dropped.
+      this.inboxes.get(msg.analysisId)?.put(msg.index, msg.bytes);
+      return;
+    }
+    // Its parts follow in the same queue: the inbox must be there before the first of them is delivered.
+    if (msg.type === 'analysed' && msg.pushed) this.inboxes.set(msg.id, new PartInbox());
     const p = this.pending.get(msg.id);
     if (!p) return;
     this.pending.delete(msg.id);
@@ -147,6 +157,8 @@ export class WorkerHost {
       p.reject(e);
       this.pending.delete(id);
     }
+    for (const inbox of this.inboxes.values()) inbox.fail(e);
+    this.inboxes.clear();
   }
 
   /** Mirrors an open document's text into the worker (undefined: closed). */
@@ -184,12 +196,16 @@ export class WorkerHost {
   /** The worker's next message under `id`, within the hard deadline. */
   private answerTo(id: number, label: string): Promise<FromWorker> {
     return new Promise<FromWorker>((resolve, reject) => {
-      const timer = setTimeout(() => {
-        this.options.log(`${label} ran past ${Math.round(this.options.hardDeadlineMs / 1000)} s; restarting the analysis worker.`);
-        this.restart(new Error(`${label} took longer than ${Math.round(this.options.hardDeadlineMs / 1000)} s and was stopped.`));
-      }, this.options.hardDeadlineMs);
-      this.pending.set(id, { resolve, reject, started: Date.now(), label, timer });
+      this.pending.set(id, { resolve, reject, started: Date.now(), label, timer: this.deadline(label) });
     });
+  }
+
+  /** Restarts the worker if `label` is still waited for after the hard deadline; clear the timer when it is answered. */
+  private deadline(label: string): ReturnType<typeof setTimeout> {
+    return setTimeout(() => {
+      this.options.log(`${label} ran past ${Math.round(this.options.hardDeadlineMs / 1000)} s; restarting the analysis worker.`);
+      this.restart(new Error(`${label} took longer than ${Math.round(this.options.hardDeadlineMs / 1000)} s and was stopped.`));
+    }, this.options.hardDeadlineMs);
   }
 
   /**
@@ -248,7 +264,8 @@ export class WorkerHost {
       /**
        * Called once every finding is in, before the rest (cards, elements, the point, structures) is taken in:
        * `partial` has the header and the complete findings, enough to publish diagnostics. It is the object later
-       * parts are merged into; do not keep it past the call. `small`: the rest is a small result's, which arrives
+       * parts are merged into, and the one `analyse` returns: a `corners` request may name it (`of`) and its findings
+       * may be added to, nothing else until it is returned. `small`: the rest is a small result's, which arrives
        * whole in one message and is merged at once (a few milliseconds); a large one's is taken in slices.
        */
       onFindings?: (partial: Analysis, small: boolean) => void;
@@ -267,6 +284,8 @@ export class WorkerHost {
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
+    // Known by its request from the start: a corner request may name it while it is taken in (see `onFindings`).
+    this.analysisIds.set(analysis, msg.id);
     const merger = partMerger(analysis, phases.held);
     const merge = function* (index: number, part: AnalysisPart): Generator<void, void, undefined> {
       yield* merger.steps(part);
@@ -275,7 +294,7 @@ export class WorkerHost {
     // Taking in a result of a superseded text is wasted work on this thread: the stop check applies here too, before each part.
     const stopIfSuperseded = (index: number) => {
       if (this.generation() === generation) return;
-      if (!msg.partsFollow) this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
+      if (!msg.partsFollow && !msg.pushed) this.worker?.postMessage({ type: 'drop-parts', analysisId: msg.id } satisfies ToWorker);
       throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
     };
     if (msg.partsFollow) {
@@ -288,12 +307,14 @@ export class WorkerHost {
         if (index === msg.findingParts - 1) phases.onFindings?.(analysis, true);
       });
       merger.finish();
-      this.analysisIds.set(analysis, msg.id);
       return { analysis, ms: msg.ms, sendMs: whole.sendMs, transferMs: Date.now() - t1 };
     }
-    await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
+    try {
+      await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
+    } finally {
+      this.inboxes.delete(msg.id);
+    }
     await inSlices(merger.finishSteps());
-    this.analysisIds.set(analysis, msg.id);
     return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0 };
   }
 
@@ -314,8 +335,7 @@ export class WorkerHost {
   }
 
   /**
-   * Asks for the parts of a large result (a few requests in flight, so the worker prepares the next while
-   * this thread merges one) and merges each, giving queued editor requests a turn between parts;
+   * Merges the parts of a large result in order, giving queued editor requests a turn between parts;
    * `onFindings` once every finding is in.
    */
   private async takeInParts(
@@ -325,6 +345,42 @@ export class WorkerHost {
     onFindings: ((partial: Analysis, small: boolean) => void) | undefined,
     uri: string,
   ): Promise<void> {
+    const next = msg.pushed ? this.pushedParts(msg.id, uri) : this.requestedParts(msg, uri);
+    if (msg.findingParts === 0) onFindings?.(msg.analysis, false);
+    for (let index = 0; index < msg.parts; index++) {
+      stopIfSuperseded(index);
+      const part = await next(index);
+      const started = performance.now();
+      // Within this slice's budget, a short collection now rather than a long one inside some later task.
+      collectYoungGenerationPast(TAKE_IN_YOUNG_BYTES);
+      await inSlices(merge(index, part()), started);
+      if (index === msg.findingParts - 1) onFindings?.(msg.analysis, false);
+      // Give queued editor requests a turn between parts.
+      await new Promise((r) => setImmediate(r));
+    }
+  }
+
+  /** The parts the worker pushes (see `pushed-parts.ts`), each read from its bytes when it is merged. */
+  private pushedParts(analysisId: number, uri: string): (index: number) => Promise<() => AnalysisPart> {
+    const inbox = this.inboxes.get(analysisId);
+    // Gone only when the worker was restarted since the result arrived (its parts never will).
+    if (!inbox) throw new WorkerRestartedError(`The analysis worker was restarted before the result of ${uri} was taken in.`);
+    return async (index) => {
+      const timer = this.deadline(`Waiting for part ${index + 1} of the analysis of ${uri}`);
+      try {
+        const bytes = await inbox.take(index);
+        return () => pushedPart(bytes);
+      } finally {
+        clearTimeout(timer);
+      }
+    };
+  }
+
+  /**
+   * Asks for the parts of a large result in order (a few requests in flight, so the worker prepares the next while
+   * this thread merges one).
+   */
+  private requestedParts(msg: Extract<FromWorker, { type: 'analysed' }>, uri: string): (index: number) => Promise<() => AnalysisPart> {
     const inFlight: Promise<FromWorker>[] = [];
     let asked = 0;
     // Asks for more parts, several in one message, once half of those in flight are in.
@@ -341,20 +397,12 @@ export class WorkerHost {
       asked += count;
     };
     refill();
-    if (msg.findingParts === 0) onFindings?.(msg.analysis, false);
-    for (let index = 0; index < msg.parts; index++) {
-      stopIfSuperseded(index);
+    return async () => {
       const part = await inFlight.shift()!;
       refill();
       if (part.type !== 'part') throw new Error(part.type === 'failed' ? part.message : 'The worker answered with something unexpected.');
-      const started = performance.now();
-      // Within this slice's budget, a short collection now rather than a long one inside some later task.
-      collectYoungGenerationPast(TAKE_IN_YOUNG_BYTES);
-      await inSlices(merge(index, part.part), started);
-      if (index === msg.findingParts - 1) onFindings?.(msg.analysis, false);
-      // Give queued editor requests a turn between parts.
-      await new Promise((r) => setImmediate(r));
-    }
+      return () => part.part;
+    };
   }
 
   /** One chunk of Monte Carlo runs on the last analysis of root `uri`. */
@@ -387,10 +435,18 @@ export class WorkerHost {
     throw new Error(msg.type === 'failed' ? msg.message : 'The worker answered with something unexpected.');
   }
 
-  /** The corner phase of the last analysis of root `uri` (analysed with `cornersLater`): its findings, each structure's corners by id and its spread told against the one held (`heldSpread`). */
-  async corners(uri: string, version: number, heldSpread?: string): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: SpreadMessage; stale: boolean }> {
+  /**
+   * The corner phase of the last analysis of root `uri` (analysed with `cornersLater`; the worker runs it as soon as it
+   * has sent that result): its findings, each structure's corners by id and its spread told against the one held
+   * (`heldSpread`). `stale` when the worker's last analysis of `uri` is not of `version`, or not `of` when given.
+   */
+  async corners(uri: string, version: number, held: { heldSpread?: string; of?: Analysis } = {}): Promise<{ findings: Finding[]; corners: Record<string, CornerColumns>; variation?: SpreadMessage; stale: boolean }> {
     const generation = this.generation();
-    const msg = await this.request((id) => ({ type: 'corners', id, uri, version, generation, ...(heldSpread !== undefined ? { heldSpread } : {}) }), `The corners of ${uri}`);
+    const analysisId = held.of && this.analysisIds.get(held.of);
+    const msg = await this.request(
+      (id) => ({ type: 'corners', id, uri, version, generation, ...(held.heldSpread !== undefined ? { heldSpread: held.heldSpread } : {}), ...(analysisId !== undefined ? { analysisId } : {}) }),
+      `The corners of ${uri}`,
+    );
     if (msg.type === 'cornered') return { findings: msg.findings, corners: msg.corners, ...(msg.variation ? { variation: msg.variation } : {}), stale: msg.stale === true };
     throw this.failure(msg);
   }

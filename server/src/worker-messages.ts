@@ -9,6 +9,7 @@ import type { SpreadMessage } from './spread-transfer';
 import type { CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { ReadPolicy } from './read-policy';
 import type { MonteCarloReply } from './protocol';
+import type { PushedPart } from './pushed-parts';
 
 /** One standard-value candidate for a resistor, with the engine's offset-based edit. */
 export interface SizingCandidateData {
@@ -45,8 +46,12 @@ export type ToWorker =
    * cards it can keep (`cards-kept` parts).
    */
   | { type: 'analyse'; id: number; uri: string; version: number; options: AnalysisOptions; cornersLater?: boolean; generation: number; held?: number }
-  /** Solve the corners of the last analysis of root `uri` (second phase; it must be of `version`); `heldSpread`: the spread result the main thread holds for it. */
-  | { type: 'corners'; id: number; uri: string; version: number; generation: number; heldSpread?: string }
+  /**
+   * The corner phase of the last analysis of root `uri` (second phase; it must be of `version` and, when
+   * `analysisId` is given, the answer to that `analyse` request): the worker ran it as soon as it had sent that
+   * result, and this collects it. `heldSpread`: the spread result the main thread holds for the root.
+   */
+  | { type: 'corners'; id: number; uri: string; version: number; generation: number; heldSpread?: string; analysisId?: number }
   /** The main thread stopped taking in the analysis answered to request `analysisId` (superseded): drop its remaining parts. */
   | { type: 'drop-parts'; analysisId: number }
   /** Send these parts of the analysis answered to request `analysisId`, in order, each answered under its own id (one message asks for several: each message costs the main thread a post). */
@@ -63,13 +68,16 @@ export type FromWorker =
   /**
    * The analysis without its big arrays; `parts` more slices follow, the first `findingParts` of them its findings: each
    * on request, or for a small result (`partsFollow`: at most SMALL_RESULT_PARTS parts) all in one `parts` message under
-   * the same id, which the worker sends unasked right after this one (the main thread publishes the findings meanwhile).
+   * the same id, which the worker sends unasked right after this one (the main thread publishes the findings meanwhile);
+   * or, for a large result the worker solves the corners of next (`pushed`: it could not answer requests until the phase
+   * ends), each in a `pushed-part` message sent unasked right after this one.
    * `ms`: the engine's time; `sendMs`: the time after it to make the header.
    */
-  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; partsFollow?: boolean }
+  | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; partsFollow?: boolean; pushed?: boolean }
   /** Every part of a small result, in order; `sendMs`: the time after the engine's to make the header and them. */
   | { type: 'parts'; id: number; parts: AnalysisPart[]; sendMs: number }
   | { type: 'part'; id: number; index: number; part: AnalysisPart }
+  | PushedPart
   | { type: 'swept'; id: number; result: OutputCharacteristicResult | { error: string } }
   | { type: 'monte-carlo-ran'; id: number; result: MonteCarloReply | { error: string } }
   | { type: 'sized'; id: number; result: SizingData | { error: string } }

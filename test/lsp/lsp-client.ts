@@ -33,6 +33,8 @@ export interface ServerSession {
   /** Latest published diagnostics per URI, and how many times each URI was published. */
   diagnostics: Map<string, PublishDiagnosticsParams>;
   publishCount: Map<string, number>;
+  /** Every diagnostics notification, in the order received. */
+  published: PublishDiagnosticsParams[];
   stderr: string[];
   /** Number of inlay-hint refresh requests the server sent. */
   refreshes: number;
@@ -81,6 +83,7 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
     connection,
     diagnostics,
     publishCount,
+    published: [],
     stderr,
     refreshes: 0,
     initializeResult: undefined,
@@ -120,6 +123,7 @@ export async function startServer(options: StartOptions = {}): Promise<ServerSes
   };
   connection.onNotification(PublishDiagnosticsNotification.type, (p) => {
     diagnostics.set(p.uri, p);
+    session.published.push(p);
     publishCount.set(p.uri, (publishCount.get(p.uri) ?? 0) + 1);
   });
   connection.onRequest(ConfigurationRequest.type, (p) => p.items.map((i) => (i.section === 'qpoint' ? session.section : null)));
