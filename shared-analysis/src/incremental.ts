@@ -167,10 +167,11 @@ export function keptSpread(state: IncrementalState | undefined, circuit: Circuit
   if (!last || last.resistances.length !== resistances.length || !partsAreSeparate(circuit)) return { record };
   const { parts, rail } = state.index;
   const touched = touchedParts(parts, resistances, last.resistances);
-  const anyTouched = touched.some((p) => p === 1);
+  const changed = changedElements(resistances, last.resistances);
+  const anyTouched = changed.length > 0;
   const reachedElement = (e: number) => touched[parts.ofElement[e]!] === 1 || (anyTouched && holdsRail(circuit.elements[e]!, rail));
   const reached = (spec: OutputSpec) => spec.functional.terms.some((t) => (t.kind === 'node' ? parts.ofNode[t.node]! >= 0 && touched[parts.ofNode[t.node]!] === 1 : reachedElement(t.element)));
-  return { record, reuse: { last: last.record, reached, scope: (outputs) => adjointScope(circuit, state.index, outputs) } };
+  return { record, reuse: { last: last.record, changed, reached, scope: (outputs) => adjointScope(circuit, state.index, outputs) } };
 }
 
 /**
@@ -192,6 +193,13 @@ function adjointScope(circuit: Circuit, index: CircuitIndex, outputs: readonly O
   const scope = new Uint8Array(elements.length);
   for (let e = 0; e < elements.length; e++) if (inPart[parts.ofElement[e]!] === 1 || holdsRail(elements[e]!, rail)) scope[e] = 1;
   return scope;
+}
+
+/** The elements whose resistance differs between `now` and `before` (per element, NaN but for resistors). */
+function changedElements(now: Float64Array, before: Float64Array): Int32Array {
+  const out: number[] = [];
+  for (let e = 0; e < now.length; e++) if (!Object.is(now[e], before[e])) out.push(e);
+  return Int32Array.from(out);
 }
 
 /** Per part (see `circuitParts`), 1 where a resistor's value differs between `now` and `before` (per element, NaN but for resistors). */

@@ -11,7 +11,7 @@ import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { grown, grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { readCardTolerances, toleranceSources, type SourceSettings, type ToleranceSource } from './sources';
+import { patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -96,6 +96,9 @@ export interface VariationDetail {
   kept?: Uint8Array;
   /** Device instances whose partial derivatives were computed: every instance after a cold analysis, those the derived outputs reach after an edit (`SpreadReuse.scope`). */
   devicesDerived: number;
+  /** `sources` with what the next analysis needs to patch them; `changed` set when they were patched from the last analysis's. */
+  sourceList: SourceList;
+  varied: VariedParameters;
 }
 
 /**
@@ -110,10 +113,11 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const specs = structureOutputs(circuit, structures);
   const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
-  const sources = toleranceSources(circuit, structures, readCardTolerances(ctx.documents), ctx.settings, nominal.op.temperatureC);
-  const kept = reuse ? keptOutputs(reuse, specs, sources, (spec) => targetWindowOf(targetOf, spec)) : undefined;
+  const sourceList = sourcesOf(ctx, reuse);
+  const sources = sourceList.sources;
+  const kept = reuse ? keptOutputs(reuse, specs, sourceList, (spec) => targetWindowOf(targetOf, spec)) : undefined;
   const fresh = freshOutputs(specs.length, kept);
-  const varied = variedParameters(circuit, sources);
+  const varied = (sourceList.changed && reuse && followedParameters(reuse.last.varied, circuit, reuse.changed)) || variedParameters(circuit, sources);
   const derived = fresh.length > 0 ? derivedOutputs(ctx, specs, fresh, sources, varied, targetOf, kept && reuse ? reuse.scope : undefined) : nothingDerived(specs.length);
   if (!derived) return undefined;
   const outputs = derived.outputs;
@@ -130,7 +134,21 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const result = { outputs } as VariationResult;
   attachSources(result, sources);
   result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
-  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived };
+  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived, sourceList, varied };
+}
+
+/**
+ * The tolerance sources: after a value edit patched from the last analysis's (`patchedSources`: the edited elements' and
+ * those whose written tolerance changed made again), with the group index followed; else made afresh.
+ */
+function sourcesOf(ctx: VariationContext, reuse: SpreadReuse | undefined): SourceList {
+  const tolerances = readCardTolerances(ctx.documents);
+  const temperatureC = ctx.nominal.op.temperatureC;
+  const last = reuse?.last.sourceList;
+  const patched = last ? patchedSources(last, ctx.circuit, ctx.structures, tolerances, ctx.settings, temperatureC, reuse!.changed) : undefined;
+  if (!patched) return sourceListOf(ctx.circuit, ctx.structures, tolerances, ctx.settings, temperatureC);
+  followGroupIndex(last!.sources, patched);
+  return patched;
 }
 
 /**
@@ -152,7 +170,7 @@ export function unkeptSpread(detail: VariationDetail): { parts: Record<string, u
 
 /** What a later spread analysis may keep of this one (see `keptSpread`). */
 export function spreadRecordOf(detail: VariationDetail): SpreadRecord {
-  return { specs: detail.specs, sources: detail.sources, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
+  return { specs: detail.specs, sourceList: detail.sourceList, varied: detail.varied, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
 }
 
 /** The outputs whose records are derived now: those not kept (all of them without `kept`), ascending. */
@@ -255,13 +273,21 @@ function targetWindowOf(targetOf: Map<string, TargetWindow>, spec: OutputSpec): 
 }
 
 /** The varied parameters: every tolerance source's, the temperature, and every voltage source (for %/V) and resistor (for % per %). */
-interface VariedParameters {
+export interface VariedParameters {
   params: ParameterList;
   /** Per tolerance source: its parameter. */
   sourceParam: number[];
   temperature: number;
   supplies: { name: string; j: number }[];
-  resistors: { name: string; j: number; ohms: number }[];
+  resistors: VariedResistor[];
+}
+
+/** A resistor among the varied parameters: its element, name, parameter and value. */
+interface VariedResistor {
+  element: number;
+  name: string;
+  j: number;
+  ohms: number;
 }
 
 function variedParameters(circuit: Circuit, sources: readonly ToleranceSource[]): VariedParameters {
@@ -269,14 +295,36 @@ function variedParameters(circuit: Circuit, sources: readonly ToleranceSource[])
   const sourceParam = sourceParameters(params, sources);
   const temperature = params.add({ kind: 'temperature' });
   const supplies: { name: string; j: number }[] = [];
-  const resistors: { name: string; j: number; ohms: number }[] = [];
+  const resistors: VariedResistor[] = [];
   const elements = circuit.elements;
   for (let i = 0; i < elements.length; i++) {
     const el = elements[i];
     if (el.kind === 'V' && Number.isFinite(el.dc) && el.dc !== 0) supplies.push({ name: el.name, j: params.ofElement('source', i) });
-    if (el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0) resistors.push({ name: el.name, j: params.ofElement('resistance', i), ohms: el.resistance });
+    if (isVariedResistor(el)) resistors.push({ element: i, name: el.name, j: params.ofElement('resistance', i), ohms: el.resistance });
   }
   return { params, sourceParam, temperature, supplies, resistors };
+}
+
+function isVariedResistor(el: Circuit['elements'][number]): el is Extract<Circuit['elements'][number], { kind: 'R' }> {
+  return el.kind === 'R' && Number.isFinite(el.resistance) && el.resistance > 0;
+}
+
+/**
+ * The varied parameters of a circuit that differs from the one `last` was made for only in the resistances of the
+ * elements `changed`, with a source list patched from that one's (the same parameters in the same order): `last` with
+ * those resistors' values read again. Undefined when one of them is no longer varied, or now is.
+ */
+function followedParameters(last: VariedParameters, circuit: Circuit, changed: Int32Array): VariedParameters | undefined {
+  if (changed.length === 0) return last;
+  const resistors = last.resistors.slice();
+  for (let q = 0; q < changed.length; q++) {
+    const e = changed[q];
+    const k = resistors.findIndex((r) => r.element === e);
+    const el = circuit.elements[e];
+    if (!isVariedResistor(el) || k < 0) return undefined;
+    resistors[k] = { ...resistors[k], ohms: el.resistance };
+  }
+  return { ...last, resistors };
 }
 
 /** Each tolerance source's parameter, listed. */
@@ -520,7 +568,7 @@ interface ShownForms {
   unit: string[];
 }
 
-function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: readonly number[], resistors: readonly { name: string; j: number; ohms: number }[], supplies: readonly { name: string; j: number }[]): ShownForms {
+function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: readonly number[], resistors: readonly VariedResistor[], supplies: readonly { name: string; j: number }[]): ShownForms {
   const forms: ShownForms = { isShown: new Uint8Array(count), factor: new Float64Array(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
   for (const r of resistors) showForm(forms, r.j, r.name, '%/%', r.ohms);
   for (const s of supplies) showForm(forms, s.j, s.name, '%/V', 100);
@@ -825,6 +873,25 @@ interface GroupIndex {
   bound: Float64Array;
 }
 const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
+
+/**
+ * The group index of a list patched from `from` (`SourceList.changed`), when `from` has one: the same groups and names
+ * (a patched source keeps its group), the σ and bound columns read again where a source changed.
+ */
+function followGroupIndex(from: readonly ToleranceSource[], list: SourceList): void {
+  const last = groupIndexes.get(from);
+  const changed = list.changed;
+  if (!last || !changed) return;
+  const sigma = last.sigma.slice();
+  const bound = last.bound.slice();
+  for (let k = 0; k < changed.length; k++) {
+    if (!changed[k]) continue;
+    sigma[k] = list.sources[k].sigma;
+    bound[k] = list.sources[k].bound;
+  }
+  groupIndexes.set(list.sources, { ...last, sigma, bound });
+}
+
 function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
   let g = groupIndexes.get(sources);
   if (g) return g;

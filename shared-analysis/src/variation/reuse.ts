@@ -1,13 +1,17 @@
 // What a spread analysis after a value edit keeps of the last one: the records of the outputs the edit cannot reach (docs/VARIATION.md).
 
+import type { VariedParameters } from './index';
 import type { OutputSpec } from './outputs';
-import type { ToleranceSource } from './sources';
+import { sameFigures, type SourceList, type ToleranceSource } from './sources';
 import type { OutputVariation } from './types';
 
 /** The part of a finished spread analysis the next one may keep (see `keptSpread` in incremental.ts). */
 export interface SpreadRecord {
   specs: readonly OutputSpec[];
-  sources: readonly ToleranceSource[];
+  /** The tolerance sources, which the next analysis patches after a value edit (`patchedSources`). */
+  sourceList: SourceList;
+  /** The varied parameters, which the next analysis with a patched source list follows (`followedParameters`). */
+  varied: VariedParameters;
   outputs: readonly OutputVariation[];
   /** Per output, the tolerance sources its row holds and its derivatives with respect to them (`SourceRows` of the variation analysis). */
   rows: { start: Int32Array; index: Int32Array; value: Float64Array };
@@ -18,6 +22,8 @@ export interface SpreadRecord {
 /** What a spread analysis may keep of the last one: its record, and which outputs an edit since may have moved. */
 export interface SpreadReuse {
   last: SpreadRecord;
+  /** The elements whose resistance differs from the last analysis's. */
+  changed: Int32Array;
   /** Whether an output's value or derivatives may differ from the last analysis's: one of its terms lies in a part holding a changed resistor. */
   reached: (spec: OutputSpec) => boolean;
   /**
@@ -29,15 +35,16 @@ export interface SpreadReuse {
 
 /**
  * Per output, 1 when its record is the last analysis's: the outputs are the last ones (same keys in the same order),
- * the sources are the last ones (same parameters in the same order), the output is not reached by the edit, no source
+ * the sources are the last ones (same parameters in the same order: a list patched from the last one, or one compared), the output is not reached by the edit, no source
  * its row holds has a changed figure, its target window is the same and its last record was finite and holds no Monte
  * Carlo figures. Undefined when
  * nothing can be kept.
  */
-export function keptOutputs(reuse: SpreadReuse, specs: readonly OutputSpec[], sources: readonly ToleranceSource[], windowOf: (spec: OutputSpec) => { current: number; tolerance: number } | undefined): Uint8Array | undefined {
+export function keptOutputs(reuse: SpreadReuse, specs: readonly OutputSpec[], list: SourceList, windowOf: (spec: OutputSpec) => { current: number; tolerance: number } | undefined): Uint8Array | undefined {
   const last = reuse.last;
   if (!sameOutputs(last.specs, specs)) return undefined;
-  const changed = changedSources(last.sources, sources);
+  // A list patched from the last one knows which sources it made again.
+  const changed = list.changed ?? changedSources(last.sourceList.sources, list.sources);
   if (!changed) return undefined;
   const kept = new Uint8Array(specs.length);
   const { start, index } = last.rows;
@@ -66,7 +73,7 @@ function changedSources(before: readonly ToleranceSource[], now: readonly Tolera
     const a = before[k];
     const b = now[k];
     if (!sameParameter(a, b)) return undefined;
-    if (!(a.nominal === b.nominal && a.sigma === b.sigma && a.bound === b.bound && a.figure === b.figure && a.from === b.from)) changed[k] = 1;
+    if (!sameFigures(a, b)) changed[k] = 1;
   }
   return changed;
 }

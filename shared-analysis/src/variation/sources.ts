@@ -109,28 +109,123 @@ export function toleranceSources(circuit: Circuit, structures: readonly Structur
   return normalSources(out);
 }
 
+/**
+ * A circuit's tolerance sources with what a list made after a value edit needs to be patched from this one
+ * (`patchedSources`): where each element's own source is, the tolerance written on each card, and what the other
+ * sources were made from.
+ */
+export interface SourceList {
+  sources: ToleranceSource[];
+  /** Per element, the index of its own source (a resistor's or an independent source's) in `sources`; −1 when it has none. */
+  sourceOf: Int32Array;
+  /** Per element, the tolerance written on its card (NaN: none). */
+  written: Float64Array;
+  settings: SourceSettings;
+  temperatureC: number;
+  /** Each structure's id and device list, which the mismatch sources were made from. */
+  ids: string[];
+  devices: (readonly string[])[];
+  /** Per source, 1 when it differs from the list this one was patched from; undefined for a list made afresh. */
+  changed?: Uint8Array;
+}
+
+/** The sources of `toleranceSources` as a list a later one may be patched from. */
+export function sourceListOf(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): SourceList {
+  const sources = toleranceSources(circuit, structures, tolerances, settings, temperatureC);
+  const sourceOf = new Int32Array(circuit.elements.length).fill(-1);
+  for (let k = 0; k < sources.length; k++) {
+    const p = sources[k].parameter;
+    if (p.kind === 'resistance' || p.kind === 'source') sourceOf[p.element] = k;
+  }
+  return { sources, sourceOf, written: writtenTolerances(circuit, tolerances), settings, temperatureC, ids: structures.map((s) => s.id), devices: structures.map((s) => s.devices) };
+}
+
+/**
+ * The source list of `circuit` made from `last`, the list of a circuit it differs from only in the resistances of the
+ * elements `changed` (a value edit, or several): the sources of those elements and of every element whose written
+ * tolerance differs are made again, the others (the rest of the elements', every device's mismatch and spread, which
+ * read the structures, models and temperature) kept. Undefined when the settings, the temperature or the structures
+ * differ, or an element gains or loses its source: the list is then made afresh.
+ */
+export function patchedSources(last: SourceList, circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, changed: ArrayLike<number>): SourceList | undefined {
+  if (last.sourceOf.length !== circuit.elements.length || !sameSettings(last.settings, settings) || !Object.is(last.temperatureC, temperatureC) || !sameStructures(last, structures)) return undefined;
+  const written = writtenTolerances(circuit, tolerances);
+  const sources = last.sources.slice();
+  const moved = new Uint8Array(sources.length);
+  const remake = (e: number): boolean => {
+    const k = last.sourceOf[e];
+    const made = elementSource(circuit.elements[e], e, tolerances, settings);
+    const now = made && isNormal(made) ? made : undefined;
+    if ((k < 0) !== (now === undefined)) return false;
+    if (now && !sameFigures(sources[k], now)) {
+      sources[k] = now;
+      moved[k] = 1;
+    }
+    return true;
+  };
+  for (let q = 0; q < changed.length; q++) if (!remake(changed[q])) return undefined;
+  for (let e = 0; e < written.length; e++) if (!Object.is(written[e], last.written[e]) && !remake(e)) return undefined;
+  return { ...last, sources, written, changed: moved };
+}
+
+/** Whether two sources of one parameter have the same figures. */
+export function sameFigures(a: ToleranceSource, b: ToleranceSource): boolean {
+  return a.nominal === b.nominal && a.sigma === b.sigma && a.bound === b.bound && a.figure === b.figure && a.from === b.from;
+}
+
+function sameSettings(a: SourceSettings, b: SourceSettings): boolean {
+  return Object.is(a.resistorTolerance, b.resistorTolerance) && a.resistorFrom === b.resistorFrom && Object.is(a.supplyTolerance, b.supplyTolerance);
+}
+
+/** Whether the structures have the ids and devices a list was made from (the device lists are shared by a value edit's copies). */
+function sameStructures(last: SourceList, structures: readonly Structure[]): boolean {
+  if (last.ids.length !== structures.length) return false;
+  for (let s = 0; s < structures.length; s++) {
+    const a = last.devices[s];
+    const b = structures[s].devices;
+    if (last.ids[s] !== structures[s].id || (a !== b && (a.length !== b.length || a.some((name, k) => name !== b[k])))) return false;
+  }
+  return true;
+}
+
+/** Per element, the tolerance written on its card (NaN: none). */
+function writtenTolerances(circuit: Circuit, tolerances: Map<string, number>): Float64Array {
+  const elements = circuit.elements;
+  const out = new Float64Array(elements.length).fill(NaN);
+  if (tolerances.size === 0) return out;
+  for (let e = 0; e < elements.length; e++) out[e] = cardTolerance(tolerances, elements[e]) ?? NaN;
+  return out;
+}
+
 /** The resistors' and the independent sources' tolerances. */
 function elementSources(out: ToleranceSource[], circuit: Circuit, tolerances: Map<string, number>, settings: SourceSettings): void {
   const elements = circuit.elements;
   for (let i = 0; i < elements.length; i++) {
-    const el = elements[i];
-    if (el.kind === 'R') {
-      const r = el.resistance;
-      if (!(Number.isFinite(r) && r > 0)) continue;
-      const written = cardTolerance(tolerances, el);
-      const tol = written ?? settings.resistorTolerance;
-      if (!(tol > 0)) continue;
-      out.push({ label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'resistance', element: i }, nominal: r, sigma: (tol * r) / 3, bound: tol * r, from: written !== undefined ? 'card' : settings.resistorFrom, figure: tol, partSpread: undefined });
-    } else if (el.kind === 'V' || el.kind === 'I') {
-      const v = el.dc;
-      if (!(Number.isFinite(v) && v !== 0)) continue;
-      const written = cardTolerance(tolerances, el);
-      // A current source stands for a reference the designer gives; it spreads only when its card says so.
-      const tol = written ?? (el.kind === 'V' ? settings.supplyTolerance : 0);
-      if (!(tol > 0)) continue;
-      out.push({ label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol, partSpread: undefined });
-    }
+    const source = elementSource(elements[i], i, tolerances, settings);
+    if (source) out.push(source);
   }
+}
+
+/** A resistor's or an independent source's own tolerance source (undefined when it has none), before the normal-σ filter. */
+function elementSource(el: Element, i: number, tolerances: Map<string, number>, settings: SourceSettings): ToleranceSource | undefined {
+  if (el.kind === 'R') {
+    const r = el.resistance;
+    if (!(Number.isFinite(r) && r > 0)) return undefined;
+    const written = cardTolerance(tolerances, el);
+    const tol = written ?? settings.resistorTolerance;
+    if (!(tol > 0)) return undefined;
+    return { label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'resistance', element: i }, nominal: r, sigma: (tol * r) / 3, bound: tol * r, from: written !== undefined ? 'card' : settings.resistorFrom, figure: tol, partSpread: undefined };
+  }
+  if (el.kind === 'V' || el.kind === 'I') {
+    const v = el.dc;
+    if (!(Number.isFinite(v) && v !== 0)) return undefined;
+    const written = cardTolerance(tolerances, el);
+    // A current source stands for a reference the designer gives; it spreads only when its card says so.
+    const tol = written ?? (el.kind === 'V' ? settings.supplyTolerance : 0);
+    if (!(tol > 0)) return undefined;
+    return { label: el.name, group: el.name, aspect: undefined, element: el.name, parameter: { kind: 'source', element: i }, nominal: v, sigma: (tol * Math.abs(v)) / 3, bound: tol * Math.abs(v), from: written !== undefined ? 'card' : 'supply', figure: tol, partSpread: undefined };
+  }
+  return undefined;
 }
 
 /** Every structure's devices as element indices (−1: a name the circuit does not have), structure s's at `index[start[s] … start[s + 1] − 1]`. */
@@ -215,11 +310,12 @@ class GroupNames {
 /** The sources whose σ and bound are normal, finite numbers. */
 function normalSources(all: ToleranceSource[]): ToleranceSource[] {
   const out: ToleranceSource[] = [];
-  for (let k = 0; k < all.length; k++) {
-    const x = all[k];
-    if (x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound)) out.push(x);
-  }
+  for (let k = 0; k < all.length; k++) if (isNormal(all[k])) out.push(all[k]);
   return out;
+}
+
+function isNormal(x: ToleranceSource): boolean {
+  return x.sigma >= SMALLEST_NORMAL && Number.isFinite(x.sigma) && Number.isFinite(x.bound);
 }
 
 function figureOf(el: Bjt | Mosfet | Jfet, name: keyof typeof MISMATCH_DEFAULTS): { value: number; from: 'model' | 'default' } {

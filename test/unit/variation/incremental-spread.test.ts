@@ -149,6 +149,8 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
     const { circuit, structures, documents, options } = next.analysis;
     const spread = variationOf(circuit!, structures, documents, next.solver!, next.nominal!, readTargets(documents).targets, options, keptSpread(next.incremental, circuit!).reuse);
     expect(spread!.devicesDerived).toBe(4);
+    // The sources were patched from the last list: the edited resistor's made again.
+    expect(Array.from(spread!.sourceList.changed!).filter((c) => c === 1).length).toBe(1);
     const outputs = expectSameSpread(next, cold(edited)).kept + next.analysis.variation!.stats.adjointSolves;
     // Cell 7: its reference current, its output and its load's target current, and the output with Monte Carlo figures.
     expect(next.analysis.variation!.stats.adjointSolves).toBe(4);
@@ -174,7 +176,7 @@ describe('the finiteness walk after a spread analysis that kept records', () => 
     const next = incremental(edited, first);
     addCorners(next.analysis, { solver: next.solver!, nominal: next.nominal!, incremental: next.incremental });
     const record = next.incremental!.spreadRecord!.record;
-    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length), devicesDerived: 0 };
+    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sourceList.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length), devicesDerived: 0, sourceList: record.sourceList, varied: record.varied };
     detail.kept.fill(1);
     // Cell 11's two outputs were made again: the walk looks at those (and the stats), not at the kept ones.
     const fresh = record.specs.flatMap((s, o) => (s.structure?.endsWith(':QR11') ? [o] : []));
