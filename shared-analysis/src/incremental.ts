@@ -58,8 +58,8 @@ export interface IncrementalState {
   structures: KeptStructure[];
   /** Element name -> index, node -> incident elements, rail nodes: the same for every value edit. */
   index: CircuitIndex;
-  /** Which structures a moved node or element concerns (see `watchers`): the same for every value edit. */
-  watch: { byNode: Watchers; byElement: Watchers };
+  /** Which structures a moved node or element concerns (see `watchers`), and each structure's own elements (`memberElements`): the same for every value edit. */
+  watch: { byNode: Watchers; byElement: Watchers; members: number[][] };
   /** Which structure feeds which (see `feedPairs`): the same for every value edit. */
   feeds: Int32Array;
   /** The fingerprint of the MNA unknowns (`unknownsFingerprint`), which a value edit keeps. */
@@ -98,10 +98,11 @@ interface CornerSolution {
  * made exact in the parts of the circuit holding a changed resistor by solving those parts alone (`PartStarts`), so
  * the whole circuit's Newton needs one iteration to confirm the corner's point instead of two to four; and each
  * converged corner's solution is kept for the next phase. A value edit keeps the unknowns, and a state is kept
- * only for a circuit without a self-biased loop, whose corner point does not depend on where Newton starts.
+ * only for a circuit without a self-biased loop, whose corner point does not depend on where Newton starts (so the
+ * corner phase need not search for one: `loopFree`).
  * Nothing when `state` is not this circuit's.
  */
-export function cornerStarts(state: IncrementalState | undefined, circuit: Circuit, nominal: DcSolveResult): Pick<CornerContext, 'startOf' | 'solved'> {
+export function cornerStarts(state: IncrementalState | undefined, circuit: Circuit, nominal: DcSolveResult): Pick<CornerContext, 'startOf' | 'solved' | 'loopFree'> {
   if (!state || state.circuit !== circuit || state.solver.unknownCount !== nominal.x.length) return {};
   const byLabel = (state.corners ??= new Map());
   const around = Float64Array.from(nominal.x);
@@ -121,6 +122,7 @@ export function cornerStarts(state: IncrementalState | undefined, circuit: Circu
       return point ? { x: start, parts: point } : { x: start };
     },
     solved: (spec, _k, x) => byLabel.set(spec.label, { x: Float64Array.from(x), nominal: around, resistances: (resistances ??= resistancesOf(circuit)) }),
+    loopFree: true,
   };
 }
 
@@ -145,7 +147,7 @@ export function keptCorners(state: IncrementalState | undefined, circuit: Circui
   if (!touched) return { record };
   const region = editRegion(last.text, state.text);
   const members = new Set<number>();
-  structures.forEach((s, i) => touched[i] === 1 && memberElements(s, state.index).forEach((e) => members.add(e)));
+  structures.forEach((s, i) => touched[i] === 1 && membersOf(state, structures, i).forEach((e) => members.add(e)));
   return { record, reuse: { record: last.record, touched, members: Int32Array.from(members), moved: (f) => movedFinding(f, state.uri, region) } };
 }
 
@@ -217,7 +219,7 @@ function touchedStructures(state: IncrementalState, structures: readonly Structu
   const out = new Uint8Array(structures.length);
   for (let i = 0; i < structures.length; i++) {
     const s = structures[i]!;
-    const members = memberElements(s, index);
+    const members = membersOf(state, structures, i);
     let touched = members.some((e) => parts[index.parts.ofElement[e]!] === 1 || (anyTouched && holdsRail(circuit.elements[e]!, index.rail)));
     for (const v of s.voltages ?? []) {
       for (const name of v.from === undefined ? [v.node] : [v.node, v.from]) {
@@ -230,6 +232,15 @@ function touchedStructures(state: IncrementalState, structures: readonly Structu
     out[i] = touched ? 1 : 0;
   }
   return out;
+}
+
+/**
+ * Structure i's own elements (`memberElements`), as the state's watchers worked them out when `structures` are the
+ * state's (a value edit keeps every structure's names, in order).
+ */
+function membersOf(state: IncrementalState, structures: readonly Structure[], i: number): number[] {
+  const kept = state.watch.members;
+  return kept.length === structures.length && state.structures.length === structures.length ? kept[i]! : memberElements(structures[i]!, state.index);
 }
 
 /** Whether an element with a branch current of its own sits on rails alone: its current changes with any part's. */
@@ -729,12 +740,13 @@ function invert(lists: number[][], size: number): Watchers {
  * on a node of those that is not a rail (the hand analysis reads the neighbours of a structure's nodes), changed
  * value or has a moved internal node or branch current, or when a node of any of those elements moved.
  */
-function watchers(structures: Structure[], circuit: Circuit, index: CircuitIndex): { byNode: Watchers; byElement: Watchers } {
+function watchers(structures: Structure[], circuit: Circuit, index: CircuitIndex): { byNode: Watchers; byElement: Watchers; members: number[][] } {
   const nodes: number[][] = [];
   const elements: number[][] = [];
-  for (const s of structures) {
+  const members = structures.map((s) => memberElements(s, index));
+  for (const own of members) {
     const watched = new Set<number>();
-    for (const e of memberElements(s, index)) {
+    for (const e of own) {
       watched.add(e);
       for (const n of circuit.elements[e].nodes) {
         if (index.rail[n]) continue;
@@ -746,7 +758,7 @@ function watchers(structures: Structure[], circuit: Circuit, index: CircuitIndex
     elements.push([...watched]);
     nodes.push([...atNodes]);
   }
-  return { byNode: invert(nodes, circuit.nodes.length), byElement: invert(elements, circuit.elements.length) };
+  return { byNode: invert(nodes, circuit.nodes.length), byElement: invert(elements, circuit.elements.length), members };
 }
 
 /** Element indices of everything a structure names: devices, parts, the reference chain and degeneration resistors. */

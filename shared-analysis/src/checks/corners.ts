@@ -88,6 +88,11 @@ export interface CornerContext {
    */
   predictStarts?: boolean;
   /**
+   * True when the structures are known to hold no self-biased loop (an edit's incremental state is kept only for such a
+   * circuit, and a value edit keeps the topology and the structures): the loop search before predicting starts is skipped.
+   */
+  loopFree?: boolean;
+  /**
    * The last corner phase's results and which structures may differ from them (after a value edit: see `keptCorners`
    * in incremental.ts). Only the structures marked in `touched` are measured at a corner that converged both times;
    * the others keep the record's figures, and their findings when every corner converged as before.
@@ -321,7 +326,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const withVoltages = structures.flatMap((_, i) => (columns[i].voltageNames.length > 0 ? [i] : []));
   let failedCount = 0;
   // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.
-  const starts = ctx.predictStarts === false || feedLoops(topology, structures).length > 0 ? undefined : new CornerStarts(specs, nominalC, nominal.x);
+  const starts = ctx.predictStarts === false || (!ctx.loopFree && feedLoops(topology, structures).length > 0) ? undefined : new CornerStarts(specs, nominalC, nominal.x);
   for (const k of starts?.order() ?? specs.map((_, k) => k)) {
     const spec = specs[k];
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
