@@ -121,6 +121,11 @@ export interface CornerRecord {
   buffers: CornerBuffers;
   /** Per structure, its corner findings as `runCorners` made them (before severities and sorting). */
   findings: Finding[][];
+  /**
+   * The structures' measurement plans (names resolved to element and node indices): a value edit keeps every name and
+   * index, so a phase that keeps this record measures with them instead of resolving 5,000 structures' names again.
+   */
+  plans: MeasurementPlans;
 }
 
 /** A record and which structures can differ from it. */
@@ -322,7 +327,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
   let partCorners = 0;
   const topology = topologyOf(circuit);
   // Every name a measurement reads resolved once per list of structures (the nominal check planned the same list), not once per corner.
-  const flat = plannedMeasurements(topology, structures);
+  const flat = reuse ? reuse.record.plans : plannedMeasurements(topology, structures);
   const withVoltages = structures.flatMap((_, i) => (columns[i].voltageNames.length > 0 ? [i] : []));
   let failedCount = 0;
   // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.
@@ -410,7 +415,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     byStructure[index] = own;
     pushAll(findings, own);
   });
-  ctx.record?.({ labels: axis.labels, converged: axis.converged, ids: structures.map((s) => s.id), buffers, findings: byStructure });
+  ctx.record?.({ labels: axis.labels, converged: axis.converged, ids: structures.map((s) => s.id), buffers, findings: byStructure, plans: flat });
   if (ctx.stats) {
     const keptFigures = reuse ? structures.length - touchedOnly!.length : 0;
     Object.assign(ctx.stats, { corners: specs.length, converged, iterations, solveMs, measureMs: clock() - tStart - solveMs, keptFigures, keptFindings, partCorners });

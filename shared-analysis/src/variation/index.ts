@@ -11,7 +11,7 @@ import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { grown, grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
+import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -99,6 +99,8 @@ export interface VariationDetail {
   /** `sources` with what the next analysis needs to patch them; `changed` set when they were patched from the last analysis's. */
   sourceList: SourceList;
   varied: VariedParameters;
+  /** How many of `specs` are the structures' outputs (`structureOutputs`); the target elements' follow. */
+  structureSpecs: number;
 }
 
 /**
@@ -110,7 +112,8 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const t0 = performance.now();
   const { circuit, structures, solver, nominal } = ctx;
   if (!nominal.op.converged) return undefined;
-  const specs = structureOutputs(circuit, structures);
+  const specs = outputsOfStructures(circuit, structures, reuse?.last);
+  const structureSpecs = specs.length;
   const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
   const sourceList = sourcesOf(ctx, reuse);
@@ -134,7 +137,17 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const result = { outputs } as VariationResult;
   attachSources(result, sources);
   result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
-  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived, sourceList, varied };
+  return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived, sourceList, varied, structureSpecs };
+}
+
+/**
+ * The structures' outputs: after a value edit the last analysis's, when the structures are those it was made of (the
+ * same ids and device lists: a value edit does not recognise the structures again, so every name an output reads is
+ * kept); else made (`structureOutputs`).
+ */
+function outputsOfStructures(circuit: Circuit, structures: readonly Structure[], last: SpreadRecord | undefined): OutputSpec[] {
+  if (last && madeFromStructures(last.sourceList, structures)) return last.specs.slice(0, last.structureSpecs);
+  return structureOutputs(circuit, structures);
 }
 
 /**
@@ -170,7 +183,7 @@ export function unkeptSpread(detail: VariationDetail): { parts: Record<string, u
 
 /** What a later spread analysis may keep of this one (see `keptSpread`). */
 export function spreadRecordOf(detail: VariationDetail): SpreadRecord {
-  return { specs: detail.specs, sourceList: detail.sourceList, varied: detail.varied, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
+  return { specs: detail.specs, structureSpecs: detail.structureSpecs, sourceList: detail.sourceList, varied: detail.varied, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
 }
 
 /** The outputs whose records are derived now: those not kept (all of them without `kept`), ascending. */

@@ -8,6 +8,8 @@ import type { OutputVariation } from './types';
 /** The part of a finished spread analysis the next one may keep (see `keptSpread` in incremental.ts). */
 export interface SpreadRecord {
   specs: readonly OutputSpec[];
+  /** How many of `specs` are the structures' outputs (the target elements' follow). */
+  structureSpecs: number;
   /** The tolerance sources, which the next analysis patches after a value edit (`patchedSources`). */
   sourceList: SourceList;
   /** The varied parameters, which the next analysis with a patched source list follows (`followedParameters`). */

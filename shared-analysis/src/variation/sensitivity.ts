@@ -233,16 +233,39 @@ function derivativesWithin(lin: Linearisation, maps: ElementMaps, outputs: reado
 
 /** Per unknown, 1 when every element that stamps into its row is in `scope`: its terminals' KCL rows and the unknowns it owns (internal nodes, branch currents). */
 function coveredRows(lin: Linearisation, scope: Uint8Array): Uint8Array {
-  const { size, unknownKind, unknownOwner, circuit } = lin.layout;
+  const { size, unknownKind, unknownOwner } = lin.layout;
   const covered = new Uint8Array(size).fill(1);
-  const elements = circuit.elements;
-  for (let e = 0; e < elements.length; e++) {
-    if (scope[e]) continue;
-    const nodes = elements[e].nodes;
-    for (let k = 0; k < nodes.length; k++) if (nodes[k] > 0 && nodes[k] <= size) covered[nodes[k] - 1] = 0;
-  }
+  const { start, row } = elementRows(lin.layout);
+  for (let e = 0; e < scope.length; e++) if (!scope[e]) for (let q = start[e]; q < start[e + 1]; q++) covered[row[q]] = 0;
   for (let u = 0; u < size; u++) if (unknownKind[u] !== NODE_UNKNOWN && !scope[unknownOwner[u]]) covered[u] = 0;
   return covered;
+}
+
+/** Each element's KCL rows (its terminals' node unknowns, ground left out): element e's are `row[start[e] … start[e + 1] − 1]`. */
+interface ElementRows {
+  start: Int32Array;
+  row: Int32Array;
+}
+
+/** Element rows by layout: made once per layout (a value edit keeps the layout, its elements and their nodes), read at every edit. */
+const elementRowsOf = new WeakMap<Linearisation['layout'], ElementRows>();
+
+function elementRows(layout: Linearisation['layout']): ElementRows {
+  let rows = elementRowsOf.get(layout);
+  if (rows) return rows;
+  const elements = layout.circuit.elements;
+  const size = layout.size;
+  const start = new Int32Array(elements.length + 1);
+  for (let e = 0; e < elements.length; e++) start[e + 1] = start[e] + elements[e].nodes.length;
+  const row = new Int32Array(start[elements.length]);
+  let count = 0;
+  for (let e = 0; e < elements.length; e++) {
+    for (const node of elements[e].nodes) if (node > 0 && node <= size) row[count++] = node - 1;
+    start[e + 1] = count;
+  }
+  rows = { start, row: row.subarray(0, count) };
+  elementRowsOf.set(layout, rows);
+  return rows;
 }
 
 /** Device instances whose derivatives were computed. */
@@ -332,7 +355,7 @@ function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: reado
   const namesOf: Set<string>[] = tables.map(() => new Set<string>());
   if (maps.temperatureParam >= 0) for (const set of namesOf) set.add(TEMPERATURE_PARAMETER);
   const { kind, element, tableOf } = maps;
-  for (let j = 0; j < kind.length; j++) if (kind[j] === MODEL && tableOf[element[j]] >= 0) namesOf[tableOf[element[j]]].add((params[j] as { param: string }).param);
+  for (let j = 0; j < kind.length; j++) if (kind[j] === MODEL && tableOf[element[j]] >= 0 && (!scope || scope[element[j]])) namesOf[tableOf[element[j]]].add((params[j] as { param: string }).param);
   // Tables an output reads a terminal current of need their current rows even without parameters.
   const readsTable = new Uint8Array(tables.length);
   for (const out of outputs) for (const term of out.terms) if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
@@ -555,7 +578,7 @@ function adjointRows(
   for (let j = 0; j < params.length; j++) {
     const t = maps.kind[j] === MODEL ? maps.tableOf[maps.element[j]] : -1;
     const td = t >= 0 ? derivatives[t] : undefined;
-    if (td) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
+    if (td && rowIn(td, maps.instanceOf[maps.element[j]]) >= 0) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
   }
   const terms = new OutputTerms(lin, maps, derivatives, temperatureColumn, currentColumn, rows);
   const lambda = { index: [] as number[], value: [] as number[] };

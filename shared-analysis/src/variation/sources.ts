@@ -148,7 +148,7 @@ export function sourceListOf(circuit: Circuit, structures: readonly Structure[],
  * differ, or an element gains or loses its source: the list is then made afresh.
  */
 export function patchedSources(last: SourceList, circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, changed: ArrayLike<number>): SourceList | undefined {
-  if (last.sourceOf.length !== circuit.elements.length || !sameSettings(last.settings, settings) || !Object.is(last.temperatureC, temperatureC) || !sameStructures(last, structures)) return undefined;
+  if (last.sourceOf.length !== circuit.elements.length || !sameSettings(last.settings, settings) || !Object.is(last.temperatureC, temperatureC) || !madeFromStructures(last, structures)) return undefined;
   const written = writtenTolerances(circuit, tolerances);
   const sources = last.sources.slice();
   const moved = new Uint8Array(sources.length);
@@ -178,7 +178,7 @@ function sameSettings(a: SourceSettings, b: SourceSettings): boolean {
 }
 
 /** Whether the structures have the ids and devices a list was made from (the device lists are shared by a value edit's copies). */
-function sameStructures(last: SourceList, structures: readonly Structure[]): boolean {
+export function madeFromStructures(last: SourceList, structures: readonly Structure[]): boolean {
   if (last.ids.length !== structures.length) return false;
   for (let s = 0; s < structures.length; s++) {
     const a = last.devices[s];

@@ -167,6 +167,24 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
   }, LONG);
 });
 
+describe('the structures’ outputs after a value edit', () => {
+  it('are the last analysis’s only for the structures they were made of', () => {
+    const first = incremental(noteCells(220));
+    addCorners(first.analysis, { solver: first.solver!, nominal: first.nominal!, incremental: first.incremental });
+    const record = first.incremental!.spreadRecord!.record;
+    // Another netlist (one cell fewer) handed the record: its own outputs are made, none of the record's kept.
+    const other = cold(noteCells(219));
+    const { circuit, structures, documents, options } = other.analysis;
+    const reuse = { last: record, changed: new Int32Array(0), reached: () => true, scope: () => undefined };
+    const targets = readTargets(documents).targets;
+    const got = variationOf(circuit!, structures, documents, other.solver!, other.nominal!, targets, options, reuse)!;
+    const want = variationOf(circuit!, structures, documents, other.solver!, other.nominal!, targets, options)!;
+    expect(got.specs.map((o) => o.key)).toEqual(want.specs.map((o) => o.key));
+    expect(got.kept).toBeUndefined();
+    expect(got.specs.length).toBeLessThan(record.specs.length);
+  }, LONG);
+});
+
 describe('the finiteness walk after a spread analysis that kept records', () => {
   it('looks at the outputs it made and names a figure that is not finite as a walk of the whole result does', () => {
     const text = noteCells(220);
@@ -176,7 +194,7 @@ describe('the finiteness walk after a spread analysis that kept records', () => 
     const next = incremental(edited, first);
     addCorners(next.analysis, { solver: next.solver!, nominal: next.nominal!, incremental: next.incremental });
     const record = next.incremental!.spreadRecord!.record;
-    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sourceList.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length), devicesDerived: 0, sourceList: record.sourceList, varied: record.varied };
+    const detail = { result: next.analysis.variation!, specs: [...record.specs], sources: [...record.sourceList.sources], bySource: record.rows, sensitivityMs: 0, finite: record.finite, kept: new Uint8Array(record.specs.length), devicesDerived: 0, sourceList: record.sourceList, varied: record.varied, structureSpecs: record.structureSpecs };
     detail.kept.fill(1);
     // Cell 11's two outputs were made again: the walk looks at those (and the stats), not at the kept ones.
     const fresh = record.specs.flatMap((s, o) => (s.structure?.endsWith(':QR11') ? [o] : []));
