@@ -1,5 +1,6 @@
 // The shared hand-analysis context a structure kind computes with: device parameters at temperature, junction and square-law voltages, rails, recorded steps.
 
+import { mapList } from '../arrays';
 import { MODEL_DEFAULTS, type Circuit, type Model } from '../circuit';
 import { bjtBetaAt, bjtTemperatureFactors } from '../devices/bjt';
 import { jfetTemperature } from '../devices/jfet';
@@ -266,7 +267,7 @@ export class Hand {
 
   /** The reference and each output with their parameters. */
   outputs(): OutputParams[] {
-    return this.s.outputs.map((o) => ({ o, p: this.dev(o.device) }));
+    return mapList(this.s.outputs, (o) => ({ o, p: this.dev(o.device) }));
   }
 
   /** The node every current of the structure returns to. */

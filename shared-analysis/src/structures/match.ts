@@ -6,6 +6,18 @@ import { topologyOf, type Topology, type Transistor } from './topology';
 import type { Rail, StructureKind, StructureOutput, StructureRole, Technology } from './types';
 
 /** A structure as a recogniser finds it, before the reference branch is classified. */
+/**
+ * A mirror's members: its reference, the reference's twins and its output devices, in that order. Filled by `push`:
+ * a list spread from V8's own `map` has another layout once the recogniser is optimised, and the recogniser was
+ * compiled again for it.
+ */
+export function mirrorMembers(reference: Transistor, twins: readonly Transistor[], outputs: readonly Transistor[]): Draft['members'] {
+  const members: Draft['members'] = [{ t: reference, role: 'reference' }];
+  for (const t of twins) members.push({ t, role: 'reference' });
+  for (const t of outputs) members.push({ t, role: 'output' });
+  return members;
+}
+
 export interface Draft {
   kind: StructureKind;
   reference: Transistor;

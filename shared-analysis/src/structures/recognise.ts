@@ -6,6 +6,7 @@ import { Matcher, type Draft } from './match';
 import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from './types';
 import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
+import { mapList } from '../arrays';
 import type { Attachment } from './topology';
 
 /**
@@ -47,7 +48,7 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
 }
 
 function toStructure(m: Matcher, d: Draft): Structure {
-  const devices = d.members.map((x) => x.t.name);
+  const devices = mapList(d.members, (x) => x.t.name);
   const roles: Record<string, StructureRole> = nameTable();
   for (const x of d.members) roles[x.t.name] = x.role;
   const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
@@ -63,7 +64,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
     devices,
     roles,
     reference,
-    outputs: d.outputs.map((o) => withIsRatio(m, d, o)),
+    outputs: mapList(d.outputs, (o) => withIsRatio(m, d, o)),
     parts: d.parts,
     params: d.params,
     voltages: d.voltages?.map((v) => ({ ...v })),

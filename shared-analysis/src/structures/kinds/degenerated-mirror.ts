@@ -5,7 +5,7 @@ import { eng, sig } from '../format';
 import { degeneratedOutput, degeneratedRoWithBase, earlyFactor, thresholdWithBody, UNBOUNDED_OHMS, vbeAt } from '../formulas';
 import { GRAY, RAZAVI, solveRising, type Chain, type ChainResult, type Hand } from '../hand';
 import type { KindModule } from '../kind';
-import type { Draft, Matcher } from '../match';
+import { mirrorMembers, type Draft, type Matcher } from '../match';
 import type { Transistor } from '../topology';
 import type { StructureOutput } from '../types';
 import { nameTable } from '../../names';
@@ -27,7 +27,8 @@ function recognise(m: Matcher, d: Transistor): Draft | undefined {
   const x1 = d.common;
   if (x1 === a) return undefined;
   const twins = m.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === x1, [d], m.onCtrl(a));
-  const own = new Set<Element>([d.element, ...twins.map((t) => t.element)]);
+  const own = new Set<Element>([d.element]);
+  for (const t of twins) own.add(t.element);
   const sole = m.topo.soleOther(x1, (el) => own.has(el));
   if (!sole || sole.element.kind !== 'R') return undefined;
   const r1 = sole.element;
@@ -48,11 +49,7 @@ function recognise(m: Matcher, d: Transistor): Draft | undefined {
     kind: 'degenerated-mirror',
     reference: d,
     refNode: a,
-    members: [
-      { t: d, role: 'reference' },
-      ...twins.map((t) => ({ t, role: 'reference' as const })),
-      ...outDevices.map((t) => ({ t, role: 'output' as const })),
-    ],
+    members: mirrorMembers(d, twins, outDevices),
     outputs,
     refDegeneration: { resistor: r1.name, ohms: r1.resistance },
   };

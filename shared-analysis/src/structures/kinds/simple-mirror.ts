@@ -4,7 +4,7 @@ import { eng, sig } from '../format';
 import { earlyFactor, lambdaFactor, mosWidlarOutput, simpleMirrorGain, thresholdWithBody, widlarOutput } from '../formulas';
 import { GRAY, RAZAVI, type Chain, type ChainResult, type Hand } from '../hand';
 import type { KindModule } from '../kind';
-import type { Draft, Matcher } from '../match';
+import { mirrorMembers, type Draft, type Matcher } from '../match';
 import type { Transistor } from '../topology';
 import { commonEmitterRo, geometricRatio } from './common';
 import { nameTable } from '../../names';
@@ -30,11 +30,7 @@ export function recogniseDiodeMirror(m: Matcher, d: Transistor, kind: 'simple-mi
     kind,
     reference: d,
     refNode: d.ctrl,
-    members: [
-      { t: d, role: 'reference' },
-      ...twins.map((t) => ({ t, role: 'reference' as const })),
-      ...devices.map((t) => ({ t, role: 'output' as const })),
-    ],
+    members: mirrorMembers(d, twins, devices),
     outputs,
   };
 }

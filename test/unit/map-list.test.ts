@@ -1,0 +1,21 @@
+// mapList builds the list Array.prototype.map builds (ECMA-262, Array.prototype.map), item by item.
+import { describe, expect, it } from 'vitest';
+import { mapList } from '../../shared-analysis/src/arrays';
+
+describe('mapList', () => {
+  it('gives what Array.prototype.map gives, with each item and its index, for lists of strings and of objects', () => {
+    const names = ['Q1', 'Q2', 'R10', 'X1.Q3'];
+    expect(mapList(names, (s, i) => `${s}#${i}`)).toEqual(names.map((s, i) => `${s}#${i}`));
+    const records = names.map((name, k) => ({ name, k }));
+    expect(mapList(records, (r, i) => ({ name: r.name.toLowerCase(), at: i * r.k }))).toEqual(records.map((r, i) => ({ name: r.name.toLowerCase(), at: i * r.k })));
+    expect(mapList([] as string[], (s) => s)).toEqual([]);
+  });
+
+  it('makes a new list and leaves the one it reads alone', () => {
+    const list = ['a', 'b'];
+    const out = mapList(list, (s) => s.toUpperCase());
+    expect(out).not.toBe(list);
+    expect(list).toEqual(['a', 'b']);
+    expect(out).toEqual(['A', 'B']);
+  });
+});
