@@ -2,7 +2,7 @@
 // (`keptSpread` in the engine), so only the outputs whose record is not the one the main thread already holds cross,
 // instead of every output's record and every source of spread being cloned and rebuilt each time.
 
-import { sourceSummaries } from '../../shared-analysis/src/variation/index';
+import { sourceColumnsOf, sourceSummaries } from '../../shared-analysis/src/variation/index';
 import type { OutputVariation, SourceSummary, VariationResult } from '../../shared-analysis/src/variation/types';
 
 /**
@@ -41,8 +41,10 @@ export class SpreadSender {
   }
 }
 
-/** Whether two results list the same sources of spread (read from their columns while the lists are not made). */
+/** Whether two results list the same sources of spread (read from their columns while the lists are not made; the same columns after a value edit that kept them). */
 function sameSources(a: VariationResult, b: VariationResult): boolean {
+  const columns = sourceColumnsOf(a);
+  if (columns !== undefined && columns === sourceColumnsOf(b)) return true;
   const x = sourceSummaries(a);
   const y = sourceSummaries(b);
   if (x.length !== y.length) return false;

@@ -135,7 +135,7 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   }
   // Field by field, in the order the JSON shows them.
   const result = { outputs } as VariationResult;
-  attachSources(result, sources);
+  attachSources(result, sources, reuse && sourceList.changed ? { columns: reuse.last.sourceColumns, changed: sourceList.changed } : undefined);
   result.stats = { adjointSolves: derived.adjointSolves, parameters: varied.params.list.length, ms: performance.now() - t0 };
   return { result, specs, sources, bySource, sensitivityMs: derived.sensitivityMs, finite, ...(kept ? { kept } : {}), devicesDerived: derived.devicesDerived, sourceList, varied, structureSpecs };
 }
@@ -183,7 +183,7 @@ export function unkeptSpread(detail: VariationDetail): { parts: Record<string, u
 
 /** What a later spread analysis may keep of this one (see `keptSpread`). */
 export function spreadRecordOf(detail: VariationDetail): SpreadRecord {
-  return { specs: detail.specs, structureSpecs: detail.structureSpecs, sourceList: detail.sourceList, varied: detail.varied, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
+  return { specs: detail.specs, structureSpecs: detail.structureSpecs, sourceList: detail.sourceList, sourceColumns: sourceColumnsOf(detail.result), varied: detail.varied, outputs: detail.result.outputs, rows: detail.bySource, finite: detail.finite };
 }
 
 /** The outputs whose records are derived now: those not kept (all of them without `kept`), ascending. */
@@ -272,12 +272,14 @@ function mergedOutputs(kept: Uint8Array, derived: DerivedOutputs, last: SpreadRe
   return { bySource, finite };
 }
 
-/** Row o of `from` into `to` at `at`. */
+/** Row o of `from` into `to` at `at` (a plain loop: a row holds a few entries, and two views per row made 20,000 objects an edit). */
 function copyRow(from: SourceRows, o: number, to: SourceRows, at: number): void {
   const a = from.start[o];
   const b = from.start[o + 1];
-  to.index.set(from.index.subarray(a, b), at);
-  to.value.set(from.value.subarray(a, b), at);
+  for (let q = a; q < b; q++) {
+    to.index[at + q - a] = from.index[q];
+    to.value[at + q - a] = from.value[q];
+  }
 }
 
 /** An output's target window, when it reads an element with a target. */
@@ -351,13 +353,18 @@ function sourceParameters(params: ParameterList, sources: readonly ToleranceSour
 const SOURCE_KINDS: readonly SourceSummary['kind'][] = ['resistor', 'source', 'mismatch', 'part spread'];
 const SOURCE_ORIGINS: readonly SourceSummary['from'][] = ['card', 'series', 'setting', 'supply', 'model', 'default'];
 
+/** A source's kind as a code: its position in `SOURCE_KINDS`. */
+function kindCode(s: ToleranceSource): number {
+  return s.parameter.kind === 'resistance' ? 0 : s.parameter.kind === 'source' ? 1 : s.partSpread ? 3 : 2;
+}
+
 /**
  * The sources as the report lists them, in columns (name, kind, figure and origin of each). The
  * result's `sources` are made from them when first read, and the JSON writes each entry from the
  * columns (`sourceSummaries`): 30,001 records at 20k that the analysis no longer makes, the finiteness
  * walk no longer enters and the heap no longer keeps until the document is written.
  */
-class SourceColumns {
+export class SourceColumns {
   readonly name: string[];
   private readonly kind: Uint8Array;
   private readonly figure: Float64Array;
@@ -372,10 +379,21 @@ class SourceColumns {
     for (let k = 0; k < count; k++) {
       const s = sources[k];
       this.name[k] = s.label;
-      this.kind[k] = s.parameter.kind === 'resistance' ? 0 : s.parameter.kind === 'source' ? 1 : s.partSpread ? 3 : 2;
+      this.kind[k] = kindCode(s);
       this.figure[k] = s.figure;
       this.origin[k] = SOURCE_ORIGINS.indexOf(s.from);
     }
+  }
+
+  /** Whether these columns show `sources` (the list they were made from, patched where `changed` is 1) as they stand. */
+  shows(sources: readonly ToleranceSource[], changed: Uint8Array): boolean {
+    if (sources.length !== this.name.length) return false;
+    for (let k = 0; k < changed.length; k++) {
+      if (!changed[k]) continue;
+      const s = sources[k];
+      if (s.label !== this.name[k] || kindCode(s) !== this.kind[k] || !Object.is(s.figure, this.figure[k]) || SOURCE_ORIGINS.indexOf(s.from) !== this.origin[k]) return false;
+    }
+    return true;
   }
 
   /** Whether every figure is finite. */
@@ -397,9 +415,14 @@ class SourceColumns {
   }
 }
 
-/** Gives `result` its `sources`, made on first read unless a figure is not finite (then now, so the finiteness walk removes it as from any record). */
-function attachSources(result: VariationResult, sources: readonly ToleranceSource[]): void {
-  const columns = new SourceColumns(sources);
+/**
+ * Gives `result` its `sources`, made on first read unless a figure is not finite (then now, so the finiteness walk removes
+ * it as from any record). With `from` (a source list patched from the last analysis's, whose result read its sources
+ * from `from.columns`), those columns when no source the patch made again shows otherwise (a resistor's value is not
+ * in its summary): the worker then tells the main thread the sources are the ones it holds without comparing them.
+ */
+function attachSources(result: VariationResult, sources: readonly ToleranceSource[], from?: { columns: SourceColumns | undefined; changed: Uint8Array }): void {
+  const columns = from?.columns?.shows(sources, from.changed) ? from.columns : new SourceColumns(sources);
   if (!columns.finite()) {
     result.sources = columns.all();
     return;
@@ -409,13 +432,19 @@ function attachSources(result: VariationResult, sources: readonly ToleranceSourc
   markLazyTables(result, SOURCES_TABLE);
 }
 
+/** The columns a result reads its sources from while they are not made (undefined when they are). */
+export function sourceColumnsOf(result: VariationResult): SourceColumns | undefined {
+  const columns = (result as Partial<LazySources>)[SOURCE_COLUMNS];
+  return columns !== undefined && Object.getOwnPropertyDescriptor(result, 'sources')?.get ? columns : undefined;
+}
+
 /**
  * A result's sources for a writer: how many, and each as a record, made from the columns while the
  * list is not made (each record can be collected once written), else read from the list.
  */
 export function sourceSummaries(result: VariationResult): { length: number; at: (k: number) => SourceSummary } {
-  const columns = (result as Partial<LazySources>)[SOURCE_COLUMNS];
-  if (columns !== undefined && Object.getOwnPropertyDescriptor(result, 'sources')?.get) return { length: columns.name.length, at: (k) => columns.at(k) };
+  const columns = sourceColumnsOf(result);
+  if (columns !== undefined) return { length: columns.name.length, at: (k) => columns.at(k) };
   const list = result.sources;
   return { length: list.length, at: (k) => list[k] };
 }

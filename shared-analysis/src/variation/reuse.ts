@@ -1,6 +1,6 @@
 // What a spread analysis after a value edit keeps of the last one: the records of the outputs the edit cannot reach (docs/VARIATION.md).
 
-import type { VariedParameters } from './index';
+import type { SourceColumns, VariedParameters } from './index';
 import type { OutputSpec } from './outputs';
 import { sameFigures, type SourceList, type ToleranceSource } from './sources';
 import type { OutputVariation } from './types';
@@ -12,6 +12,8 @@ export interface SpreadRecord {
   structureSpecs: number;
   /** The tolerance sources, which the next analysis patches after a value edit (`patchedSources`). */
   sourceList: SourceList;
+  /** The columns the result read its sources from, when they were not made (the next result shares them when it shows the same: `attachSources`). */
+  sourceColumns: SourceColumns | undefined;
   /** The varied parameters, which the next analysis with a patched source list follows (`followedParameters`). */
   varied: VariedParameters;
   outputs: readonly OutputVariation[];

@@ -152,6 +152,10 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
     // The sources were patched from the last list: the edited resistor's made again.
     expect(Array.from(spread!.sourceList.changed!).filter((c) => c === 1).length).toBe(1);
     const outputs = expectSameSpread(next, cold(edited)).kept + next.analysis.variation!.stats.adjointSolves;
+    // A resistor's value is not in its source's summary: the result reads its sources from the last result's columns.
+    const columnsOf = (s: AnalysisSession) => s.incremental!.spreadRecord!.record.sourceColumns;
+    expect(columnsOf(next)).toBeDefined();
+    expect(columnsOf(next)).toBe(columnsOf(first));
     // Cell 7: its reference current, its output and its load's target current, and the output with Monte Carlo figures.
     expect(next.analysis.variation!.stats.adjointSolves).toBe(4);
     // A tolerance note on the 5 V rail's source reaches every output on that rail and leaves the 3.3 V rail's.
@@ -159,6 +163,8 @@ describe('the spread analysis after value edits keeps the outputs the edit canno
     const last = incremental(noted, next);
     expectSameSpread(last, cold(noted));
     expect(last.analysis.variation!.stats.adjointSolves).toBe(outputs / 2);
+    // The supply's figure changed: columns of its own.
+    expect(columnsOf(last)).not.toBe(columnsOf(next));
     // A comment that changes nothing the spread reads: every record kept, no transposed solve.
     const commented = noted.replace(/^(RR9 .*)$/m, '$1 ; checked');
     const after = incremental(commented, last);
