@@ -210,7 +210,7 @@ export function sensitivities(lin: Linearisation, outputs: readonly OutputFuncti
   // Each stage is a function of its own with one loop: run once on a large circuit, a function with
   // several long loops is compiled again for each loop it enters, and the code after a loop is then
   // met without type feedback (measured: most of a cold spread analysis was compiling).
-  const maps = elementMaps(lin, params);
+  const maps = elementMapsOf(lin, params);
   return (scope && derivativesWithin(lin, maps, outputs, params, scope)) || derivativesWithin(lin, maps, outputs, params, undefined)!;
 }
 
@@ -297,6 +297,20 @@ interface ElementMaps {
   /** The parameters of element e: `elementParams[elementParamStart[e] … elementParamStart[e + 1] − 1]`. */
   elementParamStart: Int32Array;
   elementParams: Int32Array;
+}
+
+/**
+ * The element maps of a layout and a parameter list, made once per pair: after a value edit the spread analysis follows
+ * the last one's parameter list (the same list) on the same layout, whose elements, readers and sources it keeps.
+ */
+const mapsOf = new WeakMap<Linearisation['layout'], WeakMap<readonly VariedParameter[], ElementMaps>>();
+
+function elementMapsOf(lin: Linearisation, params: readonly VariedParameter[]): ElementMaps {
+  let byParams = mapsOf.get(lin.layout);
+  if (!byParams) mapsOf.set(lin.layout, (byParams = new WeakMap()));
+  let maps = byParams.get(params);
+  if (!maps) byParams.set(params, (maps = elementMaps(lin, params)));
+  return maps;
 }
 
 function elementMaps(lin: Linearisation, params: readonly VariedParameter[]): ElementMaps {
