@@ -8,7 +8,7 @@ import { pointVectors, type PointVectors } from '../../shared-analysis/src/solve
 import { addWholeRecords, elementsByName, installPointTables, pointColumns, wholeRecordCount, type PointColumns } from './point-tables';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding, Span } from '../../shared-analysis/src/types';
-import { nameTable, restoreNameTables } from '../../shared-analysis/src/names';
+import { nameTable, restoreNameTables, restoreStructureTables } from '../../shared-analysis/src/names';
 import { indexBuilder } from '../../shared-analysis/src/features/document-index';
 import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
 import { editRegion } from '../../shared-analysis/src/incremental';
@@ -395,7 +395,11 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       for (const f of part.items) target.findings.push(f);
       return;
     case 'structures':
-      for (const s of part.items) target.structures.push(s);
+      for (const s of part.items) {
+        // Restored as they arrive: the merger's finish restores the rest of the result without them.
+        restoreStructureTables(s);
+        target.structures.push(s);
+      }
       return;
   }
 }
@@ -438,7 +442,7 @@ export function partMerger(analysis: Analysis, held?: Analysis): PartMerger {
     },
     *finishSteps() {
       if (elementIndex) yield* elementIndex.finishSteps(analysis);
-      restoreNameTables(analysis);
+      restoreNameTables(analysis, { structures: false });
     },
   };
   return merger;

@@ -64,7 +64,7 @@ const WORKER_YOUNG_GENERATION_MB = 16;
  * Runs `steps` to their end on this thread, giving queued editor requests a turn whenever a slice has run
  * MERGE_SLICE_MS (the clock read at each step); the first slice began at `started`.
  */
-async function inSlices(steps: Iterable<void>, started = performance.now()): Promise<void> {
+export async function inSlices(steps: Iterable<void>, started = performance.now()): Promise<void> {
   let slice = started;
   for (const _ of steps) {
     if (performance.now() - slice < MERGE_SLICE_MS) continue;

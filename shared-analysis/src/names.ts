@@ -23,22 +23,38 @@ export function asNameTable<T>(table: Record<string, T> | undefined): Record<str
   return table;
 }
 
+/**
+ * `restoreNameTables` for one structure: a host that takes a result's structures in a few at a time restores each as it
+ * arrives (5,000 structures' tables at once held its thread 20–70 ms), then the rest with `{ structures: false }`.
+ */
+export function restoreStructureTables(s: StructureTables): void {
+  if (s.estimate) for (const t of [s.estimate.iout, s.estimate.outputEdge, s.estimate.voltages, s.estimate.voltageTempco]) asNameTable(t);
+  asNameTable(s.solved?.iout);
+  for (const t of [s.headroom, s.compliance, s.outputResistance, s.roles, s.parts, s.params]) asNameTable(t as Record<string, unknown> | undefined);
+  // Corners still held as columns (an accessor) build prototype-free records when first read.
+  if (Object.getOwnPropertyDescriptor(s, 'corners')?.get) return;
+  for (const c of s.corners ?? []) for (const t of [c.iout, c.headroom, c.voltages]) asNameTable(t);
+}
+
+/** The parts of a Structure `restoreStructureTables` restores (kept structural, as `NameTables`). */
+interface StructureTables {
+  estimate?: { iout?: Record<string, number>; outputEdge?: Record<string, number>; voltages?: Record<string, number>; voltageTempco?: Record<string, number> };
+  solved?: { iout?: Record<string, number> };
+  headroom?: Record<string, number>;
+  compliance?: Record<string, unknown>;
+  outputResistance?: Record<string, number>;
+  roles?: Record<string, unknown>;
+  parts?: Record<string, string>;
+  params?: Record<string, number>;
+  corners?: readonly { iout?: Record<string, number>; headroom?: Record<string, number>; voltages?: Record<string, number> }[];
+}
+
 /** The parts of an Analysis this module needs to know of (kept structural, so names.ts imports no engine types). */
 interface NameTables {
   documents?: Record<string, unknown>;
   circuit?: { models?: Record<string, { params?: Record<string, number> }>; params?: Record<string, number> };
   operatingPoint?: { nodes?: Record<string, number>; devices?: Record<string, unknown> };
-  structures?: readonly {
-    estimate?: { iout?: Record<string, number>; outputEdge?: Record<string, number>; voltages?: Record<string, number>; voltageTempco?: Record<string, number> };
-    solved?: { iout?: Record<string, number> };
-    headroom?: Record<string, number>;
-    compliance?: Record<string, unknown>;
-    outputResistance?: Record<string, number>;
-    roles?: Record<string, unknown>;
-    parts?: Record<string, string>;
-    params?: Record<string, number>;
-    corners?: readonly { iout?: Record<string, number>; headroom?: Record<string, number>; voltages?: Record<string, number> }[];
-  }[];
+  structures?: readonly StructureTables[];
   symbols?: { subckts?: readonly { params?: Record<string, unknown> }[] };
 }
 
@@ -47,7 +63,7 @@ interface NameTables {
  * (which rebuild plain objects) its prototype-free form again, in place, so lookups by a
  * netlist's names behave as in the engine. Returns the analysis.
  */
-export function restoreNameTables<A extends NameTables>(analysis: A): A {
+export function restoreNameTables<A extends NameTables>(analysis: A, which: { structures: boolean } = { structures: true }): A {
   asNameTable(analysis.documents);
   if (analysis.circuit) {
     asNameTable(analysis.circuit.models);
@@ -56,14 +72,7 @@ export function restoreNameTables<A extends NameTables>(analysis: A): A {
   }
   asNameTable(analysis.operatingPoint?.nodes);
   asNameTable(analysis.operatingPoint?.devices);
-  for (const s of analysis.structures ?? []) {
-    if (s.estimate) for (const t of [s.estimate.iout, s.estimate.outputEdge, s.estimate.voltages, s.estimate.voltageTempco]) asNameTable(t);
-    asNameTable(s.solved?.iout);
-    for (const t of [s.headroom, s.compliance, s.outputResistance, s.roles, s.parts, s.params]) asNameTable(t as Record<string, unknown> | undefined);
-    // Corners still held as columns (an accessor) build prototype-free records when first read.
-    if (Object.getOwnPropertyDescriptor(s, 'corners')?.get) continue;
-    for (const c of s.corners ?? []) for (const t of [c.iout, c.headroom, c.voltages]) asNameTable(t);
-  }
+  if (which.structures) for (const s of analysis.structures ?? []) restoreStructureTables(s);
   for (const sc of analysis.symbols?.subckts ?? []) asNameTable(sc.params);
   return analysis;
 }

@@ -1,7 +1,7 @@
 // Splitting an analysis into parts for the thread boundary and putting it back together loses nothing.
 
 import { describe, expect, it } from 'vitest';
-import { adoptKeptCards, mergePart, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
+import { adoptKeptCards, mergePart, partMerger, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { analyse, analyseSession } from '../../shared-analysis/src/service';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
@@ -117,6 +117,29 @@ describe('analysis transfer', () => {
     const plainCopy = restoreNameTables(structuredClone(split.header));
     for (const p of split.parts) mergePart(plainCopy, structuredClone(p));
     expect(JSON.stringify(plainCopy.operatingPoint)).toBe(JSON.stringify(op));
+  });
+
+  it("gives each structure's name-keyed tables their prototype-free form as its part is merged", () => {
+    // Invented: 120 NPN mirror cells with degenerated outputs (three structure parts of 50), each with its tables.
+    const lines = ['Structure tables', 'VCC vcc 0 DC 9', '.model QN NPN (BF=100 VAF=60)'];
+    for (let c = 0; c < 120; c++) lines.push(`RR${c} vcc r${c} ${10 + (c % 5)}k`, `QR${c} r${c} r${c} 0 QN`, `QO${c} o${c} r${c} e${c} QN`, `RE${c} e${c} 0 100`, `RL${c} vcc o${c} 2k`);
+    lines.push('.end', '');
+    const text = lines.join('\n');
+    const uri = '/t/tables.cir';
+    const original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } });
+    expect(original.structures.length).toBeGreaterThan(100);
+    const { header, parts } = splitAnalysis(original);
+    // As the server takes a result in: the header's tables restored, then every part through the merger.
+    const taken = restoreNameTables(structuredClone(header));
+    const merger = partMerger(taken);
+    for (const p of parts) for (const _ of merger.steps(structuredClone(p)));
+    merger.finish();
+    const tables = (a: Analysis) => a.structures.flatMap((st) => [st.headroom, st.compliance, st.outputResistance, st.roles, st.parts, st.params, st.solved?.iout, st.estimate?.iout, st.estimate?.voltages].filter((t) => t !== undefined));
+    expect(tables(taken).length).toBeGreaterThan(original.structures.length * 3);
+    // The independent computation: the engine's own tables are made prototype-free (nameTable) where they are built.
+    expect(tables(original).every((t) => Object.getPrototypeOf(t) === null)).toBe(true);
+    expect(tables(taken).every((t) => Object.getPrototypeOf(t) === null)).toBe(true);
+    expect(JSON.stringify(taken.structures)).toBe(JSON.stringify(original.structures));
   });
 
   it('keeps the held cards an edit leaves alone, moved past the edit, and equals a full transfer', () => {

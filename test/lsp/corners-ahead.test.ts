@@ -10,6 +10,8 @@ import { analyse } from '../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 import type { Analysis } from '../../shared-analysis/src/analysis';
 import { startServer } from './lsp-client';
+import { hoverAt } from '../../shared-analysis/src/features/hover';
+import { HoverRequest, type MarkupContent } from 'vscode-languageserver-protocol/node';
 
 const URI = 'file:///corners-ahead.cir';
 
@@ -152,6 +154,24 @@ describe('the server publishing corner findings solved ahead', () => {
       // Every version has a finding of the corner phase alone (the spread misses the target the nominal point meets),
       // with the version's own figures: one given to another version would show above.
       for (const [v, t] of texts.entries()) expect(expected[v]!.size).toBeGreaterThan(direct(t, v + 1).nominal.length);
+      // The structures' corners and spread are added over slices after the findings: the hovers of the mirror's devices
+      // come to read as the engine's one pass reads them (corner and spread lines included).
+      const last = texts[2]!;
+      const onePass = analyse({ uri: URI, text: last, version: 3 }, new MemoryWorkspace({ [URI]: last }), {});
+      for (const needle of ['QO o r', 'QR r r', 'RL vcc o']) {
+        const offset = last.indexOf(needle) + 1;
+        const want = hoverAt(onePass, URI, offset)!.markdown;
+        expect(want).toMatch(/corner|spread|σ/i);
+        const line = last.slice(0, offset).split('\n').length - 1;
+        const position = { line, character: 1 };
+        let got = '';
+        for (let tries = 0; tries < 200 && got !== want; tries++) {
+          const h = await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: URI }, position });
+          got = ((h?.contents ?? { value: '' }) as MarkupContent).value;
+          if (got !== want) await new Promise((r) => setTimeout(r, 50));
+        }
+        expect(got).toBe(want);
+      }
     } finally {
       await server.stop();
     }

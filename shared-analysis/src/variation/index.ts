@@ -1120,6 +1120,14 @@ function groupListed(count: number, g: number): boolean {
 
 /** Attaches each structure's output variations (`structure.variation`) from a result. */
 export function attachVariation(structures: Structure[], result: VariationResult): void {
+  for (const _ of attachVariationSteps(structures, result));
+}
+
+/** Structures attached between two yields of `attachVariationSteps`. */
+const ATTACH_STEP = 250;
+
+/** `attachVariation` in steps, for a host that gives queued requests a turn between them (5,000 structures at once held it 10–50 ms). */
+export function* attachVariationSteps(structures: Structure[], result: VariationResult): Generator<void, void, undefined> {
   const byStructure = new Map<string, OutputVariation[]>();
   for (const o of result.outputs) {
     if (!o.structure) continue;
@@ -1127,7 +1135,9 @@ export function attachVariation(structures: Structure[], result: VariationResult
     if (list) list.push(o);
     else byStructure.set(o.structure, [o]);
   }
-  for (const s of structures) {
+  for (let k = 0; k < structures.length; k++) {
+    if (k % ATTACH_STEP === ATTACH_STEP - 1) yield;
+    const s = structures[k]!;
     const list = byStructure.get(s.id);
     if (!list) continue;
     const iout: Record<string, OutputVariation> = nameTable();
