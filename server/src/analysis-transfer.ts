@@ -9,7 +9,7 @@ import { addWholeRecords, elementsByName, installPointTables, pointColumns, whol
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { Finding, Span } from '../../shared-analysis/src/types';
 import { nameTable, restoreNameTables, restoreStructureTables } from '../../shared-analysis/src/names';
-import { indexBuilder } from '../../shared-analysis/src/features/document-index';
+import { indexBuilder, positionsByLowerName } from '../../shared-analysis/src/features/document-index';
 import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
 import { editRegion } from '../../shared-analysis/src/incremental';
 
@@ -380,7 +380,7 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       if (target.operatingPoint) for (const [name, rec] of part.items) target.operatingPoint.devices[name] = rec;
       return;
     case 'point':
-      if (target.operatingPoint && target.circuit) yield* installPointTables(target.operatingPoint, target.circuit, part.columns);
+      if (target.operatingPoint && target.circuit) installPointTables(target.operatingPoint, target.circuit, part.columns, () => positionsByLowerName(target));
       return;
     case 'point-records':
       if (target.operatingPoint) addWholeRecords(target.operatingPoint, part.items);

@@ -103,9 +103,9 @@ function objectKeyOrder(keys: readonly string[]): string[] {
  * values, read when asked for: lookups, `in`, `Object.keys`, spreading and JSON see what a `nameTable` filled in
  * that order shows. Writing to it throws (nothing writes a taken-in point's tables).
  */
-function readOnlyTable<T>(keys: readonly string[], position: ReadonlyMap<string, number>, valueAt: (k: number) => T): Record<string, T> {
+function readOnlyTable<T>(keys: readonly string[], position: (key: string) => number | undefined, valueAt: (k: number) => T): Record<string, T> {
   let listed: string[] | undefined;
-  const at = (key: string | symbol): number | undefined => (typeof key === 'string' ? position.get(key) : undefined);
+  const at = (key: string | symbol): number | undefined => (typeof key === 'string' ? position(key) : undefined);
   return new Proxy(Object.create(null) as Record<string, T>, {
     get: (_t, key) => {
       const k = at(key);
@@ -127,23 +127,34 @@ function readOnlyTable<T>(keys: readonly string[], position: ReadonlyMap<string,
 /** The records that travel whole, added as their parts arrive, by position in the devices table. */
 const wholeRecords = new WeakMap<OperatingPoint, Map<number, DeviceRecord>>();
 
-/** Keys positioned between two yields of `installPointTables`: a few milliseconds' work. */
-const KEYS_PER_STEP = 2000;
-
-/** Fills `position` with each key's index, a step at a time. */
-function* positions(keys: readonly string[], position: Map<string, number>): Generator<void, void, undefined> {
-  for (let k = 0; k < keys.length; k++) {
-    position.set(keys[k]!, k);
-    if (k % KEYS_PER_STEP === KEYS_PER_STEP - 1) yield;
-  }
+/**
+ * A key's position through a table another part of the host holds by lower-case name (`byLower`: the name of item i
+ * lower-cased → i), checked against the name as written (`nameAt`), then mapped to the table's position (`toPosition`).
+ * When two names differ only by case the lower-case table holds one of them: the key's own table is made then.
+ */
+function exactPositions(count: number, nameAt: (i: number) => string, byLower: () => ReadonlyMap<string, number>, toPosition: (i: number) => number): (key: string) => number | undefined {
+  let lower: ReadonlyMap<string, number> | undefined;
+  let own: Map<string, number> | undefined;
+  return (key) => {
+    if (!lower && !own) {
+      const table = byLower();
+      if (table.size === count) lower = table;
+      else own = new Map(Array.from({ length: count }, (_, i) => [nameAt(i), i]));
+    }
+    const i = lower ? lower.get(key.toLowerCase()) : own!.get(key);
+    if (i === undefined || nameAt(i) !== key) return undefined;
+    const k = toPosition(i);
+    return k < 0 ? undefined : k;
+  };
 }
 
 /**
- * Gives a taken-in point (of `circuit`, whose elements are all in) its tables read from `columns`, in steps (the
- * look-up of 50,000 names made at once held the thread several milliseconds); the tables are complete once the
- * generator is done.
+ * Gives a taken-in point (of `circuit`, whose elements are all in) its tables read from `columns`. Names are looked up
+ * through the element index's tables by lower-case name (`byLowerName`, asked on the first look-up, once the index is
+ * complete): two maps of 50,000 names of their own were 3.5 MB of each analysis held, and their filling a step of the
+ * take-in.
  */
-export function* installPointTables(op: OperatingPoint, circuit: Circuit, columns: PointColumns): Generator<void, void, undefined> {
+export function installPointTables(op: OperatingPoint, circuit: Circuit, columns: PointColumns, byLowerName: () => { nodes: ReadonlyMap<string, number>; elements: ReadonlyMap<string, number> }): void {
   const whole = new Map<number, DeviceRecord>();
   wholeRecords.set(op, whole);
   // Made when first read and kept, so a record read twice is the same object, as in a table.
@@ -156,12 +167,13 @@ export function* installPointTables(op: OperatingPoint, circuit: Circuit, column
     return rec;
   };
   const names = Array.from(columns.order, (e) => circuit.elements[e]!.name);
-  const nodePosition = new Map<string, number>();
-  const devicePosition = new Map<string, number>();
-  yield* positions(circuit.nodes, nodePosition);
-  yield* positions(names, devicePosition);
-  op.nodes = readOnlyTable(circuit.nodes, nodePosition, (i) => columns.volts[i]!);
-  op.devices = readOnlyTable(names, devicePosition, (k) => record(k)!);
+  // An element's position in the devices table (−1: not in it).
+  const positionOf = new Int32Array(circuit.elements.length).fill(-1);
+  columns.order.forEach((e, k) => (positionOf[e] = k));
+  const nodes = circuit.nodes;
+  const elements = circuit.elements;
+  op.nodes = readOnlyTable(nodes, exactPositions(nodes.length, (i) => nodes[i]!, () => byLowerName().nodes, (i) => i), (i) => columns.volts[i]!);
+  op.devices = readOnlyTable(names, exactPositions(elements.length, (e) => elements[e]!.name, () => byLowerName().elements, (e) => positionOf[e]!), (k) => record(k)!);
 }
 
 /** Adds records that travel whole (by position in the devices table) to a point given its tables by `installPointTables`. */

@@ -30,7 +30,7 @@ function check(text: string, hoverAtText: string[]): void {
   expect(copy).toEqual(original);
   // The tables built part by part are the ones built in one go.
   expect(indexOf(copy)).toEqual(indexOf(original));
-  expect(indexOf(copy).elementByName.get('q2')).toBe(copy.circuit!.elements.find((e) => e.name === 'Q2'));
+  expect(copy.circuit!.elements[indexOf(copy).elementByName.get('q2')!]).toBe(copy.circuit!.elements.find((e) => e.name === 'Q2'));
   // The terminals on each node against a plain scan of the elements, in element order, then terminal order.
   for (const a of [copy, original]) {
     const scan = a.circuit!.nodes.map((): string[] => []);
@@ -95,11 +95,14 @@ describe('analysis transfer', () => {
     expect(Object.keys(taken.nodes).slice(0, 3)).toEqual(['0', '1', '2']);
     expect(Object.keys(taken.devices)).toEqual(Object.keys(op.devices));
     expect(JSON.stringify(taken)).toBe(JSON.stringify(op));
-    for (const name of [...Object.keys(op.devices), 'nothing', 'toString', 'constructor', '__proto__', 'hasOwnProperty']) {
+    // Look-ups go through the element index's tables by lower-case name: a name in another case is not a key.
+    const otherCase = (names: string[]) => names.flatMap((n) => [n.toLowerCase(), n.toUpperCase()]);
+    expect(otherCase(Object.keys(op.devices)).some((n) => !(n in op.devices))).toBe(true);
+    for (const name of [...Object.keys(op.devices), ...otherCase(Object.keys(op.devices)), 'nothing', 'toString', 'constructor', '__proto__', 'hasOwnProperty']) {
       expect(taken.devices[name], name).toEqual(op.devices[name]);
       expect(name in taken.devices, name).toBe(name in op.devices);
     }
-    for (const name of [...Object.keys(op.nodes), 'nothing', 'valueOf']) {
+    for (const name of [...Object.keys(op.nodes), ...otherCase(Object.keys(op.nodes)), 'nothing', 'valueOf']) {
       expect(taken.nodes[name], name).toBe(op.nodes[name]);
       expect(name in taken.nodes, name).toBe(name in op.nodes);
     }

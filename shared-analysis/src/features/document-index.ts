@@ -22,8 +22,8 @@ interface AnalysisIndex {
   nodeByName: Map<string, number>;
   /** Node index -> the element terminals that touch it. */
   links: NodeLinks;
-  /** Lower-case element name -> element. */
-  elementByName: Map<string, Element>;
+  /** Lower-case element name -> the element's index in the circuit. */
+  elementByName: Map<string, number>;
 }
 
 /**
@@ -127,7 +127,7 @@ function addElements(idx: AnalysisIndex, links: LinkCollector, nodeCount: number
     const list = byStart.get(el.origin.span.start);
     if (list) list.push(el);
     else byStart.set(el.origin.span.start, [el]);
-    elementByName.set(el.name.toLowerCase(), el);
+    elementByName.set(el.name.toLowerCase(), i);
     for (let t = 0; t < el.nodes.length; t++) {
       const n = el.nodes[t]!;
       if (n >= 0 && n < nodeCount) links.add(n, i, t);
@@ -201,7 +201,17 @@ export function elementsOfCard(analysis: Analysis, uri: string, card: Card): Ele
 
 /** The element with this hierarchical name (case-insensitive). */
 export function elementByName(analysis: Analysis, name: string): Element | undefined {
-  return indexOf(analysis).elementByName.get(name.toLowerCase());
+  const i = indexOf(analysis).elementByName.get(name.toLowerCase());
+  return i === undefined ? undefined : analysis.circuit?.elements[i];
+}
+
+/**
+ * The index's tables of node and element positions by lower-case name (a node's index in `circuit.nodes`, an element's
+ * in `circuit.elements`): for a host's tables keyed by the same names, which need not hold 50,000 keys of their own.
+ */
+export function positionsByLowerName(analysis: Analysis): { nodes: ReadonlyMap<string, number>; elements: ReadonlyMap<string, number> } {
+  const idx = indexOf(analysis);
+  return { nodes: idx.nodeByName, elements: idx.elementByName };
 }
 
 /** Whether two tokens are the same field of the text (by span, so it holds for copies of a card too). */
