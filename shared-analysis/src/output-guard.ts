@@ -48,6 +48,11 @@ export function markLazyTables(o: object, names: readonly string[]): void {
   lazyHolders.set(o, names);
 }
 
+/** Undoes `markLazyTables`: `o`'s getters now give values assigned to them, which the finiteness walk reads. */
+export function unmarkLazyTables(o: object): void {
+  lazyHolders.delete(o);
+}
+
 /**
  * Removes every number that is not finite from `value` (a property is deleted, an array element
  * dropped; typed arrays are left alone, they never leave as JSON, and so are properties read through

@@ -1,7 +1,7 @@
 // A structure's corner results stored column-wise: one typed array per quantity, one entry per corner (and per output).
 
 import { nameTable } from '../names';
-import { markLazyTables } from '../output-guard';
+import { markLazyTables, unmarkLazyTables } from '../output-guard';
 import type { CornerResult, Structure } from './types';
 
 /**
@@ -47,25 +47,50 @@ export function cornerColumns(s: Structure): CornerColumns | undefined {
 /** The property `setCornerColumns` builds on first read. */
 const CORNERS_TABLE = ['corners'];
 
+/** Per structure: its corner records, built from its columns at the first read, or the list assigned to it. */
+const listOf = new WeakMap<Structure, CornerResult[]>();
+
+/**
+ * `Structure.corners` as one accessor for every structure: recognition defines it (`defineCorners`), so it is
+ * never a data property made an accessor later, which turned every structure into a slow dictionary of its
+ * properties (a few hundred bytes more each, and every read of a structure a look-up), as a getter made per
+ * structure would. An enumerable own property, so JSON, spreading and structured cloning copy the records.
+ */
+const CORNERS: PropertyDescriptor = {
+  enumerable: true,
+  configurable: true,
+  get(this: Structure): CornerResult[] {
+    let list = listOf.get(this);
+    if (list === undefined) {
+      const cols = columnsOf.get(this);
+      listOf.set(this, (list = cols ? cornerRecords(cols) : []));
+    }
+    return list;
+  },
+  set(this: Structure, value: CornerResult[]): void {
+    columnsOf.delete(this);
+    unmarkLazyTables(this);
+    listOf.set(this, value);
+  },
+};
+
+/** Defines `s.corners` (no corner yet) as every structure holds it; `s` has no `corners` property yet. */
+export function defineCorners(s: Omit<Structure, 'corners'>): void {
+  Object.defineProperty(s, 'corners', CORNERS);
+}
+
 /**
  * Stores a structure's corner results as columns. `s.corners` then builds the per-corner records
  * from them the first time it is read (hover, a full JSON report), and keeps them; until then no
  * per-corner object exists. The columns are not an enumerable property, so copying the structure
- * (JSON, structured cloning) copies `corners` as plain records.
+ * (JSON, structured cloning) copies `corners` as plain records. A structure made elsewhere (a copy, one
+ * cloned from another thread) gets the accessor here.
  */
 export function setCornerColumns(s: Structure, cols: CornerColumns): void {
   columnsOf.set(s, cols);
+  listOf.delete(s);
   markLazyTables(s, CORNERS_TABLE);
-  let built: CornerResult[] | undefined;
-  Object.defineProperty(s, 'corners', {
-    enumerable: true,
-    configurable: true,
-    get: () => (built ??= cornerRecords(cols)),
-    set: (value: CornerResult[]) => {
-      columnsOf.delete(s);
-      Object.defineProperty(s, 'corners', { value, writable: true, enumerable: true, configurable: true });
-    },
-  });
+  if (Object.getOwnPropertyDescriptor(s, 'corners')?.get !== CORNERS.get) Object.defineProperty(s, 'corners', CORNERS);
 }
 
 /** The per-corner records of a structure's columns, as `Structure.corners` lists them. */

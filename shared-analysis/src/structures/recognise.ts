@@ -8,6 +8,7 @@ import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
 import { mapList } from '../arrays';
 import type { Attachment } from './topology';
+import { defineCorners } from './corner-columns';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -53,11 +54,12 @@ function toStructure(m: Matcher, d: Draft): Structure {
   for (const x of d.members) roles[x.t.name] = x.role;
   const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
   if (d.refDegeneration) reference.degeneration = d.refDegeneration;
-  // Every field is made here, in the order the JSON shows them, those the checks fill later undefined until then:
-  // a structure keeps one layout (V8's map) from recognition to the report, where fields added one by one as the
-  // checks ran gave each structure a new layout at each step, and the code that read structures was given up and
-  // compiled again for the next (a member that is undefined is left out of the JSON as an absent one).
-  return {
+  // Every field is made here, in the order the JSON shows them (`corners` an accessor, see `defineCorners`), those the
+  // checks fill later undefined until then: a structure keeps one layout (V8's map) from recognition to the report,
+  // where fields added one by one as the checks ran gave each structure a new layout at each step, and the code that
+  // read structures was given up and compiled again for the next (a member that is undefined is left out of the JSON
+  // as an absent one).
+  const s: Omit<Structure, 'corners' | 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'> = {
     id: `${d.kind}:${d.reference.name}`,
     kind: d.kind,
     technology: d.reference.tech,
@@ -72,13 +74,10 @@ function toStructure(m: Matcher, d: Draft): Structure {
     headroom: nameTable(),
     compliance: {},
     outputResistance: {},
-    corners: [],
-    solved: undefined,
-    estimate: undefined,
-    discrepancy: undefined,
-    startup: undefined,
-    variation: undefined,
   };
+  defineCorners(s);
+  const later: Pick<Structure, 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'> = { solved: undefined, estimate: undefined, discrepancy: undefined, startup: undefined, variation: undefined };
+  return Object.assign(s, later) as Structure;
 }
 
 /**

@@ -3,6 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { cornerColumns, cornerRecords, setCornerColumns, summariseOutputs, type CornerColumns } from '../../../shared-analysis/src/structures/corner-columns';
 import { analyse } from '../../../shared-analysis/src/service';
+import { dropNonFinite } from '../../../shared-analysis/src/output-guard';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { rng } from '../../seeded-random';
@@ -100,6 +101,27 @@ describe('corner columns', () => {
     s.corners = [];
     expect(s.corners).toEqual([]);
     expect(cornerColumns(s)).toBeUndefined();
+  });
+
+  it('are read through one accessor shared by every structure, in the place the JSON lists corners, and walked once assigned', () => {
+    // Two invented NPN mirrors fed from 5 V.
+    const text = 'mirrors\nVCC vcc 0 5\nR1 vcc r1 4.3k\nQ1 r1 r1 0 QN\nQ2 o1 r1 0 QN\nRL1 vcc o1 2k\nR2 vcc r2 10k\nQ3 r2 r2 0 QN\nQ4 o2 r2 0 QN\nRL2 vcc o2 1k\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n.end\n';
+    const a = analyse({ uri: '/m.cir', text }, new MemoryWorkspace({ '/m.cir': text }));
+    expect(a.structures.length).toBe(2);
+    const [s1, s2] = a.structures;
+    const get1 = Object.getOwnPropertyDescriptor(s1, 'corners')?.get;
+    expect(get1).toBeTypeOf('function');
+    expect(Object.getOwnPropertyDescriptor(s2, 'corners')?.get).toBe(get1);
+    const keys = Object.keys(s1);
+    expect(keys.slice(keys.indexOf('outputResistance'), keys.indexOf('outputResistance') + 3)).toEqual(['outputResistance', 'corners', 'solved']);
+    expect(s1.corners.length).toBe(cornerColumns(s1)!.axis.labels.length);
+    // An assigned list is an ordinary value again: the finiteness walk reads it and drops what is not finite.
+    s2.corners = [{ ...s1.corners[0]!, iref: Number.NaN }];
+    expect(cornerColumns(s2)).toBeUndefined();
+    const removed: string[] = [];
+    dropNonFinite(s2, 's2', removed);
+    expect(removed).toEqual(['s2.corners[0].iref']);
+    expect('iref' in s2.corners[0]!).toBe(false);
   });
 
   it('hold what an analysis measured at every corner, read back through the records', () => {
