@@ -117,7 +117,7 @@ export function cornerStarts(state: IncrementalState | undefined, circuit: Circu
       const start = new Float64Array(around.length);
       for (let k = 0; k < start.length; k++) start[k] = last.x[k] + (around[k] - last.nominal[k]);
       let parts = partStarts.get(last.resistances);
-      if (!parts) partStarts.set(last.resistances, (parts = new PartStarts(whole, last.resistances)));
+      if (!parts) partStarts.set(last.resistances, (parts = PartStarts.of(whole, last.resistances)));
       const point = parts.refine(start, last.x, options);
       return point ? { x: start, parts: point } : { x: start };
     },
@@ -559,7 +559,7 @@ export class ValueEdit {
     const whole = { circuit: this.circuit, unknowns: prev.solver.unknowns, rail: prev.index.rail, partOf: prev.index.parts.ofElement };
     const before = resistancesOf(prev.circuit);
     // An editor changing one value again and again: the last edit's part solvers take the new values in place.
-    const parts = (this.nominalParts = prev.nominalParts ? prev.nominalParts.followedBy(whole, before) : new PartStarts(whole, before));
+    const parts = (this.nominalParts = prev.nominalParts ? prev.nominalParts.followedBy(whole, before) : PartStarts.of(whole, before));
     const start = Float64Array.from(warm.x);
     return parts.refine(start, warm.x, { ...options, temperatureC }) ? start : warm.x;
   }

@@ -60,10 +60,11 @@ export function resistancesOf(circuit: Circuit): Float64Array {
  * circuit has a kind that reads across parts, nothing changed, the parts are large, or a part solve did not converge.
  */
 export class PartStarts {
-  private solves: { now: PartSolve; before: PartSolve } | undefined;
+  private constructor(private solves: { now: PartSolve; before: PartSolve } | undefined) {}
 
-  constructor(whole: PartCircuit, before: Float64Array, solves: { now: PartSolve; before: PartSolve } | undefined = partSolves(whole, before)) {
-    this.solves = solves;
+  /** The part starts of `whole` with the resistances `before` where they differ from the circuit's (see above). */
+  static of(whole: PartCircuit, before: Float64Array): PartStarts {
+    return new PartStarts(partSolves(whole, before));
   }
 
   /**
@@ -77,9 +78,9 @@ export class PartStarts {
     const last = this.solves;
     this.solves = undefined;
     const chosen = partElements(whole, before);
-    if (!chosen) return new PartStarts(whole, before, undefined);
+    if (!chosen) return new PartStarts(undefined);
     const reused = last && last.now.holds(chosen, whole.circuit, before) ? last.before.movedTo(whole.circuit) : undefined;
-    return new PartStarts(whole, before, reused ? { now: reused, before: last!.now } : solvesOf(whole, chosen, before));
+    return new PartStarts(reused ? { now: reused, before: last!.now } : solvesOf(whole, chosen, before));
   }
 
   /**
