@@ -674,11 +674,35 @@ function sameMovedSpan(a: Span, b: Span, move: TextMove | undefined): boolean {
   return d !== undefined && a.start === b.start + d && a.end === b.end + d && isSpan(a) && isSpan(b);
 }
 
+/** How a span fares under an edit: where it was, moved by the change in length, or touching the edited text. */
+const SPAN_KEPT = 0;
+const SPAN_MOVED = 1;
+const SPAN_TOUCHED = 2;
+
+function spanFate(span: Span | undefined, move: TextMove | undefined): number {
+  if (span === undefined) return SPAN_KEPT;
+  const d = shiftOf(span, move);
+  return d === undefined ? SPAN_TOUCHED : d === 0 ? SPAN_KEPT : SPAN_MOVED;
+}
+
+/** The worst fate of an origin's spans (those `movedOrigin` moves), found without making anything. */
+function originFate(origin: Origin, moves: Map<string, TextMove>): number {
+  const move = moves.get(origin.uri);
+  let fate = Math.max(spanFate(origin.span, move), spanFate(origin.valueSpan, move), spanFate(origin.modelSpan, move));
+  const nodeSpans = origin.nodeSpans ?? [];
+  for (let k = 0; k < nodeSpans.length && fate !== SPAN_TOUCHED; k++) fate = Math.max(fate, spanFate(nodeSpans[k], move));
+  for (let k = 0; k < origin.instances.length && fate !== SPAN_TOUCHED; k++) fate = Math.max(fate, spanFate(origin.instances[k]!.span, moves.get(origin.instances[k]!.uri)));
+  return fate;
+}
+
 /**
  * An element's origin with its spans moved past the edit (the same object when none moves), or undefined
  * when a span touches the edited text: the spans in the origin's document, and each instance's in its own.
  */
 function movedOrigin(origin: Origin, moves: Map<string, TextMove>): Origin | undefined {
+  // Most elements of a small edit's result lie where they were (every one, when the edit kept the length): nothing to make.
+  const fate = originFate(origin, moves);
+  if (fate !== SPAN_MOVED) return fate === SPAN_KEPT ? origin : undefined;
   let moved = false;
   const at = (uri: string, span: Span): Span | undefined => {
     const d = shiftOf(span, moves.get(uri));

@@ -300,13 +300,18 @@ export class WorkerHost {
     if (msg.partsFollow) {
       const whole = await this.smallParts(msg, analysis, phases.onFindings);
       const t1 = Date.now();
-      // A small result's parts came whole: merged at once (a few milliseconds), no turns between parts.
-      whole.parts.forEach((part, index) => {
-        stopIfSuperseded(index);
-        for (const _ of merge(index, part));
-        if (index === msg.findingParts - 1) phases.onFindings?.(analysis, true);
-      });
-      merger.finish();
+      // A small result's parts came whole; they are merged in slices all the same, so that an edit arriving meanwhile
+      // (an editor's next keystroke) is taken in at once and stops the take-in of the superseded result at its next part.
+      const steps = function* (): Generator<void, void, undefined> {
+        for (let index = 0; index < whole.parts.length; index++) {
+          stopIfSuperseded(index);
+          yield* merge(index, whole.parts[index]!);
+          if (index === msg.findingParts - 1) phases.onFindings?.(analysis, true);
+        }
+        stopIfSuperseded(whole.parts.length);
+        yield* merger.finishSteps();
+      };
+      await inSlices(steps());
       return { analysis, ms: msg.ms, sendMs: whole.sendMs, transferMs: Date.now() - t1 };
     }
     try {
