@@ -593,7 +593,7 @@ function sameElement(a: Element, b: Element, keyOf: Map<unknown, string>, heldKe
   // The same object: an element the elaboration patch shared with the last circuit (an edit of another card). The engine
   // writes into no element once elaborated but a behavioural source (its program keeps the solver's scratch values), so
   // the object holds what was sent; it is the held one when its spans lie where the edit left them in place.
-  if (a === b) return a.kind !== 'B' && sameOrigin(a.origin, b.origin, moves);
+  if (a === b) return a.kind !== 'B' && originFate(a.origin, moves) === SPAN_KEPT;
   const fields = Object.keys(a);
   const heldFields = Object.keys(b);
   if (fields.length !== heldFields.length) return false;
