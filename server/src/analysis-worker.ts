@@ -198,11 +198,12 @@ function handle(msg: ToWorker): void {
         const keep = (sent: SentAnalysis) => sentAnalyses.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         const ms = performance.now() - t0;
         if (parts.length <= SMALL_RESULT_PARTS) {
-          // Small: the header, whose findings the main thread publishes while the parts are made here, then every part
-          // in one message (taken in at once).
-          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, partsFollow: true });
+          // Small: the header, whose findings the main thread publishes before it merges anything, then every part in
+          // one message. Made before either is posted: while they are made the main thread answers from the last
+          // result, whose diagnostics the editor still has (requests wait only for the merge).
           keep(prepare());
           const all = parts.map((make) => make());
+          post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, partsFollow: true });
           post({ type: 'parts', id: msg.id, parts: all, sendMs: performance.now() - t0 - ms });
         } else if (cornersNext) {
           // The corner phase runs next, so no part request would be answered until it ends: every part goes now.

@@ -453,9 +453,9 @@ async function pump(): Promise<void> {
     // Corners cost many solves: publish the nominal findings first, the corner findings after.
     const cornersLater = settings.options.corners?.enabled !== false;
     // The diagnostics go out as soon as the findings are in. While a large result is taken in, hovers and the rest
-    // answer from the last analysis (a code action on a new diagnostic waits for that); while a small one's rest
-    // is on its way (a few milliseconds), requests wait for it (`settling`), so each answers from the result
-    // whose diagnostics the editor has.
+    // answer from the last analysis (a code action on a new diagnostic waits for that); while a small one's parts
+    // are merged (a few milliseconds), requests wait for it (`settling`), so each answers from the result whose
+    // diagnostics the editor has.
     let early: Set<string> | undefined;
     const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
     // The worker solves the corners while this thread takes the result in: they are asked for once the findings are in.

@@ -266,7 +266,7 @@ export class WorkerHost {
        * `partial` has the header and the complete findings, enough to publish diagnostics. It is the object later
        * parts are merged into, and the one `analyse` returns: a `corners` request may name it (`of`) and its findings
        * may be added to, nothing else until it is returned. `small`: the rest is a small result's, which arrives
-       * whole in one message and is merged at once (a few milliseconds); a large one's is taken in slices.
+       * whole in one message and is merged in a few milliseconds; a large one's is taken in slices.
        */
       onFindings?: (partial: Analysis, small: boolean) => void;
       /**
@@ -325,8 +325,8 @@ export class WorkerHost {
 
   /**
    * The `parts` message of a small result whose header is `msg` (`analysis` restored from it), with the findings
-   * announced first when the header carries them. The worker makes the parts after posting the header, so the
-   * diagnostics can go out meanwhile; the parts are merged a turn later, after the writes the announcement queued.
+   * announced first when the header carries them; the parts are merged a turn later, after the writes the
+   * announcement queued.
    */
   private async smallParts(msg: Extract<FromWorker, { type: 'analysed' }>, analysis: Analysis, onFindings: ((partial: Analysis, small: boolean) => void) | undefined): Promise<Extract<FromWorker, { type: 'parts' }>> {
     const whole = this.following.get(msg.id);

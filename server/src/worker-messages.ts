@@ -68,10 +68,10 @@ export type FromWorker =
   /**
    * The analysis without its big arrays; `parts` more slices follow, the first `findingParts` of them its findings: each
    * on request, or for a small result (`partsFollow`: at most SMALL_RESULT_PARTS parts) all in one `parts` message under
-   * the same id, which the worker sends unasked right after this one (the main thread publishes the findings meanwhile);
+   * the same id, which the worker sends unasked right after this one (the main thread publishes the findings first);
    * or, for a large result the worker solves the corners of next (`pushed`: it could not answer requests until the phase
    * ends), each in a `pushed-part` message sent unasked right after this one.
-   * `ms`: the engine's time; `sendMs`: the time after it to make the header.
+   * `ms`: the engine's time; `sendMs`: the time after it to make the header (and a small result's parts).
    */
   | { type: 'analysed'; id: number; analysis: Analysis; parts: number; findingParts: number; ms: number; sendMs: number; partsFollow?: boolean; pushed?: boolean }
   /** Every part of a small result, in order; `sendMs`: the time after the engine's to make the header and them. */

@@ -58,8 +58,8 @@ describe('taking a result in', () => {
       expect(events[0]).toBe('findings');
       expect(events.length).toBeGreaterThan(33);
       expect(analysis.circuit?.elements.length).toBe(7005);
-      // A small result (1,200 rungs: fewer parts) is announced from its header too, before its parts arrive in one
-      // message, and marked small (the server holds requests for the few milliseconds until it is taken in).
+      // A small result (1,200 rungs: fewer parts, which come whole in one message) is announced from its header too,
+      // before any part is merged, and marked small (the server holds requests for the few milliseconds of the merge).
       const smallText = netlist(1200);
       host.setDocument(URI, smallText);
       const announced: { findings: string; elements: number; small: boolean }[] = [];
