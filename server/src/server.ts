@@ -457,6 +457,10 @@ async function pump(): Promise<void> {
     // are merged (a few milliseconds), requests wait for it (`settling`), so each answers from the result whose
     // diagnostics the editor has.
     let early: Set<string> | undefined;
+    // A small result whose diagnostics went out is accepted even when an edit superseded it meanwhile: the editor's
+    // diagnostics come from it, and the requests held for it answer from it (they found no analysis at all before
+    // a document's first one).
+    let publishedSmall = false;
     const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
     // The worker solves the corners while this thread takes the result in: they are asked for once the findings are in.
     let corners: Promise<CornerOutcome | undefined> | undefined;
@@ -465,13 +469,16 @@ async function pump(): Promise<void> {
       if (!fresh(partial)) return;
       early = new Set([uri, ...Object.keys(partial.documents)]);
       publish(early, uri, partial);
-      if (small) settling ??= new Promise<void>((r) => (settled = r));
+      if (small) {
+        settling ??= new Promise<void>((r) => (settled = r));
+        publishedSmall = true;
+      }
       if (cornersLater) askCorners(partial);
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
-    if (current && current.version === analysis.version) {
+    if (current && (current.version === analysis.version || publishedSmall)) {
       accept(uri, analysis, ms, early);
       settle();
       if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await askCorners(analysis));

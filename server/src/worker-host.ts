@@ -301,14 +301,19 @@ export class WorkerHost {
       const whole = await this.smallParts(msg, analysis, phases.onFindings);
       const t1 = Date.now();
       // A small result's parts came whole; they are merged in slices all the same, so that an edit arriving meanwhile
-      // (an editor's next keystroke) is taken in at once and stops the take-in of the superseded result at its next part.
+      // (an editor's next keystroke) is taken in at once. Until its findings are announced a superseded result is dropped
+      // at its next part; once they are (the caller may have published them, and hold requests for it), it is merged to
+      // its end, a few milliseconds.
+      const announcing = phases.onFindings !== undefined;
+      let announced = announcing && msg.findingParts === 0;
       const steps = function* (): Generator<void, void, undefined> {
         for (let index = 0; index < whole.parts.length; index++) {
-          stopIfSuperseded(index);
+          if (!announced) stopIfSuperseded(index);
           yield* merge(index, whole.parts[index]!);
-          if (index === msg.findingParts - 1) phases.onFindings?.(analysis, true);
+          if (index !== msg.findingParts - 1) continue;
+          phases.onFindings?.(analysis, true);
+          announced = announcing;
         }
-        stopIfSuperseded(whole.parts.length);
         yield* merger.finishSteps();
       };
       await inSlices(steps());

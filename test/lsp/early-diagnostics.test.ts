@@ -87,4 +87,25 @@ describe('diagnostics published from a small result header', () => {
       if (saturated) expect(fixes.length, `version ${version}`).toBeGreaterThan(0);
     }
   }, 120_000);
+
+  it('still serve requests when an edit arrives on their arrival: the analysis that was published is the one held', async () => {
+    // A new document: the first diagnostics arrive, and at once the editor sends an edit and a hover (typing on). A
+    // ladder of 1,500 resistors makes the merge after the diagnostics take several slices, so the edit arrives in it.
+    const uri = 'file:///qpoint-early/first.cir';
+    const ladder = Array.from({ length: 1500 }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === 1499 ? '0' : `l${i + 1}`} 1k`).join('\n');
+    const withLadder = (text: string) => text.replace('.end', `${ladder}\n.end`);
+    const first = withLadder(netlist('4.7k', '2.2k'));
+    const hover = new Promise<Hover | null>((resolve) => {
+      server.connection.onNotification(PublishDiagnosticsNotification.type, (p) => {
+        if (p.uri !== uri || p.version !== 1) return;
+        server.change(uri, 2, [{ text: withLadder(netlist('5.1k', '2.2k')) }]);
+        resolve(server.connection.sendRequest(HoverRequest.type, { textDocument: { uri }, position: { line: 2, character: 1 } }) as Promise<Hover | null>);
+      });
+    });
+    server.open(uri, first, 1);
+    // Answered from version 1, whose diagnostics the editor has (before, the superseded result was dropped and the
+    // hover found no analysis of the document at all).
+    const shown = ((await hover)?.contents as MarkupContent | undefined)?.value ?? '';
+    expect(shown.split('\n')[0]).toBe(hoverAt(cold(first), URI, first.indexOf('RREF') + 1)!.markdown.split('\n')[0]);
+  }, 60_000);
 });
