@@ -36,7 +36,7 @@ const openTexts = new Map<string, string>();
 /** The part builders of the last analysis still being taken in by the main thread, by request id (each dropped once sent). */
 let outgoing: { id: number; parts: ((() => AnalysisPart) | undefined)[] } | undefined;
 
-/** What a corner phase run ahead of its request came to: its findings, or why it did not finish. */
+/** What a corner phase came to: its findings, or why it did not finish. */
 type CornerOutcome = { findings: Finding[] } | { failed: string; stopped: boolean };
 
 /** What the worker keeps of a root's last analysis to answer sweeps and sizing without re-solving. */
@@ -49,8 +49,6 @@ interface Kept {
   solver?: DcSolver;
   /** The converged nominal solution, kept only until the corner phase has run. */
   nominal?: DcSolveResult;
-  /** The corner phase's outcome, from the moment the worker ran it (right after sending the analysis) until a `corners` request collects it. */
-  corners?: CornerOutcome;
   /** Sizing results shared by the fixes of this analysis (a finding asked twice is sized once). */
   sizingCache: Map<string, SizingResult>;
 }
@@ -206,7 +204,8 @@ function handle(msg: ToWorker): void {
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, partsFollow: true });
           post({ type: 'parts', id: msg.id, parts: all, sendMs: performance.now() - t0 - ms });
         } else if (cornersNext) {
-          // The corner phase runs next, so no part request would be answered until it ends: every part goes now.
+          // Every part goes now: the main thread asks for the corner phase once it has taken them in, and the worker
+          // answers no part request while that phase runs.
           post({ type: 'analysed', id: msg.id, analysis: header, parts: parts.length, findingParts, ms, sendMs: performance.now() - t0 - ms, pushed: true });
           pushParts(post, msg.id, parts, 0, findingParts);
           keep(prepare());
@@ -217,8 +216,6 @@ function handle(msg: ToWorker): void {
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
-        // The corners are solved while the main thread takes the nominal result in; its `corners` request collects them.
-        if (cornersNext) solveCornersAhead(msg.uri, kept, msg.generation);
         // The session (parsed cards, solver scratch) is garbage once this handler returns. Not after a value edit that
         // reused the last analysis's solver: a full collection then frees only that edit's garbage, but also gives up
         // the compiled code that held objects of the replaced analysis, and the next edit ran on that code's slower
@@ -297,13 +294,12 @@ function handle(msg: ToWorker): void {
     }
     case 'corners': {
       const kept = lastAnalysis.get(msg.uri);
-      if (!kept || kept.analysis.version !== msg.version || (msg.analysisId !== undefined && kept.requestId !== msg.analysisId) || !kept.corners) {
+      if (!kept || kept.analysis.version !== msg.version || (msg.analysisId !== undefined && kept.requestId !== msg.analysisId) || !kept.solver || !kept.nominal) {
         post({ type: 'cornered', id: msg.id, findings: [], corners: {}, stale: true });
         return;
       }
-      const outcome = kept.corners;
-      // Collected once: a second request finds nothing to collect (the main thread asks once per analysis).
-      kept.corners = undefined;
+      // Solved once: a second request finds nothing to solve (the main thread asks once per analysis).
+      const outcome = solveCorners(msg.uri, kept, msg.generation);
       if ('failed' in outcome) {
         post({ type: 'failed', id: msg.id, message: outcome.failed, stopped: outcome.stopped });
         return;
@@ -334,24 +330,27 @@ function handle(msg: ToWorker): void {
 }
 
 /**
- * Solves the corners of the analysis just sent (analysed with `cornersLater`) and keeps the outcome on `kept` for the
- * `corners` request that collects it. A newer edit stops it at the engine's next check, as it stops an analysis.
+ * Solves the corners of the analysis sent last (analysed with `cornersLater`) when the main thread asks, once it has
+ * taken the result in. Solved beside that take-in instead, the phase and the take-in shared the two cores with the
+ * editor, and the 20k array's hover p99 while editing rose from about 30 to 70-170 ms with the corner findings no sooner
+ * (docs/PERFORMANCE.md). A newer edit stops it at the engine's next check, as it stops an analysis.
  */
-function solveCornersAhead(uri: string, kept: Kept, generation: number): void {
+function solveCorners(uri: string, kept: Kept, generation: number): CornerOutcome {
+  const nominal = kept.nominal!;
+  // Spent either way: after a stop the next analysis replaces this one, and its structures keep no half-filled corners.
+  kept.nominal = undefined;
+  let findings: Finding[];
   try {
     plantedCornerFault(generation);
-    const findings = addCorners(kept.analysis, { solver: kept.solver!, nominal: kept.nominal!, shouldStop: stopper(generation), incremental: incrementals.get(uri) });
-    kept.corners = { findings };
+    findings = addCorners(kept.analysis, { solver: kept.solver!, nominal, shouldStop: stopper(generation), incremental: incrementals.get(uri) });
   } catch (e) {
-    // Stopped (superseded): the next analysis replaces this one; its structures keep no half-filled corners.
-    kept.corners = e instanceof AnalysisStopped ? { failed: e.message, stopped: true } : { failed: `The corner phase stopped with an internal error: ${errorText(e)}`, stopped: false };
-    return;
+    return e instanceof AnalysisStopped ? { failed: e.message, stopped: true } : { failed: `The corner phase stopped with an internal error: ${errorText(e)}`, stopped: false };
   }
-  kept.nominal = undefined;
   if (!kept.analysis.findings.some((f) => f.data?.['sizing'] !== undefined)) {
     kept.solver = undefined;
     kept.analysis = { ...kept.analysis, documents: textDocuments(kept.texts) };
   }
+  return { findings };
 }
 
 /**

@@ -462,9 +462,6 @@ async function pump(): Promise<void> {
     // a document's first one).
     let publishedSmall = false;
     const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
-    // The worker solves the corners while this thread takes the result in: they are asked for once the findings are in.
-    let corners: Promise<CornerOutcome | undefined> | undefined;
-    const askCorners = (a: Analysis) => (corners ??= collectCorners(uri, a, fresh));
     const onFindings = (partial: Analysis, small: boolean) => {
       if (!fresh(partial)) return;
       early = new Set([uri, ...Object.keys(partial.documents)]);
@@ -473,7 +470,6 @@ async function pump(): Promise<void> {
         settling ??= new Promise<void>((r) => (settled = r));
         publishedSmall = true;
       }
-      if (cornersLater) askCorners(partial);
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
@@ -481,7 +477,8 @@ async function pump(): Promise<void> {
     if (current && (current.version === analysis.version || publishedSmall)) {
       accept(uri, analysis, ms, early);
       settle();
-      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await askCorners(analysis));
+      // The corners are asked for once the result is taken in: see `solveCorners` in the worker for why not sooner.
+      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await collectCorners(uri, analysis, fresh));
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {

@@ -1,6 +1,6 @@
-// The worker solves the corners of an analysis analysed with `cornersLater` as soon as it has sent the nominal result,
-// while the main thread takes that result in; the `corners` request only collects the outcome. These tests run a real
-// worker: the phase finished, stopped by a newer edit, superseded by a newer analysis, and failed.
+// The worker pushes every part of a large result analysed with `cornersLater`, then solves its corners when the main
+// thread asks, once that result is taken in. These tests run a real worker: the phase finished, stopped by a newer
+// edit, superseded by a newer analysis, and failed.
 
 import { afterEach, describe, expect, it } from 'vitest';
 import { join } from 'node:path';
@@ -13,7 +13,7 @@ import { startServer } from './lsp-client';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { HoverRequest, type MarkupContent } from 'vscode-languageserver-protocol/node';
 
-const URI = 'file:///corners-ahead.cir';
+const URI = 'file:///corner-phase.cir';
 
 /** Each test analyses a result of thousands of elements and its corners in a real worker; the limit only stops a hang. */
 const TIMEOUT_MS = 120_000;
@@ -54,8 +54,8 @@ function workerHost(fault?: 'hold' | 'throw'): WorkerHost {
 let host: WorkerHost | undefined;
 afterEach(() => host?.dispose());
 
-describe('the corner phase run ahead of its request', () => {
-  it('is solved while a large result is taken in: its parts arrive without being asked for, and a newer edit stops the phase', async () => {
+describe('the corner phase of a result taken in', () => {
+  it('follows a large result whose parts arrived without being asked for, and a newer edit stops it', async () => {
     // Held at its first check, the phase keeps the worker busy: a take-in that asked the worker for parts would wait for it.
     host = workerHost('hold');
     const text = netlist(7000);
@@ -66,9 +66,11 @@ describe('the corner phase run ahead of its request', () => {
     expect(parts).toBeGreaterThan(32);
     expect(analysis.circuit?.elements.length).toBe(7005);
     expect(shown(analysis.findings)).toEqual(expected.nominal);
-    // A newer edit stops the held phase at the check it waits in; the request that collects it learns it was stopped.
+    // The phase starts when asked for and is held at its first check; a newer edit stops it there, and the request
+    // learns it was stopped.
+    const asked = host.corners(URI, 1, { of: analysis });
     host.stopRunning();
-    await expect(host.corners(URI, 1, { of: analysis })).rejects.toBeInstanceOf(AnalysisStoppedError);
+    await expect(asked).rejects.toBeInstanceOf(AnalysisStoppedError);
     // Nothing is left to collect, and the worker was not restarted.
     expect((await host.corners(URI, 1, { of: analysis })).stale).toBe(true);
     expect(host.restarts).toBe(0);
