@@ -478,7 +478,7 @@ async function pump(): Promise<void> {
       accept(uri, analysis, ms, early);
       settle();
       // The corners are asked for once the result is taken in: see `solveCorners` in the worker for why not sooner.
-      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await collectCorners(uri, analysis, fresh));
+      if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await collectCorners(uri, analysis));
     }
     // A result for an older version is dropped: its offsets no longer match the text; the newer run is queued.
   } catch (e) {
@@ -496,19 +496,14 @@ async function pump(): Promise<void> {
   }
 }
 
-/** A corner phase collected from the worker, and when it was asked for; `findingsAdded` once its findings joined the analysis's. */
+/** A corner phase collected from the worker, and when it was asked for. */
 interface CornerOutcome {
   result: Awaited<ReturnType<WorkerHost['corners']>>;
   asked: number;
-  findingsAdded: boolean;
 }
 
-/**
- * Collects the corner phase the worker solved for `analysis` (the result being taken in, or just accepted). When it
- * arrives while the analysis is still taken in (its findings are complete by then) and still `fresh`, its findings join
- * the analysis's and are published at once; the structures' corners and the spread wait for `addCornerResults`.
- */
-async function collectCorners(uri: string, analysis: Analysis, fresh: (a: Analysis) => boolean): Promise<CornerOutcome | undefined> {
+/** Has the worker solve the corner phase of `analysis`, just accepted, and collects it (undefined when it did not finish). */
+async function collectCorners(uri: string, analysis: Analysis): Promise<CornerOutcome | undefined> {
   const asked = Date.now();
   let result: CornerOutcome['result'];
   try {
@@ -518,16 +513,10 @@ async function collectCorners(uri: string, analysis: Analysis, fresh: (a: Analys
     log(`The corner phase of ${basename(uri)} did not finish: ${e instanceof Error ? e.message : String(e)}`);
     return undefined;
   }
-  const outcome = { result, asked, findingsAdded: false };
-  if (!result.stale && cache.get(uri)?.analysis !== analysis && fresh(analysis)) {
-    addCornerFindings(uri, analysis, outcome);
-    publish(new Set([uri, ...Object.keys(analysis.documents)]), uri, analysis);
-  }
-  return outcome;
+  return { result, asked };
 }
 
 function addCornerFindings(uri: string, analysis: Analysis, outcome: CornerOutcome): void {
-  outcome.findingsAdded = true;
   // Appended, so the indices of published diagnostics stay valid.
   pushAll(analysis.findings, outcome.result.findings);
   const n = outcome.result.findings.length;
@@ -535,8 +524,7 @@ function addCornerFindings(uri: string, analysis: Analysis, outcome: CornerOutco
 }
 
 /**
- * Adds the corner phase's results to a just-accepted analysis (and its findings, unless they went out early), then
- * re-publishes. Over slices (`inSlices`): on the 20,000-element array, 5,000 structures' columns and spreads took
+ * Adds the corner phase's results and findings to a just-accepted analysis, then re-publishes. Over slices (`inSlices`): on the 20,000-element array, 5,000 structures' columns and spreads took
  * 20–150 ms in one task at load 8. A request meanwhile reads each structure with its corners or as it was without;
  * the analysis's spread is set once every structure has its own. No name table needs restoring again: the corners
  * arrive as columns read through an accessor, which `restoreNameTables` skips, and the spread is not among the tables
@@ -547,7 +535,7 @@ async function addCornerResults(uri: string, analysis: Analysis, outcome: Corner
   const r = outcome.result;
   const variation = r.variation && spreads.takeIn(uri, r.variation);
   await inSlices(cornerResultSteps(analysis, r, variation && !analysis.variation ? variation : undefined));
-  if (!outcome.findingsAdded) addCornerFindings(uri, analysis, outcome);
+  addCornerFindings(uri, analysis, outcome);
   publish(new Set([uri, ...Object.keys(analysis.documents)]), uri);
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
