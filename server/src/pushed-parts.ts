@@ -1,6 +1,6 @@
-// The parts of a large result that the worker sends unasked, because it will be busy with the result's corner phase
-// while the main thread takes the result in: serialised in the worker and moved (not copied) to the main thread, which
-// deserialises each when it merges it, inside the slice that merges it.
+// The parts of a large result analysed with its corner phase to follow, which the worker sends unasked, all at once,
+// so it is free for that phase when the main thread asks for it after the take-in: serialised in the worker and moved
+// (not copied) to the main thread, which deserialises each when it merges it, inside the slice that merges it.
 
 import { deserialize, serialize } from 'node:v8';
 import type { AnalysisPart } from './analysis-transfer';

@@ -284,7 +284,7 @@ export class WorkerHost {
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
     const analysis = restoreNameTables(msg.analysis);
-    // Known by its request from the start: a corner request may name it while it is taken in (see `onFindings`).
+    // Known by its request from the start, so a corner request can name the analysis it is for.
     this.analysisIds.set(analysis, msg.id);
     const merger = partMerger(analysis, phases.held);
     const merge = function* (index: number, part: AnalysisPart): Generator<void, void, undefined> {
