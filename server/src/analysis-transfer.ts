@@ -59,7 +59,13 @@ export type AnalysisPart =
   /** Entries of the operating point's node table: names and their volts, in the table's order. */
   | { kind: 'nodes'; names: string[]; volts: Float64Array }
   | { kind: 'findings'; items: Finding[] }
-  | { kind: 'structures'; items: Structure[] };
+  | { kind: 'structures'; items: Structure[] }
+  /**
+   * The next `count` structures are the receiver's held structures `start` to `start + count − 1` as it took them in:
+   * copies without what it added to them since (corner results, the spread; see `structureAsTaken`). The sender
+   * checked that each is the engine's same first-pass snapshot as the held one (see `structureRuns`).
+   */
+  | { kind: 'structures-kept'; start: number; count: number };
 
 /**
  * Where an edit left a document's text alone, in the held (older) text's offsets: nothing before `prefix`
@@ -91,6 +97,11 @@ export interface SentAnalysis {
   documents: Map<string, SentDocument>;
   /** The circuit's elements and each model object's key, while the circuit is small enough to keep them. */
   elements?: SentElements;
+  /**
+   * Per structure sent, the engine's first-pass snapshot it was equal to when sent (`IncrementalState`), or undefined
+   * where none is known or the structure carried more than its snapshot holds (a spread, a start-up record).
+   */
+  structures?: readonly (Structure | undefined)[];
 }
 interface SentElements {
   list: readonly Element[];
@@ -132,9 +143,11 @@ export interface LazySplit {
  * JSON is smaller than the parsed cards, which the sender need not keep). The builders read
  * `analysis`, which must not change until the last part is built. Where the receiver holds the
  * previous analysis of the same root (`held`: what `prepare` returned for it), unchanged cards are
- * sent as `cards-kept` parts and unchanged elements as runs of the held ones.
+ * sent as `cards-kept` parts and unchanged elements as runs of the held ones. `firstPasses`: for each structure of
+ * `analysis`, the first-pass snapshot the engine keeps of it for the next edit (`IncrementalState.structures`);
+ * a structure whose snapshot is the held one's at the same index is sent as `structures-kept`.
  */
-export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): LazySplit {
+export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis, firstPasses?: readonly Structure[]): LazySplit {
   const parts: (() => AnalysisPart)[] = [];
   const slices = <T>(list: T[], make: (items: T[]) => AnalysisPart, size = PART_SIZE) => {
     for (let i = 0; i < list.length; i += size) parts.push(() => make(list.slice(i, i + size)));
@@ -188,7 +201,12 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): La
     for (const [key, d] of Object.entries(Object.getOwnPropertyDescriptors(operatingPoint))) if (key !== 'nodes' && key !== 'devices') head[key] = d.get ? d.get.call(operatingPoint) : d.value;
     operatingPoint = { ...(head as Omit<OperatingPoint, 'nodes' | 'devices'>), nodes: nameTable(), devices: nameTable() };
   }
-  slices(analysis.structures, (items) => ({ kind: 'structures', items }), STRUCTURE_PART_SIZE);
+  const structurePlan = structureRuns(analysis.structures, held?.structures, firstPasses);
+  if (structurePlan.sent.some((f) => f !== undefined)) sent.structures = structurePlan.sent;
+  for (const run of structurePlan.runs) {
+    if ('kept' in run) parts.push(() => ({ kind: 'structures-kept', start: run.from, count: run.to - run.from }));
+    else for (let i = run.from; i < run.to; i += STRUCTURE_PART_SIZE) parts.push(() => ({ kind: 'structures', items: analysis.structures.slice(i, Math.min(i + STRUCTURE_PART_SIZE, run.to)) }));
+  }
   const header: Analysis = { ...analysis, documents, circuit, operatingPoint, findings: inHeader ? analysis.findings : [], structures: [] };
   const prepare = (): SentAnalysis => {
     for (const { uri, cards, slot } of toEncode) cardSlots[slot] = { kind: 'cards', uri, json: `[${cards.map(encodeCard).join(',')}]`, starts: cards.map((c) => c.span.start) };
@@ -198,6 +216,53 @@ export function splitAnalysisLazily(analysis: Analysis, held?: SentAnalysis): La
     return sent;
   };
   return { header, parts, findingParts, prepare };
+}
+
+/**
+ * Whether a structure holds only what its first-pass snapshot holds: the spread (attached in the first pass of a small
+ * circuit) and a start-up record (whose corners the corner phase fills in) are left out of the snapshot. (Its corners
+ * are empty: the engine keeps snapshots only of analyses without corners, and the worker sends before solving them.)
+ */
+function onlyFirstPass(s: Structure): boolean {
+  return s.variation === undefined && s.startup === undefined;
+}
+
+/**
+ * The runs of structures `[from, to)` that travel (`sent`) or that the receiver's held ones stand for (`kept`), and what
+ * is sent, to compare the next analysis with. Structure i is the held structure i when the engine made both from the
+ * same first-pass snapshot (`firstPasses[i]`, an object a value edit hands on unchanged to the structures it keeps and
+ * never writes into) and neither carries more than the snapshot: the engine's own rule for a structure an edit cannot
+ * have changed (`ValueEdit.structuresAt`), so nothing is compared.
+ */
+function structureRuns(structures: readonly Structure[], held: readonly (Structure | undefined)[] | undefined, firstPasses: readonly Structure[] | undefined): { runs: ({ from: number; to: number; kept?: true })[]; sent: (Structure | undefined)[] } {
+  const sent = structures.map((s, i) => (firstPasses && firstPasses.length === structures.length && onlyFirstPass(s) ? firstPasses[i] : undefined));
+  const keptAt = (i: number) => sent[i] !== undefined && held?.[i] === sent[i];
+  const runs: { from: number; to: number; kept?: true }[] = [];
+  for (let i = 0; i < structures.length; ) {
+    const kept = keptAt(i);
+    let end = i + 1;
+    while (end < structures.length && keptAt(end) === kept) end++;
+    runs.push(kept ? { from: i, to: end, kept } : { from: i, to: end });
+    i = end;
+  }
+  return { runs, sent };
+}
+
+/**
+ * A held structure as the receiver took it in: its fields in their order, without the corner results and the spread
+ * the receiver added (the corner phase of the new result brings its own), nested records shared (nothing on the
+ * receiving side writes into them) but for the derived voltages, copied as the engine copies them.
+ */
+function structureAsTaken(s: Structure): Structure {
+  const copy: Record<string, unknown> = {};
+  for (const key of Object.keys(s)) {
+    if (key === 'variation') continue;
+    // Not read: `corners` may be an accessor that builds every corner's records on first read.
+    if (key === 'corners') copy[key] = [];
+    else if (key === 'voltages' && s.voltages) copy[key] = s.voltages.map((v) => ({ ...v }));
+    else copy[key] = (s as unknown as Record<string, unknown>)[key];
+  }
+  return copy as unknown as Structure;
 }
 
 /** The last part of a list sent `size` at a time takes whatever is left, so a count that fell short loses nothing. */
@@ -394,6 +459,15 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
     case 'findings':
       for (const f of part.items) target.findings.push(f);
       return;
+    case 'structures-kept': {
+      const from = held?.structures;
+      if (!from || from.length < part.start + part.count) throw new Error('The held structures are not the ones the worker kept.');
+      for (let k = part.start; k < part.start + part.count; k++) {
+        target.structures.push(structureAsTaken(from[k]!));
+        if ((k - part.start) % MERGE_STEP === MERGE_STEP - 1) yield;
+      }
+      return;
+    }
     case 'structures':
       for (const s of part.items) {
         // Restored as they arrive: the merger's finish restores the rest of the result without them.

@@ -192,7 +192,7 @@ function handle(msg: ToWorker): void {
         lastAnalysis.set(msg.uri, kept);
         const sentBefore = sentAnalyses.get(msg.uri);
         const held = msg.held !== undefined ? sentBefore?.get(msg.held) : undefined;
-        const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held);
+        const { header, parts, findingParts, prepare } = splitAnalysisLazily(analysis, held, session.incremental?.structures.map((k) => k.firstPass));
         const keep = (sent: SentAnalysis) => sentAnalyses.set(msg.uri, new Map([...(held ? [[msg.held!, held] as const] : []), [msg.id, sent] as const]));
         const ms = performance.now() - t0;
         if (parts.length <= SMALL_RESULT_PARTS) {

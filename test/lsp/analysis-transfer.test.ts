@@ -3,12 +3,15 @@
 import { describe, expect, it } from 'vitest';
 import { adoptKeptCards, mergePart, partMerger, splitAnalysis, splitAnalysisLazily } from '../../server/src/analysis-transfer';
 import type { Analysis } from '../../shared-analysis/src/analysis';
-import { analyse, analyseSession } from '../../shared-analysis/src/service';
+import { addCorners, analyse, analyseSession } from '../../shared-analysis/src/service';
+import { cornerColumns, setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
+import { attachVariation } from '../../shared-analysis/src/variation/index';
 import { hoverAt } from '../../shared-analysis/src/features/hover';
 import { connectionCount, connectionsOf, indexBuilder, indexOf, terminalNames } from '../../shared-analysis/src/features/document-index';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
 import { restoreNameTables } from '../../shared-analysis/src/names';
 import { rng } from '../seeded-random';
+import { expectSame } from '../unit/solve/same-analysis';
 
 /** The one helper: split, pass every message through a structured clone (as postMessage does), merge, compare. */
 function check(text: string, hoverAtText: string[]): void {
@@ -281,7 +284,89 @@ describe('analysis transfer', () => {
       ({ sent, held } = result);
     }
   });
+
+  it("after value edits, sends only the structures the engine analysed again and takes in a cold analysis's structures (seeded)", () => {
+    // A value edit hands the structures it cannot have changed on as copies of their first-pass snapshots: those travel as
+    // `structures-kept` and the receiver copies its held ones, which the corner phase of the last result has written
+    // into since (corners, spread). With over 400 unknowns the spread is left to the corner phase, as at 20k.
+    const large = valueEditRounds(70, 300, 24, 20261205);
+    expect(large.firstPassSpread).toBe(false);
+    // A value edit reaches a cell or two: nearly every structure is kept.
+    expect(large.keptStructures).toBeGreaterThan(0.9 * large.valueRounds * 70);
+    // A small circuit's spread comes with its first pass, and its snapshots leave it out: every structure travels.
+    const small = valueEditRounds(12, 0, 8, 20261206);
+    expect(small.firstPassSpread).toBe(true);
+    expect(small.keptStructures).toBe(0);
+  });
 });
+
+/**
+ * `rounds` seeded edits of an invented sink array (`cells` cells, every fifth a Widlar source, and a ladder of `ladder`
+ * resistors) analysed as the worker does, each result taken in onto the last as the main thread does after its corner
+ * phase's columns and spread were put on that one; each taken-in result's structures checked against a cold analysis.
+ * Counts the structures kept in the rounds that changed values (or only a comment line).
+ */
+function valueEditRounds(cells: number, ladder: number, rounds: number, seed: number): { keptStructures: number; valueRounds: number; firstPassSpread: boolean } {
+  const lines = ['Kept structures', 'VCC vcc 0 DC 9', '.model QN NPN (BF=110 VAF=60)'];
+  for (let k = 0; k < cells; k++) {
+    const widlar = k % 5 === 2;
+    lines.push(`RR${k} vcc r${k} ${20 + (k % 9)}k`, `QR${k} r${k} r${k} 0 QN`, widlar ? `QO${k} o${k} r${k} e${k} QN` : `QO${k} o${k} r${k} 0 QN`, `RL${k} vcc o${k} ${2 + (k % 4)}.2k`);
+    if (widlar) lines.push(`RE${k} e${k} 0 ${100 + 10 * k}`);
+  }
+  for (let k = 0; k < ladder; k++) lines.push(`RX${k} ${k === 0 ? 'vcc' : `x${k}`} ${k === ladder - 1 ? '0' : `x${k + 1}`} 1k`);
+  lines.push('.end', '');
+  const uri = '/t/main.cir';
+  const random = rng(seed);
+  const options = { corners: { enabled: false } };
+  const resistors = lines.flatMap((l, i) => (/^R[RLE]\d/.test(l) ? [i] : []));
+  let text = lines.join('\n');
+  let session = analyseSession({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), options, { keepIncremental: true });
+  const firstPassSpread = session.analysis.variation !== undefined;
+  let { sent, held } = takeInWhole(uri, text, undefined, undefined, session.analysis, firstPasses(session));
+  let keptStructures = 0;
+  let valueRounds = 0;
+  for (let round = 0; round < rounds; round++) {
+    // What the main thread does with a result once it is taken in: the corner phase's columns and spread put on it.
+    addCorners(session.analysis, { solver: session.solver!, nominal: session.nominal!, incremental: session.incremental });
+    held.structures.forEach((s, i) => setCornerColumns(s, cornerColumns(session.analysis.structures[i]!)!));
+    attachVariation(held.structures, session.analysis.variation!);
+    const heldCorners = held.structures.map((s) => s.corners.length);
+    expect(heldCorners.every((n) => n > 0) && held.structures.every((s) => s.variation !== undefined)).toBe(true);
+    // Mostly a resistor's number (of the same or another length); now and then a comment line (every span past it
+    // moves, the circuit stays) or the model (every structure analysed again).
+    if (round % 8 === 5) lines[2] = lines[2]!.replace(/BF=\d+/, `BF=${100 + round}`);
+    else if (round % 8 === 6) lines.splice(3, 0, `* note ${round}`);
+    else {
+      const line = resistors[Math.floor(random() * resistors.length)]! + lines.filter((l) => l.startsWith('* note')).length;
+      lines[line] = lines[line]!.replace(/\S+$/, random() < 0.5 ? `${10 + Math.floor(random() * 90)}k` : `${1 + Math.floor(random() * 9)}.${Math.floor(random() * 10)}k`);
+    }
+    text = lines.join('\n');
+    const cold = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), options);
+    session = analyseSession({ uri, text, version: round + 2 }, new MemoryWorkspace({ [uri]: text }), options, { keepIncremental: true, previous: session.incremental, warmStart: session.warmStart });
+    const result = takeInWhole(uri, text, sent, held, session.analysis, firstPasses(session));
+    // The independent computation: a cold analysis of the edited text (its numbers up to the rounding of Newton's other
+    // start, as the engine's own incremental tests compare them); and the worker's own structures, field order included.
+    expectSame(asJson(result.analysis.structures), asJson(cold.structures), `round ${round}: structures`, 1e-9);
+    expect(JSON.stringify(result.analysis.structures), `round ${round}`).toBe(JSON.stringify(session.analysis.structures));
+    // The held result answers requests until the new one is accepted: its corners and spread are still there.
+    expect(held.structures.map((s) => s.corners.length)).toEqual(heldCorners);
+    if (round % 8 === 5) expect(result.keptStructures, `round ${round}`).toBe(0);
+    else {
+      valueRounds++;
+      keptStructures += result.keptStructures;
+    }
+    ({ sent, held } = result);
+  }
+  return { keptStructures, valueRounds, firstPassSpread };
+}
+
+/** What a structure list writes as JSON (the form hovers, reports and the CLI read it in), read back. */
+const asJson = (x: unknown): unknown => JSON.parse(JSON.stringify(x));
+
+/** The first-pass snapshot the engine keeps of each structure of a session (what the worker hands the split). */
+function firstPasses(session: ReturnType<typeof analyseSession>) {
+  return session.incremental?.structures.map((k) => k.firstPass);
+}
 
 /**
  * One random edit of `text`: a snippet inserted at a line start or anywhere, with a few characters cut after it; a
@@ -319,16 +404,19 @@ function takeInWhole(
   sent: ReturnType<ReturnType<typeof splitAnalysisLazily>['prepare']> | undefined,
   held: Analysis | undefined,
   original = analyse({ uri, text, version: 1 }, new MemoryWorkspace({ [uri]: text }), { corners: { enabled: false } }),
+  snapshots?: Parameters<typeof splitAnalysisLazily>[2],
 ) {
-  const split = splitAnalysisLazily(original, sent);
+  const split = splitAnalysisLazily(original, sent, snapshots);
   const nextSent = split.prepare();
   const copy = structuredClone(split.header);
   let kept = 0;
   let sentCount = 0;
   let keptElements = 0;
   let sentElements = 0;
+  let keptStructures = 0;
   for (const make of split.parts) {
     const part = structuredClone(make());
+    if (part.kind === 'structures-kept') keptStructures += part.count;
     if (part.kind === 'cards-kept') kept += part.count;
     if (part.kind === 'cards') sentCount += part.starts.length;
     if (part.kind === 'elements') {
@@ -340,6 +428,6 @@ function takeInWhole(
     mergePart(copy, part, held);
   }
   adoptKeptCards(copy);
-  return { analysis: copy, original, sent: nextSent, held: copy, kept, sentCount, keptElements, sentElements };
+  return { analysis: copy, original, sent: nextSent, held: copy, kept, sentCount, keptElements, sentElements, keptStructures };
 }
 
