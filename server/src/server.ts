@@ -7,7 +7,6 @@ import {
   CodeActionKind,
   Command,
   createConnection,
-  StreamMessageWriter,
   DidChangeConfigurationNotification,
   ErrorCodes,
   FileChangeType,
@@ -83,6 +82,7 @@ import { AnalysisStoppedError, inSlices, WorkerHost, WorkerRestartedError } from
 import { adoptKeptCards } from './analysis-transfer';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FrameError, StrictStreamReader } from './strict-reader';
+import { ImmediateStreamWriter } from './stream-writer';
 import { defaultPolicy, isNetworkPath, type ReadPolicy } from './read-policy';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { pushAll } from '../../shared-analysis/src/arrays';
@@ -157,7 +157,7 @@ const strictReader = process.argv.includes('--stdio')
   ? new StrictStreamReader(process.stdin, Number(process.env['QPOINT_FRAME_STALL_MS']) > 0 ? Number(process.env['QPOINT_FRAME_STALL_MS']) : undefined)
   : undefined;
 const connection: Connection = strictReader
-  ? createConnection(ProposedFeatures.all, strictReader, new StreamMessageWriter(process.stdout))
+  ? createConnection(ProposedFeatures.all, strictReader, new ImmediateStreamWriter(process.stdout))
   : createConnection(ProposedFeatures.all);
 strictReader?.onError((e) => {
   if (!(e instanceof FrameError)) return;
