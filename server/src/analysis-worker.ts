@@ -15,7 +15,7 @@ import { cornerColumns, type CornerColumns } from '../../shared-analysis/src/str
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
-import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
+import { COLLECT_FROM_ELEMENTS, collectAndReleaseGarbage, collectGarbage } from './collect';
 import { FileWorkspace } from './file-workspace';
 import { splitAnalysisLazily, type AnalysisPart, type SentAnalysis } from './analysis-transfer';
 import { sizeResistor } from './sizing';
@@ -216,12 +216,13 @@ function handle(msg: ToWorker): void {
           // The main thread publishes the findings while the cards are encoded here.
           keep(prepare());
         }
-        // The session (parsed cards, solver scratch) is garbage once this handler returns. Not after a value edit that
+        // The session (parsed cards, solver scratch) is garbage once this handler returns: collected, and collected again so
+        // that its pages go back to the system before the main thread's take-in peaks (see collectAndReleaseGarbage). Not after a value edit that
         // reused the last analysis's solver: a full collection then frees only that edit's garbage, but also gives up
         // the compiled code that held objects of the replaced analysis, and the next edit ran on that code's slower
         // tiers (on the 20,000-element array the worker's CPU for an edit about 1.6 times as much; docs/PERFORMANCE.md).
         const valueEdit = previous !== undefined && session.solver === previous.solver;
-        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && !valueEdit) setImmediate(collectGarbage);
+        if ((analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS && !valueEdit) setImmediate(collectAndReleaseGarbage);
       } catch (e) {
         if (e instanceof AnalysisStopped && previous) {
           revertValueEdit(previous);

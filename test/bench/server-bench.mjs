@@ -45,10 +45,14 @@ function percentile(sorted, p) {
   return sorted[i];
 }
 
-function summary(label, samples) {
+/** The latency target of hover and inlay hints (ms): their summaries count the answers slower than it. */
+const TARGET_MS = 20;
+
+function summary(label, samples, countOverTarget = false) {
   const s = [...samples].sort((a, b) => a - b);
   const f = (x) => (Number.isFinite(x) ? x.toFixed(2) : 'n/a');
-  return `${label.padEnd(46)} n=${String(s.length).padStart(5)}  median ${f(percentile(s, 50))} ms  p99 ${f(percentile(s, 99))} ms  max ${f(s[s.length - 1])} ms`;
+  const over = countOverTarget ? `  over ${TARGET_MS} ms: ${s.filter((x) => x > TARGET_MS).length}` : '';
+  return `${label.padEnd(46)} n=${String(s.length).padStart(5)}  median ${f(percentile(s, 50))} ms  p99 ${f(percentile(s, 99))} ms  max ${f(s[s.length - 1])} ms${over}`;
 }
 
 function memoryOf(pid) {
@@ -180,7 +184,9 @@ async function main() {
   while (!publishedAt || takenIn() < 0) {
     const at = performance.now();
     busyHover.push({ at, ms: await timed(() => hover(pick())) });
-    if (busyHover.length % 5 === 0) busyInlay.push({ at: performance.now(), ms: await timed(() => inlay()) });
+    // Once the diagnostics are out the result is being taken in: an inlay request after every hover there (one in
+    // five before), so that window's inlay p99 rests on a few hundred answers rather than a few dozen.
+    if (publishedAt || busyHover.length % 5 === 0) busyInlay.push({ at: performance.now(), ms: await timed(() => inlay()) });
   }
   await second;
   const reMs = publishedAt - reanalysisStart;
@@ -190,13 +196,13 @@ async function main() {
   const during = (list, engine) => list.filter((x) => (engine ? x.at < boundary : x.at >= boundary)).map((x) => x.ms);
   console.log(`Re-analysis of the large netlist after an edit: ${(reMs / 1000).toFixed(2)} s to its diagnostics`);
   console.log(`  server: ${logs[takenIn()].replace(/^\[qpoint\] /, '')}`);
-  console.log(summary('Hover, idle (cached analysis, settled)', idleHover));
-  console.log(summary('Inlay hints (60 lines), idle, settled', idleInlay));
-  console.log(summary('Hover while the worker analyses', during(busyHover, true)));
-  console.log(summary('Inlay hints while the worker analyses', during(busyInlay, true)));
-  console.log(summary('Hover while the result is taken in', during(busyHover, false)));
-  console.log(summary('Inlay hints while the result is taken in', during(busyInlay, false)));
-  console.log(summary('Hover over the whole re-analysis', busyHover.map((x) => x.ms)));
+  console.log(summary('Hover, idle (cached analysis, settled)', idleHover, true));
+  console.log(summary('Inlay hints (60 lines), idle, settled', idleInlay, true));
+  console.log(summary('Hover while the worker analyses', during(busyHover, true), true));
+  console.log(summary('Inlay hints while the worker analyses', during(busyInlay, true), true));
+  console.log(summary('Hover while the result is taken in', during(busyHover, false), true));
+  console.log(summary('Inlay hints while the result is taken in', during(busyInlay, false), true));
+  console.log(summary('Hover over the whole re-analysis', busyHover.map((x) => x.ms), true));
   const mem = memoryOf(child.pid);
   console.log(`Server memory after the large netlist (process incl. worker thread): peak ${mem.hwmMB.toFixed(0)} MB (VmHWM), now ${mem.rssMB.toFixed(0)} MB (VmRSS)`);
 
