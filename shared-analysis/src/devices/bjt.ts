@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
-import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage } from './physics';
+import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage, unbounded } from './physics';
 
 /**
  * Region by intrinsic junction bias in the device's own polarity (docs/DEVICE-MODELS.md):
@@ -782,9 +782,9 @@ export class BjtTable implements DeviceTable {
       const region = regionCode(vbe, vbc);
       const go = -(ev[DIC_DVBC] + this.par[i * PARAMS + P_GMIN]);
       const noEarly = !Number.isFinite(vaf) && region !== 1;
-      v[Q_RO][i] = noEarly || !(go > 1 / UNBOUNDED) ? UNBOUNDED : Math.min(UNBOUNDED, 1 / go);
+      v[Q_RO][i] = noEarly || !(go > 1 / UNBOUNDED) ? unbounded() : Math.min(UNBOUNDED, 1 / go);
       const beta = ic / ib;
-      v[Q_BETA][i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : UNBOUNDED;
+      v[Q_BETA][i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : unbounded();
       v[Q_GMU][i] = Math.max(ev[DIB_DVBC] - this.par[i * PARAMS + P_GMIN], 0);
       out.region[i] = region;
       if (noEarly) out.flags[i] = NO_EARLY;

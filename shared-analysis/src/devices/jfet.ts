@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope, unbounded } from './physics';
 
 /** Channel parameters of one JFET at the solve's temperature, own polarity. */
 export interface JfetParams {
@@ -406,7 +406,7 @@ export class JfetTable implements DeviceTable {
       v[Q_VDS][i] = s * vds;
       v[Q_VTO][i] = this.vto[i];
       v[Q_GM][i] = ev[GM];
-      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : UNBOUNDED;
+      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : unbounded();
       out.region[i] = region;
       if (!(gds > 1 / UNBOUNDED)) out.flags[i] = NO_CLM;
     }

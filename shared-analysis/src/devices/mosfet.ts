@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue } from './physics';
+import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue, unbounded } from './physics';
 
 /** Level-1 parameters of one device, own polarity (for PMOS `vto` is already sign-flipped). */
 export interface MosParams {
@@ -401,7 +401,7 @@ export class MosfetTable implements DeviceTable {
       v[Q_VTH][i] = s * ev[VTH];
       v[Q_VOV][i] = ev[VOV];
       v[Q_GM][i] = ev[GM];
-      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : UNBOUNDED;
+      v[Q_RO][i] = gds > 1 / UNBOUNDED ? 1 / gds : unbounded();
       v[Q_GMBS][i] = ev[GMBS];
       out.region[i] = region;
       if (!(gds > 1 / UNBOUNDED)) out.flags[i] = NO_CLM;

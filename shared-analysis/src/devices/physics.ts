@@ -108,10 +108,23 @@ export function shiftJunction(v0: number, nvt0: number, nvt1: number, is0: numbe
 /** Clamps a huge or infinite magnitude to a JSON-safe stand-in for "unbounded" (1e30). */
 export const UNBOUNDED = 1e30;
 
+/** UNBOUNDED held in a typed array, so that reading it gives the compiler a double: see `unbounded`. */
+const UNBOUNDED_CELL = Float64Array.of(UNBOUNDED);
+
+/**
+ * UNBOUNDED as a double, for an evaluation loop that picks between it and a computed number. The bundles
+ * turn a module's `const` into a `var`, whose value the optimising compiler does not know to be a number, so
+ * a branch yielding UNBOUNDED beside a computed double boxed that double on the heap: three objects per BJT
+ * per evaluation of the operating point (2.4 MB a corner on the 100,000-element sink array).
+ */
+export function unbounded(): number {
+  return UNBOUNDED_CELL[0];
+}
+
 /** 1/g, reported as UNBOUNDED when g is zero, negative-zero or so small the reciprocal would exceed it. */
 export function reciprocalOrUnbounded(g: number): number {
   const a = Math.abs(g);
-  if (!(a > 1 / UNBOUNDED)) return UNBOUNDED;
+  if (!(a > 1 / UNBOUNDED)) return unbounded();
   return 1 / g;
 }
 
