@@ -129,17 +129,43 @@ export class NewtonEngine {
    * Row-then-column max-norm equilibration with power-of-two factors (exact in binary
    * floating point): the factorisation sees R·A·C with every row and column largest
    * entry in [0.5, 2), so a 1e20 S junction next to a unit source incidence entry is not
-   * mistaken for a singular pivot.
+   * mistaken for a singular pivot. `columns` false keeps the column scales of the last
+   * equilibration and works out the row scales alone (see `factorIteration`).
    */
-  private equilibrate(): void {
+  private equilibrate(columns = true): void {
     const { values, rowMax, rowScale, colScale } = this;
     const { rows, cols } = this.layout.pattern;
     powerOfTwoInverses(rowMax, rowScale);
+    this.scaledCurrent = false;
+    if (!columns) return;
     // A function of its own, as the other passes: see `solveScaled`.
     columnMaxima(values, rows, cols, rowScale, colScale);
     powerOfTwoInverses(colScale, colScale);
-    this.scaledCurrent = false;
   }
+
+  /**
+   * Equilibrates and factors the matrix of iteration `it` of a run. The row scales are worked out at every
+   * iteration, since they decide the factorisation: each pivot test compares entries of one column, which
+   * the row scales weigh against each other. The column scales decide nothing (a column's scale multiplies
+   * every entry a test compares) and, being powers of two, change no rounding either: L·U, and so the
+   * update, are the same bits under any of them (short of overflow or subnormal numbers). So they are
+   * worked out at the run's first factorisation and kept for its later ones, which saves a pass over the
+   * matrix and one over the unknowns each iteration. A factorisation that fails under kept column scales
+   * is made again under fresh ones, so a singular or overflowing matrix is handled, and diagnosed from
+   * its scaled values, exactly as when every iteration is equilibrated in full.
+   */
+  private factorIteration(it: number): FactorResult {
+    const fresh = it === 1 || !this.keepColumnScales;
+    this.measureRowMax();
+    this.equilibrate(fresh);
+    const f = this.factorEquilibrated();
+    this.factorizations++;
+    if (f.ok || fresh) return f;
+    this.equilibrate(true);
+    return this.factorEquilibrated();
+  }
+  /** False equilibrates every iteration in full (the plain path `factorIteration` is compared with in the tests). */
+  keepColumnScales = true;
 
   /**
    * Factors R·A·C with the scales of the last `equilibrate`: a solver that scales while it loads its
@@ -332,10 +358,7 @@ export class NewtonEngine {
       if (nonFinite.length > 0) return { status: 'non-finite', iterations: it, culprits: [...nonFinite] };
       // A linear system's matrix is the same every iteration: factor it once.
       if (!(linear && factored)) {
-        this.measureRowMax();
-        this.equilibrate();
-        const f = this.factorEquilibrated();
-        this.factorizations++;
+        const f = this.factorIteration(it);
         if (!f.ok) return { status: 'singular', iterations: it, singularIndex: f.singularIndex };
         factored = true;
       }
