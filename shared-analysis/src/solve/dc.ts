@@ -720,19 +720,22 @@ export class DcSolver {
    */
   private twoTerminalValues(x: Float64Array, tv: Float64Array, ti: Float64Array): boolean {
     const readers = this.layout.readers;
-    const v = (u: number): number => (u >= 0 ? x[u] : 0);
-    const inRange = (val: number): boolean => Math.abs(val) <= RECORD_LIMIT;
     const override = this.conductanceOverride;
+    const stamps = this.layout.resistorStamps;
     const sourceValues = this.engine.sourceValues;
     let overflow = false;
     for (let k = 0; k < readers.length; k++) {
       const r = readers[k];
-      const voltage = v(r.a) - v(r.b);
+      // Module functions, not closures made per call: a closure is a new call target at every point built, which
+      // gave up this loop's compiled code at the next corner.
+      const voltage = unknownValue(x, r.a) - unknownValue(x, r.b);
       let current = 0;
       switch (r.kind) {
-        case 'conductance':
-          current = voltage * (override.size > 0 ? (override.get(r.element) ?? r.g) : r.g);
+        case 'conductance': {
+          const g = stamps.conductanceOrZero(r.element);
+          current = voltage * (override.size > 0 ? (override.get(r.element) ?? g) : g);
           break;
+        }
         case 'branch':
           current = x[r.branch];
           break;
@@ -743,7 +746,7 @@ export class DcSolver {
           current = sourceValues[r.hook];
           break;
         case 'vccs':
-          current = r.gain * (v(r.cp) - v(r.cn));
+          current = r.gain * (unknownValue(x, r.cp) - unknownValue(x, r.cn));
           break;
         case 'cccs':
           current = r.gain * x[r.branch];
@@ -751,7 +754,7 @@ export class DcSolver {
       }
       tv[k] = voltage;
       ti[k] = current;
-      if (!(inRange(current) && inRange(voltage) && inRange(voltage * current))) overflow = true;
+      if (!(withinRecordLimit(current) && withinRecordLimit(voltage) && withinRecordLimit(voltage * current))) overflow = true;
     }
     return overflow;
   }
@@ -1265,6 +1268,16 @@ function allInRecordRange(q: Float64Array): boolean {
     if (!(v <= RECORD_LIMIT && v >= -RECORD_LIMIT)) return false;
   }
   return true;
+}
+
+/** Unknown u of x, 0 for ground (−1). */
+function unknownValue(x: Float64Array, u: number): number {
+  return u >= 0 ? x[u] : 0;
+}
+
+/** Whether |val| ≤ RECORD_LIMIT (false for NaN). */
+function withinRecordLimit(val: number): boolean {
+  return Math.abs(val) <= RECORD_LIMIT;
 }
 
 /** out[k] = x[k] for k < n, 0 where x[k] is not finite. */

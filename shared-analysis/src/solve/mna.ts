@@ -86,6 +86,14 @@ export class ResistorStamps {
     return this.kind[i] === CONDUCTANCE_STAMP ? this.g[i] : undefined;
   }
 
+  /**
+   * Element i's netlist conductance, 0 when it has no conductance stamp: what a conductance reader's `g` holds, read
+   * from a typed array. Read from the readers, which have a layout per kind, the number was a heap object made per read.
+   */
+  conductanceOrZero(i: number): number {
+    return this.g[i];
+  }
+
   /** The diagonal of element i's branch row when it is stamped as a short, else −1. */
   shortDiagonal(i: number): number {
     return this.kind[i] === SHORT_STAMP ? this.positions[4 * i + 1] : -1;

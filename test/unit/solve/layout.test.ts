@@ -157,5 +157,9 @@ describe('MNA layout', () => {
     for (let e = 0; e < rebuilt.linearValues.length; e++) expect(moved.linearValues[e]).toBeCloseTo(rebuilt.linearValues[e], 15);
     expect(moved.resistorStamps.conductance(r2)).toBe(1e-3);
     expect(moved.readers.find((r) => r.element === r2)).toMatchObject({ g: 1e-3 });
+    // The operating point reads each conductance reader's g from the stamps' column: the same number before and after the edit.
+    for (const layout of [new MnaLayout(MIXED), moved]) {
+      for (const r of layout.readers) if (r.kind === 'conductance') expect(layout.resistorStamps.conductanceOrZero(r.element)).toBe(r.g);
+    }
   });
 });
