@@ -1,6 +1,7 @@
-// mapList builds the list Array.prototype.map builds (ECMA-262, Array.prototype.map), item by item.
+// mapList builds the list Array.prototype.map builds (ECMA-262, Array.prototype.map), item by item; trimmed copies a
+// list as Array.prototype.slice() does (ECMA-262, Array.prototype.slice: a new array of the same items).
 import { describe, expect, it } from 'vitest';
-import { mapList } from '../../shared-analysis/src/arrays';
+import { mapList, trimmed } from '../../shared-analysis/src/arrays';
 
 describe('mapList', () => {
   it('gives what Array.prototype.map gives, with each item and its index, for lists of strings and of objects', () => {
@@ -17,5 +18,20 @@ describe('mapList', () => {
     expect(out).not.toBe(list);
     expect(list).toEqual(['a', 'b']);
     expect(out).toEqual(['A', 'B']);
+  });
+});
+
+describe('trimmed', () => {
+  it('gives a new list of the same items in the same order, which later writes to either leave the other alone', () => {
+    const grown: string[] = [];
+    for (const name of ['RR0', 'RR1', 'X1.RB']) grown.push(name);
+    const copy = trimmed(grown);
+    expect(copy).toEqual(['RR0', 'RR1', 'X1.RB']);
+    expect(copy).not.toBe(grown);
+    copy.push('RL0');
+    grown[0] = 'R9';
+    expect(grown).toEqual(['R9', 'RR1', 'X1.RB']);
+    expect(copy).toEqual(['RR0', 'RR1', 'X1.RB', 'RL0']);
+    expect(trimmed([])).toEqual([]);
   });
 });

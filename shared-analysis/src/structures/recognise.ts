@@ -6,7 +6,7 @@ import { Matcher, type Draft } from './match';
 import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from './types';
 import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
-import { mapList } from '../arrays';
+import { mapList, trimmed } from '../arrays';
 import type { Attachment } from './topology';
 import { defineCorners } from './corner-columns';
 
@@ -124,7 +124,7 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, 
     const next = r.nodes[0] === node ? r.nodes[1] : r.nodes[0];
     const rail = m.rails.get(next);
     if (rail) {
-      fed(base, 'resistor', chain).rail = rail;
+      fed(base, 'resistor', trimmed(chain)).rail = rail;
       return base;
     }
     seen ??= new Set<number>([d.refNode]);

@@ -3,6 +3,7 @@
 import type { Bjt, Circuit, Element, Jfet, Mosfet } from '../circuit';
 import { isBipolar, polaritySign, technologyOfModel, TECHNOLOGIES } from './technology';
 import type { Technology } from './types';
+import { trimmed } from '../arrays';
 
 export { isBipolar, polaritySign };
 
@@ -154,6 +155,10 @@ export class Topology {
     this.elementIndex = shared.elementIndex;
     this.transistorElement = shared.transistorElement;
     if (followed && !views) this.follow(followed);
+    if (!views) {
+      trimLists(this.byCtrl);
+      trimLists(this.byCommon);
+    }
   }
 
   /** Whether each transistor view holds the very element object `elements` has in its place. */
@@ -263,7 +268,8 @@ export class Topology {
         const slot = this.rowSlot[j];
         if (conducts(element, slot)) list.push({ element, slot });
       }
-      this.conductingLists[node] = list;
+      // Kept with the topology for the whole analysis: a list of its own length.
+      this.conductingLists[node] = list = trimmed(list);
     }
     return list;
   }
@@ -297,6 +303,11 @@ function conducts(element: Element, slot: number): boolean {
 /** The node slots of an element that carry DC current: a BJT's optional substrate node carries none, so it is left out of the incidence. */
 function incidentSlots(e: Element): number {
   return e.kind === 'Q' ? Math.min(3, e.nodes.length) : e.nodes.length;
+}
+
+/** Gives each list of `m` that grew by `push` a copy of its own length (the topology keeps them for the whole analysis). */
+function trimLists<K, V>(m: Map<K, V[]>): void {
+  for (const [k, list] of m) if (list.length > 1) m.set(k, trimmed(list));
 }
 
 function push<K, V>(m: Map<K, V[]>, k: K, v: V): void {

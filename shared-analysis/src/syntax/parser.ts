@@ -28,6 +28,7 @@ import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
+import { trimmed } from '../arrays';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -688,8 +689,10 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   const special = first.plus === undefined ? readDotHead(ctx, segments, span) : undefined;
   if (special) return special;
   const lx = lexCard(ctx, segments);
-  const tokens: Token[] = [];
-  for (const l of lx) if (l.type === 'word' || l.type === 'expr') tokens.push(makeToken(text, l));
+  const fields: Token[] = [];
+  for (const l of lx) if (l.type === 'word' || l.type === 'expr') fields.push(makeToken(text, l));
+  // The card keeps its tokens as long as its document: a list of its own length.
+  const tokens = trimmed(fields);
 
   if (first.plus !== undefined) {
     return errorCard(
