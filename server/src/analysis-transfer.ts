@@ -12,6 +12,7 @@ import { nameTable, restoreNameTables, restoreStructureTables } from '../../shar
 import { indexBuilder, positionsByLowerName } from '../../shared-analysis/src/features/document-index';
 import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
 import { editRegion } from '../../shared-analysis/src/incremental';
+import { copyStructure } from '../../shared-analysis/src/structures/corner-columns';
 
 /** Items per part: small enough that taking one in keeps the main thread free within a few milliseconds. */
 const PART_SIZE = 400;
@@ -62,7 +63,7 @@ export type AnalysisPart =
   | { kind: 'structures'; items: Structure[] }
   /**
    * The next `count` structures are the receiver's held structures `start` to `start + count − 1` as it took them in:
-   * copies without what it added to them since (corner results, the spread; see `structureAsTaken`). The sender
+   * copies without what it added to them since (corner results, the spread; see `copyStructure`). The sender
    * checked that each is the engine's same first-pass snapshot as the held one (see `structureRuns`).
    */
   | { kind: 'structures-kept'; start: number; count: number };
@@ -246,23 +247,6 @@ function structureRuns(structures: readonly Structure[], held: readonly (Structu
     i = end;
   }
   return { runs, sent };
-}
-
-/**
- * A held structure as the receiver took it in: its fields in their order, without the corner results and the spread
- * the receiver added (the corner phase of the new result brings its own), nested records shared (nothing on the
- * receiving side writes into them) but for the derived voltages, copied as the engine copies them.
- */
-function structureAsTaken(s: Structure): Structure {
-  const copy: Record<string, unknown> = {};
-  for (const key of Object.keys(s)) {
-    if (key === 'variation') continue;
-    // Not read: `corners` may be an accessor that builds every corner's records on first read.
-    if (key === 'corners') copy[key] = [];
-    else if (key === 'voltages' && s.voltages) copy[key] = s.voltages.map((v) => ({ ...v }));
-    else copy[key] = (s as unknown as Record<string, unknown>)[key];
-  }
-  return copy as unknown as Structure;
 }
 
 /** The last part of a list sent `size` at a time takes whatever is left, so a count that fell short loses nothing. */
@@ -463,7 +447,8 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       const from = held?.structures;
       if (!from || from.length < part.start + part.count) throw new Error('The held structures are not the ones the worker kept.');
       for (let k = part.start; k < part.start + part.count; k++) {
-        target.structures.push(structureAsTaken(from[k]!));
+        // As taken in: without the corner results and the spread added to it since (the new result's corner phase brings its own).
+        target.structures.push(copyStructure(from[k]!, 'variation'));
         if ((k - part.start) % MERGE_STEP === MERGE_STEP - 1) yield;
       }
       return;

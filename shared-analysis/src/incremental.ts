@@ -10,6 +10,7 @@ import type { CornerContext, CornerRecord } from './checks/corners';
 import { followRails, railsByIndex } from './structures/rails';
 import { followTopology } from './structures/topology';
 import type { Structure } from './structures/types';
+import { copyStructure } from './structures/corner-columns';
 import type { Finding, Span } from './types';
 import { nameTable } from './names';
 import type { Card, ParsedDocument, SyntaxError } from './syntax/ast';
@@ -799,27 +800,9 @@ function spreadAlongFeeds(feeds: Int32Array, touched: boolean[]): void {
   }
 }
 
-/** A structure object of its own: nested records shared, the lists an analysis writes into (voltages, corners) copied. */
-function copyStructure(s: Structure): Structure {
-  // Fields written into the copy `s` already has (its place in the key order kept): spreading a second, temporary
-  // object cost about as much again as the copy itself, for every structure of every edit.
-  const copy: Structure = { ...s, corners: [] };
-  if (s.voltages) copy.voltages = copyEach(s.voltages);
-  return copy;
-}
-
-/** A list of records, each copied (a plain loop: `map` with a spread per item took longer, for every structure of every edit). */
-function copyEach<T extends object>(list: readonly T[]): T[] {
-  const out = new Array<T>(list.length);
-  for (let i = 0; i < list.length; i++) out[i] = { ...list[i]! };
-  return out;
-}
-
 /** A first-pass snapshot of a structure: what its hand analysis wrote, without the spread that each analysis attaches afresh. */
 function firstPassOf(s: Structure): Structure {
-  const copy = copyStructure(s);
-  delete copy.variation;
-  return copy;
+  return copyStructure(s, 'variation');
 }
 
 /** Records each structure's findings during the hand analysis and makes the state the next edit starts from. */
@@ -831,7 +814,7 @@ export class IncrementalKeeper {
     private readonly edit: ValueEdit | undefined,
     recognised: Structure[],
   ) {
-    this.pristine = edit ? [] : recognised.map(copyStructure);
+    this.pristine = edit ? [] : recognised.map((s) => copyStructure(s));
   }
 
   record = (s: Structure, findings: Finding[]): void => {

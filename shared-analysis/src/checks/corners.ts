@@ -380,8 +380,9 @@ export function runCorners(ctx: CornerContext): Finding[] {
   }
 
   const failed = axis.labels.filter((_, k) => axis.converged[k] !== 1);
-  const elements = new Map<string, Element>();
-  for (const e of circuit.elements) elements.set(e.name, e);
+  // The topology's table (the last element of a name, as a map filled in order would hold): a map of its own was a pass
+  // over every element in each corner phase.
+  const elements = topology.elementByName;
 
   // One note per circuit: the corner solves are shared by every structure.
   const first = elements.get(structures[0].reference.device);
@@ -424,7 +425,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
 }
 
 /** One structure's corner findings from its columns and its nominal figures (its first output at `first` of `nominal`), outputs in order. */
-function structureFindings(s: Structure, nominal: OutputSink, first: number, cols: CornerColumns, elements: Map<string, Element>, options: ResolvedOptions, converged: number): Finding[] {
+function structureFindings(s: Structure, nominal: OutputSink, first: number, cols: CornerColumns, elements: { get(name: string): Element | undefined }, options: ResolvedOptions, converged: number): Finding[] {
   const out: Finding[] = [];
   const summaries = summariseOutputs(cols);
   s.outputs.forEach((o, oi) => {

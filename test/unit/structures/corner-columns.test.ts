@@ -1,7 +1,7 @@
 // Corner results stored column-wise: the per-corner records built from the columns, the per-output summary, and a copy across threads.
 
 import { describe, expect, it } from 'vitest';
-import { cornerColumns, cornerRecords, setCornerColumns, summariseOutputs, type CornerColumns } from '../../../shared-analysis/src/structures/corner-columns';
+import { copyStructure, cornerColumns, cornerRecords, setCornerColumns, summariseOutputs, type CornerColumns } from '../../../shared-analysis/src/structures/corner-columns';
 import { analyse } from '../../../shared-analysis/src/service';
 import { dropNonFinite } from '../../../shared-analysis/src/output-guard';
 import type { Structure } from '../../../shared-analysis/src/structures/types';
@@ -122,6 +122,27 @@ describe('corner columns', () => {
     dropNonFinite(s2, 's2', removed);
     expect(removed).toEqual(['s2.corners[0].iref']);
     expect('iref' in s2.corners[0]!).toBe(false);
+  });
+
+  it('are left out of a copy, which keeps the accessor in their place and the original untouched', () => {
+    // An invented NPN mirror with a VBE multiplier beside it (a structure with a derived voltage), corners and spread on.
+    const text = 'copies\nVCC vcc 0 5\nR1 vcc r 4.3k\nQ1 r r 0 QN\nQ2 o r 0 QN\nRL vcc o 2k\nRM vcc c 2k\nRA c b 2.2k\nRB b 0 1k\nQM c b 0 QN\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n.end\n';
+    const a = analyse({ uri: '/c.cir', text }, new MemoryWorkspace({ '/c.cir': text }));
+    expect(a.structures.some((s) => (s.voltages?.length ?? 0) > 0)).toBe(true);
+    for (const s of a.structures) {
+      const before = JSON.stringify(s);
+      const copy = copyStructure(s, 'variation');
+      // The plain path: a spread of the structure with no corners and no spread, field order included.
+      const plain: Record<string, unknown> = { ...s, corners: [] };
+      delete plain['variation'];
+      expect(JSON.stringify(copy)).toBe(JSON.stringify(plain));
+      expect(Object.getOwnPropertyDescriptor(copy, 'corners')?.get).toBe(Object.getOwnPropertyDescriptor(s, 'corners')?.get);
+      // The lists the corner phase writes into are the copy's own; the columns given to the copy are read back as records.
+      if (s.voltages) expect(copy.voltages![0]).not.toBe(s.voltages[0]);
+      setCornerColumns(copy, cornerColumns(s)!);
+      expect(copy.corners).toEqual(s.corners);
+      expect(JSON.stringify(s)).toBe(before);
+    }
   });
 
   it('hold what an analysis measured at every corner, read back through the records', () => {
