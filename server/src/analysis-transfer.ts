@@ -364,8 +364,11 @@ function howCardsTravel(held: SentDocument, sent: SentDocument, { prefix, tail: 
  */
 const MERGE_STEP = 50;
 
-/** Per analysis being taken in, the held cards it shares that the edit moved, and by how much: moved by `adoptKeptCards`. */
-const pendingMoves = new WeakMap<Analysis, { cards: Card[]; delta: number }[]>();
+/**
+ * Per analysis being taken in, the held cards it shares that the edit moved, and by how much: moved by `adoptKeptCards`.
+ * `uri` and `from` say where they sit in the analysis's own cards (from `from` on, `cards.length` of them).
+ */
+const pendingMoves = new WeakMap<Analysis, { cards: Card[]; delta: number; uri: string; from: number }[]>();
 
 /**
  * Puts one part back into an analysis being assembled from its header, all at once. `held` is the analysis the
@@ -397,12 +400,13 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       const doc = target.documents[part.uri];
       const from = held?.documents[part.uri];
       if (!doc || !from || from.cards.length < part.start + part.count) throw new Error(`The held cards of ${part.uri} are not the ones the worker kept.`);
+      const at = doc.cards.length;
       for (let k = part.start; k < part.start + part.count; k++) doc.cards.push(from.cards[k]!);
       // The cards past the edit are moved when the result is adopted: the held analysis answers requests until then.
       // An edit that kept the text's length moves nothing.
       if (part.moved < part.count && part.delta !== 0) {
         const moves = pendingMoves.get(target) ?? [];
-        moves.push({ cards: from.cards.slice(part.start + part.moved, part.start + part.count), delta: part.delta });
+        moves.push({ cards: from.cards.slice(part.start + part.moved, part.start + part.count), delta: part.delta, uri: part.uri, from: at + part.moved });
         pendingMoves.set(target, moves);
       }
       return;
@@ -412,6 +416,7 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
       if (!circuit) return;
       const moves = new Map((part.moves ?? []).map(([uri, prefix, tail, delta]) => [uri, { prefix, tail, delta }]));
       const uris = documentUris(target.documents);
+      const cardOf = cardFinder(target);
       let since = 0;
       for (const e of JSON.parse(part.json) as (Record<string, unknown> | [number, number])[]) {
         if (Array.isArray(e)) {
@@ -420,7 +425,7 @@ export function* mergePartSteps(target: Analysis, part: AnalysisPart, held?: Ana
             pushHeldElements(circuit, held, k, Math.min(MERGE_STEP, e[0] + e[1] - k), moves);
             yield;
           }
-        } else circuit.elements.push(decodeElement(circuit, e, uris));
+        } else circuit.elements.push(shareCardSpans(decodeElement(circuit, e, uris), cardOf));
         if (++since % MERGE_STEP === 0) yield;
       }
       return;
@@ -878,6 +883,74 @@ function decodeElement(circuit: Circuit, e: Record<string, unknown>, uris: Docum
     for (const instance of origin.instances) instance.uri = uris(instance.uri);
   }
   return e as unknown as Element;
+}
+
+/**
+ * `element` with its origin's spans replaced by its card's span objects (`cardOf`), where they hold the same offsets:
+ * in the engine an element's origin holds its card's span and its fields' token spans (`elaborate`), but over JSON
+ * each arrives as an object of its own, four for a resistor (200,000 for the 50,000-element netlist, 8 MB, held twice
+ * while a result is taken in beside the last one).
+ */
+function shareCardSpans(element: Element, cardOf: (origin: Origin) => Card | undefined): Element {
+  const origin = element.origin;
+  const card = cardOf(origin);
+  if (!card) return element;
+  origin.span = card.span;
+  if (origin.valueSpan) origin.valueSpan = tokenSpanAt(card.tokens, origin.valueSpan);
+  if (origin.modelSpan) origin.modelSpan = tokenSpanAt(card.tokens, origin.modelSpan);
+  const nodeSpans = origin.nodeSpans;
+  if (nodeSpans) for (let i = 0; i < nodeSpans.length; i++) nodeSpans[i] = tokenSpanAt(card.tokens, nodeSpans[i]!);
+  return element;
+}
+
+/**
+ * For the elements of a result being taken in, the card of `target` whose span has an origin's offsets, or undefined.
+ * Never a card the adoption will move: until then its offsets are the held text's, and an element sharing its spans
+ * would move with it. Elements arrive in their cards' order, so the card after the last one found is tried first (a
+ * card's `span` read from cards of many shapes is a slow property read, and a binary search made 16 of them per
+ * element); a card list that the edit left out of order past the edit at worst finds nothing, and the element keeps
+ * its own, equal spans.
+ */
+function cardFinder(target: Analysis): (origin: Origin) => Card | undefined {
+  const moves = pendingMoves.get(target) ?? [];
+  let uri: string | undefined;
+  let cards: readonly Card[] = [];
+  let next = 0;
+  return (origin) => {
+    if (origin.uri !== uri) {
+      uri = origin.uri;
+      cards = target.documents[uri]?.cards ?? [];
+      next = 0;
+    }
+    const start = origin.span.start;
+    const k = next < cards.length && cards[next]!.span.start === start ? next : cardIndexAt(cards, start);
+    if (k < 0 || cards[k]!.span.end !== origin.span.end || moves.some((m) => m.uri === uri && k >= m.from && k < m.from + m.cards.length)) return undefined;
+    next = k + 1;
+    return cards[k];
+  };
+}
+
+/** The index of the card starting at `start` (cards are in text order: a binary search), or −1. */
+function cardIndexAt(cards: readonly Card[], start: number): number {
+  let lo = 0;
+  let hi = cards.length - 1;
+  while (lo <= hi) {
+    const mid = (lo + hi) >> 1;
+    const at = cards[mid]!.span.start;
+    if (at === start) return mid;
+    if (at < start) lo = mid + 1;
+    else hi = mid - 1;
+  }
+  return -1;
+}
+
+/** The span object of the token at `span`'s offsets, or `span` itself when no token is there. */
+function tokenSpanAt(tokens: readonly Token[], span: Span): Span {
+  for (let i = 0; i < tokens.length; i++) {
+    const s = tokens[i]!.span;
+    if (s.start === span.start && s.end === span.end) return s;
+  }
+  return span;
 }
 
 /**

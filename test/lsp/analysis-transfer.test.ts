@@ -215,6 +215,34 @@ describe('analysis transfer', () => {
     expect(copy.documents[uri]!.cards[5]).toBe(held.documents[uri]!.cards[5]);
   });
 
+  it("gives a taken-in element its card's span objects, as the engine's element holds them, but not a card the adoption moves", () => {
+    // Invented: lines of one length after a parameter card, so that an edit which lengthens that card by exactly one
+    // line moves every later card onto the next one's old offsets (span for span), and changes every later element's value.
+    const lines = ['Shared spans', 'VCC vcc 0 DC 10', '.param a=2', '.model QN NPN (BF=100)', 'Q1 ref ref 0 QN'];
+    for (let k = 0; k < 300; k++) lines.push(`RX${String(k).padStart(3, '0')} vcc x${String(k).padStart(3, '0')} {a}k`);
+    lines.push('.end', '');
+    const before = lines.join('\n');
+    const uri = '/t/main.cir';
+    const first = takeInWhole(uri, before, undefined, undefined);
+    // The independent reference: the engine's own object graph, where an element's origin holds its card's spans.
+    const sharing = (a: Analysis) =>
+      a.circuit!.elements.map((e) => {
+        const card = a.documents[uri]!.cards.find((c) => c.span.start === e.origin.span.start)!;
+        const tokenOf = (s: unknown) => card.tokens.some((t) => t.span === s);
+        return [e.name, e.origin.span === card.span, e.origin.nodeSpans!.every(tokenOf), e.origin.valueSpan === undefined || tokenOf(e.origin.valueSpan)];
+      });
+    expect(sharing(first.original).every(([, ...same]) => same.every(Boolean))).toBe(true);
+    expect(sharing(first.analysis)).toEqual(sharing(first.original));
+    // One line longer: the cards past it are the held ones, moved on adoption; the elements past it travel again.
+    const edited = before.replace('.param a=2', `.param a=3 ; ${'w'.repeat(lines[6]!.length + 1 - ' ; '.length)}`);
+    expect(edited.length - before.length).toBe(lines[6]!.length + 1);
+    const next = takeInWhole(uri, edited, first.sent, first.held);
+    expect(next.kept).toBeGreaterThan(290);
+    expect(next.sentElements).toBeGreaterThan(290);
+    expect(next.analysis.circuit).toEqual(next.original.circuit);
+    expect(next.analysis.documents[uri]).toEqual(next.original.documents[uri]);
+  });
+
   it('after random edits that regroup cards, keeps only cards the parser makes again and elements the elaborator makes again (seeded)', () => {
     // Snippets that change how lines group into cards and how the first line reads: continuation and
     // comment lines, blocks, sections, conditions, the end card, line breaks, a definition card as the
