@@ -133,6 +133,8 @@ function handle(msg: ToWorker): void {
     case 'set-document':
       workspace.setOpen(msg.uri, msg.text);
       if (msg.text === undefined) {
+        // A closed big netlist's analysis is garbage once dropped below: its pages go back now, not at the next large analysis.
+        if ((lastAnalysis.get(msg.uri)?.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectAndReleaseGarbage);
         openTexts.delete(msg.uri);
         lastAnalysis.delete(msg.uri);
         sentAnalyses.delete(msg.uri);

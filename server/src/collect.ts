@@ -27,12 +27,13 @@ export const collectGarbage: () => void = runtimeCollector ? () => runtimeCollec
 
 /**
  * Two full collections in a row, for a thread that has just let a large analysis go and is about to hold less for a
- * while. V8 gives the pages a full collection empties back to the system only at a later one (they are swept after
- * it), so after one collection the worker's heap stayed committed at its analysis's size (105 MB for the 50,000-element
+ * while. After one collection the worker's heap stayed committed at its analysis's size (105 MB for the 50,000-element
  * netlist, 51 MB of it in use) until the next analysis, through the main thread's take-in of the result, where the
- * server's memory peaks; after two it was 83 MB, and the process's memory at the end of that take-in 20-25 MB lower
- * (one process driving the worker as the server does, load 5; docs/PERFORMANCE.md). The second costs as much CPU as
- * the first (a marking of what is live, 150-300 ms there).
+ * server's memory peaks; after a second one right after the first it was 83 MB, and the process's memory at the end of
+ * that take-in 20-25 MB lower (one process driving the worker as the server does, load 5; docs/PERFORMANCE.md). As far
+ * as V8's heap statistics show, the pages where an analysis's garbage lay mixed with what lives on are emptied by the
+ * first collection's sweeping and given back only at the next one (a list of objects dropped whole goes back at once).
+ * The second costs as much CPU as the first (a marking of what is live, 150-300 ms there).
  */
 export function collectAndReleaseGarbage(): void {
   collectGarbage();

@@ -350,6 +350,15 @@ function whenQuiet(collect: () => void): void {
   setTimeout(poll, COLLECT_QUIET_MS).unref();
 }
 
+/** Collects `what`, a large analysis that just became garbage, at the first quiet moment (see `whenQuiet`), and logs the pause. */
+function freeWhenQuiet(what: string): void {
+  whenQuiet(() => {
+    const t0 = Date.now();
+    collectGarbage();
+    log(`Freed ${what} in ${Date.now() - t0} ms.`);
+  });
+}
+
 function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: P) => Promise<R> {
   return async (params: P) => {
     lastRequestAt = Date.now();
@@ -588,13 +597,7 @@ function accept(uri: string, analysis: Analysis, ms: number, early?: Set<string>
       prepareHover(analysis);
     }
     // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
-    if (replacedElements >= COLLECT_FROM_ELEMENTS) {
-      whenQuiet(() => {
-        const t0 = Date.now();
-        collectGarbage();
-        log(`Freed the previous analysis of ${basename(uri)} in ${Date.now() - t0} ms.`);
-      });
-    }
+    if (replacedElements >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the previous analysis of ${basename(uri)}`);
   });
   if (canRefreshInlays) void connection.languages.inlayHint.refresh().catch(() => undefined);
 }
@@ -779,6 +782,8 @@ documents.onDidClose((e) => {
   cache.delete(uri);
   converters.forget(uri);
   spreads.forget(uri);
+  // A closed big netlist's analysis is garbage now: its memory goes back rather than stay until V8 needs the room.
+  if ((entry?.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the analysis of ${basename(uri)}, closed,`);
   const touched = new Set<string>([uri, ...(entry ? Object.keys(entry.analysis.documents) : [])]);
   // Netlists that include the closed file now read it from disk again.
   for (const root of dependants(uri)) schedule(root);
