@@ -11,8 +11,8 @@ import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { BJT_CELL } from '../checks/self-biased-cells';
 
 /** The invented ΔVBE cell of the start-up tests beside an ordinary resistor-fed mirror, elaborated and recognised. */
-function cellAndMirror() {
-  const text = BJT_CELL('').replace('.end', 'RREF vcc m 10k\nQM1 m m 0 qn\nQM2 out m 0 qn\nRL vcc out 4.7k\n.end');
+function cellAndMirror(more = '') {
+  const text = BJT_CELL('').replace('.end', `RREF vcc m 10k\nQM1 m m 0 qn\nQM2 out m 0 qn\nRL vcc out 4.7k\n${more}.end`);
   const uri = 'mem://cell.cir';
   const circuit = elaborate(parse(uri, text, { hasTitle: true }), new MemoryWorkspace({ [uri]: text })).circuit;
   return { topo: topologyOf(circuit), structures: recogniseStructures(circuit) };
@@ -24,6 +24,21 @@ describe('feed loops', () => {
   it('finds the cell and its closing mirror as one loop, the resistor-fed mirror in none (the cell as its start-up tests read it)', () => {
     const { topo, structures } = cellAndMirror();
     expect(structures.map((s) => s.id).sort()).toEqual(['ptat-cell:Q1', 'simple-mirror:QM1', 'simple-mirror:QP1']);
+    expect(ids(feedLoops(topo, structures))).toEqual([['ptat-cell:Q1', 'simple-mirror:QP1']]);
+  });
+
+  it('finds only the cell among twenty chains of two mirrors where the first feeds the second and nothing feeds back', () => {
+    // Worked out by hand: in chain k the NPN mirror QAk1/QAk2 (fed by RAk) sinks the PNP mirror QBk1/QBk2's
+    // reference current, so the PNP mirror is driven by another structure, but no drive leads back to the NPN one.
+    let chains = '';
+    for (let k = 0; k < 20; k++) {
+      chains += `RA${k} vcc a${k} 10k\nQA${k}1 a${k} a${k} 0 qn\nQA${k}2 b${k} a${k} 0 qn\nQB${k}1 b${k} b${k} vcc qp\nQB${k}2 o${k} b${k} vcc qp\nRO${k} o${k} 0 4.7k\n`;
+    }
+    const { topo, structures } = cellAndMirror(chains);
+    // Driven by another structure: each chain's PNP mirror, and the cell's closing mirror QP1.
+    const driven = structures.filter((s) => s.reference.feed === 'mirror-output').map((s) => s.id);
+    expect(driven.filter((id) => id.startsWith('simple-mirror:QB'))).toHaveLength(20);
+    expect(driven).toContain('simple-mirror:QP1');
     expect(ids(feedLoops(topo, structures))).toEqual([['ptat-cell:Q1', 'simple-mirror:QP1']]);
   });
 
