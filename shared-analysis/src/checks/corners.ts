@@ -8,7 +8,7 @@ import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
 import { FigureSink, plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
-import { findRails } from '../structures/rails';
+import { railsByIndex } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
 import { setCornerColumns, summariseOutputs, type CornerAxis, type CornerColumns, type OutputCornerSummary } from '../structures/corner-columns';
@@ -163,7 +163,8 @@ const clock: () => number = (() => {
 /** The independent voltage sources that set the supply rails (every V source on a rail path with a non-zero value). */
 export function supplySources(circuit: Circuit): string[] {
   const names = new Set<string>();
-  for (const rail of findRails(circuit)) for (const s of rail.sources) names.add(s);
+  // The rails the checks found for this circuit (kept per circuit), not a walk of every element again.
+  for (const rail of railsByIndex(circuit).values()) for (const s of rail.sources) names.add(s);
   const out: string[] = [];
   for (const e of circuit.elements) if (e.kind === 'V' && names.has(e.name) && e.dc !== 0 && Number.isFinite(e.dc)) out.push(e.name);
   return out;
