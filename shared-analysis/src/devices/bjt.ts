@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
-import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, thermalVoltage, unbounded } from './physics';
+import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, sameNumber, thermalVoltage, unbounded } from './physics';
 
 /**
  * Region by intrinsic junction bias in the device's own polarity (docs/DEVICE-MODELS.md):
@@ -605,7 +605,7 @@ export class BjtTable implements DeviceTable {
     for (let i = 0; i < this.n; i++) {
       const o = i * PARAMS;
       const isNom = this.isNom[i];
-      const isChanged = !(Object.is(isNom, lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg);
+      const isChanged = !(sameNumber(isNom, lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg);
       if (isChanged) {
         is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
         lastIs = isNom;
@@ -670,7 +670,7 @@ export class BjtTable implements DeviceTable {
         this.startVbc[i] = 0;
         continue;
       }
-      if (!(Object.is(this.isNom[i], lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg)) {
+      if (!(sameNumber(this.isNom[i], lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg)) {
         is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
         lastIs = this.isNom[i];
         lastXti = this.xti[i];
