@@ -4,11 +4,11 @@ import { AbstractMessageWriter, type Message, type MessageWriter } from 'vscode-
 
 /**
  * An LSP base-protocol writer (a `Content-Length` header, an empty line, the message as UTF-8 JSON) that hands each
- * frame to the stream in one `write` inside `write` itself. The library's stream writer queues every message behind
+ * frame to the stream inside `write` itself. The library's stream writer queues every message behind
  * a `setImmediate` and writes the body only once the header's write has called back: two or more turns of the
  * event loop, and while a large result is taken in each turn may run a slice of that work (about 4 ms) before the
- * answer goes out. One write per frame keeps frames whole and in order without a queue: the stream buffers what the
- * pipe does not take yet.
+ * answer goes out. Writing within the call keeps frames whole and in order without a queue: the stream buffers what
+ * the pipe does not take yet.
  */
 export class ImmediateStreamWriter extends AbstractMessageWriter implements MessageWriter {
   private errorCount = 0;
@@ -21,7 +21,11 @@ export class ImmediateStreamWriter extends AbstractMessageWriter implements Mess
 
   write(msg: Message): Promise<void> {
     try {
-      this.stream.write(frameOf(msg));
+      // Header and body in two writes of one call: nothing can come between them, and the body is not copied into a
+      // buffer with the header (a document's outline or diagnostics can be megabytes).
+      const body = JSON.stringify(msg);
+      this.stream.write(`Content-Length: ${Buffer.byteLength(body, 'utf8')}\r\n\r\n`, 'ascii');
+      this.stream.write(body, 'utf8');
       this.errorCount = 0;
       return Promise.resolve();
     } catch (e) {
@@ -34,11 +38,4 @@ export class ImmediateStreamWriter extends AbstractMessageWriter implements Mess
   end(): void {
     this.stream.end();
   }
-}
-
-/** The bytes of one message's frame: header and body in one buffer. */
-export function frameOf(msg: Message): Buffer {
-  const body = Buffer.from(JSON.stringify(msg), 'utf8');
-  const header = Buffer.from(`Content-Length: ${body.byteLength}\r\n\r\n`, 'ascii');
-  return Buffer.concat([header, body], header.byteLength + body.byteLength);
 }
