@@ -92,6 +92,7 @@ import { attachVariationSteps } from '../../shared-analysis/src/variation/index'
 import type { VariationResult } from '../../shared-analysis/src/variation/types';
 import { SpreadReceiver } from './spread-transfer';
 import { setCornerColumns } from '../../shared-analysis/src/structures/corner-columns';
+import { summariseVoltageCorners } from '../../shared-analysis/src/structures/voltages';
 import { fillStartupCorners } from '../../shared-analysis/src/checks/startup';
 
 /** Analyses running longer than this get a progress report. */
@@ -557,7 +558,11 @@ function* cornerResultSteps(analysis: Analysis, r: CornerOutcome['result'], vari
   const structures = analysis.structures;
   for (let k = 0; k < structures.length; k++) {
     const c = r.corners[structures[k]!.id];
-    if (c) setCornerColumns(structures[k]!, c);
+    if (c) {
+      setCornerColumns(structures[k]!, c);
+      // The derived voltages' corner range and drift, which the worker's phase worked out on its own copy, as the one pass does.
+      summariseVoltageCorners(structures[k]!);
+    }
     if (k % CORNER_COLUMNS_STEP === CORNER_COLUMNS_STEP - 1) yield;
   }
   // The self-biased loops' start-up records take the state each corner's solve chose from those corners, as the one pass does.

@@ -133,6 +133,27 @@ describe('the corner phase of a result taken in', () => {
   }, TIMEOUT_MS);
 });
 
+describe('the server hovering a structure once its corners are in', () => {
+  it('shows a derived voltage with its range across the corners and its drift, as the one pass does', async () => {
+    // An invented NPN mirror beside a VBE multiplier (RA over RB on QM's base): VCE = VBE·(1 + RA/RB), about 2.3 V.
+    const text = 'voltage corners\nVCC vcc 0 5\nR1 vcc r 4.3k\nQ1 r r 0 QN\nQ2 o r 0 QN\nRL vcc o 2k\nRM vcc c 2k\nRA c b 2.2k\nRB b 0 1k\nQM c b 0 QN\n.model QN NPN (IS=1e-15 BF=100 VAF=80)\n.end\n';
+    const server = await startServer({ settings: { analysisDelayMs: 0 } });
+    try {
+      server.open(URI, text, 1);
+      await server.waitFor('the corner phase', () => server.logs.some((l) => l.includes('Solved the corners of')) && (server.publishCount.get(URI) ?? 0) >= 2, TIMEOUT_MS);
+      // The independent computation: the engine's one pass in this thread, corners on.
+      const onePass = analyse({ uri: URI, text, version: 1 }, new MemoryWorkspace({ [URI]: text }), {});
+      const offset = text.indexOf('QM c b') + 1;
+      const want = hoverAt(onePass, URI, offset)!.markdown;
+      expect(want).toMatch(/ V to .* V across the corners; drift .* from the cold and hot corners/);
+      const h = await server.connection.sendRequest(HoverRequest.type, { textDocument: { uri: URI }, position: { line: text.slice(0, offset).split('\n').length - 1, character: 1 } });
+      expect(((h?.contents ?? { value: '' }) as MarkupContent).value).toBe(want);
+    } finally {
+      await server.stop();
+    }
+  }, TIMEOUT_MS);
+});
+
 describe('the server publishing corner findings solved ahead', () => {
   it('publishes for each version only findings of that version, and at the end every finding of one pass', async () => {
     const server = await startServer({ settings: { analysisDelayMs: 0 } });
