@@ -34,7 +34,7 @@ import type { Finding, Fix } from '../../shared-analysis/src/types';
 import { completionListAt } from '../../shared-analysis/src/features/completion';
 import { WorkBudget } from '../../shared-analysis/src/features/budget';
 import { cardAt, elementsOfCard, indexOf } from '../../shared-analysis/src/features/document-index';
-import { hoverAt, prepareHover } from '../../shared-analysis/src/features/hover';
+import { hoverAt, prepareHoverSteps } from '../../shared-analysis/src/features/hover';
 import { inlayHints } from '../../shared-analysis/src/features/inlay';
 import { definitionAt, prepareRename, referencesAt, renameAt } from '../../shared-analysis/src/features/navigation';
 import { documentSymbols } from '../../shared-analysis/src/features/symbols';
@@ -599,7 +599,9 @@ function accept(uri: string, analysis: Analysis, ms: number, early?: Set<string>
   setImmediate(() => {
     if (cache.get(uri)?.analysis === analysis) {
       indexOf(analysis);
-      prepareHover(analysis);
+      // Over slices: the hover's table of structures by device was one task of 10–30 ms on the 20k array at load 7.
+      // A failure here is met again, and reported, by the hover that builds the table itself.
+      inSlices(prepareHoverSteps(analysis)).catch(() => undefined);
     }
     // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
     if (replacedElements >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the previous analysis of ${basename(uri)}`);

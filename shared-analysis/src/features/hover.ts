@@ -483,29 +483,26 @@ function describeElement(el: Element): string {
 
 /** Structures a device (hierarchical name) belongs to. */
 export function structuresOf(analysis: Analysis, device: string): Structure[] {
-  let byDevice = structuresByDevice.get(analysis.structures);
-  if (!byDevice) {
-    // Built once per analysis: a hover asks for one device among thousands of structures.
-    byDevice = new Map();
-    for (const s of analysis.structures) {
-      const seen = new Set<string>();
-      for (const d of s.devices) {
-        const lower = d.toLowerCase();
-        if (seen.has(lower)) continue;
-        seen.add(lower);
-        const list = byDevice.get(lower);
-        if (list) list.push(s);
-        else byDevice.set(lower, [s]);
-      }
-    }
-    structuresByDevice.set(analysis.structures, byDevice);
-  }
-  return [...(byDevice.get(device.toLowerCase()) ?? [])];
+  return [...(deviceTable(analysis.structures).get(device.toLowerCase()) ?? [])];
 }
 
-/** Builds the tables hovers read (structures by device, targets) now, so the first hover after an analysis lands does not. */
+/**
+ * The tables hovers read (structures by device, targets), built now so the first hover after an analysis lands does
+ * not build them.
+ */
 export function prepareHover(analysis: Analysis): void {
-  structuresOf(analysis, '');
+  for (const _ of prepareHoverSteps(analysis));
+}
+
+/**
+ * `prepareHover` in steps of a few hundred structures, for a host that gives requests a turn between them (the 20k
+ * array's 5,000 structures took 10–30 ms in one task at load 7); a hover asked meanwhile finishes the table itself.
+ */
+export function* prepareHoverSteps(analysis: Analysis): Generator<void, void, undefined> {
+  for (let k = TABLE_STEP; k < analysis.structures.length + TABLE_STEP; k += TABLE_STEP) {
+    deviceTable(analysis.structures, k);
+    yield;
+  }
   try {
     targetsOf(analysis);
   } catch {
@@ -513,8 +510,31 @@ export function prepareHover(analysis: Analysis): void {
   }
 }
 
-/** The structures of an analysis by lower-case device name (in the analysis's order). */
-const structuresByDevice = new WeakMap<Structure[], Map<string, Structure[]>>();
+/** Structures put in the device table between two yields of `prepareHoverSteps`. */
+const TABLE_STEP = 500;
+
+/** The structures of an analysis by lower-case device name (in the analysis's order), and how many are in so far. */
+const structuresByDevice = new WeakMap<Structure[], { byDevice: Map<string, Structure[]>; done: number }>();
+
+/** The device table of a structure list with its first `until` structures in (all by default): built once per analysis, a hover asks for one device among thousands. */
+function deviceTable(structures: Structure[], until = structures.length): Map<string, Structure[]> {
+  let table = structuresByDevice.get(structures);
+  if (!table) structuresByDevice.set(structures, (table = { byDevice: new Map(), done: 0 }));
+  const { byDevice } = table;
+  for (const end = Math.min(until, structures.length); table.done < end; table.done++) {
+    const s = structures[table.done]!;
+    const seen = new Set<string>();
+    for (const d of s.devices) {
+      const lower = d.toLowerCase();
+      if (seen.has(lower)) continue;
+      seen.add(lower);
+      const list = byDevice.get(lower);
+      if (list) list.push(s);
+      else byDevice.set(lower, [s]);
+    }
+  }
+  return byDevice;
+}
 
 /** The `; expect` targets of an analysis's documents, read once per set of documents (a hover used to read every card's comment each time). */
 const targetsByDocuments = new WeakMap<Analysis['documents'], Target[]>();

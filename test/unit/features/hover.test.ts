@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
-import { hoverAt, splitSource } from '../../../shared-analysis/src/features/hover';
+import { hoverAt, prepareHoverSteps, splitSource, structuresOf } from '../../../shared-analysis/src/features/hover';
 import { analyseText, quantityAfter, relErr, withCursor } from './fixture';
 
 interface HoverExpectation {
@@ -302,5 +302,25 @@ describe('sources of the hand steps, listed last', () => {
     });
     expect(splitSource('m·IREF × (1 + (VCE2 − VBE)/VA)')).toEqual({ formula: 'm·IREF × (1 + (VCE2 − VBE)/VA)' });
     expect(splitSource('(V+ − V− − 0.7 V)/R (common practice)').source).toBe('common practice');
+  });
+});
+
+describe("the hover's table of structures by device", () => {
+  it('built in steps, with hovers asked between them, gives what a scan of every structure gives', () => {
+    // Invented NPN sinks, 1,200 cells (more structures than one step takes), names of mixed case.
+    const lines = ['steps', 'VCC vcc 0 DC 5', '.model QN NPN (IS=1e-15 BF=120 VAF=80)'];
+    for (let i = 0; i < 1200; i++) lines.push(`RR${i} vcc r${i} ${10 + (i % 7)}k`, `QR${i} r${i} r${i} 0 QN`, `qo${i} o${i} r${i} 0 QN`, `RL${i} vcc o${i} 1k`);
+    lines.push('.end', '');
+    const text = lines.join('\n');
+    const a = analyse({ uri: '/s.cir', text }, new MemoryWorkspace({ '/s.cir': text }), { corners: { enabled: false } });
+    expect(a.structures.length).toBe(1200);
+    // The plain path: every structure whose devices name the device, whatever the case.
+    const scan = (device: string) => a.structures.filter((s) => s.devices.some((d) => d.toLowerCase() === device.toLowerCase()));
+    const steps = prepareHoverSteps(a);
+    steps.next();
+    // Asked after one step: the hover finishes the table, and the steps left add nothing twice.
+    expect(structuresOf(a, 'QO1100')).toEqual(scan('QO1100'));
+    for (const _ of steps);
+    for (const device of ['QR0', 'qo0', 'QO499', 'qr500', 'QR1199', 'RR7', 'nothing']) expect(structuresOf(a, device), device).toEqual(scan(device));
   });
 });
