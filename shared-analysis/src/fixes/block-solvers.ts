@@ -156,6 +156,10 @@ class RenamedVectors implements PointVectors {
     return this.v.quantity(e, q);
   }
 
+  quantityOrZero(e: number, q: number): number {
+    return this.v.quantityOrZero(e, q);
+  }
+
   region(e: number): string | undefined {
     return this.v.region(e);
   }

@@ -27,6 +27,8 @@ export interface PointVectors {
    * resolved its names once); undefined for an element without a device record or a position past its kind's.
    */
   quantity(e: number, q: number): number | undefined;
+  /** `quantity(e, q)` as a finite number: 0 where it is undefined, a value past ±1e300 at that limit. */
+  quantityOrZero(e: number, q: number): number;
   /** The region name of a nonlinear device's record, undefined for other elements. */
   region(e: number): string | undefined;
   /**

@@ -23,9 +23,12 @@ export interface Clamped {
   elements: Set<number>;
 }
 
+/** RECORD_LIMIT held in a typed array, so the clamp's branches all give the compiler a double (see `unbounded` in devices/physics.ts). */
+const LIMIT_CELL = Float64Array.of(RECORD_LIMIT);
+
 /** `val` within ±RECORD_LIMIT, NaN as 0, without saying so. */
 export function quietClamp(val: number): number {
-  return inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? RECORD_LIMIT : -RECORD_LIMIT;
+  return inRange(val) ? val : Number.isNaN(val) ? 0 : val > 0 ? LIMIT_CELL[0] : -LIMIT_CELL[0];
 }
 
 /** The record type of a two-terminal element (one read through `readers`, not a device kind's). */
@@ -154,6 +157,16 @@ export class SolvedVectors implements PointVectors {
     const d = -k - 2;
     const column = this.values.columns[this.deviceOrder.table[d]].values[q];
     return column === undefined ? undefined : quietClamp(column[this.deviceOrder.instance[d]]);
+  }
+
+  /** `quantity(e, q)` as a finite number, 0 where it is undefined (NaN clamps to 0, beyond ±RECORD_LIMIT to it). */
+  quantityOrZero(e: number, q: number): number {
+    const k = this.slotOf(e);
+    if (k > -2) return 0;
+    const d = -k - 2;
+    const column = this.values.columns[this.deviceOrder.table[d]].values[q];
+    if (column === undefined) return 0;
+    return quietClamp(column[this.deviceOrder.instance[d]]);
   }
 
   type(e: number): DeviceRecord['type'] | undefined {

@@ -284,9 +284,9 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
     const type = p.type(e);
     if (flags & DEV_BIPOLAR) {
       if (type !== 'bjt') continue;
-      if (flags & DEV_OUT) iref += finite(p.quantity(e, BJT_IC));
-      if (flags & DEV_CTRL) iref += finite(p.quantity(e, BJT_IB));
-      if (flags & DEV_COMMON) iref += finite(p.quantity(e, BJT_IE));
+      if (flags & DEV_OUT) iref += p.quantityOrZero(e, BJT_IC);
+      if (flags & DEV_CTRL) iref += p.quantityOrZero(e, BJT_IB);
+      if (flags & DEV_COMMON) iref += p.quantityOrZero(e, BJT_IE);
     } else {
       if (type !== plans.devRecord[d]) continue;
       const jfet = type === 'jfet';
@@ -316,14 +316,14 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
       continue;
     }
     const e = plans.outE[o];
-    const vOut = finite(p.volts(plans.outNodes[3 * o]));
-    const vCtrl = finite(p.volts(plans.outNodes[3 * o + 1]));
-    const vCommon = finite(p.volts(plans.outNodes[3 * o + 2]));
+    const vOut = p.voltsOrZero(plans.outNodes[3 * o]);
+    const vCtrl = p.voltsOrZero(plans.outNodes[3 * o + 1]);
+    const vCommon = p.voltsOrZero(plans.outNodes[3 * o + 2]);
     const type = p.type(e);
     const sign = polaritySign(t.tech);
     if (isBipolar(t.tech)) {
       const r = type === 'bjt';
-      const current = Math.abs(finite(r ? p.quantity(e, BJT_IC) : undefined));
+      const current = Math.abs(r ? p.quantityOrZero(e, BJT_IC) : 0);
       const headroom = sign * (vOut - vCtrl);
       const vbe = sign * (vCtrl - vCommon);
       const active = r ? p.region(e) === 'forward-active' : vbe > 0 && headroom >= 0;
@@ -361,6 +361,10 @@ export interface PointIndexReader {
   num(e: number, quantity: string): number | undefined;
   /** Quantity `q` of a device record by its position in its kind's `quantities` (as `PointVectors.quantity`). */
   quantity(e: number, q: number): number | undefined;
+  /** `volts(node)` as a finite number: 0 where it is undefined or not finite. */
+  voltsOrZero(node: number): number;
+  /** `quantity(e, q)` as a finite number: 0 where it is undefined or not finite. */
+  quantityOrZero(e: number, q: number): number;
   region(e: number): string | undefined;
 }
 
@@ -379,15 +383,19 @@ export function readerOf(op: OperatingPoint, topo: Topology): PointIndexReader {
     const val = (rec(e) as unknown as Record<string, unknown> | undefined)?.[q];
     return typeof val === 'number' ? val : undefined;
   };
+  const volts = (node: number): number | undefined => op.nodes[topo.nodeName(node)];
+  const quantity = (e: number, q: number): number | undefined => {
+    const type = rec(e)?.type;
+    const name = type ? KIND_OF_RECORD[type]?.quantities[q] : undefined;
+    return name === undefined ? undefined : num(e, name);
+  };
   return {
-    volts: (node) => op.nodes[topo.nodeName(node)],
+    volts,
+    voltsOrZero: (node) => finite(volts(node)),
+    quantityOrZero: (e, q) => finite(quantity(e, q)),
     type: (e) => rec(e)?.type,
     num,
-    quantity: (e, q) => {
-      const type = rec(e)?.type;
-      const name = type ? KIND_OF_RECORD[type]?.quantities[q] : undefined;
-      return name === undefined ? undefined : num(e, name);
-    },
+    quantity,
     region: (e) => {
       const r = rec(e);
       return r && 'region' in r ? r.region : undefined;
@@ -416,6 +424,15 @@ class VectorReader implements PointIndexReader {
 
   quantity(e: number, q: number): number | undefined {
     return this.vec.quantity(e, q);
+  }
+
+  voltsOrZero(node: number): number {
+    const v = node >= 0 ? this.vec.volts[node] : 0;
+    return Number.isFinite(v) ? v : 0;
+  }
+
+  quantityOrZero(e: number, q: number): number {
+    return this.vec.quantityOrZero(e, q);
   }
 
   region(e: number): string | undefined {

@@ -178,6 +178,21 @@ describe('operating point vectors', () => {
     c.nodes.forEach((_, i) => expect(byIndex.volts(i)).toBe(byName.volts(i)));
   });
 
+  it('read a figure as a finite number (0 where there is none) as the plain readers do, by index and from a copy read by name', () => {
+    const { c, op } = solved();
+    const copy = JSON.parse(JSON.stringify(op)) as OperatingPoint;
+    const finiteOrZero = (v: number | undefined): number => (v !== undefined && Number.isFinite(v) ? v : 0);
+    for (const point of [op, copy]) {
+      const reader = readerOf(point, topologyOf(c));
+      // Every element with every quantity position of the widest kind and one past it, and every node and one past them.
+      const positions = 1 + ['Q', 'M', 'D'].reduce((most, k) => Math.max(most, deviceKindOf(k)!.quantities.length), 0);
+      c.elements.forEach((_, e) => {
+        for (let q = 0; q < positions; q++) expect(reader.quantityOrZero(e, q)).toBe(finiteOrZero(reader.quantity(e, q)));
+      });
+      for (let i = -1; i <= c.nodes.length; i++) expect(reader.voltsOrZero(i)).toBe(finiteOrZero(reader.volts(i)));
+    }
+  });
+
   it('are the same when a solve writes them into the vectors of the last such solve, and leave no trace of it', () => {
     // A device with no Early voltage whose beta takes it from forward-active (ro unbounded, flagged)
     // into saturation (no flag) between two solves: 4.3 V over 100 kΩ drives the base, so
