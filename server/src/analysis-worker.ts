@@ -133,8 +133,9 @@ function handle(msg: ToWorker): void {
     case 'set-document':
       workspace.setOpen(msg.uri, msg.text);
       if (msg.text === undefined) {
-        // A closed big netlist's analysis is garbage once dropped below: its pages go back now, not at the next large analysis.
-        if ((lastAnalysis.get(msg.uri)?.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) setImmediate(collectAndReleaseGarbage);
+        // A closed big netlist's analysis is left to V8 here, not collected at once: a full collection then gave up the
+        // compiled code the next netlist's edits run on, and a 2,000-element netlist edited after a closed 20,000-element
+        // one took twice the engine time per edit (docs/PERFORMANCE.md, "At the end of the late-evening session").
         openTexts.delete(msg.uri);
         lastAnalysis.delete(msg.uri);
         sentAnalyses.delete(msg.uri);
