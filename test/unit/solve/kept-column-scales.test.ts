@@ -100,15 +100,20 @@ function expectSame(kept: DcSolveResult[], plain: DcSolveResult[]): void {
 
 const npn = model('QN', 'npn', { IS: 1e-16, BF: 100, VAF: 60 });
 
+/** A two-transistor NPN mirror fed from 5 V through 4.3 kΩ, with a 2 kΩ load (a fresh circuit per call). */
+function mirror(): ReturnType<typeof circuit> {
+  return circuit([
+    ['V', 'VCC', 'vcc', '0', 5],
+    ['R', 'RR', 'vcc', 'r', 4.3e3],
+    ['Q', 'QR', 'r', 'r', '0', npn],
+    ['Q', 'QO', 'o', 'r', '0', npn],
+    ['R', 'RL', 'vcc', 'o', 2e3],
+  ]);
+}
+
 describe('Newton with kept column scales against the plain path', () => {
   it('a cold-started mirror and its corners, whose junction conductances move by ten decades', () => {
-    const c = circuit([
-      ['V', 'VCC', 'vcc', '0', 5],
-      ['R', 'RR', 'vcc', 'r', 4.3e3],
-      ['Q', 'QR', 'r', 'r', '0', npn],
-      ['Q', 'QO', 'o', 'r', '0', npn],
-      ['R', 'RL', 'vcc', 'o', 2e3],
-    ]);
+    const c = mirror();
     const [kept, plain] = bothPaths(c, [{}, { temperatureC: 125, betaScale: 2 }, { temperatureC: -40, betaScale: 0.5, sourceValues: { VCC: 4.75 } }]);
     expect(kept[0].stats.iterations).toBeGreaterThan(3);
     expectSame(kept, plain);
@@ -174,13 +179,7 @@ describe('Newton with kept column scales against the plain path', () => {
 describe('a factorisation that fails under kept column scales', () => {
   /** A mirror solved cold with Newton alone, its factorisations failing from the `from`-th on; the engine's scales afterwards. */
   function failingFrom(from: number, keep: boolean): { columnScales: Float64Array; scaled: Float64Array; result: DcSolveResult } {
-    const c = circuit([
-      ['V', 'VCC', 'vcc', '0', 5],
-      ['R', 'RR', 'vcc', 'r', 4.3e3],
-      ['Q', 'QR', 'r', 'r', '0', npn],
-      ['Q', 'QO', 'o', 'r', '0', npn],
-      ['R', 'RL', 'vcc', 'o', 2e3],
-    ]);
+    const c = mirror();
     const solver = new DcSolver(c);
     const engine = (solver as unknown as { engine: { keepColumnScales: boolean; solver: SparseLU; lastColumnScales: Float64Array; lastScaledValues: Float64Array } }).engine;
     engine.keepColumnScales = keep;
