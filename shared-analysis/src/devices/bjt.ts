@@ -648,36 +648,61 @@ export class BjtTable implements DeviceTable {
   }
 
   resetState(x: Float64Array, start?: StartHint): void {
+    // A loop per kind of start, each with one path through it: V8 compiles a long loop while it runs for the
+    // first time (the cold start), and a branch that had not run by then gave up that code at the first warm start.
+    this.recordBias(x);
+    if (!start) return;
+    if (start.kind === 'cold') this.coldStart();
+    else this.temperatureStart(start.temperatureC, start.vt);
+  }
+
+  /** Every instance's intrinsic bias at x as its limiting history, and no start pending. */
+  private recordBias(x: Float64Array): void {
     const v = this.scratch;
+    const { vbeOld, vbcOld, startVbe, startVbc } = this;
+    for (let i = 0; i < this.n; i++) {
+      this.intrinsic(x, i, v);
+      vbeOld[i] = v[0];
+      vbcOld[i] = v[1];
+      startVbe[i] = Number.NaN;
+      startVbc[i] = Number.NaN;
+    }
+  }
+
+  /** The cold start of every instance with a saturation current: forward-active, base-emitter at its critical voltage, base-collector unbiased. */
+  private coldStart(): void {
+    const { par, startVbe, startVbc, vcritBe } = this;
+    for (let i = 0; i < this.n; i++) {
+      if (!(par[i * PARAMS + P_IS] > 0)) continue;
+      startVbe[i] = Math.min(vcritBe[i], 1);
+      startVbc[i] = 0;
+    }
+  }
+
+  /**
+   * The start of every instance with a saturation current from a point solved at `temperatureC` (thermal voltage
+   * `startVt`): each forward junction moved to the voltage that carries the same current at this solve's temperature.
+   */
+  private temperatureStart(temperatureC: number, startVt: number): void {
+    const { par, startVbe, startVbc, vbeOld, vbcOld, isNom, xti, eg, nf, nr } = this;
     // IS at the guess's temperature, worked out again only when the nominal values change (as in `prepare`).
     let lastIs = NaN;
     let lastXti = NaN;
     let lastEg = NaN;
     let is0 = 0;
     for (let i = 0; i < this.n; i++) {
-      this.intrinsic(x, i, v);
-      const vbe = v[0];
-      const vbc = v[1];
-      this.vbeOld[i] = vbe;
-      this.vbcOld[i] = vbc;
-      this.startVbe[i] = Number.NaN;
-      this.startVbc[i] = Number.NaN;
-      const is = this.par[i * PARAMS + P_IS];
-      if (!start || !(is > 0)) continue;
-      if (start.kind === 'cold') {
-        // Forward-active: base-emitter at its critical voltage, base-collector unbiased.
-        this.startVbe[i] = Math.min(this.vcritBe[i], 1);
-        this.startVbc[i] = 0;
-        continue;
+      const is = par[i * PARAMS + P_IS];
+      if (!(is > 0)) continue;
+      if (!(sameNumber(isNom[i], lastIs) && xti[i] === lastXti && eg[i] === lastEg)) {
+        is0 = saturationCurrentAt(isNom[i], xti[i], eg[i], temperatureC, this.tnomC);
+        lastIs = isNom[i];
+        lastXti = xti[i];
+        lastEg = eg[i];
       }
-      if (!(sameNumber(this.isNom[i], lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg)) {
-        is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
-        lastIs = this.isNom[i];
-        lastXti = this.xti[i];
-        lastEg = this.eg[i];
-      }
-      this.startVbe[i] = vbe > 0 ? shiftJunction(vbe, this.nf[i] * start.vt, this.nf[i] * this.vt, is0, is) : vbe;
-      this.startVbc[i] = vbc > 0 ? shiftJunction(vbc, this.nr[i] * start.vt, this.nr[i] * this.vt, is0, is) : vbc;
+      const vbe = vbeOld[i];
+      const vbc = vbcOld[i];
+      startVbe[i] = vbe > 0 ? shiftJunction(vbe, nf[i] * startVt, nf[i] * this.vt, is0, is) : vbe;
+      startVbc[i] = vbc > 0 ? shiftJunction(vbc, nr[i] * startVt, nr[i] * this.vt, is0, is) : vbc;
     }
   }
 
@@ -685,32 +710,34 @@ export class BjtTable implements DeviceTable {
     const t = this.instances.terminals;
     const ev = this.scratch;
     const vt = this.vt;
+    // The columns in locals: `bjtCore` and `stamp` are not inlined, so a field read after them would be read
+    // again from the object for every instance.
+    const { sign, startVbe, startVbc, vbeOld, vbcOld, nf, nr, vcritBe, vcritBc, par } = this;
     for (let i = 0; i < this.n; i++) {
       const tc = t[i * T + CI];
       const tb = t[i * T + BI];
       const te = t[i * T + EI];
       const vb = voltage(x, tb);
-      const s = this.sign[i];
-      let vbe = s * (vb - voltage(x, te));
-      let vbc = s * (vb - voltage(x, tc));
-      if (Number.isFinite(this.startVbe[i])) {
-        // A pending start point replaces this iteration's bias.
-        vbe = this.startVbe[i];
-        vbc = this.startVbc[i];
-        this.startVbe[i] = Number.NaN;
-        tally.limited = true;
-      } else if (limit) {
-        const a = limitJunctionValue(vbe, this.vbeOld[i], this.nf[i] * vt, this.vcritBe[i]);
-        const b = limitJunctionValue(vbc, this.vbcOld[i], this.nr[i] * vt, this.vcritBc[i]);
-        if (a !== vbe || b !== vbc) tally.limited = true;
-        vbe = a;
-        vbc = b;
-      }
-      this.vbeOld[i] = vbe;
-      this.vbcOld[i] = vbc;
-      ev[IN_VBE] = vbe;
-      ev[IN_VBC] = vbc;
-      bjtCore(this.par, i * PARAMS, ev);
+      const s = sign[i];
+      const vbe = s * (vb - voltage(x, te));
+      const vbc = s * (vb - voltage(x, tc));
+      // The limited bias is worked out even where a pending start point replaces it (limiting is a pure function),
+      // and the start's slots are read and cleared for every instance: the first load, where every instance
+      // starts, then runs each operation the later ones run, and the code V8 compiles while it runs stays valid.
+      const a = limit ? limitJunctionValue(vbe, vbeOld[i], nf[i] * vt, vcritBe[i]) : vbe;
+      const b = limit ? limitJunctionValue(vbc, vbcOld[i], nr[i] * vt, vcritBc[i]) : vbc;
+      const startBe = startVbe[i];
+      const startBc = startVbc[i];
+      const started = Number.isFinite(startBe);
+      startVbe[i] = Number.NaN;
+      if (a !== vbe || b !== vbc || started) tally.limited = true;
+      const be = started ? startBe : a;
+      const bc = started ? startBc : b;
+      vbeOld[i] = be;
+      vbcOld[i] = bc;
+      ev[IN_VBE] = be;
+      ev[IN_VBC] = bc;
+      bjtCore(par, i * PARAMS, ev);
       const finite = this.stamp(i, values, rhs);
       if (!finite) tally.nonFinite.push(this.instances.elementIndex[i]);
     }
@@ -750,44 +777,49 @@ export class BjtTable implements DeviceTable {
 
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
     const out = columnsFor(into, QUANTITIES.length, this.n);
+    // Every column, the parameter rows and the terminals in locals: bjtCore is not inlined, so a field read
+    // after it in the loop would be read again from the object for every instance.
     const v = out.values;
+    const [icCol, ibCol, ieCol, vbeCol, vbcCol, vceCol, gmCol, rpiCol, roCol, betaCol, gmuCol] = [v[Q_IC], v[Q_IB], v[Q_IE], v[Q_VBE], v[Q_VBC], v[Q_VCE], v[Q_GM], v[Q_RPI], v[Q_RO], v[Q_BETA], v[Q_GMU]];
+    const { region: regionCol, flags } = out;
     const t = this.instances.terminals;
-    const ev = this.scratch;
+    const { sign, vaf: vafCol, par, scratch: ev } = this;
     for (let i = 0; i < this.n; i++) {
-      const s = this.sign[i];
+      const s = sign[i];
       const vbI = voltage(x, t[i * T + BI]);
       const vbe = s * (vbI - voltage(x, t[i * T + EI]));
       const vbc = s * (vbI - voltage(x, t[i * T + CI]));
       ev[IN_VBE] = vbe;
       ev[IN_VBC] = vbc;
-      bjtCore(this.par, i * PARAMS, ev);
+      bjtCore(par, i * PARAMS, ev);
       const ic = s * ev[IC];
       const ib = s * ev[IB];
-      const vaf = this.vaf[i];
+      const vaf = vafCol[i];
       // Terminal voltages as measured at the netlist nodes (they include the drops across RB, RE, RC).
       const vb = voltage(x, t[i * T + B]);
       const vc = voltage(x, t[i * T + C]);
       const ve = voltage(x, t[i * T + E]);
-      v[Q_IC][i] = ic;
-      v[Q_IB][i] = ib;
-      v[Q_IE][i] = -(ic + ib);
-      v[Q_VBE][i] = vb - ve;
-      v[Q_VBC][i] = vb - vc;
-      v[Q_VCE][i] = vc - ve;
-      v[Q_GM][i] = ev[GM];
-      v[Q_RPI][i] = reciprocalOrUnbounded(ev[GPI]);
+      icCol[i] = ic;
+      ibCol[i] = ib;
+      ieCol[i] = -(ic + ib);
+      vbeCol[i] = vb - ve;
+      vbcCol[i] = vb - vc;
+      vceCol[i] = vc - ve;
+      gmCol[i] = ev[GM];
+      rpiCol[i] = reciprocalOrUnbounded(ev[GPI]);
       // Output resistance as the slope at the operating point with VBE held: ∂IC/∂VCE = −∂IC/∂VBC
       // (gmin, a solver aid, left out). That is (VAF − VBC)/IC in forward-active and the low
       // collector–emitter resistance of a saturated device, whatever the polarity.
       const region = regionCode(vbe, vbc);
-      const go = -(ev[DIC_DVBC] + this.par[i * PARAMS + P_GMIN]);
+      const gmin = par[i * PARAMS + P_GMIN];
+      const go = -(ev[DIC_DVBC] + gmin);
       const noEarly = !Number.isFinite(vaf) && region !== 1;
-      v[Q_RO][i] = noEarly || !(go > 1 / UNBOUNDED) ? unbounded() : Math.min(UNBOUNDED, 1 / go);
+      roCol[i] = noEarly || !(go > 1 / UNBOUNDED) ? unbounded() : Math.min(UNBOUNDED, 1 / go);
       const beta = ic / ib;
-      v[Q_BETA][i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : unbounded();
-      v[Q_GMU][i] = Math.max(ev[DIB_DVBC] - this.par[i * PARAMS + P_GMIN], 0);
-      out.region[i] = region;
-      if (noEarly) out.flags[i] = NO_EARLY;
+      betaCol[i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : unbounded();
+      gmuCol[i] = Math.max(ev[DIB_DVBC] - gmin, 0);
+      regionCol[i] = region;
+      if (noEarly) flags[i] = NO_EARLY;
     }
     return out;
   }
