@@ -53,7 +53,7 @@ export interface LoopCore {
 export function matchLoopCore(m: Matcher, d: Transistor): LoopCore | undefined {
   const a = d.ctrl;
   const e = d.common;
-  if (d.out !== a) return undefined;
+  if (d.out !== a || !m.hasOffsetOutput(d)) return undefined;
   for (const o of m.candidates(d.tech, (t) => t.ctrl === a && t.out !== a && t.common !== e, [d], m.onCtrl(a))) {
     const r = m.degeneration(o, e);
     if (!r) continue;

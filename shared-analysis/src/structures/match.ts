@@ -100,6 +100,22 @@ export class Matcher {
   }
 
 
+  /**
+   * Whether some unclaimed transistor of `d`'s technology besides `d` has its control terminal on `d`'s control node A,
+   * its output off A and its common terminal off `d`'s: the devices a degenerated (Widlar-type) output is drawn from.
+   * Asked before any list is made, so a kind that needs such an output turns down a seed without one at the cost of a
+   * short loop (most seeds of a large circuit are turned down by every kind but one).
+   */
+  hasOffsetOutput(d: Transistor): boolean {
+    const pool = this.onCtrl(d.ctrl);
+    if (!pool) return false;
+    for (let k = 0; k < pool.length; k++) {
+      const t = pool[k];
+      if (t !== d && t.tech === d.tech && t.out !== d.ctrl && t.common !== d.common && !this.isClaimed(t)) return true;
+    }
+    return false;
+  }
+
   /** Transistors whose control terminal is on `node` (claimed ones included). */
   onCtrl(node: number): Transistor[] | undefined {
     return this.topo.byCtrl.get(node);
@@ -169,3 +185,4 @@ const NAME_ORDER = new Intl.Collator('en', { numeric: true, sensitivity: 'base' 
 export function compareNames(a: string, b: string): number {
   return NAME_ORDER.compare(a, b);
 }
+

@@ -23,6 +23,8 @@ import { nameTable } from '../../names';
  */
 function recognise(m: Matcher, d: Transistor): Draft | undefined {
   const b = d.ctrl;
+  // The device above the lower diode has its common terminal on B: nothing there, nothing to look for.
+  if (!m.onCommon(b)) return undefined;
   for (const n of m.lowerPartners(d)) {
     const c = n.out;
     const tops = m.candidates(d.tech, (t) => t.out === t.ctrl && t.common === b && t.ctrl !== c, [d, n], m.onCommon(b));

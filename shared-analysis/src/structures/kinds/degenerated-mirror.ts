@@ -25,7 +25,7 @@ import { nameTable } from '../../names';
 function recognise(m: Matcher, d: Transistor): Draft | undefined {
   const a = d.ctrl;
   const x1 = d.common;
-  if (x1 === a) return undefined;
+  if (x1 === a || !m.hasOffsetOutput(d)) return undefined;
   const twins = m.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === x1, [d], m.onCtrl(a));
   const own = new Set<Element>([d.element]);
   for (const t of twins) own.add(t.element);

@@ -20,6 +20,8 @@ import { analyseWilson, wilsonRo } from './wilson-mirror';
  */
 function recognise(m: Matcher, d: Transistor): Draft | undefined {
   const b = d.ctrl;
+  // The device above the lower diode has its common terminal on B: nothing there, nothing to look for.
+  if (!m.onCommon(b)) return undefined;
   for (const n of m.lowerPartners(d)) {
     const c = n.out;
     for (const o of m.candidates(d.tech, (t) => t.common === b && t.out !== t.ctrl, [d, n], m.onCommon(b))) {

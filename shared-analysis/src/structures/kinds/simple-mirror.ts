@@ -21,6 +21,8 @@ import { nameTable } from '../../names';
  * ```
  */
 export function recogniseDiodeMirror(m: Matcher, d: Transistor, kind: 'simple-mirror' | 'widlar-source'): Draft | undefined {
+  // Every Widlar output has its emitter off the reference's: without a device that could be one, no list is made.
+  if (kind === 'widlar-source' && !m.hasOffsetOutput(d)) return undefined;
   const { twins, outputs, devices } = m.diodeOutputs(d);
   if (outputs.length === 0) return undefined;
   const allDegenerated = outputs.every((o) => o.degeneration);
