@@ -183,63 +183,26 @@ export class Hand {
     const t = this.topo.byName.get(name);
     if (!t) throw new Error(`structure device ${name} is not in the circuit`);
     const model = t.element.model;
-    const kind = technologyOfModel(model.kind) ?? 'npn';
-    const get = (k: string) => {
-      const v = model.params[k];
-      return Number.isFinite(v) || v === Infinity ? v : MODEL_DEFAULTS[kind][k] ?? 0;
-    };
+    const f = this.factorsOf(model, t.element.kind);
     let p: DeviceParams;
     if (t.element.kind === 'Q') {
-      const is = positiveOr(get('IS'), 1e-16);
-      const isT = isAtTemperature(is, this.at.temperatureC, this.circuit.tnomC, get('XTI'), get('EG'));
-      const va = get('VAF');
-      const beta = bipolarBeta(model, get, t.scale, isT, this.vt, this.at, this.circuit.tnomC, name);
+      const beta = bipolarBeta(model, f, t.scale, this.vt, this.at, name);
       p = {
         t,
         model,
-        isEff: isT * t.scale,
-        nfVt: positiveOr(get('NF'), 1) * this.vt,
+        isEff: f.perUnit * t.scale,
+        nfVt: f.nfVt,
         beta: beta.value,
         betaAtCurrent: beta.current,
-        va: va > 0 ? va : Infinity,
+        va: f.va,
         kBeta: 0,
         vto: 0,
         lambda: 0,
         gamma: 0,
         phi: 0.6,
       };
-    } else if (t.element.kind === 'J') {
-      // VTO keeps the device's own sense for both channel types (docs/DEVICE-MODELS.md): no sign flip.
-      const temp = jfetTemperature(get('VTO'), get('VTOTC'), get('BETATCE'), this.at.temperatureC, this.circuit.tnomC);
-      p = {
-        t,
-        model,
-        isEff: 0,
-        nfVt: this.vt,
-        beta: Infinity,
-        va: Infinity,
-        kBeta: 2 * positiveOr(get('BETA'), 1e-4) * temp.betaFactor * t.scale,
-        vto: temp.vto,
-        lambda: Math.max(get('LAMBDA'), 0),
-        gamma: 0,
-        phi: 0.6,
-      };
     } else {
-      const temp = mosTemperature(this.sign * get('VTO'), get('BEX'), get('TCV'), this.at.temperatureC, this.circuit.tnomC);
-      const kp = positiveOr(get('KP'), 2e-5) * temp.kpFactor;
-      p = {
-        t,
-        model,
-        isEff: 0,
-        nfVt: this.vt,
-        beta: Infinity,
-        va: Infinity,
-        kBeta: kp * t.scale,
-        vto: temp.vto,
-        lambda: Math.max(get('LAMBDA'), 0),
-        gamma: Math.max(get('GAMMA'), 0),
-        phi: positiveOr(get('PHI'), 0.6),
-      };
+      p = { t, model, isEff: 0, nfVt: this.vt, beta: Infinity, va: Infinity, kBeta: f.perUnit * t.scale, vto: f.vto, lambda: f.lambda, gamma: f.gamma, phi: f.phi };
     }
     // Paralleled diode-connected twins of the reference share its current: the reference then
     // behaves as one device of the summed geometry.
@@ -254,6 +217,16 @@ export class Hand {
     }
     this.params.set(name, p);
     return p;
+  }
+
+  /** What `dev` takes from a model alone at this analysis's conditions: worked out once per model and conditions, for every structure. */
+  private factorsOf(model: Model, letter: Transistor['element']['kind']): ModelFactors {
+    const known = modelFactors.get(model);
+    const betaScale = this.at.betaScale;
+    if (known && known.temperatureC === this.at.temperatureC && known.tnomC === this.circuit.tnomC && known.betaScale === betaScale && known.sign === this.sign) return known;
+    const f = factorsAt(model, letter, this.at, this.circuit.tnomC, this.vt, this.sign);
+    modelFactors.set(model, f);
+    return f;
   }
 
   /** The structure's devices with one role, in structure order. */
@@ -392,6 +365,77 @@ export class Hand {
   }
 }
 
+/**
+ * What a transistor's hand-analysis parameters take from its model alone at one set of conditions (temperature,
+ * nominal temperature, beta corner, the structure's polarity): a device's own are these times its geometry. The
+ * junction temperature law, β's temperature factor and the MOS and JFET threshold and gain at temperature are
+ * then evaluated once per model instead of once per device (10,000 devices of one model in a large array).
+ */
+interface ModelFactors {
+  readonly temperatureC: number;
+  readonly tnomC: number;
+  readonly betaScale: number | undefined;
+  readonly sign: 1 | -1;
+  /** Per unit of geometry: bipolar IS at temperature; MOS KP at temperature; JFET 2·BETA at temperature. */
+  readonly perUnit: number;
+  /** Bipolar NF·VT. */
+  readonly nfVt: number;
+  /** Bipolar BF at temperature and beta corner, and whether the model's β depends on current instead (IKF, IKR or ISE given). */
+  readonly beta: number;
+  readonly currentBeta: boolean;
+  /** Bipolar temperature factor of ISE's leakage. */
+  readonly leakage: number;
+  /** Bipolar VAF (Infinity when not positive). */
+  readonly va: number;
+  /** MOS and JFET threshold (own polarity for MOS), λ, γ and φ. */
+  readonly vto: number;
+  readonly lambda: number;
+  readonly gamma: number;
+  readonly phi: number;
+}
+
+/** Each model's factors at the conditions they were last asked at (one analysis asks at one set). */
+const modelFactors = new WeakMap<Model, ModelFactors>();
+
+/** A model's parameter `k`, or the default of its kind (0 when it has none). */
+function modelReader(model: Model): (k: string) => number {
+  const kind = technologyOfModel(model.kind) ?? 'npn';
+  return (k: string) => {
+    const v = model.params[k];
+    return Number.isFinite(v) || v === Infinity ? v : MODEL_DEFAULTS[kind][k] ?? 0;
+  };
+}
+
+function factorsAt(model: Model, letter: Transistor['element']['kind'], at: EstimateAt, tnomC: number, vt: number, sign: 1 | -1): ModelFactors {
+  const get = modelReader(model);
+  // Every field in one order whatever the kind, so `dev` reads objects of one layout.
+  const f = { temperatureC: at.temperatureC, tnomC, betaScale: at.betaScale, sign, perUnit: 0, nfVt: vt, beta: Infinity, currentBeta: false, leakage: 1, va: Infinity, vto: 0, lambda: 0, gamma: 0, phi: 0.6 };
+  if (letter === 'Q') {
+    f.perUnit = isAtTemperature(positiveOr(get('IS'), 1e-16), at.temperatureC, tnomC, get('XTI'), get('EG'));
+    f.nfVt = positiveOr(get('NF'), 1) * vt;
+    const temp = bjtTemperatureFactors(at.temperatureC, tnomC, get('XTB'));
+    f.beta = positiveOr(get('BF'), 100) * temp.beta * positiveOr(at.betaScale ?? 1, 1);
+    f.leakage = temp.leakage;
+    f.currentBeta = CURRENT_BETA_PARAMETERS.some((k) => model.given.includes(k));
+    const va = get('VAF');
+    f.va = va > 0 ? va : Infinity;
+  } else if (letter === 'J') {
+    // VTO keeps the device's own sense for both channel types (docs/DEVICE-MODELS.md): no sign flip.
+    const temp = jfetTemperature(get('VTO'), get('VTOTC'), get('BETATCE'), at.temperatureC, tnomC);
+    f.perUnit = 2 * positiveOr(get('BETA'), 1e-4) * temp.betaFactor;
+    f.vto = temp.vto;
+    f.lambda = Math.max(get('LAMBDA'), 0);
+  } else {
+    const temp = mosTemperature(sign * get('VTO'), get('BEX'), get('TCV'), at.temperatureC, tnomC);
+    f.perUnit = positiveOr(get('KP'), 2e-5) * temp.kpFactor;
+    f.vto = temp.vto;
+    f.lambda = Math.max(get('LAMBDA'), 0);
+    f.gamma = Math.max(get('GAMMA'), 0);
+    f.phi = positiveOr(get('PHI'), 0.6);
+  }
+  return f;
+}
+
 const railVoltsCache = new WeakMap<Circuit, ReadonlyMap<number, number>>();
 
 /** The circuit's rail potentials by node index, made once per Circuit object and shared (read only). */
@@ -442,21 +486,12 @@ const CURRENT_BETA_PARAMETERS: readonly string[] = ['IKF', 'IKR', 'ISE'];
  * the beta corner's scale, and — when the model's β depends on current (IKF, IKR or ISE given)
  * and the device's operating current is known — the model's IC/IB at that current.
  */
-function bipolarBeta(
-  model: Model,
-  get: (k: string) => number,
-  scale: number,
-  isT: number,
-  vt: number,
-  at: EstimateAt,
-  tnomC: number,
-  name: string,
-): { value: number; current?: number } {
-  const f = bjtTemperatureFactors(at.temperatureC, tnomC, get('XTB'));
-  const bf = positiveOr(get('BF'), 100) * f.beta * positiveOr(at.betaScale ?? 1, 1);
+function bipolarBeta(model: Model, f: ModelFactors, scale: number, vt: number, at: EstimateAt, name: string): { value: number; current?: number } {
+  const bf = f.beta;
   const current = at.deviceCurrents?.[name];
-  const dependsOnCurrent = CURRENT_BETA_PARAMETERS.some((k) => model.given.includes(k));
-  if (!dependsOnCurrent || current === undefined || !(Math.abs(current) > 0)) return { value: bf };
+  if (!f.currentBeta || current === undefined || !(Math.abs(current) > 0)) return { value: bf };
+  const get = modelReader(model);
+  const isT = f.perUnit;
   const is = positiveOr(get('IS'), 1e-16);
   const ratio = isT / is;
   const ne = positiveOr(get('NE'), 1.5);
