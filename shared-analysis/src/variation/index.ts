@@ -10,7 +10,7 @@ import { nameTable } from '../names';
 import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { grown, grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
+import { grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
@@ -237,7 +237,7 @@ function derivedOutputs(
   const count = varied.params.list.length;
   const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
   const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
-  const lists = new OutputLists(new RankedContributors(fresh.length), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown));
+  const lists = new OutputLists(new RankedContributors(fresh.length), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown, sens));
   const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
   const outputs: OutputVariation[] = new Array(specs.length);
   const finite = new Uint8Array(fresh.length);
@@ -506,19 +506,9 @@ class OutputRecords {
     const supplies = this.varied.supplies;
     for (let k = 0; k < supplies.length; k++) supplyPercentPerVolt[supplies[k].name] = (supplySlope[k] / scale) * 100;
     const target = targetWindowOf(this.targetOf, spec);
-    // Field by field, in the order the JSON shows them (the optional structure and element in their places).
-    const out = { output: spec.label, key: spec.key, unit: spec.unit } as OutputVariation;
-    if (spec.structure) out.structure = spec.structure;
-    if (spec.element) out.element = spec.element;
-    out.nominal = y;
-    out.sigma = sigma;
-    out.sigmaRelative = sigma / scale;
-    out.worstCase = worstCase;
-    out.worstCaseRelative = worstCase / scale;
-    out.tempcoPpmPerC = (tempco / scale) * 1e6;
-    out.supplyPercentPerVolt = supplyPercentPerVolt;
+    const out = recordOf(spec, y, sigma, worstCase, (tempco / scale) * 1e6, scale, supplyPercentPerVolt);
     this.lists.contributors.add(o);
-    this.lists.top.add(sens, o, scale);
+    this.lists.top.add(o, scale);
     this.lists.attach(out, o);
     if (target) {
       const lo = target.current * (1 - target.tolerance);
@@ -530,11 +520,38 @@ class OutputRecords {
 
   /** Whether every figure of `out`, made by `of` as output o, is finite (its lists read from the columns). */
   finite(out: OutputVariation, o: number): boolean {
-    const figures = [out.nominal, out.sigma, out.sigmaRelative, out.worstCase, out.worstCaseRelative, out.tempcoPpmPerC, out.target?.yield ?? 0];
-    for (const v of figures) if (!Number.isFinite(v)) return false;
-    for (const name in out.supplyPercentPerVolt) if (!Number.isFinite(out.supplyPercentPerVolt[name])) return false;
+    // Figure by figure: a list of the figures and a walk of the supply table's names were made for each of 10,000 outputs.
+    if (!(Number.isFinite(out.nominal) && Number.isFinite(out.sigma) && Number.isFinite(out.sigmaRelative) && Number.isFinite(out.worstCase))) return false;
+    if (!(Number.isFinite(out.worstCaseRelative) && Number.isFinite(out.tempcoPpmPerC) && (out.target === undefined || Number.isFinite(out.target.yield)))) return false;
+    // The supply table holds one figure per supply name, and nothing else.
+    const supplies = this.varied.supplies;
+    for (let k = 0; k < supplies.length; k++) if (!Number.isFinite(out.supplyPercentPerVolt[supplies[k].name])) return false;
     return this.lists.contributors.finite(o) && this.lists.top.finite(o);
   }
+}
+
+/**
+ * An output's record up to its supply table, in the order the JSON shows its fields (the optional structure and element
+ * in their places). An output of a structure with its element (IREF and each output current, nearly every output of a
+ * large array) is made in one literal: a record grown field by field reallocated its property store several times,
+ * about 230 bytes more per output.
+ */
+function recordOf(spec: OutputSpec, y: number, sigma: number, worstCase: number, tempcoPpmPerC: number, scale: number, supplyPercentPerVolt: Record<string, number>): OutputVariation {
+  if (spec.structure && spec.element) {
+    const { label: output, key, unit, structure, element } = spec;
+    return { output, key, unit, structure, element, nominal: y, sigma, sigmaRelative: sigma / scale, worstCase, worstCaseRelative: worstCase / scale, tempcoPpmPerC, supplyPercentPerVolt } as OutputVariation;
+  }
+  const out = { output: spec.label, key: spec.key, unit: spec.unit } as OutputVariation;
+  if (spec.structure) out.structure = spec.structure;
+  if (spec.element) out.element = spec.element;
+  out.nominal = y;
+  out.sigma = sigma;
+  out.sigmaRelative = sigma / scale;
+  out.worstCase = worstCase;
+  out.worstCaseRelative = worstCase / scale;
+  out.tempcoPpmPerC = tempcoPpmPerC;
+  out.supplyPercentPerVolt = supplyPercentPerVolt;
+  return out;
 }
 
 /** A target's window: its current and relative tolerance. */
@@ -548,7 +565,7 @@ function addTargetOutputs(circuit: Circuit, structures: Structure[], targets: re
   const targetOf = new Map<string, TargetWindow>();
   const have = new Set(specs.map((s) => s.key));
   // A target on a structure's output device reads that output: its figures are not computed and listed twice.
-  for (const s of specs) if (s.role === 'iout' && s.element) have.add(`element ${s.element}`);
+  for (let k = 0; k < specs.length; k++) if (specs[k].role === 'iout' && specs[k].element) have.add(`element ${specs[k].element}`);
   const index = targetIndexOf(circuit, structures);
   const elementIndex = topologyOf(circuit).elementIndex;
   for (const t of targets) {
@@ -603,7 +620,7 @@ class ParameterList {
 }
 
 /** How each parameter's derivative is shown normalised: value · factor / |y|, in `unit`, under `name` (`isShown` 0: not shown). */
-interface ShownForms {
+export interface ShownForms {
   isShown: Uint8Array;
   factor: Float64Array;
   name: string[];
@@ -643,16 +660,41 @@ export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly numb
   // Several sources may vary one parameter (a JFET's part-to-part VTO spread and its VTO mismatch
   // within a structure): each is an independent term with the parameter's derivative, so the
   // parameter's sources are listed together (compressed, in source order) and every one gets a row entry.
+  // One loop per function: a function run once with several long loops is compiled again for each loop.
   const firstOfParam = new Int32Array(paramCount + 1);
-  for (let k = 0; k < sourceCount; k++) firstOfParam[sourceParam[k] + 1]++;
-  for (let j = 0; j < paramCount; j++) firstOfParam[j + 1] += firstOfParam[j];
-  const sourcesOfParam = new Int32Array(sourceCount);
-  const fill = firstOfParam.slice(0, paramCount);
-  for (let k = 0; k < sourceCount; k++) sourcesOfParam[fill[sourceParam[k]]++] = k;
+  countSourcesOfParams(sourceParam, sourceCount, firstOfParam);
+  const sourcesOfParam = sourcesByParam(sourceParam, sourceCount, firstOfParam);
   const outputs = sens.rowStart.length - 1;
-  let entries = 0;
-  for (let q = 0; q < sens.index.length; q++) entries += firstOfParam[sens.index[q] + 1] - firstOfParam[sens.index[q]];
+  const entries = rowEntries(sens.index, firstOfParam);
   const rows: SourceRows = { start: new Int32Array(outputs + 1), index: new Int32Array(entries), value: new Float64Array(entries) };
+  fillSourceRows(sens, firstOfParam, sourcesOfParam, rows);
+  return rows;
+}
+
+/** `firstOfParam[j]`: where parameter j's sources start in the list by parameter (a running sum of the sources per parameter). */
+function countSourcesOfParams(sourceParam: readonly number[], sourceCount: number, firstOfParam: Int32Array): void {
+  for (let k = 0; k < sourceCount; k++) firstOfParam[sourceParam[k] + 1]++;
+  for (let j = 0; j + 1 < firstOfParam.length; j++) firstOfParam[j + 1] += firstOfParam[j];
+}
+
+/** The sources listed by parameter, in source order within each. */
+function sourcesByParam(sourceParam: readonly number[], sourceCount: number, firstOfParam: Int32Array): Int32Array {
+  const sourcesOfParam = new Int32Array(sourceCount);
+  const fill = firstOfParam.slice(0, firstOfParam.length - 1);
+  for (let k = 0; k < sourceCount; k++) sourcesOfParam[fill[sourceParam[k]]++] = k;
+  return sourcesOfParam;
+}
+
+/** How many source entries the parameter rows `index` make. */
+function rowEntries(index: Int32Array, firstOfParam: Int32Array): number {
+  let entries = 0;
+  for (let q = 0; q < index.length; q++) entries += firstOfParam[index[q] + 1] - firstOfParam[index[q]];
+  return entries;
+}
+
+/** Each output's source row: an entry per source of each parameter in its row, with the parameter's derivative. */
+function fillSourceRows(sens: SensitivityResult, firstOfParam: Int32Array, sourcesOfParam: Int32Array, rows: SourceRows): void {
+  const outputs = rows.start.length - 1;
   let at = 0;
   for (let o = 0; o < outputs; o++) {
     for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
@@ -664,7 +706,6 @@ export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly numb
     }
     rows.start[o + 1] = at;
   }
-  return rows;
 }
 
 /**
@@ -776,80 +817,93 @@ export function leadingContributors(out: OutputVariation, count: number): Contri
 
 /**
  * The largest normalised sensitivities of every output by `rankOf`, kept in the order they are
- * offered when equal (ties keep the parameter order), in typed arrays: output o's list is
- * `param`/`value` from `start[o]` to `start[o + 1]`. Its records are made when the list is first
- * read (the default JSON leaves them out).
+ * offered when equal (ties keep the parameter order). An output's list is ranked from its row of
+ * `sens` when it is first read (the default JSON leaves them out): ranking every row up front was a
+ * `rankOf` per derivative, about 80,000 at 20k elements, for lists nobody read.
  */
-class TopSensitivities {
-  private readonly start: Int32Array;
-  private param: Int32Array;
-  private value: Float64Array;
+export class TopSensitivities {
+  /** Per output, the magnitude its figures are normalised by. */
+  private readonly scale: Float64Array;
+  /** The list being ranked: `count` figures, largest first. */
+  private readonly param: Int32Array;
+  private readonly value: Float64Array;
   private readonly rank: Float64Array;
-  private length = 0;
+  private count = 0;
 
   constructor(
     private readonly size: number,
     outputs: number,
     private readonly shown: ShownForms,
+    private readonly sens: SensitivityResult,
   ) {
-    this.start = new Int32Array(outputs + 1);
-    this.param = new Int32Array(size * Math.min(outputs, 1024));
-    this.value = new Float64Array(this.param.length);
+    this.scale = new Float64Array(outputs);
+    this.param = new Int32Array(size);
+    this.value = new Float64Array(size);
     this.rank = new Float64Array(size);
   }
 
-  /** Output o's list (the next), from its row of `sens` normalised by the shown forms and its magnitude `scale`. */
-  add(sens: SensitivityResult, o: number, scale: number): void {
-    if (this.length + this.size > this.param.length) {
-      this.param = grown(this.param, this.param.length * 2);
-      this.value = grownFloat(this.value, this.param.length);
-    }
-    const shown = this.shown;
-    const from = this.length;
-    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
-      const j = sens.index[q];
-      if (shown.isShown[j]) this.offer(from, (sens.derivative[q] * shown.factor[j]) / scale, j);
-    }
-    this.start[o + 1] = this.length;
+  /** Output o's magnitude `scale` (its list is ranked from its row when read). */
+  add(o: number, scale: number): void {
+    this.scale[o] = scale;
   }
 
-  /** Whether every figure of output o's list is finite. */
+  /** Whether every figure of output o's list is finite: at once when every shown figure of its row is, else from the ranked list. */
   finite(o: number): boolean {
-    for (let k = this.start[o]; k < this.start[o + 1]; k++) if (!Number.isFinite(this.value[k])) return false;
+    if (this.rowFinite(o)) return true;
+    this.ranked(o);
+    for (let k = 0; k < this.count; k++) if (!Number.isFinite(this.value[k])) return false;
     return true;
   }
 
   /** Output o's list as records. */
   listOf(o: number): Sensitivity[] {
-    return this.list(this.start[o], this.start[o + 1]);
-  }
-
-  /** Inserts one figure into the list that starts at `from` (kept sorted, at most `size` long). */
-  private offer(from: number, value: number, j: number): void {
-    const rank = rankOf(value);
-    const count = this.length - from;
-    const ranks = this.rank;
-    if (count === this.size && !(rank > ranks[this.size - 1])) return;
-    let at = count < this.size ? this.length++ - from : this.size - 1;
-    while (at > 0 && rank > ranks[at - 1]) {
-      this.value[from + at] = this.value[from + at - 1];
-      ranks[at] = ranks[at - 1];
-      this.param[from + at] = this.param[from + at - 1];
-      at--;
-    }
-    this.value[from + at] = value;
-    ranks[at] = rank;
-    this.param[from + at] = j;
-  }
-
-  private list(from: number, to: number): Sensitivity[] {
+    this.ranked(o);
     const shown = this.shown;
-    const out: Sensitivity[] = new Array(to - from);
-    for (let k = from; k < to; k++) {
+    const out: Sensitivity[] = new Array(this.count);
+    for (let k = 0; k < this.count; k++) {
       const j = this.param[k];
-      out[k - from] = { parameter: shown.name[j], unit: shown.unit[j], value: this.value[k] };
+      out[k] = { parameter: shown.name[j], unit: shown.unit[j], value: this.value[k] };
     }
     return out;
+  }
+
+  /** Whether every shown figure of output o's row is finite (then so is every figure its list keeps). */
+  private rowFinite(o: number): boolean {
+    const { sens, shown } = this;
+    const scale = this.scale[o];
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const j = sens.index[q];
+      if (shown.isShown[j] && !Number.isFinite((sens.derivative[q] * shown.factor[j]) / scale)) return false;
+    }
+    return true;
+  }
+
+  /** Ranks output o's list into `param`, `value` and `count`, its row normalised by the shown forms and its magnitude. */
+  private ranked(o: number): void {
+    const { sens, shown } = this;
+    const scale = this.scale[o];
+    this.count = 0;
+    for (let q = sens.rowStart[o]; q < sens.rowStart[o + 1]; q++) {
+      const j = sens.index[q];
+      if (shown.isShown[j]) this.offer((sens.derivative[q] * shown.factor[j]) / scale, j);
+    }
+  }
+
+  /** Inserts one figure into the list (kept sorted, at most `size` long). */
+  private offer(value: number, j: number): void {
+    const rank = rankOf(value);
+    const ranks = this.rank;
+    if (this.count === this.size && !(rank > ranks[this.size - 1])) return;
+    let at = this.count < this.size ? this.count++ : this.size - 1;
+    while (at > 0 && rank > ranks[at - 1]) {
+      this.value[at] = this.value[at - 1];
+      ranks[at] = ranks[at - 1];
+      this.param[at] = this.param[at - 1];
+      at--;
+    }
+    this.value[at] = value;
+    ranks[at] = rank;
+    this.param[at] = j;
   }
 }
 
@@ -1129,7 +1183,10 @@ const ATTACH_STEP = 250;
 /** `attachVariation` in steps, for a host that gives queued requests a turn between them (5,000 structures at once held it 10–50 ms). */
 export function* attachVariationSteps(structures: Structure[], result: VariationResult): Generator<void, void, undefined> {
   const byStructure = new Map<string, OutputVariation[]>();
-  for (const o of result.outputs) {
+  // Indexed loops: a for-of step makes an iterator result object until the function is optimised (10,000 outputs at 20k).
+  const outputs = result.outputs;
+  for (let k = 0; k < outputs.length; k++) {
+    const o = outputs[k];
     if (!o.structure) continue;
     const list = byStructure.get(o.structure);
     if (list) list.push(o);
@@ -1143,7 +1200,8 @@ export function* attachVariationSteps(structures: Structure[], result: Variation
     const iout: Record<string, OutputVariation> = nameTable();
     let voltages: Record<string, OutputVariation> | undefined;
     let iref: OutputVariation | undefined;
-    for (const o of list) {
+    for (let m = 0; m < list.length; m++) {
+      const o = list[m];
       if (o.key.endsWith(' iref')) iref = o;
       else if (o.unit === 'V') (voltages ??= nameTable())[o.output] = o;
       else iout[o.output] = o;

@@ -34,16 +34,24 @@ export function elementCurrent(circuit: Circuit, index: number): OutputFunctiona
   return undefined;
 }
 
+/** What a structure without parts or produced voltages lists (one shared empty list, not one made per structure). */
+const NO_NAMES: readonly string[] = [];
+const NO_VOLTAGES: Readonly<NonNullable<Structure['voltages']>> = [];
+
 /** The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage. */
 export function structureOutputs(circuit: Circuit, structures: readonly Structure[]): OutputSpec[] {
   const topo = topologyOf(circuit);
   const indexOf = topo.elementIndex;
   const out: OutputSpec[] = [];
-  for (const s of structures) {
+  // Indexed loops: a for-of step makes an iterator result object until the function is optimised (once per structure,
+  // device and output here).
+  for (let k = 0; k < structures.length; k++) {
+    const s = structures[k];
     const refNode = topo.nodeIndex.get(s.reference.node);
     if (refNode !== undefined) {
       const terms: OutputTerm[] = [];
-      for (const name of s.devices) {
+      for (let d = 0; d < s.devices.length; d++) {
+        const name = s.devices[d];
         const t = topo.byName.get(name);
         const i = indexOf.get(name);
         if (!t || i === undefined) continue;
@@ -54,8 +62,9 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
           if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
         } else if (t.common === refNode) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
       }
-      for (const name of Object.keys(s.parts ?? {})) {
-        const i = indexOf.get(name);
+      const parts = s.parts ? Object.keys(s.parts) : NO_NAMES;
+      for (let p = 0; p < parts.length; p++) {
+        const i = indexOf.get(parts[p]);
         if (i === undefined) continue;
         const el = circuit.elements[i];
         if (el.nodes.length < 2 || el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') continue;
@@ -65,12 +74,15 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
       }
       if (terms.length > 0) out.push({ key: `${s.id} iref`, label: 'IREF', unit: 'A', role: 'iref', structure: s.id, element: s.reference.device, functional: { terms, magnitude: true } });
     }
-    for (const o of s.outputs) {
+    for (let d = 0; d < s.outputs.length; d++) {
+      const o = s.outputs[d];
       const i = indexOf.get(o.device);
       if (i === undefined) continue;
       out.push({ key: `${s.id} out ${o.device}`, label: o.device, unit: 'A', role: 'iout', structure: s.id, element: o.device, functional: { terms: [{ kind: 'terminal', element: i, terminal: 0, weight: 1 }], magnitude: true } });
     }
-    for (const v of s.voltages ?? []) {
+    const voltages = s.voltages ?? NO_VOLTAGES;
+    for (let d = 0; d < voltages.length; d++) {
+      const v = voltages[d];
       const a = topo.nodeIndex.get(v.node);
       if (a === undefined) continue;
       const terms: OutputTerm[] = [];

@@ -372,7 +372,7 @@ function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: reado
   for (let j = 0; j < kind.length; j++) if (kind[j] === MODEL && tableOf[element[j]] >= 0 && (!scope || scope[element[j]])) namesOf[tableOf[element[j]]].add((params[j] as { param: string }).param);
   // Tables an output reads a terminal current of need their current rows even without parameters.
   const readsTable = new Uint8Array(tables.length);
-  for (const out of outputs) for (const term of out.terms) if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
+  for (let o = 0; o < outputs.length; o++) markReadTables(outputs[o].terms, tableOf, readsTable);
   return tables.map((layoutTable, k) => {
     const names = [...namesOf[k]];
     if (names.length === 0 && !readsTable[k]) return undefined;
@@ -382,6 +382,17 @@ function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: reado
     const result = table.sensitivity?.(lin.x, lin.conditions, names) ?? numericalSensitivity(table, lin.x, lin.conditions, names);
     return { T: table.kind.terminalCount, N: table.kind.nodeCount, names, result, terminals: table.instances.terminals, rowOf };
   });
+}
+
+/**
+ * Marks the tables whose terminal currents `terms` read. Indexed loops here and over every output's terms: a for-of
+ * step makes an iterator result object until its function is optimised, about 100,000 of them in one cold analysis.
+ */
+function markReadTables(terms: readonly OutputTerm[], tableOf: Int32Array, readsTable: Uint8Array): void {
+  for (let k = 0; k < terms.length; k++) {
+    const term = terms[k];
+    if (term.kind === 'terminal' && tableOf[term.element] >= 0) readsTable[tableOf[term.element]] = 1;
+  }
 }
 
 /** Per instance of `table`, its row among the instances whose element is in `scope` (−1: out of scope); undefined when all are. */
@@ -495,7 +506,9 @@ function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: read
 /** Resistors with temperature coefficients (in `scope`, all without it): dg/dT = g·(d ln g/dT) on their KCL rows. */
 function resistorTemperatureColumns(lin: Linearisation, temperatureParam: number, scope: Uint8Array | undefined, cols: Triples): void {
   const els = lin.layout.circuit.elements;
-  for (const r of lin.layout.readers) {
+  const readers = lin.layout.readers;
+  for (let k = 0; k < readers.length; k++) {
+    const r = readers[k];
     if (r.kind !== 'conductance' || (scope && !scope[r.element])) continue;
     const el = els[r.element];
     // The slope is zero without a coefficient (`conductanceSlopeOf` says so too, after its look-ups).
@@ -650,7 +663,9 @@ class OutputTerms {
   read(out: OutputFunctional): number {
     this.gradient.clear();
     let y = 0;
-    for (const term of out.terms) {
+    const terms = out.terms;
+    for (let k = 0; k < terms.length; k++) {
+      const term = terms[k];
       if (term.kind === 'node') {
         y += term.weight * voltageAt(this.lin.x, term.node - 1);
         this.gradient.add(term.node - 1, term.weight);

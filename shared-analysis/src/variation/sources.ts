@@ -241,7 +241,11 @@ function structureDevices(circuit: Circuit, structures: readonly Structure[]): S
   for (let s = 0; s < structures.length; s++) start[s + 1] = start[s] + structures[s].devices.length;
   const index = new Int32Array(start[structures.length]);
   let at = 0;
-  for (const s of structures) for (const name of s.devices) index[at++] = byName.get(name) ?? -1;
+  // Indexed: a for-of step makes an iterator result object until the function is optimised.
+  for (let s = 0; s < structures.length; s++) {
+    const devices = structures[s].devices;
+    for (let k = 0; k < devices.length; k++) index[at++] = byName.get(devices[k]) ?? -1;
+  }
   return { start, index };
 }
 
@@ -275,7 +279,8 @@ function mismatchSources(out: ToleranceSource[], circuit: Circuit, structures: r
     }
     if (members.length < 2) continue;
     groups.start(structures[s].id);
-    for (const i of members) {
+    for (let m = 0; m < members.length; m++) {
+      const i = members[m];
       seen[i] = 1;
       const el = elements[i];
       if (el.kind === 'Q') pushBjt(out, el, i, groups, vt, bjtModelFigures(el, bjtModels));
