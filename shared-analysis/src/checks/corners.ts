@@ -337,8 +337,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
     const spec = specs[k];
     if (ctx.shouldStop?.()) throw ctx.stop?.() ?? new Error('The corner solves were stopped.');
     const sourceValues = cornerSourceValues(spec, sources, dcOf);
-    // Each corner's point is read here and dropped before the next solve: its vectors can be reused.
-    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
+    // Each corner's point is read here and dropped before the next solve: its vectors can be reused; its findings are never read.
+    const opts: SolveOptions = { temperatureC: spec.temperatureC, betaScale: spec.betaScale, sourceValues, initialGuess: nominal.x, shouldStop: ctx.shouldStop, reuseResult: true, pointOnly: true, ...(spec.process ? { deviceParameters: processParameters(spec.process) } : {}) };
     const ts = clock();
     const own = ctx.startOf?.(spec, k, opts);
     // Kept figures everywhere but in the parts the start solved alone: the corner is measured on their point.

@@ -310,13 +310,13 @@ export class DcSolver {
 
   private solveChecked(options: SolveOptions): DcSolveResult {
     const t0 = now();
-    const findings: Finding[] = [...this.staticFindings];
+    const findings: Finding[] = options.pointOnly === true ? [] : [...this.staticFindings];
     const n = this.layout.size;
     const temperatureC = this.pickTemperature(options, findings);
     const plan = this.resolveResistances(options.resistances, findings);
     this.applyTemperatureCoefficients(plan, temperatureC, findings);
     const structure = plan.changesStructure ? this.analyseStructure(this.resistanceLookup(plan)) : this.structure;
-    pushAll(findings, structure.findings);
+    if (options.pointOnly !== true) pushAll(findings, structure.findings);
     this.loadLinearValues(structure, plan);
     const betaScale = this.pickBetaScale(options, findings);
     const conditions = this.conditionsAt(temperatureC, betaScale);
@@ -385,12 +385,14 @@ export class DcSolver {
       converged = true;
     }
 
-    if (last && !converged) pushAll(findings, this.failureFindings(last, fallbacks, iterations));
-    pushAll(findings, this.behaviourFindings(converged || !firstPoint ? x : firstPoint));
+    if (options.pointOnly !== true) {
+      if (last && !converged) pushAll(findings, this.failureFindings(last, fallbacks, iterations));
+      pushAll(findings, this.behaviourFindings(converged || !firstPoint ? x : firstPoint));
+    }
     const reuse = options.reuseResult === true ? (this.reused ??= {}) : undefined;
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings, reuse);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
-    if (converged) pushAll(findings, this.postSolveFindings(x, op, structure));
+    if (converged && options.pointOnly !== true) pushAll(findings, this.postSolveFindings(x, op, structure));
     const out = reuse ? (reuse.x ??= new Float64Array(n)) : new Float64Array(n);
     // A function of its own: compiled while this loop ran, the code after it had never run and gave up the compiled code at every corner solve.
     copyFinite(out, x, n);

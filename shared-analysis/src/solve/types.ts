@@ -185,4 +185,12 @@ export interface SolveOptions {
    * heap of 0.5 GB). The numbers are the same either way.
    */
   reuseResult?: boolean;
+  /**
+   * The caller reads the point alone, none of the result's findings (the corner phase, which makes its own): the
+   * solve leaves out the findings it would look for after the solve (every device asked whether a junction is
+   * overdriven, behavioural sources that cannot be evaluated, why Newton failed) and the netlist's static and structural
+   * ones (floating nodes, voltage loops), so `findings` holds at most what the options themselves drew. The point, `x`
+   * and the counters are the same.
+   */
+  pointOnly?: boolean;
 }
