@@ -278,16 +278,29 @@ export class Topology {
   /**
    * The one DC-relevant connection of `node` besides the elements in `except`, or undefined when
    * there are none or several. Stops at the second one, so asking about a rail with thousands of
-   * connections costs no more than asking about a two-element node.
+   * connections costs no more than asking about a two-element node. The attachment is made for the caller.
    */
   soleOther(node: number, except: (e: Element) => boolean): Attachment | undefined {
-    let found: Attachment | undefined;
-    for (const a of this.conducting(node)) {
-      if (except(a.element)) continue;
-      if (found) return undefined;
-      found = a;
+    if (!this.isNode(node)) {
+      let found: Attachment | undefined;
+      for (const a of this.conducting(node)) {
+        if (except(a.element)) continue;
+        if (found) return undefined;
+        found = a;
+      }
+      return found;
     }
-    return found;
+    // Straight from the compressed rows, as `conducting` lists them: asking about a rail must not make the list of its
+    // every connection (the ground of a 20,000-element array has 10,000), which nothing else may want.
+    const elements = this.circuit.elements;
+    let at = -1;
+    for (let j = this.rowStart[node]; j < this.rowStart[node + 1]; j++) {
+      const element = elements[this.rowElement[j]];
+      if (!conducts(element, this.rowSlot[j]) || except(element)) continue;
+      if (at >= 0) return undefined;
+      at = j;
+    }
+    return at < 0 ? undefined : { element: elements[this.rowElement[at]], slot: this.rowSlot[at] };
   }
 
   nodeName(i: number): string {

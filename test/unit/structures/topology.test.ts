@@ -123,4 +123,29 @@ describe('topology', () => {
       expect(topo.conducting(circuit.nodes.length)).toEqual([]);
     }
   });
+
+  it("finds a node's sole DC connection besides the excepted elements as a scan of its DC list does, asked before or after the list is made (seeded)", () => {
+    let soles = 0;
+    for (let seed = 1; seed <= 20; seed++) {
+      const circuit = tangle(seed);
+      const topo = new Topology(circuit);
+      const random = rng(500 + seed);
+      for (let n = 0; n < circuit.nodes.length; n++) {
+        // Leave out a random few elements, as a recogniser leaves out a structure's own devices.
+        const except = new Set(circuit.elements.filter(() => random() < 0.7));
+        const leaveOut = (e: (typeof circuit.elements)[number]) => except.has(e);
+        // On odd nodes the DC list is made after the question, on even ones before it.
+        const listed = n % 2 === 0 ? topo.conducting(n) : undefined;
+        const got = topo.soleOther(n, leaveOut);
+        const others = (listed ?? topo.conducting(n)).filter((a) => !except.has(a.element));
+        const plain = others.length === 1 ? others[0] : undefined;
+        expect(got && { element: got.element.name, slot: got.slot }, `node ${n} of circuit ${seed}`).toEqual(plain && { element: plain.element.name, slot: plain.slot });
+        if (plain) soles++;
+      }
+      // Nodes outside the circuit's list have no connection at all.
+      expect(topo.soleOther(circuit.nodes.length, () => false)).toBeUndefined();
+    }
+    // Both answers must come up, or the comparison proves little.
+    expect(soles).toBeGreaterThan(20);
+  });
 });
