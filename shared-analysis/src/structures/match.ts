@@ -149,11 +149,23 @@ export class Matcher {
   diodeOutputs(d: Transistor): DiodeOutputs {
     const a = d.ctrl;
     const e = d.common;
-    const twins = this.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === e, [d], this.onCtrl(a));
+    // One pass over the devices on A sorts them into twins (output on A, emitter on E) and output candidates (output
+    // elsewhere), each in name order: the lists `candidates` would give for the two, without a closure or list apiece.
+    const twins: Transistor[] = [];
+    const others: Transistor[] = [];
+    const pool = this.onCtrl(a) ?? [];
+    for (let k = 0; k < pool.length; k++) {
+      const t = pool[k];
+      if (t === d || t.tech !== d.tech || this.isClaimed(t)) continue;
+      if (t.out !== a) others.push(t);
+      else if (t.common === e) twins.push(t);
+    }
+    if (twins.length > 1) twins.sort(this.byRank);
+    if (others.length > 1) others.sort(this.byRank);
     const refScale = d.scale + twins.reduce((s, t) => s + t.scale, 0);
     const outputs: StructureOutput[] = [];
     const devices: Transistor[] = [];
-    for (const o of this.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...twins], this.onCtrl(a))) {
+    for (const o of others) {
       if (o.common === e) {
         outputs.push({ device: o.name, node: this.nodeName(o.out), ratio: o.scale / refScale });
         devices.push(o);

@@ -16,8 +16,10 @@ function crowd(seed: number): Circuit {
   for (let k = 0; k < 30; k++) {
     const ctrl = node();
     const out = random() < 0.4 ? ctrl : node();
-    if (random() < 0.75) b.q(`Q${k}`, out, ctrl, node(), random() < 0.7 ? 'qn' : 'qp');
-    else b.mos(`M${k}`, out, ctrl, node(), '0', 'mn');
+    // Numbered out of element order, so name order and element order differ.
+    const n = (k * 37) % 101;
+    if (random() < 0.75) b.q(`Q${n}`, out, ctrl, node(), random() < 0.7 ? 'qn' : 'qp');
+    else b.mos(`M${n}`, out, ctrl, node(), '0', 'mn');
     if (random() < 0.3) b.r(`R${k}`, node(), node(), 1e3 + k);
   }
   return b.build();
@@ -41,5 +43,33 @@ describe('Matcher.hasOffsetOutput', () => {
     }
     // The circuits must give both answers many times, or the comparison proves little.
     expect(seen).toBeGreaterThan(50);
+  });
+});
+
+describe('Matcher.diodeOutputs', () => {
+  it('finds the twins and outputs the candidate lists give, in name order, claimed devices left out (seeded)', () => {
+    let outputs = 0;
+    let twins = 0;
+    for (let seed = 1; seed <= 40; seed++) {
+      const m = new Matcher(crowd(seed));
+      const random = rng(2000 + seed);
+      m.claim({ members: m.ordered.filter(() => random() < 0.2).map((t) => ({ t, role: 'output' })) } as unknown as Draft);
+      for (const d of m.ordered) {
+        if (d.out !== d.ctrl) continue;
+        const a = d.ctrl;
+        // The plain path: a candidate list for each, with every exclusion written out.
+        const plainTwins = m.candidates(d.tech, (t) => t.out === a && t.ctrl === a && t.common === d.common, [d], m.onCtrl(a));
+        const plainOthers = m.candidates(d.tech, (t) => t.ctrl === a && t.out !== a, [d, ...plainTwins], m.onCtrl(a));
+        const got = m.diodeOutputs(d);
+        expect(got.twins.map((t) => t.name), `${d.name} in circuit ${seed}`).toEqual(plainTwins.map((t) => t.name));
+        // Every candidate with its emitter on the reference's, or reaching it through one resistor, in the candidates' order.
+        const plainDevices = plainOthers.filter((t) => t.common === d.common || m.degeneration(t, d.common) !== undefined);
+        expect(got.devices.map((t) => t.name), `${d.name} in circuit ${seed}`).toEqual(plainDevices.map((t) => t.name));
+        outputs += got.outputs.length;
+        twins += got.twins.length;
+      }
+    }
+    expect(outputs).toBeGreaterThan(50);
+    expect(twins).toBeGreaterThan(5);
   });
 });
