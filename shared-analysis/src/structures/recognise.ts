@@ -42,10 +42,29 @@ export function recogniseStructures(circuit: Circuit): Structure[] {
     }
   }
   const structures = drafts.map((d) => toStructure(m, d));
-  const owner = new Map<string, Structure>();
-  for (const s of structures) for (const o of s.outputs) owner.set(o.device, s);
+  const owner = new OutputOwners(structures);
   structures.forEach((s, i) => (s.reference = referenceBranch(m, drafts[i], s, owner)));
   return structures;
+}
+
+/**
+ * The structure each output device belongs to (the last one listing it), for a reference fed by another structure's
+ * output. Indexed at the first question: in most circuits every reference is fed by resistors or sources, and the
+ * index of every output name was made for nothing.
+ */
+class OutputOwners {
+  private index: Map<string, Structure> | undefined;
+
+  constructor(private readonly structures: readonly Structure[]) {}
+
+  get(device: string): Structure | undefined {
+    if (!this.index) {
+      const index = new Map<string, Structure>();
+      for (const s of this.structures) for (const o of s.outputs) index.set(o.device, s);
+      this.index = index;
+    }
+    return this.index.get(device);
+  }
 }
 
 function toStructure(m: Matcher, d: Draft): Structure {
@@ -97,7 +116,7 @@ function withIsRatio(m: Matcher, d: Draft, o: StructureOutput): StructureOutput 
  * current source, another structure's output, or something else. Control terminals of
  * devices outside the structure (base-current loads) and capacitors do not count as feeds.
  */
-function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: Map<string, Structure>): ReferenceBranch {
+function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners): ReferenceBranch {
   // `toStructure` made the reference afresh, fed by 'other' with no elements: the answer when nothing better is found,
   // and otherwise filled in place (its feed and elements keep their place among its fields, the rail or feeding structure follows).
   const base = s.reference;
