@@ -10,7 +10,7 @@ import { nameTable } from '../names';
 import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
-import { grownFloat, sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
+import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
 import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
@@ -237,7 +237,7 @@ function derivedOutputs(
   const count = varied.params.list.length;
   const shown = shownForms(count, sources, varied.sourceParam, varied.resistors, varied.supplies);
   const bySource = sourceRowsOf(sens, varied.sourceParam, count, sources.length);
-  const lists = new OutputLists(new RankedContributors(fresh.length), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown, sens));
+  const lists = new OutputLists(new RankedContributors(bySource), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown, sens));
   const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
   const outputs: OutputVariation[] = new Array(specs.length);
   const finite = new Uint8Array(fresh.length);
@@ -750,14 +750,18 @@ class RankedContributors {
   readonly made: Uint8Array;
   private readonly start: Int32Array;
   private readonly name: string[] = [];
-  private share: Float64Array;
-  private sigma: Float64Array;
-  private worst: Float64Array;
+  private readonly share: Float64Array;
+  private readonly sigma: Float64Array;
+  private readonly worst: Float64Array;
 
-  constructor(outputs: number) {
+  /** For the outputs of `rows`, each ranking at most one contributor per entry of its source row. */
+  constructor(rows: SourceRows) {
+    const outputs = rows.start.length - 1;
     this.made = new Uint8Array(outputs);
     this.start = new Int32Array(outputs + 1);
-    const size = MAX_CONTRIBUTORS * Math.min(Math.max(outputs, 1), 1024);
+    // Sized once for the most every output can keep: grown by doubling from a guess, the columns were copied and
+    // reallocated about ten times at 100k elements (a fifth of the records' time there).
+    const size = keptBound(rows);
     this.share = new Float64Array(size);
     this.sigma = new Float64Array(size);
     this.worst = new Float64Array(size);
@@ -766,12 +770,6 @@ class RankedContributors {
   /** Output o's list (the next) from what the last `spreadOfRange` kept. */
   add(o: number): void {
     let at = this.start[o];
-    if (at + KEPT.count > this.share.length) {
-      const size = 2 * this.share.length;
-      this.share = grownFloat(this.share, size);
-      this.sigma = grownFloat(this.sigma, size);
-      this.worst = grownFloat(this.worst, size);
-    }
     for (let c = 0; c < KEPT.count; c++, at++) {
       this.name[at] = rankedName[c];
       this.share[at] = KEPT.shares[c];
@@ -801,6 +799,13 @@ class RankedContributors {
     for (let k = from; k < to; k++) out[k - from] = { name: this.name[k], share: this.share[k], sigma: this.sigma[k], worstCase: this.worst[k] };
     return out;
   }
+}
+
+/** How many contributors the outputs of `rows` keep at most: each one per entry of its row (a group sums entries), up to `MAX_CONTRIBUTORS`. */
+function keptBound(rows: SourceRows): number {
+  let size = 0;
+  for (let o = 0; o + 1 < rows.start.length; o++) size += Math.min(rows.start[o + 1] - rows.start[o], MAX_CONTRIBUTORS);
+  return size;
 }
 
 /**
