@@ -142,9 +142,19 @@ const LINEAR_KINDS = new Set<string>(['R', 'C', 'L', 'V', 'I', 'E', 'G', 'F', 'H
 interface KindBuilder {
   kind: DeviceKind;
   elements: Element[];
-  elementIndex: number[];
+  elementIndex: Int32List;
   terminals: Int32List;
   positions: Int32List;
+}
+
+/**
+ * A kind's builder with its lists allocated at their final size (`count` instances), so they are
+ * neither grown nor copied: at 100,000 elements the doubling and final copies of the position lists
+ * allocated about 20 MB, and V8 starts a full collection each time such memory has grown enough.
+ */
+function kindBuilder(kind: DeviceKind, count: number): KindBuilder {
+  const t = kind.terminalCount;
+  return { kind, elements: [], elementIndex: new Int32List(count), terminals: new Int32List(count * t), positions: new Int32List(count * t * t) };
 }
 
 /** Every nonlinear instance in element order: its element index, its table (index into `tables`) and its row in that table. */
@@ -324,6 +334,7 @@ export class MnaLayout {
       return ci === undefined ? -1 : (this.branchOfElement.get(ci) ?? -1);
     };
     const builders = new Map<DeviceKind, KindBuilder>();
+    const counts = this.countInstances();
     for (let i = 0; i < els.length; i++) {
       if (this.skipped.has(i)) continue;
       const el = els[i];
@@ -333,10 +344,21 @@ export class MnaLayout {
         continue;
       }
       let b = builders.get(kind);
-      if (!b) builders.set(kind, (b = { kind, elements: [], elementIndex: [], terminals: new Int32List(), positions: new Int32List() }));
+      if (!b) builders.set(kind, (b = kindBuilder(kind, counts.get(kind)!)));
       this.bindDevice(b, el, i, kind.terminals(el, unknownOfNode, internalOf.get(i) ?? NO_INTERNAL, branchOf));
     }
     return builders;
+  }
+
+  /** The number of instances of each nonlinear kind that will be bound (the skipped elements left out). */
+  private countInstances(): Map<DeviceKind, number> {
+    const counts = new Map<DeviceKind, number>();
+    const els = this.circuit.elements;
+    for (let i = 0; i < els.length; i++) {
+      const kind = deviceKindOf(els[i].kind);
+      if (kind && !this.skipped.has(i)) counts.set(kind, (counts.get(kind) ?? 0) + 1);
+    }
+    return counts;
   }
 
   /** One linear element's stamps and its reader. */
@@ -476,17 +498,18 @@ export class MnaLayout {
     for (const kind of DEVICE_KINDS) {
       const b = builders.get(kind);
       if (!b) continue;
+      const elementIndex = b.elementIndex.toArray();
       const table = kind.createTable(
         {
           count: b.elements.length,
           elements: b.elements,
-          elementIndex: Int32Array.from(b.elementIndex),
+          elementIndex,
           terminals: b.terminals.toArray(),
           positions: b.positions.toArray(),
         },
         this.paramIssues,
       );
-      b.elementIndex.forEach((e, row) => {
+      elementIndex.forEach((e, row) => {
         tableOf[e] = this.tables.length;
         rowOf[e] = row;
       });
@@ -495,7 +518,7 @@ export class MnaLayout {
     // Tables read their parameters kind by kind; report the problems in element order, as the netlist reads.
     if (this.tables.length > 1 && this.paramIssues.length > 1) {
       const indexOf = new Map<Element, number>();
-      for (const b of builders.values()) b.elements.forEach((el, row) => indexOf.set(el, b.elementIndex[row]));
+      for (const b of builders.values()) b.elements.forEach((el, row) => indexOf.set(el, b.elementIndex.at(row)));
       this.paramIssues.sort((p, q) => (indexOf.get(p.element) ?? 0) - (indexOf.get(q.element) ?? 0));
     }
     const order: number[] = [];
@@ -741,9 +764,9 @@ class Int32List {
     return this.data[k];
   }
 
-  /** A copy of the entries, exactly `length` long. */
+  /** The entries, exactly `length` long: the list's own buffer when it is full (the list is not pushed to after), else a copy. */
   toArray(): Int32Array {
-    return this.data.slice(0, this.length);
+    return this.length === this.data.length ? this.data : this.data.slice(0, this.length);
   }
 }
 

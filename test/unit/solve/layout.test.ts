@@ -162,4 +162,41 @@ describe('MNA layout', () => {
       for (const r of layout.readers) if (r.kind === 'conductance') expect(layout.resistorStamps.conductanceOrZero(r.element)).toBe(r.g);
     }
   });
+
+  it('lists each kind\'s usable instances, their terminals and their pattern slots, however the kinds interleave and whatever is left out', () => {
+    // Kinds interleaved, and a diode whose node list is cut short so the layout leaves it out (dc-bad-node).
+    const c = circuit([
+      ['V', 'V1', 'a', '0', 1],
+      ['D', 'D1', 'a', 'b', DS],
+      ['Q', 'Q1', 'b', 'c', '0', QS],
+      ['D', 'DCUT', 'c', '0', DS],
+      ['R', 'R1', 'c', '0', 100],
+      ['Q', 'Q2', 'a', 'b', 'c', QS],
+      ['D', 'D2', 'b', '0', DS],
+    ]);
+    c.elements[3].nodes = [c.elements[3].nodes[0]];
+    const l = new MnaLayout(c);
+    expect(l.skipped).toEqual(new Set([3]));
+    // The pattern slot of (row, col) found by scanning the pattern, −1 when either side is ground.
+    const slotOf = (row: number, col: number) => {
+      if (row < 0 || col < 0) return -1;
+      for (let p = 0; p < l.pattern.rows.length; p++) if (l.pattern.rows[p] === row && l.pattern.cols[p] === col) return p;
+      return -2;
+    };
+    const elementsOf = (letter: string) => c.elements.flatMap((el, i) => (el.kind === letter && !l.skipped.has(i) ? [i] : []));
+    expect(l.tables.length).toBe(2);
+    for (const table of l.tables) {
+      const { count, elementIndex, terminals, positions } = table.instances;
+      const t = table.kind.terminalCount;
+      expect(Array.from(elementIndex)).toEqual(elementsOf(c.elements[elementIndex[0]].kind));
+      expect(count).toBe(elementIndex.length);
+      expect(terminals.length).toBe(count * t);
+      expect(positions.length).toBe(count * t * t);
+      for (let i = 0; i < count; i++) {
+        for (let r = 0; r < t; r++) {
+          for (let col = 0; col < t; col++) expect(positions[i * t * t + r * t + col]).toBe(slotOf(terminals[i * t + r], terminals[i * t + col]));
+        }
+      }
+    }
+  });
 });
