@@ -66,7 +66,10 @@ async function main() {
     notify();
   });
   const analysed = [];
+  /** Every log line of the server with when it arrived, to place the slowest requests among the server's doings. */
+  const logLines = [];
   conn.onNotification('window/logMessage', (p) => {
+    logLines.push({ at: performance.now(), message: p.message.replace(/^\[qpoint\] /, '') });
     const m = /Analysed (\S+) \(version (\d+)\) in (\d+) ms in the worker, then (\d+) ms preparing it to send; taking the result in took (\d+) ms/.exec(p.message);
     if (m) analysed.push({ file: m[1], version: Number(m[2]), worker: Number(m[3]), send: Number(m[4]), takeIn: Number(m[5]) });
     if (p.message.includes('Solved the corners of') || p.message.includes('corner phase')) events.push({ kind: 'corners', at: performance.now(), message: p.message });
@@ -109,6 +112,8 @@ async function main() {
     await conn.sendNotification('textDocument/didOpen', { textDocument: { uri, languageId: 'netlist', version: 1, text } });
     const first = await eventAfter(from, (e) => e.kind === 'diagnostics' && e.uri === uri && e.version === 1);
     let line = `${label}: first diagnostics ${f(first.at - opened)} ms`;
+    /** Each hover and inlay request: its time, when it was sent, and which edit it waited through. */
+    const requests = [];
     if (withCorners) {
       const c = await eventAfter(from, (e) => e.kind === 'corners');
       line += `, first corner findings ${f(c.at - opened)} ms`;
@@ -140,9 +145,11 @@ async function main() {
         const h0 = performance.now();
         await conn.sendRequest('textDocument/hover', { textDocument: { uri }, position: { line: hoverLine, character: 1 } });
         hovers.push(performance.now() - h0);
+        requests.push({ kind: 'hover', ms: hovers.at(-1), at: h0, edit: k + 1, sinceEdit: h0 - t0, nth: hovers.length });
         const i0 = performance.now();
         await conn.sendRequest('textDocument/inlayHint', { textDocument: { uri }, range: { start: { line: hoverLine, character: 0 }, end: { line: hoverLine + 60, character: 0 } } });
         inlays.push(performance.now() - i0);
+        requests.push({ kind: 'inlay', ms: inlays.at(-1), at: i0, edit: k + 1, sinceEdit: i0 - t0, nth: inlays.length });
       }
       const [d, c] = await both;
       toDiagnostics.push(d.at - t0);
@@ -153,6 +160,13 @@ async function main() {
     console.log(`    of which the engine in the worker: median ${f(median(mine.map((x) => x.worker)))} ms; preparing it to send: median ${f(median(mine.map((x) => x.send)))} ms; taking the result in: median ${f(median(mine.map((x) => x.takeIn)))} ms`);
     if (withCorners) console.log(`  single-value edit → fresh corner findings: median ${f(median(toCorners))} ms (${toCorners.map(f).join(', ')})`);
     console.log(`  hover while editing: n=${hovers.length} median ${f(median(hovers))} ms p99 ${f(p99(hovers))} ms; inlay hints: median ${f(median(inlays))} ms p99 ${f(p99(inlays))} ms`);
+    // Which requests set the p99s: the slowest ones, with the edit they were sent during and what the server logged
+    // while they waited (a collection, a result taken in), so a slow answer can be told from a slow phase.
+    const slowest = [...requests].sort((a, b) => b.ms - a.ms).slice(0, 4);
+    for (const r of slowest) {
+      const meanwhile = logLines.filter((l) => l.at >= r.at && l.at <= r.at + r.ms).map((l) => l.message.slice(0, 200));
+      console.log(`    slow ${r.kind} ${f(r.ms)} ms: the ${r.nth}. of its kind, edit ${r.edit}, sent ${f(r.sinceEdit)} ms after the change${meanwhile.length ? `; logged meanwhile: ${meanwhile.join(' | ')}` : ''}`);
+    }
     await conn.sendNotification('textDocument/didClose', { textDocument: { uri } });
   }
 
