@@ -324,42 +324,52 @@ function checkPosition(pos: unknown): Position {
   return { line: Math.max(0, Math.floor(p.line)), character: Math.max(0, Math.floor(p.character)) };
 }
 
-/** Runs a request handler; an exception is logged and answered as an LSP error, never taking the server down. */
 /** When the editor last asked something; a full collection waits for a quiet moment so it does not land inside a hover. */
 let lastRequestAt = 0;
-/** Quiet time a deferred collection waits for. */
+/** Quiet time a deferred collection of a replaced analysis waits for. */
 const COLLECT_QUIET_MS = 300;
-/** Whether a collection is waiting for a quiet moment (one wait serves every analysis replaced meanwhile). */
-let collectionWaiting = false;
+/**
+ * Quiet time before a closed large netlist's analysis is collected: a short lull, so requests already coming in
+ * (the next document's) are answered first. Closing is a single event, not a stream of edits, and what the closed
+ * analysis holds is garbage from then on; waited for as long as a replaced one's, it stayed resident while the worker
+ * analysed the next netlist, whose edits grow the worker's heap by a few megabytes each until its own next collection:
+ * in `bench:server` the 2,000-element netlist's ten edits ran before the main thread's collection on a quiet machine,
+ * and the whole run peaked about 40 MB above the large netlist's take-in (docs/PERFORMANCE.md).
+ */
+const COLLECT_CLOSED_QUIET_MS = 50;
+/** The collection waiting for a quiet moment (one wait serves every analysis dropped meanwhile): its quiet time, timer and what it frees. */
+let collectionWaiting: { quietMs: number; timer: ReturnType<typeof setTimeout>; what: string[] } | undefined;
 
 /**
- * Runs `collect` once no request has arrived for COLLECT_QUIET_MS. It never runs while requests keep coming:
- * a forced full collection holds this thread for 200–500 ms at 50,000 elements, longer than any request may
- * wait, and V8 collects the garbage itself meanwhile, in small steps, when the heap needs it.
+ * Runs a full collection, freeing `what`, once no request has arrived for `quietMs`. It never runs while requests keep
+ * coming: a forced full collection holds this thread for 25–500 ms at 50,000 elements (by the machine's load), longer
+ * than any request may wait, and V8 collects the garbage itself meanwhile, in small steps, when the heap needs it. A
+ * wait already running serves the new garbage too, and takes the shorter quiet time of the two.
  */
-function whenQuiet(collect: () => void): void {
-  if (collectionWaiting) return;
-  collectionWaiting = true;
+function freeWhenQuiet(what: string, quietMs = COLLECT_QUIET_MS): void {
+  if (collectionWaiting) {
+    collectionWaiting.what.push(what);
+    if (collectionWaiting.quietMs <= quietMs) return;
+    clearTimeout(collectionWaiting.timer);
+  }
+  const list = collectionWaiting?.what ?? [what];
+  // Checked when the quiet time since the last request would end, not a whole quiet time after each check.
   const poll = () => {
-    if (Date.now() - lastRequestAt < COLLECT_QUIET_MS) {
-      setTimeout(poll, COLLECT_QUIET_MS).unref();
+    const wait = lastRequestAt + waiting.quietMs - Date.now();
+    if (wait > 0) {
+      waiting.timer = setTimeout(poll, wait).unref();
       return;
     }
-    collectionWaiting = false;
-    collect();
-  };
-  setTimeout(poll, COLLECT_QUIET_MS).unref();
-}
-
-/** Collects `what`, a large analysis that just became garbage, at the first quiet moment (see `whenQuiet`), and logs the pause. */
-function freeWhenQuiet(what: string): void {
-  whenQuiet(() => {
+    collectionWaiting = undefined;
     const t0 = Date.now();
     collectGarbage();
-    log(`Freed ${what} in ${Date.now() - t0} ms.`);
-  });
+    log(`Freed ${waiting.what.join(' and ')} in ${Date.now() - t0} ms.`);
+  };
+  const waiting = { quietMs, what: list, timer: setTimeout(poll, Math.max(0, lastRequestAt + quietMs - Date.now())).unref() };
+  collectionWaiting = waiting;
 }
 
+/** Runs a request handler; an exception is logged and answered as an LSP error, never taking the server down. */
 function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: P) => Promise<R> {
   return async (params: P) => {
     lastRequestAt = Date.now();
@@ -790,7 +800,7 @@ documents.onDidClose((e) => {
   converters.forget(uri);
   spreads.forget(uri);
   // A closed big netlist's analysis is garbage now: its memory goes back rather than stay until V8 needs the room.
-  if ((entry?.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the analysis of ${basename(uri)}, closed,`);
+  if ((entry?.analysis.circuit?.elements.length ?? 0) >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the analysis of ${basename(uri)}, closed,`, COLLECT_CLOSED_QUIET_MS);
   const touched = new Set<string>([uri, ...(entry ? Object.keys(entry.analysis.documents) : [])]);
   // Netlists that include the closed file now read it from disk again.
   for (const root of dependants(uri)) schedule(root);
