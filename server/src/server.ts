@@ -375,7 +375,6 @@ function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: 
     lastRequestAt = Date.now();
     // The protocol: after shutdown, every request but exit fails with InvalidRequest.
     if (shuttingDown) throw new ResponseError(ErrorCodes.InvalidRequest, `The server is shutting down; the ${name} request is not answered.`);
-    if (settling) await settling;
     try {
       return await fn(params);
     } catch (e) {
@@ -431,17 +430,6 @@ function dependants(uri: string): string[] {
   return [...out];
 }
 
-/** While the rest of a small result whose diagnostics were published is on its way: what requests wait for. */
-let settling: Promise<void> | undefined;
-let settled: (() => void) | undefined;
-
-/** Lets the requests waiting for a small result's rest go on (it was accepted, or will not be). */
-function settle(): void {
-  settled?.();
-  settling = undefined;
-  settled = undefined;
-}
-
 async function pump(): Promise<void> {
   if (running || shuttingDown) return;
   const next = queue.values().next();
@@ -472,31 +460,26 @@ async function pump(): Promise<void> {
   try {
     // Corners cost many solves: publish the nominal findings first, the corner findings after.
     const cornersLater = settings.options.corners?.enabled !== false;
-    // The diagnostics go out as soon as the findings are in. While a large result is taken in, hovers and the rest
-    // answer from the last analysis (a code action on a new diagnostic waits for that); while a small one's parts
-    // are merged (a few milliseconds), requests wait for it (`settling`), so each answers from the result whose
-    // diagnostics the editor has.
+    // A large result's diagnostics go out as soon as its findings are in; while the rest is taken in (seconds, in
+    // slices), hovers and the rest answer from the last analysis (a code action on a new diagnostic waits for that).
+    // A small result's go out when it is accepted, its merge (sliced too) a few milliseconds after its findings; until
+    // then requests answer from the last analysis, whose diagnostics the editor still has, so each answers from the
+    // result whose diagnostics the editor has. Published from its header instead, requests that arrived before its
+    // merge ended had to wait for all of it, and the first merges of a netlist are the slowest (V8 not yet warmed to
+    // them): those waits set the 2,000-element netlist's hover and inlay p99 (docs/PERFORMANCE.md).
     let early: Set<string> | undefined;
-    // A small result whose diagnostics went out is accepted even when an edit superseded it meanwhile: the editor's
-    // diagnostics come from it, and the requests held for it answer from it (they found no analysis at all before
-    // a document's first one).
-    let publishedSmall = false;
     const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
     const onFindings = (partial: Analysis, small: boolean) => {
-      if (!fresh(partial)) return;
+      if (small || !fresh(partial)) return false;
       early = new Set([uri, ...Object.keys(partial.documents)]);
       publish(early, uri, partial);
-      if (small) {
-        settling ??= new Promise<void>((r) => (settled = r));
-        publishedSmall = true;
-      }
+      return true;
     };
     const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
-    if (current && (current.version === analysis.version || publishedSmall)) {
+    if (current && current.version === analysis.version) {
       accept(uri, analysis, ms, early);
-      settle();
       // The corners are asked for once the result is taken in: see `solveCorners` in the worker for why not sooner.
       if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await collectCorners(uri, analysis));
     }
@@ -508,7 +491,6 @@ async function pump(): Promise<void> {
       if (!job.superseded) publishFailure(uri, message);
     }
   } finally {
-    settle();
     if (progressTimer) clearTimeout(progressTimer);
     progress?.done();
     running = undefined;

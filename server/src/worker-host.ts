@@ -276,9 +276,11 @@ export class WorkerHost {
        * `partial` has the header and the complete findings, enough to publish diagnostics. It is the object later
        * parts are merged into, and the one `analyse` returns: a `corners` request may name it (`of`) and its findings
        * may be added to, nothing else until it is returned. `small`: the rest is a small result's, which arrives
-       * whole in one message and is merged in a few milliseconds; a large one's is taken in slices.
+       * whole in one message and is merged in a few milliseconds; a large one's is taken in over many messages.
+       * Returns whether the caller made the findings public: a small result so announced is merged to its end even
+       * when its text is superseded meanwhile (else it is dropped at its next part, as a large one is).
        */
-      onFindings?: (partial: Analysis, small: boolean) => void;
+      onFindings?: (partial: Analysis, small: boolean) => boolean | void;
       /**
        * The result of an earlier `analyse` of this root that the caller holds: the new result shares the cards the
        * worker finds unchanged. `held` is left as it is until the caller adopts the result (`adoptKeptCards`), which
@@ -308,21 +310,19 @@ export class WorkerHost {
       throw new AnalysisStoppedError(`Taking in the analysis of ${uri} (version ${version}) was stopped after ${index} of ${msg.parts} parts: its text was superseded.`);
     };
     if (msg.partsFollow) {
-      const whole = await this.smallParts(msg, analysis, phases.onFindings);
+      const { whole, announced: inHeader } = await this.smallParts(msg, analysis, phases.onFindings);
       const t1 = Date.now();
-      // A small result's parts came whole; they are merged in slices all the same, so that an edit arriving meanwhile
-      // (an editor's next keystroke) is taken in at once. Until its findings are announced a superseded result is dropped
-      // at its next part; once they are (the caller may have published them, and hold requests for it), it is merged to
-      // its end, a few milliseconds.
-      const announcing = phases.onFindings !== undefined;
-      let announced = announcing && msg.findingParts === 0;
+      // A small result's parts came whole; they are merged in slices all the same, so that requests and an edit arriving
+      // meanwhile (an editor's next keystroke) are taken in at once. Until its findings are made public a superseded
+      // result is dropped at its next part; once they are (the caller answers from it), it is merged to its end, a few
+      // milliseconds.
+      let announced = inHeader;
       const steps = function* (): Generator<void, void, undefined> {
         for (let index = 0; index < whole.parts.length; index++) {
           if (!announced) stopIfSuperseded(index);
           yield* merge(index, whole.parts[index]!);
           if (index !== msg.findingParts - 1) continue;
-          phases.onFindings?.(analysis, true);
-          announced = announcing;
+          announced = phases.onFindings?.(analysis, true) === true;
         }
         yield* merger.finishSteps();
       };
@@ -340,18 +340,22 @@ export class WorkerHost {
 
   /**
    * The `parts` message of a small result whose header is `msg` (`analysis` restored from it), with the findings
-   * announced first when the header carries them; the parts are merged a turn later, after the writes the
-   * announcement queued.
+   * announced first when the header carries them (`announced`: the caller made them public); the parts are then merged
+   * a turn later, after the writes the announcement queued.
    */
-  private async smallParts(msg: Extract<FromWorker, { type: 'analysed' }>, analysis: Analysis, onFindings: ((partial: Analysis, small: boolean) => void) | undefined): Promise<Extract<FromWorker, { type: 'parts' }>> {
+  private async smallParts(
+    msg: Extract<FromWorker, { type: 'analysed' }>,
+    analysis: Analysis,
+    onFindings: ((partial: Analysis, small: boolean) => boolean | void) | undefined,
+  ): Promise<{ whole: Extract<FromWorker, { type: 'parts' }>; announced: boolean }> {
     const whole = this.following.get(msg.id);
     this.following.delete(msg.id);
     if (!whole) throw new Error('The worker announced the parts of a result that it then did not send.');
-    if (msg.findingParts === 0) onFindings?.(analysis, true);
+    const announced = msg.findingParts === 0 && onFindings?.(analysis, true) === true;
     const answer = await whole;
     if (answer.type !== 'parts') throw this.failure(answer);
-    if (msg.findingParts === 0 && onFindings) await new Promise((r) => setImmediate(r));
-    return answer;
+    if (announced) await new Promise((r) => setImmediate(r));
+    return { whole: answer, announced };
   }
 
   /**
@@ -362,7 +366,7 @@ export class WorkerHost {
     msg: Extract<FromWorker, { type: 'analysed' }>,
     merge: (index: number, part: AnalysisPart) => Generator<void, void, undefined>,
     stopIfSuperseded: (index: number) => void,
-    onFindings: ((partial: Analysis, small: boolean) => void) | undefined,
+    onFindings: ((partial: Analysis, small: boolean) => boolean | void) | undefined,
     uri: string,
   ): Promise<void> {
     const next = msg.pushed ? this.pushedParts(msg.id, uri) : this.requestedParts(msg, uri);

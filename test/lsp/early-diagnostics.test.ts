@@ -1,6 +1,7 @@
-// A small result's diagnostics go out from its header, before the rest of it is taken in: requests that arrive in
-// between wait for that rest, so each answers from the analysis whose diagnostics the editor has. Checked through the
-// built server over stdio, against the engine's cold analysis of each edited text in this process.
+// A small result's diagnostics go out when the whole of it is taken in and accepted; requests that arrive before then
+// answer from the last analysis, whose diagnostics the editor still has: so each answers from the analysis whose
+// diagnostics the editor has. Checked through the built server over stdio, against the engine's cold analysis of each
+// edited text in this process.
 
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CodeActionRequest, HoverRequest, PublishDiagnosticsNotification, type CodeAction, type Hover, type MarkupContent, type PublishDiagnosticsParams } from 'vscode-languageserver-protocol/node';
@@ -60,7 +61,7 @@ function cold(text: string) {
   return analyse({ uri: URI, text, version: 1 }, new MemoryWorkspace({ [URI]: text }), { corners: { enabled: false } });
 }
 
-describe('diagnostics published from a small result header', () => {
+describe("a small result's diagnostics", () => {
   it('are the cold analysis findings, and a hover or code action sent on their arrival answers from that version', async () => {
     let text = netlist(...EDITS[0]!);
     server.open(URI, text, 1);
@@ -90,7 +91,8 @@ describe('diagnostics published from a small result header', () => {
 
   it('still serve requests when an edit arrives on their arrival: the analysis that was published is the one held', async () => {
     // A new document: the first diagnostics arrive, and at once the editor sends an edit and a hover (typing on). A
-    // ladder of 1,500 resistors makes the merge after the diagnostics take several slices, so the edit arrives in it.
+    // ladder of 1,500 resistors makes the merge take several slices (when the diagnostics went out before it, the edit
+    // arrived in it).
     const uri = 'file:///qpoint-early/first.cir';
     const ladder = Array.from({ length: 1500 }, (_, i) => `RL${i} ${i === 0 ? 'vcc' : `l${i}`} ${i === 1499 ? '0' : `l${i + 1}`} 1k`).join('\n');
     const withLadder = (text: string) => text.replace('.end', `${ladder}\n.end`);
@@ -103,7 +105,7 @@ describe('diagnostics published from a small result header', () => {
       });
     });
     server.open(uri, first, 1);
-    // Answered from version 1, whose diagnostics the editor has (before, the superseded result was dropped and the
+    // Answered from version 1, whose diagnostics the editor has (once, the superseded result was dropped and the
     // hover found no analysis of the document at all).
     const shown = ((await hover)?.contents as MarkupContent | undefined)?.value ?? '';
     expect(shown.split('\n')[0]).toBe(hoverAt(cold(first), URI, first.indexOf('RREF') + 1)!.markdown.split('\n')[0]);

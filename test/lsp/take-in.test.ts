@@ -59,7 +59,8 @@ describe('taking a result in', () => {
       expect(events.length).toBeGreaterThan(33);
       expect(analysis.circuit?.elements.length).toBe(7005);
       // A small result (1,200 rungs: fewer parts, which come whole in one message) is announced from its header too,
-      // before any part is merged, and marked small (the server holds requests for the few milliseconds of the merge).
+      // before any part is merged, and marked small (the server publishes a small result's findings when it is accepted,
+      // a few milliseconds later, and answers requests from the last analysis meanwhile).
       const smallText = netlist(1200);
       host.setDocument(URI, smallText);
       const announced: { findings: string; elements: number; small: boolean }[] = [];
@@ -68,7 +69,9 @@ describe('taking a result in', () => {
         onPart: () => {
           if (announced.length === 0) partsBeforeAnnounced++;
         },
-        onFindings: (partial, isSmall) => announced.push({ findings: JSON.stringify(partial.findings), elements: partial.circuit?.elements.length ?? 0, small: isSmall }),
+        onFindings: (partial, isSmall) => {
+          announced.push({ findings: JSON.stringify(partial.findings), elements: partial.circuit?.elements.length ?? 0, small: isSmall });
+        },
       });
       const smallDirect = analyse({ uri: URI, text: smallText, version: 2 }, new MemoryWorkspace({ [URI]: smallText }), { corners: { enabled: false } });
       expect(announced).toEqual([{ findings: JSON.stringify(smallDirect.findings), elements: 0, small: true }]);
