@@ -70,6 +70,18 @@ const ELEMENT_PARAMS: Record<string, { used: string[]; silent: string[] }> = nam
 /** Nodes per element letter (a Q may add a fourth, substrate node). */
 const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I: 2, E: 4, G: 4, F: 2, H: 2, D: 2, Q: 3, M: 4, J: 3, S: 4, W: 2, B: 2, T: 4 });
 
+/**
+ * An element's origin, with `valueSpan` and `modelSpan` only when given, in that order. Each combination is a literal
+ * of its own: every element's origin is kept for the whole analysis, and fields added to a literal's object after it
+ * is made are kept in a second object (docs/PERFORMANCE.md, "What the run keeps and the collector at 100k").
+ */
+function elementOrigin(uri: string, span: Span, nodeSpans: Span[], instances: Origin['instances'], valueSpan: Span | undefined, modelSpan: Span | undefined): Origin {
+  if (valueSpan && modelSpan) return { uri, span, nodeSpans, instances, valueSpan, modelSpan };
+  if (valueSpan) return { uri, span, nodeSpans, instances, valueSpan };
+  if (modelSpan) return { uri, span, nodeSpans, instances, modelSpan };
+  return { uri, span, nodeSpans, instances };
+}
+
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
   for (const { card, uri } of def.body.items) {
@@ -544,15 +556,8 @@ class Elaborator {
     }
     const params = this.elementParams(card, uri);
     const name = inst.prefix + card.name.text;
-    const origin: Origin = {
-      uri,
-      span: card.span,
-      nodeSpans: card.nodes.map((t) => t.span),
-      instances: inst.instances,
-    };
     const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
-    if (valueToken) origin.valueSpan = valueToken.span;
-    if (card.model) origin.modelSpan = card.model.span;
+    const origin = elementOrigin(uri, card.span, card.nodes.map((t) => t.span), inst.instances, valueToken?.span, card.model?.span);
 
     let element: Element | undefined;
     switch (card.letter) {

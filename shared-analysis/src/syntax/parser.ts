@@ -117,6 +117,8 @@ interface Context {
   cardProblems: number;
   /** Open `.if` cards, innermost last. */
   conditions: ConditionCard[];
+  /** The text of each field after a card's first one met so far, so a node or model name written on many cards is kept once (`makeToken`). */
+  words: Map<string, string>;
 }
 
 /** At most this many problems are listed per card; the rest are summed up in one more. */
@@ -129,7 +131,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [] };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map() };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -253,7 +255,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
  * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
  */
 export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [] };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map() };
   return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
 }
 
@@ -406,7 +408,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [] };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map() };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -618,6 +620,22 @@ function makeToken(text: string, lx: Lexeme): Token {
   return lx.token;
 }
 
+/**
+ * `makeToken` for a field after a card's first, whose text is taken from `ctx.words` when an earlier field had the
+ * same text: node, model and value fields repeat from card to card (a node is written on every card that connects
+ * to it), and every card is kept for the whole analysis, so each repeat would otherwise keep a string of its own.
+ * A card's first field (its name or dot command) is mostly its own, and is not looked up.
+ */
+function makeSharedToken(ctx: Context, lx: Lexeme): Token {
+  if (!lx.token) {
+    const own = ctx.text.slice(lx.start, lx.end);
+    let shared = ctx.words.get(own);
+    if (shared === undefined) ctx.words.set(own, (shared = own));
+    lx.token = { text: shared, span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+  }
+  return lx.token;
+}
+
 /** Joins `name = value` into assignments and reports `=` without a name or value. */
 function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
   const { text } = ctx;
@@ -690,7 +708,10 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   if (special) return special;
   const lx = lexCard(ctx, segments);
   const fields: Token[] = [];
-  for (const l of lx) if (l.type === 'word' || l.type === 'expr') fields.push(makeToken(text, l));
+  for (let k = 0; k < lx.length; k++) {
+    const l = lx[k]!;
+    if (l.type === 'word' || l.type === 'expr') fields.push(k === 0 ? makeToken(text, l) : makeSharedToken(ctx, l));
+  }
   // The card keeps its tokens as long as its document: a list of its own length.
   const tokens = trimmed(fields);
 
@@ -932,6 +953,38 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = nameTable
   N: { noun: 'a model-defined device', needs: 'its nodes and a model name' },
 });
 
+/** The node list of an element card that has none, and the parameter list of one that gives none: one shared list, frozen. */
+const NO_TOKENS: Token[] = Object.freeze([]) as unknown as Token[];
+const NO_ASSIGNMENTS: Assignment[] = Object.freeze([]) as unknown as Assignment[];
+
+/** A card's assignments as it keeps them: the shared empty list when there are none, else a list of their own length. */
+function keptAssignments(list: Assignment[]): Assignment[] {
+  return list.length === 0 ? NO_ASSIGNMENTS : trimmed(list);
+}
+
+/**
+ * An element card as `parse` makes it: every card of a netlist is kept for the whole analysis, and most are
+ * element cards. Made by a constructor, not a literal, so V8 reserves room inside the object for the fields a
+ * letter adds after it is made (`value`, `model`, `source`, ...); a literal's object has room for its own fields
+ * only and keeps later ones in a second object (docs/PERFORMANCE.md, "What the run keeps and the collector at 100k").
+ * Its fields and their order are a literal's; only fields that are set exist.
+ */
+class ParsedElementCard {
+  kind: 'element' = 'element';
+  letter: ElementLetter;
+  name: Token;
+  nodes: Token[] = NO_TOKENS;
+  params: Assignment[] = NO_ASSIGNMENTS;
+  span: Span;
+  tokens: Token[];
+  constructor(letter: ElementLetter, name: Token, span: Span, tokens: Token[]) {
+    this.letter = letter;
+    this.name = name;
+    this.span = span;
+    this.tokens = tokens;
+  }
+}
+
 function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
   const c0 = name.text.charCodeAt(0) | 0x20;
   if (!(c0 >= 97 && c0 <= 122)) {
@@ -947,7 +1000,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
   const L = name.text.charAt(0).toUpperCase() as ElementLetter;
   const owner = name.text;
   const need = ELEMENT_NEEDS[L];
-  const card: ElementCard = { kind: 'element', letter: L, name, nodes: [], params: [], span, tokens };
+  const card: ElementCard = new ParsedElementCard(L, name, span, tokens);
 
   // Unsupported forms are recognised first so the message names them instead of counting fields.
   // Only fields after the two output nodes count, and a keyword counts only when written as a form
@@ -1041,7 +1094,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
         }
       }
       for (const t of leftover) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs.filter((a) => a !== valueAsg || card.value !== a.value);
+      card.params = keptAssignments(asgs.filter((a) => a !== valueAsg || card.value !== a.value));
       return card;
     }
     case 'V':
@@ -1058,7 +1111,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const result = parseSource(ctx, owner, L, items.slice(start), span, tokens);
       if ('kind' in result) return result;
       card.source = result.source;
-      card.params = result.params;
+      card.params = keptAssignments(result.params);
       return card;
     }
     case 'E':
@@ -1067,7 +1120,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       card.nodes = pos.slice(0, 4);
       card.value = pos[4];
       for (const t of pos.slice(5)) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'F':
@@ -1077,7 +1130,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       card.control = pos[2];
       card.value = pos[3];
       for (const t of pos.slice(4)) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'D': {
@@ -1098,7 +1151,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const rest = kept.slice(3);
       if (rest.length > 0 && isNumberLike(rest[0])) card.area = rest.shift();
       for (const t of rest) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'Q': {
@@ -1129,7 +1182,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const after = rest.slice(m + 1);
       if (after.length > 0) card.area = after.shift();
       for (const t of after) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'M': {
@@ -1148,7 +1201,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
         );
       }
       for (const t of kept.slice(5)) unexpected(ctx, owner, t, `${need.noun} uses (write sizes as W= and L=)`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'X': {
@@ -1165,7 +1218,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (before.length < 1) return missing(0);
       card.subckt = before[before.length - 1];
       card.nodes = before.slice(0, -1);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     // J is solved; Z and the letters below are read into cards for a later solver, and the elaborator leaves them out of the circuit.
@@ -1178,7 +1231,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const rest = kept.slice(4);
       if (rest.length > 0 && isNumberLike(rest[0]!)) card.area = rest.shift();
       for (const t of rest) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'S':
@@ -1191,7 +1244,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (L === 'W') card.control = kept[2];
       card.model = kept[need2 - 1];
       for (const t of kept.slice(need2)) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'B': {
@@ -1199,21 +1252,21 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (pos.length < 2 || !expr) return missing(pos.length);
       card.nodes = pos.slice(0, 2);
       card.value = expr.value;
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'K': {
       if (pos.length < 3) return missing(pos.length);
       card.coupled = pos.slice(0, -1);
       card.value = pos[pos.length - 1];
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'T':
     case 'Y': {
       if (pos.length < 2) return missing(pos.length);
       card.nodes = pos;
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
     case 'O':
@@ -1224,7 +1277,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       if (pos.length < 2) return missing(pos.length);
       card.nodes = pos.slice(0, -1);
       card.model = pos[pos.length - 1];
-      card.params = asgs;
+      card.params = keptAssignments(asgs);
       return card;
     }
   }
