@@ -147,8 +147,11 @@ function remember(o: object, seen: Set<object>): boolean {
  */
 export function keepFinite(findings: readonly Finding[], parts: Record<string, unknown>, uri: string): Finding | undefined {
   const removed: string[] = [];
-  for (const f of findings) if (f.data) dropNonFinite(f.data, `${f.code}.data`, removed);
-  for (const [name, part] of Object.entries(parts)) dropNonFinite(part, name, removed);
+  // One memory of walked containers for all: a part that holds what an earlier one held (the file's spread outputs are
+  // the structures' spreads) is not walked again, and what the first walk removed it named under its first path then.
+  const seen = new Set<object>();
+  for (const f of findings) if (f.data) dropNonFinite(f.data, `${f.code}.data`, removed, seen);
+  for (const [name, part] of Object.entries(parts)) dropNonFinite(part, name, removed, seen);
   if (removed.length === 0) return undefined;
   const named = removed.slice(0, MAX_PATHS_NAMED).map((p) => `\`${p}\``).join(', ');
   const more = removed.length > MAX_PATHS_NAMED ? ` and ${removed.length - MAX_PATHS_NAMED} more` : '';

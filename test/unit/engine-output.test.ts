@@ -206,6 +206,43 @@ describe('finite numbers only', () => {
     expect(list).toEqual([2]);
   });
 
+  it('names a value that two parts share once, under the first part, and walks the shared object once', () => {
+    // keepFinite walks its parts with one memory of containers: the file's spread outputs are the structures' spreads.
+    const shared = { sigma: NaN, supplyPercentPerVolt: { V1: 2 } };
+    const own = { nominal: Infinity, supplyPercentPerVolt: { V1: 1 } };
+    const findings: Finding[] = [];
+    const f = keepFinite(findings, { structures: [{ variation: { iref: shared } }], variation: { outputs: [shared, own] } }, URI)!;
+    expect(f.data).toEqual({ paths: ['structures[0].variation.iref.sigma', 'variation.outputs[1].nominal'], count: 2 });
+    expect(shared).toEqual({ supplyPercentPerVolt: { V1: 2 } });
+    expect(own).toEqual({ supplyPercentPerVolt: { V1: 1 } });
+  });
+
+  it('finds a value that is not finite put into each part of a real analysis, with its path', () => {
+    // A resistor-fed NPN mirror (invented values): structures, the spread and corners all present.
+    const text = 'Mirror\nVCC vcc 0 5\nRR vcc r 10k\nQ1 r r 0 qn\nQ2 o r 0 qn\nRL vcc o 2k\n.model qn NPN (IS=1e-15 BF=100 VAF=60)\n.end\n';
+    const fresh = () => analyse({ uri: URI, text }, new MemoryWorkspace({}));
+    const parts = (a: ReturnType<typeof fresh>) => ({ operatingPoint: a.operatingPoint, structures: a.structures, variation: a.variation });
+    const clean = fresh();
+    expect(clean.findings.some((f) => f.code === 'value-not-finite')).toBe(false);
+    expect(clean.structures.length).toBeGreaterThan(0);
+    expect(clean.variation?.outputs.length).toBeGreaterThan(0);
+    expect(keepFinite(clean.findings, parts(clean), URI)).toBeUndefined();
+    const injections: [string, (a: ReturnType<typeof fresh>) => void][] = [
+      ['operatingPoint.temperatureC', (a) => void ((a.operatingPoint as unknown as Record<string, unknown>)['temperatureC'] = NaN)],
+      ['structures[0].headroom.Q2', (a) => void ((a.structures[0]!.headroom as Record<string, number>)['Q2'] = Infinity)],
+      ['structures[0].solved.iref', (a) => void (a.structures[0]!.solved!.iref = -Infinity)],
+      ['structures[0].variation.iref.sigma', (a) => void (a.structures[0]!.variation!.iref!.sigma = NaN)],
+      ['variation.stats.adjointSolves', (a) => void ((a.variation!.stats as unknown as Record<string, unknown>)['adjointSolves'] = NaN)],
+    ];
+    for (const [path, inject] of injections) {
+      const a = fresh();
+      inject(a);
+      const f = keepFinite(a.findings, parts(a), URI);
+      expect(f?.code, path).toBe('value-not-finite');
+      expect(f!.data, path).toEqual({ paths: [path], count: 1 });
+    }
+  });
+
   it('leaves typed arrays and finite data alone', () => {
     const removed: string[] = [];
     const data = { a: new Float64Array([NaN]), b: [0, -0, 1e308], c: { d: 'NaN' } };
