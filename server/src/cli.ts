@@ -814,14 +814,15 @@ function structuresForJson(structures: readonly Structure[], detail: JsonDetail,
 function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: string) => string): Record<string, unknown> {
   const out: Record<string, unknown> = {};
   const fields = s as unknown as Record<string, unknown>;
-  for (const k of Object.keys(s)) {
+  const keys = Object.keys(s);
+  for (let i = 0; i < keys.length; i++) {
+    const k = keys[i]!;
     if (k === 'corners') {
       const summary = cornerSummary(s, keyOf);
       if (summary) out['cornerSummary'] = summary;
       if (detail.allCorners) out['corners'] = s.corners;
     } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
-      const { steps: _steps, ...estimate } = s.estimate;
-      out[k] = estimate;
+      out[k] = withoutMember(s.estimate as unknown as Record<string, unknown>, 'steps');
     } else if (k === 'variation' && s.variation) {
       out[k] = structureSpreadForJson(s.variation, detail);
     } else out[k] = fields[k];
@@ -829,15 +830,35 @@ function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: strin
   return out;
 }
 
+/**
+ * `o`'s own enumerable members but `left` (what JSON shows of an object rest `{ [left]: _, ...rest }`), copied by a
+ * loop: the rest was a runtime call per structure.
+ */
+function withoutMember(o: Record<string, unknown>, left: string): Record<string, unknown> {
+  const out: Record<string, unknown> = {};
+  const keys = Object.keys(o);
+  for (let i = 0; i < keys.length; i++) {
+    const k = keys[i]!;
+    if (k !== left) out[k] = o[k];
+  }
+  return out;
+}
+
 /** A structure's spread as JSON shows it: every output (`iref`, and each of `iout` and `voltages`) through `spreadForJson`. */
 function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: JsonDetail): unknown {
   const out: Record<string, unknown> = {};
-  for (const [k, x] of Object.entries(v)) {
+  const fields = v as unknown as Record<string, unknown>;
+  const keys = Object.keys(v);
+  for (let i = 0; i < keys.length; i++) {
+    const k = keys[i]!;
+    const x = fields[k];
     if (x === undefined) continue;
     if (k === 'iref') out[k] = spreadForJson(x as OutputVariation, detail, true);
     else {
+      const outputs = x as Record<string, OutputVariation>;
       const table = nameTable<unknown>();
-      for (const [name, o] of Object.entries(x as Record<string, OutputVariation>)) table[name] = spreadForJson(o, detail, true);
+      const names = Object.keys(outputs);
+      for (let j = 0; j < names.length; j++) table[names[j]!] = spreadForJson(outputs[names[j]!]!, detail, true);
       out[k] = table;
     }
   }
@@ -854,7 +875,7 @@ const CONTRIBUTORS_BY_DEFAULT = 3;
  * `key` (`<id> iref`, `<id> out <device>`, `<id> voltage <name>`). About a twelfth of a large
  * array's structures; written for the outputs outside structures, which have no such place.
  */
-const IMPLIED_IN_STRUCTURE = new Set(['structure', 'output', 'element', 'unit', 'key']);
+const IMPLIED_IN_STRUCTURE: readonly string[] = ['structure', 'output', 'element', 'unit', 'key'];
 
 /**
  * One output's spread as JSON shows it: its three largest contributors (what dominates, as the
@@ -870,12 +891,20 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
   const out: Record<string, unknown> = {};
   const fields = o as unknown as Record<string, unknown>;
   const breakdown = !!detail.spreadBreakdown;
-  for (const k of Object.keys(o)) {
-    if (inStructure && IMPLIED_IN_STRUCTURE.has(k)) continue;
+  const keys = Object.keys(o);
+  for (let i = 0; i < keys.length; i++) {
+    const k = keys[i]!;
+    if (inStructure && impliedInStructure(k)) continue;
     if (breakdown || (k !== 'contributors' && k !== 'sensitivities')) out[k] = fields[k];
   }
   if (!breakdown) out['contributors'] = leadingContributors(o, CONTRIBUTORS_BY_DEFAULT);
   return out;
+}
+
+/** Whether `k` is one of `IMPLIED_IN_STRUCTURE` (compared in a loop: a set's look-up was a call per member of every output). */
+function impliedInStructure(k: string): boolean {
+  for (let i = 0; i < IMPLIED_IN_STRUCTURE.length; i++) if (IMPLIED_IN_STRUCTURE[i] === k) return true;
+  return false;
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */
