@@ -348,7 +348,7 @@ let collectionWaiting: { quietMs: number; timer: ReturnType<typeof setTimeout>; 
  */
 function freeWhenQuiet(what: string, quietMs = COLLECT_QUIET_MS): void {
   if (collectionWaiting) {
-    collectionWaiting.what.push(what);
+    if (!collectionWaiting.what.includes(what)) collectionWaiting.what.push(what);
     if (collectionWaiting.quietMs <= quietMs) return;
     clearTimeout(collectionWaiting.timer);
   }
