@@ -20,6 +20,8 @@ export class CornerStarts {
   private readonly solutions = new Map<string, Float64Array>();
   /** Corners that move fewer axes than this are kept as the base of a prediction. */
   private readonly keepBelow: number;
+  /** The one vector every prediction is written into (a vector per predicted corner was 8 MB of typed arrays at 100,000 elements). */
+  private predicted: Float64Array | undefined;
 
   constructor(
     specs: readonly CornerSpec[],
@@ -38,12 +40,16 @@ export class CornerStarts {
     return this.moved.map((_, k) => k).sort((a, b) => this.moved[a].length - this.moved[b].length || a - b);
   }
 
-  /** The predicted start of corner k, or undefined when it moves one axis or a corner of its base did not converge. */
+  /**
+   * The predicted start of corner k, or undefined when it moves one axis or a corner of its base did not converge.
+   * The vector is this object's own, overwritten by the next call: read it before asking for another corner's.
+   */
   start(k: number): Float64Array | undefined {
     const moved = this.moved[k];
     if (moved.length < 2) return undefined;
     const n = this.nominal.length;
-    const out = new Float64Array(n);
+    const out = (this.predicted ??= new Float64Array(n));
+    out.fill(0);
     const levels = this.levels[k];
     // Every proper subset of the moved axes, as a bit mask over `moved`: sign + for |S| = m − 1, − for m − 2, ...
     for (let mask = 0; mask < (1 << moved.length) - 1; mask++) {

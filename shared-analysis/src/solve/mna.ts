@@ -232,9 +232,9 @@ export class MnaLayout {
     this.resistorStamps = new ResistorStamps(els.length);
     // Room for the usual count of pattern entries (a diagonal per node, four per element), so the index rarely grows.
     const expected = nodeCount + 4 * els.length;
-    this.entries = new EntryIndex(expected);
     this.rowsList = new Int32List(expected);
     this.colsList = new Int32List(expected);
+    this.entries = new EntryIndex(expected, this.rowsList, this.colsList);
     this.linearList = new Float64Array(expected);
 
     // Node diagonals are always in the pattern so shunts can be added without changing it.
@@ -242,7 +242,8 @@ export class MnaLayout {
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
     const builders = this.stampElements(internalOf);
     this.pattern = { n: this.size, rows: this.rowsList.toArray(), cols: this.colsList.toArray() };
-    this.linearValues = this.linearList.slice(0, this.rowsList.length);
+    // A view, not a copy (see `Int32List.toArray`): the list is not written after this but through `linearValues`.
+    this.linearValues = this.linearList.subarray(0, this.rowsList.length);
     this.deviceOrder = this.buildTables(builders, els.length);
   }
 
@@ -630,9 +631,9 @@ export class MnaLayout {
     let p = this.entries.get(row, col);
     if (p < 0) {
       p = this.rowsList.length;
-      this.entries.set(row, col, p);
       this.rowsList.push(row);
       this.colsList.push(col);
+      this.entries.set(row, col, p);
       if (p === this.linearList.length) {
         const grown = new Float64Array(2 * p);
         grown.set(this.linearList);
@@ -681,23 +682,25 @@ export class MnaLayout {
 }
 
 /**
- * (row, col) → pattern position, by open addressing over typed arrays. A Map keyed by row·n + col
+ * (row, col) → pattern position, by open addressing over a typed array. A Map keyed by row·n + col
  * held a boxed number for every key past 2³⁰ (n above 32,768 unknowns) and cost about half of the
- * layout's time at 100,000 elements.
+ * layout's time at 100,000 elements. A slot holds only the position: the row and column of a position
+ * are the layout's own pattern lists (`rows`, `cols`), so the index does not keep them a second time
+ * (two arrays of a million slots at 100,000 elements, which counted towards V8's next full collection).
  */
 class EntryIndex {
-  private rows: Int32Array;
-  private cols: Int32Array;
   /** Position + 1 at each slot, 0 for an empty slot. */
   private slots: Int32Array;
   private count = 0;
 
-  /** An index with room for `expected` entries before it grows (at most half its slots in use). */
-  constructor(expected: number) {
+  /** An index with room for `expected` entries before it grows (at most half its slots in use), over the pattern lists `rows` and `cols`. */
+  constructor(
+    expected: number,
+    private readonly rows: Int32List,
+    private readonly cols: Int32List,
+  ) {
     let size = 1024;
     while (size < 2 * expected) size *= 2;
-    this.rows = new Int32Array(size);
-    this.cols = new Int32Array(size);
     this.slots = new Int32Array(size);
   }
 
@@ -707,11 +710,11 @@ class EntryIndex {
     for (let h = slotHash(row, col) & mask; ; h = (h + 1) & mask) {
       const p = this.slots[h];
       if (p === 0) return -1;
-      if (this.rows[h] === row && this.cols[h] === col) return p - 1;
+      if (this.rows.at(p - 1) === row && this.cols.at(p - 1) === col) return p - 1;
     }
   }
 
-  /** Records the position of a (row, col) that has none yet. */
+  /** Records the position of a (row, col) that has none yet; the pattern lists hold (row, col) at `position` already. */
   set(row: number, col: number, position: number): void {
     if (2 * (this.count + 1) > this.slots.length) this.grow();
     this.place(row, col, position + 1);
@@ -722,17 +725,13 @@ class EntryIndex {
     const mask = this.slots.length - 1;
     let h = slotHash(row, col) & mask;
     while (this.slots[h] !== 0) h = (h + 1) & mask;
-    this.rows[h] = row;
-    this.cols[h] = col;
     this.slots[h] = stored;
   }
 
   private grow(): void {
-    const { rows, cols, slots } = this;
-    this.rows = new Int32Array(2 * slots.length);
-    this.cols = new Int32Array(2 * slots.length);
+    const { slots } = this;
     this.slots = new Int32Array(2 * slots.length);
-    for (let h = 0; h < slots.length; h++) if (slots[h] !== 0) this.place(rows[h], cols[h], slots[h]);
+    for (let h = 0; h < slots.length; h++) if (slots[h] !== 0) this.place(this.rows.at(slots[h] - 1), this.cols.at(slots[h] - 1), slots[h]);
   }
 }
 
@@ -764,9 +763,13 @@ class Int32List {
     return this.data[k];
   }
 
-  /** The entries, exactly `length` long: the list's own buffer when it is full (the list is not pushed to after), else a copy. */
+  /**
+   * The entries, exactly `length` long: the list's own buffer when it is full, else a view of its first `length`
+   * entries (the list is not pushed to after). A copy allocated the pattern's lists a second time (about 1.6 MB at
+   * 100,000 elements), and typed-array memory, garbage or not, brings V8's next full collection nearer.
+   */
   toArray(): Int32Array {
-    return this.length === this.data.length ? this.data : this.data.slice(0, this.length);
+    return this.length === this.data.length ? this.data : this.data.subarray(0, this.length);
   }
 }
 
