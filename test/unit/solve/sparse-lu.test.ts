@@ -204,6 +204,58 @@ describe('SparseLU solutions agree with the dense LU', () => {
     expect(Array.from(x)).toEqual([2, 2]);
   });
 
+  it('gives the same bits whether every entry has a slot of its own or some share one', () => {
+    // A pattern without a repeated (row, col) is scattered slot by slot (each slot 0 + its entry); one with a repeat is
+    // cleared and added into. The same matrix both ways, the repeat adding +0 to an entry (x + 0 = x, and 0 + −0 = +0,
+    // IEEE 754 §6.3): the factors, hence the solutions, must be the same bits, scaled or not, with a −0 entry among them.
+    const { s, b } = mnaSystem(40, 3, 11);
+    const values = Float64Array.from(s.values);
+    values[5] = -0;
+    const repeated: System = {
+      pattern: { n: s.pattern.n, rows: Int32Array.of(...s.pattern.rows, s.pattern.rows[7]), cols: Int32Array.of(...s.pattern.cols, s.pattern.cols[7]) },
+      values: Float64Array.of(...values, 0),
+    };
+    const rand = rng(3);
+    const rowScale = Float64Array.from({ length: s.pattern.n }, () => 2 ** Math.floor(rand() * 20 - 10));
+    const colScale = Float64Array.from({ length: s.pattern.n }, () => 2 ** Math.floor(rand() * 20 - 10));
+    for (const scaled of [false, true]) {
+      const solve = (sys: System): Float64Array => {
+        const lu = new SparseLU(sys.pattern);
+        expect((scaled ? lu.factorScaled(sys.values, rowScale, colScale) : lu.factor(sys.values)).ok).toBe(true);
+        // A refactorisation too (the second factor reuses the pivots).
+        expect((scaled ? lu.factorScaled(sys.values, rowScale, colScale) : lu.factor(sys.values)).ok).toBe(true);
+        return lu.solve(b);
+      };
+      const own = solve({ pattern: s.pattern, values });
+      const shared = solve(repeated);
+      for (let i = 0; i < own.length; i++) expect(Object.is(own[i], shared[i])).toBe(true);
+    }
+  });
+
+  it('takes a −0 entry as 0 + (−0) = +0, as adding it into a cleared slot does', () => {
+    // A = [[1, 0], [−0, 1]], b = (1, −0): forward substitution gives y1 = −0 − L10·1, which is −0 − (+0) = −0 with
+    // the entry taken as +0 and −0 − (−0) = +0 with it kept as −0 (IEEE 754 §6.3). Source: arithmetic.
+    for (const rows of [Int32Array.of(0, 1, 1), Int32Array.of(1, 0, 1)]) {
+      const cols = rows[0] === 0 ? Int32Array.of(0, 1, 0) : Int32Array.of(0, 0, 1);
+      const values = rows[0] === 0 ? Float64Array.of(1, 1, -0) : Float64Array.of(-0, 1, 1);
+      const lu = new SparseLU({ n: 2, rows, cols }, { ordering: 'natural' });
+      expect(lu.factor(values).ok).toBe(true);
+      const x = lu.solve(Float64Array.of(1, -0));
+      expect(x[0]).toBe(1);
+      expect(Object.is(x[1], -0)).toBe(true);
+    }
+  });
+
+  it('names the first entry that is not finite in the pattern order, whichever column it is in', () => {
+    // Entries listed column 1 first: the NaN at (1, 1) comes before the one at (0, 0), so row 1 is named.
+    const pattern = { n: 2, rows: Int32Array.of(1, 0, 1), cols: Int32Array.of(1, 0, 0) };
+    const lu = new SparseLU(pattern);
+    expect(lu.factor(Float64Array.of(Number.NaN, Number.NaN, 1))).toEqual({ ok: false, singularIndex: 1 });
+    expect(lu.failure).toBe('non-finite-value');
+    expect(lu.factor(Float64Array.of(2, Infinity, 1))).toEqual({ ok: false, singularIndex: 0 });
+    expect(lu.factor(Float64Array.of(2, 1, 1)).ok).toBe(true);
+  });
+
   it('handles an empty system', () => {
     const lu = new SparseLU({ n: 0, rows: new Int32Array(0), cols: new Int32Array(0) });
     expect(lu.factor(new Float64Array(0))).toEqual({ ok: true });
