@@ -188,51 +188,57 @@ export class Topology {
   }
 
   private build(): SharedIndex {
+    // One loop per function: a function run once with several long loops is compiled again for each loop it enters
+    // (on-stack replacement), and the code after a loop is met without type feedback.
     const circuit = this.circuit;
     const nodeCount = circuit.nodes.length;
-    const nodeIndex = new Map<string, number>();
-    const elementIndex = new Map<string, number>();
-    const transistorElement: number[] = [];
-    for (let i = 0; i < nodeCount; i++) nodeIndex.set(circuit.nodes[i], i);
-    const elements = circuit.elements;
+    const nodeIndex = nodeIndexOf(circuit.nodes);
+    const elementIndex = elementIndexOf(circuit.elements);
     const rowStart = new Int32Array(nodeCount + 1);
-    const isNode = (n: number) => Number.isInteger(n) && n >= 0 && n < nodeCount;
+    const connections = this.countConnections(rowStart);
+    const transistorElement = this.addTransistors();
+    for (let n = 0; n < nodeCount; n++) rowStart[n + 1] += rowStart[n];
+    const rowElement = new Int32Array(connections);
+    const rowSlot = new Uint8Array(connections);
+    fillRows(circuit.elements, nodeCount, rowStart, rowElement, rowSlot);
+    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement };
+  }
+
+  /** Each node's connection count into `rowStart[n + 1]` (connections to stray node numbers listed apart); the count of the others. */
+  private countConnections(rowStart: Int32Array): number {
+    const elements = this.circuit.elements;
+    const nodeCount = this.circuit.nodes.length;
     let connections = 0;
     for (let k = 0; k < elements.length; k++) {
       const e = elements[k];
-      elementIndex.set(e.name, k);
-      for (let s = 0; s < incidentSlots(e); s++) {
+      const slots = incidentSlots(e);
+      for (let s = 0; s < slots; s++) {
         const n = e.nodes[s];
-        if (isNode(n)) {
+        if (isNodeOf(n, nodeCount)) {
           rowStart[n + 1]++;
           connections++;
         } else push(this.strayAttached, n, { element: e, slot: s });
       }
-      const t = asTransistor(e);
-      if (t) {
-        t.index = this.transistors.length;
-        t.nameIndex = this.byName.get(t.name)?.nameIndex ?? t.index;
-        this.transistors.push(t);
-        transistorElement.push(k);
-        this.byName.set(t.name, t);
-        push(this.byCtrl, t.ctrl, t);
-        push(this.byCommon, t.common, t);
-      }
     }
-    for (let n = 0; n < nodeCount; n++) rowStart[n + 1] += rowStart[n];
-    const rowElement = new Int32Array(connections);
-    const rowSlot = new Uint8Array(connections);
-    const next = rowStart.slice(0, nodeCount);
+    return connections;
+  }
+
+  /** The transistor views, by name and by control and common node; per transistor, its element's index. */
+  private addTransistors(): Int32Array {
+    const elements = this.circuit.elements;
+    const transistorElement: number[] = [];
     for (let k = 0; k < elements.length; k++) {
-      const e = elements[k];
-      for (let s = 0; s < incidentSlots(e); s++) {
-        const n = e.nodes[s];
-        if (!isNode(n)) continue;
-        rowElement[next[n]] = k;
-        rowSlot[next[n]++] = s;
-      }
+      const t = asTransistor(elements[k]);
+      if (!t) continue;
+      t.index = this.transistors.length;
+      t.nameIndex = this.byName.get(t.name)?.nameIndex ?? t.index;
+      this.transistors.push(t);
+      transistorElement.push(k);
+      this.byName.set(t.name, t);
+      push(this.byCtrl, t.ctrl, t);
+      push(this.byCommon, t.common, t);
     }
-    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement: Int32Array.from(transistorElement) };
+    return Int32Array.from(transistorElement);
   }
 
   /** Whether `n` is an index into `circuit.nodes`. */
@@ -305,6 +311,40 @@ export class Topology {
 
   nodeName(i: number): string {
     return this.circuit.nodes[i] ?? String(i);
+  }
+}
+
+/** Whether `n` is an index into a list of `nodeCount` nodes. */
+function isNodeOf(n: number, nodeCount: number): boolean {
+  return Number.isInteger(n) && n >= 0 && n < nodeCount;
+}
+
+/** Node name -> index. */
+function nodeIndexOf(nodes: readonly string[]): Map<string, number> {
+  const index = new Map<string, number>();
+  for (let i = 0; i < nodes.length; i++) index.set(nodes[i], i);
+  return index;
+}
+
+/** Element name -> index (the last element of a name). */
+function elementIndexOf(elements: readonly Element[]): Map<string, number> {
+  const index = new Map<string, number>();
+  for (let k = 0; k < elements.length; k++) index.set(elements[k].name, k);
+  return index;
+}
+
+/** Each connection to a node of the circuit at its place in the compressed rows, in element and then slot order. */
+function fillRows(elements: readonly Element[], nodeCount: number, rowStart: Int32Array, rowElement: Int32Array, rowSlot: Uint8Array): void {
+  const next = rowStart.slice(0, nodeCount);
+  for (let k = 0; k < elements.length; k++) {
+    const e = elements[k];
+    const slots = incidentSlots(e);
+    for (let s = 0; s < slots; s++) {
+      const n = e.nodes[s];
+      if (!isNodeOf(n, nodeCount)) continue;
+      rowElement[next[n]] = k;
+      rowSlot[next[n]++] = s;
+    }
   }
 }
 
