@@ -2,6 +2,7 @@
 
 import type { Card, Token } from './ast';
 import type { Span } from '../types';
+import { ParsedElementCard } from './element-card';
 
 /**
  * The position of a value among a card's tokens (by identity), or −1: a scan for the few tokens of
@@ -33,7 +34,9 @@ export function movedCard(card: Card, delta: number): Card {
     const t = from[i]!;
     tokens[i] = { text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind };
   }
-  const out: Record<string, unknown> = {};
+  // An element card's copy is made as the parser makes one (its fields are then set again in the card's order), so it
+  // keeps the layout of a parsed card rather than a grown literal's.
+  const out = (card.kind === 'element' ? new ParsedElementCard(card.letter, card.name, card.span, tokens) : {}) as Record<string, unknown>;
   const fields = card as unknown as Record<string, unknown>;
   for (const k in fields) out[k] = k === 'tokens' ? tokens : movedValue(fields[k], from, tokens, delta);
   return out as unknown as Card;
@@ -43,6 +46,8 @@ export function movedCard(card: Card, delta: number): Card {
 function movedValue(v: unknown, from: readonly Token[], tokens: Token[], delta: number): unknown {
   if (v === null || typeof v !== 'object') return v;
   if (Array.isArray(v)) {
+    // The parser's shared empty lists (frozen) hold nothing to move: the copy shares them too.
+    if (v.length === 0 && Object.isFrozen(v)) return v;
     const out: unknown[] = new Array(v.length);
     for (let i = 0; i < v.length; i++) out[i] = movedValue(v[i], from, tokens, delta);
     return out;

@@ -29,6 +29,7 @@ import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
 import { trimmed } from '../arrays';
+import { ParsedElementCard, keptAssignments } from './element-card';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -953,37 +954,6 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = nameTable
   N: { noun: 'a model-defined device', needs: 'its nodes and a model name' },
 });
 
-/** The node list of an element card that has none, and the parameter list of one that gives none: one shared list, frozen. */
-const NO_TOKENS: Token[] = Object.freeze([]) as unknown as Token[];
-const NO_ASSIGNMENTS: Assignment[] = Object.freeze([]) as unknown as Assignment[];
-
-/** A card's assignments as it keeps them: the shared empty list when there are none, else a list of their own length. */
-function keptAssignments(list: Assignment[]): Assignment[] {
-  return list.length === 0 ? NO_ASSIGNMENTS : trimmed(list);
-}
-
-/**
- * An element card as `parse` makes it: every card of a netlist is kept for the whole analysis, and most are
- * element cards. Made by a constructor, not a literal, so V8 reserves room inside the object for the fields a
- * letter adds after it is made (`value`, `model`, `source`, ...); a literal's object has room for its own fields
- * only and keeps later ones in a second object (docs/PERFORMANCE.md, "What the run keeps and the collector at 100k").
- * Its fields and their order are a literal's; only fields that are set exist.
- */
-class ParsedElementCard {
-  kind: 'element' = 'element';
-  letter: ElementLetter;
-  name: Token;
-  nodes: Token[] = NO_TOKENS;
-  params: Assignment[] = NO_ASSIGNMENTS;
-  span: Span;
-  tokens: Token[];
-  constructor(letter: ElementLetter, name: Token, span: Span, tokens: Token[]) {
-    this.letter = letter;
-    this.name = name;
-    this.span = span;
-    this.tokens = tokens;
-  }
-}
 
 function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
   const c0 = name.text.charCodeAt(0) | 0x20;

@@ -7,6 +7,7 @@
 
 import { describe, expect, it } from 'vitest';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { movedCard } from '../../../shared-analysis/src/syntax/moved-card';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import type { ElementCard } from '../../../shared-analysis/src/syntax/ast';
 import type { Workspace } from '../../../shared-analysis/src/types';
@@ -84,6 +85,28 @@ describe('element cards keep the fields that are set, in a literal order', () =>
     const [a, b] = byName.get('QR0')!.nodes;
     expect(a).not.toBe(b);
     expect(a!.span.start).toBeLessThan(b!.span.start);
+  });
+});
+
+describe('a card an edit moved keeps the parsed card\'s fields', () => {
+  it('has the same fields in the same order, every offset moved, and the unchanged texts', () => {
+    const delta = 7;
+    for (const card of cardsOf(NETLIST)) {
+      const moved = movedCard(card, delta) as ElementCard;
+      expect(Object.keys(moved), card.name.text).toEqual(Object.keys(card));
+      expect(moved.span).toEqual({ start: card.span.start + delta, end: card.span.end + delta });
+      expect(moved.tokens.map((t) => [t.text, t.span.start - delta, t.span.end - delta])).toEqual(card.tokens.map((t) => [t.text, t.span.start, t.span.end]));
+      // A field that holds a token holds the moved copy of it, found among the moved card's tokens.
+      expect(moved.tokens).toContain(moved.name);
+      for (const t of moved.nodes) expect(moved.tokens).toContain(t);
+      // The original is left as it was.
+      expect(card.tokens[0]!.span.start).toBe(NETLIST.indexOf(card.name.text + ' '));
+    }
+    const rr0 = cardsOf(NETLIST).find((c) => c.name.text === 'RR0')!;
+    const moved = movedCard(rr0, delta) as ElementCard;
+    expect(moved.params).toEqual([]);
+    expect(() => (moved.params as unknown[]).push(1)).toThrow(TypeError);
+    expect(moved.value!.text).toBe('10k');
   });
 });
 
