@@ -78,7 +78,7 @@ import {
   type PositionConverter,
 } from './to-lsp';
 import { structureOfResistor } from './sizing';
-import { AnalysisStoppedError, inSlices, WorkerHost, WorkerRestartedError } from './worker-host';
+import { AnalysisStoppedError, inSlices, MERGE_SLICE_MS, WorkerHost, WorkerRestartedError } from './worker-host';
 import { adoptKeptCards } from './analysis-transfer';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FrameError, StrictStreamReader } from './strict-reader';
@@ -375,6 +375,7 @@ function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: 
     lastRequestAt = Date.now();
     // The protocol: after shutdown, every request but exit fails with InvalidRequest.
     if (shuttingDown) throw new ResponseError(ErrorCodes.InvalidRequest, `The server is shutting down; the ${name} request is not answered.`);
+    if (settling) await settling;
     try {
       return await fn(params);
     } catch (e) {
@@ -430,6 +431,20 @@ function dependants(uri: string): string[] {
   return [...out];
 }
 
+/** While the rest of a small result whose diagnostics were published is merged: what requests wait for. */
+let settling: Promise<void> | undefined;
+let settled: (() => void) | undefined;
+
+/** Lets the requests waiting for a small result's rest go on (it was accepted, or will not be). */
+function settle(): void {
+  settled?.();
+  settling = undefined;
+  settled = undefined;
+}
+
+/** Per open root, how long its last small result's merge took (ms); see `pump` for what it decides. */
+const smallMergeMs = new Map<string, number>();
+
 async function pump(): Promise<void> {
   if (running || shuttingDown) return;
   const next = queue.values().next();
@@ -462,24 +477,35 @@ async function pump(): Promise<void> {
     const cornersLater = settings.options.corners?.enabled !== false;
     // A large result's diagnostics go out as soon as its findings are in; while the rest is taken in (seconds, in
     // slices), hovers and the rest answer from the last analysis (a code action on a new diagnostic waits for that).
-    // A small result's go out when it is accepted, its merge (sliced too) a few milliseconds after its findings; until
-    // then requests answer from the last analysis, whose diagnostics the editor still has, so each answers from the
-    // result whose diagnostics the editor has. Published from its header instead, requests that arrived before its
-    // merge ended had to wait for all of it, and the first merges of a netlist are the slowest (V8 not yet warmed to
-    // them): those waits set the 2,000-element netlist's hover and inlay p99 (docs/PERFORMANCE.md).
+    // A small result's go out from its header too when the root's last small merge fit in one slice: requests that
+    // arrive until it is accepted wait for that merge (`settling`), so each answers from the result whose diagnostics
+    // the editor has, and waits about as long as for a slice. Otherwise (a netlist's first results, whose merges are the
+    // slowest while V8 is not yet warmed to them, or a loaded machine) they go out when the result is accepted, and
+    // requests meanwhile answer from the last analysis, whose diagnostics the editor still has, between the merge's
+    // slices: waiting for all of such a merge set the 2,000-element netlist's hover and inlay p99 (docs/PERFORMANCE.md).
     let early: Set<string> | undefined;
+    // A small result whose diagnostics went out is accepted even when an edit superseded it meanwhile: the editor's
+    // diagnostics come from it, and the requests held for it answer from it.
+    let publishedSmall = false;
+    const earlySmall = (smallMergeMs.get(uri) ?? Number.POSITIVE_INFINITY) <= MERGE_SLICE_MS;
     const fresh = (a: Analysis) => !job.superseded && documents.get(uri)?.version === a.version;
     const onFindings = (partial: Analysis, small: boolean) => {
-      if (small || !fresh(partial)) return false;
+      if ((small && !earlySmall) || !fresh(partial)) return false;
       early = new Set([uri, ...Object.keys(partial.documents)]);
       publish(early, uri, partial);
+      if (small) {
+        settling ??= new Promise<void>((r) => (settled = r));
+        publishedSmall = true;
+      }
       return true;
     };
-    const { analysis, ms, sendMs, transferMs } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
+    const { analysis, ms, sendMs, transferMs, small } = await host.analyse(uri, job.version, settings.options, { cornersLater, onFindings, held: cache.get(uri)?.analysis });
+    if (small && documents.get(uri)) smallMergeMs.set(uri, transferMs);
     log(`Analysed ${basename(uri)} (version ${job.version}) in ${Math.round(ms)} ms in the worker, then ${Math.round(sendMs)} ms preparing it to send; taking the result in took ${transferMs} ms; ${Math.round(Date.now() - job.started)} ms in all.`);
     const current = documents.get(uri);
-    if (current && current.version === analysis.version) {
+    if (current && (current.version === analysis.version || publishedSmall)) {
       accept(uri, analysis, ms, early);
+      settle();
       // The corners are asked for once the result is taken in: see `solveCorners` in the worker for why not sooner.
       if (cornersLater && analysis.structures.length > 0 && !job.superseded) await addCornerResults(uri, analysis, await collectCorners(uri, analysis));
     }
@@ -491,6 +517,7 @@ async function pump(): Promise<void> {
       if (!job.superseded) publishFailure(uri, message);
     }
   } finally {
+    settle();
     if (progressTimer) clearTimeout(progressTimer);
     progress?.done();
     running = undefined;
@@ -779,6 +806,7 @@ documents.onDidClose((e) => {
   queue.delete(uri);
   const entry = cache.get(uri);
   cache.delete(uri);
+  smallMergeMs.delete(uri);
   converters.forget(uri);
   spreads.forget(uri);
   // A closed big netlist's analysis is garbage now: its memory goes back rather than stay until V8 needs the room.

@@ -288,7 +288,7 @@ export class WorkerHost {
        */
       held?: Analysis;
     } = {},
-  ): Promise<{ analysis: Analysis; ms: number; sendMs: number; transferMs: number }> {
+  ): Promise<{ analysis: Analysis; ms: number; sendMs: number; transferMs: number; small: boolean }> {
     const generation = this.generation();
     const held = phases.held && this.analysisIds.get(phases.held);
     const msg = await this.request((rid) => ({ type: 'analyse', id: rid, uri, version, options, cornersLater: phases.cornersLater, generation, held }), `The analysis of ${uri}`);
@@ -327,7 +327,7 @@ export class WorkerHost {
         yield* merger.finishSteps();
       };
       await inSlices(steps());
-      return { analysis, ms: msg.ms, sendMs: whole.sendMs, transferMs: Date.now() - t1 };
+      return { analysis, ms: msg.ms, sendMs: whole.sendMs, transferMs: Date.now() - t1, small: true };
     }
     try {
       await this.takeInParts(msg, merge, stopIfSuperseded, phases.onFindings, uri);
@@ -335,7 +335,7 @@ export class WorkerHost {
       this.inboxes.delete(msg.id);
     }
     await inSlices(merger.finishSteps());
-    return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0 };
+    return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0, small: false };
   }
 
   /**

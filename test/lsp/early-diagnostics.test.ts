@@ -1,7 +1,9 @@
-// A small result's diagnostics go out when the whole of it is taken in and accepted; requests that arrive before then
-// answer from the last analysis, whose diagnostics the editor still has: so each answers from the analysis whose
-// diagnostics the editor has. Checked through the built server over stdio, against the engine's cold analysis of each
-// edited text in this process.
+// A small result's diagnostics go out from its header when the netlist's last small merge fit in one slice (requests
+// that arrive until the rest is merged wait for it), else when the whole of it is taken in and accepted (requests that
+// arrive before then answer from the last analysis, whose diagnostics the editor still has): either way each answers
+// from the analysis whose diagnostics the editor has. Checked through the built server over stdio, against the
+// engine's cold analysis of each edited text in this process (the first versions take the second way, later ones
+// mostly the first).
 
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CodeActionRequest, HoverRequest, PublishDiagnosticsNotification, type CodeAction, type Hover, type MarkupContent, type PublishDiagnosticsParams } from 'vscode-languageserver-protocol/node';

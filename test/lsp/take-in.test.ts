@@ -59,8 +59,8 @@ describe('taking a result in', () => {
       expect(events.length).toBeGreaterThan(33);
       expect(analysis.circuit?.elements.length).toBe(7005);
       // A small result (1,200 rungs: fewer parts, which come whole in one message) is announced from its header too,
-      // before any part is merged, and marked small (the server publishes a small result's findings when it is accepted,
-      // a few milliseconds later, and answers requests from the last analysis meanwhile).
+      // before any part is merged, and marked small (the server publishes a small result's findings then only when the
+      // netlist's last small merge fit in one slice, and holds requests for the merge; else once the result is accepted).
       const smallText = netlist(1200);
       host.setDocument(URI, smallText);
       const announced: { findings: string; elements: number; small: boolean }[] = [];
