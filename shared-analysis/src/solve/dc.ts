@@ -390,7 +390,7 @@ export class DcSolver {
       pushAll(findings, this.behaviourFindings(converged || !firstPoint ? x : firstPoint));
     }
     const reuse = options.reuseResult === true ? (this.reused ??= {}) : undefined;
-    const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings, reuse);
+    const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings, reuse, options.pointOnly === true);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged && options.pointOnly !== true) pushAll(findings, this.postSolveFindings(x, op, structure));
     const out = reuse ? (reuse.x ??= new Float64Array(n)) : new Float64Array(n);
@@ -765,13 +765,16 @@ export class DcSolver {
    * The operating point at `x`: node voltages, two-terminal values and every device kind's columns
    * are computed now into typed arrays; the name-keyed `nodes` and `devices` tables are built only
    * when something reads them (see `lazyPoint`). Values beyond ±1e300 are found now, so the
-   * overflow finding is raised by the solve; the tables are then built at once to name them.
+   * overflow finding is raised by the solve; the tables are then built at once to name them. A solve for
+   * the point alone (`pointOnly`) raises no such finding: its device columns are not looked over (every
+   * record is, when it is made), which at 100,000 elements was eleven columns of 50,000 numbers a corner.
    */
   private buildOperatingPoint(
     x: Float64Array,
     head: { converged: boolean; temperatureC: number; iterations: number; fallbacks: Fallback[] },
     findings: Finding[],
-    reuse?: ReusedVectors,
+    reuse: ReusedVectors | undefined,
+    pointOnly: boolean,
   ): OperatingPoint {
     const c = this.circuit;
     const { tables, deviceOrder, readers } = this.layout;
@@ -786,11 +789,13 @@ export class DcSolver {
     const columns: DeviceColumns[] = tables.map((t, k) => t.evaluate(x, reuse?.columns?.[k]));
     if (reuse) reuse.columns = columns;
     let columnsInRange = true;
-    for (const col of columns) for (const q of col.values) if (!allInRecordRange(q)) columnsInRange = false;
+    if (!pointOnly) for (const col of columns) for (const q of col.values) if (!allInRecordRange(q)) columnsInRange = false;
     if (!columnsInRange) overflow = true;
+    if (pointOnly) overflow = false;
     // A record's numbers are its columns' (`DeviceKind.record`): with every column in range there is nothing to clamp.
-    // A reused result's columns are overwritten by the next solve, so its records are always looked over.
-    const clampsRecords = reuse !== undefined || !columnsInRange;
+    // A reused result's columns are overwritten by the next solve, and a point-only solve's were not looked over, so
+    // their records are always looked over.
+    const clampsRecords = reuse !== undefined || pointOnly || !columnsInRange;
     // The point's vectors outlive the solve: they hold what they read, not the solver (its matrix and factors, tens of
     // megabytes at 50,000 elements).
     const vectors = new SolvedVectors(c, tables, deviceOrder, readers, this.elementSlot, this.shapes, new SolvedValues(volts, tv, ti, columns), clampsRecords);

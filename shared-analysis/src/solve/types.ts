@@ -188,7 +188,8 @@ export interface SolveOptions {
   /**
    * The caller reads the point alone, none of the result's findings (the corner phase, which makes its own): the
    * solve leaves out the findings it would look for after the solve (every device asked whether a junction is
-   * overdriven, behavioural sources that cannot be evaluated, why Newton failed) and the netlist's static and structural
+   * overdriven, behavioural sources that cannot be evaluated, why Newton failed, results past ±1e300, whose device
+   * columns are then not looked over: a record made from them is, as it is made) and the netlist's static and structural
    * ones (floating nodes, voltage loops), so `findings` holds at most what the options themselves drew. The point, `x`
    * and the counters are the same.
    */

@@ -19,6 +19,12 @@ const OVERDRIVEN: Spec[] = [
   ['V', 'VD', 'a', '0', 3],
   ['D', 'D1', 'a', '0', D],
 ];
+/** A 1e300 V source into a 1e-300 Ω resistor: results past ±1e300, which a full solve reports (dc-value-overflow) and clamps. */
+const OVERFLOWING: Spec[] = [
+  ['V', 'V1', 'a', '0', 1e300],
+  ['R', 'R1', 'a', '0', 1e-300],
+  ...OVERDRIVEN.slice(0, 5),
+];
 /** A node with no DC path (a static finding every full solve repeats) beside a mirror. */
 const FLOATING: Spec[] = [...OVERDRIVEN.slice(0, 5), ['C', 'C1', 'out', 'f', 1e-9], ['R', 'RF', 'f', 'g', 1e3]];
 
@@ -46,6 +52,7 @@ describe('a solve for the point alone', () => {
     const nominal = new DcSolver(circuit(OVERDRIVEN)).solve();
     compare(OVERDRIVEN, { temperatureC: 125, betaScale: 0.5, sourceValues: { VCC: 5.25 }, initialGuess: nominal.x, reuseResult: true }, ['dc-junction-overdriven']);
   });
+  it('leaves out the overflow finding, its point and tables clamped as a full solve clamps them', () => compare(OVERFLOWING, {}, ['dc-value-overflow']));
   it('leaves out the static findings a full solve repeats', () => {
     const solver = new DcSolver(circuit(FLOATING));
     const codes = solver.solve().findings.map((f) => f.code);
