@@ -629,12 +629,24 @@ function makeToken(text: string, lx: Lexeme): Token {
  */
 function makeSharedToken(ctx: Context, lx: Lexeme): Token {
   if (!lx.token) {
-    const own = ctx.text.slice(lx.start, lx.end);
-    let shared = ctx.words.get(own);
-    if (shared === undefined) ctx.words.set(own, (shared = own));
-    lx.token = { text: shared, span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+    const text = sharedText(ctx.words, ctx.text.slice(lx.start, lx.end));
+    lx.token = { text, span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
   }
   return lx.token;
+}
+
+/**
+ * Most texts one parse shares: a netlist of millions of distinct fields keeps its own string for each text past
+ * this many, and the table stays far below the most a Map can hold (2^24 entries, past which it throws).
+ */
+export const MAX_SHARED_TEXTS = 1 << 20;
+
+/** The string `words` holds for `own`'s text, which becomes `own` when it holds none and has room for it. */
+export function sharedText(words: Map<string, string>, own: string, limit = MAX_SHARED_TEXTS): string {
+  const shared = words.get(own);
+  if (shared !== undefined) return shared;
+  if (words.size < limit) words.set(own, own);
+  return own;
 }
 
 /** Joins `name = value` into assignments and reports `=` without a name or value. */

@@ -6,7 +6,7 @@
 // the ones `ast.ts` and `circuit.ts` document (an independent statement of the shapes, written out here).
 
 import { describe, expect, it } from 'vitest';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MAX_SHARED_TEXTS, parse, sharedText } from '../../../shared-analysis/src/syntax/parser';
 import { movedCard } from '../../../shared-analysis/src/syntax/moved-card';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import type { ElementCard } from '../../../shared-analysis/src/syntax/ast';
@@ -85,6 +85,21 @@ describe('element cards keep the fields that are set, in a literal order', () =>
     const [a, b] = byName.get('QR0')!.nodes;
     expect(a).not.toBe(b);
     expect(a!.span.start).toBeLessThan(b!.span.start);
+  });
+});
+
+describe('the texts one parse shares', () => {
+  it('gives the same text back, and stops adding texts at the limit', () => {
+    const words = new Map<string, string>();
+    expect(sharedText(words, 'r0', 2)).toBe('r0');
+    expect(sharedText(words, 'vcc', 2)).toBe('vcc');
+    // Full: a new text is its own and is not added; the held ones are still found.
+    expect(sharedText(words, 'o0', 2)).toBe('o0');
+    expect(words.size).toBe(2);
+    expect([...words.keys()]).toEqual(['r0', 'vcc']);
+    expect(sharedText(words, 'r' + '0', 2)).toBe('r0');
+    // Far below the most entries a Map holds (2^24, from memory of V8's limit).
+    expect(MAX_SHARED_TEXTS).toBeLessThanOrEqual(2 ** 22);
   });
 });
 
