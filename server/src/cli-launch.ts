@@ -82,14 +82,17 @@ const STOP_SIGNALS: readonly NodeJS.Signals[] = ['SIGINT', 'SIGTERM', 'SIGHUP'];
  * standard streams; this process ends with its exit code, or by the signal that stopped it.
  */
 export function runAgainWith(flags: readonly string[], script: string, args: readonly string[]): void {
-  const child = spawn(process.execPath, [...flags, ...process.execArgv, script, ...args], {
-    stdio: 'inherit',
-    env: { ...process.env, [RELAUNCHED]: '1' },
-  });
+  // The handlers are in place before the second process exists: a signal that came while it was being started
+  // (it is in the process table from the fork on) would otherwise end this process by default and leave the second
+  // running. A handler runs from the event loop, after `spawn` has returned.
   const passOn = (signal: NodeJS.Signals): void => {
     child.kill(signal);
   };
   for (const s of STOP_SIGNALS) process.on(s, passOn);
+  const child = spawn(process.execPath, [...flags, ...process.execArgv, script, ...args], {
+    stdio: 'inherit',
+    env: { ...process.env, [RELAUNCHED]: '1' },
+  });
   child.on('error', (e) => {
     process.stderr.write(`qpoint: could not start the analysis process: ${e.message}\n`);
     process.exitCode = EXIT.failed;
