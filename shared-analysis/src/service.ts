@@ -202,7 +202,8 @@ export function analyseSession(input: AnalysisInput, workspace: Workspace, optio
       // A host that solves the corners in a second phase gets the spread of a large circuit there too (it costs a few solves' worth).
       const spreadNow = resolved.corners.enabled || dc.unknownCount <= FIRST_PASS_VARIATION_UNKNOWNS;
       if (resolved.variation.enabled && result.op.converged && spreadNow) {
-        const detail = timed('variation', () => variationOf(circuit, structures, elab.documents, dc, result, targets.targets, resolved));
+        const failed = (e: unknown) => findings.push(partFailed('tolerance spread analysis', e, input.uri));
+        const detail = timed('variation', () => variationOf(circuit, structures, elab.documents, dc, result, targets.targets, resolved, undefined, failed));
         if (detail) {
           variationDetail = detail;
           variation = detail.result;
@@ -318,7 +319,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
       // The spread analysis is a stage of its own: a superseded text stops before it.
       if (ctx.shouldStop?.()) throw new AnalysisStopped();
       const spread = keptSpread(ctx.incremental, circuit);
-      const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options, spread.reuse);
+      const failed = (e: unknown) => findings.push(partFailed('tolerance spread analysis', e, analysis.uri));
+      const detail = variationOf(circuit, analysis.structures, analysis.documents, ctx.solver, ctx.nominal, targets, options, spread.reuse, failed);
       if (detail) {
         spread.record(spreadRecordOf(detail));
         if (detail.kept) keptSpreadDetail = detail;
@@ -329,7 +331,8 @@ export function addCorners(analysis: Analysis, ctx: CornerPhaseContext): Finding
     }
   } catch (e) {
     if (e instanceof AnalysisStopped) throw e;
-    // The corner phase is an addition; a failure leaves the first-phase analysis standing.
+    // The corner phase is an addition; a failure leaves the first-phase analysis standing, and says so.
+    findings.push(partFailed('corner analysis', e, analysis.uri));
   }
   analysis.timings['corners'] = (analysis.timings['corners'] ?? 0) + performance.now() - t0;
   clampFindingSpans(findings, analysis.documents);
@@ -411,16 +414,35 @@ export function variationOf(
   targets: Target[],
   options: ResolvedOptions,
   reuse?: SpreadReuse,
+  onFailure?: (e: unknown) => void,
 ): VariationDetail | undefined {
   try {
     const seriesTol = seriesTolerance(options.resistorSeries);
     const set = options.variation.resistorTolerance;
     const settings = { resistorTolerance: set ?? seriesTol, resistorFrom: set !== undefined ? ('setting' as const) : ('series' as const), supplyTolerance: options.corners.supplyTolerance };
     return analyseVariation({ circuit, structures, documents, solver, nominal, targets, settings, defaultTargetTolerance: seriesTol }, reuse);
-  } catch {
-    // The spread is an addition; a failure leaves the rest of the analysis standing.
+  } catch (e) {
+    // The spread is an addition; a failure leaves the rest of the analysis standing, and the caller says so.
+    onFailure?.(e);
     return undefined;
   }
+}
+
+/**
+ * The finding for a stage after the operating point (the corner analysis, the tolerance spread) that stopped on an
+ * internal defect: what it would have added is left out and the rest of the analysis stands. Without it a document
+ * would simply lack the stage's results, with nothing saying why.
+ */
+export function partFailed(part: string, e: unknown, uri: string): Finding {
+  const reason = e instanceof Error ? e.message : String(e);
+  return {
+    code: 'analysis-part-failed',
+    severity: 'warning',
+    message: `The ${part} stopped because of an internal error (${reason}); its results are left out and the rest of the analysis stands. Please report this netlist.`,
+    uri,
+    span: { start: 0, end: 0 },
+    data: { part, reason },
+  };
 }
 
 /**

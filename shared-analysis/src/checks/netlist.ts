@@ -71,6 +71,7 @@ export const NETLIST_CODES: Record<string, { severity: Severity; summary: string
   'circuit-too-large': { severity: 'error', summary: 'Flattening would make more elements than the limit; the rest are left out.' },
 
   'elaboration-internal-error': { severity: 'error', summary: 'Elaboration stopped on an internal defect; the netlist should be reported.' },
+  'analysis-part-failed': { severity: 'warning', summary: 'A stage after the operating point (the corner analysis or the tolerance spread) stopped on an internal defect; its results are left out, the rest of the analysis stands. The netlist should be reported.' },
   'value-not-finite': { severity: 'warning', summary: 'The engine computed a number that is not finite (NaN or infinite); it is left out of the results instead of reaching JSON as null or a report as Infinity. The netlist should be reported.' },
 
   // Topology (checks/connectivity.ts).
