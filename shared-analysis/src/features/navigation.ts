@@ -70,7 +70,7 @@ function targetAt(analysis: Analysis, uri: string, offset: number): Target | und
 }
 
 /** The node fields of a card: device and instance nodes, and subcircuit ports. */
-function nodeTokens(card: Card): Token[] {
+function nodeTokens(card: Card): readonly Token[] {
   if (card.kind === 'element') return card.nodes;
   if (card.kind === 'subckt') return card.ports;
   return [];

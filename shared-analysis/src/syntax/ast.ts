@@ -73,14 +73,14 @@ export interface ElementCard extends CardBase {
   /** Upper-case first letter of the name. */
   letter: ElementLetter;
   name: Token;
-  nodes: Token[];
+  nodes: readonly Token[];
   value?: Token;
   model?: Token;
   area?: Token;
   control?: Token;
   subckt?: Token;
   source?: SourceValue;
-  params: Assignment[];
+  params: readonly Assignment[];
   /**
    * A behavioural form of a controlled source (`POLY(n) ...`, `VALUE={...}`, `TABLE {...} = ...`,
    * `LAPLACE ...`): the form's keyword and every field from it to the end of the card. Set only on

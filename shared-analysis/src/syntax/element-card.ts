@@ -4,12 +4,15 @@ import type { Assignment, ElementLetter, Token } from './ast';
 import type { Span } from '../types';
 import { trimmed } from '../arrays';
 
-/** The node list of an element card that has none, and the parameter list of one that gives none: one shared list, frozen. */
-export const NO_TOKENS: Token[] = Object.freeze([]) as unknown as Token[];
-export const NO_ASSIGNMENTS: Assignment[] = Object.freeze([]) as unknown as Assignment[];
+/**
+ * The node list of an element card that has none, and the parameter list of one that gives none: one shared list,
+ * frozen. A card's lists are read-only in its type, so nothing can push into the shared one.
+ */
+export const NO_TOKENS: readonly Token[] = Object.freeze([]);
+export const NO_ASSIGNMENTS: readonly Assignment[] = Object.freeze([]);
 
 /** A card's assignments as it keeps them: the shared empty list when there are none, else a list of their own length. */
-export function keptAssignments(list: Assignment[]): Assignment[] {
+export function keptAssignments(list: Assignment[]): readonly Assignment[] {
   return list.length === 0 ? NO_ASSIGNMENTS : trimmed(list);
 }
 
@@ -24,8 +27,8 @@ export class ParsedElementCard {
   kind: 'element' = 'element';
   letter: ElementLetter;
   name: Token;
-  nodes: Token[] = NO_TOKENS;
-  params: Assignment[] = NO_ASSIGNMENTS;
+  nodes: readonly Token[] = NO_TOKENS;
+  params: readonly Assignment[] = NO_ASSIGNMENTS;
   span: Span;
   tokens: Token[];
   constructor(letter: ElementLetter, name: Token, span: Span, tokens: Token[]) {

@@ -1157,8 +1157,9 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
           { start: rest[0].span.start, end: rest[rest.length - 1].span.end },
         );
       }
-      card.nodes = kept.slice(0, 3);
-      if (m >= 1) card.nodes.push(rest[0]);
+      const nodes = kept.slice(0, 3);
+      if (m >= 1) nodes.push(rest[0]);
+      card.nodes = nodes;
       for (const t of rest.slice(1, m)) unexpected(ctx, owner, t, `${need.noun} uses (collector, base, emitter, substrate)`);
       card.model = rest[m];
       const after = rest.slice(m + 1);

@@ -57,7 +57,7 @@ function tokenText(t: Token | undefined): string | undefined {
 
 /** A card reduced to its texts: tokens become their text, assignments `name=value`. */
 function summarise(card: Card): unknown {
-  const asg = (list: { name: Token; value: Token }[]): string[] => list.map((a) => `${a.name.text}=${a.value.text}`);
+  const asg = (list: readonly { name: Token; value: Token }[]): string[] => list.map((a) => `${a.name.text}=${a.value.text}`);
   switch (card.kind) {
     case 'title':
     case 'comment':
