@@ -1154,7 +1154,7 @@ function jsonIndent(opts: CliOptions): number {
  * `--indented`, control characters escaped.
  */
 function writeDocument(doc: unknown, opts: CliOptions, write: Sink): void {
-  writeJsonBytes(doc, write, { indent: jsonIndent(opts), transform: escapedJsonChunk });
+  writeJsonBytes(doc, write, { indent: jsonIndent(opts), transform: escapedJsonChunk, written: write.written });
   write('\n');
 }
 
@@ -1163,8 +1163,19 @@ function reportFiles(results: FileResult[]): ReportFile[] {
   return results.map((r) => ({ path: r.path, analysis: r.analysis, diagnostics: toJsonDiagnostics(r) }));
 }
 
-/** Where the CLI's output goes: text, or a JSON document's UTF-8 bytes. */
-type Sink = (chunk: string | Uint8Array) => void;
+/**
+ * Where the CLI's output goes: text, or a JSON document's UTF-8 bytes. `written`, when there, says whether
+ * every chunk handed over is out, so a JSON document's next chunk may reuse the last one's buffer.
+ */
+type Sink = ((chunk: string | Uint8Array) => void) & { written?: () => boolean };
+
+/**
+ * The standard output. Into a file (or a pipe the CLI's entry makes blocking, cli-main.ts) a chunk is out
+ * when `write` returns; one queued for a reader that has not taken it yet is held until then.
+ */
+const standardOutput: Sink = Object.assign((chunk: string | Uint8Array) => void process.stdout.write(chunk), {
+  written: () => process.stdout.writableLength === 0,
+});
 
 /** Writes `text` to `file` (`-o`) or the standard output; false after saying why a file could not be written. */
 function writeOut(file: string | undefined, text: string | Uint8Array, write: Sink): boolean {
@@ -1212,7 +1223,7 @@ function sweepCommand(opts: CliOptions, r: FileResult, write: Sink): number {
  * Runs the CLI; gives the exit code (see EXIT), or a promise of it when the files run on worker
  * threads (`--workers`, several files): one file, or `--workers 1`, runs in this thread at once.
  */
-export function main(argv: string[], write: Sink = (chunk) => process.stdout.write(chunk)): number | Promise<number> {
+export function main(argv: string[], write: Sink = standardOutput): number | Promise<number> {
   let opts: ReturnType<typeof parseArgs>;
   try {
     opts = parseArgs(argv);

@@ -77,6 +77,16 @@ interface WriteOptions {
   depth?: number;
 }
 
+/** Options of `writeJsonBytes` alone. */
+interface ByteOptions {
+  transform?: (bytes: Buffer) => Uint8Array;
+  /**
+   * True when every chunk handed to `write` so far is out (copied into a file or a pipe, say), so the
+   * writer may fill the last one's buffer again instead of taking a new one; absent: never.
+   */
+  written?: () => boolean;
+}
+
 /**
  * Writes `value` as JSON text through `write`, in pieces of about 64 K characters: the same text
  * as `JSON.stringify(value, null, indent)` (`indent` 0 or absent: compact, no spaces), with
@@ -94,10 +104,12 @@ export function writeJson(value: unknown, write: (s: string) => void, options: W
  * `writeJson` as UTF-8 bytes, in chunks of about 1 MiB: each piece of text is encoded straight into the
  * chunk (no text of the chunk is joined first, and the writer hands over a few large chunks instead of
  * hundreds of small ones). Each chunk goes through `transform` (escaping, say: it gets whole pieces, so
- * valid UTF-8) and is then `write`'s to keep: the next chunk is a new buffer.
+ * valid UTF-8) and is then `write`'s to keep: the next chunk is a new buffer, unless `written` says the
+ * chunks handed over are out, when the full-sized buffer is filled again (a run of a 100,000-element
+ * netlist takes about 100 chunks of 1 MiB; fresh ones are ArrayBuffer memory that starts full collections).
  */
-export function writeJsonBytes(value: unknown, write: (bytes: Uint8Array) => void, options: WriteOptions & { transform?: (bytes: Buffer) => Uint8Array } = {}): void {
-  writeTo(value, byteChunks(write, options.transform ?? ((b: Buffer) => b)), options);
+export function writeJsonBytes(value: unknown, write: (bytes: Uint8Array) => void, options: WriteOptions & ByteOptions = {}): void {
+  writeTo(value, byteChunks(write, options.transform ?? ((b: Buffer) => b), options.written), options);
 }
 
 function textChunks(write: (s: string) => void, transform: (s: string) => string): JsonOut {
@@ -125,16 +137,17 @@ function textChunks(write: (s: string) => void, transform: (s: string) => string
   };
 }
 
-function byteChunks(write: (bytes: Uint8Array) => void, transform: (bytes: Buffer) => Uint8Array): JsonOut {
+function byteChunks(write: (bytes: Uint8Array) => void, transform: (bytes: Buffer) => Uint8Array, written?: () => boolean): JsonOut {
   // A small document takes a small buffer; a large one is handed over in few chunks.
   let buf = Buffer.allocUnsafe(FIRST_BYTE_CHUNK);
   let used = 0;
   const end = (): void => {
     if (used === 0) return;
     const full = buf.subarray(0, used);
-    buf = Buffer.allocUnsafe(Math.min(BYTE_CHUNK, 2 * buf.length));
     used = 0;
     write(transform(full));
+    // A buffer still held by whoever took the chunk is theirs; one of full size already written out is filled again.
+    if (buf.length < BYTE_CHUNK || !written?.()) buf = Buffer.allocUnsafe(Math.min(BYTE_CHUNK, 2 * buf.length));
   };
   /** Makes room for `most` bytes in the chunk, handing a full one over; false when no chunk can take them. */
   const room = (most: number): boolean => {

@@ -1,7 +1,7 @@
 // The built `qpoint` CLI: output formats, exit codes and bad input, run as a child process.
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { tmpdir } from 'node:os';
 import { CLI, ROOT, runCli, scratchFolder } from './harness';
@@ -257,6 +257,36 @@ describe('qpoint report', () => {
     const r = spawnSync('sh', ['-c', `"${process.execPath}" "${CLI}" check --format json --no-corners "${p}" | head -c 1 >/dev/null`], { cwd: ROOT, encoding: 'utf8', timeout: 60000 });
     expect(r.status).toBe(0);
     expect(r.stderr).toBe('');
+  });
+
+  it('writes into a pipe as into a file: nothing left queued in the process after a write, the same document', () => {
+    // A JSON document of about 800 KB, in chunks larger than a pipe's 64 KiB buffer, read by this process through a
+    // pipe. Node's queue of what the reader has not taken yet (`writableLength`) is read after
+    // every write to the standard output; a queued chunk would be held in memory until the run ends (before: 825,292 bytes queued
+    // at the last write).
+    const lines = ['Four hundred mirrors', 'VCC vcc 0 5'];
+    for (let i = 0; i < 400; i++) lines.push(`R${i} vcc a${i} 4.3k`, `QA${i} a${i} a${i} 0 QN`, `QB${i} o${i} a${i} 0 QN`, `RL${i} vcc o${i} 1k`);
+    const p = file('queued.cir', [...lines, '.model QN npn (BF=100)', '.end', ''].join('\n'));
+    const watch = file(
+      'watch-queue.cjs',
+      [
+        "let most = 0, writes = 0, bytes = 0;",
+        "const write = process.stdout.write.bind(process.stdout);",
+        "process.stdout.write = (chunk, ...rest) => { const ok = write(chunk, ...rest); writes++; bytes += chunk.length; most = Math.max(most, process.stdout.writableLength); return ok; };",
+        "process.on('exit', () => require('fs').writeSync(2, JSON.stringify({ most, writes, bytes })));",
+      ].join('\n'),
+    );
+    const args = ['-r', watch, CLI, 'check', '--format', 'json', '--no-corners', p];
+    const piped = spawnSync(process.execPath, args, { cwd: ROOT, encoding: 'utf8', timeout: 60000, maxBuffer: 1 << 28 });
+    const seen = JSON.parse(piped.stderr) as { most: number; writes: number; bytes: number };
+    expect(seen.bytes).toBeGreaterThan(1 << 19);
+    expect(seen.writes).toBeGreaterThan(1);
+    expect(seen.most).toBe(0);
+    const out = join(scratch.dir, 'queued.json');
+    const filed = spawnSync('sh', ['-c', `"${process.execPath}" "${CLI}" check --format json --no-corners "${p}" > "${out}"`], { cwd: ROOT, timeout: 60000 });
+    expect(piped.status).toBe(filed.status);
+    const masked = (text: string): string => text.replace(/"ms":\d+(\.\d+)?/g, '"ms":0');
+    expect(masked(piped.stdout)).toBe(masked(readFileSync(out, 'utf8')));
   });
 });
 

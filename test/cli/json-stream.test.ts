@@ -211,6 +211,24 @@ describe('writeJsonBytes', () => {
     const pieces = strings.map((x) => new JsonText([JSON.stringify(x)]));
     expect(Buffer.concat(chunks(pieces)).toString('utf8')).toBe(JSON.stringify(strings));
   });
+  it('fills a full-sized chunk again only when the chunks handed over are written out', () => {
+    // About 8 MB of records: the chunks grow to 1 MiB, then each is copied out (as a file or blocking pipe takes it).
+    const rows = Array.from({ length: 150000 }, (_, i) => ({ name: `Q${i}µ`, ic: i * 1.1e-6, tags: ['−40 °C'] }));
+    const doc = { rows: new JsonEntries(function* () {
+      for (let i = 0; i < rows.length; i++) yield [`R${i}`, rows[i]];
+    }, true) };
+    const plain = { rows: Object.fromEntries(rows.map((r, i) => [`R${i}`, r])) };
+    for (const out of [true, false]) {
+      const copies: Buffer[] = [];
+      const buffers = new Set<ArrayBufferLike>();
+      writeJsonBytes(doc, (b) => (copies.push(Buffer.from(b)), buffers.add(b.buffer)), { written: () => out });
+      expect(Buffer.concat(copies).toString('utf8')).toBe(JSON.stringify(plain));
+      expect(copies.length).toBeGreaterThan(9);
+      // Written out: the doubling chunks (16 KiB … 1 MiB, seven buffers at most) and then the same one; held: a new buffer each.
+      if (out) expect(buffers.size).toBeLessThanOrEqual(7);
+      else expect(buffers.size).toBe(copies.length);
+    }
+  });
 });
 
 describe('cornerKey', () => {
