@@ -78,7 +78,7 @@ import {
   type PositionConverter,
 } from './to-lsp';
 import { structureOfResistor } from './sizing';
-import { AnalysisStoppedError, inSlices, MERGE_SLICE_MS, WorkerHost, WorkerRestartedError } from './worker-host';
+import { AnalysisStoppedError, inSlices, mainThreadTrace, MERGE_SLICE_MS, threadClock, traced, WorkerHost, WorkerRestartedError } from './worker-host';
 import { adoptKeptCards } from './analysis-transfer';
 import { COLLECT_FROM_ELEMENTS, collectGarbage } from './collect';
 import { FrameError, StrictStreamReader } from './strict-reader';
@@ -376,6 +376,8 @@ function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: 
     // The protocol: after shutdown, every request but exit fails with InvalidRequest.
     if (shuttingDown) throw new ResponseError(ErrorCodes.InvalidRequest, `The server is shutting down; the ${name} request is not answered.`);
     if (settling) await settling;
+    const started = performance.now();
+    const clock = mainThreadTrace.on ? threadClock() : undefined;
     try {
       return await fn(params);
     } catch (e) {
@@ -383,6 +385,8 @@ function guard<P, R>(name: string, fn: (params: P) => R | Promise<R>): (params: 
       const message = e instanceof Error ? e.message : String(e);
       log(`The ${name} request failed: ${e instanceof Error && e.stack ? e.stack : message}`);
       throw new ResponseError(ErrorCodes.InternalError, `qpoint could not answer the ${name} request: ${message}`);
+    } finally {
+      traced(`${name} request`, started, clock);
     }
   };
 }
@@ -492,7 +496,9 @@ async function pump(): Promise<void> {
     const onFindings = (partial: Analysis, small: boolean) => {
       if ((small && !earlySmall) || !fresh(partial)) return false;
       early = new Set([uri, ...Object.keys(partial.documents)]);
+      const publishing = performance.now();
       publish(early, uri, partial);
+      traced('publishing the findings', publishing);
       if (small) {
         settling ??= new Promise<void>((r) => (settled = r));
         publishedSmall = true;
@@ -599,7 +605,9 @@ function* cornerResultSteps(analysis: Analysis, r: CornerOutcome['result'], vari
 function accept(uri: string, analysis: Analysis, ms: number, early?: Set<string>): void {
   const before = cache.get(uri);
   // The replaced analysis gives up the cards the new one shares with it past the edit: they are moved now.
+  const adopting = performance.now();
   adoptKeptCards(analysis);
+  traced('accepting: moving the kept cards', adopting);
   cache.set(uri, { analysis, ms });
   // Documents this netlist includes are no longer netlists of their own.
   let includedRoots = false;
@@ -611,17 +619,22 @@ function accept(uri: string, analysis: Analysis, ms: number, early?: Set<string>
   const touched = new Set<string>([uri, ...Object.keys(analysis.documents), ...(before ? Object.keys(before.analysis.documents) : [])]);
   for (const u of published) if (!holderOf(u) && !documents.get(u)) touched.add(u);
   if (early && !includedRoots) for (const u of early) touched.delete(u);
+  const publishing = performance.now();
   publish(touched, uri);
+  traced('accepting: publishing', publishing);
   // Only the size: the callback must not keep the replaced analysis alive.
   const replacedElements = before?.analysis.circuit?.elements.length ?? 0;
   // Build the lookup tables now rather than inside the first hover.
   setImmediate(() => {
     if (cache.get(uri)?.analysis === analysis) {
+      const indexing = performance.now();
       indexOf(analysis);
+      traced('after accepting: the lookup tables', indexing);
       // Over slices: the hover's table of structures by device was one task of 10–30 ms on the 20k array at load 7.
       // A failure here is met again, and reported, by the hover that builds the table itself.
-      inSlices(prepareHoverSteps(analysis)).catch(() => undefined);
+      inSlices(prepareHoverSteps(analysis), undefined, 'after accepting: the hover tables').catch(() => undefined);
     }
+    if (mainThreadTrace.on) setTimeout(() => log(`Main-thread trace: ${JSON.stringify(mainThreadTrace.spans.splice(0))}`), 1000);
     // The replaced analysis of a big netlist is garbage now; collect it before the next one is taken in beside this one.
     if (replacedElements >= COLLECT_FROM_ELEMENTS) freeWhenQuiet(`the previous analysis of ${basename(uri)}`);
   });

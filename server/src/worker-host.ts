@@ -1,6 +1,8 @@
 // The main thread's side of the analysis worker: one request at a time, deadlines, and a restart when the worker dies or hangs.
 
 import { Worker } from 'node:worker_threads';
+import { PerformanceObserver } from 'node:perf_hooks';
+import { readFileSync } from 'node:fs';
 import type { Analysis, AnalysisOptions } from '../../shared-analysis/src/analysis';
 import type { PositionEncoding } from '../../shared-analysis/src/syntax/line-index';
 import type { OutputCharacteristicResult } from '../../shared-analysis/src/features/sweep';
@@ -66,6 +68,54 @@ const WORKER_YOUNG_GENERATION_MB = 16;
  * before, so a single hop would run the next slice of work first (about 4 ms, before the request's own time); the
  * second hop queues the work behind the requests read during the first.
  */
+/**
+ * With QPOINT_TRACE_MAIN_THREAD=1 (for `bench:server`): the main thread's stretches of the take-in of 1 ms or more,
+ * as [what, start (ms since the epoch), duration (ms)], and V8's collections on it, which the server logs once a
+ * result is accepted; the benchmark sets them beside its slow answers. Off, nothing is recorded.
+ */
+export const mainThreadTrace: { on: boolean; spans: [string, number, number][] } = {
+  on: process.env['QPOINT_TRACE_MAIN_THREAD'] === '1',
+  spans: [],
+};
+
+/**
+ * Tracing: this thread's CPU time and its time waiting for a core, ms (Linux's scheduler statistics; zeros where
+ * they cannot be read), so a long stretch shows whether it ran or waited.
+ */
+export function threadClock(): [number, number] {
+  try {
+    const [run, wait] = readFileSync('/proc/thread-self/schedstat', 'utf8').split(' ').map(Number);
+    return [run! / 1e6, wait! / 1e6];
+  } catch {
+    return [0, 0];
+  }
+}
+
+/**
+ * Records the stretch `what` that began at `started` (performance.now()) when tracing is on; with `clock` (the
+ * `threadClock()` at its start), how much of it the thread ran and how much it waited for a core.
+ */
+export function traced(what: string, started: number, clock?: [number, number]): void {
+  if (!mainThreadTrace.on) return;
+  const ms = performance.now() - started;
+  if (ms < 1) return;
+  if (clock) {
+    const [run, wait] = threadClock();
+    what += ` (ran ${(run - clock[0]).toFixed(1)} ms, waited ${(wait - clock[1]).toFixed(1)} ms for a core)`;
+  }
+  mainThreadTrace.spans.push([what, performance.timeOrigin + started, ms]);
+}
+
+if (mainThreadTrace.on) {
+  const kinds: Record<number, string> = { 1: 'young collection', 2: 'full collection', 4: 'incremental marking', 8: 'weak callbacks' };
+  new PerformanceObserver((list) => {
+    for (const e of list.getEntries()) {
+      const kind = (e as unknown as { detail?: { kind?: number } }).detail?.kind ?? 0;
+      mainThreadTrace.spans.push([kinds[kind] ?? `collection ${kind}`, performance.timeOrigin + e.startTime, e.duration]);
+    }
+  }).observe({ entryTypes: ['gc'] });
+}
+
 export function turnForRequests(): Promise<void> {
   return new Promise((r) => setImmediate(() => setImmediate(r)));
 }
@@ -74,13 +124,29 @@ export function turnForRequests(): Promise<void> {
  * Runs `steps` to their end on this thread, giving queued editor requests a turn whenever a slice has run
  * MERGE_SLICE_MS (the clock read at each step); the first slice began at `started`.
  */
-export async function inSlices(steps: Iterable<void>, started = performance.now()): Promise<void> {
+export async function inSlices(steps: Iterable<void>, started = performance.now(), what = 'slice'): Promise<void> {
   let slice = started;
+  let step = started;
+  let k = 0;
+  let clock = mainThreadTrace.on ? threadClock() : undefined;
   for (const _ of steps) {
-    if (performance.now() - slice < MERGE_SLICE_MS) continue;
+    // Tracing: a single step of 2 ms or more, which the slice cannot cut.
+    if (clock && performance.now() - step >= 2) traced(`${what}: step ${k}`, step, clock);
+    k++;
+    if (performance.now() - slice < MERGE_SLICE_MS) {
+      if (clock) {
+        step = performance.now();
+        clock = threadClock();
+      }
+      continue;
+    }
+    traced(what, slice);
     await turnForRequests();
-    slice = performance.now();
+    slice = step = performance.now();
+    if (clock) clock = threadClock();
   }
+  if (clock && performance.now() - step >= 2) traced(`${what}: step ${k}, the last`, step, clock);
+  traced(what, slice);
 }
 
 /** Thrown when a request was abandoned because the worker was restarted. */
@@ -295,7 +361,9 @@ export class WorkerHost {
     if (msg.type !== 'analysed') throw this.failure(msg);
     const t0 = Date.now();
     // A worker message rebuilds plain objects: name-keyed tables get their prototype-free form back before parts are merged into them.
+    const restoring = performance.now();
     const analysis = restoreNameTables(msg.analysis);
+    traced('the header: name tables', restoring);
     // Known by its request from the start, so a corner request can name the analysis it is for.
     this.analysisIds.set(analysis, msg.id);
     const merger = partMerger(analysis, phases.held);
@@ -334,7 +402,7 @@ export class WorkerHost {
     } finally {
       this.inboxes.delete(msg.id);
     }
-    await inSlices(merger.finishSteps());
+    await inSlices(merger.finishSteps(), undefined, 'finishing the merge');
     return { analysis, ms: msg.ms, sendMs: msg.sendMs, transferMs: Date.now() - t0, small: false };
   }
 
@@ -377,7 +445,11 @@ export class WorkerHost {
       const started = performance.now();
       // Within this slice's budget, a short collection now rather than a long one inside some later task.
       collectYoungGenerationPast(TAKE_IN_YOUNG_BYTES);
-      await inSlices(merge(index, part()), started);
+      traced(`part ${index + 1}: young collection between parts`, started);
+      const read = performance.now();
+      const decoded = part();
+      traced(`part ${index + 1}: reading its bytes`, read);
+      await inSlices(merge(index, decoded), started, `part ${index + 1} (${decoded.kind}): merging`);
       if (index === msg.findingParts - 1) onFindings?.(msg.analysis, false);
       // Give queued editor requests a turn between parts.
       await turnForRequests();
