@@ -11,7 +11,7 @@ import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { groupsApart, madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
+import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -1017,53 +1017,6 @@ function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
 
 /** Each source's group number, the groups' names and aspects, and each source's σ and bound as columns (plain loops: `Float64Array.from` with a mapping function goes through the iterator protocol per item). */
 function groupColumns(sources: readonly ToleranceSource[]): Pick<GroupIndex, 'of' | 'names' | 'aspects' | 'sigma' | 'bound'> {
-  return groupsApart(sources) ? groupColumnsApart(sources) : groupColumnsByName(sources);
-}
-
-/** Mismatch groups of the last structure: one structure's sources have at most one group per aspect (six aspects in all). */
-const RECENT_GROUPS = 6;
-
-/**
- * `groupColumns` of a list whose groups are told apart by how they were made (`groupsApart`): a source without an aspect
- * starts a group of its own, and a mismatch source is in one of the last `RECENT_GROUPS` mismatch groups or starts one
- * (its structure's sources are together). The same numbers as by name, without a table of 100,000 names at 100k elements
- * (a lookup per source, most of the call).
- */
-function groupColumnsApart(sources: readonly ToleranceSource[]): Pick<GroupIndex, 'of' | 'names' | 'aspects' | 'sigma' | 'bound'> {
-  const count = sources.length;
-  const of = new Int32Array(count);
-  const names: string[] = [];
-  const aspects: (string | undefined)[] = [];
-  const sigma = new Float64Array(count);
-  const bound = new Float64Array(count);
-  const recent = new Int32Array(RECENT_GROUPS).fill(-1);
-  let next = 0;
-  for (let k = 0; k < count; k++) {
-    const s = sources[k];
-    let i = -1;
-    if (s.aspect !== undefined) {
-      for (let r = 0; r < RECENT_GROUPS && recent[r] >= 0; r++) {
-        if (names[recent[r]] === s.group) {
-          i = recent[r];
-          break;
-        }
-      }
-    }
-    if (i < 0) {
-      i = names.length;
-      names.push(s.group);
-      aspects.push(s.aspect);
-      if (s.aspect !== undefined) recent[next++ % RECENT_GROUPS] = i;
-    }
-    of[k] = i;
-    sigma[k] = s.sigma;
-    bound[k] = s.bound;
-  }
-  return { of, names, aspects, sigma, bound };
-}
-
-/** `groupColumns` by each group's name. */
-function groupColumnsByName(sources: readonly ToleranceSource[]): Pick<GroupIndex, 'of' | 'names' | 'aspects' | 'sigma' | 'bound'> {
   const byName = new Map<string, number>();
   const count = sources.length;
   const of = new Int32Array(count);
@@ -1084,11 +1037,6 @@ function groupColumnsByName(sources: readonly ToleranceSource[]): Pick<GroupInde
     bound[k] = s.bound;
   }
   return { of, names, aspects, sigma, bound };
-}
-
-/** Each source's group number (groups numbered in the order of their first source), for tests. */
-export function sourceGroupNumbers(sources: readonly ToleranceSource[]): Int32Array {
-  return groupIndexOf(sources).of;
 }
 
 /** Sources per group. */

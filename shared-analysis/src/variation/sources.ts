@@ -132,45 +132,12 @@ export interface SourceList {
 /** The sources of `toleranceSources` as a list a later one may be patched from. */
 export function sourceListOf(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): SourceList {
   const sources = toleranceSources(circuit, structures, tolerances, settings, temperatureC);
-  if (groupsKeptApart(circuit, structures)) GROUPS_APART.add(sources);
   const sourceOf = new Int32Array(circuit.elements.length).fill(-1);
   for (let k = 0; k < sources.length; k++) {
     const p = sources[k].parameter;
     if (p.kind === 'resistance' || p.kind === 'source') sourceOf[p.element] = k;
   }
   return { sources, sourceOf, written: writtenTolerances(circuit, tolerances), settings, temperatureC, ids: structures.map((s) => s.id), devices: structures.map((s) => s.devices) };
-}
-
-/**
- * The source lists whose groups are told apart by how they were made (`groupsKeptApart`): a source without an aspect
- * (a resistor's, a supply's, a JFET's part spread) is the only one of its group, and a mismatch group is one
- * structure's, its sources together in the list (a structure's devices are taken one after another).
- */
-const GROUPS_APART = new WeakSet<readonly ToleranceSource[]>();
-
-/** Whether `sources` (a list `sourceListOf` made) has its groups told apart as `GROUPS_APART` says. */
-export function groupsApart(sources: readonly ToleranceSource[]): boolean {
-  return GROUPS_APART.has(sources);
-}
-
-/**
- * Whether the group names of the sources of `circuit` and `structures` are equal only where they are made equal: every
- * element has a name of its own with no space in it (a resistor's or supply's group is its name, a JFET's part spread
- * `NAME VTO spread`), and every structure an id of its own with no space in it (a mismatch group is `ID ASPECT`, an
- * aspect a word). Then a group with no space is one element's, with one space one structure's aspect, with two one
- * JFET's spread, and the group names need not be compared to be numbered (`groupIndexOf` in `index.ts`). Else they are.
- */
-function groupsKeptApart(circuit: Circuit, structures: readonly Structure[]): boolean {
-  const elements = circuit.elements;
-  if (topologyOf(circuit).elementIndex.size !== elements.length) return false;
-  for (let i = 0; i < elements.length; i++) if (elements[i].name.includes(' ')) return false;
-  const ids = new Set<string>();
-  for (let k = 0; k < structures.length; k++) {
-    const id = structures[k].id;
-    if (id.includes(' ') || ids.has(id)) return false;
-    ids.add(id);
-  }
-  return true;
 }
 
 /**
