@@ -81,12 +81,15 @@ for (const k of KINDS) {
 /** Relative difference between estimate and solve above which `discrepancy` is filled. */
 export const DISCREPANCY_THRESHOLD = 0.03;
 
-/** Whether an estimate `e` and a solved value `x` make a row of `StructureCheck.errors` off by more than `DISCREPANCY_THRESHOLD` (the same tests, no row made). */
-function offBy(e: number, x: number, unit: 'A' | 'V'): boolean {
-  if (!Number.isFinite(e) || !Number.isFinite(x)) return false;
-  if (!belowFloor(e, unit) && e > 0) return Math.abs((Math.max(x, 0) - e) / e) > DISCREPANCY_THRESHOLD;
-  // An estimate at the floor beside a solved value above it: the row's error is infinite.
-  return !belowFloor(x, unit) && x > 0;
+/**
+ * The relative error of the estimate `e` against the solved value `x`, as a row of `StructureCheck.errors` gives it:
+ * undefined when there is no row (a value not finite, or both below the 1 pA / 1 pV floor: no percentage of nothing),
+ * Infinity when the estimate is below the floor beside a solved value above it (the hand analysis collapsed to zero).
+ */
+function relativeError(e: number, x: number, unit: 'A' | 'V'): number | undefined {
+  if (!Number.isFinite(e) || !Number.isFinite(x)) return undefined;
+  if (!belowFloor(e, unit) && e > 0) return (Math.max(x, 0) - e) / e;
+  return !belowFloor(x, unit) && x > 0 ? Infinity : undefined;
 }
 
 /** Everything `analyseStructures` reads. */
@@ -473,44 +476,40 @@ class StructureCheck implements ResistanceContext {
   }
 
   /**
-   * Per output (and IREF) relative errors of the estimate against the solve. A quantity whose
-   * estimate and solved value are both below the 1 pA floor is left out (no percentage of nothing);
-   * an estimate below the floor beside a solved current above it has no relative error (`rel` is
-   * Infinity): the hand analysis collapsed to zero.
+   * Calls `visit` with each quantity the estimate is compared on (IREF, each output's current, each voltage the
+   * structure produces) that has a relative error (`relativeError`); stops at the first call that returns true, and
+   * returns whether one did.
    */
-  private errors(): { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] {
+  private compare(visit: (key: string, e: number, x: number, rel: number, unit: 'A' | 'V') => boolean | void): boolean {
     const est = this.s.estimate;
     const sol = this.s.solved;
-    if (!est || !sol || est.irefFrom === 'unknown') return [];
-    const rows: { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] = [];
-    const add = (key: string, e: number, x: number, unit: 'A' | 'V') => {
-      if (!Number.isFinite(e) || !Number.isFinite(x)) return;
-      const eOn = !belowFloor(e, unit) && e > 0;
-      const xOn = !belowFloor(x, unit) && x > 0;
-      if (eOn) rows.push({ key, est: e, solved: x, rel: (Math.max(x, 0) - e) / e, unit });
-      else if (xOn) rows.push({ key, est: Math.max(e, 0), solved: x, rel: Infinity, unit });
+    if (!est || !sol || est.irefFrom === 'unknown') return false;
+    const one = (key: string, e: number, x: number, unit: 'A' | 'V'): boolean => {
+      const rel = relativeError(e, x, unit);
+      return rel !== undefined && visit(key, e, x, rel, unit) === true;
     };
-    add('IREF', est.iref, sol.iref, 'A');
-    for (const o of this.s.outputs) add(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0, 'A');
+    if (one('IREF', est.iref, sol.iref, 'A')) return true;
+    for (const o of this.s.outputs) if (one(o.device, est.iout[o.device] ?? 0, sol.iout[o.device] ?? 0, 'A')) return true;
     // The voltages a structure produces (VBG, a VBE multiplier's voltage) are compared like its currents.
-    for (const v of this.s.voltages ?? []) if (v.estimate !== undefined && v.solved !== undefined) add(v.name, v.estimate, v.solved, 'V');
+    for (const v of this.s.voltages ?? []) if (v.estimate !== undefined && v.solved !== undefined && one(v.name, v.estimate, v.solved, 'V')) return true;
+    return false;
+  }
+
+  /** Per output (and IREF) relative errors of the estimate against the solve (see `relativeError`). */
+  private errors(): { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] {
+    const rows: { key: string; est: number; solved: number; rel: number; unit: 'A' | 'V' }[] = [];
+    this.compare((key, e, x, rel, unit) => {
+      rows.push({ key, est: Math.max(e, 0), solved: x, rel, unit });
+    });
     return rows;
   }
 
   /**
-   * Whether some row of `errors` is off by more than `DISCREPANCY_THRESHOLD`, worked out without making the rows: a
-   * healthy structure (nearly every one of a large circuit) then makes no row objects, closure or filtered list.
+   * Whether some quantity is off by more than `DISCREPANCY_THRESHOLD`, asked before `errors` makes its rows: a
+   * healthy structure (nearly every one of a large circuit) then makes no row objects or filtered list.
    */
   private differs(): boolean {
-    const est = this.s.estimate;
-    const sol = this.s.solved;
-    if (!est || !sol || est.irefFrom === 'unknown') return false;
-    if (offBy(est.iref, sol.iref, 'A')) return true;
-    const outputs = this.s.outputs;
-    for (let k = 0; k < outputs.length; k++) if (offBy(est.iout[outputs[k].device] ?? 0, sol.iout[outputs[k].device] ?? 0, 'A')) return true;
-    const voltages = this.s.voltages;
-    if (voltages) for (let k = 0; k < voltages.length; k++) if (voltages[k].estimate !== undefined && voltages[k].solved !== undefined && offBy(voltages[k].estimate!, voltages[k].solved!, 'V')) return true;
-    return false;
+    return this.compare((_key, _e, _x, rel) => Math.abs(rel) > DISCREPANCY_THRESHOLD);
   }
 
   private discrepancy(): string | undefined {
