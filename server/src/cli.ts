@@ -25,7 +25,7 @@ import { hasUniqueNames } from '../../shared-analysis/src/solve/solved-point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
 import { leadingContributors, sourceSummaries } from '../../shared-analysis/src/variation/index';
-import { pushAll } from '../../shared-analysis/src/arrays';
+import { isOneOf, pushAll } from '../../shared-analysis/src/arrays';
 import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { nameTable } from '../../shared-analysis/src/names';
 import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
@@ -894,17 +894,11 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
   const keys = Object.keys(o);
   for (let i = 0; i < keys.length; i++) {
     const k = keys[i]!;
-    if (inStructure && impliedInStructure(k)) continue;
+    if (inStructure && isOneOf(k, IMPLIED_IN_STRUCTURE)) continue;
     if (breakdown || (k !== 'contributors' && k !== 'sensitivities')) out[k] = fields[k];
   }
   if (!breakdown) out['contributors'] = leadingContributors(o, CONTRIBUTORS_BY_DEFAULT);
   return out;
-}
-
-/** Whether `k` is one of `IMPLIED_IN_STRUCTURE` (compared in a loop: a set's look-up was a call per member of every output). */
-function impliedInStructure(k: string): boolean {
-  for (let i = 0; i < IMPLIED_IN_STRUCTURE.length; i++) if (IMPLIED_IN_STRUCTURE[i] === k) return true;
-  return false;
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */

@@ -51,3 +51,9 @@ export function mapList<T, U extends object | string>(list: readonly T[], f: (it
 export function trimmed<T>(list: T[]): T[] {
   return list.slice();
 }
+
+/** Whether `key` is one of the few `names`: a loop, where a set's or `includes`' look-up is a call per key asked. */
+export function isOneOf(key: string, names: readonly string[]): boolean {
+  for (let i = 0; i < names.length; i++) if (names[i] === key) return true;
+  return false;
+}

@@ -4,6 +4,7 @@
 // one finding instead.
 
 import type { Finding, Span } from './types';
+import { isOneOf } from './arrays';
 import type { ParsedDocument } from './syntax/ast';
 
 /** `span` inside a text of `length` characters: 0 ≤ start ≤ end ≤ length. */
@@ -127,12 +128,6 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
       keys.pop();
     }
   }
-}
-
-/** Whether `key` is one of the few `names` (a loop, where `includes` was a call per member of every holder). */
-function isOneOf(key: string, names: readonly string[]): boolean {
-  for (let i = 0; i < names.length; i++) if (names[i] === key) return true;
-  return false;
 }
 
 /** Remembers `o` as walked; false when it was already (one look-up in the set, not two). */
