@@ -82,6 +82,13 @@ function elementOrigin(uri: string, span: Span, nodeSpans: Span[], instances: Or
   return { uri, span, nodeSpans, instances };
 }
 
+/** The spans of a card's node fields, in a list of their own length (no closure per element, as `map` takes). */
+function spansOf(tokens: readonly Token[]): Span[] {
+  const out = new Array<Span>(tokens.length);
+  for (let i = 0; i < tokens.length; i++) out[i] = tokens[i]!.span;
+  return out;
+}
+
 /** The `.param` assignment of `key` (lower case) written directly in a definition's body, if any. */
 function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assignment; uri: string } | undefined {
   for (const { card, uri } of def.body.items) {
@@ -90,6 +97,9 @@ function bodyParam(def: SubcktDef, key: string): { name: Token; assignment: Assi
   }
   return undefined;
 }
+
+/** The temperature coefficients of a resistor that gives none and has no model: read only. */
+const NO_TEMPERATURE_COEFFICIENTS: { readonly tc1: number; readonly tc2: number } = Object.freeze({ tc1: 0, tc2: 0 });
 
 /** The parameters of a card that gives none, shared so most elements allocate no map. */
 const NO_PARAMS: ReadonlyMap<string, Assignment> = new Map();
@@ -173,15 +183,23 @@ class Elaborator {
   run(): ElaborationResult {
     const read = readSources(this.root, this.workspace, this.sink, this.options.includeFolders ?? [], this.topConditions());
     for (const def of read.allDefs) this.checkPortsUsed(def);
+    // Indexed loops over a body's items here and below: these run once, in code V8 has not optimised, where a for-of
+    // allocates a result object per step (about 4 MB a loop over the 100,000 cards of a large netlist).
     for (const body of [read.top, ...read.allDefs.map((d) => d.body)]) {
-      for (const { card } of body.items) if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
+      const items = body.items;
+      for (let i = 0; i < items.length; i++) {
+        const card = items[i]!.card;
+        if (card.kind === 'global') for (const t of card.nodes) this.globals.add(t.text.toLowerCase());
+      }
     }
     const top = new ParamScope(this.context, { label: 'top level' });
     this.topBodies = [read.top];
     this.topScope = top;
     const allBodies = [read.top, ...read.allDefs.map((d) => d.body)];
     for (const body of allBodies) {
-      for (const { card, uri } of body.items) {
+      const items = body.items;
+      for (let i = 0; i < items.length; i++) {
+        const { card, uri } = items[i]!;
         if (card.kind === 'model') {
           this.modelSymbols.set(`${uri}#${card.span.start}`, { name: card.name.text, uri, span: card.span, nameSpan: card.name.span, kind: card.type.text.toLowerCase() });
         }
@@ -339,7 +357,8 @@ class Elaborator {
     const { scope } = inst;
     const items = this.activeItems(inst);
     const local = inst.modelScopes[0]!;
-    for (const { card, uri } of items) {
+    for (let i = 0; i < items.length; i++) {
+      const { card, uri } = items[i]!;
       if (card.kind !== 'model') continue;
       const key = card.name.text.toLowerCase();
       const prev = local.get(key);
@@ -362,8 +381,9 @@ class Elaborator {
         if (sym && sym.key === undefined) sym.key = circuitKey;
       }
     }
-    for (const item of items) {
+    for (let i = 0; i < items.length; i++) {
       if (this.tooLarge) return;
+      const item = items[i]!;
       if (item.card.kind === 'element') this.addElement(item as Located<ElementCard>, inst);
     }
     scope.entries();
@@ -392,7 +412,11 @@ class Elaborator {
       }
     };
     if (!body.items.some((i) => i.card.kind === 'condition')) {
-      for (const { card, uri } of body.items) defineAll(card, uri);
+      for (let i = 0; i < body.items.length; i++) {
+        const { card, uri } = body.items[i]!;
+        // Only these two kinds define anything: no call for the other cards.
+        if (card.kind === 'param' || card.kind === 'func') defineAll(card, uri);
+      }
       return body.items;
     }
     const out: Located[] = [];
@@ -415,7 +439,8 @@ class Elaborator {
     };
     let openerUri = '';
     let branchTaken = false;
-    for (const item of body.items) {
+    for (let i = 0; i < body.items.length; i++) {
+      const item = body.items[i]!;
       const { card, uri } = item;
       if (card.kind !== 'condition') {
         if (branches.active()) {
@@ -557,7 +582,7 @@ class Elaborator {
     const params = this.elementParams(card, uri);
     const name = inst.prefix + card.name.text;
     const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
-    const origin = elementOrigin(uri, card.span, card.nodes.map((t) => t.span), inst.instances, valueToken?.span, card.model?.span);
+    const origin = elementOrigin(uri, card.span, spansOf(card.nodes), inst.instances, valueToken?.span, card.model?.span);
 
     let element: Element | undefined;
     switch (card.letter) {
@@ -742,6 +767,8 @@ class Elaborator {
 
   /** TC1 and TC2 of a resistor: the card's `TC1=`, `TC2=` or `TC=a,b` first, then its model's; 0 when neither gives one. */
   private temperatureCoefficients(card: ElementCard, model: Model | undefined, params: ReadonlyMap<string, Assignment>, inst: Instance, uri: string): { tc1: number; tc2: number } {
+    // Most resistors give neither: no closures and no object made for them.
+    if (params.size === 0 && !model) return NO_TEMPERATURE_COEFFICIENTS;
     const read = (key: string): number | undefined => {
       const a = params.get(key);
       if (!a) return undefined;
@@ -1220,11 +1247,12 @@ class Elaborator {
   private dropUnusedNodes(): void {
     const used = new Uint8Array(this.nodes.length);
     used[0] = 1;
-    for (const e of this.elements) {
-      for (const k of e.nodes) used[k] = 1;
+    for (let i = 0; i < this.elements.length; i++) {
+      const e = this.elements[i]!;
+      for (let s = 0; s < e.nodes.length; s++) used[e.nodes[s]!] = 1;
       if (e.kind === 'B') for (const input of e.inputs) if (input.kind === 'v') used[input.a] = used[input.b] = 1;
     }
-    if (used.every((u) => u === 1)) return;
+    if (used.indexOf(0) < 0) return;
     const remap = new Int32Array(this.nodes.length);
     const kept: string[] = [];
     for (let k = 0; k < this.nodes.length; k++) {
@@ -1255,7 +1283,9 @@ class Elaborator {
     let tnomC: number | undefined;
     const noted = new Set<string>();
     for (const body of bodies) {
-      for (const { card, uri } of body.items) {
+      const items = body.items;
+      for (let i = 0; i < items.length; i++) {
+        const { card, uri } = items[i]!;
         if (card.kind === 'temp' && card.values[0]) {
           if (temperatureC !== undefined) continue;
           temperatureC = this.temperature(card.values[0], top, uri, '.temp');
@@ -1303,8 +1333,13 @@ class Elaborator {
   private paramSymbols(top: Body, topScope: ParamScope, defs: SubcktDef[]): ParamSymbol[] {
     const out: ParamSymbol[] = [];
     const lastByName = new Map<string, Assignment>();
-    for (const { card } of top.items) if (card.kind === 'param') for (const a of card.params) lastByName.set(a.name.text.toLowerCase(), a);
-    for (const { card, uri } of top.items) {
+    const items = top.items;
+    for (let i = 0; i < items.length; i++) {
+      const card = items[i]!.card;
+      if (card.kind === 'param') for (const a of card.params) lastByName.set(a.name.text.toLowerCase(), a);
+    }
+    for (let i = 0; i < items.length; i++) {
+      const { card, uri } = items[i]!;
       if (card.kind !== 'param') continue;
       for (const a of card.params) {
         const current = lastByName.get(a.name.text.toLowerCase()) === a;
@@ -1434,7 +1469,11 @@ function paramSymbol(a: Assignment, uri: string, scope: string, value: number | 
 
 /** The `.title` card's text when the netlist has one, else its first line. */
 function titleOf(root: ParsedDocument, top: Body | undefined): string {
-  for (const { card } of top?.items ?? []) if (card.kind === 'skipped' && card.group === 'title' && card.text) return card.text;
+  const items = top?.items ?? [];
+  for (let i = 0; i < items.length; i++) {
+    const card = items[i]!.card;
+    if (card.kind === 'skipped' && card.group === 'title' && card.text) return card.text;
+  }
   const first = root.cards[0];
   return first && first.kind === 'title' ? first.text : '';
 }
