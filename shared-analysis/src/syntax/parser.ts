@@ -28,7 +28,6 @@ import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
-import { trimmed } from '../arrays';
 import { ParsedElementCard, keptAssignments } from './element-card';
 
 
@@ -120,6 +119,8 @@ interface Context {
   conditions: ConditionCard[];
   /** The text of each field after a card's first one met so far, so a node or model name written on many cards is kept once (`makeToken`). */
   words: Map<string, string>;
+  /** Scratch list of the fields of the card being read (`parseGroup`); past the card's count it holds stale tokens. */
+  fields: Token[];
 }
 
 /** At most this many problems are listed per card; the rest are summed up in one more. */
@@ -132,7 +133,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -256,7 +257,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
  * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
  */
 export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
   return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
 }
 
@@ -278,7 +279,8 @@ function isCommentDollar(text: string, i: number, end: number): boolean {
 }
 
 function isEndCommand(text: string, first: number, end: number): boolean {
-  if (first + 4 > end) return false;
+  // Asked of every line: no string is made for a line that does not start with a dot.
+  if (first + 4 > end || text.charCodeAt(first) !== 46 /* . */) return false;
   if (text.slice(first, first + 4).toLowerCase() !== '.end') return false;
   if (first + 4 === end) return true;
   // Whatever ends a word in the lexer ends the command, so `.end` reads the same here and in parseDotCard.
@@ -409,7 +411,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map() };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -649,12 +651,15 @@ export function sharedText(words: Map<string, string>, own: string, limit = MAX_
   return own;
 }
 
-/** Joins `name = value` into assignments and reports `=` without a name or value. */
-function buildItems(ctx: Context, lx: Lexeme[]): Item[] {
+function isField(l: Lexeme | undefined): boolean {
+  return l !== undefined && (l.type === 'word' || l.type === 'expr');
+}
+
+/** Joins `name = value` into assignments, from lexeme `from` on, and reports `=` without a name or value. */
+function buildItems(ctx: Context, lx: Lexeme[], from: number): Item[] {
   const { text } = ctx;
   const items: Item[] = [];
-  const isField = (l: Lexeme | undefined): boolean => l !== undefined && (l.type === 'word' || l.type === 'expr');
-  let i = 0;
+  let i = from;
   while (i < lx.length) {
     const l = lx[i];
     // `TABLE {expr} = (x, y) …`: an expression before `=` and a bracket is a table's input, not a name.
@@ -720,13 +725,15 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   const special = first.plus === undefined ? readDotHead(ctx, segments, span) : undefined;
   if (special) return special;
   const lx = lexCard(ctx, segments);
-  const fields: Token[] = [];
+  // Gathered in the document's scratch list, then copied: the card keeps its tokens as long as its document, in a
+  // list of its own length, and no list grown for one card is left behind.
+  const fields = ctx.fields;
+  let count = 0;
   for (let k = 0; k < lx.length; k++) {
     const l = lx[k]!;
-    if (l.type === 'word' || l.type === 'expr') fields.push(k === 0 ? makeToken(text, l) : makeSharedToken(ctx, l));
+    if (l.type === 'word' || l.type === 'expr') fields[count++] = k === 0 ? makeToken(text, l) : makeSharedToken(ctx, l);
   }
-  // The card keeps its tokens as long as its document: a list of its own length.
-  const tokens = trimmed(fields);
+  const tokens = fields.slice(0, count);
 
   if (first.plus !== undefined) {
     return errorCard(
@@ -742,9 +749,8 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   // The card's first word (its name or dot command) never starts an assignment.
   const head0 = lx[0];
   const headIsWord = head0 !== undefined && head0.type === 'word';
-  const items = buildItems(ctx, headIsWord ? lx.slice(1) : lx);
-  const head = headIsWord ? { k: 'pos' as const, tok: makeToken(text, head0) } : undefined;
-  if (head === undefined) {
+  const items = buildItems(ctx, lx, headIsWord ? 1 : 0);
+  if (!headIsWord) {
     const at = lx[0] ? { start: lx[0].start, end: lx[0].end } : { start: first.start, end: first.lineEnd };
     return errorCard(
       ctx,
@@ -755,9 +761,9 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
       at,
     );
   }
-  const word = head.tok.text;
-  if (word.charCodeAt(0) === 46 /* . */) return parseDotCard(ctx, head.tok, items, span, tokens);
-  return parseElement(ctx, head.tok, items, span, tokens);
+  const head = makeToken(text, head0);
+  if (head.text.charCodeAt(0) === 46 /* . */) return parseDotCard(ctx, head, items, span, tokens);
+  return parseElement(ctx, head, items, span, tokens);
 }
 
 /** Every dot command the parser knows, read or skipped, for "did you mean" on a misspelt one. */
@@ -776,8 +782,10 @@ export function nearestDotCard(command: string): string | undefined {
 function readDotHead(ctx: Context, segments: Segment[], span: Span): Card | undefined {
   const { text } = ctx;
   const first = segments[0]!;
+  // Asked of every card: no string is made for one that does not start with a dot (most are element cards).
+  if (text.charCodeAt(first.start) !== 46 /* . */) return undefined;
   const head = firstWord(text, first.start, first.lineEnd);
-  if (head.charCodeAt(0) !== 46 /* . */ || head.length < 2) return undefined;
+  if (head.length < 2) return undefined;
   const cmd = head.toLowerCase();
   const command = wordToken(text, first.start, first.start + head.length);
   const group = SKIPPED_CARDS.get(cmd);
@@ -1026,25 +1034,13 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     else if (it.k === 'asg') asgs.push(it.asg);
   }
 
-  const missing = (found: number): Card => {
-    const extra = asgs.length > 0 ? ` and ${asgs.length} name=value parameter${asgs.length === 1 ? '' : 's'}` : '';
-    return errorCard(
-      ctx,
-      'element-missing-fields',
-      `${owner}: ${need.noun} needs ${need.needs}; found ${found} field${found === 1 ? '' : 's'}${extra}.`,
-      span,
-      tokens,
-      fieldsSpan(name, tokens),
-    );
-  };
-
   switch (L) {
     case 'R':
     case 'C':
     case 'L': {
       // `R1 a b R=1k`: the value may be given as an assignment named after the letter.
       const valueAsg = asgs.find((a) => a.name.text.toUpperCase() === L);
-      if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missing(pos.length);
+      if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 2);
       const rest = pos.slice(2);
       let used = 0;
@@ -1081,7 +1077,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'V':
     case 'I': {
-      if (pos.length < 2) return missing(pos.length);
+      if (pos.length < 2) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 2);
       // Source fields follow the second node.
       let start = 0;
@@ -1098,7 +1094,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'E':
     case 'G': {
-      if (pos.length < 5) return missing(pos.length);
+      if (pos.length < 5) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 4);
       card.value = pos[4];
       for (const t of pos.slice(5)) unexpected(ctx, owner, t, `${need.noun} uses`);
@@ -1107,7 +1103,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'F':
     case 'H': {
-      if (pos.length < 4) return missing(pos.length);
+      if (pos.length < 4) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 2);
       card.control = pos[2];
       card.value = pos[3];
@@ -1117,7 +1113,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'D': {
       const kept = dropOff(ctx, owner, pos, 2);
-      if (kept.length < 3) return missing(kept.length);
+      if (kept.length < 3) return missingFields(ctx, name, need, asgs.length, span, tokens, kept.length);
       card.nodes = kept.slice(0, 2);
       card.model = kept[2];
       if (isValueLike(card.model)) {
@@ -1138,11 +1134,11 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'Q': {
       const kept = dropOff(ctx, owner, pos, 3);
-      if (kept.length < 4) return missing(kept.length);
-      const rest = kept.slice(3);
+      if (kept.length < 4) return missingFields(ctx, name, need, asgs.length, span, tokens, kept.length);
+      // The fields after the emitter are kept[3..]: read in place, no lists made for them.
       let m = -1;
-      for (let j = rest.length - 1; j >= 0; j--) {
-        if (!isValueLike(rest[j])) {
+      for (let j = kept.length - 1; j >= 3; j--) {
+        if (!isValueLike(kept[j])) {
           m = j;
           break;
         }
@@ -1154,23 +1150,21 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
           `${owner}: ${need.noun} needs ${need.needs}; none of the fields after the emitter node '${shorten(kept[2].text)}' is a model name (a model name starts with a letter).`,
           span,
           tokens,
-          { start: rest[0].span.start, end: rest[rest.length - 1].span.end },
+          { start: kept[3].span.start, end: kept[kept.length - 1].span.end },
         );
       }
-      const nodes = kept.slice(0, 3);
-      if (m >= 1) nodes.push(rest[0]);
-      card.nodes = nodes;
-      for (const t of rest.slice(1, m)) unexpected(ctx, owner, t, `${need.noun} uses (collector, base, emitter, substrate)`);
-      card.model = rest[m];
-      const after = rest.slice(m + 1);
-      if (after.length > 0) card.area = after.shift();
-      for (const t of after) unexpected(ctx, owner, t, `${need.noun} uses`);
+      // A substrate node is the first field after the emitter when the model name comes later.
+      card.nodes = kept.slice(0, m >= 4 ? 4 : 3);
+      for (let j = 4; j < m; j++) unexpected(ctx, owner, kept[j], `${need.noun} uses (collector, base, emitter, substrate)`);
+      card.model = kept[m];
+      if (m + 1 < kept.length) card.area = kept[m + 1];
+      for (let j = m + 2; j < kept.length; j++) unexpected(ctx, owner, kept[j], `${need.noun} uses`);
       card.params = keptAssignments(asgs);
       return card;
     }
     case 'M': {
       const kept = dropOff(ctx, owner, pos, 4);
-      if (kept.length < 5) return missing(kept.length);
+      if (kept.length < 5) return missingFields(ctx, name, need, asgs.length, span, tokens, kept.length);
       card.nodes = kept.slice(0, 4);
       card.model = kept[4];
       if (isValueLike(card.model)) {
@@ -1198,7 +1192,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
           else unexpected(ctx, owner, it.tok, 'an instance takes after its parameters');
         }
       }
-      if (before.length < 1) return missing(0);
+      if (before.length < 1) return missingFields(ctx, name, need, asgs.length, span, tokens, 0);
       card.subckt = before[before.length - 1];
       card.nodes = before.slice(0, -1);
       card.params = keptAssignments(asgs);
@@ -1208,7 +1202,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     case 'J':
     case 'Z': {
       const kept = dropOff(ctx, owner, pos, 3);
-      if (kept.length < 4) return missing(kept.length);
+      if (kept.length < 4) return missingFields(ctx, name, need, asgs.length, span, tokens, kept.length);
       card.nodes = kept.slice(0, 3);
       card.model = kept[3];
       const rest = kept.slice(4);
@@ -1222,7 +1216,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
       const nodeCount = L === 'S' ? 4 : 2;
       const kept = pos.filter((t, j) => !(j > nodeCount && t.kind === 'word' && /^(on|off)$/i.test(t.text)));
       const need2 = L === 'S' ? 5 : 4;
-      if (kept.length < need2) return missing(kept.length);
+      if (kept.length < need2) return missingFields(ctx, name, need, asgs.length, span, tokens, kept.length);
       card.nodes = kept.slice(0, nodeCount);
       if (L === 'W') card.control = kept[2];
       card.model = kept[need2 - 1];
@@ -1232,14 +1226,14 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'B': {
       const expr = asgs.find((a) => /^[vi]$/i.test(a.name.text));
-      if (pos.length < 2 || !expr) return missing(pos.length);
+      if (pos.length < 2 || !expr) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 2);
       card.value = expr.value;
       card.params = keptAssignments(asgs);
       return card;
     }
     case 'K': {
-      if (pos.length < 3) return missing(pos.length);
+      if (pos.length < 3) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.coupled = pos.slice(0, -1);
       card.value = pos[pos.length - 1];
       card.params = keptAssignments(asgs);
@@ -1247,7 +1241,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
     case 'T':
     case 'Y': {
-      if (pos.length < 2) return missing(pos.length);
+      if (pos.length < 2) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos;
       card.params = keptAssignments(asgs);
       return card;
@@ -1257,7 +1251,7 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     case 'U':
     case 'A':
     case 'N': {
-      if (pos.length < 2) return missing(pos.length);
+      if (pos.length < 2) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, -1);
       card.model = pos[pos.length - 1];
       card.params = keptAssignments(asgs);
@@ -1265,6 +1259,19 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
   }
   return card;
+}
+
+/** The card of an element with too few fields (a function, not a closure made for every element card). */
+function missingFields(ctx: Context, name: Token, need: { noun: string; needs: string }, assignments: number, span: Span, tokens: Token[], found: number): Card {
+  const extra = assignments > 0 ? ` and ${assignments} name=value parameter${assignments === 1 ? '' : 's'}` : '';
+  return errorCard(
+    ctx,
+    'element-missing-fields',
+    `${name.text}: ${need.noun} needs ${need.needs}; found ${found} field${found === 1 ? '' : 's'}${extra}.`,
+    span,
+    tokens,
+    fieldsSpan(name, tokens),
+  );
 }
 
 /**
@@ -1300,6 +1307,10 @@ function sourceExpectation(L: string): string {
 
 /** Removes the initial-condition keyword OFF after the nodes and notes that a DC bias analysis ignores it. */
 function dropOff(ctx: Context, owner: string, pos: Token[], nodeCount: number): Token[] {
+  // Most cards have no OFF: the list itself, not a copy (callers only read it).
+  let off = false;
+  for (let j = nodeCount + 1; j < pos.length && !off; j++) off = pos[j].kind === 'word' && pos[j].text.toUpperCase() === 'OFF';
+  if (!off) return pos;
   const kept: Token[] = [];
   for (let j = 0; j < pos.length; j++) {
     const t = pos[j];
