@@ -88,6 +88,40 @@ interface Lexeme {
   token: Token | undefined;
 }
 
+/**
+ * The lexemes of the card being read, `at(0)` to `at(length - 1)`: one list per document whose lexeme objects are
+ * written again for each card (a card's lexemes live only while it is read; its tokens are made from them and kept).
+ */
+class LexemeList {
+  private readonly items: Lexeme[] = [];
+  length = 0;
+  /** After `.include` or `.lib`: split only at blanks, so paths keep commas and `=`. */
+  path = false;
+
+  /** Empties the list for the next card. */
+  reset(): void {
+    this.length = 0;
+    this.path = false;
+  }
+
+  add(type: Lexeme['type'], start: number, end: number): void {
+    const i = this.length++;
+    const l = this.items[i];
+    if (l === undefined) {
+      this.items.push({ type, start, end, token: undefined });
+      return;
+    }
+    l.type = type;
+    l.start = start;
+    l.end = end;
+    l.token = undefined;
+  }
+
+  at(i: number): Lexeme | undefined {
+    return i < this.length ? this.items[i] : undefined;
+  }
+}
+
 /** A field of a card after `name=value` pairs are joined. */
 type Item =
   | { k: 'pos'; tok: Token }
@@ -121,6 +155,8 @@ interface Context {
   words: Map<string, string>;
   /** Scratch list of the fields of the card being read (`parseGroup`); past the card's count it holds stale tokens. */
   fields: Token[];
+  /** The lexemes of the card being read (`lexCard`). */
+  lexemes: LexemeList;
 }
 
 /** At most this many problems are listed per card; the rest are summed up in one more. */
@@ -133,7 +169,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -257,7 +293,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
  * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
  */
 export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
 }
 
@@ -411,7 +447,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map(), fields: [] };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -435,9 +471,9 @@ function shorten(s: string): string {
 // Lexing
 
 /** Lexes the segments of one card; `path` mode (after `.include`/`.lib`) splits only at blanks so paths keep commas and `=`. */
-function lexCard(ctx: Context, segments: Segment[]): Lexeme[] {
-  const out: Lexeme[] = [];
-  const mode = { path: false };
+function lexCard(ctx: Context, segments: Segment[]): LexemeList {
+  const out = ctx.lexemes;
+  out.reset();
   // A `{...}` expression may continue over `+` lines: it is one lexeme from its `{` to its `}`.
   let open: { start: number; depth: number } | undefined;
   for (let k = 0; k < segments.length; k++) {
@@ -454,11 +490,11 @@ function lexCard(ctx: Context, segments: Segment[]): Lexeme[] {
         }
         continue;
       }
-      out.push({ type: 'expr', start: open.start, end: r.pos, token: undefined });
+      out.add('expr', open.start, r.pos);
       open = undefined;
       from = r.pos;
     }
-    open = lexSegment(ctx, from, seg.lineEnd, out, mode, more);
+    open = lexSegment(ctx, from, seg.lineEnd, out, more);
   }
   return out;
 }
@@ -478,7 +514,7 @@ function scanBrace(text: string, i: number, to: number, depth: number): { pos: n
 }
 
 /** Lexes one line of a card; returns the start and depth of a `{` left open at its end when a `+` line follows to continue it. */
-function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode: { path: boolean }, more: boolean): { start: number; depth: number } | undefined {
+function lexSegment(ctx: Context, from: number, to: number, out: LexemeList, more: boolean): { start: number; depth: number } | undefined {
   const { text } = ctx;
   let i = from;
   while (i < to) {
@@ -489,7 +525,7 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
     }
     if (c === 59 /* ; */) return undefined;
     if (c === 36 /* $ */ && isCommentDollar(text, i, to)) return undefined;
-    if (mode.path) {
+    if (out.path) {
       if (c === 34 || c === 39) {
         i = lexQuoted(ctx, i, to, c, 'word', out);
         continue;
@@ -500,7 +536,7 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
         if (isSpace(d) || d === 59 || (d === 36 && isCommentDollar(text, i, to))) break;
         i++;
       }
-      out.push({ type: 'word', start: s, end: i, token: undefined });
+      out.add('word', s, i);
       continue;
     }
     if (c === 44 /* , */) {
@@ -508,17 +544,17 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
       continue;
     }
     if (c === 61 /* = */) {
-      out.push({ type: 'eq', start: i, end: i + 1, token: undefined });
+      out.add('eq', i, i + 1);
       i++;
       continue;
     }
     if (c === 40 /* ( */) {
-      out.push({ type: 'lp', start: i, end: i + 1, token: undefined });
+      out.add('lp', i, i + 1);
       i++;
       continue;
     }
     if (c === 41 /* ) */) {
-      out.push({ type: 'rp', start: i, end: i + 1, token: undefined });
+      out.add('rp', i, i + 1);
       i++;
       continue;
     }
@@ -552,21 +588,21 @@ function lexSegment(ctx: Context, from: number, to: number, out: Lexeme[], mode:
     }
     // `PARAMS:name=...` glued together: split the keyword off so it is recognised.
     if (i - s > 7 && text.charCodeAt(s + 6) === 58 /* : */ && text.slice(s, s + 7).toUpperCase() === 'PARAMS:') {
-      out.push({ type: 'word', start: s, end: s + 7, token: undefined });
-      out.push({ type: 'word', start: s + 7, end: i, token: undefined });
+      out.add('word', s, s + 7);
+      out.add('word', s + 7, i);
     } else {
-      out.push({ type: 'word', start: s, end: i, token: undefined });
+      out.add('word', s, i);
     }
     if (out.length === 1 && c === 46 /* . */) {
       const cmd = text.slice(s, i).toLowerCase();
-      if (cmd === '.include' || cmd === '.inc' || cmd === '.lib') mode.path = true;
+      if (cmd === '.include' || cmd === '.inc' || cmd === '.lib') out.path = true;
     }
   }
   return undefined;
 }
 
 /** Reads `{...}` with nested braces; an unclosed brace runs to the end of the line and is reported. */
-function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[], startDepth = 0): number {
+function lexBraced(ctx: Context, i: number, to: number, out: LexemeList, startDepth = 0): number {
   const { text } = ctx;
   const s = i;
   let depth = startDepth;
@@ -577,7 +613,7 @@ function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[], startDept
     else if (d === 125) {
       depth--;
       if (depth === 0) {
-        out.push({ type: 'expr', start: s, end: i + 1, token: undefined });
+        out.add('expr', s, i + 1);
         return i + 1;
       }
     }
@@ -591,24 +627,24 @@ function lexBraced(ctx: Context, i: number, to: number, out: Lexeme[], startDept
     `This expression opens ${depth === 1 ? "a '{'" : `${depth} '{'`} that ${depth === 1 ? 'is' : 'are'} not closed on this line; add the missing '}'.`,
     { start: s, end: e },
   );
-  out.push({ type: 'expr', start: s, end: e, token: undefined });
+  out.add('expr', s, e);
   return to;
 }
 
-function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'word' | 'expr', out: Lexeme[]): number {
+function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'word' | 'expr', out: LexemeList): number {
   const { text } = ctx;
   const s = i;
   i++;
   while (i < to && text.charCodeAt(i) !== quote) i++;
   if (i < to) {
-    out.push({ type, start: s, end: i + 1, token: undefined });
+    out.add(type, s, i + 1);
     return i + 1;
   }
   let e = to;
   while (e > s + 1 && isSpace(text.charCodeAt(e - 1))) e--;
   const q = String.fromCharCode(quote);
   addError(ctx, 'unterminated-quote', `This ${q} is not closed on its line; add the closing ${q}.`, { start: s, end: e });
-  out.push({ type, start: s, end: e, token: undefined });
+  out.add(type, s, e);
   return to;
 }
 
@@ -651,28 +687,28 @@ export function sharedText(words: Map<string, string>, own: string, limit = MAX_
   return own;
 }
 
-function isField(l: Lexeme | undefined): boolean {
+function isField(l: Lexeme | undefined): l is Lexeme {
   return l !== undefined && (l.type === 'word' || l.type === 'expr');
 }
 
 /** Joins `name = value` into assignments, from lexeme `from` on, and reports `=` without a name or value. */
-function buildItems(ctx: Context, lx: Lexeme[], from: number): Item[] {
+function buildItems(ctx: Context, lx: LexemeList, from: number): Item[] {
   const { text } = ctx;
   const items: Item[] = [];
   let i = from;
   while (i < lx.length) {
-    const l = lx[i];
+    const l = lx.at(i)!;
     // `TABLE {expr} = (x, y) …`: an expression before `=` and a bracket is a table's input, not a name.
-    if (l.type === 'expr' && lx[i + 1]?.type === 'eq' && lx[i + 2]?.type === 'lp') {
+    if (l.type === 'expr' && lx.at(i + 1)?.type === 'eq' && lx.at(i + 2)?.type === 'lp') {
       items.push({ k: 'pos', tok: makeToken(text, l) });
       i += 2;
       continue;
     }
-    if (isField(l) && lx[i + 1]?.type === 'eq') {
+    if (isField(l) && lx.at(i + 1)?.type === 'eq') {
       const name = makeToken(text, l);
-      const v = lx[i + 2];
+      const v = lx.at(i + 2);
       // `W= L=1u`: the word after the `=` is itself a name, so W has no value.
-      if (isField(v) && lx[i + 3]?.type !== 'eq') {
+      if (isField(v) && lx.at(i + 3)?.type !== 'eq') {
         const value = makeToken(text, v);
         items.push({ k: 'asg', asg: { name, value, span: { start: l.start, end: v.end } } });
         i += 3;
@@ -681,7 +717,7 @@ function buildItems(ctx: Context, lx: Lexeme[], from: number): Item[] {
           ctx,
           'assignment-missing-value',
           `'${name.text}=' has no value after the '='; write ${name.text}=<value>.`,
-          { start: l.start, end: lx[i + 1].end },
+          { start: l.start, end: lx.at(i + 1)!.end },
         );
         i += 2;
       }
@@ -690,7 +726,7 @@ function buildItems(ctx: Context, lx: Lexeme[], from: number): Item[] {
     if (l.type === 'eq') {
       addError(ctx, 'assignment-missing-name', "This '=' has no parameter name before it; write <name>=<value>.", { start: l.start, end: l.end });
       // The field after a nameless `=` is its value, not a field of its own.
-      i += isField(lx[i + 1]) && lx[i + 2]?.type !== 'eq' ? 2 : 1;
+      i += isField(lx.at(i + 1)) && lx.at(i + 2)?.type !== 'eq' ? 2 : 1;
       continue;
     }
     if (l.type === 'lp') items.push({ k: 'lp', span: { start: l.start, end: l.end } });
@@ -701,9 +737,10 @@ function buildItems(ctx: Context, lx: Lexeme[], from: number): Item[] {
   return items;
 }
 
-function checkParentheses(ctx: Context, lx: Lexeme[]): void {
+function checkParentheses(ctx: Context, lx: LexemeList): void {
   const open: Lexeme[] = [];
-  for (const l of lx) {
+  for (let i = 0; i < lx.length; i++) {
+    const l = lx.at(i)!;
     if (l.type === 'lp') open.push(l);
     else if (l.type === 'rp') {
       if (open.length > 0) open.pop();
@@ -730,7 +767,7 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   const fields = ctx.fields;
   let count = 0;
   for (let k = 0; k < lx.length; k++) {
-    const l = lx[k]!;
+    const l = lx.at(k)!;
     if (l.type === 'word' || l.type === 'expr') fields[count++] = k === 0 ? makeToken(text, l) : makeSharedToken(ctx, l);
   }
   const tokens = fields.slice(0, count);
@@ -747,11 +784,11 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   }
   checkParentheses(ctx, lx);
   // The card's first word (its name or dot command) never starts an assignment.
-  const head0 = lx[0];
+  const head0 = lx.at(0);
   const headIsWord = head0 !== undefined && head0.type === 'word';
   const items = buildItems(ctx, lx, headIsWord ? 1 : 0);
   if (!headIsWord) {
-    const at = lx[0] ? { start: lx[0].start, end: lx[0].end } : { start: first.start, end: first.lineEnd };
+    const at = head0 ? { start: head0.start, end: head0.end } : { start: first.start, end: first.lineEnd };
     return errorCard(
       ctx,
       'unrecognised-card',
