@@ -16,7 +16,9 @@ export function findRails(circuit: Circuit): Rail[] {
   const sources = new Map<number, string[]>([[0, []]]);
   const order: number[] = [0];
   const links: { a: number; b: number; dc: number; name: string }[] = [];
-  for (const e of circuit.elements) {
+  // Indexed: this runs once per circuit, in code V8 has not optimised, where a for-of makes an object per element.
+  for (let k = 0; k < circuit.elements.length; k++) {
+    const e = circuit.elements[k]!;
     if (e.kind === 'V' && Number.isFinite(e.dc)) links.push({ a: e.nodes[0], b: e.nodes[1], dc: e.dc, name: e.name });
     else if (e.kind === 'L') links.push({ a: e.nodes[0], b: e.nodes[1], dc: 0, name: e.name });
   }
@@ -61,10 +63,25 @@ export function followRails(previous: Circuit, next: Circuit): void {
   if (m && !cache.has(next)) cache.set(next, m);
 }
 
+/** Up to this many rails are each looked for along the node list; more are found through a table of every node's name. */
+const RAILS_LOOKED_FOR = 16;
+
+/**
+ * Each rail at the index of its node's name (the last node of that name). A circuit has a few rails and many nodes:
+ * each of a few rails' names is looked for from the end of the list, where a table of every node's name (50,000 at
+ * 100,000 elements) was made for them.
+ */
 function indexRails(circuit: Circuit, rails: Rail[]): Map<number, Rail> {
-  const index = new Map<string, number>();
-  circuit.nodes.forEach((n, i) => index.set(n, i));
   const out = new Map<number, Rail>();
+  if (rails.length <= RAILS_LOOKED_FOR) {
+    for (const r of rails) {
+      const i = circuit.nodes.lastIndexOf(r.node);
+      if (i >= 0) out.set(i, r);
+    }
+    return out;
+  }
+  const index = new Map<string, number>();
+  for (let i = 0; i < circuit.nodes.length; i++) index.set(circuit.nodes[i]!, i);
   for (const r of rails) {
     const i = index.get(r.node);
     if (i !== undefined) out.set(i, r);

@@ -90,12 +90,50 @@ interface SharedIndex {
   elementIndex: Map<string, number>;
   /** Per transistor, its element's index in `circuit.elements`. */
   transistorElement: Int32Array;
+  /** Per element, its transistor's index in `transistors`, or -1; made only when every element has its own name. */
+  elementTransistor: Int32Array | undefined;
+}
+
+/** Transistor name -> the transistor (the last of that name), read as a `Map` is. */
+export interface TransistorNames extends Iterable<[string, Transistor]> {
+  get(name: string): Transistor | undefined;
+  has(name: string): boolean;
+}
+
+/**
+ * The transistors by name of a circuit whose every element has its own name, read through the element index: no
+ * table of its own (a map of 50,000 names at 100,000 elements), and no look-up while the views are made.
+ */
+class UniqueTransistorNames implements TransistorNames {
+  constructor(
+    private readonly transistors: readonly Transistor[],
+    private readonly elementIndex: Map<string, number>,
+    private readonly elementTransistor: Int32Array,
+  ) {}
+
+  get(name: string): Transistor | undefined {
+    const k = this.elementIndex.get(name);
+    if (k === undefined) return undefined;
+    const i = this.elementTransistor[k]!;
+    return i < 0 ? undefined : this.transistors[i];
+  }
+
+  has(name: string): boolean {
+    return this.get(name) !== undefined;
+  }
+
+  /** In the order a map filled from the transistors in order lists them (each name once: the names are unique). */
+  *[Symbol.iterator](): Iterator<[string, Transistor]> {
+    for (const t of this.transistors) yield [t.name, t];
+  }
 }
 
 /** Node-to-element incidence and the transistor views of one circuit. */
 export class Topology {
   readonly transistors: Transistor[];
-  readonly byName: Map<string, Transistor>;
+  readonly byName: TransistorNames;
+  /** The names of a circuit with elements of the same name, as a map (see `UniqueTransistorNames` otherwise). */
+  private names: Map<string, Transistor> | undefined;
   /** Transistors by control (base/gate) node and by common (emitter/source) node. */
   readonly byCtrl: Map<number, Transistor[]>;
   readonly byCommon: Map<number, Transistor[]>;
@@ -127,6 +165,7 @@ export class Topology {
   /** Element name -> index in `circuit.elements` (the last element of that name, as `elementByName`), for reading a solved point by index. */
   readonly elementIndex: Map<string, number>;
   private readonly transistorElement: Int32Array;
+  private readonly elementTransistor: Int32Array | undefined;
 
   /** `from`: the topology of a circuit this one differs from only in values (see `followTopology`). */
   constructor(
@@ -144,9 +183,11 @@ export class Topology {
     // that moved no offset shares them), made again otherwise. Nothing writes into a view or these tables once built.
     const views = followed?.viewsHold(circuit.elements) ? followed : undefined;
     this.transistors = views ? views.transistors : [];
-    this.byName = views ? views.byName : new Map();
     this.byCtrl = views ? views.byCtrl : new Map();
     this.byCommon = views ? views.byCommon : new Map();
+    // Whether every element has its own name: known before the views are made (followed: the same names).
+    const unique = followed ? followed.elementTransistor !== undefined : undefined;
+    this.names = views ? views.names : unique === false ? new Map() : undefined;
     const shared = followed ? followed.index() : this.build();
     this.rowStart = shared.rowStart;
     this.rowElement = shared.rowElement;
@@ -154,6 +195,8 @@ export class Topology {
     this.nodeIndex = shared.nodeIndex;
     this.elementIndex = shared.elementIndex;
     this.transistorElement = shared.transistorElement;
+    this.elementTransistor = shared.elementTransistor;
+    this.byName = views ? views.byName : this.names ?? new UniqueTransistorNames(this.transistors, this.elementIndex, shared.elementTransistor!);
     if (followed && !views) this.follow(followed);
     if (!views) {
       trimLists(this.byCtrl);
@@ -168,8 +211,8 @@ export class Topology {
   }
 
   private index(): SharedIndex {
-    const { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement } = this;
-    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement };
+    const { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor } = this;
+    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor };
   }
 
   /** The transistor views and the name table made again for this circuit's elements, the rest shared with `from`. */
@@ -181,7 +224,7 @@ export class Topology {
       const element = elements[this.transistorElement[i]] as Transistor['element'];
       const t: Transistor = { name: old.name, element, tech: old.tech, out: old.out, ctrl: old.ctrl, common: old.common, bulk: old.bulk, scale: old.scale, index: old.index, nameIndex: old.nameIndex };
       this.transistors.push(t);
-      this.byName.set(t.name, t);
+      this.names?.set(t.name, t);
       push(this.byCtrl, t.ctrl, t);
       push(this.byCommon, t.common, t);
     }
@@ -196,12 +239,15 @@ export class Topology {
     const elementIndex = elementIndexOf(circuit.elements);
     const rowStart = new Int32Array(nodeCount + 1);
     const connections = this.countConnections(rowStart);
-    const transistorElement = this.addTransistors();
+    const elementTransistor = elementIndex.size === circuit.elements.length ? new Int32Array(circuit.elements.length).fill(-1) : undefined;
+    // A circuit with elements of the same name keeps its transistors by name in a map of their own.
+    if (!elementTransistor) this.names = new Map();
+    const transistorElement = this.addTransistors(elementTransistor);
     for (let n = 0; n < nodeCount; n++) rowStart[n + 1] += rowStart[n];
     const rowElement = new Int32Array(connections);
     const rowSlot = new Uint8Array(connections);
     fillRows(circuit.elements, nodeCount, rowStart, rowElement, rowSlot);
-    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement };
+    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor };
   }
 
   /** Each node's connection count into `rowStart[n + 1]` (connections to stray node numbers listed apart); the count of the others. */
@@ -223,18 +269,24 @@ export class Topology {
     return connections;
   }
 
-  /** The transistor views, by name and by control and common node; per transistor, its element's index. */
-  private addTransistors(): Int32Array {
+  /**
+   * The transistor views, by control and common node (and by name into `names` when it is made); per transistor, its
+   * element's index, and into `elementTransistor` (when every element has its own name) each element's transistor.
+   */
+  private addTransistors(elementTransistor: Int32Array | undefined): Int32Array {
     const elements = this.circuit.elements;
+    const names = this.names;
     const transistorElement: number[] = [];
     for (let k = 0; k < elements.length; k++) {
       const t = asTransistor(elements[k]);
       if (!t) continue;
       t.index = this.transistors.length;
-      t.nameIndex = this.byName.get(t.name)?.nameIndex ?? t.index;
+      // With every name its own, no transistor before this one has its name.
+      t.nameIndex = names ? (names.get(t.name)?.nameIndex ?? t.index) : t.index;
       this.transistors.push(t);
       transistorElement.push(k);
-      this.byName.set(t.name, t);
+      if (names) names.set(t.name, t);
+      else elementTransistor![k] = t.index;
       push(this.byCtrl, t.ctrl, t);
       push(this.byCommon, t.common, t);
     }
@@ -360,7 +412,10 @@ function incidentSlots(e: Element): number {
 
 /** Gives each list of `m` that grew by `push` a copy of its own length (the topology keeps them for the whole analysis). */
 function trimLists<K, V>(m: Map<K, V[]>): void {
-  for (const [k, list] of m) if (list.length > 1) m.set(k, trimmed(list));
+  // forEach: a for-of over a map makes an entry list per step in code not yet optimised (this runs once per topology).
+  m.forEach((list, k) => {
+    if (list.length > 1) m.set(k, trimmed(list));
+  });
 }
 
 function push<K, V>(m: Map<K, V[]>, k: K, v: V): void {

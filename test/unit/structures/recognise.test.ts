@@ -3,7 +3,7 @@
 import { describe, expect, it } from 'vitest';
 import type { Circuit } from '../../../shared-analysis/src/circuit';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
-import { findRails } from '../../../shared-analysis/src/structures/rails';
+import { findRails, railsByIndex } from '../../../shared-analysis/src/structures/rails';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
@@ -283,6 +283,25 @@ describe('findRails', () => {
       { node: 'b', volts: 8, sources: ['V1', 'V2'] },
       { node: 'c', volts: -7, sources: ['V1', 'V3'] },
     ]);
+  });
+
+  it('indexes each rail at the last node of its name, for a few rails and for many, names unique or repeated', () => {
+    for (const sources of [3, 40]) {
+      const b = new CircuitBuilder();
+      for (let k = 0; k < sources; k++) b.v(`V${k}`, `s${k}`, k % 3 === 0 ? '0' : `s${k - 1}`, 1 + k).r(`R${k}`, `s${k}`, `m${k}`, 1e3);
+      const unique = b.build();
+      // A builder's circuit may repeat a node's name (the elaborator's does not): a later node named as a rail's.
+      const repeated: Circuit = { ...unique, nodes: unique.nodes.map((n, i) => (n.startsWith('m') && i % 2 === 0 ? `s${i % sources}` : n)) };
+      for (const circuit of [unique, repeated]) {
+        // Expected: a table of every node's name (the last of a name wins), each rail looked up in it.
+        const byName = new Map<string, number>();
+        circuit.nodes.forEach((n, i) => byName.set(n, i));
+        const expected = new Map<number, Rail>();
+        for (const r of findRails(circuit)) if (byName.has(r.node)) expected.set(byName.get(r.node)!, r);
+        expect([...railsByIndex(circuit)]).toEqual([...expected]);
+        expect([...railsByIndex(circuit, findRails(circuit))]).toEqual([...expected]);
+      }
+    }
   });
 });
 

@@ -101,6 +101,35 @@ describe('topology', () => {
     }
   });
 
+  it('finds each transistor by name as a map filled from the transistors in order does, names unique or repeated, built or followed (seeded)', () => {
+    for (let seed = 1; seed <= 20; seed++) {
+      const unique = tangle(seed);
+      // The same tangle with some names repeated (a builder's circuit may have them; the elaborator's has not): a later
+      // transistor or another element taking an earlier element's name.
+      const repeated: Circuit = { ...unique, elements: unique.elements.map((e, i) => (i > 3 && i % 4 === 0 ? { ...e, name: unique.elements[i - 3]!.name } : e)) };
+      for (const circuit of [unique, repeated]) {
+        const built = new Topology(circuit);
+        const followed = new Topology({ ...circuit, elements: circuit.elements.map((e) => ({ ...e })) }, built);
+        for (const topo of [built, followed]) {
+          const plain = new Map<string, (typeof topo.transistors)[number]>();
+          const firstIndex = new Map<string, number>();
+          for (const t of topo.transistors) {
+            plain.set(t.name, t);
+            if (!firstIndex.has(t.name)) firstIndex.set(t.name, t.index);
+          }
+          expect([...topo.byName]).toEqual([...plain]);
+          for (const e of circuit.elements) {
+            expect(topo.byName.get(e.name)).toBe(plain.get(e.name));
+            expect(topo.byName.has(e.name)).toBe(plain.has(e.name));
+          }
+          expect(topo.byName.get('no such element')).toBeUndefined();
+          expect(topo.byName.has('no such element')).toBe(false);
+          for (const t of topo.transistors) expect(t.nameIndex).toBe(firstIndex.get(t.name));
+        }
+      }
+    }
+  });
+
   it('lists the DC connections of a node as a scan of the elements does: no capacitor, no MOS gate or bulk (seeded)', () => {
     for (let seed = 1; seed <= 20; seed++) {
       const circuit = tangle(seed);
