@@ -53,6 +53,12 @@ export interface SparseLUStats {
   matrixNonzeros: number;
 }
 
+// What `SparseLU.refactorScaled` did: finished, met a pivot the refactorisation refuses, met an entry that is not finite (or was not tried).
+const REFACTOR_DONE = 1;
+const REFACTOR_SMALL_PIVOT = 0;
+const REFACTOR_NOT_FINITE = -1;
+const REFACTOR_NOT_TRIED = -2;
+
 /** Growable typed-array pair used while the L/U patterns are discovered. */
 class Growable {
   idx: Int32Array;
@@ -129,6 +135,8 @@ export class SparseLU implements LinearSolver {
   /** pinv[originalRow] = pivot position; rowOf[position] = original row. */
   private readonly pinv: Int32Array;
   private readonly rowOf: Int32Array;
+  /** pinv[aRow[p]] for every compressed entry p, set with the pivots (the row position a refactorisation loads entry p at). */
+  private readonly aPos: Int32Array;
 
   // Work space, allocated once.
   private readonly work: Float64Array;
@@ -231,6 +239,7 @@ export class SparseLU implements LinearSolver {
     this.uDiag = new Float64Array(n);
     this.pinv = new Int32Array(n).fill(-1);
     this.rowOf = new Int32Array(n);
+    this.aPos = new Int32Array(this.aRow.length);
     this.work = new Float64Array(n);
     this.stack = new Int32Array(n);
     this.resume = new Int32Array(n);
@@ -291,7 +300,18 @@ export class SparseLU implements LinearSolver {
     if (this.invalidIndex >= 0) return this.fail('invalid-pattern', this.invalidIndex);
     const n = this.n;
     if (values.length < this.slot.length) return this.fail('missing-values', this.patternRow[values.length]);
-    const nonFinite = this.entryAt ? this.scatterInOrder(values, rowScale, colScale, this.entryAt) : this.scatter(values, rowScale, colScale);
+    // A refactorisation of scaled values reads them straight from `values` (see `refactorScaled`); only when it cannot
+    // finish are they stored into the compressed columns, for the pivoting factorisation or to name an entry that is not finite.
+    const entryAt = this.entryAt;
+    const direct = entryAt !== undefined && rowScale !== undefined && colScale !== undefined && this.haveSymbolic && n > 0 && this.emptyIndex < 0;
+    const refactored = direct ? this.refactorScaled(values, rowScale, colScale, entryAt) : REFACTOR_NOT_TRIED;
+    if (refactored === REFACTOR_DONE) {
+      this.counters.refactor++;
+      this.valid = true;
+      this.lastFailure = undefined;
+      return { ok: true };
+    }
+    const nonFinite = entryAt ? this.scatterInOrder(values, rowScale, colScale, entryAt) : this.scatter(values, rowScale, colScale);
     if (nonFinite >= 0) return this.fail('non-finite-value', nonFinite);
     if (n === 0) {
       this.valid = true;
@@ -300,7 +320,8 @@ export class SparseLU implements LinearSolver {
     }
     if (this.emptyIndex >= 0) return this.fail('structurally-singular', this.emptyIndex);
     if (this.haveSymbolic) {
-      if (this.refactor()) {
+      // A direct refactorisation that met a small pivot met it on these very numbers: the plain one would too.
+      if (refactored !== REFACTOR_SMALL_PIVOT && this.refactor()) {
         this.counters.refactor++;
         this.valid = true;
         this.lastFailure = undefined;
@@ -526,7 +547,7 @@ export class SparseLU implements LinearSolver {
   /** Numeric refactorisation on the recorded pivots and patterns; false asks for a pivoting one. */
   private refactor(): boolean {
     const n = this.n;
-    const { aStart, aRow, aVal, q, pinv, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const { aStart, aVal, q, aPos, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
     const x = this.work;
     const tol = this.refactorThreshold;
     const sing = this.singularTolerance;
@@ -535,7 +556,7 @@ export class SparseLU implements LinearSolver {
       let scale = 0;
       for (let p = aStart[j]; p < aStart[j + 1]; p++) {
         const v = aVal[p];
-        x[pinv[aRow[p]]] = v;
+        x[aPos[p]] = v;
         const a = v < 0 ? -v : v;
         if (a > scale) scale = a;
       }
@@ -573,6 +594,69 @@ export class SparseLU implements LinearSolver {
       }
     }
     return true;
+  }
+
+  /**
+   * `refactor` of R·A·C when every entry has a slot of its own (`entryAt`), reading each entry from `values` as the
+   * column is loaded: (values[k]·R[row])·C[col], plus 0, the very number `storeScaled` would have stored in the slot
+   * and `refactor` read back (a pass writing every entry and one reading it, at every Newton iteration, saved). The
+   * column's scale C[col] is the same for all its entries. Stops at the first entry that is not finite (left for
+   * `scatterInOrder` to name) or at a pivot `refactor` would refuse, with the work vector cleared either way.
+   */
+  private refactorScaled(values: Float64Array, rowScale: Float64Array, colScale: Float64Array, entryAt: Int32Array): number {
+    const n = this.n;
+    const { aStart, aRow, q, aPos, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const x = this.work;
+    const tol = this.refactorThreshold;
+    const sing = this.singularTolerance;
+    for (let k = 0; k < n; k++) {
+      const j = q[k];
+      const cj = colScale[j];
+      let scale = 0;
+      const end = aStart[j + 1];
+      for (let p = aStart[j]; p < end; p++) {
+        const v = 0 + values[entryAt[p]] * rowScale[aRow[p]] * cj;
+        if (v - v !== 0) {
+          for (let s = aStart[j]; s < p; s++) x[aPos[s]] = 0;
+          return REFACTOR_NOT_FINITE;
+        }
+        x[aPos[p]] = v;
+        const a = v < 0 ? -v : v;
+        if (a > scale) scale = a;
+      }
+      for (let p = uStart[k]; p < uStart[k + 1]; p++) {
+        const r = uRow[p];
+        const xr = x[r];
+        x[r] = 0;
+        uVal[p] = xr;
+        if (xr === 0) continue;
+        const a = xr < 0 ? -xr : xr;
+        if (a > scale) scale = a;
+        for (let t = lStart[r]; t < lStart[r + 1]; t++) x[lRow[t]] -= lVal[t] * xr;
+      }
+      const piv = x[k];
+      x[k] = 0;
+      let amax = 0;
+      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+        const v = x[lRow[t]];
+        const a = v < 0 ? -v : v;
+        if (a > amax) amax = a;
+      }
+      const ap = piv < 0 ? -piv : piv;
+      if (ap > scale) scale = ap;
+      if (!(ap > sing * scale) || ap < tol * amax) {
+        for (let t = lStart[k]; t < lStart[k + 1]; t++) x[lRow[t]] = 0;
+        return REFACTOR_SMALL_PIVOT;
+      }
+      uDiag[k] = piv;
+      const inv = 1 / piv;
+      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+        const r = lRow[t];
+        lVal[t] = x[r] * inv;
+        x[r] = 0;
+      }
+    }
+    return REFACTOR_DONE;
   }
 
   /** The first (or a fallback) factorisation: chooses pivots and discovers the L/U patterns. */
@@ -707,6 +791,9 @@ export class SparseLU implements LinearSolver {
     this.lVal = L.val.subarray(0, L.length);
     this.uRow = U.idx.subarray(0, U.length);
     this.uVal = U.val.subarray(0, U.length);
+    // Each compressed entry's pivot position, what a refactorisation loads the entry at.
+    const aPos = this.aPos;
+    for (let p = 0; p < aPos.length; p++) aPos[p] = pinv[aRow[p]];
     this.haveSymbolic = true;
     return { ok: true };
   }

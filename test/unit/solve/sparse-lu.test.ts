@@ -306,6 +306,52 @@ describe('SparseLU refactorisation', () => {
     expect(new SparseLU(s.pattern).factorScaled(bad, one, one)).toEqual({ ok: false, singularIndex: s.pattern.rows[3] });
   });
 
+  it('refactors scaled values read in place as through a scaled copy, also when an entry is not finite or a pivot vanishes', () => {
+    // A refactorisation of R·A·C reads each entry from A as it loads a column, and stops at an entry that is not finite or
+    // a pivot it refuses; the outcome, the unknown named, the counters and every later factorisation must be those of the
+    // same matrices handed over as scaled copies.
+    const { s, b } = mnaSystem(60, 3, 31);
+    const { n, rows, cols } = s.pattern;
+    const rand = rng(310);
+    const r = Float64Array.from({ length: n }, () => 2 ** Math.round(20 * rand() - 10));
+    const c = Float64Array.from({ length: n }, () => 2 ** Math.round(20 * rand() - 10));
+    const byCopy = new SparseLU(s.pattern);
+    const byScales = new SparseLU(s.pattern);
+    const step = (values: Float64Array): void => {
+      const copy = values.map((v, k) => v * r[rows[k]] * c[cols[k]]);
+      const result = byScales.factorScaled(values, r, c);
+      expect(result).toEqual(byCopy.factor(copy));
+      expect(byScales.failure).toBe(byCopy.failure);
+      expect(byScales.stats).toEqual(byCopy.stats);
+      if (!result.ok) return;
+      const x = byScales.solve(b);
+      const y = byCopy.solve(b);
+      for (let i = 0; i < n; i++) expect(Object.is(x[i], y[i])).toBe(true);
+    };
+    step(s.values);
+    step(s.values.map((v) => v * (0.5 + rand())));
+    // Not finite: the last entry of each column in turn (so the column's other entries are loaded first, in a column
+    // factored early or late), then two entries anywhere.
+    for (let j = 0; j < n; j++) {
+      const bad = s.values.slice();
+      bad[cols.lastIndexOf(j)] = j % 2 === 0 ? Number.NaN : -Infinity;
+      step(bad);
+      step(s.values.map((v) => v * (0.5 + rand())));
+    }
+    for (let t = 0; t < 4; t++) {
+      const bad = s.values.slice();
+      bad[Math.floor(rand() * bad.length)] = Infinity;
+      bad[Math.floor(rand() * bad.length)] = Number.NaN;
+      step(bad);
+      step(s.values.map((v) => v * (0.5 + rand())));
+    }
+    // A pivot the refactorisation refuses: every diagonal shrunk by 1e9 (as in the test below), then back.
+    step(s.values.map((v, k) => (rows[k] === cols[k] ? v * 1e-9 : v)));
+    step(s.values);
+    expect(byScales.stats.pivotFallbacks).toBeGreaterThanOrEqual(1);
+    expect(byScales.stats.refactorizations).toBeGreaterThanOrEqual(7);
+  });
+
   it('falls back to a fresh pivot order when a recorded pivot vanishes', () => {
     // First values choose the diagonal of column 0; then a00 becomes 0 and row 1 must take over.
     // [[0, 1], [1, 1]]·x = [1, 3] has x = [2, 1]. Source: arithmetic.
