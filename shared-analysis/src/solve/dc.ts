@@ -11,7 +11,7 @@ import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { formatEng, listNames } from './format';
 import type { LinearSolver } from './linear';
 import { createLinearSolver } from './linear';
-import { MnaLayout, type UnknownInfo } from './mna';
+import { MnaLayout, type LinearReader, type UnknownInfo } from './mna';
 import type { NewtonOutcome } from './newton';
 import { JUNCTION_GMIN, NewtonEngine, TOLERANCES } from './newton';
 import { DIAGNOSE_MAX_UNKNOWNS, undeterminedByShift, undeterminedUnknowns } from './diagnose';
@@ -721,37 +721,35 @@ export class DcSolver {
    * after the loop had never run and gave up the compiled code at every point built.
    */
   private twoTerminalValues(x: Float64Array, tv: Float64Array, ti: Float64Array): boolean {
-    const readers = this.layout.readers;
+    const r = (this.readerColumns ??= new ReaderColumns(this.layout.readers));
     const override = this.conductanceOverride;
+    const overridden = override.size > 0;
     const stamps = this.layout.resistorStamps;
     const sourceValues = this.engine.sourceValues;
+    const { kind, element, a, b, first, second, gain } = r;
     let overflow = false;
-    for (let k = 0; k < readers.length; k++) {
-      const r = readers[k];
+    for (let k = 0; k < kind.length; k++) {
       // Module functions, not closures made per call: a closure is a new call target at every point built, which
       // gave up this loop's compiled code at the next corner.
-      const voltage = unknownValue(x, r.a) - unknownValue(x, r.b);
+      const voltage = unknownValue(x, a[k]) - unknownValue(x, b[k]);
       let current = 0;
-      switch (r.kind) {
-        case 'conductance': {
-          const g = stamps.conductanceOrZero(r.element);
-          current = voltage * (override.size > 0 ? (override.get(r.element) ?? g) : g);
+      switch (kind[k]) {
+        case READ_CONDUCTANCE: {
+          const g = stamps.conductanceOrZero(element[k]);
+          current = voltage * (overridden ? (override.get(element[k]) ?? g) : g);
           break;
         }
-        case 'branch':
-          current = x[r.branch];
+        case READ_BRANCH:
+          current = x[first[k]];
           break;
-        case 'open':
-          current = 0;
+        case READ_SOURCE:
+          current = sourceValues[first[k]];
           break;
-        case 'source-current':
-          current = sourceValues[r.hook];
+        case READ_VCCS:
+          current = gain[k] * (unknownValue(x, first[k]) - unknownValue(x, second[k]));
           break;
-        case 'vccs':
-          current = r.gain * (unknownValue(x, r.cp) - unknownValue(x, r.cn));
-          break;
-        case 'cccs':
-          current = r.gain * x[r.branch];
+        case READ_CCCS:
+          current = gain[k] * x[first[k]];
           break;
       }
       tv[k] = voltage;
@@ -760,6 +758,8 @@ export class DcSolver {
     }
     return overflow;
   }
+  /** The layout's two-terminal readers as typed columns, made at the first point built. */
+  private readerColumns: ReaderColumns | undefined;
 
   /**
    * The operating point at `x`: node voltages, two-terminal values and every device kind's columns
@@ -1275,6 +1275,74 @@ function allInRecordRange(q: Float64Array): boolean {
     if (!(v <= RECORD_LIMIT && v >= -RECORD_LIMIT)) return false;
   }
   return true;
+}
+
+// `ReaderColumns.kind` codes, one per kind of `LinearReader` ('open' reads 0 A).
+const READ_OPEN = 0;
+const READ_CONDUCTANCE = 1;
+const READ_BRANCH = 2;
+const READ_SOURCE = 3;
+const READ_VCCS = 4;
+const READ_CCCS = 5;
+
+/**
+ * The layout's two-terminal readers in typed columns, reader k at k: what every point built (each corner's) reads for the
+ * two-terminal voltages and currents. Read from the reader objects, which have a layout per kind, the loop was a look-up
+ * of each field by the object's shape, 50,000 readers a corner at 100,000 elements. `first` is a branch's or a controlled
+ * source's branch unknown, a current source's index among the sources, or a VCCS's positive control; `second` its negative one.
+ */
+class ReaderColumns {
+  readonly kind: Uint8Array;
+  readonly element: Int32Array;
+  readonly a: Int32Array;
+  readonly b: Int32Array;
+  readonly first: Int32Array;
+  readonly second: Int32Array;
+  readonly gain: Float64Array;
+
+  constructor(readers: readonly LinearReader[]) {
+    const n = readers.length;
+    this.kind = new Uint8Array(n);
+    this.element = new Int32Array(n);
+    this.a = new Int32Array(n);
+    this.b = new Int32Array(n);
+    this.first = new Int32Array(n);
+    this.second = new Int32Array(n);
+    this.gain = new Float64Array(n);
+    for (let k = 0; k < n; k++) {
+      const r = readers[k];
+      this.element[k] = r.element;
+      this.a[k] = r.a;
+      this.b[k] = r.b;
+      switch (r.kind) {
+        case 'conductance':
+          this.kind[k] = READ_CONDUCTANCE;
+          break;
+        case 'branch':
+          this.kind[k] = READ_BRANCH;
+          this.first[k] = r.branch;
+          break;
+        case 'open':
+          this.kind[k] = READ_OPEN;
+          break;
+        case 'source-current':
+          this.kind[k] = READ_SOURCE;
+          this.first[k] = r.hook;
+          break;
+        case 'vccs':
+          this.kind[k] = READ_VCCS;
+          this.first[k] = r.cp;
+          this.second[k] = r.cn;
+          this.gain[k] = r.gain;
+          break;
+        case 'cccs':
+          this.kind[k] = READ_CCCS;
+          this.first[k] = r.branch;
+          this.gain[k] = r.gain;
+          break;
+      }
+    }
+  }
 }
 
 /** Unknown u of x, 0 for ground (−1). */
