@@ -608,7 +608,8 @@ function measureEachStructure(flat: MeasurementPlans, reader: PointIndexReader, 
   const count = flat.outStart.length - 1;
   for (let i = 0; i < count; i++) {
     sink.first = flat.outStart[i] * C + k;
-    iref[i * C + k] = finite(runMeasurement(flat, i, reader, sink));
+    runMeasurement(flat, i, reader, sink, iref, i * C + k);
+    iref[i * C + k] = finite(iref[i * C + k]);
   }
 }
 
@@ -630,7 +631,8 @@ function measureListed(flat: MeasurementPlans, reader: PointIndexReader, buffers
 function measureStructureAt(plans: MeasurementPlans, p: number, reader: PointIndexReader, buffers: CornerBuffers, k: number, i: number, first: number): void {
   const { corners: C, iref, sink } = buffers;
   sink.first = first * C + k;
-  iref[i * C + k] = finite(runMeasurement(plans, p, reader, sink));
+  runMeasurement(plans, p, reader, sink, iref, i * C + k);
+  iref[i * C + k] = finite(iref[i * C + k]);
   const { current, headroom } = sink;
   const last = first + plans.outStart[p + 1] - plans.outStart[p];
   for (let o = first; o < last; o++) {

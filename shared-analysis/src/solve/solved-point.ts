@@ -166,7 +166,10 @@ export class SolvedVectors implements PointVectors {
     const d = -k - 2;
     const column = this.values.columns[this.deviceOrder.table[d]].values[q];
     if (column === undefined) return 0;
-    return quietClamp(column[this.deviceOrder.instance[d]]);
+    const val = column[this.deviceOrder.instance[d]];
+    // The clamp called only past the limit: a measurement inlines this reader at several places, and where the compiler's
+    // budget left the clamp's call out, every number read came back from it as a heap object.
+    return inRange(val) ? val : quietClamp(val);
   }
 
   type(e: number): DeviceRecord['type'] | undefined {

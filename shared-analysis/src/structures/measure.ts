@@ -68,7 +68,8 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
   const headroom: Record<string, number> = nameTable();
   const outOfRegion: string[] = [];
   const sink = scratchSink(outputs.length);
-  const iref = runMeasurement(plans, i, reader, sink);
+  runMeasurement(plans, i, reader, sink, irefCell, 0);
+  const iref = irefCell[0];
   for (let o = 0; o < outputs.length; o++) {
     const device = outputs[o].device;
     iout[device] = sink.current[o];
@@ -79,6 +80,8 @@ export function measurePlanned(plans: MeasurementPlans, i: number, reader: Point
 }
 
 let scratch: OutputSink | undefined;
+/** Where `measurePlanned` has `runMeasurement` write IREF. */
+const irefCell = new Float64Array(1);
 
 /**
  * A sink for `count` outputs at stride 1, shared by every `measurePlanned` call (each reads it back
@@ -275,8 +278,12 @@ const JFET_VGS = positionOf(JFET, 'vgs');
 const JFET_VTO = positionOf(JFET, 'vto');
 const DIODE_ID = positionOf(DIODE, 'id');
 
-/** Measures planned structure `i` of `plans` at one point: writes each output's current, headroom and region into `sink` and returns IREF. */
-export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, sink: OutputSink): number {
+/**
+ * Measures planned structure `i` of `plans` at one point: writes each output's current, headroom and region into `sink`
+ * and IREF into `iref[at]`. Written, not returned: a number returned from a call the compiler does not inline is a heap
+ * object, one per structure per corner.
+ */
+export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndexReader, sink: OutputSink, irefOut: Float64Array, irefAt: number): void {
   let iref = 0;
   for (let d = plans.devStart[i]; d < plans.devStart[i + 1]; d++) {
     const e = plans.devE[d];
@@ -284,9 +291,9 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
     const type = p.type(e);
     if (flags & DEV_BIPOLAR) {
       if (type !== 'bjt') continue;
-      if (flags & DEV_OUT) iref += p.quantityOrZero(e, BJT_IC);
-      if (flags & DEV_CTRL) iref += p.quantityOrZero(e, BJT_IB);
-      if (flags & DEV_COMMON) iref += p.quantityOrZero(e, BJT_IE);
+      // IC, IB, IE in that order through one call site: each site of a call is inlined or not on its own, and the
+      // compiler's budget for a function this size left some out, whose number then came back as a heap object.
+      for (let bit = DEV_OUT; bit <= DEV_COMMON; bit <<= 1) if (flags & bit) iref += p.quantityOrZero(e, bit === DEV_OUT ? BJT_IC : bit === DEV_CTRL ? BJT_IB : BJT_IE);
     } else {
       if (type !== plans.devRecord[d]) continue;
       const jfet = type === 'jfet';
@@ -350,7 +357,7 @@ export function runMeasurement(plans: MeasurementPlans, i: number, p: PointIndex
       sink.outOfRegion[at] = active ? 0 : 1;
     }
   }
-  return Math.abs(iref);
+  irefOut[irefAt] = Math.abs(iref);
 }
 
 /** What a measurement reads of a point, by element and node index. */
