@@ -36,11 +36,24 @@ function twoTerminalType(kind: Element['kind']): TwoTerminalRecord['type'] {
   return kind === 'R' ? 'resistor' : kind === 'V' ? 'voltage-source' : kind === 'I' ? 'current-source' : kind === 'L' ? 'inductor' : kind === 'C' ? 'capacitor' : 'controlled-source';
 }
 
-/** Whether every element of the circuit has its own name (as the name-keyed tables need). */
+/**
+ * Per list of a circuit's elements, how many of them `hasUniqueNames` looked at and whether their names were all
+ * different. An element keeps its name once listed, and a list only grows (a host taking a result in appends), so the
+ * answer holds while the count does. A write of a large result asked twice (the power table and the device table),
+ * each time a set of every name: about 50 ms of a 100,000-element run.
+ */
+const namesChecked = new WeakMap<readonly Element[], { count: number; unique: boolean }>();
+
+/** Whether every element of the circuit has its own name (as the name-keyed tables need), worked out once per list of elements. */
 export function hasUniqueNames(circuit: Circuit): boolean {
+  const elements = circuit.elements;
+  const known = namesChecked.get(elements);
+  if (known !== undefined && known.count === elements.length) return known.unique;
   const seen = new Set<string>();
-  for (const el of circuit.elements) seen.add(el.name);
-  return seen.size === circuit.elements.length;
+  for (let e = 0; e < elements.length; e++) seen.add(elements[e].name);
+  const unique = seen.size === elements.length;
+  namesChecked.set(elements, { count: elements.length, unique });
+  return unique;
 }
 
 /** What a solver keeps for every point it makes: the quantity positions per table and the record types, filled on first ask. */
