@@ -166,7 +166,12 @@ export function supplySources(circuit: Circuit): string[] {
   // The rails the checks found for this circuit (kept per circuit), not a walk of every element again.
   for (const rail of railsByIndex(circuit).values()) for (const s of rail.sources) names.add(s);
   const out: string[] = [];
-  for (const e of circuit.elements) if (e.kind === 'V' && names.has(e.name) && e.dc !== 0 && Number.isFinite(e.dc)) out.push(e.name);
+  // Indexed, as the other walks of every element here: a for-of that runs once is not compiled, and then makes an object per step.
+  const elements = circuit.elements;
+  for (let i = 0; i < elements.length; i++) {
+    const e = elements[i];
+    if (e.kind === 'V' && names.has(e.name) && e.dc !== 0 && Number.isFinite(e.dc)) out.push(e.name);
+  }
   return out;
 }
 
@@ -302,7 +307,10 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const nominalC = nominal.op.temperatureC;
   const sources = supplySources(circuit);
   const dcOf = new Map<string, number>();
-  for (const e of circuit.elements) if (e.kind === 'V') dcOf.set(e.name, e.dc);
+  for (let i = 0; i < circuit.elements.length; i++) {
+    const e = circuit.elements[i];
+    if (e.kind === 'V') dcOf.set(e.name, e.dc);
+  }
   const specs = cornerSpecs(options, nominalC, sources, cornerScope(circuit));
   const processParameters = (process: 'slow' | 'fast'): Record<string, Record<string, number>> => processCornerParameters(circuit, options, process);
 
@@ -676,6 +684,9 @@ class PartMeasurement {
   }
 }
 
+/** The voltage names of a structure that produces none, shared (a corner column only reads them). */
+const NO_VOLTAGES = Object.freeze([]) as unknown as string[];
+
 /**
  * Empty corner columns for every structure, each a view of one buffer per quantity for the whole
  * circuit: a typed array per quantity per structure was an allocation of its own (100,000 of them
@@ -686,9 +697,9 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
   const C = axis.labels.length;
   let outputs = 0;
   let voltages = 0;
-  for (const s of structures) {
-    outputs += s.outputs.length;
-    voltages += s.voltages?.length ?? 0;
+  for (let i = 0; i < structures.length; i++) {
+    outputs += structures[i].outputs.length;
+    voltages += structures[i].voltages?.length ?? 0;
   }
   const buffers = new CornerBuffers(structures.length, outputs, voltages, C);
   const { iref } = buffers;
@@ -697,7 +708,8 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
   let o = 0;
   let v = 0;
   const columns = structures.map((s, i) => {
-    const voltageNames = (s.voltages ?? []).map((x) => x.name);
+    // Most structures produce no voltage: they share one empty list, which every corner column keeps.
+    const voltageNames = s.voltages && s.voltages.length > 0 ? s.voltages.map((x) => x.name) : NO_VOLTAGES;
     const from = o * C;
     const to = (o + s.outputs.length) * C;
     const cols: CornerColumns = {

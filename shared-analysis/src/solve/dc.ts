@@ -201,6 +201,7 @@ export class DcSolver {
       quantityColumns: this.layout.tables.map((t) => quantityPositions(t.kind)),
       recordTypes: new Array<undefined>(circuit.elements.length).fill(undefined),
       tableRecordTypes: [],
+      typesFilled: false,
     };
     this.iterate = new Float64Array(this.layout.size);
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
@@ -998,7 +999,9 @@ export class DcSolver {
     };
     c.elements.forEach((el, i) => {
       if (this.layout.skipped.has(i)) return;
-      for (const j of deviceKindOf(el.kind)?.checkedJunctions(el) ?? []) check(i, j.junction, j.a, j.b);
+      // Indexed: this walk of every element runs once, uncompiled, where a for-of makes an object per step.
+      const junctions = deviceKindOf(el.kind)?.checkedJunctions(el);
+      if (junctions) for (let k = 0; k < junctions.length; k++) check(i, junctions[k].junction, junctions[k].a, junctions[k].b);
     });
     return out;
   }

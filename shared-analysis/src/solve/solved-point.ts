@@ -60,10 +60,12 @@ export function hasUniqueNames(circuit: Circuit): boolean {
 export interface RecordShapes {
   /** Per table, quantity name -> column (see `quantityPositions` in dc.ts). */
   quantityColumns: readonly Record<string, number>[];
-  /** Element index -> the type of its record, null for none, undefined until asked. */
+  /** Element index -> the type of its record, null for none (undefined until `typesFilled`). */
   recordTypes: (DeviceRecord['type'] | null | undefined)[];
   /** Per device table, the type of its kind's records, undefined until asked. */
   tableRecordTypes: (DeviceRecord['type'] | undefined)[];
+  /** Whether `recordTypes` holds every element's type (filled by the first point the solver makes). */
+  typesFilled: boolean;
 }
 
 /**
@@ -105,6 +107,26 @@ export class SolvedVectors implements PointVectors {
     private readonly clampsRecords: boolean,
   ) {
     this.volts = values.volts;
+    if (!shapes.typesFilled) this.fillRecordTypes();
+  }
+
+  /**
+   * Every element's record type into `shapes.recordTypes`, once per solver (a pass over the elements at its first point): `type`
+   * is then one read, where the look-up on first ask made it large enough that a measurement, which inlines the readers at
+   * several places, ran out of the compiler's inlining budget and called a reader whose every number came back as a heap object.
+   */
+  private fillRecordTypes(): void {
+    const { slot, shapes, tables, deviceOrder, readers, circuit } = this;
+    const byTable = shapes.tableRecordTypes;
+    for (let t = 0; t < tables.length; t++) {
+      if (byTable[t] === undefined && tables[t].instances.count > 0) byTable[t] = tables[t].kind.record(this.values.columns[t], tables[t].instances, 0).type;
+    }
+    const types = shapes.recordTypes;
+    for (let e = 0; e < slot.length; e++) {
+      const k = slot[e];
+      types[e] = k >= 0 ? twoTerminalType(circuit.elements[readers[k].element].kind) : k === -1 ? null : (byTable[deviceOrder.table[-k - 2]] ?? null);
+    }
+    shapes.typesFilled = true;
   }
 
   /** Reader k's record, with `clamp` applied to each number past ±RECORD_LIMIT. */
@@ -185,23 +207,10 @@ export class SolvedVectors implements PointVectors {
     return inRange(val) ? val : quietClamp(val);
   }
 
+  /** The element's record type (filled for every element by the solver's first point: a kind's records all have one type, which one record per table tells). */
   type(e: number): DeviceRecord['type'] | undefined {
     if (!(e >= 0 && e < this.slot.length)) return undefined;
-    const types = this.shapes.recordTypes;
-    let known = types[e];
-    if (known === undefined) types[e] = known = this.typeOf(e) ?? null;
-    return known ?? undefined;
-  }
-
-  /** A kind's records all have one type: one record per table tells it (not one per device, 10,000 records at 20,000 elements). */
-  private typeOf(e: number): DeviceRecord['type'] | undefined {
-    const k = this.slot[e];
-    if (k >= 0) return twoTerminalType(this.circuit.elements[this.readers[k].element].kind);
-    if (k === -1) return undefined;
-    const d = -k - 2;
-    const t = this.deviceOrder.table[d];
-    const tables = this.tables;
-    return (this.shapes.tableRecordTypes[t] ??= tables[t].kind.record(this.values.columns[t], tables[t].instances, this.deviceOrder.instance[d]).type);
+    return this.shapes.recordTypes[e] ?? undefined;
   }
 
   region(e: number): string | undefined {

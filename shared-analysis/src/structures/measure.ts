@@ -138,7 +138,9 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
   let devices = 0;
   let outputs = 0;
   let parts = 0;
-  for (const s of structures) {
+  // Indexed loops: this runs once per list of structures, mostly uncompiled, where a for-of makes an object per step.
+  for (let i = 0; i < structures.length; i++) {
+    const s = structures[i];
     devices += s.devices.length;
     outputs += s.outputs.length;
     if (s.parts) parts += Object.keys(s.parts).length;
@@ -163,7 +165,8 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
     const s = structures[i];
     const refNode = topo.nodeIndex.get(s.reference.node);
     if (refNode !== undefined) {
-      for (const name of s.devices) {
+      for (let j = 0; j < s.devices.length; j++) {
+        const name = s.devices[j];
         const t = topo.byName.get(name);
         const e = topo.elementIndex.get(name);
         if (!t || e === undefined) continue;
@@ -173,7 +176,9 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
         d++;
       }
       if (s.parts) {
-        for (const name of Object.keys(s.parts)) {
+        const names = Object.keys(s.parts);
+        for (let j = 0; j < names.length; j++) {
+          const name = names[j];
           const el = topo.elementByName.get(name);
           const e = topo.elementIndex.get(name);
           if (!el || e === undefined || el.nodes.length < 2) continue;
@@ -183,7 +188,8 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
         }
       }
     }
-    for (const out of s.outputs) {
+    for (let j = 0; j < s.outputs.length; j++) {
+      const out = s.outputs[j];
       const t = topo.byName.get(out.device);
       f.outE[o] = topo.elementIndex.get(out.device) ?? -1;
       if (t) {
