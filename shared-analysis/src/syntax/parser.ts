@@ -97,14 +97,18 @@ class LexemeList {
   length = 0;
   /** After `.include` or `.lib`: split only at blanks, so paths keep commas and `=`. */
   path = false;
+  /** How many of the lexemes are `=`, `(` or `)`. */
+  punctuation = 0;
 
   /** Empties the list for the next card. */
   reset(): void {
     this.length = 0;
     this.path = false;
+    this.punctuation = 0;
   }
 
   add(type: Lexeme['type'], start: number, end: number): void {
+    if (type === 'eq' || type === 'lp' || type === 'rp') this.punctuation++;
     const i = this.length++;
     const l = this.items[i];
     if (l === undefined) {
@@ -128,6 +132,9 @@ type Item =
   | { k: 'asg'; asg: Assignment }
   | { k: 'lp'; span: Span }
   | { k: 'rp'; span: Span };
+
+/** No items: what `parseElement` reads as the items of a card it is given none for. */
+const NO_ITEMS: readonly Item[] = Object.freeze([]);
 
 /** A piece of one physical line that belongs to a card: `[start, end)` holds fields, `lineEnd` is where the line's text stops. */
 interface Segment {
@@ -786,6 +793,9 @@ function parseGroup(ctx: Context, segments: Segment[]): Card {
   // The card's first word (its name or dot command) never starts an assignment.
   const head0 = lx.at(0);
   const headIsWord = head0 !== undefined && head0.type === 'word';
+  // An element card of fields alone (no `=`, no brackets) of a letter that reads only its positional fields: every field
+  // after the name is one, so no items are made for it (most cards of a large netlist: `Q1 c b e model`, `R1 a b 1k`).
+  if (headIsWord && lx.punctuation === 0 && readsFieldsOnly(text.charCodeAt(head0.start))) return parseElement(ctx, makeToken(text, head0), undefined, span, tokens);
   const items = buildItems(ctx, lx, headIsWord ? 1 : 0);
   if (!headIsWord) {
     const at = head0 ? { start: head0.start, end: head0.end } : { start: first.start, end: first.lineEnd };
@@ -1012,7 +1022,22 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = nameTable
 });
 
 
-function parseElement(ctx: Context, name: Token, items: Item[], span: Span, tokens: Token[]): Card {
+/**
+ * Whether an element card starting with the character `c` reads only its positional fields and assignments (not the
+ * items in their order: the sources, the controlled sources and subcircuit instances do), and is not a dot card.
+ */
+function readsFieldsOnly(c: number): boolean {
+  const L = c | 0x20;
+  return L >= 97 && L <= 122 && L !== 101 /* e */ && L !== 103 /* g */ && L !== 102 /* f */ && L !== 104 /* h */ && L !== 118 /* v */ && L !== 105 /* i */ && L !== 120 /* x */;
+}
+
+/**
+ * An element card from its name and the items after it; `items` undefined for a card `readsFieldsOnly` takes whose
+ * fields are all positional (its tokens after the name).
+ */
+function parseElement(ctx: Context, name: Token, given: Item[] | undefined, span: Span, tokens: Token[]): Card {
+  // Without items only for the letters `readsFieldsOnly` takes, which read `pos` and `asgs` below and never `items`.
+  const items = given ?? NO_ITEMS;
   const c0 = name.text.charCodeAt(0) | 0x20;
   if (!(c0 >= 97 && c0 <= 122)) {
     return errorCard(
@@ -1064,11 +1089,13 @@ function parseElement(ctx: Context, name: Token, items: Item[], span: Span, toke
     }
   }
 
-  const pos: Token[] = [];
+  const pos: Token[] = given ? [] : tokens.slice(1);
   const asgs: Assignment[] = [];
-  for (const it of items) {
-    if (it.k === 'pos') pos.push(it.tok);
-    else if (it.k === 'asg') asgs.push(it.asg);
+  if (given) {
+    for (const it of given) {
+      if (it.k === 'pos') pos.push(it.tok);
+      else if (it.k === 'asg') asgs.push(it.asg);
+    }
   }
 
   switch (L) {
@@ -1315,7 +1342,7 @@ function missingFields(ctx: Context, name: Token, need: { noun: string; needs: s
  * A controlled source written in a behavioural form (`E1 out 0 VALUE={...}`, `G1 a b POLY(2) ...`):
  * its two output nodes and the form's fields from its keyword on, kept for a later solver.
  */
-function behaviouralSource(card: ElementCard, items: Item[], at: number, form: string, span: Span, tokens: Token[]): ElementCard {
+function behaviouralSource(card: ElementCard, items: readonly Item[], at: number, form: string, span: Span, tokens: Token[]): ElementCard {
   const nodes: Token[] = [];
   for (let j = 0; j < at && nodes.length < 2; j++) {
     const it = items[j]!;
