@@ -55,7 +55,7 @@ export class NewtonEngine {
   readonly linearValues: Float64Array;
   private readonly xNew: Float64Array;
   /** Equilibrated copy of `values` handed to the factorisation, and the power-of-two row/column scales used. */
-  private readonly scaled: Float64Array;
+  private scaled: Float64Array | undefined;
   private readonly rowScale: Float64Array;
   private readonly colScale: Float64Array;
   private readonly scaledRhs: Float64Array;
@@ -84,7 +84,6 @@ export class NewtonEngine {
     this.linearValues = layout.linearValues.slice();
     this.rhs = new Float64Array(n);
     this.xNew = new Float64Array(n);
-    this.scaled = new Float64Array(layout.linearValues.length);
     this.rowScale = new Float64Array(n);
     this.colScale = new Float64Array(n);
     this.scaledRhs = new Float64Array(n);
@@ -177,12 +176,17 @@ export class NewtonEngine {
     return this.solver.factor(this.lastScaledValues);
   }
 
-  /** The entries of R·A·C, (a·r)·c in that order as the factorisation takes them, into `scaled`. */
-  private writeScaled(): void {
-    const { values, scaled, rowScale, colScale } = this;
+  /**
+   * The entries of R·A·C, (a·r)·c in that order as the factorisation takes them, into `scaled`: made at the first ask (a
+   * diagnosis of a singular matrix, or a linear solver that takes no scales), not with every solver (1.6 MB at 100,000 elements).
+   */
+  private writeScaled(): Float64Array {
+    const { values, rowScale, colScale } = this;
+    const scaled = (this.scaled ??= new Float64Array(values.length));
     const { rows, cols } = this.layout.pattern;
     for (let e = 0; e < rows.length; e++) scaled[e] = values[e] * rowScale[rows[e]] * colScale[cols[e]];
     this.scaledCurrent = true;
+    return scaled;
   }
   /** Whether `scaled` holds the matrix of the last equilibration. */
   private scaledCurrent = false;
@@ -334,8 +338,7 @@ export class NewtonEngine {
 
   /** The equilibrated matrix of the last factorisation attempt (for singularity diagnosis), written when first asked. */
   get lastScaledValues(): Float64Array {
-    if (!this.scaledCurrent) this.writeScaled();
-    return this.scaled;
+    return this.scaledCurrent && this.scaled ? this.scaled : this.writeScaled();
   }
 
   /** The column scales of the last equilibration: unknown k of the scaled system is x[k]/colScale[k]. */
