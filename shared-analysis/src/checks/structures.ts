@@ -222,10 +222,14 @@ class StructureCheck implements ResistanceContext {
   private readonly sign: 1 | -1;
   readonly bipolar: boolean;
   private readonly findings: Finding[] = [];
-  /** Devices of the structure that are off at the operating point (every terminal current below 1 pA). */
-  private readonly off = new Set<string>();
-  /** The records of `op` read so far, by device: each is built once, though several checks read it. */
-  private readonly records = new Map<string, DeviceRecord | undefined>();
+  /** Devices of the structure that are off at the operating point (every terminal current below 1 pA); made when one is. */
+  private offDevices: string[] | undefined = undefined;
+  /**
+   * The records of `op` read so far, each built once though several checks read it: a device of the structure's list at
+   * its position there (null: read, and none), any other name in `otherRecords`. No table per structure.
+   */
+  private readonly records: (DeviceRecord | null | undefined)[] = [];
+  private otherRecords: Map<string, DeviceRecord | undefined> | undefined = undefined;
   private readonly circuit: Circuit;
   private readonly topo: Topology;
   private readonly op: OperatingPoint | undefined;
@@ -254,10 +258,24 @@ class StructureCheck implements ResistanceContext {
   /** The record of a device at `op` (undefined without a solve). */
   private record(name: string): DeviceRecord | undefined {
     if (!this.at) return undefined;
-    if (this.records.has(name)) return this.records.get(name);
+    const at = this.s.devices.indexOf(name);
+    if (at < 0) {
+      const other = (this.otherRecords ??= new Map());
+      if (other.has(name)) return other.get(name);
+      const rec = this.at.record(name);
+      other.set(name, rec);
+      return rec;
+    }
+    const known = this.records[at];
+    if (known !== undefined) return known ?? undefined;
     const rec = this.at.record(name);
-    this.records.set(name, rec);
+    this.records[at] = rec ?? null;
     return rec;
+  }
+
+  /** Whether device `name` is off at the operating point (see `offDevices`). */
+  private isOff(name: string): boolean {
+    return this.offDevices !== undefined && this.offDevices.includes(name);
   }
 
   private t(name: string): Transistor {
@@ -274,7 +292,7 @@ class StructureCheck implements ResistanceContext {
   run(): Finding[] {
     const s = this.s;
     if (this.op && this.measured) {
-      for (const d of s.devices) if (recordIsOff(this.record(d))) this.off.add(d);
+      for (const d of s.devices) if (recordIsOff(this.record(d)) && !this.isOff(d)) (this.offDevices ??= []).push(d);
       // The measurement's own tables (prototype-free, made for this structure alone, only read from here on).
       s.solved = { iref: this.measured.iref, iout: this.measured.iout };
       s.headroom = this.measured.headroom;
@@ -523,10 +541,10 @@ class StructureCheck implements ResistanceContext {
       reasons.push('the hand estimate collapses to 0 A while the operating point carries current (a self-biased loop also has a zero-current solution, which the hand equations found instead of the working state)');
     }
     for (const d of s.devices) {
-      if (this.off.has(d) && (d === s.reference.device || s.outputs.some((o) => o.device === d))) reasons.push(`${d} carries no current at the operating point`);
+      if (this.isOff(d) && (d === s.reference.device || s.outputs.some((o) => o.device === d))) reasons.push(`${d} carries no current at the operating point`);
     }
     for (const d of this.measured?.outOfRegion ?? []) {
-      if (this.off.has(d)) continue;
+      if (this.isOff(d)) continue;
       const rec = this.record(d);
       const saturated = rec?.type === 'bjt' && rec.region === 'saturation';
       reasons.push(
@@ -691,7 +709,7 @@ class StructureCheck implements ResistanceContext {
       const head = this.measured.headroom[o.device];
       const solved = this.measured.iout[o.device];
       const active = this.s.estimate?.iout[o.device] ?? 0;
-      const off = this.off.has(o.device);
+      const off = this.isOff(o.device);
       // An off output's junction signs are noise: it is judged only as cut off, and only when the hand analysis expects it to carry current.
       if (off && !(active > 0 && !belowFloor(active, 'A'))) continue;
       const edge = this.edgeVolts(o.device);
@@ -817,7 +835,7 @@ class StructureCheck implements ResistanceContext {
     const kind = kindOf(this.s.kind);
     const byIs = this.isRatios();
     for (const o of this.s.outputs) {
-      if (this.off.has(o.device)) continue; // no ratio on a device that carries nothing
+      if (this.isOff(o.device)) continue; // no ratio on a device that carries nothing
       const is = byIs[o.device];
       if (is) {
         // Source: the transport model (docs/DEVICE-MODELS.md) — at one VBE, IC scales with IS, so IS2/IS1 multiplies the

@@ -34,6 +34,17 @@ function allTransistors(h: Hand, names: readonly string[]): boolean {
 }
 
 /** "V+ − V−" of a resistor-fed reference with its numbers: the rail and the common node, the higher first. */
+/** Whether every output device of `s` is a transistor of the circuit. */
+function allOutputsKnown(h: Hand, s: Structure): boolean {
+  for (let k = 0; k < s.outputs.length; k++) if (!h.topo.byName.has(s.outputs[k].device)) return false;
+  return true;
+}
+
+/** A junction or gate voltage step (`VBE(Q1)`, `VGS(M1)`), listed before the others. */
+function isVoltage(x: EstimateStep): boolean {
+  return x.quantity.startsWith('V');
+}
+
 function supplyText(sign: 1 | -1, vRail: number, vCommon: number): string {
   return sign > 0 ? `${eng(vRail, 'V')} − ${eng(vCommon, 'V')}` : `${eng(vCommon, 'V')} − ${eng(vRail, 'V')}`;
 }
@@ -61,17 +72,14 @@ class HandAnalysis {
   run(): Estimate {
     const { h, kind, s } = this;
     const steps: EstimateStep[] = [];
-    const record = this.at.recordSteps ?? true;
     // Each step is formatted only when steps are recorded; the numbers never depend on them.
-    const add = (x: () => EstimateStep): void => {
-      if (record) steps.push(x());
-    };
+    const record = this.at.recordSteps ?? true;
     // A structure built elsewhere (or edited) without its devices or roles has nothing to compute from.
     const complete =
       allTransistors(h, s.devices) &&
       h.topo.byName.has(s.reference.device) &&
       (s.outputs.length > 0 || kind.voltageOnly === true) &&
-      s.outputs.every((o) => h.topo.byName.has(o.device)) &&
+      allOutputsKnown(h, s) &&
       (kind.requiredRoles === undefined || kind.requiredRoles.every((r) => h.role(r).length > 0)) &&
       (kind.complete?.(h) ?? true);
     if (!complete) {
@@ -174,11 +182,10 @@ class HandAnalysis {
     }
 
     const { r: st, steps: chainSteps } = this.chain(iref, true, record);
-    const isVoltage = (x: EstimateStep) => x.quantity.startsWith('V');
     if (resistorFed) {
       const { ohms, available } = resistorFed;
       // "V+ − V−" with numbers, and the other texts of these steps, are written only when a step is.
-      const hi = (): string => supplyText(h.sign, resistorFed!.vRail, resistorFed!.vCommon);
+      const { vRail, vCommon: vLow } = resistorFed;
       if (record) {
         const vName = h.bipolar ? 'VBE' : 'VGS';
         const stackFormula = kind.stackFormula?.(h, vName) ?? (nStack > 1 ? `${nStack} stacked ${vName}` : vName);
@@ -186,27 +193,27 @@ class HandAnalysis {
         steps.push({
           quantity: 'IREF',
           formula: `(V+ − V− − ${stackFormula})/R, solved together with the device law (${h.bipolar ? GRAY : RAZAVI})`,
-          substituted: `(${hi()} − ${eng(st.stack, 'V')})/${eng(ohms, 'Ω')}`,
+          substituted: `(${supplyText(h.sign, vRail, vLow)} − ${eng(st.stack, 'V')})/${eng(ohms, 'Ω')}`,
           value: iref,
           unit: 'A',
         });
       }
       if (h.bipolar && ohms > 0) {
-        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: hi() });
+        const shortcut = kind.shortcut?.(h, { available, ohms, supplyText: supplyText(h.sign, vRail, vLow) });
         irefShortcut = shortcut ? shortcut.value : Math.max((available - nStack * SHORTCUT_VBE) / ohms, 0);
         if (record)
           steps.push(
             shortcut ?? {
               quantity: 'IREF (0.7 V shortcut)',
               formula: `(V+ − V− − ${nStack} × 0.7 V)/R (common practice)`,
-              substituted: `(${hi()} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${eng(ohms, 'Ω')}`,
+              substituted: `(${supplyText(h.sign, vRail, vLow)} − ${eng(nStack * SHORTCUT_VBE, 'V')})/${eng(ohms, 'Ω')}`,
               value: irefShortcut,
               unit: 'A',
             },
           );
       }
     } else {
-      if (irefStep) add(irefStep);
+      if (irefStep && record) steps.push(irefStep());
       if (record) pushAll(steps, chainSteps.filter(isVoltage));
     }
     if (record) pushAll(steps, chainSteps.filter((x) => !isVoltage(x)));

@@ -1,6 +1,5 @@
 // The shared hand-analysis context a structure kind computes with: device parameters at temperature, junction and square-law voltages, rails, recorded steps.
 
-import { mapList } from '../arrays';
 import { MODEL_DEFAULTS, type Circuit, type Model } from '../circuit';
 import { bjtBetaAt, bjtTemperatureFactors } from '../devices/bjt';
 import { jfetTemperature } from '../devices/jfet';
@@ -155,9 +154,14 @@ export class Hand {
   readonly vt: number;
   /** Rail potentials by node index: the circuit's (shared by every structure of it), or a copy with the supply corner's overrides. */
   readonly railVolts: ReadonlyMap<number, number>;
-  /** Per-structure numbers a kind keeps between evaluations at trial currents (e.g. a Newton start). */
-  readonly memo = new Map<string, number>();
-  private readonly params = new Map<string, DeviceParams>();
+  /**
+   * Each device's parameters once read, at its position in the structure's device list (found by `===` among a few
+   * names); a name outside the list (a feeding device) in `otherParams`. Nearly every structure has two to six devices:
+   * a table per structure cost more than the records it held.
+   */
+  private readonly params: (DeviceParams | undefined)[] = [];
+  private otherParams: Map<string, DeviceParams> | undefined = undefined;
+  private memoTable: Map<string, number> | undefined = undefined;
   private common: { v: number | undefined } | null = null;
 
   constructor(
@@ -176,9 +180,15 @@ export class Hand {
     this.railVolts = at.railVolts ? railVoltsWith(circuit, this.topo, at.railVolts) : railVoltsOf(circuit);
   }
 
+  /** Per-structure numbers a kind keeps between evaluations at trial currents (e.g. a Newton start); made on first use. */
+  get memo(): Map<string, number> {
+    return (this.memoTable ??= new Map<string, number>());
+  }
+
   /** The device's parameters at the analysis conditions (throws for a name that is not a transistor of the circuit). */
   dev(name: string): DeviceParams {
-    const known = this.params.get(name);
+    const at = this.s.devices.indexOf(name);
+    const known = at >= 0 ? this.params[at] : this.otherParams?.get(name);
     if (known) return known;
     const t = this.topo.byName.get(name);
     if (!t) throw new Error(`structure device ${name} is not in the circuit`);
@@ -207,16 +217,23 @@ export class Hand {
     // Paralleled diode-connected twins of the reference share its current: the reference then
     // behaves as one device of the summed geometry.
     if (name === this.s.reference.device && this.parallelReference) {
-      const total = this.s.devices
-        .filter((d) => this.s.roles?.[d] === 'reference')
-        .reduce((sum, d) => sum + (this.topo.byName.get(d)?.scale ?? 0), 0);
+      const total = this.referenceScale();
       if (total > t.scale) {
         p.isEff *= total / t.scale;
         p.kBeta *= total / t.scale;
       }
     }
-    this.params.set(name, p);
+    if (at >= 0) this.params[at] = p;
+    else (this.otherParams ??= new Map()).set(name, p);
     return p;
+  }
+
+  /** The summed scale (area or W/L × M) of the structure's devices in the reference role. */
+  private referenceScale(): number {
+    const { devices, roles } = this.s;
+    let total = 0;
+    for (let k = 0; k < devices.length; k++) if (roles?.[devices[k]] === 'reference') total += this.topo.byName.get(devices[k])?.scale ?? 0;
+    return total;
   }
 
   /** What `dev` takes from a model alone at this analysis's conditions: worked out once per model and conditions, for every structure. */
@@ -240,7 +257,11 @@ export class Hand {
 
   /** The reference and each output with their parameters. */
   outputs(): OutputParams[] {
-    return mapList(this.s.outputs, (o) => ({ o, p: this.dev(o.device) }));
+    // Made at its length (it is read and dropped): `mapList` grows a list and copies it to keep.
+    const outputs = this.s.outputs;
+    const out: OutputParams[] = new Array(outputs.length);
+    for (let k = 0; k < outputs.length; k++) out[k] = { o: outputs[k], p: this.dev(outputs[k].device) };
+    return out;
   }
 
   /** The node every current of the structure returns to. */

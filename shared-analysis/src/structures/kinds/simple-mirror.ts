@@ -2,10 +2,11 @@
 
 import { eng, sig } from '../format';
 import { earlyFactor, lambdaFactor, mosWidlarOutput, simpleMirrorGain, thresholdWithBody, widlarOutput } from '../formulas';
-import { GRAY, RAZAVI, type Chain, type ChainResult, type Hand } from '../hand';
+import { GRAY, RAZAVI, type Chain, type ChainResult, type Hand, type OutputParams } from '../hand';
 import type { KindModule } from '../kind';
 import { mirrorMembers, type Draft, type Matcher } from '../match';
 import type { Transistor } from '../topology';
+import type { Structure } from '../types';
 import { commonEmitterRo, geometricRatio } from './common';
 import { nameTable } from '../../names';
 
@@ -49,10 +50,13 @@ export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult
   const ref = h.dev(h.s.reference.device);
   const outs = h.outputs();
   const beta = ref.beta;
-  const simple = outs.filter((x) => !x.o.degeneration);
-  const widlar = outs.filter((x) => x.o.degeneration);
+  // Nearly every mirror has no Widlar output: its outputs are then the plain ones, with no lists filtered from them.
+  const mixed = outs.some(isDegenerated);
+  const simple = mixed ? outs.filter((x) => !x.o.degeneration) : outs;
+  const widlar = mixed ? outs.filter(isDegenerated) : NO_OUTPUTS;
   if (h.bipolar) {
-    const sumSimple = simple.reduce((a, x) => a + x.o.ratio, 0);
+    let sumSimple = 0;
+    for (let k = 0; k < simple.length; k++) sumSimple += simple[k].o.ratio;
     let ic1 = iref / (1 + (1 + sumSimple) / beta);
     // The Widlar outputs' base currents also come out of IREF; a few passes settle IC1 (tables only when there are some).
     const wout: Record<string, number> = widlar.length > 0 ? nameTable() : NO_WIDLAR;
@@ -137,6 +141,13 @@ export function analyseDiodeMirror(h: Hand, iref: number, c: Chain): ChainResult
   return { stack: vgs1, vControl: vgs1, iRef: iref, iout, edge };
 }
 
+function isDegenerated(x: OutputParams): boolean {
+  return !!x.o.degeneration;
+}
+
+/** The Widlar outputs of a mirror without any. */
+const NO_OUTPUTS: readonly OutputParams[] = Object.freeze([]);
+
 /** The Widlar tables of a mirror without Widlar outputs: never written, since nothing iterates over them. */
 const NO_WIDLAR: Readonly<Record<string, number>> = Object.freeze(nameTable<number>());
 
@@ -145,13 +156,23 @@ const NO_WIDLAR: Readonly<Record<string, number>> = Object.freeze(nameTable<numb
  * for at every trial current of the IREF solve): VBE at IC1 = IREF/(1 + (1 + Σm)/β), or VGS at IREF.
  */
 export function diodeMirrorStack(h: Hand, iref: number): number | undefined {
-  // Σm of the outputs, or NaN when one is degenerated (no closed form): worked out once per structure.
-  let sum = h.memo.get('sumM');
-  if (sum === undefined) h.memo.set('sumM', (sum = h.s.outputs.some((o) => o.degeneration) ? NaN : h.s.outputs.reduce((a, o) => a + o.ratio, 0)));
+  // Σm of the outputs, or NaN when one is degenerated (no closed form): a loop over a few outputs, cheaper than a table
+  // per structure to keep it in.
+  const sum = ratioSum(h.s.outputs);
   if (Number.isNaN(sum)) return undefined;
   const ref = h.dev(h.s.reference.device);
   if (h.bipolar) return h.vbe(ref, iref / (1 + (1 + sum) / ref.beta));
   return h.vgs(ref, iref, h.vsbBase(ref));
+}
+
+/** Σm of a mirror's outputs, NaN when one of them is degenerated. */
+function ratioSum(outputs: Structure['outputs']): number {
+  let sum = 0;
+  for (let k = 0; k < outputs.length; k++) {
+    if (outputs[k].degeneration) return NaN;
+    sum += outputs[k].ratio;
+  }
+  return sum;
 }
 
 export const simpleMirror: KindModule = {
