@@ -1218,7 +1218,8 @@ export function* attachVariationSteps(structures: Structure[], result: Variation
     let iref: OutputVariation | undefined;
     for (let m = 0; m < list.length; m++) {
       const o = list[m];
-      if (o.key.endsWith(' iref')) iref = o;
+      // An IREF's label is 'IREF', no device's name: the key (a joined string V8 flattens to search) is read for those only.
+      if (o.output === 'IREF' && o.key.endsWith(' iref')) iref = o;
       else if (o.unit === 'V') (voltages ??= nameTable())[o.output] = o;
       else iout[o.output] = o;
     }

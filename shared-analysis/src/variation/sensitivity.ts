@@ -559,12 +559,17 @@ function countRows(cols: Triples, start: Int32Array): void {
   }
 }
 
-/** ∂g/∂x of one output: dense, with the list of its non-zero unknowns (reused from output to output). */
+/**
+ * ∂g/∂x of one output: dense, with the list of its non-zero unknowns (reused from output to output). The lists keep
+ * their room from output to output: emptied by `length = 0`, V8 gave each a new backing store at its next push (two
+ * per output, 50,000 outputs at 100k); here `clear` only resets the count and `close` sets the lengths to it.
+ */
 class OutputGradient {
   readonly dense: Float64Array;
   private readonly mark: Uint8Array;
   readonly index: number[] = [];
   readonly value: number[] = [];
+  private count = 0;
 
   constructor(n: number) {
     this.dense = new Float64Array(n);
@@ -575,24 +580,29 @@ class OutputGradient {
     if (u < 0) return;
     if (!this.mark[u]) {
       this.mark[u] = 1;
-      this.index.push(u);
+      if (this.count < this.index.length) this.index[this.count] = u;
+      else this.index.push(u);
+      this.count++;
     }
     this.dense[u] += val;
   }
 
-  /** Moves the dense entries into `value` (aligned with `index`) and clears them. */
+  /** Moves the dense entries into `value` (aligned with `index`, both of the output's length) and clears them. */
   close(): void {
-    const { index, value, dense, mark } = this;
-    value.length = index.length;
-    for (let k = 0; k < index.length; k++) {
-      value[k] = dense[index[k]];
-      dense[index[k]] = 0;
-      mark[index[k]] = 0;
+    const { index, value, dense, mark, count } = this;
+    if (index.length > count) index.length = count;
+    for (let k = 0; k < count; k++) {
+      const u = index[k];
+      if (k < value.length) value[k] = dense[u];
+      else value.push(dense[u]);
+      dense[u] = 0;
+      mark[u] = 0;
     }
+    if (value.length > count) value.length = count;
   }
 
   clear(): void {
-    this.index.length = 0;
+    this.count = 0;
   }
 }
 
