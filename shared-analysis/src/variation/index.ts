@@ -1198,26 +1198,35 @@ const ATTACH_STEP = 250;
 
 /** `attachVariation` in steps, for a host that gives queued requests a turn between them (5,000 structures at once held it 10–50 ms). */
 export function* attachVariationSteps(structures: Structure[], result: VariationResult): Generator<void, void, undefined> {
-  const byStructure = new Map<string, OutputVariation[]>();
-  // Indexed loops: a for-of step makes an iterator result object until the function is optimised (10,000 outputs at 20k).
+  // Each structure's outputs in their order, chained by index from its first one (`next`, −1 ends a chain; `last` is
+  // read at a chain's first output): no list per structure.
+  const first = new Map<string, number>();
   const outputs = result.outputs;
+  const next = new Int32Array(outputs.length).fill(-1);
+  const last = new Int32Array(outputs.length);
+  // Indexed loops: a for-of step makes an iterator result object until the function is optimised (10,000 outputs at 20k).
   for (let k = 0; k < outputs.length; k++) {
     const o = outputs[k];
     if (!o.structure) continue;
-    const list = byStructure.get(o.structure);
-    if (list) list.push(o);
-    else byStructure.set(o.structure, [o]);
+    const head = first.get(o.structure);
+    if (head === undefined) {
+      first.set(o.structure, k);
+      last[k] = k;
+    } else {
+      next[last[head]] = k;
+      last[head] = k;
+    }
   }
   for (let k = 0; k < structures.length; k++) {
     if (k % ATTACH_STEP === ATTACH_STEP - 1) yield;
     const s = structures[k]!;
-    const list = byStructure.get(s.id);
-    if (!list) continue;
+    const head = first.get(s.id);
+    if (head === undefined) continue;
     const iout: Record<string, OutputVariation> = nameTable();
     let voltages: Record<string, OutputVariation> | undefined;
     let iref: OutputVariation | undefined;
-    for (let m = 0; m < list.length; m++) {
-      const o = list[m];
+    for (let m = head; m >= 0; m = next[m]) {
+      const o = outputs[m];
       // An IREF's label is 'IREF', no device's name: the key (a joined string V8 flattens to search) is read for those only.
       if (o.output === 'IREF' && o.key.endsWith(' iref')) iref = o;
       else if (o.unit === 'V') (voltages ??= nameTable())[o.output] = o;
