@@ -230,6 +230,8 @@ class StructureCheck implements ResistanceContext {
    */
   private readonly records: (DeviceRecord | null | undefined)[] = [];
   private otherRecords: Map<string, DeviceRecord | undefined> | undefined = undefined;
+  /** The structure's devices as transistors once looked up (see `t`), at their positions in its device list. */
+  private readonly transistors: (Transistor | undefined)[] = [];
   private readonly circuit: Circuit;
   private readonly topo: Topology;
   private readonly op: OperatingPoint | undefined;
@@ -279,8 +281,12 @@ class StructureCheck implements ResistanceContext {
   }
 
   private t(name: string): Transistor {
-    const t = this.topo.byName.get(name);
+    // The checks ask for the same few devices again and again (an output's several times): each is looked up in the
+    // circuit's table once, and kept at its position in the structure's device list.
+    const at = this.s.devices.indexOf(name);
+    const t = (at >= 0 ? this.transistors[at] : undefined) ?? this.topo.byName.get(name);
     if (!t) throw new Error(`device ${name} is not in the circuit`);
+    if (at >= 0) this.transistors[at] = t;
     return t;
   }
 
