@@ -136,8 +136,9 @@ describe('runCorners', () => {
   it('reports low headroom alone when the output current stays within the spread limit', () => {
     // An invented mirror fed by an ideal 1 mA source: IREF does not move with temperature, and the output current moves
     // only by the base currents' share, 2/β (1 % to 4 % for β from 200 to 50; Gray and Meyer, "Analysis and Design of
-    // Analog Integrated Circuits", ch. 4, the simple bipolar mirror, from memory). The collector sits about 0.4 V above the base at nominal; VBE rises
-    // by about 2 mV/°C towards −40 °C (common practice), so the headroom drops under 0.3 V there while VBC stays below 0.
+    // Analog Integrated Circuits", ch. 4, the simple bipolar mirror, from memory). The collector sits about 0.4 V above
+    // the base at nominal; VBE rises by about 2 mV/°C towards −40 °C (common practice), so the headroom drops under 0.3 V
+    // there while VBC stays below 0.
     const net = `mirror fed by an ideal reference, output load from a 2.2 V rail
 IREF 0 b DC 1m
 Q1 b b 0 qn
