@@ -11,7 +11,7 @@ import { FigureSink, plannedMeasurements, readerOf, runMeasurement, type Measure
 import { railsByIndex } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
-import { setCornerColumns, summariseOutputs, type CornerAxis, type CornerColumns, type OutputCornerSummary } from '../structures/corner-columns';
+import { setCornerColumns, type CornerAxis, type CornerColumns } from '../structures/corner-columns';
 import { topologyOf } from '../structures/topology';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
@@ -283,16 +283,6 @@ function uniq(xs: number[]): number[] {
   return out;
 }
 
-/** Per-output summary across the converged corners. */
-interface OutputSweep {
-  device: string;
-  nominal: { iout: number; headroom: number; outOfRegion: boolean };
-  out: { label: string; headroom: number }[];
-  minHeadroom?: { label: string; headroom: number };
-  minCurrent?: { label: string; value: number };
-  maxCurrent?: { label: string; value: number };
-}
-
 /**
  * Solves every corner once for the whole circuit (warm-started from the nominal solution, or from a
  * prediction of the corners solved before it: see `CornerStarts`),
@@ -435,50 +425,13 @@ export function runCorners(ctx: CornerContext): Finding[] {
 
 /**
  * One structure's corner findings from its columns and its nominal figures (its first output at `first` of `nominal`), outputs in
- * order. An output's summary and sweep are made only when its figures can give a finding (`mayFind`): at 100,000 elements they
- * were a dozen objects for each of 25,000 outputs, nearly all of which give none.
+ * order. An output that gives no finding costs one pass over its columns and nothing else: at 100,000 elements a summary and
+ * sweep object per output were a dozen objects for each of 25,000 outputs, nearly all of which give none.
  */
 function structureFindings(s: Structure, nominal: OutputSink, first: number, cols: CornerColumns, elements: { get(name: string): Element | undefined }, options: ResolvedOptions, converged: number): Finding[] {
-  let summaries: OutputCornerSummary[] | undefined;
   let out: Finding[] | undefined;
-  for (let oi = 0; oi < s.outputs.length; oi++) {
-    if (!mayFind(nominal, first + oi, cols, oi, options.headroomMarginV)) continue;
-    const device = s.outputs[oi].device;
-    const el = elements.get(device);
-    if (!el) continue;
-    summaries ??= summariseOutputs(cols);
-    pushAll((out ??= []), outputFindings(s, el, sweepOf(device, nominal, first + oi, cols, oi, summaries[oi]), options, converged));
-  }
+  for (let oi = 0; oi < s.outputs.length; oi++) out = outputFindings(s, s.outputs[oi].device, elements, nominal, first + oi, cols, oi, options, converged, out);
   return out ?? [];
-}
-
-/**
- * Whether `outputFindings` can make a finding of output o, read off the columns: not out of region at nominal, and out of
- * region at a converged corner, or its least headroom below the margin that the nominal headroom meets, or its current
- * beyond ±SPREAD_LIMIT of a positive nominal current at one. Its tests on the same numbers, so false means no finding.
- */
-function mayFind(nominal: OutputSink, at: number, cols: CornerColumns, o: number, margin: number): boolean {
-  if (nominal.outOfRegion[at] === 1) return false;
-  const C = cols.axis.labels.length;
-  const { converged } = cols.axis;
-  const { iout, headroom, outOfRegion } = cols;
-  let any = false;
-  let minCurrent = 0;
-  let maxCurrent = 0;
-  let minHeadroom = 0;
-  for (let k = 0; k < C; k++) {
-    if (converged[k] !== 1) continue;
-    const q = o * C + k;
-    if (outOfRegion[q]) return true;
-    if (!any || iout[q] < minCurrent) minCurrent = iout[q];
-    if (!any || iout[q] > maxCurrent) maxCurrent = iout[q];
-    if (!any || headroom[q] < minHeadroom) minHeadroom = headroom[q];
-    any = true;
-  }
-  if (!any) return false;
-  if (minHeadroom < margin && nominal.headroom[at] >= margin) return true;
-  const nom = nominal.current[at];
-  return nom > 0 && (minCurrent / nom - 1 < -SPREAD_LIMIT || maxCurrent / nom - 1 > SPREAD_LIMIT);
 }
 
 /** `ctx.reuse` when its record was made for the same corners and structures (same outputs and voltages), with its figures copied into `buffers`. */
@@ -729,23 +682,6 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
   return { columns, buffers };
 }
 
-/** Output o's sweep over the corners; its nominal figures are at `at` of `nominal` (measured as a one-corner column, non-finite figures 0). */
-function sweepOf(device: string, nominal: OutputSink, at: number, cols: CornerColumns, o: number, summary: OutputCornerSummary): OutputSweep {
-  const C = cols.axis.labels.length;
-  const out: { label: string; headroom: number }[] = [];
-  for (let k = 0; k < C; k++) {
-    if (cols.axis.converged[k] === 1 && cols.outOfRegion[o * C + k]) out.push({ label: cols.axis.labels[k], headroom: cols.headroom[o * C + k] });
-  }
-  return {
-    device,
-    nominal: { iout: nominal.current[at], headroom: nominal.headroom[at], outOfRegion: nominal.outOfRegion[at] === 1 },
-    out,
-    minHeadroom: summary.minHeadroom && { label: summary.minHeadroom.corner, headroom: summary.minHeadroom.value },
-    minCurrent: summary.minCurrent && { label: summary.minCurrent.corner, value: summary.minCurrent.value },
-    maxCurrent: summary.maxCurrent && { label: summary.maxCurrent.corner, value: summary.maxCurrent.value },
-  };
-}
-
 const V = (v: number): string => formatEngineering(v, { unit: 'V' });
 const A = (v: number): string => formatEngineering(v, { unit: 'A' });
 
@@ -767,62 +703,103 @@ function relatedOf(el: Element): RelatedLocation[] | undefined {
   return el.origin.instances.map((i) => ({ uri: i.uri, span: i.span, message: `instance ${i.name}` }));
 }
 
-function outputFindings(s: Structure, el: Element, sw: OutputSweep, options: ResolvedOptions, converged: number): Finding[] {
-  const out: Finding[] = [];
-  const base = { uri: el.origin.uri, span: el.origin.span, related: relatedOf(el) };
-  const margin = options.headroomMarginV;
+/**
+ * Output o's corner findings, appended to `out` (made when the first is): its nominal figures are at `at` of `nominal`
+ * (measured as a one-corner column, non-finite figures 0), its corner figures in `cols`, and only converged corners count.
+ * Each extreme is the first corner that reaches it (as the corner summary names it); the output's element is looked up and
+ * the messages made only when there is a finding.
+ */
+function outputFindings(s: Structure, device: string, elements: { get(name: string): Element | undefined }, nominal: OutputSink, at: number, cols: CornerColumns, o: number, options: ResolvedOptions, converged: number, out: Finding[] | undefined): Finding[] | undefined {
   // An output already out of region (or short of headroom) at nominal is the nominal checks' finding, not a corner one.
-  if (sw.nominal.outOfRegion) return out;
-  if (sw.out.length > 0) {
-    const worst = sw.out.reduce((w, x) => (x.headroom < w.headroom ? x : w));
-    const past = Math.max(0, -worst.headroom);
+  if (nominal.outOfRegion[at] === 1) return out;
+  const C = cols.axis.labels.length;
+  const { labels } = cols.axis;
+  const { iout, headroom, outOfRegion } = cols;
+  const start = o * C;
+  // Positions in the columns: the least and largest current, the least headroom, and the worst corner out of region.
+  let minCurrent = -1;
+  let maxCurrent = -1;
+  let minHeadroom = -1;
+  let worst = -1;
+  let outCount = 0;
+  for (let q = start; q < start + C; q++) {
+    if (cols.axis.converged[q - start] !== 1) continue;
+    if (minCurrent < 0 || iout[q] < iout[minCurrent]) minCurrent = q;
+    if (maxCurrent < 0 || iout[q] > iout[maxCurrent]) maxCurrent = q;
+    if (minHeadroom < 0 || headroom[q] < headroom[minHeadroom]) minHeadroom = q;
+    if (outOfRegion[q]) {
+      outCount++;
+      if (worst < 0 || headroom[q] < headroom[worst]) worst = q;
+    }
+  }
+  if (minCurrent < 0) return out;
+  const margin = options.headroomMarginV;
+  const nominalHeadroom = nominal.headroom[at];
+  const nom = nominal.current[at];
+  const lowHeadroom = outCount === 0 && headroom[minHeadroom] < margin && nominalHeadroom >= margin;
+  const low = iout[minCurrent] / nom - 1;
+  const high = iout[maxCurrent] / nom - 1;
+  const spread = nom > 0 && (low < -SPREAD_LIMIT || high > SPREAD_LIMIT);
+  if (outCount === 0 && !lowHeadroom && !spread) return out;
+  const el = elements.get(device);
+  if (!el) return out;
+  out ??= [];
+  const base = { uri: el.origin.uri, span: el.origin.span, related: relatedOf(el) };
+  if (outCount > 0) {
+    const outLabels: string[] = [];
+    const others: string[] = [];
+    for (let q = start; q < start + C; q++) {
+      if (cols.axis.converged[q - start] !== 1 || !outOfRegion[q]) continue;
+      outLabels.push(labels[q - start]);
+      if (q !== worst) others.push(labels[q - start]);
+    }
+    const worstHeadroom = headroom[worst];
+    const past = Math.max(0, -worstHeadroom);
     out.push({
       ...base,
       code: 'corner-output-out-of-region',
       severity: CORNER_CODES['corner-output-out-of-region'].severity,
       message:
-        `${el.name} is ${regionName(s)} at nominal (headroom ${V(sw.nominal.headroom)}) but leaves it at ${sw.out.length} of ${converged} corners; ` +
-        `the worst is ${worst.label}, ${past > 0 ? `${V(past)} past ${edgeName(s)}` : `at ${edgeName(s)}`} (headroom ${V(worst.headroom)}).` +
-        (sw.out.length > 1 ? ` Also out at: ${listLabels(sw.out.filter((x) => x !== worst).map((x) => x.label))}.` : ''),
+        `${el.name} is ${regionName(s)} at nominal (headroom ${V(nominalHeadroom)}) but leaves it at ${outCount} of ${converged} corners; ` +
+        `the worst is ${labels[worst - start]}, ${past > 0 ? `${V(past)} past ${edgeName(s)}` : `at ${edgeName(s)}`} (headroom ${V(worstHeadroom)}).` +
+        (outCount > 1 ? ` Also out at: ${listLabels(others)}.` : ''),
       data: {
         structureId: s.id,
         device: el.name,
-        corner: worst.label,
-        headroom: worst.headroom,
-        nominalHeadroom: sw.nominal.headroom,
-        corners: sw.out.map((x) => x.label),
+        corner: labels[worst - start],
+        headroom: worstHeadroom,
+        nominalHeadroom,
+        corners: outLabels,
       },
     });
-  } else if (sw.minHeadroom && sw.minHeadroom.headroom < margin && sw.nominal.headroom >= margin) {
+  } else if (lowHeadroom) {
+    const corner = labels[minHeadroom - start];
     out.push({
       ...base,
       code: 'corner-headroom-low',
       severity: CORNER_CODES['corner-headroom-low'].severity,
-      message: `${el.name} stays ${regionName(s)} at every corner, but its headroom falls from ${V(sw.nominal.headroom)} at nominal to ${V(sw.minHeadroom.headroom)} at ${sw.minHeadroom.label}, below the ${V(margin)} margin.`,
-      data: { structureId: s.id, device: el.name, corner: sw.minHeadroom.label, headroom: sw.minHeadroom.headroom, nominalHeadroom: sw.nominal.headroom, margin },
+      message: `${el.name} stays ${regionName(s)} at every corner, but its headroom falls from ${V(nominalHeadroom)} at nominal to ${V(headroom[minHeadroom])} at ${corner}, below the ${V(margin)} margin.`,
+      data: { structureId: s.id, device: el.name, corner, headroom: headroom[minHeadroom], nominalHeadroom, margin },
     });
   }
-  const nom = sw.nominal.iout;
-  if (nom > 0 && sw.minCurrent && sw.maxCurrent) {
-    const low = sw.minCurrent.value / nom - 1;
-    const high = sw.maxCurrent.value / nom - 1;
-    if (low < -SPREAD_LIMIT || high > SPREAD_LIMIT) {
-      out.push({
-        ...base,
-        code: 'corner-current-spread',
-        severity: CORNER_CODES['corner-current-spread'].severity,
-        message: `${el.name}'s output current of ${A(nom)} ranges from ${A(sw.minCurrent.value)} (${formatPercent(low)}, at ${sw.minCurrent.label}) to ${A(sw.maxCurrent.value)} (${formatPercent(high)}, at ${sw.maxCurrent.label}) across ${converged} corners.`,
-        data: {
-          structureId: s.id,
-          device: el.name,
-          nominal: nom,
-          min: sw.minCurrent.value,
-          max: sw.maxCurrent.value,
-          minCorner: sw.minCurrent.label,
-          maxCorner: sw.maxCurrent.label,
-        },
-      });
-    }
+  if (spread) {
+    const minCorner = labels[minCurrent - start];
+    const maxCorner = labels[maxCurrent - start];
+    out.push({
+      ...base,
+      code: 'corner-current-spread',
+      severity: CORNER_CODES['corner-current-spread'].severity,
+      message: `${el.name}'s output current of ${A(nom)} ranges from ${A(iout[minCurrent])} (${formatPercent(low)}, at ${minCorner}) to ${A(iout[maxCurrent])} (${formatPercent(high)}, at ${maxCorner}) across ${converged} corners.`,
+      data: {
+        structureId: s.id,
+        device: el.name,
+        nominal: nom,
+        min: iout[minCurrent],
+        max: iout[maxCurrent],
+        minCorner,
+        maxCorner,
+      },
+    });
   }
   return out;
 }
