@@ -154,14 +154,61 @@ describe('transposed solves (the adjoint of sensitivity analysis) agree with mat
       b[seed % net.n] = 1;
       b[(seed * 5) % net.n] = -2;
       const idx = [seed % net.n, (seed * 5) % net.n];
-      const out = { index: [] as number[], value: [] as number[] };
+      // Stale entries past \`count\` (as a reused list holds them) must not be read as part of the result.
+      const out = { index: [0, 1, 2, 3], value: [9, 9, 9, 9], count: 4 };
       const work = new Float64Array(net.n);
       lu.solveTransposeSparse(idx, [1, -2], work, out);
       const full = new Float64Array(net.n);
-      out.index.forEach((i, k) => (full[i] = out.value[k]));
+      for (let k = 0; k < out.count; k++) full[out.index[k]] = out.value[k];
       const ref2 = column(math.lusolve(math.transpose(denseOf(net)), Array.from(b)) as number[][]);
       const s2 = Math.max(...ref2.map(Math.abs));
       ref2.forEach((r, k) => expect(Math.abs(full[k] - r)).toBeLessThanOrEqual(1e-10 * s2));
+      expect(work.every((w) => w === 0)).toBe(true);
+    }
+  });
+});
+
+/** `copies` of a network side by side on the diagonal (independent circuits in one matrix): a solve's reach stays within the blocks its right-hand side touches. */
+function blockDiagonal(net: Network, copies: number): Network {
+  const rows: number[] = [];
+  const cols: number[] = [];
+  const values: number[] = [];
+  for (let c = 0; c < copies; c++) {
+    for (let k = 0; k < net.rows.length; k++) {
+      rows.push(c * net.n + net.rows[k]);
+      cols.push(c * net.n + net.cols[k]);
+      values.push(net.values[k]);
+    }
+  }
+  const n = net.n * copies;
+  return { n, rows: Int32Array.from(rows), cols: Int32Array.from(cols), values: Float64Array.from(values), rhs: new Float64Array(n) };
+}
+
+describe('the sparse transposed solve on a small reach and a large one, its result lists reused', () => {
+  it('matches lusolve on the transposed matrix to 1e-10 relative, reading only the first count entries', () => {
+    // Source: mathjs documentation, transpose(A) and lusolve(A, b); block-diagonal solves are independent (linear algebra).
+    const net = blockDiagonal(network(6, 1, 77), 30);
+    const lu = new SparseLU({ n: net.n, rows: net.rows, cols: net.cols });
+    expect(lu.factor(net.values).ok).toBe(true);
+    const dense = math.transpose(denseOf(net));
+    const work = new Float64Array(net.n);
+    const out = { index: [] as number[], value: [] as number[], count: 0 };
+    // One block's entry (a reach of at most 7 positions), then entries in 12 blocks (up to 84), then one block again,
+    // so the second result is written over a longer first one and the third over a longer second.
+    const cases = [[3], Array.from({ length: 12 }, (_, b) => b * 7 * 2 + 1), [net.n - 2]];
+    for (const idx of cases) {
+      const vals = idx.map((_, k) => (k % 2 === 0 ? 1 : -0.5));
+      lu.solveTransposeSparse(idx, vals, work, out);
+      const b = new Array<number>(net.n).fill(0);
+      idx.forEach((i, k) => (b[i] = vals[k]));
+      const ref = column(math.lusolve(dense, b) as number[][]);
+      const full = new Float64Array(net.n);
+      for (let k = 0; k < out.count; k++) full[out.index[k]] = out.value[k];
+      const scale = Math.max(...ref.map(Math.abs));
+      expect(scale).toBeGreaterThan(0);
+      ref.forEach((r, k) => expect(Math.abs(full[k] - r)).toBeLessThanOrEqual(1e-10 * scale));
+      // Every non-zero of the reference is among the entries: a block reached is listed whole.
+      expect(out.count).toBe(ref.filter((r) => r !== 0).length);
       expect(work.every((w) => w === 0)).toBe(true);
     }
   });

@@ -195,9 +195,11 @@ export const BEHAVIOURAL: DeviceKind = deviceKind<BehaviouralSource>({
     return out;
   },
   // A voltage output fixes its two nodes together; a current output conducts nothing (as an I source).
-  dcPaths: (el) => (el.output === 'V' ? [[el.nodes[0], el.nodes[1]]] : []),
-  checkedJunctions: () => [],
-  instanceValues: () => [],
+  dcPaths: (el, to) => {
+    if (el.output === 'V') to.union(el.nodes[0], el.nodes[1]);
+  },
+  checkedJunctions: () => {},
+  instanceValues: () => {},
   createTable: (instances, issues) => new BehaviouralTable(instances, issues),
   record: (cols, _instances, i): TwoTerminalRecord => ({ type: 'controlled-source', current: cols.values[0][i], voltage: cols.values[1][i], power: cols.values[2][i] }),
   terminalCurrent: (cols, i, t) => (t === 0 ? cols.values[0][i] : t === 1 ? -cols.values[0][i] : 0),

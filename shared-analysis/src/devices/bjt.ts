@@ -1019,13 +1019,16 @@ export const BJT: DeviceKind = deviceKind<Bjt>({
     for (let j = 0; j < SERIES.length; j++) t[3 + j] = hasSeries(el, SERIES[j][0]) ? internal[k++] : t[j];
     return t;
   },
-  dcPaths: (el) => [
-    [el.nodes[0], el.nodes[1]],
-    [el.nodes[1], el.nodes[2]],
-  ],
+  dcPaths: (el, to) => {
+    to.union(el.nodes[0], el.nodes[1]);
+    to.union(el.nodes[1], el.nodes[2]);
+  },
   // A shorted base-collector junction is the ordinary diode connection, so only the base-emitter one is checked.
-  checkedJunctions: (el) => [{ junction: 'base-emitter junction', a: el.nodes[1], b: el.nodes[2] }],
-  instanceValues: (el) => [{ name: 'area', value: el.area, typical: 1 }, { name: 'M', value: el.m, typical: 1 }],
+  checkedJunctions: (el, visit) => visit('base-emitter junction', el.nodes[1], el.nodes[2]),
+  instanceValues: (el, visit) => {
+    visit('area', el.area, 1);
+    visit('M', el.m, 1);
+  },
   createTable: (instances, issues) => new BjtTable(instances, issues),
   record(cols, instances, i): BjtRecord {
     const v = cols.values;

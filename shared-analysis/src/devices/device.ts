@@ -162,21 +162,20 @@ export function allocateSensitivity(count: number, terminals: number, nodes: num
   return { residualByParam, current: new Float64Array(count * nodes), currentByVoltage: new Float64Array(count * nodes * terminals), currentByParam };
 }
 
-/** A junction the solver checks for being shorted by a wire-like element (a 0 V source, an inductor, a 0 Ω resistor). */
-export interface CheckedJunction {
-  /** As the message names it: 'junction', 'base-emitter junction'. */
-  junction: string;
-  /** Netlist node indices of its two ends. */
-  a: number;
-  b: number;
+/** Takes the node pairs `DeviceKind.dcPaths` gives, one call per pair (the floating-node check's union-find). */
+export interface NodeJoiner {
+  union(a: number, b: number): unknown;
 }
 
-/** A number an instance brings into the equations, with the scale it is ordinarily near (for the out-of-range check). */
-export interface InstanceValue {
-  name: string;
-  value: number;
-  typical: number;
-}
+/**
+ * Takes a junction the solver checks for being shorted by a wire-like element (a 0 V source, an inductor, a 0 Ω
+ * resistor): `junction` as the message names it ('junction', 'base-emitter junction'), `a` and `b` the netlist node
+ * indices of its two ends.
+ */
+export type JunctionVisitor = (junction: string, a: number, b: number) => void;
+
+/** Takes a number an instance brings into the equations, with the scale it is ordinarily near (for the out-of-range check). */
+export type InstanceValueVisitor = (name: string, value: number, typical: number) => void;
 
 /**
  * One nonlinear device kind: what the layout, the structural checks and the records need to
@@ -203,12 +202,16 @@ export interface DeviceKind<E extends Element = Element> {
    * inductor, an E or H), −1 when it has none — for kinds controlled by a current (W).
    */
   terminals(element: E, node: (netlistNode: number) => number, internal: readonly number[], branch?: (elementName: string) => number): number[];
-  /** Netlist node pairs the instance connects at DC (a junction's robustness conductance counts), for the floating-node check. */
-  dcPaths(element: E): [number, number][];
-  /** Junctions that a short across them would keep from ever conducting. */
-  checkedJunctions(element: E): CheckedJunction[];
-  /** The instance's own numbers for the out-of-range check (area or geometry, multiplier); its model's parameters are checked anyway. */
-  instanceValues(element: E): InstanceValue[];
+  /**
+   * Gives `to` the netlist node pairs the instance connects at DC (a junction's robustness conductance counts), for the
+   * floating-node check. Handed over one by one, not as a list: the check asks every device, and lists made for it
+   * were megabytes of garbage at 100k elements.
+   */
+  dcPaths(element: E, to: NodeJoiner): void;
+  /** Gives `visit` each junction that a short across it would keep from ever conducting (one by one, as `dcPaths`). */
+  checkedJunctions(element: E, visit: JunctionVisitor): void;
+  /** Gives `visit` the instance's own numbers for the out-of-range check (area or geometry, multiplier); its model's parameters are checked anyway. */
+  instanceValues(element: E, visit: InstanceValueVisitor): void;
   /** Why the instance does not give its nodes a DC path, for the floating-node message (e.g. 'its gate and bulk draw no DC current'). */
   readonly floatingNote?: string;
   /** Builds the table of every instance; unusable parameters are replaced and reported in `issues`. */

@@ -314,9 +314,12 @@ export const DIODE: DeviceKind = deviceKind<Diode>({
   regions: REGIONS,
   internalNodes: (el) => (needsInternalNode(el) ? ['internal anode'] : []),
   terminals: (el, node, internal) => [node(el.nodes[0]), internal.length > 0 ? internal[0] : node(el.nodes[0]), node(el.nodes[1])],
-  dcPaths: (el) => [[el.nodes[0], el.nodes[1]]],
-  checkedJunctions: (el) => [{ junction: 'junction', a: el.nodes[0], b: el.nodes[1] }],
-  instanceValues: (el) => [{ name: 'area', value: el.area, typical: 1 }, { name: 'M', value: el.m, typical: 1 }],
+  dcPaths: (el, to) => to.union(el.nodes[0], el.nodes[1]),
+  checkedJunctions: (el, visit) => visit('junction', el.nodes[0], el.nodes[1]),
+  instanceValues: (el, visit) => {
+    visit('area', el.area, 1);
+    visit('M', el.m, 1);
+  },
   createTable: (instances, issues) => new DiodeTable(instances, issues),
   record: (cols, _instances, i): DiodeRecord => ({ type: 'diode', id: cols.values[0][i], vd: cols.values[1][i], region: REGIONS[cols.region[i]], rd: cols.values[2][i] }),
   terminalCurrent: (cols, i, t) => (t === 0 ? cols.values[0][i] : t === 1 ? -cols.values[0][i] : 0),

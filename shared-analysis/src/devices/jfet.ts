@@ -546,16 +546,16 @@ export const JFET: DeviceKind = deviceKind<Jfet>({
   regions: REGIONS,
   internalNodes: () => [],
   terminals: (el, node) => [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2])],
-  dcPaths: (el) => [
-    [el.nodes[0], el.nodes[2]],
-    [el.nodes[1], el.nodes[2]],
-    [el.nodes[1], el.nodes[0]],
-  ],
-  checkedJunctions: () => [],
-  instanceValues: (el) => [
-    { name: 'area', value: el.area, typical: 1 },
-    { name: 'M', value: el.m, typical: 1 },
-  ],
+  dcPaths: (el, to) => {
+    to.union(el.nodes[0], el.nodes[2]);
+    to.union(el.nodes[1], el.nodes[2]);
+    to.union(el.nodes[1], el.nodes[0]);
+  },
+  checkedJunctions: () => {},
+  instanceValues: (el, visit) => {
+    visit('area', el.area, 1);
+    visit('M', el.m, 1);
+  },
   createTable: (instances, issues) => new JfetTable(instances, issues),
   record(cols, instances, i): JfetRecord {
     const v = cols.values;

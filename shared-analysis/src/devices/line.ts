@@ -86,12 +86,12 @@ export const LINE: DeviceKind = deviceKind<TransmissionLine>({
     const ret = el.nodes[1] !== el.nodes[3] ? internal[k++] : -1;
     return [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2]), node(el.nodes[3]), signal ?? -1, ret ?? -1];
   },
-  dcPaths: (el) => [
-    [el.nodes[0], el.nodes[2]],
-    [el.nodes[1], el.nodes[3]],
-  ],
-  checkedJunctions: () => [],
-  instanceValues: () => [],
+  dcPaths: (el, to) => {
+    to.union(el.nodes[0], el.nodes[2]);
+    to.union(el.nodes[1], el.nodes[3]);
+  },
+  checkedJunctions: () => {},
+  instanceValues: () => {},
   createTable: (instances, issues) => new LineTable(instances, issues),
   record: (cols, _instances, i): TwoTerminalRecord => ({ type: 'transmission-line', current: cols.values[0][i], voltage: cols.values[1][i], power: 0, returnCurrent: cols.values[3][i] }),
   terminalCurrent: (cols, i, t) => (t === 0 ? cols.values[0][i] : t === 2 ? -cols.values[0][i] : t === 1 ? cols.values[3][i] : t === 3 ? -cols.values[3][i] : 0),

@@ -525,13 +525,13 @@ export const MOSFET: DeviceKind = deviceKind<Mosfet>({
   regions: REGIONS,
   internalNodes: () => [],
   terminals: (el, node) => [node(el.nodes[0]), node(el.nodes[1]), node(el.nodes[2]), node(el.nodes[3])],
-  dcPaths: (el) => [[el.nodes[0], el.nodes[2]]],
-  checkedJunctions: () => [],
-  instanceValues: (el) => [
-    { name: 'W', value: el.w, typical: 1e-6 },
-    { name: 'L', value: el.l, typical: 1e-6 },
-    { name: 'M', value: el.m, typical: 1 },
-  ],
+  dcPaths: (el, to) => to.union(el.nodes[0], el.nodes[2]),
+  checkedJunctions: () => {},
+  instanceValues: (el, visit) => {
+    visit('W', el.w, 1e-6);
+    visit('L', el.l, 1e-6);
+    visit('M', el.m, 1);
+  },
   floatingNote: 'its gate and bulk draw no DC current',
   createTable: (instances, issues) => new MosfetTable(instances, issues),
   record(cols, instances, i): MosRecord {

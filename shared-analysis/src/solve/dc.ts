@@ -9,7 +9,7 @@ import { thermalVoltage, UNBOUNDED } from '../devices/physics';
 import { deviceKindOf } from '../devices/registry';
 import type { Finding, RelatedLocation, Severity, Span } from '../types';
 import { formatEng, listNames } from './format';
-import type { LinearSolver } from './linear';
+import type { LinearSolver, SparseEntries } from './linear';
 import { createLinearSolver } from './linear';
 import { MnaLayout, type LinearReader, type UnknownInfo } from './mna';
 import type { NewtonOutcome } from './newton';
@@ -47,7 +47,7 @@ export interface Linearisation {
   conductanceSlopeOf(element: number): number;
   solveTransposed(c: Float64Array, out: Float64Array): Float64Array;
   /** The same for a sparse c: the non-zero entries of λ go to `out`. */
-  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: { index: number[]; value: number[] }): void;
+  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: SparseEntries): void;
 }
 
 /** One solve's answer: the operating point, what went wrong (located), effort spent, and the raw solution for warm starts. */
@@ -997,11 +997,13 @@ export class DcSolver {
       f.related = [...(f.related ?? []), ...this.relatedFor([s])];
       out.push(f);
     };
+    // One visitor for every device (the element's index in `current`), where a list per device was garbage at 100k.
+    let current = 0;
+    const visit = (junction: string, a: number, b: number): void => check(current, junction, a, b);
     c.elements.forEach((el, i) => {
       if (this.layout.skipped.has(i)) return;
-      // Indexed: this walk of every element runs once, uncompiled, where a for-of makes an object per step.
-      const junctions = deviceKindOf(el.kind)?.checkedJunctions(el);
-      if (junctions) for (let k = 0; k < junctions.length; k++) check(i, junctions[k].junction, junctions[k].a, junctions[k].b);
+      current = i;
+      deviceKindOf(el.kind)?.checkedJunctions(el, visit);
     });
     return out;
   }
@@ -1014,6 +1016,11 @@ export class DcSolver {
     const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
     const far = (value: number, t = 1): boolean =>
       value !== 0 && Number.isFinite(value) && Math.abs(Math.log10(Math.abs(value)) - Math.log10(t)) > OUT_OF_RANGE_DECADES;
+    // The instance's own numbers, judged by one visitor made here, not a list of records per device.
+    let own = false;
+    const judgeOwn = (_name: string, value: number, typical: number): void => {
+      if (far(value, typical)) own = true;
+    };
     const elements = this.circuit.elements;
     const count = among ? among.length : elements.length;
     for (let n = 0; n < count; n++) {
@@ -1030,7 +1037,8 @@ export class DcSolver {
           for (const name in el.model.params) if (far(el.model.params[name], typical[name])) m = true;
           modelExtreme.set(el.model, m);
         }
-        const own = kind.instanceValues(el).some((v) => far(v.value, v.typical));
+        own = false;
+        kind.instanceValues(el, judgeOwn);
         if (!m && !own) continue;
       }
       for (const v of this.valuesOf(el)) {
@@ -1242,7 +1250,7 @@ export class DcSolver {
         if (!kind) return [];
         const typical: Record<string, number> = { IS: 1e-16, KP: 2e-5 };
         const out = 'model' in el ? Object.entries(el.model.params).map(([name, value]) => item(name, value, typical[name] ?? 1)) : [];
-        for (const v of kind.instanceValues(el)) out.push(item(v.name, v.value, v.typical));
+        kind.instanceValues(el, (name, value, typical) => out.push(item(name, value, typical)));
         return out;
       }
     }

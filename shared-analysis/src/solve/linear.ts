@@ -16,6 +16,17 @@ export type FactorResult = { ok: true } | { ok: false; /** Row/column (unknown) 
  * pattern's entries; `solve(b)` returns x with A·x = b for the last successful factor.
  * Symbolic work (ordering, structure) is done once and reused by every `factor`.
  */
+/**
+ * The non-zero entries of a sparse result: the first `count` of `index` (original indices, any order) and `value`.
+ * Entries past `count` are left from earlier results: the lists are reused from solve to solve and never emptied,
+ * since emptying an array (\`length = 0\`) gives it new storage at the next push.
+ */
+export interface SparseEntries {
+  index: number[];
+  value: number[];
+  count: number;
+}
+
 export interface LinearSolver {
   factor(values: Float64Array): FactorResult;
   /** `factor` of R·A·C for the diagonal scales R = `rowScale`, C = `colScale`, with no scaled copy of `values` made (see SparseLU). */
@@ -24,7 +35,7 @@ export interface LinearSolver {
   /** Returns x with Aᵀ·x = b for the last successful factor (the adjoint solve of sensitivity analysis); zeros after a failed one. */
   solveTranspose(b: Float64Array, x?: Float64Array): Float64Array;
   /** Aᵀ·x = b for a sparse b; the non-zero entries of x go to `out` (see SparseLU). `x` is an all-zero work vector of length n, left all zeros. */
-  solveTransposeSparse?(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: { index: number[]; value: number[] }): void;
+  solveTransposeSparse?(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: SparseEntries): void;
 }
 
 /** Dense LU with partial pivoting over the same interface: a reference for tests and the fallback for tiny systems. */

@@ -1,7 +1,7 @@
 // Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
 
 import type { DeviceConditions, LoadTally, StartHint } from '../devices/device';
-import type { FactorResult, LinearSolver } from './linear';
+import type { FactorResult, LinearSolver, SparseEntries } from './linear';
 import { BRANCH_UNKNOWN, type MnaLayout } from './mna';
 
 /**
@@ -311,7 +311,7 @@ export class NewtonEngine {
    * non-zero entries of λ in `out`; uses the linear solver's sparse transposed solve when it has
    * one, else the dense one.
    */
-  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: { index: number[]; value: number[] }): void {
+  solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: SparseEntries): void {
     const { rowScale, colScale } = this;
     const n = colScale.length;
     const work = (this.sparseWork ??= new Float64Array(n));
@@ -320,18 +320,19 @@ export class NewtonEngine {
     for (let k = 0; k < cIndex.length; k++) scaled[k] = cValue[k] * colScale[cIndex[k]];
     if (this.solver.solveTransposeSparse) {
       this.solver.solveTransposeSparse(cIndex, scaled, work, out);
-      for (let k = 0; k < out.index.length; k++) out.value[k] *= rowScale[out.index[k]];
+      for (let k = 0; k < out.count; k++) out.value[k] *= rowScale[out.index[k]];
       return;
     }
     const dense = new Float64Array(n);
     for (let k = 0; k < cIndex.length; k++) dense[cIndex[k]] += scaled[k];
     const x = this.solver.solveTranspose(dense, new Float64Array(n));
-    out.index.length = 0;
-    out.value.length = 0;
+    let count = 0;
     for (let k = 0; k < n; k++) if (x[k] !== 0) {
-      out.index.push(k);
-      out.value.push(x[k] * rowScale[k]);
+      out.index[count] = k;
+      out.value[count] = x[k] * rowScale[k];
+      count++;
     }
+    out.count = count;
   }
   private sparseWork: Float64Array | undefined;
   private readonly sparseScaled: number[] = [];

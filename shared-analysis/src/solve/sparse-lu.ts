@@ -1,6 +1,6 @@
 // Sparse LU for MNA matrices: left-looking Gilbert–Peierls with threshold pivoting, then numeric-only refactorisation.
 
-import type { FactorResult, LinearSolver, SparsePattern } from './linear';
+import type { FactorResult, LinearSolver, SparseEntries, SparsePattern } from './linear';
 import { approximateMinimumDegree, symmetricPattern } from './ordering';
 
 /** Tuning of {@link SparseLU}; every field has a default that suits MNA matrices. */
@@ -58,6 +58,8 @@ const REFACTOR_DONE = 1;
 const REFACTOR_SMALL_PIVOT = 0;
 const REFACTOR_NOT_FINITE = -1;
 const REFACTOR_NOT_TRIED = -2;
+/** Reach sizes up to which the transposed solve sorts its positions by insertion (an adjoint's reach is usually a handful). */
+const INSERTION_SORT_MAX = 32;
 
 /** Growable typed-array pair used while the L/U patterns are discovered. */
 class Growable {
@@ -433,12 +435,11 @@ export class SparseLU implements LinearSolver {
    * Aᵀ·x = b for a sparse b (`bIndex`/`bValue`, original indices), touching only the entries
    * the factors can reach from b's (J. R. Gilbert and T. Peierls' reach, applied to Uᵀ and then
    * Lᵀ): the adjoint solve of one output costs what its part of the circuit costs. Returns the
-   * non-zero entries of x (original indices, any order) in `out`; `x` must be all zeros on entry
+   * non-zero entries of x (original indices, any order) in `out`'s first `count`; `x` must be all zeros on entry
    * (length n) and is left all zeros. After a failed `factor`, returns no entries.
    */
-  solveTransposeSparse(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: { index: number[]; value: number[] }): void {
-    out.index.length = 0;
-    out.value.length = 0;
+  solveTransposeSparse(bIndex: ArrayLike<number>, bValue: ArrayLike<number>, x: Float64Array, out: SparseEntries): void {
+    out.count = 0;
     if (!this.valid) return;
     const r = this.transposeRows();
     const y = x; // pivot-position workspace, all zeros on entry
@@ -476,8 +477,17 @@ export class SparseLU implements LinearSolver {
         }
       }
     }
-    // A typed array sorts numerically, in place.
-    const reach = buffer.subarray(0, count).sort();
+    // In increasing order, in place: by insertion for the usual few positions (no view of the buffer made), else a
+    // typed array's numeric sort of a view.
+    if (count <= INSERTION_SORT_MAX) {
+      for (let i = 1; i < count; i++) {
+        const v = buffer[i];
+        let j = i - 1;
+        for (; j >= 0 && buffer[j] > v; j--) buffer[j + 1] = buffer[j];
+        buffer[j + 1] = v;
+      }
+    } else buffer.subarray(0, count).sort();
+    const reach = buffer;
     // Step 2: Uᵀ·z = y, in increasing pivot order; row k of U holds column k of Uᵀ.
     const uDiag = this.uDiag;
     for (let i = 0; i < count; i++) {
@@ -493,16 +503,21 @@ export class SparseLU implements LinearSolver {
       if (wk === 0) continue;
       for (let p = r.lStart[k]; p < r.lStart[k + 1]; p++) y[r.lCol[p]] -= r.lVal[p] * wk;
     }
-    // Step 4: x = Pᵀ·w.
+    // Step 4: x = Pᵀ·w, written over the lists' old entries (see SparseEntries).
     const rowOf = this.rowOf;
+    const index = out.index;
+    const value = out.value;
+    let written = 0;
     for (let i = 0; i < count; i++) {
       const k = reach[i];
       if (y[k] !== 0) {
-        out.index.push(rowOf[k]);
-        out.value.push(y[k]);
+        index[written] = rowOf[k];
+        value[written] = y[k];
+        written++;
       }
       y[k] = 0;
     }
+    out.count = written;
   }
 
   /**

@@ -59,9 +59,8 @@ function uniteConducting(uf: UnionFind, el: Element, resistance: number): void {
       return;
     default:
       // Nonlinear kinds say which of their nodes they connect; C, I, G and F conduct nothing at DC, and anything unrecognised is treated the same way.
-      // Indexed, not a for-of with a destructured pair: uncompiled, that made an iterator and its results for every pair of every device.
-      const paths = deviceKindOf(el.kind)?.dcPaths(el);
-      if (paths) for (let k = 0; k < paths.length; k++) uf.union(paths[k][0], paths[k][1]);
+      // Handed straight to the union-find: no list of pairs is made per device.
+      deviceKindOf(el.kind)?.dcPaths(el, uf);
   }
 }
 

@@ -6,6 +6,7 @@ import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, Load
 import { SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity } from '../devices/device';
 import { thermalVoltage } from '../devices/physics';
 import type { Linearisation } from '../solve/dc';
+import type { SparseEntries } from '../solve/linear';
 import { NODE_UNKNOWN } from '../solve/mna';
 
 /**
@@ -630,7 +631,7 @@ function adjointRows(
     if (td && rowIn(td, maps.instanceOf[maps.element[j]]) >= 0) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
   }
   const terms = new OutputTerms(lin, maps, derivatives, temperatureColumn, currentColumn, rows);
-  const lambda = { index: [] as number[], value: [] as number[] };
+  const lambda: SparseEntries = { index: [], value: [], count: 0 };
   for (let o = 0; o < outputs.length; o++) {
     const out = outputs[o];
     const y = terms.read(out);
@@ -647,15 +648,15 @@ function adjointRows(
 }
 
 /** Whether every non-zero entry of λ lies in a covered row. */
-function within(lambda: { index: number[]; value: number[] }, covered: Uint8Array): boolean {
-  for (let k = 0; k < lambda.index.length; k++) if (lambda.value[k] !== 0 && !covered[lambda.index[k]]) return false;
+function within(lambda: SparseEntries, covered: Uint8Array): boolean {
+  for (let k = 0; k < lambda.count; k++) if (lambda.value[k] !== 0 && !covered[lambda.index[k]]) return false;
   return true;
 }
 
 /** −λ·∂F/∂p into the current row, over the rows of ∂F/∂p that λ reaches. */
-function addAdjointTerms(lambda: { index: number[]; value: number[] }, columns: ColumnsByRow, rows: DerivativeRows): void {
+function addAdjointTerms(lambda: SparseEntries, columns: ColumnsByRow, rows: DerivativeRows): void {
   const { start, param, value } = columns;
-  for (let k = 0; k < lambda.index.length; k++) {
+  for (let k = 0; k < lambda.count; k++) {
     const u = lambda.index[k];
     const l = lambda.value[k];
     if (l === 0) continue;
