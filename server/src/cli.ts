@@ -10,7 +10,7 @@ import type { Analysis, AnalysisOptions, ResistorSeries } from '../../shared-ana
 import type { Finding, Severity, Workspace } from '../../shared-analysis/src/types';
 import { formatHeadroom, formatQuantity } from '../../shared-analysis/src/view/format';
 import { recordIsOff } from '../../shared-analysis/src/checks/devices/context';
-import { dissipation, dissipationAt, powerEntries, powerTable } from '../../shared-analysis/src/checks/devices/power';
+import { dissipation, dissipationAt, powerColumns, powerTable } from '../../shared-analysis/src/checks/devices/power';
 import { histogramText, spreadText } from '../../shared-analysis/src/variation/text';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
 import { capitalised, kindName } from '../../shared-analysis/src/structures/catalogue';
@@ -19,7 +19,7 @@ import { defaultPolicy, isNetworkPath, PolicyReader, realRoots, type ReadPolicy 
 import { crossCheckCorners, OPTION_RULES, parseDecimal, type NumberRule } from './option-rules';
 import { escapeControls, escapedJsonChunk } from './escape';
 import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from './json-stream';
-import { pointReader, pointVectors, type PointReader } from '../../shared-analysis/src/solve/point';
+import { pointReader, pointVectors, TableEntries, type PointReader } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import { hasUniqueNames } from '../../shared-analysis/src/solve/solved-point';
 import type { Structure } from '../../shared-analysis/src/structures/types';
@@ -710,7 +710,7 @@ function jsonFileEntry(r: FileResult, options: JsonDetail): unknown {
       ? {
           // Streamed from the vectors; a netlist that names two elements alike gets the table (one key per name).
           power: a.circuit && hasUniqueNames(a.circuit)
-            ? new JsonEntries(() => powerEntries(elements, powerReader(op, reader), analysisOptions), true)
+            ? new JsonEntries(() => new TableEntries(powerColumns(elements, powerReader(op, reader), analysisOptions)), true)
             : powerTable(elements, op.devices, analysisOptions),
         }
       : {}),
@@ -751,8 +751,8 @@ function pointForJson(op: OperatingPoint): unknown {
   if (!v) return op;
   return new JsonEntries(function* () {
     for (const k of Object.keys(op)) {
-      if (k === 'nodes') yield [k, new JsonEntries(() => v.nodeEntries(), true)];
-      else if (k === 'devices') yield [k, new JsonEntries(() => v.deviceEntries(), true)];
+      if (k === 'nodes') yield [k, new JsonEntries(() => new TableEntries(v.nodeTable()), true)];
+      else if (k === 'devices') yield [k, new JsonEntries(() => new TableEntries(v.deviceTable()), true)];
       else yield [k, (op as unknown as Record<string, unknown>)[k]];
     }
   });

@@ -3,7 +3,7 @@
 import type { Circuit } from '../circuit';
 import { nameTable } from '../names';
 import { DcSolver, type DcSolveResult } from '../solve/dc';
-import { lazyPoint, pointVectors, type PointVectors } from '../solve/point';
+import { entriesOf, lazyPoint, pointVectors, type EntryTable, type PointVectors } from '../solve/point';
 import type { DeviceRecord, OperatingPoint, SolveOptions } from '../solve/types';
 
 /** What a sizing solves on: a prepared solver of the block, or one shared with an equal block under its names. */
@@ -164,12 +164,30 @@ class RenamedVectors implements PointVectors {
     return this.v.region(e);
   }
 
-  *nodeEntries(): Iterable<[string, number]> {
-    for (let i = 0; i < this.block.nodes.length; i++) yield [this.block.nodes[i], this.volts[i]];
+  nodeEntries(): Iterable<[string, number]> {
+    return entriesOf(this.nodeTable());
   }
 
-  *deviceEntries(): Iterable<[string, DeviceRecord]> {
-    for (const [name, record] of this.v.deviceEntries()) yield [this.blockName.get(name) ?? name, record];
+  deviceEntries(): Iterable<[string, DeviceRecord]> {
+    return entriesOf(this.deviceTable());
+  }
+
+  nodeTable(): EntryTable<number> {
+    const { block, volts } = this;
+    return { count: block.nodes.length, name: (i) => block.nodes[i], value: (i) => volts[i] };
+  }
+
+  deviceTable(): EntryTable<DeviceRecord> {
+    const table = this.v.deviceTable();
+    const blockName = this.blockName;
+    return {
+      count: table.count,
+      name: (k) => {
+        const name = table.name(k);
+        return blockName.get(name) ?? name;
+      },
+      value: (k) => table.value(k),
+    };
   }
 
   tables(): { nodes: Record<string, number>; devices: Record<string, DeviceRecord> } {

@@ -37,6 +37,53 @@ export interface PointVectors {
    */
   nodeEntries(): Iterable<[string, number]>;
   deviceEntries(): Iterable<[string, DeviceRecord]>;
+  /** The same entries read by position (for a writer that takes them one by one and keeps none: no pair made per entry). */
+  nodeTable(): EntryTable<number>;
+  deviceTable(): EntryTable<DeviceRecord>;
+}
+
+/** A table's entries by position: entry k (0 ≤ k < `count`) is `name(k)` → `value(k)` (a record is made at each call). */
+export interface EntryTable<T> {
+  readonly count: number;
+  name(k: number): string;
+  value(k: number): T;
+}
+
+/**
+ * A table's entries through one pair and one step result, refilled at each step: for a reader that takes an entry
+ * before it asks for the next and keeps neither (the JSON writer), where a generator made both for every node and
+ * device (about 25 MB at 100,000 elements). Not for a reader that keeps the pairs (a spread into a list).
+ */
+export class TableEntries<T> implements IterableIterator<readonly [string, T]> {
+  private k = 0;
+  private readonly pair: [string, T | undefined] = ['', undefined];
+  private readonly step = { done: false, value: this.pair as readonly [string, T] };
+
+  constructor(private readonly table: EntryTable<T>) {}
+
+  [Symbol.iterator](): this {
+    return this;
+  }
+
+  next(): IteratorResult<readonly [string, T]> {
+    const { table, pair, step } = this;
+    const k = this.k;
+    if (k >= table.count) {
+      step.done = true;
+      pair[0] = '';
+      pair[1] = undefined;
+      return step as IteratorResult<readonly [string, T]>;
+    }
+    this.k = k + 1;
+    pair[0] = table.name(k);
+    pair[1] = table.value(k);
+    return step as IteratorResult<readonly [string, T]>;
+  }
+}
+
+/** A table's entries as pairs, one at a time. */
+export function* entriesOf<T>(table: EntryTable<T>): Iterable<[string, T]> {
+  for (let k = 0; k < table.count; k++) yield [table.name(k), table.value(k)];
 }
 
 type PointTables = { nodes: Record<string, number>; devices: Record<string, DeviceRecord> };

@@ -4,7 +4,7 @@ import type { Circuit, Element } from '../circuit';
 import type { DeviceColumns, DeviceTable } from '../devices/device';
 import { nameTable } from '../names';
 import type { DeviceOrder, LinearReader } from './mna';
-import type { PointVectors } from './point';
+import { entriesOf, type EntryTable, type PointVectors } from './point';
 import type { DeviceRecord, OperatingPoint, TwoTerminalRecord } from './types';
 
 /** Largest magnitude written into a record; anything beyond is clamped and reported. */
@@ -221,20 +221,32 @@ export class SolvedVectors implements PointVectors {
     return this.tables[t].kind.regions[this.values.columns[t].region[this.deviceOrder.instance[d]]];
   }
 
-  *nodeEntries(): Iterable<[string, number]> {
-    const { circuit, volts } = this;
-    for (let i = 0; i < circuit.nodes.length; i++) yield [circuit.nodes[i], volts[i]];
+  nodeEntries(): Iterable<[string, number]> {
+    return entriesOf(this.nodeTable());
   }
 
-  /** With a name written twice the table keeps the first position and the last record: the point's table is read then. */
-  *deviceEntries(): Iterable<[string, DeviceRecord]> {
+  deviceEntries(): Iterable<[string, DeviceRecord]> {
+    return entriesOf(this.deviceTable());
+  }
+
+  nodeTable(): EntryTable<number> {
+    const { circuit, volts } = this;
+    return { count: circuit.nodes.length, name: (i) => circuit.nodes[i], value: (i) => volts[i] };
+  }
+
+  /** The two-terminal elements' records, then the devices'. With a name written twice the table keeps the first position and the last record: the point's table is read then. */
+  deviceTable(): EntryTable<DeviceRecord> {
     const { circuit, readers, deviceOrder } = this;
     if (!hasUniqueNames(circuit) && this.point) {
-      for (const [k, r] of Object.entries(this.point.devices)) yield [k, r];
-      return;
+      const entries = Object.entries(this.point.devices);
+      return { count: entries.length, name: (k) => entries[k][0], value: (k) => entries[k][1] };
     }
-    for (let k = 0; k < readers.length; k++) yield [circuit.elements[readers[k].element].name, this.twoTerminal(k, quietClamp)];
-    for (let d = 0; d < deviceOrder.element.length; d++) yield [circuit.elements[deviceOrder.element[d]].name, this.device(d, quietClamp)];
+    const r = readers.length;
+    return {
+      count: r + deviceOrder.element.length,
+      name: (k) => circuit.elements[k < r ? readers[k].element : deviceOrder.element[k - r]].name,
+      value: (k) => (k < r ? this.twoTerminal(k, quietClamp) : this.device(k - r, quietClamp)),
+    };
   }
 
   /** The `nodes` and `devices` tables, each number past ±RECORD_LIMIT clamped, and told to `collected` when given. */

@@ -3,7 +3,7 @@
 import type { ResolvedOptions } from '../../analysis';
 import type { Element } from '../../circuit';
 import type { DeviceRecord } from '../../solve/types';
-import type { PointVectors } from '../../solve/point';
+import type { EntryTable, PointVectors } from '../../solve/point';
 import { nameTable } from '../../names';
 
 /**
@@ -14,8 +14,7 @@ import { nameTable } from '../../names';
  */
 export function dissipation(rec: DeviceRecord | undefined): number | undefined {
   if (!rec) return undefined;
-  const fields = rec as unknown as Record<string, number | undefined>;
-  return dissipationOf(rec.type, (q) => fields[q]);
+  return dissipationOf(rec.type, rec as unknown as Record<string, number | undefined>, 0, fieldOf);
 }
 
 /**
@@ -24,28 +23,36 @@ export function dissipation(rec: DeviceRecord | undefined): number | undefined {
  */
 export function dissipationAt(v: PointVectors, e: number): number | undefined {
   const type = v.type(e);
-  return type === undefined ? undefined : dissipationOf(type, (q) => v.value(e, q));
+  return type === undefined ? undefined : dissipationOf(type, v, e, valueOf);
 }
 
-/** `dissipation` of a record of `type` whose numbers `n` reads by name (undefined, and so NaN in a product, when it has none). */
-function dissipationOf(type: DeviceRecord['type'], n: (quantity: string) => number | undefined): number | undefined {
+/** A record's number by name. */
+const fieldOf = (rec: Record<string, number | undefined>, _e: number, quantity: string): number | undefined => rec[quantity];
+/** Element `e`'s number by name from a point's vectors. */
+const valueOf = (v: PointVectors, e: number, quantity: string): number | undefined => v.value(e, quantity);
+
+/**
+ * `dissipation` of a record of `type` whose numbers `read(from, e, quantity)` gives by name (undefined, and so NaN in a
+ * product, when it has none): the readers are made once, not a closure per element.
+ */
+function dissipationOf<S>(type: DeviceRecord['type'], from: S, e: number, read: (from: S, e: number, quantity: string) => number | undefined): number | undefined {
   let p: number;
   switch (type) {
     case 'bjt':
-      p = n('ic')! * n('vce')! + n('ib')! * n('vbe')!;
+      p = read(from, e, 'ic')! * read(from, e, 'vce')! + read(from, e, 'ib')! * read(from, e, 'vbe')!;
       break;
     case 'mosfet':
-      p = n('id')! * n('vds')!;
+      p = read(from, e, 'id')! * read(from, e, 'vds')!;
       break;
     case 'diode':
-      p = n('id')! * n('vd')!;
+      p = read(from, e, 'id')! * read(from, e, 'vd')!;
       break;
     case 'jfet':
       // ID·VDS + IG·VGS: the source carries −(ID + IG).
-      p = n('id')! * n('vds')! + n('ig')! * n('vgs')!;
+      p = read(from, e, 'id')! * read(from, e, 'vds')! + read(from, e, 'ig')! * read(from, e, 'vgs')!;
       break;
     default:
-      p = n('power')!;
+      p = read(from, e, 'power')!;
   }
   return Number.isFinite(p) ? p : undefined;
 }
@@ -86,21 +93,39 @@ export interface PowerEntry {
  */
 export function powerTable(elements: readonly Element[], devices: Record<string, DeviceRecord>, options: ResolvedOptions): Record<string, PowerEntry> {
   const out: Record<string, PowerEntry> = nameTable();
-  for (const [name, entry] of powerEntries(elements, (e) => dissipation(devices[elements[e].name]), options)) out[name] = entry;
+  const table = powerColumns(elements, (e) => dissipation(devices[elements[e].name]), options);
+  for (let k = 0; k < table.count; k++) out[table.name(k)] = table.value(k);
   return out;
 }
 
+/** Where a limit came from, by its position in `powerColumns`' `from` column. */
+const LIMIT_SOURCES: readonly LimitSource[] = ['instance', 'model', 'setting'];
+
 /**
- * The entries of `powerTable` one at a time (a streaming writer's form), each element's power read through
- * `powerOf(element index)` (its record's `dissipation`, or `dissipationAt` the point's vectors).
+ * The entries of `powerTable` by position (a streaming writer's form: an entry's object is made when it is read), each
+ * element's power read through `powerOf(element index)` (its record's `dissipation`, or `dissipationAt` the point's
+ * vectors). Worked out in one pass into columns, with no pair or object kept per element.
  */
-export function* powerEntries(elements: readonly Element[], powerOf: (e: number) => number | undefined, options: ResolvedOptions): Iterable<[string, PowerEntry]> {
+export function powerColumns(elements: readonly Element[], powerOf: (e: number) => number | undefined, options: ResolvedOptions): EntryTable<PowerEntry> {
+  const element = new Int32Array(elements.length);
+  const watts = new Float64Array(elements.length);
+  const limitW = new Float64Array(elements.length);
+  const from = new Uint8Array(elements.length);
+  let count = 0;
   for (let e = 0; e < elements.length; e++) {
-    const el = elements[e];
-    const limit = powerLimit(el, options);
+    const limit = powerLimit(elements[e], options);
     if (!limit) continue;
-    const watts = powerOf(e);
-    if (watts === undefined) continue;
-    yield [el.name, { watts, limitW: limit.watts, limitFrom: limit.from }];
+    const w = powerOf(e);
+    if (w === undefined) continue;
+    element[count] = e;
+    watts[count] = w;
+    limitW[count] = limit.watts;
+    from[count] = LIMIT_SOURCES.indexOf(limit.from);
+    count++;
   }
+  return {
+    count,
+    name: (k) => elements[element[k]].name,
+    value: (k) => ({ watts: watts[k], limitW: limitW[k], limitFrom: LIMIT_SOURCES[from[k]] }),
+  };
 }
