@@ -871,9 +871,18 @@ function forwardSubstitute(y: Float64Array, lStart: Int32Array, lRow: Int32Array
 function backSubstitute(y: Float64Array, uStart: Int32Array, uRow: Int32Array, uVal: Float64Array, uDiag: Float64Array, n: number): void {
   for (let k = n - 1; k >= 0; k--) {
     const yk = (y[k] /= uDiag[k]);
-    if (yk === 0) continue;
-    for (let p = uStart[k], end = uStart[k + 1]; p < end; p++) y[uRow[p]] -= uVal[p] * yk;
+    if (yk !== 0) subtractColumn(y, uRow, uVal, uStart[k], uStart[k + 1], yk);
   }
+}
+
+/**
+ * y[row[p]] −= val[p]·yk for p in [from, to): one column of `backSubstitute`, a function of its own. The last column can
+ * hold thousands of entries (a supply node's), and V8 gives a function its type feedback only after its first steps:
+ * as an inner loop it was compiled while it ran in the first column, before the outer loop's step was recorded, and
+ * that code was given up at the step (4 compilations of `backSubstitute` at 20k elements).
+ */
+function subtractColumn(y: Float64Array, row: Int32Array, val: Float64Array, from: number, to: number, yk: number): void {
+  for (let p = from; p < to; p++) y[row[p]] -= val[p] * yk;
 }
 
 /** x[q[k]] = y[k] for k < n: the column permutation back. */

@@ -298,6 +298,14 @@ interface ElementMaps {
   /** The parameters of element e: `elementParams[elementParamStart[e] … elementParamStart[e + 1] − 1]`. */
   elementParamStart: Int32Array;
   elementParams: Int32Array;
+  /**
+   * The parameters of each kind, in parameter order. The loops over one kind's parameters walk these: a loop over every
+   * parameter that skipped the others was compiled by V8 while it skipped (the list holds one kind after another), and
+   * given up at its first parameter of the kind.
+   */
+  resistanceParams: Int32Array;
+  sourceParams: Int32Array;
+  modelParams: Int32Array;
 }
 
 /**
@@ -333,7 +341,24 @@ function elementMaps(lin: Linearisation, params: readonly VariedParameter[]): El
   const temperatureParam = parameterKinds(params, kind, element);
   const elementParamStart = new Int32Array(count + 1);
   const elementParams = parametersByElement(kind, element, elementParamStart);
-  return { tableOf, instanceOf, readerOf, sourceOf, kind, element, temperatureParam, elementParamStart, elementParams };
+  const resistanceParams = parametersOfKind(kind, RESISTANCE);
+  const sourceParams = parametersOfKind(kind, SOURCE);
+  const modelParams = parametersOfKind(kind, MODEL);
+  return { tableOf, instanceOf, readerOf, sourceOf, kind, element, temperatureParam, elementParamStart, elementParams, resistanceParams, sourceParams, modelParams };
+}
+
+/** The indices of the parameters of kind `code`, ascending. */
+function parametersOfKind(kind: Uint8Array, code: number): Int32Array {
+  const list = new Int32Array(countOfKind(kind, code));
+  for (let j = 0, k = 0; j < kind.length; j++) if (kind[j] === code) list[k++] = j;
+  return list;
+}
+
+/** The number of parameters of kind `code` (a loop of its own, so that no code follows it to be given up). */
+function countOfKind(kind: Uint8Array, code: number): number {
+  let count = 0;
+  for (let j = 0; j < kind.length; j++) if (kind[j] === code) count++;
+  return count;
 }
 
 /** Fills each parameter's kind code and element; returns the temperature's index (−1: none). */
@@ -462,45 +487,74 @@ function deviceTemperatureColumns(temperatureParam: number, derivatives: readonl
   });
 }
 
-/** Each resistor's, source's and device parameter's own rows (of the elements in `scope`, all without it). */
+/**
+ * Each resistor's, source's and device parameter's own rows (of the elements in `scope`, all without it), one loop per
+ * kind: one loop over every parameter was compiled by V8 while it ran (on stack replacement) having met only the first
+ * kind's branch, and given up and compiled again at each other kind (3 compilations at 20k elements). The triples of a
+ * row now come kind by kind rather than in parameter order; a parameter's own triples keep their order, and each
+ * parameter's derivative is summed apart from the others' (`DerivativeRows`), so no number changes.
+ */
 function elementColumns(lin: Linearisation, maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], scope: Uint8Array | undefined, cols: Triples): void {
-  const { kind, element, sourceOf, tableOf, instanceOf } = maps;
+  resistanceColumns(lin, maps, scope, cols);
+  sourceColumns(lin, maps, scope, cols);
+  modelColumns(maps, derivatives, params, scope, cols);
+}
+
+/** Each resistance parameter's two KCL rows. */
+function resistanceColumns(lin: Linearisation, maps: ElementMaps, scope: Uint8Array | undefined, cols: Triples): void {
+  const { resistanceParams, element } = maps;
   const els = lin.layout.circuit.elements;
   const x = lin.x;
-  for (let j = 0; j < kind.length; j++) {
+  for (let k = 0; k < resistanceParams.length; k++) {
+    const j = resistanceParams[k];
     const e = element[j];
-    if (kind[j] === TEMPERATURE || (scope && !scope[e])) continue;
-    if (kind[j] === RESISTANCE) {
-      const g = lin.conductanceOf(e);
-      const el = els[e];
-      if (g !== undefined && g !== 0 && el.kind === 'R' && el.resistance > 0) {
-        const a = el.nodes[0] - 1;
-        const b = el.nodes[1] - 1;
-        // F_a gains g·(Va − Vb); g = 1/(R·f) (f: the temperature coefficients' factor), so dg/dR = −g/R.
-        const d = (-g / el.resistance) * (voltageAt(x, a) - voltageAt(x, b));
-        put(cols, j, a, d);
-        put(cols, j, b, -d);
-      }
-    } else if (kind[j] === SOURCE) {
-      const k = sourceOf[e];
-      if (k >= 0) {
-        const hook = lin.layout.sources[k];
-        if (hook.kind === 'V') put(cols, j, hook.rows[0], -1);
-        else {
-          put(cols, j, hook.rows[0], 1);
-          put(cols, j, hook.rows[1], -1);
-        }
-      }
-    } else if (kind[j] === MODEL) {
-      const t = tableOf[e];
-      const td = t >= 0 ? derivatives[t] : undefined;
-      if (!td) continue;
-      const row = rowIn(td, instanceOf[e]);
-      if (row < 0) continue;
-      const col = td.result.residualByParam[td.names.indexOf((params[j] as { param: string }).param)];
-      const first = row * td.T;
-      for (let r = first; r < first + td.T; r++) put(cols, j, td.terminals[r], col[r]);
+    if (scope && !scope[e]) continue;
+    const g = lin.conductanceOf(e);
+    const el = els[e];
+    if (g !== undefined && g !== 0 && el.kind === 'R' && el.resistance > 0) {
+      const a = el.nodes[0] - 1;
+      const b = el.nodes[1] - 1;
+      // F_a gains g·(Va − Vb); g = 1/(R·f) (f: the temperature coefficients' factor), so dg/dR = −g/R.
+      const d = (-g / el.resistance) * (voltageAt(x, a) - voltageAt(x, b));
+      put(cols, j, a, d);
+      put(cols, j, b, -d);
     }
+  }
+}
+
+/** Each source value's rows. */
+function sourceColumns(lin: Linearisation, maps: ElementMaps, scope: Uint8Array | undefined, cols: Triples): void {
+  const { sourceParams, element, sourceOf } = maps;
+  for (let q = 0; q < sourceParams.length; q++) {
+    const j = sourceParams[q];
+    const e = element[j];
+    if (scope && !scope[e]) continue;
+    const k = sourceOf[e];
+    if (k < 0) continue;
+    const hook = lin.layout.sources[k];
+    if (hook.kind === 'V') put(cols, j, hook.rows[0], -1);
+    else {
+      put(cols, j, hook.rows[0], 1);
+      put(cols, j, hook.rows[1], -1);
+    }
+  }
+}
+
+/** Each device model parameter's rows: its instance's column of residual derivatives. */
+function modelColumns(maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[], scope: Uint8Array | undefined, cols: Triples): void {
+  const { modelParams, element, tableOf, instanceOf } = maps;
+  for (let k = 0; k < modelParams.length; k++) {
+    const j = modelParams[k];
+    const e = element[j];
+    if (scope && !scope[e]) continue;
+    const t = tableOf[e];
+    const td = t >= 0 ? derivatives[t] : undefined;
+    if (!td) continue;
+    const row = rowIn(td, instanceOf[e]);
+    if (row < 0) continue;
+    const col = td.result.residualByParam[td.names.indexOf((params[j] as { param: string }).param)];
+    const first = row * td.T;
+    for (let r = first; r < first + td.T; r++) put(cols, j, td.terminals[r], col[r]);
   }
 }
 
@@ -541,7 +595,7 @@ function rowMajor(cols: Triples, n: number): ColumnsByRow {
     const row = cols.rows[c];
     const colParam = cols.params[c];
     const colValue = cols.values[c];
-    const size = Math.min(TRIPLE_CHUNK, count - c * TRIPLE_CHUNK);
+    const size = cols.used(c);
     for (let q = 0; q < size; q++) {
       const at = fill[row[q]]++;
       param[at] = colParam[q];
@@ -555,7 +609,7 @@ function rowMajor(cols: Triples, n: number): ColumnsByRow {
 function countRows(cols: Triples, start: Int32Array): void {
   for (let c = 0; c < cols.rows.length; c++) {
     const row = cols.rows[c];
-    const size = Math.min(TRIPLE_CHUNK, cols.length - c * TRIPLE_CHUNK);
+    const size = cols.used(c);
     for (let q = 0; q < size; q++) start[row[q] + 1]++;
   }
 }
@@ -623,13 +677,7 @@ function adjointRows(
   covered: Uint8Array | undefined,
 ): boolean {
   const temperatureColumn: (Float64Array | undefined)[] = derivatives.map((td) => (td && maps.temperatureParam >= 0 ? td.result.currentByParam[td.names.indexOf(TEMPERATURE_PARAMETER)] : undefined));
-  // Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result.
-  const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
-  for (let j = 0; j < params.length; j++) {
-    const t = maps.kind[j] === MODEL ? maps.tableOf[maps.element[j]] : -1;
-    const td = t >= 0 ? derivatives[t] : undefined;
-    if (td && rowIn(td, maps.instanceOf[maps.element[j]]) >= 0) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
-  }
+  const currentColumn = currentColumns(maps, derivatives, params);
   const terms = new OutputTerms(lin, maps, derivatives, temperatureColumn, currentColumn, rows);
   const lambda: SparseEntries = { index: [], value: [], count: 0 };
   for (let o = 0; o < outputs.length; o++) {
@@ -645,6 +693,23 @@ function adjointRows(
     value[o] = sign * y;
   }
   return true;
+}
+
+/**
+ * Per parameter j of a device: its column of ∂(netlist terminal current)/∂p in its table's result. A function of its
+ * own: as a loop inside `adjointRows` it was compiled by V8 while it ran (on stack replacement) before the code after
+ * it had run, and that code was given up at its first statement (`adjointRows` compiled 3 times at 20k elements).
+ */
+function currentColumns(maps: ElementMaps, derivatives: readonly (TableDerivatives | undefined)[], params: readonly VariedParameter[]): (Float64Array | undefined)[] {
+  const currentColumn: (Float64Array | undefined)[] = new Array(params.length).fill(undefined);
+  const modelParams = maps.modelParams;
+  for (let k = 0; k < modelParams.length; k++) {
+    const j = modelParams[k];
+    const t = maps.tableOf[maps.element[j]];
+    const td = t >= 0 ? derivatives[t] : undefined;
+    if (td && rowIn(td, maps.instanceOf[maps.element[j]]) >= 0) currentColumn[j] = td.result.currentByParam[td.names.indexOf((params[j] as { param: string }).param)];
+  }
+  return currentColumn;
 }
 
 /** Whether every non-zero entry of λ lies in a covered row. */
@@ -863,35 +928,54 @@ export function grownFloat(a: Float64Array, size: number): Float64Array<ArrayBuf
   return b;
 }
 
-/** Entries per chunk of `Triples`. */
+/** Entries per chunk of `Triples`, the first chunk apart. */
 const TRIPLE_CHUNK = 1 << 15;
 
 /**
- * A list of (row, parameter, value) triples in typed arrays of `TRIPLE_CHUNK` entries each, a chunk added when the last
- * is full: nothing is copied or allocated twice. Grown by doubling from 1,024 the arrays were reallocated about ten
- * times at 100k elements (17 MB of typed arrays for 6 MB of entries), and typed arrays allocated fast start collections
- * of the whole heap.
+ * Entries of the first chunk of `Triples`. Small, so that the second chunk is added while the list is still short:
+ * V8 gives a function its table of type feedback only after its first calls, so the chunk added at the first push was
+ * never recorded, and the code compiled for the loops that push (on stack replacement, `push` inlined) was given up at
+ * the next chunk, 32,768 entries later (`elementColumns` at 20k elements). A chunk added at the 64th push is recorded.
+ */
+const FIRST_TRIPLE_CHUNK = 64;
+
+/**
+ * A list of (row, parameter, value) triples in typed arrays of `TRIPLE_CHUNK` entries each (the first of
+ * `FIRST_TRIPLE_CHUNK`), a chunk added when the last is full: nothing is copied or allocated twice. Grown by doubling
+ * from 1,024 the arrays were reallocated about ten times at 100k elements (17 MB of typed arrays for 6 MB of entries),
+ * and typed arrays allocated fast start collections of the whole heap.
  */
 class Triples {
   readonly rows: Int32Array[] = [];
   readonly params: Int32Array[] = [];
   readonly values: Float64Array[] = [];
   length = 0;
+  /** Entries used in the last chunk, and its size. */
+  private at = 0;
+  private room = 0;
 
   push(row: number, param: number, value: number): void {
-    const at = this.length & (TRIPLE_CHUNK - 1);
-    if (at === 0) this.addChunk();
+    if (this.at === this.room) this.addChunk();
     const c = this.rows.length - 1;
+    const at = this.at++;
     this.rows[c][at] = row;
     this.params[c][at] = param;
     this.values[c][at] = value;
     this.length++;
   }
 
+  /** Entries used in chunk c (one expression, no branch: a branch taken at the last chunk only was given up there). */
+  used(c: number): number {
+    return Math.min(this.rows[c].length, this.length - Math.max(0, FIRST_TRIPLE_CHUNK + (c - 1) * TRIPLE_CHUNK));
+  }
+
   private addChunk(): void {
-    this.rows.push(new Int32Array(TRIPLE_CHUNK));
-    this.params.push(new Int32Array(TRIPLE_CHUNK));
-    this.values.push(new Float64Array(TRIPLE_CHUNK));
+    const size = this.rows.length === 0 ? FIRST_TRIPLE_CHUNK : TRIPLE_CHUNK;
+    this.rows.push(new Int32Array(size));
+    this.params.push(new Int32Array(size));
+    this.values.push(new Float64Array(size));
+    this.at = 0;
+    this.room = size;
   }
 }
 
