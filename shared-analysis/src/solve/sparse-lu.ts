@@ -562,10 +562,8 @@ export class SparseLU implements LinearSolver {
   /** Numeric refactorisation on the recorded pivots and patterns; false asks for a pivoting one. */
   private refactor(): boolean {
     const n = this.n;
-    const { aStart, aVal, q, aPos, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const { aStart, aVal, q, aPos } = this;
     const x = this.work;
-    const tol = this.refactorThreshold;
-    const sing = this.singularTolerance;
     for (let k = 0; k < n; k++) {
       const j = q[k];
       let scale = 0;
@@ -575,38 +573,51 @@ export class SparseLU implements LinearSolver {
         const a = v < 0 ? -v : v;
         if (a > scale) scale = a;
       }
-      // U entries are stored in an order where each row's value is final before it is used.
-      for (let p = uStart[k]; p < uStart[k + 1]; p++) {
-        const r = uRow[p];
-        const xr = x[r];
-        x[r] = 0;
-        uVal[p] = xr;
-        if (xr === 0) continue;
-        const a = xr < 0 ? -xr : xr;
-        if (a > scale) scale = a;
-        for (let t = lStart[r]; t < lStart[r + 1]; t++) x[lRow[t]] -= lVal[t] * xr;
-      }
-      const piv = x[k];
-      x[k] = 0;
-      let amax = 0;
-      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
-        const v = x[lRow[t]];
-        const a = v < 0 ? -v : v;
-        if (a > amax) amax = a;
-      }
-      const ap = piv < 0 ? -piv : piv;
-      if (ap > scale) scale = ap;
-      if (!(ap > sing * scale) || ap < tol * amax) {
-        for (let t = lStart[k]; t < lStart[k + 1]; t++) x[lRow[t]] = 0;
-        return false;
-      }
-      uDiag[k] = piv;
-      const inv = 1 / piv;
-      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
-        const r = lRow[t];
-        lVal[t] = x[r] * inv;
-        x[r] = 0;
-      }
+      if (!this.eliminateColumn(k, scale)) return false;
+    }
+    return true;
+  }
+
+  /**
+   * The rest of column k of a refactorisation, once its entries of A are loaded into the work vector (`scale` the
+   * largest of their magnitudes): the U entries on the recorded pattern, the pivot check, and the L entries. False,
+   * with the work vector cleared, when the pivot is refused (under the singularity tolerance of the column's
+   * magnitudes, or under the refactorisation threshold of the largest entry below it).
+   */
+  private eliminateColumn(k: number, scale: number): boolean {
+    const { lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const x = this.work;
+    // U entries are stored in an order where each row's value is final before it is used.
+    for (let p = uStart[k]; p < uStart[k + 1]; p++) {
+      const r = uRow[p];
+      const xr = x[r];
+      x[r] = 0;
+      uVal[p] = xr;
+      if (xr === 0) continue;
+      const a = xr < 0 ? -xr : xr;
+      if (a > scale) scale = a;
+      for (let t = lStart[r]; t < lStart[r + 1]; t++) x[lRow[t]] -= lVal[t] * xr;
+    }
+    const piv = x[k];
+    x[k] = 0;
+    let amax = 0;
+    for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+      const v = x[lRow[t]];
+      const a = v < 0 ? -v : v;
+      if (a > amax) amax = a;
+    }
+    const ap = piv < 0 ? -piv : piv;
+    if (ap > scale) scale = ap;
+    if (!(ap > this.singularTolerance * scale) || ap < this.refactorThreshold * amax) {
+      for (let t = lStart[k]; t < lStart[k + 1]; t++) x[lRow[t]] = 0;
+      return false;
+    }
+    uDiag[k] = piv;
+    const inv = 1 / piv;
+    for (let t = lStart[k]; t < lStart[k + 1]; t++) {
+      const r = lRow[t];
+      lVal[t] = x[r] * inv;
+      x[r] = 0;
     }
     return true;
   }
@@ -620,10 +631,8 @@ export class SparseLU implements LinearSolver {
    */
   private refactorScaled(values: Float64Array, rowScale: Float64Array, colScale: Float64Array, entryAt: Int32Array): number {
     const n = this.n;
-    const { aStart, aRow, q, aPos, lStart, lRow, lVal, uStart, uRow, uVal, uDiag } = this;
+    const { aStart, aRow, q, aPos } = this;
     const x = this.work;
-    const tol = this.refactorThreshold;
-    const sing = this.singularTolerance;
     for (let k = 0; k < n; k++) {
       const j = q[k];
       const cj = colScale[j];
@@ -639,37 +648,7 @@ export class SparseLU implements LinearSolver {
         const a = v < 0 ? -v : v;
         if (a > scale) scale = a;
       }
-      for (let p = uStart[k]; p < uStart[k + 1]; p++) {
-        const r = uRow[p];
-        const xr = x[r];
-        x[r] = 0;
-        uVal[p] = xr;
-        if (xr === 0) continue;
-        const a = xr < 0 ? -xr : xr;
-        if (a > scale) scale = a;
-        for (let t = lStart[r]; t < lStart[r + 1]; t++) x[lRow[t]] -= lVal[t] * xr;
-      }
-      const piv = x[k];
-      x[k] = 0;
-      let amax = 0;
-      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
-        const v = x[lRow[t]];
-        const a = v < 0 ? -v : v;
-        if (a > amax) amax = a;
-      }
-      const ap = piv < 0 ? -piv : piv;
-      if (ap > scale) scale = ap;
-      if (!(ap > sing * scale) || ap < tol * amax) {
-        for (let t = lStart[k]; t < lStart[k + 1]; t++) x[lRow[t]] = 0;
-        return REFACTOR_SMALL_PIVOT;
-      }
-      uDiag[k] = piv;
-      const inv = 1 / piv;
-      for (let t = lStart[k]; t < lStart[k + 1]; t++) {
-        const r = lRow[t];
-        lVal[t] = x[r] * inv;
-        x[r] = 0;
-      }
+      if (!this.eliminateColumn(k, scale)) return REFACTOR_SMALL_PIVOT;
     }
     return REFACTOR_DONE;
   }
