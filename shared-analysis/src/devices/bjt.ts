@@ -3,7 +3,7 @@
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
-import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
+import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsOverwritten, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
 import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, sameNumber, thermalVoltage, unbounded } from './physics';
@@ -587,6 +587,11 @@ export class BjtTable implements DeviceTable {
   }
 
   prepare(c: DeviceConditions): void {
+    // The rows are a function of the conditions and of the nominal columns, which only the constructor writes: under the
+    // conditions of the last preparation they hold what this loop would write again (a corner that moves only the supply
+    // from the corner before it).
+    const last = this.preparedFor;
+    if (this.prepared && sameNumber(c.temperatureC, last.temperatureC) && sameNumber(c.tnomC, last.tnomC) && sameNumber(c.vt, last.vt) && sameNumber(c.betaScale, last.betaScale) && sameNumber(c.junctionGmin, last.junctionGmin)) return;
     this.vt = c.vt;
     this.tnomC = c.tnomC;
     const par = this.par;
@@ -636,7 +641,16 @@ export class BjtTable implements DeviceTable {
       this.vcritBe[i] = vcritBe;
       this.vcritBc[i] = vcritBc;
     }
+    last.temperatureC = c.temperatureC;
+    last.tnomC = c.tnomC;
+    last.vt = c.vt;
+    last.betaScale = c.betaScale;
+    last.junctionGmin = c.junctionGmin;
+    this.prepared = true;
   }
+  /** The conditions the parameter rows were last prepared for (compared bit for bit: +0 is not −0), once `prepared`. */
+  private readonly preparedFor = new SolveConditions(NaN, NaN, NaN, NaN, NaN);
+  private prepared = false;
 
   /** Intrinsic VBE and VBC of instance i at x, own polarity, into `out[0]`, `out[1]`. */
   private intrinsic(x: Float64Array, i: number, out: Float64Array): void {
@@ -776,7 +790,8 @@ export class BjtTable implements DeviceTable {
   }
 
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns {
-    const out = columnsFor(into, QUANTITIES.length, this.n);
+    // Every value, region and flag of every instance is written below: reused columns are not cleared first.
+    const out = columnsOverwritten(into, QUANTITIES.length, this.n);
     // Every column, the parameter rows and the terminals in locals: bjtCore is not inlined, so a field read
     // after it in the loop would be read again from the object for every instance.
     const v = out.values;
@@ -819,7 +834,7 @@ export class BjtTable implements DeviceTable {
       betaCol[i] = Number.isFinite(beta) ? Math.max(-UNBOUNDED, Math.min(UNBOUNDED, beta)) : unbounded();
       gmuCol[i] = Math.max(ev[DIB_DVBC] - gmin, 0);
       regionCol[i] = region;
-      if (noEarly) flags[i] = NO_EARLY;
+      flags[i] = noEarly ? NO_EARLY : 0;
     }
     return out;
   }

@@ -984,6 +984,8 @@ export class DcSolver {
         out.push(this.elementFinding('dc-junction-shorted', 'warning', `Both ends of the ${junction} of ${el.name} are node ${c.nodes[a]}, so that junction can never be biased.`, devIdx));
         return;
       }
+      // Without a short there is nothing to look up: a key made per junction (two a BJT) was most of this check's time.
+      if (shorts.size === 0) return;
       const s = shorts.get(a < b ? `${a},${b}` : `${b},${a}`);
       if (s === undefined) return;
       const sh = c.elements[s];

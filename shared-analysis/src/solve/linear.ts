@@ -32,6 +32,11 @@ export interface LinearSolver {
   /** `factor` of R·A·C for the diagonal scales R = `rowScale`, C = `colScale`, with no scaled copy of `values` made (see SparseLU). */
   factorScaled?(values: Float64Array, rowScale: Float64Array, colScale: Float64Array): FactorResult;
   solve(b: Float64Array, x?: Float64Array): Float64Array;
+  /**
+   * x = C·(R·A·C)⁻¹·R·b on the factors of the last `factorScaled` (see SparseLU), each product the one a scaled copy of
+   * b and a scaling of the result would make; `x` may not be `b`.
+   */
+  solveScaled?(b: Float64Array, rowScale: Float64Array, colScale: Float64Array, x: Float64Array): void;
   /** Returns x with Aᵀ·x = b for the last successful factor (the adjoint solve of sensitivity analysis); zeros after a failed one. */
   solveTranspose(b: Float64Array, x?: Float64Array): Float64Array;
   /** Aᵀ·x = b for a sparse b; the non-zero entries of x go to `out` (see SparseLU). `x` is an all-zero work vector of length n, left all zeros. */

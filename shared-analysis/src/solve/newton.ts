@@ -265,6 +265,11 @@ export class NewtonEngine {
 
   /** Solves A·x = rhs with the equilibrated factors: x = C·(RAC)⁻¹·R·rhs. */
   private solveScaled(x: Float64Array): void {
+    // A solver that applies the scales in its own permutation passes is handed them (SparseLU: the same products).
+    if (this.solver.solveScaled) {
+      this.solver.solveScaled(this.rhs, this.rowScale, this.colScale, x);
+      return;
+    }
     // The loops are functions of their own: a loop long enough to be compiled while it runs left code
     // after it that had never run, which gave up its compiled code at every call (two a Newton iteration).
     multiplyInto(this.scaledRhs, this.rhs, this.rowScale);

@@ -393,6 +393,25 @@ export class SparseLU implements LinearSolver {
   }
 
   /**
+   * `solve` of the equilibrated system: x = C·S⁻¹·(R·b) for S = R·A·C, the matrix of the last `factorScaled` with these
+   * scales. The scales are applied in the row and column permutations themselves, y[k] = b[i]·R[i] for i = P(k) and
+   * x[j] = y[k]·C[j] for j = Q(k), the very products a scaled copy of b and a scaled result would hold; the work vector is
+   * cleared in the same pass. Two passes over the unknowns instead of five in every Newton iteration. `x` may not be `b`.
+   */
+  solveScaled(b: Float64Array, rowScale: Float64Array, colScale: Float64Array, x: Float64Array): void {
+    const n = this.n;
+    if (!this.valid) {
+      x.fill(0);
+      return;
+    }
+    const y = this.work;
+    gatherScaledRows(y, b, rowScale, this.rowOf, n);
+    forwardSubstitute(y, this.lStart, this.lRow, this.lVal, n);
+    backSubstitute(y, this.uStart, this.uRow, this.uVal, this.uDiag, n);
+    scatterScaledColumns(x, y, colScale, this.q, n);
+  }
+
+  /**
    * Solves Aᵀ·x = b with the last successful factorisation (P·A·Q = L·U, so
    * Aᵀ = Q·Uᵀ·Lᵀ·P): the adjoint solve of sensitivity analysis, on the same factors and
    * without allocating when `x` is given (it may be `b`). After a failed `factor`, returns zeros.
@@ -835,6 +854,23 @@ function storePlain(aVal: Float64Array, values: Float64Array, entryAt: Int32Arra
 /** y[k] = b[rowOf[k]] (0 past the end of b), for k < n: the row permutation of `SparseLU.solve`. */
 function gatherRows(y: Float64Array, b: Float64Array, rowOf: Int32Array, n: number): void {
   for (let k = 0; k < n; k++) y[k] = b[rowOf[k]] ?? 0;
+}
+
+/** y[k] = b[i]·rowScale[i] for i = rowOf[k] (0 past the end of b), for k < n: `gatherRows` of the row-scaled b. */
+function gatherScaledRows(y: Float64Array, b: Float64Array, rowScale: Float64Array, rowOf: Int32Array, n: number): void {
+  for (let k = 0; k < n; k++) {
+    const i = rowOf[k];
+    y[k] = i < b.length ? b[i] * rowScale[i] : 0;
+  }
+}
+
+/** x[j] = y[k]·colScale[j] for j = q[k], and y[k] = 0, for k < n: `scatterColumns` of the column-scaled result, the work vector cleared. */
+function scatterScaledColumns(x: Float64Array, y: Float64Array, colScale: Float64Array, q: Int32Array, n: number): void {
+  for (let k = 0; k < n; k++) {
+    const j = q[k];
+    x[j] = y[k] * colScale[j];
+    y[k] = 0;
+  }
 }
 
 /** Solves L·z = y in place (unit lower triangle by columns). */
