@@ -210,6 +210,8 @@ export class MnaLayout {
   private linearList: Float64Array;
   /** Unknown -> the label of an internal node (`Q1 collector`). */
   private readonly internalLabels = new Map<number, string>();
+  /** Whether `nodeDiagonals` holds every node's diagonal position (see `entry`). */
+  private diagonalsKnown = false;
   private unknownList: UnknownInfo[] | undefined;
   /** `bindDevice`'s scratch: per terminal, the first terminal on the same unknown. */
   private firstTerminal = new Int32Array(8);
@@ -240,6 +242,7 @@ export class MnaLayout {
     // Node diagonals are always in the pattern so shunts can be added without changing it.
     this.nodeDiagonals = new Int32Array(nodeCount - 1);
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
+    this.diagonalsKnown = true;
     const builders = this.stampElements(internalOf);
     this.pattern = { n: this.size, rows: this.rowsList.toArray(), cols: this.colsList.toArray() };
     // A view, not a copy (see `Int32List.toArray`): the list is not written after this but through `linearValues`.
@@ -628,6 +631,9 @@ export class MnaLayout {
   /** Pattern position of (row, col), registering it on first use; −1 when either is ground. */
   private entry(row: number, col: number): number {
     if (row < 0 || col < 0) return -1;
+    // A node's diagonal is registered first of all: its position is read, not looked up (two of a resistor's four
+    // entries, and a rail's diagonal once for every element on the rail).
+    if (row === col && this.diagonalsKnown && row < this.nodeDiagonals.length) return this.nodeDiagonals[row];
     let p = this.entries.get(row, col);
     if (p < 0) {
       p = this.rowsList.length;
