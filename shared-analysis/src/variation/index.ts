@@ -11,7 +11,7 @@ import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, type SourceList, type SourceSettings, type ToleranceSource } from './sources';
+import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, structureDevices, type SourceList, type SourceSettings, type StructureDevices, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -112,11 +112,13 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
   const t0 = performance.now();
   const { circuit, structures, solver, nominal } = ctx;
   if (!nominal.op.converged) return undefined;
-  const specs = outputsOfStructures(circuit, structures, reuse?.last);
+  // The structures' devices as element indices, looked up once for the outputs and the mismatch sources when either is made.
+  const devices = new DevicesOnce(circuit, structures);
+  const specs = outputsOfStructures(circuit, structures, reuse?.last, devices);
   const structureSpecs = specs.length;
   const targetOf = ctx.targets.length > 0 ? addTargetOutputs(circuit, structures, ctx.targets, ctx.defaultTargetTolerance, specs) : new Map<string, TargetWindow>();
   if (specs.length === 0) return undefined;
-  const sourceList = sourcesOf(ctx, reuse);
+  const sourceList = sourcesOf(ctx, reuse, devices);
   const sources = sourceList.sources;
   const kept = reuse ? keptOutputs(reuse, specs, sourceList, (spec) => targetWindowOf(targetOf, spec)) : undefined;
   const fresh = freshOutputs(specs.length, kept);
@@ -145,22 +147,36 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
  * same ids and device lists: a value edit does not recognise the structures again, so every name an output reads is
  * kept); else made (`structureOutputs`).
  */
-function outputsOfStructures(circuit: Circuit, structures: readonly Structure[], last: SpreadRecord | undefined): OutputSpec[] {
+function outputsOfStructures(circuit: Circuit, structures: readonly Structure[], last: SpreadRecord | undefined, devices: DevicesOnce): OutputSpec[] {
   if (last && madeFromStructures(last.sourceList, structures)) return last.specs.slice(0, last.structureSpecs);
-  return structureOutputs(circuit, structures);
+  return structureOutputs(circuit, structures, devices.get());
+}
+
+/** The structures' devices as element indices (`structureDevices`), made on first ask. */
+class DevicesOnce {
+  private made: StructureDevices | undefined = undefined;
+
+  constructor(
+    private readonly circuit: Circuit,
+    private readonly structures: readonly Structure[],
+  ) {}
+
+  get(): StructureDevices {
+    return (this.made ??= structureDevices(this.circuit, this.structures));
+  }
 }
 
 /**
  * The tolerance sources: after a value edit patched from the last analysis's (`patchedSources`: the edited elements' and
- * those whose written tolerance changed made again), with the group index followed; else made afresh.
+ * those whose written tolerance changed made again), with the σ and bound columns followed; else made afresh.
  */
-function sourcesOf(ctx: VariationContext, reuse: SpreadReuse | undefined): SourceList {
+function sourcesOf(ctx: VariationContext, reuse: SpreadReuse | undefined, devices: DevicesOnce): SourceList {
   const tolerances = readCardTolerances(ctx.documents);
   const temperatureC = ctx.nominal.op.temperatureC;
   const last = reuse?.last.sourceList;
   const patched = last ? patchedSources(last, ctx.circuit, ctx.structures, tolerances, ctx.settings, temperatureC, reuse!.changed) : undefined;
-  if (!patched) return sourceListOf(ctx.circuit, ctx.structures, tolerances, ctx.settings, temperatureC);
-  followGroupIndex(last!.sources, patched);
+  if (!patched) return sourceListOf(ctx.circuit, ctx.structures, tolerances, ctx.settings, temperatureC, devices.get());
+  followSourceFigures(last!.sources, patched);
   return patched;
 }
 
@@ -473,7 +489,10 @@ const LAZY_SOURCES: PropertyDescriptor = {
 class OutputRecords {
   private readonly supplyOfParam: Int32Array;
   private readonly supplySlope: Float64Array;
-  private readonly groups: GroupIndex;
+  private readonly figures: SourceFigures;
+  /** Whether both lists of output `listsFiniteOf` (the last `of` made) have only finite figures. */
+  private listsFinite = true;
+  private listsFiniteOf = -1;
 
   constructor(
     private readonly sens: SensitivityResult,
@@ -486,7 +505,7 @@ class OutputRecords {
     this.supplyOfParam = new Int32Array(varied.params.list.length).fill(-1);
     varied.supplies.forEach((s, k) => (this.supplyOfParam[s.j] = k));
     this.supplySlope = new Float64Array(varied.supplies.length);
-    this.groups = groupIndexOf(sources);
+    this.figures = sourceFiguresOf(sources);
   }
 
   of(spec: OutputSpec, o: number): OutputVariation {
@@ -500,7 +519,7 @@ class OutputRecords {
       if (j === this.varied.temperature) tempco = sens.derivative[q];
       if (supplyOfParam[j] >= 0) supplySlope[supplyOfParam[j]] = sens.derivative[q];
     }
-    spreadOfRange(this.sources, this.groups, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
+    spreadOfRange(this.sources, this.figures, bySource.index, bySource.value, bySource.start[o], bySource.start[o + 1], undefined);
     const { sigma, worstCase } = KEPT;
     const supplyPercentPerVolt = supplyTable();
     const supplies = this.varied.supplies;
@@ -509,7 +528,8 @@ class OutputRecords {
     const out = recordOf(spec, y, sigma, worstCase, (tempco / scale) * 1e6, scale, supplyPercentPerVolt);
     this.lists.contributors.add(o);
     this.lists.top.add(o, scale);
-    this.lists.attach(out, o);
+    this.listsFinite = this.lists.attach(out, o);
+    this.listsFiniteOf = o;
     if (target) {
       const lo = target.current * (1 - target.tolerance);
       const hi = target.current * (1 + target.tolerance);
@@ -526,7 +546,8 @@ class OutputRecords {
     // The supply table holds one figure per supply name, and nothing else.
     const supplies = this.varied.supplies;
     for (let k = 0; k < supplies.length; k++) if (!Number.isFinite(out.supplyPercentPerVolt[supplies[k].name])) return false;
-    return this.lists.contributors.finite(o) && this.lists.top.finite(o);
+    // `of` found it for the output it just made (each list's figures tested once per output, not twice).
+    return this.listsFiniteOf === o ? this.listsFinite : this.lists.contributors.finite(o) && this.lists.top.finite(o);
   }
 }
 
@@ -733,9 +754,9 @@ class OutputLists {
   /**
    * Gives `out` output o's lists as `contributors` and `sensitivities`, in that order: each built on
    * first read, unless one of its figures is not finite (then now, so the finiteness walk removes it
-   * as from any record).
+   * as from any record). Returns whether both lists' figures are all finite.
    */
-  attach(out: OutputVariation, o: number): void {
+  attach(out: OutputVariation, o: number): boolean {
     const contributorsLater = this.contributors.finite(o);
     const sensitivitiesLater = this.top.finite(o);
     if (contributorsLater || sensitivitiesLater) {
@@ -748,6 +769,7 @@ class OutputLists {
     else out.contributors = this.contributors.madeOf(o);
     if (sensitivitiesLater) Object.defineProperty(out, 'sensitivities', LAZY_SENSITIVITIES);
     else out.sensitivities = this.top.listOf(o);
+    return contributorsLater && sensitivitiesLater;
   }
 }
 
@@ -965,32 +987,27 @@ const LAZY_SENSITIVITIES: PropertyDescriptor = {
 };
 
 /**
- * The group of each source as a number (sources of one group are summed when ranked), built once
- * per list of sources, with the names of mismatch groups kept once made (a name lists the devices
- * that matter, mostly all of the group's or one).
+ * What ranking reads of each source of a list, built once per list: its σ and worst-case bound as columns (a row's
+ * spread reads them for every entry), and the name a mismatch source ranks under when it alone of its group matters
+ * (`Q1 VBE`, made on first use).
+ *
+ * Sources of one group (the same `group` name) are summed when an output is ranked, and only within that output's row:
+ * the groups are told apart among the row's few entries (`spreadOfRange`), by name. A numbering of every group of the list
+ * by name (a `Map` of about 100,000 names at 100,000 elements, the spread's largest cost) is not needed for that.
  */
-interface GroupIndex {
-  of: Int32Array;
-  names: string[];
-  aspects: (string | undefined)[];
-  /** Sources per group. */
-  size: Int32Array;
-  /** A mismatch group's name when all its devices matter (made on first use). */
-  allName: (string | undefined)[];
-  /** A mismatch source's name when it alone matters in its group (made on first use). */
-  aloneName: (string | undefined)[];
-  /** Each source's σ and worst-case bound, as columns (a row's spread reads them for every entry). */
+interface SourceFigures {
   sigma: Float64Array;
   bound: Float64Array;
+  aloneName: (string | undefined)[];
 }
-const groupIndexes = new WeakMap<readonly ToleranceSource[], GroupIndex>();
+const sourceFigures = new WeakMap<readonly ToleranceSource[], SourceFigures>();
 
 /**
- * The group index of a list patched from `from` (`SourceList.changed`), when `from` has one: the same groups and names
- * (a patched source keeps its group), the σ and bound columns read again where a source changed.
+ * The figures of a list patched from `from` (`SourceList.changed`), when `from` has them: the σ and bound columns read
+ * again where a source changed (a patched source keeps its element and aspect, so the names made stay right).
  */
-function followGroupIndex(from: readonly ToleranceSource[], list: SourceList): void {
-  const last = groupIndexes.get(from);
+function followSourceFigures(from: readonly ToleranceSource[], list: SourceList): void {
+  const last = sourceFigures.get(from);
   const changed = list.changed;
   if (!last || !changed) return;
   const sigma = last.sigma.slice();
@@ -1000,86 +1017,71 @@ function followGroupIndex(from: readonly ToleranceSource[], list: SourceList): v
     sigma[k] = list.sources[k].sigma;
     bound[k] = list.sources[k].bound;
   }
-  groupIndexes.set(list.sources, { ...last, sigma, bound });
+  sourceFigures.set(list.sources, { sigma, bound, aloneName: last.aloneName });
 }
 
-function groupIndexOf(sources: readonly ToleranceSource[]): GroupIndex {
-  let g = groupIndexes.get(sources);
-  if (g) return g;
+function sourceFiguresOf(sources: readonly ToleranceSource[]): SourceFigures {
+  let f = sourceFigures.get(sources);
+  if (f) return f;
   const count = sources.length;
-  const columns = groupColumns(sources);
-  const size = new Int32Array(columns.names.length);
-  countGroups(columns.of, size);
-  g = { ...columns, size, allName: new Array(columns.names.length).fill(undefined), aloneName: new Array(count).fill(undefined) };
-  groupIndexes.set(sources, g);
-  return g;
-}
-
-/** Each source's group number, the groups' names and aspects, and each source's σ and bound as columns (plain loops: `Float64Array.from` with a mapping function goes through the iterator protocol per item). */
-function groupColumns(sources: readonly ToleranceSource[]): Pick<GroupIndex, 'of' | 'names' | 'aspects' | 'sigma' | 'bound'> {
-  const byName = new Map<string, number>();
-  const count = sources.length;
-  const of = new Int32Array(count);
-  const names: string[] = [];
-  const aspects: (string | undefined)[] = [];
   const sigma = new Float64Array(count);
   const bound = new Float64Array(count);
-  for (let k = 0; k < count; k++) {
+  sourceColumnsInto(sources, sigma, bound);
+  f = { sigma, bound, aloneName: new Array(count).fill(undefined) };
+  sourceFigures.set(sources, f);
+  return f;
+}
+
+/** Each source's σ and bound into the columns (a plain loop: `Float64Array.from` with a mapping function goes through the iterator protocol per item). */
+function sourceColumnsInto(sources: readonly ToleranceSource[], sigma: Float64Array, bound: Float64Array): void {
+  for (let k = 0; k < sources.length; k++) {
     const s = sources[k];
-    let i = byName.get(s.group);
-    if (i === undefined) {
-      byName.set(s.group, (i = names.length));
-      names.push(s.group);
-      aspects.push(s.aspect);
-    }
-    of[k] = i;
     sigma[k] = s.sigma;
     bound[k] = s.bound;
   }
-  return { of, names, aspects, sigma, bound };
-}
-
-/** Sources per group. */
-function countGroups(of: Int32Array, size: Int32Array): void {
-  for (let k = 0; k < of.length; k++) size[of[k]]++;
 }
 
 /** Source k's σ, the override's when there is one. */
-function sigmaOf(groups: GroupIndex, k: number, sigmaOverride: ((k: number) => number) | undefined): number {
-  return sigmaOverride === undefined ? groups.sigma[k] : sigmaOverride(k);
+function sigmaOf(figures: SourceFigures, k: number, sigmaOverride: ((k: number) => number) | undefined): number {
+  return sigmaOverride === undefined ? figures.sigma[k] : sigmaOverride(k);
 }
 
-/** Whether row entry q belongs to group g and carries at least 1 % of its variance `v`. */
-function matters(groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, q: number, sigmaOverride: ((k: number) => number) | undefined): boolean {
-  const k = index[q];
-  if (groups.of[k] !== g) return false;
-  const a = Math.abs(value[q] * sigmaOf(groups, k, sigmaOverride));
+/** Whether row entry q (of a row starting at `from`) belongs to the call's group g and carries at least 1 % of its variance `v`. */
+function matters(figures: SourceFigures, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, q: number, sigmaOverride: ((k: number) => number) | undefined): boolean {
+  if (entryGroup[q - from] !== g) return false;
+  const a = Math.abs(value[q] * sigmaOf(figures, index[q], sigmaOverride));
   return a * a >= 0.01 * v;
 }
 
-/** A mismatch group's ranked name: the devices that carry at least 1 % of its variance `v` in this row, then the parameter (`Q1/Q2 VBE`). */
-function mismatchName(sources: readonly ToleranceSource[], groups: GroupIndex, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, to: number, sigmaOverride: ((k: number) => number) | undefined): string {
+/** A mismatch group's ranked name: the devices that carry at least 1 % of its variance `v` in this row, in row order, then the parameter (`Q1/Q2 VBE`). */
+function mismatchName(sources: readonly ToleranceSource[], figures: SourceFigures, g: number, v: number, index: ArrayLike<number>, value: ArrayLike<number>, from: number, to: number, sigmaOverride: ((k: number) => number) | undefined): string {
   let count = 0;
   let last = -1;
   for (let q = from; q < to; q++) {
-    if (!matters(groups, g, v, index, value, q, sigmaOverride)) continue;
+    if (!matters(figures, g, v, index, value, from, q, sigmaOverride)) continue;
     count++;
     last = index[q];
   }
-  if (count === 1 && groups.aloneName[last] !== undefined) return groups.aloneName[last]!;
-  if (count === groups.size[g] && groups.allName[g] !== undefined) return groups.allName[g]!;
+  if (count === 1 && figures.aloneName[last] !== undefined) return figures.aloneName[last]!;
   let members = '';
-  for (let q = from; q < to; q++) if (matters(groups, g, v, index, value, q, sigmaOverride)) members = members ? `${members}/${sources[index[q]].element}` : sources[index[q]].element;
-  const name = `${members} ${groups.aspects[g]}`;
-  if (count === 1) groups.aloneName[last] = name;
-  else if (count === groups.size[g]) groups.allName[g] = name;
+  for (let q = from; q < to; q++) if (matters(figures, g, v, index, value, from, q, sigmaOverride)) members = members ? `${members}/${sources[index[q]].element}` : sources[index[q]].element;
+  const name = `${members} ${groupAspect[g]}`;
+  if (count === 1) figures.aloneName[last] = name;
   return name;
 }
 
-/** Per-group sums of one call and the list of groups it touched, kept between calls (reset after use). */
+/**
+ * The groups of one call, numbered in the order the row first meets them: each entry's group, each group's name
+ * (its first source's), aspect, variance and worst case; kept between calls. A row of more than `SHORT_ROW` entries
+ * finds a name's group through `rowGroupOf` (emptied after the call), a shorter one by comparing with the few so far.
+ */
+let entryGroup = new Int32Array(64);
 let groupVariance = new Float64Array(64);
 let groupWorst = new Float64Array(64);
-let groupTouched = new Int32Array(64);
+const groupName: string[] = [];
+const groupAspect: (string | undefined)[] = [];
+const rowGroupOf = new Map<string, number>();
+const SHORT_ROW = 16;
 
 /**
  * The ranking of one call: group, rank and name of each contributor in order, in scratch kept between
@@ -1100,7 +1102,7 @@ const KEPT = { sigma: 0, worstCase: 0, count: 0, shares: new Float64Array(MAX_CO
 
 /** Worst case, σ and the contributors ranked by variance (the 8 largest), summed within each group, for one output's derivatives with respect to its sources. */
 export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, sigmaOverride?: (k: number) => number): { sigma: number; worstCase: number; contributors: Contribution[] } {
-  spreadOfRange(sources, groupIndexOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
+  spreadOfRange(sources, sourceFiguresOf(sources), per.index, per.value, 0, per.index.length, sigmaOverride);
   const contributors: Contribution[] = new Array(KEPT.count);
   for (let c = 0; c < KEPT.count; c++) contributors[c] = { name: rankedName[c], share: KEPT.shares[c], sigma: KEPT.sigmas[c], worstCase: KEPT.worsts[c] };
   return { sigma: KEPT.sigma, worstCase: KEPT.worstCase, contributors };
@@ -1109,52 +1111,58 @@ export function spreadOf(sources: readonly ToleranceSource[], per: SourceRow, si
 /** `spreadOf` over entries `from … to − 1` of a row's arrays, into `KEPT`. */
 function spreadOfRange(
   sources: readonly ToleranceSource[],
-  groups: GroupIndex,
+  figures: SourceFigures,
   index: ArrayLike<number>,
   value: ArrayLike<number>,
   from: number,
   to: number,
   sigmaOverride: ((k: number) => number) | undefined,
 ): void {
-  // Sized for the list's groups (kept for the next call): a list's every call needs the same size.
-  if (groupVariance.length < groups.names.length) {
-    groupVariance = new Float64Array(groups.names.length);
-    groupWorst = new Float64Array(groups.names.length);
-    groupTouched = new Int32Array(groups.names.length);
+  // Sized for the longest row so far (kept for the next call).
+  if (entryGroup.length < to - from) {
+    entryGroup = new Int32Array(2 * (to - from));
+    groupVariance = new Float64Array(2 * (to - from));
+    groupWorst = new Float64Array(2 * (to - from));
   }
-  const sigmas = groups.sigma;
-  const bounds = groups.bound;
-  let touched = 0;
+  const sigmas = figures.sigma;
+  const bounds = figures.bound;
+  const long = to - from > SHORT_ROW;
+  let groups = 0;
   let variance = 0;
   let worstCase = 0;
   for (let q = from; q < to; q++) {
     const k = index[q];
-    const sigma = sigmaOf(groups, k, sigmaOverride);
+    const sigma = sigmaOf(figures, k, sigmaOverride);
     const bound = sigmaOverride === undefined ? bounds[k] : (bounds[k] / sigmas[k]) * sigma;
     const a = Math.abs(value[q] * sigma);
     const w = Math.abs(value[q] * bound);
     variance += a * a;
     worstCase += w;
-    const g = groups.of[k];
-    if (groupVariance[g] === 0 && groupWorst[g] === 0 && !groupListed(touched, g)) groupTouched[touched++] = g;
+    const name = sources[k].group;
+    let g = long ? (rowGroupOf.get(name) ?? -1) : shortGroupOf(name, groups);
+    if (g < 0) {
+      g = groups++;
+      groupName[g] = name;
+      groupAspect[g] = sources[k].aspect;
+      groupVariance[g] = 0;
+      groupWorst[g] = 0;
+      if (long) rowGroupOf.set(name, g);
+    }
+    entryGroup[q - from] = g;
     groupVariance[g] += a * a;
     groupWorst[g] += w;
   }
-  if (rankedGroup.length < touched) {
-    rankedGroup = new Int32Array(touched * 2);
-    rankedRank = new Float64Array(touched * 2);
+  if (long) rowGroupOf.clear();
+  if (rankedGroup.length < groups) {
+    rankedGroup = new Int32Array(groups * 2);
+    rankedRank = new Float64Array(groups * 2);
   }
   // Ranked by `rankOf` of the share (worked out once per contributor), then by name: inserted in place.
   let count = 0;
-  for (let t = 0; t < touched; t++) {
-    const g = groupTouched[t];
+  for (let g = 0; g < groups; g++) {
     const v = groupVariance[g];
-    if (!(v > 0)) {
-      groupWorst[g] = 0;
-      groupVariance[g] = 0;
-      continue;
-    }
-    const name = groups.aspects[g] ? mismatchName(sources, groups, g, v, index, value, from, to, sigmaOverride) : groups.names[g];
+    if (!(v > 0)) continue;
+    const name = groupAspect[g] ? mismatchName(sources, figures, g, v, index, value, from, to, sigmaOverride) : groupName[g];
     const rank = rankOf(variance > 0 ? v / variance : 0);
     let at = count++;
     for (; at > 0 && (rank > rankedRank[at - 1] || (rank === rankedRank[at - 1] && name < rankedName[at - 1])); at--) {
@@ -1174,18 +1182,14 @@ function spreadOfRange(
     KEPT.sigmas[c] = Math.sqrt(v);
     KEPT.worsts[c] = groupWorst[g];
   }
-  for (let t = 0; t < touched; t++) {
-    groupVariance[groupTouched[t]] = 0;
-    groupWorst[groupTouched[t]] = 0;
-  }
   KEPT.sigma = Math.sqrt(variance);
   KEPT.worstCase = worstCase;
 }
 
-/** Whether group g is among the first `count` touched groups of the current call. */
-function groupListed(count: number, g: number): boolean {
-  for (let t = 0; t < count; t++) if (groupTouched[t] === g) return true;
-  return false;
+/** The group named `name` among the first `count` groups of the current call, or −1 (names compared as strings: equal names are one group). */
+function shortGroupOf(name: string, count: number): number {
+  for (let g = 0; g < count; g++) if (groupName[g] === name) return g;
+  return -1;
 }
 
 /** Attaches each structure's output variations (`structure.variation`) from a result. */

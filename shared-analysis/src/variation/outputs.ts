@@ -5,6 +5,7 @@ import { deviceKindOf } from '../devices/registry';
 import { isBipolar, polaritySign, topologyOf } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { OutputFunctional, OutputTerm } from './sensitivity';
+import { structureDevices, type StructureDevices } from './sources';
 
 /** One reported quantity and how it is read from the solution. */
 export interface OutputSpec {
@@ -38,8 +39,11 @@ export function elementCurrent(circuit: Circuit, index: number): OutputFunctiona
 const NO_NAMES: readonly string[] = [];
 const NO_VOLTAGES: Readonly<NonNullable<Structure['voltages']>> = [];
 
-/** The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage. */
-export function structureOutputs(circuit: Circuit, structures: readonly Structure[]): OutputSpec[] {
+/**
+ * The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage.
+ * `devices`: the structures' devices as element indices, looked up once for these and the mismatch sources.
+ */
+export function structureOutputs(circuit: Circuit, structures: readonly Structure[], devices: StructureDevices = structureDevices(circuit, structures)): OutputSpec[] {
   const topo = topologyOf(circuit);
   const indexOf = topo.elementIndex;
   const out: OutputSpec[] = [];
@@ -51,10 +55,10 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
     if (refNode !== undefined) {
       const terms: OutputTerm[] = [];
       for (let d = 0; d < s.devices.length; d++) {
-        const name = s.devices[d];
-        const t = topo.byName.get(name);
-        const i = indexOf.get(name);
-        if (!t || i === undefined) continue;
+        const i = devices.index[devices.start[k] + d];
+        if (i < 0) continue;
+        const t = topo.byName.get(s.devices[d]);
+        if (!t) continue;
         // Currents into the terminals on the reference node (record convention: into the terminal).
         if (t.out === refNode) terms.push({ kind: 'terminal', element: i, terminal: 0, weight: 1 });
         if (isBipolar(t.tech) || t.element.kind === 'J') {
@@ -76,8 +80,10 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
     }
     for (let d = 0; d < s.outputs.length; d++) {
       const o = s.outputs[d];
-      const i = indexOf.get(o.device);
-      if (i === undefined) continue;
+      // An output is one of the structure's devices (found by `===` among a few names), looked up already.
+      const at = s.devices.indexOf(o.device);
+      const i = at >= 0 ? devices.index[devices.start[k] + at] : (indexOf.get(o.device) ?? -1);
+      if (i < 0) continue;
       out.push({ key: `${s.id} out ${o.device}`, label: o.device, unit: 'A', role: 'iout', structure: s.id, element: o.device, functional: { terms: [{ kind: 'terminal', element: i, terminal: 0, weight: 1 }], magnitude: true } });
     }
     const voltages = s.voltages ?? NO_VOLTAGES;

@@ -100,10 +100,16 @@ const SMALLEST_NORMAL = 2.2250738585072014e-308;
  * resistor, β or IS of 1e-320, say) is left out: its σ has lost its digits, and its derivative per
  * unit overflows (the device already has its out-of-range finding).
  */
-export function toleranceSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): ToleranceSource[] {
+export function toleranceSources(
+  circuit: Circuit,
+  structures: readonly Structure[],
+  tolerances: Map<string, number>,
+  settings: SourceSettings,
+  temperatureC: number,
+  devices: StructureDevices = structureDevices(circuit, structures),
+): ToleranceSource[] {
   const out: ToleranceSource[] = [];
   elementSources(out, circuit, tolerances, settings);
-  const devices = structureDevices(circuit, structures);
   jfetSpreads(out, circuit, devices);
   mismatchSources(out, circuit, structures, devices, temperatureC);
   return normalSources(out);
@@ -129,9 +135,9 @@ export interface SourceList {
   changed?: Uint8Array;
 }
 
-/** The sources of `toleranceSources` as a list a later one may be patched from. */
-export function sourceListOf(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number): SourceList {
-  const sources = toleranceSources(circuit, structures, tolerances, settings, temperatureC);
+/** The sources of `toleranceSources` as a list a later one may be patched from (`devices`: the structures' devices, when the caller has them). */
+export function sourceListOf(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices?: StructureDevices): SourceList {
+  const sources = toleranceSources(circuit, structures, tolerances, settings, temperatureC, devices);
   const sourceOf = new Int32Array(circuit.elements.length).fill(-1);
   for (let k = 0; k < sources.length; k++) {
     const p = sources[k].parameter;
@@ -228,13 +234,17 @@ function elementSource(el: Element, i: number, tolerances: Map<string, number>, 
   return undefined;
 }
 
-/** Every structure's devices as element indices (−1: a name the circuit does not have), structure s's at `index[start[s] … start[s + 1] − 1]`. */
-interface StructureDevices {
+/**
+ * Every structure's devices as element indices (−1: a name the circuit does not have), structure s's at
+ * `index[start[s] … start[s + 1] − 1]`, in the order of its `devices`: the names looked up once for the spread's outputs
+ * (`structureOutputs`) and its mismatch sources, which each looked them up before.
+ */
+export interface StructureDevices {
   start: Int32Array;
   index: Int32Array;
 }
 
-function structureDevices(circuit: Circuit, structures: readonly Structure[]): StructureDevices {
+export function structureDevices(circuit: Circuit, structures: readonly Structure[]): StructureDevices {
   // Element name -> index, the last of a name (the topology's table, built once per circuit).
   const byName = topologyOf(circuit).elementIndex;
   const start = new Int32Array(structures.length + 1);
