@@ -129,9 +129,11 @@ export function analyseStructures(ctx: StructureCheckContext): Finding[] {
     at: op ? namedPointReader(op, topo) : undefined,
     voltsByIndex: op ? pointVectors(op)?.volts : undefined,
   };
-  const measuring = op ? nominalMeasuring(topo, ctx.kept ? structures.filter((s) => !ctx.kept!(s)) : structures, op) : undefined;
-  for (const s of feedOrder(structures)) {
-    const own = ctx.kept?.(s) ?? applySeverities(checkStructure(shared, s, measuring), options);
+  const measuring = op ? nominalMeasuring(topo, structures, ctx.kept, op) : undefined;
+  const { order, at } = feedOrder(structures);
+  for (let k = 0; k < order.length; k++) {
+    const s = order[k];
+    const own = ctx.kept?.(s) ?? applySeverities(checkStructure(shared, s, measuring, at[k]), options);
     ctx.record?.(s, own);
     pushAll(out, own);
   }
@@ -157,10 +159,10 @@ interface CheckShared {
 }
 
 /** One structure's findings; a defect in its analysis must not take down the others or the editor. */
-function checkStructure(shared: CheckShared, s: Structure, measuring: Measuring | undefined): Finding[] {
+function checkStructure(shared: CheckShared, s: Structure, measuring: Measuring | undefined, at: number): Finding[] {
   const topo = shared.topo;
   try {
-    return new StructureCheck(shared, s, measuring?.measure(s)).run();
+    return new StructureCheck(shared, s, measuring?.measure(s, at)).run();
   } catch (err) {
     const dev = topo.elementByName.get(s.reference.device);
     return [
@@ -175,22 +177,57 @@ function checkStructure(shared: CheckShared, s: Structure, measuring: Measuring 
   }
 }
 
-/** Measures one structure at the nominal point. */
+/** Measures one structure at the nominal point (`at`: its position in the list analysed). */
 interface Measuring {
-  measure(s: Structure): Measurement;
+  measure(s: Structure, at: number): Measurement;
 }
 
-/** Every structure's measurement at the operating point, its names resolved and its plans flattened once for all structures. */
-function nominalMeasuring(topo: Topology, structures: Structure[], op: OperatingPoint): Measuring {
-  const plans = plannedMeasurements(topo, structures);
+/**
+ * Every structure's measurement at the operating point (but those `kept` keeps), its names resolved and its plans
+ * flattened once for all structures measured. A structure's plan is found at its position in the list measured: with
+ * nothing kept, the list itself, whose positions the structures carry in `order` (no table keyed by structure).
+ */
+function nominalMeasuring(topo: Topology, structures: Structure[], kept: StructureCheckContext['kept'], op: OperatingPoint): Measuring {
+  const measured = kept ? structures.filter((s) => !kept(s)) : structures;
+  const plans = plannedMeasurements(topo, measured);
   const reader = readerOf(op, topo);
+  if (!kept) return { measure: (s, at) => measurePlanned(plans, at, reader, s.outputs) };
   const position = new Map<Structure, number>();
-  structures.forEach((s, i) => position.set(s, i));
+  measured.forEach((s, i) => position.set(s, i));
   return { measure: (s) => measurePlanned(plans, position.get(s)!, reader, s.outputs) };
 }
 
-/** Structures ordered so that a mirror fed by another mirror's output comes after it. */
-function feedOrder(structures: Structure[]): Structure[] {
+/**
+ * Structures ordered so that a mirror fed by another mirror's output comes after it, each id once (the first structure
+ * of an id), with each one's position in `structures`. A list in which no structure is fed by another's output keeps
+ * its order, and only the ids are tabled.
+ */
+function feedOrder(structures: Structure[]): { order: Structure[]; at: Int32Array } {
+  let fed = false;
+  for (let k = 0; k < structures.length && !fed; k++) fed = structures[k].reference.fedBy ? true : false;
+  if (!fed) {
+    const ids = new Set<string>();
+    const order: Structure[] = [];
+    const at = new Int32Array(structures.length);
+    for (let k = 0; k < structures.length; k++) {
+      const s = structures[k];
+      if (ids.has(s.id)) continue;
+      ids.add(s.id);
+      at[order.length] = k;
+      order.push(s);
+    }
+    return { order, at };
+  }
+  const position = new Map<Structure, number>();
+  structures.forEach((s, i) => position.set(s, i));
+  const order = fedOrder(structures);
+  const at = new Int32Array(order.length);
+  for (let k = 0; k < order.length; k++) at[k] = position.get(order[k])!;
+  return { order, at };
+}
+
+/** `feedOrder`'s order when some structure is fed by another's output: a depth-first walk up each one's feeds. */
+function fedOrder(structures: Structure[]): Structure[] {
   const byId = new Map(structures.map((s) => [s.id, s]));
   const done = new Set<string>();
   const order: Structure[] = [];
