@@ -238,3 +238,47 @@ export interface Circuit {
    */
   detachedNodes?: string[];
 }
+
+/**
+ * The elaborator's own tables of a circuit's names, kept beside the circuit so the topology answers name questions
+ * through them instead of building tables of every name again (`Topology.elementIndex`, `nodeIndex`). Every element
+ * of such a circuit has its own name, and so has every node.
+ */
+export interface ElaboratedNames {
+  /** `elementNameKey` of each element and instance name -> its place in `elementAt`. */
+  readonly elementKeys: ReadonlyMap<string, number>;
+  /** By place, the element's index in `circuit.elements`, or -1 (an instance, or a card left out). */
+  readonly elementAt: readonly number[];
+  /** Lower-case node name (hierarchical) -> index in `circuit.nodes`; undefined when the indices moved after (nodes dropped). */
+  readonly nodeKeys: ReadonlyMap<string, number> | undefined;
+}
+
+const elaboratedNames = new WeakMap<Circuit, ElaboratedNames>();
+
+/** Keeps the elaborator's name tables with `circuit` (or with a circuit of the same names in the same places: a patch). */
+export function keepElaboratedNames(circuit: Circuit, names: ElaboratedNames | undefined): void {
+  if (names) elaboratedNames.set(circuit, names);
+}
+
+/** The elaborator's name tables of `circuit`, when it made them for it. */
+export function elaboratedNamesOf(circuit: Circuit): ElaboratedNames | undefined {
+  return elaboratedNames.get(circuit);
+}
+
+/** Whether every character of `s` is ASCII. */
+export function isAsciiName(s: string): boolean {
+  for (let i = 0; i < s.length; i++) if (s.charCodeAt(i) > 127) return false;
+  return true;
+}
+
+/**
+ * The key of an element name `prefix + text` (its instance prefix, as written and in lower case, and the card's name),
+ * the same for two names that are the same but for case: an ASCII name in upper case (a name written in upper case,
+ * as element names mostly are, is its own key and makes no string); any other the lower-case name the elaborator keyed
+ * names by, in upper case when that is ASCII, so it meets the ASCII names it equals.
+ */
+export function elementNameKey(name: string, lowerPrefix: string, text: string): string {
+  if (isAsciiName(name)) return name.toUpperCase();
+  const lower = lowerPrefix + text.toLowerCase();
+  return isAsciiName(lower) ? lower.toUpperCase() : lower;
+}

@@ -1,7 +1,7 @@
 // Elaboration after an edit that changed one resistor's number: the last elaboration's circuit with that value and the offsets moved, instead of elaborating every card again.
 
 import type { SymbolTable } from './analysis';
-import type { Circuit, Element, Model, Origin } from './circuit';
+import { elaboratedNamesOf, keepElaboratedNames, type Circuit, type Element, type Model, type Origin } from './circuit';
 import type { ElaborationResult } from './elaborate/index';
 import { parseNumber } from './elaborate/units';
 import { nameTable } from './names';
@@ -89,6 +89,8 @@ export function patchedElaboration(
   const resistance = newValue / (el.m ?? 1);
   elements[e!] = { ...el, resistance, origin };
   const patched: Circuit = { ...circuit, elements, models: models.table };
+  // The same names in the same places: the elaborator's name tables serve the patched circuit too.
+  keepElaboratedNames(patched, elaboratedNamesOf(circuit));
   return {
     result: { circuit: patched, documents: nameTable({ [document.uri]: document }), symbols, findings: findings.map(copyFinding), inactive },
     kept: { symbols, findings, inactive, settings },

@@ -1,7 +1,7 @@
 // Elaboration: from parsed documents to a flat circuit with parameters evaluated, models filled in and subcircuits flattened.
 
 import type { IncludeSymbol, ModelSymbol, ParamSymbol, SubcktSymbol, SymbolTable } from '../analysis';
-import type { BehaviouralSource, BehaviourInput, Cccs, Ccvs, Circuit, CurrentSwitch, Element, Model, Origin, Resistor } from '../circuit';
+import { elementNameKey, keepElaboratedNames, type BehaviouralSource, type BehaviourInput, type Cccs, type Ccvs, type Circuit, type CurrentSwitch, type Element, type Model, type Origin, type Resistor } from '../circuit';
 import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument, Token } from '../syntax/ast';
 import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
@@ -154,8 +154,15 @@ class Elaborator {
   private readonly nodes: string[] = ['0'];
   private readonly nodeIndex = new Map<string, number>([['0', 0]]);
   private readonly elements: Element[] = [];
-  /** Lower-case hierarchical name -> the card that first used it (elements and instances), for duplicates. */
-  private readonly names = new Map<string, Located<ElementCard>>();
+  /**
+   * `elementNameKey` of each hierarchical name -> its place in `namedItems` (elements and instances), for duplicates;
+   * kept with the circuit (`keepElaboratedNames`), with `elementAt`, for the topology's name questions.
+   */
+  private readonly names = new Map<string, number>();
+  /** By place in `names`, the card that first used the name. */
+  private readonly namedItems: Located<ElementCard>[] = [];
+  /** By place in `names`, the index of the element made from the card in `elements`, or -1 (an instance, a card left out). */
+  private readonly elementAt: number[] = [];
   private readonly models: Record<string, Model> = nameTable();
   private readonly controls: { element: Element; token: Token; uri: string; full: string; set: (name: string) => void }[] = [];
   private readonly modelSymbols = new Map<string, ModelSymbol>();
@@ -219,11 +226,12 @@ class Elaborator {
     this.flattenBody(topInstance);
     if (!this.root.cards.some((c) => c.kind === 'title')) this.elaborateSections();
     this.reportLeftOut();
-    this.resolveControls();
+    const elementsMoved = this.resolveControls();
     const detachedNames = [...this.detached].map((k) => this.nodes[k]!);
-    this.dropUnusedNodes();
-    const kept = new Set(this.nodes);
-    const detachedNodes = detachedNames.filter((n) => kept.has(n));
+    const nodesMoved = this.dropUnusedNodes();
+    // A set of every node's name only when a detached node is to be looked up in it.
+    const kept = detachedNames.length > 0 ? new Set(this.nodes) : undefined;
+    const detachedNodes = kept ? detachedNames.filter((n) => kept.has(n)) : [];
     top.entries(); // evaluates (and reports) parameters nothing refers to
     if (read.missing.length > 0) this.summariseMissing(read.missing);
 
@@ -241,6 +249,8 @@ class Elaborator {
       params,
     };
     if (detachedNodes.length > 0) circuit.detachedNodes = detachedNodes;
+    // Element indices move when a controlled source is dropped: the topology then makes its own table of element names.
+    if (!elementsMoved) keepElaboratedNames(circuit, { elementKeys: this.names, elementAt: this.elementAt, nodeKeys: nodesMoved ? undefined : this.nodeIndex });
     const symbols: SymbolTable = {
       params: this.paramSymbols(read.top, top, read.allDefs),
       models: [...this.modelSymbols.values()],
@@ -520,6 +530,15 @@ class Elaborator {
   // -------------------------------------------------------------------------
   // Elements
 
+  /** Takes the name `key` for `item` (no element made from it yet); its place in `namedItems`. */
+  private named(key: string, item: Located<ElementCard>): number {
+    const place = this.namedItems.length;
+    this.names.set(key, place);
+    this.namedItems.push(item);
+    this.elementAt.push(-1);
+    return place;
+  }
+
   /** Adds an element (or flattens an instance); when it is left out, its nodes are detached so topology checks do not cascade. */
   private addElement(item: Located<ElementCard>, inst: Instance): void {
     const before = this.elements.length;
@@ -546,15 +565,17 @@ class Elaborator {
       list.push(item);
       return;
     }
-    const lowerName = inst.lowerPrefix + card.name.text.toLowerCase();
-    const first = this.names.get(lowerName);
-    if (first) {
+    const name = inst.prefix + card.name.text;
+    const key = elementNameKey(name, inst.lowerPrefix, card.name.text);
+    const seen = this.names.get(key);
+    if (seen !== undefined) {
+      const first = this.namedItems[seen]!;
       this.sink.add('element-duplicate-name', `An element named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
         { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
       ]);
       return;
     }
-    this.names.set(lowerName, item);
+    const place = this.named(key, item);
     if (this.elements.length >= this.maxElements) {
       this.reportTooLarge(uri, card.span);
       return;
@@ -580,7 +601,6 @@ class Elaborator {
       nodes[i] = k;
     }
     const params = this.elementParams(card, uri);
-    const name = inst.prefix + card.name.text;
     const valueToken = card.letter === 'V' || card.letter === 'I' ? card.source?.value : card.value;
     const origin = elementOrigin(uri, card.span, spansOf(card.nodes), inst.instances, valueToken?.span, card.model?.span);
 
@@ -732,6 +752,7 @@ class Elaborator {
         const w = this.value(rating.value, inst, uri, `the rated power of \`${card.name.text}\``, 'The default limit is used.');
         if (w !== undefined && w > 0 && Number.isFinite(w)) element.ratedPowerW = w;
       }
+      this.elementAt[place] = this.elements.length;
       this.elements.push(element);
     }
   }
@@ -994,15 +1015,16 @@ class Elaborator {
     const { card, uri } = item;
     const subTok = card.subckt;
     if (!subTok) return;
-    const lowerName = inst.lowerPrefix + card.name.text.toLowerCase();
-    const first = this.names.get(lowerName);
-    if (first) {
+    const key = elementNameKey(inst.prefix + card.name.text, inst.lowerPrefix, card.name.text);
+    const seen = this.names.get(key);
+    if (seen !== undefined) {
+      const first = this.namedItems[seen]!;
       this.sink.add('element-duplicate-name', `An instance named \`${card.name.text}\` already exists in this scope (names are not case-sensitive); this one is left out.`, uri, card.name.span, [
         { uri: first.uri, span: first.card.name.span, message: `\`${first.card.name.text}\` is defined here.` },
       ]);
       return;
     }
-    this.names.set(lowerName, item);
+    this.named(key, item);
     const def = this.findDef(inst.body, subTok.text);
     if (!def) {
       const known = this.visibleDefs(inst.body);
@@ -1151,7 +1173,7 @@ class Elaborator {
   private deviceAt(f: Finding): string {
     if (!this.cardStarts) {
       this.cardStarts = new Map();
-      for (const item of this.names.values()) {
+      for (const item of this.namedItems) {
         let list = this.cardStarts.get(item.uri);
         if (!list) this.cardStarts.set(item.uri, (list = []));
         list.push(item.card.span.start);
@@ -1216,8 +1238,9 @@ class Elaborator {
   }
 
   /** Resolves F, H and W controls and the I(…) inputs of behavioural sources against the flattened voltage sources; drops those whose control does not exist. */
-  private resolveControls(): void {
-    if (this.controls.length === 0) return;
+  /** Resolves the controlling sources of F, H and W elements; whether an element was dropped (the indices after it moved). */
+  private resolveControls(): boolean {
+    if (this.controls.length === 0) return false;
     const byName = new Map<string, Element>();
     for (const e of this.elements) byName.set(e.name.toLowerCase(), e);
     const dropped = new Set<Element>();
@@ -1233,18 +1256,19 @@ class Elaborator {
       this.sink.add('controlled-source-control-missing', message, c.uri, c.token.span, undefined, { control: c.full });
       dropped.add(c.element);
     }
-    if (dropped.size === 0) return;
+    if (dropped.size === 0) return false;
     const kept = this.elements.filter((e) => !dropped.has(e));
     this.elements.length = 0;
     pushAll(this.elements, kept);
+    return true;
   }
 
   /**
    * Removes nodes no kept element touches (their element was left out because of a finding) and
    * renumbers the rest in order, so the solver never sees a node with nothing attached. A node a
-   * behavioural source reads (`V(a)`) counts as touched, and its input is renumbered with it.
+   * behavioural source reads (`V(a)`) counts as touched, and its input is renumbered with it. Whether a node was dropped.
    */
-  private dropUnusedNodes(): void {
+  private dropUnusedNodes(): boolean {
     const used = new Uint8Array(this.nodes.length);
     used[0] = 1;
     for (let i = 0; i < this.elements.length; i++) {
@@ -1252,7 +1276,7 @@ class Elaborator {
       for (let s = 0; s < e.nodes.length; s++) used[e.nodes[s]!] = 1;
       if (e.kind === 'B') for (const input of e.inputs) if (input.kind === 'v') used[input.a] = used[input.b] = 1;
     }
-    if (used.indexOf(0) < 0) return;
+    if (used.indexOf(0) < 0) return false;
     const remap = new Int32Array(this.nodes.length);
     const kept: string[] = [];
     for (let k = 0; k < this.nodes.length; k++) {
@@ -1273,6 +1297,7 @@ class Elaborator {
     // A loop rather than push(...kept): spreading 100k+ arguments overflows the call stack.
     this.nodes.length = 0;
     for (const n of kept) this.nodes.push(n);
+    return true;
   }
 
   // -------------------------------------------------------------------------

@@ -1,6 +1,6 @@
 // A polarity-neutral view of a circuit's transistors and node connections, shared by recognition, estimation and measurement.
 
-import type { Bjt, Circuit, Element, Jfet, Mosfet } from '../circuit';
+import { elaboratedNamesOf, isAsciiName, type Bjt, type Circuit, type ElaboratedNames, type Element, type Jfet, type Mosfet } from '../circuit';
 import { isBipolar, polaritySign, technologyOfModel, TECHNOLOGIES } from './technology';
 import type { Technology } from './types';
 import { trimmed } from '../arrays';
@@ -86,8 +86,8 @@ interface SharedIndex {
   rowStart: Int32Array;
   rowElement: Int32Array;
   rowSlot: Uint8Array;
-  nodeIndex: Map<string, number>;
-  elementIndex: Map<string, number>;
+  nodeIndex: NodeIndex;
+  elementIndex: ElementIndex;
   /** Per transistor, its element's index in `circuit.elements`. */
   transistorElement: Int32Array;
   /** Per element, its transistor's index in `transistors`, or -1; made only when every element has its own name. */
@@ -107,7 +107,7 @@ export interface TransistorNames extends Iterable<[string, Transistor]> {
 class UniqueTransistorNames implements TransistorNames {
   constructor(
     private readonly transistors: readonly Transistor[],
-    private readonly elementIndex: Map<string, number>,
+    private readonly elementIndex: ReadonlyMap<string, number>,
     private readonly elementTransistor: Int32Array,
   ) {}
 
@@ -153,7 +153,8 @@ export class Topology {
   private readonly conductingLists: (Attachment[] | undefined)[] = [];
   /** `conducting` lists of node numbers outside `circuit.nodes`. */
   private readonly strayConducting = new Map<number, Attachment[]>();
-  readonly nodeIndex: Map<string, number>;
+  /** Node name -> index in `circuit.nodes` (the last node of the name). */
+  readonly nodeIndex: ReadonlyMap<string, number>;
   /** Element name -> element (the last of that name), read through `elementIndex`. */
   readonly elementByName: { get(name: string): Element | undefined; has(name: string): boolean } = {
     get: (name) => {
@@ -163,7 +164,7 @@ export class Topology {
     has: (name) => this.elementIndex.has(name),
   };
   /** Element name -> index in `circuit.elements` (the last element of that name, as `elementByName`), for reading a solved point by index. */
-  readonly elementIndex: Map<string, number>;
+  readonly elementIndex: ReadonlyMap<string, number>;
   private readonly transistorElement: Int32Array;
   private readonly elementTransistor: Int32Array | undefined;
 
@@ -192,8 +193,10 @@ export class Topology {
     this.rowStart = shared.rowStart;
     this.rowElement = shared.rowElement;
     this.rowSlot = shared.rowSlot;
-    this.nodeIndex = shared.nodeIndex;
-    this.elementIndex = shared.elementIndex;
+    // The name indices check their answers against the lists of this circuit (the same names in the same places as the
+    // followed one's): they hold no list of the circuit followed.
+    this.nodeIndex = followed ? shared.nodeIndex.following(circuit.nodes) : shared.nodeIndex;
+    this.elementIndex = followed ? shared.elementIndex.following(circuit.elements) : shared.elementIndex;
     this.transistorElement = shared.transistorElement;
     this.elementTransistor = shared.elementTransistor;
     this.byName = views ? views.byName : this.names ?? new UniqueTransistorNames(this.transistors, this.elementIndex, shared.elementTransistor!);
@@ -211,8 +214,8 @@ export class Topology {
   }
 
   private index(): SharedIndex {
-    const { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor } = this;
-    return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor };
+    const { rowStart, rowElement, rowSlot, transistorElement, elementTransistor } = this;
+    return { rowStart, rowElement, rowSlot, nodeIndex: this.nodeIndex as NodeIndex, elementIndex: this.elementIndex as ElementIndex, transistorElement, elementTransistor };
   }
 
   /** The transistor views and the name table made again for this circuit's elements, the rest shared with `from`. */
@@ -235,8 +238,9 @@ export class Topology {
     // (on-stack replacement), and the code after a loop is met without type feedback.
     const circuit = this.circuit;
     const nodeCount = circuit.nodes.length;
-    const nodeIndex = nodeIndexOf(circuit.nodes);
-    const elementIndex = elementIndexOf(circuit.elements);
+    const names = elaboratedNamesOf(circuit);
+    const nodeIndex = new NodeIndex(circuit.nodes, names);
+    const elementIndex = new ElementIndex(circuit.elements, names);
     const rowStart = new Int32Array(nodeCount + 1);
     const connections = this.countConnections(rowStart);
     const elementTransistor = elementIndex.size === circuit.elements.length ? new Int32Array(circuit.elements.length).fill(-1) : undefined;
@@ -371,18 +375,156 @@ function isNodeOf(n: number, nodeCount: number): boolean {
   return Number.isInteger(n) && n >= 0 && n < nodeCount;
 }
 
-/** Node name -> index. */
-function nodeIndexOf(nodes: readonly string[]): Map<string, number> {
-  const index = new Map<string, number>();
-  for (let i = 0; i < nodes.length; i++) index.set(nodes[i], i);
-  return index;
+/**
+ * Name -> index in a list, answering as a map filled from the list in order does (the last index of a name). A circuit
+ * the elaborator made comes with its tables of names (`elaboratedNamesOf`), in which every name is its own: a name is
+ * looked up there and the answer checked against the list, and the map of every name (about 40–70 ms for the 100,000
+ * element names of a 100k-element circuit, and as many kept entries) is made only for a question those tables cannot
+ * answer (a name not in them, or not in their form; a circuit made by other code). Iterating reads that map.
+ */
+/** `NameIndex.keyed`: no element or node has the name. */
+const ABSENT = -1;
+/** `NameIndex.keyed`: the elaborator's tables cannot say. */
+const UNKNOWN = -2;
+
+abstract class NameIndex implements ReadonlyMap<string, number> {
+  /** Every name -> its last index, once a question needed it (shared with the indices that follow this one). */
+  protected every: { map: Map<string, number> | undefined };
+
+  constructor(every?: { map: Map<string, number> | undefined }) {
+    this.every = every ?? { map: undefined };
+  }
+
+  /** The list's length. */
+  protected abstract count(): number;
+  /** The name at index `i`. */
+  protected abstract nameAt(i: number): string;
+  /** The index of `name` from the elaborator's tables, checked against the list; ABSENT when it is in no place, UNKNOWN when they cannot say. */
+  protected abstract keyed(name: string): number;
+  /** Whether every name of the list is its own (known without the map). */
+  protected abstract distinct(): boolean;
+
+  private all(): Map<string, number> {
+    let map = this.every.map;
+    if (!map) {
+      map = new Map<string, number>();
+      const n = this.count();
+      for (let i = 0; i < n; i++) map.set(this.nameAt(i), i);
+      this.every.map = map;
+    }
+    return map;
+  }
+
+  get(name: string): number | undefined {
+    const k = this.keyed(name);
+    return k >= 0 ? k : k === ABSENT ? undefined : this.all().get(name);
+  }
+
+  has(name: string): boolean {
+    return this.get(name) !== undefined;
+  }
+
+  get size(): number {
+    return this.distinct() ? this.count() : this.all().size;
+  }
+
+  forEach(each: (value: number, key: string, map: ReadonlyMap<string, number>) => void, thisArg?: unknown): void {
+    this.all().forEach((v, k) => each.call(thisArg, v, k, this));
+  }
+
+  entries(): MapIterator<[string, number]> {
+    return this.all().entries();
+  }
+
+  keys(): MapIterator<string> {
+    return this.all().keys();
+  }
+
+  values(): MapIterator<number> {
+    return this.all().values();
+  }
+
+  [Symbol.iterator](): MapIterator<[string, number]> {
+    return this.all()[Symbol.iterator]();
+  }
 }
 
-/** Element name -> index (the last element of a name). */
-function elementIndexOf(elements: readonly Element[]): Map<string, number> {
-  const index = new Map<string, number>();
-  for (let k = 0; k < elements.length; k++) index.set(elements[k].name, k);
-  return index;
+/** Node name -> index in `circuit.nodes` (see `NameIndex`); the elaborator keys nodes by their lower-case names. */
+class NodeIndex extends NameIndex {
+  constructor(
+    private readonly nodes: readonly string[],
+    private readonly names: ElaboratedNames | undefined,
+    every?: { map: Map<string, number> | undefined },
+  ) {
+    super(every);
+  }
+
+  /** The same index over the node list of a circuit with the same names in the same places. */
+  following(nodes: readonly string[]): NodeIndex {
+    return new NodeIndex(nodes, this.names, this.every);
+  }
+
+  protected count(): number {
+    return this.nodes.length;
+  }
+
+  protected nameAt(i: number): string {
+    return this.nodes[i]!;
+  }
+
+  protected distinct(): boolean {
+    return this.names?.nodeKeys !== undefined;
+  }
+
+  protected keyed(name: string): number {
+    const keys = this.names?.nodeKeys;
+    if (!keys || !isAsciiName(name)) return UNKNOWN;
+    // Node names are mostly written in lower case: such a name is its own key.
+    const k = keys.get(name);
+    if (k !== undefined && this.nodes[k] === name) return k;
+    // An ASCII node's key is its name in lower case: a node of this name would be found there.
+    const lower = name.toLowerCase();
+    const l = lower === name ? undefined : keys.get(lower);
+    return l !== undefined && this.nodes[l] === name ? l : ABSENT;
+  }
+}
+
+/** Element name -> index in `circuit.elements` (see `NameIndex`); the elaborator keys elements by `elementNameKey`. */
+class ElementIndex extends NameIndex {
+  constructor(
+    private readonly elements: readonly Element[],
+    private readonly names: ElaboratedNames | undefined,
+    every?: { map: Map<string, number> | undefined },
+  ) {
+    super(every);
+  }
+
+  /** The same index over the elements of a circuit with the same names in the same places. */
+  following(elements: readonly Element[]): ElementIndex {
+    return new ElementIndex(elements, this.names, this.every);
+  }
+
+  protected count(): number {
+    return this.elements.length;
+  }
+
+  protected nameAt(i: number): string {
+    return this.elements[i]!.name;
+  }
+
+  protected distinct(): boolean {
+    return this.names !== undefined;
+  }
+
+  protected keyed(name: string): number {
+    // An ASCII name's key is its upper case (`elementNameKey`), and every element's name has its place: an element of
+    // this name would be found there. Any other name is left to the map.
+    if (!this.names || !isAsciiName(name)) return UNKNOWN;
+    const place = this.names.elementKeys.get(name.toUpperCase());
+    if (place === undefined) return ABSENT;
+    const k = this.names.elementAt[place]!;
+    return k >= 0 && this.elements[k]?.name === name ? k : ABSENT;
+  }
 }
 
 /** Each connection to a node of the circuit at its place in the compressed rows, in element and then slot order. */

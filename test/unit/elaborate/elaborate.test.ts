@@ -452,6 +452,18 @@ describe('devices', () => {
     expect(r.findings[0]!.related![0]!.span).toEqual(locate(r.documents[ROOT]!.text, 'R1'));
   });
 
+  it('compares names as their lower case does, beyond ASCII too: a Kelvin sign is a k, an ß is not SS', () => {
+    // Unicode's case mappings (UnicodeData.txt): U+212A KELVIN SIGN lower-cases to U+006B, and U+00DF lower-cases to itself
+    // (its upper case is SS), so "Rß" and "RSS" differ in lower case while "R\u212A1" and "Rk1" are the same.
+    check(`dups\nV1 a 0 5\nRk1 a 0 1k\nR\u212A1 a 0 2k\nRß a 0 3k\nRSS a 0 4k\nX1 a SUB\nx1.r1 a 0 5k\n.subckt SUB p\nR1 p 0 6k\n.ends\n`, {
+      findings: [
+        { code: 'element-duplicate-name', at: 'R\u212A1' },
+        { code: 'element-duplicate-name', at: 'x1.r1' },
+      ],
+      elements: { Rk1: { value: 1000 }, 'R\u212A1': null, 'Rß': { value: 3000 }, RSS: { value: 4000 }, 'X1.R1': { value: 6000 }, 'x1.r1': null },
+    });
+  });
+
   it('reports an element with the wrong node count (hand-built card)', () => {
     const text = 'hand\nE1 a 0 2\n';
     const name = { text: 'E1', span: { start: 5, end: 7 }, kind: 'word' as const };
