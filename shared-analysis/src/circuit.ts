@@ -3,6 +3,7 @@
 import type { BehaviourProgram } from './devices/behaviour-program';
 import type { ModelKind } from './devices/parameters';
 import type { Span } from './types';
+import { upperCase } from './names';
 
 export type { ModelKind } from './devices/parameters';
 export { MODEL_DEFAULTS } from './devices/parameters';
@@ -274,11 +275,11 @@ export function isAsciiName(s: string): boolean {
 /**
  * The key of an element name `prefix + text` (its instance prefix, as written and in lower case, and the card's name),
  * the same for two names that are the same but for case: an ASCII name in upper case (a name written in upper case,
- * as element names mostly are, is its own key and makes no string); any other the lower-case name the elaborator keyed
- * names by, in upper case when that is ASCII, so it meets the ASCII names it equals.
+ * as element names mostly are, is its own key: no string is made); any other the lower-case name the elaborator keyed
+ * names by before, in upper case when that is ASCII, so it meets the ASCII names it equals.
  */
 export function elementNameKey(name: string, lowerPrefix: string, text: string): string {
-  if (isAsciiName(name)) return name.toUpperCase();
+  if (isAsciiName(name)) return upperCase(name);
   const lower = lowerPrefix + text.toLowerCase();
   return isAsciiName(lower) ? lower.toUpperCase() : lower;
 }

@@ -76,3 +76,24 @@ export function restoreNameTables<A extends NameTables>(analysis: A, which: { st
   for (const sc of analysis.symbols?.subckts ?? []) asNameTable(sc.params);
   return analysis;
 }
+
+/**
+ * `s.toLowerCase()`, without a new string for an ASCII name that has no upper-case letter (node names mostly):
+ * `toLowerCase` and `toUpperCase` make a new string every time, even when nothing changes.
+ */
+export function lowerCase(s: string): string {
+  for (let i = 0; i < s.length; i++) {
+    const c = s.charCodeAt(i);
+    if (c > 127 || (c >= 65 && c <= 90)) return s.toLowerCase();
+  }
+  return s;
+}
+
+/** `s.toUpperCase()`, without a new string for an ASCII name that has no lower-case letter (element names mostly). */
+export function upperCase(s: string): string {
+  for (let i = 0; i < s.length; i++) {
+    const c = s.charCodeAt(i);
+    if (c > 127 || (c >= 97 && c <= 122)) return s.toUpperCase();
+  }
+  return s;
+}

@@ -14,7 +14,7 @@ import { Sink } from './sink';
 import { readSources, type Body, type ConditionOracle, type Located, type SubcktDef } from './sources';
 import { expressionOf, tokenValue, type ValueResult } from './values';
 import { pushAll } from '../arrays';
-import { nameTable } from '../names';
+import { lowerCase, nameTable } from '../names';
 import { Branches } from './branches';
 
 /** Per-call elaboration settings. */
@@ -493,7 +493,7 @@ class Elaborator {
       this.sink.add('node-name-invalid', `\`${tok.text}\` is an expression; a node is named by a plain word.`, uri, tok.span);
       return undefined;
     }
-    const lower = tok.text.toLowerCase();
+    const lower = lowerCase(tok.text);
     if (lower === '0' || lower === 'gnd') return 0;
     const port = inst.ports.get(lower);
     if (port !== undefined) return port;
@@ -923,7 +923,7 @@ class Elaborator {
     const kinds = KINDS_FOR_LETTER[letter];
     if (!tok) return undefined;
     const keep = letter === 'R' ? ' The resistor is kept with its value.' : ' The element is left out.';
-    const key = tok.text.toLowerCase();
+    const key = lowerCase(tok.text);
     for (const scope of inst.modelScopes) {
       let entry = scope.get(key);
       if (!entry && size) {

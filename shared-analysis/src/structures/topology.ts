@@ -4,6 +4,7 @@ import { elaboratedNamesOf, isAsciiName, type Bjt, type Circuit, type Elaborated
 import { isBipolar, polaritySign, technologyOfModel, TECHNOLOGIES } from './technology';
 import type { Technology } from './types';
 import { trimmed } from '../arrays';
+import { lowerCase, upperCase } from '../names';
 
 export { isBipolar, polaritySign };
 
@@ -483,7 +484,7 @@ class NodeIndex extends NameIndex {
     const k = keys.get(name);
     if (k !== undefined && this.nodes[k] === name) return k;
     // An ASCII node's key is its name in lower case: a node of this name would be found there.
-    const lower = name.toLowerCase();
+    const lower = lowerCase(name);
     const l = lower === name ? undefined : keys.get(lower);
     return l !== undefined && this.nodes[l] === name ? l : ABSENT;
   }
@@ -520,7 +521,7 @@ class ElementIndex extends NameIndex {
     // An ASCII name's key is its upper case (`elementNameKey`), and every element's name has its place: an element of
     // this name would be found there. Any other name is left to the map.
     if (!this.names || !isAsciiName(name)) return UNKNOWN;
-    const place = this.names.elementKeys.get(name.toUpperCase());
+    const place = this.names.elementKeys.get(upperCase(name));
     if (place === undefined) return ABSENT;
     const k = this.names.elementAt[place]!;
     return k >= 0 && this.elements[k]?.name === name ? k : ABSENT;
