@@ -22,11 +22,11 @@ import { JsonEntries, JsonItems, JsonText, writeJson, writeJsonBytes } from './j
 import { pointReader, pointVectors, TableEntries, type PointReader } from '../../shared-analysis/src/solve/point';
 import type { OperatingPoint } from '../../shared-analysis/src/solve/types';
 import { hasUniqueNames } from '../../shared-analysis/src/solve/solved-point';
-import type { Structure } from '../../shared-analysis/src/structures/types';
+import type { CornerResult, Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation, VariationResult } from '../../shared-analysis/src/variation/types';
 import { leadingContributors, sourceSummaries } from '../../shared-analysis/src/variation/index';
 import { isOneOf, pushAll } from '../../shared-analysis/src/arrays';
-import { cornerColumns, summariseOutputs, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
+import { cornerColumns, summariseOutputs, type CornerAxis, type OutputCornerSummary } from '../../shared-analysis/src/structures/corner-columns';
 import { nameTable } from '../../shared-analysis/src/names';
 import { htmlPage, htmlSection, markdownPage, markdownSection, MAX_PLOTS_PER_FILE, type ReportFile } from './report-pages';
 import { expandFiles, Progress, runPool } from './batch';
@@ -910,33 +910,26 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
 /** A structure's corners summarised per output, or undefined when none were solved. */
 function cornerSummary(s: Structure, keyOf: (label: string) => string): unknown {
   const cols = cornerColumns(s);
-  const total = cols ? cols.axis.labels.length : s.corners.length;
-  if (total === 0) return undefined;
-  const summaries = cols ? summariseOutputs(cols) : summariseCornerRecords(s);
-  return {
-    corners: total,
-    converged: cols ? cols.axis.converged.reduce((n, c) => n + c, 0) : s.corners.filter((c) => c.converged).length,
-    outputs: summaries.map((o) => outputSummaryForJson(o, keyOf)),
-  };
+  if (cols) {
+    const axis = namedAxis(cols.axis);
+    if (axis.keys.length === 0) return undefined;
+    return { corners: axis.keys.length, converged: axis.converged, outputs: summariseOutputs(cols, axis.keys) };
+  }
+  if (s.corners.length === 0) return undefined;
+  return { corners: s.corners.length, converged: s.corners.filter((c) => c.converged).length, outputs: summariseCornerRecords(s, keyOf) };
 }
 
-/**
- * One output's corner summary as JSON shows it: its extremes that were found, each with its corner's key. Built
- * field by field in the document's order (spreading a literal per optional field made and copied a temporary
- * object for each, three per output of every structure).
- */
-function outputSummaryForJson(o: OutputCornerSummary, keyOf: (label: string) => string): Record<string, unknown> {
-  const out: Record<string, unknown> = { device: o.device };
-  if (o.minCurrent) out['minCurrent'] = cornerValue(o.minCurrent, keyOf);
-  if (o.maxCurrent) out['maxCurrent'] = cornerValue(o.maxCurrent, keyOf);
-  if (o.minHeadroom) out['minHeadroom'] = cornerValue(o.minHeadroom, keyOf);
-  out['outOfRegionAt'] = o.outOfRegionAt.map(keyOf);
-  return out;
-}
+/** A corner axis's keys (`cornerKey` of each label) and how many of its corners converged: worked out once per axis, which a file's structures share. */
+const axisNames = new WeakMap<CornerAxis, { keys: string[]; converged: number }>();
 
-/** A value at a corner: the corner's ASCII key (the file's `corners` give its label and conditions). */
-function cornerValue(x: { value: number; corner: string }, keyOf: (label: string) => string): { value: number; corner: string } {
-  return { value: x.value, corner: keyOf(x.corner) };
+function namedAxis(axis: CornerAxis): { keys: string[]; converged: number } {
+  let named = axisNames.get(axis);
+  if (!named) {
+    let converged = 0;
+    for (let k = 0; k < axis.converged.length; k++) converged += axis.converged[k]!;
+    axisNames.set(axis, (named = { keys: axis.labels.map(cornerKey), converged }));
+  }
+  return named;
 }
 
 /**
@@ -954,21 +947,26 @@ export function cornerKey(label: string): string {
     .replace(/[^\x21-\x7e]/g, (c) => `u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
 }
 
-/** The per-output summary from a structure's corner records (corners that did not come as columns). */
-function summariseCornerRecords(s: Structure): OutputCornerSummary[] {
+/** The per-output summary from a structure's corner records (corners that did not come as columns), corners named by `keyOf`. */
+function summariseCornerRecords(s: Structure, keyOf: (label: string) => string): OutputCornerSummary[] {
   return s.outputs.map((o) => {
-    const r: OutputCornerSummary = { device: o.device, convergedCorners: 0, outOfRegionAt: [] };
+    let minCurrent: CornerResult | undefined;
+    let maxCurrent: CornerResult | undefined;
+    let minHeadroom: CornerResult | undefined;
+    const outOfRegionAt: string[] = [];
     for (const c of s.corners) {
       if (!c.converged) continue;
-      r.convergedCorners++;
-      const i = c.iout[o.device] ?? 0;
-      const h = c.headroom[o.device] ?? 0;
-      if (!r.minCurrent || i < r.minCurrent.value) r.minCurrent = { value: i, corner: c.label };
-      if (!r.maxCurrent || i > r.maxCurrent.value) r.maxCurrent = { value: i, corner: c.label };
-      if (!r.minHeadroom || h < r.minHeadroom.value) r.minHeadroom = { value: h, corner: c.label };
-      if (c.outOfRegion.includes(o.device)) r.outOfRegionAt.push(c.label);
+      if (!minCurrent || (c.iout[o.device] ?? 0) < (minCurrent.iout[o.device] ?? 0)) minCurrent = c;
+      if (!maxCurrent || (c.iout[o.device] ?? 0) > (maxCurrent.iout[o.device] ?? 0)) maxCurrent = c;
+      if (!minHeadroom || (c.headroom[o.device] ?? 0) < (minHeadroom.headroom[o.device] ?? 0)) minHeadroom = c;
+      if (c.outOfRegion.includes(o.device)) outOfRegionAt.push(keyOf(c.label));
     }
-    return r;
+    const r: Omit<OutputCornerSummary, 'outOfRegionAt'> & { outOfRegionAt?: string[] } = { device: o.device };
+    if (minCurrent) r.minCurrent = { value: minCurrent.iout[o.device] ?? 0, corner: keyOf(minCurrent.label) };
+    if (maxCurrent) r.maxCurrent = { value: maxCurrent.iout[o.device] ?? 0, corner: keyOf(maxCurrent.label) };
+    if (minHeadroom) r.minHeadroom = { value: minHeadroom.headroom[o.device] ?? 0, corner: keyOf(minHeadroom.label) };
+    r.outOfRegionAt = outOfRegionAt;
+    return r as OutputCornerSummary;
   });
 }
 

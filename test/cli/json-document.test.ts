@@ -2,9 +2,10 @@
 // out inside a structure is exactly what its place there says (README, "JSON output").
 
 import { describe, expect, it } from 'vitest';
-import { jsonReport } from '../../server/src/cli';
+import { cornerKey, jsonReport } from '../../server/src/cli';
 import { analyseSession } from '../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../shared-analysis/src/types';
+import type { Structure } from '../../shared-analysis/src/structures/types';
 import type { OutputVariation } from '../../shared-analysis/src/variation/types';
 
 // A bipolar mirror, a PMOS mirror, a VBE multiplier (a structure that produces a voltage) and a load with a target
@@ -71,5 +72,39 @@ describe('the JSON document: spreads under their structures', () => {
     // An output outside every structure has no place to say it: it keeps its identity.
     const outside = doc.files[0]!.variation.outputsOutsideStructures;
     expect(outside.map((o) => [o['key'], o['output'], o['unit'], o['element']])).toEqual([['element RP', 'RP', 'A', 'RP']]);
+  });
+
+  it('summarises a structure\'s corners from its columns as from its records, as a scan of the records does', () => {
+    const uri = '/bench/spread.cir';
+    const analysis = analyseSession({ uri, text: NETLIST }, new MemoryWorkspace({ [uri]: NETLIST })).analysis;
+    type Summary = { corners: number; converged: number; outputs: Written[] };
+    const summaries = (structures: Structure[]): Summary[] => {
+      const doc = JSON.parse(JSON.stringify(jsonReport([{ path: uri, absolute: uri, analysis: { ...analysis, structures } }] as never))) as { files: { structures: { cornerSummary: Summary }[] }[] };
+      return doc.files[0]!.structures.map((e) => e.cornerSummary);
+    };
+    // Copies through JSON carry their corners as records only (the columns stay with the analysed structures).
+    const copies = JSON.parse(JSON.stringify(analysis.structures)) as Structure[];
+    const fromColumns = summaries(analysis.structures);
+    expect(summaries(copies)).toEqual(fromColumns);
+    // Worked out here from the records: each extreme at the first converged corner that reaches it, corners by key.
+    copies.forEach((s, i) => {
+      const converged = s.corners.filter((c) => c.converged);
+      expect(converged.length).toBeGreaterThan(0);
+      const at = (read: (c: (typeof converged)[number]) => number, better: (a: number, b: number) => boolean) => {
+        const best = converged.reduce((b, c) => (better(read(c), read(b)) ? c : b));
+        return { value: read(best), corner: cornerKey(best.label) };
+      };
+      expect(fromColumns[i]).toEqual({
+        corners: s.corners.length,
+        converged: converged.length,
+        outputs: s.outputs.map((o) => ({
+          device: o.device,
+          minCurrent: at((c) => c.iout[o.device] ?? 0, (a, b) => a < b),
+          maxCurrent: at((c) => c.iout[o.device] ?? 0, (a, b) => a > b),
+          minHeadroom: at((c) => c.headroom[o.device] ?? 0, (a, b) => a < b),
+          outOfRegionAt: converged.filter((c) => c.outOfRegion.includes(o.device)).map((c) => cornerKey(c.label)),
+        })),
+      });
+    });
   });
 });

@@ -157,39 +157,47 @@ export function cornerRecords(cols: CornerColumns): CornerResult[] {
   return out;
 }
 
-/** Per output, the worst corners: lowest and highest current and lowest headroom, with where (converged corners only). */
+/**
+ * Per output, the worst corners: lowest and highest current and lowest headroom, with where (converged corners only), as the
+ * CLI's JSON writes it (members in its order, the extremes that were found only).
+ */
 export interface OutputCornerSummary {
   device: string;
-  convergedCorners: number;
   minCurrent?: { value: number; corner: string };
   maxCurrent?: { value: number; corner: string };
   minHeadroom?: { value: number; corner: string };
-  /** Labels of the corners where the output leaves its active region. */
+  /** The corners where the output leaves its active region, by their names. */
   outOfRegionAt: string[];
 }
 
-/** The summary of every output of one structure's columns (first corner wins a tie, as the corner checks read them). */
-export function summariseOutputs(cols: CornerColumns): OutputCornerSummary[] {
+/**
+ * The summary of every output of one structure's columns (first corner wins a tie, as the corner checks read them), each
+ * corner named by `names` (one per corner of the axis: the CLI's ASCII keys). Made in the shape the JSON writes, so the
+ * writer takes it as it is: a summary in another shape, copied into the JSON's with each label looked up, was four
+ * objects more per output.
+ */
+export function summariseOutputs(cols: CornerColumns, names: readonly string[]): OutputCornerSummary[] {
   const { axis } = cols;
   const C = axis.labels.length;
   const { iout, headroom } = cols;
   return cols.outputs.map((device, o) => {
-    const s: OutputCornerSummary = { device, convergedCorners: 0, outOfRegionAt: [] };
+    const outOfRegionAt: string[] = [];
     // Where each extreme is (the first corner that reaches it), as positions in the columns; its record is made once, at the end.
     let minCurrent = -1;
     let maxCurrent = -1;
     let minHeadroom = -1;
     for (let k = o * C; k < (o + 1) * C; k++) {
       if (axis.converged[k - o * C] !== 1) continue;
-      s.convergedCorners++;
       if (minCurrent < 0 || iout[k] < iout[minCurrent]) minCurrent = k;
       if (maxCurrent < 0 || iout[k] > iout[maxCurrent]) maxCurrent = k;
       if (minHeadroom < 0 || headroom[k] < headroom[minHeadroom]) minHeadroom = k;
-      if (cols.outOfRegion[k]) s.outOfRegionAt.push(axis.labels[k - o * C]);
+      if (cols.outOfRegion[k]) outOfRegionAt.push(names[k - o * C]);
     }
-    if (minCurrent >= 0) s.minCurrent = { value: iout[minCurrent], corner: axis.labels[minCurrent - o * C] };
-    if (maxCurrent >= 0) s.maxCurrent = { value: iout[maxCurrent], corner: axis.labels[maxCurrent - o * C] };
-    if (minHeadroom >= 0) s.minHeadroom = { value: headroom[minHeadroom], corner: axis.labels[minHeadroom - o * C] };
-    return s;
+    const s: Omit<OutputCornerSummary, 'outOfRegionAt'> & { outOfRegionAt?: string[] } = { device };
+    if (minCurrent >= 0) s.minCurrent = { value: iout[minCurrent], corner: names[minCurrent - o * C] };
+    if (maxCurrent >= 0) s.maxCurrent = { value: iout[maxCurrent], corner: names[maxCurrent - o * C] };
+    if (minHeadroom >= 0) s.minHeadroom = { value: headroom[minHeadroom], corner: names[minHeadroom - o * C] };
+    s.outOfRegionAt = outOfRegionAt;
+    return s as OutputCornerSummary;
   });
 }
