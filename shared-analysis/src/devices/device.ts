@@ -117,7 +117,8 @@ export interface DeviceTable {
   load(x: Float64Array, values: Float64Array, rhs: Float64Array, limit: boolean, tally: LoadTally): void;
   /**
    * Every instance's solved quantities at `x` (no limiting), one tight loop; written into `into`
-   * (columns an earlier `evaluate` of this table returned) when given, through `columnsFor`.
+   * (columns an earlier `evaluate` of this table returned) when given, through `columnsFor` (or `columnsOverwritten`
+   * for a loop that writes every value, region and flag of every instance).
    */
   evaluate(x: Float64Array, into?: DeviceColumns): DeviceColumns;
   /** Junctions of instance i whose exponential runs beyond the evaluated range at `x` (`NOT_OVERDRIVEN` when none). */
