@@ -11,7 +11,7 @@ import { markLazyTables } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, structureDevices, type SourceList, type SourceSettings, type StructureDevices, type ToleranceSource } from './sources';
+import { madeFromStructures, patchedSources, readCardTolerances, sourceListOf, structureDeviceSlots, structureDevices, type SourceList, type SourceSettings, type StructureDevices, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -149,10 +149,10 @@ export function analyseVariation(ctx: VariationContext, reuse?: SpreadReuse): Va
  */
 function outputsOfStructures(circuit: Circuit, structures: readonly Structure[], last: SpreadRecord | undefined, devices: DevicesOnce): OutputSpec[] {
   if (last && madeFromStructures(last.sourceList, structures)) return last.specs.slice(0, last.structureSpecs);
-  return structureOutputs(circuit, structures, devices.get());
+  return structureOutputs(circuit, structures, devices.toFill());
 }
 
-/** The structures' devices as element indices (`structureDevices`), made on first ask. */
+/** The structures' devices as element indices: filled by `structureOutputs` as it looks them up, else made on first ask (`structureDevices`). */
 class DevicesOnce {
   private made: StructureDevices | undefined = undefined;
 
@@ -160,6 +160,11 @@ class DevicesOnce {
     private readonly circuit: Circuit,
     private readonly structures: readonly Structure[],
   ) {}
+
+  /** The lists for `structureOutputs` to fill (read by `get` from then on). */
+  toFill(): StructureDevices {
+    return (this.made = structureDeviceSlots(this.structures));
+  }
 
   get(): StructureDevices {
     return (this.made ??= structureDevices(this.circuit, this.structures));

@@ -5,7 +5,7 @@ import { deviceKindOf } from '../devices/registry';
 import { isBipolar, polaritySign, topologyOf } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { OutputFunctional, OutputTerm } from './sensitivity';
-import { structureDevices, type StructureDevices } from './sources';
+import { structureDeviceSlots, type StructureDevices } from './sources';
 
 /** One reported quantity and how it is read from the solution. */
 export interface OutputSpec {
@@ -41,9 +41,11 @@ const NO_VOLTAGES: Readonly<NonNullable<Structure['voltages']>> = [];
 
 /**
  * The outputs of every structure: IREF as `measureStructure` sums it, each output's current, each produced voltage.
- * `devices`: the structures' devices as element indices, looked up once for these and the mismatch sources.
+ * `devices` (from `structureDeviceSlots`) is filled with the structures' devices as element indices as they are looked
+ * up here, for the mismatch sources to read: each name is looked up once in the table of every element (a look-up there
+ * misses the processor's caches at 100,000 elements; the transistor view read right after it does not).
  */
-export function structureOutputs(circuit: Circuit, structures: readonly Structure[], devices: StructureDevices = structureDevices(circuit, structures)): OutputSpec[] {
+export function structureOutputs(circuit: Circuit, structures: readonly Structure[], devices: StructureDevices = structureDeviceSlots(structures)): OutputSpec[] {
   const topo = topologyOf(circuit);
   const indexOf = topo.elementIndex;
   const out: OutputSpec[] = [];
@@ -52,12 +54,15 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
   for (let k = 0; k < structures.length; k++) {
     const s = structures[k];
     const refNode = topo.nodeIndex.get(s.reference.node);
-    if (refNode !== undefined) {
+    const first = devices.start[k];
+    if (refNode === undefined) for (let d = 0; d < s.devices.length; d++) devices.index[first + d] = indexOf.get(s.devices[d]) ?? -1;
+    else {
       const terms: OutputTerm[] = [];
       for (let d = 0; d < s.devices.length; d++) {
-        const i = devices.index[devices.start[k] + d];
+        const name = s.devices[d];
+        const i = (devices.index[first + d] = indexOf.get(name) ?? -1);
         if (i < 0) continue;
-        const t = topo.byName.get(s.devices[d]);
+        const t = topo.byName.get(name);
         if (!t) continue;
         // Currents into the terminals on the reference node (record convention: into the terminal).
         if (t.out === refNode) terms.push({ kind: 'terminal', element: i, terminal: 0, weight: 1 });
@@ -82,7 +87,7 @@ export function structureOutputs(circuit: Circuit, structures: readonly Structur
       const o = s.outputs[d];
       // An output is one of the structure's devices (found by `===` among a few names), looked up already.
       const at = s.devices.indexOf(o.device);
-      const i = at >= 0 ? devices.index[devices.start[k] + at] : (indexOf.get(o.device) ?? -1);
+      const i = at >= 0 ? devices.index[first + at] : (indexOf.get(o.device) ?? -1);
       if (i < 0) continue;
       out.push({ key: `${s.id} out ${o.device}`, label: o.device, unit: 'A', role: 'iout', structure: s.id, element: o.device, functional: { terms: [{ kind: 'terminal', element: i, terminal: 0, weight: 1 }], magnitude: true } });
     }

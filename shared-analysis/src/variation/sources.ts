@@ -247,9 +247,7 @@ export interface StructureDevices {
 export function structureDevices(circuit: Circuit, structures: readonly Structure[]): StructureDevices {
   // Element name -> index, the last of a name (the topology's table, built once per circuit).
   const byName = topologyOf(circuit).elementIndex;
-  const start = new Int32Array(structures.length + 1);
-  for (let s = 0; s < structures.length; s++) start[s + 1] = start[s] + structures[s].devices.length;
-  const index = new Int32Array(start[structures.length]);
+  const { start, index } = structureDeviceSlots(structures);
   let at = 0;
   // Indexed: a for-of step makes an iterator result object until the function is optimised.
   for (let s = 0; s < structures.length; s++) {
@@ -257,6 +255,13 @@ export function structureDevices(circuit: Circuit, structures: readonly Structur
     for (let k = 0; k < devices.length; k++) index[at++] = byName.get(devices[k]) ?? -1;
   }
   return { start, index };
+}
+
+/** `StructureDevices` with its places made and no device looked up yet (every index −1), for a pass that looks the names up anyway to fill. */
+export function structureDeviceSlots(structures: readonly Structure[]): StructureDevices {
+  const start = new Int32Array(structures.length + 1);
+  for (let s = 0; s < structures.length; s++) start[s + 1] = start[s] + structures[s].devices.length;
+  return { start, index: new Int32Array(start[structures.length]).fill(-1) };
 }
 
 /** A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too. */
