@@ -298,6 +298,16 @@ export class Topology {
     return Int32Array.from(transistorElement);
   }
 
+  /**
+   * The transistor view of element `k` of the circuit: what `byName.get` of its name gives, read by index when every
+   * element has its own name (no look-up in a table of every name).
+   */
+  transistorOfElement(k: number): Transistor | undefined {
+    if (!this.elementTransistor) return this.byName.get(this.circuit.elements[k]!.name);
+    const i = this.elementTransistor[k];
+    return i === undefined || i < 0 ? undefined : this.transistors[i];
+  }
+
   /** Whether `n` is an index into `circuit.nodes`. */
   private isNode(n: number): boolean {
     return Number.isInteger(n) && n >= 0 && n < this.circuit.nodes.length;

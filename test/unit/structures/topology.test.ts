@@ -118,10 +118,12 @@ describe('topology', () => {
             if (!firstIndex.has(t.name)) firstIndex.set(t.name, t.index);
           }
           expect([...topo.byName]).toEqual([...plain]);
-          for (const e of circuit.elements) {
+          circuit.elements.forEach((e, k) => {
             expect(topo.byName.get(e.name)).toBe(plain.get(e.name));
             expect(topo.byName.has(e.name)).toBe(plain.has(e.name));
-          }
+            // By the element's index, as its name gives (the judgements read it so).
+            expect(topo.transistorOfElement(k)).toBe(plain.get(e.name));
+          });
           expect(topo.byName.get('no such element')).toBeUndefined();
           expect(topo.byName.has('no such element')).toBe(false);
           for (const t of topo.transistors) expect(t.nameIndex).toBe(firstIndex.get(t.name));

@@ -68,6 +68,8 @@ export class JudgeContext {
   private byOut?: Map<number, Transistor[]>;
   /** The point's vectors, when records can be read by element index (see `recordAt`). */
   private readonly records: PointVectors | undefined;
+  /** The index in `circuit.elements` of the element being judged (set by `judgeEachDevice`), or -1. */
+  judged = -1;
 
   constructor(
     readonly circuit: Circuit,
@@ -117,6 +119,12 @@ export class JudgeContext {
    * solver's vectors and every element has a name of its own, by name otherwise (a name written twice reads the
    * last element of that name, as the point's table does).
    */
+  /** The transistor view of `el`: read by its index when it is the element being judged, else by its name. */
+  transistorOf(el: Element): Transistor | undefined {
+    const k = this.judged;
+    return k >= 0 && this.circuit.elements[k] === el ? this.topo.transistorOfElement(k) : this.topo.byName.get(el.name);
+  }
+
   recordAt(e: number): DeviceRecord | undefined {
     return this.records ? this.records.record(e) : this.at.record(this.circuit.elements[e].name);
   }

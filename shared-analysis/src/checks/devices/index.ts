@@ -105,6 +105,7 @@ export function judgeEachDevice(ctx: DeviceCheckContext, only?: (element: number
       if (judge.judge) {
         const rec = judges.recordAt(i);
         if (!rec) continue;
+        judges.judged = i;
         judge.judge(el, rec, judges, memory);
         judgePower(el, dissipation(rec), judges);
       } else {

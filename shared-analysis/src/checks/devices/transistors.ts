@@ -32,7 +32,7 @@ function upper(tech: string): string {
 
 /** Judges one BJT at the operating point. */
 export function judgeBjt(el: Bjt, rec: BjtRecord, ctx: JudgeContext, memory: JudgeMemory): void {
-  const t = ctx.topo.byName.get(el.name);
+  const t = ctx.transistorOf(el);
   if (!t) return;
   const s = rec.polarity === 'pnp' ? -1 : 1;
   // Junction voltages in the device's own polarity (positive = forward) and their names.
@@ -95,7 +95,7 @@ export function judgeBjt(el: Bjt, rec: BjtRecord, ctx: JudgeContext, memory: Jud
 
 /** Judges one MOSFET at the operating point. */
 export function judgeMosfet(el: Mosfet, rec: MosRecord, ctx: JudgeContext, memory: JudgeMemory): void {
-  const t = ctx.topo.byName.get(el.name);
+  const t = ctx.transistorOf(el);
   if (!t) return;
   const s = rec.polarity === 'pmos' ? -1 : 1;
   const vgs = s * rec.vgs;
