@@ -150,7 +150,12 @@ export class Topology {
   private readonly atLists: (Attachment[] | undefined)[] = [];
   /** Connections to node numbers outside `circuit.nodes` (the elaborator makes none), as lists. */
   private readonly strayAttached = new Map<number, Attachment[]>();
-  /** `conducting` lists made so far, by node (as `atLists`); callers must not mutate them. */
+  /**
+   * `conducting` lists made so far of nodes with KEPT_CONDUCTING_FROM connections or more, by node (as `atLists`);
+   * callers must not mutate them. A node with fewer gets a new list at every call: kept, the lists of the small nodes
+   * of the 100,000-element sink array were 6 MB of small objects the analysis held to its end (copied by the young
+   * collections and marked by every full one), for lists a few reads of the compressed rows make again.
+   */
   private readonly conductingLists: (Attachment[] | undefined)[] = [];
   /** `conducting` lists of node numbers outside `circuit.nodes`. */
   private readonly strayConducting = new Map<number, Attachment[]>();
@@ -332,21 +337,26 @@ export class Topology {
       if (!stray) this.strayConducting.set(node, (stray = this.at(node).filter((a) => conducts(a.element, a.slot))));
       return stray;
     }
+    const start = this.rowStart[node];
+    const end = this.rowStart[node + 1];
+    if (end - start < KEPT_CONDUCTING_FROM) return this.conductingRow(start, end);
     let list = this.conductingLists[node];
-    if (!list) {
-      // Straight from the compressed rows: a node's `at` list is made only for a caller that wants every connection.
-      list = [];
-      for (let j = this.rowStart[node]; j < this.rowStart[node + 1]; j++) {
-        const element = this.circuit.elements[this.rowElement[j]];
-        const slot = this.rowSlot[j];
-        if (conducts(element, slot)) list.push({ element, slot });
-      }
-      // Kept with the topology for the whole analysis: a list of its own length.
-      this.conductingLists[node] = list = trimmed(list);
-    }
+    // Kept with the topology for the whole analysis: a list of its own length.
+    if (!list) this.conductingLists[node] = list = trimmed(this.conductingRow(start, end));
     return list;
   }
 
+
+  /** The DC-relevant connections at [start, end) of the compressed rows (a node's `at` list is made only for a caller that wants every connection). */
+  private conductingRow(start: number, end: number): Attachment[] {
+    const list: Attachment[] = [];
+    for (let j = start; j < end; j++) {
+      const element = this.circuit.elements[this.rowElement[j]];
+      const slot = this.rowSlot[j];
+      if (conducts(element, slot)) list.push({ element, slot });
+    }
+    return list;
+  }
 
   /**
    * The one DC-relevant connection of `node` besides the elements in `except`, or undefined when
@@ -380,6 +390,12 @@ export class Topology {
     return this.circuit.nodes[i] ?? String(i);
   }
 }
+
+/**
+ * Connections from which a node's `conducting` list is kept with the topology (a rail's, which may hold thousands);
+ * below it the list is made again at each call, from at most this many rows.
+ */
+const KEPT_CONDUCTING_FROM = 16;
 
 /** Whether `n` is an index into a list of `nodeCount` nodes. */
 function isNodeOf(n: number, nodeCount: number): boolean {
