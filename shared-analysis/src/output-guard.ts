@@ -37,27 +37,44 @@ export function clampFindingSpans(findings: Finding[], documents: Record<string,
 const MAX_PATHS_NAMED = 5;
 
 /**
- * Objects with a table built on first read (an operating point's `nodes` and `devices`, a
- * structure's `corners`, an output's spread `contributors` and `sensitivities`: solve/point.ts,
- * structures/corner-columns.ts, variation/index.ts), registered where the getter is defined with the
- * names it is defined under, so the finiteness walk asks for a property descriptor only there.
+ * The accessors of the engine's tables built on first read (an operating point's `nodes` and `devices`, a
+ * structure's `corners`, a spread result's `sources`, an output's spread `contributors` and `sensitivities`:
+ * solve/point.ts, structures/corner-columns.ts, variation/index.ts), each the one getter every holder of that
+ * table shares, with the name it is defined under and, where a table can also be assigned through the same
+ * accessor, whether a holder's table is still the one built from the engine's columns. The finiteness walk asks
+ * for a property descriptor only under these names, and leaves such a table unread: it is finite by construction,
+ * clamped where it is built, and reading it would build it for nothing. (Before, each holder was registered in a
+ * WeakMap as it was made: about 75,000 entries at 100,000 elements, a tenth of a second of the run.)
  */
-const lazyHolders = new WeakMap<object, readonly string[]>();
+const lazyGetters = new Map<unknown, (holder: object) => boolean>();
+const lazyNames: string[] = [];
 
-/** Registers `o` as holding the properties `names`, read through a getter (see `dropNonFinite`). */
-export function markLazyTables(o: object, names: readonly string[]): void {
-  lazyHolders.set(o, names);
+const always = (): boolean => true;
+
+/**
+ * Registers `accessor` (defined under `name` on every holder of the table) as a table built on first read. With
+ * `builtLazily`, a holder's table is left unread only while that says so (false once a value was assigned through
+ * the accessor, which the walk then reads as any member); without it, always.
+ */
+export function registerLazyTable(name: string, accessor: PropertyDescriptor, builtLazily: (holder: object) => boolean = always): void {
+  if (!accessor.get) throw new Error(`registerLazyTable: the accessor of \`${name}\` has no getter`);
+  lazyGetters.set(accessor.get, builtLazily);
+  if (!lazyNames.includes(name)) lazyNames.push(name);
 }
 
-/** Undoes `markLazyTables`: `o`'s getters now give values assigned to them, which the finiteness walk reads. */
-export function unmarkLazyTables(o: object): void {
-  lazyHolders.delete(o);
+/** Whether `record[key]` is a registered table still built on first read (one descriptor read, only under the registered names). */
+function isLazyTable(record: object, key: string): boolean {
+  if (!isOneOf(key, lazyNames)) return false;
+  const get = Object.getOwnPropertyDescriptor(record, key)?.get;
+  if (get === undefined) return false;
+  const builtLazily = lazyGetters.get(get);
+  return builtLazily !== undefined && builtLazily(record);
 }
 
 /**
  * Removes every number that is not finite from `value` (a property is deleted, an array element
- * dropped; typed arrays are left alone, they never leave as JSON, and so are properties read through
- * a getter of an object registered with `markLazyTables`, the engine's lazily built tables) and
+ * dropped; typed arrays are left alone, they never leave as JSON, and so are the engine's tables built
+ * on first read, registered with `registerLazyTable`) and
  * returns the paths removed. Walks each object once; linear in the size of the data. A path is
  * written only for what is removed: the walk keeps the keys it is under, not their text.
  */
@@ -105,16 +122,14 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
     if (kept !== value.length) value.length = kept;
     return;
   }
-  const lazy = lazyHolders.get(value);
-  if (lazy && !(remembered = remember(value, seen))) return;
   const record = value as Record<string, unknown>;
   // Own enumerable names, as for-in with an own-property test would give them, at a fraction of its cost.
   const names = Object.keys(record);
   for (let k = 0; k < names.length; k++) {
     const key = names[k]!;
     // A table built on first read is finite by construction, clamped where it is built; reading it
-    // here would build it for nothing. (Assigned a value, it is an ordinary property again.)
-    if (lazy && isOneOf(key, lazy) && Object.getOwnPropertyDescriptor(record, key)?.get) continue;
+    // here would build it for nothing. (Assigned a value, it is an ordinary member again.)
+    if (isLazyTable(record, key)) continue;
     const v = record[key];
     if (typeof v === 'number') {
       if (!Number.isFinite(v)) {

@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 import { analyse, analyseSession, attachAllSizingFixes, sizingFixesOf } from '../../shared-analysis/src/service';
 import { parse } from '../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
-import { clampSpan, dropNonFinite, keepFinite, markLazyTables } from '../../shared-analysis/src/output-guard';
+import { clampSpan, dropNonFinite, keepFinite, registerLazyTable } from '../../shared-analysis/src/output-guard';
 import { rng } from '../seeded-random';
 import { definesModel } from '../../shared-analysis/src/fixes/model-fixes';
 import { findingCatalogue } from '../../shared-analysis/src/codes';
@@ -94,37 +94,48 @@ describe('finite numbers only', () => {
     expect(keepFinite(findings, { structures }, URI)).toBeUndefined();
   });
 
-  it('leaves a registered table read through a getter unread, and walks the rest of its holder', () => {
-    // The engine's lazily built tables (solve/point.ts, structures/corner-columns.ts) are registered
-    // with markLazyTables; the walk must neither build them nor miss a bad number beside them.
+  it('leaves a registered table read through its getter unread, and walks the rest of its holder', () => {
+    // The engine's lazily built tables (solve/point.ts, structures/corner-columns.ts, variation/index.ts) register
+    // their shared accessor with registerLazyTable; the walk must neither build them nor miss a bad number beside them.
     let reads = 0;
+    const TABLE: PropertyDescriptor = { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) };
+    registerLazyTable('guardTestTable', TABLE);
     const holder: Record<string, unknown> = { bad: NaN, nested: { worse: -Infinity, fine: [1, 2] } };
-    Object.defineProperty(holder, 'table', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
-    markLazyTables(holder, ['table']);
+    Object.defineProperty(holder, 'guardTestTable', TABLE);
     const removed: string[] = [];
     dropNonFinite([holder], 'root', removed);
     expect(reads).toBe(0);
     expect(removed).toEqual(['root[0].bad', 'root[0].nested.worse']);
-    // An object that is not registered is read as a plain object, getter included.
-    const plain: Record<string, unknown> = {};
-    Object.defineProperty(plain, 'table', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
-    const removedPlain: string[] = [];
-    dropNonFinite({ p: plain }, 'p', removedPlain);
-    expect(reads).toBeGreaterThan(0);
-    expect(removedPlain).toEqual(['p.p.table.x']);
+    // Another getter under the same name, or the registered getter under another name, is read as any member.
+    const other: Record<string, unknown> = {};
+    Object.defineProperty(other, 'guardTestTable', { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
+    Object.defineProperty(other, 'elsewhere', TABLE);
+    const removedOther: string[] = [];
+    dropNonFinite({ p: other }, 'p', removedOther);
+    expect(reads).toBe(2);
+    expect(removedOther).toEqual(['p.p.guardTestTable.x', 'p.p.elsewhere.x']);
   });
 
-  it('skips only the getters a holder registered, and walks one that was replaced by a value', () => {
+  it('walks a registered table once its holder says it is no longer the built one, and one replaced by a value', () => {
     let reads = 0;
-    const holder: Record<string, unknown> = { n: 1 };
-    for (const key of ['lazy', 'other']) Object.defineProperty(holder, key, { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) });
-    markLazyTables(holder, ['lazy', 'later']);
-    // A registered name assigned a plain value (as the tables' setters do) is an ordinary member again.
-    holder['later'] = { y: Infinity };
+    const assigned = new WeakSet<object>();
+    const TABLE: PropertyDescriptor = { enumerable: true, configurable: true, get: () => (reads++, { x: NaN }) };
+    registerLazyTable('guardTestAssignable', TABLE, (h) => !assigned.has(h));
+    const built: Record<string, unknown> = { n: 1 };
+    const given: Record<string, unknown> = { n: 2 };
+    const replaced: Record<string, unknown> = { n: 3 };
+    for (const h of [built, given, replaced]) Object.defineProperty(h, 'guardTestAssignable', TABLE);
+    assigned.add(given);
+    // Replaced by a plain value (as the tables' setters do): an ordinary member again.
+    Object.defineProperty(replaced, 'guardTestAssignable', { value: { y: Infinity }, writable: true, enumerable: true, configurable: true });
     const removed: string[] = [];
-    dropNonFinite(holder, 'h', removed);
+    dropNonFinite({ built, given, replaced }, 'h', removed);
     expect(reads).toBe(1);
-    expect(removed).toEqual(['h.other.x', 'h.later.y']);
+    expect(removed).toEqual(['h.given.guardTestAssignable.x', 'h.replaced.guardTestAssignable.y']);
+  });
+
+  it('refuses to register an accessor without a getter', () => {
+    expect(() => registerLazyTable('guardTestNoGetter', { value: 1 })).toThrow(/no getter/);
   });
 
   it('removes what an independent walk of random nested data removes, and names the same paths', () => {

@@ -2,7 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import type { DeviceRecord, Fallback, OperatingPoint } from './types';
-import { markLazyTables } from '../output-guard';
+import { registerLazyTable } from '../output-guard';
 
 /**
  * Index-based access to one solved operating point, for code that reads many values of many
@@ -134,9 +134,6 @@ export function pointReader(circuit: Circuit, op: OperatingPoint): PointReader {
   };
 }
 
-/** The properties `lazyPoint` builds on first read. */
-const POINT_TABLES = ['nodes', 'devices'];
-
 /** The tables of lazy point `op`, built on the first read of either. */
 function tablesOf(op: OperatingPoint): PointTables {
   const state = (op as StatefulPoint)[STATE]!;
@@ -167,6 +164,9 @@ function tableAccessor(key: 'nodes' | 'devices'): PropertyDescriptor {
 }
 const NODES_TABLE = tableAccessor('nodes');
 const DEVICES_TABLE = tableAccessor('devices');
+// Assigned, a table is a plain data property (`assigned`), so while the accessor is there the table is the built one.
+registerLazyTable('nodes', NODES_TABLE);
+registerLazyTable('devices', DEVICES_TABLE);
 
 /**
  * An OperatingPoint whose `nodes` and `devices` tables are built by `build` on first read (and
@@ -179,7 +179,6 @@ export function lazyPoint(head: { converged: boolean; temperatureC: number; iter
   Object.defineProperty(op, STATE, { value: state });
   Object.defineProperty(op, 'nodes', NODES_TABLE);
   Object.defineProperty(op, 'devices', DEVICES_TABLE);
-  markLazyTables(op, POINT_TABLES);
   return op;
 }
 

@@ -1,7 +1,7 @@
 // A structure's corner results stored column-wise: one typed array per quantity, one entry per corner (and per output).
 
 import { nameTable } from '../names';
-import { markLazyTables, unmarkLazyTables } from '../output-guard';
+import { registerLazyTable } from '../output-guard';
 import type { CornerResult, Structure } from './types';
 
 /**
@@ -44,9 +44,6 @@ export function cornerColumns(s: Structure): CornerColumns | undefined {
   return columnsOf.get(s);
 }
 
-/** The property `setCornerColumns` builds on first read. */
-const CORNERS_TABLE = ['corners'];
-
 /** Per structure: its corner records, built from its columns at the first read, or the list assigned to it. */
 const listOf = new WeakMap<Structure, CornerResult[]>();
 
@@ -69,10 +66,12 @@ const CORNERS: PropertyDescriptor = {
   },
   set(this: Structure, value: CornerResult[]): void {
     columnsOf.delete(this);
-    unmarkLazyTables(this);
     listOf.set(this, value);
   },
 };
+// The records are built from the columns, which are clamped where they are written: the finiteness walk leaves them
+// unread while the structure has columns. A list assigned through the setter (the columns dropped) is walked.
+registerLazyTable('corners', CORNERS, (s) => columnsOf.has(s as Structure));
 
 /** Defines `s.corners` (no corner yet) as every structure holds it; `s` has no `corners` property yet. */
 export function defineCorners(s: Omit<Structure, 'corners'>): void {
@@ -114,7 +113,6 @@ function copyEach<T extends object>(list: readonly T[]): T[] {
 export function setCornerColumns(s: Structure, cols: CornerColumns): void {
   columnsOf.set(s, cols);
   listOf.delete(s);
-  markLazyTables(s, CORNERS_TABLE);
   if (Object.getOwnPropertyDescriptor(s, 'corners')?.get !== CORNERS.get) Object.defineProperty(s, 'corners', CORNERS);
 }
 

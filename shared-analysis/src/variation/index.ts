@@ -7,7 +7,7 @@ import type { ParsedDocument } from '../syntax/ast';
 import type { Target } from '../checks/targets';
 import { targetElements, targetIndexOf } from '../checks/targets';
 import { nameTable } from '../names';
-import { markLazyTables } from '../output-guard';
+import { registerLazyTable } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
@@ -450,7 +450,6 @@ function attachSources(result: VariationResult, sources: readonly ToleranceSourc
   }
   (result as LazySources)[SOURCE_COLUMNS] = columns;
   Object.defineProperty(result, 'sources', LAZY_SOURCES);
-  markLazyTables(result, SOURCES_TABLE);
 }
 
 /** The columns a result reads its sources from while they are not made (undefined when they are). */
@@ -474,9 +473,6 @@ export function sourceSummaries(result: VariationResult): { length: number; at: 
 const SOURCE_COLUMNS = Symbol('source columns');
 type LazySources = VariationResult & { [SOURCE_COLUMNS]: SourceColumns };
 
-/** The property `LAZY_SOURCES` defines. */
-const SOURCES_TABLE = ['sources'];
-
 const LAZY_SOURCES: PropertyDescriptor = {
   enumerable: true,
   configurable: true,
@@ -489,6 +485,8 @@ const LAZY_SOURCES: PropertyDescriptor = {
     keepValue(this, 'sources', value);
   },
 };
+// Read or assigned, the list is a plain data property (`keepValue`): while the accessor is there it is the columns' list.
+registerLazyTable('sources', LAZY_SOURCES);
 
 /** Makes each output's record from its row of derivatives: value, σ, worst case, drift, %/V, contributors, sensitivities, yield. */
 class OutputRecords {
@@ -768,7 +766,6 @@ class OutputLists {
       const holder = out as LazyLists;
       holder[LISTS] = this;
       holder[LIST_INDEX] = o;
-      markLazyTables(out, LIST_TABLES);
     }
     if (contributorsLater) Object.defineProperty(out, 'contributors', LAZY_CONTRIBUTORS);
     else out.contributors = this.contributors.madeOf(o);
@@ -959,9 +956,6 @@ function keepValue(o: object, name: string, value: unknown): void {
   Object.defineProperty(o, name, { value, writable: true, enumerable: true, configurable: true });
 }
 
-/** The properties `LAZY_CONTRIBUTORS` and `LAZY_SENSITIVITIES` define. */
-const LIST_TABLES = ['contributors', 'sensitivities'];
-
 /** One accessor shared by every output whose contributors are made on first read (one getter for all keeps the outputs alike for V8). */
 const LAZY_CONTRIBUTORS: PropertyDescriptor = {
   enumerable: true,
@@ -990,6 +984,9 @@ const LAZY_SENSITIVITIES: PropertyDescriptor = {
     keepValue(this, 'sensitivities', value);
   },
 };
+// Read or assigned, each list is a plain data property (`keepValue`): while an accessor is there the list is the ranked one.
+registerLazyTable('contributors', LAZY_CONTRIBUTORS);
+registerLazyTable('sensitivities', LAZY_SENSITIVITIES);
 
 /**
  * What ranking reads of each source of a list, built once per list: its σ and worst-case bound as columns (a row's
