@@ -7,7 +7,9 @@ import { formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
-import { FigureSink, plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
+import { BipolarColumnsMeasurement, FigureSink, plannedMeasurements, readerOf, runMeasurement, type MeasurementPlans, type OutputSink, type PointIndexReader } from '../structures/measure';
+import { pointVectors } from '../solve/point';
+import { SolvedVectors } from '../solve/solved-point';
 import { railsByIndex } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
@@ -329,6 +331,8 @@ export function runCorners(ctx: CornerContext): Finding[] {
   const flat = reuse ? reuse.record.plans : plannedMeasurements(topology, structures);
   const withVoltages = structures.flatMap((_, i) => (columns[i].voltageNames.length > 0 ? [i] : []));
   let failedCount = 0;
+  // The structures read straight from the BJT table's columns (null until the first corner measured in full).
+  let direct: BipolarColumnsMeasurement | undefined | null = null;
   // A self-biased loop also balances at zero current, and a predicted start could keep a state the nominal start would not.
   const starts = ctx.predictStarts === false || (!ctx.loopFree && feedLoops(topology, structures).length > 0) ? undefined : new CornerStarts(specs, nominalC, nominal.x);
   for (const k of starts?.order() ?? specs.map((_, k) => k)) {
@@ -365,7 +369,12 @@ export function runCorners(ctx: CornerContext): Finding[] {
     // A corner that did not converge last time has no figures to keep: every structure is measured there.
     const only = reuse?.record.converged[k] === 1 ? touchedOnly : undefined;
     if (only) measureListed(flat, readerOf(op, topology), buffers, k, only);
-    else measureCorner(flat, readerOf(op, topology), buffers, k);
+    else {
+      // Every corner's point is the solver's: which table and instance each device has is resolved at the first one.
+      const vec = pointVectors(op);
+      if (direct === null) direct = vec ? BipolarColumnsMeasurement.of(flat, vec) : undefined;
+      measureCorner(flat, readerOf(op, topology), buffers, k, direct && vec instanceof SolvedVectors ? direct : undefined, vec);
+    }
     for (const i of withVoltages) {
       if (only && reuse!.touched[i] !== 1) continue;
       const col = columns[i];
@@ -556,11 +565,15 @@ export class CornerBuffers {
  * Measures every planned structure at corner k into `buffers`, straight into the circuit-wide buffers
  * (one sink for all, moved to each structure's first output), figures that are not finite as 0.
  */
-function measureCorner(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number): void {
+function measureCorner(flat: MeasurementPlans, reader: PointIndexReader, buffers: CornerBuffers, k: number, direct: BipolarColumnsMeasurement | undefined, vec: unknown): void {
   // Each loop is a function of its own: a function compiled while its first loop ran held code for the
   // second that had never run, and gave up its compiled code at every corner.
-  measureEachStructure(flat, reader, buffers, k);
-  keepFiniteFigures(buffers.sink, flat.outStart[flat.outStart.length - 1], buffers.corners, k);
+  // Read from the columns, non-finite figures are made 0 as they are written.
+  if (direct) direct.measure(flat, vec as SolvedVectors, reader, buffers.sink, buffers.iref, buffers.corners, k);
+  else {
+    measureEachStructure(flat, reader, buffers, k);
+    keepFiniteFigures(buffers.sink, flat.outStart[flat.outStart.length - 1], buffers.corners, k);
+  }
 }
 
 /** Every planned structure's IREF and output figures at corner k into `buffers` (see `measureCorner`). */

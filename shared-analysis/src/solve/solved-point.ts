@@ -207,6 +207,31 @@ export class SolvedVectors implements PointVectors {
     return inRange(val) ? val : quietClamp(val);
   }
 
+  /**
+   * The device table of element e's record and its instance there (−1, −1 for an element without a device record): fixed
+   * for every point of one solver, so a reader of many points (the corner phase's measurement) resolves them once and then
+   * reads `tableColumns` straight.
+   */
+  deviceTableOf(e: number): number {
+    const k = this.slotOf(e);
+    return k > -2 ? -1 : this.deviceOrder.table[-k - 2];
+  }
+
+  deviceInstanceOf(e: number): number {
+    const k = this.slotOf(e);
+    return k > -2 ? -1 : this.deviceOrder.instance[-k - 2];
+  }
+
+  /** Table t's columns at this point (what `quantity` and `region` read). */
+  tableColumns(t: number): DeviceColumns {
+    return this.values.columns[t];
+  }
+
+  /** Table t's region names, by the codes of its columns' `region`. */
+  tableRegions(t: number): readonly string[] {
+    return this.tables[t].kind.regions;
+  }
+
   /** The element's record type (filled for every element by the solver's first point: a kind's records all have one type, which one record per table tells). */
   type(e: number): DeviceRecord['type'] | undefined {
     if (!(e >= 0 && e < this.slot.length)) return undefined;
