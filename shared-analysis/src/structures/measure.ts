@@ -102,10 +102,10 @@ function scratchSink(count: number): OutputSink {
 }
 
 // Bits of `MeasurementPlans.devFlags`: the device is bipolar; its output, control or common terminal is on the reference node.
-const DEV_BIPOLAR = 1;
-const DEV_OUT = 2;
-const DEV_CTRL = 4;
-const DEV_COMMON = 8;
+export const DEV_BIPOLAR = 1;
+export const DEV_OUT = 2;
+export const DEV_CTRL = 4;
+export const DEV_COMMON = 8;
 
 /**
  * The measurements of many structures with every name resolved to an element or node index, in flat
@@ -224,6 +224,12 @@ export function plannedMeasurements(topo: Topology, structures: readonly Structu
   const plans = planMeasurements(topo, structures);
   planCache.set(structures, { topo, count: structures.length, plans });
   return plans;
+}
+
+/** The plans `plannedMeasurements` made for this list of structures and topology, or undefined when it made none (nothing is planned here). */
+export function knownPlans(topo: Topology, structures: readonly Structure[]): MeasurementPlans | undefined {
+  const known = planCache.get(structures);
+  return known && known.topo === topo && known.count === structures.length ? known.plans : undefined;
 }
 
 /**

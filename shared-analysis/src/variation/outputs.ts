@@ -2,6 +2,7 @@
 
 import type { Circuit } from '../circuit';
 import { deviceKindOf } from '../devices/registry';
+import { DEV_BIPOLAR, DEV_COMMON, DEV_CTRL, DEV_OUT, knownPlans, type MeasurementPlans } from '../structures/measure';
 import { isBipolar, polaritySign, topologyOf } from '../structures/topology';
 import type { Structure } from '../structures/types';
 import type { OutputFunctional, OutputTerm } from './sensitivity';
@@ -35,6 +36,30 @@ export function elementCurrent(circuit: Circuit, index: number): OutputFunctiona
   return undefined;
 }
 
+/**
+ * IREF's terms of structure k from its measurement plan, as the look-ups below make them, with its devices' elements into
+ * `devices` from `first`; false (nothing written) unless every device of the structure was planned (each is a transistor of
+ * the circuit and its reference node is one) and it has no parts, whose terms the look-ups below make.
+ */
+function plannedIref(plans: MeasurementPlans, k: number, s: Structure, devices: StructureDevices, first: number): OutputTerm[] | false {
+  const from = plans.devStart[k];
+  const count = s.devices.length;
+  if (count === 0 || plans.devStart[k + 1] - from !== count || (s.parts !== undefined && Object.keys(s.parts).length > 0)) return false;
+  const terms: OutputTerm[] = [];
+  for (let d = 0; d < count; d++) {
+    const i = plans.devE[from + d];
+    const flags = plans.devFlags[from + d];
+    devices.index[first + d] = i;
+    // Currents into the terminals on the reference node (record convention: into the terminal); a MOSFET's gate draws none.
+    if (flags & DEV_OUT) terms.push({ kind: 'terminal', element: i, terminal: 0, weight: 1 });
+    if (flags & DEV_BIPOLAR || plans.devRecord[from + d] === 'jfet') {
+      if (flags & DEV_CTRL) terms.push({ kind: 'terminal', element: i, terminal: 1, weight: 1 });
+      if (flags & DEV_COMMON) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
+    } else if (flags & DEV_COMMON) terms.push({ kind: 'terminal', element: i, terminal: 2, weight: 1 });
+  }
+  return terms;
+}
+
 /** What a structure without parts or produced voltages lists (one shared empty list, not one made per structure). */
 const NO_NAMES: readonly string[] = [];
 const NO_VOLTAGES: Readonly<NonNullable<Structure['voltages']>> = [];
@@ -48,14 +73,20 @@ const NO_VOLTAGES: Readonly<NonNullable<Structure['voltages']>> = [];
 export function structureOutputs(circuit: Circuit, structures: readonly Structure[], devices: StructureDevices = structureDeviceSlots(structures)): OutputSpec[] {
   const topo = topologyOf(circuit);
   const indexOf = topo.elementIndex;
+  // The measurement's plans of this list (made by the nominal check) hold each device's element and the terminals it has on
+  // the reference node, which IREF sums: read there, not looked up by name again (five look-ups per structure).
+  const plans = knownPlans(topo, structures);
   const out: OutputSpec[] = [];
   // Indexed loops: a for-of step makes an iterator result object until the function is optimised (once per structure,
   // device and output here).
   for (let k = 0; k < structures.length; k++) {
     const s = structures[k];
-    const refNode = topo.nodeIndex.get(s.reference.node);
     const first = devices.start[k];
-    if (refNode === undefined) for (let d = 0; d < s.devices.length; d++) devices.index[first + d] = indexOf.get(s.devices[d]) ?? -1;
+    const planned = plans !== undefined && plannedIref(plans, k, s, devices, first);
+    const refNode = planned ? undefined : topo.nodeIndex.get(s.reference.node);
+    if (planned) {
+      if (planned.length > 0) out.push({ key: `${s.id} iref`, label: 'IREF', unit: 'A', role: 'iref', structure: s.id, element: s.reference.device, functional: { terms: planned, magnitude: true } });
+    } else if (refNode === undefined) for (let d = 0; d < s.devices.length; d++) devices.index[first + d] = indexOf.get(s.devices[d]) ?? -1;
     else {
       const terms: OutputTerm[] = [];
       for (let d = 0; d < s.devices.length; d++) {

@@ -4,6 +4,8 @@
 
 import { describe, expect, it } from 'vitest';
 import { structureOutputs } from '../../../shared-analysis/src/variation/outputs';
+import { knownPlans, plannedMeasurements } from '../../../shared-analysis/src/structures/measure';
+import { topologyOf } from '../../../shared-analysis/src/structures/topology';
 import { structureDevices, structureDeviceSlots } from '../../../shared-analysis/src/variation/sources';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
 import { circuitOf } from '../fixes/elaborated';
@@ -45,5 +47,36 @@ describe('structure device indices filled by the outputs', () => {
       const names = circuit.elements.map((e) => e.name);
       list.forEach((s, k) => s.devices.forEach((d, j) => expect(filled.index[filled.start[k] + j]).toBe(names.lastIndexOf(d))));
     }
+  });
+
+  it('are the same, with the same outputs, when read from the measurement plans the nominal check made of the list', () => {
+    // Invented: the two mirrors above and an NMOS mirror, whose gates draw no current.
+    const circuit = circuitOf(CELLS.replace('.end', '.model NM NMOS (KP=1e-4 VTO=0.6)\nIM vcc g 50u\nM1 g g 0 0 NM W=10u L=1u\nM2 h g 0 0 NM W=10u L=1u\nRH vcc h 20k\n.end'));
+    const structures = recogniseStructures(circuit);
+    expect(structures.length).toBe(3);
+    const topo = topologyOf(circuit);
+    // A list nobody planned is read by the look-ups; the same structures in a list the nominal check planned, from its plans.
+    const looked = [...structures];
+    const planned = [...structures];
+    plannedMeasurements(topo, planned);
+    expect(knownPlans(topo, looked)).toBeUndefined();
+    expect(knownPlans(topo, planned)).toBeDefined();
+    const filledLooked = structureDeviceSlots(looked);
+    const filledPlanned = structureDeviceSlots(planned);
+    const a = structureOutputs(circuit, looked, filledLooked);
+    const b = structureOutputs(circuit, planned, filledPlanned);
+    expect(b).toEqual(a);
+    expect(Array.from(filledPlanned.index)).toEqual(Array.from(filledLooked.index));
+    // Kirchhoff's current law at the NPN mirror's reference node a: its reference collector and all three bases are there;
+    // at the NMOS mirror's g only the reference drain is (a MOSFET's gate draws no DC current).
+    const at = (name: string) => circuit.elements.findIndex((e) => e.name === name);
+    const irefOf = (device: string) => b.find((o) => o.role === 'iref' && o.element === device)!.functional.terms;
+    expect(irefOf('Q1')).toEqual([
+      { kind: 'terminal', element: at('Q1'), terminal: 0, weight: 1 },
+      { kind: 'terminal', element: at('Q1'), terminal: 1, weight: 1 },
+      { kind: 'terminal', element: at('Q2'), terminal: 1, weight: 1 },
+      { kind: 'terminal', element: at('Q3'), terminal: 1, weight: 1 },
+    ]);
+    expect(irefOf('M1')).toEqual([{ kind: 'terminal', element: at('M1'), terminal: 0, weight: 1 }]);
   });
 });
