@@ -812,9 +812,10 @@ function structuresForJson(structures: readonly Structure[], detail: JsonDetail,
  * to the native JSON writer in one call (a structure written member by member cost about twice as much).
  */
 function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: string) => string): Record<string, unknown> {
+  const keys = Object.keys(s);
+  if (sameNames(keys, STRUCTURE_FIELDS)) return structureEntry(s, detail, keyOf);
   const out: Record<string, unknown> = {};
   const fields = s as unknown as Record<string, unknown>;
-  const keys = Object.keys(s);
   for (let i = 0; i < keys.length; i++) {
     const k = keys[i]!;
     if (k === 'corners') {
@@ -822,7 +823,7 @@ function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: strin
       if (summary) out['cornerSummary'] = summary;
       if (detail.allCorners) out['corners'] = s.corners;
     } else if (k === 'estimate' && s.estimate && !detail.handAnalysisSteps) {
-      out[k] = withoutMember(s.estimate as unknown as Record<string, unknown>, 'steps');
+      out[k] = estimateForJson(s.estimate);
     } else if (k === 'variation' && s.variation) {
       out[k] = structureSpreadForJson(s.variation, detail);
     } else {
@@ -834,6 +835,62 @@ function structureForJson(s: Structure, detail: JsonDetail, keyOf: (label: strin
     }
   }
   return out;
+}
+
+/**
+ * A structure's fields in the order recognition makes them (`toStructure`, structures/recognise.ts). A structure whose
+ * own names are these, in this order, gets its entry from `structureEntry`; any other (a structure copied or made
+ * elsewhere) is copied name by name by `structureForJson`, to the same text.
+ */
+const STRUCTURE_FIELDS: readonly string[] = ['id', 'kind', 'technology', 'devices', 'roles', 'reference', 'outputs', 'parts', 'params', 'voltages', 'instance', 'headroom', 'compliance', 'outputResistance', 'corners', 'solved', 'estimate', 'discrepancy', 'startup', 'variation'];
+
+/**
+ * `structureForJson` of a structure with `STRUCTURE_FIELDS`, made by one object literal: the copy name by name added
+ * each member by a store with a computed name, which V8 does through its runtime (a look-up of the next layout per
+ * member, about 20 per structure). A member left undefined is one the native writer drops, as the copy did.
+ */
+function structureEntry(s: Structure, detail: JsonDetail, keyOf: (label: string) => string): Record<string, unknown> {
+  const estimate = s.estimate && !detail.handAnalysisSteps ? estimateForJson(s.estimate) : s.estimate;
+  return {
+    id: s.id,
+    kind: s.kind,
+    technology: s.technology,
+    devices: s.devices,
+    roles: s.roles,
+    reference: s.reference,
+    outputs: s.outputs,
+    parts: s.parts,
+    params: s.params,
+    voltages: s.voltages,
+    instance: s.instance,
+    headroom: s.headroom,
+    compliance: s.compliance,
+    outputResistance: s.outputResistance,
+    cornerSummary: cornerSummary(s, keyOf),
+    corners: detail.allCorners ? s.corners : undefined,
+    solved: s.solved,
+    estimate,
+    discrepancy: s.discrepancy,
+    startup: s.startup,
+    variation: s.variation ? structureSpreadForJson(s.variation, detail) : s.variation,
+  };
+}
+
+/** Whether `names` are `expected`, in that order. */
+function sameNames(names: readonly string[], expected: readonly string[]): boolean {
+  if (names.length !== expected.length) return false;
+  for (let i = 0; i < names.length; i++) if (names[i] !== expected[i]) return false;
+  return true;
+}
+
+/** An estimate's fields in the order the hand analysis makes them for the mirrors (`steps` left out of the JSON by default). */
+const ESTIMATE_FIELDS: readonly string[] = ['iref', 'iout', 'vControl', 'irefShortcut', 'steps', 'irefFrom', 'starved', 'supply', 'outputEdge'];
+
+/** A structure's estimate without its `steps`: by one literal when it has `ESTIMATE_FIELDS`, else copied name by name. */
+function estimateForJson(estimate: NonNullable<Structure['estimate']>): Record<string, unknown> {
+  const e = estimate as unknown as Record<string, unknown>;
+  if (!sameNames(Object.keys(e), ESTIMATE_FIELDS)) return withoutMember(e, 'steps');
+  return { iref: e['iref'], iout: e['iout'], vControl: e['vControl'], irefShortcut: e['irefShortcut'], irefFrom: e['irefFrom'], starved: e['starved'], supply: e['supply'], outputEdge: e['outputEdge'] };
 }
 
 /**
@@ -852,23 +909,35 @@ function withoutMember(o: Record<string, unknown>, left: string): Record<string,
 
 /** A structure's spread as JSON shows it: every output (`iref`, and each of `iout` and `voltages`) through `spreadForJson`. */
 function structureSpreadForJson(v: NonNullable<Structure['variation']>, detail: JsonDetail): unknown {
-  const out: Record<string, unknown> = {};
   const fields = v as unknown as Record<string, unknown>;
   const keys = Object.keys(v);
+  // A mirror's spread (its reference current and its outputs' currents) by one literal; any other member by name.
+  if (sameNames(keys, MIRROR_SPREAD_FIELDS)) {
+    const iref = fields['iref'] as OutputVariation | undefined;
+    return { iref: iref === undefined ? undefined : spreadForJson(iref, detail, true), iout: spreadTableForJson(fields['iout'], detail) };
+  }
+  const out: Record<string, unknown> = {};
   for (let i = 0; i < keys.length; i++) {
     const k = keys[i]!;
     const x = fields[k];
     if (x === undefined) continue;
     if (k === 'iref') out[k] = spreadForJson(x as OutputVariation, detail, true);
-    else {
-      const outputs = x as Record<string, OutputVariation>;
-      const table = nameTable<unknown>();
-      const names = Object.keys(outputs);
-      for (let j = 0; j < names.length; j++) table[names[j]!] = spreadForJson(outputs[names[j]!]!, detail, true);
-      out[k] = table;
-    }
+    else out[k] = spreadTableForJson(x, detail);
   }
   return out;
+}
+
+/** The members of a mirror's spread, in the order the spread analysis makes them. */
+const MIRROR_SPREAD_FIELDS: readonly string[] = ['iref', 'iout'];
+
+/** A name-keyed table of a structure's output spreads (`iout`, `voltages`) as JSON shows it; undefined stays undefined (left out). */
+function spreadTableForJson(x: unknown, detail: JsonDetail): unknown {
+  if (x === undefined) return undefined;
+  const outputs = x as Record<string, OutputVariation>;
+  const table = nameTable<unknown>();
+  const names = Object.keys(outputs);
+  for (let j = 0; j < names.length; j++) table[names[j]!] = spreadForJson(outputs[names[j]!]!, detail, true);
+  return table;
 }
 
 /** How many of an output's ranked spread contributors the JSON keeps without `--spread-breakdown`: the three the hover names. */
@@ -894,10 +963,11 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
   if (detail.spreadBreakdown && !inStructure) return o;
   // Member by member in the output's order, the contributors last unless all are written (a rest
   // and a spread of the object cost about as much as writing it, for 10,000 outputs of a large array).
-  const out: Record<string, unknown> = {};
   const fields = o as unknown as Record<string, unknown>;
   const breakdown = !!detail.spreadBreakdown;
   const keys = Object.keys(o);
+  if (inStructure && !breakdown && sameNames(keys, SPREAD_FIELDS)) return structureOutputSpread(o);
+  const out: Record<string, unknown> = {};
   for (let i = 0; i < keys.length; i++) {
     const k = keys[i]!;
     if (inStructure && isOneOf(k, IMPLIED_IN_STRUCTURE)) continue;
@@ -905,6 +975,26 @@ function spreadForJson(o: OutputVariation, detail: JsonDetail, inStructure = fal
   }
   if (!breakdown) out['contributors'] = leadingContributors(o, CONTRIBUTORS_BY_DEFAULT);
   return out;
+}
+
+/** An output's spread fields in the order the spread analysis makes them (variation/index.ts). */
+const SPREAD_FIELDS: readonly string[] = ['output', 'key', 'unit', 'structure', 'element', 'nominal', 'sigma', 'sigmaRelative', 'worstCase', 'worstCaseRelative', 'tempcoPpmPerC', 'supplyPercentPerVolt', 'contributors', 'sensitivities'];
+
+/**
+ * `spreadForJson` of a structure's output with `SPREAD_FIELDS` and no `--spread-breakdown`, by one literal: what its
+ * place does not say (`IMPLIED_IN_STRUCTURE` left out), its three largest contributors, no sensitivities.
+ */
+function structureOutputSpread(o: OutputVariation): unknown {
+  return {
+    nominal: o.nominal,
+    sigma: o.sigma,
+    sigmaRelative: o.sigmaRelative,
+    worstCase: o.worstCase,
+    worstCaseRelative: o.worstCaseRelative,
+    tempcoPpmPerC: o.tempcoPpmPerC,
+    supplyPercentPerVolt: o.supplyPercentPerVolt,
+    contributors: leadingContributors(o, CONTRIBUTORS_BY_DEFAULT),
+  };
 }
 
 /** A structure's corners summarised per output, or undefined when none were solved. */

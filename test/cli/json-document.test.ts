@@ -107,4 +107,49 @@ describe('the JSON document: spreads under their structures', () => {
       });
     });
   });
+
+  it('writes each structure as its own fields in their order, corners summarised, the estimate without its steps, however the entry is made', () => {
+    // README, "JSON output": a structure's entry is its fields with `corners` replaced by `cornerSummary` (both with
+    // --all-corners) and the estimate's `steps` left out (kept with --hand-analysis-steps); a field left undefined is
+    // absent, as JSON.stringify leaves it (ECMA-262, SerializeJSONObject). Worked out here from each structure's own fields.
+    const uri = '/bench/spread.cir';
+    const analysis = analyseSession({ uri, text: NETLIST }, new MemoryWorkspace({ [uri]: NETLIST })).analysis;
+    const plain = (v: unknown): unknown => (v === undefined ? undefined : JSON.parse(JSON.stringify(v)));
+    const entries = (structures: Structure[], detail: { allCorners?: boolean; handAnalysisSteps?: boolean }): Written[] =>
+      (JSON.parse(JSON.stringify(jsonReport([{ path: uri, absolute: uri, analysis: { ...analysis, structures } }] as never, detail))) as { files: { structures: Written[] }[] }).files[0]!.structures;
+    // The analysed structures (fields in recognition's order), and copies with a field of their own after those, whose
+    // entries the CLI makes another way (field by field).
+    const reordered = analysis.structures.map((s) => {
+      const copy: Record<string, unknown> = {};
+      for (const k of Object.keys(s)) copy[k] = (s as unknown as Record<string, unknown>)[k];
+      copy['note'] = 'copied';
+      return copy as unknown as Structure;
+    });
+    let checked = 0;
+    for (const structures of [analysis.structures, reordered]) {
+      for (const detail of [{}, { allCorners: true, handAnalysisSteps: true }]) {
+        const written = entries(structures, detail);
+        structures.forEach((s, i) => {
+          const fields = s as unknown as Record<string, unknown>;
+          const entry = written[i]!;
+          const names = Object.keys(s).filter((k) => fields[k] !== undefined).flatMap((k) => (k === 'corners' ? ('allCorners' in detail ? ['cornerSummary', 'corners'] : ['cornerSummary']) : [k]));
+          expect(Object.keys(entry)).toEqual(names);
+          for (const k of names) {
+            if (k === 'cornerSummary' || k === 'variation') continue;
+            if (k === 'estimate' && !('handAnalysisSteps' in detail)) {
+              const { steps: _steps, ...rest } = s.estimate!;
+              expect(Object.keys(entry[k] as object)).toEqual(Object.keys(plain(rest) as object));
+              expect(entry[k]).toEqual(plain(rest));
+            } else expect(entry[k]).toEqual(plain(fields[k]));
+          }
+          // The spread keeps its outputs' tables in their order (what each output keeps: the test above).
+          if (s.variation) expect(Object.keys(entry['variation'] as object)).toEqual(Object.keys(s.variation).filter((k) => (s.variation as Record<string, unknown>)[k] !== undefined));
+          checked++;
+        });
+      }
+    }
+    // Three structures (two mirrors and a VBE multiplier, whose estimate has other fields), two ways, two levels of detail.
+    expect(checked).toBe(12);
+  });
 });
+
