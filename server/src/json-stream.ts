@@ -355,9 +355,21 @@ class JsonWriter {
  * writes in one call: its text without the brackets is the items' text with their separators and indentation,
  * as writing them one by one gives. A call per item (a device record, a structure) cost more than writing the
  * item. It also keeps the separator before the next piece ("[" or "{" first, then ",") and closes the list.
+ *
+ * An object's members are kept as a list of names and a list of values. Compact, when every value is a number or
+ * every value a plain record, the values go to the native writer as a list and the names are put in front of their
+ * texts here (`memberText`): no object keyed by the names is made, so the names (a netlist's node and element names,
+ * hundreds of thousands in a large table) are not made into property keys, and the native writer takes no
+ * dictionary object's slow path. Otherwise the members are gathered into an object without a prototype as before.
  */
 class Batch {
-  private items: unknown[] | Record<string, unknown> | undefined = undefined;
+  private items: unknown[] | undefined = undefined;
+  /** An object's gathered members: names and values by position. */
+  private readonly names: string[] = [];
+  private readonly values: unknown[] = [];
+  /** The UTF-16 units of the gathered names. */
+  private nameUnits = 0;
+  /** The values (numbers, strings, members, items) gathered by `add`. */
   private used = 0;
   /** Items (members) gathered since the last write. */
   count = 0;
@@ -388,16 +400,28 @@ class Batch {
 
   /** Takes the item (member `key` of an object) unweighed: its caller counts. */
   take(item: unknown, key?: string): void {
-    if (this.list) ((this.items ??= []) as unknown[]).push(item);
-    else ((this.items ??= Object.create(null) as Record<string, unknown>) as Record<string, unknown>)[key!] = item;
+    if (this.list) (this.items ??= []).push(item);
+    else {
+      this.names.push(key!);
+      this.values.push(item);
+      this.nameUnits += key!.length;
+    }
     this.count++;
   }
 
   /** Writes what was gathered (after the separator before it) and starts again. */
   write(): void {
-    if (this.items === undefined) return;
-    const text = this.writer.native(this.items, this.indent);
-    this.items = undefined;
+    if (this.count === 0) return;
+    let text: string;
+    if (this.list) {
+      text = this.writer.native(this.items, this.indent);
+      this.items = undefined;
+    } else {
+      text = (this.writer.step ? undefined : memberText(this.names, this.values, this.nameUnits)) ?? this.writer.native(gathered(this.names, this.values), this.indent);
+      this.names.length = 0;
+      this.values.length = 0;
+      this.nameUnits = 0;
+    }
     this.used = 0;
     this.count = 0;
     this.writer.emitInside(this.separator(), text, this.indent);
@@ -410,6 +434,54 @@ class Batch {
     if (this.first) w.emit(this.list ? '[]' : '{}');
     else w.emit((w.step ? '\n' + this.indent : '') + (this.list ? ']' : '}'));
   }
+}
+
+/** The members `names[i]`: `values[i]` as an object without a prototype, in their order (no name is integer-like). */
+function gathered(names: readonly string[], values: readonly unknown[]): Record<string, unknown> {
+  const o: Record<string, unknown> = Object.create(null);
+  for (let i = 0; i < names.length; i++) o[names[i]!] = values[i];
+  return o;
+}
+
+/**
+ * The compact text of the object of members `names[i]`: `values[i]` (distinct names, none integer-like, `nameUnits`
+ * their UTF-16 units), as `JSON.stringify` writes it, from one native call on the values; undefined where this way
+ * cannot be sure of it, for the caller to write the object. Every value a number: the list's text is the numbers' texts
+ * joined by commas, and a number's text holds none. Every value a plain record (an object of `Object.prototype` with
+ * no `toJSON`): the list's text is the records' texts joined by "},{", which is found once between each two records and
+ * elsewhere only inside a string, so a split into exactly as many parts as there are records finds them all and only
+ * them. A name is written between quotes as it is when none of them needs an escape: the names' list is then exactly
+ * as long as their units, their quotes, the commas and the brackets.
+ */
+function memberText(names: readonly string[], values: readonly unknown[], nameUnits: number): string | undefined {
+  const n = names.length;
+  const numbers = allNumbers(values);
+  if (!numbers && !allPlainRecords(values)) return undefined;
+  if (JSON.stringify(names).length !== nameUnits + 3 * n + 1) return undefined;
+  const text = JSON.stringify(values);
+  const parts = text.slice(1, text.length - 1).split(numbers ? ',' : '},{');
+  if (parts.length !== n) return undefined;
+  // A record's part has lost the "}" after it and the "{" before it to the split, but for the first one's "{" and the last one's "}".
+  const before = numbers ? ',"' : '},"';
+  const after = numbers ? '":' : '":{';
+  const pieces: string[] = ['{"', names[0]!, '":', parts[0]!];
+  for (let i = 1; i < n; i++) pieces.push(before, names[i]!, after, parts[i]!);
+  pieces.push('}');
+  return pieces.join('');
+}
+
+function allNumbers(values: readonly unknown[]): boolean {
+  for (let i = 0; i < values.length; i++) if (typeof values[i] !== 'number') return false;
+  return true;
+}
+
+/** Whether every value is an object the native writer writes as an object of its own members: of `Object.prototype`, without `toJSON`. */
+function allPlainRecords(values: readonly unknown[]): boolean {
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
+    if (v === null || typeof v !== 'object' || Object.getPrototypeOf(v) !== Object.prototype || typeof (v as { toJSON?: unknown }).toJSON === 'function') return false;
+  }
+  return true;
 }
 
 /**

@@ -124,6 +124,49 @@ describe('writeJson', () => {
     }
   });
 
+  it('writes gathered members whose values are all numbers or all plain records as JSON.stringify writes their object', () => {
+    // Compact, such a batch is written from the values' list and the names put before their texts: the values' texts
+    // are found by the commas between numbers and the "},{" between records, which a record's strings may also hold.
+    // Each case below is one way that must still give JSON.stringify's text (ECMA-262, SerializeJSONObject).
+    class Shaped {
+      constructor(readonly a: number) {}
+    }
+    const tricky = ['},{', '"},{"', 'a,b', '\\', '"', '\n', '\u2028', 'µ−°', '\ud83d\ude00', '\ud800', ''];
+    const names: [string, (i: number) => string][] = [
+      ['plain', (i) => `R${i}`],
+      ['escaped', (i) => (i % 37 === 5 ? `R${i}${tricky[i % tricky.length]}` : `R${i}`)],
+      ['non-ASCII', (i) => `Q${i}µ°−`],
+    ];
+    const values: [string, (i: number) => unknown][] = [
+      ['numbers', (i) => [i / 7, -0, NaN, Infinity, 1e21, 5e-324][i % 6]],
+      ['records', (i) => ({ type: 'resistor', current: i * 1e-6, voltage: i % 3 ? 1 : -0, power: NaN })],
+      ['records holding "},{"', (i) => ({ name: tricky[i % tricky.length], list: [{ a: i }, { b: [i, { c: '},{' }] }], deep: { x: {} } })],
+      ['empty records', () => ({})],
+      ['records, one with toJSON', (i) => (i === 700 ? { toJSON: () => 'seven hundred' } : { i })],
+      ['records, one of a class', (i) => (i === 900 ? new Shaped(i) : { a: i })],
+      ['records, one without a prototype', (i) => (i === 1100 ? Object.assign(Object.create(null), { a: i }) : { a: i })],
+      ['numbers, one boxed', (i) => (i === 300 ? Object(7) : i)],
+      ['numbers, one a date', (i) => (i === 300 ? new Date(0) : i)],
+      ['records, one a list', (i) => (i === 50 ? [{ a: 1 }, { b: 2 }] : { a: i })],
+      // As many "},{" as a batch of records has separators, none of them between records.
+      ['strings holding "},{"', (i) => (i === 0 ? '' : '},{')],
+    ];
+    let cases = 0;
+    for (const [, nameOf] of names) {
+      for (const [, valueAt] of values) {
+        const entries = new JsonEntries(function* () {
+          for (let i = 0; i < 3000; i++) yield [nameOf(i), valueAt(i)];
+        }, true);
+        const plain: Record<string, unknown> = {};
+        for (let i = 0; i < 3000; i++) plain[nameOf(i)] = valueAt(i);
+        expect(written({ t: entries }).text).toBe(JSON.stringify({ t: plain }));
+        expect(written({ t: entries }, 2).text).toBe(JSON.stringify({ t: plain }, null, 2));
+        cases++;
+      }
+    }
+    expect(cases).toBe(33);
+  });
+
   it('hands a long document over in pieces, never as one string', () => {
     const rows = new JsonEntries(function* () {
       for (let i = 0; i < 50000; i++) yield [`R${i}`, { type: 'resistor', current: i * 1e-6, voltage: 1, power: i * 1e-6 }];
