@@ -16,6 +16,7 @@ import { expressionOf, tokenValue, type ValueResult } from './values';
 import { pushAll } from '../arrays';
 import { lowerCase, nameTable } from '../names';
 import { Branches } from './branches';
+import { KeyTable } from './key-table';
 
 /** Per-call elaboration settings. */
 export interface ElaborateOptions {
@@ -158,7 +159,7 @@ class Elaborator {
    * `elementNameKey` of each hierarchical name -> its place in `namedItems` (elements and instances), for duplicates;
    * kept with the circuit (`keepElaboratedNames`), with `elementAt`, for the topology's name questions.
    */
-  private readonly names = new Map<string, number>();
+  private readonly names = new KeyTable();
   /** By place in `names`, the card that first used the name. */
   private readonly namedItems: Located<ElementCard>[] = [];
   /** By place in `names`, the index of the element made from the card in `elements`, or -1 (an instance, a card left out). */
