@@ -4,13 +4,13 @@
 const MAX_PROBES = 64;
 
 /**
- * String key -> non-negative integer, for the elaborator's table of every element name (100,000 names at 100k
- * elements, each looked up once and added once). Read through `get` alone by the topology (`ElaboratedNames`), where
+ * String key -> non-negative integer, for the elaborator's table of every element name in a netlist of 50,000 cards
+ * or more (100,000 names at 100k elements, each looked up once and added once; a smaller netlist uses a Map). Read through `get` alone by the topology (`ElaboratedNames`), where
  * it answers as the Map it replaces did.
  *
  * Open addressing with linear probing over three parallel arrays (hashes and values typed), kept at most half full,
- * the hash computed from the key's characters: at 100k elements about 15-20 ms less of the elaboration's CPU than a
- * Map (docs/PERFORMANCE.md, "Parse and elaboration at 100k (2026-12-05, early)"). The hash starts from a seed of the
+ * the hash computed from the key's characters: at 100k elements about 20 ms less of the elaboration's CPU than a Map
+ * (docs/PERFORMANCE.md, "Parse and elaboration at 100k (2026-12-05, early)"). The hash starts from a seed of the
  * table's own, so names cannot be chosen in advance to collide; a key whose probe still runs past
  * `MAX_PROBES` slots doubles the table while it is less than eight times larger than its keys need, and beyond that
  * the probe goes on (answers stay exact; only the time changes).

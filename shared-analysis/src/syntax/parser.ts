@@ -29,7 +29,7 @@ import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
 import { NO_ASSIGNMENTS, ParsedElementCard, keptAssignments } from './element-card';
-import { SharedTexts } from './shared-texts';
+import { LARGE_TEXT, MAX_SHARED_TEXTS, SharedTexts } from './shared-texts';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -177,7 +177,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new SharedTexts(), fields: [], lexemes: new LexemeList() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, text.length >= LARGE_TEXT), fields: [], lexemes: new LexemeList() };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -301,7 +301,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
  * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
  */
 export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new SharedTexts(), fields: [], lexemes: new LexemeList() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, false), fields: [], lexemes: new LexemeList() };
   return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
 }
 
@@ -455,7 +455,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new SharedTexts(), fields: [], lexemes: new LexemeList() };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, false), fields: [], lexemes: new LexemeList() };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;

@@ -7,6 +7,9 @@
  */
 export const MAX_SHARED_TEXTS = 1 << 20;
 
+/** Characters from which a netlist's shared texts are kept in the open table rather than a Map (1 MiB; the 100k-element sink array is 2.4 MB, the 20k one 0.45 MB). */
+export const LARGE_TEXT = 1 << 20;
+
 /** Slots looked at for one text before it is given a string of its own (a run of texts whose hashes collide). */
 const MAX_PROBES = 32;
 
@@ -29,14 +32,35 @@ export class SharedTexts {
   /** How many texts are held. */
   size = 0;
 
-  constructor(private readonly limit = MAX_SHARED_TEXTS) {
-    this.keys = new Array<string | undefined>(256).fill(undefined);
-    this.hashes = new Int32Array(256);
-    this.mask = 255;
+  /**
+   * The table of a netlist of fewer than `LARGE_TEXT` characters: a Map keyed by each field's string, which costs a
+   * string per lookup but no code to compile and warm up (at 20,000 elements the open table's code took longer to get
+   * fast than it saves: docs/PERFORMANCE.md, "Parse and elaboration at 100k (2026-12-05, early)").
+   */
+  private readonly small: Map<string, string> | undefined;
+
+  /** `large`: whether the netlist is large enough for the open table (`LARGE_TEXT`); else a Map. */
+  constructor(private readonly limit = MAX_SHARED_TEXTS, large = true) {
+    const capacity = large ? 256 : 1;
+    this.keys = new Array<string | undefined>(capacity).fill(undefined);
+    this.hashes = new Int32Array(capacity);
+    this.mask = capacity - 1;
+    this.small = large ? undefined : new Map();
   }
 
   /** The string held for `text.slice(start, end)`; that slice, held from now on when there is room, if none is. */
   of(text: string, start: number, end: number): string {
+    const small = this.small;
+    if (small !== undefined) {
+      const own = text.slice(start, end);
+      const shared = small.get(own);
+      if (shared !== undefined) return shared;
+      if (small.size < this.limit) {
+        small.set(own, own);
+        this.size++;
+      }
+      return own;
+    }
     // FNV-1a over the UTF-16 code units (32-bit; from memory of its published constants).
     let h = 0x811c9dc5 | 0;
     for (let i = start; i < end; i++) h = Math.imul(h ^ text.charCodeAt(i), 0x01000193);

@@ -4,6 +4,10 @@
 import { describe, expect, it } from 'vitest';
 import { KeyTable } from '../../../shared-analysis/src/elaborate/key-table';
 import { rng } from '../../seeded-random';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
+import { parse } from '../../../shared-analysis/src/syntax/parser';
+import { MemoryWorkspace } from '../../../shared-analysis/src/types';
+import { topologyOf } from '../../../shared-analysis/src/structures/topology';
 
 describe('the elaborator\'s table of names', () => {
   it('answers every key as a Map filled in the same order does, for present and absent keys (seeded)', () => {
@@ -35,5 +39,38 @@ describe('the elaborator\'s table of names', () => {
     // A key made by concatenation (another string object of the same text) finds the same entry.
     table.set('QR12', 5);
     expect(table.get(['QR', '12'].join(''))).toBe(5);
+  });
+});
+
+describe('a netlist large enough for the table', () => {
+  it('reports repeated names and answers the topology\'s name questions as for a small one', () => {
+    // 60,000 resistors (past the 50,000 cards from which the elaborator keys names in a KeyTable), names in random
+    // case, some written twice; the expectations are worked out here from the list of names.
+    const random = rng(33);
+    const lines = ['large names'];
+    const written: string[] = [];
+    for (let i = 0; i < 60000; i++) {
+      const again = i > 10 && random() < 0.001;
+      const base = again ? written[Math.floor(random() * written.length)]! : `R${i}`;
+      const name = random() < 0.5 ? base.toLowerCase() : base.toUpperCase();
+      written.push(base);
+      lines.push(`${name} n${i % 500} 0 ${1 + (i % 9)}k`);
+    }
+    const text = lines.join('\n');
+    const uri = 'file:///large.cir';
+    const r = elaborate(parse(uri, text, { hasTitle: true }), new MemoryWorkspace({ [uri]: text }));
+    // Names compared without case: each base name's first card is kept, every later one is reported.
+    const seen = new Set<string>();
+    let repeats = 0;
+    for (const base of written) {
+      if (seen.has(base)) repeats++;
+      seen.add(base);
+    }
+    expect(repeats).toBeGreaterThan(10);
+    expect(r.findings.filter((f) => f.code === 'element-duplicate-name')).toHaveLength(repeats);
+    expect(r.circuit.elements).toHaveLength(seen.size);
+    const topology = topologyOf(r.circuit);
+    for (let k = 0; k < r.circuit.elements.length; k += 97) expect(topology.elementIndex.get(r.circuit.elements[k]!.name)).toBe(k);
+    expect(topology.elementIndex.get('R999999')).toBeUndefined();
   });
 });

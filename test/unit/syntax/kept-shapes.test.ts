@@ -90,9 +90,9 @@ describe('element cards keep the fields that are set, in a literal order', () =>
 });
 
 describe('the texts one parse shares', () => {
-  it('gives the text back as written, and stops adding texts at the limit', () => {
+  it.each([true, false])('gives the text back as written, and stops adding texts at the limit (open table: %s)', (large) => {
     const line = 'r0 vcc o0 r0 vcc';
-    const words = new SharedTexts(2);
+    const words = new SharedTexts(2, large);
     // Each answer is compared with String.prototype.slice of the same range (ECMAScript), the text as written.
     expect(words.of(line, 0, 2)).toBe('r0');
     expect(words.of(line, 3, 6)).toBe('vcc');

@@ -3,7 +3,7 @@
 // and a Set of those slices for the number of distinct texts.
 
 import { describe, expect, it } from 'vitest';
-import { SharedTexts } from '../../../shared-analysis/src/syntax/shared-texts';
+import { LARGE_TEXT, MAX_SHARED_TEXTS, SharedTexts } from '../../../shared-analysis/src/syntax/shared-texts';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
 import { rng } from '../../seeded-random';
 
@@ -19,7 +19,7 @@ function fnv1a(s: string): number {
 }
 
 describe('the field texts one parse shares', () => {
-  it('reads every range as its slice, and holds each distinct text once (seeded)', () => {
+  it.each([true, false])('reads every range as its slice, and holds each distinct text once (seeded; open table: %s)', (large) => {
     const random = rng(5);
     // ASCII names, digits and characters beyond ASCII, a surrogate pair among them (U+1D11E).
     const alphabet = [...'abrvcxo0129._', 'µ', 'Ω', '\u{1D11E}'];
@@ -32,7 +32,7 @@ describe('the field texts one parse shares', () => {
       ranges.push([text.length, text.length + word.length]);
       text += word + ' ';
     }
-    const words = new SharedTexts();
+    const words = new SharedTexts(MAX_SHARED_TEXTS, large);
     const distinct = new Set<string>();
     for (const [start, end] of ranges) {
       const expected = text.slice(start, end);
@@ -69,15 +69,17 @@ describe('the field texts one parse shares', () => {
     }
   });
 
-  it('gives every token of a parsed netlist the text of its span', () => {
+  it.each([3000, 60000])('gives every token of a parsed netlist of %i lines the text of its span', (count) => {
     const random = rng(9);
     const lines = ['shared texts'];
-    for (let i = 0; i < 3000; i++) {
+    for (let i = 0; i < count; i++) {
       const a = `n${Math.floor(random() * 400)}`;
       const b = random() < 0.3 ? 'vcc' : `N${Math.floor(random() * 400)}`;
       lines.push(random() < 0.5 ? `R${i} ${a} ${b} ${1 + Math.floor(random() * 9)}k` : `Q${i} ${a} ${b} 0 QN`);
     }
     const text = lines.join('\n');
+    // The smaller netlist shares its texts through a Map, the larger through the open table.
+    expect(text.length >= LARGE_TEXT).toBe(count > 3000);
     const doc = parse('file:///t.cir', text, { hasTitle: true });
     for (const card of doc.cards) for (const t of card.tokens ?? []) expect(t.text).toBe(text.slice(t.span.start, t.span.end));
   });
