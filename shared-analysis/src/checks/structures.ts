@@ -14,6 +14,7 @@ import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measurePlanned, plannedMeasurements, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
+import { recognisedTransistor } from '../structures/recognised';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -307,7 +308,9 @@ class StructureCheck implements ResistanceContext {
     }
     const known = this.records[at];
     if (known !== undefined) return known ?? undefined;
-    const rec = this.at.record(name);
+    // The element through the transistor recognition found for it (no look-up of the name), when it is one.
+    const e = this.topo.elementNamed(name, recognisedTransistor(this.s, at));
+    const rec = e === undefined ? this.at.record(name) : this.at.recordAt(e, name);
     this.records[at] = rec ?? null;
     return rec;
   }
@@ -321,7 +324,7 @@ class StructureCheck implements ResistanceContext {
     // The checks ask for the same few devices again and again (an output's several times): each is looked up in the
     // circuit's table once, and kept at its position in the structure's device list.
     const at = this.s.devices.indexOf(name);
-    const t = (at >= 0 ? this.transistors[at] : undefined) ?? this.topo.byName.get(name);
+    const t = (at >= 0 ? this.transistors[at] : undefined) ?? this.topo.transistorNamed(name, recognisedTransistor(this.s, at));
     if (!t) throw new Error(`device ${name} is not in the circuit`);
     if (at >= 0) this.transistors[at] = t;
     return t;

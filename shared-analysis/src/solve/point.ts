@@ -186,6 +186,8 @@ export function lazyPoint(head: { converged: boolean; temperatureC: number; iter
 export interface NamedPointReader {
   volts(node: string): number | undefined;
   record(element: string): DeviceRecord | undefined;
+  /** `record(element)` of the element at index `e` of the circuit indexed, the name's own (`elementIndex.get(element)`). */
+  recordAt(e: number, element: string): DeviceRecord | undefined;
 }
 
 /**
@@ -195,7 +197,7 @@ export interface NamedPointReader {
  */
 export function namedPointReader(op: OperatingPoint, names: { circuit: Circuit; nodeIndex: ReadonlyMap<string, number>; elementIndex: ReadonlyMap<string, number> }): NamedPointReader {
   const v = pointVectors(op);
-  if (!v || names.elementIndex.size !== names.circuit.elements.length) return { volts: (node) => op.nodes[node], record: (element) => op.devices[element] };
+  if (!v || names.elementIndex.size !== names.circuit.elements.length) return { volts: (node) => op.nodes[node], record: (element) => op.devices[element], recordAt: (_e, element) => op.devices[element] };
   return {
     volts: (node) => {
       const i = names.nodeIndex.get(node);
@@ -205,5 +207,6 @@ export function namedPointReader(op: OperatingPoint, names: { circuit: Circuit; 
       const e = names.elementIndex.get(element);
       return e === undefined ? undefined : v.record(e);
     },
+    recordAt: (e) => v.record(e),
   };
 }

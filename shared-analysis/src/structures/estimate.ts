@@ -29,14 +29,14 @@ export function estimateStructure(circuit: Circuit, s: Structure, at: EstimateAt
 
 /** Whether every name is a transistor of the circuit. */
 function allTransistors(h: Hand, names: readonly string[]): boolean {
-  for (const d of names) if (!h.topo.byName.has(d)) return false;
+  for (let k = 0; k < names.length; k++) if (h.transistor(names[k]) === undefined) return false;
   return true;
 }
 
 /** "V+ − V−" of a resistor-fed reference with its numbers: the rail and the common node, the higher first. */
 /** Whether every output device of `s` is a transistor of the circuit. */
 function allOutputsKnown(h: Hand, s: Structure): boolean {
-  for (let k = 0; k < s.outputs.length; k++) if (!h.topo.byName.has(s.outputs[k].device)) return false;
+  for (let k = 0; k < s.outputs.length; k++) if (h.transistor(s.outputs[k].device) === undefined) return false;
   return true;
 }
 
@@ -77,7 +77,7 @@ class HandAnalysis {
     // A structure built elsewhere (or edited) without its devices or roles has nothing to compute from.
     const complete =
       allTransistors(h, s.devices) &&
-      h.topo.byName.has(s.reference.device) &&
+      h.transistor(s.reference.device) !== undefined &&
       (s.outputs.length > 0 || kind.voltageOnly === true) &&
       allOutputsKnown(h, s) &&
       (kind.requiredRoles === undefined || kind.requiredRoles.every((r) => h.role(r).length > 0)) &&
@@ -283,7 +283,7 @@ class HandAnalysis {
     if (!h.bipolar) return [];
     const out: EstimateStep[] = [];
     for (const d of s.devices) {
-      if (!h.topo.byName.has(d)) continue;
+      if (h.transistor(d) === undefined) continue;
       const p = h.dev(d);
       const xtb = p.model.given.includes('XTB') && this.at.temperatureC !== this.circuit.tnomC;
       if (p.betaAtCurrent === undefined && !xtb) continue;

@@ -10,6 +10,7 @@ import { railsByIndex } from './rails';
 import { technologyOfModel } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { EstimateStep, Structure, StructureRole } from './types';
+import { recognisedTransistor } from './recognised';
 
 /** Where and how to evaluate the hand analysis. */
 export interface EstimateAt {
@@ -190,7 +191,7 @@ export class Hand {
     const at = this.s.devices.indexOf(name);
     const known = at >= 0 ? this.params[at] : this.otherParams?.get(name);
     if (known) return known;
-    const t = this.topo.byName.get(name);
+    const t = this.topo.transistorNamed(name, recognisedTransistor(this.s, at));
     if (!t) throw new Error(`structure device ${name} is not in the circuit`);
     const model = t.element.model;
     const f = this.factorsOf(model, t.element.kind);
@@ -232,7 +233,7 @@ export class Hand {
   private referenceScale(): number {
     const { devices, roles } = this.s;
     let total = 0;
-    for (let k = 0; k < devices.length; k++) if (roles?.[devices[k]] === 'reference') total += this.topo.byName.get(devices[k])?.scale ?? 0;
+    for (let k = 0; k < devices.length; k++) if (roles?.[devices[k]] === 'reference') total += this.transistor(devices[k])?.scale ?? 0;
     return total;
   }
 
@@ -248,11 +249,19 @@ export class Hand {
 
   /** The structure's devices with one role, in structure order. */
   role(r: StructureRole): Transistor[] {
-    return this.s.devices.filter((d) => this.s.roles?.[d] === r).map((d) => this.topo.byName.get(d)!).filter(Boolean);
+    return this.s.devices.filter((d) => this.s.roles?.[d] === r).map((d) => this.transistor(d)!).filter(Boolean);
   }
 
   refT(): Transistor {
-    return this.topo.byName.get(this.s.reference.device)!;
+    return this.transistor(this.s.reference.device)!;
+  }
+
+  /**
+   * The transistor `topo.byName.get(name)` gives, read through the one recognition found when `name` is a device of
+   * the structure (see `Topology.transistorNamed`): no look-up of the name.
+   */
+  transistor(name: string): Transistor | undefined {
+    return this.topo.transistorNamed(name, recognisedTransistor(this.s, this.s.devices.indexOf(name)));
   }
 
   /** The reference and each output with their parameters. */
@@ -270,7 +279,7 @@ export class Hand {
     const s = this.s;
     // The first lower diode of the structure (as `role('lower-diode')[0]`), else the reference.
     for (const d of s.devices) {
-      const t = s.roles?.[d] === 'lower-diode' ? this.topo.byName.get(d) : undefined;
+      const t = s.roles?.[d] === 'lower-diode' ? this.transistor(d) : undefined;
       if (t) return t.common;
     }
     return this.refT().common;

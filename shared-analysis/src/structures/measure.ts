@@ -5,6 +5,7 @@ import type { DeviceRecord, OperatingPoint } from '../solve/types';
 import { TECHNOLOGIES } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
+import { recognisedTransistor } from './recognised';
 import { nameTable } from '../names';
 import { pointVectors, type PointVectors } from '../solve/point';
 import { RECORD_LIMIT, SolvedVectors, quietClamp } from '../solve/solved-point';
@@ -168,8 +169,10 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
     if (refNode !== undefined) {
       for (let j = 0; j < s.devices.length; j++) {
         const name = s.devices[j];
-        const t = topo.byName.get(name);
-        const e = topo.elementIndex.get(name);
+        // Through the transistor recognition found for the name, when it is this topology's (no look-up by name).
+        const known = recognisedTransistor(s, j);
+        const t = topo.transistorNamed(name, known);
+        const e = topo.elementNamed(name, known);
         if (!t || e === undefined) continue;
         f.devE[d] = e;
         f.devFlags[d] = (isBipolar(t.tech) ? DEV_BIPOLAR : 0) | (t.out === refNode ? DEV_OUT : 0) | (t.ctrl === refNode ? DEV_CTRL : 0) | (t.common === refNode ? DEV_COMMON : 0);
@@ -191,8 +194,9 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
     }
     for (let j = 0; j < s.outputs.length; j++) {
       const out = s.outputs[j];
-      const t = topo.byName.get(out.device);
-      f.outE[o] = topo.elementIndex.get(out.device) ?? -1;
+      const known = recognisedTransistor(s, s.devices.indexOf(out.device));
+      const t = topo.transistorNamed(out.device, known);
+      f.outE[o] = topo.elementNamed(out.device, known) ?? -1;
       if (t) {
         f.outNodes[3 * o] = t.out;
         f.outNodes[3 * o + 1] = t.ctrl;

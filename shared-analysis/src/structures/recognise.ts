@@ -7,8 +7,9 @@ import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from 
 import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
 import { mapList, trimmed } from '../arrays';
-import type { Attachment } from './topology';
+import type { Attachment, Transistor } from './topology';
 import { defineCorners } from './corner-columns';
+import { keepRecognisedTransistors } from './recognised';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -95,6 +96,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
     outputResistance: {},
   };
   defineCorners(s);
+  keepRecognisedTransistors(s, mapList(d.members, (x) => x.t));
   const later: Pick<Structure, 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'> = { solved: undefined, estimate: undefined, discrepancy: undefined, startup: undefined, variation: undefined };
   return Object.assign(s, later) as Structure;
 }
@@ -105,10 +107,16 @@ function toStructure(m: Matcher, d: Draft): Structure {
  * ratio (and kept as `isRatio`), so every kind's formula carries it.
  */
 function withIsRatio(m: Matcher, d: Draft, o: StructureOutput): StructureOutput {
-  const t = m.topo.byName.get(o.device);
+  const t = m.topo.transistorNamed(o.device, memberNamed(d, o.device));
   if (!t || t.element.kind !== 'Q' || d.reference.element.kind !== 'Q' || t === d.reference) return o;
   const r = isOnlyRatio(t.element.model, d.reference.element.model);
   return r === undefined ? o : { ...o, ratio: o.ratio * r, isRatio: r };
+}
+
+/** The draft's member transistor of this name (the outputs are members), for `Topology.transistorNamed`. */
+function memberNamed(d: Draft, name: string): Transistor | undefined {
+  for (let k = 0; k < d.members.length; k++) if (d.members[k].t.name === name) return d.members[k].t;
+  return undefined;
 }
 
 /**

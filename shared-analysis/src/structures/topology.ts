@@ -313,6 +313,25 @@ export class Topology {
     return i === undefined || i < 0 ? undefined : this.transistors[i];
   }
 
+  /**
+   * What `byName.get(name)` gives, read from `known` (the transistor recognition found for the name, kept with its
+   * structure: `recognisedTransistors`) when it is this topology's own view of that name and every element has its own
+   * name: then it is the one transistor of the name, and no table of every name is read. Looked up otherwise.
+   */
+  transistorNamed(name: string, known: Transistor | undefined): Transistor | undefined {
+    return this.holds(known, name) ? known : this.byName.get(name);
+  }
+
+  /** What `elementIndex.get(name)` gives, read through `known` as `transistorNamed` reads it. */
+  elementNamed(name: string, known: Transistor | undefined): number | undefined {
+    return this.holds(known, name) ? this.transistorElement[known.index] : this.elementIndex.get(name);
+  }
+
+  /** Whether `t` is this topology's view of `name` in a circuit whose every element has its own name. */
+  private holds(t: Transistor | undefined, name: string): t is Transistor {
+    return t !== undefined && this.elementTransistor !== undefined && t.name === name && this.transistors[t.index] === t;
+  }
+
   /** Whether `n` is an index into `circuit.nodes`. */
   private isNode(n: number): boolean {
     return Number.isInteger(n) && n >= 0 && n < this.circuit.nodes.length;
