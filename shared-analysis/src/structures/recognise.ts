@@ -8,8 +8,7 @@ import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
 import { mapList, trimmed } from '../arrays';
 import type { Attachment, Transistor } from './topology';
-import { defineCorners } from './corner-columns';
-import { keepRecognisedTransistors } from './recognised';
+import { RecognisedStructure } from './recognised';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -74,12 +73,11 @@ function toStructure(m: Matcher, d: Draft): Structure {
   for (const x of d.members) roles[x.t.name] = x.role;
   const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
   if (d.refDegeneration) reference.degeneration = d.refDegeneration;
-  // Every field is made here, in the order the JSON shows them (`corners` an accessor, see `defineCorners`), those the
-  // checks fill later undefined until then: a structure keeps one layout (V8's map) from recognition to the report,
-  // where fields added one by one as the checks ran gave each structure a new layout at each step, and the code that
-  // read structures was given up and compiled again for the next (a member that is undefined is left out of the JSON
-  // as an absent one).
-  const s: Omit<Structure, 'corners' | 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'> = {
+  // Every field is made at once (`RecognisedStructure`): a structure keeps one layout (V8's map) from recognition to the
+  // report, where fields added one by one as the checks ran gave each structure a new layout at each step, and the code
+  // that read structures was given up and compiled again for the next. The transistors go with it (not into its JSON):
+  // the stages that read the structure then need no look-up of its devices.
+  const s = new RecognisedStructure(mapList(d.members, (x) => x.t), {
     id: `${d.kind}:${d.reference.name}`,
     kind: d.kind,
     technology: d.reference.tech,
@@ -94,11 +92,8 @@ function toStructure(m: Matcher, d: Draft): Structure {
     headroom: nameTable(),
     compliance: {},
     outputResistance: {},
-  };
-  defineCorners(s);
-  keepRecognisedTransistors(s, mapList(d.members, (x) => x.t));
-  const later: Pick<Structure, 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'> = { solved: undefined, estimate: undefined, discrepancy: undefined, startup: undefined, variation: undefined };
-  return Object.assign(s, later) as Structure;
+  });
+  return s as unknown as Structure;
 }
 
 /**

@@ -3,17 +3,53 @@
 
 import type { Transistor } from './topology';
 import type { Structure } from './types';
+import { defineCorners } from './corner-columns';
+
+/** The fields of a structure recognition makes, in the order the JSON shows them (the checks fill the rest later). */
+type RecognisedFields = Omit<Structure, 'corners' | 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'>;
 
 /**
- * The property that holds them: keyed by a symbol and not enumerable, so JSON, `Object.keys`, spreading, structured
- * cloning and `copyStructure` leave it out (a copy, or a structure sent to another thread, looks its devices up by
- * name as before). Defined when the structure is made, so every structure keeps one layout.
+ * A structure as recognition makes it. Its transistors are a private field: JSON, `Object.keys`, spreading, structured
+ * cloning and `copyStructure` leave it out, so a copy, or a structure sent to another thread, looks its devices up by
+ * name as before. (A property keyed by a symbol and defined with `Object.defineProperty` did the same at about 0.4 µs
+ * a structure; a private field is stored as the fields are.) Every field is written in the constructor, in the order
+ * the JSON shows them (`corners` an accessor, see `defineCorners`), those the checks fill later undefined until then:
+ * a structure keeps one layout (V8's map) from recognition to the report.
  */
-const RECOGNISED = Symbol('recognised transistors');
+export class RecognisedStructure {
+  readonly #transistors: readonly Transistor[];
 
-/** Keeps `transistors` (one per name of `s.devices`, in that order) with `s`. */
-export function keepRecognisedTransistors(s: object, transistors: readonly Transistor[]): void {
-  Object.defineProperty(s, RECOGNISED, { value: transistors });
+  constructor(transistors: readonly Transistor[], f: RecognisedFields) {
+    this.#transistors = transistors;
+    const o = this as unknown as RecognisedFields;
+    o.id = f.id;
+    o.kind = f.kind;
+    o.technology = f.technology;
+    o.devices = f.devices;
+    o.roles = f.roles;
+    o.reference = f.reference;
+    o.outputs = f.outputs;
+    o.parts = f.parts;
+    o.params = f.params;
+    o.voltages = f.voltages;
+    o.instance = f.instance;
+    o.headroom = f.headroom;
+    o.compliance = f.compliance;
+    o.outputResistance = f.outputResistance;
+    defineCorners(o);
+    // What the checks fill later, undefined until then (left out of the JSON as an absent member).
+    const later = this as unknown as Pick<Structure, 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'>;
+    later.solved = undefined;
+    later.estimate = undefined;
+    later.discrepancy = undefined;
+    later.startup = undefined;
+    later.variation = undefined;
+  }
+
+  /** The transistors kept with `s`, when recognition made it. */
+  static transistorsOf(s: object): readonly Transistor[] | undefined {
+    return #transistors in s ? (s as RecognisedStructure).#transistors : undefined;
+  }
 }
 
 /**
@@ -21,6 +57,6 @@ export function keepRecognisedTransistors(s: object, transistors: readonly Trans
  * outside the list). A hint only: `Topology.transistorNamed` takes it when it is that topology's view of the name.
  */
 export function recognisedTransistor(s: Structure, at: number): Transistor | undefined {
-  const list = (s as { [RECOGNISED]?: readonly Transistor[] })[RECOGNISED];
+  const list = RecognisedStructure.transistorsOf(s);
   return list !== undefined && at >= 0 && at < list.length ? list[at] : undefined;
 }

@@ -90,6 +90,11 @@ describe('transistors recognition keeps with a structure', () => {
     const copy = copyStructure(s);
     expect(recognisedTransistor(copy, 0)).toBeUndefined();
     expectScanAnswers(circuit, [copy], 'copy');
+    // As another thread receives it: a plain object with the same members, and no transistors.
+    const cloned = structuredClone({ ...s, corners: [] }) as Structure;
+    expect(Object.keys(cloned)).toEqual(Object.keys(s));
+    expect(recognisedTransistor(cloned, 0)).toBeUndefined();
+    expectScanAnswers(circuit, [cloned], 'cloned');
   });
 
   it('are not taken from the topology of another circuit: a value edit\'s patched circuit answers from its own views', () => {
