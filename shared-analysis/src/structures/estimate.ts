@@ -9,6 +9,7 @@ import type { KindModule } from './kind';
 import type { Estimate, EstimateStep, Structure } from './types';
 import { pushAll } from '../arrays';
 import { nameTable } from '../names';
+import { recognisedFeed, recognisedRailNode, recognisedRefNode } from './recognised';
 
 export type { EstimateAt } from './hand';
 
@@ -116,11 +117,12 @@ class HandAnalysis {
     } else if (feed.feed === 'resistor' && feed.rail && vCommon !== undefined) {
       irefFrom = 'resistor';
       let ohms = 0;
-      for (const r of feed.elements) {
-        const el = h.topo.elementByName.get(r);
+      // Each resistor and the rail where recognition found them, when they are still there (no look-up by name).
+      for (let k = 0; k < feed.elements.length; k++) {
+        const el = h.topo.elementNamedAt(feed.elements[k], recognisedFeed(s, k));
         ohms += el && el.kind === 'R' && el.resistance > 0 ? el.resistance : 0;
       }
-      const railNode = h.topo.nodeIndex.get(feed.rail.node);
+      const railNode = h.topo.nodeNamed(feed.rail.node, recognisedRailNode(s));
       const vRail = (railNode !== undefined ? h.railVolts.get(railNode) : undefined) ?? feed.rail.volts;
       const available = h.sign * (vRail - vCommon);
       const needed = h.bipolar ? nStack * STARVED_VBE : this.chain(0, false).r.stack;
@@ -131,8 +133,8 @@ class HandAnalysis {
       resistorFed = { ohms, available, vRail, vCommon };
     } else if (feed.feed === 'current-source') {
       irefFrom = 'current-source';
-      const src = h.topo.elementByName.get(feed.elements[0]) as CurrentSource | undefined;
-      const refNode = h.topo.nodeIndex.get(feed.node);
+      const src = h.topo.elementNamedAt(feed.elements[0], recognisedFeed(s, 0)) as CurrentSource | undefined;
+      const refNode = h.topo.nodeNamed(feed.node, recognisedRefNode(s));
       if (src && refNode !== undefined) {
         const dc = this.at.sourceValues?.[src.name] ?? src.dc;
         // dc flows from plus through the source to minus: into the node when the node is `minus`.

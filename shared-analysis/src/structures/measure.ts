@@ -5,7 +5,7 @@ import type { DeviceRecord, OperatingPoint } from '../solve/types';
 import { TECHNOLOGIES } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { Structure } from './types';
-import { recognisedTransistor } from './recognised';
+import { recognisedRefNode, recognisedTransistor } from './recognised';
 import { nameTable } from '../names';
 import { pointVectors, type PointVectors } from '../solve/point';
 import { RECORD_LIMIT, SolvedVectors, quietClamp } from '../solve/solved-point';
@@ -165,7 +165,7 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
   let o = 0;
   for (let i = 0; i < structures.length; i++) {
     const s = structures[i];
-    const refNode = topo.nodeIndex.get(s.reference.node);
+    const refNode = topo.nodeNamed(s.reference.node, recognisedRefNode(s));
     if (refNode !== undefined) {
       for (let j = 0; j < s.devices.length; j++) {
         const name = s.devices[j];

@@ -8,7 +8,7 @@ import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
 import { mapList, trimmed } from '../arrays';
 import type { Attachment, Transistor } from './topology';
-import { RecognisedStructure } from './recognised';
+import { keepFeed, RecognisedStructure } from './recognised';
 
 /**
  * Finds every bias structure in a flattened circuit, once per subcircuit instance.
@@ -77,7 +77,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
   // report, where fields added one by one as the checks ran gave each structure a new layout at each step, and the code
   // that read structures was given up and compiled again for the next. The transistors go with it (not into its JSON):
   // the stages that read the structure then need no look-up of its devices.
-  const s = new RecognisedStructure(mapList(d.members, (x) => x.t), {
+  const s = new RecognisedStructure(mapList(d.members, (x) => x.t), d.refNode, {
     id: `${d.kind}:${d.reference.name}`,
     kind: d.kind,
     technology: d.reference.tech,
@@ -126,7 +126,10 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners
   const feed = soleFeed(m, d.refNode, s);
   if (!feed) return base;
   const { element: el, slot } = feed;
-  if (el.kind === 'I') return fed(base, 'current-source', [el.name]);
+  if (el.kind === 'I') {
+    keepFeed(s, -1, [m.topo.elementOn(d.refNode, el)]);
+    return fed(base, 'current-source', [el.name]);
+  }
   if ((el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && slot === 0) {
     const from = owner.get(el.name);
     if (from && from !== s) {
@@ -138,14 +141,17 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners
   if (el.kind !== 'R') return base;
   // Follow a chain of series resistors until a rail (the nodes passed are remembered from the second resistor on).
   const chain: string[] = [];
+  const at: number[] = [];
   let seen: Set<number> | undefined;
   let r: Resistor = el;
   let node = d.refNode;
   for (;;) {
     chain.push(r.name);
+    at.push(m.topo.elementOn(node, r));
     const next = r.nodes[0] === node ? r.nodes[1] : r.nodes[0];
     const rail = m.rails.get(next);
     if (rail) {
+      keepFeed(s, next, trimmed(at));
       fed(base, 'resistor', trimmed(chain)).rail = rail;
       return base;
     }

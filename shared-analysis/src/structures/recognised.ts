@@ -18,9 +18,16 @@ type RecognisedFields = Omit<Structure, 'corners' | 'solved' | 'estimate' | 'dis
  */
 export class RecognisedStructure {
   readonly #transistors: readonly Transistor[];
+  /** The reference node's index. */
+  readonly #refNode: number;
+  /** The rail a resistor chain hangs from, by node index (-1 without one). */
+  #railNode = -1;
+  /** Each element of `reference.elements` by element index, in that order (-1 where none was found). */
+  #feed: readonly number[] = NO_FEED;
 
-  constructor(transistors: readonly Transistor[], f: RecognisedFields) {
+  constructor(transistors: readonly Transistor[], refNode: number, f: RecognisedFields) {
     this.#transistors = transistors;
+    this.#refNode = refNode;
     const o = this as unknown as RecognisedFields;
     o.id = f.id;
     o.kind = f.kind;
@@ -46,11 +53,35 @@ export class RecognisedStructure {
     later.variation = undefined;
   }
 
+  /** Where the reference branch's feed was found: the rail's node index (-1: none) and each feed element's index. */
+  feedFound(railNode: number, elements: readonly number[]): void {
+    this.#railNode = railNode;
+    this.#feed = elements;
+  }
+
   /** The transistors kept with `s`, when recognition made it. */
   static transistorsOf(s: object): readonly Transistor[] | undefined {
     return #transistors in s ? (s as RecognisedStructure).#transistors : undefined;
   }
+
+  /** The reference node's index kept with `s`, or -1. */
+  static refNodeOf(s: object): number {
+    return #refNode in s ? (s as RecognisedStructure).#refNode : -1;
+  }
+
+  /** The rail's node index kept with `s`, or -1. */
+  static railNodeOf(s: object): number {
+    return #railNode in s ? (s as RecognisedStructure).#railNode : -1;
+  }
+
+  /** The feed's element indices kept with `s`. */
+  static feedOf(s: object): readonly number[] {
+    return #feed in s ? (s as RecognisedStructure).#feed : NO_FEED;
+  }
 }
+
+/** The feed of a structure without one found. */
+const NO_FEED: readonly number[] = Object.freeze([]);
 
 /**
  * The transistor recognition found for `s.devices[at]`, or undefined (a structure made or copied elsewhere, or `at`
@@ -59,4 +90,25 @@ export class RecognisedStructure {
 export function recognisedTransistor(s: Structure, at: number): Transistor | undefined {
   const list = RecognisedStructure.transistorsOf(s);
   return list !== undefined && at >= 0 && at < list.length ? list[at] : undefined;
+}
+
+/** The node index recognition found for `s.reference.node`, or -1: a hint for `Topology.nodeNamed`. */
+export function recognisedRefNode(s: Structure): number {
+  return RecognisedStructure.refNodeOf(s);
+}
+
+/** The node index recognition found for `s.reference.rail.node`, or -1: a hint for `Topology.nodeNamed`. */
+export function recognisedRailNode(s: Structure): number {
+  return RecognisedStructure.railNodeOf(s);
+}
+
+/** The element index recognition found for `s.reference.elements[k]`, or -1: a hint for `Topology.elementNamedAt`. */
+export function recognisedFeed(s: Structure, k: number): number {
+  const feed = RecognisedStructure.feedOf(s);
+  return k >= 0 && k < feed.length ? feed[k] : -1;
+}
+
+/** Keeps where recognition found `s`'s feed (see `RecognisedStructure.feedFound`), when recognition made `s`. */
+export function keepFeed(s: Structure, railNode: number, elements: readonly number[]): void {
+  if (s instanceof RecognisedStructure) s.feedFound(railNode, elements);
 }

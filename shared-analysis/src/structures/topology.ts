@@ -173,6 +173,8 @@ export class Topology {
   readonly elementIndex: ReadonlyMap<string, number>;
   private readonly transistorElement: Int32Array;
   private readonly elementTransistor: Int32Array | undefined;
+  /** See `nodesOwnNames`. */
+  private ownNodeNames: boolean | undefined = undefined;
 
   /** `from`: the topology of a circuit this one differs from only in values (see `followTopology`). */
   constructor(
@@ -325,6 +327,40 @@ export class Topology {
   /** What `elementIndex.get(name)` gives, read through `known` as `transistorNamed` reads it. */
   elementNamed(name: string, known: Transistor | undefined): number | undefined {
     return this.holds(known, name) ? this.transistorElement[known.index] : this.elementIndex.get(name);
+  }
+
+  /**
+   * What `elementByName.get(name)` gives, read at element index `hint` (where recognition found it: `recognisedFeed`)
+   * when the element there has this name and every element has its own name. Looked up otherwise.
+   */
+  elementNamedAt(name: string, hint: number): Element | undefined {
+    if (hint >= 0 && this.elementTransistor !== undefined) {
+      const el = this.circuit.elements[hint];
+      if (el !== undefined && el.name === name) return el;
+    }
+    return this.elementByName.get(name);
+  }
+
+  /**
+   * What `nodeIndex.get(name)` gives, read at node index `hint` (where recognition found it) when the node there has
+   * this name and every node has its own name. Looked up otherwise.
+   */
+  nodeNamed(name: string, hint: number): number | undefined {
+    if (hint >= 0 && this.circuit.nodes[hint] === name && this.nodesOwnNames()) return hint;
+    return this.nodeIndex.get(name);
+  }
+
+  /** Whether every node has its own name (worked out at the first question). */
+  private nodesOwnNames(): boolean {
+    return (this.ownNodeNames ??= this.nodeIndex.size === this.circuit.nodes.length);
+  }
+
+  /** The index of element `el` among the connections of `node`, or -1 (a scan of that node's connections). */
+  elementOn(node: number, el: Element): number {
+    if (!this.isNode(node)) return -1;
+    const elements = this.circuit.elements;
+    for (let j = this.rowStart[node]; j < this.rowStart[node + 1]; j++) if (elements[this.rowElement[j]] === el) return this.rowElement[j];
+    return -1;
   }
 
   /** Whether `t` is this topology's view of `name` in a circuit whose every element has its own name. */

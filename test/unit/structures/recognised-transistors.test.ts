@@ -9,7 +9,7 @@ import { parse } from '../../../shared-analysis/src/syntax/parser';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import type { Circuit } from '../../../shared-analysis/src/circuit';
 import { recogniseStructures } from '../../../shared-analysis/src/structures/recognise';
-import { recognisedTransistor } from '../../../shared-analysis/src/structures/recognised';
+import { recognisedFeed, recognisedRailNode, recognisedRefNode, recognisedTransistor } from '../../../shared-analysis/src/structures/recognised';
 import { copyStructure } from '../../../shared-analysis/src/structures/corner-columns';
 import { Topology, followTopology, topologyOf, type Transistor } from '../../../shared-analysis/src/structures/topology';
 import { patchedElaboration, keptElaboration, elaborationSettings } from '../../../shared-analysis/src/incremental-elaborate';
@@ -72,8 +72,24 @@ function expectScanAnswers(circuit: Circuit, structures: Structure[], label: str
       expect(topo.transistorNamed(name, other), `${label}: ${name} with another hint`).toBe(plain.transistor);
       expect(topo.elementNamed(name, other), `${label}: ${name} with another hint`).toBe(plain.index);
     }
+    // The reference node, the rail and the feed's elements.
+    expect(topo.nodeNamed(s.reference.node, recognisedRefNode(s)), `${label}: node ${s.reference.node}`).toBe(lastIndex(circuit.nodes, s.reference.node));
+    if (s.reference.rail) expect(topo.nodeNamed(s.reference.rail.node, recognisedRailNode(s)), `${label}: rail`).toBe(lastIndex(circuit.nodes, s.reference.rail.node));
+    s.reference.elements.forEach((name, k) => {
+      const index = scan(circuit, name).index;
+      if (recognisedFeed(s, k) >= 0) hinted++;
+      expect(topo.elementNamedAt(name, recognisedFeed(s, k)), `${label}: feed ${name}`).toBe(index === undefined ? undefined : circuit.elements[index]);
+      // Another element's place is no answer for this name.
+      expect(topo.elementNamedAt(name, recognisedFeed(s, k) + 1), `${label}: feed ${name}, another place`).toBe(index === undefined ? undefined : circuit.elements[index]);
+    });
   }
   return hinted;
+}
+
+/** The last index of `name` in a list (what a map filled in order answers), or undefined. */
+function lastIndex(list: readonly string[], name: string): number | undefined {
+  const k = list.lastIndexOf(name);
+  return k < 0 ? undefined : k;
 }
 
 describe('transistors recognition keeps with a structure', () => {
@@ -81,7 +97,8 @@ describe('transistors recognition keeps with a structure', () => {
     const circuit = elaborate(parse(URI, TEXT, { hasTitle: true }), new MemoryWorkspace({})).circuit;
     const structures = recogniseStructures(circuit);
     expect(structures.map((s) => s.id).sort()).toEqual(['simple-mirror:Q1', 'simple-mirror:QP1', 'simple-mirror:X1.QR', 'simple-mirror:X2.QR']);
-    expect(expectScanAnswers(circuit, structures, 'recognised')).toBe(8);
+    // 8 devices and 4 feed resistors, each with the place recognition found it at.
+    expect(expectScanAnswers(circuit, structures, 'recognised')).toBe(12);
     // Not written: the JSON and the keys are those of a structure without it.
     const s = structures[0]!;
     expect(Object.keys(s)).not.toContain('recognised transistors');
@@ -132,10 +149,32 @@ describe('transistors recognition keeps with a structure', () => {
     // A second Q1 elsewhere (a builder's circuit may repeat a name; the elaborator's never does).
     b.q('Q1', 'o2', 'c', '0', 'qn');
     b.r('RL2', 'vcc', 'o2', 1e3);
+    // And a second R1, after the one that feeds Q1's mirror.
+    b.r('R1', 'o2', '0', 1e6);
     const circuit = b.build();
     const structures = recogniseStructures(circuit);
-    expect(structures.length).toBeGreaterThan(0);
+    // Q3's mirror is not one: its output shares Q1's name, which the first mirror claimed.
+    expect(structures.map((s) => `${s.id} fed by ${s.reference.elements.join(', ')}`)).toEqual(['simple-mirror:Q1 fed by R1']);
+    expect(recognisedFeed(structures[0]!, 0)).toBe(circuit.elements.findIndex((e) => e.name === 'R1'));
     expectScanAnswers(circuit, structures, 'repeated names');
     expect(topologyOf(circuit).transistorNamed('Q1', topologyOf(circuit).transistors[0])).toBe(scan(circuit, 'Q1').transistor);
+  });
+
+  it('are not taken when two nodes share a name: the last node of the name answers, as the map does', () => {
+    const b = new CircuitBuilder();
+    b.model('qn', 'npn');
+    b.v('VCC', 'vcc', '0', 5);
+    b.r('R1', 'vcc', 'a', 1e4);
+    b.q('Q1', 'a', 'a', '0', 'qn');
+    b.q('Q2', 'o', 'a', '0', 'qn');
+    b.r('RL', 'vcc', 'o', 1e3);
+    const circuit = b.build();
+    // A second node of the reference node's name and one of the rail's, after every other (a list made by other code).
+    circuit.nodes.push('a', 'vcc');
+    const structures = recogniseStructures(circuit);
+    expect(structures.map((s) => s.id)).toEqual(['simple-mirror:Q1']);
+    expect(recognisedRefNode(structures[0]!)).toBe(circuit.nodes.indexOf('a'));
+    expectScanAnswers(circuit, structures, 'repeated node names');
+    expect(topologyOf(circuit).nodeNamed('a', circuit.nodes.indexOf('a'))).toBe(circuit.nodes.length - 2);
   });
 });
