@@ -71,13 +71,13 @@ function toStructure(m: Matcher, d: Draft): Structure {
   const devices = mapList(d.members, (x) => x.t.name);
   const roles: Record<string, StructureRole> = nameTable();
   for (const x of d.members) roles[x.t.name] = x.role;
-  const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: [] };
+  const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: NO_ELEMENTS };
   if (d.refDegeneration) reference.degeneration = d.refDegeneration;
   // Every field is made at once (`RecognisedStructure`): a structure keeps one layout (V8's map) from recognition to the
   // report, where fields added one by one as the checks ran gave each structure a new layout at each step, and the code
   // that read structures was given up and compiled again for the next. The transistors go with it (not into its JSON):
   // the stages that read the structure then need no look-up of its devices.
-  const s = new RecognisedStructure(mapList(d.members, (x) => x.t), d.refNode, {
+  const s = new RecognisedStructure(memberTransistors(d), d.refNode, {
     id: `${d.kind}:${d.reference.name}`,
     kind: d.kind,
     technology: d.reference.tech,
@@ -89,11 +89,25 @@ function toStructure(m: Matcher, d: Draft): Structure {
     params: d.params,
     voltages: d.voltages?.map((v) => ({ ...v })),
     instance: instancePrefix(devices),
-    headroom: nameTable(),
-    compliance: {},
-    outputResistance: {},
+    // Empty until the checks give the structure its own tables (they replace these, never write into them).
+    headroom: NO_FIGURES,
+    compliance: NO_FIGURES as unknown as Structure['compliance'],
+    outputResistance: NO_FIGURES,
   });
   return s as unknown as Structure;
+}
+
+/** A table of no figures, shared by every structure recognition makes until its checks replace it. */
+const NO_FIGURES: Record<string, number> = Object.freeze(nameTable<number>());
+
+/** The feed elements of a reference branch fed by nothing recognised (a feed that is found gets a list of its own). */
+const NO_ELEMENTS: string[] = Object.freeze([]) as unknown as string[];
+
+/** The draft's member transistors in member order, in a list of their length. */
+function memberTransistors(d: Draft): Transistor[] {
+  const out = new Array<Transistor>(d.members.length);
+  for (let k = 0; k < d.members.length; k++) out[k] = d.members[k].t;
+  return out;
 }
 
 /**

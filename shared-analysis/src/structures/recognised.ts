@@ -25,32 +25,53 @@ export class RecognisedStructure {
   /** Each element of `reference.elements` by element index, in that order (-1 where none was found). */
   #feed: readonly number[] = NO_FEED;
 
+  // Declared only (no field of their own): the constructor writes them with `this.` in the JSON's order, which is also
+  // how V8 sizes the object to hold them all (written through another name, they went to a second object that grew as
+  // they were added, and the run made a full collection more at 100k).
+  declare id: Structure['id'];
+  declare kind: Structure['kind'];
+  declare technology: Structure['technology'];
+  declare devices: Structure['devices'];
+  declare roles: Structure['roles'];
+  declare reference: Structure['reference'];
+  declare outputs: Structure['outputs'];
+  declare parts: Structure['parts'];
+  declare params: Structure['params'];
+  declare voltages: Structure['voltages'];
+  declare instance: Structure['instance'];
+  declare headroom: Structure['headroom'];
+  declare compliance: Structure['compliance'];
+  declare outputResistance: Structure['outputResistance'];
+  declare solved: Structure['solved'];
+  declare estimate: Structure['estimate'];
+  declare discrepancy: Structure['discrepancy'];
+  declare startup: Structure['startup'];
+  declare variation: Structure['variation'];
+
   constructor(transistors: readonly Transistor[], refNode: number, f: RecognisedFields) {
     this.#transistors = transistors;
     this.#refNode = refNode;
-    const o = this as unknown as RecognisedFields;
-    o.id = f.id;
-    o.kind = f.kind;
-    o.technology = f.technology;
-    o.devices = f.devices;
-    o.roles = f.roles;
-    o.reference = f.reference;
-    o.outputs = f.outputs;
-    o.parts = f.parts;
-    o.params = f.params;
-    o.voltages = f.voltages;
-    o.instance = f.instance;
-    o.headroom = f.headroom;
-    o.compliance = f.compliance;
-    o.outputResistance = f.outputResistance;
-    defineCorners(o);
+    this.id = f.id;
+    this.kind = f.kind;
+    this.technology = f.technology;
+    this.devices = f.devices;
+    this.roles = f.roles;
+    this.reference = f.reference;
+    this.outputs = f.outputs;
+    this.parts = f.parts;
+    this.params = f.params;
+    this.voltages = f.voltages;
+    this.instance = f.instance;
+    this.headroom = f.headroom;
+    this.compliance = f.compliance;
+    this.outputResistance = f.outputResistance;
+    defineCorners(this);
     // What the checks fill later, undefined until then (left out of the JSON as an absent member).
-    const later = this as unknown as Pick<Structure, 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'>;
-    later.solved = undefined;
-    later.estimate = undefined;
-    later.discrepancy = undefined;
-    later.startup = undefined;
-    later.variation = undefined;
+    this.solved = undefined;
+    this.estimate = undefined;
+    this.discrepancy = undefined;
+    this.startup = undefined;
+    this.variation = undefined;
   }
 
   /** Where the reference branch's feed was found: the rail's node index (-1: none) and each feed element's index. */
