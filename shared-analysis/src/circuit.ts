@@ -247,7 +247,7 @@ export interface Circuit {
  */
 export interface ElaboratedNames {
   /** `elementNameKey` of each element and instance name -> its place in `elementAt`. */
-  readonly elementKeys: { get(key: string): number | undefined };
+  readonly elementKeys: ReadonlyMap<string, number>;
   /** By place, the element's index in `circuit.elements`, or -1 (an instance, or a card left out). */
   readonly elementAt: readonly number[];
   /** Lower-case node name (hierarchical) -> index in `circuit.nodes`; undefined when the indices moved after (nodes dropped). */

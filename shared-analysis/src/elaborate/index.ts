@@ -16,7 +16,6 @@ import { expressionOf, tokenValue, type ValueResult } from './values';
 import { pushAll } from '../arrays';
 import { lowerCase, nameTable } from '../names';
 import { Branches } from './branches';
-import { KeyTable } from './key-table';
 
 /** Per-call elaboration settings. */
 export interface ElaborateOptions {
@@ -43,12 +42,6 @@ export const DEFAULT_MOS_SIZE = 10e-6;
 /** Nominal and analysis temperature when the netlist sets none, °C (docs/DEVICE-MODELS.md). */
 export const DEFAULT_TEMPERATURE_C = 27;
 const DEFAULT_MAX_ELEMENTS = 500_000;
-/**
- * Cards from which the table of element names is a `KeyTable` rather than a Map: it is faster once its code is
- * compiled and warm, which 20,000 names do not pay back (docs/PERFORMANCE.md, "Parse and elaboration at 100k
- * (2026-12-05, early)").
- */
-const LARGE_CARD_COUNT = 50_000;
 /** Deepest chain of nested subcircuit instances flattened (keeps the recursion far from the stack limit). */
 export const MAX_INSTANCE_DEPTH = 100;
 const ABSOLUTE_ZERO_C = -273.15;
@@ -165,7 +158,7 @@ class Elaborator {
    * `elementNameKey` of each hierarchical name -> its place in `namedItems` (elements and instances), for duplicates;
    * kept with the circuit (`keepElaboratedNames`), with `elementAt`, for the topology's name questions.
    */
-  private readonly names: { get(key: string): number | undefined; set(key: string, value: number): unknown };
+  private readonly names = new Map<string, number>();
   /** By place in `names`, the card that first used the name. */
   private readonly namedItems: Located<ElementCard>[] = [];
   /** By place in `names`, the index of the element made from the card in `elements`, or -1 (an instance, a card left out). */
@@ -192,7 +185,6 @@ class Elaborator {
   ) {
     this.context = new EvaluationContext((r) => this.report(r));
     this.maxElements = options.maxElements ?? DEFAULT_MAX_ELEMENTS;
-    this.names = root.cards.length >= LARGE_CARD_COUNT ? new KeyTable() : new Map<string, number>();
   }
 
   run(): ElaborationResult {

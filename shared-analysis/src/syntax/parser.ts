@@ -28,8 +28,7 @@ import type { Span } from '../types';
 import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
-import { NO_ASSIGNMENTS, ParsedElementCard, keptAssignments } from './element-card';
-import { LARGE_TEXT, MAX_SHARED_TEXTS, SharedTexts } from './shared-texts';
+import { ParsedElementCard, keptAssignments } from './element-card';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -159,8 +158,8 @@ interface Context {
   cardProblems: number;
   /** Open `.if` cards, innermost last. */
   conditions: ConditionCard[];
-  /** The text of each field after a card's first one met so far, so a node or model name written on many cards is kept once (`makeSharedToken`). */
-  words: SharedTexts;
+  /** The text of each field after a card's first one met so far, so a node or model name written on many cards is kept once (`makeToken`). */
+  words: Map<string, string>;
   /** Scratch list of the fields of the card being read (`parseGroup`); past the card's count it holds stale tokens. */
   fields: Token[];
   /** The lexemes of the card being read (`lexCard`). */
@@ -177,7 +176,7 @@ const MAX_PROBLEMS_PER_CARD = 25;
  * is kept in that card's `comments`.
  */
 export function parse(uri: string, text: string, options: ParseOptions): ParsedDocument {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, text.length >= LARGE_TEXT), fields: [], lexemes: new LexemeList() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: options?.hasTitle === true, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   const cards: Card[] = [];
   let group: Segment[] | null = null;
   let pendingComments: CommentCard[] = [];
@@ -301,7 +300,7 @@ export function parse(uri: string, text: string, options: ParseOptions): ParsedD
  * the cards around it (only dot cards open and close blocks), so this is the card `parse` makes there.
  */
 export function parseElementLine(text: string, start: number, lineEnd: number): { card: Card; errors: SyntaxError[] } {
-  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, false), fields: [], lexemes: new LexemeList() };
+  const ctx: Context = { text, errors: [], subckts: [], sections: [], topLevel: false, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   return { card: parseGroup(ctx, [{ start, lineEnd }]), errors: ctx.errors };
 }
 
@@ -455,7 +454,7 @@ function titleCard(ctx: Context, start: number, end: number): Card {
 
 /** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
-  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new SharedTexts(MAX_SHARED_TEXTS, false), fields: [], lexemes: new LexemeList() };
+  const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
   if (card.kind === 'other-dot') return false;
@@ -669,15 +668,30 @@ function makeToken(text: string, lx: Lexeme): Token {
 
 /**
  * `makeToken` for a field after a card's first, whose text is taken from `ctx.words` when an earlier field had the
- * same text (`SharedTexts`: a repeat makes no string). A card's first field (its name or dot command) is mostly its
- * own, and is not looked up.
+ * same text: node, model and value fields repeat from card to card (a node is written on every card that connects
+ * to it), and every card is kept for the whole analysis, so each repeat would otherwise keep a string of its own.
+ * A card's first field (its name or dot command) is mostly its own, and is not looked up.
  */
 function makeSharedToken(ctx: Context, lx: Lexeme): Token {
   if (!lx.token) {
-    const text = ctx.words.of(ctx.text, lx.start, lx.end);
+    const text = sharedText(ctx.words, ctx.text.slice(lx.start, lx.end));
     lx.token = { text, span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
   }
   return lx.token;
+}
+
+/**
+ * Most texts one parse shares: a netlist of millions of distinct fields keeps its own string for each text past
+ * this many, and the table stays far below the most a Map can hold (2^24 entries, past which it throws).
+ */
+export const MAX_SHARED_TEXTS = 1 << 20;
+
+/** The string `words` holds for `own`'s text, which becomes `own` when it holds none and has room for it. */
+export function sharedText(words: Map<string, string>, own: string, limit = MAX_SHARED_TEXTS): string {
+  const shared = words.get(own);
+  if (shared !== undefined) return shared;
+  if (words.size < limit) words.set(own, own);
+  return own;
 }
 
 function isField(l: Lexeme | undefined): l is Lexeme {
@@ -731,8 +745,6 @@ function buildItems(ctx: Context, lx: LexemeList, from: number): Item[] {
 }
 
 function checkParentheses(ctx: Context, lx: LexemeList): void {
-  // A card with no `=`, `(` or `)` (most of them) has nothing to check: no list is made for it.
-  if (lx.punctuation === 0) return;
   const open: Lexeme[] = [];
   for (let i = 0; i < lx.length; i++) {
     const l = lx.at(i)!;
@@ -1010,9 +1022,6 @@ const ELEMENT_NEEDS: Record<string, { noun: string; needs: string }> = nameTable
 });
 
 
-/** The upper-case ASCII letters, `A` at 0: a card's letter without a string made for it. */
-const UPPER_LETTERS: readonly string[] = Array.from({ length: 26 }, (_, i) => String.fromCharCode(65 + i));
-
 /**
  * Whether an element card starting with the character `c` reads only its positional fields and assignments (not the
  * items in their order: the sources, the controlled sources and subcircuit instances do), and is not a dot card.
@@ -1040,8 +1049,7 @@ function parseElement(ctx: Context, name: Token, given: Item[] | undefined, span
       name.span,
     );
   }
-  // The letter in upper case, read from a table of the 26 (an ASCII letter, checked above): no string made per card.
-  const L = UPPER_LETTERS[c0 - 97]! as ElementLetter;
+  const L = name.text.charAt(0).toUpperCase() as ElementLetter;
   const owner = name.text;
   const need = ELEMENT_NEEDS[L];
   const card: ElementCard = new ParsedElementCard(L, name, span, tokens);
@@ -1095,7 +1103,7 @@ function parseElement(ctx: Context, name: Token, given: Item[] | undefined, span
     case 'C':
     case 'L': {
       // `R1 a b R=1k`: the value may be given as an assignment named after the letter.
-      const valueAsg = asgs.length === 0 ? undefined : asgs.find((a) => a.name.text.toUpperCase() === L);
+      const valueAsg = asgs.find((a) => a.name.text.toUpperCase() === L);
       if (pos.length < 2 || (pos.length < 3 && !valueAsg)) return missingFields(ctx, name, need, asgs.length, span, tokens, pos.length);
       card.nodes = pos.slice(0, 2);
       const rest = pos.slice(2);
@@ -1112,14 +1120,13 @@ function parseElement(ctx: Context, name: Token, given: Item[] | undefined, span
           used = 1;
         }
       } else if (rest.length >= 1) {
-        // The form of the field is read only when the card has assignments (a resistor's model then comes first).
-        if (L === 'R' && (asgs.length > 0 || valueAsg) && !isValueLike(rest[0])) card.model = rest[0];
+        if (L === 'R' && !isValueLike(rest[0]) && (asgs.length > 0 || valueAsg)) card.model = rest[0];
         else card.value = rest[0];
         used = 1;
       }
       if (!card.value && valueAsg) card.value = valueAsg.value;
       // `TC=a,b` gives both temperature coefficients; the second is read as TC2.
-      const tc = L === 'R' && asgs.length > 0 ? asgs.find((a) => a.name.text.toUpperCase() === 'TC') : undefined;
+      const tc = L === 'R' ? asgs.find((a) => a.name.text.toUpperCase() === 'TC') : undefined;
       let leftover = rest.slice(used);
       if (tc) {
         const second = leftover.find((t) => t.span.start > tc.value.span.end && isNumberLike(t) && /^[\s,]*$/.test(ctx.text.slice(tc.value.span.end, t.span.start)));
@@ -1129,7 +1136,7 @@ function parseElement(ctx: Context, name: Token, given: Item[] | undefined, span
         }
       }
       for (const t of leftover) unexpected(ctx, owner, t, `${need.noun} uses`);
-      card.params = asgs.length === 0 ? NO_ASSIGNMENTS : keptAssignments(asgs.filter((a) => a !== valueAsg || card.value !== a.value));
+      card.params = keptAssignments(asgs.filter((a) => a !== valueAsg || card.value !== a.value));
       return card;
     }
     case 'V':

@@ -6,8 +6,7 @@
 // the ones `ast.ts` and `circuit.ts` document (an independent statement of the shapes, written out here).
 
 import { describe, expect, it } from 'vitest';
-import { parse } from '../../../shared-analysis/src/syntax/parser';
-import { MAX_SHARED_TEXTS, SharedTexts } from '../../../shared-analysis/src/syntax/shared-texts';
+import { MAX_SHARED_TEXTS, parse, sharedText } from '../../../shared-analysis/src/syntax/parser';
 import { movedCard } from '../../../shared-analysis/src/syntax/moved-card';
 import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import type { ElementCard } from '../../../shared-analysis/src/syntax/ast';
@@ -90,19 +89,16 @@ describe('element cards keep the fields that are set, in a literal order', () =>
 });
 
 describe('the texts one parse shares', () => {
-  it.each([true, false])('gives the text back as written, and stops adding texts at the limit (open table: %s)', (large) => {
-    const line = 'r0 vcc o0 r0 vcc';
-    const words = new SharedTexts(2, large);
-    // Each answer is compared with String.prototype.slice of the same range (ECMAScript), the text as written.
-    expect(words.of(line, 0, 2)).toBe('r0');
-    expect(words.of(line, 3, 6)).toBe('vcc');
+  it('gives the same text back, and stops adding texts at the limit', () => {
+    const words = new Map<string, string>();
+    expect(sharedText(words, 'r0', 2)).toBe('r0');
+    expect(sharedText(words, 'vcc', 2)).toBe('vcc');
     // Full: a new text is its own and is not added; the held ones are still found.
-    expect(words.of(line, 7, 9)).toBe('o0');
+    expect(sharedText(words, 'o0', 2)).toBe('o0');
     expect(words.size).toBe(2);
-    expect(words.of(line, 10, 12)).toBe(line.slice(10, 12));
-    expect(words.of(line, 13, 16)).toBe(line.slice(13, 16));
-    expect(words.size).toBe(2);
-    // At most 2^20 texts keep the table far below the most elements an array holds (from memory of V8's limits).
+    expect([...words.keys()]).toEqual(['r0', 'vcc']);
+    expect(sharedText(words, 'r' + '0', 2)).toBe('r0');
+    // Far below the most entries a Map holds (2^24, from memory of V8's limit).
     expect(MAX_SHARED_TEXTS).toBeLessThanOrEqual(2 ** 22);
   });
 });
