@@ -1,6 +1,13 @@
 // The CLI bundle's entry (dist/cli-main.js): runs the CLI on the process's arguments. The `qpoint` bin (cli-loader.ts)
 // runs it from its code cache, in a process started for the size of the netlists named.
 import { EXIT, main } from './cli';
+import { RELAUNCHED } from './cli-launch';
+import { setColumnsUncounted } from '../../shared-analysis/src/columns';
+
+// The process the bin started for large netlists runs one batch and ends, and the engine's columns live until then:
+// they are made outside V8's external-memory count, so their growth does not start full collections that find
+// nothing to free (shared-analysis/src/columns.ts). Worker threads keep their own setting (off).
+if (process.env[RELAUNCHED] !== undefined) setColumnsUncounted(true);
 
 // A reader that stops early (`qpoint check … | head`) closes the pipe: end quietly with the exit code already set,
 // as command-line tools do, instead of dying on an unhandled EPIPE with a stack trace.

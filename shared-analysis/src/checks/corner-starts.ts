@@ -1,5 +1,6 @@
 // Where each corner's Newton starts: a prediction from the corners already solved, by inclusion–exclusion over the axes the corner moves.
 
+import { float64ColumnOf } from '../columns';
 import { maxOf } from '../arrays';
 import type { CornerSpec } from './corners';
 
@@ -72,7 +73,7 @@ export class CornerStarts {
   /** Told corner k's converged solution (copied when a later prediction needs it). */
   solved(k: number, x: Float64Array): void {
     const key = this.keys[k];
-    if (key !== undefined && this.moved[k].length < this.keepBelow) this.solutions.set(key, Float64Array.from(x));
+    if (key !== undefined && this.moved[k].length < this.keepBelow) this.solutions.set(key, float64ColumnOf(x));
   }
 
   /**

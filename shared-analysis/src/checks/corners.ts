@@ -1,5 +1,6 @@
 // Re-solves the circuit at supply, temperature and beta corners and reports outputs that leave their region, lose headroom or spread.
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import { technologyFacts } from '../structures/technology';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element } from '../circuit';
@@ -318,7 +319,7 @@ export function runCorners(ctx: CornerContext): Finding[] {
     temperatureC: Float64Array.from(specs, (s) => s.temperatureC),
     betaScale: Float64Array.from(specs, (s) => s.betaScale),
     process: specs.map((s) => s.process),
-    converged: new Uint8Array(C),
+    converged: uint8Column(C),
   };
   const { columns, buffers } = cornerColumnsOf(structures, axis);
   // After a value edit, the structures the edit cannot reach keep the last phase's figures: only the others are measured.
@@ -468,7 +469,7 @@ function usableReuse(reuse: CornerReuse | undefined, labels: readonly string[], 
 function touchedIndices(touched: Uint8Array): Int32Array {
   let n = 0;
   for (let i = 0; i < touched.length; i++) n += touched[i];
-  const out = new Int32Array(n);
+  const out = int32Column(n);
   for (let i = 0, j = 0; i < touched.length; i++) if (touched[i] === 1) out[j++] = i;
   return out;
 }
@@ -555,9 +556,9 @@ export class CornerBuffers {
   readonly volts: Float64Array;
 
   constructor(structures: number, outputs: number, voltages: number, readonly corners: number) {
-    this.iref = new Float64Array(structures * corners);
+    this.iref = float64Column(structures * corners);
     this.sink = new FigureSink(outputs * corners, corners);
-    this.volts = new Float64Array(voltages * corners).fill(NaN);
+    this.volts = float64Column(voltages * corners).fill(NaN);
   }
 }
 

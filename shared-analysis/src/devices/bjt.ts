@@ -1,5 +1,6 @@
 // Bipolar transistor: the Gummel–Poon DC model of docs/DEVICE-MODELS.md (high injection, leakage base currents, both Early voltages, ohmic RB/RE/RC, XTB), NPN and PNP, as one table of typed arrays with limiting, stamps and records.
 
+import { float64Column, int8Column } from '../columns';
 import type { Bjt } from '../circuit';
 import type { BjtRecord, BjtRegion } from '../solve/types';
 import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally, OverdrivenJunction, StartHint } from './device';
@@ -499,8 +500,8 @@ export class BjtTable implements DeviceTable {
 
   constructor(readonly instances: DeviceInstances<Bjt>, issues: ParamIssue[]) {
     const n = (this.n = instances.count);
-    const col = (): Float64Array => new Float64Array(n);
-    this.sign = new Int8Array(n);
+    const col = (): Float64Array => float64Column(n);
+    this.sign = int8Column(n);
     this.isNom = col();
     this.iseNom = col();
     this.iscNom = col();
@@ -518,7 +519,7 @@ export class BjtTable implements DeviceTable {
     this.gc = col();
     this.gb = col();
     this.ge = col();
-    this.par = new Float64Array(n * PARAMS);
+    this.par = float64Column(n * PARAMS);
     this.vcritBe = col().fill(0.6);
     this.vcritBc = col().fill(0.6);
     this.vbeOld = col();
@@ -872,8 +873,8 @@ export class BjtTable implements DeviceTable {
     const by = new Float64Array(2 * BY_PARAMS);
     const tk = c.temperatureC + ZERO_CELSIUS_K;
     const gapSlope = (ELEMENTARY_CHARGE / BOLTZMANN) / (tk * tk);
-    const dIc = new Float64Array(params.length);
-    const dIb = new Float64Array(params.length);
+    const dIc = float64Column(params.length);
+    const dIb = float64Column(params.length);
     for (let i = 0; i < n; i++) {
       const s = this.sign[i];
       const o = i * PARAMS;

@@ -1,5 +1,6 @@
 // The contract between the solver and the nonlinear device kinds: one descriptor per kind, one table per kind holding every instance in typed arrays.
 
+import { float64Column, uint8Column } from '../columns';
 import type { Element } from '../circuit';
 import type { DeviceRecord } from '../solve/types';
 import type { ParamIssue } from './params';
@@ -157,10 +158,10 @@ export function allocateSensitivity(count: number, terminals: number, nodes: num
   const residualByParam: Float64Array[] = [];
   const currentByParam: Float64Array[] = [];
   for (let k = 0; k < params; k++) {
-    residualByParam.push(new Float64Array(count * terminals));
-    currentByParam.push(new Float64Array(count * nodes));
+    residualByParam.push(float64Column(count * terminals));
+    currentByParam.push(float64Column(count * nodes));
   }
-  return { residualByParam, current: new Float64Array(count * nodes), currentByVoltage: new Float64Array(count * nodes * terminals), currentByParam };
+  return { residualByParam, current: float64Column(count * nodes), currentByVoltage: float64Column(count * nodes * terminals), currentByParam };
 }
 
 /** Takes the node pairs `DeviceKind.dcPaths` gives, one call per pair (the floating-node check's union-find). */
@@ -269,8 +270,8 @@ class AllocatedColumns implements DeviceColumns {
   readonly flags: Uint8Array;
 
   constructor(quantities: number, count: number) {
-    for (let q = 0; q < quantities; q++) this.values.push(new Float64Array(count));
-    this.region = new Uint8Array(count);
-    this.flags = new Uint8Array(count);
+    for (let q = 0; q < quantities; q++) this.values.push(float64Column(count));
+    this.region = uint8Column(count);
+    this.flags = uint8Column(count);
   }
 }

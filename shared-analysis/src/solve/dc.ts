@@ -1,5 +1,6 @@
 // The DC operating-point solver: prepares the MNA system once per circuit and solves it per call, with fallbacks and located findings.
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import { BehaviouralTable } from '../devices/behavioural';
 import type { Circuit, Element } from '../circuit';
 import type { DeviceColumns, DeviceConditions, DeviceKind, DeviceTable, StartHint } from '../devices/device';
@@ -203,14 +204,14 @@ export class DcSolver {
       tableRecordTypes: [],
       typesFilled: false,
     };
-    this.iterate = new Float64Array(this.layout.size);
+    this.iterate = float64Column(this.layout.size);
     this.solver = this.layout.size > 0 ? createLinearSolver(this.layout.pattern) : undefined;
     this.engine = new NewtonEngine(this.layout, this.solver ?? { factor: () => ({ ok: true }), solve: (b) => b, solveTranspose: (b) => b });
     this.layout.sources.forEach((s, i) => this.sourceIndexByName.set(circuit.elements[s.element].name.toLowerCase(), i));
     circuit.elements.forEach((el, i) => {
       if (el.kind === 'R' && (el.tc1 || el.tc2)) this.tcResistors.push(i);
     });
-    this.elementSlot = new Int32Array(circuit.elements.length).fill(-1);
+    this.elementSlot = int32Column(circuit.elements.length).fill(-1);
     this.layout.readers.forEach((r, k) => (this.elementSlot[r.element] = k));
     for (let d = 0; d < this.layout.deviceOrder.element.length; d++) this.elementSlot[this.layout.deviceOrder.element[d]] = -2 - d;
     this.structure = this.staticChecks();
@@ -394,7 +395,7 @@ export class DcSolver {
     const op = this.buildOperatingPoint(x, { converged, temperatureC, iterations, fallbacks }, findings, reuse, options.pointOnly === true);
     if (converged && structure.tied.length > 0) op.tiedNodes = structure.tied.map((k) => this.circuit.nodes[k]);
     if (converged && options.pointOnly !== true) pushAll(findings, this.postSolveFindings(x, op, structure));
-    const out = reuse ? (reuse.x ??= new Float64Array(n)) : new Float64Array(n);
+    const out = reuse ? (reuse.x ??= float64Column(n)) : float64Column(n);
     // A function of its own: compiled while this loop ran, the code after it had never run and gave up the compiled code at every corner solve.
     copyFinite(out, x, n);
     if (converged) solvedAt.set(out, temperatureC);
@@ -494,7 +495,7 @@ export class DcSolver {
     let iterations = 0;
     let shunt = 1e-2;
     let factor = 10;
-    const good = new Float64Array(x.length);
+    const good = float64Column(x.length);
     let haveGood = false;
     let goodShunt = 0;
     let last: NewtonOutcome | undefined;
@@ -535,7 +536,7 @@ export class DcSolver {
     let iterations = 0;
     let scale = 0;
     let step = 0.1;
-    const good = new Float64Array(x.length);
+    const good = float64Column(x.length);
     let last: NewtonOutcome | undefined;
     for (let k = 0; k < 400 && budget.remaining > 0; k++) {
       const target = Math.min(1, scale + step);
@@ -779,10 +780,10 @@ export class DcSolver {
   ): OperatingPoint {
     const c = this.circuit;
     const { tables, deviceOrder, readers } = this.layout;
-    const volts = reuse ? (reuse.volts ??= new Float64Array(c.nodes.length)) : new Float64Array(c.nodes.length);
+    const volts = reuse ? (reuse.volts ??= float64Column(c.nodes.length)) : float64Column(c.nodes.length);
     // Two-terminal voltages and currents now: the source values and resistance overrides change with the next solve.
-    const tv = reuse ? (reuse.tv ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
-    const ti = reuse ? (reuse.ti ??= new Float64Array(readers.length)) : new Float64Array(readers.length);
+    const tv = reuse ? (reuse.tv ??= float64Column(readers.length)) : float64Column(readers.length);
+    const ti = reuse ? (reuse.ti ??= float64Column(readers.length)) : float64Column(readers.length);
     // Both passes always run: each fills its vector.
     const nodesOverflow = nodeVolts(x, volts);
     const valuesOverflow = this.twoTerminalValues(x, tv, ti);
@@ -1315,13 +1316,13 @@ class ReaderColumns {
 
   constructor(readers: readonly LinearReader[]) {
     const n = readers.length;
-    this.kind = new Uint8Array(n);
-    this.element = new Int32Array(n);
-    this.a = new Int32Array(n);
-    this.b = new Int32Array(n);
-    this.first = new Int32Array(n);
-    this.second = new Int32Array(n);
-    this.gain = new Float64Array(n);
+    this.kind = uint8Column(n);
+    this.element = int32Column(n);
+    this.a = int32Column(n);
+    this.b = int32Column(n);
+    this.first = int32Column(n);
+    this.second = int32Column(n);
+    this.gain = float64Column(n);
     for (let k = 0; k < n; k++) {
       const r = readers[k];
       this.element[k] = r.element;

@@ -1,5 +1,6 @@
 // Modified nodal analysis layout: unknown numbering, the fixed sparsity pattern, linear stamps and the nonlinear devices bound to it.
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import type { Circuit, Element, Resistor } from '../circuit';
 import type { DeviceKind, DeviceTable } from '../devices/device';
 import type { ParamIssue } from '../devices/params';
@@ -62,9 +63,9 @@ export class ResistorStamps {
   private readonly g: Float64Array;
 
   constructor(elementCount: number) {
-    this.kind = new Uint8Array(elementCount);
-    this.positions = new Int32Array(4 * elementCount);
-    this.g = new Float64Array(elementCount);
+    this.kind = uint8Column(elementCount);
+    this.positions = int32Column(4 * elementCount);
+    this.g = float64Column(elementCount);
   }
 
   /** Element i's stamp, made now; undefined when it has none. */
@@ -237,10 +238,10 @@ export class MnaLayout {
     this.rowsList = new Int32List(expected);
     this.colsList = new Int32List(expected);
     this.entries = new EntryIndex(expected, this.rowsList, this.colsList);
-    this.linearList = new Float64Array(expected);
+    this.linearList = float64Column(expected);
 
     // Node diagonals are always in the pattern so shunts can be added without changing it.
-    this.nodeDiagonals = new Int32Array(nodeCount - 1);
+    this.nodeDiagonals = int32Column(nodeCount - 1);
     for (let i = 0; i < nodeCount - 1; i++) this.nodeDiagonals[i] = this.entry(i, i);
     this.diagonalsKnown = true;
     const builders = this.stampElements(internalOf);
@@ -497,8 +498,8 @@ export class MnaLayout {
 
   /** Builds one table per kind present (registry order) and the element-ordered index of every instance. */
   private buildTables(builders: Map<DeviceKind, KindBuilder>, elementCount: number): DeviceOrder {
-    const tableOf = new Int32Array(elementCount).fill(-1);
-    const rowOf = new Int32Array(elementCount);
+    const tableOf = int32Column(elementCount).fill(-1);
+    const rowOf = int32Column(elementCount);
     for (const kind of DEVICE_KINDS) {
       const b = builders.get(kind);
       if (!b) continue;
@@ -589,7 +590,7 @@ export class MnaLayout {
     const values = this.linearValues;
     const stamps = this.resistorStamps;
     const positions = new Set<number>();
-    const row = new Uint8Array(this.size);
+    const row = uint8Column(this.size);
     for (const i of changed.keys()) {
       for (let k = 0; k < 4; k++) {
         const p = stamps.position(i, k);
@@ -641,7 +642,7 @@ export class MnaLayout {
       this.colsList.push(col);
       this.entries.set(row, col, p);
       if (p === this.linearList.length) {
-        const grown = new Float64Array(2 * p);
+        const grown = float64Column(2 * p);
         grown.set(this.linearList);
         this.linearList = grown;
       }
@@ -707,7 +708,7 @@ class EntryIndex {
   ) {
     let size = 1024;
     while (size < 2 * expected) size *= 2;
-    this.slots = new Int32Array(size);
+    this.slots = int32Column(size);
   }
 
   /** The position of (row, col), −1 when it has none. */
@@ -736,7 +737,7 @@ class EntryIndex {
 
   private grow(): void {
     const { slots } = this;
-    this.slots = new Int32Array(2 * slots.length);
+    this.slots = int32Column(2 * slots.length);
     for (let h = 0; h < slots.length; h++) if (slots[h] !== 0) this.place(this.rows.at(slots[h] - 1), this.cols.at(slots[h] - 1), slots[h]);
   }
 }
@@ -753,12 +754,12 @@ class Int32List {
   length = 0;
 
   constructor(capacity = 1024) {
-    this.data = new Int32Array(Math.max(1, capacity));
+    this.data = int32Column(Math.max(1, capacity));
   }
 
   push(v: number): void {
     if (this.length === this.data.length) {
-      const grown = new Int32Array(2 * this.length);
+      const grown = int32Column(2 * this.length);
       grown.set(this.data);
       this.data = grown;
     }

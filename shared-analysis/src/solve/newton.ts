@@ -1,5 +1,6 @@
 // Newton–Raphson on the MNA system with junction limiting, a two-sided convergence test, and gmin / source stepping continuations.
 
+import { float64Column, uint8Column } from '../columns';
 import type { DeviceConditions, LoadTally, StartHint } from '../devices/device';
 import type { FactorResult, LinearSolver, SparseEntries } from './linear';
 import { BRANCH_UNKNOWN, type MnaLayout } from './mna';
@@ -79,21 +80,21 @@ export class NewtonEngine {
     private readonly solver: LinearSolver,
   ) {
     const n = layout.size;
-    this.values = new Float64Array(layout.linearValues.length);
+    this.values = float64Column(layout.linearValues.length);
     // A copy of the layout's linear entries (the same time as `Float64Array.from`, measured: docs/PERFORMANCE.md).
     this.linearValues = layout.linearValues.slice();
-    this.rhs = new Float64Array(n);
-    this.xNew = new Float64Array(n);
-    this.rowScale = new Float64Array(n);
-    this.colScale = new Float64Array(n);
-    this.scaledRhs = new Float64Array(n);
-    this.rowMax = new Float64Array(n);
-    this.residual = new Float64Array(n);
-    this.residualScale = new Float64Array(n);
-    this.lastFinite = new Float64Array(n);
-    this.isVoltage = new Uint8Array(n);
+    this.rhs = float64Column(n);
+    this.xNew = float64Column(n);
+    this.rowScale = float64Column(n);
+    this.colScale = float64Column(n);
+    this.scaledRhs = float64Column(n);
+    this.rowMax = float64Column(n);
+    this.residual = float64Column(n);
+    this.residualScale = float64Column(n);
+    this.lastFinite = float64Column(n);
+    this.isVoltage = uint8Column(n);
     for (let k = 0; k < n; k++) this.isVoltage[k] = layout.unknownKind[k] === BRANCH_UNKNOWN ? 0 : 1;
-    this.sourceValues = new Float64Array(layout.sources.length);
+    this.sourceValues = float64Column(layout.sources.length);
   }
 
   /** Prepares every device for a solve's temperature and beta. */
@@ -182,7 +183,7 @@ export class NewtonEngine {
    */
   private writeScaled(): Float64Array {
     const { values, rowScale, colScale } = this;
-    const scaled = (this.scaled ??= new Float64Array(values.length));
+    const scaled = (this.scaled ??= float64Column(values.length));
     const { rows, cols } = this.layout.pattern;
     for (let e = 0; e < rows.length; e++) scaled[e] = values[e] * rowScale[rows[e]] * colScale[cols[e]];
     this.scaledCurrent = true;
@@ -319,7 +320,7 @@ export class NewtonEngine {
   solveTransposedSparse(cIndex: ArrayLike<number>, cValue: ArrayLike<number>, out: SparseEntries): void {
     const { rowScale, colScale } = this;
     const n = colScale.length;
-    const work = (this.sparseWork ??= new Float64Array(n));
+    const work = (this.sparseWork ??= float64Column(n));
     const scaled = this.sparseScaled;
     scaled.length = cIndex.length;
     for (let k = 0; k < cIndex.length; k++) scaled[k] = cValue[k] * colScale[cIndex[k]];
@@ -328,9 +329,9 @@ export class NewtonEngine {
       for (let k = 0; k < out.count; k++) out.value[k] *= rowScale[out.index[k]];
       return;
     }
-    const dense = new Float64Array(n);
+    const dense = float64Column(n);
     for (let k = 0; k < cIndex.length; k++) dense[cIndex[k]] += scaled[k];
-    const x = this.solver.solveTranspose(dense, new Float64Array(n));
+    const x = this.solver.solveTranspose(dense, float64Column(n));
     let count = 0;
     for (let k = 0; k < n; k++) if (x[k] !== 0) {
       out.index[count] = k;

@@ -1,5 +1,6 @@
 // Sparse LU for MNA matrices: left-looking Gilbert–Peierls with threshold pivoting, then numeric-only refactorisation.
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import type { FactorResult, LinearSolver, SparseEntries, SparsePattern } from './linear';
 import { approximateMinimumDegree, symmetricPattern } from './ordering';
 
@@ -67,16 +68,16 @@ class Growable {
   val: Float64Array;
   length = 0;
   constructor(capacity: number) {
-    this.idx = new Int32Array(Math.max(16, capacity));
-    this.val = new Float64Array(Math.max(16, capacity));
+    this.idx = int32Column(Math.max(16, capacity));
+    this.val = float64Column(Math.max(16, capacity));
   }
   /** Makes room for `extra` more entries (the caller then writes idx/val directly). */
   reserve(extra: number): void {
     if (this.length + extra > this.idx.length) {
       const cap = Math.max(this.idx.length * 2, this.length + extra);
-      const idx = new Int32Array(cap);
+      const idx = int32Column(cap);
       idx.set(this.idx);
-      const val = new Float64Array(cap);
+      const val = float64Column(cap);
       val.set(this.val);
       this.idx = idx;
       this.val = val;
@@ -177,12 +178,12 @@ export class SparseLU implements LinearSolver {
     this.patternCol = pattern.cols;
 
     // Compressed columns; duplicate (row, col) entries share one slot and are summed.
-    const count = new Int32Array(n + 1);
+    const count = int32Column(n + 1);
     if (invalid < 0) for (let k = 0; k < m; k++) count[pattern.cols[k] + 1]++;
     for (let j = 0; j < n; j++) count[j + 1] += count[j];
     const fill = count.slice(0, n);
-    const rowTmp = new Int32Array(invalid < 0 ? m : 0);
-    const slotTmp = new Int32Array(invalid < 0 ? m : 0);
+    const rowTmp = int32Column(invalid < 0 ? m : 0);
+    const slotTmp = int32Column(invalid < 0 ? m : 0);
     if (invalid < 0) {
       for (let k = 0; k < m; k++) {
         const p = fill[pattern.cols[k]]++;
@@ -190,9 +191,9 @@ export class SparseLU implements LinearSolver {
         slotTmp[k] = p;
       }
     }
-    const firstAt = new Int32Array(n).fill(-1);
-    const remap = new Int32Array(rowTmp.length);
-    const aStart = new Int32Array(n + 1);
+    const firstAt = int32Column(n).fill(-1);
+    const remap = int32Column(rowTmp.length);
+    const aStart = int32Column(n + 1);
     let out = 0;
     for (let j = 0; j < n; j++) {
       aStart[j] = out;
@@ -211,10 +212,10 @@ export class SparseLU implements LinearSolver {
     for (let k = 0; k < slotTmp.length; k++) slotTmp[k] = remap[slotTmp[k]];
     this.aStart = aStart;
     this.aRow = rowTmp.slice(0, out);
-    this.aVal = new Float64Array(out);
+    this.aVal = float64Column(out);
     this.slot = slotTmp;
     if (invalid < 0 && out === m && m > 0) {
-      const entryAt = new Int32Array(m);
+      const entryAt = int32Column(m);
       for (let k = 0; k < m; k++) entryAt[slotTmp[k]] = k;
       this.entryAt = entryAt;
     } else {
@@ -222,7 +223,7 @@ export class SparseLU implements LinearSolver {
     }
 
     let empty = -1;
-    const rowUsed = new Uint8Array(n);
+    const rowUsed = uint8Column(n);
     for (let p = 0; p < out; p++) rowUsed[this.aRow[p]] = 1;
     for (let j = 0; j < n && empty < 0; j++) if (aStart[j + 1] === aStart[j] || !rowUsed[j]) empty = j;
     this.emptyIndex = empty;
@@ -230,24 +231,24 @@ export class SparseLU implements LinearSolver {
     if (options.columnOrder && isPermutation(options.columnOrder, n)) {
       this.q = options.columnOrder.slice();
     } else if (options.ordering === 'natural' || n === 0) {
-      this.q = new Int32Array(n);
+      this.q = int32Column(n);
       for (let j = 0; j < n; j++) this.q[j] = j;
     } else {
       this.q = approximateMinimumDegree(symmetricPattern(n, this.aRowsOfEntries(), this.aColsOfEntries()));
     }
 
-    this.lStart = new Int32Array(n + 1);
-    this.uStart = new Int32Array(n + 1);
-    this.uDiag = new Float64Array(n);
-    this.pinv = new Int32Array(n).fill(-1);
-    this.rowOf = new Int32Array(n);
-    this.aPos = new Int32Array(this.aRow.length);
-    this.work = new Float64Array(n);
-    this.stack = new Int32Array(n);
-    this.resume = new Int32Array(n);
-    this.reach = new Int32Array(n);
-    this.visited = new Int32Array(n);
-    this.transposeReach = new Int32Array(n);
+    this.lStart = int32Column(n + 1);
+    this.uStart = int32Column(n + 1);
+    this.uDiag = float64Column(n);
+    this.pinv = int32Column(n).fill(-1);
+    this.rowOf = int32Column(n);
+    this.aPos = int32Column(this.aRow.length);
+    this.work = float64Column(n);
+    this.stack = int32Column(n);
+    this.resume = int32Column(n);
+    this.reach = int32Column(n);
+    this.visited = int32Column(n);
+    this.transposeReach = int32Column(n);
   }
 
   /** Row indices of the compressed entries, for the ordering. */
@@ -257,7 +258,7 @@ export class SparseLU implements LinearSolver {
 
   /** Column indices of the compressed entries, for the ordering. */
   private aColsOfEntries(): Int32Array {
-    const cols = new Int32Array(this.aRow.length);
+    const cols = int32Column(this.aRow.length);
     for (let j = 0; j < this.n; j++) for (let p = this.aStart[j]; p < this.aStart[j + 1]; p++) cols[p] = j;
     return cols;
   }
@@ -375,7 +376,7 @@ export class SparseLU implements LinearSolver {
    * Solves A·x = b with the last successful factorisation. Allocates nothing when `x`
    * is given (it may be `b` itself). After a failed `factor`, returns zeros.
    */
-  solve(b: Float64Array, x: Float64Array = new Float64Array(this.n)): Float64Array {
+  solve(b: Float64Array, x: Float64Array = float64Column(this.n)): Float64Array {
     const n = this.n;
     if (!this.valid) {
       x.fill(0);
@@ -416,7 +417,7 @@ export class SparseLU implements LinearSolver {
    * Aᵀ = Q·Uᵀ·Lᵀ·P): the adjoint solve of sensitivity analysis, on the same factors and
    * without allocating when `x` is given (it may be `b`). After a failed `factor`, returns zeros.
    */
-  solveTranspose(b: Float64Array, x: Float64Array = new Float64Array(this.n)): Float64Array {
+  solveTranspose(b: Float64Array, x: Float64Array = float64Column(this.n)): Float64Array {
     const n = this.n;
     if (!this.valid) {
       x.fill(0);
@@ -548,13 +549,13 @@ export class SparseLU implements LinearSolver {
     if (this.rowsOf && this.rowsOf.factorCount === this.factorCount) return this.rowsOf;
     const n = this.n;
     const build = (start: Int32Array, idx: Int32Array, val: Float64Array): { s: Int32Array; c: Int32Array; v: Float64Array } => {
-      const count = new Int32Array(n + 1);
+      const count = int32Column(n + 1);
       const m = start[n];
       for (let p = 0; p < m; p++) count[idx[p] + 1]++;
       for (let i = 0; i < n; i++) count[i + 1] += count[i];
       const fill = count.slice(0, n);
-      const c = new Int32Array(m);
-      const v = new Float64Array(m);
+      const c = int32Column(m);
+      const v = float64Column(m);
       for (let j = 0; j < n; j++) {
         for (let p = start[j]; p < start[j + 1]; p++) {
           const at = fill[idx[p]]++;
@@ -566,7 +567,7 @@ export class SparseLU implements LinearSolver {
     };
     const u = build(this.uStart, this.uRow, this.uVal);
     const l = build(this.lStart, this.lRow, this.lVal);
-    const qinv = new Int32Array(n);
+    const qinv = int32Column(n);
     for (let k = 0; k < n; k++) qinv[this.q[k]] = k;
     this.rowsOf = { factorCount: this.factorCount, uStart: u.s, uCol: u.c, uVal: u.v, lStart: l.s, lCol: l.c, lVal: l.v, qinv };
     return this.rowsOf;
@@ -819,7 +820,7 @@ function clampFraction(v: number | undefined, fallback: number): number {
 /** Whether `q` holds each of 0..n−1 exactly once. */
 function isPermutation(q: Int32Array, n: number): boolean {
   if (q.length !== n) return false;
-  const seen = new Uint8Array(n);
+  const seen = uint8Column(n);
   for (let k = 0; k < n; k++) {
     const j = q[k];
     if (!(j >= 0 && j < n) || seen[j]) return false;

@@ -1,5 +1,6 @@
 // Reads one structure's solved currents, headroom and regions off an operating point.
 
+import { float64Column, int32Column, int8Column, uint8Column } from '../columns';
 import type { Circuit } from '../circuit';
 import type { DeviceRecord, OperatingPoint } from '../solve/types';
 import { TECHNOLOGIES } from './technology';
@@ -148,16 +149,16 @@ export function planMeasurements(topo: Topology, structures: readonly Structure[
     if (s.parts) parts += Object.keys(s.parts).length;
   }
   const f: MeasurementPlans = {
-    devStart: new Int32Array(structures.length + 1),
-    devE: new Int32Array(devices),
-    devFlags: new Uint8Array(devices),
+    devStart: int32Column(structures.length + 1),
+    devE: int32Column(devices),
+    devFlags: uint8Column(devices),
     devRecord: [],
-    partStart: new Int32Array(structures.length + 1),
-    partE: new Int32Array(parts),
-    partSign: new Int8Array(parts),
-    outStart: new Int32Array(structures.length + 1),
-    outE: new Int32Array(outputs),
-    outNodes: new Int32Array(3 * outputs),
+    partStart: int32Column(structures.length + 1),
+    partE: int32Column(parts),
+    partSign: int8Column(parts),
+    outStart: int32Column(structures.length + 1),
+    outE: int32Column(outputs),
+    outNodes: int32Column(3 * outputs),
     outT: [],
   };
   let d = 0;
@@ -266,9 +267,9 @@ export class FigureSink implements OutputSink {
     size: number,
     readonly stride: number,
   ) {
-    this.current = new Float64Array(size);
-    this.headroom = new Float64Array(size);
-    this.outOfRegion = new Uint8Array(size);
+    this.current = float64Column(size);
+    this.headroom = float64Column(size);
+    this.outOfRegion = uint8Column(size);
     this.first = 0;
   }
 }
@@ -404,10 +405,10 @@ export class BipolarColumnsMeasurement {
   static of(plans: MeasurementPlans, vec: PointVectors): BipolarColumnsMeasurement | undefined {
     if (!(vec instanceof SolvedVectors)) return undefined;
     const count = plans.outStart.length - 1;
-    const direct = new Uint8Array(count);
-    const devInstance = new Int32Array(plans.devE.length);
-    const outInstance = new Int32Array(plans.outE.length);
-    const outSign = new Float64Array(plans.outE.length);
+    const direct = uint8Column(count);
+    const devInstance = int32Column(plans.devE.length);
+    const outInstance = int32Column(plans.outE.length);
+    const outSign = float64Column(plans.outE.length);
     let table = -1;
     let any = false;
     for (let i = 0; i < count; i++) {

@@ -1,5 +1,6 @@
 // A polarity-neutral view of a circuit's transistors and node connections, shared by recognition, estimation and measurement.
 
+import { int32Column, uint8Column } from '../columns';
 import { elaboratedNamesOf, isAsciiName, type Bjt, type Circuit, type ElaboratedNames, type Element, type Jfet, type Mosfet } from '../circuit';
 import { isBipolar, polaritySign, technologyOfModel, TECHNOLOGIES } from './technology';
 import type { Technology } from './types';
@@ -249,15 +250,15 @@ export class Topology {
     const names = elaboratedNamesOf(circuit);
     const nodeIndex = new NodeIndex(circuit.nodes, names);
     const elementIndex = new ElementIndex(circuit.elements, names);
-    const rowStart = new Int32Array(nodeCount + 1);
+    const rowStart = int32Column(nodeCount + 1);
     const connections = this.countConnections(rowStart);
-    const elementTransistor = elementIndex.size === circuit.elements.length ? new Int32Array(circuit.elements.length).fill(-1) : undefined;
+    const elementTransistor = elementIndex.size === circuit.elements.length ? int32Column(circuit.elements.length).fill(-1) : undefined;
     // A circuit with elements of the same name keeps its transistors by name in a map of their own.
     if (!elementTransistor) this.names = new Map();
     const transistorElement = this.addTransistors(elementTransistor);
     for (let n = 0; n < nodeCount; n++) rowStart[n + 1] += rowStart[n];
-    const rowElement = new Int32Array(connections);
-    const rowSlot = new Uint8Array(connections);
+    const rowElement = int32Column(connections);
+    const rowSlot = uint8Column(connections);
     fillRows(circuit.elements, nodeCount, rowStart, rowElement, rowSlot);
     return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor };
   }
