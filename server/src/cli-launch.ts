@@ -27,9 +27,23 @@ export const LARGE_RUN_BYTES = 128 * 1024;
  * release: Node 24's own default let the young generation grow to 500 MB at 100,000 elements (a 1.1 GB peak). Node 24
  * still lets it grow past the given size while a full collection's incremental marking runs (a 1.06 GB peak at 100,000
  * elements); turning that marking off cost the 1,000,000-element run 44 % more CPU, so it stays on.
+ * `--initial-old-space-size` lets the old generation grow to INITIAL_OLD_SPACE_MB before its first full collection:
+ * nearly everything such a run keeps stays alive until it ends, so the collections V8 starts at its default limits
+ * (at about 50 and 250 MB of heap at 100,000 elements) marked the whole analysis to free a tenth of it. The value is
+ * fixed, not scaled to the netlist, because V8 accepts a code cache only under the flags it was made with.
  * docs/PERFORMANCE.md has the figures.
  */
-export const LARGE_RUN_FLAGS: readonly string[] = ['--max-semi-space-size=16', '--single-threaded', '--no-allocation-site-pretenuring'];
+export const LARGE_RUN_FLAGS: readonly string[] = ['--max-semi-space-size=16', '--single-threaded', '--no-allocation-site-pretenuring', '--initial-old-space-size=512'];
+
+/**
+ * The old generation's size before a large run's first full collection, MB (in LARGE_RUN_FLAGS): above the heap a
+ * 100,000-element bias array keeps (about 380 MB). Memory is taken only as the run allocates; what a run's garbage
+ * adds to its peak is what its young collections promoted and it let go (about 40 MB at 100,000 elements).
+ */
+const INITIAL_OLD_SPACE_MB = 512;
+
+/** For a heap-sized run, the old generation before its first full collection: bytes of it per byte of netlist. */
+const INITIAL_OLD_BYTES_PER_NETLIST_BYTE = 256;
 
 /** Netlist bytes beyond which the default heap may not hold the analysis (about 8 KB of heap per element). */
 const HEAP_SIZED_BYTES = 8 * 1024 * 1024;
@@ -64,14 +78,22 @@ export interface MachineLimits {
  * The Node arguments to start the run again with (before the script and its arguments), or undefined when this
  * process should run it: not already started again, and the named netlists at least LARGE_RUN_BYTES. Beyond
  * HEAP_SIZED_BYTES the heap is also sized: about 500 bytes of heap per byte of netlist, at most three quarters of
- * the machine's memory, when that is more than a tenth above what this process has.
+ * the machine's memory, when that is more than a tenth above what this process has; and the old generation before
+ * the first full collection is 256 bytes per byte of netlist (at most half the heap) when that is above
+ * INITIAL_OLD_SPACE_MB.
  */
 export function relaunchFlags(inputBytes: number, alreadyRelaunched: boolean, machine: MachineLimits): string[] | undefined {
   if (alreadyRelaunched || inputBytes < LARGE_RUN_BYTES) return undefined;
   const flags = [...LARGE_RUN_FLAGS];
   if (inputBytes >= HEAP_SIZED_BYTES) {
     const mb = Math.min(Math.ceil((inputBytes * 500) / 2 ** 20), Math.floor((machine.totalMemory * 0.75) / 2 ** 20));
-    if (mb > (machine.heapLimit / 2 ** 20) * 1.1) flags.push(`--max-old-space-size=${mb}`);
+    const sized = mb > (machine.heapLimit / 2 ** 20) * 1.1;
+    if (sized) flags.push(`--max-old-space-size=${mb}`);
+    // The first full collection waits in proportion to the netlist, up to half the heap. Under a value other than
+    // INITIAL_OLD_SPACE_MB V8 does not read the code cache, which matters little in a run this long.
+    const limitMb = sized ? mb : Math.floor(machine.heapLimit / 2 ** 20);
+    const initialMb = Math.min(Math.ceil((inputBytes * INITIAL_OLD_BYTES_PER_NETLIST_BYTE) / 2 ** 20), Math.floor(limitMb / 2));
+    if (initialMb > INITIAL_OLD_SPACE_MB) flags[flags.indexOf(`--initial-old-space-size=${INITIAL_OLD_SPACE_MB}`)] = `--initial-old-space-size=${initialMb}`;
   }
   return flags;
 }
