@@ -108,11 +108,93 @@ export function toleranceSources(
   temperatureC: number,
   devices: StructureDevices = structureDevices(circuit, structures),
 ): ToleranceSource[] {
-  const out: ToleranceSource[] = [];
+  return madeSources(circuit, structures, tolerances, settings, temperatureC, devices).sources;
+}
+
+/** The sources of `toleranceSources` with their facts in columns, when every source's σ is normal (else none: the list is filtered). */
+function madeSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices: StructureDevices): { sources: ToleranceSource[]; facts: SourceFacts | undefined } {
+  const out = new SourceSink();
   elementSources(out, circuit, tolerances, settings);
   jfetSpreads(out, circuit, devices);
   mismatchSources(out, circuit, structures, devices, temperatureC);
-  return normalSources(out);
+  if (!out.normal) return { sources: normalSources(out.list), facts: undefined };
+  return { sources: out.list, facts: out.facts() };
+}
+
+/** Each source's origin as a code: its position in this list (`SourceFacts.origin`). */
+export const SOURCE_ORIGINS: readonly ToleranceSource['from'][] = ['card', 'series', 'setting', 'supply', 'model', 'default'];
+
+/** Each source's kind as a code (`SourceFacts.kind`): a resistor's, an independent source's, a mismatch, a part spread. */
+export const KIND_RESISTOR = 0;
+export const KIND_SOURCE = 1;
+export const KIND_MISMATCH = 2;
+export const KIND_PART_SPREAD = 3;
+
+/**
+ * What the spread's readers take of every source of a list, in columns written as each source is made, while the object
+ * is still in the processor's caches: its σ and bound (ranking), figure, kind, origin and label (the sources as the
+ * report lists them), and its parameter with the parameter's kind, element and name (the varied parameters). At 100,000
+ * elements a list holds 150,000 sources, and each reader walked every object again (six walks, each about 10 ms, most of
+ * it cache misses). Only for a list whose every σ is normal (`normalSources` keeps all of it, in the order made).
+ */
+export interface SourceFacts {
+  sigma: Float64Array;
+  bound: Float64Array;
+  figure: Float64Array;
+  /** `KIND_RESISTOR` … `KIND_PART_SPREAD`. */
+  kind: Uint8Array;
+  /** Position in `SOURCE_ORIGINS`. */
+  origin: Uint8Array;
+  label: string[];
+  parameter: VariedParameter[];
+  /** The parameter's element (−1: none) and, for a model parameter, its name ('' otherwise). */
+  element: Int32Array;
+  param: string[];
+}
+
+/** The list being made, with its facts gathered as each source joins it. */
+class SourceSink {
+  readonly list: ToleranceSource[] = [];
+  /** Whether every σ and bound so far is a normal, finite number (`isNormal`). */
+  normal = true;
+  private readonly sigma: number[] = [];
+  private readonly bound: number[] = [];
+  private readonly figure: number[] = [];
+  private readonly kind: number[] = [];
+  private readonly origin: number[] = [];
+  private readonly label: string[] = [];
+  private readonly parameter: VariedParameter[] = [];
+  private readonly element: number[] = [];
+  private readonly param: string[] = [];
+
+  /** Adds `s` of kind `kind` (`KIND_…`) on `element`; `param` is the model parameter's name ('' for a resistance or a source value). */
+  push(s: ToleranceSource, kind: number, element: number, param: string): void {
+    this.list.push(s);
+    if (!isNormal(s)) this.normal = false;
+    this.sigma.push(s.sigma);
+    this.bound.push(s.bound);
+    this.figure.push(s.figure);
+    this.kind.push(kind);
+    this.origin.push(SOURCE_ORIGINS.indexOf(s.from));
+    this.label.push(s.label);
+    this.parameter.push(s.parameter);
+    this.element.push(element);
+    this.param.push(param);
+  }
+
+  facts(): SourceFacts {
+    return {
+      sigma: new Float64Array(this.sigma),
+      bound: new Float64Array(this.bound),
+      figure: new Float64Array(this.figure),
+      kind: new Uint8Array(this.kind),
+      origin: new Uint8Array(this.origin),
+      label: this.label,
+      parameter: this.parameter,
+      element: new Int32Array(this.element),
+      param: this.param,
+    };
+  }
 }
 
 /**
@@ -137,13 +219,27 @@ export interface SourceList {
 
 /** The sources of `toleranceSources` as a list a later one may be patched from (`devices`: the structures' devices, when the caller has them). */
 export function sourceListOf(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices?: StructureDevices): SourceList {
-  const sources = toleranceSources(circuit, structures, tolerances, settings, temperatureC, devices);
+  return sourceListWithFacts(circuit, structures, tolerances, settings, temperatureC, devices).list;
+}
+
+/** `sourceListOf` with the sources' facts in columns (undefined when a σ is not normal: the list was filtered). */
+export function sourceListWithFacts(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices?: StructureDevices): { list: SourceList; facts: SourceFacts | undefined } {
+  const { sources, facts } = madeSources(circuit, structures, tolerances, settings, temperatureC, devices ?? structureDevices(circuit, structures));
   const sourceOf = new Int32Array(circuit.elements.length).fill(-1);
-  for (let k = 0; k < sources.length; k++) {
-    const p = sources[k].parameter;
-    if (p.kind === 'resistance' || p.kind === 'source') sourceOf[p.element] = k;
+  if (facts) elementSourcesOf(facts, sourceOf);
+  else {
+    for (let k = 0; k < sources.length; k++) {
+      const p = sources[k].parameter;
+      if (p.kind === 'resistance' || p.kind === 'source') sourceOf[p.element] = k;
+    }
   }
-  return { sources, sourceOf, written: writtenTolerances(circuit, tolerances), settings, temperatureC, ids: structures.map((s) => s.id), devices: structures.map((s) => s.devices) };
+  return { list: { sources, sourceOf, written: writtenTolerances(circuit, tolerances), settings, temperatureC, ids: structures.map((s) => s.id), devices: structures.map((s) => s.devices) }, facts };
+}
+
+/** Per element, the index of its own source (a resistor's or an independent source's), from the facts' kinds and elements. */
+function elementSourcesOf(facts: SourceFacts, sourceOf: Int32Array): void {
+  const { kind, element } = facts;
+  for (let k = 0; k < kind.length; k++) if (kind[k] === KIND_RESISTOR || kind[k] === KIND_SOURCE) sourceOf[element[k]] = k;
 }
 
 /**
@@ -204,11 +300,11 @@ function writtenTolerances(circuit: Circuit, tolerances: Map<string, number>): F
 }
 
 /** The resistors' and the independent sources' tolerances. */
-function elementSources(out: ToleranceSource[], circuit: Circuit, tolerances: Map<string, number>, settings: SourceSettings): void {
+function elementSources(out: SourceSink, circuit: Circuit, tolerances: Map<string, number>, settings: SourceSettings): void {
   const elements = circuit.elements;
   for (let i = 0; i < elements.length; i++) {
     const source = elementSource(elements[i], i, tolerances, settings);
-    if (source) out.push(source);
+    if (source) out.push(source, source.parameter.kind === 'resistance' ? KIND_RESISTOR : KIND_SOURCE, i, '');
   }
 }
 
@@ -265,7 +361,7 @@ export function structureDeviceSlots(structures: readonly Structure[]): Structur
 }
 
 /** A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too. */
-function jfetSpreads(out: ToleranceSource[], circuit: Circuit, devices: StructureDevices): void {
+function jfetSpreads(out: SourceSink, circuit: Circuit, devices: StructureDevices): void {
   // Devices are marked by element index (one index per name), not kept in sets of names.
   const elements = circuit.elements;
   const seen = new Uint8Array(elements.length);
@@ -279,7 +375,7 @@ function jfetSpreads(out: ToleranceSource[], circuit: Circuit, devices: Structur
 }
 
 /** Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together. */
-function mismatchSources(out: ToleranceSource[], circuit: Circuit, structures: readonly Structure[], devices: StructureDevices, temperatureC: number): void {
+function mismatchSources(out: SourceSink, circuit: Circuit, structures: readonly Structure[], devices: StructureDevices, temperatureC: number): void {
   const elements = circuit.elements;
   const seen = new Uint8Array(elements.length);
   const vt = thermalVoltage(temperatureC);
@@ -362,18 +458,18 @@ function bjtModelFigures(el: Bjt, known: Map<Bjt['model'], BjtModelFigures>): Bj
   return f;
 }
 
-function pushBjt(out: ToleranceSource[], el: Bjt, i: number, group: GroupNames, vt: number, model: BjtModelFigures): void {
+function pushBjt(out: SourceSink, el: Bjt, i: number, group: GroupNames, vt: number, model: BjtModelFigures): void {
   const units = Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30);
   const { nf, is, vbe, bf, beta } = model;
   // A VBE offset ΔV at equal current is an IS ratio of e^(ΔV/(NF·VT)): σ(ΔIS/IS) = σ(ΔVBE)/(NF·VT) for one device.
   const sigmaV = vbe.value / Math.sqrt(2 * units);
   if (is > 0 && sigmaV > 0) {
     const rel = sigmaV / (nf * vt);
-    out.push({ label: `${el.name} VBE`, group: group.of('VBE'), aspect: 'VBE', element: el.name, parameter: { kind: 'model', element: i, param: 'IS' }, nominal: is, sigma: rel * is, bound: 3 * rel * is, from: vbe.from, figure: sigmaV, partSpread: undefined });
+    out.push({ label: `${el.name} VBE`, group: group.of('VBE'), aspect: 'VBE', element: el.name, parameter: { kind: 'model', element: i, param: 'IS' }, nominal: is, sigma: rel * is, bound: 3 * rel * is, from: vbe.from, figure: sigmaV, partSpread: undefined }, KIND_MISMATCH, i, 'IS');
   }
   const rel = beta.value / Math.sqrt(2 * units);
   if (bf > 0 && rel > 0) {
-    out.push({ label: `${el.name} β`, group: group.of('β'), aspect: 'β', element: el.name, parameter: { kind: 'model', element: i, param: 'BF' }, nominal: bf, sigma: rel * bf, bound: 3 * rel * bf, from: beta.from, figure: rel, partSpread: undefined });
+    out.push({ label: `${el.name} β`, group: group.of('β'), aspect: 'β', element: el.name, parameter: { kind: 'model', element: i, param: 'BF' }, nominal: bf, sigma: rel * bf, bound: 3 * rel * bf, from: beta.from, figure: rel, partSpread: undefined }, KIND_MISMATCH, i, 'BF');
   }
 }
 
@@ -392,37 +488,37 @@ const MOS_MISMATCH: FieldEffectMismatch = { threshold: 'VTH', thresholdFigure: '
 const JFET_MISMATCH: FieldEffectMismatch = { threshold: 'VTO', thresholdFigure: 'MATCHVTO', gain: 'BETA', gainFigure: 'MATCHBETA' };
 
 /** A field-effect device's threshold and gain mismatch, each device's σ the pair's Pelgrom figure over √(2·area) (docs/VARIATION.md). */
-function pushFieldEffect(out: ToleranceSource[], el: Mosfet | Jfet, i: number, group: GroupNames, area: number, m: FieldEffectMismatch): void {
+function pushFieldEffect(out: SourceSink, el: Mosfet | Jfet, i: number, group: GroupNames, area: number, m: FieldEffectMismatch): void {
   const vt = figureOf(el, m.thresholdFigure);
   const sigmaVt = vt.value / Math.sqrt(2 * area);
   if (sigmaVt > 0) {
-    out.push({ label: `${el.name} ${m.threshold}`, group: group.of(m.threshold), aspect: m.threshold, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt, partSpread: undefined });
+    out.push({ label: `${el.name} ${m.threshold}`, group: group.of(m.threshold), aspect: m.threshold, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: modelValue(el, 'VTO'), sigma: sigmaVt, bound: 3 * sigmaVt, from: vt.from, figure: sigmaVt, partSpread: undefined }, KIND_MISMATCH, i, 'VTO');
   }
   const gain = modelValue(el, m.gain);
   const g = figureOf(el, m.gainFigure);
   const rel = g.value / Math.sqrt(2 * area);
   if (gain > 0 && rel > 0) {
-    out.push({ label: `${el.name} ${m.gain}`, group: group.of(m.gain), aspect: m.gain, element: el.name, parameter: { kind: 'model', element: i, param: m.gain }, nominal: gain, sigma: rel * gain, bound: 3 * rel * gain, from: g.from, figure: rel, partSpread: undefined });
+    out.push({ label: `${el.name} ${m.gain}`, group: group.of(m.gain), aspect: m.gain, element: el.name, parameter: { kind: 'model', element: i, param: m.gain }, nominal: gain, sigma: rel * gain, bound: 3 * rel * gain, from: g.from, figure: rel, partSpread: undefined }, KIND_MISMATCH, i, m.gain);
   }
 }
 
-function pushMos(out: ToleranceSource[], el: Mosfet, i: number, group: GroupNames): void {
+function pushMos(out: SourceSink, el: Mosfet, i: number, group: GroupNames): void {
   const area = el.w * el.l * el.m;
   if (!(area > 0) || !Number.isFinite(area)) return;
   pushFieldEffect(out, el, i, group, area, MOS_MISMATCH);
 }
 
 /** A JFET's own pinch-off spread: σ = SPREADVTO·|VTO| on VTO, independent of every other part. */
-function pushJfetSpread(out: ToleranceSource[], el: Jfet, i: number): void {
+function pushJfetSpread(out: SourceSink, el: Jfet, i: number): void {
   const vto = modelValue(el, 'VTO');
   const spread = figureOf(el, 'SPREADVTO');
   const sigma = spread.value * Math.abs(vto);
   if (!(sigma > 0)) return;
   const label = `${el.name} VTO spread`;
-  out.push({ label, group: label, aspect: undefined, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: vto, sigma, bound: 3 * sigma, from: spread.from, figure: sigma, partSpread: true });
+  out.push({ label, group: label, aspect: undefined, element: el.name, parameter: { kind: 'model', element: i, param: 'VTO' }, nominal: vto, sigma, bound: 3 * sigma, from: spread.from, figure: sigma, partSpread: true }, KIND_PART_SPREAD, i, 'VTO');
 }
 
 /** The mismatch of a JFET among its structure's matched devices: VTO by MATCHVTO, BETA by MATCHBETA, each falling as 1/√(area·M). */
-function pushJfetMismatch(out: ToleranceSource[], el: Jfet, i: number, group: GroupNames): void {
+function pushJfetMismatch(out: SourceSink, el: Jfet, i: number, group: GroupNames): void {
   pushFieldEffect(out, el, i, group, Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30), JFET_MISMATCH);
 }
