@@ -11,7 +11,7 @@ import { registerLazyTable } from '../output-guard';
 import { topologyOf } from '../structures/topology';
 import { elementCurrent, structureOutputs, type OutputSpec } from './outputs';
 import { sensitivities, type OutputFunctional, type SensitivityResult, type VariedParameter } from './sensitivity';
-import { KIND_RESISTOR, KIND_SOURCE, SOURCE_ORIGINS, madeFromStructures, patchedSources, readCardTolerances, sourceListWithFacts, structureDeviceSlots, structureDevices, type SourceFacts, type SourceList, type SourceSettings, type StructureDevices, type ToleranceSource } from './sources';
+import { ParameterList, SOURCE_ORIGINS, madeFromStructures, patchedSources, readCardTolerances, sourceListWithFacts, structureDeviceSlots, structureDevices, type SourceFacts, type SourceList, type SourceSettings, type StructureDevices, type ToleranceSource } from './sources';
 import type { Contribution, OutputVariation, Sensitivity, SourceSummary, VariationResult } from './types';
 import { rankOf } from './rank';
 import { keptOutputs, type SpreadRecord, type SpreadReuse } from './reuse';
@@ -317,7 +317,7 @@ function targetWindowOf(targetOf: Map<string, TargetWindow>, spec: OutputSpec): 
 export interface VariedParameters {
   params: ParameterList;
   /** Per tolerance source: its parameter. */
-  sourceParam: number[];
+  sourceParam: Int32Array;
   temperature: number;
   supplies: { name: string; j: number }[];
   resistors: VariedResistor[];
@@ -332,8 +332,9 @@ interface VariedResistor {
 }
 
 function variedParameters(circuit: Circuit, sources: readonly ToleranceSource[], facts?: SourceFacts): VariedParameters {
-  const params = new ParameterList(circuit.elements.length);
-  const sourceParam = facts ? factParameters(params, facts) : sourceParameters(params, sources);
+  // The facts of a list made afresh hold the sources' parameters already, listed as below.
+  const params = facts ? facts.params : new ParameterList(circuit.elements.length);
+  const sourceParam = facts ? facts.sourceParam : sourceParameters(params, sources);
   const temperature = params.add({ kind: 'temperature' });
   const supplies: { name: string; j: number }[] = [];
   const resistors: VariedResistor[] = [];
@@ -369,17 +370,9 @@ function followedParameters(last: VariedParameters, circuit: Circuit, changed: I
 }
 
 /** Each tolerance source's parameter, listed. */
-function sourceParameters(params: ParameterList, sources: readonly ToleranceSource[]): number[] {
-  const out: number[] = new Array(sources.length);
+function sourceParameters(params: ParameterList, sources: readonly ToleranceSource[]): Int32Array {
+  const out = new Int32Array(sources.length);
   for (let k = 0; k < sources.length; k++) out[k] = params.add(sources[k].parameter);
-  return out;
-}
-
-/** The same from the sources' facts: the parameter objects are not read (each a cache miss at 150,000 sources). */
-function factParameters(params: ParameterList, facts: SourceFacts): number[] {
-  const { kind, element, param, parameter } = facts;
-  const out: number[] = new Array(kind.length);
-  for (let k = 0; k < kind.length; k++) out[k] = params.addOf(kind[k], element[k], param[k], parameter[k]);
   return out;
 }
 
@@ -398,15 +391,20 @@ function kindCode(s: ToleranceSource): number {
  * walk no longer enters and the heap no longer keeps until the document is written.
  */
 export class SourceColumns {
-  readonly name: string[];
+  readonly count: number;
+  /** Each source's name; undefined when read from the sources themselves (`list`: made from the list's facts). */
+  private readonly name: string[] | undefined;
+  private readonly list: readonly ToleranceSource[];
   private readonly kind: Uint8Array;
   private readonly figure: Float64Array;
   private readonly origin: Uint8Array;
 
-  /** With `facts` (those of `sources`), their columns are taken as they are. */
+  /** With `facts` (those of `sources`), their columns are taken as they are, and each name is read from its source when asked. */
   constructor(sources: readonly ToleranceSource[], facts?: SourceFacts) {
+    this.count = sources.length;
+    this.list = sources;
     if (facts) {
-      this.name = facts.label;
+      this.name = undefined;
       this.kind = facts.kind;
       this.figure = facts.figure;
       this.origin = facts.origin;
@@ -428,11 +426,11 @@ export class SourceColumns {
 
   /** Whether these columns show `sources` (the list they were made from, patched where `changed` is 1) as they stand. */
   shows(sources: readonly ToleranceSource[], changed: Uint8Array): boolean {
-    if (sources.length !== this.name.length) return false;
+    if (sources.length !== this.count) return false;
     for (let k = 0; k < changed.length; k++) {
       if (!changed[k]) continue;
       const s = sources[k];
-      if (s.label !== this.name[k] || kindCode(s) !== this.kind[k] || !Object.is(s.figure, this.figure[k]) || SOURCE_ORIGINS.indexOf(s.from) !== this.origin[k]) return false;
+      if (s.label !== this.nameOf(k) || kindCode(s) !== this.kind[k] || !Object.is(s.figure, this.figure[k]) || SOURCE_ORIGINS.indexOf(s.from) !== this.origin[k]) return false;
     }
     return true;
   }
@@ -443,14 +441,19 @@ export class SourceColumns {
     return true;
   }
 
+  /** Source k's name. */
+  nameOf(k: number): string {
+    return this.name === undefined ? this.list[k].label : this.name[k];
+  }
+
   /** Source k as a record. */
   at(k: number): SourceSummary {
-    return { name: this.name[k], kind: SOURCE_KINDS[this.kind[k]], figure: this.figure[k], from: SOURCE_ORIGINS[this.origin[k]] };
+    return { name: this.nameOf(k), kind: SOURCE_KINDS[this.kind[k]], figure: this.figure[k], from: SOURCE_ORIGINS[this.origin[k]] };
   }
 
   /** Every source as a record. */
   all(): SourceSummary[] {
-    const out: SourceSummary[] = new Array(this.name.length);
+    const out: SourceSummary[] = new Array(this.count);
     for (let k = 0; k < out.length; k++) out[k] = this.at(k);
     return out;
   }
@@ -484,7 +487,7 @@ export function sourceColumnsOf(result: VariationResult): SourceColumns | undefi
  */
 export function sourceSummaries(result: VariationResult): { length: number; at: (k: number) => SourceSummary } {
   const columns = sourceColumnsOf(result);
-  if (columns !== undefined) return { length: columns.name.length, at: (k) => columns.at(k) };
+  if (columns !== undefined) return { length: columns.count, at: (k) => columns.at(k) };
   const list = result.sources;
   return { length: list.length, at: (k) => list[k] };
 }
@@ -636,59 +639,6 @@ function addTargetOutputs(circuit: Circuit, structures: Structure[], targets: re
   return targetOf;
 }
 
-/** The varied parameters, each once: a resistor's or source's by its element, a model parameter by its name and element. */
-class ParameterList {
-  readonly list: VariedParameter[] = [];
-  private readonly resistance: Int32Array;
-  private readonly source: Int32Array;
-  private readonly model = new Map<string, Int32Array>();
-  private temperature = -1;
-
-  constructor(private readonly elementCount: number) {
-    this.resistance = new Int32Array(elementCount).fill(-1);
-    this.source = new Int32Array(elementCount).fill(-1);
-  }
-
-  /** The index of `p` in the list, added when new. */
-  add(p: VariedParameter): number {
-    if (p.kind === 'temperature') return this.temperature >= 0 ? this.temperature : (this.temperature = this.push(p));
-    let table = p.kind === 'resistance' ? this.resistance : this.source;
-    if (p.kind === 'model') {
-      const byElement = this.model.get(p.param);
-      if (byElement) table = byElement;
-      else this.model.set(p.param, (table = new Int32Array(this.elementCount).fill(-1)));
-    }
-    return table[p.element] >= 0 ? table[p.element] : (table[p.element] = this.push(p));
-  }
-
-  /**
-   * `add(p)` for a tolerance source's parameter `p` given by its facts: its kind code (`KIND_…`: a resistance, a source
-   * value, else a model parameter), its element and, for a model parameter, its name.
-   */
-  addOf(kind: number, element: number, param: string, p: VariedParameter): number {
-    let table: Int32Array;
-    if (kind === KIND_RESISTOR) table = this.resistance;
-    else if (kind === KIND_SOURCE) table = this.source;
-    else {
-      const byElement = this.model.get(param);
-      if (byElement) table = byElement;
-      else this.model.set(param, (table = new Int32Array(this.elementCount).fill(-1)));
-    }
-    return table[element] >= 0 ? table[element] : (table[element] = this.push(p));
-  }
-
-  /** The index of element i's resistance or source value, added when new (no parameter object made for one already listed). */
-  ofElement(kind: 'resistance' | 'source', element: number): number {
-    const table = kind === 'resistance' ? this.resistance : this.source;
-    return table[element] >= 0 ? table[element] : (table[element] = this.push({ kind, element }));
-  }
-
-  private push(p: VariedParameter): number {
-    this.list.push(p);
-    return this.list.length - 1;
-  }
-}
-
 /** How each parameter's derivative is shown normalised: value · factor / |y|, in `unit`, under `name` (`isShown` 0: not shown). */
 export interface ShownForms {
   isShown: Uint8Array;
@@ -697,7 +647,7 @@ export interface ShownForms {
   unit: string[];
 }
 
-function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: readonly number[], resistors: readonly VariedResistor[], supplies: readonly { name: string; j: number }[]): ShownForms {
+function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: ArrayLike<number>, resistors: readonly VariedResistor[], supplies: readonly { name: string; j: number }[]): ShownForms {
   const forms: ShownForms = { isShown: new Uint8Array(count), factor: new Float64Array(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
   for (const r of resistors) showForm(forms, r.j, r.name, '%/%', r.ohms);
   for (const s of supplies) showForm(forms, s.j, s.name, '%/V', 100);
@@ -713,7 +663,7 @@ function showForm(forms: ShownForms, j: number, name: string, unit: string, fact
 }
 
 /** A device parameter's form: a VBE or VTO shift per millivolt, a gain parameter per cent per per cent. */
-function showModelForms(forms: ShownForms, sources: readonly ToleranceSource[], sourceParam: readonly number[]): void {
+function showModelForms(forms: ShownForms, sources: readonly ToleranceSource[], sourceParam: ArrayLike<number>): void {
   for (let k = 0; k < sources.length; k++) {
     const s = sources[k];
     if (s.parameter.kind !== 'model') continue;
@@ -726,7 +676,7 @@ function showModelForms(forms: ShownForms, sources: readonly ToleranceSource[], 
 }
 
 /** Every output's derivatives with respect to the tolerance sources, picked out of its parameter row (parameter order kept). */
-export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly number[], paramCount: number, sourceCount: number): SourceRows {
+export function sourceRowsOf(sens: SensitivityResult, sourceParam: ArrayLike<number>, paramCount: number, sourceCount: number): SourceRows {
   // Several sources may vary one parameter (a JFET's part-to-part VTO spread and its VTO mismatch
   // within a structure): each is an independent term with the parameter's derivative, so the
   // parameter's sources are listed together (compressed, in source order) and every one gets a row entry.
@@ -742,13 +692,13 @@ export function sourceRowsOf(sens: SensitivityResult, sourceParam: readonly numb
 }
 
 /** `firstOfParam[j]`: where parameter j's sources start in the list by parameter (a running sum of the sources per parameter). */
-function countSourcesOfParams(sourceParam: readonly number[], sourceCount: number, firstOfParam: Int32Array): void {
+function countSourcesOfParams(sourceParam: ArrayLike<number>, sourceCount: number, firstOfParam: Int32Array): void {
   for (let k = 0; k < sourceCount; k++) firstOfParam[sourceParam[k] + 1]++;
   for (let j = 0; j + 1 < firstOfParam.length; j++) firstOfParam[j + 1] += firstOfParam[j];
 }
 
 /** The sources listed by parameter, in source order within each. */
-function sourcesByParam(sourceParam: readonly number[], sourceCount: number, firstOfParam: Int32Array): Int32Array {
+function sourcesByParam(sourceParam: ArrayLike<number>, sourceCount: number, firstOfParam: Int32Array): Int32Array {
   const sourcesOfParam = new Int32Array(sourceCount);
   const fill = firstOfParam.slice(0, firstOfParam.length - 1);
   for (let k = 0; k < sourceCount; k++) sourcesOfParam[fill[sourceParam[k]]++] = k;

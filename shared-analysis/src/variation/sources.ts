@@ -113,12 +113,14 @@ export function toleranceSources(
 
 /** The sources of `toleranceSources` with their facts in columns, when every source's σ is normal (else none: the list is filtered). */
 function madeSources(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices: StructureDevices): { sources: ToleranceSource[]; facts: SourceFacts | undefined } {
-  const out = new SourceSink();
+  const out = new SourceSink(sourceBound(circuit, devices), circuit.elements.length);
   elementSources(out, circuit, tolerances, settings);
   jfetSpreads(out, circuit, devices);
   mismatchSources(out, circuit, structures, devices, temperatureC);
-  if (!out.normal) return { sources: normalSources(out.list), facts: undefined };
-  return { sources: out.list, facts: out.facts() };
+  // A list with a σ that is not normal is filtered (the facts' places would no longer be the sources').
+  const facts = out.normal ? out.facts() : undefined;
+  if (!facts) return { sources: normalSources(out.list), facts: undefined };
+  return { sources: out.list, facts };
 }
 
 /** Each source's origin as a code: its position in this list (`SourceFacts.origin`). */
@@ -132,10 +134,11 @@ export const KIND_PART_SPREAD = 3;
 
 /**
  * What the spread's readers take of every source of a list, in columns written as each source is made, while the object
- * is still in the processor's caches: its σ and bound (ranking), figure, kind, origin and label (the sources as the
- * report lists them), and its parameter with the parameter's kind, element and name (the varied parameters). At 100,000
- * elements a list holds 150,000 sources, and each reader walked every object again (six walks, each about 10 ms, most of
- * it cache misses). Only for a list whose every σ is normal (`normalSources` keeps all of it, in the order made).
+ * is still in the processor's caches: its σ and bound (ranking), figure, kind and origin (the sources as the report lists
+ * them), its element (each element's own source), and the varied parameters the list starts (the sources' parameters,
+ * each once, in order). At 100,000 elements a list holds 150,000 sources, and each of these readers walked every object
+ * again (about 10 ms a walk, most of it cache misses). Only for a list whose every σ is normal (`normalSources` keeps
+ * all of it, in the order made).
  */
 export interface SourceFacts {
   sigma: Float64Array;
@@ -145,56 +148,96 @@ export interface SourceFacts {
   kind: Uint8Array;
   /** Position in `SOURCE_ORIGINS`. */
   origin: Uint8Array;
-  label: string[];
-  parameter: VariedParameter[];
-  /** The parameter's element (−1: none) and, for a model parameter, its name ('' otherwise). */
+  /** The element the source is of. */
   element: Int32Array;
-  param: string[];
+  /** The sources' parameters, each once, in the order first met; `sourceParam[k]` is source k's. */
+  params: ParameterList;
+  sourceParam: Int32Array;
 }
 
-/** The list being made, with its facts gathered as each source joins it. */
+/**
+ * The list being made, with its facts gathered as each source joins it, in typed columns sized once for the most sources
+ * a circuit can have (`sourceBound`), read as views of the count made. (Grown by `push`, lists of 150,000 entries past
+ * 128 KB stayed in V8's large-object space until a full collection: 15 MB more peak at 100,000 elements; copied to the
+ * count, the columns left 8 MB of buffers to the next one.)
+ */
 class SourceSink {
   readonly list: ToleranceSource[] = [];
   /** Whether every σ and bound so far is a normal, finite number (`isNormal`). */
   normal = true;
-  private readonly sigma: number[] = [];
-  private readonly bound: number[] = [];
-  private readonly figure: number[] = [];
-  private readonly kind: number[] = [];
-  private readonly origin: number[] = [];
-  private readonly label: string[] = [];
-  private readonly parameter: VariedParameter[] = [];
-  private readonly element: number[] = [];
-  private readonly param: string[] = [];
+  /** Whether more sources were made than the columns hold (then there are no facts: the objects are read). */
+  private overflow = false;
+  private count = 0;
+  private readonly sigma: Float64Array;
+  private readonly bound: Float64Array;
+  private readonly figure: Float64Array;
+  private readonly kind: Uint8Array;
+  private readonly origin: Uint8Array;
+  private readonly element: Int32Array;
+  private readonly sourceParam: Int32Array;
+  private readonly params: ParameterList;
 
-  /** Adds `s` of kind `kind` (`KIND_…`) on `element`; `param` is the model parameter's name ('' for a resistance or a source value). */
+  constructor(bound: number, elementCount: number) {
+    this.sigma = new Float64Array(bound);
+    this.bound = new Float64Array(bound);
+    this.figure = new Float64Array(bound);
+    this.kind = new Uint8Array(bound);
+    this.origin = new Uint8Array(bound);
+    this.element = new Int32Array(bound);
+    this.sourceParam = new Int32Array(bound);
+    this.params = new ParameterList(elementCount);
+  }
+
+  /** Adds `s` of kind `kind` (`KIND_…`) on `element`; `param` is its model parameter's name ('' for a resistance or a source value). */
   push(s: ToleranceSource, kind: number, element: number, param: string): void {
     this.list.push(s);
+    if (this.count === this.sigma.length) this.overflow = true;
+    if (this.overflow) return;
+    const k = this.count++;
     if (!isNormal(s)) this.normal = false;
-    this.sigma.push(s.sigma);
-    this.bound.push(s.bound);
-    this.figure.push(s.figure);
-    this.kind.push(kind);
-    this.origin.push(SOURCE_ORIGINS.indexOf(s.from));
-    this.label.push(s.label);
-    this.parameter.push(s.parameter);
-    this.element.push(element);
-    this.param.push(param);
+    this.sigma[k] = s.sigma;
+    this.bound[k] = s.bound;
+    this.figure[k] = s.figure;
+    this.kind[k] = kind;
+    this.origin[k] = SOURCE_ORIGINS.indexOf(s.from);
+    this.element[k] = element;
+    this.sourceParam[k] = this.params.addOf(kind, element, param, s.parameter);
   }
 
-  facts(): SourceFacts {
+  /** The columns of the sources made (views); undefined when they did not fit. */
+  facts(): SourceFacts | undefined {
+    if (this.overflow) return undefined;
+    const n = this.count;
     return {
-      sigma: new Float64Array(this.sigma),
-      bound: new Float64Array(this.bound),
-      figure: new Float64Array(this.figure),
-      kind: new Uint8Array(this.kind),
-      origin: new Uint8Array(this.origin),
-      label: this.label,
-      parameter: this.parameter,
-      element: new Int32Array(this.element),
-      param: this.param,
+      sigma: this.sigma.subarray(0, n),
+      bound: this.bound.subarray(0, n),
+      figure: this.figure.subarray(0, n),
+      kind: this.kind.subarray(0, n),
+      origin: this.origin.subarray(0, n),
+      element: this.element.subarray(0, n),
+      params: this.params,
+      sourceParam: this.sourceParam.subarray(0, n),
     };
   }
+}
+
+/**
+ * The most sources a circuit can have: a resistor's or an independent source's own, one per element that is not one of
+ * the structures' transistors, and per transistor at most two mismatch sources and a part spread (a JFET's, which has
+ * two mismatch sources too): at most the elements and twice the distinct devices. Were it ever exceeded, the sink would
+ * find its columns full and give no facts (the objects are read then).
+ */
+function sourceBound(circuit: Circuit, devices: StructureDevices): number {
+  const seen = new Uint8Array(circuit.elements.length);
+  let unique = 0;
+  for (let k = 0; k < devices.index.length; k++) {
+    const i = devices.index[k];
+    if (i >= 0 && !seen[i]) {
+      seen[i] = 1;
+      unique++;
+    }
+  }
+  return circuit.elements.length + 2 * unique;
 }
 
 /**
@@ -521,4 +564,57 @@ function pushJfetSpread(out: SourceSink, el: Jfet, i: number): void {
 /** The mismatch of a JFET among its structure's matched devices: VTO by MATCHVTO, BETA by MATCHBETA, each falling as 1/√(area·M). */
 function pushJfetMismatch(out: SourceSink, el: Jfet, i: number, group: GroupNames): void {
   pushFieldEffect(out, el, i, group, Math.max(el.area, 1e-30) * Math.max(el.m, 1e-30), JFET_MISMATCH);
+}
+
+/** The varied parameters, each once: a resistor's or source's by its element, a model parameter by its name and element. */
+export class ParameterList {
+  readonly list: VariedParameter[] = [];
+  private readonly resistance: Int32Array;
+  private readonly source: Int32Array;
+  private readonly model = new Map<string, Int32Array>();
+  private temperature = -1;
+
+  constructor(private readonly elementCount: number) {
+    this.resistance = new Int32Array(elementCount).fill(-1);
+    this.source = new Int32Array(elementCount).fill(-1);
+  }
+
+  /** The index of `p` in the list, added when new. */
+  add(p: VariedParameter): number {
+    if (p.kind === 'temperature') return this.temperature >= 0 ? this.temperature : (this.temperature = this.push(p));
+    let table = p.kind === 'resistance' ? this.resistance : this.source;
+    if (p.kind === 'model') {
+      const byElement = this.model.get(p.param);
+      if (byElement) table = byElement;
+      else this.model.set(p.param, (table = new Int32Array(this.elementCount).fill(-1)));
+    }
+    return table[p.element] >= 0 ? table[p.element] : (table[p.element] = this.push(p));
+  }
+
+  /**
+   * `add(p)` for a tolerance source's parameter `p` given by its kind code (`KIND_…`: a resistance, a source value, else
+   * a model parameter), its element and, for a model parameter, its name: `p` itself is not read.
+   */
+  addOf(kind: number, element: number, param: string, p: VariedParameter): number {
+    let table: Int32Array;
+    if (kind === KIND_RESISTOR) table = this.resistance;
+    else if (kind === KIND_SOURCE) table = this.source;
+    else {
+      const byElement = this.model.get(param);
+      if (byElement) table = byElement;
+      else this.model.set(param, (table = new Int32Array(this.elementCount).fill(-1)));
+    }
+    return table[element] >= 0 ? table[element] : (table[element] = this.push(p));
+  }
+
+  /** The index of element i's resistance or source value, added when new (no parameter object made for one already listed). */
+  ofElement(kind: 'resistance' | 'source', element: number): number {
+    const table = kind === 'resistance' ? this.resistance : this.source;
+    return table[element] >= 0 ? table[element] : (table[element] = this.push({ kind, element }));
+  }
+
+  private push(p: VariedParameter): number {
+    this.list.push(p);
+    return this.list.length - 1;
+  }
 }
