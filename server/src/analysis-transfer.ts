@@ -11,6 +11,7 @@ import type { Finding, Span } from '../../shared-analysis/src/types';
 import { nameTable, restoreNameTables, restoreStructureTables } from '../../shared-analysis/src/names';
 import { indexBuilder, positionsByLowerName } from '../../shared-analysis/src/features/document-index';
 import { isSpan, tokenFinder } from '../../shared-analysis/src/syntax/moved-card';
+import { SpanToken, isSpanToken } from '../../shared-analysis/src/syntax/span-token';
 import { editRegion } from '../../shared-analysis/src/incremental';
 import { copyStructure } from '../../shared-analysis/src/structures/corner-columns';
 
@@ -550,6 +551,12 @@ function moveValue(v: unknown, listed: (v: object) => number, delta: number): vo
     return;
   }
   if (listed(v) >= 0) return;
+  // A token that is its own span and not among the card's tokens: moved once (its `span` is itself).
+  if (isSpanToken(v)) {
+    v.start += delta;
+    v.end += delta;
+    return;
+  }
   const o = v as Record<string, unknown>;
   let keys = 0;
   for (const k in o) {
@@ -605,7 +612,8 @@ function encodeCard(card: Card): string {
  * place (its objects are this card's own): tokens and spans get their absolute offsets back.
  */
 function decodeCard(text: string, enc: EncodedCard, base: number): Card {
-  const token = ([s, e, expr]: [number, number, number]): Token => ({ text: text.slice(s + base, e + base), span: { start: s + base, end: e + base }, kind: expr ? 'expr' : 'word' });
+  // Each token its own span, as the parser makes them.
+  const token = ([s, e, expr]: [number, number, number]): Token => new SpanToken(text.slice(s + base, e + base), s + base, e + base, expr ? 'expr' : 'word');
   const tokens = enc.tokens.map(token);
   const decode = (v: unknown): unknown => {
     if (v === null || typeof v !== 'object') return v;
@@ -732,10 +740,13 @@ function sameOrigin(a: Origin, b: Origin, moves: Map<string, TextMove>): boolean
   return true;
 }
 
-/** Whether span `a` of the new text is held span `b` moved past the edit (and both are plain spans). */
+/**
+ * Whether span `a` of the new text is held span `b` moved past the edit (and both are offsets and nothing else: plain
+ * spans, or tokens that are their own spans, which travel as plain spans).
+ */
 function sameMovedSpan(a: Span, b: Span, move: TextMove | undefined): boolean {
   const d = shiftOf(b, move);
-  return d !== undefined && a.start === b.start + d && a.end === b.end + d && isSpan(a) && isSpan(b);
+  return d !== undefined && a.start === b.start + d && a.end === b.end + d && (isSpan(a) || isSpanToken(a)) && (isSpan(b) || isSpanToken(b));
 }
 
 /** How a span fares under an edit: where it was, moved by the change in length, or touching the edited text. */
@@ -857,9 +868,30 @@ function encodeElement(e: Element, keyOf: Map<unknown, string>): Record<string, 
       const key = keyOf.get(v);
       out[k] = key !== undefined ? { $model: key } : v;
     } else if (typeof v === 'number' && !Number.isFinite(v)) out[k] = { $num: String(v) };
+    else if (k === 'origin') out[k] = plainOrigin(v as Origin);
     else out[k] = v;
   }
   return out;
+}
+
+/**
+ * An origin whose spans are plain `{ start, end }` pairs, for JSON: the engine's origins hold the parser's tokens as
+ * their spans (`SpanToken`), and a span travels as its offsets (JSON would write a `SpanToken` whole, through its
+ * `toJSON`, and refuses a structured clone of one, which refers to itself). Fields in the origin's order.
+ */
+function plainOrigin(o: Origin): Origin {
+  const out: Record<string, unknown> = {};
+  for (const k in o) {
+    const v = (o as unknown as Record<string, unknown>)[k];
+    if (k === 'nodeSpans') out[k] = (v as Span[]).map(plainOf);
+    else if (v !== undefined && ORIGIN_SPANS.has(k)) out[k] = plainOf(v as Span);
+    else out[k] = v;
+  }
+  return out as unknown as Origin;
+}
+
+function plainOf(s: Span): Span {
+  return isSpanToken(s) ? { start: s.start, end: s.end } : s;
 }
 
 /**

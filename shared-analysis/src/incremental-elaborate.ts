@@ -7,6 +7,7 @@ import { parseNumber } from './elaborate/units';
 import { nameTable } from './names';
 import type { Card, ElementCard, ParsedDocument } from './syntax/ast';
 import type { Finding, Location, Span } from './types';
+import { movedSpan, plainSpan } from './syntax/span-token';
 
 /** The text an edit replaced: `[start, oldEnd)` of the old text, which grew by `delta` characters. */
 export interface EditRegion {
@@ -143,7 +144,7 @@ class OffsetMover {
 
   span(s: Span): Span | undefined {
     if (s.end <= this.r.start) return s;
-    if (s.start >= this.r.oldEnd) return this.r.delta === 0 ? s : { start: s.start + this.r.delta, end: s.end + this.r.delta };
+    if (s.start >= this.r.oldEnd) return this.r.delta === 0 ? s : movedSpan(s, this.r.delta);
     return undefined;
   }
 
@@ -214,7 +215,7 @@ class OffsetMover {
       const span = this.span(f.span);
       const related = f.related ? this.locations(f.related) : undefined;
       if (!span || (f.related && !related)) return undefined;
-      const moved: Finding = { ...f, span: { ...span } };
+      const moved: Finding = { ...f, span: plainSpan(span) };
       if (related) moved.related = related;
       out.push(moved);
     }
@@ -227,7 +228,7 @@ class OffsetMover {
     for (const l of list) {
       const span = this.span(l.span);
       if (!span) return undefined;
-      out.push({ ...l, span: { ...span } });
+      out.push({ ...l, span: plainSpan(span) });
     }
     return out;
   }
@@ -296,13 +297,14 @@ function shiftedOrigin(o: Origin, delta: number): Origin {
   return out;
 }
 
+/** A span moved: a token that is its own span (the parser's) as a moved token, as a cold elaboration of the moved text holds one. */
 function shifted(s: Span, delta: number): Span {
-  return { start: s.start + delta, end: s.end + delta };
+  return movedSpan(s, delta);
 }
 
 /** A finding as a new object down to its spans (`data` shared: nothing writes into it). */
 function copyFinding(f: Finding): Finding {
-  const copy: Finding = { ...f, span: { ...f.span } };
-  if (f.related) copy.related = f.related.map((x) => ({ ...x, span: { ...x.span } }));
+  const copy: Finding = { ...f, span: plainSpan(f.span) };
+  if (f.related) copy.related = f.related.map((x) => ({ ...x, span: plainSpan(x.span) }));
   return copy;
 }

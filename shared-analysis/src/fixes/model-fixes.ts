@@ -7,6 +7,7 @@ import type { Card, ParsedDocument } from '../syntax/ast';
 import { LineIndex } from '../syntax/line-index';
 import { nearestDotCard, parse } from '../syntax/parser';
 import type { Finding, Fix, Span, TextEdit } from '../types';
+import { plainSpan } from '../syntax/span-token';
 
 /** The device kinds a `.model` card can declare with defaults (everything but the resistor model). */
 export type DefaultedKind = Exclude<ModelKind, 'r'>;
@@ -173,7 +174,7 @@ export function missingModelFixes(finding: Finding, documents: Record<string, Pa
   }
   const suggestion = typeof data['suggestion'] === 'string' ? data['suggestion'] : undefined;
   if (suggestion && !misspelt && editedCardParses(doc, finding.span, suggestion)) {
-    fixes.push({ title: `Use model ${suggestion} (did you mean ${suggestion}?)`, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] });
+    fixes.push({ title: `Use model ${suggestion} (did you mean ${suggestion}?)`, edits: [{ uri: finding.uri, span: plainSpan(finding.span), newText: suggestion }] });
   }
   const seen = new Set<string>();
   for (const raw of orderedKinds(kinds.map((k) => k.toLowerCase() as DefaultedKind), finding, doc, circuit)) {
@@ -205,7 +206,7 @@ function misspeltModelCard(modelName: string, documents: Record<string, ParsedDo
       if (nearestDotCard(command.toLowerCase()) !== '.model') continue;
       const rest = doc.text.slice(card.command.span.end, card.span.end);
       const first = /^\s+([^\s()]+)/.exec(rest)?.[1];
-      if (first && first.toLowerCase() === want && editedCardParses(doc, card.command.span, '.model')) return { uri: doc.uri, span: { ...card.command.span }, command };
+      if (first && first.toLowerCase() === want && editedCardParses(doc, card.command.span, '.model')) return { uri: doc.uri, span: plainSpan(card.command.span), command };
     }
   }
   return undefined;
@@ -251,7 +252,7 @@ export function misspeltDotCardFixes(finding: Finding, documents: Record<string,
   // a subcircuit would leave its `.ends` unread).
   const ending = suggestion.toLowerCase();
   if ((ending === '.end' || ending === '.alter') && cardFollows(doc, finding.span.end)) return [];
-  return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: { ...finding.span }, newText: suggestion }] }];
+  return [{ title: `Write ${suggestion} instead of ${command}`, preferred: true, edits: [{ uri: finding.uri, span: plainSpan(finding.span), newText: suggestion }] }];
 }
 
 /** One device of a mismatched mirror as the `mirror-unmatched` finding describes it. */
@@ -330,7 +331,7 @@ export function unifyMirrorModelFixes(finding: Finding, circuit: Circuit | undef
     const key = `${d.uri}#${d.modelSpan.start}`;
     if (seen.has(key)) continue;
     seen.add(key);
-    edits.push({ uri: d.uri, span: { ...d.modelSpan }, newText: reference.model });
+    edits.push({ uri: d.uri, span: plainSpan(d.modelSpan), newText: reference.model });
     renamed.push(d.device);
   }
   if (edits.length === 0) return [];

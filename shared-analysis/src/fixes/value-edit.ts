@@ -5,6 +5,7 @@ import { parseNumber } from '../elaborate/units';
 import type { ParsedDocument, Token } from '../syntax/ast';
 import type { Span, TextEdit } from '../types';
 import { formatEngineering } from './format';
+import { plainSpan } from '../syntax/span-token';
 
 /** A change of one resistor's value, ready to offer: the edits and how the fix title should word it. */
 export interface ValueChange {
@@ -74,7 +75,7 @@ function valueChange(r: Resistor, documents: Record<string, ParsedDocument>, ohm
     const text = formatEngineering(ohms * scale, { style: 'netlist', digits: 4 });
     if (text === '') return undefined;
     const effective = Math.abs(scale - 1) > 1e-12 ? ` (${formatEngineering(ohms, { unit: 'Ω' })} effective with M=)` : '';
-    return { edits: [{ uri: r.origin.uri, span: { ...span }, newText: text }], text, note: effective + inSubckt };
+    return { edits: [{ uri: r.origin.uri, span: plainSpan(span), newText: text }], text, note: effective + inSubckt };
   }
   // An expression: the number to write is the per-part value, M= kept as written.
   const text = formatEngineering(ohms * m, { style: 'netlist', digits: 4 });
@@ -85,19 +86,19 @@ function valueChange(r: Resistor, documents: Record<string, ParsedDocument>, ohm
     const users = definition ? usesOf(documents, param, definition.name.span) : [];
     if (definition && users.length === 1 && users[0]!.uri === r.origin.uri && users[0]!.span.start === span.start && r.origin.instances.length === 0) {
       return {
-        edits: [{ uri: definition.uri, span: { ...definition.value.span }, newText: text }],
+        edits: [{ uri: definition.uri, span: plainSpan(definition.value.span), newText: text }],
         text,
         note: ` (in .param ${definition.name.text}, which only ${r.name} uses)`,
       };
     }
     const others = users.length - 1;
     return {
-      edits: [{ uri: r.origin.uri, span: { ...span }, newText: text }],
+      edits: [{ uri: r.origin.uri, span: plainSpan(span), newText: text }],
       text,
       note: ` (replaces ${written.trim()} on this card; the parameter ${param} is shared${others > 0 ? ` with ${others} other use${others > 1 ? 's' : ''}` : ''} and keeps its value)${inSubckt}`,
     };
   }
-  return { edits: [{ uri: r.origin.uri, span: { ...span }, newText: text }], text, note: ` (replaces the expression ${written.trim()})${inSubckt}` };
+  return { edits: [{ uri: r.origin.uri, span: plainSpan(span), newText: text }], text, note: ` (replaces the expression ${written.trim()})${inSubckt}` };
 }
 
 /** The top-level `.param` assignment of `name` (the last one, as elaboration keeps), with its document. */

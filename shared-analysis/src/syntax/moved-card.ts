@@ -3,6 +3,7 @@
 import type { Card, Token } from './ast';
 import type { Span } from '../types';
 import { ParsedElementCard } from './element-card';
+import { SpanToken, isSpanToken } from './span-token';
 
 /**
  * The position of a value among a card's tokens (by identity), or −1: a scan for the few tokens of
@@ -32,7 +33,7 @@ export function movedCard(card: Card, delta: number): Card {
   const tokens: Token[] = new Array(from.length);
   for (let i = 0; i < from.length; i++) {
     const t = from[i]!;
-    tokens[i] = { text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind };
+    tokens[i] = movedToken(t, delta);
   }
   // An element card's copy is made as the parser makes one (its fields are then set again in the card's order), so it
   // keeps the layout of a parsed card rather than a grown literal's.
@@ -40,6 +41,12 @@ export function movedCard(card: Card, delta: number): Card {
   const fields = card as unknown as Record<string, unknown>;
   for (const k in fields) out[k] = k === 'tokens' ? tokens : movedValue(fields[k], from, tokens, delta);
   return out as unknown as Card;
+}
+
+/** A token moved `delta` characters: a token that is its own span (as the parser makes them) as one too. */
+function movedToken(t: Token, delta: number): Token {
+  if (isSpanToken(t)) return new SpanToken(t.text, t.start + delta, t.end + delta, t.kind);
+  return { text: t.text, span: { start: t.span.start + delta, end: t.span.end + delta }, kind: t.kind };
 }
 
 /** A field of a card copied for `movedCard`: a token is its copy, a span is moved, anything else copied field by field. */
@@ -54,6 +61,8 @@ function movedValue(v: unknown, from: readonly Token[], tokens: Token[], delta: 
   }
   const i = from.indexOf(v as Token);
   if (i >= 0) return tokens[i];
+  // A token that is its own span and not among the card's tokens: its own moved copy (walking its fields would not end).
+  if (isSpanToken(v)) return movedToken(v, delta);
   const o = v as Record<string, unknown>;
   const out: Record<string, unknown> = {};
   let keys = 0;

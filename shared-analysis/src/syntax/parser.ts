@@ -29,6 +29,7 @@ import { SYNTAX_CODES, syntaxSeverity, type SyntaxCode } from './codes';
 import { nearestName } from './nearest';
 import { nameTable } from '../names';
 import { ParsedElementCard, keptAssignments } from './element-card';
+import { SpanToken } from './span-token';
 
 
 /** The element letters the solver reads, in the order messages list them. Every other letter is read into a card too. */
@@ -343,7 +344,7 @@ function firstWord(text: string, first: number, end: number): string {
 }
 
 function wordToken(text: string, start: number, end: number): Token {
-  return { text: text.slice(start, end), span: { start, end }, kind: 'word' };
+  return new SpanToken(text.slice(start, end), start, end, 'word');
 }
 
 /** The offset just past the line break that ends the line ending at `end` (or past the text). */
@@ -661,7 +662,7 @@ function lexQuoted(ctx: Context, i: number, to: number, quote: number, type: 'wo
 /** The token of a word or expression lexeme, made once so a card's fields and its `tokens` share objects. */
 function makeToken(text: string, lx: Lexeme): Token {
   if (!lx.token) {
-    lx.token = { text: text.slice(lx.start, lx.end), span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+    lx.token = new SpanToken(text.slice(lx.start, lx.end), lx.start, lx.end, lx.type === 'expr' ? 'expr' : 'word');
   }
   return lx.token;
 }
@@ -675,7 +676,7 @@ function makeToken(text: string, lx: Lexeme): Token {
 function makeSharedToken(ctx: Context, lx: Lexeme): Token {
   if (!lx.token) {
     const text = sharedText(ctx.words, ctx.text.slice(lx.start, lx.end));
-    lx.token = { text, span: { start: lx.start, end: lx.end }, kind: lx.type === 'expr' ? 'expr' : 'word' };
+    lx.token = new SpanToken(text, lx.start, lx.end, lx.type === 'expr' ? 'expr' : 'word');
   }
   return lx.token;
 }
@@ -888,7 +889,7 @@ function restOfCard(ctx: Context, segments: Segment[], from: number): Span {
 }
 
 function exprToken(text: string, span: Span): Token {
-  return { text: text.slice(span.start, span.end), span: { start: span.start, end: span.end }, kind: 'expr' };
+  return new SpanToken(text.slice(span.start, span.end), span.start, span.end, 'expr');
 }
 
 /** `.func name(a, b) = expr`, the `=` optional, the body braced or not. */
