@@ -930,8 +930,13 @@ function shareCardSpans(element: Element, cardOf: (origin: Origin) => Card | und
   origin.span = card.span;
   if (origin.valueSpan) origin.valueSpan = tokenSpanAt(card.tokens, origin.valueSpan);
   if (origin.modelSpan) origin.modelSpan = tokenSpanAt(card.tokens, origin.modelSpan);
-  const nodeSpans = origin.nodeSpans;
-  if (nodeSpans) for (let i = 0; i < nodeSpans.length; i++) nodeSpans[i] = tokenSpanAt(card.tokens, nodeSpans[i]!);
+  const nodeSpans = origin.nodeSpans as Span[] | undefined;
+  if (nodeSpans) {
+    for (let i = 0; i < nodeSpans.length; i++) nodeSpans[i] = tokenSpanAt(card.tokens, nodeSpans[i]!);
+    // The card's own list of node tokens when those are the spans, in order, as the engine's elements hold it.
+    const nodes = card.kind === 'element' ? card.nodes : undefined;
+    if (nodes && nodes.length === nodeSpans.length && nodeSpans.every((s, i) => s === (nodes[i] as unknown))) origin.nodeSpans = nodes as readonly unknown[] as readonly Span[];
+  }
   return element;
 }
 

@@ -18,8 +18,11 @@ export interface Origin {
   valueSpan?: Span;
   /** The span of the model-name field, when the card names a model. */
   modelSpan?: Span;
-  /** Spans of the node fields, in node order. */
-  nodeSpans?: Span[];
+  /**
+   * Spans of the node fields, in node order. Read-only: an element the parser's cards gave is the card's own list of
+   * node tokens, each its own span (`SpanToken`), shared by every element flattened from that card.
+   */
+  nodeSpans?: readonly Span[];
   /** The X instance cards this object was flattened through, outermost first (empty at top level). */
   instances: { name: string; uri: string; span: Span }[];
 }

@@ -257,7 +257,7 @@ class OffsetMover {
     return s.end <= this.r.start || s.start >= this.r.oldEnd;
   }
 
-  private spans(list: Span[]): Span[] | undefined {
+  private spans(list: readonly Span[]): readonly Span[] | undefined {
     let out: Span[] | undefined;
     for (let i = 0; i < list.length; i++) {
       const s = this.span(list[i]!);

@@ -229,7 +229,9 @@ describe('analysis transfer', () => {
       a.circuit!.elements.map((e) => {
         const card = a.documents[uri]!.cards.find((c) => c.span.start === e.origin.span.start)!;
         const tokenOf = (s: unknown) => card.tokens.some((t) => t.span === s);
-        return [e.name, e.origin.span === card.span, e.origin.nodeSpans!.every(tokenOf), e.origin.valueSpan === undefined || tokenOf(e.origin.valueSpan)];
+        // The node spans are the card's own list of node tokens (each token its own span: span-token.test.ts).
+        const nodes = card.kind === 'element' ? card.nodes : undefined;
+        return [e.name, e.origin.span === card.span, e.origin.nodeSpans!.every(tokenOf), e.origin.valueSpan === undefined || tokenOf(e.origin.valueSpan), e.origin.nodeSpans === nodes];
       });
     expect(sharing(first.original).every(([, ...same]) => same.every(Boolean))).toBe(true);
     expect(sharing(first.analysis)).toEqual(sharing(first.original));

@@ -6,6 +6,7 @@ import type { Assignment, ConditionCard, ElementCard, ModelCard, ParsedDocument,
 import type { Finding, Location, RelatedLocation, Span, Workspace } from '../types';
 import { nearestName } from '../syntax/nearest';
 import { unquote } from '../syntax/parser';
+import { isSpanToken, type SpanToken } from '../syntax/span-token';
 import { EvaluationContext, ParamScope, type EvalResult, type ParamDefinition, type ScopeReport } from './expressions';
 import { KINDS_FOR_LETTER, elaborateModel } from './models';
 import { compileBehaviour, compilePoly, compileTable } from './behaviour';
@@ -75,15 +76,22 @@ const NODE_COUNT: Record<string, number> = nameTable({ R: 2, C: 2, L: 2, V: 2, I
  * of its own: every element's origin is kept for the whole analysis, and fields added to a literal's object after it
  * is made are kept in a second object (docs/PERFORMANCE.md, "What the run keeps and the collector at 100k").
  */
-function elementOrigin(uri: string, span: Span, nodeSpans: Span[], instances: Origin['instances'], valueSpan: Span | undefined, modelSpan: Span | undefined): Origin {
+function elementOrigin(uri: string, span: Span, nodeSpans: readonly Span[], instances: Origin['instances'], valueSpan: Span | undefined, modelSpan: Span | undefined): Origin {
   if (valueSpan && modelSpan) return { uri, span, nodeSpans, instances, valueSpan, modelSpan };
   if (valueSpan) return { uri, span, nodeSpans, instances, valueSpan };
   if (modelSpan) return { uri, span, nodeSpans, instances, modelSpan };
   return { uri, span, nodeSpans, instances };
 }
 
-/** The spans of a card's node fields, in a list of their own length (no closure per element, as `map` takes). */
-function spansOf(tokens: readonly Token[]): Span[] {
+/**
+ * The spans of a card's node fields: the card's node list itself when each of its tokens is its own span (as the
+ * parser makes them: `SpanToken`), so an element keeps no list of its own; else a list of their own length (no
+ * closure per element, as `map` takes). Readers only read an origin's list.
+ */
+function spansOf(tokens: readonly Token[]): readonly Span[] {
+  let own = true;
+  for (let i = 0; i < tokens.length && own; i++) own = isSpanToken(tokens[i]!);
+  if (own) return tokens as readonly SpanToken[];
   const out = new Array<Span>(tokens.length);
   for (let i = 0; i < tokens.length; i++) out[i] = tokens[i]!.span;
   return out;

@@ -9,7 +9,9 @@ import { Worker } from 'node:worker_threads';
 import { parse } from '../../../shared-analysis/src/syntax/parser';
 import { movedCard } from '../../../shared-analysis/src/syntax/moved-card';
 import { isSpanToken, plainSpan, SpanToken } from '../../../shared-analysis/src/syntax/span-token';
+import { elaborate } from '../../../shared-analysis/src/elaborate/index';
 import type { Card, ElementCard, SkippedCard, Token } from '../../../shared-analysis/src/syntax/ast';
+import type { Workspace } from '../../../shared-analysis/src/types';
 
 const URI = 'file:///span-token.cir';
 
@@ -139,6 +141,40 @@ describe('a parsed token is its own span', () => {
       // The original keeps its offsets.
       for (const t of before) if (t.text !== 'TC2' || card.tokens.includes(t)) expect(NETLIST.slice(t.span.start, t.span.end)).toBe(t.text);
     }
+  });
+});
+
+describe('an element origin holds its card\'s node tokens', () => {
+  it('shares the card\'s node list, for every element flattened from the card', () => {
+    const workspace: Workspace = { read: (uri) => (uri === URI ? NETLIST : undefined), resolve: (_from, ref) => ref };
+    const doc = parsed();
+    const circuit = elaborate(doc, workspace, {}).circuit;
+    const cardAt = (start: number) => doc.cards.find((c): c is ElementCard => c.kind === 'element' && c.span.start === start)!;
+    const elements = circuit.elements.filter((e) => e.origin.uri === URI);
+    expect(elements.length).toBeGreaterThanOrEqual(6);
+    for (const e of elements) {
+      const card = cardAt(e.origin.span.start);
+      expect(e.origin.nodeSpans, e.name).toBe(card.nodes);
+      // Each span slices the node name the card writes there.
+      expect(e.origin.nodeSpans!.map((s) => NETLIST.slice(s.start, s.end))).toEqual(card.nodes.map((t) => t.text));
+    }
+    // The subcircuit's RC, flattened through X1 and X2: two elements, one list.
+    const rc = elements.filter((e) => e.origin.span.start === NETLIST.indexOf('RC a b'));
+    expect(rc).toHaveLength(2);
+    expect(rc[0]!.origin.nodeSpans).toBe(rc[1]!.origin.nodeSpans);
+  });
+
+  it('keeps a list of its own when a node token is not its own span (a card made by other code)', () => {
+    const workspace: Workspace = { read: () => undefined, resolve: (_from, ref) => ref };
+    const doc = parse(URI, 't\nR1 a 0 1k\nV1 a 0 1\n', { hasTitle: true });
+    const r1 = doc.cards.find((c): c is ElementCard => c.kind === 'element' && c.name.text === 'R1')!;
+    const plain = r1.nodes.map((t): Token => ({ text: t.text, span: { start: t.span.start, end: t.span.end }, kind: t.kind }));
+    (r1 as { nodes: readonly Token[] }).nodes = plain;
+    const circuit = elaborate(doc, workspace, {}).circuit;
+    const el = circuit.elements.find((e) => e.name.toUpperCase() === 'R1')!;
+    expect(el.origin.nodeSpans).not.toBe(r1.nodes);
+    expect(el.origin.nodeSpans).toEqual(plain.map((t) => t.span));
+    expect(el.origin.nodeSpans![0]).toBe(plain[0]!.span);
   });
 });
 
