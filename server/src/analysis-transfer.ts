@@ -934,8 +934,10 @@ function shareCardSpans(element: Element, cardOf: (origin: Origin) => Card | und
   if (nodeSpans) {
     for (let i = 0; i < nodeSpans.length; i++) nodeSpans[i] = tokenSpanAt(card.tokens, nodeSpans[i]!);
     // The card's own list of node tokens when those are the spans, in order, as the engine's elements hold it.
-    const nodes = card.kind === 'element' ? card.nodes : undefined;
-    if (nodes && nodes.length === nodeSpans.length && nodeSpans.every((s, i) => s === (nodes[i] as unknown))) origin.nodeSpans = nodes as readonly unknown[] as readonly Span[];
+    const nodes = card.kind === 'element' ? (card.nodes as readonly unknown[]) : undefined;
+    let same = nodes !== undefined && nodes.length === nodeSpans.length;
+    for (let i = 0; same && i < nodeSpans.length; i++) same = nodeSpans[i] === nodes![i];
+    if (same) origin.nodeSpans = nodes as readonly Span[];
   }
   return element;
 }
