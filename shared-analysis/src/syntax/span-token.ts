@@ -6,9 +6,10 @@ import type { Span } from '../types';
 /**
  * A parsed token that is its own span: `start` and `end` are its offsets and `span` is the token itself, one object
  * where a token and its span were two (every field of every card is kept for the whole analysis: at 100,000
- * elements about 450,000 tokens, docs/PERFORMANCE.md, "What the parse and the elaboration keep"). `span` is an own
- * field, not a getter, so a structured clone (a worker's message) keeps it: the clone's `span` is the clone. The
- * token's fields are a token literal's (`text`, `span`, `kind`) followed by `start` and `end`.
+ * elements about 450,000 tokens; docs/PERFORMANCE.md, "What the parse and the elaboration keep: tokens that are
+ * their own spans"). `span` is an own field, not a getter, so a structured clone (a worker's message) keeps it: the
+ * clone's `span` is the clone. The token's fields are a token literal's (`text`, `span`, `kind`) followed by `start`
+ * and `end`.
  *
  * A reader that takes `token.span` gets the token: copy it as `{ start, end }` (`plainSpan`) rather than by spreading
  * it, and compare offsets rather than keys. JSON writes the token as a token literal with its offsets after it
