@@ -75,11 +75,68 @@ function isLazyTable(record: object, key: string): boolean {
  * Removes every number that is not finite from `value` (a property is deleted, an array element
  * dropped; typed arrays are left alone, they never leave as JSON, and so are the engine's tables built
  * on first read, registered with `registerLazyTable`) and
- * returns the paths removed. Walks each object once; linear in the size of the data. A path is
+ * returns the paths removed. Linear in the size of the data (see `FiniteWalk`). A path is
  * written only for what is removed: the walk keeps the keys it is under, not their text.
  */
-export function dropNonFinite(value: unknown, path: string, removed: string[], seen = new Set<object>()): void {
-  walkFinite(value, path, [], removed, seen);
+export function dropNonFinite(value: unknown, path: string, removed: string[], limits: WalkLimits = WALK_LIMITS): void {
+  walkPart(newWalk(removed, limits), value, path);
+}
+
+/**
+ * One walk over one or more parts. An object reached by a second path is walked again, which finds nothing: every
+ * number the first walk of it met was removed then and named under that first path, and the walk writes nothing
+ * else (the engine's records hold data; the only accessors among them are the registered tables, which the walk
+ * does not read). What it must not do is enter an object it is inside of (a cycle): those are `open`, the objects being
+ * walked, a handful deep. Remembering every container walked instead (a set of them, 250,000 at 100,000 elements)
+ * cost about a third of the walk, far more than walking the few shared ones again (the file's spread outputs, which
+ * the structures hold too). So that data shared very often (or nested very deep) cannot make the walk long, it
+ * counts the members it reads, and past `limits.members` of them (or `limits.depth` objects deep) it remembers
+ * every object it enters from then on and enters none twice: what it removes and names is the same either way.
+ */
+interface FiniteWalk {
+  /** The paths of what was removed, in the order met. */
+  readonly removed: string[];
+  /** The keys the object being walked is under, from its part's root. */
+  readonly keys: (string | number)[];
+  /** The objects being walked, outermost first. */
+  readonly open: object[];
+  /** Members read so far (each object counts one more). */
+  members: number;
+  /** Once set: every object entered since it was made, and those open then. */
+  seen: Set<object> | undefined;
+  readonly limits: WalkLimits;
+}
+
+/** When a walk starts to remember the objects it enters (tests give small ones). */
+export interface WalkLimits {
+  /** Members read (each object counts one more). */
+  readonly members: number;
+  /** Objects open at once. */
+  readonly depth: number;
+}
+
+/** About twice the members a 1,000,000-element analysis holds; an analysis nests fewer than ten objects deep. */
+const WALK_LIMITS: WalkLimits = { members: 1 << 26, depth: 64 };
+
+function newWalk(removed: string[], limits: WalkLimits = WALK_LIMITS): FiniteWalk {
+  return { removed, keys: [], open: [], members: 0, seen: undefined, limits };
+}
+
+/** Walks `value`, a part named `root`. */
+function walkPart(w: FiniteWalk, value: unknown, root: string): void {
+  if (value !== null && typeof value === 'object' && enters(w, value)) walkFinite(w, value, root);
+}
+
+/** Whether the walk enters `o` now: not a typed array, not open, and, once remembering, not entered before. */
+function enters(w: FiniteWalk, o: object): boolean {
+  if (ArrayBuffer.isView(o)) return false;
+  if (w.seen !== undefined) return remember(o, w.seen);
+  if (w.open.includes(o)) return false;
+  if (w.members > w.limits.members || w.open.length >= w.limits.depth) {
+    w.seen = new Set(w.open);
+    w.seen.add(o);
+  }
+  return true;
 }
 
 /** The path of `keys` under `root`: `root[3].name`. */
@@ -89,14 +146,12 @@ function pathOf(root: string, keys: readonly (string | number)[], last: string |
   return p + (typeof last === 'number' ? `[${last}]` : `.${last}`);
 }
 
-function walkFinite(value: unknown, root: string, keys: (string | number)[], removed: string[], seen: Set<object>): void {
-  if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value)) return;
-  // Only a container (something holding objects) is remembered, when its first object is met: it is
-  // where a shared object or a cycle would be reached again. An object of numbers and strings reached
-  // twice is simply looked at twice, which finds nothing the second time; remembering every such leaf
-  // cost more than the rest of the walk, and so did scanning each object first to see whether it holds one.
-  let remembered = false;
+/** Walks `value`, which `enters` let in. */
+function walkFinite(w: FiniteWalk, value: object, root: string): void {
+  const { keys, removed } = w;
+  w.open.push(value);
   if (Array.isArray(value)) {
+    w.members += value.length + 1;
     let kept = 0;
     for (let i = 0; i < value.length; i++) {
       const v: unknown = value[i];
@@ -106,25 +161,27 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
           continue;
         }
       } else if (v !== null && typeof v === 'object') {
-        // Walked before: its numbers were cleaned then, so nothing before this item was dropped now.
-        if (!remembered && !(remembered = remember(value, seen))) return;
         // Moved up before it is walked: a list that holds itself must not show a dropped number again.
         if (kept !== i) value[kept] = v;
         kept++;
-        keys.push(i);
-        walkFinite(v, root, keys, removed, seen);
-        keys.pop();
+        if (enters(w, v)) {
+          keys.push(i);
+          walkFinite(w, v, root);
+          keys.pop();
+        }
         continue;
       }
       if (kept !== i) value[kept] = v;
       kept++;
     }
     if (kept !== value.length) value.length = kept;
+    w.open.pop();
     return;
   }
   const record = value as Record<string, unknown>;
   // Own enumerable names, as for-in with an own-property test would give them, at a fraction of its cost.
   const names = Object.keys(record);
+  w.members += names.length + 1;
   for (let k = 0; k < names.length; k++) {
     const key = names[k]!;
     // A table built on first read is finite by construction, clamped where it is built; reading it
@@ -136,13 +193,13 @@ function walkFinite(value: unknown, root: string, keys: (string | number)[], rem
         removed.push(pathOf(root, keys, key));
         delete record[key];
       }
-    } else if (v !== null && typeof v === 'object') {
-      if (!remembered && !(remembered = remember(value, seen))) return;
+    } else if (v !== null && typeof v === 'object' && enters(w, v)) {
       keys.push(key);
-      walkFinite(v, root, keys, removed, seen);
+      walkFinite(w, v, root);
       keys.pop();
     }
   }
+  w.open.pop();
 }
 
 /** Remembers `o` as walked; false when it was already (one look-up in the set, not two). */
@@ -157,11 +214,11 @@ function remember(o: object, seen: Set<object>): boolean {
  */
 export function keepFinite(findings: readonly Finding[], parts: Record<string, unknown>, uri: string): Finding | undefined {
   const removed: string[] = [];
-  // One memory of walked containers for all: a part that holds what an earlier one held (the file's spread outputs are
-  // the structures' spreads) is not walked again, and what the first walk removed it named under its first path then.
-  const seen = new Set<object>();
-  for (const f of findings) if (f.data) dropNonFinite(f.data, `${f.code}.data`, removed, seen);
-  for (const [name, part] of Object.entries(parts)) dropNonFinite(part, name, removed, seen);
+  // One walk over all: what a part shares with an earlier one (the file's spread outputs are the structures' spreads)
+  // the first part's walk cleaned and named under its path there.
+  const w = newWalk(removed);
+  for (const f of findings) if (f.data) walkPart(w, f.data, `${f.code}.data`);
+  for (const [name, part] of Object.entries(parts)) walkPart(w, part, name);
   if (removed.length === 0) return undefined;
   const named = removed.slice(0, MAX_PATHS_NAMED).map((p) => `\`${p}\``).join(', ');
   const more = removed.length > MAX_PATHS_NAMED ? ` and ${removed.length - MAX_PATHS_NAMED} more` : '';

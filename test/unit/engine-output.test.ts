@@ -140,8 +140,10 @@ describe('finite numbers only', () => {
 
   it('removes what an independent walk of random nested data removes, and names the same paths', () => {
     // The reference: a plain depth-first walk that remembers every object it enters (the guard
-    // remembers only containers and reads records another way), deleting members and compacting
-    // lists in place as it goes. Paths are written as the guard's doc comment says: root[3].name.
+    // remembers nothing until a limit, then what it enters, and reads records another way), deleting
+    // members and compacting lists in place as it goes. Paths are written as the guard's doc comment
+    // says: root[3].name. Each trial runs the guard with its own limits as well, small ones so that it
+    // starts remembering somewhere inside the data.
     const reference = (value: unknown, path: string, removed: string[], seen: Set<object>): void => {
       if (value === null || typeof value !== 'object' || ArrayBuffer.isView(value) || seen.has(value)) return;
       seen.add(value);
@@ -191,19 +193,25 @@ describe('finite numbers only', () => {
         return o;
       };
       const data = { root: make(0) };
-      // The reference runs on a structured clone: same shape, sharing and cycles.
+      // The reference runs on a structured clone: same shape, sharing and cycles; so does the guard with small limits.
       const copy = structuredClone(data);
+      const limited = structuredClone(data);
       const expected: string[] = [];
       reference(copy.root, 'x', expected, new Set());
       const removed: string[] = [];
       dropNonFinite(data.root, 'x', removed);
       expect(removed).toEqual(expected);
       expect(data).toEqual(copy);
+      const limits = { members: Math.floor(random() * 30), depth: 1 + Math.floor(random() * 5) };
+      const removedLimited: string[] = [];
+      dropNonFinite(limited.root, 'x', removedLimited, limits);
+      expect(removedLimited, JSON.stringify(limits)).toEqual(expected);
+      expect(limited).toEqual(copy);
     }
   });
 
   it('names each removed value once, at its first path, when an object is shared or part of a cycle', () => {
-    // The walk remembers containers, not leaves: a leaf reached twice must still be reported once, and a cycle must end.
+    // The walk does not remember what it walked: an object reached twice must still be reported once, and a cycle must end.
     const leaf = { bad: NaN, ok: 1 };
     const list = [Infinity, 2];
     const a: Record<string, unknown> = { first: leaf, again: leaf, lists: [list, list] };
@@ -217,8 +225,8 @@ describe('finite numbers only', () => {
     expect(list).toEqual([2]);
   });
 
-  it('names a value that two parts share once, under the first part, and walks the shared object once', () => {
-    // keepFinite walks its parts with one memory of containers: the file's spread outputs are the structures' spreads.
+  it('names a value that two parts share once, under the first part', () => {
+    // keepFinite walks its parts in one walk: the file's spread outputs are the structures' spreads.
     const shared = { sigma: NaN, supplyPercentPerVolt: { V1: 2 } };
     const own = { nominal: Infinity, supplyPercentPerVolt: { V1: 1 } };
     const findings: Finding[] = [];
@@ -226,6 +234,37 @@ describe('finite numbers only', () => {
     expect(f.data).toEqual({ paths: ['structures[0].variation.iref.sigma', 'variation.outputs[1].nominal'], count: 2 });
     expect(shared).toEqual({ supplyPercentPerVolt: { V1: 2 } });
     expect(own).toEqual({ supplyPercentPerVolt: { V1: 1 } });
+  });
+
+  it('ends on data nested deeper than its limit, through a cycle, with the paths a plain walk gives', () => {
+    // A chain 100 objects deep (the walk remembers what it enters once 64 are open) whose last link points back to
+    // the first: every link holds a value that is not finite, named once at its place in the chain.
+    const chain: Record<string, unknown>[] = [];
+    for (let i = 0; i < 100; i++) chain.push({ bad: i % 2 ? NaN : -Infinity, ok: i });
+    for (let i = 0; i < 99; i++) chain[i]!['next'] = chain[i + 1];
+    chain[99]!['next'] = chain[0];
+    chain[50]!['back'] = chain[10];
+    const removed: string[] = [];
+    dropNonFinite(chain[0], 'c', removed);
+    // Independent: the path of link i is `c` followed by i times `.next`.
+    expect(removed).toEqual(chain.map((_, i) => `c${'.next'.repeat(i)}.bad`));
+    expect(chain.every((link, i) => !('bad' in link) && link['ok'] === i)).toBe(true);
+  });
+
+  it('enters each object at most twice past its member limit, on data shared along every path', () => {
+    // Forty levels, each object holding the next one twice: 2^40 paths to the last. A plain walk without memory
+    // would not end; past its limit the guard remembers what it enters. Objects are counted as the walk lists
+    // their names (a proxy's ownKeys trap).
+    let listed = 0;
+    const count = <T extends object>(o: T): T => new Proxy(o, { ownKeys: (t) => (listed++, Reflect.ownKeys(t)) });
+    let level: Record<string, unknown> = count({ last: Infinity });
+    for (let i = 0; i < 40; i++) level = count({ left: level, right: level, n: 1 });
+    const removed: string[] = [];
+    dropNonFinite(level, 'd', removed, { members: 1000, depth: 64 });
+    expect(removed).toEqual([`d${'.left'.repeat(40)}.last`]);
+    // Each object counts its members and one more (two for the last, four for the others): past 1,000 after at most
+    // 501 objects; from then on each of the 41 at most once.
+    expect(listed).toBeLessThanOrEqual(501 + 41);
   });
 
   it('finds a value that is not finite put into each part of a real analysis, with its path', () => {
