@@ -1,5 +1,6 @@
 // Variation of every output: adjoint sensitivities, worst case and RSS spread with ranked contributors, drift, supply sensitivity and yield against targets (docs/VARIATION.md).
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import type { Circuit } from '../circuit';
 import type { DcSolveResult, DcSolver } from '../solve/dc';
 import type { Structure } from '../structures/types';
@@ -216,7 +217,7 @@ export function spreadRecordOf(detail: VariationDetail): SpreadRecord {
 function freshOutputs(count: number, kept: Uint8Array | undefined): Int32Array {
   let n = 0;
   for (let o = 0; o < count; o++) if (!kept?.[o]) n++;
-  const out = new Int32Array(n);
+  const out = int32Column(n);
   for (let o = 0, at = 0; o < count; o++) if (!kept?.[o]) out[at++] = o;
   return out;
 }
@@ -266,7 +267,7 @@ function derivedOutputs(
   const lists = new OutputLists(new RankedContributors(bySource), new TopSensitivities(SHOWN_SENSITIVITIES, fresh.length, shown, sens));
   const records = new OutputRecords(sens, sources, bySource, varied, lists, targetOf);
   const outputs: OutputVariation[] = new Array(specs.length);
-  const finite = new Uint8Array(fresh.length);
+  const finite = uint8Column(fresh.length);
   for (let r = 0; r < fresh.length; r++) {
     outputs[fresh[r]] = records.of(specs[fresh[r]], r);
     finite[r] = records.finite(outputs[fresh[r]], r) ? 1 : 0;
@@ -279,13 +280,13 @@ function mergedOutputs(kept: Uint8Array, derived: DerivedOutputs, last: SpreadRe
   const count = kept.length;
   const rows = derived.bySource;
   const lastRows = last.rows;
-  const start = new Int32Array(count + 1);
+  const start = int32Column(count + 1);
   for (let o = 0, r = 0; o < count; o++) {
     const length = kept[o] ? lastRows.start[o + 1] - lastRows.start[o] : rows.start[r + 1] - rows.start[r++];
     start[o + 1] = start[o] + length;
   }
-  const bySource: SourceRows = { start, index: new Int32Array(start[count]), value: new Float64Array(start[count]) };
-  const finite = new Uint8Array(count);
+  const bySource: SourceRows = { start, index: int32Column(start[count]), value: float64Column(start[count]) };
+  const finite = uint8Column(count);
   for (let o = 0, r = 0; o < count; o++) {
     if (kept[o]) {
       copyRow(lastRows, o, bySource, start[o]);
@@ -371,7 +372,7 @@ function followedParameters(last: VariedParameters, circuit: Circuit, changed: I
 
 /** Each tolerance source's parameter, listed. */
 function sourceParameters(params: ParameterList, sources: readonly ToleranceSource[]): Int32Array {
-  const out = new Int32Array(sources.length);
+  const out = int32Column(sources.length);
   for (let k = 0; k < sources.length; k++) out[k] = params.add(sources[k].parameter);
   return out;
 }
@@ -412,9 +413,9 @@ export class SourceColumns {
     }
     const count = sources.length;
     this.name = new Array<string>(count);
-    this.kind = new Uint8Array(count);
-    this.figure = new Float64Array(count);
-    this.origin = new Uint8Array(count);
+    this.kind = uint8Column(count);
+    this.figure = float64Column(count);
+    this.origin = uint8Column(count);
     for (let k = 0; k < count; k++) {
       const s = sources[k];
       this.name[k] = s.label;
@@ -528,9 +529,9 @@ class OutputRecords {
     private readonly lists: OutputLists,
     private readonly targetOf: Map<string, TargetWindow>,
   ) {
-    this.supplyOfParam = new Int32Array(varied.params.list.length).fill(-1);
+    this.supplyOfParam = int32Column(varied.params.list.length).fill(-1);
     varied.supplies.forEach((s, k) => (this.supplyOfParam[s.j] = k));
-    this.supplySlope = new Float64Array(varied.supplies.length);
+    this.supplySlope = float64Column(varied.supplies.length);
     this.figures = sourceFiguresOf(sources);
   }
 
@@ -648,7 +649,7 @@ export interface ShownForms {
 }
 
 function shownForms(count: number, sources: readonly ToleranceSource[], sourceParam: ArrayLike<number>, resistors: readonly VariedResistor[], supplies: readonly { name: string; j: number }[]): ShownForms {
-  const forms: ShownForms = { isShown: new Uint8Array(count), factor: new Float64Array(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
+  const forms: ShownForms = { isShown: uint8Column(count), factor: float64Column(count), name: new Array<string>(count).fill(''), unit: new Array<string>(count).fill('') };
   for (const r of resistors) showForm(forms, r.j, r.name, '%/%', r.ohms);
   for (const s of supplies) showForm(forms, s.j, s.name, '%/V', 100);
   showModelForms(forms, sources, sourceParam);
@@ -681,12 +682,12 @@ export function sourceRowsOf(sens: SensitivityResult, sourceParam: ArrayLike<num
   // within a structure): each is an independent term with the parameter's derivative, so the
   // parameter's sources are listed together (compressed, in source order) and every one gets a row entry.
   // One loop per function: a function run once with several long loops is compiled again for each loop.
-  const firstOfParam = new Int32Array(paramCount + 1);
+  const firstOfParam = int32Column(paramCount + 1);
   countSourcesOfParams(sourceParam, sourceCount, firstOfParam);
   const sourcesOfParam = sourcesByParam(sourceParam, sourceCount, firstOfParam);
   const outputs = sens.rowStart.length - 1;
   const entries = rowEntries(sens.index, firstOfParam);
-  const rows: SourceRows = { start: new Int32Array(outputs + 1), index: new Int32Array(entries), value: new Float64Array(entries) };
+  const rows: SourceRows = { start: int32Column(outputs + 1), index: int32Column(entries), value: float64Column(entries) };
   fillSourceRows(sens, firstOfParam, sourcesOfParam, rows);
   return rows;
 }
@@ -699,7 +700,7 @@ function countSourcesOfParams(sourceParam: ArrayLike<number>, sourceCount: numbe
 
 /** The sources listed by parameter, in source order within each. */
 function sourcesByParam(sourceParam: ArrayLike<number>, sourceCount: number, firstOfParam: Int32Array): Int32Array {
-  const sourcesOfParam = new Int32Array(sourceCount);
+  const sourcesOfParam = int32Column(sourceCount);
   const fill = firstOfParam.slice(0, firstOfParam.length - 1);
   for (let k = 0; k < sourceCount; k++) sourcesOfParam[fill[sourceParam[k]]++] = k;
   return sourcesOfParam;
@@ -777,14 +778,14 @@ class RankedContributors {
   /** For the outputs of `rows`, each ranking at most one contributor per entry of its source row. */
   constructor(rows: SourceRows) {
     const outputs = rows.start.length - 1;
-    this.made = new Uint8Array(outputs);
-    this.start = new Int32Array(outputs + 1);
+    this.made = uint8Column(outputs);
+    this.start = int32Column(outputs + 1);
     // Sized once for the most every output can keep: grown by doubling from a guess, the columns were copied and
     // reallocated about ten times at 100k elements (a fifth of the records' time there).
     const size = keptBound(rows);
-    this.share = new Float64Array(size);
-    this.sigma = new Float64Array(size);
-    this.worst = new Float64Array(size);
+    this.share = float64Column(size);
+    this.sigma = float64Column(size);
+    this.worst = float64Column(size);
   }
 
   /** Output o's list (the next) from what the last `spreadOfRange` kept. */
@@ -861,10 +862,10 @@ export class TopSensitivities {
     private readonly shown: ShownForms,
     private readonly sens: SensitivityResult,
   ) {
-    this.scale = new Float64Array(outputs);
-    this.param = new Int32Array(size);
-    this.value = new Float64Array(size);
-    this.rank = new Float64Array(size);
+    this.scale = float64Column(outputs);
+    this.param = int32Column(size);
+    this.value = float64Column(size);
+    this.rank = float64Column(size);
   }
 
   /** Output o's magnitude `scale` (its list is ranked from its row when read). */
@@ -1012,8 +1013,8 @@ function sourceFiguresOf(sources: readonly ToleranceSource[]): SourceFigures {
   let f = sourceFigures.get(sources);
   if (f) return f;
   const count = sources.length;
-  const sigma = new Float64Array(count);
-  const bound = new Float64Array(count);
+  const sigma = float64Column(count);
+  const bound = float64Column(count);
   sourceColumnsInto(sources, sigma, bound);
   f = { sigma, bound, aloneName: new Array(count).fill(undefined) };
   sourceFigures.set(sources, f);
@@ -1194,8 +1195,8 @@ export function* attachVariationSteps(structures: Structure[], result: Variation
   // read at a chain's first output): no list per structure.
   const first = new Map<string, number>();
   const outputs = result.outputs;
-  const next = new Int32Array(outputs.length).fill(-1);
-  const last = new Int32Array(outputs.length);
+  const next = int32Column(outputs.length).fill(-1);
+  const last = int32Column(outputs.length);
   // Indexed loops: a for-of step makes an iterator result object until the function is optimised (10,000 outputs at 20k).
   for (let k = 0; k < outputs.length; k++) {
     const o = outputs[k];

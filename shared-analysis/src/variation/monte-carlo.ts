@@ -1,5 +1,6 @@
 // Monte Carlo: seeded re-solves drawing every tolerance and mismatch at once, the check on the linear figures (docs/VARIATION.md).
 
+import { float64Column } from '../columns';
 import type { Circuit } from '../circuit';
 import { solvedCurrent } from '../checks/targets';
 import type { DcSolveResult, DcSolver } from '../solve/dc';
@@ -114,7 +115,7 @@ export function runMonteCarlo(circuit: Circuit, structures: Structure[], solver:
   const runs = Math.max(0, Math.floor(options.runs));
   const read = reader(circuit, structures, detail);
   const n = detail.specs.length;
-  const values = new Float64Array(n);
+  const values = float64Column(n);
   const samples: number[][] = detail.specs.map(() => []);
   const els = circuit.elements;
   let converged = 0;

@@ -1,5 +1,6 @@
 // What a spread analysis after a value edit keeps of the last one: the records of the outputs the edit cannot reach (docs/VARIATION.md).
 
+import { uint8Column } from '../columns';
 import type { SourceColumns, VariedParameters } from './index';
 import type { OutputSpec } from './outputs';
 import { sameFigures, type SourceList, type ToleranceSource } from './sources';
@@ -50,7 +51,7 @@ export function keptOutputs(reuse: SpreadReuse, specs: readonly OutputSpec[], li
   // A list patched from the last one knows which sources it made again.
   const changed = list.changed ?? changedSources(last.sourceList.sources, list.sources);
   if (!changed) return undefined;
-  const kept = new Uint8Array(specs.length);
+  const kept = uint8Column(specs.length);
   const { start, index } = last.rows;
   for (let o = 0; o < specs.length; o++) {
     // A record a host gave Monte Carlo figures (the worker's finished run writes them into its analysis's outputs) is made again without them.
@@ -72,7 +73,7 @@ function sameOutputs(a: readonly OutputSpec[], b: readonly OutputSpec[]): boolea
 /** Per source, 1 when its figures differ from the last list's; undefined when the lists vary other parameters or name them otherwise. */
 function changedSources(before: readonly ToleranceSource[], now: readonly ToleranceSource[]): Uint8Array | undefined {
   if (before.length !== now.length) return undefined;
-  const changed = new Uint8Array(now.length);
+  const changed = uint8Column(now.length);
   for (let k = 0; k < now.length; k++) {
     const a = before[k];
     const b = now[k];

@@ -1,5 +1,6 @@
 // Adjoint sensitivities of output currents and voltages to every resistor, source, the temperature and each device's own model parameters, from the factored Jacobian of a converged solution (docs/VARIATION.md).
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import type { Element } from '../circuit';
 import { MODEL_DEFAULTS } from '../devices/parameters';
 import type { DeviceConditions, DeviceKind, DeviceSensitivity, DeviceTable, LoadTally } from '../devices/device';
@@ -126,9 +127,9 @@ class Batch {
   ) {
     const T = (this.T = kind.terminalCount);
     const V = variants.length;
-    const terminals = new Int32Array(V * T);
-    const positions = new Int32Array(V * T * T);
-    this.x = new Float64Array(V * T);
+    const terminals = int32Column(V * T);
+    const positions = int32Column(V * T * T);
+    this.x = float64Column(V * T);
     variants.forEach((v, i) => {
       for (let t = 0; t < T; t++) {
         const g = v.globals[t];
@@ -137,11 +138,11 @@ class Batch {
       }
       for (let r = 0; r < T; r++) for (let c = 0; c < T; c++) positions[i * T * T + r * T + c] = v.globals[r] < 0 || v.globals[c] < 0 ? -1 : i * T * T + r * T + c;
     });
-    this.table = kind.createTable({ count: V, elements: variants.map((v) => v.element), elementIndex: new Int32Array(V), terminals, positions }, []);
+    this.table = kind.createTable({ count: V, elements: variants.map((v) => v.element), elementIndex: int32Column(V), terminals, positions }, []);
     this.table.prepare(conditions);
     this.table.resetState(this.x);
-    this.values = new Float64Array(V * T * T);
-    this.rhs = new Float64Array(V * T);
+    this.values = float64Column(V * T * T);
+    this.rhs = float64Column(V * T);
   }
 
   /** The currents each copy draws at each of its terminals (its part of the KCL rows), at the copies' solutions. */
@@ -153,7 +154,7 @@ class Batch {
     this.tally.nonFinite.length = 0;
     this.table.resetState(x);
     this.table.load(x, values, rhs, false, this.tally);
-    const out = new Float64Array(rhs.length);
+    const out = float64Column(rhs.length);
     const V = this.variants.length;
     for (let i = 0; i < V; i++) {
       for (let r = 0; r < T; r++) {
@@ -170,7 +171,7 @@ class Batch {
     const cols = this.table.evaluate(this.x);
     const out = new Map<number, Float64Array>();
     for (const t of terminals) {
-      const col = new Float64Array(this.variants.length);
+      const col = float64Column(this.variants.length);
       for (let i = 0; i < col.length; i++) col[i] = this.kind.terminalCurrent(cols, i, t);
       out.set(t, col);
     }
@@ -226,7 +227,7 @@ function derivativesWithin(lin: Linearisation, maps: ElementMaps, outputs: reado
   const derivatives = deviceDerivatives(lin, maps, outputs, params, scope);
   const columns = rowMajor(parameterColumns(lin, maps, derivatives, params, scope), lin.layout.size);
   const rows = new DerivativeRows(params.length, outputs.length);
-  const value = new Float64Array(outputs.length);
+  const value = float64Column(outputs.length);
   const covered = scope ? coveredRows(lin, scope) : undefined;
   if (!adjointRows(lin, maps, derivatives, columns, outputs, params, rows, value, covered)) return undefined;
   return { value, rowStart: rows.start, index: rows.index.subarray(0, rows.length), derivative: rows.value.subarray(0, rows.length), adjointSolves: outputs.length, devicesDerived: derivedInstances(derivatives) };
@@ -235,7 +236,7 @@ function derivativesWithin(lin: Linearisation, maps: ElementMaps, outputs: reado
 /** Per unknown, 1 when every element that stamps into its row is in `scope`: its terminals' KCL rows and the unknowns it owns (internal nodes, branch currents). */
 function coveredRows(lin: Linearisation, scope: Uint8Array): Uint8Array {
   const { size, unknownKind, unknownOwner } = lin.layout;
-  const covered = new Uint8Array(size).fill(1);
+  const covered = uint8Column(size).fill(1);
   const { start, row } = elementRows(lin.layout);
   for (let e = 0; e < scope.length; e++) if (!scope[e]) for (let q = start[e]; q < start[e + 1]; q++) covered[row[q]] = 0;
   for (let u = 0; u < size; u++) if (unknownKind[u] !== NODE_UNKNOWN && !scope[unknownOwner[u]]) covered[u] = 0;
@@ -256,9 +257,9 @@ function elementRows(layout: Linearisation['layout']): ElementRows {
   if (rows) return rows;
   const elements = layout.circuit.elements;
   const size = layout.size;
-  const start = new Int32Array(elements.length + 1);
+  const start = int32Column(elements.length + 1);
   for (let e = 0; e < elements.length; e++) start[e + 1] = start[e] + elements[e].nodes.length;
-  const row = new Int32Array(start[elements.length]);
+  const row = int32Column(start[elements.length]);
   let count = 0;
   for (let e = 0; e < elements.length; e++) {
     for (const node of elements[e].nodes) if (node > 0 && node <= size) row[count++] = node - 1;
@@ -326,20 +327,20 @@ function elementMaps(lin: Linearisation, params: readonly VariedParameter[]): El
   const layout = lin.layout;
   const count = layout.circuit.elements.length;
   const order = layout.deviceOrder;
-  const tableOf = new Int32Array(count).fill(-1);
-  const instanceOf = new Int32Array(count);
+  const tableOf = int32Column(count).fill(-1);
+  const instanceOf = int32Column(count);
   for (let d = 0; d < order.element.length; d++) {
     tableOf[order.element[d]] = order.table[d];
     instanceOf[order.element[d]] = order.instance[d];
   }
-  const readerOf = new Int32Array(count).fill(-1);
+  const readerOf = int32Column(count).fill(-1);
   layout.readers.forEach((r, k) => (readerOf[r.element] = k));
-  const sourceOf = new Int32Array(count).fill(-1);
+  const sourceOf = int32Column(count).fill(-1);
   layout.sources.forEach((s, k) => (sourceOf[s.element] = k));
-  const kind = new Uint8Array(params.length);
-  const element = new Int32Array(params.length);
+  const kind = uint8Column(params.length);
+  const element = int32Column(params.length);
   const temperatureParam = parameterKinds(params, kind, element);
-  const elementParamStart = new Int32Array(count + 1);
+  const elementParamStart = int32Column(count + 1);
   const elementParams = parametersByElement(kind, element, elementParamStart);
   const resistanceParams = parametersOfKind(kind, RESISTANCE);
   const sourceParams = parametersOfKind(kind, SOURCE);
@@ -349,7 +350,7 @@ function elementMaps(lin: Linearisation, params: readonly VariedParameter[]): El
 
 /** The indices of the parameters of kind `code`, ascending. */
 function parametersOfKind(kind: Uint8Array, code: number): Int32Array {
-  const list = new Int32Array(countOfKind(kind, code));
+  const list = int32Column(countOfKind(kind, code));
   for (let j = 0, k = 0; j < kind.length; j++) if (kind[j] === code) list[k++] = j;
   return list;
 }
@@ -383,7 +384,7 @@ function parametersByElement(kind: Uint8Array, element: Int32Array, start: Int32
   const count = start.length - 1;
   for (let j = 0; j < kind.length; j++) if (kind[j] !== TEMPERATURE) start[element[j] + 1]++;
   for (let e = 0; e < count; e++) start[e + 1] += start[e];
-  const list = new Int32Array(start[count]);
+  const list = int32Column(start[count]);
   const fill = start.slice(0, count);
   for (let j = 0; j < kind.length; j++) if (kind[j] !== TEMPERATURE) list[fill[element[j]]++] = j;
   return list;
@@ -397,7 +398,7 @@ function deviceDerivatives(lin: Linearisation, maps: ElementMaps, outputs: reado
   const { kind, element, tableOf } = maps;
   for (let j = 0; j < kind.length; j++) if (kind[j] === MODEL && tableOf[element[j]] >= 0 && (!scope || scope[element[j]])) namesOf[tableOf[element[j]]].add((params[j] as { param: string }).param);
   // Tables an output reads a terminal current of need their current rows even without parameters.
-  const readsTable = new Uint8Array(tables.length);
+  const readsTable = uint8Column(tables.length);
   for (let o = 0; o < outputs.length; o++) markReadTables(outputs[o].terms, tableOf, readsTable);
   return tables.map((layoutTable, k) => {
     const names = [...namesOf[k]];
@@ -424,7 +425,7 @@ function markReadTables(terms: readonly OutputTerm[], tableOf: Int32Array, reads
 /** Per instance of `table`, its row among the instances whose element is in `scope` (−1: out of scope); undefined when all are. */
 function rowsInScope(table: DeviceTable, scope: Uint8Array): Int32Array | undefined {
   const elementIndex = table.instances.elementIndex;
-  const rowOf = new Int32Array(elementIndex.length);
+  const rowOf = int32Column(elementIndex.length);
   let count = 0;
   for (let i = 0; i < elementIndex.length; i++) rowOf[i] = scope[elementIndex[i]] ? count++ : -1;
   return count === elementIndex.length ? undefined : rowOf;
@@ -441,9 +442,9 @@ function tableOfRows(table: DeviceTable, rowOf: Int32Array, conditions: DeviceCo
   let count = 0;
   for (let i = 0; i < rowOf.length; i++) if (rowOf[i] >= 0) count++;
   const elements: Element[] = new Array(count);
-  const elementIndex = new Int32Array(count);
-  const terminals = new Int32Array(count * T);
-  const positions = new Int32Array(count * T * T);
+  const elementIndex = int32Column(count);
+  const terminals = int32Column(count * T);
+  const positions = int32Column(count * T * T);
   for (let i = 0; i < rowOf.length; i++) {
     const r = rowOf[i];
     if (r < 0) continue;
@@ -584,12 +585,12 @@ interface ColumnsByRow {
 }
 
 function rowMajor(cols: Triples, n: number): ColumnsByRow {
-  const start = new Int32Array(n + 1);
+  const start = int32Column(n + 1);
   const count = cols.length;
   countRows(cols, start);
   for (let u = 0; u < n; u++) start[u + 1] += start[u];
-  const param = new Int32Array(count);
-  const value = new Float64Array(count);
+  const param = int32Column(count);
+  const value = float64Column(count);
   const fill = start.slice(0, n);
   for (let c = 0; c < cols.rows.length; c++) {
     const row = cols.rows[c];
@@ -627,8 +628,8 @@ class OutputGradient {
   private count = 0;
 
   constructor(n: number) {
-    this.dense = new Float64Array(n);
-    this.mark = new Uint8Array(n);
+    this.dense = float64Column(n);
+    this.mark = uint8Column(n);
   }
 
   add(u: number, val: number): void {
@@ -838,19 +839,19 @@ class OutputTerms {
  */
 class DerivativeRows {
   readonly start: Int32Array;
-  index = new Int32Array(1024);
-  value = new Float64Array(1024);
+  index: Int32Array = new Int32Array(1024);
+  value: Float64Array = new Float64Array(1024);
   length = 0;
   private rowsClosed = 0;
   private readonly acc: Float64Array;
   private readonly mark: Uint8Array;
-  private touched = new Int32Array(64);
+  private touched: Int32Array = new Int32Array(64);
   private touchedCount = 0;
 
   constructor(params: number, outputs: number) {
-    this.acc = new Float64Array(params);
-    this.mark = new Uint8Array(params);
-    this.start = new Int32Array(outputs + 1);
+    this.acc = float64Column(params);
+    this.mark = uint8Column(params);
+    this.start = int32Column(outputs + 1);
   }
 
   add(j: number, val: number): void {
@@ -915,15 +916,15 @@ function sortAscending(a: Int32Array, count: number): void {
 }
 
 /** A copy of an Int32Array at a larger size. */
-export function grown(a: Int32Array, size: number): Int32Array<ArrayBuffer> {
-  const b = new Int32Array(size);
+export function grown(a: Int32Array, size: number): Int32Array {
+  const b = int32Column(size);
   b.set(a);
   return b;
 }
 
 /** A copy of a Float64Array at a larger size. */
-export function grownFloat(a: Float64Array, size: number): Float64Array<ArrayBuffer> {
-  const b = new Float64Array(size);
+export function grownFloat(a: Float64Array, size: number): Float64Array {
+  const b = float64Column(size);
   b.set(a);
   return b;
 }
@@ -971,9 +972,9 @@ class Triples {
 
   private addChunk(): void {
     const size = this.rows.length === 0 ? FIRST_TRIPLE_CHUNK : TRIPLE_CHUNK;
-    this.rows.push(new Int32Array(size));
-    this.params.push(new Int32Array(size));
-    this.values.push(new Float64Array(size));
+    this.rows.push(int32Column(size));
+    this.params.push(int32Column(size));
+    this.values.push(float64Column(size));
     this.at = 0;
     this.room = size;
   }
@@ -1011,9 +1012,9 @@ function numericalSensitivity(table: DeviceTable, x: Float64Array, conditions: D
       down = nominal.residuals();
       downI = nominal.currents(all);
       nominal.table.prepare(conditions);
-      h = new Float64Array(count).fill(TEMPERATURE_STEP);
+      h = float64Column(count).fill(TEMPERATURE_STEP);
     } else {
-      h = new Float64Array(count);
+      h = float64Column(count);
       const copies: Variant[] = [];
       for (let i = 0; i < count; i++) {
         const el = inst.elements[i];
@@ -1024,8 +1025,8 @@ function numericalSensitivity(table: DeviceTable, x: Float64Array, conditions: D
       const batch = new Batch(kind, copies, x, conditions);
       const res = batch.residuals();
       const cur = batch.currents(all);
-      up = new Float64Array(count * T);
-      down = new Float64Array(count * T);
+      up = float64Column(count * T);
+      down = float64Column(count * T);
       upI = new Map();
       downI = new Map();
       for (let i = 0; i < count; i++)

@@ -1,5 +1,6 @@
 // Where the spread comes from: resistor tolerances (written on the card or from the series), supply tolerance, and the mismatch of the devices of each recognised structure (docs/VARIATION.md).
 
+import { float64Column, int32Column, uint8Column } from '../columns';
 import type { Bjt, Circuit, Element, Jfet, Mosfet } from '../circuit';
 import { endOfLineComments } from '../checks/targets';
 import type { ElementCard, ParsedDocument } from '../syntax/ast';
@@ -178,13 +179,13 @@ class SourceSink {
   private readonly params: ParameterList;
 
   constructor(bound: number, elementCount: number) {
-    this.sigma = new Float64Array(bound);
-    this.bound = new Float64Array(bound);
-    this.figure = new Float64Array(bound);
-    this.kind = new Uint8Array(bound);
-    this.origin = new Uint8Array(bound);
-    this.element = new Int32Array(bound);
-    this.sourceParam = new Int32Array(bound);
+    this.sigma = float64Column(bound);
+    this.bound = float64Column(bound);
+    this.figure = float64Column(bound);
+    this.kind = uint8Column(bound);
+    this.origin = uint8Column(bound);
+    this.element = int32Column(bound);
+    this.sourceParam = int32Column(bound);
     this.params = new ParameterList(elementCount);
   }
 
@@ -228,7 +229,7 @@ class SourceSink {
  * find its columns full and give no facts (the objects are read then).
  */
 function sourceBound(circuit: Circuit, devices: StructureDevices): number {
-  const seen = new Uint8Array(circuit.elements.length);
+  const seen = uint8Column(circuit.elements.length);
   let unique = 0;
   for (let k = 0; k < devices.index.length; k++) {
     const i = devices.index[k];
@@ -268,7 +269,7 @@ export function sourceListOf(circuit: Circuit, structures: readonly Structure[],
 /** `sourceListOf` with the sources' facts in columns (undefined when a σ is not normal: the list was filtered). */
 export function sourceListWithFacts(circuit: Circuit, structures: readonly Structure[], tolerances: Map<string, number>, settings: SourceSettings, temperatureC: number, devices?: StructureDevices): { list: SourceList; facts: SourceFacts | undefined } {
   const { sources, facts } = madeSources(circuit, structures, tolerances, settings, temperatureC, devices ?? structureDevices(circuit, structures));
-  const sourceOf = new Int32Array(circuit.elements.length).fill(-1);
+  const sourceOf = int32Column(circuit.elements.length).fill(-1);
   if (facts) elementSourcesOf(facts, sourceOf);
   else {
     for (let k = 0; k < sources.length; k++) {
@@ -296,7 +297,7 @@ export function patchedSources(last: SourceList, circuit: Circuit, structures: r
   if (last.sourceOf.length !== circuit.elements.length || !sameSettings(last.settings, settings) || !Object.is(last.temperatureC, temperatureC) || !madeFromStructures(last, structures)) return undefined;
   const written = writtenTolerances(circuit, tolerances);
   const sources = last.sources.slice();
-  const moved = new Uint8Array(sources.length);
+  const moved = uint8Column(sources.length);
   const remake = (e: number): boolean => {
     const k = last.sourceOf[e];
     const made = elementSource(circuit.elements[e], e, tolerances, settings);
@@ -336,7 +337,7 @@ export function madeFromStructures(last: SourceList, structures: readonly Struct
 /** Per element, the tolerance written on its card (NaN: none). */
 function writtenTolerances(circuit: Circuit, tolerances: Map<string, number>): Float64Array {
   const elements = circuit.elements;
-  const out = new Float64Array(elements.length).fill(NaN);
+  const out = float64Column(elements.length).fill(NaN);
   if (tolerances.size === 0) return out;
   for (let e = 0; e < elements.length; e++) out[e] = cardTolerance(tolerances, elements[e]) ?? NaN;
   return out;
@@ -398,16 +399,16 @@ export function structureDevices(circuit: Circuit, structures: readonly Structur
 
 /** `StructureDevices` with its places made and no device looked up yet (every index −1), for a pass that looks the names up anyway to fill. */
 export function structureDeviceSlots(structures: readonly Structure[]): StructureDevices {
-  const start = new Int32Array(structures.length + 1);
+  const start = int32Column(structures.length + 1);
   for (let s = 0; s < structures.length; s++) start[s + 1] = start[s] + structures[s].devices.length;
-  return { start, index: new Int32Array(start[structures.length]).fill(-1) };
+  return { start, index: int32Column(start[structures.length]).fill(-1) };
 }
 
 /** A JFET's pinch-off voltage spreads from part to part: every JFET of a recognised structure, once, a lone one too. */
 function jfetSpreads(out: SourceSink, circuit: Circuit, devices: StructureDevices): void {
   // Devices are marked by element index (one index per name), not kept in sets of names.
   const elements = circuit.elements;
-  const seen = new Uint8Array(elements.length);
+  const seen = uint8Column(elements.length);
   for (let k = 0; k < devices.index.length; k++) {
     const i = devices.index[k];
     if (i < 0 || seen[i]) continue;
@@ -420,7 +421,7 @@ function jfetSpreads(out: SourceSink, circuit: Circuit, devices: StructureDevice
 /** Mismatch: every device of a recognised structure varies on its own; the group names the structure's devices together. */
 function mismatchSources(out: SourceSink, circuit: Circuit, structures: readonly Structure[], devices: StructureDevices, temperatureC: number): void {
   const elements = circuit.elements;
-  const seen = new Uint8Array(elements.length);
+  const seen = uint8Column(elements.length);
   const vt = thermalVoltage(temperatureC);
   const members: number[] = [];
   const bjtModels = new Map<Bjt['model'], BjtModelFigures>();
@@ -575,8 +576,8 @@ export class ParameterList {
   private temperature = -1;
 
   constructor(private readonly elementCount: number) {
-    this.resistance = new Int32Array(elementCount).fill(-1);
-    this.source = new Int32Array(elementCount).fill(-1);
+    this.resistance = int32Column(elementCount).fill(-1);
+    this.source = int32Column(elementCount).fill(-1);
   }
 
   /** The index of `p` in the list, added when new. */
@@ -586,7 +587,7 @@ export class ParameterList {
     if (p.kind === 'model') {
       const byElement = this.model.get(p.param);
       if (byElement) table = byElement;
-      else this.model.set(p.param, (table = new Int32Array(this.elementCount).fill(-1)));
+      else this.model.set(p.param, (table = int32Column(this.elementCount).fill(-1)));
     }
     return table[p.element] >= 0 ? table[p.element] : (table[p.element] = this.push(p));
   }
@@ -602,7 +603,7 @@ export class ParameterList {
     else {
       const byElement = this.model.get(param);
       if (byElement) table = byElement;
-      else this.model.set(param, (table = new Int32Array(this.elementCount).fill(-1)));
+      else this.model.set(param, (table = int32Column(this.elementCount).fill(-1)));
     }
     return table[element] >= 0 ? table[element] : (table[element] = this.push(p));
   }
