@@ -224,21 +224,24 @@ class SourceSink {
 
 /**
  * The most sources a circuit can have: a resistor's or an independent source's own, one per element that is not one of
- * the structures' transistors, and per transistor at most two mismatch sources and a part spread (a JFET's, which has
- * two mismatch sources too): at most the elements and twice the distinct devices. Were it ever exceeded, the sink would
- * find its columns full and give no facts (the objects are read then).
+ * the structures' devices (transistors), and per device at most two mismatch sources, and a part spread for a JFET: at
+ * most the elements, the distinct devices and their JFETs (150,001 at 100,000 elements, as many as are made). Were it
+ * ever exceeded, the sink would find its columns full and give no facts (the objects are read then).
  */
 function sourceBound(circuit: Circuit, devices: StructureDevices): number {
-  const seen = uint8Column(circuit.elements.length);
+  const elements = circuit.elements;
+  const seen = uint8Column(elements.length);
   let unique = 0;
+  let jfets = 0;
   for (let k = 0; k < devices.index.length; k++) {
     const i = devices.index[k];
     if (i >= 0 && !seen[i]) {
       seen[i] = 1;
       unique++;
+      if (elements[i].kind === 'J') jfets++;
     }
   }
-  return circuit.elements.length + 2 * unique;
+  return elements.length + unique + jfets;
 }
 
 /**
