@@ -42,6 +42,7 @@ import { relaunchFlags, thisMachine } from '../../server/src/cli-launch';
 import { addCorners, analyseSession } from '../../shared-analysis/src/service';
 import { sizingFixes, sizingRequest } from '../../shared-analysis/src/fixes/index';
 import { DcSolver } from '../../shared-analysis/src/solve/dc';
+import { setColumnsUncounted } from '../../shared-analysis/src/columns';
 import { SparseLU } from '../../shared-analysis/src/solve/sparse-lu';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
 
@@ -365,6 +366,8 @@ function child(args: string[]): void {
   const elements = Number(args[2]);
   let out: Record<string, unknown> = {};
   if (what === 'cli' || what === 'cli-nc') {
+    // As the bin's process started for the netlist's size does (server/src/cli-main.ts): large columns outside V8's count.
+    if (relaunchFlags(statSync(file).size, false, thisMachine())) setColumnsUncounted(true);
     let bytes = 0;
     const t0 = cpuMs();
     main(['check', '--format', 'json', ...(what === 'cli-nc' ? ['--no-corners'] : []), file], (s) => {
