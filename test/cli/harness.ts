@@ -10,7 +10,9 @@ export const CLI = join(ROOT, 'dist/cli.js');
 
 /** Runs the built CLI with `args` (and `env` added to the environment) and returns its exit code and both streams. */
 export function runCli(args: string[], cwd = ROOT, timeoutMs = 120000, env: Record<string, string> = {}): { code: number | null; stdout: string; stderr: string } {
-  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: timeoutMs, env: { ...process.env, ...env } });
+  // A buffer for a large document whole (spawnSync's default, 1 MB, would cut it, and two cut documents compare equal).
+  const r = spawnSync(process.execPath, [CLI, ...args], { cwd, encoding: 'utf8', timeout: timeoutMs, maxBuffer: 1 << 28, env: { ...process.env, ...env } });
+  if ((r.error as NodeJS.ErrnoException | undefined)?.code === 'ENOBUFS') throw new Error(`runCli: the output of ${args.join(' ')} is larger than the buffer`);
   return { code: r.status, stdout: r.stdout, stderr: r.stderr };
 }
 
