@@ -26,11 +26,6 @@ export function setColumnsUncounted(on: boolean, smallest = COUNTED_BELOW_BYTES)
   fromBytes = smallest;
 }
 
-/** Whether columns are made outside V8's external-memory count now. */
-export function columnsUncounted(): boolean {
-  return uncounted;
-}
-
 /** The buffer for `bytes` bytes of a column, or undefined when the column should be ordinary. */
 function sharedBuffer(bytes: number): SharedArrayBuffer | undefined {
   return uncounted && bytes >= fromBytes && bytes > 0 ? new SharedArrayBuffer(bytes) : undefined;
@@ -63,15 +58,6 @@ export function int8Column(length: number): Int8Array {
 /** A column holding a copy of `values`. */
 export function float64ColumnOf(values: ArrayLike<number>): Float64Array {
   const out = float64Column(values.length);
-  if (values instanceof Float64Array) out.set(values);
-  else for (let i = 0; i < values.length; i++) out[i] = values[i]!;
-  return out;
-}
-
-/** A column holding a copy of `values`. */
-export function int32ColumnOf(values: ArrayLike<number>): Int32Array {
-  const out = int32Column(values.length);
-  if (values instanceof Int32Array) out.set(values);
-  else for (let i = 0; i < values.length; i++) out[i] = values[i]!;
+  out.set(values);
   return out;
 }
