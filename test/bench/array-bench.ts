@@ -45,31 +45,13 @@ import { DcSolver } from '../../shared-analysis/src/solve/dc';
 import { setColumnsUncounted } from '../../shared-analysis/src/columns';
 import { SparseLU } from '../../shared-analysis/src/solve/sparse-lu';
 import { MemoryWorkspace, type Finding } from '../../shared-analysis/src/types';
+import { BF, IS, VAF, VCC, rl, rr, sinkArray } from './sink-array';
 
-const IS = 1e-15;
-const BF = 120;
 const BR = 1;
-const VAF = 80;
-const VCC = 5;
 const GMIN = 1e-12;
 const K_OVER_Q = 1.380649e-23 / 1.602176634e-19;
 const EG = 1.11;
 
-/** The sink array of `elements` elements (4 a cell): invented values, varied with the index. */
-export function sinkArray(elements: number, targets = 0): string {
-  const L = [`NPN sink array, ${elements} elements`, `VCC vcc 0 DC ${VCC}`, `.model QN NPN (IS=${IS} BF=${BF} VAF=${VAF})`];
-  const cells = elements / 4;
-  const every = targets > 0 ? Math.floor(cells / targets) : 0;
-  for (let i = 0; i < cells; i++) {
-    // A target of 0.5 mA ±1 %: the cells give 0.26–0.42 mA, so every target is missed.
-    const target = every > 0 && i % every === 0 && i / every < targets ? ' ; expect 0.5mA ±1%' : '';
-    L.push(`RR${i} vcc r${i} ${rr(i) / 1e3}k`, `QR${i} r${i} r${i} 0 QN`, `QO${i} o${i} r${i} 0 QN${target}`, `RL${i} vcc o${i} ${rl(i) / 1e3}k`);
-  }
-  L.push('.end', '');
-  return L.join('\n');
-}
-const rr = (i: number) => (10 + (i % 7)) * 1e3;
-const rl = (i: number) => (1 + (i % 3)) * 1e3;
 
 function cpuMs(): number {
   const u = process.cpuUsage();
