@@ -7,11 +7,12 @@
 //   QPOINT_ARRAY_BENCH_SIZING elements of the sizing case (default 40000, with 1,000 missed targets; 0 skips it)
 //
 // Every figure is process CPU time (user + system) of a child process that does one thing, and
-// its peak resident memory, so sizes do not share a heap. What is measured for each size:
+// its peak resident memory, so sizes do not share a heap. Every child is started with the V8 flags
+// the bin uses for a file of that size (server/src/cli-launch.ts), so the engine and the references
+// are timed under the same collector settings as the CLI. What is measured for each size:
 //   cli        the CLI in-process as `qpoint check --format json FILE` writes it (corners on), output
-//              counted and dropped, in a process started with the V8 flags the bin uses for a file of
-//              that size (server/src/cli-launch.ts; the bin's first process, which only starts this
-//              one, is not counted: about 0.05 s);
+//              counted and dropped (the bin's first process, which only starts the one measured
+//              here, is not counted: about 0.05 s);
 //   cli-nc     the same with --no-corners;
 //   engine     the nominal solve and the corner phase alone (DcSolver + solve + addCorners) on an
 //              already elaborated circuit;
@@ -347,9 +348,10 @@ function child(args: string[]): void {
   const text = readFileSync(file, 'utf8');
   const elements = Number(args[2]);
   let out: Record<string, unknown> = {};
+  // As the bin's process started for the netlist's size does (server/src/cli-main.ts): large columns outside V8's
+  // count, in every child that runs the engine, so the engine child's figure is taken as the CLI's is.
+  if (relaunchFlags(statSync(file).size, false, thisMachine())) setColumnsUncounted(true);
   if (what === 'cli' || what === 'cli-nc') {
-    // As the bin's process started for the netlist's size does (server/src/cli-main.ts): large columns outside V8's count.
-    if (relaunchFlags(statSync(file).size, false, thisMachine())) setColumnsUncounted(true);
     let bytes = 0;
     const t0 = cpuMs();
     main(['check', '--format', 'json', ...(what === 'cli-nc' ? ['--no-corners'] : []), file], (s) => {
@@ -402,8 +404,11 @@ function child(args: string[]): void {
 }
 
 function runChild(what: string, file: string, elements: number): Record<string, number & unknown> & { ms: number; maxRssMB: number } {
-  // The CLI's children run under the V8 flags the `qpoint` bin starts a run of this size with (server/src/cli-launch.ts).
-  const flags = what === 'cli' || what === 'cli-nc' ? (relaunchFlags(statSync(file).size, false, thisMachine()) ?? []) : [];
+  // Every child runs under the V8 flags the `qpoint` bin starts a run of this size with (server/src/cli-launch.ts), the
+  // engine's and the references' as the CLI's: under V8's defaults the engine child's timed part held a full
+  // collection or not as the heap the parse left before it happened to fall, which moved its ratio to the references
+  // by a fifth between builds whose solver was the same (docs/PERFORMANCE.md).
+  const flags = relaunchFlags(statSync(file).size, false, thisMachine()) ?? [];
   const r = spawnSync(process.execPath, [...flags, __filename, '--child', what, file, String(elements)], { encoding: 'utf8', maxBuffer: 1 << 26 });
   const line = (r.stderr ?? '').split('\n').find((l) => l.startsWith('@@'));
   if (!line) throw new Error(`${what} on ${elements} elements failed: ${r.stderr}`);
