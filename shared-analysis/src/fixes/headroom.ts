@@ -10,7 +10,7 @@ import type { Finding, Fix } from '../types';
 import { isSeriesName, nearestStandardValues, type SeriesName } from './e-series';
 import { formatMeasured } from './format';
 import type { FixContext, SizingFixContext } from './index';
-import { sizeResistorForCurrent } from './resistor-for-current';
+import { sizeResistorForCurrent, sizingBlock, type Solves } from './resistor-for-current';
 import { resistorValueChange } from './value-edit';
 import { regionChanges, resolveWith, type Resolved } from './verify';
 
@@ -65,8 +65,9 @@ function amps(x: number): string {
 }
 
 /**
- * The fixes of an out-of-region or low-headroom mirror output, each re-solved with the whole
- * circuit and offered only when the output then has at least the headroom margin:
+ * The fixes of an out-of-region or low-headroom mirror output, each re-solved (on the part of the circuit its
+ * resistor can move when that splits off, else on the whole circuit) and offered only when the output then has at
+ * least the headroom margin:
  * 1. its load resistor (the one resistor from its output node to a rail) set to the largest standard
  *    value that leaves the margin at its active-region current — the nearest standard value below
  *    the exact one, stepping lower while the re-solve still lacks the margin;
@@ -81,14 +82,22 @@ export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[
   const topo = topologyOf(circuit);
   const t = topo.byName.get(req.output);
   if (!s || !t || !s.outputs.some((o) => o.device === req.output)) return [];
+  // Both fixes need the output's load resistor (the second to know the current the load allows): without one (an
+  // output node left unconnected, say) nothing is solved.
+  const load = loadResistorOf(circuit, topo, t);
+  if (!load) return [];
   const bipolar = isBipolar(s.technology);
   const sign = polaritySign(s.technology);
   const tC = ctx.options.temperatureC;
-  const base = resolveWith(circuit, solver, s, {}, tC);
+  // Each change is re-solved on the part of the circuit its resistor can move, when that splits off (its solution
+  // there equals the whole circuit's, `affectedBlock`), started from the analysed point; else on the whole circuit.
+  const mustHold = [req.output, ...s.devices, ...s.reference.elements];
+  const onBlock = (r: Resistor): { circuit: Circuit; solver: Solves } => sizingBlock(circuit, r, mustHold, ctx.point) ?? { circuit, solver };
+  const loadSide = onBlock(load.resistor);
+  const base = resolveWith(loadSide.circuit, loadSide.solver, s, {}, tC);
   if (!base) return [];
   const edge = edgeAt(base.op, topo, t, bipolar, sign);
-  const load = loadResistorOf(circuit, topo, t);
-  if (edge === undefined || !load) return [];
+  if (edge === undefined) return [];
   const margin = req.marginV;
   const fixes: Fix[] = [];
 
@@ -102,7 +111,7 @@ export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[
     let value = nearestStandardValues(room / active, req.series)?.below;
     for (let k = 0; k < LOAD_TRIES && value !== undefined && value > 0; k++) {
       if (value < load.resistor.resistance * (1 - 1e-9)) {
-        const side = regionChanges(circuit, solver, s, { [load.resistor.name]: value }, tC, req.output, base.m);
+        const side = regionChanges(loadSide.circuit, loadSide.solver, s, { [load.resistor.name]: value }, tC, req.output, base.m);
         if (side && ok(side.after)) {
           const change = resistorValueChange(load.resistor, ctx.documents, value);
           if (change) fixes.push({ title: `Set ${load.resistor.name} to ${change.text}${change.note} (${req.series}): ${outcome(side.after)}${side.text}`, edits: change.edits });
@@ -118,13 +127,14 @@ export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[
   const knob = sizingKnob(circuit, ctx.structures, outputElement);
   const knobResistor = knob ? (circuit.elements.find((e) => e.name.toLowerCase() === knob.resistor.toLowerCase()) as Resistor | undefined) : undefined;
   if (knobResistor && knobResistor !== load.resistor && room > 0) {
+    const knobSide = onBlock(knobResistor);
     const target = room / load.resistor.resistance;
     const sizing = sizeResistorForCurrent({ circuit, solver, structure: s, resistor: knobResistor.name, target, series: req.series, device: req.output, temperatureC: tC, point: ctx.point });
     // The standard values whose current is at or below the target, nearest first; then the next larger ones.
     const values = sizing.candidates.filter((c) => c.current <= target * (1 + 1e-6)).map((c) => c.value);
     let next = values.length ? values[0] : sizing.candidates.at(-1)?.value;
     for (let k = 0; k < LOAD_TRIES && next !== undefined; k++) {
-      const side = regionChanges(circuit, solver, s, { [knobResistor.name]: next }, tC, req.output, base.m);
+      const side = regionChanges(knobSide.circuit, knobSide.solver, s, { [knobResistor.name]: next }, tC, req.output, base.m);
       if (side && ok(side.after)) {
         const change = resistorValueChange(knobResistor, ctx.documents, next);
         if (change) {
