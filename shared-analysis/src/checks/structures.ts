@@ -43,6 +43,10 @@ export const STRUCTURE_CODES: Record<string, { severity: Severity; summary: stri
     severity: 'error',
     summary: 'The supply across a reference branch cannot forward-bias its reference device(s), so the mirror carries (almost) no current.',
   },
+  'reference-unfed': {
+    severity: 'error',
+    summary: 'Nothing feeds a mirror\'s reference node: no resistor, source or device outside the mirror supplies it (the bases of devices outside it draw current, they do not supply it), so the reference and its outputs carry only leakage. A feed is missing, or its node name is misspelt.',
+  },
   'mirror-unmatched': {
     severity: 'warning',
     summary: 'Devices of one mirror use models that differ in BF, VAF, NF, KP, VTO, LAMBDA or GAMMA (or in IS together with another of them); gives the ratio error that causes. Bipolar models that differ only in IS are an intended ratio (see mirror-ratio), not a mismatch.',
@@ -268,6 +272,8 @@ class StructureCheck implements ResistanceContext {
    */
   private readonly records: (DeviceRecord | null | undefined)[] = [];
   private otherRecords: Map<string, DeviceRecord | undefined> | undefined = undefined;
+  /** Nothing feeds the reference node (`referenceUnfed`). */
+  private unfed = false;
   /** The structure's devices as transistors once looked up (see `t`), at their positions in its device list. */
   private readonly transistors: (Transistor | undefined)[] = [];
   private readonly circuit: Circuit;
@@ -371,8 +377,11 @@ class StructureCheck implements ResistanceContext {
     }
     s.compliance = this.compliance();
     s.outputResistance = this.outputResistance();
-    s.discrepancy = this.discrepancy();
+    this.unfed = this.referenceUnfed();
+    // An unfed reference says why the estimate is zero; the leakage the solve carries is no discrepancy to explain.
+    s.discrepancy = this.unfed ? undefined : this.discrepancy();
 
+    if (this.unfed) this.reportUnfed();
     this.checkStarved();
     this.checkRegions();
     this.checkUnmatched();
@@ -719,6 +728,40 @@ class StructureCheck implements ResistanceContext {
       related: this.related([at.name]),
       data: jsonSafe({ structure: this.s.id, ...data }),
     });
+  }
+
+  /**
+   * Whether nothing feeds the structure's reference node: recognition found no feed (`other`, no elements), the
+   * solve carries no reference current, and every element that conducts at the node is one of the structure's own
+   * devices or a base (JFET gate) of a device outside it, which draws current from the node and cannot supply the
+   * reference's. By Kirchhoff's current law the reference then carries nothing but the leakage the solver's junction
+   * conductances allow. A part of the structure on the node (a start-up resistor, say) is a connection: not unfed.
+   */
+  private referenceUnfed(): boolean {
+    const ref = this.s.reference;
+    if (ref.feed !== 'other' || ref.elements.length > 0 || !this.measured || !belowFloor(this.measured.iref, 'A')) return false;
+    const node = this.topo.nodeIndex.get(ref.node);
+    if (node === undefined || node === 0) return false;
+    for (const a of this.topo.conducting(node)) {
+      const el = a.element;
+      if (this.s.devices.includes(el.name)) continue;
+      if ((el.kind === 'Q' || el.kind === 'J') && a.slot === 1) continue;
+      return false;
+    }
+    return true;
+  }
+
+  private reportUnfed(): void {
+    const s = this.s;
+    const ref = s.reference;
+    const at = this.topo.elementByName.get(ref.device)!;
+    const outputs = s.outputs.map((o) => `${o.device} ${eng(this.measured?.iout[o.device] ?? 0, 'A')}`).join(', ');
+    this.emit(
+      'reference-unfed',
+      at,
+      `Nothing feeds the reference node ${ref.node} of the ${kindName(s.kind)} on ${ref.device}: no resistor, source or device outside the ${kindName(s.kind)} supplies it, so IREF is ${eng(this.measured!.iref, 'A')} and its output${s.outputs.length > 1 ? 's carry' : ' carries'} only leakage (${outputs}). A feed from a supply (a resistor or a current source) is missing, or its node name is misspelt.`,
+      { referenceDevice: ref.device, node: ref.node, iref: this.measured!.iref },
+    );
   }
 
   private checkStarved(): void {

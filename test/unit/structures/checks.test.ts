@@ -163,6 +163,70 @@ describe('mirror-headroom-low', () => {
   });
 });
 
+describe('reference-unfed', () => {
+  // Kirchhoff's current law (fact of the trade): with nothing but the mirror's own devices on the reference node, the
+  // current into the diode-connected reference is zero; only the solver's junction conductances leak a few pA.
+  it('a mirror whose reference resistor is missing: error on the reference device, and no estimate discrepancy', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .q('Q1', 'a', 'a', '0', 'qn')
+      .q('Q2', 'out', 'a', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    const { findings, structures } = check(b, [
+      { code: 'reference-unfed', at: 'Q1', says: [/^Nothing feeds the reference node a of the simple current mirror on Q1/, /IREF is ≈ 0 A/, /a resistor or a current source/], related: ['Q2'] },
+    ]);
+    expect(findings[0]!.data).toMatchObject({ referenceDevice: 'Q1', node: 'a' });
+    // Leakage only: far below any bias current, and the hand analysis (zero) is not reported as disagreeing with it.
+    expect(Math.abs(structures[0]!.solved!.iout['Q2']!)).toBeLessThan(1e-9);
+    expect(structures[0]!.discrepancy).toBeUndefined();
+  });
+
+  it('a misspelt node on the reference resistor leaves the reference unfed too', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .r('RREF', 'vcc', 'aa', 4.3e3)
+      .q('Q1', 'a', 'a', '0', 'qn')
+      .q('Q2', 'out', 'a', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    check(b, [{ code: 'reference-unfed', at: 'Q1', says: [/reference node a /, /misspelt/] }]);
+  });
+
+  it('a PMOS mirror with nothing on its reference node', () => {
+    const b = new CircuitBuilder()
+      .v('VDD', 'vdd', '0', 3.3)
+      .model('pch', 'pmos', { KP: 5e-5, VTO: -0.6 })
+      .mos('M1', 'g', 'g', 'vdd', 'vdd', 'pch')
+      .mos('M2', 'd', 'g', 'vdd', 'vdd', 'pch')
+      .r('RL', 'd', '0', 5e3);
+    check(b, [{ code: 'reference-unfed', at: 'M1', says: [/reference node g of the simple current mirror on M1/] }]);
+  });
+
+  it('a reference fed by two resistors in parallel is fed (no single feed, but current flows in)', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .r('RA', 'vcc', 'a', 8.6e3)
+      .r('RB', 'vcc', 'a', 8.6e3)
+      .q('Q1', 'a', 'a', '0', 'qn')
+      .q('Q2', 'out', 'a', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    const { findings } = check(b, [], {});
+    expect(findings.some((f) => f.code === 'reference-unfed')).toBe(false);
+  });
+
+  it('without a solved point nothing is said', () => {
+    const b = new CircuitBuilder()
+      .v('VCC', 'vcc', '0', 5)
+      .model('qn', 'npn')
+      .q('Q1', 'a', 'a', '0', 'qn')
+      .q('Q2', 'out', 'a', '0', 'qn')
+      .r('RL', 'vcc', 'out', 1e3);
+    check(b, [], { solve: false });
+  });
+});
+
 describe('reference-starved', () => {
   it('a 0.5 V supply cannot forward-bias one VBE: error on the reference resistor', () => {
     const { findings } = check(
