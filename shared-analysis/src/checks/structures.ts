@@ -732,10 +732,12 @@ class StructureCheck implements ResistanceContext {
 
   /**
    * Whether nothing feeds the structure's reference node: recognition found no feed (`other`, no elements), the
-   * solve carries no reference current, and every element that conducts at the node is one of the structure's own
-   * devices or a base (JFET gate) of a device outside it, which draws current from the node and cannot supply the
-   * reference's. By Kirchhoff's current law the reference then carries nothing but the leakage the solver's junction
-   * conductances allow. A part of the structure on the node (a start-up resistor, say) is a connection: not unfed.
+   * solve carries no reference current, and nothing at the node but the reference device itself and control
+   * terminals (bases and gates, of the structure's devices or others), which draw current from the node and cannot
+   * supply the reference's. By Kirchhoff's current law the reference then carries nothing but the leakage the solver's
+   * junction conductances allow. Any other terminal there (another device's collector, drain or emitter, such as a
+   * self-biased loop's closing device at rest; a part of the structure, such as a start-up resistor) is a connection
+   * that could feed it: not unfed.
    */
   private referenceUnfed(): boolean {
     const ref = this.s.reference;
@@ -744,8 +746,8 @@ class StructureCheck implements ResistanceContext {
     if (node === undefined || node === 0) return false;
     for (const a of this.topo.conducting(node)) {
       const el = a.element;
-      if (this.s.devices.includes(el.name)) continue;
-      if ((el.kind === 'Q' || el.kind === 'J') && a.slot === 1) continue;
+      if (el.name === ref.device) continue;
+      if ((el.kind === 'Q' || el.kind === 'J' || el.kind === 'M') && a.slot === 1) continue;
       return false;
     }
     return true;
