@@ -240,3 +240,16 @@ RL out 0 1k
     expect(loops).toEqual([]);
   });
 });
+
+describe('a self-biased loop is not an unfed reference', () => {
+  // The loop's closing device sits on the reference node and feeds it: `reference-unfed` never speaks of a loop (the
+  // zero-current state it can rest in is `bias-loop-can-stay-off`'s to report, whose message says so).
+  it.each([
+    ['the beta multiplier', MOS_CELL('')],
+    ['the ΔVBE cell', BJT_CELL('')],
+  ])('%s without a start-up path', (_, text) => {
+    const { a } = check(text, { corners: { enabled: false } });
+    expect(a.structures.length).toBeGreaterThan(0);
+    expect(a.findings.filter((f) => f.code === 'reference-unfed')).toEqual([]);
+  });
+});
