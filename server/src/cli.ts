@@ -222,7 +222,7 @@ function numberFlag(flag: string, text: string | undefined, { ok, rule }: Number
 
 export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
   if (argv.length === 0) throw new UsageError('Say what to do: check or report, and the netlist files.');
-  if (argv[0] === '--help' || argv[0] === '-h') return 'help';
+  if (argv[0] === '--help' || argv[0] === '-h' || argv[0] === 'help') return 'help';
   if (argv[0] === '--version') return 'version';
   const command = argv[0];
   if (command !== 'check' && command !== 'report' && command !== 'sweep') throw new UsageError(`Unknown command '${escapeControls(command)}'.`);
@@ -242,6 +242,10 @@ export function parseArgs(argv: string[]): CliOptions | 'help' | 'version' {
       case '--':
         filesOnly = true;
         break;
+      // Asked after the command (`qpoint check --help`), as command-line tools take it: the usage, exit 0.
+      case '--help':
+      case '-h':
+        return 'help';
       case '--format': {
         const f = next() ?? '';
         const allowed = FORMATS[command];

@@ -159,6 +159,16 @@ describe('qpoint check', () => {
     expect(r.stdout).toMatch(/error file-unreadable Cannot read/);
   });
 
+  it('prints the usage and exits 0 for --help before or after the command, and for help', () => {
+    for (const args of [['--help'], ['-h'], ['help'], ['check', '--help'], ['report', '-h', 'a.cir'], ['sweep', '--output', 'Q2', '--help']]) {
+      const r = run(args);
+      expect(r.code, args.join(' ')).toBe(0);
+      expect(r.stdout, args.join(' ')).toMatch(/^Usage:\n  qpoint check/);
+    }
+    // After `--` it is a file name, as every option is.
+    expect(run(['check', '--', '--help']).stdout).toMatch(/file-unreadable/);
+  });
+
   it('rejects bad command lines with exit 2 and the usage text', () => {
     for (const args of [['frobnicate'], ['check'], ['check', '--format', 'xml', 'a.cir'], ['check', '--temperature', 'hot', 'a.cir'], ['check', '--severity', 'nonsense', 'a.cir']]) {
       const r = run(args);
