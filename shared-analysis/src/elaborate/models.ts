@@ -290,7 +290,8 @@ interface MappedParameter {
 /**
  * Fills the level-1 parameters a card does not give from the core parameters of a higher-level
  * model (docs/DEVICE-MODELS.md): VTO ← VTH0, KP ← U0·εox/TOX (U0 above 1 is in cm²/V·s, as model
- * kits write it, and is converted to m²/V·s), GAMMA ← K1. A level-1 card with U0 and TOX but no
+ * kits write it, and is converted to m²/V·s; TOXE, a BSIM4-style card's electrical oxide thickness, when
+ * the card gives no TOX), GAMMA ← K1. A level-1 card with U0 and TOX but no
  * KP gets its KP the same way. Returns what was mapped.
  */
 export function mapMosParameters(params: Record<string, number>, given: string[]): MappedParameter[] {
@@ -300,11 +301,13 @@ export function mapMosParameters(params: Record<string, number>, given: string[]
     params['VTO'] = params['VTH0']!;
     out.push({ name: 'VTO', value: params['VTO']!, from: 'VTH0' });
   }
-  if (!given.includes('KP') && has('U0') && has('TOX') && params['TOX']! > 0 && params['U0']! > 0) {
+  // The oxide: TOX, or a BSIM4-style card's electrical thickness TOXE, which such cards give instead of TOX.
+  const oxide = has('TOX') ? 'TOX' : has('TOXE') ? 'TOXE' : undefined;
+  if (!given.includes('KP') && has('U0') && oxide && params[oxide]! > 0 && params['U0']! > 0) {
     const u0 = params['U0']!;
     const mobility = u0 > 1 ? u0 * 1e-4 : u0;
-    params['KP'] = (mobility * EPSILON_OX) / params['TOX']!;
-    out.push({ name: 'KP', value: params['KP']!, from: u0 > 1 ? 'U0 (cm²/V·s) and TOX' : 'U0 (m²/V·s) and TOX' });
+    params['KP'] = (mobility * EPSILON_OX) / params[oxide]!;
+    out.push({ name: 'KP', value: params['KP']!, from: `${u0 > 1 ? 'U0 (cm²/V·s)' : 'U0 (m²/V·s)'} and ${oxide}` });
   }
   if (!given.includes('GAMMA') && has('K1') && params['K1']! >= 0) {
     params['GAMMA'] = params['K1']!;

@@ -667,6 +667,26 @@ describe('MOS models of higher levels, bins and geometry scale', () => {
     });
   });
 
+  it('takes TOXE for TOX from a BSIM4-style card that gives no TOX', () => {
+    // Such cards write the electrical oxide thickness TOXE (and the physical TOXP) instead of TOX (common practice of
+    // process kits, from memory); KP = U0·εox/TOXE with U0 = 0.035 m²/V·s: 0.035 · 3.9 · 8.854e-12 / 4.1e-9 ≈ 2.95e-4 A/V².
+    check(`bsim4\n.model nb nmos (level=54 version=4.5 vth0=0.42 u0=0.035 toxe=4.1n toxp=3.5n k1=0.55)\nV1 d 0 1\nM1 d d 0 0 nb W=1u L=1u\n`, {
+      findings: [
+        { code: 'model-level-approximated', at: 'level=54', message: /KP = 295 µA\/V² from U0 \(m²\/V·s\) and TOXE/ },
+        { code: 'model-parameter-ignored', at: 'nb', message: /VERSION, TOXP/ },
+      ],
+      also: (r) => {
+        const p = r.circuit.models['nb']!.params;
+        expect(p['KP']! / ((0.035 * 3.9 * 8.854e-12) / 4.1e-9)).toBeCloseTo(1, 12);
+      },
+    });
+    // TOX, when given, is the oxide: TOXE beside it changes nothing.
+    check(`both\n.model nb nmos (level=54 u0=0.035 tox=5n toxe=4.1n)\nV1 d 0 1\nM1 d d 0 0 nb W=1u L=1u\n`, {
+      findings: [{ code: 'model-level-approximated', at: 'level=54', message: /from U0 \(m²\/V·s\) and TOX\b/ }],
+      also: (r) => expect(r.circuit.models['nb']!.params['KP']! / ((0.035 * 3.9 * 8.854e-12) / 5e-9)).toBeCloseTo(1, 12),
+    });
+  });
+
   it('chooses the bin whose L and W ranges cover the device, and reports a size no bin covers', () => {
     const text =
       `bins\n.model nch.1 nmos (LMIN=0.1u LMAX=1u WMIN=0.1u WMAX=100u VTO=0.4 KP=200u)\n` +
