@@ -33,7 +33,8 @@ export function headroomRequestOf(f: Finding, ctx: FixContext): HeadroomRequest 
   const d = f.data ?? {};
   if (d['region'] === 'cutoff') return undefined;
   if (typeof d['structure'] !== 'string' || typeof d['device'] !== 'string') return undefined;
-  if (!ctx.structures.some((s) => s.id === d['structure'])) return undefined;
+  // By the list's id map (built once): a scan per finding made thousands of out-of-region outputs cost findings × structures.
+  if (!structureWithId(ctx.structures, d['structure'])) return undefined;
   return { kind: 'headroom', structureId: d['structure'], output: d['device'], marginV: ctx.options.headroomMarginV, series: ctx.options.resistorSeries };
 }
 
