@@ -1,7 +1,7 @@
 // Fixes for a mirror output out of its region or short of headroom: a smaller load resistor, or a larger current-setting resistor, each re-solved before it is offered.
 
 import type { Circuit, Element, Resistor } from '../circuit';
-import { structureWithId } from './circuit-index';
+import { elementNamed, structureWithId } from './circuit-index';
 import { loadResistorOf, sizingKnob } from '../checks/targets';
 import type { OperatingPoint } from '../solve/types';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -124,9 +124,9 @@ export function headroomFixes(req: HeadroomRequest, ctx: SizingFixContext): Fix[
   }
 
   // 2. The current-setting resistor: lower the output's current until the present load leaves the margin.
-  const outputElement = circuit.elements.find((e) => e.name === req.output) as Element;
+  const outputElement = elementNamed(circuit, req.output) as Element;
   const knob = sizingKnob(circuit, ctx.structures, outputElement);
-  const knobResistor = knob ? (circuit.elements.find((e) => e.name.toLowerCase() === knob.resistor.toLowerCase()) as Resistor | undefined) : undefined;
+  const knobResistor = knob ? (elementNamed(circuit, knob.resistor) as Resistor | undefined) : undefined;
   if (knobResistor && knobResistor !== load.resistor && room > 0) {
     const knobSide = onBlock(knobResistor);
     const target = room / load.resistor.resistance;
