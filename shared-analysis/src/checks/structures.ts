@@ -14,7 +14,7 @@ import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measurePlanned, plannedMeasurements, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
-import { recognisedTransistor } from '../structures/recognised';
+import { keepChecked, recognisedTransistor } from '../structures/recognised';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -264,6 +264,8 @@ class StructureCheck implements ResistanceContext {
   private readonly sign: 1 | -1;
   readonly bipolar: boolean;
   private readonly findings: Finding[] = [];
+  /** The solved IREF and output currents `run` gives the structure (undefined without a converged point). */
+  private solved: Structure['solved'] = undefined;
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA); made when one is. */
   private offDevices: string[] | undefined = undefined;
   /**
@@ -343,40 +345,49 @@ class StructureCheck implements ResistanceContext {
 
   run(): Finding[] {
     const s = this.s;
+    // The measurement's own tables (prototype-free, made for this structure alone, only read from here on); the
+    // structure is given them with the others at the end (`keepChecked`), and the checks read them from here.
+    let headroom: Structure['headroom'];
     if (this.op && this.measured) {
       for (const d of s.devices) if (recordIsOff(this.record(d)) && !this.isOff(d)) (this.offDevices ??= []).push(d);
-      // The measurement's own tables (prototype-free, made for this structure alone, only read from here on).
-      s.solved = { iref: this.measured.iref, iout: this.measured.iout };
-      s.headroom = this.measured.headroom;
+      this.solved = { iref: this.measured.iref, iout: this.measured.iout };
+      headroom = this.measured.headroom;
     } else {
-      s.solved = undefined;
-      s.headroom = {};
+      this.solved = undefined;
+      headroom = {};
     }
-    const outputVolts: Record<string, number> = nameTable();
-    if (this.op) {
-      for (const o of s.outputs) {
-        const x = this.v(this.t(o.device).out);
-        if (x !== undefined) outputVolts[o.device] = x;
+    // What a check that fails part way has found is kept as before: the measurement, and the tables made before it failed.
+    let compliance = s.compliance;
+    let outputResistance = s.outputResistance;
+    try {
+      const outputVolts: Record<string, number> = nameTable();
+      if (this.op) {
+        for (const o of s.outputs) {
+          const x = this.v(this.t(o.device).out);
+          if (x !== undefined) outputVolts[o.device] = x;
+        }
       }
+      s.estimate = estimateStructure(this.circuit, s, {
+        temperatureC: this.temperatureC,
+        outputVolts: this.op ? outputVolts : undefined,
+        structures: this.shared.all,
+        irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
+        deviceCurrents: this.op ? this.collectorCurrents() : undefined,
+        nodeVolts: this.at?.volts,
+        recordSteps: this.options.handAnalysisSteps,
+      });
+      // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
+      if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
+      for (const v of s.voltages ?? []) {
+        v.estimate = s.estimate?.voltages?.[v.name];
+        v.tempcoByHandPpmPerC = s.estimate?.voltageTempco?.[v.name];
+        v.solved = this.at ? voltageAt(s, v, this.at.volts) : undefined;
+      }
+      compliance = this.compliance();
+      outputResistance = this.outputResistance();
+    } finally {
+      keepChecked(s, this.solved, headroom, compliance, outputResistance);
     }
-    s.estimate = estimateStructure(this.circuit, s, {
-      temperatureC: this.temperatureC,
-      outputVolts: this.op ? outputVolts : undefined,
-      structures: this.shared.all,
-      irefGiven: s.reference.feed === 'other' || s.reference.feed === 'mirror-output' ? this.measured?.iref : undefined,
-      deviceCurrents: this.op ? this.collectorCurrents() : undefined,
-      nodeVolts: this.at?.volts,
-      recordSteps: this.options.handAnalysisSteps,
-    });
-    // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
-    if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
-    for (const v of s.voltages ?? []) {
-      v.estimate = s.estimate?.voltages?.[v.name];
-      v.tempcoByHandPpmPerC = s.estimate?.voltageTempco?.[v.name];
-      v.solved = this.at ? voltageAt(s, v, this.at.volts) : undefined;
-    }
-    s.compliance = this.compliance();
-    s.outputResistance = this.outputResistance();
     this.unfed = this.referenceUnfed();
     // An unfed reference says why the estimate is zero; the leakage the solve carries is no discrepancy to explain.
     s.discrepancy = this.unfed ? undefined : this.discrepancy();
@@ -555,7 +566,7 @@ class StructureCheck implements ResistanceContext {
    */
   private compare(visit: (key: string, e: number, x: number, rel: number, unit: 'A' | 'V') => boolean | void): boolean {
     const est = this.s.estimate;
-    const sol = this.s.solved;
+    const sol = this.solved;
     if (!est || !sol || est.irefFrom === 'unknown') return false;
     const one = (key: string, e: number, x: number, unit: 'A' | 'V'): boolean => {
       const rel = relativeError(e, x, unit);
