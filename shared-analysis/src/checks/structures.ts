@@ -14,7 +14,7 @@ import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measurePlanned, plannedMeasurements, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
-import { keepChecked, recognisedTransistor } from '../structures/recognised';
+import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, recognisedTransistor } from '../structures/recognised';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -266,6 +266,8 @@ class StructureCheck implements ResistanceContext {
   private readonly findings: Finding[] = [];
   /** The solved IREF and output currents `run` gives the structure (undefined without a converged point). */
   private solved: Structure['solved'] = undefined;
+  /** The hand estimate `run` gives the structure (read from here: the structure makes its estimate again at each read). */
+  private est: Structure['estimate'] = undefined;
   /** Devices of the structure that are off at the operating point (every terminal current below 1 pA); made when one is. */
   private offDevices: string[] | undefined = undefined;
   /**
@@ -345,20 +347,26 @@ class StructureCheck implements ResistanceContext {
 
   run(): Finding[] {
     const s = this.s;
-    // The measurement's own tables (prototype-free, made for this structure alone, only read from here on); the
-    // structure is given them with the others at the end (`keepChecked`), and the checks read them from here.
+    // What the check finds goes to the structure at the end (`keepChecked`): as numbers in `figures` where the structure
+    // can hold them (no table made for them), as tables or records where it cannot; the checks read them from here.
+    const figures = checkedFigures(s);
+    const n = s.outputs.length;
+    let held = 0;
     let headroom: Structure['headroom'];
     if (this.op && this.measured) {
       for (const d of s.devices) if (recordIsOff(this.record(d)) && !this.isOff(d)) (this.offDevices ??= []).push(d);
+      // The measurement's own tables (prototype-free, made for this structure alone, only read from here on).
       this.solved = { iref: this.measured.iref, iout: this.measured.iout };
       headroom = this.measured.headroom;
+      if (figures && this.measuredFigures(figures)) held |= HELD.SOLVED | HELD.HEADROOM;
     } else {
       this.solved = undefined;
       headroom = {};
     }
-    // What a check that fails part way has found is kept as before: the measurement, and the tables made before it failed.
+    // What a check that fails part way has found is kept as before: the measurement, and what was found before it failed.
     let compliance = s.compliance;
     let outputResistance = s.outputResistance;
+    let estimate = s.estimate;
     try {
       const outputVolts: Record<string, number> = nameTable();
       if (this.op) {
@@ -367,7 +375,7 @@ class StructureCheck implements ResistanceContext {
           if (x !== undefined) outputVolts[o.device] = x;
         }
       }
-      s.estimate = estimateStructure(this.circuit, s, {
+      estimate = this.est = estimateStructure(this.circuit, s, {
         temperatureC: this.temperatureC,
         outputVolts: this.op ? outputVolts : undefined,
         structures: this.shared.all,
@@ -377,16 +385,21 @@ class StructureCheck implements ResistanceContext {
         recordSteps: this.options.handAnalysisSteps,
       });
       // Without a feed the hand analysis can model and without a solve to borrow IREF from, there is no estimate to show.
-      if (s.estimate.irefFrom === 'unknown') s.estimate = undefined;
+      if (estimate.irefFrom === 'unknown') estimate = this.est = undefined;
       for (const v of s.voltages ?? []) {
-        v.estimate = s.estimate?.voltages?.[v.name];
-        v.tempcoByHandPpmPerC = s.estimate?.voltageTempco?.[v.name];
+        v.estimate = this.est?.voltages?.[v.name];
+        v.tempcoByHandPpmPerC = this.est?.voltageTempco?.[v.name];
         v.solved = this.at ? voltageAt(s, v, this.at.volts) : undefined;
       }
-      compliance = this.compliance();
-      outputResistance = this.outputResistance();
+      if (figures && estimate) held |= estimateFigures(estimate, s.outputs, figures, n);
+      if (figures && this.complianceFigures(figures, n)) held |= HELD.COMPLIANCE;
+      else compliance = this.compliance();
+      if (figures) {
+        this.outputResistanceFigures(figures, n);
+        held |= HELD.RESISTANCE;
+      } else outputResistance = this.outputResistance();
     } finally {
-      keepChecked(s, this.solved, headroom, compliance, outputResistance);
+      keepChecked(s, figures, held, { solved: this.solved, headroom, compliance, outputResistance, estimate });
     }
     this.unfed = this.referenceUnfed();
     // An unfed reference says why the estimate is zero; the leakage the solve carries is no discrepancy to explain.
@@ -435,6 +448,25 @@ class StructureCheck implements ResistanceContext {
 
   // ---- records ----------------------------------------------------------
 
+  /**
+   * `compliance` written into `figures` (blocks `COMPLIANCE_MIN`, `COMPLIANCE_MAX`; NaN where an output has no edge), when
+   * every end is a finite number; false (the table is made instead) when one is not.
+   */
+  private complianceFigures(figures: number[], n: number): boolean {
+    const { top, bottom } = this.shared.railRange;
+    const outs = this.s.outputs;
+    for (let o = 0; o < n; o++) {
+      const edge = this.edgeVolts(outs[o].device);
+      if (edge === undefined) continue;
+      const min = this.sign > 0 ? edge : Math.min(bottom, edge);
+      const max = this.sign > 0 ? Math.max(top, edge) : edge;
+      if (!Number.isFinite(min) || !Number.isFinite(max)) return false;
+      figures[FIGURE.COMPLIANCE_MIN * n + o] = min;
+      figures[FIGURE.COMPLIANCE_MAX * n + o] = max;
+    }
+    return true;
+  }
+
   private compliance(): Structure['compliance'] {
     const { top, bottom } = this.shared.railRange;
     const out: Structure['compliance'] = nameTable();
@@ -464,7 +496,7 @@ class StructureCheck implements ResistanceContext {
       if (t.element.kind === 'J') return vb - this.sign * (t.element.model.params.VTO ?? 0);
       return vb - (t.element.model.params.VTO ?? 0);
     }
-    return this.s.estimate?.outputEdge?.[device];
+    return this.est?.outputEdge?.[device];
   }
 
   /**
@@ -511,7 +543,7 @@ class StructureCheck implements ResistanceContext {
   }
 
   irefOr(fallback: number): number {
-    return this.measured?.iref || this.s.estimate?.iref || fallback;
+    return this.measured?.iref || this.est?.iref || fallback;
   }
 
   withRole(role: StructureRole): string | undefined {
@@ -525,19 +557,44 @@ class StructureCheck implements ResistanceContext {
 
   private outputResistance(): Record<string, number> {
     const res: Record<string, number> = nameTable();
-    const kind = kindOf(this.s.kind);
-    for (const o of this.s.outputs) {
-      const i = this.measured?.iout[o.device] || this.s.estimate?.iout[o.device] || 0;
-      if (!(i > 0)) {
-        res[o.device] = UNBOUNDED_OHMS;
-        continue;
-      }
-      const out = this.smallSignal(o.device, i);
-      let r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kind.outputResistance(this, o, out, i);
-      r = this.saturatedBaseLoading(o, out, r);
-      res[o.device] = Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
-    }
+    for (const o of this.s.outputs) res[o.device] = this.outputOhms(o);
     return res;
+  }
+
+  /** `outputResistance` written into `figures` (block `RESISTANCE`): each a finite number by construction. */
+  private outputResistanceFigures(figures: number[], n: number): void {
+    const outs = this.s.outputs;
+    for (let o = 0; o < n; o++) figures[FIGURE.RESISTANCE * n + o] = this.outputOhms(outs[o]);
+  }
+
+  /** One output's small-signal output resistance (Ω, at most `UNBOUNDED_OHMS`, which stands for unbounded). */
+  private outputOhms(o: StructureOutput): number {
+    const i = this.measured?.iout[o.device] || this.est?.iout[o.device] || 0;
+    if (!(i > 0)) return UNBOUNDED_OHMS;
+    const out = this.smallSignal(o.device, i);
+    let r = out.ro >= UNBOUNDED_OHMS ? UNBOUNDED_OHMS : kindOf(this.s.kind).outputResistance(this, o, out, i);
+    r = this.saturatedBaseLoading(o, out, r);
+    return Number.isFinite(r) && r > 0 ? Math.min(r, UNBOUNDED_OHMS) : UNBOUNDED_OHMS;
+  }
+
+  /**
+   * The measurement's IREF, output currents and headroom written into `figures`, when each is a finite number (the
+   * measurement's tables hold every output, in order); false when one is not.
+   */
+  private measuredFigures(figures: number[]): boolean {
+    const m = this.measured!;
+    const outs = this.s.outputs;
+    const n = outs.length;
+    if (!Number.isFinite(m.iref)) return false;
+    for (let o = 0; o < n; o++) {
+      const i = m.iout[outs[o].device];
+      const h = m.headroom[outs[o].device];
+      if (i === undefined || h === undefined || !Number.isFinite(i) || !Number.isFinite(h)) return false;
+      figures[FIGURE.SOLVED_IOUT * n + o] = i;
+      figures[FIGURE.HEADROOM * n + o] = h;
+    }
+    figures[FIGURE.PER_OUTPUT * n + FIGURE.SOLVED_IREF] = m.iref;
+    return true;
   }
 
   /**
@@ -565,7 +622,7 @@ class StructureCheck implements ResistanceContext {
    * returns whether one did.
    */
   private compare(visit: (key: string, e: number, x: number, rel: number, unit: 'A' | 'V') => boolean | void): boolean {
-    const est = this.s.estimate;
+    const est = this.est;
     const sol = this.solved;
     if (!est || !sol || est.irefFrom === 'unknown') return false;
     const one = (key: string, e: number, x: number, unit: 'A' | 'V'): boolean => {
@@ -778,7 +835,7 @@ class StructureCheck implements ResistanceContext {
   }
 
   private checkStarved(): void {
-    const est = this.s.estimate;
+    const est = this.est;
     if (!est?.starved) return;
     const ref = this.s.reference;
     const refDev = this.topo.elementByName.get(ref.device)!;
@@ -810,7 +867,7 @@ class StructureCheck implements ResistanceContext {
       const t = this.t(o.device);
       const head = this.measured.headroom[o.device];
       const solved = this.measured.iout[o.device];
-      const active = this.s.estimate?.iout[o.device] ?? 0;
+      const active = this.est?.iout[o.device] ?? 0;
       const off = this.isOff(o.device);
       // An off output's junction signs are noise: it is judged only as cut off, and only when the hand analysis expects it to carry current.
       if (off && !(active > 0 && !belowFloor(active, 'A'))) continue;
@@ -907,7 +964,7 @@ class StructureCheck implements ResistanceContext {
       const isR = isAtTemperature(pr.IS ?? 1e-16, T, tn, pr.XTI ?? 3, pr.EG ?? 1.11);
       const isT = isAtTemperature(pt.IS ?? 1e-16, T, tn, pt.XTI ?? 3, pt.EG ?? 1.11);
       // Same VBE: IC scales with IS(T); the NF difference scales the exponent.
-      const vbe = this.s.estimate?.vControl ?? 0.65;
+      const vbe = this.est?.vControl ?? 0.65;
       const vt = thermalVolts(T);
       const exp = vbe / ((pt.NF ?? 1) * vt) - vbe / ((pr.NF ?? 1) * vt);
       let ratio = (isT / isR) * Math.exp(Math.max(Math.min(exp, 50), -50));
@@ -921,7 +978,7 @@ class StructureCheck implements ResistanceContext {
       ratio *= early(vaT) / early(vaR);
       return ratio - 1;
     }
-    const vgs = this.s.estimate?.vControl ?? 1;
+    const vgs = this.est?.vControl ?? 1;
     const vthR = this.sign * (pr.VTO ?? 0);
     const vthT = this.sign * (pt.VTO ?? 0);
     const vovR = vgs - vthR;
@@ -953,7 +1010,7 @@ class StructureCheck implements ResistanceContext {
         );
         continue;
       }
-      const note = kind.ratio({ s: this.s, bipolar: this.bipolar, estimate: this.s.estimate }, o);
+      const note = kind.ratio({ s: this.s, bipolar: this.bipolar, estimate: this.est }, o);
       if (note) this.emit('mirror-ratio', this.t(o.device).element, note.message, note.data);
     }
   }

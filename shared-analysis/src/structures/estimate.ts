@@ -10,7 +10,6 @@ import type { Estimate, EstimateStep, Structure } from './types';
 import { pushAll } from '../arrays';
 import { nameTable } from '../names';
 import { recognisedFeed, recognisedRailNode, recognisedRefNode } from './recognised';
-import { heldEstimate } from './hand-estimate';
 
 export type { EstimateAt } from './hand';
 
@@ -26,7 +25,7 @@ export const SHORTCUT_VBE = 0.7;
  * Outputs follow the formula of the structure's kind (its module in `kinds/`); every step is recorded.
  */
 export function estimateStructure(circuit: Circuit, s: Structure, at: EstimateAt): Estimate {
-  return heldEstimate(s.outputs, new HandAnalysis(circuit, s, at, 0).run());
+  return new HandAnalysis(circuit, s, at, 0).run();
 }
 
 /** Whether every name is a transistor of the circuit. */

@@ -38,30 +38,6 @@ export function numbersFit(t: unknown, outs: readonly { device: string }[], figu
   return true;
 }
 
-/** `numbersFit` for a table of ranges (compliance): each entry a plain `{ min, max }` of finite numbers, nothing else; mins from `minAt`, maxes from `maxAt`. */
-export function rangesFit(t: unknown, outs: readonly { device: string }[], figures: number[], minAt: number, maxAt: number): boolean {
-  const names = tableNames(t, outs);
-  if (names === undefined) return false;
-  const table = t as Record<string, unknown>;
-  for (const name of names) if (!isRange(table[name])) return false;
-  for (let o = 0; o < outs.length; o++) {
-    const r = table[outs[o].device] as { min: number; max: number } | undefined;
-    if (r === undefined) continue;
-    figures[minAt + o] = r.min;
-    figures[maxAt + o] = r.max;
-  }
-  return true;
-}
-
-/** A plain object of exactly `min` and `max`, in that order, both finite numbers. */
-export function isRange(r: unknown): boolean {
-  if (r === null || typeof r !== 'object' || Object.getPrototypeOf(r) !== Object.prototype) return false;
-  const keys = Object.keys(r);
-  const x = r as { min: unknown; max: unknown };
-  return keys.length === 2 && keys[0] === 'min' && keys[1] === 'max' && typeof x.min === 'number' && Number.isFinite(x.min) && typeof x.max === 'number' && Number.isFinite(x.max);
-}
-
-
 /** A new prototype-free table of `figures[at + o]` under each output's device, leaving out the NaN ones (no entry). */
 export function tableOf(figures: readonly number[], at: number, outs: readonly { device: string }[]): Record<string, number> {
   const table: Record<string, number> = nameTable();

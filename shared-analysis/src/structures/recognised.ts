@@ -2,25 +2,64 @@
 // that read the structure next do not look each device up by name again.
 
 import type { Transistor } from './topology';
-import type { Structure } from './types';
+import type { Estimate, Structure } from './types';
 import { defineCorners } from './corner-columns';
 import { nameTable } from '../names';
 import { registerLazyTable } from '../output-guard';
-import { distinctDevices, noFigures, numbersFit, rangesFit, tableOf } from './held-figures';
+import { distinctDevices, noFigures, numbersFit, tableOf } from './held-figures';
 
 /** The fields of a structure recognition makes, in the order the JSON shows them (the checks fill the rest later). */
 type RecognisedFields = Omit<Structure, 'corners' | 'solved' | 'estimate' | 'discrepancy' | 'startup' | 'variation'>;
 
 /**
- * The accessors of `headroom`, `compliance`, `outputResistance` and `solved`, one each for every structure (their
- * functions are set in the class's static block, where they can reach its private fields): defined in the same order
- * with the same functions, every structure keeps one layout. Enumerable own properties, so JSON, `Object.keys`,
- * spreading, `copyStructure` and structured cloning read the tables as data; assigning one keeps the value assigned.
+ * The accessors of `headroom`, `compliance`, `outputResistance`, `solved` and `estimate`, one each for every structure
+ * (their functions are set in the class's static block, where they can reach its private fields): defined in the same
+ * order with the same functions, every structure keeps one layout. Enumerable own properties, so JSON, `Object.keys`,
+ * spreading, `copyStructure` and structured cloning read them as data; assigning one keeps the value assigned.
  */
 const HEADROOM: PropertyDescriptor = { enumerable: true, configurable: true };
 const COMPLIANCE: PropertyDescriptor = { enumerable: true, configurable: true };
 const OUTPUT_RESISTANCE: PropertyDescriptor = { enumerable: true, configurable: true };
 const SOLVED: PropertyDescriptor = { enumerable: true, configurable: true };
+const ESTIMATE: PropertyDescriptor = { enumerable: true, configurable: true };
+
+/**
+ * Where the structure check's figures sit in a structure's list of them (`checkedFigures`), n the number of outputs:
+ * output o's figure of block b at `b·n + o`, then the structure's own figures from `PER_OUTPUT·n`. NaN where a table
+ * has no entry for the output.
+ */
+export const FIGURE = {
+  /** Per output: headroom (V), the compliance range's ends (V), output resistance (Ω), solved and estimated current (A), the estimate's output edge (V). */
+  HEADROOM: 0,
+  COMPLIANCE_MIN: 1,
+  COMPLIANCE_MAX: 2,
+  RESISTANCE: 3,
+  SOLVED_IOUT: 4,
+  ESTIMATE_IOUT: 5,
+  ESTIMATE_EDGE: 6,
+  PER_OUTPUT: 7,
+  /** After the outputs' blocks: solved IREF, the estimate's IREF, VBE (VGS), 0.7 V-shortcut IREF and supply (available, needed). */
+  SOLVED_IREF: 0,
+  ESTIMATE_IREF: 1,
+  ESTIMATE_VCONTROL: 2,
+  ESTIMATE_SHORTCUT: 3,
+  ESTIMATE_AVAILABLE: 4,
+  ESTIMATE_NEEDED: 5,
+  OWN: 6,
+} as const;
+
+/** Bits of what a structure holds as figures (`keepChecked`): a table or record each, and the estimate's optional members. */
+export const HELD = {
+  HEADROOM: 1,
+  COMPLIANCE: 2,
+  RESISTANCE: 4,
+  SOLVED: 8,
+  ESTIMATE: 16,
+  /** The estimate has a 0.7 V-shortcut IREF, a supply, output edges (each undefined without its bit). */
+  ESTIMATE_SHORTCUT: 32,
+  ESTIMATE_SUPPLY: 64,
+  ESTIMATE_EDGE: 128,
+} as const;
 
 /**
  * A structure as recognition makes it. Its transistors are a private field: JSON, `Object.keys`, spreading, structured
@@ -39,16 +78,19 @@ export class RecognisedStructure {
   /** Each element of `reference.elements` by element index, in that order (-1 where none was found). */
   #feed: readonly number[] = NO_FEED;
   /**
-   * The checks' per-output numbers held without their tables (see `keepChecked`): figure f of output o at
-   * `f·n + o` (n outputs, in `outputs` order), NaN where the table has no entry, then the solved IREF.
+   * What the structure check found, held as numbers where it could be (see `keepChecked`; `FIGURE` says where each
+   * figure sits), and which tables and records they stand for (`HELD` bits); the others are the values assigned.
    */
   #figures: number[] | undefined = undefined;
-  /** Which of the tables below `#figures` stands for (`HELD_*` bits); the others are the objects assigned. */
   #held = 0;
   #headroom: Structure['headroom'];
   #compliance: Structure['compliance'];
   #outputResistance: Structure['outputResistance'];
   #solved: Structure['solved'] = undefined;
+  #estimate: Structure['estimate'] = undefined;
+  /** A held estimate's members that are not numbers. */
+  #irefFrom: Estimate['irefFrom'] = undefined;
+  #starved: boolean | undefined = undefined;
 
   // Declared only (no field of their own): the constructor writes them with `this.` in the JSON's order, which is also
   // how V8 sizes the object to hold them all (written through another name, they went to a second object that grew as
@@ -97,7 +139,7 @@ export class RecognisedStructure {
     defineCorners(this);
     // What the checks fill later, undefined until then (left out of the JSON as an absent member).
     Object.defineProperty(this, 'solved', SOLVED);
-    this.estimate = undefined;
+    Object.defineProperty(this, 'estimate', ESTIMATE);
     this.discrepancy = undefined;
     this.startup = undefined;
     this.variation = undefined;
@@ -110,90 +152,99 @@ export class RecognisedStructure {
   }
 
   /**
-   * Keeps what the structure check found (`solved`, `headroom`, `compliance`, `outputResistance`, as they would be
-   * assigned). A table keyed by the outputs' devices, in their order, whose values are finite numbers (compliance:
-   * finite `{ min, max }` ranges) is kept as numbers in one list, and the table is made again, the same names in the
-   * same order with the same values, each time it is read: about 25,000 structures at 100,000 elements otherwise kept
-   * five tables of a few hundred bytes each for the whole run, copied by the collector on the way. Any other value
-   * (an empty table with a prototype, a name twice, a number that is not finite) is kept as assigned.
+   * Keeps what the structure check found: `figures` (made by `checkedFigures` for this structure, filled by the check)
+   * stand for the tables and records of the `held` bits, `given` holds the others as they are to be assigned (and, when
+   * the estimate is held, its members that are not numbers). A table held as figures is made again, the same names in
+   * the same order with the same values, each time it is read: at 100,000 elements 25,000 structures otherwise kept
+   * seven name-keyed tables and three records each for the whole run, copied by the collector on the way.
    */
-  keepChecked(
-    solved: Structure['solved'],
-    headroom: Structure['headroom'],
-    compliance: Structure['compliance'],
-    outputResistance: Structure['outputResistance'],
-  ): void {
-    const outs = this.outputs;
-    const n = outs.length;
-    let figures: number[] | undefined;
-    let held = 0;
-    if (distinctDevices(outs)) {
-      figures = noFigures(FIGURES * n + 1);
-      if (solved !== undefined && isSolvedRecord(solved) && Number.isFinite(solved.iref) && numbersFit(solved.iout, outs, figures, SOLVED_IOUT * n)) {
-        figures[FIGURES * n] = solved.iref;
-        held |= HELD_SOLVED;
-      }
-      if (numbersFit(headroom, outs, figures, HEADROOM_AT * n)) held |= HELD_HEADROOM;
-      if (rangesFit(compliance, outs, figures, COMPLIANCE_MIN_AT * n, COMPLIANCE_MAX_AT * n)) held |= HELD_COMPLIANCE;
-      if (numbersFit(outputResistance, outs, figures, RESISTANCE_AT * n)) held |= HELD_RESISTANCE;
-    }
+  keepChecked(figures: number[] | undefined, held: number, given: CheckedValues): void {
     this.#figures = held !== 0 ? figures : undefined;
-    this.#held = held;
-    this.#solved = held & HELD_SOLVED ? undefined : solved;
-    this.#headroom = held & HELD_HEADROOM ? NO_TABLE : headroom;
-    this.#compliance = held & HELD_COMPLIANCE ? NO_TABLE : compliance;
-    this.#outputResistance = held & HELD_RESISTANCE ? NO_TABLE : outputResistance;
+    this.#held = figures === undefined ? 0 : held;
+    held = this.#held;
+    this.#headroom = held & HELD.HEADROOM ? NO_TABLE : given.headroom;
+    this.#compliance = held & HELD.COMPLIANCE ? NO_TABLE : given.compliance;
+    this.#outputResistance = held & HELD.RESISTANCE ? NO_TABLE : given.outputResistance;
+    this.#solved = held & HELD.SOLVED ? undefined : given.solved;
+    this.#estimate = held & HELD.ESTIMATE ? undefined : given.estimate;
+    this.#irefFrom = held & HELD.ESTIMATE ? given.estimate!.irefFrom : undefined;
+    this.#starved = held & HELD.ESTIMATE ? given.estimate!.starved : undefined;
   }
 
-  /** The table of figure `at` (an offset into `#figures`): a new prototype-free table of the outputs that have one. */
-  #numbers(at: number): Record<string, number> {
-    return tableOf(this.#figures!, at, this.outputs);
+  /** The table of figure block `block` (`FIGURE`): a new prototype-free table of the outputs that have a figure there. */
+  #table(block: number): Record<string, number> {
+    const outs = this.outputs;
+    return tableOf(this.#figures!, block * outs.length, outs);
   }
 
-  /** Whether `s`'s table `bit` (`HELD_*`) is held as figures: made when read, finite by construction. */
+  /** The structure's own figure `k` (`FIGURE.SOLVED_IREF` …). */
+  #own(k: number): number {
+    return this.#figures![FIGURE.PER_OUTPUT * this.outputs.length + k];
+  }
+
+  /** Whether `s`'s table or record `bit` (`HELD`) is held as figures: made when read, finite by construction. */
   static holds(s: object, bit: number): boolean {
     return #held in s && ((s as RecognisedStructure).#held & bit) !== 0;
   }
 
   static {
     HEADROOM.get = function (this: RecognisedStructure) {
-      return this.#held & HELD_HEADROOM ? this.#numbers(HEADROOM_AT * this.outputs.length) : this.#headroom;
+      return this.#held & HELD.HEADROOM ? this.#table(FIGURE.HEADROOM) : this.#headroom;
     };
     HEADROOM.set = function (this: RecognisedStructure, v: Structure['headroom']) {
-      this.#held &= ~HELD_HEADROOM;
+      this.#held &= ~HELD.HEADROOM;
       this.#headroom = v;
     };
     OUTPUT_RESISTANCE.get = function (this: RecognisedStructure) {
-      return this.#held & HELD_RESISTANCE ? this.#numbers(RESISTANCE_AT * this.outputs.length) : this.#outputResistance;
+      return this.#held & HELD.RESISTANCE ? this.#table(FIGURE.RESISTANCE) : this.#outputResistance;
     };
     OUTPUT_RESISTANCE.set = function (this: RecognisedStructure, v: Structure['outputResistance']) {
-      this.#held &= ~HELD_RESISTANCE;
+      this.#held &= ~HELD.RESISTANCE;
       this.#outputResistance = v;
     };
     COMPLIANCE.get = function (this: RecognisedStructure) {
-      if (!(this.#held & HELD_COMPLIANCE)) return this.#compliance;
+      if (!(this.#held & HELD.COMPLIANCE)) return this.#compliance;
       const outs = this.outputs;
       const n = outs.length;
       const figures = this.#figures!;
       const table: Structure['compliance'] = nameTable();
       for (let o = 0; o < n; o++) {
-        const min = figures[COMPLIANCE_MIN_AT * n + o];
-        if (!Number.isNaN(min)) table[outs[o].device] = { min, max: figures[COMPLIANCE_MAX_AT * n + o] };
+        const min = figures[FIGURE.COMPLIANCE_MIN * n + o];
+        if (!Number.isNaN(min)) table[outs[o].device] = { min, max: figures[FIGURE.COMPLIANCE_MAX * n + o] };
       }
       return table;
     };
     COMPLIANCE.set = function (this: RecognisedStructure, v: Structure['compliance']) {
-      this.#held &= ~HELD_COMPLIANCE;
+      this.#held &= ~HELD.COMPLIANCE;
       this.#compliance = v;
     };
     SOLVED.get = function (this: RecognisedStructure) {
-      if (!(this.#held & HELD_SOLVED)) return this.#solved;
-      const n = this.outputs.length;
-      return { iref: this.#figures![FIGURES * n], iout: this.#numbers(SOLVED_IOUT * n) };
+      if (!(this.#held & HELD.SOLVED)) return this.#solved;
+      return { iref: this.#own(FIGURE.SOLVED_IREF), iout: this.#table(FIGURE.SOLVED_IOUT) };
     };
     SOLVED.set = function (this: RecognisedStructure, v: Structure['solved']) {
-      this.#held &= ~HELD_SOLVED;
+      this.#held &= ~HELD.SOLVED;
       this.#solved = v;
+    };
+    ESTIMATE.get = function (this: RecognisedStructure): Estimate | undefined {
+      const held = this.#held;
+      if (!(held & HELD.ESTIMATE)) return this.#estimate;
+      // The members and their order of the estimate the hand analysis makes (`HandAnalysis.run`, without steps or voltages).
+      return {
+        iref: this.#own(FIGURE.ESTIMATE_IREF),
+        iout: this.#table(FIGURE.ESTIMATE_IOUT),
+        vControl: this.#own(FIGURE.ESTIMATE_VCONTROL),
+        irefShortcut: held & HELD.ESTIMATE_SHORTCUT ? this.#own(FIGURE.ESTIMATE_SHORTCUT) : undefined,
+        steps: [],
+        irefFrom: this.#irefFrom,
+        starved: this.#starved,
+        supply: held & HELD.ESTIMATE_SUPPLY ? { available: this.#own(FIGURE.ESTIMATE_AVAILABLE), needed: this.#own(FIGURE.ESTIMATE_NEEDED) } : undefined,
+        outputEdge: held & HELD.ESTIMATE_EDGE ? this.#table(FIGURE.ESTIMATE_EDGE) : undefined,
+      };
+    };
+    ESTIMATE.set = function (this: RecognisedStructure, v: Structure['estimate']) {
+      this.#held &= ~(HELD.ESTIMATE | HELD.ESTIMATE_SHORTCUT | HELD.ESTIMATE_SUPPLY | HELD.ESTIMATE_EDGE);
+      this.#estimate = v;
     };
   }
 
@@ -218,47 +269,93 @@ export class RecognisedStructure {
   }
 }
 
-// Where each figure of `keepChecked` sits (times the number of outputs), and the bits of the tables held as figures.
-const HEADROOM_AT = 0;
-const COMPLIANCE_MIN_AT = 1;
-const COMPLIANCE_MAX_AT = 2;
-const RESISTANCE_AT = 3;
-const SOLVED_IOUT = 4;
-const FIGURES = 5;
-const HELD_HEADROOM = 1;
-const HELD_COMPLIANCE = 2;
-const HELD_RESISTANCE = 4;
-const HELD_SOLVED = 8;
-
-// The finiteness walk leaves a table held as figures unread (every figure kept is finite); one assigned, it reads.
-registerLazyTable('headroom', HEADROOM, (s) => RecognisedStructure.holds(s, HELD_HEADROOM));
-registerLazyTable('compliance', COMPLIANCE, (s) => RecognisedStructure.holds(s, HELD_COMPLIANCE));
-registerLazyTable('outputResistance', OUTPUT_RESISTANCE, (s) => RecognisedStructure.holds(s, HELD_RESISTANCE));
-registerLazyTable('solved', SOLVED, (s) => RecognisedStructure.holds(s, HELD_SOLVED));
+// The finiteness walk leaves a table or record held as figures unread (every figure kept is finite); one assigned, it reads.
+registerLazyTable('headroom', HEADROOM, (s) => RecognisedStructure.holds(s, HELD.HEADROOM));
+registerLazyTable('compliance', COMPLIANCE, (s) => RecognisedStructure.holds(s, HELD.COMPLIANCE));
+registerLazyTable('outputResistance', OUTPUT_RESISTANCE, (s) => RecognisedStructure.holds(s, HELD.RESISTANCE));
+registerLazyTable('solved', SOLVED, (s) => RecognisedStructure.holds(s, HELD.SOLVED));
+registerLazyTable('estimate', ESTIMATE, (s) => RecognisedStructure.holds(s, HELD.ESTIMATE));
 
 /** What a table held as figures leaves in its private field: nothing reads it while the figures stand for it. */
 const NO_TABLE = Object.freeze(nameTable<never>());
 
-/** A plain object of exactly `iref` and `iout`, in that order (as the structure check makes it). */
-function isSolvedRecord(v: object): v is { iref: number; iout: Record<string, number> } {
-  if (Object.getPrototypeOf(v) !== Object.prototype) return false;
-  const keys = Object.keys(v);
-  return keys.length === 2 && keys[0] === 'iref' && keys[1] === 'iout' && typeof (v as { iref: unknown }).iref === 'number';
+/** What the structure check assigns to a structure, for the members it does not hold as figures. */
+export interface CheckedValues {
+  solved: Structure['solved'];
+  headroom: Structure['headroom'];
+  compliance: Structure['compliance'];
+  outputResistance: Structure['outputResistance'];
+  estimate: Structure['estimate'];
 }
 
 /**
- * Assigns what the structure check found to `s`: kept as figures where it can be (`RecognisedStructure.keepChecked`),
- * for a structure recognition made; as data members for any other (a copy, a structure from another thread).
+ * A list for the structure check to fill with `s`'s figures (`FIGURE`), all NaN, when `s` can hold them: recognition
+ * made it, and no two of its outputs name one device (a table keyed by them has an entry per output). Else undefined:
+ * the check assigns its tables.
  */
-export function keepChecked(s: Structure, solved: Structure['solved'], headroom: Structure['headroom'], compliance: Structure['compliance'], outputResistance: Structure['outputResistance']): void {
+export function checkedFigures(s: Structure): number[] | undefined {
+  return s instanceof RecognisedStructure && distinctDevices(s.outputs) ? noFigures(FIGURE.PER_OUTPUT * s.outputs.length + FIGURE.OWN) : undefined;
+}
+
+/** The members of an estimate the hand analysis makes (`HandAnalysis.run`), in its order, when it has no voltages. */
+const ESTIMATE_FIELDS: readonly string[] = ['iref', 'iout', 'vControl', 'irefShortcut', 'steps', 'irefFrom', 'starved', 'supply', 'outputEdge'];
+
+/**
+ * Writes estimate `e` of a structure with outputs `outs` (n of them) into `figures` (`FIGURE`) and returns the `HELD`
+ * bits that then stand for it, when it can be made again from them: the members and order `ESTIMATE_FIELDS` lists, no
+ * steps (a host that asks for them keeps them as made), every number finite, the supply a plain `{ available, needed }`
+ * and the output currents and edges tables keyed by the outputs in their order. Else 0: the estimate is kept as made.
+ */
+export function estimateFigures(e: Estimate, outs: readonly { device: string }[], figures: number[], n: number): number {
+  const keys = Object.keys(e);
+  if (keys.length !== ESTIMATE_FIELDS.length) return 0;
+  for (let i = 0; i < keys.length; i++) if (keys[i] !== ESTIMATE_FIELDS[i]) return 0;
+  if (e.steps.length !== 0 || !Number.isFinite(e.iref) || !Number.isFinite(e.vControl)) return 0;
+  let held = HELD.ESTIMATE;
+  const own = FIGURE.PER_OUTPUT * n;
+  if (e.irefShortcut !== undefined) {
+    if (!Number.isFinite(e.irefShortcut)) return 0;
+    figures[own + FIGURE.ESTIMATE_SHORTCUT] = e.irefShortcut;
+    held |= HELD.ESTIMATE_SHORTCUT;
+  }
+  if (e.supply !== undefined) {
+    if (!isSupply(e.supply)) return 0;
+    figures[own + FIGURE.ESTIMATE_AVAILABLE] = e.supply.available;
+    figures[own + FIGURE.ESTIMATE_NEEDED] = e.supply.needed;
+    held |= HELD.ESTIMATE_SUPPLY;
+  }
+  if (!numbersFit(e.iout, outs, figures, FIGURE.ESTIMATE_IOUT * n)) return 0;
+  if (e.outputEdge !== undefined) {
+    if (!numbersFit(e.outputEdge, outs, figures, FIGURE.ESTIMATE_EDGE * n)) return 0;
+    held |= HELD.ESTIMATE_EDGE;
+  }
+  figures[own + FIGURE.ESTIMATE_IREF] = e.iref;
+  figures[own + FIGURE.ESTIMATE_VCONTROL] = e.vControl;
+  return held;
+}
+
+/** A plain `{ available, needed }` of finite numbers, nothing else, as the hand analysis makes it. */
+function isSupply(v: object): v is { available: number; needed: number } {
+  if (Object.getPrototypeOf(v) !== Object.prototype) return false;
+  const keys = Object.keys(v);
+  const x = v as { available: unknown; needed: unknown };
+  return keys.length === 2 && keys[0] === 'available' && keys[1] === 'needed' && typeof x.available === 'number' && Number.isFinite(x.available) && typeof x.needed === 'number' && Number.isFinite(x.needed);
+}
+
+/**
+ * Gives `s` what the structure check found: the tables and records of the `held` bits as `figures` (from
+ * `checkedFigures`), the others as `given`; a structure that holds no figures is assigned them all as data members.
+ */
+export function keepChecked(s: Structure, figures: number[] | undefined, held: number, given: CheckedValues): void {
   if (s instanceof RecognisedStructure) {
-    s.keepChecked(solved, headroom, compliance, outputResistance);
+    s.keepChecked(figures, held, given);
     return;
   }
-  s.solved = solved;
-  s.headroom = headroom;
-  s.compliance = compliance;
-  s.outputResistance = outputResistance;
+  s.solved = given.solved;
+  s.headroom = given.headroom;
+  s.compliance = given.compliance;
+  s.outputResistance = given.outputResistance;
+  s.estimate = given.estimate;
 }
 
 /** The feed of a structure without one found. */

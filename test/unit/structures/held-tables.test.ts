@@ -1,14 +1,13 @@
-// A checked structure's per-output tables (headroom, compliance, output resistance, solved currents) and its estimate's
-// (output currents, output edges, supply) held as numbers and made again when read: the values against the operating
-// point worked out here, the names and their order, the JSON text, copies, and every value that is kept as given.
+// What the structure check finds (headroom, compliance, output resistance, solved currents, the hand estimate) held by a
+// structure as numbers and made again when read: the values against the operating point and the hand formulas worked
+// out here, the names and their order, the JSON text, copies, and every value that is kept as given.
 
 import { describe, expect, it } from 'vitest';
 import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { dropNonFinite } from '../../../shared-analysis/src/output-guard';
 import { copyStructure } from '../../../shared-analysis/src/structures/corner-columns';
-import { keepChecked, RecognisedStructure } from '../../../shared-analysis/src/structures/recognised';
-import { heldEstimate, HandEstimate } from '../../../shared-analysis/src/structures/hand-estimate';
+import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, RecognisedStructure, type CheckedValues } from '../../../shared-analysis/src/structures/recognised';
 import { nameTable } from '../../../shared-analysis/src/names';
 import type { BjtRecord } from '../../../shared-analysis/src/solve/types';
 import type { Estimate, Structure } from '../../../shared-analysis/src/structures/types';
@@ -80,6 +79,11 @@ describe('a checked structure holds its per-output tables as numbers', () => {
       const iref = sign > 0 ? (9 - nodes['r']!) / 8.2e3 : nodes['p']! / 15e3;
       expect(s.solved!.iref).toBeCloseTo(iref, 12);
       expect(Object.keys(s.solved!)).toEqual(['iref', 'iout']);
+      // The hand estimate of a resistor-fed reference: IREF = (V+ − V− − VBE)/R (Gray, Hurst, Lewis, Meyer, 5th ed.,
+      // ch. 4; from memory), with the VBE the estimate solved together with it.
+      const e = s.estimate!;
+      expect(e.iref).toBeCloseTo((9 - e.vControl) / (sign > 0 ? 8.2e3 : 15e3), 12);
+      expect(Object.keys(e)).toEqual(['iref', 'iout', 'vControl', 'irefShortcut', 'steps', 'irefFrom', 'starved', 'supply', 'outputEdge']);
       expect(Object.keys(s.estimate!.supply!)).toEqual(['available', 'needed']);
     }
     // Q4's 47 kΩ load takes it into saturation: a negative headroom, held like any other number.
@@ -120,101 +124,113 @@ describe('a checked structure holds its per-output tables as numbers', () => {
   });
 });
 
+/** `keepChecked` with nothing held: every value as given. */
+function given(v: Partial<CheckedValues>): CheckedValues {
+  return { solved: undefined, headroom: nameTable(), compliance: nameTable(), outputResistance: nameTable(), estimate: undefined, ...v };
+}
+
 describe('values that are not held as numbers are kept as given', () => {
-  it('an empty table with a prototype, a number that is not finite, names out of order, a name twice, and an assigned value', () => {
+  it('each value given is read back as it is, walked by the finiteness walk, and replaced by an assignment', () => {
     const { structures } = analysed();
     const s = structures.find((x) => x.reference.device === 'Q1')!;
     const [a, b, c] = outputNames(s);
     const withProto: Record<string, number> = {};
     const notFinite = nameTable<number>({ [a]: 1, [b]: NaN, [c]: 2 });
-    const reversed = nameTable<number>({ [c]: 1, [b]: 2, [a]: 3 });
-    const ranges = nameTable({ [a]: { min: 0, max: 1, extra: 2 } as { min: number; max: number } });
-    const solved = { iref: Infinity, iout: nameTable<number>({ [a]: 1 }) };
-    keepChecked(s, solved, withProto, ranges, notFinite);
+    const solved = { iref: 1e-3, iout: nameTable<number>({ [a]: 1 }) };
+    keepChecked(s, checkedFigures(s), 0, given({ solved, headroom: withProto, outputResistance: notFinite }));
     expect(s.headroom).toBe(withProto);
-    expect(s.compliance).toBe(ranges);
     expect(s.outputResistance).toBe(notFinite);
     expect(s.solved).toBe(solved);
-    // Held next to one given: a table in another order is kept as given; one in order is made again.
-    const inOrder = nameTable<number>({ [a]: 3, [c]: 1 });
-    keepChecked(s, undefined, reversed, nameTable(), inOrder);
-    expect(s.headroom).toBe(reversed);
-    expect(s.solved).toBeUndefined();
-    expect(s.outputResistance).not.toBe(inOrder);
-    expect(s.outputResistance).toEqual(inOrder);
-    expect(Object.keys(s.outputResistance)).toEqual([a, c]);
+    expect(s.estimate).toBeUndefined();
     // A value kept as given is walked: the finiteness walk removes its NaN and names where it was.
-    keepChecked(s, undefined, withProto, nameTable(), notFinite);
     const removed: string[] = [];
     dropNonFinite(s, 's', removed);
     expect(removed).toEqual([`s.outputResistance.${b}`]);
     expect(Object.keys(s.outputResistance)).toEqual([a, c]);
-    // Assigned through the member, a table is what is read back.
+    // Assigned through the member, a table is what is read back, also after it was held as figures.
+    const figures = checkedFigures(s)!;
+    figures[FIGURE.HEADROOM * 3 + 1] = 0.5;
+    keepChecked(s, figures, HELD.HEADROOM, given({}));
+    expect(s.headroom).toEqual({ [b]: 0.5 });
     const assigned = nameTable<number>({ [a]: 5 });
     s.headroom = assigned;
     expect(s.headroom).toBe(assigned);
   });
 
-  it('a structure whose outputs name one device twice keeps its tables as given', () => {
+  it('a structure whose outputs name one device twice gets no figures, and a structure made elsewhere data members', () => {
     const { structures } = analysed();
     const s = structures.find((x) => x.reference.device === 'Q1')!;
-    const twice = { ...s.outputs[0]! };
-    s.outputs = [...s.outputs, twice];
-    const headroom = nameTable<number>({ [twice.device]: 1 });
-    keepChecked(s, undefined, headroom, nameTable(), nameTable());
+    s.outputs = [...s.outputs, { ...s.outputs[0]! }];
+    expect(checkedFigures(s)).toBeUndefined();
+    const headroom = nameTable<number>({ [s.outputs[0]!.device]: 1 });
+    keepChecked(s, undefined, HELD.HEADROOM, given({ headroom }));
     expect(s.headroom).toBe(headroom);
+    const copy = copyStructure(s);
+    expect(checkedFigures(copy)).toBeUndefined();
+    keepChecked(copy, undefined, 0, given({ headroom }));
+    expect(Object.getOwnPropertyDescriptor(copy, 'headroom')!.value).toBe(headroom);
   });
 });
 
-describe('a hand estimate holds its output currents, output edges and supply as numbers', () => {
-  const outs = [{ device: 'QB' }, { device: 'QA' }];
+describe('a hand estimate held as numbers', () => {
+  const outs = [{ device: 'QA' }, { device: 'QB' }];
   function literal(): Estimate {
     return {
       iref: 1e-3,
-      iout: nameTable({ QB: 0.98e-3, QA: 1.96e-3 }),
+      iout: nameTable({ QA: 1.96e-3, QB: 0.98e-3 }),
       vControl: 0.65,
       irefShortcut: undefined,
       steps: [],
       irefFrom: 'resistor',
       starved: false,
       supply: { available: 9, needed: 0.5 },
-      outputEdge: nameTable({ QA: 0.65 }),
+      outputEdge: nameTable({ QB: 0.65 }),
     };
+  }
+  /** A structure recognised with outputs named as `outs` (a two-output NPN mirror of the same names). */
+  function twoOutputs(): Structure {
+    const text = 'Two outputs\n.model qn npn (IS=1e-15 BF=100)\nVCC vcc 0 5\nRR vcc r 10k\nQR r r 0 qn\nQB b r 0 qn\nQA a r 0 qn\nRB vcc b 1k\nRA vcc a 1k\n.end\n';
+    const s = analyse({ uri: '/e.cir', text }, new MemoryWorkspace({ '/e.cir': text })).structures[0]!;
+    expect(outputNames(s)).toEqual(['QA', 'QB']);
+    return s;
   }
 
   it('reads as the literal it was made from: members in order, values, JSON text', () => {
+    const s = twoOutputs();
     const e = literal();
-    const held = heldEstimate(outs, e);
-    expect(held).toBeInstanceOf(HandEstimate);
-    expect(Object.keys(held)).toEqual(Object.keys(e));
-    expect(JSON.stringify(held)).toBe(JSON.stringify(e));
-    expect(held.iout).toEqual({ QB: 0.98e-3, QA: 1.96e-3 });
-    expect(Object.keys(held.iout)).toEqual(['QB', 'QA']);
-    expect(Object.getPrototypeOf(held.iout)).toBeNull();
-    expect(held.outputEdge).toEqual({ QA: 0.65 });
-    expect(held.supply).toEqual({ available: 9, needed: 0.5 });
-    expect(structuredClone(held)).toEqual(e);
-    // Voltages added after the others, in the literal's order.
-    const withVoltages = { ...literal(), voltages: nameTable({ VBG: 1.2 }) };
-    const heldV = heldEstimate(outs, withVoltages);
-    expect(Object.keys(heldV)).toEqual(Object.keys(withVoltages));
-    expect(JSON.stringify(heldV)).toBe(JSON.stringify(withVoltages));
+    const figures = checkedFigures(s)!;
+    const held = estimateFigures(e, outs, figures, 2);
+    expect(held).toBe(HELD.ESTIMATE | HELD.ESTIMATE_SUPPLY | HELD.ESTIMATE_EDGE);
+    keepChecked(s, figures, held, given({ estimate: e }));
+    const read = s.estimate!;
+    expect(read).not.toBe(e);
+    expect(Object.keys(read)).toEqual(Object.keys(e));
+    expect(JSON.stringify(read)).toBe(JSON.stringify(e));
+    expect(read.iout).toEqual({ QA: 1.96e-3, QB: 0.98e-3 });
+    expect(Object.keys(read.iout)).toEqual(['QA', 'QB']);
+    expect(Object.getPrototypeOf(read.iout)).toBeNull();
+    expect(read.outputEdge).toEqual({ QB: 0.65 });
+    expect(read.supply).toEqual({ available: 9, needed: 0.5 });
+    expect(structuredClone(s).estimate).toEqual(e);
+    // With a 0.7 V-shortcut IREF and without a supply or edges.
+    const f2 = checkedFigures(s)!;
+    const e2 = { ...literal(), irefShortcut: 1.1e-3, supply: undefined, outputEdge: undefined };
+    keepChecked(s, f2, estimateFigures(e2, outs, f2, 2), given({ estimate: e2 }));
+    expect(JSON.stringify(s.estimate)).toBe(JSON.stringify(e2));
+    expect(Object.keys(s.estimate!)).toEqual(Object.keys(e2));
   });
 
-  it('keeps a value that is not a table of finite numbers as given, and any other estimate as it is', () => {
-    const e = literal();
-    e.iout = nameTable({ QB: NaN, QA: 1 });
-    e.supply = { available: Infinity, needed: 0.5 };
-    const held = heldEstimate(outs, e);
-    expect(held.iout).toBe(e.iout);
-    expect(held.supply).toBe(e.supply);
-    expect(held.outputEdge).toEqual({ QA: 0.65 });
-    // Members in another order (an estimate not made by the hand analysis): the estimate itself.
-    const other = { iout: nameTable({ QA: 1 }), iref: 1, vControl: 0.6, steps: [], irefFrom: 'given' } as Estimate;
-    expect(heldEstimate(outs, other)).toBe(other);
-    // An assigned value is read back.
-    const table = nameTable({ QA: 2 });
-    held.outputEdge = table;
-    expect(held.outputEdge).toBe(table);
+  it('holds no estimate with steps, voltages, a number that is not finite, or members in another order', () => {
+    const f = () => checkedFigures(twoOutputs())!;
+    const withSteps = literal();
+    withSteps.steps.push({ quantity: 'IREF', formula: 'x', substituted: 'y', value: 1e-3, unit: 'A' });
+    expect(estimateFigures(withSteps, outs, f(), 2)).toBe(0);
+    expect(estimateFigures({ ...literal(), voltages: nameTable({ VBG: 1.2 }) }, outs, f(), 2)).toBe(0);
+    expect(estimateFigures({ ...literal(), iout: nameTable({ QA: NaN, QB: 1 }) }, outs, f(), 2)).toBe(0);
+    expect(estimateFigures({ ...literal(), iout: nameTable({ QB: 1, QA: 1 }) }, outs, f(), 2)).toBe(0);
+    expect(estimateFigures({ ...literal(), supply: { available: Infinity, needed: 0.5 } }, outs, f(), 2)).toBe(0);
+    expect(estimateFigures({ ...literal(), vControl: NaN }, outs, f(), 2)).toBe(0);
+    const { iref, ...rest } = literal();
+    expect(estimateFigures({ ...rest, iref } as Estimate, outs, f(), 2)).toBe(0);
   });
 });
