@@ -11,7 +11,7 @@ import { histogramText, spreadText } from '../../shared-analysis/src/variation/t
 import { formatEngineering } from '../../shared-analysis/src/fixes/format';
 import type { MonteCarloReply } from './protocol';
 import type { DcSolver, DcSolveResult } from '../../shared-analysis/src/solve/dc';
-import { cornerColumns, type CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
+import { cornerColumns, plainColumns, type CornerColumns } from '../../shared-analysis/src/structures/corner-columns';
 import type { ParsedDocument } from '../../shared-analysis/src/syntax/ast';
 import { LineIndex } from '../../shared-analysis/src/syntax/line-index';
 import type { Span } from '../../shared-analysis/src/types';
@@ -312,7 +312,8 @@ function handle(msg: ToWorker): void {
       const corners: Record<string, CornerColumns> = nameTable();
       for (const st of kept.analysis.structures) {
         const cols = cornerColumns(st);
-        if (cols) corners[st.id] = cols;
+        // As data members: the engine's columns are views made when read, which a structured clone would not copy.
+        if (cols) corners[st.id] = plainColumns(cols);
       }
       const variation = kept.analysis.variation ? spreads.message(msg.uri, kept.analysis.variation, msg.heldSpread) : undefined;
       post({ type: 'cornered', id: msg.id, findings: outcome.findings, corners, ...(variation ? { variation } : {}) });

@@ -14,7 +14,7 @@ import { SolvedVectors } from '../solve/solved-point';
 import { railsByIndex } from '../structures/rails';
 import { structureVoltages, summariseVoltageCorners } from '../structures/voltages';
 import type { Structure } from '../structures/types';
-import { setCornerColumns, type CornerAxis, type CornerColumns } from '../structures/corner-columns';
+import { CornerColumnViews, setCornerColumns, type CornerAxis, type CornerColumns, type CornerStore } from '../structures/corner-columns';
 import { topologyOf } from '../structures/topology';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll } from '../arrays';
@@ -379,11 +379,12 @@ export function runCorners(ctx: CornerContext): Finding[] {
     for (const i of withVoltages) {
       if (only && reuse!.touched[i] !== 1) continue;
       const col = columns[i];
-      for (let v = 0; v < col.voltageNames.length; v++) col.voltages[v * C + k] = NaN;
+      const volts = col.voltages;
+      for (let v = 0; v < col.voltageNames.length; v++) volts[v * C + k] = NaN;
       const vs = structureVoltages(structures[i], op, circuit);
       col.voltageNames.forEach((name, v) => {
         const x = vs?.[name];
-        if (x !== undefined) col.voltages[v * C + k] = x;
+        if (x !== undefined) volts[v * C + k] = x;
       });
     }
   }
@@ -669,30 +670,19 @@ function cornerColumnsOf(structures: Structure[], axis: CornerAxis): { columns: 
     voltages += structures[i].voltages?.length ?? 0;
   }
   const buffers = new CornerBuffers(structures.length, outputs, voltages, C);
-  const { iref } = buffers;
-  const { current: iout, headroom, outOfRegion } = buffers.sink;
-  const { volts } = buffers;
+  const store: CornerStore = { iref: buffers.iref, iout: buffers.sink.current, headroom: buffers.sink.headroom, outOfRegion: buffers.sink.outOfRegion, volts: buffers.volts };
   let o = 0;
   let v = 0;
-  const columns = structures.map((s, i) => {
+  const columns = new Array<CornerColumns>(structures.length);
+  for (let i = 0; i < structures.length; i++) {
+    const s = structures[i];
     // Most structures produce no voltage: they share one empty list, which every corner column keeps.
     const voltageNames = s.voltages && s.voltages.length > 0 ? s.voltages.map((x) => x.name) : NO_VOLTAGES;
-    const from = o * C;
-    const to = (o + s.outputs.length) * C;
-    const cols: CornerColumns = {
-      axis,
-      outputs: s.outputs.map((x) => x.device),
-      iref: iref.subarray(i * C, (i + 1) * C),
-      iout: iout.subarray(from, to),
-      headroom: headroom.subarray(from, to),
-      outOfRegion: outOfRegion.subarray(from, to),
-      voltageNames,
-      voltages: volts.subarray(v * C, (v + voltageNames.length) * C),
-    };
+    // Views of the buffers made when read; the output names read from the structure's list of outputs (never changed after recognition).
+    columns[i] = new CornerColumnViews(axis, store, i, o, s.outputs, v, voltageNames);
     o += s.outputs.length;
     v += voltageNames.length;
-    return cols;
-  });
+  }
   return { columns, buffers };
 }
 

@@ -14,7 +14,7 @@ import { bjtRo, isAtTemperature, mosRo, thermalVolts, UNBOUNDED_OHMS } from '../
 import type { ResistanceContext, SmallSignal } from '../structures/kind';
 import { measurePlanned, plannedMeasurements, readerOf, type Measurement } from '../structures/measure';
 import { railsByIndex } from '../structures/rails';
-import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, recognisedTransistor } from '../structures/recognised';
+import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, recognisedTransistor, roleOf } from '../structures/recognised';
 import { voltageAt } from '../structures/voltages';
 import { isOnlyRatio, MATCH_PARAMS, sameNumber } from '../structures/matching';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from '../structures/topology';
@@ -547,7 +547,7 @@ class StructureCheck implements ResistanceContext {
   }
 
   withRole(role: StructureRole): string | undefined {
-    return this.s.devices.find((d) => this.s.roles?.[d] === role);
+    return this.s.devices.find((d) => roleOf(this.s, d) === role);
   }
 
   resistance(name: string): number {
@@ -717,11 +717,11 @@ class StructureCheck implements ResistanceContext {
     const nodes = new Set<number>();
     for (const d of this.s.devices) {
       const t = this.t(d);
-      const role = this.s.roles?.[d];
+      const role = roleOf(this.s, d);
       if (role === 'reference' || role === 'lower-diode' || role === 'output') nodes.add(t.ctrl);
     }
     // A bias branch of the structure's own (a wide-swing cascode's bias device) is fed on purpose.
-    for (const d of this.s.devices) if (this.s.roles?.[d] === 'cascode-bias') nodes.delete(this.t(d).out);
+    for (const d of this.s.devices) if (roleOf(this.s, d) === 'cascode-bias') nodes.delete(this.t(d).out);
     const names = new Set<string>();
     for (const n of nodes) {
       for (const a of this.topo.conducting(n)) {
@@ -776,7 +776,7 @@ class StructureCheck implements ResistanceContext {
     for (const d of this.s.devices) {
       if (except.includes(d)) continue;
       const el = this.topo.elementByName.get(d);
-      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: ${this.s.roles?.[d] ?? 'device'} of the ${kindName(this.s.kind)}` });
+      if (el) rel.push({ uri: el.origin.uri, span: el.origin.span, message: `${d}: ${roleOf(this.s, d) ?? 'device'} of the ${kindName(this.s.kind)}` });
     }
     for (const r of this.s.reference.elements) {
       if (except.includes(r)) continue;

@@ -37,6 +37,83 @@ export interface CornerColumns {
   voltages: Float64Array;
 }
 
+/** The circuit-wide corner buffers one corner phase writes, which every structure's `CornerColumnViews` are views of. */
+export interface CornerStore {
+  /** Structure i at corner k at i·C + k. */
+  iref: Float64Array;
+  /** Output o (counted over every structure in order) at corner k at o·C + k. */
+  iout: Float64Array;
+  headroom: Float64Array;
+  outOfRegion: Uint8Array;
+  /** Voltage v (counted over every structure in order) at corner k at v·C + k. */
+  volts: Float64Array;
+}
+
+/**
+ * One structure's `CornerColumns` as the corner phase makes them: each column a view of the phase's buffers made when
+ * it is read, and the outputs' names listed when read, where five views and a list made for every structure were six
+ * objects (about 550 bytes) kept for the whole run, 150,000 at 100,000 elements. Its columns are getters of the class:
+ * `plainColumns` gives the object a worker sends to another thread (a structured clone copies own data only).
+ */
+export class CornerColumnViews implements CornerColumns {
+  readonly #store: CornerStore;
+  /** The structure's position among the phase's structures, its first output's and first voltage's among theirs. */
+  readonly #structure: number;
+  readonly #output: number;
+  readonly #voltage: number;
+  readonly #outs: readonly { device: string }[];
+
+  constructor(
+    readonly axis: CornerAxis,
+    store: CornerStore,
+    structure: number,
+    output: number,
+    outs: readonly { device: string }[],
+    voltage: number,
+    readonly voltageNames: string[],
+  ) {
+    this.#store = store;
+    this.#structure = structure;
+    this.#output = output;
+    this.#outs = outs;
+    this.#voltage = voltage;
+  }
+
+  get outputs(): string[] {
+    const out = new Array<string>(this.#outs.length);
+    for (let o = 0; o < out.length; o++) out[o] = this.#outs[o].device;
+    return out;
+  }
+
+  get iref(): Float64Array {
+    const C = this.axis.labels.length;
+    return this.#store.iref.subarray(this.#structure * C, (this.#structure + 1) * C);
+  }
+
+  get iout(): Float64Array {
+    return this.#store.iout.subarray(this.#output * this.axis.labels.length, (this.#output + this.#outs.length) * this.axis.labels.length);
+  }
+
+  get headroom(): Float64Array {
+    return this.#store.headroom.subarray(this.#output * this.axis.labels.length, (this.#output + this.#outs.length) * this.axis.labels.length);
+  }
+
+  get outOfRegion(): Uint8Array {
+    return this.#store.outOfRegion.subarray(this.#output * this.axis.labels.length, (this.#output + this.#outs.length) * this.axis.labels.length);
+  }
+
+  get voltages(): Float64Array {
+    const C = this.axis.labels.length;
+    return this.#store.volts.subarray(this.#voltage * C, (this.#voltage + this.voltageNames.length) * C);
+  }
+}
+
+/** `cols` with every column an own data member (views of the same buffers), as a worker sends them to another thread. */
+export function plainColumns(cols: CornerColumns): CornerColumns {
+  if (!(cols instanceof CornerColumnViews)) return cols;
+  return { axis: cols.axis, outputs: cols.outputs, iref: cols.iref, iout: cols.iout, headroom: cols.headroom, outOfRegion: cols.outOfRegion, voltageNames: cols.voltageNames, voltages: cols.voltages };
+}
+
 const columnsOf = new WeakMap<Structure, CornerColumns>();
 
 /** The column-wise corner results of a structure, when its corners were solved in this process (or handed over as columns). */
@@ -118,7 +195,8 @@ export function setCornerColumns(s: Structure, cols: CornerColumns): void {
 
 /** The per-corner records of a structure's columns, as `Structure.corners` lists them. */
 export function cornerRecords(cols: CornerColumns): CornerResult[] {
-  const { axis, outputs } = cols;
+  // Each column read once (a column of `CornerColumnViews` is a view made at each read).
+  const { axis, outputs, iref: irefs, iout: iouts, headroom: headrooms, outOfRegion: outs, voltages: volts } = cols;
   const C = axis.labels.length;
   const out: CornerResult[] = [];
   for (let k = 0; k < C; k++) {
@@ -126,9 +204,9 @@ export function cornerRecords(cols: CornerColumns): CornerResult[] {
     const headroom: Record<string, number> = nameTable();
     const outOfRegion: string[] = [];
     outputs.forEach((name, o) => {
-      iout[name] = cols.iout[o * C + k];
-      headroom[name] = cols.headroom[o * C + k];
-      if (cols.outOfRegion[o * C + k]) outOfRegion.push(name);
+      iout[name] = iouts[o * C + k];
+      headroom[name] = headrooms[o * C + k];
+      if (outs[o * C + k]) outOfRegion.push(name);
     });
     const r: CornerResult = {
       label: axis.labels[k],
@@ -137,7 +215,7 @@ export function cornerRecords(cols: CornerColumns): CornerResult[] {
       betaScale: axis.betaScale[k],
       ...(axis.process[k] ? { process: axis.process[k] } : {}),
       converged: axis.converged[k] === 1,
-      iref: cols.iref[k],
+      iref: irefs[k],
       iout,
       headroom,
       outOfRegion: axis.converged[k] === 1 ? outOfRegion : [],
@@ -145,7 +223,7 @@ export function cornerRecords(cols: CornerColumns): CornerResult[] {
     if (axis.converged[k] === 1 && cols.voltageNames.length > 0) {
       const voltages: Record<string, number> = nameTable();
       cols.voltageNames.forEach((name, v) => {
-        const x = cols.voltages[v * C + k];
+        const x = volts[v * C + k];
         if (!Number.isNaN(x)) voltages[name] = x;
       });
       r.voltages = voltages;
@@ -177,7 +255,7 @@ export interface OutputCornerSummary {
 export function summariseOutputs(cols: CornerColumns, names: readonly string[]): OutputCornerSummary[] {
   const { axis } = cols;
   const C = axis.labels.length;
-  const { iout, headroom } = cols;
+  const { iout, headroom, outOfRegion } = cols;
   return cols.outputs.map((device, o) => {
     const outOfRegionAt: string[] = [];
     // Where each extreme is (the first corner that reaches it), as positions in the columns; its record is made once, at the end.
@@ -189,7 +267,7 @@ export function summariseOutputs(cols: CornerColumns, names: readonly string[]):
       if (minCurrent < 0 || iout[k] < iout[minCurrent]) minCurrent = k;
       if (maxCurrent < 0 || iout[k] > iout[maxCurrent]) maxCurrent = k;
       if (minHeadroom < 0 || headroom[k] < headroom[minHeadroom]) minHeadroom = k;
-      if (cols.outOfRegion[k]) outOfRegionAt.push(names[k - o * C]);
+      if (outOfRegion[k]) outOfRegionAt.push(names[k - o * C]);
     }
     const s: Omit<OutputCornerSummary, 'outOfRegionAt'> & { outOfRegionAt?: string[] } = { device };
     if (minCurrent >= 0) s.minCurrent = { value: iout[minCurrent], corner: names[minCurrent - o * C] };

@@ -10,7 +10,7 @@ import { railsByIndex } from './rails';
 import { technologyOfModel } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { EstimateStep, Structure, StructureRole } from './types';
-import { recognisedTransistor } from './recognised';
+import { recognisedTransistor, roleOf } from './recognised';
 
 /** Where and how to evaluate the hand analysis. */
 export interface EstimateAt {
@@ -231,9 +231,9 @@ export class Hand {
 
   /** The summed scale (area or W/L × M) of the structure's devices in the reference role. */
   private referenceScale(): number {
-    const { devices, roles } = this.s;
+    const { devices } = this.s;
     let total = 0;
-    for (let k = 0; k < devices.length; k++) if (roles?.[devices[k]] === 'reference') total += this.transistor(devices[k])?.scale ?? 0;
+    for (let k = 0; k < devices.length; k++) if (roleOf(this.s, devices[k]) === 'reference') total += this.transistor(devices[k])?.scale ?? 0;
     return total;
   }
 
@@ -249,7 +249,7 @@ export class Hand {
 
   /** The structure's devices with one role, in structure order. */
   role(r: StructureRole): Transistor[] {
-    return this.s.devices.filter((d) => this.s.roles?.[d] === r).map((d) => this.transistor(d)!).filter(Boolean);
+    return this.s.devices.filter((d) => roleOf(this.s, d) === r).map((d) => this.transistor(d)!).filter(Boolean);
   }
 
   refT(): Transistor {
@@ -279,7 +279,7 @@ export class Hand {
     const s = this.s;
     // The first lower diode of the structure (as `role('lower-diode')[0]`), else the reference.
     for (const d of s.devices) {
-      const t = s.roles?.[d] === 'lower-diode' ? this.transistor(d) : undefined;
+      const t = roleOf(s, d) === 'lower-diode' ? this.transistor(d) : undefined;
       if (t) return t.common;
     }
     return this.refT().common;

@@ -71,8 +71,10 @@ function toStructure(m: Matcher, d: Draft): Structure {
   const devices = mapList(d.members, (x) => x.t.name);
   const roles: Record<string, StructureRole> = nameTable();
   for (const x of d.members) roles[x.t.name] = x.role;
-  const reference: ReferenceBranch = { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: NO_ELEMENTS };
-  if (d.refDegeneration) reference.degeneration = d.refDegeneration;
+  // Made with every member it starts with at once (a member added later goes to a second object; see `fedFrom`).
+  const reference: ReferenceBranch = d.refDegeneration
+    ? { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: NO_ELEMENTS, degeneration: d.refDegeneration }
+    : { device: d.reference.name, node: m.nodeName(d.refNode), feed: 'other', elements: NO_ELEMENTS };
   // Every field is made at once (`RecognisedStructure`): a structure keeps one layout (V8's map) from recognition to the
   // report, where fields added one by one as the checks ran gave each structure a new layout at each step, and the code
   // that read structures was given up and compiled again for the next. The transistors go with it (not into its JSON):
@@ -135,7 +137,8 @@ function memberNamed(d: Draft, name: string): Transistor | undefined {
  */
 function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners): ReferenceBranch {
   // `toStructure` made the reference afresh, fed by 'other' with no elements: the answer when nothing better is found,
-  // and otherwise filled in place (its feed and elements keep their place among its fields, the rail or feeding structure follows).
+  // and otherwise filled in place (its feed and elements keep their place among its fields), or made again with the rail
+  // or feeding structure after them (`fedFrom`).
   const base = s.reference;
   const feed = soleFeed(m, d.refNode, s);
   if (!feed) return base;
@@ -146,10 +149,7 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners
   }
   if ((el.kind === 'Q' || el.kind === 'M' || el.kind === 'J') && slot === 0) {
     const from = owner.get(el.name);
-    if (from && from !== s) {
-      fed(base, 'mirror-output', [el.name]).fedBy = from.id;
-      return base;
-    }
+    if (from && from !== s) return fedFrom(base, 'mirror-output', [el.name], 'fedBy', from.id);
     return base;
   }
   if (el.kind !== 'R') return base;
@@ -166,8 +166,7 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners
     const rail = m.rails.get(next);
     if (rail) {
       keepFeed(s, next, trimmed(at));
-      fed(base, 'resistor', trimmed(chain)).rail = rail;
-      return base;
+      return fedFrom(base, 'resistor', trimmed(chain), 'rail', rail);
     }
     seen ??= new Set<number>([d.refNode]);
     if (seen.has(next)) return base;
@@ -177,6 +176,22 @@ function referenceBranch(m: Matcher, d: Draft, s: Structure, owner: OutputOwners
     r = onward[0].element as Resistor;
     node = next;
   }
+}
+
+/**
+ * `base` fed by `feed` through `elements`, with its rail (`rail`) or the structure whose output feeds it (`fedBy`): a
+ * new branch, every member in the order the JSON shows them (the base's, then the rail or feeding structure), made at
+ * once. Added to the base, the last member went to a second object of the branch's members (V8's store of members
+ * added after an object is made): an object more per structure for the whole run.
+ */
+function fedFrom<K extends 'rail' | 'fedBy'>(base: ReferenceBranch, feed: ReferenceBranch['feed'], elements: string[], key: K, value: NonNullable<ReferenceBranch[K]>): ReferenceBranch {
+  const { device, node, degeneration } = base;
+  if (key === 'rail') {
+    const rail = value as NonNullable<ReferenceBranch['rail']>;
+    return degeneration === undefined ? { device, node, feed, elements, rail } : { device, node, feed, elements, degeneration, rail };
+  }
+  const fedBy = value as string;
+  return degeneration === undefined ? { device, node, feed, elements, fedBy } : { device, node, feed, elements, degeneration, fedBy };
 }
 
 /** Sets what feeds a reference branch, in place. */

@@ -2,7 +2,7 @@
 // that read the structure next do not look each device up by name again.
 
 import type { Transistor } from './topology';
-import type { Estimate, Structure } from './types';
+import type { Estimate, Structure, StructureRole } from './types';
 import { defineCorners } from './corner-columns';
 import { nameTable } from '../names';
 import { registerLazyTable } from '../output-guard';
@@ -22,6 +22,15 @@ const COMPLIANCE: PropertyDescriptor = { enumerable: true, configurable: true };
 const OUTPUT_RESISTANCE: PropertyDescriptor = { enumerable: true, configurable: true };
 const SOLVED: PropertyDescriptor = { enumerable: true, configurable: true };
 const ESTIMATE: PropertyDescriptor = { enumerable: true, configurable: true };
+const ROLES: PropertyDescriptor = { enumerable: true, configurable: true };
+
+/**
+ * The roles a structure's devices can have, each coded by its position plus one in four bits of `#roleCodes`, the
+ * first device's lowest: up to seven devices in one small integer (no object).
+ */
+const ROLE_NAMES: readonly StructureRole[] = ['reference', 'output', 'lower-diode', 'lower-partner', 'helper', 'cascode', 'cascode-bias', 'pass', 'reference-diode', 'vbe'];
+/** Most devices whose roles `#roleCodes` holds. */
+const CODED_DEVICES = 7;
 
 /**
  * Where the structure check's figures sit in a structure's list of them (`checkedFigures`), n the number of outputs:
@@ -75,8 +84,8 @@ export class RecognisedStructure {
   readonly #refNode: number;
   /** The rail a resistor chain hangs from, by node index (-1 without one). */
   #railNode = -1;
-  /** Each element of `reference.elements` by element index, in that order (-1 where none was found). */
-  #feed: readonly number[] = NO_FEED;
+  /** Each element of `reference.elements` by element index, in that order (-1 where none was found); a feed of one element as its index alone. */
+  #feed: readonly number[] | number = NO_FEED;
   /**
    * What the structure check found, held as numbers where it could be (see `keepChecked`; `FIGURE` says where each
    * figure sits), and which tables and records they stand for (`HELD` bits); the others are the values assigned.
@@ -88,6 +97,9 @@ export class RecognisedStructure {
   #outputResistance: Structure['outputResistance'];
   #solved: Structure['solved'] = undefined;
   #estimate: Structure['estimate'] = undefined;
+  /** The devices' roles, coded (see `ROLE_NAMES`), when they are held so; -1 when `#roles` holds them as given. */
+  #roleCodes = -1;
+  #roles: Structure['roles'] = undefined;
   /** A held estimate's members that are not numbers. */
   #irefFrom: Estimate['irefFrom'] = undefined;
   #starved: boolean | undefined = undefined;
@@ -122,7 +134,9 @@ export class RecognisedStructure {
     this.kind = f.kind;
     this.technology = f.technology;
     this.devices = f.devices;
-    this.roles = f.roles;
+    this.#roleCodes = roleCodes(f.devices, f.roles);
+    this.#roles = this.#roleCodes >= 0 ? undefined : f.roles;
+    Object.defineProperty(this, 'roles', ROLES);
     this.reference = f.reference;
     this.outputs = f.outputs;
     this.parts = f.parts;
@@ -148,7 +162,8 @@ export class RecognisedStructure {
   /** Where the reference branch's feed was found: the rail's node index (-1: none) and each feed element's index. */
   feedFound(railNode: number, elements: readonly number[]): void {
     this.#railNode = railNode;
-    this.#feed = elements;
+    // One element (nearly every feed) as its index: no list kept for it.
+    this.#feed = elements.length === 1 ? elements[0] : elements;
   }
 
   /**
@@ -180,6 +195,22 @@ export class RecognisedStructure {
   /** The structure's own figure `k` (`FIGURE.SOLVED_IREF` …). */
   #own(k: number): number {
     return this.#figures![FIGURE.PER_OUTPUT * this.outputs.length + k];
+  }
+
+  /**
+   * The role of `device` in `s` (`s.roles[device]`, read without making the table when `s` holds the roles coded; a
+   * structure whose `roles` member was deleted has none). Nothing assigns `roles` but recognition.
+   */
+  static roleOf(s: Structure, device: string): StructureRole | undefined {
+    if (!(#roleCodes in s) || (s as unknown as RecognisedStructure).#roleCodes < 0) return s.roles?.[device];
+    if (!('roles' in s)) return undefined;
+    const k = s.devices.indexOf(device);
+    return k < 0 ? undefined : ROLE_NAMES[(((s as unknown as RecognisedStructure).#roleCodes >> (4 * k)) & 15) - 1];
+  }
+
+  /** Whether `s`'s roles are held coded: made when read (strings only, nothing for the finiteness walk). */
+  static rolesCoded(s: object): boolean {
+    return #roleCodes in s && (s as RecognisedStructure).#roleCodes >= 0;
   }
 
   /** Whether `s`'s table or record `bit` (`HELD`) is held as figures: made when read, finite by construction. */
@@ -242,6 +273,18 @@ export class RecognisedStructure {
         outputEdge: held & HELD.ESTIMATE_EDGE ? this.#table(FIGURE.ESTIMATE_EDGE) : undefined,
       };
     };
+    ROLES.get = function (this: RecognisedStructure) {
+      const codes = this.#roleCodes;
+      if (codes < 0) return this.#roles;
+      const devices = this.devices;
+      const table: Record<string, StructureRole> = nameTable();
+      for (let k = 0; k < devices.length; k++) table[devices[k]] = ROLE_NAMES[((codes >> (4 * k)) & 15) - 1];
+      return table;
+    };
+    ROLES.set = function (this: RecognisedStructure, v: Structure['roles']) {
+      this.#roleCodes = -1;
+      this.#roles = v;
+    };
     ESTIMATE.set = function (this: RecognisedStructure, v: Structure['estimate']) {
       this.#held &= ~(HELD.ESTIMATE | HELD.ESTIMATE_SHORTCUT | HELD.ESTIMATE_SUPPLY | HELD.ESTIMATE_EDGE);
       this.#estimate = v;
@@ -263,8 +306,8 @@ export class RecognisedStructure {
     return #railNode in s ? (s as RecognisedStructure).#railNode : -1;
   }
 
-  /** The feed's element indices kept with `s`. */
-  static feedOf(s: object): readonly number[] {
+  /** The feed's element indices kept with `s` (one element's as its index alone). */
+  static feedOf(s: object): readonly number[] | number {
     return #feed in s ? (s as RecognisedStructure).#feed : NO_FEED;
   }
 }
@@ -275,6 +318,36 @@ registerLazyTable('compliance', COMPLIANCE, (s) => RecognisedStructure.holds(s, 
 registerLazyTable('outputResistance', OUTPUT_RESISTANCE, (s) => RecognisedStructure.holds(s, HELD.RESISTANCE));
 registerLazyTable('solved', SOLVED, (s) => RecognisedStructure.holds(s, HELD.SOLVED));
 registerLazyTable('estimate', ESTIMATE, (s) => RecognisedStructure.holds(s, HELD.ESTIMATE));
+registerLazyTable('roles', ROLES, (s) => RecognisedStructure.rolesCoded(s));
+
+/**
+ * `roles` coded (see `ROLE_NAMES`), when it is a prototype-free table of every device of `devices` in their order (at
+ * most `CODED_DEVICES`, no name twice) with a known role each; else -1 (the table is kept as given).
+ */
+function roleCodes(devices: readonly string[], roles: Structure['roles']): number {
+  if (roles === undefined || devices.length > CODED_DEVICES || Object.getPrototypeOf(roles) !== null || !distinctNames(devices)) return -1;
+  const names = Object.keys(roles);
+  if (names.length !== devices.length) return -1;
+  let codes = 0;
+  for (let k = 0; k < devices.length; k++) {
+    if (names[k] !== devices[k]) return -1;
+    const code = ROLE_NAMES.indexOf(roles[devices[k]]);
+    if (code < 0) return -1;
+    codes |= (code + 1) << (4 * k);
+  }
+  return codes;
+}
+
+/** Whether no name is listed twice. */
+function distinctNames(names: readonly string[]): boolean {
+  for (let i = 1; i < names.length; i++) for (let j = 0; j < i; j++) if (names[i] === names[j]) return false;
+  return true;
+}
+
+/** The role of `device` in `s` (see `RecognisedStructure.roleOf`). */
+export function roleOf(s: Structure, device: string): StructureRole | undefined {
+  return RecognisedStructure.roleOf(s, device);
+}
 
 /** What a table held as figures leaves in its private field: nothing reads it while the figures stand for it. */
 const NO_TABLE = Object.freeze(nameTable<never>());
@@ -383,6 +456,7 @@ export function recognisedRailNode(s: Structure): number {
 /** The element index recognition found for `s.reference.elements[k]`, or -1: a hint for `Topology.elementNamedAt`. */
 export function recognisedFeed(s: Structure, k: number): number {
   const feed = RecognisedStructure.feedOf(s);
+  if (typeof feed === 'number') return k === 0 ? feed : -1;
   return k >= 0 && k < feed.length ? feed[k] : -1;
 }
 

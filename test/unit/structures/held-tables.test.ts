@@ -7,7 +7,7 @@ import { analyse } from '../../../shared-analysis/src/service';
 import { MemoryWorkspace } from '../../../shared-analysis/src/types';
 import { dropNonFinite } from '../../../shared-analysis/src/output-guard';
 import { copyStructure } from '../../../shared-analysis/src/structures/corner-columns';
-import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, RecognisedStructure, type CheckedValues } from '../../../shared-analysis/src/structures/recognised';
+import { checkedFigures, estimateFigures, FIGURE, HELD, keepChecked, RecognisedStructure, roleOf, type CheckedValues } from '../../../shared-analysis/src/structures/recognised';
 import { nameTable } from '../../../shared-analysis/src/names';
 import type { BjtRecord } from '../../../shared-analysis/src/solve/types';
 import type { Estimate, Structure } from '../../../shared-analysis/src/structures/types';
@@ -128,6 +128,40 @@ describe('a checked structure holds its per-output tables as numbers', () => {
 function given(v: Partial<CheckedValues>): CheckedValues {
   return { solved: undefined, headroom: nameTable(), compliance: nameTable(), outputResistance: nameTable(), estimate: undefined, ...v };
 }
+
+describe('a structure holds its devices\' roles coded', () => {
+  it('reads them as a table of every device in order, and answers a device\'s role without the table', () => {
+    const { structures } = analysed();
+    for (const s of structures) {
+      const roles = s.roles!;
+      expect(Object.getPrototypeOf(roles)).toBeNull();
+      expect(Object.keys(roles)).toEqual(s.devices);
+      // A simple mirror: its diode-connected device is the reference, every other device an output (the outputs listed).
+      for (const d of s.devices) {
+        expect(roles[d]).toBe(d === s.reference.device ? 'reference' : 'output');
+        expect(roleOf(s, d)).toBe(roles[d]);
+      }
+      expect(roleOf(s, 'RR')).toBeUndefined();
+      expect(roleOf(s, '__proto__')).toBeUndefined();
+      expect(s.roles).not.toBe(roles);
+    }
+    // Assigned, a table is read back as it is, and answers for its devices.
+    const s = structures[0]!;
+    const given = nameTable<'reference' | 'output' | 'helper'>({ [s.devices[0]!]: 'helper' });
+    s.roles = given;
+    expect(s.roles).toBe(given);
+    expect(roleOf(s, s.devices[0]!)).toBe('helper');
+    expect(roleOf(s, s.devices[1]!)).toBeUndefined();
+  });
+
+  it('gives a resistor-fed reference its rail after its feed, in the order the JSON shows', () => {
+    const { structures } = analysed();
+    for (const s of structures) {
+      expect(Object.keys(s.reference)).toEqual(['device', 'node', 'feed', 'elements', 'rail']);
+      expect(s.reference.rail!.node).toBe(s.technology === 'npn' ? 'vcc' : '0');
+    }
+  });
+});
 
 describe('values that are not held as numbers are kept as given', () => {
   it('each value given is read back as it is, walked by the finiteness walk, and replaced by an assignment', () => {

@@ -9,6 +9,7 @@ import type { KindCheckContext, KindFinding, KindModule } from '../kind';
 import type { Draft, Matcher } from '../match';
 import type { Transistor } from '../topology';
 import type { StructureOutput } from '../types';
+import { roleOf } from '../recognised';
 
 /** Where the wide-swing cascode's analysis comes from. */
 export const WIDE_SWING_SOURCE = 'Johns and Martin, Analog Integrated Circuit Design, ch. 6, wide-swing cascode current mirror; Razavi, ch. 5; from memory';
@@ -292,7 +293,7 @@ function check(c: KindCheckContext): KindFinding[] {
   const op = c.op;
   if (!op) return [];
   const out: KindFinding[] = [];
-  const bottoms = c.s.devices.filter((d) => c.s.roles?.[d] === 'reference' || c.s.roles?.[d] === 'lower-partner');
+  const bottoms = c.s.devices.filter((d) => roleOf(c.s, d) === 'reference' || roleOf(c.s, d) === 'lower-partner');
   const triode: { d: string; vds: number; vov: number }[] = [];
   for (const d of bottoms) {
     const rec = op.devices[d];
@@ -300,7 +301,7 @@ function check(c: KindCheckContext): KindFinding[] {
     triode.push({ d, vds: c.sign * rec.vds, vov: rec.vov });
   }
   if (triode.length === 0) return out;
-  const bias = c.s.devices.find((d) => c.s.roles?.[d] === 'cascode-bias');
+  const bias = c.s.devices.find((d) => roleOf(c.s, d) === 'cascode-bias');
   const list = triode.map((x) => `${x.d} at VDS ${eng(x.vds, 'V')} against VOV ${eng(x.vov, 'V')}`).join(', ');
   const vds = triode.map((x) => x.vds);
   const spread = maxOf(vds) - minOf(vds);
@@ -332,7 +333,7 @@ export const wideSwingCascode: KindModule = {
     // Source: Razavi, ch. 5 — Rout = ro4 + ro2 + (gm4 + gmb4)·ro4·ro2 of a cascode, body effect included (from memory); with the
     // bottom device in triode its ro is the triode channel resistance, which the solved record carries.
     const k = c.s.outputs.indexOf(o);
-    const partners = c.s.devices.filter((d) => c.s.roles?.[d] === 'lower-partner');
+    const partners = c.s.devices.filter((d) => roleOf(c.s, d) === 'lower-partner');
     const ro2 = partners[k] ? c.smallSignal(partners[k], i).ro : out.ro;
     return ro2 >= 1e30 ? 1e30 : out.ro + ro2 + (out.gm + out.gmb) * out.ro * ro2;
   },
