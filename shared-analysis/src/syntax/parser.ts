@@ -453,8 +453,14 @@ function titleCard(ctx: Context, start: number, end: number): Card {
   return { kind: 'title', span: { start, end }, tokens: [], text: title };
 }
 
-/** A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly and has a numeric field. */
+/**
+ * A title reads like a card when it is a known dot card, or an element card with a card-like name that parses cleanly
+ * and has a numeric field; not when it is punctuated as prose (a word followed by a comma outside parentheses:
+ * "NPN mirror, 5 V rail"), nor when it would be a resistor, capacitor or inductor whose value is a word
+ * ("LDO bias 3.3 V", an acronym-led title whose number falls among the nodes).
+ */
 function titleLooksLikeCard(text: string, first: number, end: number): boolean {
+  if (PROSE_COMMA.test(text.slice(first, end).replace(PARENTHESISED, ''))) return false;
   const probe: Context = { text, errors: [], subckts: [], sections: [], topLevel: true, cardProblems: 0, conditions: [], words: new Map(), fields: [], lexemes: new LexemeList() };
   const card = parseGroup(probe, [{ start: first, lineEnd: end }]);
   if (card.kind === 'error' || probe.errors.length > 0) return false;
@@ -464,9 +470,17 @@ function titleLooksLikeCard(text: string, first: number, end: number): boolean {
   // (R1, Q12) or are written in capitals (VCC, RLOAD).
   const name = card.name.text;
   if (!/[0-9]/.test(name) && !(name.length >= 2 && name === name.toUpperCase())) return false;
+  const letter = name.charCodeAt(0) | 0x20;
+  // r, c, l: a value is the card's own field, and a word there is no value.
+  if ((letter === 114 || letter === 99 || letter === 108) && !(card.value !== undefined && isNumberLike(card.value))) return false;
   const fields: (Token | undefined)[] = [...card.nodes, card.value, card.area, card.source?.value];
   return fields.some((t) => t !== undefined && isNumberLike(t));
 }
+
+/** A word and a comma, then a blank: the punctuation of prose (a card separates its fields by blanks). */
+const PROSE_COMMA = /[A-Za-z0-9],\s/;
+/** A parenthesised group (a source's PWL points, a model's parameters), where commas separate numbers. */
+const PARENTHESISED = /\([^()]*\)/g;
 
 /** Cuts long field text for a message, never between the halves of a surrogate pair. */
 function shorten(s: string): string {

@@ -198,6 +198,17 @@ describe('title line', () => {
     check('Generated bench netlist: 50,000 elements', { options: { hasTitle: true } });
   });
 
+  it('gives no hint for an acronym-led title punctuated as prose, or whose would-be value is a word', () => {
+    // "NPN" and "LDO" are card-like names (capitals) and a number follows, but a comma after a word is prose, and an
+    // inductor card's value cannot be the word "V".
+    check('NPN mirror, 5 V rail\nQ1 a a 0 QN', { options: { hasTitle: true } });
+    check('NPN sink array, 20000 elements\nQ1 a a 0 QN', { options: { hasTitle: true } });
+    check('LDO bias 3.3 V\nR1 a 0 1k', { options: { hasTitle: true } });
+    // Commas between a source's points are inside its parentheses: still a card.
+    check('V1 in 0 PWL(0 0, 1m 5)\n^^^^^^^^^^^^^^^^^^^^^^ title-looks-like-card', { options: { hasTitle: true } });
+    check('RLOAD out 0 4.7k\n^^^^^^^^^^^^^^^^ title-looks-like-card', { options: { hasTitle: true } });
+  });
+
   it('reads an empty first line as an empty title', () => {
     check('\nR1 a 0 1k', {
       options: { hasTitle: true },
