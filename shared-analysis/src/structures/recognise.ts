@@ -3,7 +3,7 @@
 import type { Circuit, Resistor } from '../circuit';
 import { KINDS } from './catalogue';
 import { Matcher, type Draft } from './match';
-import type { ReferenceBranch, Structure, StructureOutput, StructureRole } from './types';
+import type { ReferenceBranch, Structure, StructureKind, StructureOutput, StructureRole } from './types';
 import { isOnlyRatio } from './matching';
 import { nameTable, own } from '../names';
 import { mapList, trimmed } from '../arrays';
@@ -80,7 +80,7 @@ function toStructure(m: Matcher, d: Draft): Structure {
   // that read structures was given up and compiled again for the next. The transistors go with it (not into its JSON):
   // the stages that read the structure then need no look-up of its devices.
   const s = new RecognisedStructure(memberTransistors(d), d.refNode, {
-    id: `${d.kind}:${d.reference.name}`,
+    id: idPrefix(d.kind) + d.reference.name,
     kind: d.kind,
     technology: d.reference.tech,
     devices,
@@ -98,6 +98,17 @@ function toStructure(m: Matcher, d: Draft): Structure {
   });
   return s as unknown as Structure;
 }
+
+/**
+ * `${kind}:`, one string per kind for every structure of it: an id written as `${kind}:${name}` joined the kind and the
+ * colon again for each structure, a joined string more kept with every id.
+ */
+function idPrefix(kind: StructureKind): string {
+  let prefix = ID_PREFIXES.get(kind);
+  if (prefix === undefined) ID_PREFIXES.set(kind, (prefix = `${kind}:`));
+  return prefix;
+}
+const ID_PREFIXES = new Map<StructureKind, string>();
 
 /** A table of no figures, shared by every structure recognition makes until its checks replace it. */
 const NO_FIGURES: Record<string, number> = Object.freeze(nameTable<number>());

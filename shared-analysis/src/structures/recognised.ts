@@ -79,7 +79,13 @@ export const HELD = {
  * a structure keeps one layout (V8's map) from recognition to the report.
  */
 export class RecognisedStructure {
-  readonly #transistors: readonly Transistor[];
+  /**
+   * The transistors, in `devices` order: the first two in fields of their own (most structures have no more: no list
+   * kept for them), every one in `#all` when there are more.
+   */
+  readonly #first: Transistor | undefined;
+  readonly #second: Transistor | undefined;
+  readonly #all: readonly Transistor[] | undefined;
   /** The reference node's index. */
   readonly #refNode: number;
   /** The rail a resistor chain hangs from, by node index (-1 without one). */
@@ -128,7 +134,9 @@ export class RecognisedStructure {
   declare variation: Structure['variation'];
 
   constructor(transistors: readonly Transistor[], refNode: number, f: RecognisedFields) {
-    this.#transistors = transistors;
+    this.#first = transistors[0];
+    this.#second = transistors[1];
+    this.#all = transistors.length > 2 ? transistors : undefined;
     this.#refNode = refNode;
     this.id = f.id;
     this.kind = f.kind;
@@ -291,9 +299,12 @@ export class RecognisedStructure {
     };
   }
 
-  /** The transistors kept with `s`, when recognition made it. */
-  static transistorsOf(s: object): readonly Transistor[] | undefined {
-    return #transistors in s ? (s as RecognisedStructure).#transistors : undefined;
+  /** The transistor kept with `s` for its device `at` (in `devices` order), when recognition made it. */
+  static transistorAt(s: object, at: number): Transistor | undefined {
+    if (!(#first in s)) return undefined;
+    const r = s as RecognisedStructure;
+    if (r.#all !== undefined) return at >= 0 && at < r.#all.length ? r.#all[at] : undefined;
+    return at === 0 ? r.#first : at === 1 ? r.#second : undefined;
   }
 
   /** The reference node's index kept with `s`, or -1. */
@@ -439,8 +450,7 @@ const NO_FEED: readonly number[] = Object.freeze([]);
  * outside the list). A hint only: `Topology.transistorNamed` takes it when it is that topology's view of the name.
  */
 export function recognisedTransistor(s: Structure, at: number): Transistor | undefined {
-  const list = RecognisedStructure.transistorsOf(s);
-  return list !== undefined && at >= 0 && at < list.length ? list[at] : undefined;
+  return RecognisedStructure.transistorAt(s, at);
 }
 
 /** The node index recognition found for `s.reference.node`, or -1: a hint for `Topology.nodeNamed`. */
