@@ -874,7 +874,9 @@ class Elaborator {
       }
       if (spec.silent.includes('*') || spec.silent.includes(key)) continue;
       const accepted = spec.used.length > 0 ? `; it reads ${spec.used.join(', ')}` : '; it reads no instance parameters';
-      this.sink.add('element-unknown-parameter', `\`${a.name.text}\` is not a parameter of ${describeLetter(card.letter)}${accepted}. It is ignored.`, uri, a.name.span, undefined, {
+      // A resistor's tolerance has a notation of its own, a comment after the card: say it where it was looked for.
+      const tolerance = card.letter === 'R' && (key === 'TOL' || key === 'TOLERANCE') ? ` A resistor's tolerance is written after the card as a comment: \`; tol 1%\`.` : '';
+      this.sink.add('element-unknown-parameter', `\`${a.name.text}\` is not a parameter of ${describeLetter(card.letter)}${accepted}. It is ignored.${tolerance}`, uri, a.name.span, undefined, {
         parameter: key,
         known: spec.used,
       });

@@ -209,6 +209,12 @@ describe('values and sources', () => {
     });
   });
 
+  it('says how a resistor tolerance is written when a card gives it as a parameter', () => {
+    check(`tolerance as a parameter\nV1 a 0 5\nR1 a 0 1k tol=1%\n`, {
+      findings: [{ code: 'element-unknown-parameter', at: { in: 'R1 a 0 1k tol=1%', text: 'tol' }, message: /It is ignored\. A resistor's tolerance is written after the card as a comment: `; tol 1%`\.$/ }],
+    });
+  });
+
   it('rejects an expression used as a node name', () => {
     check(`node\n.param n=1\nV1 a 0 5\nR1 a {n} 1k\n`, { findings: [{ code: 'node-name-invalid', at: '{n}' }], elements: { R1: null } });
   });
