@@ -14,6 +14,7 @@ import type { StartupResult, Structure } from '../structures/types';
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { cornerScope, cornerSourceValues, cornerSpecs, processCornerParameters, supplySources } from './corners';
 import { nameTable } from '../names';
+import { cardTnomC } from '../devices/physics';
 
 /** Finding codes this module owns, with their default severity and a one-line summary for the README. */
 export const STARTUP_CODES: Record<string, { severity: Severity; summary: string }> = {
@@ -403,7 +404,7 @@ function offVoltage(t: Transistor, loopI: number, temperatureC: number, circuit:
   if (t.element.kind === 'M') return Math.max(polaritySign(t.tech) * (p.VTO ?? 0), 0) + 1e-3;
   // A JFET's channel is off at or below its pinch-off voltage, which keeps the device's own sense (negative for a depletion device).
   if (t.element.kind === 'J') return Number.isFinite(p.VTO) ? p.VTO : -2;
-  const is = isAtTemperature(p.IS > 0 ? p.IS : 1e-16, temperatureC, circuit.tnomC, p.XTI ?? 3, p.EG ?? 1.11) * t.scale;
+  const is = isAtTemperature(p.IS > 0 ? p.IS : 1e-16, temperatureC, cardTnomC(p, circuit.tnomC), p.XTI ?? 3, p.EG ?? 1.11) * t.scale;
   const nVt = (p.NF > 0 ? p.NF : 1) * thermalVolts(temperatureC);
   const target = Math.max(loopI, 1e-9) * OFF_FRACTION;
   return Math.min(Math.max(nVt * Math.log(target / is + 1), 1e-3), 0.4);

@@ -23,6 +23,7 @@ import type { Structure, StructureOutput, StructureRole } from '../structures/ty
 import type { Finding, RelatedLocation, Severity } from '../types';
 import { pushAll, maxOf, minOf } from '../arrays';
 import { nameTable } from '../names';
+import { cardTnomC } from '../devices/physics';
 
 export { measureStructure } from '../structures/measure';
 export type { Measurement } from '../structures/measure';
@@ -959,10 +960,9 @@ class StructureCheck implements ResistanceContext {
     const pr = ref.element.model.params;
     const pt = t.element.model.params;
     const T = this.temperatureC;
-    const tn = this.circuit.tnomC;
     if (this.bipolar) {
-      const isR = isAtTemperature(pr.IS ?? 1e-16, T, tn, pr.XTI ?? 3, pr.EG ?? 1.11);
-      const isT = isAtTemperature(pt.IS ?? 1e-16, T, tn, pt.XTI ?? 3, pt.EG ?? 1.11);
+      const isR = isAtTemperature(pr.IS ?? 1e-16, T, cardTnomC(pr, this.circuit.tnomC), pr.XTI ?? 3, pr.EG ?? 1.11);
+      const isT = isAtTemperature(pt.IS ?? 1e-16, T, cardTnomC(pt, this.circuit.tnomC), pt.XTI ?? 3, pt.EG ?? 1.11);
       // Same VBE: IC scales with IS(T); the NF difference scales the exponent.
       const vbe = this.est?.vControl ?? 0.65;
       const vt = thermalVolts(T);

@@ -7,7 +7,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, SolveConditions, TEMPERATURE_PARAMETER, allocateSensitivity, columnsOverwritten, deviceKind } from './device';
 import type { ParamIssue, ParamRule } from './params';
 import { elementParam, ModelReads } from './params';
-import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, shiftJunction, sameNumber, thermalVoltage, unbounded } from './physics';
+import { BOLTZMANN, ELEMENTARY_CHARGE, EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, cardTnomC, saturationCurrentAt, shiftJunction, sameNumber, thermalVoltage, tnomOf, unbounded } from './physics';
 
 /**
  * Region by intrinsic junction bias in the device's own polarity (docs/DEVICE-MODELS.md):
@@ -474,6 +474,8 @@ export class BjtTable implements DeviceTable {
   private readonly xti: Float64Array;
   private readonly xtb: Float64Array;
   private readonly eg: Float64Array;
+  /** The card's own TNOM, °C (NaN: the analysis's nominal temperature). */
+  private readonly tnom: Float64Array;
   private readonly nf: Float64Array;
   private readonly nr: Float64Array;
   private readonly ne: Float64Array;
@@ -510,6 +512,7 @@ export class BjtTable implements DeviceTable {
     this.xti = col();
     this.xtb = col();
     this.eg = col();
+    this.tnom = col();
     this.nf = col();
     this.nr = col();
     this.ne = col();
@@ -545,6 +548,7 @@ export class BjtTable implements DeviceTable {
       this.xti[i] = mp[M_XTI];
       this.xtb[i] = mp[M_XTB];
       this.eg[i] = mp[M_EG];
+      this.tnom[i] = cardTnomC(md.params, NaN);
       this.nf[i] = mp[M_NF];
       this.nr[i] = mp[M_NR];
       this.ne[i] = mp[M_NE];
@@ -599,10 +603,12 @@ export class BjtTable implements DeviceTable {
     // Instances of one model follow each other with the same nominal values: the temperature laws
     // (a power, an exponential and two logarithms each) are worked out again only when one changes.
     let lastXtb = this.n > 0 ? this.xtb[0] : 0;
-    let f = bjtTemperatureFactors(c.temperatureC, c.tnomC, lastXtb);
+    let lastTnom = this.n > 0 ? tnomOf(this.tnom[0], c.tnomC) : c.tnomC;
+    let f = bjtTemperatureFactors(c.temperatureC, lastTnom, lastXtb);
     let lastIs = NaN;
     let lastXti = NaN;
     let lastEg = NaN;
+    let lastIsTnom = NaN;
     let is = 0;
     let lastNf = NaN;
     let lastNr = NaN;
@@ -611,16 +617,19 @@ export class BjtTable implements DeviceTable {
     for (let i = 0; i < this.n; i++) {
       const o = i * PARAMS;
       const isNom = this.isNom[i];
-      const isChanged = !(sameNumber(isNom, lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg);
+      const tn = tnomOf(this.tnom[i], c.tnomC);
+      const isChanged = !(sameNumber(isNom, lastIs) && this.xti[i] === lastXti && this.eg[i] === lastEg && tn === lastIsTnom);
       if (isChanged) {
-        is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+        is = saturationCurrentAt(isNom, this.xti[i], this.eg[i], c.temperatureC, tn);
         lastIs = isNom;
         lastXti = this.xti[i];
         lastEg = this.eg[i];
+        lastIsTnom = tn;
       }
-      if (!(this.xtb[i] === lastXtb)) {
-        f = bjtTemperatureFactors(c.temperatureC, c.tnomC, this.xtb[i]);
+      if (!(this.xtb[i] === lastXtb && tn === lastTnom)) {
+        f = bjtTemperatureFactors(c.temperatureC, tn, this.xtb[i]);
         lastXtb = this.xtb[i];
+        lastTnom = tn;
       }
       const ratio = isNom > 0 ? is / isNom : 1;
       par[o + P_IS] = is;
@@ -699,20 +708,23 @@ export class BjtTable implements DeviceTable {
    * `startVt`): each forward junction moved to the voltage that carries the same current at this solve's temperature.
    */
   private temperatureStart(temperatureC: number, startVt: number): void {
-    const { par, startVbe, startVbc, vbeOld, vbcOld, isNom, xti, eg, nf, nr } = this;
+    const { par, startVbe, startVbc, vbeOld, vbcOld, isNom, xti, eg, tnom, nf, nr } = this;
     // IS at the guess's temperature, worked out again only when the nominal values change (as in `prepare`).
     let lastIs = NaN;
     let lastXti = NaN;
     let lastEg = NaN;
+    let lastTnom = NaN;
     let is0 = 0;
     for (let i = 0; i < this.n; i++) {
       const is = par[i * PARAMS + P_IS];
       if (!(is > 0)) continue;
-      if (!(sameNumber(isNom[i], lastIs) && xti[i] === lastXti && eg[i] === lastEg)) {
-        is0 = saturationCurrentAt(isNom[i], xti[i], eg[i], temperatureC, this.tnomC);
+      const tn = tnomOf(tnom[i], this.tnomC);
+      if (!(sameNumber(isNom[i], lastIs) && xti[i] === lastXti && eg[i] === lastEg && tn === lastTnom)) {
+        is0 = saturationCurrentAt(isNom[i], xti[i], eg[i], temperatureC, tn);
         lastIs = isNom[i];
         lastXti = xti[i];
         lastEg = eg[i];
+        lastTnom = tn;
       }
       const vbe = vbeOld[i];
       const vbc = vbcOld[i];
@@ -932,7 +944,7 @@ export class BjtTable implements DeviceTable {
             a = by[2 * BY_LN_IS] / card;
             b = by[2 * BY_LN_IS + 1] / card;
           } else {
-            const f = this.scale[i] * saturationCurrentAt(1, this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+            const f = this.scale[i] * saturationCurrentAt(1, this.xti[i], this.eg[i], c.temperatureC, tnomOf(this.tnom[i], c.tnomC));
             a = by[2 * BY_IS] * f;
             b = by[2 * BY_IS + 1] * f;
           }

@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, saturationCurrentAt, saturationCurrentLogSlope, shiftJunction } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, reciprocalOrUnbounded, cardTnomC, saturationCurrentAt, saturationCurrentLogSlope, shiftJunction, tnomOf } from './physics';
 
 /** Current and conductance of the intrinsic junction at voltage vd. */
 export interface DiodeJunction {
@@ -71,6 +71,8 @@ export class DiodeTable implements DeviceTable {
   private readonly ibv: Float64Array;
   private readonly nbv: Float64Array;
   private readonly tbv1: Float64Array;
+  /** The card's own TNOM, °C (NaN: the analysis's nominal temperature). */
+  private readonly tnom: Float64Array;
   /** Series conductance, siemens (0 without RS). */
   private readonly grs: Float64Array;
   private readonly is: Float64Array;
@@ -97,6 +99,7 @@ export class DiodeTable implements DeviceTable {
     this.ibv = col();
     this.nbv = col();
     this.tbv1 = col();
+    this.tnom = col();
     this.grs = col();
     this.is = col();
     this.nvt = col().fill(0.025);
@@ -121,6 +124,7 @@ export class DiodeTable implements DeviceTable {
       this.ibv[i] = modelParam(element, m, 'IBV', 'positive', issues) * scale;
       this.nbv[i] = modelParam(element, m, 'NBV', 'positive', issues);
       this.tbv1[i] = modelParam(element, m, 'TBV1', 'finite', issues);
+      this.tnom[i] = cardTnomC(m.params, NaN);
       const rs = modelParam(element, m, 'RS', 'non-negative', issues);
       const internal = t[i * T + JA] !== t[i * T + ANODE];
       this.grs[i] = internal && rs > 0 && scale > 0 ? scale / rs : 0;
@@ -131,10 +135,11 @@ export class DiodeTable implements DeviceTable {
     this.gmin = c.junctionGmin;
     this.tnomC = c.tnomC;
     for (let i = 0; i < this.n; i++) {
-      this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+      const tn = tnomOf(this.tnom[i], c.tnomC);
+      this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, tn);
       this.nvt[i] = this.nEmission[i] * c.vt;
       this.vcrit[i] = criticalVoltage(this.nvt[i], this.is[i]);
-      const bv = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], c.temperatureC, c.tnomC);
+      const bv = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], c.temperatureC, tn);
       // A coefficient that drives BV to zero or below leaves no breakdown voltage to speak of; the term is dropped.
       this.bv[i] = bv > 0 && this.ibv[i] > 0 ? bv : Infinity;
       this.nbvvt[i] = this.nbv[i] * c.vt;
@@ -159,11 +164,11 @@ export class DiodeTable implements DeviceTable {
       if (!start || !(is > 0)) continue;
       if (start.kind === 'cold') this.startVd[i] = Math.min(this.vcrit[i], 1);
       else if (vd > 0) {
-        const is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, this.tnomC);
+        const is0 = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], start.temperatureC, tnomOf(this.tnom[i], this.tnomC));
         this.startVd[i] = shiftJunction(vd, this.nEmission[i] * start.vt, this.nvt[i], is0, is);
       } else if (Number.isFinite(this.bv[i])) {
         // In breakdown the reverse voltage follows BV(T) at constant current.
-        const bv0 = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], start.temperatureC, this.tnomC);
+        const bv0 = breakdownVoltageAt(this.bvNom[i], this.tbv1[i], start.temperatureC, tnomOf(this.tnom[i], this.tnomC));
         if (bv0 > 0 && vd < -0.5 * bv0) this.startVd[i] = vd - (this.bv[i] - bv0);
       }
     }

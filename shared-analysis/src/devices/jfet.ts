@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, saturationCurrentAt, saturationCurrentLogSlope, unbounded } from './physics';
+import { EXP_ARG_LIMIT, UNBOUNDED, ZERO_CELSIUS_K, criticalVoltage, guardedExpSlope, guardedExpValue, limitJunctionValue, cardTnomC, saturationCurrentAt, saturationCurrentLogSlope, tnomOf, unbounded } from './physics';
 
 /** Channel parameters of one JFET at the solve's temperature, own polarity. */
 export interface JfetParams {
@@ -141,6 +141,8 @@ export class JfetTable implements DeviceTable {
   private readonly nEmission: Float64Array;
   private readonly xti: Float64Array;
   private readonly eg: Float64Array;
+  /** The card's own TNOM, °C (NaN: the analysis's nominal temperature). */
+  private readonly tnom: Float64Array;
   private readonly beta: Float64Array;
   private readonly vto: Float64Array;
   private readonly is: Float64Array;
@@ -167,6 +169,7 @@ export class JfetTable implements DeviceTable {
     this.nEmission = col();
     this.xti = col();
     this.eg = col();
+    this.tnom = col();
     this.beta = col();
     this.vto = col();
     this.is = col();
@@ -193,6 +196,7 @@ export class JfetTable implements DeviceTable {
       this.nEmission[i] = modelParam(element, md, 'N', 'positive', issues);
       this.xti[i] = modelParam(element, md, 'XTI', 'finite', issues);
       this.eg[i] = modelParam(element, md, 'EG', 'finite', issues);
+      this.tnom[i] = cardTnomC(md.params, NaN);
     }
     this.beta.set(this.betaNom);
     this.vto.set(this.vtoNom);
@@ -206,10 +210,11 @@ export class JfetTable implements DeviceTable {
   prepare(c: DeviceConditions): void {
     this.gmin = c.junctionGmin;
     for (let i = 0; i < this.n; i++) {
-      const t = jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, c.tnomC);
+      const tn = tnomOf(this.tnom[i], c.tnomC);
+      const t = jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, tn);
       this.beta[i] = this.betaNom[i] * t.betaFactor;
       this.vto[i] = t.vto;
-      this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, c.tnomC);
+      this.is[i] = saturationCurrentAt(this.isNom[i], this.xti[i], this.eg[i], c.temperatureC, tn);
       this.nvt[i] = this.nEmission[i] * c.vt;
       this.vcrit[i] = criticalVoltage(this.nvt[i], this.is[i]);
     }
@@ -481,7 +486,7 @@ export class JfetTable implements DeviceTable {
         let dD: number;
         let dG = 0;
         if (p === 'VTO') dD = -byVgs;
-        else if (p === 'BETA') dD = perBeta * this.betaScale[i] * jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, c.tnomC).betaFactor;
+        else if (p === 'BETA') dD = perBeta * this.betaScale[i] * jfetTemperature(this.vtoNom[i], this.vtotc[i], this.betatce[i], c.temperatureC, tnomOf(this.tnom[i], c.tnomC)).betaFactor;
         else {
           const jd = junctionPerK(vgd, ejd);
           dD = -byVgs * this.vtotc[i] + perBeta * beta * this.betatce[i] * Math.log(1.01) - jd;

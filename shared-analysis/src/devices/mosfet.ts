@@ -6,7 +6,7 @@ import type { DeviceColumns, DeviceConditions, DeviceInstances, DeviceKind, Devi
 import { NOT_OVERDRIVEN, TEMPERATURE_PARAMETER, allocateSensitivity, columnsFor, deviceKind } from './device';
 import type { ParamIssue } from './params';
 import { elementParam, modelParam } from './params';
-import { UNBOUNDED, ZERO_CELSIUS_K, limitChannelValue, limitGateValue, unbounded } from './physics';
+import { UNBOUNDED, ZERO_CELSIUS_K, cardTnomC, limitChannelValue, limitGateValue, tnomOf, unbounded } from './physics';
 
 /** Level-1 parameters of one device, own polarity (for PMOS `vto` is already sign-flipped). */
 export interface MosParams {
@@ -169,6 +169,8 @@ export class MosfetTable implements DeviceTable {
   private readonly vtoNom: Float64Array;
   private readonly bex: Float64Array;
   private readonly tcv: Float64Array;
+  /** The card's own TNOM, °C (NaN: the analysis's nominal temperature). */
+  private readonly tnom: Float64Array;
   /** W·M/L (β per unit of KP), W and L as used. */
   private readonly betaPerKp: Float64Array;
   private readonly w: Float64Array;
@@ -195,6 +197,7 @@ export class MosfetTable implements DeviceTable {
     this.vtoNom = col();
     this.bex = col();
     this.tcv = col();
+    this.tnom = col();
     this.betaPerKp = col();
     this.w = col();
     this.l = col();
@@ -225,6 +228,7 @@ export class MosfetTable implements DeviceTable {
       this.vtoNom[i] = sign * modelParam(element, md, 'VTO', 'finite', issues);
       this.bex[i] = modelParam(element, md, 'BEX', 'finite', issues);
       this.tcv[i] = modelParam(element, md, 'TCV', 'finite', issues);
+      this.tnom[i] = cardTnomC(md.params, NaN);
       this.lambda[i] = modelParam(element, md, 'LAMBDA', 'non-negative', issues);
       this.gamma[i] = modelParam(element, md, 'GAMMA', 'non-negative', issues);
       this.phi[i] = modelParam(element, md, 'PHI', 'positive', issues);
@@ -241,7 +245,7 @@ export class MosfetTable implements DeviceTable {
   prepare(c: DeviceConditions): void {
     this.gmin = c.junctionGmin;
     for (let i = 0; i < this.n; i++) {
-      const t = mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, c.tnomC);
+      const t = mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, tnomOf(this.tnom[i], c.tnomC));
       this.beta[i] = this.betaNom[i] * t.kpFactor;
       this.vto[i] = t.vto;
     }
@@ -429,7 +433,7 @@ export class MosfetTable implements DeviceTable {
     const ev = this.scratch;
     const gmin = this.gmin;
     const tk = c.temperatureC + ZERO_CELSIUS_K;
-    const kpFactor = (i: number): number => mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, c.tnomC).kpFactor;
+    const kpFactor = (i: number): number => mosTemperature(this.vtoNom[i], this.bex[i], this.tcv[i], c.temperatureC, tnomOf(this.tnom[i], c.tnomC)).kpFactor;
     for (let i = 0; i < n; i++) {
       const s = this.sign[i];
       const vs = voltage(x, t[i * T + S]);

@@ -27,6 +27,9 @@ const TEMPERATURE_IS: ModelParameterInfo[] = [
   { name: 'EG', meaning: 'band-gap energy used for the temperature dependence of IS', unit: 'eV', default: 1.11, core: true },
 ];
 
+/** The card's nominal temperature: every temperature law of its device runs from it (docs/DEVICE-MODELS.md). */
+const NOMINAL_TEMPERATURE: ModelParameterInfo = { name: 'TNOM', meaning: "temperature at which the card's parameters hold; the analysis's nominal temperature (.option tnom, 27 °C) when not given", unit: '°C' };
+
 const BJT: ModelParameterInfo[] = [
   { name: 'IS', meaning: 'transport saturation current', unit: 'A', default: 1e-16, core: true },
   { name: 'BF', meaning: 'ideal forward current gain (peak beta)', unit: '', default: 100, core: true },
@@ -46,6 +49,7 @@ const BJT: ModelParameterInfo[] = [
   { name: 'RC', meaning: 'collector resistance', unit: 'Ω', default: 0 },
   ...TEMPERATURE_IS,
   { name: 'XTB', meaning: 'temperature exponent of beta (BF, BR)', unit: '', default: 0 },
+  NOMINAL_TEMPERATURE,
   { name: 'MATCHVBE', meaning: 'σ of the VBE difference of two unit devices at equal current, for the spread analysis (docs/VARIATION.md; 0.5 mV when not given)', unit: 'V' },
   { name: 'MATCHBF', meaning: 'relative σ of the β difference of two unit devices, for the spread analysis (1 % when not given)', unit: '' },
 ];
@@ -59,6 +63,7 @@ const DIODE: ModelParameterInfo[] = [
   { name: 'NBV', meaning: 'breakdown emission coefficient (sharpness of the knee)', unit: '', default: 1 },
   { name: 'TBV1', meaning: 'first-order temperature coefficient of BV', unit: '1/K', default: 0 },
   ...TEMPERATURE_IS,
+  NOMINAL_TEMPERATURE,
 ];
 
 const MOS: ModelParameterInfo[] = [
@@ -69,6 +74,7 @@ const MOS: ModelParameterInfo[] = [
   { name: 'PHI', meaning: 'surface potential', unit: 'V', default: 0.6, core: true },
   { name: 'BEX', meaning: 'temperature exponent of KP (mobility)', unit: '', default: -1.5 },
   { name: 'TCV', meaning: 'fall of the threshold magnitude per kelvin', unit: 'V/K', default: 1e-3 },
+  NOMINAL_TEMPERATURE,
   { name: 'LEVEL', meaning: 'model level; levels above 1 are solved with the level-1 law after mapping VTH0, U0, TOX (or TOXE), K1', unit: '', default: 1 },
   { name: 'VTH0', meaning: 'threshold voltage of a higher-level model (read as VTO)', unit: 'V' },
   { name: 'U0', meaning: 'low-field mobility of a higher-level model (cm²/V·s when above 1, else m²/V·s)', unit: 'cm²/V·s' },
@@ -92,6 +98,7 @@ const JFET: ModelParameterInfo[] = [
   { name: 'VTOTC', meaning: 'temperature coefficient of VTO', unit: 'V/K', default: 0 },
   { name: 'BETATCE', meaning: 'temperature coefficient of BETA, percent per kelvin', unit: '%/K', default: 0 },
   ...TEMPERATURE_IS,
+  NOMINAL_TEMPERATURE,
   { name: 'SPREADVTO', meaning: 'σ of the pinch-off voltage from one part to the next, as a fraction of |VTO|, for the spread analysis (docs/VARIATION.md; 0.25 when not given)', unit: '' },
   { name: 'MATCHVTO', meaning: 'σ of the VTO difference of two matched unit devices, for the spread analysis (5 mV when not given)', unit: 'V' },
   { name: 'MATCHBETA', meaning: 'relative σ of the BETA difference of two matched unit devices, for the spread analysis (2 % when not given)', unit: '' },

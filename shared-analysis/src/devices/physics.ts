@@ -23,6 +23,20 @@ export function saturationCurrentAt(is: number, xti: number, eg: number, tempera
   return is * Math.pow(t / tnom, xti) * Math.exp(((eg * ELEMENTARY_CHARGE) / BOLTZMANN) * (1 / tnom - 1 / t));
 }
 
+/**
+ * The nominal temperature (°C) a model card's parameters hold at: its own TNOM when it gives a usable one, else
+ * `fallback` (the analysis's `.option tnom`, 27 °C by default; NaN for a device table that fills it in later).
+ */
+export function cardTnomC(params: Readonly<Record<string, number>>, fallback: number): number {
+  const t = params['TNOM'];
+  return t !== undefined && Number.isFinite(t) && t > -ZERO_CELSIUS_K ? t : fallback;
+}
+
+/** A device's own nominal temperature (a `cardTnomC` column entry, NaN for none) or the analysis's. */
+export function tnomOf(own: number, analysisTnomC: number): number {
+  return own === own ? own : analysisTnomC;
+}
+
 /** d ln IS(T)/dT of `saturationCurrentAt`, per kelvin: XTI/T + EG·q/(k·T²) (at Tnom too: the law is smooth there). */
 export function saturationCurrentLogSlope(xti: number, eg: number, temperatureC: number): number {
   const t = temperatureC + ZERO_CELSIUS_K;

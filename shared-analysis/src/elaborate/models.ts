@@ -87,6 +87,7 @@ const RULES: Record<string, { ok: (v: number) => boolean; must: string }> = name
   BETA: { ok: (v) => v > 0, must: 'must be greater than 0' },
   RON: { ok: (v) => v > 0, must: 'must be greater than 0' },
   ROFF: { ok: (v) => v > 0, must: 'must be greater than 0' },
+  TNOM: { ok: (v) => v > -273.15, must: 'must be a temperature above absolute zero (−273.15 °C)' },
 });
 
 /** Where and how a model card is being elaborated. */

@@ -10,6 +10,7 @@ import type { Estimate, EstimateStep, Structure } from './types';
 import { pushAll } from '../arrays';
 import { nameTable } from '../names';
 import { recognisedFeed, recognisedRailNode, recognisedRefNode } from './recognised';
+import { cardTnomC } from '../devices/physics';
 
 export type { EstimateAt } from './hand';
 
@@ -287,7 +288,7 @@ class HandAnalysis {
     for (const d of s.devices) {
       if (h.transistor(d) === undefined) continue;
       const p = h.dev(d);
-      const xtb = p.model.given.includes('XTB') && this.at.temperatureC !== this.circuit.tnomC;
+      const xtb = p.model.given.includes('XTB') && this.at.temperatureC !== cardTnomC(p.model.params, this.circuit.tnomC);
       if (p.betaAtCurrent === undefined && !xtb) continue;
       out.push({
         quantity: `β(${d})`,

@@ -11,6 +11,7 @@ import { technologyOfModel } from './technology';
 import { isBipolar, polaritySign, topologyOf, type Topology, type Transistor } from './topology';
 import type { EstimateStep, Structure, StructureRole } from './types';
 import { recognisedTransistor, roleOf } from './recognised';
+import { cardTnomC } from '../devices/physics';
 
 /** Where and how to evaluate the hand analysis. */
 export interface EstimateAt {
@@ -241,8 +242,10 @@ export class Hand {
   private factorsOf(model: Model, letter: Transistor['element']['kind']): ModelFactors {
     const known = modelFactors.get(model);
     const betaScale = this.at.betaScale;
-    if (known && known.temperatureC === this.at.temperatureC && known.tnomC === this.circuit.tnomC && known.betaScale === betaScale && known.sign === this.sign) return known;
-    const f = factorsAt(model, letter, this.at, this.circuit.tnomC, this.vt, this.sign);
+    // The card's own TNOM when it gives one (the solver's devices read it the same way).
+    const tnomC = cardTnomC(model.params, this.circuit.tnomC);
+    if (known && known.temperatureC === this.at.temperatureC && known.tnomC === tnomC && known.betaScale === betaScale && known.sign === this.sign) return known;
+    const f = factorsAt(model, letter, this.at, tnomC, this.vt, this.sign);
     modelFactors.set(model, f);
     return f;
   }

@@ -9,6 +9,7 @@ import { closingGain, loopCoreOf, matchLoopCore, type LoopCore } from '../loops'
 import type { Draft, Matcher } from '../match';
 import { polaritySign, type Transistor } from '../topology';
 import { analysePtat, loopDraft, loopOutputRo, solvePtat } from './ptat-cell';
+import { cardTnomC } from '../../devices/physics';
 
 /** Where the bandgap formulas come from. */
 export const BANDGAP_SOURCE = 'Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4, bandgap-referenced bias; from memory';
@@ -95,7 +96,7 @@ function branchJunction(h: Hand, br: Branch, i: number): { v: number; nf: number
   const eg = Number.isFinite(mp.EG) ? mp.EG : 1.11;
   const xti = Number.isFinite(mp.XTI) ? mp.XTI : 3;
   // Diode IS(T) uses XTI/N and EG/N (the diode law of docs/DEVICE-MODELS.md), area × M scaling.
-  const is = isAtTemperature((mp.IS > 0 ? mp.IS : 1e-14) * (d.area > 0 ? d.area : 1) * (d.m > 0 ? d.m : 1), h.at.temperatureC, h.circuit.tnomC, xti / n, eg / n);
+  const is = isAtTemperature((mp.IS > 0 ? mp.IS : 1e-14) * (d.area > 0 ? d.area : 1) * (d.m > 0 ? d.m : 1), h.at.temperatureC, cardTnomC(mp, h.circuit.tnomC), xti / n, eg / n);
   return { v: n * h.vt * Math.log(i / is + 1), nf: 1, eg: eg / n, xti: xti / n, name: d.name, formula: 'N·VT·ln(I3/IS + 1) (diode law)' };
 }
 

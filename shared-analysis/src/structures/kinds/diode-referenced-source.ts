@@ -10,6 +10,7 @@ import type { Draft, Matcher } from '../match';
 import { polaritySign, type Transistor } from '../topology';
 import type { StructureRole } from '../types';
 import { commonEmitterRo } from './common';
+import { cardTnomC } from '../../devices/physics';
 
 /** Where the formula comes from. */
 export const DIODE_SOURCE = 'Horowitz and Hill, 3rd ed., ch. 2 (zener- and diode-biased transistor current source); Gray, Hurst, Lewis, Meyer, 5th ed., ch. 4; from memory';
@@ -162,11 +163,11 @@ function elementVolts(h: Hand, el: Element, how: StringPart['how'], i: number): 
   if (el.kind === 'D') {
     const scale = (el.area > 0 ? el.area : 1) * (el.m > 0 ? el.m : 1);
     if (how === 'zener') {
-      const bv = param(el, 'BV', Infinity) * (1 + param(el, 'TBV1', 0) * (h.at.temperatureC - h.circuit.tnomC));
+      const bv = param(el, 'BV', Infinity) * (1 + param(el, 'TBV1', 0) * (h.at.temperatureC - cardTnomC(el.model.params, h.circuit.tnomC)));
       const ibv = param(el, 'IBV', 1e-3) * scale;
       return bv + param(el, 'NBV', 1) * h.vt * Math.log(cur / ibv);
     }
-    const is = isAtTemperature(param(el, 'IS', 1e-14), h.at.temperatureC, h.circuit.tnomC, param(el, 'XTI', 3), param(el, 'EG', 1.11)) * scale;
+    const is = isAtTemperature(param(el, 'IS', 1e-14), h.at.temperatureC, cardTnomC(el.model.params, h.circuit.tnomC), param(el, 'XTI', 3), param(el, 'EG', 1.11)) * scale;
     return param(el, 'N', 1) * h.vt * Math.log(cur / is + 1);
   }
   const p = h.dev(el.name);
@@ -239,7 +240,7 @@ function voltages(h: Hand, _state: ChainResult, c: Chain): Record<string, { volt
       const d = x.el;
       if (x.how === 'zener') {
         const bv = param(d, 'BV', Infinity);
-        const bvT = bv * (1 + param(d, 'TBV1', 0) * (h.at.temperatureC - h.circuit.tnomC));
+        const bvT = bv * (1 + param(d, 'TBV1', 0) * (h.at.temperatureC - cardTnomC(d.model.params, h.circuit.tnomC)));
         drift += bv * param(d, 'TBV1', 0) + (v - bvT) / t;
       } else drift += (v - param(d, 'N', 1) * param(d, 'EG', 1.11) - param(d, 'N', 1) * param(d, 'XTI', 3) * h.vt) / t;
     } else if (h.bipolar) {
