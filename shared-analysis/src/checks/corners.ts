@@ -4,7 +4,7 @@ import { float64Column, int32Column, uint8Column } from '../columns';
 import { technologyFacts } from '../structures/technology';
 import type { ResolvedOptions } from '../analysis';
 import type { Circuit, Element } from '../circuit';
-import { formatEngineering, formatPercent } from '../fixes/format';
+import { belowFloor, formatEngineering, formatPercent } from '../fixes/format';
 import type { DcSolver, DcSolveResult } from '../solve/dc';
 import type { SolveOptions } from '../solve/types';
 import { SolveStopped } from '../solve/newton';
@@ -36,7 +36,7 @@ export const CORNER_CODES: Record<string, { severity: Severity; summary: string 
   },
   'corner-current-spread': {
     severity: 'info',
-    summary: 'A mirror output current moves by more than ±20 % of nominal across the corners.',
+    summary: 'A mirror output current moves by more than ±20 % of nominal across the corners (not said of a mirror whose reference carries nothing at nominal: its outputs carry only leakage, and the nominal error says why).',
   },
   'corner-no-convergence': {
     severity: 'info',
@@ -713,6 +713,12 @@ function relatedOf(el: Element): RelatedLocation[] | undefined {
  * Each extreme is the first corner that reaches it (as the corner summary names it); the output's element is looked up and
  * the messages made only when there is a finding.
  */
+/** Whether the structure's reference carries no current at the nominal point (below the noise floor of currents). */
+function referenceOff(s: Structure): boolean {
+  const iref = s.solved?.iref;
+  return iref !== undefined && belowFloor(iref, 'A');
+}
+
 function outputFindings(s: Structure, device: string, elements: { get(name: string): Element | undefined }, nominal: OutputSink, at: number, cols: CornerColumns, o: number, options: ResolvedOptions, converged: number, out: Finding[] | undefined): Finding[] | undefined {
   // An output already out of region (or short of headroom) at nominal is the nominal checks' finding, not a corner one.
   if (nominal.outOfRegion[at] === 1) return out;
@@ -743,7 +749,9 @@ function outputFindings(s: Structure, device: string, elements: { get(name: stri
   const lowHeadroom = outCount === 0 && headroom[minHeadroom] < margin && nominalHeadroom >= margin;
   const low = iout[minCurrent] / nom - 1;
   const high = iout[maxCurrent] / nom - 1;
-  const spread = nom > 0 && (low < -SPREAD_LIMIT || high > SPREAD_LIMIT);
+  // A mirror whose reference carries nothing at nominal (no feed, or a supply that cannot bias it: the nominal checks'
+  // error) has outputs that carry only leakage; how leakage moves across the corners is no spread of a bias current.
+  const spread = nom > 0 && (low < -SPREAD_LIMIT || high > SPREAD_LIMIT) && !referenceOff(s);
   if (outCount === 0 && !lowHeadroom && !spread) return out;
   const el = elements.get(device);
   if (!el) return out;

@@ -59,6 +59,18 @@ ${extra}.model qn npn (IS=1e-16 BF=100)
 .end
 `;
 
+describe('a mirror whose reference carries nothing', () => {
+  // No feed on the reference node: the nominal error says so (reference-unfed); its output's leakage, which moves by
+  // orders of magnitude with temperature, is no bias-current spread to report at the corners.
+  it('gets its nominal error and no corner-current-spread', () => {
+    const text = 'unfed\nVCC vcc 0 5\nQ1 r r 0 QN\nQ2 o r 0 QN\nRL vcc o 1k\n.model QN NPN (IS=1e-15 BF=120)\n.end\n';
+    const a = analyseText(text).analysis;
+    expect(a.findings.map((f) => f.code)).toContain('reference-unfed');
+    expect(a.findings.filter((f) => f.code === 'corner-current-spread')).toEqual([]);
+    // A fed mirror's spread is still reported (the 6k cell below, 'corner-current-spread' among its corner codes).
+  });
+});
+
 describe('addCorners after a first pass without corners', () => {
   it('reports the output that leaves forward-active at a corner, as the one pass does', () =>
     check(cell('6k'), { cornerCodes: ['corner-current-spread', 'corner-output-out-of-region'] }));
