@@ -80,7 +80,9 @@ export function topologyOf(circuit: Circuit): Topology {
  */
 export function followTopology(previous: Circuit, next: Circuit): void {
   const t = cache.get(previous);
-  if (t && !cache.has(next)) cache.set(next, new Topology(next, t));
+  // A view that sees through a package's lead resistance depends on that resistance's value (`seePackageLinks`): a
+  // circuit with one is indexed afresh.
+  if (t && !cache.has(next) && !t.seesPackageLinks) cache.set(next, new Topology(next, t));
 }
 
 /** What a topology shares with one that follows it: everything indexed by position, nothing holding an element. */
@@ -130,6 +132,12 @@ class UniqueTransistorNames implements TransistorNames {
   }
 }
 
+/**
+ * The largest series resistance read as a package's lead or bond resistance (`Topology.seePackageLinks`): a few ohms is
+ * what such links are; a resistor above it is a circuit element (an emitter resistor sets a current).
+ */
+const PACKAGE_LINK_OHMS = 10;
+
 /** Node-to-element incidence and the transistor views of one circuit. */
 export class Topology {
   readonly transistors: Transistor[];
@@ -176,6 +184,8 @@ export class Topology {
   private readonly elementTransistor: Int32Array | undefined;
   /** See `nodesOwnNames`. */
   private ownNodeNames: boolean | undefined = undefined;
+  /** Whether a transistor terminal sits on a package's series link, seen through or not by its value (`seePackageLinks`). */
+  seesPackageLinks = false;
 
   /** `from`: the topology of a circuit this one differs from only in values (see `followTopology`). */
   constructor(
@@ -260,7 +270,89 @@ export class Topology {
     const rowElement = int32Column(connections);
     const rowSlot = uint8Column(connections);
     fillRows(circuit.elements, nodeCount, rowStart, rowElement, rowSlot);
+    if (this.seePackageLinks(transistorElement, rowStart, rowElement, rowSlot)) this.indexViewsAgain();
     return { rowStart, rowElement, rowSlot, nodeIndex, elementIndex, transistorElement, elementTransistor };
+  }
+
+  /**
+   * A discrete transistor's model is often shipped as a subcircuit: the die's transistor with a resistor or inductor in
+   * series with its terminals (lead and bond resistance, lead inductance) on nodes of its own inside the instance. Such a
+   * link hides the transistor's wiring from recognition (a wrapped reference no longer looks diode-connected, two
+   * wrapped outputs share no base node). Here each link is seen through: in an instance holding exactly one transistor
+   * (a package, not a circuit cell, whose emitter resistor would be a design's degeneration), where the transistor's
+   * terminal node lies inside the instance and holds nothing but that terminal and one inductor or resistor of at most
+   * PACKAGE_LINK_OHMS of the same instance (capacitors aside), the view takes the link's far node for that terminal,
+   * and the far node's row lists the transistor's terminal in the link's place. The solve and every figure read from it
+   * keep the real circuit: the views only decide which structures are there and which node voltages describe them
+   * (across a lead resistance the difference is the terminal current times a few ohms). Returns whether a view changed.
+   */
+  private seePackageLinks(transistorElement: Int32Array, rowStart: Int32Array, rowElement: Int32Array, rowSlot: Uint8Array): boolean {
+    const elements = this.circuit.elements;
+    let changed = false;
+    // Transistors per instance (by name prefix): only an instance with one is a package.
+    let perInstance: Map<string, number> | undefined;
+    for (let i = 0; i < this.transistors.length; i++) {
+      const dot = this.transistors[i].name.lastIndexOf('.');
+      if (dot < 0) continue;
+      const prefix = this.transistors[i].name.slice(0, dot + 1);
+      perInstance ??= new Map();
+      perInstance.set(prefix, (perInstance.get(prefix) ?? 0) + 1);
+    }
+    if (!perInstance) return false;
+    for (let i = 0; i < this.transistors.length; i++) {
+      const t = this.transistors[i];
+      const dot = t.name.lastIndexOf('.');
+      if (dot < 0) continue;
+      const prefix = t.name.slice(0, dot + 1);
+      if (perInstance.get(prefix) !== 1) continue;
+      const k = transistorElement[i];
+      for (let slot = 0; slot < 3; slot++) {
+        const n = t.element.nodes[slot];
+        if (n === undefined || n <= 0 || !isNodeOf(n, this.circuit.nodes.length) || !this.circuit.nodes[n].startsWith(prefix)) continue;
+        // The node's other attachment, capacitors aside: exactly one, a two-terminal resistor or inductor of the instance.
+        let link = -1;
+        let own = 0;
+        let other = 0;
+        for (let j = rowStart[n]; j < rowStart[n + 1]; j++) {
+          const e = elements[rowElement[j]];
+          if (rowElement[j] === k) own++;
+          else if (e.kind !== 'C') {
+            other++;
+            link = rowElement[j];
+          }
+        }
+        if (own !== 1 || other !== 1) continue;
+        const l = elements[link];
+        if ((l.kind !== 'R' && l.kind !== 'L') || l.nodes.length !== 2 || !l.name.startsWith(prefix)) continue;
+        // A link whose reading depends on its value: the topology is not followed across value edits (`followTopology`).
+        this.seesPackageLinks = true;
+        if (l.kind === 'R' && !(l.resistance >= 0 && l.resistance <= PACKAGE_LINK_OHMS)) continue;
+        const far = l.nodes[0] === n ? l.nodes[1] : l.nodes[0];
+        if (far === n || !isNodeOf(far, this.circuit.nodes.length)) continue;
+        const farSlot = l.nodes[0] === n ? 1 : 0;
+        for (let j = rowStart[far]; j < rowStart[far + 1]; j++) {
+          if (rowElement[j] !== link || rowSlot[j] !== farSlot) continue;
+          rowElement[j] = k;
+          rowSlot[j] = slot;
+          break;
+        }
+        if (slot === 0) t.out = far;
+        else if (slot === 1) t.ctrl = far;
+        else t.common = far;
+        changed = true;
+      }
+    }
+    return changed;
+  }
+
+  /** The by-control and by-common lists made again after views changed their nodes (`seePackageLinks`). */
+  private indexViewsAgain(): void {
+    this.byCtrl.clear();
+    this.byCommon.clear();
+    for (const t of this.transistors) {
+      push(this.byCtrl, t.ctrl, t);
+      push(this.byCommon, t.common, t);
+    }
   }
 
   /** Each node's connection count into `rowStart[n + 1]` (connections to stray node numbers listed apart); the count of the others. */
