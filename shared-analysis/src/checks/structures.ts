@@ -277,8 +277,6 @@ class StructureCheck implements ResistanceContext {
    */
   private readonly records: (DeviceRecord | null | undefined)[] = [];
   private otherRecords: Map<string, DeviceRecord | undefined> | undefined = undefined;
-  /** Nothing feeds the reference node (`referenceUnfed`). */
-  private unfed = false;
   /** The structure's devices as transistors once looked up (see `t`), at their positions in its device list. */
   private readonly transistors: (Transistor | undefined)[] = [];
   private readonly circuit: Circuit;
@@ -402,11 +400,11 @@ class StructureCheck implements ResistanceContext {
     } finally {
       keepChecked(s, figures, held, { solved: this.solved, headroom, compliance, outputResistance, estimate });
     }
-    this.unfed = this.referenceUnfed();
+    const unfed = this.referenceUnfed();
     // An unfed reference says why the estimate is zero; the leakage the solve carries is no discrepancy to explain.
-    s.discrepancy = this.unfed ? undefined : this.discrepancy();
+    s.discrepancy = unfed ? undefined : this.discrepancy();
 
-    if (this.unfed) this.reportUnfed();
+    if (unfed) this.reportUnfed();
     this.checkStarved();
     this.checkRegions();
     this.checkUnmatched();

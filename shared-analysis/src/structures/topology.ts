@@ -149,7 +149,9 @@ export class Topology {
   readonly byCommon: Map<number, Transistor[]>;
   /**
    * The incidence as compressed rows: node n's connections are the (element index, slot) pairs at
-   * [rowStart[n], rowStart[n + 1]), in element order and then slot order. `at` makes the list of
+   * [rowStart[n], rowStart[n + 1]), in element order and then slot order, except where a package's lead is seen
+   * through (`seePackageLinks`: the transistor's terminal takes the lead's place in the far node's row); readers scan
+   * a row, none relies on its order. `at` makes the list of
    * attachments of a node when it is first asked for: most nodes of a large circuit never are.
    */
   private readonly rowStart: Int32Array;
